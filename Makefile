@@ -1,0 +1,28 @@
+# Two entry points for a fresh machine; each builds the virtualenv it needs.
+VENV ?= .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test lint bench clean
+
+$(STAMP): pyproject.toml
+	python3 -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(VENV)/bin/truss-verify demo
+
+test: $(STAMP)
+	$(PY) -m pytest
+
+lint: $(STAMP)
+	$(VENV)/bin/ruff check verify tests bench
+	$(VENV)/bin/mypy verify
+
+bench: $(STAMP)
+	$(PY) bench/run.py
+
+clean:
+	rm -rf $(VENV)

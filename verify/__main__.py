@@ -1,0 +1,3 @@
+from verify.cli import main
+
+main()

@@ -1,0 +1,1 @@
+"""Analyses: pure functions of the model, each returning a complete result object."""

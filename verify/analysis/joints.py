@@ -1,0 +1,232 @@
+"""Method of joints, in the order a hand calculation would take.
+
+Algorithm (shared/REFERENCES.md 2.3, common practice):
+1. If the supports are externally determinate (3 reaction components in 2D, 6 in 3D, not
+   parallel or concurrent), find the reactions from overall equilibrium first, taking moments
+   about the support with the most reaction components.
+2. Repeatedly solve a joint with at most d unknown forces (d = 2 in 2D, 3 in 3D) whose unknown
+   directions are independent. When none is left, a joint with d + 1 unknowns may still give some
+   of them (e.g. the zero-force rule for a joint with two collinear members), which a hand calc
+   also uses.
+3. If unknowns remain (compound or complex trusses), say so and solve the rest simultaneously.
+
+The order depends only on geometry, so it is found once and applied to every load column.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse.linalg as spla
+
+from verify.analysis.equilibrium import assemble_equilibrium
+from verify.analysis.forces import ForceResult
+from verify.model import Model
+
+DEPENDENT_RTOL = 1e-9  # relative singular value below which unknown directions are dependent
+
+
+@dataclass(frozen=True)
+class JointStep:
+    """One step of the hand calc: solve `unknowns` (columns of t) from the equations of `joints`."""
+
+    kind: str  # "reactions" | "joint" | "simultaneous"
+    joints: tuple[str, ...]
+    unknowns: tuple[int, ...]  # indices into t = [member forces; reactions]
+    partial: bool = False  # some unknowns at this joint stay for later steps
+
+
+@dataclass(frozen=True)
+class JointSolution:
+    forces: ForceResult
+    steps: tuple[JointStep, ...]
+    reactions_first: bool
+    moment_point: tuple[float, ...] | None  # where overall moments were taken, if reactions first
+    moment_joint: str | None
+    stalled: bool  # a simultaneous solve was needed
+    max_residual: float  # largest out-of-balance force over all joint equations
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def order(self) -> list[str]:
+        return [j for s in self.steps if s.kind == "joint" for j in s.joints]
+
+
+def overall_equilibrium_matrix(model: Model, point: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Rows of overall equilibrium (forces, then moments about `point`) for reactions and loads.
+
+    Returns (G, E) with G: equations x reactions and E: equations x load columns, so that the
+    reactions R satisfy G R + E = 0.
+    """
+    d = model.dim
+    rows = 3 if d == 2 else 6
+    G = np.zeros((rows, len(model.reactions)))
+    for k, reaction in enumerate(model.reactions):
+        p = model.xyz[model.joint_index[reaction.joint]] - point
+        n = np.asarray(reaction.direction)
+        G[:d, k] = n
+        G[d:, k] = _moment(p, n)
+    F = model.load_matrix()
+    E = np.zeros((rows, F.shape[1]))
+    rel = model.xyz - point
+    for axis in range(d):
+        E[axis] = F[axis::d].sum(axis=0)
+    if d == 2:
+        E[2] = (rel[:, 0:1] * F[1::2] - rel[:, 1:2] * F[0::2]).sum(axis=0)
+    else:
+        fx, fy, fz = F[0::3], F[1::3], F[2::3]
+        x, y, z = rel[:, 0:1], rel[:, 1:2], rel[:, 2:3]
+        E[3] = (y * fz - z * fy).sum(axis=0)
+        E[4] = (z * fx - x * fz).sum(axis=0)
+        E[5] = (x * fy - y * fx).sum(axis=0)
+    return G, E
+
+
+def _moment(p: np.ndarray, n: np.ndarray) -> np.ndarray:
+    if len(p) == 2:
+        return np.array([p[0] * n[1] - p[1] * n[0]])
+    return np.cross(p, n)
+
+
+def solve_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
+    """Reactions from overall equilibrium when the supports are externally determinate."""
+    rows = 3 if model.dim == 2 else 6
+    if len(model.reactions) != rows:
+        return None
+    counts: dict[str, int] = {}
+    for reaction in model.reactions:
+        counts[reaction.joint] = counts.get(reaction.joint, 0) + 1
+    pivot_joint = max(counts, key=lambda j: (counts[j], -model.joint_index[j]))
+    point = model.xyz[model.joint_index[pivot_joint]]
+    G, E = overall_equilibrium_matrix(model, point)
+    s = np.linalg.svd(G, compute_uv=False)
+    if s.min() <= DEPENDENT_RTOL * s.max():
+        return None  # parallel or concurrent supports: the reactions cannot come first
+    R = np.linalg.solve(G, -E)
+    return R, point, pivot_joint
+
+
+def solve_joints(model: Model) -> JointSolution:
+    """Member forces and reactions by the method of joints, with the steps a hand calc takes."""
+    d = model.dim
+    b = len(model.members)
+    r = len(model.reactions)
+    n_unknowns = b + r
+    F = model.load_matrix()
+    ncols = F.shape[1]
+    t = np.full((n_unknowns, ncols), np.nan)
+    known = np.zeros(n_unknowns, dtype=bool)
+    steps: list[JointStep] = []
+    notes: list[str] = []
+
+    first = solve_reactions(model)
+    moment_point = moment_joint = None
+    if first is not None:
+        R, point, moment_joint = first
+        t[b:] = R
+        known[b:] = True
+        moment_point = tuple(float(x) for x in point)
+        steps.append(JointStep("reactions", (moment_joint,), tuple(range(b, b + r))))
+    elif r:
+        notes.append(
+            f"the {r} reaction components cannot all be found from overall equilibrium "
+            f"({'more than ' + str(3 if d == 2 else 6) if r > (3 if d == 2 else 6) else 'parallel or concurrent'}); "
+            "they are solved with the joints"
+        )
+
+    # Incidence: for every joint, the columns acting on it and their direction vectors.
+    n_j = len(model.joints)
+    cols_at: list[list[int]] = [[] for _ in range(n_j)]
+    for i, (s_idx, e_idx) in enumerate(model.ends_index.tolist()):
+        cols_at[s_idx].append(i)
+        cols_at[e_idx].append(i)
+    for k, reaction in enumerate(model.reactions):
+        cols_at[model.joint_index[reaction.joint]].append(b + k)
+    u = model.unit_vectors
+    r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
+    ends = model.ends_index
+
+    def coef(joint: int, col: int) -> np.ndarray:
+        if col >= b:
+            return r_dir[col - b]
+        return u[col] if ends[col, 0] == joint else -u[col]
+
+    unknown_count = np.array([sum(1 for c in cols if not known[c]) for cols in cols_at], dtype=np.int64)
+    primary: deque[int] = deque(j for j in range(n_j) if 0 < unknown_count[j] <= d)
+    secondary: deque[int] = deque(j for j in range(n_j) if unknown_count[j] == d + 1)
+    tried_partial: set[tuple[int, int]] = set()
+
+    def mark(cols: list[int]) -> None:
+        for c in cols:
+            known[c] = True
+            if c < b:
+                touched = (int(ends[c, 0]), int(ends[c, 1]))
+            else:
+                touched = (model.joint_index[model.reactions[c - b].joint],)
+            for j in touched:
+                unknown_count[j] -= 1
+                if 0 < unknown_count[j] <= d:
+                    primary.append(j)
+                elif unknown_count[j] == d + 1:
+                    secondary.append(j)
+
+    while primary or secondary:
+        joint = primary.popleft() if primary else secondary.popleft()
+        cols = cols_at[joint]
+        unknown = [c for c in cols if not known[c]]
+        if not unknown or len(unknown) > d + 1:
+            continue
+        if len(unknown) == d + 1:
+            key = (joint, int(unknown_count[joint]))
+            if key in tried_partial:
+                continue
+            tried_partial.add(key)
+        M = np.column_stack([coef(joint, c) for c in unknown])
+        rhs = -F[joint * d : (joint + 1) * d].copy()
+        for c in cols:
+            if known[c]:
+                rhs -= np.outer(coef(joint, c), t[c])
+        # Which unknowns does this joint determine? Those with no component in null(M).
+        _, sv, vh = np.linalg.svd(M)
+        rank = int((sv > DEPENDENT_RTOL * max(sv.max(), 1e-300)).sum())
+        null = vh[rank:]
+        determined = [k for k in range(len(unknown)) if null.size == 0 or np.abs(null[:, k]).max() < 1e-9]
+        if not determined:
+            continue
+        solution = np.linalg.pinv(M) @ rhs
+        chosen = [unknown[k] for k in determined]
+        t[chosen] = solution[determined]
+        steps.append(JointStep("joint", (model.joints[joint].id,), tuple(chosen), partial=len(chosen) < len(unknown)))
+        mark(chosen)
+
+    stalled = not known.all()
+    if stalled:
+        rest = np.nonzero(~known)[0]
+        A = assemble_equilibrium(model)
+        rows_needed = np.unique(A[:, rest].nonzero()[0])
+        sub = A[rows_needed][:, rest].tocsc()
+        rhs = -F[rows_needed] - A[rows_needed][:, known] @ np.nan_to_num(t[known])
+        joints_involved = sorted({int(x) // d for x in rows_needed})
+        if sub.shape[0] == sub.shape[1]:
+            solution = spla.splu(sub).solve(rhs)
+        elif min(sub.shape) <= 3000:
+            solution = np.linalg.lstsq(sub.toarray(), rhs, rcond=None)[0]
+        else:
+            normal = (sub.T @ sub).tocsc()
+            solution = spla.splu(normal).solve(sub.T @ rhs)
+        t[rest] = solution.reshape(len(rest), -1)
+        steps.append(JointStep("simultaneous", tuple(model.joints[j].id for j in joints_involved), tuple(int(c) for c in rest)))
+        notes.append(
+            f"no joint with at most {d} unknowns remains after {sum(1 for s in steps if s.kind == 'joint')} joint(s): "
+            f"{len(rest)} forces at {len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
+        )
+    A = assemble_equilibrium(model)
+    residual = A @ t + F
+    max_residual = float(np.abs(residual).max()) if residual.size else 0.0
+    return JointSolution(
+        forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
+        steps=tuple(steps), reactions_first=first is not None, moment_point=moment_point,
+        moment_joint=moment_joint, stalled=stalled, max_residual=max_residual, notes=tuple(notes),
+    )

@@ -1,0 +1,269 @@
+"""Stability and determinacy: Maxwell's rule and the rank of the equilibrium matrix.
+
+Sources: J.C. Maxwell, Phil. Mag. 27 (1864) 294-299 (counting rule); S. Pellegrino &
+C.R. Calladine, Int. J. Solids Struct. 22(4) (1986) 409-428 (rank, mechanisms m = dj - rank,
+states of self-stress s = b + r - rank, and the SVD bases); S. Pellegrino, IJSS 30(21) (1993).
+
+Small models (up to DENSE_DOF_LIMIT) use a dense SVD, which gives exact counts and the mechanism
+and self-stress bases. Larger ones use sparse LU factorisation (of A when square, else of the
+unit-stiffness matrix A W A^T), whose cost grows gently; they report "at least one mechanism" when
+the factorisation is singular rather than an exact count.
+
+Conditioning figure: rho = sigma_min / sigma_max of A is dimensionless but falls like 1/n^2 on
+long, sound trusses (2.5e-2 at 10 panels, 3e-6 at 1000; shared/PERFORMANCE.md). We therefore judge
+the *scaled* figure rho * S^2, with S the slenderness (model extent / median member length), which
+stays near 2-3 for sound parallel-chord trusses of any length. Calibration (shared/REFERENCES.md
+1.2, two bars sagging by theta: rho ~ 0.54 theta, member force = P / (2 sin theta)): the
+threshold ILL_CONDITIONED_SCALED = 1e-2 corresponds to a sag of about 0.26 degrees, where member
+forces reach about 100 x the load. Our own calibration (common practice: forces two orders of
+magnitude above the loads deserve a second look).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from enum import Enum
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from verify.analysis.equilibrium import assemble_equilibrium, rigid_body_modes
+from verify.model import Model
+
+DENSE_DOF_LIMIT = 1500  # dense SVD at most ~1 s here; above it, sparse LU (PERFORMANCE.md)
+RANK_RTOL = 1e-10  # singular values below RANK_RTOL * sigma_max count as zero
+ILL_CONDITIONED_SCALED = 1e-2  # see module docstring
+LU_PIVOT_SINGULAR = 1e-11  # sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
+MODE_SHARE = 1e-3  # a joint/member takes part in a mode when its share exceeds this fraction
+
+
+class Classification(str, Enum):
+    STABLE_DETERMINATE = "stable-determinate"
+    STABLE_INDETERMINATE = "stable-indeterminate"
+    UNSTABLE = "unstable"
+
+
+@dataclass(frozen=True)
+class MechanismMode:
+    """One independent mechanism: the joints that move and their (normalised) motions."""
+
+    joints: tuple[str, ...]
+    motions: tuple[tuple[float, ...], ...]
+    rigid_body: bool
+
+
+@dataclass(frozen=True)
+class SelfStressMode:
+    """One independent state of self-stress: members (and reactions) and their relative forces."""
+
+    members: tuple[str, ...]
+    values: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class StabilityResult:
+    dim: int
+    joints: int
+    members: int
+    reactions: int
+    rank: int
+    mechanisms: int
+    self_stress: int
+    rigid_body_mechanisms: int
+    classification: Classification
+    method: str  # "dense-svd" or "sparse-lu"
+    exact_counts: bool  # False when the sparse screen can only bound the counts
+    sigma_ratio: float | None  # sigma_min / sigma_max of A (non-trivial), dense method only
+    scaled_ratio: float | None  # sigma_ratio * slenderness^2, or the LU pivot ratio (sparse)
+    slenderness: float
+    ill_conditioned: bool
+    mechanism_modes: tuple[MechanismMode, ...] = ()
+    self_stress_modes: tuple[SelfStressMode, ...] = ()
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def maxwell(self) -> int:
+        """b + r - d*j: negative means at least that many mechanisms (necessary, not sufficient)."""
+        return self.members + self.reactions - self.dim * self.joints
+
+    @property
+    def is_stable(self) -> bool:
+        return self.classification is not Classification.UNSTABLE
+
+    def as_dict(self) -> dict[str, object]:
+        """The DESIGN.md section 4 "structure" object (plus extra fields)."""
+        return {
+            "dim": self.dim,
+            "joints": self.joints,
+            "members": self.members,
+            "reactions": self.reactions,
+            "mechanisms": self.mechanisms,
+            "self_stress": self.self_stress,
+            "classification": self.classification.value,
+            "maxwell_count": self.maxwell,
+            "rank": self.rank,
+            "rigid_body_mechanisms": self.rigid_body_mechanisms,
+            "method": self.method,
+            "exact_counts": self.exact_counts,
+            "sigma_ratio": self.sigma_ratio,
+            "scaled_conditioning": self.scaled_ratio,
+            "slenderness": self.slenderness,
+            "ill_conditioned": self.ill_conditioned,
+            "mechanism_modes": [
+                {"joints": list(m.joints), "motions": [list(v) for v in m.motions], "rigid_body": m.rigid_body}
+                for m in self.mechanism_modes
+            ],
+            "self_stress_modes": [
+                {"members": list(s.members), "values": list(s.values)} for s in self.self_stress_modes
+            ],
+            "notes": list(self.notes),
+        }
+
+
+def slenderness(model: Model) -> float:
+    extent = float(np.ptp(model.xyz, axis=0).max()) if len(model.joints) > 1 else 1.0
+    typical = float(np.median(model.lengths)) if len(model.members) else 1.0
+    return max(extent / typical, 1.0)
+
+
+def _classify(m: int, s: int) -> Classification:
+    if m > 0:
+        return Classification.UNSTABLE
+    return Classification.STABLE_INDETERMINATE if s > 0 else Classification.STABLE_DETERMINATE
+
+
+def solve_stability(model: Model, *, dense_limit: int = DENSE_DOF_LIMIT) -> StabilityResult:
+    """Classify the truss. Never infers stability from a solver not raising: counts come from rank."""
+    A = assemble_equilibrium(model)
+    if model.dofs <= dense_limit and A.shape[1] <= 2 * dense_limit:
+        return _dense(model, A.toarray())
+    return _sparse(model, A)
+
+
+def _labels(model: Model) -> list[str]:
+    return model.member_ids + [f"reaction {r.label}" for r in model.reactions]
+
+
+def _dense(model: Model, A: np.ndarray) -> StabilityResult:
+    dofs, cols = A.shape
+    U, S, Vh = np.linalg.svd(A, full_matrices=True)
+    smax = float(S.max()) if S.size else 0.0
+    tol = max(RANK_RTOL * smax, np.finfo(float).eps * max(dofs, cols) * smax)
+    rank = int((S > tol).sum())
+    m = dofs - rank
+    s = cols - rank
+    slender = slenderness(model)
+    nontrivial = S[:rank]
+    sigma_ratio = float(nontrivial.min() / smax) if rank else 0.0
+    # When rank-deficient, the conditioning of the remaining part still matters, but the verdict
+    # is already "unstable" or "indeterminate"; the figure reported is over the non-zero values.
+    scaled = sigma_ratio * slender**2
+    ill = scaled < ILL_CONDITIONED_SCALED
+    notes: list[str] = []
+
+    # Rigid-body vs internal mechanisms (P&C 1986): rb = rank(R) - rank(C R).
+    R = rigid_body_modes(model.xyz)
+    rank_R = int(np.linalg.matrix_rank(R))
+    if model.reactions:
+        C = np.zeros((len(model.reactions), dofs))
+        for k, reaction in enumerate(model.reactions):
+            i = model.joint_index[reaction.joint]
+            C[k, i * model.dim : (i + 1) * model.dim] = reaction.direction
+        rank_CR = int(np.linalg.matrix_rank(C @ R))
+    else:
+        rank_CR = 0
+    rigid = max(rank_R - rank_CR, 0)
+
+    mech_modes: list[MechanismMode] = []
+    if m:
+        basis = U[:, rank:]
+        mech_modes = [_mechanism(model, basis[:, k], rigid > 0 and k < rigid) for k in range(min(m, 10))]
+        F = model.load_matrix()
+        if F.size:
+            leak = np.abs(basis.T @ F).max(axis=0)
+            scale = np.abs(F).max(axis=0)
+            ok = [name for name, lk, sc in zip(model.load_names, leak, scale, strict=True) if sc > 0 and lk <= 1e-9 * sc]
+            if ok:
+                notes.append("the loads of " + ", ".join(ok) + " happen to be orthogonal to every mechanism, so they can be equilibrated; the truss is still unstable for other loads")
+        if model.dim * len(model.joints) - cols > 0 and m == dofs - cols:
+            notes.append("Maxwell's count alone shows the missing members or supports")
+        elif m > 0 and model.members and cols >= dofs:
+            notes.append("Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or concurrent supports, collinear members, or a critical form)")
+    ss_modes: list[SelfStressMode] = []
+    if s:
+        basis = Vh[rank:, :].T
+        labels = _labels(model)
+        for k in range(min(s, 10)):
+            v = basis[:, k]
+            big = np.abs(v).max()
+            v = v / (v[np.argmax(np.abs(v))] if big else 1.0)
+            idx = np.nonzero(np.abs(v) > MODE_SHARE)[0]
+            ss_modes.append(SelfStressMode(tuple(labels[i] for i in idx), tuple(float(v[i]) for i in idx)))
+        if s > 10:
+            notes.append(f"only the first 10 of {s} self-stress states are listed")
+    if ill and m == 0:
+        notes.append(
+            f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
+            f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
+        )
+    return StabilityResult(
+        dim=model.dim, joints=len(model.joints), members=len(model.members), reactions=len(model.reactions),
+        rank=rank, mechanisms=m, self_stress=s, rigid_body_mechanisms=rigid, classification=_classify(m, s),
+        method="dense-svd", exact_counts=True, sigma_ratio=sigma_ratio, scaled_ratio=scaled,
+        slenderness=slender, ill_conditioned=bool(ill and m == 0),
+        mechanism_modes=tuple(mech_modes), self_stress_modes=tuple(ss_modes), notes=tuple(notes),
+    )
+
+
+def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
+    d = model.dim
+    motion = mode.reshape(-1, d)
+    size = np.linalg.norm(motion, axis=1)
+    top = size.max() if size.size else 0.0
+    idx = np.nonzero(size > MODE_SHARE * top)[0] if top else np.array([], dtype=int)
+    idx = idx[np.argsort(-size[idx])][:20]
+    scale = top or 1.0
+    return MechanismMode(
+        joints=tuple(model.joints[i].id for i in idx),
+        motions=tuple(tuple(float(c) for c in motion[i] / scale) for i in idx),
+        rigid_body=rigid,
+    )
+
+
+def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
+    dofs, cols = A.shape
+    slender = slenderness(model)
+    notes: list[str] = [f"large model ({dofs} joint equations): sparse LU screen instead of a dense SVD"]
+    base = dict(dim=model.dim, joints=len(model.joints), members=len(model.members), reactions=len(model.reactions),
+                method="sparse-lu", sigma_ratio=None, slenderness=slender)
+    if cols < dofs:
+        m = dofs - cols
+        notes.append(f"Maxwell's count shows at least {m} mechanism(s)")
+        return StabilityResult(**base, rank=cols, mechanisms=m, self_stress=0, rigid_body_mechanisms=0,  # type: ignore[arg-type]
+                               classification=Classification.UNSTABLE, exact_counts=False, scaled_ratio=None,
+                               ill_conditioned=False, notes=tuple(notes))
+    if cols == dofs:
+        M = A
+        spec = "COLAMD" if model.dim == 2 else "MMD_ATA"
+    else:
+        # Unit-stiffness matrix A W A^T (W = 1/L): singular exactly when a mechanism exists.
+        w = np.concatenate([1.0 / model.lengths, np.full(len(model.reactions), 1.0 / float(np.median(model.lengths)))])
+        M = (A @ sp.diags(w) @ A.T).tocsc()
+        spec = "COLAMD"
+    try:
+        lu = spla.splu(M, permc_spec=spec)
+        diag = np.abs(lu.U.diagonal())
+        ratio = float(diag.min() / diag.max())
+        singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else LU_PIVOT_SINGULAR**2)
+    except RuntimeError:
+        ratio, singular = 0.0, True
+    if singular:
+        notes.append("the factorisation is singular: at least one mechanism (exact count needs the dense method on a smaller model)")
+        m, rank = 1, dofs - 1
+    else:
+        m, rank = 0, dofs
+    s = cols - rank
+    return StabilityResult(**base, rank=rank, mechanisms=m, self_stress=s, rigid_body_mechanisms=0,  # type: ignore[arg-type]
+                           classification=_classify(m, s), exact_counts=not singular, scaled_ratio=ratio,
+                           ill_conditioned=False, notes=tuple(notes))

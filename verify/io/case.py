@@ -1,0 +1,532 @@
+"""Read a case file (TOML, optionally naming CSV tables) into a validated :class:`Model`.
+
+Every problem in the file is collected and raised together as one :class:`InputError`, each
+located by file and line and naming the field, the value and what was expected.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import tomllib
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from verify.errors import InputError, Problem, ProblemList, did_you_mean
+from verify.io.locate import LineLocator
+from verify.io.numbers import parse_number
+from verify.model import Combination, Joint, LoadCase, Member, Model, Reaction, Units
+from verify.units import Dimension, Unit, lookup_unit
+
+TOP_KEYS = ("title", "units", "joints", "members", "supports", "loads", "combinations", "stiffness", "notes")
+UNIT_KEYS = ("length", "force", "area", "modulus")
+MEMBER_KEYS = ("ends", "EA", "A", "E")
+STIFFNESS_KEYS = ("EA", "A", "E")
+AXES = ("x", "y", "z")
+
+# Area and modulus units for members given as A and E. Factors to m^2 and Pa.
+AREA_UNITS = {"m2": 1.0, "cm2": 1e-4, "mm2": 1e-6, "in2": 0.0254**2, "ft2": 0.3048**2}
+MODULUS_UNITS = {
+    "Pa": 1.0, "kPa": 1e3, "MPa": 1e6, "GPa": 1e9, "N/mm2": 1e6, "kN/m2": 1e3,
+    "psi": 4.4482216152605 / 0.0254**2, "ksi": 4448.2216152605 / 0.0254**2,
+}
+
+# Coincident joints / zero lengths: relative to the model's extent (common practice: coordinates
+# agreeing to 1e-9 of the span are the same point in any drawing).
+COINCIDENT_RTOL = 1e-9
+
+
+@dataclass
+class _Ctx:
+    file: str
+    lines: LineLocator
+    problems: ProblemList
+
+    def add(self, message: str, *path: str, line: int | None = None) -> None:
+        self.problems.add(message, line=line if line is not None else self.lines.line(*path))
+
+
+def read_case(path: str | Path) -> Model:
+    """Read, validate and freeze the case at `path`. Raises InputError listing every problem."""
+    path = Path(path)
+    name = str(path)
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError([Problem(name, "file not found")]) from None
+    except OSError as exc:
+        raise InputError([Problem(name, f"cannot read the file ({exc.strerror})")]) from None
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError([Problem(name, f"not UTF-8 text (byte {exc.start}); save the case file as UTF-8")]) from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError([Problem(name, f"not valid TOML: {exc}")]) from None
+    return build_model(data, source=name, text=text, base_dir=path.parent)
+
+
+def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "", base_dir: Path | None = None) -> Model:
+    """Validate parsed case data and freeze it into a Model."""
+    ctx = _Ctx(source, LineLocator(text), ProblemList(source))
+    base = base_dir or Path(".")
+
+    for key in data:
+        if key not in TOP_KEYS:
+            ctx.add(f"unknown key '{key}'; expected one of {', '.join(TOP_KEYS)}.{did_you_mean(key, TOP_KEYS)}", key)
+
+    title = data.get("title", "")
+    if not isinstance(title, str):
+        ctx.add("title must be a string", "title")
+        title = str(title)
+
+    units = _read_units(ctx, data.get("units"))
+    joints = _read_joints(ctx, data.get("joints"), base)
+    dim = _dimension(ctx, joints)
+    joint_ids = {j.id for j in joints}
+    area_unit, modulus_unit = _stiffness_units(ctx, data.get("units"))
+    defaults = _read_stiffness_defaults(ctx, data.get("stiffness"), units, area_unit, modulus_unit)
+    members = _read_members(ctx, data.get("members"), base, joint_ids, units, area_unit, modulus_unit, defaults)
+    reactions = _read_supports(ctx, data.get("supports"), base, joint_ids, dim)
+    cases = _read_loads(ctx, data.get("loads"), base, joint_ids, dim)
+    combos = _read_combinations(ctx, data.get("combinations"), [c.name for c in cases])
+
+    if not joints:
+        ctx.add("the model has no joints; add a [joints] table", "joints")
+    if not members:
+        ctx.add("the model has no members; add a [members] table", "members")
+    _check_geometry(ctx, joints, members, dim)
+    connected = {m.start for m in members} | {m.end for m in members}
+    for case in cases:
+        for joint in case.loads:
+            if joint in joint_ids and joint not in connected and members:
+                ctx.add(f"load case '{case.name}' loads joint '{joint}', which no member connects; a load there cannot reach the supports", "loads", case.name, joint)
+    for joint in joints:
+        if joint.id not in connected and members:
+            ctx.add(f"joint '{joint.id}' is not connected to any member; remove it or add its members", "joints", joint.id)
+    ctx.problems.raise_if_any()
+    assert units is not None and dim is not None
+    return Model(
+        title=title, units=units, dim=dim, joints=tuple(joints), members=tuple(members),
+        reactions=tuple(reactions), cases=tuple(cases), combinations=tuple(combos), source=source,
+    )
+
+
+# -- units --------------------------------------------------------------------------------------
+def _read_units(ctx: _Ctx, table: Any) -> Units | None:
+    if table is None:
+        ctx.add("missing [units] table; declare length and force units, e.g. length = \"m\", force = \"kN\"", line=1)
+        return None
+    if not isinstance(table, dict):
+        ctx.add("[units] must be a table with length and force", "units")
+        return None
+    for key in table:
+        if key not in UNIT_KEYS:
+            ctx.add(f"unknown key '{key}' in [units]; expected {', '.join(UNIT_KEYS)}.{did_you_mean(key, UNIT_KEYS)}", "units", key)
+    found: dict[str, Unit] = {}
+    for key, dimension in (("length", Dimension.LENGTH), ("force", Dimension.FORCE)):
+        if key not in table:
+            ctx.add(f"[units] has no '{key}' unit", "units")
+            continue
+        try:
+            found[key] = lookup_unit(str(table[key]), dimension)
+        except ValueError as exc:
+            ctx.add(f"units.{key}: {exc}", "units", key)
+    if len(found) == 2:
+        return Units(length=found["length"], force=found["force"])
+    return None
+
+
+def _stiffness_units(ctx: _Ctx, table: Any) -> tuple[float | None, float | None]:
+    if not isinstance(table, dict):
+        return None, None
+    result: list[float | None] = []
+    for key, options in (("area", AREA_UNITS), ("modulus", MODULUS_UNITS)):
+        value = table.get(key)
+        if value is None:
+            result.append(None)
+        elif value in options:
+            result.append(options[value])
+        else:
+            ctx.add(f"units.{key}: unknown unit '{value}'; accepted: {', '.join(options)}", "units", key)
+            result.append(None)
+    return result[0], result[1]
+
+
+# -- CSV tables ---------------------------------------------------------------------------------
+def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required: tuple[str, ...]) -> Iterator[tuple[str, int, dict[str, str]]]:
+    """Yield (file, line, row) from a CSV table named in the case file; headers are lower-cased."""
+    path = (base / name) if not Path(name).is_absolute() else Path(name)
+    try:
+        text = path.read_bytes().decode("utf-8-sig")
+    except FileNotFoundError:
+        ctx.add(f"{'.'.join(where)} names the table '{name}', which does not exist (looked in {base})", *where)
+        return
+    except (OSError, UnicodeDecodeError) as exc:
+        ctx.add(f"{'.'.join(where)}: cannot read '{name}' as UTF-8 text ({exc})", *where)
+        return
+    reader = csv.reader(io.StringIO(text))
+    try:
+        header = [h.strip().lower() for h in next(reader)]
+    except StopIteration:
+        ctx.problems.problems.append(Problem(str(path), "the table is empty; expected a header row", 1))
+        return
+    missing = [r for r in required if r not in header]
+    if missing:
+        ctx.problems.problems.append(Problem(str(path), f"header lacks column(s) {', '.join(missing)}; found {', '.join(header)}", 1))
+        return
+    for row in reader:
+        line = reader.line_num
+        if not row or all(not c.strip() for c in row):
+            continue
+        if len(row) != len(header):
+            ctx.problems.problems.append(Problem(str(path), f"row has {len(row)} fields, the header has {len(header)}", line))
+            continue
+        yield str(path), line, {h: c.strip() for h, c in zip(header, row, strict=True)}
+
+
+def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None) -> float | None:
+    try:
+        return parse_number(value)
+    except ValueError as exc:
+        message = f"{what}: {exc}; expected a finite number"
+        if file is not None and file != ctx.file:
+            ctx.problems.problems.append(Problem(file, message, line))
+        else:
+            ctx.add(message, *path, line=line)
+        return None
+
+
+# -- joints -------------------------------------------------------------------------------------
+def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
+    joints: list[Joint] = []
+    if table is None:
+        return joints
+    if isinstance(table, str):
+        seen: dict[str, int] = {}
+        for file, line, row in _csv_rows(ctx, base, table, ("joints",), ("id", "x", "y")):
+            jid = row["id"]
+            if not jid:
+                ctx.problems.problems.append(Problem(file, "joint id is empty", line))
+                continue
+            if jid in seen:
+                ctx.problems.problems.append(Problem(file, f"duplicate joint id '{jid}' (first on line {seen[jid]})", line))
+                continue
+            seen[jid] = line
+            axes = ("x", "y", "z") if row.get("z", "") != "" else ("x", "y")
+            coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line) for a in axes]
+            if all(c is not None for c in coords):
+                joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
+        return joints
+    if not isinstance(table, dict):
+        ctx.add("[joints] must be a table (id = [x, y]) or the name of a CSV file", "joints")
+        return joints
+    for jid, value in table.items():
+        if not isinstance(value, list) or len(value) not in (2, 3):
+            ctx.add(f"joint '{jid}': expected [x, y] or [x, y, z], got {value!r}", "joints", jid)
+            continue
+        coords = [_number(ctx, v, f"joint '{jid}' coordinate {k + 1}", "joints", jid) for k, v in enumerate(value)]
+        if all(c is not None for c in coords):
+            joints.append(Joint(str(jid), tuple(float(c) for c in coords)))  # type: ignore[arg-type]
+    return joints
+
+
+def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
+    if not joints:
+        return None
+    dims = {len(j.coords) for j in joints}
+    if len(dims) == 1:
+        return dims.pop()
+    two = [j.id for j in joints if len(j.coords) == 2]
+    three = [j.id for j in joints if len(j.coords) == 3]
+    minority = two if len(two) <= len(three) else three
+    for jid in minority[:10]:
+        ctx.add(f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have {'3' if jid in two else '2'}; a model is all 2D or all 3D", "joints", jid)
+    return 3 if len(three) >= len(two) else 2
+
+
+# -- members ------------------------------------------------------------------------------------
+def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str, file: str | None = None, line: int | None = None) -> str | None:
+    if isinstance(value, bool) or isinstance(value, float):
+        message = f"{what}: joint id {value!r} must be written as a string, e.g. \"{value}\""
+    elif isinstance(value, (str, int)):
+        jid = str(value)
+        if jid in joint_ids:
+            return jid
+        message = f"{what} names joint '{jid}', which is not defined.{did_you_mean(jid, joint_ids)}"
+    else:
+        message = f"{what}: expected a joint id, got {value!r}"
+    if file is not None and file != ctx.file:
+        ctx.problems.problems.append(Problem(file, message, line))
+    else:
+        ctx.add(message, *path, line=line)
+    return None
+
+
+def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, area_unit: float | None, modulus_unit: float | None, *path: str) -> float | None:
+    if "EA" in spec:
+        ea = _number(ctx, spec["EA"], f"{what} EA", *path)
+        if ea is not None and ea <= 0:
+            ctx.add(f"{what}: EA must be positive, got {ea}", *path)
+            return None
+        return ea
+    if "A" in spec or "E" in spec:
+        if "A" not in spec or "E" not in spec:
+            ctx.add(f"{what}: give both A and E (or EA)", *path)
+            return None
+        if area_unit is None or modulus_unit is None:
+            ctx.add(f"{what}: A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\")", *path)
+            return None
+        a = _number(ctx, spec["A"], f"{what} A", *path)
+        e = _number(ctx, spec["E"], f"{what} E", *path)
+        if a is None or e is None or units is None:
+            return None
+        if a <= 0 or e <= 0:
+            ctx.add(f"{what}: A and E must be positive", *path)
+            return None
+        return a * area_unit * e * modulus_unit / units.force.to_si
+    return None
+
+
+def _read_stiffness_defaults(ctx: _Ctx, table: Any, units: Units | None, area_unit: float | None, modulus_unit: float | None) -> float | None:
+    if table is None:
+        return None
+    if not isinstance(table, dict):
+        ctx.add("[stiffness] must be a table with EA, or A and E, applied to members without their own", "stiffness")
+        return None
+    for key in table:
+        if key not in STIFFNESS_KEYS:
+            ctx.add(f"unknown key '{key}' in [stiffness]; expected EA, or A and E.{did_you_mean(key, STIFFNESS_KEYS)}", "stiffness", key)
+    return _ea_from(ctx, table, "[stiffness]", units, area_unit, modulus_unit, "stiffness")
+
+
+def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units: Units | None, area_unit: float | None, modulus_unit: float | None, default_ea: float | None) -> list[Member]:
+    members: list[Member] = []
+    if table is None:
+        return members
+    if isinstance(table, str):
+        seen: dict[str, int] = {}
+        for file, line, row in _csv_rows(ctx, base, table, ("members",), ("id", "start", "end")):
+            mid = row["id"]
+            if mid in seen:
+                ctx.problems.problems.append(Problem(file, f"duplicate member id '{mid}' (first on line {seen[mid]})", line))
+                continue
+            seen[mid] = line
+            start = _joint_ref(ctx, row["start"], joint_ids, f"member '{mid}' start", file=file, line=line)
+            end = _joint_ref(ctx, row["end"], joint_ids, f"member '{mid}' end", file=file, line=line)
+            ea: float | None = default_ea
+            if row.get("ea"):
+                ea = _number(ctx, row["ea"], f"member '{mid}' EA", file=file, line=line)
+                if ea is not None and ea <= 0:
+                    ctx.problems.problems.append(Problem(file, f"member '{mid}': EA must be positive, got {ea}", line))
+                    ea = None
+            if start and end:
+                members.append(Member(mid, start, end, ea))
+        return members
+    if not isinstance(table, dict):
+        ctx.add("[members] must be a table (id = [joint, joint]) or the name of a CSV file", "members")
+        return members
+    for mid, value in table.items():
+        what = f"member '{mid}'"
+        ea = default_ea
+        if isinstance(value, dict):
+            for key in value:
+                if key not in MEMBER_KEYS:
+                    ctx.add(f"{what}: unknown key '{key}'; expected {', '.join(MEMBER_KEYS)}.{did_you_mean(key, MEMBER_KEYS)}", "members", mid)
+            own = _ea_from(ctx, value, what, units, area_unit, modulus_unit, "members", mid)
+            ea = own if own is not None else default_ea
+            ends = value.get("ends")
+        else:
+            ends = value
+        if not isinstance(ends, list) or len(ends) != 2:
+            ctx.add(f"{what}: expected two joint ids, e.g. [\"A\", \"B\"], got {ends!r}", "members", mid)
+            continue
+        start = _joint_ref(ctx, ends[0], joint_ids, what, "members", mid)
+        end = _joint_ref(ctx, ends[1], joint_ids, what, "members", mid)
+        if start and end:
+            members.append(Member(str(mid), start, end, ea))
+    return members
+
+
+# -- supports -----------------------------------------------------------------------------------
+def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None) -> list[Reaction]:
+    reactions: list[Reaction] = []
+    if table is None:
+        ctx.add("missing [supports] table; a truss needs supports (e.g. A = [\"x\", \"y\"])", line=1)
+        return reactions
+    axes = AXES[: dim or 3]
+    entries: list[tuple[str, Any, tuple[str, ...], str | None, int | None]] = []
+    if isinstance(table, str):
+        for file, line, row in _csv_rows(ctx, base, table, ("supports",), ("joint",)):
+            if row.get("directions"):
+                spec: Any = row["directions"].replace(",", " ").split()
+            else:
+                spec = {"direction": [row.get(k, "") for k in ("nx", "ny", "nz")[: dim or 3]]}
+            entries.append((row["joint"], spec, (), file, line))
+    elif isinstance(table, dict):
+        entries = [(str(k), v, ("supports", str(k)), None, None) for k, v in table.items()]
+    else:
+        ctx.add("[supports] must be a table (joint = [\"x\", \"y\"]) or the name of a CSV file", "supports")
+        return reactions
+    for jid, spec, path, file, line in entries:
+        where = {"file": file, "line": line}
+        if _joint_ref(ctx, jid, joint_ids, "support", *path, **where) is None:
+            continue
+        if isinstance(spec, list):
+            seen: set[str] = set()
+            for axis in spec:
+                if axis not in axes:
+                    _say(ctx, f"support at '{jid}': direction {axis!r} is not one of {', '.join(axes)}", path, file, line)
+                elif axis in seen:
+                    _say(ctx, f"support at '{jid}': direction '{axis}' is listed twice", path, file, line)
+                else:
+                    seen.add(axis)
+                    vec = tuple(1.0 if a == axis else 0.0 for a in axes)
+                    reactions.append(Reaction(jid, vec, axis))
+            if not spec:
+                _say(ctx, f"support at '{jid}' restrains no direction", path, file, line)
+        elif isinstance(spec, dict):
+            for key in spec:
+                if key != "direction":
+                    _say(ctx, f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes", path, file, line)
+            vec_raw = spec.get("direction")
+            if not isinstance(vec_raw, list) or (dim and len(vec_raw) != dim):
+                _say(ctx, f"support at '{jid}': direction must be a list of {dim or '2 or 3'} numbers, got {vec_raw!r}", path, file, line)
+                continue
+            nums = [_number(ctx, v, f"support at '{jid}' direction", *path, file=file, line=line) for v in vec_raw]
+            if any(v is None for v in nums):
+                continue
+            arr = np.array(nums, dtype=float)
+            norm = float(np.linalg.norm(arr))
+            if norm == 0.0:
+                _say(ctx, f"support at '{jid}': direction is the zero vector", path, file, line)
+                continue
+            reactions.append(Reaction(jid, tuple(float(v) for v in arr / norm), "n"))
+        else:
+            _say(ctx, f"support at '{jid}': expected a list of restrained axes (e.g. [\"x\", \"y\"]) or {{ direction = [...] }}, got {spec!r}", path, file, line)
+    return reactions
+
+
+def _say(ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line: int | None) -> None:
+    if file is not None and file != ctx.file:
+        ctx.problems.problems.append(Problem(file, message, line))
+    else:
+        ctx.add(message, *path, line=line)
+
+
+# -- loads --------------------------------------------------------------------------------------
+def _vector(ctx: _Ctx, value: Any, dim: int | None, what: str, path: tuple[str, ...], file: str | None = None, line: int | None = None) -> tuple[float, ...] | None:
+    if not isinstance(value, list) or (dim is not None and len(value) != dim):
+        _say(ctx, f"{what}: expected a force vector of {dim or '2 or 3'} numbers, got {value!r}", path, file, line)
+        return None
+    nums = [_number(ctx, v, what, *path, file=file, line=line) for v in value]
+    if any(v is None for v in nums):
+        return None
+    return tuple(float(v) for v in nums)  # type: ignore[arg-type]
+
+
+def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None) -> list[LoadCase]:
+    if table is None:
+        ctx.add("missing [loads.<case>] table; add at least one load case", line=1)
+        return []
+    cases: dict[str, dict[str, tuple[float, ...]]] = {}
+
+    def add(case: str, jid: Any, value: Any, path: tuple[str, ...], file: str | None = None, line: int | None = None) -> None:
+        if _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", *path, file=file, line=line) is None:
+            return
+        vec = _vector(ctx, value, dim, f"load case '{case}' at joint '{jid}'", path, file, line)
+        if vec is None:
+            return
+        loads = cases.setdefault(case, {})
+        if str(jid) in loads:
+            _say(ctx, f"load case '{case}' loads joint '{jid}' twice; give one total vector", path, file, line)
+            return
+        loads[str(jid)] = vec
+
+    def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
+        axes = ("fx", "fy", "fz")[: dim or 2]
+        required = ("joint",) + axes + (() if fixed_case else ("case",))
+        for file, line, row in _csv_rows(ctx, base, name, where, required):
+            case = fixed_case or row["case"]
+            cases.setdefault(case, {})
+            add(case, row["joint"], [row[a] for a in axes], where, file, line)
+
+    if isinstance(table, str):
+        from_csv(table, ("loads",), None)
+    elif isinstance(table, dict):
+        for case, loads in table.items():
+            cases.setdefault(str(case), {})
+            if isinstance(loads, str):
+                from_csv(loads, ("loads", case), str(case))
+            elif isinstance(loads, dict):
+                for jid, value in loads.items():
+                    add(str(case), jid, value, ("loads", case, jid))
+            else:
+                ctx.add(f"load case '{case}': expected a table (joint = [fx, fy]) or a CSV file name", "loads", case)
+    else:
+        ctx.add("[loads] must hold one table per load case, e.g. [loads.dead]", "loads")
+    if isinstance(table, (str, dict)) and not cases:
+        ctx.add("no load cases defined; add e.g. [loads.dead]", "loads")
+    return [LoadCase(name, dict(loads)) for name, loads in cases.items()]
+
+
+def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Combination]:
+    combos: list[Combination] = []
+    if table is None:
+        return combos
+    if not isinstance(table, dict):
+        ctx.add("[combinations] must map a name to factors, e.g. \"ULS-1\" = { dead = 1.35 }", "combinations")
+        return combos
+    for name, factors in table.items():
+        if str(name) in case_names:
+            ctx.add(f"combination '{name}' has the same name as a load case; rename one", "combinations", name)
+        if not isinstance(factors, dict) or not factors:
+            ctx.add(f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got {factors!r}", "combinations", name)
+            continue
+        clean: dict[str, float] = {}
+        for case, value in factors.items():
+            if case not in case_names:
+                ctx.add(f"combination '{name}' names load case '{case}', which is not defined.{did_you_mean(case, case_names)}", "combinations", name)
+                continue
+            number = _number(ctx, value, f"combination '{name}' factor for '{case}'", "combinations", name)
+            if number is not None:
+                clean[case] = number
+        combos.append(Combination(str(name), clean))
+    return combos
+
+
+# -- geometry -----------------------------------------------------------------------------------
+def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: int | None) -> None:
+    if not joints or dim is None:
+        return
+    usable = [j for j in joints if len(j.coords) == dim]
+    xyz = np.array([j.coords for j in usable], dtype=float)
+    extent = float(np.ptp(xyz, axis=0).max()) if len(usable) > 1 else 1.0
+    tol = COINCIDENT_RTOL * max(extent, 1e-300)
+    # Coincident joints: sort on a rounded key, then compare neighbours (n log n).
+    keys = np.round(xyz / max(tol, 1e-300))
+    order = np.lexsort(keys.T[::-1])
+    for a, b in zip(order[:-1], order[1:], strict=False):
+        if np.all(np.abs(xyz[a] - xyz[b]) <= tol):
+            ctx.add(f"joints '{usable[a].id}' and '{usable[b].id}' are at the same point {usable[a].coords}; merge them", "joints", usable[b].id)
+    position = {j.id: np.array(j.coords) for j in usable}
+    pairs: dict[frozenset[str], str] = {}
+    for m in members:
+        if m.start == m.end:
+            ctx.add(f"member '{m.id}' starts and ends at joint '{m.start}'", "members", m.id)
+            continue
+        key = frozenset((m.start, m.end))
+        if key in pairs:
+            ctx.add(f"members '{pairs[key]}' and '{m.id}' both join '{m.start}' and '{m.end}'; a pin-jointed model needs one member per joint pair", "members", m.id)
+        else:
+            pairs[key] = m.id
+        if m.start in position and m.end in position:
+            length = float(np.linalg.norm(position[m.end] - position[m.start]))
+            if length <= tol or not math.isfinite(length):
+                ctx.add(f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)

@@ -1,0 +1,164 @@
+"""The validated, immutable truss model that every analysis trusts.
+
+One internal convention, stated once: **numbers are kept in the case's declared units** (lengths in
+``units.length``, forces in ``units.force``, EA in force units) and **member forces are
+tension-positive**. Claimed tables are converted to the case's force unit at the input boundary;
+reports convert nothing else.
+
+Build a model with :func:`verify.io.case.read_case` (files) or :func:`build_model` (Python data);
+both validate once and freeze the result.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from types import MappingProxyType
+
+import numpy as np
+
+from verify.units import Unit
+
+
+@dataclass(frozen=True)
+class Joint:
+    id: str
+    coords: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class Member:
+    id: str
+    start: str
+    end: str
+    EA: float | None = None  # axial stiffness in force units; None when not given
+
+
+@dataclass(frozen=True)
+class Reaction:
+    """One reaction component: a force at `joint` acting along the unit vector `direction`.
+
+    `axis` is 'x', 'y', 'z' for a restrained global direction, or 'n' for an inclined roller.
+    """
+
+    joint: str
+    direction: tuple[float, ...]
+    axis: str
+
+    @property
+    def label(self) -> str:
+        return f"{self.joint}.{self.axis}"
+
+
+@dataclass(frozen=True)
+class LoadCase:
+    name: str
+    loads: Mapping[str, tuple[float, ...]]  # joint id -> force vector
+
+
+@dataclass(frozen=True)
+class Combination:
+    name: str
+    factors: Mapping[str, float]  # load case name -> factor
+
+
+@dataclass(frozen=True)
+class Units:
+    length: Unit
+    force: Unit
+
+
+def _frozen(a: np.ndarray) -> np.ndarray:
+    a = np.ascontiguousarray(a)
+    a.setflags(write=False)
+    return a
+
+
+@dataclass(frozen=True)
+class Model:
+    """A pin-jointed truss: joints, members, reaction components, load cases, combinations."""
+
+    title: str
+    units: Units
+    dim: int
+    joints: tuple[Joint, ...]
+    members: tuple[Member, ...]
+    reactions: tuple[Reaction, ...]
+    cases: tuple[LoadCase, ...]
+    combinations: tuple[Combination, ...] = ()
+    source: str = ""
+    # Derived arrays (positions are internal; user labels are the ids above).
+    xyz: np.ndarray = field(init=False, repr=False, compare=False)
+    ends_index: np.ndarray = field(init=False, repr=False, compare=False)
+    lengths: np.ndarray = field(init=False, repr=False, compare=False)
+    unit_vectors: np.ndarray = field(init=False, repr=False, compare=False)
+    joint_index: Mapping[str, int] = field(init=False, repr=False, compare=False)
+    member_index: Mapping[str, int] = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        joint_index = {j.id: i for i, j in enumerate(self.joints)}
+        member_index = {m.id: i for i, m in enumerate(self.members)}
+        xyz = np.array([j.coords for j in self.joints], dtype=float).reshape(len(self.joints), self.dim)
+        ends = np.array(
+            [(joint_index[m.start], joint_index[m.end]) for m in self.members], dtype=np.int64
+        ).reshape(len(self.members), 2)
+        delta = xyz[ends[:, 1]] - xyz[ends[:, 0]] if len(self.members) else np.zeros((0, self.dim))
+        lengths = np.linalg.norm(delta, axis=1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            unit = delta / lengths[:, None] if len(self.members) else delta
+        object.__setattr__(self, "xyz", _frozen(xyz))
+        object.__setattr__(self, "ends_index", _frozen(ends))
+        object.__setattr__(self, "lengths", _frozen(lengths))
+        object.__setattr__(self, "unit_vectors", _frozen(unit))
+        object.__setattr__(self, "joint_index", MappingProxyType(joint_index))
+        object.__setattr__(self, "member_index", MappingProxyType(member_index))
+
+    # -- convenience views ------------------------------------------------------------------
+    @property
+    def joint_ids(self) -> list[str]:
+        return [j.id for j in self.joints]
+
+    @property
+    def member_ids(self) -> list[str]:
+        return [m.id for m in self.members]
+
+    @property
+    def load_names(self) -> list[str]:
+        """Every load case, then every combination: the columns of every result table."""
+        return [c.name for c in self.cases] + [c.name for c in self.combinations]
+
+    @property
+    def dofs(self) -> int:
+        return self.dim * len(self.joints)
+
+    @property
+    def has_stiffness(self) -> bool:
+        return all(m.EA is not None for m in self.members)
+
+    def members_without_stiffness(self) -> list[str]:
+        return [m.id for m in self.members if m.EA is None]
+
+    def load_matrix(self) -> np.ndarray:
+        """Applied joint loads, dofs x (cases + combinations); combinations by superposition."""
+        n_cases = len(self.cases)
+        F = np.zeros((self.dofs, n_cases + len(self.combinations)))
+        for k, case in enumerate(self.cases):
+            for joint, vector in case.loads.items():
+                i = self.joint_index[joint]
+                F[i * self.dim : (i + 1) * self.dim, k] += vector
+        case_pos = {c.name: k for k, c in enumerate(self.cases)}
+        for c, combo in enumerate(self.combinations):
+            for name, factor in combo.factors.items():
+                F[:, n_cases + c] += factor * F[:, case_pos[name]]
+        return F
+
+    def combination_matrix(self) -> np.ndarray:
+        """Factors mapping case results to every column of load_names (cases x all)."""
+        n = len(self.cases)
+        C = np.zeros((n, n + len(self.combinations)))
+        C[:, :n] = np.eye(n)
+        case_pos = {c.name: k for k, c in enumerate(self.cases)}
+        for c, combo in enumerate(self.combinations):
+            for name, factor in combo.factors.items():
+                C[case_pos[name], n + c] = factor
+        return C
