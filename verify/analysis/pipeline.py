@@ -1,0 +1,85 @@
+"""Run every analysis a model supports and gather the results in one immutable object.
+
+This is the only place that decides which routes apply: the joint and global routes need a
+stable, determinate truss; the stiffness route needs stiffness and an indeterminate truss.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from verify.analysis.forces import ForceResult
+from verify.analysis.global_solve import solve_global
+from verify.analysis.joints import JointSolution, solve_joints
+from verify.analysis.stability import Classification, StabilityResult, solve_stability
+from verify.model import Model
+
+ROUTE_RTOL = 1e-6  # routes must agree to this fraction of the largest force (round-off only)
+
+
+@dataclass(frozen=True)
+class Analysis:
+    model: Model
+    stability: StabilityResult
+    joints: JointSolution | None = None
+    global_: ForceResult | None = None
+    sections: object | None = None  # verify.analysis.sections.SectionSolution when available
+    elastic: object | None = None  # verify.analysis.stiffness.ElasticSolution when available
+    notes: tuple[str, ...] = field(default=())
+    route_disagreement: float = 0.0  # largest |difference| between routes / largest force
+
+    @property
+    def reference(self) -> ForceResult | None:
+        """The forces claims are judged against: global statics, else the elastic solve."""
+        if self.global_ is not None:
+            return self.global_
+        elastic = self.elastic
+        return getattr(elastic, "forces", None)
+
+
+def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | None = None) -> Analysis:
+    """Stability first; then every route the classification allows."""
+    stability = solve_stability(model)
+    notes: list[str] = []
+    if stability.classification is Classification.UNSTABLE:
+        return Analysis(model, stability, notes=("unstable: no forces can be recomputed",))
+    if stability.classification is Classification.STABLE_INDETERMINATE:
+        elastic = None
+        if model.has_stiffness or assume_equal_EA is not None:
+            from verify.analysis.stiffness import solve_stiffness
+
+            elastic = solve_stiffness(model, assume_equal_EA=assume_equal_EA)
+        else:
+            missing = model.members_without_stiffness()
+            notes.append(
+                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} member(s) lack EA: "
+                "only the equilibrium of claimed forces can be checked"
+            )
+        return Analysis(model, stability, elastic=elastic, notes=tuple(notes))
+    joints = solve_joints(model)
+    global_ = solve_global(model)
+    section_solution = None
+    if sections:
+        try:
+            from verify.analysis.sections import solve_sections
+        except ImportError:  # the section route is optional while it is being built
+            section_solution = None
+        else:
+            section_solution = solve_sections(model)
+    disagreement = route_disagreement(global_, joints.forces, getattr(section_solution, "forces", None))
+    return Analysis(model, stability, joints=joints, global_=global_, sections=section_solution,
+                    notes=tuple(notes), route_disagreement=disagreement)
+
+
+def route_disagreement(reference: ForceResult, *others: ForceResult | None) -> float:
+    scale = float(np.nanmax(np.abs(reference.member_forces))) if reference.member_forces.size else 0.0
+    worst = 0.0
+    for other in others:
+        if other is None:
+            continue
+        diff = np.abs(other.member_forces - reference.member_forces)
+        if np.isfinite(diff).any():
+            worst = max(worst, float(np.nanmax(diff)) / (scale or 1.0))
+    return worst

@@ -1,0 +1,1 @@
+"""Report stage: render results and findings as text, JSON, CSV, HTML and Markdown."""

@@ -1,0 +1,81 @@
+"""JSON renderings (DESIGN.md section 4 output contract)."""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+from verify import __version__
+from verify.analysis.pipeline import Analysis
+from verify.model import Model
+from verify.report.cautions import CAUTION
+
+
+def _clean(value: Any) -> Any:
+    """JSON has no NaN: a value a route could not obtain becomes null."""
+    if isinstance(value, float):
+        return None if not math.isfinite(value) else value
+    if isinstance(value, dict):
+        return {k: _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    return value
+
+
+def dumps(data: dict[str, Any]) -> str:
+    return json.dumps(_clean(data), indent=2, ensure_ascii=False, allow_nan=False)
+
+
+def stability_json(model: Model, analysis: Analysis) -> dict[str, Any]:
+    return {
+        "tool": {"name": "truss-verify", "version": __version__},
+        "case": {"title": model.title, "file": model.source,
+                 "units": {"length": model.units.length.symbol, "force": model.units.force.symbol}},
+        "structure": analysis.stability.as_dict(),
+        "caution": CAUTION,
+    }
+
+
+def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
+    data = stability_json(model, analysis)
+    ref = analysis.reference
+    if ref is None:
+        data["forces"] = {}
+        data["reactions"] = {}
+        data["notes"] = list(analysis.notes)
+        return data
+    data["forces"] = {
+        name: {m: float(ref.member_forces[i, k]) for i, m in enumerate(model.member_ids)}
+        for k, name in enumerate(model.load_names)
+    }
+    data["reactions"] = {name: ref.reaction_vectors(model, name) for name in model.load_names}
+    routes: dict[str, Any] = {}
+    if analysis.joints is not None:
+        routes["joints"] = {
+            name: {m: float(analysis.joints.forces.member_forces[i, k]) for i, m in enumerate(model.member_ids)}
+            for k, name in enumerate(model.load_names)
+        }
+        routes["joint_order"] = analysis.joints.order
+    sections = analysis.sections
+    if sections is not None:
+        sf = sections.forces  # type: ignore[attr-defined]
+        routes["sections"] = {
+            name: {m: float(sf.member_forces[i, k]) for i, m in enumerate(model.member_ids)}
+            for k, name in enumerate(model.load_names)
+        }
+        routes["section_coverage"] = sections.coverage  # type: ignore[attr-defined]
+    data["routes"] = routes
+    data["route_disagreement"] = analysis.route_disagreement
+    data["route"] = ref.route
+    elastic = analysis.elastic
+    if elastic is not None:
+        disp = elastic.displacements  # type: ignore[attr-defined]
+        d = model.dim
+        data["displacements"] = {
+            name: {j.id: [float(x) for x in disp[i * d:(i + 1) * d, k]] for i, j in enumerate(model.joints)}
+            for k, name in enumerate(model.load_names)
+        }
+        data["equal_EA_assumed"] = bool(elastic.equal_EA_assumed)  # type: ignore[attr-defined]
+    data["notes"] = list(analysis.notes)
+    return data

@@ -1,0 +1,162 @@
+"""Plain-text renderings for the terminal: stability, solved forces, the joint-by-joint calc."""
+
+from __future__ import annotations
+
+import numpy as np
+from tabulate import tabulate
+
+from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
+from verify.analysis.pipeline import Analysis
+from verify.analysis.stability import StabilityResult
+from verify.model import Model
+from verify.report.numbers import fmt, tc
+
+AXIS_NAMES = ("x", "y", "z")
+
+
+def render_stability(model: Model, s: StabilityResult) -> str:
+    d = model.dim
+    lines = [
+        f"Truss: {model.title or model.source}  ({d}D, {s.joints} joints, {s.members} members, {s.reactions} reaction components)",
+        f"Maxwell's rule: b + r - {d}j = {s.members} + {s.reactions} - {d}x{s.joints} = {s.maxwell}"
+        + ("  (too few members or supports)" if s.maxwell < 0 else ""),
+        f"Equilibrium matrix ({s.method}): rank {s.rank} of {d * s.joints} joint equations and {s.members + s.reactions} unknowns",
+        f"  mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}"
+        f"{f' ({s.rigid_body_mechanisms} rigid-body)' if s.rigid_body_mechanisms else ''}, "
+        f"states of self-stress s = {s.self_stress}",
+    ]
+    if s.sigma_ratio is not None:
+        lines.append(
+            f"  conditioning: sigma_min/sigma_max = {s.sigma_ratio:.3g}; scaled by slenderness^2 "
+            f"({s.slenderness:.3g}^2) = {s.scaled_ratio:.3g}" + ("  NEAR-MECHANISM" if s.ill_conditioned else "")
+        )
+    elif s.scaled_ratio is not None:
+        lines.append(f"  LU pivot ratio min/max = {s.scaled_ratio:.3g}")
+    verdict = s.classification.value
+    if s.classification.value == "stable-indeterminate":
+        verdict += f" (degree {s.self_stress})"
+    elif s.classification.value == "unstable":
+        verdict += f" ({s.mechanisms}{'+' if not s.exact_counts else ''} mechanism{'s' if s.mechanisms != 1 else ''})"
+    lines.append(f"Verdict: {verdict}")
+    for k, mode in enumerate(s.mechanism_modes, 1):
+        moves = ", ".join(f"{j} ({', '.join(fmt(c, 2) for c in v)})" for j, v in zip(mode.joints[:8], mode.motions[:8], strict=False))
+        kind = "rigid-body" if mode.rigid_body else "internal"
+        lines.append(f"  mechanism {k} ({kind}): joints that move (direction): {moves}{' ...' if len(mode.joints) > 8 else ''}")
+    for k, mode in enumerate(s.self_stress_modes, 1):
+        carried = ", ".join(f"{m} ({fmt(v, 3)})" for m, v in zip(mode.members[:10], mode.values[:10], strict=False))
+        lines.append(f"  self-stress {k}: members that carry it (relative force): {carried}{' ...' if len(mode.members) > 10 else ''}")
+    lines.extend(f"  note: {n}" for n in s.notes)
+    return "\n".join(lines)
+
+
+def force_table(model: Model, analysis: Analysis, load_name: str) -> str:
+    ref = analysis.reference
+    assert ref is not None
+    k = ref.column(load_name)
+    scale = float(np.nanmax(np.abs(ref.member_forces[:, k]))) if ref.member_forces.size else 0.0
+    zero = 1e-9 * (scale or 1.0)
+    headers = ["member", "force", "T/C"]
+    routes: list[tuple[str, np.ndarray]] = []
+    if analysis.joints is not None:
+        routes.append(("joints", analysis.joints.forces.member_forces[:, k]))
+    sections = getattr(analysis, "sections", None)
+    if sections is not None:
+        routes.append(("sections", sections.forces.member_forces[:, k]))
+    for name, _ in routes:
+        headers.append(name)
+    rows = []
+    for i, member in enumerate(model.members):
+        value = float(ref.member_forces[i, k])
+        row = [member.id, fmt(value if abs(value) > zero else 0.0), tc(value, zero_tol=zero)]
+        row.extend(fmt(float(v[i]) if abs(v[i]) > zero else 0.0) if np.isfinite(v[i]) else "not reached" for _, v in routes)
+        rows.append(row)
+    table = tabulate(rows, headers=headers, disable_numparse=True, stralign="right")
+    reactions = ref.reaction_vectors(model, load_name)
+    rrows = [[j] + [fmt(c) for c in vec] for j, vec in reactions.items()]
+    rtable = tabulate(rrows, headers=["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], disable_numparse=True, stralign="right")
+    return f"{table}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
+
+
+def render_solution(model: Model, analysis: Analysis) -> str:
+    parts = []
+    unit = model.units.force.symbol
+    route = "global sparse solve" if analysis.global_ is not None else "direct stiffness method"
+    for name in model.load_names:
+        parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
+        parts.append(force_table(model, analysis, name))
+        parts.append("")
+    if analysis.joints is not None:
+        parts.append(
+            f"Method of joints and global solve agree to {analysis.route_disagreement:.1e} of the largest force"
+            + (" (BEYOND round-off: check geometry)" if analysis.route_disagreement > 1e-6 else "")
+        )
+    parts.extend(f"note: {n}" for n in analysis.notes)
+    if analysis.joints is not None:
+        parts.extend(f"note: {n}" for n in analysis.joints.notes)
+    return "\n".join(parts)
+
+
+def _term(coefficient: float, name: str) -> str:
+    sign = "-" if coefficient < 0 else "+"
+    return f"{sign} {fmt(abs(coefficient), 4)}·{name}"
+
+
+def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> str:
+    """The joint-by-joint hand calc for one load column, equations with values substituted."""
+    d = model.dim
+    b = len(model.members)
+    k = solution.forces.column(load_name)
+    t = np.concatenate([solution.forces.member_forces[:, k], solution.forces.reactions[:, k]])
+    F = model.load_matrix()[:, k]
+    names = model.member_ids + [f"R_{r.label}" for r in model.reactions]
+    unit = model.units.force.symbol
+    out = [f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums forces on the joint)"]
+    solved: set[int] = set()
+    for n, step in enumerate(solution.steps, 1):
+        if step.kind == "reactions":
+            point = np.asarray(solution.moment_point)
+            G, E = overall_equilibrium_matrix(model, point)
+            out.append(f"\nStep {n}: reactions from overall equilibrium (moments about {solution.moment_joint})")
+            labels = (["ΣFx", "ΣFy", f"ΣM({solution.moment_joint})"] if d == 2
+                      else ["ΣFx", "ΣFy", "ΣFz", "ΣMx", "ΣMy", "ΣMz"])
+            order = [2, 0, 1] if d == 2 else list(range(6))
+            for row in order:
+                terms = " ".join(_term(G[row, i], names[b + i]) for i in range(G.shape[1]) if abs(G[row, i]) > 1e-12)
+                out.append(f"  {labels[row]} = 0: {terms} {'+' if E[row, k] >= 0 else '-'} {fmt(abs(E[row, k]))} = 0")
+            out.append("  => " + ", ".join(f"{names[c]} = {fmt(t[c])}" for c in step.unknowns))
+            solved.update(step.unknowns)
+            continue
+        if step.kind == "simultaneous":
+            out.append(f"\nStep {n}: no joint with at most {d} unknowns remains; the remaining {len(step.unknowns)} forces at joints "
+                       f"{', '.join(step.joints[:12])}{' ...' if len(step.joints) > 12 else ''} are solved simultaneously")
+            out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns[:40]))
+            solved.update(step.unknowns)
+            continue
+        joint = step.joints[0]
+        j = model.joint_index[joint]
+        cols = [i for i in range(b) if j in model.ends_index[i]] + [b + i for i, r in enumerate(model.reactions) if r.joint == joint]
+        unknown_names = ", ".join(names[c] for c in step.unknowns)
+        out.append(f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} {unknown_names}"
+                   + (" (the others here wait for later steps)" if step.partial else ""))
+        for axis in range(d):
+            terms = []
+            for c in cols:
+                if c < b:
+                    u = model.unit_vectors[c] if model.ends_index[c, 0] == j else -model.unit_vectors[c]
+                    coefficient = float(u[axis])
+                else:
+                    coefficient = float(model.reactions[c - b].direction[axis])
+                if abs(coefficient) < 1e-12:
+                    continue
+                if c in solved:
+                    terms.append(f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({fmt(t[c])})")
+                else:
+                    terms.append(_term(coefficient, names[c]))
+            load = F[j * d + axis]
+            if abs(load) > 0:
+                terms.append(f"{'+' if load >= 0 else '-'} {fmt(abs(load))}")
+            out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(terms) if terms else '0'} = 0")
+        out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns))
+        solved.update(step.unknowns)
+    out.append(f"\nCheck: largest out-of-balance force over all joint equations = {solution.max_residual:.2e} {unit}")
+    return "\n".join(out)
