@@ -118,5 +118,129 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
     click.echo(f"Caution: {CAUTION}")
 
 
+def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: str, sheet: str | None,
+               report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
+               member_column: str | None, case_column: str | None, force_column: str | None,
+               load_name: str | None, assume_equal_ea: float | None, all_rows: bool) -> int:
+    from verify.compare.diagnose import SignMode, compare_claims
+    from verify.compare.tolerances import Tolerance
+    from verify.io.claims import read_claims
+    from verify.report.atomic import OutputError, write_atomic
+    from verify.report.review_text import render_review
+
+    model = _load(case)
+    if unit != "auto":
+        from verify.units import Dimension, lookup_unit
+
+        try:
+            lookup_unit(unit, Dimension.FORCE)
+        except ValueError as exc:
+            click.echo(f"--unit: {exc}", err=True)
+            return EXIT_BAD_INPUT
+    if rtol <= 0 or rtol >= 1 or atol_fraction < 0 or atol_fraction >= 1:
+        click.echo("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", err=True)
+        return EXIT_BAD_INPUT
+    try:
+        claims = read_claims(claims_path, model, sheet=sheet, member_column=member_column, case_column=case_column,
+                             force_column=force_column, case=load_name)
+    except InputError as error:
+        click.echo(error.render(), err=True)
+        return EXIT_BAD_INPUT
+    analysis = analyse(model, assume_equal_EA=assume_equal_ea)
+    review = compare_claims(analysis, claims, sign=SignMode(sign), unit=None if unit == "auto" else unit,
+                            tolerance=Tolerance(rtol=rtol, atol_fraction=atol_fraction))
+    inputs = [case, claims_path]
+    try:
+        if csv_path:
+            from verify.report.table_csv import render_csv
+
+            write_atomic(csv_path, render_csv(review), inputs=inputs)
+        if report:
+            from verify.report.document import render_document
+
+            write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html"), inputs=inputs)
+    except (OutputError, OSError) as exc:
+        click.echo(str(exc), err=True)
+        return EXIT_BAD_INPUT
+    if as_json:
+        click.echo(json_out.dumps(json_out.check_json(review)))
+    else:
+        click.echo(_colour(render_review(review, all_rows=all_rows), review.verdict.value))
+    return review.exit_code
+
+
+def _colour(text: str, verdict: str) -> str:
+    """Colour the verdict line on a terminal only; NO_COLOR (no-color.org) turns it off."""
+    import os
+
+    if os.environ.get("NO_COLOR") or not sys.stdout.isatty():
+        return text
+    first, _, rest = text.partition("\n")
+    colour = {"agrees": "green", "discrepancies": "red"}.get(verdict, "yellow")
+    return click.style(first, fg=colour, bold=True) + "\n" + rest
+
+
+_CHECK_OPTIONS = [
+    click.option("--json", "as_json", is_flag=True, help="Print one JSON object (verdict, structure, convention, members, findings)."),
+    click.option("--sign", type=click.Choice([m for m in ("tension-positive", "compression-positive", "auto")]), default="auto",
+                 show_default=True, help="Sign convention of the claimed table; T/C suffixes always settle the sign of their value."),
+    click.option("--unit", default="auto", show_default=True, metavar="UNIT|auto",
+                 help="Force unit of the claimed table (N, kN, MN, lbf, kip, kgf, tonne-force); units in headers or cells win."),
+    click.option("--sheet", default=None, help="Worksheet of an .xlsx claims file (default: the only one)."),
+    click.option("--report", default=None, metavar="PATH.html|PATH.md", help="Write the review report (HTML or Markdown), atomically."),
+    click.option("--csv", "csv_path", default=None, metavar="PATH", help="Write the member table as CSV (spreadsheet-safe), atomically."),
+    click.option("--rtol", type=float, default=0.01, show_default=True, help="Relative tolerance for 'agrees'."),
+    click.option("--atol-fraction", type=float, default=1e-3, show_default=True,
+                 help="Absolute tolerance as a fraction of the largest recomputed force in the load case."),
+    click.option("--member-column", default=None, help="Header of the member-label column, when not found automatically."),
+    click.option("--case-column", default=None, help="Header of the load-case column of a long table."),
+    click.option("--force-column", default=None, help="Header of the force column of a long table."),
+    click.option("--case", "load_name", default=None, help="Load case or combination of a single-column table."),
+    click.option("--assume-equal-ea", type=float, default=None, metavar="EA",
+                 help="Indeterminate truss without stiffness data: assume this EA for every member (said in every output)."),
+    click.option("--all-rows", is_flag=True, help="List every row in the terminal table, including members without a claim."),
+]
+
+
+def _with_check_options(func):  # type: ignore[no-untyped-def]
+    for option in reversed(_CHECK_OPTIONS):
+        func = option(func)
+    return func
+
+
+@main.command()
+@click.argument("case", type=click.Path(dir_okay=False))
+@click.option("--claims", "claims_path", required=True, type=click.Path(dir_okay=False), help="Claimed forces: CSV or .xlsx.")
+@_with_check_options
+def check(case: str, claims_path: str, **options: object) -> None:
+    """Compare the claimed member forces in --claims with those recomputed for CASE.
+
+    Prints a verdict, the findings (sign convention, unit slip, swapped labels, sign flips,
+    zero-force members, missing claims, unknown labels, load-case mix-ups, equilibrium of the
+    claims, real errors) and the member table. Exit status: 0 agrees, 1 discrepancies, 2 bad
+    input, 3 cannot verify.
+    """
+    sys.exit(_run_check(case, claims_path, **options))  # type: ignore[arg-type]
+
+
+@main.command()
+@click.option("--json", "as_json", is_flag=True, help="Print the review as JSON.")
+@click.option("--report", default=None, metavar="PATH.html|PATH.md", help="Also write the review report.")
+def demo(as_json: bool, report: str | None) -> None:
+    """Check the bundled demo: a footbridge truss and a consultant's table with planted errors."""
+    from importlib.resources import as_file, files
+
+    demo_dir = files("verify") / "data" / "demo"
+    with as_file(demo_dir / "case.toml") as case_path, as_file(demo_dir / "claims.csv") as claims_path:
+        if not as_json:
+            click.echo(f"Demo: truss-verify check {case_path} --claims {claims_path}\n")
+        code = _run_check(str(case_path), str(claims_path), as_json=as_json, sign="auto", unit="auto", sheet=None,
+                          report=report, csv_path=None, rtol=0.01, atol_fraction=1e-3, member_column=None,
+                          case_column=None, force_column=None, load_name=None, assume_equal_ea=None, all_rows=False)
+    if not as_json:
+        click.echo(f"\n(The demo table has planted errors; 'check' itself would exit with status {code}.)")
+    sys.exit(0 if code in (0, 1) else code)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -79,3 +79,30 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
         data["equal_EA_assumed"] = bool(elastic.equal_EA_assumed)  # type: ignore[attr-defined]
     data["notes"] = list(analysis.notes)
     return data
+
+
+def check_json(review: Any) -> dict[str, Any]:
+    """The DESIGN.md section 4 `check --json` object (extra fields allowed, none renamed)."""
+    model = review.analysis.model
+    return {
+        "verdict": review.verdict.value,
+        "structure": review.analysis.stability.as_dict(),
+        "convention": review.convention.as_dict(),
+        "members": [row.as_dict() for row in review.rows],
+        "findings": [f.as_dict() for f in review.findings],
+        "summary": {
+            "members_checked": review.checked_members,
+            "members_total": len(model.members),
+            "cases_checked": list(review.checked_cases),
+            "cases_total": list(model.load_names),
+        },
+        "tolerance": {"rtol": review.tolerance.rtol, "atol_fraction": review.tolerance.atol_fraction},
+        "imbalances": [
+            {"joint": b.joint, "case": b.case, "residual": list(b.residual), "size": b.size}
+            for b in review.imbalances
+        ],
+        "inputs": {"case": model.source, "claims": review.claims.source, "claims_sha256": review.claims.sha256},
+        "tool": {"name": "truss-verify", "version": __version__},
+        "notes": list(review.notes),
+        "caution": CAUTION,
+    }

@@ -1,0 +1,326 @@
+"""Direct stiffness method: the elastic member forces of a pin-jointed truss.
+
+Needed where statics alone cannot give the forces (statically indeterminate trusses,
+shared/REFERENCES.md 1.2 and 3.6); on a determinate truss it reproduces the statics answer whatever
+the EA values are.
+
+Formulation (common practice, stated in the terms of verify.analysis.equilibrium):
+
+* Member i from joint s to joint e, unit vector u, stiffness k = EA/L. Its elongation is
+  ``e_i = (x_e - x_s) . u = -(A_b^T x)_i`` for joint displacements x (B = A^T is the compatibility
+  matrix, with A's sign convention), and its force is ``N_i = k_i e_i`` (tension positive).
+* ``K = A_b diag(k) A_b^T``: the 2x2 (3x3) blocks ``k u u^T`` on (s, s) and (e, e), and
+  ``-k u u^T`` on (s, e) and (e, s). Assembled vectorised as COO, converted once to CSC.
+* Supports: a reaction component along the unit vector n at a joint holds that joint's
+  displacement along n at zero. Each joint's free directions form an orthonormal basis of the
+  complement of its reaction directions (a batched SVD; an inclined roller is no special case).
+  These bases are the columns of a sparse matrix T (dofs x free), and ``K_f = T^T K T``,
+  ``f_f = T^T f``, ``x = T K_f^{-1} f_f``.
+* Reactions come afterwards from equilibrium at each supported joint: the reaction components
+  balance the member forces and the loads there (least squares per joint; exact when the
+  directions at a joint are independent, minimum-norm split when they are parallel).
+
+Ordering (shared/PERFORMANCE.md item 4): no single SuperLU ordering is safe for K. Symmetric-mode
+MMD_AT_PLUS_A was best on a 10^5-member 3D grid (0.87 s against 3.7 s for COLAMD) but its fill
+exploded on an offset double-layer grid (> 60 s against 2.6 s). So we try MMD_AT_PLUS_A first in
+symmetric mode (diagonal pivots, valid because K_f is symmetric positive definite for a stable
+truss) and fall back to COLAMD with partial pivoting if
+
+* it has not finished within ``time_box`` seconds (default ORDERING_TIME_BOX), or
+* it fails (a zero pivot without pivoting).
+
+Small systems (at most DIRECT_FREE_LIMIT free dofs, where either ordering takes milliseconds) are
+factorised directly without the time box. SuperLU cannot be interrupted. A timed-out attempt
+therefore runs on in a daemon thread, which uses the second core and its memory, until it ends
+or the process exits. It releases the GIL, so the fallback is not slowed down by Python. The
+ordering actually used is stated in the notes.
+
+Back-check: every answer is checked against equilibrium (max |A t + f|) and the figure recorded.
+A mechanism makes K_f singular. An exactly singular factorisation, or a pivot ratio below
+K_PIVOT_SINGULAR, raises :class:`SingularStiffnessError`. K pivots alone do not prove stability:
+PERFORMANCE.md measured sound long trusses at 2e-12. The stability check
+(verify.analysis.stability) is the authority on mechanisms.
+
+Accuracy caveat (PERFORMANCE.md): cond(K) ~ cond(A)^2, so on very long determinate trusses
+(thousands of panels) the statics route is more accurate than this one; the recorded residual
+shows it.
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+import time
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from verify.analysis.equilibrium import assemble_equilibrium
+from verify.analysis.forces import ForceResult
+from verify.model import Model
+
+ORDERING_TIME_BOX = 1.5  # s; MMD took 0.87 s on the 10^5-member grid where it is the better choice
+DIRECT_FREE_LIMIT = 5000  # free dofs below which both orderings cost milliseconds (no time box)
+K_PIVOT_SINGULAR = 1e-15  # min/max |U_ii|; sound long trusses measured down to 2e-12 (PERFORMANCE.md)
+SUPPORT_RANK_TOL = 1e-9  # singular value of a joint's unit reaction directions counted as zero
+RESIDUAL_RTOL = 1e-8  # back-check: residual above this fraction of the load scale earns a note
+EQUAL_EA_NOTE = "equal EA assumed: every output says so"
+
+
+class MissingStiffnessError(ValueError):
+    """Some members have no EA, and no equal-EA assumption was requested."""
+
+    def __init__(self, members: Sequence[str]) -> None:
+        self.members = tuple(members)
+        shown = ", ".join(f"'{m}'" for m in self.members[:10])
+        more = f" and {len(self.members) - 10} more" if len(self.members) > 10 else ""
+        super().__init__(
+            f"{len(self.members)} member(s) have no axial stiffness EA: {shown}{more}; "
+            "the elastic forces of an indeterminate truss depend on EA. Give EA (or A and E) per "
+            "member or a default in [stiffness], or assume equal EA explicitly."
+        )
+
+
+class SingularStiffnessError(ValueError):
+    """The reduced stiffness matrix is singular: the truss (with its supports) is a mechanism."""
+
+
+@dataclass(frozen=True)
+class ElasticSolution:
+    """Elastic forces, reactions and joint displacements for every load column of the model.
+
+    ``displacements`` is dofs x load columns, in the case's length unit (joint i, direction c is
+    row ``i * dim + c``). ``max_residual`` is max |A t + f| over every joint equation and column,
+    in the case's force unit.
+    """
+
+    forces: ForceResult  # route="stiffness"
+    displacements: np.ndarray  # dofs x load columns
+    max_residual: float
+    equal_EA_assumed: bool
+    notes: tuple[str, ...] = field(default=())
+
+
+def member_stiffness(model: Model, *, assume_equal_EA: float | None = None) -> tuple[np.ndarray, list[str]]:
+    """EA per member (force units) and notes. Raises MissingStiffnessError when EA is missing.
+
+    With ``assume_equal_EA`` every member takes that value, including members that have their own.
+    Mixing given values with an arbitrary assumed one would make the forces depend on the assumed
+    value. With equal EA everywhere the forces depend on geometry alone.
+    """
+    notes: list[str] = []
+    if assume_equal_EA is not None:
+        value = float(assume_equal_EA)
+        if not math.isfinite(value) or value <= 0:
+            raise ValueError(f"assume_equal_EA must be a positive finite number, got {assume_equal_EA!r}")
+        given = sum(m.EA is not None for m in model.members)
+        notes.append(EQUAL_EA_NOTE)
+        if given:
+            notes.append(f"the assumed EA = {value:g} replaced the EA given for {given} member(s)")
+        return np.full(len(model.members), value), notes
+    missing = model.members_without_stiffness()
+    if missing:
+        raise MissingStiffnessError(missing)
+    return np.array([m.EA for m in model.members], dtype=float), notes
+
+
+def _support_layout(model: Model) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Supported joints, each reaction's (joint position in that list, slot at that joint), and
+    the padded direction stack D (supported joints x slots x dim), zero rows for empty slots."""
+    d = model.dim
+    r = len(model.reactions)
+    if r == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros((0, 2), dtype=np.int64), np.zeros((0, 1, d))
+    r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
+    r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
+    supported, pos = np.unique(r_joint, return_inverse=True)
+    order = np.argsort(pos, kind="stable")
+    counts = np.bincount(pos, minlength=len(supported))
+    starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    slot = np.empty(r, dtype=np.int64)
+    slot[order] = np.arange(r) - np.repeat(starts, counts)
+    slots = max(int(counts.max()), d)
+    D = np.zeros((len(supported), slots, d))
+    D[pos, slot] = r_dir
+    return supported, np.column_stack([pos, slot]), D
+
+
+def free_direction_basis(model: Model) -> tuple[sp.csc_matrix, list[str]]:
+    """T (dofs x free): orthonormal free directions of every joint, joint by joint.
+
+    A joint without reactions keeps its global axes; a supported joint keeps the orthonormal
+    complement of the span of its reaction directions (right singular vectors of zero singular
+    value). Notes name joints whose reaction directions are linearly dependent.
+    """
+    d = model.dim
+    nj = len(model.joints)
+    supported, _, D = _support_layout(model)
+    free = np.ones((nj, d), dtype=bool)
+    vectors = np.broadcast_to(np.eye(d), (nj, d, d)).copy()  # vectors[j, k] = k-th free direction
+    notes: list[str] = []
+    if len(supported):
+        _, S, Vh = np.linalg.svd(D, full_matrices=True)  # S: (ns, d) since slots >= d
+        rank = (S > SUPPORT_RANK_TOL).sum(axis=1)
+        free[supported] = np.arange(d)[None, :] >= rank[:, None]
+        vectors[supported] = Vh
+        counts = (np.abs(D).sum(axis=2) > 0).sum(axis=1)
+        dependent = supported[counts > rank]
+        if len(dependent):
+            names = ", ".join(f"'{model.joints[j].id}'" for j in dependent[:10])
+            notes.append(
+                f"the reaction directions at joint(s) {names} are linearly dependent: their split "
+                "between those components is not determined by statics or stiffness; the minimum-norm split is reported"
+            )
+    joint_of, slot_of = np.nonzero(free)  # row-major: joint by joint
+    ncols = len(joint_of)
+    rows = (joint_of[:, None] * d + np.arange(d)).ravel()
+    cols = np.repeat(np.arange(ncols), d)
+    vals = vectors[joint_of, slot_of].ravel()
+    keep = vals != 0.0
+    T = sp.coo_matrix((vals[keep], (rows[keep], cols[keep])), shape=(model.dofs, ncols)).tocsc()
+    return T, notes
+
+
+def assemble_stiffness(model: Model, EA: np.ndarray) -> sp.csc_matrix:
+    """The global stiffness matrix K (dofs x dofs, unconstrained), vectorised COO assembly."""
+    d = model.dim
+    b = len(model.members)
+    k = EA / model.lengths
+    u = model.unit_vectors
+    blocks = k[:, None, None] * u[:, :, None] * u[:, None, :]  # (b, d, d)
+    s = model.ends_index[:, 0]
+    e = model.ends_index[:, 1]
+    comp = np.arange(d)
+    rs = s[:, None, None] * d + comp[None, :, None]
+    re = e[:, None, None] * d + comp[None, :, None]
+    cs = s[:, None, None] * d + comp[None, None, :]
+    ce = e[:, None, None] * d + comp[None, None, :]
+    shape = (b, d, d)
+    rows = np.concatenate([np.broadcast_to(x, shape).ravel() for x in (rs, re, rs, re)])
+    cols = np.concatenate([np.broadcast_to(x, shape).ravel() for x in (cs, ce, ce, cs)])
+    vals = np.concatenate([blocks.ravel(), blocks.ravel(), -blocks.ravel(), -blocks.ravel()])
+    return sp.coo_matrix((vals, (rows, cols)), shape=(model.dofs, model.dofs)).tocsc()
+
+
+def reactions_from_equilibrium(model: Model, member_forces: np.ndarray, loads: np.ndarray) -> np.ndarray:
+    """Reaction components (r x columns) balancing member forces and loads at each supported joint.
+
+    Solves ``A_R R = -(A_b N + f)`` joint by joint in the least-squares sense (batched pseudo-
+    inverse of each joint's direction matrix), so a joint with parallel reaction components gets
+    the minimum-norm split.
+    """
+    r = len(model.reactions)
+    cols = loads.shape[1]
+    if r == 0:
+        return np.zeros((0, cols))
+    d = model.dim
+    b = len(model.members)
+    A = assemble_equilibrium(model)
+    g = A[:, :b] @ member_forces + loads  # net force on each joint without the reactions
+    supported, where, D = _support_layout(model)
+    G = np.transpose(D, (0, 2, 1))  # (ns, d, slots): columns are the directions
+    pinv = np.linalg.pinv(G, rcond=SUPPORT_RANK_TOL)  # (ns, slots, d)
+    rows = supported[:, None] * d + np.arange(d)
+    R_pad = -np.einsum("jsd,jdc->jsc", pinv, g[rows])  # (ns, slots, cols)
+    return R_pad[where[:, 0], where[:, 1]]
+
+
+def _factorise(K: sp.csc_matrix, time_box: float) -> tuple[spla.SuperLU, list[str]]:
+    """Sparse LU of the symmetric positive definite K_f; ordering per the module docstring."""
+    n = K.shape[0]
+    outcome: dict[str, object] = {}
+
+    def symmetric_mmd() -> None:
+        try:
+            outcome["lu"] = spla.splu(K, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                                      options={"SymmetricMode": True})
+        except (RuntimeError, MemoryError) as exc:
+            outcome["error"] = exc
+
+    start = time.perf_counter()
+    if n <= DIRECT_FREE_LIMIT:
+        symmetric_mmd()
+    else:
+        worker = threading.Thread(target=symmetric_mmd, name="stiffness-mmd-ordering", daemon=True)
+        worker.start()
+        worker.join(time_box)
+    lu = outcome.get("lu")
+    if isinstance(lu, spla.SuperLU):
+        elapsed = time.perf_counter() - start
+        return lu, [f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), {elapsed:.3g} s, "
+                    f"fill {lu.L.nnz + lu.U.nnz} nonzeros for {K.nnz} in K"]
+    if "error" in outcome:
+        why = f"MMD_AT_PLUS_A in symmetric mode failed ({outcome['error']})"
+    else:
+        why = (f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box (its fill can "
+               "explode on some 3D grids); it runs on in the background until it ends")
+    start = time.perf_counter()
+    try:
+        lu = spla.splu(K, permc_spec="COLAMD")
+    except RuntimeError as exc:
+        raise SingularStiffnessError(
+            f"the stiffness matrix is singular ({exc}): the truss with its supports is a mechanism; "
+            "the stability check names the joints that can move"
+        ) from None
+    elapsed = time.perf_counter() - start
+    return lu, [f"{why}; sparse LU of K with COLAMD ordering, {elapsed:.3g} s, "
+                f"fill {lu.L.nnz + lu.U.nnz} nonzeros for {K.nnz} in K"]
+
+
+def solve_stiffness(model: Model, *, assume_equal_EA: float | None = None,
+                    time_box: float = ORDERING_TIME_BOX) -> ElasticSolution:
+    """Elastic member forces, reactions and joint displacements by the direct stiffness method.
+
+    Raises MissingStiffnessError when some members have no EA and ``assume_equal_EA`` is None,
+    and SingularStiffnessError when the supported truss is a mechanism (K_f singular).
+    """
+    EA, notes = member_stiffness(model, assume_equal_EA=assume_equal_EA)
+    F = model.load_matrix()
+    cols = F.shape[1]
+    T, support_notes = free_direction_basis(model)
+    notes += support_notes
+    K = assemble_stiffness(model, EA)
+    Kf = (T.T @ K @ T).tocsc()
+    nfree = Kf.shape[0]
+    if nfree:
+        lu, order_notes = _factorise(Kf, time_box)
+        notes += order_notes
+        diag = np.abs(lu.U.diagonal())
+        pivot_ratio = float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
+        if pivot_ratio < K_PIVOT_SINGULAR:
+            raise SingularStiffnessError(
+                f"the stiffness matrix is singular to working precision (pivot ratio {pivot_ratio:.1e} "
+                f"< {K_PIVOT_SINGULAR:g}): the truss with its supports is a mechanism; "
+                "the stability check names the joints that can move"
+            )
+        notes.append(f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; "
+                     "the stability check decides on mechanisms)")
+        Ff = T.T @ F
+        xf = lu.solve(np.asfortranarray(Ff)) if cols else np.zeros((nfree, 0))
+        x = T @ xf.reshape(nfree, cols)
+    else:
+        notes.append("every joint direction is restrained: no displacement, members carry no force")
+        x = np.zeros((model.dofs, cols))
+    d = model.dim
+    s = model.ends_index[:, 0]
+    e = model.ends_index[:, 1]
+    xj = x.reshape(len(model.joints), d, cols)
+    elongation = np.einsum("bd,bdc->bc", model.unit_vectors, xj[e] - xj[s])
+    N = (EA / model.lengths)[:, None] * elongation
+    R = reactions_from_equilibrium(model, N, F)
+    A = assemble_equilibrium(model)
+    residual = A @ np.vstack([N, R]) + F if cols else np.zeros((model.dofs, 0))
+    max_residual = float(np.abs(residual).max()) if residual.size else 0.0
+    scale = max(float(np.abs(F).max()) if F.size else 0.0, float(np.abs(N).max()) if N.size else 0.0)
+    if max_residual > RESIDUAL_RTOL * max(scale, np.finfo(float).tiny):
+        notes.append(f"equilibrium back-check: max |A t + f| = {max_residual:.3g} is large against the "
+                     f"forces ({scale:.3g}); the stiffness answer is not reliable (ill-conditioned K)")
+    else:
+        notes.append(f"equilibrium back-check: max |A t + f| = {max_residual:.3g}")
+    notes_t = tuple(notes)
+    forces = ForceResult("stiffness", tuple(model.load_names), N, R, notes=notes_t)
+    return ElasticSolution(forces=forces, displacements=x, max_residual=max_residual,
+                           equal_EA_assumed=assume_equal_EA is not None, notes=notes_t)

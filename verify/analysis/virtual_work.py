@@ -1,0 +1,185 @@
+"""Unit-load (virtual work) deflection of a joint, kept as a hand calculation.
+
+Method (shared/REFERENCES.md 3.7; Hibbeler, *Structural Analysis*, "Method of virtual work:
+trusses"): ``1 . Delta = sum n N L / (E A)``. N are the real member forces, and n the member forces
+caused by a unit load at the joint, in the direction of Delta. Both are tension positive. A negative
+Delta means the joint moves opposite to the unit load.
+
+The n forces come from statics. When the truss is statically determinate (square, non-singular
+equilibrium matrix) they are the unique solution of ``A n + f_unit = 0``, found by sparse LU
+(ordering as in verify.analysis.global_solve). When the truss is indeterminate the formula still holds with *any* statically
+admissible n (the reduced-structure theorem of virtual work, common practice), provided N are the
+real, compatible forces. We use the minimum-norm solution of ``A n = -f_unit``, which treats the
+member forces and reaction components as one vector. Models up to DENSE_LIMIT joint equations use a
+dense least-squares solve (SVD). Larger ones use sparse LSQR started from zero, which converges to the
+minimum-norm solution. The calculation states which route was taken.
+Support movements are zero, so the reactions of the unit load do no work.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse.linalg as spla
+
+from verify.analysis.equilibrium import assemble_equilibrium
+from verify.analysis.stiffness import EQUAL_EA_NOTE, member_stiffness
+from verify.errors import InputError, Problem, did_you_mean
+from verify.model import Model
+
+DENSE_LIMIT = 1500  # joint equations; dense least squares is at most ~1 s here (PERFORMANCE.md)
+UNIT_LOAD_RTOL = 1e-8  # |A n + f_unit| above this means the unit load cannot be carried
+LSQR_TOL = 1e-14
+
+
+@dataclass(frozen=True)
+class VirtualWorkRow:
+    """One member's line of the hand calc; ``term`` = unit_force * real_force * length / EA."""
+
+    member: str
+    real_force: float  # N, case force unit, tension positive
+    unit_force: float  # n, force per unit applied force (dimensionless)
+    length: float  # L, case length unit
+    EA: float  # case force unit
+    term: float  # n N L / EA, case length unit
+
+
+@dataclass(frozen=True)
+class VirtualWorkCalc:
+    """Delta = sum of the terms, along ``direction`` (a unit vector) at ``joint``."""
+
+    joint: str
+    direction: tuple[float, ...]
+    rows: tuple[VirtualWorkRow, ...]
+    deflection: float  # case length unit; positive along `direction`
+    unit_load_route: str  # "statics (determinate)" or "minimum-norm admissible set"
+    unit_reactions: tuple[tuple[str, float], ...]  # reaction label -> reaction to the unit load
+    equal_EA_assumed: bool
+    notes: tuple[str, ...] = field(default=())
+
+
+def _bad(model: Model, message: str) -> InputError:
+    return InputError([Problem(model.source or "<model>", message)])
+
+
+def _unit_direction(model: Model, direction: Sequence[float]) -> np.ndarray:
+    vec = np.asarray(direction, dtype=float).ravel()
+    if vec.shape != (model.dim,) or not np.all(np.isfinite(vec)):
+        raise _bad(model, f"unit-load direction must be {model.dim} finite numbers, got {list(direction)!r}")
+    norm = float(np.linalg.norm(vec))
+    if norm == 0.0:
+        raise _bad(model, "unit-load direction is the zero vector; give e.g. [0, -1] for downward")
+    return vec / norm
+
+
+def solve_unit_load(model: Model, joint: str, direction: np.ndarray) -> tuple[np.ndarray, str, list[str]]:
+    """t = [n (members); reactions] for a unit load along `direction` at `joint`, plus the route."""
+    A = assemble_equilibrium(model)
+    f = np.zeros(model.dofs)
+    i = model.joint_index[joint]
+    f[i * model.dim : (i + 1) * model.dim] = direction
+    notes: list[str] = []
+    t: np.ndarray | None = None
+    route = ""
+    if A.shape[0] == A.shape[1]:
+        try:
+            lu = spla.splu(A, permc_spec="COLAMD" if model.dim == 2 else "MMD_ATA")
+            t = lu.solve(-f)
+            route = "statics (determinate)"
+        except RuntimeError:
+            notes.append("the square equilibrium matrix is singular; the minimum-norm solution was tried")
+    if t is None:
+        route = "minimum-norm admissible set"
+        if A.shape[0] <= DENSE_LIMIT:
+            t = np.linalg.lstsq(A.toarray(), -f, rcond=None)[0]
+        else:
+            t = spla.lsqr(A, -f, atol=LSQR_TOL, btol=LSQR_TOL, iter_lim=20 * sum(A.shape))[0]
+        notes.append(
+            "the unit-load forces n are the minimum-norm statically admissible set (reduced-structure "
+            "theorem: any set in equilibrium with the unit load gives the same deflection when N is "
+            "the real, compatible force set)"
+        )
+    leak = float(np.abs(A @ t + f).max())
+    if not math.isfinite(leak) or leak > UNIT_LOAD_RTOL:
+        raise ValueError(
+            f"a unit load at joint '{joint}' along {tuple(float(c) for c in direction)} cannot be carried "
+            f"(out-of-balance {leak:.2e}): the truss is a mechanism for that load"
+        )
+    return t, route, notes
+
+
+def unit_load_deflection(model: Model, forces_real: np.ndarray, joint: str, direction: Sequence[float], *,
+                         assume_equal_EA: float | None = None) -> VirtualWorkCalc:
+    """Deflection of `joint` along `direction` by the unit-load method, with per-member rows.
+
+    ``forces_real`` are the real member forces (one load column, tension positive, case force unit).
+    For an indeterminate truss they must be the elastic forces (e.g. from solve_stiffness).
+    """
+    if joint not in model.joint_index:
+        raise _bad(model, f"unit-load joint '{joint}' is not defined.{did_you_mean(joint, model.joint_ids)}")
+    N = np.asarray(forces_real, dtype=float).ravel()
+    if N.shape != (len(model.members),):
+        raise _bad(model, f"real forces must hold one value per member ({len(model.members)}), got shape {np.shape(forces_real)}")
+    if not np.all(np.isfinite(N)):
+        bad = [model.members[k].id for k in np.nonzero(~np.isfinite(N))[0][:10]]
+        raise _bad(model, f"real forces are not finite for member(s) {', '.join(bad)}")
+    unit = _unit_direction(model, direction)
+    EA, notes = member_stiffness(model, assume_equal_EA=assume_equal_EA)
+    t, route, solve_notes = solve_unit_load(model, joint, unit)
+    notes += solve_notes
+    b = len(model.members)
+    n = t[:b]
+    L = model.lengths
+    terms = n * N * L / EA
+    rows = tuple(
+        VirtualWorkRow(m.id, float(N[k]), float(n[k]), float(L[k]), float(EA[k]), float(terms[k]))
+        for k, m in enumerate(model.members)
+    )
+    reactions = tuple((r.label, float(t[b + k])) for k, r in enumerate(model.reactions))
+    return VirtualWorkCalc(
+        joint=joint, direction=tuple(float(c) for c in unit), rows=rows, deflection=float(terms.sum()),
+        unit_load_route=route, unit_reactions=reactions, equal_EA_assumed=assume_equal_EA is not None,
+        notes=tuple(notes),
+    )
+
+
+def _fmt(x: float) -> str:
+    if x == 0.0:
+        return "0"
+    return f"{x:.6g}"
+
+
+def render_virtual_work(calc: VirtualWorkCalc, model: Model) -> str:
+    """The hand calc as plain text: one row per member, the sum and the deflection."""
+    lu = model.units.length.symbol
+    fu = model.units.force.symbol
+    dir_text = "(" + ", ".join(_fmt(c) for c in calc.direction) + ")"
+    header = ["member", f"N ({fu})", "n (-)", f"L ({lu})", f"EA ({fu})", f"n N L / EA ({lu})"]
+    body = [[r.member, _fmt(r.real_force), _fmt(r.unit_force), _fmt(r.length), _fmt(r.EA), _fmt(r.term)]
+            for r in calc.rows]
+    widths = [max(len(h), *(len(row[k]) for row in body)) if body else len(h) for k, h in enumerate(header)]
+
+    def line(cells: list[str]) -> str:
+        return "  ".join(c.ljust(w) if k == 0 else c.rjust(w) for k, (c, w) in enumerate(zip(cells, widths, strict=True)))
+
+    out = [
+        f"Unit-load (virtual work) deflection of joint '{calc.joint}' along {dir_text}",
+        "1 x Delta = sum n N L / (EA)   (N: real forces, n: forces from a unit load at the joint; tension +)",
+        f"unit-load forces n: {calc.unit_load_route}",
+        "",
+        line(header),
+        line(["-" * w for w in widths]),
+        *(line(row) for row in body),
+        line(["-" * w for w in widths]),
+        line(["sum", "", "", "", "", _fmt(calc.deflection)]),
+        "",
+        f"Delta = {_fmt(calc.deflection)} {lu} along {dir_text}"
+        + (" (negative: the joint moves opposite to the unit load)" if calc.deflection < 0 else ""),
+    ]
+    if calc.equal_EA_assumed:
+        out.append(EQUAL_EA_NOTE)
+    out += [f"note: {n}" for n in calc.notes if n != EQUAL_EA_NOTE]
+    return "\n".join(out)

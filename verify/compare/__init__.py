@@ -1,0 +1,1 @@
+"""Comparison stage: claims + analysis results -> rows and findings. Knows nothing of files."""

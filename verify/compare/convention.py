@@ -1,0 +1,94 @@
+"""Inferring a claims table's sign convention and unit scale from the data.
+
+For every candidate (sign, factor) we count the members whose scaled claim agrees with the
+recomputed force. Factors are unit slips seen in practice (shared/REFERENCES.md 5.2; NIST SP 811
+App. B): x1000 (N<->kN, lbf<->kip), 4.4482216 (kip<->kN, lbf<->N), 4448.2216 (kip<->N),
+0.0044482 (lbf<->kN), 9.80665 (kgf<->N, tonne-force<->kN), 8.896443 (short ton-force<->kN),
+9.964016 (long ton-force<->kN), and their inverses.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+LBF = 4.4482216152605
+G_N = 9.80665
+UNIT_FACTORS: dict[float, str] = {
+    1000.0: "x1000 (N vs kN, or lbf vs kip)",
+    1e-3: "x0.001 (kN vs N, or kip vs lbf)",
+    LBF: f"x{LBF:.6g} (kip vs kN, or lbf vs N)",
+    1 / LBF: f"x{1 / LBF:.6g} (kN vs kip, or N vs lbf)",
+    1000 * LBF: f"x{1000 * LBF:.6g} (kip vs N)",
+    1 / (1000 * LBF): f"x{1 / (1000 * LBF):.6g} (N vs kip)",
+    LBF / 1000: f"x{LBF / 1000:.6g} (lbf vs kN)",
+    1000 / LBF: f"x{1000 / LBF:.6g} (kN vs lbf)",
+    G_N: f"x{G_N} (kgf vs N, or tonne-force vs kN)",
+    1 / G_N: f"x{1 / G_N:.6g} (N vs kgf, or kN vs tonne-force)",
+    2 * LBF: f"x{2 * LBF:.6g} (short ton-force vs kN)",
+    1 / (2 * LBF): f"x{1 / (2 * LBF):.6g} (kN vs short ton-force)",
+    2.24 * LBF: f"x{2.24 * LBF:.6g} (long ton-force vs kN)",
+    1 / (2.24 * LBF): f"x{1 / (2.24 * LBF):.6g} (kN vs long ton-force)",
+}
+
+MIN_MEMBERS_FOR_TABLE = 3  # fewer informative claims cannot tell a table convention from one slip
+MIN_SHARE = 0.5  # a convention must explain at least half of the informative claims
+
+
+@dataclass(frozen=True)
+class Fit:
+    sign: int  # +1 as written, -1 reversed (applies to values without T/C)
+    factor: float  # multiply claims (already in case units) by this
+    agree: int
+    informative: int
+
+    @property
+    def share(self) -> float:
+        return self.agree / self.informative if self.informative else 0.0
+
+
+def count_agreeing(claimed: np.ndarray, fixed: np.ndarray, computed: np.ndarray, allowed_rel: float,
+                   atol: np.ndarray, rounding: np.ndarray, sign: int, factor: float) -> int:
+    signs = np.where(fixed, 1.0, float(sign))
+    value = claimed * signs * factor
+    allowed = np.maximum(np.maximum(allowed_rel * np.maximum(np.abs(value), np.abs(computed)), atol), rounding * factor)
+    return int((np.abs(value - computed) <= allowed).sum())
+
+
+def best_fit(claimed: np.ndarray, fixed: np.ndarray, computed: np.ndarray, rtol: float, atol: np.ndarray,
+             rounding: np.ndarray, *, signs: tuple[int, ...] = (1, -1), factors: tuple[float, ...] | None = None) -> tuple[Fit, Fit]:
+    """(best fit, identity fit) over the candidate signs and factors, judged on informative pairs.
+
+    Informative pairs are those whose recomputed force is clearly non-zero; ties prefer the
+    identity, then the written sign.
+    """
+    informative = np.abs(computed) > atol
+    c, f, r, a, rd = claimed[informative], fixed[informative], computed[informative], atol[informative], rounding[informative]
+    n = int(informative.sum())
+    candidates = [1.0] + list(factors if factors is not None else UNIT_FACTORS)
+    identity = Fit(1, 1.0, count_agreeing(c, f, r, rtol, a, rd, 1, 1.0), n)
+    best = identity
+    for factor in candidates:
+        for sign in signs:
+            if sign == 1 and factor == 1.0:
+                continue
+            fit = Fit(sign, factor, count_agreeing(c, f, r, rtol, a, rd, sign, factor), n)
+            if fit.agree > best.agree:
+                best = fit
+    return best, identity
+
+
+def describe_factor(factor: float) -> str:
+    for known, text in UNIT_FACTORS.items():
+        if abs(known - factor) <= 1e-9 * known:
+            return text
+    return f"x{factor:.6g}"
+
+
+def matching_factor(ratio: float, rtol: float) -> float | None:
+    """The unit factor that `ratio` (claimed / computed) matches, if any."""
+    for factor in UNIT_FACTORS:
+        if abs(abs(ratio) - factor) <= rtol * factor:
+            return factor
+    return None

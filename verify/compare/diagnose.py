@@ -1,0 +1,503 @@
+"""Compare a claims table with the recomputed forces and explain every difference.
+
+Order of reasoning (each step only sees what the earlier ones left unexplained):
+1. map claims columns to load cases and combinations;
+2. settle the table's convention (sign, unit scale): stated by the reviewer, or inferred from the
+   data; a stated convention the data contradict is one finding, not N member errors;
+3. per member and load column: agrees, or sign flip, swapped pair, zero-force member, unit slip,
+   value mismatch; for indeterminate trusses, a difference that is a state of self-stress is
+   "not elastic" rather than wrong;
+4. independently, the equilibrium of the claimed forces at every joint they fully describe.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from enum import Enum
+from typing import Any
+
+import numpy as np
+
+from verify.analysis.pipeline import ROUTE_RTOL, Analysis
+from verify.analysis.stability import Classification
+from verify.compare.balance import JointImbalance, claims_balance
+from verify.compare.convention import (
+    MIN_MEMBERS_FOR_TABLE,
+    MIN_SHARE,
+    best_fit,
+    describe_factor,
+    matching_factor,
+)
+from verify.compare.findings import Finding, Severity, ordered
+from verify.compare.tolerances import Tolerance, rounding_allowance
+from verify.io.claims import ClaimedValue, ClaimsTable
+from verify.units import Dimension, factor, lookup_unit
+
+
+class SignMode(str, Enum):
+    TENSION_POSITIVE = "tension-positive"
+    COMPRESSION_POSITIVE = "compression-positive"
+    AUTO = "auto"
+
+
+class Verdict(str, Enum):
+    AGREES = "agrees"
+    DISCREPANCIES = "discrepancies"
+    CANNOT_VERIFY = "cannot-verify"
+
+
+@dataclass(frozen=True)
+class Convention:
+    sign: str  # "tension-positive" | "compression-positive"
+    scale: float  # claims (in the unit they state or are assumed to use) x scale = case units
+    inferred: bool
+    unit: str  # the unit the claims were read in (stated, from headers/cells, or assumed)
+    unit_source: str  # "option", "table", "assumed" or "inferred"
+    support: str  # how strongly the data support the convention, in words
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"sign": self.sign, "scale": self.scale, "inferred": self.inferred, "unit": self.unit,
+                "unit_source": self.unit_source, "support": self.support}
+
+
+@dataclass(frozen=True)
+class Row:
+    id: str
+    kind: str  # "member" | "reaction"
+    case: str
+    claimed: float | None  # in case units, tension-positive, convention applied
+    written: str  # as written (value and where)
+    joints: float | None
+    sections: float | None
+    global_: float | None
+    elastic: float | None
+    difference: float | None
+    status: str
+
+    @property
+    def recomputed(self) -> float | None:
+        for value in (self.global_, self.elastic):
+            if value is not None:
+                return value
+        return None
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"id": self.id, "kind": self.kind, "case": self.case, "claimed": self.claimed,
+                "joints": self.joints, "sections": self.sections, "global": self.global_,
+                "elastic": self.elastic, "difference": self.difference, "status": self.status,
+                "written": self.written}
+
+
+@dataclass(frozen=True)
+class Review:
+    verdict: Verdict
+    analysis: Analysis
+    claims: ClaimsTable
+    convention: Convention
+    tolerance: Tolerance
+    rows: tuple[Row, ...]
+    findings: tuple[Finding, ...]
+    checked_cases: tuple[str, ...]
+    checked_members: int
+    imbalances: tuple[JointImbalance, ...] = ()
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def exit_code(self) -> int:
+        return {Verdict.AGREES: 0, Verdict.DISCREPANCIES: 1, Verdict.CANNOT_VERIFY: 3}[self.verdict]
+
+
+# -- column mapping ------------------------------------------------------------------------------
+def _norm(name: str) -> str:
+    return re.sub(r"[^0-9a-z]", "", name.casefold())
+
+
+def map_columns(columns: list[str], load_names: list[str]) -> dict[str, str | None]:
+    """Claims column -> load name (exact, then case-insensitive, then ignoring punctuation)."""
+    out: dict[str, str | None] = {}
+    for column in columns:
+        if column in load_names:
+            out[column] = column
+            continue
+        if column == "" and len(load_names) == 1:
+            out[column] = load_names[0]
+            continue
+        folded = [n for n in load_names if n.casefold() == column.casefold()]
+        loose = [n for n in load_names if _norm(n) == _norm(column)]
+        out[column] = folded[0] if len(folded) == 1 else loose[0] if len(loose) == 1 else None
+    return out
+
+
+# -- the comparison ------------------------------------------------------------------------------
+def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = SignMode.AUTO,
+                   unit: str | None = None, tolerance: Tolerance | None = None) -> Review:
+    """Rows and findings for every claim; `unit` None means auto (from the table, else inferred)."""
+    tol = tolerance or Tolerance()
+    model = analysis.model
+    findings: list[Finding] = []
+    notes: list[str] = []
+    case_unit = model.units.force
+    load_names = model.load_names
+    columns = list(dict.fromkeys(v.column for v in claims.values))
+    mapping = map_columns(columns, load_names)
+    ref = analysis.reference
+    stab = analysis.stability
+
+    # Structure-level findings.
+    if stab.classification is Classification.UNSTABLE:
+        modes = "; ".join(
+            f"mechanism {k + 1} moves joints {', '.join(m.joints[:6])}" for k, m in enumerate(stab.mechanism_modes[:3])
+        )
+        findings.append(Finding("mechanism", (), f"the truss is unstable: {stab.mechanisms}{'' if stab.exact_counts else '+'} "
+                                f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; Maxwell count "
+                                f"b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be recomputed.", Severity.BLOCKER))
+    elif stab.classification is Classification.STABLE_INDETERMINATE:
+        members_ss = sorted({m for mode in stab.self_stress_modes for m in mode.members})
+        if ref is None:
+            findings.append(Finding("indeterminate", tuple(members_ss[:50]), f"statically indeterminate to degree {stab.self_stress} "
+                                    "and member stiffness (EA) is not given for every member: statics cannot tell how the force is shared "
+                                    "among the redundant members, so only the equilibrium of the claimed forces is checked.", Severity.BLOCKER))
+        else:
+            findings.append(Finding("indeterminate", tuple(members_ss[:50]), f"statically indeterminate to degree {stab.self_stress}: "
+                                    "claims are compared with the elastic (direct stiffness) solution for the given EA"
+                                    + (" — equal EA was ASSUMED for every member" if getattr(analysis.elastic, "equal_EA_assumed", False) else ""),
+                                    Severity.INFO))
+    if stab.ill_conditioned:
+        findings.append(Finding("ill-conditioned", (), f"near-mechanism geometry: sigma_min/sigma_max = {stab.sigma_ratio:.2e}, "
+                                f"scaled by slenderness^2 = {stab.scaled_ratio:.2e}; small changes of geometry change the forces a lot",
+                                Severity.INFO))
+    if analysis.route_disagreement > ROUTE_RTOL:
+        findings.append(Finding("ill-conditioned", (), f"the method of joints, the section cuts and the global solve disagree by "
+                                f"{analysis.route_disagreement:.2e} of the largest force (more than round-off, {ROUTE_RTOL:g}): "
+                                "suspect a nearly unstable geometry or a modelling problem", Severity.INFO))
+
+    # Unknown labels and columns.
+    for u in claims.unmatched:
+        hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
+        what = "matches several members" if u.reason == "ambiguous" else "is not a member or reaction of the model"
+        findings.append(Finding("unknown-label", (u.label,), f"'{u.label}' ({u.where}) {what}{hint}", Severity.ERROR))
+
+    # Units: per value, the unit it states (cell or header), else the option, else the case unit.
+    option_unit = lookup_unit(unit, Dimension.FORCE) if unit else None
+    stated_units = {v.unit for v in claims.values if v.unit}
+    conv = np.ones(len(claims.values))
+    for i, v in enumerate(claims.values):
+        source = lookup_unit(v.unit, Dimension.FORCE) if v.unit else option_unit or case_unit
+        conv[i] = factor(source, case_unit)
+    unit_stated = bool(stated_units) or option_unit is not None
+    unit_label = (", ".join(sorted(stated_units)) if stated_units else (option_unit.symbol if option_unit else case_unit.symbol))
+    unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
+
+    # Gather comparable member claims.
+    member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
+    comparable = ref is not None and stab.classification is not Classification.UNSTABLE
+    scale_of: dict[str, float] = {}
+    if ref is not None:
+        for k, name in enumerate(load_names):
+            column = ref.member_forces[:, k]
+            scale_of[name] = float(np.nanmax(np.abs(column))) if column.size else 0.0
+
+    def computed_for(v: ClaimedValue) -> float:
+        assert ref is not None
+        return float(ref.member_forces[model.member_index[v.member], ref.column(mapping[v.column])])  # type: ignore[index,arg-type]
+
+    def atol_for(v: ClaimedValue) -> float:
+        return tol.atol_fraction * scale_of.get(mapping[v.column] or "", 0.0)
+
+    # Case mismatch: a column that fits another load column much better than its own.
+    remap: dict[str, str] = {}
+    if comparable and ref is not None:
+        for column in columns:
+            rows = [(i, v) for i, v in member_claims if v.column == column]
+            if len(rows) < MIN_MEMBERS_FOR_TABLE:
+                continue
+            scores = {}
+            for k, name in enumerate(load_names):
+                vals = np.array([claims.values[i].value * conv[i] for i, _ in rows])
+                comp = np.array([ref.member_forces[model.member_index[v.member], k] for _, v in rows])  # type: ignore[index]
+                fixed = np.array([v.sign_fixed for _, v in rows])
+                atol = np.full(len(rows), tol.atol_fraction * (float(np.nanmax(np.abs(ref.member_forces[:, k]))) or 1.0))
+                rnd = np.array([rounding_allowance(claims.values[i].value, conv[i]) for i, _ in rows])
+                best, _ = best_fit(vals, fixed, comp, tol.rtol, atol, rnd, factors=())
+                scores[name] = best.share
+            named = mapping.get(column)
+            top = max(scores, key=lambda n: scores[n])
+            named_score = scores.get(named, 0.0) if named else 0.0
+            if top != named and scores[top] >= 0.9 and named_score < 0.5:
+                if named is None:
+                    findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model; "
+                                            f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
+                                            Severity.ERROR, case=top))
+                else:
+                    findings.append(Finding("case-mismatch", (), f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
+                                            f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
+                                            Severity.ERROR, case=top))
+                remap[column] = top
+    for column, name in mapping.items():
+        if name is None and column not in remap:
+            findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model "
+                                    f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR))
+    mapping.update(remap)
+    member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
+
+    # Table convention.
+    sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
+    all_fixed = bool(member_claims) and all(v.sign_fixed for _, v in member_claims)
+    support = "no recomputed forces to compare with"
+    stated_sign = {SignMode.TENSION_POSITIVE: 1, SignMode.COMPRESSION_POSITIVE: -1}.get(sign, 1)
+    if comparable and member_claims:
+        vals = np.array([v.value * conv[i] * (stated_sign if not v.sign_fixed else 1) for i, v in member_claims])
+        comp = np.array([computed_for(v) for _, v in member_claims])
+        fixed = np.array([v.sign_fixed for _, v in member_claims])
+        atol = np.array([atol_for(v) for _, v in member_claims])
+        rnd = np.array([rounding_allowance(v.value, conv[i]) for i, v in member_claims])
+        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol, rnd)
+        n = best.informative
+        support = f"{identity.agree} of {n} informative claims agree as read"
+        table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
+        if table_level:
+            sign_fit, scale_fit = best.sign, best.factor
+            support = f"{best.agree} of {n} informative claims agree when read this way ({identity.agree} as written)"
+            involved = tuple(v.member for _, v in member_claims)  # type: ignore[misc]
+            severity = Severity.INFO if sign is SignMode.AUTO else Severity.ERROR
+            if best.sign == -1 and not all_fixed:
+                told = "no sign convention was stated" if sign is SignMode.AUTO else f"the table was declared {sign.value}"
+                findings.append(Finding("table-sign-convention", involved[:0], f"{told}, but the data show the opposite convention: "
+                                        f"{'compression' if stated_sign == 1 else 'tension'} is written positive throughout "
+                                        f"({best.agree} of {n} members agree when every sign is reversed, {identity.agree} as written)",
+                                        severity))
+            if best.factor != 1.0:
+                sev = Severity.ERROR if unit_stated else Severity.INFO
+                told = f"the table states {unit_label}" if unit_stated else f"no unit was stated (assumed {case_unit.symbol})"
+                findings.append(Finding("unit-scale", (), f"{told}, but every value is off by a unit factor {describe_factor(best.factor)}: "
+                                        f"{best.agree} of {n} members agree once scaled ({identity.agree} as written)", sev))
+        elif sign is not SignMode.AUTO:
+            inferred = False
+        if all_fixed:
+            support = "signs settled by T/C suffixes; " + support
+    effective_sign = stated_sign * sign_fit
+    convention = Convention(
+        sign="tension-positive" if effective_sign == 1 else "compression-positive",
+        scale=float(scale_fit * (conv[0] if len(conv) and len(set(np.round(conv, 12))) == 1 else 1.0)),
+        inferred=inferred or scale_fit != 1.0,
+        unit=unit_label if scale_fit == 1.0 else f"{unit_label} (read {describe_factor(scale_fit)})",
+        unit_source=unit_source if scale_fit == 1.0 else "inferred",
+        support=support,
+    )
+
+    # Per-claim rows.
+    rows: list[Row] = []
+    claimed_matrix = np.full((len(model.members), len(load_names)), np.nan)
+    reaction_claims: dict[tuple[int, int], float] = {}
+    flagged: dict[str, set[str]] = {}
+    diffs: list[tuple[int, ClaimedValue, float, float, float]] = []  # (row index, claim, value, computed, allowed)
+    seen_pairs: set[tuple[str, str]] = set()
+    for i, v in enumerate(claims.values):
+        name = mapping.get(v.column)
+        if name is None:
+            continue
+        k = load_names.index(name)
+        signed = v.value if v.sign_fixed else v.value * effective_sign
+        value = signed * conv[i] * scale_fit
+        rounding = rounding_allowance(v.value, conv[i] * scale_fit)
+        written = f"{v.value:g}{' (T/C)' if v.sign_fixed else ''} at {v.where}"
+        if v.reaction is not None:
+            joint, axis = v.reaction
+            # Reactions are global components: the table sign convention for T/C does not apply.
+            value = v.value * conv[i] * scale_fit
+            idx = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
+            computed = None
+            if ref is not None and idx:
+                computed = float(ref.reactions[idx[0], k])
+                reaction_claims[(idx[0], k)] = value
+            status = "not-verifiable" if computed is None else (
+                "agrees" if tol.agrees(value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding) else "value-mismatch")
+            rows.append(Row(f"{joint}.{axis}", "reaction", name, value, written, None, None, computed, None,
+                            None if computed is None else value - computed, status))
+            if status == "value-mismatch" and computed is not None:
+                findings.append(Finding("value-mismatch", (f"{joint}.{axis}",), f"reaction {joint}.{axis} in '{name}': claimed "
+                                        f"{value:.4g}, recomputed {computed:.4g} {case_unit.symbol}", Severity.ERROR, case=name))
+            continue
+        assert v.member is not None
+        m = model.member_index[v.member]
+        seen_pairs.add((v.member, name))
+        claimed_matrix[m, k] = value
+        joints_v = sections_v = global_v = elastic_v = None
+        if analysis.joints is not None:
+            joints_v = float(analysis.joints.forces.member_forces[m, k])
+        if analysis.sections is not None:
+            sv = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
+            sections_v = sv if np.isfinite(sv) else None
+        if analysis.global_ is not None:
+            global_v = float(analysis.global_.member_forces[m, k])
+        if analysis.elastic is not None:
+            elastic_v = float(analysis.elastic.forces.member_forces[m, k])  # type: ignore[attr-defined]
+        computed = global_v if global_v is not None else elastic_v
+        if computed is None or not comparable:
+            rows.append(Row(v.member, "member", name, value, written, joints_v, sections_v, global_v, elastic_v, None, "not-verifiable"))
+            continue
+        atol = tol.atol_fraction * scale_of.get(name, 0.0)
+        allowed = tol.allowed(value, computed, atol, rounding)
+        if abs(value - computed) <= allowed:
+            status = "agrees"
+            if sign_fit == -1 and not v.sign_fixed and abs(computed) > atol and sign is not SignMode.AUTO:
+                status = "table-sign-convention"
+            elif scale_fit != 1.0 and abs(computed) > atol and unit_stated:
+                status = "unit-scale"
+        else:
+            status = "value-mismatch"
+            diffs.append((len(rows), v, value, computed, allowed))
+        rows.append(Row(v.member, "member", name, value, written, joints_v, sections_v, global_v, elastic_v, value - computed, status))
+
+    # Explain the mismatches: swapped pairs first (they need two rows), then single causes.
+    explained: set[int] = set()
+    by_case: dict[str, list[tuple[int, ClaimedValue, float, float, float]]] = {}
+    for item in diffs:
+        by_case.setdefault(rows[item[0]].case, []).append(item)
+    for name, items in by_case.items():
+        if len(items) > 2000:
+            continue  # a table this wrong is not a pair of swapped labels
+        for a in range(len(items)):
+            for b in range(a + 1, len(items)):
+                ra, va, xa, ca, _ = items[a]
+                rb, vb, xb, cb, _ = items[b]
+                if ra in explained or rb in explained:
+                    continue
+                atol = tol.atol_fraction * scale_of.get(name, 0.0)
+                if (tol.agrees(xa, cb, atol, rounding_allowance(va.value, 1.0)) and tol.agrees(xb, ca, atol, rounding_allowance(vb.value, 1.0))
+                        and not tol.agrees(ca, cb, atol)):
+                    explained.update((ra, rb))
+                    for r in (ra, rb):
+                        rows[r] = _with_status(rows[r], "swapped-labels")
+                    findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
+                                            f"({xa:.4g}) and {vb.member} ({xb:.4g}) match each other's recomputed forces "
+                                            f"({cb:.4g} and {ca:.4g} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
+    elastic_rows: list[int] = []
+    for r, v, value, computed, allowed in diffs:
+        if r in explained:
+            continue
+        member = v.member
+        assert member is not None
+        name = rows[r].case
+        atol = tol.atol_fraction * scale_of.get(name, 0.0)
+        rounding = rounding_allowance(v.value, 1.0)
+        if abs(computed) <= atol:
+            rows[r] = _with_status(rows[r], "zero-force-claimed")
+            findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {value:.4g} {case_unit.symbol}, "
+                                    "but it is a zero-force member under this loading", Severity.ERROR, case=name))
+            continue
+        if tol.agrees(-value, computed, atol, rounding):
+            rows[r] = _with_status(rows[r], "sign-flip")
+            how = "the T/C mark" if v.sign_fixed else "the sign"
+            findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {value:.4g} but recomputed {computed:.4g} "
+                                    f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed", Severity.ERROR, case=name))
+            continue
+        ratio = value / computed
+        unit_factor = matching_factor(ratio, tol.rtol)
+        if unit_factor is not None:
+            rows[r] = _with_status(rows[r], "unit-scale")
+            findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {value:.4g}, recomputed {computed:.4g} "
+                                    f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {describe_factor(unit_factor)}"
+                                    + ("" if ratio > 0 else " with the sign also reversed"), Severity.ERROR, case=name))
+            continue
+        if analysis.elastic is not None:
+            elastic_rows.append(r)
+            continue
+        pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
+        findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {value:.4g}, recomputed {computed:.4g} "
+                                f"{case_unit.symbol} (difference {value - computed:+.4g}, {pct:.1f} %; allowed {allowed:.3g})",
+                                Severity.ERROR, case=name))
+
+    # Indeterminate with stiffness: split remaining differences into self-stress and the rest.
+    if elastic_rows:
+        findings.extend(_elastic_split(analysis, rows, elastic_rows, claimed_matrix, load_names, tol, case_unit.symbol))
+
+    for f in findings:
+        if f.severity is Severity.ERROR:
+            for member in f.members:
+                flagged.setdefault(f.case or "", set()).add(member)
+
+    # Missing claims (informational), per load column that has claims.
+    checked_cases = tuple(n for n in load_names if any(c == n for _, c in seen_pairs))
+    for name in checked_cases:
+        missing = [mid for mid in model.member_ids if (mid, name) not in seen_pairs]
+        if missing:
+            shown = ", ".join(missing[:20]) + (f" and {len(missing) - 20} more" if len(missing) > 20 else "")
+            findings.append(Finding("missing-claim", tuple(missing), f"'{name}': no claim for {len(missing)} of {len(model.members)} "
+                                    f"members ({shown}); they are not checked", Severity.INFO, case=name))
+            for mid in missing:
+                m = model.member_index[mid]
+                k = load_names.index(name)
+                g = float(analysis.global_.member_forces[m, k]) if analysis.global_ is not None else None
+                e = float(analysis.elastic.forces.member_forces[m, k]) if analysis.elastic is not None else None  # type: ignore[attr-defined]
+                jv = float(analysis.joints.forces.member_forces[m, k]) if analysis.joints is not None else None
+                sv = None
+                if analysis.sections is not None:
+                    s_val = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
+                    sv = s_val if np.isfinite(s_val) else None
+                rows.append(Row(mid, "member", name, None, "", jv, sv, g, e, None, "missing-claim"))
+
+    # Equilibrium of the claims themselves.
+    imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol)
+    if imbalances:
+        unexplained = [b for b in imbalances if not (set(b.members) & flagged.get(b.case, set()))]
+        if unexplained or ref is None or stab.classification is Classification.UNSTABLE:
+            shown = unexplained or list(imbalances)
+            worst = sorted(shown, key=lambda b: -b.size)[:8]
+            text = "; ".join(f"joint {b.joint} in '{b.case}' is out of balance by {b.size:.3g} {case_unit.symbol}" for b in worst)
+            sev = Severity.ERROR
+            findings.append(Finding("equilibrium-residual", tuple(sorted({m for b in shown for m in b.members}))[:40],
+                                    f"the claimed forces stop balancing at {len(shown)} joint(s): {text}", sev))
+    checked_members = len({mid for mid, _ in seen_pairs})
+    findings = ordered(findings)
+    verdict = _verdict(findings, stab.classification, ref is not None)
+    if not seen_pairs and not any(r.kind == "reaction" for r in rows):
+        notes.append("no claim could be matched to a member and load case of the model")
+        if verdict is Verdict.AGREES:
+            verdict = Verdict.CANNOT_VERIFY
+    return Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
+                  checked_members, tuple(imbalances), tuple(notes))
+
+
+def _with_status(row: Row, status: str) -> Row:
+    return Row(row.id, row.kind, row.case, row.claimed, row.written, row.joints, row.sections, row.global_,
+               row.elastic, row.difference, status)
+
+
+def _verdict(findings: list[Finding], classification: Classification, has_reference: bool) -> Verdict:
+    if classification is Classification.UNSTABLE:
+        return Verdict.CANNOT_VERIFY
+    if any(f.severity is Severity.ERROR for f in findings):
+        return Verdict.DISCREPANCIES
+    if any(f.severity is Severity.BLOCKER for f in findings):
+        return Verdict.CANNOT_VERIFY
+    return Verdict.AGREES
+
+
+def _elastic_split(analysis: Analysis, rows: list[Row], elastic_rows: list[int], claimed: np.ndarray,
+                   load_names: list[str], tol: Tolerance, unit: str) -> list[Finding]:
+    """Differences on an indeterminate truss: self-stress (not elastic) versus equilibrium violation."""
+    from verify.analysis.selfstress import decompose_claims
+
+    model = analysis.model
+    out: list[Finding] = []
+    elastic = analysis.elastic.forces  # type: ignore[union-attr]
+    for name in sorted({rows[r].case for r in elastic_rows}):
+        k = load_names.index(name)
+        mask = np.isfinite(claimed[:, k])
+        dec = decompose_claims(model, np.nan_to_num(claimed[:, k]), mask, elastic.member_forces[:, k], k, None)
+        scale = float(np.nanmax(np.abs(elastic.member_forces[:, k]))) or 1.0
+        violation = np.abs(dec.equilibrium_violation)
+        for r in (r for r in elastic_rows if rows[r].case == name):
+            m = model.member_index[rows[r].id]
+            if violation[m] <= max(tol.rtol * abs(rows[r].claimed or 0.0), tol.atol_fraction * scale):
+                rows[r] = _with_status(rows[r], "not-elastic")
+            else:
+                out.append(Finding("value-mismatch", (rows[r].id,), f"{rows[r].id} in '{name}': claimed {rows[r].claimed:.4g}, "
+                                   f"elastic {rows[r].elastic:.4g} {unit}; the difference breaks equilibrium", Severity.ERROR, case=name))
+        if dec.self_stress_size > tol.atol_fraction * scale:
+            out.append(Finding("not-elastic", tuple(dec.self_stress_members), f"in '{name}' the claims differ from the elastic solution by a "
+                               f"state of self-stress of size {dec.self_stress_size:.3g} {unit}: they satisfy equilibrium, but assume "
+                               "other member stiffnesses, an erection sequence or a lack of fit than the EA given", Severity.ERROR, case=name))
+    return out

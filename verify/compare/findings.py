@@ -1,0 +1,67 @@
+"""Finding kinds, their severity and their wording, in one table."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from enum import Enum
+
+
+class Severity(str, Enum):
+    ERROR = "error"  # the claims disagree: the verdict becomes "discrepancies"
+    BLOCKER = "blocker"  # the truss cannot be verified: the verdict becomes "cannot-verify"
+    INFO = "info"  # worth knowing, never changes the verdict by itself
+
+
+@dataclass(frozen=True)
+class Kind:
+    name: str
+    title: str  # a plain heading for reports
+    rank: int  # lower is more serious, for ordering findings
+
+
+KINDS: dict[str, Kind] = {k.name: k for k in (
+    Kind("mechanism", "The truss is unstable (mechanism)", 0),
+    Kind("equilibrium-residual", "Claimed forces do not balance", 1),
+    Kind("value-mismatch", "Claimed value differs", 2),
+    Kind("case-mismatch", "Claims column fits another load case", 3),
+    Kind("table-sign-convention", "Whole table in the opposite sign convention", 4),
+    Kind("unit-scale", "Values off by a unit factor", 5),
+    Kind("swapped-labels", "Two member labels swapped", 6),
+    Kind("sign-flip", "Single sign reversed (T/C)", 7),
+    Kind("zero-force-claimed", "Force claimed for a zero-force member", 8),
+    Kind("unknown-label", "Label not in the model", 9),
+    Kind("not-elastic", "Equilibrium holds; distribution differs from the elastic solution", 10),
+    Kind("ill-conditioned", "Near-unstable geometry", 11),
+    Kind("indeterminate", "Statically indeterminate", 12),
+    Kind("missing-claim", "No claim for some members", 13),
+)}
+
+
+@dataclass(frozen=True)
+class Finding:
+    kind: str
+    members: tuple[str, ...]
+    detail: str
+    severity: Severity
+    case: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.kind not in KINDS:
+            raise ValueError(f"unknown finding kind {self.kind!r}")
+
+    @property
+    def title(self) -> str:
+        return KINDS[self.kind].title
+
+    def as_dict(self) -> dict[str, object]:
+        out: dict[str, object] = {"kind": self.kind, "members": list(self.members), "detail": self.detail,
+                                  "severity": self.severity.value}
+        if self.case is not None:
+            out["case"] = self.case
+        return out
+
+
+def ordered(findings: list[Finding]) -> list[Finding]:
+    """Most serious first: blockers, errors, then information; within a level by kind."""
+    level = {Severity.BLOCKER: 0, Severity.ERROR: 1, Severity.INFO: 2}
+    return sorted(findings, key=lambda f: (level[f.severity], KINDS[f.kind].rank))

@@ -1,0 +1,54 @@
+"""Tolerances for "agrees" (shared/REFERENCES.md 5.1).
+
+A claimed value agrees with the recomputed one when
+``|claimed - computed| <= max(rtol * max(|claimed|, |computed|), atol, rounding)``:
+
+- RTOL = 1 %: a value rounded to 3 significant figures is within 0.5 % (arithmetic); intermediate
+  rounding in a careful hand calc reaches about 1 % (common practice; Beer & Johnston, *Vector
+  Mechanics for Engineers: Statics*, "Numerical accuracy": better than 0.2 % is seldom meaningful).
+- ATOL_FRACTION = 1e-3 of the largest recomputed member force in that load column, so a member
+  that is zero in theory and claimed as 0.001 x the largest force is not an error (common practice).
+- rounding: half a unit in the last decimal the claimant wrote, so honest rounding to fixed
+  decimals (e.g. "0.3" for 0.25) is never flagged.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+RTOL = 0.01
+ATOL_FRACTION = 1e-3
+MAX_DECIMALS = 6
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    rtol: float = RTOL
+    atol_fraction: float = ATOL_FRACTION
+
+    def allowed(self, claimed: float, computed: float, atol: float, rounding: float = 0.0) -> float:
+        return max(self.rtol * max(abs(claimed), abs(computed)), atol, rounding)
+
+    def agrees(self, claimed: float, computed: float, atol: float, rounding: float = 0.0) -> bool:
+        return abs(claimed - computed) <= self.allowed(claimed, computed, atol, rounding)
+
+
+def written_decimals(value: float) -> int:
+    """How many decimals a number seems to have been written with (0..MAX_DECIMALS)."""
+    if not math.isfinite(value):
+        return MAX_DECIMALS
+    for k in range(MAX_DECIMALS + 1):
+        if abs(value - round(value, k)) <= 1e-9 * max(1.0, abs(value)):
+            return k
+    return MAX_DECIMALS
+
+
+def rounding_allowance(raw_value: float, scale: float) -> float:
+    """Half a unit in the last written decimal, in the case's units (after scaling)."""
+    k = written_decimals(raw_value)
+    if k >= MAX_DECIMALS:
+        return 0.0
+    # Whole numbers written as e.g. "12" are read as 0 decimals, but many tables round to
+    # 3 significant figures instead; the relative tolerance covers those.
+    return 0.5 * 10.0 ** (-k) * abs(scale) * 1.0001

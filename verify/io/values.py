@@ -1,0 +1,181 @@
+"""Force cells of a claimed table, as people actually write them.
+
+Accepted, with the reading each gets (tension positive once a T/C suffix settles the sign):
+
+- signed numbers ``-12.4``, ``+3``, ``1e3``; Unicode minus and dashes (− – —) read as a minus;
+- a T/C suffix ``12.4 C``, ``12.4T``, ``12.4 (C)``, ``12.4 tension``: T gives +|v|, C gives -|v|;
+  ``-12.4 C`` is read as compression (the minus is redundant, not contradictory), but ``-12.4 T``
+  contradicts itself and is refused;
+- accounting parentheses ``(12.4)`` for a negative number;
+- thousands separators in consistent groups of three: ``1,234.5``, ``1 234.5``, ``1'234.5`` (and
+  ``1.234,5`` / ``1 234,5`` where the table uses decimal commas);
+- a decimal comma ``12,4`` where the table uses decimal commas (a ``;``-separated CSV);
+- a force unit in the cell, before or after the T/C suffix: ``12.4 kN``, ``3.1kip``, ``12.4 kN C``.
+
+Refused with a message (never read as zero): empty text, spreadsheet error values and NaN words
+(``nan``, ``#N/A``, ``#VALUE!``), infinities, a lower-case ``t``/``c`` suffix (``t`` may mean
+tonnes), separators that fit no grouping (``12,4.0``), and a comma that could be a decimal or a
+thousands separator when the table's convention does not settle it.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+from verify.units import Dimension, lookup_unit
+
+# Characters read as a minus sign: U+2212 minus, U+2012 figure dash, U+2013 en dash, U+2014 em
+# dash, U+FE63 small hyphen-minus, U+FF0D fullwidth hyphen-minus.
+MINUS_SIGNS = "\u2212\u2012\u2013\u2014\ufe63\uff0d"
+# Spaces people (and spreadsheets) put between digit groups: space, no-break, thin, narrow no-break.
+GROUP_SPACES = " \u00a0\u2009\u202f"
+GROUP_APOSTROPHES = "'\u2019"
+
+# Texts that spreadsheets and data tools write for a missing or failed value (compared lower-case).
+NAN_TEXTS = frozenset(
+    {
+        "nan", "-nan", "+nan", "na", "n/a", "#n/a", "#na", "null", "none",
+        "#value!", "#div/0!", "#ref!", "#name?", "#num!", "#null!", "#getting_data", "#spill!",
+        "#calc!", "#field!", "#unknown!", "#blocked!", "#connect!", "#busy!",
+        "inf", "+inf", "-inf", "infinity", "+infinity", "-infinity", "#inf", "1.#inf", "-1.#inf",
+    }
+)
+
+_TC_WORDS = {"tension": "T", "compression": "C"}
+_TC_TAIL = re.compile(
+    r"""(?:\(\s*(?P<paren>[TC]|(?i:tension|compression))\s*\)|(?P<bare>\b(?i:tension|compression)|[TC]))\s*$"""
+)
+_LOWER_TC_TAIL = re.compile(r"(?:\d|\s|\))(?P<letter>[tc])\s*$")
+_UNIT_TAIL = re.compile(r"(?P<unit>[A-Za-z][A-Za-z\-]*)\s*$")
+_SCIENTIFIC = re.compile(r"^(\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+$")
+
+
+def normalize_text(text: str) -> str:
+    """Minus-like dashes to '-', no-break and thin spaces to ' ', outer whitespace removed."""
+    table = {ord(c): "-" for c in MINUS_SIGNS}
+    table.update({ord(c): " " for c in GROUP_SPACES[1:]})
+    return text.translate(table).strip()
+
+
+def is_nan_text(text: str) -> bool:
+    """True for the words and error codes that stand for a missing or failed value."""
+    return normalize_text(text).lower() in NAN_TEXTS
+
+
+def _expectation(original: str) -> str:
+    return f"force '{original}' is not a number with an optional T/C suffix"
+
+
+def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, bool, str | None]:
+    """(value, sign_fixed, unit symbol or None); ValueError with a message on bad text.
+
+    `decimal_comma` says the table writes ',' as the decimal point (a ';'-separated CSV); then '.'
+    and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
+    """
+    original = str(text).strip()
+    s = normalize_text(str(text))
+    if not s:
+        raise ValueError("force is empty; leave the cell blank when there is no claim")
+    if s.lower() in NAN_TEXTS:
+        raise ValueError(
+            f"force '{original}' is not a number (a missing value or spreadsheet error); "
+            "leave the cell blank when there is no claim, or give the value"
+        )
+
+    tc: str | None = None
+    unit: str | None = None
+    # The T/C suffix and the unit may come in either order ("12.4 kN C", "12.4 C kN").
+    for _ in range(2):
+        if tc is None:
+            m = _TC_TAIL.search(s)
+            if m and m.start() > 0:
+                word = (m.group("paren") or m.group("bare")).lower()
+                tc = _TC_WORDS.get(word, word.upper())
+                s = s[: m.start()].rstrip()
+                continue
+        if unit is None:
+            low = _LOWER_TC_TAIL.search(s)
+            if low and tc is None:
+                letter = low.group("letter")
+                raise ValueError(
+                    f"{_expectation(original)}: write '{letter.upper()}' for "
+                    f"{'tension' if letter == 't' else 'compression'} (a lower-case '{letter}' may be read as a unit)"
+                )
+            m = _UNIT_TAIL.search(s)
+            if m and m.start() > 0:
+                word = m.group("unit")
+                try:
+                    unit = lookup_unit(word, Dimension.FORCE).symbol
+                except ValueError as exc:
+                    raise ValueError(f"{_expectation(original)}: {exc}") from None
+                s = s[: m.start()].rstrip()
+                continue
+        break
+
+    negative = False
+    accounting = False
+    if s.startswith("(") and s.endswith(")"):
+        accounting = True
+        negative = True
+        s = s[1:-1].strip()
+    if s[:1] in "+-" and s:
+        if accounting:
+            raise ValueError(f"{_expectation(original)}: parentheses already mean negative; drop the sign")
+        negative = s[0] == "-"
+        s = s[1:].strip()
+    magnitude = _parse_magnitude(s, decimal_comma=decimal_comma, original=original)
+    if not math.isfinite(magnitude):
+        raise ValueError(f"force '{original}' is out of range (not a finite number)")
+
+    if tc == "T":
+        if negative:
+            raise ValueError(
+                f"force '{original}' is negative but marked T (tension); write the magnitude with T, "
+                "or a signed number without T/C"
+            )
+        return abs(magnitude), True, unit
+    if tc == "C":
+        return -abs(magnitude), True, unit
+    return (-magnitude if negative else magnitude), False, unit
+
+
+def _parse_magnitude(s: str, *, decimal_comma: bool, original: str) -> float:
+    """An unsigned number with optional digit grouping, per the table's decimal convention."""
+    if not s:
+        raise ValueError(_expectation(original))
+    if _SCIENTIFIC.match(s):
+        return float(s)
+    if decimal_comma and re.fullmatch(r"(\d+(?:,\d*)?|,\d+)[eE][+-]?\d+", s):
+        return float(s.replace(",", "."))
+    decimal, thousands_marks = (",", ".") if decimal_comma else (".", ",")
+    separators = thousands_marks + GROUP_SPACES[0] + GROUP_APOSTROPHES
+    if re.fullmatch(r"\d+", s):
+        return float(s)
+    # Plain decimal in the table's own convention.
+    m = re.fullmatch(rf"(\d*)\{decimal}(\d*)", s)
+    if m and (m.group(1) or m.group(2)):
+        return float(f"{m.group(1) or '0'}.{m.group(2) or '0'}")
+    # Grouped thousands: one kind of separator, groups of exactly three digits.
+    for sep in separators:
+        # Space- or apostrophe-grouped numbers settle the decimal mark themselves: '1 234,5' and
+        # '1 234.5' can each be read only one way, whatever the table's convention.
+        marks = "[.,]" if sep in GROUP_SPACES + GROUP_APOSTROPHES else rf"\{decimal}"
+        m = re.fullmatch(rf"(\d{{1,3}}(?:{re.escape(sep)}\d{{3}})+)(?:{marks}(\d*))?", s)
+        if m:
+            if decimal_comma and sep == "." and m.group(2) is None and m.group(1).count(".") == 1:
+                raise ValueError(
+                    f"force '{original}' is ambiguous: in a table with decimal commas '.' groups "
+                    "thousands, but it may be a decimal point here; write it without grouping"
+                )
+            whole = m.group(1).replace(sep, "")
+            return float(f"{whole}.{m.group(2) or '0'}")
+    if decimal_comma and re.fullmatch(r"\d+\.\d+", s):
+        # A decimal point in a decimal-comma table: unambiguous when it cannot be a thousands group.
+        return float(s)
+    if not decimal_comma and re.fullmatch(r"\d+,\d+", s):
+        raise ValueError(
+            f"{_expectation(original)}: ',' is neither a thousands separator (groups of three "
+            "digits) nor the decimal point of this table; write a decimal point"
+        )
+    raise ValueError(_expectation(original))

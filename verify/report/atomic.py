@@ -1,0 +1,42 @@
+"""Atomic report writing: a temp file in the target folder, fsync, then os.replace.
+
+A failed write leaves the old target untouched (click's atomic helper would replace it even after
+an exception inside the block). Writing over an input file is refused.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from collections.abc import Iterable
+from pathlib import Path
+
+
+class OutputError(ValueError):
+    """A report cannot be written where asked (exit status 2)."""
+
+
+def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str | Path] = ()) -> Path:
+    target = Path(path)
+    resolved = target.resolve()
+    for source in inputs:
+        if Path(source).resolve() == resolved:
+            raise OutputError(f"{target}: refusing to write a report over an input file")
+    folder = resolved.parent
+    if not folder.is_dir():
+        raise OutputError(f"{target}: the folder {folder} does not exist")
+    data = content.encode("utf-8") if isinstance(content, str) else content
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+            handle.flush()
+            os.fsync(handle.fileno())
+        os.replace(tmp, resolved)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+    return resolved

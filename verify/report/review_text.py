@@ -1,0 +1,66 @@
+"""Terminal rendering of a review: verdict line, findings, member table."""
+
+from __future__ import annotations
+
+from tabulate import tabulate
+
+from verify.compare.diagnose import Review, Row
+from verify.compare.findings import Severity
+from verify.report.cautions import CAUTION
+from verify.report.numbers import fmt
+
+MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
+
+
+def verdict_line(review: Review) -> str:
+    errors = sum(1 for f in review.findings if f.severity is Severity.ERROR)
+    model = review.analysis.model
+    checked = f"{review.checked_members} of {len(model.members)} members in {len(review.checked_cases)} of {len(model.load_names)} load cases/combinations checked"
+    if review.verdict.value == "agrees":
+        return f"AGREES — every claim checked agrees within tolerance ({checked})"
+    if review.verdict.value == "discrepancies":
+        return f"DISCREPANCIES — {errors} finding(s) need attention ({checked})"
+    return f"CANNOT VERIFY — {next((f.detail for f in review.findings if f.severity is Severity.BLOCKER), 'see findings')}"
+
+
+def _row_cells(row: Row) -> list[str]:
+    return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(row.global_ if row.global_ is not None else row.elastic),
+            fmt(row.difference), row.status]
+
+
+def render_review(review: Review, *, all_rows: bool = False) -> str:
+    model = review.analysis.model
+    c = review.convention
+    lines = [verdict_line(review), ""]
+    lines.append(f"Case: {model.title or model.source}   Claims: {review.claims.source}"
+                 + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else ""))
+    lines.append(f"Convention: {c.sign}{' (inferred)' if c.inferred else ''}; claims unit {c.unit} [{c.unit_source}]; {c.support}")
+    lines.append(f"Tolerance: {review.tolerance.rtol:.2%} relative, {review.tolerance.atol_fraction:g} x largest force absolute, "
+                 "half a unit in the last written decimal")
+    s = review.analysis.stability
+    lines.append(f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
+                 f"m = {s.mechanisms}, s = {s.self_stress}")
+    lines.append("")
+    if review.findings:
+        lines.append("Findings (most serious first):")
+        for f in review.findings:
+            lines.append(f"  [{f.severity.value}] {f.kind}: {f.detail}")
+    else:
+        lines.append("Findings: none")
+    lines.append("")
+    shown = [r for r in review.rows if all_rows or r.status != "missing-claim"]
+    headers = ["member", "case", "claimed", "joints", "sections", "recomputed", "difference", "status"]
+    if not all_rows and len(shown) > MAX_ROWS:
+        bad = [r for r in shown if r.status != "agrees"]
+        shown = (bad + [r for r in shown if r.status == "agrees"])[:MAX_ROWS]
+        lines.append(f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for everything), {model.units.force.symbol}, tension positive:")
+    else:
+        lines.append(f"Member table ({model.units.force.symbol}, tension positive):")
+    lines.append(tabulate([_row_cells(r) for r in shown], headers=headers, disable_numparse=True, stralign="right"))
+    missing = sum(1 for r in review.rows if r.status == "missing-claim")
+    if missing and not all_rows:
+        lines.append(f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)")
+    lines.extend(f"note: {n}" for n in review.notes)
+    lines.append("")
+    lines.append(f"Caution: {CAUTION}")
+    return "\n".join(lines)

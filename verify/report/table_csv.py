@@ -1,0 +1,33 @@
+"""CSV of the member table, safe to open in a spreadsheet.
+
+Text cells that a spreadsheet would read as a formula (starting with = + - @, tab or CR) get a
+leading apostrophe; numbers stay numbers (OWASP "CSV injection" guidance, common practice).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+
+from verify.compare.diagnose import Review
+
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def neutralise(text: str) -> str:
+    return "'" + text if text.startswith(FORMULA_START) else text
+
+
+def render_csv(review: Review) -> str:
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    unit = review.analysis.model.units.force.symbol
+    writer.writerow(["id", "kind", "case", f"claimed ({unit})", f"joints ({unit})", f"sections ({unit})",
+                     f"global ({unit})", f"elastic ({unit})", f"difference ({unit})", "status"])
+    for row in review.rows:
+        cells: list[object] = [neutralise(row.id), row.kind, neutralise(row.case)]
+        for value in (row.claimed, row.joints, row.sections, row.global_, row.elastic, row.difference):
+            cells.append("" if value is None else repr(float(value)))
+        cells.append(row.status)
+        writer.writerow(cells)
+    return out.getvalue()
