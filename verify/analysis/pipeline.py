@@ -73,8 +73,15 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
                     notes=tuple(notes), route_disagreement=disagreement)
 
 
+def force_scale(reference: ForceResult) -> float:
+    """The largest member force or reaction: the yardstick for relative differences."""
+    values = [np.abs(reference.member_forces), np.abs(reference.reactions)]
+    finite = [float(np.nanmax(v)) for v in values if v.size and np.isfinite(v).any()]
+    return max(finite, default=0.0)
+
+
 def route_disagreement(reference: ForceResult, *others: ForceResult | None) -> float:
-    scale = float(np.nanmax(np.abs(reference.member_forces))) if reference.member_forces.size else 0.0
+    scale = force_scale(reference)
     worst = 0.0
     for other in others:
         if other is None:

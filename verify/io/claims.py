@@ -35,9 +35,10 @@ import re
 import warnings
 import zipfile
 from collections import defaultdict
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from verify.errors import InputError, Problem, did_you_mean
 from verify.io.values import is_nan_text, normalize_text, parse_force_cell
@@ -70,7 +71,7 @@ FORCE_HEADERS = (
 )
 CASE_HEADERS = (
     "case", "load case", "loadcase", "lc", "combination", "load combination", "combo", "comb",
-    "case name", "load",
+    "case name",
 )
 TC_HEADERS = ("t/c", "t or c", "tc", "tension/compression", "sense")
 UNIT_HEADERS = ("unit", "units")
@@ -378,14 +379,13 @@ def _read_workbook(data: bytes, sheet: str | None, problems: _Problems) -> _Grid
         # openpyxl warns about unsupported extensions (data validation, styles); the library is silent.
         warnings.simplefilter("ignore")
         try:
-            return _read_sheet(openpyxl, data, sheet, problems)
+            return _read_sheet(openpyxl.load_workbook, data, sheet, problems)
         except Exception as exc:  # noqa: BLE001 -- a damaged workbook raises many kinds (KeyError, XML errors); each becomes one message
             problems.add(f"cannot read the workbook ({type(exc).__name__}: {exc}); save it again or export CSV")
             return None
 
 
-def _read_sheet(openpyxl: object, data: bytes, sheet: str | None, problems: _Problems) -> _Grid | None:
-    load = openpyxl.load_workbook  # type: ignore[attr-defined]
+def _read_sheet(load: Callable[..., Any], data: bytes, sheet: str | None, problems: _Problems) -> _Grid | None:
     # Pass 1 sees formulas as formulas; pass 2 sees only the values the spreadsheet cached. A
     # formula without a cached value is reported, never read as blank or zero.
     formulas: set[tuple[int, int]] = set()
@@ -417,8 +417,8 @@ def _read_sheet(openpyxl: object, data: bytes, sheet: str | None, problems: _Pro
     return _Grid(rows, list(range(1, len(rows) + 1)), title, decimal_comma=False)
 
 
-def _pick_sheet(book: object, sheet: str | None, problems: _Problems) -> str | None:
-    names: list[str] = list(book.sheetnames)  # type: ignore[attr-defined]
+def _pick_sheet(book: Any, sheet: str | None, problems: _Problems) -> str | None:
+    names: list[str] = list(book.sheetnames)
     listed = ", ".join(f"'{n}'" for n in names)
     if sheet is not None:
         if sheet in names:
@@ -669,6 +669,12 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
     reader = _RowReader(grid, model, problems, member_h, case_h, tc_h, unit_h, value_columns, options.case)
     for r in range(start, len(grid.rows)):
         reader.read_row(r)
+    if reader.case_filter is not None and not reader.long_cases:
+        problems.add(
+            f"no rows for load case '{options.case}'; the table has {', '.join(repr(c) for c in reader.all_cases)}."
+            f"{did_you_mean(reader.case_filter, reader.all_cases)}",
+            f"column '{case_h.text}'" if case_h is not None else None,
+        )
 
     units = {v.unit for v in value_columns}
     header_unit = units.pop() if len(units) == 1 and unit_h is None else None
@@ -761,6 +767,7 @@ class _RowReader:
         self.values: list[ClaimedValue] = []
         self.unmatched: list[UnmatchedLabel] = []
         self.long_cases: list[str] = []
+        self.all_cases: list[str] = []
         self._long_seen: set[str] = set()
         self._claimed: dict[tuple[str, str], tuple[int, str]] = {}  # (target, case) -> (row, label)
 
@@ -790,6 +797,9 @@ class _RowReader:
         tc = self._tc_of_row(r)
         row_unit = self._unit_of_row(r)
         match = self.matcher.match(label)
+        if match.kind == "unknown" and is_nan_text(label):
+            self.problems.add(f"the member label '{label}' is a missing value or spreadsheet error, not a label", where_label)
+            return
         if match.kind in ("unknown", "ambiguous"):
             self.unmatched.append(UnmatchedLabel(label, where_label, match.kind, match.candidates))
         for v in present:
@@ -807,9 +817,14 @@ class _RowReader:
         if not name:
             self.problems.add("this row has a force but no load case", where)
             return None
-        if name not in self._long_seen and (self.case_filter is None or name.casefold() == self.case_filter.casefold()):
+        if is_nan_text(name):
+            self.problems.add(f"the load case '{name}' is a missing value or spreadsheet error, not a case name", where)
+            return None
+        if name not in self._long_seen:
             self._long_seen.add(name)
-            self.long_cases.append(name)
+            self.all_cases.append(name)
+            if self.case_filter is None or name.casefold() == self.case_filter.casefold():
+                self.long_cases.append(name)
         return name
 
     def _tc_of_row(self, r: int) -> str | None:
@@ -888,7 +903,8 @@ class _RowReader:
             return
         self._claimed[key] = (r, label)
         if match.kind in ("member", "reaction"):
-            self.values.append(ClaimedValue(label, match.member, match.reaction, case_name, float(value), sign_fixed, unit, where))
+            # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
+            self.values.append(ClaimedValue(label, match.member, match.reaction, case_name, float(value) + 0.0, sign_fixed, unit, where))
 
 
 # -- labels -------------------------------------------------------------------------------------
@@ -942,8 +958,7 @@ class _LabelMatcher:
                 return _Match("member", member=next(iter(members)))
             return _Match("reaction", reaction=next(iter(reactions)))
         if total > 1:
-            names = [f"member '{m}'" for m in members] + [f"reaction '{j}.{a}'" for j, a in reactions]
-            return _Match("ambiguous", candidates=tuple(names))
+            return _Match("ambiguous", candidates=tuple(members) + tuple(f"{j}.{a}" for j, a in reactions))
         return _Match("unknown", candidates=self._suggest(folded))
 
     def _pair_readings(self, folded: str) -> list[str]:

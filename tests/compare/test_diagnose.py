@@ -1,0 +1,223 @@
+"""Every finding kind: a case where it must be found and a near miss where it must not.
+
+Reference forces come from the 6-panel Pratt of shared/REFERENCES.md 3.2 (values verified there
+by two exact computations and against sympy's truss module); claims are made from them and then
+perturbed in one known way.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from claimsgen import round_sig, table, true_claims
+from trussgen import make_model, pratt, truss_case
+from verify.analysis.pipeline import analyse
+from verify.compare.diagnose import SignMode, Verdict, compare_claims
+from verify.compare.findings import Severity
+
+P = 10.0  # kN per bottom panel point
+
+
+@pytest.fixture(scope="module")
+def pratt_analysis():
+    return analyse(make_model(pratt(6, load=P, case="dead")))
+
+
+def kinds(review, severity=None):
+    return sorted(f.kind for f in review.findings if severity is None or f.severity is severity)
+
+
+def test_exact_claims_agree(pratt_analysis):
+    review = compare_claims(pratt_analysis, table(true_claims(pratt_analysis)))
+    assert review.verdict is Verdict.AGREES
+    assert kinds(review) == []
+
+
+def test_three_figure_rounding_is_never_flagged(pratt_analysis):
+    rounded = {c: {m: round_sig(v, 3) for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(rounded), sign=SignMode.TENSION_POSITIVE, unit="kN")
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+def test_published_value_is_checked(pratt_analysis):
+    """U1U2 = -16P/3 (REFERENCES.md 3.2, Pratt table) claimed as printed agrees."""
+    review = compare_claims(pratt_analysis, table({"dead": {"U1U2": -16 * P / 3}}))
+    row = next(r for r in review.rows if r.id == "U1U2")
+    assert row.status == "agrees"
+    assert row.recomputed == pytest.approx(-16 * P / 3, rel=1e-12)
+
+
+def test_whole_table_reversed_is_one_convention_finding(pratt_analysis):
+    flipped = {c: {m: -v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(flipped), sign=SignMode.AUTO)
+    assert kinds(review) == ["table-sign-convention"]
+    assert review.convention.sign == "compression-positive" and review.convention.inferred
+    assert review.verdict is Verdict.AGREES  # inferred, not contradicted
+
+
+def test_stated_convention_contradicted_is_a_discrepancy(pratt_analysis):
+    flipped = {c: {m: -v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(flipped), sign=SignMode.TENSION_POSITIVE)
+    assert kinds(review) == ["table-sign-convention"]
+    assert review.verdict is Verdict.DISCREPANCIES
+    assert not any(f.kind == "sign-flip" for f in review.findings)
+
+
+def test_stated_compression_positive_is_obeyed(pratt_analysis):
+    flipped = {c: {m: -v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(flipped), sign=SignMode.COMPRESSION_POSITIVE)
+    assert review.verdict is Verdict.AGREES and kinds(review) == []
+
+
+def test_single_sign_flip(pratt_analysis):
+    claims = true_claims(pratt_analysis)
+    claims["dead"]["U1L2"] *= -1
+    review = compare_claims(pratt_analysis, table(claims))
+    assert kinds(review) == ["sign-flip"]
+    assert review.findings[0].members == ("U1L2",)
+
+
+def test_whole_table_times_1000_is_one_unit_finding(pratt_analysis):
+    scaled = {c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(scaled))
+    assert kinds(review) == ["unit-scale"]
+    assert review.convention.scale == pytest.approx(1e-3)
+    assert review.verdict is Verdict.AGREES
+
+
+def test_stated_unit_contradicted_is_a_discrepancy(pratt_analysis):
+    scaled = {c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(scaled, unit="kN"))
+    assert kinds(review) == ["unit-scale"] and review.verdict is Verdict.DISCREPANCIES
+
+
+def test_table_in_kip_is_converted(pratt_analysis):
+    """1 kip = 4.4482216152605 kN (NIST SP 811, App. B)."""
+    kip = {c: {m: v / 4.4482216152605 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(kip, unit="kip"))
+    assert review.verdict is Verdict.AGREES and kinds(review) == []
+
+
+def test_single_unit_slip(pratt_analysis):
+    claims = true_claims(pratt_analysis)
+    claims["dead"]["L2L3"] *= 1000
+    review = compare_claims(pratt_analysis, table(claims))
+    assert kinds(review) == ["unit-scale"]
+    assert "1000" in review.findings[0].detail
+
+
+def test_swapped_labels(pratt_analysis):
+    claims = true_claims(pratt_analysis)
+    d = claims["dead"]
+    d["U1L2"], d["U2L3"] = d["U2L3"], d["U1L2"]
+    review = compare_claims(pratt_analysis, table(claims))
+    assert kinds(review) == ["swapped-labels"]
+    assert set(review.findings[0].members) == {"U1L2", "U2L3"}
+
+
+def test_swapping_equal_forces_is_not_a_finding(pratt_analysis):
+    """L0L1 and L1L2 both carry 10P/3 (REFERENCES.md 3.2): swapping them changes nothing."""
+    claims = true_claims(pratt_analysis)
+    d = claims["dead"]
+    d["L0L1"], d["L1L2"] = d["L1L2"], d["L0L1"]
+    assert compare_claims(pratt_analysis, table(claims)).verdict is Verdict.AGREES
+
+
+def test_zero_force_member_claimed(pratt_analysis):
+    """U3L3 is a zero-force member (REFERENCES.md 3.1, rule 2)."""
+    claims = true_claims(pratt_analysis)
+    claims["dead"]["U3L3"] = 4.0
+    review = compare_claims(pratt_analysis, table(claims))
+    assert kinds(review) == ["zero-force-claimed"]
+
+
+def test_tiny_value_on_zero_force_member_agrees(pratt_analysis):
+    claims = true_claims(pratt_analysis)
+    claims["dead"]["U3L3"] = 0.0004 * 6 * P  # below 1e-3 of the largest force (U2U3 = 6P)
+    assert compare_claims(pratt_analysis, table(claims)).verdict is Verdict.AGREES
+
+
+def test_value_mismatch_beyond_tolerance(pratt_analysis):
+    claims = true_claims(pratt_analysis)
+    claims["dead"]["U2U3"] *= 1.05
+    review = compare_claims(pratt_analysis, table(claims))
+    assert kinds(review) == ["value-mismatch"]
+    assert review.verdict is Verdict.DISCREPANCIES
+
+
+def test_difference_within_tolerance_agrees(pratt_analysis):
+    claims = true_claims(pratt_analysis)
+    claims["dead"]["U2U3"] *= 1.008
+    assert compare_claims(pratt_analysis, table(claims)).verdict is Verdict.AGREES
+
+
+def test_spot_check_reports_missing_claims_but_agrees(pratt_analysis):
+    claims = {"dead": {m: v for m, v in true_claims(pratt_analysis)["dead"].items() if m in ("U1U2", "L2L3", "U1L2")}}
+    review = compare_claims(pratt_analysis, table(claims))
+    assert kinds(review) == ["missing-claim"]
+    assert review.findings[0].severity is Severity.INFO
+    assert review.verdict is Verdict.AGREES and review.checked_members == 3
+
+
+def test_unknown_label(pratt_analysis):
+    review = compare_claims(pratt_analysis, table(true_claims(pratt_analysis), unknown=("U9L9",)))
+    assert kinds(review) == ["unknown-label"]
+
+
+def test_column_with_another_cases_values():
+    model = make_model(truss_case(
+        pratt(6)["joints"], {k: v for k, v in pratt(6)["members"].items()}, {"L0": ["x", "y"], "L6": ["y"]},
+        {"dead": {f"L{i}": [0, -10] for i in range(1, 6)}, "snow": {f"U{i}": [0, -4] for i in range(1, 6)}}))
+    analysis = analyse(model)
+    claims = true_claims(analysis)
+    review = compare_claims(analysis, table({"dead": claims["snow"]}))
+    assert "case-mismatch" in kinds(review)
+
+
+def test_near_miss_column_matching_its_case():
+    analysis = analyse(make_model(pratt(6, load=P, case="Dead Load")))
+    claims = true_claims(analysis)["Dead Load"]
+    review = compare_claims(analysis, table({"dead-load": claims}))  # punctuation and case differ
+    assert review.verdict is Verdict.AGREES
+
+
+def test_unstable_truss_cannot_be_verified():
+    """A square panel without a diagonal is a mechanism (REFERENCES.md 1.4)."""
+    case = truss_case({"A": [0, 0], "B": [1, 0], "C": [1, 1], "D": [0, 1]}, [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A")],
+                      {"A": ["x", "y"], "B": ["y"]}, {"P": {"C": [1, 0]}})
+    analysis = analyse(make_model(case))
+    review = compare_claims(analysis, table({"P": {"AB": 1.0}}))
+    assert review.verdict is Verdict.CANNOT_VERIFY
+    assert "mechanism" in kinds(review)
+
+
+def _braced_square():
+    """Square panel with both diagonals, pin + roller: one state of self-stress (REFERENCES.md 1.4)."""
+    return make_model(truss_case({"A": [0, 0], "B": [4, 0], "C": [4, 4], "D": [0, 4]},
+                                 [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A"), ("A", "C"), ("B", "D")],
+                                 {"A": ["x", "y"], "B": ["y"]}, {"P": {"D": [10, 0]}}))
+
+
+def test_indeterminate_without_stiffness_checks_equilibrium_only():
+    """With P at D: AB = DA = P/2, BC = CD = -P/2, AC = P/sqrt2, BD = -P/sqrt2 (REFERENCES.md 3.6)."""
+    analysis = analyse(_braced_square())
+    s2 = 2 ** 0.5
+    good = {"AB": 5, "BC": -5, "CD": -5, "DA": 5, "AC": 10 / s2, "BD": -10 / s2}
+    review = compare_claims(analysis, table({"P": good}))
+    assert review.verdict is Verdict.CANNOT_VERIFY
+    assert "indeterminate" in kinds(review) and "equilibrium-residual" not in kinds(review)
+    # Any self-stress added keeps equilibrium: sides +1, diagonals -sqrt2 (REFERENCES.md 3.6).
+    shifted = {m: v + 3.0 * (1 if m in ("AB", "BC", "CD", "DA") else -s2) for m, v in good.items()}
+    assert compare_claims(analysis, table({"P": shifted})).verdict is Verdict.CANNOT_VERIFY
+
+
+def test_indeterminate_claims_out_of_balance_are_located():
+    analysis = analyse(_braced_square())
+    s2 = 2 ** 0.5
+    bad = {"AB": 5, "BC": -5, "CD": -8, "DA": 5, "AC": 10 / s2, "BD": -10 / s2}
+    review = compare_claims(analysis, table({"P": bad}))
+    assert review.verdict is Verdict.DISCREPANCIES
+    finding = next(f for f in review.findings if f.kind == "equilibrium-residual")
+    assert "CD" in finding.members
+    joints = {b.joint for b in review.imbalances}
+    assert joints and joints <= {"C", "D"}
