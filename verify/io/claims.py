@@ -531,10 +531,10 @@ def _pick_column(
             problems.add(
                 f"no column named '{option}' for the {role}; the header row has "
                 f"{', '.join(repr(t) for t in written)}.{did_you_mean(option, written)}",
-                grid.row_ref(header_r),
+                grid.where(header_r),
             )
         else:
-            problems.add(f"{len(found)} columns are named '{option}'; the {role} column must be unique", grid.row_ref(header_r))
+            problems.add(f"{len(found)} columns are named '{option}'; the {role} column must be unique", grid.where(header_r))
         return None
     for spelling in spellings:
         found = [h for h in headers if h.key == spelling and h.index not in taken and h.name.casefold() not in load_names]
@@ -582,7 +582,7 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
             problems.add(
                 "no usable columns: no member column found; expected a header such as 'Member', "
                 f"'Element', 'Bar', 'Label' or 'ID' (or name the column); the header row has {written}",
-                grid.row_ref(header_r),
+                grid.where(header_r),
             )
         return empty
     taken.add(member_h.index)
@@ -611,7 +611,7 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
         problems.add(
             f"a load case column ('{case_h.text}') needs a force column beside it, e.g. 'Force (kN)'; "
             "or give one column per load case instead",
-            grid.row_ref(header_r),
+            grid.where(header_r),
         )
         return empty
     if force_h is not None and case_h is None:
@@ -619,7 +619,7 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
         if fixed_case is None:
             return empty
     if tc_h is not None and force_h is None:
-        problems.add(f"a T/C column ('{tc_h.text}') is only understood beside a single force column", grid.row_ref(header_r))
+        problems.add(f"a T/C column ('{tc_h.text}') is only understood beside a single force column", grid.where(header_r))
         return empty
 
     if force_h is not None:
@@ -634,14 +634,14 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
             chosen = [v for v in value_columns if v.case is not None and v.case.casefold() == options.case.casefold()]
             if not chosen:
                 cols = [v.case or "" for v in value_columns]
-                problems.add(f"no column for load case '{options.case}'; the table has {', '.join(repr(c) for c in cols) or 'none'}.{did_you_mean(options.case, cols)}", grid.row_ref(header_r))
+                problems.add(f"no column for load case '{options.case}'; the table has {', '.join(repr(c) for c in cols) or 'none'}.{did_you_mean(options.case, cols)}", grid.where(header_r))
                 return empty
             value_columns = chosen
         if not value_columns:
             problems.add(
                 f"no usable columns: besides the member column '{member_h.text}' there is no force column; "
                 "expected one column per load case (e.g. 'dead (kN)') or a force column with a case column",
-                grid.row_ref(header_r),
+                grid.where(header_r),
             )
             return empty
         seen_names: dict[str, _ValueColumn] = {}
@@ -663,7 +663,7 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
     if problems:
         return empty
     if all(all(_blank(c) for c in grid.rows[r]) for r in range(start, len(grid.rows))):
-        problems.add("the table has a header but no rows of claims", grid.row_ref(header_r))
+        problems.add("the table has a header but no rows of claims", grid.where(header_r))
         return empty
 
     reader = _RowReader(grid, model, problems, member_h, case_h, tc_h, unit_h, value_columns, options.case)
@@ -690,7 +690,7 @@ def _single_case(model: Model, case: str | None, grid: _Grid, header_r: int, for
         problems.add(
             f"the table has one force column ('{force_h.text}') and no load case column; say which load case or "
             f"combination it holds (the model has {', '.join(repr(n) for n in names)})",
-            grid.row_ref(header_r),
+            grid.where(header_r),
         )
         return None
     if case in names:

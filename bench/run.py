@@ -1,0 +1,389 @@
+"""Benchmark truss-verify against a floor measured in the same run.
+
+For each family (2D Pratt, 3D double-layer grid without top chords; bench/generate.py) and each
+size of about 10^2, 10^3, 10^4, 10^5 members, this writes the case (CSV tables), makes a claims
+table from the floor's solution with one member's value wrong, then times as whole processes,
+stdout to /dev/null, exactly as a user runs them:
+
+- the floor, ``python bench/floor.py CASE`` (read + assemble + SuperLU solve), and the floor
+  with the claims table read and compared (``--claims``);
+- ``truss-verify stability CASE``, ``truss-verify solve CASE``,
+  ``truss-verify check CASE --claims CLAIMS`` (and ``solve --show sections`` when the section
+  route exists),
+
+each the median of --repeats runs (one run at 5x10^4 members and above, or once a run takes
+longer than --slow seconds). Ratios are tool / floor; check is divided by the floor with claims.
+Start-up is measured too: the bare import of the libraries the tool needs against each command
+on a 21-member truss. Then, in a child process per case, every pipeline stage is timed in one
+interpreter (read_case, assemble_equilibrium, solve_stability, solve_joints, solve_global,
+solve_sections if importable, rendering, read_claims, compare_claims), and each stage's growth
+exponent k (time ~ members^k) between neighbouring sizes is printed, flagged where it is clearly
+above n log n (k > 1.25 and above the floor's own k + 0.15) and the stage takes > 0.1 s.
+
+    .venv/bin/python bench/run.py              # 10^2 .. 10^5 members (about 10 minutes)
+    .venv/bin/python bench/run.py --quick      # up to 10^4 members
+    .venv/bin/python bench/run.py --max-members 3e4 --families grid --repeats 5
+
+Results are also written to bench/out/results-<time>.json.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib.util
+import json
+import math
+import os
+import statistics
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+sys.path.insert(0, str(HERE))
+
+import generate  # noqa: E402  (bench/ is not a package; its sibling is imported by path)
+
+PYTHON = sys.executable
+TOOL = str(Path(PYTHON).with_name("truss-verify"))
+BARE_IMPORT = "import numpy, scipy.sparse.linalg, pandas, click, tabulate"
+TARGETS = (1e2, 1e3, 1e4, 1e5)
+SMALL_MEMBERS = 20  # the start-up case: a 5-panel Pratt truss, 21 members
+LARGE = 5e4  # at and above this member count, time each command once unless --repeats-large
+FAST_K = 1.25  # growth exponent clearly above n log n (1.1 between 10^4 and 10^5)
+MIN_FLAG_SECONDS = 0.1  # smaller stage times are too noisy to judge growth
+
+
+@dataclass
+class Timing:
+    seconds: float | None  # median of the runs, None when every run failed or timed out
+    runs: list[float] = field(default_factory=list)
+    peak_mb: float | None = None
+    error: str | None = None
+    cpu: float | None = None  # median user + system CPU seconds: steadier than wall time on a busy machine
+
+
+def run_once(cmd: list[str], timeout: float, ok_codes: tuple[int, ...]) -> tuple[float, float, float, str | None]:
+    """Wall time, CPU time and peak RSS (MB) of one process, stdout to /dev/null; error text if it failed."""
+    with tempfile.TemporaryFile() as err:
+        start = time.perf_counter()
+        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=err, cwd=ROOT)
+        timer = threading.Timer(timeout, proc.kill)  # kills only this child, by its own handle
+        timer.start()
+        try:
+            _, status, usage = os.wait4(proc.pid, 0)
+        finally:
+            timer.cancel()
+        elapsed = time.perf_counter() - start
+        proc.returncode = os.waitstatus_to_exitcode(status)
+        peak = usage.ru_maxrss / 1024.0  # Linux reports kilobytes
+        cpu = usage.ru_utime + usage.ru_stime
+        if elapsed >= timeout:
+            return elapsed, cpu, peak, f"timed out after {timeout:.0f} s"
+        if proc.returncode not in ok_codes:
+            err.seek(0)
+            tail = err.read().decode("utf-8", "replace").strip().splitlines()[-3:]
+            return elapsed, cpu, peak, f"exit status {proc.returncode}: {' | '.join(tail)}"
+    return elapsed, cpu, peak, None
+
+
+def timed(cmd: list[str], *, repeats: int, timeout: float, slow: float, ok_codes: tuple[int, ...] = (0,)) -> Timing:
+    runs: list[float] = []
+    cpus: list[float] = []
+    peaks: list[float] = []
+    for _ in range(repeats):
+        elapsed, cpu, peak, error = run_once(cmd, timeout, ok_codes)
+        if error:
+            return Timing(statistics.median(runs) if runs else None, runs, max(peaks, default=None), error,
+                          statistics.median(cpus) if cpus else None)
+        runs.append(elapsed)
+        cpus.append(cpu)
+        peaks.append(peak)
+        if elapsed > slow:
+            break
+    return Timing(statistics.median(runs), runs, max(peaks), None, statistics.median(cpus))
+
+
+def sections_available() -> bool:
+    return importlib.util.find_spec("verify.analysis.sections") is not None
+
+
+# -- stages inside one process (run as a child: python bench/run.py --stages CASE CLAIMS) --------
+def stages_child(case: str, claims: str) -> int:
+    """Print one JSON line per stage as it finishes, so a timeout still leaves the earlier ones."""
+
+    def emit(stage: str, seconds: float, **extra: object) -> None:
+        print(json.dumps({"stage": stage, "seconds": seconds, **extra}), flush=True)
+
+    clock = time.perf_counter
+    t = clock()
+    from verify.analysis.equilibrium import assemble_equilibrium
+    from verify.analysis.global_solve import solve_global
+    from verify.analysis.joints import solve_joints
+    from verify.analysis.pipeline import Analysis, route_disagreement
+    from verify.analysis.stability import solve_stability
+    from verify.compare.diagnose import compare_claims
+    from verify.io.case import read_case
+    from verify.io.claims import read_claims
+    from verify.report import text
+    from verify.report.review_text import render_review
+
+    emit("import verify", clock() - t)
+    import floor
+
+    t = clock()
+    tables = floor.read_tables(Path(case))
+    A, F, _, _, dim = floor.assemble(tables)
+    floor.solve(A, F, dim)
+    emit("floor in-process", clock() - t)
+    t = clock()
+    model = read_case(case)
+    emit("read_case", clock() - t)
+    t = clock()
+    assemble_equilibrium(model)
+    emit("assemble_equilibrium", clock() - t)
+    t = clock()
+    stability = solve_stability(model)
+    emit("solve_stability", clock() - t, method=stability.method, classification=stability.classification.value)
+    t = clock()
+    joints = solve_joints(model)
+    emit("solve_joints", clock() - t, stalled=joints.stalled)
+    t = clock()
+    global_ = solve_global(model)
+    emit("solve_global", clock() - t)
+    sections = None
+    if sections_available():
+        from verify.analysis.sections import solve_sections
+
+        t = clock()
+        sections = solve_sections(model)
+        emit("solve_sections", clock() - t)
+    t = clock()
+    disagreement = route_disagreement(global_, joints.forces, getattr(sections, "forces", None))
+    analysis = Analysis(model, stability, joints=joints, global_=global_, sections=sections, route_disagreement=disagreement)
+    text.render_stability(model, stability)
+    text.render_solution(model, analysis)
+    emit("render solve text", clock() - t)
+    t = clock()
+    table = read_claims(claims, model)
+    emit("read_claims", clock() - t)
+    t = clock()
+    review = compare_claims(analysis, table)
+    emit("compare_claims", clock() - t, verdict=review.verdict.value)
+    t = clock()
+    render_review(review)
+    emit("render check text", clock() - t)
+    return 0
+
+
+def stage_times(case: Path, claims: Path, timeout: float) -> tuple[dict[str, float], dict[str, object], str | None]:
+    cmd = [PYTHON, str(HERE / "run.py"), "--stages", str(case), str(claims)]
+    try:
+        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, cwd=ROOT)
+        out, error = proc.stdout, (None if proc.returncode == 0 else proc.stderr.strip().splitlines()[-1:])
+    except subprocess.TimeoutExpired as exc:
+        out = exc.stdout.decode() if isinstance(exc.stdout, bytes) else (exc.stdout or "")
+        error = [f"timed out after {timeout:.0f} s"]
+    times: dict[str, float] = {}
+    extra: dict[str, object] = {}
+    for line in out.splitlines():
+        if line.startswith("{"):
+            record = json.loads(line)
+            times[record.pop("stage")] = record.pop("seconds")
+            extra.update(record)
+    return times, extra, (" ".join(error) if error else None)
+
+
+# -- the run ------------------------------------------------------------------------------------
+def fmt_s(t: Timing | None) -> str:
+    if t is None or t.seconds is None:
+        return "—" if t is None else f"failed ({t.error})"
+    return f"{t.seconds:.3f}" + (f" [{t.error}]" if t.error else "")
+
+
+def ratio(a: Timing | None, b: Timing | None) -> float | None:
+    if a is None or b is None or a.seconds is None or b.seconds is None or b.seconds <= 0:
+        return None
+    return a.seconds / b.seconds
+
+
+def with_ratio(a: Timing | None, b: Timing | None) -> str:
+    r = ratio(a, b)
+    return fmt_s(a) + (f" ({r:.1f}x)" if r is not None else "")
+
+
+def table(headers: list[str], rows: list[list[object]]) -> str:
+    try:
+        from tabulate import tabulate
+    except ImportError:  # the tool's environment has it; keep the bench usable without
+        return "\n".join("  ".join(str(c) for c in row) for row in [headers, *rows])
+    return tabulate(rows, headers=headers, disable_numparse=True)
+
+
+def growth(n1: int, t1: float | None, n2: int, t2: float | None) -> float | None:
+    if not t1 or not t2 or t1 <= 0 or t2 <= 0:
+        return None
+    return math.log(t2 / t1) / math.log(n2 / n1)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description="Benchmark truss-verify against a floor measured in the same run.")
+    parser.add_argument("--max-members", type=float, default=1e5, help="largest target size (default 1e5)")
+    parser.add_argument("--quick", action="store_true", help="sizes up to 1e4 members only")
+    parser.add_argument("--families", default=",".join(generate.FAMILIES), help="comma-separated: pratt,grid")
+    parser.add_argument("--repeats", type=int, default=3, help="runs per command; the median is reported")
+    parser.add_argument("--repeats-large", type=int, default=1, help=f"runs per command at >= {LARGE:.0e} members")
+    parser.add_argument("--slow", type=float, default=30.0, help="stop repeating a command once one run takes this long (s)")
+    parser.add_argument("--timeout", type=float, default=300.0, help="kill a command after this many seconds")
+    parser.add_argument("--no-stages", action="store_true", help="skip the per-stage timings")
+    parser.add_argument("--out", type=Path, default=HERE / "out", help="where cases and results go (default bench/out)")
+    parser.add_argument("--stages", nargs=2, metavar=("CASE", "CLAIMS"), help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.stages:
+        return stages_child(*args.stages)
+
+    limit = min(args.max_members, 1e4) if args.quick else args.max_members
+    targets = [t for t in TARGETS if t <= limit * 1.0001]
+    families = [f.strip() for f in args.families.split(",") if f.strip()]
+    for f in families:
+        if f not in generate.FAMILIES:
+            parser.error(f"unknown family {f!r}; expected {', '.join(generate.FAMILIES)}")
+    with_sections = sections_available()
+    args.out.mkdir(parents=True, exist_ok=True)
+    results: dict[str, object] = {"python": PYTHON, "started": time.strftime("%Y-%m-%d %H:%M:%S"),
+                                  "cpus": os.cpu_count(), "sections_route": with_sections}
+    print(f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs; "
+          f"section route {'present' if with_sections else 'absent'}", flush=True)
+
+    # Start-up: a 21-member truss against the bare import of the libraries it needs.
+    small_dir = args.out / "cases" / "startup"
+    small = generate.write_case(generate.build("pratt", SMALL_MEMBERS), small_dir)
+    small_claims = small_dir / "claims.csv"
+    subprocess.run([PYTHON, str(HERE / "floor.py"), str(small), "--write-claims", str(small_claims)], check=True,
+                   stdout=subprocess.DEVNULL, cwd=ROOT)
+    reps = max(args.repeats, 5)
+    bare = timed([PYTHON, "-c", BARE_IMPORT], repeats=reps, timeout=60, slow=args.slow)
+    startup = {
+        "stability": timed([TOOL, "stability", str(small)], repeats=reps, timeout=60, slow=args.slow),
+        "solve": timed([TOOL, "solve", str(small)], repeats=reps, timeout=60, slow=args.slow),
+        "check": timed([TOOL, "check", str(small), "--claims", str(small_claims)], repeats=reps, timeout=60,
+                       slow=args.slow, ok_codes=(0, 1)),
+    }
+    print(f"\nStart-up (median of {reps}): bare `python -c \"{BARE_IMPORT}\"` {fmt_s(bare)} s")
+    print(table(["21-member Pratt", "s", "x bare import (target <= 1.5)"],
+                [[k, fmt_s(v), f"{ratio(v, bare):.2f}" if ratio(v, bare) else "—"] for k, v in startup.items()]), flush=True)
+    results["startup"] = {"bare_import": bare.__dict__, **{k: v.__dict__ for k, v in startup.items()}}
+
+    rows: list[list[object]] = []
+    records: list[dict[str, object]] = []
+    for family in families:
+        for target in targets:
+            truss = generate.build(family, target)
+            directory = args.out / "cases" / truss.name
+            case = generate.write_case(truss, directory)
+            claims = directory / "claims.csv"
+            subprocess.run([PYTHON, str(HERE / "floor.py"), str(case), "--write-claims", str(claims)], check=True,
+                           stdout=subprocess.DEVNULL, cwd=ROOT)
+            repeats = args.repeats_large if truss.members >= LARGE else args.repeats
+            kw = dict(repeats=repeats, timeout=args.timeout, slow=args.slow)
+            print(f"\n{truss.name}: {len(truss.joint_ids)} joints, {truss.members} members, {repeats} run(s) each ...", flush=True)
+            # Untimed first run: confirms the truss is stable and determinate, and warms the page cache.
+            check_run = subprocess.run([TOOL, "stability", str(case), "--json"], capture_output=True, text=True,
+                                       timeout=args.timeout, cwd=ROOT)
+            try:
+                structure = json.loads(check_run.stdout)["structure"]
+                classification = structure["classification"]
+            except (ValueError, KeyError):
+                classification = f"unknown (exit {check_run.returncode})"
+            if classification != "stable-determinate":
+                print(f"  WARNING: truss-verify stability says {classification}; expected stable-determinate")
+            t: dict[str, Timing] = {}
+            t["floor"] = timed([PYTHON, str(HERE / "floor.py"), str(case)], **kw)
+            t["floor+claims"] = timed([PYTHON, str(HERE / "floor.py"), str(case), "--claims", str(claims)], **kw)
+            t["stability"] = timed([TOOL, "stability", str(case)], **kw)
+            t["solve"] = timed([TOOL, "solve", str(case)], **kw)
+            t["check"] = timed([TOOL, "check", str(case), "--claims", str(claims)], ok_codes=(1,), **kw)
+            if with_sections:
+                t["sections"] = timed([TOOL, "solve", str(case), "--show", "sections"], **kw)
+            for name, timing in t.items():
+                print(f"  {name:13s} {fmt_s(timing)} s   cpu {timing.cpu or 0:.3f} s   peak {timing.peak_mb or 0:.0f} MB   runs {[round(x, 3) for x in timing.runs]}", flush=True)
+            stages: dict[str, float] = {}
+            stage_info: dict[str, object] = {}
+            if not args.no_stages:
+                stages, stage_info, stage_error = stage_times(case, claims, args.timeout)
+                slowest = max(stages.items(), key=lambda kv: kv[1]) if stages else ("—", 0.0)
+                print("  stages: " + ", ".join(f"{k} {v:.3f}" for k, v in stages.items())
+                      + (f"  [{stage_error}]" if stage_error else "") + f"\n  slowest stage: {slowest[0]}", flush=True)
+            row = [family, truss.members, fmt_s(t["floor"]), with_ratio(t["stability"], t["floor"]),
+                   with_ratio(t["solve"], t["floor"]), fmt_s(t["floor+claims"]), with_ratio(t["check"], t["floor+claims"])]
+            if with_sections:
+                row.append(with_ratio(t["sections"], t["floor"]))
+            rows.append(row)
+            records.append({"family": family, "members": truss.members, "joints": len(truss.joint_ids),
+                            "parameter": truss.parameter, "classification": classification,
+                            "timings": {k: v.__dict__ for k, v in t.items()}, "stages": stages, "stage_info": stage_info})
+
+    headers = ["family", "members", "floor s", "stability s (ratio)", "solve s (ratio)", "floor+claims s", "check s (ratio)"]
+    if with_sections:
+        headers.append("solve --show sections s (ratio)")
+    print("\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members up")
+    print(table(headers, rows))
+    print(f"\nStart-up: bare import {fmt_s(bare)} s; 21-member case: "
+          + ", ".join(f"{k} {fmt_s(v)} s ({ratio(v, bare) or 0:.2f}x)" for k, v in startup.items()) + "; target <= 1.5x")
+
+    if not args.no_stages and records:
+        names: list[str] = []
+        for rec in records:
+            names += [s for s in rec["stages"] if s not in names]  # type: ignore[union-attr]
+        print("\nStages inside one process (s); the slowest per size marked *")
+        stage_rows = []
+        for rec in records:
+            st: dict[str, float] = rec["stages"]  # type: ignore[assignment]
+            top = max(st, key=st.__getitem__) if st else None
+            stage_rows.append([rec["family"], rec["members"]]
+                              + [("—" if s not in st else f"{st[s]:.3f}" + ("*" if s == top else "")) for s in names])
+        print(table(["family", "members", *names], stage_rows))
+
+        print(f"\nGrowth exponent k (time ~ members^k) between neighbouring sizes; n log n is k ~ 1.1. "
+              f"Flag '!': k > {FAST_K} and > floor k + 0.15 and time > {MIN_FLAG_SECONDS} s")
+        growth_rows = []
+        flags: list[str] = []
+        for a, b in zip(records, records[1:], strict=False):
+            if a["family"] != b["family"]:
+                continue
+            na, nb = int(a["members"]), int(b["members"])  # type: ignore[call-overload]
+            ta, tb = a["timings"], b["timings"]
+            stage_a, stage_b = a["stages"], b["stages"]
+            k_floor = growth(na, stage_a.get("floor in-process"), nb, stage_b.get("floor in-process"))  # type: ignore[union-attr]
+            cells = [f"{a['family']} {na}->{nb}", f"{k_floor:.2f}" if k_floor is not None else "—"]
+            for s in names:
+                if s == "floor in-process":
+                    continue
+                k = growth(na, stage_a.get(s), nb, stage_b.get(s))  # type: ignore[union-attr]
+                flag = (k is not None and k > FAST_K and k > (k_floor or 0) + 0.15 and (stage_b.get(s) or 0) > MIN_FLAG_SECONDS)  # type: ignore[union-attr]
+                cells.append("—" if k is None else f"{k:.2f}" + ("!" if flag else ""))
+            for c in ("stability", "solve", "check"):
+                k = growth(na, ta[c]["seconds"], nb, tb[c]["seconds"])  # type: ignore[index]
+                cells.append("—" if k is None else f"{k:.2f}")
+                if flag:
+                    flags.append(f"{a['family']} {s}: k = {k:.2f} from {na} to {nb} members ({stage_a.get(s):.3f} -> {stage_b.get(s):.3f} s)")  # type: ignore[union-attr]
+            growth_rows.append(cells)
+        print(table(["family, members", "floor in-process", *[s for s in names if s != "floor in-process"],
+                     "stability (whole)", "solve (whole)", "check (whole)"], growth_rows))
+        if flags:
+            print("\nStages growing faster than n log n:\n  " + "\n  ".join(flags))
+
+    results["cases"] = records
+    path = args.out / f"results-{time.strftime('%Y%m%d-%H%M%S')}.json"
+    path.write_text(json.dumps(results, indent=1, default=str), encoding="utf-8")
+    print(f"\nResults: {path}")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,107 @@
+"""The command line, in-process with click's CliRunner: exit codes, JSON contract, no tracebacks."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from verify.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+FOOTBRIDGE = ROOT / "cases" / "canal-footbridge" / "case.toml"
+FOOTBRIDGE_CLAIMS = ROOT / "cases" / "canal-footbridge" / "claims.csv"
+
+
+def run(*args: str) -> tuple[int, str, str]:
+    result = CliRunner().invoke(main, [str(a) for a in args])
+    if result.exception and not isinstance(result.exception, SystemExit):
+        raise result.exception
+    return result.exit_code, result.stdout, result.stderr
+
+
+def test_stability_json_has_structure_contract():
+    code, out, _ = run("stability", FOOTBRIDGE, "--json")
+    assert code == 0
+    structure = json.loads(out)["structure"]
+    for key in ("dim", "joints", "members", "reactions", "mechanisms", "self_stress", "classification"):
+        assert key in structure
+    assert structure["classification"] == "stable-determinate"
+
+
+def test_solve_json_has_every_load_column():
+    code, out, _ = run("solve", FOOTBRIDGE, "--json")
+    data = json.loads(out)
+    assert code == 0
+    assert set(data["forces"]) == {"dead", "crowd", "wind-uplift", "ULS-1", "SLS-1"}
+    assert set(data["reactions"]["dead"]) == {"L0", "L6"}
+    # Superposition: ULS-1 = 1.35 dead + 1.5 crowd (the case file's combination).
+    for member, value in data["forces"]["ULS-1"].items():
+        assert value == pytest.approx(1.35 * data["forces"]["dead"][member] + 1.5 * data["forces"]["crowd"][member], abs=1e-9)
+
+
+def test_solve_show_joints_prints_the_hand_calc():
+    code, out, _ = run("solve", FOOTBRIDGE, "--show", "joints", "--case", "dead")
+    assert code == 0
+    assert "reactions from overall equilibrium" in out and "joint L0" in out and "ΣFy" in out
+
+
+def test_check_json_contract_and_exit_status():
+    code, out, _ = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--json")
+    data = json.loads(out)
+    assert code == 1 and data["verdict"] == "discrepancies"
+    assert set(data["convention"]) >= {"sign", "scale", "inferred"}
+    row = data["members"][0]
+    assert set(row) >= {"id", "case", "claimed", "joints", "sections", "status"}
+    found = {f["kind"] for f in data["findings"]}
+    assert {"sign-flip", "value-mismatch", "unit-scale", "swapped-labels", "zero-force-claimed"} <= found
+
+
+def test_demo_runs_from_package_data():
+    code, out, _ = run("demo")
+    assert code == 0 and "DISCREPANCIES" in out and "Caution" in out
+
+
+def test_csv_output_is_atomic_and_refuses_inputs(tmp_path):
+    target = tmp_path / "table.csv"
+    code, _, _ = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--csv", target)
+    assert code == 1 and target.read_text().startswith("id,kind,case")
+    code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--csv", FOOTBRIDGE_CLAIMS)
+    assert code == 2 and "input file" in err
+
+
+def test_unstable_truss_exits_3(tmp_path):
+    case = tmp_path / "sway.toml"
+    case.write_text('[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [1, 0]\nC = [1, 1]\nD = [0, 1]\n'
+                    '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
+                    '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.wind]\nC = [1.0, 0.0]\n')
+    code, out, _ = run("stability", case)
+    assert code == 3 and "unstable" in out and "mechanism 1" in out
+    code, _, _ = run("solve", case)
+    assert code == 3
+
+
+@pytest.mark.parametrize("args, fragment", [
+    (("stability", "no-such-file.toml"), "file not found"),
+    (("check", str(FOOTBRIDGE), "--claims", "missing.csv"), "missing.csv"),
+    (("check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE_CLAIMS), "--unit", "t"), "ambiguous"),
+    (("check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE_CLAIMS), "--sign", "up"), "Invalid value"),
+    (("solve", str(FOOTBRIDGE), "--case", "dead load"), "Did you mean"),
+])
+def test_bad_input_is_one_message_exit_2(args, fragment):
+    code, out, err = run(*args)
+    assert code == 2
+    assert fragment in (err + out)
+    assert "Traceback" not in err + out
+
+
+def test_bad_case_file_lists_every_problem(tmp_path):
+    case = tmp_path / "bad.toml"
+    case.write_text('[units]\nlength = "m"\nforce = "ton"\n[joints]\nA = [0, 0]\nB = [1, 0]\n'
+                    '[members]\nAB = ["A", "Q"]\n[supports]\nA = ["x", "y"]\n[loads.dead]\nB = [0, "12,5"]\n')
+    code, _, err = run("solve", case)
+    assert code == 2
+    assert "ambiguous" in err and "'Q'" in err and "12,5" in err
+    assert f"{case}:" in err

@@ -1,0 +1,1118 @@
+"""Method of sections (Ritter's method): a second route to the member forces, independent of joints.
+
+The route uses only the model, the reactions from overall equilibrium and its own cuts. It never
+reads the forces of the method of joints, so agreement between the two routes means something.
+
+Method: A. Ritter, *Elementare Theorie und Berechnung eiserner Dach- und Brücken-Constructionen*
+(1863); recipe in shared/REFERENCES.md 2.1 (2D) and 2.2 (3D). The cut search is our own
+(REFERENCES.md 2.3 notes that no standard published algorithm chooses sections):
+
+1. Reactions first, from overall equilibrium (:func:`solve_reactions`), as a hand calc does. If
+   the supports are not externally determinate, only free bodies holding no support are used.
+2. Straight cuts (planes in 3D). For each candidate cut normal -- the coordinate axes and the
+   normals of the most common member directions, capped -- sort the joints by their projection
+   on the normal and sweep the gaps between consecutive distinct projections. A member crosses
+   the gaps between its two end projections, so the count of (unknown) members crossing every gap
+   comes from one difference array, and the loads and reactions on either side from prefix sums:
+   O(n log n) per direction for the sort, O(n) per pass after that.
+3. A gap crossed by at most ``MAX_UNKNOWNS`` unknown forces is a candidate free body. The side
+   needing the fewest loads and reactions is kept. Members already solved are carried as knowns.
+4. Each cut member is a line c = (e, p x e) in Plücker form, e pointing from its joint on the
+   kept side to the far joint, so its force on the free body is N e (tension-positive). Member i
+   is isolated by an equation row w with w.c_j = 0 for every other unknown j and w.c_i != 0. In
+   2D such a w is a moment about the point where the other lines meet (Ritter point) or, when
+   they are parallel, a force sum normal to them. In 3D the 6 x |U| system with a rank test
+   decides; a moment axis or a force direction is then looked for to write the derivation.
+5. Passes repeat while members are reached (a later pass re-examines only gaps crossed by a newly
+   known member). When straight cuts stall, free bodies that are connected sets of joints are
+   tried: one side of a straight cut with one or two joints of the next layer moved across. That
+   is how the chords of a K-truss are isolated (three of the four cut members meet at a joint).
+"""
+
+from __future__ import annotations
+
+import itertools
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from verify.analysis.forces import ForceResult
+from verify.analysis.joints import solve_reactions
+from verify.model import Model
+
+MOMENTS = "moments"
+FORCES_NORMAL = "forces-normal"
+LEAST_SQUARES = "least-squares"
+
+EQUATIONS = {2: 3, 3: 6}  # equilibrium equations of one free body
+# One or two more unknowns than equations still isolate a member when the others are concurrent
+# or parallel (K-truss); beyond that a hand calc would not use the cut.
+MAX_UNKNOWNS = {2: 5, 3: 8}
+MAX_CROSSING = {2: 24, 3: 48}  # a cut crossing more members than this is no hand-calc section
+MAX_DIRECTIONS = {2: 8, 3: 12}
+ELIMINATED_RTOL = 1e-9  # |w.c_j| below this (unit w, |c| ~ 1) counts as eliminated
+ISOLATED_RTOL = 1e-6  # |w.c_i| must exceed this: a lever arm of 1e-6 of the cut's size or more
+NULL_RTOL = 1e-8  # 3D: a member is determined when its share of the null space is below this
+RANK_RTOL = 1e-9
+COINCIDENT_RTOL = 1e-9  # projections within this fraction of the extent are one layer of joints
+PARALLEL_RTOL = 1e-10  # a Ritter point farther than 1e10 cut sizes means the lines are parallel
+SHALLOW_SINE = 0.2  # with one other unknown, sum forces normal to it unless the angle is shallow
+MAX_MOVED = 2  # joints moved across a straight cut to form a non-straight free body
+MAX_LAYER = 4  # ... taken from a layer of at most this many joints
+MAX_BODY_CANDIDATES = 50_000  # total non-straight free bodies examined (a time bound)
+
+_MOMENT, _FORCE, _LSQ = 0, 1, 2
+_METHOD_NAMES = {_MOMENT: MOMENTS, _FORCE: FORCES_NORMAL, _LSQ: LEAST_SQUARES}
+
+
+@dataclass(frozen=True, eq=False)
+class _JointSet:
+    """The joints of a free body, stored compactly: a slice of a sorted joint order, adjusted.
+
+    A straight cut keeps about half the joints; storing them per cut would cost O(n) per member.
+    """
+
+    names: tuple[str, ...]  # every joint id of the model (shared, not copied)
+    order: np.ndarray  # joint indices (shared between the cuts of one sweep)
+    start: int
+    stop: int
+    added: tuple[int, ...] = ()
+    removed: tuple[int, ...] = ()
+
+    def indices(self) -> np.ndarray:
+        base = self.order[self.start : self.stop]
+        if self.removed:
+            base = base[~np.isin(base, self.removed)]
+        if self.added:
+            base = np.concatenate([base, np.asarray(self.added, dtype=np.int64)])
+        return np.sort(base)
+
+    def __len__(self) -> int:
+        return self.stop - self.start + len(self.added) - len(self.removed)
+
+
+@dataclass(frozen=True)
+class SectionCut:
+    """One free body of the method of sections and the equation that solves `target`.
+
+    Each cut member's force acts on the free body along the unit vector from its joint on the
+    kept side (`kept_ends`) toward its far joint, tension-positive.
+    """
+
+    target: str  # member id solved by this cut
+    cut_members: tuple[str, ...]  # all members crossing the cut
+    known_members: tuple[str, ...]  # cut members carried as known (from earlier cuts)
+    method: str  # "moments" | "forces-normal" | "least-squares"
+    moment_point: tuple[float, ...] | None  # Ritter point (2D) or a point on the axis (3D)
+    axis: tuple[float, ...] | None  # 3D moment axis, or the force-sum direction
+    kept_ends: tuple[str, ...]  # for each cut member, its joint on the kept side
+    eliminated: tuple[str, ...]  # the other unknown members, which the equation eliminates
+    moment_joint: str | None  # the joint at the Ritter point (or on the 3D axis), if any
+    known_forces: tuple[tuple[float, ...], ...]  # per known member, its force in every load column
+    uses_reactions: bool  # the kept side holds supports, so the reactions enter the equation
+    straight: bool  # a straight cut (plane in 3D), or a connected set of joints otherwise
+    _side: _JointSet = field(repr=False, compare=False)
+
+    @property
+    def kept_joints(self) -> tuple[str, ...]:
+        """Joints of the free body kept (computed on demand: a cut may keep half the truss)."""
+        names = self._side.names
+        return tuple(names[i] for i in self._side.indices())
+
+    @property
+    def kept_size(self) -> int:
+        return len(self._side)
+
+    @property
+    def unknown_members(self) -> tuple[str, ...]:
+        known = set(self.known_members)
+        return tuple(m for m in self.cut_members if m not in known)
+
+
+@dataclass(frozen=True)
+class SectionSolution:
+    forces: ForceResult  # route="sections"; NaN for members not reached
+    cuts: tuple[SectionCut, ...]  # one per reached member, in solve order
+    unreached: dict[str, str]  # member id -> plain reason
+    notes: tuple[str, ...]
+    reactions_first: bool  # reactions came from overall equilibrium before any cut
+    reaction_joint: str | None  # the joint overall moments were taken about
+
+    @property
+    def coverage(self) -> float:
+        """Fraction of the members reached by a cut."""
+        n = self.forces.member_forces.shape[0]
+        return len(self.cuts) / n if n else 1.0
+
+    def cut_for(self, member_id: str) -> SectionCut | None:
+        for cut in self.cuts:
+            if cut.target == member_id:
+                return cut
+        return None
+
+
+# -- small vector helpers ---------------------------------------------------------------------
+def _moment_of(x: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """x x f for points (n, d) and forces (n, d, c): (n, 1, c) in 2D, (n, 3, c) in 3D."""
+    if x.shape[1] == 2:
+        return (x[:, 0, None] * f[:, 1] - x[:, 1, None] * f[:, 0])[:, None, :]
+    return np.stack(
+        [
+            x[:, 1, None] * f[:, 2] - x[:, 2, None] * f[:, 1],
+            x[:, 2, None] * f[:, 0] - x[:, 0, None] * f[:, 2],
+            x[:, 0, None] * f[:, 1] - x[:, 1, None] * f[:, 0],
+        ],
+        axis=1,
+    )
+
+
+def _line_moment(p: np.ndarray, e: np.ndarray) -> np.ndarray:
+    """p x e row-wise: (n, 1) in 2D, (n, 3) in 3D."""
+    if p.shape[1] == 2:
+        return (p[:, 0] * e[:, 1] - p[:, 1] * e[:, 0])[:, None]
+    return np.cross(p, e)
+
+
+def _canonical(v: np.ndarray) -> np.ndarray:
+    """Unit vectors with the sign fixed (largest component positive), so n and -n coincide."""
+    norm = np.linalg.norm(v, axis=1)
+    v = v[norm > 0] / norm[norm > 0, None]
+    pick = np.abs(v).argmax(axis=1)
+    sign = np.sign(v[np.arange(len(v)), pick])
+    return v * sign[:, None]
+
+
+def _directions(model: Model) -> np.ndarray:
+    """Cut normals: the axes first, then normals of the most common member directions."""
+    d = model.dim
+    cap = MAX_DIRECTIONS[d]
+    u = _canonical(model.unit_vectors[np.isfinite(model.unit_vectors).all(axis=1)])
+    common = np.zeros((0, d))
+    if len(u):
+        keys, inverse, counts = np.unique(np.round(u, 6), axis=0, return_inverse=True, return_counts=True)
+        top = np.argsort(-counts, kind="stable")[: cap]
+        # average the members of each direction class: rounding must not tilt the normal
+        sums = np.zeros((len(keys), d))
+        np.add.at(sums, inverse.ravel(), u)
+        common = sums[top] / np.linalg.norm(sums[top], axis=1)[:, None]
+    candidates = [np.eye(d)]
+    if d == 2:
+        candidates.append(np.column_stack([-common[:, 1], common[:, 0]]))
+        candidates.append(common)
+    else:
+        candidates.append(common)
+        pairs = [np.cross(a, b) for a, b in itertools.combinations(common[:4], 2)]
+        if pairs:
+            candidates.append(np.array(pairs))
+    allc = _canonical(np.vstack(candidates))
+    _, first = np.unique(np.round(allc, 6), axis=0, return_index=True)
+    return allc[np.sort(first)][:cap]
+
+
+# -- straight-cut sweeps ------------------------------------------------------------------------
+@dataclass
+class _Sweep:
+    """Joints sorted along one cut normal, with per-gap side totals (built once per direction)."""
+
+    normal: np.ndarray
+    order: np.ndarray
+    group: np.ndarray  # layer index of every joint
+    stops: np.ndarray  # gap g lies between order[:stops[g]] and order[stops[g]:]
+    lo: np.ndarray  # per member: lower layer of its ends
+    hi: np.ndarray
+    crossing: np.ndarray  # per member: lo < hi
+    total: np.ndarray  # per gap: number of members crossing it
+    side_ext: tuple[np.ndarray, np.ndarray]  # per gap: (left, right) external loads+reactions
+    side_cost: tuple[np.ndarray, np.ndarray]  # per gap: loaded joints + reaction components
+    side_supports: tuple[np.ndarray, np.ndarray]
+    pin_left: np.ndarray
+    snapshot: np.ndarray | None = None  # known members when this sweep was last examined
+
+
+class _Engine:
+    """Precomputed data shared by every cut of one model."""
+
+    def __init__(self, model: Model) -> None:
+        self.model = model
+        d = self.d = model.dim
+        self.neq = EQUATIONS[d]
+        nj = self.nj = len(model.joints)
+        self.nb = len(model.members)
+        xyz = model.xyz
+        self.centre = (xyz.min(axis=0) + xyz.max(axis=0)) / 2 if nj else np.zeros(d)
+        self.X = xyz - self.centre
+        extent = float(np.ptp(xyz, axis=0).max()) if nj else 0.0
+        self.extent = extent if extent > 0 else 1.0
+        self.ends = model.ends_index
+        self.u = model.unit_vectors
+        self.L = model.lengths
+        self.joint_names = tuple(model.joint_ids)
+        self.member_names = tuple(model.member_ids)
+        F = model.load_matrix()
+        self.ncols = F.shape[1]
+        loads = F.reshape(nj, d, self.ncols)
+        self.loads = loads
+        r = len(model.reactions)
+        self.r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
+        self.r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
+        self.support_count = np.bincount(self.r_joint, minlength=nj) if nj else np.zeros(0, dtype=np.int64)
+        first = solve_reactions(model) if r else None
+        self.first = first
+        P = loads.copy()
+        if first is not None:
+            R = first[0]
+            np.add.at(P, self.r_joint, self.r_dir[:, :, None] * R[:, None, :])
+            self.reactions = R
+            self.pin = model.joint_index[first[2]]
+        else:
+            self.reactions = np.full((r, self.ncols), np.nan)
+            self.pin = -1
+        self.ext = np.concatenate([P, _moment_of(self.X, P)], axis=1)  # (nj, neq, ncols), about centre
+        loaded = (np.abs(loads) > 0).any(axis=(1, 2)) if self.ncols else np.zeros(nj, dtype=bool)
+        self.cost = loaded.astype(np.int64) + (self.support_count if first is not None else 0)
+        # incidence lists (CSR) for the non-straight free bodies
+        inc_member = np.concatenate([np.arange(self.nb), np.arange(self.nb)])
+        inc_joint = np.concatenate([self.ends[:, 0], self.ends[:, 1]])
+        order = np.argsort(inc_joint, kind="stable")
+        self.inc_members = inc_member[order]
+        self.inc_ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=nj))])
+        self.tied = np.zeros(self.nb, dtype=bool)
+
+    # -- sweeps --------------------------------------------------------------------------------
+    def sweep(self, normal: np.ndarray) -> _Sweep:
+        nj = self.nj
+        proj = self.X @ normal
+        order = np.argsort(proj, kind="stable")
+        sp = proj[order]
+        brk = np.diff(sp) > COINCIDENT_RTOL * self.extent
+        layer_sorted = np.concatenate([[0], np.cumsum(brk)])
+        group = np.empty(nj, dtype=np.int64)
+        group[order] = layer_sorted
+        n_layers = int(layer_sorted[-1]) + 1 if nj else 0
+        stops = np.flatnonzero(brk) + 1
+        ga = group[self.ends[:, 0]]
+        gb = group[self.ends[:, 1]]
+        lo = np.minimum(ga, gb)
+        hi = np.maximum(ga, gb)
+        crossing = lo < hi
+        total = self._gap_counts(lo, hi, crossing, n_layers)
+        ext_sorted = self.ext[order]
+        left = np.cumsum(ext_sorted, axis=0)[stops - 1]
+        right = np.cumsum(ext_sorted[::-1], axis=0)[::-1][stops]
+        cost = self.cost[order]
+        sup = self.support_count[order]
+        cl = np.cumsum(cost)[stops - 1]
+        sl = np.cumsum(sup)[stops - 1]
+        pin_left = (group[self.pin] < np.arange(1, n_layers)) if self.pin >= 0 else np.zeros(len(stops), dtype=bool)
+        return _Sweep(
+            normal, order, group, stops, lo, hi, crossing, total, (left, right),
+            (cl, cost.sum() - cl), (sl, sup.sum() - sl), pin_left,
+        )
+
+    @staticmethod
+    def _gap_counts(lo: np.ndarray, hi: np.ndarray, mask: np.ndarray, n_layers: int) -> np.ndarray:
+        """Members (where mask) crossing each gap: an interval sweep by difference array."""
+        if n_layers < 2:
+            return np.zeros(0, dtype=np.int64)
+        diff = np.bincount(lo[mask], minlength=n_layers) - np.bincount(hi[mask], minlength=n_layers)
+        return np.cumsum(diff)[: n_layers - 1]
+
+    def _keep_left(self, sw: _Sweep, gaps: np.ndarray, cost_l=None, cost_r=None, sup_l=None, sup_r=None, pin_l=None):
+        cl = sw.side_cost[0][gaps] if cost_l is None else cost_l
+        cr = sw.side_cost[1][gaps] if cost_r is None else cost_r
+        sl = sw.side_supports[0][gaps] if sup_l is None else sup_l
+        sr = sw.side_supports[1][gaps] if sup_r is None else sup_r
+        pl = sw.pin_left[gaps] if pin_l is None else pin_l
+        if self.first is not None:
+            ok = np.ones(len(cl), dtype=bool)
+            keep_left = (cl < cr) | ((cl == cr) & ~pl)
+        else:
+            ok = (sl == 0) | (sr == 0)
+            keep_left = (sl == 0) & ((sr > 0) | (cl <= cr))
+        return keep_left, ok
+
+    @staticmethod
+    def _pairs(sw: _Sweep, gaps: np.ndarray, members: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(gap position, member) for every member crossing one of the sorted `gaps`."""
+        lo = sw.lo[members]
+        hi = sw.hi[members]
+        s0 = np.searchsorted(gaps, lo, side="left")
+        s1 = np.searchsorted(gaps, hi, side="left")
+        count = s1 - s0
+        total = int(count.sum())
+        pm = np.repeat(members, count)
+        offsets = np.repeat(np.cumsum(count) - count, count)
+        pc = np.repeat(s0, count) + (np.arange(total) - offsets)
+        order = np.argsort(pc, kind="stable")
+        return pc[order], pm[order]
+
+    # -- evaluating free bodies ------------------------------------------------------------------
+    def evaluate(self, pc: np.ndarray, pm: np.ndarray, kept: np.ndarray, cand_ext: np.ndarray,
+                 known: np.ndarray, t: np.ndarray) -> _Found:
+        """Solve every candidate free body for the unknowns it isolates.
+
+        pc, pm, kept: per (candidate, cut member) pair, sorted by candidate: the candidate,
+        the member and the member's joint on the kept side. cand_ext: loads and reactions on each
+        kept side (resultant force, then moment about the model centre).
+        """
+        d, neq = self.d, self.neq
+        nc = len(cand_ext)
+        s = self.ends[pm, 0]
+        kept_start = kept == s
+        far = np.where(kept_start, self.ends[pm, 1], s)
+        p = self.X[kept]
+        e = np.where(kept_start[:, None], self.u[pm], -self.u[pm])
+        npair = np.bincount(pc, minlength=nc)
+        q0 = np.column_stack([np.bincount(pc, weights=p[:, k], minlength=nc) for k in range(d)])
+        q0 = q0 / np.maximum(npair, 1)[:, None]
+        rel = p - q0[pc]
+        Ls = np.zeros(nc)
+        np.maximum.at(Ls, pc, np.maximum(np.linalg.norm(rel, axis=1), self.L[pm]))
+        Ls[Ls == 0] = 1.0
+        col = np.concatenate([e, _line_moment(rel, e) / Ls[pc, None]], axis=1)
+        isknown = known[pm]
+        rhs = cand_ext.copy()
+        rhs[:, d:] -= _moment_of(q0, rhs[:, :d])
+        rhs[:, d:] /= Ls[:, None, None]
+        if isknown.any():
+            np.add.at(rhs, pc[isknown], col[isknown][:, :, None] * t[pm[isknown]][:, None, :])
+        rhs = -rhs
+        unknown_pos = np.flatnonzero(~isknown)
+        ku = np.bincount(pc[unknown_pos], minlength=nc)
+        found = _Found(pc, pm, kept, far, q0, Ls, col)
+        for k in np.unique(ku[ku > 0]):
+            cands = np.flatnonzero(ku == k)
+            sel = np.isin(pc[unknown_pos], cands)
+            idx = unknown_pos[sel].reshape(-1, int(k))
+            C = col[idx].transpose(0, 2, 1)
+            if d == 2:
+                rel_s = rel[idx] / Ls[cands, None, None]
+                ok, W, code = _ritter_2d(C, rel_s, self.L[pm[idx]] / Ls[cands, None])
+                den = np.einsum("nke,nek->nk", W, C)
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    val = np.einsum("nke,nec->nkc", W, rhs[cands]) / den[:, :, None]
+            else:
+                ok, val = _rank_solve(C, rhs[cands])
+                W = np.zeros((len(cands), int(k), neq))
+                code = np.full((len(cands), int(k)), _LSQ)
+            self.tied[pm[idx][~ok]] = True
+            r, c = np.nonzero(ok)
+            found.add(cands[r], idx[r, c], val[r, c], W[r, c], code[r, c], int(k))
+        return found
+
+
+class _Found:
+    """Isolated unknowns of a batch of candidate free bodies (arrays, one row per solution)."""
+
+    def __init__(self, pc, pm, kept, far, q0, Ls, col) -> None:
+        self.pc, self.pm, self.kept, self.far, self.q0, self.Ls, self.col = pc, pm, kept, far, q0, Ls, col
+        self.cand: list[np.ndarray] = []
+        self.pair: list[np.ndarray] = []
+        self.value: list[np.ndarray] = []
+        self.w: list[np.ndarray] = []
+        self.code: list[np.ndarray] = []
+        self.k: list[np.ndarray] = []
+        self.offsets = np.concatenate([[0], np.cumsum(np.bincount(pc, minlength=len(q0)))])
+
+    def add(self, cand, pair, value, w, code, k) -> None:
+        self.cand.append(cand)
+        self.pair.append(pair)
+        self.value.append(value)
+        self.w.append(w)
+        self.code.append(code)
+        self.k.append(np.full(len(cand), k))
+
+    def rows(self):
+        if not self.cand:
+            return None
+        return (np.concatenate(self.cand), np.concatenate(self.pair), np.concatenate(self.value),
+                np.concatenate(self.w), np.concatenate(self.code), np.concatenate(self.k))
+
+
+def _ritter_2d(C: np.ndarray, P: np.ndarray, Lk: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Ritter equations for every unknown of a batch of 2D cuts.
+
+    C: (n, 3, k) lines (ex, ey, m/Ls) about the cut's reference point; P: (n, k, 2) kept-side
+    joints of the members, and Lk: (n, k) their lengths, both in units of the cut size Ls.
+    Returns ok (n, k), W (n, k, 3) unit equation rows, code (n, k).
+    """
+    n, _, k = C.shape
+    ok = np.zeros((n, k), dtype=bool)
+    W = np.zeros((n, k, 3))
+    code = np.full((n, k), _MOMENT)
+    rows = np.arange(n)
+    for t in range(k):
+        others = [j for j in range(k) if j != t]
+        ct = C[:, :, t]
+        if not others:
+            w = np.column_stack([ct[:, 0], ct[:, 1], np.zeros(n)])
+        else:
+            best = np.zeros((n, 3))
+            best_norm = np.zeros(n)
+            for j, m in itertools.combinations(others, 2):
+                cr = np.cross(C[:, :, j], C[:, :, m])
+                nm = np.linalg.norm(cr, axis=1)
+                better = nm > best_norm
+                best[better] = cr[better]
+                best_norm[better] = nm[better]
+            w = best
+            single = best_norm <= ELIMINATED_RTOL
+            if single.any():
+                w = w.copy()
+                w[single] = _one_other(ct[single], C[single][:, :, others[0]], P[single][:, others[0]],
+                                       Lk[single][:, others[0]])
+        norm = np.linalg.norm(w, axis=1)
+        norm[norm == 0] = 1.0
+        w = w / norm[:, None]
+        parallel = np.abs(w[:, 2]) <= PARALLEL_RTOL * np.linalg.norm(w[:, :2], axis=1)
+        w[parallel, 2] = 0.0
+        good = np.abs(np.einsum("ne,ne->n", w, ct)) > ISOLATED_RTOL
+        for j in others:
+            good &= np.abs(np.einsum("ne,ne->n", w, C[:, :, j])) <= ELIMINATED_RTOL
+        ok[:, t] = good
+        W[rows, t] = w
+        code[:, t] = np.where(parallel, _FORCE, _MOMENT)
+    return ok, W, code
+
+
+def _one_other(ct: np.ndarray, cj: np.ndarray, pj: np.ndarray, lj: np.ndarray) -> np.ndarray:
+    """Equation rows isolating member t when one other unknown line j remains (scaled units).
+
+    A force sum normal to j if t crosses it at a fair angle; otherwise moments about whichever
+    joint of j gives t the longer lever arm.
+    """
+    ej = cj[:, :2]
+    normal = np.column_stack([-ej[:, 1], ej[:, 0], np.zeros(len(ct))])
+    sine = np.abs(ct[:, 0] * ej[:, 1] - ct[:, 1] * ej[:, 0])
+    pa = pj
+    pb = pj + lj[:, None] * ej
+    wa = np.column_stack([pa[:, 1], -pa[:, 0], np.ones(len(ct))])
+    wb = np.column_stack([pb[:, 1], -pb[:, 0], np.ones(len(ct))])
+    la = np.abs(np.einsum("ne,ne->n", wa, ct)) / np.linalg.norm(wa, axis=1)
+    lb = np.abs(np.einsum("ne,ne->n", wb, ct)) / np.linalg.norm(wb, axis=1)
+    moment = np.where((la >= lb)[:, None], wa, wb)
+    return np.where((sine >= SHALLOW_SINE)[:, None], normal, moment)
+
+
+def _rank_solve(C: np.ndarray, rhs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Which unknowns a batch of equation systems C x = rhs determines, and their values.
+
+    Unknown i is determined iff it has no component in the null space of C.
+    """
+    n, neq, k = C.shape
+    _, s, vh = np.linalg.svd(C, full_matrices=True)
+    smax = s[:, :1] if s.size else np.zeros((n, 1))
+    rank = (s > RANK_RTOL * np.maximum(smax, 1e-300)).sum(axis=1)
+    null_rows = np.arange(k)[None, :, None] >= rank[:, None, None]
+    share = np.where(null_rows, np.abs(vh), 0.0).max(axis=1)
+    ok = share < NULL_RTOL
+    val = np.linalg.pinv(C, rcond=RANK_RTOL) @ rhs
+    return ok, val
+
+
+# -- readable 3D equations ---------------------------------------------------------------------
+def _readable_3d(p: np.ndarray, e: np.ndarray, far: np.ndarray, t: int, others: Sequence[int],
+                 scale: float) -> tuple[int, np.ndarray | None, np.ndarray | None, int]:
+    """A moment axis or force direction that isolates member t (3D), for the written derivation.
+
+    p, e, far: kept-side points, directions and far points of the unknown members. Prefers a
+    moment axis through a point where two or more other unknowns meet (Ritter), then a force sum
+    normal to all the others, then any moment axis through a joint of the cut.
+    Returns (code, point, vector, through) with through = how many others pass through the point.
+    """
+    def orth(v: np.ndarray, basis: np.ndarray) -> np.ndarray:
+        if basis.size == 0:
+            return v
+        uu, ss, _ = np.linalg.svd(basis.T, full_matrices=False)
+        q = uu[:, ss > RANK_RTOL * max(ss.max(), 1e-300)]
+        return v - q @ (q.T @ v)
+
+    best: tuple[float, int, np.ndarray, np.ndarray] | None = None
+    points = [p[j] for j in others] + [far[j] for j in others]
+    for q in points:
+        mt = np.cross(p[t] - q, e[t])
+        mj = np.array([np.cross(p[j] - q, e[j]) for j in others]).reshape(-1, 3)
+        through = int((np.linalg.norm(mj, axis=1) <= ELIMINATED_RTOL * scale).sum())
+        a = orth(mt, mj[np.linalg.norm(mj, axis=1) > ELIMINATED_RTOL * scale])
+        na = np.linalg.norm(a)
+        if na <= ISOLATED_RTOL * scale:
+            continue
+        a = a / na
+        if np.abs(mj @ a).max(initial=0.0) > ELIMINATED_RTOL * scale:
+            continue
+        lever = abs(float(a @ mt)) / scale
+        if lever <= ISOLATED_RTOL:
+            continue
+        key = (through, lever)
+        if best is None or key > (best[1], best[0]):
+            best = (lever, through, q, a)
+    if best is not None and best[1] >= 2:
+        return _MOMENT, best[2], best[3], best[1]
+    others_e = np.array([e[j] for j in others]).reshape(-1, 3)
+    n = orth(e[t], others_e)
+    if np.linalg.norm(n) > ISOLATED_RTOL:
+        return _FORCE, None, n / np.linalg.norm(n), 0
+    if best is not None:
+        return _MOMENT, best[2], best[3], best[1]
+    return _LSQ, None, None, 0
+
+
+# -- the solve ---------------------------------------------------------------------------------
+class _Solver:
+    def __init__(self, model: Model) -> None:
+        self.eng = _Engine(model)
+        eng = self.eng
+        self.known = np.zeros(eng.nb, dtype=bool)
+        self.t = np.full((eng.nb, eng.ncols), np.nan)
+        self.cuts: list[SectionCut] = []
+        self.budget = MAX_BODY_CANDIDATES
+        self.notes: list[str] = []
+
+    def run(self) -> None:
+        eng = self.eng
+        if eng.nb == 0 or eng.nj < 2:
+            return
+        sweeps = [eng.sweep(n) for n in _directions(eng.model)]
+        while True:
+            progress = False
+            for sw in sweeps:
+                progress |= self._straight(sw) > 0
+            if progress:
+                continue
+            if self.known.all() or self.budget <= 0:
+                break
+            moved = sum(self._moved(sw) for sw in sweeps)
+            if moved == 0:
+                break
+        if self.budget <= 0 and not self.known.all():
+            self.notes.append(
+                f"the search for non-straight free bodies stopped after {MAX_BODY_CANDIDATES} candidates"
+            )
+        self.sweeps = sweeps
+
+    def _straight(self, sw: _Sweep) -> int:
+        eng = self.eng
+        n_layers = len(sw.stops) + 1
+        unknown = eng._gap_counts(sw.lo, sw.hi, sw.crossing & ~self.known, n_layers)
+        cand = (unknown >= 1) & (unknown <= MAX_UNKNOWNS[eng.d]) & (sw.total <= MAX_CROSSING[eng.d])
+        if sw.snapshot is not None:
+            fresh = self.known & ~sw.snapshot
+            cand &= eng._gap_counts(sw.lo, sw.hi, sw.crossing & fresh, n_layers) > 0
+        sw.snapshot = self.known.copy()
+        gaps = np.flatnonzero(cand)
+        keep_left, ok = eng._keep_left(sw, gaps)
+        gaps, keep_left = gaps[ok], keep_left[ok]
+        if not len(gaps):
+            return 0
+        pc, pm = eng._pairs(sw, gaps, np.flatnonzero(sw.crossing))
+        low_end_start = sw.group[eng.ends[pm, 0]] == sw.lo[pm]
+        start_kept = low_end_start == keep_left[pc]
+        kept = np.where(start_kept, eng.ends[pm, 0], eng.ends[pm, 1])
+        cand_ext = np.where(keep_left[:, None, None], sw.side_ext[0][gaps], sw.side_ext[1][gaps])
+        found = eng.evaluate(pc, pm, kept, cand_ext, self.known, self.t)
+
+        def side(c: int) -> _JointSet:
+            g = int(gaps[c])
+            stop = int(sw.stops[g])
+            if keep_left[c]:
+                return _JointSet(eng.joint_names, sw.order, 0, stop)
+            return _JointSet(eng.joint_names, sw.order, stop, eng.nj)
+
+        def supports(c: int) -> bool:
+            g = int(gaps[c])
+            return bool(sw.side_supports[0 if keep_left[c] else 1][g] > 0)
+
+        return self._accept(found, side, supports, straight=True)
+
+    def _moved(self, sw: _Sweep) -> int:
+        """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved across."""
+        eng = self.eng
+        n_layers = len(sw.stops) + 1
+        unknown = eng._gap_counts(sw.lo, sw.hi, sw.crossing & ~self.known, n_layers)
+        gaps = np.flatnonzero((unknown >= 1) & (sw.total <= MAX_CROSSING[eng.d]))
+        if not len(gaps) or self.budget <= 0:
+            return 0
+        pc_g, pm_g = eng._pairs(sw, gaps, np.flatnonzero(sw.crossing))
+        offsets = np.concatenate([[0], np.cumsum(np.bincount(pc_g, minlength=len(gaps)))])
+        starts = np.concatenate([[0], sw.stops])
+        ends_ = np.concatenate([sw.stops, [eng.nj]])
+        bodies: list[tuple[np.ndarray, np.ndarray, np.ndarray, bool, int, tuple[int, ...], tuple[int, ...]]] = []
+        for gi, g in enumerate(gaps.tolist()):
+            base = set(pm_g[offsets[gi] : offsets[gi + 1]].tolist())
+            for layer_index, to_right in ((g, True), (g + 1, False)):
+                layer = sw.order[starts[layer_index] : ends_[layer_index]]
+                if len(layer) > MAX_LAYER:
+                    continue
+                for size in range(1, MAX_MOVED + 1):
+                    for moved in itertools.combinations(layer.tolist(), size):
+                        if self.budget <= 0:
+                            break
+                        body = self._moved_body(sw, g, base, moved, to_right)
+                        if body is not None:
+                            self.budget -= 1
+                            bodies.append(body)
+        if not bodies:
+            return 0
+        pcs, pms, kepts, exts, sides, sup = [], [], [], [], [], []
+        for c, (members, kept, ext, keep_left, g, added, removed) in enumerate(bodies):
+            pcs.append(np.full(len(members), c))
+            pms.append(members)
+            kepts.append(kept)
+            exts.append(ext)
+            if keep_left:
+                sides.append(_JointSet(eng.joint_names, sw.order, 0, int(sw.stops[g]), added, removed))
+            else:
+                sides.append(_JointSet(eng.joint_names, sw.order, int(sw.stops[g]), eng.nj, added, removed))
+            sup.append(bool(eng.support_count[sides[-1].indices()].sum() > 0))
+        found = eng.evaluate(np.concatenate(pcs), np.concatenate(pms), np.concatenate(kepts),
+                             np.array(exts), self.known, self.t)
+        return self._accept(found, lambda c: sides[c], lambda c: sup[c], straight=False)
+
+    def _moved_body(self, sw: _Sweep, g: int, base: set[int], moved: tuple[int, ...], to_right: bool):
+        """The free body `left of gap g` with `moved` joints sent across; None if unusable."""
+        eng = self.eng
+        moved_set = set(moved)
+
+        def left(j: int) -> bool:
+            return (sw.group[j] <= g) != (j in moved_set)
+
+        incident: set[int] = set()
+        for j in moved:
+            incident.update(eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]].tolist())
+        # each moved joint must join its new side through a member (a connected free body)
+        for j in moved:
+            attached = False
+            for m in eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]].tolist():
+                other = int(eng.ends[m, 1] if eng.ends[m, 0] == j else eng.ends[m, 0])
+                if other not in moved_set and left(other) == left(j):
+                    attached = True
+                    break
+            if not attached:
+                return None
+        members = [m for m in base if m not in incident]
+        members += [m for m in incident if left(int(eng.ends[m, 0])) != left(int(eng.ends[m, 1]))]
+        if not members or len(members) > MAX_CROSSING[eng.d]:
+            return None
+        members_arr = np.array(sorted(members), dtype=np.int64)
+        if (~self.known[members_arr]).sum() > MAX_UNKNOWNS[eng.d] or self.known[members_arr].all():
+            return None
+        sign = -1 if to_right else 1  # moved joints leave (to_right) or join the left side
+        mv = np.array(moved, dtype=np.int64)
+        ext_l = sw.side_ext[0][g] + sign * eng.ext[mv].sum(axis=0)
+        ext_r = sw.side_ext[1][g] - sign * eng.ext[mv].sum(axis=0)
+        cost_l = sw.side_cost[0][g] + sign * eng.cost[mv].sum()
+        cost_r = sw.side_cost[1][g] - sign * eng.cost[mv].sum()
+        sup_l = sw.side_supports[0][g] + sign * eng.support_count[mv].sum()
+        sup_r = sw.side_supports[1][g] - sign * eng.support_count[mv].sum()
+        n_left = int(sw.stops[g]) + sign * len(moved)
+        if n_left <= 0 or n_left >= eng.nj:
+            return None
+        pin_l = bool(left(eng.pin)) if eng.pin >= 0 else False
+        keep, ok = eng._keep_left(sw, np.array([g]), np.array([cost_l]), np.array([cost_r]),
+                                  np.array([sup_l]), np.array([sup_r]), np.array([pin_l]))
+        if not ok[0]:
+            return None
+        keep_left = bool(keep[0])
+        kept = np.array([
+            int(eng.ends[m, 0]) if left(int(eng.ends[m, 0])) == keep_left else int(eng.ends[m, 1])
+            for m in members_arr.tolist()
+        ], dtype=np.int64)
+        if to_right:
+            added, removed = ((), moved) if keep_left else (moved, ())
+        else:
+            added, removed = (moved, ()) if keep_left else ((), moved)
+        return members_arr, kept, ext_l if keep_left else ext_r, keep_left, g, added, removed
+
+    def _accept(self, found: _Found, side, supports, *, straight: bool) -> int:
+        """Record the first cut found for every newly isolated member."""
+        rows = found.rows()
+        if rows is None:
+            return 0
+        cand, pair, value, w, code, k = rows
+        member = found.pm[pair]
+        fresh = ~self.known[member]
+        if not fresh.any():
+            return 0
+        cand, pair, value, w, code, k, member = (a[fresh] for a in (cand, pair, value, w, code, k, member))
+        n_known = found.offsets[cand + 1] - found.offsets[cand] - k
+        order = np.lexsort((cand, n_known, k, member))
+        member_sorted = member[order]
+        first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
+        first = first[np.argsort(cand[first], kind="stable")]
+        eng = self.eng
+        for r in first.tolist():
+            c = int(cand[r])
+            self.cuts.append(_build_cut(eng, found, c, int(pair[r]), w[r], int(code[r]), side(c),
+                                        supports(c), straight, self.known, self.t))
+        members = member[first]
+        self.t[members] = value[first]
+        self.known[members] = True
+        return len(first)
+
+
+def _build_cut(eng: _Engine, found: _Found, c: int, target_pair: int, w: np.ndarray, code: int,
+               side: _JointSet, uses_reactions: bool, straight: bool, known: np.ndarray,
+               t: np.ndarray) -> SectionCut:
+    lo, hi = int(found.offsets[c]), int(found.offsets[c + 1])
+    pairs = range(lo, hi)
+    names = eng.member_names
+    jn = eng.joint_names
+    pm = found.pm
+    is_known = known[pm[lo:hi]]
+    unknown_pairs = [q for q, kn in zip(pairs, is_known.tolist(), strict=True) if not kn]
+    others = [q for q in unknown_pairs if q != target_pair]
+    q0 = found.q0[c]
+    Ls = float(found.Ls[c])
+    point = axis = None
+    moment_joint = None
+    if eng.d == 2:
+        if code == _MOMENT:
+            o = np.array([-w[1] / w[2], w[0] / w[2]]) * Ls + q0
+            point = o
+        else:
+            axis = w[:2] / np.linalg.norm(w[:2])
+    else:
+        p = eng.X[found.kept[unknown_pairs]]
+        e = found.col[unknown_pairs, :3]
+        far = eng.X[found.far[unknown_pairs]]
+        ti = unknown_pairs.index(target_pair)
+        code, point, axis, _ = _readable_3d(p, e, far, ti, [i for i in range(len(unknown_pairs)) if i != ti], Ls)
+    if point is not None:
+        for q in range(lo, hi):
+            for j in (int(found.kept[q]), int(found.far[q])):
+                if np.linalg.norm(eng.X[j] - point) <= COINCIDENT_RTOL * max(Ls, eng.extent):
+                    moment_joint = jn[j]
+                    point = eng.X[j]
+                    break
+            if moment_joint:
+                break
+        point = tuple(float(x) for x in point + eng.centre)
+    if axis is not None:
+        axis = tuple(float(x) for x in axis)
+    known_pairs = [q for q, kn in zip(pairs, is_known.tolist(), strict=True) if kn]
+    return SectionCut(
+        target=names[int(pm[target_pair])],
+        cut_members=tuple(names[int(pm[q])] for q in pairs),
+        known_members=tuple(names[int(pm[q])] for q in known_pairs),
+        method=_METHOD_NAMES[code],
+        moment_point=point,
+        axis=axis,
+        kept_ends=tuple(jn[int(found.kept[q])] for q in pairs),
+        eliminated=tuple(names[int(pm[q])] for q in others),
+        moment_joint=moment_joint,
+        known_forces=tuple(tuple(float(x) for x in t[int(pm[q])]) for q in known_pairs),
+        uses_reactions=uses_reactions,
+        straight=straight,
+        _side=side,
+    )
+
+
+def solve_sections(model: Model) -> SectionSolution:
+    """Member forces by the method of sections, with one cut per reached member."""
+    solver = _Solver(model)
+    eng = solver.eng
+    notes: list[str] = []
+    d = model.dim
+    if eng.first is not None:
+        notes.append(
+            f"reactions from overall equilibrium first (moments about {eng.first[2]}, then force sums), "
+            "as a hand calc does"
+        )
+    elif model.reactions:
+        need = EQUATIONS[d]
+        why = (f"{len(model.reactions)} reaction components, not {need}" if len(model.reactions) != need
+               else "the supports are parallel or concurrent")
+        notes.append(
+            f"the reactions cannot be found from overall equilibrium ({why}); the section route "
+            "covers only free bodies with no support on them"
+        )
+    solver.run()
+    notes.extend(solver.notes)
+    unreached = _reasons(solver)
+    members = solver.t
+    if unreached:
+        notes.append(f"{len(unreached)} of {eng.nb} members not reached by a cut")
+    return SectionSolution(
+        forces=ForceResult("sections", tuple(model.load_names), members, eng.reactions.copy(), tuple(notes)),
+        cuts=tuple(solver.cuts),
+        unreached=unreached,
+        notes=tuple(notes),
+        reactions_first=eng.first is not None,
+        reaction_joint=eng.first[2] if eng.first is not None else None,
+    )
+
+
+def _reasons(solver: _Solver) -> dict[str, str]:
+    eng = solver.eng
+    missing = np.flatnonzero(~solver.known)
+    if not len(missing):
+        return {}
+    neq = eng.neq
+    fewest = np.full(eng.nb, np.iinfo(np.int64).max)
+    for sw in getattr(solver, "sweeps", []):
+        n_layers = len(sw.stops) + 1
+        unknown = eng._gap_counts(sw.lo, sw.hi, sw.crossing & ~solver.known, n_layers)
+        ms = missing[sw.crossing[missing]]
+        if not len(ms) or not len(unknown):
+            continue
+        bounds = np.column_stack([sw.lo[ms], sw.hi[ms]]).ravel()
+        mins = np.minimum.reduceat(np.append(unknown, 0), bounds)[::2]
+        fewest[ms] = np.minimum(fewest[ms], mins)
+    suffix = "" if eng.first is not None or not eng.model.reactions else (
+        "; only free bodies without supports were usable, because the reactions cannot be found "
+        "from overall equilibrium"
+    )
+    out: dict[str, str] = {}
+    limit = 2000  # joint-only checks are per member in Python; beyond this the generic reason
+    for count, m in enumerate(missing.tolist()):
+        name = eng.member_names[m]
+        few = int(fewest[m])
+        joint = _joint_alone(eng, solver.known, m) if count < limit else None
+        if eng.nj < 2 or few == np.iinfo(np.int64).max:
+            text = "no cut tried crosses it"
+        elif joint is not None:
+            text = (f"only the equilibrium of joint {joint} on its own isolates it (method of joints); "
+                    f"every section through it cuts at least {few} members with unknown forces")
+        elif solver.eng.tied[m] and few <= neq:
+            text = ("each cut through it with few enough unknowns leaves it tied to the other cut "
+                    "members (their lines meet on its line or are parallel to it), so no equation "
+                    "isolates it")
+        else:
+            text = (f"every section tried through it cuts at least {few} members with unknown forces, "
+                    f"more than the {neq} equations of one free body can resolve")
+        out[name] = text + suffix
+    return out
+
+
+def _joint_alone(eng: _Engine, known: np.ndarray, m: int) -> str | None:
+    """A joint of member m whose own equations isolate it, if there is one."""
+    for j in (int(eng.ends[m, 0]), int(eng.ends[m, 1])):
+        if eng.support_count[j] and eng.first is None:
+            continue
+        inc = eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]]
+        unk = [x for x in inc.tolist() if not known[x]]
+        if len(unk) > eng.neq // (2 if eng.d == 3 else 1) + (eng.d - 2):
+            continue
+        E = np.array([eng.u[x] for x in unk]).T  # (d, k)
+        _, s, vh = np.linalg.svd(E, full_matrices=True)
+        rank = int((s > RANK_RTOL * max(s.max(initial=0.0), 1e-300)).sum())
+        i = unk.index(m)
+        if np.abs(vh[rank:, i]).max(initial=0.0) < NULL_RTOL:
+            return eng.joint_names[j]
+    return None
+
+
+# -- user-requested cuts and single-cut solves -------------------------------------------------
+def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
+    """A cut through exactly these members, its free body and the equation for the first member
+    it isolates. Raises ValueError, in plain words, if they do not split the truss or if no
+    member of the cut can be isolated (too many unknowns, or concurrent or parallel lines).
+    """
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+
+    from verify.errors import did_you_mean
+
+    ids = list(dict.fromkeys(str(m) for m in member_ids))
+    if not ids:
+        raise ValueError("a cut needs at least one member")
+    for m in ids:
+        if m not in model.member_index:
+            raise ValueError(f"member '{m}' is not in the model.{did_you_mean(m, model.member_ids)}")
+    eng = _Engine(model)
+    cut_idx = np.array([model.member_index[m] for m in ids], dtype=np.int64)
+    keep = np.ones(eng.nb, dtype=bool)
+    keep[cut_idx] = False
+    ends = eng.ends[keep]
+    graph = coo_matrix((np.ones(len(ends)), (ends[:, 0], ends[:, 1])), shape=(eng.nj, eng.nj))
+    n_parts, label = connected_components(graph, directed=False)
+    listed = ", ".join(ids)
+    if n_parts < 2:
+        raise ValueError(
+            f"removing {listed} leaves the truss in one piece, so these members do not form a section; "
+            "a section must cut the truss into two parts"
+        )
+    la = label[eng.ends[cut_idx, 0]]
+    lb = label[eng.ends[cut_idx, 1]]
+    candidates = []
+    for part in range(n_parts):
+        crosses = (la == part) != (lb == part)
+        if crosses.all():
+            candidates.append(part)
+    if not candidates:
+        stray = [ids[i] for i in range(len(ids)) if la[i] == lb[i]]
+        detail = (f"{', '.join(stray)} would have both ends on the same side" if stray
+                  else "no single connected part is separated from the rest by exactly these members")
+        raise ValueError(f"the members {listed} do not form one section: {detail}")
+    options = []
+    for part in candidates:
+        joints = np.flatnonzero(label == part)
+        supp = int(eng.support_count[joints].sum())
+        if eng.first is None and supp:
+            continue
+        has_pin = eng.pin >= 0 and label[eng.pin] == part
+        options.append((int(eng.cost[joints].sum()), has_pin, len(joints), part, joints, supp > 0))
+    if not options:
+        raise ValueError(
+            f"every free body of the cut through {listed} holds a support, and the reactions cannot be "
+            "found from overall equilibrium"
+        )
+    options.sort(key=lambda o: o[:3])
+    _, _, _, part, joints, uses_reactions = options[0]
+    kept = np.where(label[eng.ends[cut_idx, 0]] == part, eng.ends[cut_idx, 0], eng.ends[cut_idx, 1])
+    ext = eng.ext[joints].sum(axis=0)[None]
+    known = np.zeros(eng.nb, dtype=bool)
+    found = eng.evaluate(np.zeros(len(cut_idx), dtype=np.int64), cut_idx, kept, ext, known,
+                         np.zeros((eng.nb, eng.ncols)))
+    rows = found.rows()
+    if rows is None:
+        raise ValueError(_unresolvable(eng, found, ids))
+    cand, pair, value, w, code, k = rows
+    first = int(np.argmin(pair))
+    side = _JointSet(eng.joint_names, joints.astype(np.int64), 0, len(joints))
+    return _build_cut(eng, found, 0, int(pair[first]), w[first], int(code[first]), side,
+                      uses_reactions, False, known, np.zeros((eng.nb, eng.ncols)))
+
+
+def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:
+    """Why no member of a user-requested cut can be isolated."""
+    listed = ", ".join(ids)
+    k = len(ids)
+    neq = eng.neq
+    C = found.col.T  # (neq, k)
+    rank = int(np.linalg.matrix_rank(C, tol=RANK_RTOL * max(np.abs(C).max(), 1e-300)))
+    if eng.d == 2 and k >= 2:
+        lines = found.col
+        if np.linalg.norm(np.cross(lines[0], lines[1])) > 0:
+            w = np.cross(lines[0], lines[1])
+            w = w / np.linalg.norm(w)
+            if np.all(np.abs(lines @ w) <= ELIMINATED_RTOL):
+                if abs(w[2]) <= PARALLEL_RTOL * np.linalg.norm(w[:2]):
+                    return (f"the lines of {listed} are all parallel: a force sum across them gives 0 = 0 "
+                            "and the cut cannot isolate any of them")
+                o = np.array([-w[1] / w[2], w[0] / w[2]]) * found.Ls[0] + found.q0[0] + eng.centre
+                where = f"({', '.join(f'{x:.6g}' for x in o)})"
+                for j in range(eng.nj):
+                    if np.linalg.norm(eng.model.xyz[j] - o) <= COINCIDENT_RTOL * eng.extent:
+                        where = f"joint {eng.joint_names[j]} {where}"
+                        break
+                return (f"the lines of {listed} all pass through one point, {where}: moments about it "
+                        f"vanish for every one of them and the force sums give only 2 equations for "
+                        f"{k} unknowns, so the cut cannot isolate any of them")
+    if k > neq:
+        return (f"the cut through {listed} has {k} unknown forces but a free body gives only {neq} "
+                "equations, and no member is isolated: the lines of the others neither meet at one point "
+                "nor are all parallel")
+    return (f"the {neq} equations of the free body have rank {rank} for the {k} unknown forces of "
+            f"{listed}, and no member is isolated by them (concurrent or parallel lines)")
+
+
+def _kept_external(model: Model, cut: SectionCut, column: int) -> list[tuple[str, np.ndarray, np.ndarray]]:
+    """(label, point, force vector) of every load and reaction on the kept side, one column."""
+    idx = cut._side.indices()
+    d = model.dim
+    F = model.load_matrix()[:, column].reshape(-1, d)
+    out: list[tuple[str, np.ndarray, np.ndarray]] = []
+    for j in idx.tolist():
+        if np.any(F[j] != 0):
+            out.append((model.joints[j].id, model.xyz[j], F[j].copy()))
+    kept = set(idx.tolist())
+    reacting = [k for k, r in enumerate(model.reactions) if model.joint_index[r.joint] in kept]
+    if reacting:
+        first = solve_reactions(model)
+        if first is None:
+            raise ValueError(
+                "the kept side of this cut holds supports, and the reactions cannot be found from "
+                "overall equilibrium"
+            )
+        for k in reacting:
+            reaction = model.reactions[k]
+            j = model.joint_index[reaction.joint]
+            out.append((reaction.label, model.xyz[j], np.asarray(reaction.direction) * first[0][k, column]))
+    return out
+
+
+def _column(model: Model, load_column: int | str) -> int:
+    if isinstance(load_column, str):
+        names = model.load_names
+        if load_column not in names:
+            from verify.errors import did_you_mean
+
+            raise ValueError(f"load case '{load_column}' is not in the model.{did_you_mean(load_column, names)}")
+        return names.index(load_column)
+    column = int(load_column)
+    if not 0 <= column < len(model.load_names):
+        raise ValueError(f"load column {column} is out of range (the model has {len(model.load_names)})")
+    return column
+
+
+def equation_row(model: Model, cut: SectionCut, point: np.ndarray, force: np.ndarray) -> float:
+    """The cut's equation applied to one force acting at `point` (its coefficient in the sum)."""
+    if cut.method == FORCES_NORMAL:
+        return float(np.dot(cut.axis, force))
+    if cut.method == MOMENTS:
+        rel = np.asarray(point, dtype=float) - np.asarray(cut.moment_point)
+        if model.dim == 2:
+            return float(rel[0] * force[1] - rel[1] * force[0])
+        return float(np.dot(cut.axis, np.cross(rel, force)))
+    raise ValueError("a least-squares cut has no single equation")
+
+
+def cut_lines(model: Model, cut: SectionCut) -> list[tuple[str, str, np.ndarray, np.ndarray]]:
+    """(member, kept joint, kept point, unit vector away from the free body) for each cut member."""
+    out = []
+    for member, joint in zip(cut.cut_members, cut.kept_ends, strict=True):
+        i = model.member_index[member]
+        u = model.unit_vectors[i]
+        start = model.members[i].start
+        e = u if start == joint else -u
+        out.append((member, joint, model.xyz[model.joint_index[joint]], e))
+    return out
+
+
+def solve_cut(model: Model, cut: SectionCut, load_column: int | str) -> dict[str, float]:
+    """Forces of the cut's unknown members that the cut determines, for one load column.
+
+    The target comes from the cut's own equation (moments about the Ritter point or axis, or the
+    force sum normal to the others); any other determined unknowns from the free body's full
+    equation set with a rank test. Known members use the values carried in the cut.
+    """
+    column = _column(model, load_column)
+    d = model.dim
+    external = _kept_external(model, cut, column)
+    known = {m: f[column] for m, f in zip(cut.known_members, cut.known_forces, strict=True)}
+    lines = cut_lines(model, cut)
+    out: dict[str, float] = {}
+    if cut.method != LEAST_SQUARES:
+        total = sum(equation_row(model, cut, x, f) for _, x, f in external)
+        coef_t = 0.0
+        for member, _, p, e in lines:
+            coef = equation_row(model, cut, p, e)
+            if member == cut.target:
+                coef_t = coef
+            elif member in known:
+                total += coef * known[member]
+        out[cut.target] = -total / coef_t
+    # the full set: F + sum N e = 0 and M + sum N (p x e) = 0, moments about the first kept joint
+    ref = lines[0][2]
+    ext = np.zeros(EQUATIONS[d])
+    for _, x, f in external:
+        ext[:d] += f
+        ext[d:] += _line_moment((x - ref)[None], f[None])[0]
+    unknown = [ln for ln in lines if ln[0] not in known]
+    for member, _, p, e in lines:
+        if member in known:
+            ext[:d] += known[member] * e
+            ext[d:] += known[member] * _line_moment((p - ref)[None], e[None])[0]
+    scale = max(float(np.linalg.norm(p - ref)) for _, _, p, _ in lines) or 1.0
+    C = np.array([np.concatenate([e, _line_moment((p - ref)[None], e[None])[0] / scale]) for _, _, p, e in unknown]).T
+    rhs = -ext.copy()
+    rhs[d:] /= scale
+    ok, val = _rank_solve(C[None], rhs[None, :, None])
+    for i, (member, _, _, _) in enumerate(unknown):
+        if ok[0, i] and member not in out:
+            out[member] = float(val[0, i, 0])
+    if cut.target not in out:
+        raise ValueError(f"the cut does not determine {cut.target}")
+    return out

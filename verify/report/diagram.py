@@ -1,0 +1,401 @@
+"""The truss drawn as hand-written, self-contained SVG: tension/compression and review status.
+
+Visual code (our own, explained in the legend that every drawing carries):
+
+- *Force*: compression is a wide band, tension a narrow line, a zero-force member a dotted
+  hairline, a member without a recomputed force a long-dashed line. Thickness survives greyscale
+  printing and colour blindness.
+- *Status*: one colour per status from the Okabe-Ito palette (M. Okabe & K. Ito, "Color Universal
+  Design", 2008, designed to stay distinguishable for the common colour-vision deficiencies),
+  plus a letter in a small circle at the member's midpoint, so the status reads without colour.
+
+Every text is escaped; coordinates are written with one decimal and members in model order, so the
+same input gives byte-identical output.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from html import escape
+
+import numpy as np
+
+from verify.model import Model
+from verify.report.numbers import fmt
+
+
+@dataclass(frozen=True)
+class StatusStyle:
+    key: str
+    colour: str
+    marker: str  # letter drawn at the member's midpoint; "" for none
+    words: str  # the legend's plain words
+    rank: int  # when several claims of one member differ, the lower rank is drawn
+
+
+STATUS_STYLES: dict[str, StatusStyle] = {s.key: s for s in (
+    StatusStyle("discrepancy", "#D55E00", "!", "claimed value differs (wrong value, force claimed for a zero-force member, "
+                "or a distribution that is not the elastic one)", 0),
+    StatusStyle("swapped", "#0072B2", "X", "claim belongs to another member (labels swapped)", 1),
+    StatusStyle("sign", "#CC79A7", "S", "sign or T/C reversed", 2),
+    StatusStyle("unit", "#E69F00", "U", "off by a unit factor (e.g. N written for kN)", 3),
+    StatusStyle("not-reached", "#000000", "N", "not reached: no recomputed force to compare with", 4),
+    StatusStyle("missing", "#8C8C8C", "?", "no claim given for this member (not checked)", 5),
+    StatusStyle("agrees", "#009E73", "", "agrees within tolerance", 6),
+)}
+NEUTRAL = StatusStyle("neutral", "#3A3A3A", "", "member (no claims compared)", 7)
+
+STATUS_CATEGORY: dict[str, str] = {
+    "agrees": "agrees",
+    "value-mismatch": "discrepancy",
+    "zero-force-claimed": "discrepancy",
+    "not-elastic": "discrepancy",
+    "equilibrium-residual": "discrepancy",
+    "sign-flip": "sign",
+    "table-sign-convention": "sign",
+    "unit-scale": "unit",
+    "swapped-labels": "swapped",
+    "missing-claim": "missing",
+    "not-verifiable": "not-reached",
+}
+
+COMPRESSION_WIDTH = 7.0
+TENSION_WIDTH = 2.4
+ZERO_WIDTH = 1.4
+ZERO_DASH = "1.5 4"
+UNKNOWN_DASH = "10 6"
+ZERO_RTOL = 1e-9  # |force| below this fraction of the largest is drawn as a zero-force member
+
+BASE_WIDTH = 900.0  # px of the drawing area for a small truss
+MAX_WIDTH = 2400.0  # px; larger models are drawn smaller rather than wider
+MAX_HEIGHT = 1400.0
+MARGIN = 70.0
+LABEL_MIN_PX = 42.0  # member labels only when the median member is at least this long on screen
+MAX_LABELLED_MEMBERS = 2000  # above this, no per-member labels or markers (DESIGN: large models)
+FONT = "font-family:'DejaVu Sans',Verdana,Arial,sans-serif"
+
+
+def status_category(status: str) -> str:
+    return STATUS_CATEGORY.get(status, "discrepancy")
+
+
+def worst_status(statuses: Sequence[str]) -> str:
+    """The category drawn for a member with several claims in one load column."""
+    cats = [status_category(s) for s in statuses]
+    return min(cats, key=lambda c: STATUS_STYLES[c].rank)
+
+
+def _n(value: float) -> str:
+    text = f"{value:.1f}"
+    return "0.0" if text == "-0.0" else text
+
+
+@dataclass(frozen=True)
+class _View:
+    name: str  # caption, e.g. "Elevation (x-y)"
+    axes: tuple[int, int]  # model axes drawn as screen x and screen up
+
+
+def views_for(model: Model) -> list[_View]:
+    """2D: the plane itself. 3D: a plan and an elevation, the vertical taken from the loads."""
+    names = "xyz"
+    if model.dim == 2:
+        return [_View("Elevation (x–y)", (0, 1))]
+    load = np.abs(model.load_matrix()).reshape(len(model.joints), 3, -1).sum(axis=(0, 2)) if len(model.joints) else np.zeros(3)
+    vertical = int(np.argmax(load)) if load.max() > 0 else 2
+    if load.max() > 0 and load[2] >= load[vertical]:
+        vertical = 2  # ties go to z, the usual vertical
+    horizontal = [a for a in range(3) if a != vertical]
+    extent = np.ptp(model.xyz, axis=0) if len(model.joints) else np.zeros(3)
+    across = max(horizontal, key=lambda a: (extent[a], -a))
+    other = [a for a in horizontal if a != across][0]
+    return [
+        _View(f"Plan (looking down {names[vertical]}: {names[across]} across, {names[other]} up the page)", (across, other)),
+        _View(f"Elevation (looking along {names[other]}: {names[across]} across, {names[vertical]} up)", (across, vertical)),
+    ]
+
+
+def render_diagram(model: Model, *, forces: Sequence[float] | np.ndarray | None = None,
+                   statuses: Mapping[str, str] | None = None, load_name: str | None = None,
+                   caption: str = "") -> str:
+    """An HTML <figure> with one SVG per view and a legend in plain words.
+
+    `forces` are member forces (tension positive) in model order for the load column
+    `load_name`; `statuses` maps member id to a review status (see STATUS_CATEGORY). Without
+    statuses the members are drawn in one neutral colour.
+    """
+    force_arr = None if forces is None else np.asarray(forces, dtype=float)
+    loads = None
+    if load_name is not None and load_name in model.load_names:
+        loads = model.load_matrix()[:, model.load_names.index(load_name)]
+    views = views_for(model)
+    svgs = [_svg(model, view, force_arr, statuses, loads) for view in views]
+    parts = ['<figure class="truss">']
+    for view, svg in zip(views, svgs, strict=True):
+        parts.append(f'<div class="view"><div class="view-name">{escape(view.name)}</div>{svg}</div>')
+    if caption:
+        parts.append(f"<figcaption>{escape(caption)}</figcaption>")
+    parts.append(legend_html(with_status=statuses is not None, used=_used(model, statuses), model=model))
+    parts.append("</figure>")
+    return "\n".join(parts)
+
+
+def _used(model: Model, statuses: Mapping[str, str] | None) -> set[str]:
+    if statuses is None:
+        return set()
+    return {status_category(statuses[m.id]) for m in model.members if m.id in statuses}
+
+
+def _style_for(member_id: str, statuses: Mapping[str, str] | None) -> StatusStyle:
+    if statuses is None:
+        return NEUTRAL
+    status = statuses.get(member_id)
+    return STATUS_STYLES[status_category(status)] if status is not None else STATUS_STYLES["missing"]
+
+
+def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping[str, str] | None,
+         loads: np.ndarray | None) -> str:
+    ax, ay = view.axes
+    pts = model.xyz[:, [ax, ay]] if len(model.joints) else np.zeros((0, 2))
+    lo = pts.min(axis=0) if len(pts) else np.zeros(2)
+    hi = pts.max(axis=0) if len(pts) else np.ones(2)
+    span = np.maximum(hi - lo, 1e-12)
+    projected_len = np.linalg.norm(pts[model.ends_index[:, 1]] - pts[model.ends_index[:, 0]], axis=1) if len(model.members) else np.ones(1)
+    positive = projected_len[projected_len > 1e-9 * float(span.max())]
+    median = float(np.median(positive)) if positive.size else float(span.max())
+    scale = BASE_WIDTH / float(span.max())
+    if len(model.members) <= MAX_LABELLED_MEMBERS and median * scale < LABEL_MIN_PX * 1.6:
+        scale = LABEL_MIN_PX * 1.6 / median  # enlarge so labels fit, within the caps below
+    scale = min(scale, MAX_WIDTH / float(span[0]) if span[0] > 1e-9 * span.max() else scale,
+                MAX_HEIGHT / float(span[1]) if span[1] > 1e-9 * span.max() else scale)
+    width = float(span[0]) * scale + 2 * MARGIN
+    height = float(span[1]) * scale + 2 * MARGIN
+    # Screen coordinates: x right, y down.
+    sx = (pts[:, 0] - lo[0]) * scale + MARGIN
+    sy = (hi[1] - pts[:, 1]) * scale + MARGIN
+    labels = len(model.members) <= MAX_LABELLED_MEMBERS and median * scale >= LABEL_MIN_PX
+    joint_labels = len(model.joints) <= MAX_LABELLED_MEMBERS and median * scale >= LABEL_MIN_PX * 0.6
+    largest = float(np.nanmax(np.abs(forces))) if forces is not None and forces.size and np.isfinite(forces).any() else 0.0
+    zero = ZERO_RTOL * (largest or 1.0)
+
+    out = [f'<svg xmlns="http://www.w3.org/2000/svg" role="img" width="{_n(width)}" height="{_n(height)}" '
+           f'viewBox="0 0 {_n(width)} {_n(height)}" style="max-width:100%;height:auto;{FONT}">']
+    out.append(f"<title>{escape(model.title or 'truss')} — {escape(view.name)}</title>")
+    out.append(f'<rect x="0" y="0" width="{_n(width)}" height="{_n(height)}" fill="#ffffff"/>')
+
+    # Members: compression bands under tension lines so thin lines stay visible at crossings.
+    order = list(range(len(model.members)))
+    if forces is not None:
+        order.sort(key=lambda i: 0 if np.isfinite(forces[i]) and forces[i] < -zero else 1)
+    lines = []
+    for i in order:
+        member = model.members[i]
+        a, b = model.ends_index[i]
+        style = _style_for(member.id, statuses)
+        value = float(forces[i]) if forces is not None else math.nan
+        if forces is None:
+            width_px, dash, kind = TENSION_WIDTH, "", "member"
+        elif not math.isfinite(value):
+            width_px, dash, kind = TENSION_WIDTH, UNKNOWN_DASH, "no recomputed force"
+        elif value < -zero:
+            width_px, dash, kind = COMPRESSION_WIDTH, "", f"compression {fmt(-value)}"
+        elif value > zero:
+            width_px, dash, kind = TENSION_WIDTH, "", f"tension {fmt(value)}"
+        else:
+            width_px, dash, kind = ZERO_WIDTH, ZERO_DASH, "zero force"
+        dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
+        tooltip = f"{member.id}: {kind}" + (f"; {statuses[member.id]}" if statuses and member.id in statuses else "")
+        lines.append(f'<line x1="{_n(sx[a])}" y1="{_n(sy[a])}" x2="{_n(sx[b])}" y2="{_n(sy[b])}" stroke="{style.colour}" '
+                     f'stroke-width="{width_px:g}"{dash_attr} stroke-linecap="round"><title>{escape(tooltip)}</title></line>')
+    out.append('<g class="members">' + "".join(lines) + "</g>")
+
+    out.extend(_supports(model, view, sx, sy))
+    if loads is not None:
+        out.extend(_loads(model, view, sx, sy, loads))
+
+    joints = [f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
+              for j in range(len(model.joints))]
+    out.append('<g class="joints">' + "".join(joints) + "</g>")
+
+    if len(model.members) <= MAX_LABELLED_MEMBERS and statuses is not None:
+        out.append('<g class="markers">' + "".join(_markers(model, sx, sy, statuses)) + "</g>")
+    if labels:
+        out.append('<g class="member-labels" font-size="12" fill="#1a1a1a">' + "".join(_member_labels(model, sx, sy, statuses)) + "</g>")
+    if joint_labels:
+        out.append('<g class="joint-labels" font-size="13" font-weight="bold" fill="#1a1a1a">' + "".join(_joint_labels(model, sx, sy)) + "</g>")
+    out.append("</svg>")
+    return "".join(out)
+
+
+def _halo() -> str:
+    return 'paint-order="stroke" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round"'
+
+
+def _midpoint_frame(model: Model, sx: np.ndarray, sy: np.ndarray, i: int) -> tuple[float, float, float, float]:
+    """Midpoint and the unit normal (screen) of member i; normal points up (or right)."""
+    a, b = model.ends_index[i]
+    mx, my = (sx[a] + sx[b]) / 2, (sy[a] + sy[b]) / 2
+    dx, dy = sx[b] - sx[a], sy[b] - sy[a]
+    length = math.hypot(dx, dy) or 1.0
+    nx, ny = -dy / length, dx / length
+    if ny > 0 or (abs(ny) < 1e-9 and nx < 0):
+        nx, ny = -nx, -ny
+    return float(mx), float(my), nx, ny
+
+
+def _markers(model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str]) -> list[str]:
+    out = []
+    for i, member in enumerate(model.members):
+        style = _style_for(member.id, statuses)
+        if not style.marker:
+            continue
+        mx, my, _, _ = _midpoint_frame(model, sx, sy, i)
+        out.append(f'<circle cx="{_n(mx)}" cy="{_n(my)}" r="8.5" fill="#ffffff" stroke="{style.colour}" stroke-width="2"/>'
+                   f'<text x="{_n(mx)}" y="{_n(my + 4.2)}" text-anchor="middle" font-size="12" font-weight="bold" '
+                   f'fill="#1a1a1a">{escape(style.marker)}</text>')
+    return out
+
+
+def _member_labels(model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str] | None) -> list[str]:
+    out = []
+    for i, member in enumerate(model.members):
+        mx, my, nx, ny = _midpoint_frame(model, sx, sy, i)
+        offset = 15.0
+        x, y = mx + nx * offset, my + ny * offset + 4
+        anchor = "middle" if abs(nx) < 0.5 else ("start" if nx > 0 else "end")
+        out.append(f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(member.id))}</text>')
+    return out
+
+
+def _short(label: str, limit: int = 14) -> str:
+    return label if len(label) <= limit else label[: limit - 1] + "…"
+
+
+def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray) -> list[str]:
+    """Each joint label sits opposite the mean direction of its members, clear of the lines."""
+    n = len(model.joints)
+    dirx = np.zeros(n)
+    diry = np.zeros(n)
+    for a, b in model.ends_index.tolist():
+        dx, dy = sx[b] - sx[a], sy[b] - sy[a]
+        length = math.hypot(dx, dy) or 1.0
+        dirx[a] += dx / length
+        diry[a] += dy / length
+        dirx[b] -= dx / length
+        diry[b] -= dy / length
+    out = []
+    for j, joint in enumerate(model.joints):
+        length = math.hypot(dirx[j], diry[j])
+        ux, uy = (-dirx[j] / length, -diry[j] / length) if length > 1e-6 else (-0.7071, -0.7071)
+        x, y = sx[j] + ux * 14, sy[j] + uy * 14 + 4.5
+        anchor = "middle" if abs(ux) < 0.4 else ("start" if ux > 0 else "end")
+        out.append(f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(joint.id))}</text>')
+    return out
+
+
+def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray) -> list[str]:
+    """A triangle whose apex is the joint, its base on the side the support pushes from."""
+    by_joint: dict[str, list[tuple[float, ...]]] = {}
+    for reaction in model.reactions:
+        by_joint.setdefault(reaction.joint, []).append(reaction.direction)
+    ax, ay = view.axes
+    out = ['<g class="supports" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5">']
+    for joint_id, directions in by_joint.items():
+        j = model.joint_index[joint_id]
+        vertical = [d for d in directions if abs(d[ay]) > 0.5]
+        main = vertical[0] if vertical else directions[0]
+        ux, uy = float(main[ax]), -float(main[ay])
+        length = math.hypot(ux, uy)
+        if length < 1e-9:  # restraint along the viewing direction only
+            ux, uy = 0.0, -1.0
+        else:
+            ux, uy = ux / length, uy / length
+        size = 16.0
+        bx, by = sx[j] + (-ux) * size, sy[j] + (-uy) * size  # the base centre, away from the push
+        px, py = -uy, ux
+        half = size * 0.7
+        p1 = (bx + px * half, by + py * half)
+        p2 = (bx - px * half, by - py * half)
+        out.append(f'<polygon points="{_n(sx[j])},{_n(sy[j])} {_n(p1[0])},{_n(p1[1])} {_n(p2[0])},{_n(p2[1])}"/>')
+        full = len(directions) >= model.dim
+        gx, gy = bx - ux * (0.5 if full else 7.5), by - uy * (0.5 if full else 7.5)
+        if not full:
+            for s in (-0.45, 0.45):
+                cx, cy = bx - ux * 3.8 + px * half * s * 1.4, by - uy * 3.8 + py * half * s * 1.4
+                out.append(f'<circle cx="{_n(cx)}" cy="{_n(cy)}" r="3.2"/>')
+        g1 = (gx + px * half * 1.4, gy + py * half * 1.4)
+        g2 = (gx - px * half * 1.4, gy - py * half * 1.4)
+        out.append(f'<line x1="{_n(g1[0])}" y1="{_n(g1[1])}" x2="{_n(g2[0])}" y2="{_n(g2[1])}" stroke-width="2.5"/>')
+    out.append("</g>")
+    return out
+
+
+def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.ndarray) -> list[str]:
+    d = model.dim
+    ax, ay = view.axes
+    vectors = loads.reshape(len(model.joints), d)
+    magnitude = np.linalg.norm(vectors, axis=1)
+    largest = float(magnitude.max()) if magnitude.size else 0.0
+    if largest <= 0:
+        return []
+    unit = model.units.force.symbol
+    out = ['<g class="loads" stroke="#5A3E99" fill="#5A3E99" font-size="11.5">']
+    for j in range(len(model.joints)):
+        if magnitude[j] <= 1e-12 * largest:
+            continue
+        vx, vy = float(vectors[j, ax]), -float(vectors[j, ay])
+        shown = math.hypot(vx, vy)
+        if shown < 0.05 * magnitude[j]:
+            continue  # the load points along the line of sight of this view
+        ux, uy = vx / shown, vy / shown
+        length = 22.0 + 34.0 * float(magnitude[j]) / largest
+        tx, ty = sx[j] - ux * 5, sy[j] - uy * 5  # the tip stops short of the joint circle
+        tail_x, tail_y = tx - ux * length, ty - uy * length
+        head = 8.0
+        hx, hy = tx - ux * head, ty - uy * head
+        px, py = -uy * head * 0.45, ux * head * 0.45
+        out.append(f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"/>'
+                   f'<polygon points="{_n(tx)},{_n(ty)} {_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>')
+        text = f"{fmt(float(magnitude[j]), 3)} {unit}"
+        lx, ly = tail_x - ux * 4, tail_y - uy * 4 + (4 if abs(uy) < 0.5 else (-2 if uy > 0 else 11))
+        anchor = "middle" if abs(ux) < 0.5 else ("end" if ux > 0 else "start")
+        out.append(f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>')
+    out.append("</g>")
+    return out
+
+
+def _swatch(colour: str, width: float, dash: str = "", marker: str = "") -> str:
+    dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
+    mark = ""
+    if marker:
+        mark = (f'<circle cx="28" cy="9" r="7.5" fill="#ffffff" stroke="{colour}" stroke-width="2"/>'
+                f'<text x="28" y="13" text-anchor="middle" font-size="11" font-weight="bold" fill="#1a1a1a">{escape(marker)}</text>')
+    return (f'<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" style="{FONT}" aria-hidden="true">'
+            f'<line x1="3" y1="9" x2="53" y2="9" stroke="{colour}" stroke-width="{width:g}"{dash_attr} stroke-linecap="round"/>{mark}</svg>')
+
+
+def legend_html(*, with_status: bool, used: set[str] | None = None, model: Model | None = None) -> str:
+    """The legend in plain words; statuses that do not occur are still listed, marked as such."""
+    rows = [
+        ("force", _swatch("#3A3A3A", COMPRESSION_WIDTH), "compression (wide band)"),
+        ("force", _swatch("#3A3A3A", TENSION_WIDTH), "tension (narrow line)"),
+        ("force", _swatch("#3A3A3A", ZERO_WIDTH, ZERO_DASH), "zero force (dotted hairline)"),
+        ("force", _swatch("#3A3A3A", TENSION_WIDTH, UNKNOWN_DASH), "no recomputed force (long dashes)"),
+    ]
+    if with_status:
+        for style in sorted(STATUS_STYLES.values(), key=lambda s: s.rank):
+            note = "" if used is None or style.key in used else " — none in this drawing"
+            letter = f"letter {style.marker}: " if style.marker else "no letter: "
+            rows.append(("status", _swatch(style.colour, 4.0, "", style.marker), f"{letter}{style.words}{note}"))
+    unit = escape(model.units.force.symbol) if model is not None else "force units"
+    rows.append(("other", '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
+                 '<polygon points="28,2 20,16 36,16" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/></svg>',
+                 "support: the triangle's point is the joint; two small wheels under it mark a roller (one reaction direction)"))
+    rows.append(("other", '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
+                 '<line x1="4" y1="9" x2="44" y2="9" stroke="#5A3E99" stroke-width="2"/>'
+                 '<polygon points="52,9 44,5.4 44,12.6" fill="#5A3E99"/></svg>',
+                 f"applied joint load of the load column drawn, with its size in {unit}"))
+    cells = "".join(f'<tr class="legend-{kind}"><td>{swatch}</td><td>{escape(text)}</td></tr>' for kind, swatch, text in rows)
+    return f'<table class="legend"><caption>Legend</caption>{cells}</table>'
