@@ -212,6 +212,12 @@ def ratio(a: Timing | None, b: Timing | None) -> float | None:
     return a.seconds / b.seconds
 
 
+def cpu_ratio(a: Timing | None, b: Timing | None) -> str:
+    if a is None or b is None or not a.cpu or not b.cpu or a.seconds is None:
+        return "—"
+    return f"{a.cpu / b.cpu:.1f}x"
+
+
 def with_ratio(a: Timing | None, b: Timing | None) -> str:
     r = ratio(a, b)
     return fmt_s(a) + (f" ({r:.1f}x)" if r is not None else "")
@@ -257,8 +263,8 @@ def main(argv: list[str] | None = None) -> int:
     args.out.mkdir(parents=True, exist_ok=True)
     results: dict[str, object] = {"python": PYTHON, "started": time.strftime("%Y-%m-%d %H:%M:%S"),
                                   "cpus": os.cpu_count(), "sections_route": with_sections}
-    print(f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs; "
-          f"section route {'present' if with_sections else 'absent'}", flush=True)
+    print(f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs, load average "
+          f"{os.getloadavg()[0]:.2f}; section route {'present' if with_sections else 'absent'}", flush=True)
 
     # Start-up: a 21-member truss against the bare import of the libraries it needs.
     small_dir = args.out / "cases" / "startup"
@@ -275,11 +281,13 @@ def main(argv: list[str] | None = None) -> int:
                        slow=args.slow, ok_codes=(0, 1)),
     }
     print(f"\nStart-up (median of {reps}): bare `python -c \"{BARE_IMPORT}\"` {fmt_s(bare)} s")
-    print(table(["21-member Pratt", "s", "x bare import (target <= 1.5)"],
-                [[k, fmt_s(v), f"{ratio(v, bare):.2f}" if ratio(v, bare) else "—"] for k, v in startup.items()]), flush=True)
+    print(table(["21-member Pratt", "s", "x bare import (target <= 1.5)", "cpu s", "cpu x bare import"],
+                [[k, fmt_s(v), f"{ratio(v, bare):.2f}" if ratio(v, bare) else "—", f"{v.cpu or 0:.3f}", cpu_ratio(v, bare)]
+                 for k, v in startup.items()]), flush=True)
     results["startup"] = {"bare_import": bare.__dict__, **{k: v.__dict__ for k, v in startup.items()}}
 
     rows: list[list[object]] = []
+    cpu_rows: list[list[object]] = []
     records: list[dict[str, object]] = []
     for family in families:
         for target in targets:
@@ -324,6 +332,8 @@ def main(argv: list[str] | None = None) -> int:
             if with_sections:
                 row.append(with_ratio(t["sections"], t["floor"]))
             rows.append(row)
+            cpu_rows.append([family, truss.members, f"{t['floor'].cpu or 0:.3f}", cpu_ratio(t["stability"], t["floor"]),
+                             cpu_ratio(t["solve"], t["floor"]), cpu_ratio(t["check"], t["floor+claims"])])
             records.append({"family": family, "members": truss.members, "joints": len(truss.joint_ids),
                             "parameter": truss.parameter, "classification": classification,
                             "timings": {k: v.__dict__ for k, v in t.items()}, "stages": stages, "stage_info": stage_info})
@@ -333,6 +343,8 @@ def main(argv: list[str] | None = None) -> int:
         headers.append("solve --show sections s (ratio)")
     print("\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members up")
     print(table(headers, rows))
+    print("\nThe same as CPU time (user + system) ratios, less disturbed by other load on the machine")
+    print(table(["family", "members", "floor cpu s", "stability", "solve", "check"], cpu_rows))
     print(f"\nStart-up: bare import {fmt_s(bare)} s; 21-member case: "
           + ", ".join(f"{k} {fmt_s(v)} s ({ratio(v, bare) or 0:.2f}x)" for k, v in startup.items()) + "; target <= 1.5x")
 
@@ -378,6 +390,7 @@ def main(argv: list[str] | None = None) -> int:
         if flags:
             print("\nStages growing faster than n log n:\n  " + "\n  ".join(flags))
 
+    print(f"\nLoad average at the end: {os.getloadavg()[0]:.2f} (more than the CPU count means other work disturbed the wall times)")
     results["cases"] = records
     path = args.out / f"results-{time.strftime('%Y%m%d-%H%M%S')}.json"
     path.write_text(json.dumps(results, indent=1, default=str), encoding="utf-8")

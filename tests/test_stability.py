@@ -286,3 +286,26 @@ def test_sparse_path_counts_missing_members():
     result = solve_stability(make_model(case), dense_limit=0)
     assert result.classification is Classification.UNSTABLE
     assert result.mechanisms >= 1
+
+
+def pratt_defect_indeterminate(panels: int):
+    """m = 1 and s = 2: panel 2 loses its diagonal, panels 3 and 4 each get a second one."""
+    case = pratt_defect(panels)
+    case["members"]["L3U4"] = ["L3", "U4"]
+    return case
+
+
+def test_dense_counts_of_the_defective_indeterminate_pratt():
+    """Maxwell's count says indeterminate (+1), but the rank gives m = 1, s = 2 (P&C 1986)."""
+    result = solve_stability(make_model(pratt_defect_indeterminate(10)))
+    assert (result.maxwell, result.mechanisms, result.self_stress) == (1, 1, 2)
+    assert result.classification is Classification.UNSTABLE
+
+
+@pytest.mark.xfail(strict=True, reason="verify/analysis/stability.py _sparse: for b + r > dj the unit-stiffness LU "
+                   "pivot ratio is compared with LU_PIVOT_SINGULAR**2 = 1e-22, but a real mechanism gives ~3e-15 "
+                   "(10 panels) to ~2e-10 (5000 panels), so the truss is reported stable-indeterminate")
+@pytest.mark.parametrize("panels", [10, 60])
+def test_sparse_path_finds_a_mechanism_in_an_indeterminate_truss(panels):
+    model = make_model(pratt_defect_indeterminate(panels))
+    assert solve_stability(model, dense_limit=0).classification is Classification.UNSTABLE

@@ -135,14 +135,14 @@ def test_case_insensitive_kn_is_kilonewton():
     assert lookup_unit("KN", Dimension.FORCE) is UNITS["kN"]
 
 
-@pytest.mark.xfail(strict=True, reason="verify/units.py lookup_unit: any case-folded match is accepted, so 'mN' (millinewton) is read as MN, a factor of 1e9")
 @pytest.mark.parametrize(("text", "dimension"), [("mN", Dimension.FORCE), ("Mm", Dimension.LENGTH)])
 def test_prefix_case_is_not_folded_into_another_unit(text, dimension):
-    """pint reads 'mN' as millinewton and 'Mm' as megametre; we must not read them as MN and mm."""
-    with pytest.raises(ValueError):
+    """pint reads 'mN' as millinewton and 'Mm' as megametre: refuse them, or read them as pint does."""
+    try:
         unit = lookup_unit(text, dimension)
-        # If accepted at all, it must at least mean what the symbol means.
-        assert unit.to_si == pytest.approx(pint_si(text), rel=RTOL)
+    except ValueError:
+        return
+    assert unit.to_si == pytest.approx(pint_si(text), rel=RTOL)
 
 
 AREA_PINT = {"m2": "m**2", "cm2": "cm**2", "mm2": "mm**2", "in2": "inch**2", "ft2": "foot**2"}

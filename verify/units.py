@@ -58,6 +58,9 @@ _ALIASES = {
     "kilogram-force": "kgf",
 }
 
+_FOLDABLE = {"kn": "kN", "kip": "kip", "lbf": "lbf", "kgf": "kgf", "ft": "ft", "in": "in",
+             "tonne-force": "tonne-force"}
+
 AMBIGUOUS = {
     "k": "'k' is a prefix, not a unit (kN? kip?)",
     "t": "'t' may mean tonne-force or short ton-force",
@@ -86,10 +89,9 @@ def lookup_unit(text: str, dimension: Dimension) -> Unit:
                 f"unit '{raw}' is ambiguous: {AMBIGUOUS.get(key, AMBIGUOUS.get(raw))}; "
                 f"accepted {dimension.value} units: {', '.join(accepted(dimension))}"
             )
-        exact = {s.lower(): s for s in UNITS}
-        symbol = _ALIASES.get(key) or exact.get(key)
-        # 'MN' vs 'mN' and 'N' vs 'n' differ only by case; accept a case-folded match only
-        # when it is unique and unambiguous in the trade (kn -> kN is common in spreadsheets).
+        # Case matters for SI prefixes ('mN' is a millinewton, 'MN' a meganewton), so only
+        # spellings that cannot be confused are case-folded (e.g. 'KN', 'Kip', 'LBF').
+        symbol = _ALIASES.get(key) or _FOLDABLE.get(key)
         if symbol is None:
             raise ValueError(
                 f"unknown {dimension.value} unit '{raw}'; accepted: {', '.join(accepted(dimension))}"

@@ -612,16 +612,18 @@ class _Solver:
         cand_ext = np.where(keep_left[:, None, None], sw.side_ext[0][gaps], sw.side_ext[1][gaps])
         found = eng.evaluate(pc, pm, kept, cand_ext, self.known, self.t)
 
+        stops = sw.stops[gaps].tolist()
+        lefts = keep_left.tolist()
+        names, order, nj = eng.joint_names, sw.order, eng.nj
+        held = np.where(keep_left, sw.side_supports[0][gaps], sw.side_supports[1][gaps]) > 0
+
         def side(c: int) -> _JointSet:
-            g = int(gaps[c])
-            stop = int(sw.stops[g])
-            if keep_left[c]:
-                return _JointSet(eng.joint_names, sw.order, 0, stop)
-            return _JointSet(eng.joint_names, sw.order, stop, eng.nj)
+            if lefts[c]:
+                return _JointSet(names, order, 0, stops[c])
+            return _JointSet(names, order, stops[c], nj)
 
         def supports(c: int) -> bool:
-            g = int(gaps[c])
-            return bool(sw.side_supports[0 if keep_left[c] else 1][g] > 0)
+            return bool(held[c])
 
         return self._accept(found, side, supports, straight=True)
 
@@ -740,72 +742,102 @@ class _Solver:
         member_sorted = member[order]
         first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
         first = first[np.argsort(cand[first], kind="stable")]
-        eng = self.eng
-        for r in first.tolist():
-            c = int(cand[r])
-            self.cuts.append(_build_cut(eng, found, c, int(pair[r]), w[r], int(code[r]), side(c),
-                                        supports(c), straight, self.known, self.t))
+        cs = cand[first].tolist()
+        self.cuts.extend(_build_cuts(self.eng, found, cand[first], pair[first], w[first], code[first],
+                                     [side(c) for c in cs], [supports(c) for c in cs], straight,
+                                     self.known, self.t))
         members = member[first]
         self.t[members] = value[first]
         self.known[members] = True
         return len(first)
 
 
-def _build_cut(eng: _Engine, found: _Found, c: int, target_pair: int, w: np.ndarray, code: int,
-               side: _JointSet, uses_reactions: bool, straight: bool, known: np.ndarray,
-               t: np.ndarray) -> SectionCut:
-    lo, hi = int(found.offsets[c]), int(found.offsets[c + 1])
-    pairs = range(lo, hi)
+def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray, w: np.ndarray,
+                code: np.ndarray, sides: Sequence[_JointSet], uses_reactions: Sequence[bool],
+                straight: bool, known: np.ndarray, t: np.ndarray) -> list[SectionCut]:
+    """SectionCut records for accepted solutions (row r: candidate cand[r], target pair[r]).
+
+    The Ritter points, force directions and the joints at the points are found for all rows at
+    once; the per-cut Python work is only packing names (10^5 cuts must take about a second).
+    """
+    n = len(cand)
+    d = eng.d
+    q0 = found.q0[cand]
+    Ls = found.Ls[cand]
+    code = code.copy()
+    point = np.full((n, d), np.nan)
+    axis = np.full((n, d), np.nan)
+    if d == 2:
+        mom = code == _MOMENT
+        with np.errstate(invalid="ignore", divide="ignore"):
+            o = np.column_stack([-w[:, 1] / w[:, 2], w[:, 0] / w[:, 2]]) * Ls[:, None] + q0
+        point[mom] = o[mom]
+        nxy = np.linalg.norm(w[:, :2], axis=1)
+        nxy[nxy == 0] = 1.0
+        axis[~mom] = w[~mom, :2] / nxy[~mom, None]
+    else:
+        for r in range(n):
+            lo, hi = int(found.offsets[cand[r]]), int(found.offsets[cand[r] + 1])
+            unknown_pairs = [q for q in range(lo, hi) if not known[found.pm[q]]]
+            ti = unknown_pairs.index(int(pair[r]))
+            c3, pt, ax, _ = _readable_3d(
+                eng.X[found.kept[unknown_pairs]], found.col[unknown_pairs, :3], eng.X[found.far[unknown_pairs]],
+                ti, [i for i in range(len(unknown_pairs)) if i != ti], float(Ls[r]),
+            )
+            code[r] = c3
+            if pt is not None:
+                point[r] = pt
+            if ax is not None:
+                axis[r] = ax
+    # the joint at the moment point, looked for among the joints of each cut's members
+    lo = found.offsets[cand]
+    size = found.offsets[cand + 1] - lo
+    row_of = np.repeat(np.arange(n), size)
+    q = np.repeat(lo, size) + (np.arange(int(size.sum())) - np.repeat(np.cumsum(size) - size, size))
+    joint_at = np.full(n, -1)
+    has_point = ~np.isnan(point[:, 0])
+    tol = COINCIDENT_RTOL * np.maximum(Ls, eng.extent)
+    for ends in (found.kept, found.far):
+        j = ends[q]
+        hit = has_point[row_of] & (np.linalg.norm(eng.X[j] - point[row_of], axis=1) <= tol[row_of])
+        hit &= joint_at[row_of] < 0
+        rows_hit, first = np.unique(row_of[hit], return_index=True)
+        joint_at[rows_hit] = j[hit][first]
+    snapped = joint_at >= 0
+    point[snapped] = eng.X[joint_at[snapped]]
+    point = point + eng.centre + 0.0
+    axis = axis + 0.0  # turns -0.0 into 0.0 for the report
     names = eng.member_names
     jn = eng.joint_names
-    pm = found.pm
-    is_known = known[pm[lo:hi]]
-    unknown_pairs = [q for q, kn in zip(pairs, is_known.tolist(), strict=True) if not kn]
-    others = [q for q in unknown_pairs if q != target_pair]
-    q0 = found.q0[c]
-    Ls = float(found.Ls[c])
-    point = axis = None
-    moment_joint = None
-    if eng.d == 2:
-        if code == _MOMENT:
-            o = np.array([-w[1] / w[2], w[0] / w[2]]) * Ls + q0
-            point = o
-        else:
-            axis = w[:2] / np.linalg.norm(w[:2])
-    else:
-        p = eng.X[found.kept[unknown_pairs]]
-        e = found.col[unknown_pairs, :3]
-        far = eng.X[found.far[unknown_pairs]]
-        ti = unknown_pairs.index(target_pair)
-        code, point, axis, _ = _readable_3d(p, e, far, ti, [i for i in range(len(unknown_pairs)) if i != ti], Ls)
-    if point is not None:
-        for q in range(lo, hi):
-            for j in (int(found.kept[q]), int(found.far[q])):
-                if np.linalg.norm(eng.X[j] - point) <= COINCIDENT_RTOL * max(Ls, eng.extent):
-                    moment_joint = jn[j]
-                    point = eng.X[j]
-                    break
-            if moment_joint:
-                break
-        point = tuple(float(x) for x in point + eng.centre)
-    if axis is not None:
-        axis = tuple(float(x) for x in axis)
-    known_pairs = [q for q, kn in zip(pairs, is_known.tolist(), strict=True) if kn]
-    return SectionCut(
-        target=names[int(pm[target_pair])],
-        cut_members=tuple(names[int(pm[q])] for q in pairs),
-        known_members=tuple(names[int(pm[q])] for q in known_pairs),
-        method=_METHOD_NAMES[code],
-        moment_point=point,
-        axis=axis,
-        kept_ends=tuple(jn[int(found.kept[q])] for q in pairs),
-        eliminated=tuple(names[int(pm[q])] for q in others),
-        moment_joint=moment_joint,
-        known_forces=tuple(tuple(float(x) for x in t[int(pm[q])]) for q in known_pairs),
-        uses_reactions=uses_reactions,
-        straight=straight,
-        _side=side,
-    )
+    pm = found.pm.tolist()
+    kept_list = found.kept.tolist()
+    is_known = known[found.pm].tolist()
+    t_rows = t.tolist()
+    offsets = found.offsets.tolist()
+    points = [tuple(p) if h else None for p, h in zip(point.tolist(), has_point.tolist(), strict=True)]
+    axes = [None if np.isnan(a[0]) else tuple(a) for a in axis.tolist()]
+    methods = [_METHOD_NAMES[x] for x in code.tolist()]
+    at_joint = [jn[j] if j >= 0 else None for j in joint_at.tolist()]
+    cuts = []
+    for r, (c, tp) in enumerate(zip(cand.tolist(), pair.tolist(), strict=True)):
+        span = range(offsets[c], offsets[c + 1])
+        known_idx = [x for x in span if is_known[x]]
+        cuts.append(SectionCut(
+            target=names[pm[tp]],
+            cut_members=tuple([names[pm[x]] for x in span]),
+            known_members=tuple([names[pm[x]] for x in known_idx]),
+            method=methods[r],
+            moment_point=points[r],
+            axis=axes[r],
+            kept_ends=tuple([jn[kept_list[x]] for x in span]),
+            eliminated=tuple([names[pm[x]] for x in span if x != tp and not is_known[x]]),
+            moment_joint=at_joint[r],
+            known_forces=tuple([tuple(t_rows[pm[x]]) for x in known_idx]),
+            uses_reactions=bool(uses_reactions[r]),
+            straight=straight,
+            _side=sides[r],
+        ))
+    return cuts
 
 
 def solve_sections(model: Model) -> SectionSolution:
@@ -971,8 +1003,9 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
     cand, pair, value, w, code, k = rows
     first = int(np.argmin(pair))
     side = _JointSet(eng.joint_names, joints.astype(np.int64), 0, len(joints))
-    return _build_cut(eng, found, 0, int(pair[first]), w[first], int(code[first]), side,
-                      uses_reactions, False, known, np.zeros((eng.nb, eng.ncols)))
+    return _build_cuts(eng, found, cand[first : first + 1], pair[first : first + 1], w[first : first + 1],
+                       code[first : first + 1], [side], [uses_reactions], False, known,
+                       np.zeros((eng.nb, eng.ncols)))[0]
 
 
 def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:

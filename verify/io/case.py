@@ -9,9 +9,10 @@ from __future__ import annotations
 import csv
 import io
 import math
+import re
 import tomllib
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -46,9 +47,21 @@ class _Ctx:
     file: str
     lines: LineLocator
     problems: ProblemList
+    # Where each joint / member was defined when it came from a CSV table: (file, line).
+    origins: dict[tuple[str, str], tuple[str, int]] = field(default_factory=dict)
+    # Ids declared even if their data failed to parse: references to them are not "undefined".
+    declared_joints: set[str] = field(default_factory=set)
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
+
+    def add_at(self, kind: str, ident: str, message: str, *path: str) -> None:
+        """A problem about a joint or member, located where that item was defined."""
+        origin = self.origins.get((kind, ident))
+        if origin is not None and origin[0] != self.file:
+            self.problems.problems.append(Problem(origin[0], message, origin[1]))
+        else:
+            self.add(message, *path)
 
 
 def read_case(path: str | Path) -> Model:
@@ -68,7 +81,11 @@ def read_case(path: str | Path) -> Model:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputError([Problem(name, f"not valid TOML: {exc}")]) from None
+        found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
+        line = int(found.group(1)) if found else None
+        message = re.sub(r"\s*\(at line \d+, column \d+\)", "", str(exc))
+        column = f" (column {found.group(2)})" if found else ""
+        raise InputError([Problem(name, f"not valid TOML{column}: {message}", line)]) from None
     return build_model(data, source=name, text=text, base_dir=path.parent)
 
 
@@ -219,6 +236,8 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
                 ctx.problems.problems.append(Problem(file, f"duplicate joint id '{jid}' (first on line {seen[jid]})", line))
                 continue
             seen[jid] = line
+            ctx.declared_joints.add(jid)
+            ctx.origins[("joint", jid)] = (file, line)
             axes = ("x", "y", "z") if row.get("z", "") != "" else ("x", "y")
             coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line) for a in axes]
             if all(c is not None for c in coords):
@@ -228,6 +247,7 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         ctx.add("[joints] must be a table (id = [x, y]) or the name of a CSV file", "joints")
         return joints
     for jid, value in table.items():
+        ctx.declared_joints.add(str(jid))
         if not isinstance(value, list) or len(value) not in (2, 3):
             ctx.add(f"joint '{jid}': expected [x, y] or [x, y, z], got {value!r}", "joints", jid)
             continue
@@ -247,7 +267,7 @@ def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
     three = [j.id for j in joints if len(j.coords) == 3]
     minority = two if len(two) <= len(three) else three
     for jid in minority[:10]:
-        ctx.add(f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have {'3' if jid in two else '2'}; a model is all 2D or all 3D", "joints", jid)
+        ctx.add_at("joint", jid, f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have {'3' if jid in two else '2'}; a model is all 2D or all 3D", "joints", jid)
     return 3 if len(three) >= len(two) else 2
 
 
@@ -259,6 +279,8 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
         jid = str(value)
         if jid in joint_ids:
             return jid
+        if jid in ctx.declared_joints:
+            return None  # defined, but its own line already carries the problem
         message = f"{what} names joint '{jid}', which is not defined.{did_you_mean(jid, joint_ids)}"
     else:
         message = f"{what}: expected a joint id, got {value!r}"
@@ -318,6 +340,7 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
                 ctx.problems.problems.append(Problem(file, f"duplicate member id '{mid}' (first on line {seen[mid]})", line))
                 continue
             seen[mid] = line
+            ctx.origins[("member", mid)] = (file, line)
             start = _joint_ref(ctx, row["start"], joint_ids, f"member '{mid}' start", file=file, line=line)
             end = _joint_ref(ctx, row["end"], joint_ids, f"member '{mid}' end", file=file, line=line)
             ea: float | None = default_ea
@@ -514,19 +537,20 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
     order = np.lexsort(keys.T[::-1])
     for a, b in zip(order[:-1], order[1:], strict=False):
         if np.all(np.abs(xyz[a] - xyz[b]) <= tol):
-            ctx.add(f"joints '{usable[a].id}' and '{usable[b].id}' are at the same point {usable[a].coords}; merge them", "joints", usable[b].id)
+            first, second = sorted((usable[a].id, usable[b].id), key=lambda jid: ctx.origins.get(("joint", jid), ("", 0))[1])
+            ctx.add_at("joint", second, f"joints '{first}' and '{second}' are at the same point {usable[a].coords}; merge them", "joints", second)
     position = {j.id: np.array(j.coords) for j in usable}
     pairs: dict[frozenset[str], str] = {}
     for m in members:
         if m.start == m.end:
-            ctx.add(f"member '{m.id}' starts and ends at joint '{m.start}'", "members", m.id)
+            ctx.add_at("member", m.id, f"member '{m.id}' starts and ends at joint '{m.start}'", "members", m.id)
             continue
         key = frozenset((m.start, m.end))
         if key in pairs:
-            ctx.add(f"members '{pairs[key]}' and '{m.id}' both join '{m.start}' and '{m.end}'; a pin-jointed model needs one member per joint pair", "members", m.id)
+            ctx.add_at("member", m.id, f"members '{pairs[key]}' and '{m.id}' both join '{m.start}' and '{m.end}'; a pin-jointed model needs one member per joint pair", "members", m.id)
         else:
             pairs[key] = m.id
         if m.start in position and m.end in position:
             length = float(np.linalg.norm(position[m.end] - position[m.start]))
             if length <= tol or not math.isfinite(length):
-                ctx.add(f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)
+                ctx.add_at("member", m.id, f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)

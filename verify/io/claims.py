@@ -98,6 +98,7 @@ AXES = ("x", "y", "z", "n")
 _REACTION_PREFIX = re.compile(r"^(?:reaction|reac|rxn|r)[\s_.\-:]*(?P<body>.+)$")
 _AXIS_TAIL = re.compile(r"(?P<sep>[\s_.\-:,]*)(?:\(\s*(?P<paren>[xyzn])\s*\)|(?P<bare>[xyzn]))$")
 _AXIS_HEAD = re.compile(r"^(?P<axis>[xyz])[\s_.\-:,]+(?P<joint>.+)$")
+_FORMULA_TAG = re.compile(rb"<(?:[A-Za-z0-9_]+:)?f[\s>/]")  # <f>, <f t="shared" .../>, <x:f>
 _HEADER_UNIT = re.compile(r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\]|,\s*(?P<c>[^,]+))\s*$")
 
 
@@ -389,21 +390,26 @@ def _read_sheet(load: Callable[..., Any], data: bytes, sheet: str | None, proble
     # Pass 1 sees formulas as formulas; pass 2 sees only the values the spreadsheet cached. A
     # formula without a cached value is reported, never read as blank or zero.
     formulas: set[tuple[int, int]] = set()
-    book = load(io.BytesIO(data), read_only=True, data_only=False)
-    try:
-        title = _pick_sheet(book, sheet, problems)
-        if title is None:
-            return None
-        ws = book[title]
-        ws.reset_dimensions()
-        for row in ws.iter_rows(min_row=1, min_col=1):
-            for cell in row:
-                if getattr(cell, "data_type", None) == "f":
-                    formulas.add((cell.row, cell.column))
-    finally:
-        book.close()
+    if _may_hold_formulas(data):
+        book = load(io.BytesIO(data), read_only=True, data_only=False)
+        try:
+            title = _pick_sheet(book, sheet, problems)
+            if title is None:
+                return None
+            ws = book[title]
+            ws.reset_dimensions()
+            for row in ws.iter_rows(min_row=1, min_col=1):
+                for cell in row:
+                    if getattr(cell, "data_type", None) == "f":
+                        formulas.add((cell.row, cell.column))
+        finally:
+            book.close()
     book = load(io.BytesIO(data), read_only=True, data_only=True)
     try:
+        picked = _pick_sheet(book, sheet, problems)
+        if picked is None:
+            return None
+        title = picked
         ws = book[title]
         ws.reset_dimensions()
         rows: list[list[Cell]] = []
@@ -415,6 +421,15 @@ def _read_sheet(load: Callable[..., Any], data: bytes, sheet: str | None, proble
         problems.add(f"sheet '{title}' is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member")
         return None
     return _Grid(rows, list(range(1, len(rows) + 1)), title, decimal_comma=False)
+
+
+def _may_hold_formulas(data: bytes) -> bool:
+    """False only when no worksheet part has a formula element, so the formula pass can be skipped."""
+    with zipfile.ZipFile(io.BytesIO(data)) as archive:
+        parts = [n for n in archive.namelist() if "worksheets/" in n and n.endswith(".xml")]
+        if not parts:
+            return True
+        return any(_FORMULA_TAG.search(archive.read(n)) for n in parts)
 
 
 def _pick_sheet(book: Any, sheet: str | None, problems: _Problems) -> str | None:
@@ -966,13 +981,13 @@ class _LabelMatcher:
         n = len(folded)
         for i in range(1, n):
             left = folded[:i]
-            if left[-1] in LABEL_SEPARATORS:
+            if left not in self._joints_folded:
                 continue
             j = i
             while j < n and folded[j] in LABEL_SEPARATORS:
                 j += 1
             right = folded[j:]
-            if not right or right not in self._joints_folded or left not in self._joints_folded:
+            if not right or right not in self._joints_folded:
                 continue
             for a in self._joints_folded[left]:
                 for b in self._joints_folded[right]:
@@ -1011,8 +1026,10 @@ class _LabelMatcher:
         query = re.sub(r"[\s\-_/\\|:,]+", "-", folded)
         keys: Sequence[str] = list(pool)
         if len(keys) > SUGGESTION_POOL_LIMIT:
-            # Large models: compare only with keys that start alike and are of similar length.
-            keys = [k for k in keys if k[:1] == query[:1] and abs(len(k) - len(query)) <= 2]
+            # Large models: compare only with keys that start alike and are of similar length,
+            # the likeliest slips of a hand-typed label, so each suggestion stays cheap.
+            keys = [k for k in keys if k[:1] == query[:1] and abs(len(k) - len(query)) <= 1]
+            keys = keys[:SUGGESTION_POOL_LIMIT]
         close = difflib.get_close_matches(query, keys, n=8, cutoff=0.5)
         result: list[str] = []
         for key in close:

@@ -51,11 +51,13 @@ _UNIT_TAIL = re.compile(r"(?P<unit>[A-Za-z][A-Za-z\-]*)\s*$")
 _SCIENTIFIC = re.compile(r"^(\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+$")
 
 
+_NORMALIZE = str.maketrans({**dict.fromkeys(MINUS_SIGNS, "-"), **dict.fromkeys(GROUP_SPACES[1:], " ")})
+_PLAIN_NUMBER = re.compile(r"[+-]?\d+(?:\.\d+)?")
+
+
 def normalize_text(text: str) -> str:
     """Minus-like dashes to '-', no-break and thin spaces to ' ', outer whitespace removed."""
-    table = {ord(c): "-" for c in MINUS_SIGNS}
-    table.update({ord(c): " " for c in GROUP_SPACES[1:]})
-    return text.translate(table).strip()
+    return text.translate(_NORMALIZE).strip()
 
 
 def is_nan_text(text: str) -> bool:
@@ -74,6 +76,9 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
     """
     original = str(text).strip()
+    if _PLAIN_NUMBER.fullmatch(original):
+        # The common case, read directly: a signed decimal with nothing else to interpret.
+        return float(original), False, None
     s = normalize_text(str(text))
     if not s:
         raise ValueError("force is empty; leave the cell blank when there is no claim")

@@ -71,7 +71,7 @@ ZERO_RTOL = 1e-9  # |force| below this fraction of the largest is drawn as a zer
 BASE_WIDTH = 900.0  # px of the drawing area for a small truss
 MAX_WIDTH = 2400.0  # px; larger models are drawn smaller rather than wider
 MAX_HEIGHT = 1400.0
-MARGIN = 70.0
+MARGIN = 100.0  # room for load arrows (at most 62 px) and their labels
 LABEL_MIN_PX = 42.0  # member labels only when the median member is at least this long on screen
 MAX_LABELLED_MEMBERS = 2000  # above this, no per-member labels or markers (DESIGN: large models)
 FONT = "font-family:'DejaVu Sans',Verdana,Arial,sans-serif"
@@ -119,8 +119,8 @@ def views_for(model: Model) -> list[_View]:
 
 def render_diagram(model: Model, *, forces: Sequence[float] | np.ndarray | None = None,
                    statuses: Mapping[str, str] | None = None, load_name: str | None = None,
-                   caption: str = "") -> str:
-    """An HTML <figure> with one SVG per view and a legend in plain words.
+                   caption: str = "", legend: bool = True) -> str:
+    """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain words.
 
     `forces` are member forces (tension positive) in model order for the load column
     `load_name`; `statuses` maps member id to a review status (see STATUS_CATEGORY). Without
@@ -137,12 +137,13 @@ def render_diagram(model: Model, *, forces: Sequence[float] | np.ndarray | None 
         parts.append(f'<div class="view"><div class="view-name">{escape(view.name)}</div>{svg}</div>')
     if caption:
         parts.append(f"<figcaption>{escape(caption)}</figcaption>")
-    parts.append(legend_html(with_status=statuses is not None, used=_used(model, statuses), model=model))
+    if legend:
+        parts.append(legend_html(with_status=statuses is not None, used=used_categories(model, statuses), model=model))
     parts.append("</figure>")
     return "\n".join(parts)
 
 
-def _used(model: Model, statuses: Mapping[str, str] | None) -> set[str]:
+def used_categories(model: Model, statuses: Mapping[str, str] | None) -> set[str]:
     if statuses is None:
         return set()
     return {status_category(statuses[m.id]) for m in model.members if m.id in statuses}
@@ -212,8 +213,9 @@ def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping
     out.append('<g class="members">' + "".join(lines) + "</g>")
 
     out.extend(_supports(model, view, sx, sy))
+    arrows: dict[int, tuple[float, float]] = {}
     if loads is not None:
-        out.extend(_loads(model, view, sx, sy, loads))
+        out.extend(_loads(model, view, sx, sy, loads, arrows))
 
     joints = [f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
               for j in range(len(model.joints))]
@@ -224,7 +226,7 @@ def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping
     if labels:
         out.append('<g class="member-labels" font-size="12" fill="#1a1a1a">' + "".join(_member_labels(model, sx, sy, statuses)) + "</g>")
     if joint_labels:
-        out.append('<g class="joint-labels" font-size="13" font-weight="bold" fill="#1a1a1a">' + "".join(_joint_labels(model, sx, sy)) + "</g>")
+        out.append('<g class="joint-labels" font-size="13" font-weight="bold" fill="#1a1a1a">' + "".join(_joint_labels(model, sx, sy, arrows)) + "</g>")
     out.append("</svg>")
     return "".join(out)
 
@@ -273,8 +275,8 @@ def _short(label: str, limit: int = 14) -> str:
     return label if len(label) <= limit else label[: limit - 1] + "…"
 
 
-def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray) -> list[str]:
-    """Each joint label sits opposite the mean direction of its members, clear of the lines."""
+def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[int, tuple[float, float]]) -> list[str]:
+    """Each joint label sits opposite the mean direction of its members and load arrow, clear of the lines."""
     n = len(model.joints)
     dirx = np.zeros(n)
     diry = np.zeros(n)
@@ -285,6 +287,9 @@ def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray) -> list[str]:
         diry[a] += dy / length
         dirx[b] -= dx / length
         diry[b] -= dy / length
+    for j, (ax_, ay_) in arrows.items():
+        dirx[j] += ax_
+        diry[j] += ay_
     out = []
     for j, joint in enumerate(model.joints):
         length = math.hypot(dirx[j], diry[j])
@@ -332,7 +337,9 @@ def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray) -> list
     return out
 
 
-def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.ndarray) -> list[str]:
+def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.ndarray,
+           arrows: dict[int, tuple[float, float]]) -> list[str]:
+    """Load arrows; `arrows` receives, per joint, the screen direction the arrow's body takes."""
     d = model.dim
     ax, ay = view.axes
     vectors = loads.reshape(len(model.joints), d)
@@ -341,6 +348,10 @@ def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.
     if largest <= 0:
         return []
     unit = model.units.force.symbol
+    neighbours: list[list[int]] = [[] for _ in model.joints]
+    for a, b in model.ends_index.tolist():
+        neighbours[a].append(b)
+        neighbours[b].append(a)
     out = ['<g class="loads" stroke="#5A3E99" fill="#5A3E99" font-size="11.5">']
     for j in range(len(model.joints)):
         if magnitude[j] <= 1e-12 * largest:
@@ -351,19 +362,41 @@ def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.
             continue  # the load points along the line of sight of this view
         ux, uy = vx / shown, vy / shown
         length = 22.0 + 34.0 * float(magnitude[j]) / largest
-        tx, ty = sx[j] - ux * 5, sy[j] - uy * 5  # the tip stops short of the joint circle
-        tail_x, tail_y = tx - ux * length, ty - uy * length
+        if _blocked(neighbours, sx, sy, j, -ux, -uy) and not _blocked(neighbours, sx, sy, j, ux, uy):
+            # A member lies where the arrow would come in: draw it leaving the joint instead.
+            tail_x, tail_y = sx[j] + ux * 6, sy[j] + uy * 6
+            tx, ty = tail_x + ux * length, tail_y + uy * length
+            label_x, label_y = tx + ux * 4, ty + uy * 4
+            arrows[j] = (ux, uy)
+        else:
+            tx, ty = sx[j] - ux * 5, sy[j] - uy * 5  # the tip stops short of the joint circle
+            tail_x, tail_y = tx - ux * length, ty - uy * length
+            label_x, label_y = tail_x - ux * 4, tail_y - uy * 4
+            arrows[j] = (-ux, -uy)
         head = 8.0
         hx, hy = tx - ux * head, ty - uy * head
         px, py = -uy * head * 0.45, ux * head * 0.45
         out.append(f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"/>'
                    f'<polygon points="{_n(tx)},{_n(ty)} {_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>')
+        ex, ey = label_x - sx[j], label_y - sy[j]
+        el = math.hypot(ex, ey) or 1.0
+        ex, ey = ex / el, ey / el
         text = f"{fmt(float(magnitude[j]), 3)} {unit}"
-        lx, ly = tail_x - ux * 4, tail_y - uy * 4 + (4 if abs(uy) < 0.5 else (-2 if uy > 0 else 11))
-        anchor = "middle" if abs(ux) < 0.5 else ("end" if ux > 0 else "start")
+        lx, ly = label_x, label_y + (4 if abs(ey) < 0.5 else (12 if ey > 0 else -3))
+        anchor = "middle" if abs(ex) < 0.5 else ("start" if ex > 0 else "end")
         out.append(f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>')
     out.append("</g>")
     return out
+
+
+def _blocked(neighbours: list[list[int]], sx: np.ndarray, sy: np.ndarray, j: int, dx: float, dy: float) -> bool:
+    """Does a member leave joint j within 25 degrees of the screen direction (dx, dy)?"""
+    for other in neighbours[j]:
+        mx, my = sx[other] - sx[j], sy[other] - sy[j]
+        length = math.hypot(mx, my)
+        if length > 1e-9 and (mx * dx + my * dy) / length > math.cos(math.radians(25)):
+            return True
+    return False
 
 
 def _swatch(colour: str, width: float, dash: str = "", marker: str = "") -> str:
@@ -386,7 +419,7 @@ def legend_html(*, with_status: bool, used: set[str] | None = None, model: Model
     ]
     if with_status:
         for style in sorted(STATUS_STYLES.values(), key=lambda s: s.rank):
-            note = "" if used is None or style.key in used else " — none in this drawing"
+            note = "" if used is None or style.key in used else " (none here)"
             letter = f"letter {style.marker}: " if style.marker else "no letter: "
             rows.append(("status", _swatch(style.colour, 4.0, "", style.marker), f"{letter}{style.words}{note}"))
     unit = escape(model.units.force.symbol) if model is not None else "force units"

@@ -268,21 +268,24 @@ def appendix_blocks(analysis: Analysis, load_name: str, *, max_steps: int | None
 
     # Section cuts.
     sections = analysis.sections
-    if sections is not None and section_calc is not None:
+    if sections is not None:
         cuts = list(getattr(sections, "cuts", ()))
         shown_cuts = cuts if max_cuts is None else cuts[:max_cuts]
-        texts = [section_calc[0](model, cut, load_name) for cut in shown_cuts]
+        if section_calc is not None:
+            texts = [section_calc[0](model, cut, load_name) for cut in shown_cuts]
+        else:
+            texts = [_cut_summary(model, sections, cut, load_name) for cut in shown_cuts]
         if len(shown_cuts) < len(cuts):
             texts.append(f"… {len(cuts) - len(shown_cuts)} further cut(s) are not shown in this report (large model).")
-        unreached = tuple(getattr(sections, "unreached", ()) or ())
-        reach = f"The cuts reach {len(model.members) - len(unreached)} of {len(model.members)} members."
-        if unreached:
-            listed = ", ".join(unreached[:30]) + (f" and {len(unreached) - 30} more" if len(unreached) > 30 else "")
-            reach += f" Not reached: {listed}."
+        unreached = getattr(sections, "unreached", None) or {}
+        reasons = dict(unreached) if isinstance(unreached, dict) else {m: "" for m in unreached}
+        reach = f"The cuts reach {len(model.members) - len(reasons)} of {len(model.members)} members."
+        if reasons:
+            listed = "; ".join(f"{m} ({why})" if why else m for m, why in list(reasons.items())[:30])
+            reach += f" Not reached: {listed}" + (f" and {len(reasons) - 30} more." if len(reasons) > 30 else ".")
         blocks.append(Block("Method of sections (Ritter)", "pre", reach + ("\n\n" + "\n\n".join(texts) if texts else "")))
     elif analysis.joints is not None:
-        blocks.append(Block("Method of sections (Ritter)", "para",
-                            "The section-cut route is not available in this version; the method of joints and the global solve are shown."))
+        blocks.append(Block("Method of sections (Ritter)", "para", "No section cuts were computed for this truss."))
 
     # Exact values.
     if exact and analysis.joints is not None:
@@ -298,6 +301,23 @@ def appendix_blocks(analysis: Analysis, load_name: str, *, max_steps: int | None
                 intro += f" Note: {values.note}."
             blocks.append(Block("Exact values", "table", intro, ("member / reaction", "decimal", "exact"), rows))
     return blocks
+
+
+def _cut_summary(model: Model, sections: object, cut: object, load_name: str) -> str:
+    """One cut in words, for when the section-cut equation renderer is not installed."""
+    target = str(getattr(cut, "target", "?"))
+    members = ", ".join(getattr(cut, "cut_members", ()))
+    method = {"moments": "moments about the Ritter point", "forces-normal": "forces summed normal to the parallel members",
+              "least-squares": "the cut's equilibrium equations solved together"}.get(str(getattr(cut, "method", "")), str(getattr(cut, "method", "")))
+    where = getattr(cut, "moment_joint", None)
+    point = getattr(cut, "moment_point", None)
+    about = f" (joint {where})" if where else (f" (point {', '.join(fmt(c) for c in point)})" if point is not None else "")
+    forces = getattr(sections, "forces", None)
+    value = ""
+    if forces is not None and target in model.member_index:
+        v = float(forces.member_forces[model.member_index[target], forces.column(load_name)])
+        value = f" => {target} = {fmt(v)}"
+    return f"Cut for {target}: through {members}; {method}{about}{value}"
 
 
 def _section_calc():  # type: ignore[no-untyped-def]

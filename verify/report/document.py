@@ -1,0 +1,615 @@
+"""The review report: one self-contained HTML file (or Markdown) for the review memo.
+
+Content, in order: header (verdict, date, tool, input hashes, units, convention, tolerances,
+stability), the truss diagram (HTML only), the findings (most serious first), the member table per
+load case and combination, the hand-calc appendix and the cautions.
+
+The HTML needs no network and no JavaScript: inline CSS only, a Content-Security-Policy that
+forbids every fetch and script, and every text taken from the inputs escaped (labels come from
+other people's spreadsheets). Same review and `generated` date give byte-identical output.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import math
+import tomllib
+from dataclasses import dataclass
+from html import escape
+from pathlib import Path
+
+import numpy as np
+
+from verify import __version__
+from verify.compare.diagnose import Review, Row
+from verify.compare.findings import Finding
+from verify.report.cautions import CAUTION
+from verify.report.diagram import (
+    STATUS_STYLES,
+    legend_html,
+    render_diagram,
+    status_category,
+    used_categories,
+    worst_status,
+)
+from verify.report.handcalc_html import Block, appendix_blocks
+from verify.report.numbers import fmt, tc
+
+LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
+MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
+MAX_APPENDIX_CUTS_LARGE = 30
+MAX_APPENDIX_COLUMNS = 6  # load columns with a hand calc in a small model's appendix
+MAX_DIAGRAMS = 4  # load columns drawn
+MAX_TABLE_ROWS = 3000  # rows per load column in the member table; problems are always listed first
+MAX_FINDING_MEMBERS = 25  # member names quoted per finding
+EXACT_MAX_MEMBERS = 400  # exact fractions only for models up to this size (cost and length)
+TABLE_KEYS = ("joints", "members", "supports", "loads")  # case-file keys that may name CSV tables
+
+MEMBER_COLUMNS = ("member", "claimed", "joints", "sections", "global", "T/C", "difference", "status", "claim as written")
+
+
+@dataclass(frozen=True)
+class InputFile:
+    role: str
+    path: str
+    sha256: str | None
+    note: str = ""
+
+
+# -- content gathered once, rendered twice ------------------------------------------------------
+def sha256_file(path: str | Path) -> str | None:
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except OSError:
+        return None
+
+
+def input_files(review: Review) -> list[InputFile]:
+    """The case file, every CSV table it names, and the claims file, each with its SHA-256."""
+    model = review.analysis.model
+    out = [InputFile("case file", model.source, sha256_file(model.source),
+                     "" if sha256_file(model.source) else "not readable now (model built in memory or file moved)")]
+    for role, path in _case_tables(model.source):
+        digest = sha256_file(path)
+        out.append(InputFile(role, str(path), digest, "" if digest else "not readable now"))
+    claims = review.claims
+    out.append(InputFile("claims" + (f" (sheet '{claims.sheet}')" if claims.sheet else ""), claims.source, claims.sha256 or None))
+    return out
+
+
+def _case_tables(source: str) -> list[tuple[str, Path]]:
+    """CSV tables named in the case file (joints = "joints.csv", [loads] case = "file.csv", ...)."""
+    try:
+        data = tomllib.loads(Path(source).read_bytes().decode("utf-8-sig"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return []
+    base = Path(source).parent
+    found: list[tuple[str, Path]] = []
+    for key in TABLE_KEYS:
+        value = data.get(key)
+        if isinstance(value, str):
+            found.append((f"{key} table", base / value))
+        elif key == "loads" and isinstance(value, dict):
+            for case, spec in value.items():
+                if isinstance(spec, str):
+                    found.append((f"loads table '{case}'", base / spec))
+    return found
+
+
+def _verdict_text(review: Review) -> tuple[str, str]:
+    from verify.report.review_text import verdict_line
+
+    word = {"agrees": "AGREES", "discrepancies": "DISCREPANCIES", "cannot-verify": "CANNOT VERIFY"}[review.verdict.value]
+    line = verdict_line(review)
+    return word, line.split(" — ", 1)[1] if " — " in line else line
+
+
+def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
+    model = review.analysis.model
+    s = review.analysis.stability
+    c = review.convention
+    t = review.tolerance
+    d = s.dim
+    facts = [
+        ("Generated", f"{generated} by truss-verify {__version__}"),
+        ("Units (case)", f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces tension positive"),
+        ("Claims read in", f"{c.unit} ({_unit_source(c.unit_source)})"),
+        ("Sign convention of the claims", f"{c.sign} ({'inferred from the data' if c.inferred else 'as stated'}); {c.support}"),
+        ("Tolerance", f"agrees when |claimed − recomputed| ≤ the largest of {t.rtol:.2%} of the larger value, "
+                      f"{t.atol_fraction:g} × the largest recomputed force of the load column, and half a unit in the last "
+                      "decimal the claim was written with"),
+        ("Structure", f"{s.classification.value}, {d}D: {s.joints} joints, {s.members} members, {s.reactions} reaction components"),
+        ("Maxwell's rule", f"b + r − {d}j = {s.members} + {s.reactions} − {d}×{s.joints} = {s.maxwell}"),
+        ("Rank of the equilibrium matrix", f"{s.rank} of {d * s.joints} joint equations ({s.method}); "
+                                           f"mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
+                                           f"states of self-stress s = {s.self_stress}"),
+    ]
+    if s.sigma_ratio is not None:
+        facts.append(("Conditioning", f"σmin/σmax = {s.sigma_ratio:.3g}; scaled by slenderness² ({s.slenderness:.3g}²) = "
+                                      f"{s.scaled_ratio:.3g}" + (" — near-mechanism" if s.ill_conditioned else " — sound")))
+    elif s.scaled_ratio is not None:
+        facts.append(("Conditioning", f"LU pivot ratio min/max = {s.scaled_ratio:.3g}" + (" — near-mechanism" if s.ill_conditioned else "")))
+    routes = _routes(review)
+    if routes:
+        facts.append(("Routes", routes))
+    checked = ", ".join(f"'{n}'" for n in review.checked_cases) or "none"
+    facts.append(("Checked", f"{review.checked_members} of {len(model.members)} members; load columns {checked} "
+                             f"of {len(model.load_names)} ({', '.join(model.load_names)})"))
+    return facts
+
+
+def _unit_source(source: str) -> str:
+    return {"option": "stated with --unit", "table": "stated in the table", "assumed": "not stated: the case's unit is assumed",
+            "inferred": "inferred from the data"}.get(source, source)
+
+
+def _routes(review: Review) -> str:
+    analysis = review.analysis
+    if analysis.global_ is not None:
+        used = ["method of joints", "global solve"] + (["section cuts"] if analysis.sections is not None else [])
+        return (f"{', '.join(used)} agree to {analysis.route_disagreement:.1e} of the largest force"
+                + (" — beyond round-off, check the geometry" if analysis.route_disagreement > 1e-6 else ""))
+    if analysis.elastic is not None:
+        assumed = " (equal EA ASSUMED for every member)" if getattr(analysis.elastic, "equal_EA_assumed", False) else ""
+        return f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss"
+    return ""
+
+
+def notes(review: Review) -> list[str]:
+    analysis = review.analysis
+    out = list(review.notes) + list(analysis.notes) + list(analysis.stability.notes)
+    if analysis.joints is not None:
+        out.extend(analysis.joints.notes)
+    return list(dict.fromkeys(out))
+
+
+def finding_sentence(f: Finding) -> str:
+    """One plain sentence: the finding's detail and the members involved."""
+    detail = f.detail.rstrip()
+    if not detail.endswith("."):
+        detail += "."
+    if f.members and f.kind != "missing-claim":
+        shown = ", ".join(f.members[:MAX_FINDING_MEMBERS])
+        more = f" and {len(f.members) - MAX_FINDING_MEMBERS} more" if len(f.members) > MAX_FINDING_MEMBERS else ""
+        detail += f" Members: {shown}{more}."
+    return detail
+
+
+def _load_label(review: Review, name: str) -> str:
+    model = review.analysis.model
+    combos = {c.name: c for c in model.combinations}
+    if name in combos:
+        terms = " + ".join(f"{fmt(f)} × {case}" for case, f in combos[name].factors.items())
+        return f"Combination '{name}' = {terms}"
+    return f"Load case '{name}'"
+
+
+@dataclass(frozen=True)
+class Table:
+    title: str
+    intro: str
+    header: tuple[str, ...]
+    rows: tuple[tuple[str, ...], ...]
+    statuses: tuple[str, ...]  # per row, for styling ("" for none)
+    note: str = ""
+
+
+def member_tables(review: Review) -> list[Table]:
+    """Per load column: claimed and recomputed members, then reactions; recomputed only where unclaimed."""
+    model = review.analysis.model
+    unit = model.units.force.symbol
+    recomputed_name = "global" if review.analysis.global_ is not None else "elastic"
+    header = tuple(recomputed_name if h == "global" else h for h in MEMBER_COLUMNS)
+    tables: list[Table] = []
+    by_case: dict[str, list[Row]] = {}
+    for row in review.rows:
+        by_case.setdefault(row.case, []).append(row)
+    for k, name in enumerate(model.load_names):
+        rows = by_case.get(name, [])
+        label = _load_label(review, name)
+        members = sorted((r for r in rows if r.kind == "member"), key=lambda r: model.member_index[r.id])
+        reactions = [r for r in rows if r.kind == "reaction"]
+        if members or reactions:
+            shown, note = _cap(members)
+            cells = tuple(_member_cells(r) for r in shown)
+            tables.append(Table(f"{label}: members", f"Forces in {unit}, tension positive; T/C of the recomputed force.",
+                                header, cells, tuple(r.status for r in shown), note))
+            if reactions:
+                rcells = tuple((r.id, fmt(r.claimed), fmt(r.global_ if r.global_ is not None else r.elastic), fmt(r.difference),
+                                r.status, r.written) for r in reactions)
+                tables.append(Table(f"{label}: reactions", f"Reaction components in {unit}, along the global axes.",
+                                    ("reaction", "claimed", "recomputed", "difference", "status", "claim as written"),
+                                    rcells, tuple(r.status for r in reactions)))
+            continue
+        ref = review.analysis.reference
+        if ref is None:
+            continue
+        cells_list = []
+        for i, member in enumerate(model.members[:MAX_TABLE_ROWS]):
+            cells_list.append((member.id,) + _route_cells(review, i, k))
+        note = (f"{len(model.members) - MAX_TABLE_ROWS} further members are not listed; `truss-verify solve --json` gives them all."
+                if len(model.members) > MAX_TABLE_ROWS else "")
+        tables.append(Table(f"{label}: recomputed only", f"No claims in this load column. Forces in {unit}, tension positive.",
+                            ("member", "joints", "sections", recomputed_name, "T/C"), tuple(cells_list), ("",) * len(cells_list), note))
+    return tables
+
+
+def _cap(rows: list[Row]) -> tuple[list[Row], str]:
+    if len(rows) <= MAX_TABLE_ROWS:
+        return rows, ""
+    problems = [r for r in rows if r.status not in ("agrees", "missing-claim")]
+    rest = [r for r in rows if r.status in ("agrees", "missing-claim")]
+    shown = (problems + rest)[:MAX_TABLE_ROWS]
+    order = {id(r): n for n, r in enumerate(rows)}
+    shown.sort(key=lambda r: order[id(r)])
+    return shown, (f"{len(rows) - len(shown)} rows that agree or have no claim are not listed (large model); "
+                   "`truss-verify check --csv` writes the full table.")
+
+
+def _route_value(route: object | None, i: int, k: int) -> float | None:
+    if route is None:
+        return None
+    forces = getattr(route, "forces", route)
+    value = float(forces.member_forces[i, k])  # type: ignore[attr-defined]
+    return value if math.isfinite(value) else None
+
+
+def _route_cells(review: Review, i: int, k: int) -> tuple[str, ...]:
+    a = review.analysis
+    joints = _route_value(a.joints, i, k)
+    sections = _route_value(a.sections, i, k)
+    reference = a.reference
+    value = _route_value(reference, i, k)
+    zero = _zero_tol(review, k)
+    sections_text = fmt(_clean_zero(sections, zero)) if sections is not None else ("not reached" if a.sections is not None else "—")
+    return (fmt(_clean_zero(joints, zero)), sections_text, fmt(_clean_zero(value, zero)), tc(value, zero_tol=zero))
+
+
+def _zero_tol(review: Review, k: int) -> float:
+    ref = review.analysis.reference
+    if ref is None or not ref.member_forces.size:
+        return 0.0
+    column = ref.member_forces[:, k]
+    largest = float(np.nanmax(np.abs(column))) if np.isfinite(column).any() else 0.0
+    return 1e-9 * (largest or 1.0)
+
+
+def _clean_zero(value: float | None, zero: float) -> float | None:
+    return 0.0 if value is not None and abs(value) <= zero else value
+
+
+def _member_cells(row: Row) -> tuple[str, ...]:
+    recomputed = row.recomputed
+    sections = fmt(row.sections) if row.sections is not None else ("not reached" if row.joints is not None else "—")
+    scale = max(abs(v) for v in (row.joints, row.global_, row.elastic, 0.0) if v is not None)
+    zero = 1e-9 * (scale or 1.0)
+    return (row.id, fmt(row.claimed), fmt(_clean_zero(row.joints, zero)), sections,
+            fmt(_clean_zero(row.global_ if row.global_ is not None else row.elastic, zero)),
+            tc(recomputed, zero_tol=zero) if recomputed is not None else "—", fmt(row.difference), row.status, row.written)
+
+
+def diagram_columns(review: Review) -> list[str]:
+    """Load columns to draw: those with problems first, then the other checked ones; at most MAX_DIAGRAMS."""
+    model = review.analysis.model
+    checked = [n for n in model.load_names if n in review.checked_cases]
+    if not checked:
+        return model.load_names[:1]
+    bad = {r.case for r in review.rows if r.kind == "member" and status_category(r.status) not in ("agrees", "missing")}
+    limit = 1 if len(model.members) > LARGE_MODEL_MEMBERS else MAX_DIAGRAMS
+    ordered = [n for n in checked if n in bad] + [n for n in checked if n not in bad]
+    keep = set(ordered[:limit])
+    return [n for n in checked if n in keep]
+
+
+def member_statuses(review: Review, load_name: str) -> dict[str, str]:
+    """Member id -> the status drawn for one load column (the most serious of its claims)."""
+    collected: dict[str, list[str]] = {}
+    for row in review.rows:
+        if row.kind == "member" and row.case == load_name:
+            collected.setdefault(row.id, []).append(row.status)
+    out = {}
+    for member, statuses in collected.items():
+        category = worst_status(statuses)
+        out[member] = next(s for s in statuses if status_category(s) == category)
+    return out
+
+
+def appendix_columns(review: Review) -> list[str]:
+    model = review.analysis.model
+    checked = [n for n in model.load_names if n in review.checked_cases] or model.load_names[:1]
+    if len(model.members) > LARGE_MODEL_MEMBERS:
+        return checked[:1]
+    return checked[:MAX_APPENDIX_COLUMNS]
+
+
+def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
+    model = review.analysis.model
+    large = len(model.members) > LARGE_MODEL_MEMBERS
+    columns = appendix_columns(review)
+    sections = []
+    for name in columns:
+        blocks = appendix_blocks(review.analysis, name, max_steps=MAX_APPENDIX_STEPS_LARGE if large else None,
+                                 max_cuts=MAX_APPENDIX_CUTS_LARGE if large else None,
+                                 exact=len(model.members) <= EXACT_MAX_MEMBERS)
+        sections.append((_load_label(review, name), blocks))
+    checked = [n for n in model.load_names if n in review.checked_cases]
+    note = ""
+    if large:
+        note = (f"Large model ({len(model.members)} members): the hand calc is shown for the first load column only and at most "
+                f"{MAX_APPENDIX_STEPS_LARGE} joint steps; `truss-verify solve --show all` prints the rest.")
+    elif len(checked) > len(columns):
+        note = f"The hand calc is shown for the first {len(columns)} checked load columns; `truss-verify solve --show all` prints every one."
+    return sections, note
+
+
+def _generated(generated: str | None) -> str:
+    return generated if generated is not None else _dt.date.today().isoformat()
+
+
+# -- HTML ----------------------------------------------------------------------------------------
+CSS = """
+body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;background:#fff;margin:0 auto;max-width:1180px;padding:16px 24px;line-height:1.45;font-size:15px}
+h1{font-size:1.55em;margin:.2em 0}h2{font-size:1.25em;border-bottom:2px solid #1a1a1a;padding-bottom:2px;margin-top:1.6em}
+h3{font-size:1.05em;margin-top:1.2em}h4{font-size:1em;margin:1em 0 .3em}
+.verdict{font-size:1.3em;font-weight:bold;padding:8px 12px;border:3px solid #1a1a1a;display:inline-block;margin:.4em 0}
+.verdict.agrees{border-color:#009E73}.verdict.discrepancies{border-color:#D55E00}.verdict.cannot-verify{border-color:#E69F00;border-style:dashed}
+table{border-collapse:collapse;margin:.4em 0 1em}td,th{border:1px solid #bbb;padding:3px 7px;vertical-align:top}
+th{background:#eee;text-align:left}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+table.facts th{width:16em}table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
+table.legend{border:none}table.legend td{border:none;padding:1px 6px}table.legend caption{text-align:left;font-weight:bold}
+figure.truss{margin:0}.view{margin:.6em 0}.view-name{font-weight:bold}figcaption{font-style:italic;margin:.2em 0}
+pre{background:#f6f6f6;border:1px solid #ddd;padding:8px;overflow-x:auto;font-size:.85em;line-height:1.35;white-space:pre-wrap}
+.sev{font-weight:bold;font-size:.8em;padding:1px 5px;border:1.5px solid #1a1a1a;border-radius:3px;margin-right:.4em}
+.sev.blocker{border-style:dashed}.sev.error{background:#1a1a1a;color:#fff}
+li.finding{margin:.35em 0}.caution{border:2px solid #1a1a1a;padding:8px 12px;background:#fafafa}
+td.st{white-space:nowrap}.mark{display:inline-block;min-width:1.3em;text-align:center;font-weight:bold;border-radius:50%;border:2px solid;margin-right:4px;background:#fff}
+@media print{body{max-width:none}h2{page-break-after:avoid}table{page-break-inside:auto}}
+"""
+
+CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'; base-uri 'none'"
+
+
+def _e(text: object) -> str:
+    return escape(str(text), quote=True)
+
+
+def _status_cell(status: str) -> str:
+    if not status:
+        return "<td></td>"
+    style = STATUS_STYLES[status_category(status)]
+    marker = "✓" if style.key == "agrees" else style.marker
+    return (f'<td class="st"><span class="mark" style="border-color:{style.colour}">{_e(marker)}</span>'
+            f"{_e(status)}</td>")
+
+
+def _html_table(header: tuple[str, ...], rows: tuple[tuple[str, ...], ...], statuses: tuple[str, ...] | None = None,
+                css: str = "") -> str:
+    numeric = {h for h in header if h in ("claimed", "joints", "sections", "global", "elastic", "difference", "recomputed",
+                                         "decimal", "Rx", "Ry", "Rz")}
+    out = [f'<table class="{css}"><thead><tr>' + "".join(f"<th>{_e(h)}</th>" for h in header) + "</tr></thead><tbody>"]
+    for n, row in enumerate(rows):
+        cells = []
+        for h, cell in zip(header, row, strict=True):
+            if h == "status" and statuses is not None:
+                cells.append(_status_cell(statuses[n]))
+            elif h in numeric:
+                cells.append(f'<td class="num">{_e(cell)}</td>')
+            else:
+                cells.append(f"<td>{_e(cell)}</td>")
+        out.append("<tr>" + "".join(cells) + "</tr>")
+    out.append("</tbody></table>")
+    return "".join(out)
+
+
+def _html_blocks(blocks: list[Block], level: int) -> list[str]:
+    out = []
+    for block in blocks:
+        out.append(f"<h{level}>{_e(block.heading)}</h{level}>")
+        if block.kind == "pre":
+            out.append(f"<pre>{_e(block.text)}</pre>")
+        elif block.kind == "table":
+            if block.text:
+                out.append(f"<p>{_e(block.text)}</p>")
+            out.append(_html_table(block.header, block.rows))
+        else:
+            out.append(f"<p>{_e(block.text)}</p>")
+    return out
+
+
+def render_html(review: Review, *, generated: str | None = None) -> str:
+    model = review.analysis.model
+    date = _generated(generated)
+    word, summary = _verdict_text(review)
+    title = model.title or Path(model.source).name or "truss"
+    out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
+           f'<meta http-equiv="Content-Security-Policy" content="{CSP}">',
+           '<meta name="viewport" content="width=device-width, initial-scale=1">',
+           f"<title>Truss review: {_e(title)}</title>", f"<style>{CSS}</style>", "</head>", "<body>"]
+    out.append('<header id="summary">')
+    out.append(f"<h1>Truss review: {_e(title)}</h1>")
+    out.append(f'<div class="verdict {_e(review.verdict.value)}">Verdict: {_e(word)}</div>')
+    out.append(f"<p>{_e(summary)}</p>")
+    out.append('<table class="facts"><tbody>' + "".join(f"<tr><th>{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in header_facts(review, date))
+               + "</tbody></table>")
+    out.append("<h2>Input files</h2>")
+    files = input_files(review)
+    out.append('<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
+               + "".join(f'<tr><td>{_e(f.role)}</td><td>{_e(f.path)}</td><td class="hash">{_e(f.sha256 or f.note)}</td></tr>' for f in files)
+               + "</tbody></table>")
+    extra = notes(review)
+    if extra:
+        out.append("<h3>Notes</h3><ul>" + "".join(f"<li>{_e(n)}</li>" for n in extra) + "</ul>")
+    out.append("</header>")
+
+    out.append('<section id="diagram"><h2>Diagram</h2>')
+    out.extend(_html_diagrams(review))
+    out.append("</section>")
+
+    out.append('<section id="findings"><h2>Findings</h2>')
+    if review.findings:
+        out.append('<ol class="findings">')
+        for f in review.findings:
+            case = f" ({_e(f.case)})" if f.case else ""
+            out.append(f'<li class="finding {_e(f.kind)}"><span class="sev {_e(f.severity.value)}">{_e(f.severity.value)}</span>'
+                       f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>")
+        out.append("</ol>")
+    else:
+        out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
+    out.append("</section>")
+
+    out.append('<section id="members"><h2>Member table</h2>')
+    for table in member_tables(review):
+        out.append(f"<h3>{_e(table.title)}</h3><p>{_e(table.intro)}</p>")
+        out.append(_html_table(table.header, table.rows, table.statuses, css="members"))
+        if table.note:
+            out.append(f"<p><em>{_e(table.note)}</em></p>")
+    out.append("</section>")
+
+    sections, note = appendix(review)
+    out.append('<section id="appendix"><h2>Appendix: hand calculation</h2>')
+    out.append("<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the "
+               "equations and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the "
+               "member, tension positive.</p>")
+    if note:
+        out.append(f"<p><em>{_e(note)}</em></p>")
+    for label, blocks in sections:
+        out.append(f"<h3>{_e(label)}</h3>")
+        out.extend(_html_blocks(blocks, 4))
+    out.append("</section>")
+
+    out.append(f'<section id="cautions"><h2>Cautions</h2><p class="caution">{_e(CAUTION)} Defer to the governing local codes.</p></section>')
+    out.append(f"<footer><p>truss-verify {_e(__version__)} — report generated {_e(date)}.</p></footer>")
+    out.append("</body></html>")
+    return "\n".join(out) + "\n"
+
+
+def _html_diagrams(review: Review) -> list[str]:
+    model = review.analysis.model
+    ref = review.analysis.reference
+    columns = diagram_columns(review)
+    out = []
+    if len(model.members) > LARGE_MODEL_MEMBERS:
+        out.append(f"<p><em>Large model ({len(model.members)} members): no per-member labels or letters; one load column drawn. "
+                   "The member table lists every problem.</em></p>")
+    drawn = [(name, member_statuses(review, name) if name in review.checked_cases else None) for name in columns]
+    used: set[str] = set()
+    for _, statuses in drawn:
+        used |= used_categories(model, statuses)
+    out.append(legend_html(with_status=any(st is not None for _, st in drawn), used=used, model=model))
+    for name, statuses in drawn:
+        forces = ref.member_forces[:, ref.column(name)] if ref is not None else None
+        caption = (f"{_load_label(review, name)}: members marked by review status; band width shows tension or compression "
+                   "of the recomputed force." if statuses is not None else f"{_load_label(review, name)}: no claims checked.")
+        if ref is None:
+            caption += " No force could be recomputed, so members are drawn without tension or compression."
+        out.append(f"<h3>{_e(_load_label(review, name))}</h3>")
+        out.append(render_diagram(model, forces=forces, statuses=statuses, load_name=name, caption=caption, legend=False))
+    return out
+
+
+# -- Markdown ------------------------------------------------------------------------------------
+_MD_SPECIAL = str.maketrans({c: "\\" + c for c in "\\`*_[]#|"})
+
+
+def _m(text: object) -> str:
+    """Markdown-safe text: HTML-escaped (no raw HTML passes) and the emphasis/table marks escaped."""
+    return escape(str(text), quote=False).translate(_MD_SPECIAL).replace("\n", " ")
+
+
+def _md_table(header: tuple[str, ...], rows: tuple[tuple[str, ...], ...], statuses: tuple[str, ...] | None = None) -> list[str]:
+    out = ["| " + " | ".join(_m(h) for h in header) + " |", "|" + "|".join("---" for _ in header) + "|"]
+    for n, row in enumerate(rows):
+        cells = []
+        for h, cell in zip(header, row, strict=True):
+            if h == "status" and statuses is not None and statuses[n]:
+                marker = STATUS_STYLES[status_category(statuses[n])].marker
+                cells.append(_m(f"{marker} {cell}" if marker else cell))
+            else:
+                cells.append(_m(cell))
+        out.append("| " + " | ".join(cells) + " |")
+    return out
+
+
+def _fence(text: str) -> str:
+    longest = max((len(run) for run in text.split("\n") for run in _backtick_runs(run)), default=0)
+    fence = "`" * max(3, longest + 1)
+    return f"{fence}text\n{text}\n{fence}"
+
+
+def _backtick_runs(line: str) -> list[str]:
+    runs, current = [], ""
+    for ch in line:
+        if ch == "`":
+            current += ch
+        elif current:
+            runs.append(current)
+            current = ""
+    if current:
+        runs.append(current)
+    return runs
+
+
+def render_markdown(review: Review, *, generated: str | None = None) -> str:
+    model = review.analysis.model
+    date = _generated(generated)
+    word, summary = _verdict_text(review)
+    title = model.title or Path(model.source).name or "truss"
+    out = [f"# Truss review: {_m(title)}", "", f"**Verdict: {_m(word)}** — {_m(summary)}", ""]
+    out.extend(_md_table(("item", "value"), tuple((k, v) for k, v in header_facts(review, date))))
+    out += ["", "## Input files", ""]
+    out.extend(_md_table(("input", "file", "SHA-256"), tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review))))
+    extra = notes(review)
+    if extra:
+        out += ["", "### Notes", ""] + [f"- {_m(n)}" for n in extra]
+    out += ["", "## Diagram", "",
+            "The truss diagram is drawn only in the HTML report (`truss-verify check CASE --claims FILE --report review.html`); "
+            "this Markdown version carries the rest of the content.", ""]
+    out += ["## Findings", ""]
+    if review.findings:
+        for n, f in enumerate(review.findings, 1):
+            case = f" ({_m(f.case)})" if f.case else ""
+            out.append(f"{n}. [{_m(f.severity.value)}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}")
+    else:
+        out.append("No findings: every claim checked agrees within tolerance.")
+    legend = "; ".join(f"{s.marker} = {s.words}" for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank) if s.marker)
+    out += ["", "## Member table", "", f"Status letters: {_m(legend)}."]
+    for table in member_tables(review):
+        out += ["", f"### {_m(table.title)}", "", _m(table.intro), ""]
+        out.extend(_md_table(table.header, table.rows, table.statuses))
+        if table.note:
+            out += ["", f"*{_m(table.note)}*"]
+    sections, note = appendix(review)
+    out += ["", "## Appendix: hand calculation", "",
+            "Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the equations "
+            "and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the member, "
+            "tension positive."]
+    if note:
+        out += ["", f"*{_m(note)}*"]
+    for label, blocks in sections:
+        out += ["", f"### {_m(label)}"]
+        for block in blocks:
+            out += ["", f"#### {_m(block.heading)}", ""]
+            if block.kind == "pre":
+                out.append(_fence(block.text))
+            elif block.kind == "table":
+                if block.text:
+                    out += [_m(block.text), ""]
+                out.extend(_md_table(block.header, block.rows))
+            else:
+                out.append(_m(block.text))
+    out += ["", "## Cautions", "", f"{_m(CAUTION)} Defer to the governing local codes.", "",
+            f"*truss-verify {_m(__version__)} — report generated {_m(date)}.*", ""]
+    return "\n".join(out)
+
+
+def render_document(review: Review, *, fmt: str = "html", generated: str | None = None) -> str:
+    """The review report as HTML ("html") or Markdown ("md"); `generated` fixes the date shown."""
+    if fmt == "html":
+        return render_html(review, generated=generated)
+    if fmt in ("md", "markdown"):
+        return render_markdown(review, generated=generated)
+    raise ValueError(f"report format must be 'html' or 'md', got {fmt!r}")
+
+
+__all__ = ["InputFile", "input_files", "render_document", "render_html", "render_markdown", "sha256_file"]
