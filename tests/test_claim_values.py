@@ -18,6 +18,7 @@ from verify.io.values import is_nan_text, parse_force_cell
 REL = 1e-12  # parsing is exact up to float rounding of the decimal text
 
 # (text, decimal_comma, value, sign_fixed, unit, behaviour)
+# fmt: off
 READINGS = [
     ("12.4", False, 12.4, False, None, "a plain number keeps its sign"),
     ("-12.4", False, -12.4, False, None, "a minus sign is kept, sign not fixed"),
@@ -64,6 +65,7 @@ READINGS = [
     ("2 tonne-force", False, 2.0, False, "tonne-force", "a hyphenated unit"),
     ("  7.5  ", False, 7.5, False, None, "surrounding spaces are ignored"),
 ]
+# fmt: on
 
 
 @pytest.mark.parametrize(
@@ -71,13 +73,16 @@ READINGS = [
     [r[:5] for r in READINGS],
     ids=[r[5] for r in READINGS],
 )
-def test_force_cell_reading(text: str, decimal_comma: bool, value: float, sign_fixed: bool, unit: str | None) -> None:
+def test_force_cell_reading(
+    text: str, decimal_comma: bool, value: float, sign_fixed: bool, unit: str | None
+) -> None:
     got = parse_force_cell(text, decimal_comma=decimal_comma)
     assert got[0] == pytest.approx(value, rel=REL)
     assert got[1:] == (sign_fixed, unit)
 
 
 # (text, decimal_comma, fragment of the message, behaviour)
+# fmt: off
 REFUSED = [
     ("12,4.0 C", False, "force '12,4.0 C' is not a number with an optional T/C suffix", "a comma that fits no grouping"),
     ("12,4", False, "write a decimal point", "a decimal comma in a point table"),
@@ -105,6 +110,7 @@ REFUSED = [
     ("1,23,456", False, "is not a number", "irregular comma groups"),
     ("12.4.5", False, "is not a number", "two decimal points"),
 ]
+# fmt: on
 
 
 @pytest.mark.parametrize(
@@ -130,11 +136,17 @@ def test_ordinary_text_is_not_nan(text: str) -> None:
     assert not is_nan_text(text)
 
 
-_magnitudes = st.decimals(min_value=0, max_value=10**9, places=3, allow_nan=False, allow_infinity=False)
+_magnitudes = st.decimals(
+    min_value=0, max_value=10**9, places=3, allow_nan=False, allow_infinity=False
+)
 
 
 @settings(max_examples=150, deadline=None)
-@given(_magnitudes, st.sampled_from(["", " T", " C", "T", "C", " (C)"]), st.sampled_from(["", " kN", "kip"]))
+@given(
+    _magnitudes,
+    st.sampled_from(["", " T", " C", "T", "C", " (C)"]),
+    st.sampled_from(["", " kN", "kip"]),
+)
 def test_python_formatted_numbers_read_back(magnitude, suffix: str, unit: str) -> None:
     """Numbers formatted by Python's '{:,.3f}' (comma thousands) read back with T/C and unit applied."""
     text = f"{magnitude:,.3f}{unit}{suffix}"

@@ -31,9 +31,17 @@ def _model(loads: dict | None = None, **extra: dict) -> Model:
     data = {
         "units": {"length": "m", "force": "kN"},
         "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
-        "members": {"AB": ["A", "B"], "BC": ["B", "C"], "AD": ["A", "D"], "BD": ["B", "D"], "CD": ["C", "D"]},
+        "members": {
+            "AB": ["A", "B"],
+            "BC": ["B", "C"],
+            "AD": ["A", "D"],
+            "BD": ["B", "D"],
+            "CD": ["C", "D"],
+        },
         "supports": {"A": ["x", "y"], "C": ["y"]},
-        "loads": loads if loads is not None else {"dead": {"D": [0.0, -10.0]}, "snow": {"D": [0.0, -5.0]}},
+        "loads": loads
+        if loads is not None
+        else {"dead": {"D": [0.0, -10.0]}, "snow": {"D": [0.0, -5.0]}},
     }
     data.update(extra)
     return build_model(data, source="case.toml")
@@ -51,7 +59,10 @@ def _csv(tmp_path: Path, text: str, name: str = "claims.csv", encoding: str = "u
 
 def _by(table: ClaimsTable) -> dict[tuple[str, str], ClaimedValue]:
     """Claims keyed by (member id or 'joint.axis', column)."""
-    return {(v.member if v.member is not None else ".".join(v.reaction or ()), v.column): v for v in table.values}
+    return {
+        (v.member if v.member is not None else ".".join(v.reaction or ()), v.column): v
+        for v in table.values
+    }
 
 
 def _errors(path: Path, model: Model = MODEL, **options: str) -> str:
@@ -68,7 +79,10 @@ def test_wide_form_reads_one_column_per_case_with_header_units(tmp_path: Path) -
     assert table.columns == ("dead", "snow")
     assert table.header_unit == "kN"
     got = _by(table)
-    assert got[("AB", "dead")].value == pytest.approx(-12.4, rel=REL) and got[("AB", "dead")].sign_fixed
+    assert (
+        got[("AB", "dead")].value == pytest.approx(-12.4, rel=REL)
+        and got[("AB", "dead")].sign_fixed
+    )
     assert got[("AB", "snow")].value == -3.0 and not got[("AB", "snow")].sign_fixed
     assert got[("BC", "dead")].value == -5.0
     assert ("BC", "snow") not in got  # a blank cell is no claim, never zero
@@ -80,7 +94,9 @@ def test_wide_form_reads_one_column_per_case_with_header_units(tmp_path: Path) -
 
 def test_long_form_reads_member_case_force_columns(tmp_path: Path) -> None:
     """Long form: the case comes from the case cell; columns list cases in order of appearance."""
-    path = _csv(tmp_path, "Element,Load case,Axial force [kip]\nAB,snow,1.5\nAB,dead,2\nBD,dead,-4 C\n")
+    path = _csv(
+        tmp_path, "Element,Load case,Axial force [kip]\nAB,snow,1.5\nAB,dead,2\nBD,dead,-4 C\n"
+    )
     table = read_claims(path, MODEL)
     assert table.columns == ("snow", "dead")
     assert table.header_unit == "kip"
@@ -101,7 +117,9 @@ def test_single_force_column_takes_the_only_load_case(tmp_path: Path) -> None:
     """A force column without a case column belongs to the model's only load case."""
     path = _csv(tmp_path, "Bar,Force (kN)\nAB,3\n")
     table = read_claims(path, ONE_CASE)
-    assert [(v.member, v.column, v.value, v.unit) for v in table.values] == [("AB", "dead", 3.0, "kN")]
+    assert [(v.member, v.column, v.value, v.unit) for v in table.values] == [
+        ("AB", "dead", 3.0, "kN")
+    ]
 
 
 def test_single_force_column_needs_a_case_when_the_model_has_several(tmp_path: Path) -> None:
@@ -123,7 +141,9 @@ def test_wide_form_case_option_selects_a_column(tmp_path: Path) -> None:
 def test_column_options_name_unrecognised_headers(tmp_path: Path) -> None:
     """member_column / case_column / force_column name columns whose headers are not recognised."""
     path = _csv(tmp_path, "Pos,Situation,Kraft\nAB,dead,1\n")
-    table = read_claims(path, MODEL, member_column="Pos", case_column="Situation", force_column="Kraft")
+    table = read_claims(
+        path, MODEL, member_column="Pos", case_column="Situation", force_column="Kraft"
+    )
     assert [(v.member, v.column, v.value) for v in table.values] == [("AB", "dead", 1.0)]
     assert "Did you mean 'Pos'" in _errors(path, member_column="Poss")
 
@@ -191,7 +211,9 @@ MEMBER_LABELS = [
 ]
 
 
-@pytest.mark.parametrize(("label", "member"), [m[:2] for m in MEMBER_LABELS], ids=[m[2] for m in MEMBER_LABELS])
+@pytest.mark.parametrize(
+    ("label", "member"), [m[:2] for m in MEMBER_LABELS], ids=[m[2] for m in MEMBER_LABELS]
+)
 def test_member_label_matching(tmp_path: Path, label: str, member: str) -> None:
     path = _csv(tmp_path, f"Member,dead\n{label},1\n")
     table = read_claims(path, MODEL)
@@ -210,7 +232,9 @@ REACTION_LABELS = [
 ]
 
 
-@pytest.mark.parametrize(("label", "reaction"), [r[:2] for r in REACTION_LABELS], ids=[r[2] for r in REACTION_LABELS])
+@pytest.mark.parametrize(
+    ("label", "reaction"), [r[:2] for r in REACTION_LABELS], ids=[r[2] for r in REACTION_LABELS]
+)
 def test_reaction_label_matching(tmp_path: Path, label: str, reaction: tuple[str, str]) -> None:
     path = _csv(tmp_path, f"Member,dead\n{label},-5\n")
     [value] = read_claims(path, MODEL).values
@@ -238,7 +262,11 @@ def test_unknown_label_gets_nearest_real_labels(tmp_path: Path) -> None:
     table = read_claims(path, MODEL)
     assert [v.member for v in table.values] == ["AB"]
     [unmatched] = table.unmatched
-    assert (unmatched.label, unmatched.reason, unmatched.where) == ("BX", "unknown", "row 2, column 'Member'")
+    assert (unmatched.label, unmatched.reason, unmatched.where) == (
+        "BX",
+        "unknown",
+        "row 2, column 'Member'",
+    )
     assert unmatched.candidates and set(unmatched.candidates) <= {"BC", "BD", "AB"}
 
 
@@ -254,7 +282,13 @@ def _numbered_model() -> Model:
         {
             "units": {"length": "m", "force": "kN"},
             "joints": {"1": [0.0, 0.0], "2": [1.0, 0.0], "11": [0.0, 1.0], "12": [1.0, 1.0]},
-            "members": {"a": ["1", "12"], "b": ["11", "2"], "c": ["1", "2"], "d": ["11", "12"], "e": ["1", "11"]},
+            "members": {
+                "a": ["1", "12"],
+                "b": ["11", "2"],
+                "c": ["1", "2"],
+                "d": ["11", "12"],
+                "e": ["1", "11"],
+            },
             "supports": {"1": ["x", "y"], "2": ["y"]},
             "loads": {"dead": {"12": [0.0, -1.0]}},
         },
@@ -276,7 +310,13 @@ def _relabelled_model() -> Model:
         {
             "units": {"length": "m", "force": "kN"},
             "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
-            "members": {"AB": ["A", "B"], "X": ["B", "C"], "BC": ["A", "D"], "BD": ["B", "D"], "CD": ["C", "D"]},
+            "members": {
+                "AB": ["A", "B"],
+                "X": ["B", "C"],
+                "BC": ["A", "D"],
+                "BD": ["B", "D"],
+                "CD": ["C", "D"],
+            },
             "supports": {"A": ["x", "y"], "C": ["y"]},
             "loads": {"dead": {"D": [0.0, -10.0]}},
         },
@@ -294,7 +334,10 @@ def test_case_folded_id_competing_with_a_joint_pair_is_ambiguous(tmp_path: Path)
     """'bc' is not exactly an id: it reads as id 'BC' and as pair B-C (member X), so it is ambiguous."""
     table = read_claims(_csv(tmp_path, "Member,dead\nbc,1\n"), _relabelled_model())
     assert not table.values
-    assert table.unmatched[0].reason == "ambiguous" and set(table.unmatched[0].candidates) == {"BC", "X"}
+    assert table.unmatched[0].reason == "ambiguous" and set(table.unmatched[0].candidates) == {
+        "BC",
+        "X",
+    }
 
 
 def test_ids_stay_strings(tmp_path: Path) -> None:
@@ -310,14 +353,24 @@ def test_ids_stay_strings(tmp_path: Path) -> None:
         source="ids.toml",
     )
     table = read_claims(_csv(tmp_path, "Member,dead\n007,1\n1E1,2\n10,3\n"), model)
-    assert [(v.label, v.member) for v in table.values] == [("007", "007"), ("1E1", "1E1"), ("10", "10")]
+    assert [(v.label, v.member) for v in table.values] == [
+        ("007", "007"),
+        ("1E1", "1E1"),
+        ("10", "10"),
+    ]
 
 
 # -- encodings and delimiters -------------------------------------------------------------------
 def test_european_csv_semicolons_and_decimal_commas(tmp_path: Path) -> None:
     """';'-separated: ',' is the decimal mark and '.' or ' ' group thousands."""
-    path = _csv(tmp_path, "Stab;Lastfall;Kraft (kN)\nAB;dead;-12,5\nBC;dead;1.234,5\nCD;dead;1 234,5 C\n")
-    got = _by(read_claims(path, MODEL, member_column="Stab", case_column="Lastfall", force_column="Kraft (kN)"))
+    path = _csv(
+        tmp_path, "Stab;Lastfall;Kraft (kN)\nAB;dead;-12,5\nBC;dead;1.234,5\nCD;dead;1 234,5 C\n"
+    )
+    got = _by(
+        read_claims(
+            path, MODEL, member_column="Stab", case_column="Lastfall", force_column="Kraft (kN)"
+        )
+    )
     assert got[("AB", "dead")].value == -12.5
     assert got[("BC", "dead")].value == 1234.5
     assert got[("CD", "dead")].value == -1234.5
@@ -338,7 +391,11 @@ def test_utf8_bom_is_ignored(tmp_path: Path) -> None:
 
 def test_cp1252_fallback(tmp_path: Path) -> None:
     """Windows-1252 text (en dash as separator and minus) is read when it is not UTF-8."""
-    path = _csv(tmp_path, "Member,dead (kN),Remarks\nB\u2013C,\u20133.5,\u00e9l\u00e9ment\n", encoding="cp1252")
+    path = _csv(
+        tmp_path,
+        "Member,dead (kN),Remarks\nB\u2013C,\u20133.5,\u00e9l\u00e9ment\n",
+        encoding="cp1252",
+    )
     [value] = read_claims(path, MODEL).values
     assert (value.label, value.member, value.value) == ("B\u2013C", "BC", -3.5)
 
@@ -368,6 +425,7 @@ def test_the_input_file_is_not_modified_and_is_hashed(tmp_path: Path) -> None:
 
 # -- malformed files ----------------------------------------------------------------------------
 # (file text, fragments of the message, behaviour)
+# fmt: off
 MALFORMED = [
     ("", ["claims.csv:", "empty"], "empty file"),
     ("  \n\n", ["claims.csv:", "empty"], "blank lines only"),
@@ -386,9 +444,12 @@ MALFORMED = [
     ("Member,dead\nAB,1,5\n", ["claims.csv row 2, column 3", "no header"], "values beyond the header"),
     ("Member,Force,T/C\nAB,3,X\n", ["claims.csv row 2, column 'T/C'", "not T or C"], "a bad T/C cell"),
 ]
+# fmt: on
 
 
-@pytest.mark.parametrize(("text", "fragments"), [m[:2] for m in MALFORMED], ids=[m[2] for m in MALFORMED])
+@pytest.mark.parametrize(
+    ("text", "fragments"), [m[:2] for m in MALFORMED], ids=[m[2] for m in MALFORMED]
+)
 def test_malformed_claims_file(tmp_path: Path, text: str, fragments: list[str]) -> None:
     path = _csv(tmp_path, text)
     message = _errors(path, ONE_CASE if "Force" in text else MODEL)
@@ -446,17 +507,28 @@ def _workbook(path: Path, sheets: dict[str, list[list[object]]]) -> Path:
 
 def test_xlsx_numbers_and_text_cells(tmp_path: Path) -> None:
     """Numeric cells are numbers already; text cells are read like CSV cells; cells are located."""
-    path = _workbook(tmp_path / "claims.xlsx", {"Forces": [
-        ["Member", "dead (kN)", "snow (kN)"],
-        ["AB", 12.5, "3.5 C"],
-        ["B-C", -4, "(2)"],
-        [7, None, 1],
-    ]})
+    path = _workbook(
+        tmp_path / "claims.xlsx",
+        {
+            "Forces": [
+                ["Member", "dead (kN)", "snow (kN)"],
+                ["AB", 12.5, "3.5 C"],
+                ["B-C", -4, "(2)"],
+                [7, None, 1],
+            ]
+        },
+    )
     model = build_model(
         {
             "units": {"length": "m", "force": "kN"},
             "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
-            "members": {"AB": ["A", "B"], "BC": ["B", "C"], "7": ["A", "D"], "BD": ["B", "D"], "CD": ["C", "D"]},
+            "members": {
+                "AB": ["A", "B"],
+                "BC": ["B", "C"],
+                "7": ["A", "D"],
+                "BD": ["B", "D"],
+                "CD": ["C", "D"],
+            },
             "supports": {"A": ["x", "y"], "C": ["y"]},
             "loads": {"dead": {"D": [0.0, -10.0]}, "snow": {"D": [0.0, -5.0]}},
         },
@@ -476,7 +548,9 @@ def test_xlsx_numbers_and_text_cells(tmp_path: Path) -> None:
 
 def test_xlsx_formula_without_cached_value_is_an_error(tmp_path: Path) -> None:
     """openpyxl saves formulas without results: the cell is reported, never read as blank or 0."""
-    path = _workbook(tmp_path / "claims.xlsx", {"Forces": [["Member", "dead"], ["AB", 1], ["BC", "=1+2"]]})
+    path = _workbook(
+        tmp_path / "claims.xlsx", {"Forces": [["Member", "dead"], ["AB", 1], ["BC", "=1+2"]]}
+    )
     message = _errors(path)
     assert "claims.xlsx sheet 'Forces' cell B3, column 'dead'" in message
     assert "recalculate and re-save the workbook" in message
@@ -509,16 +583,22 @@ def test_xlsx_date_cell_is_reported(tmp_path: Path) -> None:
     """A date in a force cell is not silently turned into a serial number."""
     import datetime
 
-    path = _workbook(tmp_path / "claims.xlsx", {"Forces": [["Member", "dead"], ["AB", datetime.date(2024, 3, 1)]]})
+    path = _workbook(
+        tmp_path / "claims.xlsx",
+        {"Forces": [["Member", "dead"], ["AB", datetime.date(2024, 3, 1)]]},
+    )
     assert "date" in _errors(path)
 
 
 def test_xlsx_several_sheets_need_a_name(tmp_path: Path) -> None:
     """Several sheets and none named: the error lists them; naming one reads it; a typo gets a hint."""
-    path = _workbook(tmp_path / "claims.xlsx", {
-        "Notes": [["Checked by", "someone"]],
-        "Forces": [["Member", "dead"], ["AB", 2]],
-    })
+    path = _workbook(
+        tmp_path / "claims.xlsx",
+        {
+            "Notes": [["Checked by", "someone"]],
+            "Forces": [["Member", "dead"], ["AB", 2]],
+        },
+    )
     message = _errors(path)
     assert "'Notes', 'Forces'" in message
     assert read_claims(path, MODEL, sheet="Forces").values[0].value == 2.0

@@ -424,7 +424,7 @@ class _Found:
         self.k.append(np.full(len(cand), k))
 
     def rows(self):
-        if not self.cand:
+        if not self.cand or sum(len(c) for c in self.cand) == 0:
             return None
         return (np.concatenate(self.cand), np.concatenate(self.pair), np.concatenate(self.value),
                 np.concatenate(self.w), np.concatenate(self.code), np.concatenate(self.k))

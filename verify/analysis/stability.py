@@ -34,7 +34,11 @@ from verify.model import Model
 DENSE_DOF_LIMIT = 1500  # dense SVD at most ~1 s here; above it, sparse LU (PERFORMANCE.md)
 RANK_RTOL = 1e-10  # singular values below RANK_RTOL * sigma_max count as zero
 ILL_CONDITIONED_SCALED = 1e-2  # see module docstring
-LU_PIVOT_SINGULAR = 1e-11  # sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
+LU_PIVOT_SINGULAR = 1e-11  # pivots of A: sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
+# Pivots of the unit-stiffness matrix A W A^T (indeterminate trusses): measured here on Pratt
+# trusses of 10 to 5000 panels with a mechanism plus two self-stresses, 3e-15 .. 2e-10, against
+# 1.5e-2 .. 1.9e-5 for sound ones (tests/test_stability.py); 1e-8 lies in the gap.
+K_PIVOT_SINGULAR = 1e-8
 MODE_SHARE = 1e-3  # a joint/member takes part in a mode when its share exceeds this fraction
 
 
@@ -178,7 +182,11 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
     mech_modes: list[MechanismMode] = []
     if m:
         basis = U[:, rank:]
-        mech_modes = [_mechanism(model, basis[:, k], rigid > 0 and k < rigid) for k in range(min(m, 10))]
+        # A mode is rigid-body when it lies in the span of the rigid-body motions (the SVD basis
+        # may mix rigid and internal modes when both exist; this labels each mode by its content).
+        coeff = np.linalg.lstsq(R, basis[:, : min(m, 10)], rcond=None)[0]
+        leftover = np.linalg.norm(basis[:, : min(m, 10)] - R @ coeff, axis=0)
+        mech_modes = [_mechanism(model, basis[:, k], bool(leftover[k] < 1e-6)) for k in range(min(m, 10))]
         F = model.load_matrix()
         if F.size:
             leak = np.abs(basis.T @ F).max(axis=0)
@@ -255,7 +263,7 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         lu = spla.splu(M, permc_spec=spec)
         diag = np.abs(lu.U.diagonal())
         ratio = float(diag.min() / diag.max())
-        singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else LU_PIVOT_SINGULAR**2)
+        singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
     except RuntimeError:
         ratio, singular = 0.0, True
     if singular:

@@ -430,7 +430,10 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
             if norm == 0.0:
                 _say(ctx, f"support at '{jid}': direction is the zero vector", path, file, line)
                 continue
-            reactions.append(Reaction(jid, tuple(float(v) for v in arr / norm), "n"))
+            unit = arr / norm
+            # A direction along a global axis is that axis: label it x/y/z, not 'n'.
+            along = [a for k, a in enumerate(axes) if abs(unit[k] - 1.0) < 1e-12]
+            reactions.append(Reaction(jid, tuple(float(v) for v in unit), along[0] if along else "n"))
         else:
             _say(ctx, f"support at '{jid}': expected a list of restrained axes (e.g. [\"x\", \"y\"]) or {{ direction = [...] }}, got {spec!r}", path, file, line)
     return reactions

@@ -62,6 +62,7 @@ CSV_DELIMITERS = ("\t", ";", ",", "|")
 
 # Header spellings per role, compared after _header_key(); earlier spellings win when a table
 # has several (a table with "ID" and "Member" columns is labelled by "Member").
+# fmt: off
 MEMBER_HEADERS = (
     "member", "member id", "member label", "member name", "member no", "member #", "members",
     "mbr", "memb", "element", "element id", "elem", "bar", "bar id", "label", "mark", "id",
@@ -85,6 +86,8 @@ IGNORED_HEADERS = frozenset(
         "ratio", "area", "no", "#", "item", "row", "group", "material", "check",
     }
 )
+# fmt: on
+
 # Header units that are not forces: the column is descriptive (a length, stress, area, ratio).
 _NON_FORCE_UNIT = re.compile(
     r"^(%|-|mm2|mm²|cm2|cm²|m2|m²|in2|in²|ft2|pa|kpa|mpa|gpa|psi|ksi|n/mm2|n/mm²|kn/m2|kn/m|kn/m²|"
@@ -99,7 +102,9 @@ _REACTION_PREFIX = re.compile(r"^(?:reaction|reac|rxn|r)[\s_.\-:]*(?P<body>.+)$"
 _AXIS_TAIL = re.compile(r"(?P<sep>[\s_.\-:,]*)(?:\(\s*(?P<paren>[xyzn])\s*\)|(?P<bare>[xyzn]))$")
 _AXIS_HEAD = re.compile(r"^(?P<axis>[xyz])[\s_.\-:,]+(?P<joint>.+)$")
 _FORMULA_TAG = re.compile(rb"<(?:[A-Za-z0-9_]+:)?f[\s>/]")  # <f>, <f t="shared" .../>, <x:f>
-_HEADER_UNIT = re.compile(r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\]|,\s*(?P<c>[^,]+))\s*$")
+_HEADER_UNIT = re.compile(
+    r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\]|,\s*(?P<c>[^,]+))\s*$"
+)
 
 
 @dataclass(frozen=True)
@@ -119,7 +124,9 @@ class UnmatchedLabel:
     label: str
     where: str
     reason: str  # "unknown" or "ambiguous"
-    candidates: tuple[str, ...]  # nearest real labels (unknown) or the competing matches (ambiguous)
+    candidates: tuple[
+        str, ...
+    ]  # nearest real labels (unknown) or the competing matches (ambiguous)
 
 
 @dataclass(frozen=True)
@@ -155,7 +162,9 @@ class _Problems:
             return
         items = list(self.items)
         if self.dropped:
-            items.append(Problem(self.file, f"... and {self.dropped} more problems of the same kinds."))
+            items.append(
+                Problem(self.file, f"... and {self.dropped} more problems of the same kinds.")
+            )
         raise InputError(items)
 
     def __bool__(self) -> bool:
@@ -244,7 +253,9 @@ def read_claims(
     suffix = path.suffix.lower()
     grid: _Grid | None
     if data[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" or suffix == ".xls":
-        problems.add("this is a legacy binary Excel (.xls) file; save it as .xlsx or export the sheet to CSV")
+        problems.add(
+            "this is a legacy binary Excel (.xls) file; save it as .xlsx or export the sheet to CSV"
+        )
         grid = None
     elif suffix == ".ods":
         problems.add("OpenDocument spreadsheets are not read; save the sheet as .xlsx or CSV")
@@ -262,8 +273,12 @@ def read_claims(
     problems.raise_if_any()
     values, unmatched, columns, header_unit = table
     return ClaimsTable(
-        source=name, sheet=grid.sheet, sha256=hashlib.sha256(data).hexdigest(),
-        values=tuple(values), unmatched=tuple(unmatched), columns=tuple(columns),
+        source=name,
+        sheet=grid.sheet,
+        sha256=hashlib.sha256(data).hexdigest(),
+        values=tuple(values),
+        unmatched=tuple(unmatched),
+        columns=tuple(columns),
         header_unit=header_unit,
     )
 
@@ -274,7 +289,9 @@ def _decode(data: bytes, problems: _Problems) -> str | None:
         try:
             return data.decode("utf-16")
         except UnicodeDecodeError as exc:
-            problems.add(f"the file starts as UTF-16 text but byte {exc.start} is not; save it as UTF-8")
+            problems.add(
+                f"the file starts as UTF-16 text but byte {exc.start} is not; save it as UTF-8"
+            )
             return None
     try:
         return data.decode("utf-8-sig")
@@ -284,7 +301,9 @@ def _decode(data: bytes, problems: _Problems) -> str | None:
         # Spreadsheets on Windows save "CSV" in the ANSI code page; cp1252 is the common one.
         return data.decode("cp1252")
     except UnicodeDecodeError as exc:
-        problems.add(f"the file is neither UTF-8 nor Windows-1252 text (byte {exc.start}); save it as CSV UTF-8")
+        problems.add(
+            f"the file is neither UTF-8 nor Windows-1252 text (byte {exc.start}); save it as CSV UTF-8"
+        )
         return None
 
 
@@ -313,10 +332,14 @@ def _read_csv(data: bytes, problems: _Problems) -> _Grid | None:
     if text is None:
         return None
     if "\x00" in text:
-        problems.add("the file contains NUL bytes, so it is not CSV text; export the table as CSV or .xlsx")
+        problems.add(
+            "the file contains NUL bytes, so it is not CSV text; export the table as CSV or .xlsx"
+        )
         return None
     if not text.strip():
-        problems.add("the file is empty; expected a header row such as 'Member,dead (kN)' and one row per member")
+        problems.add(
+            "the file is empty; expected a header row such as 'Member,dead (kN)' and one row per member"
+        )
         return None
     lines = text.splitlines()
     offset = 0
@@ -336,7 +359,9 @@ def _read_csv(data: bytes, problems: _Problems) -> _Grid | None:
             rows.append([c.strip() or None for c in row])
             numbers.append(index + offset)
     except csv.Error as exc:
-        problems.add(f"the CSV cannot be split into fields ({exc})", f"row {len(rows) + 1 + offset}")
+        problems.add(
+            f"the CSV cannot be split into fields ({exc})", f"row {len(rows) + 1 + offset}"
+        )
         return None
     return _Grid(rows, numbers, None, decimal_comma=delimiter == ";")
 
@@ -348,10 +373,14 @@ def _check_zip(data: bytes, problems: _Problems) -> bool:
         with zipfile.ZipFile(io.BytesIO(data)) as archive:
             infos = archive.infolist()
     except (zipfile.BadZipFile, ValueError, OSError) as exc:
-        problems.add(f"not a readable .xlsx workbook (the zip archive is damaged: {exc}); save it again or export CSV")
+        problems.add(
+            f"not a readable .xlsx workbook (the zip archive is damaged: {exc}); save it again or export CSV"
+        )
         return False
     if len(infos) > MAX_ZIP_MEMBERS:
-        problems.add(f"the workbook archive holds {len(infos)} parts (limit {MAX_ZIP_MEMBERS}); refused before parsing as a possible zip bomb")
+        problems.add(
+            f"the workbook archive holds {len(infos)} parts (limit {MAX_ZIP_MEMBERS}); refused before parsing as a possible zip bomb"
+        )
         return False
     total = sum(info.file_size for info in infos)
     if total > MAX_UNCOMPRESSED_BYTES:
@@ -382,11 +411,15 @@ def _read_workbook(data: bytes, sheet: str | None, problems: _Problems) -> _Grid
         try:
             return _read_sheet(openpyxl.load_workbook, data, sheet, problems)
         except Exception as exc:  # noqa: BLE001 -- a damaged workbook raises many kinds (KeyError, XML errors); each becomes one message
-            problems.add(f"cannot read the workbook ({type(exc).__name__}: {exc}); save it again or export CSV")
+            problems.add(
+                f"cannot read the workbook ({type(exc).__name__}: {exc}); save it again or export CSV"
+            )
             return None
 
 
-def _read_sheet(load: Callable[..., Any], data: bytes, sheet: str | None, problems: _Problems) -> _Grid | None:
+def _read_sheet(
+    load: Callable[..., Any], data: bytes, sheet: str | None, problems: _Problems
+) -> _Grid | None:
     # Pass 1 sees formulas as formulas; pass 2 sees only the values the spreadsheet cached. A
     # formula without a cached value is reported, never read as blank or zero.
     formulas: set[tuple[int, int]] = set()
@@ -418,7 +451,9 @@ def _read_sheet(load: Callable[..., Any], data: bytes, sheet: str | None, proble
     finally:
         book.close()
     if all(all(_blank(c) for c in row) for row in rows):
-        problems.add(f"sheet '{title}' is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member")
+        problems.add(
+            f"sheet '{title}' is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member"
+        )
         return None
     return _Grid(rows, list(range(1, len(rows) + 1)), title, decimal_comma=False)
 
@@ -441,19 +476,25 @@ def _pick_sheet(book: Any, sheet: str | None, problems: _Problems) -> str | None
         folded = [n for n in names if n.casefold() == sheet.casefold()]
         if len(folded) == 1:
             return folded[0]
-        problems.add(f"the workbook has no sheet '{sheet}'; it has {listed}.{did_you_mean(sheet, names)}")
+        problems.add(
+            f"the workbook has no sheet '{sheet}'; it has {listed}.{did_you_mean(sheet, names)}"
+        )
         return None
     if len(names) == 1:
         return names[0]
-    problems.add(f"the workbook has {len(names)} sheets ({listed}); name the one holding the claimed forces")
+    problems.add(
+        f"the workbook has {len(names)} sheets ({listed}); name the one holding the claimed forces"
+    )
     return None
 
 
 def _excel_cell(value: object, is_formula: bool) -> Cell:
     if value is None or (isinstance(value, str) and not value.strip()):
         if is_formula:
-            return _Unusable("holds a formula with no cached value; recalculate and re-save the workbook "
-                             "in the spreadsheet program (formulas are never evaluated here)")
+            return _Unusable(
+                "holds a formula with no cached value; recalculate and re-save the workbook "
+                "in the spreadsheet program (formulas are never evaluated here)"
+            )
         return None
     if isinstance(value, bool):
         return _Unusable(f"holds the logical value {str(value).upper()}")
@@ -534,8 +575,15 @@ def _find_header_row(grid: _Grid, options: _Options) -> int | None:
 
 
 def _pick_column(
-    role: str, spellings: Sequence[str], option: str | None, headers: list[_Header], taken: set[int],
-    load_names: set[str], grid: _Grid, header_r: int, problems: _Problems,
+    role: str,
+    spellings: Sequence[str],
+    option: str | None,
+    headers: list[_Header],
+    taken: set[int],
+    load_names: set[str],
+    grid: _Grid,
+    header_r: int,
+    problems: _Problems,
 ) -> _Header | None:
     if option is not None:
         found = [h for h in headers if option.casefold() in (h.text.casefold(), h.name.casefold())]
@@ -549,10 +597,17 @@ def _pick_column(
                 grid.where(header_r),
             )
         else:
-            problems.add(f"{len(found)} columns are named '{option}'; the {role} column must be unique", grid.where(header_r))
+            problems.add(
+                f"{len(found)} columns are named '{option}'; the {role} column must be unique",
+                grid.where(header_r),
+            )
         return None
     for spelling in spellings:
-        found = [h for h in headers if h.key == spelling and h.index not in taken and h.name.casefold() not in load_names]
+        found = [
+            h
+            for h in headers
+            if h.key == spelling and h.index not in taken and h.name.casefold() not in load_names
+        ]
         if len(found) == 1:
             return found[0]
         if len(found) > 1:
@@ -578,7 +633,9 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
     empty: _Result = ([], [], [], None)
     header_r = _find_header_row(grid, options)
     if header_r is None:
-        problems.add("the table is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member")
+        problems.add(
+            "the table is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member"
+        )
         return empty
     headers = [_parse_header(c, cell) for c, cell in enumerate(grid.rows[header_r])]
     for h in headers:
@@ -634,7 +691,10 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
         if fixed_case is None:
             return empty
     if tc_h is not None and force_h is None:
-        problems.add(f"a T/C column ('{tc_h.text}') is only understood beside a single force column", grid.where(header_r))
+        problems.add(
+            f"a T/C column ('{tc_h.text}') is only understood beside a single force column",
+            grid.where(header_r),
+        )
         return empty
 
     if force_h is not None:
@@ -646,10 +706,17 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
                 continue
             value_columns.append(_ValueColumn(h.index, h.text, h.name, h.unit))
         if options.case is not None:
-            chosen = [v for v in value_columns if v.case is not None and v.case.casefold() == options.case.casefold()]
+            chosen = [
+                v
+                for v in value_columns
+                if v.case is not None and v.case.casefold() == options.case.casefold()
+            ]
             if not chosen:
                 cols = [v.case or "" for v in value_columns]
-                problems.add(f"no column for load case '{options.case}'; the table has {', '.join(repr(c) for c in cols) or 'none'}.{did_you_mean(options.case, cols)}", grid.where(header_r))
+                problems.add(
+                    f"no column for load case '{options.case}'; the table has {', '.join(repr(c) for c in cols) or 'none'}.{did_you_mean(options.case, cols)}",
+                    grid.where(header_r),
+                )
                 return empty
             value_columns = chosen
         if not value_columns:
@@ -671,7 +738,11 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
                 )
             seen_names[v.case.casefold()] = v
 
-    used = {member_h.index} | {v.index for v in value_columns} | {h.index for h in (case_h, tc_h, unit_h) if h is not None}
+    used = (
+        {member_h.index}
+        | {v.index for v in value_columns}
+        | {h.index for h in (case_h, tc_h, unit_h) if h is not None}
+    )
     start = header_r + 1
     start = _apply_units_row(grid, start, member_h.index, value_columns, problems)
     _check_unheaded_data(grid, start, headers, used, problems)
@@ -681,7 +752,9 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
         problems.add("the table has a header but no rows of claims", grid.where(header_r))
         return empty
 
-    reader = _RowReader(grid, model, problems, member_h, case_h, tc_h, unit_h, value_columns, options.case)
+    reader = _RowReader(
+        grid, model, problems, member_h, case_h, tc_h, unit_h, value_columns, options.case
+    )
     for r in range(start, len(grid.rows)):
         reader.read_row(r)
     if reader.case_filter is not None and not reader.long_cases:
@@ -697,7 +770,14 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
     return reader.values, reader.unmatched, columns, header_unit
 
 
-def _single_case(model: Model, case: str | None, grid: _Grid, header_r: int, force_h: _Header, problems: _Problems) -> str | None:
+def _single_case(
+    model: Model,
+    case: str | None,
+    grid: _Grid,
+    header_r: int,
+    force_h: _Header,
+    problems: _Problems,
+) -> str | None:
     names = model.load_names
     if case is None:
         if len(names) == 1:
@@ -731,7 +811,9 @@ def _unit_text(cell: Cell) -> str | None:
         return None
 
 
-def _apply_units_row(grid: _Grid, start: int, member_index: int, columns: list[_ValueColumn], problems: _Problems) -> int:
+def _apply_units_row(
+    grid: _Grid, start: int, member_index: int, columns: list[_ValueColumn], problems: _Problems
+) -> int:
     """Detect a row of units right under the header; record them on the columns. Returns the first data row."""
     if start >= len(grid.rows):
         return start
@@ -746,13 +828,18 @@ def _apply_units_row(grid: _Grid, start: int, member_index: int, columns: list[_
         if unit is None:
             continue
         if v.unit is not None and v.unit != unit:
-            problems.add(f"the header says {v.unit} but the units row says {unit}", grid.where(start, v.index, v.header))
+            problems.add(
+                f"the header says {v.unit} but the units row says {unit}",
+                grid.where(start, v.index, v.header),
+            )
             continue
         columns[k] = _ValueColumn(v.index, v.header, v.case, unit)
     return start + 1
 
 
-def _check_unheaded_data(grid: _Grid, start: int, headers: list[_Header], used: set[int], problems: _Problems) -> None:
+def _check_unheaded_data(
+    grid: _Grid, start: int, headers: list[_Header], used: set[int], problems: _Problems
+) -> None:
     headed = {h.index for h in headers if h.text}
     reported: set[int] = set()
     for r in range(start, len(grid.rows)):
@@ -760,15 +847,26 @@ def _check_unheaded_data(grid: _Grid, start: int, headers: list[_Header], used: 
             if c in headed or c in used or c in reported or _blank(cell):
                 continue
             reported.add(c)
-            problems.add(f"column {c + 1} has values but no header; give it a load case name or remove it", grid.where(r, c))
+            problems.add(
+                f"column {c + 1} has values but no header; give it a load case name or remove it",
+                grid.where(r, c),
+            )
 
 
 class _RowReader:
     """Reads data rows into claims, matching labels once each and catching duplicate claims."""
 
     def __init__(
-        self, grid: _Grid, model: Model, problems: _Problems, member_h: _Header, case_h: _Header | None,
-        tc_h: _Header | None, unit_h: _Header | None, columns: list[_ValueColumn], case_filter: str | None,
+        self,
+        grid: _Grid,
+        model: Model,
+        problems: _Problems,
+        member_h: _Header,
+        case_h: _Header | None,
+        tc_h: _Header | None,
+        unit_h: _Header | None,
+        columns: list[_ValueColumn],
+        case_filter: str | None,
     ) -> None:
         self.grid = grid
         self.problems = problems
@@ -813,12 +911,23 @@ class _RowReader:
         row_unit = self._unit_of_row(r)
         match = self.matcher.match(label)
         if match.kind == "unknown" and is_nan_text(label):
-            self.problems.add(f"the member label '{label}' is a missing value or spreadsheet error, not a label", where_label)
+            self.problems.add(
+                f"the member label '{label}' is a missing value or spreadsheet error, not a label",
+                where_label,
+            )
             return
         if match.kind in ("unknown", "ambiguous"):
             self.unmatched.append(UnmatchedLabel(label, where_label, match.kind, match.candidates))
         for v in present:
-            self._read_value(r, label, match, v, case_name if self.case_h is not None else (v.case or ""), tc, row_unit)
+            self._read_value(
+                r,
+                label,
+                match,
+                v,
+                case_name if self.case_h is not None else (v.case or ""),
+                tc,
+                row_unit,
+            )
 
     def _case_of_row(self, r: int) -> str | None:
         if self.case_h is None:
@@ -833,7 +942,10 @@ class _RowReader:
             self.problems.add("this row has a force but no load case", where)
             return None
         if is_nan_text(name):
-            self.problems.add(f"the load case '{name}' is a missing value or spreadsheet error, not a case name", where)
+            self.problems.add(
+                f"the load case '{name}' is a missing value or spreadsheet error, not a case name",
+                where,
+            )
             return None
         if name not in self._long_seen:
             self._long_seen.add(name)
@@ -853,7 +965,9 @@ class _RowReader:
             return "T"
         if text in ("c", "compression", "comp"):
             return "C"
-        self.problems.add(f"'{_text(cell)}' is not T or C", self.grid.where(r, self.tc_h.index, self.tc_h.text))
+        self.problems.add(
+            f"'{_text(cell)}' is not T or C", self.grid.where(r, self.tc_h.index, self.tc_h.text)
+        )
         return None
 
     def _unit_of_row(self, r: int) -> str | None:
@@ -865,10 +979,21 @@ class _RowReader:
         try:
             return lookup_unit(_text(cell).strip("()[] "), Dimension.FORCE).symbol
         except ValueError as exc:
-            self.problems.add(f"unit: {exc}", self.grid.where(r, self.unit_h.index, self.unit_h.text))
+            self.problems.add(
+                f"unit: {exc}", self.grid.where(r, self.unit_h.index, self.unit_h.text)
+            )
             return None
 
-    def _read_value(self, r: int, label: str, match: _Match, column: _ValueColumn, case_name: str, tc: str | None, row_unit: str | None) -> None:
+    def _read_value(
+        self,
+        r: int,
+        label: str,
+        match: _Match,
+        column: _ValueColumn,
+        case_name: str,
+        tc: str | None,
+        row_unit: str | None,
+    ) -> None:
         grid = self.grid
         cell = grid.cell(r, column.index)
         where = grid.where(r, column.index, column.header)
@@ -880,16 +1005,23 @@ class _RowReader:
         else:
             assert isinstance(cell, str)
             try:
-                value, sign_fixed, cell_unit = parse_force_cell(cell, decimal_comma=grid.decimal_comma)
+                value, sign_fixed, cell_unit = parse_force_cell(
+                    cell, decimal_comma=grid.decimal_comma
+                )
             except ValueError as exc:
                 self.problems.add(str(exc), where)
                 return
         if tc is not None:
             if sign_fixed and (value > 0) != (tc == "T") and value != 0:
-                self.problems.add(f"force '{_text(cell)}' says {'T' if value > 0 else 'C'} but the T/C column says {tc}", where)
+                self.problems.add(
+                    f"force '{_text(cell)}' says {'T' if value > 0 else 'C'} but the T/C column says {tc}",
+                    where,
+                )
                 return
             if not sign_fixed and value < 0 and tc == "T":
-                self.problems.add(f"force '{_text(cell)}' is negative but the T/C column says T (tension)", where)
+                self.problems.add(
+                    f"force '{_text(cell)}' is negative but the T/C column says T (tension)", where
+                )
                 return
             value, sign_fixed = (abs(value) if tc == "T" else -abs(value)), True
         unit = None
@@ -897,18 +1029,35 @@ class _RowReader:
             if source_unit is None:
                 continue
             if unit is not None and source_unit != unit:
-                self.problems.add(f"force '{_text(cell)}' is in {unit} but its column or row says {source_unit}", where)
+                self.problems.add(
+                    f"force '{_text(cell)}' is in {unit} but its column or row says {source_unit}",
+                    where,
+                )
                 return
             unit = source_unit
         if match.kind == "reaction" and sign_fixed:
-            self.problems.add(f"'{label}' is a reaction, which is neither tension nor compression; write a signed number", where)
+            self.problems.add(
+                f"'{label}' is a reaction, which is neither tension nor compression; write a signed number",
+                where,
+            )
             return
-        target = match.member if match.kind == "member" else (f"reaction {match.reaction}" if match.kind == "reaction" else f"label {label.casefold()}")
+        target = (
+            match.member
+            if match.kind == "member"
+            else (
+                f"reaction {match.reaction}"
+                if match.kind == "reaction"
+                else f"label {label.casefold()}"
+            )
+        )
         assert target is not None
         key = (target, case_name.casefold())
         if key in self._claimed:
             first_r, first_label = self._claimed[key]
-            what = {"member": f"member '{match.member}'", "reaction": f"reaction '{match.reaction_label}'"}.get(match.kind, f"label '{label}'")
+            what = {
+                "member": f"member '{match.member}'",
+                "reaction": f"reaction '{match.reaction_label}'",
+            }.get(match.kind, f"label '{label}'")
             case_text = f" for '{case_name}'" if case_name else ""
             self.problems.add(
                 f"duplicate claim: {what}{case_text} is given twice, in {grid.row_ref(first_r)} (as '{first_label}') and "
@@ -919,7 +1068,18 @@ class _RowReader:
         self._claimed[key] = (r, label)
         if match.kind in ("member", "reaction"):
             # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
-            self.values.append(ClaimedValue(label, match.member, match.reaction, case_name, float(value) + 0.0, sign_fixed, unit, where))
+            self.values.append(
+                ClaimedValue(
+                    label,
+                    match.member,
+                    match.reaction,
+                    case_name,
+                    float(value) + 0.0,
+                    sign_fixed,
+                    unit,
+                    where,
+                )
+            )
 
 
 # -- labels -------------------------------------------------------------------------------------
@@ -973,7 +1133,9 @@ class _LabelMatcher:
                 return _Match("member", member=next(iter(members)))
             return _Match("reaction", reaction=next(iter(reactions)))
         if total > 1:
-            return _Match("ambiguous", candidates=tuple(members) + tuple(f"{j}.{a}" for j, a in reactions))
+            return _Match(
+                "ambiguous", candidates=tuple(members) + tuple(f"{j}.{a}" for j, a in reactions)
+            )
         return _Match("unknown", candidates=self._suggest(folded))
 
     def _pair_readings(self, folded: str) -> list[str]:
@@ -1007,8 +1169,14 @@ class _LabelMatcher:
         for body, has_prefix in bodies:
             readings: list[tuple[str, str]] = []
             tail = _AXIS_TAIL.search(body)
-            if tail and tail.start() > 0 and (has_prefix or tail.group("sep") or tail.group("paren")):
-                readings.append((body[: tail.start()].strip(), tail.group("paren") or tail.group("bare")))
+            if (
+                tail
+                and tail.start() > 0
+                and (has_prefix or tail.group("sep") or tail.group("paren"))
+            ):
+                readings.append(
+                    (body[: tail.start()].strip(), tail.group("paren") or tail.group("bare"))
+                )
             head = _AXIS_HEAD.match(body)
             if head and has_prefix:
                 readings.append((head.group("joint").strip(), head.group("axis")))

@@ -33,6 +33,7 @@ GROUP_SPACES = " \u00a0\u2009\u202f"
 GROUP_APOSTROPHES = "'\u2019"
 
 # Texts that spreadsheets and data tools write for a missing or failed value (compared lower-case).
+# fmt: off
 NAN_TEXTS = frozenset(
     {
         "nan", "-nan", "+nan", "na", "n/a", "#n/a", "#na", "null", "none",
@@ -41,6 +42,7 @@ NAN_TEXTS = frozenset(
         "inf", "+inf", "-inf", "infinity", "+infinity", "-infinity", "#inf", "1.#inf", "-1.#inf",
     }
 )
+# fmt: on
 
 _TC_WORDS = {"tension": "T", "compression": "C"}
 _TC_TAIL = re.compile(
@@ -51,7 +53,9 @@ _UNIT_TAIL = re.compile(r"(?P<unit>[A-Za-z][A-Za-z\-]*)\s*$")
 _SCIENTIFIC = re.compile(r"^(\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+$")
 
 
-_NORMALIZE = str.maketrans({**dict.fromkeys(MINUS_SIGNS, "-"), **dict.fromkeys(GROUP_SPACES[1:], " ")})
+_NORMALIZE = str.maketrans(
+    {**dict.fromkeys(MINUS_SIGNS, "-"), **dict.fromkeys(GROUP_SPACES[1:], " ")}
+)
 _PLAIN_NUMBER = re.compile(r"[+-]?\d+(?:\.\d+)?")
 
 
@@ -76,7 +80,7 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
     """
     original = str(text).strip()
-    if _PLAIN_NUMBER.fullmatch(original):
+    if _PLAIN_NUMBER.fullmatch(original) and not (decimal_comma and "." in original):
         # The common case, read directly: a signed decimal with nothing else to interpret.
         return float(original), False, None
     s = normalize_text(str(text))
@@ -126,7 +130,9 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
         s = s[1:-1].strip()
     if s[:1] in "+-" and s:
         if accounting:
-            raise ValueError(f"{_expectation(original)}: parentheses already mean negative; drop the sign")
+            raise ValueError(
+                f"{_expectation(original)}: parentheses already mean negative; drop the sign"
+            )
         negative = s[0] == "-"
         s = s[1:].strip()
     magnitude = _parse_magnitude(s, decimal_comma=decimal_comma, original=original)

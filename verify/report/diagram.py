@@ -70,7 +70,8 @@ ZERO_RTOL = 1e-9  # |force| below this fraction of the largest is drawn as a zer
 
 BASE_WIDTH = 900.0  # px of the drawing area for a small truss
 MAX_WIDTH = 2400.0  # px; larger models are drawn smaller rather than wider
-MAX_HEIGHT = 1400.0
+MAX_HEIGHT = 900.0  # px of one view (2D)
+MAX_HEIGHT_3D = 520.0  # px of each of the two views of a space truss
 MARGIN = 100.0  # room for load arrows (at most 62 px) and their labels
 LABEL_MIN_PX = 42.0  # member labels only when the median member is at least this long on screen
 MAX_LABELLED_MEMBERS = 2000  # above this, no per-member labels or markers (DESIGN: large models)
@@ -103,10 +104,9 @@ def views_for(model: Model) -> list[_View]:
     names = "xyz"
     if model.dim == 2:
         return [_View("Elevation (x–y)", (0, 1))]
-    load = np.abs(model.load_matrix()).reshape(len(model.joints), 3, -1).sum(axis=(0, 2)) if len(model.joints) else np.zeros(3)
-    vertical = int(np.argmax(load)) if load.max() > 0 else 2
-    if load.max() > 0 and load[2] >= load[vertical]:
-        vertical = 2  # ties go to z, the usual vertical
+    # z is the usual vertical (common practice); a model loaded only along y is taken as y-up.
+    loads = np.abs(model.load_matrix()).reshape(len(model.joints), 3, -1).sum(axis=(0, 2)) if len(model.joints) else np.zeros(3)
+    vertical = 1 if loads[2] == 0 and loads[1] > 0 else 2
     horizontal = [a for a in range(3) if a != vertical]
     extent = np.ptp(model.xyz, axis=0) if len(model.joints) else np.zeros(3)
     across = max(horizontal, key=lambda a: (extent[a], -a))
@@ -170,7 +170,7 @@ def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping
     if len(model.members) <= MAX_LABELLED_MEMBERS and median * scale < LABEL_MIN_PX * 1.6:
         scale = LABEL_MIN_PX * 1.6 / median  # enlarge so labels fit, within the caps below
     scale = min(scale, MAX_WIDTH / float(span[0]) if span[0] > 1e-9 * span.max() else scale,
-                MAX_HEIGHT / float(span[1]) if span[1] > 1e-9 * span.max() else scale)
+                (MAX_HEIGHT if model.dim == 2 else MAX_HEIGHT_3D) / float(span[1]) if span[1] > 1e-9 * span.max() else scale)
     width = float(span[0]) * scale + 2 * MARGIN
     height = float(span[1]) * scale + 2 * MARGIN
     # Screen coordinates: x right, y down.
@@ -212,8 +212,8 @@ def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping
                      f'stroke-width="{width_px:g}"{dash_attr} stroke-linecap="round"><title>{escape(tooltip)}</title></line>')
     out.append('<g class="members">' + "".join(lines) + "</g>")
 
-    out.extend(_supports(model, view, sx, sy))
     arrows: dict[int, tuple[float, float]] = {}
+    out.extend(_supports(model, view, sx, sy, arrows))
     if loads is not None:
         out.extend(_loads(model, view, sx, sy, loads, arrows))
 
@@ -300,7 +300,7 @@ def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[
     return out
 
 
-def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray) -> list[str]:
+def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, occupied: dict[int, tuple[float, float]]) -> list[str]:
     """A triangle whose apex is the joint, its base on the side the support pushes from."""
     by_joint: dict[str, list[tuple[float, ...]]] = {}
     for reaction in model.reactions:
@@ -317,6 +317,7 @@ def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray) -> list
             ux, uy = 0.0, -1.0
         else:
             ux, uy = ux / length, uy / length
+        occupied[j] = (-ux, -uy)
         size = 16.0
         bx, by = sx[j] + (-ux) * size, sy[j] + (-uy) * size  # the base centre, away from the push
         px, py = -uy, ux
@@ -367,12 +368,12 @@ def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.
             tail_x, tail_y = sx[j] + ux * 6, sy[j] + uy * 6
             tx, ty = tail_x + ux * length, tail_y + uy * length
             label_x, label_y = tx + ux * 4, ty + uy * 4
-            arrows[j] = (ux, uy)
+            arrows[j] = _add(arrows.get(j), (ux, uy))
         else:
             tx, ty = sx[j] - ux * 5, sy[j] - uy * 5  # the tip stops short of the joint circle
             tail_x, tail_y = tx - ux * length, ty - uy * length
             label_x, label_y = tail_x - ux * 4, tail_y - uy * 4
-            arrows[j] = (-ux, -uy)
+            arrows[j] = _add(arrows.get(j), (-ux, -uy))
         head = 8.0
         hx, hy = tx - ux * head, ty - uy * head
         px, py = -uy * head * 0.45, ux * head * 0.45
@@ -387,6 +388,10 @@ def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.
         out.append(f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>')
     out.append("</g>")
     return out
+
+
+def _add(a: tuple[float, float] | None, b: tuple[float, float]) -> tuple[float, float]:
+    return b if a is None else (a[0] + b[0], a[1] + b[1])
 
 
 def _blocked(neighbours: list[list[int]], sx: np.ndarray, sy: np.ndarray, j: int, dx: float, dy: float) -> bool:

@@ -443,7 +443,7 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     out.append("</header>")
 
     out.append('<section id="diagram"><h2>Diagram</h2>')
-    out.extend(_html_diagrams(review))
+    out.extend(diagrams_html(review))
     out.append("</section>")
 
     out.append('<section id="findings"><h2>Findings</h2>')
@@ -484,7 +484,7 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     return "\n".join(out) + "\n"
 
 
-def _html_diagrams(review: Review) -> list[str]:
+def diagrams_html(review: Review) -> list[str]:
     model = review.analysis.model
     ref = review.analysis.reference
     columns = diagram_columns(review)
