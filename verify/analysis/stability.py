@@ -200,7 +200,7 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
             notes.append("Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or concurrent supports, collinear members, or a critical form)")
     ss_modes: list[SelfStressMode] = []
     if s:
-        basis = Vh[rank:, :].T
+        basis = _local_basis(Vh[rank:, :].T)
         labels = _labels(model)
         for k in range(min(s, 10)):
             v = basis[:, k]
@@ -222,6 +222,23 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
         slenderness=slender, ill_conditioned=bool(ill and m == 0),
         mechanism_modes=tuple(mech_modes), self_stress_modes=tuple(ss_modes), notes=tuple(notes),
     )
+
+
+def _local_basis(basis: np.ndarray) -> np.ndarray:
+    """Re-express a null-space basis so each state has one 'redundant' member of its own.
+
+    Column-pivoted QR of the basis transpose picks s well-separated pivot members; scaling the
+    basis so that it is the identity on those members gives states that each involve one
+    redundant member and only the members it needs, which is how an engineer reads self-stress
+    ("release member X and these members change"). Any basis of the same space is valid.
+    """
+    import scipy.linalg
+
+    s = basis.shape[1]
+    _, _, piv = scipy.linalg.qr(basis.T, pivoting=True, mode="economic")
+    local = basis @ np.linalg.inv(basis[piv[:s], :])
+    local[np.abs(local) < 1e-12] = 0.0
+    return local
 
 
 def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
