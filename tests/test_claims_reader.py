@@ -16,6 +16,8 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from verify.errors import InputError
 from verify.io import claims as claims_module
@@ -443,6 +445,7 @@ MALFORMED = [
     ("Member,dead,dead\nAB,1,2\n", ["claims.csv row 1, column 3", "two columns"], "one case in two columns"),
     ("Member,dead\nAB,1,5\n", ["claims.csv row 2, column 3", "no header"], "values beyond the header"),
     ("Member,Force,T/C\nAB,3,X\n", ["claims.csv row 2, column 'T/C'", "not T or C"], "a bad T/C cell"),
+    ("Member,dead\nRA.y,1\nA.y,2\n", ["claims.csv row 3, column 'dead'", "reaction 'A.y'", "row 2 (as 'RA.y')"], "duplicate reaction"),
 ]
 # fmt: on
 
@@ -641,3 +644,87 @@ def test_empty_workbook_sheet(tmp_path: Path) -> None:
     """A workbook whose only sheet is empty is an error naming the sheet."""
     path = _workbook(tmp_path / "claims.xlsx", {"Forces": []})
     assert "sheet 'Forces' is empty" in _errors(path)
+
+
+def test_workbook_table_problems_name_the_sheet(tmp_path: Path) -> None:
+    """Header-level problems in a workbook name the sheet and row."""
+    path = _workbook(tmp_path / "claims.xlsx", {"Forces": [["Member", "Remarks"], ["AB", "ok"]]})
+    assert "claims.xlsx sheet 'Forces' row 1: no usable columns" in _errors(path)
+
+
+def test_problems_are_capped_and_counted(tmp_path: Path) -> None:
+    """A wholly broken table lists the first MAX_PROBLEMS problems and counts the rest."""
+    cap = claims_module.MAX_PROBLEMS
+    rows = "".join(f"AB,x{k}\n" if k == 0 else f"A-B,x{k}\n" for k in range(cap + 30))
+    with pytest.raises(InputError) as info:
+        read_claims(_csv(tmp_path, "Member,dead\n" + rows), MODEL)
+    assert len(info.value.problems) == cap + 1
+    assert "and 30 more problems" in str(info.value.problems[-1])
+
+
+# -- property: joint-pair labels never resolve to the wrong member -------------------------------
+_JOINT_NAMES = ["A", "B", "AB", "1", "11", "2", "12", "C1", "C"]
+_SEPARATORS = ["", "-", " ", "/", "\u2013", "_"]
+
+
+@st.composite
+def _pair_truss(draw: st.DrawFn) -> tuple[Model, list[tuple[str, str, str]]]:
+    """A random model over joint names chosen to collide when run together ('1'+'12' vs '11'+'2')."""
+    names = draw(st.lists(st.sampled_from(_JOINT_NAMES), min_size=3, max_size=7, unique=True))
+    # Joints on a parabola: distinct points, no member passes through another joint's position.
+    joints = {n: [float(k), float(k * k)] for k, n in enumerate(names)}
+    pairs = [(names[k], names[k + 1]) for k in range(len(names) - 1)]
+    extra = [(a, b) for i, a in enumerate(names) for b in names[i + 2 :]]
+    pairs += draw(st.lists(st.sampled_from(extra), unique=True, max_size=6)) if extra else []
+    members = {f"m{k}": [a, b] for k, (a, b) in enumerate(pairs)}
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": joints,
+            "members": members,
+            "supports": {names[0]: ["x", "y"], names[-1]: ["y"]},
+            "loads": {"dead": {names[1]: [0.0, -1.0]}},
+        },
+        source="random.toml",
+    )
+    labels = []
+    for k, (a, b) in enumerate(pairs):
+        sep = draw(st.sampled_from(_SEPARATORS))
+        first, second = draw(st.sampled_from([(a, b), (b, a)]))
+        text = f"{first}{sep}{second}"
+        labels.append((f"m{k}", draw(st.sampled_from([text, text.lower()])), f"c{k}"))
+    return model, labels
+
+
+@settings(
+    max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(_pair_truss())
+def test_joint_pair_labels_resolve_to_their_member_or_are_ambiguous(
+    tmp_path: Path, case: tuple[Model, list[tuple[str, str, str]]]
+) -> None:
+    """Every member written as a joint pair (any order, separator, case) is matched to that member,
+    or reported ambiguous with that member among the candidates -- never matched to another one."""
+    model, labels = case
+    text = "Member,Case,Force\n" + "".join(f"{label},{column},1\n" for _, label, column in labels)
+    table = read_claims(_csv(tmp_path, text, name="pairs.csv"), model)
+    matched = {v.column: v.member for v in table.values}
+    ambiguous = {u.where: u for u in table.unmatched}
+    for row, (member, label, column) in enumerate(labels, start=2):
+        if column in matched:
+            assert matched[column] == member, label
+        else:
+            found = ambiguous[f"row {row}, column 'Member'"]
+            assert found.reason == "ambiguous" and member in found.candidates, label
+
+
+def test_unquoted_decimal_comma_in_comma_csv_gets_a_hint(tmp_path: Path) -> None:
+    """'AB,12,4' splits into two fields; the message says why and how to fix it."""
+    message = _errors(_csv(tmp_path, "Member,dead\nAB,12,4\n"))
+    assert "claims.csv row 2, column 3" in message and "decimal comma" in message
+
+
+def test_force_column_beside_case_named_columns_is_refused(tmp_path: Path) -> None:
+    """A force column and a column named like a load case: two layouts at once, so not guessed."""
+    message = _errors(_csv(tmp_path, "Member,Force,snow\nAB,1,2\n"), case="dead")
+    assert "claims.csv row 1, column 3" in message and "column 'snow'" in message

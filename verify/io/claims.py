@@ -188,6 +188,7 @@ class _Grid:
     row_numbers: list[int]  # the spreadsheet / file row number of each entry, 1-based
     sheet: str | None  # None for CSV
     decimal_comma: bool
+    delimiter: str | None = None  # CSV only
 
     def cell(self, r: int, c: int) -> Cell:
         row = self.rows[r]
@@ -363,7 +364,7 @@ def _read_csv(data: bytes, problems: _Problems) -> _Grid | None:
             f"the CSV cannot be split into fields ({exc})", f"row {len(rows) + 1 + offset}"
         )
         return None
-    return _Grid(rows, numbers, None, decimal_comma=delimiter == ";")
+    return _Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
 
 
 # -- Excel --------------------------------------------------------------------------------------
@@ -699,6 +700,17 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
 
     if force_h is not None:
         value_columns = [_ValueColumn(force_h.index, force_h.text, fixed_case, force_h.unit)]
+        if case_h is None:
+            for h in headers:
+                if h.index not in taken and h.name.casefold() in load_names:
+                    problems.add(
+                        f"column '{h.text}' is named like a load case, beside the force column "
+                        f"'{force_h.text}'; use one layout (one column per load case, or a force "
+                        "column with a case column) or name the force column",
+                        grid.where(header_r, h.index),
+                    )
+            if problems:
+                return empty
     else:
         value_columns = []
         for h in headers:
@@ -842,13 +854,19 @@ def _check_unheaded_data(
 ) -> None:
     headed = {h.index for h in headers if h.text}
     reported: set[int] = set()
+    hint = (
+        " (a decimal comma in a comma-separated file splits a number in two: quote such values "
+        "or separate the fields with ';')"
+        if grid.delimiter == ","
+        else ""
+    )
     for r in range(start, len(grid.rows)):
         for c, cell in enumerate(grid.rows[r]):
             if c in headed or c in used or c in reported or _blank(cell):
                 continue
             reported.add(c)
             problems.add(
-                f"column {c + 1} has values but no header; give it a load case name or remove it",
+                f"column {c + 1} has values but no header; give it a load case name or remove it{hint}",
                 grid.where(r, c),
             )
 
