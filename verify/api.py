@@ -34,8 +34,14 @@ def _forces_frame(analysis: Analysis) -> pd.DataFrame:
     model = analysis.model
     ref = analysis.reference
     if ref is None:
-        return pd.DataFrame(index=pd.Index(model.member_ids, name="member"), columns=model.load_names, dtype=float)
-    return pd.DataFrame(ref.member_forces, index=pd.Index(model.member_ids, name="member"), columns=list(model.load_names))
+        return pd.DataFrame(
+            index=pd.Index(model.member_ids, name="member"), columns=model.load_names, dtype=float
+        )
+    return pd.DataFrame(
+        ref.member_forces,
+        index=pd.Index(model.member_ids, name="member"),
+        columns=list(model.load_names),
+    )
 
 
 def _reactions_frame(analysis: Analysis) -> pd.DataFrame:
@@ -72,8 +78,14 @@ class SolveResult:
         import pandas as pd
 
         model = self.model
-        table = pd.DataFrame({"start": [m.start for m in model.members], "end": [m.end for m in model.members],
-                              "length": model.lengths.astype(float)}, index=pd.Index(model.member_ids, name="member"))
+        table = pd.DataFrame(
+            {
+                "start": [m.start for m in model.members],
+                "end": [m.end for m in model.members],
+                "length": model.lengths.astype(float),
+            },
+            index=pd.Index(model.member_ids, name="member"),
+        )
         return table.join(self.forces)
 
     @property
@@ -87,14 +99,20 @@ class SolveResult:
         ref = self.analysis.reference
         name = self.model.load_names[0] if self.model.load_names else None
         forces = ref.member_forces[:, 0] if ref is not None and name is not None else None
-        head = (f"<h3>{escape(self.model.title or self.model.source)}</h3>"
-                f"<p><strong>{escape(s.classification.value)}</strong>: {s.joints} joints, {s.members} members, "
-                f"{s.reactions} reaction components; Maxwell b + r − {s.dim}j = {s.maxwell}; rank {s.rank}, "
-                f"mechanisms {s.mechanisms}, self-stress {s.self_stress}. Forces in {escape(self.model.units.force.symbol)}, "
-                "tension positive.</p>")
+        head = (
+            f"<h3>{escape(self.model.title or self.model.source)}</h3>"
+            f"<p><strong>{escape(s.classification.value)}</strong>: {s.joints} joints, {s.members} members, "
+            f"{s.reactions} reaction components; Maxwell b + r − {s.dim}j = {s.maxwell}; rank {s.rank}, "
+            f"mechanisms {s.mechanisms}, self-stress {s.self_stress}. Forces in {escape(self.model.units.force.symbol)}, "
+            "tension positive.</p>"
+        )
         table = _frame_html(self.members)
-        drawing = render_diagram(self.model, forces=forces, load_name=name,
-                                 caption=f"Load column '{name}' (the first); band width shows tension or compression.")
+        drawing = render_diagram(
+            self.model,
+            forces=forces,
+            load_name=name,
+            caption=f"Load column '{name}' (the first); band width shows tension or compression.",
+        )
         return head + table + drawing
 
 
@@ -135,15 +153,41 @@ class ReviewResult:
     def findings(self) -> pd.DataFrame:
         import pandas as pd
 
-        records = [{"severity": f.severity.value, "kind": f.kind, "title": f.title, "case": f.case,
-                    "members": ", ".join(f.members), "detail": f.detail} for f in self.review.findings]
-        return pd.DataFrame.from_records(records, columns=["severity", "kind", "title", "case", "members", "detail"])
+        records = [
+            {
+                "severity": f.severity.value,
+                "kind": f.kind,
+                "title": f.title,
+                "case": f.case,
+                "members": ", ".join(f.members),
+                "detail": f.detail,
+            }
+            for f in self.review.findings
+        ]
+        return pd.DataFrame.from_records(
+            records, columns=["severity", "kind", "title", "case", "members", "detail"]
+        )
 
     def _rows(self, kind: str) -> pd.DataFrame:
         import pandas as pd
 
-        columns = ["id", "case", "claimed", "joints", "sections", "global", "elastic", "difference", "status", "written"]
-        records = [{k: v for k, v in row.as_dict().items() if k in columns} for row in self.review.rows if row.kind == kind]
+        columns = [
+            "id",
+            "case",
+            "claimed",
+            "joints",
+            "sections",
+            "global",
+            "elastic",
+            "difference",
+            "status",
+            "written",
+        ]
+        records = [
+            {k: v for k, v in row.as_dict().items() if k in columns}
+            for row in self.review.rows
+            if row.kind == kind
+        ]
         return pd.DataFrame.from_records(records, columns=columns).rename(columns={"id": kind})
 
     def report(self, fmt: str = "html", *, generated: str | None = None) -> str:
@@ -156,18 +200,29 @@ class ReviewResult:
         from verify.report.document import diagrams_html, finding_sentence
         from verify.report.review_text import verdict_line
 
-        parts = [f"<h3>{escape(self.model.title or self.model.source)}</h3>",
-                 f"<p><strong>{escape(verdict_line(self.review))}</strong></p>"]
+        parts = [
+            f"<h3>{escape(self.model.title or self.model.source)}</h3>",
+            f"<p><strong>{escape(verdict_line(self.review))}</strong></p>",
+        ]
         if self.review.findings:
-            parts.append("<ol>" + "".join(f"<li><strong>{escape(f.title)}</strong>{escape(' (' + f.case + ')' if f.case else '')}: "
-                                          f"{escape(finding_sentence(f))}</li>" for f in self.review.findings) + "</ol>")
+            parts.append(
+                "<ol>"
+                + "".join(
+                    f"<li><strong>{escape(f.title)}</strong>{escape(' (' + f.case + ')' if f.case else '')}: "
+                    f"{escape(finding_sentence(f))}</li>"
+                    for f in self.review.findings
+                )
+                + "</ol>"
+            )
         else:
             parts.append("<p>No findings.</p>")
         members = self.members
         problems = members[~members["status"].isin(["agrees", "missing-claim"])]
         shown = members if len(members) <= NOTEBOOK_ROWS else problems.head(NOTEBOOK_ROWS)
         if len(shown) < len(members):
-            parts.append(f"<p>Member table: {len(shown)} of {len(members)} rows (the problems; <code>.members</code> has all).</p>")
+            parts.append(
+                f"<p>Member table: {len(shown)} of {len(members)} rows (the problems; <code>.members</code> has all).</p>"
+            )
         parts.append(_frame_html(shown))
         parts.extend(diagrams_html(self.review))
         return "\n".join(parts)
@@ -188,10 +243,21 @@ def solve(case_path: str | Path, *, assume_equal_EA: float | None = None) -> Sol
     return SolveResult(model, analyse(model, assume_equal_EA=assume_equal_EA))
 
 
-def review(case_path: str | Path, claims_path: str | Path, *, sign: str = "auto", unit: str | None = None,
-           sheet: str | None = None, rtol: float = RTOL, atol_fraction: float = ATOL_FRACTION,
-           member_column: str | None = None, case_column: str | None = None, force_column: str | None = None,
-           case: str | None = None, assume_equal_EA: float | None = None) -> ReviewResult:
+def review(
+    case_path: str | Path,
+    claims_path: str | Path,
+    *,
+    sign: str = "auto",
+    unit: str | None = None,
+    sheet: str | None = None,
+    rtol: float = RTOL,
+    atol_fraction: float = ATOL_FRACTION,
+    member_column: str | None = None,
+    case_column: str | None = None,
+    force_column: str | None = None,
+    case: str | None = None,
+    assume_equal_EA: float | None = None,
+) -> ReviewResult:
     """Check the claims file against the case, as `truss-verify check` does.
 
     `sign` is tension-positive, compression-positive or auto; `unit` None (or "auto") reads it
@@ -200,11 +266,23 @@ def review(case_path: str | Path, claims_path: str | Path, *, sign: str = "auto"
     from verify.io.claims import read_claims
 
     model = read_case(case_path)
-    claims = read_claims(claims_path, model, sheet=sheet, member_column=member_column, case_column=case_column,
-                         force_column=force_column, case=case)
+    claims = read_claims(
+        claims_path,
+        model,
+        sheet=sheet,
+        member_column=member_column,
+        case_column=case_column,
+        force_column=force_column,
+        case=case,
+    )
     analysis = analyse(model, assume_equal_EA=assume_equal_EA)
-    result = compare_claims(analysis, claims, sign=SignMode(sign), unit=None if unit in (None, "auto") else unit,
-                            tolerance=Tolerance(rtol=rtol, atol_fraction=atol_fraction))
+    result = compare_claims(
+        analysis,
+        claims,
+        sign=SignMode(sign),
+        unit=None if unit in (None, "auto") else unit,
+        tolerance=Tolerance(rtol=rtol, atol_fraction=atol_fraction),
+    )
     return ReviewResult(result)
 
 

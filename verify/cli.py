@@ -121,7 +121,8 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
 def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: str, sheet: str | None,
                report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
                member_column: str | None, case_column: str | None, force_column: str | None,
-               load_name: str | None, assume_equal_ea: float | None, all_rows: bool) -> int:
+               load_name: str | None, assume_equal_ea: float | None, all_rows: bool,
+               displacements: str | None = None) -> int:
     from verify.compare.diagnose import SignMode, compare_claims
     from verify.compare.tolerances import Tolerance
     from verify.io.claims import read_claims
@@ -146,10 +147,24 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
     except InputError as error:
         click.echo(error.render(), err=True)
         return EXIT_BAD_INPUT
-    analysis = analyse(model, assume_equal_EA=assume_equal_ea)
+    displacement_claims = None
+    if displacements:
+        from verify.io.displacements import read_displacements
+
+        try:
+            displacement_claims = read_displacements(displacements, model)
+        except InputError as error:
+            click.echo(error.render(), err=True)
+            return EXIT_BAD_INPUT
+    analysis = analyse(model, assume_equal_EA=assume_equal_ea, displacements=displacement_claims is not None)
+    tolerance = Tolerance(rtol=rtol, atol_fraction=atol_fraction)
     review = compare_claims(analysis, claims, sign=SignMode(sign), unit=None if unit == "auto" else unit,
-                            tolerance=Tolerance(rtol=rtol, atol_fraction=atol_fraction))
-    inputs = [case, claims_path]
+                            tolerance=tolerance)
+    if displacement_claims is not None:
+        from verify.compare.displacements import attach_displacements, compare_displacements
+
+        review = attach_displacements(review, compare_displacements(analysis, displacement_claims, tolerance=tolerance))
+    inputs = [case, claims_path] + ([displacements] if displacements else [])
     try:
         if csv_path:
             from verify.report.table_csv import render_csv
@@ -199,6 +214,9 @@ _CHECK_OPTIONS = [
     click.option("--assume-equal-ea", type=float, default=None, metavar="EA",
                  help="Indeterminate truss without stiffness data: assume this EA for every member (said in every output)."),
     click.option("--all-rows", is_flag=True, help="List every row in the terminal table, including members without a claim."),
+    click.option("--displacements", default=None, type=click.Path(dir_okay=False), metavar="FILE",
+                 help="Claimed joint displacements (CSV: joint, direction, case, value (mm)); checked by the direct "
+                      "stiffness method and confirmed by the unit-load method."),
 ]
 
 

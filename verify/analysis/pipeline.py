@@ -29,6 +29,7 @@ class Analysis:
     elastic: object | None = None  # verify.analysis.stiffness.ElasticSolution when available
     notes: tuple[str, ...] = field(default=())
     route_disagreement: float = 0.0  # largest |difference| between routes / largest force
+    assumed_EA: float | None = None  # set when the reviewer asked to assume equal EA
 
     @property
     def reference(self) -> ForceResult | None:
@@ -39,8 +40,13 @@ class Analysis:
         return getattr(elastic, "forces", None)
 
 
-def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | None = None) -> Analysis:
-    """Stability first; then every route the classification allows."""
+def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | None = None,
+            displacements: bool = False) -> Analysis:
+    """Stability first; then every route the classification allows.
+
+    `displacements` asks for the direct stiffness solve of a determinate truss too (joint
+    displacements need stiffness even where statics gives the forces).
+    """
     stability = solve_stability(model)
     notes: list[str] = []
     if stability.classification is Classification.UNSTABLE:
@@ -50,14 +56,14 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
         if model.has_stiffness or assume_equal_EA is not None:
             from verify.analysis.stiffness import solve_stiffness
 
-            elastic = solve_stiffness(model, assume_equal_EA=assume_equal_EA)
+            elastic = _stiffness_or_note(model, assume_equal_EA, notes)
         else:
             missing = model.members_without_stiffness()
             notes.append(
                 f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} member(s) lack EA: "
                 "only the equilibrium of claimed forces can be checked"
             )
-        return Analysis(model, stability, elastic=elastic, notes=tuple(notes))
+        return Analysis(model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA)
     joints = solve_joints(model)
     global_ = solve_global(model)
     section_solution = None
@@ -69,8 +75,21 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
         else:
             section_solution = solve_sections(model)
     disagreement = route_disagreement(global_, joints.forces, getattr(section_solution, "forces", None))
-    return Analysis(model, stability, joints=joints, global_=global_, sections=section_solution,
-                    notes=tuple(notes), route_disagreement=disagreement)
+    elastic = None
+    if displacements and (model.has_stiffness or assume_equal_EA is not None):
+        elastic = _stiffness_or_note(model, assume_equal_EA, notes)
+    return Analysis(model, stability, joints=joints, global_=global_, sections=section_solution, elastic=elastic,
+                    notes=tuple(notes), route_disagreement=disagreement, assumed_EA=assume_equal_EA)
+
+
+def _stiffness_or_note(model: Model, assume_equal_EA: float | None, notes: list[str]) -> object | None:
+    from verify.analysis.stiffness import solve_stiffness
+
+    try:
+        return solve_stiffness(model, assume_equal_EA=assume_equal_EA)
+    except ValueError as exc:  # missing EA or a singular stiffness matrix: said, not raised
+        notes.append(f"direct stiffness solve not possible: {exc}")
+        return None
 
 
 def force_scale(reference: ForceResult) -> float:

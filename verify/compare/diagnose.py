@@ -102,6 +102,7 @@ class Review:
     checked_members: int
     imbalances: tuple[JointImbalance, ...] = ()
     notes: tuple[str, ...] = field(default=())
+    displacements: object | None = None  # verify.compare.displacements.DisplacementCheck
 
     @property
     def exit_code(self) -> int:
@@ -143,6 +144,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     mapping = map_columns(columns, load_names)
     ref = analysis.reference
     stab = analysis.stability
+    indeterminate = analysis.global_ is None and analysis.elastic is not None
 
     # Structure-level findings.
     if stab.classification is Classification.UNSTABLE:
@@ -359,7 +361,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     for item in diffs:
         by_case.setdefault(rows[item[0]].case, []).append(item)
     for name, items in by_case.items():
-        if len(items) > 2000 or analysis.elastic is not None:
+        if len(items) > 2000 or indeterminate:
             continue  # a table this wrong is not a pair of swapped labels
         for a in range(len(items)):
             for b in range(a + 1, len(items)):
@@ -376,7 +378,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                     findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
                                             f"({xa:.4g}) and {vb.member} ({xb:.4g}) match each other's recomputed forces "
                                             f"({cb:.4g} and {ca:.4g} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
-    if analysis.elastic is not None:
+    if indeterminate:
         # Indeterminate: differences are judged by equilibrium, not member by member.
         findings.extend(_explain_indeterminate(analysis, rows, diffs, claimed_matrix, reaction_claims, load_names, tol,
                                                case_unit.symbol))

@@ -34,6 +34,7 @@ KINDS: dict[str, Kind] = {k.name: k for k in (
     Kind("ill-conditioned", "Near-unstable geometry", 11),
     Kind("indeterminate", "Statically indeterminate", 12),
     Kind("missing-claim", "No claim for some members", 13),
+    Kind("displacement-mismatch", "Claimed joint displacement differs", 2),
 )}
 
 

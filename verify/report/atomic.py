@@ -28,6 +28,10 @@ def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str
     data = content.encode("utf-8") if isinstance(content, str) else content
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     try:
+        # mkstemp creates 0600; a report is an ordinary file (0666 less the umask).
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
             handle.flush()

@@ -35,16 +35,29 @@ class StatusStyle:
     rank: int  # when several claims of one member differ, the lower rank is drawn
 
 
-STATUS_STYLES: dict[str, StatusStyle] = {s.key: s for s in (
-    StatusStyle("discrepancy", "#D55E00", "!", "claimed value differs (wrong value, force claimed for a zero-force member, "
-                "or a distribution that is not the elastic one)", 0),
-    StatusStyle("swapped", "#0072B2", "X", "claim belongs to another member (labels swapped)", 1),
-    StatusStyle("sign", "#CC79A7", "S", "sign or T/C reversed", 2),
-    StatusStyle("unit", "#E69F00", "U", "off by a unit factor (e.g. N written for kN)", 3),
-    StatusStyle("not-reached", "#000000", "N", "not reached: no recomputed force to compare with", 4),
-    StatusStyle("missing", "#8C8C8C", "?", "no claim given for this member (not checked)", 5),
-    StatusStyle("agrees", "#009E73", "", "agrees within tolerance", 6),
-)}
+STATUS_STYLES: dict[str, StatusStyle] = {
+    s.key: s
+    for s in (
+        StatusStyle(
+            "discrepancy",
+            "#D55E00",
+            "!",
+            "claimed value differs (wrong value, force claimed for a zero-force member, "
+            "or a distribution that is not the elastic one)",
+            0,
+        ),
+        StatusStyle(
+            "swapped", "#0072B2", "X", "claim belongs to another member (labels swapped)", 1
+        ),
+        StatusStyle("sign", "#CC79A7", "S", "sign or T/C reversed", 2),
+        StatusStyle("unit", "#E69F00", "U", "off by a unit factor (e.g. N written for kN)", 3),
+        StatusStyle(
+            "not-reached", "#000000", "N", "not reached: no recomputed force to compare with", 4
+        ),
+        StatusStyle("missing", "#8C8C8C", "?", "no claim given for this member (not checked)", 5),
+        StatusStyle("agrees", "#009E73", "", "agrees within tolerance", 6),
+    )
+}
 NEUTRAL = StatusStyle("neutral", "#3A3A3A", "", "member (no claims compared)", 7)
 
 STATUS_CATEGORY: dict[str, str] = {
@@ -105,21 +118,37 @@ def views_for(model: Model) -> list[_View]:
     if model.dim == 2:
         return [_View("Elevation (x–y)", (0, 1))]
     # z is the usual vertical (common practice); a model loaded only along y is taken as y-up.
-    loads = np.abs(model.load_matrix()).reshape(len(model.joints), 3, -1).sum(axis=(0, 2)) if len(model.joints) else np.zeros(3)
+    loads = (
+        np.abs(model.load_matrix()).reshape(len(model.joints), 3, -1).sum(axis=(0, 2))
+        if len(model.joints)
+        else np.zeros(3)
+    )
     vertical = 1 if loads[2] == 0 and loads[1] > 0 else 2
     horizontal = [a for a in range(3) if a != vertical]
     extent = np.ptp(model.xyz, axis=0) if len(model.joints) else np.zeros(3)
     across = max(horizontal, key=lambda a: (extent[a], -a))
     other = [a for a in horizontal if a != across][0]
     return [
-        _View(f"Plan (looking down {names[vertical]}: {names[across]} across, {names[other]} up the page)", (across, other)),
-        _View(f"Elevation (looking along {names[other]}: {names[across]} across, {names[vertical]} up)", (across, vertical)),
+        _View(
+            f"Plan (looking down {names[vertical]}: {names[across]} across, {names[other]} up the page)",
+            (across, other),
+        ),
+        _View(
+            f"Elevation (looking along {names[other]}: {names[across]} across, {names[vertical]} up)",
+            (across, vertical),
+        ),
     ]
 
 
-def render_diagram(model: Model, *, forces: Sequence[float] | np.ndarray | None = None,
-                   statuses: Mapping[str, str] | None = None, load_name: str | None = None,
-                   caption: str = "", legend: bool = True) -> str:
+def render_diagram(
+    model: Model,
+    *,
+    forces: Sequence[float] | np.ndarray | None = None,
+    statuses: Mapping[str, str] | None = None,
+    load_name: str | None = None,
+    caption: str = "",
+    legend: bool = True,
+) -> str:
     """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain words.
 
     `forces` are member forces (tension positive) in model order for the load column
@@ -134,11 +163,17 @@ def render_diagram(model: Model, *, forces: Sequence[float] | np.ndarray | None 
     svgs = [_svg(model, view, force_arr, statuses, loads) for view in views]
     parts = ['<figure class="truss">']
     for view, svg in zip(views, svgs, strict=True):
-        parts.append(f'<div class="view"><div class="view-name">{escape(view.name)}</div>{svg}</div>')
+        parts.append(
+            f'<div class="view"><div class="view-name">{escape(view.name)}</div>{svg}</div>'
+        )
     if caption:
         parts.append(f"<figcaption>{escape(caption)}</figcaption>")
     if legend:
-        parts.append(legend_html(with_status=statuses is not None, used=used_categories(model, statuses), model=model))
+        parts.append(
+            legend_html(
+                with_status=statuses is not None, used=used_categories(model, statuses), model=model
+            )
+        )
     parts.append("</figure>")
     return "\n".join(parts)
 
@@ -153,36 +188,60 @@ def _style_for(member_id: str, statuses: Mapping[str, str] | None) -> StatusStyl
     if statuses is None:
         return NEUTRAL
     status = statuses.get(member_id)
-    return STATUS_STYLES[status_category(status)] if status is not None else STATUS_STYLES["missing"]
+    return (
+        STATUS_STYLES[status_category(status)] if status is not None else STATUS_STYLES["missing"]
+    )
 
 
-def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping[str, str] | None,
-         loads: np.ndarray | None) -> str:
+def _svg(
+    model: Model,
+    view: _View,
+    forces: np.ndarray | None,
+    statuses: Mapping[str, str] | None,
+    loads: np.ndarray | None,
+) -> str:
     ax, ay = view.axes
     pts = model.xyz[:, [ax, ay]] if len(model.joints) else np.zeros((0, 2))
     lo = pts.min(axis=0) if len(pts) else np.zeros(2)
     hi = pts.max(axis=0) if len(pts) else np.ones(2)
     span = np.maximum(hi - lo, 1e-12)
-    projected_len = np.linalg.norm(pts[model.ends_index[:, 1]] - pts[model.ends_index[:, 0]], axis=1) if len(model.members) else np.ones(1)
+    projected_len = (
+        np.linalg.norm(pts[model.ends_index[:, 1]] - pts[model.ends_index[:, 0]], axis=1)
+        if len(model.members)
+        else np.ones(1)
+    )
     positive = projected_len[projected_len > 1e-9 * float(span.max())]
     median = float(np.median(positive)) if positive.size else float(span.max())
     scale = BASE_WIDTH / float(span.max())
     if len(model.members) <= MAX_LABELLED_MEMBERS and median * scale < LABEL_MIN_PX * 1.6:
         scale = LABEL_MIN_PX * 1.6 / median  # enlarge so labels fit, within the caps below
-    scale = min(scale, MAX_WIDTH / float(span[0]) if span[0] > 1e-9 * span.max() else scale,
-                (MAX_HEIGHT if model.dim == 2 else MAX_HEIGHT_3D) / float(span[1]) if span[1] > 1e-9 * span.max() else scale)
+    scale = min(
+        scale,
+        MAX_WIDTH / float(span[0]) if span[0] > 1e-9 * span.max() else scale,
+        (MAX_HEIGHT if model.dim == 2 else MAX_HEIGHT_3D) / float(span[1])
+        if span[1] > 1e-9 * span.max()
+        else scale,
+    )
     width = float(span[0]) * scale + 2 * MARGIN
     height = float(span[1]) * scale + 2 * MARGIN
     # Screen coordinates: x right, y down.
     sx = (pts[:, 0] - lo[0]) * scale + MARGIN
     sy = (hi[1] - pts[:, 1]) * scale + MARGIN
     labels = len(model.members) <= MAX_LABELLED_MEMBERS and median * scale >= LABEL_MIN_PX
-    joint_labels = len(model.joints) <= MAX_LABELLED_MEMBERS and median * scale >= LABEL_MIN_PX * 0.6
-    largest = float(np.nanmax(np.abs(forces))) if forces is not None and forces.size and np.isfinite(forces).any() else 0.0
+    joint_labels = (
+        len(model.joints) <= MAX_LABELLED_MEMBERS and median * scale >= LABEL_MIN_PX * 0.6
+    )
+    largest = (
+        float(np.nanmax(np.abs(forces)))
+        if forces is not None and forces.size and np.isfinite(forces).any()
+        else 0.0
+    )
     zero = ZERO_RTOL * (largest or 1.0)
 
-    out = [f'<svg xmlns="http://www.w3.org/2000/svg" role="img" width="{_n(width)}" height="{_n(height)}" '
-           f'viewBox="0 0 {_n(width)} {_n(height)}" style="max-width:100%;height:auto;{FONT}">']
+    out = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" role="img" width="{_n(width)}" height="{_n(height)}" '
+        f'viewBox="0 0 {_n(width)} {_n(height)}" style="max-width:100%;height:auto;{FONT}">'
+    ]
     out.append(f"<title>{escape(model.title or 'truss')} — {escape(view.name)}</title>")
     out.append(f'<rect x="0" y="0" width="{_n(width)}" height="{_n(height)}" fill="#ffffff"/>')
 
@@ -207,9 +266,13 @@ def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping
         else:
             width_px, dash, kind = ZERO_WIDTH, ZERO_DASH, "zero force"
         dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
-        tooltip = f"{member.id}: {kind}" + (f"; {statuses[member.id]}" if statuses and member.id in statuses else "")
-        lines.append(f'<line x1="{_n(sx[a])}" y1="{_n(sy[a])}" x2="{_n(sx[b])}" y2="{_n(sy[b])}" stroke="{style.colour}" '
-                     f'stroke-width="{width_px:g}"{dash_attr} stroke-linecap="round"><title>{escape(tooltip)}</title></line>')
+        tooltip = f"{member.id}: {kind}" + (
+            f"; {statuses[member.id]}" if statuses and member.id in statuses else ""
+        )
+        lines.append(
+            f'<line x1="{_n(sx[a])}" y1="{_n(sy[a])}" x2="{_n(sx[b])}" y2="{_n(sy[b])}" stroke="{style.colour}" '
+            f'stroke-width="{width_px:g}"{dash_attr} stroke-linecap="round"><title>{escape(tooltip)}</title></line>'
+        )
     out.append('<g class="members">' + "".join(lines) + "</g>")
 
     arrows: dict[int, tuple[float, float]] = {}
@@ -217,16 +280,26 @@ def _svg(model: Model, view: _View, forces: np.ndarray | None, statuses: Mapping
     if loads is not None:
         out.extend(_loads(model, view, sx, sy, loads, arrows))
 
-    joints = [f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
-              for j in range(len(model.joints))]
+    joints = [
+        f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
+        for j in range(len(model.joints))
+    ]
     out.append('<g class="joints">' + "".join(joints) + "</g>")
 
     if len(model.members) <= MAX_LABELLED_MEMBERS and statuses is not None:
         out.append('<g class="markers">' + "".join(_markers(model, sx, sy, statuses)) + "</g>")
     if labels:
-        out.append('<g class="member-labels" font-size="12" fill="#1a1a1a">' + "".join(_member_labels(model, sx, sy, statuses)) + "</g>")
+        out.append(
+            '<g class="member-labels" font-size="12" fill="#1a1a1a">'
+            + "".join(_member_labels(model, sx, sy, statuses))
+            + "</g>"
+        )
     if joint_labels:
-        out.append('<g class="joint-labels" font-size="13" font-weight="bold" fill="#1a1a1a">' + "".join(_joint_labels(model, sx, sy, arrows)) + "</g>")
+        out.append(
+            '<g class="joint-labels" font-size="13" font-weight="bold" fill="#1a1a1a">'
+            + "".join(_joint_labels(model, sx, sy, arrows))
+            + "</g>"
+        )
     out.append("</svg>")
     return "".join(out)
 
@@ -235,7 +308,9 @@ def _halo() -> str:
     return 'paint-order="stroke" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round"'
 
 
-def _midpoint_frame(model: Model, sx: np.ndarray, sy: np.ndarray, i: int) -> tuple[float, float, float, float]:
+def _midpoint_frame(
+    model: Model, sx: np.ndarray, sy: np.ndarray, i: int
+) -> tuple[float, float, float, float]:
     """Midpoint and the unit normal (screen) of member i; normal points up (or right)."""
     a, b = model.ends_index[i]
     mx, my = (sx[a] + sx[b]) / 2, (sy[a] + sy[b]) / 2
@@ -247,27 +322,35 @@ def _midpoint_frame(model: Model, sx: np.ndarray, sy: np.ndarray, i: int) -> tup
     return float(mx), float(my), nx, ny
 
 
-def _markers(model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str]) -> list[str]:
+def _markers(
+    model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str]
+) -> list[str]:
     out = []
     for i, member in enumerate(model.members):
         style = _style_for(member.id, statuses)
         if not style.marker:
             continue
         mx, my, _, _ = _midpoint_frame(model, sx, sy, i)
-        out.append(f'<circle cx="{_n(mx)}" cy="{_n(my)}" r="8.5" fill="#ffffff" stroke="{style.colour}" stroke-width="2"/>'
-                   f'<text x="{_n(mx)}" y="{_n(my + 4.2)}" text-anchor="middle" font-size="12" font-weight="bold" '
-                   f'fill="#1a1a1a">{escape(style.marker)}</text>')
+        out.append(
+            f'<circle cx="{_n(mx)}" cy="{_n(my)}" r="8.5" fill="#ffffff" stroke="{style.colour}" stroke-width="2"/>'
+            f'<text x="{_n(mx)}" y="{_n(my + 4.2)}" text-anchor="middle" font-size="12" font-weight="bold" '
+            f'fill="#1a1a1a">{escape(style.marker)}</text>'
+        )
     return out
 
 
-def _member_labels(model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str] | None) -> list[str]:
+def _member_labels(
+    model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str] | None
+) -> list[str]:
     out = []
     for i, member in enumerate(model.members):
         mx, my, nx, ny = _midpoint_frame(model, sx, sy, i)
         offset = 15.0
         x, y = mx + nx * offset, my + ny * offset + 4
         anchor = "middle" if abs(nx) < 0.5 else ("start" if nx > 0 else "end")
-        out.append(f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(member.id))}</text>')
+        out.append(
+            f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(member.id))}</text>'
+        )
     return out
 
 
@@ -275,7 +358,9 @@ def _short(label: str, limit: int = 14) -> str:
     return label if len(label) <= limit else label[: limit - 1] + "…"
 
 
-def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[int, tuple[float, float]]) -> list[str]:
+def _joint_labels(
+    model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[int, tuple[float, float]]
+) -> list[str]:
     """Each joint label sits opposite the mean direction of its members and load arrow, clear of the lines."""
     n = len(model.joints)
     dirx = np.zeros(n)
@@ -296,11 +381,19 @@ def _joint_labels(model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[
         ux, uy = (-dirx[j] / length, -diry[j] / length) if length > 1e-6 else (-0.7071, -0.7071)
         x, y = sx[j] + ux * 14, sy[j] + uy * 14 + 4.5
         anchor = "middle" if abs(ux) < 0.4 else ("start" if ux > 0 else "end")
-        out.append(f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(joint.id))}</text>')
+        out.append(
+            f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(joint.id))}</text>'
+        )
     return out
 
 
-def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, occupied: dict[int, tuple[float, float]]) -> list[str]:
+def _supports(
+    model: Model,
+    view: _View,
+    sx: np.ndarray,
+    sy: np.ndarray,
+    occupied: dict[int, tuple[float, float]],
+) -> list[str]:
     """A triangle whose apex is the joint, its base on the side the support pushes from."""
     by_joint: dict[str, list[tuple[float, ...]]] = {}
     for reaction in model.reactions:
@@ -324,7 +417,9 @@ def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, occupie
         half = size * 0.7
         p1 = (bx + px * half, by + py * half)
         p2 = (bx - px * half, by - py * half)
-        out.append(f'<polygon points="{_n(sx[j])},{_n(sy[j])} {_n(p1[0])},{_n(p1[1])} {_n(p2[0])},{_n(p2[1])}"/>')
+        out.append(
+            f'<polygon points="{_n(sx[j])},{_n(sy[j])} {_n(p1[0])},{_n(p1[1])} {_n(p2[0])},{_n(p2[1])}"/>'
+        )
         full = len(directions) >= model.dim
         gx, gy = bx - ux * (0.5 if full else 7.5), by - uy * (0.5 if full else 7.5)
         if not full:
@@ -333,13 +428,21 @@ def _supports(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, occupie
                 out.append(f'<circle cx="{_n(cx)}" cy="{_n(cy)}" r="3.2"/>')
         g1 = (gx + px * half * 1.4, gy + py * half * 1.4)
         g2 = (gx - px * half * 1.4, gy - py * half * 1.4)
-        out.append(f'<line x1="{_n(g1[0])}" y1="{_n(g1[1])}" x2="{_n(g2[0])}" y2="{_n(g2[1])}" stroke-width="2.5"/>')
+        out.append(
+            f'<line x1="{_n(g1[0])}" y1="{_n(g1[1])}" x2="{_n(g2[0])}" y2="{_n(g2[1])}" stroke-width="2.5"/>'
+        )
     out.append("</g>")
     return out
 
 
-def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.ndarray,
-           arrows: dict[int, tuple[float, float]]) -> list[str]:
+def _loads(
+    model: Model,
+    view: _View,
+    sx: np.ndarray,
+    sy: np.ndarray,
+    loads: np.ndarray,
+    arrows: dict[int, tuple[float, float]],
+) -> list[str]:
     """Load arrows; `arrows` receives, per joint, the screen direction the arrow's body takes."""
     d = model.dim
     ax, ay = view.axes
@@ -363,7 +466,9 @@ def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.
             continue  # the load points along the line of sight of this view
         ux, uy = vx / shown, vy / shown
         length = 22.0 + 34.0 * float(magnitude[j]) / largest
-        if _blocked(neighbours, sx, sy, j, -ux, -uy) and not _blocked(neighbours, sx, sy, j, ux, uy):
+        if _blocked(neighbours, sx, sy, j, -ux, -uy) and not _blocked(
+            neighbours, sx, sy, j, ux, uy
+        ):
             # A member lies where the arrow would come in: draw it leaving the joint instead.
             tail_x, tail_y = sx[j] + ux * 6, sy[j] + uy * 6
             tx, ty = tail_x + ux * length, tail_y + uy * length
@@ -377,15 +482,19 @@ def _loads(model: Model, view: _View, sx: np.ndarray, sy: np.ndarray, loads: np.
         head = 8.0
         hx, hy = tx - ux * head, ty - uy * head
         px, py = -uy * head * 0.45, ux * head * 0.45
-        out.append(f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"/>'
-                   f'<polygon points="{_n(tx)},{_n(ty)} {_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>')
+        out.append(
+            f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"/>'
+            f'<polygon points="{_n(tx)},{_n(ty)} {_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>'
+        )
         ex, ey = label_x - sx[j], label_y - sy[j]
         el = math.hypot(ex, ey) or 1.0
         ex, ey = ex / el, ey / el
         text = f"{fmt(float(magnitude[j]), 3)} {unit}"
         lx, ly = label_x, label_y + (4 if abs(ey) < 0.5 else (12 if ey > 0 else -3))
         anchor = "middle" if abs(ex) < 0.5 else ("start" if ex > 0 else "end")
-        out.append(f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>')
+        out.append(
+            f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>'
+        )
     out.append("</g>")
     return out
 
@@ -394,7 +503,9 @@ def _add(a: tuple[float, float] | None, b: tuple[float, float]) -> tuple[float, 
     return b if a is None else (a[0] + b[0], a[1] + b[1])
 
 
-def _blocked(neighbours: list[list[int]], sx: np.ndarray, sy: np.ndarray, j: int, dx: float, dy: float) -> bool:
+def _blocked(
+    neighbours: list[list[int]], sx: np.ndarray, sy: np.ndarray, j: int, dx: float, dy: float
+) -> bool:
     """Does a member leave joint j within 25 degrees of the screen direction (dx, dy)?"""
     for other in neighbours[j]:
         mx, my = sx[other] - sx[j], sy[other] - sy[j]
@@ -408,32 +519,61 @@ def _swatch(colour: str, width: float, dash: str = "", marker: str = "") -> str:
     dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
     mark = ""
     if marker:
-        mark = (f'<circle cx="28" cy="9" r="7.5" fill="#ffffff" stroke="{colour}" stroke-width="2"/>'
-                f'<text x="28" y="13" text-anchor="middle" font-size="11" font-weight="bold" fill="#1a1a1a">{escape(marker)}</text>')
-    return (f'<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" style="{FONT}" aria-hidden="true">'
-            f'<line x1="3" y1="9" x2="53" y2="9" stroke="{colour}" stroke-width="{width:g}"{dash_attr} stroke-linecap="round"/>{mark}</svg>')
+        mark = (
+            f'<circle cx="28" cy="9" r="7.5" fill="#ffffff" stroke="{colour}" stroke-width="2"/>'
+            f'<text x="28" y="13" text-anchor="middle" font-size="11" font-weight="bold" fill="#1a1a1a">{escape(marker)}</text>'
+        )
+    return (
+        f'<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" style="{FONT}" aria-hidden="true">'
+        f'<line x1="3" y1="9" x2="53" y2="9" stroke="{colour}" stroke-width="{width:g}"{dash_attr} stroke-linecap="round"/>{mark}</svg>'
+    )
 
 
-def legend_html(*, with_status: bool, used: set[str] | None = None, model: Model | None = None) -> str:
+def legend_html(
+    *, with_status: bool, used: set[str] | None = None, model: Model | None = None
+) -> str:
     """The legend in plain words; statuses that do not occur are still listed, marked as such."""
     rows = [
         ("force", _swatch("#3A3A3A", COMPRESSION_WIDTH), "compression (wide band)"),
         ("force", _swatch("#3A3A3A", TENSION_WIDTH), "tension (narrow line)"),
         ("force", _swatch("#3A3A3A", ZERO_WIDTH, ZERO_DASH), "zero force (dotted hairline)"),
-        ("force", _swatch("#3A3A3A", TENSION_WIDTH, UNKNOWN_DASH), "no recomputed force (long dashes)"),
+        (
+            "force",
+            _swatch("#3A3A3A", TENSION_WIDTH, UNKNOWN_DASH),
+            "no recomputed force (long dashes)",
+        ),
     ]
     if with_status:
         for style in sorted(STATUS_STYLES.values(), key=lambda s: s.rank):
             note = "" if used is None or style.key in used else " (none here)"
             letter = f"letter {style.marker}: " if style.marker else "no letter: "
-            rows.append(("status", _swatch(style.colour, 4.0, "", style.marker), f"{letter}{style.words}{note}"))
+            rows.append(
+                (
+                    "status",
+                    _swatch(style.colour, 4.0, "", style.marker),
+                    f"{letter}{style.words}{note}",
+                )
+            )
     unit = escape(model.units.force.symbol) if model is not None else "force units"
-    rows.append(("other", '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
-                 '<polygon points="28,2 20,16 36,16" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/></svg>',
-                 "support: the triangle's point is the joint; two small wheels under it mark a roller (one reaction direction)"))
-    rows.append(("other", '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
-                 '<line x1="4" y1="9" x2="44" y2="9" stroke="#5A3E99" stroke-width="2"/>'
-                 '<polygon points="52,9 44,5.4 44,12.6" fill="#5A3E99"/></svg>',
-                 f"applied joint load of the load column drawn, with its size in {unit}"))
-    cells = "".join(f'<tr class="legend-{kind}"><td>{swatch}</td><td>{escape(text)}</td></tr>' for kind, swatch, text in rows)
+    rows.append(
+        (
+            "other",
+            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
+            '<polygon points="28,2 20,16 36,16" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/></svg>',
+            "support: the triangle's point is the joint; two small wheels under it mark a roller (one reaction direction)",
+        )
+    )
+    rows.append(
+        (
+            "other",
+            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
+            '<line x1="4" y1="9" x2="44" y2="9" stroke="#5A3E99" stroke-width="2"/>'
+            '<polygon points="52,9 44,5.4 44,12.6" fill="#5A3E99"/></svg>',
+            f"applied joint load of the load column drawn, with its size in {unit}",
+        )
+    )
+    cells = "".join(
+        f'<tr class="legend-{kind}"><td>{swatch}</td><td>{escape(text)}</td></tr>'
+        for kind, swatch, text in rows
+    )
     return f'<table class="legend"><caption>Legend</caption>{cells}</table>'

@@ -46,7 +46,17 @@ MAX_FINDING_MEMBERS = 25  # member names quoted per finding
 EXACT_MAX_MEMBERS = 400  # exact fractions only for models up to this size (cost and length)
 TABLE_KEYS = ("joints", "members", "supports", "loads")  # case-file keys that may name CSV tables
 
-MEMBER_COLUMNS = ("member", "claimed", "joints", "sections", "global", "T/C", "difference", "status", "claim as written")
+MEMBER_COLUMNS = (
+    "member",
+    "claimed",
+    "joints",
+    "sections",
+    "global",
+    "T/C",
+    "difference",
+    "status",
+    "claim as written",
+)
 
 
 @dataclass(frozen=True)
@@ -68,13 +78,27 @@ def sha256_file(path: str | Path) -> str | None:
 def input_files(review: Review) -> list[InputFile]:
     """The case file, every CSV table it names, and the claims file, each with its SHA-256."""
     model = review.analysis.model
-    out = [InputFile("case file", model.source, sha256_file(model.source),
-                     "" if sha256_file(model.source) else "not readable now (model built in memory or file moved)")]
+    out = [
+        InputFile(
+            "case file",
+            model.source,
+            sha256_file(model.source),
+            ""
+            if sha256_file(model.source)
+            else "not readable now (model built in memory or file moved)",
+        )
+    ]
     for role, path in _case_tables(model.source):
         digest = sha256_file(path)
         out.append(InputFile(role, str(path), digest, "" if digest else "not readable now"))
     claims = review.claims
-    out.append(InputFile("claims" + (f" (sheet '{claims.sheet}')" if claims.sheet else ""), claims.source, claims.sha256 or None))
+    out.append(
+        InputFile(
+            "claims" + (f" (sheet '{claims.sheet}')" if claims.sheet else ""),
+            claims.source,
+            claims.sha256 or None,
+        )
+    )
     return out
 
 
@@ -100,7 +124,9 @@ def _case_tables(source: str) -> list[tuple[str, Path]]:
 def _verdict_text(review: Review) -> tuple[str, str]:
     from verify.report.review_text import verdict_line
 
-    word = {"agrees": "AGREES", "discrepancies": "DISCREPANCIES", "cannot-verify": "CANNOT VERIFY"}[review.verdict.value]
+    word = {"agrees": "AGREES", "discrepancies": "DISCREPANCIES", "cannot-verify": "CANNOT VERIFY"}[
+        review.verdict.value
+    ]
     line = verdict_line(review)
     return word, line.split(" — ", 1)[1] if " — " in line else line
 
@@ -113,45 +139,96 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
     d = s.dim
     facts = [
         ("Generated", f"{generated} by truss-verify {__version__}"),
-        ("Units (case)", f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces tension positive"),
+        (
+            "Units (case)",
+            f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces tension positive",
+        ),
         ("Claims read in", f"{c.unit} ({_unit_source(c.unit_source)})"),
-        ("Sign convention of the claims", f"{c.sign} ({'inferred from the data' if c.inferred else 'as stated'}); {c.support}"),
-        ("Tolerance", f"agrees when |claimed − recomputed| ≤ the largest of {t.rtol:.2%} of the larger value, "
-                      f"{t.atol_fraction:g} × the largest recomputed force of the load column, and half a unit in the last "
-                      "decimal the claim was written with"),
-        ("Structure", f"{s.classification.value}, {d}D: {s.joints} joints, {s.members} members, {s.reactions} reaction components"),
-        ("Maxwell's rule", f"b + r − {d}j = {s.members} + {s.reactions} − {d}×{s.joints} = {s.maxwell}"),
-        ("Rank of the equilibrium matrix", f"{s.rank} of {d * s.joints} joint equations ({s.method}); "
-                                           f"mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
-                                           f"states of self-stress s = {s.self_stress}"),
+        (
+            "Sign convention of the claims",
+            f"{c.sign} ({'inferred from the data' if c.inferred else 'as stated'}); {c.support}",
+        ),
+        (
+            "Tolerance",
+            f"agrees when |claimed − recomputed| ≤ the largest of {t.rtol:.2%} of the larger value, "
+            f"{t.atol_fraction:g} × the largest recomputed force of the load column, and half a unit in the last "
+            "decimal the claim was written with",
+        ),
+        (
+            "Structure",
+            f"{s.classification.value}, {d}D: {s.joints} joints, {s.members} members, {s.reactions} reaction components",
+        ),
+        (
+            "Maxwell's rule",
+            f"b + r − {d}j = {s.members} + {s.reactions} − {d}×{s.joints} = {s.maxwell}",
+        ),
+        (
+            "Rank of the equilibrium matrix",
+            f"{s.rank} of {d * s.joints} joint equations ({s.method}); "
+            f"mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
+            f"states of self-stress s = {s.self_stress}",
+        ),
     ]
     if s.sigma_ratio is not None:
-        facts.append(("Conditioning", f"σmin/σmax = {s.sigma_ratio:.3g}; scaled by slenderness² ({s.slenderness:.3g}²) = "
-                                      f"{s.scaled_ratio:.3g}" + (" — near-mechanism" if s.ill_conditioned else " — sound")))
+        facts.append(
+            (
+                "Conditioning",
+                f"σmin/σmax = {s.sigma_ratio:.3g}; scaled by slenderness² ({s.slenderness:.3g}²) = "
+                f"{s.scaled_ratio:.3g}"
+                + (" — near-mechanism" if s.ill_conditioned else " — sound"),
+            )
+        )
     elif s.scaled_ratio is not None:
-        facts.append(("Conditioning", f"LU pivot ratio min/max = {s.scaled_ratio:.3g}" + (" — near-mechanism" if s.ill_conditioned else "")))
+        facts.append(
+            (
+                "Conditioning",
+                f"LU pivot ratio min/max = {s.scaled_ratio:.3g}"
+                + (" — near-mechanism" if s.ill_conditioned else ""),
+            )
+        )
     routes = _routes(review)
     if routes:
         facts.append(("Routes", routes))
     checked = ", ".join(f"'{n}'" for n in review.checked_cases) or "none"
-    facts.append(("Checked", f"{review.checked_members} of {len(model.members)} members; load columns {checked} "
-                             f"of {len(model.load_names)} ({', '.join(model.load_names)})"))
+    facts.append(
+        (
+            "Checked",
+            f"{review.checked_members} of {len(model.members)} members; load columns {checked} "
+            f"of {len(model.load_names)} ({', '.join(model.load_names)})",
+        )
+    )
     return facts
 
 
 def _unit_source(source: str) -> str:
-    return {"option": "stated with --unit", "table": "stated in the table", "assumed": "not stated: the case's unit is assumed",
-            "inferred": "inferred from the data"}.get(source, source)
+    return {
+        "option": "stated with --unit",
+        "table": "stated in the table",
+        "assumed": "not stated: the case's unit is assumed",
+        "inferred": "inferred from the data",
+    }.get(source, source)
 
 
 def _routes(review: Review) -> str:
     analysis = review.analysis
     if analysis.global_ is not None:
-        used = ["method of joints", "global solve"] + (["section cuts"] if analysis.sections is not None else [])
-        return (f"{', '.join(used)} agree to {analysis.route_disagreement:.1e} of the largest force"
-                + (" — beyond round-off, check the geometry" if analysis.route_disagreement > 1e-6 else ""))
+        used = ["method of joints", "global solve"] + (
+            ["section cuts"] if analysis.sections is not None else []
+        )
+        return (
+            f"{', '.join(used)} agree to {analysis.route_disagreement:.1e} of the largest force"
+            + (
+                " — beyond round-off, check the geometry"
+                if analysis.route_disagreement > 1e-6
+                else ""
+            )
+        )
     if analysis.elastic is not None:
-        assumed = " (equal EA ASSUMED for every member)" if getattr(analysis.elastic, "equal_EA_assumed", False) else ""
+        assumed = (
+            " (equal EA ASSUMED for every member)"
+            if getattr(analysis.elastic, "equal_EA_assumed", False)
+            else ""
+        )
         return f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss"
     return ""
 
@@ -171,7 +248,11 @@ def finding_sentence(f: Finding) -> str:
         detail += "."
     if f.members and f.kind != "missing-claim":
         shown = ", ".join(f.members[:MAX_FINDING_MEMBERS])
-        more = f" and {len(f.members) - MAX_FINDING_MEMBERS} more" if len(f.members) > MAX_FINDING_MEMBERS else ""
+        more = (
+            f" and {len(f.members) - MAX_FINDING_MEMBERS} more"
+            if len(f.members) > MAX_FINDING_MEMBERS
+            else ""
+        )
         detail += f" Members: {shown}{more}."
     return detail
 
@@ -208,19 +289,51 @@ def member_tables(review: Review) -> list[Table]:
     for k, name in enumerate(model.load_names):
         rows = by_case.get(name, [])
         label = _load_label(review, name)
-        members = sorted((r for r in rows if r.kind == "member"), key=lambda r: model.member_index[r.id])
+        members = sorted(
+            (r for r in rows if r.kind == "member"), key=lambda r: model.member_index[r.id]
+        )
         reactions = [r for r in rows if r.kind == "reaction"]
         if members or reactions:
             shown, note = _cap(members)
             cells = tuple(_member_cells(r) for r in shown)
-            tables.append(Table(f"{label}: members", f"Forces in {unit}, tension positive; T/C of the recomputed force.",
-                                header, cells, tuple(r.status for r in shown), note))
+            tables.append(
+                Table(
+                    f"{label}: members",
+                    f"Forces in {unit}, tension positive; T/C of the recomputed force.",
+                    header,
+                    cells,
+                    tuple(r.status for r in shown),
+                    note,
+                )
+            )
             if reactions:
-                rcells = tuple((r.id, fmt(r.claimed), fmt(r.global_ if r.global_ is not None else r.elastic), fmt(r.difference),
-                                r.status, r.written) for r in reactions)
-                tables.append(Table(f"{label}: reactions", f"Reaction components in {unit}, along the global axes.",
-                                    ("reaction", "claimed", "recomputed", "difference", "status", "claim as written"),
-                                    rcells, tuple(r.status for r in reactions)))
+                rcells = tuple(
+                    (
+                        r.id,
+                        fmt(r.claimed),
+                        fmt(r.global_ if r.global_ is not None else r.elastic),
+                        fmt(r.difference),
+                        r.status,
+                        r.written,
+                    )
+                    for r in reactions
+                )
+                tables.append(
+                    Table(
+                        f"{label}: reactions",
+                        f"Reaction components in {unit}, along the global axes.",
+                        (
+                            "reaction",
+                            "claimed",
+                            "recomputed",
+                            "difference",
+                            "status",
+                            "claim as written",
+                        ),
+                        rcells,
+                        tuple(r.status for r in reactions),
+                    )
+                )
             continue
         ref = review.analysis.reference
         if ref is None:
@@ -228,10 +341,21 @@ def member_tables(review: Review) -> list[Table]:
         cells_list = []
         for i, member in enumerate(model.members[:MAX_TABLE_ROWS]):
             cells_list.append((member.id,) + _route_cells(review, i, k))
-        note = (f"{len(model.members) - MAX_TABLE_ROWS} further members are not listed; `truss-verify solve --json` gives them all."
-                if len(model.members) > MAX_TABLE_ROWS else "")
-        tables.append(Table(f"{label}: recomputed only", f"No claims in this load column. Forces in {unit}, tension positive.",
-                            ("member", "joints", "sections", recomputed_name, "T/C"), tuple(cells_list), ("",) * len(cells_list), note))
+        note = (
+            f"{len(model.members) - MAX_TABLE_ROWS} further members are not listed; `truss-verify solve --json` gives them all."
+            if len(model.members) > MAX_TABLE_ROWS
+            else ""
+        )
+        tables.append(
+            Table(
+                f"{label}: recomputed only",
+                f"No claims in this load column. Forces in {unit}, tension positive.",
+                ("member", "joints", "sections", recomputed_name, "T/C"),
+                tuple(cells_list),
+                ("",) * len(cells_list),
+                note,
+            )
+        )
     return tables
 
 
@@ -243,8 +367,10 @@ def _cap(rows: list[Row]) -> tuple[list[Row], str]:
     shown = (problems + rest)[:MAX_TABLE_ROWS]
     order = {id(r): n for n, r in enumerate(rows)}
     shown.sort(key=lambda r: order[id(r)])
-    return shown, (f"{len(rows) - len(shown)} rows that agree or have no claim are not listed (large model); "
-                   "`truss-verify check --csv` writes the full table.")
+    return shown, (
+        f"{len(rows) - len(shown)} rows that agree or have no claim are not listed (large model); "
+        "`truss-verify check --csv` writes the full table."
+    )
 
 
 def _route_value(route: object | None, i: int, k: int) -> float | None:
@@ -262,8 +388,17 @@ def _route_cells(review: Review, i: int, k: int) -> tuple[str, ...]:
     reference = a.reference
     value = _route_value(reference, i, k)
     zero = _zero_tol(review, k)
-    sections_text = fmt(_clean_zero(sections, zero)) if sections is not None else ("not reached" if a.sections is not None else "—")
-    return (fmt(_clean_zero(joints, zero)), sections_text, fmt(_clean_zero(value, zero)), tc(value, zero_tol=zero))
+    sections_text = (
+        fmt(_clean_zero(sections, zero))
+        if sections is not None
+        else ("not reached" if a.sections is not None else "—")
+    )
+    return (
+        fmt(_clean_zero(joints, zero)),
+        sections_text,
+        fmt(_clean_zero(value, zero)),
+        tc(value, zero_tol=zero),
+    )
 
 
 def _zero_tol(review: Review, k: int) -> float:
@@ -281,12 +416,24 @@ def _clean_zero(value: float | None, zero: float) -> float | None:
 
 def _member_cells(row: Row) -> tuple[str, ...]:
     recomputed = row.recomputed
-    sections = fmt(row.sections) if row.sections is not None else ("not reached" if row.joints is not None else "—")
+    sections = (
+        fmt(row.sections)
+        if row.sections is not None
+        else ("not reached" if row.joints is not None else "—")
+    )
     scale = max(abs(v) for v in (row.joints, row.global_, row.elastic, 0.0) if v is not None)
     zero = 1e-9 * (scale or 1.0)
-    return (row.id, fmt(row.claimed), fmt(_clean_zero(row.joints, zero)), sections,
-            fmt(_clean_zero(row.global_ if row.global_ is not None else row.elastic, zero)),
-            tc(recomputed, zero_tol=zero) if recomputed is not None else "—", fmt(row.difference), row.status, row.written)
+    return (
+        row.id,
+        fmt(row.claimed),
+        fmt(_clean_zero(row.joints, zero)),
+        sections,
+        fmt(_clean_zero(row.global_ if row.global_ is not None else row.elastic, zero)),
+        tc(recomputed, zero_tol=zero) if recomputed is not None else "—",
+        fmt(row.difference),
+        row.status,
+        row.written,
+    )
 
 
 def diagram_columns(review: Review) -> list[str]:
@@ -295,7 +442,11 @@ def diagram_columns(review: Review) -> list[str]:
     checked = [n for n in model.load_names if n in review.checked_cases]
     if not checked:
         return model.load_names[:1]
-    bad = {r.case for r in review.rows if r.kind == "member" and status_category(r.status) not in ("agrees", "missing")}
+    bad = {
+        r.case
+        for r in review.rows
+        if r.kind == "member" and status_category(r.status) not in ("agrees", "missing")
+    }
     limit = 1 if len(model.members) > LARGE_MODEL_MEMBERS else MAX_DIAGRAMS
     ordered = [n for n in checked if n in bad] + [n for n in checked if n not in bad]
     keep = set(ordered[:limit])
@@ -329,15 +480,21 @@ def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
     columns = appendix_columns(review)
     sections = []
     for name in columns:
-        blocks = appendix_blocks(review.analysis, name, max_steps=MAX_APPENDIX_STEPS_LARGE if large else None,
-                                 max_cuts=MAX_APPENDIX_CUTS_LARGE if large else None,
-                                 exact=len(model.members) <= EXACT_MAX_MEMBERS)
+        blocks = appendix_blocks(
+            review.analysis,
+            name,
+            max_steps=MAX_APPENDIX_STEPS_LARGE if large else None,
+            max_cuts=MAX_APPENDIX_CUTS_LARGE if large else None,
+            exact=len(model.members) <= EXACT_MAX_MEMBERS,
+        )
         sections.append((_load_label(review, name), blocks))
     checked = [n for n in model.load_names if n in review.checked_cases]
     note = ""
     if large:
-        note = (f"Large model ({len(model.members)} members): the hand calc is shown for the first load column only and at most "
-                f"{MAX_APPENDIX_STEPS_LARGE} joint steps; `truss-verify solve --show all` prints the rest.")
+        note = (
+            f"Large model ({len(model.members)} members): the hand calc is shown for the first load column only and at most "
+            f"{MAX_APPENDIX_STEPS_LARGE} joint steps; `truss-verify solve --show all` prints the rest."
+        )
     elif len(checked) > len(columns):
         note = f"The hand calc is shown for the first {len(columns)} checked load columns; `truss-verify solve --show all` prints every one."
     return sections, note
@@ -379,15 +536,41 @@ def _status_cell(status: str) -> str:
         return "<td></td>"
     style = STATUS_STYLES[status_category(status)]
     marker = "✓" if style.key == "agrees" else style.marker
-    return (f'<td class="st"><span class="mark" style="border-color:{style.colour}">{_e(marker)}</span>'
-            f"{_e(status)}</td>")
+    return (
+        f'<td class="st"><span class="mark" style="border-color:{style.colour}">{_e(marker)}</span>'
+        f"{_e(status)}</td>"
+    )
 
 
-def _html_table(header: tuple[str, ...], rows: tuple[tuple[str, ...], ...], statuses: tuple[str, ...] | None = None,
-                css: str = "") -> str:
-    numeric = {h for h in header if h in ("claimed", "joints", "sections", "global", "elastic", "difference", "recomputed",
-                                         "decimal", "Rx", "Ry", "Rz")}
-    out = [f'<table class="{css}"><thead><tr>' + "".join(f"<th>{_e(h)}</th>" for h in header) + "</tr></thead><tbody>"]
+def _html_table(
+    header: tuple[str, ...],
+    rows: tuple[tuple[str, ...], ...],
+    statuses: tuple[str, ...] | None = None,
+    css: str = "",
+) -> str:
+    numeric = {
+        h
+        for h in header
+        if h
+        in (
+            "claimed",
+            "joints",
+            "sections",
+            "global",
+            "elastic",
+            "difference",
+            "recomputed",
+            "decimal",
+            "Rx",
+            "Ry",
+            "Rz",
+        )
+    }
+    out = [
+        f'<table class="{css}"><thead><tr>'
+        + "".join(f"<th>{_e(h)}</th>" for h in header)
+        + "</tr></thead><tbody>"
+    ]
     for n, row in enumerate(rows):
         cells = []
         for h, cell in zip(header, row, strict=True):
@@ -422,21 +605,39 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     date = _generated(generated)
     word, summary = _verdict_text(review)
     title = model.title or Path(model.source).name or "truss"
-    out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
-           f'<meta http-equiv="Content-Security-Policy" content="{CSP}">',
-           '<meta name="viewport" content="width=device-width, initial-scale=1">',
-           f"<title>Truss review: {_e(title)}</title>", f"<style>{CSS}</style>", "</head>", "<body>"]
+    out = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        f'<meta http-equiv="Content-Security-Policy" content="{CSP}">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>Truss review: {_e(title)}</title>",
+        f"<style>{CSS}</style>",
+        "</head>",
+        "<body>",
+    ]
     out.append('<header id="summary">')
     out.append(f"<h1>Truss review: {_e(title)}</h1>")
     out.append(f'<div class="verdict {_e(review.verdict.value)}">Verdict: {_e(word)}</div>')
     out.append(f"<p>{_e(summary)}</p>")
-    out.append('<table class="facts"><tbody>' + "".join(f"<tr><th>{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in header_facts(review, date))
-               + "</tbody></table>")
+    out.append(
+        '<table class="facts"><tbody>'
+        + "".join(
+            f"<tr><th>{_e(k)}</th><td>{_e(v)}</td></tr>" for k, v in header_facts(review, date)
+        )
+        + "</tbody></table>"
+    )
     out.append("<h2>Input files</h2>")
     files = input_files(review)
-    out.append('<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
-               + "".join(f'<tr><td>{_e(f.role)}</td><td>{_e(f.path)}</td><td class="hash">{_e(f.sha256 or f.note)}</td></tr>' for f in files)
-               + "</tbody></table>")
+    out.append(
+        '<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
+        + "".join(
+            f'<tr><td>{_e(f.role)}</td><td>{_e(f.path)}</td><td class="hash">{_e(f.sha256 or f.note)}</td></tr>'
+            for f in files
+        )
+        + "</tbody></table>"
+    )
     extra = notes(review)
     if extra:
         out.append("<h3>Notes</h3><ul>" + "".join(f"<li>{_e(n)}</li>" for n in extra) + "</ul>")
@@ -451,8 +652,10 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
         out.append('<ol class="findings">')
         for f in review.findings:
             case = f" ({_e(f.case)})" if f.case else ""
-            out.append(f'<li class="finding {_e(f.kind)}"><span class="sev {_e(f.severity.value)}">{_e(f.severity.value)}</span>'
-                       f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>")
+            out.append(
+                f'<li class="finding {_e(f.kind)}"><span class="sev {_e(f.severity.value)}">{_e(f.severity.value)}</span>'
+                f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>"
+            )
         out.append("</ol>")
     else:
         out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
@@ -468,9 +671,11 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
 
     sections, note = appendix(review)
     out.append('<section id="appendix"><h2>Appendix: hand calculation</h2>')
-    out.append("<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the "
-               "equations and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the "
-               "member, tension positive.</p>")
+    out.append(
+        "<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the "
+        "equations and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the "
+        "member, tension positive.</p>"
+    )
     if note:
         out.append(f"<p><em>{_e(note)}</em></p>")
     for label, blocks in sections:
@@ -478,8 +683,12 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
         out.extend(_html_blocks(blocks, 4))
     out.append("</section>")
 
-    out.append(f'<section id="cautions"><h2>Cautions</h2><p class="caution">{_e(CAUTION)} Defer to the governing local codes.</p></section>')
-    out.append(f"<footer><p>truss-verify {_e(__version__)} — report generated {_e(date)}.</p></footer>")
+    out.append(
+        f'<section id="cautions"><h2>Cautions</h2><p class="caution">{_e(CAUTION)} Defer to the governing local codes.</p></section>'
+    )
+    out.append(
+        f"<footer><p>truss-verify {_e(__version__)} — report generated {_e(date)}.</p></footer>"
+    )
     out.append("</body></html>")
     return "\n".join(out) + "\n"
 
@@ -490,21 +699,41 @@ def diagrams_html(review: Review) -> list[str]:
     columns = diagram_columns(review)
     out = []
     if len(model.members) > LARGE_MODEL_MEMBERS:
-        out.append(f"<p><em>Large model ({len(model.members)} members): no per-member labels or letters; one load column drawn. "
-                   "The member table lists every problem.</em></p>")
-    drawn = [(name, member_statuses(review, name) if name in review.checked_cases else None) for name in columns]
+        out.append(
+            f"<p><em>Large model ({len(model.members)} members): no per-member labels or letters; one load column drawn. "
+            "The member table lists every problem.</em></p>"
+        )
+    drawn = [
+        (name, member_statuses(review, name) if name in review.checked_cases else None)
+        for name in columns
+    ]
     used: set[str] = set()
     for _, statuses in drawn:
         used |= used_categories(model, statuses)
-    out.append(legend_html(with_status=any(st is not None for _, st in drawn), used=used, model=model))
+    out.append(
+        legend_html(with_status=any(st is not None for _, st in drawn), used=used, model=model)
+    )
     for name, statuses in drawn:
         forces = ref.member_forces[:, ref.column(name)] if ref is not None else None
-        caption = (f"{_load_label(review, name)}: members marked by review status; band width shows tension or compression "
-                   "of the recomputed force." if statuses is not None else f"{_load_label(review, name)}: no claims checked.")
+        caption = (
+            f"{_load_label(review, name)}: members marked by review status; band width shows tension or compression "
+            "of the recomputed force."
+            if statuses is not None
+            else f"{_load_label(review, name)}: no claims checked."
+        )
         if ref is None:
             caption += " No force could be recomputed, so members are drawn without tension or compression."
         out.append(f"<h3>{_e(_load_label(review, name))}</h3>")
-        out.append(render_diagram(model, forces=forces, statuses=statuses, load_name=name, caption=caption, legend=False))
+        out.append(
+            render_diagram(
+                model,
+                forces=forces,
+                statuses=statuses,
+                load_name=name,
+                caption=caption,
+                legend=False,
+            )
+        )
     return out
 
 
@@ -517,8 +746,15 @@ def _m(text: object) -> str:
     return escape(str(text), quote=False).translate(_MD_SPECIAL).replace("\n", " ")
 
 
-def _md_table(header: tuple[str, ...], rows: tuple[tuple[str, ...], ...], statuses: tuple[str, ...] | None = None) -> list[str]:
-    out = ["| " + " | ".join(_m(h) for h in header) + " |", "|" + "|".join("---" for _ in header) + "|"]
+def _md_table(
+    header: tuple[str, ...],
+    rows: tuple[tuple[str, ...], ...],
+    statuses: tuple[str, ...] | None = None,
+) -> list[str]:
+    out = [
+        "| " + " | ".join(_m(h) for h in header) + " |",
+        "|" + "|".join("---" for _ in header) + "|",
+    ]
     for n, row in enumerate(rows):
         cells = []
         for h, cell in zip(header, row, strict=True):
@@ -558,21 +794,37 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
     out = [f"# Truss review: {_m(title)}", "", f"**Verdict: {_m(word)}** — {_m(summary)}", ""]
     out.extend(_md_table(("item", "value"), tuple((k, v) for k, v in header_facts(review, date))))
     out += ["", "## Input files", ""]
-    out.extend(_md_table(("input", "file", "SHA-256"), tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review))))
+    out.extend(
+        _md_table(
+            ("input", "file", "SHA-256"),
+            tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review)),
+        )
+    )
     extra = notes(review)
     if extra:
         out += ["", "### Notes", ""] + [f"- {_m(n)}" for n in extra]
-    out += ["", "## Diagram", "",
-            "The truss diagram is drawn only in the HTML report (`truss-verify check CASE --claims FILE --report review.html`); "
-            "this Markdown version carries the rest of the content.", ""]
+    out += [
+        "",
+        "## Diagram",
+        "",
+        "The truss diagram is drawn only in the HTML report (`truss-verify check CASE --claims FILE --report review.html`); "
+        "this Markdown version carries the rest of the content.",
+        "",
+    ]
     out += ["## Findings", ""]
     if review.findings:
         for n, f in enumerate(review.findings, 1):
             case = f" ({_m(f.case)})" if f.case else ""
-            out.append(f"{n}. [{_m(f.severity.value)}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}")
+            out.append(
+                f"{n}. [{_m(f.severity.value)}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
+            )
     else:
         out.append("No findings: every claim checked agrees within tolerance.")
-    legend = "; ".join(f"{s.marker} = {s.words}" for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank) if s.marker)
+    legend = "; ".join(
+        f"{s.marker} = {s.words}"
+        for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank)
+        if s.marker
+    )
     out += ["", "## Member table", "", f"Status letters: {_m(legend)}."]
     for table in member_tables(review):
         out += ["", f"### {_m(table.title)}", "", _m(table.intro), ""]
@@ -580,10 +832,14 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
         if table.note:
             out += ["", f"*{_m(table.note)}*"]
     sections, note = appendix(review)
-    out += ["", "## Appendix: hand calculation", "",
-            "Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the equations "
-            "and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the member, "
-            "tension positive."]
+    out += [
+        "",
+        "## Appendix: hand calculation",
+        "",
+        "Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the equations "
+        "and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the member, "
+        "tension positive.",
+    ]
     if note:
         out += ["", f"*{_m(note)}*"]
     for label, blocks in sections:
@@ -598,8 +854,15 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
                 out.extend(_md_table(block.header, block.rows))
             else:
                 out.append(_m(block.text))
-    out += ["", "## Cautions", "", f"{_m(CAUTION)} Defer to the governing local codes.", "",
-            f"*truss-verify {_m(__version__)} — report generated {_m(date)}.*", ""]
+    out += [
+        "",
+        "## Cautions",
+        "",
+        f"{_m(CAUTION)} Defer to the governing local codes.",
+        "",
+        f"*truss-verify {_m(__version__)} — report generated {_m(date)}.*",
+        "",
+    ]
     return "\n".join(out)
 
 
@@ -612,4 +875,11 @@ def render_document(review: Review, *, fmt: str = "html", generated: str | None 
     raise ValueError(f"report format must be 'html' or 'md', got {fmt!r}")
 
 
-__all__ = ["InputFile", "input_files", "render_document", "render_html", "render_markdown", "sha256_file"]
+__all__ = [
+    "InputFile",
+    "input_files",
+    "render_document",
+    "render_html",
+    "render_markdown",
+    "sha256_file",
+]

@@ -12,6 +12,7 @@ compared with the floating-point route before it is shown; a mismatch drops it.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 from fractions import Fraction
 
@@ -124,7 +125,11 @@ def exact_values(model: Model, solution: JointSolution, load_name: str) -> Exact
     coords = [[_rational(float(c)) for c in row] for row in model.xyz.tolist()]
     loads = [_rational(float(v)) for v in model.load_matrix()[:, k]]
     axis_aligned = all(all(c in (0.0, 1.0, -1.0) for c in r.direction) for r in model.reactions)
-    if any(c is None for row in coords for c in row) or any(v is None for v in loads) or not axis_aligned:
+    if (
+        any(c is None for row in coords for c in row)
+        or any(v is None for v in loads)
+        or not axis_aligned
+    ):
         return None
     X = [[c for c in row if c is not None] for row in coords]
     F = [v if v is not None else Fraction(0) for v in loads]
@@ -149,7 +154,11 @@ def exact_values(model: Model, solution: JointSolution, load_name: str) -> Exact
     note = ""
     for step in solution.steps:
         if step.kind == "reactions":
-            point = X[model.joint_index[solution.moment_joint or ""]] if solution.moment_joint else [Fraction(0)] * d
+            point = (
+                X[model.joint_index[solution.moment_joint or ""]]
+                if solution.moment_joint
+                else [Fraction(0)] * d
+            )
             M, rhs = _overall(model, X, F, directions, point)
             solved = _rref_solve(M, rhs)
             for i in range(len(model.reactions)):
@@ -158,7 +167,9 @@ def exact_values(model: Model, solution: JointSolution, load_name: str) -> Exact
             continue
         unknowns = list(step.unknowns)
         if step.kind == "simultaneous" and len(unknowns) > MAX_SIMULTANEOUS_EXACT:
-            note = f"the simultaneous step has {len(unknowns)} unknowns; exact values stop before it"
+            note = (
+                f"the simultaneous step has {len(unknowns)} unknowns; exact values stop before it"
+            )
             break
         joints = [model.joint_index[j] for j in step.joints]
         extra = sorted({c for j in joints for c in cols_at[j] if c not in t and c not in unknowns})
@@ -167,7 +178,10 @@ def exact_values(model: Model, solution: JointSolution, load_name: str) -> Exact
         for j in joints:
             for a in range(d):
                 M.append([coef(j, c)[a] for c in cols])
-                rhs.append(-F[j * d + a] - sum((coef(j, c)[a] * t[c] for c in cols_at[j] if c in t), Fraction(0)))
+                rhs.append(
+                    -F[j * d + a]
+                    - sum((coef(j, c)[a] * t[c] for c in cols_at[j] if c in t), Fraction(0))
+                )
         solved = _rref_solve(M, rhs)
         for pos, c in enumerate(unknowns):
             if pos in solved:
@@ -188,14 +202,21 @@ def exact_values(model: Model, solution: JointSolution, load_name: str) -> Exact
     for i, r in enumerate(model.reactions):
         decimal = float(solution.forces.reactions[i, k])
         exact = None
-        if b + i in t and abs(float(t[b + i]) - decimal) <= EXACT_CHECK_RTOL * max(abs(decimal), 1.0):
+        if b + i in t and abs(float(t[b + i]) - decimal) <= EXACT_CHECK_RTOL * max(
+            abs(decimal), 1.0
+        ):
             exact = _frac(t[b + i])
         reactions.append(ExactValue(r.label, decimal, exact))
     return ExactValues(load_name, tuple(members), tuple(reactions), note)
 
 
-def _overall(model: Model, X: list[list[Fraction]], F: list[Fraction], directions: list[list[Fraction]],
-             point: list[Fraction]) -> tuple[list[list[Fraction]], list[Fraction]]:
+def _overall(
+    model: Model,
+    X: list[list[Fraction]],
+    F: list[Fraction],
+    directions: list[list[Fraction]],
+    point: list[Fraction],
+) -> tuple[list[list[Fraction]], list[Fraction]]:
     """Overall equilibrium G R = -E in fractions (forces, then moments about `point`)."""
     d = model.dim
     rows = 3 if d == 2 else 6
@@ -214,7 +235,7 @@ def _overall(model: Model, X: list[list[Fraction]], F: list[Fraction], direction
         for row in range(rows):
             G[row][i] = column[row]
     for j in range(len(model.joints)):
-        f = F[j * d:(j + 1) * d]
+        f = F[j * d : (j + 1) * d]
         p = [X[j][a] - point[a] for a in range(d)]
         column = f + moment(p, f)
         for row in range(rows):
@@ -229,8 +250,14 @@ def _truncate_steps(solution: JointSolution, max_steps: int | None) -> tuple[Joi
     return replace(solution, steps=solution.steps[:max_steps]), len(solution.steps) - max_steps
 
 
-def appendix_blocks(analysis: Analysis, load_name: str, *, max_steps: int | None = None,
-                    max_cuts: int | None = None, exact: bool = True) -> list[Block]:
+def appendix_blocks(
+    analysis: Analysis,
+    load_name: str,
+    *,
+    max_steps: int | None = None,
+    max_cuts: int | None = None,
+    exact: bool = True,
+) -> list[Block]:
     """The hand calc of one load column: reactions, joint by joint, section cuts, exact values."""
     from verify.report.text import render_joint_calc
 
@@ -247,11 +274,20 @@ def appendix_blocks(analysis: Analysis, load_name: str, *, max_steps: int | None
         vectors = ref.reaction_vectors(model, load_name)
         axes = "xyz"[: model.dim]
         rows = tuple((j,) + tuple(fmt(c) for c in vec) for j, vec in vectors.items())
-        how = ("from overall equilibrium: step 1 of the joint sequence below shows the equations"
-               if analysis.joints is not None and analysis.joints.reactions_first
-               else "solved together with the joints (the supports are not externally determinate)")
-        blocks.append(Block("Reactions", "table", f"Reactions in {unit}, {how}.",
-                            ("support",) + tuple(f"R{a}" for a in axes), rows))
+        how = (
+            "from overall equilibrium: step 1 of the joint sequence below shows the equations"
+            if analysis.joints is not None and analysis.joints.reactions_first
+            else "solved together with the joints (the supports are not externally determinate)"
+        )
+        blocks.append(
+            Block(
+                "Reactions",
+                "table",
+                f"Reactions in {unit}, {how}.",
+                ("support",) + tuple(f"R{a}" for a in axes),
+                rows,
+            )
+        )
 
     # Joint by joint.
     if analysis.joints is not None:
@@ -261,9 +297,16 @@ def appendix_blocks(analysis: Analysis, load_name: str, *, max_steps: int | None
             text += f"\n\n… {cut} further step(s) are not shown in this report (large model); `truss-verify solve --show joints` prints them all."
         blocks.append(Block("Method of joints", "pre", text))
     else:
-        why = ("the truss is unstable, so no force can be recomputed" if not analysis.stability.is_stable
-               else "the truss is statically indeterminate: statics alone do not give the member forces"
-               + ("; they come from the direct stiffness method" if analysis.elastic is not None else ""))
+        why = (
+            "the truss is unstable, so no force can be recomputed"
+            if not analysis.stability.is_stable
+            else "the truss is statically indeterminate: statics alone do not give the member forces"
+            + (
+                "; they come from the direct stiffness method"
+                if analysis.elastic is not None
+                else ""
+            )
+        )
         blocks.append(Block("Method of joints", "para", f"No joint-by-joint calculation: {why}."))
 
     # Section cuts.
@@ -276,30 +319,65 @@ def appendix_blocks(analysis: Analysis, load_name: str, *, max_steps: int | None
         else:
             texts = [_cut_summary(model, sections, cut, load_name) for cut in shown_cuts]
         if len(shown_cuts) < len(cuts):
-            texts.append(f"… {len(cuts) - len(shown_cuts)} further cut(s) are not shown in this report (large model).")
+            texts.append(
+                f"… {len(cuts) - len(shown_cuts)} further cut(s) are not shown in this report (large model)."
+            )
         unreached = getattr(sections, "unreached", None) or {}
         reasons = dict(unreached) if isinstance(unreached, dict) else {m: "" for m in unreached}
-        reach = f"The cuts reach {len(model.members) - len(reasons)} of {len(model.members)} members."
+        reach = (
+            f"The cuts reach {len(model.members) - len(reasons)} of {len(model.members)} members."
+        )
         if reasons:
-            listed = "; ".join(f"{m} ({why})" if why else m for m, why in list(reasons.items())[:30])
-            reach += f" Not reached: {listed}" + (f" and {len(reasons) - 30} more." if len(reasons) > 30 else ".")
-        blocks.append(Block("Method of sections (Ritter)", "pre", reach + ("\n\n" + "\n\n".join(texts) if texts else "")))
+            listed = "; ".join(
+                f"{m} ({why})" if why else m for m, why in list(reasons.items())[:30]
+            )
+            reach += f" Not reached: {listed}" + (
+                f" and {len(reasons) - 30} more." if len(reasons) > 30 else "."
+            )
+        blocks.append(
+            Block(
+                "Method of sections (Ritter)",
+                "pre",
+                reach + ("\n\n" + "\n\n".join(texts) if texts else ""),
+            )
+        )
     elif analysis.joints is not None:
-        blocks.append(Block("Method of sections (Ritter)", "para", "No section cuts were computed for this truss."))
+        blocks.append(
+            Block(
+                "Method of sections (Ritter)",
+                "para",
+                "No section cuts were computed for this truss.",
+            )
+        )
 
     # Exact values.
     if exact and analysis.joints is not None:
         values = exact_values(model, analysis.joints, load_name)
         if values is None:
-            blocks.append(Block("Exact values", "para", "Not given: the coordinates, loads or support directions are not all short "
-                                "decimals along the axes, so the decimals above are the result."))
+            blocks.append(
+                Block(
+                    "Exact values",
+                    "para",
+                    "Not given: the coordinates, loads or support directions are not all short "
+                    "decimals along the axes, so the decimals above are the result.",
+                )
+            )
         else:
-            rows = tuple((v.label, fmt(v.decimal, 6), v.exact or "—") for v in values.members + values.reactions)
-            intro = (f"Member forces (tension positive) and reactions in {unit}, solved again in exact fractions along the same steps; "
-                     "a force is (force density) × (member length), hence the square roots.")
+            rows = tuple(
+                (v.label, fmt(v.decimal, 6), v.exact or "—")
+                for v in values.members + values.reactions
+            )
+            intro = (
+                f"Member forces (tension positive) and reactions in {unit}, solved again in exact fractions along the same steps; "
+                "a force is (force density) × (member length), hence the square roots."
+            )
             if values.note:
                 intro += f" Note: {values.note}."
-            blocks.append(Block("Exact values", "table", intro, ("member / reaction", "decimal", "exact"), rows))
+            blocks.append(
+                Block(
+                    "Exact values", "table", intro, ("member / reaction", "decimal", "exact"), rows
+                )
+            )
     return blocks
 
 
@@ -307,11 +385,18 @@ def _cut_summary(model: Model, sections: object, cut: object, load_name: str) ->
     """One cut in words, for when the section-cut equation renderer is not installed."""
     target = str(getattr(cut, "target", "?"))
     members = ", ".join(getattr(cut, "cut_members", ()))
-    method = {"moments": "moments about the Ritter point", "forces-normal": "forces summed normal to the parallel members",
-              "least-squares": "the cut's equilibrium equations solved together"}.get(str(getattr(cut, "method", "")), str(getattr(cut, "method", "")))
+    method = {
+        "moments": "moments about the Ritter point",
+        "forces-normal": "forces summed normal to the parallel members",
+        "least-squares": "the cut's equilibrium equations solved together",
+    }.get(str(getattr(cut, "method", "")), str(getattr(cut, "method", "")))
     where = getattr(cut, "moment_joint", None)
     point = getattr(cut, "moment_point", None)
-    about = f" (joint {where})" if where else (f" (point {', '.join(fmt(c) for c in point)})" if point is not None else "")
+    about = (
+        f" (joint {where})"
+        if where
+        else (f" (point {', '.join(fmt(c) for c in point)})" if point is not None else "")
+    )
     forces = getattr(sections, "forces", None)
     value = ""
     if forces is not None and target in model.member_index:
@@ -320,11 +405,10 @@ def _cut_summary(model: Model, sections: object, cut: object, load_name: str) ->
     return f"Cut for {target}: through {members}; {method}{about}{value}"
 
 
-def _section_calc():  # type: ignore[no-untyped-def]
+def _section_calc() -> tuple[Callable[..., str], Callable[..., str]] | None:
     """(render_cut, render_reactions) when the section-cut renderer is installed, else None."""
     try:
         from verify.report.section_calc import render_cut, render_reactions
     except ImportError:
         return None
     return render_cut, render_reactions
-

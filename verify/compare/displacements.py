@@ -1,0 +1,96 @@
+"""Claimed joint displacements against the direct stiffness method, confirmed by virtual work.
+
+Each claim is compared with the stiffness displacement (same tolerance rule as forces, with the
+absolute floor scaled to the largest displacement of that load column). The first claims are
+also recomputed by the unit-load method, 1 x delta = sum n N L / (EA) (Hibbeler, *Structural
+Analysis*, "Method of virtual work: trusses"; shared/REFERENCES.md 3.7), and printed as a hand calc.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from verify.analysis.pipeline import Analysis
+from dataclasses import replace
+
+from verify.compare.diagnose import Review, Row, _verdict
+from verify.compare.findings import Finding, Severity, ordered
+from verify.compare.tolerances import Tolerance, rounding_allowance
+from verify.io.displacements import DisplacementClaims
+
+AXES = ("x", "y", "z")
+MAX_HAND_CALCS = 5  # virtual-work tables printed per review; every claim is still compared
+
+
+@dataclass(frozen=True)
+class DisplacementCheck:
+    rows: tuple[Row, ...]
+    findings: tuple[Finding, ...]
+    calcs: tuple[object, ...]  # verify.analysis.virtual_work.VirtualWorkCalc
+    calc_cases: tuple[str, ...]
+
+
+def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tolerance: Tolerance | None = None) -> DisplacementCheck:
+    tol = tolerance or Tolerance()
+    model = analysis.model
+    unit = model.units.length.symbol
+    elastic = analysis.elastic
+    rows: list[Row] = []
+    findings: list[Finding] = []
+    calcs: list[object] = []
+    calc_cases: list[str] = []
+    if elastic is None:
+        missing = model.members_without_stiffness()
+        reason = (f"{len(missing)} member(s) have no EA (e.g. {', '.join(missing[:5])})" if missing
+                  else "the truss is unstable")
+        for c in claims.values:
+            rows.append(Row(f"{c.joint}.{c.axis}", "displacement", c.case, c.value, f"{c.written} at {c.where}",
+                            None, None, None, None, None, "not-verifiable"))
+        findings.append(Finding("displacement-mismatch", (), f"claimed displacements cannot be checked: {reason}; "
+                                "give EA (or A and E) for every member", Severity.BLOCKER))
+        return DisplacementCheck(tuple(rows), tuple(findings), (), ())
+    disp = elastic.displacements  # type: ignore[attr-defined]
+    forces = elastic.forces.member_forces  # type: ignore[attr-defined]
+    d = model.dim
+    for c in claims.values:
+        k = model.load_names.index(c.case)
+        j = model.joint_index[c.joint]
+        computed = float(disp[j * d + AXES.index(c.axis), k])
+        scale = float(np.abs(disp[:, k]).max()) if disp.size else 0.0
+        atol = tol.atol_fraction * scale
+        ok = tol.agrees(c.value, computed, atol, rounding_allowance(c.value, 1.0))
+        status = "agrees" if ok else "displacement-mismatch"
+        rows.append(Row(f"{c.joint}.{c.axis}", "displacement", c.case, c.value, f"{c.written} at {c.where}",
+                        None, None, None, computed, c.value - computed, status))
+        if not ok:
+            sign = " (opposite direction)" if c.value * computed < 0 else ""
+            findings.append(Finding("displacement-mismatch", (c.joint,), f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
+                                    f"{c.value:.4g} {unit}, recomputed {computed:.4g} {unit}{sign}", Severity.ERROR, case=c.case))
+        if len(calcs) < MAX_HAND_CALCS:
+            from verify.analysis.virtual_work import unit_load_deflection
+
+            direction = [1.0 if a == c.axis else 0.0 for a in AXES[:d]]
+            try:
+                calc = unit_load_deflection(model, forces[:, k], c.joint, direction,
+                                            assume_equal_EA=_assumed_EA(analysis))
+            except ValueError:
+                continue
+            calcs.append(calc)
+            calc_cases.append(c.case)
+    return DisplacementCheck(tuple(rows), tuple(findings), tuple(calcs), tuple(calc_cases))
+
+
+def _assumed_EA(analysis: Analysis) -> float | None:
+    elastic = analysis.elastic
+    if elastic is not None and getattr(elastic, "equal_EA_assumed", False):
+        return analysis.assumed_EA
+    return None
+
+
+def attach_displacements(review: Review, check: DisplacementCheck) -> Review:
+    """The review with the displacement rows and findings merged in and the verdict recomputed."""
+    findings = ordered(list(review.findings) + list(check.findings))
+    verdict = _verdict(findings, review.analysis.stability.classification, review.analysis.reference is not None)
+    return replace(review, rows=review.rows + check.rows, findings=tuple(findings), verdict=verdict, displacements=check)
