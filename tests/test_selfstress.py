@@ -177,6 +177,17 @@ def test_wrong_claimed_reaction_is_an_equilibrium_violation() -> None:
     assert dec.reaction_violation[2] == pytest.approx(5.0)
 
 
+def test_claims_rounded_to_three_significant_figures_are_consistent() -> None:
+    """REFERENCES 5.1 (Hibbeler, Statics ch. 1): answers rounded to 3 s.f. stay within the 1 % band."""
+    model = two_panel_model()
+    elastic = solve_stiffness(model).forces.member_forces[:, 0]
+    rounded = np.array([float(f"{v:.3g}") for v in elastic])
+    dec = decompose_claims(model, rounded, everything(model), elastic, 0, None)
+    assert dec.consistent_with_equilibrium
+    strict = decompose_claims(model, rounded, everything(model), elastic, 0, None, rtol=1e-9)
+    assert not strict.consistent_with_equilibrium  # the rounding is visible at a tight tolerance
+
+
 def test_reference_free_split_has_the_same_violation() -> None:
     """Without an elastic solution the violation is unchanged (it does not depend on the reference)."""
     model = two_panel_model()

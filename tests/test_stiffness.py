@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import math
 import random
-import threading
 import time
 
 import numpy as np
@@ -41,6 +40,7 @@ from verify.model import Model
 
 RTOL = 1e-9  # exact closed forms against a double-precision solve of a small system
 PROPERTY_RTOL = 1e-7  # random trusses: conditioning of K ~ cond(A)^2 costs a few digits
+WELL_CONDITIONED = 1e4  # cond(A) limit for random determinate draws: K's error grows like eps cond(A)^2
 SETTINGS = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
 
@@ -247,7 +247,9 @@ def test_mechanism_raises_singular_stiffness_error() -> None:
 
 
 def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) -> None:
-    """PERFORMANCE.md item 4: when the MMD attempt is timed out, COLAMD answers, identically."""
+    """PERFORMANCE.md item 4: when the MMD attempt is timed out, COLAMD answers, identically.
+
+    The forked child inherits the slowed-down splu, so the time box really runs out."""
     case = pratt(20, load=5.0)
     case["stiffness"] = {"EA": 1.0e5}
     model = make_model(case)
@@ -263,10 +265,7 @@ def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) 
     monkeypatch.setattr(stiffness_module, "DIRECT_FREE_LIMIT", 0)
     monkeypatch.setattr(stiffness_module.spla, "splu", slow_mmd)
     second = solve_stiffness(model, time_box=0.05)
-    for worker in threading.enumerate():  # let the abandoned attempt end inside this test
-        if worker.name == "stiffness-mmd-ordering":
-            worker.join()
-    assert "COLAMD" in second.notes[0] and "time box" in second.notes[0]
+    assert "COLAMD" in second.notes[0] and "time box" in second.notes[0] and "stopped" in second.notes[0]
     np.testing.assert_allclose(second.forces.member_forces, first.forces.member_forces, rtol=1e-10)
 
 
@@ -421,7 +420,7 @@ def test_determinate_truss_stiffness_equals_statics_whatever_ea(seed: int, joint
         case["members"][mid] = {"ends": ends, "EA": float(10 ** rng.uniform(2, 6))}
     model = make_model(case)
     A = dense_equilibrium(model)
-    assume(np.linalg.cond(A) < 1e6)
+    assume(np.linalg.cond(A) < WELL_CONDITIONED)
     statics = solve_global(model)
     sol = solve_stiffness(model)
     scale = max(np.abs(statics.member_forces).max(), np.abs(model.load_matrix()).max())
@@ -472,7 +471,7 @@ def test_space_truss_stiffness_equals_statics(seed: int, extra_joints: int) -> N
     """3D determinate trusses: stiffness forces equal the statics solve (common practice)."""
     model = make_model(space_case(seed, extra_joints))
     A = dense_equilibrium(model)
-    assume(np.linalg.cond(A) < 1e6)
+    assume(np.linalg.cond(A) < WELL_CONDITIONED)
     statics = solve_global(model)
     sol = solve_stiffness(model)
     scale = max(np.abs(statics.member_forces).max(), np.abs(model.load_matrix()).max())

@@ -33,6 +33,7 @@ from verify.model import Model
 DENSE_LIMIT = 1500  # joint equations; dense least squares is at most ~1 s here (PERFORMANCE.md)
 UNIT_LOAD_RTOL = 1e-8  # |A n + f_unit| above this means the unit load cannot be carried
 LSQR_TOL = 1e-14
+DISPLAY_ZERO_RTOL = 1e-12  # of the column's largest value: shown as 0 in the hand calc
 
 
 @dataclass(frozen=True)
@@ -158,8 +159,11 @@ def render_virtual_work(calc: VirtualWorkCalc, model: Model) -> str:
     fu = model.units.force.symbol
     dir_text = "(" + ", ".join(_fmt(c) for c in calc.direction) + ")"
     header = ["member", f"N ({fu})", "n (-)", f"L ({lu})", f"EA ({fu})", f"n N L / EA ({lu})"]
-    body = [[r.member, _fmt(r.real_force), _fmt(r.unit_force), _fmt(r.length), _fmt(r.EA), _fmt(r.term)]
-            for r in calc.rows]
+    values = np.array([[r.real_force, r.unit_force, r.length, r.EA, r.term] for r in calc.rows]).reshape(-1, 5)
+    # Round-off left by the solves (e.g. -3.6e-15 for a zero-force member) would distract a checker.
+    scale = np.abs(values).max(axis=0) if len(values) else np.zeros(5)
+    values = np.where(np.abs(values) <= DISPLAY_ZERO_RTOL * scale, 0.0, values)
+    body = [[r.member, *(_fmt(float(v)) for v in row)] for r, row in zip(calc.rows, values, strict=True)]
     widths = [max(len(h), *(len(row[k]) for row in body)) if body else len(h) for k, h in enumerate(header)]
 
     def line(cells: list[str]) -> str:

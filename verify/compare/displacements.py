@@ -67,7 +67,7 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
         if not ok:
             sign = " (opposite direction)" if c.value * computed < 0 else ""
             findings.append(Finding("displacement-mismatch", (c.joint,), f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
-                                    f"{c.value:.4g} {unit}, recomputed {computed:.4g} {unit}{sign}", Severity.ERROR, case=c.case))
+                                    f"{_length(c.value, unit)}, recomputed {_length(computed, unit)}{sign}", Severity.ERROR, case=c.case))
         if len(calcs) < MAX_HAND_CALCS:
             from verify.analysis.virtual_work import unit_load_deflection
 
@@ -80,6 +80,13 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
             calcs.append(calc)
             calc_cases.append(c.case)
     return DisplacementCheck(tuple(rows), tuple(findings), tuple(calcs), tuple(calc_cases))
+
+
+def _length(value: float, unit: str) -> str:
+    """Deflections read better in millimetres when the model is in metres."""
+    if unit == "m":
+        return f"{value * 1000:.4g} mm"
+    return f"{value:.4g} {unit}"
 
 
 def _assumed_EA(analysis: Analysis) -> float | None:
