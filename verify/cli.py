@@ -7,7 +7,8 @@ usage, 3 the truss cannot be verified (unstable, or indeterminate without stiffn
 from __future__ import annotations
 
 import sys
-from pathlib import Path
+from collections.abc import Callable
+from typing import Any
 
 import click
 
@@ -220,7 +221,7 @@ _CHECK_OPTIONS = [
 ]
 
 
-def _with_check_options(func):  # type: ignore[no-untyped-def]
+def _with_check_options(func: Callable[..., None]) -> Callable[..., None]:
     for option in reversed(_CHECK_OPTIONS):
         func = option(func)
     return func
@@ -230,7 +231,7 @@ def _with_check_options(func):  # type: ignore[no-untyped-def]
 @click.argument("case", type=click.Path(dir_okay=False))
 @click.option("--claims", "claims_path", required=True, type=click.Path(dir_okay=False), help="Claimed forces: CSV or .xlsx.")
 @_with_check_options
-def check(case: str, claims_path: str, **options: object) -> None:
+def check(case: str, claims_path: str, **options: Any) -> None:
     """Compare the claimed member forces in --claims with those recomputed for CASE.
 
     Prints a verdict, the findings (sign convention, unit slip, swapped labels, sign flips,
@@ -238,7 +239,7 @@ def check(case: str, claims_path: str, **options: object) -> None:
     claims, real errors) and the member table. Exit status: 0 agrees, 1 discrepancies, 2 bad
     input, 3 cannot verify.
     """
-    sys.exit(_run_check(case, claims_path, **options))  # type: ignore[arg-type]
+    sys.exit(_run_check(case, claims_path, **options))
 
 
 @main.command()

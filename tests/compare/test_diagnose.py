@@ -8,9 +8,9 @@ perturbed in one known way.
 from __future__ import annotations
 
 import pytest
-
 from claimsgen import round_sig, table, true_claims
 from trussgen import make_model, pratt, truss_case
+
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import SignMode, Verdict, compare_claims
 from verify.compare.findings import Severity

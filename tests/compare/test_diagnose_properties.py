@@ -5,11 +5,11 @@ checked against sympy and published values in tests/test_sympy_oracle.py and tes
 from __future__ import annotations
 
 import numpy as np
+from claimsgen import table, true_claims
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
-
-from claimsgen import table, true_claims
 from trussgen import howe, make_model, pratt
+
 from verify.analysis.pipeline import analyse
 from verify.compare.convention import UNIT_FACTORS
 from verify.compare.diagnose import SignMode, Verdict, compare_claims

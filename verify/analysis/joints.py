@@ -161,6 +161,7 @@ def solve_joints(model: Model) -> JointSolution:
     def mark(cols: list[int]) -> None:
         for c in cols:
             known[c] = True
+            touched: tuple[int, ...]
             if c < b:
                 touched = (int(ends[c, 0]), int(ends[c, 1]))
             else:

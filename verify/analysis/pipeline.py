@@ -54,7 +54,6 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
     if stability.classification is Classification.STABLE_INDETERMINATE:
         elastic = None
         if model.has_stiffness or assume_equal_EA is not None:
-            from verify.analysis.stiffness import solve_stiffness
 
             elastic = _stiffness_or_note(model, assume_equal_EA, notes)
         else:

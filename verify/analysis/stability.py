@@ -22,7 +22,7 @@ magnitude above the loads deserve a second look).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from enum import Enum
+from enum import StrEnum
 
 import numpy as np
 import scipy.sparse as sp
@@ -42,7 +42,7 @@ K_PIVOT_SINGULAR = 1e-8
 MODE_SHARE = 1e-3  # a joint/member takes part in a mode when its share exceeds this fraction
 
 
-class Classification(str, Enum):
+class Classification(StrEnum):
     STABLE_DETERMINATE = "stable-determinate"
     STABLE_INDETERMINATE = "stable-indeterminate"
     UNSTABLE = "unstable"

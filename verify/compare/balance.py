@@ -29,7 +29,7 @@ def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tupl
                    load_names: list[str], tol: Tolerance) -> list[JointImbalance]:
     d = model.dim
     F = model.load_matrix()
-    b = len(model.members)
+    len(model.members)
     at_joint: list[list[int]] = [[] for _ in model.joints]
     for i, (s, e) in enumerate(model.ends_index.tolist()):
         at_joint[s].append(i)

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
-from enum import Enum
+from enum import StrEnum
 from typing import Any
 
 import numpy as np
@@ -35,13 +35,13 @@ from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.units import Dimension, factor, lookup_unit
 
 
-class SignMode(str, Enum):
+class SignMode(StrEnum):
     TENSION_POSITIVE = "tension-positive"
     COMPRESSION_POSITIVE = "compression-positive"
     AUTO = "auto"
 
 
-class Verdict(str, Enum):
+class Verdict(StrEnum):
     AGREES = "agrees"
     DISCREPANCIES = "discrepancies"
     CANNOT_VERIFY = "cannot-verify"
@@ -199,8 +199,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         for k, name in enumerate(load_names):
             # Largest member force or reaction: a truss whose members are all idle (a load
             # straight over a support) still has a yardstick for "near zero".
-            column = np.concatenate([ref.member_forces[:, k], ref.reactions[:, k]])
-            scale_of[name] = float(np.nanmax(np.abs(column))) if column.size else 0.0
+            values = np.concatenate([ref.member_forces[:, k], ref.reactions[:, k]])
+            scale_of[name] = float(np.nanmax(np.abs(values))) if values.size else 0.0
 
     def computed_for(v: ClaimedValue) -> float:
         assert ref is not None
@@ -214,19 +214,19 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     if comparable and ref is not None:
         matched = [(i, v) for i, v in enumerate(claims.values) if v.member is not None]
         for column in columns:
-            rows = [(i, v) for i, v in matched if v.column == column]
-            if len(rows) < MIN_MEMBERS_FOR_TABLE:
+            col_rows = [(i, v) for i, v in matched if v.column == column]
+            if len(col_rows) < MIN_MEMBERS_FOR_TABLE:
                 continue
-            scores = {}
-            for k, name in enumerate(load_names):
-                vals = np.array([claims.values[i].value * conv[i] for i, _ in rows])
-                comp = np.array([ref.member_forces[model.member_index[v.member], k] for _, v in rows])  # type: ignore[index]
-                fixed = np.array([v.sign_fixed for _, v in rows])
-                atol = np.full(len(rows), tol.atol_fraction * (scale_of[name] or 1.0))
-                rnd = np.array([rounding_allowance(claims.values[i].value, conv[i]) for i, _ in rows])
-                best, _ = best_fit(vals, fixed, comp, tol.rtol, atol, rnd, factors=())
-                scores[name] = best.share
-            named = mapping.get(column)
+            scores: dict[str, float] = {}
+            for k, load in enumerate(load_names):
+                vals = np.array([claims.values[i].value * conv[i] for i, _ in col_rows])
+                comp = np.array([ref.member_forces[model.member_index[v.member], k] for _, v in col_rows])  # type: ignore[index]
+                fixed = np.array([v.sign_fixed for _, v in col_rows])
+                atol_arr = np.full(len(col_rows), tol.atol_fraction * (scale_of[load] or 1.0))
+                rnd = np.array([rounding_allowance(claims.values[i].value, conv[i]) for i, _ in col_rows])
+                best, _ = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rnd, factors=())
+                scores[load] = best.share
+            named: str | None = mapping.get(column)
             top = max(scores, key=lambda n: scores[n])
             named_score = scores.get(named, 0.0) if named else 0.0
             if top != named and scores[top] >= 0.9 and named_score < 0.5:
@@ -239,8 +239,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                             f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
                                             Severity.ERROR, case=top))
                 remap[column] = top
-    for column, name in mapping.items():
-        if name is None and column not in remap:
+    for column, target in mapping.items():
+        if target is None and column not in remap:
             findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model "
                                     f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR))
     mapping.update(remap)
@@ -255,16 +255,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         vals = np.array([v.value * conv[i] * (stated_sign if not v.sign_fixed else 1) for i, v in member_claims])
         comp = np.array([computed_for(v) for _, v in member_claims])
         fixed = np.array([v.sign_fixed for _, v in member_claims])
-        atol = np.array([atol_for(v) for _, v in member_claims])
+        atol_arr = np.array([atol_for(v) for _, v in member_claims])
         rnd = np.array([rounding_allowance(v.value, conv[i]) for i, v in member_claims])
-        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol, rnd)
+        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rnd)
         n = best.informative
         support = f"{identity.agree} of {n} informative claims agree as read"
         table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
             support = f"{best.agree} of {n} informative claims agree when read this way ({identity.agree} as written)"
-            involved = tuple(v.member for _, v in member_claims)  # type: ignore[misc]
+            involved = tuple(v.member for _, v in member_claims if v.member is not None)
             severity = Severity.INFO if sign is SignMode.AUTO else Severity.ERROR
             if best.sign == -1 and not all_fixed:
                 told = "no sign convention was stated" if sign is SignMode.AUTO else f"the table was declared {sign.value}"
@@ -299,9 +299,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     diffs: list[tuple[int, ClaimedValue, float, float, float]] = []  # (row index, claim, value, computed, allowed)
     seen_pairs: set[tuple[str, str]] = set()
     for i, v in enumerate(claims.values):
-        name = mapping.get(v.column)
-        if name is None:
+        mapped = mapping.get(v.column)
+        if mapped is None:
             continue
+        name = mapped
         k = load_names.index(name)
         signed = v.value if v.sign_fixed else v.value * effective_sign
         value = signed * conv[i] * scale_fit
@@ -328,12 +329,15 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         m = model.member_index[v.member]
         seen_pairs.add((v.member, name))
         claimed_matrix[m, k] = value
-        joints_v = sections_v = global_v = elastic_v = None
+        joints_v: float | None = None
+        sections_v: float | None = None
+        global_v: float | None = None
+        elastic_v: float | None = None
         if analysis.joints is not None:
             joints_v = float(analysis.joints.forces.member_forces[m, k])
         if analysis.sections is not None:
-            sv = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
-            sections_v = sv if np.isfinite(sv) else None
+            section_value = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
+            sections_v = section_value if np.isfinite(section_value) else None
         if analysis.global_ is not None:
             global_v = float(analysis.global_.member_forces[m, k])
         if analysis.elastic is not None:
@@ -426,16 +430,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     for name in checked_cases:
         missing = [mid for mid in model.member_ids if (mid, name) not in seen_pairs]
         if missing:
-            shown = ", ".join(missing[:20]) + (f" and {len(missing) - 20} more" if len(missing) > 20 else "")
+            shown_text = ", ".join(missing[:20]) + (f" and {len(missing) - 20} more" if len(missing) > 20 else "")
             findings.append(Finding("missing-claim", tuple(missing), f"'{name}': no claim for {len(missing)} of {len(model.members)} "
-                                    f"members ({shown}); they are not checked", Severity.INFO, case=name))
+                                    f"members ({shown_text}); they are not checked", Severity.INFO, case=name))
             for mid in missing:
                 m = model.member_index[mid]
                 k = load_names.index(name)
                 g = float(analysis.global_.member_forces[m, k]) if analysis.global_ is not None else None
                 e = float(analysis.elastic.forces.member_forces[m, k]) if analysis.elastic is not None else None  # type: ignore[attr-defined]
                 jv = float(analysis.joints.forces.member_forces[m, k]) if analysis.joints is not None else None
-                sv = None
+                sv: float | None = None
                 if analysis.sections is not None:
                     s_val = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
                     sv = s_val if np.isfinite(s_val) else None
@@ -446,12 +450,11 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     if imbalances:
         unexplained = [b for b in imbalances if not (set(b.members) & flagged.get(b.case, set()))]
         if unexplained or ref is None or stab.classification is Classification.UNSTABLE:
-            shown = unexplained or list(imbalances)
-            worst = sorted(shown, key=lambda b: -b.size)[:8]
+            listed = unexplained or list(imbalances)
+            worst = sorted(listed, key=lambda b: -b.size)[:8]
             text = "; ".join(f"joint {b.joint} in '{b.case}' is out of balance by {b.size:.3g} {case_unit.symbol}" for b in worst)
-            sev = Severity.ERROR
-            findings.append(Finding("equilibrium-residual", tuple(sorted({m for b in shown for m in b.members}))[:40],
-                                    f"the claimed forces stop balancing at {len(shown)} joint(s): {text}", sev))
+            findings.append(Finding("equilibrium-residual", tuple(sorted({m for b in listed for m in b.members}))[:40],
+                                    f"the claimed forces stop balancing at {len(listed)} joint(s): {text}", Severity.ERROR))
     checked_members = len({mid for mid, _ in seen_pairs})
     findings = ordered(findings)
     verdict = _verdict(findings, stab.classification, ref is not None)

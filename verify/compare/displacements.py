@@ -8,13 +8,11 @@ Analysis*, "Method of virtual work: trusses"; shared/REFERENCES.md 3.7), and pri
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from verify.analysis.pipeline import Analysis
-from dataclasses import replace
-
 from verify.compare.diagnose import Review, Row, _verdict
 from verify.compare.findings import Finding, Severity, ordered
 from verify.compare.tolerances import Tolerance, rounding_allowance

@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from enum import Enum
+from enum import StrEnum
 
 
-class Severity(str, Enum):
+class Severity(StrEnum):
     ERROR = "error"  # the claims disagree: the verdict becomes "discrepancies"
     BLOCKER = "blocker"  # the truss cannot be verified: the verdict becomes "cannot-verify"
     INFO = "info"  # worth knowing, never changes the verdict by itself

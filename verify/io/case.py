@@ -124,9 +124,9 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
         for joint in case.loads:
             if joint in joint_ids and joint not in connected and members:
                 ctx.add(f"load case '{case.name}' loads joint '{joint}', which no member connects; a load there cannot reach the supports", "loads", case.name, joint)
-    for joint in joints:
-        if joint.id not in connected and members:
-            ctx.add(f"joint '{joint.id}' is not connected to any member; remove it or add its members", "joints", joint.id)
+    for item in joints:
+        if item.id not in connected and members:
+            ctx.add(f"joint '{item.id}' is not connected to any member; remove it or add its members", "joints", item.id)
     ctx.problems.raise_if_any()
     assert units is not None and dim is not None
     return Model(
@@ -384,22 +384,21 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
         ctx.add("missing [supports] table; a truss needs supports (e.g. A = [\"x\", \"y\"])", line=1)
         return reactions
     axes = AXES[: dim or 3]
-    entries: list[tuple[str, Any, tuple[str, ...], str | None, int | None]] = []
+    entries: list[tuple[str, Any, tuple[str, ...], str | None, int | None]] = []  # joint, spec, path, file, line
     if isinstance(table, str):
-        for file, line, row in _csv_rows(ctx, base, table, ("supports",), ("joint",)):
+        for csv_file, csv_line, row in _csv_rows(ctx, base, table, ("supports",), ("joint",)):
             if row.get("directions"):
                 spec: Any = row["directions"].replace(",", " ").split()
             else:
                 spec = {"direction": [row.get(k, "") for k in ("nx", "ny", "nz")[: dim or 3]]}
-            entries.append((row["joint"], spec, (), file, line))
+            entries.append((row["joint"], spec, (), csv_file, csv_line))
     elif isinstance(table, dict):
         entries = [(str(k), v, ("supports", str(k)), None, None) for k, v in table.items()]
     else:
         ctx.add("[supports] must be a table (joint = [\"x\", \"y\"]) or the name of a CSV file", "supports")
         return reactions
     for jid, spec, path, file, line in entries:
-        where = {"file": file, "line": line}
-        if _joint_ref(ctx, jid, joint_ids, "support", *path, **where) is None:
+        if _joint_ref(ctx, jid, joint_ids, "support", *path, file=file, line=line) is None:
             continue
         if isinstance(spec, list):
             seen: set[str] = set()

@@ -62,14 +62,14 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         lines.append(f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)")
     lines.extend(f"note: {n}" for n in review.notes)
     check = review.displacements
-    if check is not None and getattr(check, "calcs", ()):
+    if check is not None and getattr(check, "calcs", None):
         from verify.analysis.virtual_work import render_virtual_work
 
         lines.append("")
         lines.append("Deflection by the unit-load (virtual work) method, 1 x delta = sum n N L / (EA):")
         for calc, case in zip(check.calcs, check.calc_cases, strict=True):  # type: ignore[attr-defined]
             lines.append(f"\nLoad column '{case}':")
-            lines.append(render_virtual_work(calc, model))  # type: ignore[arg-type]
+            lines.append(render_virtual_work(calc, model))
     lines.append("")
     lines.append(f"Caution: {CAUTION}")
     return "\n".join(lines)

@@ -42,9 +42,9 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         moves = ", ".join(f"{j} ({', '.join(fmt(c, 2) for c in v)})" for j, v in zip(mode.joints[:8], mode.motions[:8], strict=False))
         kind = "rigid-body" if mode.rigid_body else "internal"
         lines.append(f"  mechanism {k} ({kind}): joints that move (direction): {moves}{' ...' if len(mode.joints) > 8 else ''}")
-    for k, mode in enumerate(s.self_stress_modes, 1):
-        carried = ", ".join(f"{m} ({fmt(v, 3)})" for m, v in zip(mode.members[:10], mode.values[:10], strict=False))
-        lines.append(f"  self-stress {k}: members that carry it (relative force): {carried}{' ...' if len(mode.members) > 10 else ''}")
+    for k, state in enumerate(s.self_stress_modes, 1):
+        carried = ", ".join(f"{m} ({fmt(v, 3)})" for m, v in zip(state.members[:10], state.values[:10], strict=False))
+        lines.append(f"  self-stress {k}: members that carry it (relative force): {carried}{' ...' if len(state.members) > 10 else ''}")
     lines.extend(f"  note: {n}" for n in s.notes)
     return "\n".join(lines)
 
@@ -139,7 +139,7 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
         out.append(f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} {unknown_names}"
                    + (" (the others here wait for later steps)" if step.partial else ""))
         for axis in range(d):
-            terms = []
+            parts: list[str] = []
             for c in cols:
                 if c < b:
                     u = model.unit_vectors[c] if model.ends_index[c, 0] == j else -model.unit_vectors[c]
@@ -149,13 +149,13 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
                 if abs(coefficient) < 1e-12:
                     continue
                 if c in solved:
-                    terms.append(f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({fmt(t[c])})")
+                    parts.append(f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({fmt(t[c])})")
                 else:
-                    terms.append(_term(coefficient, names[c]))
+                    parts.append(_term(coefficient, names[c]))
             load = F[j * d + axis]
             if abs(load) > 0:
-                terms.append(f"{'+' if load >= 0 else '-'} {fmt(abs(load))}")
-            out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(terms) if terms else '0'} = 0")
+                parts.append(f"{'+' if load >= 0 else '-'} {fmt(abs(load))}")
+            out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(parts) if parts else '0'} = 0")
         out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns))
         solved.update(step.unknowns)
     out.append(f"\nCheck: largest out-of-balance force over all joint equations = {solution.max_residual:.2e} {unit}")
