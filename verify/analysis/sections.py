@@ -318,19 +318,17 @@ class _Engine:
         diff = np.bincount(lo[mask], minlength=n_layers) - np.bincount(hi[mask], minlength=n_layers)
         return np.cumsum(diff)[: n_layers - 1]
 
-    def _keep_left(self, sw: _Sweep, gaps: np.ndarray, cost_l=None, cost_r=None, sup_l=None, sup_r=None, pin_l=None):
-        cl = sw.side_cost[0][gaps] if cost_l is None else cost_l
-        cr = sw.side_cost[1][gaps] if cost_r is None else cost_r
-        sl = sw.side_supports[0][gaps] if sup_l is None else sup_l
-        sr = sw.side_supports[1][gaps] if sup_r is None else sup_r
-        pl = sw.pin_left[gaps] if pin_l is None else pin_l
+    def _keep_left(self, sw: _Sweep, gaps: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Which side of each gap to keep, and whether either side is usable at all.
+
+        Keep the side needing fewer loads and reactions (ties: the side without the pin). Without
+        reactions from overall equilibrium, only a side holding no support is usable.
+        """
+        cl, cr = sw.side_cost[0][gaps], sw.side_cost[1][gaps]
+        sl, sr = sw.side_supports[0][gaps], sw.side_supports[1][gaps]
         if self.first is not None:
-            ok = np.ones(len(cl), dtype=bool)
-            keep_left = (cl < cr) | ((cl == cr) & ~pl)
-        else:
-            ok = (sl == 0) | (sr == 0)
-            keep_left = (sl == 0) & ((sr > 0) | (cl <= cr))
-        return keep_left, ok
+            return (cl < cr) | ((cl == cr) & ~sw.pin_left[gaps]), np.ones(len(gaps), dtype=bool)
+        return (sl == 0) & ((sr > 0) | (cl <= cr)), (sl == 0) | (sr == 0)
 
     @staticmethod
     def _pairs(sw: _Sweep, gaps: np.ndarray, members: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -364,8 +362,8 @@ class _Engine:
         p = self.X[kept]
         e = np.where(kept_start[:, None], self.u[pm], -self.u[pm])
         npair = np.bincount(pc, minlength=nc)
-        q0 = np.column_stack([np.bincount(pc, weights=p[:, k], minlength=nc) for k in range(d)])
-        q0 = q0 / np.maximum(npair, 1)[:, None]
+        sums = np.column_stack([np.bincount(pc, weights=p[:, k], minlength=nc) for k in range(d)])
+        q0 = sums / np.maximum(npair, 1)[:, None]
         rel = p - q0[pc]
         Ls = np.zeros(nc)
         np.maximum.at(Ls, pc, np.maximum(np.linalg.norm(rel, axis=1), self.L[pm]))
@@ -442,6 +440,15 @@ def _ritter_2d(C: np.ndarray, P: np.ndarray, Lk: np.ndarray) -> tuple[np.ndarray
     W = np.zeros((n, k, 3))
     code = np.full((n, k), _MOMENT)
     rows = np.arange(n)
+    crosses = {}
+    for j, m in itertools.combinations(range(k), 2):
+        a, b = C[:, :, j], C[:, :, m]
+        cr = np.column_stack([
+            a[:, 1] * b[:, 2] - a[:, 2] * b[:, 1],
+            a[:, 2] * b[:, 0] - a[:, 0] * b[:, 2],
+            a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0],
+        ])
+        crosses[j, m] = (cr, np.sqrt((cr * cr).sum(axis=1)))
     for t in range(k):
         others = [j for j in range(k) if j != t]
         ct = C[:, :, t]
@@ -451,8 +458,7 @@ def _ritter_2d(C: np.ndarray, P: np.ndarray, Lk: np.ndarray) -> tuple[np.ndarray
             best = np.zeros((n, 3))
             best_norm = np.zeros(n)
             for j, m in itertools.combinations(others, 2):
-                cr = np.cross(C[:, :, j], C[:, :, m])
-                nm = np.linalg.norm(cr, axis=1)
+                cr, nm = crosses[j, m]
                 better = nm > best_norm
                 best[better] = cr[better]
                 best_norm[better] = nm[better]
@@ -512,50 +518,72 @@ def _rank_solve(C: np.ndarray, rhs: np.ndarray) -> tuple[np.ndarray, np.ndarray]
 
 
 # -- readable 3D equations ---------------------------------------------------------------------
-def _readable_3d(p: np.ndarray, e: np.ndarray, far: np.ndarray, t: int, others: Sequence[int],
-                 scale: float) -> tuple[int, np.ndarray | None, np.ndarray | None, int]:
-    """A moment axis or force direction that isolates member t (3D), for the written derivation.
+def _cross3(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Cross product over the last axis (np.cross costs ~10 us of overhead per call)."""
+    return np.stack([
+        a[..., 1] * b[..., 2] - a[..., 2] * b[..., 1],
+        a[..., 2] * b[..., 0] - a[..., 0] * b[..., 2],
+        a[..., 0] * b[..., 1] - a[..., 1] * b[..., 0],
+    ], axis=-1)
 
-    p, e, far: kept-side points, directions and far points of the unknown members. Prefers a
-    moment axis through a point where two or more other unknowns meet (Ritter), then a force sum
-    normal to all the others, then any moment axis through a joint of the cut.
-    Returns (code, point, vector, through) with through = how many others pass through the point.
+
+def _readable_3d(p: np.ndarray, e: np.ndarray, far: np.ndarray, scale: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Moment axes or force directions that isolate member 0 of each 3D cut, for the derivation.
+
+    p, e, far: (n, k, 3) kept-side joints, directions and far joints of each cut's unknown
+    members, the target first; scale: (n,) cut sizes. Candidate axes pass through a joint of
+    another unknown; the axis direction a is the part of the target's moment vector normal to the
+    other members' moment vectors about that joint, so a.m_j = 0 eliminates every other j.
+    Preference: an axis through a point where two or more others meet (Ritter), then a force sum
+    normal to all the others, then any axis found, else the least-squares solve.
+    Returns code (n,), point (n, 3) and vector (n, 3), NaN where unused.
     """
-    def orth(v: np.ndarray, basis: np.ndarray) -> np.ndarray:
-        if basis.size == 0:
-            return v
-        uu, ss, _ = np.linalg.svd(basis.T, full_matrices=False)
-        q = uu[:, ss > RANK_RTOL * max(ss.max(), 1e-300)]
-        return v - q @ (q.T @ v)
-
-    best: tuple[float, int, np.ndarray, np.ndarray] | None = None
-    points = [p[j] for j in others] + [far[j] for j in others]
-    for q in points:
-        mt = np.cross(p[t] - q, e[t])
-        mj = np.array([np.cross(p[j] - q, e[j]) for j in others]).reshape(-1, 3)
-        through = int((np.linalg.norm(mj, axis=1) <= ELIMINATED_RTOL * scale).sum())
-        a = orth(mt, mj[np.linalg.norm(mj, axis=1) > ELIMINATED_RTOL * scale])
-        na = np.linalg.norm(a)
-        if na <= ISOLATED_RTOL * scale:
-            continue
-        a = a / na
-        if np.abs(mj @ a).max(initial=0.0) > ELIMINATED_RTOL * scale:
-            continue
-        lever = abs(float(a @ mt)) / scale
-        if lever <= ISOLATED_RTOL:
-            continue
-        key = (through, lever)
-        if best is None or key > (best[1], best[0]):
-            best = (lever, through, q, a)
-    if best is not None and best[1] >= 2:
-        return _MOMENT, best[2], best[3], best[1]
-    others_e = np.array([e[j] for j in others]).reshape(-1, 3)
-    n = orth(e[t], others_e)
-    if np.linalg.norm(n) > ISOLATED_RTOL:
-        return _FORCE, None, n / np.linalg.norm(n), 0
-    if best is not None:
-        return _MOMENT, best[2], best[3], best[1]
-    return _LSQ, None, None, 0
+    n, k, _ = p.shape
+    code = np.full(n, _LSQ)
+    point = np.full((n, 3), np.nan)
+    vector = np.full((n, 3), np.nan)
+    if k == 1:
+        code[:] = _FORCE
+        vector[:] = e[:, 0]
+        return code, point, vector
+    rows = np.arange(n)
+    op, oe, of = p[:, 1:], e[:, 1:], far[:, 1:]
+    Q = np.concatenate([op, of], axis=1)  # (n, q, 3)
+    mt = _cross3(p[:, None, 0] - Q, e[:, None, 0])  # (n, q, 3)
+    mj = _cross3(op[:, None] - Q[:, :, None], oe[:, None])  # (n, q, m, 3)
+    tol = ELIMINATED_RTOL * scale
+    tiny = np.linalg.norm(mj, axis=3) <= tol[:, None, None]
+    through = tiny.sum(axis=2)
+    B = np.where(tiny[..., None], 0.0, mj)
+    _, sv, vh = np.linalg.svd(B, full_matrices=True)  # vh: (n, q, 3, 3)
+    smax = np.maximum(sv.max(axis=2, initial=0.0), 1e-300)
+    rank = (sv > RANK_RTOL * smax[..., None]).sum(axis=2)
+    coef = np.einsum("nqij,nqj->nqi", vh, mt) * (np.arange(3) < rank[..., None])
+    a = mt - np.einsum("nqi,nqij->nqj", coef, vh)
+    na = np.linalg.norm(a, axis=2)
+    valid = na > ISOLATED_RTOL * scale[:, None]
+    a = a / np.where(valid, na, 1.0)[..., None]
+    valid &= np.abs(np.einsum("nqmj,nqj->nqm", mj, a)).max(axis=2) <= tol[:, None]
+    lever = np.abs(np.einsum("nqj,nqj->nq", a, mt)) / scale[:, None]
+    valid &= lever > ISOLATED_RTOL
+    key = np.where(valid, through * 1e3 + np.minimum(lever, 999.0), -1.0)
+    pick = key.argmax(axis=1)
+    has_axis = valid[rows, pick]
+    ritter = has_axis & (through[rows, pick] >= 2)
+    uu, ss, _ = np.linalg.svd(oe.transpose(0, 2, 1), full_matrices=False)  # (n, 3, m)
+    keep = ss > RANK_RTOL * np.maximum(ss.max(axis=1, initial=0.0), 1e-300)[:, None]
+    along = np.einsum("nim,ni->nm", uu, e[:, 0]) * keep
+    normal = e[:, 0] - np.einsum("nim,nm->ni", uu, along)
+    nn = np.linalg.norm(normal, axis=1)
+    force_ok = ~ritter & (nn > ISOLATED_RTOL)
+    moment = ritter | (~force_ok & has_axis)
+    code[moment] = _MOMENT
+    point[moment] = Q[rows, pick][moment]
+    vector[moment] = a[rows, pick][moment]
+    code[force_ok] = _FORCE
+    vector[force_ok] = normal[force_ok] / nn[force_ok, None]
+    return code, point, vector
 
 
 # -- the solve ---------------------------------------------------------------------------------
@@ -568,6 +596,11 @@ class _Solver:
         self.cuts: list[SectionCut] = []
         self.budget = MAX_BODY_CANDIDATES
         self.notes: list[str] = []
+        # plain lists for the per-candidate Python loops of the non-straight free bodies
+        self.ends_list = eng.ends.tolist()
+        self.incidence = [eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]].tolist() for j in range(eng.nj)]
+        self.cost_list = eng.cost.tolist() if eng.nj else []
+        self.support_list = eng.support_count.tolist()
 
     def run(self) -> None:
         eng = self.eng
@@ -631,100 +664,111 @@ class _Solver:
         """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved across."""
         eng = self.eng
         n_layers = len(sw.stops) + 1
-        unknown = eng._gap_counts(sw.lo, sw.hi, sw.crossing & ~self.known, n_layers)
-        gaps = np.flatnonzero((unknown >= 1) & (sw.total <= MAX_CROSSING[eng.d]))
+        # a layer next to the gap must hold a joint with an unknown member: moving it may cut that
+        # member alone (the unknown need not cross the straight gap itself)
+        open_joint = np.zeros(eng.nj, dtype=bool)
+        unknown_members = np.flatnonzero(~self.known)
+        open_joint[eng.ends[unknown_members].ravel()] = True
+        open_layer = np.bincount(sw.group[open_joint], minlength=n_layers) > 0
+        gaps = np.flatnonzero((open_layer[:-1] | open_layer[1:]) & (sw.total <= MAX_CROSSING[eng.d]))
         if not len(gaps) or self.budget <= 0:
             return 0
         pc_g, pm_g = eng._pairs(sw, gaps, np.flatnonzero(sw.crossing))
         offsets = np.concatenate([[0], np.cumsum(np.bincount(pc_g, minlength=len(gaps)))])
         starts = np.concatenate([[0], sw.stops])
         ends_ = np.concatenate([sw.stops, [eng.nj]])
-        bodies: list[tuple[np.ndarray, np.ndarray, np.ndarray, bool, int, tuple[int, ...], tuple[int, ...]]] = []
+        group = sw.group.tolist()
+        known = self.known.tolist()
+        stops = sw.stops.tolist()
+        side_cost = (sw.side_cost[0].tolist(), sw.side_cost[1].tolist())
+        side_sup = (sw.side_supports[0].tolist(), sw.side_supports[1].tolist())
+        order = sw.order.tolist()
+        bodies: list[tuple[list[int], list[int], bool, int, tuple[int, ...], bool]] = []
         for gi, g in enumerate(gaps.tolist()):
             base = set(pm_g[offsets[gi] : offsets[gi + 1]].tolist())
             for layer_index, to_right in ((g, True), (g + 1, False)):
-                layer = sw.order[starts[layer_index] : ends_[layer_index]]
+                layer = order[starts[layer_index] : ends_[layer_index]]
                 if len(layer) > MAX_LAYER:
                     continue
                 for size in range(1, MAX_MOVED + 1):
-                    for moved in itertools.combinations(layer.tolist(), size):
+                    for moved in itertools.combinations(layer, size):
                         if self.budget <= 0:
                             break
-                        body = self._moved_body(sw, g, base, moved, to_right)
+                        body = self._moved_body(group, known, stops, side_cost, side_sup, g, base, moved, to_right)
                         if body is not None:
                             self.budget -= 1
                             bodies.append(body)
         if not bodies:
             return 0
-        pcs, pms, kepts, exts, sides, sup = [], [], [], [], [], []
-        for c, (members, kept, ext, keep_left, g, added, removed) in enumerate(bodies):
+        pcs, pms, kepts, sides, sup = [], [], [], [], []
+        ext = np.empty((len(bodies), eng.neq, eng.ncols))
+        for c, (members, kept, keep_left, g, moved, to_right) in enumerate(bodies):
             pcs.append(np.full(len(members), c))
             pms.append(members)
             kepts.append(kept)
-            exts.append(ext)
+            # moved joints join the kept side, or leave it
+            joins = to_right != keep_left
+            ext[c] = sw.side_ext[0 if keep_left else 1][g] + (1 if joins else -1) * eng.ext[list(moved)].sum(axis=0)
+            added, removed = (moved, ()) if joins else ((), moved)
             if keep_left:
                 sides.append(_JointSet(eng.joint_names, sw.order, 0, int(sw.stops[g]), added, removed))
             else:
                 sides.append(_JointSet(eng.joint_names, sw.order, int(sw.stops[g]), eng.nj, added, removed))
-            sup.append(bool(eng.support_count[sides[-1].indices()].sum() > 0))
-        found = eng.evaluate(np.concatenate(pcs), np.concatenate(pms), np.concatenate(kepts),
-                             np.array(exts), self.known, self.t)
+            sup.append(bool(side_sup[0 if keep_left else 1][g] + (1 if joins else -1) * sum(
+                self.support_list[j] for j in moved) > 0))
+        found = eng.evaluate(np.concatenate(pcs), np.array([m for ms in pms for m in ms], dtype=np.int64),
+                             np.array([j for ks in kepts for j in ks], dtype=np.int64), ext, self.known, self.t)
         return self._accept(found, lambda c: sides[c], lambda c: sup[c], straight=False)
 
-    def _moved_body(self, sw: _Sweep, g: int, base: set[int], moved: tuple[int, ...], to_right: bool):
-        """The free body `left of gap g` with `moved` joints sent across; None if unusable."""
+    def _moved_body(self, group: list[int], known: list[bool], stops: list[int], side_cost, side_sup,
+                    g: int, base: set[int], moved: tuple[int, ...], to_right: bool):
+        """The free body `left of gap g` with `moved` joints sent across (pure Python: it runs per
+        candidate). Returns (members, kept ends, keep_left, g, moved, to_right) or None if unusable."""
         eng = self.eng
+        ends = self.ends_list
+        incidence = self.incidence
         moved_set = set(moved)
 
         def left(j: int) -> bool:
-            return (sw.group[j] <= g) != (j in moved_set)
+            return (group[j] <= g) != (j in moved_set)
 
         incident: set[int] = set()
         for j in moved:
-            incident.update(eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]].tolist())
-        # each moved joint must join its new side through a member (a connected free body)
-        for j in moved:
-            attached = False
-            for m in eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]].tolist():
-                other = int(eng.ends[m, 1] if eng.ends[m, 0] == j else eng.ends[m, 0])
-                if other not in moved_set and left(other) == left(j):
+            side_j = left(j)
+            attached = False  # each moved joint must join its new side through a member
+            for m in incidence[j]:
+                incident.add(m)
+                a, b = ends[m]
+                other = b if a == j else a
+                if not attached and other not in moved_set and left(other) == side_j:
                     attached = True
-                    break
             if not attached:
                 return None
         members = [m for m in base if m not in incident]
-        members += [m for m in incident if left(int(eng.ends[m, 0])) != left(int(eng.ends[m, 1]))]
+        members += [m for m in incident if left(ends[m][0]) != left(ends[m][1])]
         if not members or len(members) > MAX_CROSSING[eng.d]:
             return None
-        members_arr = np.array(sorted(members), dtype=np.int64)
-        if (~self.known[members_arr]).sum() > MAX_UNKNOWNS[eng.d] or self.known[members_arr].all():
+        unknown = sum(1 for m in members if not known[m])
+        if unknown == 0 or unknown > MAX_UNKNOWNS[eng.d]:
             return None
         sign = -1 if to_right else 1  # moved joints leave (to_right) or join the left side
-        mv = np.array(moved, dtype=np.int64)
-        ext_l = sw.side_ext[0][g] + sign * eng.ext[mv].sum(axis=0)
-        ext_r = sw.side_ext[1][g] - sign * eng.ext[mv].sum(axis=0)
-        cost_l = sw.side_cost[0][g] + sign * eng.cost[mv].sum()
-        cost_r = sw.side_cost[1][g] - sign * eng.cost[mv].sum()
-        sup_l = sw.side_supports[0][g] + sign * eng.support_count[mv].sum()
-        sup_r = sw.side_supports[1][g] - sign * eng.support_count[mv].sum()
-        n_left = int(sw.stops[g]) + sign * len(moved)
+        shift_cost = sign * sum(self.cost_list[j] for j in moved)
+        shift_sup = sign * sum(self.support_list[j] for j in moved)
+        cost_l, cost_r = side_cost[0][g] + shift_cost, side_cost[1][g] - shift_cost
+        sup_l, sup_r = side_sup[0][g] + shift_sup, side_sup[1][g] - shift_sup
+        n_left = stops[g] + sign * len(moved)
         if n_left <= 0 or n_left >= eng.nj:
             return None
-        pin_l = bool(left(eng.pin)) if eng.pin >= 0 else False
-        keep, ok = eng._keep_left(sw, np.array([g]), np.array([cost_l]), np.array([cost_r]),
-                                  np.array([sup_l]), np.array([sup_r]), np.array([pin_l]))
-        if not ok[0]:
-            return None
-        keep_left = bool(keep[0])
-        kept = np.array([
-            int(eng.ends[m, 0]) if left(int(eng.ends[m, 0])) == keep_left else int(eng.ends[m, 1])
-            for m in members_arr.tolist()
-        ], dtype=np.int64)
-        if to_right:
-            added, removed = ((), moved) if keep_left else (moved, ())
+        if eng.first is not None:
+            pin_l = left(eng.pin) if eng.pin >= 0 else False
+            keep_left = cost_l < cost_r or (cost_l == cost_r and not pin_l)
         else:
-            added, removed = (moved, ()) if keep_left else ((), moved)
-        return members_arr, kept, ext_l if keep_left else ext_r, keep_left, g, added, removed
+            if sup_l and sup_r:
+                return None
+            keep_left = sup_l == 0 and (sup_r > 0 or cost_l <= cost_r)
+        members.sort()
+        kept = [ends[m][0] if left(ends[m][0]) == keep_left else ends[m][1] for m in members]
+        return members, kept, keep_left, g, moved, to_right
 
     def _accept(self, found: _Found, side, supports, *, straight: bool) -> int:
         """Record the first cut found for every newly isolated member."""
@@ -776,19 +820,21 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
         nxy[nxy == 0] = 1.0
         axis[~mom] = w[~mom, :2] / nxy[~mom, None]
     else:
-        for r in range(n):
-            lo, hi = int(found.offsets[cand[r]]), int(found.offsets[cand[r] + 1])
-            unknown_pairs = [q for q in range(lo, hi) if not known[found.pm[q]]]
-            ti = unknown_pairs.index(int(pair[r]))
-            c3, pt, ax, _ = _readable_3d(
-                eng.X[found.kept[unknown_pairs]], found.col[unknown_pairs, :3], eng.X[found.far[unknown_pairs]],
-                ti, [i for i in range(len(unknown_pairs)) if i != ti], float(Ls[r]),
-            )
-            code[r] = c3
-            if pt is not None:
-                point[r] = pt
-            if ax is not None:
-                axis[r] = ax
+        # unknown pairs of every row, the target first, grouped by their number
+        size = found.offsets[cand + 1] - found.offsets[cand]
+        unknown_of = [
+            [int(pair[r])] + [q for q in range(int(found.offsets[c]), int(found.offsets[c] + size[r]))
+                              if q != pair[r] and not known[found.pm[q]]]
+            for r, c in enumerate(cand.tolist())
+        ]
+        counts = np.array([len(u) for u in unknown_of])
+        for k in np.unique(counts):
+            rows = np.flatnonzero(counts == k)
+            idx = np.array([unknown_of[r] for r in rows], dtype=np.int64)
+            c3, pt, ax = _readable_3d(eng.X[found.kept[idx]], found.col[idx, :3], eng.X[found.far[idx]], Ls[rows])
+            code[rows] = c3
+            point[rows] = pt
+            axis[rows] = ax
     # the joint at the moment point, looked for among the joints of each cut's members
     lo = found.offsets[cand]
     size = found.offsets[cand + 1] - lo
@@ -806,7 +852,8 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
     snapped = joint_at >= 0
     point[snapped] = eng.X[joint_at[snapped]]
     point = point + eng.centre + 0.0
-    axis = axis + 0.0  # turns -0.0 into 0.0 for the report
+    # rounding noise (1e-16) and -0.0 would only clutter the report
+    axis = np.where(np.abs(axis) < 1e-14, 0.0, axis) + 0.0
     names = eng.member_names
     jn = eng.joint_names
     pm = found.pm.tolist()
@@ -938,8 +985,12 @@ def _joint_alone(eng: _Engine, known: np.ndarray, m: int) -> str | None:
 # -- user-requested cuts and single-cut solves -------------------------------------------------
 def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
     """A cut through exactly these members, its free body and the equation for the first member
-    it isolates. Raises ValueError, in plain words, if they do not split the truss or if no
-    member of the cut can be isolated (too many unknowns, or concurrent or parallel lines).
+    it isolates.
+
+    The free body is a part of the truss that removing the members separates; the side without
+    the pin is kept when possible, then the one with fewer loads and reactions. Raises ValueError,
+    in plain words, if they do not split the truss or if no member of the cut can be isolated
+    (too many unknowns, or concurrent or parallel lines).
     """
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
@@ -984,7 +1035,7 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
         if eng.first is None and supp:
             continue
         has_pin = eng.pin >= 0 and label[eng.pin] == part
-        options.append((int(eng.cost[joints].sum()), has_pin, len(joints), part, joints, supp > 0))
+        options.append((bool(has_pin), int(eng.cost[joints].sum()), len(joints), part, joints, supp > 0))
     if not options:
         raise ValueError(
             f"every free body of the cut through {listed} holds a support, and the reactions cannot be "
@@ -1041,15 +1092,27 @@ def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:
             f"{listed}, and no member is isolated by them (concurrent or parallel lines)")
 
 
-def _kept_external(model: Model, cut: SectionCut, column: int) -> list[tuple[str, np.ndarray, np.ndarray]]:
-    """(label, point, force vector) of every load and reaction on the kept side, one column."""
+@dataclass(frozen=True)
+class ExternalForce:
+    """A load or a reaction acting on a cut's free body, for one load column."""
+
+    kind: str  # "load" | "reaction"
+    label: str  # joint id for a load, "<joint>.<axis>" for a reaction component
+    point: np.ndarray
+    force: np.ndarray  # global vector
+    value: float  # the load's magnitude along its vector, or the reaction along its direction
+
+
+def kept_external(model: Model, cut: SectionCut, column: int) -> list[ExternalForce]:
+    """Every load and reaction on the kept side of `cut`, for one load column."""
     idx = cut._side.indices()
     d = model.dim
     F = model.load_matrix()[:, column].reshape(-1, d)
-    out: list[tuple[str, np.ndarray, np.ndarray]] = []
+    out: list[ExternalForce] = []
     for j in idx.tolist():
         if np.any(F[j] != 0):
-            out.append((model.joints[j].id, model.xyz[j], F[j].copy()))
+            out.append(ExternalForce("load", model.joints[j].id, model.xyz[j], F[j].copy(),
+                                     float(np.linalg.norm(F[j]))))
     kept = set(idx.tolist())
     reacting = [k for k, r in enumerate(model.reactions) if model.joint_index[r.joint] in kept]
     if reacting:
@@ -1062,7 +1125,9 @@ def _kept_external(model: Model, cut: SectionCut, column: int) -> list[tuple[str
         for k in reacting:
             reaction = model.reactions[k]
             j = model.joint_index[reaction.joint]
-            out.append((reaction.label, model.xyz[j], np.asarray(reaction.direction) * first[0][k, column]))
+            value = float(first[0][k, column])
+            out.append(ExternalForce("reaction", reaction.label, model.xyz[j],
+                                     np.asarray(reaction.direction) * value, value))
     return out
 
 
@@ -1082,13 +1147,14 @@ def _column(model: Model, load_column: int | str) -> int:
 
 def equation_row(model: Model, cut: SectionCut, point: np.ndarray, force: np.ndarray) -> float:
     """The cut's equation applied to one force acting at `point` (its coefficient in the sum)."""
-    if cut.method == FORCES_NORMAL:
-        return float(np.dot(cut.axis, force))
-    if cut.method == MOMENTS:
+    if cut.method == FORCES_NORMAL and cut.axis is not None:
+        return float(np.dot(np.asarray(cut.axis), force))
+    if cut.method == MOMENTS and cut.moment_point is not None:
         rel = np.asarray(point, dtype=float) - np.asarray(cut.moment_point)
         if model.dim == 2:
             return float(rel[0] * force[1] - rel[1] * force[0])
-        return float(np.dot(cut.axis, np.cross(rel, force)))
+        if cut.axis is not None:
+            return float(np.dot(np.asarray(cut.axis), np.cross(rel, force)))
     raise ValueError("a least-squares cut has no single equation")
 
 
@@ -1113,12 +1179,12 @@ def solve_cut(model: Model, cut: SectionCut, load_column: int | str) -> dict[str
     """
     column = _column(model, load_column)
     d = model.dim
-    external = _kept_external(model, cut, column)
+    external = kept_external(model, cut, column)
     known = {m: f[column] for m, f in zip(cut.known_members, cut.known_forces, strict=True)}
     lines = cut_lines(model, cut)
     out: dict[str, float] = {}
     if cut.method != LEAST_SQUARES:
-        total = sum(equation_row(model, cut, x, f) for _, x, f in external)
+        total = sum(equation_row(model, cut, x.point, x.force) for x in external)
         coef_t = 0.0
         for member, _, p, e in lines:
             coef = equation_row(model, cut, p, e)
@@ -1130,9 +1196,9 @@ def solve_cut(model: Model, cut: SectionCut, load_column: int | str) -> dict[str
     # the full set: F + sum N e = 0 and M + sum N (p x e) = 0, moments about the first kept joint
     ref = lines[0][2]
     ext = np.zeros(EQUATIONS[d])
-    for _, x, f in external:
-        ext[:d] += f
-        ext[d:] += _line_moment((x - ref)[None], f[None])[0]
+    for x in external:
+        ext[:d] += x.force
+        ext[d:] += _line_moment((x.point - ref)[None], x.force[None])[0]
     unknown = [ln for ln in lines if ln[0] not in known]
     for member, _, p, e in lines:
         if member in known:

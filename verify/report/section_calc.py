@@ -126,7 +126,9 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
     external = kept_external(model, cut, column)
     lines = cut_lines(model, cut)
     known = {m: f[column] for m, f in zip(cut.known_members, cut.known_forces, strict=True)}
-    scale = max([float(np.abs(x.force).max()) for x in external] + [abs(v) for v in known.values()]
+    # zero-force judgement relative to the loads of the whole column, not just the kept side
+    scale = max([float(np.abs(model.load_matrix()[:, column]).max(initial=0.0))]
+                + [float(np.abs(x.force).max()) for x in external] + [abs(v) for v in known.values()]
                 + [abs(v) for v in values.values()] + [1e-300])
     out: list[str] = []
     kept = cut.kept_joints
@@ -178,7 +180,8 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
 
 
 def _paren(x: float) -> str:
-    return f"({_n(x)})" if x < 0 else _n(x)
+    text = _n(x)
+    return f"({text})" if text.startswith("-") else text
 
 
 def _equation_text(model: Model, cut: SectionCut, external, lines, known, fu: str, lu: str) -> list[str]:
@@ -192,7 +195,8 @@ def _equation_text(model: Model, cut: SectionCut, external, lines, known, fu: st
         else:
             head = f"  ΣM about the axis through {where} along {_vec(cut.axis)} = 0"
         if elim:
-            head += f"; the lines of {elim} pass through {'it' if d == 2 else 'or parallel to it'}, so they drop out"
+            head += (f"; the lines of {elim} pass through it, so they drop out" if d == 2 else
+                     f"; the lines of {elim} meet the axis or run parallel to it, so they drop out")
         out.append(head)
         out.append(f"    force ({fu}) × lever arm ({lu}) = moment ({fu}·{lu}):")
     else:
