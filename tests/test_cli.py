@@ -105,3 +105,17 @@ def test_bad_case_file_lists_every_problem(tmp_path):
     assert code == 2
     assert "ambiguous" in err and "'Q'" in err and "12,5" in err
     assert f"{case}:" in err
+
+
+def test_cut_prints_the_ritter_calc_for_a_panel():
+    """Panel 3 of the footbridge under 'dead': U2U3 = -M(L3)/h = -(22.5*9 - 9*3 - 9*6)/2.4 (common practice: chord = M/h)."""
+    code, out, _ = run("cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead")
+    assert code == 0
+    expected = -(22.5 * 9 - 9 * 3 - 9 * 6) / 2.4
+    assert "ΣM about L3" in out
+    assert f"N(U2U3) = {expected:g} kN (C)" in out
+
+
+def test_cut_that_does_not_split_the_truss_is_explained():
+    code, _, err = run("cut", FOOTBRIDGE, "--members", "U2U3,L2L3")
+    assert code == 2 and "do not form a section" in err

@@ -119,6 +119,49 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
     click.echo(f"Caution: {CAUTION}")
 
 
+@main.command()
+@click.argument("case", type=click.Path(dir_okay=False))
+@click.option("--members", "member_list", required=True, metavar="ID,ID,...",
+              help="The members the section passes through, comma-separated (e.g. U1U2,U1L2,L1L2).")
+@click.option("--case", "load_name", default=None, help="Load case or combination (default: every one).")
+@click.option("--decimals-only", is_flag=True, help="Skip the exact values (sympy) beside the decimals.")
+def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool) -> None:
+    """Print the method-of-sections calc sheet for a cut through the given members of CASE.
+
+    Shows the free body kept, the members cut, the reactions (from overall equilibrium) and loads
+    on the kept side, the equilibrium equation with lever arms and the moment point (Ritter's
+    method) or the force sum normal to parallel members, and the forces with T/C.
+    """
+    from verify.analysis.sections import cut_for_members
+    from verify.errors import did_you_mean
+    from verify.report.section_calc import render_cut, render_reactions
+
+    model = _load(case)
+    if load_name is not None and load_name not in model.load_names:
+        click.echo(f"--case: '{load_name}' is not a load case or combination of {case}.{did_you_mean(load_name, model.load_names)}", err=True)
+        sys.exit(EXIT_BAD_INPUT)
+    from verify.analysis.stability import solve_stability
+
+    stability = solve_stability(model)
+    if not stability.is_stable:
+        click.echo(text.render_stability(model, stability))
+        click.echo("No section can be solved: the truss is unstable.")
+        sys.exit(EXIT_CANNOT_VERIFY)
+    ids = [m.strip() for m in member_list.split(",") if m.strip()]
+    try:
+        section = cut_for_members(model, ids)
+    except ValueError as exc:
+        click.echo(f"--members: {exc}", err=True)
+        sys.exit(EXIT_BAD_INPUT)
+    for name in [load_name] if load_name else model.load_names:
+        if section.uses_reactions:
+            click.echo(render_reactions(model, name, exact=not decimals_only))
+            click.echo("")
+        click.echo(render_cut(model, section, name, exact=not decimals_only))
+        click.echo("")
+    click.echo(f"Caution: {CAUTION}")
+
+
 def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: str, sheet: str | None,
                report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
                member_column: str | None, case_column: str | None, force_column: str | None,
