@@ -190,13 +190,14 @@ def solve_joints(model: Model) -> JointSolution:
             if known[c]:
                 rhs -= np.outer(coef(joint, c), t[c])
         # Which unknowns does this joint determine? Those with no component in null(M).
-        _, sv, vh = np.linalg.svd(M)
+        left, sv, vh = np.linalg.svd(M)
         rank = int((sv > DEPENDENT_RTOL * max(sv.max(), 1e-300)).sum())
         null = vh[rank:]
         determined = [k for k in range(len(unknown)) if null.size == 0 or np.abs(null[:, k]).max() < 1e-9]
         if not determined:
             continue
-        solution = np.linalg.pinv(M) @ rhs
+        # Minimum-norm solution from the same SVD; its determined components are unique.
+        solution = vh[:rank].T @ ((left[:, :rank].T @ rhs) / sv[:rank, None])
         chosen = [unknown[k] for k in determined]
         t[chosen] = solution[determined]
         steps.append(JointStep("joint", (model.joints[joint].id,), tuple(chosen), partial=len(chosen) < len(unknown)))

@@ -31,7 +31,9 @@ import scipy.sparse.linalg as spla
 from verify.analysis.equilibrium import assemble_equilibrium, rigid_body_modes
 from verify.model import Model
 
-DENSE_DOF_LIMIT = 1500  # dense SVD at most ~1 s here; above it, sparse LU (PERFORMANCE.md)
+DENSE_DOF_LIMIT = 400  # dense SVD (bases of every mode) costs ~0.1 s here; above, sparse LU first
+DENSE_DETAIL_LIMIT = 1500  # a sparse screen that finds a mechanism hands over to the dense SVD up to here
+POWER_ITERATIONS = 15  # for the sigma_min / sigma_max estimate of a large square A (a figure, not a verdict)
 RANK_RTOL = 1e-10  # singular values below RANK_RTOL * sigma_max count as zero
 ILL_CONDITIONED_SCALED = 1e-2  # see module docstring
 LU_PIVOT_SINGULAR = 1e-11  # pivots of A: sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
@@ -137,12 +139,18 @@ def _classify(m: int, s: int) -> Classification:
     return Classification.STABLE_INDETERMINATE if s > 0 else Classification.STABLE_DETERMINATE
 
 
-def solve_stability(model: Model, *, dense_limit: int = DENSE_DOF_LIMIT) -> StabilityResult:
+def solve_stability(model: Model, *, dense_limit: int = DENSE_DOF_LIMIT, detail_limit: int | None = None) -> StabilityResult:
     """Classify the truss. Never infers stability from a solver not raising: counts come from rank."""
     A = assemble_equilibrium(model)
     if model.dofs <= dense_limit and A.shape[1] <= 2 * dense_limit:
         return _dense(model, A.toarray())
-    return _sparse(model, A)
+    screened = _sparse(model, A)
+    # With an explicit dense_limit (tests of the sparse path) the hand-over follows it.
+    limit = detail_limit if detail_limit is not None else (DENSE_DETAIL_LIMIT if dense_limit == DENSE_DOF_LIMIT else dense_limit)
+    if not screened.exact_counts and model.dofs <= limit and A.shape[1] <= 2 * limit:
+        # The screen found a mechanism; the dense SVD counts them and says which joints move.
+        return _dense(model, A.toarray())
+    return screened
 
 
 def _labels(model: Model) -> list[str]:
@@ -283,12 +291,50 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
     except RuntimeError:
         ratio, singular = 0.0, True
+    sigma_ratio = scaled = None
+    ill = False
     if singular:
         notes.append("the factorisation is singular: at least one mechanism (exact count needs the dense method on a smaller model)")
         m, rank = 1, dofs - 1
     else:
         m, rank = 0, dofs
+        if cols == dofs:
+            sigma_ratio = _sigma_ratio_estimate(A, lu)
+            scaled = sigma_ratio * slender**2
+            ill = scaled < ILL_CONDITIONED_SCALED
+            notes.append(f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
+                         f"(LU pivot ratio {ratio:.2e})")
+            if ill:
+                notes.append(f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
+                             f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry")
+        else:
+            notes.append(f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for indeterminate trusses this large)")
     s = cols - rank
+    base["sigma_ratio"] = sigma_ratio
     return StabilityResult(**base, rank=rank, mechanisms=m, self_stress=s, rigid_body_mechanisms=0,  # type: ignore[arg-type]
-                           classification=_classify(m, s), exact_counts=not singular, scaled_ratio=ratio,
-                           ill_conditioned=False, notes=tuple(notes))
+                           classification=_classify(m, s), exact_counts=not singular,
+                           scaled_ratio=scaled if scaled is not None else ratio,
+                           ill_conditioned=ill, notes=tuple(notes))
+
+
+def _sigma_ratio_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
+    """sigma_min / sigma_max of a square, non-singular A by power iterations.
+
+    sigma_max from A^T A; sigma_min from (A^T A)^-1 = A^-1 A^-T, applied with the LU factors the
+    solve needs anyway, so the cost is a few triangular solves rather than an SVD.
+    """
+    rng = np.random.default_rng(0)
+    x = rng.standard_normal(A.shape[1])
+    x /= np.linalg.norm(x)
+    for _ in range(POWER_ITERATIONS):
+        y = A.T @ (A @ x)
+        x = y / np.linalg.norm(y)
+    sigma_max = float(np.sqrt(x @ (A.T @ (A @ x))))
+    z = rng.standard_normal(A.shape[1])
+    z /= np.linalg.norm(z)
+    for _ in range(POWER_ITERATIONS):
+        w = lu.solve(lu.solve(z, trans="T"))
+        z = w / np.linalg.norm(w)
+    inverse = float(z @ lu.solve(lu.solve(z, trans="T")))
+    sigma_min = 1.0 / np.sqrt(inverse) if inverse > 0 else 0.0
+    return sigma_min / sigma_max if sigma_max else 0.0

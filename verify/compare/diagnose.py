@@ -30,7 +30,7 @@ from verify.compare.convention import (
     matching_factor,
 )
 from verify.compare.findings import Finding, Severity, ordered
-from verify.compare.tolerances import Tolerance, rounding_allowance
+from verify.compare.tolerances import Tolerance, rounding_allowance, rounding_allowances
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.units import Dimension, factor, lookup_unit
 
@@ -184,9 +184,17 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     option_unit = lookup_unit(unit, Dimension.FORCE) if unit else None
     stated_units = {v.unit for v in claims.values if v.unit}
     conv = np.ones(len(claims.values))
+    unit_factor_of: dict[str | None, float] = {}
     for i, v in enumerate(claims.values):
-        source = lookup_unit(v.unit, Dimension.FORCE) if v.unit else option_unit or case_unit
-        conv[i] = factor(source, case_unit)
+        if v.unit not in unit_factor_of:
+            source = lookup_unit(v.unit, Dimension.FORCE) if v.unit else option_unit or case_unit
+            unit_factor_of[v.unit] = factor(source, case_unit)
+        conv[i] = unit_factor_of[v.unit]
+    # Per-claim arrays, computed once: raw values, T/C flags, member positions, rounding allowance.
+    raw = np.array([v.value for v in claims.values], dtype=float)
+    fixed_all = np.array([v.sign_fixed for v in claims.values], dtype=bool)
+    member_pos = np.array([model.member_index[v.member] if v.member is not None else -1 for v in claims.values], dtype=np.int64)
+    rounding_unit = rounding_allowances(raw, conv)
     unit_stated = bool(stated_units) or option_unit is not None
     unit_label = (", ".join(sorted(stated_units)) if stated_units else (option_unit.symbol if option_unit else case_unit.symbol))
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
@@ -202,29 +210,20 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             values = np.concatenate([ref.member_forces[:, k], ref.reactions[:, k]])
             scale_of[name] = float(np.nanmax(np.abs(values))) if values.size else 0.0
 
-    def computed_for(v: ClaimedValue) -> float:
-        assert ref is not None
-        return float(ref.member_forces[model.member_index[v.member], ref.column(mapping[v.column])])  # type: ignore[index,arg-type]
-
-    def atol_for(v: ClaimedValue) -> float:
-        return tol.atol_fraction * scale_of.get(mapping[v.column] or "", 0.0)
-
     # Case mismatch: a column that fits another load column much better than its own.
     remap: dict[str, str] = {}
     if comparable and ref is not None:
-        matched = [(i, v) for i, v in enumerate(claims.values) if v.member is not None]
+        column_of = np.array([v.column for v in claims.values], dtype=object)
         for column in columns:
-            col_rows = [(i, v) for i, v in matched if v.column == column]
-            if len(col_rows) < MIN_MEMBERS_FOR_TABLE:
+            idx = np.nonzero((column_of == column) & (member_pos >= 0))[0]
+            if len(idx) < MIN_MEMBERS_FOR_TABLE:
                 continue
             scores: dict[str, float] = {}
+            vals = raw[idx] * conv[idx]
             for k, load in enumerate(load_names):
-                vals = np.array([claims.values[i].value * conv[i] for i, _ in col_rows])
-                comp = np.array([ref.member_forces[model.member_index[v.member], k] for _, v in col_rows])  # type: ignore[index]
-                fixed = np.array([v.sign_fixed for _, v in col_rows])
-                atol_arr = np.full(len(col_rows), tol.atol_fraction * (scale_of[load] or 1.0))
-                rnd = np.array([rounding_allowance(claims.values[i].value, conv[i]) for i, _ in col_rows])
-                best, _ = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rnd, factors=())
+                comp = ref.member_forces[member_pos[idx], k]
+                atol_arr = np.full(len(idx), tol.atol_fraction * (scale_of[load] or 1.0))
+                best, _ = best_fit(vals, fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx], factors=())
                 scores[load] = best.share
             named: str | None = mapping.get(column)
             top = max(scores, key=lambda n: scores[n])
@@ -252,12 +251,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     support = "no recomputed forces to compare with"
     stated_sign = {SignMode.TENSION_POSITIVE: 1, SignMode.COMPRESSION_POSITIVE: -1}.get(sign, 1)
     if comparable and member_claims:
-        vals = np.array([v.value * conv[i] * (stated_sign if not v.sign_fixed else 1) for i, v in member_claims])
-        comp = np.array([computed_for(v) for _, v in member_claims])
-        fixed = np.array([v.sign_fixed for _, v in member_claims])
-        atol_arr = np.array([atol_for(v) for _, v in member_claims])
-        rnd = np.array([rounding_allowance(v.value, conv[i]) for i, v in member_claims])
-        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rnd)
+        idx = np.array([i for i, _ in member_claims], dtype=np.int64)
+        fixed = fixed_all[idx]
+        vals = raw[idx] * conv[idx] * np.where(fixed, 1.0, float(stated_sign))
+        load_pos = np.array([load_names.index(mapping[v.column]) for _, v in member_claims], dtype=np.int64)  # type: ignore[arg-type]
+        comp = ref.member_forces[member_pos[idx], load_pos]  # type: ignore[union-attr]
+        scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names])
+        atol_arr = tol.atol_fraction * scale_arr[load_pos]
+        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx])
         n = best.informative
         support = f"{identity.agree} of {n} informative claims agree as read"
         table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
@@ -306,17 +307,17 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         k = load_names.index(name)
         signed = v.value if v.sign_fixed else v.value * effective_sign
         value = signed * conv[i] * scale_fit
-        rounding = rounding_allowance(v.value, conv[i] * scale_fit)
+        rounding = float(rounding_unit[i]) * scale_fit
         written = f"{v.value:g}{' (T/C)' if v.sign_fixed else ''} at {v.where}"
         if v.reaction is not None:
             joint, axis = v.reaction
             # Reactions are global components: the table sign convention for T/C does not apply.
             value = v.value * conv[i] * scale_fit
-            idx = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
+            matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
             computed = None
-            if ref is not None and idx:
-                computed = float(ref.reactions[idx[0], k])
-                reaction_claims[(idx[0], k)] = value
+            if ref is not None and matches:
+                computed = float(ref.reactions[matches[0], k])
+                reaction_claims[(matches[0], k)] = value
             status = "not-verifiable" if computed is None else (
                 "agrees" if tol.agrees(value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding) else "value-mismatch")
             rows.append(Row(f"{joint}.{axis}", "reaction", name, value, written, None, None, computed, None,

@@ -17,6 +17,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 RTOL = 0.01
 ATOL_FRACTION = 1e-3
 MAX_DECIMALS = 6
@@ -52,3 +54,16 @@ def rounding_allowance(raw_value: float, scale: float) -> float:
     # Whole numbers written as e.g. "12" are read as 0 decimals, but many tables round to
     # 3 significant figures instead; the relative tolerance covers those.
     return 0.5 * 10.0 ** (-k) * abs(scale) * 1.0001
+
+
+def rounding_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarray:
+    """Vectorised :func:`rounding_allowance` for many claims at once."""
+    values = np.asarray(raw_values, dtype=float)
+    out = np.zeros(values.shape)
+    pending = np.isfinite(values)
+    slack = 1e-9 * np.maximum(1.0, np.abs(values))
+    for k in range(MAX_DECIMALS):
+        hit = pending & (np.abs(values - np.round(values, k)) <= slack)
+        out[hit] = 0.5 * 10.0 ** (-k)
+        pending &= ~hit
+    return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001

@@ -11,6 +11,8 @@ def fmt(value: float | None, digits: int = 4) -> str:
         return "—"
     if value == 0 or abs(value) < 1e-12:
         return "0"
+    # Round away float noise first, so 75.37499999999 and 75.37500000001 print alike.
+    value = float(f"{value:.10g}")
     magnitude = math.floor(math.log10(abs(value)))
     decimals = max(digits - 1 - magnitude, 0)
     text = f"{value:.{decimals}f}"
