@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 import re
 import tomllib
 from collections.abc import Iterator
@@ -537,11 +536,20 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
     # Coincident joints: sort on a rounded key, then compare neighbours (n log n).
     keys = np.round(xyz / max(tol, 1e-300))
     order = np.lexsort(keys.T[::-1])
-    for a, b in zip(order[:-1], order[1:], strict=False):
-        if np.all(np.abs(xyz[a] - xyz[b]) <= tol):
-            first, second = sorted((usable[a].id, usable[b].id), key=lambda jid: ctx.origins.get(("joint", jid), ("", 0))[1])
-            ctx.add_at("joint", second, f"joints '{first}' and '{second}' are at the same point {usable[a].coords}; merge them", "joints", second)
-    position = {j.id: np.array(j.coords) for j in usable}
+    close = np.all(np.abs(xyz[order[1:]] - xyz[order[:-1]]) <= tol, axis=1) if len(order) > 1 else np.zeros(0, bool)
+    for n in np.nonzero(close)[0]:
+        a, b = int(order[n]), int(order[n + 1])
+        first, second = sorted((usable[a].id, usable[b].id), key=lambda jid: ctx.origins.get(("joint", jid), ("", 0))[1])
+        ctx.add_at("joint", second, f"joints '{first}' and '{second}' are at the same point {usable[a].coords}; merge them", "joints", second)
+    position = {j.id: k for k, j in enumerate(usable)}
+    placed = [m for m in members if m.start in position and m.end in position and m.start != m.end]
+    if placed:
+        starts = np.array([position[m.start] for m in placed])
+        stops = np.array([position[m.end] for m in placed])
+        lengths = np.linalg.norm(xyz[stops] - xyz[starts], axis=1)
+        for n in np.nonzero(~(lengths > tol))[0]:
+            m = placed[int(n)]
+            ctx.add_at("member", m.id, f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)
     pairs: dict[frozenset[str], str] = {}
     for m in members:
         if m.start == m.end:
@@ -552,7 +560,3 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
             ctx.add_at("member", m.id, f"members '{pairs[key]}' and '{m.id}' both join '{m.start}' and '{m.end}'; a pin-jointed model needs one member per joint pair", "members", m.id)
         else:
             pairs[key] = m.id
-        if m.start in position and m.end in position:
-            length = float(np.linalg.norm(position[m.end] - position[m.start]))
-            if length <= tol or not math.isfinite(length):
-                ctx.add_at("member", m.id, f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)
