@@ -119,3 +119,39 @@ def test_cut_prints_the_ritter_calc_for_a_panel():
 def test_cut_that_does_not_split_the_truss_is_explained():
     code, _, err = run("cut", FOOTBRIDGE, "--members", "U2U3,L2L3")
     assert code == 2 and "do not form a section" in err
+
+
+@pytest.mark.parametrize("content, fragment", [
+    ("", "empty"),
+    ("Member,Dead (kN)\nL0-L1,twelve\n", "twelve"),
+    ("Member,Dead (kN)\nL0-L1,12.0\nL0-L1,13.0\n", "L0"),
+    ("Member,Dead (kN)\nL0-L1,nan\n", "nan"),
+])
+def test_malformed_claims_file_is_one_message_exit_2(tmp_path, content, fragment):
+    claims = tmp_path / "claims.csv"
+    claims.write_text(content)
+    before = claims.read_bytes()
+    code, out, err = run("check", FOOTBRIDGE, "--claims", claims)
+    assert code == 2 and fragment.lower() in err.lower() and "Traceback" not in err + out
+    assert str(claims) in err
+    assert claims.read_bytes() == before  # inputs are never modified
+
+
+def test_csv_output_neutralises_formula_labels(tmp_path):
+    """A label such as '=cmd()' must not become a spreadsheet formula (OWASP CSV injection, common practice)."""
+    case = tmp_path / "case.toml"
+    case.write_text('[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [4, 0]\nC = [2, 3]\n'
+                    '[members]\n"=cmd()" = ["A", "B"]\nBC = ["B", "C"]\nCA = ["C", "A"]\n'
+                    '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads."+dead"]\nC = [0, -10]\n')
+    claims = tmp_path / "claims.csv"
+    claims.write_text('Member,+dead (kN)\n=cmd(),3.333 T\nBC,6.009 C\nCA,6.009 C\n')
+    out_csv = tmp_path / "out.csv"
+    code, _, err = run("check", case, "--claims", claims, "--csv", out_csv)
+    text = out_csv.read_text()
+    assert "'=cmd()" in text and "'+dead" in text
+    assert "\n=cmd()" not in text
+    # Numbers stay numbers: the claimed value column of the first row parses as a float.
+    first = text.splitlines()[1].split(",")
+    assert float(first[3]) == pytest.approx(3.333)
+    # King-post statics (REFERENCES.md 3.3 general form): tie = P/(2 tan a) = 10/3, rafters = P/(2 sin a).
+    assert code == 0, err

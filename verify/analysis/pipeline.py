@@ -59,7 +59,8 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
         else:
             missing = model.members_without_stiffness()
             notes.append(
-                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} member(s) lack EA: "
+                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} member(s) lack EA "
+                f"({', '.join(missing[:10])}{' ...' if len(missing) > 10 else ''}): the forces cannot be recomputed; "
                 "only the equilibrium of claimed forces can be checked"
             )
         return Analysis(model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA)

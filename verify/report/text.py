@@ -91,6 +91,11 @@ def render_solution(model: Model, analysis: Analysis) -> str:
             + (" (BEYOND round-off: check geometry)" if analysis.route_disagreement > 1e-6 else "")
         )
     parts.extend(f"note: {n}" for n in analysis.notes)
+    elastic = analysis.elastic
+    if elastic is not None and analysis.global_ is None:
+        parts.extend(f"note: {n}" for n in getattr(elastic, "notes", ()))
+        if getattr(elastic, "equal_EA_assumed", False):
+            parts.insert(0, "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution depends on that assumption.\n")
     if analysis.joints is not None:
         parts.extend(f"note: {n}" for n in analysis.joints.notes)
     return "\n".join(parts)
