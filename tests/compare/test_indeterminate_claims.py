@@ -9,12 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 import scipy.linalg
+from claimsgen import table
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
-
-from claimsgen import table
 from test_stiffness import braced_case
 from trussgen import make_model
+
 from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.pipeline import analyse
 from verify.analysis.stability import Classification
