@@ -147,11 +147,14 @@ def solve_joints(model: Model) -> JointSolution:
     u = model.unit_vectors
     r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
     ends = model.ends_index
-
-    def coef(joint: int, col: int) -> np.ndarray:
-        if col >= b:
-            return r_dir[col - b]
-        return u[col] if ends[col, 0] == joint else -u[col]
+    # Per joint: its columns and the d x k block of direction cosines acting on it (built once).
+    cols_arr = [np.asarray(cols, dtype=np.int64) for cols in cols_at]
+    blocks = []
+    for j, cols in enumerate(cols_arr):
+        members = cols[cols < b]
+        sign = np.where(ends[members, 0] == j, 1.0, -1.0)
+        block = np.concatenate([(u[members] * sign[:, None]).T, r_dir[cols[cols >= b] - b].T], axis=1)
+        blocks.append(block)
 
     unknown_count = np.array([sum(1 for c in cols if not known[c]) for cols in cols_at], dtype=np.int64)
     primary: deque[int] = deque(j for j in range(n_j) if 0 < unknown_count[j] <= d)
@@ -175,20 +178,29 @@ def solve_joints(model: Model) -> JointSolution:
 
     while primary or secondary:
         joint = primary.popleft() if primary else secondary.popleft()
-        cols = cols_at[joint]
-        unknown = [c for c in cols if not known[c]]
-        if not unknown or len(unknown) > d + 1:
+        count = int(unknown_count[joint])
+        if count == 0 or count > d + 1:
             continue
-        if len(unknown) == d + 1:
+        if count == d + 1:
             key = (joint, int(unknown_count[joint]))
             if key in tried_partial:
                 continue
             tried_partial.add(key)
-        M = np.column_stack([coef(joint, c) for c in unknown])
-        rhs = -F[joint * d : (joint + 1) * d].copy()
-        for c in cols:
-            if known[c]:
-                rhs -= np.outer(coef(joint, c), t[c])
+        cols_j = cols_arr[joint]
+        is_known = known[cols_j]
+        block = blocks[joint]
+        M = block[:, ~is_known]
+        rhs = -F[joint * d : (joint + 1) * d] - block[:, is_known] @ t[cols_j[is_known]]
+        unknown = [int(c) for c in cols_j[~is_known]]
+        if M.shape[1] == d:
+            # The common hand-calc step: d independent unknowns, d equations.
+            scale = float(np.prod(np.linalg.norm(M, axis=0)))
+            det = float(np.linalg.det(M))
+            if abs(det) > DEPENDENT_RTOL * max(scale, 1e-300):
+                t[unknown] = np.linalg.solve(M, rhs)
+                steps.append(JointStep("joint", (model.joints[joint].id,), tuple(unknown)))
+                mark(unknown)
+                continue
         # Which unknowns does this joint determine? Those with no component in null(M).
         left, sv, vh = np.linalg.svd(M)
         rank = int((sv > DEPENDENT_RTOL * max(sv.max(), 1e-300)).sum())
