@@ -2,12 +2,10 @@
 
 from __future__ import annotations
 
-from tabulate import tabulate
-
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
 from verify.report.cautions import CAUTION
-from verify.report.numbers import fmt
+from verify.report.numbers import fmt, plain_table
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
 
@@ -56,7 +54,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         lines.append(f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for everything), {model.units.force.symbol}, tension positive:")
     else:
         lines.append(f"Member table ({model.units.force.symbol}, tension positive):")
-    lines.append(tabulate([_row_cells(r) for r in shown], headers=headers, disable_numparse=True, stralign="right"))
+    lines.append(plain_table(headers, [_row_cells(r) for r in shown]))
     missing = sum(1 for r in review.rows if r.status == "missing-claim")
     if missing and not all_rows:
         lines.append(f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)")

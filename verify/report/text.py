@@ -9,7 +9,7 @@ from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import StabilityResult
 from verify.model import Model
-from verify.report.numbers import fmt, tc
+from verify.report.numbers import fmt, plain_table, tc
 
 AXIS_NAMES = ("x", "y", "z")
 
@@ -70,7 +70,7 @@ def force_table(model: Model, analysis: Analysis, load_name: str) -> str:
         row = [member.id, fmt(value if abs(value) > zero else 0.0), tc(value, zero_tol=zero)]
         row.extend(fmt(float(v[i]) if abs(v[i]) > zero else 0.0) if np.isfinite(v[i]) else "not reached" for _, v in routes)
         rows.append(row)
-    table = tabulate(rows, headers=headers, disable_numparse=True, stralign="right")
+    table = plain_table(headers, rows)
     reactions = ref.reaction_vectors(model, load_name)
     rrows = [[j] + [fmt(c) for c in vec] for j, vec in reactions.items()]
     rtable = tabulate(rrows, headers=["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], disable_numparse=True, stralign="right")
