@@ -94,6 +94,9 @@ class Model:
     unit_vectors: np.ndarray = field(init=False, repr=False, compare=False)
     joint_index: Mapping[str, int] = field(init=False, repr=False, compare=False)
     member_index: Mapping[str, int] = field(init=False, repr=False, compare=False)
+    # Results of pure functions of this model (load matrix, overall-equilibrium reactions),
+    # kept so that reports asking for them per cut or per row do not recompute them.
+    memo: dict[str, object] = field(init=False, repr=False, compare=False, default_factory=dict)
 
     def __post_init__(self) -> None:
         joint_index = {j.id: i for i, j in enumerate(self.joints)}
@@ -139,7 +142,19 @@ class Model:
         return [m.id for m in self.members if m.EA is None]
 
     def load_matrix(self) -> np.ndarray:
-        """Applied joint loads, dofs x (cases + combinations); combinations by superposition."""
+        """Applied joint loads, dofs x (cases + combinations); combinations by superposition.
+
+        Computed once per model and returned read-only (copy it to modify).
+        """
+        cached = self.memo.get("load_matrix")
+        if isinstance(cached, np.ndarray):
+            return cached
+        F = self._assemble_loads()
+        F.setflags(write=False)
+        self.memo["load_matrix"] = F
+        return F
+
+    def _assemble_loads(self) -> np.ndarray:
         n_cases = len(self.cases)
         F = np.zeros((self.dofs, n_cases + len(self.combinations)))
         for k, case in enumerate(self.cases):

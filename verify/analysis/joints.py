@@ -91,7 +91,16 @@ def _moment(p: np.ndarray, n: np.ndarray) -> np.ndarray:
 
 
 def solve_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
-    """Reactions from overall equilibrium when the supports are externally determinate."""
+    """Reactions from overall equilibrium when the supports are externally determinate.
+
+    Memoised on the model: section calc sheets ask for it once per cut.
+    """
+    if "overall_reactions" not in model.memo:
+        model.memo["overall_reactions"] = _solve_reactions(model)
+    return model.memo["overall_reactions"]  # type: ignore[return-value]
+
+
+def _solve_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
     rows = 3 if model.dim == 2 else 6
     if len(model.reactions) != rows:
         return None
@@ -224,12 +233,13 @@ def solve_joints(model: Model) -> JointSolution:
         rhs = -F[rows_needed] - A[rows_needed][:, known] @ np.nan_to_num(t[known])
         joints_involved = sorted({int(x) // d for x in rows_needed})
         if sub.shape[0] == sub.shape[1]:
-            solution = spla.splu(sub).solve(rhs)
+            # Same ordering choice as the global solve: COLAMD fill-in explodes on 3D systems.
+            solution = spla.splu(sub, permc_spec="MMD_ATA" if d == 3 else "COLAMD").solve(rhs)
         elif min(sub.shape) <= 3000:
             solution = np.linalg.lstsq(sub.toarray(), rhs, rcond=None)[0]
         else:
             normal = (sub.T @ sub).tocsc()
-            solution = spla.splu(normal).solve(sub.T @ rhs)
+            solution = spla.splu(normal, permc_spec="MMD_AT_PLUS_A").solve(sub.T @ rhs)
         t[rest] = solution.reshape(len(rest), -1)
         steps.append(JointStep("simultaneous", tuple(model.joints[j].id for j in joints_involved), tuple(int(c) for c in rest)))
         notes.append(

@@ -301,7 +301,7 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         if cols == dofs:
             sigma_ratio = _sigma_ratio_estimate(A, lu)
             scaled = sigma_ratio * slender**2
-            ill = scaled < ILL_CONDITIONED_SCALED
+            ill = bool(scaled < ILL_CONDITIONED_SCALED)
             notes.append(f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
                          f"(LU pivot ratio {ratio:.2e})")
             if ill:

@@ -6,6 +6,8 @@ import json
 import math
 from typing import Any
 
+import numpy as np
+
 from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.model import Model
@@ -14,6 +16,8 @@ from verify.report.cautions import CAUTION
 
 def _clean(value: Any) -> Any:
     """JSON has no NaN: a value a route could not obtain becomes null."""
+    if isinstance(value, np.generic):
+        value = value.item()  # numpy scalars (bool_, float64, int64) are not JSON types
     if isinstance(value, float):
         return None if not math.isfinite(value) else value
     if isinstance(value, dict):
