@@ -22,6 +22,9 @@ from verify.report import json_out, text
 from verify.report.cautions import CAUTION
 
 
+MAX_PRINTED_CUTS = 100  # a calc sheet per cut; beyond this a print-out stops being readable
+
+
 def _fail_input(error: InputError) -> None:
     click.echo(error.render(), err=True)
     sys.exit(EXIT_BAD_INPUT)
@@ -111,11 +114,15 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
     if show in ("sections", "all") and analysis.sections is not None:
         from verify.report.section_calc import render_cut, render_reactions
 
+        cuts = analysis.sections.cuts  # type: ignore[attr-defined]
         for name in names:
             click.echo(render_reactions(model, name))
-            for cut in analysis.sections.cuts:  # type: ignore[attr-defined]
-                click.echo(render_cut(model, cut, name))
+            for section in cuts[:MAX_PRINTED_CUTS]:
+                click.echo(render_cut(model, section, name))
                 click.echo("")
+            if len(cuts) > MAX_PRINTED_CUTS:
+                click.echo(f"... {len(cuts) - MAX_PRINTED_CUTS} more cuts not printed; "
+                           "`truss-verify cut CASE --members A,B,C` prints the calc for any section.\n")
     click.echo(f"Caution: {CAUTION}")
 
 
