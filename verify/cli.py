@@ -21,7 +21,6 @@ from verify.model import Model
 from verify.report import json_out, text
 from verify.report.cautions import CAUTION
 
-
 MAX_PRINTED_CUTS = 100  # a calc sheet per cut; beyond this a print-out stops being readable
 
 
@@ -83,7 +82,8 @@ def _stability_only(model: Model) -> Analysis:
 @click.option("--case", "load_name", default=None, help="Load case or combination for the hand calc (default: every one).")
 @click.option("--assume-equal-ea", type=float, default=None, metavar="EA",
               help="For an indeterminate truss without stiffness data: assume this EA for every member (said in every output).")
-def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equal_ea: float | None) -> None:
+@click.option("--all-rows", is_flag=True, help="List every member even in very large trusses (default: the 5000 largest forces).")
+def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equal_ea: float | None, all_rows: bool) -> None:
     """Recompute every member force (tension positive, T/C) and reaction of CASE."""
     model = _load(case)
     analysis = analyse(model, assume_equal_EA=assume_equal_ea)
@@ -106,7 +106,7 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
     click.echo("")
     names = [load_name] if load_name else model.load_names
     if show in ("forces", "all"):
-        click.echo(text.render_solution(model, analysis))
+        click.echo(text.render_solution(model, analysis, all_rows=all_rows))
     if show in ("joints", "all") and analysis.joints is not None:
         for name in names:
             click.echo(text.render_joint_calc(model, analysis.joints, name))

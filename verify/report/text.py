@@ -49,7 +49,10 @@ def render_stability(model: Model, s: StabilityResult) -> str:
     return "\n".join(lines)
 
 
-def force_table(model: Model, analysis: Analysis, load_name: str) -> str:
+MAX_TEXT_MEMBERS = 5000  # above this the terminal table lists the largest forces; --json has all
+
+
+def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: bool = False) -> str:
     ref = analysis.reference
     assert ref is not None
     k = ref.column(load_name)
@@ -65,7 +68,16 @@ def force_table(model: Model, analysis: Analysis, load_name: str) -> str:
     for name, _ in routes:
         headers.append(name)
     rows = []
-    for i, member in enumerate(model.members):
+    shown: list[int] | range = range(len(model.members))
+    note = ""
+    if not all_rows and len(model.members) > MAX_TEXT_MEMBERS:
+        # The members a checker looks at first: the largest tension and compression.
+        order = np.argsort(-np.abs(np.nan_to_num(ref.member_forces[:, k])), kind="stable")[:MAX_TEXT_MEMBERS]
+        shown = sorted(int(i) for i in order)
+        note = (f"\n({len(model.members) - MAX_TEXT_MEMBERS} members with smaller forces are not listed; "
+                "--all-rows lists every member, --json gives every value)")
+    for i in shown:
+        member = model.members[i]
         value = float(ref.member_forces[i, k])
         row = [member.id, fmt(value if abs(value) > zero else 0.0), tc(value, zero_tol=zero)]
         row.extend(fmt(float(v[i]) if abs(v[i]) > zero else 0.0) if np.isfinite(v[i]) else "not reached" for _, v in routes)
@@ -74,16 +86,16 @@ def force_table(model: Model, analysis: Analysis, load_name: str) -> str:
     reactions = ref.reaction_vectors(model, load_name)
     rrows = [[j] + [fmt(c) for c in vec] for j, vec in reactions.items()]
     rtable = tabulate(rrows, headers=["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], disable_numparse=True, stralign="right")
-    return f"{table}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
+    return f"{table}{note}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
 
 
-def render_solution(model: Model, analysis: Analysis) -> str:
+def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False) -> str:
     parts = []
     unit = model.units.force.symbol
     route = "global sparse solve" if analysis.global_ is not None else "direct stiffness method"
     for name in model.load_names:
         parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
-        parts.append(force_table(model, analysis, name))
+        parts.append(force_table(model, analysis, name, all_rows=all_rows))
         parts.append("")
     if analysis.joints is not None:
         parts.append(
