@@ -156,7 +156,7 @@ def solve_joints(model: Model) -> JointSolution:
     inc_joint = np.concatenate([ends[:, 0], ends[:, 1], r_joint])
     inc_col = np.concatenate([np.arange(b), np.arange(b), b + np.arange(r)])
     inc_vec = np.concatenate([u, -u, r_dir]) if b + r else np.zeros((0, d))
-    order = np.argsort(inc_joint, kind="stable")
+    order = np.lexsort((inc_col, inc_joint))  # by joint, then column: unknowns in member order
     inc_col, inc_vec = inc_col[order], np.ascontiguousarray(inc_vec[order].T)
     ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=n_j))])
     cols_arr = [inc_col[ptr[j]:ptr[j + 1]] for j in range(n_j)]
