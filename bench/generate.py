@@ -98,11 +98,9 @@ def grid(cells: int) -> Truss:
     if cells < 2:
         raise ValueError(f"grid needs at least 2 cells per side, got {cells}")
     n = cells
-    bi, bj = np.meshgrid(np.arange(n + 1), np.arange(n + 1), indexing="ij")
-    bi, bj = bi.ravel(), bj.ravel()
+    bi, bj = (a.ravel() for a in np.meshgrid(np.arange(n + 1), np.arange(n + 1), indexing="ij"))
     bottom = np.arange((n + 1) ** 2).reshape(n + 1, n + 1)
-    ti, tj = np.meshgrid(np.arange(n), np.arange(n), indexing="ij")
-    ti, tj = ti.ravel(), tj.ravel()
+    ti, tj = (a.ravel() for a in np.meshgrid(np.arange(n), np.arange(n), indexing="ij"))
     top = (n + 1) ** 2 + np.arange(n * n)
     xyz = np.vstack([
         np.column_stack([bi, bj, np.zeros(bi.size)]).astype(float),
@@ -157,22 +155,22 @@ def write_case(truss: Truss, directory: str | Path) -> Path:
     lines = ["id,start,end"]
     lines += [f"{m},{ids[s]},{ids[e]}" for m, (s, e) in zip(truss.member_ids, truss.ends.tolist(), strict=True)]
     (out / "members.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
-    lines = ["joint,directions"] + [f"{ids[j]},{d}" for j, d in truss.supports]
+    lines = ["joint,directions"] + [f"{ids[j]},{axes_}" for j, axes_ in truss.supports]
     (out / "supports.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     lines = ["case,joint," + ",".join(f"f{a}" for a in axes)]
     for case, vectors in truss.loads.items():
         for j in np.nonzero(np.abs(vectors).sum(axis=1))[0]:
             lines.append(f"{case},{ids[j]}," + ",".join(_fmt(vectors[j])))
     (out / "loads.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
-    case = out / "case.toml"
+    path = out / "case.toml"
     # The table names come before [units]: bare keys after a [table] header would belong to it.
-    case.write_text(
+    path.write_text(
         f'title = "Benchmark {truss.family}, {truss.members} members (parameter {truss.parameter})"\n'
         'joints = "joints.csv"\nmembers = "members.csv"\nsupports = "supports.csv"\nloads = "loads.csv"\n\n'
         '[units]\nlength = "m"\nforce = "kN"\n',
         encoding="utf-8",
     )
-    return case
+    return path
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -42,6 +42,7 @@ import threading
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
@@ -114,7 +115,12 @@ def sections_available() -> bool:
 
 
 # -- stages inside one process (run as a child: python bench/run.py --stages CASE CLAIMS) --------
-def stages_child(case: str, claims: str) -> int:
+STAGES = ("import verify", "floor in-process", "read_case", "assemble_equilibrium", "solve_stability", "solve_joints",
+          "solve_global", "solve_sections", "render solve text", "read_claims", "compare_claims", "render check text")
+SKIPPABLE = ("solve_joints", "solve_global", "solve_sections")  # routes the later stages can do without
+
+
+def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> int:
     """Print one JSON line per stage as it finishes, so a timeout still leaves the earlier ones."""
 
     def emit(stage: str, seconds: float, **extra: object) -> None:
@@ -150,24 +156,29 @@ def stages_child(case: str, claims: str) -> int:
     t = clock()
     stability = solve_stability(model)
     emit("solve_stability", clock() - t, method=stability.method, classification=stability.classification.value)
-    t = clock()
-    joints = solve_joints(model)
-    emit("solve_joints", clock() - t, stalled=joints.stalled)
-    t = clock()
-    global_ = solve_global(model)
-    emit("solve_global", clock() - t)
-    sections = None
-    if sections_available():
+    joints = global_ = sections = None
+    if "solve_joints" not in skip:
+        t = clock()
+        joints = solve_joints(model)
+        emit("solve_joints", clock() - t, stalled=joints.stalled)
+    if "solve_global" not in skip:
+        t = clock()
+        global_ = solve_global(model)
+        emit("solve_global", clock() - t)
+    if sections_available() and "solve_sections" not in skip:
         from verify.analysis.sections import solve_sections
 
         t = clock()
         sections = solve_sections(model)
         emit("solve_sections", clock() - t)
     t = clock()
-    disagreement = route_disagreement(global_, joints.forces, getattr(sections, "forces", None))
-    analysis = Analysis(model, stability, joints=joints, global_=global_, sections=sections, route_disagreement=disagreement)
+    reference = global_ or (joints.forces if joints else None)
+    disagreement = route_disagreement(reference, getattr(joints, "forces", None), getattr(sections, "forces", None)) if reference else 0.0
+    analysis = Analysis(model, stability, joints=joints, global_=global_ or reference, sections=sections,
+                        route_disagreement=disagreement)
     text.render_stability(model, stability)
-    text.render_solution(model, analysis)
+    if reference is not None:
+        text.render_solution(model, analysis)
     emit("render solve text", clock() - t)
     t = clock()
     table = read_claims(claims, model)
@@ -181,29 +192,53 @@ def stages_child(case: str, claims: str) -> int:
     return 0
 
 
-def stage_times(case: Path, claims: Path, timeout: float) -> tuple[dict[str, float], dict[str, object], str | None]:
-    cmd = [PYTHON, str(HERE / "run.py"), "--stages", str(case), str(claims)]
-    try:
-        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, cwd=ROOT)
-        out, error = proc.stdout, (None if proc.returncode == 0 else proc.stderr.strip().splitlines()[-1:])
-    except subprocess.TimeoutExpired as exc:
-        out = exc.stdout.decode() if isinstance(exc.stdout, bytes) else (exc.stdout or "")
-        error = [f"timed out after {timeout:.0f} s"]
+def stage_times(case: Path, claims: Path, timeout: float) -> tuple[dict[str, float], dict[str, object], list[str], str | None]:
+    """Stage times; a route stage that times out is recorded and skipped in a fresh child."""
     times: dict[str, float] = {}
     extra: dict[str, object] = {}
-    for line in out.splitlines():
-        if line.startswith("{"):
-            record = json.loads(line)
-            times[record.pop("stage")] = record.pop("seconds")
-            extra.update(record)
-    return times, extra, (" ".join(error) if error else None)
+    timed_out: list[str] = []
+    for _ in range(len(SKIPPABLE) + 1):
+        cmd = [PYTHON, str(HERE / "run.py"), "--stages", str(case), str(claims), "--skip-stages", ",".join(timed_out)]
+        error: str | None = None
+        try:
+            proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, cwd=ROOT)
+            out = proc.stdout
+            if proc.returncode != 0:
+                error = " ".join(proc.stderr.strip().splitlines()[-1:])
+        except subprocess.TimeoutExpired as exc:  # subprocess.run kills only the child it started
+            out = exc.stdout.decode() if isinstance(exc.stdout, bytes) else (exc.stdout or "")
+            error = f"timed out after {timeout:.0f} s"
+        done: list[str] = []
+        for line in out.splitlines():
+            if line.startswith("{"):
+                record = json.loads(line)
+                name = record.pop("stage")
+                done.append(name)
+                times.setdefault(name, record.pop("seconds"))
+                extra.update(record)
+        if error is None or not error.startswith("timed out"):
+            return times, extra, timed_out, error
+        pending = [s for s in STAGES if s not in done and s not in timed_out
+                   and (s != "solve_sections" or sections_available())]
+        if not pending or pending[0] not in SKIPPABLE:
+            return times, extra, timed_out, f"{error} in {pending[0] if pending else '?'}"
+        timed_out.append(pending[0])
+    return times, extra, timed_out, None
 
 
 # -- the run ------------------------------------------------------------------------------------
-def fmt_s(t: Timing | None) -> str:
-    if t is None or t.seconds is None:
-        return "—" if t is None else f"failed ({t.error})"
-    return f"{t.seconds:.3f}" + (f" [{t.error}]" if t.error else "")
+def fmt_s(t: Timing | None, *, full: bool = False) -> str:
+    """Seconds; a failure shows its first words in tables and the whole error where `full`."""
+    if t is None:
+        return "—"
+    error = t.error if full or not t.error else t.error.split(":")[0]
+    if t.seconds is None and t.error and t.error.startswith("timed out after"):
+        return ">" + t.error.removeprefix("timed out after ").removesuffix(" s") + " (timed out)"
+    if t.seconds is None and t.error and t.error.startswith("skipped"):
+        return t.error if full else "skipped"
+    if t.seconds is None:
+        return f"failed ({error})"
+    return f"{t.seconds:.3f}" + (f" [{error}]" if error else "")
 
 
 def ratio(a: Timing | None, b: Timing | None) -> float | None:
@@ -223,7 +258,7 @@ def with_ratio(a: Timing | None, b: Timing | None) -> str:
     return fmt_s(a) + (f" ({r:.1f}x)" if r is not None else "")
 
 
-def table(headers: list[str], rows: list[list[object]]) -> str:
+def table(headers: list[str], rows: list[list[Any]]) -> str:
     try:
         from tabulate import tabulate
     except ImportError:  # the tool's environment has it; keep the bench usable without
@@ -241,30 +276,41 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description="Benchmark truss-verify against a floor measured in the same run.")
     parser.add_argument("--max-members", type=float, default=1e5, help="largest target size (default 1e5)")
     parser.add_argument("--quick", action="store_true", help="sizes up to 1e4 members only")
+    parser.add_argument("--sizes", default=None, help="comma-separated target member counts instead of 1e2,1e3,1e4,1e5 (still capped)")
     parser.add_argument("--families", default=",".join(generate.FAMILIES), help="comma-separated: pratt,grid")
     parser.add_argument("--repeats", type=int, default=3, help="runs per command; the median is reported")
     parser.add_argument("--repeats-large", type=int, default=1, help=f"runs per command at >= {LARGE:.0e} members")
     parser.add_argument("--slow", type=float, default=30.0, help="stop repeating a command once one run takes this long (s)")
     parser.add_argument("--timeout", type=float, default=300.0, help="kill a command after this many seconds")
+    parser.add_argument("--sections-timeout", type=float, default=60.0,
+                        help="kill `solve --show sections` after this many seconds; larger sizes of that family are then skipped")
     parser.add_argument("--no-stages", action="store_true", help="skip the per-stage timings")
+    parser.add_argument("--blas-threads", type=int, default=None,
+                        help="set OPENBLAS_NUM_THREADS/OMP_NUM_THREADS for every timed process (default: as the user has it)")
     parser.add_argument("--out", type=Path, default=HERE / "out", help="where cases and results go (default bench/out)")
     parser.add_argument("--stages", nargs=2, metavar=("CASE", "CLAIMS"), help=argparse.SUPPRESS)
+    parser.add_argument("--skip-stages", default="", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.stages:
-        return stages_child(*args.stages)
+        return stages_child(args.stages[0], args.stages[1], skip=frozenset(x for x in args.skip_stages.split(",") if x))
 
+    if args.blas_threads is not None:
+        # Inherited by every child; a threaded BLAS on a busy 2-core machine can be several times slower.
+        for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+            os.environ[var] = str(args.blas_threads)
     limit = min(args.max_members, 1e4) if args.quick else args.max_members
-    targets = [t for t in TARGETS if t <= limit * 1.0001]
+    wanted = [float(x) for x in args.sizes.split(",")] if args.sizes else list(TARGETS)
+    targets = sorted(t for t in wanted if t <= limit * 1.0001)
     families = [f.strip() for f in args.families.split(",") if f.strip()]
     for f in families:
         if f not in generate.FAMILIES:
             parser.error(f"unknown family {f!r}; expected {', '.join(generate.FAMILIES)}")
     with_sections = sections_available()
     args.out.mkdir(parents=True, exist_ok=True)
-    results: dict[str, object] = {"python": PYTHON, "started": time.strftime("%Y-%m-%d %H:%M:%S"),
+    results: dict[str, Any] = {"python": PYTHON, "started": time.strftime("%Y-%m-%d %H:%M:%S"),
                                   "cpus": os.cpu_count(), "sections_route": with_sections}
     print(f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs, load average "
-          f"{os.getloadavg()[0]:.2f}; section route {'present' if with_sections else 'absent'}", flush=True)
+          f"{os.getloadavg()[0]:.2f}; BLAS threads {os.environ.get('OPENBLAS_NUM_THREADS', 'default')}; section route {'present' if with_sections else 'absent'}", flush=True)
 
     # Start-up: a 21-member truss against the bare import of the libraries it needs.
     small_dir = args.out / "cases" / "startup"
@@ -286,9 +332,10 @@ def main(argv: list[str] | None = None) -> int:
                  for k, v in startup.items()]), flush=True)
     results["startup"] = {"bare_import": bare.__dict__, **{k: v.__dict__ for k, v in startup.items()}}
 
-    rows: list[list[object]] = []
-    cpu_rows: list[list[object]] = []
-    records: list[dict[str, object]] = []
+    sections_gave_up: set[str] = set()  # families whose `--show sections` timed out at a smaller size
+    rows: list[list[Any]] = []
+    cpu_rows: list[list[Any]] = []
+    records: list[dict[str, Any]] = []
     for family in families:
         for target in targets:
             truss = generate.build(family, target)
@@ -307,7 +354,8 @@ def main(argv: list[str] | None = None) -> int:
                 structure = json.loads(check_run.stdout)["structure"]
                 classification = structure["classification"]
             except (ValueError, KeyError):
-                classification = f"unknown (exit {check_run.returncode})"
+                last = (check_run.stderr.strip().splitlines() or [""])[-1]
+                classification = f"unknown (`stability --json` exit {check_run.returncode}: {last})"
             if classification != "stable-determinate":
                 print(f"  WARNING: truss-verify stability says {classification}; expected stable-determinate")
             t: dict[str, Timing] = {}
@@ -316,17 +364,25 @@ def main(argv: list[str] | None = None) -> int:
             t["stability"] = timed([TOOL, "stability", str(case)], **kw)
             t["solve"] = timed([TOOL, "solve", str(case)], **kw)
             t["check"] = timed([TOOL, "check", str(case), "--claims", str(claims)], ok_codes=(1,), **kw)
-            if with_sections:
-                t["sections"] = timed([TOOL, "solve", str(case), "--show", "sections"], **kw)
+            if with_sections and family in sections_gave_up:
+                t["sections"] = Timing(None, error="skipped: timed out at a smaller size")
+            elif with_sections:
+                t["sections"] = timed([TOOL, "solve", str(case), "--show", "sections"], repeats=repeats,
+                                      timeout=args.sections_timeout, slow=min(args.slow, args.sections_timeout / 3))
+                if t["sections"].error and t["sections"].error.startswith("timed out"):
+                    sections_gave_up.add(family)
             for name, timing in t.items():
-                print(f"  {name:13s} {fmt_s(timing)} s   cpu {timing.cpu or 0:.3f} s   peak {timing.peak_mb or 0:.0f} MB   runs {[round(x, 3) for x in timing.runs]}", flush=True)
+                print(f"  {name:13s} {fmt_s(timing, full=True)} s   cpu {timing.cpu or 0:.3f} s   peak {timing.peak_mb or 0:.0f} MB   runs {[round(x, 3) for x in timing.runs]}", flush=True)
             stages: dict[str, float] = {}
             stage_info: dict[str, object] = {}
+            timed_out: list[str] = []
             if not args.no_stages:
-                stages, stage_info, stage_error = stage_times(case, claims, args.timeout)
+                stages, stage_info, timed_out, stage_error = stage_times(case, claims, args.timeout)
                 slowest = max(stages.items(), key=lambda kv: kv[1]) if stages else ("—", 0.0)
                 print("  stages: " + ", ".join(f"{k} {v:.3f}" for k, v in stages.items())
-                      + (f"  [{stage_error}]" if stage_error else "") + f"\n  slowest stage: {slowest[0]}", flush=True)
+                      + "".join(f", {k} > {args.timeout:.0f} (timed out, skipped)" for k in timed_out)
+                      + (f"  [{stage_error}]" if stage_error else "")
+                      + f"\n  slowest stage: {timed_out[0] if timed_out else slowest[0]}", flush=True)
             row = [family, truss.members, fmt_s(t["floor"]), with_ratio(t["stability"], t["floor"]),
                    with_ratio(t["solve"], t["floor"]), fmt_s(t["floor+claims"]), with_ratio(t["check"], t["floor+claims"])]
             if with_sections:
@@ -336,7 +392,8 @@ def main(argv: list[str] | None = None) -> int:
                              cpu_ratio(t["solve"], t["floor"]), cpu_ratio(t["check"], t["floor+claims"])])
             records.append({"family": family, "members": truss.members, "joints": len(truss.joint_ids),
                             "parameter": truss.parameter, "classification": classification,
-                            "timings": {k: v.__dict__ for k, v in t.items()}, "stages": stages, "stage_info": stage_info})
+                            "timings": {k: v.__dict__ for k, v in t.items()}, "stages": stages, "stage_info": stage_info,
+                            "stages_timed_out": timed_out, "stage_timeout": args.timeout})
 
     headers = ["family", "members", "floor s", "stability s (ratio)", "solve s (ratio)", "floor+claims s", "check s (ratio)"]
     if with_sections:
@@ -351,14 +408,16 @@ def main(argv: list[str] | None = None) -> int:
     if not args.no_stages and records:
         names: list[str] = []
         for rec in records:
-            names += [s for s in rec["stages"] if s not in names]  # type: ignore[union-attr]
+            names += [s for s in STAGES if s not in names and (s in rec["stages"] or s in rec["stages_timed_out"])]
         print("\nStages inside one process (s); the slowest per size marked *")
         stage_rows = []
         for rec in records:
-            st: dict[str, float] = rec["stages"]  # type: ignore[assignment]
-            top = max(st, key=st.__getitem__) if st else None
+            st: dict[str, float] = rec["stages"]
+            late: list[str] = rec["stages_timed_out"]
+            top = late[0] if late else (max(st, key=st.__getitem__) if st else None)
             stage_rows.append([rec["family"], rec["members"]]
-                              + [("—" if s not in st else f"{st[s]:.3f}" + ("*" if s == top else "")) for s in names])
+                              + [(f">{args.timeout:.0f}" if s in late else "—" if s not in st else f"{st[s]:.3f}")
+                                 + ("*" if s == top else "") for s in names])
         print(table(["family", "members", *names], stage_rows))
 
         print(f"\nGrowth exponent k (time ~ members^k) between neighbouring sizes; n log n is k ~ 1.1. "
@@ -368,22 +427,27 @@ def main(argv: list[str] | None = None) -> int:
         for a, b in zip(records, records[1:], strict=False):
             if a["family"] != b["family"]:
                 continue
-            na, nb = int(a["members"]), int(b["members"])  # type: ignore[call-overload]
+            na, nb = int(a["members"]), int(b["members"])
             ta, tb = a["timings"], b["timings"]
             stage_a, stage_b = a["stages"], b["stages"]
-            k_floor = growth(na, stage_a.get("floor in-process"), nb, stage_b.get("floor in-process"))  # type: ignore[union-attr]
+            k_floor = growth(na, stage_a.get("floor in-process"), nb, stage_b.get("floor in-process"))
             cells = [f"{a['family']} {na}->{nb}", f"{k_floor:.2f}" if k_floor is not None else "—"]
             for s in names:
                 if s == "floor in-process":
                     continue
-                k = growth(na, stage_a.get(s), nb, stage_b.get(s))  # type: ignore[union-attr]
-                flag = (k is not None and k > FAST_K and k > (k_floor or 0) + 0.15 and (stage_b.get(s) or 0) > MIN_FLAG_SECONDS)  # type: ignore[union-attr]
-                cells.append("—" if k is None else f"{k:.2f}" + ("!" if flag else ""))
-            for c in ("stability", "solve", "check"):
-                k = growth(na, ta[c]["seconds"], nb, tb[c]["seconds"])  # type: ignore[index]
-                cells.append("—" if k is None else f"{k:.2f}")
+                t1, t2 = stage_a.get(s), stage_b.get(s)
+                bound = s in b["stages_timed_out"]
+                if bound:
+                    t2 = float(b["stage_timeout"])
+                k = growth(na, t1, nb, t2)
+                flag = k is not None and k > FAST_K and k > (k_floor or 0) + 0.15 and (t2 or 0) > MIN_FLAG_SECONDS
+                cells.append("—" if k is None else (">" if bound else "") + f"{k:.2f}" + ("!" if flag else ""))
                 if flag:
-                    flags.append(f"{a['family']} {s}: k = {k:.2f} from {na} to {nb} members ({stage_a.get(s):.3f} -> {stage_b.get(s):.3f} s)")  # type: ignore[union-attr]
+                    flags.append(f"{a['family']} {s}: k {'>' if bound else '='} {k:.2f} from {na} to {nb} members "
+                                 f"({t1:.3f} -> {'>' if bound else ''}{t2:.3f} s)")
+            for c in ("stability", "solve", "check"):
+                k = growth(na, ta[c]["seconds"], nb, tb[c]["seconds"])
+                cells.append("—" if k is None else f"{k:.2f}")
             growth_rows.append(cells)
         print(table(["family, members", "floor in-process", *[s for s in names if s != "floor in-process"],
                      "stability (whole)", "solve (whole)", "check (whole)"], growth_rows))
