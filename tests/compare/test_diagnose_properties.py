@@ -39,7 +39,8 @@ def _kinds(review):
 
 def _informative(analysis):
     forces = analysis.reference.member_forces[:, 0]
-    big = np.abs(forces).max()
+    # The comparison's yardstick for "near zero" is the largest member force or reaction.
+    big = max(np.abs(forces).max(), np.abs(analysis.reference.reactions[:, 0]).max())
     if big < 1e-6 * np.abs(analysis.model.load_matrix()).max():
         return []  # every member idle (loads straight over the supports)
     return [m for m, f in zip(analysis.model.member_ids, forces, strict=True) if abs(f) > 0.05 * big]
