@@ -11,7 +11,16 @@ _TESTS = str(Path(__file__).resolve().parent)
 if _TESTS not in sys.path:
     sys.path.insert(0, _TESTS)
 
+import os  # noqa: E402
+
 import pytest  # noqa: E402  (after the sys.path set-up above, which must run first)
+from hypothesis import settings  # noqa: E402
+
+# CI runs the same examples every time (a property failure there must be reproducible); local
+# runs explore new random examples. Both keep the per-test example counts set in the tests.
+settings.register_profile("ci", derandomize=True, print_blob=True)
+if os.environ.get("CI"):
+    settings.load_profile("ci")
 
 
 @pytest.fixture
