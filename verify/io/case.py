@@ -207,6 +207,37 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
         yield str(path), line, {h: c.strip() for h, c in zip(header, row, strict=True)}
 
 
+def _clean_frame(base: Path, name: str, required: tuple[str, ...], numeric: tuple[str, ...]) -> tuple[str, Any] | None:
+    """A CSV table read in bulk with pandas when it is clean, else None (the row-by-row reader
+    then finds and words every problem). Clean means: the required columns, no blank or short
+    rows, and every numeric cell a plain finite decimal number. Row k is then on line k + 2.
+    """
+    import pandas as pd
+
+    from verify.io.numbers import NUMBER_PATTERN
+
+    path = (base / name) if not Path(name).is_absolute() else Path(name)
+    try:
+        text = path.read_bytes().decode("utf-8-sig")
+        frame = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False, skip_blank_lines=False)
+    except Exception:  # noqa: BLE001 - any trouble: the careful reader explains it
+        return None
+    frame.columns = [str(c).strip().lower() for c in frame.columns]
+    if any(r not in frame.columns for r in required) or frame.columns.duplicated().any():
+        return None
+    if len(text.splitlines()) != len(frame) + 1:
+        return None  # quoted line breaks or blank lines: line numbers would not follow rows
+    for column in frame.columns:
+        frame[column] = frame[column].str.strip()
+    for column in numeric:
+        if column in frame.columns and not frame[column].str.fullmatch(NUMBER_PATTERN).all():
+            return None
+    for column in required:
+        if (frame[column] == "").any():
+            return None
+    return str(path), frame
+
+
 def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None) -> float | None:
     try:
         return parse_number(value)
@@ -225,6 +256,9 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
     if table is None:
         return joints
     if isinstance(table, str):
+        fast = _fast_joints(ctx, base, table)
+        if fast is not None:
+            return fast
         seen: dict[str, int] = {}
         for file, line, row in _csv_rows(ctx, base, table, ("joints",), ("id", "x", "y")):
             jid = row["id"]
@@ -254,6 +288,33 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         if all(c is not None for c in coords):
             joints.append(Joint(str(jid), tuple(float(c) for c in coords)))  # type: ignore[arg-type]
     return joints
+
+
+def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
+    found = _clean_frame(base, name, ("id", "x", "y"), ("x", "y"))
+    if found is None:
+        return None
+    file, frame = found
+    ids = frame["id"].tolist()
+    if frame["id"].duplicated().any():
+        return None
+    axes = ["x", "y"]
+    if "z" in frame.columns and (frame["z"] != "").any():
+        if not frame["z"].str.fullmatch(_number_pattern()).all():
+            return None  # mixed 2D/3D rows or a bad z: the careful reader words it
+        axes.append("z")
+    xyz = frame[axes].astype(float).to_numpy()
+    if not np.isfinite(xyz).all():
+        return None
+    ctx.declared_joints.update(ids)
+    ctx.origins.update({("joint", jid): (file, k + 2) for k, jid in enumerate(ids)})
+    return [Joint(jid, tuple(row)) for jid, row in zip(ids, xyz.tolist(), strict=True)]
+
+
+def _number_pattern() -> str:
+    from verify.io.numbers import NUMBER_PATTERN
+
+    return NUMBER_PATTERN
 
 
 def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
@@ -288,6 +349,30 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
     else:
         ctx.add(message, *path, line=line)
     return None
+
+
+def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None) -> list[Member] | None:
+    found = _clean_frame(base, name, ("id", "start", "end"), ())
+    if found is None:
+        return None
+    file, frame = found
+    if frame["id"].duplicated().any():
+        return None
+    if not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
+        return None
+    ids, starts, ends = frame["id"].tolist(), frame["start"].tolist(), frame["end"].tolist()
+    eas: list[float | None] = [default_ea] * len(ids)
+    if "ea" in frame.columns and (frame["ea"] != "").any():
+        given = frame["ea"] != ""
+        if not frame.loc[given, "ea"].str.fullmatch(_number_pattern()).all():
+            return None
+        values = frame.loc[given, "ea"].astype(float)
+        if not (np.isfinite(values) & (values > 0)).all():
+            return None
+        for k, value in zip(np.nonzero(given.to_numpy())[0].tolist(), values.tolist(), strict=True):
+            eas[k] = value
+    ctx.origins.update({("member", mid): (file, k + 2) for k, mid in enumerate(ids)})
+    return [Member(mid, a, b, ea) for mid, a, b, ea in zip(ids, starts, ends, eas, strict=True)]
 
 
 def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, area_unit: float | None, modulus_unit: float | None, *path: str) -> float | None:
@@ -332,6 +417,9 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
     if table is None:
         return members
     if isinstance(table, str):
+        fast = _fast_members(ctx, base, table, joint_ids, default_ea)
+        if fast is not None:
+            return fast
         seen: dict[str, int] = {}
         for file, line, row in _csv_rows(ctx, base, table, ("members",), ("id", "start", "end")):
             mid = row["id"]
@@ -476,6 +564,19 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
     def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
         axes = ("fx", "fy", "fz")[: dim or 2]
         required = ("joint",) + axes + (() if fixed_case else ("case",))
+        found = _clean_frame(base, name, required, axes)
+        if found is not None:
+            frame = found[1]
+            keys = frame["case"] if not fixed_case else None
+            clean = frame["joint"].isin(joint_ids).all() and not frame.duplicated(
+                subset=["joint"] + (["case"] if keys is not None else [])).any()
+            if clean:
+                vectors = frame[list(axes)].astype(float).to_numpy()
+                if np.isfinite(vectors).all():
+                    case_names = keys.tolist() if keys is not None else [fixed_case] * len(frame)
+                    for case, joint, vector in zip(case_names, frame["joint"].tolist(), vectors.tolist(), strict=True):
+                        cases.setdefault(str(case), {})[joint] = tuple(vector)
+                    return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
             cases.setdefault(case, {})

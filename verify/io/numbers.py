@@ -5,7 +5,8 @@ from __future__ import annotations
 import math
 import re
 
-_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+NUMBER_PATTERN = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"  # a decimal point, nothing else
+_NUMBER = re.compile(f"^{NUMBER_PATTERN}$")
 
 
 def parse_number(value: object) -> float:
