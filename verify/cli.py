@@ -59,7 +59,7 @@ def main() -> None:
     gc.set_threshold(200_000, 50, 1000)
 
 
-@main.command()
+@main.command(short_help="Classify the truss: stable or not, determinate or not.")
 @click.argument("case", type=click.Path(dir_okay=False))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
 def stability(case: str, as_json: bool) -> None:
@@ -79,7 +79,7 @@ def _stability_only(model: Model) -> Analysis:
     return Analysis(model, solve_stability(model))
 
 
-@main.command()
+@main.command(short_help="Recompute every member force and reaction (joints, sections, global).")
 @click.argument("case", type=click.Path(dir_okay=False))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object (forces, reactions) instead of text.")
 @click.option("--show", type=click.Choice(["forces", "joints", "sections", "all"]), default="forces", show_default=True,
@@ -131,7 +131,7 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
     click.echo(f"Caution: {CAUTION}")
 
 
-@main.command()
+@main.command(short_help="Print the method-of-sections calc sheet for one cut.")
 @click.argument("case", type=click.Path(dir_okay=False))
 @click.option("--members", "member_list", required=True, metavar="ID,ID,...",
               help="The members the section passes through, comma-separated (e.g. U1U2,U1L2,L1L2).")
@@ -194,6 +194,9 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         except ValueError as exc:
             click.echo(f"--unit: {exc}", err=True)
             return EXIT_BAD_INPUT
+    if report and not report.lower().endswith((".html", ".htm", ".md")):
+        click.echo(f"--report: '{report}' must end in .html or .md (the report's format follows the extension)", err=True)
+        return EXIT_BAD_INPUT
     if rtol <= 0 or rtol >= 1 or atol_fraction < 0 or atol_fraction >= 1:
         click.echo("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", err=True)
         return EXIT_BAD_INPUT
@@ -202,6 +205,11 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
                              force_column=force_column, case=load_name)
     except InputError as error:
         click.echo(error.render(), err=True)
+        return EXIT_BAD_INPUT
+    if not claims.values and claims.unmatched:
+        labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:5])
+        click.echo(f"{claims_path}: no label matches a member or reaction of {case} (e.g. {labels}); "
+                   "is this the claims table for this case?", err=True)
         return EXIT_BAD_INPUT
     displacement_claims = None
     if displacements:
@@ -282,7 +290,7 @@ def _with_check_options(func: Callable[..., None]) -> Callable[..., None]:
     return func
 
 
-@main.command()
+@main.command(short_help="Compare claimed forces with recomputed ones and explain every difference.")
 @click.argument("case", type=click.Path(dir_okay=False))
 @click.option("--claims", "claims_path", required=True, type=click.Path(dir_okay=False), help="Claimed forces: CSV or .xlsx.")
 @_with_check_options
@@ -297,7 +305,7 @@ def check(case: str, claims_path: str, **options: Any) -> None:
     sys.exit(_run_check(case, claims_path, **options))
 
 
-@main.command()
+@main.command(short_help="Check the bundled demo case (a footbridge with planted errors).")
 @click.option("--json", "as_json", is_flag=True, help="Print the review as JSON.")
 @click.option("--report", default=None, metavar="PATH.html|PATH.md", help="Also write the review report.")
 def demo(as_json: bool, report: str | None) -> None:

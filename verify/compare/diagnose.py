@@ -53,12 +53,13 @@ class Convention:
     scale: float  # claims (in the unit they state or are assumed to use) x scale = case units
     inferred: bool
     unit: str  # the unit the claims were read in (stated, from headers/cells, or assumed)
-    unit_source: str  # "option", "table", "assumed" or "inferred"
+    unit_source: str  # "option" (--unit), "table" (headers or cells) or "assumed" (the case's unit)
     support: str  # how strongly the data support the convention, in words
+    scale_reason: str = ""  # the unit slip the scale undoes, when the data showed one
 
     def as_dict(self) -> dict[str, Any]:
         return {"sign": self.sign, "scale": self.scale, "inferred": self.inferred, "unit": self.unit,
-                "unit_source": self.unit_source, "support": self.support}
+                "unit_source": self.unit_source, "scale_reason": self.scale_reason, "support": self.support}
 
 
 @dataclass(frozen=True)
@@ -195,6 +196,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     fixed_all = np.array([v.sign_fixed for v in claims.values], dtype=bool)
     member_pos = np.array([model.member_index[v.member] if v.member is not None else -1 for v in claims.values], dtype=np.int64)
     rounding_unit = rounding_allowances(raw, conv)
+    if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
+        notes.append(f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
+                     "headers or cells; the table's own units were used")
     unit_stated = bool(stated_units) or option_unit is not None
     unit_label = (", ".join(sorted(stated_units)) if stated_units else (option_unit.symbol if option_unit else case_unit.symbol))
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
@@ -230,9 +234,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             named_score = scores.get(named, 0.0) if named else 0.0
             if top != named and scores[top] >= 0.9 and named_score < 0.5:
                 if named is None:
+                    # Only the name differs ("DL" for "dead"): worth saying, not an error.
                     findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model; "
                                             f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
-                                            Severity.ERROR, case=top))
+                                            Severity.INFO, case=top))
                 else:
                     findings.append(Finding("case-mismatch", (), f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
                                             f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
@@ -287,8 +292,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         sign="tension-positive" if effective_sign == 1 else "compression-positive",
         scale=float(scale_fit * (conv[0] if len(conv) and len(set(np.round(conv, 12))) == 1 else 1.0)),
         inferred=inferred or scale_fit != 1.0,
-        unit=unit_label if scale_fit == 1.0 else f"{unit_label} (read {describe_factor(scale_fit)})",
-        unit_source=unit_source if scale_fit == 1.0 else "inferred",
+        unit=unit_label,
+        unit_source=unit_source,
+        scale_reason="" if scale_fit == 1.0 else describe_factor(scale_fit),
         support=support,
     )
 
@@ -308,7 +314,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         signed = v.value if v.sign_fixed else v.value * effective_sign
         value = signed * conv[i] * scale_fit
         rounding = float(rounding_unit[i]) * scale_fit
-        written = f"{v.value:g}{' (T/C)' if v.sign_fixed else ''} at {v.where}"
+        as_written = f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}" if v.sign_fixed and v.value else f"{v.value:g}"
+        written = f"{as_written} at {v.where}"
         if v.reaction is not None:
             joint, axis = v.reaction
             # Reactions are global components: the table sign convention for T/C does not apply.
@@ -394,18 +401,19 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         member = v.member
         assert member is not None
         name = rows[r].case
+        written_at = f" [written {rows[r].written}]"
         atol = tol.atol_fraction * scale_of.get(name, 0.0)
         rounding = rounding_allowance(v.value, 1.0)
         if abs(computed) <= atol:
             rows[r] = _with_status(rows[r], "zero-force-claimed")
             findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {value:.4g} {case_unit.symbol}, "
-                                    "but it is a zero-force member under this loading", Severity.ERROR, case=name))
+                                    "but it is a zero-force member under this loading" + written_at, Severity.ERROR, case=name))
             continue
         if tol.agrees(-value, computed, atol, rounding):
             rows[r] = _with_status(rows[r], "sign-flip")
             how = "the T/C mark" if v.sign_fixed else "the sign"
             findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {value:.4g} but recomputed {computed:.4g} "
-                                    f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed", Severity.ERROR, case=name))
+                                    f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name))
             continue
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol)
@@ -413,11 +421,11 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             rows[r] = _with_status(rows[r], "unit-scale")
             findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {value:.4g}, recomputed {computed:.4g} "
                                     f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {describe_factor(unit_factor)}"
-                                    + ("" if ratio > 0 else " with the sign also reversed"), Severity.ERROR, case=name))
+                                    + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name))
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
         findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {value:.4g}, recomputed {computed:.4g} "
-                                f"{case_unit.symbol} (difference {value - computed:+.4g}, {pct:.1f} %; allowed {allowed:.3g})",
+                                f"{case_unit.symbol} (difference {value - computed:+.4g}, {pct:.1f} %; allowed {allowed:.3g})" + written_at,
                                 Severity.ERROR, case=name))
 
 
@@ -426,14 +434,23 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             for member in f.members:
                 flagged.setdefault(f.case or "", set()).add(member)
 
-    # Missing claims (informational), per load column that has claims.
+    # Missing claims (informational), per load column that has claims; load columns missing the
+    # same members share one finding.
     checked_cases = tuple(n for n in load_names if any(c == n for _, c in seen_pairs))
-    for name in checked_cases:
-        missing = [mid for mid in model.member_ids if (mid, name) not in seen_pairs]
+    missing_by_case = {name: [mid for mid in model.member_ids if (mid, name) not in seen_pairs] for name in checked_cases}
+    groups: dict[tuple[str, ...], list[str]] = {}
+    for name, missing in missing_by_case.items():
         if missing:
-            shown_text = ", ".join(missing[:20]) + (f" and {len(missing) - 20} more" if len(missing) > 20 else "")
-            findings.append(Finding("missing-claim", tuple(missing), f"'{name}': no claim for {len(missing)} of {len(model.members)} "
-                                    f"members ({shown_text}); they are not checked", Severity.INFO, case=name))
+            groups.setdefault(tuple(missing), []).append(name)
+    for missing_t, names_t in groups.items():
+        shown_text = ", ".join(missing_t[:20]) + (f" and {len(missing_t) - 20} more" if len(missing_t) > 20 else "")
+        where = ", ".join(f"'{n}'" for n in names_t)
+        findings.append(Finding("missing-claim", missing_t, f"{where}: no claim for {len(missing_t)} of {len(model.members)} "
+                                f"members ({shown_text}); they are not checked", Severity.INFO,
+                                case=names_t[0] if len(names_t) == 1 else None))
+    for name in checked_cases:
+        missing = missing_by_case[name]
+        if missing:
             for mid in missing:
                 m = model.member_index[mid]
                 k = load_names.index(name)
@@ -564,8 +581,9 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             members = tuple(v.member for _, v in rest if v.member)
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
             caveat = (f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)" if unchecked else "")
+            rest_text = "apart from the member(s) named above, " if blamed else ""
             out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution (up to "
-                               f"{size:.3g} {unit}) by what is {'otherwise ' if blamed else ''}a state of self-stress: the claims satisfy "
-                               "equilibrium but imply other member stiffnesses (e.g. tension-only bracing), an erection sequence or a "
-                               f"lack of fit than the EA given{caveat}", Severity.ERROR, case=name))
+                               f"{size:.3g} {unit}); {rest_text}the difference is a state of self-stress: the claims satisfy "
+                               "equilibrium, but they assume member stiffnesses other than the EA given (e.g. tension-only "
+                               f"bracing), an erection sequence or a lack of fit{caveat}", Severity.ERROR, case=name))
     return out

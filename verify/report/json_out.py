@@ -27,6 +27,16 @@ def _clean(value: Any) -> Any:
     return value
 
 
+def _sha256(path: str) -> str | None:
+    import hashlib
+
+    try:
+        with open(path, "rb") as handle:
+            return hashlib.sha256(handle.read()).hexdigest()
+    except OSError:
+        return None
+
+
 def dumps(data: dict[str, Any]) -> str:
     return json.dumps(_clean(data), indent=2, ensure_ascii=False, allow_nan=False)
 
@@ -105,7 +115,8 @@ def check_json(review: Any) -> dict[str, Any]:
             {"joint": b.joint, "case": b.case, "residual": list(b.residual), "size": b.size}
             for b in review.imbalances
         ],
-        "inputs": {"case": model.source, "claims": review.claims.source, "claims_sha256": review.claims.sha256},
+        "inputs": {"case": model.source, "case_sha256": _sha256(model.source), "claims": review.claims.source,
+                   "claims_sha256": review.claims.sha256},
         "tool": {"name": "truss-verify", "version": __version__},
         "notes": list(review.notes),
         "caution": CAUTION,

@@ -32,7 +32,9 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     lines = [verdict_line(review), ""]
     lines.append(f"Case: {model.title or model.source}   Claims: {review.claims.source}"
                  + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else ""))
-    lines.append(f"Convention: {c.sign}{' (inferred)' if c.inferred else ''}; claims unit {c.unit} [{c.unit_source}]; {c.support}")
+    source = {"table": "stated in the table", "option": "stated with --unit", "assumed": "not stated; the case's unit assumed"}.get(c.unit_source, c.unit_source)
+    scaled = f", read {c.scale_reason}" if c.scale_reason else ""
+    lines.append(f"Convention: {c.sign}{' (inferred from the data)' if c.inferred else ''}; claims in {c.unit} ({source}{scaled}); {c.support}")
     lines.append(f"Tolerance: {review.tolerance.rtol:.2%} relative, {review.tolerance.atol_fraction:g} x largest force absolute, "
                  "half a unit in the last written decimal")
     s = review.analysis.stability
@@ -46,7 +48,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     else:
         lines.append("Findings: none")
     lines.append("")
-    shown = [r for r in review.rows if all_rows or r.status != "missing-claim"]
+    displacement_rows = [r for r in review.rows if r.kind == "displacement"]
+    shown = [r for r in review.rows if r.kind != "displacement" and (all_rows or r.status != "missing-claim")]
     headers = ["member", "case", "claimed", "joints", "sections", "recomputed", "difference", "status"]
     if not all_rows and len(shown) > MAX_ROWS:
         bad = [r for r in shown if r.status != "agrees"]
@@ -55,6 +58,16 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     else:
         lines.append(f"Member table ({model.units.force.symbol}, tension positive):")
     lines.append(plain_table(headers, [_row_cells(r) for r in shown]))
+    if displacement_rows:
+        length = model.units.length.symbol
+        factor_mm = 1000.0 if length == "m" else 1.0
+        unit = "mm" if length == "m" else length
+        lines.append("")
+        lines.append(f"Joint displacements ({unit}; claimed vs direct stiffness method):")
+        lines.append(plain_table(["joint.axis", "case", "claimed", "recomputed", "difference", "status"], [
+            [r.id, r.case, fmt(None if r.claimed is None else r.claimed * factor_mm),
+             fmt(None if r.elastic is None else r.elastic * factor_mm),
+             fmt(None if r.difference is None else r.difference * factor_mm), r.status] for r in displacement_rows]))
     missing = sum(1 for r in review.rows if r.status == "missing-claim")
     if missing and not all_rows:
         lines.append(f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)")

@@ -27,7 +27,8 @@ def render_csv(review: Review) -> str:
     for row in review.rows:
         cells: list[object] = [neutralise(row.id), row.kind, neutralise(row.case)]
         for value in (row.claimed, row.joints, row.sections, row.global_, row.elastic, row.difference):
-            cells.append("" if value is None else repr(float(value)))
+            # 12 significant figures: float noise (28.125000000000004) is not information.
+            cells.append("" if value is None else f"{float(value):.12g}")
         cells.append(row.status)
         writer.writerow(cells)
     return out.getvalue()

@@ -7,7 +7,7 @@ from tabulate import tabulate
 
 from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
 from verify.analysis.pipeline import Analysis
-from verify.analysis.stability import StabilityResult
+from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
 from verify.report.numbers import fmt, plain_table, tc
 
@@ -28,7 +28,8 @@ def render_stability(model: Model, s: StabilityResult) -> str:
     if s.sigma_ratio is not None:
         lines.append(
             f"  conditioning: sigma_min/sigma_max = {s.sigma_ratio:.3g}; scaled by slenderness^2 "
-            f"({s.slenderness:.3g}^2) = {s.scaled_ratio:.3g}" + ("  NEAR-MECHANISM" if s.ill_conditioned else "")
+            f"({s.slenderness:.3g}^2) = {s.scaled_ratio:.3g}"
+            + ("  NEAR-MECHANISM" if s.ill_conditioned else f"  (sound; near-mechanism below {ILL_CONDITIONED_SCALED:g})")
         )
     elif s.scaled_ratio is not None:
         lines.append(f"  LU pivot ratio min/max = {s.scaled_ratio:.3g}")
