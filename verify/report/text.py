@@ -98,9 +98,18 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False)
         parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
         parts.append(force_table(model, analysis, name, all_rows=all_rows))
         parts.append("")
+    sections = analysis.sections
+    if sections is not None:
+        reached = len(model.members) - len(sections.unreached)  # type: ignore[attr-defined]
+        parts.append(f"Section cuts (Ritter's method) reached {reached} of {len(model.members)} members"
+                     + (":" if sections.unreached else "."))  # type: ignore[attr-defined]
+        for member, reason in list(sections.unreached.items())[:20]:  # type: ignore[attr-defined]
+            parts.append(f"  {member}: not reached — {reason}")
+        if len(sections.unreached) > 20:  # type: ignore[attr-defined]
+            parts.append(f"  ... and {len(sections.unreached) - 20} more")  # type: ignore[attr-defined]
     if analysis.joints is not None:
         parts.append(
-            f"Method of joints and global solve agree to {analysis.route_disagreement:.1e} of the largest force"
+            f"Method of joints, section cuts and global solve agree to {analysis.route_disagreement:.1e} of the largest force"
             + (" (BEYOND round-off: check geometry)" if analysis.route_disagreement > 1e-6 else "")
         )
     parts.extend(f"note: {n}" for n in analysis.notes)
