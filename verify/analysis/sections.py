@@ -31,6 +31,8 @@ Method: A. Ritter, *Elementare Theorie und Berechnung eiserner Dach- und Brücke
 
 from __future__ import annotations
 
+import functools
+
 import itertools
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -598,9 +600,16 @@ class _Solver:
         self.notes: list[str] = []
         # plain lists for the per-candidate Python loops of the non-straight free bodies
         self.ends_list = eng.ends.tolist()
-        self.incidence = [eng.inc_members[eng.inc_ptr[j] : eng.inc_ptr[j + 1]].tolist() for j in range(eng.nj)]
         self.cost_list = eng.cost.tolist() if eng.nj else []
         self.support_list = eng.support_count.tolist()
+
+    @functools.cached_property
+    def incidence(self) -> list[list[int]]:
+        """Members at each joint as plain lists; only the non-straight pass needs them."""
+        eng = self.eng
+        members = eng.inc_members.tolist()
+        ptr = eng.inc_ptr.tolist()
+        return [members[ptr[j] : ptr[j + 1]] for j in range(eng.nj)]
 
     def run(self) -> None:
         eng = self.eng
