@@ -32,7 +32,6 @@ Method: A. Ritter, *Elementare Theorie und Berechnung eiserner Dach- und Brücke
 from __future__ import annotations
 
 import functools
-
 import itertools
 from collections.abc import Sequence
 from dataclasses import dataclass, field
