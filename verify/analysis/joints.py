@@ -162,14 +162,30 @@ def solve_joints(model: Model) -> JointSolution:
     cols_arr = [inc_col[ptr[j]:ptr[j + 1]] for j in range(n_j)]
     blocks = [inc_vec[:, ptr[j]:ptr[j + 1]] for j in range(n_j)]
 
+    joint_ids = [j.id for j in model.joints]
     unknown_count = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64)
     primary: deque[int] = deque(j for j in range(n_j) if 0 < unknown_count[j] <= d)
     secondary: deque[int] = deque(j for j in range(n_j) if unknown_count[j] == d + 1)
     tried_partial: set[tuple[int, int]] = set()
 
+    # Plain-Python mirrors for the 2D inner loop: at 10^5 members numpy's per-call overhead on
+    # 2x2 blocks cost more than the arithmetic (same equations, same order, same results).
+    known_l = known.tolist()
+    t_l: list[list[float] | None] = [row.tolist() if known_l[c] else None for c, row in enumerate(t)]
+    inc_col_l = inc_col.tolist()
+    vx_l = inc_vec[0].tolist() if d == 2 else []
+    vy_l = inc_vec[1].tolist() if d == 2 else []
+    ptr_l = ptr.tolist()
+    neg_load = (-F).tolist()
+
+    def store(c: int, values: list[float]) -> None:
+        t_l[c] = values
+        t[c] = values
+
     def mark(cols: list[int]) -> None:
         for c in cols:
             known[c] = True
+            known_l[c] = True
             touched: tuple[int, ...]
             if c < b:
                 touched = (int(ends[c, 0]), int(ends[c, 1]))
@@ -192,6 +208,27 @@ def solve_joints(model: Model) -> JointSolution:
             if key in tried_partial:
                 continue
             tried_partial.add(key)
+        if d == 2 and count == 2:
+            rx = neg_load[2 * joint][:]
+            ry = neg_load[2 * joint + 1][:]
+            unk: list[tuple[int, float, float]] = []
+            for p in range(ptr_l[joint], ptr_l[joint + 1]):
+                c, ax, ay = inc_col_l[p], vx_l[p], vy_l[p]
+                known_row = t_l[c]
+                if known_row is not None:
+                    for k in range(ncols):
+                        rx[k] -= ax * known_row[k]
+                        ry[k] -= ay * known_row[k]
+                else:
+                    unk.append((c, ax, ay))
+            (c1, a1, b1), (c2, a2, b2) = unk
+            det2 = a1 * b2 - a2 * b1
+            if abs(det2) > DEPENDENT_RTOL:
+                store(c1, [(b2 * rx[k] - a2 * ry[k]) / det2 for k in range(ncols)])
+                store(c2, [(a1 * ry[k] - b1 * rx[k]) / det2 for k in range(ncols)])
+                steps.append(JointStep("joint", (joint_ids[joint],), (c1, c2)))
+                mark([c1, c2])
+                continue
         cols_j = cols_arr[joint]
         is_known = known[cols_j]
         block = blocks[joint]
@@ -212,6 +249,8 @@ def solve_joints(model: Model) -> JointSolution:
                     t[unknown[1]] = (a * rhs[1] - c * rhs[0]) / det
                 else:
                     t[unknown] = np.linalg.solve(M, rhs)
+                for col in unknown:
+                    t_l[col] = t[col].tolist()
                 steps.append(JointStep("joint", (model.joints[joint].id,), tuple(unknown)))
                 mark(unknown)
                 continue
@@ -226,6 +265,8 @@ def solve_joints(model: Model) -> JointSolution:
         solution = vh[:rank].T @ ((left[:, :rank].T @ rhs) / sv[:rank, None])
         chosen = [unknown[k] for k in determined]
         t[chosen] = solution[determined]
+        for col in chosen:
+            t_l[col] = t[col].tolist()
         steps.append(JointStep("joint", (model.joints[joint].id,), tuple(chosen), partial=len(chosen) < len(unknown)))
         mark(chosen)
 

@@ -267,6 +267,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         n = best.informative
         support = f"{identity.agree} of {n} informative claims agree as read"
         table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
+        if table_level and indeterminate:
+            # Against an elastic solution a large self-stress can mimic a flipped or scaled table;
+            # statics decides: a reading that is not a convention must not balance better.
+            def unbalanced(sign_k: float, factor_k: float) -> int:
+                matrix = np.full((len(model.members), len(load_names)), np.nan)
+                matrix[member_pos[idx], load_pos] = raw[idx] * conv[idx] * np.where(fixed, 1.0, sign_k * stated_sign) * factor_k
+                return len(claims_balance(model, matrix, {}, load_names, tol))
+            table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
             support = f"{best.agree} of {n} informative claims agree when read this way ({identity.agree} as written)"
