@@ -660,15 +660,15 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
     number = {jid: k for k, jid in enumerate(dict.fromkeys([x for m in members for x in (m.start, m.end)]))}
     distinct = [m for m in members if m.start != m.end]
     if distinct:
-        a = np.array([number[m.start] for m in distinct])
-        b = np.array([number[m.end] for m in distinct])
-        low, high = np.minimum(a, b), np.maximum(a, b)
-        order = np.lexsort((np.arange(len(distinct)), high, low))
-        same = (low[order][1:] == low[order][:-1]) & (high[order][1:] == high[order][:-1])
+        from_ends = np.array([number[m.start] for m in distinct])
+        to_ends = np.array([number[m.end] for m in distinct])
+        low, high = np.minimum(from_ends, to_ends), np.maximum(from_ends, to_ends)
+        pair_order = np.lexsort((np.arange(len(distinct)), high, low))
+        same = (low[pair_order][1:] == low[pair_order][:-1]) & (high[pair_order][1:] == high[pair_order][:-1])
         first_of: dict[tuple[int, int], str] = {}
-        for n in np.nonzero(same)[0].tolist():
-            earlier, later = distinct[int(order[n])], distinct[int(order[n + 1])]
-            key = (int(low[order][n]), int(high[order][n]))
+        for k in np.nonzero(same)[0].tolist():
+            earlier, later = distinct[int(pair_order[k])], distinct[int(pair_order[k + 1])]
+            key = (int(low[pair_order][k]), int(high[pair_order][k]))
             first = first_of.setdefault(key, earlier.id)
             ctx.add_at("member", later.id, f"members '{first}' and '{later.id}' both join '{later.start}' and '{later.end}'; "
                        "a pin-jointed model needs one member per joint pair", "members", later.id)
