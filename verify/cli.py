@@ -165,12 +165,24 @@ def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool)
     except ValueError as exc:
         click.echo(f"--members: {exc}", err=True)
         sys.exit(EXIT_BAD_INPUT)
+    # One equation per cut member the free body can isolate, each with its own Ritter point.
+    sections = [section]
+    for member in ids:
+        if member == section.target:
+            continue
+        try:
+            other = cut_for_members(model, [member] + [m for m in ids if m != member])
+        except ValueError:
+            continue
+        if other.target == member:
+            sections.append(other)
     for name in [load_name] if load_name else model.load_names:
-        if section.uses_reactions:
+        if any(s.uses_reactions for s in sections):
             click.echo(render_reactions(model, name, exact=not decimals_only))
             click.echo("")
-        click.echo(render_cut(model, section, name, exact=not decimals_only))
-        click.echo("")
+        for each in sections:
+            click.echo(render_cut(model, each, name, exact=not decimals_only))
+            click.echo("")
     click.echo(f"Caution: {CAUTION}")
 
 

@@ -78,3 +78,20 @@ def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tupl
             out.append(JointImbalance(model.joints[j].id, name, tuple(float(x) for x in residual[j]), float(size[j]),
                                       tuple(model.members[i].id for i in sorted(members))))
     return out
+
+
+def checkable_joints(model: Model, claimed: np.ndarray, load_names: list[str]) -> dict[str, int]:
+    """Per load column with claims: how many joints have a claim for every member meeting there."""
+    b = len(model.members)
+    nj = len(model.joints)
+    ends = model.ends_index
+    incidence = sp.csr_matrix((np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
+                              shape=(nj, b))
+    degree = np.asarray(incidence.sum(axis=1)).ravel()
+    out: dict[str, int] = {}
+    for k, name in enumerate(load_names):
+        finite = np.isfinite(claimed[:, k])
+        if finite.any():
+            unclaimed = incidence @ (~finite).astype(float)
+            out[name] = int(((degree > 0) & (unclaimed == 0)).sum())
+    return out

@@ -21,7 +21,7 @@ import numpy as np
 
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
-from verify.compare.balance import JointImbalance, claims_balance
+from verify.compare.balance import JointImbalance, checkable_joints, claims_balance
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
@@ -473,6 +473,15 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
 
     # Equilibrium of the claims themselves.
     imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol)
+    for name, count in checkable_joints(model, claimed_matrix, load_names).items():
+        off = sum(1 for b in imbalances if b.case == name)
+        if count == 0:
+            notes.append(f"equilibrium of the claims in '{name}': no joint has a claim for every member meeting there, "
+                         "so the claims cannot be checked on their own")
+        elif off == 0:
+            notes.append(f"equilibrium of the claims in '{name}': they balance at all {count} joints where every member has a claim")
+        else:
+            notes.append(f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints")
     if imbalances:
         unexplained = [b for b in imbalances if not (set(b.members) & flagged.get(b.case, set()))]
         if unexplained or ref is None or stab.classification is Classification.UNSTABLE:

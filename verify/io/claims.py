@@ -484,7 +484,7 @@ def _pick_sheet(book: Any, sheet: str | None, problems: _Problems) -> str | None
     if len(names) == 1:
         return names[0]
     problems.add(
-        f"the workbook has {len(names)} sheets ({listed}); name the one holding the claimed forces"
+        f"the workbook has {len(names)} sheets ({listed}); name the one holding the claimed forces with --sheet NAME"
     )
     return None
 
@@ -654,7 +654,7 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
             written = ", ".join(f"'{h.text}'" for h in headers if h.text) or "nothing"
             problems.add(
                 "no usable columns: no member column found; expected a header such as 'Member', "
-                f"'Element', 'Bar', 'Label' or 'ID' (or name the column); the header row has {written}",
+                f"'Element', 'Bar', 'Label' or 'ID' (or name the column with --member-column); the header row has {written}",
                 grid.where(header_r),
             )
         return empty
@@ -706,7 +706,7 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
                     problems.add(
                         f"column '{h.text}' is named like a load case, beside the force column "
                         f"'{force_h.text}'; use one layout (one column per load case, or a force "
-                        "column with a case column) or name the force column",
+                        "column with a case column) or name the force column with --force-column",
                         grid.where(header_r, h.index),
                     )
             if problems:
@@ -796,7 +796,7 @@ def _single_case(
             return names[0]
         problems.add(
             f"the table has one force column ('{force_h.text}') and no load case column; say which load case or "
-            f"combination it holds (the model has {', '.join(repr(n) for n in names)})",
+            f"combination it holds with --case NAME (the model has {', '.join(repr(n) for n in names)})",
             grid.where(header_r),
         )
         return None
