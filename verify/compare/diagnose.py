@@ -313,19 +313,54 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     flagged: dict[str, set[str]] = {}
     diffs: list[tuple[int, ClaimedValue, float, float, float]] = []  # (row index, claim, value, computed, allowed)
     seen_pairs: set[tuple[str, str]] = set()
+    # Member claims are judged all at once (arrays); the loop below only assembles rows.
+    n_claims = len(claims.values)
+    k_of = np.array([load_names.index(mapping[v.column]) if mapping.get(v.column) else -1  # type: ignore[arg-type]
+                     for v in claims.values], dtype=np.int64)
+    is_reaction = np.array([v.reaction is not None for v in claims.values], dtype=bool)
+    judged = (member_pos >= 0) & (k_of >= 0) & ~is_reaction
+    signs = np.where(fixed_all, 1.0, float(effective_sign))
+    values = raw * signs * conv * scale_fit
+    mp, kk = np.where(judged, member_pos, 0), np.where(k_of >= 0, k_of, 0)
+
+    def route(forces: np.ndarray | None) -> list[float | None]:
+        if forces is None or n_claims == 0:
+            return [None] * n_claims
+        picked = forces[mp, kk]
+        return [float(x) if ok and np.isfinite(x) else None for x, ok in zip(picked.tolist(), judged.tolist(), strict=True)]
+
+    joints_l = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
+    sections_l = route(analysis.sections.forces.member_forces if analysis.sections is not None else None)  # type: ignore[attr-defined]
+    global_l = route(analysis.global_.member_forces if analysis.global_ is not None else None)
+    elastic_l = route(analysis.elastic.forces.member_forces if analysis.elastic is not None else None)  # type: ignore[attr-defined]
+    reference_forces = ref.member_forces if ref is not None else np.zeros((len(model.members), max(len(load_names), 1)))
+    computed_arr = reference_forces[mp, kk] if n_claims else np.zeros(0)
+    scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names] or [0.0])
+    atol_all = tol.atol_fraction * scale_arr[kk]
+    allowed_all = np.maximum(np.maximum(tol.rtol * np.maximum(np.abs(values), np.abs(computed_arr)), atol_all),
+                             rounding_unit * scale_fit)
+    agree_all = np.abs(values - computed_arr) <= allowed_all
+    big = np.abs(computed_arr) > atol_all
+    convention_status = np.full(n_claims, "agrees", dtype=object)
+    if sign_fit == -1 and sign is not SignMode.AUTO:
+        convention_status[~fixed_all & big] = "table-sign-convention"
+    elif scale_fit != 1.0 and unit_stated:
+        convention_status[big] = "unit-scale"
+    judged_rows = np.flatnonzero(judged)
+    claimed_matrix[member_pos[judged_rows], k_of[judged_rows]] = values[judged_rows]
+    values_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
+    agree_l, status_l, judged_l = agree_all.tolist(), convention_status.tolist(), judged.tolist()
     for i, v in enumerate(claims.values):
         mapped = mapping.get(v.column)
         if mapped is None:
             continue
         name = mapped
-        k = load_names.index(name)
-        signed = v.value if v.sign_fixed else v.value * effective_sign
-        value = signed * conv[i] * scale_fit
-        rounding = float(rounding_unit[i]) * scale_fit
+        k = load_names.index(name) if not judged_l[i] else int(k_of[i])
         as_written = f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}" if v.sign_fixed and v.value else f"{v.value:g}"
         written = f"{as_written} at {v.where}"
         if v.reaction is not None:
             joint, axis = v.reaction
+            rounding = float(rounding_unit[i]) * scale_fit
             # Reactions are global components: the table sign convention for T/C does not apply.
             value = v.value * conv[i] * scale_fit
             matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
@@ -341,39 +376,25 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                 findings.append(Finding("value-mismatch", (f"{joint}.{axis}",), f"reaction {joint}.{axis} in '{name}': claimed "
                                         f"{value:.4g}, recomputed {computed:.4g} {case_unit.symbol}", Severity.ERROR, case=name))
             continue
-        assert v.member is not None
-        m = model.member_index[v.member]
-        seen_pairs.add((v.member, name))
-        claimed_matrix[m, k] = value
-        joints_v: float | None = None
-        sections_v: float | None = None
-        global_v: float | None = None
-        elastic_v: float | None = None
-        if analysis.joints is not None:
-            joints_v = float(analysis.joints.forces.member_forces[m, k])
-        if analysis.sections is not None:
-            section_value = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
-            sections_v = section_value if np.isfinite(section_value) else None
-        if analysis.global_ is not None:
-            global_v = float(analysis.global_.member_forces[m, k])
-        if analysis.elastic is not None:
-            elastic_v = float(analysis.elastic.forces.member_forces[m, k])  # type: ignore[attr-defined]
+        if not judged_l[i]:
+            continue
+        member = v.member
+        assert member is not None
+        seen_pairs.add((member, name))
+        value = values_l[i]
+        global_v, elastic_v = global_l[i], elastic_l[i]
         computed = global_v if global_v is not None else elastic_v
         if computed is None or not comparable:
-            rows.append(Row(v.member, "member", name, value, written, joints_v, sections_v, global_v, elastic_v, None, "not-verifiable"))
+            rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v, None,
+                            "not-verifiable"))
             continue
-        atol = tol.atol_fraction * scale_of.get(name, 0.0)
-        allowed = tol.allowed(value, computed, atol, rounding)
-        if abs(value - computed) <= allowed:
-            status = "agrees"
-            if sign_fit == -1 and not v.sign_fixed and abs(computed) > atol and sign is not SignMode.AUTO:
-                status = "table-sign-convention"
-            elif scale_fit != 1.0 and abs(computed) > atol and unit_stated:
-                status = "unit-scale"
+        if agree_l[i]:
+            status = status_l[i]
         else:
             status = "value-mismatch"
-            diffs.append((len(rows), v, value, computed, allowed))
-        rows.append(Row(v.member, "member", name, value, written, joints_v, sections_v, global_v, elastic_v, value - computed, status))
+            diffs.append((len(rows), v, value, computed_l[i], allowed_l[i]))
+        rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
+                        value - computed, status))
 
     # Explain the mismatches: swapped pairs first (they need two rows), then single causes.
     explained: set[int] = set()
