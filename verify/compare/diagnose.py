@@ -327,7 +327,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         if forces is None or n_claims == 0:
             return [None] * n_claims
         picked = forces[mp, kk]
-        return [float(x) if ok and np.isfinite(x) else None for x, ok in zip(picked.tolist(), judged.tolist(), strict=True)]
+        usable = (judged & np.isfinite(picked)).tolist()
+        return [x if ok else None for x, ok in zip(picked.tolist(), usable, strict=True)]
 
     joints_l = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
     sections_l = route(analysis.sections.forces.member_forces if analysis.sections is not None else None)  # type: ignore[attr-defined]
