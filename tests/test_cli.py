@@ -155,3 +155,10 @@ def test_csv_output_neutralises_formula_labels(tmp_path):
     assert float(first[3]) == pytest.approx(3.333)
     # King-post statics (REFERENCES.md 3.3 general form): tie = P/(2 tan a) = 10/3, rafters = P/(2 sin a).
     assert code == 0, err
+
+
+def test_packaged_demo_is_the_bundled_case():
+    """The demo ships as package data; it must stay identical to cases/canal-footbridge."""
+    data = ROOT / "verify" / "data" / "demo"
+    for name in ("case.toml", "claims.csv"):
+        assert (data / name).read_bytes() == (ROOT / "cases" / "canal-footbridge" / name).read_bytes()
