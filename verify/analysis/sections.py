@@ -33,8 +33,9 @@ from __future__ import annotations
 
 import functools
 import itertools
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
+from typing import overload
 
 import numpy as np
 
@@ -134,7 +135,7 @@ class SectionCut:
 @dataclass(frozen=True)
 class SectionSolution:
     forces: ForceResult  # route="sections"; NaN for members not reached
-    cuts: tuple[SectionCut, ...]  # one per reached member, in solve order
+    cuts: Sequence[SectionCut]  # one per reached member, in solve order (records built when read)
     unreached: dict[str, str]  # member id -> plain reason
     notes: tuple[str, ...]
     reactions_first: bool  # reactions came from overall equilibrium before any cut
@@ -594,7 +595,7 @@ class _Solver:
         eng = self.eng
         self.known = np.zeros(eng.nb, dtype=bool)
         self.t = np.full((eng.nb, eng.ncols), np.nan)
-        self.cuts: list[SectionCut] = []
+        self.cuts: list[_CutBatch] = []
         self.budget = MAX_BODY_CANDIDATES
         self.notes: list[str] = []
         # plain lists for the per-candidate Python loops of the non-straight free bodies
@@ -795,7 +796,7 @@ class _Solver:
         first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
         first = first[np.argsort(cand[first], kind="stable")]
         cs = cand[first].tolist()
-        self.cuts.extend(_build_cuts(self.eng, found, cand[first], pair[first], w[first], code[first],
+        self.cuts.append(_build_cuts(self.eng, found, cand[first], pair[first], w[first], code[first],
                                      [side(c) for c in cs], [supports(c) for c in cs], straight,
                                      self.known, self.t))
         members = member[first]
@@ -806,7 +807,7 @@ class _Solver:
 
 def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray, w: np.ndarray,
                 code: np.ndarray, sides: Sequence[_JointSet], uses_reactions: Sequence[bool],
-                straight: bool, known: np.ndarray, t: np.ndarray) -> list[SectionCut]:
+                straight: bool, known: np.ndarray, t: np.ndarray) -> _CutBatch:
     """SectionCut records for accepted solutions (row r: candidate cand[r], target pair[r]).
 
     The Ritter points, force directions and the joints at the points are found for all rows at
@@ -862,37 +863,103 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
     point = point + eng.centre + 0.0
     # rounding noise (1e-16) and -0.0 would only clutter the report
     axis = np.where(np.abs(axis) < 1e-14, 0.0, axis) + 0.0
-    names = eng.member_names
-    jn = eng.joint_names
-    pm = found.pm.tolist()
-    kept_list = found.kept.tolist()
-    is_known = known[found.pm].tolist()
-    t_rows = t.tolist()
-    offsets = found.offsets.tolist()
-    points = [tuple(p) if h else None for p, h in zip(point.tolist(), has_point.tolist(), strict=True)]
-    axes = [None if np.isnan(a[0]) else tuple(a) for a in axis.tolist()]
-    methods = [_METHOD_NAMES[x] for x in code.tolist()]
-    at_joint = [jn[j] if j >= 0 else None for j in joint_at.tolist()]
-    cuts = []
-    for r, (c, tp) in enumerate(zip(cand.tolist(), pair.tolist(), strict=True)):
-        span = range(offsets[c], offsets[c + 1])
+    return _CutBatch(
+        names=eng.member_names, joint_names=eng.joint_names, pm=found.pm, kept=found.kept,
+        is_known=known[found.pm].copy(), t=t.copy(), offsets=found.offsets, cand=cand, pair=pair,
+        point=point, has_point=has_point, axis=axis, code=code, joint_at=joint_at, sides=list(sides),
+        uses_reactions=list(uses_reactions), straight=straight,
+    )
+
+
+class _CutBatch(Sequence["SectionCut"]):
+    """The cuts accepted in one pass, kept as arrays; a SectionCut is built when it is read.
+
+    Building 10^5 records of name tuples up front cost more than finding the cuts, and most runs
+    read only a few of them (a report prints dozens). `known` and `t` are snapshots taken when the
+    cuts were accepted, so each record shows what was known at that step.
+    """
+
+    def __init__(self, *, names: Sequence[str], joint_names: Sequence[str], pm: np.ndarray, kept: np.ndarray,
+                 is_known: np.ndarray, t: np.ndarray, offsets: np.ndarray, cand: np.ndarray, pair: np.ndarray,
+                 point: np.ndarray, has_point: np.ndarray, axis: np.ndarray, code: np.ndarray, joint_at: np.ndarray,
+                 sides: list[_JointSet], uses_reactions: list[bool], straight: bool) -> None:
+        self._names, self._jn = names, joint_names
+        self._pm, self._kept, self._is_known, self._t = pm, kept, is_known, t
+        self._offsets, self._cand, self._pair = offsets, cand, pair
+        self._point, self._has_point, self._axis, self._code, self._joint_at = point, has_point, axis, code, joint_at
+        self._sides, self._uses_reactions, self._straight = sides, uses_reactions, straight
+
+    def __len__(self) -> int:
+        return len(self._cand)
+
+    @overload
+    def __getitem__(self, r: int) -> SectionCut: ...
+
+    @overload
+    def __getitem__(self, r: slice) -> list[SectionCut]: ...
+
+    def __getitem__(self, r: int | slice) -> SectionCut | list[SectionCut]:
+        if isinstance(r, slice):
+            return [self[k] for k in range(*r.indices(len(self)))]
+        if r < 0:
+            r += len(self)
+        if not 0 <= r < len(self):
+            raise IndexError(r)
+        names, jn, pm = self._names, self._jn, self._pm
+        c, tp = int(self._cand[r]), int(self._pair[r])
+        span = range(int(self._offsets[c]), int(self._offsets[c + 1]))
+        is_known = self._is_known
         known_idx = [x for x in span if is_known[x]]
-        cuts.append(SectionCut(
-            target=names[pm[tp]],
-            cut_members=tuple([names[pm[x]] for x in span]),
-            known_members=tuple([names[pm[x]] for x in known_idx]),
-            method=methods[r],
-            moment_point=points[r],
-            axis=axes[r],
-            kept_ends=tuple([jn[kept_list[x]] for x in span]),
-            eliminated=tuple([names[pm[x]] for x in span if x != tp and not is_known[x]]),
-            moment_joint=at_joint[r],
-            known_forces=tuple([tuple(t_rows[pm[x]]) for x in known_idx]),
-            uses_reactions=bool(uses_reactions[r]),
-            straight=straight,
-            _side=sides[r],
-        ))
-    return cuts
+        point = tuple(self._point[r].tolist()) if self._has_point[r] else None
+        axis = None if np.isnan(self._axis[r, 0]) else tuple(self._axis[r].tolist())
+        at = int(self._joint_at[r])
+        return SectionCut(
+            target=names[int(pm[tp])],
+            cut_members=tuple(names[int(pm[x])] for x in span),
+            known_members=tuple(names[int(pm[x])] for x in known_idx),
+            method=_METHOD_NAMES[int(self._code[r])],
+            moment_point=point,
+            axis=axis,
+            kept_ends=tuple(jn[int(self._kept[x])] for x in span),
+            eliminated=tuple(names[int(pm[x])] for x in span if x != tp and not is_known[x]),
+            moment_joint=jn[at] if at >= 0 else None,
+            known_forces=tuple(tuple(self._t[int(pm[x])].tolist()) for x in known_idx),
+            uses_reactions=bool(self._uses_reactions[r]),
+            straight=self._straight,
+            _side=self._sides[r],
+        )
+
+
+class _CutSequence(Sequence["SectionCut"]):
+    """Every accepted cut, in solve order, across the batches of each pass."""
+
+    def __init__(self, batches: Sequence[_CutBatch]) -> None:
+        self._batches = [b for b in batches if len(b)]
+        self._starts = np.cumsum([0] + [len(b) for b in self._batches])
+
+    def __len__(self) -> int:
+        return int(self._starts[-1])
+
+    @overload
+    def __getitem__(self, r: int) -> SectionCut: ...
+
+    @overload
+    def __getitem__(self, r: slice) -> list[SectionCut]: ...
+
+    def __getitem__(self, r: int | slice) -> SectionCut | list[SectionCut]:
+        if isinstance(r, slice):
+            return [self[k] for k in range(*r.indices(len(self)))]
+        if r < 0:
+            r += len(self)
+        if not 0 <= r < len(self):
+            raise IndexError(r)
+        b = int(np.searchsorted(self._starts, r, side="right")) - 1
+        return self._batches[b][r - int(self._starts[b])]
+
+    def __iter__(self) -> Iterator[SectionCut]:
+        for batch in self._batches:
+            for k in range(len(batch)):
+                yield batch[k]
 
 
 def solve_sections(model: Model) -> SectionSolution:
@@ -922,7 +989,7 @@ def solve_sections(model: Model) -> SectionSolution:
         notes.append(f"{len(unreached)} of {eng.nb} members not reached by a cut")
     return SectionSolution(
         forces=ForceResult("sections", tuple(model.load_names), members, eng.reactions.copy(), tuple(notes)),
-        cuts=tuple(solver.cuts),
+        cuts=_CutSequence(solver.cuts),
         unreached=unreached,
         notes=tuple(notes),
         reactions_first=eng.first is not None,
