@@ -14,13 +14,24 @@ from verify.analysis.forces import ForceResult
 from verify.model import Model
 
 
+def equilibrium_lu(model: Model, A: object | None = None) -> spla.SuperLU:
+    """The sparse LU of the square equilibrium matrix, factored once per model."""
+    cached = model.memo.get("equilibrium_lu")
+    if isinstance(cached, spla.SuperLU):
+        return cached
+    matrix = A if A is not None else assemble_equilibrium(model)
+    lu = spla.splu(matrix, permc_spec="COLAMD" if model.dim == 2 else "MMD_ATA")
+    model.memo["equilibrium_lu"] = lu
+    return lu
+
+
 def solve_global(model: Model) -> ForceResult:
     """Member forces and reactions for every load column; A must be square and non-singular."""
     A = assemble_equilibrium(model)
     if A.shape[0] != A.shape[1]:
         raise ValueError("the global statics solve needs a determinate truss (square equilibrium matrix)")
     F = model.load_matrix()
-    lu = spla.splu(A, permc_spec="COLAMD" if model.dim == 2 else "MMD_ATA")
+    lu = equilibrium_lu(model, A)
     t = lu.solve(-F) if F.size else np.zeros((A.shape[1], 0))
     t = t.reshape(A.shape[1], -1)
     b = len(model.members)

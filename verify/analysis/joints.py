@@ -25,6 +25,7 @@ from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.forces import ForceResult
 from verify.model import Model
 
+PARTIAL_GIVE_UP = 500  # consecutive fruitless d+1-unknown joints before partial steps stop
 DEPENDENT_RTOL = 1e-9  # relative singular value below which unknown directions are dependent
 
 
@@ -167,6 +168,10 @@ def solve_joints(model: Model) -> JointSolution:
     primary: deque[int] = deque(j for j in range(n_j) if 0 < unknown_count[j] <= d)
     secondary: deque[int] = deque(j for j in range(n_j) if unknown_count[j] == d + 1)
     tried_partial: set[tuple[int, int]] = set()
+    # Joints with d + 1 unknowns rarely give anything (only special geometry, e.g. two collinear
+    # members); on large generic trusses trying each cost more than the whole solve. Stop trying
+    # after PARTIAL_GIVE_UP fruitless attempts in a row.
+    fruitless = 0
 
     # Plain-Python mirrors for the 2D inner loop: at 10^5 members numpy's per-call overhead on
     # 2x2 blocks cost more than the arithmetic (same equations, same order, same results).
@@ -205,7 +210,7 @@ def solve_joints(model: Model) -> JointSolution:
             continue
         if count == d + 1:
             key = (joint, int(unknown_count[joint]))
-            if key in tried_partial:
+            if key in tried_partial or fruitless >= PARTIAL_GIVE_UP:
                 continue
             tried_partial.add(key)
         if d == 2 and count == 2:
@@ -260,7 +265,9 @@ def solve_joints(model: Model) -> JointSolution:
         null = vh[rank:]
         determined = [k for k in range(len(unknown)) if null.size == 0 or np.abs(null[:, k]).max() < 1e-9]
         if not determined:
+            fruitless += 1
             continue
+        fruitless = 0
         # Minimum-norm solution from the same SVD; its determined components are unique.
         solution = vh[:rank].T @ ((left[:, :rank].T @ rhs) / sv[:rank, None])
         chosen = [unknown[k] for k in determined]
@@ -274,6 +281,21 @@ def solve_joints(model: Model) -> JointSolution:
     if stalled:
         rest = np.nonzero(~known)[0]
         A = assemble_equilibrium(model)
+        if len(rest) == A.shape[1] == A.shape[0]:
+            # Nothing could be solved joint by joint: the simultaneous step is the whole system.
+            from verify.analysis.global_solve import equilibrium_lu
+
+            t = equilibrium_lu(model, A).solve(-F).reshape(n_unknowns, -1)
+            steps.append(JointStep("simultaneous", tuple(j.id for j in model.joints), tuple(int(c) for c in rest)))
+            notes.append(f"no joint with at most {d} unknowns: all {len(rest)} forces at {len(model.joints)} joints are "
+                         "solved simultaneously (compound or complex truss)")
+            residual = A @ t + F
+            return JointSolution(
+                forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
+                steps=tuple(steps), reactions_first=first is not None, moment_point=moment_point,
+                moment_joint=moment_joint, stalled=True,
+                max_residual=float(np.abs(residual).max()) if residual.size else 0.0, notes=tuple(notes),
+            )
         rows_needed = np.unique(A[:, rest].nonzero()[0])
         sub = A[rows_needed][:, rest].tocsc()
         rhs = -F[rows_needed] - A[rows_needed][:, known] @ np.nan_to_num(t[known])

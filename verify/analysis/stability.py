@@ -33,7 +33,7 @@ from verify.model import Model
 
 DENSE_DOF_LIMIT = 400  # dense SVD (bases of every mode) costs ~0.1 s here; above, sparse LU first
 DENSE_DETAIL_LIMIT = 1500  # a sparse screen that finds a mechanism hands over to the dense SVD up to here
-POWER_ITERATIONS = 15  # for the sigma_min / sigma_max estimate of a large square A (a figure, not a verdict)
+POWER_ITERATIONS = 8  # for the sigma_min / sigma_max estimate of a large square A (a figure, not a verdict)
 RANK_RTOL = 1e-10  # singular values below RANK_RTOL * sigma_max count as zero
 ILL_CONDITIONED_SCALED = 1e-2  # see module docstring
 LU_PIVOT_SINGULAR = 1e-11  # pivots of A: sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
@@ -286,6 +286,9 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         spec = "COLAMD"
     try:
         lu = spla.splu(M, permc_spec=spec)
+        if cols == dofs:
+            # The global statics solve factors the same matrix with the same ordering: share it.
+            model.memo["equilibrium_lu"] = lu
         diag = np.abs(lu.U.diagonal())
         ratio = float(diag.min() / diag.max())
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
