@@ -164,9 +164,11 @@ def solve_joints(model: Model) -> JointSolution:
     blocks = [inc_vec[:, ptr[j]:ptr[j + 1]] for j in range(n_j)]
 
     joint_ids = [j.id for j in model.joints]
-    unknown_count = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64)
-    primary: deque[int] = deque(j for j in range(n_j) if 0 < unknown_count[j] <= d)
-    secondary: deque[int] = deque(j for j in range(n_j) if unknown_count[j] == d + 1)
+    unknown_count = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64).tolist()
+    primary: deque[int] = deque(np.flatnonzero((np.array(unknown_count) > 0) & (np.array(unknown_count) <= d)).tolist())
+    secondary: deque[int] = deque(np.flatnonzero(np.array(unknown_count) == d + 1).tolist())
+    ends_l = ends.tolist()
+    r_joint_l = r_joint.tolist()
     tried_partial: set[tuple[int, int]] = set()
     # Joints with d + 1 unknowns rarely give anything (only special geometry, e.g. two collinear
     # members); on large generic trusses trying each cost more than the whole solve. Stop trying
@@ -184,32 +186,28 @@ def solve_joints(model: Model) -> JointSolution:
     neg_load = (-F).tolist()
 
     def store(c: int, values: list[float]) -> None:
-        t_l[c] = values
-        t[c] = values
+        t_l[c] = values  # copied into the array t once, after the loop
 
     def mark(cols: list[int]) -> None:
         for c in cols:
             known[c] = True
             known_l[c] = True
-            touched: tuple[int, ...]
-            if c < b:
-                touched = (int(ends[c, 0]), int(ends[c, 1]))
-            else:
-                touched = (model.joint_index[model.reactions[c - b].joint],)
+            touched = ends_l[c] if c < b else (r_joint_l[c - b],)
             for j in touched:
                 unknown_count[j] -= 1
-                if 0 < unknown_count[j] <= d:
+                left = unknown_count[j]
+                if 0 < left <= d:
                     primary.append(j)
-                elif unknown_count[j] == d + 1:
+                elif left == d + 1:
                     secondary.append(j)
 
     while primary or secondary:
         joint = primary.popleft() if primary else secondary.popleft()
-        count = int(unknown_count[joint])
+        count = unknown_count[joint]
         if count == 0 or count > d + 1:
             continue
         if count == d + 1:
-            key = (joint, int(unknown_count[joint]))
+            key = (joint, count)
             if key in tried_partial or fruitless >= PARTIAL_GIVE_UP:
                 continue
             tried_partial.add(key)
@@ -238,7 +236,8 @@ def solve_joints(model: Model) -> JointSolution:
         is_known = known[cols_j]
         block = blocks[joint]
         M = block[:, ~is_known]
-        rhs = -F[joint * d : (joint + 1) * d] - block[:, is_known] @ t[cols_j[is_known]]
+        known_rows = np.array([t_l[c] for c in cols_j[is_known].tolist()], dtype=float).reshape(-1, ncols)
+        rhs = -F[joint * d : (joint + 1) * d] - block[:, is_known] @ known_rows
         unknown = [int(c) for c in cols_j[~is_known]]
         if M.shape[1] == d:
             # The common hand-calc step: d independent unknowns, d equations. Every column is a
@@ -277,6 +276,8 @@ def solve_joints(model: Model) -> JointSolution:
         steps.append(JointStep("joint", (model.joints[joint].id,), tuple(chosen), partial=len(chosen) < len(unknown)))
         mark(chosen)
 
+    nan_row = [float("nan")] * ncols
+    t = np.array([row if row is not None else nan_row for row in t_l], dtype=float).reshape(n_unknowns, ncols)
     stalled = not known.all()
     if stalled:
         rest = np.nonzero(~known)[0]
