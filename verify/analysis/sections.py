@@ -33,7 +33,7 @@ from __future__ import annotations
 
 import functools
 import itertools
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import overload
 
@@ -797,7 +797,7 @@ class _Solver:
         first = first[np.argsort(cand[first], kind="stable")]
         cs = cand[first].tolist()
         self.cuts.append(_build_cuts(self.eng, found, cand[first], pair[first], w[first], code[first],
-                                     [side(c) for c in cs], [supports(c) for c in cs], straight,
+                                     _Mapped(side, cs), [supports(c) for c in cs], straight,
                                      self.known, self.t))
         members = member[first]
         self.t[members] = value[first]
@@ -866,7 +866,7 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
     return _CutBatch(
         names=eng.member_names, joint_names=eng.joint_names, pm=found.pm, kept=found.kept,
         is_known=known[found.pm].copy(), t=t.copy(), offsets=found.offsets, cand=cand, pair=pair,
-        point=point, has_point=has_point, axis=axis, code=code, joint_at=joint_at, sides=list(sides),
+        point=point, has_point=has_point, axis=axis, code=code, joint_at=joint_at, sides=sides,
         uses_reactions=list(uses_reactions), straight=straight,
     )
 
@@ -882,7 +882,7 @@ class _CutBatch(Sequence["SectionCut"]):
     def __init__(self, *, names: Sequence[str], joint_names: Sequence[str], pm: np.ndarray, kept: np.ndarray,
                  is_known: np.ndarray, t: np.ndarray, offsets: np.ndarray, cand: np.ndarray, pair: np.ndarray,
                  point: np.ndarray, has_point: np.ndarray, axis: np.ndarray, code: np.ndarray, joint_at: np.ndarray,
-                 sides: list[_JointSet], uses_reactions: list[bool], straight: bool) -> None:
+                 sides: Sequence[_JointSet], uses_reactions: list[bool], straight: bool) -> None:
         self._names, self._jn = names, joint_names
         self._pm, self._kept, self._is_known, self._t = pm, kept, is_known, t
         self._offsets, self._cand, self._pair = offsets, cand, pair
@@ -928,6 +928,27 @@ class _CutBatch(Sequence["SectionCut"]):
             straight=self._straight,
             _side=self._sides[r],
         )
+
+
+class _Mapped(Sequence["_JointSet"]):
+    """fn(key) for each key, computed when read (a free body's joint set per accepted cut)."""
+
+    def __init__(self, fn: Callable[[int], _JointSet], keys: list[int]) -> None:
+        self._fn, self._keys = fn, keys
+
+    def __len__(self) -> int:
+        return len(self._keys)
+
+    @overload
+    def __getitem__(self, r: int) -> _JointSet: ...
+
+    @overload
+    def __getitem__(self, r: slice) -> list[_JointSet]: ...
+
+    def __getitem__(self, r: int | slice) -> _JointSet | list[_JointSet]:
+        if isinstance(r, slice):
+            return [self._fn(k) for k in self._keys[r]]
+        return self._fn(self._keys[r])
 
 
 class _CutSequence(Sequence["SectionCut"]):
