@@ -5,13 +5,12 @@ STAMP := $(VENV)/.installed
 
 .PHONY: demo test lint bench clean
 
+# An editable install leaves the package uncompiled; compileall does once what a regular install
+# does, so that commands do not recompile it (some environments forbid writing bytecode at import).
 $(STAMP): pyproject.toml
 	python3 -m venv $(VENV)
 	$(PY) -m pip install --quiet --upgrade pip
 	$(PY) -m pip install --quiet -e '.[test]'
-	# An editable install leaves the package uncompiled; compile it once, as a regular install
-	# would, so that every command does not recompile it (some environments forbid writing
-	# bytecode at import time).
 	$(PY) -m compileall -q verify
 	touch $(STAMP)
 

@@ -16,7 +16,19 @@ from verify.model import Model
 
 
 def assemble_equilibrium(model: Model) -> sp.csc_matrix:
-    """The sparse equilibrium matrix A (vectorised COO assembly)."""
+    """The sparse equilibrium matrix A (vectorised COO assembly), built once per model.
+
+    Callers must not modify it in place (every analysis only reads or slices it).
+    """
+    cached = model.memo.get("equilibrium_matrix")
+    if isinstance(cached, sp.csc_matrix):
+        return cached
+    A = _assemble(model)
+    model.memo["equilibrium_matrix"] = A
+    return A
+
+
+def _assemble(model: Model) -> sp.csc_matrix:
     d = model.dim
     b = len(model.members)
     r = len(model.reactions)
