@@ -158,9 +158,13 @@ class Model:
         n_cases = len(self.cases)
         F = np.zeros((self.dofs, n_cases + len(self.combinations)))
         for k, case in enumerate(self.cases):
-            for joint, vector in case.loads.items():
-                i = self.joint_index[joint]
-                F[i * self.dim : (i + 1) * self.dim, k] += vector
+            if not case.loads:
+                continue
+            # One vector per loaded joint (the reader refuses a joint loaded twice in a case).
+            index = np.fromiter((self.joint_index[j] for j in case.loads), dtype=np.int64, count=len(case.loads))
+            vectors = np.array(list(case.loads.values()), dtype=float).reshape(len(case.loads), self.dim)
+            rows = (index[:, None] * self.dim + np.arange(self.dim)).ravel()
+            np.add.at(F[:, k], rows, vectors.ravel())
         case_pos = {c.name: k for k, c in enumerate(self.cases)}
         for c, combo in enumerate(self.combinations):
             for name, factor in combo.factors.items():
