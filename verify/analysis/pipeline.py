@@ -6,7 +6,11 @@ stable, determinate truss; the stiffness route needs stiffness and an indetermin
 
 from __future__ import annotations
 
+import os
+import pickle
+from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -17,6 +21,8 @@ from verify.analysis.stability import Classification, StabilityResult, solve_sta
 from verify.model import Model
 
 ROUTE_RTOL = 1e-6  # routes must agree to this fraction of the largest force (round-off only)
+PARALLEL_MIN_MEMBERS = 20_000  # below this a second process costs more than it saves
+SERIAL_ENV = "TRUSS_VERIFY_SERIAL"  # set to any value to keep every route in one process
 
 
 @dataclass(frozen=True)
@@ -64,22 +70,61 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
                 "only the equilibrium of claimed forces can be checked"
             )
         return Analysis(model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA)
+    from verify.analysis.sections import solve_sections
+
+    # The section route is independent of the joint route: on large trusses it runs beside it.
+    pending = _start_in_child(solve_sections, model) if sections and len(model.members) >= PARALLEL_MIN_MEMBERS else None
     joints = solve_joints(model)
     global_ = solve_global(model)
     section_solution = None
-    if sections:
-        try:
-            from verify.analysis.sections import solve_sections
-        except ImportError:  # the section route is optional while it is being built
-            section_solution = None
-        else:
-            section_solution = solve_sections(model)
+    if pending is not None:
+        section_solution = pending()
+    elif sections:
+        section_solution = solve_sections(model)
     disagreement = route_disagreement(global_, joints.forces, getattr(section_solution, "forces", None))
     elastic = None
     if displacements and (model.has_stiffness or assume_equal_EA is not None):
         elastic = _stiffness_or_note(model, assume_equal_EA, notes)
     return Analysis(model, stability, joints=joints, global_=global_, sections=section_solution, elastic=elastic,
                     notes=tuple(notes), route_disagreement=disagreement, assumed_EA=assume_equal_EA)
+
+
+def _start_in_child(route: Callable[[Model], Any], model: Model) -> Callable[[], Any] | None:
+    """Run route(model) in a forked process; returns a function that collects the result.
+
+    The child sends its result back pickled through a pipe. If forking is unavailable, disabled
+    (TRUSS_VERIFY_SERIAL) or the child fails, the route simply runs in this process.
+    """
+    if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV):
+        return None
+    read_fd, write_fd = os.pipe()
+    try:
+        pid = os.fork()
+    except OSError:
+        os.close(read_fd)
+        os.close(write_fd)
+        return None
+    if pid == 0:  # the child: compute, send, and leave without running the parent's exit hooks
+        status = 1
+        try:
+            os.close(read_fd)
+            payload = pickle.dumps(route(model), protocol=pickle.HIGHEST_PROTOCOL)
+            with os.fdopen(write_fd, "wb") as pipe:
+                pipe.write(payload)
+            status = 0
+        finally:
+            os._exit(status)
+    os.close(write_fd)
+
+    def collect() -> Any:
+        with os.fdopen(read_fd, "rb") as pipe:
+            payload = pipe.read()
+        _, status = os.waitpid(pid, 0)
+        if status != 0 or not payload:
+            return route(model)
+        return pickle.loads(payload)
+
+    return collect
 
 
 def _stiffness_or_note(model: Model, assume_equal_EA: float | None, notes: list[str]) -> object | None:

@@ -33,7 +33,7 @@ from __future__ import annotations
 
 import functools
 import itertools
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import overload
 
@@ -659,15 +659,7 @@ class _Solver:
         names, order, nj = eng.joint_names, sw.order, eng.nj
         held = np.where(keep_left, sw.side_supports[0][gaps], sw.side_supports[1][gaps]) > 0
 
-        def side(c: int) -> _JointSet:
-            if lefts[c]:
-                return _JointSet(names, order, 0, stops[c])
-            return _JointSet(names, order, stops[c], nj)
-
-        def supports(c: int) -> bool:
-            return bool(held[c])
-
-        return self._accept(found, side, supports, straight=True)
+        return self._accept(found, _StraightSides(names, order, stops, lefts, nj), held.tolist(), straight=True)
 
     def _moved(self, sw: _Sweep) -> int:
         """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved across."""
@@ -727,7 +719,7 @@ class _Solver:
                 self.support_list[j] for j in moved) > 0))
         found = eng.evaluate(np.concatenate(pcs), np.array([m for ms in pms for m in ms], dtype=np.int64),
                              np.array([j for ks in kepts for j in ks], dtype=np.int64), ext, self.known, self.t)
-        return self._accept(found, lambda c: sides[c], lambda c: sup[c], straight=False)
+        return self._accept(found, sides, sup, straight=False)
 
     def _moved_body(self, group: list[int], known: list[bool], stops: list[int], side_cost, side_sup,
                     g: int, base: set[int], moved: tuple[int, ...], to_right: bool):
@@ -779,7 +771,7 @@ class _Solver:
         kept = [ends[m][0] if left(ends[m][0]) == keep_left else ends[m][1] for m in members]
         return members, kept, keep_left, g, moved, to_right
 
-    def _accept(self, found: _Found, side, supports, *, straight: bool) -> int:
+    def _accept(self, found: _Found, side: Sequence[_JointSet], supports: Sequence[bool], *, straight: bool) -> int:
         """Record the first cut found for every newly isolated member."""
         rows = found.rows()
         if rows is None:
@@ -797,7 +789,7 @@ class _Solver:
         first = first[np.argsort(cand[first], kind="stable")]
         cs = cand[first].tolist()
         self.cuts.append(_build_cuts(self.eng, found, cand[first], pair[first], w[first], code[first],
-                                     _Mapped(side, cs), [supports(c) for c in cs], straight,
+                                     _Mapped(side, cs), [bool(supports[c]) for c in cs], straight,
                                      self.known, self.t))
         members = member[first]
         self.t[members] = value[first]
@@ -930,11 +922,34 @@ class _CutBatch(Sequence["SectionCut"]):
         )
 
 
-class _Mapped(Sequence["_JointSet"]):
-    """fn(key) for each key, computed when read (a free body's joint set per accepted cut)."""
+class _StraightSides(Sequence["_JointSet"]):
+    """The kept side of each gap of a straight sweep, as a joint set built when read."""
 
-    def __init__(self, fn: Callable[[int], _JointSet], keys: list[int]) -> None:
-        self._fn, self._keys = fn, keys
+    def __init__(self, names: tuple[str, ...], order: np.ndarray, stops: list[int], lefts: list[bool], nj: int) -> None:
+        self._names, self._order, self._stops, self._lefts, self._nj = names, order, stops, lefts, nj
+
+    def __len__(self) -> int:
+        return len(self._stops)
+
+    @overload
+    def __getitem__(self, c: int) -> _JointSet: ...
+
+    @overload
+    def __getitem__(self, c: slice) -> list[_JointSet]: ...
+
+    def __getitem__(self, c: int | slice) -> _JointSet | list[_JointSet]:
+        if isinstance(c, slice):
+            return [self[k] for k in range(*c.indices(len(self)))]
+        if self._lefts[c]:
+            return _JointSet(self._names, self._order, 0, self._stops[c])
+        return _JointSet(self._names, self._order, self._stops[c], self._nj)
+
+
+class _Mapped(Sequence["_JointSet"]):
+    """sides[key] for each key, read when needed (a free body's joint set per accepted cut)."""
+
+    def __init__(self, sides: Sequence[_JointSet], keys: list[int]) -> None:
+        self._sides, self._keys = sides, keys
 
     def __len__(self) -> int:
         return len(self._keys)
@@ -947,8 +962,8 @@ class _Mapped(Sequence["_JointSet"]):
 
     def __getitem__(self, r: int | slice) -> _JointSet | list[_JointSet]:
         if isinstance(r, slice):
-            return [self._fn(k) for k in self._keys[r]]
-        return self._fn(self._keys[r])
+            return [self._sides[k] for k in self._keys[r]]
+        return self._sides[self._keys[r]]
 
 
 class _CutSequence(Sequence["SectionCut"]):
