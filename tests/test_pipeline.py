@@ -6,8 +6,8 @@ import os
 
 import numpy as np
 import pytest
-
 from trussgen import make_model, pratt
+
 from verify.analysis import pipeline
 
 
