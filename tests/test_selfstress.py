@@ -19,6 +19,7 @@ import pytest
 import scipy.linalg
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
+from test_stiffness import dense_equilibrium  # the independent test-side equilibrium matrix
 from trussgen import make_model, pratt, truss_case
 
 from verify.analysis.selfstress import decompose_claims
@@ -28,22 +29,6 @@ from verify.model import Model
 ATOL = 1e-9  # relative to the force scale: exact decompositions in double precision
 SETTINGS = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 r2 = math.sqrt(2.0)
-
-
-def dense_equilibrium(model: Model) -> np.ndarray:
-    """A (dofs x members+reactions) from the raw joint coordinates and member ends."""
-    d = model.dim
-    coords = {j.id: np.array(j.coords, dtype=float) for j in model.joints}
-    order = {j.id: i for i, j in enumerate(model.joints)}
-    A = np.zeros((d * len(model.joints), len(model.members) + len(model.reactions)))
-    for k, m in enumerate(model.members):
-        vec = coords[m.end] - coords[m.start]
-        u = vec / np.linalg.norm(vec)
-        A[order[m.start] * d : order[m.start] * d + d, k] += u
-        A[order[m.end] * d : order[m.end] * d + d, k] -= u
-    for k, r in enumerate(model.reactions):
-        A[order[r.joint] * d : order[r.joint] * d + d, len(model.members) + k] = r.direction
-    return A
 
 
 def square_model(P: float = 10.0) -> Model:

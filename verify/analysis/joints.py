@@ -164,9 +164,10 @@ def solve_joints(model: Model) -> JointSolution:
     blocks = [inc_vec[:, ptr[j]:ptr[j + 1]] for j in range(n_j)]
 
     joint_ids = [j.id for j in model.joints]
-    unknown_count = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64).tolist()
-    primary: deque[int] = deque(np.flatnonzero((np.array(unknown_count) > 0) & (np.array(unknown_count) <= d)).tolist())
-    secondary: deque[int] = deque(np.flatnonzero(np.array(unknown_count) == d + 1).tolist())
+    counts = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64)
+    primary: deque[int] = deque(np.flatnonzero((counts > 0) & (counts <= d)).tolist())
+    secondary: deque[int] = deque(np.flatnonzero(counts == d + 1).tolist())
+    unknown_count = counts.tolist()
     ends_l = ends.tolist()
     r_joint_l = r_joint.tolist()
     tried_partial: set[tuple[int, int]] = set()

@@ -35,7 +35,7 @@ import functools
 import itertools
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import overload
+from typing import TypeVar, overload
 
 import numpy as np
 
@@ -863,7 +863,32 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
     )
 
 
-class _CutBatch(Sequence["SectionCut"]):
+_Item = TypeVar("_Item")
+
+
+class _Lazy(Sequence[_Item]):
+    """A sequence whose items are built when read: subclasses give __len__ and _item(index)."""
+
+    def _item(self, index: int) -> _Item:
+        raise NotImplementedError
+
+    @overload
+    def __getitem__(self, index: int) -> _Item: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> list[_Item]: ...
+
+    def __getitem__(self, index: int | slice) -> _Item | list[_Item]:
+        if isinstance(index, slice):
+            return [self._item(k) for k in range(*index.indices(len(self)))]
+        if index < 0:
+            index += len(self)
+        if not 0 <= index < len(self):
+            raise IndexError(index)
+        return self._item(index)
+
+
+class _CutBatch(_Lazy["SectionCut"]):
     """The cuts accepted in one pass, kept as arrays; a SectionCut is built when it is read.
 
     Building 10^5 records of name tuples up front cost more than finding the cuts, and most runs
@@ -884,19 +909,7 @@ class _CutBatch(Sequence["SectionCut"]):
     def __len__(self) -> int:
         return len(self._cand)
 
-    @overload
-    def __getitem__(self, r: int) -> SectionCut: ...
-
-    @overload
-    def __getitem__(self, r: slice) -> list[SectionCut]: ...
-
-    def __getitem__(self, r: int | slice) -> SectionCut | list[SectionCut]:
-        if isinstance(r, slice):
-            return [self[k] for k in range(*r.indices(len(self)))]
-        if r < 0:
-            r += len(self)
-        if not 0 <= r < len(self):
-            raise IndexError(r)
+    def _item(self, r: int) -> SectionCut:
         names, jn, pm = self._names, self._jn, self._pm
         c, tp = int(self._cand[r]), int(self._pair[r])
         span = range(int(self._offsets[c]), int(self._offsets[c + 1]))
@@ -922,7 +935,7 @@ class _CutBatch(Sequence["SectionCut"]):
         )
 
 
-class _StraightSides(Sequence["_JointSet"]):
+class _StraightSides(_Lazy["_JointSet"]):
     """The kept side of each gap of a straight sweep, as a joint set built when read."""
 
     def __init__(self, names: tuple[str, ...], order: np.ndarray, stops: list[int], lefts: list[bool], nj: int) -> None:
@@ -931,21 +944,13 @@ class _StraightSides(Sequence["_JointSet"]):
     def __len__(self) -> int:
         return len(self._stops)
 
-    @overload
-    def __getitem__(self, c: int) -> _JointSet: ...
-
-    @overload
-    def __getitem__(self, c: slice) -> list[_JointSet]: ...
-
-    def __getitem__(self, c: int | slice) -> _JointSet | list[_JointSet]:
-        if isinstance(c, slice):
-            return [self[k] for k in range(*c.indices(len(self)))]
+    def _item(self, c: int) -> _JointSet:
         if self._lefts[c]:
             return _JointSet(self._names, self._order, 0, self._stops[c])
         return _JointSet(self._names, self._order, self._stops[c], self._nj)
 
 
-class _Mapped(Sequence["_JointSet"]):
+class _Mapped(_Lazy["_JointSet"]):
     """sides[key] for each key, read when needed (a free body's joint set per accepted cut)."""
 
     def __init__(self, sides: Sequence[_JointSet], keys: list[int]) -> None:
@@ -954,19 +959,11 @@ class _Mapped(Sequence["_JointSet"]):
     def __len__(self) -> int:
         return len(self._keys)
 
-    @overload
-    def __getitem__(self, r: int) -> _JointSet: ...
-
-    @overload
-    def __getitem__(self, r: slice) -> list[_JointSet]: ...
-
-    def __getitem__(self, r: int | slice) -> _JointSet | list[_JointSet]:
-        if isinstance(r, slice):
-            return [self._sides[k] for k in self._keys[r]]
+    def _item(self, r: int) -> _JointSet:
         return self._sides[self._keys[r]]
 
 
-class _CutSequence(Sequence["SectionCut"]):
+class _CutSequence(_Lazy["SectionCut"]):
     """Every accepted cut, in solve order, across the batches of each pass."""
 
     def __init__(self, batches: Sequence[_CutBatch]) -> None:
@@ -976,19 +973,7 @@ class _CutSequence(Sequence["SectionCut"]):
     def __len__(self) -> int:
         return int(self._starts[-1])
 
-    @overload
-    def __getitem__(self, r: int) -> SectionCut: ...
-
-    @overload
-    def __getitem__(self, r: slice) -> list[SectionCut]: ...
-
-    def __getitem__(self, r: int | slice) -> SectionCut | list[SectionCut]:
-        if isinstance(r, slice):
-            return [self[k] for k in range(*r.indices(len(self)))]
-        if r < 0:
-            r += len(self)
-        if not 0 <= r < len(self):
-            raise IndexError(r)
+    def _item(self, r: int) -> SectionCut:
         b = int(np.searchsorted(self._starts, r, side="right")) - 1
         return self._batches[b][r - int(self._starts[b])]
 

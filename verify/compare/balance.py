@@ -28,6 +28,14 @@ class JointImbalance:
     members: tuple[str, ...]
 
 
+def _incidence(model: Model) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Joints x members 0/1 matrix (which members meet at each joint) and each joint's degree."""
+    b, nj, ends = len(model.members), len(model.joints), model.ends_index
+    incidence = sp.csr_matrix((np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
+                              shape=(nj, b))
+    return incidence, np.asarray(incidence.sum(axis=1)).ravel()
+
+
 def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tuple[int, int], float],
                    load_names: list[str], tol: Tolerance) -> list[JointImbalance]:
     d = model.dim
@@ -35,10 +43,7 @@ def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tupl
     nj = len(model.joints)
     F = model.load_matrix()
     A = assemble_equilibrium(model)[:, :b]
-    ends = model.ends_index
-    incidence = sp.csr_matrix((np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
-                              shape=(nj, b))
-    degree = np.asarray(incidence.sum(axis=1)).ravel()
+    incidence, degree = _incidence(model)
     reactions_at: dict[int, list[int]] = {}
     for n, r in enumerate(model.reactions):
         reactions_at.setdefault(model.joint_index[r.joint], []).append(n)
@@ -82,12 +87,7 @@ def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tupl
 
 def checkable_joints(model: Model, claimed: np.ndarray, load_names: list[str]) -> dict[str, int]:
     """Per load column with claims: how many joints have a claim for every member meeting there."""
-    b = len(model.members)
-    nj = len(model.joints)
-    ends = model.ends_index
-    incidence = sp.csr_matrix((np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
-                              shape=(nj, b))
-    degree = np.asarray(incidence.sum(axis=1)).ravel()
+    incidence, degree = _incidence(model)
     out: dict[str, int] = {}
     for k, name in enumerate(load_names):
         finite = np.isfinite(claimed[:, k])

@@ -31,6 +31,7 @@ from verify.compare.convention import (
 )
 from verify.compare.findings import Finding, Severity, ordered
 from verify.compare.tolerances import Tolerance, rounding_allowance, rounding_allowances
+from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.units import Dimension, factor, lookup_unit
 
@@ -107,7 +108,8 @@ class Review:
 
     @property
     def exit_code(self) -> int:
-        return {Verdict.AGREES: 0, Verdict.DISCREPANCIES: 1, Verdict.CANNOT_VERIFY: 3}[self.verdict]
+        return {Verdict.AGREES: EXIT_AGREES, Verdict.DISCREPANCIES: EXIT_DISCREPANCIES,
+                Verdict.CANNOT_VERIFY: EXIT_CANNOT_VERIFY}[self.verdict]
 
 
 # -- column mapping ------------------------------------------------------------------------------

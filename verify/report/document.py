@@ -78,14 +78,13 @@ def sha256_file(path: str | Path) -> str | None:
 def input_files(review: Review) -> list[InputFile]:
     """The case file, every CSV table it names, and the claims file, each with its SHA-256."""
     model = review.analysis.model
+    case_digest = sha256_file(model.source)
     out = [
         InputFile(
             "case file",
             model.source,
-            sha256_file(model.source),
-            ""
-            if sha256_file(model.source)
-            else "not readable now (model built in memory or file moved)",
+            case_digest,
+            "" if case_digest else "not readable now (model built in memory or file moved)",
         )
     ]
     for role, path in _case_tables(model.source):

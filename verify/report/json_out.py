@@ -27,16 +27,6 @@ def _clean(value: Any) -> Any:
     return value
 
 
-def _sha256(path: str) -> str | None:
-    import hashlib
-
-    try:
-        with open(path, "rb") as handle:
-            return hashlib.sha256(handle.read()).hexdigest()
-    except OSError:
-        return None
-
-
 def dumps(data: dict[str, Any]) -> str:
     return json.dumps(_clean(data), indent=2, ensure_ascii=False, allow_nan=False)
 
@@ -97,6 +87,8 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
 
 def check_json(review: Any) -> dict[str, Any]:
     """The DESIGN.md section 4 `check --json` object (extra fields allowed, none renamed)."""
+    from verify.report.document import sha256_file
+
     model = review.analysis.model
     return {
         "verdict": review.verdict.value,
@@ -115,7 +107,7 @@ def check_json(review: Any) -> dict[str, Any]:
             {"joint": b.joint, "case": b.case, "residual": list(b.residual), "size": b.size}
             for b in review.imbalances
         ],
-        "inputs": {"case": model.source, "case_sha256": _sha256(model.source), "claims": review.claims.source,
+        "inputs": {"case": model.source, "case_sha256": sha256_file(model.source), "claims": review.claims.source,
                    "claims_sha256": review.claims.sha256},
         "tool": {"name": "truss-verify", "version": __version__},
         "notes": list(review.notes),
