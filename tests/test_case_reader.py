@@ -235,6 +235,29 @@ def test_csv_tables_read_like_inline_tables(write_files, tmp_path):
     np.testing.assert_allclose(solve_global(from_csv).member_forces, solve_global(inline).member_forces, rtol=RTOL)
 
 
+@pytest.mark.parametrize("padded", [False, True])
+def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, padded):
+    """Clean tables are read in bulk (pandas, arrays handed to the Model); the careful row reader
+    must give the same model, arrays included, padded cells and shuffled rows or not."""
+    import verify.io.case as case_module
+
+    files = pratt_csv_files(pratt(6))
+    for name in ("joints.csv", "members.csv", "loads.csv"):
+        header, *rows = files[name].splitlines()
+        rows = rows[::-1]  # row order is not joint order
+        if padded:
+            rows = [" " + row.replace(",", " ,\t", 1) for row in rows]
+        files[name] = "\n".join([header, *rows]) + "\n"
+    bulk = read_case(write_files(files))
+    monkeypatch.setattr(case_module, "_clean_frame", lambda *args: None)
+    careful = read_case(write_files(files))
+    assert bulk.joints == careful.joints and bulk.members == careful.members
+    assert [dict(c.loads) for c in bulk.cases] == [dict(c.loads) for c in careful.cases]
+    np.testing.assert_array_equal(bulk.xyz, careful.xyz)
+    np.testing.assert_array_equal(bulk.ends_index, careful.ends_index)
+    np.testing.assert_array_equal(bulk.unit_vectors, careful.unit_vectors)
+
+
 def test_toml_writer_round_trip(tmp_path):
     """The test helper's TOML writer gives back the same model as building from the dict."""
     case = pratt(4)

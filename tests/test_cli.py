@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import json
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -162,3 +164,20 @@ def test_packaged_demo_is_the_bundled_case():
     data = ROOT / "verify" / "data" / "demo"
     for name in ("case.toml", "claims.csv"):
         assert (data / name).read_bytes() == (ROOT / "cases" / "canal-footbridge" / name).read_bytes()
+
+
+def _console(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "verify", *map(str, args)], capture_output=True, text=True,
+                          cwd=ROOT, encoding="utf-8", timeout=120)
+
+
+def test_console_entry_delivers_all_output_and_the_exit_status():
+    """`python -m verify` (the console entry, which leaves without interpreter teardown) still
+    flushes every line and keeps each command's exit status; the JSON equals the in-process run."""
+    solved = _console("solve", FOOTBRIDGE, "--json")
+    assert solved.returncode == 0
+    assert json.loads(solved.stdout) == json.loads(run("solve", FOOTBRIDGE, "--json")[1])
+    checked = _console("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS)
+    assert checked.returncode == 1 and checked.stdout.rstrip().splitlines()[-1].startswith("Caution:")
+    missing = _console("solve", ROOT / "no-such-case.toml")
+    assert missing.returncode == 2 and "file not found" in missing.stderr and "Traceback" not in missing.stderr

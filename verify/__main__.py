@@ -1,3 +1,3 @@
-from verify.cli import main
+from verify.cli import run
 
-main()
+run()

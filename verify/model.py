@@ -12,22 +12,23 @@ both validate once and freeze the result.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import InitVar, dataclass, field
 from types import MappingProxyType
+from typing import NamedTuple
 
 import numpy as np
 
 from verify.units import Unit
 
 
-@dataclass(frozen=True)
-class Joint:
+# Joints and members are named tuples, not dataclasses: a 10^5-member case builds 10^5 of each,
+# and a tuple costs a third of a frozen dataclass to make (bench/run.py, read_case stage).
+class Joint(NamedTuple):
     id: str
     coords: tuple[float, ...]
 
 
-@dataclass(frozen=True)
-class Member:
+class Member(NamedTuple):
     id: str
     start: str
     end: str
@@ -97,14 +98,20 @@ class Model:
     # Results of pure functions of this model (load matrix, overall-equilibrium reactions),
     # kept so that reports asking for them per cut or per row do not recompute them.
     memo: dict[str, object] = field(init=False, repr=False, compare=False, default_factory=dict)
+    # Coordinates (joints x dim) and member end positions (members x 2) when the reader already
+    # holds them as arrays (bulk CSV tables); they must describe `joints` and `members` exactly.
+    arrays: InitVar[tuple[np.ndarray, np.ndarray] | None] = None
 
-    def __post_init__(self) -> None:
+    def __post_init__(self, arrays: tuple[np.ndarray, np.ndarray] | None) -> None:
         joint_index = {j.id: i for i, j in enumerate(self.joints)}
         member_index = {m.id: i for i, m in enumerate(self.members)}
-        xyz = np.array([j.coords for j in self.joints], dtype=float).reshape(len(self.joints), self.dim)
-        ends = np.array(
-            [(joint_index[m.start], joint_index[m.end]) for m in self.members], dtype=np.int64
-        ).reshape(len(self.members), 2)
+        if arrays is not None:
+            xyz, ends = np.asarray(arrays[0], dtype=float), np.asarray(arrays[1], dtype=np.int64)
+        else:
+            xyz = np.array([j.coords for j in self.joints], dtype=float)
+            ends = np.array([(joint_index[m.start], joint_index[m.end]) for m in self.members], dtype=np.int64)
+        xyz = xyz.reshape(len(self.joints), self.dim)
+        ends = ends.reshape(len(self.members), 2)
         delta = xyz[ends[:, 1]] - xyz[ends[:, 0]] if len(self.members) else np.zeros((0, self.dim))
         lengths = np.linalg.norm(delta, axis=1)
         with np.errstate(invalid="ignore", divide="ignore"):

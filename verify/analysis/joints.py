@@ -16,7 +16,10 @@ The order depends only on geometry, so it is found once and applied to every loa
 from __future__ import annotations
 
 from collections import deque
+from collections.abc import Iterable
 from dataclasses import dataclass, field
+from itertools import chain
+from typing import NamedTuple
 
 import numpy as np
 import scipy.sparse.linalg as spla
@@ -29,9 +32,12 @@ PARTIAL_GIVE_UP = 500  # consecutive fruitless d+1-unknown joints before partial
 DEPENDENT_RTOL = 1e-9  # relative singular value below which unknown directions are dependent
 
 
-@dataclass(frozen=True)
-class JointStep:
-    """One step of the hand calc: solve `unknowns` (columns of t) from the equations of `joints`."""
+class JointStep(NamedTuple):
+    """One step of the hand calc: solve `unknowns` (columns of t) from the equations of `joints`.
+
+    A named tuple: a 10^5-member truss takes 5x10^4 steps, and a frozen dataclass cost three
+    times as much to make.
+    """
 
     kind: str  # "reactions" | "joint" | "simultaneous"
     joints: tuple[str, ...]
@@ -160,8 +166,6 @@ def solve_joints(model: Model) -> JointSolution:
     order = np.lexsort((inc_col, inc_joint))  # by joint, then column: unknowns in member order
     inc_col, inc_vec = inc_col[order], np.ascontiguousarray(inc_vec[order].T)
     ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=n_j))])
-    cols_arr = [inc_col[ptr[j]:ptr[j + 1]] for j in range(n_j)]
-    blocks = [inc_vec[:, ptr[j]:ptr[j + 1]] for j in range(n_j)]
 
     joint_ids = [j.id for j in model.joints]
     counts = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64)
@@ -179,19 +183,17 @@ def solve_joints(model: Model) -> JointSolution:
     # Plain-Python mirrors for the 2D inner loop: at 10^5 members numpy's per-call overhead on
     # 2x2 blocks cost more than the arithmetic (same equations, same order, same results).
     known_l = known.tolist()
-    t_l: list[list[float] | None] = [row.tolist() if known_l[c] else None for c, row in enumerate(t)]
+    t_l: list[list[float] | None] = [None] * n_unknowns
+    for c in np.flatnonzero(known).tolist():
+        t_l[c] = t[c].tolist()
     inc_col_l = inc_col.tolist()
     vx_l = inc_vec[0].tolist() if d == 2 else []
     vy_l = inc_vec[1].tolist() if d == 2 else []
     ptr_l = ptr.tolist()
     neg_load = (-F).tolist()
 
-    def store(c: int, values: list[float]) -> None:
-        t_l[c] = values  # copied into the array t once, after the loop
-
-    def mark(cols: list[int]) -> None:
+    def mark(cols: Iterable[int]) -> None:
         for c in cols:
-            known[c] = True
             known_l[c] = True
             touched = ends_l[c] if c < b else (r_joint_l[c - b],)
             for j in touched:
@@ -228,14 +230,15 @@ def solve_joints(model: Model) -> JointSolution:
             (c1, a1, b1), (c2, a2, b2) = unk
             det2 = a1 * b2 - a2 * b1
             if abs(det2) > DEPENDENT_RTOL:
-                store(c1, [(b2 * rx[k] - a2 * ry[k]) / det2 for k in range(ncols)])
-                store(c2, [(a1 * ry[k] - b1 * rx[k]) / det2 for k in range(ncols)])
+                # t_l rows are copied into the array t once, after the loop.
+                t_l[c1] = [(b2 * rx[k] - a2 * ry[k]) / det2 for k in range(ncols)]
+                t_l[c2] = [(a1 * ry[k] - b1 * rx[k]) / det2 for k in range(ncols)]
                 steps.append(JointStep("joint", (joint_ids[joint],), (c1, c2)))
-                mark([c1, c2])
+                mark((c1, c2))
                 continue
-        cols_j = cols_arr[joint]
-        is_known = known[cols_j]
-        block = blocks[joint]
+        cols_j = inc_col[ptr_l[joint]:ptr_l[joint + 1]]
+        is_known = np.array([known_l[c] for c in cols_j.tolist()], dtype=bool)
+        block = inc_vec[:, ptr_l[joint]:ptr_l[joint + 1]]
         M = block[:, ~is_known]
         known_rows = np.array([t_l[c] for c in cols_j[is_known].tolist()], dtype=float).reshape(-1, ncols)
         rhs = -F[joint * d : (joint + 1) * d] - block[:, is_known] @ known_rows
@@ -278,7 +281,9 @@ def solve_joints(model: Model) -> JointSolution:
         mark(chosen)
 
     nan_row = [float("nan")] * ncols
-    t = np.array([row if row is not None else nan_row for row in t_l], dtype=float).reshape(n_unknowns, ncols)
+    t = np.fromiter(chain.from_iterable(row if row is not None else nan_row for row in t_l), dtype=float,
+                    count=n_unknowns * ncols).reshape(n_unknowns, ncols)
+    known = np.array(known_l, dtype=bool)
     stalled = not known.all()
     if stalled:
         rest = np.nonzero(~known)[0]

@@ -6,6 +6,7 @@ stable, determinate truss; the stiffness route needs stiffness and an indetermin
 
 from __future__ import annotations
 
+import gc
 import os
 import pickle
 from collections.abc import Callable
@@ -98,9 +99,13 @@ def _start_in_child(route: Callable[[Model], Any], model: Model) -> Callable[[],
     if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV):
         return None
     read_fd, write_fd = os.pipe()
+    # Frozen objects are left alone by the cyclic collector, so neither process's collections
+    # touch (and so copy) the pages the two share after the fork.
+    gc.freeze()
     try:
         pid = os.fork()
     except OSError:
+        gc.unfreeze()
         os.close(read_fd)
         os.close(write_fd)
         return None
@@ -120,6 +125,7 @@ def _start_in_child(route: Callable[[Model], Any], model: Model) -> Callable[[],
         with os.fdopen(read_fd, "rb") as pipe:
             payload = pipe.read()
         _, status = os.waitpid(pid, 0)
+        gc.unfreeze()
         if status != 0 or not payload:
             return route(model)
         return pickle.loads(payload)

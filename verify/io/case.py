@@ -41,15 +41,51 @@ MODULUS_UNITS = {
 COINCIDENT_RTOL = 1e-9
 
 
+class _Origins:
+    """(kind, id) -> (file, line) of the CSV row that defined a joint or member.
+
+    Tables read in bulk are registered whole (file, ids in row order; row k on line k + 2) and
+    indexed only when a problem asks where an item was defined: a clean table never pays for it.
+    """
+
+    def __init__(self) -> None:
+        self._known: dict[tuple[str, str], tuple[str, int]] = {}
+        self._tables: list[tuple[str, str, list[str]]] = []
+
+    def __setitem__(self, key: tuple[str, str], value: tuple[str, int]) -> None:
+        self._known[key] = value
+
+    def register(self, kind: str, file: str, ids: list[str]) -> None:
+        self._tables.append((kind, file, ids))
+
+    def get(self, key: tuple[str, str], default: tuple[str, int] | None = None) -> tuple[str, int] | None:
+        if key not in self._known and self._tables:
+            for kind, file, ids in self._tables:
+                for k, ident in enumerate(ids):
+                    self._known.setdefault((kind, ident), (file, k + 2))
+            self._tables.clear()
+        return self._known.get(key, default)
+
+
+@dataclass
+class _Bulk:
+    """Joint and member tables read in bulk, kept as the arrays the Model would build again."""
+
+    joint_ids: list[str] | None = None
+    xyz: Any = None  # joints x dim
+    ends: Any = None  # members x 2, positions in joint_ids
+
+
 @dataclass
 class _Ctx:
     file: str
     lines: LineLocator
     problems: ProblemList
     # Where each joint / member was defined when it came from a CSV table: (file, line).
-    origins: dict[tuple[str, str], tuple[str, int]] = field(default_factory=dict)
+    origins: _Origins = field(default_factory=_Origins)
     # Ids declared even if their data failed to parse: references to them are not "undefined".
     declared_joints: set[str] = field(default_factory=set)
+    bulk: _Bulk = field(default_factory=_Bulk)
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -128,9 +164,13 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
             ctx.add(f"joint '{item.id}' is not connected to any member; remove it or add its members", "joints", item.id)
     ctx.problems.raise_if_any()
     assert units is not None and dim is not None
+    bulk = ctx.bulk
+    arrays = None
+    if bulk.xyz is not None and bulk.ends is not None and len(bulk.xyz) == len(joints) and len(bulk.ends) == len(members):
+        arrays = (bulk.xyz, bulk.ends)
     return Model(
         title=title, units=units, dim=dim, joints=tuple(joints), members=tuple(members),
-        reactions=tuple(reactions), cases=tuple(cases), combinations=tuple(combos), source=source,
+        reactions=tuple(reactions), cases=tuple(cases), combinations=tuple(combos), source=source, arrays=arrays,
     )
 
 
@@ -207,33 +247,50 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
         yield str(path), line, {h: c.strip() for h, c in zip(header, row, strict=True)}
 
 
+_PADDING = (" ,", ", ", " \n", "\n ", " \r", "\t")
+
+
 def _clean_frame(base: Path, name: str, required: tuple[str, ...], numeric: tuple[str, ...]) -> tuple[str, Any] | None:
     """A CSV table read in bulk with pandas when it is clean, else None (the row-by-row reader
     then finds and words every problem). Clean means: the required columns, no blank or short
-    rows, and every numeric cell a plain finite decimal number. Row k is then on line k + 2.
+    rows, no required cell empty, and every cell of the `numeric` columns a finite number
+    (returned as float64 columns; every other column holds strings). Row k is on line k + 2.
     """
     import pandas as pd
 
     path = (base / name) if not Path(name).is_absolute() else Path(name)
     try:
         text = path.read_bytes().decode("utf-8-sig")
-        frame = pd.read_csv(io.StringIO(text), dtype=str, keep_default_na=False, skip_blank_lines=False)
+        first = text.split("\n", 1)[0]
+        header = next(csv.reader([first]))
+        names = [h.strip().lower() for h in header]
+        # Numeric columns are parsed by pandas' C parser; anything it cannot read as a number
+        # leaves the column as text, which sends the table to the careful reader below.
+        as_text = {h: str for h, n in zip(header, names, strict=True) if n not in numeric}
+        frame = pd.read_csv(io.StringIO(text), dtype=as_text, keep_default_na=False, skip_blank_lines=False)
     except Exception:  # noqa: BLE001 - any trouble: the careful reader explains it
         return None
     frame.columns = [str(c).strip().lower() for c in frame.columns]
-    padded = re.search(r"[ \t](,|$)|(^|,)[ \t]", text, re.MULTILINE) is not None
     if any(r not in frame.columns for r in required) or frame.columns.duplicated().any():
         return None
     if len(text.splitlines()) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
-    if padded:  # stripping every cell costs a third of the read; only when a cell is padded
+    if text.startswith((" ", "\t")) or text.endswith((" ", "\t")) or any(p in text for p in _PADDING):
+        # A padded cell somewhere (rare): strip the text columns; numbers are read either way.
         for column in frame.columns:
-            frame[column] = frame[column].str.strip()
+            if column not in numeric:
+                frame[column] = frame[column].str.strip()
     for column in numeric:
-        if column in frame.columns and not _plain_numbers(frame[column]):
+        if column not in frame.columns:
+            continue
+        if frame[column].dtype.kind not in "iuf":
             return None
+        values = frame[column].to_numpy(dtype=float)
+        if not np.isfinite(values).all():
+            return None
+        frame[column] = values
     for column in required:
-        if (frame[column] == "").any():
+        if column not in numeric and (frame[column].str.len() == 0).any():
             return None
     return str(path), frame
 
@@ -307,8 +364,9 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
     if not np.isfinite(xyz).all():
         return None
     ctx.declared_joints.update(ids)
-    ctx.origins.update({("joint", jid): (file, k + 2) for k, jid in enumerate(ids)})
-    return [Joint(jid, tuple(row)) for jid, row in zip(ids, xyz.tolist(), strict=True)]
+    ctx.origins.register("joint", file, ids)
+    ctx.bulk.joint_ids, ctx.bulk.xyz = ids, xyz
+    return list(map(Joint._make, zip(ids, map(tuple, xyz.tolist()), strict=True)))
 
 
 def _plain_numbers(column: Any) -> bool:
@@ -358,15 +416,23 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
 
 
 def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None) -> list[Member] | None:
+    import pandas as pd
+
     found = _clean_frame(base, name, ("id", "start", "end"), ())
     if found is None:
         return None
     file, frame = found
     if frame["id"].duplicated().any():
         return None
-    if not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
+    ends = None
+    if ctx.bulk.joint_ids is not None and len(ctx.bulk.joint_ids) == len(joint_ids):
+        position = pd.Index(ctx.bulk.joint_ids)
+        ends = np.column_stack([position.get_indexer(frame["start"]), position.get_indexer(frame["end"])])
+        if (ends < 0).any():
+            return None
+    elif not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
         return None
-    ids, starts, ends = frame["id"].tolist(), frame["start"].tolist(), frame["end"].tolist()
+    ids, starts, stops = frame["id"].tolist(), frame["start"].tolist(), frame["end"].tolist()
     eas: list[float | None] = [default_ea] * len(ids)
     if "ea" in frame.columns and (frame["ea"] != "").any():
         given = frame["ea"] != ""
@@ -377,8 +443,9 @@ def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default
             return None
         for k, value in zip(np.nonzero(given.to_numpy())[0].tolist(), values.tolist(), strict=True):
             eas[k] = value
-    ctx.origins.update({("member", mid): (file, k + 2) for k, mid in enumerate(ids)})
-    return [Member(mid, a, b, ea) for mid, a, b, ea in zip(ids, starts, ends, eas, strict=True)]
+    ctx.origins.register("member", file, ids)
+    ctx.bulk.ends = ends
+    return list(map(Member._make, zip(ids, starts, stops, eas, strict=True)))
 
 
 def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, area_unit: float | None, modulus_unit: float | None, *path: str) -> float | None:
@@ -636,8 +703,18 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
 def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: int | None) -> None:
     if not joints or dim is None:
         return
-    usable = [j for j in joints if len(j.coords) == dim]
-    xyz = np.array([j.coords for j in usable], dtype=float)
+    bulk = ctx.bulk
+    if bulk.xyz is not None and bulk.ends is not None and bulk.xyz.shape[1] == dim and len(members) == len(bulk.ends):
+        # Both tables read in bulk: every joint has `dim` coordinates, every member end is known.
+        usable, xyz, placed = joints, bulk.xyz, members
+        starts, stops = bulk.ends[:, 0], bulk.ends[:, 1]
+    else:
+        usable = [j for j in joints if len(j.coords) == dim]
+        xyz = np.array([j.coords for j in usable], dtype=float)
+        position = {j.id: k for k, j in enumerate(usable)}
+        placed = [m for m in members if m.start in position and m.end in position]
+        starts = np.array([position[m.start] for m in placed], dtype=np.int64)
+        stops = np.array([position[m.end] for m in placed], dtype=np.int64)
     extent = float(np.ptp(xyz, axis=0).max()) if len(usable) > 1 else 1.0
     tol = COINCIDENT_RTOL * max(extent, 1e-300)
     # Coincident joints: sort on a rounded key, then compare neighbours (n log n).
@@ -646,27 +723,22 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
     close = np.all(np.abs(xyz[order[1:]] - xyz[order[:-1]]) <= tol, axis=1) if len(order) > 1 else np.zeros(0, bool)
     for n in np.nonzero(close)[0]:
         a, b = int(order[n]), int(order[n + 1])
-        first, second = sorted((usable[a].id, usable[b].id), key=lambda jid: ctx.origins.get(("joint", jid), ("", 0))[1])
+        first, second = sorted((usable[a].id, usable[b].id), key=lambda jid: (ctx.origins.get(("joint", jid)) or ("", 0))[1])
         ctx.add_at("joint", second, f"joints '{first}' and '{second}' are at the same point {usable[a].coords}; merge them", "joints", second)
-    position = {j.id: k for k, j in enumerate(usable)}
-    placed = [m for m in members if m.start in position and m.end in position and m.start != m.end]
+    loops = starts == stops
     if placed:
-        starts = np.array([position[m.start] for m in placed])
-        stops = np.array([position[m.end] for m in placed])
         lengths = np.linalg.norm(xyz[stops] - xyz[starts], axis=1)
-        for n in np.nonzero(~(lengths > tol))[0]:
+        for n in np.nonzero(~(lengths > tol) & ~loops)[0]:
             m = placed[int(n)]
             ctx.add_at("member", m.id, f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)
     for m in members:
         if m.start == m.end:
             ctx.add_at("member", m.id, f"member '{m.id}' starts and ends at joint '{m.start}'", "members", m.id)
     # Two members on one joint pair: sort the (low, high) joint numbers and compare neighbours.
-    number = {jid: k for k, jid in enumerate(dict.fromkeys([x for m in members for x in (m.start, m.end)]))}
-    distinct = [m for m in members if m.start != m.end]
-    if distinct:
-        from_ends = np.array([number[m.start] for m in distinct])
-        to_ends = np.array([number[m.end] for m in distinct])
-        low, high = np.minimum(from_ends, to_ends), np.maximum(from_ends, to_ends)
+    keep = np.nonzero(~loops)[0]
+    if keep.size:
+        distinct = [placed[k] for k in keep.tolist()] if loops.any() else placed
+        low, high = np.minimum(starts[keep], stops[keep]), np.maximum(starts[keep], stops[keep])
         pair_order = np.lexsort((np.arange(len(distinct)), high, low))
         same = (low[pair_order][1:] == low[pair_order][:-1]) & (high[pair_order][1:] == high[pair_order][:-1])
         first_of: dict[tuple[int, int], str] = {}
