@@ -24,6 +24,43 @@ def test_section_route_in_a_child_process_matches_serial(monkeypatch):
 
 
 def test_serial_switch_keeps_one_process(monkeypatch):
-    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
     monkeypatch.setenv(pipeline.SERIAL_ENV, "1")
-    assert pipeline._start_in_child(lambda m: m, None) is None  # type: ignore[arg-type]
+    child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
+    assert child.pid is None
+    assert child.result() == ("ran in", os.getpid())
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_child_runs_the_route_in_another_process(monkeypatch):
+    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
+    assert child.pid is not None
+    where, pid = child.result()
+    assert where == "ran in" and pid != os.getpid()
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+@pytest.mark.parametrize("drop_diagonal", [True, False])
+def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(monkeypatch, drop_diagonal):
+    """The section route starts before the stability screen; an unstable (one diagonal removed)
+    or indeterminate (one diagonal added) truss stops it, and no child process is left behind."""
+    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    cancelled: list[int | None] = []
+    original = pipeline._Child.cancel
+
+    def cancel(self):
+        cancelled.append(self.pid)
+        original(self)
+
+    monkeypatch.setattr(pipeline._Child, "cancel", cancel)
+    case = pratt(6, load=10.0)
+    if drop_diagonal:
+        del case["members"]["U2L3"]
+    else:
+        case["members"]["L2U3"] = ["L2", "U3"]
+    analysis = pipeline.analyse(make_model(case))
+    assert analysis.sections is None and analysis.joints is None
+    assert len(cancelled) == 1 and cancelled[0] is not None
+    with pytest.raises(ChildProcessError):
+        os.waitpid(cancelled[0], os.WNOHANG)  # already reaped: not a child any more

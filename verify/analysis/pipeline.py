@@ -9,6 +9,7 @@ from __future__ import annotations
 import gc
 import os
 import pickle
+import signal
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -54,8 +55,21 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
     `displacements` asks for the direct stiffness solve of a determinate truss too (joint
     displacements need stiffness even where statics gives the forces).
     """
+    # The section route needs only the loads and the overall reactions: on large trusses it
+    # starts in a second process before the stability screen and is dropped if the truss turns
+    # out not to be stable and determinate.
+    child = None
+    if sections and len(model.members) >= PARALLEL_MIN_MEMBERS:
+        from verify.analysis.joints import solve_reactions
+        from verify.analysis.sections import solve_sections
+
+        model.load_matrix()
+        solve_reactions(model)  # both routes use these: computed once, before the fork
+        child = _Child.start(solve_sections, model)
     stability = solve_stability(model)
     notes: list[str] = []
+    if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
+        child.cancel()
     if stability.classification is Classification.UNSTABLE:
         return Analysis(model, stability, notes=("unstable: no forces can be recomputed",))
     if stability.classification is Classification.STABLE_INDETERMINATE:
@@ -71,16 +85,14 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
                 "only the equilibrium of claimed forces can be checked"
             )
         return Analysis(model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA)
-    from verify.analysis.sections import solve_sections
-
-    # The section route is independent of the joint route: on large trusses it runs beside it.
-    pending = _start_in_child(solve_sections, model) if sections and len(model.members) >= PARALLEL_MIN_MEMBERS else None
     joints = solve_joints(model)
     global_ = solve_global(model)
     section_solution = None
-    if pending is not None:
-        section_solution = pending()
+    if child is not None:
+        section_solution = child.result()
     elif sections:
+        from verify.analysis.sections import solve_sections
+
         section_solution = solve_sections(model)
     disagreement = route_disagreement(global_, joints.forces, getattr(section_solution, "forces", None))
     elastic = None
@@ -90,47 +102,70 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
                     notes=tuple(notes), route_disagreement=disagreement, assumed_EA=assume_equal_EA)
 
 
-def _start_in_child(route: Callable[[Model], Any], model: Model) -> Callable[[], Any] | None:
-    """Run route(model) in a forked process; returns a function that collects the result.
+class _Child:
+    """route(model) computed in a forked process, or in this one when forking is not possible.
 
     The child sends its result back pickled through a pipe. If forking is unavailable, disabled
-    (TRUSS_VERIFY_SERIAL) or the child fails, the route simply runs in this process.
+    (TRUSS_VERIFY_SERIAL) or the child fails, `result()` runs the route in this process.
     """
-    if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV):
-        return None
-    read_fd, write_fd = os.pipe()
-    # Frozen objects are left alone by the cyclic collector, so neither process's collections
-    # touch (and so copy) the pages the two share after the fork.
-    gc.freeze()
-    try:
-        pid = os.fork()
-    except OSError:
-        gc.unfreeze()
-        os.close(read_fd)
-        os.close(write_fd)
-        return None
-    if pid == 0:  # the child: compute, send, and leave without running the parent's exit hooks
-        status = 1
-        try:
-            os.close(read_fd)
-            payload = pickle.dumps(route(model), protocol=pickle.HIGHEST_PROTOCOL)
-            with os.fdopen(write_fd, "wb") as pipe:
-                pipe.write(payload)
-            status = 0
-        finally:
-            os._exit(status)
-    os.close(write_fd)
 
-    def collect() -> Any:
-        with os.fdopen(read_fd, "rb") as pipe:
+    def __init__(self, route: Callable[[Model], Any], model: Model, pid: int | None, read_fd: int | None) -> None:
+        self.route, self.model, self.pid, self.read_fd = route, model, pid, read_fd
+
+    @classmethod
+    def start(cls, route: Callable[[Model], Any], model: Model) -> _Child:
+        if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV):
+            return cls(route, model, None, None)
+        read_fd, write_fd = os.pipe()
+        # Frozen objects are left alone by the cyclic collector, so neither process's collections
+        # touch (and so copy) the pages the two share after the fork.
+        gc.freeze()
+        try:
+            pid = os.fork()
+        except OSError:
+            gc.unfreeze()
+            os.close(read_fd)
+            os.close(write_fd)
+            return cls(route, model, None, None)
+        if pid == 0:  # the child: compute, send, and leave without running the parent's exit hooks
+            status = 1
+            try:
+                os.close(read_fd)
+                payload = pickle.dumps(route(model), protocol=pickle.HIGHEST_PROTOCOL)
+                with os.fdopen(write_fd, "wb") as pipe:
+                    pipe.write(payload)
+                status = 0
+            finally:
+                os._exit(status)
+        os.close(write_fd)
+        return cls(route, model, pid, read_fd)
+
+    def result(self) -> Any:
+        if self.pid is None or self.read_fd is None:
+            return self.route(self.model)
+        with os.fdopen(self.read_fd, "rb") as pipe:
             payload = pipe.read()
-        _, status = os.waitpid(pid, 0)
-        gc.unfreeze()
+        _, status = os.waitpid(self.pid, 0)
+        self._done()
         if status != 0 or not payload:
-            return route(model)
+            return self.route(self.model)
         return pickle.loads(payload)
 
-    return collect
+    def cancel(self) -> None:
+        """The result is not wanted: stop the child and release what it holds."""
+        if self.pid is None or self.read_fd is None:
+            return
+        try:
+            os.kill(self.pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
+        os.close(self.read_fd)
+        os.waitpid(self.pid, 0)
+        self._done()
+
+    def _done(self) -> None:
+        self.pid = self.read_fd = None
+        gc.unfreeze()
 
 
 def _stiffness_or_note(model: Model, assume_equal_EA: float | None, notes: list[str]) -> object | None:
