@@ -15,7 +15,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from enum import StrEnum
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 
@@ -63,8 +63,9 @@ class Convention:
                 "unit_source": self.unit_source, "scale_reason": self.scale_reason, "support": self.support}
 
 
-@dataclass(frozen=True)
-class Row:
+class Row(NamedTuple):
+    """One compared value. A named tuple: a 10^5-member check makes 2x10^5 of them."""
+
     id: str
     kind: str  # "member" | "reaction"
     case: str
