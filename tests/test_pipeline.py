@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import threading
 
 import numpy as np
 import pytest
@@ -28,6 +29,19 @@ def test_serial_switch_keeps_one_process(monkeypatch):
     child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
     assert child.pid is None
     assert child.result() == ("ran in", os.getpid())
+
+
+def test_no_fork_while_other_threads_run(monkeypatch):
+    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    release = threading.Event()
+    other = threading.Thread(target=release.wait)
+    other.start()
+    try:
+        child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
+        assert child.pid is None and child.result() == ("ran in", os.getpid())
+    finally:
+        release.set()
+        other.join()
 
 
 @pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")

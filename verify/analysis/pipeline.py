@@ -10,6 +10,7 @@ import gc
 import os
 import pickle
 import signal
+import threading
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -114,7 +115,9 @@ class _Child:
 
     @classmethod
     def start(cls, route: Callable[[Model], Any], model: Model) -> _Child:
-        if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV):
+        # Forking a process that runs other threads (a notebook kernel, a web server) can
+        # deadlock the child on a lock another thread held: stay in one process there.
+        if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV) or threading.active_count() > 1:
             return cls(route, model, None, None)
         read_fd, write_fd = os.pipe()
         # Frozen objects are left alone by the cyclic collector, so neither process's collections
