@@ -221,3 +221,24 @@ def test_indeterminate_claims_out_of_balance_are_located():
     assert "CD" in finding.members
     joints = {b.joint for b in review.imbalances}
     assert joints and joints <= {"C", "D"}
+
+
+def test_column_of_zeros_does_not_rescale_the_table():
+    """A second load column claimed as all zeros (a template never filled in) beside a correct
+    column: the zeros carry no sign or scale information, so the table is read as written (no
+    unit-scale reading, whose rounding allowance would let every 0 'agree'), and the zeros are
+    one column-level finding rather than one per member."""
+    case = pratt(6, load=P, case="dead")
+    case["loads"]["live"] = {j: [0.0, -2 * P] for j in case["loads"]["dead"]}
+    analysis = analyse(make_model(case))
+    claims = true_claims(analysis, ["dead", "live"])
+    claims["dead"] = dict(list(claims["dead"].items())[:8])  # a spot check: fewer claims than zeros
+    claims["live"] = {m: 0.0 for m in claims["live"]}
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    assert review.convention.scale == 1.0 and review.convention.sign == "tension-positive"
+    assert all(r.status == "agrees" for r in review.rows if r.case == "dead" and r.claimed is not None)
+    live = [f for f in review.findings if f.case == "live"]
+    assert [f.kind for f in live] == ["value-mismatch"] and "every member claim in 'live' is 0" in live[0].detail
+    largest = max(abs(r.recomputed) for r in review.rows if r.case == "live" and r.recomputed is not None)
+    assert f"{largest:.4g}" in live[0].detail
+    assert {r.status for r in review.rows if r.case == "live" and abs(r.recomputed or 0) > 1e-9} == {"value-mismatch"}

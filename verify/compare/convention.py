@@ -60,10 +60,12 @@ def best_fit(claimed: np.ndarray, fixed: np.ndarray, computed: np.ndarray, rtol:
              rounding: np.ndarray, *, signs: tuple[int, ...] = (1, -1), factors: tuple[float, ...] | None = None) -> tuple[Fit, Fit]:
     """(best fit, identity fit) over the candidate signs and factors, judged on informative pairs.
 
-    Informative pairs are those whose recomputed force is clearly non-zero; ties prefer the
-    identity, then the written sign.
+    Informative pairs are those whose recomputed force is clearly non-zero and whose claim is not
+    written as zero: a zero says nothing about sign or scale, and its rounding allowance (half a
+    unit, times the candidate factor) would let a column of zeros "agree" with any large factor.
+    Ties prefer the identity, then the written sign.
     """
-    informative = np.abs(computed) > atol
+    informative = (np.abs(computed) > atol) & (claimed != 0)
     c, f, r, a, rd = claimed[informative], fixed[informative], computed[informative], atol[informative], rounding[informative]
     n = int(informative.sum())
     candidates = [1.0] + list(factors if factors is not None else UNIT_FACTORS)

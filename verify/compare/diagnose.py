@@ -423,6 +423,20 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                     findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
                                             f"({xa:.4g}) and {vb.member} ({xb:.4g}) match each other's recomputed forces "
                                             f"({cb:.4g} and {ca:.4g} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
+    # A load column claimed as nothing but zeros (a template column never filled in) is one
+    # finding, not one per member.
+    for name, items in by_case.items():
+        if indeterminate or len(items) < MIN_MEMBERS_FOR_TABLE:
+            continue
+        if any(row.claimed != 0 for row in rows if row.kind == "member" and row.case == name):
+            continue
+        largest = max(abs(item[3]) for item in items)
+        explained.update(item[0] for item in items)
+        findings.append(Finding("value-mismatch", tuple(item[1].member for item in items),  # type: ignore[misc]
+                                f"every member claim in '{name}' is 0, but the recomputed forces reach {largest:.4g} "
+                                f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
+                                f"calculated); its {len(items)} claim(s) on loaded members are marked value-mismatch",
+                                Severity.ERROR, case=name))
     if indeterminate:
         # Indeterminate: differences are judged by equilibrium, not member by member.
         findings.extend(_explain_indeterminate(analysis, rows, diffs, claimed_matrix, reaction_claims, load_names, tol,
