@@ -446,6 +446,9 @@ MALFORMED = [
     ("Member,dead\nAB,1,5\n", ["claims.csv row 2, column 3", "no header"], "values beyond the header"),
     ("Member,Force,T/C\nAB,3,X\n", ["claims.csv row 2, column 'T/C'", "not T or C"], "a bad T/C cell"),
     ("Member,dead\nRA.y,1\nA.y,2\n", ["claims.csv row 3, column 'dead'", "reaction 'A.y'", "row 2 (as 'RA.y')"], "duplicate reaction"),
+    ("Member,dead (kN),snow (MPa)\nAB,1,2\n", ["claims.csv row 1, column 3", "named like load case 'snow'", "'MPa' is not a force unit"], "load case column in a stress unit"),
+    ("Member,dead (kN),snow (N/mm)\nAB,1,2\n", ["claims.csv row 1, column 3", "'N/mm' is not a force unit"], "load case column in a line-load unit"),
+    ("Member,M (kNm)\nAB,1\n", ["claims.csv row 1", "no usable columns", "skipped 'M (kNm)' ('kNm' is not a force unit)"], "only a moment column"),
 ]
 # fmt: on
 

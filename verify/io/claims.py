@@ -521,11 +521,25 @@ class _Header:
     unit: str | None
     unit_error: str | None
     descriptive: bool  # a non-force unit or a known descriptive heading
+    other_unit: str | None = None  # a unit that is not a force (stress, length, moment), as written
+    other_name: str = ""  # the heading without that unit
+
+
+def _force_per_something(text: str) -> bool:
+    """'N/mm', 'kN/m2', 'kip/ft': a force unit divided by something (a line load, a stress)."""
+    top, slash, _ = text.partition("/")
+    if not slash:
+        return False
+    try:
+        lookup_unit(top.strip(), Dimension.FORCE)
+    except ValueError:
+        return False
+    return True
 
 
 def _parse_header(index: int, cell: Cell) -> _Header:
     text = _text(cell)
-    name, unit, error, non_force = text, None, None, False
+    name, unit, error, other_unit, other_name = text, None, None, None, ""
     m = _HEADER_UNIT.match(text)
     if m and m.group("name").strip():
         inner = (m.group("p") or m.group("b") or m.group("c") or "").strip()
@@ -533,18 +547,19 @@ def _parse_header(index: int, cell: Cell) -> _Header:
             unit = lookup_unit(inner, Dimension.FORCE).symbol
             name = m.group("name").strip()
         except ValueError as exc:
-            if _NON_FORCE_UNIT.match(inner):
-                non_force = True
+            if _NON_FORCE_UNIT.match(inner) or _force_per_something(inner):
+                other_unit, other_name = inner, m.group("name").strip()
             else:
                 try:
                     lookup_unit(inner, Dimension.LENGTH)
-                    non_force = True
+                    other_unit, other_name = inner, m.group("name").strip()
                 except ValueError:
                     if "ambiguous" in str(exc):
                         error = str(exc)
                         name = m.group("name").strip()
     key = _header_key(name)
-    return _Header(index, text, name, key, unit, error, non_force or key in IGNORED_HEADERS)
+    descriptive = other_unit is not None or key in IGNORED_HEADERS
+    return _Header(index, text, name, key, unit, error, descriptive, other_unit, other_name)
 
 
 @dataclass(frozen=True)
@@ -715,9 +730,19 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
     else:
         value_columns = []
         for h in headers:
+            if h.other_unit is not None and h.index not in taken and h.other_name.casefold() in load_names:
+                # Named like a load case but not in a force unit: skipping it would pass its
+                # claims over in silence.
+                problems.add(
+                    f"column '{h.text}' is named like load case '{h.other_name}', but '{h.other_unit}' is not a "
+                    "force unit; give the forces in a force unit such as kN, N, kip or lbf",
+                    grid.where(header_r, h.index),
+                )
             if h.index in taken or h.descriptive or not h.text:
                 continue
             value_columns.append(_ValueColumn(h.index, h.text, h.name, h.unit))
+        if problems:
+            return empty
         if options.case is not None:
             chosen = [
                 v
@@ -733,9 +758,12 @@ def _interpret(grid: _Grid, model: Model, options: _Options, problems: _Problems
                 return empty
             value_columns = chosen
         if not value_columns:
+            skipped = [f"'{h.text}' ('{h.other_unit}' is not a force unit)" for h in headers
+                       if h.other_unit is not None and h.index not in taken]
             problems.add(
                 f"no usable columns: besides the member column '{member_h.text}' there is no force column; "
-                "expected one column per load case (e.g. 'dead (kN)') or a force column with a case column",
+                "expected one column per load case (e.g. 'dead (kN)') or a force column with a case column"
+                + (f"; skipped {', '.join(skipped)}" if skipped else ""),
                 grid.where(header_r),
             )
             return empty
