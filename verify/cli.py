@@ -292,8 +292,9 @@ _CHECK_OPTIONS = [
                  help="Indeterminate truss without stiffness data: assume this EA for every member (said in every output)."),
     click.option("--all-rows", is_flag=True, help="List every row in the terminal table, including members without a claim."),
     click.option("--displacements", default=None, type=click.Path(dir_okay=False), metavar="FILE",
-                 help="Claimed joint displacements (CSV: joint, direction, case, value (mm)); checked by the direct "
-                      "stiffness method and confirmed by the unit-load method."),
+                 help="Claimed joint displacements (CSV: joint, direction, case, value with its length unit in the header "
+                      "or cells, e.g. 'deflection (mm)'); checked by the direct stiffness method and confirmed by the "
+                      "unit-load method."),
 ]
 
 

@@ -76,3 +76,20 @@ def test_deflection_without_stiffness_cannot_be_verified(tmp_path):
     finally:
         CASE = saved
     assert code == 3 and data["verdict"] == "cannot-verify"
+
+
+def test_deflection_without_a_unit_is_refused(tmp_path):
+    """A bare 5.25 could be mm or the model's metres (a factor of 1000): one message, exit 2."""
+    (tmp_path / "case.toml").write_text(CASE)
+    (tmp_path / "claims.csv").write_text(CLAIMS)
+    (tmp_path / "d.csv").write_text("joint,direction,case,deflection\nC,-y,P,5.25\nB,x,P,2.67\n")
+    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
+                                       "--displacements", str(tmp_path / "d.csv")])
+    assert result.exit_code == 2
+    assert "d.csv row 2: 2 value(s) have no length unit (row(s) 2, 3)" in result.stderr
+    assert "Traceback" not in result.stderr
+
+
+def test_unit_in_each_cell_is_read(tmp_path):
+    code, data = _run(tmp_path, f"joint,direction,case,deflection\nC,-y,P,{DELTA_C_MM:.2f} mm\n")
+    assert code == 0 and data["verdict"] == "agrees"

@@ -3,8 +3,9 @@
 Columns (headers case-insensitive, in any order): ``joint``, ``direction`` (x, y or z; a leading
 minus such as ``-y`` means the value is measured against the axis, e.g. "downward"), ``case``
 (load case or combination; may be omitted when the model has one), and ``value``. A length unit
-may sit in the value header (``value (mm)``, ``deflection [in]``) or in each cell (``15.5 mm``);
-without one, the case's length unit is assumed. Example::
+must sit in the value header (``value (mm)``, ``deflection [in]``) or in each cell (``15.5 mm``):
+deflections are written in mm as often as in the model's metres, so a bare number is refused
+rather than guessed (a factor of 1000 either way). Example::
 
     joint,direction,case,deflection (mm)
     L3,-y,SLS-1,15.5
@@ -93,6 +94,7 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
     axes = ("x", "y", "z")[: model.dim]
     out: list[ClaimedDisplacement] = []
     seen: dict[tuple[str, str, str], int] = {}
+    unitless: list[int] = []
     for number, row in enumerate(rows[1:], start=2):
         if not any(c.strip() for c in row):
             continue
@@ -136,8 +138,16 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
             problems.add(f"a second claim for {joint}.{axis} in '{case}' (first on row {seen[key]})", where=where)
             continue
         seen[key] = number
-        scale = factor(unit, model.units.length) if unit is not None else 1.0
+        if unit is None:
+            unitless.append(number)
+            continue
+        scale = factor(unit, model.units.length)
         out.append(ClaimedDisplacement(joint, axis, case, sign * value * scale, raw, where))
+    if unitless:
+        rows_text = ", ".join(str(n) for n in unitless[:10]) + (" ..." if len(unitless) > 10 else "")
+        problems.add(f"{len(unitless)} value(s) have no length unit (row(s) {rows_text}); put the unit in the header, "
+                     f"e.g. '{header[value_col].strip() or 'deflection'} (mm)', or in each cell, e.g. '15.5 mm'",
+                     where=f"row {unitless[0]}")
     problems.raise_if_any()
     if not out:
         raise InputError([Problem(name, "no displacement values found")])
