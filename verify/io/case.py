@@ -86,6 +86,7 @@ class _Ctx:
     # Ids declared even if their data failed to parse: references to them are not "undefined".
     declared_joints: set[str] = field(default_factory=set)
     bulk: _Bulk = field(default_factory=_Bulk)
+    needs_area_units: list[tuple[str, tuple[str, ...]]] = field(default_factory=list)  # (what, path)
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -145,6 +146,10 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     area_unit, modulus_unit = _stiffness_units(ctx, data.get("units"))
     defaults = _read_stiffness_defaults(ctx, data.get("stiffness"), units, area_unit, modulus_unit)
     members = _read_members(ctx, data.get("members"), base, joint_ids, units, area_unit, modulus_unit, defaults)
+    if ctx.needs_area_units:
+        (what, path), more = ctx.needs_area_units[0], len(ctx.needs_area_units) - 1
+        ctx.add(f"{what}: A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\")"
+                + (f"; {more} more give A and E" if more else ""), *path)
     reactions = _read_supports(ctx, data.get("supports"), base, joint_ids, dim)
     cases = _read_loads(ctx, data.get("loads"), base, joint_ids, dim)
     combos = _read_combinations(ctx, data.get("combinations"), [c.name for c in cases])
@@ -449,6 +454,9 @@ def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default
 
 
 def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, area_unit: float | None, modulus_unit: float | None, *path: str) -> float | None:
+    if "EA" in spec and ("A" in spec or "E" in spec):
+        ctx.add(f"{what}: give EA, or A and E, not both (they may disagree: which one did the calc use?)", *path)
+        return None
     if "EA" in spec:
         ea = _number(ctx, spec["EA"], f"{what} EA", *path)
         if ea is not None and ea <= 0:
@@ -460,7 +468,8 @@ def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, ar
             ctx.add(f"{what}: give both A and E (or EA)", *path)
             return None
         if area_unit is None or modulus_unit is None:
-            ctx.add(f"{what}: A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\")", *path)
+            # Said once, where it first happens, with a count: every member giving A and E has it.
+            ctx.needs_area_units.append((what, path))
             return None
         a = _number(ctx, spec["A"], f"{what} A", *path)
         e = _number(ctx, spec["E"], f"{what} E", *path)
