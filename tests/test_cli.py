@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -181,3 +182,25 @@ def test_console_entry_delivers_all_output_and_the_exit_status():
     assert checked.returncode == 1 and checked.stdout.rstrip().splitlines()[-1].startswith("Caution:")
     missing = _console("solve", ROOT / "no-such-case.toml")
     assert missing.returncode == 2 and "file not found" in missing.stderr and "Traceback" not in missing.stderr
+
+
+def test_csv_table_ends_with_the_caution_and_the_equal_ea_assumption(tmp_path):
+    """The CSV carries the caution below the table, and says when the elastic column rests on
+    an assumed equal EA; the table itself still reads as plain CSV up to the blank row."""
+    import csv as csv_module
+
+    gantry = ROOT / "cases" / "conveyor-gantry"
+    case = tmp_path / "case.toml"
+    # The bundled gantry gives A and E; without them the truss needs --assume-equal-ea.
+    text = (gantry / "case.toml").read_text()
+    text = re.sub(r"\{ ends = (\[[^\]]*\]), A = [0-9.]+, E = [0-9.]+ \}", r"\1", text)
+    case.write_text("\n".join(line for line in text.splitlines() if not line.startswith(("area", "modulus", "[stiffness]", "A =", "E ="))) + "\n")
+    out_csv = tmp_path / "out.csv"
+    code, _, err = run("check", case, "--claims", gantry / "claims.csv", "--csv", out_csv, "--assume-equal-ea", "2e5")
+    assert code in (0, 1), err
+    rows = list(csv_module.reader(out_csv.read_text().splitlines()))
+    blank = rows.index([])
+    assert rows[0][0] == "id" and all(len(r) == len(rows[0]) for r in rows[:blank])
+    tail = {r[0]: r[1] for r in rows[blank + 1:]}
+    assert "EQUAL EA ASSUMED" in tail["note"] and "200000, in kN" in tail["note"]
+    assert "idealised pin-jointed" in tail["caution"] and "qualified" in tail["caution"]

@@ -31,7 +31,7 @@ from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Review, compare_claims
 from verify.io.case import read_case
 from verify.io.claims import ClaimedValue, ClaimsTable, read_claims
-from verify.report.cautions import CAUTION
+from verify.report.cautions import CAUTION, SHORT_CAUTION
 from verify.report.diagram import COMPRESSION_WIDTH, STATUS_STYLES, TENSION_WIDTH
 from verify.report.document import render_document
 from verify.report.handcalc_html import exact_values
@@ -277,7 +277,9 @@ def test_html_has_every_section_in_order(at_root: None) -> None:
         "b + r − 2j = 21 + 3 − 2×12 = 0" in html
     )  # Maxwell: 21 members, 3 reactions, 12 joints (case file)
     assert html.count("<svg") >= 3 and "Method of joints" in html and "Exact values" in html
-    assert CAUTION in html and "Defer to the governing local codes" in html
+    assert CAUTION in html and "Defer to the governing local codes" not in html  # said once, not twice
+    # The short caution sits beside the verdict, before the first findings.
+    assert html.index(SHORT_CAUTION) < html.index('id="findings"')
 
 
 def test_input_hashes_are_those_of_the_files(at_root: None) -> None:

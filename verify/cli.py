@@ -7,6 +7,7 @@ usage, 3 the truss cannot be verified (unstable, or indeterminate without stiffn
 from __future__ import annotations
 
 import gc
+import math
 import os
 import sys
 from collections.abc import Callable
@@ -37,6 +38,12 @@ def _load(case: str) -> Model:
     except InputError as error:
         _fail_input(error)
         raise  # unreachable; keeps type checkers honest
+
+
+def _positive_finite(ctx: click.Context, param: click.Parameter, value: float | None) -> float | None:
+    if value is not None and not (math.isfinite(value) and value > 0):
+        raise click.BadParameter(f"must be a positive number (an axial stiffness in the case's force unit), got {value:g}")
+    return value
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
@@ -86,7 +93,7 @@ def _stability_only(model: Model) -> Analysis:
 @click.option("--show", type=click.Choice(["forces", "joints", "sections", "all"]), default="forces", show_default=True,
               help="What to print: the force tables, the joint-by-joint hand calc, the section cuts, or all.")
 @click.option("--case", "load_name", default=None, help="Load case or combination for the hand calc (default: every one).")
-@click.option("--assume-equal-ea", type=float, default=None, metavar="EA",
+@click.option("--assume-equal-ea", type=float, default=None, metavar="EA", callback=_positive_finite,
               help="For an indeterminate truss without stiffness data: assume this EA for every member (said in every output).")
 @click.option("--all-rows", is_flag=True, help="List every member even in very large trusses (default: the 5000 largest forces).")
 def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equal_ea: float | None, all_rows: bool) -> None:
@@ -210,6 +217,10 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
     if report and not report.lower().endswith((".html", ".htm", ".md")):
         click.echo(f"--report: '{report}' must end in .html or .md (the report's format follows the extension)", err=True)
         return EXIT_BAD_INPUT
+    if csv_path and not csv_path.lower().endswith((".csv", ".txt")):
+        # (and so can never be the --report file, which ends in .html or .md)
+        click.echo(f"--csv: '{csv_path}' must end in .csv (the file is comma-separated text, not a workbook)", err=True)
+        return EXIT_BAD_INPUT
     if rtol <= 0 or rtol >= 1 or atol_fraction < 0 or atol_fraction >= 1:
         click.echo("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", err=True)
         return EXIT_BAD_INPUT
@@ -288,7 +299,7 @@ _CHECK_OPTIONS = [
     click.option("--case-column", default=None, help="Header of the load-case column of a long table."),
     click.option("--force-column", default=None, help="Header of the force column of a long table."),
     click.option("--case", "load_name", default=None, help="Load case or combination of a single-column table."),
-    click.option("--assume-equal-ea", type=float, default=None, metavar="EA",
+    click.option("--assume-equal-ea", type=float, default=None, metavar="EA", callback=_positive_finite,
                  help="Indeterminate truss without stiffness data: assume this EA for every member (said in every output)."),
     click.option("--all-rows", is_flag=True, help="List every row in the terminal table, including members without a claim."),
     click.option("--displacements", default=None, type=click.Path(dir_okay=False), metavar="FILE",

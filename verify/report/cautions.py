@@ -6,3 +6,9 @@ CAUTION = (
     "secondary (bending) moments, fatigue or dynamic effects. Results must be reviewed by a "
     "qualified, licensed engineer under the governing local codes."
 )
+
+# Beside the verdict at the top of a long report; the full CAUTION closes it.
+SHORT_CAUTION = (
+    "Statics of an idealised pin-jointed model only (no capacity, buckling, connections or "
+    "secondary moments); a qualified engineer must review these results under the governing local codes."
+)

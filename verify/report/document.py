@@ -24,7 +24,7 @@ import numpy as np
 from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
-from verify.report.cautions import CAUTION
+from verify.report.cautions import CAUTION, SHORT_CAUTION
 from verify.report.diagram import (
     STATUS_STYLES,
     legend_html,
@@ -620,6 +620,7 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     out.append(f"<h1>Truss review: {_e(title)}</h1>")
     out.append(f'<div class="verdict {_e(review.verdict.value)}">Verdict: {_e(word)}</div>')
     out.append(f"<p>{_e(summary)}</p>")
+    out.append(f'<p class="caution">{_e(SHORT_CAUTION)}</p>')
     out.append(
         '<table class="facts"><tbody>'
         + "".join(
@@ -683,7 +684,7 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     out.append("</section>")
 
     out.append(
-        f'<section id="cautions"><h2>Cautions</h2><p class="caution">{_e(CAUTION)} Defer to the governing local codes.</p></section>'
+        f'<section id="cautions"><h2>Cautions</h2><p class="caution">{_e(CAUTION)}</p></section>'
     )
     out.append(
         f"<footer><p>truss-verify {_e(__version__)} — report generated {_e(date)}.</p></footer>"
@@ -790,7 +791,7 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
     date = _generated(generated)
     word, summary = _verdict_text(review)
     title = model.title or Path(model.source).name or "truss"
-    out = [f"# Truss review: {_m(title)}", "", f"**Verdict: {_m(word)}** — {_m(summary)}", ""]
+    out = [f"# Truss review: {_m(title)}", "", f"**Verdict: {_m(word)}** — {_m(summary)}", "", f"*{_m(SHORT_CAUTION)}*", ""]
     out.extend(_md_table(("item", "value"), tuple((k, v) for k, v in header_facts(review, date))))
     out += ["", "## Input files", ""]
     out.extend(
@@ -857,7 +858,7 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
         "",
         "## Cautions",
         "",
-        f"{_m(CAUTION)} Defer to the governing local codes.",
+        f"{_m(CAUTION)}",
         "",
         f"*truss-verify {_m(__version__)} — report generated {_m(date)}.*",
         "",

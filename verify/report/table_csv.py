@@ -10,6 +10,7 @@ import csv
 import io
 
 from verify.compare.diagnose import Review
+from verify.report.cautions import CAUTION
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -31,4 +32,11 @@ def render_csv(review: Review) -> str:
             cells.append("" if value is None else f"{float(value):.12g}")
         cells.append(row.status)
         writer.writerow(cells)
+    # Below the table (a spreadsheet shows them; a reader stopping at the first blank row keeps
+    # the table clean): what the elastic column rests on, and the caution every output carries.
+    writer.writerow([])
+    if getattr(review.analysis.elastic, "equal_EA_assumed", False):
+        writer.writerow(["note", f"EQUAL EA ASSUMED for every member (--assume-equal-ea {review.analysis.assumed_EA:g}, in {unit}): "
+                                 "the elastic column depends on that assumption"])
+    writer.writerow(["caution", CAUTION])
     return out.getvalue()
