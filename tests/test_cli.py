@@ -204,3 +204,21 @@ def test_csv_table_ends_with_the_caution_and_the_equal_ea_assumption(tmp_path):
     tail = {r[0]: r[1] for r in rows[blank + 1:]}
     assert "EQUAL EA ASSUMED" in tail["note"] and "200000, in kN" in tail["note"]
     assert "idealised pin-jointed" in tail["caution"] and "qualified" in tail["caution"]
+
+
+def test_solve_text_prints_only_the_asked_case_and_no_reaction_a_support_lacks():
+    """--case limits the force tables too; the roller at L6 restrains y only, so its Rx is '—'.
+    Footbridge dead load: 9 kN at each of the 5 inner bottom joints (case file), so each
+    support takes 5 x 9 / 2 = 22.5 kN by symmetry (common practice)."""
+    code, out, _ = run("solve", FOOTBRIDGE, "--case", "dead")
+    assert code == 0
+    assert out.count("Load case '") == 1 and "Load case 'dead'" in out
+    reactions = out.split("Reactions (kN):", 1)[1].splitlines()
+    l6 = next(line.split() for line in reactions if line.split()[:1] == ["L6"])
+    assert l6[1] == "—" and float(l6[2]) == pytest.approx(22.5, rel=1e-9)
+    assert out.rstrip().splitlines()[-1].startswith("Caution:")
+
+
+def test_stability_text_carries_the_caution():
+    code, out, _ = run("stability", FOOTBRIDGE)
+    assert code == 0 and "Caution:" in out and "qualified" in out

@@ -78,6 +78,7 @@ def stability(case: str, as_json: bool) -> None:
         click.echo(json_out.dumps(json_out.stability_json(model, analysis)))
     else:
         click.echo(text.render_stability(model, analysis.stability))
+        click.echo(f"Caution: {CAUTION}")
     sys.exit(EXIT_CANNOT_VERIFY if analysis.stability.classification is Classification.UNSTABLE else 0)
 
 
@@ -92,7 +93,7 @@ def _stability_only(model: Model) -> Analysis:
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object (forces, reactions) instead of text.")
 @click.option("--show", type=click.Choice(["forces", "joints", "sections", "all"]), default="forces", show_default=True,
               help="What to print: the force tables, the joint-by-joint hand calc, the section cuts, or all.")
-@click.option("--case", "load_name", default=None, help="Load case or combination for the hand calc (default: every one).")
+@click.option("--case", "load_name", default=None, help="Load case or combination to print (default: every one).")
 @click.option("--assume-equal-ea", type=float, default=None, metavar="EA", callback=_positive_finite,
               help="For an indeterminate truss without stiffness data: assume this EA for every member (said in every output).")
 @click.option("--all-rows", is_flag=True, help="List every member even in very large trusses (default: the 5000 largest forces).")
@@ -114,12 +115,16 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
             click.echo(f"note: {note}")
         click.echo("No forces recomputed: " + ("the truss is unstable." if not analysis.stability.is_stable
                    else "statically indeterminate without member stiffness (give EA, or --assume-equal-ea)."))
+        click.echo(f"Caution: {CAUTION}")
         sys.exit(EXIT_CANNOT_VERIFY)
     click.echo(text.render_stability(model, analysis.stability))
     click.echo("")
     names = [load_name] if load_name else model.load_names
     if show in ("forces", "all"):
-        click.echo(text.render_solution(model, analysis, all_rows=all_rows))
+        click.echo(text.render_solution(model, analysis, all_rows=all_rows, load_names=names))
+    if show in ("joints", "sections", "all") and analysis.joints is None:
+        click.echo("The method of joints and section cuts give the forces of statically determinate trusses only; "
+                   "this truss is indeterminate, so its forces come from the direct stiffness method above.\n")
     if show in ("joints", "all") and analysis.joints is not None:
         for name in names:
             click.echo(text.render_joint_calc(model, analysis.joints, name))

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import numpy as np
-from tabulate import tabulate
 
 from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
 from verify.analysis.pipeline import Analysis
@@ -85,16 +84,24 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
         rows.append(row)
     table = plain_table(headers, rows)
     reactions = ref.reaction_vectors(model, load_name)
-    rrows = [[j] + [fmt(c) for c in vec] for j, vec in reactions.items()]
-    rtable = tabulate(rrows, headers=["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], disable_numparse=True, stralign="right")
+    # A direction the support does not restrain has no reaction: "—", not a computed 0. An
+    # inclined roller acts in every global direction. Round-off below 1e-9 of the largest
+    # reaction prints as 0.
+    acting: dict[str, set[str]] = {}
+    for r in model.reactions:
+        acting.setdefault(r.joint, set()).update(AXIS_NAMES[: model.dim] if r.axis == "n" else r.axis)
+    rzero = 1e-9 * max((abs(c) for vec in reactions.values() for c in vec), default=0.0)
+    rrows = [[j] + [(fmt(c if abs(c) > rzero else 0.0) if a in acting[j] else "—") for a, c in zip(AXIS_NAMES, vec, strict=False)]
+             for j, vec in reactions.items()]
+    rtable = plain_table(["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], rrows)
     return f"{table}{note}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
 
 
-def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False) -> str:
+def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False, load_names: list[str] | None = None) -> str:
     parts = []
     unit = model.units.force.symbol
     route = "global sparse solve" if analysis.global_ is not None else "direct stiffness method"
-    for name in model.load_names:
+    for name in load_names or model.load_names:
         parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
         parts.append(force_table(model, analysis, name, all_rows=all_rows))
         parts.append("")
