@@ -222,3 +222,14 @@ def test_solve_text_prints_only_the_asked_case_and_no_reaction_a_support_lacks()
 def test_stability_text_carries_the_caution():
     code, out, _ = run("stability", FOOTBRIDGE)
     assert code == 0 and "Caution:" in out and "qualified" in out
+
+
+def test_case_argument_mistakes_get_a_plain_answer():
+    """A claims table passed as CASE is named as such; a case folder means its case.toml."""
+    for table in (FOOTBRIDGE_CLAIMS, ROOT / "cases" / "mezzanine-roof" / "claims.xlsx"):
+        code, _, err = run("solve", table)
+        assert code == 2 and "looks like a table" in err and "--claims" in err and "Traceback" not in err
+    code, out, _ = run("stability", FOOTBRIDGE.parent)
+    assert code == 0 and "21 members" in out
+    code, _, err = run("stability", ROOT / "cases")
+    assert code == 2 and "folder without a case.toml" in err

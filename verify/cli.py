@@ -33,6 +33,14 @@ def _fail_input(error: InputError) -> None:
 
 
 def _load(case: str) -> Model:
+    from pathlib import Path
+
+    if Path(case).is_dir():  # a case folder, as bundled in cases/: its case.toml
+        inside = Path(case) / "case.toml"
+        if not inside.is_file():
+            click.echo(f"{case}: a folder without a case.toml; name the case file", err=True)
+            sys.exit(EXIT_BAD_INPUT)
+        case = str(inside)
     try:
         return read_case(case)
     except InputError as error:
@@ -68,7 +76,7 @@ def main() -> None:
 
 
 @main.command(short_help="Classify the truss: stable or not, determinate or not.")
-@click.argument("case", type=click.Path(dir_okay=False))
+@click.argument("case", type=click.Path())
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
 def stability(case: str, as_json: bool) -> None:
     """Classify CASE: Maxwell's count, rank of the equilibrium matrix, mechanisms, self-stress."""
@@ -89,7 +97,7 @@ def _stability_only(model: Model) -> Analysis:
 
 
 @main.command(short_help="Recompute every member force and reaction (joints, sections, global).")
-@click.argument("case", type=click.Path(dir_okay=False))
+@click.argument("case", type=click.Path())
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object (forces, reactions) instead of text.")
 @click.option("--show", type=click.Choice(["forces", "joints", "sections", "all"]), default="forces", show_default=True,
               help="What to print: the force tables, the joint-by-joint hand calc, the section cuts, or all.")
@@ -145,7 +153,7 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
 
 
 @main.command(short_help="Print the method-of-sections calc sheet for one cut.")
-@click.argument("case", type=click.Path(dir_okay=False))
+@click.argument("case", type=click.Path())
 @click.option("--members", "member_list", required=True, metavar="ID,ID,...",
               help="The members the section passes through, comma-separated (e.g. U1U2,U1L2,L1L2).")
 @click.option("--case", "load_name", default=None, help="Load case or combination (default: every one).")
@@ -321,7 +329,7 @@ def _with_check_options(func: Callable[..., None]) -> Callable[..., None]:
 
 
 @main.command(short_help="Compare claimed forces with recomputed ones and explain every difference.")
-@click.argument("case", type=click.Path(dir_okay=False))
+@click.argument("case", type=click.Path())
 @click.option("--claims", "claims_path", required=True, type=click.Path(dir_okay=False), help="Claimed forces: CSV or .xlsx.")
 @_with_check_options
 def check(case: str, claims_path: str, **options: Any) -> None:

@@ -110,6 +110,10 @@ def read_case(path: str | Path) -> Model:
         raise InputError([Problem(name, "file not found")]) from None
     except OSError as exc:
         raise InputError([Problem(name, f"cannot read the file ({exc.strerror})")]) from None
+    if raw[:4] == b"PK\x03\x04" or raw[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" or path.suffix.lower() in (".csv", ".xlsx", ".xls"):
+        raise InputError([Problem(name, "this looks like a table (CSV or a spreadsheet), not a case file: the case is a "
+                                        "TOML file (title, [units], [joints], [members], [supports], [loads]; see the README); "
+                                        "a claimed-forces table goes after --claims")]) from None
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
