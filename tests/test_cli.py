@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import re
 import subprocess
 import sys
@@ -233,3 +234,16 @@ def test_case_argument_mistakes_get_a_plain_answer():
     assert code == 0 and "21 members" in out
     code, _, err = run("stability", ROOT / "cases")
     assert code == 2 and "folder without a case.toml" in err
+
+
+def test_report_to_an_unwritable_folder_is_one_plain_message():
+    """/proc refuses new files even to root (tests here may run as root, which ignores modes)."""
+    if not Path("/proc").is_dir():
+        pytest.skip("needs Linux /proc")
+    code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--report", "/proc/review.html")
+    assert code == 2 and "cannot write in the folder /proc" in err and ".tmp" not in err
+
+
+def test_report_into_a_missing_folder_is_refused(tmp_path):
+    code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--report", tmp_path / "nope" / "review.md")
+    assert code == 2 and "does not exist" in err

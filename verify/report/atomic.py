@@ -26,7 +26,10 @@ def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str
     if not folder.is_dir():
         raise OutputError(f"{target}: the folder {folder} does not exist")
     data = content.encode("utf-8") if isinstance(content, str) else content
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    except OSError as exc:  # read-only or special folder: say so, not the temporary file's errno
+        raise OutputError(f"{target}: cannot write in the folder {folder} ({exc.strerror or exc})") from None
     try:
         # mkstemp creates 0600; a report is an ordinary file (0666 less the umask).
         umask = os.umask(0)
