@@ -14,6 +14,7 @@ from trussgen import make_model, pratt, truss_case
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import SignMode, Verdict, compare_claims
 from verify.compare.findings import Severity
+from verify.io.claims import ClaimsTable
 
 P = 10.0  # kN per bottom panel point
 
@@ -242,3 +243,34 @@ def test_column_of_zeros_does_not_rescale_the_table():
     largest = max(abs(r.recomputed) for r in review.rows if r.case == "live" and r.recomputed is not None)
     assert f"{largest:.4g}" in live[0].detail
     assert {r.status for r in review.rows if r.case == "live" and abs(r.recomputed or 0) > 1e-9} == {"value-mismatch"}
+
+
+def _two_case_analysis():
+    case = pratt(6, load=P, case="dead")
+    case["loads"]["live"] = {j: [0.0, -2 * P] for j in case["loads"]["dead"]}
+    return analyse(make_model(case))
+
+
+def test_unitless_column_in_another_unit_is_read_in_its_own_scale():
+    """'dead (kN)' beside a 'live' column written in N without a unit: the live column is read
+    x0.001 (one information finding), and a real error in it is still found as one."""
+    analysis = _two_case_analysis()
+    claims = true_claims(analysis, ["dead", "live"])
+    claims["live"] = {m: v * 1000 for m, v in claims["live"].items()}
+    claims["live"]["U1L2"] *= 1.2  # a genuine 20 % error, in newtons
+    dead = table({"dead": claims["dead"]}, unit="kN").values
+    live = table({"live": claims["live"]}).values  # no unit stated anywhere for this column
+    review = compare_claims(analysis, ClaimsTable("<memory>", None, "0" * 64, dead + live, (), ("dead", "live"), None))
+    assert review.convention.column_readings == ("column 'live' read x0.001 (kN vs N, or kip vs lbf)",)
+    live_findings = sorted((f.kind, f.severity.value, f.members) for f in review.findings if f.case == "live")
+    assert live_findings == [("unit-scale", "info", ()), ("value-mismatch", "error", ("U1L2",))]
+    row = next(r for r in review.rows if r.case == "live" and r.id == "U1L2")
+    assert row.claimed == pytest.approx(1.2 * row.recomputed, rel=1e-9)
+
+
+def test_table_uniformly_in_another_unit_is_still_one_table_finding():
+    analysis = _two_case_analysis()
+    scaled = {c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(analysis, ["dead", "live"]).items()}
+    review = compare_claims(analysis, table(scaled))
+    assert kinds(review) == ["unit-scale"] and review.convention.column_readings == ()
+    assert review.convention.scale == pytest.approx(1e-3)

@@ -25,6 +25,7 @@ from verify.compare.balance import JointImbalance, checkable_joints, claims_bala
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
+    Fit,
     best_fit,
     describe_factor,
     matching_factor,
@@ -57,10 +58,12 @@ class Convention:
     unit_source: str  # "option" (--unit), "table" (headers or cells) or "assumed" (the case's unit)
     support: str  # how strongly the data support the convention, in words
     scale_reason: str = ""  # the unit slip the scale undoes, when the data showed one
+    column_readings: tuple[str, ...] = ()  # unitless columns read in their own scale, in words
 
     def as_dict(self) -> dict[str, Any]:
         return {"sign": self.sign, "scale": self.scale, "inferred": self.inferred, "unit": self.unit,
-                "unit_source": self.unit_source, "scale_reason": self.scale_reason, "support": self.support}
+                "unit_source": self.unit_source, "scale_reason": self.scale_reason, "support": self.support,
+                "column_readings": list(self.column_readings)}
 
 
 class Row(NamedTuple):
@@ -205,6 +208,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     unit_stated = bool(stated_units) or option_unit is not None
     unit_label = (", ".join(sorted(stated_units)) if stated_units else (option_unit.symbol if option_unit else case_unit.symbol))
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
+    column_readings: list[str] = []  # columns read in their own unit scale (below)
 
     # Gather comparable member claims.
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
@@ -252,6 +256,37 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                     f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR))
     mapping.update(remap)
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
+
+    # Columns in different units: a column that states no unit, beside columns whose values read
+    # in another scale, is read in its own scale (one finding per column, not one per member).
+    if comparable and ref is not None and len(columns) > 1:
+        column_fit: dict[str, tuple[float, Fit, Fit]] = {}
+        for column in columns:
+            target = mapping.get(column)
+            idx = np.array([i for i, v in member_claims if v.column == column], dtype=np.int64)
+            if target is None or len(idx) < MIN_MEMBERS_FOR_TABLE:
+                continue
+            k = load_names.index(target)
+            comp = ref.member_forces[member_pos[idx], k]
+            atol_arr = np.full(len(idx), tol.atol_fraction * (scale_of[target] or 1.0))
+            best, identity = best_fit(raw[idx] * conv[idx], fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx])
+            if best.informative >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree:
+                column_fit[column] = (best.factor, best, identity)
+            elif identity.share >= MIN_SHARE:
+                column_fit[column] = (1.0, identity, identity)
+        if len({round(f, 9) for f, _, _ in column_fit.values()}) > 1:
+            for column, (col_factor, best, identity) in column_fit.items():
+                unitless = all(claims.values[i].unit is None for i, v in member_claims if v.column == column)
+                if col_factor == 1.0 or not unitless or option_unit is not None:
+                    continue
+                picked = np.array([claims.values[i].column == column for i in range(len(claims.values))])
+                conv[picked] *= col_factor
+                rounding_unit[picked] *= col_factor
+                column_readings.append(f"column '{column}' read {describe_factor(col_factor)}")
+                findings.append(Finding("unit-scale", (), f"claims column '{column}' states no unit, and its values are off by a unit "
+                                        f"factor {describe_factor(col_factor)} against the other columns: {best.agree} of "
+                                        f"{best.informative} members agree once scaled ({identity.agree} as written), so it is "
+                                        "read that way", Severity.INFO, case=mapping.get(column)))
 
     # Table convention.
     sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
@@ -307,6 +342,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         unit_source=unit_source,
         scale_reason="" if scale_fit == 1.0 else describe_factor(scale_fit),
         support=support,
+        column_readings=tuple(column_readings),
     )
 
     # Per-claim rows.

@@ -142,7 +142,7 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
             "Units (case)",
             f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces tension positive",
         ),
-        ("Claims read in", f"{c.unit} ({_unit_source(c.unit_source)})"),
+        ("Claims read in", f"{c.unit} ({_unit_source(c.unit_source)})" + "".join(f"; {r}" for r in c.column_readings)),
         (
             "Sign convention of the claims",
             f"{c.sign} ({'inferred from the data' if c.inferred else 'as stated'}); {c.support}",
