@@ -333,3 +333,20 @@ def test_csv_and_toml_problems_reported_together(write_files, tmp_path):
     problems = problems_of(write_files(files))
     where = {(Path(p.file).name, p.line) for p in problems}
     assert {("joints.csv", 6), ("loads.csv", 3), ("case.toml", 7)} <= where, [str(p) for p in problems]
+
+
+def test_unreadable_joints_table_is_one_problem_not_an_echo_per_reference(write_files, tmp_path):
+    """A joints table that cannot be read is said once; members, supports and loads naming its
+    joints are not each reported as 'not defined', nor is the model 'without members'."""
+    problems = problems_of(write_files(csv_variant("joints.csv", "name,X,Y\nA,0,0\nB,4,0\nC,4,3\nD,0,3\n")))
+    assert [(Path(p.file).name, p.line) for p in problems] == [("joints.csv", 1)], [str(p) for p in problems]
+    assert "header lacks column(s) id; found name, x, y" in problems[0].message
+
+
+def test_semicolon_separated_tables_are_read(write_files, tmp_path):
+    """Spreadsheets in many locales save CSV with ';': the same tables read the same model."""
+    comma = read_case(write_files({"case.toml": CSV_CASE, **CSV_FILES}))
+    semicolon = {name: text.replace(",", ";") for name, text in CSV_FILES.items()}
+    model = read_case(write_files({"case.toml": CSV_CASE, **semicolon}))
+    assert model.joints == comma.joints and model.members == comma.members
+    assert [dict(c.loads) for c in model.cases] == [dict(c.loads) for c in comma.cases]

@@ -87,6 +87,7 @@ class _Ctx:
     declared_joints: set[str] = field(default_factory=set)
     bulk: _Bulk = field(default_factory=_Bulk)
     needs_area_units: list[tuple[str, tuple[str, ...]]] = field(default_factory=list)  # (what, path)
+    joints_unreadable: bool = False  # the joints table could not be read: references to joints are not news
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -158,9 +159,9 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     cases = _read_loads(ctx, data.get("loads"), base, joint_ids, dim)
     combos = _read_combinations(ctx, data.get("combinations"), [c.name for c in cases])
 
-    if not joints:
+    if not joints and not ctx.joints_unreadable:
         ctx.add("the model has no joints; add a [joints] table", "joints")
-    if not members:
+    if not members and not ctx.joints_unreadable:
         ctx.add("the model has no members; add a [members] table", "members")
     _check_geometry(ctx, joints, members, dim)
     connected = {m.start for m in members} | {m.end for m in members}
@@ -232,11 +233,16 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
         text = path.read_bytes().decode("utf-8-sig")
     except FileNotFoundError:
         ctx.add(f"{'.'.join(where)} names the table '{name}', which does not exist (looked in {base})", *where)
+        ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
         return
     except (OSError, UnicodeDecodeError) as exc:
         ctx.add(f"{'.'.join(where)}: cannot read '{name}' as UTF-8 text ({exc})", *where)
+        ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
         return
-    reader = csv.reader(io.StringIO(text))
+    first = text.split("\n", 1)[0]
+    # Spreadsheets in many locales save CSV with ';' (or tabs) between fields.
+    delimiter = next((d for d in (";", "\t") if d in first and "," not in first), ",")
+    reader = csv.reader(io.StringIO(text), delimiter=delimiter)
     try:
         header = [h.strip().lower() for h in next(reader)]
     except StopIteration:
@@ -245,6 +251,8 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
     missing = [r for r in required if r not in header]
     if missing:
         ctx.problems.problems.append(Problem(str(path), f"header lacks column(s) {', '.join(missing)}; found {', '.join(header)}", 1))
+        if where == ("joints",):
+            ctx.joints_unreadable = True
         return
     for row in reader:
         line = reader.line_num
@@ -341,6 +349,8 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
             coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line) for a in axes]
             if all(c is not None for c in coords):
                 joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
+        if not joints:  # nothing usable in the table: its own problems say why; spare the echoes
+            ctx.joints_unreadable = True
         return joints
     if not isinstance(table, dict):
         ctx.add("[joints] must be a table (id = [x, y]) or the name of a CSV file", "joints")
@@ -412,8 +422,8 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
         jid = str(value)
         if jid in joint_ids:
             return jid
-        if jid in ctx.declared_joints:
-            return None  # defined, but its own line already carries the problem
+        if jid in ctx.declared_joints or ctx.joints_unreadable:
+            return None  # defined but unusable, or the joints table unreadable: said once already
         message = f"{what} names joint '{jid}', which is not defined.{did_you_mean(jid, joint_ids)}"
     else:
         message = f"{what}: expected a joint id, got {value!r}"
