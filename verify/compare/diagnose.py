@@ -654,8 +654,16 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             needed = claim - e
             index = next((r for r, v, *_ in case_rows if v.member == mid), None)
             status, kind = "value-mismatch", "value-mismatch"
-            text = (f"{mid} in '{name}': claimed {claim:.4g} {unit}; equilibrium of its joints needs about {needed:.4g} "
-                    f"(all other claims kept)")
+            if len(blamed) == 1:
+                text = (f"{mid} in '{name}': claimed {claim:.4g} {unit}; equilibrium of its joints needs about {needed:.4g} "
+                        f"(all other claims kept)")
+            else:
+                # Several members changed together: one way to restore balance, found greedily;
+                # a self-stress can trade between them, so it is a lead, not a verdict.
+                others = ", ".join(x for x in blamed if x != mid)
+                text = (f"{mid} in '{name}': claimed {claim:.4g} {unit}; no single member explains the imbalance, and one "
+                        f"combination that removes most of it sets {mid} to about {needed:.4g} together with {others} "
+                        "(other combinations may balance as well: check these claims first)")
             if abs(claim + needed) <= tol.rtol * abs(claim) + 1e-12:
                 status = kind = "sign-flip"
                 text += ": the sign is reversed"
