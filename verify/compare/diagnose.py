@@ -33,6 +33,7 @@ from verify.compare.convention import (
 from verify.compare.findings import Finding, Severity, ordered
 from verify.compare.tolerances import Tolerance, rounding_allowance, rounding_allowances
 from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
+from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.units import Dimension, factor, lookup_unit
 
@@ -414,7 +415,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                             None if computed is None else value - computed, status))
             if status == "value-mismatch" and computed is not None:
                 findings.append(Finding("value-mismatch", (f"{joint}.{axis}",), f"reaction {joint}.{axis} in '{name}': claimed "
-                                        f"{value:.4g}, recomputed {computed:.4g} {case_unit.symbol}", Severity.ERROR, case=name))
+                                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}", Severity.ERROR, case=name))
             continue
         if not judged_l[i]:
             continue
@@ -457,8 +458,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                     for r in (ra, rb):
                         rows[r] = _with_status(rows[r], "swapped-labels")
                     findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
-                                            f"({xa:.4g}) and {vb.member} ({xb:.4g}) match each other's recomputed forces "
-                                            f"({cb:.4g} and {ca:.4g} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
+                                            f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
+                                            f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
     # A load column claimed as nothing but zeros (a template column never filled in) is one
     # finding, not one per member.
     for name, items in by_case.items():
@@ -469,7 +470,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         largest = max(abs(item[3]) for item in items)
         explained.update(item[0] for item in items)
         findings.append(Finding("value-mismatch", tuple(item[1].member for item in items),  # type: ignore[misc]
-                                f"every member claim in '{name}' is 0, but the recomputed forces reach {largest:.4g} "
+                                f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
                                 f"calculated); its {len(items)} claim(s) on loaded members are marked value-mismatch",
                                 Severity.ERROR, case=name))
@@ -489,25 +490,25 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         rounding = rounding_allowance(v.value, 1.0)
         if abs(computed) <= atol:
             rows[r] = _with_status(rows[r], "zero-force-claimed")
-            findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {value:.4g} {case_unit.symbol}, "
+            findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {fmt(value)} {case_unit.symbol}, "
                                     "but it is a zero-force member under this loading" + written_at, Severity.ERROR, case=name))
             continue
         if tol.agrees(-value, computed, atol, rounding):
             rows[r] = _with_status(rows[r], "sign-flip")
             how = "the T/C mark" if v.sign_fixed else "the sign"
-            findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {value:.4g} but recomputed {computed:.4g} "
+            findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {fmt(value)} but recomputed {fmt(computed)} "
                                     f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name))
             continue
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol)
         if unit_factor is not None:
             rows[r] = _with_status(rows[r], "unit-scale")
-            findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {value:.4g}, recomputed {computed:.4g} "
+            findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
                                     f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {describe_factor(unit_factor)}"
                                     + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name))
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
-        findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {value:.4g}, recomputed {computed:.4g} "
+        findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
                                 f"{case_unit.symbol} (difference {value - computed:+.4g}, {pct:.1f} %; allowed {allowed:.3g})" + written_at,
                                 Severity.ERROR, case=name))
 
@@ -556,7 +557,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         elif off == 0:
             notes.append(f"equilibrium of the claims in '{name}': they balance at all {count} joints where every member has a claim")
         else:
-            notes.append(f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints")
+            worst = sorted((b for b in imbalances if b.case == name), key=lambda b: -b.size)[:8]
+            joints = ", ".join(f"{b.joint} ({fmt(b.size, 3)} {case_unit.symbol})" for b in worst)
+            notes.append(f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints: "
+                         f"{joints}{' ...' if off > len(worst) else ''}")
     if imbalances:
         unexplained = [b for b in imbalances if not (set(b.members) & flagged.get(b.case, set()))]
         if unexplained or ref is None or stab.classification is Classification.UNSTABLE:
@@ -655,14 +659,14 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             index = next((r for r, v, *_ in case_rows if v.member == mid), None)
             status, kind = "value-mismatch", "value-mismatch"
             if len(blamed) == 1:
-                text = (f"{mid} in '{name}': claimed {claim:.4g} {unit}; equilibrium of its joints needs about {needed:.4g} "
+                text = (f"{mid} in '{name}': claimed {fmt(claim)} {unit}; equilibrium of its joints needs about {fmt(needed)} "
                         f"(all other claims kept)")
             else:
                 # Several members changed together: one way to restore balance, found greedily;
                 # a self-stress can trade between them, so it is a lead, not a verdict.
                 others = ", ".join(x for x in blamed if x != mid)
-                text = (f"{mid} in '{name}': claimed {claim:.4g} {unit}; no single member explains the imbalance, and one "
-                        f"combination that removes most of it sets {mid} to about {needed:.4g} together with {others} "
+                text = (f"{mid} in '{name}': claimed {fmt(claim)} {unit}; no single member explains the imbalance, and one "
+                        f"combination that removes most of it sets {mid} to about {fmt(needed)} together with {others} "
                         "(other combinations may balance as well: check these claims first)")
             if abs(claim + needed) <= tol.rtol * abs(claim) + 1e-12:
                 status = kind = "sign-flip"
