@@ -353,3 +353,32 @@ def test_3d_csv_tables(write_files):
     assert from_csv.joints == inline.joints
     assert from_csv.reactions == inline.reactions
     assert dict(from_csv.cases[0].loads) == dict(inline.cases[0].loads)
+
+
+def test_area_unit_with_superscript_and_axis_letters_in_capitals(write_files):
+    """'mm²' reads as mm2 and support directions 'X', ' Y' as x, y: spellings, not different units.
+    EA = A E: 1000 mm² x 200 GPa = 1e-3 m² x 2e11 Pa = 2e8 N = 2e5 kN (arithmetic)."""
+    text = """[units]
+length = "m"
+force = "kN"
+area = "mm²"
+modulus = "GPa"
+[joints]
+A = [0.0, 0.0]
+B = [4.0, 0.0]
+C = [2.0, 3.0]
+[members]
+AB = { ends = ["A", "B"], A = 1000.0, E = 200.0 }
+BC = ["B", "C"]
+CA = ["C", "A"]
+[stiffness]
+EA = 1.0e5
+[supports]
+A = ["X", "y"]
+B = [" Y"]
+[loads.P]
+C = [0.0, -10.0]
+"""
+    model = read_case(write_files({"case.toml": text}))
+    assert model.members[0].EA == pytest.approx(2e5, rel=1e-12)
+    assert [r.label for r in model.reactions] == ["A.x", "A.y", "B.y"]

@@ -217,10 +217,11 @@ def _stiffness_units(ctx: _Ctx, table: Any) -> tuple[float | None, float | None]
         value = table.get(key)
         if value is None:
             result.append(None)
-        elif value in options:
-            result.append(options[value])
+        elif isinstance(value, str) and value.replace("²", "2") in options:  # "mm²" is "mm2"
+            result.append(options[value.replace("²", "2")])
         else:
-            ctx.add(f"units.{key}: unknown unit '{value}'; accepted: {', '.join(options)}", "units", key)
+            ctx.add(f"units.{key}: unknown unit '{value}'; accepted: {', '.join(options)}.{did_you_mean(str(value), list(options))}",
+                    "units", key)
             result.append(None)
     return result[0], result[1]
 
@@ -586,6 +587,8 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
         if isinstance(spec, list):
             seen: set[str] = set()
             for axis in spec:
+                if isinstance(axis, str) and axis.strip().lower() in axes:
+                    axis = axis.strip().lower()  # "Y" and " y" name the y axis too
                 if axis not in axes:
                     _say(ctx, f"support at '{jid}': direction {axis!r} is not one of {', '.join(axes)}", path, file, line)
                 elif axis in seen:
