@@ -312,8 +312,9 @@ def appendix_blocks(
     # Section cuts.
     sections = analysis.sections
     if sections is not None:
-        cuts = list(getattr(sections, "cuts", ()))
-        shown_cuts = cuts if max_cuts is None else cuts[:max_cuts]
+        # Cut records are built lazily: slice first, so a large model builds only those shown.
+        cuts = getattr(sections, "cuts", ())
+        shown_cuts = list(cuts if max_cuts is None else cuts[:max_cuts])
         if section_calc is not None:
             texts = [section_calc[0](model, cut, load_name) for cut in shown_cuts]
         else:

@@ -146,6 +146,12 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
     unit = model.units.force.symbol
     out = [f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums forces on the joint)"]
     solved: set[int] = set()
+    # Members at each joint, built once (a scan of every member per step made large reports
+    # quadratic in the truss size).
+    at_joint: dict[int, list[int]] = {}
+    for i, (start, end) in enumerate(model.ends_index.tolist()):
+        at_joint.setdefault(start, []).append(i)
+        at_joint.setdefault(end, []).append(i)
     for n, step in enumerate(solution.steps, 1):
         if step.kind == "reactions":
             point = np.asarray(solution.moment_point)
@@ -168,7 +174,7 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
             continue
         joint = step.joints[0]
         j = model.joint_index[joint]
-        cols = [i for i in range(b) if j in model.ends_index[i]] + [b + i for i, r in enumerate(model.reactions) if r.joint == joint]
+        cols = at_joint.get(j, []) + [b + i for i, r in enumerate(model.reactions) if r.joint == joint]
         unknown_names = ", ".join(names[c] for c in step.unknowns)
         out.append(f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} {unknown_names}"
                    + (" (the others here wait for later steps)" if step.partial else ""))
@@ -182,8 +188,8 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
                     coefficient = float(model.reactions[c - b].direction[axis])
                 if abs(coefficient) < 1e-12:
                     continue
-                if c in solved:
-                    parts.append(f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({fmt(t[c])})")
+                if c in solved:  # a force found earlier: its name and value, so each term can be traced
+                    parts.append(f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({names[c]} = {fmt(t[c])})")
                 else:
                     parts.append(_term(coefficient, names[c]))
             load = F[j * d + axis]
