@@ -246,3 +246,12 @@ def test_report_to_an_unwritable_folder_is_one_plain_message():
 def test_report_into_a_missing_folder_is_refused(tmp_path):
     code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--report", tmp_path / "nope" / "review.md")
     assert code == 2 and "does not exist" in err
+
+
+def test_cut_accepts_member_labels_written_as_in_claims_tables():
+    """'u2u3', 'U2-L3' and 'L2 L3' name U2U3, U2L3 and L2L3, as they would in a claims table;
+    the Ritter sheet for U2U3 is the same as with the exact ids."""
+    code, loose, err = run("cut", FOOTBRIDGE, "--members", "u2u3,U2-L3,L2 L3", "--case", "dead", "--decimals-only")
+    assert code == 0, err
+    code, exact, _ = run("cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead", "--decimals-only")
+    assert loose == exact and "Section for member U2U3" in exact

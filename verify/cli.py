@@ -180,7 +180,9 @@ def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool)
         click.echo(text.render_stability(model, stability))
         click.echo("No section can be solved: the truss is unstable.")
         sys.exit(EXIT_CANNOT_VERIFY)
-    ids = [m.strip() for m in member_list.split(",") if m.strip()]
+    from verify.io.claims import member_ids_for
+
+    ids = member_ids_for(model, [m.strip() for m in member_list.split(",") if m.strip()])
     try:
         section = cut_for_members(model, ids)
     except ValueError as exc:

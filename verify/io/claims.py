@@ -1142,6 +1142,19 @@ class _Match:
         return f"{self.reaction[0]}.{self.reaction[1]}" if self.reaction else ""
 
 
+def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:
+    """Member ids for labels written as a claims table would write them ('u2u3', 'U2-L3', 'L3 U2').
+
+    A label that names no single member is returned as written, for the caller to report.
+    """
+    matcher = _LabelMatcher(model)
+    out = []
+    for label in labels:
+        found = matcher.match(label)
+        out.append(found.member if found.kind == "member" and found.member is not None else label)
+    return out
+
+
 class _LabelMatcher:
     """Matches table labels to member ids, joint pairs and reaction components of one model."""
 

@@ -132,7 +132,7 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
                 + [abs(v) for v in values.values()] + [1e-300])
     out: list[str] = []
     kept = cut.kept_joints
-    shape = "straight cut" if cut.straight else "joints connected to each other; not necessarily a straight cut"
+    shape = "straight cut" if cut.straight else "the joints on one side of the cut members, found by connectivity"
     out.append(f"Section for member {cut.target}, load '{load_name}' (forces in {fu}, lengths in {lu})")
     listed = ", ".join(kept) if len(kept) <= MAX_LISTED_JOINTS else (
         ", ".join(kept[:MAX_LISTED_JOINTS]) + f", ... ({len(kept)} joints)")
