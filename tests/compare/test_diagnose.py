@@ -274,3 +274,46 @@ def test_table_uniformly_in_another_unit_is_still_one_table_finding():
     review = compare_claims(analysis, table(scaled))
     assert kinds(review) == ["unit-scale"] and review.convention.column_readings == ()
     assert review.convention.scale == pytest.approx(1e-3)
+
+
+def _combination_analysis():
+    """Dead load down at the bottom joints, wind sideways at the top joints (not proportional),
+    and ULS = 1.35 dead + 1.5 wind; forces by superposition (common practice)."""
+    case = pratt(6, load=P, case="dead")
+    case["loads"]["wind"] = {j: [3.0, 0.0] for j in case["joints"] if j.startswith("U")}
+    case["combinations"] = {"ULS": {"dead": 1.35, "wind": 1.5}}
+    return analyse(make_model(case))
+
+
+def test_combination_claimed_with_other_factors_is_one_finding_naming_them():
+    analysis = _combination_analysis()
+    cases = true_claims(analysis, ["dead", "wind"])
+    claims = true_claims(analysis, ["dead", "wind", "ULS"])
+    claims["ULS"] = {m: 1.35 * cases["dead"][m] + 1.6 * cases["wind"][m] for m in claims["ULS"]}  # 1.6 for 1.5
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    uls = [f for f in review.findings if f.case == "ULS"]
+    assert [f.kind for f in uls] == ["case-mismatch"]
+    assert "follow 1.35 × dead + 1.6 × wind" in uls[0].detail and "not 1.35 × dead + 1.5 × wind" in uls[0].detail
+    assert all(r.status in ("value-mismatch", "agrees") for r in review.rows if r.case == "ULS" and r.claimed is not None)
+
+
+def test_proportional_cases_give_a_factor_on_the_whole_combination():
+    """Live load on the same joints as dead: the cases cannot be told apart, only the total."""
+    case = pratt(6, load=P, case="dead")
+    case["loads"]["live"] = {j: [0.0, -2 * P] for j in case["loads"]["dead"]}
+    case["combinations"] = {"ULS": {"dead": 1.35, "live": 1.5}}
+    analysis = analyse(make_model(case))
+    claims = true_claims(analysis, ["ULS"])
+    claims["ULS"] = {m: 1.08 * v for m, v in claims["ULS"].items()}
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    uls = [f for f in review.findings if f.case == "ULS"]
+    assert [f.kind for f in uls] == ["case-mismatch"]
+    assert "follow 1.08 × (1.35 × dead + 1.5 × live)" in uls[0].detail
+
+
+def test_one_wrong_claim_in_a_combination_is_not_a_factor_finding():
+    analysis = _combination_analysis()
+    claims = true_claims(analysis, ["ULS"])
+    claims["ULS"]["U1U2"] *= 1.2
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    assert kinds(review) == ["value-mismatch"]

@@ -19,6 +19,7 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
+from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
 from verify.compare.balance import JointImbalance, checkable_joints, claims_balance
@@ -35,6 +36,7 @@ from verify.compare.tolerances import Tolerance, rounding_allowance, rounding_al
 from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
+from verify.model import Model
 from verify.units import Dimension, factor, lookup_unit
 
 
@@ -474,6 +476,21 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
                                 f"calculated); its {len(items)} claim(s) on loaded members are marked value-mismatch",
                                 Severity.ERROR, case=name))
+    # A column whose claims are, nearly all, another combination of the load cases (a different
+    # load or combination factor): one finding that names the combination the claims follow.
+    if not indeterminate and ref is not None:
+        for name, items in by_case.items():
+            pending = [item for item in items if item[0] not in explained]
+            failing = {model.member_index[item[1].member] for item in pending if item[1].member is not None}
+            fit = _combination_fit(model, ref, rows, name, failing, tol, scale_of.get(name, 0.0))
+            if fit is None:
+                continue
+            fitted, defined, agree, n = fit
+            explained.update(item[0] for item in pending)
+            findings.append(Finding("case-mismatch", tuple(item[1].member for item in pending),  # type: ignore[misc]
+                                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with it), "
+                                    f"not {defined} as the case file defines '{name}': a different load or combination factor? "
+                                    f"Its {len(pending)} differing claim(s) are marked value-mismatch", Severity.ERROR, case=name))
     if indeterminate:
         # Indeterminate: differences are judged by equilibrium, not member by member.
         findings.extend(_explain_indeterminate(analysis, rows, diffs, claimed_matrix, reaction_claims, load_names, tol,
@@ -578,6 +595,62 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             verdict = Verdict.CANNOT_VERIFY
     return Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
                   checked_members, tuple(imbalances), tuple(notes))
+
+
+def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str, failing: set[int], tol: Tolerance,
+                     scale: float) -> tuple[str, str, int, int] | None:
+    """(fitted combination, defined combination, members agreeing, members claimed) when several
+    claims of load column `name` fail (member positions `failing`) and nearly all claims, the
+    failing ones included, follow one other combination of the load cases.
+
+    The factors come from a least-squares fit of the claims on the load cases' recomputed forces
+    (superposition: a combination's forces are the factored sum of its cases' forces).
+    """
+    n_cases = len(model.cases)
+    claimed = [(model.member_index[r.id], r.claimed) for r in rows
+               if r.kind == "member" and r.case == name and r.claimed is not None]
+    if len(failing) < MIN_MEMBERS_FOR_TABLE or len(claimed) < 2 * n_cases + 2:
+        return None  # too few failures to be a pattern, or too few claims to fit the factors
+    pos = np.array([p for p, _ in claimed], dtype=np.int64)
+    y = np.array([c for _, c in claimed], dtype=float)
+    basis = ref.member_forces[pos, :n_cases]
+    names = [c.name for c in model.cases]
+    k = model.load_names.index(name)
+    defined = np.zeros(n_cases)
+    if k < n_cases:
+        defined[k] = 1.0
+    else:
+        for case, factor in model.combinations[k - n_cases].factors.items():
+            defined[names.index(case)] = factor
+
+    def words(coefficients: np.ndarray) -> str:
+        big = float(np.abs(coefficients).max()) or 1.0
+        terms = [f"{fmt(float(c), 3)} × {n}" for c, n in zip(coefficients, names, strict=True) if abs(c) > 1e-3 * big]
+        return " + ".join(terms).replace("+ -", "- ") or "0"
+
+    singular = np.linalg.svd(basis, compute_uv=False)
+    if int((singular > 1e-9 * singular.max()).sum()) == n_cases:
+        factors = np.linalg.lstsq(basis, y, rcond=None)[0]
+        fitted = basis @ factors
+        if np.allclose(factors, defined, rtol=tol.rtol, atol=1e-3 * max(float(np.abs(defined).max()), 1e-12)):
+            return None  # the defined combination already: the misfit lies elsewhere
+        text = words(factors)
+    else:
+        # Load cases with proportional forces (the same pattern of loads): the claims cannot tell
+        # the cases apart, only how much of the defined combination they hold.
+        named = basis @ defined
+        alpha = float(named @ y) / float(named @ named) if named @ named else 0.0
+        fitted = alpha * named
+        if abs(alpha - 1.0) <= tol.rtol or alpha <= 0:
+            return None
+        text = f"{fmt(alpha, 3)} × ({words(defined)})"
+    atol = tol.atol_fraction * (scale or 1.0)
+    fits = np.abs(y - fitted) <= np.maximum(tol.rtol * np.maximum(np.abs(y), np.abs(fitted)), atol)
+    agree = int(fits.sum())
+    explained = int(fits[np.isin(pos, list(failing))].sum())
+    if agree < 0.9 * len(claimed) or explained < 0.9 * len(failing):
+        return None
+    return text, words(defined), agree, len(claimed)
 
 
 def _with_status(row: Row, status: str) -> Row:
