@@ -69,11 +69,12 @@ class ProblemList:
 def did_you_mean(name: str, candidates: Iterable[str], *, n: int = 2) -> str:
     """A ' Did you mean ...?' hint with the closest valid names, or '' when none is close."""
     pool = [str(c) for c in candidates]
-    close = difflib.get_close_matches(str(name), pool, n=n, cutoff=0.5)
-    if not close:
-        lowered = {c.lower(): c for c in pool}
-        if str(name).lower() in lowered:
-            close = [lowered[str(name).lower()]]
+    wanted = str(name).casefold()
+    # The same name in other letter case, then names containing it ("Forces" in "Member forces"),
+    # then what difflib finds close.
+    exact = [c for c in pool if c.casefold() == wanted]
+    within = [c for c in pool if len(wanted) >= 3 and wanted in c.casefold() and c not in exact]
+    close = list(dict.fromkeys(exact + within + difflib.get_close_matches(str(name), pool, n=n, cutoff=0.5)))[:n]
     if not close:
         return ""
     quoted = " or ".join(f"'{c}'" for c in close)
