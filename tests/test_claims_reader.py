@@ -731,3 +731,50 @@ def test_force_column_beside_case_named_columns_is_refused(tmp_path: Path) -> No
     """A force column and a column named like a load case: two layouts at once, so not guessed."""
     message = _errors(_csv(tmp_path, "Member,Force,snow\nAB,1,2\n"), case="dead")
     assert "claims.csv row 1, column 3" in message and "column 'snow'" in message
+
+
+# -- the direct reading of plain rows ------------------------------------------------------------
+# Wide tables mixing rows the direct path takes (a member label, plain numbers) with rows it hands
+# to the general reader (T/C, units in cells, reactions, unknown or ambiguous labels, blanks,
+# duplicates, decimal commas, text): both readers must give the same claims or the same message.
+# fmt: off
+PLAIN_AND_MESSY = [
+    "Member,dead (kN),snow\nAB,12.5,-3\nBC,1.5e1,\nCD,7 T,2.5\nAD,-4.25E-1,0\nBD,(5.0),1\nRA.y,3,1\n",
+    "Member,dead,snow\nAB,1,2\nA-B,3,4\nXY,5,6\nBD,,\n\nCD,8 kN,9\n",
+    "Member;dead (kN);snow\nAB;1,5;2\nBC;1.250;3\nCD;-4;5,25\n",
+    "Member,dead\nAB,1\nBC,two\n",
+    "Member,dead,snow\nab,1,2\nB C,3,4\nD-C,5,6\nAD,#N/A,1\n",
+    "Label,Remarks,dead (kN)\nAB,ok,1\nBC,,2\n",
+]
+# fmt: on
+
+
+@pytest.mark.parametrize("text", PLAIN_AND_MESSY, ids=range(len(PLAIN_AND_MESSY)))
+def test_direct_row_reading_matches_the_general_reader(tmp_path: Path, monkeypatch, text: str) -> None:
+    import verify.io.claims as claims_module
+
+    path = _csv(tmp_path, text)
+
+    def outcome() -> object:
+        try:
+            table = read_claims(path, MODEL)
+        except InputError as error:
+            return error.render()
+        return (table.values, table.unmatched, table.columns, table.header_unit)
+
+    direct = outcome()
+    monkeypatch.setattr(claims_module, "FAST_ROWS", False)
+    assert direct == outcome()
+
+
+def test_direct_row_reading_matches_for_excel_numbers(tmp_path: Path, monkeypatch) -> None:
+    import verify.io.claims as claims_module
+
+    path = _workbook(tmp_path / "claims.xlsx", {"Forces": [["Member", "dead (kN)", "snow (kN)"],
+                                                           ["AB", 12.5, "3 C"], ["BC", -1.0, None], ["XY", 2.0, 1.0]]})
+    direct = read_claims(path, MODEL)
+    monkeypatch.setattr(claims_module, "FAST_ROWS", False)
+    general = read_claims(path, MODEL)
+    assert (direct.values, direct.unmatched) == (general.values, general.unmatched)
+    assert [v.where for v in direct.values][:2] == ["sheet 'Forces' cell B2, column 'dead (kN)'",
+                                                    "sheet 'Forces' cell C2, column 'snow (kN)'"]

@@ -56,7 +56,7 @@ _SCIENTIFIC = re.compile(r"^(\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+$")
 _NORMALIZE = str.maketrans(
     {**dict.fromkeys(MINUS_SIGNS, "-"), **dict.fromkeys(GROUP_SPACES[1:], " ")}
 )
-_PLAIN_NUMBER = re.compile(r"[+-]?\d+(?:\.\d+)?")
+PLAIN_NUMBER = re.compile(r"[+-]?\d+(?:\.\d+)?(?:[eE][+-]?\d+)?")
 
 
 def normalize_text(text: str) -> str:
@@ -80,7 +80,7 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
     """
     original = str(text).strip()
-    if _PLAIN_NUMBER.fullmatch(original) and not (decimal_comma and "." in original):
+    if PLAIN_NUMBER.fullmatch(original) and not (decimal_comma and "." in original):
         # The common case, read directly: a signed decimal with nothing else to interpret.
         return float(original), False, None
     s = normalize_text(str(text))
