@@ -743,6 +743,7 @@ PLAIN_AND_MESSY = [
     "Member,dead,snow\nAB,1,2\nA-B,3,4\nXY,5,6\nBD,,\n\nCD,8 kN,9\n",
     "Member;dead (kN);snow\nAB;1,5;2\nBC;1.250;3\nCD;-4;5,25\n",
     "Member,dead\nAB,1\nBC,two\n",
+    "Member,dead\nAB,1\nBC,1e400\n",
     "Member,dead,snow\nab,1,2\nB C,3,4\nD-C,5,6\nAD,#N/A,1\n",
     "Label,Remarks,dead (kN)\nAB,ok,1\nBC,,2\n",
 ]

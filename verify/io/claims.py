@@ -31,6 +31,7 @@ import datetime as dt
 import difflib
 import hashlib
 import io
+import math
 import re
 import warnings
 import zipfile
@@ -1011,6 +1012,8 @@ class _RowReader:
                     value = cell
                 elif type(cell) is str and plain(cell) and not (dotted_thousands and "." in cell):
                     value = float(cell)
+                    if not math.isfinite(value):
+                        break  # 1e400: the general reader refuses it in words
                 else:
                     break
                 if (member, folded) in claimed:

@@ -81,8 +81,11 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     """
     original = str(text).strip()
     if PLAIN_NUMBER.fullmatch(original) and not (decimal_comma and "." in original):
-        # The common case, read directly: a signed decimal with nothing else to interpret.
-        return float(original), False, None
+        # The common case, read directly: a signed decimal with nothing else to interpret
+        # (unless it overflows, e.g. 1e400: the general reader below words that).
+        number = float(original)
+        if math.isfinite(number):
+            return number, False, None
     s = normalize_text(str(text))
     if not s:
         raise ValueError("force is empty; leave the cell blank when there is no claim")
