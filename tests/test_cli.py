@@ -255,3 +255,16 @@ def test_cut_accepts_member_labels_written_as_in_claims_tables():
     assert code == 0, err
     code, exact, _ = run("cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead", "--decimals-only")
     assert loose == exact and "Section for member U2U3" in exact
+
+
+def test_output_cut_short_by_the_reader_is_not_discrepancies(tmp_path):
+    """`truss-verify solve ... | head -1`: the reader goes away; the status is 141 (128 + SIGPIPE,
+    what a shell reports), not 1, which means discrepancies; no traceback. The output (a
+    400-panel Pratt's joint calc, megabytes) is far larger than any pipe buffer."""
+    from trussgen import pratt, write_case
+
+    case = write_case(tmp_path, pratt(400))
+    pipeline = subprocess.run(f'"{sys.executable}" -m verify solve "{case}" --show joints | head -1; exit "${{PIPESTATUS[0]}}"',
+                              shell=True, executable="/bin/bash", capture_output=True, text=True, cwd=ROOT, timeout=120)
+    assert pipeline.stdout.startswith("Truss:")
+    assert pipeline.returncode == 141 and "Traceback" not in pipeline.stderr

@@ -376,6 +376,12 @@ def run(argv: list[str] | None = None) -> None:
         code: Any = 0
     except SystemExit as exc:
         code = exc.code
+    from click.utils import PacifyFlushWrapper
+
+    if isinstance(sys.stdout, PacifyFlushWrapper):
+        # click met a closed pipe (`| head`) and exits 1, which here means "discrepancies":
+        # report what a shell reports for a reader that went away instead, 128 + SIGPIPE.
+        code = 141
     if code is None:
         code = 0
     elif not isinstance(code, int):
