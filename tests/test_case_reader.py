@@ -15,6 +15,7 @@ import pytest
 from trussgen import make_model, pratt, to_toml, truss_case, write_case
 
 from verify.analysis.global_solve import solve_global
+from verify.errors import InputError
 from verify.io.case import read_case
 
 RTOL = 1e-12
@@ -235,27 +236,50 @@ def test_csv_tables_read_like_inline_tables(write_files, tmp_path):
     np.testing.assert_allclose(solve_global(from_csv).member_forces, solve_global(inline).member_forces, rtol=RTOL)
 
 
-@pytest.mark.parametrize("padded", [False, True])
-def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, padded):
+@pytest.mark.parametrize("layout", ["plain", "padded", "quoted", "no-break-space"])
+def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, layout):
     """Clean tables are read in bulk (pandas, arrays handed to the Model); the careful row reader
-    must give the same model, arrays included, padded cells and shuffled rows or not."""
+    must give the same model, arrays included, however the cells are padded or quoted and
+    whatever the row order. The bulk reader must really have read them."""
     import verify.io.case as case_module
 
     files = pratt_csv_files(pratt(6))
     for name in ("joints.csv", "members.csv", "loads.csv"):
         header, *rows = files[name].splitlines()
         rows = rows[::-1]  # row order is not joint order
-        if padded:
-            rows = [" " + row.replace(",", " ,\t", 1) for row in rows]
+        first, rest = zip(*(row.split(",", 1) for row in rows), strict=True)
+        label = {"plain": "{}", "padded": " {} ", "quoted": '" {} "', "no-break-space": "{}\u00a0"}[layout]
+        rows = [label.format(a) + ("\t," if layout == "padded" else ",") + b for a, b in zip(first, rest, strict=True)]
         files[name] = "\n".join([header, *rows]) + "\n"
+    original = case_module._clean_frame
+    bulk_reads: list[str] = []
+
+    def counted(*args):
+        found = original(*args)
+        if found is not None:
+            bulk_reads.append(args[1])
+        return found
+
+    monkeypatch.setattr(case_module, "_clean_frame", counted)
     bulk = read_case(write_files(files))
+    assert sorted(bulk_reads) == ["joints.csv", "loads.csv", "members.csv"]
     monkeypatch.setattr(case_module, "_clean_frame", lambda *args: None)
     careful = read_case(write_files(files))
     assert bulk.joints == careful.joints and bulk.members == careful.members
+    assert [j.id for j in bulk.joints][:2] == ["U5", "U4"]  # ids stripped, row order kept
     assert [dict(c.loads) for c in bulk.cases] == [dict(c.loads) for c in careful.cases]
     np.testing.assert_array_equal(bulk.xyz, careful.xyz)
     np.testing.assert_array_equal(bulk.ends_index, careful.ends_index)
     np.testing.assert_array_equal(bulk.unit_vectors, careful.unit_vectors)
+
+
+def test_bulk_csv_reader_leaves_rows_longer_than_the_header_to_the_careful_reader(write_files):
+    """Every row one field too long: pandas would quietly take the first column as an index."""
+    files = pratt_csv_files(pratt(6))
+    files["loads.csv"] = "case,joint,fx,fy\n" + "".join(f"P,{j},0,-12,5\n" for j in ("L1", "L2"))
+    with pytest.raises(InputError) as info:
+        read_case(write_files(files))
+    assert "row has 5 fields, the header has 4" in info.value.render()
 
 
 def test_toml_writer_round_trip(tmp_path):

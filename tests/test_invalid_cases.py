@@ -350,3 +350,10 @@ def test_semicolon_separated_tables_are_read(write_files, tmp_path):
     model = read_case(write_files({"case.toml": CSV_CASE, **semicolon}))
     assert model.joints == comma.joints and model.members == comma.members
     assert [dict(c.loads) for c in model.cases] == [dict(c.loads) for c in comma.cases]
+
+
+def test_joints_table_with_a_header_only_is_one_message(write_files, tmp_path):
+    """No traceback, no echo at every reference: the empty table is named."""
+    problems = problems_of(write_files(csv_variant("joints.csv", "id,x,y\n")))
+    assert [(Path(p.file).name, p.line) for p in problems] == [("joints.csv", 1)], [str(p) for p in problems]
+    assert "the table has a header (id, x, y) but no rows" in problems[0].message

@@ -75,6 +75,34 @@ def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(mon
         case["members"]["L2U3"] = ["L2", "U3"]
     analysis = pipeline.analyse(make_model(case))
     assert analysis.sections is None and analysis.joints is None
-    assert len(cancelled) == 1 and cancelled[0] is not None
+    stopped = [pid for pid in cancelled if pid is not None]
+    assert len(stopped) == 1
     with pytest.raises(ChildProcessError):
-        os.waitpid(cancelled[0], os.WNOHANG)  # already reaped: not a child any more
+        os.waitpid(stopped[0], os.WNOHANG)  # already reaped: not a child any more
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_an_error_in_the_joint_route_leaves_no_child_and_no_frozen_heap(monkeypatch):
+    import gc
+
+    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    started: list[int] = []
+    original = pipeline._Child.start
+
+    def start(route, model):
+        child = original(route, model)
+        started.append(child.pid)
+        return child
+
+    def broken(model):
+        raise RuntimeError("joint route failed")
+
+    monkeypatch.setattr(pipeline._Child, "start", staticmethod(start))
+    monkeypatch.setattr(pipeline, "solve_joints", broken)
+    with pytest.raises(RuntimeError, match="joint route failed"):
+        pipeline.analyse(make_model(pratt(6, load=10.0)))
+    assert started and started[0] is not None
+    with pytest.raises(ChildProcessError):
+        os.waitpid(started[0], os.WNOHANG)
+    assert gc.get_freeze_count() == 0

@@ -6,12 +6,14 @@ usage, 3 the truss cannot be verified (unstable, or indeterminate without stiffn
 
 from __future__ import annotations
 
+import errno
 import gc
 import math
 import os
 import sys
+import traceback
 from collections.abc import Callable
-from typing import Any
+from typing import Any, cast
 
 import click
 
@@ -364,24 +366,42 @@ def demo(as_json: bool, report: str | None) -> None:
     sys.exit(0 if code in (0, 1) else code)
 
 
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C
+EXIT_PIPE_CLOSED = 141  # 128 + SIGPIPE, as shells report a reader that went away (`| head`)
+EXIT_INTERNAL = 70  # EX_SOFTWARE (sysexits.h): a fault in the tool, never a verdict
+
+
 def run(argv: list[str] | None = None) -> None:
     """The console entry point: run the command, flush the output, and leave at once.
 
     Freeing the millions of small objects of a 10^5-member run one by one at interpreter exit
     took about 0.2 s (bench/run.py) and serves nothing: reports are written atomically before a
-    command returns and no exit hooks are registered. An unexpected error still propagates.
+    command returns and no exit hooks are registered. Statuses 0-3 keep their meaning (see
+    main); an interruption, a closed or full output and a fault in the tool get statuses of
+    their own, never 1 ("discrepancies").
     """
     try:
-        main.main(args=argv, prog_name="truss-verify")
-        code: Any = 0
+        returned = main.main(args=argv, prog_name="truss-verify", standalone_mode=False)
+        code: Any = returned if isinstance(returned, int) else 0  # --help and --version end here
     except SystemExit as exc:
         code = exc.code
-    from click.utils import PacifyFlushWrapper
-
-    if isinstance(sys.stdout, PacifyFlushWrapper):
-        # click met a closed pipe (`| head`) and exits 1, which here means "discrepancies":
-        # report what a shell reports for a reader that went away instead, 128 + SIGPIPE.
-        code = 141
+    except click.exceptions.Abort:  # Ctrl-C or end of input
+        sys.stderr.write("Interrupted.\n")
+        code = EXIT_INTERRUPTED
+    except click.ClickException as exc:  # a usage error: click's own message, status 2
+        exc.show()
+        code = exc.exit_code
+    except OSError as exc:  # the output cannot be written (a full disk, a closed terminal)
+        sys.stderr.write(f"truss-verify: cannot write the output ({exc.strerror or exc})\n")
+        code = EXIT_PIPE_CLOSED if exc.errno == errno.EPIPE else EXIT_BAD_INPUT
+    except Exception:  # noqa: BLE001 - a fault in the tool: say so plainly, keep the trace for the report
+        sys.stderr.write("truss-verify: internal error (a fault in the tool, not in your input); please report it "
+                         "with the command and input files:\n" + traceback.format_exc())
+        code = EXIT_INTERNAL
+    pacified = cast(type, getattr(click.utils, "PacifyFlushWrapper", type(None)))
+    if isinstance(sys.stdout, pacified):
+        # click met a closed pipe and chose status 1, which here means "discrepancies".
+        code = EXIT_PIPE_CLOSED
     if code is None:
         code = 0
     elif not isinstance(code, int):

@@ -67,6 +67,15 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
         model.load_matrix()
         solve_reactions(model)  # both routes use these: computed once, before the fork
         child = _Child.start(solve_sections, model)
+    try:
+        return _routes(model, child, sections=sections, assume_equal_EA=assume_equal_EA, displacements=displacements)
+    finally:
+        if child is not None:
+            child.cancel()  # an error or an interruption on the way: no child or frozen heap left behind
+
+
+def _routes(model: Model, child: _Child | None, *, sections: bool, assume_equal_EA: float | None,
+            displacements: bool) -> Analysis:
     stability = solve_stability(model)
     notes: list[str] = []
     if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:

@@ -37,7 +37,7 @@ from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.model import Model
-from verify.units import Dimension, factor, lookup_unit
+from verify.units import Dimension, Unit, accepted, factor, lookup_unit
 
 
 class SignMode(StrEnum):
@@ -260,10 +260,11 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     mapping.update(remap)
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
 
-    # Columns in different units: a column that states no unit, beside columns whose values read
-    # in another scale, is read in its own scale (one finding per column, not one per member).
+    # Columns read differently from the rest of the table (one column in N beside kN columns, or
+    # written with the opposite sign): each is brought to the table's common reading and said once
+    # per column, instead of one unit-scale or sign-flip finding per member (or false swaps).
     if comparable and ref is not None and len(columns) > 1:
-        column_fit: dict[str, tuple[float, Fit, Fit]] = {}
+        column_fit: dict[str, tuple[int, float, Fit, Fit, np.ndarray]] = {}
         for column in columns:
             target = mapping.get(column)
             idx = np.array([i for i, v in member_claims if v.column == column], dtype=np.int64)
@@ -274,22 +275,43 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             atol_arr = np.full(len(idx), tol.atol_fraction * (scale_of[target] or 1.0))
             best, identity = best_fit(raw[idx] * conv[idx], fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx])
             if best.informative >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree:
-                column_fit[column] = (best.factor, best, identity)
+                column_fit[column] = (best.sign, best.factor, best, identity, idx)
             elif identity.share >= MIN_SHARE:
-                column_fit[column] = (1.0, identity, identity)
-        if len({round(f, 9) for f, _, _ in column_fit.values()}) > 1:
-            for column, (col_factor, best, identity) in column_fit.items():
-                unitless = all(claims.values[i].unit is None for i, v in member_claims if v.column == column)
-                if col_factor == 1.0 or not unitless or option_unit is not None:
+                column_fit[column] = (1, 1.0, identity, identity, idx)
+        weight: dict[tuple[int, float], int] = {}
+        for col_sign, col_factor, best, _, _ in column_fit.values():
+            key = (col_sign, round(col_factor, 9))
+            weight[key] = weight.get(key, 0) + best.informative
+        if len(weight) > 1:
+            common = max(weight, key=lambda key: (weight[key], key == (1, 1.0)))
+            for column, (col_sign, col_factor, best, identity, idx) in column_fit.items():
+                rel_sign, rel_factor = col_sign * common[0], col_factor / common[1]
+                if rel_sign == 1 and abs(rel_factor - 1.0) < 1e-9:
                     continue
-                picked = np.array([claims.values[i].column == column for i in range(len(claims.values))])
-                conv[picked] *= col_factor
-                rounding_unit[picked] *= col_factor
-                column_readings.append(f"column '{column}' read {describe_factor(col_factor)}")
-                findings.append(Finding("unit-scale", (), f"claims column '{column}' states no unit, and its values are off by a unit "
-                                        f"factor {describe_factor(col_factor)} against the other columns: {best.agree} of "
-                                        f"{best.informative} members agree once scaled ({identity.agree} as written), so it is "
-                                        "read that way", Severity.INFO, case=mapping.get(column)))
+                in_column = np.array([v.column == column for v in claims.values], dtype=bool)
+                stated = {claims.values[i].unit for i in idx}
+                told = (f"its header states {', '.join(sorted(str(u) for u in stated))}" if stated != {None}
+                        else "it states no unit")
+                if abs(rel_factor - 1.0) >= 1e-9:
+                    conv[in_column] *= rel_factor
+                    rounding_unit[in_column] *= rel_factor
+                    in_unit = _force_unit_with_factor(float(col_factor * np.median(conv[idx] / rel_factor)), case_unit)
+                    reading = (f"in {in_unit}" if in_unit else describe_factor(col_factor)) + \
+                        f" (x{fmt(rel_factor, 6)} against the rest of the table)"
+                    column_readings.append(f"column '{column}' read {reading}")
+                    findings.append(Finding("unit-scale", (), f"claims column '{column}' reads {reading}, and {told}: "
+                                            f"{best.agree} of {best.informative} members agree when it is read so "
+                                            f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
+                                            Severity.ERROR, case=mapping.get(column)))
+                if rel_sign == -1:
+                    flipped = in_column & ~fixed_all & np.array([v.member is not None for v in claims.values], dtype=bool)
+                    conv[flipped] *= -1.0  # T/C marks and reactions keep their own sign
+                    column_readings.append(f"column '{column}' read with its signs reversed")
+                    findings.append(Finding("table-sign-convention", (), f"claims column '{column}' is written with the "
+                                            "opposite sign convention to the rest of the table: "
+                                            f"{best.agree} of {best.informative} members agree with every sign in it reversed "
+                                            f"({identity.agree} as written); it is read reversed: confirm which convention "
+                                            "each column uses", Severity.ERROR, case=mapping.get(column)))
 
     # Table convention.
     sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
@@ -476,8 +498,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
                                 f"calculated); its {len(items)} claim(s) on loaded members are marked value-mismatch",
                                 Severity.ERROR, case=name))
-    # A column whose claims are, nearly all, another combination of the load cases (a different
-    # load or combination factor): one finding that names the combination the claims follow.
+    # A column whose claims, nearly all, follow another combination of the load cases (a different
+    # load or combination factor): one finding that names the combination the claims follow; the
+    # claims that do not follow it keep their own findings.
     if not indeterminate and ref is not None:
         for name, items in by_case.items():
             pending = [item for item in items if item[0] not in explained]
@@ -485,12 +508,17 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             fit = _combination_fit(model, ref, rows, name, failing, tol, scale_of.get(name, 0.0))
             if fit is None:
                 continue
-            fitted, defined, agree, n = fit
-            explained.update(item[0] for item in pending)
-            findings.append(Finding("case-mismatch", tuple(item[1].member for item in pending),  # type: ignore[misc]
-                                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with it), "
-                                    f"not {defined} as the case file defines '{name}': a different load or combination factor? "
-                                    f"Its {len(pending)} differing claim(s) are marked value-mismatch", Severity.ERROR, case=name))
+            fitted, defined, agree, n, follows = fit
+            covered = [item for item in pending if model.member_index[item[1].member] in follows]  # type: ignore[index]
+            explained.update(item[0] for item in covered)
+            if name in {c.name for c in model.combinations}:
+                what = f"not {defined} as the case file combines '{name}': a different combination factor?"
+            else:
+                what = f"not the loads of '{name}' in the case file: a different load value or load factor?"
+            findings.append(Finding("case-mismatch", tuple(item[1].member for item in covered),  # type: ignore[misc]
+                                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with "
+                                    f"it), {what} Its {len(covered)} claim(s) that follow it are marked value-mismatch",
+                                    Severity.ERROR, case=name))
     if indeterminate:
         # Indeterminate: differences are judged by equilibrium, not member by member.
         findings.extend(_explain_indeterminate(analysis, rows, diffs, claimed_matrix, reaction_claims, load_names, tol,
@@ -597,14 +625,26 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                   checked_members, tuple(imbalances), tuple(notes))
 
 
+def _force_unit_with_factor(scale: float, to_unit: Unit) -> str | None:
+    """The force unit whose values times `scale` are in `to_unit` (N for 0.001 into kN), if one is."""
+    for symbol in accepted(Dimension.FORCE):
+        unit = lookup_unit(symbol, Dimension.FORCE)
+        if abs(factor(unit, to_unit) - scale) <= 1e-9 * scale:
+            return unit.symbol
+    return None
+
+
 def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str, failing: set[int], tol: Tolerance,
-                     scale: float) -> tuple[str, str, int, int] | None:
-    """(fitted combination, defined combination, members agreeing, members claimed) when several
-    claims of load column `name` fail (member positions `failing`) and nearly all claims, the
-    failing ones included, follow one other combination of the load cases.
+                     scale: float) -> tuple[str, str, int, int, set[int]] | None:
+    """(fitted combination, defined combination, members agreeing, members claimed, failing members
+    that follow the fit) when several claims of load column `name` fail (member positions
+    `failing`) and nearly all claims follow one other combination of the load cases.
 
     The factors come from a least-squares fit of the claims on the load cases' recomputed forces
-    (superposition: a combination's forces are the factored sum of its cases' forces).
+    (superposition: a combination's forces are the factored sum of its cases' forces), refitted
+    once without the claims that miss the first fit, so one unrelated error does not spoil it.
+    A fit that is the defined combination times -1 or a unit factor is left to the sign and unit
+    diagnoses, which say it better.
     """
     n_cases = len(model.cases)
     claimed = [(model.member_index[r.id], r.claimed) for r in rows
@@ -622,35 +662,47 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
     else:
         for case, factor in model.combinations[k - n_cases].factors.items():
             defined[names.index(case)] = factor
+    atol = tol.atol_fraction * (scale or 1.0)
 
     def words(coefficients: np.ndarray) -> str:
         big = float(np.abs(coefficients).max()) or 1.0
         terms = [f"{fmt(float(c), 3)} × {n}" for c, n in zip(coefficients, names, strict=True) if abs(c) > 1e-3 * big]
         return " + ".join(terms).replace("+ -", "- ") or "0"
 
+    def agreeing(fitted: np.ndarray) -> np.ndarray:
+        return np.abs(y - fitted) <= np.maximum(tol.rtol * np.maximum(np.abs(y), np.abs(fitted)), atol)
+
     singular = np.linalg.svd(basis, compute_uv=False)
-    if int((singular > 1e-9 * singular.max()).sum()) == n_cases:
-        factors = np.linalg.lstsq(basis, y, rcond=None)[0]
-        fitted = basis @ factors
-        if np.allclose(factors, defined, rtol=tol.rtol, atol=1e-3 * max(float(np.abs(defined).max()), 1e-12)):
-            return None  # the defined combination already: the misfit lies elsewhere
-        text = words(factors)
-    else:
-        # Load cases with proportional forces (the same pattern of loads): the claims cannot tell
-        # the cases apart, only how much of the defined combination they hold.
-        named = basis @ defined
-        alpha = float(named @ y) / float(named @ named) if named @ named else 0.0
-        fitted = alpha * named
-        if abs(alpha - 1.0) <= tol.rtol or alpha <= 0:
+    independent = int((singular > 1e-9 * singular.max()).sum()) == n_cases if singular.size else False
+    named = basis @ defined
+    keep = np.ones(len(y), dtype=bool)
+    for _ in range(max(2, len(y) // 10)):  # fit; drop the worst misfit and refit, a tenth of the claims at most
+        if keep.sum() < 2 * n_cases + 2:
             return None
-        text = f"{fmt(alpha, 3)} × ({words(defined)})"
-    atol = tol.atol_fraction * (scale or 1.0)
-    fits = np.abs(y - fitted) <= np.maximum(tol.rtol * np.maximum(np.abs(y), np.abs(fitted)), atol)
-    agree = int(fits.sum())
-    explained = int(fits[np.isin(pos, list(failing))].sum())
-    if agree < 0.9 * len(claimed) or explained < 0.9 * len(failing):
+        if independent:
+            factors = np.linalg.lstsq(basis[keep], y[keep], rcond=None)[0]
+            fitted = basis @ factors
+        else:
+            # Load cases with proportional forces (the same pattern of loads): the claims cannot
+            # tell the cases apart, only how much of the defined combination they hold.
+            nk = named[keep]
+            alpha = float(nk @ y[keep]) / float(nk @ nk) if nk @ nk else 0.0
+            factors = alpha * defined
+            fitted = alpha * named
+        if agreeing(fitted).sum() >= 0.9 * len(y):
+            break
+        # The largest residual of a least-squares fit marks the claim that pulls it most.
+        keep[int(np.argmax(np.where(keep, np.abs(y - fitted), -1.0)))] = False
+    ratio = float(factors @ defined) / float(defined @ defined)
+    if np.allclose(factors, ratio * defined, rtol=tol.rtol, atol=1e-3 * float(np.abs(defined).max())):
+        if abs(abs(ratio) - 1.0) <= tol.rtol or matching_factor(ratio, tol.rtol) is not None:
+            return None  # the defined combination itself, reversed or in another unit: said elsewhere
+    fits = agreeing(fitted)
+    follows = {int(p) for p, ok in zip(pos, fits, strict=True) if ok and int(p) in failing}
+    if fits.sum() < 0.9 * len(y) or len(follows) < MIN_MEMBERS_FOR_TABLE:
         return None
-    return text, words(defined), agree, len(claimed)
+    text = words(factors) if independent else f"{fmt(ratio, 3)} × ({words(defined)})"
+    return text, words(defined), int(fits.sum()), len(y), follows
 
 
 def _with_status(row: Row, status: str) -> Row:

@@ -255,14 +255,18 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
         if where == ("joints",):
             ctx.joints_unreadable = True
         return
+    rows = 0
     for row in reader:
         line = reader.line_num
         if not row or all(not c.strip() for c in row):
             continue
+        rows += 1
         if len(row) != len(header):
             ctx.problems.problems.append(Problem(str(path), f"row has {len(row)} fields, the header has {len(header)}", line))
             continue
         yield str(path), line, {h: c.strip() for h, c in zip(header, row, strict=True)}
+    if not rows:
+        ctx.problems.problems.append(Problem(str(path), f"the table has a header ({', '.join(header)}) but no rows", 1))
 
 
 _PADDING = (" ,", ", ", " \n", "\n ", " \r", "\t")
@@ -291,10 +295,14 @@ def _clean_frame(base: Path, name: str, required: tuple[str, ...], numeric: tupl
     frame.columns = [str(c).strip().lower() for c in frame.columns]
     if any(r not in frame.columns for r in required) or frame.columns.duplicated().any():
         return None
+    if not isinstance(frame.index, pd.RangeIndex) or len(frame.columns) != len(header):
+        return None  # rows longer than the header: pandas would take a column as the index
     if len(text.splitlines()) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
-    if text.startswith((" ", "\t")) or text.endswith((" ", "\t")) or any(p in text for p in _PADDING):
-        # A padded cell somewhere (rare): strip the text columns; numbers are read either way.
+    if (text.startswith((" ", "\t")) or text.endswith((" ", "\t")) or any(p in text for p in _PADDING)
+            or '"' in text or not text.isascii()):
+        # A padded cell somewhere (rare; inside quotes, or a no-break space from a spreadsheet):
+        # strip the text columns as the careful reader does; numbers are read either way.
         for column in frame.columns:
             if column not in numeric:
                 frame[column] = frame[column].str.strip()
@@ -335,6 +343,7 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         if fast is not None:
             return fast
         seen: dict[str, int] = {}
+        said = len(ctx.problems.problems)
         for file, line, row in _csv_rows(ctx, base, table, ("joints",), ("id", "x", "y")):
             jid = row["id"]
             if not jid:
@@ -350,8 +359,8 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
             coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line) for a in axes]
             if all(c is not None for c in coords):
                 joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
-        if not joints:  # nothing usable in the table: its own problems say why; spare the echoes
-            ctx.joints_unreadable = True
+        if not joints and len(ctx.problems.problems) > said:
+            ctx.joints_unreadable = True  # nothing usable, and the table's own problems say why: spare the echoes
         return joints
     if not isinstance(table, dict):
         ctx.add("[joints] must be a table (id = [x, y]) or the name of a CSV file", "joints")
