@@ -268,3 +268,34 @@ def test_output_cut_short_by_the_reader_is_not_discrepancies(tmp_path):
                               shell=True, executable="/bin/bash", capture_output=True, text=True, cwd=ROOT, timeout=120)
     assert pipeline.stdout.startswith("Truss:")
     assert pipeline.returncode == 141 and "Traceback" not in pipeline.stderr
+
+
+def _entry(code: str) -> subprocess.CompletedProcess[str]:
+    """Run the console entry in a fresh interpreter after `code` (which may patch the pipeline)."""
+    script = f"import verify.cli as cli\n{code}\ncli.run(['solve', {str(FOOTBRIDGE)!r}])\n"
+    return subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, cwd=ROOT, timeout=120)
+
+
+@pytest.mark.parametrize(
+    ("patch", "status", "says"),
+    [
+        ("def stop(*a, **k):\n    raise KeyboardInterrupt\ncli.analyse = stop", 130, "Interrupted."),
+        ("def fault(*a, **k):\n    raise ZeroDivisionError('planted')\ncli.analyse = fault", 70, "internal error"),
+    ],
+    ids=["interrupted", "fault in the tool"],
+)
+def test_console_entry_status_is_never_1_for_what_is_not_a_discrepancy(patch, status, says):
+    """1 means discrepancies: an interruption (130, as shells report Ctrl-C) and a fault in the
+    tool (70, EX_SOFTWARE) get their own statuses and a plain sentence."""
+    result = _entry(patch)
+    assert result.returncode == status and says in result.stderr
+
+
+def test_console_entry_on_a_full_output_says_so():
+    if not Path("/dev/full").exists():
+        pytest.skip("needs /dev/full")
+    with open("/dev/full", "w") as full:
+        result = subprocess.run([sys.executable, "-m", "verify", "solve", str(FOOTBRIDGE)], stdout=full,
+                                stderr=subprocess.PIPE, text=True, cwd=ROOT, timeout=120)
+    assert result.returncode == 2 and "cannot write the output (No space left on device)" in result.stderr
+    assert "Traceback" not in result.stderr
