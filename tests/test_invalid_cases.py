@@ -132,7 +132,7 @@ TOML_CASES = [
      [("member 'BC': A and E need [units] area", 14)]),
     ("area-without-units-said-once", variant({14: 'BC = { ends = ["B", "C"], A = 5.0, E = 3.0 }',
                                               15: 'CD = { ends = ["C", "D"], A = 5.0, E = 3.0 }'}),
-     [("member 'BC': A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\"); 1 more give A and E", 14)]),
+     [("member 'BC': A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\"); 1 more member gives A and E", 14)]),
     ("ea-and-a-e-both", variant({14: 'BC = { ends = ["B", "C"], EA = 5.0, A = 5.0, E = 3.0 }'}),
      [("member 'BC': give EA, or A and E, not both", 14)]),
     ("stiffness-ea-and-a-e-both", variant(append="\n[stiffness]\nEA = 5.0\nE = 3.0\n"),

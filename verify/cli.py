@@ -236,7 +236,7 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         return EXIT_BAD_INPUT
     if csv_path and not csv_path.lower().endswith((".csv", ".txt")):
         # (and so can never be the --report file, which ends in .html or .md)
-        click.echo(f"--csv: '{csv_path}' must end in .csv (the file is comma-separated text, not a workbook)", err=True)
+        click.echo(f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, not a workbook)", err=True)
         return EXIT_BAD_INPUT
     if rtol <= 0 or rtol >= 1 or atol_fraction < 0 or atol_fraction >= 1:
         click.echo("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", err=True)

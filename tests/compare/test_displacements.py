@@ -86,7 +86,7 @@ def test_deflection_without_a_unit_is_refused(tmp_path):
     result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
                                        "--displacements", str(tmp_path / "d.csv")])
     assert result.exit_code == 2
-    assert "d.csv row 2: 2 value(s) have no length unit (row(s) 2, 3)" in result.stderr
+    assert "d.csv row 2: the values on rows 2, 3 have no length unit" in result.stderr
     assert "Traceback" not in result.stderr
 
 

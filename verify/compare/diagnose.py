@@ -489,14 +489,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     for name, items in by_case.items():
         if indeterminate or len(items) < MIN_MEMBERS_FOR_TABLE:
             continue
-        if any(row.claimed != 0 for row in rows if row.kind == "member" and row.case == name):
+        if any(row.claimed is not None and row.claimed != 0 for row in rows if row.kind == "member" and row.case == name):
             continue
         largest = max(abs(item[3]) for item in items)
         explained.update(item[0] for item in items)
         findings.append(Finding("value-mismatch", tuple(item[1].member for item in items),  # type: ignore[misc]
                                 f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
-                                f"calculated); its {len(items)} claim(s) on loaded members are marked value-mismatch",
+                                f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
                                 Severity.ERROR, case=name))
     # A column whose claims, nearly all, follow another combination of the load cases (a different
     # load or combination factor): one finding that names the combination the claims follow; the
@@ -554,7 +554,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
         findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
-                                f"{case_unit.symbol} (difference {value - computed:+.4g}, {pct:.1f} %; allowed {allowed:.3g})" + written_at,
+                                f"{case_unit.symbol} (difference {'+' if value >= computed else '-'}{fmt(abs(value - computed))}, {pct:.1f} %; allowed {fmt(allowed, 3)})" + written_at,
                                 Severity.ERROR, case=name))
 
 
@@ -611,7 +611,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         if unexplained or ref is None or stab.classification is Classification.UNSTABLE:
             listed = unexplained or list(imbalances)
             worst = sorted(listed, key=lambda b: -b.size)[:8]
-            text = "; ".join(f"joint {b.joint} in '{b.case}' is out of balance by {b.size:.3g} {case_unit.symbol}" for b in worst)
+            text = "; ".join(f"joint {b.joint} in '{b.case}' is out of balance by {fmt(b.size, 3)} {case_unit.symbol}" for b in worst)
             findings.append(Finding("equilibrium-residual", tuple(sorted({m for b in listed for m in b.members}))[:40],
                                     f"the claimed forces stop balancing at {len(listed)} joint(s): {text}", Severity.ERROR))
     checked_members = len({mid for mid, _ in seen_pairs})
@@ -775,7 +775,7 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             where = ", ".join(b.joint for b in unbalanced[:8])
             out.append(Finding("equilibrium-residual", tuple(sorted({m for b in unbalanced for m in b.members}))[:40],
                                f"in '{name}' the claimed forces do not balance at joint(s) {where} "
-                               f"(largest out-of-balance {max(b.size for b in unbalanced):.3g} {unit}); this is an error whatever "
+                               f"(largest out-of-balance {fmt(max(b.size for b in unbalanced), 3)} {unit}); this is an error whatever "
                                "the member stiffnesses", Severity.ERROR, case=name))
         for mid, e in blamed.items():
             m = model.member_index[mid]
@@ -812,7 +812,7 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             caveat = (f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)" if unchecked else "")
             rest_text = "apart from the member(s) named above, " if blamed else ""
             out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution (up to "
-                               f"{size:.3g} {unit}); {rest_text}the difference is a state of self-stress: the claims satisfy "
+                               f"{fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: the claims satisfy "
                                "equilibrium, but they assume member stiffnesses other than the EA given (e.g. tension-only "
                                f"bracing), an erection sequence or a lack of fit{caveat}", Severity.ERROR, case=name))
     return out

@@ -154,7 +154,7 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     if ctx.needs_area_units:
         (what, path), more = ctx.needs_area_units[0], len(ctx.needs_area_units) - 1
         ctx.add(f"{what}: A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\")"
-                + (f"; {more} more give A and E" if more else ""), *path)
+                + (f"; {more} more member{'s give' if more > 1 else ' gives'} A and E" if more else ""), *path)
     reactions = _read_supports(ctx, data.get("supports"), base, joint_ids, dim)
     cases = _read_loads(ctx, data.get("loads"), base, joint_ids, dim)
     combos = _read_combinations(ctx, data.get("combinations"), [c.name for c in cases])

@@ -145,7 +145,8 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
         out.append(ClaimedDisplacement(joint, axis, case, sign * value * scale, raw, where))
     if unitless:
         rows_text = ", ".join(str(n) for n in unitless[:10]) + (" ..." if len(unitless) > 10 else "")
-        problems.add(f"{len(unitless)} value(s) have no length unit (row(s) {rows_text}); put the unit in the header, "
+        problems.add(f"the value{'s' if len(unitless) > 1 else ''} on row{'s' if len(unitless) > 1 else ''} {rows_text} "
+                     f"{'have' if len(unitless) > 1 else 'has'} no length unit; put the unit in the header, "
                      f"e.g. '{header[value_col].strip() or 'deflection'} (mm)', or in each cell, e.g. '15.5 mm'",
                      where=f"row {unitless[0]}")
     problems.raise_if_any()
