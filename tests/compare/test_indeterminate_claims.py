@@ -86,6 +86,6 @@ def test_several_wrong_members_are_never_said_to_explain_it_alone(seed, panels, 
     claims["W"][second] -= 0.45 * scale
     review = compare_claims(analysis, table(claims))
     named = [f for f in review.findings if f.kind in ("value-mismatch", "unit-scale", "sign-flip")]
-    if len(named) > 1:
-        assert not any("all other claims kept" in f.detail for f in named)
-        assert all("no single member explains" in f.detail for f in named if f.kind == "value-mismatch")
+    assume(len(named) > 1)  # (both corruptions inside one self-stress loop can balance out)
+    assert not any("all other claims kept" in f.detail for f in named)
+    assert all("no single member explains" in f.detail for f in named if f.kind == "value-mismatch")
