@@ -299,3 +299,16 @@ def test_console_entry_on_a_full_output_says_so():
                                 stderr=subprocess.PIPE, text=True, cwd=ROOT, timeout=120)
     assert result.returncode == 2 and "cannot write the output (No space left on device)" in result.stderr
     assert "Traceback" not in result.stderr
+
+
+def test_convention_contradicting_the_stated_sign_says_whose_it_is(tmp_path):
+    """The roof table writes compression positive; declared tension-positive, the header line and
+    the report must not present the data's convention as the one stated."""
+    roof = ROOT / "cases" / "mezzanine-roof"
+    report = tmp_path / "review.md"
+    code, out, _ = run("check", roof, "--claims", roof / "claims.xlsx", "--sheet", "Member forces",
+                       "--sign", "tension-positive", "--report", report)
+    assert code == 1
+    assert "Convention: compression-positive (the data's: --sign said tension-positive)" in out
+    assert "compression-positive (the data's: --sign said tension-positive)" in report.read_text(encoding="utf-8")
+    assert "(as stated)" not in report.read_text(encoding="utf-8")

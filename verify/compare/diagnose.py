@@ -62,11 +62,19 @@ class Convention:
     support: str  # how strongly the data support the convention, in words
     scale_reason: str = ""  # the unit slip the scale undoes, when the data showed one
     column_readings: tuple[str, ...] = ()  # unitless columns read in their own scale, in words
+    stated_sign: str = ""  # the convention the reviewer declared (--sign), "" when left to the data
+
+    @property
+    def sign_words(self) -> str:
+        """The convention used, and where it came from."""
+        if self.stated_sign and self.stated_sign != self.sign:
+            return f"{self.sign} (the data's: --sign said {self.stated_sign})"
+        return f"{self.sign} ({'inferred from the data' if self.inferred or not self.stated_sign else 'as stated'})"
 
     def as_dict(self) -> dict[str, Any]:
         return {"sign": self.sign, "scale": self.scale, "inferred": self.inferred, "unit": self.unit,
                 "unit_source": self.unit_source, "scale_reason": self.scale_reason, "support": self.support,
-                "column_readings": list(self.column_readings)}
+                "column_readings": list(self.column_readings), "stated_sign": self.stated_sign or None}
 
 
 class Row(NamedTuple):
@@ -368,6 +376,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         scale_reason="" if scale_fit == 1.0 else describe_factor(scale_fit),
         support=support,
         column_readings=tuple(column_readings),
+        stated_sign="" if sign is SignMode.AUTO else sign.value,
     )
 
     # Per-claim rows.

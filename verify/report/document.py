@@ -145,7 +145,7 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ("Claims read in", f"{c.unit} ({_unit_source(c.unit_source)})" + "".join(f"; {r}" for r in c.column_readings)),
         (
             "Sign convention of the claims",
-            f"{c.sign} ({'inferred from the data' if c.inferred else 'as stated'}); {c.support}",
+            f"{c.sign_words}; {c.support}",
         ),
         (
             "Tolerance",

@@ -34,7 +34,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
                  + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else ""))
     source = {"table": "stated in the table", "option": "stated with --unit", "assumed": "not stated; the case's unit assumed"}.get(c.unit_source, c.unit_source)
     scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(f"; {r}" for r in c.column_readings)
-    lines.append(f"Convention: {c.sign}{' (inferred from the data)' if c.inferred else ''}; claims in {c.unit} ({source}{scaled}); {c.support}")
+    lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); {c.support}")
     lines.append(f"Tolerance: {review.tolerance.rtol:.2%} relative, {review.tolerance.atol_fraction:g} x largest force absolute, "
                  "half a unit in the last written decimal")
     s = review.analysis.stability
