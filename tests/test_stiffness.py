@@ -327,16 +327,23 @@ def test_virtual_work_rejects_unknown_joint_and_zero_direction() -> None:
 
 
 def test_virtual_work_on_indeterminate_square_uses_admissible_set() -> None:
-    """Reduced-structure theorem (common practice): min-norm n reproduces u_D = (1+sqrt2) P a/EA (REFERENCES 3.6)."""
+    """Reduced-structure theorem (common practice): n on the square with one redundant released
+    reproduces u_D = (1+sqrt2) P a/EA (REFERENCES 3.6); s = 1, so exactly one member is released
+    (n = 0), and it is a diagonal (the longest members are released first, as by hand)."""
     a, EA = 1.5, 4.0e3
     case = square_case(a, {"P": {"D": [1.0, 0.0]}})
     case["stiffness"] = {"EA": EA}
     model = make_model(case)
     N = np.array(SQUARE_TABLE["P at D, +x"])
     calc = unit_load_deflection(model, N, "D", [1.0, 0.0])
-    assert calc.unit_load_route == "minimum-norm admissible set"
+    assert calc.unit_load_route == "statics on the truss with its redundants released"
     assert calc.deflection == pytest.approx((1 + r2) * a / EA, rel=RTOL)
-    assert "minimum-norm" in render_virtual_work(calc, model)
+    text = render_virtual_work(calc, model)
+    released = text.split("redundants released for the unit load: ", 1)[1].split(" (their n = 0)")[0].split(", ")
+    assert len(released) == 1
+    diagonal = next(m for m in model.members if m.id == released[0])
+    assert model.lengths[model.member_index[diagonal.id]] == pytest.approx(a * r2, rel=RTOL)
+    assert next(r.unit_force for r in calc.rows if r.member == diagonal.id) == 0.0
 
 
 # -- random trusses (hypothesis) ------------------------------------------------------------

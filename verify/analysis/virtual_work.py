@@ -9,10 +9,11 @@ The n forces come from statics. When the truss is statically determinate (square
 equilibrium matrix) they are the unique solution of ``A n + f_unit = 0``, found by sparse LU
 (ordering as in verify.analysis.global_solve). When the truss is indeterminate the formula still holds with *any* statically
 admissible n (the reduced-structure theorem of virtual work, common practice), provided N are the
-real, compatible forces. We use the minimum-norm solution of ``A n = -f_unit``, which treats the
-member forces and reaction components as one vector. Models up to DENSE_LIMIT joint equations use a
-dense least-squares solve (SVD). Larger ones use sparse LSQR started from zero, which converges to the
-minimum-norm solution. The calculation states which route was taken.
+real, compatible forces. Up to DENSE_LIMIT joint equations we release the redundants, as a hand calc
+does: QR with column pivoting picks independent members and reaction components, the rest get
+n = 0, and the reduced, determinate truss is solved by statics. Otherwise (larger models, or no
+such reduction) we use the minimum-norm solution of ``A n = -f_unit`` (dense least squares, or
+sparse LSQR started from zero). The calculation states which route was taken.
 Support movements are zero, so the reactions of the unit load do no work.
 """
 
@@ -92,6 +93,14 @@ def solve_unit_load(model: Model, joint: str, direction: np.ndarray) -> tuple[np
             route = "statics (determinate)"
         except RuntimeError:
             notes.append("the square equilibrium matrix is singular; the minimum-norm solution was tried")
+    if t is None and A.shape[0] < A.shape[1] <= 2 * DENSE_LIMIT:
+        t, route, released = _released_structure(model, A.toarray(), f)
+        if t is not None:
+            notes.append(
+                f"redundants released for the unit load: {', '.join(released)} (their n = 0); the rest is a "
+                "statically determinate truss, so n can be checked by hand (reduced-structure theorem: any set "
+                "in equilibrium with the unit load gives the same deflection when N is the real, compatible force set)"
+            )
     if t is None:
         route = "minimum-norm admissible set"
         if A.shape[0] <= DENSE_LIMIT:
@@ -110,6 +119,34 @@ def solve_unit_load(model: Model, joint: str, direction: np.ndarray) -> tuple[np
             f"(out-of-balance {leak:.2e}): the truss is a mechanism for that load"
         )
     return t, route, notes
+
+
+def _released_structure(model: Model, A: np.ndarray, f: np.ndarray) -> tuple[np.ndarray | None, str, list[str]]:
+    """n for the unit load on the truss with its redundants removed, as a hand calc would do it.
+
+    QR with column pivoting keeps a well-conditioned set of independent columns (members and
+    reaction components, weighted as below); the columns it leaves out are the redundants,
+    released (n = 0). Returns
+    (None, "", []) when no square, non-singular reduced system is found (a mechanism).
+    """
+    import scipy.linalg
+
+    rows, cols = A.shape
+    # Pivoting takes the largest columns first: weight the supports most and short members over
+    # long ones, so the released redundants are the long diagonals a hand calc would cut.
+    typical = float(np.median(model.lengths)) if len(model.members) else 1.0
+    weights = np.concatenate([1.0 / model.lengths, np.full(cols - len(model.members), 10.0 / typical)])
+    _, R, order = scipy.linalg.qr(A * weights, pivoting=True, mode="economic")
+    diag = np.abs(np.diag(R))
+    rank = int((diag > 1e-10 * diag.max()).sum()) if diag.size else 0
+    if rank != rows:
+        return None, "", []
+    kept = np.sort(order[:rank])
+    t = np.zeros(cols)
+    t[kept] = np.linalg.solve(A[:, kept], -f)
+    names = [m.id for m in model.members] + [f"support {r.label}" for r in model.reactions]
+    released = [names[c] for c in sorted(order[rank:])]
+    return t, "statics on the truss with its redundants released", released
 
 
 def unit_load_deflection(model: Model, forces_real: np.ndarray, joint: str, direction: Sequence[float], *,
@@ -153,6 +190,12 @@ def _fmt(x: float) -> str:
     return f"{x:.6g}"
 
 
+def _small_unit(value: float, length_unit: str) -> str:
+    """' = -2.848 mm' beside a deflection in m (or in inches beside feet): how tables write them."""
+    small = {"m": ("mm", 1000.0), "ft": ("in", 12.0), "cm": ("mm", 10.0)}.get(length_unit)
+    return f" = {_fmt(round(value * small[1], 10))} {small[0]}" if small else ""
+
+
 def render_virtual_work(calc: VirtualWorkCalc, model: Model) -> str:
     """The hand calc as plain text: one row per member, the sum and the deflection."""
     lu = model.units.length.symbol
@@ -180,7 +223,7 @@ def render_virtual_work(calc: VirtualWorkCalc, model: Model) -> str:
         line(["-" * w for w in widths]),
         line(["sum", "", "", "", "", _fmt(calc.deflection)]),
         "",
-        f"Delta = {_fmt(calc.deflection)} {lu} along {dir_text}"
+        f"Delta = {_fmt(calc.deflection)} {lu}{_small_unit(calc.deflection, lu)} along {dir_text}"
         + (" (negative: the joint moves opposite to the unit load)" if calc.deflection < 0 else ""),
     ]
     if calc.equal_EA_assumed:
