@@ -371,3 +371,14 @@ def test_claims_near_the_defined_combination_are_not_a_factor_finding():
         claims["ULS"][member] *= 1.015 if k % 2 else 0.985
     review = compare_claims(analysis, table(claims, unit="kN"))
     assert set(kinds(review)) == {"value-mismatch"} and len(kinds(review)) >= 3
+
+
+def test_claims_rounded_to_fixed_decimals_balance_within_their_rounding():
+    """Every claim rounded to whole kN, as a tidy table would (P = 1 kN, so 3.333 is written 3):
+    each member agrees within half a unit of its last decimal, and the joints, where four such
+    roundings add up, must not be called out of balance either."""
+    analysis = analyse(make_model(pratt(6, load=1.0, case="dead")))
+    rounded = {c: {m: float(round(v)) + 0.0 for m, v in ms.items()} for c, ms in true_claims(analysis).items()}
+    review = compare_claims(analysis, table(rounded, unit="kN"))
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+    assert not any(f.kind == "equilibrium-residual" for f in review.findings)

@@ -422,6 +422,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         convention_status[big] = "unit-scale"
     judged_rows = np.flatnonzero(judged)
     claimed_matrix[member_pos[judged_rows], k_of[judged_rows]] = values[judged_rows]
+    rounding_matrix = np.zeros_like(claimed_matrix)
+    rounding_matrix[member_pos[judged_rows], k_of[judged_rows]] = np.abs(rounding_unit[judged_rows] * scale_fit)
     values_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
     agree_l, status_l, judged_l = agree_all.tolist(), convention_status.tolist(), judged.tolist()
     for i, v in enumerate(claims.values):
@@ -531,7 +533,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     if indeterminate:
         # Indeterminate: differences are judged by equilibrium, not member by member.
         findings.extend(_explain_indeterminate(analysis, rows, diffs, claimed_matrix, reaction_claims, load_names, tol,
-                                               case_unit.symbol))
+                                               case_unit.symbol, rounding_matrix))
         diffs = []
     for r, v, value, computed, allowed in diffs:
         if r in explained:
@@ -602,7 +604,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                 rows.append(Row(mid, "member", name, None, "", jv, sv, g, e, None, "missing-claim"))
 
     # Equilibrium of the claims themselves.
-    imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol)
+    imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix)
     for name, count in checkable_joints(model, claimed_matrix, load_names).items():
         off = sum(1 for b in imbalances if b.case == name)
         if count == 0:
@@ -731,7 +733,7 @@ def _verdict(findings: list[Finding], classification: Classification, has_refere
 
 def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tuple[int, ClaimedValue, float, float, float]],
                            claimed: np.ndarray, reaction_claims: dict[tuple[int, int], float], load_names: list[str],
-                           tol: Tolerance, unit: str) -> list[Finding]:
+                           tol: Tolerance, unit: str, rounding: np.ndarray | None = None) -> list[Finding]:
     """Split an indeterminate truss's differences into equilibrium errors and self-stress.
 
     Claims that balance at every joint differ from the elastic solution only by a state of
@@ -742,7 +744,7 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
     """
     model = analysis.model
     out: list[Finding] = []
-    imbalances = claims_balance(model, claimed, reaction_claims, load_names, tol)
+    imbalances = claims_balance(model, claimed, reaction_claims, load_names, tol, rounding)
     d = model.dim
     for name in load_names:
         k = load_names.index(name)
