@@ -312,3 +312,32 @@ def test_convention_contradicting_the_stated_sign_says_whose_it_is(tmp_path):
     assert "Convention: compression-positive (the data's: --sign said tension-positive)" in out
     assert "compression-positive (the data's: --sign said tension-positive)" in report.read_text(encoding="utf-8")
     assert "(as stated)" not in report.read_text(encoding="utf-8")
+
+
+def _gantry_without_stiffness(tmp_path: Path) -> Path:
+    gantry = ROOT / "cases" / "conveyor-gantry"
+    text = re.sub(r"\{ ends = (\[[^\]]*\]), A = [0-9.]+, E = [0-9.]+ \}", r"\1", (gantry / "case.toml").read_text())
+    case = tmp_path / "case.toml"
+    case.write_text("\n".join(line for line in text.splitlines()
+                              if not line.startswith(("area", "modulus", "[stiffness]", "A =", "E ="))) + "\n")
+    return case
+
+
+def test_assumed_equal_ea_never_turns_a_stiffness_difference_into_an_error(tmp_path):
+    """Claims that are the elastic forces for the real bracing sizes balance at every joint; checked
+    against an assumed equal EA they differ by a self-stress only: information, verdict agrees,
+    and the headline says the EA was assumed. (Truth: the bundled gantry's own stiffness solve,
+    itself checked against the force method and Timoshenko's three-bar truss in test_stiffness.)"""
+    from verify.api import solve as api_solve
+
+    real = api_solve(str(ROOT / "cases" / "conveyor-gantry" / "case.toml")).forces
+    claims = tmp_path / "claims.csv"
+    real.rename_axis("member").reset_index()[["member", "belt", "walkway"]].to_csv(claims, index=False)
+    case = _gantry_without_stiffness(tmp_path)
+    code, out, err = run("check", case, "--claims", claims, "--assume-equal-ea", "4.54e5")
+    assert code == 0, out + err
+    first = out.splitlines()[0]
+    assert first.startswith("AGREES — the claims balance at every joint") and "EQUAL EA ASSUMED (454000)" in first
+    assert "[info] not-elastic" in out and "[error]" not in out
+    code, out, _ = run("check", case, "--claims", claims)  # no EA, nothing assumed: statics cannot decide
+    assert code == 3 and out.startswith("CANNOT VERIFY — statically indeterminate")

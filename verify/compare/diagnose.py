@@ -822,8 +822,16 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
             caveat = (f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)" if unchecked else "")
             rest_text = "apart from the member(s) named above, " if blamed else ""
-            out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution (up to "
-                               f"{fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: the claims satisfy "
-                               "equilibrium, but they assume member stiffnesses other than the EA given (e.g. tension-only "
-                               f"bracing), an erection sequence or a lack of fit{caveat}", Severity.ERROR, case=name))
+            if analysis.assumed_EA is not None:
+                # Against an assumed EA, another distribution is no evidence of an error.
+                out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
+                                   f"for the equal EA assumed (up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state "
+                                   "of self-stress: the claims satisfy equilibrium, and with the real member sizes the elastic "
+                                   f"distribution would differ too, so this is not evidence of an error{caveat}", Severity.INFO,
+                                   case=name))
+            else:
+                out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution (up to "
+                                   f"{fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: the claims satisfy "
+                                   "equilibrium, but they assume member stiffnesses other than the EA given (e.g. tension-only "
+                                   f"bracing), an erection sequence or a lack of fit{caveat}", Severity.ERROR, case=name))
     return out

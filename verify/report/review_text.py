@@ -14,7 +14,15 @@ def verdict_line(review: Review) -> str:
     errors = sum(1 for f in review.findings if f.severity is Severity.ERROR)
     model = review.analysis.model
     checked = f"{review.checked_members} of {len(model.members)} members in {len(review.checked_cases)} of {len(model.load_names)} load cases/combinations checked"
+    if review.analysis.reference is None:
+        checked = (f"{review.checked_members} of {len(model.members)} members claimed; no forces recomputed, "
+                   "so only the equilibrium of the claims was checked")
+    if review.analysis.assumed_EA is not None:
+        checked += f"; EQUAL EA ASSUMED ({review.analysis.assumed_EA:g})"
     if review.verdict.value == "agrees":
+        if any(f.kind == "not-elastic" for f in review.findings):
+            return (f"AGREES — the claims balance at every joint; where they differ from the elastic solution the "
+                    f"difference is a state of self-stress ({checked})")
         return f"AGREES — every claim checked agrees within tolerance ({checked})"
     if review.verdict.value == "discrepancies":
         return f"DISCREPANCIES — {errors} finding(s) need attention ({checked})"
