@@ -14,7 +14,7 @@ from trussgen import make_model, pratt, truss_case
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import SignMode, Verdict, compare_claims
 from verify.compare.findings import Severity
-from verify.io.claims import ClaimsTable
+from verify.io.claims import ClaimedValue, ClaimsTable
 
 P = 10.0  # kN per bottom panel point
 
@@ -382,3 +382,28 @@ def test_claims_rounded_to_fixed_decimals_balance_within_their_rounding():
     review = compare_claims(analysis, table(rounded, unit="kN"))
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
     assert not any(f.kind == "equilibrium-residual" for f in review.findings)
+
+
+def test_wrong_factor_found_when_some_load_cases_are_proportional():
+    """Dead and live load the same joints (their forces are proportional, so no fit can tell them
+    apart); uplift loads the top joints. ULS = 1.0 dead + 1.5 uplift claimed with 1.6: the fit
+    uses the combination's own independent cases and names the factor."""
+    case = pratt(6, load=P, case="dead")
+    case["loads"]["live"] = {j: [0.0, -2 * P] for j in case["loads"]["dead"]}
+    case["loads"]["uplift"] = {j: [0.0, 2.0] for j in case["joints"] if j.startswith("U")}
+    case["combinations"] = {"ULS": {"dead": 1.0, "uplift": 1.5}}
+    analysis = analyse(make_model(case))
+    parts = true_claims(analysis, ["dead", "uplift"])
+    claims = {"ULS": {m: parts["dead"][m] + 1.6 * parts["uplift"][m] for m in parts["dead"]}}
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    assert [f.kind for f in review.findings if f.case == "ULS"] == ["case-mismatch"]
+    assert "follow 1 × dead + 1.6 × uplift" in review.findings[0].detail
+
+
+def test_one_wrong_reaction_is_one_finding(pratt_analysis):
+    """A claimed reaction 20 % high: one value-mismatch, not also an imbalance at its joint."""
+    claims = table(true_claims(pratt_analysis))
+    reactions = pratt_analysis.reference.reaction_vectors(pratt_analysis.model, "dead")
+    wrong = ClaimedValue("R_L0_y", None, ("L0", "y"), "dead", 1.2 * reactions["L0"][1], False, None, "row 99, column 'dead'")
+    review = compare_claims(pratt_analysis, ClaimsTable("<memory>", None, "0" * 64, claims.values + (wrong,), (), ("dead",), None))
+    assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", ("L0.y",))]

@@ -618,7 +618,12 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             notes.append(f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints: "
                          f"{joints}{' ...' if off > len(worst) else ''}")
     if imbalances:
-        unexplained = [b for b in imbalances if not (set(b.members) & flagged.get(b.case, set()))]
+        # An imbalance is explained by a finding on one of its members or on a reaction at its joint.
+        reaction_labels: dict[str, set[str]] = {}
+        for component in model.reactions:
+            reaction_labels.setdefault(component.joint, set()).add(component.label)
+        unexplained = [b for b in imbalances
+                       if not ((set(b.members) | reaction_labels.get(b.joint, set())) & flagged.get(b.case, set()))]
         if unexplained or ref is None or stab.classification is Classification.UNSTABLE:
             listed = unexplained or list(imbalances)
             worst = sorted(listed, key=lambda b: -b.size)[:8]
@@ -660,8 +665,8 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
     n_cases = len(model.cases)
     claimed = [(model.member_index[r.id], r.claimed) for r in rows
                if r.kind == "member" and r.case == name and r.claimed is not None]
-    if len(failing) < MIN_MEMBERS_FOR_TABLE or len(claimed) < 2 * n_cases + 2:
-        return None  # too few failures to be a pattern, or too few claims to fit the factors
+    if len(failing) < MIN_MEMBERS_FOR_TABLE or len(claimed) < 4:
+        return None  # too few failures to be a pattern, or too few claims to fit any factor
     pos = np.array([p for p, _ in claimed], dtype=np.int64)
     y = np.array([c for _, c in claimed], dtype=float)
     basis = ref.member_forces[pos, :n_cases]
@@ -683,15 +688,23 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
     def agreeing(fitted: np.ndarray) -> np.ndarray:
         return np.abs(y - fitted) <= np.maximum(tol.rtol * np.maximum(np.abs(y), np.abs(fitted)), atol)
 
-    singular = np.linalg.svd(basis, compute_uv=False)
-    independent = int((singular > 1e-9 * singular.max()).sum()) == n_cases if singular.size else False
+    # Load cases whose forces are proportional (the same pattern of loads) cannot be told apart:
+    # fit on an independent set of cases, those of the defined combination first.
+    chosen: list[int] = []
+    for c in sorted(range(n_cases), key=lambda c: (defined[c] == 0, -abs(defined[c]), c)):
+        trial = basis[:, chosen + [c]]
+        singular = np.linalg.svd(trial, compute_uv=False)
+        if singular.size and singular.min() > 1e-9 * max(singular.max(), 1e-300):
+            chosen.append(c)
+    independent = all(c in chosen for c in np.flatnonzero(defined))
     named = basis @ defined
     keep = np.ones(len(y), dtype=bool)
     for _ in range(max(2, len(y) // 10)):  # fit; drop the worst misfit and refit, a tenth of the claims at most
-        if keep.sum() < 2 * n_cases + 2:
+        if keep.sum() < 2 * len(chosen) + 2:
             return None
         if independent:
-            factors = np.linalg.lstsq(basis[keep], y[keep], rcond=None)[0]
+            factors = np.zeros(n_cases)
+            factors[chosen] = np.linalg.lstsq(basis[keep][:, chosen], y[keep], rcond=None)[0]
             fitted = basis @ factors
         else:
             # Load cases with proportional forces (the same pattern of loads): the claims cannot
