@@ -779,3 +779,10 @@ def test_direct_row_reading_matches_for_excel_numbers(tmp_path: Path, monkeypatc
     assert (direct.values, direct.unmatched) == (general.values, general.unmatched)
     assert [v.where for v in direct.values][:2] == ["sheet 'Forces' cell B2, column 'dead (kN)'",
                                                     "sheet 'Forces' cell C2, column 'snow (kN)'"]
+
+
+def test_a_lone_dash_is_no_claim(tmp_path: Path) -> None:
+    """'-' or '—' where a zero-force member would be: nothing claimed there, not bad input."""
+    path = _csv(tmp_path, "Member,dead (kN),snow (kN)\nAB,1.5,—\nBC,-,2\nCD,–,\n")
+    table = read_claims(path, MODEL)
+    assert sorted((v.member, v.column) for v in table.values) == [("AB", "dead"), ("BC", "snow")]

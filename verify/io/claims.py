@@ -214,8 +214,13 @@ class _Grid:
         return text + (f", column '{column}'" if column is not None else "")
 
 
+# A lone dash in a force table means "nothing here" (often for a zero-force member); it is read
+# as no claim, never as a value, so a "not computed" dash cannot become a false error.
+DASHES = frozenset({"-", "--", "–", "—", "−"})
+
+
 def _blank(cell: Cell) -> bool:
-    return cell is None or (isinstance(cell, str) and not cell.strip())
+    return cell is None or (isinstance(cell, str) and (not cell.strip() or cell.strip() in DASHES))
 
 
 def _text(cell: Cell) -> str:
