@@ -786,3 +786,9 @@ def test_a_lone_dash_is_no_claim(tmp_path: Path) -> None:
     path = _csv(tmp_path, "Member,dead (kN),snow (kN)\nAB,1.5,—\nBC,-,2\nCD,–,\n")
     table = read_claims(path, MODEL)
     assert sorted((v.member, v.column) for v in table.values) == [("AB", "dead"), ("BC", "snow")]
+
+
+def test_each_value_keeps_its_cell_as_written(tmp_path: Path) -> None:
+    """The audit trail quotes the cell, not a re-formatted number: '4.50 T', '(12.40)', '0.270'."""
+    path = _csv(tmp_path, "Member,dead (kN)\nAB,4.50 T\nBC,(12.40)\nCD,0.270\n")
+    assert [v.text for v in read_claims(path, MODEL).values] == ["4.50 T", "(12.40)", "0.270"]

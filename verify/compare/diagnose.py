@@ -432,7 +432,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             continue
         name = mapped
         k = load_names.index(name) if not judged_l[i] else int(k_of[i])
-        as_written = f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}" if v.sign_fixed and v.value else f"{v.value:g}"
+        as_written = v.text or (f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}" if v.sign_fixed and v.value else f"{v.value:g}")
         written = f"{as_written} at {v.where}"
         if v.reaction is not None:
             joint, axis = v.reaction

@@ -120,6 +120,7 @@ class ClaimedValue(NamedTuple):
     sign_fixed: bool  # True when a T/C suffix settled the sign
     unit: str | None  # canonical unit symbol (verify.units) from the cell or header, or None
     where: str  # e.g. "row 9, column 'dead'" or "sheet 'Forces' cell C7, column 'dead'"
+    text: str = ""  # the cell exactly as written, for the audit trail ("4.50 T", "(12.4)")
 
 
 @dataclass(frozen=True)
@@ -1023,12 +1024,12 @@ class _RowReader:
                     break
                 if (member, folded) in claimed:
                     break
-                cells.append((index, case, folded, unit, header, value))
+                cells.append((index, case, folded, unit, header, value, cell))
             else:
-                for index, case, folded, unit, header, value in cells:
+                for index, case, folded, unit, header, value, cell in cells:
                     claimed[(member, folded)] = (r, label)
                     values.append(ClaimedValue(label, member, None, case, value + 0.0, False, unit,
-                                               grid.where(r, index, header)))
+                                               grid.where(r, index, header), _text(cell)))
                 continue
             self.read_row(r)
 
@@ -1181,6 +1182,7 @@ class _RowReader:
                     sign_fixed,
                     unit,
                     where,
+                    _text(cell),
                 )
             )
 
