@@ -336,7 +336,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         atol_arr = tol.atol_fraction * scale_arr[load_pos]
         best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx])
         n = best.informative
-        support = f"{identity.agree} of {n} informative claims agree as read"
+        support = f"{identity.agree} of {n} non-zero claims on members that carry force agree as read"
         table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
         if table_level and indeterminate:
             # Against an elastic solution a large self-stress can mimic a flipped or scaled table;
@@ -348,7 +348,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
-            support = f"{best.agree} of {n} informative claims agree when read this way ({identity.agree} as written)"
+            support = f"{best.agree} of {n} non-zero claims on members that carry force agree when read this way ({identity.agree} as written)"
             involved = tuple(v.member for _, v in member_claims if v.member is not None)
             severity = Severity.INFO if sign is SignMode.AUTO else Severity.ERROR
             if best.sign == -1 and not all_fixed:
