@@ -341,3 +341,17 @@ def test_assumed_equal_ea_never_turns_a_stiffness_difference_into_an_error(tmp_p
     assert "[info] not-elastic" in out and "[error]" not in out
     code, out, _ = run("check", case, "--claims", claims)  # no EA, nothing assumed: statics cannot decide
     assert code == 3 and out.startswith("CANNOT VERIFY — statically indeterminate")
+
+
+def test_json_commands_answer_bad_input_in_json_too(tmp_path):
+    """With --json, a script reading stdout gets one JSON object saying why there is no result
+    (file, line, message), besides the message on stderr and exit status 2."""
+    code, out, err = run("check", FOOTBRIDGE, "--claims", tmp_path / "missing.csv", "--json")
+    data = json.loads(out)
+    assert code == 2 and data["error"] == "bad-input" and "file not found" in err
+    assert data["problems"][0]["file"].endswith("missing.csv")
+    broken = tmp_path / "case.toml"
+    broken.write_text(FOOTBRIDGE.read_text().replace('force = "kN"', 'force = "k"'))
+    code, out, _ = run("solve", broken, "--json")
+    data = json.loads(out)
+    assert code == 2 and data["problems"][0]["line"] is not None and "'k'" in data["problems"][0]["message"]

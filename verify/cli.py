@@ -29,24 +29,34 @@ from verify.report.cautions import CAUTION
 MAX_PRINTED_CUTS = 100  # a calc sheet per cut; beyond this a print-out stops being readable
 
 
-def _fail_input(error: InputError) -> None:
-    click.echo(error.render(), err=True)
+def _say_bad_input(error: InputError | str, as_json: bool = False) -> None:
+    """The message on stderr; with --json also one JSON object on stdout, so a script reading
+    stdout sees why there is no result."""
+    click.echo(error.render() if isinstance(error, InputError) else error, err=True)
+    if as_json:
+        problems = ([{"file": p.file, "line": p.line, "where": p.where, "message": p.message} for p in error.problems]
+                    if isinstance(error, InputError) else [{"file": None, "line": None, "where": None, "message": error}])
+        click.echo(json_out.dumps({"tool": {"name": "truss-verify", "version": __version__}, "error": "bad-input",
+                                   "problems": problems}))
+
+
+def _fail_input(error: InputError | str, as_json: bool = False) -> None:
+    _say_bad_input(error, as_json)
     sys.exit(EXIT_BAD_INPUT)
 
 
-def _load(case: str) -> Model:
+def _load(case: str, as_json: bool = False) -> Model:
     from pathlib import Path
 
     if Path(case).is_dir():  # a case folder, as bundled in cases/: its case.toml
         inside = Path(case) / "case.toml"
         if not inside.is_file():
-            click.echo(f"{case}: a folder without a case.toml; name the case file", err=True)
-            sys.exit(EXIT_BAD_INPUT)
+            _fail_input(f"{case}: a folder without a case.toml; name the case file", as_json)
         case = str(inside)
     try:
         return read_case(case)
     except InputError as error:
-        _fail_input(error)
+        _fail_input(error, as_json)
         raise  # unreachable; keeps type checkers honest
 
 
@@ -82,7 +92,7 @@ def main() -> None:
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
 def stability(case: str, as_json: bool) -> None:
     """Classify CASE: Maxwell's count, rank of the equilibrium matrix, mechanisms, self-stress."""
-    model = _load(case)
+    model = _load(case, as_json)
     analysis = _stability_only(model)
     if as_json:
         click.echo(json_out.dumps(json_out.stability_json(model, analysis)))
@@ -109,7 +119,7 @@ def _stability_only(model: Model) -> Analysis:
 @click.option("--all-rows", is_flag=True, help="List every member even in very large trusses (default: the 5000 largest forces).")
 def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equal_ea: float | None, all_rows: bool) -> None:
     """Recompute every member force (tension positive, T/C) and reaction of CASE."""
-    model = _load(case)
+    model = _load(case, as_json)
     analysis = analyse(model, assume_equal_EA=assume_equal_ea)
     if load_name is not None and load_name not in model.load_names:
         from verify.errors import did_you_mean
@@ -222,35 +232,35 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
     from verify.report.atomic import OutputError, write_atomic
     from verify.report.review_text import render_review
 
-    model = _load(case)
+    model = _load(case, as_json)
     if unit != "auto":
         from verify.units import Dimension, lookup_unit
 
         try:
             lookup_unit(unit, Dimension.FORCE)
         except ValueError as exc:
-            click.echo(f"--unit: {exc}", err=True)
+            _say_bad_input(f"--unit: {exc}", as_json)
             return EXIT_BAD_INPUT
     if report and not report.lower().endswith((".html", ".htm", ".md")):
-        click.echo(f"--report: '{report}' must end in .html or .md (the report's format follows the extension)", err=True)
+        _say_bad_input(f"--report: '{report}' must end in .html or .md (the report's format follows the extension)", as_json)
         return EXIT_BAD_INPUT
     if csv_path and not csv_path.lower().endswith((".csv", ".txt")):
         # (and so can never be the --report file, which ends in .html or .md)
-        click.echo(f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, not a workbook)", err=True)
+        _say_bad_input(f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, not a workbook)", as_json)
         return EXIT_BAD_INPUT
     if rtol <= 0 or rtol >= 1 or atol_fraction < 0 or atol_fraction >= 1:
-        click.echo("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", err=True)
+        _say_bad_input("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", as_json)
         return EXIT_BAD_INPUT
     try:
         claims = read_claims(claims_path, model, sheet=sheet, member_column=member_column, case_column=case_column,
                              force_column=force_column, case=load_name)
     except InputError as error:
-        click.echo(error.render(), err=True)
+        _say_bad_input(error, as_json)
         return EXIT_BAD_INPUT
     if not claims.values and claims.unmatched:
         labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:5])
-        click.echo(f"{claims_path}: no label matches a member or reaction of {case} (e.g. {labels}); "
-                   "is this the claims table for this case?", err=True)
+        _say_bad_input(f"{claims_path}: no label matches a member or reaction of {case} (e.g. {labels}); "
+                       "is this the claims table for this case?", as_json)
         return EXIT_BAD_INPUT
     displacement_claims = None
     if displacements:
@@ -259,7 +269,7 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         try:
             displacement_claims = read_displacements(displacements, model)
         except InputError as error:
-            click.echo(error.render(), err=True)
+            _say_bad_input(error, as_json)
             return EXIT_BAD_INPUT
     analysis = analyse(model, assume_equal_EA=assume_equal_ea, displacements=displacement_claims is not None)
     tolerance = Tolerance(rtol=rtol, atol_fraction=atol_fraction)
@@ -280,7 +290,7 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
 
             write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html"), inputs=inputs)
     except (OutputError, OSError) as exc:
-        click.echo(str(exc), err=True)
+        _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
     if as_json:
         click.echo(json_out.dumps(json_out.check_json(review)))
