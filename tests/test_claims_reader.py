@@ -243,13 +243,15 @@ def test_reaction_label_matching(tmp_path: Path, label: str, reaction: tuple[str
     assert (value.member, value.reaction, value.value) == (None, reaction, -5.0)
 
 
-def test_reaction_at_an_unrestrained_direction_is_unknown(tmp_path: Path) -> None:
-    """C is a roller in y only: 'RC.x' names no reaction and is reported with real labels suggested."""
-    path = _csv(tmp_path, "Member,dead\nRC.x,1\n")
+def test_reaction_in_an_unrestrained_direction_is_read_and_elsewhere_unknown(tmp_path: Path) -> None:
+    """C is a roller in y only: 'RC.x' is read as a claim on C's x direction (the comparison says
+    C has no reaction there); B carries no support at all, so 'RB.x' names nothing and gets the
+    real reaction labels as suggestions."""
+    path = _csv(tmp_path, "Member,dead\nRC.x,0\nRB.x,1\n")
     table = read_claims(path, MODEL)
-    assert not table.values
+    assert [(v.reaction, v.value) for v in table.values] == [(("C", "x"), 0.0)]
     [unmatched] = table.unmatched
-    assert unmatched.reason == "unknown" and "C.y" in unmatched.candidates
+    assert unmatched.label == "RB.x" and unmatched.reason == "unknown" and unmatched.candidates == ("A.x",)
 
 
 def test_reaction_with_tc_suffix_is_refused(tmp_path: Path) -> None:

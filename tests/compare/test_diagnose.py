@@ -407,3 +407,15 @@ def test_one_wrong_reaction_is_one_finding(pratt_analysis):
     wrong = ClaimedValue("R_L0_y", None, ("L0", "y"), "dead", 1.2 * reactions["L0"][1], False, None, "row 99, column 'dead'")
     review = compare_claims(pratt_analysis, ClaimsTable("<memory>", None, "0" * 64, claims.values + (wrong,), (), ("dead",), None))
     assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", ("L0.y",))]
+
+
+def test_reaction_claimed_where_the_support_does_not_restrain(pratt_analysis):
+    """The roller at L6 restrains y only: a claimed L6.x of 0 agrees; 5 kN is a mismatch that
+    says why (no reaction acts along x there)."""
+    base = table(true_claims(pratt_analysis))
+    for value, status in ((0.0, "agrees"), (5.0, "value-mismatch")):
+        claim = ClaimedValue("R_L6_x", None, ("L6", "x"), "dead", value, False, None, "row 99, column 'dead'")
+        review = compare_claims(pratt_analysis, ClaimsTable("<memory>", None, "0" * 64, base.values + (claim,), (), ("dead",), None))
+        row = next(r for r in review.rows if r.id == "L6.x")
+        assert row.status == status and row.recomputed == 0.0
+    assert "does not restrain x" in next(f.detail for f in review.findings if f.members == ("L6.x",))

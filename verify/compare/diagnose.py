@@ -444,13 +444,17 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             if ref is not None and matches:
                 computed = float(ref.reactions[matches[0], k])
                 reaction_claims[(matches[0], k)] = value
+            elif ref is not None:
+                computed = 0.0  # the support does not restrain this direction: no reaction acts along it
             status = "not-verifiable" if computed is None else (
                 "agrees" if tol.agrees(value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding) else "value-mismatch")
             rows.append(Row(f"{joint}.{axis}", "reaction", name, value, written, None, None, computed, None,
                             None if computed is None else value - computed, status))
             if status == "value-mismatch" and computed is not None:
+                why = "" if matches else f": the support at {joint} does not restrain {axis}, so it has no reaction along it"
                 findings.append(Finding("value-mismatch", (f"{joint}.{axis}",), f"reaction {joint}.{axis} in '{name}': claimed "
-                                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}", Severity.ERROR, case=name))
+                                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why}", Severity.ERROR,
+                                        case=name))
             continue
         if not judged_l[i]:
             continue
