@@ -419,3 +419,15 @@ def test_reaction_claimed_where_the_support_does_not_restrain(pratt_analysis):
         row = next(r for r in review.rows if r.id == "L6.x")
         assert row.status == status and row.recomputed == 0.0
     assert "does not restrain x" in next(f.detail for f in review.findings if f.members == ("L6.x",))
+
+
+def test_rows_swapped_in_every_column_are_one_finding():
+    """Two rows of the table exchanged (every column): one swapped-labels finding naming the
+    columns, and no equilibrium finding for the joints the swap unbalances."""
+    analysis = _dead_and_wind()
+    claims = true_claims(analysis, ["dead", "wind"])
+    for column in claims.values():
+        column["L0L1"], column["L2L3"] = column["L2L3"], column["L0L1"]
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    assert [(f.kind, set(f.members)) for f in review.findings] == [("swapped-labels", {"L0L1", "L2L3"})]
+    assert "in 2 load columns ('dead', 'wind')" in review.findings[0].detail

@@ -499,6 +499,20 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                     findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
                                             f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
                                             f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
+    # The same two rows swapped in several load columns: one finding for the pair, not one per column.
+    by_pair: dict[frozenset[str], list[Finding]] = {}
+    for f in findings:
+        if f.kind == "swapped-labels":
+            by_pair.setdefault(frozenset(f.members), []).append(f)
+    for group in by_pair.values():
+        if len(group) < 2:
+            continue
+        first = group[0]
+        cases = ", ".join(f"'{f.case}'" for f in group)
+        findings = [f for f in findings if f not in group]
+        findings.append(Finding("swapped-labels", first.members, f"the claims for {first.members[0]} and {first.members[1]} "
+                                f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
+                                "look swapped", Severity.ERROR))
     # A load column claimed as nothing but zeros (a template column never filled in) is one
     # finding, not one per member.
     for name, items in by_case.items():
@@ -575,8 +589,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
 
     for f in findings:
         if f.severity is Severity.ERROR:
-            for member in f.members:
-                flagged.setdefault(f.case or "", set()).add(member)
+            for case_name in ([f.case] if f.case else load_names):  # a finding without a case spans them all
+                flagged.setdefault(case_name, set()).update(f.members)
 
     # Missing claims (informational), per load column that has claims; load columns missing the
     # same members share one finding.
