@@ -431,3 +431,38 @@ def test_rows_swapped_in_every_column_are_one_finding():
     review = compare_claims(analysis, table(claims, unit="kN"))
     assert [(f.kind, set(f.members)) for f in review.findings] == [("swapped-labels", {"L0L1", "L2L3"})]
     assert "in 2 load columns ('dead', 'wind')" in review.findings[0].detail
+
+
+def test_table_rounded_to_two_significant_figures_agrees_and_still_shows_a_real_error():
+    """Every claim rounded to 2 significant figures (135 written 140, 53.3 written 53): whole
+    numbers are read as rounded at their second figure. A claim 20 % off is still found."""
+    analysis = _dead_and_wind()
+    two_figures = {c: {m: round_sig(v, 2) for m, v in ms.items()} for c, ms in true_claims(analysis, ["dead", "wind"]).items()}
+    review = compare_claims(analysis, table(two_figures, unit="kN"))
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+    two_figures["dead"]["U2U3"] = round_sig(1.2 * two_figures["dead"]["U2U3"], 2)
+    review = compare_claims(analysis, table(two_figures, unit="kN"))
+    assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", ("U2U3",))]
+
+
+def test_whole_numbers_are_exact_when_the_column_shows_more_figures():
+    """A 2-figure rounding that is more than 1 % off (e.g. 130 for 133.3) agrees in a column
+    rounded to 2 figures; once another value of the column is written with 4 figures, the
+    table is not rounded that way and the same 130 is a mismatch."""
+    analysis = analyse(make_model(pratt(6, load=100.0, case="dead")))
+    truth = true_claims(analysis)["dead"]
+    loose = [m for m, v in truth.items() if 100 <= abs(v) < 1000 and 0.01 * abs(v) < abs(round_sig(v, 2) - v) < 5]
+    assert loose, "the test needs a force that 2-figure rounding moves by more than 1 %"
+    claims = {"dead": {m: round_sig(v, 2) for m, v in truth.items()}}
+    assert compare_claims(analysis, table(claims, unit="kN")).verdict is Verdict.AGREES
+    other = next(m for m, v in truth.items() if m not in loose and abs(v) > 1)
+    claims["dead"][other] = float(f"{truth[other]:.4g}")  # four figures somewhere in the column
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    assert {m for f in review.findings for m in f.members} == set(loose)
+
+
+@pytest.mark.parametrize(("value", "digits"), [(140.0, 2), (4.5, 2), (0.27, 2), (108.3, 4), (34650.0, 4), (7.0, 1)])
+def test_significant_digits(value, digits):
+    from verify.compare.tolerances import significant_digits
+
+    assert significant_digits(value) == digits

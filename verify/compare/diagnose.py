@@ -32,7 +32,12 @@ from verify.compare.convention import (
     matching_factor,
 )
 from verify.compare.findings import Finding, Severity, ordered
-from verify.compare.tolerances import Tolerance, rounding_allowance, rounding_allowances
+from verify.compare.tolerances import (
+    Tolerance,
+    rounding_allowance,
+    rounding_allowances,
+    significant_figure_allowances,
+)
 from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
@@ -213,6 +218,12 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     fixed_all = np.array([v.sign_fixed for v in claims.values], dtype=bool)
     member_pos = np.array([model.member_index[v.member] if v.member is not None else -1 for v in claims.values], dtype=np.int64)
     rounding_unit = rounding_allowances(raw, conv)
+    # A column written to 2 or 3 significant figures rounds whole numbers at that figure too.
+    column_of_claim = np.array([v.column for v in claims.values], dtype=object)
+    for column in dict.fromkeys(column_of_claim.tolist()):
+        picked = (column_of_claim == column) & ~np.array([v.reaction is not None for v in claims.values], dtype=bool)
+        if picked.any():
+            rounding_unit[picked] = np.maximum(rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked]))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
         notes.append(f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
                      "headers or cells; the table's own units were used")

@@ -67,3 +67,37 @@ def rounding_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarra
         out[hit] = 0.5 * 10.0 ** (-k)
         pending &= ~hit
     return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
+
+
+SIGNIFICANT_MIN = 2  # a column rounded to 1 significant figure says too little to widen anything
+SIGNIFICANT_MAX = 3  # tables rounded to 2 or 3 significant figures (common practice)
+SIGNIFICANT_MIN_VALUES = 5  # fewer values cannot show how a column was rounded
+
+
+def significant_digits(value: float) -> int:
+    """Digits from the first non-zero one to the last non-zero one: 140 -> 2, 4.50 -> 2, 0.27 -> 2."""
+    digits = f"{abs(value):.10e}".split("e")[0].replace(".", "").rstrip("0")
+    return max(len(digits), 1)
+
+
+def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarray:
+    """Rounding allowances for a column written to S = 2 or 3 significant figures.
+
+    When no value of the column has more than S significant digits (and there are enough values
+    to tell), a whole number such as 140 is read as rounded at its S-th digit (half of 10, not of
+    1): a table rounded to 2 figures writes 135 as 140. Otherwise the allowance is zero here (the
+    last-decimal allowance applies). In the case's units, like rounding_allowances.
+    """
+    values = np.asarray(raw_values, dtype=float)
+    out = np.zeros(values.shape)
+    nonzero = np.isfinite(values) & (values != 0)
+    if nonzero.sum() < SIGNIFICANT_MIN_VALUES:
+        return out
+    digits = np.array([significant_digits(v) for v in values[nonzero].tolist()])
+    figures = int(digits.max())
+    if not SIGNIFICANT_MIN <= figures <= SIGNIFICANT_MAX:
+        return out
+    magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
+    place = magnitude - (figures - 1)  # the place of the last significant figure: 140 at 2 figures -> 1
+    out[nonzero] = np.where(place > 0, 0.5 * 10.0 ** place, 0.0)
+    return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
