@@ -220,8 +220,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     rounding_unit = rounding_allowances(raw, conv)
     # A column written to 2 or 3 significant figures rounds whole numbers at that figure too.
     column_of_claim = np.array([v.column for v in claims.values], dtype=object)
+    is_member_claim = np.array([v.reaction is None for v in claims.values], dtype=bool)
     for column in dict.fromkeys(column_of_claim.tolist()):
-        picked = (column_of_claim == column) & ~np.array([v.reaction is not None for v in claims.values], dtype=bool)
+        picked = (column_of_claim == column) & is_member_claim
         if picked.any():
             rounding_unit[picked] = np.maximum(rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked]))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:

@@ -80,6 +80,19 @@ def significant_digits(value: float) -> int:
     return max(len(digits), 1)
 
 
+def significant_digits_many(values: np.ndarray) -> np.ndarray:
+    """significant_digits for many non-zero finite values at once (11-digit mantissas, as there)."""
+    magnitude = np.floor(np.log10(np.abs(values)))
+    mantissa = np.rint(np.abs(values) / 10.0 ** (magnitude - 10)).astype(np.int64)  # 11 digits
+    mantissa = np.where(mantissa >= 10**11, mantissa // 10, mantissa)  # rounded up to the next power
+    digits = np.full(values.shape, 11, dtype=np.int64)
+    for _ in range(10):
+        trailing = mantissa % 10 == 0
+        digits -= trailing
+        mantissa = np.where(trailing, mantissa // 10, mantissa)
+    return digits
+
+
 def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarray:
     """Rounding allowances for a column written to S = 2 or 3 significant figures.
 
@@ -93,8 +106,7 @@ def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) ->
     nonzero = np.isfinite(values) & (values != 0)
     if nonzero.sum() < SIGNIFICANT_MIN_VALUES:
         return out
-    digits = np.array([significant_digits(v) for v in values[nonzero].tolist()])
-    figures = int(digits.max())
+    figures = int(significant_digits_many(values[nonzero]).max())
     if not SIGNIFICANT_MIN <= figures <= SIGNIFICANT_MAX:
         return out
     magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
