@@ -21,7 +21,7 @@ import numpy as np
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
-from verify.analysis.stability import Classification
+from verify.analysis.stability import Classification, StabilityResult
 from verify.compare.balance import JointImbalance, checkable_joints, claims_balance
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
@@ -561,10 +561,19 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                     f"it), {what} Its {len(covered)} claim(s) that follow it are marked value-mismatch",
                                     Severity.ERROR, case=name))
     if indeterminate:
-        # Indeterminate: differences are judged by equilibrium, not member by member.
-        findings.extend(_explain_indeterminate(analysis, rows, diffs, claimed_matrix, reaction_claims, load_names, tol,
+        # Indeterminate: differences in members that carry a state of self-stress are judged by
+        # equilibrium (another stiffness assumption is not an error). A member outside every
+        # self-stress state has its force fixed by statics alone: it is judged member by member
+        # below, and taken out of the equilibrium search with its recomputed value.
+        in_self_stress = _self_stress_members(stab)
+        fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
+        loose = [item for item in diffs if item not in fixed_by_statics]
+        balance_claims = claimed_matrix.copy()
+        for r, v, _, computed, _ in fixed_by_statics:
+            balance_claims[model.member_index[v.member], load_names.index(rows[r].case)] = computed  # type: ignore[index]
+        findings.extend(_explain_indeterminate(analysis, rows, loose, balance_claims, reaction_claims, load_names, tol,
                                                case_unit.symbol, rounding_matrix))
-        diffs = []
+        diffs = fixed_by_statics
     for r, v, value, computed, allowed in diffs:
         if r in explained:
             continue
@@ -669,6 +678,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             verdict = Verdict.CANNOT_VERIFY
     return Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
                   checked_members, tuple(imbalances), tuple(notes))
+
+
+def _self_stress_members(stability: StabilityResult) -> set[str] | None:
+    """Members that take part in some state of self-stress, when every state is listed (else None)."""
+    modes = stability.self_stress_modes
+    if len(modes) != stability.self_stress:
+        return None
+    return {m for mode in modes for m in mode.members}
 
 
 def _force_unit_with_factor(scale: float, to_unit: Unit) -> str | None:
@@ -798,6 +815,11 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             joints = [model.joint_index[b.joint] for b in unbalanced]
             residual = np.concatenate([np.asarray(b.residual) for b in unbalanced])
             candidates = sorted({m for b in unbalanced for m in b.members})
+            # A member whose claim matches the elastic force is an unlikely culprit: look first
+            # among those that differ.
+            differing = {v.member for _, v, *_ in case_rows}
+            if differing & set(candidates):
+                candidates = [m for m in candidates if m in differing]
             size0 = float(np.linalg.norm(residual))
             for _ in range(min(10, len(candidates))):
                 best = None

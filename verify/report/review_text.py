@@ -21,8 +21,8 @@ def verdict_line(review: Review) -> str:
         checked += f"; EQUAL EA ASSUMED ({review.analysis.assumed_EA:g})"
     if review.verdict.value == "agrees":
         if any(f.kind == "not-elastic" for f in review.findings):
-            return (f"AGREES — the claims balance at every joint; where they differ from the elastic solution the "
-                    f"difference is a state of self-stress ({checked})")
+            return (f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
+                    f"elastic solution the difference is a state of self-stress ({checked})")
         return f"AGREES — every claim checked agrees within tolerance ({checked})"
     if review.verdict.value == "discrepancies":
         return f"DISCREPANCIES — {errors} finding(s) need attention ({checked})"
