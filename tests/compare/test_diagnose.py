@@ -481,3 +481,12 @@ def test_significant_digits_vectorised_matches_the_plain_count():
     values = [round(rng.uniform(1, 10), rng.randint(0, 7)) * 10.0 ** rng.randint(-6, 7) * rng.choice([1, -1])
               for _ in range(5000)] + [9.9999999999, 7.599883247e-07]
     assert significant_digits_many(np.array(values)).tolist() == [significant_digits(v) for v in values]
+
+
+def test_table_ten_times_too_large_is_not_read_as_a_unit(pratt_analysis):
+    """No force unit is 10 kN (long ton-force is 9.964 kN, and a table in it would be smaller,
+    not larger): a table 10 x the forces is a load or factor error, not agreement."""
+    tenfold = {c: {m: 10 * v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(tenfold))
+    assert review.verdict is Verdict.DISCREPANCIES
+    assert [f.kind for f in review.findings] == ["case-mismatch"] and "follow 10 × dead" in review.findings[0].detail

@@ -67,9 +67,10 @@ def test_one_wrong_member_breaks_equilibrium_and_is_named(seed, panels, data):
     in_self_stress = {m for mode in analysis.stability.self_stress_modes for m in mode.members}
     if target in in_self_stress:
         assert "equilibrium-residual" in kinds
-    # A corrupted value may happen to look like a unit slip or a reversed sign; either way the
-    # member is named.
-    named = {m for f in review.findings if f.kind in ("value-mismatch", "unit-scale", "sign-flip") for m in f.members}
+    # A corrupted value may happen to look like a unit slip or a reversed sign, or sit on a
+    # zero-force member; either way the member is named.
+    named = {m for f in review.findings if f.kind in ("value-mismatch", "unit-scale", "sign-flip", "zero-force-claimed")
+             for m in f.members}
     assert target in named
 
 

@@ -9,9 +9,13 @@ App. B): x1000 (N<->kN, lbf<->kip), 4.4482216 (kip<->kN, lbf<->N), 4448.2216 (ki
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
 import numpy as np
+
+from verify.units import Dimension, Unit, accepted, lookup_unit
+from verify.units import factor as unit_factor
 
 LBF = 4.4482216152605
 G_N = 9.80665
@@ -88,9 +92,22 @@ def describe_factor(factor: float) -> str:
     return f"x{factor:.6g}"
 
 
-def matching_factor(ratio: float, rtol: float) -> float | None:
+def possible_factors(reference: Unit, *, ratios: bool = False) -> tuple[float, ...]:
+    """The unit factors a table written in `reference` can really be off by.
+
+    A factor f (claims x f = computed) is possible when the values could be in another accepted
+    force unit U: f = U / reference. With `ratios`, the same as claimed / computed (1 / f). A
+    table ten times too large is not "long ton-force" when the reference is kN.
+    """
+    units = [lookup_unit(symbol, Dimension.FORCE) for symbol in accepted(Dimension.FORCE)]
+    real = [unit_factor(u, reference) for u in units if u.symbol != reference.symbol]
+    real = [1.0 / f for f in real] if ratios else real
+    return tuple(k for k in UNIT_FACTORS if any(abs(k - f) <= 1e-6 * k for f in real))
+
+
+def matching_factor(ratio: float, rtol: float, factors: Iterable[float] | None = None) -> float | None:
     """The unit factor that `ratio` (claimed / computed) matches, if any."""
-    for factor in UNIT_FACTORS:
+    for factor in (UNIT_FACTORS if factors is None else factors):
         if abs(abs(ratio) - factor) <= rtol * factor:
             return factor
     return None

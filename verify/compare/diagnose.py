@@ -30,6 +30,7 @@ from verify.compare.convention import (
     best_fit,
     describe_factor,
     matching_factor,
+    possible_factors,
 )
 from verify.compare.findings import Finding, Severity, ordered
 from verify.compare.tolerances import (
@@ -232,6 +233,15 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     unit_label = (", ".join(sorted(stated_units)) if stated_units else (option_unit.symbol if option_unit else case_unit.symbol))
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
     column_readings: list[str] = []  # columns read in their own unit scale (below)
+    # The unit the table is read in: the factors it can really be off by are those to other units.
+    stated_counts: dict[str, int] = {}
+    for v in claims.values:
+        if v.unit:
+            stated_counts[v.unit] = stated_counts.get(v.unit, 0) + 1
+    reference_unit = (lookup_unit(max(stated_counts, key=lambda u: stated_counts[u]), Dimension.FORCE) if stated_counts
+                      else option_unit or case_unit)
+    table_factors = possible_factors(reference_unit)
+    slip_ratios = possible_factors(reference_unit, ratios=True)
 
     # Gather comparable member claims.
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
@@ -293,7 +303,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             k = load_names.index(target)
             comp = ref.member_forces[member_pos[idx], k]
             atol_arr = np.full(len(idx), tol.atol_fraction * (scale_of[target] or 1.0))
-            best, identity = best_fit(raw[idx] * conv[idx], fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx])
+            best, identity = best_fit(raw[idx] * conv[idx], fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx],
+                                      factors=table_factors)
             if best.informative >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree:
                 column_fit[column] = (best.sign, best.factor, best, identity, idx)
             elif identity.share >= MIN_SHARE:
@@ -346,7 +357,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         comp = ref.member_forces[member_pos[idx], load_pos]  # type: ignore[union-attr]
         scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names])
         atol_arr = tol.atol_fraction * scale_arr[load_pos]
-        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx])
+        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx], factors=table_factors)
         n = best.informative
         support = f"{identity.agree} of {n} non-zero claims on members that carry force agree as read"
         table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
@@ -546,7 +557,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         for name, items in by_case.items():
             pending = [item for item in items if item[0] not in explained]
             failing = {model.member_index[item[1].member] for item in pending if item[1].member is not None}
-            fit = _combination_fit(model, ref, rows, name, failing, tol, scale_of.get(name, 0.0))
+            fit = _combination_fit(model, ref, rows, name, failing, tol, scale_of.get(name, 0.0), slip_ratios)
             if fit is None:
                 continue
             fitted, defined, agree, n, follows = fit
@@ -595,7 +606,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                     f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name))
             continue
         ratio = value / computed
-        unit_factor = matching_factor(ratio, tol.rtol)
+        unit_factor = matching_factor(ratio, tol.rtol, slip_ratios)
         if unit_factor is not None:
             rows[r] = _with_status(rows[r], "unit-scale")
             findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
@@ -698,7 +709,7 @@ def _force_unit_with_factor(scale: float, to_unit: Unit) -> str | None:
 
 
 def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str, failing: set[int], tol: Tolerance,
-                     scale: float) -> tuple[str, str, int, int, set[int]] | None:
+                     scale: float, unit_ratios: tuple[float, ...] | None = None) -> tuple[str, str, int, int, set[int]] | None:
     """(fitted combination, defined combination, members agreeing, members claimed, failing members
     that follow the fit) when several claims of load column `name` fail (member positions
     `failing`) and nearly all claims follow one other combination of the load cases.
@@ -766,7 +777,7 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
         keep[int(np.argmax(np.where(keep, np.abs(y - fitted), -1.0)))] = False
     ratio = float(factors @ defined) / float(defined @ defined)
     if np.allclose(factors, ratio * defined, rtol=tol.rtol, atol=1e-3 * float(np.abs(defined).max())):
-        if abs(abs(ratio) - 1.0) <= tol.rtol or matching_factor(ratio, tol.rtol) is not None:
+        if abs(abs(ratio) - 1.0) <= tol.rtol or matching_factor(ratio, tol.rtol, unit_ratios) is not None:
             return None  # the defined combination itself, reversed or in another unit: said elsewhere
     fits = agreeing(fitted)
     follows = {int(p) for p, ok in zip(pos, fits, strict=True) if ok and int(p) in failing}
