@@ -490,3 +490,22 @@ def test_table_ten_times_too_large_is_not_read_as_a_unit(pratt_analysis):
     review = compare_claims(pratt_analysis, table(tenfold))
     assert review.verdict is Verdict.DISCREPANCIES
     assert [f.kind for f in review.findings] == ["case-mismatch"] and "follow 10 × dead" in review.findings[0].detail
+
+
+def test_decimals_are_taken_from_the_cell_as_written():
+    """U1L1 carries the panel load P = 10.45 kN (REFERENCES 3.2, Pratt verticals). Written '10.00'
+    (to the hundredth, like the rest of the table) it is a mismatch; written '10' it reads as a
+    whole number honestly rounded (half a unit), as the number 10.0 alone would."""
+    analysis = analyse(make_model(pratt(6, load=10.45, case="dead")))
+    truth = true_claims(analysis)["dead"]
+    assert truth["U1L1"] == pytest.approx(10.45, rel=1e-12)
+    for text, expected in (("10.00", "value-mismatch"), ("10", "agrees")):
+        values = tuple(ClaimedValue(m, m, None, "dead", float(text) if m == "U1L1" else round(v, 2), False, "kN",
+                                    f"row {k}", text if m == "U1L1" else f"{v:.2f}")
+                       for k, (m, v) in enumerate(truth.items(), 2))
+        review = compare_claims(analysis, ClaimsTable("<memory>", None, "0" * 64, values, (), ("dead",), "kN"))
+        assert next(r.status for r in review.rows if r.id == "U1L1") == expected
+    from verify.compare.tolerances import decimals_as_written
+
+    assert [decimals_as_written(t, v) for t, v in (("10.00", 10.0), ("4.50 T", 4.5), ("(12.40)", -12.4), ("1,250.5", 1250.5),
+                                                     ("12", 12.0))] == [2, 2, 2, None, None]

@@ -35,6 +35,7 @@ from verify.compare.convention import (
 from verify.compare.findings import Finding, Severity, ordered
 from verify.compare.tolerances import (
     Tolerance,
+    decimals_as_written,
     rounding_allowance,
     rounding_allowances,
     significant_figure_allowances,
@@ -219,6 +220,11 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     fixed_all = np.array([v.sign_fixed for v in claims.values], dtype=bool)
     member_pos = np.array([model.member_index[v.member] if v.member is not None else -1 for v in claims.values], dtype=np.int64)
     rounding_unit = rounding_allowances(raw, conv)
+    # Decimals as the cell shows them: '10.00' was written to the hundredth, not the unit.
+    for i, v in enumerate(claims.values):
+        shown = decimals_as_written(v.text, v.value)
+        if shown is not None:
+            rounding_unit[i] = min(rounding_unit[i], 0.5 * 10.0 ** (-shown) * abs(conv[i]) * 1.0001)
     # A column written to 2 or 3 significant figures rounds whole numbers at that figure too.
     column_of_claim = np.array([v.column for v in claims.values], dtype=object)
     is_member_claim = np.array([v.reaction is None for v in claims.values], dtype=bool)

@@ -15,6 +15,7 @@ A claimed value agrees with the recomputed one when
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -71,7 +72,7 @@ def rounding_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarra
 
 SIGNIFICANT_MIN = 2  # a column rounded to 1 significant figure says too little to widen anything
 SIGNIFICANT_MAX = 3  # tables rounded to 2 or 3 significant figures (common practice)
-SIGNIFICANT_MIN_VALUES = 5  # fewer values cannot show how a column was rounded
+SIGNIFICANT_MIN_VALUES = 5  # fewer values (or whole numbers past the figures) cannot show how a column was rounded
 
 
 def significant_digits(value: float) -> int:
@@ -111,5 +112,24 @@ def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) ->
         return out
     magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
     place = magnitude - (figures - 1)  # the place of the last significant figure: 140 at 2 figures -> 1
-    out[nonzero] = np.where(place > 0, 0.5 * 10.0 ** place, 0.0)
+    widened = place > 0
+    if widened.sum() < SIGNIFICANT_MIN_VALUES:
+        return out  # too few whole numbers past the figures to show the column was rounded so
+    # A power of ten (100, 1000) stands for values rounded up to it from one place lower: 995 -> 1000.
+    power = np.isclose(np.abs(values[nonzero]), 10.0 ** magnitude)
+    out[nonzero] = np.where(widened, 0.5 * 10.0 ** (place - power), 0.0)
     return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
+
+
+_DECIMAL_TOKEN = re.compile(r"(\d+)\.(\d+)")
+
+
+def decimals_as_written(text: str, value: float) -> int | None:
+    """Decimals shown in the cell text ('10.00' -> 2), when its number is plainly `value` with a
+    decimal point (no thousands or decimal commas to second-guess); else None."""
+    if not text or "," in text:
+        return None
+    found = _DECIMAL_TOKEN.search(text)
+    if found is None or float(found.group(0)) != abs(value):
+        return None
+    return len(found.group(2))
