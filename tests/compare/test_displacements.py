@@ -93,3 +93,22 @@ def test_deflection_without_a_unit_is_refused(tmp_path):
 def test_unit_in_each_cell_is_read(tmp_path):
     code, data = _run(tmp_path, f"joint,direction,case,deflection\nC,-y,P,{DELTA_C_MM:.2f} mm\n")
     assert code == 0 and data["verdict"] == "agrees"
+
+
+def test_loaded_joint_moving_against_its_only_load_is_an_error_even_with_assumed_ea(tmp_path):
+    """Triangle of REFERENCES 3.7, P down at C only: C moves down for any member sizes (P x delta
+    equals the strain energy, positive), so a claimed upward movement is an error even when the EA
+    is only assumed; a wrong size downward is information under an assumed EA."""
+    case = CASE.replace(f", EA = {EA}", "")
+    (tmp_path / "case.toml").write_text(case)
+    (tmp_path / "claims.csv").write_text(CLAIMS)
+    (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,y,P,5.0\n")
+    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
+                                       "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])
+    data = json.loads(result.stdout)
+    [finding] = [f for f in data["findings"] if f["kind"] == "displacement-mismatch"]
+    assert result.exit_code == 1 and "moves along that load, whatever the member sizes" in finding["detail"]
+    (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,-y,P,9.0\n")
+    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
+                                       "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])
+    assert result.exit_code == 0 and json.loads(result.stdout)["verdict"] == "agrees"

@@ -17,6 +17,7 @@ from verify.compare.diagnose import Review, Row, _verdict
 from verify.compare.findings import Finding, Severity, ordered
 from verify.compare.tolerances import Tolerance, rounding_allowance
 from verify.io.displacements import DisplacementClaims
+from verify.model import Model
 
 AXES = ("x", "y", "z")
 MAX_HAND_CALCS = 5  # virtual-work tables printed per review; every claim is still compared
@@ -65,6 +66,11 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
         if not ok:
             sign = " (opposite direction)" if c.value * computed < 0 else ""
             assumed = _assumed_EA(analysis)
+            if assumed is not None and _against_its_only_load(model, c.case, c.joint, c.axis, c.value):
+                # Under one point load the loaded joint moves with the load along its line whatever
+                # the member sizes (the load's work, P x delta, equals the strain energy > 0).
+                assumed = None
+                sign += ": a joint carrying the only load moves along that load, whatever the member sizes"
             # Deflections scale with 1/EA: against an assumed EA a difference is no evidence.
             findings.append(Finding("displacement-mismatch", (c.joint,), f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
                                     f"{_length(c.value, unit)}, recomputed {_length(computed, unit)}{sign}"
@@ -83,6 +89,19 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
             calcs.append(calc)
             calc_cases.append(c.case)
     return DisplacementCheck(tuple(rows), tuple(findings), tuple(calcs), tuple(calc_cases))
+
+
+def _against_its_only_load(model: Model, case: str, joint: str, axis: str, value: float) -> bool:
+    """True when `case` is one load at `joint`, along `axis` only, and `value` points against it."""
+    if case not in {c.name for c in model.cases}:
+        return False
+    loads = next(c for c in model.cases if c.name == case).loads
+    if set(loads) != {joint}:
+        return False
+    vector = loads[joint]
+    k = AXES.index(axis)
+    along_axis_only = all(abs(x) <= 1e-12 * max(abs(v) for v in vector) for n, x in enumerate(vector) if n != k)
+    return along_axis_only and vector[k] != 0 and value * vector[k] < 0
 
 
 def _length(value: float, unit: str) -> str:
