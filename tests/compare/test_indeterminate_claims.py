@@ -83,7 +83,10 @@ def test_several_wrong_members_are_never_said_to_explain_it_alone(seed, panels, 
     model = analysis.model
     elastic = analysis.elastic.forces.member_forces[:, 0]
     scale = np.abs(elastic).max()
-    ids = [m.id for m in model.members]
+    # Members inside a state of self-stress: those are judged through the equilibrium of their
+    # joints (members outside every self-stress are compared directly).
+    ids = sorted({m for mode in analysis.stability.self_stress_modes for m in mode.members})
+    assume(len(ids) >= 2)
     first = data.draw(st.sampled_from(ids))
     second = data.draw(st.sampled_from([m for m in ids if m != first]))
     claims = {"W": {m.id: float(v) for m, v in zip(model.members, elastic, strict=True)}}
