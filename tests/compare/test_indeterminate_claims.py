@@ -122,3 +122,34 @@ def test_member_outside_every_self_stress_is_judged_by_statics_alone():
     claims["dead"]["L2L3"] *= 1.25  # also outside the self-stress; L1L2 shares joint L2 with it
     review = compare_claims(analysis, table(claims))
     assert [(f.kind, f.members) for f in review.findings if f.severity.value == "error"] == [("value-mismatch", ("L2L3",))]
+
+
+@SETTINGS
+@given(seed=st.integers(0, 2**31), panels=st.integers(1, 5))
+def test_members_fixed_by_statics_are_those_outside_the_null_space(seed, panels):
+    """The stiffness-perturbation test of verify.analysis.stiffness agrees with the null space of
+    the equilibrium matrix (scipy.linalg.null_space; Pellegrino & Calladine 1986): a member's
+    force is independent of EA exactly when every self-stress state leaves it unloaded."""
+    from verify.analysis.stiffness import members_fixed_by_statics
+
+    analysis = _indeterminate(seed, panels)
+    model = analysis.model
+    null = scipy.linalg.null_space(assemble_equilibrium(model).toarray())
+    outside = np.abs(null[: len(model.members)]).max(axis=1) < 1e-9
+    assert members_fixed_by_statics(model).tolist() == outside.tolist()
+
+
+def test_chord_far_from_many_redundants_is_still_judged_by_statics():
+    """A 30-panel Pratt with a second diagonal in 11 panels (s = 11, more states than the
+    stability report lists): a doubled chord in an unbraced panel is a value-mismatch, even with
+    an assumed equal EA."""
+    case = pratt(30, load=10.0, case="dead")
+    for k in range(1, 12):
+        case["members"][f"L{k}U{k + 1}"] = [f"L{k}", f"U{k + 1}"]
+    analysis = analyse(make_model(case), assume_equal_EA=2.0e5)
+    assert analysis.stability.self_stress == 11
+    elastic = analysis.elastic.forces.member_forces[:, 0]
+    claims = {"dead": {m.id: float(v) for m, v in zip(analysis.model.members, elastic, strict=True)}}
+    claims["dead"]["U25U26"] *= 2
+    review = compare_claims(analysis, table(claims))
+    assert [(f.kind, f.members) for f in review.findings if f.severity.value == "error"] == [("value-mismatch", ("U25U26",))]

@@ -21,7 +21,7 @@ import numpy as np
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
-from verify.analysis.stability import Classification, StabilityResult
+from verify.analysis.stability import Classification
 from verify.compare.balance import JointImbalance, checkable_joints, claims_balance
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
@@ -582,7 +582,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         # equilibrium (another stiffness assumption is not an error). A member outside every
         # self-stress state has its force fixed by statics alone: it is judged member by member
         # below, and taken out of the equilibrium search with its recomputed value.
-        in_self_stress = _self_stress_members(stab)
+        in_self_stress = _self_stress_members(analysis)
         fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
         loose = [item for item in diffs if item not in fixed_by_statics]
         balance_claims = claimed_matrix.copy()
@@ -697,12 +697,19 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                   checked_members, tuple(imbalances), tuple(notes))
 
 
-def _self_stress_members(stability: StabilityResult) -> set[str] | None:
-    """Members that take part in some state of self-stress, when every state is listed (else None)."""
-    modes = stability.self_stress_modes
-    if len(modes) != stability.self_stress:
+def _self_stress_members(analysis: Analysis) -> set[str] | None:
+    """Members whose force depends on the member stiffnesses (they take part in some state of
+    self-stress); None when that cannot be told (no stiffness solve)."""
+    if analysis.elastic is None:
         return None
-    return {m for mode in modes for m in mode.members}
+    from verify.analysis.stiffness import members_fixed_by_statics
+
+    model = analysis.model
+    try:
+        fixed = members_fixed_by_statics(model, assume_equal_EA=analysis.assumed_EA)
+    except ValueError:  # stiffness missing or singular: nothing to tell them apart with
+        return None
+    return {m.id for m, statics_only in zip(model.members, fixed.tolist(), strict=True) if not statics_only}
 
 
 def _force_unit_with_factor(scale: float, to_unit: Unit) -> str | None:
