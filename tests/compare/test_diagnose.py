@@ -509,3 +509,21 @@ def test_decimals_are_taken_from_the_cell_as_written():
 
     assert [decimals_as_written(t, v) for t, v in (("10.00", 10.0), ("4.50 T", 4.5), ("(12.40)", -12.4), ("1,250.5", 1250.5),
                                                      ("12", 12.0))] == [2, 2, 2, None, None]
+
+
+def test_small_truss_rounded_to_two_figures_agrees():
+    """A 4-panel Pratt (13 members) at a load that puts several forces past 100 kN, every claim
+    rounded to 2 significant figures: honest rounding, no finding (three whole numbers past the
+    figures are enough to show how the column was rounded)."""
+    analysis = analyse(make_model(pratt(4, load=41.3, case="dead")))
+    claims = {c: {m: round_sig(v, 2) for m, v in ms.items()} for c, ms in true_claims(analysis).items()}
+    widened = [v for v in claims["dead"].values() if abs(v) >= 100]
+    assert len(widened) >= 3
+    review = compare_claims(analysis, table(claims, unit="kN"))
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+def test_decimal_comma_cells_keep_their_decimals():
+    from verify.compare.tolerances import decimals_as_written
+
+    assert [decimals_as_written(t, v) for t, v in (("10,00", 10.0), ("1,25 C", -1.25), ("1,250", 1250.0))] == [2, 2, None]

@@ -72,7 +72,8 @@ def rounding_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarra
 
 SIGNIFICANT_MIN = 2  # a column rounded to 1 significant figure says too little to widen anything
 SIGNIFICANT_MAX = 3  # tables rounded to 2 or 3 significant figures (common practice)
-SIGNIFICANT_MIN_VALUES = 5  # fewer values (or whole numbers past the figures) cannot show how a column was rounded
+SIGNIFICANT_MIN_VALUES = 5  # fewer values cannot show how a column was rounded
+SIGNIFICANT_WIDENED_MIN = 3  # nor fewer whole numbers past the figures (the values widened)
 
 
 def significant_digits(value: float) -> int:
@@ -113,21 +114,29 @@ def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) ->
     magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
     place = magnitude - (figures - 1)  # the place of the last significant figure: 140 at 2 figures -> 1
     widened = place > 0
-    if widened.sum() < SIGNIFICANT_MIN_VALUES:
+    if widened.sum() < SIGNIFICANT_WIDENED_MIN:
         return out  # too few whole numbers past the figures to show the column was rounded so
-    # A power of ten (100, 1000) stands for values rounded up to it from one place lower: 995 -> 1000.
-    power = np.isclose(np.abs(values[nonzero]), 10.0 ** magnitude)
-    out[nonzero] = np.where(widened, 0.5 * 10.0 ** (place - power), 0.0)
+    # A power of ten (100 at 2 figures) stands for 99.5 to 105; the symmetric allowance (+-5)
+    # also admits 95 to 99.5, within the precision the column itself shows (150 covers +-3 %).
+    out[nonzero] = np.where(widened, 0.5 * 10.0 ** place, 0.0)
     return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
 
 
 _DECIMAL_TOKEN = re.compile(r"(\d+)\.(\d+)")
+_DECIMAL_COMMA_TOKEN = re.compile(r"(\d+),(\d+)")
 
 
 def decimals_as_written(text: str, value: float) -> int | None:
-    """Decimals shown in the cell text ('10.00' -> 2), when its number is plainly `value` with a
-    decimal point (no thousands or decimal commas to second-guess); else None."""
-    if not text or "," in text:
+    """Decimals shown in the cell text ('10.00' or '10,00' -> 2), when the number in it is plainly
+    `value` read that way (a thousands separator reads as another number and is left alone)."""
+    if not text:
+        return None
+    if "," in text and "." not in text:  # a decimal comma ('10,00'), if that is what it reads as
+        found = _DECIMAL_COMMA_TOKEN.search(text)
+        if found is not None and float(found.group(0).replace(",", ".")) == abs(value):
+            return len(found.group(2))
+        return None
+    if "," in text:
         return None
     found = _DECIMAL_TOKEN.search(text)
     if found is None or float(found.group(0)) != abs(value):
