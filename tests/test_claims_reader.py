@@ -794,3 +794,24 @@ def test_each_value_keeps_its_cell_as_written(tmp_path: Path) -> None:
     """The audit trail quotes the cell, not a re-formatted number: '4.50 T', '(12.40)', '0.270'."""
     path = _csv(tmp_path, "Member,dead (kN)\nAB,4.50 T\nBC,(12.40)\nCD,0.270\n")
     assert [v.text for v in read_claims(path, MODEL).values] == ["4.50 T", "(12.40)", "0.270"]
+
+
+def test_xlsx_number_shown_with_fixed_decimals_keeps_them(tmp_path: Path) -> None:
+    """A cell holding 10 shown as '10.00' (format 0.00) was written to the hundredth: its text is
+    '10.00', so the rounding allowance is half a hundredth, not half a unit. General cells are
+    left as numbers."""
+    from verify.io.claims import _format_decimals
+
+    book = openpyxl.Workbook()
+    ws = book.active
+    ws.title = "Forces"
+    ws.append(["Member", "dead (kN)"])
+    ws.append(["AB", 10])
+    ws.append(["BC", 2.5])
+    ws["B2"].number_format = "0.00"
+    path = tmp_path / "claims.xlsx"
+    book.save(path)
+    values = read_claims(path, MODEL).values
+    assert [(v.member, v.value, v.text) for v in values] == [("AB", 10.0, "10.00"), ("BC", 2.5, "2.5")]
+    assert [_format_decimals(f) for f in ("General", "0.00", "#,##0.000", "0.0;(0.0)", "#,##0", '"kN" 0.00', "0%")] == \
+        [None, 2, 3, 1, 0, 2, None]

@@ -456,8 +456,9 @@ def _read_sheet(
         ws = book[title]
         ws.reset_dimensions()
         rows: list[list[Cell]] = []
-        for r, values in enumerate(ws.iter_rows(min_row=1, min_col=1, values_only=True), start=1):
-            rows.append([_excel_cell(v, (r, c) in formulas) for c, v in enumerate(values, start=1)])
+        for r, cells in enumerate(ws.iter_rows(min_row=1, min_col=1), start=1):
+            rows.append([_excel_cell(getattr(cell, "value", None), (r, c) in formulas, getattr(cell, "number_format", None))
+                         for c, cell in enumerate(cells, start=1)])
     finally:
         book.close()
     if all(all(_blank(c) for c in row) for row in rows):
@@ -498,7 +499,19 @@ def _pick_sheet(book: Any, sheet: str | None, problems: _Problems) -> str | None
     return None
 
 
-def _excel_cell(value: object, is_formula: bool) -> Cell:
+_FIXED_DECIMALS = re.compile(r"0\.(0+)")
+
+
+def _format_decimals(number_format: str | None) -> int | None:
+    """Decimals a fixed number format shows ('0.00', '#,##0.000', '0.0;(0.0)' -> 2, 3, 1)."""
+    if not number_format or number_format == "General":
+        return None
+    shown = re.sub(r'"[^"]*"|\\.|\[[^\]]*\]', "", number_format.split(";")[0])  # drop quoted text, escapes, colours
+    found = _FIXED_DECIMALS.search(shown)
+    return len(found.group(1)) if found else (0 if re.fullmatch(r"[#,0]+", shown) else None)
+
+
+def _excel_cell(value: object, is_formula: bool, number_format: str | None = None) -> Cell:
     if value is None or (isinstance(value, str) and not value.strip()):
         if is_formula:
             return _Unusable(
@@ -509,6 +522,11 @@ def _excel_cell(value: object, is_formula: bool) -> Cell:
     if isinstance(value, bool):
         return _Unusable(f"holds the logical value {str(value).upper()}")
     if isinstance(value, int | float):
+        # A number shown with fixed decimals ('10.00') was written to them: keep that as its text
+        # (the value is unchanged; the rounding allowance reads the decimals from the text).
+        decimals = _format_decimals(number_format)
+        if decimals is not None and math.isfinite(value) and round(float(value), decimals) == float(value):
+            return f"{float(value):.{decimals}f}"
         return float(value)
     if isinstance(value, dt.datetime | dt.date | dt.time | dt.timedelta):
         return _Unusable(f"holds a date or time ({value}); format the cell as a number")
