@@ -527,3 +527,10 @@ def test_decimal_comma_cells_keep_their_decimals():
     from verify.compare.tolerances import decimals_as_written
 
     assert [decimals_as_written(t, v) for t, v in (("10,00", 10.0), ("1,25 C", -1.25), ("1,250", 1250.0))] == [2, 2, None]
+
+
+def test_whole_table_in_meganewtons_names_the_unit(pratt_analysis):
+    """A table in MN read as kN is off by x1000: said as values in MN, not 'N vs kN'."""
+    small = {c: {m: v / 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(small, unit="kN"))
+    assert kinds(review) == ["unit-scale"] and "values in MN, read as kN" in review.findings[0].detail

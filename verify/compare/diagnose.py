@@ -249,6 +249,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     table_factors = possible_factors(reference_unit)
     slip_ratios = possible_factors(reference_unit, ratios=True)
 
+    def named_factor(f: float) -> str:
+        """'x1000 (values in MN, read as kN)': the unit the numbers are really in, when one is."""
+        unit_in = _force_unit_with_factor(f, reference_unit)
+        return f"x{fmt(f, 6)} (values in {unit_in}, read as {reference_unit.symbol})" if unit_in else describe_factor(f)
+
+    def named_ratio(r: float) -> str:
+        """For one claim: 'x1000 (written in N where kN is meant)'."""
+        unit_in = _force_unit_with_factor(1.0 / r, reference_unit)
+        return f"x{fmt(r, 6)} (written in {unit_in} where {reference_unit.symbol} is meant)" if unit_in else describe_factor(r)
+
     # Gather comparable member claims.
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
     comparable = ref is not None and stab.classification is not Classification.UNSTABLE
@@ -389,7 +399,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             if best.factor != 1.0:
                 sev = Severity.ERROR if unit_stated else Severity.INFO
                 told = f"the table states {unit_label}" if unit_stated else f"no unit was stated (assumed {case_unit.symbol})"
-                findings.append(Finding("unit-scale", (), f"{told}, but every value is off by a unit factor {describe_factor(best.factor)}: "
+                findings.append(Finding("unit-scale", (), f"{told}, but every value is off by a unit factor {named_factor(best.factor)}: "
                                         f"{best.agree} of {n} members agree once scaled ({identity.agree} as written)", sev))
         elif sign is not SignMode.AUTO:
             inferred = False
@@ -402,7 +412,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         inferred=inferred or scale_fit != 1.0,
         unit=unit_label,
         unit_source=unit_source,
-        scale_reason="" if scale_fit == 1.0 else describe_factor(scale_fit),
+        scale_reason="" if scale_fit == 1.0 else named_factor(scale_fit),
         support=support,
         column_readings=tuple(column_readings),
         stated_sign="" if sign is SignMode.AUTO else sign.value,
@@ -616,7 +626,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         if unit_factor is not None:
             rows[r] = _with_status(rows[r], "unit-scale")
             findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
-                                    f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {describe_factor(unit_factor)}"
+                                    f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {named_ratio(unit_factor)}"
                                     + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name))
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
