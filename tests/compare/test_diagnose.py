@@ -534,3 +534,11 @@ def test_whole_table_in_meganewtons_names_the_unit(pratt_analysis):
     small = {c: {m: v / 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
     review = compare_claims(pratt_analysis, table(small, unit="kN"))
     assert kinds(review) == ["unit-scale"] and "values in MN, read as kN" in review.findings[0].detail
+
+
+def test_table_in_kgf_without_a_unit_is_read_as_kgf(pratt_analysis):
+    """1 kgf = 9.80665 N (NIST SP 811, App. B): a kN model's forces written in kgf, no unit stated."""
+    kgf = {c: {m: v * 1000 / 9.80665 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    review = compare_claims(pratt_analysis, table(kgf))
+    assert kinds(review) == ["unit-scale"] and "values in kgf" in review.findings[0].detail
+    assert review.verdict is Verdict.AGREES  # inferred (no unit stated), said as information

@@ -108,6 +108,10 @@ def test_loaded_joint_moving_against_its_only_load_is_an_error_even_with_assumed
     data = json.loads(result.stdout)
     [finding] = [f for f in data["findings"] if f["kind"] == "displacement-mismatch"]
     assert result.exit_code == 1 and "moves along that load, whatever the member sizes" in finding["detail"]
+    (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,y,P,0\n")  # not moving at all
+    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
+                                       "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])
+    assert result.exit_code == 1
     (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,-y,P,9.0\n")
     result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
                                        "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])

@@ -3,7 +3,7 @@
 For every candidate (sign, factor) we count the members whose scaled claim agrees with the
 recomputed force. Factors are unit slips seen in practice (shared/REFERENCES.md 5.2; NIST SP 811
 App. B): x1000 (N<->kN, lbf<->kip), 4.4482216 (kip<->kN, lbf<->N), 4448.2216 (kip<->N),
-0.0044482 (lbf<->kN), 9.80665 (kgf<->N, tonne-force<->kN), 8.896443 (short ton-force<->kN),
+0.0044482 (lbf<->kN), 9.80665 (kgf<->N, tonne-force<->kN), 0.00980665 (kgf<->kN), 8.896443 (short ton-force<->kN),
 9.964016 (long ton-force<->kN), and their inverses.
 """
 
@@ -30,6 +30,8 @@ UNIT_FACTORS: dict[float, str] = {
     1000 / LBF: f"x{1000 / LBF:.6g} (kN vs lbf)",
     G_N: f"x{G_N} (kgf vs N, or tonne-force vs kN)",
     1 / G_N: f"x{1 / G_N:.6g} (N vs kgf, or kN vs tonne-force)",
+    G_N / 1000: f"x{G_N / 1000:.6g} (kgf vs kN)",
+    1000 / G_N: f"x{1000 / G_N:.6g} (kN vs kgf)",
     2 * LBF: f"x{2 * LBF:.6g} (short ton-force vs kN)",
     1 / (2 * LBF): f"x{1 / (2 * LBF):.6g} (kN vs short ton-force)",
     2.24 * LBF: f"x{2.24 * LBF:.6g} (long ton-force vs kN)",

@@ -59,7 +59,8 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
         computed = float(disp[j * d + AXES.index(c.axis), k])
         scale = float(np.abs(disp[:, k]).max()) if disp.size else 0.0
         atol = tol.atol_fraction * scale
-        ok = tol.agrees(c.value, computed, atol, rounding_allowance(c.value, 1.0))
+        # Half a unit in the last decimal as written, in the unit it was written in ('0 mm' is not +-0.5 m).
+        ok = tol.agrees(c.value, computed, atol, rounding_allowance(c.value / c.scale, c.scale))
         status = "agrees" if ok else "displacement-mismatch"
         rows.append(Row(f"{c.joint}.{c.axis}", "displacement", c.case, c.value, f"{c.written} at {c.where}",
                         None, None, None, computed, c.value - computed, status))
@@ -92,7 +93,7 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
 
 
 def _against_its_only_load(model: Model, case: str, joint: str, axis: str, value: float) -> bool:
-    """True when `case` is one load at `joint`, along `axis` only, and `value` points against it."""
+    """True when `case` is one load at `joint`, along `axis` only, and `value` does not go with it."""
     if case not in {c.name for c in model.cases}:
         return False
     loads = next(c for c in model.cases if c.name == case).loads
@@ -101,7 +102,7 @@ def _against_its_only_load(model: Model, case: str, joint: str, axis: str, value
     vector = loads[joint]
     k = AXES.index(axis)
     along_axis_only = all(abs(x) <= 1e-12 * max(abs(v) for v in vector) for n, x in enumerate(vector) if n != k)
-    return along_axis_only and vector[k] != 0 and value * vector[k] < 0
+    return along_axis_only and vector[k] != 0 and value * vector[k] <= 0  # not moving at all is impossible too
 
 
 def _length(value: float, unit: str) -> str:

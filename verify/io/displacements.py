@@ -38,6 +38,7 @@ class ClaimedDisplacement:
     value: float  # along +axis, in the case's length unit
     written: str
     where: str
+    scale: float = 1.0  # case length units per unit the value was written in (0.001 for mm in a m model)
 
 
 @dataclass(frozen=True)
@@ -142,7 +143,7 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
             unitless.append(number)
             continue
         scale = factor(unit, model.units.length)
-        out.append(ClaimedDisplacement(joint, axis, case, sign * value * scale, raw, where))
+        out.append(ClaimedDisplacement(joint, axis, case, sign * value * scale, raw, where, scale))
     if unitless:
         rows_text = ", ".join(str(n) for n in unitless[:10]) + (" ..." if len(unitless) > 10 else "")
         problems.add(f"the value{'s' if len(unitless) > 1 else ''} on row{'s' if len(unitless) > 1 else ''} {rows_text} "
