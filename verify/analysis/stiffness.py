@@ -373,13 +373,15 @@ def solve_stiffness(model: Model, *, assume_equal_EA: float | None = None,
                            equal_EA_assumed=assume_equal_EA is not None, notes=notes_t)
 
 
-def members_fixed_by_statics(model: Model, *, assume_equal_EA: float | None = None, seed: int = 0) -> np.ndarray:
+def members_fixed_by_statics(model: Model, forces: np.ndarray, *, assume_equal_EA: float | None = None,
+                             seed: int = 0) -> np.ndarray:
     """Per member: True when its force does not depend on the member stiffnesses.
 
+    `forces` are the elastic member forces already solved for `model` (members x load columns).
     In an indeterminate truss a member outside every state of self-stress carries a force fixed
-    by statics alone. Solving again with every EA scaled by an independent random factor (0.5 to
-    2) changes the force of every member inside a self-stress (with probability one) and of no
-    other: two solves, at any size, where the self-stress basis would need a dense SVD.
+    by statics alone. Solving once more with every EA scaled by an independent random factor (0.5
+    to 2) changes the force of every member inside a self-stress (with probability one) and of no
+    other: one extra solve, at any size, where the self-stress basis would need a dense SVD.
     """
     EA, _ = member_stiffness(model, assume_equal_EA=assume_equal_EA)
     scaled = EA * np.random.default_rng(seed).uniform(0.5, 2.0, len(EA))
@@ -387,7 +389,6 @@ def members_fixed_by_statics(model: Model, *, assume_equal_EA: float | None = No
     varied = Model(title=model.title, units=model.units, dim=model.dim, joints=model.joints, members=members,
                    reactions=model.reactions, cases=model.cases, combinations=model.combinations, source=model.source,
                    arrays=(model.xyz, model.ends_index))
-    first = solve_stiffness(model, assume_equal_EA=assume_equal_EA).forces.member_forces
-    second = solve_stiffness(varied).forces.member_forces
-    scale = max(float(np.abs(first).max(initial=0.0)), 1e-300)
-    return np.all(np.abs(second - first) <= 1e-7 * scale, axis=1)
+    again = solve_stiffness(varied).forces.member_forces
+    scale = max(float(np.abs(forces).max(initial=0.0)), 1e-300)
+    return np.all(np.abs(again - forces) <= 1e-7 * scale, axis=1)

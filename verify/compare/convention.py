@@ -94,6 +94,15 @@ def describe_factor(factor: float) -> str:
     return f"x{factor:.6g}"
 
 
+def force_unit_for(scale: float, reference: Unit) -> str | None:
+    """The accepted force unit U with U = scale x reference (N for 0.001 against kN), if one is."""
+    for symbol in accepted(Dimension.FORCE):
+        unit = lookup_unit(symbol, Dimension.FORCE)
+        if abs(unit_factor(unit, reference) - scale) <= 1e-6 * scale:
+            return unit.symbol
+    return None
+
+
 def possible_factors(reference: Unit, *, ratios: bool = False) -> tuple[float, ...]:
     """The unit factors a table written in `reference` can really be off by.
 
@@ -101,10 +110,7 @@ def possible_factors(reference: Unit, *, ratios: bool = False) -> tuple[float, .
     force unit U: f = U / reference. With `ratios`, the same as claimed / computed (1 / f). A
     table ten times too large is not "long ton-force" when the reference is kN.
     """
-    units = [lookup_unit(symbol, Dimension.FORCE) for symbol in accepted(Dimension.FORCE)]
-    real = [unit_factor(u, reference) for u in units if u.symbol != reference.symbol]
-    real = [1.0 / f for f in real] if ratios else real
-    return tuple(k for k in UNIT_FACTORS if any(abs(k - f) <= 1e-6 * k for f in real))
+    return tuple(k for k in UNIT_FACTORS if force_unit_for(1.0 / k if ratios else k, reference) is not None)
 
 
 def matching_factor(ratio: float, rtol: float, factors: Iterable[float] | None = None) -> float | None:

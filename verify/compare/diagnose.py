@@ -13,6 +13,7 @@ Order of reasoning (each step only sees what the earlier ones left unexplained):
 from __future__ import annotations
 
 import re
+from collections import Counter
 from dataclasses import dataclass, field
 from enum import StrEnum
 from typing import Any, NamedTuple
@@ -29,6 +30,7 @@ from verify.compare.convention import (
     Fit,
     best_fit,
     describe_factor,
+    force_unit_for,
     matching_factor,
     possible_factors,
 )
@@ -44,7 +46,7 @@ from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.model import Model
-from verify.units import Dimension, Unit, accepted, factor, lookup_unit
+from verify.units import Dimension, factor, lookup_unit
 
 
 class SignMode(StrEnum):
@@ -240,23 +242,20 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
     column_readings: list[str] = []  # columns read in their own unit scale (below)
     # The unit the table is read in: the factors it can really be off by are those to other units.
-    stated_counts: dict[str, int] = {}
-    for v in claims.values:
-        if v.unit:
-            stated_counts[v.unit] = stated_counts.get(v.unit, 0) + 1
-    reference_unit = (lookup_unit(max(stated_counts, key=lambda u: stated_counts[u]), Dimension.FORCE) if stated_counts
+    stated_counts = Counter(v.unit for v in claims.values if v.unit)
+    reference_unit = (lookup_unit(stated_counts.most_common(1)[0][0], Dimension.FORCE) if stated_counts
                       else option_unit or case_unit)
     table_factors = possible_factors(reference_unit)
     slip_ratios = possible_factors(reference_unit, ratios=True)
 
     def named_factor(f: float) -> str:
         """'x1000 (values in MN, read as kN)': the unit the numbers are really in, when one is."""
-        unit_in = _force_unit_with_factor(f, reference_unit)
+        unit_in = force_unit_for(f, reference_unit)
         return f"x{fmt(f, 6)} (values in {unit_in}, read as {reference_unit.symbol})" if unit_in else describe_factor(f)
 
     def named_ratio(r: float) -> str:
         """For one claim: 'x1000 (written in N where kN is meant)'."""
-        unit_in = _force_unit_with_factor(1.0 / r, reference_unit)
+        unit_in = force_unit_for(1.0 / r, reference_unit)
         return f"x{fmt(r, 6)} (written in {unit_in} where {reference_unit.symbol} is meant)" if unit_in else describe_factor(r)
 
     # Gather comparable member claims.
@@ -335,14 +334,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                 rel_sign, rel_factor = col_sign * common[0], col_factor / common[1]
                 if rel_sign == 1 and abs(rel_factor - 1.0) < 1e-9:
                     continue
-                in_column = np.array([v.column == column for v in claims.values], dtype=bool)
+                in_column = column_of_claim == column
                 stated = {claims.values[i].unit for i in idx}
                 told = (f"its header states {', '.join(sorted(str(u) for u in stated))}" if stated != {None}
                         else "it states no unit")
                 if abs(rel_factor - 1.0) >= 1e-9:
                     conv[in_column] *= rel_factor
                     rounding_unit[in_column] *= rel_factor
-                    in_unit = _force_unit_with_factor(float(col_factor * np.median(conv[idx] / rel_factor)), case_unit)
+                    in_unit = force_unit_for(float(col_factor * np.median(conv[idx] / rel_factor)), case_unit)
                     reading = (f"in {in_unit}" if in_unit else describe_factor(col_factor)) + \
                         f" (x{fmt(rel_factor, 6)} against the rest of the table)"
                     column_readings.append(f"column '{column}' read {reading}")
@@ -351,7 +350,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                             f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
                                             Severity.ERROR, case=mapping.get(column)))
                 if rel_sign == -1:
-                    flipped = in_column & ~fixed_all & np.array([v.member is not None for v in claims.values], dtype=bool)
+                    flipped = in_column & ~fixed_all & is_member_claim
                     conv[flipped] *= -1.0  # T/C marks and reactions keep their own sign
                     column_readings.append(f"column '{column}' read with its signs reversed")
                     findings.append(Finding("table-sign-convention", (), f"claims column '{column}' is written with the "
@@ -716,19 +715,11 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
 
     model = analysis.model
     try:
-        fixed = members_fixed_by_statics(model, assume_equal_EA=analysis.assumed_EA)
+        fixed = members_fixed_by_statics(model, analysis.elastic.forces.member_forces,  # type: ignore[attr-defined]
+                                         assume_equal_EA=analysis.assumed_EA)
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
     return {m.id for m, statics_only in zip(model.members, fixed.tolist(), strict=True) if not statics_only}
-
-
-def _force_unit_with_factor(scale: float, to_unit: Unit) -> str | None:
-    """The force unit whose values times `scale` are in `to_unit` (N for 0.001 into kN), if one is."""
-    for symbol in accepted(Dimension.FORCE):
-        unit = lookup_unit(symbol, Dimension.FORCE)
-        if abs(factor(unit, to_unit) - scale) <= 1e-9 * scale:
-            return unit.symbol
-    return None
 
 
 def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str, failing: set[int], tol: Tolerance,
@@ -739,7 +730,7 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
 
     The factors come from a least-squares fit of the claims on the load cases' recomputed forces
     (superposition: a combination's forces are the factored sum of its cases' forces), refitted
-    once without the claims that miss the first fit, so one unrelated error does not spoil it.
+    without the worst misfit (up to a tenth of the claims), so an unrelated error does not spoil it.
     A fit that is the defined combination times -1 or a unit factor is left to the sign and unit
     diagnoses, which say it better.
     """
@@ -921,16 +912,14 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
             caveat = (f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)" if unchecked else "")
             rest_text = "apart from the member(s) named above, " if blamed else ""
-            if analysis.assumed_EA is not None:
-                # Against an assumed EA, another distribution is no evidence of an error.
-                out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
-                                   f"for the equal EA assumed (up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state "
-                                   "of self-stress: the claims satisfy equilibrium, and with the real member sizes the elastic "
-                                   f"distribution would differ too, so this is not evidence of an error{caveat}", Severity.INFO,
-                                   case=name))
-            else:
-                out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution (up to "
-                                   f"{fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: the claims satisfy "
-                                   "equilibrium, but they assume member stiffnesses other than the EA given (e.g. tension-only "
-                                   f"bracing), an erection sequence or a lack of fit{caveat}", Severity.ERROR, case=name))
+            # Against an assumed EA, another distribution is no evidence of an error.
+            assumed = analysis.assumed_EA is not None
+            solution, meaning = (("for the equal EA assumed ", "and with the real member sizes the elastic distribution "
+                                  "would differ too, so this is not evidence of an error") if assumed else
+                                 ("", "but they assume member stiffnesses other than the EA given (e.g. tension-only "
+                                  "bracing), an erection sequence or a lack of fit"))
+            out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
+                               f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: "
+                               f"the claims satisfy equilibrium, {meaning}{caveat}",
+                               Severity.INFO if assumed else Severity.ERROR, case=name))
     return out

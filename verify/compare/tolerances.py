@@ -76,14 +76,9 @@ SIGNIFICANT_MIN_VALUES = 5  # fewer values cannot show how a column was rounded
 SIGNIFICANT_WIDENED_MIN = 3  # nor fewer whole numbers past the figures (the values widened)
 
 
-def significant_digits(value: float) -> int:
-    """Digits from the first non-zero one to the last non-zero one: 140 -> 2, 4.50 -> 2, 0.27 -> 2."""
-    digits = f"{abs(value):.10e}".split("e")[0].replace(".", "").rstrip("0")
-    return max(len(digits), 1)
-
-
 def significant_digits_many(values: np.ndarray) -> np.ndarray:
-    """significant_digits for many non-zero finite values at once (11-digit mantissas, as there)."""
+    """Digits from the first non-zero one to the last non-zero one (140 -> 2, 4.50 -> 2, 0.27 -> 2),
+    for many non-zero finite values at once, read from 11-digit mantissas."""
     magnitude = np.floor(np.log10(np.abs(values)))
     mantissa = np.rint(np.abs(values) / 10.0 ** (magnitude - 10)).astype(np.int64)  # 11 digits
     mantissa = np.where(mantissa >= 10**11, mantissa // 10, mantissa)  # rounded up to the next power

@@ -114,12 +114,16 @@ def _moment2(r: Any, f: Any) -> Any:
     return r[0] * f[1] - r[1] * f[0]
 
 
-def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = True) -> str:
-    """The calc sheet of `cut` for one load case or combination."""
+def _column(model: Model, load_name: str) -> int:
     names = model.load_names
     if load_name not in names:
         raise ValueError(f"load case '{load_name}' is not in the model (have: {', '.join(names)})")
-    column = names.index(load_name)
+    return names.index(load_name)
+
+
+def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = True) -> str:
+    """The calc sheet of `cut` for one load case or combination."""
+    column = _column(model, load_name)
     d = model.dim
     fu, lu = model.units.force.symbol, model.units.length.symbol
     values = solve_cut(model, cut, column)
@@ -277,10 +281,7 @@ def _exact_target(model: Model, cut: SectionCut, column: int, external, lines, k
 
 def render_reactions(model: Model, load_name: str, *, exact: bool = True) -> str:
     """The overall-equilibrium step: ΣM about the pin, then the force sums, and the reactions."""
-    names = model.load_names
-    if load_name not in names:
-        raise ValueError(f"load case '{load_name}' is not in the model (have: {', '.join(names)})")
-    column = names.index(load_name)
+    column = _column(model, load_name)
     d = model.dim
     fu, lu = model.units.force.symbol, model.units.length.symbol
     first = solve_reactions(model)
