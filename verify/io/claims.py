@@ -42,7 +42,7 @@ from pathlib import Path
 from typing import Any, NamedTuple
 
 from verify.errors import InputError, Problem, did_you_mean
-from verify.io.values import PLAIN_NUMBER, is_nan_text, normalize_text, parse_force_cell
+from verify.io.values import is_nan_text, normalize_text, parse_force_cell, plain_number
 from verify.model import Model
 from verify.units import Dimension, lookup_unit
 
@@ -551,6 +551,14 @@ class _Header:
     other_name: str = ""  # the heading without that unit
 
 
+def _length_unit(text: str) -> bool:
+    try:
+        lookup_unit(text, Dimension.LENGTH)
+    except ValueError:
+        return False
+    return True
+
+
 def _force_per_something(text: str) -> bool:
     """'N/mm', 'kN/m2', 'kip/ft': a force unit divided by something (a line load, a stress)."""
     top, slash, _ = text.partition("/")
@@ -573,16 +581,11 @@ def _parse_header(index: int, cell: Cell) -> _Header:
             unit = lookup_unit(inner, Dimension.FORCE).symbol
             name = m.group("name").strip()
         except ValueError as exc:
-            if _NON_FORCE_UNIT.match(inner) or _force_per_something(inner):
+            if _NON_FORCE_UNIT.match(inner) or _force_per_something(inner) or _length_unit(inner):
                 other_unit, other_name = inner, m.group("name").strip()
-            else:
-                try:
-                    lookup_unit(inner, Dimension.LENGTH)
-                    other_unit, other_name = inner, m.group("name").strip()
-                except ValueError:
-                    if "ambiguous" in str(exc):
-                        error = str(exc)
-                        name = m.group("name").strip()
+            elif "ambiguous" in str(exc):
+                error = str(exc)
+                name = m.group("name").strip()
     key = _header_key(name)
     descriptive = other_unit is not None or key in IGNORED_HEADERS
     return _Header(index, text, name, key, unit, error, descriptive, other_unit, other_name)
@@ -1016,8 +1019,7 @@ class _RowReader:
         columns = [(v.index, v.case or "", (v.case or "").casefold(), v.unit, v.header) for v in self.columns]
         match = self.matcher.match
         claimed, values = self._claimed, self.values
-        plain = PLAIN_NUMBER.fullmatch
-        dotted_thousands = grid.decimal_comma  # there "1.250" is 1250: leave it to the parser
+        decimal_comma = grid.decimal_comma
         for r in range(start, stop):
             row = rows[r]
             cell_label = row[label_at] if label_at < len(row) else None
@@ -1032,14 +1034,11 @@ class _RowReader:
                 cell = row[index] if index < len(row) else None
                 if cell is None:
                     continue
-                if type(cell) is float:
-                    value = cell
-                elif type(cell) is str and plain(cell) and not (dotted_thousands and "." in cell):
-                    value = float(cell)
-                    if not math.isfinite(value):
-                        break  # 1e400: the general reader refuses it in words
-                else:
-                    break
+                number = cell if type(cell) is float else (
+                    plain_number(cell, decimal_comma=decimal_comma) if type(cell) is str else None)
+                if number is None:
+                    break  # anything but a plain number: the general reader words it
+                value = number
                 if (member, folded) in claimed:
                     break
                 cells.append((index, case, folded, unit, header, value, cell))

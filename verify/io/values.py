@@ -73,6 +73,16 @@ def _expectation(original: str) -> str:
     return f"force '{original}' is not a number with an optional T/C suffix"
 
 
+def plain_number(text: str, *, decimal_comma: bool = False) -> float | None:
+    """The common cell, read directly: a signed decimal (exponent allowed) with nothing else to
+    interpret; None for anything else, an overflow (1e400) included, which parse_force_cell words.
+    With decimal commas, '1.250' groups thousands and is left to parse_force_cell too."""
+    if not PLAIN_NUMBER.fullmatch(text) or (decimal_comma and "." in text):
+        return None
+    number = float(text)
+    return number if math.isfinite(number) else None
+
+
 def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, bool, str | None]:
     """(value, sign_fixed, unit symbol or None); ValueError with a message on bad text.
 
@@ -80,12 +90,9 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
     """
     original = str(text).strip()
-    if PLAIN_NUMBER.fullmatch(original) and not (decimal_comma and "." in original):
-        # The common case, read directly: a signed decimal with nothing else to interpret
-        # (unless it overflows, e.g. 1e400: the general reader below words that).
-        number = float(original)
-        if math.isfinite(number):
-            return number, False, None
+    number = plain_number(original, decimal_comma=decimal_comma)
+    if number is not None:
+        return number, False, None
     s = normalize_text(str(text))
     if not s:
         raise ValueError("force is empty; leave the cell blank when there is no claim")
