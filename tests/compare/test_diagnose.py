@@ -293,9 +293,10 @@ def test_combination_claimed_with_other_factors_is_one_finding_naming_them():
     claims["ULS"] = {m: 1.35 * cases["dead"][m] + 1.6 * cases["wind"][m] for m in claims["ULS"]}  # 1.6 for 1.5
     review = compare_claims(analysis, table(claims, unit="kN"))
     uls = [f for f in review.findings if f.case == "ULS"]
-    assert [f.kind for f in uls] == ["case-mismatch"]
+    assert [f.kind for f in uls] == ["likely-cause"]
     assert "follow 1.35 × dead + 1.6 × wind" in uls[0].detail and "not 1.35 × dead + 1.5 × wind as the case file combines" in uls[0].detail
-    assert all(r.status in ("value-mismatch", "agrees") for r in review.rows if r.case == "ULS" and r.claimed is not None)
+    assert uls[0].variant == "'ULS' as 1.35 × dead + 1.6 × wind instead of 1.35 × dead + 1.5 × wind"
+    assert all(r.status in ("likely-cause", "agrees") for r in review.rows if r.case == "ULS" and r.claimed is not None)
 
 
 def test_proportional_cases_give_a_factor_on_the_whole_combination():
@@ -308,8 +309,9 @@ def test_proportional_cases_give_a_factor_on_the_whole_combination():
     claims["ULS"] = {m: 1.08 * v for m, v in claims["ULS"].items()}
     review = compare_claims(analysis, table(claims, unit="kN"))
     uls = [f for f in review.findings if f.case == "ULS"]
-    assert [f.kind for f in uls] == ["case-mismatch"]
-    assert "follow 1.08 × (1.35 × dead + 1.5 × live)" in uls[0].detail
+    # 1.08 x (1.35 + 1.5 x 2) dead-units = 4.698, which a claimant writes as 1.7 x dead + 1.5 x live
+    assert [f.kind for f in uls] == ["likely-cause"] and uls[0].explains == len(claims["ULS"]) - 1  # all but the idle mid-span vertical U3L3
+    assert "'ULS' taking 1.7 × dead instead of 1.35 × dead" in uls[0].variant and uls[0].unexplained == 0
 
 
 def test_one_wrong_claim_in_a_combination_is_not_a_factor_finding():
@@ -356,10 +358,10 @@ def test_load_factor_is_found_past_an_unrelated_typo():
     claims["wind"] = {m: 1.5 * v for m, v in claims["wind"].items()}
     claims["wind"]["U1U2"] = 123.0
     review = compare_claims(analysis, table(claims, unit="kN"))
-    wind = sorted((f.kind, f.members if f.kind != "case-mismatch" else ()) for f in review.findings)
-    assert wind == [("case-mismatch", ()), ("value-mismatch", ("U1U2",))]
-    factor = next(f for f in review.findings if f.kind == "case-mismatch")
-    assert "follow 1.5 × wind" in factor.detail and "U1U2" not in factor.members
+    wind = sorted((f.kind, f.members if f.kind != "likely-cause" else ()) for f in review.findings)
+    assert wind == [("likely-cause", ()), ("value-mismatch", ("U1U2",))]
+    factor = next(f for f in review.findings if f.kind == "likely-cause")
+    assert factor.case == "wind" and factor.factor == 1.5 and "U1U2" not in factor.members and factor.unexplained == 1
 
 
 def test_claims_near_the_defined_combination_are_not_a_factor_finding():
@@ -396,8 +398,8 @@ def test_wrong_factor_found_when_some_load_cases_are_proportional():
     parts = true_claims(analysis, ["dead", "uplift"])
     claims = {"ULS": {m: parts["dead"][m] + 1.6 * parts["uplift"][m] for m in parts["dead"]}}
     review = compare_claims(analysis, table(claims, unit="kN"))
-    assert [f.kind for f in review.findings if f.case == "ULS"] == ["case-mismatch"]
-    assert "follow 1 × dead + 1.6 × uplift" in review.findings[0].detail
+    assert [f.kind for f in review.findings if f.case == "ULS"] == ["likely-cause"]
+    assert review.findings[0].variant == "'ULS' taking 1.6 × uplift instead of 1.5 × uplift" and review.findings[0].factor == 1.6
 
 
 def test_one_wrong_reaction_is_one_finding(pratt_analysis):
@@ -497,7 +499,8 @@ def test_table_ten_times_too_large_is_not_read_as_a_unit(pratt_analysis):
     tenfold = {c: {m: 10 * v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
     review = compare_claims(pratt_analysis, table(tenfold))
     assert review.verdict is Verdict.DISCREPANCIES
-    assert [f.kind for f in review.findings] == ["case-mismatch"] and "follow 10 × dead" in review.findings[0].detail
+    assert [f.kind for f in review.findings] == ["likely-cause"]
+    assert review.findings[0].case == "dead" and review.findings[0].factor == 10.0 and review.findings[0].unexplained == 0
 
 
 def test_decimals_are_taken_from_the_cell_as_written():

@@ -24,6 +24,7 @@ from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
 from verify.compare.balance import JointImbalance, checkable_joints, claims_balance
+from verify.compare.causes import ClaimsFrame, explain_causes
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
@@ -424,6 +425,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     flagged: dict[str, set[str]] = {}
     diffs: list[tuple[int, ClaimedValue, float, float, float]] = []  # (row index, claim, value, computed, allowed)
     seen_pairs: set[tuple[str, str]] = set()
+    frame_rows: list[tuple[int, int]] = []  # (claim index, row index) of member claims compared
+    frame_written: list[str] = []
     # Member claims are judged all at once (arrays); the loop below only assembles rows.
     n_claims = len(claims.values)
     k_of = np.array([load_names.index(mapping[v.column]) if mapping.get(v.column) else -1  # type: ignore[arg-type]
@@ -506,6 +509,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v, None,
                             "not-verifiable"))
             continue
+        frame_rows.append((i, len(rows)))
+        frame_written.append(as_written)
         if agree_l[i]:
             status = status_l[i]
         else:
@@ -565,6 +570,23 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
                                 f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
                                 Severity.ERROR, case=name))
+    # Likely causes: the table's own order (rows shifted, values copied) and slightly different
+    # models (verify.compare.causes), each on what is still unexplained.
+    if frame_rows and ref is not None and comparable:
+        claim_at = np.array([i for i, _ in frame_rows], dtype=np.int64)
+        row_at = np.array([r for _, r in frame_rows], dtype=np.int64)
+        frame = ClaimsFrame(model, tuple(load_names), row_at, member_pos[claim_at], k_of[claim_at], values[claim_at],
+                            computed_arr[claim_at], atol_all[claim_at], rounding_unit[claim_at] * abs(scale_fit), tol.rtol,
+                            tuple(claims.values[int(i)].where for i in claim_at), tuple(frame_written))
+        unexplained_rows = {item[0] for item in diffs if item[0] not in explained}
+        unexplained_mask = np.isin(row_at, np.fromiter(unexplained_rows, dtype=np.int64, count=len(unexplained_rows)))
+        if not indeterminate and unexplained_mask.any():
+            report = explain_causes(frame, unexplained_mask, analysis)
+            for r in row_at[report.explained].tolist():
+                rows[r] = _with_status(rows[r], "likely-cause")
+                explained.add(r)
+            findings.extend(report.findings)
+            notes.extend(report.notes)
     # A column whose claims, nearly all, follow another combination of the load cases (a different
     # load or combination factor): one finding that names the combination the claims follow; the
     # claims that do not follow it keep their own findings.
@@ -582,10 +604,15 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                 what = f"not {defined} as the case file combines '{name}': a different combination factor?"
             else:
                 what = f"not the loads of '{name}' in the case file: a different load value or load factor?"
-            findings.append(Finding("case-mismatch", tuple(item[1].member for item in covered),  # type: ignore[misc]
+            for item in covered:
+                rows[item[0]] = _with_status(rows[item[0]], "likely-cause")
+            left = len([item for item in pending if item not in covered])
+            findings.append(Finding("likely-cause", tuple(item[1].member for item in covered),  # type: ignore[misc]
                                     f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with "
-                                    f"it), {what} Its {len(covered)} claim(s) that follow it are marked value-mismatch",
-                                    Severity.ERROR, case=name))
+                                    f"it), {what} Its {len(covered)} claim(s) that follow it are marked likely-cause",
+                                    Severity.ERROR, case=name, variant=f"'{name}' as {fitted} instead of {defined}",
+                                    explains=len(covered), unexplained=left,
+                                    locations=tuple(item[1].where for item in covered[:12])))
     if indeterminate:
         # Indeterminate: differences in members that carry a state of self-stress are judged by
         # equilibrium (another stiffness assumption is not an error). A member outside every

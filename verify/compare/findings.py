@@ -21,6 +21,8 @@ class Kind:
 
 KINDS: dict[str, Kind] = {k.name: k for k in (
     Kind("mechanism", "The truss is unstable (mechanism)", 0),
+    Kind("likely-cause", "A different model explains the claims", 0),
+    Kind("inconsistent-combination", "Combination column contradicts the table's own load-case columns", 1),
     Kind("equilibrium-residual", "Claimed forces do not balance", 1),
     Kind("value-mismatch", "Claimed value differs", 2),
     Kind("case-mismatch", "Claims column fits another load case", 3),
@@ -45,6 +47,14 @@ class Finding:
     detail: str
     severity: Severity
     case: str | None = None
+    # Fields a script or test reads instead of the prose (None / empty when they do not apply).
+    variant: str | None = None  # likely-cause: the model change, in plain words
+    explains: int | None = None  # likely-cause: how many disagreeing claims the change makes agree
+    unexplained: int | None = None  # likely-cause: disagreeing claims in the same columns it leaves
+    factor: float | None = None  # a fitted factor (load, combination, dimension scale)
+    joints: tuple[str, ...] = ()  # joints the finding is about (loads moved, supports)
+    locations: tuple[str, ...] = ()  # where each claim concerned was written ("row 9, column 'dead'")
+    next_step: str | None = None  # the command that prints the hand calc for the members concerned
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:
@@ -59,6 +69,14 @@ class Finding:
                                   "severity": self.severity.value}
         if self.case is not None:
             out["case"] = self.case
+        for key in ("variant", "explains", "unexplained", "factor", "next_step"):
+            value = getattr(self, key)
+            if value is not None:
+                out[key] = value
+        if self.joints:
+            out["joints"] = list(self.joints)
+        if self.locations:
+            out["locations"] = list(self.locations)
         return out
 
 

@@ -63,6 +63,7 @@ NEUTRAL = StatusStyle("neutral", "#3A3A3A", "", "member (no claims compared)", 7
 STATUS_CATEGORY: dict[str, str] = {
     "agrees": "agrees",
     "value-mismatch": "discrepancy",
+    "likely-cause": "discrepancy",
     "zero-force-claimed": "discrepancy",
     "not-elastic": "discrepancy",
     "equilibrium-residual": "discrepancy",

@@ -1,0 +1,114 @@
+"""Likely causes: why a claimed table differs, in the one sentence a checker writes back.
+
+Explainers, in order, each on what the earlier ones left unexplained:
+
+1. a slightly different model: loads at the other chord or another joint, a load left out,
+   doubled, scaled or turned vertical, a combination factor, the supports exchanged, a dimension
+   (see :mod:`verify.compare.causes.search`);
+2. rows shifted against their labels (a row inserted or deleted in the table);
+3. a value copied from another row.
+
+The model comes first: its test (a clear majority explained, nothing that agreed broken) is the
+stricter one, and a symmetric truss repeats values that a row shift could otherwise borrow.
+
+Each returns the claims it explains and one `likely-cause` finding per cause, naming the change in
+plain words, the members and where their claims were written, and how many disagreeing claims
+remain unexplained.
+"""
+
+from __future__ import annotations
+
+import shlex
+from typing import NamedTuple
+
+import numpy as np
+
+from verify.analysis.pipeline import Analysis
+from verify.compare.causes.frame import ClaimsFrame
+from verify.compare.causes.search import search_causes
+from verify.compare.causes.table_order import copied_values, shifted_runs
+from verify.compare.findings import Finding, Severity
+
+__all__ = ["CauseReport", "ClaimsFrame", "explain_causes"]
+
+SHOWN = 12  # members and locations listed in a finding's text
+
+
+class CauseReport(NamedTuple):
+    explained: np.ndarray  # mask over the frame
+    findings: list[Finding]
+    notes: list[str]
+
+
+def explain_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+    pending = pending.copy()
+    explained = np.zeros(len(frame), dtype=bool)
+    findings: list[Finding] = []
+    base = np.zeros(len(frame))
+    source = analysis.model.source
+
+    def claim(mask: np.ndarray) -> None:
+        nonlocal pending
+        explained[mask] = True
+        pending = pending & ~mask
+
+    # 1. a slightly different model
+    result = search_causes(frame, pending, analysis)
+    for cause in result.causes:
+        columns = ", ".join(f"'{c}'" for c in frame.columns_of(cause.explained))
+        touched = np.isin(frame.column, np.unique(frame.column[cause.explained]))
+        findings.append(_finding(frame, cause.explained, cause.variant.words, cause.variant.kind, columns, source,
+                                 pending_after=int((result.unexplained & touched).sum()), factor=cause.variant.factor,
+                                 joints=cause.variant.joints))
+        claim(cause.explained)
+        base = base + cause.variant.shift
+    # 2. rows shifted against their labels: one finding for the same rows in every column
+    groups: dict[tuple[int, tuple[str, ...]], list] = {}
+    for shift in shifted_runs(frame, pending, base):
+        groups.setdefault((shift.offset, frame.member_ids(shift.explained)), []).append(shift)
+    for (offset, _), runs in groups.items():
+        mask = np.zeros(len(frame), dtype=bool)
+        for run in runs:
+            mask |= run.explained
+        first, last = runs[0].positions[0], runs[0].positions[-1]
+        columns = ", ".join(f"'{frame.load_names[r.column]}'" for r in runs)
+        way = "further down" if offset > 0 else "further up"
+        words = (f"the values sit {abs(offset)} row(s) off their labels from {frame.where[first]} to {frame.where[last]}: "
+                 f"each is the force of the member {abs(offset)} row(s) {way} (a row inserted or deleted)")
+        findings.append(_finding(frame, mask, words, "rows-shifted", columns, source, pending_after=None, factor=float(offset)))
+        claim(mask)
+
+    # 3. a value copied from another row
+    for copy in copied_values(frame, pending, base):
+        mask = np.zeros(len(frame), dtype=bool)
+        mask[copy.position] = True
+        ids = analysis.model.member_ids
+        target, origin = ids[int(frame.member[copy.position])], ids[int(frame.member[copy.source])]
+        words = (f"the value claimed for {target} ({frame.written[copy.position].strip()}) is the one claimed for {origin} "
+                 f"at {frame.where[copy.source]}, which agrees with {origin}: copied from that row")
+        findings.append(_finding(frame, mask, words, "value-copied", f"'{frame.load_names[int(frame.column[copy.position])]}'",
+                                 source, pending_after=None))
+        claim(mask)
+
+    return CauseReport(explained, findings, list(result.notes))
+
+
+def _finding(frame: ClaimsFrame, mask: np.ndarray, words: str, kind: str, columns: str, source: str, *,
+             pending_after: int | None, factor: float | None = None, joints: tuple[str, ...] = ()) -> Finding:
+    members = frame.member_ids(mask)
+    n = int(mask.sum())
+    shown = ", ".join(members[:SHOWN]) + (f" and {len(members) - SHOWN} more" if len(members) > SHOWN else "")
+    where = "; ".join(frame.locations(mask, 4))
+    rest = "" if pending_after is None else (
+        "; every other disagreeing claim in these columns is explained too" if pending_after == 0 else
+        f"; {pending_after} disagreeing claim(s) in these columns remain unexplained (listed below)")
+    cases = frame.columns_of(mask)
+    detail = (f"the claims in {columns} correspond to a model with {words}: {n} disagreeing claim(s) "
+              f"({shown}) agree with it and no claim that agreed is changed{rest}. Written at {where}"
+              + (" …" if n > 4 else "")) if kind not in ("rows-shifted", "value-copied") else (
+              f"in {columns}: {words}. {n} claim(s) explained ({shown}); written at {where}" + (" …" if n > 4 else ""))
+    step = (f"truss-verify solve {shlex.quote(source)} --show joints" + (f" --case {shlex.quote(cases[0])}" if len(cases) == 1 else "")
+            if source else None)
+    return Finding("likely-cause", members, detail, Severity.ERROR, case=cases[0] if len(cases) == 1 else None,
+                   variant=words, explains=n, unexplained=pending_after, factor=factor, joints=joints,
+                   locations=frame.locations(mask), next_step=step)

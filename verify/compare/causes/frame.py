@@ -1,0 +1,69 @@
+"""The compared member claims as arrays, and the test every explanation must pass.
+
+One entry per member claim that was judged against a recomputed force. An explainer proposes
+other recomputed values (the forces of a slightly different model, or the claims re-read in
+another row order) and asks :meth:`ClaimsFrame.agrees` which claims they make agree, with the
+very tolerance the comparison used: an explanation never loosens the test.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from verify.model import Model
+
+
+@dataclass(frozen=True)
+class ClaimsFrame:
+    """Judged member claims (case units, tension positive, the table's convention applied).
+
+    `row` is the position of each claim's row in the review, `member` and `column` its member
+    and load-column positions, `computed` the reference force, `atol` and `rounding` the
+    absolute allowances the comparison used, `where` where the claim was written.
+    """
+
+    model: Model
+    load_names: tuple[str, ...]
+    row: np.ndarray
+    member: np.ndarray
+    column: np.ndarray
+    claimed: np.ndarray
+    computed: np.ndarray
+    atol: np.ndarray
+    rounding: np.ndarray
+    rtol: float
+    where: tuple[str, ...]
+    written: tuple[str, ...]  # the cell as written (for copied-value detection)
+
+    def __len__(self) -> int:
+        return len(self.claimed)
+
+    def allowed(self, computed: np.ndarray, claimed: np.ndarray | None = None) -> np.ndarray:
+        y = self.claimed if claimed is None else claimed
+        return np.maximum(np.maximum(self.rtol * np.maximum(np.abs(y), np.abs(computed)), self.atol), self.rounding)
+
+    def agrees(self, computed: np.ndarray, claimed: np.ndarray | None = None) -> np.ndarray:
+        """Which claims agree with `computed` (same tolerance as the comparison)."""
+        y = self.claimed if claimed is None else claimed
+        with np.errstate(invalid="ignore"):
+            return np.isfinite(computed) & (np.abs(y - computed) <= self.allowed(computed, y))
+
+    def agrees_at(self, index: np.ndarray, computed: np.ndarray) -> np.ndarray:
+        """`agrees` for the claims at positions `index` only."""
+        y = self.claimed[index]
+        allowed = np.maximum(np.maximum(self.rtol * np.maximum(np.abs(y), np.abs(computed)), self.atol[index]),
+                             self.rounding[index])
+        return np.abs(y - computed) <= allowed
+
+    def member_ids(self, mask: np.ndarray) -> tuple[str, ...]:
+        ids = self.model.member_ids
+        return tuple(dict.fromkeys(ids[int(m)] for m in self.member[mask]))
+
+    def columns_of(self, mask: np.ndarray) -> tuple[str, ...]:
+        return tuple(self.load_names[int(k)] for k in sorted(set(self.column[mask].tolist())))
+
+    def locations(self, mask: np.ndarray, limit: int = 12) -> tuple[str, ...]:
+        picked = np.flatnonzero(mask)[:limit]
+        return tuple(self.where[int(i)] for i in picked)

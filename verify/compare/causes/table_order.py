@@ -1,0 +1,87 @@
+"""Causes that live in the table, not the model: rows shifted against their labels, values copied.
+
+Both read the claims in the table's own order (the frame keeps it: claims are judged in the order
+they were read, row by row).
+"""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numpy as np
+
+from verify.compare.causes.frame import ClaimsFrame
+
+SHIFTS = (1, -1, 2, -2, 3, -3)
+MIN_RUN = 3  # disagreeing rows in a run: two are a swapped pair, one a copied value at most
+
+
+class Shift(NamedTuple):
+    column: int
+    offset: int  # the value written on row i belongs to the member of row i + offset
+    positions: np.ndarray  # frame positions of the rows in the run, in table order
+    explained: np.ndarray  # mask over the frame
+
+
+class Copy(NamedTuple):
+    position: int  # the frame position of the copied (wrong) claim
+    source: int  # the frame position of the claim it repeats
+
+
+def shifted_runs(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> list[Shift]:
+    """Runs of rows whose values match the recomputed force of the member k rows away."""
+    out: list[Shift] = []
+    computed = frame.computed + base
+    for k in np.unique(frame.column[pending]).tolist():
+        order = np.flatnonzero(frame.column == k)  # table order
+        n = len(order)
+        if n < 3:
+            continue
+        taken = np.zeros(n, dtype=bool)
+        for offset in SHIFTS:
+            # value written on row i is the force of the member on row i + offset
+            ok = np.zeros(n, dtype=bool)
+            lo, hi = max(0, -offset), min(n, n - offset)
+            if hi - lo < MIN_RUN:
+                continue
+            i = np.arange(lo, hi)
+            own = order[i]
+            other = order[i + offset]
+            y = frame.claimed[own]
+            c = computed[other]
+            allowed = np.maximum(np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(c)), frame.atol[other]),
+                                 frame.rounding[own])
+            ok[i] = np.abs(y - c) <= allowed
+            ok &= ~taken
+            # maximal runs of consecutive rows that read shifted; count the disagreeing ones
+            start = None
+            for pos in range(n + 1):
+                if pos < n and ok[pos]:
+                    start = pos if start is None else start
+                    continue
+                if start is not None:
+                    run = order[start:pos]
+                    hits = pending[run]
+                    # a run must hold disagreeing rows and not merely equal neighbours
+                    if hits.sum() >= MIN_RUN and hits.sum() * 2 >= len(run):
+                        mask = np.zeros(len(frame), dtype=bool)
+                        mask[run[hits]] = True
+                        out.append(Shift(int(k), offset, run, mask))
+                        taken[start:pos] = True
+                    start = None
+    return out
+
+
+def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> list[Copy]:
+    """A disagreeing claim written exactly as another row of its column whose claim agrees."""
+    agreed = frame.agrees(frame.computed + base)
+    out: list[Copy] = []
+    for i in np.flatnonzero(pending).tolist():
+        text = frame.written[i].strip()
+        if not text or frame.claimed[i] == 0:
+            continue  # zeros repeat honestly on every idle member
+        alike = np.flatnonzero((frame.column == frame.column[i]) & agreed & (frame.claimed == frame.claimed[i]))
+        same = [int(j) for j in alike.tolist() if j != i and frame.written[j].strip() == text]
+        if same:
+            out.append(Copy(i, min(same, key=lambda j: abs(j - i))))
+    return out

@@ -1,0 +1,256 @@
+"""Plausible variants of the model, each as the change it makes to the recomputed forces.
+
+A claimant who put the traffic loads on the wrong chord, forgot a load, used another load
+factor, pinned the other support or drew the truss a little deeper produced forces that are
+exactly the forces of that *variant* of the model. Each candidate here is such a variant, named in
+plain words, with `shift`: the change of the recomputed value at every claim of the frame.
+
+Load variants are found through influence lines: the force in member m due to joint loads f is
+``t_m = -r_m . f`` where ``r_m`` is row m of A^-1, so one transposed solve per disagreeing member
+(``A^T r_m = e_m``, on the factorisation already made) prices every load variant at those
+members at once. Only the best few are then solved forward for every claim, so the test "makes
+the disagreeing claims agree and breaks none that agreed" is exact.
+
+Support and dimension variants change the matrix itself: each is a new sparse solve, so they are
+tried only on trusses up to GEOMETRY_MEMBER_LIMIT members, and a dimension is fitted with a
+bounded one-parameter search.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Callable, Iterator
+from typing import NamedTuple
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from verify.compare.causes.frame import ClaimsFrame
+from verify.formatting import fmt
+from verify.model import Joint, Model, Reaction
+
+SAMPLE_MEMBERS = 300  # disagreeing members priced by influence lines (a sample above this)
+SHORTLIST = 8  # candidates per round solved forward for every claim
+GEOMETRY_MEMBER_LIMIT = 5000  # support and dimension variants re-solve the truss: only below this
+DIMENSION_RANGE = (0.5, 2.0)  # a dimension differing by more than this is not a slip
+
+
+class Variant(NamedTuple):
+    kind: str  # "loads-other-chord", "load-moved", "load-scaled", "loads-vertical", "case-scaled",
+    #            "combination-factor", "support-moved", "dimension"
+    words: str
+    shift: np.ndarray  # change of the recomputed value at every claim of the frame
+    case: str | None = None
+    joints: tuple[str, ...] = ()
+    factor: float | None = None
+
+
+class LoadChange(NamedTuple):
+    """A change of one load case's joint loads (dofs vector) and how to say it."""
+
+    kind: str
+    case: int
+    delta: np.ndarray  # dofs
+    words: str | Callable[[float], str]  # a callable takes the fitted factor (for scaled loads)
+    joints: tuple[str, ...]
+    fitted: bool = False  # the size of the change is fitted to the claims (delta is one unit of it)
+
+
+def vertical_axis(model: Model) -> int:
+    """y in 2D, z in 3D (common practice for gravity loads in case files)."""
+    return model.dim - 1
+
+
+# -- load changes -------------------------------------------------------------------------------
+def _partner(model: Model) -> dict[int, int]:
+    """The joint directly above or below each joint (same plan position), preferring one joined
+    to it by a member (a vertical), else the nearest in height."""
+    v = vertical_axis(model)
+    xyz = model.xyz
+    span = float(np.ptp(xyz, axis=0).max()) if len(xyz) else 1.0
+    plan = np.delete(xyz, v, axis=1)
+    key = np.round(plan / (1e-6 * (span or 1.0))).astype(np.int64)
+    groups: dict[tuple[int, ...], list[int]] = {}
+    for j, k in enumerate(map(tuple, key.tolist())):
+        groups.setdefault(k, []).append(j)
+    joined: set[tuple[int, int]] = {(int(a), int(b)) for a, b in model.ends_index.tolist()}
+    joined |= {(b, a) for a, b in joined}
+    out: dict[int, int] = {}
+    for members in groups.values():
+        if len(members) < 2:
+            continue
+        for j in members:
+            others = [o for o in members if o != j]
+            linked = [o for o in others if (j, o) in joined]
+            pool = linked or others
+            out[j] = min(pool, key=lambda o: abs(xyz[o, v] - xyz[j, v]))
+    return out
+
+
+def load_changes(model: Model, cases: list[int]) -> Iterator[LoadChange]:
+    d = model.dim
+    F = model.load_matrix()
+    partner = _partner(model)
+    neighbours: dict[int, list[int]] = {}
+    for a, b in model.ends_index.tolist():
+        neighbours.setdefault(a, []).append(b)
+        neighbours.setdefault(b, []).append(a)
+    ids = model.joint_ids
+    v = vertical_axis(model)
+    for c in cases:
+        name = model.cases[c].name
+        column = F[:, c].reshape(-1, d)
+        loaded = [int(j) for j in np.flatnonzero(np.abs(column).sum(axis=1) > 0)]
+        if not loaded:
+            continue
+        # The whole case on the other chord (the joints directly above or below).
+        moved = [j for j in loaded if j in partner]
+        if moved and len(moved) * 2 >= len(loaded):
+            delta = np.zeros_like(column)
+            for j in moved:
+                delta[j] -= column[j]
+                delta[partner[j]] += column[j]
+            targets = [partner[j] for j in moved]
+            where = "above" if np.mean([model.xyz[t, v] - model.xyz[j, v] for j, t in zip(moved, targets, strict=True)]) > 0 else "below"
+            yield LoadChange("loads-other-chord", c, delta.ravel(),
+                             f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
+                             f"{_names(ids, moved)}", tuple(ids[t] for t in targets))
+        # The whole case turned vertical (a load normal to a member applied straight down or up).
+        slanted = [j for j in loaded if np.abs(np.delete(column[j], v)).max() > 1e-9 * np.abs(column[j]).max()
+                   and abs(column[j, v]) > 0]
+        if slanted:
+            delta = np.zeros_like(column)
+            for j in slanted:
+                turned = np.zeros(d)
+                turned[v] = math.copysign(float(np.linalg.norm(column[j])), column[j, v])
+                delta[j] = turned - column[j]
+            yield LoadChange("loads-vertical", c, delta.ravel(),
+                             f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
+                             "instead of in their stated directions (e.g. normal to the member they act on)",
+                             tuple(ids[j] for j in slanted))
+        # The whole case scaled (a load value or factor other than the case file's).
+        yield LoadChange("case-scaled", c, column.ravel().copy(), _case_scaled_words(name), (), fitted=True)
+        for j in loaded:
+            # One load left out, doubled, reversed or of another size.
+            delta = np.zeros_like(column)
+            delta[j] = column[j]
+            yield LoadChange("load-scaled", c, delta.ravel(), _scaled_words(name, ids[j], column[j]), (ids[j],), fitted=True)
+            # One load at the other end of a member.
+            for n in neighbours.get(j, []):
+                if np.abs(column[n]).sum() > 0 and n != partner.get(j):
+                    continue  # moving onto a loaded joint reads as that joint's load scaled
+                delta = np.zeros_like(column)
+                delta[j] -= column[j]
+                delta[n] += column[j]
+                yield LoadChange("load-moved", c, delta.ravel(), f"the '{name}' load at {ids[j]} applied at {ids[n]} instead",
+                                 (ids[j], ids[n]))
+
+
+def _case_scaled_words(case: str) -> Callable[[float], str]:
+    def words(f: float) -> str:
+        return f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or a load factor applied to the case)"
+    return words
+
+
+def _scaled_words(case: str, joint: str, vector: np.ndarray) -> Callable[[float], str]:
+    size = float(np.linalg.norm(vector))
+
+    def words(f: float) -> str:
+        if abs(f) < 1e-9:
+            return f"the '{case}' load at {joint} ({fmt(size, 4)}) left out"
+        if abs(f - 2.0) < 1e-9:
+            return f"the '{case}' load at {joint} counted twice ({fmt(2 * size, 4)} instead of {fmt(size, 4)})"
+        if abs(f + 1.0) < 1e-9:
+            return f"the '{case}' load at {joint} applied in the opposite direction"
+        return f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of {fmt(size, 4)}" + (
+            " and reversed" if f < 0 else "")
+    return words
+
+
+def _names(ids: list[str], positions: list[int], limit: int = 6) -> str:
+    names = [ids[p] for p in positions]
+    return ", ".join(names) if len(names) <= limit else f"{', '.join(names[:limit - 1])}, … {names[-1]} ({len(names)} joints)"
+
+
+# -- fitted sizes ---------------------------------------------------------------------------------
+def nice_factors(value: float) -> list[float]:
+    """Round numbers near a fitted factor, the ones a claimant would have used, plainest first."""
+    out: list[float] = []
+    for digits in (1, 2, 3):
+        if value == 0:
+            break
+        magnitude = math.floor(math.log10(abs(value)))
+        r = round(value, digits - 1 - magnitude)
+        if r not in out:
+            out.append(r)
+    for special in (0.0, 2.0, -1.0):
+        if abs(value - special) < 0.05 and special not in out:
+            out.insert(0, special)
+    return out
+
+
+def fit_scale(frame: ClaimsFrame, target: np.ndarray, unit: np.ndarray, pending: np.ndarray) -> float | None:
+    """The size s with claimed ≈ computed + s·unit at most disagreeing claims (median ratio)."""
+    usable = pending & (np.abs(unit) > frame.atol)
+    if usable.sum() < 2:
+        return None
+    ratios = target[usable] / unit[usable]
+    return float(np.median(ratios))
+
+
+# -- support and dimension variants -------------------------------------------------------------
+def support_swaps(model: Model) -> Iterator[tuple[str, Model, tuple[str, ...]]]:
+    """The restraints of two supports exchanged (the pin at the other end)."""
+    by_joint: dict[str, list[Reaction]] = {}
+    for r in model.reactions:
+        by_joint.setdefault(r.joint, []).append(r)
+    supported = list(by_joint)[:8]
+    for a_pos, a in enumerate(supported):
+        for b in supported[a_pos + 1:]:
+            ra = sorted(r.axis for r in by_joint[a])
+            rb = sorted(r.axis for r in by_joint[b])
+            if ra == rb:
+                continue
+            swapped = []
+            for r in model.reactions:
+                if r.joint == a:
+                    continue
+                if r.joint == b:
+                    continue
+                swapped.append(r)
+            swapped += [Reaction(b, r.direction, r.axis) for r in by_joint[a]]
+            swapped += [Reaction(a, r.direction, r.axis) for r in by_joint[b]]
+            words = (f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as {b} is "
+                     f"({', '.join(rb)}) — e.g. the pin at the other end")
+            yield words, dataclasses.replace(model, reactions=tuple(swapped)), (a, b)
+
+
+AXIS_NAMES = {0: ("x", "span (x extent)"), 1: ("y", "depth (y extent)"), 2: ("z", "height (z extent)")}
+
+
+def scaled_model(model: Model, axis: int, s: float) -> Model:
+    base = float(model.xyz[:, axis].min())
+    joints = tuple(Joint(j.id, tuple(base + (c - base) * s if a == axis else c for a, c in enumerate(j.coords)))
+                   for j in model.joints)
+    return dataclasses.replace(model, joints=joints)
+
+
+def solve_members(model: Model, columns: np.ndarray) -> np.ndarray | None:
+    """Member forces of a (variant) model for the given load columns; None when it cannot be solved."""
+    from verify.analysis.equilibrium import assemble_equilibrium
+
+    A = assemble_equilibrium(model)
+    if A.shape[0] != A.shape[1]:
+        return None
+    try:
+        lu = spla.splu(sp.csc_matrix(A), permc_spec="COLAMD" if model.dim == 2 else "MMD_ATA")
+    except RuntimeError:  # exactly singular: the variant is a mechanism
+        return None
+    F = model.load_matrix()[:, columns]
+    t = lu.solve(-np.asarray(F, dtype=float))
+    t = np.asarray(t).reshape(A.shape[1], -1)[: len(model.members)]
+    if not np.isfinite(t).all() or np.abs(t).max() > 1e6 * max(np.abs(F).max(), 1e-300) * max(len(model.members), 1):
+        return None  # near-singular: a near-mechanism is no explanation
+    return t
