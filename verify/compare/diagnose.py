@@ -36,6 +36,7 @@ from verify.compare.convention import (
     possible_factors,
 )
 from verify.compare.findings import Finding, Severity, ordered
+from verify.compare.implied import ImpliedLoads, implied_loads
 from verify.compare.tolerances import (
     Tolerance,
     decimals_as_written,
@@ -130,6 +131,7 @@ class Review:
     imbalances: tuple[JointImbalance, ...] = ()
     notes: tuple[str, ...] = field(default=())
     displacements: object | None = None  # verify.compare.displacements.DisplacementCheck
+    implied: ImpliedLoads | None = None  # the loads the claims balance, where they differ
 
     @property
     def exit_code(self) -> int:
@@ -697,7 +699,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
 
     # Equilibrium of the claims themselves.
     imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix)
-    for name, count in checkable_joints(model, claimed_matrix, load_names).items():
+    checkable = checkable_joints(model, claimed_matrix, load_names)
+    implied = implied_loads(model, imbalances, checkable)
+    for name, count in checkable.items():
         off = sum(1 for b in imbalances if b.case == name)
         if count == 0:
             notes.append(f"equilibrium of the claims in '{name}': no joint has a claim for every member meeting there, "
@@ -730,7 +734,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         if verdict is Verdict.AGREES:
             verdict = Verdict.CANNOT_VERIFY
     return Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
-                  checked_members, tuple(imbalances), tuple(notes))
+                  checked_members, tuple(imbalances), tuple(notes), implied=implied)
 
 
 def _self_stress_members(analysis: Analysis) -> set[str] | None:

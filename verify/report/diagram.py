@@ -149,6 +149,7 @@ def render_diagram(
     load_name: str | None = None,
     caption: str = "",
     legend: bool = True,
+    implied: np.ndarray | None = None,
 ) -> str:
     """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain words.
 
@@ -161,7 +162,7 @@ def render_diagram(
     if load_name is not None and load_name in model.load_names:
         loads = model.load_matrix()[:, model.load_names.index(load_name)]
     views = views_for(model)
-    svgs = [_svg(model, view, force_arr, statuses, loads) for view in views]
+    svgs = [_svg(model, view, force_arr, statuses, loads, implied) for view in views]
     parts = ['<figure class="truss">']
     for view, svg in zip(views, svgs, strict=True):
         parts.append(
@@ -200,6 +201,7 @@ def _svg(
     forces: np.ndarray | None,
     statuses: Mapping[str, str] | None,
     loads: np.ndarray | None,
+    implied: np.ndarray | None = None,
 ) -> str:
     ax, ay = view.axes
     pts = model.xyz[:, [ax, ay]] if len(model.joints) else np.zeros((0, 2))
@@ -280,6 +282,11 @@ def _svg(
     out.extend(_supports(model, view, sx, sy, arrows))
     if loads is not None:
         out.extend(_loads(model, view, sx, sy, loads, arrows))
+    if implied is not None:
+        # The loads the claims balance, dashed and in another colour, scaled with the case's own
+        # so that the two sets of arrows compare at a glance.
+        out.extend(_loads(model, view, sx, sy, implied, arrows, style=IMPLIED_STYLE,
+                          largest=_largest_load(model, loads, implied)))
 
     joints = [
         f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
@@ -443,21 +450,31 @@ def _loads(
     sy: np.ndarray,
     loads: np.ndarray,
     arrows: dict[int, tuple[float, float]],
+    *,
+    style: tuple[str, str, str] = ("loads", "#5A3E99", ""),
+    largest: float | None = None,
 ) -> list[str]:
-    """Load arrows; `arrows` receives, per joint, the screen direction the arrow's body takes."""
+    """Load arrows; `arrows` receives, per joint, the screen direction the arrow's body takes.
+
+    `style` is (css class, colour, dash pattern); `largest` the load drawn at full arrow length.
+    """
     d = model.dim
     ax, ay = view.axes
     vectors = loads.reshape(len(model.joints), d)
     magnitude = np.linalg.norm(vectors, axis=1)
-    largest = float(magnitude.max()) if magnitude.size else 0.0
+    if largest is None:
+        largest = float(magnitude.max()) if magnitude.size else 0.0
     if largest <= 0:
         return []
+    css, colour, dash = style
+    dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
+    prefix = "claims balance " if css != "loads" else ""
     unit = model.units.force.symbol
     neighbours: list[list[int]] = [[] for _ in model.joints]
     for a, b in model.ends_index.tolist():
         neighbours[a].append(b)
         neighbours[b].append(a)
-    out = ['<g class="loads" stroke="#5A3E99" fill="#5A3E99" font-size="11.5">']
+    out = [f'<g class="{css}" stroke="{colour}" fill="{colour}" font-size="11.5">']
     for j in range(len(model.joints)):
         if magnitude[j] <= 1e-12 * largest:
             continue
@@ -484,13 +501,13 @@ def _loads(
         hx, hy = tx - ux * head, ty - uy * head
         px, py = -uy * head * 0.45, ux * head * 0.45
         out.append(
-            f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"/>'
+            f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"{dash_attr}/>'
             f'<polygon points="{_n(tx)},{_n(ty)} {_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>'
         )
         ex, ey = label_x - sx[j], label_y - sy[j]
         el = math.hypot(ex, ey) or 1.0
         ex, ey = ex / el, ey / el
-        text = f"{fmt(float(magnitude[j]), 3)} {unit}"
+        text = f"{prefix}{fmt(float(magnitude[j]), 3)} {unit}"
         lx, ly = label_x, label_y + (4 if abs(ey) < 0.5 else (12 if ey > 0 else -3))
         anchor = "middle" if abs(ex) < 0.5 else ("start" if ex > 0 else "end")
         out.append(
@@ -498,6 +515,14 @@ def _loads(
         )
     out.append("</g>")
     return out
+
+
+IMPLIED_STYLE = ("implied-loads", "#D55E00", "5 3")  # orange, dashed: distinct from the case's solid purple
+
+
+def _largest_load(model: Model, loads: np.ndarray | None, implied: np.ndarray) -> float:
+    both = [implied] if loads is None else [loads, implied]
+    return max(float(np.linalg.norm(v.reshape(len(model.joints), model.dim), axis=1).max()) for v in both)
 
 
 def _add(a: tuple[float, float] | None, b: tuple[float, float]) -> tuple[float, float]:

@@ -253,6 +253,8 @@ def finding_sentence(f: Finding) -> str:
             else ""
         )
         detail += f" Members: {shown}{more}."
+    if f.next_step:
+        detail += f" Next step: {f.next_step}"
     return detail
 
 
@@ -661,6 +663,14 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
         out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
     out.append("</section>")
 
+    loads_table = implied_table(review)
+    if loads_table is not None:
+        out.append(f'<section id="implied-loads"><h2>{_e(loads_table.title)}</h2><p>{_e(loads_table.intro)}</p>')
+        out.append(_html_table(loads_table.header, loads_table.rows, loads_table.statuses, css="members"))
+        if loads_table.note:
+            out.append(f"<p>{_e(loads_table.note)}</p>")
+        out.append("</section>")
+
     out.append('<section id="members"><h2>Member table</h2>')
     for table in member_tables(review):
         out.append(f"<h3>{_e(table.title)}</h3><p>{_e(table.intro)}</p>")
@@ -724,6 +734,10 @@ def diagrams_html(review: Review) -> list[str]:
         if ref is None:
             caption += " No force could be recomputed, so members are drawn without tension or compression."
         out.append(f"<h3>{_e(_load_label(review, name))}</h3>")
+        implied = implied_vector(review, name)
+        if implied is not None:
+            caption += (" Dashed orange arrows: the loads the claimed forces balance, at the joints where they differ "
+                        "from the case's loads (solid arrows).")
         out.append(
             render_diagram(
                 model,
@@ -732,9 +746,49 @@ def diagrams_html(review: Review) -> list[str]:
                 load_name=name,
                 caption=caption,
                 legend=False,
+                implied=implied,
             )
         )
     return out
+
+
+def implied_vector(review: Review, name: str) -> np.ndarray | None:
+    """The loads the claims balance in load column `name`, at the joints where they differ (dofs)."""
+    if review.implied is None:
+        return None
+    model = review.analysis.model
+    items = [item for item in review.implied.differing if item.case == name]
+    if not items:
+        return None
+    d = model.dim
+    out = np.zeros(model.dofs)
+    for item in items:
+        j = model.joint_index[item.joint]
+        out[j * d:(j + 1) * d] = item.implied
+    return out
+
+
+def implied_table(review: Review, limit: int = 200) -> Table | None:
+    implied = review.implied
+    if implied is None or not implied.differing:
+        return None
+    unit = review.analysis.model.units.force.symbol
+    rows = [(item.joint + (" (support)" if item.supported else ""), item.case, _vec(item.load), _vec(item.implied),
+             _vec(item.difference)) for item in implied.differing[:limit]]
+    undetermined = {n: k for n, k in implied.undetermined.items() if k}
+    intro = (f"Read backwards, joint equilibrium gives the external force the claimed forces balance at every joint "
+             f"where each member has a claim ({unit}, global axes). Listed: the joints where it differs from the case's "
+             "load. At a support, an unclaimed reaction takes up its own direction, so only the free directions tell.")
+    if undetermined:
+        intro += " Not determined (a member there has no claim): " + ", ".join(
+            f"{k} joint(s) in '{n}'" for n, k in undetermined.items()) + "."
+    note = f"{len(implied.differing) - limit} more joints in --json." if len(implied.differing) > limit else ""
+    return Table("Loads the claims balance", intro, ("joint", "load column", "case load", "claims balance", "difference"),
+                 tuple(rows), tuple("" for _ in rows), note)
+
+
+def _vec(values: tuple[float, ...]) -> str:
+    return "(" + ", ".join(fmt(v) for v in values) + ")"
 
 
 # -- Markdown ------------------------------------------------------------------------------------
@@ -820,6 +874,12 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
             )
     else:
         out.append("No findings: every claim checked agrees within tolerance.")
+    loads_table = implied_table(review)
+    if loads_table is not None:
+        out += ["", f"## {_m(loads_table.title)}", "", _m(loads_table.intro), ""]
+        out.extend(_md_table(loads_table.header, loads_table.rows))
+        if loads_table.note:
+            out += ["", _m(loads_table.note)]
     legend = "; ".join(
         f"{s.marker} = {s.words}"
         for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank)

@@ -107,6 +107,9 @@ def check_json(review: Any) -> dict[str, Any]:
             {"joint": b.joint, "case": b.case, "residual": list(b.residual), "size": b.size}
             for b in review.imbalances
         ],
+        "implied_loads": review.implied.by_case() if review.implied is not None else {},
+        "implied_load_table": [item.as_dict() for item in review.implied.differing] if review.implied is not None else [],
+        "units": {"length": model.units.length.symbol, "force": model.units.force.symbol},
         "inputs": {"case": model.source, "case_sha256": sha256_file(model.source), "claims": review.claims.source,
                    "claims_sha256": review.claims.sha256},
         "tool": {"name": "truss-verify", "version": __version__},

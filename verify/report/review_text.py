@@ -34,6 +34,28 @@ def _row_cells(row: Row) -> list[str]:
             fmt(row.difference), row.status]
 
 
+def _vector(values: tuple[float, ...]) -> str:
+    return "(" + ", ".join(fmt(v) for v in values) + ")"
+
+
+def implied_lines(review: Review, limit: int = 40) -> list[str]:
+    """The loads the claims balance, at the joints where they differ from the case's loads."""
+    implied = review.implied
+    if implied is None or not implied.differing:
+        return []
+    unit = review.analysis.model.units.force.symbol
+    undetermined = {n: k for n, k in implied.undetermined.items() if k}
+    told = ("; not determined at " + ", ".join(f"{k} joint(s) in '{n}'" for n, k in undetermined.items())
+            + " (a member there has no claim)") if undetermined else ""
+    rows = [[item.joint + (" (support)" if item.supported else ""), item.case, _vector(item.load), _vector(item.implied),
+             _vector(item.difference)] for item in implied.differing[:limit]]
+    out = ["", f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, global axes{told}):",
+           plain_table(["joint", "load column", "case load", "claims balance", "difference"], rows)]
+    if len(implied.differing) > limit:
+        out.append(f"({len(implied.differing) - limit} more joints: --json or --report lists them all)")
+    return out
+
+
 def render_review(review: Review, *, all_rows: bool = False) -> str:
     model = review.analysis.model
     c = review.convention
@@ -53,6 +75,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         lines.append("Findings (most serious first):")
         for f in review.findings:
             lines.append(f"  [{f.severity.value}] {f.kind}: {f.detail}")
+            if f.next_step:
+                lines.append(f"      next step: {f.next_step}")
     else:
         lines.append("Findings: none")
     lines.append("")
@@ -76,6 +100,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
             [r.id, r.case, fmt(None if r.claimed is None else r.claimed * factor_mm),
              fmt(None if r.elastic is None else r.elastic * factor_mm),
              fmt(None if r.difference is None else r.difference * factor_mm), r.status] for r in displacement_rows]))
+    lines.extend(implied_lines(review))
     missing = sum(1 for r in review.rows if r.status == "missing-claim")
     if missing and not all_rows:
         lines.append(f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)")

@@ -103,8 +103,8 @@ def _finding(frame: ClaimsFrame, mask: np.ndarray, words: str, kind: str, column
         "; every other disagreeing claim in these columns is explained too" if pending_after == 0 else
         f"; {pending_after} disagreeing claim(s) in these columns remain unexplained (listed below)")
     cases = frame.columns_of(mask)
-    detail = (f"the claims in {columns} correspond to a model with {words}: {n} disagreeing claim(s) "
-              f"({shown}) agree with it and no claim that agreed is changed{rest}. Written at {where}"
+    detail = (f"the claims in {columns} correspond to {words}: with that change {n} disagreeing claim(s) "
+              f"({shown}) agree and no claim that agreed is changed{rest}. Written at {where}"
               + (" …" if n > 4 else "")) if kind not in ("rows-shifted", "value-copied") else (
               f"in {columns}: {words}. {n} claim(s) explained ({shown}); written at {where}" + (" …" if n > 4 else ""))
     step = (f"truss-verify solve {shlex.quote(source)} --show joints" + (f" --case {shlex.quote(cases[0])}" if len(cases) == 1 else "")
