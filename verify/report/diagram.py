@@ -468,7 +468,8 @@ def _loads(
         return []
     css, colour, dash = style
     dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
-    prefix = "claims balance " if css != "loads" else ""
+    # Implied loads carry the rounding of the claims: an arrow a fiftieth of the largest is noise.
+    smallest = 0.02 * largest if css != "loads" else 1e-12 * largest
     unit = model.units.force.symbol
     neighbours: list[list[int]] = [[] for _ in model.joints]
     for a, b in model.ends_index.tolist():
@@ -476,7 +477,7 @@ def _loads(
         neighbours[b].append(a)
     out = [f'<g class="{css}" stroke="{colour}" fill="{colour}" font-size="11.5">']
     for j in range(len(model.joints)):
-        if magnitude[j] <= 1e-12 * largest:
+        if magnitude[j] <= smallest:
             continue
         vx, vy = float(vectors[j, ax]), -float(vectors[j, ay])
         shown = math.hypot(vx, vy)
@@ -507,7 +508,7 @@ def _loads(
         ex, ey = label_x - sx[j], label_y - sy[j]
         el = math.hypot(ex, ey) or 1.0
         ex, ey = ex / el, ey / el
-        text = f"{prefix}{fmt(float(magnitude[j]), 3)} {unit}"
+        text = f"{fmt(float(magnitude[j]), 3)} {unit}"
         lx, ly = label_x, label_y + (4 if abs(ey) < 0.5 else (12 if ey > 0 else -3))
         anchor = "middle" if abs(ex) < 0.5 else ("start" if ex > 0 else "end")
         out.append(
@@ -596,6 +597,16 @@ def legend_html(
             '<line x1="4" y1="9" x2="44" y2="9" stroke="#5A3E99" stroke-width="2"/>'
             '<polygon points="52,9 44,5.4 44,12.6" fill="#5A3E99"/></svg>',
             f"applied joint load of the load column drawn, with its size in {unit}",
+        )
+    )
+    rows.append(
+        (
+            "load",
+            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
+            '<line x1="4" y1="9" x2="44" y2="9" stroke="#D55E00" stroke-width="2" stroke-dasharray="5 3"/>'
+            '<polygon points="52,9 44,5.4 44,12.6" fill="#D55E00"/></svg>',
+            f"dashed orange arrow: the load the claimed forces balance at that joint, where it differs from the "
+            f"case's load (size in {unit})",
         )
     )
     cells = "".join(
