@@ -429,6 +429,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     seen_pairs: set[tuple[str, str]] = set()
     frame_rows: list[tuple[int, int]] = []  # (claim index, row index) of member claims compared
     frame_written: list[str] = []
+    rounding_of_row: dict[int, float] = {}  # the rounding allowance of each disagreeing member claim
     # Member claims are judged all at once (arrays); the loop below only assembles rows.
     n_claims = len(claims.values)
     k_of = np.array([load_names.index(mapping[v.column]) if mapping.get(v.column) else -1  # type: ignore[arg-type]
@@ -496,8 +497,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             if status == "value-mismatch" and computed is not None:
                 why = "" if matches else f": the support at {joint} does not restrain {axis}, so it has no reaction along it"
                 findings.append(Finding("value-mismatch", (f"{joint}.{axis}",), f"reaction {joint}.{axis} in '{name}': claimed "
-                                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why}", Severity.ERROR,
-                                        case=name))
+                                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} [written {written}]",
+                                        Severity.ERROR, case=name, locations=(v.where,)))
             continue
         if not judged_l[i]:
             continue
@@ -518,6 +519,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         else:
             status = "value-mismatch"
             diffs.append((len(rows), v, value, computed_l[i], allowed_l[i]))
+            rounding_of_row[len(rows)] = float(rounding_unit[i]) * abs(scale_fit)
         rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
                         value - computed, status))
 
@@ -527,8 +529,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     for item in diffs:
         by_case.setdefault(rows[item[0]].case, []).append(item)
     for name, items in by_case.items():
-        if len(items) > 2000 or indeterminate:
-            continue  # a table this wrong is not a pair of swapped labels
+        if len(items) > 2000 or (indeterminate and analysis.assumed_EA is not None):
+            # A table this wrong is not a pair of swapped labels; against an assumed EA the
+            # elastic forces are no evidence of which value belongs to which member.
+            continue
         for a in range(len(items)):
             for b in range(a + 1, len(items)):
                 ra, va, xa, ca, _ = items[a]
@@ -543,7 +547,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                         rows[r] = _with_status(rows[r], "swapped-labels")
                     findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
                                             f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
-                                            f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name))
+                                            f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name,
+                                            locations=(va.where, vb.where)))
     # The same two rows swapped in several load columns: one finding for the pair, not one per column.
     by_pair: dict[frozenset[str], list[Finding]] = {}
     for f in findings:
@@ -557,7 +562,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         findings = [f for f in findings if f not in group]
         findings.append(Finding("swapped-labels", first.members, f"the claims for {first.members[0]} and {first.members[1]} "
                                 f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
-                                "look swapped", Severity.ERROR))
+                                "look swapped", Severity.ERROR,
+                                locations=tuple(loc for f in group for loc in f.locations)))
     # A load column claimed as nothing but zeros (a template column never filled in) is one
     # finding, not one per member.
     for name, items in by_case.items():
@@ -622,9 +628,11 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         # below, and taken out of the equilibrium search with its recomputed value.
         in_self_stress = _self_stress_members(analysis)
         fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
-        loose = [item for item in diffs if item not in fixed_by_statics]
+        loose = [item for item in diffs if item not in fixed_by_statics and item[0] not in explained]
         balance_claims = claimed_matrix.copy()
-        for r, v, _, computed, _ in fixed_by_statics:
+        # Members judged elsewhere (fixed by statics, or a swapped pair already named) enter the
+        # equilibrium search with their recomputed values, so their imbalance is not blamed twice.
+        for r, v, _, computed, _ in fixed_by_statics + [item for item in diffs if item[0] in explained]:
             balance_claims[model.member_index[v.member], load_names.index(rows[r].case)] = computed  # type: ignore[index]
         findings.extend(_explain_indeterminate(analysis, rows, loose, balance_claims, reaction_claims, load_names, tol,
                                                case_unit.symbol, rounding_matrix))
@@ -637,17 +645,23 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         name = rows[r].case
         written_at = f" [written {rows[r].written}]"
         atol = tol.atol_fraction * scale_of.get(name, 0.0)
-        rounding = rounding_allowance(v.value, 1.0)
+        where_written = (v.where,)
         if abs(computed) <= atol:
             rows[r] = _with_status(rows[r], "zero-force-claimed")
             findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {fmt(value)} {case_unit.symbol}, "
-                                    "but it is a zero-force member under this loading" + written_at, Severity.ERROR, case=name))
+                                    "but it is a zero-force member under this loading" + written_at, Severity.ERROR, case=name,
+                                    locations=where_written))
             continue
-        if tol.agrees(-value, computed, atol, rounding):
+        # A sign flip: opposite signs and the same size, within the relative tolerance or the
+        # claim's own rounding (never the absolute allowance, and never a claimed zero: 0.00 for
+        # -0.437 is a wrong value, not a reversed one).
+        same_size = abs(abs(value) - abs(computed)) <= max(tol.rtol * abs(computed), rounding_of_row.get(r, 0.0))
+        if value * computed < 0 and same_size:
             rows[r] = _with_status(rows[r], "sign-flip")
             how = "the T/C mark" if v.sign_fixed else "the sign"
             findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {fmt(value)} but recomputed {fmt(computed)} "
-                                    f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name))
+                                    f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name,
+                                    locations=where_written))
             continue
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol, slip_ratios)
@@ -655,12 +669,13 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             rows[r] = _with_status(rows[r], "unit-scale")
             findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
                                     f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {named_ratio(unit_factor)}"
-                                    + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name))
+                                    + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name,
+                                    locations=where_written))
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
         findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
                                 f"{case_unit.symbol} (difference {'+' if value >= computed else '-'}{fmt(abs(value - computed))}, {pct:.1f} %; allowed {fmt(allowed, 3)})" + written_at,
-                                Severity.ERROR, case=name))
+                                Severity.ERROR, case=name, locations=where_written))
 
 
     for f in findings:
