@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import re
 from collections import Counter
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from enum import StrEnum
 from typing import Any, NamedTuple
@@ -24,7 +25,13 @@ from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
 from verify.compare.balance import JointImbalance, checkable_joints, claims_balance
-from verify.compare.causes import ClaimsFrame, explain_causes
+from verify.compare.causes import (
+    CauseReport,
+    ClaimsFrame,
+    explain_copies,
+    explain_model,
+    explain_shifted_rows,
+)
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
@@ -523,8 +530,34 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
                         value - computed, status))
 
-    # Explain the mismatches: swapped pairs first (they need two rows), then single causes.
+    # Explain the mismatches: rows shifted, swapped pairs (they need two rows), a column left
+    # unfilled, a different model, values copied; then single causes.
     explained: set[int] = set()
+    frame: ClaimsFrame | None = None
+    if frame_rows and ref is not None and comparable:
+        claim_at = np.array([i for i, _ in frame_rows], dtype=np.int64)
+        row_at = np.array([r for _, r in frame_rows], dtype=np.int64)
+        frame = ClaimsFrame(model, tuple(load_names), row_at, member_pos[claim_at], k_of[claim_at], values[claim_at],
+                            computed_arr[claim_at], atol_all[claim_at], rounding_unit[claim_at] * abs(scale_fit), tol.rtol,
+                            tuple(claims.values[int(i)].where for i in claim_at), tuple(frame_written))
+
+    def apply_cause(explainer: Callable[[ClaimsFrame, np.ndarray, Analysis], CauseReport]) -> None:
+        """Run one explainer of verify.compare.causes on the disagreeing rows not yet explained."""
+        if frame is None:
+            return
+        open_rows = [item[0] for item in diffs if item[0] not in explained]
+        pending_mask = np.isin(frame.row, np.array(open_rows, dtype=np.int64))
+        if not pending_mask.any():
+            return
+        report = explainer(frame, pending_mask, analysis)
+        for r in frame.row[report.explained].tolist():
+            rows[r] = _with_status(rows[r], "likely-cause")
+            explained.add(r)
+        findings.extend(report.findings)
+        notes.extend(report.notes)
+
+    # Likely causes, 1 of 3: rows shifted against their labels.
+    apply_cause(explain_shifted_rows)
     by_case: dict[str, list[tuple[int, ClaimedValue, float, float, float]]] = {}
     for item in diffs:
         by_case.setdefault(rows[item[0]].case, []).append(item)
@@ -578,23 +611,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
                                 f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
                                 Severity.ERROR, case=name))
-    # Likely causes: the table's own order (rows shifted, values copied) and slightly different
-    # models (verify.compare.causes), each on what is still unexplained.
-    if frame_rows and ref is not None and comparable:
-        claim_at = np.array([i for i, _ in frame_rows], dtype=np.int64)
-        row_at = np.array([r for _, r in frame_rows], dtype=np.int64)
-        frame = ClaimsFrame(model, tuple(load_names), row_at, member_pos[claim_at], k_of[claim_at], values[claim_at],
-                            computed_arr[claim_at], atol_all[claim_at], rounding_unit[claim_at] * abs(scale_fit), tol.rtol,
-                            tuple(claims.values[int(i)].where for i in claim_at), tuple(frame_written))
-        unexplained_rows = {item[0] for item in diffs if item[0] not in explained}
-        unexplained_mask = np.isin(row_at, np.fromiter(unexplained_rows, dtype=np.int64, count=len(unexplained_rows)))
-        if not indeterminate and unexplained_mask.any():
-            report = explain_causes(frame, unexplained_mask, analysis)
-            for r in row_at[report.explained].tolist():
-                rows[r] = _with_status(rows[r], "likely-cause")
-                explained.add(r)
-            findings.extend(report.findings)
-            notes.extend(report.notes)
+    # Likely causes, 2 of 3: a slightly different model (verify.compare.causes).
+    if not indeterminate:
+        apply_cause(explain_model)
     # A column whose claims, nearly all, follow another combination of the load cases (a different
     # load or combination factor): one finding that names the combination the claims follow; the
     # claims that do not follow it keep their own findings.
@@ -621,6 +640,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                     Severity.ERROR, case=name, variant=f"'{name}' as {fitted} instead of {defined}",
                                     explains=len(covered), unexplained=left,
                                     locations=tuple(item[1].where for item in covered[:12])))
+    # Likely causes, 3 of 3: a value copied from another row.
+    apply_cause(explain_copies)
     if indeterminate:
         # Indeterminate: differences in members that carry a state of self-stress are judged by
         # equilibrium (another stiffness assumption is not an error). A member outside every

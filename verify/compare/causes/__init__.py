@@ -1,15 +1,15 @@
 """Likely causes: why a claimed table differs, in the one sentence a checker writes back.
 
-Explainers, in order, each on what the earlier ones left unexplained:
+Explainers, each on what the earlier ones left unexplained (the comparison calls them in turn,
+between its own steps):
 
-1. a slightly different model: loads at the other chord or another joint, a load left out,
+1. rows shifted against their labels (a row inserted or deleted in the table) — before swapped
+   pairs, which a shifted run on a symmetric truss imitates;
+2. a slightly different model: loads at the other chord or another joint, a load left out,
    doubled, scaled or turned vertical, a combination factor, the supports exchanged, a dimension
    (see :mod:`verify.compare.causes.search`);
-2. rows shifted against their labels (a row inserted or deleted in the table);
-3. a value copied from another row.
-
-The model comes first: its test (a clear majority explained, nothing that agreed broken) is the
-stricter one, and a symmetric truss repeats values that a row shift could otherwise borrow.
+3. a value copied from another row — last, after swapped pairs and the model, because a mirror
+   member of a symmetric truss carries the same value honestly.
 
 Each returns the claims it explains and one `likely-cause` finding per cause, naming the change in
 plain words, the members and where their claims were written, and how many disagreeing claims
@@ -26,10 +26,10 @@ import numpy as np
 from verify.analysis.pipeline import Analysis
 from verify.compare.causes.frame import ClaimsFrame
 from verify.compare.causes.search import search_causes
-from verify.compare.causes.table_order import copied_values, shifted_runs
+from verify.compare.causes.table_order import Shift, copied_values, shifted_runs
 from verify.compare.findings import Finding, Severity
 
-__all__ = ["CauseReport", "ClaimsFrame", "explain_causes"]
+__all__ = ["CauseReport", "ClaimsFrame", "explain_copies", "explain_model", "explain_shifted_rows"]
 
 SHOWN = 12  # members and locations listed in a finding's text
 
@@ -40,32 +40,15 @@ class CauseReport(NamedTuple):
     notes: list[str]
 
 
-def explain_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
-    pending = pending.copy()
-    explained = np.zeros(len(frame), dtype=bool)
-    findings: list[Finding] = []
-    base = np.zeros(len(frame))
-    source = analysis.model.source
-
-    def claim(mask: np.ndarray) -> None:
-        nonlocal pending
-        explained[mask] = True
-        pending = pending & ~mask
-
-    # 1. a slightly different model
-    result = search_causes(frame, pending, analysis)
-    for cause in result.causes:
-        columns = ", ".join(f"'{c}'" for c in frame.columns_of(cause.explained))
-        touched = np.isin(frame.column, np.unique(frame.column[cause.explained]))
-        findings.append(_finding(frame, cause.explained, cause.variant.words, cause.variant.kind, columns, source,
-                                 pending_after=int((result.unexplained & touched).sum()), factor=cause.variant.factor,
-                                 joints=cause.variant.joints))
-        claim(cause.explained)
-        base = base + cause.variant.shift
-    # 2. rows shifted against their labels: one finding for the same rows in every column
-    groups: dict[tuple[int, tuple[str, ...]], list] = {}
-    for shift in shifted_runs(frame, pending, base):
+def explain_shifted_rows(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+    """Runs of rows whose values belong to the member a few rows away: one finding for the same
+    rows in every column. Runs first: on a symmetric truss a shifted run also reads as pairs of
+    mirror members swapped, or as values copied from a mirror member."""
+    groups: dict[tuple[int, tuple[str, ...]], list[Shift]] = {}
+    for shift in shifted_runs(frame, pending, np.zeros(len(frame))):
         groups.setdefault((shift.offset, frame.member_ids(shift.explained)), []).append(shift)
+    explained = np.zeros(len(frame), dtype=bool)
+    findings = []
     for (offset, _), runs in groups.items():
         mask = np.zeros(len(frame), dtype=bool)
         for run in runs:
@@ -75,22 +58,42 @@ def explain_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) 
         way = "further down" if offset > 0 else "further up"
         words = (f"the values sit {abs(offset)} row(s) off their labels from {frame.where[first]} to {frame.where[last]}: "
                  f"each is the force of the member {abs(offset)} row(s) {way} (a row inserted or deleted)")
-        findings.append(_finding(frame, mask, words, "rows-shifted", columns, source, pending_after=None, factor=float(offset)))
-        claim(mask)
+        findings.append(_finding(frame, mask, words, "rows-shifted", columns, analysis.model.source, pending_after=None,
+                                 factor=float(offset)))
+        explained |= mask
+    return CauseReport(explained, findings, [])
 
-    # 3. a value copied from another row
-    for copy in copied_values(frame, pending, base):
+
+def explain_model(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+    """A slightly different model (verify.compare.causes.search)."""
+    result = search_causes(frame, pending, analysis)
+    explained = np.zeros(len(frame), dtype=bool)
+    findings = []
+    for cause in result.causes:
+        columns = ", ".join(f"'{c}'" for c in frame.columns_of(cause.explained))
+        touched = np.isin(frame.column, np.unique(frame.column[cause.explained]))
+        findings.append(_finding(frame, cause.explained, cause.variant.words, cause.variant.kind, columns,
+                                 analysis.model.source, pending_after=int((result.unexplained & touched).sum()),
+                                 factor=cause.variant.factor, joints=cause.variant.joints))
+        explained |= cause.explained
+    return CauseReport(explained, findings, list(result.notes))
+
+
+def explain_copies(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+    """A disagreeing value written exactly as another row whose claim agrees: copied from it."""
+    explained = np.zeros(len(frame), dtype=bool)
+    findings = []
+    ids = analysis.model.member_ids
+    for copy in copied_values(frame, pending, np.zeros(len(frame))):
         mask = np.zeros(len(frame), dtype=bool)
         mask[copy.position] = True
-        ids = analysis.model.member_ids
         target, origin = ids[int(frame.member[copy.position])], ids[int(frame.member[copy.source])]
         words = (f"the value claimed for {target} ({frame.written[copy.position].strip()}) is the one claimed for {origin} "
                  f"at {frame.where[copy.source]}, which agrees with {origin}: copied from that row")
         findings.append(_finding(frame, mask, words, "value-copied", f"'{frame.load_names[int(frame.column[copy.position])]}'",
-                                 source, pending_after=None))
-        claim(mask)
-
-    return CauseReport(explained, findings, list(result.notes))
+                                 analysis.model.source, pending_after=None))
+        explained |= mask
+    return CauseReport(explained, findings, [])
 
 
 def _finding(frame: ClaimsFrame, mask: np.ndarray, words: str, kind: str, columns: str, source: str, *,

@@ -38,7 +38,9 @@ from verify.formatting import fmt
 MAX_CAUSES = 3
 MIN_EXPLAINED = 3  # one or two claims are per-member findings, not a model
 CLEAR_MISS = 2.0  # a claim "clearly wrong" misses by this many times its allowance
-FIRST_CHOICES = 4  # first causes whose chains are followed
+FIRST_CHOICES = 4
+ALIKE = "; or, equally for these claims, "
+MAX_ALIKE = 2  # other readings named beside the closest  # first causes whose chains are followed
 CLEAR_MAJORITY = 2 / 3  # of the disagreeing claims in the columns the causes touch
 MIN_PURITY = 0.5  # of the disagreeing claims a variant changes, the share it must make agree
 
@@ -71,18 +73,19 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     # 1.5 x dead on chords that see both loads alike), and the chain then explains less.
     chains = []
     for first in _round(frame, start, np.zeros(len(frame)), start, agreed, analysis, geometry)[:FIRST_CHOICES]:
-        causes = [Cause(first.variant, first.explained)]
+        steps = [first]
         pending, base = start & ~first.explained, first.variant.shift
-        while len(causes) < MAX_CAUSES and pending.sum() >= MIN_EXPLAINED:
+        while len(steps) < MAX_CAUSES and pending.sum() >= MIN_EXPLAINED:
             found = _round(frame, pending, base, start, agreed, analysis, False)
             if not found:
                 break
-            causes.append(Cause(found[0].variant, found[0].explained))
+            steps.append(found[0])
             pending, base = pending & ~found[0].explained, base + found[0].variant.shift
-        chains.append((int((start & ~pending).sum()), -len(causes), causes, pending))
+        chains.append((int((start & ~pending).sum()), -len(steps), steps, pending))
     if not chains:
         return SearchResult([], start.copy(), notes)
-    _, _, causes, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
+    _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
+    causes = [Cause(_with_alternates(frame, start, steps, i), step.explained) for i, step in enumerate(steps)]
     if causes:
         touched = np.zeros(len(frame), dtype=bool)
         for cause in causes:
@@ -95,11 +98,26 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     return SearchResult(causes, pending, notes)
 
 
+def _with_alternates(frame: ClaimsFrame, start: np.ndarray, steps: list[_Found], i: int) -> Variant:
+    """Step i's variant, naming the other variants that do as well in its place in the whole chain
+    (1.6 x traffic fits the chords as well as 1.5 x dead, but only the latter completes the chain;
+    'self-weight left out' and '1.36 x traffic' are one and the same when both load the same joints)."""
+    total = sum(step.variant.shift for step in steps)
+    count = int((start & frame.agrees(frame.computed + total)).sum())
+    variant = steps[i].variant
+    alike = [alt.words for alt in steps[i].alternates
+             if int((start & frame.agrees(frame.computed + total - variant.shift + alt.shift)).sum()) >= count]
+    if alike:
+        variant = variant._replace(words=variant.words + ALIKE + ALIKE.join(alike[:MAX_ALIKE]))
+    return variant
+
+
 class _Found(NamedTuple):
     explains: int
     misfit: float
     variant: Variant
     explained: np.ndarray
+    alternates: list[Variant] = []  # other variants that explain the very same claims
 
 
 def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.ndarray, agreed: np.ndarray,
@@ -124,20 +142,17 @@ def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.
         # explains or keeps.
         kept = explained | (agreed & ~start)
         misfit = float((((frame.claimed - computed) / frame.allowed(computed))[kept] ** 2).sum())
-        found.append(_Found(n, misfit, variant, explained))
+        found.append(_Found(n, misfit, variant, explained, []))
     found.sort(key=lambda f: (-f.explains, f.misfit))
     out: list[_Found] = []
     for f in found:
-        # Variants that change the claims alike (a deeper truss or a shorter span under vertical
-        # loads) cannot be told apart by the claims: the first names the others.
-        twin = next((o for o in out if o.explains == f.explains and np.array_equal(o.explained, f.explained)
-                     and np.allclose(o.variant.shift, f.variant.shift, rtol=frame.rtol / 10, atol=float(frame.atol.min()))),
-                    None)
+        # Variants that explain the very same claims (a deeper truss, or a shorter span, under
+        # vertical loads) cannot be told apart by them: the closer fit names the others.
+        twin = next((o for o in out if o.explains == f.explains and np.array_equal(o.explained, f.explained)), None)
         if twin is None:
             out.append(f)
-        elif f.variant.words not in twin.variant.words:
-            out[out.index(twin)] = twin._replace(variant=twin.variant._replace(
-                words=twin.variant.words + "; or, equally for these claims, " + f.variant.words))
+        elif len(twin.alternates) < 2 * MAX_ALIKE and all(a.words != f.variant.words for a in twin.alternates):
+            twin.alternates.append(f.variant)
     return out
 
 
@@ -169,9 +184,9 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
             if s is None:
                 continue
             old = float(C[c, k])
-            for new in nice_factors(old + s):
-                if abs(new - old) < 1e-12:
-                    continue
+            new = _plainest(frame, pending, base, [(f, (f - old) * unit) for f in nice_factors(old + s)
+                                                   if abs(f - old) > 1e-12])
+            if new is not None:
                 if new == 0:
                     words = f"'{case.name}' left out of '{combo.name}'"
                 elif old == 0:
@@ -215,12 +230,13 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
                 continue
             s = float(np.median(target[usable] / unit[usable]))
             sizes = [f - 1.0 for f in nice_factors(1.0 + s) if abs(f - 1.0) > 1e-12]
+        best: tuple[int, float] | None = None  # the plainest size that explains the most
         for size in sizes:
-            computed = (frame.computed + base)[sample] + size * unit
-            ok = frame.agrees_at(sample, computed)
-            score = int(ok.sum())
-            if score >= MIN_EXPLAINED:
-                scored.append((score, change, size))
+            score = int(frame.agrees_at(sample, (frame.computed + base)[sample] + size * unit).sum())
+            if best is None or score > best[0]:
+                best = (score, size)
+        if best is not None and best[0] >= MIN_EXPLAINED:
+            scored.append((best[0], change, best[1]))
     scored.sort(key=lambda item: -item[0])
     for _, change, size in scored[:SHORTLIST]:
         dt = lu.solve(-size * change.delta)[: len(model.members)]
@@ -228,6 +244,17 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
         words = change.words(1.0 + size) if callable(change.words) else change.words
         yield Variant(change.kind, words, shift, model.cases[change.case].name, change.joints,
                       1.0 + size if change.fitted else None)
+
+
+def _plainest(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray,
+              options: list[tuple[float, np.ndarray]]) -> float | None:
+    """Of round values (plainest first) and their shifts, the plainest that explains the most."""
+    best: tuple[int, float] | None = None
+    for value, shift in options:
+        n = int((pending & frame.agrees(frame.computed + base + shift)).sum())
+        if best is None or n > best[0]:
+            best = (n, value)
+    return None if best is None or best[0] == 0 else best[1]
 
 
 def _claimed_columns(frame: ClaimsFrame) -> np.ndarray:
@@ -273,11 +300,15 @@ def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarra
         s = float(np.exp(fit.x))
         if abs(s - 1.0) < 1e-3:
             continue
-        for new_extent in nice_factors(extent * s):
-            t = forces(new_extent / extent)
-            if t is None or abs(new_extent - extent) < 1e-12 * extent:
-                continue
+        tried = []
+        for candidate in nice_factors(extent * s):
+            t = forces(candidate / extent)
+            if t is not None and abs(candidate - extent) > 1e-12 * extent:
+                tried.append((candidate, t - frame.computed))
+        new_extent = _plainest(frame, pending, base, tried)
+        if new_extent is not None:
+            shift = dict(tried)[new_extent]
             letter, name = AXIS_NAMES[axis]
             words = (f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} {length} "
                      f"(every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})")
-            yield Variant("dimension", words, t - frame.computed, None, (), new_extent / extent)
+            yield Variant("dimension", words, shift, None, (), new_extent / extent)

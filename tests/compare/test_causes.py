@@ -1,0 +1,295 @@
+"""Likely causes: plant a *model* mistake (not a wrong number), make the claims from that model, and
+check the cause is named in plain words with the right fields; the honest table of the same truss
+must still agree.
+
+The trusses are invented: a 10-panel Pratt footbridge-type span (dead load on both chords, traffic
+on the deck chord, ULS = 1.35 dead + 1.5 traffic: factors of common practice), a small pitched barn
+roof with wind suction normal to the windward rafter, and a three-legged lattice mast loaded in
+newtons. Claims are the variant model's forces (our global solve, itself checked against sympy and
+published examples in tests/test_sympy_oracle.py and tests/reference) rounded to 3 significant
+figures, as a consultant's table would be.
+"""
+
+from __future__ import annotations
+
+import copy
+import math
+import re
+
+import pytest
+from claimsgen import round_sig, table
+from trussgen import make_model, pratt, truss_case
+
+from verify.analysis.pipeline import analyse
+from verify.compare.diagnose import Verdict, compare_claims
+from verify.compare.findings import Severity
+
+PANELS = 10
+DEAD_BOTTOM, DEAD_TOP, TRAFFIC = 20.0, 10.0, 40.0  # kN per panel point (invented)
+
+
+def bridge():
+    case = pratt(PANELS, d=3.0, h=3.5, load=TRAFFIC, case="traffic")
+    case["loads"]["dead"] = {**{f"L{i}": [0.0, -DEAD_BOTTOM] for i in range(1, PANELS)},
+                             **{f"U{i}": [0.0, -DEAD_TOP] for i in range(1, PANELS)}}
+    case["combinations"] = {"ULS": {"dead": 1.35, "traffic": 1.5}}
+    return case
+
+
+def claims_of(case, columns=None, figures=3):
+    """The forces of `case` as a consultant's table: every column, rounded to `figures`."""
+    analysis = analyse(make_model(case))
+    ref = analysis.reference
+    names = columns or analysis.model.load_names
+    return {c: {m: round_sig(float(ref.member_forces[i, ref.column(c)]), figures)
+                for i, m in enumerate(analysis.model.member_ids)} for c in names}
+
+
+def review_of(case, claims):
+    return compare_claims(analyse(make_model(case)), table(claims))
+
+
+def causes(review):
+    return [f for f in review.findings if f.kind == "likely-cause"]
+
+
+def test_honest_table_of_the_bridge_agrees():
+    review = review_of(bridge(), claims_of(bridge()))
+    assert review.verdict is Verdict.AGREES and causes(review) == []
+
+
+def test_honest_table_rounded_to_two_figures_names_no_cause():
+    review = review_of(bridge(), claims_of(bridge(), figures=2))
+    assert causes(review) == []
+
+
+def test_traffic_on_the_top_chord_is_one_cause_naming_the_joints():
+    variant = bridge()
+    variant["loads"]["traffic"] = {f"U{i}": [0.0, -TRAFFIC] for i in range(1, PANELS)}
+    review = review_of(bridge(), claims_of(variant))
+    (cause,) = causes(review)
+    assert cause.severity is Severity.ERROR and cause.unexplained == 0
+    assert cause.joints == tuple(f"U{i}" for i in range(1, PANELS))
+    assert "'traffic' loads applied at U1" in cause.variant and "(the joints directly above) instead of L1" in cause.variant
+    # the verticals carry the difference in 'traffic' and 'ULS'; nothing else is reported
+    assert set(cause.members) == {f"U{i}L{i}" for i in range(1, PANELS)}
+    assert [f.kind for f in review.findings if f.severity is Severity.ERROR] == ["likely-cause"]
+    assert all(loc.startswith("row ") for loc in cause.locations)
+
+
+def test_wrong_chord_and_wrong_factor_are_both_named():
+    variant = bridge()
+    variant["loads"]["traffic"] = {f"U{i}": [0.0, -TRAFFIC] for i in range(1, PANELS)}
+    variant["combinations"] = {"ULS": {"dead": 1.5, "traffic": 1.5}}
+    review = review_of(bridge(), claims_of(variant))
+    named = {c.variant for c in causes(review)}
+    assert "'ULS' taking 1.5 × dead instead of 1.35 × dead" in named
+    assert any("'traffic' loads applied at U1" in v for v in named)
+    assert [f.kind for f in review.findings if f.severity is Severity.ERROR] == ["likely-cause", "likely-cause"]
+
+
+def test_combination_factor_alone():
+    variant = bridge()
+    variant["combinations"] = {"ULS": {"dead": 1.5, "traffic": 1.5}}
+    (cause,) = causes(review_of(bridge(), claims_of(variant)))
+    assert cause.factor == 1.5 and cause.case == "ULS" and cause.unexplained == 0
+
+
+def test_load_case_left_out_of_a_combination():
+    case = bridge()
+    case["loads"]["self-weight"] = {f"L{i}": [0.0, -4.0] for i in range(1, PANELS)}
+    case["combinations"] = {"ULS": {"dead": 1.35, "traffic": 1.5, "self-weight": 1.35}}
+    variant = copy.deepcopy(case)
+    variant["combinations"] = {"ULS": {"dead": 1.35, "traffic": 1.5}}
+    (cause,) = causes(review_of(case, claims_of(variant)))
+    assert cause.variant.startswith("'self-weight' left out of 'ULS'") and cause.factor == 0.0
+    # self-weight loads the same joints as traffic, so the claims cannot tell the two readings apart
+    assert "; or, equally for these claims, 'ULS' taking 1.36 × traffic instead of 1.5 × traffic" in cause.variant
+
+
+def test_one_load_left_out():
+    variant = bridge()
+    del variant["loads"]["traffic"]["L3"]
+    (cause,) = causes(review_of(bridge(), claims_of(variant)))
+    assert cause.joints == ("L3",) and cause.factor == 0.0 and "left out" in cause.variant
+
+
+def test_one_load_counted_twice():
+    variant = bridge()
+    variant["loads"]["dead"]["U7"] = [0.0, -2 * DEAD_TOP]
+    (cause,) = causes(review_of(bridge(), claims_of(variant)))
+    assert cause.joints == ("U7",) and cause.factor == 2.0 and "counted twice" in cause.variant
+
+
+def test_pin_at_the_other_support():
+    case = bridge()
+    case["loads"]["wind"] = {f"U{i}": [5.0, 0.0] for i in range(1, PANELS)}
+    variant = copy.deepcopy(case)
+    variant["supports"] = {"L0": ["y"], f"L{PANELS}": ["x", "y"]}
+    (cause,) = causes(review_of(case, claims_of(variant)))
+    assert cause.joints == ("L0", f"L{PANELS}") and "supports exchanged" in cause.variant
+    assert cause.case == "wind"  # vertical loads give the same forces with either pin
+
+
+def test_a_deeper_truss_names_the_depth():
+    variant = bridge()
+    for joint, xy in variant["joints"].items():
+        if joint.startswith("U"):
+            xy[1] = 3.8
+    (cause,) = causes(review_of(bridge(), claims_of(variant)))
+    assert "depth (y extent) taken as 3.8 m instead of 3.5 m" in cause.variant
+    assert cause.factor == pytest.approx(3.8 / 3.5)
+    # under vertical loads only the ratio of span to depth matters: the span reading is said too
+    assert "span (x extent) taken as" in cause.variant
+
+
+def test_value_copied_from_the_row_above_names_its_source():
+    claims = claims_of(bridge())
+    claims["dead"]["U3L4"] = claims["dead"]["U2L3"]  # consecutive rows of the diagonal block
+    review = review_of(bridge(), claims)
+    (cause,) = causes(review)
+    assert cause.members == ("U3L4",) and "is the one claimed for U2L3" in cause.variant
+    assert review.verdict is Verdict.DISCREPANCIES
+
+
+def test_rows_shifted_by_one():
+    claims = claims_of(bridge())
+    for column in claims:
+        ids = list(claims[column])
+        values = [claims[column][m] for m in ids]
+        for k in range(18, 27):  # top chord to end posts: each row holds the next row's value
+            claims[column][ids[k]] = values[k + 1]
+    review = review_of(bridge(), claims)
+    (cause,) = causes(review)
+    assert "1 row(s) off their labels" in cause.variant and cause.factor == 1.0
+    assert not [f for f in review.findings if f.kind in ("value-mismatch", "sign-flip", "swapped-labels")]
+
+
+def test_a_random_error_is_never_given_a_model_cause():
+    claims = claims_of(bridge())
+    claims["traffic"]["U2L3"] *= 1.3
+    claims["dead"]["L4L5"] *= 0.8
+    review = review_of(bridge(), claims)
+    assert causes(review) == [] and sorted(f.kind for f in review.findings) == ["value-mismatch", "value-mismatch"]
+
+
+# -- wind suction on a pitched roof ----------------------------------------------------------------
+RISE = 1.5
+
+
+def barn_roof(wind_vertical=False):
+    """4-panel pitched roof, 12 m span, rise 3 m (1:2 pitch); wind suction of 5 kN per panel point
+    normal to the windward rafter (L0-U1-U2)."""
+    joints = {"L0": [0, 0], "L1": [3, 0], "L2": [6, 0], "L3": [9, 0], "L4": [12, 0],
+              "U1": [3, RISE], "U2": [6, 2 * RISE], "U3": [9, RISE]}
+    members = [("L0", "L1"), ("L1", "L2"), ("L2", "L3"), ("L3", "L4"), ("L0", "U1"), ("U1", "U2"), ("U2", "U3"),
+               ("U3", "L4"), ("U1", "L1"), ("U2", "L2"), ("U3", "L3"), ("L1", "U2"), ("L3", "U2")]
+    slope = math.hypot(3, RISE)
+    normal = (-RISE / slope, 3 / slope)  # outward from the windward rafter
+    def suction(p):
+        return [0.0, p] if wind_vertical else [p * normal[0], p * normal[1]]
+    loads = {"dead": {j: [0.0, -6.0] for j in ("U1", "U2", "U3")},
+             "wind": {"U1": suction(5.0), "U2": suction(2.5)}}
+    return truss_case(joints, members, {"L0": ["x", "y"], "L4": ["y"]}, loads, title="barn roof")
+
+
+def test_wind_applied_vertically_instead_of_normal_to_the_rafter():
+    review = review_of(barn_roof(), claims_of(barn_roof(wind_vertical=True)))
+    (cause,) = causes(review)
+    assert cause.case == "wind" and set(cause.joints) == {"U1", "U2"} and "applied vertically" in cause.variant
+    assert review_of(barn_roof(), claims_of(barn_roof())).verdict is Verdict.AGREES
+
+
+# -- a three-legged mast in newtons (3D) ------------------------------------------------------------
+def mast(levels=3, wind_level=None):
+    """Triangular lattice mast, 1.2 m legs apart, 2 m per level; wind 800 N along x at each joint
+    of the top level (or of `wind_level`)."""
+    corners = [(0.0, 0.0), (1.2, 0.0), (0.6, 1.2 * math.sqrt(3) / 2)]
+    joints = {f"{'ABC'[c]}{k}": [x, y, 2.0 * k] for k in range(levels + 1) for c, (x, y) in enumerate(corners)}
+    members = []
+    for k in range(1, levels + 1):
+        for c in range(3):
+            here, other = f"{'ABC'[c]}{k}", f"{'ABC'[(c + 1) % 3]}{k}"
+            members += [(f"{'ABC'[c]}{k - 1}", here), (here, other), (f"{'ABC'[c]}{k - 1}", other)]
+    top = wind_level if wind_level is not None else levels
+    loads = {"wind": {f"{c}{top}": [800.0, 0.0, 0.0] for c in "ABC"},
+             "dead": {f"{c}{levels}": [0.0, 0.0, -1500.0] for c in "ABC"}}
+    supports = {f"{c}0": ["x", "y", "z"] for c in "ABC"}
+    return truss_case(joints, members, supports, loads, units=("m", "N"), title="lattice mast")
+
+
+def test_mast_wind_at_the_level_below_is_named_in_3d():
+    case = mast()
+    assert review_of(case, claims_of(case)).verdict is Verdict.AGREES
+    review = review_of(case, claims_of(mast(wind_level=2)))
+    (cause,) = causes(review)
+    assert cause.joints == ("A2", "B2", "C2") and "(the joints directly below)" in cause.variant
+
+
+# -- sharper single-member reasons ---------------------------------------------------------------
+def test_a_claimed_zero_is_never_a_sign_flip():
+    case = bridge()
+    analysis = analyse(make_model(case))
+    truth = claims_of(case)
+    small = min((m for m, v in truth["traffic"].items() if v < -1.0), key=lambda m: abs(truth["traffic"][m]))
+    truth["traffic"][small] = 0.0
+    review = compare_claims(analysis, table(truth))
+    assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", (small,))]
+
+
+def test_opposite_sign_and_eight_percent_off_is_a_wrong_value_not_a_sign_flip():
+    truth = claims_of(bridge())
+    right = truth["dead"]["U2L3"]
+    truth["dead"]["U2L3"] = -1.08 * right
+    review = review_of(bridge(), truth)
+    assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", ("U2L3",))]
+    truth["dead"]["U2L3"] = -right
+    review = review_of(bridge(), truth)
+    assert [(f.kind, f.members) for f in review.findings] == [("sign-flip", ("U2L3",))]
+
+
+def test_swapped_rows_found_on_an_indeterminate_truss():
+    """Both diagonals in the four inner panels (4 states of self-stress), EA given: the
+    elastic solution is the reference, and two swapped rows are one swapped-labels finding."""
+    case = pratt(6, load=10.0, case="dead")
+    case["members"].update({"L1U2": ["L1", "U2"], "L2U3": ["L2", "U3"], "U3L4": ["U3", "L4"], "U4L5": ["U4", "L5"]})
+    case["members"] = {k: {"ends": v, "EA": 2.0e5} for k, v in case["members"].items()}
+    analysis = analyse(make_model(case))
+    assert analysis.stability.self_stress > 0 and analysis.elastic is not None
+    ref = analysis.reference
+    truth = {m: round_sig(float(ref.member_forces[i, 0]), 4) for i, m in enumerate(analysis.model.member_ids)}
+    truth["L1L2"], truth["U2U3"] = truth["U2U3"], truth["L1L2"]
+    review = compare_claims(analysis, table({"dead": truth}))
+    swaps = [f for f in review.findings if f.kind == "swapped-labels"]
+    assert len(swaps) == 1 and set(swaps[0].members) == {"L1L2", "U2U3"}
+    assert not [f for f in review.findings if f.kind in ("value-mismatch", "equilibrium-residual")]
+
+
+def test_every_finding_says_where_the_claim_was_written():
+    truth = claims_of(bridge())
+    truth["dead"]["L2L3"] *= 1.2
+    truth["traffic"]["U4L4"] = -truth["traffic"]["U4L4"]
+    review = review_of(bridge(), truth)
+    for f in review.findings:
+        assert f.locations and all("column" in loc for loc in f.locations), f
+
+
+def test_implied_loads_show_the_loads_the_claims_balance():
+    variant = bridge()
+    variant["loads"]["traffic"] = {f"U{i}": [0.0, -TRAFFIC] for i in range(1, PANELS)}
+    review = review_of(bridge(), claims_of(variant, ["traffic"]))
+    implied = review.implied.by_case()["traffic"]
+    # the claims balance the traffic load at the top-chord joints and none at the deck joints
+    for i in range(1, PANELS):
+        assert implied[f"U{i}"] == pytest.approx([0.0, -TRAFFIC], abs=0.03 * TRAFFIC)
+        assert implied[f"L{i}"] == pytest.approx([0.0, 0.0], abs=0.03 * TRAFFIC)
+    assert review.implied.undetermined == {"traffic": 0}
+
+
+def test_implied_loads_on_a_spot_check_are_not_determined_where_members_lack_claims():
+    claims = claims_of(bridge(), ["dead"])
+    claims["dead"] = {m: v for m, v in claims["dead"].items() if not re.fullmatch(r"L\d+L\d+", m)}
+    review = review_of(bridge(), claims)
+    # every bottom-chord joint meets an unclaimed chord member; the top joints are all claimed
+    assert review.implied.checked == {"dead": PANELS - 1}
+    assert review.implied.undetermined == {"dead": PANELS + 1}
