@@ -49,6 +49,11 @@ def review_of(case, claims):
     return compare_claims(analyse(make_model(case)), table(claims))
 
 
+def errors(review):
+    """The findings that make the verdict (the table's own consistency check adds information)."""
+    return [f for f in review.findings if f.severity is Severity.ERROR]
+
+
 def causes(review):
     return [f for f in review.findings if f.kind == "likely-cause"]
 
@@ -170,7 +175,7 @@ def test_a_random_error_is_never_given_a_model_cause():
     claims["traffic"]["U2L3"] *= 1.3
     claims["dead"]["L4L5"] *= 0.8
     review = review_of(bridge(), claims)
-    assert causes(review) == [] and sorted(f.kind for f in review.findings) == ["value-mismatch", "value-mismatch"]
+    assert causes(review) == [] and sorted(f.kind for f in errors(review)) == ["value-mismatch", "value-mismatch"]
 
 
 # -- wind suction on a pitched roof ----------------------------------------------------------------
@@ -234,7 +239,7 @@ def test_a_claimed_zero_is_never_a_sign_flip():
     small = min((m for m, v in truth["traffic"].items() if v < -1.0), key=lambda m: abs(truth["traffic"][m]))
     truth["traffic"][small] = 0.0
     review = compare_claims(analysis, table(truth))
-    assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", (small,))]
+    assert [(f.kind, f.members) for f in errors(review)] == [("value-mismatch", (small,))]
 
 
 def test_opposite_sign_and_eight_percent_off_is_a_wrong_value_not_a_sign_flip():
@@ -242,10 +247,10 @@ def test_opposite_sign_and_eight_percent_off_is_a_wrong_value_not_a_sign_flip():
     right = truth["dead"]["U2L3"]
     truth["dead"]["U2L3"] = -1.08 * right
     review = review_of(bridge(), truth)
-    assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", ("U2L3",))]
+    assert [(f.kind, f.members) for f in errors(review)] == [("value-mismatch", ("U2L3",))]
     truth["dead"]["U2L3"] = -right
     review = review_of(bridge(), truth)
-    assert [(f.kind, f.members) for f in review.findings] == [("sign-flip", ("U2L3",))]
+    assert [(f.kind, f.members) for f in errors(review)] == [("sign-flip", ("U2L3",))]
 
 
 def test_swapped_rows_found_on_an_indeterminate_truss():
@@ -293,3 +298,35 @@ def test_implied_loads_on_a_spot_check_are_not_determined_where_members_lack_cla
     # every bottom-chord joint meets an unclaimed chord member; the top joints are all claimed
     assert review.implied.checked == {"dead": PANELS - 1}
     assert review.implied.undetermined == {"dead": PANELS + 1}
+
+
+# -- the claims against themselves -----------------------------------------------------------------
+def test_combination_column_checked_against_the_tables_own_cases():
+    variant = bridge()
+    variant["combinations"] = {"ULS": {"dead": 1.5, "traffic": 1.5}}
+    review = review_of(bridge(), claims_of(variant))
+    (own,) = [f for f in review.findings if f.kind == "inconsistent-combination"]
+    assert own.case == "ULS" and "the column is 1.5 × traffic + 1.5 × dead of them throughout" in own.detail
+    # the likely cause already names the factor: the table's own check corroborates it
+    assert own.severity is Severity.INFO
+
+
+def test_honest_tables_are_consistent_with_themselves_at_two_and_three_figures():
+    for figures in (2, 3):
+        review = review_of(bridge(), claims_of(bridge(), figures=figures))
+        assert not [f for f in review.findings if f.kind == "inconsistent-combination"], figures
+
+
+def test_self_check_speaks_where_the_truss_cannot_be_solved():
+    """Doubled diagonals and no EA: no force can be recomputed, yet a ULS row that is not
+    1.35 x dead + 1.5 x traffic of its own row is an error of the table."""
+    case = bridge()
+    case["members"].update({"L1U2": ["L1", "U2"], "L8U7": ["L8", "U7"]})
+    solvable = copy.deepcopy(case)
+    solvable["members"] = {k: {"ends": v, "EA": 1.0e5} for k, v in solvable["members"].items()}
+    claims = claims_of(solvable)
+    claims["ULS"]["U3L3"] += 25.0
+    review = review_of(case, claims)
+    (own,) = [f for f in review.findings if f.kind == "inconsistent-combination"]
+    assert own.members == ("U3L3",) and own.severity is Severity.ERROR
+    assert review.verdict is Verdict.DISCREPANCIES

@@ -12,6 +12,7 @@ Order of reasoning (each step only sees what the earlier ones left unexplained):
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from collections import Counter
 from collections.abc import Callable
@@ -32,6 +33,7 @@ from verify.compare.causes import (
     explain_model,
     explain_shifted_rows,
 )
+from verify.compare.causes.self_check import check_combinations
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
@@ -703,6 +705,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         if f.severity is Severity.ERROR:
             for case_name in ([f.case] if f.case else load_names):  # a finding without a case spans them all
                 flagged.setdefault(case_name, set()).update(f.members)
+
+    # The claims against themselves: combination columns against the table's own case columns. Where
+    # every member it names is already an error in some column, it corroborates (information).
+    own = np.flatnonzero(judged)
+    anywhere = set().union(*flagged.values()) if flagged else set()
+    for f in check_combinations(model, member_pos[own], k_of[own], values[own], rounding_unit[own] * abs(scale_fit),
+                                tol.rtol, [claims.values[int(i)].where for i in own]):
+        if set(f.members) <= anywhere:
+            f = dataclasses.replace(f, severity=Severity.INFO)
+        findings.append(f)
 
     # Missing claims (informational), per load column that has claims; load columns missing the
     # same members share one finding.

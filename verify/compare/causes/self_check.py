@@ -1,0 +1,93 @@
+"""The claims against themselves: each combination column against the table's own case columns.
+
+Superposition holds for the claimed table as for the truss: a member's claimed ULS force must be
+the factored sum of its claimed case forces (ULS = 1.35 x claimed dead + 1.5 x claimed traffic).
+This needs no recomputed force at all, so it also speaks where the truss cannot be solved. Where
+the column is consistent with other factors, those factors are named (least squares on the
+table's own columns, then the plainest round values that fit).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+
+from verify.compare.causes.variants import nice_factors
+from verify.compare.findings import Finding, Severity
+from verify.formatting import fmt
+from verify.model import Model
+
+SHOWN = 12
+
+
+def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, claimed: np.ndarray,
+                       rounding: np.ndarray, rtol: float, where: list[str]) -> list[Finding]:
+    """One finding per combination column that contradicts the table's own load-case columns.
+
+    Arrays are per member claim: member and load-column positions, value (case units, tension
+    positive), rounding allowance, and where it was written.
+    """
+    n_cases = len(model.cases)
+    names = model.load_names
+    b = len(model.members)
+    out: list[Finding] = []
+    table = np.full((b, len(names)), np.nan)
+    allowance = np.zeros((b, len(names)))
+    location: dict[tuple[int, int], str] = {}
+    for i in range(len(claimed)):
+        table[member[i], column[i]] = claimed[i]
+        allowance[member[i], column[i]] = rounding[i]
+        location[(int(member[i]), int(column[i]))] = where[i]
+    C = model.combination_matrix()
+    for k in range(n_cases, len(names)):
+        cases = np.flatnonzero(C[:, k])
+        if not cases.size:
+            continue
+        rows = np.isfinite(table[:, k]) & np.isfinite(table[:, cases]).all(axis=1)
+        if rows.sum() < 2:
+            continue
+        parts = table[rows][:, cases]
+        combo = table[rows, k]
+        slack = allowance[rows, k] + np.abs(C[cases, k]) @ allowance[rows][:, cases].T
+
+        def contradicting(factors: np.ndarray, parts: np.ndarray = parts, combo: np.ndarray = combo,
+                          slack: np.ndarray = slack) -> np.ndarray:
+            predicted = parts @ factors
+            return np.abs(combo - predicted) > np.maximum(rtol * np.maximum(np.abs(combo), np.abs(predicted)),
+                                                          slack + 1e-12)
+
+        defined = C[cases, k]
+        wrong = contradicting(defined)
+        if not wrong.any():
+            continue
+        ids = [model.members[int(m)].id for m in np.flatnonzero(rows)]
+        bad = [ids[i] for i in np.flatnonzero(wrong)]
+        words = " + ".join(f"{fmt(float(f), 3)} × {model.cases[c].name}" for f, c in zip(defined, cases, strict=True))
+        own = _own_factors(parts, combo, contradicting)
+        shown = ", ".join(bad[:SHOWN]) + (f" and {len(bad) - SHOWN} more" if len(bad) > SHOWN else "")
+        text = (f"in the claimed table, '{names[k]}' is not {words} of the table's own load-case columns for "
+                f"{len(bad)} of {int(rows.sum())} members ({shown})")
+        if own is not None and not np.allclose(own, defined):
+            fitted = " + ".join(f"{fmt(float(f), 3)} × {model.cases[c].name}" for f, c in zip(own, cases, strict=True))
+            text += f"; the column is {fitted} of them throughout: the table combines with other factors"
+        else:
+            text += ": those rows contradict the table's own load-case values"
+        members = np.flatnonzero(rows)[wrong]
+        out.append(Finding("inconsistent-combination", tuple(bad), text, Severity.ERROR, case=names[k],
+                           locations=tuple(location[(int(m), k)] for m in members[:SHOWN])))
+    return out
+
+
+def _own_factors(parts: np.ndarray, combo: np.ndarray,
+                 contradicting: Callable[[np.ndarray], np.ndarray]) -> np.ndarray | None:
+    """Round factors with which the combination column is consistent with its own cases, if any."""
+    if parts.shape[0] < parts.shape[1] + 2:
+        return None
+    fitted = np.linalg.lstsq(parts, combo, rcond=None)[0]
+    choices = [nice_factors(float(f)) or [0.0] for f in fitted]
+    for depth in range(3):  # plainest first: 1, then 2, then 3 significant figures
+        picked = np.array([c[min(depth, len(c) - 1)] for c in choices])
+        if not contradicting(picked).any():
+            return picked
+    return None
