@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import copy
 
-import numpy as np
 from claimsgen import round_sig, table
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
@@ -116,9 +115,12 @@ def test_an_honest_rounded_table_never_gets_a_cause(case, figures):
 @given(st.integers(2, 4), st.data())
 def test_mast_load_left_out_is_named_in_3d(levels, data):
     case = mast(levels)
-    loads = {f"{c}{k}": [float(data.draw(st.integers(-900, 900))), float(data.draw(st.integers(-900, 900))), 0.0]
+    # wind of 200-900 N per joint in either direction: loads a thousand times apart make a table
+    # whose every value reads as another unit, a separate diagnosis
+    size = st.integers(200, 900).flatmap(lambda n: st.sampled_from([n, -n]))
+    loads = {f"{c}{k}": [float(data.draw(size)), float(data.draw(size)), 0.0]
              for k in range(1, levels + 1) for c in "ABC" if data.draw(st.booleans())}
-    assume(len(loads) >= 2 and all(np.any(v) for v in loads.values()))
+    assume(len(loads) >= 2)
     case["loads"]["wind"] = loads
     analysis, truth = forces(case)
     joint = data.draw(st.sampled_from(sorted(loads)))

@@ -532,8 +532,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
                         value - computed, status))
 
-    # Explain the mismatches: rows shifted, swapped pairs (they need two rows), a column left
-    # unfilled, a different model, values copied; then single causes.
+    # Explain the mismatches: a column left unfilled, a different model (it must explain a clear
+    # majority and break nothing: the strictest test, so it goes first), rows shifted (before
+    # swapped pairs, which a shifted run imitates on a symmetric truss), swapped pairs, values
+    # copied (last: a mirror member carries the same value honestly); then single causes.
     explained: set[int] = set()
     frame: ClaimsFrame | None = None
     if frame_rows and ref is not None and comparable:
@@ -558,23 +560,50 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         findings.extend(report.findings)
         notes.extend(report.notes)
 
-    # Likely causes, 1 of 3: rows shifted against their labels.
-    apply_cause(explain_shifted_rows)
     by_case: dict[str, list[tuple[int, ClaimedValue, float, float, float]]] = {}
     for item in diffs:
         by_case.setdefault(rows[item[0]].case, []).append(item)
+    # A load column claimed as nothing but zeros (a template column never filled in) is one
+    # finding, not one per member.
     for name, items in by_case.items():
-        if len(items) > 2000 or (indeterminate and analysis.assumed_EA is not None):
-            # A table this wrong is not a pair of swapped labels; against an assumed EA the
-            # elastic forces are no evidence of which value belongs to which member.
+        if indeterminate or len(items) < MIN_MEMBERS_FOR_TABLE:
             continue
+        if any(row.claimed is not None and row.claimed != 0 for row in rows if row.kind == "member" and row.case == name):
+            continue
+        largest = max(abs(item[3]) for item in items)
+        explained.update(item[0] for item in items)
+        findings.append(Finding("value-mismatch", tuple(item[1].member for item in items),  # type: ignore[misc]
+                                f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
+                                f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
+                                f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
+                                Severity.ERROR, case=name))
+    # Likely causes, 1 of 3: a slightly different model (verify.compare.causes).
+    if not indeterminate:
+        apply_cause(explain_model)
+    # Likely causes, 2 of 3: rows shifted against their labels.
+    apply_cause(explain_shifted_rows)
+    for name, items in by_case.items():
+        if indeterminate and analysis.assumed_EA is not None:
+            continue  # against an assumed EA the elastic forces are no evidence of which value is whose
+        # Candidates by sorting: only members whose recomputed force lies near a claim can have
+        # swapped with it (n log n instead of every pair: a 600-error column took seconds).
+        atol = tol.atol_fraction * scale_of.get(name, 0.0)
+        claimed_x = np.array([item[2] for item in items])
+        computed_c = np.array([item[3] for item in items])
+        by_force = np.argsort(computed_c, kind="stable")
+        sorted_c = computed_c[by_force]
+        window = np.maximum(np.maximum(2.0 * tol.rtol * np.abs(claimed_x), atol),
+                            np.array([rounding_allowance(item[1].value, 1.0) for item in items])) * 1.01
+        low = np.searchsorted(sorted_c, claimed_x - window, side="left")
+        high = np.searchsorted(sorted_c, claimed_x + window, side="right")
         for a in range(len(items)):
-            for b in range(a + 1, len(items)):
+            for b in sorted(int(x) for x in by_force[low[a]:high[a]]):
+                if b <= a:
+                    continue
                 ra, va, xa, ca, _ = items[a]
                 rb, vb, xb, cb, _ = items[b]
                 if ra in explained or rb in explained:
                     continue
-                atol = tol.atol_fraction * scale_of.get(name, 0.0)
                 if (tol.agrees(xa, cb, atol, rounding_allowance(va.value, 1.0)) and tol.agrees(xb, ca, atol, rounding_allowance(vb.value, 1.0))
                         and not tol.agrees(ca, cb, atol)):
                     explained.update((ra, rb))
@@ -599,23 +628,6 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
                                 "look swapped", Severity.ERROR,
                                 locations=tuple(loc for f in group for loc in f.locations)))
-    # A load column claimed as nothing but zeros (a template column never filled in) is one
-    # finding, not one per member.
-    for name, items in by_case.items():
-        if indeterminate or len(items) < MIN_MEMBERS_FOR_TABLE:
-            continue
-        if any(row.claimed is not None and row.claimed != 0 for row in rows if row.kind == "member" and row.case == name):
-            continue
-        largest = max(abs(item[3]) for item in items)
-        explained.update(item[0] for item in items)
-        findings.append(Finding("value-mismatch", tuple(item[1].member for item in items),  # type: ignore[misc]
-                                f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
-                                f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
-                                f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
-                                Severity.ERROR, case=name))
-    # Likely causes, 2 of 3: a slightly different model (verify.compare.causes).
-    if not indeterminate:
-        apply_cause(explain_model)
     # A column whose claims, nearly all, follow another combination of the load cases (a different
     # load or combination factor): one finding that names the combination the claims follow; the
     # claims that do not follow it keep their own findings.

@@ -3,13 +3,15 @@
 Explainers, each on what the earlier ones left unexplained (the comparison calls them in turn,
 between its own steps):
 
-1. rows shifted against their labels (a row inserted or deleted in the table) — before swapped
-   pairs, which a shifted run on a symmetric truss imitates;
-2. a slightly different model: loads at the other chord or another joint, a load left out,
+1. a slightly different model: loads at the other chord or another joint, a load left out,
    doubled, scaled or turned vertical, a combination factor, the supports exchanged, a dimension
-   (see :mod:`verify.compare.causes.search`);
-3. a value copied from another row — last, after swapped pairs and the model, because a mirror
-   member of a symmetric truss carries the same value honestly.
+   (see :mod:`verify.compare.causes.search`) — first, because its test (a clear majority of the
+   disagreeing claims explained, none that agreed broken) is the strictest, and a model change
+   moves values in patterns that a row shift can imitate;
+2. rows shifted against their labels (a row inserted or deleted in the table) — before swapped
+   pairs, which a shifted run on a symmetric truss imitates;
+3. a value copied from another row — last, after swapped pairs, because a mirror member of a
+   symmetric truss carries the same value honestly.
 
 Each returns the claims it explains and one `likely-cause` finding per cause, naming the change in
 plain words, the members and where their claims were written, and how many disagreeing claims

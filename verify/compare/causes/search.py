@@ -22,9 +22,9 @@ from verify.compare.causes.variants import (
     AXIS_NAMES,
     DIMENSION_RANGE,
     GEOMETRY_MEMBER_LIMIT,
-    SAMPLE_MEMBERS,
+    MAX_JOINT_CHANGES,
+    SAMPLE_CLAIMS,
     SHORTLIST,
-    LoadChange,
     Variant,
     fit_scale,
     load_changes,
@@ -72,11 +72,11 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     # at once can let a wrong first guess fit many claims within tolerance (1.6 x traffic for
     # 1.5 x dead on chords that see both loads alike), and the chain then explains less.
     chains = []
-    for first in _round(frame, start, np.zeros(len(frame)), start, agreed, analysis, geometry)[:FIRST_CHOICES]:
+    for first in _round(frame, start, np.zeros(len(frame)), start, agreed, analysis, geometry, notes)[:FIRST_CHOICES]:
         steps = [first]
         pending, base = start & ~first.explained, first.variant.shift
         while len(steps) < MAX_CAUSES and pending.sum() >= MIN_EXPLAINED:
-            found = _round(frame, pending, base, start, agreed, analysis, False)
+            found = _round(frame, pending, base, start, agreed, analysis, False, notes)
             if not found:
                 break
             steps.append(found[0])
@@ -121,10 +121,10 @@ class _Found(NamedTuple):
 
 
 def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.ndarray, agreed: np.ndarray,
-           analysis: Analysis, geometry: bool) -> list[_Found]:
+           analysis: Analysis, geometry: bool, notes: list[str]) -> list[_Found]:
     """Every variant that passes the test on top of `base`, best first."""
     found: list[_Found] = []
-    for variant in _candidates(frame, pending, base, analysis, geometry=geometry):
+    for variant in _candidates(frame, pending, base, analysis, notes, geometry=geometry):
         computed = frame.computed + base + variant.shift
         now = frame.agrees(computed)
         if (agreed & ~start & ~now).any():
@@ -157,9 +157,10 @@ def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.
 
 
 # -- candidates ---------------------------------------------------------------------------------
-def _candidates(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, *, geometry: bool):
+def _candidates(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str], *,
+                geometry: bool):
     yield from _combination_variants(frame, pending, base, analysis)
-    yield from _load_variants(frame, pending, base, analysis)
+    yield from _load_variants(frame, pending, base, analysis, notes)
     if geometry:
         yield from _support_variants(frame, base, analysis)
         yield from _dimension_variants(frame, pending, base, analysis)
@@ -196,54 +197,89 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
                 yield Variant("combination-factor", words, (new - old) * unit, combo.name, (), new)
 
 
-def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
-    """Load changes priced by influence lines on the disagreeing members, the best solved forward."""
+def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str]):
+    """Load changes priced by influence lines on a sample of the disagreeing claims (one array
+    operation for every change and every round size), the best few solved forward for all claims."""
     from verify.analysis.global_solve import equilibrium_lu
 
     model = analysis.model
     C = model.combination_matrix()
     cases = [c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)]
-    changes = list(load_changes(model, cases))
+    sample = np.flatnonzero(pending)
+    if len(sample) > SAMPLE_CLAIMS:
+        sample = np.sort(np.random.default_rng(0).choice(sample, SAMPLE_CLAIMS, replace=False))
+    members = np.unique(frame.member[sample])
+    ends = model.ends_index[members]
+    near = set(ends.ravel().tolist())
+    for a, b in model.ends_index.tolist():  # and one member further: the loads that reach them directly
+        if a in near or b in near:
+            near.update((a, b))
+    changes, capped = load_changes(model, cases, near)
     if not changes:
         return
+    capped_note = (f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints nearest "
+                   "the disagreeing claims only")
+    if capped and capped_note not in notes:
+        notes.append(capped_note)
     lu = equilibrium_lu(model)
-    members = np.unique(frame.member[pending])
-    if len(members) > SAMPLE_MEMBERS:
-        members = np.random.default_rng(0).choice(members, SAMPLE_MEMBERS, replace=False)
     n = lu.shape[0]
     E = np.zeros((n, len(members)))
     E[members, np.arange(len(members))] = 1.0
     X = lu.solve(E, trans="T")  # rows of A^-1 for the sampled members (influence lines)
-    D = sp.csc_matrix(np.column_stack([ch.delta for ch in changes]))
-    G = -(D.T @ X).T  # members sampled x changes: member force per unit of each change
-    position = {int(m): i for i, m in enumerate(members.tolist())}
-    sample = np.flatnonzero(pending & np.isin(frame.member, members))
-    rows = np.array([position[int(m)] for m in frame.member[sample]], dtype=np.int64)
+    lengths = [len(ch.rows) for ch in changes]
+    D = sp.csc_matrix((np.concatenate([ch.values for ch in changes]),
+                       (np.concatenate([ch.rows for ch in changes]), np.repeat(np.arange(len(changes)), lengths))),
+                      shape=(n, len(changes)))
+    G = -np.asarray((D.T @ X).T)  # sampled members x changes: member force per unit of each change
+    position = np.searchsorted(members, frame.member[sample])
+    case_of = np.array([ch.case for ch in changes], dtype=np.int64)
+    unit = G[position, :] * C[case_of[None, :], frame.column[sample][:, None]]  # claims x changes
     target = (frame.claimed - frame.computed - base)[sample]
-    scored: list[tuple[int, LoadChange, float]] = []
-    for v, change in enumerate(changes):
-        unit = G[rows, v] * C[change.case, frame.column[sample]]
-        sizes = [1.0]
-        if change.fitted:
-            usable = np.abs(unit) > frame.atol[sample]
-            if usable.sum() < 2:
-                continue
-            s = float(np.median(target[usable] / unit[usable]))
-            sizes = [f - 1.0 for f in nice_factors(1.0 + s) if abs(f - 1.0) > 1e-12]
-        best: tuple[int, float] | None = None  # the plainest size that explains the most
-        for size in sizes:
-            score = int(frame.agrees_at(sample, (frame.computed + base)[sample] + size * unit).sum())
-            if best is None or score > best[0]:
-                best = (score, size)
-        if best is not None and best[0] >= MIN_EXPLAINED:
-            scored.append((best[0], change, best[1]))
-    scored.sort(key=lambda item: -item[0])
-    for _, change, size in scored[:SHORTLIST]:
-        dt = lu.solve(-size * change.delta)[: len(model.members)]
+    # Round sizes to try per change: the change itself (1) or, for fitted ones, round factors near
+    # the median ratio of what is missing to one unit of the change.
+    fitted = np.array([ch.fitted for ch in changes])
+    usable = np.abs(unit) > frame.atol[sample][:, None]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratios = np.where(usable, target[:, None] / unit, np.nan)
+    enough = usable.sum(axis=0) >= 2
+    median = np.zeros(len(changes))
+    if enough.any():
+        median[enough] = np.nanmedian(ratios[:, enough], axis=0)
+    factor = 1.0 + median
+    sizes = np.vstack([_round_to(factor, digits) - 1.0 for digits in (1, 2, 3)])
+    for special in (0.0, 2.0, -1.0):  # left out, counted twice, reversed
+        sizes[0] = np.where(np.abs(factor - special) < 0.05, special - 1.0, sizes[0])
+    sizes[:, ~fitted] = 1.0
+    sizes[:, fitted & ~enough] = 0.0  # nothing to fit: no change
+    computed = (frame.computed + base)[sample]
+    scores = np.zeros(sizes.shape, dtype=np.int64)
+    for row in range(sizes.shape[0]):
+        trial = computed[:, None] + sizes[row][None, :] * unit
+        y = frame.claimed[sample][:, None]
+        allowed = np.maximum(np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(trial)), frame.atol[sample][:, None]),
+                             frame.rounding[sample][:, None])
+        scores[row] = (np.abs(y - trial) <= allowed).sum(axis=0)
+    scores[np.abs(sizes) < 1e-12] = 0
+    best_row = np.argmax(scores, axis=0)  # ties go to the plainest size (the first row)
+    best = scores[best_row, np.arange(len(changes))]
+    for v in np.argsort(-best, kind="stable")[:SHORTLIST]:
+        if best[v] < MIN_EXPLAINED:
+            break
+        change, size = changes[int(v)], float(sizes[best_row[v], v])
+        dt = lu.solve(-size * change.dense(n))[: len(model.members)]
         shift = dt[frame.member] * C[change.case, frame.column]
         words = change.words(1.0 + size) if callable(change.words) else change.words
         yield Variant(change.kind, words, shift, model.cases[change.case].name, change.joints,
                       1.0 + size if change.fitted else None)
+
+
+def _round_to(values: np.ndarray, digits: int) -> np.ndarray:
+    """Each value rounded to `digits` significant figures (0 stays 0)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        magnitude = np.floor(np.log10(np.abs(values)))
+    magnitude = np.where(np.isfinite(magnitude), magnitude, 0.0)
+    scale = 10.0 ** (digits - 1 - magnitude)
+    return np.round(values * scale) / scale
 
 
 def _plainest(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray,

@@ -13,6 +13,7 @@ import numpy as np
 from verify.compare.causes.frame import ClaimsFrame
 
 SHIFTS = (1, -1, 2, -2, 3, -3)
+COPY_REACH = 3  # rows either side a value is copied from (a slip of the eye or the mouse)
 MIN_RUN = 3  # disagreeing rows in a run: two are a swapped pair, one a copied value at most
 
 
@@ -73,15 +74,21 @@ def shifted_runs(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> l
 
 
 def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> list[Copy]:
-    """A disagreeing claim written exactly as another row of its column whose claim agrees."""
+    """A disagreeing claim written exactly as a nearby row of its column whose claim agrees.
+
+    Only nearby rows: an equal value far away in the table is as likely a coincidence (a wrong value
+    that happens to equal some other member's force) as a copy."""
     agreed = frame.agrees(frame.computed + base)
     out: list[Copy] = []
     for i in np.flatnonzero(pending).tolist():
         text = frame.written[i].strip()
         if not text or frame.claimed[i] == 0:
             continue  # zeros repeat honestly on every idle member
-        alike = np.flatnonzero((frame.column == frame.column[i]) & agreed & (frame.claimed == frame.claimed[i]))
-        same = [int(j) for j in alike.tolist() if j != i and frame.written[j].strip() == text]
+        column = np.flatnonzero(frame.column == frame.column[i])  # table order
+        here = int(np.searchsorted(column, i))
+        nearby = column[max(0, here - COPY_REACH):here + COPY_REACH + 1]
+        same = [int(j) for j in nearby.tolist()
+                if j != i and agreed[j] and frame.claimed[j] == frame.claimed[i] and frame.written[j].strip() == text]
         if same:
             out.append(Copy(i, min(same, key=lambda j: abs(j - i))))
     return out

@@ -31,8 +31,9 @@ from verify.compare.causes.frame import ClaimsFrame
 from verify.formatting import fmt
 from verify.model import Joint, Model, Reaction
 
-SAMPLE_MEMBERS = 300  # disagreeing members priced by influence lines (a sample above this)
+SAMPLE_CLAIMS = 300  # disagreeing claims priced by influence lines (a sample above this)
 SHORTLIST = 8  # candidates per round solved forward for every claim
+MAX_JOINT_CHANGES = 6000  # single-joint load changes priced per round (nearest the disagreement first)
 GEOMETRY_MEMBER_LIMIT = 5000  # support and dimension variants re-solve the truss: only below this
 DIMENSION_RANGE = (0.5, 2.0)  # a dimension differing by more than this is not a slip
 
@@ -48,14 +49,24 @@ class Variant(NamedTuple):
 
 
 class LoadChange(NamedTuple):
-    """A change of one load case's joint loads (dofs vector) and how to say it."""
+    """A change of one load case's joint loads and how to say it.
+
+    `rows` and `values` are the changed joint directions (positions in the load vector) and the
+    change there: sparse, because a 10^5-member truss has tens of thousands of single-load changes.
+    """
 
     kind: str
     case: int
-    delta: np.ndarray  # dofs
+    rows: np.ndarray
+    values: np.ndarray
     words: str | Callable[[float], str]  # a callable takes the fitted factor (for scaled loads)
     joints: tuple[str, ...]
-    fitted: bool = False  # the size of the change is fitted to the claims (delta is one unit of it)
+    fitted: bool = False  # the size of the change is fitted to the claims (values are one unit of it)
+
+    def dense(self, size: int) -> np.ndarray:
+        out = np.zeros(size)
+        np.add.at(out, self.rows, self.values)
+        return out
 
 
 def vertical_axis(model: Model) -> int:
@@ -89,7 +100,13 @@ def _partner(model: Model) -> dict[int, int]:
     return out
 
 
-def load_changes(model: Model, cases: list[int]) -> Iterator[LoadChange]:
+def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
+                 limit: int = MAX_JOINT_CHANGES) -> tuple[list[LoadChange], bool]:
+    """Candidate load changes for the given cases, and whether single-joint changes were capped.
+
+    Whole-case changes always; single-joint changes (a load left out, scaled, or at the other end
+    of a member) for the joints in `near` first, up to `limit` in all.
+    """
     d = model.dim
     F = model.load_matrix()
     partner = _partner(model)
@@ -99,6 +116,16 @@ def load_changes(model: Model, cases: list[int]) -> Iterator[LoadChange]:
         neighbours.setdefault(b, []).append(a)
     ids = model.joint_ids
     v = vertical_axis(model)
+    out: list[LoadChange] = []
+    singles: list[LoadChange] = []
+    capped = False
+
+    def change(kind: str, c: int, parts: list[tuple[int, np.ndarray]], words: str | Callable[[float], str],
+               joints: tuple[str, ...], fitted: bool = False) -> LoadChange:
+        rows = np.concatenate([j * d + np.arange(d) for j, _ in parts])
+        values = np.concatenate([np.asarray(vec, dtype=float) for _, vec in parts])
+        return LoadChange(kind, c, rows, values, words, joints, fitted)
+
     for c in cases:
         name = model.cases[c].name
         column = F[:, c].reshape(-1, d)
@@ -108,44 +135,41 @@ def load_changes(model: Model, cases: list[int]) -> Iterator[LoadChange]:
         # The whole case on the other chord (the joints directly above or below).
         moved = [j for j in loaded if j in partner]
         if moved and len(moved) * 2 >= len(loaded):
-            delta = np.zeros_like(column)
-            for j in moved:
-                delta[j] -= column[j]
-                delta[partner[j]] += column[j]
             targets = [partner[j] for j in moved]
             where = "above" if np.mean([model.xyz[t, v] - model.xyz[j, v] for j, t in zip(moved, targets, strict=True)]) > 0 else "below"
-            yield LoadChange("loads-other-chord", c, delta.ravel(),
-                             f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
-                             f"{_names(ids, moved)}", tuple(ids[t] for t in targets))
+            out.append(change("loads-other-chord", c, [(j, -column[j]) for j in moved] + [(t, column[j]) for j, t in zip(moved, targets, strict=True)],
+                              f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
+                              f"{_names(ids, moved)}", tuple(ids[t] for t in targets)))
         # The whole case turned vertical (a load normal to a member applied straight down or up).
         slanted = [j for j in loaded if np.abs(np.delete(column[j], v)).max() > 1e-9 * np.abs(column[j]).max()
                    and abs(column[j, v]) > 0]
         if slanted:
-            delta = np.zeros_like(column)
+            parts = []
             for j in slanted:
                 turned = np.zeros(d)
                 turned[v] = math.copysign(float(np.linalg.norm(column[j])), column[j, v])
-                delta[j] = turned - column[j]
-            yield LoadChange("loads-vertical", c, delta.ravel(),
-                             f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
-                             "instead of in their stated directions (e.g. normal to the member they act on)",
-                             tuple(ids[j] for j in slanted))
+                parts.append((j, turned - column[j]))
+            out.append(change("loads-vertical", c, parts,
+                              f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
+                              "instead of in their stated directions (e.g. normal to the member they act on)",
+                              tuple(ids[j] for j in slanted)))
         # The whole case scaled (a load value or factor other than the case file's).
-        yield LoadChange("case-scaled", c, column.ravel().copy(), _case_scaled_words(name), (), fitted=True)
-        for j in loaded:
+        out.append(change("case-scaled", c, [(j, column[j]) for j in loaded], _case_scaled_words(name), (), fitted=True))
+        ordered = sorted(loaded, key=lambda j: (near is not None and j not in near, j))
+        for j in ordered:
+            if len(singles) >= limit:
+                capped = True
+                break
             # One load left out, doubled, reversed or of another size.
-            delta = np.zeros_like(column)
-            delta[j] = column[j]
-            yield LoadChange("load-scaled", c, delta.ravel(), _scaled_words(name, ids[j], column[j]), (ids[j],), fitted=True)
+            singles.append(change("load-scaled", c, [(j, column[j])], _scaled_words(name, ids[j], column[j]), (ids[j],),
+                                  fitted=True))
             # One load at the other end of a member.
             for n in neighbours.get(j, []):
                 if np.abs(column[n]).sum() > 0 and n != partner.get(j):
                     continue  # moving onto a loaded joint reads as that joint's load scaled
-                delta = np.zeros_like(column)
-                delta[j] -= column[j]
-                delta[n] += column[j]
-                yield LoadChange("load-moved", c, delta.ravel(), f"the '{name}' load at {ids[j]} applied at {ids[n]} instead",
-                                 (ids[j], ids[n]))
+                singles.append(change("load-moved", c, [(j, -column[j]), (n, column[j])],
+                                      f"the '{name}' load at {ids[j]} applied at {ids[n]} instead", (ids[j], ids[n])))
+    return out + singles, capped
 
 
 def _case_scaled_words(case: str) -> Callable[[float], str]:
