@@ -33,6 +33,8 @@ from verify.compare.causes import (
     explain_model,
     explain_shifted_rows,
 )
+from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
+from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
@@ -640,6 +642,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                 continue
             fitted, defined, agree, n, follows = fit
             covered = [item for item in pending if model.member_index[item[1].member] in follows]  # type: ignore[index]
+            if len(covered) < CAUSE_MIN_EXPLAINED or len(covered) < CAUSE_MAJORITY * len(pending):
+                continue  # a cause must explain a clear majority of the column's differences, never a few
             explained.update(item[0] for item in covered)
             if name in {c.name for c in model.combinations}:
                 what = f"not {defined} as the case file combines '{name}': a different combination factor?"

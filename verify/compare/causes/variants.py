@@ -31,7 +31,8 @@ from verify.compare.causes.frame import ClaimsFrame
 from verify.formatting import fmt
 from verify.model import Joint, Model, Reaction
 
-SAMPLE_CLAIMS = 300  # disagreeing claims priced by influence lines (a sample above this)
+SAMPLE_CLAIMS = 120  # disagreeing claims priced by influence lines (a sample above this): one
+#                      transposed solve per member sampled, the costliest step on 3D trusses
 SHORTLIST = 8  # candidates per round solved forward for every claim
 MAX_JOINT_CHANGES = 6000  # single-joint load changes priced per round (nearest the disagreement first)
 GEOMETRY_MEMBER_LIMIT = 5000  # support and dimension variants re-solve the truss: only below this
@@ -80,29 +81,35 @@ def _partner(model: Model) -> dict[int, int]:
     to it by a member (a vertical), else the nearest in height."""
     v = vertical_axis(model)
     xyz = model.xyz
-    span = float(np.ptp(xyz, axis=0).max()) if len(xyz) else 1.0
-    plan = np.delete(xyz, v, axis=1)
-    key = np.round(plan / (1e-6 * (span or 1.0))).astype(np.int64)
-    groups: dict[tuple[int, ...], list[int]] = {}
-    for j, k in enumerate(map(tuple, key.tolist())):
-        groups.setdefault(k, []).append(j)
-    joined: set[tuple[int, int]] = {(int(a), int(b)) for a, b in model.ends_index.tolist()}
-    joined |= {(b, a) for a, b in joined}
+    if not len(xyz):
+        return {}
+    span = float(np.ptp(xyz, axis=0).max()) or 1.0
+    key = np.round(np.delete(xyz, v, axis=1) / (1e-6 * span)).astype(np.int64)
+    _, group, counts = np.unique(key, axis=0, return_inverse=True, return_counts=True)
+    group = group.ravel()
+    stacked = np.flatnonzero(counts[group] > 1)  # joints sharing their plan position with another
     out: dict[int, int] = {}
-    for members in groups.values():
-        if len(members) < 2:
-            continue
-        for j in members:
-            others = [o for o in members if o != j]
-            linked = [o for o in others if (j, o) in joined]
-            pool = linked or others
-            out[j] = min(pool, key=lambda o: abs(xyz[o, v] - xyz[j, v]))
+    if not stacked.size:
+        return out
+    ends = model.ends_index
+    same = group[ends[:, 0]] == group[ends[:, 1]]
+    linked: dict[int, list[int]] = {}
+    for a, b in ends[same].tolist():  # members along the vertical through a plan position
+        linked.setdefault(a, []).append(b)
+        linked.setdefault(b, []).append(a)
+    members: dict[int, list[int]] = {}
+    for j in stacked.tolist():
+        members.setdefault(int(group[j]), []).append(j)
+    for j in stacked.tolist():
+        pool = linked.get(j) or [o for o in members[int(group[j])] if o != j]
+        out[j] = min(pool, key=lambda o: abs(xyz[o, v] - xyz[j, v]))
     return out
 
 
 def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
-                 limit: int = MAX_JOINT_CHANGES) -> tuple[list[LoadChange], bool]:
-    """Candidate load changes for the given cases, and whether single-joint changes were capped.
+                 limit: int = MAX_JOINT_CHANGES) -> tuple[list[LoadChange], Singles, bool]:
+    """Candidate load changes for the given cases: whole-case ones, single-joint ones (arrays), and
+    whether single-joint changes were capped.
 
     Whole-case changes always; single-joint changes (a load left out, scaled, or at the other end
     of a member) for the joints in `near` first, up to `limit` in all.
@@ -117,7 +124,9 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
     ids = model.joint_ids
     v = vertical_axis(model)
     out: list[LoadChange] = []
-    singles: list[LoadChange] = []
+    single_case: list[np.ndarray] = []
+    single_joints: list[np.ndarray] = []
+    single_targets: list[np.ndarray] = []
     capped = False
 
     def change(kind: str, c: int, parts: list[tuple[int, np.ndarray]], words: str | Callable[[float], str],
@@ -155,21 +164,72 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                               tuple(ids[j] for j in slanted)))
         # The whole case scaled (a load value or factor other than the case file's).
         out.append(change("case-scaled", c, [(j, column[j]) for j in loaded], _case_scaled_words(name), (), fitted=True))
+        # Single-joint changes, nearest the disagreement first: one load left out, doubled,
+        # reversed or of another size ("load-scaled"), or at the other end of a member
+        # ("load-moved", not onto a loaded joint: that reads as the other joint's load scaled).
+        room = limit - sum(len(x) for x in single_joints)
+        if room <= 0:
+            capped = True
+            continue
         ordered = sorted(loaded, key=lambda j: (near is not None and j not in near, j))
+        at: list[int] = []
+        to: list[int] = []
         for j in ordered:
-            if len(singles) >= limit:
+            if len(at) >= room:
                 capped = True
                 break
-            # One load left out, doubled, reversed or of another size.
-            singles.append(change("load-scaled", c, [(j, column[j])], _scaled_words(name, ids[j], column[j]), (ids[j],),
-                                  fitted=True))
-            # One load at the other end of a member.
+            at.append(j)
+            to.append(-1)
             for n in neighbours.get(j, []):
-                if np.abs(column[n]).sum() > 0 and n != partner.get(j):
-                    continue  # moving onto a loaded joint reads as that joint's load scaled
-                singles.append(change("load-moved", c, [(j, -column[j]), (n, column[j])],
-                                      f"the '{name}' load at {ids[j]} applied at {ids[n]} instead", (ids[j], ids[n])))
-    return out + singles, capped
+                if n == partner.get(j) or not np.abs(column[n]).sum() > 0:
+                    at.append(j)
+                    to.append(n)
+        single_case.append(np.full(len(at), c, dtype=np.int64))
+        single_joints.append(np.array(at, dtype=np.int64))
+        single_targets.append(np.array(to, dtype=np.int64))
+    singles = Singles(np.concatenate(single_case) if single_case else np.zeros(0, dtype=np.int64),
+                      np.concatenate(single_joints) if single_joints else np.zeros(0, dtype=np.int64),
+                      np.concatenate(single_targets) if single_targets else np.zeros(0, dtype=np.int64))
+    return out, singles, capped
+
+
+class Singles(NamedTuple):
+    """Single-joint load changes as arrays (a 10^5-member truss has tens of thousands of them):
+    the load of `case` at `joint` scaled (target -1) or moved to `target`."""
+
+    case: np.ndarray
+    joint: np.ndarray
+    target: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.joint)
+
+    def matrix(self, model: Model) -> sp.csc_matrix:
+        """dofs x changes: each column one unit of its change."""
+        d = model.dim
+        F = model.load_matrix()
+        k = np.arange(len(self.joint))
+        comp = np.arange(d)
+        load = F.reshape(len(model.joints), d, -1)[self.joint, :, self.case]  # changes x d
+        moved = self.target >= 0
+        rows = [(self.joint[:, None] * d + comp).ravel(), (self.target[moved][:, None] * d + comp).ravel()]
+        cols = [np.repeat(k, d), np.repeat(k[moved], d)]
+        vals = [np.where(moved[:, None], -load, load).ravel(), load[moved].ravel()]
+        return sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                             shape=(model.dofs, len(self.joint)))
+
+    def change(self, model: Model, k: int) -> LoadChange:
+        """The k-th change as a LoadChange, with its words."""
+        d = model.dim
+        c, j, n = int(self.case[k]), int(self.joint[k]), int(self.target[k])
+        ids, name = model.joint_ids, model.cases[c].name
+        load = model.load_matrix()[j * d:(j + 1) * d, c]
+        if n < 0:
+            return LoadChange("load-scaled", c, j * d + np.arange(d), load.copy(), _scaled_words(name, ids[j], load),
+                              (ids[j],), fitted=True)
+        return LoadChange("load-moved", c, np.concatenate([j * d + np.arange(d), n * d + np.arange(d)]),
+                          np.concatenate([-load, load]), f"the '{name}' load at {ids[j]} applied at {ids[n]} instead",
+                          (ids[j], ids[n]))
 
 
 def _case_scaled_words(case: str) -> Callable[[float], str]:
