@@ -55,7 +55,13 @@ def clearly_changed(truth, variant) -> int:
 
 
 def rounded(values, figures=3):
-    return {c: {m: round_sig(v, figures) for m, v in col.items()} for c, col in values.items()}
+    """As a table writes them: 3 (or 2) significant figures, and round-off noise of an idle member
+    (1e-13 of the largest force) written as 0."""
+    out = {}
+    for c, col in values.items():
+        largest = max(abs(v) for v in col.values()) or 1.0
+        out[c] = {m: 0.0 if abs(v) < 1e-9 * largest else round_sig(v, figures) for m, v in col.items()}
+    return out
 
 
 def likely(review):

@@ -33,6 +33,7 @@ from verify.compare.causes import (
     explain_model,
     explain_shifted_rows,
 )
+from verify.compare.causes.bracing import explain_tension_only
 from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
@@ -665,13 +666,31 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         # equilibrium (another stiffness assumption is not an error). A member outside every
         # self-stress state has its force fixed by statics alone: it is judged member by member
         # below, and taken out of the equilibrium search with its recomputed value.
+        settled = [item for item in diffs if item[0] in explained]  # swapped pairs already named
+        # Tension-only bracing (the compression diagonals claimed as slack) is an idealisation,
+        # said as information, when the truss without those diagonals gives the claims.
+        if frame is not None:
+            open_rows = [item[0] for item in diffs if item[0] not in explained]
+            _, slack_groups = explain_tension_only(frame, np.isin(frame.row, np.array(open_rows, dtype=np.int64)), analysis)
+            for words, _slack, mask in slack_groups:
+                for r in frame.row[mask].tolist():
+                    rows[r] = _with_status(rows[r], "tension-only")
+                    explained.add(r)
+                slack_cases = frame.columns_of(mask)
+                findings.append(Finding("likely-cause", frame.member_ids(mask),
+                                        f"the claims in {', '.join(repr(c) for c in slack_cases)} assume {words}: "
+                                        f"{int(mask.sum())} claim(s) that differ from the elastic solution agree with it. "
+                                        "Confirm the bracing is slender enough to buckle before it carries load",
+                                        Severity.INFO, case=slack_cases[0] if len(slack_cases) == 1 else None, variant=words,
+                                        explains=int(mask.sum()), joints=(), locations=frame.locations(mask)))
+            diffs = [item for item in diffs if item[0] not in explained]
         in_self_stress = _self_stress_members(analysis)
         fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
         loose = [item for item in diffs if item not in fixed_by_statics and item[0] not in explained]
         balance_claims = claimed_matrix.copy()
         # Members judged elsewhere (fixed by statics, or a swapped pair already named) enter the
         # equilibrium search with their recomputed values, so their imbalance is not blamed twice.
-        for r, v, _, computed, _ in fixed_by_statics + [item for item in diffs if item[0] in explained]:
+        for r, v, _, computed, _ in fixed_by_statics + settled:
             balance_claims[model.member_index[v.member], load_names.index(rows[r].case)] = computed  # type: ignore[index]
         findings.extend(_explain_indeterminate(analysis, rows, loose, balance_claims, reaction_claims, load_names, tol,
                                                case_unit.symbol, rounding_matrix))

@@ -40,6 +40,8 @@ MAX_CAUSES = 3
 MIN_EXPLAINED = 3  # one or two claims are per-member findings, not a model
 CLEAR_MISS = 2.0  # a claim "clearly wrong" misses by this many times its allowance
 FIRST_CHOICES = 4
+LOAD_FACTOR_RANGE = (-2.0, 10.0)  # a load taken as f times its value: plausible slips only
+COMBINATION_FACTOR_RANGE = (0.0, 5.0)  # partial factors of common practice lie well inside
 SAMPLE_SHARE = 0.1  # of the sampled disagreeing claims, the share a load change must explain to be solved
 ALIKE = "; or, equally for these claims, "
 MAX_ALIKE = 2  # other readings named beside the closest  # first causes whose chains are followed
@@ -188,7 +190,8 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
                 continue
             old = float(C[c, k])
             new = _plainest(frame, pending, base, [(f, (f - old) * unit) for f in nice_factors(old + s)
-                                                   if abs(f - old) > 1e-12])
+                                                   if abs(f - old) > 1e-12 and COMBINATION_FACTOR_RANGE[0] <= f
+                                                   <= COMBINATION_FACTOR_RANGE[1]])
             if new is not None:
                 if new == 0:
                     words = f"'{case.name}' left out of '{combo.name}'"
@@ -258,6 +261,9 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
         sizes[0] = np.where(np.abs(factor - special) < 0.05, special - 1.0, sizes[0])
     sizes[:, ~fitted] = 1.0
     sizes[:, fitted & ~enough] = 0.0  # nothing to fit: no change
+    # A load off by more than a factor of ten, or reversed more than twice over, is no slip of a
+    # load value: a unit problem at most, which the unit diagnoses name.
+    sizes[(sizes + 1.0 > LOAD_FACTOR_RANGE[1]) | (sizes + 1.0 < LOAD_FACTOR_RANGE[0])] = 0.0
     computed = (frame.computed + base)[sample]
     scores = np.zeros(sizes.shape, dtype=np.int64)
     for row in range(sizes.shape[0]):

@@ -6,13 +6,17 @@ they were read, row by row).
 
 from __future__ import annotations
 
+import re
 from typing import NamedTuple
 
 import numpy as np
 
 from verify.compare.causes.frame import ClaimsFrame
 
+CLEAR_MISS = 2.0  # as in verify.compare.causes.search: a claim clearly wrong misses by this many allowances
+
 SHIFTS = (1, -1, 2, -2, 3, -3)
+MIN_COPY_FIGURES = 3  # "110" equals another row's "110" by chance in a table rounded to 2 figures
 COPY_REACH = 3  # rows either side a value is copied from (a slip of the eye or the mouse)
 MIN_RUN = 3  # disagreeing rows in a run: two are a swapped pair, one a copied value at most
 
@@ -79,11 +83,14 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
     Only nearby rows: an equal value far away in the table is as likely a coincidence (a wrong value
     that happens to equal some other member's force) as a copy."""
     agreed = frame.agrees(frame.computed + base)
+    # Only claims clearly wrong: a value just outside its allowance is a rounding question, and in
+    # a table rounded to two figures many rows repeat one another honestly.
+    clear = np.abs(frame.claimed - frame.computed - base) > CLEAR_MISS * frame.allowed(frame.computed + base)
     out: list[Copy] = []
-    for i in np.flatnonzero(pending).tolist():
+    for i in np.flatnonzero(pending & clear).tolist():
         text = frame.written[i].strip()
-        if not text or frame.claimed[i] == 0:
-            continue  # zeros repeat honestly on every idle member
+        if not text or frame.claimed[i] == 0 or significant_figures(text) < MIN_COPY_FIGURES:
+            continue  # zeros repeat honestly on every idle member, and short numbers by chance
         column = np.flatnonzero(frame.column == frame.column[i])  # table order
         here = int(np.searchsorted(column, i))
         nearby = column[max(0, here - COPY_REACH):here + COPY_REACH + 1]
@@ -92,3 +99,14 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
         if same:
             out.append(Copy(i, min(same, key=lambda j: abs(j - i))))
     return out
+
+
+def significant_figures(text: str) -> int:
+    """Significant figures of a number as written ("12.50 T" 4, "-110" 2, "0.045" 2)."""
+    number = re.search(r"\d[\d,.\s]*", text[:64])
+    if number is None:
+        return 0
+    digits = number.group(0)
+    decimal = "." in digits
+    digits = re.sub(r"\D", "", digits).lstrip("0")
+    return len(digits if decimal else digits.rstrip("0"))
