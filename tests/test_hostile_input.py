@@ -153,6 +153,13 @@ def test_integer_beyond_the_float_range_is_refused_not_a_traceback(tmp_path):
     assert any("beyond the float range" in p for p in problems), problems
 
 
+def test_integer_with_thousands_of_digits_is_refused_not_a_traceback(tmp_path):
+    """tomllib raises a plain ValueError past Python's 4300-digit limit (found by the fuzzer)."""
+    folder(tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", "C = [0, " + "9" * 5000 + "]")})
+    code, _, err = run("stability", tmp_path / "case.toml")
+    assert code == 2 and "an integer with thousands of digits" in err
+
+
 # -- 2. inputs overwritten, outputs to non-regular files -----------------------------------------
 def _check_writing(case: Path, *output: object) -> tuple[int, str]:
     code, _, err = run("check", case, "--claims", case.parent / "claims.csv", *output)

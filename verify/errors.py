@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import difflib
 import re
+import reprlib
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
@@ -59,9 +60,18 @@ def escape_controls(text: str, *, keep: str = "") -> str:
     return _CONTROLS.sub(visible, text)
 
 
+_SHORT_REPR = reprlib.Repr()
+_SHORT_REPR.maxlist = _SHORT_REPR.maxtuple = _SHORT_REPR.maxdict = 6
+_SHORT_REPR.maxstring = _SHORT_REPR.maxother = 60
+_SHORT_REPR.maxlevel = 3
+
+
 def shown(value: object, *, limit: int = 60) -> str:
-    """A value as a message quotes it: control characters escaped, clipped to `limit` characters."""
-    text = escape_controls(value if isinstance(value, str) else repr(value))
+    """A value as a message quotes it: control characters escaped, clipped to `limit` characters.
+
+    Containers are abbreviated before they are written out: the repr of a 4-million-item array
+    from a hostile case file took seconds and hundreds of MB, only to be clipped."""
+    text = escape_controls(value if isinstance(value, str) else _SHORT_REPR.repr(value))
     if len(text) > limit:
         return f"{text[:limit]}… ({len(text)} characters)"
     return text

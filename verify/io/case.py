@@ -165,6 +165,9 @@ def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
         message = re.sub(r"\s*\(at line \d+, column \d+\)", "", str(exc))
         column = f" (column {found.group(2)})" if found else ""
         raise InputError([Problem(name, f"not valid TOML{column}: {message}", line)]) from None
+    except ValueError:  # tomllib converts integers itself; Python refuses more than 4300 digits
+        raise InputError([Problem(name, "not a usable case file: an integer with thousands of digits; "
+                                        "numbers in a case have at most 17 significant figures")]) from None
     return build_model(data, source=name, text=text, base_dir=path.parent, tables_outside=tables_outside)
 
 
