@@ -429,3 +429,15 @@ def test_messages_quote_long_values_clipped(tmp_path):
     folder(tmp_path, {"case.toml": text})
     problems = problems_of(tmp_path / "case.toml")
     assert problems and all(len(p) < 1000 for p in problems), [len(p) for p in problems]
+
+
+@pytest.mark.parametrize("report", ["r.md", "r.html", None])
+def test_control_characters_from_a_claims_label_are_escaped_in_every_output(tmp_path, report):
+    claims = CLAIMS + "XY\x1b[31mZ\x07,5\n"
+    folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": claims})
+    args = ["check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv"]
+    code, out, err = run(*args, *(["--report", tmp_path / report] if report else []))
+    assert code == 1
+    text = (tmp_path / report).read_text() if report else out
+    assert "\x1b" not in text and "\x07" not in text and "\x1b" not in err
+    assert "XY" in text

@@ -19,7 +19,7 @@ import click
 from verify import __version__
 from verify.analysis.pipeline import Analysis, analyse
 from verify.analysis.stability import Classification
-from verify.errors import EXIT_BAD_INPUT, EXIT_CANNOT_VERIFY, InputError
+from verify.errors import EXIT_BAD_INPUT, EXIT_CANNOT_VERIFY, InputError, escape_controls
 from verify.io.case import read_case
 from verify.model import Model
 from verify.report import json_out, text
@@ -31,7 +31,7 @@ MAX_PRINTED_CUTS = 100  # a calc sheet per cut; beyond this a print-out stops be
 def _say_bad_input(error: InputError | str, as_json: bool = False) -> None:
     """The message on stderr; with --json also one JSON object on stdout, so a script reading
     stdout sees why there is no result."""
-    click.echo(error.render() if isinstance(error, InputError) else error, err=True)
+    click.echo(error.render() if isinstance(error, InputError) else escape_controls(error, keep="\n"), err=True)
     if as_json:
         problems = ([{"file": p.file, "line": p.line, "where": p.where, "message": p.message} for p in error.problems]
                     if isinstance(error, InputError) else [{"file": None, "line": None, "where": None, "message": error}])
@@ -305,7 +305,8 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
     if as_json:
         click.echo(json_out.dumps(json_out.check_json(review)))
     else:
-        click.echo(_colour(render_review(review, all_rows=all_rows), review.verdict.value))
+        # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
+        click.echo(_colour(escape_controls(render_review(review, all_rows=all_rows), keep="\n\t"), review.verdict.value))
     return review.exit_code
 
 
