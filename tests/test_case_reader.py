@@ -257,7 +257,7 @@ def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, lay
     def counted(*args):
         found = original(*args)
         if found is not None:
-            bulk_reads.append(args[1])
+            bulk_reads.append(args[2])
         return found
 
     monkeypatch.setattr(case_module, "_clean_frame", counted)

@@ -17,8 +17,8 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from verify.analysis.pipeline import Analysis, analyse
-from verify.compare.diagnose import Review, SignMode, compare_claims
-from verify.compare.tolerances import ATOL_FRACTION, RTOL, Tolerance
+from verify.compare.diagnose import Review, compare_claims
+from verify.compare.tolerances import ATOL_FRACTION, RTOL
 from verify.io.case import read_case
 from verify.model import Model
 
@@ -237,10 +237,13 @@ def _frame_html(frame: Any) -> str:
     return str(frame.to_html(escape=True, float_format=lambda v: f"{v:.4g}", na_rep="—")) + note
 
 
-def solve(case_path: str | Path, *, assume_equal_EA: float | None = None) -> SolveResult:
+def solve(case_path: str | Path, *, assume_equal_EA: float | None = None, tables_anywhere: bool = False) -> SolveResult:
     """Read the case and recompute every member force and reaction."""
-    model = read_case(case_path)
-    return SolveResult(model, analyse(model, assume_equal_EA=assume_equal_EA))
+    from verify.options import check_assume_equal_ea
+
+    ea = check_assume_equal_ea(assume_equal_EA)
+    model = read_case(case_path, tables_outside=tables_anywhere)
+    return SolveResult(model, analyse(model, assume_equal_EA=ea))
 
 
 def review(
@@ -257,15 +260,19 @@ def review(
     force_column: str | None = None,
     case: str | None = None,
     assume_equal_EA: float | None = None,
+    tables_anywhere: bool = False,
 ) -> ReviewResult:
     """Check the claims file against the case, as `truss-verify check` does.
 
     `sign` is tension-positive, compression-positive or auto; `unit` None (or "auto") reads it
-    from the table or infers it. Bad input raises verify.errors.InputError.
+    from the table or infers it. Options out of range raise verify.errors.OptionError (the same
+    rule as the command line's); bad input raises verify.errors.InputError.
     """
     from verify.io.claims import read_claims
+    from verify.options import check_options
 
-    model = read_case(case_path)
+    options = check_options(sign=sign, unit=unit, rtol=rtol, atol_fraction=atol_fraction, assume_equal_EA=assume_equal_EA)
+    model = read_case(case_path, tables_outside=tables_anywhere)
     claims = read_claims(
         claims_path,
         model,
@@ -275,14 +282,8 @@ def review(
         force_column=force_column,
         case=case,
     )
-    analysis = analyse(model, assume_equal_EA=assume_equal_EA)
-    result = compare_claims(
-        analysis,
-        claims,
-        sign=SignMode(sign),
-        unit=None if unit in (None, "auto") else unit,
-        tolerance=Tolerance(rtol=rtol, atol_fraction=atol_fraction),
-    )
+    analysis = analyse(model, assume_equal_EA=options.assume_equal_EA)
+    result = compare_claims(analysis, claims, sign=options.sign, unit=options.unit, tolerance=options.tolerance)
     return ReviewResult(result)
 
 

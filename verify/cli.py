@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import errno
 import gc
-import math
 import os
 import sys
 import traceback
@@ -20,7 +19,7 @@ import click
 from verify import __version__
 from verify.analysis.pipeline import Analysis, analyse
 from verify.analysis.stability import Classification
-from verify.errors import EXIT_BAD_INPUT, EXIT_CANNOT_VERIFY, InputError
+from verify.errors import EXIT_BAD_INPUT, EXIT_CANNOT_VERIFY, InputError, escape_controls
 from verify.io.case import read_case
 from verify.model import Model
 from verify.report import json_out, text
@@ -32,7 +31,7 @@ MAX_PRINTED_CUTS = 100  # a calc sheet per cut; beyond this a print-out stops be
 def _say_bad_input(error: InputError | str, as_json: bool = False) -> None:
     """The message on stderr; with --json also one JSON object on stdout, so a script reading
     stdout sees why there is no result."""
-    click.echo(error.render() if isinstance(error, InputError) else error, err=True)
+    click.echo(error.render() if isinstance(error, InputError) else escape_controls(error, keep="\n"), err=True)
     if as_json:
         problems = ([{"file": p.file, "line": p.line, "where": p.where, "message": p.message} for p in error.problems]
                     if isinstance(error, InputError) else [{"file": None, "line": None, "where": None, "message": error}])
@@ -45,7 +44,7 @@ def _fail_input(error: InputError | str, as_json: bool = False) -> None:
     sys.exit(EXIT_BAD_INPUT)
 
 
-def _load(case: str, as_json: bool = False) -> Model:
+def _load(case: str, as_json: bool = False, tables_anywhere: bool = False) -> Model:
     from pathlib import Path
 
     if Path(case).is_dir():  # a case folder, as bundled in cases/: its case.toml
@@ -54,16 +53,25 @@ def _load(case: str, as_json: bool = False) -> Model:
             _fail_input(f"{case}: a folder without a case.toml; name the case file", as_json)
         case = str(inside)
     try:
-        return read_case(case)
+        return read_case(case, tables_outside=tables_anywhere)
     except InputError as error:
         _fail_input(error, as_json)
         raise  # unreachable; keeps type checkers honest
 
 
 def _positive_finite(ctx: click.Context, param: click.Parameter, value: float | None) -> float | None:
-    if value is not None and not (math.isfinite(value) and value > 0):
-        raise click.BadParameter(f"must be a positive number (an axial stiffness in the case's force unit), got {value:g}")
-    return value
+    from verify.errors import OptionError
+    from verify.options import check_assume_equal_ea
+
+    try:
+        return check_assume_equal_ea(value, name="--assume-equal-ea")
+    except OptionError as exc:
+        raise click.BadParameter(str(exc)) from None
+
+
+_TABLES_ANYWHERE = click.option(
+    "--tables-anywhere", is_flag=True,
+    help="Let the case file name CSV tables outside its own folder (by default they must sit beside it).")
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
@@ -90,9 +98,10 @@ def main() -> None:
 @main.command(short_help="Classify the truss: stable or not, determinate or not.")
 @click.argument("case", type=click.Path())
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of text.")
-def stability(case: str, as_json: bool) -> None:
+@_TABLES_ANYWHERE
+def stability(case: str, as_json: bool, tables_anywhere: bool) -> None:
     """Classify CASE: Maxwell's count, rank of the equilibrium matrix, mechanisms, self-stress."""
-    model = _load(case, as_json)
+    model = _load(case, as_json, tables_anywhere)
     analysis = _stability_only(model)
     if as_json:
         click.echo(json_out.dumps(json_out.stability_json(model, analysis)))
@@ -117,9 +126,11 @@ def _stability_only(model: Model) -> Analysis:
 @click.option("--assume-equal-ea", type=float, default=None, metavar="EA", callback=_positive_finite,
               help="For an indeterminate truss without stiffness data: assume this EA for every member (said in every output).")
 @click.option("--all-rows", is_flag=True, help="List every member even in very large trusses (default: the 5000 largest forces).")
-def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equal_ea: float | None, all_rows: bool) -> None:
+@_TABLES_ANYWHERE
+def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equal_ea: float | None, all_rows: bool,
+          tables_anywhere: bool) -> None:
     """Recompute every member force (tension positive, T/C) and reaction of CASE."""
-    model = _load(case, as_json)
+    model = _load(case, as_json, tables_anywhere)
     analysis = analyse(model, assume_equal_EA=assume_equal_ea)
     if load_name is not None and load_name not in model.load_names:
         from verify.errors import did_you_mean
@@ -170,7 +181,8 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
               help="The members the section passes through, comma-separated (e.g. U1U2,U1L2,L1L2).")
 @click.option("--case", "load_name", default=None, help="Load case or combination (default: every one).")
 @click.option("--decimals-only", is_flag=True, help="Skip the exact values (sympy) beside the decimals.")
-def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool) -> None:
+@_TABLES_ANYWHERE
+def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool, tables_anywhere: bool) -> None:
     """Print the method-of-sections calc sheet for a cut through the given members of CASE.
 
     Shows the free body kept, the members cut, the reactions (from overall equilibrium) and loads
@@ -181,7 +193,7 @@ def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool)
     from verify.errors import did_you_mean
     from verify.report.section_calc import render_cut, render_reactions
 
-    model = _load(case)
+    model = _load(case, tables_anywhere=tables_anywhere)
     if load_name is not None and load_name not in model.load_names:
         click.echo(f"--case: '{load_name}' is not a load case or combination of {case}.{did_you_mean(load_name, model.load_names)}", err=True)
         sys.exit(EXIT_BAD_INPUT)
@@ -225,31 +237,29 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
                report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
                member_column: str | None, case_column: str | None, force_column: str | None,
                load_name: str | None, assume_equal_ea: float | None, all_rows: bool,
-               displacements: str | None = None) -> int:
-    from verify.compare.diagnose import SignMode, compare_claims
-    from verify.compare.tolerances import Tolerance
+               displacements: str | None = None, tables_anywhere: bool = False) -> int:
+    from verify.compare.diagnose import compare_claims
+    from verify.errors import OptionError
     from verify.io.claims import read_claims
+    from verify.options import check_options
     from verify.report.atomic import OutputError, write_atomic
     from verify.report.review_text import render_review
 
-    model = _load(case, as_json)
-    if unit != "auto":
-        from verify.units import Dimension, lookup_unit
-
-        try:
-            lookup_unit(unit, Dimension.FORCE)
-        except ValueError as exc:
-            _say_bad_input(f"--unit: {exc}", as_json)
-            return EXIT_BAD_INPUT
+    try:
+        options = check_options(sign=sign, unit=unit, rtol=rtol, atol_fraction=atol_fraction,
+                                assume_equal_EA=assume_equal_ea,
+                                names={"sign": "--sign", "unit": "--unit", "rtol": "--rtol", "atol_fraction": "--atol-fraction",
+                                       "assume_equal_EA": "--assume-equal-ea"})
+    except OptionError as exc:
+        _say_bad_input(str(exc), as_json)
+        return EXIT_BAD_INPUT
+    model = _load(case, as_json, tables_anywhere)
     if report and not report.lower().endswith((".html", ".htm", ".md")):
         _say_bad_input(f"--report: '{report}' must end in .html or .md (the report's format follows the extension)", as_json)
         return EXIT_BAD_INPUT
     if csv_path and not csv_path.lower().endswith((".csv", ".txt")):
         # (and so can never be the --report file, which ends in .html or .md)
         _say_bad_input(f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, not a workbook)", as_json)
-        return EXIT_BAD_INPUT
-    if rtol <= 0 or rtol >= 1 or atol_fraction < 0 or atol_fraction >= 1:
-        _say_bad_input("--rtol must be in (0, 1) and --atol-fraction in [0, 1)", as_json)
         return EXIT_BAD_INPUT
     try:
         claims = read_claims(claims_path, model, sheet=sheet, member_column=member_column, case_column=case_column,
@@ -271,15 +281,15 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         except InputError as error:
             _say_bad_input(error, as_json)
             return EXIT_BAD_INPUT
-    analysis = analyse(model, assume_equal_EA=assume_equal_ea, displacements=displacement_claims is not None)
-    tolerance = Tolerance(rtol=rtol, atol_fraction=atol_fraction)
-    review = compare_claims(analysis, claims, sign=SignMode(sign), unit=None if unit == "auto" else unit,
-                            tolerance=tolerance)
+    analysis = analyse(model, assume_equal_EA=options.assume_equal_EA, displacements=displacement_claims is not None)
+    tolerance = options.tolerance
+    review = compare_claims(analysis, claims, sign=options.sign, unit=options.unit, tolerance=tolerance)
     if displacement_claims is not None:
         from verify.compare.displacements import attach_displacements, compare_displacements
 
         review = attach_displacements(review, compare_displacements(analysis, displacement_claims, tolerance=tolerance))
-    inputs = [case, claims_path] + ([displacements] if displacements else [])
+    # Every file the run read, however the user spelt it: no output may replace one.
+    inputs = [case, model.source, claims_path, *model.tables] + ([displacements] if displacements else [])
     try:
         if csv_path:
             from verify.report.table_csv import render_csv
@@ -295,7 +305,8 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
     if as_json:
         click.echo(json_out.dumps(json_out.check_json(review)))
     else:
-        click.echo(_colour(render_review(review, all_rows=all_rows), review.verdict.value))
+        # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
+        click.echo(_colour(escape_controls(render_review(review, all_rows=all_rows), keep="\n\t"), review.verdict.value))
     return review.exit_code
 
 
@@ -333,6 +344,7 @@ _CHECK_OPTIONS = [
                  help="Claimed joint displacements (CSV: joint, direction, case, value with its length unit in the header "
                       "or cells, e.g. 'deflection (mm)'); checked by the direct stiffness method and confirmed by the "
                       "unit-load method."),
+    _TABLES_ANYWHERE,
 ]
 
 
@@ -381,6 +393,25 @@ EXIT_PIPE_CLOSED = 141  # 128 + SIGPIPE, as shells report a reader that went awa
 EXIT_INTERNAL = 70  # EX_SOFTWARE (sysexits.h): a fault in the tool, never a verdict
 
 
+def _fill_closed_streams() -> None:
+    """Point a closed stdout or stderr (`>&-`) at the null device.
+
+    Python then starts with sys.stdout None, and the first write or flush failed with status 1,
+    which means "discrepancies". A run whose output the caller discarded still owes a true exit
+    status, so the output goes where the caller sent it: nowhere.
+    """
+    for fd, name in ((1, "stdout"), (2, "stderr")):
+        try:
+            os.fstat(fd)
+        except OSError:
+            null = os.open(os.devnull, os.O_WRONLY)  # takes the lowest free descriptor
+            if null != fd:
+                os.dup2(null, fd)
+                os.close(null)
+        if getattr(sys, name) is None:
+            setattr(sys, name, open(fd, "w", encoding="utf-8", errors="backslashreplace", closefd=False))  # lives as long as the process
+
+
 def run(argv: list[str] | None = None) -> None:
     """The console entry point: run the command, flush the output, and leave at once.
 
@@ -390,6 +421,7 @@ def run(argv: list[str] | None = None) -> None:
     main); an interruption, a closed or full output and a fault in the tool get statuses of
     their own, never 1 ("discrepancies").
     """
+    _fill_closed_streams()
     try:
         returned = main.main(args=argv, prog_name="truss-verify", standalone_mode=False)
         code: Any = returned if isinstance(returned, int) else 0  # --help and --version end here
@@ -420,7 +452,7 @@ def run(argv: list[str] | None = None) -> None:
     for stream in (sys.stdout, sys.stderr):
         try:
             stream.flush()
-        except (OSError, ValueError):  # a closed pipe (e.g. `| head`): nothing more to deliver
+        except (OSError, ValueError, AttributeError):  # a closed pipe (e.g. `| head`): nothing more to deliver
             pass
     os._exit(code)
 

@@ -88,6 +88,8 @@ class Model:
     cases: tuple[LoadCase, ...]
     combinations: tuple[Combination, ...] = ()
     source: str = ""
+    # The CSV tables the case file named, as read: a run protects them from its outputs.
+    tables: tuple[str, ...] = ()
     # Derived arrays (positions are internal; user labels are the ids above).
     xyz: np.ndarray = field(init=False, repr=False, compare=False)
     ends_index: np.ndarray = field(init=False, repr=False, compare=False)

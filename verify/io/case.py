@@ -17,7 +17,22 @@ from typing import Any
 
 import numpy as np
 
-from verify.errors import InputError, Problem, ProblemList, did_you_mean
+from verify.errors import (
+    InputError,
+    Problem,
+    ProblemList,
+    did_you_mean,
+    has_controls,
+    quoted,
+    shown,
+)
+from verify.io.files import (
+    CASE_FILE_MAX_BYTES,
+    TABLE_MAX_BYTES,
+    UnreadableFile,
+    inside_folder,
+    read_regular_file,
+)
 from verify.io.locate import LineLocator
 from verify.io.numbers import parse_number
 from verify.model import Combination, Joint, LoadCase, Member, Model, Reaction, Units
@@ -39,6 +54,18 @@ MODULUS_UNITS = {
 # Coincident joints / zero lengths: relative to the model's extent (common practice: coordinates
 # agreeing to 1e-9 of the span are the same point in any drawing).
 COINCIDENT_RTOL = 1e-9
+
+# Sane ranges, in the case's own units. Beyond them float arithmetic stops being trustworthy long
+# before the numbers stop being finite: a factor of 1e308 overflowed every force to inf and the
+# claims "agreed" with nothing, coordinates of 1e155 squared past the float range and read as
+# "unstable", and at 1e9 the section cuts lost every lever arm to rounding. 10^7 covers a 10 km
+# span drawn in mm; 10^12 force units, the weight of a large ship in N; combination factors are
+# of order 1 (0.9 to 1.6 in practice), so 1000 only catches slips.
+COORDINATE_LIMIT = 1e7
+LOAD_LIMIT = 1e12
+FACTOR_LIMIT = 1e3
+EA_LIMIT = 1e18
+LABEL_MAX_CHARS = 200  # ids and case names a reader can see in a table column
 
 
 class _Origins:
@@ -88,6 +115,10 @@ class _Ctx:
     bulk: _Bulk = field(default_factory=_Bulk)
     needs_area_units: list[tuple[str, tuple[str, ...]]] = field(default_factory=list)  # (what, path)
     joints_unreadable: bool = False  # the joints table could not be read: references to joints are not news
+    tables_outside: bool = False  # the user allowed tables outside the case's folder
+    length_unit: str = ""  # symbols for messages, once [units] is read
+    force_unit: str = ""
+    tables: dict[str, tuple[str, str] | None] = field(default_factory=dict)  # name -> (path, text), read once
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -101,16 +132,20 @@ class _Ctx:
             self.add(message, *path)
 
 
-def read_case(path: str | Path) -> Model:
-    """Read, validate and freeze the case at `path`. Raises InputError listing every problem."""
+def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
+    """Read, validate and freeze the case at `path`. Raises InputError listing every problem.
+
+    CSV tables the case names must lie inside the case's folder (links followed), unless
+    `tables_outside`: a case file from elsewhere must not make the run read /etc/passwd.
+    """
     path = Path(path)
     name = str(path)
     try:
-        raw = path.read_bytes()
+        raw = read_regular_file(path, limit=CASE_FILE_MAX_BYTES)
     except FileNotFoundError:
         raise InputError([Problem(name, "file not found")]) from None
-    except OSError as exc:
-        raise InputError([Problem(name, f"cannot read the file ({exc.strerror})")]) from None
+    except UnreadableFile as exc:
+        raise InputError([Problem(name, str(exc))]) from None
     if raw[:4] == b"PK\x03\x04" or raw[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" or path.suffix.lower() in (".csv", ".xlsx", ".xls"):
         raise InputError([Problem(name, "this looks like a table (CSV or a spreadsheet), not a case file: the case is a "
                                         "TOML file (title, [units], [joints], [members], [supports], [loads]; see the README); "
@@ -121,18 +156,25 @@ def read_case(path: str | Path) -> Model:
         raise InputError([Problem(name, f"not UTF-8 text (byte {exc.start}); save the case file as UTF-8")]) from None
     try:
         data = tomllib.loads(text)
+    except RecursionError:
+        raise InputError([Problem(name, "not a usable case file: values nested too deeply; a case needs "
+                                        "tables of arrays, at most two levels down")]) from None
     except tomllib.TOMLDecodeError as exc:
         found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
         line = int(found.group(1)) if found else None
         message = re.sub(r"\s*\(at line \d+, column \d+\)", "", str(exc))
         column = f" (column {found.group(2)})" if found else ""
         raise InputError([Problem(name, f"not valid TOML{column}: {message}", line)]) from None
-    return build_model(data, source=name, text=text, base_dir=path.parent)
+    except ValueError:  # tomllib converts integers itself; Python refuses more than 4300 digits
+        raise InputError([Problem(name, "not a usable case file: an integer with thousands of digits; "
+                                        "numbers in a case have at most 17 significant figures")]) from None
+    return build_model(data, source=name, text=text, base_dir=path.parent, tables_outside=tables_outside)
 
 
-def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "", base_dir: Path | None = None) -> Model:
+def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "", base_dir: Path | None = None,
+                tables_outside: bool = False) -> Model:
     """Validate parsed case data and freeze it into a Model."""
-    ctx = _Ctx(source, LineLocator(text), ProblemList(source))
+    ctx = _Ctx(source, LineLocator(text), ProblemList(source), tables_outside=tables_outside)
     base = base_dir or Path(".")
 
     for key in data:
@@ -143,8 +185,12 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     if not isinstance(title, str):
         ctx.add("title must be a string", "title")
         title = str(title)
+    elif has_controls(title):
+        ctx.add(f"title {shown(title)} holds a control character; write plain text on one line", "title")
 
     units = _read_units(ctx, data.get("units"))
+    if units is not None:
+        ctx.length_unit, ctx.force_unit = units.length.symbol, units.force.symbol
     joints = _read_joints(ctx, data.get("joints"), base)
     dim = _dimension(ctx, joints)
     joint_ids = {j.id for j in joints}
@@ -178,9 +224,11 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     arrays = None
     if bulk.xyz is not None and bulk.ends is not None and len(bulk.xyz) == len(joints) and len(bulk.ends) == len(members):
         arrays = (bulk.xyz, bulk.ends)
+    tables = tuple(path for path, _ in (t for t in ctx.tables.values() if t is not None))
     return Model(
         title=title, units=units, dim=dim, joints=tuple(joints), members=tuple(members),
         reactions=tuple(reactions), cases=tuple(cases), combinations=tuple(combos), source=source, arrays=arrays,
+        tables=tables,
     )
 
 
@@ -227,52 +275,93 @@ def _stiffness_units(ctx: _Ctx, table: Any) -> tuple[float | None, float | None]
 
 
 # -- CSV tables ---------------------------------------------------------------------------------
+def _table_text(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...]) -> tuple[str, str] | None:
+    """(path, text) of a CSV table the case names, read once; None, with the problem said once,
+    when it is missing, outside the case's folder, not a regular file, too large or not text.
+
+    Line endings become "\\n" (CR-only files from old spreadsheets included), so that the csv
+    module and pandas count the same lines.
+    """
+    if name in ctx.tables:
+        return ctx.tables[name]
+    ctx.tables[name] = None
+    path = (base / name) if not Path(name).is_absolute() else Path(name)
+    field_name = ".".join(str(w) for w in where)
+    problem: str | None = None
+    text = ""
+    if not ctx.tables_outside and not inside_folder(path, base):
+        problem = (f"{field_name} names the table {quoted(name)}, which is outside the case's folder {base}; "
+                   "tables stay beside the case file. Move it there, or pass --tables-anywhere")
+    else:
+        try:
+            text = read_regular_file(path, limit=TABLE_MAX_BYTES).decode("utf-8-sig")
+        except FileNotFoundError:
+            problem = f"{field_name} names the table {quoted(name)}, which does not exist (looked in {base})"
+        except UnreadableFile as exc:
+            problem = f"{field_name}: table {quoted(name)}: {exc}"
+        except UnicodeDecodeError as exc:
+            problem = f"{field_name}: table {quoted(name)} is not UTF-8 text (byte {exc.start}); save it as UTF-8 CSV"
+        else:
+            if "\x00" in text:
+                problem = f"{field_name}: table {quoted(name)} holds NUL bytes (byte {text.index(chr(0))}); it is not a text table"
+    if problem is not None:
+        ctx.add(problem, *where)
+        ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
+        return None
+    text = text.replace("\r\n", "\n").replace("\r", "\n")
+    ctx.tables[name] = (str(path), text)
+    return ctx.tables[name]
+
+
 def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required: tuple[str, ...]) -> Iterator[tuple[str, int, dict[str, str]]]:
     """Yield (file, line, row) from a CSV table named in the case file; headers are lower-cased."""
-    path = (base / name) if not Path(name).is_absolute() else Path(name)
-    try:
-        text = path.read_bytes().decode("utf-8-sig")
-    except FileNotFoundError:
-        ctx.add(f"{'.'.join(where)} names the table '{name}', which does not exist (looked in {base})", *where)
-        ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
+    found = _table_text(ctx, base, name, where)
+    if found is None:
         return
-    except (OSError, UnicodeDecodeError) as exc:
-        ctx.add(f"{'.'.join(where)}: cannot read '{name}' as UTF-8 text ({exc})", *where)
-        ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
-        return
+    file, text = found
     first = text.split("\n", 1)[0]
     # Spreadsheets in many locales save CSV with ';' (or tabs) between fields.
     delimiter = next((d for d in (";", "\t") if d in first and "," not in first), ",")
     reader = csv.reader(io.StringIO(text), delimiter=delimiter)
     try:
-        header = [h.strip().lower() for h in next(reader)]
-    except StopIteration:
-        ctx.problems.problems.append(Problem(str(path), "the table is empty; expected a header row", 1))
-        return
-    missing = [r for r in required if r not in header]
-    if missing:
-        ctx.problems.problems.append(Problem(str(path), f"header lacks column(s) {', '.join(missing)}; found {', '.join(header)}", 1))
+        try:
+            header = [h.strip().lower() for h in next(reader)]
+        except StopIteration:
+            ctx.problems.problems.append(Problem(file, "the table is empty; expected a header row", 1))
+            return
+        missing = [r for r in required if r not in header]
+        if missing:
+            ctx.problems.problems.append(Problem(file, f"header lacks column(s) {', '.join(missing)}; found "
+                                                       f"{shown(', '.join(header), limit=120)}", 1))
+            if where == ("joints",):
+                ctx.joints_unreadable = True
+            return
+        rows = 0
+        for row in reader:
+            line = reader.line_num
+            if not row or all(not c.strip() for c in row):
+                continue
+            rows += 1
+            if len(row) != len(header):
+                ctx.problems.problems.append(Problem(file, f"row has {len(row)} fields, the header has {len(header)}", line))
+                continue
+            yield file, line, {h: c.strip() for h, c in zip(header, row, strict=True)}
+    except csv.Error as exc:  # an unclosed quote, a field beyond the csv module's size limit
+        ctx.problems.problems.append(Problem(file, f"not readable as CSV from here on ({exc}); a table has one "
+                                                   "row per line, fields separated by commas", reader.line_num))
         if where == ("joints",):
             ctx.joints_unreadable = True
         return
-    rows = 0
-    for row in reader:
-        line = reader.line_num
-        if not row or all(not c.strip() for c in row):
-            continue
-        rows += 1
-        if len(row) != len(header):
-            ctx.problems.problems.append(Problem(str(path), f"row has {len(row)} fields, the header has {len(header)}", line))
-            continue
-        yield str(path), line, {h: c.strip() for h, c in zip(header, row, strict=True)}
     if not rows:
-        ctx.problems.problems.append(Problem(str(path), f"the table has a header ({', '.join(header)}) but no rows", 1))
+        ctx.problems.problems.append(Problem(file, f"the table has a header ({shown(', '.join(header), limit=120)}) but no rows", 1))
 
 
 _PADDING = (" ,", ", ", " \n", "\n ", " \r", "\t")
+_ODD_CHARACTERS = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u2028\u2029]")
 
 
-def _clean_frame(base: Path, name: str, required: tuple[str, ...], numeric: tuple[str, ...]) -> tuple[str, Any] | None:
+def _clean_frame(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required: tuple[str, ...],
+                 numeric: tuple[str, ...]) -> tuple[str, Any] | None:
     """A CSV table read in bulk with pandas when it is clean, else None (the row-by-row reader
     then finds and words every problem). Clean means: the required columns, no blank or short
     rows, no required cell empty, and every cell of the `numeric` columns a finite number
@@ -280,9 +369,11 @@ def _clean_frame(base: Path, name: str, required: tuple[str, ...], numeric: tupl
     """
     import pandas as pd
 
-    path = (base / name) if not Path(name).is_absolute() else Path(name)
+    found = _table_text(ctx, base, name, where)
+    if found is None or _ODD_CHARACTERS.search(found[1]):
+        return None  # control characters in a label: the careful reader refuses them by name
+    path, text = found
     try:
-        text = path.read_bytes().decode("utf-8-sig")
         first = text.split("\n", 1)[0]
         header = next(csv.reader([first]))
         names = [h.strip().lower() for h in header]
@@ -318,19 +409,46 @@ def _clean_frame(base: Path, name: str, required: tuple[str, ...], numeric: tupl
     for column in required:
         if column not in numeric and (frame[column].str.len() == 0).any():
             return None
-    return str(path), frame
+    return path, frame
 
 
-def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None) -> float | None:
+def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None,
+            limit: float | None = None, unit: str = "") -> float | None:
+    """A finite number, within +-`limit` when given; else None with the problem said."""
     try:
-        return parse_number(value)
+        number = parse_number(value)
     except ValueError as exc:
         message = f"{what}: {exc}; expected a finite number"
-        if file is not None and file != ctx.file:
-            ctx.problems.problems.append(Problem(file, message, line))
-        else:
-            ctx.add(message, *path, line=line)
-        return None
+    else:
+        if limit is None or abs(number) <= limit:
+            return number
+        message = (f"{what}: {number:g} is beyond the sane range of +-{limit:g}{' ' + unit if unit else ''}; "
+                   "check the units (or a slipped exponent)")
+    _say(ctx, message, path, file, line)
+    return None
+
+
+def _label(ctx: _Ctx, label: str, what: str, *path: str, file: str | None = None, line: int | None = None) -> bool:
+    """Whether `label` can name a joint, member or load column: not empty, one line of plain text,
+    short enough to read in a table column. Says why not."""
+    if not label.strip():
+        rule = "is empty; give it a name"
+    elif has_controls(label):
+        rule = "holds a control character (a line break, tab, ESC, NUL ...); write plain text"
+    elif len(label) > LABEL_MAX_CHARS:
+        rule = f"is {len(label)} characters long; at most {LABEL_MAX_CHARS}"
+    else:
+        return True
+    _say(ctx, f"{what} {quoted(label)} {rule}" if label.strip() else f"{what} {rule}", path, file, line)
+    return False
+
+
+def _plain_label(label: str) -> bool:
+    return bool(label.strip()) and not has_controls(label) and len(label) <= LABEL_MAX_CHARS
+
+
+def _within(values: Any, limit: float) -> bool:
+    return bool((np.abs(values) <= limit).all())
 
 
 # -- joints -------------------------------------------------------------------------------------
@@ -346,8 +464,7 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         said = len(ctx.problems.problems)
         for file, line, row in _csv_rows(ctx, base, table, ("joints",), ("id", "x", "y")):
             jid = row["id"]
-            if not jid:
-                ctx.problems.problems.append(Problem(file, "joint id is empty", line))
+            if not _label(ctx, jid, "joint id", file=file, line=line):
                 continue
             if jid in seen:
                 ctx.problems.problems.append(Problem(file, f"duplicate joint id '{jid}' (first on line {seen[jid]})", line))
@@ -356,7 +473,8 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
             ctx.declared_joints.add(jid)
             ctx.origins[("joint", jid)] = (file, line)
             axes = ("x", "y", "z") if row.get("z", "") != "" else ("x", "y")
-            coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line) for a in axes]
+            coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line, limit=COORDINATE_LIMIT,
+                              unit=ctx.length_unit) for a in axes]
             if all(c is not None for c in coords):
                 joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
         if not joints and len(ctx.problems.problems) > said:
@@ -367,17 +485,20 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         return joints
     for jid, value in table.items():
         ctx.declared_joints.add(str(jid))
-        if not isinstance(value, list) or len(value) not in (2, 3):
-            ctx.add(f"joint '{jid}': expected [x, y] or [x, y, z], got {value!r}", "joints", jid)
+        if not _label(ctx, jid, "joint id", "joints", jid):
             continue
-        coords = [_number(ctx, v, f"joint '{jid}' coordinate {k + 1}", "joints", jid) for k, v in enumerate(value)]
+        if not isinstance(value, list) or len(value) not in (2, 3):
+            ctx.add(f"joint '{jid}': expected [x, y] or [x, y, z], got {shown(value)}", "joints", jid)
+            continue
+        coords = [_number(ctx, v, f"joint '{jid}' coordinate {k + 1}", "joints", jid, limit=COORDINATE_LIMIT,
+                          unit=ctx.length_unit) for k, v in enumerate(value)]
         if all(c is not None for c in coords):
             joints.append(Joint(str(jid), tuple(float(c) for c in coords)))  # type: ignore[arg-type]
     return joints
 
 
 def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
-    found = _clean_frame(base, name, ("id", "x", "y"), ("x", "y"))
+    found = _clean_frame(ctx, base, name, ("joints",), ("id", "x", "y"), ("x", "y"))
     if found is None:
         return None
     file, frame = found
@@ -390,7 +511,7 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
             return None  # mixed 2D/3D rows or a bad z: the careful reader words it
         axes.append("z")
     xyz = frame[axes].astype(float).to_numpy()
-    if not np.isfinite(xyz).all():
+    if not np.isfinite(xyz).all() or not _within(xyz, COORDINATE_LIMIT):
         return None
     ctx.declared_joints.update(ids)
     ctx.origins.register("joint", file, ids)
@@ -434,9 +555,9 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
             return jid
         if jid in ctx.declared_joints or ctx.joints_unreadable:
             return None  # defined but unusable, or the joints table unreadable: said once already
-        message = f"{what} names joint '{jid}', which is not defined.{did_you_mean(jid, joint_ids)}"
+        message = f"{what} names joint '{shown(jid)}', which is not defined.{did_you_mean(jid, joint_ids)}"
     else:
-        message = f"{what}: expected a joint id, got {value!r}"
+        message = f"{what}: expected a joint id, got {shown(value)}"
     if file is not None and file != ctx.file:
         ctx.problems.problems.append(Problem(file, message, line))
     else:
@@ -447,7 +568,7 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
 def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None) -> list[Member] | None:
     import pandas as pd
 
-    found = _clean_frame(base, name, ("id", "start", "end"), ())
+    found = _clean_frame(ctx, base, name, ("members",), ("id", "start", "end"), ())
     if found is None:
         return None
     file, frame = found
@@ -468,7 +589,7 @@ def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default
         if not _plain_numbers(frame.loc[given, "ea"]):
             return None
         values = frame.loc[given, "ea"].astype(float)
-        if not (np.isfinite(values) & (values > 0)).all():
+        if not (np.isfinite(values) & (values > 0) & (values <= EA_LIMIT)).all():
             return None
         for k, value in zip(np.nonzero(given.to_numpy())[0].tolist(), values.tolist(), strict=True):
             eas[k] = value
@@ -482,7 +603,7 @@ def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, ar
         ctx.add(f"{what}: give EA, or A and E, not both (they may disagree: which one did the calc use?)", *path)
         return None
     if "EA" in spec:
-        ea = _number(ctx, spec["EA"], f"{what} EA", *path)
+        ea = _number(ctx, spec["EA"], f"{what} EA", *path, limit=EA_LIMIT, unit=ctx.force_unit)
         if ea is not None and ea <= 0:
             ctx.add(f"{what}: EA must be positive, got {ea}", *path)
             return None
@@ -495,14 +616,18 @@ def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, ar
             # Said once, where it first happens, with a count: every member giving A and E has it.
             ctx.needs_area_units.append((what, path))
             return None
-        a = _number(ctx, spec["A"], f"{what} A", *path)
-        e = _number(ctx, spec["E"], f"{what} E", *path)
+        a = _number(ctx, spec["A"], f"{what} A", *path, limit=EA_LIMIT)
+        e = _number(ctx, spec["E"], f"{what} E", *path, limit=EA_LIMIT)
         if a is None or e is None or units is None:
             return None
         if a <= 0 or e <= 0:
             ctx.add(f"{what}: A and E must be positive", *path)
             return None
-        return a * area_unit * e * modulus_unit / units.force.to_si
+        ea = a * area_unit * e * modulus_unit / units.force.to_si
+        if not ea <= EA_LIMIT:
+            ctx.add(f"{what}: A x E = {ea:g} {units.force.symbol} is beyond the sane range of {EA_LIMIT:g}; check the units", *path)
+            return None
+        return ea
     return None
 
 
@@ -529,6 +654,8 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
         seen: dict[str, int] = {}
         for file, line, row in _csv_rows(ctx, base, table, ("members",), ("id", "start", "end")):
             mid = row["id"]
+            if not _label(ctx, mid, "member id", file=file, line=line):
+                continue
             if mid in seen:
                 ctx.problems.problems.append(Problem(file, f"duplicate member id '{mid}' (first on line {seen[mid]})", line))
                 continue
@@ -538,7 +665,7 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
             end = _joint_ref(ctx, row["end"], joint_ids, f"member '{mid}' end", file=file, line=line)
             ea: float | None = default_ea
             if row.get("ea"):
-                ea = _number(ctx, row["ea"], f"member '{mid}' EA", file=file, line=line)
+                ea = _number(ctx, row["ea"], f"member '{mid}' EA", file=file, line=line, limit=EA_LIMIT, unit=ctx.force_unit)
                 if ea is not None and ea <= 0:
                     ctx.problems.problems.append(Problem(file, f"member '{mid}': EA must be positive, got {ea}", line))
                     ea = None
@@ -550,6 +677,8 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
         return members
     for mid, value in table.items():
         what = f"member '{mid}'"
+        if not _label(ctx, mid, "member id", "members", mid):
+            continue
         ea = default_ea
         if isinstance(value, dict):
             for key in value:
@@ -561,7 +690,7 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
         else:
             ends = value
         if not isinstance(ends, list) or len(ends) != 2:
-            ctx.add(f"{what}: expected two joint ids, e.g. [\"A\", \"B\"], got {ends!r}", "members", mid)
+            ctx.add(f"{what}: expected two joint ids, e.g. [\"A\", \"B\"], got {shown(ends)}", "members", mid)
             continue
         start = _joint_ref(ctx, ends[0], joint_ids, what, "members", mid)
         end = _joint_ref(ctx, ends[1], joint_ids, what, "members", mid)
@@ -599,7 +728,7 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
                 if isinstance(axis, str) and axis.strip().lower() in axes:
                     axis = axis.strip().lower()  # "Y" and " y" name the y axis too
                 if axis not in axes:
-                    _say(ctx, f"support at '{jid}': direction {axis!r} is not one of {', '.join(axes)}", path, file, line)
+                    _say(ctx, f"support at '{jid}': direction {quoted(axis)} is not one of {', '.join(axes)}", path, file, line)
                 elif axis in seen:
                     _say(ctx, f"support at '{jid}': direction '{axis}' is listed twice", path, file, line)
                 else:
@@ -614,22 +743,25 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
                     _say(ctx, f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes", path, file, line)
             vec_raw = spec.get("direction")
             if not isinstance(vec_raw, list) or (dim and len(vec_raw) != dim):
-                _say(ctx, f"support at '{jid}': direction must be a list of {dim or '2 or 3'} numbers, got {vec_raw!r}", path, file, line)
+                _say(ctx, f"support at '{jid}': direction must be a list of {dim or '2 or 3'} numbers, got {shown(vec_raw)}", path, file, line)
                 continue
             nums = [_number(ctx, v, f"support at '{jid}' direction", *path, file=file, line=line) for v in vec_raw]
             if any(v is None for v in nums):
                 continue
             arr = np.array(nums, dtype=float)
-            norm = float(np.linalg.norm(arr))
-            if norm == 0.0:
+            largest = float(np.abs(arr).max())
+            if largest == 0.0:
                 _say(ctx, f"support at '{jid}': direction is the zero vector", path, file, line)
                 continue
-            unit = arr / norm
+            # Scaled by the largest component first: the norm of [1e160, 1e160] overflows, and
+            # that of [1e-200, 0] underflows, yet both name a plain direction.
+            arr = arr / largest
+            unit = arr / float(np.linalg.norm(arr))
             # A direction along a global axis is that axis: label it x/y/z, not 'n'.
             along = [a for k, a in enumerate(axes) if abs(unit[k] - 1.0) < 1e-12]
             reactions.append(Reaction(jid, tuple(float(v) for v in unit), along[0] if along else "n"))
         else:
-            _say(ctx, f"support at '{jid}': expected a list of restrained axes (e.g. [\"x\", \"y\"]) or {{ direction = [...] }}, got {spec!r}", path, file, line)
+            _say(ctx, f"support at '{jid}': expected a list of restrained axes (e.g. [\"x\", \"y\"]) or {{ direction = [...] }}, got {shown(spec)}", path, file, line)
     return reactions
 
 
@@ -643,9 +775,9 @@ def _say(ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line:
 # -- loads --------------------------------------------------------------------------------------
 def _vector(ctx: _Ctx, value: Any, dim: int | None, what: str, path: tuple[str, ...], file: str | None = None, line: int | None = None) -> tuple[float, ...] | None:
     if not isinstance(value, list) or (dim is not None and len(value) != dim):
-        _say(ctx, f"{what}: expected a force vector of {dim or '2 or 3'} numbers, got {value!r}", path, file, line)
+        _say(ctx, f"{what}: expected a force vector of {dim or '2 or 3'} numbers, got {shown(value)}", path, file, line)
         return None
-    nums = [_number(ctx, v, what, *path, file=file, line=line) for v in value]
+    nums = [_number(ctx, v, what, *path, file=file, line=line, limit=LOAD_LIMIT, unit=ctx.force_unit) for v in value]
     if any(v is None for v in nums):
         return None
     return tuple(float(v) for v in nums)  # type: ignore[arg-type]
@@ -658,6 +790,8 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
     cases: dict[str, dict[str, tuple[float, ...]]] = {}
 
     def add(case: str, jid: Any, value: Any, path: tuple[str, ...], file: str | None = None, line: int | None = None) -> None:
+        if not _label(ctx, case, "load case name", *path, file=file, line=line):
+            return
         if _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", *path, file=file, line=line) is None:
             return
         vec = _vector(ctx, value, dim, f"load case '{case}' at joint '{jid}'", path, file, line)
@@ -672,7 +806,7 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
     def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
         axes = ("fx", "fy", "fz")[: dim or 2]
         required = ("joint",) + axes + (() if fixed_case else ("case",))
-        found = _clean_frame(base, name, required, axes)
+        found = _clean_frame(ctx, base, name, where, required, axes)
         if found is not None:
             frame = found[1]
             keys = frame["case"] if not fixed_case else None
@@ -680,13 +814,17 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
                 subset=["joint"] + (["case"] if keys is not None else [])).any()
             if clean:
                 vectors = frame[list(axes)].astype(float).to_numpy()
-                if np.isfinite(vectors).all():
+                names_ok = keys is None or all(map(_plain_label, keys.unique().tolist()))
+                if np.isfinite(vectors).all() and _within(vectors, LOAD_LIMIT) and names_ok:
                     case_names = keys.tolist() if keys is not None else [fixed_case] * len(frame)
                     for case, joint, vector in zip(case_names, frame["joint"].tolist(), vectors.tolist(), strict=True):
                         cases.setdefault(str(case), {})[joint] = tuple(vector)
                     return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
+            if not fixed_case and not _plain_label(case):
+                add(case, row["joint"], [row[a] for a in axes], where, file, line)  # says why, adds nothing
+                continue
             cases.setdefault(case, {})
             add(case, row["joint"], [row[a] for a in axes], where, file, line)
 
@@ -694,6 +832,8 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
         from_csv(table, ("loads",), None)
     elif isinstance(table, dict):
         for case, loads in table.items():
+            if not _label(ctx, case, "load case name", "loads", case):
+                continue
             cases.setdefault(str(case), {})
             if isinstance(loads, str):
                 from_csv(loads, ("loads", case), str(case))
@@ -717,17 +857,19 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
         ctx.add("[combinations] must map a name to factors, e.g. \"ULS-1\" = { dead = 1.35 }", "combinations")
         return combos
     for name, factors in table.items():
+        if not _label(ctx, name, "combination name", "combinations", name):
+            continue
         if str(name) in case_names:
             ctx.add(f"combination '{name}' has the same name as a load case; rename one", "combinations", name)
         if not isinstance(factors, dict) or not factors:
-            ctx.add(f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got {factors!r}", "combinations", name)
+            ctx.add(f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got {shown(factors)}", "combinations", name)
             continue
         clean: dict[str, float] = {}
         for case, value in factors.items():
             if case not in case_names:
                 ctx.add(f"combination '{name}' names load case '{case}', which is not defined.{did_you_mean(case, case_names)}", "combinations", name)
                 continue
-            number = _number(ctx, value, f"combination '{name}' factor for '{case}'", "combinations", name)
+            number = _number(ctx, value, f"combination '{name}' factor for '{case}'", "combinations", name, limit=FACTOR_LIMIT)
             if number is not None:
                 clean[case] = number
         combos.append(Combination(str(name), clean))

@@ -20,14 +20,17 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-from verify.errors import InputError, Problem, ProblemList, did_you_mean
-from verify.io.numbers import parse_number
+from verify.errors import InputError, Problem, ProblemList, did_you_mean, quoted
+from verify.io.files import TABLE_MAX_BYTES, UnreadableFile, read_regular_file
+from verify.io.numbers import NUMBER_MAX_CHARS, parse_number
 from verify.model import Model
 from verify.units import Dimension, factor, lookup_unit
 
 VALUE_HEADERS = ("value", "deflection", "displacement", "disp", "delta", "δ")
 _UNIT_IN_HEADER = re.compile(r"[\(\[]\s*([^\)\]]+?)\s*[\)\]]")
 _UNIT_IN_CELL = re.compile(r"^\s*([+\-−]?[0-9.eE+\-]+)\s*([A-Za-z]+)\s*$")
+# The two patterns above backtrack (quadratically) on long text; they only ever see short cells.
+HEADER_MAX_CHARS = 200
 
 
 @dataclass(frozen=True)
@@ -53,18 +56,29 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
     name = str(path)
     problems = ProblemList(name)
     try:
-        data = path.read_bytes()
+        data = read_regular_file(path, limit=TABLE_MAX_BYTES)
     except FileNotFoundError:
         raise InputError([Problem(name, "file not found")]) from None
+    except UnreadableFile as exc:
+        raise InputError([Problem(name, str(exc))]) from None
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
         text = data.decode("cp1252", errors="replace")
-    reader = csv.reader(io.StringIO(text))
-    rows = [r for r in reader]
+    if "\x00" in text:
+        raise InputError([Problem(name, f"holds NUL bytes (byte {text.index(chr(0))}); expected a CSV text table")])
+    # CR-only line endings (old spreadsheets) read as lines too.
+    reader = csv.reader(io.StringIO(text.replace("\r\n", "\n").replace("\r", "\n")))
+    try:
+        rows = [r for r in reader]
+    except csv.Error as exc:  # an unclosed quote, a field beyond the csv module's size limit
+        raise InputError([Problem(name, f"not readable as CSV from here on ({exc})", reader.line_num)]) from None
     if not rows or not any(c.strip() for c in rows[0]):
         raise InputError([Problem(name, "empty file; expected a header: joint, direction, case, value (mm)")])
     header = [h.strip() for h in rows[0]]
+    if any(len(h) > HEADER_MAX_CHARS for h in header):
+        raise InputError([Problem(name, f"a header cell is over {HEADER_MAX_CHARS} characters; expected a header: "
+                                        "joint, direction, case, value (mm)", 1)])
     lowered = [h.lower() for h in header]
 
     def find(names: tuple[str, ...]) -> int | None:
@@ -107,18 +121,21 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
         raw = row[value_col].strip()
         where = f"row {number}"
         if joint not in model.joint_index:
-            problems.add(f"joint '{joint}' is not in the model.{did_you_mean(joint, model.joint_ids)}", where=where)
+            problems.add(f"joint {quoted(joint)} is not in the model.{did_you_mean(joint, model.joint_ids)}", where=where)
             continue
         sign = -1.0 if direction.startswith("-") else 1.0
         axis = direction.lstrip("+-")
         if axis not in axes:
-            problems.add(f"direction '{row[dir_col]}' is not one of {', '.join(axes)} (a leading '-' measures against the axis)", where=where)
+            problems.add(f"direction {quoted(row[dir_col])} is not one of {', '.join(axes)} (a leading '-' measures against the axis)", where=where)
             continue
         if case not in model.load_names:
-            problems.add(f"case '{case}' is not a load case or combination.{did_you_mean(case, model.load_names)}", where=where)
+            problems.add(f"case {quoted(case)} is not a load case or combination.{did_you_mean(case, model.load_names)}", where=where)
             continue
         if not raw:
             continue  # blank: no claim
+        if len(raw) > NUMBER_MAX_CHARS + 8:  # a number, a space and a unit
+            problems.add(f"value {quoted(raw, limit=20)} is not a number with an optional length unit", where=where)
+            continue
         unit = header_unit
         cell = _UNIT_IN_CELL.match(raw)
         number_text = raw
@@ -127,7 +144,7 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
             try:
                 unit = lookup_unit(cell.group(2), Dimension.LENGTH)
             except ValueError as exc:
-                problems.add(f"value '{raw}': {exc}", where=where)
+                problems.add(f"value {quoted(raw)}: {exc}", where=where)
                 continue
         try:
             value = parse_number(number_text.replace("−", "-"))

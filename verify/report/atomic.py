@@ -1,12 +1,14 @@
 """Atomic report writing: a temp file in the target folder, fsync, then os.replace.
 
 A failed write leaves the old target untouched (click's atomic helper would replace it even after
-an exception inside the block). Writing over an input file is refused.
+an exception inside the block). Writing over an input file, or onto anything but a regular
+file, is refused.
 """
 
 from __future__ import annotations
 
 import os
+import stat
 import tempfile
 from collections.abc import Iterable
 from pathlib import Path
@@ -16,12 +18,34 @@ class OutputError(ValueError):
     """A report cannot be written where asked (exit status 2)."""
 
 
+def _same_file(a: os.stat_result, b: os.stat_result) -> bool:
+    return (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino)
+
+
 def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str | Path] = ()) -> Path:
+    """Write `content` to `path` atomically. Refuses a target that is not a regular file (a
+    device, a folder, a pipe: replacing it would destroy it, or write nowhere) and one that is
+    any of `inputs`, however spelt: another path, a symbolic or a hard link to it."""
     target = Path(path)
     resolved = target.resolve()
-    for source in inputs:
-        if Path(source).resolve() == resolved:
-            raise OutputError(f"{target}: refusing to write a report over an input file")
+    try:
+        existing: os.stat_result | None = os.stat(target)
+    except FileNotFoundError:
+        existing = None
+    except OSError as exc:
+        raise OutputError(f"{target}: cannot check the output path ({exc.strerror or exc})") from None
+    if existing is not None:
+        if stat.S_ISDIR(existing.st_mode):
+            raise OutputError(f"{target}: is a folder; name the file to write, e.g. {target / 'review.html'}")
+        if not stat.S_ISREG(existing.st_mode):
+            raise OutputError(f"{target}: not a regular file (a device, pipe or socket); reports go to ordinary files only")
+        for source in inputs:
+            try:
+                same = _same_file(existing, os.stat(source))
+            except OSError:
+                same = Path(source).resolve() == resolved
+            if same:
+                raise OutputError(f"{target}: refusing to write a report over an input file ({source})")
     folder = resolved.parent
     if not folder.is_dir():
         raise OutputError(f"{target}: the folder {folder} does not exist")

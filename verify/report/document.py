@@ -927,11 +927,15 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
 
 
 def render_document(review: Review, *, fmt: str = "html", generated: str | None = None) -> str:
-    """The review report as HTML ("html") or Markdown ("md"); `generated` fixes the date shown."""
+    """The review report as HTML ("html") or Markdown ("md"); `generated` fixes the date shown.
+
+    Control characters (from a claims label: ESC, BEL, CR ...) are written as visible escapes."""
+    from verify.errors import escape_controls
+
     if fmt == "html":
-        return render_html(review, generated=generated)
+        return escape_controls(render_html(review, generated=generated), keep="\n\t")
     if fmt in ("md", "markdown"):
-        return render_markdown(review, generated=generated)
+        return escape_controls(render_markdown(review, generated=generated), keep="\n\t")
     raise ValueError(f"report format must be 'html' or 'md', got {fmt!r}")
 
 

@@ -2,6 +2,8 @@
 
 Text cells that a spreadsheet would read as a formula (starting with = + - @, tab or CR) get a
 leading apostrophe; numbers stay numbers (OWASP "CSV injection" guidance, common practice).
+Control characters are written as visible escapes first: a label "X\r=cmd|..." would otherwise
+put "=cmd|..." at the start of a line that some spreadsheet imports read as a new cell.
 """
 
 from __future__ import annotations
@@ -10,12 +12,14 @@ import csv
 import io
 
 from verify.compare.diagnose import Review
+from verify.errors import escape_controls
 from verify.report.cautions import CAUTION
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 def neutralise(text: str) -> str:
+    text = escape_controls(text)
     return "'" + text if text.startswith(FORMULA_START) else text
 
 
