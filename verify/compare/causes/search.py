@@ -40,6 +40,8 @@ MAX_CAUSES = 3
 MIN_EXPLAINED = 3  # one or two claims are per-member findings, not a model
 CLEAR_MISS = 2.0  # a claim "clearly wrong" misses by this many times its allowance
 FIRST_CHOICES = 4
+SOLVE_BUDGET = 4e7  # entries of the LU factors touched by the transposed solves of one round
+MIN_SAMPLE = 12
 LOAD_FACTOR_RANGE = (-2.0, 10.0)  # a load taken as f times its value: plausible slips only
 COMBINATION_FACTOR_RANGE = (0.0, 5.0)  # partial factors of common practice lie well inside
 SAMPLE_SHARE = 0.1  # of the sampled disagreeing claims, the share a load change must explain to be solved
@@ -210,9 +212,15 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     model = analysis.model
     C = model.combination_matrix()
     cases = [c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)]
+    lu = equilibrium_lu(model)
+    # One transposed solve per sampled member: on a large 3D truss the factors are dense enough
+    # that 120 solves would take seconds, so the sample shrinks to a budget of work (never below
+    # MIN_SAMPLE: a true cause explains most disagreeing claims, and shows in a dozen).
+    fill = int(lu.L.nnz + lu.U.nnz)
+    sample_size = int(np.clip(SOLVE_BUDGET // max(fill, 1), MIN_SAMPLE, SAMPLE_CLAIMS))
     sample = np.flatnonzero(pending)
-    if len(sample) > SAMPLE_CLAIMS:
-        sample = np.sort(np.random.default_rng(0).choice(sample, SAMPLE_CLAIMS, replace=False))
+    if len(sample) > sample_size:
+        sample = np.sort(np.random.default_rng(0).choice(sample, sample_size, replace=False))
     members = np.unique(frame.member[sample])
     ends = model.ends_index[members]
     near = set(ends.ravel().tolist())
@@ -226,7 +234,6 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
                    "the disagreeing claims only")
     if capped and capped_note not in notes:
         notes.append(capped_note)
-    lu = equilibrium_lu(model)
     n = lu.shape[0]
     E = np.zeros((n, len(members)))
     E[members, np.arange(len(members))] = 1.0
@@ -277,7 +284,7 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     best = scores[best_row, np.arange(n_changes)]
     # A change worth a forward solve explains a tenth of the sampled differences at least: a true
     # cause explains most of them, while scattered errors agree with some change by chance now
-    # and then (a few claims of 300), and each forward solve costs a full back-substitution.
+    # and then (a few claims of a hundred), and each forward solve costs a full back-substitution.
     needed = max(MIN_EXPLAINED, int(SAMPLE_SHARE * len(sample)))
     for v in np.argsort(-best, kind="stable")[:SHORTLIST]:
         if best[v] < needed:

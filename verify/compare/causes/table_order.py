@@ -59,21 +59,18 @@ def shifted_runs(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> l
             ok[i] = np.abs(y - c) <= allowed
             ok &= ~taken
             # maximal runs of consecutive rows that read shifted; count the disagreeing ones
-            start = None
-            for pos in range(n + 1):
-                if pos < n and ok[pos]:
-                    start = pos if start is None else start
+            edges = np.flatnonzero(np.diff(np.concatenate([[0], ok.astype(np.int8), [0]])))
+            for start, stop in zip(edges[::2].tolist(), edges[1::2].tolist(), strict=True):
+                if stop - start < MIN_RUN:
                     continue
-                if start is not None:
-                    run = order[start:pos]
-                    hits = pending[run]
-                    # a run must hold disagreeing rows and not merely equal neighbours
-                    if hits.sum() >= MIN_RUN and hits.sum() * 2 >= len(run):
-                        mask = np.zeros(len(frame), dtype=bool)
-                        mask[run[hits]] = True
-                        out.append(Shift(int(k), offset, run, mask))
-                        taken[start:pos] = True
-                    start = None
+                run = order[start:stop]
+                hits = pending[run]
+                # a run must hold disagreeing rows and not merely equal neighbours
+                if hits.sum() >= MIN_RUN and hits.sum() * 2 >= len(run):
+                    mask = np.zeros(len(frame), dtype=bool)
+                    mask[run[hits]] = True
+                    out.append(Shift(int(k), offset, run, mask))
+                    taken[start:stop] = True
     return out
 
 
