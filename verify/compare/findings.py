@@ -81,6 +81,8 @@ class Finding:
 
 
 def ordered(findings: list[Finding]) -> list[Finding]:
-    """Most serious first: blockers, errors, then information; within a level by kind."""
+    """Most serious first: blockers, errors, then information; within a level by kind, then by how
+    many claims a finding explains."""
     level = {Severity.BLOCKER: 0, Severity.ERROR: 1, Severity.INFO: 2}
-    return sorted(findings, key=lambda f: (level[f.severity], KINDS[f.kind].rank))
+    # Within a kind, the finding that explains most claims first (causes: the biggest first).
+    return sorted(findings, key=lambda f: (level[f.severity], KINDS[f.kind].rank, -(f.explains or 0)))

@@ -89,6 +89,10 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
             pending, base = pending & ~found[0].explained, base + found[0].variant.shift
         chains.append((int((start & ~pending).sum()), -len(steps), steps, pending))
     if not chains:
+        columns = ", ".join(f"'{c}'" for c in frame.columns_of(start))
+        notes.append(f"likely causes: no single change of the model among those tried (loads, combination factors, "
+                     f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
+                     "their findings follow")
         return SearchResult([], start.copy(), notes)
     _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
     causes = [Cause(_with_alternates(frame, start, steps, i), step.explained) for i, step in enumerate(steps)]
@@ -98,8 +102,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
             touched |= np.isin(frame.column, np.unique(frame.column[np.abs(cause.variant.shift) > 0]))
         total = sum(int(c.explained.sum()) for c in causes)
         if total < CLEAR_MAJORITY * int((start & touched).sum()):
-            notes.append(f"likely causes: the best variants found explain only {total} of {int((start & touched).sum())} "
-                         "disagreeing claims in the columns they change; no cause is reported")
+            notes.append(f"likely causes: no single change of the model explains most differences: the best found "
+                         f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
+                         "change, so none is reported")
             return SearchResult([], start, notes)
     return SearchResult(causes, pending, notes)
 
