@@ -24,13 +24,16 @@ from verify.errors import InputError, Problem
 from verify.io.claims.grid import Grid
 from verify.io.claims.labels import member_ids_for
 from verify.io.claims.layout import Options, decide_layout
-from verify.io.claims.problems import MAX_PROBLEMS, Problems
+from verify.io.claims.problems import MAX_PROBLEMS, Problems, quoted
 from verify.io.claims.rows import read_rows
+from verify.io.claims.sheets import choose_sheet
 from verify.io.claims.source_csv import read_csv
 from verify.io.claims.source_xlsx import (
     EXCEL_SUFFIXES,
     MAX_UNCOMPRESSED_BYTES,
+    OLE_MAGIC,
     format_decimals,
+    is_encrypted_workbook,
     read_workbook,
 )
 from verify.io.claims.table import ClaimedValue, ClaimsTable, UnmatchedLabel
@@ -77,21 +80,26 @@ def read_claims(
         raise InputError([Problem(name, f"cannot read the file ({exc.strerror}).")]) from None
     problems = Problems(name)
     suffix = path.suffix.lower()
-    grid: Grid | None
-    if data[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" or suffix == ".xls":
+    grids: list[Grid] = []
+    if is_encrypted_workbook(data):
+        problems.add(
+            "the workbook is encrypted (password-protected), so its cells cannot be read; remove the "
+            "password in the spreadsheet program and save a copy, or export the sheet to CSV"
+        )
+    elif data[:8] == OLE_MAGIC or suffix == ".xls":
         problems.add(
             "this is a legacy binary Excel (.xls) file; save it as .xlsx or export the sheet to CSV"
         )
-        grid = None
     elif suffix == ".ods":
         problems.add("OpenDocument spreadsheets are not read; save the sheet as .xlsx or CSV")
-        grid = None
     elif data[:4] == b"PK\x03\x04" or suffix in EXCEL_SUFFIXES:
-        grid = read_workbook(data, sheet, problems)
+        grids = read_workbook(data, sheet, problems)
     else:
         if sheet is not None:
-            problems.add(f"sheet '{sheet}' was asked for, but a CSV file has no sheets")
-        grid = read_csv(data, problems)
+            problems.add(f"sheet '{quoted(sheet)}' was asked for, but a CSV file has no sheets")
+        grids = [g for g in (read_csv(data, problems),) if g is not None]
+    problems.raise_if_any()
+    grid = choose_sheet(grids, model, problems)
     problems.raise_if_any()
     assert grid is not None
     options = Options(member_column, case_column, force_column, case)

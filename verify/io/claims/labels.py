@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from verify.io.values import normalize_text
 from verify.model import Model
 
+MAX_LABEL_CHARS = 100  # longer text is refused by the row reader; it is never matched here
 MAX_SUGGESTED_LABELS = 50  # unknown labels that get "nearest label" suggestions
 SUGGESTION_POOL_LIMIT = 20_000  # above this, suggestions look only at similar-looking labels
 # Characters that may separate the two joints of a member label, after normalize_text().
@@ -85,6 +86,8 @@ class LabelMatcher:
     def _match(self, label: str) -> Match:
         if label in self._ids:
             return Match("member", member=label)
+        if len(label) > MAX_LABEL_CHARS:
+            return Match("unknown")  # the pair readings would cost the square of its length
         folded = normalize_text(label).casefold()
         members: dict[str, None] = dict.fromkeys(self._ids_folded.get(folded, []))
         members.update(dict.fromkeys(self._pair_readings(folded)))

@@ -20,11 +20,12 @@ from dataclasses import dataclass
 
 from verify.errors import did_you_mean
 from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
-from verify.io.claims.problems import Problems
+from verify.io.claims.problems import Problems, quoted
 from verify.io.values import normalize_text
 from verify.model import Model
 from verify.units import Dimension, lookup_unit
 
+MAX_HEADER_CHARS = 120  # longer header cells are notes
 HEADER_SEARCH_ROWS = 20  # rows scanned for a header above which titles may sit
 
 # Header spellings per role, compared after header_key(); earlier spellings win when a table
@@ -105,6 +106,10 @@ def _force_per_something(text: str) -> bool:
 
 def parse_header(index: int, cell: Cell) -> Header:
     text = cell_text(cell)
+    if len(text) > MAX_HEADER_CHARS:
+        # A paragraph of notes, not a heading: never parsed (the unit pattern backtracks over
+        # its length) and cut short wherever messages name the column.
+        return Header(index, quoted(text), quoted(text), "", None, None, True)
     name, unit, error, other_unit, other_name = text, None, None, None, ""
     m = _HEADER_UNIT.match(text)
     if m and m.group("name").strip():

@@ -3,17 +3,12 @@
 from __future__ import annotations
 
 from verify.errors import InputError, Problem
+from verify.io.values import quoted
+
+__all__ = ["MAX_PROBLEMS", "Problems", "quoted"]
 
 MAX_PROBLEMS = 200  # problems reported per file; the rest are counted
-MAX_QUOTED_CHARS = 60  # a cell quoted in a message is cut here: a 40 KB cell must not fill the screen
 
-
-def quote(text: str) -> str:
-    """A cell's text as a message shows it: control characters escaped, long text cut."""
-    shown = text if len(text) <= MAX_QUOTED_CHARS else text[:MAX_QUOTED_CHARS] + f"... ({len(text):,} characters)"
-    if any(ch < " " or "\x7f" <= ch < "\xa0" for ch in shown):
-        shown = shown.encode("unicode_escape").decode("ascii")
-    return shown
 
 
 class Problems:

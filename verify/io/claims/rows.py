@@ -8,11 +8,27 @@ from verify.errors import did_you_mean
 from verify.io.claims.grid import Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
-from verify.io.claims.problems import Problems
+from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.table import ClaimedValue, UnmatchedLabel
 from verify.io.values import is_nan_text, parse_force_cell, plain_number
 from verify.model import Model
 from verify.units import Dimension, lookup_unit
+
+MAX_NAME_CHARS = 100  # member labels and case names; longer text is a note, not a name
+
+
+def refuse_name(text: str, what: str) -> str | None:
+    """Why `text` cannot be a label or case name (too long, control characters), else None.
+
+    Checked before any matching: the label patterns must never run over an 80 KB cell, and a
+    control character would reach the terminal through every finding that quotes the label."""
+    if len(text) > MAX_NAME_CHARS:
+        return (f"the {what} '{quoted(text)}' is {len(text):,} characters long (limit {MAX_NAME_CHARS}); "
+                "a label names one member or reaction")
+    if any(ch < " " or "\x7f" <= ch < "\xa0" for ch in text):
+        return (f"the {what} '{quoted(text)}' holds control characters (shown escaped); "
+                "labels and case names are printable text")
+    return None
 
 
 class RowReader:
@@ -59,6 +75,10 @@ class RowReader:
             return
         if not present:
             return
+        refusal = refuse_name(label, "member label")
+        if refusal:
+            self.problems.add(refusal, where_label)
+            return
         case_name = self._case_of_row(r)
         if case_name is None:
             return
@@ -69,7 +89,7 @@ class RowReader:
         match = self.matcher.match(label)
         if match.kind == "unknown" and is_nan_text(label):
             self.problems.add(
-                f"the member label '{label}' is a missing value or spreadsheet error, not a label",
+                f"the member label '{quoted(label)}' is a missing value or spreadsheet error, not a label",
                 where_label,
             )
             return
@@ -140,9 +160,13 @@ class RowReader:
         if not name:
             self.problems.add("this row has a force but no load case", where)
             return None
+        refusal = refuse_name(name, "load case")
+        if refusal:
+            self.problems.add(refusal, where)
+            return None
         if is_nan_text(name):
             self.problems.add(
-                f"the load case '{name}' is a missing value or spreadsheet error, not a case name",
+                f"the load case '{quoted(name)}' is a missing value or spreadsheet error, not a case name",
                 where,
             )
             return None
@@ -165,7 +189,7 @@ class RowReader:
         if text in ("c", "compression", "comp"):
             return "C"
         self.problems.add(
-            f"'{cell_text(cell)}' is not T or C", self.grid.where(r, self.tc_h.index, self.tc_h.text)
+            f"'{quoted(cell_text(cell))}' is not T or C", self.grid.where(r, self.tc_h.index, self.tc_h.text)
         )
         return None
 
@@ -213,13 +237,13 @@ class RowReader:
         if tc is not None:
             if sign_fixed and (value > 0) != (tc == "T") and value != 0:
                 self.problems.add(
-                    f"force '{cell_text(cell)}' says {'T' if value > 0 else 'C'} but the T/C column says {tc}",
+                    f"force '{quoted(cell_text(cell))}' says {'T' if value > 0 else 'C'} but the T/C column says {tc}",
                     where,
                 )
                 return
             if not sign_fixed and value < 0 and tc == "T":
                 self.problems.add(
-                    f"force '{cell_text(cell)}' is negative but the T/C column says T (tension)", where
+                    f"force '{quoted(cell_text(cell))}' is negative but the T/C column says T (tension)", where
                 )
                 return
             value, sign_fixed = (abs(value) if tc == "T" else -abs(value)), True
@@ -229,7 +253,7 @@ class RowReader:
                 continue
             if unit is not None and source_unit != unit:
                 self.problems.add(
-                    f"force '{cell_text(cell)}' is in {unit} but its column or row says {source_unit}",
+                    f"force '{quoted(cell_text(cell))}' is in {unit} but its column or row says {source_unit}",
                     where,
                 )
                 return
