@@ -207,6 +207,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
         what = "matches several members" if u.reason == "ambiguous" else "is not a member or reaction of the model"
         findings.append(Finding("unknown-label", (u.label,), f"'{u.label}' ({u.where}) {what}{hint}", Severity.ERROR))
+    for c in claims.sign_conflicts:  # settled by the reader: a minus against its T/C letter
+        findings.append(Finding("sign-flip", (c.member,), f"'{c.text}' ({c.where}) has a minus that contradicts its letter in a table "
+                                f"written {c.convention}; read by the letter", Severity.ERROR, case=mapping.get(c.column), locations=(c.where,)))
 
     # Units: per value, the unit it states (cell or header), else the option, else the case unit.
     option_unit = lookup_unit(unit, Dimension.FORCE) if unit else None

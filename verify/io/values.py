@@ -103,6 +103,25 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
     """
     original = str(text).strip()
+    number, letter, unit = read_force_cell(text, decimal_comma=decimal_comma)
+    if letter == "T":
+        if number < 0:
+            raise ValueError(
+                f"force '{quoted(original)}' is negative but marked T (tension); write the magnitude with T, "
+                "or a signed number without T/C"
+            )
+        return abs(number), True, unit
+    if letter == "C":
+        return -abs(number), True, unit
+    return number, False, unit
+
+
+def read_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, str | None, str | None]:
+    """(the number with its sign as written, the T/C letter or None, unit symbol or None).
+
+    Sign and letter are returned apart so that a table writing both ('-121.39 T' in a table
+    that writes compression positive) can be read under its own convention."""
+    original = str(text).strip()
     if len(original) > MAX_FORCE_CHARS:
         # Bounded before any pattern runs: the tail patterns below would otherwise be tried at
         # every position of an 80 KB cell.
@@ -112,7 +131,7 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
         )
     number = plain_number(original, decimal_comma=decimal_comma)
     if number is not None:
-        return number, False, None
+        return number, None, None
     s = normalize_text(str(text))
     if not s:
         raise ValueError("force is empty; leave the cell blank when there is no claim")
@@ -169,16 +188,7 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     if not math.isfinite(magnitude):
         raise ValueError(f"force '{quoted(original)}' is out of range (not a finite number)")
 
-    if tc == "T":
-        if negative:
-            raise ValueError(
-                f"force '{quoted(original)}' is negative but marked T (tension); write the magnitude with T, "
-                "or a signed number without T/C"
-            )
-        return abs(magnitude), True, unit
-    if tc == "C":
-        return -abs(magnitude), True, unit
-    return (-magnitude if negative else magnitude), False, unit
+    return (-magnitude if negative else magnitude), tc, unit
 
 
 def _parse_magnitude(s: str, *, decimal_comma: bool, original: str) -> float:

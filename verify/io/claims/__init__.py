@@ -116,4 +116,5 @@ def read_claims(
         unmatched=tuple(read.unmatched),
         columns=tuple(read.columns),
         header_unit=read.header_unit,
+        sign_conflicts=tuple(read.sign_conflicts),
     )

@@ -14,119 +14,31 @@ understood. The column -> load-case mapping is settled here, once.
 
 from __future__ import annotations
 
-import re
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from verify.errors import did_you_mean
-from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
-from verify.io.claims.problems import Problems, quoted
-from verify.io.values import normalize_text
+from verify.io.claims.band import find_band
+from verify.io.claims.grid import Grid, Unusable, blank, cell_text
+from verify.io.claims.headers import (
+    CASE_HEADERS,
+    FORCE_HEADERS,
+    MEMBER_HEADERS,
+    TC_HEADERS,
+    UNIT_HEADERS,
+    Header,
+    header_key,
+    parse_header,
+    unit_alone,
+)
+from verify.io.claims.labels import LabelMatcher
+from verify.io.claims.problems import Problems
 from verify.model import Model
-from verify.units import Dimension, lookup_unit
 
-MAX_HEADER_CHARS = 120  # longer header cells are notes
 HEADER_SEARCH_ROWS = 20  # rows scanned for a header above which titles may sit
 
-# Header spellings per role, compared after header_key(); earlier spellings win when a table
-# has several (a table with "ID" and "Member" columns is labelled by "Member").
-# fmt: off
-MEMBER_HEADERS = (
-    "member", "member id", "member label", "member name", "member no", "member #", "members",
-    "mbr", "memb", "element", "element id", "elem", "bar", "bar id", "label", "mark", "id",
-)
-FORCE_HEADERS = (
-    "force", "axial force", "member force", "axial", "axial load", "forces", "n", "p", "value",
-)
-CASE_HEADERS = (
-    "case", "load case", "loadcase", "lc", "combination", "load combination", "combo", "comb",
-    "case name",
-)
-TC_HEADERS = ("t/c", "t or c", "tc", "tension/compression", "sense")
-UNIT_HEADERS = ("unit", "units")
-# Descriptive columns a member table often carries; never read as load cases.
-IGNORED_HEADERS = frozenset(
-    {
-        "remark", "remarks", "note", "notes", "comment", "comments", "description", "type",
-        "section", "size", "profile", "length", "l", "start", "end", "from", "to", "i", "j",
-        "node i", "node j", "joint i", "joint j", "start joint", "end joint", "start node",
-        "end node", "status", "stress", "capacity", "utilisation", "utilization", "util",
-        "ratio", "area", "no", "#", "item", "row", "group", "material", "check",
-    }
-)
-# fmt: on
 
 # Header units that are not forces: the column is descriptive (a length, stress, area, ratio).
-_NON_FORCE_UNIT = re.compile(
-    r"^(%|-|mm2|mm²|cm2|cm²|m2|m²|in2|in²|ft2|pa|kpa|mpa|gpa|psi|ksi|n/mm2|n/mm²|kn/m2|kn/m|kn/m²|"
-    r"knm|kn\.?m|kn·m|kip-ft|kip-in|lbf-ft|deg|°|rad)$",
-    re.IGNORECASE,
-)
-_HEADER_UNIT = re.compile(
-    r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\]|,\s*(?P<c>[^,]+))\s*$"
-)
-
-
-def header_key(text: str) -> str:
-    return re.sub(r"[\s_\-.:]+", " ", normalize_text(text).casefold()).strip()
-
-
-@dataclass(frozen=True)
-class Header:
-    index: int
-    text: str  # as written
-    name: str  # without its unit
-    key: str  # normalised name for spelling lookups
-    unit: str | None
-    unit_error: str | None
-    descriptive: bool  # a non-force unit or a known descriptive heading
-    other_unit: str | None = None  # a unit that is not a force (stress, length, moment), as written
-    other_name: str = ""  # the heading without that unit
-
-
-def _length_unit(text: str) -> bool:
-    try:
-        lookup_unit(text, Dimension.LENGTH)
-    except ValueError:
-        return False
-    return True
-
-
-def _force_per_something(text: str) -> bool:
-    """'N/mm', 'kN/m2', 'kip/ft': a force unit divided by something (a line load, a stress)."""
-    top, slash, _ = text.partition("/")
-    if not slash:
-        return False
-    try:
-        lookup_unit(top.strip(), Dimension.FORCE)
-    except ValueError:
-        return False
-    return True
-
-
-def parse_header(index: int, cell: Cell) -> Header:
-    text = cell_text(cell)
-    if len(text) > MAX_HEADER_CHARS:
-        # A paragraph of notes, not a heading: never parsed (the unit pattern backtracks over
-        # its length) and cut short wherever messages name the column.
-        return Header(index, quoted(text), quoted(text), "", None, None, True)
-    name, unit, error, other_unit, other_name = text, None, None, None, ""
-    m = _HEADER_UNIT.match(text)
-    if m and m.group("name").strip():
-        inner = (m.group("p") or m.group("b") or m.group("c") or "").strip()
-        try:
-            unit = lookup_unit(inner, Dimension.FORCE).symbol
-            name = m.group("name").strip()
-        except ValueError as exc:
-            if _NON_FORCE_UNIT.match(inner) or _force_per_something(inner) or _length_unit(inner):
-                other_unit, other_name = inner, m.group("name").strip()
-            elif "ambiguous" in str(exc):
-                error = str(exc)
-                name = m.group("name").strip()
-    key = header_key(name)
-    descriptive = other_unit is not None or key in IGNORED_HEADERS
-    return Header(index, text, name, key, unit, error, descriptive, other_unit, other_name)
-
 
 @dataclass(frozen=True)
 class Options:
@@ -222,18 +134,25 @@ class Layout:
     unit: Header | None
     columns: list[ValueColumn]
     case_filter: str | None  # the case= option, for long tables
+    pair: tuple[int, int] | None = None  # from/to joint columns that name each row's member
 
 
 def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems) -> Layout | None:
     """The layout of `grid`, or None with the reasons added to `problems`."""
     empty = None
-    header_r = _find_header_row(grid, options)
-    if header_r is None:
-        problems.add(
-            "the table is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member"
-        )
-        return empty
-    headers = [parse_header(c, cell) for c, cell in enumerate(grid.rows[header_r])]
+    band = find_band(grid, LabelMatcher(model)) if options.member_column is None else None
+    if band is not None:
+        header_r = band.bottom
+        headers = band.headers
+    else:
+        found_r = _find_header_row(grid, options)
+        if found_r is None:
+            problems.add(
+                "the table is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member"
+            )
+            return empty
+        header_r = found_r
+        headers = [parse_header(c, cell) for c, cell in enumerate(grid.rows[header_r])]
     for h in headers:
         cell = grid.cell(header_r, h.index)
         if isinstance(cell, Unusable):
@@ -242,6 +161,20 @@ def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems
     taken: set[int] = set()
     args = (headers, taken, load_names, grid, header_r, problems)
     member_h = _pick_column("member", MEMBER_HEADERS, options.member_column, *args)
+    pair: tuple[int, int] | None = None
+    if member_h is None and band is not None:
+        # The heading is unfamiliar ('Member (joints)', 'Bar No.') but the cells name members.
+        if band.member_index is not None:
+            member_h = headers[band.member_index]
+        elif band.pair is not None:
+            pair = band.pair
+            member_h = headers[pair[0]]
+            taken.add(pair[1])
+    elif member_h is not None and band is not None and band.pair is not None and band.member_index is None:
+        # A numbered member column (1...n) beside from/to joints: the joints name the member.
+        pair = band.pair
+        taken.update(pair)
+        member_h = headers[pair[0]]
     if member_h is None and options.member_column is None and headers and not headers[0].text:
         member_h = headers[0]  # an unheaded first column of labels is the usual layout
     if member_h is None:
@@ -260,9 +193,14 @@ def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems
     force_h = _pick_column("force", FORCE_HEADERS, options.force_column, *args)
     if force_h is not None:
         taken.add(force_h.index)
-    tc_h = _pick_column("T/C", TC_HEADERS, None, *args)
-    if tc_h is not None:
-        taken.add(tc_h.index)
+    tc_all = [h for h in headers if h.key in TC_HEADERS and h.index not in taken]
+    taken.update(h.index for h in tc_all)
+    tc_h = None
+    if force_h is not None and len(tc_all) > 1:
+        both = " and ".join(f"'{h.text}' ({grid.where(header_r, h.index)})" for h in tc_all)
+        problems.add(f"two T/C columns beside one force column, {both}; keep one")
+    elif force_h is not None and tc_all:
+        tc_h = tc_all[0]
     unit_h = _pick_column("unit", UNIT_HEADERS, None, *args)
     if unit_h is not None:
         taken.add(unit_h.index)
@@ -286,12 +224,6 @@ def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems
         fixed_case = _single_case(model, options.case, grid, header_r, force_h, problems)
         if fixed_case is None:
             return empty
-    if tc_h is not None and force_h is None:
-        problems.add(
-            f"a T/C column ('{tc_h.text}') is only understood beside a single force column",
-            grid.where(header_r),
-        )
-        return empty
 
     if force_h is not None:
         value_columns = [ValueColumn(force_h.index, force_h.text, fixed_case, force_h.unit)]
@@ -322,6 +254,7 @@ def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems
             value_columns.append(ValueColumn(h.index, h.text, h.name, h.unit))
         if problems:
             return empty
+        value_columns = _pair_tc_columns(value_columns, tc_all, grid, header_r, problems)
         if options.case is not None:
             chosen = [
                 v
@@ -360,18 +293,40 @@ def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems
 
     used = (
         {member_h.index}
+        | set(pair or ())
+        | {h.index for h in tc_all}
         | {v.index for v in value_columns}
         | {h.index for h in (case_h, tc_h, unit_h) if h is not None}
     )
     start = header_r + 1
-    start = _apply_units_row(grid, start, member_h.index, value_columns, problems)
+    if band is None:
+        start = _apply_units_row(grid, start, member_h.index, value_columns, problems)
     _check_unheaded_data(grid, start, headers, used, problems)
     if problems:
         return empty
     if all(all(blank(c) for c in grid.rows[r]) for r in range(start, len(grid.rows))):
         problems.add("the table has a header but no rows of claims", grid.where(header_r))
         return empty
-    return Layout(header_r, start, member_h, case_h, tc_h, unit_h, value_columns, options.case)
+    return Layout(header_r, start, member_h, case_h, tc_h, unit_h, value_columns, options.case, pair)
+
+
+def _pair_tc_columns(
+    columns: list[ValueColumn], tc_all: list[Header], grid: Grid, header_r: int, problems: Problems
+) -> list[ValueColumn]:
+    """Each T/C column settles the signs of the force column on its left ('dead | T/C | snow | T/C')."""
+    out = list(columns)
+    for tc in tc_all:
+        left = [k for k, v in enumerate(out) if v.index < tc.index]
+        if not left:
+            problems.add(f"the T/C column '{tc.text}' has no force column on its left", grid.where(header_r, tc.index))
+            continue
+        k = left[-1]
+        if out[k].tc_index is not None:
+            problems.add(f"the force column '{out[k].header}' has two T/C columns on its right; keep one",
+                         grid.where(header_r, tc.index))
+            continue
+        out[k] = replace(out[k], tc_index=tc.index)
+    return out
 
 
 def _single_case(
@@ -404,17 +359,6 @@ def _single_case(
     return None
 
 
-def _unit_text(cell: Cell) -> str | None:
-    """The force unit written alone in a cell ('kN', '[kN]', '(kip)'), else None."""
-    text = cell_text(cell).strip("()[] ")
-    if not text:
-        return None
-    try:
-        return lookup_unit(text, Dimension.FORCE).symbol
-    except ValueError:
-        return None
-
-
 def _apply_units_row(
     grid: Grid, start: int, member_index: int, columns: list[ValueColumn], problems: Problems
 ) -> int:
@@ -423,12 +367,12 @@ def _apply_units_row(
         return start
     member_cell = grid.cell(start, member_index)
     cells = [grid.cell(start, v.index) for v in columns]
-    if not (blank(member_cell) or _unit_text(member_cell) or cell_text(member_cell) in ("-", "[-]")):
+    if not (blank(member_cell) or unit_alone(member_cell) or cell_text(member_cell) in ("-", "[-]")):
         return start
-    if all(blank(c) for c in cells) or not all(blank(c) or _unit_text(c) for c in cells):
+    if all(blank(c) for c in cells) or not all(blank(c) or unit_alone(c) for c in cells):
         return start
     for k, (v, c) in enumerate(zip(columns, cells, strict=True)):
-        unit = _unit_text(c)
+        unit = unit_alone(c)
         if unit is None:
             continue
         if v.unit is not None and v.unit != unit:

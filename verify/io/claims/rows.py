@@ -9,8 +9,8 @@ from verify.io.claims.grid import Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.problems import Problems, quoted
-from verify.io.claims.table import ClaimedValue, UnmatchedLabel
-from verify.io.values import is_nan_text, parse_force_cell, plain_number
+from verify.io.claims.table import ClaimedValue, SignConflict, UnmatchedLabel
+from verify.io.values import is_nan_text, plain_number, read_force_cell
 from verify.model import Model
 from verify.units import Dimension, lookup_unit
 
@@ -56,6 +56,9 @@ class RowReader:
         self.all_cases: list[str] = []
         self._long_seen: set[str] = set()
         self._claimed: dict[tuple[str, str], tuple[int, str]] = {}  # (target, case) -> (row, label)
+        self.minus_letters: list[tuple[int, str]] = []  # (value index, letter) of '-12.4 T' cells
+        self.header_row = layout.header_row
+        self.pair = layout.pair
 
     def read_row(self, r: int) -> None:
         grid = self.grid
@@ -69,6 +72,10 @@ class RowReader:
             self.problems.add(f"the member label {label_cell.reason}", where_label)
             return
         label = cell_text(label_cell)
+        if self.pair is not None and label:
+            # Members named by their end joints: the label reads 'B-C' from the from/to cells.
+            end = cell_text(grid.cell(r, self.pair[1]))
+            label = f"{label}-{end}" if end else ""
         if not label:
             if present:
                 self.problems.add("this row has a force but no member label", where_label)
@@ -180,7 +187,10 @@ class RowReader:
     def _tc_of_row(self, r: int) -> str | None:
         if self.tc_h is None:
             return None
-        cell = self.grid.cell(r, self.tc_h.index)
+        return self._tc_at(r, self.tc_h.index)
+
+    def _tc_at(self, r: int, index: int) -> str | None:
+        cell = self.grid.cell(r, index)
         text = cell_text(cell).strip("() ").casefold()
         if not text:
             return None
@@ -188,10 +198,25 @@ class RowReader:
             return "T"
         if text in ("c", "compression", "comp"):
             return "C"
-        self.problems.add(
-            f"'{quoted(cell_text(cell))}' is not T or C", self.grid.where(r, self.tc_h.index, self.tc_h.text)
-        )
+        heading = cell_text(self.grid.cell(self.header_row, index)) or "T/C"
+        self.problems.add(f"'{quoted(cell_text(cell))}' is not T or C", self.grid.where(r, index, heading))
         return None
+
+    def sign_conflicts(self) -> list[SignConflict]:
+        """Cells whose minus contradicts their letter under the table's convention. A minus beside
+        C is redundant where tension is positive; a minus beside T is how a table that writes
+        compression positive says tension. The convention is the one most such cells follow."""
+        beside_t = sum(1 for _, letter in self.minus_letters if letter == "T")
+        compression_positive = beside_t > len(self.minus_letters) - beside_t
+        wrong = "C" if compression_positive else "T"
+        convention = "compression-positive" if compression_positive else "tension-positive"
+        out = []
+        for k, letter in self.minus_letters:
+            if letter == wrong:
+                v = self.values[k]
+                assert v.member is not None
+                out.append(SignConflict(v.label, v.member, v.column, v.where, v.text, convention))
+        return out
 
     def _unit_of_row(self, r: int) -> str | None:
         if self.unit_h is None:
@@ -223,30 +248,31 @@ class RowReader:
         if isinstance(cell, Unusable):
             self.problems.add(f"the force cell {cell.reason}", where)
             return
+        letter: str | None
         if isinstance(cell, float):
-            value, sign_fixed, cell_unit = cell, False, None
+            value, letter, cell_unit = cell, None, None
         else:
             assert isinstance(cell, str)
             try:
-                value, sign_fixed, cell_unit = parse_force_cell(
-                    cell, decimal_comma=grid.decimal_comma
-                )
+                value, letter, cell_unit = read_force_cell(cell, decimal_comma=grid.decimal_comma)
             except ValueError as exc:
                 self.problems.add(str(exc), where)
                 return
+        if column.tc_index is not None:
+            tc = self._tc_at(r, column.tc_index)
         if tc is not None:
-            if sign_fixed and (value > 0) != (tc == "T") and value != 0:
+            if letter is not None and letter != tc:
                 self.problems.add(
-                    f"force '{quoted(cell_text(cell))}' says {'T' if value > 0 else 'C'} but the T/C column says {tc}",
-                    where,
+                    f"force '{quoted(cell_text(cell))}' says {letter} but the T/C column says {tc}", where
                 )
                 return
-            if not sign_fixed and value < 0 and tc == "T":
-                self.problems.add(
-                    f"force '{quoted(cell_text(cell))}' is negative but the T/C column says T (tension)", where
-                )
-                return
-            value, sign_fixed = (abs(value) if tc == "T" else -abs(value)), True
+            letter = tc
+        sign_fixed = letter is not None
+        minus_with_letter = sign_fixed and value < 0
+        if letter is not None:
+            # The letter says tension or compression; whether a minus beside it is redundant or
+            # contradicts it depends on the table's convention, settled once all rows are read.
+            value = abs(value) if letter == "T" else -abs(value)
         unit = None
         for source_unit in (cell_unit, column.unit, row_unit):
             if source_unit is None:
@@ -289,6 +315,8 @@ class RowReader:
             )
             return
         self._claimed[key] = (r, label)
+        if minus_with_letter and match.kind == "member":
+            self.minus_letters.append((len(self.values), "T" if value > 0 else "C"))
         if match.kind in ("member", "reaction"):
             # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
             self.values.append(
@@ -314,12 +342,13 @@ class ReadRows:
     unmatched: list[UnmatchedLabel]
     columns: list[str]  # case names as written, in table order
     header_unit: str | None
+    sign_conflicts: list[SignConflict]
 
 
 def read_rows(grid: Grid, layout: Layout, model: Model, problems: Problems, *, fast: bool) -> ReadRows:
     """Every data row of `grid` under `layout`; problems are added, never raised here."""
     reader = RowReader(grid, model, problems, layout)
-    if fast and layout.case is None and layout.tc is None and layout.unit is None and not any(
+    if fast and layout.case is None and layout.tc is None and layout.unit is None and layout.pair is None and not any(
         v.tc_index is not None for v in layout.columns
     ):
         reader.read_plain_rows(layout.start, len(grid.rows))
@@ -336,4 +365,4 @@ def read_rows(grid: Grid, layout: Layout, model: Model, problems: Problems, *, f
     units = {v.unit for v in layout.columns}
     header_unit = units.pop() if len(units) == 1 and layout.unit is None else None
     columns = reader.long_cases if case_h is not None else [v.case or "" for v in layout.columns]
-    return ReadRows(reader.values, reader.unmatched, columns, header_unit)
+    return ReadRows(reader.values, reader.unmatched, columns, header_unit, reader.sign_conflicts())
