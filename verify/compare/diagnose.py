@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import re
 from collections import Counter
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from enum import StrEnum
 from typing import Any, NamedTuple
 
@@ -238,6 +238,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         picked = (column_of_claim == column) & is_member_claim
         if picked.any():
             rounding_unit[picked] = np.maximum(rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked]))
+        step = claims.resolution_of(column)  # judged by the reader: the column rounded to 0.5, 5 ...
+        if step is not None and picked.any():
+            rounding_unit[picked] = np.maximum(rounding_unit[picked], 0.5 * step.step * np.abs(conv[picked]) * 1.0001)
+    tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
         notes.append(f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
                      "headers or cells; the table's own units were used")

@@ -25,6 +25,7 @@ from verify.io.claims.grid import Grid
 from verify.io.claims.labels import member_ids_for
 from verify.io.claims.layout import Options, decide_layout
 from verify.io.claims.problems import MAX_PROBLEMS, Problems, quoted
+from verify.io.claims.resolution import judge_resolutions
 from verify.io.claims.rows import read_rows
 from verify.io.claims.sheets import choose_sheet
 from verify.io.claims.source_csv import read_csv
@@ -117,4 +118,5 @@ def read_claims(
         columns=tuple(read.columns),
         header_unit=read.header_unit,
         sign_conflicts=tuple(read.sign_conflicts),
+        resolutions=tuple(judge_resolutions(read.values)),
     )

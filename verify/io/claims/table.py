@@ -45,19 +45,16 @@ class SignConflict:
 @dataclass(frozen=True)
 class Resolution:
     """How finely a column was written, judged from its values: every value a multiple of
-    `step` (0.5 kN, 5 kN), or rounded to `figures` significant figures. Half the step widens the
-    tolerance of that column's claims (in the column's own unit)."""
+    `step` (0.5 kN, 5 kN). Half the step widens the tolerance of that column's claims (in the
+    column's own unit). Significant figures are judged by the comparison (compare/tolerances.py)."""
 
     column: str
-    step: float | None  # a multiple of this, in the column's unit; None when figures apply
-    figures: int | None  # significant figures, when the values show that instead
+    step: float  # every member value of the column is a multiple of this, in the column's unit
     unit: str | None
 
     def describe(self) -> str:
         unit = f" {self.unit}" if self.unit else ""
-        if self.step is not None:
-            return f"'{self.column}' written in steps of {self.step:g}{unit} (allowance {self.step / 2:g}{unit})"
-        return f"'{self.column}' written to {self.figures} significant figures"
+        return f"column '{self.column}' written to steps of {self.step:g}{unit}, so +-{self.step / 2:g}{unit} allowed"
 
 
 @dataclass(frozen=True)
