@@ -29,6 +29,7 @@ from verify.io.claims.resolution import judge_resolutions
 from verify.io.claims.rows import read_rows
 from verify.io.claims.sheets import choose_sheet
 from verify.io.claims.source_csv import read_csv
+from verify.io.claims.source_pdf import read_pdf
 from verify.io.claims.source_xlsx import (
     EXCEL_SUFFIXES,
     MAX_UNCOMPRESSED_BYTES,
@@ -63,13 +64,14 @@ def read_claims(
     case_column: str | None = None,
     force_column: str | None = None,
     case: str | None = None,
+    pages: str | None = None,
 ) -> ClaimsTable:
     """Read the claimed table at `path` against `model`. Raises InputError listing every problem.
 
     `sheet` picks a workbook sheet (needed when there are several); `member_column`,
     `case_column` and `force_column` name columns whose headers are not recognised; `case` names
     the load case or combination of a table with a single force column (or selects one column
-    or case from a wider table).
+    or case from a wider table). `pages` ('12-14') limits the pages of a PDF searched.
     """
     path = Path(path)
     name = str(path)
@@ -93,12 +95,16 @@ def read_claims(
         )
     elif suffix == ".ods":
         problems.add("OpenDocument spreadsheets are not read; save the sheet as .xlsx or CSV")
+    elif data[:5] == b"%PDF-" or suffix == ".pdf":
+        grids = read_pdf(data, pages, problems)
     elif data[:4] == b"PK\x03\x04" or suffix in EXCEL_SUFFIXES:
         grids = read_workbook(data, sheet, problems)
     else:
         if sheet is not None:
             problems.add(f"sheet '{quoted(sheet)}' was asked for, but a CSV file has no sheets")
         grids = [g for g in (read_csv(data, problems),) if g is not None]
+    if pages is not None and not (data[:5] == b"%PDF-" or suffix == ".pdf"):
+        problems.add(f"--pages '{quoted(pages)}' was given, but only a PDF has pages")
     problems.raise_if_any()
     grid = choose_sheet(grids, model, problems)
     problems.raise_if_any()
@@ -111,7 +117,7 @@ def read_claims(
     problems.raise_if_any()
     return ClaimsTable(
         source=name,
-        sheet=grid.sheet,
+        sheet=grid.sheet if grid.pages is None else _pages_read(grid.pages),
         sha256=hashlib.sha256(data).hexdigest(),
         values=tuple(read.values),
         unmatched=tuple(read.unmatched),
@@ -120,3 +126,8 @@ def read_claims(
         sign_conflicts=tuple(read.sign_conflicts),
         resolutions=tuple(judge_resolutions(read.values)),
     )
+
+
+def _pages_read(pages: list[int]) -> str:
+    first, last = min(pages), max(pages)
+    return f"page {first}" if first == last else f"pages {first}-{last}"
