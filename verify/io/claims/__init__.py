@@ -22,7 +22,7 @@ from pathlib import Path
 
 from verify.errors import InputError, Problem
 from verify.io.claims.grid import Grid
-from verify.io.claims.labels import member_ids_for
+from verify.io.claims.labels import LabelMatcher, member_ids_for
 from verify.io.claims.layout import Options, decide_layout
 from verify.io.claims.problems import MAX_PROBLEMS, Problems, quoted
 from verify.io.claims.resolution import judge_resolutions
@@ -106,14 +106,15 @@ def read_claims(
     if pages is not None and not (data[:5] == b"%PDF-" or suffix == ".pdf"):
         problems.add(f"--pages '{quoted(pages)}' was given, but only a PDF has pages")
     problems.raise_if_any()
-    grid = choose_sheet(grids, model, problems)
+    matcher = LabelMatcher(model)
+    grid = choose_sheet(grids, matcher, problems)
     problems.raise_if_any()
     assert grid is not None
     options = Options(member_column, case_column, force_column, case)
-    layout = decide_layout(grid, model, options, problems)
+    layout = decide_layout(grid, model, matcher, options, problems)
     problems.raise_if_any()
     assert layout is not None
-    read = read_rows(grid, layout, model, problems, fast=FAST_ROWS)
+    read = read_rows(grid, layout, matcher, problems, fast=FAST_ROWS)
     problems.raise_if_any()
     return ClaimsTable(
         source=name,

@@ -15,7 +15,7 @@ from dataclasses import dataclass, replace
 
 from verify.io.claims.grid import Cell, Grid, blank, cell_text
 from verify.io.claims.headers import Header, header_key, parse_header, unit_alone
-from verify.io.claims.labels import MAX_LABEL_CHARS, LabelMatcher
+from verify.io.claims.labels import LabelMatcher
 from verify.io.values import plain_number
 
 SCAN_ROWS = 2_000  # rows looked at to find the member column; a table shows itself long before
@@ -50,7 +50,7 @@ def _is_number(cell: Cell) -> bool:
 
 def _names_member(matcher: LabelMatcher, cell: Cell) -> bool:
     text = cell_text(cell)
-    return bool(text) and len(text) <= MAX_LABEL_CHARS and matcher.match(text).kind in ("member", "reaction")
+    return bool(text) and matcher.names(text) in ("member", "reaction")
 
 
 def _pair_columns(grid: Grid, matcher: LabelMatcher, bottom_guess: int | None) -> tuple[tuple[int, int], int, int] | None:
@@ -63,7 +63,7 @@ def _pair_columns(grid: Grid, matcher: LabelMatcher, bottom_guess: int | None) -
             if first in keys and second in keys:
                 a, b = keys.index(first), keys.index(second)
                 hits = [k for k in range(r + 1, len(rows)) if cell_text(grid.cell(k, a)) and cell_text(grid.cell(k, b))
-                        and matcher.match(f"{cell_text(grid.cell(k, a))}-{cell_text(grid.cell(k, b))}").kind == "member"]
+                        and matcher.names(f"{cell_text(grid.cell(k, a))}-{cell_text(grid.cell(k, b))}") == "member"]
                 if hits and (best is None or len(hits) > best[1]):
                     best = ((a, b), len(hits), hits[0])
     return best

@@ -50,7 +50,8 @@ class Grid:
     def where(self, r: int, c: int | None = None, column: str | None = None) -> str:
         number = self.row_numbers[r]
         if self.sheet is None:
-            base = self.row_ref(r)
+            # Called once per claim (10^5-row tables): the common CSV case is built inline.
+            base = f"row {number}" if self.pages is None else f"page {self.pages[r]} row {number}"
             if column is not None:
                 return f"{base}, column '{column}'"
             return base if c is None else f"{base}, column {c + 1}"

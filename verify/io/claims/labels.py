@@ -76,6 +76,16 @@ class LabelMatcher:
         self._cache: dict[str, Match] = {}
         self._suggested = 0
 
+    def names(self, label: str) -> str:
+        """The kind a label reads as ("member", "reaction", "unknown", "ambiguous"), without the
+        suggestions an unknown label would get: for scanning every cell of a sheet."""
+        found = self._cache.get(label)
+        if found is not None:
+            return found.kind
+        if len(label) > MAX_LABEL_CHARS:
+            return "unknown"
+        return self._match(label, suggest=False).kind
+
     def match(self, label: str) -> Match:
         found = self._cache.get(label)
         if found is None:
@@ -83,7 +93,7 @@ class LabelMatcher:
             self._cache[label] = found
         return found
 
-    def _match(self, label: str) -> Match:
+    def _match(self, label: str, *, suggest: bool = True) -> Match:
         if label in self._ids:
             return Match("member", member=label)
         if len(label) > MAX_LABEL_CHARS:
@@ -101,7 +111,7 @@ class LabelMatcher:
             return Match(
                 "ambiguous", candidates=tuple(members) + tuple(f"{j}.{a}" for j, a in reactions)
             )
-        return Match("unknown", candidates=self._suggest(folded))
+        return Match("unknown", candidates=self._suggest(folded) if suggest else ())
 
     def _pair_readings(self, folded: str) -> list[str]:
         found: list[str] = []

@@ -137,10 +137,10 @@ class Layout:
     pair: tuple[int, int] | None = None  # from/to joint columns that name each row's member
 
 
-def decide_layout(grid: Grid, model: Model, options: Options, problems: Problems) -> Layout | None:
+def decide_layout(grid: Grid, model: Model, matcher: LabelMatcher, options: Options, problems: Problems) -> Layout | None:
     """The layout of `grid`, or None with the reasons added to `problems`."""
     empty = None
-    band = find_band(grid, LabelMatcher(model)) if options.member_column is None else None
+    band = find_band(grid, matcher) if options.member_column is None else None
     if band is not None:
         header_r = band.bottom
         headers = band.headers

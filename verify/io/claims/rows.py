@@ -11,7 +11,6 @@ from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.table import ClaimedValue, SignConflict, UnmatchedLabel
 from verify.io.values import is_nan_text, plain_number, read_force_cell
-from verify.model import Model
 from verify.units import Dimension, lookup_unit
 
 MAX_NAME_CHARS = 100  # member labels and case names; longer text is a note, not a name
@@ -37,7 +36,7 @@ class RowReader:
     def __init__(
         self,
         grid: Grid,
-        model: Model,
+        matcher: LabelMatcher,
         problems: Problems,
         layout: Layout,
     ) -> None:
@@ -49,7 +48,7 @@ class RowReader:
         self.unit_h = layout.unit
         self.columns = layout.columns
         self.case_filter = layout.case_filter if layout.case is not None else None
-        self.matcher = LabelMatcher(model)
+        self.matcher = matcher
         self.values: list[ClaimedValue] = []
         self.unmatched: list[UnmatchedLabel] = []
         self.long_cases: list[str] = []
@@ -345,9 +344,9 @@ class ReadRows:
     sign_conflicts: list[SignConflict]
 
 
-def read_rows(grid: Grid, layout: Layout, model: Model, problems: Problems, *, fast: bool) -> ReadRows:
+def read_rows(grid: Grid, layout: Layout, matcher: LabelMatcher, problems: Problems, *, fast: bool) -> ReadRows:
     """Every data row of `grid` under `layout`; problems are added, never raised here."""
-    reader = RowReader(grid, model, problems, layout)
+    reader = RowReader(grid, matcher, problems, layout)
     if fast and layout.case is None and layout.tc is None and layout.unit is None and layout.pair is None and not any(
         v.tc_index is not None for v in layout.columns
     ):

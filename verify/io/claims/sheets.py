@@ -8,10 +8,9 @@ number; the reader asks only when two or more sheets qualify, naming them.
 from __future__ import annotations
 
 from verify.io.claims.grid import Grid, cell_text
-from verify.io.claims.labels import MAX_LABEL_CHARS, LabelMatcher
+from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.problems import Problems
 from verify.io.values import plain_number
-from verify.model import Model
 
 SCAN_ROWS = 2_000  # rows looked at per sheet: a member table shows itself long before that
 
@@ -21,7 +20,7 @@ def member_rows(grid: Grid, matcher: LabelMatcher) -> int:
     count = 0
     for row in grid.rows[:SCAN_ROWS]:
         texts = [cell_text(c) for c in row]
-        named = [k for k, t in enumerate(texts) if t and len(t) <= MAX_LABEL_CHARS and matcher.match(t).kind == "member"]
+        named = [k for k, t in enumerate(texts) if t and matcher.names(t) == "member"]
         if not named:
             continue
         numbers = [k for k, c in enumerate(row) if k not in named and (
@@ -37,12 +36,11 @@ def _numeric_start(text: str) -> bool:
     return bool(head) and plain_number(head.replace(",", "")) is not None
 
 
-def choose_sheet(grids: list[Grid], model: Model, problems: Problems) -> Grid | None:
+def choose_sheet(grids: list[Grid], matcher: LabelMatcher, problems: Problems) -> Grid | None:
     if len(grids) == 1:
         return grids[0]
     if not grids:
         return None
-    matcher = LabelMatcher(model)
     counts = [(member_rows(g, matcher), g) for g in grids]
     qualified = [g for n, g in counts if n > 0]
     if len(qualified) == 1:

@@ -78,7 +78,7 @@ def _read_pages(document: object, wanted: list[int], problems: Problems) -> list
     rows: list[list[Cell]] = []
     numbers: list[int] = []
     page_of: list[int] = []
-    seen_plain: set[tuple[str, ...]] = set()  # header and title rows already read
+    seen_plain: set[str] = set()  # header and title rows already read, as their joined text
     any_text = False
     for number in wanted:
         page = document.pages[number - 1]  # type: ignore[attr-defined]
@@ -93,11 +93,12 @@ def _read_pages(document: object, wanted: list[int], problems: Problems) -> list
                 return []
             if page.chars:
                 any_text = True
-            table = page.extract_table(TABLE_SETTINGS) or []
+            table = _page_table(page)
         finally:
             page.close()  # a page's parsed objects are released before the next is read
         kept = _table_rows(table)
-        texts_of = [tuple(c for c in cells if isinstance(c, str)) for _, cells in kept]
+        # Compared without spaces: the same header may split into cells differently on each page.
+        texts_of = ["".join(c for c in cells if isinstance(c, str)).replace(" ", "") for _, cells in kept]
         # A continuation page repeats the header: it and the title block above it are dropped.
         repeated = [i for i, (t, (_, cells)) in enumerate(zip(texts_of, kept, strict=True))
                     if not _has_number(cells) and t in seen_plain]
@@ -139,3 +140,27 @@ def _table_rows(table: list[list[str | None]]) -> list[tuple[int, list[Cell]]]:
         if numeric[k] or any(numeric[k + 1 : k + 1 + HEADER_ROWS]):
             keep.append((k + 1, cells))
     return keep
+
+
+def _page_table(page: object) -> list[list[str | None]]:
+    """The page's table as rows of cell texts. The table's cells give the rows and the column
+    boundaries; every word is then placed by its centre, the outer columns reaching to the page
+    edges, so a heading wider than its column ('snow (kN)' over '-8.80') is not cut short."""
+    found = page.find_table(TABLE_SETTINGS)  # type: ignore[attr-defined]
+    if found is None:
+        return []
+    columns = sorted({(round(c[0], 1), round(c[2], 1)) for row in found.rows for c in row.cells if c is not None})
+    rows = [row.bbox for row in found.rows]
+    if not columns or not rows:
+        return []
+    cuts = [(a[1] + b[0]) / 2 for a, b in zip(columns, columns[1:], strict=False)]  # between columns
+    grid: list[list[list[str]]] = [[[] for _ in columns] for _ in rows]
+    for word in page.extract_words(x_tolerance=2, keep_blank_chars=False):  # type: ignore[attr-defined]
+        middle_y = (word["top"] + word["bottom"]) / 2
+        r = next((k for k, box in enumerate(rows) if box[1] - 1 <= middle_y <= box[3] + 1), None)
+        if r is None:
+            continue  # outside the table: titles and notes
+        middle_x = (word["x0"] + word["x1"]) / 2
+        c = sum(1 for cut in cuts if middle_x > cut)
+        grid[r][c].append(word["text"])
+    return [[" ".join(words) or None for words in row] for row in grid]
