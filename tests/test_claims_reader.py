@@ -598,20 +598,33 @@ def test_xlsx_date_cell_is_reported(tmp_path: Path) -> None:
     assert "date" in _errors(path)
 
 
-def test_xlsx_several_sheets_need_a_name(tmp_path: Path) -> None:
-    """Several sheets and none named: the error lists them; naming one reads it; a typo gets a hint."""
+def test_xlsx_sheet_is_chosen_by_its_content(tmp_path: Path) -> None:
+    """Several sheets and none named: the one whose rows name the model's members is read; naming
+    one reads it; a typo gets a hint."""
     path = _workbook(
         tmp_path / "claims.xlsx",
         {
-            "Notes": [["Checked by", "someone"]],
+            "Cover": [["Truss T1 calculation"], ["Checked by", "someone"]],
+            "Loads": [["Joint", "Fy (kN)"], ["D", -10]],
             "Forces": [["Member", "dead"], ["AB", 2]],
         },
     )
-    message = _errors(path)
-    assert "'Notes', 'Forces'" in message
-    assert read_claims(path, MODEL, sheet="Forces").values[0].value == 2.0
+    table = read_claims(path, MODEL)
+    assert table.sheet == "Forces" and table.values[0].value == 2.0
     assert read_claims(path, MODEL, sheet="forces").sheet == "Forces"
     assert "Did you mean 'Forces'" in _errors(path, sheet="Forcse")
+
+
+def test_xlsx_two_sheets_naming_members_ask_which(tmp_path: Path) -> None:
+    """Two sheets both name members beside numbers: the reader asks, naming both, and reads none."""
+    path = _workbook(
+        tmp_path / "claims.xlsx",
+        {"Notes": [["Checked by", "someone"]], "Issue A": [["Member", "dead"], ["AB", 2]],
+         "Issue B": [["Member", "dead"], ["B-C", 3]]},
+    )
+    message = _errors(path)
+    assert "'Issue A', 'Issue B'" in message and "'Notes'" not in message and "--sheet" in message
+    assert read_claims(path, MODEL, sheet="Issue B").values[0].member == "BC"
 
 
 def test_sheet_option_on_a_csv_is_an_error(tmp_path: Path) -> None:

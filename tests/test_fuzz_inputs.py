@@ -20,7 +20,6 @@ import tempfile
 import warnings
 from pathlib import Path
 
-import pytest
 from click.testing import CliRunner
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -207,42 +206,10 @@ def test_mutated_case_files_and_tables_meet_the_contract(example):
     assert _contract(files) == [], (name, target, kinds)
 
 
-# Claims-reader holes owned by the claims-reader rework (verify/io/claims.py, values.py), listed
-# in the issue 16 report; each is excused only where it shows, and named in the xfail reason.
-CLAIMS_READER_FILES = ("verify/io/claims.py", "verify/io/values.py")
-HUGE_CLAIM = ("claims-reader hole: a claimed value outside the float-safe range (1e308, 1e400, 400 nines, or "
-              "the subnormal 1e-320) is accepted by verify/io/values.py, then overflows or divides by zero in "
-              "the comparison (RuntimeWarning on stderr)")
-CLAIMS_TRACEBACK = "claims-reader hole: a traceback inside verify/io/claims.py or values.py"
-
-
-def _claims_reader_hole(breaches: list[str], kinds: list[str]) -> str | None:
-    """The named claims-reader hole that explains every breach, or None."""
-    if not breaches:
-        return None
-    if all(any(f in b for f in CLAIMS_READER_FILES) for b in breaches):
-        return CLAIMS_TRACEBACK
-    huge = any(k.startswith("number") and not k.endswith((" 0", " nan", " NaN")) for k in kinds)
-    if huge and all("Warning" in b or "Overflow" in b for b in breaches):
-        return HUGE_CLAIM
-    return None
-
-
-def test_mutated_claims_tables_meet_the_contract():
-    """Every breach fails, except one of the named claims-reader holes, which makes it xfail."""
-    holes: list[str] = []
-
-    @FUZZ
-    @given(mutated_bundle("claims"))
-    def fuzz(example: tuple[str, dict[str, bytes], str, list[str]]) -> None:
-        name, files, target, kinds = example
-        breaches = _contract(files)
-        hole = _claims_reader_hole(breaches, kinds)
-        if hole is not None:
-            holes.append(hole)  # excused here, reported below (hypothesis would shrink an xfail)
-            return
-        assert breaches == [], (name, target, kinds)
-
-    fuzz()
-    if holes:
-        pytest.xfail("; ".join(sorted(set(holes))))
+@FUZZ
+@given(mutated_bundle("claims"))
+def test_mutated_claims_tables_meet_the_contract(example):
+    """Claims tables mutated every way the case files are (the claims-reader holes found by the
+    first runs, huge, subnormal and non-finite values among them, are closed in verify/io)."""
+    name, files, target, kinds = example
+    assert _contract(files) == [], (name, target, kinds)

@@ -237,7 +237,7 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
                report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
                member_column: str | None, case_column: str | None, force_column: str | None,
                load_name: str | None, assume_equal_ea: float | None, all_rows: bool,
-               displacements: str | None = None, tables_anywhere: bool = False) -> int:
+               displacements: str | None = None, tables_anywhere: bool = False, pages: str | None = None) -> int:
     from verify.compare.diagnose import compare_claims
     from verify.errors import OptionError
     from verify.io.claims import read_claims
@@ -263,7 +263,7 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         return EXIT_BAD_INPUT
     try:
         claims = read_claims(claims_path, model, sheet=sheet, member_column=member_column, case_column=case_column,
-                             force_column=force_column, case=load_name)
+                             force_column=force_column, case=load_name, pages=pages)
     except InputError as error:
         _say_bad_input(error, as_json)
         return EXIT_BAD_INPUT
@@ -328,6 +328,7 @@ _CHECK_OPTIONS = [
     click.option("--unit", default="auto", show_default=True, metavar="UNIT|auto",
                  help="Force unit of the claimed table (N, kN, MN, lbf, kip, kgf, tonne-force); units in headers or cells win."),
     click.option("--sheet", default=None, help="Worksheet of an .xlsx claims file (default: the only one)."),
+    click.option("--pages", default=None, metavar="12-14", help="Pages of a PDF claims file to search for the table (default: all)."),
     click.option("--report", default=None, metavar="PATH.html|PATH.md", help="Write the review report (HTML or Markdown), atomically."),
     click.option("--csv", "csv_path", default=None, metavar="PATH", help="Write the member table as CSV (spreadsheet-safe), atomically."),
     click.option("--rtol", type=float, default=0.01, show_default=True, help="Relative tolerance for 'agrees'."),

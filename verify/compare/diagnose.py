@@ -16,7 +16,7 @@ import dataclasses
 import re
 from collections import Counter
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from enum import StrEnum
 from typing import Any, NamedTuple
 
@@ -221,6 +221,9 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
         what = "matches several members" if u.reason == "ambiguous" else "is not a member or reaction of the model"
         findings.append(Finding("unknown-label", (u.label,), f"'{u.label}' ({u.where}) {what}{hint}", Severity.ERROR))
+    for c in claims.sign_conflicts:  # settled by the reader: a minus against its T/C letter
+        findings.append(Finding("sign-flip", (c.member,), f"'{c.text}' ({c.where}) has a minus that contradicts its letter in a table "
+                                f"written {c.convention}; read by the letter", Severity.ERROR, case=mapping.get(c.column), locations=(c.where,)))
 
     # Units: per value, the unit it states (cell or header), else the option, else the case unit.
     option_unit = lookup_unit(unit, Dimension.FORCE) if unit else None
@@ -249,6 +252,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         picked = (column_of_claim == column) & is_member_claim
         if picked.any():
             rounding_unit[picked] = np.maximum(rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked]))
+        step = claims.resolution_of(column)  # judged by the reader: the column rounded to 0.5, 5 ...
+        if step is not None and picked.any():
+            rounding_unit[picked] = np.maximum(rounding_unit[picked], 0.5 * step.step * np.abs(conv[picked]) * 1.0001)
+    tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
         notes.append(f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
                      "headers or cells; the table's own units were used")

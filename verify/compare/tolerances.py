@@ -29,6 +29,9 @@ MAX_DECIMALS = 6
 class Tolerance:
     rtol: float = RTOL
     atol_fraction: float = ATOL_FRACTION
+    # Columns the claims reader judged rounded to a step (0.5, 5 ...), each allowed half its step;
+    # the words go into the tolerance line of the reports.
+    widened: tuple[str, ...] = ()
 
     def allowed(self, claimed: float, computed: float, atol: float, rounding: float = 0.0) -> float:
         return max(self.rtol * max(abs(claimed), abs(computed)), atol, rounding)

@@ -12,7 +12,8 @@ Accepted, with the reading each gets (tension positive once a T/C suffix settles
 - a decimal comma ``12,4`` where the table uses decimal commas (a ``;``-separated CSV);
 - a force unit in the cell, before or after the T/C suffix: ``12.4 kN``, ``3.1kip``, ``12.4 kN C``.
 
-Refused with a message (never read as zero): empty text, spreadsheet error values and NaN words
+Refused with a message (never read as zero): text longer than MAX_FORCE_CHARS (quoted cut short),
+empty text, spreadsheet error values and NaN words
 (``nan``, ``#N/A``, ``#VALUE!``), infinities, a lower-case ``t``/``c`` suffix (``t`` may mean
 tonnes), separators that fit no grouping (``12,4.0``), and a comma that could be a decimal or a
 thousands separator when the table's convention does not settle it.
@@ -53,6 +54,10 @@ _UNIT_TAIL = re.compile(r"(?P<unit>[A-Za-z][A-Za-z\-]*)\s*$")
 _SCIENTIFIC = re.compile(r"^(\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+$")
 
 
+MAX_FORCE_CHARS = 64  # '-1,234,567.125 kN (compression)' is 31: longer text is no force cell
+MAX_QUOTED_CHARS = 60  # a cell quoted in a message is cut here: a 40 KB cell must not fill the screen
+TAIL_CHARS = 32  # T/C letters and units are read from this many final characters only
+
 _NORMALIZE = str.maketrans(
     {**dict.fromkeys(MINUS_SIGNS, "-"), **dict.fromkeys(GROUP_SPACES[1:], " ")}
 )
@@ -69,8 +74,26 @@ def is_nan_text(text: str) -> bool:
     return normalize_text(text).lower() in NAN_TEXTS
 
 
+def quoted(text: str) -> str:
+    """A cell as a message shows it: control characters escaped, text past MAX_QUOTED_CHARS cut."""
+    shown = text if len(text) <= MAX_QUOTED_CHARS else f"{text[:MAX_QUOTED_CHARS]}... ({len(text):,} characters)"
+    if any(ch < " " or "\x7f" <= ch < "\xa0" for ch in shown):
+        shown = shown.encode("unicode_escape").decode("ascii")
+    return shown
+
+
 def _expectation(original: str) -> str:
-    return f"force '{original}' is not a number with an optional T/C suffix"
+    return f"force '{quoted(original)}' is not a number with an optional T/C suffix"
+
+
+MAX_FORCE = 1e15  # 10^15 N is a thousand times the weight of the largest structure ever built
+MIN_FORCE = 1e-15  # below this a non-zero "force" is round-off or a subnormal, not a claim
+
+
+def in_force_range(value: float) -> bool:
+    """Finite, and 0 or of a size any force table could hold (so no comparison can overflow)."""
+    size = abs(value)
+    return math.isfinite(value) and (size == 0 or MIN_FORCE <= size <= MAX_FORCE)
 
 
 def plain_number(text: str, *, decimal_comma: bool = False) -> float | None:
@@ -80,7 +103,7 @@ def plain_number(text: str, *, decimal_comma: bool = False) -> float | None:
     if not PLAIN_NUMBER.fullmatch(text) or (decimal_comma and "." in text):
         return None
     number = float(text)
-    return number if math.isfinite(number) else None
+    return number if in_force_range(number) else None
 
 
 def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, bool, str | None]:
@@ -90,15 +113,41 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     and spaces may group thousands. Otherwise '.' is the decimal point and ',' groups thousands.
     """
     original = str(text).strip()
+    number, letter, unit = read_force_cell(text, decimal_comma=decimal_comma)
+    if letter == "T":
+        if number < 0:
+            raise ValueError(
+                f"force '{quoted(original)}' is negative but marked T (tension); write the magnitude with T, "
+                "or a signed number without T/C"
+            )
+        return abs(number), True, unit
+    if letter == "C":
+        return -abs(number), True, unit
+    return number, False, unit
+
+
+def read_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, str | None, str | None]:
+    """(the number with its sign as written, the T/C letter or None, unit symbol or None).
+
+    Sign and letter are returned apart so that a table writing both ('-121.39 T' in a table
+    that writes compression positive) can be read under its own convention."""
+    original = str(text).strip()
+    if len(original) > MAX_FORCE_CHARS:
+        # Bounded before any pattern runs: the tail patterns below would otherwise be tried at
+        # every position of an 80 KB cell.
+        raise ValueError(
+            f"force '{quoted(original)}' is {len(original):,} characters long (limit {MAX_FORCE_CHARS}); "
+            "a force cell holds a number with an optional unit and T/C letter"
+        )
     number = plain_number(original, decimal_comma=decimal_comma)
     if number is not None:
-        return number, False, None
+        return number, None, None
     s = normalize_text(str(text))
     if not s:
         raise ValueError("force is empty; leave the cell blank when there is no claim")
     if s.lower() in NAN_TEXTS:
         raise ValueError(
-            f"force '{original}' is not a number (a missing value or spreadsheet error); "
+            f"force '{quoted(original)}' is not a number (a missing value or spreadsheet error); "
             "leave the cell blank when there is no claim, or give the value"
         )
 
@@ -146,19 +195,11 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
         negative = s[0] == "-"
         s = s[1:].strip()
     magnitude = _parse_magnitude(s, decimal_comma=decimal_comma, original=original)
-    if not math.isfinite(magnitude):
-        raise ValueError(f"force '{original}' is out of range (not a finite number)")
+    if not in_force_range(magnitude):
+        raise ValueError(f"force '{quoted(original)}' is out of range: a claimed force must be 0 or between "
+                         f"{MIN_FORCE:g} and {MAX_FORCE:g} in size, in any unit")
 
-    if tc == "T":
-        if negative:
-            raise ValueError(
-                f"force '{original}' is negative but marked T (tension); write the magnitude with T, "
-                "or a signed number without T/C"
-            )
-        return abs(magnitude), True, unit
-    if tc == "C":
-        return -abs(magnitude), True, unit
-    return (-magnitude if negative else magnitude), False, unit
+    return (-magnitude if negative else magnitude), tc, unit
 
 
 def _parse_magnitude(s: str, *, decimal_comma: bool, original: str) -> float:
@@ -186,7 +227,7 @@ def _parse_magnitude(s: str, *, decimal_comma: bool, original: str) -> float:
         if m:
             if decimal_comma and sep == "." and m.group(2) is None and m.group(1).count(".") == 1:
                 raise ValueError(
-                    f"force '{original}' is ambiguous: in a table with decimal commas '.' groups "
+                    f"force '{quoted(original)}' is ambiguous: in a table with decimal commas '.' groups "
                     "thousands, but it may be a decimal point here; write it without grouping"
                 )
             whole = m.group(1).replace(sep, "")

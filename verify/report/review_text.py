@@ -66,7 +66,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(f"; {r}" for r in c.column_readings)
     lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); {c.support}")
     lines.append(f"Tolerance: {review.tolerance.rtol:.2%} relative, {review.tolerance.atol_fraction:g} x largest force absolute, "
-                 "half a unit in the last written decimal")
+                 "half a unit in the last written decimal" + "".join(f"; {w}" for w in review.tolerance.widened))
     s = review.analysis.stability
     lines.append(f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
                  f"m = {s.mechanisms}, s = {s.self_stress}")

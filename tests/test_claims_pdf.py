@@ -1,0 +1,160 @@
+"""Claims tables in text-based PDF calc pages, written in each test by fpdf2 (no checked-in
+binaries): a table among a title block and notes, continued over pages under a repeated header,
+a landscape page with two load cases side by side, --pages, page/row locations, a page with no
+text layer, and oversized documents refused.
+
+The truss and its closed-form forces are those of tests/test_claims_layouts.py: AB = BC = P/2,
+AD = CD = -P/sqrt(2), BD = 0, for a load P down at the apex D.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import pytest
+from fpdf import FPDF
+
+from verify.analysis.pipeline import analyse
+from verify.compare.diagnose import Verdict, compare_claims
+from verify.errors import InputError
+from verify.io.case import build_model
+from verify.io.claims import read_claims
+from verify.io.claims.source_pdf import MAX_PAGES_SEARCHED
+
+DEAD, SNOW = 10.0, 4.0
+REL = 1e-9
+
+
+def _members(count: int) -> dict[str, tuple[str, str]]:
+    """A chain of `count` triangles: bottom joints Bk, top joints Tk (an invented Warren-like
+    layout); only the first triangle's forces are checked against the closed form."""
+    return {"M1": ("A", "B"), "M2": ("B", "C"), "M3": ("A", "D"), "M4": ("B", "D"), "M5": ("C", "D")}
+
+
+MODEL = build_model(
+    {
+        "units": {"length": "m", "force": "kN"},
+        "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
+        "members": {m: list(ends) for m, ends in _members(5).items()},
+        "supports": {"A": ["x", "y"], "C": ["y"]},
+        "loads": {"dead": {"D": [0.0, -DEAD]}, "snow": {"D": [0.0, -SNOW]}},
+    },
+    source="case.toml",
+)
+
+
+def _force(member: str, load: float) -> float:
+    return {"M1": load / 2, "M2": load / 2, "M3": -load / math.sqrt(2), "M4": 0.0, "M5": -load / math.sqrt(2)}[member]
+
+
+def _page(pdf: FPDF, lines: list[list[str]], xs: list[float], *, y: float = 40.0) -> None:
+    """One page: a title block, the given table lines at column positions xs, a note below."""
+    pdf.add_page()
+    pdf.set_font("Helvetica", size=10)
+    pdf.text(15, 15, "Structural calculations - Roof truss T3 (invented)")
+    pdf.text(15, 21, "Job 2291    Sheet 12 of 14    Calc by: A. Designer")
+    for k, cells in enumerate(lines):
+        for x, cell in zip(xs, cells, strict=False):
+            if cell:
+                pdf.text(x, y + 6 * k, cell)
+    pdf.text(15, y + 6 * len(lines) + 12, "Note: forces from the analysis program, unfactored.")
+
+
+def _rows(members: list[str]) -> list[list[str]]:
+    return [[m, f"{_force(m, DEAD):.2f}", f"{_force(m, SNOW):.2f}"] for m in members]
+
+
+def _write(pdf: FPDF, path: Path) -> Path:
+    pdf.output(str(path))
+    return path
+
+
+def test_table_among_title_block_and_notes_is_read_and_agrees(tmp_path: Path) -> None:
+    pdf = FPDF()
+    _page(pdf, [["Member", "dead (kN)", "snow (kN)"], *_rows(list(_members(5)))], [20, 60, 100])
+    table = read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
+    assert table.columns == ("dead", "snow") and table.sheet == "page 1"
+    got = {(v.member, v.column): v.value for v in table.values}
+    assert got[("M3", "dead")] == pytest.approx(round(-DEAD / math.sqrt(2), 2), rel=REL)
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def test_table_continued_over_pages_under_a_repeated_header(tmp_path: Path) -> None:
+    """Page 2 repeats the title block and the header: neither is read as a claim; the rows of
+    page 2 are located by page and row."""
+    pdf = FPDF()
+    header = ["Member", "dead (kN)", "snow (kN)"]
+    _page(pdf, [header, *_rows(["M1", "M2", "M3"])], [20, 60, 100])
+    _page(pdf, [header, *_rows(["M4", "M5"])], [20, 60, 100])
+    table = read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
+    assert sorted({v.member for v in table.values}) == ["M1", "M2", "M3", "M4", "M5"] and not table.unmatched
+    m5 = next(v for v in table.values if v.member == "M5" and v.column == "dead")
+    assert m5.where.startswith("page 2 row ") and m5.where.endswith("column 'dead (kN)'")
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def test_landscape_page_with_two_load_cases_side_by_side_as_tc(tmp_path: Path) -> None:
+    """A landscape page: 'Member | dead | T/C | snow | T/C' with magnitudes and letters."""
+    pdf = FPDF(orientation="L")
+    lines = [["Member", "dead (kN)", "T/C", "snow (kN)", "T/C"]]
+    for m in _members(5):
+        d, s = _force(m, DEAD), _force(m, SNOW)
+        lines.append([m, f"{abs(d):.2f}", "C" if d < 0 else "T", f"{abs(s):.2f}", "C" if s < 0 else "T"])
+    _page(pdf, lines, [20, 70, 110, 150, 200])
+    table = read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
+    got = {(v.member, v.column): v.value for v in table.values}
+    assert got[("M5", "snow")] == pytest.approx(-round(SNOW / math.sqrt(2), 2), rel=REL)
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def test_pages_option_limits_the_search(tmp_path: Path) -> None:
+    """--pages 2 reads only page 2's table (page 1 holds a different, wrong one)."""
+    pdf = FPDF()
+    _page(pdf, [["Member", "dead (kN)", "snow (kN)"], ["M1", "99.00", "99.00"]], [20, 60, 100])
+    _page(pdf, [["Member", "dead (kN)", "snow (kN)"], *_rows(list(_members(5)))], [20, 60, 100])
+    path = _write(pdf, tmp_path / "calc.pdf")
+    table = read_claims(path, MODEL, pages="2")
+    assert table.sheet == "page 2" and {v.where.split(",")[0].split(" row")[0] for v in table.values} == {"page 2"}
+    with pytest.raises(InputError) as info:
+        read_claims(path, MODEL, pages="3-5")
+    assert "the PDF has pages 1-2" in str(info.value)
+
+
+def test_a_page_without_text_is_refused_with_a_sentence(tmp_path: Path) -> None:
+    """A scanned page (drawn shapes, no text layer) is refused: it holds no text, no OCR."""
+    pdf = FPDF()
+    pdf.add_page()
+    for k in range(20):
+        pdf.rect(20, 20 + 8 * k, 150, 6, style="F")
+    with pytest.raises(InputError) as info:
+        read_claims(_write(pdf, tmp_path / "scan.pdf"), MODEL)
+    assert "calc.pdf" not in str(info.value) and "holds no text" in str(info.value) and "OCR" in str(info.value)
+
+
+def test_thousands_of_pages_are_refused_without_pages(tmp_path: Path) -> None:
+    """More pages than MAX_PAGES_SEARCHED: refused before any page is parsed; --pages reads one."""
+    pdf = FPDF()
+    for _ in range(MAX_PAGES_SEARCHED + 1):
+        pdf.add_page()
+    pdf.set_font("Helvetica", size=10)
+    for k, cells in enumerate([["Member", "dead (kN)"], ["M1", "5.00"]]):
+        for x, cell in zip([20, 60], cells, strict=True):
+            pdf.text(x, 40 + 6 * k, cell)
+    path = _write(pdf, tmp_path / "big.pdf")
+    with pytest.raises(InputError) as info:
+        read_claims(path, MODEL)
+    assert f"{MAX_PAGES_SEARCHED + 1:,} pages" in str(info.value) and "--pages" in str(info.value)
+    [value] = read_claims(path, MODEL, pages=str(MAX_PAGES_SEARCHED + 1)).values
+    assert (value.member, value.value) == ("M1", DEAD / 2)
+
+
+def test_a_huge_page_is_refused(tmp_path: Path) -> None:
+    """A page 200 inches square is refused as a possible bomb, named by its page."""
+    pdf = FPDF(unit="pt", format=(72 * 200, 72 * 200))
+    pdf.add_page()
+    pdf.set_font("Helvetica", size=10)
+    pdf.text(20, 40, "Member")
+    with pytest.raises(InputError) as info:
+        read_claims(_write(pdf, tmp_path / "huge.pdf"), MODEL)
+    assert "page 1 is 200 x 200 inches" in str(info.value)

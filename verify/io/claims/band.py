@@ -1,0 +1,150 @@
+"""Header band: where the header sits and what each column's heading says, found from content.
+
+A consultant's table often has titles and notes above it, a header of several rows (a group
+cell such as "Axial force (kN)" merged over the load-case columns, a row of units) and a member
+column whose heading is unfamiliar ("Member (joints)", "Bar No.", "Mem."). Instead of trusting
+the header words, the band is found from the data: the column whose cells name the model's
+members (or two columns of joints, from/to) marks the data rows; the non-blank rows just above
+the first of them are the header. A merged cell keeps its text in its first column only, so a
+group cell is carried to the right over the columns it spans.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+from verify.io.claims.grid import Cell, Grid, blank, cell_text
+from verify.io.claims.headers import Header, header_key, parse_header, unit_alone
+from verify.io.claims.labels import LabelMatcher
+from verify.io.values import plain_number
+
+SCAN_ROWS = 2_000  # rows looked at to find the member column; a table shows itself long before
+MAX_HEADER_ROWS = 4  # rows a header may span (group, case names, units, a second group)
+TITLE_CHARS = 40  # a lone cell this long above the header is a title, not a group heading
+# Heading pairs of joint columns that name a member by its ends.
+PAIR_HEADERS = (
+    ("from", "to"), ("start", "end"), ("i", "j"), ("node i", "node j"), ("joint i", "joint j"),
+    ("start joint", "end joint"), ("start node", "end node"), ("from joint", "to joint"),
+    ("from node", "to node"), ("end 1", "end 2"), ("node 1", "node 2"), ("joint 1", "joint 2"),
+)
+
+
+@dataclass(frozen=True)
+class Band:
+    top: int
+    bottom: int  # the last header row; data rows follow it
+    headers: list[Header]  # one per column, composed from the band's rows
+    member_index: int | None  # the column whose cells name members, when one does
+    pair: tuple[int, int] | None  # from/to joint columns naming members, when they do better
+    unit_rows: tuple[int, ...]  # band rows holding only units
+
+
+def _is_number(cell: Cell) -> bool:
+    if isinstance(cell, float):
+        return True
+    if not isinstance(cell, str):
+        return False
+    head = cell.strip().lstrip("(+-\u2212").split(" ")[0].rstrip(")TC").replace(",", "")
+    return bool(head) and plain_number(head) is not None
+
+
+def _names_member(matcher: LabelMatcher, cell: Cell) -> bool:
+    text = cell_text(cell)
+    return bool(text) and matcher.names(text) in ("member", "reaction")
+
+
+def _pair_columns(grid: Grid, matcher: LabelMatcher, bottom_guess: int | None) -> tuple[tuple[int, int], int, int] | None:
+    """From/to columns by their headings in the first rows, scored by rows naming members."""
+    best: tuple[tuple[int, int], int, int] | None = None
+    rows = grid.rows[:SCAN_ROWS]
+    for r, row in enumerate(rows[:40]):
+        keys = [header_key(cell_text(c)) if isinstance(c, str) else "" for c in row]
+        for first, second in PAIR_HEADERS:
+            if first in keys and second in keys:
+                a, b = keys.index(first), keys.index(second)
+                hits = [k for k in range(r + 1, len(rows)) if cell_text(grid.cell(k, a)) and cell_text(grid.cell(k, b))
+                        and matcher.names(f"{cell_text(grid.cell(k, a))}-{cell_text(grid.cell(k, b))}") == "member"]
+                if hits and (best is None or len(hits) > best[1]):
+                    best = ((a, b), len(hits), hits[0])
+    return best
+
+
+def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
+    """The header band found from content, or None when no column names the model's members."""
+    counts: dict[int, int] = {}
+    first_row: dict[int, int] = {}
+    for r, row in enumerate(grid.rows[:SCAN_ROWS]):
+        for c, cell in enumerate(row):
+            if isinstance(cell, str) and _names_member(matcher, cell):
+                counts[c] = counts.get(c, 0) + 1
+                first_row.setdefault(c, r)
+    member_index = max(counts, key=lambda c: (counts[c], -c)) if counts else None
+    pair = _pair_columns(grid, matcher, None)
+    use_pair = pair is not None and (member_index is None or pair[1] > counts[member_index])
+    if use_pair:
+        assert pair is not None
+        first_data = pair[2]
+    elif member_index is not None:
+        first_data = first_row[member_index]
+    else:
+        return None
+    label_at = pair[0][0] if use_pair and pair is not None else member_index
+    assert label_at is not None
+    # The header's last row: the nearest row above the first member row that holds no numbers
+    # (rows in between with numbers are data whose labels the model does not know).
+    bottom = first_data - 1
+    while bottom >= 0 and (all(blank(c) for c in grid.rows[bottom]) or
+                           any(_is_number(c) for k, c in enumerate(grid.rows[bottom]) if k != label_at)):
+        bottom -= 1
+    if bottom < 0:
+        return None
+    top = bottom
+    while top - 1 >= 0 and bottom - top + 1 < MAX_HEADER_ROWS:
+        above = grid.rows[top - 1]
+        filled = [(k, c) for k, c in enumerate(above) if not blank(c)]
+        if not filled or any(_is_number(c) for _, c in filled):
+            break
+        if len(filled) == 1 and (filled[0][0] <= label_at or len(cell_text(filled[0][1])) > TITLE_CHARS):
+            break  # a title over the label column, or a sentence: not part of the header
+        top -= 1
+    headers, unit_rows = _compose(grid, top, bottom, label_at)
+    return Band(top, bottom, headers, None if use_pair else member_index, pair[0] if use_pair and pair else None, unit_rows)
+
+
+def _compose(grid: Grid, top: int, bottom: int, label_at: int) -> tuple[list[Header], tuple[int, ...]]:
+    width = max(len(grid.rows[r]) for r in range(top, bottom + 1))
+    # A row of units only ('', 'kN', 'kN') — never the header's only row, where 'N' is a heading.
+    unit_rows = tuple(r for r in range(top, bottom + 1) if bottom > top
+                      and any(not blank(c) for c in grid.rows[r]) and all(blank(c) or unit_alone(c) for c in grid.rows[r]))
+    names: list[Cell] = [None] * width
+    units: list[list[tuple[int, str]]] = [[] for _ in range(width)]  # (row, unit) per column
+    for r in range(top, bottom + 1):
+        row = grid.rows[r]
+        carried: Cell = None
+        for c in range(width):
+            cell = row[c] if c < len(row) else None
+            if r < bottom and blank(cell) and c > label_at and carried is not None:
+                cell = carried  # a merged group cell spans to the right
+            elif r < bottom:
+                carried = cell if not blank(cell) and c > label_at else None
+            if blank(cell):
+                continue
+            unit = unit_alone(cell) if r in unit_rows else None
+            if unit is not None:
+                units[c].append((r, unit))
+                continue
+            parsed = parse_header(c, cell)
+            if parsed.unit is not None:
+                units[c].append((r, parsed.unit))
+            names[c] = cell  # the lowest heading names the column (case names sit under their group)
+    headers = []
+    for c in range(width):
+        header = parse_header(c, names[c])
+        found = dict.fromkeys(u for _, u in units[c])
+        if header.unit is None and len(found) == 1:
+            header = replace(header, unit=next(iter(found)))
+        elif len(found) > 1:
+            header = replace(header, unit_error=f"its heading rows give different units ({', '.join(found)})")
+        headers.append(header)
+    return headers, unit_rows
+

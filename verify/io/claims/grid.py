@@ -1,0 +1,79 @@
+"""The grid of cells every source (CSV, workbook sheet, PDF pages) is read into.
+
+Each row knows where it came from, so every message and finding can point at the cell: a CSV
+row, a sheet cell (``sheet 'Forces' cell C7``) or a PDF page row (``page 12 row 5``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Unusable:
+    """A cell whose content cannot be read as text or number (uncached formula, date, boolean)."""
+
+    reason: str
+
+
+Cell = str | float | Unusable | None
+
+
+def column_letter(index: int) -> str:
+    """Spreadsheet column letters for a 0-based index (0 -> A, 26 -> AA)."""
+    letters = ""
+    n = index + 1
+    while n:
+        n, rest = divmod(n - 1, 26)
+        letters = chr(65 + rest) + letters
+    return letters
+
+
+@dataclass
+class Grid:
+    rows: list[list[Cell]]
+    row_numbers: list[int]  # the file / sheet / page row number of each entry, 1-based
+    sheet: str | None  # None for CSV and PDF
+    decimal_comma: bool
+    delimiter: str | None = None  # CSV only
+    pages: list[int] | None = None  # PDF only: the page of each row
+
+    def cell(self, r: int, c: int) -> Cell:
+        row = self.rows[r]
+        return row[c] if c < len(row) else None
+
+    def row_ref(self, r: int) -> str:
+        if self.pages is not None:
+            return f"page {self.pages[r]} row {self.row_numbers[r]}"
+        return f"row {self.row_numbers[r]}"
+
+    def where(self, r: int, c: int | None = None, column: str | None = None) -> str:
+        number = self.row_numbers[r]
+        if self.sheet is None:
+            # Called once per claim (10^5-row tables): the common CSV case is built inline.
+            base = f"row {number}" if self.pages is None else f"page {self.pages[r]} row {number}"
+            if column is not None:
+                return f"{base}, column '{column}'"
+            return base if c is None else f"{base}, column {c + 1}"
+        if c is None:
+            return f"sheet '{self.sheet}' row {number}"
+        text = f"sheet '{self.sheet}' cell {column_letter(c)}{number}"
+        return text + (f", column '{column}'" if column is not None else "")
+
+
+# A lone dash in a force table means "nothing here" (often for a zero-force member); it is read
+# as no claim, never as a value, so a "not computed" dash cannot become a false error.
+DASHES = frozenset({"-", "--", "–", "—", "−"})
+
+
+def blank(cell: Cell) -> bool:
+    return cell is None or (isinstance(cell, str) and (not cell.strip() or cell.strip() in DASHES))
+
+
+def cell_text(cell: Cell) -> str:
+    """A label, case name or header from a cell: numbers written as a person would type them."""
+    if isinstance(cell, float):
+        return str(int(cell)) if cell.is_integer() else repr(cell)
+    if cell is None or isinstance(cell, Unusable):
+        return ""
+    return cell.strip()

@@ -1,0 +1,124 @@
+"""Reading one heading cell: its name, its unit (force or another kind), its role spelling."""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from verify.io.claims.grid import Cell, cell_text
+from verify.io.claims.problems import quoted
+from verify.io.values import normalize_text
+from verify.units import Dimension, lookup_unit
+
+MAX_HEADER_CHARS = 120  # longer header cells are notes
+
+# Header spellings per role, compared after header_key(); earlier spellings win when a table
+# has several (a table with "ID" and "Member" columns is labelled by "Member").
+# fmt: off
+MEMBER_HEADERS = (
+    "member", "member id", "member label", "member name", "member no", "member #", "members",
+    "mbr", "memb", "element", "element id", "elem", "bar", "bar id", "label", "mark", "id",
+)
+FORCE_HEADERS = (
+    "force", "axial force", "member force", "axial", "axial load", "forces", "n", "p", "value",
+)
+CASE_HEADERS = (
+    "case", "load case", "loadcase", "lc", "combination", "load combination", "combo", "comb",
+    "case name",
+)
+TC_HEADERS = ("t/c", "t or c", "tc", "tension/compression", "sense")
+UNIT_HEADERS = ("unit", "units")
+# Descriptive columns a member table often carries; never read as load cases.
+IGNORED_HEADERS = frozenset(
+    {
+        "remark", "remarks", "note", "notes", "comment", "comments", "description", "type",
+        "section", "size", "profile", "length", "l", "start", "end", "from", "to", "i", "j",
+        "node i", "node j", "joint i", "joint j", "start joint", "end joint", "start node",
+        "end node", "status", "stress", "capacity", "utilisation", "utilization", "util",
+        "ratio", "area", "no", "#", "item", "row", "group", "material", "check",
+    }
+)
+# fmt: on
+
+_NON_FORCE_UNIT = re.compile(
+    r"^(%|-|mm2|mm²|cm2|cm²|m2|m²|in2|in²|ft2|pa|kpa|mpa|gpa|psi|ksi|n/mm2|n/mm²|kn/m2|kn/m|kn/m²|"
+    r"knm|kn\.?m|kn·m|kip-ft|kip-in|lbf-ft|deg|°|rad)$",
+    re.IGNORECASE,
+)
+_HEADER_UNIT = re.compile(
+    r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\]|,\s*(?P<c>[^,]+))\s*$"
+)
+
+
+def header_key(text: str) -> str:
+    return re.sub(r"[\s_\-.:]+", " ", normalize_text(text).casefold()).strip()
+
+
+@dataclass(frozen=True)
+class Header:
+    index: int
+    text: str  # as written
+    name: str  # without its unit
+    key: str  # normalised name for spelling lookups
+    unit: str | None
+    unit_error: str | None
+    descriptive: bool  # a non-force unit or a known descriptive heading
+    other_unit: str | None = None  # a unit that is not a force (stress, length, moment), as written
+    other_name: str = ""  # the heading without that unit
+
+
+def _length_unit(text: str) -> bool:
+    try:
+        lookup_unit(text, Dimension.LENGTH)
+    except ValueError:
+        return False
+    return True
+
+
+def _force_per_something(text: str) -> bool:
+    """'N/mm', 'kN/m2', 'kip/ft': a force unit divided by something (a line load, a stress)."""
+    top, slash, _ = text.partition("/")
+    if not slash:
+        return False
+    try:
+        lookup_unit(top.strip(), Dimension.FORCE)
+    except ValueError:
+        return False
+    return True
+
+
+def parse_header(index: int, cell: Cell) -> Header:
+    text = cell_text(cell)
+    if len(text) > MAX_HEADER_CHARS:
+        # A paragraph of notes, not a heading: never parsed (the unit pattern backtracks over
+        # its length) and cut short wherever messages name the column.
+        return Header(index, quoted(text), quoted(text), "", None, None, True)
+    name, unit, error, other_unit, other_name = text, None, None, None, ""
+    m = _HEADER_UNIT.match(text)
+    if m and m.group("name").strip():
+        inner = (m.group("p") or m.group("b") or m.group("c") or "").strip()
+        try:
+            unit = lookup_unit(inner, Dimension.FORCE).symbol
+            name = m.group("name").strip()
+        except ValueError as exc:
+            if _NON_FORCE_UNIT.match(inner) or _force_per_something(inner) or _length_unit(inner):
+                other_unit, other_name = inner, m.group("name").strip()
+            elif "ambiguous" in str(exc):
+                error = str(exc)
+                name = m.group("name").strip()
+    key = header_key(name)
+    descriptive = other_unit is not None or key in IGNORED_HEADERS
+    return Header(index, text, name, key, unit, error, descriptive, other_unit, other_name)
+
+
+def unit_alone(cell: Cell) -> str | None:
+    """The force unit written alone in a cell ('kN', '[kN]', '(kip)'), else None."""
+    text = cell_text(cell).strip("()[] ")
+    if not text:
+        return None
+    try:
+        return lookup_unit(text, Dimension.FORCE).symbol
+    except ValueError:
+        return None
+
+

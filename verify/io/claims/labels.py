@@ -1,0 +1,197 @@
+"""Label matching: table labels -> member ids, joint pairs and reaction components of one model.
+
+Member labels are matched by id, or by joint pair in either order with or without a separator
+(``B-C``, ``C-B``, ``BC``, ``B/C``), case-insensitively; an exact id always wins. Reaction claims
+are rows labelled like ``RA.y``, ``R_A_y``, ``A.y``, ``RAy``, ``A (y)``, matched against the
+model's reaction components. Unknown and ambiguous labels are returned as data.
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from verify.io.values import normalize_text
+from verify.model import Model
+
+MAX_LABEL_CHARS = 100  # longer text is refused by the row reader; it is never matched here
+MAX_SUGGESTED_LABELS = 50  # unknown labels that get "nearest label" suggestions
+SUGGESTION_POOL_LIMIT = 20_000  # above this, suggestions look only at similar-looking labels
+# Characters that may separate the two joints of a member label, after normalize_text().
+LABEL_SEPARATORS = frozenset(" -_/\\|:,.")
+AXES = ("x", "y", "z", "n")
+_REACTION_PREFIX = re.compile(r"^(?:reaction|reac|rxn|r)[\s_.\-:]*(?P<body>.+)$")
+_AXIS_TAIL = re.compile(r"(?P<sep>[\s_.\-:,]*)(?:\(\s*(?P<paren>[xyzn])\s*\)|(?P<bare>[xyzn]))$")
+_AXIS_HEAD = re.compile(r"^(?P<axis>[xyz])[\s_.\-:,]+(?P<joint>.+)$")
+
+
+@dataclass(frozen=True)
+class Match:
+    kind: str  # "member", "reaction", "unknown", "ambiguous"
+    member: str | None = None
+    reaction: tuple[str, str] | None = None
+    candidates: tuple[str, ...] = ()
+
+    @property
+    def reaction_label(self) -> str:
+        return f"{self.reaction[0]}.{self.reaction[1]}" if self.reaction else ""
+
+
+def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:
+    """Member ids for labels written as a claims table would write them ('u2u3', 'U2-L3', 'L3 U2').
+
+    A label that names no single member is returned as written, for the caller to report.
+    """
+    matcher = LabelMatcher(model)
+    out = []
+    for label in labels:
+        found = matcher.match(label)
+        out.append(found.member if found.kind == "member" and found.member is not None else label)
+    return out
+
+
+class LabelMatcher:
+    """Matches table labels to member ids, joint pairs and reaction components of one model."""
+
+    def __init__(self, model: Model) -> None:
+        self._ids = set(model.member_ids)
+        self._ids_folded: dict[str, list[str]] = defaultdict(list)
+        for mid in model.member_ids:
+            self._ids_folded[mid.casefold()].append(mid)
+        self._joints_folded: dict[str, list[str]] = defaultdict(list)
+        for jid in model.joint_ids:
+            self._joints_folded[normalize_text(jid).casefold()].append(jid)
+        self._pairs = {frozenset((m.start, m.end)): m.id for m in model.members}
+        self._reactions = {(r.joint, r.axis) for r in model.reactions}
+        # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
+        # there is matched, so that 0 agrees and anything else is said to have no reaction to act on.
+        inclined = {r.joint for r in model.reactions if r.axis == "n"}
+        self._free_directions = {(r.joint, axis) for r in model.reactions if r.joint not in inclined
+                                 for axis in AXES[: model.dim]} - self._reactions
+        self._model = model
+        self._pool: dict[str, str] | None = None
+        self._cache: dict[str, Match] = {}
+        self._suggested = 0
+
+    def names(self, label: str) -> str:
+        """The kind a label reads as ("member", "reaction", "unknown", "ambiguous"), without the
+        suggestions an unknown label would get: for scanning every cell of a sheet."""
+        found = self._cache.get(label)
+        if found is not None:
+            return found.kind
+        if len(label) > MAX_LABEL_CHARS:
+            return "unknown"
+        return self._match(label, suggest=False).kind
+
+    def match(self, label: str) -> Match:
+        found = self._cache.get(label)
+        if found is None:
+            found = self._match(label)
+            self._cache[label] = found
+        return found
+
+    def _match(self, label: str, *, suggest: bool = True) -> Match:
+        if label in self._ids:
+            return Match("member", member=label)
+        if len(label) > MAX_LABEL_CHARS:
+            return Match("unknown")  # the pair readings would cost the square of its length
+        folded = normalize_text(label).casefold()
+        members: dict[str, None] = dict.fromkeys(self._ids_folded.get(folded, []))
+        members.update(dict.fromkeys(self._pair_readings(folded)))
+        reactions = dict.fromkeys(self._reaction_readings(folded))
+        total = len(members) + len(reactions)
+        if total == 1:
+            if members:
+                return Match("member", member=next(iter(members)))
+            return Match("reaction", reaction=next(iter(reactions)))
+        if total > 1:
+            return Match(
+                "ambiguous", candidates=tuple(members) + tuple(f"{j}.{a}" for j, a in reactions)
+            )
+        return Match("unknown", candidates=self._suggest(folded) if suggest else ())
+
+    def _pair_readings(self, folded: str) -> list[str]:
+        found: list[str] = []
+        n = len(folded)
+        for i in range(1, n):
+            left = folded[:i]
+            if left not in self._joints_folded:
+                continue
+            j = i
+            while j < n and folded[j] in LABEL_SEPARATORS:
+                j += 1
+            right = folded[j:]
+            if not right or right not in self._joints_folded:
+                continue
+            for a in self._joints_folded[left]:
+                for b in self._joints_folded[right]:
+                    mid = self._pairs.get(frozenset((a, b)))
+                    if mid is not None and mid not in found:
+                        found.append(mid)
+        return found
+
+    def _reaction_readings(self, folded: str) -> list[tuple[str, str]]:
+        if not self._reactions:
+            return []
+        bodies = [(folded, False)]
+        prefixed = _REACTION_PREFIX.match(folded)
+        if prefixed:
+            bodies.append((prefixed.group("body"), True))
+        found: list[tuple[str, str]] = []
+        for body, has_prefix in bodies:
+            readings: list[tuple[str, str]] = []
+            tail = _AXIS_TAIL.search(body)
+            if (
+                tail
+                and tail.start() > 0
+                and (has_prefix or tail.group("sep") or tail.group("paren"))
+            ):
+                readings.append(
+                    (body[: tail.start()].strip(), tail.group("paren") or tail.group("bare"))
+                )
+            head = _AXIS_HEAD.match(body)
+            if head and has_prefix:
+                readings.append((head.group("joint").strip(), head.group("axis")))
+            for joint_text, axis in readings:
+                for jid in self._joints_folded.get(joint_text, []):
+                    if ((jid, axis) in self._reactions or (jid, axis) in self._free_directions) and (jid, axis) not in found:
+                        found.append((jid, axis))
+        return found
+
+    def _suggest(self, folded: str) -> tuple[str, ...]:
+        if self._suggested >= MAX_SUGGESTED_LABELS:
+            return ()
+        self._suggested += 1
+        pool = self._suggestion_pool()
+        query = re.sub(r"[\s\-_/\\|:,]+", "-", folded)
+        keys: Sequence[str] = list(pool)
+        if len(keys) > SUGGESTION_POOL_LIMIT:
+            # Large models: compare only with keys that start alike and are of similar length,
+            # the likeliest slips of a hand-typed label, so each suggestion stays cheap.
+            keys = [k for k in keys if k[:1] == query[:1] and abs(len(k) - len(query)) <= 1]
+            keys = keys[:SUGGESTION_POOL_LIMIT]
+        close = difflib.get_close_matches(query, keys, n=8, cutoff=0.5)
+        result: list[str] = []
+        for key in close:
+            name = pool[key]
+            if name not in result:
+                result.append(name)
+        return tuple(result[:3])
+
+    def _suggestion_pool(self) -> dict[str, str]:
+        if self._pool is None:
+            pool: dict[str, str] = {}
+            for m in self._model.members:
+                pool.setdefault(m.id.casefold(), m.id)
+            for m in self._model.members:
+                for a, b in ((m.start, m.end), (m.end, m.start)):
+                    pool.setdefault(f"{a}-{b}".casefold(), m.id)
+            for joint, axis in self._reactions:
+                pool.setdefault(f"{joint}.{axis}".casefold(), f"{joint}.{axis}")
+                pool.setdefault(f"r{joint}{axis}".casefold(), f"{joint}.{axis}")
+            self._pool = pool
+        return self._pool
+

@@ -1,0 +1,97 @@
+"""CSV source: a text file of delimited rows -> a Grid located by file row."""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+import re
+from collections.abc import Sequence
+
+from verify.io.claims.grid import Cell, Grid
+from verify.io.claims.problems import Problems
+
+CSV_DELIMITERS = ("\t", ";", ",", "|")
+
+
+def _decode(data: bytes, problems: Problems) -> str | None:
+    if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        try:
+            return data.decode("utf-16")
+        except UnicodeDecodeError as exc:
+            problems.add(
+                f"the file starts as UTF-16 text but byte {exc.start} is not; save it as UTF-8"
+            )
+            return None
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        pass
+    try:
+        # Spreadsheets on Windows save "CSV" in the ANSI code page; cp1252 is the common one.
+        return data.decode("cp1252")
+    except UnicodeDecodeError as exc:
+        problems.add(
+            f"the file is neither UTF-8 nor Windows-1252 text (byte {exc.start}); save it as CSV UTF-8"
+        )
+        return None
+
+
+def _sniff_delimiter(lines: Sequence[str]) -> str:
+    """The delimiter that splits the sample into the most consistent rows of two or more fields."""
+    sample = [line for line in lines if line.strip()][:50]
+    best = (0.0, 0, ",")
+    for order, delimiter in enumerate(CSV_DELIMITERS):
+        try:
+            counts = [len(row) for row in csv.reader(sample, delimiter=delimiter)]
+        except csv.Error:
+            continue
+        if not counts:
+            continue
+        mode = max(set(counts), key=lambda n: (counts.count(n), n))
+        if mode < 2:
+            continue
+        score = (counts.count(mode) / len(counts), mode, CSV_DELIMITERS[order])
+        if score[:2] > best[:2]:
+            best = score
+    return best[2]
+
+
+def read_csv(data: bytes, problems: Problems) -> Grid | None:
+    text = _decode(data, problems)
+    if text is None:
+        return None
+    if "\x00" in text:
+        problems.add(
+            "the file contains NUL bytes, so it is not CSV text; export the table as CSV or .xlsx"
+        )
+        return None
+    if not text.strip():
+        problems.add(
+            "the file is empty; expected a header row such as 'Member,dead (kN)' and one row per member"
+        )
+        return None
+    lines = text.splitlines()
+    offset = 0
+    forced = re.fullmatch(r"\s*sep=(.)\s*", lines[0]) if lines else None
+    if forced:
+        # Excel's "sep=;" directive line: it fixes the delimiter and is not a table row.
+        delimiter = forced.group(1)
+        lines = lines[1:]
+        offset = 1
+    else:
+        delimiter = _sniff_delimiter(lines)
+    rows: list[list[Cell]] = []
+    numbers: list[int] = []
+    reader = csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter)
+    try:
+        for index, row in enumerate(reader, start=1):
+            rows.append([c.strip() or None for c in row])
+            numbers.append(index + offset)
+    except csv.Error as exc:
+        problems.add(
+            f"the CSV cannot be split into fields ({exc})", f"row {len(rows) + 1 + offset}"
+        )
+        return None
+    return Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+
