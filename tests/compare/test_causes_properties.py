@@ -135,4 +135,8 @@ def test_mast_load_left_out_is_named_in_3d(levels, data):
     _, claimed = forces(variant)
     assume(clearly_changed(truth, claimed) >= 3)
     review = compare_claims(analysis, table(rounded(claimed)))
-    assert any(f.joints == (joint,) and f.factor == 0.0 for f in likely(review)), [f.detail for f in review.findings]
+    named = likely(review)
+    # equal loads stacked up a leg: leaving out the top one reads the same as moving each down a
+    # level (the lowest onto the support), and such alike readings are named together
+    assert any(f.joints == (joint,) and f.factor == 0.0 for f in named) or any(
+        f"'wind' load at {joint} (" in f.variant and "left out" in f.variant for f in named), [f.detail for f in review.findings]

@@ -52,7 +52,6 @@ from verify.compare.implied import ImpliedLoads, implied_loads
 from verify.compare.tolerances import (
     Tolerance,
     decimals_as_written,
-    rounding_allowance,
     rounding_allowances,
     significant_figure_allowances,
 )
@@ -602,27 +601,41 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         computed_c = np.array([item[3] for item in items])
         by_force = np.argsort(computed_c, kind="stable")
         sorted_c = computed_c[by_force]
-        window = np.maximum(np.maximum(2.0 * tol.rtol * np.abs(claimed_x), atol),
-                            np.array([rounding_allowance(item[1].value, 1.0) for item in items])) * 1.01
+        own_rounding = rounding_allowances(np.array([item[1].value for item in items]), np.ones(len(items)))
+        window = np.maximum(np.maximum(2.0 * tol.rtol * np.abs(claimed_x), atol), own_rounding) * 1.01
         low = np.searchsorted(sorted_c, claimed_x - window, side="left")
         high = np.searchsorted(sorted_c, claimed_x + window, side="right")
+
+        def close(x: np.ndarray | float, c: np.ndarray | float, rounding: np.ndarray | float,
+                  atol: float = atol) -> np.ndarray:
+            return np.abs(x - c) <= np.maximum(np.maximum(tol.rtol * np.maximum(np.abs(x), np.abs(c)), atol), rounding)
+
+        taken = np.zeros(len(items), dtype=bool)
         for a in range(len(items)):
-            for b in sorted(int(x) for x in by_force[low[a]:high[a]]):
-                if b <= a:
-                    continue
-                ra, va, xa, ca, _ = items[a]
-                rb, vb, xb, cb, _ = items[b]
-                if ra in explained or rb in explained:
-                    continue
-                if (tol.agrees(xa, cb, atol, rounding_allowance(va.value, 1.0)) and tol.agrees(xb, ca, atol, rounding_allowance(vb.value, 1.0))
-                        and not tol.agrees(ca, cb, atol)):
-                    explained.update((ra, rb))
-                    for r in (ra, rb):
-                        rows[r] = _with_status(rows[r], "swapped-labels")
-                    findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
-                                            f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
-                                            f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name,
-                                            locations=(va.where, vb.where)))
+            if taken[a] or low[a] == high[a]:
+                continue
+            candidates = np.sort(by_force[low[a]:high[a]])
+            candidates = candidates[(candidates > a) & ~taken[candidates]]
+            if not candidates.size:
+                continue
+            # a's claim is b's force, b's claim is a's force, and the two forces differ
+            fits = (close(claimed_x[a], computed_c[candidates], own_rounding[a])
+                    & close(claimed_x[candidates], computed_c[a], own_rounding[candidates])
+                    & ~close(computed_c[a], computed_c[candidates], 0.0))
+            partners = [b for b in candidates[fits].tolist() if items[b][0] not in explained]
+            if items[a][0] in explained or not partners:
+                continue
+            b = partners[0]
+            ra, va, xa, ca, _ = items[a]
+            rb, vb, xb, cb, _ = items[b]
+            taken[[a, b]] = True
+            explained.update((ra, rb))
+            for r in (ra, rb):
+                rows[r] = _with_status(rows[r], "swapped-labels")
+            findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
+                                    f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
+                                    f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name,
+                                    locations=(va.where, vb.where)))
     # The same two rows swapped in several load columns: one finding for the pair, not one per column.
     by_pair: dict[frozenset[str], list[Finding]] = {}
     for f in findings:

@@ -87,7 +87,8 @@ def _expectation(original: str) -> str:
 
 
 MAX_FORCE = 1e15  # 10^15 N is a thousand times the weight of the largest structure ever built
-MIN_FORCE = 1e-15  # below this a non-zero "force" is round-off or a subnormal, not a claim
+MIN_FORCE = 1e-290  # smaller non-zero values are subnormal floats, whose quotients overflow; round-off
+#                     such as 7.1e-16, as analysis programs export it, is kept as written
 
 
 def in_force_range(value: float) -> bool:

@@ -83,19 +83,30 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
     # Only claims clearly wrong: a value just outside its allowance is a rounding question, and in
     # a table rounded to two figures many rows repeat one another honestly.
     clear = np.abs(frame.claimed - frame.computed - base) > CLEAR_MISS * frame.allowed(frame.computed + base)
+    candidates = pending & clear
+    candidates &= np.array([bool(t.strip()) and significant_figures(t) >= MIN_COPY_FIGURES if c else False
+                            for t, c in zip(frame.written, candidates.tolist(), strict=True)], dtype=bool)
+    candidates &= frame.claimed != 0  # zeros repeat honestly on every idle member
     out: list[Copy] = []
-    for i in np.flatnonzero(pending & clear).tolist():
-        text = frame.written[i].strip()
-        if not text or frame.claimed[i] == 0 or significant_figures(text) < MIN_COPY_FIGURES:
-            continue  # zeros repeat honestly on every idle member, and short numbers by chance
-        column = np.flatnonzero(frame.column == frame.column[i])  # table order
-        here = int(np.searchsorted(column, i))
-        nearby = column[max(0, here - COPY_REACH):here + COPY_REACH + 1]
-        same = [int(j) for j in nearby.tolist()
-                if j != i and agreed[j] and frame.claimed[j] == frame.claimed[i] and frame.written[j].strip() == text]
-        if same:
-            out.append(Copy(i, min(same, key=lambda j: abs(j - i))))
-    return out
+    if not candidates.any():
+        return out
+    written = np.array([t.strip() for t in frame.written], dtype=object)
+    for k in np.unique(frame.column[candidates]).tolist():
+        order = np.flatnonzero(frame.column == k)  # table order
+        n = len(order)
+        found = np.full(n, -1, dtype=np.int64)
+        # nearest rows first: offsets 1, -1, 2, -2, ... within COPY_REACH
+        for offset in [o for d in range(1, COPY_REACH + 1) for o in (-d, d)]:
+            lo, hi = max(0, -offset), min(n, n - offset)
+            if hi <= lo:
+                continue
+            here, there = order[lo:hi], order[lo + offset:hi + offset]
+            match = (candidates[here] & agreed[there] & (frame.claimed[there] == frame.claimed[here])
+                     & (written[there] == written[here]) & (found[lo:hi] < 0))
+            found[lo:hi] = np.where(match, there, found[lo:hi])
+        for pos in np.flatnonzero(found >= 0).tolist():
+            out.append(Copy(int(order[pos]), int(found[pos])))
+    return sorted(out)
 
 
 def significant_figures(text: str) -> int:

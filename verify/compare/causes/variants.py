@@ -117,10 +117,10 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
     d = model.dim
     F = model.load_matrix()
     partner = _partner(model)
-    neighbours: dict[int, list[int]] = {}
-    for a, b in model.ends_index.tolist():
-        neighbours.setdefault(a, []).append(b)
-        neighbours.setdefault(b, []).append(a)
+    ends = model.ends_index
+    nj = len(model.joints)
+    adjacency = sp.csr_matrix((np.ones(2 * len(ends)), (np.concatenate([ends[:, 0], ends[:, 1]]),
+                                                       np.concatenate([ends[:, 1], ends[:, 0]]))), shape=(nj, nj))
     ids = model.joint_ids
     v = vertical_axis(model)
     out: list[LoadChange] = []
@@ -150,8 +150,9 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                               f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
                               f"{_names(ids, moved)}", tuple(ids[t] for t in targets)))
         # The whole case turned vertical (a load normal to a member applied straight down or up).
-        slanted = [j for j in loaded if np.abs(np.delete(column[j], v)).max() > 1e-9 * np.abs(column[j]).max()
-                   and abs(column[j, v]) > 0]
+        across = np.abs(np.delete(column, v, axis=1)).max(axis=1)
+        tilted = (across > 1e-9 * np.abs(column).max(axis=1)) & (column[:, v] != 0)
+        slanted = [j for j in loaded if tilted[j]]
         if slanted:
             parts = []
             for j in slanted:
@@ -180,7 +181,7 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                 break
             at.append(j)
             to.append(-1)
-            for n in neighbours.get(j, []):
+            for n in adjacency.indices[adjacency.indptr[j]:adjacency.indptr[j + 1]].tolist():
                 if n == partner.get(j) or not np.abs(column[n]).sum() > 0:
                     at.append(j)
                     to.append(n)
