@@ -330,3 +330,18 @@ def test_self_check_speaks_where_the_truss_cannot_be_solved():
     (own,) = [f for f in review.findings if f.kind == "inconsistent-combination"]
     assert own.members == ("U3L3",) and own.severity is Severity.ERROR
     assert review.verdict is Verdict.DISCREPANCIES
+
+
+def test_every_finding_kind_and_status_is_named_once():
+    """Kinds and statuses are enums: the wording table covers every kind, and every status a
+    review can give is one of RowStatus (a typo would make a row nobody can colour)."""
+    from verify.compare.findings import KINDS, FindingKind, RowStatus
+
+    assert set(KINDS) == {k.value for k in FindingKind}
+    variant = bridge()
+    variant["loads"]["traffic"] = {f"U{i}": [0.0, -TRAFFIC] for i in range(1, PANELS)}
+    claims = claims_of(variant)
+    claims["dead"]["L2L3"] *= 1.3
+    review = review_of(bridge(), claims)
+    assert {r.status for r in review.rows} <= {s.value for s in RowStatus}
+    assert all(isinstance(f.kind, FindingKind) for f in review.findings)

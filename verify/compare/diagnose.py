@@ -18,6 +18,7 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from enum import StrEnum
+from types import SimpleNamespace
 from typing import Any, NamedTuple
 
 import numpy as np
@@ -174,7 +175,103 @@ def map_columns(columns: list[str], load_names: list[str]) -> dict[str, str | No
 # -- the comparison ------------------------------------------------------------------------------
 def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = SignMode.AUTO,
                    unit: str | None = None, tolerance: Tolerance | None = None) -> Review:
-    """Rows and findings for every claim; `unit` None means auto (from the table, else inferred)."""
+    """Rows and findings for every claim; `unit` None means auto (from the table, else inferred).
+
+    The comparison is the list of STEPS, each reading and extending one Comparison.
+    """
+    c = Comparison(analysis=analysis, claims=claims, sign=sign, unit=unit, tolerance=tolerance,
+                   review=None, **dict.fromkeys(SHARED))
+    for step in STEPS:
+        step(c)
+    review: Review = c.review
+    return review
+
+
+class Comparison(SimpleNamespace):
+    """The state the steps of the comparison share: the claims as arrays, the rows, the findings
+    so far, the disagreements not yet explained. Internal to this module; each step binds the
+    names it reads at its top and stores back the ones it changes at its end."""
+
+    analysis: Analysis
+    claims: ClaimsTable
+    model: Model
+    tol: Tolerance
+    findings: list[Finding]
+    notes: list[str]
+    rows: list[Row]
+    frame: ClaimsFrame | None
+
+
+# Names the steps share (None until the step that sets them has run).
+SHARED = (
+    "atol_all",
+    "atol_arr",
+    "best",
+    "by_case",
+    "case_unit",
+    "checked_cases",
+    "claimed_matrix",
+    "column_of_claim",
+    "column_readings",
+    "columns",
+    "comp",
+    "comparable",
+    "computed_arr",
+    "conv",
+    "convention",
+    "diffs",
+    "effective_sign",
+    "explained",
+    "findings",
+    "fixed_all",
+    "flagged",
+    "frame",
+    "frame_rows",
+    "frame_written",
+    "identity",
+    "idx",
+    "imbalances",
+    "implied",
+    "indeterminate",
+    "is_member_claim",
+    "judged",
+    "k_of",
+    "load_names",
+    "mapping",
+    "member_claims",
+    "member_pos",
+    "model",
+    "n",
+    "named_factor",
+    "named_ratio",
+    "notes",
+    "raw",
+    "reaction_claims",
+    "ref",
+    "rounding_matrix",
+    "rounding_of_row",
+    "rounding_unit",
+    "rows",
+    "scale_arr",
+    "scale_fit",
+    "scale_of",
+    "seen_pairs",
+    "sign_fit",
+    "slip_ratios",
+    "stab",
+    "table_factors",
+    "tol",
+    "told",
+    "unit_label",
+    "unit_source",
+    "unit_stated",
+    "vals",
+    "values",
+)
+
+
+def _start(c: Comparison) -> None:
+    analysis, claims, tolerance = c.analysis, c.claims, c.tolerance
     tol = tolerance or Tolerance()
     model = analysis.model
     findings: list[Finding] = []
@@ -186,7 +283,13 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     ref = analysis.reference
     stab = analysis.stability
     indeterminate = analysis.global_ is None and analysis.elastic is not None
+    c.case_unit, c.columns, c.findings, c.indeterminate, c.load_names = case_unit, columns, findings, indeterminate, load_names
+    c.mapping, c.model, c.notes, c.ref, c.stab = mapping, model, notes, ref, stab
+    c.tol = tol
 
+
+def _structure(c: Comparison) -> None:
+    analysis, findings, ref, stab = c.analysis, c.findings, c.ref, c.stab
     # Structure-level findings.
     if stab.classification is Classification.UNSTABLE:
         modes = "; ".join(
@@ -215,15 +318,23 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"{analysis.route_disagreement:.2e} of the largest force (more than round-off, {ROUTE_RTOL:g}): "
                                 "suspect a nearly unstable geometry or a modelling problem", Severity.INFO))
 
+
+def _labels(c: Comparison) -> None:
+    claims, findings, mapping = c.claims, c.findings, c.mapping
     # Unknown labels and columns.
     for u in claims.unmatched:
         hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
         what = "matches several members" if u.reason == "ambiguous" else "is not a member or reaction of the model"
         findings.append(Finding("unknown-label", (u.label,), f"'{u.label}' ({u.where}) {what}{hint}", Severity.ERROR))
-    for c in claims.sign_conflicts:  # settled by the reader: a minus against its T/C letter
-        findings.append(Finding("sign-flip", (c.member,), f"'{c.text}' ({c.where}) has a minus that contradicts its letter in a table "
-                                f"written {c.convention}; read by the letter", Severity.ERROR, case=mapping.get(c.column), locations=(c.where,)))
+    for conflict in claims.sign_conflicts:  # settled by the reader: a minus against its T/C letter
+        findings.append(Finding("sign-flip", (conflict.member,), f"'{conflict.text}' ({conflict.where}) has a minus that contradicts "
+                                f"its letter in a table written {conflict.convention}; read by the letter", Severity.ERROR,
+                                case=mapping.get(conflict.column), locations=(conflict.where,)))
 
+
+def _units(c: Comparison) -> None:
+    case_unit, claims, model, notes, tol = c.case_unit, c.claims, c.model, c.notes, c.tol
+    unit = c.unit
     # Units: per value, the unit it states (cell or header), else the option, else the case unit.
     option_unit = lookup_unit(unit, Dimension.FORCE) if unit else None
     stated_units = {v.unit for v in claims.values if v.unit}
@@ -278,7 +389,15 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         """For one claim: 'x1000 (written in N where kN is meant)'."""
         unit_in = force_unit_for(1.0 / r, reference_unit)
         return f"x{fmt(r, 6)} (written in {unit_in} where {reference_unit.symbol} is meant)" if unit_in else describe_factor(r)
+    c.column_of_claim, c.column_readings, c.conv, c.fixed_all, c.is_member_claim = column_of_claim, column_readings, conv, fixed_all, is_member_claim
+    c.member_pos, c.named_factor, c.named_ratio, c.raw, c.rounding_unit = member_pos, named_factor, named_ratio, raw, rounding_unit
+    c.slip_ratios, c.table_factors, c.tol, c.unit_label, c.unit_source = slip_ratios, table_factors, tol, unit_label, unit_source
+    c.unit_stated = unit_stated
 
+
+def _gather(c: Comparison) -> None:
+    claims, load_names, mapping, ref, stab = c.claims, c.load_names, c.mapping, c.ref, c.stab
+    values = c.values
     # Gather comparable member claims.
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
     comparable = ref is not None and stab.classification is not Classification.UNSTABLE
@@ -289,7 +408,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             # straight over a support) still has a yardstick for "near zero".
             values = np.concatenate([ref.member_forces[:, k], ref.reactions[:, k]])
             scale_of[name] = float(np.nanmax(np.abs(values))) if values.size else 0.0
+    c.comparable, c.member_claims, c.scale_of, c.values = comparable, member_claims, scale_of, values
 
+
+def _case_mismatch(c: Comparison) -> None:
+    atol_arr, best, claims, columns, comp = c.atol_arr, c.best, c.claims, c.columns, c.comp
+    comparable, conv, findings, fixed_all, idx = c.comparable, c.conv, c.findings, c.fixed_all, c.idx
+    load_names, mapping, member_pos, raw, ref = c.load_names, c.mapping, c.member_pos, c.raw, c.ref
+    rounding_unit, scale_of, tol, vals = c.rounding_unit, c.scale_of, c.tol, c.vals
     # Case mismatch: a column that fits another load column much better than its own.
     remap: dict[str, str] = {}
     if comparable and ref is not None:
@@ -325,7 +451,17 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                     f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR))
     mapping.update(remap)
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
+    c.atol_arr, c.best, c.comp, c.idx, c.member_claims = atol_arr, best, comp, idx, member_claims
+    c.vals = vals
 
+
+def _column_readings(c: Comparison) -> None:
+    atol_arr, best, case_unit, claims, column_of_claim = c.atol_arr, c.best, c.case_unit, c.claims, c.column_of_claim
+    column_readings, columns, comp, comparable, conv = c.column_readings, c.columns, c.comp, c.comparable, c.conv
+    findings, fixed_all, identity, idx, is_member_claim = c.findings, c.fixed_all, c.identity, c.idx, c.is_member_claim
+    load_names, mapping, member_claims, member_pos, raw = c.load_names, c.mapping, c.member_claims, c.member_pos, c.raw
+    ref, rounding_unit, scale_of, table_factors, tol = c.ref, c.rounding_unit, c.scale_of, c.table_factors, c.tol
+    told = c.told
     # Columns read differently from the rest of the table (one column in N beside kN columns, or
     # written with the opposite sign): each is brought to the table's common reading and said once
     # per column, instead of one unit-scale or sign-flip finding per member (or false swaps).
@@ -379,7 +515,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                             f"{best.agree} of {best.informative} members agree with every sign in it reversed "
                                             f"({identity.agree} as written); it is read reversed: confirm which convention "
                                             "each column uses", Severity.ERROR, case=mapping.get(column)))
+    c.atol_arr, c.best, c.comp, c.identity, c.idx = atol_arr, best, comp, identity, idx
+    c.told = told
 
+
+def _table_convention(c: Comparison) -> None:
+    case_unit, column_readings, comparable, conv, findings = c.case_unit, c.column_readings, c.comparable, c.conv, c.findings
+    fixed_all, indeterminate, load_names, mapping, member_claims = c.fixed_all, c.indeterminate, c.load_names, c.mapping, c.member_claims
+    member_pos, model, n, named_factor, raw = c.member_pos, c.model, c.n, c.named_factor, c.raw
+    ref, rounding_unit, scale_arr, scale_of, sign = c.ref, c.rounding_unit, c.scale_arr, c.scale_of, c.sign
+    table_factors, tol, unit_label, unit_source, unit_stated = c.table_factors, c.tol, c.unit_label, c.unit_source, c.unit_stated
     # Table convention.
     sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
     all_fixed = bool(member_claims) and all(v.sign_fixed for _, v in member_claims)
@@ -389,8 +534,8 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         idx = np.array([i for i, _ in member_claims], dtype=np.int64)
         fixed = fixed_all[idx]
         vals = raw[idx] * conv[idx] * np.where(fixed, 1.0, float(stated_sign))
-        load_pos = np.array([load_names.index(mapping[v.column]) for _, v in member_claims], dtype=np.int64)  # type: ignore[arg-type]
-        comp = ref.member_forces[member_pos[idx], load_pos]  # type: ignore[union-attr]
+        load_pos = np.array([load_names.index(mapping[v.column]) for _, v in member_claims], dtype=np.int64)
+        comp = ref.member_forces[member_pos[idx], load_pos]
         scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names])
         atol_arr = tol.atol_fraction * scale_arr[load_pos]
         best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx], factors=table_factors)
@@ -437,7 +582,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         column_readings=tuple(column_readings),
         stated_sign="" if sign is SignMode.AUTO else sign.value,
     )
+    c.convention, c.effective_sign, c.n, c.scale_arr, c.scale_fit = convention, effective_sign, n, scale_arr, scale_fit
+    c.sign_fit = sign_fit
 
+
+def _rows(c: Comparison) -> None:
+    analysis, case_unit, claims, comparable, conv = c.analysis, c.case_unit, c.claims, c.comparable, c.conv
+    effective_sign, findings, fixed_all, load_names, mapping = c.effective_sign, c.findings, c.fixed_all, c.load_names, c.mapping
+    member_pos, model, n, raw, ref = c.member_pos, c.model, c.n, c.raw, c.ref
+    rounding_unit, scale_fit, scale_of, sign, sign_fit = c.rounding_unit, c.scale_fit, c.scale_of, c.sign, c.sign_fit
+    tol, unit_stated = c.tol, c.unit_stated
     # Per-claim rows.
     rows: list[Row] = []
     claimed_matrix = np.full((len(model.members), len(load_names)), np.nan)
@@ -450,7 +604,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
     rounding_of_row: dict[int, float] = {}  # the rounding allowance of each disagreeing member claim
     # Member claims are judged all at once (arrays); the loop below only assembles rows.
     n_claims = len(claims.values)
-    k_of = np.array([load_names.index(mapping[v.column]) if mapping.get(v.column) else -1  # type: ignore[arg-type]
+    k_of = np.array([load_names.index(mapping[v.column]) if mapping.get(v.column) else -1
                      for v in claims.values], dtype=np.int64)
     is_reaction = np.array([v.reaction is not None for v in claims.values], dtype=bool)
     judged = (member_pos >= 0) & (k_of >= 0) & ~is_reaction
@@ -540,7 +694,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             rounding_of_row[len(rows)] = float(rounding_unit[i]) * abs(scale_fit)
         rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
                         value - computed, status))
+    c.atol_all, c.claimed_matrix, c.computed_arr, c.diffs, c.flagged = atol_all, claimed_matrix, computed_arr, diffs, flagged
+    c.frame_rows, c.frame_written, c.judged, c.k_of, c.n = frame_rows, frame_written, judged, k_of, n
+    c.reaction_claims, c.rounding_matrix, c.rounding_of_row, c.rows, c.seen_pairs = reaction_claims, rounding_matrix, rounding_of_row, rows, seen_pairs
+    c.values = values
 
+
+def _frame(c: Comparison) -> None:
+    atol_all, claims, comparable, computed_arr, frame_rows = c.atol_all, c.claims, c.comparable, c.computed_arr, c.frame_rows
+    frame_written, k_of, load_names, member_pos, model = c.frame_written, c.k_of, c.load_names, c.member_pos, c.model
+    ref, rounding_unit, scale_fit, tol, values = c.ref, c.rounding_unit, c.scale_fit, c.tol, c.values
     # Explain the mismatches: a column left unfilled, a different model (it must explain a clear
     # majority and break nothing: the strictest test, so it goes first), rows shifted (before
     # swapped pairs, which a shifted run imitates on a symmetric truss), swapped pairs, values
@@ -553,22 +716,12 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         frame = ClaimsFrame(model, tuple(load_names), row_at, member_pos[claim_at], k_of[claim_at], values[claim_at],
                             computed_arr[claim_at], atol_all[claim_at], rounding_unit[claim_at] * abs(scale_fit), tol.rtol,
                             tuple(claims.values[int(i)].where for i in claim_at), tuple(frame_written))
+    c.explained, c.frame = explained, frame
 
-    def apply_cause(explainer: Callable[[ClaimsFrame, np.ndarray, Analysis], CauseReport]) -> None:
-        """Run one explainer of verify.compare.causes on the disagreeing rows not yet explained."""
-        if frame is None:
-            return
-        open_rows = [item[0] for item in diffs if item[0] not in explained]
-        pending_mask = np.isin(frame.row, np.array(open_rows, dtype=np.int64))
-        if not pending_mask.any():
-            return
-        report = explainer(frame, pending_mask, analysis)
-        for r in frame.row[report.explained].tolist():
-            rows[r] = _with_status(rows[r], "likely-cause")
-            explained.add(r)
-        findings.extend(report.findings)
-        notes.extend(report.notes)
 
+def _unfilled_columns(c: Comparison) -> None:
+    case_unit, diffs, explained, findings, indeterminate = c.case_unit, c.diffs, c.explained, c.findings, c.indeterminate
+    rows = c.rows
     by_case: dict[str, list[tuple[int, ClaimedValue, float, float, float]]] = {}
     for item in diffs:
         by_case.setdefault(rows[item[0]].case, []).append(item)
@@ -586,11 +739,21 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
                                 f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
                                 Severity.ERROR, case=name))
+    c.by_case = by_case
+
+
+def _model_causes(c: Comparison) -> None:
+    indeterminate = c.indeterminate
     # Likely causes, 1 of 3: a slightly different model (verify.compare.causes).
     if not indeterminate:
-        apply_cause(explain_model)
+        _apply_cause(c, explain_model)
+
+
+def _shifted_and_swapped(c: Comparison) -> None:
+    analysis, by_case, case_unit, explained, findings = c.analysis, c.by_case, c.case_unit, c.explained, c.findings
+    indeterminate, rows, scale_of, tol = c.indeterminate, c.rows, c.scale_of, c.tol
     # Likely causes, 2 of 3: rows shifted against their labels.
-    apply_cause(explain_shifted_rows)
+    _apply_cause(c, explain_shifted_rows)
     for name, items in by_case.items():
         if indeterminate and analysis.assumed_EA is not None:
             continue  # against an assumed EA the elastic forces are no evidence of which value is whose
@@ -606,9 +769,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         low = np.searchsorted(sorted_c, claimed_x - window, side="left")
         high = np.searchsorted(sorted_c, claimed_x + window, side="right")
 
-        def close(x: np.ndarray | float, c: np.ndarray | float, rounding: np.ndarray | float,
+        def close(x: np.ndarray | float, other: np.ndarray | float, rounding: np.ndarray | float,
                   atol: float = atol) -> np.ndarray:
-            return np.abs(x - c) <= np.maximum(np.maximum(tol.rtol * np.maximum(np.abs(x), np.abs(c)), atol), rounding)
+            return np.abs(x - other) <= np.maximum(np.maximum(tol.rtol * np.maximum(np.abs(x), np.abs(other)), atol),
+                                                   rounding)
 
         taken = np.zeros(len(items), dtype=bool)
         for a in range(len(items)):
@@ -632,10 +796,14 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             explained.update((ra, rb))
             for r in (ra, rb):
                 rows[r] = _with_status(rows[r], "swapped-labels")
-            findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "  # type: ignore[arg-type]
+            findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "
                                     f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
                                     f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name,
                                     locations=(va.where, vb.where)))
+
+
+def _swaps_across_columns(c: Comparison) -> None:
+    findings = c.findings
     # The same two rows swapped in several load columns: one finding for the pair, not one per column.
     by_pair: dict[frozenset[str], list[Finding]] = {}
     for f in findings:
@@ -651,6 +819,13 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
                                 "look swapped", Severity.ERROR,
                                 locations=tuple(loc for f in group for loc in f.locations)))
+    c.findings = findings
+
+
+def _combination_factor(c: Comparison) -> None:
+    by_case, explained, findings, indeterminate, model = c.by_case, c.explained, c.findings, c.indeterminate, c.model
+    n, ref, rows, scale_of, slip_ratios = c.n, c.ref, c.rows, c.scale_of, c.slip_ratios
+    tol = c.tol
     # A column whose claims, nearly all, follow another combination of the load cases (a different
     # load or combination factor): one finding that names the combination the claims follow; the
     # claims that do not follow it keep their own findings.
@@ -662,25 +837,35 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             if fit is None:
                 continue
             fitted, defined, agree, n, follows = fit
-            covered = [item for item in pending if model.member_index[item[1].member] in follows]  # type: ignore[index]
+            covered = [item for item in pending if model.member_index[item[1].member] in follows]
             if len(covered) < CAUSE_MIN_EXPLAINED or len(covered) < CAUSE_MAJORITY * len(pending):
                 continue  # a cause must explain a clear majority of the column's differences, never a few
             explained.update(item[0] for item in covered)
-            if name in {c.name for c in model.combinations}:
+            if name in {combo.name for combo in model.combinations}:
                 what = f"not {defined} as the case file combines '{name}': a different combination factor?"
             else:
                 what = f"not the loads of '{name}' in the case file: a different load value or load factor?"
             for item in covered:
                 rows[item[0]] = _with_status(rows[item[0]], "likely-cause")
             left = len([item for item in pending if item not in covered])
-            findings.append(Finding("likely-cause", tuple(item[1].member for item in covered),  # type: ignore[misc]
+            findings.append(Finding("likely-cause", tuple(item[1].member for item in covered),
                                     f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with "
                                     f"it), {what} Its {len(covered)} claim(s) that follow it are marked likely-cause",
                                     Severity.ERROR, case=name, variant=f"'{name}' as {fitted} instead of {defined}",
                                     explains=len(covered), unexplained=left,
                                     locations=tuple(item[1].where for item in covered[:12])))
+    c.n = n
+
+
+def _copies(c: Comparison) -> None:
     # Likely causes, 3 of 3: a value copied from another row.
-    apply_cause(explain_copies)
+    _apply_cause(c, explain_copies)
+
+
+def _indeterminate(c: Comparison) -> None:
+    analysis, case_unit, claimed_matrix, diffs, explained = c.analysis, c.case_unit, c.claimed_matrix, c.diffs, c.explained
+    findings, frame, indeterminate, load_names, model = c.findings, c.frame, c.indeterminate, c.load_names, c.model
+    reaction_claims, rounding_matrix, rows, tol = c.reaction_claims, c.rounding_matrix, c.rows, c.tol
     if indeterminate:
         # Indeterminate: differences in members that carry a state of self-stress are judged by
         # equilibrium (another stiffness assumption is not an error). A member outside every
@@ -698,7 +883,7 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                     explained.add(r)
                 slack_cases = frame.columns_of(mask)
                 findings.append(Finding("likely-cause", frame.member_ids(mask),
-                                        f"the claims in {', '.join(repr(c) for c in slack_cases)} assume {words}: "
+                                        f"the claims in {', '.join(repr(case) for case in slack_cases)} assume {words}: "
                                         f"{int(mask.sum())} claim(s) that differ from the elastic solution agree with it. "
                                         "Confirm the bracing is slender enough to buckle before it carries load",
                                         Severity.INFO, case=slack_cases[0] if len(slack_cases) == 1 else None, variant=words,
@@ -711,10 +896,16 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         # Members judged elsewhere (fixed by statics, or a swapped pair already named) enter the
         # equilibrium search with their recomputed values, so their imbalance is not blamed twice.
         for r, v, _, computed, _ in fixed_by_statics + settled:
-            balance_claims[model.member_index[v.member], load_names.index(rows[r].case)] = computed  # type: ignore[index]
+            balance_claims[model.member_index[v.member], load_names.index(rows[r].case)] = computed
         findings.extend(_explain_indeterminate(analysis, rows, loose, balance_claims, reaction_claims, load_names, tol,
                                                case_unit.symbol, rounding_matrix))
         diffs = fixed_by_statics
+    c.diffs = diffs
+
+
+def _member_reasons(c: Comparison) -> None:
+    case_unit, diffs, explained, findings, named_ratio = c.case_unit, c.diffs, c.explained, c.findings, c.named_ratio
+    rounding_of_row, rows, scale_of, slip_ratios, tol = c.rounding_of_row, c.rows, c.scale_of, c.slip_ratios, c.tol
     for r, v, value, computed, allowed in diffs:
         if r in explained:
             continue
@@ -756,11 +947,18 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                                 Severity.ERROR, case=name, locations=where_written))
 
 
+def _flag(c: Comparison) -> None:
+    findings, flagged, load_names = c.findings, c.flagged, c.load_names
     for f in findings:
         if f.severity is Severity.ERROR:
             for case_name in ([f.case] if f.case else load_names):  # a finding without a case spans them all
                 flagged.setdefault(case_name, set()).update(f.members)
 
+
+def _self_check(c: Comparison) -> None:
+    claims, findings, flagged, judged, k_of = c.claims, c.findings, c.flagged, c.judged, c.k_of
+    member_pos, model, rounding_unit, scale_fit, tol = c.member_pos, c.model, c.rounding_unit, c.scale_fit, c.tol
+    values = c.values
     # The claims against themselves: combination columns against the table's own case columns. Where
     # every member it names is already an error in some column, it corroborates (information).
     own = np.flatnonzero(judged)
@@ -771,6 +969,10 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             f = dataclasses.replace(f, severity=Severity.INFO)
         findings.append(f)
 
+
+def _missing_claims(c: Comparison) -> None:
+    analysis, findings, load_names, model = c.analysis, c.findings, c.load_names, c.model
+    rows, seen_pairs = c.rows, c.seen_pairs
     # Missing claims (informational), per load column that has claims; load columns missing the
     # same members share one finding.
     checked_cases = tuple(n for n in load_names if any(c == n for _, c in seen_pairs))
@@ -799,7 +1001,13 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
                     s_val = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
                     sv = s_val if np.isfinite(s_val) else None
                 rows.append(Row(mid, "member", name, None, "", jv, sv, g, e, None, "missing-claim"))
+    c.checked_cases = checked_cases
 
+
+def _balance(c: Comparison) -> None:
+    case_unit, claimed_matrix, findings, flagged, load_names = c.case_unit, c.claimed_matrix, c.findings, c.flagged, c.load_names
+    model, notes, reaction_claims, ref, rounding_matrix = c.model, c.notes, c.reaction_claims, c.ref, c.rounding_matrix
+    stab, tol = c.stab, c.tol
     # Equilibrium of the claims themselves.
     imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix)
     checkable = checkable_joints(model, claimed_matrix, load_names)
@@ -829,6 +1037,13 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
             text = "; ".join(f"joint {b.joint} in '{b.case}' is out of balance by {fmt(b.size, 3)} {case_unit.symbol}" for b in worst)
             findings.append(Finding("equilibrium-residual", tuple(sorted({m for b in listed for m in b.members}))[:40],
                                     f"the claimed forces stop balancing at {len(listed)} joint(s): {text}", Severity.ERROR))
+    c.imbalances, c.implied = imbalances, implied
+
+
+def _finish(c: Comparison) -> None:
+    analysis, checked_cases, claims, convention, findings = c.analysis, c.checked_cases, c.claims, c.convention, c.findings
+    imbalances, implied, notes, ref, rows = c.imbalances, c.implied, c.notes, c.ref, c.rows
+    seen_pairs, stab, tol = c.seen_pairs, c.stab, c.tol
     checked_members = len({mid for mid, _ in seen_pairs})
     findings = ordered(findings)
     verdict = _verdict(findings, stab.classification, ref is not None)
@@ -836,8 +1051,53 @@ def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = 
         notes.append("no claim could be matched to a member and load case of the model")
         if verdict is Verdict.AGREES:
             verdict = Verdict.CANNOT_VERIFY
-    return Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
+    c.review = Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
                   checked_members, tuple(imbalances), tuple(notes), implied=implied)
+
+
+
+# The comparison, step by step (each sees what the earlier ones left unexplained).
+STEPS = (
+    _start,
+    _structure,
+    _labels,
+    _units,
+    _gather,
+    _case_mismatch,
+    _column_readings,
+    _table_convention,
+    _rows,
+    _frame,
+    _unfilled_columns,
+    _model_causes,
+    _shifted_and_swapped,
+    _swaps_across_columns,
+    _combination_factor,
+    _copies,
+    _indeterminate,
+    _member_reasons,
+    _flag,
+    _self_check,
+    _missing_claims,
+    _balance,
+    _finish,
+)
+
+
+def _apply_cause(c: Comparison, explainer: Callable[[ClaimsFrame, np.ndarray, Analysis], CauseReport]) -> None:
+    """Run one explainer of verify.compare.causes on the disagreeing rows not yet explained."""
+    if c.frame is None:
+        return
+    open_rows = [item[0] for item in c.diffs if item[0] not in c.explained]
+    pending_mask = np.isin(c.frame.row, np.array(open_rows, dtype=np.int64))
+    if not pending_mask.any():
+        return
+    report = explainer(c.frame, pending_mask, c.analysis)
+    for r in c.frame.row[report.explained].tolist():
+        c.rows[r] = _with_status(c.rows[r], "likely-cause")
+        c.explained.add(r)
+    c.findings.extend(report.findings)
+    c.notes.extend(report.notes)
 
 
 def _self_stress_members(analysis: Analysis) -> set[str] | None:

@@ -12,6 +12,46 @@ class Severity(StrEnum):
     INFO = "info"  # worth knowing, never changes the verdict by itself
 
 
+class FindingKind(StrEnum):
+    """Every finding kind (the JSON `kind`); a StrEnum, so each compares equal to its string."""
+
+    MECHANISM = "mechanism"
+    LIKELY_CAUSE = "likely-cause"
+    INCONSISTENT_COMBINATION = "inconsistent-combination"
+    EQUILIBRIUM_RESIDUAL = "equilibrium-residual"
+    VALUE_MISMATCH = "value-mismatch"
+    CASE_MISMATCH = "case-mismatch"
+    TABLE_SIGN_CONVENTION = "table-sign-convention"
+    UNIT_SCALE = "unit-scale"
+    SWAPPED_LABELS = "swapped-labels"
+    SIGN_FLIP = "sign-flip"
+    ZERO_FORCE_CLAIMED = "zero-force-claimed"
+    UNKNOWN_LABEL = "unknown-label"
+    NOT_ELASTIC = "not-elastic"
+    ILL_CONDITIONED = "ill-conditioned"
+    INDETERMINATE = "indeterminate"
+    MISSING_CLAIM = "missing-claim"
+    DISPLACEMENT_MISMATCH = "displacement-mismatch"
+
+
+class RowStatus(StrEnum):
+    """Every status a compared row can take (the JSON `status` of members and reactions)."""
+
+    AGREES = "agrees"
+    VALUE_MISMATCH = "value-mismatch"
+    LIKELY_CAUSE = "likely-cause"  # explained by a likely-cause finding (a different model or table slip)
+    TENSION_ONLY = "tension-only"  # the statics of the truss without its slack diagonals (information)
+    SIGN_FLIP = "sign-flip"
+    TABLE_SIGN_CONVENTION = "table-sign-convention"
+    UNIT_SCALE = "unit-scale"
+    SWAPPED_LABELS = "swapped-labels"
+    ZERO_FORCE_CLAIMED = "zero-force-claimed"
+    NOT_ELASTIC = "not-elastic"
+    NOT_VERIFIABLE = "not-verifiable"
+    MISSING_CLAIM = "missing-claim"
+    DISPLACEMENT_MISMATCH = "displacement-mismatch"
+
+
 @dataclass(frozen=True)
 class Kind:
     name: str
@@ -19,7 +59,7 @@ class Kind:
     rank: int  # lower is more serious, for ordering findings
 
 
-KINDS: dict[str, Kind] = {k.name: k for k in (
+KINDS: dict[str, Kind] = {k.name: k for k in (  # the heading and rank of every FindingKind
     Kind("mechanism", "The truss is unstable (mechanism)", 0),
     Kind("likely-cause", "A different model explains the claims", 0),
     Kind("inconsistent-combination", "Combination column contradicts the table's own load-case columns", 1),
@@ -59,13 +99,14 @@ class Finding:
     def __post_init__(self) -> None:
         if self.kind not in KINDS:
             raise ValueError(f"unknown finding kind {self.kind!r}")
+        object.__setattr__(self, "kind", FindingKind(self.kind))
 
     @property
     def title(self) -> str:
         return KINDS[self.kind].title
 
     def as_dict(self) -> dict[str, object]:
-        out: dict[str, object] = {"kind": self.kind, "members": list(self.members), "detail": self.detail,
+        out: dict[str, object] = {"kind": str(self.kind), "members": list(self.members), "detail": self.detail,
                                   "severity": self.severity.value}
         if self.case is not None:
             out["case"] = self.case
