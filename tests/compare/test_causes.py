@@ -345,3 +345,19 @@ def test_every_finding_kind_and_status_is_named_once():
     review = review_of(bridge(), claims)
     assert {r.status for r in review.rows} <= {s.value for s in RowStatus}
     assert all(isinstance(f.kind, FindingKind) for f in review.findings)
+
+
+def test_three_mistakes_in_the_bridge_are_three_findings():
+    """Traffic on the wrong chord, the wrong dead-load factor and a value copied from the row
+    above: three error findings, each naming its cause (not dozens of per-member findings)."""
+    variant = bridge()
+    variant["loads"]["traffic"] = {f"U{i}": [0.0, -TRAFFIC] for i in range(1, PANELS)}
+    variant["combinations"] = {"ULS": {"dead": 1.5, "traffic": 1.5}}
+    claims = claims_of(variant)
+    claims["dead"]["U3L4"] = claims["dead"]["U2L3"]
+    review = review_of(bridge(), claims)
+    found = errors(review)
+    assert [f.kind for f in found] == ["likely-cause"] * 3
+    variants = " | ".join(f.variant for f in found)
+    assert "1.5 × dead instead of 1.35 × dead" in variants and "directly above" in variants
+    assert "copied from that row" in variants

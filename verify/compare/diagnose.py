@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import dataclasses
 import re
+import shlex
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -915,11 +916,13 @@ def _member_reasons(c: Comparison) -> None:
         written_at = f" [written {rows[r].written}]"
         atol = tol.atol_fraction * scale_of.get(name, 0.0)
         where_written = (v.where,)
+        next_step = (f"truss-verify solve {shlex.quote(c.model.source)} --show joints --case {shlex.quote(name)}"
+                     if c.model.source else None)
         if abs(computed) <= atol:
             rows[r] = _with_status(rows[r], "zero-force-claimed")
             findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {fmt(value)} {case_unit.symbol}, "
                                     "but it is a zero-force member under this loading" + written_at, Severity.ERROR, case=name,
-                                    locations=where_written))
+                                    locations=where_written, next_step=next_step))
             continue
         # A sign flip: opposite signs and the same size, within the relative tolerance or the
         # claim's own rounding (never the absolute allowance, and never a claimed zero: 0.00 for
@@ -930,7 +933,7 @@ def _member_reasons(c: Comparison) -> None:
             how = "the T/C mark" if v.sign_fixed else "the sign"
             findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {fmt(value)} but recomputed {fmt(computed)} "
                                     f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name,
-                                    locations=where_written))
+                                    locations=where_written, next_step=next_step))
             continue
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol, slip_ratios)
@@ -939,12 +942,12 @@ def _member_reasons(c: Comparison) -> None:
             findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
                                     f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {named_ratio(unit_factor)}"
                                     + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name,
-                                    locations=where_written))
+                                    locations=where_written, next_step=next_step))
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
         findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
                                 f"{case_unit.symbol} (difference {'+' if value >= computed else '-'}{fmt(abs(value - computed))}, {pct:.1f} %; allowed {fmt(allowed, 3)})" + written_at,
-                                Severity.ERROR, case=name, locations=where_written))
+                                Severity.ERROR, case=name, locations=where_written, next_step=next_step))
 
 
 def _flag(c: Comparison) -> None:
