@@ -206,8 +206,6 @@ class Comparison(SimpleNamespace):
 # Names the steps share (None until the step that sets them has run).
 SHARED = (
     "atol_all",
-    "atol_arr",
-    "best",
     "by_case",
     "case_unit",
     "checked_cases",
@@ -215,7 +213,6 @@ SHARED = (
     "column_of_claim",
     "column_readings",
     "columns",
-    "comp",
     "comparable",
     "computed_arr",
     "conv",
@@ -229,8 +226,6 @@ SHARED = (
     "frame",
     "frame_rows",
     "frame_written",
-    "identity",
-    "idx",
     "imbalances",
     "implied",
     "indeterminate",
@@ -242,7 +237,6 @@ SHARED = (
     "member_claims",
     "member_pos",
     "model",
-    "n",
     "named_factor",
     "named_ratio",
     "notes",
@@ -253,7 +247,6 @@ SHARED = (
     "rounding_of_row",
     "rounding_unit",
     "rows",
-    "scale_arr",
     "scale_fit",
     "scale_of",
     "seen_pairs",
@@ -262,11 +255,9 @@ SHARED = (
     "stab",
     "table_factors",
     "tol",
-    "told",
     "unit_label",
     "unit_source",
     "unit_stated",
-    "vals",
     "values",
 )
 
@@ -413,10 +404,10 @@ def _gather(c: Comparison) -> None:
 
 
 def _case_mismatch(c: Comparison) -> None:
-    atol_arr, best, claims, columns, comp = c.atol_arr, c.best, c.claims, c.columns, c.comp
-    comparable, conv, findings, fixed_all, idx = c.comparable, c.conv, c.findings, c.fixed_all, c.idx
+    claims, columns = c.claims, c.columns
+    comparable, conv, findings, fixed_all = c.comparable, c.conv, c.findings, c.fixed_all
     load_names, mapping, member_pos, raw, ref = c.load_names, c.mapping, c.member_pos, c.raw, c.ref
-    rounding_unit, scale_of, tol, vals = c.rounding_unit, c.scale_of, c.tol, c.vals
+    rounding_unit, scale_of, tol = c.rounding_unit, c.scale_of, c.tol
     # Case mismatch: a column that fits another load column much better than its own.
     remap: dict[str, str] = {}
     if comparable and ref is not None:
@@ -452,17 +443,15 @@ def _case_mismatch(c: Comparison) -> None:
                                     f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR))
     mapping.update(remap)
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
-    c.atol_arr, c.best, c.comp, c.idx, c.member_claims = atol_arr, best, comp, idx, member_claims
-    c.vals = vals
+    c.member_claims = member_claims
 
 
 def _column_readings(c: Comparison) -> None:
-    atol_arr, best, case_unit, claims, column_of_claim = c.atol_arr, c.best, c.case_unit, c.claims, c.column_of_claim
-    column_readings, columns, comp, comparable, conv = c.column_readings, c.columns, c.comp, c.comparable, c.conv
-    findings, fixed_all, identity, idx, is_member_claim = c.findings, c.fixed_all, c.identity, c.idx, c.is_member_claim
+    case_unit, claims, column_of_claim = c.case_unit, c.claims, c.column_of_claim
+    column_readings, columns, comparable, conv = c.column_readings, c.columns, c.comparable, c.conv
+    findings, fixed_all, is_member_claim = c.findings, c.fixed_all, c.is_member_claim
     load_names, mapping, member_claims, member_pos, raw = c.load_names, c.mapping, c.member_claims, c.member_pos, c.raw
     ref, rounding_unit, scale_of, table_factors, tol = c.ref, c.rounding_unit, c.scale_of, c.table_factors, c.tol
-    told = c.told
     # Columns read differently from the rest of the table (one column in N beside kN columns, or
     # written with the opposite sign): each is brought to the table's common reading and said once
     # per column, instead of one unit-scale or sign-flip finding per member (or false swaps).
@@ -516,15 +505,13 @@ def _column_readings(c: Comparison) -> None:
                                             f"{best.agree} of {best.informative} members agree with every sign in it reversed "
                                             f"({identity.agree} as written); it is read reversed: confirm which convention "
                                             "each column uses", Severity.ERROR, case=mapping.get(column)))
-    c.atol_arr, c.best, c.comp, c.identity, c.idx = atol_arr, best, comp, identity, idx
-    c.told = told
 
 
 def _table_convention(c: Comparison) -> None:
     case_unit, column_readings, comparable, conv, findings = c.case_unit, c.column_readings, c.comparable, c.conv, c.findings
     fixed_all, indeterminate, load_names, mapping, member_claims = c.fixed_all, c.indeterminate, c.load_names, c.mapping, c.member_claims
-    member_pos, model, n, named_factor, raw = c.member_pos, c.model, c.n, c.named_factor, c.raw
-    ref, rounding_unit, scale_arr, scale_of, sign = c.ref, c.rounding_unit, c.scale_arr, c.scale_of, c.sign
+    member_pos, model, named_factor, raw = c.member_pos, c.model, c.named_factor, c.raw
+    ref, rounding_unit, scale_of, sign = c.ref, c.rounding_unit, c.scale_of, c.sign
     table_factors, tol, unit_label, unit_source, unit_stated = c.table_factors, c.tol, c.unit_label, c.unit_source, c.unit_stated
     # Table convention.
     sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
@@ -583,14 +570,14 @@ def _table_convention(c: Comparison) -> None:
         column_readings=tuple(column_readings),
         stated_sign="" if sign is SignMode.AUTO else sign.value,
     )
-    c.convention, c.effective_sign, c.n, c.scale_arr, c.scale_fit = convention, effective_sign, n, scale_arr, scale_fit
+    c.convention, c.effective_sign, c.scale_fit = convention, effective_sign, scale_fit
     c.sign_fit = sign_fit
 
 
 def _rows(c: Comparison) -> None:
     analysis, case_unit, claims, comparable, conv = c.analysis, c.case_unit, c.claims, c.comparable, c.conv
     effective_sign, findings, fixed_all, load_names, mapping = c.effective_sign, c.findings, c.fixed_all, c.load_names, c.mapping
-    member_pos, model, n, raw, ref = c.member_pos, c.model, c.n, c.raw, c.ref
+    member_pos, model, raw, ref = c.member_pos, c.model, c.raw, c.ref
     rounding_unit, scale_fit, scale_of, sign, sign_fit = c.rounding_unit, c.scale_fit, c.scale_of, c.sign, c.sign_fit
     tol, unit_stated = c.tol, c.unit_stated
     # Per-claim rows.
@@ -696,7 +683,7 @@ def _rows(c: Comparison) -> None:
         rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
                         value - computed, status))
     c.atol_all, c.claimed_matrix, c.computed_arr, c.diffs, c.flagged = atol_all, claimed_matrix, computed_arr, diffs, flagged
-    c.frame_rows, c.frame_written, c.judged, c.k_of, c.n = frame_rows, frame_written, judged, k_of, n
+    c.frame_rows, c.frame_written, c.judged, c.k_of = frame_rows, frame_written, judged, k_of
     c.reaction_claims, c.rounding_matrix, c.rounding_of_row, c.rows, c.seen_pairs = reaction_claims, rounding_matrix, rounding_of_row, rows, seen_pairs
     c.values = values
 
@@ -825,7 +812,7 @@ def _swaps_across_columns(c: Comparison) -> None:
 
 def _combination_factor(c: Comparison) -> None:
     by_case, explained, findings, indeterminate, model = c.by_case, c.explained, c.findings, c.indeterminate, c.model
-    n, ref, rows, scale_of, slip_ratios = c.n, c.ref, c.rows, c.scale_of, c.slip_ratios
+    ref, rows, scale_of, slip_ratios = c.ref, c.rows, c.scale_of, c.slip_ratios
     tol = c.tol
     # A column whose claims, nearly all, follow another combination of the load cases (a different
     # load or combination factor): one finding that names the combination the claims follow; the
@@ -855,7 +842,6 @@ def _combination_factor(c: Comparison) -> None:
                                     Severity.ERROR, case=name, variant=f"'{name}' as {fitted} instead of {defined}",
                                     explains=len(covered), unexplained=left,
                                     locations=tuple(item[1].where for item in covered[:12])))
-    c.n = n
 
 
 def _copies(c: Comparison) -> None:
