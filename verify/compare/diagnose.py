@@ -431,16 +431,17 @@ def _case_mismatch(c: Comparison) -> None:
                     # Only the name differs ("DL" for "dead"): worth saying, not an error.
                     findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model; "
                                             f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
-                                            Severity.INFO, case=top))
+                                            Severity.INFO, case=top, locations=_column_where(claims, column)))
                 else:
                     findings.append(Finding("case-mismatch", (), f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
                                             f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
-                                            Severity.ERROR, case=top))
+                                            Severity.ERROR, case=top, locations=_column_where(claims, column)))
                 remap[column] = top
     for column, target in mapping.items():
         if target is None and column not in remap:
             findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model "
-                                    f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR))
+                                    f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR,
+                                    locations=_column_where(claims, column)))
     mapping.update(remap)
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
     c.member_claims = member_claims
@@ -495,7 +496,7 @@ def _column_readings(c: Comparison) -> None:
                     findings.append(Finding("unit-scale", (), f"claims column '{column}' reads {reading}, and {told}: "
                                             f"{best.agree} of {best.informative} members agree when it is read so "
                                             f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
-                                            Severity.ERROR, case=mapping.get(column)))
+                                            Severity.ERROR, case=mapping.get(column), locations=_column_where(claims, column)))
                 if rel_sign == -1:
                     flipped = in_column & ~fixed_all & is_member_claim
                     conv[flipped] *= -1.0  # T/C marks and reactions keep their own sign
@@ -504,7 +505,8 @@ def _column_readings(c: Comparison) -> None:
                                             "opposite sign convention to the rest of the table: "
                                             f"{best.agree} of {best.informative} members agree with every sign in it reversed "
                                             f"({identity.agree} as written); it is read reversed: confirm which convention "
-                                            "each column uses", Severity.ERROR, case=mapping.get(column)))
+                                            "each column uses", Severity.ERROR, case=mapping.get(column),
+                                            locations=_column_where(claims, column)))
 
 
 def _table_convention(c: Comparison) -> None:
@@ -1071,6 +1073,11 @@ STEPS = (
     _balance,
     _finish,
 )
+
+
+def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:
+    """Where a column's claims begin (the first claim of the column), for column-level findings."""
+    return tuple(v.where for v in claims.values if v.column == column)[:1]
 
 
 def _apply_cause(c: Comparison, explainer: Callable[[ClaimsFrame, np.ndarray, Analysis], CauseReport]) -> None:
