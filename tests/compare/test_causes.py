@@ -361,3 +361,16 @@ def test_three_mistakes_in_the_bridge_are_three_findings():
     variants = " | ".join(f.variant for f in found)
     assert "1.5 × dead instead of 1.35 × dead" in variants and "directly above" in variants
     assert "copied from that row" in variants
+
+
+def test_both_supports_pinned_is_named_with_the_thrust_each_column_carries():
+    """The consultant pinned both ends (an indeterminate model, EA given there): by statics the
+    claims are the case file's forces plus a thrust between the supports, fitted per column."""
+    case = bridge()
+    variant = copy.deepcopy(case)
+    variant["supports"] = {"L0": ["x", "y"], f"L{PANELS}": ["x", "y"]}
+    variant["members"] = {k: {"ends": v, "EA": 2.0e5} for k, v in variant["members"].items()}
+    review = review_of(case, claims_of(variant))
+    (cause,) = causes(review)
+    assert cause.joints == (f"L{PANELS}",) and f"L{PANELS} restrained along x as well" in cause.variant
+    assert cause.unexplained == 0 and [f.kind for f in errors(review)] == ["likely-cause"]

@@ -172,7 +172,9 @@ def test_column_with_another_cases_values():
     analysis = analyse(model)
     claims = true_claims(analysis)
     review = compare_claims(analysis, table({"dead": claims["snow"]}))
-    assert "case-mismatch" in kinds(review)
+    (cause,) = [f for f in review.findings if f.kind == "likely-cause"]
+    assert cause.variant == "the column labelled 'dead' holding the forces of 'snow'" and cause.case == "snow"
+    assert cause.locations == ("row 2, column 'dead'",)
 
 
 def test_near_miss_column_matching_its_case():

@@ -433,9 +433,11 @@ def _case_mismatch(c: Comparison) -> None:
                                             f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
                                             Severity.INFO, case=top, locations=_column_where(claims, column)))
                 else:
-                    findings.append(Finding("case-mismatch", (), f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
+                    # A column holding another load column's forces is a cause a checker names.
+                    findings.append(Finding("likely-cause", (), f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
                                             f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
-                                            Severity.ERROR, case=top, locations=_column_where(claims, column)))
+                                            Severity.ERROR, case=top, locations=_column_where(claims, column),
+                                            variant=f"the column labelled '{named}' holding the forces of '{top}'"))
                 remap[column] = top
     for column, target in mapping.items():
         if target is None and column not in remap:

@@ -154,7 +154,7 @@ def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.
         kept = explained | (agreed & ~start)
         misfit = float((((frame.claimed - computed) / frame.allowed(computed))[kept] ** 2).sum())
         found.append(_Found(n, misfit, variant, explained, []))
-    found.sort(key=lambda f: (-f.explains, f.misfit))
+    found.sort(key=lambda f: (-f.explains, f.variant.fitted, f.misfit))
     out: list[_Found] = []
     for f in found:
         # Variants that explain the very same claims (a deeper truss, or a shorter span, under
@@ -174,6 +174,7 @@ def _candidates(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analy
     yield from _load_variants(frame, pending, base, analysis, notes)
     if geometry:
         yield from _support_variants(frame, base, analysis)
+        yield from _added_restraint_variants(frame, pending, base, analysis)
         yield from _dimension_variants(frame, pending, base, analysis)
 
 
@@ -206,7 +207,7 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
                     words = f"'{case.name}' added to '{combo.name}' with factor {fmt(new, 3)}"
                 else:
                     words = f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name}"
-                yield Variant("combination-factor", words, (new - old) * unit, combo.name, (), new)
+                yield Variant("combination-factor", words, (new - old) * unit, combo.name, (), new, fitted=True)
 
 
 def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str]):
@@ -260,7 +261,7 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     # Round sizes to try per change: the change itself (1) or, for fitted ones, round factors near
     # the median ratio of what is missing to one unit of the change.
     fitted = np.concatenate([np.array([ch.fitted for ch in whole], dtype=bool), singles.target < 0])
-    usable = np.abs(unit) > frame.atol[sample][:, None]
+    usable = np.abs(unit) > 1e-3 * np.maximum(np.abs(unit).max(axis=0), 1e-300)[None, :]
     with np.errstate(divide="ignore", invalid="ignore"):
         ratios = np.where(usable, target[:, None] / unit, np.nan)
     enough = usable.sum(axis=0) >= 2
@@ -299,7 +300,7 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
         shift = dt[frame.member] * C[change.case, frame.column]
         words = change.words(1.0 + size) if callable(change.words) else change.words
         yield Variant(change.kind, words, shift, model.cases[change.case].name, change.joints,
-                      1.0 + size if change.fitted else None)
+                      1.0 + size if change.fitted else None, fitted=change.fitted)
 
 
 def _round_to(values: np.ndarray, digits: int) -> np.ndarray:
@@ -335,6 +336,52 @@ def _support_variants(frame: ClaimsFrame, base: np.ndarray, analysis: Analysis):
         if t is None:
             continue
         yield Variant("support-moved", words, t[frame.member, where] - frame.computed, None, joints)
+
+
+def _added_restraint_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+    """A support restrained in one more direction (a roller taken as a pin, say).
+
+    The truss then has one state of self-stress: adding a reaction r along e at a joint gives
+    member forces t = t0 + r s with s = -A^-1 e (statics, whatever the stiffness). So each load
+    column's claims may carry any multiple of s: the size r (the thrust between the supports) is
+    fitted per column from its disagreeing claims; the claims are then explained by statics alone.
+    """
+    from verify.analysis.global_solve import equilibrium_lu
+
+    model = analysis.model
+    d = model.dim
+    restrained: dict[str, set[str]] = {}
+    for r in model.reactions:
+        restrained.setdefault(r.joint, set()).add(r.axis)
+    lu = equilibrium_lu(model)
+    axes = "xyz"[:d]
+    target = frame.claimed - frame.computed - base
+    for joint, have in list(restrained.items())[:8]:
+        if "n" in have:
+            continue  # an inclined roller: its other direction is not a plain axis
+        for a, axis in enumerate(axes):
+            if axis in have:
+                continue
+            e = np.zeros(lu.shape[0])
+            e[model.joint_index[joint] * d + a] = 1.0
+            s = -lu.solve(e)[: len(model.members)]
+            unit = s[frame.member]
+            shift = np.zeros(len(frame))
+            thrusts = []
+            for k in np.unique(frame.column[pending]).tolist():
+                in_column = frame.column == k
+                size = fit_scale(frame, target, np.where(in_column, unit, 0.0), pending & in_column)
+                if size is None:
+                    continue
+                size = float(_round_to(np.array([size]), 3)[0])
+                shift = np.where(in_column, size * unit, shift)
+                thrusts.append(f"{fmt(size, 3)} in '{frame.load_names[k]}'")
+            if not thrusts:
+                continue
+            words = (f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case file): a support "
+                     f"reaction along {axis} of {', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
+                     f"{model.units.force.symbol}, which sets up forces the case file's supports do not")
+            yield Variant("support-added", words, shift, None, (joint,), fitted=True)
 
 
 def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
@@ -376,4 +423,4 @@ def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarra
             letter, name = AXIS_NAMES[axis]
             words = (f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} {length} "
                      f"(every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})")
-            yield Variant("dimension", words, shift, None, (), new_extent / extent)
+            yield Variant("dimension", words, shift, None, (), new_extent / extent, fitted=True)

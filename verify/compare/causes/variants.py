@@ -47,6 +47,8 @@ class Variant(NamedTuple):
     case: str | None = None
     joints: tuple[str, ...] = ()
     factor: float | None = None
+    fitted: bool = False  # a size fitted to the claims (a factor, a dimension, a thrust): on a tie,
+    #                       a change with nothing fitted is the plainer explanation
 
 
 class LoadChange(NamedTuple):
@@ -278,7 +280,9 @@ def nice_factors(value: float) -> list[float]:
 
 def fit_scale(frame: ClaimsFrame, target: np.ndarray, unit: np.ndarray, pending: np.ndarray) -> float | None:
     """The size s with claimed ≈ computed + s·unit at most disagreeing claims (median ratio)."""
-    usable = pending & (np.abs(unit) > frame.atol)
+    # Claims the change reaches at all (its size per unit may be far below the force tolerance:
+    # one kN of thrust against chord forces of hundreds)
+    usable = pending & (np.abs(unit) > 1e-3 * (float(np.abs(unit).max()) or 1.0))
     if usable.sum() < 2:
         return None
     ratios = target[usable] / unit[usable]
