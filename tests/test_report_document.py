@@ -38,7 +38,7 @@ from verify.report.handcalc_html import exact_values
 
 ROOT = Path(__file__).resolve().parent.parent
 GOLDEN = Path(__file__).resolve().parent / "golden"
-CASES = ("canal-footbridge", "mezzanine-roof", "conveyor-gantry", "sign-bracket")
+CASES = ("canal-footbridge", "mezzanine-roof", "conveyor-gantry", "sign-bracket", "service-road-overbridge")
 GOLDEN_RTOL = 1e-6  # numbers in a golden report may move by round-off only
 STATICS_RTOL = 1e-3  # golden numbers are printed to 4 significant figures
 DATE = "2000-01-01"

@@ -19,6 +19,7 @@ from verify.formatting import fmt
 from verify.model import Model
 
 SHOWN = 12
+OWN_FACTOR_ODD_SHARE = 0.1  # rows that may contradict the factors a combination column was made with
 
 
 def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, claimed: np.ndarray,
@@ -70,7 +71,10 @@ def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, cla
                 f"{len(bad)} of {int(rows.sum())} members ({shown})")
         if own is not None and not np.allclose(own, defined):
             fitted = " + ".join(f"{fmt(float(f), 3)} × {model.cases[c].name}" for f, c in zip(own, cases, strict=True))
-            text += f"; the column is {fitted} of them throughout: the table combines with other factors"
+            odd = [ids[i] for i in np.flatnonzero(contradicting(own))]
+            besides = (f" (except {', '.join(odd[:SHOWN])}: {'it contradicts' if len(odd) == 1 else 'they contradict'} "
+                       "the table either way)") if odd else " throughout"
+            text += f"; the column is {fitted} of them{besides}: the table combines with other factors"
         else:
             text += ": those rows contradict the table's own load-case values"
         members = np.flatnonzero(rows)[wrong]
@@ -84,10 +88,16 @@ def _own_factors(parts: np.ndarray, combo: np.ndarray,
     """Round factors with which the combination column is consistent with its own cases, if any."""
     if parts.shape[0] < parts.shape[1] + 2:
         return None
-    fitted = np.linalg.lstsq(parts, combo, rcond=None)[0]
-    choices = [nice_factors(float(f)) or [0.0] for f in fitted]
-    for depth in range(3):  # plainest first: 1, then 2, then 3 significant figures
-        picked = np.array([c[min(depth, len(c) - 1)] for c in choices])
-        if not contradicting(picked).any():
-            return picked
+    # a row or two may be wrong on their own (a copied value): fit, drop the worst row, refit
+    allowed_odd = max(1, int(OWN_FACTOR_ODD_SHARE * len(combo)))
+    keep = np.ones(len(combo), dtype=bool)
+    for _ in range(allowed_odd + 1):
+        fitted = np.linalg.lstsq(parts[keep], combo[keep], rcond=None)[0]
+        choices = [nice_factors(float(f)) or [0.0] for f in fitted]
+        for depth in range(3):  # plainest first: 1, then 2, then 3 significant figures
+            picked = np.array([c[min(depth, len(c) - 1)] for c in choices])
+            if contradicting(picked).sum() <= allowed_odd:
+                return picked
+        residual = np.where(keep, np.abs(combo - parts @ fitted), -1.0)
+        keep[int(np.argmax(residual))] = False
     return None
