@@ -153,20 +153,27 @@ class ReviewResult:
     def findings(self) -> pd.DataFrame:
         import pandas as pd
 
+        columns = ["severity", "kind", "title", "case", "members", "detail", "variant", "explains", "unexplained",
+                   "factor", "joints", "locations", "next_step"]
         records = [
             {
                 "severity": f.severity.value,
-                "kind": f.kind,
+                "kind": str(f.kind),
                 "title": f.title,
                 "case": f.case,
                 "members": ", ".join(f.members),
                 "detail": f.detail,
+                "variant": f.variant,
+                "explains": f.explains,
+                "unexplained": f.unexplained,
+                "factor": f.factor,
+                "joints": ", ".join(f.joints),
+                "locations": "; ".join(f.locations),
+                "next_step": f.next_step,
             }
             for f in self.review.findings
         ]
-        return pd.DataFrame.from_records(
-            records, columns=["severity", "kind", "title", "case", "members", "detail"]
-        )
+        return pd.DataFrame.from_records(records, columns=columns)
 
     def _rows(self, kind: str) -> pd.DataFrame:
         import pandas as pd
