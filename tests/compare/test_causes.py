@@ -374,3 +374,13 @@ def test_both_supports_pinned_is_named_with_the_thrust_each_column_carries():
     (cause,) = causes(review)
     assert cause.joints == (f"L{PANELS}",) and f"L{PANELS} restrained along x as well" in cause.variant
     assert cause.unexplained == 0 and [f.kind for f in errors(review)] == ["likely-cause"]
+
+
+def test_wind_reversed_in_a_combination_is_named():
+    """Wind suction taken as pressure in the combination only: the factor's sign is the cause."""
+    case = barn_roof()
+    case["combinations"] = {"ULS": {"dead": 1.35, "wind": 1.5}}
+    variant = copy.deepcopy(case)
+    variant["combinations"] = {"ULS": {"dead": 1.35, "wind": -1.5}}
+    (cause,) = causes(review_of(case, claims_of(variant)))
+    assert cause.factor == -1.5 and "('wind' in the opposite direction)" in cause.variant

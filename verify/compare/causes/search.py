@@ -43,7 +43,8 @@ FIRST_CHOICES = 4
 SOLVE_BUDGET = 4e7  # entries of the LU factors touched by the transposed solves of one round
 MIN_SAMPLE = 12
 LOAD_FACTOR_RANGE = (-2.0, 10.0)  # a load taken as f times its value: plausible slips only
-COMBINATION_FACTOR_RANGE = (0.0, 5.0)  # partial factors of common practice lie well inside
+COMBINATION_FACTOR_RANGE = (-5.0, 5.0)  # partial factors of common practice lie well inside; a
+#                                        negative one is a case taken in the opposite direction
 SAMPLE_SHARE = 0.1  # of the sampled disagreeing claims, the share a load change must explain to be solved
 ALIKE = "; or, equally for these claims, "
 MAX_ALIKE = 2  # other readings named beside the closest  # first causes whose chains are followed
@@ -205,6 +206,9 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
                     words = f"'{case.name}' left out of '{combo.name}'"
                 elif old == 0:
                     words = f"'{case.name}' added to '{combo.name}' with factor {fmt(new, 3)}"
+                elif new * old < 0:
+                    words = (f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name} "
+                             f"('{case.name}' in the opposite direction)")
                 else:
                     words = f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name}"
                 yield Variant("combination-factor", words, (new - old) * unit, combo.name, (), new, fitted=True)

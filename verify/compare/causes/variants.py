@@ -237,6 +237,8 @@ class Singles(NamedTuple):
 
 def _case_scaled_words(case: str) -> Callable[[float], str]:
     def words(f: float) -> str:
+        if abs(f + 1.0) < 1e-9:
+            return f"the '{case}' loads applied in the opposite direction (suction for pressure, uplift for down)"
         return f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or a load factor applied to the case)"
     return words
 
