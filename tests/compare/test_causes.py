@@ -384,3 +384,18 @@ def test_wind_reversed_in_a_combination_is_named():
     variant["combinations"] = {"ULS": {"dead": 1.35, "wind": -1.5}}
     (cause,) = causes(review_of(case, claims_of(variant)))
     assert cause.factor == -1.5 and "('wind' in the opposite direction)" in cause.variant
+
+
+def test_implied_loads_work_without_a_recomputed_force():
+    """Doubled diagonals and no EA: nothing can be recomputed, but the loads the claims balance
+    still show the traffic on the top chord (equilibrium only)."""
+    case = bridge()
+    case["members"].update({"L1U2": ["L1", "U2"], "L8U7": ["L8", "U7"]})
+    variant = copy.deepcopy(case)
+    variant["loads"]["traffic"] = {f"U{i}": [0.0, -TRAFFIC] for i in range(1, PANELS)}
+    variant["members"] = {k: {"ends": v, "EA": 1.0e5} for k, v in variant["members"].items()}
+    review = review_of(case, claims_of(variant, ["traffic"]))
+    assert review.analysis.reference is None
+    implied = review.implied.by_case()["traffic"]
+    assert implied["U5"] == pytest.approx([0.0, -TRAFFIC], abs=0.03 * TRAFFIC)
+    assert implied["L5"] == pytest.approx([0.0, 0.0], abs=0.03 * TRAFFIC)
