@@ -34,7 +34,14 @@ from verify.report.diagram import (
     worst_status,
 )
 from verify.report.handcalc_html import Block, appendix_blocks
-from verify.report.numbers import fmt, tc
+from verify.report.numbers import (
+    difference_text,
+    fmt,
+    fmt_percent,
+    fmt_ratio,
+    roundoff_text,
+    tc,
+)
 
 LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
 MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
@@ -149,8 +156,8 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ),
         (
             "Tolerance",
-            f"agrees when |claimed − recomputed| ≤ the largest of {t.rtol:.2%} of the larger value, "
-            f"{t.atol_fraction:g} × the largest recomputed force of the load column, and half a unit in the last "
+            f"agrees when |claimed − recomputed| ≤ the largest of {fmt_percent(t.rtol)} of the larger value, "
+            f"{fmt_ratio(t.atol_fraction)} × the largest recomputed force of the load column, and half a unit in the last "
             "decimal the claim was written with",
         ),
         (
@@ -172,8 +179,8 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         facts.append(
             (
                 "Conditioning",
-                f"σmin/σmax = {s.sigma_ratio:.3g}; scaled by slenderness² ({s.slenderness:.3g}²) = "
-                f"{s.scaled_ratio:.3g}"
+                f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by slenderness² ({fmt(s.slenderness, 3)}²) = "
+                f"{fmt_ratio(s.scaled_ratio)}"
                 + (" — near-mechanism" if s.ill_conditioned else " — sound"),
             )
         )
@@ -181,7 +188,7 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         facts.append(
             (
                 "Conditioning",
-                f"LU pivot ratio min/max = {s.scaled_ratio:.3g}"
+                f"LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}"
                 + (" — near-mechanism" if s.ill_conditioned else ""),
             )
         )
@@ -215,7 +222,7 @@ def _routes(review: Review) -> str:
             ["section cuts"] if analysis.sections is not None else []
         )
         return (
-            f"{', '.join(used)} agree to {analysis.route_disagreement:.1e} of the largest force"
+            f"{', '.join(used)} {roundoff_text(analysis.route_disagreement)}"
             + (
                 " — beyond round-off, check the geometry"
                 if analysis.route_disagreement > 1e-6
@@ -252,7 +259,9 @@ def finding_sentence(f: Finding) -> str:
             if len(f.members) > MAX_FINDING_MEMBERS
             else ""
         )
-        detail += f" Members: {shown}{more}."
+        # A displacement finding lists the joints that move, not members.
+        noun = "Joints" if f.kind.startswith("displacement") else "Members"
+        detail += f" {noun}: {shown}{more}."
     if f.next_step:
         detail += f" Next step: {f.next_step}"
     return detail
@@ -313,7 +322,8 @@ def member_tables(review: Review) -> list[Table]:
                         r.id,
                         fmt(r.claimed),
                         fmt(r.global_ if r.global_ is not None else r.elastic),
-                        fmt(r.difference),
+                        difference_text(r.difference, r.claimed, r.written,
+                                        max(abs(v) for v in (r.claimed, r.global_, r.elastic, 0.0) if v is not None)),
                         r.status,
                         r.written,
                     )
@@ -431,7 +441,7 @@ def _member_cells(row: Row) -> tuple[str, ...]:
         sections,
         fmt(_clean_zero(row.global_ if row.global_ is not None else row.elastic, zero)),
         tc(recomputed, zero_tol=zero) if recomputed is not None else "—",
-        fmt(row.difference),
+        difference_text(row.difference, row.claimed, row.written, max(scale, abs(row.claimed or 0.0))),
         row.status,
         row.written,
     )

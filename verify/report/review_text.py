@@ -5,7 +5,7 @@ from __future__ import annotations
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
 from verify.report.cautions import CAUTION
-from verify.report.numbers import fmt, plain_table
+from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
 
@@ -18,7 +18,7 @@ def verdict_line(review: Review) -> str:
         checked = (f"{review.checked_members} of {len(model.members)} members claimed; no forces recomputed, "
                    "so only the equilibrium of the claims was checked")
     if review.analysis.assumed_EA is not None:
-        checked += f"; EQUAL EA ASSUMED ({review.analysis.assumed_EA:g})"
+        checked += f"; EQUAL EA ASSUMED ({fmt(review.analysis.assumed_EA, 6)} {model.units.force.symbol})"
     if review.verdict.value == "agrees":
         if any(f.kind == "not-elastic" for f in review.findings):
             return (f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
@@ -30,8 +30,10 @@ def verdict_line(review: Review) -> str:
 
 
 def _row_cells(row: Row) -> list[str]:
-    return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(row.global_ if row.global_ is not None else row.elastic),
-            fmt(row.difference), row.status]
+    recomputed = row.global_ if row.global_ is not None else row.elastic
+    scale = max((abs(v) for v in (row.claimed, row.joints, recomputed) if v is not None), default=0.0)
+    return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(recomputed),
+            difference_text(row.difference, row.claimed, row.written, scale), row.status]
 
 
 def _vector(values: tuple[float, ...]) -> str:
@@ -65,7 +67,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     source = {"table": "stated in the table", "option": "stated with --unit", "assumed": "not stated; the case's unit assumed"}.get(c.unit_source, c.unit_source)
     scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(f"; {r}" for r in c.column_readings)
     lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); {c.support}")
-    lines.append(f"Tolerance: {review.tolerance.rtol:.2%} relative, {review.tolerance.atol_fraction:g} x largest force absolute, "
+    lines.append(f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, {fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
                  "half a unit in the last written decimal" + "".join(f"; {w}" for w in review.tolerance.widened))
     s = review.analysis.stability
     lines.append(f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "

@@ -8,7 +8,7 @@ from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
-from verify.report.numbers import fmt, plain_table, tc
+from verify.report.numbers import fmt, fmt_ratio, plain_table, roundoff_text, tc
 
 AXIS_NAMES = ("x", "y", "z")
 
@@ -26,12 +26,12 @@ def render_stability(model: Model, s: StabilityResult) -> str:
     ]
     if s.sigma_ratio is not None:
         lines.append(
-            f"  conditioning: sigma_min/sigma_max = {s.sigma_ratio:.3g}; scaled by slenderness^2 "
-            f"({s.slenderness:.3g}^2) = {s.scaled_ratio:.3g}"
-            + ("  NEAR-MECHANISM" if s.ill_conditioned else f"  (sound; near-mechanism below {ILL_CONDITIONED_SCALED:g})")
+            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by slenderness^2 "
+            f"({fmt(s.slenderness, 3)}^2) = {fmt_ratio(s.scaled_ratio)}"
+            + ("  NEAR-MECHANISM" if s.ill_conditioned else f"  (sound; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})")
         )
     elif s.scaled_ratio is not None:
-        lines.append(f"  LU pivot ratio min/max = {s.scaled_ratio:.3g}")
+        lines.append(f"  LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}")
     verdict = s.classification.value
     if s.classification.value == "stable-indeterminate":
         verdict += f" (degree {s.self_stress})"
@@ -116,7 +116,7 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False,
             parts.append(f"  ... and {len(sections.unreached) - 20} more")  # type: ignore[attr-defined]
     if analysis.joints is not None:
         parts.append(
-            f"Method of joints, section cuts and global solve agree to {analysis.route_disagreement:.1e} of the largest force"
+            f"Method of joints, section cuts and global solve {roundoff_text(analysis.route_disagreement)}"
             + (" (BEYOND round-off: check geometry)" if analysis.route_disagreement > 1e-6 else "")
         )
     parts.extend(f"note: {n}" for n in analysis.notes)
@@ -156,8 +156,8 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
         if step.kind == "reactions":
             point = np.asarray(solution.moment_point)
             G, E = overall_equilibrium_matrix(model, point)
-            out.append(f"\nStep {n}: reactions from overall equilibrium (moments about {solution.moment_joint})")
-            labels = (["ΣFx", "ΣFy", f"ΣM({solution.moment_joint})"] if d == 2
+            out.append(f"\nStep {n}: reactions from overall equilibrium (moments about joint {solution.moment_joint})")
+            labels = (["ΣFx", "ΣFy", f"ΣM about joint {solution.moment_joint}"] if d == 2
                       else ["ΣFx", "ΣFy", "ΣFz", "ΣMx", "ΣMy", "ΣMz"])
             order = [2, 0, 1] if d == 2 else list(range(6))
             for row in order:
@@ -198,5 +198,14 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
             out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(parts) if parts else '0'} = 0")
         out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns))
         solved.update(step.unknowns)
-    out.append(f"\nCheck: largest out-of-balance force over all joint equations = {solution.max_residual:.2e} {unit}")
+    out.append(f"\nCheck: largest out-of-balance force over all joint equations = {_residual(solution.max_residual, t, unit)}")
     return "\n".join(out)
+
+
+def _residual(residual: float, forces: np.ndarray, unit: str) -> str:
+    """The out-of-balance check in words: round-off is said to be round-off, not printed as 3.0e-14."""
+    finite = forces[np.isfinite(forces)]
+    largest = float(np.abs(finite).max(initial=0.0))
+    if residual <= 1e-9 * (largest or 1.0):
+        return f"0 {unit} (round-off, below {fmt_ratio(1e-9 * (largest or 1.0))} {unit})"
+    return f"{fmt_ratio(residual)} {unit}"
