@@ -109,7 +109,8 @@ def _golden_values(case: str, load: str, column: str) -> dict[str, float]:
         if not line.startswith("|"):
             break
         cells = [c.strip() for c in line.strip("|").split("|")]
-        out[cells[0].replace("\\", "")] = float(cells[header.index(column)])
+        names = [h.split(" (", 1)[0] for h in header]  # headings carry their unit: 'global (kN)'
+        out[cells[0].replace("\\", "")] = float(cells[names.index(column)])
     return out
 
 

@@ -288,6 +288,8 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         from verify.compare.displacements import attach_displacements, compare_displacements
 
         review = attach_displacements(review, compare_displacements(analysis, displacement_claims, tolerance=tolerance))
+    displacement_file = ((displacement_claims.source, displacement_claims.sha256)
+                         if displacement_claims is not None else None)
     # Every file the run read, however the user spelt it: no output may replace one.
     inputs = [case, model.source, claims_path, *model.tables] + ([displacements] if displacements else [])
     try:
@@ -298,12 +300,13 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         if report:
             from verify.report.document import render_document
 
-            write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html"), inputs=inputs)
+            write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html",
+                                                 displacement_file=displacement_file), inputs=inputs)
     except (OutputError, OSError) as exc:
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
     if as_json:
-        click.echo(json_out.dumps(json_out.check_json(review)))
+        click.echo(json_out.dumps(json_out.check_json(review, displacement_file=displacement_file)))
     else:
         # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
         click.echo(_colour(escape_controls(render_review(review, all_rows=all_rows), keep="\n\t"), review.verdict.value))

@@ -25,6 +25,7 @@ from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
 from verify.report.cautions import CAUTION, SHORT_CAUTION
+from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
     STATUS_STYLES,
     legend_html,
@@ -64,6 +65,19 @@ MEMBER_COLUMNS = (
     "status",
     "claim as written",
 )
+NUMERIC_COLUMNS = frozenset(("claimed", "joints", "sections", "global", "elastic", "difference", "recomputed",
+                             "decimal", "Rx", "Ry", "Rz", "computed", "case load", "claims balance",
+                             "N", "n", "L", "EA", "n·N·L/EA"))
+
+
+def with_unit(name: str, unit: str) -> str:
+    """A column heading with its unit: 'claimed (kN)'; columns of words or T/C keep their name."""
+    return f"{name} ({unit})" if name in NUMERIC_COLUMNS else name
+
+
+def base_name(header: str) -> str:
+    """The column's name without its unit: 'claimed (kN)' -> 'claimed'."""
+    return header.split(" (", 1)[0]
 
 
 @dataclass(frozen=True)
@@ -82,8 +96,9 @@ def sha256_file(path: str | Path) -> str | None:
         return None
 
 
-def input_files(review: Review) -> list[InputFile]:
-    """The case file, every CSV table it names, and the claims file, each with its SHA-256."""
+def input_files(review: Review, displacement_file: tuple[str, str] | None = None) -> list[InputFile]:
+    """The case file, every CSV table it names, the claims file and the claimed displacements
+    (path, SHA-256 of the bytes read), each with its SHA-256."""
     model = review.analysis.model
     case_digest = sha256_file(model.source)
     out = [
@@ -105,6 +120,8 @@ def input_files(review: Review) -> list[InputFile]:
             claims.sha256 or None,
         )
     )
+    if displacement_file is not None:
+        out.append(InputFile("claimed displacements", displacement_file[0], displacement_file[1] or None))
     return out
 
 
@@ -291,7 +308,7 @@ def member_tables(review: Review) -> list[Table]:
     model = review.analysis.model
     unit = model.units.force.symbol
     recomputed_name = "global" if review.analysis.global_ is not None else "elastic"
-    header = tuple(recomputed_name if h == "global" else h for h in MEMBER_COLUMNS)
+    header = tuple(with_unit(recomputed_name if h == "global" else h, unit) for h in MEMBER_COLUMNS)
     tables: list[Table] = []
     by_case: dict[str, list[Row]] = {}
     for row in review.rows:
@@ -333,14 +350,8 @@ def member_tables(review: Review) -> list[Table]:
                     Table(
                         f"{label}: reactions",
                         f"Reaction components in {unit}, along the global axes.",
-                        (
-                            "reaction",
-                            "claimed",
-                            "recomputed",
-                            "difference",
-                            "status",
-                            "claim as written",
-                        ),
+                        tuple(with_unit(h, unit) for h in ("reaction", "claimed", "recomputed", "difference", "status",
+                                                           "claim as written")),
                         rcells,
                         tuple(r.status for r in reactions),
                     )
@@ -361,7 +372,7 @@ def member_tables(review: Review) -> list[Table]:
             Table(
                 f"{label}: recomputed only",
                 f"No claims in this load column. Forces in {unit}, tension positive.",
-                ("member", "joints", "sections", recomputed_name, "T/C"),
+                tuple(with_unit(h, unit) for h in ("member", "joints", "sections", recomputed_name, "T/C")),
                 tuple(cells_list),
                 ("",) * len(cells_list),
                 note,
@@ -559,24 +570,7 @@ def _html_table(
     statuses: tuple[str, ...] | None = None,
     css: str = "",
 ) -> str:
-    numeric = {
-        h
-        for h in header
-        if h
-        in (
-            "claimed",
-            "joints",
-            "sections",
-            "global",
-            "elastic",
-            "difference",
-            "recomputed",
-            "decimal",
-            "Rx",
-            "Ry",
-            "Rz",
-        )
-    }
+    numeric = {h for h in header if base_name(h) in NUMERIC_COLUMNS}
     out = [
         f'<table class="{css}"><thead><tr>'
         + "".join(f"<th>{_e(h)}</th>" for h in header)
@@ -611,7 +605,8 @@ def _html_blocks(blocks: list[Block], level: int) -> list[str]:
     return out
 
 
-def render_html(review: Review, *, generated: str | None = None) -> str:
+def render_html(review: Review, *, generated: str | None = None,
+                displacement_file: tuple[str, str] | None = None) -> str:
     model = review.analysis.model
     date = _generated(generated)
     word, summary = _verdict_text(review)
@@ -641,7 +636,7 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
         + "</tbody></table>"
     )
     out.append("<h2>Input files</h2>")
-    files = input_files(review)
+    files = input_files(review, displacement_file)
     out.append(
         '<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
         + "".join(
@@ -689,6 +684,8 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
             out.append(f"<p><em>{_e(table.note)}</em></p>")
     out.append("</section>")
 
+    out.extend(_deflection_html(review))
+
     sections, note = appendix(review)
     out.append('<section id="appendix"><h2>Appendix: hand calculation</h2>')
     out.append(
@@ -711,6 +708,33 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     )
     out.append("</body></html>")
     return "\n".join(out) + "\n"
+
+
+def _deflection_html(review: Review) -> list[str]:
+    table = deflection_table(review)
+    if table is None:
+        return []
+    out = [f'<section id="deflections"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
+           _html_table(table.header, table.rows, table.statuses, css="members")]
+    for calc in unit_load_calcs(review):
+        out.append(f"<h3>{_e(calc.heading)}</h3><p>{_e(calc.intro)}</p>")
+        out.append(_html_table(calc.header, calc.rows, css="calc"))
+        out.append(f'<p class="result">{_e(calc.result)}</p>')
+    out.append("</section>")
+    return out
+
+
+def _deflection_markdown(review: Review) -> list[str]:
+    table = deflection_table(review)
+    if table is None:
+        return []
+    out = ["", f"## {_m(table.title)}", "", _m(table.intro), ""]
+    out.extend(_md_table(table.header, table.rows, table.statuses))
+    for calc in unit_load_calcs(review):
+        out += ["", f"### {_m(calc.heading)}", "", _m(calc.intro), ""]
+        out.extend(_md_table(calc.header, calc.rows))
+        out += ["", f"**{_m(calc.result)}**"]
+    return out
 
 
 def diagrams_html(review: Review) -> list[str]:
@@ -793,7 +817,8 @@ def implied_table(review: Review, limit: int = 200) -> Table | None:
         intro += " Not determined (a member there has no claim): " + ", ".join(
             f"{k} joint(s) in '{n}'" for n, k in undetermined.items()) + "."
     note = f"{len(implied.differing) - limit} more joints in --json." if len(implied.differing) > limit else ""
-    return Table("Loads the claims balance", intro, ("joint", "load column", "case load", "claims balance", "difference"),
+    return Table("Loads the claims balance", intro,
+                 tuple(with_unit(h, unit) for h in ("joint", "load column", "case load", "claims balance", "difference")),
                  tuple(rows), tuple("" for _ in rows), note)
 
 
@@ -850,7 +875,8 @@ def _backtick_runs(line: str) -> list[str]:
     return runs
 
 
-def render_markdown(review: Review, *, generated: str | None = None) -> str:
+def render_markdown(review: Review, *, generated: str | None = None,
+                    displacement_file: tuple[str, str] | None = None) -> str:
     model = review.analysis.model
     date = _generated(generated)
     word, summary = _verdict_text(review)
@@ -861,7 +887,7 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
     out.extend(
         _md_table(
             ("input", "file", "SHA-256"),
-            tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review)),
+            tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review, displacement_file)),
         )
     )
     extra = notes(review)
@@ -901,6 +927,7 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
         out.extend(_md_table(table.header, table.rows, table.statuses))
         if table.note:
             out += ["", f"*{_m(table.note)}*"]
+    out.extend(_deflection_markdown(review))
     sections, note = appendix(review)
     out += [
         "",
@@ -936,16 +963,18 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
     return "\n".join(out)
 
 
-def render_document(review: Review, *, fmt: str = "html", generated: str | None = None) -> str:
+def render_document(review: Review, *, fmt: str = "html", generated: str | None = None,
+                    displacement_file: tuple[str, str] | None = None) -> str:
     """The review report as HTML ("html") or Markdown ("md"); `generated` fixes the date shown.
 
     Control characters (from a claims label: ESC, BEL, CR ...) are written as visible escapes."""
     from verify.errors import escape_controls
 
     if fmt == "html":
-        return escape_controls(render_html(review, generated=generated), keep="\n\t")
+        return escape_controls(render_html(review, generated=generated, displacement_file=displacement_file), keep="\n\t")
     if fmt in ("md", "markdown"):
-        return escape_controls(render_markdown(review, generated=generated), keep="\n\t")
+        return escape_controls(render_markdown(review, generated=generated, displacement_file=displacement_file),
+                               keep="\n\t")
     raise ValueError(f"report format must be 'html' or 'md', got {fmt!r}")
 
 

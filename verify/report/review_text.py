@@ -52,7 +52,7 @@ def implied_lines(review: Review, limit: int = 40) -> list[str]:
     rows = [[item.joint + (" (support)" if item.supported else ""), item.case, _vector(item.load), _vector(item.implied),
              _vector(item.difference)] for item in implied.differing[:limit]]
     out = ["", f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, global axes{told}):",
-           plain_table(["joint", "load column", "case load", "claims balance", "difference"], rows)]
+           plain_table(["joint", "load column"] + [f"{h} ({unit})" for h in ("case load", "claims balance", "difference")], rows)]
     if len(implied.differing) > limit:
         out.append(f"({len(implied.differing) - limit} more joints: --json or --report lists them all)")
     return out
@@ -84,7 +84,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     lines.append("")
     displacement_rows = [r for r in review.rows if r.kind == "displacement"]
     shown = [r for r in review.rows if r.kind != "displacement" and (all_rows or r.status != "missing-claim")]
-    headers = ["member", "case", "claimed", "joints", "sections", "recomputed", "difference", "status"]
+    force = model.units.force.symbol
+    headers = ["member", "case"] + [f"{h} ({force})" for h in ("claimed", "joints", "sections", "recomputed", "difference")] + ["status"]
     if not all_rows and len(shown) > MAX_ROWS:
         bad = [r for r in shown if r.status != "agrees"]
         shown = (bad + [r for r in shown if r.status == "agrees"])[:MAX_ROWS]
@@ -98,7 +99,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         unit = "mm" if length == "m" else length
         lines.append("")
         lines.append(f"Joint displacements ({unit}; claimed vs direct stiffness method):")
-        lines.append(plain_table(["joint.axis", "case", "claimed", "recomputed", "difference", "status"], [
+        lines.append(plain_table(["joint.axis", "case"] + [f"{h} ({unit})" for h in ("claimed", "recomputed", "difference")] + ["status"], [
             [r.id, r.case, fmt(None if r.claimed is None else r.claimed * factor_mm),
              fmt(None if r.elastic is None else r.elastic * factor_mm),
              fmt(None if r.difference is None else r.difference * factor_mm), r.status] for r in displacement_rows]))

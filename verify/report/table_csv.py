@@ -16,6 +16,7 @@ from verify.compare.diagnose import Review
 from verify.errors import escape_controls
 from verify.formatting import NOISE_FIGURES, clean_zero, fmt
 from verify.report.cautions import CAUTION
+from verify.report.names import kind_word
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -39,14 +40,21 @@ def render_csv(review: Review) -> str:
     out = io.StringIO()
     writer = csv.writer(out, lineterminator="\n")
     unit = review.analysis.model.units.force.symbol
+    length = review.analysis.model.units.length.symbol
+    # Displacements are lengths: they get columns of their own, never a force heading.
     writer.writerow(["id", "kind", "case", f"claimed ({unit})", f"joints ({unit})", f"sections ({unit})",
-                     f"global ({unit})", f"elastic ({unit})", f"difference ({unit})", "status"])
+                     f"global ({unit})", f"elastic ({unit})", f"difference ({unit})",
+                     f"claimed displacement ({length})", f"recomputed displacement ({length})",
+                     f"displacement difference ({length})", "status"])
     for row in review.rows:
         cells: list[object] = [neutralise(row.id), row.kind, neutralise(row.case)]
         scale = max((abs(v) for v in (row.claimed, row.joints, row.global_, row.elastic) if v is not None), default=0.0)
-        for value in (row.claimed, row.joints, row.sections, row.global_, row.elastic, row.difference):
-            cells.append(data_number(value, scale))
-        cells.append(row.status)
+        if row.kind == "displacement":
+            values: tuple[float | None, ...] = (None,) * 6 + (row.claimed, row.elastic, row.difference)
+        else:
+            values = (row.claimed, row.joints, row.sections, row.global_, row.elastic, row.difference) + (None,) * 3
+        cells.extend(data_number(value, scale) for value in values)
+        cells.append(kind_word(row.status))
         writer.writerow(cells)
     # Below the table (a spreadsheet shows them; a reader stopping at the first blank row keeps
     # the table clean): what the elastic column rests on, and the caution every output carries.

@@ -58,7 +58,8 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     k = ref.column(load_name)
     scale = float(np.nanmax(np.abs(ref.member_forces[:, k]))) if ref.member_forces.size else 0.0
     zero = 1e-9 * (scale or 1.0)
-    headers = ["member", "force", "T/C"]
+    unit = model.units.force.symbol
+    headers = ["member", f"force ({unit})", "T/C"]
     routes: list[tuple[str, np.ndarray]] = []
     if analysis.joints is not None:
         routes.append(("joints", analysis.joints.forces.member_forces[:, k]))
@@ -66,7 +67,7 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     if sections is not None:
         routes.append(("sections", sections.forces.member_forces[:, k]))
     for name, _ in routes:
-        headers.append(name)
+        headers.append(f"{name} ({unit})")
     rows = []
     shown: list[int] | range = range(len(model.members))
     note = ""
@@ -93,7 +94,7 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     rzero = 1e-9 * max((abs(c) for vec in reactions.values() for c in vec), default=0.0)
     rrows = [[j] + [(fmt(c if abs(c) > rzero else 0.0) if a in acting[j] else "—") for a, c in zip(AXIS_NAMES, vec, strict=False)]
              for j, vec in reactions.items()]
-    rtable = plain_table(["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], rrows)
+    rtable = plain_table(["support"] + [f"R{a} ({unit})" for a in AXIS_NAMES[: model.dim]], rrows)
     return f"{table}{note}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
 
 
