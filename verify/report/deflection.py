@@ -78,7 +78,8 @@ def unit_load_calcs(review: Review) -> list[UnitLoadCalc]:
     fu, lu = model.units.force.symbol, model.units.length.symbol
     unit, factor = shown_length(lu)
     out = []
-    for calc, case in zip(calcs, check.calc_cases, strict=True):  # type: ignore[union-attr]
+    cases = getattr(check, "calc_cases", ())
+    for calc, case in zip(calcs, cases, strict=True):
         values = np.array([[r.real_force, r.unit_force, r.length, r.EA, r.term] for r in calc.rows]).reshape(-1, 5)
         largest = np.abs(values).max(axis=0) if len(values) else np.zeros(5)
         rows = tuple(
