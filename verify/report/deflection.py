@@ -12,14 +12,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from verify.compare.diagnose import Review
+from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.names import kind_word
 from verify.report.numbers import clean_zero, difference_text, fmt
 
-ELASTIC_NOTE = (
-    "Elastic results: these deflections (and the forces of an indeterminate truss) follow from the "
-    "EA given for each member; they ignore joint slip, bolt-hole clearance and camber, which the "
-    "claimed values may include."
-)
+ELASTIC_NOTE = ELASTIC_CAUTION + " The claimed values may include them."
 
 
 @dataclass(frozen=True)

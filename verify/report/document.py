@@ -24,7 +24,7 @@ import numpy as np
 from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
-from verify.report.cautions import CAUTION, SHORT_CAUTION
+from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
 from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
     STATUS_STYLES,
@@ -198,7 +198,7 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
                 "Conditioning",
                 f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by slenderness² ({fmt(s.slenderness, 3)}²) = "
                 f"{fmt_ratio(s.scaled_ratio)}"
-                + (" — near-mechanism" if s.ill_conditioned else " — sound"),
+                + _conditioning_word(s),
             )
         )
     elif s.scaled_ratio is not None:
@@ -221,6 +221,13 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         )
     )
     return facts
+
+
+def _conditioning_word(s: object) -> str:
+    """Said only of a stable truss: a mechanism has no conditioning to call sound."""
+    if getattr(s, "ill_conditioned", False):
+        return " — near-mechanism"
+    return " — well conditioned" if getattr(s, "is_stable", False) else ""
 
 
 def _unit_source(source: str) -> str:
@@ -252,7 +259,8 @@ def _routes(review: Review) -> str:
             if getattr(analysis.elastic, "equal_EA_assumed", False)
             else ""
         )
-        return f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss"
+        return (f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss. "
+                + ELASTIC_CAUTION)
     return ""
 
 

@@ -11,7 +11,7 @@ import numpy as np
 from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.model import Model
-from verify.report.cautions import CAUTION
+from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.names import public_convention, public_finding, public_row, public_structure
 
 
@@ -105,6 +105,7 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
             for k, name in enumerate(model.load_names)
         }
         data["equal_EA_assumed"] = bool(elastic.equal_EA_assumed)  # type: ignore[attr-defined]
+        data["elastic_caution"] = ELASTIC_CAUTION
     data["notes"] = list(analysis.notes)
     return data
 
@@ -146,4 +147,7 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         "tool": {"name": "truss-verify", "version": __version__},
         "notes": list(review.notes),
         "caution": CAUTION,
+        **({"elastic_caution": ELASTIC_CAUTION}
+           if review.analysis.elastic is not None and (review.analysis.global_ is None or review.displacements is not None)
+           else {}),
     }

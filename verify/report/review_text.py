@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
-from verify.report.cautions import CAUTION
+from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
@@ -117,6 +117,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         for calc, case in zip(check.calcs, check.calc_cases, strict=True):  # type: ignore[attr-defined]
             lines.append(f"\nLoad column '{case}':")
             lines.append(render_virtual_work(calc, model))
+    if review.analysis.global_ is None and review.analysis.elastic is not None or displacement_rows:
+        lines.append(f"note: {ELASTIC_CAUTION}")
     lines.append("")
     lines.append(f"Caution: {CAUTION}")
     return "\n".join(lines)

@@ -8,6 +8,7 @@ from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
+from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.numbers import fmt, fmt_ratio, plain_table, roundoff_text, tc
 
 AXIS_NAMES = ("x", "y", "z")
@@ -28,7 +29,8 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         lines.append(
             f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by slenderness^2 "
             f"({fmt(s.slenderness, 3)}^2) = {fmt_ratio(s.scaled_ratio)}"
-            + ("  NEAR-MECHANISM" if s.ill_conditioned else f"  (sound; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})")
+            + ("  NEAR-MECHANISM" if s.ill_conditioned else
+               f"  (well conditioned; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})" if s.is_stable else "")
         )
     elif s.scaled_ratio is not None:
         lines.append(f"  LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}")
@@ -126,6 +128,7 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False,
         parts.extend(f"note: {n}" for n in getattr(elastic, "notes", ()))
         if getattr(elastic, "equal_EA_assumed", False):
             parts.insert(0, "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution depends on that assumption.\n")
+        parts.append(f"note: {ELASTIC_CAUTION}")
     if analysis.joints is not None:
         parts.extend(f"note: {n}" for n in analysis.joints.notes)
     return "\n".join(parts)
