@@ -35,6 +35,7 @@ from verify.report.diagram import (
     worst_status,
 )
 from verify.report.handcalc_html import Block, appendix_blocks
+from verify.report.names import kind_word, method_phrase, severity_word
 from verify.report.numbers import (
     difference_text,
     fmt,
@@ -44,6 +45,8 @@ from verify.report.numbers import (
     tc,
 )
 
+NOT_CAPACITY = ("This figure compares claimed with recomputed forces; it is not a capacity check and says "
+                "nothing about whether a member is strong enough.")
 LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
 MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
 MAX_APPENDIX_CUTS_LARGE = 30
@@ -187,16 +190,17 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ),
         (
             "Rank of the equilibrium matrix",
-            f"{s.rank} of {d * s.joints} joint equations ({s.method}); "
-            f"mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
-            f"states of self-stress s = {s.self_stress}",
+            f"{s.rank} of {d * s.joints} joint equations ({method_phrase(s.method)}); "
+            f"mechanisms: {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
+            f"states of self-stress: {s.self_stress}",
         ),
     ]
     if s.sigma_ratio is not None:
         facts.append(
             (
                 "Conditioning",
-                f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by slenderness² ({fmt(s.slenderness, 3)}²) = "
+                f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by the square of the extent ratio (model size over "
+                f"median member length, {fmt(s.slenderness, 3)}²) = "
                 f"{fmt_ratio(s.scaled_ratio)}"
                 + _conditioning_word(s),
             )
@@ -211,7 +215,7 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         )
     routes = _routes(review)
     if routes:
-        facts.append(("Routes", routes))
+        facts.append(("Methods compared", routes))
     checked = ", ".join(f"'{n}'" for n in review.checked_cases) or "none"
     facts.append(
         (
@@ -540,18 +544,28 @@ body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;background
 h1{font-size:1.55em;margin:.2em 0}h2{font-size:1.25em;border-bottom:2px solid #1a1a1a;padding-bottom:2px;margin-top:1.6em}
 h3{font-size:1.05em;margin-top:1.2em}h4{font-size:1em;margin:1em 0 .3em}
 .verdict{font-size:1.3em;font-weight:bold;padding:8px 12px;border:3px solid #1a1a1a;display:inline-block;margin:.4em 0}
-.verdict.agrees{border-color:#009E73}.verdict.discrepancies{border-color:#D55E00}.verdict.cannot-verify{border-color:#E69F00;border-style:dashed}
+.verdict.discrepancies{border-width:5px}.verdict.cannot-verify{border-style:dashed}
 table{border-collapse:collapse;margin:.4em 0 1em}td,th{border:1px solid #bbb;padding:3px 7px;vertical-align:top}
-th{background:#eee;text-align:left}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
-table.facts th{width:16em}table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
+th{background:#eee;text-align:left;white-space:nowrap}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+table.members td,table.calc td{white-space:nowrap}
+table.facts th{width:16em;white-space:normal}table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
 table.legend{border:none}table.legend td{border:none;padding:1px 6px}table.legend caption{text-align:left;font-weight:bold}
 figure.truss{margin:0}.view{margin:.6em 0}.view-name{font-weight:bold}figcaption{font-style:italic;margin:.2em 0}
 pre{background:#f6f6f6;border:1px solid #ddd;padding:8px;overflow-x:auto;font-size:.85em;line-height:1.35;white-space:pre-wrap}
-.sev{font-weight:bold;font-size:.8em;padding:1px 5px;border:1.5px solid #1a1a1a;border-radius:3px;margin-right:.4em}
-.sev.blocker{border-style:dashed}.sev.error{background:#1a1a1a;color:#fff}
+.sev{font-weight:bold;font-size:.85em;margin-right:.4em;white-space:nowrap}
+.sev.error{text-transform:uppercase}.sev.cannot-verify{text-transform:uppercase;text-decoration:underline}
 li.finding{margin:.35em 0}.caution{border:2px solid #1a1a1a;padding:8px 12px;background:#fafafa}
 td.st{white-space:nowrap}.mark{display:inline-block;min-width:1.3em;text-align:center;font-weight:bold;border-radius:50%;border:2px solid;margin-right:4px;background:#fff}
-@media print{body{max-width:none}h2{page-break-after:avoid}table{page-break-inside:auto}}
+@media print{
+@page{margin:12mm}
+body{max-width:none;padding:0;font-size:9pt;line-height:1.3}
+h2{break-after:avoid}h3,h4{break-after:avoid}
+section.major{break-before:page}
+tr,li.finding,figure.truss .view,pre{break-inside:avoid}thead{display:table-header-group}
+svg{max-width:100%;height:auto}figure.truss svg{max-height:240mm}
+table.members,table.calc{font-size:8pt}td,th{padding:1px 4px}
+.caution{background:none}th{background:none;border-bottom:1.5px solid #1a1a1a}
+}
 """
 
 CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'; base-uri 'none'"
@@ -565,10 +579,11 @@ def _status_cell(status: str) -> str:
     if not status:
         return "<td></td>"
     style = STATUS_STYLES[status_category(status)]
-    marker = "✓" if style.key == "agrees" else style.marker
+    if not style.marker:  # agreement: plain words, no colour, no mark
+        return f'<td class="st">{_e(kind_word(status))}</td>'
     return (
-        f'<td class="st"><span class="mark" style="border-color:{style.colour}">{_e(marker)}</span>'
-        f"{_e(status)}</td>"
+        f'<td class="st flagged"><span class="mark" style="border-color:{style.colour}">{_e(style.marker)}</span>'
+        f"{_e(kind_word(status))}</td>"
     )
 
 
@@ -591,6 +606,8 @@ def _html_table(
                 cells.append(_status_cell(statuses[n]))
             elif h in numeric:
                 cells.append(f'<td class="num">{_e(cell)}</td>')
+            elif h == "claim as written":
+                cells.append(f'<td class="written">{_e(cell)}</td>')
             else:
                 cells.append(f"<td>{_e(cell)}</td>")
         out.append("<tr>" + "".join(cells) + "</tr>")
@@ -643,7 +660,24 @@ def render_html(review: Review, *, generated: str | None = None,
         )
         + "</tbody></table>"
     )
-    out.append("<h2>Input files</h2>")
+    out.append("</header>")
+
+    out.append('<section id="findings"><h2>Findings</h2>')
+    if review.findings:
+        out.append('<ol class="findings">')
+        for f in review.findings:
+            case = f" ({_e(f.case)})" if f.case else ""
+            out.append(
+                f'<li class="finding {_e(kind_word(f.kind))}"><span class="sev {_e(severity_word(f.severity.value))}">'
+                f"[{_e(severity_word(f.severity.value))}]</span> "
+                f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>"
+            )
+        out.append("</ol>")
+    else:
+        out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
+    out.append("</section>")
+
+    out.append('<section id="inputs"><h2>Input files</h2>')
     files = input_files(review, displacement_file)
     out.append(
         '<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
@@ -656,24 +690,10 @@ def render_html(review: Review, *, generated: str | None = None,
     extra = notes(review)
     if extra:
         out.append("<h3>Notes</h3><ul>" + "".join(f"<li>{_e(n)}</li>" for n in extra) + "</ul>")
-    out.append("</header>")
-
-    out.append('<section id="diagram"><h2>Diagram</h2>')
-    out.extend(diagrams_html(review))
     out.append("</section>")
 
-    out.append('<section id="findings"><h2>Findings</h2>')
-    if review.findings:
-        out.append('<ol class="findings">')
-        for f in review.findings:
-            case = f" ({_e(f.case)})" if f.case else ""
-            out.append(
-                f'<li class="finding {_e(f.kind)}"><span class="sev {_e(f.severity.value)}">{_e(f.severity.value)}</span>'
-                f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>"
-            )
-        out.append("</ol>")
-    else:
-        out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
+    out.append('<section id="diagram" class="major"><h2>Diagram</h2>')
+    out.extend(diagrams_html(review))
     out.append("</section>")
 
     loads_table = implied_table(review)
@@ -684,7 +704,7 @@ def render_html(review: Review, *, generated: str | None = None,
             out.append(f"<p>{_e(loads_table.note)}</p>")
         out.append("</section>")
 
-    out.append('<section id="members"><h2>Member table</h2>')
+    out.append('<section id="members" class="major"><h2>Member table</h2>')
     for table in member_tables(review):
         out.append(f"<h3>{_e(table.title)}</h3><p>{_e(table.intro)}</p>")
         out.append(_html_table(table.header, table.rows, table.statuses, css="members"))
@@ -695,7 +715,7 @@ def render_html(review: Review, *, generated: str | None = None,
     out.extend(_deflection_html(review))
 
     sections, note = appendix(review)
-    out.append('<section id="appendix"><h2>Appendix: hand calculation</h2>')
+    out.append('<section id="appendix" class="major"><h2>Appendix: hand calculation</h2>')
     out.append(
         "<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the "
         "equations and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the "
@@ -722,7 +742,7 @@ def _deflection_html(review: Review) -> list[str]:
     table = deflection_table(review)
     if table is None:
         return []
-    out = [f'<section id="deflections"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
+    out = [f'<section id="deflections" class="major"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
            _html_table(table.header, table.rows, table.statuses, css="members")]
     for calc in unit_load_calcs(review):
         out.append(f"<h3>{_e(calc.heading)}</h3><p>{_e(calc.intro)}</p>")
@@ -768,10 +788,11 @@ def diagrams_html(review: Review) -> list[str]:
     for name, statuses in drawn:
         forces = ref.member_forces[:, ref.column(name)] if ref is not None else None
         caption = (
-            f"{_load_label(review, name)}: members marked by review status; band width shows tension or compression "
-            "of the recomputed force."
+            f"{_load_label(review, name)}: members with a finding are coloured and marked; members whose claim "
+            "agrees are drawn plain; band width shows tension or compression of the recomputed force. "
+            + NOT_CAPACITY
             if statuses is not None
-            else f"{_load_label(review, name)}: no claims checked."
+            else f"{_load_label(review, name)}: no claims checked. " + NOT_CAPACITY
         )
         if ref is None:
             caption += " No force could be recomputed, so members are drawn without tension or compression."
@@ -857,7 +878,7 @@ def _md_table(
         for h, cell in zip(header, row, strict=True):
             if h == "status" and statuses is not None and statuses[n]:
                 marker = STATUS_STYLES[status_category(statuses[n])].marker
-                cells.append(_m(f"{marker} {cell}" if marker else cell))
+                cells.append(_m(f"{marker} {kind_word(cell)}" if marker else kind_word(cell)))
             else:
                 cells.append(_m(cell))
         out.append("| " + " | ".join(cells) + " |")
@@ -914,7 +935,7 @@ def render_markdown(review: Review, *, generated: str | None = None,
         for n, f in enumerate(review.findings, 1):
             case = f" ({_m(f.case)})" if f.case else ""
             out.append(
-                f"{n}. [{_m(f.severity.value)}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
+                f"{n}. [{_m(severity_word(f.severity.value))}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
             )
     else:
         out.append("No findings: every claim checked agrees within tolerance.")
@@ -929,7 +950,7 @@ def render_markdown(review: Review, *, generated: str | None = None,
         for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank)
         if s.marker
     )
-    out += ["", "## Member table", "", f"Status letters: {_m(legend)}."]
+    out += ["", "## Member table", "", f"Status marks: {_m(legend)}; agreeing claims carry no mark."]
     for table in member_tables(review):
         out += ["", f"### {_m(table.title)}", "", _m(table.intro), ""]
         out.extend(_md_table(table.header, table.rows, table.statuses))

@@ -5,6 +5,7 @@ from __future__ import annotations
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
+from verify.report.names import kind_word, severity_word
 from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
@@ -33,7 +34,7 @@ def _row_cells(row: Row) -> list[str]:
     recomputed = row.global_ if row.global_ is not None else row.elastic
     scale = max((abs(v) for v in (row.claimed, row.joints, recomputed) if v is not None), default=0.0)
     return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(recomputed),
-            difference_text(row.difference, row.claimed, row.written, scale), row.status]
+            difference_text(row.difference, row.claimed, row.written, scale), kind_word(row.status)]
 
 
 def _vector(values: tuple[float, ...]) -> str:
@@ -66,17 +67,17 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
                  + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else ""))
     source = {"table": "stated in the table", "option": "stated with --unit", "assumed": "not stated; the case's unit assumed"}.get(c.unit_source, c.unit_source)
     scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(f"; {r}" for r in c.column_readings)
-    lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); {c.support}")
+    lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); evidence: {c.support}")
     lines.append(f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, {fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
                  "half a unit in the last written decimal" + "".join(f"; {w}" for w in review.tolerance.widened))
     s = review.analysis.stability
     lines.append(f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
-                 f"m = {s.mechanisms}, s = {s.self_stress}")
+                 f"{s.mechanisms} mechanism(s), {s.self_stress} state(s) of self-stress")
     lines.append("")
     if review.findings:
         lines.append("Findings (most serious first):")
         for f in review.findings:
-            lines.append(f"  [{f.severity.value}] {f.kind}: {f.detail}")
+            lines.append(f"  [{severity_word(f.severity.value)}] {kind_word(f.kind)}: {f.detail}")
             if f.next_step:
                 lines.append(f"      next step: {f.next_step}")
     else:

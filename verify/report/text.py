@@ -9,6 +9,7 @@ from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
 from verify.report.cautions import ELASTIC_CAUTION
+from verify.report.names import method_phrase
 from verify.report.numbers import fmt, fmt_ratio, plain_table, roundoff_text, tc
 
 AXIS_NAMES = ("x", "y", "z")
@@ -20,14 +21,14 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         f"Truss: {model.title or model.source}  ({d}D, {s.joints} joints, {s.members} members, {s.reactions} reaction components)",
         f"Maxwell's rule: b + r - {d}j = {s.members} + {s.reactions} - {d}x{s.joints} = {s.maxwell}"
         + ("  (too few members or supports)" if s.maxwell < 0 else ""),
-        f"Equilibrium matrix ({s.method}): rank {s.rank} of {d * s.joints} joint equations and {s.members + s.reactions} unknowns",
-        f"  mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}"
+        f"Equilibrium matrix ({method_phrase(s.method)}): rank {s.rank} of {d * s.joints} joint equations and {s.members + s.reactions} unknowns",
+        f"  mechanisms: {s.mechanisms}{'' if s.exact_counts else ' (at least)'}"
         f"{f' ({s.rigid_body_mechanisms} rigid-body)' if s.rigid_body_mechanisms else ''}, "
-        f"states of self-stress s = {s.self_stress}",
+        f"states of self-stress: {s.self_stress}",
     ]
     if s.sigma_ratio is not None:
         lines.append(
-            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by slenderness^2 "
+            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by extent ratio^2 "
             f"({fmt(s.slenderness, 3)}^2) = {fmt_ratio(s.scaled_ratio)}"
             + ("  NEAR-MECHANISM" if s.ill_conditioned else
                f"  (well conditioned; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})" if s.is_stable else "")
@@ -103,7 +104,7 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
 def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False, load_names: list[str] | None = None) -> str:
     parts = []
     unit = model.units.force.symbol
-    route = "global sparse solve" if analysis.global_ is not None else "direct stiffness method"
+    route = "global solve of every joint equation at once" if analysis.global_ is not None else "direct stiffness method"
     for name in load_names or model.load_names:
         parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
         parts.append(force_table(model, analysis, name, all_rows=all_rows))
