@@ -109,7 +109,8 @@ def _golden_values(case: str, load: str, column: str) -> dict[str, float]:
         if not line.startswith("|"):
             break
         cells = [c.strip() for c in line.strip("|").split("|")]
-        out[cells[0].replace("\\", "")] = float(cells[header.index(column)])
+        names = [h.split(" (", 1)[0] for h in header]  # headings carry their unit: 'global (kN)'
+        out[cells[0].replace("\\", "")] = float(cells[names.index(column)])
     return out
 
 
@@ -260,12 +261,14 @@ def test_exact_values_are_withheld_for_irrational_coordinates() -> None:
 
 # -- content, escaping, determinism -----------------------------------------------------------------
 def test_html_has_every_section_in_order(at_root: None) -> None:
-    """Header, diagram, findings, member table, appendix and cautions appear in that order."""
+    """Header, findings (on the first printed page), input files, diagram, member table, appendix and
+    cautions appear in that order."""
     html = render_document(_review("canal-footbridge"), generated=DATE)
     marks = [
         'id="summary"',
-        'id="diagram"',
         'id="findings"',
+        'id="inputs"',
+        'id="diagram"',
         'id="members"',
         'id="appendix"',
         'id="cautions"',

@@ -275,7 +275,7 @@ def test_render_exact_values():
     for the Warren L1L2 (REFERENCES.md 3.2), with the Ritter point and T/C."""
     model = make_model(pratt(load=10.0))
     text = render_cut(model, solve_sections(model).cut_for("U1U2"), "P")
-    assert "ΣM about L2" in text and "exact: -160/3" in text and "(C)" in text
+    assert "ΣM about joint L2" in text and "exact: -160/3" in text and "(C)" in text
     model = make_model(warren(load=1.0))
     text = render_cut(model, solve_sections(model).cut_for("L1L2"), "P")
     assert "exact: 7*sqrt(3)/6" in text and "(T)" in text
@@ -298,7 +298,7 @@ def test_render_reactions():
     """The overall-equilibrium step: moments about the pin give L6.y = 2.5P (REFERENCES.md 3.2)."""
     model = make_model(pratt(load=10.0))
     text = render_reactions(model, "P")
-    assert "ΣM about L0" in text and "⇒ L6.y = 25 kN" in text and "L0.y = 25 kN   exact: 25" in text
+    assert "ΣM about joint L0" in text and "⇒ L6.y = 25 kN" in text and "L0.y = 25 kN   exact: 25" in text
 
 
 def test_cantilever_with_two_wall_pins_uses_support_free_bodies():

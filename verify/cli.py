@@ -237,7 +237,8 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
                report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
                member_column: str | None, case_column: str | None, force_column: str | None,
                load_name: str | None, assume_equal_ea: float | None, all_rows: bool,
-               displacements: str | None = None, tables_anywhere: bool = False, pages: str | None = None) -> int:
+               displacements: str | None = None, tables_anywhere: bool = False, pages: str | None = None,
+               typed: dict[str, str] | None = None) -> int:
     from verify.compare.diagnose import compare_claims
     from verify.errors import OptionError
     from verify.io.claims import read_claims
@@ -248,8 +249,9 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
     try:
         options = check_options(sign=sign, unit=unit, rtol=rtol, atol_fraction=atol_fraction,
                                 assume_equal_EA=assume_equal_ea,
-                                names={"sign": "--sign", "unit": "--unit", "rtol": "--rtol", "atol_fraction": "--atol-fraction",
-                                       "assume_equal_EA": "--assume-equal-ea"})
+                                names={"sign": "--sign", "unit": "--unit", "rtol": "--relative-tolerance",
+                                       "atol_fraction": "--absolute-tolerance",
+                                       "assume_equal_EA": "--assume-equal-ea", **(typed or {})})
     except OptionError as exc:
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
@@ -288,6 +290,8 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         from verify.compare.displacements import attach_displacements, compare_displacements
 
         review = attach_displacements(review, compare_displacements(analysis, displacement_claims, tolerance=tolerance))
+    displacement_file = ((displacement_claims.source, displacement_claims.sha256)
+                         if displacement_claims is not None else None)
     # Every file the run read, however the user spelt it: no output may replace one.
     inputs = [case, model.source, claims_path, *model.tables] + ([displacements] if displacements else [])
     try:
@@ -298,12 +302,13 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         if report:
             from verify.report.document import render_document
 
-            write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html"), inputs=inputs)
+            write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html",
+                                                 displacement_file=displacement_file), inputs=inputs)
     except (OutputError, OSError) as exc:
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
     if as_json:
-        click.echo(json_out.dumps(json_out.check_json(review)))
+        click.echo(json_out.dumps(json_out.check_json(review, displacement_file=displacement_file)))
     else:
         # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
         click.echo(_colour(escape_controls(render_review(review, all_rows=all_rows), keep="\n\t"), review.verdict.value))
@@ -331,9 +336,13 @@ _CHECK_OPTIONS = [
     click.option("--pages", default=None, metavar="12-14", help="Pages of a PDF claims file to search for the table (default: all)."),
     click.option("--report", default=None, metavar="PATH.html|PATH.md", help="Write the review report (HTML or Markdown), atomically."),
     click.option("--csv", "csv_path", default=None, metavar="PATH", help="Write the member table as CSV (spreadsheet-safe), atomically."),
-    click.option("--rtol", type=float, default=0.01, show_default=True, help="Relative tolerance for 'agrees'."),
-    click.option("--atol-fraction", type=float, default=1e-3, show_default=True,
-                 help="Absolute tolerance as a fraction of the largest recomputed force in the load case."),
+    click.option("--relative-tolerance", "rtol", type=float, default=0.01, show_default=True,
+                 help="A claim agrees within this fraction of the larger value (0.01 = 1 %)."),
+    click.option("--absolute-tolerance", "atol_fraction", type=float, default=1e-3, show_default=True,
+                 help="A claim also agrees within this fraction of the largest recomputed force of its load column."),
+    # The first names of these two options, kept so that scripts written for them still run.
+    click.option("--rtol", "rtol_alias", type=float, default=None, hidden=True),
+    click.option("--atol-fraction", "atol_fraction_alias", type=float, default=None, hidden=True),
     click.option("--member-column", default=None, help="Header of the member-label column, when not found automatically."),
     click.option("--case-column", default=None, help="Header of the load-case column of a long table."),
     click.option("--force-column", default=None, help="Header of the force column of a long table."),
@@ -367,6 +376,13 @@ def check(case: str, claims_path: str, **options: Any) -> None:
     claims, real errors) and the member table. Exit status: 0 agrees, 1 discrepancies, 2 bad
     input, 3 cannot verify.
     """
+    typed = {}
+    for alias, name, spelt in (("rtol_alias", "rtol", "--rtol"), ("atol_fraction_alias", "atol_fraction", "--atol-fraction")):
+        value = options.pop(alias)
+        if value is not None:
+            options[name] = value
+            typed[name] = spelt  # a message names the option as the user typed it
+    options["typed"] = typed
     sys.exit(_run_check(case, claims_path, **options))
 
 

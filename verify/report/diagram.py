@@ -5,9 +5,11 @@ Visual code (our own, explained in the legend that every drawing carries):
 - *Force*: compression is a wide band, tension a narrow line, a zero-force member a dotted
   hairline, a member without a recomputed force a long-dashed line. Thickness survives greyscale
   printing and colour blindness.
-- *Status*: one colour per status from the Okabe-Ito palette (M. Okabe & K. Ito, "Color Universal
-  Design", 2008, designed to stay distinguishable for the common colour-vision deficiencies),
-  plus a letter in a small circle at the member's midpoint, so the status reads without colour.
+- *Status*: members whose claim agrees are drawn plain (dark grey, no mark): colour appears only
+  where there is a finding, one colour per status from the Okabe-Ito palette (M. Okabe & K. Ito,
+  "Color Universal Design", 2008, designed to stay distinguishable for the common colour-vision
+  deficiencies), plus a mark in a small circle (! ↔ ± ÷ ∅ ?), chosen to clash with no symbol of
+  the trade (N is a force, X reads as "fail"), so the status reads without colour.
 
 Every text is escaped; coordinates are written with one decimal and members in model order, so the
 same input gives byte-identical output.
@@ -43,19 +45,21 @@ STATUS_STYLES: dict[str, StatusStyle] = {
             "#D55E00",
             "!",
             "claimed value differs (wrong value, force claimed for a zero-force member, "
-            "or a distribution that is not the elastic one)",
+            "or a distribution that depends on the stiffness assumed)",
             0,
         ),
         StatusStyle(
-            "swapped", "#0072B2", "X", "claim belongs to another member (labels swapped)", 1
+            "swapped", "#0072B2", "↔", "claim belongs to another member (labels swapped)", 1
         ),
-        StatusStyle("sign", "#CC79A7", "S", "sign or T/C reversed", 2),
-        StatusStyle("unit", "#E69F00", "U", "off by a unit factor (e.g. N written for kN)", 3),
+        StatusStyle("sign", "#CC79A7", "±", "sign or T/C reversed", 2),
+        StatusStyle("unit", "#E69F00", "÷", "off by a unit factor (e.g. N written for kN)", 3),
         StatusStyle(
-            "not-reached", "#000000", "N", "not reached: no recomputed force to compare with", 4
+            "not-reached", "#000000", "∅", "not reached: no recomputed force to compare with", 4
         ),
         StatusStyle("missing", "#8C8C8C", "?", "no claim given for this member (not checked)", 5),
-        StatusStyle("agrees", "#009E73", "", "agrees within tolerance", 6),
+        # Agreement is the ordinary case: drawn like an unchecked member, with no colour and no
+        # mark, so colour never reads as "this member passes" the way a capacity check colours it.
+        StatusStyle("agrees", "#3A3A3A", "", "agrees within tolerance (drawn plain)", 6),
     )
 }
 NEUTRAL = StatusStyle("neutral", "#3A3A3A", "", "member (no claims compared)", 7)
@@ -574,7 +578,7 @@ def legend_html(
     if with_status:
         for style in sorted(STATUS_STYLES.values(), key=lambda s: s.rank):
             note = "" if used is None or style.key in used else " (none here)"
-            letter = f"letter {style.marker}: " if style.marker else "no letter: "
+            letter = f"mark {style.marker}: " if style.marker else "no mark: "
             rows.append(
                 (
                     "status",

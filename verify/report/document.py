@@ -24,7 +24,8 @@ import numpy as np
 from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
-from verify.report.cautions import CAUTION, SHORT_CAUTION
+from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
+from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
     STATUS_STYLES,
     legend_html,
@@ -34,8 +35,18 @@ from verify.report.diagram import (
     worst_status,
 )
 from verify.report.handcalc_html import Block, appendix_blocks
-from verify.report.numbers import fmt, tc
+from verify.report.names import kind_word, method_phrase, severity_word
+from verify.report.numbers import (
+    difference_text,
+    fmt,
+    fmt_percent,
+    fmt_ratio,
+    roundoff_text,
+    tc,
+)
 
+NOT_CAPACITY = ("This figure compares claimed with recomputed forces; it is not a capacity check and says "
+                "nothing about whether a member is strong enough.")
 LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
 MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
 MAX_APPENDIX_CUTS_LARGE = 30
@@ -57,6 +68,19 @@ MEMBER_COLUMNS = (
     "status",
     "claim as written",
 )
+NUMERIC_COLUMNS = frozenset(("claimed", "joints", "sections", "global", "elastic", "difference", "recomputed",
+                             "decimal", "Rx", "Ry", "Rz", "computed", "case load", "claims balance",
+                             "N", "n", "L", "EA", "n·N·L/EA"))
+
+
+def with_unit(name: str, unit: str) -> str:
+    """A column heading with its unit: 'claimed (kN)'; columns of words or T/C keep their name."""
+    return f"{name} ({unit})" if name in NUMERIC_COLUMNS else name
+
+
+def base_name(header: str) -> str:
+    """The column's name without its unit: 'claimed (kN)' -> 'claimed'."""
+    return header.split(" (", 1)[0]
 
 
 @dataclass(frozen=True)
@@ -75,8 +99,9 @@ def sha256_file(path: str | Path) -> str | None:
         return None
 
 
-def input_files(review: Review) -> list[InputFile]:
-    """The case file, every CSV table it names, and the claims file, each with its SHA-256."""
+def input_files(review: Review, displacement_file: tuple[str, str] | None = None) -> list[InputFile]:
+    """The case file, every CSV table it names, the claims file and the claimed displacements
+    (path, SHA-256 of the bytes read), each with its SHA-256."""
     model = review.analysis.model
     case_digest = sha256_file(model.source)
     out = [
@@ -98,6 +123,8 @@ def input_files(review: Review) -> list[InputFile]:
             claims.sha256 or None,
         )
     )
+    if displacement_file is not None:
+        out.append(InputFile("claimed displacements", displacement_file[0], displacement_file[1] or None))
     return out
 
 
@@ -149,8 +176,8 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ),
         (
             "Tolerance",
-            f"agrees when |claimed − recomputed| ≤ the largest of {t.rtol:.2%} of the larger value, "
-            f"{t.atol_fraction:g} × the largest recomputed force of the load column, and half a unit in the last "
+            f"agrees when |claimed − recomputed| ≤ the largest of {fmt_percent(t.rtol)} of the larger value, "
+            f"{fmt_ratio(t.atol_fraction)} × the largest recomputed force of the load column, and half a unit in the last "
             "decimal the claim was written with",
         ),
         (
@@ -163,31 +190,32 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ),
         (
             "Rank of the equilibrium matrix",
-            f"{s.rank} of {d * s.joints} joint equations ({s.method}); "
-            f"mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
-            f"states of self-stress s = {s.self_stress}",
+            f"{s.rank} of {d * s.joints} joint equations ({method_phrase(s.method)}); "
+            f"mechanisms: {s.mechanisms}{'' if s.exact_counts else ' (at least)'}, "
+            f"states of self-stress: {s.self_stress}",
         ),
     ]
     if s.sigma_ratio is not None:
         facts.append(
             (
                 "Conditioning",
-                f"σmin/σmax = {s.sigma_ratio:.3g}; scaled by slenderness² ({s.slenderness:.3g}²) = "
-                f"{s.scaled_ratio:.3g}"
-                + (" — near-mechanism" if s.ill_conditioned else " — sound"),
+                f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by the square of the extent ratio (model size over "
+                f"median member length, {fmt(s.slenderness, 3)}²) = "
+                f"{fmt_ratio(s.scaled_ratio)}"
+                + _conditioning_word(s),
             )
         )
     elif s.scaled_ratio is not None:
         facts.append(
             (
                 "Conditioning",
-                f"LU pivot ratio min/max = {s.scaled_ratio:.3g}"
+                f"LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}"
                 + (" — near-mechanism" if s.ill_conditioned else ""),
             )
         )
     routes = _routes(review)
     if routes:
-        facts.append(("Routes", routes))
+        facts.append(("Methods compared", routes))
     checked = ", ".join(f"'{n}'" for n in review.checked_cases) or "none"
     facts.append(
         (
@@ -197,6 +225,13 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         )
     )
     return facts
+
+
+def _conditioning_word(s: object) -> str:
+    """Said only of a stable truss: a mechanism has no conditioning to call sound."""
+    if getattr(s, "ill_conditioned", False):
+        return " — near-mechanism"
+    return " — well conditioned" if getattr(s, "is_stable", False) else ""
 
 
 def _unit_source(source: str) -> str:
@@ -215,7 +250,7 @@ def _routes(review: Review) -> str:
             ["section cuts"] if analysis.sections is not None else []
         )
         return (
-            f"{', '.join(used)} agree to {analysis.route_disagreement:.1e} of the largest force"
+            f"{', '.join(used)} {roundoff_text(analysis.route_disagreement)}"
             + (
                 " — beyond round-off, check the geometry"
                 if analysis.route_disagreement > 1e-6
@@ -228,7 +263,8 @@ def _routes(review: Review) -> str:
             if getattr(analysis.elastic, "equal_EA_assumed", False)
             else ""
         )
-        return f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss"
+        return (f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss. "
+                + ELASTIC_CAUTION)
     return ""
 
 
@@ -252,7 +288,9 @@ def finding_sentence(f: Finding) -> str:
             if len(f.members) > MAX_FINDING_MEMBERS
             else ""
         )
-        detail += f" Members: {shown}{more}."
+        # A displacement finding lists the joints that move, not members.
+        noun = "Joints" if f.kind.startswith("displacement") else "Members"
+        detail += f" {noun}: {shown}{more}."
     if f.next_step:
         detail += f" Next step: {f.next_step}"
     return detail
@@ -282,7 +320,7 @@ def member_tables(review: Review) -> list[Table]:
     model = review.analysis.model
     unit = model.units.force.symbol
     recomputed_name = "global" if review.analysis.global_ is not None else "elastic"
-    header = tuple(recomputed_name if h == "global" else h for h in MEMBER_COLUMNS)
+    header = tuple(with_unit(recomputed_name if h == "global" else h, unit) for h in MEMBER_COLUMNS)
     tables: list[Table] = []
     by_case: dict[str, list[Row]] = {}
     for row in review.rows:
@@ -313,7 +351,8 @@ def member_tables(review: Review) -> list[Table]:
                         r.id,
                         fmt(r.claimed),
                         fmt(r.global_ if r.global_ is not None else r.elastic),
-                        fmt(r.difference),
+                        difference_text(r.difference, r.claimed, r.written,
+                                        max(abs(v) for v in (r.claimed, r.global_, r.elastic, 0.0) if v is not None)),
                         r.status,
                         r.written,
                     )
@@ -323,14 +362,8 @@ def member_tables(review: Review) -> list[Table]:
                     Table(
                         f"{label}: reactions",
                         f"Reaction components in {unit}, along the global axes.",
-                        (
-                            "reaction",
-                            "claimed",
-                            "recomputed",
-                            "difference",
-                            "status",
-                            "claim as written",
-                        ),
+                        tuple(with_unit(h, unit) for h in ("reaction", "claimed", "recomputed", "difference", "status",
+                                                           "claim as written")),
                         rcells,
                         tuple(r.status for r in reactions),
                     )
@@ -351,7 +384,7 @@ def member_tables(review: Review) -> list[Table]:
             Table(
                 f"{label}: recomputed only",
                 f"No claims in this load column. Forces in {unit}, tension positive.",
-                ("member", "joints", "sections", recomputed_name, "T/C"),
+                tuple(with_unit(h, unit) for h in ("member", "joints", "sections", recomputed_name, "T/C")),
                 tuple(cells_list),
                 ("",) * len(cells_list),
                 note,
@@ -431,7 +464,7 @@ def _member_cells(row: Row) -> tuple[str, ...]:
         sections,
         fmt(_clean_zero(row.global_ if row.global_ is not None else row.elastic, zero)),
         tc(recomputed, zero_tol=zero) if recomputed is not None else "—",
-        fmt(row.difference),
+        difference_text(row.difference, row.claimed, row.written, max(scale, abs(row.claimed or 0.0))),
         row.status,
         row.written,
     )
@@ -511,18 +544,28 @@ body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;background
 h1{font-size:1.55em;margin:.2em 0}h2{font-size:1.25em;border-bottom:2px solid #1a1a1a;padding-bottom:2px;margin-top:1.6em}
 h3{font-size:1.05em;margin-top:1.2em}h4{font-size:1em;margin:1em 0 .3em}
 .verdict{font-size:1.3em;font-weight:bold;padding:8px 12px;border:3px solid #1a1a1a;display:inline-block;margin:.4em 0}
-.verdict.agrees{border-color:#009E73}.verdict.discrepancies{border-color:#D55E00}.verdict.cannot-verify{border-color:#E69F00;border-style:dashed}
+.verdict.discrepancies{border-width:5px}.verdict.cannot-verify{border-style:dashed}
 table{border-collapse:collapse;margin:.4em 0 1em}td,th{border:1px solid #bbb;padding:3px 7px;vertical-align:top}
-th{background:#eee;text-align:left}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
-table.facts th{width:16em}table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
+th{background:#eee;text-align:left;white-space:nowrap}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+table.members td,table.calc td{white-space:nowrap}
+table.facts th{width:16em;white-space:normal}table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
 table.legend{border:none}table.legend td{border:none;padding:1px 6px}table.legend caption{text-align:left;font-weight:bold}
 figure.truss{margin:0}.view{margin:.6em 0}.view-name{font-weight:bold}figcaption{font-style:italic;margin:.2em 0}
 pre{background:#f6f6f6;border:1px solid #ddd;padding:8px;overflow-x:auto;font-size:.85em;line-height:1.35;white-space:pre-wrap}
-.sev{font-weight:bold;font-size:.8em;padding:1px 5px;border:1.5px solid #1a1a1a;border-radius:3px;margin-right:.4em}
-.sev.blocker{border-style:dashed}.sev.error{background:#1a1a1a;color:#fff}
+.sev{font-weight:bold;font-size:.85em;margin-right:.4em;white-space:nowrap}
+.sev.error{text-transform:uppercase}.sev.cannot-verify{text-transform:uppercase;text-decoration:underline}
 li.finding{margin:.35em 0}.caution{border:2px solid #1a1a1a;padding:8px 12px;background:#fafafa}
 td.st{white-space:nowrap}.mark{display:inline-block;min-width:1.3em;text-align:center;font-weight:bold;border-radius:50%;border:2px solid;margin-right:4px;background:#fff}
-@media print{body{max-width:none}h2{page-break-after:avoid}table{page-break-inside:auto}}
+@media print{
+@page{margin:12mm}
+body{max-width:none;padding:0;font-size:9pt;line-height:1.3}
+h2{break-after:avoid}h3,h4{break-after:avoid}
+section.major{break-before:page}
+tr,li.finding,figure.truss .view,pre{break-inside:avoid}thead{display:table-header-group}
+svg{max-width:100%;height:auto}figure.truss svg{max-height:240mm}
+table.members,table.calc{font-size:8pt}td,th{padding:1px 4px}
+.caution{background:none}th{background:none;border-bottom:1.5px solid #1a1a1a}
+}
 """
 
 CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'; base-uri 'none'"
@@ -536,10 +579,11 @@ def _status_cell(status: str) -> str:
     if not status:
         return "<td></td>"
     style = STATUS_STYLES[status_category(status)]
-    marker = "✓" if style.key == "agrees" else style.marker
+    if not style.marker:  # agreement: plain words, no colour, no mark
+        return f'<td class="st">{_e(kind_word(status))}</td>'
     return (
-        f'<td class="st"><span class="mark" style="border-color:{style.colour}">{_e(marker)}</span>'
-        f"{_e(status)}</td>"
+        f'<td class="st flagged"><span class="mark" style="border-color:{style.colour}">{_e(style.marker)}</span>'
+        f"{_e(kind_word(status))}</td>"
     )
 
 
@@ -549,24 +593,7 @@ def _html_table(
     statuses: tuple[str, ...] | None = None,
     css: str = "",
 ) -> str:
-    numeric = {
-        h
-        for h in header
-        if h
-        in (
-            "claimed",
-            "joints",
-            "sections",
-            "global",
-            "elastic",
-            "difference",
-            "recomputed",
-            "decimal",
-            "Rx",
-            "Ry",
-            "Rz",
-        )
-    }
+    numeric = {h for h in header if base_name(h) in NUMERIC_COLUMNS}
     out = [
         f'<table class="{css}"><thead><tr>'
         + "".join(f"<th>{_e(h)}</th>" for h in header)
@@ -579,6 +606,8 @@ def _html_table(
                 cells.append(_status_cell(statuses[n]))
             elif h in numeric:
                 cells.append(f'<td class="num">{_e(cell)}</td>')
+            elif h == "claim as written":
+                cells.append(f'<td class="written">{_e(cell)}</td>')
             else:
                 cells.append(f"<td>{_e(cell)}</td>")
         out.append("<tr>" + "".join(cells) + "</tr>")
@@ -601,7 +630,8 @@ def _html_blocks(blocks: list[Block], level: int) -> list[str]:
     return out
 
 
-def render_html(review: Review, *, generated: str | None = None) -> str:
+def render_html(review: Review, *, generated: str | None = None,
+                displacement_file: tuple[str, str] | None = None) -> str:
     model = review.analysis.model
     date = _generated(generated)
     word, summary = _verdict_text(review)
@@ -630,8 +660,25 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
         )
         + "</tbody></table>"
     )
-    out.append("<h2>Input files</h2>")
-    files = input_files(review)
+    out.append("</header>")
+
+    out.append('<section id="findings"><h2>Findings</h2>')
+    if review.findings:
+        out.append('<ol class="findings">')
+        for f in review.findings:
+            case = f" ({_e(f.case)})" if f.case else ""
+            out.append(
+                f'<li class="finding {_e(kind_word(f.kind))}"><span class="sev {_e(severity_word(f.severity.value))}">'
+                f"[{_e(severity_word(f.severity.value))}]</span> "
+                f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>"
+            )
+        out.append("</ol>")
+    else:
+        out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
+    out.append("</section>")
+
+    out.append('<section id="inputs"><h2>Input files</h2>')
+    files = input_files(review, displacement_file)
     out.append(
         '<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
         + "".join(
@@ -643,24 +690,10 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     extra = notes(review)
     if extra:
         out.append("<h3>Notes</h3><ul>" + "".join(f"<li>{_e(n)}</li>" for n in extra) + "</ul>")
-    out.append("</header>")
-
-    out.append('<section id="diagram"><h2>Diagram</h2>')
-    out.extend(diagrams_html(review))
     out.append("</section>")
 
-    out.append('<section id="findings"><h2>Findings</h2>')
-    if review.findings:
-        out.append('<ol class="findings">')
-        for f in review.findings:
-            case = f" ({_e(f.case)})" if f.case else ""
-            out.append(
-                f'<li class="finding {_e(f.kind)}"><span class="sev {_e(f.severity.value)}">{_e(f.severity.value)}</span>'
-                f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>"
-            )
-        out.append("</ol>")
-    else:
-        out.append("<p>No findings: every claim checked agrees within tolerance.</p>")
+    out.append('<section id="diagram" class="major"><h2>Diagram</h2>')
+    out.extend(diagrams_html(review))
     out.append("</section>")
 
     loads_table = implied_table(review)
@@ -671,7 +704,7 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
             out.append(f"<p>{_e(loads_table.note)}</p>")
         out.append("</section>")
 
-    out.append('<section id="members"><h2>Member table</h2>')
+    out.append('<section id="members" class="major"><h2>Member table</h2>')
     for table in member_tables(review):
         out.append(f"<h3>{_e(table.title)}</h3><p>{_e(table.intro)}</p>")
         out.append(_html_table(table.header, table.rows, table.statuses, css="members"))
@@ -679,8 +712,10 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
             out.append(f"<p><em>{_e(table.note)}</em></p>")
     out.append("</section>")
 
+    out.extend(_deflection_html(review))
+
     sections, note = appendix(review)
-    out.append('<section id="appendix"><h2>Appendix: hand calculation</h2>')
+    out.append('<section id="appendix" class="major"><h2>Appendix: hand calculation</h2>')
     out.append(
         "<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the "
         "equations and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the "
@@ -701,6 +736,33 @@ def render_html(review: Review, *, generated: str | None = None) -> str:
     )
     out.append("</body></html>")
     return "\n".join(out) + "\n"
+
+
+def _deflection_html(review: Review) -> list[str]:
+    table = deflection_table(review)
+    if table is None:
+        return []
+    out = [f'<section id="deflections" class="major"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
+           _html_table(table.header, table.rows, table.statuses, css="members")]
+    for calc in unit_load_calcs(review):
+        out.append(f"<h3>{_e(calc.heading)}</h3><p>{_e(calc.intro)}</p>")
+        out.append(_html_table(calc.header, calc.rows, css="calc"))
+        out.append(f'<p class="result">{_e(calc.result)}</p>')
+    out.append("</section>")
+    return out
+
+
+def _deflection_markdown(review: Review) -> list[str]:
+    table = deflection_table(review)
+    if table is None:
+        return []
+    out = ["", f"## {_m(table.title)}", "", _m(table.intro), ""]
+    out.extend(_md_table(table.header, table.rows, table.statuses))
+    for calc in unit_load_calcs(review):
+        out += ["", f"### {_m(calc.heading)}", "", _m(calc.intro), ""]
+        out.extend(_md_table(calc.header, calc.rows))
+        out += ["", f"**{_m(calc.result)}**"]
+    return out
 
 
 def diagrams_html(review: Review) -> list[str]:
@@ -726,10 +788,11 @@ def diagrams_html(review: Review) -> list[str]:
     for name, statuses in drawn:
         forces = ref.member_forces[:, ref.column(name)] if ref is not None else None
         caption = (
-            f"{_load_label(review, name)}: members marked by review status; band width shows tension or compression "
-            "of the recomputed force."
+            f"{_load_label(review, name)}: members with a finding are coloured and marked; members whose claim "
+            "agrees are drawn plain; band width shows tension or compression of the recomputed force. "
+            + NOT_CAPACITY
             if statuses is not None
-            else f"{_load_label(review, name)}: no claims checked."
+            else f"{_load_label(review, name)}: no claims checked. " + NOT_CAPACITY
         )
         if ref is None:
             caption += " No force could be recomputed, so members are drawn without tension or compression."
@@ -783,7 +846,8 @@ def implied_table(review: Review, limit: int = 200) -> Table | None:
         intro += " Not determined (a member there has no claim): " + ", ".join(
             f"{k} joint(s) in '{n}'" for n, k in undetermined.items()) + "."
     note = f"{len(implied.differing) - limit} more joints in --json." if len(implied.differing) > limit else ""
-    return Table("Loads the claims balance", intro, ("joint", "load column", "case load", "claims balance", "difference"),
+    return Table("Loads the claims balance", intro,
+                 tuple(with_unit(h, unit) for h in ("joint", "load column", "case load", "claims balance", "difference")),
                  tuple(rows), tuple("" for _ in rows), note)
 
 
@@ -814,7 +878,7 @@ def _md_table(
         for h, cell in zip(header, row, strict=True):
             if h == "status" and statuses is not None and statuses[n]:
                 marker = STATUS_STYLES[status_category(statuses[n])].marker
-                cells.append(_m(f"{marker} {cell}" if marker else cell))
+                cells.append(_m(f"{marker} {kind_word(cell)}" if marker else kind_word(cell)))
             else:
                 cells.append(_m(cell))
         out.append("| " + " | ".join(cells) + " |")
@@ -840,7 +904,8 @@ def _backtick_runs(line: str) -> list[str]:
     return runs
 
 
-def render_markdown(review: Review, *, generated: str | None = None) -> str:
+def render_markdown(review: Review, *, generated: str | None = None,
+                    displacement_file: tuple[str, str] | None = None) -> str:
     model = review.analysis.model
     date = _generated(generated)
     word, summary = _verdict_text(review)
@@ -851,7 +916,7 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
     out.extend(
         _md_table(
             ("input", "file", "SHA-256"),
-            tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review)),
+            tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review, displacement_file)),
         )
     )
     extra = notes(review)
@@ -870,7 +935,7 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
         for n, f in enumerate(review.findings, 1):
             case = f" ({_m(f.case)})" if f.case else ""
             out.append(
-                f"{n}. [{_m(f.severity.value)}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
+                f"{n}. [{_m(severity_word(f.severity.value))}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
             )
     else:
         out.append("No findings: every claim checked agrees within tolerance.")
@@ -885,12 +950,13 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
         for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank)
         if s.marker
     )
-    out += ["", "## Member table", "", f"Status letters: {_m(legend)}."]
+    out += ["", "## Member table", "", f"Status marks: {_m(legend)}; agreeing claims carry no mark."]
     for table in member_tables(review):
         out += ["", f"### {_m(table.title)}", "", _m(table.intro), ""]
         out.extend(_md_table(table.header, table.rows, table.statuses))
         if table.note:
             out += ["", f"*{_m(table.note)}*"]
+    out.extend(_deflection_markdown(review))
     sections, note = appendix(review)
     out += [
         "",
@@ -926,16 +992,18 @@ def render_markdown(review: Review, *, generated: str | None = None) -> str:
     return "\n".join(out)
 
 
-def render_document(review: Review, *, fmt: str = "html", generated: str | None = None) -> str:
+def render_document(review: Review, *, fmt: str = "html", generated: str | None = None,
+                    displacement_file: tuple[str, str] | None = None) -> str:
     """The review report as HTML ("html") or Markdown ("md"); `generated` fixes the date shown.
 
     Control characters (from a claims label: ESC, BEL, CR ...) are written as visible escapes."""
     from verify.errors import escape_controls
 
     if fmt == "html":
-        return escape_controls(render_html(review, generated=generated), keep="\n\t")
+        return escape_controls(render_html(review, generated=generated, displacement_file=displacement_file), keep="\n\t")
     if fmt in ("md", "markdown"):
-        return escape_controls(render_markdown(review, generated=generated), keep="\n\t")
+        return escape_controls(render_markdown(review, generated=generated, displacement_file=displacement_file),
+                               keep="\n\t")
     raise ValueError(f"report format must be 'html' or 'md', got {fmt!r}")
 
 

@@ -284,7 +284,7 @@ def appendix_blocks(
                 "Reactions",
                 "table",
                 f"Reactions in {unit}, {how}.",
-                ("support",) + tuple(f"R{a}" for a in axes),
+                ("support",) + tuple(f"R{a} ({unit})" for a in axes),
                 rows,
             )
         )
@@ -376,7 +376,7 @@ def appendix_blocks(
                 intro += f" Note: {values.note}."
             blocks.append(
                 Block(
-                    "Exact values", "table", intro, ("member / reaction", "decimal", "exact"), rows
+                    "Exact values", "table", intro, ("member / reaction", f"decimal ({unit})", f"exact ({unit})"), rows
                 )
             )
     return blocks

@@ -11,7 +11,8 @@ import numpy as np
 from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.model import Model
-from verify.report.cautions import CAUTION
+from verify.report.cautions import CAUTION, ELASTIC_CAUTION
+from verify.report.names import public_convention, public_finding, public_row, public_structure
 
 
 def _clean(value: Any) -> Any:
@@ -31,12 +32,35 @@ def dumps(data: dict[str, Any]) -> str:
     return json.dumps(_clean(data), indent=2, ensure_ascii=False, allow_nan=False)
 
 
+def value_units(model: Model) -> dict[str, str]:
+    """The unit of every family of values an output carries, by the key that holds them."""
+    force, length = model.units.force.symbol, model.units.length.symbol
+    return {
+        "length": length,
+        "force": force,
+        "coordinates": length,
+        "forces": force,  # member forces, tension positive
+        "reactions": force,
+        "routes": force,
+        "members": force,  # claimed, joints, sections, global, elastic, difference (per row: "unit")
+        "displacements": length,
+        "implied_loads": force,
+        "implied_load_table": force,
+        "imbalances": force,
+        "EA": force,
+        "mechanism_modes": "relative (largest motion 1)",
+        "self_stress_modes": "relative (largest force 1)",
+        "tolerance": "fractions (0.01 = 1 %)",
+    }
+
+
 def stability_json(model: Model, analysis: Analysis) -> dict[str, Any]:
     return {
         "tool": {"name": "truss-verify", "version": __version__},
         "case": {"title": model.title, "file": model.source,
                  "units": {"length": model.units.length.symbol, "force": model.units.force.symbol}},
-        "structure": analysis.stability.as_dict(),
+        "units": value_units(model),
+        "structure": public_structure(analysis.stability.as_dict()),
         "caution": CAUTION,
     }
 
@@ -81,38 +105,49 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
             for k, name in enumerate(model.load_names)
         }
         data["equal_EA_assumed"] = bool(elastic.equal_EA_assumed)  # type: ignore[attr-defined]
+        data["elastic_caution"] = ELASTIC_CAUTION
     data["notes"] = list(analysis.notes)
     return data
 
 
-def check_json(review: Any) -> dict[str, Any]:
-    """The DESIGN.md section 4 `check --json` object (extra fields allowed, none renamed)."""
+def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None) -> dict[str, Any]:
+    """The DESIGN.md section 4 `check --json` object (extra fields allowed, contract keys kept).
+
+    `displacement_file` is (path, SHA-256) of the claimed displacements, when they were checked.
+    """
     from verify.report.document import sha256_file
 
     model = review.analysis.model
+    force, length = model.units.force.symbol, model.units.length.symbol
+    inputs = {"case": model.source, "case_sha256": sha256_file(model.source), "claims": review.claims.source,
+              "claims_sha256": review.claims.sha256}
+    if displacement_file is not None:
+        inputs["displacements"], inputs["displacements_sha256"] = displacement_file
     return {
         "verdict": review.verdict.value,
-        "structure": review.analysis.stability.as_dict(),
-        "convention": review.convention.as_dict(),
-        "members": [row.as_dict() for row in review.rows],
-        "findings": [f.as_dict() for f in review.findings],
+        "structure": public_structure(review.analysis.stability.as_dict()),
+        "convention": public_convention(review.convention.as_dict(), force),
+        "members": [public_row(row.as_dict(), length if row.kind == "displacement" else force) for row in review.rows],
+        "findings": [public_finding(f.as_dict()) for f in review.findings],
         "summary": {
             "members_checked": review.checked_members,
             "members_total": len(model.members),
             "cases_checked": list(review.checked_cases),
             "cases_total": list(model.load_names),
         },
-        "tolerance": {"rtol": review.tolerance.rtol, "atol_fraction": review.tolerance.atol_fraction},
+        "tolerance": {"relative": review.tolerance.rtol, "fraction_of_largest_force": review.tolerance.atol_fraction},
         "imbalances": [
             {"joint": b.joint, "case": b.case, "residual": list(b.residual), "size": b.size}
             for b in review.imbalances
         ],
         "implied_loads": review.implied.by_case() if review.implied is not None else {},
         "implied_load_table": [item.as_dict() for item in review.implied.differing] if review.implied is not None else [],
-        "units": {"length": model.units.length.symbol, "force": model.units.force.symbol},
-        "inputs": {"case": model.source, "case_sha256": sha256_file(model.source), "claims": review.claims.source,
-                   "claims_sha256": review.claims.sha256},
+        "units": value_units(model),
+        "inputs": inputs,
         "tool": {"name": "truss-verify", "version": __version__},
         "notes": list(review.notes),
         "caution": CAUTION,
+        **({"elastic_caution": ELASTIC_CAUTION}
+           if review.analysis.elastic is not None and (review.analysis.global_ is None or review.displacements is not None)
+           else {}),
     }

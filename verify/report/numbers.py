@@ -2,9 +2,53 @@
 
 from __future__ import annotations
 
-from verify.formatting import fmt, tc
+from verify.formatting import clean_zero, decimals_in, fmt, fmt_fixed, fmt_percent, fmt_ratio, tc
 
-__all__ = ["fmt", "plain_table", "tc"]
+__all__ = ["clean_zero", "difference_text", "fmt", "fmt_fixed", "fmt_percent", "fmt_ratio", "plain_table",
+           "roundoff_text", "tc"]
+
+GUARD_DECIMALS = 1  # one decimal beyond the claim's own (see difference_text)
+ROUNDOFF = 1e-9  # routes agreeing closer than this fraction of the largest force agree to round-off
+
+
+def difference_text(difference: float | None, claimed: float | None, written: str, scale: float) -> str:
+    """claimed − recomputed to the precision the claim was written in, plus one guard decimal
+    ('12.4' -> 2 places): at the claim's own precision, 173.3 against 173.25 would read
+    "difference 0.1" beside two values both shown as 173.3; the guard decimal shows it is 0.05,
+    half a unit of the written decimal, which is what the rounding tolerance allows.
+
+    The written decimals are used only when the claim was read without a unit factor (the written
+    number is the claimed value), since 12.40 kip read into kN has no such precision. Round-off
+    beside the row's largest value (`scale`) is shown as 0.
+    """
+    value = clean_zero(difference, scale)
+    if value is None:
+        return fmt(value)
+    shown = written.split(" at ", 1)[0]
+    decimals = decimals_in(shown)
+    if decimals is not None and claimed is not None and _written_number(shown) == abs(claimed):
+        return fmt_fixed(value, decimals + GUARD_DECIMALS)
+    return fmt(value)
+
+
+def _written_number(text: str) -> float | None:
+    digits = ""
+    for ch in text:
+        if ch.isdigit() or (ch == "." and digits):
+            digits += ch
+        elif digits:
+            break
+    try:
+        return float(digits) if digits else None
+    except ValueError:
+        return None
+
+
+def roundoff_text(disagreement: float) -> str:
+    """How closely independent routes agree, without printing float noise such as 2.9e-16."""
+    if disagreement <= ROUNDOFF:
+        return f"agree to round-off (within {fmt_ratio(ROUNDOFF)} of the largest force)"
+    return f"agree to {fmt_ratio(disagreement, 2)} of the largest force"
 
 
 def plain_table(headers: list[str], rows: list[list[str]]) -> str:

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
-from verify.report.cautions import CAUTION
-from verify.report.numbers import fmt, plain_table
+from verify.report.cautions import CAUTION, ELASTIC_CAUTION
+from verify.report.names import kind_word, severity_word
+from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
 
@@ -18,7 +19,7 @@ def verdict_line(review: Review) -> str:
         checked = (f"{review.checked_members} of {len(model.members)} members claimed; no forces recomputed, "
                    "so only the equilibrium of the claims was checked")
     if review.analysis.assumed_EA is not None:
-        checked += f"; EQUAL EA ASSUMED ({review.analysis.assumed_EA:g})"
+        checked += f"; EQUAL EA ASSUMED ({fmt(review.analysis.assumed_EA, 6)} {model.units.force.symbol})"
     if review.verdict.value == "agrees":
         if any(f.kind == "not-elastic" for f in review.findings):
             return (f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
@@ -30,8 +31,10 @@ def verdict_line(review: Review) -> str:
 
 
 def _row_cells(row: Row) -> list[str]:
-    return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(row.global_ if row.global_ is not None else row.elastic),
-            fmt(row.difference), row.status]
+    recomputed = row.global_ if row.global_ is not None else row.elastic
+    scale = max((abs(v) for v in (row.claimed, row.joints, recomputed) if v is not None), default=0.0)
+    return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(recomputed),
+            difference_text(row.difference, row.claimed, row.written, scale), kind_word(row.status)]
 
 
 def _vector(values: tuple[float, ...]) -> str:
@@ -50,7 +53,7 @@ def implied_lines(review: Review, limit: int = 40) -> list[str]:
     rows = [[item.joint + (" (support)" if item.supported else ""), item.case, _vector(item.load), _vector(item.implied),
              _vector(item.difference)] for item in implied.differing[:limit]]
     out = ["", f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, global axes{told}):",
-           plain_table(["joint", "load column", "case load", "claims balance", "difference"], rows)]
+           plain_table(["joint", "load column"] + [f"{h} ({unit})" for h in ("case load", "claims balance", "difference")], rows)]
     if len(implied.differing) > limit:
         out.append(f"({len(implied.differing) - limit} more joints: --json or --report lists them all)")
     return out
@@ -64,17 +67,17 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
                  + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else ""))
     source = {"table": "stated in the table", "option": "stated with --unit", "assumed": "not stated; the case's unit assumed"}.get(c.unit_source, c.unit_source)
     scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(f"; {r}" for r in c.column_readings)
-    lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); {c.support}")
-    lines.append(f"Tolerance: {review.tolerance.rtol:.2%} relative, {review.tolerance.atol_fraction:g} x largest force absolute, "
+    lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); evidence: {c.support}")
+    lines.append(f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, {fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
                  "half a unit in the last written decimal" + "".join(f"; {w}" for w in review.tolerance.widened))
     s = review.analysis.stability
     lines.append(f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
-                 f"m = {s.mechanisms}, s = {s.self_stress}")
+                 f"{s.mechanisms} mechanism(s), {s.self_stress} state(s) of self-stress")
     lines.append("")
     if review.findings:
         lines.append("Findings (most serious first):")
         for f in review.findings:
-            lines.append(f"  [{f.severity.value}] {f.kind}: {f.detail}")
+            lines.append(f"  [{severity_word(f.severity.value)}] {kind_word(f.kind)}: {f.detail}")
             if f.next_step:
                 lines.append(f"      next step: {f.next_step}")
     else:
@@ -82,7 +85,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     lines.append("")
     displacement_rows = [r for r in review.rows if r.kind == "displacement"]
     shown = [r for r in review.rows if r.kind != "displacement" and (all_rows or r.status != "missing-claim")]
-    headers = ["member", "case", "claimed", "joints", "sections", "recomputed", "difference", "status"]
+    force = model.units.force.symbol
+    headers = ["member", "case"] + [f"{h} ({force})" for h in ("claimed", "joints", "sections", "recomputed", "difference")] + ["status"]
     if not all_rows and len(shown) > MAX_ROWS:
         bad = [r for r in shown if r.status != "agrees"]
         shown = (bad + [r for r in shown if r.status == "agrees"])[:MAX_ROWS]
@@ -96,7 +100,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         unit = "mm" if length == "m" else length
         lines.append("")
         lines.append(f"Joint displacements ({unit}; claimed vs direct stiffness method):")
-        lines.append(plain_table(["joint.axis", "case", "claimed", "recomputed", "difference", "status"], [
+        lines.append(plain_table(["joint.axis", "case"] + [f"{h} ({unit})" for h in ("claimed", "recomputed", "difference")] + ["status"], [
             [r.id, r.case, fmt(None if r.claimed is None else r.claimed * factor_mm),
              fmt(None if r.elastic is None else r.elastic * factor_mm),
              fmt(None if r.difference is None else r.difference * factor_mm), r.status] for r in displacement_rows]))
@@ -114,6 +118,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         for calc, case in zip(check.calcs, check.calc_cases, strict=True):  # type: ignore[attr-defined]
             lines.append(f"\nLoad column '{case}':")
             lines.append(render_virtual_work(calc, model))
+    if review.analysis.global_ is None and review.analysis.elastic is not None or displacement_rows:
+        lines.append(f"note: {ELASTIC_CAUTION}")
     lines.append("")
     lines.append(f"Caution: {CAUTION}")
     return "\n".join(lines)

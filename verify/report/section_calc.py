@@ -30,7 +30,7 @@ from verify.analysis.sections import (
     solve_cut,
 )
 from verify.model import Model
-from verify.report.numbers import fmt
+from verify.report.numbers import clean_zero, fmt
 
 DIGITS = 6
 EXACT_RTOL = 1e-9  # an exact value is shown only if it matches the decimal this closely
@@ -52,8 +52,14 @@ def _tc(x: float, scale: float) -> str:
     return "T" if x > 0 else "C"
 
 
-def _vec(v: Any) -> str:
-    return "(" + ", ".join(_n(c) for c in v) + ")"
+def _vec(v: Any, scale: float = 1.0) -> str:
+    """A vector; components that are round-off beside `scale` (a direction: 1; a point: the
+    model's extent) print as 0, not as -0.00000000173205."""
+    return "(" + ", ".join(_n(clean_zero(float(c), scale) or 0.0) for c in v) + ")"
+
+
+def _extent(model: Model) -> float:
+    return float(np.abs(model.xyz).max(initial=1.0))
 
 
 def _nice(x: float, scale: float, sp: Any) -> Any:
@@ -144,7 +150,7 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
     out.append("  Cut members (each force drawn as tension, pulling the free body toward the far joint):")
     for member, joint, p, e in lines:
         status = (f"known: {_n(known[member])} {fu} from an earlier cut" if member in known else "unknown")
-        out.append(f"    {member}: at {joint} {_vec(p)}, direction {_vec(e)}; {status}")
+        out.append(f"    {member}: at joint {joint} {_vec(p, _extent(model))}, direction {_vec(e)}; {status}")
     reactions = [x for x in external if x.kind == "reaction"]
     loads = [x for x in external if x.kind == "load"]
     if reactions:
@@ -193,7 +199,9 @@ def _equation_text(model: Model, cut: SectionCut, external, lines, known, fu: st
     out: list[str] = []
     elim = ", ".join(cut.eliminated)
     if cut.method == MOMENTS:
-        where = f"{cut.moment_joint} {_vec(cut.moment_point)}" if cut.moment_joint else f"the point {_vec(cut.moment_point)}"
+        extent = _extent(model)
+        where = (f"joint {cut.moment_joint} {_vec(cut.moment_point, extent)}" if cut.moment_joint
+                 else f"the point {_vec(cut.moment_point, extent)}")
         if d == 2:
             head = f"  ΣM about {where} = 0, anticlockwise positive"
         else:
@@ -299,9 +307,9 @@ def render_reactions(model: Model, load_name: str, *, exact: bool = True) -> str
     loaded = [j for j in range(len(model.joints)) if np.any(F[j] != 0)]
     labels = [r.label for r in model.reactions]
     if d == 2:
-        rows = [(2, f"ΣM about {pivot} = 0 (anticlockwise positive)"), (0, "ΣFx = 0"), (1, "ΣFy = 0")]
+        rows = [(2, f"ΣM about joint {pivot} = 0 (anticlockwise positive)"), (0, "ΣFx = 0"), (1, "ΣFy = 0")]
     else:
-        rows = [(3 + k, f"ΣM about the {a}-axis through {pivot} = 0") for k, a in enumerate("xyz")]
+        rows = [(3 + k, f"ΣM about the {a}-axis through joint {pivot} = 0") for k, a in enumerate("xyz")]
         rows += [(k, f"ΣF{a} = 0") for k, a in enumerate("xyz")]
     solved: set[int] = set()
     scale = max(float(np.abs(F).max(initial=0.0)), float(np.abs(R[:, column]).max(initial=0.0)), 1e-300)

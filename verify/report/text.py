@@ -8,7 +8,9 @@ from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
-from verify.report.numbers import fmt, plain_table, tc
+from verify.report.cautions import ELASTIC_CAUTION
+from verify.report.names import method_phrase
+from verify.report.numbers import fmt, fmt_ratio, plain_table, roundoff_text, tc
 
 AXIS_NAMES = ("x", "y", "z")
 
@@ -19,19 +21,20 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         f"Truss: {model.title or model.source}  ({d}D, {s.joints} joints, {s.members} members, {s.reactions} reaction components)",
         f"Maxwell's rule: b + r - {d}j = {s.members} + {s.reactions} - {d}x{s.joints} = {s.maxwell}"
         + ("  (too few members or supports)" if s.maxwell < 0 else ""),
-        f"Equilibrium matrix ({s.method}): rank {s.rank} of {d * s.joints} joint equations and {s.members + s.reactions} unknowns",
-        f"  mechanisms m = {s.mechanisms}{'' if s.exact_counts else ' (at least)'}"
+        f"Equilibrium matrix ({method_phrase(s.method)}): rank {s.rank} of {d * s.joints} joint equations and {s.members + s.reactions} unknowns",
+        f"  mechanisms: {s.mechanisms}{'' if s.exact_counts else ' (at least)'}"
         f"{f' ({s.rigid_body_mechanisms} rigid-body)' if s.rigid_body_mechanisms else ''}, "
-        f"states of self-stress s = {s.self_stress}",
+        f"states of self-stress: {s.self_stress}",
     ]
     if s.sigma_ratio is not None:
         lines.append(
-            f"  conditioning: sigma_min/sigma_max = {s.sigma_ratio:.3g}; scaled by slenderness^2 "
-            f"({s.slenderness:.3g}^2) = {s.scaled_ratio:.3g}"
-            + ("  NEAR-MECHANISM" if s.ill_conditioned else f"  (sound; near-mechanism below {ILL_CONDITIONED_SCALED:g})")
+            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by extent ratio^2 "
+            f"({fmt(s.slenderness, 3)}^2) = {fmt_ratio(s.scaled_ratio)}"
+            + ("  NEAR-MECHANISM" if s.ill_conditioned else
+               f"  (well conditioned; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})" if s.is_stable else "")
         )
     elif s.scaled_ratio is not None:
-        lines.append(f"  LU pivot ratio min/max = {s.scaled_ratio:.3g}")
+        lines.append(f"  LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}")
     verdict = s.classification.value
     if s.classification.value == "stable-indeterminate":
         verdict += f" (degree {s.self_stress})"
@@ -58,7 +61,8 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     k = ref.column(load_name)
     scale = float(np.nanmax(np.abs(ref.member_forces[:, k]))) if ref.member_forces.size else 0.0
     zero = 1e-9 * (scale or 1.0)
-    headers = ["member", "force", "T/C"]
+    unit = model.units.force.symbol
+    headers = ["member", f"force ({unit})", "T/C"]
     routes: list[tuple[str, np.ndarray]] = []
     if analysis.joints is not None:
         routes.append(("joints", analysis.joints.forces.member_forces[:, k]))
@@ -66,7 +70,7 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     if sections is not None:
         routes.append(("sections", sections.forces.member_forces[:, k]))
     for name, _ in routes:
-        headers.append(name)
+        headers.append(f"{name} ({unit})")
     rows = []
     shown: list[int] | range = range(len(model.members))
     note = ""
@@ -93,14 +97,14 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     rzero = 1e-9 * max((abs(c) for vec in reactions.values() for c in vec), default=0.0)
     rrows = [[j] + [(fmt(c if abs(c) > rzero else 0.0) if a in acting[j] else "—") for a, c in zip(AXIS_NAMES, vec, strict=False)]
              for j, vec in reactions.items()]
-    rtable = plain_table(["support"] + [f"R{a}" for a in AXIS_NAMES[: model.dim]], rrows)
+    rtable = plain_table(["support"] + [f"R{a} ({unit})" for a in AXIS_NAMES[: model.dim]], rrows)
     return f"{table}{note}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
 
 
 def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False, load_names: list[str] | None = None) -> str:
     parts = []
     unit = model.units.force.symbol
-    route = "global sparse solve" if analysis.global_ is not None else "direct stiffness method"
+    route = "global solve of every joint equation at once" if analysis.global_ is not None else "direct stiffness method"
     for name in load_names or model.load_names:
         parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
         parts.append(force_table(model, analysis, name, all_rows=all_rows))
@@ -116,7 +120,7 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False,
             parts.append(f"  ... and {len(sections.unreached) - 20} more")  # type: ignore[attr-defined]
     if analysis.joints is not None:
         parts.append(
-            f"Method of joints, section cuts and global solve agree to {analysis.route_disagreement:.1e} of the largest force"
+            f"Method of joints, section cuts and global solve {roundoff_text(analysis.route_disagreement)}"
             + (" (BEYOND round-off: check geometry)" if analysis.route_disagreement > 1e-6 else "")
         )
     parts.extend(f"note: {n}" for n in analysis.notes)
@@ -125,6 +129,7 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False,
         parts.extend(f"note: {n}" for n in getattr(elastic, "notes", ()))
         if getattr(elastic, "equal_EA_assumed", False):
             parts.insert(0, "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution depends on that assumption.\n")
+        parts.append(f"note: {ELASTIC_CAUTION}")
     if analysis.joints is not None:
         parts.extend(f"note: {n}" for n in analysis.joints.notes)
     return "\n".join(parts)
@@ -156,8 +161,8 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
         if step.kind == "reactions":
             point = np.asarray(solution.moment_point)
             G, E = overall_equilibrium_matrix(model, point)
-            out.append(f"\nStep {n}: reactions from overall equilibrium (moments about {solution.moment_joint})")
-            labels = (["ΣFx", "ΣFy", f"ΣM({solution.moment_joint})"] if d == 2
+            out.append(f"\nStep {n}: reactions from overall equilibrium (moments about joint {solution.moment_joint})")
+            labels = (["ΣFx", "ΣFy", f"ΣM about joint {solution.moment_joint}"] if d == 2
                       else ["ΣFx", "ΣFy", "ΣFz", "ΣMx", "ΣMy", "ΣMz"])
             order = [2, 0, 1] if d == 2 else list(range(6))
             for row in order:
@@ -198,5 +203,14 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
             out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(parts) if parts else '0'} = 0")
         out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns))
         solved.update(step.unknowns)
-    out.append(f"\nCheck: largest out-of-balance force over all joint equations = {solution.max_residual:.2e} {unit}")
+    out.append(f"\nCheck: largest out-of-balance force over all joint equations = {_residual(solution.max_residual, t, unit)}")
     return "\n".join(out)
+
+
+def _residual(residual: float, forces: np.ndarray, unit: str) -> str:
+    """The out-of-balance check in words: round-off is said to be round-off, not printed as 3.0e-14."""
+    finite = forces[np.isfinite(forces)]
+    largest = float(np.abs(finite).max(initial=0.0))
+    if residual <= 1e-9 * (largest or 1.0):
+        return f"0 {unit} (round-off, below {fmt_ratio(1e-9 * (largest or 1.0))} {unit})"
+    return f"{fmt_ratio(residual)} {unit}"
