@@ -27,6 +27,7 @@ from verify.compare.causes.variants import (
     SHORTLIST,
     LoadChange,
     Variant,
+    case_scaled_words,
     fit_scale,
     load_changes,
     nice_factors,
@@ -67,12 +68,16 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     """Causes for the disagreeing claims `pending` (a mask over the frame)."""
     notes: list[str] = []
     model = analysis.model
-    if analysis.global_ is None or pending.sum() < MIN_EXPLAINED:
+    if analysis.reference is None or pending.sum() < MIN_EXPLAINED:
         return SearchResult([], pending.copy(), notes)
+    # An indeterminate truss (forces from the direct stiffness method) has no statics LU to price
+    # load or support changes on, but a factor on a load case or in a combination changes its
+    # forces in proportion whatever the stiffness: those are searched there too.
+    statics = analysis.global_ is not None
     agreed = frame.agrees(frame.computed)
     start = pending.copy()
-    geometry = len(model.members) <= GEOMETRY_MEMBER_LIMIT
-    if not geometry:
+    geometry = statics and len(model.members) <= GEOMETRY_MEMBER_LIMIT
+    if statics and not geometry:
         notes.append(f"likely causes: support and dimension variants are tried only up to {GEOMETRY_MEMBER_LIMIT} members "
                      f"(this truss has {len(model.members)}); load and combination variants were tried")
     # The first cause is chosen among the best few by where the whole chain leads: two mistakes
@@ -172,17 +177,120 @@ def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.
 def _candidates(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str], *,
                 geometry: bool):
     yield from _combination_variants(frame, pending, base, analysis)
+    if analysis.global_ is None:
+        yield from _case_scale_variants(frame, pending, base, analysis)
+        return
     yield from _load_variants(frame, pending, base, analysis, notes)
+    yield from _implied_load_variants(frame, pending, base, analysis)
     if geometry:
         yield from _support_variants(frame, base, analysis)
         yield from _added_restraint_variants(frame, pending, base, analysis)
         yield from _dimension_variants(frame, pending, base, analysis)
 
 
+LOAD_MATCH = 0.03  # an implied load matches a case load within this fraction of its size
+
+
+def _implied_load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+    """Several loads of one case left out, scaled or moved at once, read off the loads the claims
+    balance (implied loads): where every member has a claim, joint equilibrium gives the load the
+    claims carry at each joint. The differences are taken as the change only when they look like
+    loads: each is the case load there scaled (left out, doubled, reversed), or a load that left one
+    joint arriving at another; a wrong member value instead leaves equal and opposite forces along
+    the member at its two ends, which are neither."""
+    from verify.analysis.global_solve import equilibrium_lu
+    from verify.compare.balance import claims_balance
+    from verify.compare.tolerances import Tolerance
+
+    model = analysis.model
+    n_cases = len(model.cases)
+    d = model.dim
+    names = list(frame.load_names)
+    claimed = np.full((len(model.members), len(names)), np.nan)
+    claimed[frame.member, frame.column] = frame.claimed
+    rounding = np.zeros_like(claimed)
+    rounding[frame.member, frame.column] = frame.rounding
+    F = model.load_matrix()
+    C = model.combination_matrix()
+    lu = equilibrium_lu(model)
+    imbalances = claims_balance(model, claimed, {}, names, Tolerance(rtol=frame.rtol), rounding)
+    for k in sorted({int(x) for x in frame.column[pending].tolist() if x < n_cases}):
+        joints = [b for b in imbalances if b.case == names[k]]
+        if not joints:
+            continue
+        delta = np.zeros(model.dofs)
+        scaled: list[tuple[str, float, float]] = []
+        gone: list[tuple[str, float, float]] = []
+        arrived: list[tuple[str, float, np.ndarray]] = []
+        for b in joints:
+            j = model.joint_index[b.joint]
+            load = F[j * d:(j + 1) * d, k]
+            change = -np.asarray(b.residual)  # implied - case load
+            implied = load + change
+            size = float(np.linalg.norm(load))
+            if size > 0:
+                ratio = float(implied @ load) / size ** 2
+                if np.linalg.norm(implied - ratio * load) > LOAD_MATCH * size:
+                    break  # not along the case load: no load slip
+                # plain factors only (two figures or steps of 0.05) within the range of load slips:
+                # a load taken as 41.5 or 1.37 x itself is a wrong member value there, not a slip
+                plain = min([f for f in nice_factors(ratio) if len(f"{abs(f):g}".replace(".", "").strip("0")) <= 2
+                             or abs(f * 20 - round(f * 20)) < 1e-9] or [0.0], key=lambda f: abs(f - ratio))
+                if (abs(plain - ratio) > LOAD_MATCH * max(abs(ratio), 1.0)
+                        or not LOAD_FACTOR_RANGE[0] <= plain <= LOAD_FACTOR_RANGE[1]):
+                    break
+                ratio = plain
+                (gone if abs(ratio) < LOAD_MATCH else scaled).append((b.joint, ratio, size))
+            else:
+                arrived.append((b.joint, float(np.linalg.norm(implied)), implied))
+            delta[j * d:(j + 1) * d] = change
+        else:
+            # loads that arrive where there were none must be ones that left elsewhere, size for size
+            left = sorted(size for _, _, size in gone)
+            came = sorted(size for _, size, _ in arrived)
+            if len(came) > len(left) or any(not any(abs(c - x) <= LOAD_MATCH * x for x in left) for c in came):
+                continue
+            if len(gone) + len(scaled) + len(arrived) < 2:
+                continue  # one joint: the single-load variants say it better
+            t = lu.solve(-delta)[: len(model.members)]
+            shift = t[frame.member] * C[k, frame.column]
+            parts = []
+            if gone:
+                parts.append(f"left out at {', '.join(j for j, _, _ in gone)}")
+            if scaled:
+                parts.append("taken as " + ", ".join(f"{fmt(r, 3)} times the case load at {j}" for j, r, _ in scaled))
+            if arrived:
+                parts.append("applied at " + ", ".join(f"{j} ({fmt(size, 3)})" for j, size, _ in arrived))
+            words = f"the '{names[k]}' loads as the claims balance them: " + "; ".join(parts)
+            # read off the claims, so fitted: a named slip (the other chord, one load moved) that
+            # explains as much is the plainer reading
+            yield Variant("loads-implied", words, shift, names[k], tuple(b.joint for b in joints), fitted=True)
+
+
+def _case_scale_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+    """A load case's loads all scaled (or reversed): its forces scale alike in every column that
+    holds it, whatever the member stiffnesses (no solve needed)."""
+    model = analysis.model
+    ref = analysis.reference
+    assert ref is not None
+    C = model.combination_matrix()
+    target = frame.claimed - frame.computed - base
+    for c, case in enumerate(model.cases):
+        unit = ref.member_forces[frame.member, c] * C[c, frame.column]
+        s = fit_scale(frame, target, unit, pending)
+        if s is None:
+            continue
+        new = _plainest(frame, pending, base, [(f, (f - 1.0) * unit) for f in nice_factors(1.0 + s)
+                                               if abs(f - 1.0) > 1e-12 and LOAD_FACTOR_RANGE[0] <= f <= LOAD_FACTOR_RANGE[1]])
+        if new is not None:
+            words = case_scaled_words(case.name)(new)
+            yield Variant("case-scaled", words, (new - 1.0) * unit, case.name, (), new, fitted=True)
+
+
 def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
     """A load case's factor in one combination differs (a case left out or added included)."""
     model = analysis.model
-    ref = analysis.global_
+    ref = analysis.reference
     assert ref is not None
     n_cases = len(model.cases)
     C = model.combination_matrix()
@@ -273,7 +381,8 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     if enough.any():
         median[enough] = np.nanmedian(ratios[:, enough], axis=0)
     factor = 1.0 + median
-    sizes = np.vstack([_round_to(factor, digits) - 1.0 for digits in (1, 2, 3)])
+    sizes = np.vstack([_round_to(factor, 1) - 1.0, _round_to(factor, 2) - 1.0, np.round(factor * 20.0) / 20.0 - 1.0,
+                       _round_to(factor, 3) - 1.0])
     for special in (0.0, 2.0, -1.0):  # left out, counted twice, reversed
         sizes[0] = np.where(np.abs(factor - special) < 0.05, special - 1.0, sizes[0])
     sizes[:, ~fitted] = 1.0
@@ -377,8 +486,7 @@ def _added_restraint_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.
                 size = fit_scale(frame, target, np.where(in_column, unit, 0.0), pending & in_column)
                 if size is None:
                     continue
-                size = float(_round_to(np.array([size]), 3)[0])
-                shift = np.where(in_column, size * unit, shift)
+                shift = np.where(in_column, size * unit, shift)  # a fitted reaction, not a round input value
                 thrusts.append(f"{fmt(size, 3)} in '{frame.load_names[k]}'")
             if not thrusts:
                 continue

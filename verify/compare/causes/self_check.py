@@ -9,6 +9,7 @@ table's own columns, then the plainest round values that fit).
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Callable
 
 import numpy as np
@@ -19,6 +20,8 @@ from verify.formatting import fmt
 from verify.model import Model
 
 SHOWN = 12
+MIN_OWN_ROWS = 6  # rows needed before the table's own factors are named
+OTHER_FACTORS_SHARE = 0.3  # of a column's rows contradicting the case file's factors
 OWN_FACTOR_ODD_SHARE = 0.1  # rows that may contradict the factors a combination column was made with
 
 
@@ -64,13 +67,17 @@ def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, cla
             continue
         ids = [model.members[int(m)].id for m in np.flatnonzero(rows)]
         bad = [ids[i] for i in np.flatnonzero(wrong)]
-        words = " + ".join(f"{fmt(float(f), 3)} × {model.cases[c].name}" for f, c in zip(defined, cases, strict=True))
-        own = _own_factors(parts, combo, contradicting)
+        words = _terms(defined, [model.cases[c].name for c in cases])
         shown = ", ".join(bad[:SHOWN]) + (f" and {len(bad) - SHOWN} more" if len(bad) > SHOWN else "")
         text = (f"in the claimed table, '{names[k]}' is not {words} of the table's own load-case columns for "
                 f"{len(bad)} of {int(rows.sum())} members ({shown})")
-        if own is not None and not np.allclose(own, defined):
-            fitted = " + ".join(f"{fmt(float(f), 3)} × {model.cases[c].name}" for f, c in zip(own, cases, strict=True))
+        # Other factors are named only when the case file's leave a good part of the column
+        # contradicting: a few rows are slips of their own, and with load cases of similar shape
+        # many factor pairs fit a column that is a few rows out.
+        many = wrong.sum() > max(_odd_rows(len(combo)), OTHER_FACTORS_SHARE * len(combo))
+        own = _own_factors(parts, combo, defined, contradicting) if many else None
+        if own is not None and not np.allclose(own, defined, rtol=0, atol=1e-9):
+            fitted = _terms(own, [model.cases[c].name for c in cases])
             odd = [ids[i] for i in np.flatnonzero(contradicting(own))]
             besides = (f" (except {', '.join(odd[:SHOWN])}: {'it contradicts' if len(odd) == 1 else 'they contradict'} "
                        "the table either way)") if odd else " throughout"
@@ -83,19 +90,34 @@ def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, cla
     return out
 
 
-def _own_factors(parts: np.ndarray, combo: np.ndarray,
+def _terms(factors: np.ndarray, names: list[str]) -> str:
+    text = " + ".join(f"{fmt(float(f), 3)} × {n}" for f, n in zip(factors, names, strict=True) if f != 0) or "0"
+    return text.replace("+ -", "- ")
+
+
+def _odd_rows(n: int) -> int:
+    """Rows that may contradict the factors a column was made with (a copied or mistyped value)."""
+    return max(1, int(OWN_FACTOR_ODD_SHARE * n))
+
+
+def _own_factors(parts: np.ndarray, combo: np.ndarray, defined: np.ndarray,
                  contradicting: Callable[[np.ndarray], np.ndarray]) -> np.ndarray | None:
-    """Round factors with which the combination column is consistent with its own cases, if any."""
-    if parts.shape[0] < parts.shape[1] + 2:
-        return None
-    # a row or two may be wrong on their own (a copied value): fit, drop the worst row, refit
-    allowed_odd = max(1, int(OWN_FACTOR_ODD_SHARE * len(combo)))
+    """Round factors with which the combination column is consistent with its own cases, if any.
+
+    Each factor is tried as the case file's, then as round values near the fit, plainest first,
+    every combination of them (a column made with 1.5 x traffic and the case file's 1.35 x dead is
+    found as such); a few rows may contradict the table either way.
+    """
+    k = parts.shape[1]
+    if parts.shape[0] < max(MIN_OWN_ROWS, 3 * k):
+        return None  # too few rows to tell factors from rounding
+    allowed_odd = _odd_rows(len(combo))
     keep = np.ones(len(combo), dtype=bool)
     for _ in range(allowed_odd + 1):
         fitted = np.linalg.lstsq(parts[keep], combo[keep], rcond=None)[0]
-        choices = [nice_factors(float(f)) or [0.0] for f in fitted]
-        for depth in range(3):  # plainest first: 1, then 2, then 3 significant figures
-            picked = np.array([c[min(depth, len(c) - 1)] for c in choices])
+        choices = [list(dict.fromkeys([float(d)] + nice_factors(float(f))))[:5] for f, d in zip(fitted, defined, strict=True)]
+        for combo_index in sorted(itertools.product(*(range(len(c)) for c in choices)), key=sum):
+            picked = np.array([choices[i][j] for i, j in enumerate(combo_index)])
             if contradicting(picked).sum() <= allowed_odd:
                 return picked
         residual = np.where(keep, np.abs(combo - parts @ fitted), -1.0)

@@ -83,7 +83,10 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
     # Only claims clearly wrong: a value just outside its allowance is a rounding question, and in
     # a table rounded to two figures many rows repeat one another honestly.
     clear = np.abs(frame.claimed - frame.computed - base) > CLEAR_MISS * frame.allowed(frame.computed + base)
-    candidates = pending & clear
+    # a claim that is its own member's force with the sign reversed is a sign flip, however many
+    # mirror members carry the same size
+    flipped = frame.agrees(frame.computed + base, -frame.claimed)
+    candidates = pending & clear & ~flipped
     candidates &= np.array([bool(t.strip()) and significant_figures(t) >= MIN_COPY_FIGURES if c else False
                             for t, c in zip(frame.written, candidates.tolist(), strict=True)], dtype=bool)
     candidates &= frame.claimed != 0  # zeros repeat honestly on every idle member

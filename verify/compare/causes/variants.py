@@ -144,13 +144,22 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
         if not loaded:
             continue
         # The whole case on the other chord (the joints directly above or below).
+        # A case on both chords (dead load) may have had one chord's loads moved: each direction
+        # on its own, and both together when the case sits on one chord only.
         moved = [j for j in loaded if j in partner]
-        if moved and len(moved) * 2 >= len(loaded):
-            targets = [partner[j] for j in moved]
-            where = "above" if np.mean([model.xyz[t, v] - model.xyz[j, v] for j, t in zip(moved, targets, strict=True)]) > 0 else "below"
-            out.append(change("loads-other-chord", c, [(j, -column[j]) for j in moved] + [(t, column[j]) for j, t in zip(moved, targets, strict=True)],
+        up = [j for j in moved if model.xyz[partner[j], v] > model.xyz[j, v]]
+        down = [j for j in moved if model.xyz[partner[j], v] < model.xyz[j, v]]
+        groups = [(group, "above" if group is up else "below") for group in (up, down) if len(group) >= 2]
+        if up and down and len(moved) * 2 >= len(loaded):
+            groups.append((moved, "above or below"))
+        elif moved and len(moved) * 2 >= len(loaded) and not groups:
+            groups.append((moved, "above" if up else "below"))
+        for group, where in groups:
+            targets = [partner[j] for j in group]
+            parts = [(j, -column[j]) for j in group] + [(t, column[j]) for j, t in zip(group, targets, strict=True)]
+            out.append(change("loads-other-chord", c, parts,
                               f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
-                              f"{_names(ids, moved)}", tuple(ids[t] for t in targets)))
+                              f"{_names(ids, group)}", tuple(ids[t] for t in targets)))
         # The whole case turned vertical (a load normal to a member applied straight down or up).
         across = np.abs(np.delete(column, v, axis=1)).max(axis=1)
         tilted = (across > 1e-9 * np.abs(column).max(axis=1)) & (column[:, v] != 0)
@@ -166,7 +175,7 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                               "instead of in their stated directions (e.g. normal to the member they act on)",
                               tuple(ids[j] for j in slanted)))
         # The whole case scaled (a load value or factor other than the case file's).
-        out.append(change("case-scaled", c, [(j, column[j]) for j in loaded], _case_scaled_words(name), (), fitted=True))
+        out.append(change("case-scaled", c, [(j, column[j]) for j in loaded], case_scaled_words(name), (), fitted=True))
         # Single-joint changes, nearest the disagreement first: one load left out, doubled,
         # reversed or of another size ("load-scaled"), or at the other end of a member
         # ("load-moved", not onto a loaded joint: that reads as the other joint's load scaled).
@@ -184,9 +193,8 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
             at.append(j)
             to.append(-1)
             for n in adjacency.indices[adjacency.indptr[j]:adjacency.indptr[j + 1]].tolist():
-                if n == partner.get(j) or not np.abs(column[n]).sum() > 0:
-                    at.append(j)
-                    to.append(n)
+                at.append(j)  # onto a loaded joint too: L3's load applied at L2 makes L2 carry both
+                to.append(n)
         single_case.append(np.full(len(at), c, dtype=np.int64))
         single_joints.append(np.array(at, dtype=np.int64))
         single_targets.append(np.array(to, dtype=np.int64))
@@ -230,12 +238,15 @@ class Singles(NamedTuple):
         if n < 0:
             return LoadChange("load-scaled", c, j * d + np.arange(d), load.copy(), _scaled_words(name, ids[j], load),
                               (ids[j],), fitted=True)
+        there = model.load_matrix()[n * d:(n + 1) * d, c]
+        also = (f" (which then carries {fmt(float(np.linalg.norm(there + load)), 4)} instead of "
+                f"{fmt(float(np.linalg.norm(there)), 4)})") if np.abs(there).sum() > 0 else ""
         return LoadChange("load-moved", c, np.concatenate([j * d + np.arange(d), n * d + np.arange(d)]),
-                          np.concatenate([-load, load]), f"the '{name}' load at {ids[j]} applied at {ids[n]} instead",
+                          np.concatenate([-load, load]), f"the '{name}' load at {ids[j]} applied at {ids[n]} instead{also}",
                           (ids[j], ids[n]))
 
 
-def _case_scaled_words(case: str) -> Callable[[float], str]:
+def case_scaled_words(case: str) -> Callable[[float], str]:
     def words(f: float) -> str:
         if abs(f + 1.0) < 1e-9:
             return f"the '{case}' loads applied in the opposite direction (suction for pressure, uplift for down)"
@@ -274,6 +285,10 @@ def nice_factors(value: float) -> list[float]:
         r = round(value, digits - 1 - magnitude)
         if r not in out:
             out.append(r)
+        if digits == 2:
+            twentieth = round(value * 20.0) / 20.0  # partial factors come in steps of 0.05 (1.35)
+            if twentieth not in out and twentieth != 0:
+                out.append(twentieth)
     for special in (0.0, 2.0, -1.0):
         if abs(value - special) < 0.05 and special not in out:
             out.insert(0, special)
