@@ -96,9 +96,10 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
         chains.append((int((start & ~pending).sum()), -len(steps), steps, pending))
     if not chains:
         columns = ", ".join(f"'{c}'" for c in frame.columns_of(start))
-        notes.append(f"likely causes: no single change of the model among those tried (loads, combination factors, "
-                     f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
-                     "their findings follow")
+        if statics:  # on an indeterminate truss only factors were tried, and other steps follow
+            notes.append(f"likely causes: no single change of the model among those tried (loads, combination factors, "
+                         f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
+                         "their findings follow")
         return SearchResult([], start.copy(), notes)
     _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
     causes = [Cause(_with_alternates(frame, start, steps, i), step.explained) for i, step in enumerate(steps)]
@@ -122,8 +123,9 @@ def _with_alternates(frame: ClaimsFrame, start: np.ndarray, steps: list[_Found],
     total = sum(step.variant.shift for step in steps)
     count = int((start & frame.agrees(frame.computed + total)).sum())
     variant = steps[i].variant
-    alike = [alt.words for alt in steps[i].alternates
-             if int((start & frame.agrees(frame.computed + total - variant.shift + alt.shift)).sum()) >= count]
+    # loads read off the claims restate a named load change: never listed beside one
+    alike = [alt.words for alt in steps[i].alternates if alt.kind != "loads-implied"
+             and int((start & frame.agrees(frame.computed + total - variant.shift + alt.shift)).sum()) >= count]
     if alike:
         variant = variant._replace(words=variant.words + ALIKE + ALIKE.join(alike[:MAX_ALIKE]))
     return variant
