@@ -499,6 +499,8 @@ def _column_readings(c: Comparison) -> None:
                                             f"{best.agree} of {best.informative} members agree when it is read so "
                                             f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
                                             Severity.ERROR, case=mapping.get(column), locations=_column_where(claims, column)))
+                if rel_sign == -1 and _reversed_load_case(c, column):
+                    continue  # the case's loads reversed (its combinations show it): a likely cause, not a convention
                 if rel_sign == -1:
                     flipped = in_column & ~fixed_all & is_member_claim
                     conv[flipped] *= -1.0  # T/C marks and reactions keep their own sign
@@ -1074,6 +1076,41 @@ STEPS = (
     _balance,
     _finish,
 )
+
+
+def _reversed_load_case(c: Comparison, column: str) -> bool:
+    """Whether a load-case column read with every sign reversed is rather the case's loads reversed:
+    a claimed combination holding the case then agrees better with the case reversed in it too
+    (a sign convention is the table's, and leaves the combination columns as they are)."""
+    model, mapping, ref = c.model, c.mapping, c.ref
+    target = mapping.get(column)
+    case_names = [case.name for case in model.cases]
+    if ref is None or target not in case_names:
+        return False
+    case = case_names.index(target)
+    C = model.combination_matrix()
+    for other, name in mapping.items():
+        if name is None or name == target or name not in model.load_names:
+            continue
+        k = model.load_names.index(name)
+        if C[case, k] == 0:
+            continue
+        picked = [i for i, v in c.member_claims if v.column == other]
+        if len(picked) < MIN_MEMBERS_FOR_TABLE:
+            continue
+        idx = np.array(picked, dtype=np.int64)
+        claimed = c.raw[idx] * c.conv[idx]
+        as_defined = ref.member_forces[c.member_pos[idx], k]
+        reversed_case = as_defined - 2.0 * C[case, k] * ref.member_forces[c.member_pos[idx], case]
+        atol = c.tol.atol_fraction * (c.scale_of.get(name) or 1.0)
+
+        def agreeing(computed: np.ndarray, claimed: np.ndarray = claimed, atol: float = atol) -> int:
+            allowed = np.maximum(c.tol.rtol * np.maximum(np.abs(claimed), np.abs(computed)), atol)
+            return int((np.abs(claimed - computed) <= allowed).sum())
+
+        if agreeing(reversed_case) > max(agreeing(as_defined), len(idx) // 2):
+            return True
+    return False
 
 
 def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:
