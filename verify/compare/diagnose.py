@@ -388,19 +388,27 @@ def _units(c: Comparison) -> None:
 
 
 def _gather(c: Comparison) -> None:
-    claims, load_names, mapping, ref, stab = c.claims, c.load_names, c.mapping, c.ref, c.stab
-    values = c.values
+    claims, load_names, mapping, model, ref, stab = c.claims, c.load_names, c.mapping, c.model, c.ref, c.stab
     # Gather comparable member claims.
     member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
     comparable = ref is not None and stab.classification is not Classification.UNSTABLE
     scale_of: dict[str, float] = {}
     if ref is not None:
+        F = model.load_matrix()
+        d = model.dim
         for k, name in enumerate(load_names):
             # Largest member force or reaction: a truss whose members are all idle (a load
             # straight over a support) still has a yardstick for "near zero".
-            values = np.concatenate([ref.member_forces[:, k], ref.reactions[:, k]])
-            scale_of[name] = float(np.nanmax(np.abs(values))) if values.size else 0.0
-    c.comparable, c.member_claims, c.scale_of, c.values = comparable, member_claims, scale_of, values
+            forces = np.concatenate([ref.member_forces[:, k], ref.reactions[:, k]])
+            largest = float(np.nanmax(np.abs(forces))) if forces.size else 0.0
+            # ... but on a long truss the chords carry hundreds of times the panel load, and a
+            # thousandth of them would let a wrong web member agree: the yardstick is capped so
+            # that the near-zero allowance stays within a hundredth of the largest joint load.
+            loads = np.linalg.norm(F[:, k].reshape(-1, d), axis=1) if F.size else np.zeros(0)
+            largest_load = float(loads.max()) if loads.size else 0.0
+            cap = NEAR_ZERO_LOAD_SHARE * largest_load / tolerance_fraction(c.tol) if largest_load > 0 else largest
+            scale_of[name] = min(largest, cap)
+    c.comparable, c.member_claims, c.scale_of = comparable, member_claims, scale_of
 
 
 def _case_mismatch(c: Comparison) -> None:
@@ -1076,6 +1084,13 @@ STEPS = (
     _balance,
     _finish,
 )
+
+
+NEAR_ZERO_LOAD_SHARE = 0.01  # the near-zero allowance never exceeds this share of the largest joint load
+
+
+def tolerance_fraction(tol: Tolerance) -> float:
+    return tol.atol_fraction if tol.atol_fraction > 0 else 1.0
 
 
 def _reversed_load_case(c: Comparison, column: str) -> bool:
