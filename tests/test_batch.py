@@ -9,6 +9,8 @@ from __future__ import annotations
 import csv
 import io
 import shutil
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -264,6 +266,13 @@ def test_summary_over_an_input_is_refused_and_the_input_kept(job_folder, tmp_pat
     assert not (folder / "truss-verify-batch" / "reports").exists() or not any((folder / "truss-verify-batch" / "reports").iterdir())
 
 
+def test_summary_in_a_missing_folder_is_refused_before_any_case_runs(job_folder, tmp_path):
+    folder, _ = fresh_copy(job_folder, tmp_path)
+    code, _, err = run_cli(folder, "--summary", tmp_path / "nowhere" / "s.csv")
+    assert code == 2 and "does not exist" in err
+    assert not (folder / "truss-verify-batch" / "reports").exists()
+
+
 def test_inputs_are_unchanged_by_a_batch_run(job_folder, tmp_path):
     folder, _ = fresh_copy(job_folder, tmp_path)
     before = {p: p.read_bytes() for p in folder.rglob("*") if p.is_file()}
@@ -290,26 +299,46 @@ def test_bundled_cases_run_as_a_folder(tmp_path):
 
 
 # -- Dask ----------------------------------------------------------------------------------------
+# The cluster runs in a child process, and so does the command that uses it: Dask leaves threads
+# running in a process that used it, and a process with threads must not fork (the pipeline then
+# stays in one process, which other tests check it does not do needlessly).
+CLUSTER_SCRIPT = """
+import sys
+from distributed import LocalCluster
+with LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp://", host="127.0.0.1",
+                  dashboard_address=None) as cluster:
+    print(cluster.scheduler_address, flush=True)
+    sys.stdin.read()  # until the test closes the pipe
+"""
+
+
 def test_a_local_dask_cluster_gives_the_same_summary_as_the_local_run(job_folder, tmp_path):
-    distributed = pytest.importorskip("distributed")  # the test extra installs it; see pyproject.toml
+    pytest.importorskip("distributed")  # the test extra installs it; see pyproject.toml
     folder, _ = fresh_copy(job_folder, tmp_path)
     run_cli(folder, "--jobs", 2, "--summary", tmp_path / "local.csv", "--out", tmp_path / "local")
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None) as cluster:
-        code, _, err = run_cli(folder, "--scheduler", cluster.scheduler_address, "--summary", tmp_path / "dask.csv",
-                               "--out", tmp_path / "dask")
+    cluster = subprocess.Popen([sys.executable, "-c", CLUSTER_SCRIPT], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
+                               stderr=subprocess.DEVNULL, text=True)
+    try:
+        assert cluster.stdout is not None
+        address = cluster.stdout.readline().strip()
+        assert address.startswith("tcp://"), address
+        done = subprocess.run([sys.executable, "-m", "verify.cli", "batch", str(folder), "--scheduler", address,
+                               "--summary", str(tmp_path / "dask.csv"), "--out", str(tmp_path / "dask")],
+                              capture_output=True, text=True, timeout=300)
+    finally:
+        cluster.communicate(input="", timeout=60)
     local, remote = summary_rows(tmp_path / "local.csv"), summary_rows(tmp_path / "dask.csv")
     for rows in (local, remote):
         for row in rows:
             del row[TIME_COLUMN]
     assert remote == local
-    assert code == 1 and err.count("\n") == len(local)
+    progress = [line for line in done.stderr.splitlines() if line.startswith("[")]
+    assert done.returncode == 1 and len(progress) == len(local), done.stderr
     assert sorted(p.name for p in (tmp_path / "dask" / "reports").iterdir()) == sorted(
         p.name for p in (tmp_path / "local" / "reports").iterdir())
 
 
 def test_scheduler_without_the_extra_says_how_to_install_it(job_folder, tmp_path, monkeypatch):
-    import sys
-
     monkeypatch.setitem(sys.modules, "distributed", None)  # what an install without the extra sees
     folder, _ = fresh_copy(job_folder, tmp_path)
     code, out, err = run_cli(folder, "--scheduler", "tcp://127.0.0.1:1")

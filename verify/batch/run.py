@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import multiprocessing
 import re
+import threading
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from concurrent.futures.process import BrokenProcessPool
@@ -65,13 +66,28 @@ def status_line(counts: dict[str, int], code: int) -> str:
 
 # -- runners -------------------------------------------------------------------------------------
 def _warm_imports() -> None:
-    """Import the pipeline once in the parent: forked workers then start with it loaded."""
+    """Import the pipeline once in the parent: forked workers then start with it loaded, and
+    each pays no import at its first case (sympy, for the report's exact values, took 0.5-0.8 s)."""
+    import sympy  # noqa: F401
+
     import verify.analysis.pipeline  # noqa: F401
+    import verify.analysis.sections  # noqa: F401
     import verify.compare.diagnose  # noqa: F401
     import verify.io.case  # noqa: F401
     import verify.io.claims  # noqa: F401
     import verify.options  # noqa: F401
     import verify.report.document  # noqa: F401
+    import verify.report.section_calc  # noqa: F401
+
+
+def _start_method() -> str:
+    """fork when it is safe: a worker then starts with the pipeline imported (about 0.5 s per
+    process otherwise). A process running other threads (a notebook, a Dask client) can deadlock
+    a forked child on a lock one of them held, as verify.analysis.pipeline also knows."""
+    methods = multiprocessing.get_all_start_methods()
+    if "fork" in methods and threading.active_count() == 1:
+        return "fork"
+    return "forkserver" if "forkserver" in methods else "spawn"
 
 
 def local_runner(workers: int) -> Runner:
@@ -83,9 +99,7 @@ def local_runner(workers: int) -> Runner:
                 yield check_job(job)
             return
         _warm_imports()
-        # fork: a worker starts with the pipeline imported (about 0.5 s per process otherwise).
-        methods = multiprocessing.get_all_start_methods()
-        context = multiprocessing.get_context("fork") if "fork" in methods else None
+        context = multiprocessing.get_context(_start_method())
         with ProcessPoolExecutor(max_workers=min(workers, len(jobs)), mp_context=context) as pool:
             futures = {pool.submit(check_job, job): job for job in jobs}
             for future in as_completed(futures):
@@ -123,6 +137,8 @@ def _prepare_output(output: Path, summary: Path, inputs: list[str]) -> None:
     """Refuse, before any case runs, outputs the batch could not write or must not write."""
     if not summary.name.lower().endswith(".csv"):
         raise OutputError(f"--summary: '{summary}' must end in .csv (the summary is comma-separated text)")
+    if summary.resolve().parent != output.resolve() and not summary.resolve().parent.is_dir():
+        raise OutputError(f"--summary: the folder {summary.resolve().parent} does not exist")
     if output.exists() and not output.is_dir():
         raise OutputError(f"{output}: the output folder is a file; name a folder with --out")
     for path in (summary, output / "index.html"):
