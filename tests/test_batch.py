@@ -273,6 +273,16 @@ def test_summary_in_a_missing_folder_is_refused_before_any_case_runs(job_folder,
     assert not (folder / "truss-verify-batch" / "reports").exists()
 
 
+def test_a_closed_stderr_stops_the_progress_lines_not_the_batch(job_folder, tmp_path):
+    folder, expected = fresh_copy(job_folder, tmp_path)
+    child = subprocess.Popen([sys.executable, "-m", "verify.cli", "batch", str(folder), "--jobs", "2"],
+                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    assert child.stderr is not None
+    child.stderr.close()  # as `2>&1 | head -1` does once it has its line
+    assert child.wait(timeout=300) == 1
+    assert len(summary_rows(folder / "truss-verify-batch" / "summary.csv")) == len(expected)
+
+
 def test_inputs_are_unchanged_by_a_batch_run(job_folder, tmp_path):
     folder, _ = fresh_copy(job_folder, tmp_path)
     before = {p: p.read_bytes() for p in folder.rglob("*") if p.is_file()}

@@ -422,11 +422,17 @@ def batch(folder: str, jobs: int | None, scheduler: str | None, summary_path: st
     if scheduler is not None and jobs is not None:
         _fail_input("--jobs sets local processes; with --scheduler the cluster's workers run the cases, so give one or the other")
 
+    quiet: list[bool] = []  # set once stderr is gone (`2>&1 | head`): the summary still owes every case
+
     def progress(result: Any, done: int, total: int) -> None:
         said = "unchanged since the last run" if result.unchanged else f"{result.seconds:.2f} s"
         what = result.status + (f", {result.findings} finding{'s' if result.findings != 1 else ''}" if result.findings else "")
         why = f": {result.reason.splitlines()[-1]}" if result.reason else ""
-        click.echo(escape_controls(f"[{done}/{total}] {result.name}: {what} ({said}){why}"), err=True)
+        if not quiet:
+            try:
+                click.echo(escape_controls(f"[{done}/{total}] {result.name}: {what} ({said}){why}"), err=True)
+            except OSError:
+                quiet.append(True)
 
     try:
         if scheduler is not None:
@@ -434,7 +440,7 @@ def batch(folder: str, jobs: int | None, scheduler: str | None, summary_path: st
                 outcome = run_batch(folder, runner=runner, output=output, summary=summary_path, recheck=recheck,
                                     on_result=progress)
         else:
-            outcome = run_batch(folder, runner=local_runner(jobs or len(os.sched_getaffinity(0))), output=output,
+            outcome = run_batch(folder, runner=local_runner(jobs or _cores()), output=output,
                                 summary=summary_path, recheck=recheck, on_result=progress)
     except InputError as error:
         _fail_input(error)
@@ -444,6 +450,12 @@ def batch(folder: str, jobs: int | None, scheduler: str | None, summary_path: st
     click.echo(f"summary: {outcome.summary}\nindex:   {outcome.index}")
     click.echo(f"Caution: {CAUTION}")
     sys.exit(outcome.exit_code)
+
+
+def _cores() -> int:
+    """The cores this process may use (a container or `taskset` may allow fewer than the machine has)."""
+    affinity = getattr(os, "sched_getaffinity", None)
+    return len(affinity(0)) if affinity is not None else (os.cpu_count() or 1)
 
 
 EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C
