@@ -405,6 +405,75 @@ def demo(as_json: bool, report: str | None) -> None:
     sys.exit(0 if code in (0, 1) else code)
 
 
+@main.command(short_help="Check every case in a folder, in parallel, and write one summary.")
+@click.argument("folder", type=click.Path())
+@click.option("--jobs", type=click.IntRange(min=1), default=None, metavar="N",
+              help="Worker processes on this machine (default: every core available).")
+@click.option("--scheduler", default=None, metavar="ADDRESS",
+              help="Run the cases on a Dask distributed scheduler (e.g. tcp://10.0.0.5:8786) instead of local processes; "
+                   "needs pip install 'truss-verify[cluster]' and the case files at the same paths on every worker.")
+@click.option("--summary", "summary_path", default=None, metavar="FILE.csv",
+              help="Where to write the summary CSV (default: OUT/summary.csv).")
+@click.option("--out", "output", default=None, metavar="DIR",
+              help="Folder for the reports, index.html and the rerun state (default: FOLDER/truss-verify-batch).")
+@click.option("--recheck", is_flag=True, help="Check every case, even those whose inputs are unchanged since the last run.")
+def batch(folder: str, jobs: int | None, scheduler: str | None, summary_path: str | None, output: str | None,
+          recheck: bool) -> None:
+    """Check every case in FOLDER and write a summary CSV, an HTML index and one report per case.
+
+    FOLDER holds case folders (each a case.toml and one claims table: claims.csv, claims.xlsx or
+    claims.pdf), at any depth; or a manifest.csv listing case, claims and options per row (FOLDER
+    may also name the manifest itself). Columns: case, claims (required), name, sign, unit,
+    sheet, pages, rtol, atol_fraction, member_column, case_column, force_column, load_case,
+    assume_equal_ea, displacements. A rerun skips cases whose inputs have not changed. Progress
+    goes to stderr.
+
+    Exit status, the most serious case first: 1 discrepancies, 3 cannot verify, 70 a fault in
+    the tool, 2 bad input (a case, a manifest row, or the command itself); 0 every case agrees.
+    """
+    from verify.batch.cluster import DaskRunner, SchedulerError
+    from verify.batch.run import local_runner, run_batch, status_line
+    from verify.report.atomic import OutputError
+
+    if scheduler is not None and jobs is not None:
+        _fail_input("--jobs sets local processes; with --scheduler the cluster's workers run the cases, so give one or the other")
+
+    quiet: list[bool] = []  # set once stderr is gone (`2>&1 | head`): the summary still owes every case
+
+    def progress(result: Any, done: int, total: int) -> None:
+        said = "unchanged since the last run" if result.unchanged else f"{result.seconds:.2f} s"
+        what = result.status + (f", {result.findings} finding{'s' if result.findings != 1 else ''}" if result.findings else "")
+        why = f": {result.reason.splitlines()[-1]}" if result.reason else ""
+        if not quiet:
+            try:
+                click.echo(escape_controls(f"[{done}/{total}] {result.name}: {what} ({said}){why}"), err=True)
+            except OSError:
+                quiet.append(True)
+
+    try:
+        if scheduler is not None:
+            with DaskRunner(scheduler) as runner:
+                outcome = run_batch(folder, runner=runner, output=output, summary=summary_path, recheck=recheck,
+                                    on_result=progress)
+        else:
+            outcome = run_batch(folder, runner=local_runner(jobs or _cores()), output=output,
+                                summary=summary_path, recheck=recheck, on_result=progress)
+    except InputError as error:
+        _fail_input(error)
+    except (SchedulerError, OutputError) as error:
+        _fail_input(str(error))
+    click.echo(status_line(outcome.counts, outcome.exit_code))
+    click.echo(f"summary: {outcome.summary}\nindex:   {outcome.index}")
+    click.echo(f"Caution: {CAUTION}")
+    sys.exit(outcome.exit_code)
+
+
+def _cores() -> int:
+    """The cores this process may use (a container or `taskset` may allow fewer than the machine has)."""
+    affinity = getattr(os, "sched_getaffinity", None)
+    return len(affinity(0)) if affinity is not None else (os.cpu_count() or 1)
+
+
 EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C
 EXIT_PIPE_CLOSED = 141  # 128 + SIGPIPE, as shells report a reader that went away (`| head`)
 EXIT_INTERNAL = 70  # EX_SOFTWARE (sysexits.h): a fault in the tool, never a verdict
