@@ -394,20 +394,25 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     sizes[(sizes + 1.0 > LOAD_FACTOR_RANGE[1]) | (sizes + 1.0 < LOAD_FACTOR_RANGE[0])] = 0.0
     computed = (frame.computed + base)[sample]
     scores = np.zeros(sizes.shape, dtype=np.int64)
+    misfits = np.zeros(sizes.shape)
     for row in range(sizes.shape[0]):
         trial = computed[:, None] + sizes[row][None, :] * unit
         y = frame.claimed[sample][:, None]
         allowed = np.maximum(np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(trial)), frame.atol[sample][:, None]),
                              frame.rounding[sample][:, None])
         scores[row] = (np.abs(y - trial) <= allowed).sum(axis=0)
+        misfits[row] = np.minimum(((y - trial) / allowed) ** 2, 100.0).sum(axis=0)
     scores[np.abs(sizes) < 1e-12] = 0
     best_row = np.argmax(scores, axis=0)  # ties go to the plainest size (the first row)
     best = scores[best_row, np.arange(n_changes)]
+    misfit = misfits[best_row, np.arange(n_changes)]
     # A change worth a forward solve explains a tenth of the sampled differences at least: a true
     # cause explains most of them, while scattered errors agree with some change by chance now
     # and then (a few claims of a hundred), and each forward solve costs a full back-substitution.
     needed = max(MIN_EXPLAINED, int(SAMPLE_SHARE * len(sample)))
-    for v in np.argsort(-best, kind="stable")[:SHORTLIST]:
+    # On a long truss many single loads, each resized, fit the sampled web members about as well:
+    # the closest fit goes first (the load actually left out fits to the rounding of the claims).
+    for v in np.lexsort((misfit, -best))[:SHORTLIST]:
         if best[v] < needed:
             break
         change, size = change_at(int(v)), float(sizes[best_row[v], v])
