@@ -401,3 +401,15 @@ def test_implied_loads_work_without_a_recomputed_force():
     implied = review.implied.by_case()["traffic"]
     assert implied["U5"] == pytest.approx([0.0, -TRAFFIC], abs=0.03 * TRAFFIC)
     assert implied["L5"] == pytest.approx([0.0, 0.0], abs=0.03 * TRAFFIC)
+
+
+def test_a_long_truss_still_shows_a_load_left_out():
+    """200 panels: the chords carry a hundred times the panel load, yet the near-zero allowance
+    stays a hundredth of a joint load, so a web member off by a load is no agreement; and the load
+    left out is named among the many single loads that nearly fit."""
+    long = pratt(200, d=3.0, h=3.5, load=TRAFFIC, case="traffic")
+    assert review_of(long, claims_of(long)).verdict is Verdict.AGREES
+    variant = copy.deepcopy(long)
+    del variant["loads"]["traffic"]["L70"]
+    (cause,) = causes(review_of(long, claims_of(variant)))
+    assert cause.joints == ("L70",) and cause.factor == 0.0
