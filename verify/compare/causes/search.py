@@ -41,6 +41,7 @@ MAX_CAUSES = 3
 MIN_EXPLAINED = 3  # one or two claims are per-member findings, not a model
 CLEAR_MISS = 2.0  # a claim "clearly wrong" misses by this many times its allowance
 FIRST_CHOICES = 4
+SPECIAL_FACTORS = (0.0, 2.0, -1.0)  # a load left out, counted twice, reversed
 SOLVE_BUDGET = 4e7  # entries of the LU factors touched by the transposed solves of one round
 MIN_SAMPLE = 12
 LOAD_FACTOR_RANGE = (-2.0, 10.0)  # a load taken as f times its value: plausible slips only
@@ -383,10 +384,12 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     if enough.any():
         median[enough] = np.nanmedian(ratios[:, enough], axis=0)
     factor = 1.0 + median
-    sizes = np.vstack([_round_to(factor, 1) - 1.0, _round_to(factor, 2) - 1.0, np.round(factor * 20.0) / 20.0 - 1.0,
-                       _round_to(factor, 3) - 1.0])
-    for special in (0.0, 2.0, -1.0):  # left out, counted twice, reversed
-        sizes[0] = np.where(np.abs(factor - special) < 0.05, special - 1.0, sizes[0])
+    # Plainest first, so that a tie goes to it: a load left out, counted twice or reversed (always
+    # tried: rounding in the claims can pull the fitted factor a few per cent off them), then
+    # round factors near the fit.
+    sizes = np.vstack([np.full(len(factor), special - 1.0) for special in SPECIAL_FACTORS]
+                      + [_round_to(factor, 1) - 1.0, _round_to(factor, 2) - 1.0, np.round(factor * 20.0) / 20.0 - 1.0,
+                         _round_to(factor, 3) - 1.0])
     sizes[:, ~fitted] = 1.0
     sizes[:, fitted & ~enough] = 0.0  # nothing to fit: no change
     # A load off by more than a factor of ten, or reversed more than twice over, is no slip of a
@@ -412,7 +415,8 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     needed = max(MIN_EXPLAINED, int(SAMPLE_SHARE * len(sample)))
     # On a long truss many single loads, each resized, fit the sampled web members about as well:
     # the closest fit goes first (the load actually left out fits to the rounding of the claims).
-    for v in np.lexsort((misfit, -best))[:SHORTLIST]:
+    # Among equal scores the plainer size first (a load left out before one taken as 1.96 reversed).
+    for v in np.lexsort((misfit, best_row, -best))[:SHORTLIST]:
         if best[v] < needed:
             break
         change, size = change_at(int(v)), float(sizes[best_row[v], v])

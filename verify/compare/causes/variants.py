@@ -33,7 +33,7 @@ from verify.model import Joint, Model, Reaction
 
 SAMPLE_CLAIMS = 120  # disagreeing claims priced by influence lines (a sample above this): one
 #                      transposed solve per member sampled, the costliest step on 3D trusses
-SHORTLIST = 8  # candidates per round solved forward for every claim
+SHORTLIST = 16  # candidates per round solved forward for every claim
 MAX_JOINT_CHANGES = 6000  # single-joint load changes priced per round (nearest the disagreement first)
 GEOMETRY_MEMBER_LIMIT = 5000  # support and dimension variants re-solve the truss: only below this
 DIMENSION_RANGE = (0.5, 2.0)  # a dimension differing by more than this is not a slip
