@@ -150,6 +150,11 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
         sys.exit(EXIT_CANNOT_VERIFY)
     click.echo(text.render_stability(model, analysis.stability))
     click.echo("")
+    if model.conversions:  # loads stated as line loads, self-weight, angles, normals: what they became
+        click.echo("Loads converted to joint loads:")
+        for note in model.conversions:
+            click.echo(f"  {escape_controls(note)}")
+        click.echo("")
     names = [load_name] if load_name else model.load_names
     if show in ("forces", "all"):
         click.echo(text.render_solution(model, analysis, all_rows=all_rows, load_names=names))
