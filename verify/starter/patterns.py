@@ -13,7 +13,7 @@ and says so in `notes`, so that every pattern is stable and statically determina
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from fractions import Fraction
 
@@ -24,7 +24,7 @@ Number = Fraction | float
 class Pattern:
     name: str
     dim: int
-    joints: dict[str, tuple[Number, ...]]
+    joints: Mapping[str, tuple[Number, ...]]
     members: list[tuple[str, str]]
     pinned: list[str]  # joints restrained in every direction
     rollers: list[str]  # joints restrained vertically only (y in 2D)
@@ -201,7 +201,7 @@ def tower(sides: int, width: Fraction, height: Fraction, panels: int | None) -> 
         raise PatternError(f"tower-{sides} needs at least 1 panel; got {n}")
     letters = "ABCD"[:sides]
     if sides == 3:  # equilateral triangle of side `width`
-        plan = [(0.0, 0.0), (float(width), 0.0), (float(width) / 2, float(width) * math.sqrt(3) / 2)]
+        plan: list[tuple[Number, Number]] = [(0.0, 0.0), (float(width), 0.0), (float(width) / 2, float(width) * math.sqrt(3) / 2)]
     else:
         plan = [(Fraction(0), Fraction(0)), (width, Fraction(0)), (width, width), (Fraction(0), width)]
     joints: dict[str, tuple[Number, ...]] = {}
