@@ -150,6 +150,11 @@ def solve(case: str, as_json: bool, show: str, load_name: str | None, assume_equ
         sys.exit(EXIT_CANNOT_VERIFY)
     click.echo(text.render_stability(model, analysis.stability))
     click.echo("")
+    if model.conversions:  # loads stated as line loads, self-weight, angles, normals: what they became
+        click.echo("Loads converted to joint loads:")
+        for note in model.conversions:
+            click.echo(f"  {escape_controls(note)}")
+        click.echo("")
     names = [load_name] if load_name else model.load_names
     if show in ("forces", "all"):
         click.echo(text.render_solution(model, analysis, all_rows=all_rows, load_names=names))
@@ -384,6 +389,65 @@ def check(case: str, claims_path: str, **options: Any) -> None:
             typed[name] = spelt  # a message names the option as the user typed it
     options["typed"] = typed
     sys.exit(_run_check(case, claims_path, **options))
+
+
+@main.command(short_help="Write a starter case file for a common truss pattern.")
+@click.argument("pattern", metavar="PATTERN")
+@click.option("--span", type=float, required=True, help="Span (2D), or the width of a tower face or of a grid, in --length-unit.")
+@click.option("--depth", type=float, required=True, help="Depth of a parallel-chord truss, rise of a roof truss, height of a tower, depth of a grid.")
+@click.option("--panels", type=int, default=None, help="Panels (bays) along the span, up a tower, or cells a side of a grid; roof patterns have their own.")
+@click.option("--loaded-chord", type=click.Choice(["top", "bottom"]), default="top", show_default=True,
+              help="Chord whose panel points carry the loads (2D patterns).")
+@click.option("--panel-load", type=float, default=None, metavar="P",
+              help="Downward load at every loaded panel point not over a support (default 10 if no --line-load).")
+@click.option("--line-load", type=float, default=None, metavar="W",
+              help="Downward load per unit of plan length on the loaded chord, to panel points by tributary length.")
+@click.option("--length-unit", default="m", show_default=True, help="Length unit written in the case file.")
+@click.option("--force-unit", default="kN", show_default=True, help="Force unit written in the case file.")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder to write case.toml into (made if missing).")
+@click.option("--force", "overwrite", is_flag=True, help="Replace an existing case.toml.")
+def starter(pattern: str, span: float, depth: float, panels: int | None, loaded_chord: str, panel_load: float | None,
+            line_load: float | None, length_unit: str, force_unit: str, out_dir: str, overwrite: bool) -> None:
+    """Write OUT/case.toml for PATTERN: pratt, howe, warren, warren-verticals, k, king-post,
+    queen-post, fink, fan, scissors, bowstring, tower-3, tower-4, grid.
+
+    The file is an ordinary case file (joints, members, chords, a pin and a roller, one load
+    case) with the joint naming rule in its comments; edit it, then run `truss-verify solve`.
+    """
+    from pathlib import Path
+
+    from verify.errors import did_you_mean
+    from verify.io.case import build_model
+    from verify.report.atomic import OutputError, write_atomic
+    from verify.starter import PATTERNS, PatternError, build_starter, render_case
+    from verify.units import Dimension, lookup_unit
+
+    if pattern not in PATTERNS:
+        _fail_input(f"unknown pattern '{pattern}'; the patterns are {', '.join(PATTERNS)}.{did_you_mean(pattern, PATTERNS)}")
+    try:
+        lookup_unit(length_unit, Dimension.LENGTH)
+        lookup_unit(force_unit, Dimension.FORCE)
+        made = build_starter(pattern, span=span, depth=depth, panels=panels, loaded_chord=loaded_chord,
+                             panel_load=panel_load, line_load=line_load, units=(length_unit, force_unit))
+    except (PatternError, ValueError) as exc:
+        _fail_input(str(exc))
+        raise  # unreachable
+    text = render_case(made)
+    import tomllib
+
+    try:  # the file must read back as a valid case before it is written
+        build_model(tomllib.loads(text), source="<starter>", text=text)
+    except InputError as error:
+        _fail_input(error)
+    target = Path(out_dir) / "case.toml"
+    if target.exists() and not overwrite:
+        _fail_input(f"{target} exists; pass --force to replace it")
+    try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        write_atomic(target, text)
+    except (OutputError, OSError) as exc:
+        _fail_input(str(exc))
+    click.echo(f"wrote {target}: {made.title}; next: truss-verify solve {target}")
 
 
 @main.command(short_help="Check the bundled demo case (a footbridge with planted errors).")

@@ -64,6 +64,21 @@ class Combination:
 
 
 @dataclass(frozen=True)
+class ExactValues:
+    """Exact forms (sympy expressions) of numbers the case file wrote as arithmetic, where the
+    result is rational or a surd ("4.5 * tan(30)" is 3*sqrt(3)/2): the floats of the model are
+    these rounded once, and hand calcs may start from them instead of the decimals.
+
+    coords: joint -> its coordinates (None for a coordinate written as a plain number);
+    loads: (load case, joint) -> its load vector, for loads given by arithmetic or converted
+    from a stated form (magnitude and angle, normal to a member, line load, self-weight).
+    """
+
+    coords: Mapping[str, tuple[object, ...]] = field(default_factory=dict)
+    loads: Mapping[tuple[str, str], tuple[object, ...]] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
 class Units:
     length: Unit
     force: Unit
@@ -90,6 +105,10 @@ class Model:
     source: str = ""
     # The CSV tables the case file named, as read: a run protects them from its outputs.
     tables: tuple[str, ...] = ()
+    # Loads the case stated in engineers' forms (line loads, self-weight, magnitude and angle,
+    # normal to a member), each as "file:line: what it was -> the joint loads it became".
+    conversions: tuple[str, ...] = ()
+    exact: ExactValues | None = field(default=None, repr=False, compare=False)
     # Derived arrays (positions are internal; user labels are the ids above).
     xyz: np.ndarray = field(init=False, repr=False, compare=False)
     ends_index: np.ndarray = field(init=False, repr=False, compare=False)

@@ -26,6 +26,7 @@ from verify.errors import (
     quoted,
     shown,
 )
+from verify.io.expressions import RESERVED, ExpressionError, Value, evaluate
 from verify.io.files import (
     CASE_FILE_MAX_BYTES,
     TABLE_MAX_BYTES,
@@ -33,12 +34,21 @@ from verify.io.files import (
     inside_folder,
     read_regular_file,
 )
+from verify.io.loadforms import (
+    STANDARD_GRAVITY,
+    describe_vector,
+    gravity,
+    member_span,
+    pressure_normal,
+    tributary_loads,
+)
 from verify.io.locate import LineLocator
 from verify.io.numbers import parse_number
-from verify.model import Combination, Joint, LoadCase, Member, Model, Reaction, Units
+from verify.model import Combination, ExactValues, Joint, LoadCase, Member, Model, Reaction, Units
 from verify.units import Dimension, Unit, lookup_unit
 
-TOP_KEYS = ("title", "units", "joints", "members", "supports", "loads", "combinations", "stiffness", "notes")
+TOP_KEYS = ("title", "units", "joints", "members", "supports", "loads", "combinations", "stiffness", "notes",
+            "parameters", "chords")
 UNIT_KEYS = ("length", "force", "area", "modulus")
 MEMBER_KEYS = ("ends", "EA", "A", "E")
 STIFFNESS_KEYS = ("EA", "A", "E")
@@ -66,6 +76,11 @@ LOAD_LIMIT = 1e12
 FACTOR_LIMIT = 1e3
 EA_LIMIT = 1e18
 LABEL_MAX_CHARS = 200  # ids and case names a reader can see in a table column
+# Exact (sympy) values cost ~0.1-1 ms each: a hand-written case holds dozens of expressions; past
+# this many a file is generated data, and its expressions keep their decimals only.
+EXACT_BUDGET = 2000
+_DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")  # "12,5": said as a decimal comma, not as arithmetic
+PARAMETERS_MAX = 200
 
 
 class _Origins:
@@ -119,6 +134,11 @@ class _Ctx:
     length_unit: str = ""  # symbols for messages, once [units] is read
     force_unit: str = ""
     tables: dict[str, tuple[str, str] | None] = field(default_factory=dict)  # name -> (path, text), read once
+    parameters: dict[str, Value] = field(default_factory=dict)  # [parameters], in file order
+    exact_left: int = EXACT_BUDGET
+    exact_coords: dict[str, tuple[object, ...]] = field(default_factory=dict)
+    exact_loads: dict[tuple[str, str], tuple[object, ...]] = field(default_factory=dict)
+    conversions: list[str] = field(default_factory=list)
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -191,6 +211,7 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     units = _read_units(ctx, data.get("units"))
     if units is not None:
         ctx.length_unit, ctx.force_unit = units.length.symbol, units.force.symbol
+    _read_parameters(ctx, data.get("parameters"))
     joints = _read_joints(ctx, data.get("joints"), base)
     dim = _dimension(ctx, joints)
     joint_ids = {j.id for j in joints}
@@ -202,7 +223,9 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
         ctx.add(f"{what}: A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\")"
                 + (f"; {more} more member{'s give' if more > 1 else ' gives'} A and E" if more else ""), *path)
     reactions = _read_supports(ctx, data.get("supports"), base, joint_ids, dim)
-    cases = _read_loads(ctx, data.get("loads"), base, joint_ids, dim)
+    geometry = _Geometry(joints, members, dim, units)
+    chords = _read_chords(ctx, data.get("chords"), geometry)
+    cases = _read_loads(ctx, data.get("loads"), base, joint_ids, dim, geometry, chords)
     combos = _read_combinations(ctx, data.get("combinations"), [c.name for c in cases])
 
     if not joints and not ctx.joints_unreadable:
@@ -225,10 +248,11 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     if bulk.xyz is not None and bulk.ends is not None and len(bulk.xyz) == len(joints) and len(bulk.ends) == len(members):
         arrays = (bulk.xyz, bulk.ends)
     tables = tuple(path for path, _ in (t for t in ctx.tables.values() if t is not None))
+    exact = ExactValues(dict(ctx.exact_coords), dict(ctx.exact_loads)) if ctx.exact_coords or ctx.exact_loads else None
     return Model(
         title=title, units=units, dim=dim, joints=tuple(joints), members=tuple(members),
         reactions=tuple(reactions), cases=tuple(cases), combinations=tuple(combos), source=source, arrays=arrays,
-        tables=tables,
+        tables=tables, conversions=tuple(ctx.conversions), exact=exact,
     )
 
 
@@ -414,18 +438,67 @@ def _clean_frame(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], requi
 
 def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None,
             limit: float | None = None, unit: str = "") -> float | None:
-    """A finite number, within +-`limit` when given; else None with the problem said."""
+    """A finite number, within +-`limit` when given; else None with the problem said.
+
+    Text in a TOML value (never a CSV cell: tables hold numbers) may be arithmetic; see
+    verify/io/expressions.py."""
+    found = _value(ctx, value, what, *path, file=file, line=line, limit=limit, unit=unit)
+    return None if found is None else found.number
+
+
+def _value(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None,
+           limit: float | None = None, unit: str = "", exact: bool = False) -> Value | None:
+    """`_number` with the exact value beside the float: for arithmetic where it is rational or a
+    surd, and for plain numbers when `exact` (the decimal as written), while the budget lasts."""
+    result: Value | None = None
     try:
         number = parse_number(value)
     except ValueError as exc:
         message = f"{what}: {exc}; expected a finite number"
+        if isinstance(value, str) and file is None and not _DECIMAL_COMMA.match(value.strip()):
+            try:
+                result = evaluate(value, ctx.parameters, exact=ctx.exact_left > 0)
+                ctx.exact_left -= 1
+            except ExpressionError as why:
+                message = (f"{what}: {quoted(value)} is not a number; expected a finite number or arithmetic "
+                           f"({why})")
     else:
-        if limit is None or abs(number) <= limit:
-            return number
-        message = (f"{what}: {number:g} is beyond the sane range of +-{limit:g}{' ' + unit if unit else ''}; "
+        exact_value = None
+        if exact and ctx.exact_left > 0:
+            import sympy
+
+            ctx.exact_left -= 1
+            exact_value = sympy.Rational(repr(number))
+        result = Value(number, exact_value)
+    if result is not None:
+        if limit is None or abs(result.number) <= limit:
+            return result
+        message = (f"{what}: {result.number:g} is beyond the sane range of +-{limit:g}{' ' + unit if unit else ''}; "
                    "check the units (or a slipped exponent)")
     _say(ctx, message, path, file, line)
     return None
+
+
+# -- parameters ---------------------------------------------------------------------------------
+def _read_parameters(ctx: _Ctx, table: Any) -> None:
+    """[parameters]: name = number or arithmetic over the names above it, in file order."""
+    if table is None:
+        return
+    if not isinstance(table, dict):
+        ctx.add("[parameters] must be a table of names, e.g. span = 24.0, panel = \"span / 6\"", "parameters")
+        return
+    if len(table) > PARAMETERS_MAX:
+        ctx.add(f"[parameters] holds {len(table)} names; at most {PARAMETERS_MAX}", "parameters")
+        return
+    for name, value in table.items():
+        if not (name.isidentifier() and name.isascii()) or name in RESERVED:
+            rule = (f"is a reserved word ({', '.join(RESERVED)})" if name in RESERVED
+                    else "is not a plain name (letters, digits and _, not starting with a digit)")
+            ctx.add(f"parameter {quoted(name)} {rule}", "parameters", name)
+            continue
+        found = _value(ctx, value, f"parameter '{name}'", "parameters", name, limit=EA_LIMIT, exact=True)
+        if found is not None:
+            ctx.parameters[name] = found
 
 
 def _label(ctx: _Ctx, label: str, what: str, *path: str, file: str | None = None, line: int | None = None) -> bool:
@@ -490,10 +563,12 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         if not isinstance(value, list) or len(value) not in (2, 3):
             ctx.add(f"joint '{jid}': expected [x, y] or [x, y, z], got {shown(value)}", "joints", jid)
             continue
-        coords = [_number(ctx, v, f"joint '{jid}' coordinate {k + 1}", "joints", jid, limit=COORDINATE_LIMIT,
-                          unit=ctx.length_unit) for k, v in enumerate(value)]
-        if all(c is not None for c in coords):
-            joints.append(Joint(str(jid), tuple(float(c) for c in coords)))  # type: ignore[arg-type]
+        values = [_value(ctx, v, f"joint '{jid}' coordinate {k + 1}", "joints", jid, limit=COORDINATE_LIMIT,
+                         unit=ctx.length_unit) for k, v in enumerate(value)]
+        if all(v is not None for v in values):
+            joints.append(Joint(str(jid), tuple(v.number for v in values)))  # type: ignore[union-attr]
+            if any(isinstance(raw, str) and v.exact is not None for raw, v in zip(value, values, strict=True)):  # type: ignore[union-attr]
+                ctx.exact_coords[str(jid)] = tuple(v.exact for v in values)  # type: ignore[union-attr]
     return joints
 
 
@@ -709,8 +784,10 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
     entries: list[tuple[str, Any, tuple[str, ...], str | None, int | None]] = []  # joint, spec, path, file, line
     if isinstance(table, str):
         for csv_file, csv_line, row in _csv_rows(ctx, base, table, ("supports",), ("joint",)):
-            if row.get("directions"):
-                spec: Any = row["directions"].replace(",", " ").split()
+            if row.get("directions", "").strip().lower() in SUPPORT_WORDS:
+                spec: Any = row["directions"]
+            elif row.get("directions"):
+                spec = row["directions"].replace(",", " ").split()
             else:
                 spec = {"direction": [row.get(k, "") for k in ("nx", "ny", "nz")[: dim or 3]]}
             entries.append((row["joint"], spec, (), csv_file, csv_line))
@@ -737,32 +814,94 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
                     reactions.append(Reaction(jid, vec, axis))
             if not spec:
                 _say(ctx, f"support at '{jid}' restrains no direction", path, file, line)
+        elif isinstance(spec, str) or (isinstance(spec, dict) and "type" in spec):
+            reactions.extend(_support_by_word(ctx, jid, spec, axes, dim, path, file, line))
         elif isinstance(spec, dict):
             for key in spec:
                 if key != "direction":
-                    _say(ctx, f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes", path, file, line)
-            vec_raw = spec.get("direction")
-            if not isinstance(vec_raw, list) or (dim and len(vec_raw) != dim):
-                _say(ctx, f"support at '{jid}': direction must be a list of {dim or '2 or 3'} numbers, got {shown(vec_raw)}", path, file, line)
-                continue
-            nums = [_number(ctx, v, f"support at '{jid}' direction", *path, file=file, line=line) for v in vec_raw]
-            if any(v is None for v in nums):
-                continue
-            arr = np.array(nums, dtype=float)
-            largest = float(np.abs(arr).max())
-            if largest == 0.0:
-                _say(ctx, f"support at '{jid}': direction is the zero vector", path, file, line)
-                continue
-            # Scaled by the largest component first: the norm of [1e160, 1e160] overflows, and
-            # that of [1e-200, 0] underflows, yet both name a plain direction.
-            arr = arr / largest
-            unit = arr / float(np.linalg.norm(arr))
-            # A direction along a global axis is that axis: label it x/y/z, not 'n'.
-            along = [a for k, a in enumerate(axes) if abs(unit[k] - 1.0) < 1e-12]
-            reactions.append(Reaction(jid, tuple(float(v) for v in unit), along[0] if along else "n"))
+                    _say(ctx, f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes, "
+                              "or type = \"pinned\" / \"roller\"", path, file, line)
+            found = _reaction_along(ctx, jid, spec.get("direction"), "direction", dim, axes, path, file, line)
+            if found is not None:
+                reactions.append(found)
         else:
             _say(ctx, f"support at '{jid}': expected a list of restrained axes (e.g. [\"x\", \"y\"]) or {{ direction = [...] }}, got {shown(spec)}", path, file, line)
     return reactions
+
+
+SUPPORT_WORDS = ("pinned", "roller")
+ROLLER_KEYS = ("type", "normal", "rolls", "direction")
+
+
+def _support_by_word(ctx: _Ctx, jid: str, spec: Any, axes: tuple[str, ...], dim: int | None,
+                     path: tuple[str, ...], file: str | None, line: int | None) -> list[Reaction]:
+    """`"pinned"` (every direction), `"roller"` (level: the vertical, y in 2D and z in 3D), or
+    { type = "roller", normal = [...] } (reaction along the surface normal), rolls = [...] (2D:
+    the direction it rolls in; the reaction is square to it), direction = [...] (as normal)."""
+    options = spec if isinstance(spec, dict) else {"type": spec}
+    word = options.get("type")
+    kind = word.strip().lower() if isinstance(word, str) else None
+    if kind not in SUPPORT_WORDS:
+        hint = did_you_mean(str(word), SUPPORT_WORDS) if isinstance(word, str) else ""
+        _say(ctx, f"support at '{jid}': {quoted(word)} is not a support type; expected \"pinned\" or \"roller\" "
+                  f"(or a list of restrained axes).{hint}", path, file, line)
+        return []
+    unknown = [k for k in options if k not in ROLLER_KEYS]
+    for key in unknown:
+        _say(ctx, f"support at '{jid}': unknown key '{key}'; expected {', '.join(ROLLER_KEYS)}.{did_you_mean(key, ROLLER_KEYS)}",
+             path, file, line)
+    given = [k for k in ("normal", "rolls", "direction") if k in options]
+    if kind == "pinned":
+        if given:
+            _say(ctx, f"support at '{jid}': a pinned support restrains every direction; '{given[0]}' belongs to a roller",
+                 path, file, line)
+            return []
+        return [Reaction(jid, tuple(1.0 if a == b else 0.0 for b in axes), a) for a in axes]
+    if len(given) > 1:
+        _say(ctx, f"support at '{jid}': give one of normal, rolls, direction, not {' and '.join(given)}", path, file, line)
+        return []
+    if not given:
+        vertical = axes[-1]
+        return [Reaction(jid, tuple(1.0 if a == vertical else 0.0 for a in axes), vertical)]
+    key = given[0]
+    if key == "rolls":
+        if dim == 3:
+            _say(ctx, f"support at '{jid}': 'rolls' names the one direction a 2D roller moves in; in 3D give the "
+                      "surface normal (normal = [...]) or the restrained axes", path, file, line)
+            return []
+        along = _reaction_along(ctx, jid, options["rolls"], "rolls", dim, axes, path, file, line)
+        if along is None:
+            return []
+        # Square to the rolling direction, turned counter-clockwise: rolls = [1, 0] gives +y.
+        rx, ry = along.direction
+        normal = (-ry + 0.0, rx + 0.0)
+        named = [a for k, a in enumerate(axes) if abs(normal[k] - 1.0) < 1e-12]
+        return [Reaction(jid, normal, named[0] if named else "n")]
+    found = _reaction_along(ctx, jid, options[key], key, dim, axes, path, file, line)
+    return [found] if found is not None else []
+
+
+def _reaction_along(ctx: _Ctx, jid: str, vec_raw: Any, key: str, dim: int | None, axes: tuple[str, ...],
+                    path: tuple[str, ...], file: str | None, line: int | None) -> Reaction | None:
+    """A reaction along the stated vector (normalised); a global axis keeps its name x/y/z."""
+    if not isinstance(vec_raw, list) or (dim and len(vec_raw) != dim):
+        _say(ctx, f"support at '{jid}': {key} must be a list of {dim or '2 or 3'} numbers, got {shown(vec_raw)}", path, file, line)
+        return None
+    nums = [_number(ctx, v, f"support at '{jid}' {key}", *path, file=file, line=line) for v in vec_raw]
+    if any(v is None for v in nums):
+        return None
+    arr = np.array(nums, dtype=float)
+    largest = float(np.abs(arr).max())
+    if largest == 0.0:
+        _say(ctx, f"support at '{jid}': {key} is the zero vector", path, file, line)
+        return None
+    # Scaled by the largest component first: the norm of [1e160, 1e160] overflows, and
+    # that of [1e-200, 0] underflows, yet both name a plain direction.
+    arr = arr / largest
+    unit = arr / float(np.linalg.norm(arr))
+    # A direction along a global axis is that axis: label it x/y/z, not 'n'.
+    along = [a for k, a in enumerate(axes) if abs(unit[k] - 1.0) < 1e-12]
+    return Reaction(jid, tuple(float(v) for v in unit), along[0] if along else "n")
 
 
 def _say(ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line: int | None) -> None:
@@ -773,17 +912,340 @@ def _say(ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line:
 
 
 # -- loads --------------------------------------------------------------------------------------
-def _vector(ctx: _Ctx, value: Any, dim: int | None, what: str, path: tuple[str, ...], file: str | None = None, line: int | None = None) -> tuple[float, ...] | None:
+def _vector(ctx: _Ctx, value: Any, dim: int | None, what: str, path: tuple[str, ...], file: str | None = None,
+            line: int | None = None, exact_key: tuple[str, str] | None = None) -> tuple[float, ...] | None:
     if not isinstance(value, list) or (dim is not None and len(value) != dim):
         _say(ctx, f"{what}: expected a force vector of {dim or '2 or 3'} numbers, got {shown(value)}", path, file, line)
         return None
-    nums = [_number(ctx, v, what, *path, file=file, line=line, limit=LOAD_LIMIT, unit=ctx.force_unit) for v in value]
+    nums = [_value(ctx, v, what, *path, file=file, line=line, limit=LOAD_LIMIT, unit=ctx.force_unit) for v in value]
     if any(v is None for v in nums):
         return None
-    return tuple(float(v) for v in nums)  # type: ignore[arg-type]
+    if exact_key is not None and any(isinstance(raw, str) and v.exact is not None for raw, v in zip(value, nums, strict=True)):  # type: ignore[union-attr]
+        ctx.exact_loads[exact_key] = tuple(v.exact if v.exact is not None else _rational(v.number) for v in nums)  # type: ignore[union-attr]
+    return tuple(v.number for v in nums)  # type: ignore[union-attr]
 
 
-def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None) -> list[LoadCase]:
+def _rational(number: float) -> Any:
+    import sympy
+
+    return sympy.Rational(repr(number))
+
+
+# -- loads as engineers state them --------------------------------------------------------------
+class _Geometry:
+    """Lookups the stated load forms need: coordinates, members, units."""
+
+    def __init__(self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None) -> None:
+        self.coords = {j.id: j.coords for j in joints}
+        self.members = {m.id: m for m in members if m.start in self.coords and m.end in self.coords}
+        self.pairs = {frozenset((m.start, m.end)): m.id for m in self.members.values()}
+        self.dim = dim
+        self.units = units
+
+
+LOAD_FORM_KEYS = ("magnitude", "angle", "direction", "normal_to")
+LINE_KEYS = ("members", "chord", "w", "direction", "normal", "measured")
+SELF_WEIGHT_KEYS = ("mass_per_length", "members", "chord", "direction")
+MEASURED = ("along", "plan")
+ANGLE_LIMIT = 360.0  # degrees either way: one turn; beyond it an angle is a slip
+MASS_LIMIT = 1e9  # kg/m: far beyond any member (a solid steel bar 1 m square is 7,850 kg/m)
+NOTE_JOINTS = 12  # joints listed in one conversion note; the rest are counted
+
+
+class _Converted:
+    """Joint loads converted from stated forms in one load case, summed per joint, then added to
+    the case's plain joint loads (a joint may carry a point load and its share of a line load)."""
+
+    def __init__(self) -> None:
+        self.loads: dict[str, np.ndarray] = {}
+        self.exact: dict[str, tuple[Any, ...] | None] = {}
+        self.paths: dict[str, tuple[str, ...]] = {}
+
+    def add(self, jid: str, vector: np.ndarray, exact: tuple[Any, ...] | None, path: tuple[str, ...]) -> None:
+        if jid in self.loads:
+            self.loads[jid] = self.loads[jid] + vector
+            before = self.exact.get(jid)
+            self.exact[jid] = tuple(a + b for a, b in zip(before, exact, strict=True)) if before and exact else None
+        else:
+            self.loads[jid], self.exact[jid] = np.asarray(vector, dtype=float), exact
+        self.paths.setdefault(jid, path)
+
+    def merge_into(self, ctx: _Ctx, case: str, loads: dict[str, tuple[float, ...]]) -> None:
+        for jid, vector in self.loads.items():
+            key = (case, jid)
+            plain_exact = ctx.exact_loads.pop(key, None)
+            if jid in loads:
+                total = np.asarray(loads[jid]) + vector
+                exact = self.exact[jid]
+                if exact is not None:
+                    base = plain_exact or tuple(_rational(v) for v in loads[jid])
+                    exact = tuple(a + b for a, b in zip(base, exact, strict=True))
+            else:
+                total, exact = vector, self.exact[jid]
+            if not (np.isfinite(total).all() and _within(total, LOAD_LIMIT)):
+                ctx.add(f"load case '{case}' at joint '{jid}': the loads stated there add up to {describe_vector(total)}, "
+                        f"beyond the sane range of +-{LOAD_LIMIT:g} {ctx.force_unit}; check the units", *self.paths[jid])
+                continue
+            loads[jid] = tuple(float(v) for v in total)
+            if exact is not None:
+                ctx.exact_loads[key] = exact
+
+
+def _read_chords(ctx: _Ctx, table: Any, geometry: _Geometry) -> dict[str, list[str]]:
+    """[chords]: name = the joints along it in order; each neighbouring pair must be a member."""
+    chords: dict[str, list[str]] = {}
+    if table is None:
+        return chords
+    if not isinstance(table, dict):
+        ctx.add("[chords] must name chords by their joints in order, e.g. top = [\"L0\", \"U1\", \"U2\"]", "chords")
+        return chords
+    for name, joints in table.items():
+        if not _label(ctx, name, "chord name", "chords", name):
+            continue
+        if not isinstance(joints, list) or len(joints) < 2 or not all(isinstance(j, str) for j in joints):
+            ctx.add(f"chord '{name}': expected the joint ids along it in order (at least two), got {shown(joints)}", "chords", name)
+            continue
+        members: list[str] = []
+        for a, b in zip(joints, joints[1:], strict=False):
+            found = geometry.pairs.get(frozenset((a, b)))
+            if found is None:
+                missing = [j for j in (a, b) if j not in geometry.coords]
+                if missing and not ctx.joints_unreadable:
+                    ctx.add(f"chord '{name}' names joint '{shown(missing[0])}', which is not defined."
+                            f"{did_you_mean(missing[0], geometry.coords)}", "chords", name)
+                elif not missing:
+                    ctx.add(f"chord '{name}': no member joins '{a}' and '{b}'; a chord runs along members, joint to joint", "chords", name)
+                members = []
+                break
+            members.append(found)
+        if members:
+            chords[str(name)] = members
+    return chords
+
+
+def _is_form(value: Any) -> bool:
+    return isinstance(value, dict) or (isinstance(value, list) and bool(value) and all(isinstance(v, dict) for v in value))
+
+
+def _note(ctx: _Ctx, path: tuple[str, ...], text: str, loads: dict[str, Any]) -> None:
+    joints = list(loads.items())
+    shown_loads = ", ".join(f"{j} {describe_vector(v)}" for j, v in joints[:NOTE_JOINTS])
+    more = f" and {len(joints) - NOTE_JOINTS} more joints" if len(joints) > NOTE_JOINTS else ""
+    line = ctx.lines.line(*path)
+    where = f"{ctx.file}:{line}" if line is not None else ctx.file
+    ctx.conversions.append(f"{where}: {text} -> joint loads {shown_loads}{more}")
+
+
+def _unit_vector(ctx: _Ctx, raw: Any, dim: int | None, what: str, path: tuple[str, ...]) -> tuple[np.ndarray, list[Value]] | None:
+    if not isinstance(raw, list) or dim is None or len(raw) != dim:
+        ctx.add(f"{what}: expected a direction of {dim or '2 or 3'} numbers, got {shown(raw)}", *path)
+        return None
+    found = [_value(ctx, v, what, *path, exact=True) for v in raw]
+    values = [v for v in found if v is not None]
+    if len(values) != len(found):
+        return None
+    arr = np.array([v.number for v in values], dtype=float)
+    largest = float(np.abs(arr).max())
+    if largest == 0.0:
+        ctx.add(f"{what} is the zero vector", *path)
+        return None
+    arr = arr / largest
+    return arr / float(np.linalg.norm(arr)), values
+
+
+def _stated_joint_load(ctx: _Ctx, case: str, jid: str, spec: dict[str, Any], geometry: _Geometry,
+                       add_to: Any) -> None:
+    """{ magnitude, angle } | { magnitude, direction } | { magnitude, normal_to } at one joint."""
+    path = ("loads", case, jid)
+    what = f"load case '{case}' at joint '{jid}'"
+    for key in spec:
+        if key not in LOAD_FORM_KEYS:
+            ctx.add(f"{what}: unknown key '{key}'; expected magnitude with one of angle, direction, normal_to."
+                    f"{did_you_mean(key, LOAD_FORM_KEYS)}", *path)
+            return
+    given = [k for k in ("angle", "direction", "normal_to") if k in spec]
+    if "magnitude" not in spec or len(given) != 1:
+        ctx.add(f"{what}: expected {{ magnitude = ..., angle = ... }} (degrees, counter-clockwise from +x), "
+                "{ magnitude = ..., direction = [...] } or { magnitude = ..., normal_to = \"member\" }"
+                + (f"; got both {' and '.join(given)}" if len(given) > 1 else ""), *path)
+        return
+    magnitude = _value(ctx, spec["magnitude"], f"{what} magnitude", *path, limit=LOAD_LIMIT, unit=ctx.force_unit, exact=True)
+    dim = geometry.dim
+    key = given[0]
+    if magnitude is None or dim is None:
+        return
+    if key in ("angle", "normal_to") and dim != 2:
+        ctx.add(f"{what}: '{key}' needs a 2D model (in 3D give direction = [x, y, z])", *path)
+        return
+    exact: tuple[Any, ...] | None = None
+    unit = ctx.force_unit
+    if key == "angle":
+        angle = _value(ctx, spec["angle"], f"{what} angle", *path, limit=ANGLE_LIMIT, unit="degrees", exact=True)
+        if angle is None:
+            return
+        if magnitude.exact is not None and angle.exact is not None:
+            import sympy
+
+            turn = angle.exact * sympy.pi / 180
+            exact = (magnitude.exact * sympy.cos(turn), magnitude.exact * sympy.sin(turn))
+        radians = np.radians(angle.number)
+        vector = magnitude.number * np.array([np.cos(radians), np.sin(radians)])
+        text = f"{magnitude.number:g} {unit} at {angle.number:g} degrees"
+    elif key == "direction":
+        found = _unit_vector(ctx, spec["direction"], dim, f"{what} direction", path)
+        if found is None:
+            return
+        unit_vec, parts = found
+        if magnitude.exact is not None and all(p.exact is not None for p in parts):
+            import sympy
+
+            norm = sympy.sqrt(sum(p.exact**2 for p in parts))
+            exact = tuple(magnitude.exact * p.exact / norm for p in parts)
+        vector = magnitude.number * unit_vec
+        text = f"{magnitude.number:g} {unit} along {describe_vector([p.number for p in parts])}"
+    else:
+        member_id = spec["normal_to"]
+        member = geometry.members.get(member_id) if isinstance(member_id, str) else None
+        if member is None:
+            ctx.add(f"{what}: normal_to names member {quoted(member_id)}, which is not defined."
+                    f"{did_you_mean(str(member_id), geometry.members)}", *path)
+            return
+        vector = magnitude.number * pressure_normal(geometry.coords[member.start], geometry.coords[member.end])
+        side = "pressure on" if magnitude.number >= 0 else "suction, away from"
+        text = f"{magnitude.number:g} {unit} normal to member '{member.id}' ({side} its left side, walking {member.start} to {member.end})"
+    if exact is not None:
+        from verify.io.expressions import _is_surd
+
+        if all(_is_surd(e) for e in exact):
+            vector = np.array([float(e) for e in exact])
+        else:
+            exact = None
+    add_to(jid, vector, exact, path)
+    _note(ctx, path, f"load case '{case}' at joint '{jid}': {text}", {jid: vector})
+
+
+def _members_of(ctx: _Ctx, spec: dict[str, Any], what: str, path: tuple[str, ...], geometry: _Geometry,
+                chords: dict[str, list[str]], *, all_if_absent: bool) -> list[str] | None:
+    if "members" in spec and "chord" in spec:
+        ctx.add(f"{what}: give members or chord, not both", *path)
+        return None
+    if "chord" in spec:
+        chord = spec["chord"]
+        if not isinstance(chord, str) or chord not in chords:
+            ctx.add(f"{what}: chord {quoted(chord)} is not defined in [chords].{did_you_mean(str(chord), chords)}", *path)
+            return None
+        return chords[chord]
+    if "members" not in spec:
+        if all_if_absent:
+            return list(geometry.members)
+        ctx.add(f"{what}: name the loaded members (members = [...]) or a chord (chord = \"top\", defined in [chords])", *path)
+        return None
+    listed = spec["members"]
+    if not isinstance(listed, list) or not listed:
+        ctx.add(f"{what}: members must be a list of member ids, got {shown(listed)}", *path)
+        return None
+    unknown = [m for m in listed if not isinstance(m, str) or m not in geometry.members]
+    if unknown:
+        ctx.add(f"{what}: member {quoted(unknown[0])} is not defined.{did_you_mean(str(unknown[0]), geometry.members)}", *path)
+        return None
+    if len(set(listed)) != len(listed):
+        ctx.add(f"{what}: a member is listed twice; each loaded member once", *path)
+        return None
+    return list(listed)
+
+
+def _line_loads(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, chords: dict[str, list[str]], add_to: Any) -> None:
+    """line = { members | chord, w, direction | normal, measured }: to panel points by tributary length."""
+    path = ("loads", case, key)
+    dim = geometry.dim
+    for number, spec in enumerate(raw if isinstance(raw, list) else [raw], start=1):
+        what = f"load case '{case}' line load" + (f" {number}" if isinstance(raw, list) and len(raw) > 1 else "")
+        bad = [k for k in spec if k not in LINE_KEYS]
+        if bad:
+            ctx.add(f"{what}: unknown key '{bad[0]}'; expected {', '.join(LINE_KEYS)}.{did_you_mean(bad[0], LINE_KEYS)}", *path)
+            continue
+        members = _members_of(ctx, spec, what, path, geometry, chords, all_if_absent=False)
+        if "w" not in spec:
+            ctx.add(f"{what}: give w, the force per length ({ctx.force_unit}/{ctx.length_unit})", *path)
+            continue
+        w = _value(ctx, spec["w"], f"{what} w", *path, limit=LOAD_LIMIT, unit=f"{ctx.force_unit}/{ctx.length_unit}")
+        measured = spec.get("measured", "along")
+        if measured not in MEASURED:
+            ctx.add(f"{what}: measured = {quoted(measured)}; expected \"along\" (the member's length) or \"plan\" "
+                    "(its horizontal projection)", *path)
+            continue
+        normal = spec.get("normal", False)
+        if not isinstance(normal, bool):
+            ctx.add(f"{what}: normal must be true or false, got {shown(normal)}", *path)
+            continue
+        if normal and "direction" in spec:
+            ctx.add(f"{what}: give direction or normal = true, not both", *path)
+            continue
+        if normal and dim != 2:
+            ctx.add(f"{what}: normal = true needs a 2D model (in 3D give direction = [x, y, z])", *path)
+            continue
+        direction = gravity(dim) if dim else None
+        if "direction" in spec:
+            found = _unit_vector(ctx, spec["direction"], dim, f"{what} direction", path)
+            direction = found[0] if found else None
+        if members is None or w is None or dim is None or direction is None:
+            continue
+        segments, vectors = [], []
+        for mid in members:
+            m = geometry.members[mid]
+            a, b = geometry.coords[m.start], geometry.coords[m.end]
+            segments.append((m.start, m.end, member_span(a, b, measured)))
+            vectors.append(w.number * (pressure_normal(a, b) if normal else direction))
+        how = "normal to each member (pressure positive)" if normal else f"along {describe_vector(direction)}"
+        on = f"chord '{spec['chord']}'" if "chord" in spec else f"members {', '.join(members[:6])}" + (" ..." if len(members) > 6 else "")
+        text = (f"load case '{case}': line load {w.number:g} {ctx.force_unit}/{ctx.length_unit} {how} on {on}, "
+                f"tributary lengths measured {measured}")
+        loads = tributary_loads(segments, vectors)
+        for jid, vector in loads.items():
+            add_to(jid, vector, None, path)
+        _note(ctx, path, text, loads)
+
+
+def _self_weight(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, chords: dict[str, list[str]], add_to: Any) -> None:
+    """self_weight = { mass_per_length (kg/m), members | chord (default: every member), direction }."""
+    path = ("loads", case, key)
+    dim, units = geometry.dim, geometry.units
+    for spec in raw if isinstance(raw, list) else [raw]:
+        what = f"load case '{case}' self_weight"
+        bad = [k for k in spec if k not in SELF_WEIGHT_KEYS]
+        if bad:
+            ctx.add(f"{what}: unknown key '{bad[0]}'; expected {', '.join(SELF_WEIGHT_KEYS)}.{did_you_mean(bad[0], SELF_WEIGHT_KEYS)}", *path)
+            continue
+        members = _members_of(ctx, spec, what, path, geometry, chords, all_if_absent=True)
+        if "mass_per_length" not in spec:
+            ctx.add(f"{what}: give mass_per_length in kg/m", *path)
+            continue
+        mass = _value(ctx, spec["mass_per_length"], f"{what} mass_per_length", *path, limit=MASS_LIMIT, unit="kg/m")
+        if mass is not None and mass.number < 0:
+            ctx.add(f"{what}: mass_per_length must not be negative, got {mass.number:g} kg/m", *path)
+            continue
+        direction = gravity(dim) if dim else None
+        if "direction" in spec:
+            found = _unit_vector(ctx, spec["direction"], dim, f"{what} direction", path)
+            direction = found[0] if found else None
+        if members is None or mass is None or dim is None or direction is None or units is None:
+            continue
+        # kg/m x m x m/s^2 = N per metre of member, in the case's force per its length unit.
+        per_length = mass.number * STANDARD_GRAVITY * units.length.to_si / units.force.to_si
+        segments = []
+        for mid in members:
+            m = geometry.members[mid]
+            segments.append((m.start, m.end, member_span(geometry.coords[m.start], geometry.coords[m.end], "along")))
+        loads = tributary_loads(segments, [per_length * direction] * len(segments))
+        for jid, vector in loads.items():
+            add_to(jid, vector, None, path)
+        on = f"chord '{spec['chord']}'" if "chord" in spec else ("every member" if "members" not in spec else f"{len(members)} members")
+        _note(ctx, path, f"load case '{case}': self-weight {mass.number:g} kg/m x g = 9.80665 m/s^2 on {on}, "
+                         "half of each member to each end", loads)
+
+
+def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None,
+                geometry: _Geometry | None = None, chords: dict[str, list[str]] | None = None) -> list[LoadCase]:
     if table is None:
         ctx.add("missing [loads.<case>] table; add at least one load case", line=1)
         return []
@@ -794,7 +1256,8 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
             return
         if _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", *path, file=file, line=line) is None:
             return
-        vec = _vector(ctx, value, dim, f"load case '{case}' at joint '{jid}'", path, file, line)
+        vec = _vector(ctx, value, dim, f"load case '{case}' at joint '{jid}'", path, file, line,
+                      exact_key=(case, str(jid)) if file is None else None)
         if vec is None:
             return
         loads = cases.setdefault(case, {})
@@ -838,8 +1301,17 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
             if isinstance(loads, str):
                 from_csv(loads, ("loads", case), str(case))
             elif isinstance(loads, dict):
+                stated = _Converted()
                 for jid, value in loads.items():
-                    add(str(case), jid, value, ("loads", case, jid))
+                    if jid in ("line", "self_weight") and _is_form(value) and geometry is not None:
+                        reader = _line_loads if jid == "line" else _self_weight
+                        reader(ctx, str(case), jid, value, geometry, chords or {}, stated.add)
+                    elif isinstance(value, dict) and geometry is not None:
+                        if _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", "loads", case, jid) is not None:
+                            _stated_joint_load(ctx, str(case), str(jid), value, geometry, stated.add)
+                    else:
+                        add(str(case), jid, value, ("loads", case, jid))
+                stated.merge_into(ctx, str(case), cases.setdefault(str(case), {}))
             else:
                 ctx.add(f"load case '{case}': expected a table (joint = [fx, fy]) or a CSV file name", "loads", case)
     else:
