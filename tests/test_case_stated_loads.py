@@ -11,6 +11,7 @@ Outside references, named beside each check:
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
 import pint
@@ -267,3 +268,30 @@ def test_bad_stated_load_exits_2_without_traceback(write_files):
     assert "Traceback" not in result.output
     assert f"case.toml:{len(text.splitlines())}: load case 'a' at joint 'C' angle: '1/0' is not a number" in result.output
     assert path.read_text(encoding="utf-8") == text
+
+
+def test_converted_loads_are_listed_in_the_json_and_the_report(tmp_path):
+    """A load stated by magnitude and angle is shown as the joint loads it became, in solve --json
+    and among the report's notes (resolved by hand: 10 kN at 45 degrees is 10/sqrt(2) each way)."""
+    import math
+
+    from verify.analysis.pipeline import analyse
+    from verify.io.case import read_case
+    from verify.report.document import notes
+    from verify.report.json_out import solve_json
+
+    path = tmp_path / "case.toml"
+    path.write_text(
+        'title = "t"\n[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [4.0, 0.0]\nC = [2.0, 2.0]\n'
+        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\nA = "pinned"\nB = "roller"\n'
+        "[loads.wind]\nC = { magnitude = 10.0, angle = 45 }\n", encoding="utf-8")
+    model = read_case(path)
+    (text,) = solve_json(model, analyse(model))["case"]["load_conversions"]
+    assert "10 kN at 45 degrees" in text and f"{10 / math.sqrt(2):.6g}" in text
+
+    class _Review:  # the report's notes read the review's own notes and the analysis
+        notes = ()
+        analysis = analyse(model)
+
+    stand_in: Any = _Review()  # the two fields notes() reads
+    assert any(n.startswith("load converted:") and "joint loads C" in n for n in notes(stand_in))

@@ -273,6 +273,8 @@ def notes(review: Review) -> list[str]:
     out = list(review.notes) + list(analysis.notes) + list(analysis.stability.notes)
     if analysis.joints is not None:
         out.extend(analysis.joints.notes)
+    # loads the case states as line loads, self-weight, angles or normals: the joint loads they became
+    out.extend(f"load converted: {text}" for text in analysis.model.conversions)
     return list(dict.fromkeys(out))
 
 

@@ -58,7 +58,9 @@ def stability_json(model: Model, analysis: Analysis) -> dict[str, Any]:
     return {
         "tool": {"name": "truss-verify", "version": __version__},
         "case": {"title": model.title, "file": model.source,
-                 "units": {"length": model.units.length.symbol, "force": model.units.force.symbol}},
+                 "units": {"length": model.units.length.symbol, "force": model.units.force.symbol},
+                 # loads stated as line loads, self-weight, angles or normals, and the joint loads they became
+                 "load_conversions": list(model.conversions)},
         "units": value_units(model),
         "structure": public_structure(analysis.stability.as_dict()),
         "caution": CAUTION,
@@ -143,6 +145,7 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         "implied_loads": review.implied.by_case() if review.implied is not None else {},
         "implied_load_table": [item.as_dict() for item in review.implied.differing] if review.implied is not None else [],
         "units": value_units(model),
+        "load_conversions": list(model.conversions),
         "inputs": inputs,
         "tool": {"name": "truss-verify", "version": __version__},
         "notes": list(review.notes),
