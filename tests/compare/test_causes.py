@@ -418,3 +418,18 @@ def test_a_long_truss_still_shows_a_load_left_out():
         del variant["loads"]["traffic"][joint]
         (cause,) = causes(review_of(long, claims_of(variant)))
         assert cause.joints == (joint,) and cause.factor == 0.0 and cause.unexplained == 0
+
+
+def test_a_released_support_on_an_indeterminate_truss_is_named():
+    """Both ends pinned in the case file (EA given), the claims from the same truss with the
+    right-hand end on rollers: the release is named, not 'another stiffness assumption'."""
+    case = bridge()
+    case["supports"] = {"L0": ["x", "y"], f"L{PANELS}": ["x", "y"]}
+    case["loads"]["wind"] = {f"U{i}": [5.0, 0.0] for i in range(1, PANELS)}
+    case["members"] = {k: {"ends": v, "EA": 2.0e5} for k, v in case["members"].items()}
+    variant = copy.deepcopy(case)
+    variant["supports"] = {"L0": ["x", "y"], f"L{PANELS}": ["y"]}
+    review = review_of(case, claims_of(variant))
+    (cause,) = [f for f in errors(review) if f.kind == "likely-cause"]
+    assert cause.joints == (f"L{PANELS}",) and f"the support at L{PANELS} free along x" in cause.variant
+    assert review_of(case, claims_of(case)).verdict is Verdict.AGREES

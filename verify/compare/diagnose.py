@@ -39,6 +39,7 @@ from verify.compare.causes.bracing import explain_tension_only
 from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
+from verify.compare.causes.supports import explain_released_support
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
@@ -888,6 +889,21 @@ def _indeterminate(c: Comparison) -> None:
                                         "Confirm the bracing is slender enough to buckle before it carries load",
                                         Severity.INFO, case=slack_cases[0] if len(slack_cases) == 1 else None, variant=words,
                                         explains=int(mask.sum()), joints=(), locations=frame.locations(mask)))
+            # A support released (a pin taken as a roller): the truss without that reaction.
+            open_rows = [item[0] for item in diffs if item[0] not in explained]
+            open_mask = np.isin(frame.row, np.array(open_rows, dtype=np.int64))
+            release = explain_released_support(frame, open_mask, analysis)
+            if release is not None:
+                for r in frame.row[release.explained].tolist():
+                    rows[r] = _with_status(rows[r], "likely-cause")
+                    explained.add(r)
+                findings.append(Finding("likely-cause", frame.member_ids(release.explained),
+                                        f"the claims in {', '.join(repr(case) for case in frame.columns_of(release.explained))} "
+                                        f"correspond to {release.words}: {int(release.explained.sum())} disagreeing claim(s) "
+                                        "agree with it and no claim that agreed is changed", Severity.ERROR,
+                                        variant=release.words, explains=int(release.explained.sum()),
+                                        unexplained=int((open_mask & ~release.explained).sum()), joints=(release.joint,),
+                                        locations=frame.locations(release.explained)))
             diffs = [item for item in diffs if item[0] not in explained]
         in_self_stress = _self_stress_members(analysis)
         fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
