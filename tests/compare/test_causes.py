@@ -433,3 +433,18 @@ def test_a_released_support_on_an_indeterminate_truss_is_named():
     (cause,) = [f for f in errors(review) if f.kind == "likely-cause"]
     assert cause.joints == (f"L{PANELS}",) and f"the support at L{PANELS} free along x" in cause.variant
     assert review_of(case, claims_of(case)).verdict is Verdict.AGREES
+
+
+def test_member_findings_carry_the_claimed_and_recomputed_values():
+    """Findings are data: a per-member finding holds the claim and the force it was compared with,
+    and its words come from the one template table, each number with its unit."""
+    from verify.compare.findings import TEMPLATES
+
+    claims = claims_of(bridge())
+    truth = claims["dead"]["L2L3"]
+    claims["dead"]["L2L3"] = 1.3 * truth
+    (finding,) = errors(review_of(bridge(), claims))
+    assert finding.kind == "value-mismatch" and finding.claimed == pytest.approx(1.3 * truth)
+    assert finding.recomputed == pytest.approx(truth, rel=0.005)  # the claim table was rounded to 3 figures
+    assert finding.detail.startswith("L2L3 in 'dead': claimed ") and " kN, recomputed " in finding.detail
+    assert set(TEMPLATES) == {"zero-force-claimed", "sign-flip", "unit-scale", "value-mismatch"}

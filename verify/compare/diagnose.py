@@ -50,7 +50,7 @@ from verify.compare.convention import (
     matching_factor,
     possible_factors,
 )
-from verify.compare.findings import Finding, Severity, ordered
+from verify.compare.findings import Finding, Severity, ordered, worded
 from verify.compare.implied import ImpliedLoads, implied_loads
 from verify.compare.tolerances import (
     Tolerance,
@@ -922,22 +922,27 @@ def _indeterminate(c: Comparison) -> None:
 def _member_reasons(c: Comparison) -> None:
     case_unit, diffs, explained, findings, named_ratio = c.case_unit, c.diffs, c.explained, c.findings, c.named_ratio
     rounding_of_row, rows, scale_of, slip_ratios, tol = c.rounding_of_row, c.rows, c.scale_of, c.slip_ratios, c.tol
+    unit = case_unit.symbol
     for r, v, value, computed, allowed in diffs:
         if r in explained:
             continue
         member = v.member
         assert member is not None
         name = rows[r].case
-        written_at = f" [written {rows[r].written}]"
         atol = tol.atol_fraction * scale_of.get(name, 0.0)
-        where_written = (v.where,)
+        common = {"member": member, "case": name, "claimed": f"{fmt(value)} {unit}", "recomputed": f"{fmt(computed)} {unit}",
+                  "written": rows[r].written}
         next_step = (f"truss-verify solve {shlex.quote(c.model.source)} --show joints --case {shlex.quote(name)}"
                      if c.model.source else None)
+
+        def finding(kind: str, detail: str, member: str = member, name: str = name, value: float = value,
+                    computed: float = computed, where: str = v.where, next_step: str | None = next_step) -> Finding:
+            return Finding(kind, (member,), detail, Severity.ERROR, case=name, locations=(where,), next_step=next_step,
+                           claimed=value, recomputed=computed)
+
         if abs(computed) <= atol:
             rows[r] = _with_status(rows[r], "zero-force-claimed")
-            findings.append(Finding("zero-force-claimed", (member,), f"{member} in '{name}': claimed {fmt(value)} {case_unit.symbol}, "
-                                    "but it is a zero-force member under this loading" + written_at, Severity.ERROR, case=name,
-                                    locations=where_written, next_step=next_step))
+            findings.append(finding("zero-force-claimed", worded("zero-force-claimed", **common)))
             continue
         # A sign flip: opposite signs and the same size, within the relative tolerance or the
         # claim's own rounding (never the absolute allowance, and never a claimed zero: 0.00 for
@@ -945,24 +950,20 @@ def _member_reasons(c: Comparison) -> None:
         same_size = abs(abs(value) - abs(computed)) <= max(tol.rtol * abs(computed), rounding_of_row.get(r, 0.0))
         if value * computed < 0 and same_size:
             rows[r] = _with_status(rows[r], "sign-flip")
-            how = "the T/C mark" if v.sign_fixed else "the sign"
-            findings.append(Finding("sign-flip", (member,), f"{member} in '{name}': claimed {fmt(value)} but recomputed {fmt(computed)} "
-                                    f"{case_unit.symbol} ({'tension' if computed > 0 else 'compression'}): {how} is reversed" + written_at, Severity.ERROR, case=name,
-                                    locations=where_written, next_step=next_step))
+            findings.append(finding("sign-flip", worded("sign-flip", **common, sense="tension" if computed > 0 else "compression",
+                                                        how="the T/C mark" if v.sign_fixed else "the sign")))
             continue
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol, slip_ratios)
         if unit_factor is not None:
             rows[r] = _with_status(rows[r], "unit-scale")
-            findings.append(Finding("unit-scale", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
-                                    f"{case_unit.symbol}; the ratio {ratio:.5g} is a unit factor {named_ratio(unit_factor)}"
-                                    + ("" if ratio > 0 else " with the sign also reversed") + written_at, Severity.ERROR, case=name,
-                                    locations=where_written, next_step=next_step))
+            findings.append(finding("unit-scale", worded("unit-scale", **common, ratio=f"{ratio:.5g}", factor=named_ratio(unit_factor),
+                                                         reversed="" if ratio > 0 else " with the sign also reversed")))
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
-        findings.append(Finding("value-mismatch", (member,), f"{member} in '{name}': claimed {fmt(value)}, recomputed {fmt(computed)} "
-                                f"{case_unit.symbol} (difference {'+' if value >= computed else '-'}{fmt(abs(value - computed))}, {pct:.1f} %; allowed {fmt(allowed, 3)})" + written_at,
-                                Severity.ERROR, case=name, locations=where_written, next_step=next_step))
+        findings.append(finding("value-mismatch", worded(
+            "value-mismatch", **common, difference=f"{'+' if value >= computed else '-'}{fmt(abs(value - computed))} {unit}",
+            percent=f"{pct:.1f}", allowed=f"{fmt(allowed, 3)} {unit}")))
 
 
 def _flag(c: Comparison) -> None:

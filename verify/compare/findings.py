@@ -95,6 +95,8 @@ class Finding:
     joints: tuple[str, ...] = ()  # joints the finding is about (loads moved, supports)
     locations: tuple[str, ...] = ()  # where each claim concerned was written ("row 9, column 'dead'")
     next_step: str | None = None  # the command that prints the hand calc for the members concerned
+    claimed: float | None = None  # one claim's value (case units, tension positive), where it applies
+    recomputed: float | None = None  # the force it was compared with
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:
@@ -110,7 +112,7 @@ class Finding:
                                   "severity": self.severity.value}
         if self.case is not None:
             out["case"] = self.case
-        for key in ("variant", "explains", "unexplained", "factor", "next_step"):
+        for key in ("variant", "explains", "unexplained", "factor", "next_step", "claimed", "recomputed"):
             value = getattr(self, key)
             if value is not None:
                 out[key] = value
@@ -119,6 +121,25 @@ class Finding:
         if self.locations:
             out["locations"] = list(self.locations)
         return out
+
+
+# The wording of the findings about one member's claim, in one table: the fields are filled in
+# by `worded`; numbers arrive formatted, each with its unit.
+TEMPLATES: dict[str, str] = {
+    "zero-force-claimed": "{member} in '{case}': claimed {claimed}, but it is a zero-force member under this loading "
+                          "[written {written}]",
+    "sign-flip": "{member} in '{case}': claimed {claimed} but recomputed {recomputed} ({sense}): {how} is reversed "
+                 "[written {written}]",
+    "unit-scale": "{member} in '{case}': claimed {claimed}, recomputed {recomputed}; the ratio {ratio} is a unit factor "
+                  "{factor}{reversed} [written {written}]",
+    "value-mismatch": "{member} in '{case}': claimed {claimed}, recomputed {recomputed} (difference {difference}, "
+                      "{percent} %; allowed {allowed}) [written {written}]",
+}
+
+
+def worded(kind: str, **fields: object) -> str:
+    """The detail of a finding about one member's claim, from TEMPLATES."""
+    return TEMPLATES[kind].format(**fields)
 
 
 def ordered(findings: list[Finding]) -> list[Finding]:
