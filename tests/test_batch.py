@@ -165,18 +165,18 @@ def test_batch_status_is_the_most_serious_in_the_documented_order(codes, expecte
 
 
 def test_a_fault_in_one_case_is_reported_and_the_others_are_checked(job_folder, tmp_path, monkeypatch):
-    import verify.analysis.pipeline as pipeline
+    import verify.service as service  # the check service calls the analysis for every caller
 
     folder, expected = fresh_copy(job_folder, tmp_path)
     victim = sorted(expected)[1]
-    real = pipeline.analyse
+    real = service.analyse
 
     def analyse(model, **kwargs):
         if victim in model.source:
             raise ZeroDivisionError("planted fault")
         return real(model, **kwargs)
 
-    monkeypatch.setattr(pipeline, "analyse", analyse)
+    monkeypatch.setattr(service, "analyse", analyse)
     outcome = run_batch(folder, runner=local_runner(1))  # in this process, where the patch holds
     statuses = {job.name: result.status for job, result in outcome.pairs}
     assert statuses.pop(victim) == "fault"

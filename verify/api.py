@@ -17,10 +17,12 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from verify.analysis.pipeline import Analysis, analyse
-from verify.compare.diagnose import Review, compare_claims
+from verify.compare.diagnose import Review
 from verify.compare.tolerances import ATOL_FRACTION, RTOL
 from verify.io.case import read_case
 from verify.model import Model
+from verify.report.names import kind_word, severity_word
+from verify.service import CheckOptions, check, exit_status
 
 if TYPE_CHECKING:  # pandas is imported lazily at run time
     import pandas as pd
@@ -121,6 +123,7 @@ class ReviewResult:
     """A claims table checked against the recomputed forces."""
 
     review: Review
+    displacement_file: tuple[str, str] | None = None  # (path, SHA-256) of claimed displacements checked
 
     @property
     def model(self) -> Model:
@@ -133,7 +136,8 @@ class ReviewResult:
 
     @property
     def exit_code(self) -> int:
-        return self.review.exit_code
+        """As `check` exits: 0 agrees, 1 discrepancies, 3 cannot verify."""
+        return exit_status(self.review.verdict)
 
     @property
     def members(self) -> pd.DataFrame:
@@ -157,8 +161,8 @@ class ReviewResult:
                    "factor", "joints", "locations", "next_step"]
         records = [
             {
-                "severity": f.severity.value,
-                "kind": str(f.kind),
+                "severity": severity_word(f.severity.value),
+                "kind": kind_word(str(f.kind)),
                 "title": f.title,
                 "case": f.case,
                 "members": ", ".join(f.members),
@@ -190,8 +194,9 @@ class ReviewResult:
             "status",
             "written",
         ]
+        # The words every output shows (report/names.py), so the DataFrame says what --json says.
         records = [
-            {k: v for k, v in row.as_dict().items() if k in columns}
+            {k: v for k, v in row.as_dict().items() if k in columns} | {"status": kind_word(str(row.status))}
             for row in self.review.rows
             if row.kind == kind
         ]
@@ -201,7 +206,7 @@ class ReviewResult:
         """The full review report (as `check --report` writes it)."""
         from verify.report.document import render_document
 
-        return render_document(self.review, fmt=fmt, generated=generated)
+        return render_document(self.review, fmt=fmt, generated=generated, displacement_file=self.displacement_file)
 
     def _repr_html_(self) -> str:
         from verify.report.document import diagrams_html, finding_sentence
@@ -260,6 +265,7 @@ def review(
     sign: str = "auto",
     unit: str | None = None,
     sheet: str | None = None,
+    pages: str | None = None,
     rtol: float = RTOL,
     atol_fraction: float = ATOL_FRACTION,
     member_column: str | None = None,
@@ -267,31 +273,25 @@ def review(
     force_column: str | None = None,
     case: str | None = None,
     assume_equal_EA: float | None = None,
+    displacements: str | Path | None = None,
     tables_anywhere: bool = False,
 ) -> ReviewResult:
-    """Check the claims file against the case, as `truss-verify check` does.
+    """Check the claims file against the case, as `truss-verify check` does (the same service).
 
-    `sign` is tension-positive, compression-positive or auto; `unit` None (or "auto") reads it
-    from the table or infers it. Options out of range raise verify.errors.OptionError (the same
-    rule as the command line's); bad input raises verify.errors.InputError.
+    The options are `check`'s, with the same meanings: `sign` is tension-positive,
+    compression-positive or auto; `unit` None (or "auto") reads it from the table or infers it;
+    `rtol` and `atol_fraction` are `--relative-tolerance` and `--absolute-tolerance`; `case` is
+    `--case`; `displacements` a file of claimed joint displacements. `case_path` may name a case
+    folder. Options out of range raise verify.errors.OptionError; a file that cannot be read, or a
+    claims table none of whose labels match the case, raises verify.errors.InputError. Both are
+    ValueErrors, and the command line refuses the same inputs with exit status 2.
     """
-    from verify.io.claims import read_claims
-    from verify.options import check_options
-
-    options = check_options(sign=sign, unit=unit, rtol=rtol, atol_fraction=atol_fraction, assume_equal_EA=assume_equal_EA)
-    model = read_case(case_path, tables_outside=tables_anywhere)
-    claims = read_claims(
-        claims_path,
-        model,
-        sheet=sheet,
-        member_column=member_column,
-        case_column=case_column,
-        force_column=force_column,
-        case=case,
-    )
-    analysis = analyse(model, assume_equal_EA=options.assume_equal_EA)
-    result = compare_claims(analysis, claims, sign=options.sign, unit=options.unit, tolerance=options.tolerance)
-    return ReviewResult(result)
+    options = CheckOptions(sign=sign, unit=unit, sheet=sheet, pages=pages, rtol=rtol, atol_fraction=atol_fraction,
+                           member_column=member_column, case_column=case_column, force_column=force_column,
+                           load_case=case, assume_equal_EA=assume_equal_EA, displacements=displacements,
+                           tables_anywhere=tables_anywhere, spelt=(("load_case", "case"),))
+    result = check(case_path, claims_path, options)
+    return ReviewResult(result.review, displacement_file=result.displacement_file)
 
 
 __all__ = ["ReviewResult", "SolveResult", "review", "solve"]

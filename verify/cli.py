@@ -45,15 +45,10 @@ def _fail_input(error: InputError | str, as_json: bool = False) -> None:
 
 
 def _load(case: str, as_json: bool = False, tables_anywhere: bool = False) -> Model:
-    from pathlib import Path
+    from verify.service import case_file
 
-    if Path(case).is_dir():  # a case folder, as bundled in cases/: its case.toml
-        inside = Path(case) / "case.toml"
-        if not inside.is_file():
-            _fail_input(f"{case}: a folder without a case.toml; name the case file", as_json)
-        case = str(inside)
-    try:
-        return read_case(case, tables_outside=tables_anywhere)
+    try:  # a case folder, as bundled in cases/, stands for its case.toml
+        return read_case(case_file(case), tables_outside=tables_anywhere)
     except InputError as error:
         _fail_input(error, as_json)
         raise  # unreachable; keeps type checkers honest
@@ -238,29 +233,15 @@ def cut(case: str, member_list: str, load_name: str | None, decimals_only: bool,
     click.echo(f"Caution: {CAUTION}")
 
 
-def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: str, sheet: str | None,
-               report: str | None, csv_path: str | None, rtol: float, atol_fraction: float,
-               member_column: str | None, case_column: str | None, force_column: str | None,
-               load_name: str | None, assume_equal_ea: float | None, all_rows: bool,
-               displacements: str | None = None, tables_anywhere: bool = False, pages: str | None = None,
-               typed: dict[str, str] | None = None) -> int:
-    from verify.compare.diagnose import compare_claims
+def _run_check(case: str, claims_path: str, *, as_json: bool, report: str | None, csv_path: str | None,
+               all_rows: bool, spelt: dict[str, str] | None = None, **given: Any) -> int:
+    """Parse, call the check service, write and print; the exit status. `given`: CheckOptions' fields."""
     from verify.errors import OptionError
-    from verify.io.claims import read_claims
-    from verify.options import check_options
     from verify.report.atomic import OutputError, write_atomic
     from verify.report.review_text import render_review
+    from verify.service import CheckOptions, check
 
-    try:
-        options = check_options(sign=sign, unit=unit, rtol=rtol, atol_fraction=atol_fraction,
-                                assume_equal_EA=assume_equal_ea,
-                                names={"sign": "--sign", "unit": "--unit", "rtol": "--relative-tolerance",
-                                       "atol_fraction": "--absolute-tolerance",
-                                       "assume_equal_EA": "--assume-equal-ea", **(typed or {})})
-    except OptionError as exc:
-        _say_bad_input(str(exc), as_json)
-        return EXIT_BAD_INPUT
-    model = _load(case, as_json, tables_anywhere)
+    # Output paths are the command's business, not the check's: refused before any file is read.
     if report and not report.lower().endswith((".html", ".htm", ".md")):
         _say_bad_input(f"--report: '{report}' must end in .html or .md (the report's format follows the extension)", as_json)
         return EXIT_BAD_INPUT
@@ -268,56 +249,43 @@ def _run_check(case: str, claims_path: str, *, as_json: bool, sign: str, unit: s
         # (and so can never be the --report file, which ends in .html or .md)
         _say_bad_input(f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, not a workbook)", as_json)
         return EXIT_BAD_INPUT
+    names = {**_CHECK_SPELLING, **(spelt or {})}
     try:
-        claims = read_claims(claims_path, model, sheet=sheet, member_column=member_column, case_column=case_column,
-                             force_column=force_column, case=load_name, pages=pages)
+        result = check(case, claims_path, CheckOptions(**given, spelt=tuple(names.items())))
+    except OptionError as exc:
+        _say_bad_input(str(exc), as_json)
+        return EXIT_BAD_INPUT
     except InputError as error:
         _say_bad_input(error, as_json)
         return EXIT_BAD_INPUT
-    if not claims.values and claims.unmatched:
-        labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:5])
-        _say_bad_input(f"{claims_path}: no label matches a member or reaction of {case} (e.g. {labels}); "
-                       "is this the claims table for this case?", as_json)
-        return EXIT_BAD_INPUT
-    displacement_claims = None
-    if displacements:
-        from verify.io.displacements import read_displacements
-
-        try:
-            displacement_claims = read_displacements(displacements, model)
-        except InputError as error:
-            _say_bad_input(error, as_json)
-            return EXIT_BAD_INPUT
-    analysis = analyse(model, assume_equal_EA=options.assume_equal_EA, displacements=displacement_claims is not None)
-    tolerance = options.tolerance
-    review = compare_claims(analysis, claims, sign=options.sign, unit=options.unit, tolerance=tolerance)
-    if displacement_claims is not None:
-        from verify.compare.displacements import attach_displacements, compare_displacements
-
-        review = attach_displacements(review, compare_displacements(analysis, displacement_claims, tolerance=tolerance))
-    displacement_file = ((displacement_claims.source, displacement_claims.sha256)
-                         if displacement_claims is not None else None)
-    # Every file the run read, however the user spelt it: no output may replace one.
-    inputs = [case, model.source, claims_path, *model.tables] + ([displacements] if displacements else [])
+    review = result.review
     try:
         if csv_path:
             from verify.report.table_csv import render_csv
 
-            write_atomic(csv_path, render_csv(review), inputs=inputs)
+            write_atomic(csv_path, render_csv(review), inputs=list(result.inputs))
         if report:
             from verify.report.document import render_document
 
             write_atomic(report, render_document(review, fmt="md" if report.lower().endswith(".md") else "html",
-                                                 displacement_file=displacement_file), inputs=inputs)
+                                                 displacement_file=result.displacement_file), inputs=list(result.inputs))
     except (OutputError, OSError) as exc:
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
     if as_json:
-        click.echo(json_out.dumps(json_out.check_json(review, displacement_file=displacement_file)))
+        click.echo(json_out.dumps(json_out.check_json(review, displacement_file=result.displacement_file)))
     else:
         # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
         click.echo(_colour(escape_controls(render_review(review, all_rows=all_rows), keep="\n\t"), review.verdict.value))
-    return review.exit_code
+    return result.exit_code
+
+
+# The options as the command spells them, for messages (CheckOptions names its fields in Python).
+_CHECK_SPELLING = {"sign": "--sign", "unit": "--unit", "sheet": "--sheet", "pages": "--pages",
+                   "rtol": "--relative-tolerance", "atol_fraction": "--absolute-tolerance",
+                   "member_column": "--member-column", "case_column": "--case-column",
+                   "force_column": "--force-column", "load_case": "--case", "assume_equal_EA": "--assume-equal-ea",
+                   "displacements": "--displacements"}
 
 
 def _colour(text: str, verdict: str) -> str:
@@ -381,14 +349,15 @@ def check(case: str, claims_path: str, **options: Any) -> None:
     claims, real errors) and the member table. Exit status: 0 agrees, 1 discrepancies, 2 bad
     input, 3 cannot verify.
     """
-    typed = {}
-    for alias, name, spelt in (("rtol_alias", "rtol", "--rtol"), ("atol_fraction_alias", "atol_fraction", "--atol-fraction")):
+    spelt = {}
+    for alias, name, typed in (("rtol_alias", "rtol", "--rtol"), ("atol_fraction_alias", "atol_fraction", "--atol-fraction")):
         value = options.pop(alias)
         if value is not None:
             options[name] = value
-            typed[name] = spelt  # a message names the option as the user typed it
-    options["typed"] = typed
-    sys.exit(_run_check(case, claims_path, **options))
+            spelt[name] = typed  # a message names the option as the user typed it
+    options["load_case"] = options.pop("load_name")
+    options["assume_equal_EA"] = options.pop("assume_equal_ea")
+    sys.exit(_run_check(case, claims_path, spelt=spelt, **options))
 
 
 @main.command(short_help="Write a starter case file for a common truss pattern.")
@@ -461,9 +430,8 @@ def demo(as_json: bool, report: str | None) -> None:
     with as_file(demo_dir / "case.toml") as case_path, as_file(demo_dir / "claims.csv") as claims_path:
         if not as_json:
             click.echo(f"Demo: truss-verify check {case_path} --claims {claims_path}\n")
-        code = _run_check(str(case_path), str(claims_path), as_json=as_json, sign="auto", unit="auto", sheet=None,
-                          report=report, csv_path=None, rtol=0.01, atol_fraction=1e-3, member_column=None,
-                          case_column=None, force_column=None, load_name=None, assume_equal_ea=None, all_rows=False)
+        code = _run_check(str(case_path), str(claims_path), as_json=as_json, report=report, csv_path=None,
+                          all_rows=False)
     if not as_json:
         click.echo(f"\n(The demo table has planted errors; 'check' itself would exit with status {code}.)")
     sys.exit(0 if code in (0, 1) else code)

@@ -1,9 +1,10 @@
 """The options of a check, validated in one place for the command line and the Python API.
 
 `check_options` takes the options as given and returns them clean, or raises
-:class:`~verify.errors.OptionError` naming the option, the value and its range. The CLI turns
-that into exit status 2; the API lets it propagate. Nothing else range-checks these options, so
-`review(rtol=5.0)` is refused exactly as `check --rtol 5.0` is.
+:class:`~verify.errors.OptionError` naming the option, the value and its range.
+`verify.service.CheckOptions` calls it when made, for the CLI, the API and the batch alike; the
+CLI turns the error into exit status 2, the API lets it propagate. Nothing else range-checks
+these options, so `review(rtol=5.0)` is refused exactly as `check --rtol 5.0` is.
 """
 
 from __future__ import annotations
@@ -18,7 +19,9 @@ from verify.units import Dimension, lookup_unit
 
 
 @dataclass(frozen=True)
-class CheckOptions:
+class CleanOptions:
+    """The clean values of the options `check_options` range-checks."""
+
     sign: SignMode
     unit: str | None  # None: read from the table or inferred
     tolerance: Tolerance
@@ -45,7 +48,7 @@ def check_assume_equal_ea(value: object, *, name: str = "assume_equal_EA") -> fl
 
 def check_options(*, sign: object = "auto", unit: object = None, rtol: object = Tolerance.rtol,
                   atol_fraction: object = Tolerance.atol_fraction, assume_equal_EA: object = None,
-                  names: dict[str, str] | None = None) -> CheckOptions:
+                  names: dict[str, str] | None = None) -> CleanOptions:
     """The options of a check, clean; OptionError on the first one out of range.
 
     `names` maps an option to the name the user typed (the CLI passes "--rtol" for "rtol").
@@ -68,4 +71,4 @@ def check_options(*, sign: object = "auto", unit: object = None, rtol: object = 
                                 meaning="the absolute tolerance (a fraction of the largest force)"),
     )
     ea = check_assume_equal_ea(assume_equal_EA, name=said["assume_equal_EA"])
-    return CheckOptions(SignMode(str(sign)), clean_unit, tolerance, ea)
+    return CleanOptions(SignMode(str(sign)), clean_unit, tolerance, ea)

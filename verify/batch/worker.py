@@ -14,6 +14,7 @@ import time
 import traceback
 from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import Any
 
 from verify.batch.jobs import Job
 from verify.errors import (
@@ -80,53 +81,24 @@ def check_job(job: Job) -> CaseResult:
     return replace(result, seconds=time.perf_counter() - start)
 
 
-def _options(job: Job) -> dict[str, str | float]:
-    return dict(job.options)
+# The manifest's column names where they differ from CheckOptions' fields; messages use the column's.
+_MANIFEST_FIELDS = {"assume_equal_ea": "assume_equal_EA"}
 
 
 def _review(job: Job) -> CaseResult:
-    from verify.analysis.pipeline import analyse
-    from verify.compare.diagnose import compare_claims
-    from verify.errors import Problem
-    from verify.io.case import read_case
-    from verify.io.claims import read_claims
-    from verify.options import check_options
     from verify.report.document import finding_sentence, render_document
+    from verify.service import CheckOptions, check
 
     assert job.case is not None and job.claims is not None  # a job without them carries a problem
-    given = _options(job)
-    options = check_options(sign=given.get("sign", "auto"), unit=given.get("unit"),
-                            rtol=given.get("rtol", 0.01), atol_fraction=given.get("atol_fraction", 1e-3),
-                            assume_equal_EA=given.get("assume_equal_ea"),
-                            names={"atol_fraction": "atol_fraction", "assume_equal_EA": "assume_equal_ea"})
-    model = read_case(job.case)
-
-    def text(key: str) -> str | None:
-        value = given.get(key)
-        return None if value is None else str(value)
-
-    claims = read_claims(job.claims, model, sheet=text("sheet"), member_column=text("member_column"),
-                         case_column=text("case_column"), force_column=text("force_column"),
-                         case=text("load_case"), pages=text("pages"))
-    if not claims.values and claims.unmatched:
-        labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:5])
-        raise InputError([Problem(job.claims, f"no label matches a member or reaction of {job.case} (e.g. {labels}); "
-                                              "is this the claims table for this case?")])
-    displacement_claims = None
-    if job.displacements:
-        from verify.io.displacements import read_displacements
-
-        displacement_claims = read_displacements(job.displacements, model)
-    analysis = analyse(model, assume_equal_EA=options.assume_equal_EA, displacements=displacement_claims is not None)
-    review = compare_claims(analysis, claims, sign=options.sign, unit=options.unit, tolerance=options.tolerance)
-    if displacement_claims is not None:
-        from verify.compare.displacements import attach_displacements, compare_displacements
-
-        review = attach_displacements(review, compare_displacements(analysis, displacement_claims, tolerance=options.tolerance))
+    # Manifest cells are text or numbers as read; CheckOptions checks each one's type and range.
+    given: dict[str, Any] = {_MANIFEST_FIELDS.get(name, name): value for name, value in job.options}
+    spelt = tuple((field, column) for column, field in _MANIFEST_FIELDS.items())
+    result = check(job.case, job.claims, CheckOptions(**given, displacements=job.displacements, spelt=spelt))
+    review = result.review
     first = review.findings[0] if review.findings else None
     most_serious = "" if first is None else (
         f"{first.title}{f' ({first.case})' if first.case else ''}: {finding_sentence(first)}")
-    read = [job.case, *model.tables, job.claims, *([job.displacements] if job.displacements else [])]
+    read = dict.fromkeys(str(Path(p).resolve()) for p in result.inputs)
     return CaseResult(job.name, review.verdict.value, findings=len(review.findings), most_serious=most_serious,
-                      inputs=tuple((p, sha256_of(p)) for p in dict.fromkeys(str(Path(p).resolve()) for p in read)),
-                      report=render_document(review, fmt="html"))
+                      inputs=tuple((p, sha256_of(p)) for p in read),
+                      report=render_document(review, fmt="html", displacement_file=result.displacement_file))

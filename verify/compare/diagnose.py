@@ -58,7 +58,6 @@ from verify.compare.tolerances import (
     rounding_allowances,
     significant_figure_allowances,
 )
-from verify.errors import EXIT_AGREES, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.model import Model
@@ -146,11 +145,6 @@ class Review:
     notes: tuple[str, ...] = field(default=())
     displacements: object | None = None  # verify.compare.displacements.DisplacementCheck
     implied: ImpliedLoads | None = None  # the loads the claims balance, where they differ
-
-    @property
-    def exit_code(self) -> int:
-        return {Verdict.AGREES: EXIT_AGREES, Verdict.DISCREPANCIES: EXIT_DISCREPANCIES,
-                Verdict.CANNOT_VERIFY: EXIT_CANNOT_VERIFY}[self.verdict]
 
 
 # -- column mapping ------------------------------------------------------------------------------
