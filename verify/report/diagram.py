@@ -116,6 +116,7 @@ def _n(value: float) -> str:
 class _View:
     name: str  # caption, e.g. "Elevation (x-y)"
     axes: tuple[int, int]  # model axes drawn as screen x and screen up
+    up: float = 1.0  # -1 draws the second axis down the page, so a plan seen from above is not mirrored
 
 
 def views_for(model: Model) -> list[_View]:
@@ -134,10 +135,16 @@ def views_for(model: Model) -> list[_View]:
     extent = np.ptp(model.xyz, axis=0) if len(model.joints) else np.zeros(3)
     across = max(horizontal, key=lambda a: (extent[a], -a))
     other = [a for a in horizontal if a != across][0]
+    # Seen from above (the vertical toward the viewer), screen right x screen up must be the
+    # vertical: (x, y) under z is; (y, x) is not, and then x is drawn down the page instead.
+    e = np.eye(3)
+    up = 1.0 if float(np.dot(np.cross(e[across], e[other]), e[vertical])) > 0 else -1.0
     return [
         _View(
-            f"Plan (looking down {names[vertical]}: {names[across]} across, {names[other]} up the page)",
+            f"Plan (looking down {names[vertical]}: {names[across]} across, {names[other]} "
+            f"{'up' if up > 0 else 'down'} the page)",
             (across, other),
+            up,
         ),
         _View(
             f"Elevation (looking along {names[other]}: {names[across]} across, {names[vertical]} up)",
@@ -209,7 +216,7 @@ def _svg(
     implied: np.ndarray | None = None,
 ) -> str:
     ax, ay = view.axes
-    pts = model.xyz[:, [ax, ay]] if len(model.joints) else np.zeros((0, 2))
+    pts = model.xyz[:, [ax, ay]] * np.array([1.0, view.up]) if len(model.joints) else np.zeros((0, 2))
     lo = pts.min(axis=0) if len(pts) else np.zeros(2)
     hi = pts.max(axis=0) if len(pts) else np.ones(2)
     span = np.maximum(hi - lo, 1e-12)
@@ -417,7 +424,7 @@ def _supports(
         j = model.joint_index[joint_id]
         vertical = [d for d in directions if abs(d[ay]) > 0.5]
         main = vertical[0] if vertical else directions[0]
-        ux, uy = float(main[ax]), -float(main[ay])
+        ux, uy = float(main[ax]), -view.up * float(main[ay])
         length = math.hypot(ux, uy)
         if length < 1e-9:  # restraint along the viewing direction only
             ux, uy = 0.0, -1.0
@@ -484,7 +491,7 @@ def _loads(
     for j in range(len(model.joints)):
         if magnitude[j] <= smallest:
             continue
-        vx, vy = float(vectors[j, ax]), -float(vectors[j, ay])
+        vx, vy = float(vectors[j, ax]), -view.up * float(vectors[j, ay])
         shown = math.hypot(vx, vy)
         if shown < 0.05 * magnitude[j]:
             continue  # the load points along the line of sight of this view

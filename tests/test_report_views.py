@@ -1,0 +1,29 @@
+"""Plan views of space trusses are seen from above, never mirrored (right-handed axes)."""
+
+from __future__ import annotations
+
+import numpy as np
+from trussgen import make_model, truss_case
+
+from verify.report.diagram import views_for
+
+
+def _tower(long_axis: int):
+    """A tripod-like space truss longer along `long_axis` (0 = x, 1 = y), z up, loaded down z."""
+    spread = [[0.0, 0.0, 0.0], [2.0, 0.0, 0.0], [1.0, 1.0, 0.0]]
+    if long_axis == 1:
+        spread = [[y, x, z] for x, y, z in spread]
+    joints = {"A": spread[0], "B": spread[1], "C": spread[2], "T": [0.5, 0.5, 3.0]}
+    case = truss_case(joints, [("A", "T"), ("B", "T"), ("C", "T")], {j: ["x", "y", "z"] for j in "ABC"},
+                      {"P": {"T": [0.0, 0.0, -10.0]}})
+    return make_model(case)
+
+
+def test_plan_views_are_right_handed_seen_from_above():
+    for long_axis, word in ((0, "up"), (1, "down")):
+        plan = views_for(_tower(long_axis))[0]
+        across, other = plan.axes
+        e = np.eye(3)
+        # screen right x screen up (the second axis times its sign) points at the viewer: +z
+        assert np.dot(np.cross(e[across], plan.up * e[other]), e[2]) > 0
+        assert plan.name.endswith(f"{'xyz'[other]} {word} the page)")
