@@ -2,6 +2,11 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from verify.model import Model
+
 from verify.formatting import clean_zero, decimals_in, fmt, fmt_fixed, fmt_percent, fmt_ratio, tc
 
 __all__ = ["clean_zero", "difference_text", "fmt", "fmt_fixed", "fmt_percent", "fmt_ratio", "plain_table",
@@ -66,3 +71,12 @@ def plain_table(headers: list[str], rows: list[list[str]]) -> str:
              "  ".join("-" * w for w in widths)]
     lines.extend("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)) for row in rows)
     return "\n".join(lines)
+
+
+def load_title(model: Model, name: str) -> str:
+    """'Load case 'dead'' or 'Load combination 'ULS' = 1.35 × dead + 1.5 × traffic'."""
+    for combo in model.combinations:
+        if combo.name == name:
+            terms = " + ".join(f"{fmt(f)} × {case}" for case, f in combo.factors.items())
+            return f"Load combination '{name}' = {terms}"
+    return f"Load case '{name}'"

@@ -30,7 +30,7 @@ from verify.analysis.sections import (
     solve_cut,
 )
 from verify.model import Model
-from verify.report.numbers import clean_zero, fmt
+from verify.report.numbers import clean_zero, fmt, load_title
 
 DIGITS = 6
 EXACT_RTOL = 1e-9  # an exact value is shown only if it matches the decimal this closely
@@ -294,7 +294,8 @@ def render_reactions(model: Model, load_name: str, *, exact: bool = True) -> str
     fu, lu = model.units.force.symbol, model.units.length.symbol
     first = solve_reactions(model)
     need = 3 if d == 2 else 6
-    out = [f"Reactions from overall equilibrium, load '{load_name}' (forces in {fu}, lengths in {lu})"]
+    title = load_title(model, load_name)
+    out = [f"Reactions from overall equilibrium, {title[0].lower()}{title[1:]} (forces in {fu}, lengths in {lu})"]
     if first is None:
         why = (f"there are {len(model.reactions)} reaction components, not {need}"
                if len(model.reactions) != need else "the supports are parallel or concurrent")

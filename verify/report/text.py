@@ -10,7 +10,7 @@ from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
 from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.names import method_phrase
-from verify.report.numbers import fmt, fmt_ratio, plain_table, roundoff_text, tc
+from verify.report.numbers import fmt, fmt_ratio, load_title, plain_table, roundoff_text, tc
 
 AXIS_NAMES = ("x", "y", "z")
 
@@ -106,7 +106,7 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False,
     unit = model.units.force.symbol
     route = "global solve of every joint equation at once" if analysis.global_ is not None else "direct stiffness method"
     for name in load_names or model.load_names:
-        parts.append(f"Load {'combination' if name not in {c.name for c in model.cases} else 'case'} '{name}' — member forces in {unit}, tension positive ({route})")
+        parts.append(f"{load_title(model, name)} — member forces in {unit}, tension positive ({route})")
         parts.append(force_table(model, analysis, name, all_rows=all_rows))
         parts.append("")
     sections = analysis.sections
