@@ -27,3 +27,21 @@ def test_plan_views_are_right_handed_seen_from_above():
         # screen right x screen up (the second axis times its sign) points at the viewer: +z
         assert np.dot(np.cross(e[across], plan.up * e[other]), e[2]) > 0
         assert plan.name.endswith(f"{'xyz'[other]} {word} the page)")
+
+
+def test_crossed_diagonals_get_their_labels_away_from_the_crossing():
+    """Both diagonals of a braced square cross at its centre: each label sits on its own member,
+    away from that point (the shared midpoint would put both labels on top of each other)."""
+    import re
+
+    from verify.report.diagram import render_diagram
+
+    joints = {"A": [0.0, 0.0], "B": [4.0, 0.0], "C": [4.0, 4.0], "D": [0.0, 4.0]}
+    members = [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A"), ("A", "C"), ("B", "D")]
+    case = truss_case(joints, members, {"A": ["x", "y"], "B": ["y"]}, {"P": {"C": [1.0, 0.0]}})
+    svg = render_diagram(make_model(case))
+    labels = {m.group(3): (float(m.group(1)), float(m.group(2)))
+              for m in re.finditer(r'<text x="([-\d.]+)" y="([-\d.]+)"[^>]*>(AC|BD)</text>', svg)}
+    assert set(labels) == {"AC", "BD"}
+    (ax, ay), (bx, by) = labels["AC"], labels["BD"]
+    assert abs(ax - bx) + abs(ay - by) > 30  # well apart, not both at the crossing

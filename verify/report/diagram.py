@@ -328,12 +328,40 @@ def _halo() -> str:
     return 'paint-order="stroke" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round"'
 
 
+CROSSING_AT = 0.3  # where along a member that crosses another its label and mark sit (not the crossing)
+
+
+def _crossing(model: Model, sx: np.ndarray, sy: np.ndarray) -> set[int]:
+    """Members whose drawn lines cross another member's inside both (crossed bracing)."""
+    ends = model.ends_index
+    p, q = np.column_stack([sx[ends[:, 0]], sy[ends[:, 0]]]), np.column_stack([sx[ends[:, 1]], sy[ends[:, 1]]])
+    lo, hi = np.minimum(p, q), np.maximum(p, q)
+    order = np.argsort(lo[:, 0])
+    out: set[int] = set()
+    for pos, a in enumerate(order.tolist()):
+        for b in order[pos + 1:].tolist():
+            if lo[b, 0] > hi[a, 0]:
+                break
+            if lo[b, 1] > hi[a, 1] or hi[b, 1] < lo[a, 1] or set(ends[a].tolist()) & set(ends[b].tolist()):
+                continue
+            d1, d2 = q[a] - p[a], q[b] - p[b]
+            den = d1[0] * d2[1] - d1[1] * d2[0]
+            if abs(den) < 1e-9:
+                continue
+            t = ((p[b][0] - p[a][0]) * d2[1] - (p[b][1] - p[a][1]) * d2[0]) / den
+            u = ((p[b][0] - p[a][0]) * d1[1] - (p[b][1] - p[a][1]) * d1[0]) / den
+            if 0.05 < t < 0.95 and 0.05 < u < 0.95:
+                out.update((a, b))
+    return out
+
+
 def _midpoint_frame(
-    model: Model, sx: np.ndarray, sy: np.ndarray, i: int
+    model: Model, sx: np.ndarray, sy: np.ndarray, i: int, at: float = 0.5
 ) -> tuple[float, float, float, float]:
-    """Midpoint and the unit normal (screen) of member i; normal points up (or right)."""
+    """The point `at` along member i (its midpoint by default) and the unit normal (screen);
+    the normal points up (or right)."""
     a, b = model.ends_index[i]
-    mx, my = (sx[a] + sx[b]) / 2, (sy[a] + sy[b]) / 2
+    mx, my = sx[a] + at * (sx[b] - sx[a]), sy[a] + at * (sy[b] - sy[a])
     dx, dy = sx[b] - sx[a], sy[b] - sy[a]
     length = math.hypot(dx, dy) or 1.0
     nx, ny = -dy / length, dx / length
@@ -346,11 +374,12 @@ def _markers(
     model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str]
 ) -> list[str]:
     out = []
+    crossing = _crossing(model, sx, sy)
     for i, member in enumerate(model.members):
         style = _style_for(member.id, statuses)
         if not style.marker:
             continue
-        mx, my, _, _ = _midpoint_frame(model, sx, sy, i)
+        mx, my, _, _ = _midpoint_frame(model, sx, sy, i, CROSSING_AT if i in crossing else 0.5)
         out.append(
             f'<circle cx="{_n(mx)}" cy="{_n(my)}" r="8.5" fill="#ffffff" stroke="{style.colour}" stroke-width="2"/>'
             f'<text x="{_n(mx)}" y="{_n(my + 4.2)}" text-anchor="middle" font-size="12" font-weight="bold" '
@@ -363,8 +392,11 @@ def _member_labels(
     model: Model, sx: np.ndarray, sy: np.ndarray, statuses: Mapping[str, str] | None
 ) -> list[str]:
     out = []
+    crossing = _crossing(model, sx, sy)
     for i, member in enumerate(model.members):
-        mx, my, nx, ny = _midpoint_frame(model, sx, sy, i)
+        # on crossed bracing the label goes beyond the mark, both clear of the crossing point
+        at = 1.0 - CROSSING_AT if i in crossing else 0.5
+        mx, my, nx, ny = _midpoint_frame(model, sx, sy, i, at)
         offset = 15.0
         x, y = mx + nx * offset, my + ny * offset + 4
         anchor = "middle" if abs(nx) < 0.5 else ("start" if nx > 0 else "end")
