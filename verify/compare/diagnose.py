@@ -31,20 +31,21 @@ from verify.compare.balance import JointImbalance, checkable_joints, claims_bala
 from verify.compare.causes import (
     CauseReport,
     ClaimsFrame,
+    explain_bracing,
     explain_copies,
     explain_model,
+    explain_release,
     explain_shifted_rows,
 )
-from verify.compare.causes.bracing import explain_tension_only
 from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
-from verify.compare.causes.supports import explain_released_support
 from verify.compare.convention import (
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
     Fit,
     best_fit,
+    count_agreeing,
     describe_factor,
     force_unit_for,
     matching_factor,
@@ -401,7 +402,7 @@ def _gather(c: Comparison) -> None:
             # that the near-zero allowance stays within a hundredth of the largest joint load.
             loads = np.linalg.norm(F[:, k].reshape(-1, d), axis=1) if F.size else np.zeros(0)
             largest_load = float(loads.max()) if loads.size else 0.0
-            cap = NEAR_ZERO_LOAD_SHARE * largest_load / tolerance_fraction(c.tol) if largest_load > 0 else largest
+            cap = NEAR_ZERO_LOAD_SHARE * largest_load / (c.tol.atol_fraction or 1.0) if largest_load > 0 else largest
             scale_of[name] = min(largest, cap)
     c.comparable, c.member_claims, c.scale_of = comparable, member_claims, scale_of
 
@@ -868,36 +869,11 @@ def _indeterminate(c: Comparison) -> None:
         # below, and taken out of the equilibrium search with its recomputed value.
         settled = [item for item in diffs if item[0] in explained]  # swapped pairs already named
         # Tension-only bracing (the compression diagonals claimed as slack) is an idealisation,
-        # said as information, when the truss without those diagonals gives the claims.
+        # said as information, when the truss without those diagonals gives the claims; then a
+        # support released (a pin taken as a roller).
         if frame is not None:
-            open_rows = [item[0] for item in diffs if item[0] not in explained]
-            _, slack_groups = explain_tension_only(frame, np.isin(frame.row, np.array(open_rows, dtype=np.int64)), analysis)
-            for words, _slack, mask in slack_groups:
-                for r in frame.row[mask].tolist():
-                    rows[r] = _with_status(rows[r], "tension-only")
-                    explained.add(r)
-                slack_cases = frame.columns_of(mask)
-                findings.append(Finding("likely-cause", frame.member_ids(mask),
-                                        f"the claims in {', '.join(repr(case) for case in slack_cases)} assume {words}: "
-                                        f"{int(mask.sum())} claim(s) that differ from the elastic solution agree with it. "
-                                        "Confirm the bracing is slender enough to buckle before it carries load",
-                                        Severity.INFO, case=slack_cases[0] if len(slack_cases) == 1 else None, variant=words,
-                                        explains=int(mask.sum()), joints=(), locations=frame.locations(mask)))
-            # A support released (a pin taken as a roller): the truss without that reaction.
-            open_rows = [item[0] for item in diffs if item[0] not in explained]
-            open_mask = np.isin(frame.row, np.array(open_rows, dtype=np.int64))
-            release = explain_released_support(frame, open_mask, analysis)
-            if release is not None:
-                for r in frame.row[release.explained].tolist():
-                    rows[r] = _with_status(rows[r], "likely-cause")
-                    explained.add(r)
-                findings.append(Finding("likely-cause", frame.member_ids(release.explained),
-                                        f"the claims in {', '.join(repr(case) for case in frame.columns_of(release.explained))} "
-                                        f"correspond to {release.words}: {int(release.explained.sum())} disagreeing claim(s) "
-                                        "agree with it and no claim that agreed is changed", Severity.ERROR,
-                                        variant=release.words, explains=int(release.explained.sum()),
-                                        unexplained=int((open_mask & ~release.explained).sum()), joints=(release.joint,),
-                                        locations=frame.locations(release.explained)))
+            _apply_cause(c, explain_bracing)
+            _apply_cause(c, explain_release)
             diffs = [item for item in diffs if item[0] not in explained]
         in_self_stress = _self_stress_members(analysis)
         fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
@@ -1100,10 +1076,6 @@ STEPS = (
 NEAR_ZERO_LOAD_SHARE = 0.01  # the near-zero allowance never exceeds this share of the largest joint load
 
 
-def tolerance_fraction(tol: Tolerance) -> float:
-    return tol.atol_fraction if tol.atol_fraction > 0 else 1.0
-
-
 def _reversed_load_case(c: Comparison, column: str) -> bool:
     """Whether a load-case column read with every sign reversed is rather the case's loads reversed:
     a claimed combination holding the case then agrees better with the case reversed in it too
@@ -1128,13 +1100,11 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         claimed = c.raw[idx] * c.conv[idx]
         as_defined = ref.member_forces[c.member_pos[idx], k]
         reversed_case = as_defined - 2.0 * C[case, k] * ref.member_forces[c.member_pos[idx], case]
-        atol = c.tol.atol_fraction * (c.scale_of.get(name) or 1.0)
-
-        def agreeing(computed: np.ndarray, claimed: np.ndarray = claimed, atol: float = atol) -> int:
-            allowed = np.maximum(c.tol.rtol * np.maximum(np.abs(claimed), np.abs(computed)), atol)
-            return int((np.abs(claimed - computed) <= allowed).sum())
-
-        if agreeing(reversed_case) > max(agreeing(as_defined), len(idx) // 2):
+        atol = np.full(len(idx), c.tol.atol_fraction * (c.scale_of.get(name) or 1.0))
+        fixed, no_rounding = np.ones(len(idx), dtype=bool), np.zeros(len(idx))
+        if_reversed, as_is = (count_agreeing(claimed, fixed, computed, c.tol.rtol, atol, no_rounding, 1, 1.0)
+                              for computed in (reversed_case, as_defined))
+        if if_reversed > max(as_is, len(idx) // 2):
             return True
     return False
 
@@ -1154,7 +1124,7 @@ def _apply_cause(c: Comparison, explainer: Callable[[ClaimsFrame, np.ndarray, An
         return
     report = explainer(c.frame, pending_mask, c.analysis)
     for r in c.frame.row[report.explained].tolist():
-        c.rows[r] = _with_status(c.rows[r], "likely-cause")
+        c.rows[r] = _with_status(c.rows[r], report.status)
         c.explained.add(r)
     c.findings.extend(report.findings)
     c.notes.extend(report.notes)

@@ -15,17 +15,9 @@ from verify.compare.diagnose import Review
 from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.names import kind_word
 from verify.report.numbers import clean_zero, difference_text, fmt
+from verify.report.tables import Table
 
 ELASTIC_NOTE = ELASTIC_CAUTION + " The claimed values may include them."
-
-
-@dataclass(frozen=True)
-class DeflectionTable:
-    title: str
-    intro: str
-    header: tuple[str, ...]
-    rows: tuple[tuple[str, ...], ...]
-    statuses: tuple[str, ...]
 
 
 def shown_length(length_unit: str) -> tuple[str, float]:
@@ -37,7 +29,7 @@ def _scaled(value: float | None, factor: float) -> float | None:
     return None if value is None else value * factor
 
 
-def deflection_table(review: Review) -> DeflectionTable | None:
+def deflection_table(review: Review) -> Table | None:
     """Claimed against computed displacements, one row per joint direction and load column."""
     rows = [r for r in review.rows if r.kind == "displacement"]
     if not rows:
@@ -53,7 +45,7 @@ def deflection_table(review: Review) -> DeflectionTable | None:
               "status", "claim as written")
     intro = (f"Joint displacements in {unit}, positive along the global axis named; computed by the direct "
              "stiffness method and confirmed below by the unit-load method. " + ELASTIC_NOTE)
-    return DeflectionTable("Deflection check", intro, header, tuple(cells), tuple(r.status for r in rows))
+    return Table("Deflection check", intro, header, tuple(cells), tuple(r.status for r in rows))
 
 
 @dataclass(frozen=True)

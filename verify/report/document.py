@@ -44,6 +44,7 @@ from verify.report.numbers import (
     roundoff_text,
     tc,
 )
+from verify.report.tables import Table
 
 NOT_CAPACITY = ("This figure compares claimed with recomputed forces; it is not a capacity check and says "
                 "nothing about whether a member is strong enough.")
@@ -305,16 +306,6 @@ def _load_label(review: Review, name: str) -> str:
         terms = " + ".join(f"{fmt(f)} × {case}" for case, f in combos[name].factors.items())
         return f"Combination '{name}' = {terms}"
     return f"Load case '{name}'"
-
-
-@dataclass(frozen=True)
-class Table:
-    title: str
-    intro: str
-    header: tuple[str, ...]
-    rows: tuple[tuple[str, ...], ...]
-    statuses: tuple[str, ...]  # per row, for styling ("" for none)
-    note: str = ""
 
 
 def member_tables(review: Review) -> list[Table]:

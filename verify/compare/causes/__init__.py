@@ -26,12 +26,15 @@ from typing import NamedTuple
 import numpy as np
 
 from verify.analysis.pipeline import Analysis
+from verify.compare.causes.bracing import explain_tension_only
 from verify.compare.causes.frame import ClaimsFrame
 from verify.compare.causes.search import search_causes
+from verify.compare.causes.supports import explain_released_support
 from verify.compare.causes.table_order import Shift, copied_values, shifted_runs
 from verify.compare.findings import Finding, Severity
 
-__all__ = ["CauseReport", "ClaimsFrame", "explain_copies", "explain_model", "explain_shifted_rows"]
+__all__ = ["CauseReport", "ClaimsFrame", "explain_bracing", "explain_copies", "explain_model", "explain_release",
+           "explain_shifted_rows"]
 
 SHOWN = 12  # members and locations listed in a finding's text
 
@@ -40,6 +43,37 @@ class CauseReport(NamedTuple):
     explained: np.ndarray  # mask over the frame
     findings: list[Finding]
     notes: list[str]
+    status: str = "likely-cause"  # the status the explained rows take
+
+
+def explain_bracing(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+    """Tension-only bracing (verify.compare.causes.bracing): an idealisation, said as information."""
+    explained, groups = explain_tension_only(frame, pending, analysis)
+    findings = []
+    for words, _, mask in groups:
+        cases = frame.columns_of(mask)
+        findings.append(Finding("likely-cause", frame.member_ids(mask),
+                                f"the claims in {', '.join(repr(case) for case in cases)} assume {words}: "
+                                f"{int(mask.sum())} claim(s) that differ from the elastic solution agree with it. "
+                                "Confirm the bracing is slender enough to buckle before it carries load",
+                                Severity.INFO, case=cases[0] if len(cases) == 1 else None, variant=words,
+                                explains=int(mask.sum()), locations=frame.locations(mask)))
+    return CauseReport(explained, findings, [], status="tension-only")
+
+
+def explain_release(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+    """A support released on an indeterminate truss (verify.compare.causes.supports)."""
+    release = explain_released_support(frame, pending, analysis)
+    if release is None:
+        return CauseReport(np.zeros(len(frame), dtype=bool), [], [])
+    n = int(release.explained.sum())
+    finding = Finding("likely-cause", frame.member_ids(release.explained),
+                      f"the claims in {', '.join(repr(case) for case in frame.columns_of(release.explained))} "
+                      f"correspond to {release.words}: {n} disagreeing claim(s) agree with it and no claim that "
+                      "agreed is changed", Severity.ERROR, variant=release.words, explains=n,
+                      unexplained=int((pending & ~release.explained).sum()), joints=(release.joint,),
+                      locations=frame.locations(release.explained))
+    return CauseReport(release.explained, [finding], [])
 
 
 def explain_shifted_rows(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:

@@ -57,6 +57,12 @@ class ClaimsFrame:
                              self.rounding[index])
         return np.abs(y - computed) <= allowed
 
+    def column_positions(self) -> tuple[np.ndarray, np.ndarray]:
+        """The load columns that hold claims, and each claim's position among them (for solving a
+        variant model for those columns only)."""
+        columns, where = np.unique(self.column, return_inverse=True)
+        return columns, where.ravel()
+
     def member_ids(self, mask: np.ndarray) -> tuple[str, ...]:
         ids = self.model.member_ids
         return tuple(dict.fromkeys(ids[int(m)] for m in self.member[mask]))

@@ -16,8 +16,11 @@ import numpy as np
 import scipy.optimize as so
 import scipy.sparse as sp
 
+from verify.analysis.global_solve import equilibrium_lu
 from verify.analysis.pipeline import Analysis
+from verify.compare.balance import claims_balance
 from verify.compare.causes.frame import ClaimsFrame
+from verify.compare.causes.table_order import significant_figures
 from verify.compare.causes.variants import (
     AXIS_NAMES,
     DIMENSION_RANGE,
@@ -35,13 +38,14 @@ from verify.compare.causes.variants import (
     solve_members,
     support_swaps,
 )
+from verify.compare.tolerances import Tolerance
 from verify.formatting import fmt
 
 MAX_CAUSES = 3
 MIN_EXPLAINED = 3  # one or two claims are per-member findings, not a model
 CLEAR_MISS = 2.0  # a claim "clearly wrong" misses by this many times its allowance
 MIN_EXPLAINED_FITTED = 5  # for a change whose size is fitted to the claims
-FIRST_CHOICES = 4
+FIRST_CHOICES = 4  # first causes whose chains are followed
 SPECIAL_FACTORS = (0.0, 2.0, -1.0)  # a load left out, counted twice, reversed
 SOLVE_BUDGET = 4e7  # entries of the LU factors touched by the transposed solves of one round
 MIN_SAMPLE = 12
@@ -50,7 +54,7 @@ COMBINATION_FACTOR_RANGE = (-5.0, 5.0)  # partial factors of common practice lie
 #                                        negative one is a case taken in the opposite direction
 SAMPLE_SHARE = 0.1  # of the sampled disagreeing claims, the share a load change must explain to be solved
 ALIKE = "; or, equally for these claims, "
-MAX_ALIKE = 2  # other readings named beside the closest  # first causes whose chains are followed
+MAX_ALIKE = 2  # other readings named beside the closest
 CLEAR_MAJORITY = 2 / 3  # of the disagreeing claims in the columns the causes touch
 MIN_PURITY = 0.5  # of the disagreeing claims a variant changes, the share it must make agree
 
@@ -105,16 +109,15 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
         return SearchResult([], start.copy(), notes)
     _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
     causes = [Cause(_with_alternates(frame, start, steps, i), step.explained) for i, step in enumerate(steps)]
-    if causes:
-        touched = np.zeros(len(frame), dtype=bool)
-        for cause in causes:
-            touched |= np.isin(frame.column, np.unique(frame.column[np.abs(cause.variant.shift) > 0]))
-        total = sum(int(c.explained.sum()) for c in causes)
-        if total < CLEAR_MAJORITY * int((start & touched).sum()):
-            notes.append(f"likely causes: no single change of the model explains most differences: the best found "
-                         f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
-                         "change, so none is reported")
-            return SearchResult([], start, notes)
+    touched = np.zeros(len(frame), dtype=bool)
+    for cause in causes:
+        touched |= np.isin(frame.column, np.unique(frame.column[np.abs(cause.variant.shift) > 0]))
+    total = sum(int(c.explained.sum()) for c in causes)
+    if total < CLEAR_MAJORITY * int((start & touched).sum()):
+        notes.append(f"likely causes: no single change of the model explains most differences: the best found "
+                     f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
+                     "change, so none is reported")
+        return SearchResult([], start, notes)
     return SearchResult(causes, pending, notes)
 
 
@@ -206,9 +209,6 @@ def _implied_load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.nda
     loads: each is the case load there scaled (left out, doubled, reversed), or a load that left one
     joint arriving at another; a wrong member value instead leaves equal and opposite forces along
     the member at its two ends, which are neither."""
-    from verify.analysis.global_solve import equilibrium_lu
-    from verify.compare.balance import claims_balance
-    from verify.compare.tolerances import Tolerance
 
     model = analysis.model
     n_cases = len(model.cases)
@@ -242,7 +242,7 @@ def _implied_load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.nda
                     break  # not along the case load: no load slip
                 # plain factors only (two figures or steps of 0.05) within the range of load slips:
                 # a load taken as 41.5 or 1.37 x itself is a wrong member value there, not a slip
-                plain = min([f for f in nice_factors(ratio) if len(f"{abs(f):g}".replace(".", "").strip("0")) <= 2
+                plain = min([f for f in nice_factors(ratio) if significant_figures(f"{f:g}") <= 2
                              or abs(f * 20 - round(f * 20)) < 1e-9] or [0.0], key=lambda f: abs(f - ratio))
                 if (abs(plain - ratio) > LOAD_MATCH * max(abs(ratio), 1.0)
                         or not LOAD_FACTOR_RANGE[0] <= plain <= LOAD_FACTOR_RANGE[1]):
@@ -333,8 +333,6 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
 def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str]):
     """Load changes priced by influence lines on a sample of the disagreeing claims (one array
     operation for every change and every round size), the best few solved forward for all claims."""
-    from verify.analysis.global_solve import equilibrium_lu
-
     model = analysis.model
     C = model.combination_matrix()
     cases = [c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)]
@@ -452,14 +450,8 @@ def _plainest(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray,
     return None if best is None or best[0] == 0 else best[1]
 
 
-def _claimed_columns(frame: ClaimsFrame) -> np.ndarray:
-    return np.unique(frame.column)
-
-
 def _support_variants(frame: ClaimsFrame, base: np.ndarray, analysis: Analysis):
-    columns = _claimed_columns(frame)
-    lookup = {int(k): i for i, k in enumerate(columns.tolist())}
-    where = np.array([lookup[int(k)] for k in frame.column], dtype=np.int64)
+    columns, where = frame.column_positions()
     for words, variant_model, joints in support_swaps(analysis.model):
         t = solve_members(variant_model, columns)
         if t is None:
@@ -475,8 +467,6 @@ def _added_restraint_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.
     column's claims may carry any multiple of s: the size r (the thrust between the supports) is
     fitted per column from its disagreeing claims; the claims are then explained by statics alone.
     """
-    from verify.analysis.global_solve import equilibrium_lu
-
     model = analysis.model
     d = model.dim
     restrained: dict[str, set[str]] = {}
@@ -515,9 +505,7 @@ def _added_restraint_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.
 def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
     """One overall dimension (span, depth, height) other than the case file's, fitted."""
     model = analysis.model
-    columns = _claimed_columns(frame)
-    lookup = {int(k): i for i, k in enumerate(columns.tolist())}
-    where = np.array([lookup[int(k)] for k in frame.column], dtype=np.int64)
+    columns, where = frame.column_positions()
     length = model.units.length.symbol
     for axis in range(model.dim):
         extent = float(np.ptp(model.xyz[:, axis]))

@@ -34,9 +34,7 @@ def explain_released_support(frame: ClaimsFrame, pending: np.ndarray, analysis: 
     model = analysis.model
     if not pending.any() or len(model.members) > GEOMETRY_MEMBER_LIMIT or analysis.reference is None:
         return None
-    columns = np.unique(frame.column)
-    lookup = {int(k): i for i, k in enumerate(columns.tolist())}
-    where = np.array([lookup[int(k)] for k in frame.column], dtype=np.int64)
+    columns, where = frame.column_positions()
     agreed = frame.agrees(frame.computed)
     best: Release | None = None
     for reaction in model.reactions[:MAX_RELEASES]:
