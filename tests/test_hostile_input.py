@@ -442,10 +442,3 @@ def test_control_characters_from_a_claims_label_are_escaped_in_every_output(tmp_
     assert code == 2
     assert "\x1b" not in out + err and "\x07" not in out + err and "\\x1b" in err
     assert report is None or not (tmp_path / report).exists()
-
-
-def test_a_subnormal_load_is_refused_not_an_overflow(tmp_path):
-    """1e-320 is no load anyone writes, and dividing by it overflows: refused with its line."""
-    folder(tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", "C = [-1e-320, -10.0]"), "claims.csv": CLAIMS})
-    code, out, err = run("check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv")
-    assert code == 2 and "too small to use" in err and "Warning" not in err

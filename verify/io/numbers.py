@@ -15,15 +15,6 @@ _DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")
 NUMBER_MAX_CHARS = 64
 
 
-SMALLEST = 1e-290  # a non-zero number smaller than this is a subnormal float: its quotients overflow
-
-
-def _sized(number: float, text: str) -> float:
-    if number != 0 and abs(number) < SMALLEST:
-        raise ValueError(f"{text} is too small to use (0, or a size of at least {SMALLEST:g}, expected)")
-    return number
-
-
 def parse_number(value: object) -> float:
     """A finite float from a TOML value or CSV cell; ValueError with the rule it broke."""
     if isinstance(value, bool):
@@ -36,7 +27,7 @@ def parse_number(value: object) -> float:
     if isinstance(value, float):
         if not math.isfinite(value):
             raise ValueError(f"{value!r} is not a finite number (NaN, inf or out of range)")
-        return _sized(value, repr(value))
+        return value
     if isinstance(value, str):
         text = value.strip()
         if len(text) > NUMBER_MAX_CHARS:
@@ -45,7 +36,7 @@ def parse_number(value: object) -> float:
             result = float(text)
             if not math.isfinite(result):
                 raise ValueError(f"'{text}' is out of range (not a finite number)")
-            return _sized(result, f"'{text}'")
+            return result
         if _DECIMAL_COMMA.match(text):
             raise ValueError(f"'{text}' uses a decimal comma; write a decimal point ('{text.replace(',', '.')}')")
         raise ValueError(f"'{shown(text)}' is not a number")

@@ -24,7 +24,6 @@ from __future__ import annotations
 import math
 import re
 
-from verify.io.numbers import SMALLEST
 from verify.units import Dimension, lookup_unit
 
 # Characters read as a minus sign: U+2212 minus, U+2012 figure dash, U+2013 en dash, U+2014 em
@@ -88,8 +87,8 @@ def _expectation(original: str) -> str:
 
 
 MAX_FORCE = 1e15  # 10^15 N is a thousand times the weight of the largest structure ever built
-MIN_FORCE = SMALLEST  # smaller non-zero values are subnormal floats, whose quotients overflow; round-off
-#                       such as 7.1e-16, as analysis programs export it, is kept as written
+MIN_FORCE = 1e-290  # smaller non-zero values are subnormal floats, whose quotients overflow; round-off
+#                     such as 7.1e-16, as analysis programs export it, is kept as written
 
 
 def in_force_range(value: float) -> bool:
