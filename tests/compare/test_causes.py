@@ -448,3 +448,18 @@ def test_member_findings_carry_the_claimed_and_recomputed_values():
     assert finding.recomputed == pytest.approx(truth, rel=0.005)  # the claim table was rounded to 3 figures
     assert finding.detail.startswith("L2L3 in 'dead': claimed ") and " kN, recomputed " in finding.detail
     assert set(TEMPLATES) == {"zero-force-claimed", "sign-flip", "unit-scale", "value-mismatch"}
+
+
+def test_a_vanishing_load_gives_no_overflow_in_the_cause_search():
+    """A load of 1e-320 (a subnormal float, as a mangled file may hold) fits no cause and raises
+    no numerical warning; the planted cause beside it is still named."""
+    import warnings
+
+    case = bridge()
+    case["loads"]["traffic"]["L3"] = [0.0, -1e-320]
+    variant = copy.deepcopy(case)
+    variant["combinations"] = {"ULS": {"dead": 1.5, "traffic": 1.5}}
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        (cause,) = causes(review_of(case, claims_of(variant)))
+    assert cause.variant == "'ULS' taking 1.5 × dead instead of 1.35 × dead"

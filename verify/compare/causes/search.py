@@ -380,8 +380,9 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     # the median ratio of what is missing to one unit of the change.
     fitted = np.concatenate([np.array([ch.fitted for ch in whole], dtype=bool), singles.target < 0])
     usable = np.abs(unit) > 1e-3 * np.maximum(np.abs(unit).max(axis=0), 1e-300)[None, :]
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # a vanishing unit change: no fit
         ratios = np.where(usable, target[:, None] / unit, np.nan)
+    ratios[~np.isfinite(ratios)] = np.nan
     enough = usable.sum(axis=0) >= 2
     median = np.zeros(n_changes)
     if enough.any():

@@ -302,8 +302,10 @@ def fit_scale(frame: ClaimsFrame, target: np.ndarray, unit: np.ndarray, pending:
     usable = pending & (np.abs(unit) > 1e-3 * (float(np.abs(unit).max()) or 1.0))
     if usable.sum() < 2:
         return None
-    ratios = target[usable] / unit[usable]
-    return float(np.median(ratios))
+    with np.errstate(over="ignore"):  # a vanishing unit change (a subnormal load) fits nothing
+        ratios = target[usable] / unit[usable]
+    ratios = ratios[np.isfinite(ratios)]
+    return float(np.median(ratios)) if len(ratios) >= 2 else None
 
 
 # -- support and dimension variants -------------------------------------------------------------
