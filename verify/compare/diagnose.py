@@ -24,6 +24,7 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
+from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
@@ -783,7 +784,8 @@ def _shifted_and_swapped(c: Comparison) -> None:
             fits = (close(claimed_x[a], computed_c[candidates], own_rounding[a])
                     & close(claimed_x[candidates], computed_c[a], own_rounding[candidates])
                     & ~close(computed_c[a], computed_c[candidates], 0.0))
-            partners = [b for b in candidates[fits].tolist() if items[b][0] not in explained]
+            partners = [b for b in candidates[fits].tolist() if items[b][0] not in explained
+                        and (not indeterminate or _swap_restores_balance(c, name, items[a], items[b]))]
             if items[a][0] in explained or not partners:
                 continue
             b = partners[0]
@@ -1107,6 +1109,22 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         if if_reversed > max(as_is, len(idx) // 2):
             return True
     return False
+
+
+def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple) -> bool:
+    """On an indeterminate truss two claims may match each other's elastic forces by a state of
+    self-stress; they are a swap only if exchanging them back makes their joints balance better."""
+    model = c.model
+    k = model.load_names.index(name)
+    A = assemble_equilibrium(model)[:, : len(model.members)]
+    column = np.nan_to_num(c.claimed_matrix[:, k])
+    m1, m2 = model.member_index[first[1].member], model.member_index[second[1].member]
+    joints = np.unique(np.concatenate([model.ends_index[m1], model.ends_index[m2]]))
+    rows = (joints[:, None] * model.dim + np.arange(model.dim)).ravel()
+    loads = model.load_matrix()[rows, k]
+    as_written = float(np.linalg.norm(A[rows] @ column + loads))
+    column[[m1, m2]] = column[[m2, m1]]
+    return float(np.linalg.norm(A[rows] @ column + loads)) < 0.5 * as_written
 
 
 def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:

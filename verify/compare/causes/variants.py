@@ -125,6 +125,10 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                                                        np.concatenate([ends[:, 1], ends[:, 0]]))), shape=(nj, nj))
     ids = model.joint_ids
     v = vertical_axis(model)
+    restraints: dict[int, int] = {}
+    for r in model.reactions:
+        restraints[model.joint_index[r.joint]] = restraints.get(model.joint_index[r.joint], 0) + 1
+    held = {j for j, count in restraints.items() if count >= d}
     out: list[LoadChange] = []
     single_case: list[np.ndarray] = []
     single_joints: list[np.ndarray] = []
@@ -193,6 +197,8 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
             at.append(j)
             to.append(-1)
             for n in adjacency.indices[adjacency.indptr[j]:adjacency.indptr[j + 1]].tolist():
+                if n in held:
+                    continue  # onto a joint held in every direction: that is the load left out
                 at.append(j)  # onto a loaded joint too: L3's load applied at L2 makes L2 carry both
                 to.append(n)
         single_case.append(np.full(len(at), c, dtype=np.int64))
