@@ -81,13 +81,21 @@ def main() -> None:
 def run(work: Path, cases: int, jobs: int) -> None:
     folder = work / "job"
     expected = write_job_folder(folder, cases)
-    print(f"{cases} cases ({sum(v == 'discrepancies' for v in expected.values())} with a planted error), "
-          f"{jobs} jobs, {len(os.sched_getaffinity(0))} cores; load average {os.getloadavg()[0]:.2f}")
+    print(
+        f"{cases} cases ({sum(v == 'discrepancies' for v in expected.values())} with a planted error), "
+        f"{jobs} jobs, {len(os.sched_getaffinity(0))} cores; load average {os.getloadavg()[0]:.2f}"
+    )
 
-    batch_j, code, batch_j_cpu = wall([TOOL, "batch", str(folder), "--jobs", str(jobs), "--recheck", "--out", str(work / "out-j")])
+    batch_j, code, batch_j_cpu = wall(
+        [TOOL, "batch", str(folder), "--jobs", str(jobs), "--recheck", "--out", str(work / "out-j")]
+    )
     assert code == 1, f"batch exit status {code}, expected 1 (planted discrepancies)"
-    batch_1, _, batch_1_cpu = wall([TOOL, "batch", str(folder), "--jobs", "1", "--recheck", "--out", str(work / "out-1")])
-    rerun, _, _ = wall([TOOL, "batch", str(folder), "--jobs", str(jobs), "--out", str(work / "out-j")])
+    batch_1, _, batch_1_cpu = wall(
+        [TOOL, "batch", str(folder), "--jobs", "1", "--recheck", "--out", str(work / "out-1")]
+    )
+    rerun, _, _ = wall(
+        [TOOL, "batch", str(folder), "--jobs", str(jobs), "--out", str(work / "out-j")]
+    )
 
     found, _ = find_jobs(folder)
     check_job(found[0])  # warm: the first check imports sympy and friends
@@ -100,21 +108,43 @@ def run(work: Path, cases: int, jobs: int) -> None:
 
     one_by_one = one_by_one_cpu = 0.0
     for job in found:
-        seconds, _, cpu = wall([TOOL, "check", str(job.case), "--claims", str(job.claims), "--report", str(work / "one.html")])
+        seconds, _, cpu = wall(
+            [
+                TOOL,
+                "check",
+                str(job.case),
+                "--claims",
+                str(job.claims),
+                "--report",
+                str(work / "one.html"),
+            ]
+        )
         one_by_one += seconds
         one_by_one_cpu += cpu
 
     print("                                      wall s     CPU s")
-    for label, w, c in (("library work, in one process", library, library_cpu),
-                        ("check one after another (fresh)", one_by_one, one_by_one_cpu),
-                        ("batch --jobs 1", batch_1, batch_1_cpu), (f"batch --jobs {jobs}", batch_j, batch_j_cpu)):
+    for label, w, c in (
+        ("library work, in one process", library, library_cpu),
+        ("check one after another (fresh)", one_by_one, one_by_one_cpu),
+        ("batch --jobs 1", batch_1, batch_1_cpu),
+        (f"batch --jobs {jobs}", batch_j, batch_j_cpu),
+    ):
         print(f"{label:36s} {w:8.2f}  {c:8.2f}")
     print(f"{'batch rerun, nothing changed':36s} {rerun:8.2f}")
-    print(f"batch vs one after another:   wall {one_by_one / batch_j:6.2f}x   CPU {one_by_one_cpu / batch_j_cpu:6.2f}x  (target >= {BATCH_TARGET})")
-    print(f"parallel speed-up (jobs 1 vs {jobs}): wall {batch_1 / batch_j:6.2f}x   (cores used: {batch_j_cpu / batch_j:.2f})")
-    over_batch, over_fresh = (batch_1_cpu - library_cpu) / cases, (one_by_one_cpu - library_cpu) / cases
-    print(f"per-case overhead (CPU): in a batch {over_batch * 1000:.1f} ms, fresh process {over_fresh * 1000:.1f} ms, "
-          f"ratio {over_batch / over_fresh:.3f} (target: well below 1)")
+    print(
+        f"batch vs one after another:   wall {one_by_one / batch_j:6.2f}x   CPU {one_by_one_cpu / batch_j_cpu:6.2f}x  (target >= {BATCH_TARGET})"
+    )
+    print(
+        f"parallel speed-up (jobs 1 vs {jobs}): wall {batch_1 / batch_j:6.2f}x   (cores used: {batch_j_cpu / batch_j:.2f})"
+    )
+    over_batch, over_fresh = (
+        (batch_1_cpu - library_cpu) / cases,
+        (one_by_one_cpu - library_cpu) / cases,
+    )
+    print(
+        f"per-case overhead (CPU): in a batch {over_batch * 1000:.1f} ms, fresh process {over_fresh * 1000:.1f} ms, "
+        f"ratio {over_batch / over_fresh:.3f} (target: well below 1)"
+    )
     print(f"load average at end {os.getloadavg()[0]:.2f}")
 
 

@@ -106,8 +106,10 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     rng = np.random.default_rng(20261203)
     sizes = (1e4,) if args.quick else (1e4, 1e5)
-    print(f"{'case':<24} {'members':>8} {'wrong':>6} {'floor':>7} {'check':>7} {'ratio':>6} "
-          f"{'search':>7} {'share':>6}  verdict")
+    print(
+        f"{'case':<24} {'members':>8} {'wrong':>6} {'floor':>7} {'check':>7} {'ratio':>6} "
+        f"{'search':>7} {'share':>6}  verdict"
+    )
     with tempfile.TemporaryDirectory() as tmp:
         for family in ("pratt", "grid"):
             for size in sizes:
@@ -117,12 +119,16 @@ def main(argv: list[str] | None = None) -> int:
                 claims = folder / "claims.csv"
                 wrong = write_scattered_claims(case, claims, rng)
                 repeats = args.repeats if size < 5e4 else 1
-                floor_s = wall([PYTHON, str(HERE / "floor.py"), str(case), "--claims", str(claims)], repeats)
+                floor_s = wall(
+                    [PYTHON, str(HERE / "floor.py"), str(case), "--claims", str(claims)], repeats
+                )
                 check_s = wall([TOOL, "check", str(case), "--claims", str(claims)], repeats)
                 with_search, without, verdict = in_process(case, claims, repeats)
                 added = max(with_search - without, 0.0)
-                print(f"{truss.name:<24} {truss.members:>8} {wrong:>6} {floor_s:>6.2f}s {check_s:>6.2f}s "
-                      f"{check_s / floor_s:>5.2f}x {added:>6.2f}s {added / check_s:>6.1%}  {verdict}")
+                print(
+                    f"{truss.name:<24} {truss.members:>8} {wrong:>6} {floor_s:>6.2f}s {check_s:>6.2f}s "
+                    f"{check_s / floor_s:>5.2f}x {added:>6.2f}s {added / check_s:>6.1%}  {verdict}"
+                )
     return 0
 
 

@@ -1,6 +1,6 @@
 """Time reading a 50-page PDF claims table (written here by fpdf2, 40 members a page).
 
-    .venv/bin/python bench/claims_pdf.py [PAGES]
+.venv/bin/python bench/claims_pdf.py [PAGES]
 """
 
 from __future__ import annotations
@@ -22,9 +22,16 @@ def main() -> None:
     count = pages * per_page
     joints = {f"J{k}": [float(k), float(k % 2)] for k in range(count + 1)}
     members = {f"M{k}": [f"J{k}", f"J{k + 1}"] for k in range(count)}
-    model = build_model({"units": {"length": "m", "force": "kN"}, "joints": joints, "members": members,
-                         "supports": {"J0": ["x", "y"], f"J{count}": ["y"]},
-                         "loads": {"dead": {"J1": [0.0, -1.0]}, "snow": {"J1": [0.0, -1.0]}}}, source="bench.toml")
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": joints,
+            "members": members,
+            "supports": {"J0": ["x", "y"], f"J{count}": ["y"]},
+            "loads": {"dead": {"J1": [0.0, -1.0]}, "snow": {"J1": [0.0, -1.0]}},
+        },
+        source="bench.toml",
+    )
     pdf = FPDF()
     pdf.set_font("Helvetica", size=8)
     for p in range(pages):
@@ -34,7 +41,9 @@ def main() -> None:
             pdf.text(x, 24, text)
         for r in range(per_page):
             k = p * per_page + r
-            for x, text in zip((20, 60, 100), (f"M{k}", f"{k * 0.37:.2f}", f"{-k * 0.11:.2f}"), strict=True):
+            for x, text in zip(
+                (20, 60, 100), (f"M{k}", f"{k * 0.37:.2f}", f"{-k * 0.11:.2f}"), strict=True
+            ):
                 pdf.text(x, 30 + 6 * r, text)
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / "calc.pdf"

@@ -40,11 +40,15 @@ def read_tables(case: Path) -> dict[str, pd.DataFrame]:
         name = spec.get(key)
         if not isinstance(name, str):
             raise SystemExit(f"{case}: the floor reads only CSV tables; '{key}' is not a file name")
-        tables[key] = pd.read_csv(base / name, dtype={"id": str, "start": str, "end": str, "joint": str, "case": str})
+        tables[key] = pd.read_csv(
+            base / name, dtype={"id": str, "start": str, "end": str, "joint": str, "case": str}
+        )
     return tables
 
 
-def assemble(tables: dict[str, pd.DataFrame]) -> tuple[sp.csc_matrix, np.ndarray, list[str], pd.Index, int]:
+def assemble(
+    tables: dict[str, pd.DataFrame],
+) -> tuple[sp.csc_matrix, np.ndarray, list[str], pd.Index, int]:
     """A (dofs x members+reactions), F (dofs x cases), case names, member ids, dim."""
     joints = tables["joints"]
     dim = 3 if "z" in joints.columns else 2
@@ -64,8 +68,16 @@ def assemble(tables: dict[str, pd.DataFrame]) -> tuple[sp.csc_matrix, np.ndarray
     sup_axis = np.array(["xyz".index(a) for a in dirs.explode()], dtype=np.int64)
     r = sup_axis.size
 
-    rows = np.concatenate([(s[:, None] * dim + comp).ravel(), (e[:, None] * dim + comp).ravel(), sup_joint * dim + sup_axis])
-    cols = np.concatenate([np.repeat(np.arange(b), dim), np.repeat(np.arange(b), dim), b + np.arange(r)])
+    rows = np.concatenate(
+        [
+            (s[:, None] * dim + comp).ravel(),
+            (e[:, None] * dim + comp).ravel(),
+            sup_joint * dim + sup_axis,
+        ]
+    )
+    cols = np.concatenate(
+        [np.repeat(np.arange(b), dim), np.repeat(np.arange(b), dim), b + np.arange(r)]
+    )
     vals = np.concatenate([u.ravel(), -u.ravel(), np.ones(r)])
     A = sp.coo_matrix((vals, (rows, cols)), shape=(len(joints) * dim, b + r)).tocsc()
 
@@ -116,11 +128,13 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("case", type=Path)
     parser.add_argument("--claims", type=Path, help="wide claims CSV to compare with the solution")
-    parser.add_argument("--write-claims", type=Path, help="write the solution as claims, one member perturbed")
+    parser.add_argument(
+        "--write-claims", type=Path, help="write the solution as claims, one member perturbed"
+    )
     args = parser.parse_args(argv)
     A, F, names, member_ids, dim = assemble(read_tables(args.case))
     t = solve(A, F, dim)
-    line = f"{args.case}: {len(member_ids)} members, max |force| {np.abs(t[:len(member_ids)]).max():.6g}"
+    line = f"{args.case}: {len(member_ids)} members, max |force| {np.abs(t[: len(member_ids)]).max():.6g}"
     if args.claims is not None:
         line += f", {compare(args.claims, t, names, member_ids)} claim(s) disagree"
     if args.write_claims is not None:

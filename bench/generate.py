@@ -72,25 +72,33 @@ def pratt(panels: int) -> Truss:
         raise ValueError(f"pratt needs at least 2 panels, got {panels}")
     n = panels
     xs = np.arange(n + 1) * PANEL
-    xyz = np.vstack([np.column_stack([xs, np.zeros(n + 1)]), np.column_stack([xs, np.full(n + 1, DEPTH)])])
+    xyz = np.vstack(
+        [np.column_stack([xs, np.zeros(n + 1)]), np.column_stack([xs, np.full(n + 1, DEPTH)])]
+    )
     ids = [f"L{i}" for i in range(n + 1)] + [f"U{i}" for i in range(n + 1)]
     low = np.arange(n + 1)
     up = low + n + 1
     i = np.arange(n)
     left = i < n / 2
-    diag = np.where(left[:, None], np.column_stack([up[i], low[i + 1]]), np.column_stack([low[i], up[i + 1]]))
-    ends = np.vstack([
-        np.column_stack([low[:-1], low[1:]]),
-        np.column_stack([up[:-1], up[1:]]),
-        np.column_stack([low, up]),
-        diag,
-    ])
+    diag = np.where(
+        left[:, None], np.column_stack([up[i], low[i + 1]]), np.column_stack([low[i], up[i + 1]])
+    )
+    ends = np.vstack(
+        [
+            np.column_stack([low[:-1], low[1:]]),
+            np.column_stack([up[:-1], up[1:]]),
+            np.column_stack([low, up]),
+            diag,
+        ]
+    )
     dead = np.zeros_like(xyz)
     dead[low[1:-1], 1] = -DEAD
     wind = np.zeros_like(xyz)
     wind[up, 0] = WIND
     supports = [(int(low[0]), "x y"), (int(low[-1]), "y")]
-    return Truss("pratt", n, ids, xyz, ends.astype(np.int64), supports, {"dead": dead, "wind": wind})
+    return Truss(
+        "pratt", n, ids, xyz, ends.astype(np.int64), supports, {"dead": dead, "wind": wind}
+    )
 
 
 def grid(cells: int) -> Truss:
@@ -102,14 +110,20 @@ def grid(cells: int) -> Truss:
     bottom = np.arange((n + 1) ** 2).reshape(n + 1, n + 1)
     ti, tj = (a.ravel() for a in np.meshgrid(np.arange(n), np.arange(n), indexing="ij"))
     top = (n + 1) ** 2 + np.arange(n * n)
-    xyz = np.vstack([
-        np.column_stack([bi, bj, np.zeros(bi.size)]).astype(float),
-        np.column_stack([ti + 0.5, tj + 0.5, np.full(ti.size, GRID_DEPTH)]),
-    ])
-    ids = [f"B{i}_{j}" for i, j in zip(bi, bj, strict=True)] + [f"T{i}_{j}" for i, j in zip(ti, tj, strict=True)]
+    xyz = np.vstack(
+        [
+            np.column_stack([bi, bj, np.zeros(bi.size)]).astype(float),
+            np.column_stack([ti + 0.5, tj + 0.5, np.full(ti.size, GRID_DEPTH)]),
+        ]
+    )
+    ids = [f"B{i}_{j}" for i, j in zip(bi, bj, strict=True)] + [
+        f"T{i}_{j}" for i, j in zip(ti, tj, strict=True)
+    ]
     chords_x = np.column_stack([bottom[:-1, :].ravel(), bottom[1:, :].ravel()])
     chords_y = np.column_stack([bottom[:, :-1].ravel(), bottom[:, 1:].ravel()])
-    diagonals = [np.column_stack([top, bottom[ti + a, tj + c]]) for a, c in ((0, 0), (1, 0), (0, 1), (1, 1))]
+    diagonals = [
+        np.column_stack([top, bottom[ti + a, tj + c]]) for a, c in ((0, 0), (1, 0), (0, 1), (1, 1))
+    ]
     ends = np.vstack([chords_x, chords_y, *diagonals])
     perimeter = bottom.ravel()[(bi == 0) | (bi == n) | (bj == 0) | (bj == n)]
     directions = {int(k): ["z"] for k in perimeter}
@@ -153,7 +167,10 @@ def write_case(truss: Truss, directory: str | Path) -> Path:
     (out / "joints.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     ids = truss.joint_ids
     lines = ["id,start,end"]
-    lines += [f"{m},{ids[s]},{ids[e]}" for m, (s, e) in zip(truss.member_ids, truss.ends.tolist(), strict=True)]
+    lines += [
+        f"{m},{ids[s]},{ids[e]}"
+        for m, (s, e) in zip(truss.member_ids, truss.ends.tolist(), strict=True)
+    ]
     (out / "members.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     lines = ["joint,directions"] + [f"{ids[j]},{axes_}" for j, axes_ in truss.supports]
     (out / "supports.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
@@ -176,12 +193,16 @@ def write_case(truss: Truss, directory: str | Path) -> Path:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--family", choices=FAMILIES, required=True)
-    parser.add_argument("--members", type=float, required=True, help="approximate member count, e.g. 1e4")
+    parser.add_argument(
+        "--members", type=float, required=True, help="approximate member count, e.g. 1e4"
+    )
     parser.add_argument("--out", required=True, help="directory for case.toml and its CSV tables")
     args = parser.parse_args(argv)
     truss = build(args.family, args.members)
     path = write_case(truss, args.out)
-    print(f"{path}: {truss.family}, parameter {truss.parameter}, {truss.members} members, {len(truss.joint_ids)} joints")
+    print(
+        f"{path}: {truss.family}, parameter {truss.parameter}, {truss.members} members, {len(truss.joint_ids)} joints"
+    )
     return 0
 
 

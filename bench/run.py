@@ -66,10 +66,14 @@ class Timing:
     runs: list[float] = field(default_factory=list)
     peak_mb: float | None = None
     error: str | None = None
-    cpu: float | None = None  # median user + system CPU seconds: steadier than wall time on a busy machine
+    cpu: float | None = (
+        None  # median user + system CPU seconds: steadier than wall time on a busy machine
+    )
 
 
-def run_once(cmd: list[str], timeout: float, ok_codes: tuple[int, ...]) -> tuple[float, float, float, str | None]:
+def run_once(
+    cmd: list[str], timeout: float, ok_codes: tuple[int, ...]
+) -> tuple[float, float, float, str | None]:
     """Wall time, CPU time and peak RSS (MB) of one process, stdout to /dev/null; error text if it failed."""
     with tempfile.TemporaryFile() as err:
         start = time.perf_counter()
@@ -93,15 +97,22 @@ def run_once(cmd: list[str], timeout: float, ok_codes: tuple[int, ...]) -> tuple
     return elapsed, cpu, peak, None
 
 
-def timed(cmd: list[str], *, repeats: int, timeout: float, slow: float, ok_codes: tuple[int, ...] = (0,)) -> Timing:
+def timed(
+    cmd: list[str], *, repeats: int, timeout: float, slow: float, ok_codes: tuple[int, ...] = (0,)
+) -> Timing:
     runs: list[float] = []
     cpus: list[float] = []
     peaks: list[float] = []
     for _ in range(repeats):
         elapsed, cpu, peak, error = run_once(cmd, timeout, ok_codes)
         if error:
-            return Timing(statistics.median(runs) if runs else None, runs, max(peaks, default=None), error,
-                          statistics.median(cpus) if cpus else None)
+            return Timing(
+                statistics.median(runs) if runs else None,
+                runs,
+                max(peaks, default=None),
+                error,
+                statistics.median(cpus) if cpus else None,
+            )
         runs.append(elapsed)
         cpus.append(cpu)
         peaks.append(peak)
@@ -115,9 +126,25 @@ def sections_available() -> bool:
 
 
 # -- stages inside one process (run as a child: python bench/run.py --stages CASE CLAIMS) --------
-STAGES = ("import verify", "floor in-process", "read_case", "assemble_equilibrium", "solve_stability", "solve_joints",
-          "solve_global", "solve_sections", "render solve text", "read_claims", "compare_claims", "render check text")
-SKIPPABLE = ("solve_joints", "solve_global", "solve_sections")  # routes the later stages can do without
+STAGES = (
+    "import verify",
+    "floor in-process",
+    "read_case",
+    "assemble_equilibrium",
+    "solve_stability",
+    "solve_joints",
+    "solve_global",
+    "solve_sections",
+    "render solve text",
+    "read_claims",
+    "compare_claims",
+    "render check text",
+)
+SKIPPABLE = (
+    "solve_joints",
+    "solve_global",
+    "solve_sections",
+)  # routes the later stages can do without
 
 
 def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> int:
@@ -155,7 +182,12 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     emit("assemble_equilibrium", clock() - t)
     t = clock()
     stability = solve_stability(model)
-    emit("solve_stability", clock() - t, method=stability.method, classification=stability.classification.value)
+    emit(
+        "solve_stability",
+        clock() - t,
+        method=stability.method,
+        classification=stability.classification.value,
+    )
     joints = global_ = sections = None
     if "solve_joints" not in skip:
         t = clock()
@@ -173,9 +205,21 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
         emit("solve_sections", clock() - t)
     t = clock()
     reference = global_ or (joints.forces if joints else None)
-    disagreement = route_disagreement(reference, getattr(joints, "forces", None), getattr(sections, "forces", None)) if reference else 0.0
-    analysis = Analysis(model, stability, joints=joints, global_=global_ or reference, sections=sections,
-                        route_disagreement=disagreement)
+    disagreement = (
+        route_disagreement(
+            reference, getattr(joints, "forces", None), getattr(sections, "forces", None)
+        )
+        if reference
+        else 0.0
+    )
+    analysis = Analysis(
+        model,
+        stability,
+        joints=joints,
+        global_=global_ or reference,
+        sections=sections,
+        route_disagreement=disagreement,
+    )
     text.render_stability(model, stability)
     if reference is not None:
         text.render_solution(model, analysis)
@@ -192,13 +236,23 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     return 0
 
 
-def stage_times(case: Path, claims: Path, timeout: float) -> tuple[dict[str, float], dict[str, object], list[str], str | None]:
+def stage_times(
+    case: Path, claims: Path, timeout: float
+) -> tuple[dict[str, float], dict[str, object], list[str], str | None]:
     """Stage times; a route stage that times out is recorded and skipped in a fresh child."""
     times: dict[str, float] = {}
     extra: dict[str, object] = {}
     timed_out: list[str] = []
     for _ in range(len(SKIPPABLE) + 1):
-        cmd = [PYTHON, str(HERE / "run.py"), "--stages", str(case), str(claims), "--skip-stages", ",".join(timed_out)]
+        cmd = [
+            PYTHON,
+            str(HERE / "run.py"),
+            "--stages",
+            str(case),
+            str(claims),
+            "--skip-stages",
+            ",".join(timed_out),
+        ]
         error: str | None = None
         try:
             proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, cwd=ROOT)
@@ -218,8 +272,13 @@ def stage_times(case: Path, claims: Path, timeout: float) -> tuple[dict[str, flo
                 extra.update(record)
         if error is None or not error.startswith("timed out"):
             return times, extra, timed_out, error
-        pending = [s for s in STAGES if s not in done and s not in timed_out
-                   and (s != "solve_sections" or sections_available())]
+        pending = [
+            s
+            for s in STAGES
+            if s not in done
+            and s not in timed_out
+            and (s != "solve_sections" or sections_available())
+        ]
         if not pending or pending[0] not in SKIPPABLE:
             return times, extra, timed_out, f"{error} in {pending[0] if pending else '?'}"
         timed_out.append(pending[0])
@@ -273,26 +332,64 @@ def growth(n1: int, t1: float | None, n2: int, t2: float | None) -> float | None
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(description="Benchmark truss-verify against a floor measured in the same run.")
-    parser.add_argument("--max-members", type=float, default=1e5, help="largest target size (default 1e5)")
+    parser = argparse.ArgumentParser(
+        description="Benchmark truss-verify against a floor measured in the same run."
+    )
+    parser.add_argument(
+        "--max-members", type=float, default=1e5, help="largest target size (default 1e5)"
+    )
     parser.add_argument("--quick", action="store_true", help="sizes up to 1e4 members only")
-    parser.add_argument("--sizes", default=None, help="comma-separated target member counts instead of 1e2,1e3,1e4,1e5 (still capped)")
-    parser.add_argument("--families", default=",".join(generate.FAMILIES), help="comma-separated: pratt,grid")
-    parser.add_argument("--repeats", type=int, default=3, help="runs per command; the median is reported")
-    parser.add_argument("--repeats-large", type=int, default=1, help=f"runs per command at >= {LARGE:.0e} members")
-    parser.add_argument("--slow", type=float, default=30.0, help="stop repeating a command once one run takes this long (s)")
-    parser.add_argument("--timeout", type=float, default=300.0, help="kill a command after this many seconds")
-    parser.add_argument("--sections-timeout", type=float, default=60.0,
-                        help="kill `solve --show sections` after this many seconds; larger sizes of that family are then skipped")
+    parser.add_argument(
+        "--sizes",
+        default=None,
+        help="comma-separated target member counts instead of 1e2,1e3,1e4,1e5 (still capped)",
+    )
+    parser.add_argument(
+        "--families", default=",".join(generate.FAMILIES), help="comma-separated: pratt,grid"
+    )
+    parser.add_argument(
+        "--repeats", type=int, default=3, help="runs per command; the median is reported"
+    )
+    parser.add_argument(
+        "--repeats-large", type=int, default=1, help=f"runs per command at >= {LARGE:.0e} members"
+    )
+    parser.add_argument(
+        "--slow",
+        type=float,
+        default=30.0,
+        help="stop repeating a command once one run takes this long (s)",
+    )
+    parser.add_argument(
+        "--timeout", type=float, default=300.0, help="kill a command after this many seconds"
+    )
+    parser.add_argument(
+        "--sections-timeout",
+        type=float,
+        default=60.0,
+        help="kill `solve --show sections` after this many seconds; larger sizes of that family are then skipped",
+    )
     parser.add_argument("--no-stages", action="store_true", help="skip the per-stage timings")
-    parser.add_argument("--blas-threads", type=int, default=None,
-                        help="set OPENBLAS_NUM_THREADS/OMP_NUM_THREADS for every timed process (default: as the user has it)")
-    parser.add_argument("--out", type=Path, default=HERE / "out", help="where cases and results go (default bench/out)")
+    parser.add_argument(
+        "--blas-threads",
+        type=int,
+        default=None,
+        help="set OPENBLAS_NUM_THREADS/OMP_NUM_THREADS for every timed process (default: as the user has it)",
+    )
+    parser.add_argument(
+        "--out",
+        type=Path,
+        default=HERE / "out",
+        help="where cases and results go (default bench/out)",
+    )
     parser.add_argument("--stages", nargs=2, metavar=("CASE", "CLAIMS"), help=argparse.SUPPRESS)
     parser.add_argument("--skip-stages", default="", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.stages:
-        return stages_child(args.stages[0], args.stages[1], skip=frozenset(x for x in args.skip_stages.split(",") if x))
+        return stages_child(
+            args.stages[0],
+            args.stages[1],
+            skip=frozenset(x for x in args.skip_stages.split(",") if x),
+        )
 
     if args.blas_threads is not None:
         # Inherited by every child; a threaded BLAS on a busy 2-core machine can be several times slower.
@@ -307,32 +404,68 @@ def main(argv: list[str] | None = None) -> int:
             parser.error(f"unknown family {f!r}; expected {', '.join(generate.FAMILIES)}")
     with_sections = sections_available()
     args.out.mkdir(parents=True, exist_ok=True)
-    results: dict[str, Any] = {"python": PYTHON, "started": time.strftime("%Y-%m-%d %H:%M:%S"),
-                                  "cpus": os.cpu_count(), "sections_route": with_sections}
-    print(f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs, load average "
-          f"{os.getloadavg()[0]:.2f}; BLAS threads {os.environ.get('OPENBLAS_NUM_THREADS', 'default')}; section route {'present' if with_sections else 'absent'}", flush=True)
+    results: dict[str, Any] = {
+        "python": PYTHON,
+        "started": time.strftime("%Y-%m-%d %H:%M:%S"),
+        "cpus": os.cpu_count(),
+        "sections_route": with_sections,
+    }
+    print(
+        f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs, load average "
+        f"{os.getloadavg()[0]:.2f}; BLAS threads {os.environ.get('OPENBLAS_NUM_THREADS', 'default')}; section route {'present' if with_sections else 'absent'}",
+        flush=True,
+    )
 
     # Start-up: a 21-member truss against the bare import of the libraries it needs.
     small_dir = args.out / "cases" / "startup"
     small = generate.write_case(generate.build("pratt", SMALL_MEMBERS), small_dir)
     small_claims = small_dir / "claims.csv"
-    subprocess.run([PYTHON, str(HERE / "floor.py"), str(small), "--write-claims", str(small_claims)], check=True,
-                   stdout=subprocess.DEVNULL, cwd=ROOT)
+    subprocess.run(
+        [PYTHON, str(HERE / "floor.py"), str(small), "--write-claims", str(small_claims)],
+        check=True,
+        stdout=subprocess.DEVNULL,
+        cwd=ROOT,
+    )
     reps = max(args.repeats, 5)
     bare = timed([PYTHON, "-c", BARE_IMPORT], repeats=reps, timeout=60, slow=args.slow)
     startup = {
-        "stability": timed([TOOL, "stability", str(small)], repeats=reps, timeout=60, slow=args.slow),
+        "stability": timed(
+            [TOOL, "stability", str(small)], repeats=reps, timeout=60, slow=args.slow
+        ),
         "solve": timed([TOOL, "solve", str(small)], repeats=reps, timeout=60, slow=args.slow),
-        "check": timed([TOOL, "check", str(small), "--claims", str(small_claims)], repeats=reps, timeout=60,
-                       slow=args.slow, ok_codes=(0, 1)),
+        "check": timed(
+            [TOOL, "check", str(small), "--claims", str(small_claims)],
+            repeats=reps,
+            timeout=60,
+            slow=args.slow,
+            ok_codes=(0, 1),
+        ),
     }
-    print(f"\nStart-up (median of {reps}): bare `python -c \"{BARE_IMPORT}\"` {fmt_s(bare)} s")
-    print(table(["21-member Pratt", "s", "x bare import (target <= 1.5)", "cpu s", "cpu x bare import"],
-                [[k, fmt_s(v), f"{ratio(v, bare):.2f}" if ratio(v, bare) else "—", f"{v.cpu or 0:.3f}", cpu_ratio(v, bare)]
-                 for k, v in startup.items()]), flush=True)
-    results["startup"] = {"bare_import": bare.__dict__, **{k: v.__dict__ for k, v in startup.items()}}
+    print(f'\nStart-up (median of {reps}): bare `python -c "{BARE_IMPORT}"` {fmt_s(bare)} s')
+    print(
+        table(
+            ["21-member Pratt", "s", "x bare import (target <= 1.5)", "cpu s", "cpu x bare import"],
+            [
+                [
+                    k,
+                    fmt_s(v),
+                    f"{ratio(v, bare):.2f}" if ratio(v, bare) else "—",
+                    f"{v.cpu or 0:.3f}",
+                    cpu_ratio(v, bare),
+                ]
+                for k, v in startup.items()
+            ],
+        ),
+        flush=True,
+    )
+    results["startup"] = {
+        "bare_import": bare.__dict__,
+        **{k: v.__dict__ for k, v in startup.items()},
+    }
 
-    sections_gave_up: set[str] = set()  # families whose `--show sections` timed out at a smaller size
+    sections_gave_up: set[str] = (
+        set()
+    )  # families whose `--show sections` timed out at a smaller size
     rows: list[list[Any]] = []
     cpu_rows: list[list[Any]] = []
     records: list[dict[str, Any]] = []
@@ -342,14 +475,26 @@ def main(argv: list[str] | None = None) -> int:
             directory = args.out / "cases" / truss.name
             case = generate.write_case(truss, directory)
             claims = directory / "claims.csv"
-            subprocess.run([PYTHON, str(HERE / "floor.py"), str(case), "--write-claims", str(claims)], check=True,
-                           stdout=subprocess.DEVNULL, cwd=ROOT)
+            subprocess.run(
+                [PYTHON, str(HERE / "floor.py"), str(case), "--write-claims", str(claims)],
+                check=True,
+                stdout=subprocess.DEVNULL,
+                cwd=ROOT,
+            )
             repeats = args.repeats_large if truss.members >= LARGE else args.repeats
             kw = dict(repeats=repeats, timeout=args.timeout, slow=args.slow)
-            print(f"\n{truss.name}: {len(truss.joint_ids)} joints, {truss.members} members, {repeats} run(s) each ...", flush=True)
+            print(
+                f"\n{truss.name}: {len(truss.joint_ids)} joints, {truss.members} members, {repeats} run(s) each ...",
+                flush=True,
+            )
             # Untimed first run: confirms the truss is stable and determinate, and warms the page cache.
-            check_run = subprocess.run([TOOL, "stability", str(case), "--json"], capture_output=True, text=True,
-                                       timeout=args.timeout, cwd=ROOT)
+            check_run = subprocess.run(
+                [TOOL, "stability", str(case), "--json"],
+                capture_output=True,
+                text=True,
+                timeout=args.timeout,
+                cwd=ROOT,
+            )
             try:
                 structure = json.loads(check_run.stdout)["structure"]
                 classification = structure["classification"]
@@ -357,71 +502,145 @@ def main(argv: list[str] | None = None) -> int:
                 last = (check_run.stderr.strip().splitlines() or [""])[-1]
                 classification = f"unknown (`stability --json` exit {check_run.returncode}: {last})"
             if classification != "stable-determinate":
-                print(f"  WARNING: truss-verify stability says {classification}; expected stable-determinate")
+                print(
+                    f"  WARNING: truss-verify stability says {classification}; expected stable-determinate"
+                )
             t: dict[str, Timing] = {}
             t["floor"] = timed([PYTHON, str(HERE / "floor.py"), str(case)], **kw)
-            t["floor+claims"] = timed([PYTHON, str(HERE / "floor.py"), str(case), "--claims", str(claims)], **kw)
+            t["floor+claims"] = timed(
+                [PYTHON, str(HERE / "floor.py"), str(case), "--claims", str(claims)], **kw
+            )
             t["stability"] = timed([TOOL, "stability", str(case)], **kw)
             t["solve"] = timed([TOOL, "solve", str(case)], **kw)
-            t["check"] = timed([TOOL, "check", str(case), "--claims", str(claims)], ok_codes=(1,), **kw)
+            t["check"] = timed(
+                [TOOL, "check", str(case), "--claims", str(claims)], ok_codes=(1,), **kw
+            )
             if with_sections and family in sections_gave_up:
                 t["sections"] = Timing(None, error="skipped: timed out at a smaller size")
             elif with_sections:
-                t["sections"] = timed([TOOL, "solve", str(case), "--show", "sections"], repeats=repeats,
-                                      timeout=args.sections_timeout, slow=min(args.slow, args.sections_timeout / 3))
+                t["sections"] = timed(
+                    [TOOL, "solve", str(case), "--show", "sections"],
+                    repeats=repeats,
+                    timeout=args.sections_timeout,
+                    slow=min(args.slow, args.sections_timeout / 3),
+                )
                 if t["sections"].error and t["sections"].error.startswith("timed out"):
                     sections_gave_up.add(family)
             for name, timing in t.items():
-                print(f"  {name:13s} {fmt_s(timing, full=True)} s   cpu {timing.cpu or 0:.3f} s   peak {timing.peak_mb or 0:.0f} MB   runs {[round(x, 3) for x in timing.runs]}", flush=True)
+                print(
+                    f"  {name:13s} {fmt_s(timing, full=True)} s   cpu {timing.cpu or 0:.3f} s   peak {timing.peak_mb or 0:.0f} MB   runs {[round(x, 3) for x in timing.runs]}",
+                    flush=True,
+                )
             stages: dict[str, float] = {}
             stage_info: dict[str, object] = {}
             timed_out: list[str] = []
             if not args.no_stages:
                 stages, stage_info, timed_out, stage_error = stage_times(case, claims, args.timeout)
                 slowest = max(stages.items(), key=lambda kv: kv[1]) if stages else ("—", 0.0)
-                print("  stages: " + ", ".join(f"{k} {v:.3f}" for k, v in stages.items())
-                      + "".join(f", {k} > {args.timeout:.0f} (timed out, skipped)" for k in timed_out)
-                      + (f"  [{stage_error}]" if stage_error else "")
-                      + f"\n  slowest stage: {timed_out[0] if timed_out else slowest[0]}", flush=True)
-            row = [family, truss.members, fmt_s(t["floor"]), with_ratio(t["stability"], t["floor"]),
-                   with_ratio(t["solve"], t["floor"]), fmt_s(t["floor+claims"]), with_ratio(t["check"], t["floor+claims"])]
+                print(
+                    "  stages: "
+                    + ", ".join(f"{k} {v:.3f}" for k, v in stages.items())
+                    + "".join(f", {k} > {args.timeout:.0f} (timed out, skipped)" for k in timed_out)
+                    + (f"  [{stage_error}]" if stage_error else "")
+                    + f"\n  slowest stage: {timed_out[0] if timed_out else slowest[0]}",
+                    flush=True,
+                )
+            row = [
+                family,
+                truss.members,
+                fmt_s(t["floor"]),
+                with_ratio(t["stability"], t["floor"]),
+                with_ratio(t["solve"], t["floor"]),
+                fmt_s(t["floor+claims"]),
+                with_ratio(t["check"], t["floor+claims"]),
+            ]
             if with_sections:
                 row.append(with_ratio(t["sections"], t["floor"]))
             rows.append(row)
-            cpu_rows.append([family, truss.members, f"{t['floor'].cpu or 0:.3f}", cpu_ratio(t["stability"], t["floor"]),
-                             cpu_ratio(t["solve"], t["floor"]), cpu_ratio(t["check"], t["floor+claims"])])
-            records.append({"family": family, "members": truss.members, "joints": len(truss.joint_ids),
-                            "parameter": truss.parameter, "classification": classification,
-                            "timings": {k: v.__dict__ for k, v in t.items()}, "stages": stages, "stage_info": stage_info,
-                            "stages_timed_out": timed_out, "stage_timeout": args.timeout})
+            cpu_rows.append(
+                [
+                    family,
+                    truss.members,
+                    f"{t['floor'].cpu or 0:.3f}",
+                    cpu_ratio(t["stability"], t["floor"]),
+                    cpu_ratio(t["solve"], t["floor"]),
+                    cpu_ratio(t["check"], t["floor+claims"]),
+                ]
+            )
+            records.append(
+                {
+                    "family": family,
+                    "members": truss.members,
+                    "joints": len(truss.joint_ids),
+                    "parameter": truss.parameter,
+                    "classification": classification,
+                    "timings": {k: v.__dict__ for k, v in t.items()},
+                    "stages": stages,
+                    "stage_info": stage_info,
+                    "stages_timed_out": timed_out,
+                    "stage_timeout": args.timeout,
+                }
+            )
 
-    headers = ["family", "members", "floor s", "stability s (ratio)", "solve s (ratio)", "floor+claims s", "check s (ratio)"]
+    headers = [
+        "family",
+        "members",
+        "floor s",
+        "stability s (ratio)",
+        "solve s (ratio)",
+        "floor+claims s",
+        "check s (ratio)",
+    ]
     if with_sections:
         headers.append("solve --show sections s (ratio)")
-    print("\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members up")
+    print(
+        "\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members up"
+    )
     print(table(headers, rows))
-    print("\nThe same as CPU time (user + system) ratios, less disturbed by other load on the machine")
+    print(
+        "\nThe same as CPU time (user + system) ratios, less disturbed by other load on the machine"
+    )
     print(table(["family", "members", "floor cpu s", "stability", "solve", "check"], cpu_rows))
-    print(f"\nStart-up: bare import {fmt_s(bare)} s; 21-member case: "
-          + ", ".join(f"{k} {fmt_s(v)} s ({ratio(v, bare) or 0:.2f}x)" for k, v in startup.items()) + "; target <= 1.5x")
+    print(
+        f"\nStart-up: bare import {fmt_s(bare)} s; 21-member case: "
+        + ", ".join(f"{k} {fmt_s(v)} s ({ratio(v, bare) or 0:.2f}x)" for k, v in startup.items())
+        + "; target <= 1.5x"
+    )
 
     if not args.no_stages and records:
         names: list[str] = []
         for rec in records:
-            names += [s for s in STAGES if s not in names and (s in rec["stages"] or s in rec["stages_timed_out"])]
+            names += [
+                s
+                for s in STAGES
+                if s not in names and (s in rec["stages"] or s in rec["stages_timed_out"])
+            ]
         print("\nStages inside one process (s); the slowest per size marked *")
         stage_rows = []
         for rec in records:
             st: dict[str, float] = rec["stages"]
             late: list[str] = rec["stages_timed_out"]
             top = late[0] if late else (max(st, key=st.__getitem__) if st else None)
-            stage_rows.append([rec["family"], rec["members"]]
-                              + [(f">{args.timeout:.0f}" if s in late else "—" if s not in st else f"{st[s]:.3f}")
-                                 + ("*" if s == top else "") for s in names])
+            stage_rows.append(
+                [rec["family"], rec["members"]]
+                + [
+                    (
+                        f">{args.timeout:.0f}"
+                        if s in late
+                        else "—"
+                        if s not in st
+                        else f"{st[s]:.3f}"
+                    )
+                    + ("*" if s == top else "")
+                    for s in names
+                ]
+            )
         print(table(["family", "members", *names], stage_rows))
 
-        print(f"\nGrowth exponent k (time ~ members^k) between neighbouring sizes; n log n is k ~ 1.1. "
-              f"Flag '!': k > {FAST_K} and > floor k + 0.15 and time > {MIN_FLAG_SECONDS} s")
+        print(
+            f"\nGrowth exponent k (time ~ members^k) between neighbouring sizes; n log n is k ~ 1.1. "
+            f"Flag '!': k > {FAST_K} and > floor k + 0.15 and time > {MIN_FLAG_SECONDS} s"
+        )
         growth_rows = []
         flags: list[str] = []
         for a, b in zip(records, records[1:], strict=False):
@@ -430,7 +649,9 @@ def main(argv: list[str] | None = None) -> int:
             na, nb = int(a["members"]), int(b["members"])
             ta, tb = a["timings"], b["timings"]
             stage_a, stage_b = a["stages"], b["stages"]
-            k_floor = growth(na, stage_a.get("floor in-process"), nb, stage_b.get("floor in-process"))
+            k_floor = growth(
+                na, stage_a.get("floor in-process"), nb, stage_b.get("floor in-process")
+            )
             cells = [f"{a['family']} {na}->{nb}", f"{k_floor:.2f}" if k_floor is not None else "—"]
             for s in names:
                 if s == "floor in-process":
@@ -440,21 +661,45 @@ def main(argv: list[str] | None = None) -> int:
                 if bound:
                     t2 = float(b["stage_timeout"])
                 k = growth(na, t1, nb, t2)
-                flag = k is not None and k > FAST_K and k > (k_floor or 0) + 0.15 and (t2 or 0) > MIN_FLAG_SECONDS
-                cells.append("—" if k is None else (">" if bound else "") + f"{k:.2f}" + ("!" if flag else ""))
+                flag = (
+                    k is not None
+                    and k > FAST_K
+                    and k > (k_floor or 0) + 0.15
+                    and (t2 or 0) > MIN_FLAG_SECONDS
+                )
+                cells.append(
+                    "—"
+                    if k is None
+                    else (">" if bound else "") + f"{k:.2f}" + ("!" if flag else "")
+                )
                 if flag:
-                    flags.append(f"{a['family']} {s}: k {'>' if bound else '='} {k:.2f} from {na} to {nb} members "
-                                 f"({t1:.3f} -> {'>' if bound else ''}{t2:.3f} s)")
+                    flags.append(
+                        f"{a['family']} {s}: k {'>' if bound else '='} {k:.2f} from {na} to {nb} members "
+                        f"({t1:.3f} -> {'>' if bound else ''}{t2:.3f} s)"
+                    )
             for c in ("stability", "solve", "check"):
                 k = growth(na, ta[c]["seconds"], nb, tb[c]["seconds"])
                 cells.append("—" if k is None else f"{k:.2f}")
             growth_rows.append(cells)
-        print(table(["family, members", "floor in-process", *[s for s in names if s != "floor in-process"],
-                     "stability (whole)", "solve (whole)", "check (whole)"], growth_rows))
+        print(
+            table(
+                [
+                    "family, members",
+                    "floor in-process",
+                    *[s for s in names if s != "floor in-process"],
+                    "stability (whole)",
+                    "solve (whole)",
+                    "check (whole)",
+                ],
+                growth_rows,
+            )
+        )
         if flags:
             print("\nStages growing faster than n log n:\n  " + "\n  ".join(flags))
 
-    print(f"\nLoad average at the end: {os.getloadavg()[0]:.2f} (more than the CPU count means other work disturbed the wall times)")
+    print(
+        f"\nLoad average at the end: {os.getloadavg()[0]:.2f} (more than the CPU count means other work disturbed the wall times)"
+    )
     results["cases"] = records
     path = args.out / f"results-{time.strftime('%Y%m%d-%H%M%S')}.json"
     path.write_text(json.dumps(results, indent=1, default=str), encoding="utf-8")

@@ -18,15 +18,22 @@ from verify.analysis.pipeline import analyse
 PLANTED_FACTOR = 1.3  # far outside the 1 % tolerance, and no unit factor or sign flip imitates it
 
 
-def write_job_folder(root: Path, count: int, *, seed: int = 14, wrong_every: int = 5) -> dict[str, str]:
+def write_job_folder(
+    root: Path, count: int, *, seed: int = 14, wrong_every: int = 5
+) -> dict[str, str]:
     """Write `count` case folders under `root`; returns {case name: the verdict planted}."""
     rng = random.Random(seed)
     expected: dict[str, str] = {}
     for number in range(count):
         pattern = pratt if number % 2 == 0 else howe
         panels = rng.choice((4, 6, 8, 10))
-        case = pattern(panels, d=rng.choice((2.5, 3.0, 4.0)), h=rng.choice((2.0, 3.0)),
-                       load=float(rng.randint(5, 40)), case="dead")
+        case = pattern(
+            panels,
+            d=rng.choice((2.5, 3.0, 4.0)),
+            h=rng.choice((2.0, 3.0)),
+            load=float(rng.randint(5, 40)),
+            case="dead",
+        )
         name = f"{pattern.__name__}-{number:03d}"
         folder = root / name
         folder.mkdir(parents=True)
@@ -35,7 +42,9 @@ def write_job_folder(root: Path, count: int, *, seed: int = 14, wrong_every: int
         assert analysis.reference is not None  # the generator makes stable determinate trusses
         forces = analysis.reference.member_forces[:, 0]
         ids = list(analysis.model.member_ids)
-        wrong = number % wrong_every == wrong_every - 2  # an odd period plants in Pratt and Howe alike
+        wrong = (
+            number % wrong_every == wrong_every - 2
+        )  # an odd period plants in Pratt and Howe alike
         if wrong:
             loaded = [i for i, f in enumerate(forces) if abs(f) > 1e-6]
             forces = forces.copy()

@@ -93,7 +93,10 @@ def test_bad_case_raises_input_error(tmp_path: Path) -> None:
 
 def test_review_findings_carry_the_cause_fields() -> None:
     """The findings DataFrame has the fields scripts read: a likely cause's variant and count."""
-    result = review(ROOT / "cases/service-road-overbridge/case.toml", ROOT / "cases/service-road-overbridge/claims.csv")
+    result = review(
+        ROOT / "cases/service-road-overbridge/case.toml",
+        ROOT / "cases/service-road-overbridge/claims.csv",
+    )
     causes = result.findings[result.findings["kind"] == "likely-cause"]
     assert "'ULS-1' taking 1.5 × dead instead of 1.35 × dead" in set(causes["variant"])
     assert causes["explains"].min() >= 1 and all(causes["locations"].str.contains("row "))

@@ -43,7 +43,9 @@ def job_folder(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, dict[str
     return root, write_job_folder(root, 10)
 
 
-def fresh_copy(job_folder: tuple[Path, dict[str, str]], tmp_path: Path) -> tuple[Path, dict[str, str]]:
+def fresh_copy(
+    job_folder: tuple[Path, dict[str, str]], tmp_path: Path
+) -> tuple[Path, dict[str, str]]:
     source, expected = job_folder
     target = tmp_path / "job"
     shutil.copytree(source, target)
@@ -72,7 +74,9 @@ def test_summary_names_the_most_serious_finding_and_links_each_report(job_folder
         assert (out / row["report"]).is_file()
         assert f'href="{row["report"]}"' in index
         if expected[row["case"]] == "discrepancies":
-            assert int(row["findings"]) >= 1 and row["most_serious"].startswith("Claimed value differs")
+            assert int(row["findings"]) >= 1 and row["most_serious"].startswith(
+                "Claimed value differs"
+            )
         else:
             assert row["findings"] == "0" and row["most_serious"] == ""
     assert list(rows[0]) == list(SUMMARY_COLUMNS)
@@ -94,7 +98,10 @@ def test_rerun_skips_unchanged_cases_and_rechecks_a_changed_claims_table(job_fol
     assert all(r["status"] == expected[name] for name, r in rows.items() if name != agreeing)
     assert err.count("unchanged since the last run") == len(expected) - 1
     code, _, _ = run_cli(folder, "--recheck")
-    assert all(r["checked"] == "this run" for r in summary_rows(folder / "truss-verify-batch" / "summary.csv"))
+    assert all(
+        r["checked"] == "this run"
+        for r in summary_rows(folder / "truss-verify-batch" / "summary.csv")
+    )
 
 
 def test_rerun_rechecks_a_case_whose_case_file_changed(job_folder, tmp_path):
@@ -102,9 +109,13 @@ def test_rerun_rechecks_a_case_whose_case_file_changed(job_folder, tmp_path):
     run_cli(folder, "--jobs", 1)
     name = sorted(expected)[0]
     case = folder / name / "case.toml"
-    case.write_text(case.read_text(encoding="utf-8").replace('title = "', 'title = "revised '), encoding="utf-8")
+    case.write_text(
+        case.read_text(encoding="utf-8").replace('title = "', 'title = "revised '), encoding="utf-8"
+    )
     run_cli(folder, "--jobs", 1)
-    rows = {r["case"]: r["checked"] for r in summary_rows(folder / "truss-verify-batch" / "summary.csv")}
+    rows = {
+        r["case"]: r["checked"] for r in summary_rows(folder / "truss-verify-batch" / "summary.csv")
+    }
     assert rows[name] == "this run"
     assert sum(1 for checked in rows.values() if checked == "unchanged") == len(expected) - 1
 
@@ -112,7 +123,9 @@ def test_rerun_rechecks_a_case_whose_case_file_changed(job_folder, tmp_path):
 def _bad_folder(tmp_path: Path, job_folder) -> tuple[Path, dict[str, str]]:
     folder, expected = fresh_copy(job_folder, tmp_path)
     (folder / "broken").mkdir()
-    (folder / "broken" / "case.toml").write_text("title = 'x'\n[joints\nA = [0, 0]\n", encoding="utf-8")
+    (folder / "broken" / "case.toml").write_text(
+        "title = 'x'\n[joints\nA = [0, 0]\n", encoding="utf-8"
+    )
     (folder / "broken" / "claims.csv").write_text("member,dead\nAB,1\n", encoding="utf-8")
     (folder / "no-claims").mkdir()
     shutil.copy(folder / sorted(expected)[0] / "case.toml", folder / "no-claims" / "case.toml")
@@ -124,7 +137,9 @@ def _bad_folder(tmp_path: Path, job_folder) -> tuple[Path, dict[str, str]]:
     shutil.copy(folder / sorted(expected)[0] / "claims.csv", folder / "orphan" / "claims.csv")
     (folder / "other-truss").mkdir()
     shutil.copy(folder / sorted(expected)[0] / "case.toml", folder / "other-truss" / "case.toml")
-    (folder / "other-truss" / "claims.csv").write_text("member,dead (kN)\nX1,4\nX2,5\n", encoding="utf-8")
+    (folder / "other-truss" / "claims.csv").write_text(
+        "member,dead (kN)\nX1,4\nX2,5\n", encoding="utf-8"
+    )
     return folder, expected
 
 
@@ -156,15 +171,27 @@ def test_bad_cases_beside_agreeing_ones_exit_2(tmp_path):
     assert code == 2
 
 
-@pytest.mark.parametrize("codes, expected", [
-    ([0, 0], 0), ([0, 2], 2), ([2, 1, 0], 1), ([2, 3], 3), ([1, 3, 2], 1), ([70, 2], 70), ([3, 70], 3), ([], 0),
-])
+@pytest.mark.parametrize(
+    "codes, expected",
+    [
+        ([0, 0], 0),
+        ([0, 2], 2),
+        ([2, 1, 0], 1),
+        ([2, 3], 3),
+        ([1, 3, 2], 1),
+        ([70, 2], 70),
+        ([3, 70], 3),
+        ([], 0),
+    ],
+)
 def test_batch_status_is_the_most_serious_in_the_documented_order(codes, expected):
     assert batch_exit(codes) == expected
     assert STATUS_ORDER[0] == 1  # discrepancies outrank every other case status
 
 
-def test_a_fault_in_one_case_is_reported_and_the_others_are_checked(job_folder, tmp_path, monkeypatch):
+def test_a_fault_in_one_case_is_reported_and_the_others_are_checked(
+    job_folder, tmp_path, monkeypatch
+):
     import verify.service as service  # the check service calls the analysis for every caller
 
     folder, expected = fresh_copy(job_folder, tmp_path)
@@ -188,7 +215,11 @@ def test_a_fault_in_one_case_is_reported_and_the_others_are_checked(job_folder, 
 def test_the_library_prints_nothing(job_folder, tmp_path, capfd):
     folder, _ = fresh_copy(job_folder, tmp_path)
     seen = []
-    run_batch(folder, runner=local_runner(2), on_result=lambda result, done, total: seen.append((done, total)))
+    run_batch(
+        folder,
+        runner=local_runner(2),
+        on_result=lambda result, done, total: seen.append((done, total)),
+    )
     captured = capfd.readouterr()
     assert captured.out == "" and captured.err == ""
     assert [done for done, _ in seen] == list(range(1, len(seen) + 1)) and seen[-1][1] == len(seen)
@@ -200,8 +231,12 @@ def test_manifest_rows_run_with_their_options_and_bad_rows_are_reported(tmp_path
     first, second = sorted(expected)[:2]
     # A consultant's table in compression-positive kips: agrees only when the row's options are used.
     lines = (tmp_path / "cases" / first / "claims.csv").read_text(encoding="utf-8").splitlines()
-    flipped = ["member,dead"] + [f"{m},{-float(v) / 4.4482216152605:.6g}" for m, v in (line.split(",") for line in lines[1:])]
-    (tmp_path / "cases" / first / "kips.csv").write_text("\n".join(flipped) + "\n", encoding="utf-8")
+    flipped = ["member,dead"] + [
+        f"{m},{-float(v) / 4.4482216152605:.6g}" for m, v in (line.split(",") for line in lines[1:])
+    ]
+    (tmp_path / "cases" / first / "kips.csv").write_text(
+        "\n".join(flipped) + "\n", encoding="utf-8"
+    )
     manifest = tmp_path / "manifest.csv"
     manifest.write_text(
         "Name,case,claims,sign,unit,rtol\n"
@@ -211,7 +246,8 @@ def test_manifest_rows_run_with_their_options_and_bad_rows_are_reported(tmp_path
         f"bad-rtol,cases/{second},cases/{second}/claims.csv,,,abc\n"
         f"bad-sign,cases/{second},cases/{second}/claims.csv,upside-down,,\n"
         f"missing,cases/nowhere,cases/{second}/claims.csv,,,\n",
-        encoding="utf-8")
+        encoding="utf-8",
+    )
     code, _, _ = run_cli(manifest, "--jobs", 2)
     rows = {r["case"]: r for r in summary_rows(tmp_path / "truss-verify-batch" / "summary.csv")}
     assert rows["kips"]["status"] == "agrees" and rows["plain"]["status"] == "agrees"
@@ -226,18 +262,25 @@ def test_manifest_rows_run_with_their_options_and_bad_rows_are_reported(tmp_path
 def test_a_manifest_in_the_folder_is_used_instead_of_searching_it(tmp_path):
     expected = write_job_folder(tmp_path, 3, wrong_every=99)
     only = sorted(expected)[0]
-    (tmp_path / "manifest.csv").write_text(f"case,claims\n{only},{only}/claims.csv\n", encoding="utf-8")
+    (tmp_path / "manifest.csv").write_text(
+        f"case,claims\n{only},{only}/claims.csv\n", encoding="utf-8"
+    )
     code, _, _ = run_cli(tmp_path)
-    assert [r["case"] for r in summary_rows(tmp_path / "truss-verify-batch" / "summary.csv")] == [only]
+    assert [r["case"] for r in summary_rows(tmp_path / "truss-verify-batch" / "summary.csv")] == [
+        only
+    ]
     assert code == 0
 
 
-@pytest.mark.parametrize("text, words", [
-    ("case,claim\nx,y\n", "Did you mean 'claims'?"),
-    ("case,claims,colour\nx,y,z\n", "unknown column 'colour'"),
-    ("case,claims\n", "no case rows"),
-    ("", "the manifest is empty"),
-])
+@pytest.mark.parametrize(
+    "text, words",
+    [
+        ("case,claim\nx,y\n", "Did you mean 'claims'?"),
+        ("case,claims,colour\nx,y,z\n", "unknown column 'colour'"),
+        ("case,claims\n", "no case rows"),
+        ("", "the manifest is empty"),
+    ],
+)
 def test_an_unreadable_manifest_is_bad_input_with_one_message(tmp_path, text, words):
     manifest = tmp_path / "manifest.csv"
     manifest.write_text(text, encoding="utf-8")
@@ -263,7 +306,9 @@ def test_summary_over_an_input_is_refused_and_the_input_kept(job_folder, tmp_pat
     code, _, err = run_cli(folder, "--summary", claims)
     assert code == 2 and "over an input file" in err
     assert claims.read_bytes() == before
-    assert not (folder / "truss-verify-batch" / "reports").exists() or not any((folder / "truss-verify-batch" / "reports").iterdir())
+    assert not (folder / "truss-verify-batch" / "reports").exists() or not any(
+        (folder / "truss-verify-batch" / "reports").iterdir()
+    )
 
 
 def test_summary_in_a_missing_folder_is_refused_before_any_case_runs(job_folder, tmp_path):
@@ -275,8 +320,11 @@ def test_summary_in_a_missing_folder_is_refused_before_any_case_runs(job_folder,
 
 def test_a_closed_stderr_stops_the_progress_lines_not_the_batch(job_folder, tmp_path):
     folder, expected = fresh_copy(job_folder, tmp_path)
-    child = subprocess.Popen([sys.executable, "-m", "verify.cli", "batch", str(folder), "--jobs", "2"],
-                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    child = subprocess.Popen(
+        [sys.executable, "-m", "verify.cli", "batch", str(folder), "--jobs", "2"],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+    )
     assert child.stderr is not None
     child.stderr.close()  # as `2>&1 | head -1` does once it has its line
     assert child.wait(timeout=300) == 1
@@ -303,8 +351,12 @@ def test_bundled_cases_run_as_a_folder(tmp_path):
     shutil.copytree(ROOT / "cases", tmp_path / "cases")
     code, _, _ = run_cli(tmp_path / "cases", "--jobs", 2)
     rows = summary_rows(tmp_path / "cases" / "truss-verify-batch" / "summary.csv")
-    assert {r["case"] for r in rows} == {p.parent.name for p in (ROOT / "cases").glob("*/case.toml")}
-    assert all(r["status"] == "discrepancies" for r in rows)  # each bundled table has planted errors
+    assert {r["case"] for r in rows} == {
+        p.parent.name for p in (ROOT / "cases").glob("*/case.toml")
+    }
+    assert all(
+        r["status"] == "discrepancies" for r in rows
+    )  # each bundled table has planted errors
     assert code == 1
 
 
@@ -326,15 +378,35 @@ def test_a_local_dask_cluster_gives_the_same_summary_as_the_local_run(job_folder
     pytest.importorskip("distributed")  # the test extra installs it; see pyproject.toml
     folder, _ = fresh_copy(job_folder, tmp_path)
     run_cli(folder, "--jobs", 2, "--summary", tmp_path / "local.csv", "--out", tmp_path / "local")
-    cluster = subprocess.Popen([sys.executable, "-c", CLUSTER_SCRIPT], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
-                               stderr=subprocess.DEVNULL, text=True)
+    cluster = subprocess.Popen(
+        [sys.executable, "-c", CLUSTER_SCRIPT],
+        stdin=subprocess.PIPE,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.DEVNULL,
+        text=True,
+    )
     try:
         assert cluster.stdout is not None
         address = cluster.stdout.readline().strip()
         assert address.startswith("tcp://"), address
-        done = subprocess.run([sys.executable, "-m", "verify.cli", "batch", str(folder), "--scheduler", address,
-                               "--summary", str(tmp_path / "dask.csv"), "--out", str(tmp_path / "dask")],
-                              capture_output=True, text=True, timeout=300)
+        done = subprocess.run(
+            [
+                sys.executable,
+                "-m",
+                "verify.cli",
+                "batch",
+                str(folder),
+                "--scheduler",
+                address,
+                "--summary",
+                str(tmp_path / "dask.csv"),
+                "--out",
+                str(tmp_path / "dask"),
+            ],
+            capture_output=True,
+            text=True,
+            timeout=300,
+        )
     finally:
         cluster.communicate(input="", timeout=60)
     local, remote = summary_rows(tmp_path / "local.csv"), summary_rows(tmp_path / "dask.csv")
@@ -345,7 +417,8 @@ def test_a_local_dask_cluster_gives_the_same_summary_as_the_local_run(job_folder
     progress = [line for line in done.stderr.splitlines() if line.startswith("[")]
     assert done.returncode == 1 and len(progress) == len(local), done.stderr
     assert sorted(p.name for p in (tmp_path / "dask" / "reports").iterdir()) == sorted(
-        p.name for p in (tmp_path / "local" / "reports").iterdir())
+        p.name for p in (tmp_path / "local" / "reports").iterdir()
+    )
 
 
 def test_scheduler_without_the_extra_says_how_to_install_it(job_folder, tmp_path, monkeypatch):
@@ -353,7 +426,10 @@ def test_scheduler_without_the_extra_says_how_to_install_it(job_folder, tmp_path
     folder, _ = fresh_copy(job_folder, tmp_path)
     code, out, err = run_cli(folder, "--scheduler", "tcp://127.0.0.1:1")
     assert code == 2
-    assert err.strip() == "--scheduler needs Dask's distributed scheduler, an optional extra: pip install 'truss-verify[cluster]'"
+    assert (
+        err.strip()
+        == "--scheduler needs Dask's distributed scheduler, an optional extra: pip install 'truss-verify[cluster]'"
+    )
     assert not (folder / "truss-verify-batch" / "summary.csv").exists()
 
 

@@ -52,7 +52,12 @@ C = [0.0, -10.0]
 def test_bundled_footbridge_case_reads():
     """cases/canal-footbridge: 12 joints, 21 members (6-panel Pratt), 3 cases, 2 combinations."""
     model = read_case(ROOT / "cases" / "canal-footbridge" / "case.toml")
-    assert (model.dim, len(model.joints), len(model.members), len(model.reactions)) == (2, 12, 21, 3)
+    assert (model.dim, len(model.joints), len(model.members), len(model.reactions)) == (
+        2,
+        12,
+        21,
+        3,
+    )
     assert model.units.length.symbol == "m" and model.units.force.symbol == "kN"
     assert model.load_names == ["dead", "crowd", "wind-uplift", "ULS-1", "SLS-1"]
     F = model.load_matrix()
@@ -70,7 +75,10 @@ def test_inline_case_values(write_files):
     assert model.member_ids == ["AB", "BC", "CA"]
     assert [(m.start, m.end) for m in model.members] == [("A", "B"), ("B", "C"), ("C", "A")]
     assert [(r.joint, r.axis, r.direction) for r in model.reactions] == [
-        ("A", "x", (1.0, 0.0)), ("A", "y", (0.0, 1.0)), ("B", "y", (0.0, 1.0))]
+        ("A", "x", (1.0, 0.0)),
+        ("A", "y", (0.0, 1.0)),
+        ("B", "y", (0.0, 1.0)),
+    ]
     assert model.cases[0].loads == {"C": (0.0, -10.0)}
     assert model.lengths.tolist() == pytest.approx([4.0, math.sqrt(13.0), math.sqrt(13.0)])
     assert not model.has_stiffness
@@ -84,7 +92,9 @@ def test_utf8_bom_is_accepted(write_files):
 
 def test_numbers_stay_in_declared_units(write_files):
     """Internal convention: numbers are kept in the case's units (no conversion to SI)."""
-    text = TRIANGLE.replace('length = "m"', 'length = "ft"').replace('force = "kN"', 'force = "kip"')
+    text = TRIANGLE.replace('length = "m"', 'length = "ft"').replace(
+        'force = "kN"', 'force = "kip"'
+    )
     model = read_case(write_files({"case.toml": text}))
     assert model.units.length.symbol == "ft" and model.units.force.symbol == "kip"
     assert model.joints[1].coords == (4.0, 0.0)
@@ -93,10 +103,16 @@ def test_numbers_stay_in_declared_units(write_files):
 
 def test_ids_stay_strings_in_toml(write_files):
     """'007' and '1E1' are ids, not numbers (TOML quoted and bare keys are strings)."""
-    text = TRIANGLE.replace('A = [0.0, 0.0]', '"007" = [0.0, 0.0]').replace('B = [4.0, 0.0]', '"1E1" = [4.0, 0.0]')
-    text = text.replace('AB = ["A", "B"]', '"0.5" = ["007", "1E1"]').replace('BC = ["B", "C"]', '010 = ["1E1", "C"]')
+    text = TRIANGLE.replace("A = [0.0, 0.0]", '"007" = [0.0, 0.0]').replace(
+        "B = [4.0, 0.0]", '"1E1" = [4.0, 0.0]'
+    )
+    text = text.replace('AB = ["A", "B"]', '"0.5" = ["007", "1E1"]').replace(
+        'BC = ["B", "C"]', '010 = ["1E1", "C"]'
+    )
     text = text.replace('CA = ["C", "A"]', 'CA = ["C", "007"]')
-    text = text.replace('A = ["x", "y"]', '"007" = ["x", "y"]').replace('B = ["y"]', '"1E1" = ["y"]')
+    text = text.replace('A = ["x", "y"]', '"007" = ["x", "y"]').replace(
+        'B = ["y"]', '"1E1" = ["y"]'
+    )
     model = read_case(write_files({"case.toml": text}))
     assert model.joint_ids == ["007", "1E1", "C"]
     assert model.member_ids == ["0.5", "010", "CA"]
@@ -163,20 +179,31 @@ def test_member_stiffness_from_ea_and_from_area_and_modulus(write_files):
     """EA from A and E is A*E in the case's force unit (pint gives the product's conversion)."""
     model = read_case(write_files({"case.toml": STIFF}))
     ea = {m.id: m.EA for m in model.members}
-    assert ea["AB"] == pytest.approx(pint_ea("1000 mm**2", "200 GPa", "kN"), rel=RTOL)  # [stiffness] default
+    assert ea["AB"] == pytest.approx(
+        pint_ea("1000 mm**2", "200 GPa", "kN"), rel=RTOL
+    )  # [stiffness] default
     assert ea["BC"] == 5.0e4  # its own EA wins over the default
     assert ea["CA"] == pytest.approx(pint_ea("2.5 mm**2", "10 GPa", "kN"), rel=RTOL)
     assert model.has_stiffness
 
 
-@pytest.mark.parametrize(("area", "modulus", "force", "pint_area", "pint_modulus"), [
-    ("in2", "ksi", "kip", "inch**2", "ksi"),
-    ("cm2", "N/mm2", "N", "cm**2", "N/mm**2"),
-    ("m2", "kPa", "MN", "m**2", "kPa"),
-    ("ft2", "psi", "lbf", "foot**2", "psi"),
-])
-def test_area_modulus_units_against_pint(write_files, area, modulus, force, pint_area, pint_modulus):
-    text = STIFF.replace('"mm2"', f'"{area}"').replace('"GPa"', f'"{modulus}"').replace('force = "kN"', f'force = "{force}"')
+@pytest.mark.parametrize(
+    ("area", "modulus", "force", "pint_area", "pint_modulus"),
+    [
+        ("in2", "ksi", "kip", "inch**2", "ksi"),
+        ("cm2", "N/mm2", "N", "cm**2", "N/mm**2"),
+        ("m2", "kPa", "MN", "m**2", "kPa"),
+        ("ft2", "psi", "lbf", "foot**2", "psi"),
+    ],
+)
+def test_area_modulus_units_against_pint(
+    write_files, area, modulus, force, pint_area, pint_modulus
+):
+    text = (
+        STIFF.replace('"mm2"', f'"{area}"')
+        .replace('"GPa"', f'"{modulus}"')
+        .replace('force = "kN"', f'force = "{force}"')
+    )
     model = read_case(write_files({"case.toml": text}))
     expected = pint_ea(f"1000 {pint_area}", f"200 {pint_modulus}", force)
     assert model.members[0].EA == pytest.approx(expected, rel=RTOL)
@@ -189,7 +216,10 @@ def test_stiffness_default_as_ea(write_files):
 
 
 def test_combinations_superpose_load_cases(write_files):
-    text = TRIANGLE + '\n[loads.snow]\nC = [1.0, -4.0]\nB = [0.5, 0.0]\n\n[combinations]\n"ULS-1" = { dead = 1.35, snow = 1.5 }\n"W" = { snow = -1.0 }\n'
+    text = (
+        TRIANGLE
+        + '\n[loads.snow]\nC = [1.0, -4.0]\nB = [0.5, 0.0]\n\n[combinations]\n"ULS-1" = { dead = 1.35, snow = 1.5 }\n"W" = { snow = -1.0 }\n'
+    )
     model = read_case(write_files({"case.toml": text}))
     assert model.load_names == ["dead", "snow", "ULS-1", "W"]
     assert dict(model.combinations[0].factors) == {"dead": 1.35, "snow": 1.5}
@@ -216,12 +246,24 @@ force = "kN"
 
 def pratt_csv_files(case: dict) -> dict[str, str]:
     joints = "id,x,y\n" + "".join(f"{j},{x!r},{y!r}\n" for j, (x, y) in case["joints"].items())
-    members = "id,start,end,ea\n" + "".join(f"{m},{a},{b},\n" for m, (a, b) in case["members"].items())
-    supports = "joint,directions\n" + "".join(f"{j},{' '.join(ax)}\n" for j, ax in case["supports"].items())
+    members = "id,start,end,ea\n" + "".join(
+        f"{m},{a},{b},\n" for m, (a, b) in case["members"].items()
+    )
+    supports = "joint,directions\n" + "".join(
+        f"{j},{' '.join(ax)}\n" for j, ax in case["supports"].items()
+    )
     loads = "case,joint,fx,fy\n" + "".join(
-        f"{name},{j},{fx!r},{fy!r}\n" for name, table in case["loads"].items() for j, (fx, fy) in table.items())
-    return {"case.toml": CSV_CASE, "joints.csv": joints, "members.csv": members,
-            "supports.csv": supports, "loads.csv": loads}
+        f"{name},{j},{fx!r},{fy!r}\n"
+        for name, table in case["loads"].items()
+        for j, (fx, fy) in table.items()
+    )
+    return {
+        "case.toml": CSV_CASE,
+        "joints.csv": joints,
+        "members.csv": members,
+        "supports.csv": supports,
+        "loads.csv": loads,
+    }
 
 
 def test_csv_tables_read_like_inline_tables(write_files, tmp_path):
@@ -233,7 +275,9 @@ def test_csv_tables_read_like_inline_tables(write_files, tmp_path):
     assert from_csv.members == inline.members
     assert from_csv.reactions == inline.reactions
     assert [dict(c.loads) for c in from_csv.cases] == [dict(c.loads) for c in inline.cases]
-    np.testing.assert_allclose(solve_global(from_csv).member_forces, solve_global(inline).member_forces, rtol=RTOL)
+    np.testing.assert_allclose(
+        solve_global(from_csv).member_forces, solve_global(inline).member_forces, rtol=RTOL
+    )
 
 
 @pytest.mark.parametrize("layout", ["plain", "padded", "quoted", "no-break-space"])
@@ -248,8 +292,13 @@ def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, lay
         header, *rows = files[name].splitlines()
         rows = rows[::-1]  # row order is not joint order
         first, rest = zip(*(row.split(",", 1) for row in rows), strict=True)
-        label = {"plain": "{}", "padded": " {} ", "quoted": '" {} "', "no-break-space": "{}\u00a0"}[layout]
-        rows = [label.format(a) + ("\t," if layout == "padded" else ",") + b for a, b in zip(first, rest, strict=True)]
+        label = {"plain": "{}", "padded": " {} ", "quoted": '" {} "', "no-break-space": "{}\u00a0"}[
+            layout
+        ]
+        rows = [
+            label.format(a) + ("\t," if layout == "padded" else ",") + b
+            for a, b in zip(first, rest, strict=True)
+        ]
         files[name] = "\n".join([header, *rows]) + "\n"
     original = case_module._clean_frame
     bulk_reads: list[str] = []
@@ -286,7 +335,7 @@ def test_toml_writer_round_trip(tmp_path):
     """The test helper's TOML writer gives back the same model as building from the dict."""
     case = pratt(4)
     assert read_case(write_case(tmp_path, case)).members == make_model(case).members
-    assert "[loads.\"P\"]" in to_toml(case)
+    assert '[loads."P"]' in to_toml(case)
 
 
 def test_csv_ids_stay_strings_and_optional_columns(write_files):
@@ -301,16 +350,29 @@ def test_csv_ids_stay_strings_and_optional_columns(write_files):
     assert model.joint_ids == ["007", "1E1", "C"]
     assert model.member_ids == ["m1", "0010", "m3"]
     assert [m.EA for m in model.members] == [None, 5e5, None]
-    assert [(r.joint, r.axis) for r in model.reactions] == [("007", "x"), ("007", "y"), ("1E1", "n")]
+    assert [(r.joint, r.axis) for r in model.reactions] == [
+        ("007", "x"),
+        ("007", "y"),
+        ("1E1", "n"),
+    ]
     assert model.reactions[2].direction == pytest.approx((0.6, 0.8), rel=RTOL)
     assert model.load_names == ["dead", "live"]
     assert dict(model.cases[1].loads) == {"1E1": (1.5, -2.0), "C": (0.0, -10.0)}
 
 
 def test_csv_one_file_per_load_case(write_files):
-    text = CSV_CASE.replace('loads = "loads.csv"\n', "") + '\n[loads]\ndead = "dead.csv"\nwind = "wind.csv"\n'
+    text = (
+        CSV_CASE.replace('loads = "loads.csv"\n', "")
+        + '\n[loads]\ndead = "dead.csv"\nwind = "wind.csv"\n'
+    )
     files = pratt_csv_files(pratt(4))
-    files.update({"case.toml": text, "dead.csv": "joint,fx,fy\nL1,0,-5\nL2,0,-5\n", "wind.csv": "joint,fx,fy\nU1,2.5,0\n"})
+    files.update(
+        {
+            "case.toml": text,
+            "dead.csv": "joint,fx,fy\nL1,0,-5\nL2,0,-5\n",
+            "wind.csv": "joint,fx,fy\nU1,2.5,0\n",
+        }
+    )
     model = read_case(write_files(files))
     assert model.load_names == ["dead", "wind"]
     assert dict(model.cases[0].loads) == {"L1": (0.0, -5.0), "L2": (0.0, -5.0)}
@@ -321,7 +383,11 @@ def test_csv_supports_by_direction_components(write_files):
     files = pratt_csv_files(pratt(4))
     files["supports.csv"] = "joint,nx,ny\nL0,1,0\nL0,0,2\nL4,0,-1\n"
     model = read_case(write_files(files))
-    assert [(r.joint, r.direction) for r in model.reactions] == [("L0", (1.0, 0.0)), ("L0", (0.0, 1.0)), ("L4", (0.0, -1.0))]
+    assert [(r.joint, r.direction) for r in model.reactions] == [
+        ("L0", (1.0, 0.0)),
+        ("L0", (0.0, 1.0)),
+        ("L4", (0.0, -1.0)),
+    ]
 
 
 # -- 3D ---------------------------------------------------------------------------------------
@@ -357,7 +423,9 @@ def test_3d_inline_case(write_files):
     assert model.dofs == 12
     assert len(model.reactions) == 9
     assert model.cases[0].loads["O"] == (0.0, 0.0, -1.0)
-    assert model.lengths == pytest.approx([5.0, 5.0, 5.0], rel=1e-12)  # 3-4-5 legs (REFERENCES.md 3.4)
+    assert model.lengths == pytest.approx(
+        [5.0, 5.0, 5.0], rel=1e-12
+    )  # 3-4-5 legs (REFERENCES.md 3.4)
 
 
 def test_3d_csv_tables(write_files):
@@ -369,10 +437,19 @@ def test_3d_csv_tables(write_files):
         "loads.csv": "case,joint,fx,fy,fz\nvertical,O,0,0,-1\n",
     }
     from_csv = read_case(write_files(files))
-    inline = make_model(truss_case(
-        {"O": [0, 0, 4], "F1": [3, 0, 0], "F2": [-1.5, 2.598076211353316, 0], "F3": [-1.5, -2.598076211353316, 0]},
-        [("O", "F1"), ("O", "F2"), ("O", "F3")], {f: ["x", "y", "z"] for f in ("F1", "F2", "F3")},
-        {"vertical": {"O": [0, 0, -1]}}))
+    inline = make_model(
+        truss_case(
+            {
+                "O": [0, 0, 4],
+                "F1": [3, 0, 0],
+                "F2": [-1.5, 2.598076211353316, 0],
+                "F3": [-1.5, -2.598076211353316, 0],
+            },
+            [("O", "F1"), ("O", "F2"), ("O", "F3")],
+            {f: ["x", "y", "z"] for f in ("F1", "F2", "F3")},
+            {"vertical": {"O": [0, 0, -1]}},
+        )
+    )
     assert from_csv.dim == 3
     assert from_csv.joints == inline.joints
     assert from_csv.reactions == inline.reactions

@@ -30,7 +30,13 @@ def _model() -> Model:
         {
             "units": {"length": "m", "force": "kN"},
             "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
-            "members": {"M1": ["A", "B"], "M2": ["B", "C"], "M3": ["A", "D"], "M4": ["B", "D"], "M5": ["C", "D"]},
+            "members": {
+                "M1": ["A", "B"],
+                "M2": ["B", "C"],
+                "M3": ["A", "D"],
+                "M4": ["B", "D"],
+                "M5": ["C", "D"],
+            },
             "supports": {"A": ["x", "y"], "C": ["y"]},
             "loads": {"dead": {"D": [0.0, -DEAD]}, "snow": {"D": [0.0, -SNOW]}},
         },
@@ -44,7 +50,13 @@ ENDS = {"M1": ("A", "B"), "M2": ("B", "C"), "M3": ("A", "D"), "M4": ("B", "D"), 
 
 def _force(member: str, load: float) -> float:
     """Tension-positive member force from the closed forms in the module docstring."""
-    return {"M1": load / 2, "M2": load / 2, "M3": -load / math.sqrt(2), "M4": 0.0, "M5": -load / math.sqrt(2)}[member]
+    return {
+        "M1": load / 2,
+        "M2": load / 2,
+        "M3": -load / math.sqrt(2),
+        "M4": 0.0,
+        "M5": -load / math.sqrt(2),
+    }[member]
 
 
 def _tc(value: float) -> tuple[str, str]:
@@ -62,7 +74,9 @@ def _by(table: ClaimsTable) -> dict[tuple[str | None, str], float]:
     return {(v.member, v.column): v.value for v in table.values}
 
 
-def _save(rows: list[list[object]], path: Path, merges: tuple[str, ...] = (), title: str = "Member forces") -> Path:
+def _save(
+    rows: list[list[object]], path: Path, merges: tuple[str, ...] = (), title: str = "Member forces"
+) -> Path:
     book = openpyxl.Workbook()
     ws = book.active
     ws.title = title
@@ -76,8 +90,13 @@ def _save(rows: list[list[object]], path: Path, merges: tuple[str, ...] = (), ti
 
 def test_group_cell_merged_over_case_columns_with_the_unit(tmp_path: Path) -> None:
     """Titles, then a two-row header: 'Axial force (kN)' merged over 'dead' and 'snow'."""
-    rows: list[list[object]] = [["Roof truss T3 - member forces"], ["Checked against drawing 104"], [],
-                                ["Member", "Axial force (kN)", None, "Remarks"], [None, "dead", "snow", None]]
+    rows: list[list[object]] = [
+        ["Roof truss T3 - member forces"],
+        ["Checked against drawing 104"],
+        [],
+        ["Member", "Axial force (kN)", None, "Remarks"],
+        [None, "dead", "snow", None],
+    ]
     rows += [[m, round(_force(m, DEAD), 2), round(_force(m, SNOW), 2), ""] for m in ENDS]
     table = read_claims(_save(rows, tmp_path / "t.xlsx", merges=("B4:C4",)), MODEL)
     assert table.columns == ("dead", "snow") and table.header_unit == "kN"
@@ -89,7 +108,8 @@ def test_group_cell_merged_over_case_columns_with_the_unit(tmp_path: Path) -> No
 def test_group_over_a_second_group_and_units_row_above_the_case_names(tmp_path: Path) -> None:
     """Three header rows: 'Unfactored' group, a units row, then the case names; CSV."""
     text = "Job 2291 truss forces\n\n,Unfactored,\n,kN,kN\nBar,dead,snow\n" + "".join(
-        f"{m},{_force(m, DEAD):.2f},{_force(m, SNOW):.2f}\n" for m in ENDS)
+        f"{m},{_force(m, DEAD):.2f},{_force(m, SNOW):.2f}\n" for m in ENDS
+    )
     path = tmp_path / "t.csv"
     path.write_text(text)
     table = read_claims(path, MODEL)
@@ -109,7 +129,9 @@ def test_unit_in_each_case_cell_under_a_group(tmp_path: Path) -> None:
 @pytest.mark.parametrize("heading", ["Member (joints)", "Bar No.", "Element / nodes", "Mem."])
 def test_member_column_found_by_its_cells(tmp_path: Path, heading: str) -> None:
     """An unfamiliar heading over labels written as joint pairs: the cells name the members."""
-    text = f"{heading},dead (kN)\n" + "".join(f"{a}-{b},{_force(m, DEAD):.3f}\n" for m, (a, b) in ENDS.items())
+    text = f"{heading},dead (kN)\n" + "".join(
+        f"{a}-{b},{_force(m, DEAD):.3f}\n" for m, (a, b) in ENDS.items()
+    )
     path = tmp_path / "t.csv"
     path.write_text(text)
     table = read_claims(path, MODEL)
@@ -120,7 +142,9 @@ def test_member_column_found_by_its_cells(tmp_path: Path, heading: str) -> None:
 def test_members_numbered_with_from_and_to_joints(tmp_path: Path) -> None:
     """'No.' counts 1...n (not the model's ids); the From/To joints name each member."""
     text = "No.,From,To,dead (kN)\n" + "".join(
-        f"{k},{b},{a},{_force(m, DEAD):.2f}\n" for k, (m, (a, b)) in enumerate(ENDS.items(), start=1))
+        f"{k},{b},{a},{_force(m, DEAD):.2f}\n"
+        for k, (m, (a, b)) in enumerate(ENDS.items(), start=1)
+    )
     path = tmp_path / "t.csv"
     path.write_text(text)
     table = read_claims(path, MODEL)
@@ -164,7 +188,9 @@ def test_signs_and_letters_together_in_a_compression_positive_table(tmp_path: Pa
     path = tmp_path / "t.csv"
     path.write_text(_compression_positive_rows())
     table = read_claims(path, MODEL)
-    assert not table.sign_conflicts and _by(table)[("M1", "dead")] == pytest.approx(DEAD / 2, rel=REL)
+    assert not table.sign_conflicts and _by(table)[("M1", "dead")] == pytest.approx(
+        DEAD / 2, rel=REL
+    )
     _agrees(table)
 
 
@@ -175,7 +201,11 @@ def test_a_letter_against_its_sign_is_reported_on_that_member(tmp_path: Path) ->
     path.write_text(_compression_positive_rows(flip="M3").replace("\nM1,-5.00 T", "\nM1,-5.00 T"))
     table = read_claims(path, MODEL)
     [conflict] = table.sign_conflicts
-    assert (conflict.member, conflict.convention, conflict.where) == ("M3", "compression-positive", "row 4, column 'dead (kN)'")
+    assert (conflict.member, conflict.convention, conflict.where) == (
+        "M3",
+        "compression-positive",
+        "row 4, column 'dead (kN)'",
+    )
     review = compare_claims(analyse(MODEL), table)
     flips = [f for f in review.findings if f.kind == "sign-flip" and f.members == ("M3",)]
     assert flips and flips[0].locations == ("row 4, column 'dead (kN)'",)

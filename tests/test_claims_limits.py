@@ -23,7 +23,13 @@ MODEL = build_model(
     {
         "units": {"length": "m", "force": "kN"},
         "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
-        "members": {"AB": ["A", "B"], "BC": ["B", "C"], "AD": ["A", "D"], "BD": ["B", "D"], "CD": ["C", "D"]},
+        "members": {
+            "AB": ["A", "B"],
+            "BC": ["B", "C"],
+            "AD": ["A", "D"],
+            "BD": ["B", "D"],
+            "CD": ["C", "D"],
+        },
         "supports": {"A": ["x", "y"], "C": ["y"]},
         "loads": {"dead": {"D": [0.0, -10.0]}},
     },
@@ -59,7 +65,9 @@ def _patched_workbook(tmp_path: Path, rows: list[list[object]], old: bytes, new:
 
 def test_xlsx_number_beyond_double_range_is_refused_at_its_cell(tmp_path: Path) -> None:
     """A cell holding 1e400 (infinity once read) is bad input at B3, never a claim that agrees."""
-    path = _patched_workbook(tmp_path, [["Member", "dead"], ["AB", 1.5], ["BC", 2.25]], b"<v>2.25</v>", b"<v>1e400</v>")
+    path = _patched_workbook(
+        tmp_path, [["Member", "dead"], ["AB", 1.5], ["BC", 2.25]], b"<v>2.25</v>", b"<v>1e400</v>"
+    )
     message = _refusal(path)
     assert "cell B3" in message and "out of range" in message
 
@@ -74,11 +82,15 @@ def test_80_kb_force_cell_is_refused_and_quoted_short(tmp_path: Path) -> None:
     assert len(message) < SHORT_MESSAGE and cell[:MAX_QUOTED_CHARS] in message
 
 
-@pytest.mark.parametrize("label", ["R" + " " * 80_000 + "x", "A" * 40_000 + "-B", "r" + "_" * 80_000], ids=["spaces", "letters", "separators"])
+@pytest.mark.parametrize(
+    "label",
+    ["R" + " " * 80_000 + "x", "A" * 40_000 + "-B", "r" + "_" * 80_000],
+    ids=["spaces", "letters", "separators"],
+)
 def test_80_kb_label_is_refused_and_quoted_short(tmp_path: Path, label: str) -> None:
     """Overlong labels (reaction and joint-pair patterns' worst cases) are refused, cut short."""
     path = tmp_path / "claims.csv"
-    path.write_text(f"Member,dead\nAB,1\n\"{label}\",2\n")
+    path.write_text(f'Member,dead\nAB,1\n"{label}",2\n')
     message = _refusal(path)
     assert "row 3, column 'Member'" in message and f"{len(label):,} characters" in message
     assert len(message) < SHORT_MESSAGE
@@ -95,7 +107,7 @@ def test_40_kb_header_is_a_note_and_is_not_echoed(tmp_path: Path) -> None:
 def test_control_characters_in_a_label_are_refused_and_shown_escaped(tmp_path: Path) -> None:
     """An escape sequence in a label never reaches the terminal: refused, shown as \\x1b."""
     path = tmp_path / "claims.csv"
-    path.write_text("Member,dead\nAB,1\n\"B\x1b[31mC\",2\n")
+    path.write_text('Member,dead\nAB,1\n"B\x1b[31mC",2\n')
     message = _refusal(path)
     assert "row 3" in message and "\\x1b[31m" in message and "\x1b" not in message
 
@@ -113,7 +125,11 @@ def test_workbook_cell_in_the_last_column_is_refused_before_reading(tmp_path: Pa
     book.save(path)
     assert 16_384 > MAX_COLUMNS
     message = _refusal(path)
-    assert "sheet 'Forces'" in message and "XFD" in message and f"limit {MAX_COLUMNS} columns" in message
+    assert (
+        "sheet 'Forces'" in message
+        and "XFD" in message
+        and f"limit {MAX_COLUMNS} columns" in message
+    )
 
 
 def test_workbook_with_a_million_rows_is_refused_before_reading(tmp_path: Path) -> None:
@@ -147,11 +163,15 @@ def test_encrypted_workbook_is_named_as_encrypted(tmp_path: Path) -> None:
     message = _refusal(path)
     assert "encrypted" in message and "legacy" not in message
     case = tmp_path / "case.toml"
-    case.write_text('[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [3.0, 0.0]\nC = [1.5, 2.0]\n'
-                    '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\nA = ["x", "y"]\nB = ["y"]\n'
-                    '[loads.dead]\nC = [0.0, -10.0]\n')
+    case.write_text(
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [3.0, 0.0]\nC = [1.5, 2.0]\n'
+        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\nA = ["x", "y"]\nB = ["y"]\n'
+        "[loads.dead]\nC = [0.0, -10.0]\n"
+    )
     from click.testing import CliRunner
 
     result = CliRunner().invoke(main, ["check", str(case), "--claims", str(path)])
-    assert result.exit_code == 2 and "encrypted" in result.stderr and "Traceback" not in result.output
+    assert (
+        result.exit_code == 2 and "encrypted" in result.stderr and "Traceback" not in result.output
+    )
     assert path.read_bytes() == _encrypted_container()  # never modified

@@ -29,7 +29,13 @@ REL = 1e-9
 def _members(count: int) -> dict[str, tuple[str, str]]:
     """A chain of `count` triangles: bottom joints Bk, top joints Tk (an invented Warren-like
     layout); only the first triangle's forces are checked against the closed form."""
-    return {"M1": ("A", "B"), "M2": ("B", "C"), "M3": ("A", "D"), "M4": ("B", "D"), "M5": ("C", "D")}
+    return {
+        "M1": ("A", "B"),
+        "M2": ("B", "C"),
+        "M3": ("A", "D"),
+        "M4": ("B", "D"),
+        "M5": ("C", "D"),
+    }
 
 
 MODEL = build_model(
@@ -45,7 +51,13 @@ MODEL = build_model(
 
 
 def _force(member: str, load: float) -> float:
-    return {"M1": load / 2, "M2": load / 2, "M3": -load / math.sqrt(2), "M4": 0.0, "M5": -load / math.sqrt(2)}[member]
+    return {
+        "M1": load / 2,
+        "M2": load / 2,
+        "M3": -load / math.sqrt(2),
+        "M4": 0.0,
+        "M5": -load / math.sqrt(2),
+    }[member]
 
 
 def _page(pdf: FPDF, lines: list[list[str]], xs: list[float], *, y: float = 40.0) -> None:
@@ -88,7 +100,10 @@ def test_table_continued_over_pages_under_a_repeated_header(tmp_path: Path) -> N
     _page(pdf, [header, *_rows(["M1", "M2", "M3"])], [20, 60, 100])
     _page(pdf, [header, *_rows(["M4", "M5"])], [20, 60, 100])
     table = read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
-    assert sorted({v.member for v in table.values}) == ["M1", "M2", "M3", "M4", "M5"] and not table.unmatched
+    assert (
+        sorted({v.member for v in table.values}) == ["M1", "M2", "M3", "M4", "M5"]
+        and not table.unmatched
+    )
     m5 = next(v for v in table.values if v.member == "M5" and v.column == "dead")
     assert m5.where.startswith("page 2 row ") and m5.where.endswith("column 'dead (kN)'")
     assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
@@ -100,7 +115,9 @@ def test_landscape_page_with_two_load_cases_side_by_side_as_tc(tmp_path: Path) -
     lines = [["Member", "dead (kN)", "T/C", "snow (kN)", "T/C"]]
     for m in _members(5):
         d, s = _force(m, DEAD), _force(m, SNOW)
-        lines.append([m, f"{abs(d):.2f}", "C" if d < 0 else "T", f"{abs(s):.2f}", "C" if s < 0 else "T"])
+        lines.append(
+            [m, f"{abs(d):.2f}", "C" if d < 0 else "T", f"{abs(s):.2f}", "C" if s < 0 else "T"]
+        )
     _page(pdf, lines, [20, 70, 110, 150, 200])
     table = read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
     got = {(v.member, v.column): v.value for v in table.values}
@@ -115,7 +132,9 @@ def test_pages_option_limits_the_search(tmp_path: Path) -> None:
     _page(pdf, [["Member", "dead (kN)", "snow (kN)"], *_rows(list(_members(5)))], [20, 60, 100])
     path = _write(pdf, tmp_path / "calc.pdf")
     table = read_claims(path, MODEL, pages="2")
-    assert table.sheet == "page 2" and {v.where.split(",")[0].split(" row")[0] for v in table.values} == {"page 2"}
+    assert table.sheet == "page 2" and {
+        v.where.split(",")[0].split(" row")[0] for v in table.values
+    } == {"page 2"}
     with pytest.raises(InputError) as info:
         read_claims(path, MODEL, pages="3-5")
     assert "the PDF has pages 1-2" in str(info.value)
@@ -129,7 +148,11 @@ def test_a_page_without_text_is_refused_with_a_sentence(tmp_path: Path) -> None:
         pdf.rect(20, 20 + 8 * k, 150, 6, style="F")
     with pytest.raises(InputError) as info:
         read_claims(_write(pdf, tmp_path / "scan.pdf"), MODEL)
-    assert "calc.pdf" not in str(info.value) and "holds no text" in str(info.value) and "OCR" in str(info.value)
+    assert (
+        "calc.pdf" not in str(info.value)
+        and "holds no text" in str(info.value)
+        and "OCR" in str(info.value)
+    )
 
 
 def test_thousands_of_pages_are_refused_without_pages(tmp_path: Path) -> None:

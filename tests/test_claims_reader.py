@@ -243,7 +243,9 @@ def test_reaction_label_matching(tmp_path: Path, label: str, reaction: tuple[str
     assert (value.member, value.reaction, value.value) == (None, reaction, -5.0)
 
 
-def test_reaction_in_an_unrestrained_direction_is_read_and_elsewhere_unknown(tmp_path: Path) -> None:
+def test_reaction_in_an_unrestrained_direction_is_read_and_elsewhere_unknown(
+    tmp_path: Path,
+) -> None:
     """C is a roller in y only: 'RC.x' is read as a claim on C's x direction (the comparison says
     C has no reaction there); B carries no support at all, so 'RB.x' names nothing and gets the
     real reaction labels as suggestions."""
@@ -251,7 +253,11 @@ def test_reaction_in_an_unrestrained_direction_is_read_and_elsewhere_unknown(tmp
     table = read_claims(path, MODEL)
     assert [(v.reaction, v.value) for v in table.values] == [(("C", "x"), 0.0)]
     [unmatched] = table.unmatched
-    assert unmatched.label == "RB.x" and unmatched.reason == "unknown" and unmatched.candidates == ("A.x",)
+    assert (
+        unmatched.label == "RB.x"
+        and unmatched.reason == "unknown"
+        and unmatched.candidates == ("A.x",)
+    )
 
 
 def test_reaction_with_tc_suffix_is_refused(tmp_path: Path) -> None:
@@ -619,8 +625,11 @@ def test_xlsx_two_sheets_naming_members_ask_which(tmp_path: Path) -> None:
     """Two sheets both name members beside numbers: the reader asks, naming both, and reads none."""
     path = _workbook(
         tmp_path / "claims.xlsx",
-        {"Notes": [["Checked by", "someone"]], "Issue A": [["Member", "dead"], ["AB", 2]],
-         "Issue B": [["Member", "dead"], ["B-C", 3]]},
+        {
+            "Notes": [["Checked by", "someone"]],
+            "Issue A": [["Member", "dead"], ["AB", 2]],
+            "Issue B": [["Member", "dead"], ["B-C", 3]],
+        },
     )
     message = _errors(path)
     assert "'Issue A', 'Issue B'" in message and "'Notes'" not in message and "--sheet" in message
@@ -766,7 +775,9 @@ PLAIN_AND_MESSY = [
 
 
 @pytest.mark.parametrize("text", PLAIN_AND_MESSY, ids=range(len(PLAIN_AND_MESSY)))
-def test_direct_row_reading_matches_the_general_reader(tmp_path: Path, monkeypatch, text: str) -> None:
+def test_direct_row_reading_matches_the_general_reader(
+    tmp_path: Path, monkeypatch, text: str
+) -> None:
     import verify.io.claims as claims_module
 
     path = _csv(tmp_path, text)
@@ -786,14 +797,25 @@ def test_direct_row_reading_matches_the_general_reader(tmp_path: Path, monkeypat
 def test_direct_row_reading_matches_for_excel_numbers(tmp_path: Path, monkeypatch) -> None:
     import verify.io.claims as claims_module
 
-    path = _workbook(tmp_path / "claims.xlsx", {"Forces": [["Member", "dead (kN)", "snow (kN)"],
-                                                           ["AB", 12.5, "3 C"], ["BC", -1.0, None], ["XY", 2.0, 1.0]]})
+    path = _workbook(
+        tmp_path / "claims.xlsx",
+        {
+            "Forces": [
+                ["Member", "dead (kN)", "snow (kN)"],
+                ["AB", 12.5, "3 C"],
+                ["BC", -1.0, None],
+                ["XY", 2.0, 1.0],
+            ]
+        },
+    )
     direct = read_claims(path, MODEL)
     monkeypatch.setattr(claims_module, "FAST_ROWS", False)
     general = read_claims(path, MODEL)
     assert (direct.values, direct.unmatched) == (general.values, general.unmatched)
-    assert [v.where for v in direct.values][:2] == ["sheet 'Forces' cell B2, column 'dead (kN)'",
-                                                    "sheet 'Forces' cell C2, column 'snow (kN)'"]
+    assert [v.where for v in direct.values][:2] == [
+        "sheet 'Forces' cell B2, column 'dead (kN)'",
+        "sheet 'Forces' cell C2, column 'snow (kN)'",
+    ]
 
 
 def test_a_lone_dash_is_no_claim(tmp_path: Path) -> None:
@@ -825,6 +847,11 @@ def test_xlsx_number_shown_with_fixed_decimals_keeps_them(tmp_path: Path) -> Non
     path = tmp_path / "claims.xlsx"
     book.save(path)
     values = read_claims(path, MODEL).values
-    assert [(v.member, v.value, v.text) for v in values] == [("AB", 10.0, "10.00"), ("BC", 2.5, "2.5")]
-    assert [_format_decimals(f) for f in ("General", "0.00", "#,##0.000", "0.0;(0.0)", "#,##0", '"kN" 0.00', "0%")] == \
-        [None, 2, 3, 1, 0, 2, None]
+    assert [(v.member, v.value, v.text) for v in values] == [
+        ("AB", 10.0, "10.00"),
+        ("BC", 2.5, "2.5"),
+    ]
+    assert [
+        _format_decimals(f)
+        for f in ("General", "0.00", "#,##0.000", "0.0;(0.0)", "#,##0", '"kN" 0.00', "0%")
+    ] == [None, 2, 3, 1, 0, 2, None]

@@ -28,7 +28,9 @@ def _to_step(value: float, step: float) -> float:
 
 def _write(tmp_path: Path, values: dict[str, float], decimals: int) -> Path:
     path = tmp_path / "claims.csv"
-    path.write_text("Member,dead (kN)\n" + "".join(f"{m},{v:.{decimals}f}\n" for m, v in values.items()))
+    path.write_text(
+        "Member,dead (kN)\n" + "".join(f"{m},{v:.{decimals}f}\n" for m, v in values.items())
+    )
     return path
 
 
@@ -43,11 +45,17 @@ def test_an_honest_half_kilonewton_table_agrees_and_says_why(tmp_path: Path) -> 
     """Rounded to 0.5 kN, several claims are off by more than the decimals' 0.05 allowance and
     more than 1 %, yet the table agrees; the tolerance line names the step."""
     rounded = {m: _to_step(v, 0.5) for m, v in TRUE.items()}
-    off = [m for m, v in TRUE.items() if abs(rounded[m] - v) > max(0.05, 0.01 * abs(v), 1e-3 * max(map(abs, TRUE.values())))]
+    off = [
+        m
+        for m, v in TRUE.items()
+        if abs(rounded[m] - v) > max(0.05, 0.01 * abs(v), 1e-3 * max(map(abs, TRUE.values())))
+    ]
     assert off, "the test table must include claims only the step explains"
     review = compare_claims(ANALYSIS, read_claims(_write(tmp_path, rounded, 1), ANALYSIS.model))
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
-    tolerance_line = next(line for line in render_review(review).splitlines() if line.startswith("Tolerance:"))
+    tolerance_line = next(
+        line for line in render_review(review).splitlines() if line.startswith("Tolerance:")
+    )
     assert "column 'dead' written to steps of 0.5 kN, so +-0.25 kN allowed" in tolerance_line
 
 

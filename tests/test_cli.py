@@ -29,7 +29,15 @@ def test_stability_json_has_structure_contract():
     code, out, _ = run("stability", FOOTBRIDGE, "--json")
     assert code == 0
     structure = json.loads(out)["structure"]
-    for key in ("dim", "joints", "members", "reactions", "mechanisms", "self_stress", "classification"):
+    for key in (
+        "dim",
+        "joints",
+        "members",
+        "reactions",
+        "mechanisms",
+        "self_stress",
+        "classification",
+    ):
         assert key in structure
     assert structure["classification"] == "stable-determinate"
 
@@ -42,7 +50,9 @@ def test_solve_json_has_every_load_column():
     assert set(data["reactions"]["dead"]) == {"L0", "L6"}
     # Superposition: ULS-1 = 1.35 dead + 1.5 crowd (the case file's combination).
     for member, value in data["forces"]["ULS-1"].items():
-        assert value == pytest.approx(1.35 * data["forces"]["dead"][member] + 1.5 * data["forces"]["crowd"][member], abs=1e-9)
+        assert value == pytest.approx(
+            1.35 * data["forces"]["dead"][member] + 1.5 * data["forces"]["crowd"][member], abs=1e-9
+        )
 
 
 def test_solve_show_joints_prints_the_hand_calc():
@@ -59,7 +69,13 @@ def test_check_json_contract_and_exit_status():
     row = data["members"][0]
     assert set(row) >= {"id", "case", "claimed", "joints", "sections", "status"}
     found = {f["kind"] for f in data["findings"]}
-    assert {"sign-flip", "value-mismatch", "unit-scale", "swapped-labels", "zero-force-claimed"} <= found
+    assert {
+        "sign-flip",
+        "value-mismatch",
+        "unit-scale",
+        "swapped-labels",
+        "zero-force-claimed",
+    } <= found
 
 
 def test_demo_runs_from_package_data():
@@ -71,28 +87,41 @@ def test_csv_output_is_atomic_and_refuses_inputs(tmp_path):
     target = tmp_path / "table.csv"
     code, _, _ = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--csv", target)
     assert code == 1 and target.read_text().startswith("id,kind,case")
-    code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--csv", FOOTBRIDGE_CLAIMS)
+    code, _, err = run(
+        "check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--csv", FOOTBRIDGE_CLAIMS
+    )
     assert code == 2 and "input file" in err
 
 
 def test_unstable_truss_exits_3(tmp_path):
     case = tmp_path / "sway.toml"
-    case.write_text('[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [1, 0]\nC = [1, 1]\nD = [0, 1]\n'
-                    '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
-                    '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.wind]\nC = [1.0, 0.0]\n')
+    case.write_text(
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [1, 0]\nC = [1, 1]\nD = [0, 1]\n'
+        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
+        '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.wind]\nC = [1.0, 0.0]\n'
+    )
     code, out, _ = run("stability", case)
     assert code == 3 and "unstable" in out and "mechanism 1" in out
     code, _, _ = run("solve", case)
     assert code == 3
 
 
-@pytest.mark.parametrize("args, fragment", [
-    (("stability", "no-such-file.toml"), "file not found"),
-    (("check", str(FOOTBRIDGE), "--claims", "missing.csv"), "missing.csv"),
-    (("check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE_CLAIMS), "--unit", "t"), "ambiguous"),
-    (("check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE_CLAIMS), "--sign", "up"), "Invalid value"),
-    (("solve", str(FOOTBRIDGE), "--case", "dead load"), "Did you mean"),
-])
+@pytest.mark.parametrize(
+    "args, fragment",
+    [
+        (("stability", "no-such-file.toml"), "file not found"),
+        (("check", str(FOOTBRIDGE), "--claims", "missing.csv"), "missing.csv"),
+        (
+            ("check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE_CLAIMS), "--unit", "t"),
+            "ambiguous",
+        ),
+        (
+            ("check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE_CLAIMS), "--sign", "up"),
+            "Invalid value",
+        ),
+        (("solve", str(FOOTBRIDGE), "--case", "dead load"), "Did you mean"),
+    ],
+)
 def test_bad_input_is_one_message_exit_2(args, fragment):
     code, out, err = run(*args)
     assert code == 2
@@ -102,8 +131,10 @@ def test_bad_input_is_one_message_exit_2(args, fragment):
 
 def test_bad_case_file_lists_every_problem(tmp_path):
     case = tmp_path / "bad.toml"
-    case.write_text('[units]\nlength = "m"\nforce = "ton"\n[joints]\nA = [0, 0]\nB = [1, 0]\n'
-                    '[members]\nAB = ["A", "Q"]\n[supports]\nA = ["x", "y"]\n[loads.dead]\nB = [0, "12,5"]\n')
+    case.write_text(
+        '[units]\nlength = "m"\nforce = "ton"\n[joints]\nA = [0, 0]\nB = [1, 0]\n'
+        '[members]\nAB = ["A", "Q"]\n[supports]\nA = ["x", "y"]\n[loads.dead]\nB = [0, "12,5"]\n'
+    )
     code, _, err = run("solve", case)
     assert code == 2
     assert "ambiguous" in err and "'Q'" in err and "12,5" in err
@@ -124,12 +155,15 @@ def test_cut_that_does_not_split_the_truss_is_explained():
     assert code == 2 and "do not form a section" in err
 
 
-@pytest.mark.parametrize("content, fragment", [
-    ("", "empty"),
-    ("Member,Dead (kN)\nL0-L1,twelve\n", "twelve"),
-    ("Member,Dead (kN)\nL0-L1,12.0\nL0-L1,13.0\n", "L0"),
-    ("Member,Dead (kN)\nL0-L1,nan\n", "nan"),
-])
+@pytest.mark.parametrize(
+    "content, fragment",
+    [
+        ("", "empty"),
+        ("Member,Dead (kN)\nL0-L1,twelve\n", "twelve"),
+        ("Member,Dead (kN)\nL0-L1,12.0\nL0-L1,13.0\n", "L0"),
+        ("Member,Dead (kN)\nL0-L1,nan\n", "nan"),
+    ],
+)
 def test_malformed_claims_file_is_one_message_exit_2(tmp_path, content, fragment):
     claims = tmp_path / "claims.csv"
     claims.write_text(content)
@@ -143,11 +177,13 @@ def test_malformed_claims_file_is_one_message_exit_2(tmp_path, content, fragment
 def test_csv_output_neutralises_formula_labels(tmp_path):
     """A label such as '=cmd()' must not become a spreadsheet formula (OWASP CSV injection, common practice)."""
     case = tmp_path / "case.toml"
-    case.write_text('[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [4, 0]\nC = [2, 3]\n'
-                    '[members]\n"=cmd()" = ["A", "B"]\nBC = ["B", "C"]\nCA = ["C", "A"]\n'
-                    '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads."+dead"]\nC = [0, -10]\n')
+    case.write_text(
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [4, 0]\nC = [2, 3]\n'
+        '[members]\n"=cmd()" = ["A", "B"]\nBC = ["B", "C"]\nCA = ["C", "A"]\n'
+        '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads."+dead"]\nC = [0, -10]\n'
+    )
     claims = tmp_path / "claims.csv"
-    claims.write_text('Member,+dead (kN)\n=cmd(),3.333 T\nBC,6.009 C\nCA,6.009 C\n')
+    claims.write_text("Member,+dead (kN)\n=cmd(),3.333 T\nBC,6.009 C\nCA,6.009 C\n")
     out_csv = tmp_path / "out.csv"
     code, _, err = run("check", case, "--claims", claims, "--csv", out_csv)
     text = out_csv.read_text()
@@ -164,12 +200,20 @@ def test_packaged_demo_is_the_bundled_case():
     """The demo ships as package data; it must stay identical to cases/canal-footbridge."""
     data = ROOT / "verify" / "data" / "demo"
     for name in ("case.toml", "claims.csv"):
-        assert (data / name).read_bytes() == (ROOT / "cases" / "canal-footbridge" / name).read_bytes()
+        assert (data / name).read_bytes() == (
+            ROOT / "cases" / "canal-footbridge" / name
+        ).read_bytes()
 
 
 def _console(*args: str) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "verify", *map(str, args)], capture_output=True, text=True,
-                          cwd=ROOT, encoding="utf-8", timeout=120)
+    return subprocess.run(
+        [sys.executable, "-m", "verify", *map(str, args)],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        encoding="utf-8",
+        timeout=120,
+    )
 
 
 def test_console_entry_delivers_all_output_and_the_exit_status():
@@ -179,9 +223,15 @@ def test_console_entry_delivers_all_output_and_the_exit_status():
     assert solved.returncode == 0
     assert json.loads(solved.stdout) == json.loads(run("solve", FOOTBRIDGE, "--json")[1])
     checked = _console("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS)
-    assert checked.returncode == 1 and checked.stdout.rstrip().splitlines()[-1].startswith("Caution:")
+    assert checked.returncode == 1 and checked.stdout.rstrip().splitlines()[-1].startswith(
+        "Caution:"
+    )
     missing = _console("solve", ROOT / "no-such-case.toml")
-    assert missing.returncode == 2 and "file not found" in missing.stderr and "Traceback" not in missing.stderr
+    assert (
+        missing.returncode == 2
+        and "file not found" in missing.stderr
+        and "Traceback" not in missing.stderr
+    )
 
 
 def test_csv_table_ends_with_the_caution_and_the_equal_ea_assumption(tmp_path):
@@ -194,14 +244,30 @@ def test_csv_table_ends_with_the_caution_and_the_equal_ea_assumption(tmp_path):
     # The bundled gantry gives A and E; without them the truss needs --assume-equal-ea.
     text = (gantry / "case.toml").read_text()
     text = re.sub(r"\{ ends = (\[[^\]]*\]), A = [0-9.]+, E = [0-9.]+ \}", r"\1", text)
-    case.write_text("\n".join(line for line in text.splitlines() if not line.startswith(("area", "modulus", "[stiffness]", "A =", "E ="))) + "\n")
+    case.write_text(
+        "\n".join(
+            line
+            for line in text.splitlines()
+            if not line.startswith(("area", "modulus", "[stiffness]", "A =", "E ="))
+        )
+        + "\n"
+    )
     out_csv = tmp_path / "out.csv"
-    code, _, err = run("check", case, "--claims", gantry / "claims.csv", "--csv", out_csv, "--assume-equal-ea", "2e5")
+    code, _, err = run(
+        "check",
+        case,
+        "--claims",
+        gantry / "claims.csv",
+        "--csv",
+        out_csv,
+        "--assume-equal-ea",
+        "2e5",
+    )
     assert code in (0, 1), err
     rows = list(csv_module.reader(out_csv.read_text().splitlines()))
     blank = rows.index([])
     assert rows[0][0] == "id" and all(len(r) == len(rows[0]) for r in rows[:blank])
-    tail = {r[0]: r[1] for r in rows[blank + 1:]}
+    tail = {r[0]: r[1] for r in rows[blank + 1 :]}
     assert "EQUAL EA ASSUMED" in tail["note"] and "200000, in kN" in tail["note"]
     assert "idealised pin-jointed" in tail["caution"] and "qualified" in tail["caution"]
 
@@ -228,7 +294,12 @@ def test_case_argument_mistakes_get_a_plain_answer():
     """A claims table passed as CASE is named as such; a case folder means its case.toml."""
     for table in (FOOTBRIDGE_CLAIMS, ROOT / "cases" / "mezzanine-roof" / "claims.xlsx"):
         code, _, err = run("solve", table)
-        assert code == 2 and "looks like a table" in err and "--claims" in err and "Traceback" not in err
+        assert (
+            code == 2
+            and "looks like a table" in err
+            and "--claims" in err
+            and "Traceback" not in err
+        )
     code, out, _ = run("stability", FOOTBRIDGE.parent)
     assert code == 0 and "21 members" in out
     code, _, err = run("stability", ROOT / "cases")
@@ -246,22 +317,39 @@ def test_report_to_an_unwritable_folder_is_one_plain_message(tmp_path, monkeypat
         raise PermissionError(errno.EACCES, "Permission denied")
 
     monkeypatch.setattr(atomic.tempfile, "mkstemp", refuse)
-    code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--report", tmp_path / "review.html")
-    assert code == 2 and f"cannot write in the folder {tmp_path} (Permission denied)" in err and ".tmp" not in err
+    code, _, err = run(
+        "check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--report", tmp_path / "review.html"
+    )
+    assert (
+        code == 2
+        and f"cannot write in the folder {tmp_path} (Permission denied)" in err
+        and ".tmp" not in err
+    )
     assert list(tmp_path.iterdir()) == []
 
 
 def test_report_into_a_missing_folder_is_refused(tmp_path):
-    code, _, err = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE_CLAIMS, "--report", tmp_path / "nope" / "review.md")
+    code, _, err = run(
+        "check",
+        FOOTBRIDGE,
+        "--claims",
+        FOOTBRIDGE_CLAIMS,
+        "--report",
+        tmp_path / "nope" / "review.md",
+    )
     assert code == 2 and "does not exist" in err
 
 
 def test_cut_accepts_member_labels_written_as_in_claims_tables():
     """'u2u3', 'U2-L3' and 'L2 L3' name U2U3, U2L3 and L2L3, as they would in a claims table;
     the Ritter sheet for U2U3 is the same as with the exact ids."""
-    code, loose, err = run("cut", FOOTBRIDGE, "--members", "u2u3,U2-L3,L2 L3", "--case", "dead", "--decimals-only")
+    code, loose, err = run(
+        "cut", FOOTBRIDGE, "--members", "u2u3,U2-L3,L2 L3", "--case", "dead", "--decimals-only"
+    )
     assert code == 0, err
-    code, exact, _ = run("cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead", "--decimals-only")
+    code, exact, _ = run(
+        "cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead", "--decimals-only"
+    )
     assert loose == exact and "Section for member U2U3" in exact
 
 
@@ -272,8 +360,15 @@ def test_output_cut_short_by_the_reader_is_not_discrepancies(tmp_path):
     from trussgen import pratt, write_case
 
     case = write_case(tmp_path, pratt(400))
-    pipeline = subprocess.run(f'"{sys.executable}" -m verify solve "{case}" --show joints | head -1; exit "${{PIPESTATUS[0]}}"',
-                              shell=True, executable="/bin/bash", capture_output=True, text=True, cwd=ROOT, timeout=120)
+    pipeline = subprocess.run(
+        f'"{sys.executable}" -m verify solve "{case}" --show joints | head -1; exit "${{PIPESTATUS[0]}}"',
+        shell=True,
+        executable="/bin/bash",
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        timeout=120,
+    )
     assert pipeline.stdout.startswith("Truss:")
     assert pipeline.returncode == 141 and "Traceback" not in pipeline.stderr
 
@@ -281,14 +376,24 @@ def test_output_cut_short_by_the_reader_is_not_discrepancies(tmp_path):
 def _entry(code: str) -> subprocess.CompletedProcess[str]:
     """Run the console entry in a fresh interpreter after `code` (which may patch the pipeline)."""
     script = f"import verify.cli as cli\n{code}\ncli.run(['solve', {str(FOOTBRIDGE)!r}])\n"
-    return subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, cwd=ROOT, timeout=120)
+    return subprocess.run(
+        [sys.executable, "-c", script], capture_output=True, text=True, cwd=ROOT, timeout=120
+    )
 
 
 @pytest.mark.parametrize(
     ("patch", "status", "says"),
     [
-        ("def stop(*a, **k):\n    raise KeyboardInterrupt\ncli.analyse = stop", 130, "Interrupted."),
-        ("def fault(*a, **k):\n    raise ZeroDivisionError('planted')\ncli.analyse = fault", 70, "internal error"),
+        (
+            "def stop(*a, **k):\n    raise KeyboardInterrupt\ncli.analyse = stop",
+            130,
+            "Interrupted.",
+        ),
+        (
+            "def fault(*a, **k):\n    raise ZeroDivisionError('planted')\ncli.analyse = fault",
+            70,
+            "internal error",
+        ),
     ],
     ids=["interrupted", "fault in the tool"],
 )
@@ -302,13 +407,18 @@ def test_console_entry_status_is_never_1_for_what_is_not_a_discrepancy(patch, st
 def test_console_entry_on_a_full_output_says_so():
     """Writing the result fails (a full disk): one sentence and status 2, no traceback. The full
     output is simulated (every write to stdout fails with ENOSPC), as not every system has /dev/full."""
-    patch = ("import errno\nimport click\nprint_text = click.echo\n"
-             "def echo(message=None, file=None, nl=True, err=False, color=None):\n"
-             "    if not err:\n        raise OSError(errno.ENOSPC, 'No space left on device')\n"
-             "    return print_text(message, file=file, nl=nl, err=err, color=color)\n"
-             "click.echo = echo")
+    patch = (
+        "import errno\nimport click\nprint_text = click.echo\n"
+        "def echo(message=None, file=None, nl=True, err=False, color=None):\n"
+        "    if not err:\n        raise OSError(errno.ENOSPC, 'No space left on device')\n"
+        "    return print_text(message, file=file, nl=nl, err=err, color=color)\n"
+        "click.echo = echo"
+    )
     result = _entry(patch)
-    assert result.returncode == 2 and "cannot write the output (No space left on device)" in result.stderr
+    assert (
+        result.returncode == 2
+        and "cannot write the output (No space left on device)" in result.stderr
+    )
     assert "Traceback" not in result.stderr
 
 
@@ -317,20 +427,42 @@ def test_convention_contradicting_the_stated_sign_says_whose_it_is(tmp_path):
     the report must not present the data's convention as the one stated."""
     roof = ROOT / "cases" / "mezzanine-roof"
     report = tmp_path / "review.md"
-    code, out, _ = run("check", roof, "--claims", roof / "claims.xlsx", "--sheet", "Member forces",
-                       "--sign", "tension-positive", "--report", report)
+    code, out, _ = run(
+        "check",
+        roof,
+        "--claims",
+        roof / "claims.xlsx",
+        "--sheet",
+        "Member forces",
+        "--sign",
+        "tension-positive",
+        "--report",
+        report,
+    )
     assert code == 1
     assert "Convention: compression-positive (the data's: --sign said tension-positive)" in out
-    assert "compression-positive (the data's: --sign said tension-positive)" in report.read_text(encoding="utf-8")
+    assert "compression-positive (the data's: --sign said tension-positive)" in report.read_text(
+        encoding="utf-8"
+    )
     assert "(as stated)" not in report.read_text(encoding="utf-8")
 
 
 def _gantry_without_stiffness(tmp_path: Path) -> Path:
     gantry = ROOT / "cases" / "conveyor-gantry"
-    text = re.sub(r"\{ ends = (\[[^\]]*\]), A = [0-9.]+, E = [0-9.]+ \}", r"\1", (gantry / "case.toml").read_text())
+    text = re.sub(
+        r"\{ ends = (\[[^\]]*\]), A = [0-9.]+, E = [0-9.]+ \}",
+        r"\1",
+        (gantry / "case.toml").read_text(),
+    )
     case = tmp_path / "case.toml"
-    case.write_text("\n".join(line for line in text.splitlines()
-                              if not line.startswith(("area", "modulus", "[stiffness]", "A =", "E ="))) + "\n")
+    case.write_text(
+        "\n".join(
+            line
+            for line in text.splitlines()
+            if not line.startswith(("area", "modulus", "[stiffness]", "A =", "E ="))
+        )
+        + "\n"
+    )
     return case
 
 
@@ -343,14 +475,21 @@ def test_assumed_equal_ea_never_turns_a_stiffness_difference_into_an_error(tmp_p
 
     real = api_solve(str(ROOT / "cases" / "conveyor-gantry" / "case.toml")).forces
     claims = tmp_path / "claims.csv"
-    real.rename_axis("member").reset_index()[["member", "belt", "walkway"]].to_csv(claims, index=False)
+    real.rename_axis("member").reset_index()[["member", "belt", "walkway"]].to_csv(
+        claims, index=False
+    )
     case = _gantry_without_stiffness(tmp_path)
     code, out, err = run("check", case, "--claims", claims, "--assume-equal-ea", "4.54e5")
     assert code == 0, out + err
     first = out.splitlines()[0]
-    assert first.startswith("AGREES — the claims balance at every joint") and "EQUAL EA ASSUMED (454000 kN)" in first
+    assert (
+        first.startswith("AGREES — the claims balance at every joint")
+        and "EQUAL EA ASSUMED (454000 kN)" in first
+    )
     assert "[info] stiffness-dependent" in out and "[error]" not in out
-    code, out, _ = run("check", case, "--claims", claims)  # no EA, nothing assumed: statics cannot decide
+    code, out, _ = run(
+        "check", case, "--claims", claims
+    )  # no EA, nothing assumed: statics cannot decide
     assert code == 3 and out.startswith("CANNOT VERIFY — statically indeterminate")
 
 
@@ -365,4 +504,8 @@ def test_json_commands_answer_bad_input_in_json_too(tmp_path):
     broken.write_text(FOOTBRIDGE.read_text().replace('force = "kN"', 'force = "k"'))
     code, out, _ = run("solve", broken, "--json")
     data = json.loads(out)
-    assert code == 2 and data["problems"][0]["line"] is not None and "'k'" in data["problems"][0]["message"]
+    assert (
+        code == 2
+        and data["problems"][0]["line"] is not None
+        and "'k'" in data["problems"][0]["message"]
+    )

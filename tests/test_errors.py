@@ -11,7 +11,11 @@ from verify.errors import did_you_mean
     ("name", "candidates", "hint"),
     [
         ("dead", ["Dead", "live"], " Did you mean 'Dead'?"),  # the same name in other letter case
-        ("Forces", ["Notes", "Member forces"], " Did you mean 'Member forces' or 'Notes'?"),  # contained first
+        (
+            "Forces",
+            ["Notes", "Member forces"],
+            " Did you mean 'Member forces' or 'Notes'?",
+        ),  # contained first
         ("U1U3", ["L1L2", "U1U2"], " Did you mean 'U1U2'?"),  # close spelling
         ("zz", ["a", "b"], ""),
     ],

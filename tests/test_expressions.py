@@ -23,16 +23,19 @@ RTOL = 1e-12
 HOSTILE_SECONDS = 1.0  # any refusal must come at once; a hang is the failure being guarded
 
 
-@pytest.mark.parametrize(("text", "exact"), [
-    ("4.5 * tan(30)", sympy.Rational(9, 2) / sympy.sqrt(3)),
-    ("sin(30)", sympy.Rational(1, 2)),
-    ("cos(60) + sin(90)", sympy.Rational(3, 2)),
-    ("sqrt(2) / 2", sympy.sqrt(2) / 2),
-    ("cos(45)", sympy.sqrt(2) / 2),
-    ("2 ** 0.5 * 3", 3 * sympy.sqrt(2)),
-    ("24 / 6 - 0.5", sympy.Rational(7, 2)),
-    ("-(3 - 5) ** 2", -4),
-])
+@pytest.mark.parametrize(
+    ("text", "exact"),
+    [
+        ("4.5 * tan(30)", sympy.Rational(9, 2) / sympy.sqrt(3)),
+        ("sin(30)", sympy.Rational(1, 2)),
+        ("cos(60) + sin(90)", sympy.Rational(3, 2)),
+        ("sqrt(2) / 2", sympy.sqrt(2) / 2),
+        ("cos(45)", sympy.sqrt(2) / 2),
+        ("2 ** 0.5 * 3", 3 * sympy.sqrt(2)),
+        ("24 / 6 - 0.5", sympy.Rational(7, 2)),
+        ("-(3 - 5) ** 2", -4),
+    ],
+)
 def test_exact_values_survive(text, exact):
     """Rational results and surds are kept exactly, and the float is the exact value rounded once."""
     value = evaluate(text)
@@ -46,11 +49,14 @@ def test_cos_90_is_zero_not_float_noise():
     assert evaluate("cos(90)").number == 0.0
 
 
-@pytest.mark.parametrize(("text", "expected"), [
-    ("sin(17)", math.sin(math.radians(17))),
-    ("pi * 2", 2 * math.pi),
-    ("tan(10) + 1", math.tan(math.radians(10)) + 1),
-])
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        ("sin(17)", math.sin(math.radians(17))),
+        ("pi * 2", 2 * math.pi),
+        ("tan(10) + 1", math.tan(math.radians(10)) + 1),
+    ],
+)
 def test_transcendental_results_keep_the_float_only(text, expected):
     """Where the result is neither rational nor a surd, no exact value is claimed."""
     value = evaluate(text)
@@ -62,34 +68,39 @@ def test_parameters_are_used_by_name_and_misspellings_get_a_hint():
     """Names come from [parameters]; an unknown one is refused with the closest name."""
     params = {"span": Value(24.0, sympy.Integer(24)), "depth": Value(3.0, sympy.Integer(3))}
     assert evaluate("span / 6 + depth", params).exact == 7
-    with pytest.raises(ExpressionError, match="'spn' is not defined in \\[parameters\\]. Did you mean 'span'"):
+    with pytest.raises(
+        ExpressionError, match="'spn' is not defined in \\[parameters\\]. Did you mean 'span'"
+    ):
         evaluate("spn / 6", params)
 
 
-@pytest.mark.parametrize(("text", "fragment"), [
-    ("__import__('os').system('true')", "is not accepted"),
-    ("(1).__class__", "attribute access"),
-    ("open('x')", "'open(...)' is not accepted"),
-    ("[1, 2][0]", "indexing"),
-    ("1 if 1 else 2", "if/else"),
-    ("3 ^ 2", "write ** for a power"),
-    ("7 // 2", "'//' is not accepted"),
-    ("'text'", "text in quotes"),
-    ("1, 2", "a comma"),
-    ("1 / 0", "division by zero"),
-    ("sqrt(-1)", "sqrt of a negative number"),
-    ("tan(90)", "is infinite"),
-    ("(-8) ** 0.5", "fractional power of a negative"),
-    ("sin", "is a function"),
-    ("sin(1, 2)", "takes one number"),
-    ("9 ** 9 ** 9", "exponent"),
-    ("10 ** 16 * 10 ** 16", "beyond"),
-    ("1e308 * 10", "beyond"),
-    ("1" * 400, "characters"),
-    ("(" * 150 + "1" + ")" * 49, "not arithmetic"),
-    ("1 +", "not arithmetic"),
-    ("a" * 5 + "\x00", "not arithmetic"),
-])
+@pytest.mark.parametrize(
+    ("text", "fragment"),
+    [
+        ("__import__('os').system('true')", "is not accepted"),
+        ("(1).__class__", "attribute access"),
+        ("open('x')", "'open(...)' is not accepted"),
+        ("[1, 2][0]", "indexing"),
+        ("1 if 1 else 2", "if/else"),
+        ("3 ^ 2", "write ** for a power"),
+        ("7 // 2", "'//' is not accepted"),
+        ("'text'", "text in quotes"),
+        ("1, 2", "a comma"),
+        ("1 / 0", "division by zero"),
+        ("sqrt(-1)", "sqrt of a negative number"),
+        ("tan(90)", "is infinite"),
+        ("(-8) ** 0.5", "fractional power of a negative"),
+        ("sin", "is a function"),
+        ("sin(1, 2)", "takes one number"),
+        ("9 ** 9 ** 9", "exponent"),
+        ("10 ** 16 * 10 ** 16", "beyond"),
+        ("1e308 * 10", "beyond"),
+        ("1" * 400, "characters"),
+        ("(" * 150 + "1" + ")" * 49, "not arithmetic"),
+        ("1 +", "not arithmetic"),
+        ("a" * 5 + "\x00", "not arithmetic"),
+    ],
+)
 def test_refused_forms_say_the_rule_and_return_at_once(text, fragment):
     """Every refused form names its rule, and hostile ones cannot run code or hang the reader."""
     start = time.perf_counter()

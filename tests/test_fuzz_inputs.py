@@ -32,15 +32,18 @@ CASES = ROOT / "cases"
 LONG = os.environ.get("TRUSS_VERIFY_FUZZ") == "long"
 EXAMPLES = int(os.environ.get("TRUSS_VERIFY_FUZZ_EXAMPLES", "1000" if LONG else "120"))
 FUZZ = settings(
-    max_examples=EXAMPLES, deadline=None, derandomize=not LONG, database=None,
+    max_examples=EXAMPLES,
+    deadline=None,
+    derandomize=not LONG,
+    database=None,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large],
 )
 
 # A case with its joints, members and loads in CSV tables, so that the tables are fuzzed too.
 TABLED = {
     "case.toml": 'title = "triangle"\njoints = "joints.csv"\nmembers = "members.csv"\nloads = "loads.csv"\n'
-                 '[units]\nlength = "m"\nforce = "kN"\n[supports]\nA = ["x", "y"]\nB = ["y"]\n'
-                 '[combinations]\n"ULS" = { dead = 1.35 }\n',
+    '[units]\nlength = "m"\nforce = "kN"\n[supports]\nA = ["x", "y"]\nB = ["y"]\n'
+    '[combinations]\n"ULS" = { dead = 1.35 }\n',
     "joints.csv": "id,x,y\nA,0,0\nB,4,0\nC,2,2\n",
     "members.csv": "id,start,end\nAB,A,B\nAC,A,C\nBC,B,C\n",
     "loads.csv": "case,joint,fx,fy\ndead,C,0,-10\n",
@@ -51,15 +54,42 @@ TABLED = {
 def _bundles() -> dict[str, dict[str, bytes]]:
     found: dict[str, dict[str, bytes]] = {}
     for name in ("canal-footbridge", "conveyor-gantry", "sign-bracket"):
-        found[name] = {p.name: p.read_bytes() for p in (CASES / name).iterdir() if p.suffix in (".toml", ".csv")}
+        found[name] = {
+            p.name: p.read_bytes()
+            for p in (CASES / name).iterdir()
+            if p.suffix in (".toml", ".csv")
+        }
     found["tabled"] = {k: v.encode() for k, v in TABLED.items()}
     return found
 
 
 BUNDLES = _bundles()
 
-HUGE_NUMBERS = ["1e400", "-1e400", "inf", "-inf", "nan", "NaN", "1e308", "-1e308", "1e-320", "1e155", "9" * 400, "0"]
-LOOK_ALIKES = {"a": "а", "e": "е", "o": "о", "c": "с", "p": "р", "x": "х", "-": "−", "1": "１", ".": "．"}
+HUGE_NUMBERS = [
+    "1e400",
+    "-1e400",
+    "inf",
+    "-inf",
+    "nan",
+    "NaN",
+    "1e308",
+    "-1e308",
+    "1e-320",
+    "1e155",
+    "9" * 400,
+    "0",
+]
+LOOK_ALIKES = {
+    "a": "а",
+    "e": "е",
+    "o": "о",
+    "c": "с",
+    "p": "р",
+    "x": "х",
+    "-": "−",
+    "1": "１",
+    ".": "．",
+}
 CONTROLS = ["\x00", "\x07", "\x1b[31m", "\r", "\x0b", "\x85", "\u2028", "\x7f", "\t"]
 
 
@@ -73,8 +103,24 @@ def mutations(draw: st.DrawFn, lines: list[bytes]) -> tuple[bytes, list[str]]:
         if not out:
             out = [b""]
         k = draw(st.integers(0, len(out) - 1))
-        kind = draw(st.sampled_from(["delete", "duplicate", "swap", "bytes", "number", "look-alike", "long",
-                                     "control", "bom", "crlf", "cr", "truncate"]))
+        kind = draw(
+            st.sampled_from(
+                [
+                    "delete",
+                    "duplicate",
+                    "swap",
+                    "bytes",
+                    "number",
+                    "look-alike",
+                    "long",
+                    "control",
+                    "bom",
+                    "crlf",
+                    "cr",
+                    "truncate",
+                ]
+            )
+        )
         kinds.append(kind)
         line = out[k]
         if kind == "delete":
@@ -104,12 +150,16 @@ def mutations(draw: st.DrawFn, lines: list[bytes]) -> tuple[bytes, list[str]]:
             chars = [i for i, c in enumerate(text) if c in LOOK_ALIKES]
             if chars:
                 i = draw(st.sampled_from(chars))
-                text = text[:i] + LOOK_ALIKES[text[i]] + text[i + 1:]
+                text = text[:i] + LOOK_ALIKES[text[i]] + text[i + 1 :]
             out[k] = text.encode()
         elif kind == "long":
             at = draw(st.integers(0, len(line)))
-            out[k] = line[:at] + draw(st.sampled_from([b"X", b"[", b"1", b"e", b"\"", b" ,"])) * draw(
-                st.sampled_from([300, 5000, 70_000])) + line[at:]
+            out[k] = (
+                line[:at]
+                + draw(st.sampled_from([b"X", b"[", b"1", b"e", b'"', b" ,"]))
+                * draw(st.sampled_from([300, 5000, 70_000]))
+                + line[at:]
+            )
         elif kind == "control":
             at = draw(st.integers(0, len(line)))
             out[k] = line[:at] + draw(st.sampled_from(CONTROLS)).encode() + line[at:]
@@ -164,8 +214,11 @@ def _contract(files: dict[str, bytes]) -> list[str]:
         before = _digests(folder)
         case, claims = str(folder / "case.toml"), str(folder / "claims.csv")
         codes: dict[str, int] = {}
-        for label, args in (("stability", ["stability", case]), ("solve", ["solve", case, "--json"]),
-                            ("check", ["check", case, "--claims", claims, "--json"])):
+        for label, args in (
+            ("stability", ["stability", case]),
+            ("solve", ["solve", case, "--json"]),
+            ("check", ["check", case, "--claims", claims, "--json"]),
+        ):
             code, out, err, trouble = _invoke(args)
             codes[label] = code
             breaches += [f"{label}: {t}" for t in trouble]

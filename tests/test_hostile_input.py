@@ -84,8 +84,13 @@ def folder(tmp_path: Path, files: dict[str, str | bytes]) -> Path:
 
 
 def tabled(tmp_path: Path, **overrides: str | bytes) -> Path:
-    files: dict[str, str | bytes] = {"case.toml": TABLED, "joints.csv": JOINTS_CSV, "members.csv": MEMBERS_CSV,
-                                     "loads.csv": LOADS_CSV, "claims.csv": CLAIMS}
+    files: dict[str, str | bytes] = {
+        "case.toml": TABLED,
+        "joints.csv": JOINTS_CSV,
+        "members.csv": MEMBERS_CSV,
+        "loads.csv": LOADS_CSV,
+        "claims.csv": CLAIMS,
+    }
     files.update(overrides)
     folder(tmp_path, files)
     return tmp_path / "case.toml"
@@ -108,17 +113,23 @@ def test_the_triangle_and_its_tables_agree_with_their_claims(tmp_path):
 def test_combination_factor_that_overflows_every_force_is_refused_not_agreed(tmp_path):
     text = TRIANGLE + '[combinations]\n"ULS" = { dead = 1e308 }\n'
     folder(tmp_path, {"case.toml": text, "claims.csv": CLAIMS})
-    code, out, err = run("check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv", "--json")
+    code, out, err = run(
+        "check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv", "--json"
+    )
     assert code == 2
     assert json.loads(out)["error"] == "bad-input"
-    assert "case.toml:19: combination 'ULS' factor for 'dead': 1e+308 is beyond the sane range" in err
+    assert (
+        "case.toml:19: combination 'ULS' factor for 'dead': 1e+308 is beyond the sane range" in err
+    )
 
 
 @pytest.mark.parametrize("load", ["1e308", "-1e308", "1e13"])
 def test_loads_beyond_the_sane_range_are_refused_with_their_line(tmp_path, load):
     folder(tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", f"C = [0.0, {load}]")})
     problems = problems_of(tmp_path / "case.toml")
-    assert any(":17: load case 'dead' at joint 'C'" in p and "sane range" in p for p in problems), problems
+    assert any(":17: load case 'dead' at joint 'C'" in p and "sane range" in p for p in problems), (
+        problems
+    )
 
 
 def test_loads_in_a_csv_table_beyond_the_sane_range_are_refused_with_their_line(tmp_path):
@@ -148,14 +159,18 @@ def test_inclined_roller_with_huge_direction_components_is_the_plain_direction(t
 
 
 def test_integer_beyond_the_float_range_is_refused_not_a_traceback(tmp_path):
-    folder(tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", "C = [0, " + "9" * 400 + "]")})
+    folder(
+        tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", "C = [0, " + "9" * 400 + "]")}
+    )
     problems = problems_of(tmp_path / "case.toml")
     assert any("beyond the float range" in p for p in problems), problems
 
 
 def test_integer_with_thousands_of_digits_is_refused_not_a_traceback(tmp_path):
     """tomllib raises a plain ValueError past Python's 4300-digit limit (found by the fuzzer)."""
-    folder(tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", "C = [0, " + "9" * 5000 + "]")})
+    folder(
+        tmp_path, {"case.toml": TRIANGLE.replace("C = [0.0, -10.0]", "C = [0, " + "9" * 5000 + "]")}
+    )
     code, _, err = run("stability", tmp_path / "case.toml")
     assert code == 2 and "an integer with thousands of digits" in err
 
@@ -222,7 +237,14 @@ def test_report_into_a_folder_says_so_without_a_temporary_file_name(tmp_path):
 # -- 3. regular-expression blow-ups --------------------------------------------------------------
 def test_line_locator_is_linear_on_a_long_bracket_line():
     """A 7 KB case with a '[' line inside a multi-line string took 74 s (a cubic regex)."""
-    text = 'title = "x"\nnotes = """\n[' + "a " * 4000 + "\n" + "[" + " b" * 4000 + '\n"""\n[units]\nforce = "kN"\n'
+    text = (
+        'title = "x"\nnotes = """\n['
+        + "a " * 4000
+        + "\n"
+        + "["
+        + " b" * 4000
+        + '\n"""\n[units]\nforce = "kN"\n'
+    )
     start = time.perf_counter()
     locator = LineLocator(text)
     assert time.perf_counter() - start < 0.5
@@ -231,7 +253,9 @@ def test_line_locator_is_linear_on_a_long_bracket_line():
 
 
 def test_case_file_with_a_long_bracket_line_in_a_string_is_read_within_seconds(tmp_path):
-    text = TRIANGLE.replace('title = "triangle"', 'title = "triangle"\nnotes = """\n[' + " x" * 4000 + '\n"""')
+    text = TRIANGLE.replace(
+        'title = "triangle"', 'title = "triangle"\nnotes = """\n[' + " x" * 4000 + '\n"""'
+    )
     folder(tmp_path, {"case.toml": text})
     start = time.perf_counter()
     read_case(tmp_path / "case.toml")
@@ -253,7 +277,9 @@ def test_csv_cell_with_a_carriage_return_cannot_start_a_formula_line():
     assert cell == "X\\r=cmd|' /C calc'!A0"
 
 
-@pytest.mark.parametrize("label", ["M\r=cmd|' /C calc'!A0", "M\x1b[31m", "M\x07", "M\x00", "M\u2028"])
+@pytest.mark.parametrize(
+    "label", ["M\r=cmd|' /C calc'!A0", "M\x1b[31m", "M\x07", "M\x00", "M\u2028"]
+)
 def test_member_ids_with_control_characters_are_refused(tmp_path, label):
     escaped = "".join(c if c.isalnum() or c in "=|' /!" else f"\\u{ord(c):04x}" for c in label)
     text = TRIANGLE.replace('AB = ["A", "B"]', f'"{escaped}" = ["A", "B"]')
@@ -267,17 +293,24 @@ def test_load_case_name_with_a_nul_is_refused_not_a_new_case(tmp_path):
     text = TRIANGLE + '[loads."dead\\u0000"]\nC = [0.0, -1.0]\n'
     folder(tmp_path, {"case.toml": text})
     problems = problems_of(tmp_path / "case.toml")
-    assert any("load case name 'dead\\x00' holds a control character" in p for p in problems), problems
+    assert any("load case name 'dead\\x00' holds a control character" in p for p in problems), (
+        problems
+    )
 
 
 def test_csv_table_ids_with_escape_characters_are_refused_with_their_line(tmp_path):
     case = tabled(tmp_path, **{"joints.csv": "id,x,y\nA,0,0\nB\x1b[2J,4,0\nC,2,2\n"})
     problems = problems_of(case)
-    assert any("joints.csv:3: joint id 'B\\x1b[2J' holds a control character" in p for p in problems), problems
+    assert any(
+        "joints.csv:3: joint id 'B\\x1b[2J' holds a control character" in p for p in problems
+    ), problems
 
 
 def test_empty_joint_id_is_called_empty_not_unconnected(tmp_path):
-    folder(tmp_path, {"case.toml": TRIANGLE.replace("C = [2.0, 2.0]", 'C = [2.0, 2.0]\n"" = [9.0, 9.0]')})
+    folder(
+        tmp_path,
+        {"case.toml": TRIANGLE.replace("C = [2.0, 2.0]", 'C = [2.0, 2.0]\n"" = [9.0, 9.0]')},
+    )
     problems = problems_of(tmp_path / "case.toml")
     assert any("joint id is empty" in p for p in problems), problems
     assert not any("not connected" in p for p in problems)
@@ -289,12 +322,15 @@ def test_cr_only_line_endings_in_a_case_table_are_read(tmp_path):
     assert list(read_case(case).joint_ids) == ["A", "B", "C"]
 
 
-@pytest.mark.parametrize(("content", "expected"), [
-    (b"id,x,y\nA,0,0\nB,4\x00,0\nC,2,2\n", "holds NUL bytes"),
-    (bytes(range(256)) * 4, "is not UTF-8 text"),
-    (b"id,x,y\nA,0,0\nB," + b"9" * 200_000 + b",0\nC,2,2\n", "joints.csv:3:"),
-    (b'id,x,y\nA,0,0\nB,"4,0\nC,2,2\n', "joints.csv"),
-])
+@pytest.mark.parametrize(
+    ("content", "expected"),
+    [
+        (b"id,x,y\nA,0,0\nB,4\x00,0\nC,2,2\n", "holds NUL bytes"),
+        (bytes(range(256)) * 4, "is not UTF-8 text"),
+        (b"id,x,y\nA,0,0\nB," + b"9" * 200_000 + b",0\nC,2,2\n", "joints.csv:3:"),
+        (b'id,x,y\nA,0,0\nB,"4,0\nC,2,2\n', "joints.csv"),
+    ],
+)
 def test_binary_or_broken_csv_tables_are_refused_by_name(tmp_path, content, expected):
     case = tabled(tmp_path, **{"joints.csv": content})
     code, out, err = run("solve", case, "--json")
@@ -309,40 +345,92 @@ def test_deeply_nested_toml_is_refused_not_a_recursion_error(tmp_path):
 
 
 def test_displacement_file_with_nul_bytes_or_huge_fields_is_refused(tmp_path):
-    folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": CLAIMS,
-                      "d1.csv": b"joint,direction,value (mm)\nC,y\x00,1\n",
-                      "d2.csv": b"joint,direction,value (mm)\nC,y," + b"1" * 200_000 + b"\n"})
+    folder(
+        tmp_path,
+        {
+            "case.toml": TRIANGLE,
+            "claims.csv": CLAIMS,
+            "d1.csv": b"joint,direction,value (mm)\nC,y\x00,1\n",
+            "d2.csv": b"joint,direction,value (mm)\nC,y," + b"1" * 200_000 + b"\n",
+        },
+    )
     for name in ("d1.csv", "d2.csv"):
-        code, _, err = run("check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv",
-                           "--displacements", tmp_path / name, "--assume-equal-ea", "1e5")
+        code, _, err = run(
+            "check",
+            tmp_path / "case.toml",
+            "--claims",
+            tmp_path / "claims.csv",
+            "--displacements",
+            tmp_path / name,
+            "--assume-equal-ea",
+            "1e5",
+        )
         assert code == 2 and name in err and "Traceback" not in err, (name, err)
 
 
 def test_displacement_file_with_cr_only_line_endings_is_read(tmp_path):
-    folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": CLAIMS, "d.csv": b"joint,direction,value (mm)\rC,y,1\r"})
-    code, out, err = run("check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv",
-                         "--displacements", tmp_path / "d.csv", "--assume-equal-ea", "1e5", "--json")
+    folder(
+        tmp_path,
+        {
+            "case.toml": TRIANGLE,
+            "claims.csv": CLAIMS,
+            "d.csv": b"joint,direction,value (mm)\rC,y,1\r",
+        },
+    )
+    code, out, err = run(
+        "check",
+        tmp_path / "case.toml",
+        "--claims",
+        tmp_path / "claims.csv",
+        "--displacements",
+        tmp_path / "d.csv",
+        "--assume-equal-ea",
+        "1e5",
+        "--json",
+    )
     assert code in (0, 1) and "Traceback" not in err
     assert json.loads(out)["verdict"] in ("agrees", "discrepancies")
 
 
 def test_long_displacement_cell_is_refused_quickly(tmp_path):
     """A unit regex with overlapping classes ([0-9.eE+-]+ then [A-Za-z]+) backtracked on this."""
-    folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": CLAIMS,
-                      "d.csv": "joint,direction,value\nC,y,1" + "e" * 50_000 + "!\n"})
+    folder(
+        tmp_path,
+        {
+            "case.toml": TRIANGLE,
+            "claims.csv": CLAIMS,
+            "d.csv": "joint,direction,value\nC,y,1" + "e" * 50_000 + "!\n",
+        },
+    )
     start = time.perf_counter()
-    code, _, err = run("check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv",
-                       "--displacements", tmp_path / "d.csv", "--assume-equal-ea", "1e5")
+    code, _, err = run(
+        "check",
+        tmp_path / "case.toml",
+        "--claims",
+        tmp_path / "claims.csv",
+        "--displacements",
+        tmp_path / "d.csv",
+        "--assume-equal-ea",
+        "1e5",
+    )
     assert time.perf_counter() - start < SLOW_SECONDS
     assert code == 2 and "d.csv row 2" in err and len(err) < 2000
 
 
 # -- 6. paths ---------------------------------------------------------------------------------
 def test_table_outside_the_case_folder_is_refused_without_echoing_it(tmp_path):
-    folder(tmp_path, {"case.toml": TABLED.replace('"joints.csv"', '"/etc/passwd"'), "members.csv": MEMBERS_CSV,
-                      "loads.csv": LOADS_CSV})
+    folder(
+        tmp_path,
+        {
+            "case.toml": TABLED.replace('"joints.csv"', '"/etc/passwd"'),
+            "members.csv": MEMBERS_CSV,
+            "loads.csv": LOADS_CSV,
+        },
+    )
     problems = problems_of(tmp_path / "case.toml")
-    assert any("outside the case's folder" in p and "--tables-anywhere" in p for p in problems), problems
+    assert any("outside the case's folder" in p and "--tables-anywhere" in p for p in problems), (
+        problems
+    )
     assert not any("root:" in p for p in problems)
 
 
@@ -393,16 +481,35 @@ def test_case_file_over_the_size_cap_is_refused_before_parsing(tmp_path):
 
 
 # -- 8. options -------------------------------------------------------------------------------
-@pytest.mark.parametrize(("option", "value"), [("--rtol", "nan"), ("--atol-fraction", "nan"), ("--rtol", "inf"),
-                                               ("--rtol", "5.0"), ("--atol-fraction", "-0.1")])
+@pytest.mark.parametrize(
+    ("option", "value"),
+    [
+        ("--rtol", "nan"),
+        ("--atol-fraction", "nan"),
+        ("--rtol", "inf"),
+        ("--rtol", "5.0"),
+        ("--atol-fraction", "-0.1"),
+    ],
+)
 def test_tolerance_options_out_of_range_are_refused(tmp_path, option, value):
     folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": CLAIMS})
-    code, _, err = run("check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv", option, value)
+    code, _, err = run(
+        "check", tmp_path / "case.toml", "--claims", tmp_path / "claims.csv", option, value
+    )
     assert code == 2 and f"{option}={value}" in err
 
 
-@pytest.mark.parametrize("options", [{"rtol": 5.0}, {"rtol": float("nan")}, {"atol_fraction": float("nan")},
-                                     {"sign": "upside-down"}, {"unit": "furlong"}, {"assume_equal_EA": -1.0}])
+@pytest.mark.parametrize(
+    "options",
+    [
+        {"rtol": 5.0},
+        {"rtol": float("nan")},
+        {"atol_fraction": float("nan")},
+        {"sign": "upside-down"},
+        {"unit": "furlong"},
+        {"assume_equal_EA": -1.0},
+    ],
+)
 def test_api_refuses_the_options_the_cli_refuses(tmp_path, options):
     folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": CLAIMS})
     with pytest.raises(OptionError):
@@ -414,12 +521,25 @@ def test_api_refuses_the_options_the_cli_refuses(tmp_path, options):
 def test_closed_output_streams_keep_the_true_exit_status(tmp_path, closed):
     """Exit 1 means discrepancies; a run whose output was discarded must not say that."""
     folder(tmp_path, {"case.toml": TRIANGLE, "claims.csv": CLAIMS})
-    script = ("import os, sys\n"
-              f"for fd in {closed!r}: os.close(fd)\n"
-              "from verify.cli import run\n"
-              "run(sys.argv[1:])\n")
-    done = subprocess.run([sys.executable, "-c", script, "check", str(tmp_path / "case.toml"), "--claims",
-                           str(tmp_path / "claims.csv")], capture_output=True, timeout=120)
+    script = (
+        "import os, sys\n"
+        f"for fd in {closed!r}: os.close(fd)\n"
+        "from verify.cli import run\n"
+        "run(sys.argv[1:])\n"
+    )
+    done = subprocess.run(
+        [
+            sys.executable,
+            "-c",
+            script,
+            "check",
+            str(tmp_path / "case.toml"),
+            "--claims",
+            str(tmp_path / "claims.csv"),
+        ],
+        capture_output=True,
+        timeout=120,
+    )
     assert done.returncode == 0, done.stderr.decode()
 
 

@@ -71,8 +71,12 @@ def assert_routes_agree(model: Model) -> None:
     joints = solve_joints(model)
     glob = solve_global(model)
     scale = max(1.0, float(np.abs(glob.member_forces).max()))
-    np.testing.assert_allclose(joints.forces.member_forces, glob.member_forces, rtol=RTOL, atol=RTOL * scale)
-    np.testing.assert_allclose(joints.forces.reactions, glob.reactions, rtol=RTOL, atol=RTOL * scale)
+    np.testing.assert_allclose(
+        joints.forces.member_forces, glob.member_forces, rtol=RTOL, atol=RTOL * scale
+    )
+    np.testing.assert_allclose(
+        joints.forces.reactions, glob.reactions, rtol=RTOL, atol=RTOL * scale
+    )
     assert joints.forces.load_names == glob.load_names == tuple(model.load_names)
     assert not np.isnan(joints.forces.member_forces).any()
 
@@ -128,10 +132,19 @@ def test_reactions_by_overall_equilibrium_on_pratt():
 
 def test_tripod_reactions_solved_with_the_joints():
     """Nine reaction components cannot come from 6 overall equations: joints first, apex first."""
-    model = make_model(truss_case(
-        {"O": [0, 0, 4], "F1": [3, 0, 0], "F2": [-1.5, 2.598076211353316, 0], "F3": [-1.5, -2.598076211353316, 0]},
-        [("O", "F1"), ("O", "F2"), ("O", "F3")], {f: ["x", "y", "z"] for f in ("F1", "F2", "F3")},
-        {"V": {"O": [0, 0, -1]}}))
+    model = make_model(
+        truss_case(
+            {
+                "O": [0, 0, 4],
+                "F1": [3, 0, 0],
+                "F2": [-1.5, 2.598076211353316, 0],
+                "F3": [-1.5, -2.598076211353316, 0],
+            },
+            [("O", "F1"), ("O", "F2"), ("O", "F3")],
+            {f: ["x", "y", "z"] for f in ("F1", "F2", "F3")},
+            {"V": {"O": [0, 0, -1]}},
+        )
+    )
     solution = solve_joints(model)
     assert not solution.reactions_first
     assert solution.order[0] == "O"
@@ -141,10 +154,14 @@ def test_tripod_reactions_solved_with_the_joints():
 
 
 def test_3d_tetrahedron_steps_solve_at_most_three_unknowns():
-    model = make_model(truss_case(
-        {"A": [0, 0, 0], "B": [4, 0, 0], "C": [0, 4, 0], "D": [1, 1, 4]},
-        [("A", "B"), ("A", "C"), ("A", "D"), ("B", "C"), ("B", "D"), ("C", "D")],
-        {"A": ["x", "y", "z"], "B": ["y", "z"], "C": ["z"]}, {"P": {"D": [1, 2, -3]}}))
+    model = make_model(
+        truss_case(
+            {"A": [0, 0, 0], "B": [4, 0, 0], "C": [0, 4, 0], "D": [1, 1, 4]},
+            [("A", "B"), ("A", "C"), ("A", "D"), ("B", "C"), ("B", "D"), ("C", "D")],
+            {"A": ["x", "y", "z"], "B": ["y", "z"], "C": ["z"]},
+            {"P": {"D": [1, 2, -3]}},
+        )
+    )
     solution = solve_joints(model)
     assert solution.reactions_first and not solution.stalled
     assert all(len(s.unknowns) <= 3 for s in solution.steps if s.kind == "joint")
@@ -155,8 +172,20 @@ def test_3d_tetrahedron_steps_solve_at_most_three_unknowns():
 def k33_off_conic():
     """K3,3 (hexagon + long diagonals) with joint 2 moved 0.2 off the circle (REFERENCES.md 1.4)."""
     joints = {"1": [5, 0], "2": [3.2, 4], "3": [-3, 4], "4": [-5, 0], "5": [-3, -4], "6": [3, -4]}
-    members = [("1", "2"), ("2", "3"), ("3", "4"), ("4", "5"), ("5", "6"), ("6", "1"), ("1", "4"), ("2", "5"), ("3", "6")]
-    return truss_case(joints, members, {"5": ["x", "y"], "6": ["y"]}, {"P": {"2": [0, -1], "3": [2, 1]}})
+    members = [
+        ("1", "2"),
+        ("2", "3"),
+        ("3", "4"),
+        ("4", "5"),
+        ("5", "6"),
+        ("6", "1"),
+        ("1", "4"),
+        ("2", "5"),
+        ("3", "6"),
+    ]
+    return truss_case(
+        joints, members, {"5": ["x", "y"], "6": ["y"]}, {"P": {"2": [0, -1], "3": [2, 1]}}
+    )
 
 
 def test_k33_stalls_and_solves_simultaneously():
@@ -177,21 +206,59 @@ def test_k33_joint_route_matches_global():
 # -- zero-force members (Hibbeler Statics / Kassimali zero-force rules, REFERENCES.md 3.1) ----------
 ZERO_FORCE = [
     ("Pratt U3L3 (rule 2)", pratt(6), ["U3L3"]),
-    ("king post CD under an apex load (rule 2)",
-     truss_case({"A": [0, 0], "B": [8, 0], "C": [4, 3], "D": [4, 0]},
-                [("A", "D"), ("D", "B"), ("A", "C"), ("C", "B"), ("C", "D")],
-                {"A": ["x", "y"], "B": ["y"]}, {"P": {"C": [0, -1]}}), ["CD"]),
-    ("Howe-type roof U1L1, U3L3 (rule 2)",
-     truss_case({"L0": [0, 0], "L1": [3, 0], "L2": [6, 0], "L3": [9, 0], "L4": [12, 0],
-                 "U1": [3, 1.5], "U2": [6, 3], "U3": [9, 1.5]},
-                [("L0", "L1"), ("L1", "L2"), ("L2", "L3"), ("L3", "L4"), ("L0", "U1"), ("U1", "U2"),
-                 ("U2", "U3"), ("U3", "L4"), ("U1", "L1"), ("U2", "L2"), ("U3", "L3"), ("U1", "L2"), ("U3", "L2")],
-                {"L0": ["x", "y"], "L4": ["y"]}, {"P": {"U1": [0, -1], "U2": [0, -1], "U3": [0, -1]}}),
-     ["U1L1", "U3L3"]),
-    ("unloaded two-bar corner (rule 1)",
-     truss_case({"A": [0, 0], "B": [4, 0], "C": [2, 3], "D": [6, 3]},
-                [("A", "B"), ("B", "C"), ("C", "A"), ("B", "D"), ("C", "D")],
-                {"A": ["x", "y"], "B": ["y"]}, {"P": {"C": [0, -1]}}), ["BD", "CD"]),
+    (
+        "king post CD under an apex load (rule 2)",
+        truss_case(
+            {"A": [0, 0], "B": [8, 0], "C": [4, 3], "D": [4, 0]},
+            [("A", "D"), ("D", "B"), ("A", "C"), ("C", "B"), ("C", "D")],
+            {"A": ["x", "y"], "B": ["y"]},
+            {"P": {"C": [0, -1]}},
+        ),
+        ["CD"],
+    ),
+    (
+        "Howe-type roof U1L1, U3L3 (rule 2)",
+        truss_case(
+            {
+                "L0": [0, 0],
+                "L1": [3, 0],
+                "L2": [6, 0],
+                "L3": [9, 0],
+                "L4": [12, 0],
+                "U1": [3, 1.5],
+                "U2": [6, 3],
+                "U3": [9, 1.5],
+            },
+            [
+                ("L0", "L1"),
+                ("L1", "L2"),
+                ("L2", "L3"),
+                ("L3", "L4"),
+                ("L0", "U1"),
+                ("U1", "U2"),
+                ("U2", "U3"),
+                ("U3", "L4"),
+                ("U1", "L1"),
+                ("U2", "L2"),
+                ("U3", "L3"),
+                ("U1", "L2"),
+                ("U3", "L2"),
+            ],
+            {"L0": ["x", "y"], "L4": ["y"]},
+            {"P": {"U1": [0, -1], "U2": [0, -1], "U3": [0, -1]}},
+        ),
+        ["U1L1", "U3L3"],
+    ),
+    (
+        "unloaded two-bar corner (rule 1)",
+        truss_case(
+            {"A": [0, 0], "B": [4, 0], "C": [2, 3], "D": [6, 3]},
+            [("A", "B"), ("B", "C"), ("C", "A"), ("B", "D"), ("C", "D")],
+            {"A": ["x", "y"], "B": ["y"]},
+            {"P": {"C": [0, -1]}},
+        ),
+        ["BD", "CD"],
+    ),
 ]
 
 
@@ -208,15 +275,20 @@ def test_zero_force_members_are_zero(case, members, route):
 
 
 # -- joints route = global route -----------------------------------------------------------------
-@pytest.mark.parametrize("case", [pratt(2), pratt(6), pratt(20), howe(6), howe(12), warren(2), warren(4), warren(9)],
-                         ids=lambda c: c["title"])
+@pytest.mark.parametrize(
+    "case",
+    [pratt(2), pratt(6), pratt(20), howe(6), howe(12), warren(2), warren(4), warren(9)],
+    ids=lambda c: c["title"],
+)
 def test_joint_route_equals_global_route(case):
     model = make_model(case)
     assert not solve_joints(model).stalled
     assert_routes_agree(model)
 
 
-@pytest.mark.parametrize("case", [pratt(6), howe(6), pratt(4, d=3.0, h=4.0)], ids=["pratt", "howe", "pratt-4-3"])
+@pytest.mark.parametrize(
+    "case", [pratt(6), howe(6), pratt(4, d=3.0, h=4.0)], ids=["pratt", "howe", "pratt-4-3"]
+)
 def test_joint_route_equals_exact_rational_solve(case):
     """3-4-5 geometry has rational direction cosines, so the exact solution is a Fraction."""
     model = make_model(case)
@@ -245,8 +317,12 @@ def test_combinations_follow_superposition():
     model = make_model(case)
     result = solve_joints(model).forces
     assert result.load_names == ("P", "W", "ULS")
-    np.testing.assert_allclose(result.member_forces[:, 2], 1.35 * result.member_forces[:, 0] + 1.5 * result.member_forces[:, 1],
-                               rtol=RTOL, atol=1e-12)
+    np.testing.assert_allclose(
+        result.member_forces[:, 2],
+        1.35 * result.member_forces[:, 0] + 1.5 * result.member_forces[:, 1],
+        rtol=RTOL,
+        atol=1e-12,
+    )
     assert_routes_agree(model)
 
 

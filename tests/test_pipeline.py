@@ -19,7 +19,9 @@ def test_section_route_in_a_child_process_matches_serial(monkeypatch):
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
     parallel = pipeline.analyse(make_model(pratt(12, load=10.0)))
     assert parallel.sections is not None and serial.sections is not None
-    np.testing.assert_array_equal(parallel.sections.forces.member_forces, serial.sections.forces.member_forces)
+    np.testing.assert_array_equal(
+        parallel.sections.forces.member_forces, serial.sections.forces.member_forces
+    )
     assert [c.target for c in parallel.sections.cuts] == [c.target for c in serial.sections.cuts]
     assert parallel.sections.cuts[3] == serial.sections.cuts[3]
 
@@ -55,7 +57,9 @@ def test_child_runs_the_route_in_another_process(monkeypatch):
 
 @pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
 @pytest.mark.parametrize("drop_diagonal", [True, False])
-def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(monkeypatch, drop_diagonal):
+def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(
+    monkeypatch, drop_diagonal
+):
     """The section route starts before the stability screen; an unstable (one diagonal removed)
     or indeterminate (one diagonal added) truss stops it, and no child process is left behind."""
     monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)

@@ -38,7 +38,9 @@ def test_short_caution_keeps_licensed_and_dynamic_effects():
 def test_report_has_the_short_caution_at_the_top_and_the_full_one_at_the_end(tmp_path):
     """Short beside the verdict, full at the end, in HTML and Markdown alike."""
     for name in ("r.html", "r.md"):
-        _run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--report", tmp_path / name)
+        _run(
+            "check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--report", tmp_path / name
+        )
         text = (tmp_path / name).read_text(encoding="utf-8")
         assert text.index(SHORT_CAUTION) < text.index("Findings") < text.rindex(CAUTION)
 
@@ -51,7 +53,14 @@ def test_terminal_ends_with_the_caution():
 
 def test_elastic_results_carry_the_elastic_assumption(tmp_path):
     """Deflections are elastic results: the report, the terminal and JSON say they rest on EA."""
-    args = ("check", GANTRY, "--claims", GANTRY / "claims.csv", "--displacements", GANTRY / "deflections.csv")
+    args = (
+        "check",
+        GANTRY,
+        "--claims",
+        GANTRY / "claims.csv",
+        "--displacements",
+        GANTRY / "deflections.csv",
+    )
     assert ELASTIC_CAUTION in _run(*args)
     assert ELASTIC_CAUTION in _run(*args, "--json")
     _run(*args, "--report", tmp_path / "r.md")
@@ -62,13 +71,19 @@ def test_elastic_results_carry_the_elastic_assumption(tmp_path):
 def test_no_sound_beside_an_unstable_truss(tmp_path):
     """A mechanism's conditioning figure is not called sound."""
     case = tmp_path / "case.toml"
-    case.write_text('[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [3, 0]\nC = [3, 3]\nD = [0, 3]\n'
-                    '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
-                    '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.dead]\nC = [1.0, 0.0]\n')
+    case.write_text(
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [3, 0]\nC = [3, 3]\nD = [0, 3]\n'
+        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
+        '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.dead]\nC = [1.0, 0.0]\n'
+    )
     out = _run("stability", case).replace(str(tmp_path), "")
     assert "unstable" in out and not re.search(r"\bsound\b", out)
     claims = tmp_path / "claims.csv"
     claims.write_text("member,dead\nAB,1\n")
     _run("check", case, "--claims", claims, "--report", tmp_path / "r.md")
     report = (tmp_path / "r.md").read_text(encoding="utf-8").replace(str(tmp_path), "")
-    assert "CANNOT VERIFY" in report and not re.search(r"\bsound\b", report) and "well conditioned" not in report
+    assert (
+        "CANNOT VERIFY" in report
+        and not re.search(r"\bsound\b", report)
+        and "well conditioned" not in report
+    )

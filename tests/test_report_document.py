@@ -38,7 +38,13 @@ from verify.report.handcalc_html import exact_values
 
 ROOT = Path(__file__).resolve().parent.parent
 GOLDEN = Path(__file__).resolve().parent / "golden"
-CASES = ("canal-footbridge", "mezzanine-roof", "conveyor-gantry", "sign-bracket", "service-road-overbridge")
+CASES = (
+    "canal-footbridge",
+    "mezzanine-roof",
+    "conveyor-gantry",
+    "sign-bracket",
+    "service-road-overbridge",
+)
 GOLDEN_RTOL = 1e-6  # numbers in a golden report may move by round-off only
 STATICS_RTOL = 1e-3  # golden numbers are printed to 4 significant figures
 DATE = "2000-01-01"
@@ -280,7 +286,9 @@ def test_html_has_every_section_in_order(at_root: None) -> None:
         "b + r − 2j = 21 + 3 − 2×12 = 0" in html
     )  # Maxwell: 21 members, 3 reactions, 12 joints (case file)
     assert html.count("<svg") >= 3 and "Method of joints" in html and "Exact values" in html
-    assert CAUTION in html and "Defer to the governing local codes" not in html  # said once, not twice
+    assert (
+        CAUTION in html and "Defer to the governing local codes" not in html
+    )  # said once, not twice
     # The short caution sits beside the verdict, before the first findings.
     assert html.index(SHORT_CAUTION) < html.index('id="findings"')
 

@@ -40,7 +40,9 @@ def test_agreement_is_drawn_plain():
 
 def test_report_diagram_colours_only_findings_and_says_it_is_no_capacity_check(tmp_path):
     """In the HTML drawing, agreeing members are neutral; the caption disclaims a capacity check."""
-    _run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--report", tmp_path / "r.html")
+    _run(
+        "check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--report", tmp_path / "r.html"
+    )
     html = (tmp_path / "r.html").read_text(encoding="utf-8")
     assert "not a capacity check" in html
     agreeing = re.findall(r'stroke="(#[0-9A-Fa-f]{6})"[^>]*><title>[^<]*; agrees</title>', html)
@@ -64,10 +66,28 @@ def test_json_uses_the_plain_names():
 
 def test_old_tolerance_options_still_work():
     """--rtol and --atol-fraction are kept as hidden spellings of the new options."""
-    new = _run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--json",
-               "--relative-tolerance", "0.02", "--absolute-tolerance", "0.002")
-    old = _run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--json", "--rtol", "0.02",
-               "--atol-fraction", "0.002")
+    new = _run(
+        "check",
+        FOOTBRIDGE,
+        "--claims",
+        FOOTBRIDGE / "claims.csv",
+        "--json",
+        "--relative-tolerance",
+        "0.02",
+        "--absolute-tolerance",
+        "0.002",
+    )
+    old = _run(
+        "check",
+        FOOTBRIDGE,
+        "--claims",
+        FOOTBRIDGE / "claims.csv",
+        "--json",
+        "--rtol",
+        "0.02",
+        "--atol-fraction",
+        "0.002",
+    )
     assert new == old
     assert json.loads(new[1])["tolerance"] == {"relative": 0.02, "fraction_of_largest_force": 0.002}
     _, helptext = _run("check", "--help")

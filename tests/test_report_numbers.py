@@ -38,7 +38,9 @@ def test_exact_halves_round_away_from_zero(value, digits, shown):
     assert fmt(value, digits) == shown
 
 
-@pytest.mark.parametrize(("value", "shown"), [(173.25, "173.3 T"), (-28.125, "28.13 C"), (-46.875, "46.88 C")])
+@pytest.mark.parametrize(
+    ("value", "shown"), [(173.25, "173.3 T"), (-28.125, "28.13 C"), (-46.875, "46.88 C")]
+)
 def test_tc_rounds_halves_away_from_zero(value, shown):
     """The T/C form rounds the magnitude as fmt does."""
     assert tc(value) == shown
@@ -117,7 +119,7 @@ def test_clean_zero_is_relative_to_scale():
     assert clean_zero(1e-10, 1e-9) == 1e-10
 
 
-@given(st.integers(min_value=-10**7, max_value=10**7), st.integers(min_value=1, max_value=4))
+@given(st.integers(min_value=-(10**7), max_value=10**7), st.integers(min_value=1, max_value=4))
 def test_any_decimal_rounds_as_decimal_half_up_does(units, places):
     """For any decimal n/10^(p+1), fmt_fixed to p places equals exact decimal ROUND_HALF_UP (the reference)."""
     exact = Fraction(units, 10 ** (places + 1))

@@ -25,31 +25,65 @@ FOOTBRIDGE = ROOT / "cases" / "canal-footbridge"
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 pytestmark = [
     pytest.mark.slow,
-    pytest.mark.skipif(CHROMIUM is None, reason="chromium is not installed (apt-get install -y chromium)"),
+    pytest.mark.skipif(
+        CHROMIUM is None, reason="chromium is not installed (apt-get install -y chromium)"
+    ),
 ]
-FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking", "--no-first-run",
-         "--disable-component-update", "--disable-sync", "--disable-extensions", "--no-pings",
-         "--proxy-server=127.0.0.1:9", "--host-resolver-rules=MAP * ~NOTFOUND", "--no-pdf-header-footer"]
+FLAGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--no-first-run",
+    "--disable-component-update",
+    "--disable-sync",
+    "--disable-extensions",
+    "--no-pings",
+    "--proxy-server=127.0.0.1:9",
+    "--host-resolver-rules=MAP * ~NOTFOUND",
+    "--no-pdf-header-footer",
+]
 PAPER = {"A4": (595, 842), "letter": (612, 792)}  # points (ISO 216; ANSI letter 8.5 x 11 in)
 
 
 @pytest.fixture(scope="module", params=sorted(PAPER))
-def printed(request: pytest.FixtureRequest, tmp_path_factory: pytest.TempPathFactory) -> tuple[str, list[str]]:
+def printed(
+    request: pytest.FixtureRequest, tmp_path_factory: pytest.TempPathFactory
+) -> tuple[str, list[str]]:
     folder = tmp_path_factory.mktemp(f"print-{request.param}")
     html = folder / "review.html"
-    result = CliRunner().invoke(main, ["check", str(FOOTBRIDGE), "--claims", str(FOOTBRIDGE / "claims.csv"),
-                                       "--report", str(html)])
+    result = CliRunner().invoke(
+        main,
+        [
+            "check",
+            str(FOOTBRIDGE),
+            "--claims",
+            str(FOOTBRIDGE / "claims.csv"),
+            "--report",
+            str(html),
+        ],
+    )
     assert result.exit_code == 1
     # The paper is the printer's choice; this stands in for the print dialog's paper setting.
-    text = html.read_text(encoding="utf-8").replace("</head>", f"<style>@page{{size:{request.param}}}</style></head>")
+    text = html.read_text(encoding="utf-8").replace(
+        "</head>", f"<style>@page{{size:{request.param}}}</style></head>"
+    )
     html.write_text(text, encoding="utf-8")
     pdf = folder / "review.pdf"
     assert CHROMIUM is not None
-    subprocess.run([CHROMIUM, *FLAGS, f"--print-to-pdf={pdf}", html.as_uri()], check=True, timeout=180,
-                   capture_output=True, cwd=folder)
+    subprocess.run(
+        [CHROMIUM, *FLAGS, f"--print-to-pdf={pdf}", html.as_uri()],
+        check=True,
+        timeout=180,
+        capture_output=True,
+        cwd=folder,
+    )
     with pdfplumber.open(pdf) as document:
         width, height = PAPER[request.param]
-        assert abs(float(document.pages[0].width) - width) < 2 and abs(float(document.pages[0].height) - height) < 2
+        assert (
+            abs(float(document.pages[0].width) - width) < 2
+            and abs(float(document.pages[0].height) - height) < 2
+        )
         pages = [page.extract_text() or "" for page in document.pages]
     return request.param, pages
 
@@ -62,8 +96,13 @@ def test_first_page_holds_verdict_facts_and_findings(printed):
     for fact in ("Maxwell's rule", "Units (case)", "Tolerance", "Structure"):
         assert fact in first
     assert "Findings" in first
-    for title in ("Claimed value differs", "Values off by a unit factor", "Two member labels swapped",
-                  "Single sign reversed", "Force claimed for a zero-force member"):
+    for title in (
+        "Claimed value differs",
+        "Values off by a unit factor",
+        "Two member labels swapped",
+        "Single sign reversed",
+        "Force claimed for a zero-force member",
+    ):
         assert title in first
 
 

@@ -32,7 +32,15 @@ def run(*args: object) -> tuple[int, str]:
 
 
 def gantry_check(*extra: object) -> tuple[int, str]:
-    return run("check", GANTRY, "--claims", GANTRY / "claims.csv", "--displacements", GANTRY / "deflections.csv", *extra)
+    return run(
+        "check",
+        GANTRY,
+        "--claims",
+        GANTRY / "claims.csv",
+        "--displacements",
+        GANTRY / "deflections.csv",
+        *extra,
+    )
 
 
 def test_check_json_names_a_unit_for_every_value_family():
@@ -40,7 +48,9 @@ def test_check_json_names_a_unit_for_every_value_family():
     _, out = gantry_check("--json")
     data = json.loads(out)
     units = data["units"]
-    assert units["force"] == "kN" and units["length"] == "m"  # cases/conveyor-gantry/case.toml [units]
+    assert (
+        units["force"] == "kN" and units["length"] == "m"
+    )  # cases/conveyor-gantry/case.toml [units]
     for family in ("members", "implied_loads", "implied_load_table", "imbalances", "displacements"):
         assert units[family] in ("kN", "m"), family
     assert units["displacements"] == "m"
@@ -79,7 +89,10 @@ def test_json_inputs_hash_the_displacement_file():
     """The claimed displacements are part of the audit trail: their SHA-256 is in JSON inputs."""
     _, out = gantry_check("--json")
     inputs = json.loads(out)["inputs"]
-    assert inputs["displacements_sha256"] == hashlib.sha256((GANTRY / "deflections.csv").read_bytes()).hexdigest()
+    assert (
+        inputs["displacements_sha256"]
+        == hashlib.sha256((GANTRY / "deflections.csv").read_bytes()).hexdigest()
+    )
 
 
 def test_csv_puts_displacements_in_length_columns(tmp_path):

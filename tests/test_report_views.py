@@ -14,8 +14,12 @@ def _tower(long_axis: int):
     if long_axis == 1:
         spread = [[y, x, z] for x, y, z in spread]
     joints = {"A": spread[0], "B": spread[1], "C": spread[2], "T": [0.5, 0.5, 3.0]}
-    case = truss_case(joints, [("A", "T"), ("B", "T"), ("C", "T")], {j: ["x", "y", "z"] for j in "ABC"},
-                      {"P": {"T": [0.0, 0.0, -10.0]}})
+    case = truss_case(
+        joints,
+        [("A", "T"), ("B", "T"), ("C", "T")],
+        {j: ["x", "y", "z"] for j in "ABC"},
+        {"P": {"T": [0.0, 0.0, -10.0]}},
+    )
     return make_model(case)
 
 
@@ -40,8 +44,10 @@ def test_crossed_diagonals_get_their_labels_away_from_the_crossing():
     members = [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A"), ("A", "C"), ("B", "D")]
     case = truss_case(joints, members, {"A": ["x", "y"], "B": ["y"]}, {"P": {"C": [1.0, 0.0]}})
     svg = render_diagram(make_model(case))
-    labels = {m.group(3): (float(m.group(1)), float(m.group(2)))
-              for m in re.finditer(r'<text x="([-\d.]+)" y="([-\d.]+)"[^>]*>(AC|BD)</text>', svg)}
+    labels = {
+        m.group(3): (float(m.group(1)), float(m.group(2)))
+        for m in re.finditer(r'<text x="([-\d.]+)" y="([-\d.]+)"[^>]*>(AC|BD)</text>', svg)
+    }
     assert set(labels) == {"AC", "BD"}
     (ax, ay), (bx, by) = labels["AC"], labels["BD"]
     assert abs(ax - bx) + abs(ay - by) > 30  # well apart, not both at the crossing

@@ -49,28 +49,59 @@ def assert_matches_global(model, solution):
     ref = solve_global(model).member_forces
     got = solution.forces.member_forces
     reached = ~np.isnan(got)
-    scale = max(float(np.abs(ref).max(initial=0.0)), float(np.abs(model.load_matrix()).max(initial=0.0)), 1e-12)
+    scale = max(
+        float(np.abs(ref).max(initial=0.0)),
+        float(np.abs(model.load_matrix()).max(initial=0.0)),
+        1e-12,
+    )
     np.testing.assert_allclose(got[reached], ref[reached], rtol=0, atol=RTOL * scale)
 
 
 # -- published / tabulated values -----------------------------------------------------------------
 PRATT_TABLE = {  # REFERENCES.md 3.2, Pratt, multiples of P
-    "L0L1": 10 / 3, "L1L2": 10 / 3, "L2L3": 16 / 3, "U1U2": -16 / 3, "U2U3": -6.0, "L0U1": -25 / 6,
-    "U1L1": 1.0, "U2L2": -0.5, "U3L3": 0.0, "U1L2": 2.5, "U2L3": 5 / 6,
+    "L0L1": 10 / 3,
+    "L1L2": 10 / 3,
+    "L2L3": 16 / 3,
+    "U1U2": -16 / 3,
+    "U2U3": -6.0,
+    "L0U1": -25 / 6,
+    "U1L1": 1.0,
+    "U2L2": -0.5,
+    "U3L3": 0.0,
+    "U1L2": 2.5,
+    "U2L3": 5 / 6,
 }
 HOWE_TABLE = {  # REFERENCES.md 3.2, Howe
-    "L0L1": 10 / 3, "L1L2": 16 / 3, "L2L3": 6.0, "U1U2": -10 / 3, "U2U3": -16 / 3, "L0U1": -25 / 6,
-    "U1L1": 2.5, "U2L2": 1.5, "U3L3": 1.0, "L1U2": -2.5, "L2U3": -5 / 6,
+    "L0L1": 10 / 3,
+    "L1L2": 16 / 3,
+    "L2L3": 6.0,
+    "U1U2": -10 / 3,
+    "U2U3": -16 / 3,
+    "L0U1": -25 / 6,
+    "U1L1": 2.5,
+    "U2L2": 1.5,
+    "U3L3": 1.0,
+    "L1U2": -2.5,
+    "L2U3": -5 / 6,
 }
 S3 = math.sqrt(3.0)
 WARREN_TABLE = {  # REFERENCES.md 3.2, Warren (equilateral, side 4)
-    "L0L1": S3 / 2, "L1L2": 7 * S3 / 6, "U1U2": -S3, "U2U3": -4 * S3 / 3, "L0U1": -S3, "U1L1": S3,
-    "L1U2": -S3 / 3, "U2L2": S3 / 3,
+    "L0L1": S3 / 2,
+    "L1L2": 7 * S3 / 6,
+    "U1U2": -S3,
+    "U2U3": -4 * S3 / 3,
+    "L0U1": -S3,
+    "U1L1": S3,
+    "L1U2": -S3 / 3,
+    "U2L2": S3 / 3,
 }
 
 
-@pytest.mark.parametrize("builder, table", [(pratt, PRATT_TABLE), (howe, HOWE_TABLE), (warren, WARREN_TABLE)],
-                         ids=["pratt", "howe", "warren"])
+@pytest.mark.parametrize(
+    "builder, table",
+    [(pratt, PRATT_TABLE), (howe, HOWE_TABLE), (warren, WARREN_TABLE)],
+    ids=["pratt", "howe", "warren"],
+)
 def test_parallel_chord_tables(builder, table):
     """Section forces equal the REFERENCES.md 3.2 tables (Pratt, Howe, Warren), all members reached."""
     model = make_model(builder(load=1.0))
@@ -78,7 +109,9 @@ def test_parallel_chord_tables(builder, table):
     assert solution.coverage == 1.0
     assert solution.unreached == {}
     for member, expected in table.items():
-        assert force(model, solution, member) == pytest.approx(expected, rel=1e-12, abs=1e-12), member
+        assert force(model, solution, member) == pytest.approx(expected, rel=1e-12, abs=1e-12), (
+            member
+        )
 
 
 def test_pratt_panel_two_section_is_ritter():
@@ -114,7 +147,9 @@ def test_pratt_against_sympy_truss():
     solution = solve_sections(model)
     for m in model.members:
         # sympy's numbers are tension-positive in every case measured (REFERENCES.md 4)
-        assert force(model, solution, m.id) == pytest.approx(float(truss.internal_forces[m.id]), abs=1e-9), m.id
+        assert force(model, solution, m.id) == pytest.approx(
+            float(truss.internal_forces[m.id]), abs=1e-9
+        ), m.id
 
 
 def test_tripod_3d():
@@ -123,9 +158,12 @@ def test_tripod_3d():
     for k in range(3):
         a = 2 * math.pi * k / 3
         joints[f"F{k + 1}"] = [3 * math.cos(a), 3 * math.sin(a), 0.0]
-    case = truss_case(joints, [("O", "F1"), ("O", "F2"), ("O", "F3")],
-                      {f"F{k}": ["x", "y", "z"] for k in (1, 2, 3)},
-                      {"vertical": {"O": [0.0, 0.0, -1.0]}, "horizontal": {"O": [1.0, 0.0, 0.0]}})
+    case = truss_case(
+        joints,
+        [("O", "F1"), ("O", "F2"), ("O", "F3")],
+        {f"F{k}": ["x", "y", "z"] for k in (1, 2, 3)},
+        {"vertical": {"O": [0.0, 0.0, -1.0]}, "horizontal": {"O": [1.0, 0.0, 0.0]}},
+    )
     model = make_model(case)
     solution = solve_sections(model)
     assert solution.coverage == 1.0
@@ -157,7 +195,9 @@ def space_tower(levels: int, seed: int):
         members += [(cur[2], prev[2]), (cur[2], cur[0]), (cur[2], cur[1])]
         prev = cur
     loads = {f"A{levels}": [1.0, 2.0, -3.0], f"C{max(levels // 2, 1)}": [0.5, 0.0, -1.0]}
-    return truss_case(joints, members, {"A0": ["x", "y", "z"], "B0": ["y", "z"], "C0": ["z"]}, {"P": loads})
+    return truss_case(
+        joints, members, {"A0": ["x", "y", "z"], "B0": ["y", "z"], "C0": ["z"]}, {"P": loads}
+    )
 
 
 @pytest.mark.parametrize("levels, seed", [(2, 1), (5, 2), (12, 3)])
@@ -169,7 +209,9 @@ def test_space_truss_equals_global(levels, seed):
     assert solution.coverage == 1.0
     assert_matches_global(model, solution)
     for cut in solution.cuts:
-        assert solve_cut(model, cut, 0)[cut.target] == pytest.approx(force(model, solution, cut.target), abs=1e-9)
+        assert solve_cut(model, cut, 0)[cut.target] == pytest.approx(
+            force(model, solution, cut.target), abs=1e-9
+        )
     assert {cut.method for cut in solution.cuts} <= {MOMENTS, FORCES_NORMAL, "least-squares"}
 
 
@@ -180,7 +222,9 @@ def k_truss(panels: int, d: float = 4.0, h: float = 6.0):
     joints = {f"L{i}": [i * d, 0.0] for i in range(panels + 1)}
     joints.update({f"U{i}": [i * d, h] for i in range(panels + 1)})
     joints.update({f"M{i}": [i * d, h / 2] for i in range(1, panels) if i != half})
-    members = [(f"L{i}", f"L{i + 1}") for i in range(panels)] + [(f"U{i}", f"U{i + 1}") for i in range(panels)]
+    members = [(f"L{i}", f"L{i + 1}") for i in range(panels)] + [
+        (f"U{i}", f"U{i + 1}") for i in range(panels)
+    ]
     members += [("L0", "U0"), (f"L{panels}", f"U{panels}"), (f"U{half}", f"L{half}")]
     for i in range(1, panels):
         if i != half:
@@ -245,11 +289,14 @@ def test_cut_through_three_concurrent_members_is_explained():
         cut_for_members(model, ["L0U1", "U1U2", "U1L1"])
 
 
-@pytest.mark.parametrize("members, message", [
-    (["L0L1"], "leaves the truss in one piece"),
-    (["U1U2", "nope"], "member 'nope' is not in the model"),
-    (["U1U2", "U1L2", "L1L2", "L0L1"], "L0L1 would have both ends on the same side"),
-])
+@pytest.mark.parametrize(
+    "members, message",
+    [
+        (["L0L1"], "leaves the truss in one piece"),
+        (["U1U2", "nope"], "member 'nope' is not in the model"),
+        (["U1U2", "U1L2", "L1L2", "L0L1"], "L0L1 would have both ends on the same side"),
+    ],
+)
 def test_bad_requested_cuts(members, message):
     """Requests that are not a section are refused with a plain message, not a crash."""
     model = make_model(pratt())
@@ -290,7 +337,9 @@ def test_render_decimals_only_when_geometry_is_not_nice():
     solution = solve_sections(model)
     text = render_cut(model, solution.cut_for("U1U2"), "P")
     assert "exact:" not in text
-    assert force(model, solution, "U1U2") == pytest.approx(-16 / math.pi)  # -M(L2)/h, REFERENCES.md 3.1
+    assert force(model, solution, "U1U2") == pytest.approx(
+        -16 / math.pi
+    )  # -M(L2)/h, REFERENCES.md 3.1
     assert "N(U1U2) = -5.09296 kN (C)" in text
 
 
@@ -298,7 +347,11 @@ def test_render_reactions():
     """The overall-equilibrium step: moments about the pin give L6.y = 2.5P (REFERENCES.md 3.2)."""
     model = make_model(pratt(load=10.0))
     text = render_reactions(model, "P")
-    assert "ΣM about joint L0" in text and "⇒ L6.y = 25 kN" in text and "L0.y = 25 kN   exact: 25" in text
+    assert (
+        "ΣM about joint L0" in text
+        and "⇒ L6.y = 25 kN" in text
+        and "L0.y = 25 kN   exact: 25" in text
+    )
 
 
 def test_cantilever_with_two_wall_pins_uses_support_free_bodies():
@@ -306,10 +359,17 @@ def test_cantilever_with_two_wall_pins_uses_support_free_bodies():
     cut keeps the support-free tip side, and the forces equal the global solve."""
     joints = {f"L{i}": [4.0 * i, 0.0] for i in range(5)}
     joints.update({f"U{i}": [4.0 * i, 3.0] for i in range(5)})
-    members = [(f"L{i}", f"L{i + 1}") for i in range(4)] + [(f"U{i}", f"U{i + 1}") for i in range(4)]
-    members += [(f"U{i}", f"L{i}") for i in range(1, 5)] + [(f"U{i}", f"L{i + 1}") for i in range(4)]
-    model = make_model(truss_case(joints, members, {"L0": ["x", "y"], "U0": ["x", "y"]},
-                                  {"tip": {"L4": [0.0, -10.0]}}))
+    members = [(f"L{i}", f"L{i + 1}") for i in range(4)] + [
+        (f"U{i}", f"U{i + 1}") for i in range(4)
+    ]
+    members += [(f"U{i}", f"L{i}") for i in range(1, 5)] + [
+        (f"U{i}", f"L{i + 1}") for i in range(4)
+    ]
+    model = make_model(
+        truss_case(
+            joints, members, {"L0": ["x", "y"], "U0": ["x", "y"]}, {"tip": {"L4": [0.0, -10.0]}}
+        )
+    )
     solution = solve_sections(model)
     assert not solution.reactions_first
     assert solution.coverage == 1.0
@@ -412,16 +472,25 @@ def test_beam_analogy(spec):
     scale = max(abs(left_reaction), max(P.values(), key=abs, default=1.0), 1.0) * span / h
     for x0, x1 in zip(xs, xs[1:], strict=False):
         mid = (x0 + x1) / 2
-        crossing = [i for i, m in enumerate(model.members)
-                    if min(model.xyz[model.joint_index[m.start]][0], model.xyz[model.joint_index[m.end]][0]) < mid
-                    < max(model.xyz[model.joint_index[m.start]][0], model.xyz[model.joint_index[m.end]][0])]
+        crossing = [
+            i
+            for i, m in enumerate(model.members)
+            if min(model.xyz[model.joint_index[m.start]][0], model.xyz[model.joint_index[m.end]][0])
+            < mid
+            < max(model.xyz[model.joint_index[m.start]][0], model.xyz[model.joint_index[m.end]][0])
+        ]
         web = [i for i in crossing if abs(model.unit_vectors[i][1]) > 1e-9]
         assert len(web) == 1
         w = web[0]
-        a, b = (model.xyz[model.joint_index[model.members[w].start]], model.xyz[model.joint_index[model.members[w].end]])
+        a, b = (
+            model.xyz[model.joint_index[model.members[w].start]],
+            model.xyz[model.joint_index[model.members[w].end]],
+        )
         top, bottom = (a, b) if a[1] > b[1] else (b, a)
         left, right = (a, b) if a[0] < b[0] else (b, a)
-        sin_up = (right[1] - left[1]) / np.linalg.norm(right - left)  # e from the left end, vertical part
+        sin_up = (right[1] - left[1]) / np.linalg.norm(
+            right - left
+        )  # e from the left end, vertical part
         expected = {w: -shear(x0) / sin_up}
         for i in crossing:
             if i == w:
@@ -462,8 +531,12 @@ def test_zero_force_vertical_and_known_members_carried():
 def test_reasons_for_unreached_members():
     """A fan of bars meeting at one apex: members not reached carry a plain reason."""
     joints = {"A": [0.0, 0.0], "B": [6.0, 0.0], "C": [3.0, 4.0], "D": [3.0, 0.0]}
-    case = truss_case(joints, [("A", "D"), ("D", "B"), ("A", "C"), ("C", "B"), ("C", "D")],
-                      {"A": ["x", "y"], "B": ["y"]}, {"P": {"D": [0.0, -1.0]}})
+    case = truss_case(
+        joints,
+        [("A", "D"), ("D", "B"), ("A", "C"), ("C", "B"), ("C", "D")],
+        {"A": ["x", "y"], "B": ["y"]},
+        {"P": {"D": [0.0, -1.0]}},
+    )
     model = make_model(case)
     solution = solve_sections(model)
     assert_matches_global(model, solution)

@@ -25,15 +25,20 @@ from verify.service import CheckOptions, check, exit_status
 ROOT = Path(__file__).resolve().parents[1]
 CASES = sorted(p for p in (ROOT / "cases").iterdir() if (p / "case.toml").is_file())
 FOOTBRIDGE = ROOT / "cases" / "canal-footbridge"
-SIGNIFICANT = 12  # JSON writes floats exactly; this only absorbs a last-bit difference in a DataFrame
+SIGNIFICANT = (
+    12  # JSON writes floats exactly; this only absorbs a last-bit difference in a DataFrame
+)
 
 # (label, the CLI's arguments, the API's keywords): the same option set spelt both ways.
 OPTION_SETS = [
     ("defaults", [], {}),
     ("compression-positive", ["--sign", "compression-positive"], {"sign": "compression-positive"}),
     ("unit-N", ["--unit", "N"], {"unit": "N"}),
-    ("wider-tolerance", ["--relative-tolerance", "0.05", "--absolute-tolerance", "0.01"],
-     {"rtol": 0.05, "atol_fraction": 0.01}),
+    (
+        "wider-tolerance",
+        ["--relative-tolerance", "0.05", "--absolute-tolerance", "0.01"],
+        {"rtol": 0.05, "atol_fraction": 0.01},
+    ),
 ]
 
 
@@ -62,22 +67,37 @@ ROW_FIELDS = ("case", "claimed", "joints", "sections", "global", "elastic", "dif
 def _from_cli(data: dict[str, Any]) -> dict[str, Any]:
     return {
         "verdict": data["verdict"],
-        "findings": [(f["kind"], ", ".join(f.get("members", [])), f["detail"]) for f in data["findings"]],
-        "rows": [(r["kind"], r["id"], *(_plain(r.get(k)) for k in ROW_FIELDS))
-                 for r in data["members"] if r["kind"] in ("member", "reaction")],
+        "findings": [
+            (f["kind"], ", ".join(f.get("members", [])), f["detail"]) for f in data["findings"]
+        ],
+        "rows": [
+            (r["kind"], r["id"], *(_plain(r.get(k)) for k in ROW_FIELDS))
+            for r in data["members"]
+            if r["kind"] in ("member", "reaction")
+        ],
     }
 
 
 def _from_api(result: Any) -> dict[str, Any]:
     rows = []
     for kind, frame in (("member", result.members), ("reaction", result.reactions)):
-        rows += [(kind, r[kind], *(_plain(r[k]) for k in ROW_FIELDS)) for r in frame.to_dict("records")]
-    order = {(kind, label, case): i for i, (kind, label, case) in
-             enumerate((row.kind, row.id, row.case) for row in result.review.rows)}
-    rows.sort(key=lambda r: order[(r[0], r[1], r[2])])  # the CLI lists members and reactions as the review does
+        rows += [
+            (kind, r[kind], *(_plain(r[k]) for k in ROW_FIELDS)) for r in frame.to_dict("records")
+        ]
+    order = {
+        (kind, label, case): i
+        for i, (kind, label, case) in enumerate(
+            (row.kind, row.id, row.case) for row in result.review.rows
+        )
+    }
+    rows.sort(
+        key=lambda r: order[(r[0], r[1], r[2])]
+    )  # the CLI lists members and reactions as the review does
     return {
         "verdict": result.verdict,
-        "findings": [(f["kind"], f["members"], f["detail"]) for f in result.findings.to_dict("records")],
+        "findings": [
+            (f["kind"], f["members"], f["detail"]) for f in result.findings.to_dict("records")
+        ],
         "rows": rows,
     }
 
@@ -89,14 +109,20 @@ def _cli(*args: object) -> tuple[int, str, str]:
     return outcome.exit_code, outcome.stdout, outcome.stderr
 
 
-@pytest.mark.parametrize("label, cli_args, api_kwargs", OPTION_SETS, ids=[s[0] for s in OPTION_SETS])
+@pytest.mark.parametrize(
+    "label, cli_args, api_kwargs", OPTION_SETS, ids=[s[0] for s in OPTION_SETS]
+)
 @pytest.mark.parametrize("folder", CASES, ids=[p.name for p in CASES])
-def test_cli_json_and_api_review_agree_on_verdict_findings_and_rows(folder, label, cli_args, api_kwargs):
+def test_cli_json_and_api_review_agree_on_verdict_findings_and_rows(
+    folder, label, cli_args, api_kwargs
+):
     """check --json and api.review give one verdict, the same findings and the same rows."""
     claims, displacements = _claims_of(folder), _displacements_of(folder)
     extra_cli = ["--displacements", displacements] if displacements else []
     extra_api = {"displacements": displacements} if displacements else {}
-    code, out, err = _cli("check", folder / "case.toml", "--claims", claims, "--json", *cli_args, *extra_cli)
+    code, out, err = _cli(
+        "check", folder / "case.toml", "--claims", claims, "--json", *cli_args, *extra_cli
+    )
     assert code != EXIT_BAD_INPUT, err
     result = review(folder / "case.toml", claims, **api_kwargs, **extra_api)
     from_cli, from_api = _from_cli(json.loads(out)), _from_api(result)
@@ -107,19 +133,41 @@ def test_cli_json_and_api_review_agree_on_verdict_findings_and_rows(folder, labe
 
 # (what is wrong, the CLI's arguments, the API's keywords, the error the API raises, words both say)
 REFUSALS = [
-    ("relative tolerance above 1", ["--relative-tolerance", "5"], {"rtol": 5.0}, OptionError,
-     "must be a number in (0, 1)"),
-    ("negative absolute tolerance", ["--absolute-tolerance", "-0.1"], {"atol_fraction": -0.1}, OptionError,
-     "must be a number in [0, 1)"),
+    (
+        "relative tolerance above 1",
+        ["--relative-tolerance", "5"],
+        {"rtol": 5.0},
+        OptionError,
+        "must be a number in (0, 1)",
+    ),
+    (
+        "negative absolute tolerance",
+        ["--absolute-tolerance", "-0.1"],
+        {"atol_fraction": -0.1},
+        OptionError,
+        "must be a number in [0, 1)",
+    ),
     ("unknown unit", ["--unit", "bogus"], {"unit": "bogus"}, OptionError, "bogus"),
-    ("claims of another case", ["--claims", ROOT / "cases/sign-bracket/claims.csv"],
-     {"claims_path": ROOT / "cases/sign-bracket/claims.csv"}, InputError, "no label matches"),
-    ("missing displacements file", ["--displacements", "no-such-file.csv"], {"displacements": "no-such-file.csv"},
-     InputError, "no-such-file.csv"),
+    (
+        "claims of another case",
+        ["--claims", ROOT / "cases/sign-bracket/claims.csv"],
+        {"claims_path": ROOT / "cases/sign-bracket/claims.csv"},
+        InputError,
+        "no label matches",
+    ),
+    (
+        "missing displacements file",
+        ["--displacements", "no-such-file.csv"],
+        {"displacements": "no-such-file.csv"},
+        InputError,
+        "no-such-file.csv",
+    ),
 ]
 
 
-@pytest.mark.parametrize("what, cli_args, api_kwargs, error, words", REFUSALS, ids=[r[0] for r in REFUSALS])
+@pytest.mark.parametrize(
+    "what, cli_args, api_kwargs, error, words", REFUSALS, ids=[r[0] for r in REFUSALS]
+)
 def test_api_refuses_what_the_cli_refuses(what, cli_args, api_kwargs, error, words):
     """An input the CLI refuses with status 2 makes the API raise the project's error, in the same words."""
     args = ["--claims", FOOTBRIDGE / "claims.csv", *cli_args]  # a later --claims wins in click
@@ -135,7 +183,9 @@ def test_options_are_clean_once_made():
     """CheckOptions turns 'auto' into no unit and the sign into its mode, and compares by value."""
     options = CheckOptions(unit="auto", sign="compression-positive", rtol=0.02)
     assert options.unit is None and options.sign == "compression-positive"
-    assert options.tolerance.rtol == 0.02 and options == CheckOptions(sign="compression-positive", rtol=0.02)
+    assert options.tolerance.rtol == 0.02 and options == CheckOptions(
+        sign="compression-positive", rtol=0.02
+    )
 
 
 def test_options_name_the_option_as_the_user_typed_it():
@@ -152,7 +202,9 @@ def test_text_options_must_be_text():
 
 def test_exit_status_follows_the_verdict():
     """0 agrees, 1 discrepancies, 3 cannot verify: the statuses the CLI documents."""
-    assert [exit_status(v) for v in (Verdict.AGREES, Verdict.DISCREPANCIES, Verdict.CANNOT_VERIFY)] == [0, 1, 3]
+    assert [
+        exit_status(v) for v in (Verdict.AGREES, Verdict.DISCREPANCIES, Verdict.CANNOT_VERIFY)
+    ] == [0, 1, 3]
 
 
 def test_a_case_folder_stands_for_its_case_file():

@@ -38,7 +38,17 @@ TET = {"A": [0, 0, 0], "B": [4, 0, 0], "C": [0, 4, 0], "D": [1, 1, 4]}
 TET_MEMBERS = [("A", "B"), ("A", "C"), ("A", "D"), ("B", "C"), ("B", "D"), ("C", "D")]
 # K3,3 as a hexagon with its three long diagonals; all six joints on the circle x^2 + y^2 = 25.
 K33 = {"1": [5, 0], "2": [3, 4], "3": [-3, 4], "4": [-5, 0], "5": [-3, -4], "6": [3, -4]}
-K33_MEMBERS = [("1", "2"), ("2", "3"), ("3", "4"), ("4", "5"), ("5", "6"), ("6", "1"), ("1", "4"), ("2", "5"), ("3", "6")]
+K33_MEMBERS = [
+    ("1", "2"),
+    ("2", "3"),
+    ("3", "4"),
+    ("4", "5"),
+    ("5", "6"),
+    ("6", "1"),
+    ("1", "4"),
+    ("2", "5"),
+    ("3", "6"),
+]
 
 
 def tri(supports):
@@ -61,35 +71,81 @@ ROWS = {
     "triangle, pin + roller": (tri(PIN_ROLLER), (3, 3, 3, 0, 6, 0, 0, 0, 0), 0.228),
     "square, no diagonal": (square(), (4, 3, 4, -1, 7, 1, 0, 0, 1), 0.382),
     "square, one diagonal": (square([("A", "C")]), (5, 3, 4, 0, 8, 0, 0, 0, 0), 0.134),
-    "square, both diagonals": (square([("A", "C"), ("B", "D")]), (6, 3, 4, 1, 8, 0, 1, 0, 0), 0.139),
-    "square, no diagonal, two pins": (square(supports={"A": ["x", "y"], "B": ["x", "y"]}), (4, 4, 4, 0, 7, 1, 1, 0, 1), None),
-    "triangle on 3 parallel rollers": (tri({"A": ["y"], "B": ["y"], "C": ["y"]}), (3, 3, 3, 0, 5, 1, 1, 1, 0), None),
-    "triangle, roller along AB": (tri({"A": ["x", "y"], "B": {"direction": [1, 0]}}), (3, 3, 3, 0, 5, 1, 1, 1, 0), None),
+    "square, both diagonals": (
+        square([("A", "C"), ("B", "D")]),
+        (6, 3, 4, 1, 8, 0, 1, 0, 0),
+        0.139,
+    ),
+    "square, no diagonal, two pins": (
+        square(supports={"A": ["x", "y"], "B": ["x", "y"]}),
+        (4, 4, 4, 0, 7, 1, 1, 0, 1),
+        None,
+    ),
+    "triangle on 3 parallel rollers": (
+        tri({"A": ["y"], "B": ["y"], "C": ["y"]}),
+        (3, 3, 3, 0, 5, 1, 1, 1, 0),
+        None,
+    ),
+    "triangle, roller along AB": (
+        tri({"A": ["x", "y"], "B": {"direction": [1, 0]}}),
+        (3, 3, 3, 0, 5, 1, 1, 1, 0),
+        None,
+    ),
     "triangle, 3 rollers meeting at Q": (
         tri({"A": {"direction": [0, 1]}, "B": {"direction": [4, 2]}, "C": {"direction": [2, 5]}}),
-        (3, 3, 3, 0, 5, 1, 1, 1, 0), None),
+        (3, 3, 3, 0, 5, 1, 1, 1, 0),
+        None,
+    ),
     "triangle, no supports": (tri({}), (3, 0, 3, -3, 3, 3, 0, 3, 0), None),
     "two collinear bars": (
-        truss_case({"A": [0, 0], "B": [1, 0], "C": [2, 0]}, [("A", "B"), ("B", "C")],
-                   {"A": ["x", "y"], "C": ["x", "y"]}, {"P": {"B": [0, -1]}}),
-        (2, 4, 3, 0, 5, 1, 1, 0, 1), None),
+        truss_case(
+            {"A": [0, 0], "B": [1, 0], "C": [2, 0]},
+            [("A", "B"), ("B", "C")],
+            {"A": ["x", "y"], "C": ["x", "y"]},
+            {"P": {"B": [0, -1]}},
+        ),
+        (2, 4, 3, 0, 5, 1, 1, 0, 1),
+        None,
+    ),
     "K3,3 on a circle": (k33(), (9, 3, 6, 0, 11, 1, 1, 0, 1), None),
     "K3,3 one joint off the circle": (k33(moved=True), (9, 3, 6, 0, 12, 0, 0, 0, 0), None),
     "tetrahedron, supports 3+2+1": (
-        truss_case(TET, TET_MEMBERS, {"A": ["x", "y", "z"], "B": ["y", "z"], "C": ["z"]}, {"P": {"D": [1, 2, -3]}}),
-        (6, 6, 4, 0, 12, 0, 0, 0, 0), None),
+        truss_case(
+            TET,
+            TET_MEMBERS,
+            {"A": ["x", "y", "z"], "B": ["y", "z"], "C": ["z"]},
+            {"P": {"D": [1, 2, -3]}},
+        ),
+        (6, 6, 4, 0, 12, 0, 0, 0, 0),
+        None,
+    ),
     "tetrahedron, 3 vertical supports": (
-        truss_case(TET, TET_MEMBERS, {"A": ["z"], "B": ["z"], "C": ["z"]}, {"P": {"D": [0, 0, -3]}}),
-        (6, 3, 4, -3, 9, 3, 0, 3, 0), None),
+        truss_case(
+            TET, TET_MEMBERS, {"A": ["z"], "B": ["z"], "C": ["z"]}, {"P": {"D": [0, 0, -3]}}
+        ),
+        (6, 3, 4, -3, 9, 3, 0, 3, 0),
+        None,
+    ),
     "tripod": (
-        truss_case({"O": [0, 0, 4], **TRIPOD_FEET}, [("O", f) for f in TRIPOD_FEET],
-                   {f: ["x", "y", "z"] for f in TRIPOD_FEET}, {"V": {"O": [0, 0, -1]}}),
-        (3, 9, 4, 0, 12, 0, 0, 0, 0), 0.265),
+        truss_case(
+            {"O": [0, 0, 4], **TRIPOD_FEET},
+            [("O", f) for f in TRIPOD_FEET],
+            {f: ["x", "y", "z"] for f in TRIPOD_FEET},
+            {"V": {"O": [0, 0, -1]}},
+        ),
+        (3, 9, 4, 0, 12, 0, 0, 0, 0),
+        0.265,
+    ),
     "tripod with legs in one plane": (
-        truss_case({"O": [0, 0, 4], "F1": [3, 0, 0], "F2": [-3, 0, 0], "F3": [1, 0, 0]},
-                   [("O", "F1"), ("O", "F2"), ("O", "F3")],
-                   {f: ["x", "y", "z"] for f in ("F1", "F2", "F3")}, {"V": {"O": [0, 0, -1]}}),
-        (3, 9, 4, 0, 11, 1, 1, 1, 0), None),
+        truss_case(
+            {"O": [0, 0, 4], "F1": [3, 0, 0], "F2": [-3, 0, 0], "F3": [1, 0, 0]},
+            [("O", "F1"), ("O", "F2"), ("O", "F3")],
+            {f: ["x", "y", "z"] for f in ("F1", "F2", "F3")},
+            {"V": {"O": [0, 0, -1]}},
+        ),
+        (3, 9, 4, 0, 11, 1, 1, 1, 0),
+        None,
+    ),
 }
 
 
@@ -98,9 +154,17 @@ def test_canonical_counts(name):
     """REFERENCES.md 1.4 (P&C 1986 counts): b, r, j, Maxwell, r_A, m, s, rigid-body / internal m."""
     case, (b, r, j, maxwell, rank, m, s, rigid, internal), _ = ROWS[name]
     result = solve_stability(make_model(case))
-    got = (result.members, result.reactions, result.joints, result.maxwell, result.rank,
-           result.mechanisms, result.self_stress, result.rigid_body_mechanisms,
-           result.mechanisms - result.rigid_body_mechanisms)
+    got = (
+        result.members,
+        result.reactions,
+        result.joints,
+        result.maxwell,
+        result.rank,
+        result.mechanisms,
+        result.self_stress,
+        result.rigid_body_mechanisms,
+        result.mechanisms - result.rigid_body_mechanisms,
+    )
     assert got == (b, r, j, maxwell, rank, m, s, rigid, internal)
     assert result.exact_counts and result.method == "dense-svd"
 
@@ -110,8 +174,13 @@ def test_canonical_classification(name):
     """Unstable iff m > 0; else indeterminate iff s > 0 (P&C 1986; textbook statements)."""
     case, (_, _, _, _, _, m, s, _, _), _ = ROWS[name]
     result = solve_stability(make_model(case))
-    expected = (Classification.UNSTABLE if m else
-                Classification.STABLE_INDETERMINATE if s else Classification.STABLE_DETERMINATE)
+    expected = (
+        Classification.UNSTABLE
+        if m
+        else Classification.STABLE_INDETERMINATE
+        if s
+        else Classification.STABLE_DETERMINATE
+    )
     assert result.classification is expected
     assert result.is_stable is (m == 0)
 
@@ -127,7 +196,9 @@ def test_extended_maxwell_rule(name):
 def test_canonical_sigma_ratio(name):
     """sigma_min / sigma_max over the non-zero singular values, as printed in REFERENCES.md 1.4."""
     case, _, sigma = ROWS[name]
-    assert solve_stability(make_model(case)).sigma_ratio == pytest.approx(sigma, abs=SIGMA_DIGITS / 2 + 1e-12)
+    assert solve_stability(make_model(case)).sigma_ratio == pytest.approx(
+        sigma, abs=SIGMA_DIGITS / 2 + 1e-12
+    )
 
 
 def test_maxwell_count_negative_means_at_least_that_many_mechanisms():
@@ -184,11 +255,17 @@ def test_unstable_load_orthogonal_to_mechanism_is_noted():
 # -- near-mechanism calibration (REFERENCES.md 1.2) ---------------------------------------------
 def sagging_two_bar(theta: float):
     """A-B-C, bars of length 1, B sagging by theta, A and C pinned, unit transverse load at B."""
-    return truss_case({"A": [0, 0], "B": [math.cos(theta), -math.sin(theta)], "C": [2 * math.cos(theta), 0]},
-                      [("A", "B"), ("B", "C")], {"A": ["x", "y"], "C": ["x", "y"]}, {"P": {"B": [0, -1]}})
+    return truss_case(
+        {"A": [0, 0], "B": [math.cos(theta), -math.sin(theta)], "C": [2 * math.cos(theta), 0]},
+        [("A", "B"), ("B", "C")],
+        {"A": ["x", "y"], "C": ["x", "y"]},
+        {"P": {"B": [0, -1]}},
+    )
 
 
-@pytest.mark.parametrize(("theta", "rho"), [(0.1, 5.40e-2), (0.01, 5.41e-3), (1e-3, 5.41e-4), (1e-6, 5.41e-7)])
+@pytest.mark.parametrize(
+    ("theta", "rho"), [(0.1, 5.40e-2), (0.01, 5.41e-3), (1e-3, 5.41e-4), (1e-6, 5.41e-7)]
+)
 def test_sagging_two_bar_sigma_ratio(theta, rho):
     """REFERENCES.md 1.2 [V] table: rho ~ 0.54 theta, to the 3 printed figures."""
     result = solve_stability(make_model(sagging_two_bar(theta)))
@@ -250,11 +327,15 @@ def pratt_extra(panels: int):
 
 
 @pytest.mark.parametrize("panels", [10, 60])
-@pytest.mark.parametrize(("builder", "expected"), [
-    (pratt, Classification.STABLE_DETERMINATE),
-    (pratt_defect, Classification.UNSTABLE),
-    (pratt_extra, Classification.STABLE_INDETERMINATE),
-], ids=["sound", "defect", "extra-diagonal"])
+@pytest.mark.parametrize(
+    ("builder", "expected"),
+    [
+        (pratt, Classification.STABLE_DETERMINATE),
+        (pratt_defect, Classification.UNSTABLE),
+        (pratt_extra, Classification.STABLE_INDETERMINATE),
+    ],
+    ids=["sound", "defect", "extra-diagonal"],
+)
 def test_sparse_path_agrees_with_dense(panels, builder, expected):
     model = make_model(builder(panels))
     dense = solve_stability(model)

@@ -69,7 +69,9 @@ def sympy_forces(model):
     kinds = {}
     for r in model.reactions:
         kinds.setdefault(r.joint, []).append(r.axis)
-    truss.apply_support(*[(j, "pinned" if axes == ["x", "y"] else "roller") for j, axes in kinds.items()])
+    truss.apply_support(
+        *[(j, "pinned" if axes == ["x", "y"] else "roller") for j, axes in kinds.items()]
+    )
     for joint, (fx, fy) in model.cases[0].loads.items():
         for value, angle in ((fx, 0), (fy, 90)):
             if value:
@@ -78,7 +80,9 @@ def sympy_forces(model):
     return {m: float(v) for m, v in truss.internal_forces.items()}
 
 
-@pytest.mark.parametrize("pattern", [p for p in PATTERNS if not p.startswith("tower") and p != "grid"])
+@pytest.mark.parametrize(
+    "pattern", [p for p in PATTERNS if not p.startswith("tower") and p != "grid"]
+)
 @pytest.mark.parametrize("chord", ["top", "bottom"])
 def test_2d_patterns_match_sympy_truss(tmp_path, pattern, chord):
     """sympy's truss module gives the same member forces for every 2D pattern."""
@@ -89,8 +93,10 @@ def test_2d_patterns_match_sympy_truss(tmp_path, pattern, chord):
 def exact_solve(model):
     """Joint equilibrium solved exactly: unknowns q = N / L per member and the reactions, so the
     equations sum q (x_other - x_joint) + R + F = 0 with rational (or sqrt 3) coefficients."""
+
     def exact(v):
         return sympy.nsimplify(v, [sympy.sqrt(3)], tolerance=1e-12)
+
     xyz = {j.id: [exact(c) for c in j.coords] for j in model.joints}
     rows = {(j.id, k): {} for j in model.joints for k in range(model.dim)}
     for m in model.members:
@@ -101,7 +107,9 @@ def exact_solve(model):
         for k in range(model.dim):
             if r.direction[k]:
                 rows[(r.joint, k)][("r", n)] = exact(r.direction[k])
-    unknowns = [("q", m.id) for m in model.members] + [("r", n) for n in range(len(model.reactions))]
+    unknowns = [("q", m.id) for m in model.members] + [
+        ("r", n) for n in range(len(model.reactions))
+    ]
     col = {u: i for i, u in enumerate(unknowns)}
     A = sympy.zeros(len(rows), len(unknowns))
     f = sympy.zeros(len(rows), 1)
@@ -111,15 +119,22 @@ def exact_solve(model):
         load = model.cases[0].loads.get(key[0])
         f[i] = -exact(load[key[1]]) if load else 0
     q = A.LUsolve(f)
-    lengths = {m.id: sympy.sqrt(sum((xyz[m.end][k] - xyz[m.start][k]) ** 2 for k in range(model.dim))) for m in model.members}
+    lengths = {
+        m.id: sympy.sqrt(sum((xyz[m.end][k] - xyz[m.start][k]) ** 2 for k in range(model.dim)))
+        for m in model.members
+    }
     return {m.id: float(q[col[("q", m.id)]] * lengths[m.id]) for m in model.members}
 
 
-@pytest.mark.parametrize(("pattern", "panels"), [("tower-3", 2), ("tower-4", 3), ("grid", 2), ("grid", 3)])
+@pytest.mark.parametrize(
+    ("pattern", "panels"), [("tower-3", 2), ("tower-4", 3), ("grid", 2), ("grid", 3)]
+)
 def test_3d_patterns_match_an_exact_solve(tmp_path, pattern, panels):
     """The global solve agrees with an exact solve of joint equilibrium under a load case with a
     lateral part (vertical top loads plus a horizontal load added at one top joint)."""
-    starter = build_starter(pattern, span=4.0, depth=6.0 if pattern != "grid" else 1.5, panels=panels)
+    starter = build_starter(
+        pattern, span=4.0, depth=6.0 if pattern != "grid" else 1.5, panels=panels
+    )
     text = render_case(starter)
     top = next(iter(starter.loads))
     text = text.replace(f"{top} = [0.0, 0.0, -10.0]", f"{top} = [3.0, -2.0, -10.0]")
@@ -132,25 +147,83 @@ def test_3d_patterns_match_an_exact_solve(tmp_path, pattern, panels):
 # -- closed forms ---------------------------------------------------------------------------------
 def test_pratt_matches_references_table(tmp_path):
     """REFERENCES.md 3.2 Pratt: 6 panels of 4, depth 3, P at L1..L5."""
-    got = member_forces(write_and_read(tmp_path, "pratt", span=24.0, depth=3.0, panels=6, loaded_chord="bottom", panel_load=P))
-    check(got, {"L0L1": 10 / 3 * P, "L1L2": 10 / 3 * P, "L2L3": 16 / 3 * P, "U1U2": -16 / 3 * P, "U2U3": -6 * P,
-                "L0U1": -25 / 6 * P, "U1L1": P, "U2L2": -P / 2, "U3L3": 0.0, "U1L2": 5 / 2 * P, "U2L3": 5 / 6 * P,
-                "U4L3": 5 / 6 * P, "U5L4": 5 / 2 * P})
+    got = member_forces(
+        write_and_read(
+            tmp_path, "pratt", span=24.0, depth=3.0, panels=6, loaded_chord="bottom", panel_load=P
+        )
+    )
+    check(
+        got,
+        {
+            "L0L1": 10 / 3 * P,
+            "L1L2": 10 / 3 * P,
+            "L2L3": 16 / 3 * P,
+            "U1U2": -16 / 3 * P,
+            "U2U3": -6 * P,
+            "L0U1": -25 / 6 * P,
+            "U1L1": P,
+            "U2L2": -P / 2,
+            "U3L3": 0.0,
+            "U1L2": 5 / 2 * P,
+            "U2L3": 5 / 6 * P,
+            "U4L3": 5 / 6 * P,
+            "U5L4": 5 / 2 * P,
+        },
+    )
 
 
 def test_howe_matches_references_table(tmp_path):
     """REFERENCES.md 3.2 Howe: same geometry and loads."""
-    got = member_forces(write_and_read(tmp_path, "howe", span=24.0, depth=3.0, panels=6, loaded_chord="bottom", panel_load=P))
-    check(got, {"L0L1": 10 / 3 * P, "L1L2": 16 / 3 * P, "L2L3": 6 * P, "U1U2": -10 / 3 * P, "U2U3": -16 / 3 * P,
-                "L0U1": -25 / 6 * P, "U1L1": 5 / 2 * P, "U2L2": 3 / 2 * P, "U3L3": P, "L1U2": -5 / 2 * P, "L2U3": -5 / 6 * P})
+    got = member_forces(
+        write_and_read(
+            tmp_path, "howe", span=24.0, depth=3.0, panels=6, loaded_chord="bottom", panel_load=P
+        )
+    )
+    check(
+        got,
+        {
+            "L0L1": 10 / 3 * P,
+            "L1L2": 16 / 3 * P,
+            "L2L3": 6 * P,
+            "U1U2": -10 / 3 * P,
+            "U2U3": -16 / 3 * P,
+            "L0U1": -25 / 6 * P,
+            "U1L1": 5 / 2 * P,
+            "U2L2": 3 / 2 * P,
+            "U3L3": P,
+            "L1U2": -5 / 2 * P,
+            "L2U3": -5 / 6 * P,
+        },
+    )
 
 
 def test_warren_matches_references_table(tmp_path):
     """REFERENCES.md 3.2 Warren: side 4, h = 2 sqrt 3, 4 panels, P at L1, L2, L3."""
     r3 = math.sqrt(3)
-    got = member_forces(write_and_read(tmp_path, "warren", span=16.0, depth=2 * r3, panels=4, loaded_chord="bottom", panel_load=P))
-    check(got, {"L0L1": r3 / 2 * P, "L1L2": 7 * r3 / 6 * P, "U1U2": -r3 * P, "U2U3": -4 * r3 / 3 * P,
-                "L0U1": -r3 * P, "U1L1": r3 * P, "L1U2": -r3 / 3 * P, "U2L2": r3 / 3 * P})
+    got = member_forces(
+        write_and_read(
+            tmp_path,
+            "warren",
+            span=16.0,
+            depth=2 * r3,
+            panels=4,
+            loaded_chord="bottom",
+            panel_load=P,
+        )
+    )
+    check(
+        got,
+        {
+            "L0L1": r3 / 2 * P,
+            "L1L2": 7 * r3 / 6 * P,
+            "U1U2": -r3 * P,
+            "U2U3": -4 * r3 / 3 * P,
+            "L0U1": -r3 * P,
+            "U1L1": r3 * P,
+            "L1U2": -r3 / 3 * P,
+            "U2L2": r3 / 3 * P,
+        },
+    )
 
 
 def beam_moment(x, span, loads):
@@ -164,7 +237,17 @@ def test_warren_verticals_by_beam_analogy(tmp_path):
     point), |diagonal| = V / sin theta; verticals at joints where no diagonal meets are zero."""
     span, h, n = 24.0, 3.0, 6
     d = span / n
-    got = member_forces(write_and_read(tmp_path, "warren-verticals", span=span, depth=h, panels=n, loaded_chord="bottom", panel_load=P))
+    got = member_forces(
+        write_and_read(
+            tmp_path,
+            "warren-verticals",
+            span=span,
+            depth=h,
+            panels=n,
+            loaded_chord="bottom",
+            panel_load=P,
+        )
+    )
     loads = {d * i: P for i in range(1, n)}
     sin = h / math.hypot(d, h)
     for i in range(n):
@@ -183,7 +266,11 @@ def test_k_truss_chords_by_sections(tmp_path):
     bottom chord = M(x_i) / h, with x_i the apex's vertical; the diagonals carry V / (2 sin theta)."""
     span, h, n = 24.0, 3.0, 6
     d = span / n
-    got = member_forces(write_and_read(tmp_path, "k", span=span, depth=h, panels=n, loaded_chord="bottom", panel_load=P))
+    got = member_forces(
+        write_and_read(
+            tmp_path, "k", span=span, depth=h, panels=n, loaded_chord="bottom", panel_load=P
+        )
+    )
     loads = {d * i: P for i in range(1, n)}
     sin = (h / 2) / math.hypot(d, h / 2)
     for j in range(n):
@@ -199,7 +286,10 @@ def test_k_truss_chords_by_sections(tmp_path):
 def test_king_post_matches_references(tmp_path):
     """REFERENCES.md 3.3 king post: span 8, rise 3, P at the apex."""
     got = member_forces(write_and_read(tmp_path, "king-post", span=8.0, depth=3.0, panel_load=P))
-    check(got, {"L0U1": -5 * P / 6, "U1L2": -5 * P / 6, "L0L1": 2 * P / 3, "L1L2": 2 * P / 3, "U1L1": 0.0})
+    check(
+        got,
+        {"L0U1": -5 * P / 6, "U1L2": -5 * P / 6, "L0L1": 2 * P / 3, "L1L2": 2 * P / 3, "U1L1": 0.0},
+    )
 
 
 def test_queen_post_by_joints(tmp_path):
@@ -209,16 +299,36 @@ def test_queen_post_by_joints(tmp_path):
     span, h = 9.0, 2.0
     a = math.atan2(h, span / 3)
     got = member_forces(write_and_read(tmp_path, "queen-post", span=span, depth=h, panel_load=P))
-    check(got, {"L0U1": -P / math.sin(a), "L0L1": P / math.tan(a), "L1L2": P / math.tan(a), "U1U2": -P / math.tan(a),
-                "U1L1": 0.0, "U2L2": 0.0, "U1L2": 0.0})
+    check(
+        got,
+        {
+            "L0U1": -P / math.sin(a),
+            "L0L1": P / math.tan(a),
+            "L1L2": P / math.tan(a),
+            "U1U2": -P / math.tan(a),
+            "U1L1": 0.0,
+            "U2L2": 0.0,
+            "U1L2": 0.0,
+        },
+    )
 
 
 def test_fink_matches_references(tmp_path):
     """REFERENCES.md 3.3 Fink: span 12, rise 3, P at F, C, G (here U1, U2, U3); A, D, E, B are L0..L3."""
     r5, r13 = math.sqrt(5), math.sqrt(13)
     got = member_forces(write_and_read(tmp_path, "fink", span=12.0, depth=3.0, panel_load=P))
-    check(got, {"L0L1": 3 * P, "L1L2": 2 * P, "L2L3": 3 * P, "L0U1": -3 * r5 * P / 2, "U1U2": -5 * r5 * P / 4,
-                "U1L1": -r13 * P / 4, "L1U2": r13 * P / 4})
+    check(
+        got,
+        {
+            "L0L1": 3 * P,
+            "L1L2": 2 * P,
+            "L2L3": 3 * P,
+            "L0U1": -3 * r5 * P / 2,
+            "U1U2": -5 * r5 * P / 4,
+            "U1L1": -r13 * P / 4,
+            "L1U2": r13 * P / 4,
+        },
+    )
 
 
 def test_fan_by_joints_and_sections(tmp_path):
@@ -239,7 +349,9 @@ def test_scissors_by_joints(tmp_path):
     a, b = math.atan2(h, span / 2), math.atan2(h / 2, span / 2)
     got = member_forces(write_and_read(tmp_path, "scissors", span=span, depth=h, panel_load=P))
     R = 3 * P / 2
-    check(got, {"L0L1": R * math.cos(a) / math.sin(a - b), "L0U1": -R * math.cos(b) / math.sin(a - b)})
+    check(
+        got, {"L0L1": R * math.cos(a) / math.sin(a - b), "L0U1": -R * math.cos(b) / math.sin(a - b)}
+    )
 
 
 def test_bowstring_parabola_carries_uniform_panel_loads_in_its_chords(tmp_path):
@@ -247,7 +359,9 @@ def test_bowstring_parabola_carries_uniform_panel_loads_in_its_chords(tmp_path):
     polygon: moments about U_i give a bottom chord of M_i / y_i = P L n / (8 rise) in every panel,
     and every web member carries nothing."""
     span, rise, n = 24.0, 4.0, 6
-    got = member_forces(write_and_read(tmp_path, "bowstring", span=span, depth=rise, panels=n, panel_load=P))
+    got = member_forces(
+        write_and_read(tmp_path, "bowstring", span=span, depth=rise, panels=n, panel_load=P)
+    )
     for i in range(n):
         assert got[f"L{i}L{i + 1}"] == pytest.approx(P * span * n / (8 * rise), rel=RTOL)
     for i in range(1, n):
@@ -258,7 +372,9 @@ def test_bowstring_parabola_carries_uniform_panel_loads_in_its_chords(tmp_path):
 def test_tower_under_top_loads_carries_them_in_its_legs(tmp_path, pattern):
     """Legs -P, every other member 0 balances every joint; the truss is determinate, so that is
     the solution (statics, c)."""
-    got = member_forces(write_and_read(tmp_path, pattern, span=3.0, depth=12.0, panels=4, panel_load=P))
+    got = member_forces(
+        write_and_read(tmp_path, pattern, span=3.0, depth=12.0, panels=4, panel_load=P)
+    )
     for member, value in got.items():
         is_leg = member[0] == member[2] if len(member) == 4 else False
         assert value == pytest.approx(-P if is_leg else 0.0, abs=RTOL * P), member
@@ -282,14 +398,29 @@ def test_fractions_are_written_exactly(tmp_path):
     assert Fraction(model.joints[model.joint_index["L1"]].coords[0]) == Fraction(16 / 3)
 
 
-@pytest.mark.parametrize(("args", "fragment"), [
-    (["prat", "--span", "24", "--depth", "3"], "unknown pattern 'prat'"),
-    (["pratt", "--span", "24", "--depth", "3", "--panels", "5"], "pratt needs an even number of panels"),
-    (["king-post", "--span", "8", "--depth", "3", "--panels", "4"], "king-post has 2 panels by its shape"),
-    (["pratt", "--span", "-24", "--depth", "3"], "--span must be a positive length"),
-    (["grid", "--span", "8", "--depth", "1", "--line-load", "2"], "grid takes --panel-load at its top joints only"),
-    (["pratt", "--span", "24", "--depth", "3", "--panel-load", "1", "--line-load", "2"], "not both"),
-])
+@pytest.mark.parametrize(
+    ("args", "fragment"),
+    [
+        (["prat", "--span", "24", "--depth", "3"], "unknown pattern 'prat'"),
+        (
+            ["pratt", "--span", "24", "--depth", "3", "--panels", "5"],
+            "pratt needs an even number of panels",
+        ),
+        (
+            ["king-post", "--span", "8", "--depth", "3", "--panels", "4"],
+            "king-post has 2 panels by its shape",
+        ),
+        (["pratt", "--span", "-24", "--depth", "3"], "--span must be a positive length"),
+        (
+            ["grid", "--span", "8", "--depth", "1", "--line-load", "2"],
+            "grid takes --panel-load at its top joints only",
+        ),
+        (
+            ["pratt", "--span", "24", "--depth", "3", "--panel-load", "1", "--line-load", "2"],
+            "not both",
+        ),
+    ],
+)
 def test_starter_refuses_bad_options_with_exit_2(tmp_path, args, fragment):
     result = CliRunner().invoke(main, ["starter", *args, "--out", str(tmp_path / "out")])
     assert result.exit_code == 2 and fragment in result.output, result.output

@@ -40,7 +40,9 @@ from verify.model import Model
 
 RTOL = 1e-9  # exact closed forms against a double-precision solve of a small system
 PROPERTY_RTOL = 1e-7  # random trusses: conditioning of K ~ cond(A)^2 costs a few digits
-WELL_CONDITIONED = 1e4  # cond(A) limit for random determinate draws: K's error grows like eps cond(A)^2
+WELL_CONDITIONED = (
+    1e4  # cond(A) limit for random determinate draws: K's error grows like eps cond(A)^2
+)
 SETTINGS = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
 
@@ -94,7 +96,9 @@ def test_three_bar_truss_matches_timoshenko_formulas(alpha_deg: float) -> None:
     assert force(model, N, "BD") == pytest.approx(P / k, rel=RTOL)
     assert force(model, N, "AD") == pytest.approx(P * math.cos(a) ** 2 / k, rel=RTOL)
     assert force(model, N, "CD") == pytest.approx(P * math.cos(a) ** 2 / k, rel=RTOL)
-    assert displacement(model, sol.displacements, "D", 1) == pytest.approx(-P * L / (EA * k), rel=RTOL)
+    assert displacement(model, sol.displacements, "D", 1) == pytest.approx(
+        -P * L / (EA * k), rel=RTOL
+    )
     assert displacement(model, sol.displacements, "D", 0) == pytest.approx(0.0, abs=1e-12 * L)
     assert sol.forces.route == "stiffness"
     assert not sol.equal_EA_assumed
@@ -114,13 +118,17 @@ def test_three_bar_truss_45_degrees_exact_values() -> None:
     sol = solve_stiffness(model, assume_equal_EA=7.0)
     assert math.tan(a) == pytest.approx(1.0)
     assert force(model, sol.forces.member_forces, "BD") == pytest.approx(2 - math.sqrt(2), rel=RTOL)
-    assert force(model, sol.forces.member_forces, "AD") == pytest.approx(1 - math.sqrt(2) / 2, rel=RTOL)
+    assert force(model, sol.forces.member_forces, "AD") == pytest.approx(
+        1 - math.sqrt(2) / 2, rel=RTOL
+    )
     assert sol.equal_EA_assumed
     assert EQUAL_EA_NOTE in sol.notes and EQUAL_EA_NOTE in sol.forces.notes
 
 
 # -- square panel with both diagonals (REFERENCES 3.6) ------------------------------------------
-def square_case(a: float, loads: dict[str, dict[str, list[float]]], *, roller: object = ("y",)) -> dict:
+def square_case(
+    a: float, loads: dict[str, dict[str, list[float]]], *, roller: object = ("y",)
+) -> dict:
     case = truss_case(
         {"A": [0.0, 0.0], "B": [a, 0.0], "C": [a, a], "D": [0.0, a]},
         [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A"), ("A", "C"), ("B", "D")],
@@ -138,8 +146,22 @@ SQUARE_LOADS = {
 r2 = math.sqrt(2.0)
 SQUARE_TABLE = {  # REFERENCES 3.6 table, per unit P: AB, BC, CD, DA, AC, BD
     "P at D, +x": [0.5, -0.5, -0.5, 0.5, 1 / r2, -1 / r2],
-    "P at C, +x": [(3 - r2) / 4, -(1 + r2) / 4, (3 - r2) / 4, (3 - r2) / 4, (2 + r2) / 4, (2 - 3 * r2) / 4],
-    "P at C, down": [(r2 - 1) / 4, -(5 - r2) / 4, (r2 - 1) / 4, (r2 - 1) / 4, -(2 - r2) / 4, -(2 - r2) / 4],
+    "P at C, +x": [
+        (3 - r2) / 4,
+        -(1 + r2) / 4,
+        (3 - r2) / 4,
+        (3 - r2) / 4,
+        (2 + r2) / 4,
+        (2 - 3 * r2) / 4,
+    ],
+    "P at C, down": [
+        (r2 - 1) / 4,
+        -(5 - r2) / 4,
+        (r2 - 1) / 4,
+        (r2 - 1) / 4,
+        -(2 - r2) / 4,
+        -(2 - r2) / 4,
+    ],
 }
 
 
@@ -164,10 +186,16 @@ def test_square_panel_with_both_diagonals_matches_force_method_and_table() -> No
         N0 = np.insert(t0[: b - 1], model.member_index["BD"], 0.0)
         X = -(N0 * n * L).sum() / (n**2 * L).sum()
         expected = N0 + X * n
-        np.testing.assert_allclose(sol.forces.member_forces[:, col], expected, rtol=RTOL, atol=1e-12)
-        np.testing.assert_allclose(sol.forces.member_forces[:, col], SQUARE_TABLE[name], rtol=1e-6, atol=1e-12)
+        np.testing.assert_allclose(
+            sol.forces.member_forces[:, col], expected, rtol=RTOL, atol=1e-12
+        )
+        np.testing.assert_allclose(
+            sol.forces.member_forces[:, col], SQUARE_TABLE[name], rtol=1e-6, atol=1e-12
+        )
     # REFERENCES 3.6: u_D = (1 + sqrt2) P a / EA for P at D.
-    assert displacement(model, sol.displacements, "D", 0, 0) == pytest.approx((1 + r2) * a / EA, rel=RTOL)
+    assert displacement(model, sol.displacements, "D", 0, 0) == pytest.approx(
+        (1 + r2) * a / EA, rel=RTOL
+    )
 
 
 def rotation(theta: float) -> np.ndarray:
@@ -182,14 +210,22 @@ def test_inclined_roller_equals_axis_aligned_roller_of_rotated_truss(beta_deg: f
     a = 2.0
     base = {"A": [0.0, 0.0], "B": [a, 0.0], "C": [a, a], "D": [0.0, a]}
     loads = {"L": {"C": [3.0, -7.0], "D": [1.0, 2.0]}}
-    members = {"AB": ["A", "B"], "BC": ["B", "C"], "CD": ["C", "D"], "DA": ["D", "A"], "AC": ["A", "C"], "BD": ["B", "D"]}
+    members = {
+        "AB": ["A", "B"],
+        "BC": ["B", "C"],
+        "CD": ["C", "D"],
+        "DA": ["D", "A"],
+        "AC": ["A", "C"],
+        "BD": ["B", "D"],
+    }
     # Axis-aligned: roller at B restrains y.
     plain = truss_case(base, members, {"A": ["x", "y"], "B": ["y"]}, loads)
     plain["members"]["BD"] = {"ends": ["B", "D"], "EA": 2.0e4}
     plain["stiffness"] = {"EA": 1.0e4}
     # Rotated by beta: the roller at B now acts along R @ (0, 1), an inclined roller.
     rot = truss_case(
-        {k: list(Rm @ np.array(v)) for k, v in base.items()}, members,
+        {k: list(Rm @ np.array(v)) for k, v in base.items()},
+        members,
         {"A": ["x", "y"], "B": {"direction": list(Rm @ np.array([0.0, 1.0]))}},
         {"L": {j: list(Rm @ np.array(v)) for j, v in loads["L"].items()}},
     )
@@ -198,7 +234,9 @@ def test_inclined_roller_equals_axis_aligned_roller_of_rotated_truss(beta_deg: f
     m_plain, m_rot = make_model(plain), make_model(rot)
     assert m_rot.reactions[-1].axis == "n"
     s_plain, s_rot = solve_stiffness(m_plain), solve_stiffness(m_rot)
-    np.testing.assert_allclose(s_rot.forces.member_forces, s_plain.forces.member_forces, rtol=RTOL, atol=1e-10)
+    np.testing.assert_allclose(
+        s_rot.forces.member_forces, s_plain.forces.member_forces, rtol=RTOL, atol=1e-10
+    )
     # Displacements rotate with the truss; the inclined roller does not move along its normal.
     x_plain = s_plain.displacements[:, 0].reshape(-1, 2)
     x_rot = s_rot.displacements[:, 0].reshape(-1, 2)
@@ -257,7 +295,9 @@ def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) 
     assert "MMD_AT_PLUS_A" in first.notes[0] and "COLAMD" not in first.notes[0]
     real_splu = stiffness_module.spla.splu
 
-    def slow_mmd(K, permc_spec=None, **options):  # stands in for an MMD ordering whose fill explodes
+    def slow_mmd(
+        K, permc_spec=None, **options
+    ):  # stands in for an MMD ordering whose fill explodes
         if permc_spec == "MMD_AT_PLUS_A":
             time.sleep(0.5)
         return real_splu(K, permc_spec=permc_spec, **options)
@@ -265,7 +305,11 @@ def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) 
     monkeypatch.setattr(stiffness_module, "DIRECT_FREE_LIMIT", 0)
     monkeypatch.setattr(stiffness_module.spla, "splu", slow_mmd)
     second = solve_stiffness(model, time_box=0.05)
-    assert "COLAMD" in second.notes[0] and "time box" in second.notes[0] and "stopped" in second.notes[0]
+    assert (
+        "COLAMD" in second.notes[0]
+        and "time box" in second.notes[0]
+        and "stopped" in second.notes[0]
+    )
     np.testing.assert_allclose(second.forces.member_forces, first.forces.member_forces, rtol=1e-10)
 
 
@@ -273,9 +317,12 @@ def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) 
 def test_virtual_work_example_1_triangle() -> None:
     """REFERENCES 3.7 worked example 1 (Hibbeler method): Delta_C = 10.5 P/EA = 5.25 mm; u_B = 16P/(3EA)."""
     P, EA = 100.0, 2.0e5
-    case = truss_case({"A": [0.0, 0.0], "B": [8.0, 0.0], "C": [4.0, 3.0]},
-                      [("A", "B"), ("A", "C"), ("B", "C")], {"A": ["x", "y"], "B": ["y"]},
-                      {"P": {"C": [0.0, -P]}})
+    case = truss_case(
+        {"A": [0.0, 0.0], "B": [8.0, 0.0], "C": [4.0, 3.0]},
+        [("A", "B"), ("A", "C"), ("B", "C")],
+        {"A": ["x", "y"], "B": ["y"]},
+        {"P": {"C": [0.0, -P]}},
+    )
     case["stiffness"] = {"EA": EA}
     model = make_model(case)
     N = np.array([2 * P / 3, -5 * P / 6, -5 * P / 6])  # REFERENCES 3.7: AB, AC, BC
@@ -290,7 +337,9 @@ def test_virtual_work_example_1_triangle() -> None:
     sol = solve_stiffness(model)
     np.testing.assert_allclose(sol.forces.member_forces[:, 0], N, rtol=RTOL)
     assert -displacement(model, sol.displacements, "C", 1) == pytest.approx(10.5 * P / EA, rel=RTOL)
-    assert displacement(model, sol.displacements, "B", 0) == pytest.approx(16 * P / (3 * EA), rel=RTOL)
+    assert displacement(model, sol.displacements, "B", 0) == pytest.approx(
+        16 * P / (3 * EA), rel=RTOL
+    )
     text = render_virtual_work(calc, model)
     assert "n N L / EA (m)" in text and "sum" in text
     assert "Delta = 0.00525 m" in text
@@ -307,12 +356,25 @@ def test_virtual_work_example_2_pratt_midspan() -> None:
     assert calc.deflection == pytest.approx(928 * P / 3 / EA, rel=RTOL)
     assert calc.deflection * 1000 == pytest.approx(15.47, abs=0.005)
     n = {r.member: r.unit_force for r in calc.rows}
-    expected_n = {"L0L1": 2 / 3, "L1L2": 2 / 3, "L2L3": 4 / 3, "U1U2": -4 / 3, "U2U3": -2.0, "L0U1": -5 / 6,
-                  "U5L6": -5 / 6, "U1L2": 5 / 6, "U2L2": -0.5, "U1L1": 0.0, "U3L3": 0.0}
+    expected_n = {
+        "L0L1": 2 / 3,
+        "L1L2": 2 / 3,
+        "L2L3": 4 / 3,
+        "U1U2": -4 / 3,
+        "U2U3": -2.0,
+        "L0U1": -5 / 6,
+        "U5L6": -5 / 6,
+        "U1L2": 5 / 6,
+        "U2L2": -0.5,
+        "U1L1": 0.0,
+        "U3L3": 0.0,
+    }
     for member, value in expected_n.items():
         assert n[member] == pytest.approx(value, rel=RTOL, abs=1e-12), member
     sol = solve_stiffness(model)
-    assert -displacement(model, sol.displacements, "L3", 1) == pytest.approx(928 * P / 3 / EA, rel=RTOL)
+    assert -displacement(model, sol.displacements, "L3", 1) == pytest.approx(
+        928 * P / 3 / EA, rel=RTOL
+    )
 
 
 def test_virtual_work_rejects_unknown_joint_and_zero_direction() -> None:
@@ -339,7 +401,11 @@ def test_virtual_work_on_indeterminate_square_uses_admissible_set() -> None:
     assert calc.unit_load_route == "statics on the truss with its redundants released"
     assert calc.deflection == pytest.approx((1 + r2) * a / EA, rel=RTOL)
     text = render_virtual_work(calc, model)
-    released = text.split("redundants released for the unit load: ", 1)[1].split(" (their n = 0)")[0].split(", ")
+    released = (
+        text.split("redundants released for the unit load: ", 1)[1]
+        .split(" (their n = 0)")[0]
+        .split(", ")
+    )
     assert len(released) == 1
     diagonal = next(m for m in model.members if m.id == released[0])
     assert model.lengths[model.member_index[diagonal.id]] == pytest.approx(a * r2, rel=RTOL)
@@ -347,7 +413,9 @@ def test_virtual_work_on_indeterminate_square_uses_admissible_set() -> None:
 
 
 # -- random trusses (hypothesis) ------------------------------------------------------------
-def braced_case(seed: int, panels: int, extra_support: bool, inclined: bool) -> tuple[dict, list[int]]:
+def braced_case(
+    seed: int, panels: int, extra_support: bool, inclined: bool
+) -> tuple[dict, list[int]]:
     """A random multi-panel truss: per panel one diagonal (either way) or both; random EA, loads.
 
     Returns the case and the kinds per panel (0, 1: one diagonal; 2: cross-braced).
@@ -357,7 +425,9 @@ def braced_case(seed: int, panels: int, extra_support: bool, inclined: bool) -> 
     hs = rng.uniform(1.5, 4.0, panels + 1)
     joints = {f"L{i}": [float(xs[i]), 0.0] for i in range(panels + 1)}
     joints.update({f"U{i}": [float(xs[i]), float(hs[i])] for i in range(panels + 1)})
-    pairs = [(f"L{i}", f"L{i + 1}") for i in range(panels)] + [(f"U{i}", f"U{i + 1}") for i in range(panels)]
+    pairs = [(f"L{i}", f"L{i + 1}") for i in range(panels)] + [
+        (f"U{i}", f"U{i + 1}") for i in range(panels)
+    ]
     pairs += [(f"L{i}", f"U{i}") for i in range(panels + 1)]
     kinds = [int(k) for k in rng.integers(0, 3, panels)]
     for i, kind in enumerate(kinds):
@@ -365,7 +435,9 @@ def braced_case(seed: int, panels: int, extra_support: bool, inclined: bool) -> 
             pairs.append((f"L{i}", f"U{i + 1}"))
         if kind in (1, 2):
             pairs.append((f"U{i}", f"L{i + 1}"))
-    members = {f"{p}{q}": {"ends": [p, q], "EA": float(rng.uniform(0.5, 5.0) * 1e5)} for p, q in pairs}
+    members = {
+        f"{p}{q}": {"ends": [p, q], "EA": float(rng.uniform(0.5, 5.0) * 1e5)} for p, q in pairs
+    }
     last = f"L{panels}"
     if inclined:
         angle = rng.uniform(-0.6, 0.6)
@@ -388,8 +460,15 @@ def self_stress_basis(A: np.ndarray) -> np.ndarray:
 
 
 @SETTINGS
-@given(seed=st.integers(0, 2**32 - 1), panels=st.integers(1, 6), extra=st.booleans(), inclined=st.booleans())
-def test_random_indeterminate_truss_equilibrium_and_compatibility(seed: int, panels: int, extra: bool, inclined: bool) -> None:
+@given(
+    seed=st.integers(0, 2**32 - 1),
+    panels=st.integers(1, 6),
+    extra=st.booleans(),
+    inclined=st.booleans(),
+)
+def test_random_indeterminate_truss_equilibrium_and_compatibility(
+    seed: int, panels: int, extra: bool, inclined: bool
+) -> None:
     """Elastic forces satisfy A t + f = 0, the supports do not move, e = NL/EA = B^T u, and every
     self-stress state does no work on the elongations (force-method compatibility, common practice)."""
     case, _ = braced_case(seed, panels, extra, inclined)
@@ -414,12 +493,16 @@ def test_random_indeterminate_truss_equilibrium_and_compatibility(seed: int, pan
     np.testing.assert_allclose(S[:b].T @ e, 0.0, atol=PROPERTY_RTOL * e_scale * math.sqrt(b))
     # Superposition: the combination column equals 1.5 W - 0.5 S.
     N = sol.forces.member_forces
-    np.testing.assert_allclose(N[:, 2], 1.5 * N[:, 0] - 0.5 * N[:, 1], rtol=1e-9, atol=1e-9 * np.abs(N).max())
+    np.testing.assert_allclose(
+        N[:, 2], 1.5 * N[:, 0] - 0.5 * N[:, 1], rtol=1e-9, atol=1e-9 * np.abs(N).max()
+    )
 
 
 @SETTINGS
 @given(seed=st.integers(0, 10**9), joints=st.integers(3, 9), ea_seed=st.integers(0, 2**32 - 1))
-def test_determinate_truss_stiffness_equals_statics_whatever_ea(seed: int, joints: int, ea_seed: int) -> None:
+def test_determinate_truss_stiffness_equals_statics_whatever_ea(
+    seed: int, joints: int, ea_seed: int
+) -> None:
     """On a determinate truss the elastic forces are the statics forces for any EA (common practice)."""
     case = random_simple_truss(random.Random(seed), joints)
     rng = np.random.default_rng(ea_seed)
@@ -431,15 +514,24 @@ def test_determinate_truss_stiffness_equals_statics_whatever_ea(seed: int, joint
     statics = solve_global(model)
     sol = solve_stiffness(model)
     scale = max(np.abs(statics.member_forces).max(), np.abs(model.load_matrix()).max())
-    np.testing.assert_allclose(sol.forces.member_forces, statics.member_forces, atol=PROPERTY_RTOL * scale)
+    np.testing.assert_allclose(
+        sol.forces.member_forces, statics.member_forces, atol=PROPERTY_RTOL * scale
+    )
     np.testing.assert_allclose(sol.forces.reactions, statics.reactions, atol=PROPERTY_RTOL * scale)
 
 
 @SETTINGS
-@given(seed=st.integers(0, 2**32 - 1), panels=st.integers(1, 5), extra=st.booleans(), inclined=st.booleans(),
-       which=st.integers(0, 10**6), angle=st.floats(0.0, 2 * math.pi))
-def test_unit_load_deflection_equals_stiffness_displacement(seed: int, panels: int, extra: bool, inclined: bool,
-                                                           which: int, angle: float) -> None:
+@given(
+    seed=st.integers(0, 2**32 - 1),
+    panels=st.integers(1, 5),
+    extra=st.booleans(),
+    inclined=st.booleans(),
+    which=st.integers(0, 10**6),
+    angle=st.floats(0.0, 2 * math.pi),
+)
+def test_unit_load_deflection_equals_stiffness_displacement(
+    seed: int, panels: int, extra: bool, inclined: bool, which: int, angle: float
+) -> None:
     """REFERENCES 3.7 unit-load method = direct stiffness displacement, determinate or not (reduced-
     structure theorem for indeterminate draws)."""
     case, kinds = braced_case(seed, panels, extra, inclined)
@@ -467,9 +559,14 @@ def space_case(seed: int, extra_joints: int) -> dict:
         for a in rng.choice(k, size=3, replace=False):
             pairs.append((int(a), k))
     joints = {f"J{i}": [float(c) for c in p] for i, p in enumerate(pts)}
-    members = {f"M{a}_{b}": {"ends": [f"J{a}", f"J{b}"], "EA": float(rng.uniform(1.0, 3.0) * 1e5)} for a, b in pairs}
+    members = {
+        f"M{a}_{b}": {"ends": [f"J{a}", f"J{b}"], "EA": float(rng.uniform(1.0, 3.0) * 1e5)}
+        for a, b in pairs
+    }
     loads = {"L": {f"J{len(pts) - 1}": [float(v) for v in rng.uniform(-10, 10, 3)]}}
-    return truss_case(joints, members, {"J0": ["x", "y", "z"], "J1": ["y", "z"], "J2": ["z"]}, loads)
+    return truss_case(
+        joints, members, {"J0": ["x", "y", "z"], "J1": ["y", "z"], "J2": ["z"]}, loads
+    )
 
 
 @SETTINGS
@@ -482,5 +579,7 @@ def test_space_truss_stiffness_equals_statics(seed: int, extra_joints: int) -> N
     statics = solve_global(model)
     sol = solve_stiffness(model)
     scale = max(np.abs(statics.member_forces).max(), np.abs(model.load_matrix()).max())
-    np.testing.assert_allclose(sol.forces.member_forces, statics.member_forces, atol=PROPERTY_RTOL * scale)
+    np.testing.assert_allclose(
+        sol.forces.member_forces, statics.member_forces, atol=PROPERTY_RTOL * scale
+    )
     assert sol.max_residual <= PROPERTY_RTOL * max(scale, 1.0)

@@ -31,7 +31,9 @@ def sympy_truss(case: dict, *, exact: bool) -> Truss:
     truss = Truss()
     truss.add_node(*[(j, number(x), number(y)) for j, (x, y) in case["joints"].items()])
     truss.add_member(*[(m, a, b) for m, (a, b) in case["members"].items()])
-    truss.apply_support(*[(j, "pinned" if axes == ["x", "y"] else "roller") for j, axes in case["supports"].items()])
+    truss.apply_support(
+        *[(j, "pinned" if axes == ["x", "y"] else "roller") for j, axes in case["supports"].items()]
+    )
     for joint, (fx, fy) in case["loads"]["L"].items():
         if fx:
             truss.apply_load((joint, number(abs(fx)), 0 if fx > 0 else 180))
@@ -44,8 +46,18 @@ def sympy_truss(case: dict, *, exact: bool) -> Truss:
 @st.composite
 def simple_trusses(draw, max_joints: int = 8, span: int = 10):
     n = draw(st.integers(4, max_joints))
-    points = draw(st.lists(st.tuples(st.integers(0, span), st.integers(0, span)), min_size=n, max_size=n, unique=True))
-    attachments = [tuple(draw(st.lists(st.integers(0, k - 1), min_size=2, max_size=2, unique=True))) for k in range(3, n)]
+    points = draw(
+        st.lists(
+            st.tuples(st.integers(0, span), st.integers(0, span)),
+            min_size=n,
+            max_size=n,
+            unique=True,
+        )
+    )
+    attachments = [
+        tuple(draw(st.lists(st.integers(0, k - 1), min_size=2, max_size=2, unique=True)))
+        for k in range(3, n)
+    ]
     component = st.integers(-20, 20)
     loads = {k: draw(st.tuples(component, component)) for k in range(n)}
     loads = {k: v for k, v in loads.items() if v != (0, 0)}
@@ -59,10 +71,14 @@ def simple_trusses(draw, max_joints: int = 8, span: int = 10):
 def compare(case: dict, truss: Truss) -> None:
     model = make_model(case)
     expected = np.array([float(truss.internal_forces[m.id]) for m in model.members])
-    expected_r = np.array([float(truss.reaction_loads[f"R_{r.joint}_{r.axis}"]) for r in model.reactions])
+    expected_r = np.array(
+        [float(truss.reaction_loads[f"R_{r.joint}_{r.axis}"]) for r in model.reactions]
+    )
     scale = max(1.0, float(np.abs(expected).max()))
     for forces in (solve_joints(model).forces, solve_global(model)):
-        np.testing.assert_allclose(forces.member_forces[:, 0], expected, rtol=RTOL, atol=RTOL * scale)
+        np.testing.assert_allclose(
+            forces.member_forces[:, 0], expected, rtol=RTOL, atol=RTOL * scale
+        )
         np.testing.assert_allclose(forces.reactions[:, 0], expected_r, rtol=RTOL, atol=RTOL * scale)
 
 
@@ -91,7 +107,9 @@ def test_sympy_sign_convention_is_tension_positive():
     P = sympy.symbols("P", positive=True)
     truss = Truss()
     truss.add_node(("A", 0, 0), ("B", 8, 0), ("C", 4, 3), ("D", 4, 0))
-    truss.add_member(("AD", "A", "D"), ("DB", "D", "B"), ("AC", "A", "C"), ("CB", "C", "B"), ("CD", "C", "D"))
+    truss.add_member(
+        ("AD", "A", "D"), ("DB", "D", "B"), ("AC", "A", "C"), ("CB", "C", "B"), ("CD", "C", "D")
+    )
     truss.apply_support(("A", "pinned"), ("B", "roller"))
     truss.apply_load(("C", P, 270), ("D", 10, 270))
     truss.solve()
@@ -104,9 +122,12 @@ def test_sympy_sign_convention_is_tension_positive():
 
 def test_sympy_and_verify_agree_on_the_king_post_signs():
     """The same king post in verify: tie in tension (+), rafters in compression (-), hanger +10."""
-    case = truss_case({"A": [0, 0], "B": [8, 0], "C": [4, 3], "D": [4, 0]},
-                      [("A", "D"), ("D", "B"), ("A", "C"), ("C", "B"), ("C", "D")],
-                      {"A": ["x", "y"], "B": ["y"]}, {"L": {"C": [0, -6], "D": [0, -10]}})
+    case = truss_case(
+        {"A": [0, 0], "B": [8, 0], "C": [4, 3], "D": [4, 0]},
+        [("A", "D"), ("D", "B"), ("A", "C"), ("C", "B"), ("C", "D")],
+        {"A": ["x", "y"], "B": ["y"]},
+        {"L": {"C": [0, -6], "D": [0, -10]}},
+    )
     compare(case, sympy_truss(case, exact=True))
     model = make_model(case)
     forces = solve_global(model).member_forces[:, 0]
@@ -119,7 +140,14 @@ def test_sympy_refuses_a_count_it_cannot_solve():
     """REFERENCES.md 4.2: sympy demands 2j = b + r; the oracle is only used on such trusses."""
     truss = Truss()
     truss.add_node(("A", 0, 0), ("B", 1, 0), ("C", 1, 1), ("D", 0, 1))
-    truss.add_member(("AB", "A", "B"), ("BC", "B", "C"), ("CD", "C", "D"), ("DA", "D", "A"), ("AC", "A", "C"), ("BD", "B", "D"))
+    truss.add_member(
+        ("AB", "A", "B"),
+        ("BC", "B", "C"),
+        ("CD", "C", "D"),
+        ("DA", "D", "A"),
+        ("AC", "A", "C"),
+        ("BD", "B", "D"),
+    )
     truss.apply_support(("A", "pinned"), ("B", "roller"))
     truss.apply_load(("C", 10, 0))
     with pytest.raises(ValueError, match="cannot be solved"):

@@ -22,9 +22,18 @@ ureg = pint.UnitRegistry()
 # Our symbol -> pint's name for the same unit. pint calls the tonne-force 'metric_ton_force'
 # (its 'tf' alias means the same); 'tonne_force' is not a pint name.
 PINT_NAME = {
-    "m": "meter", "mm": "millimeter", "cm": "centimeter", "ft": "foot", "in": "inch",
-    "N": "newton", "kN": "kilonewton", "MN": "meganewton", "lbf": "pound_force",
-    "kip": "kip", "kgf": "kilogram_force", "tonne-force": "metric_ton_force",
+    "m": "meter",
+    "mm": "millimeter",
+    "cm": "centimeter",
+    "ft": "foot",
+    "in": "inch",
+    "N": "newton",
+    "kN": "kilonewton",
+    "MN": "meganewton",
+    "lbf": "pound_force",
+    "kip": "kip",
+    "kgf": "kilogram_force",
+    "tonne-force": "metric_ton_force",
 }
 
 
@@ -46,7 +55,10 @@ def test_factor_to_si_matches_pint(symbol):
 @pytest.mark.parametrize("symbol", sorted(PINT_NAME))
 def test_dimension_matches_pint(symbol):
     dims = ureg.Quantity(1.0, PINT_NAME[symbol]).dimensionality
-    expected = {Dimension.LENGTH: ureg.meter.dimensionality, Dimension.FORCE: ureg.newton.dimensionality}
+    expected = {
+        Dimension.LENGTH: ureg.meter.dimensionality,
+        Dimension.FORCE: ureg.newton.dimensionality,
+    }
     assert dims == expected[UNITS[symbol].dimension]
 
 
@@ -60,7 +72,11 @@ def test_nist_exact_factors():
     assert UNITS["in"].to_si == 0.0254
 
 
-PAIRS = [(a, b) for a, b in itertools.product(sorted(UNITS), repeat=2) if UNITS[a].dimension is UNITS[b].dimension]
+PAIRS = [
+    (a, b)
+    for a, b in itertools.product(sorted(UNITS), repeat=2)
+    if UNITS[a].dimension is UNITS[b].dimension
+]
 
 
 @pytest.mark.parametrize(("a", "b"), PAIRS)
@@ -76,13 +92,30 @@ def test_conversion_between_dimensions_is_refused():
 
 # Spelled-out aliases and what pint makes of the same words.
 ALIAS_PINT = {
-    "metre": "metre", "meter": "meter", "metres": "metres", "meters": "meters",
-    "millimetre": "millimetre", "millimeter": "millimeter", "millimetres": "millimetres",
-    "millimeters": "millimeters", "foot": "foot", "feet": "feet", "inch": "inch",
-    "inches": "inches", "newton": "newton", "newtons": "newtons", "kilonewton": "kilonewton",
-    "kilonewtons": "kilonewtons", "meganewton": "meganewton", "kips": "kips", "kipf": "kip",
-    "lbs-force": "pound_force", "pound-force": "pound_force", "tf": "tf",
-    "tonnes-force": "metric_ton_force", "metric-ton-force": "metric_ton_force",
+    "metre": "metre",
+    "meter": "meter",
+    "metres": "metres",
+    "meters": "meters",
+    "millimetre": "millimetre",
+    "millimeter": "millimeter",
+    "millimetres": "millimetres",
+    "millimeters": "millimeters",
+    "foot": "foot",
+    "feet": "feet",
+    "inch": "inch",
+    "inches": "inches",
+    "newton": "newton",
+    "newtons": "newtons",
+    "kilonewton": "kilonewton",
+    "kilonewtons": "kilonewtons",
+    "meganewton": "meganewton",
+    "kips": "kips",
+    "kipf": "kip",
+    "lbs-force": "pound_force",
+    "pound-force": "pound_force",
+    "tf": "tf",
+    "tonnes-force": "metric_ton_force",
+    "metric-ton-force": "metric_ton_force",
     "kilogram-force": "kilogram_force",
 }
 
@@ -98,7 +131,9 @@ def test_alias_resolves_to_the_unit_pint_gives(alias):
     assert unit.to_si == pytest.approx(pint_si(ALIAS_PINT[alias]), rel=RTOL)
 
 
-@pytest.mark.parametrize("text", ["k", "t", "T", "ton", "tons", "Ton", "lb", "lbs", "LB", "tonne", "kg"])
+@pytest.mark.parametrize(
+    "text", ["k", "t", "T", "ton", "tons", "Ton", "lb", "lbs", "LB", "tonne", "kg"]
+)
 @pytest.mark.parametrize("dimension", [Dimension.FORCE, Dimension.LENGTH])
 def test_ambiguous_symbols_are_refused_listing_accepted_units(text, dimension):
     with pytest.raises(ValueError) as info:
@@ -120,7 +155,10 @@ def test_lb_message_suggests_lbf():
 
 
 def test_unknown_unit_lists_accepted_units():
-    with pytest.raises(ValueError, match="unknown force unit 'kNN'; accepted: N, kN, MN, lbf, kip, kgf, tonne-force"):
+    with pytest.raises(
+        ValueError,
+        match="unknown force unit 'kNN'; accepted: N, kN, MN, lbf, kip, kgf, tonne-force",
+    ):
         lookup_unit("kNN", Dimension.FORCE)
 
 
@@ -146,8 +184,16 @@ def test_prefix_case_is_not_folded_into_another_unit(text, dimension):
 
 
 AREA_PINT = {"m2": "m**2", "cm2": "cm**2", "mm2": "mm**2", "in2": "inch**2", "ft2": "foot**2"}
-MODULUS_PINT = {"Pa": "Pa", "kPa": "kPa", "MPa": "MPa", "GPa": "GPa", "N/mm2": "N/mm**2",
-                "kN/m2": "kN/m**2", "psi": "psi", "ksi": "ksi"}
+MODULUS_PINT = {
+    "Pa": "Pa",
+    "kPa": "kPa",
+    "MPa": "MPa",
+    "GPa": "GPa",
+    "N/mm2": "N/mm**2",
+    "kN/m2": "kN/m**2",
+    "psi": "psi",
+    "ksi": "ksi",
+}
 
 
 def test_area_and_modulus_tables_are_fully_checked():

@@ -46,7 +46,10 @@ def truss_case(
         "joints": {str(k): [float(c) for c in v] for k, v in joints.items()},
         "members": member_table,
         "supports": {str(k): v for k, v in supports.items()},
-        "loads": {name: {str(j): [float(c) for c in vec] for j, vec in table.items()} for name, table in loads.items()},
+        "loads": {
+            name: {str(j): [float(c) for c in vec] for j, vec in table.items()}
+            for name, table in loads.items()
+        },
     }
     if combinations:
         case["combinations"] = {k: dict(v) for k, v in combinations.items()}
@@ -68,7 +71,9 @@ def forces_by_id(model: Model, forces: np.ndarray, column: int = 0) -> dict[str,
 
 
 # -- parallel-chord trusses (REFERENCES.md 3.2 geometry by default) ------------------------------
-def _chorded(panels: int, d: float, h: float) -> tuple[dict[str, list[float]], list[tuple[str, str]]]:
+def _chorded(
+    panels: int, d: float, h: float
+) -> tuple[dict[str, list[float]], list[tuple[str, str]]]:
     joints = {f"L{i}": [i * d, 0.0] for i in range(panels + 1)}
     joints.update({f"U{i}": [i * d, h] for i in range(1, panels)})
     members = [(f"L{i}", f"L{i + 1}") for i in range(panels)]
@@ -82,7 +87,9 @@ def _bottom_loads(panels: int, load: float) -> dict[str, list[float]]:
     return {f"L{i}": [0.0, -load] for i in range(1, panels)}
 
 
-def pratt(panels: int = 6, *, d: float = 4.0, h: float = 3.0, load: float = 1.0, case: str = "P") -> Case:
+def pratt(
+    panels: int = 6, *, d: float = 4.0, h: float = 3.0, load: float = 1.0, case: str = "P"
+) -> Case:
     """Pratt: diagonals slope down toward midspan (U1L2, ..., U5L4 for 6 panels); even panels."""
     if panels < 2 or panels % 2:
         raise ValueError("pratt() needs an even number of panels >= 2")
@@ -90,11 +97,18 @@ def pratt(panels: int = 6, *, d: float = 4.0, h: float = 3.0, load: float = 1.0,
     half = panels // 2
     members += [(f"U{i}", f"L{i + 1}") for i in range(1, half)]
     members += [(f"U{i}", f"L{i - 1}") for i in range(half + 1, panels)]
-    return truss_case(joints, members, {"L0": ["x", "y"], f"L{panels}": ["y"]}, {case: _bottom_loads(panels, load)},
-                      title=f"{panels}-panel Pratt")
+    return truss_case(
+        joints,
+        members,
+        {"L0": ["x", "y"], f"L{panels}": ["y"]},
+        {case: _bottom_loads(panels, load)},
+        title=f"{panels}-panel Pratt",
+    )
 
 
-def howe(panels: int = 6, *, d: float = 4.0, h: float = 3.0, load: float = 1.0, case: str = "P") -> Case:
+def howe(
+    panels: int = 6, *, d: float = 4.0, h: float = 3.0, load: float = 1.0, case: str = "P"
+) -> Case:
     """Howe: diagonals slope up toward midspan (L1U2, ..., L5U4 for 6 panels); even panels."""
     if panels < 2 or panels % 2:
         raise ValueError("howe() needs an even number of panels >= 2")
@@ -102,8 +116,13 @@ def howe(panels: int = 6, *, d: float = 4.0, h: float = 3.0, load: float = 1.0, 
     half = panels // 2
     members += [(f"L{i}", f"U{i + 1}") for i in range(1, half)]
     members += [(f"L{i}", f"U{i - 1}") for i in range(half + 1, panels)]
-    return truss_case(joints, members, {"L0": ["x", "y"], f"L{panels}": ["y"]}, {case: _bottom_loads(panels, load)},
-                      title=f"{panels}-panel Howe")
+    return truss_case(
+        joints,
+        members,
+        {"L0": ["x", "y"], f"L{panels}": ["y"]},
+        {case: _bottom_loads(panels, load)},
+        title=f"{panels}-panel Howe",
+    )
 
 
 def warren(panels: int = 4, *, side: float = 4.0, load: float = 1.0, case: str = "P") -> Case:
@@ -115,8 +134,13 @@ def warren(panels: int = 4, *, side: float = 4.0, load: float = 1.0, case: str =
     members += [(f"U{i}", f"U{i + 1}") for i in range(1, panels)]
     for i in range(1, panels + 1):
         members += [(f"L{i - 1}", f"U{i}"), (f"U{i}", f"L{i}")]
-    return truss_case(joints, members, {"L0": ["x", "y"], f"L{panels}": ["y"]}, {case: _bottom_loads(panels, load)},
-                      title=f"{panels}-panel Warren")
+    return truss_case(
+        joints,
+        members,
+        {"L0": ["x", "y"], f"L{panels}": ["y"]},
+        {case: _bottom_loads(panels, load)},
+        title=f"{panels}-panel Warren",
+    )
 
 
 # -- random simple trusses (Henneberg type I steps from a triangle) ------------------------------
@@ -154,11 +178,18 @@ def simple_truss(
     joints = {f"J{i}": [float(x), float(y)] for i, (x, y) in enumerate(points)}
     members = {f"M{a}_{b}": [f"J{a}", f"J{b}"] for a, b in pairs}
     case_loads = {"L": {f"J{i}": [float(fx), float(fy)] for i, (fx, fy) in loads.items()}}
-    return truss_case(joints, members, {"J0": ["x", "y"], f"J{roller}": ["y"]}, case_loads,
-                      title=f"random simple truss, {n} joints")
+    return truss_case(
+        joints,
+        members,
+        {"J0": ["x", "y"], f"J{roller}": ["y"]},
+        case_loads,
+        title=f"random simple truss, {n} joints",
+    )
 
 
-def random_simple_truss(rng: random.Random, joints: int, *, span: int = 12, max_load: int = 20) -> Case:
+def random_simple_truss(
+    rng: random.Random, joints: int, *, span: int = 12, max_load: int = 20
+) -> Case:
     """A random stable simple truss with integer coordinates and integer loads (retries until valid)."""
     while True:
         points: list[tuple[int, int]] = []
@@ -167,7 +198,12 @@ def random_simple_truss(rng: random.Random, joints: int, *, span: int = 12, max_
             if p not in points:
                 points.append(p)
         attachments = [tuple(rng.sample(range(k), 2)) for k in range(3, joints)]
-        loads = {rng.randrange(joints): (rng.randint(-max_load, max_load), rng.randint(-max_load, max_load))}
+        loads = {
+            rng.randrange(joints): (
+                rng.randint(-max_load, max_load),
+                rng.randint(-max_load, max_load),
+            )
+        }
         loads = {k: v for k, v in loads.items() if v != (0, 0)}
         if not loads:
             continue
@@ -188,7 +224,9 @@ def _toml_value(value: Any) -> str:
     if isinstance(value, (list, tuple)):
         return "[" + ", ".join(_toml_value(v) for v in value) + "]"
     if isinstance(value, Mapping):
-        return "{ " + ", ".join(f"{_toml_key(k)} = {_toml_value(v)}" for k, v in value.items()) + " }"
+        return (
+            "{ " + ", ".join(f"{_toml_key(k)} = {_toml_value(v)}" for k, v in value.items()) + " }"
+        )
     raise TypeError(f"cannot write {value!r} as TOML")
 
 
@@ -200,7 +238,11 @@ def to_toml(case: Mapping[str, Any]) -> str:
     """The case dict as TOML text (quoted keys, so ids such as "007" stay strings)."""
     sections = ("units", "stiffness", "joints", "members", "supports", "loads", "combinations")
     # Plain top-level values (the title, CSV file names) must come before the first table header.
-    lines = [f"{k} = {_toml_value(v)}" for k, v in case.items() if k not in sections or isinstance(v, str)]
+    lines = [
+        f"{k} = {_toml_value(v)}"
+        for k, v in case.items()
+        if k not in sections or isinstance(v, str)
+    ]
     for section in sections:
         table = case.get(section)
         if not isinstance(table, Mapping):

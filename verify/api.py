@@ -123,7 +123,9 @@ class ReviewResult:
     """A claims table checked against the recomputed forces."""
 
     review: Review
-    displacement_file: tuple[str, str] | None = None  # (path, SHA-256) of claimed displacements checked
+    displacement_file: tuple[str, str] | None = (
+        None  # (path, SHA-256) of claimed displacements checked
+    )
 
     @property
     def model(self) -> Model:
@@ -157,8 +159,21 @@ class ReviewResult:
     def findings(self) -> pd.DataFrame:
         import pandas as pd
 
-        columns = ["severity", "kind", "title", "case", "members", "detail", "variant", "explains", "unexplained",
-                   "factor", "joints", "locations", "next_step"]
+        columns = [
+            "severity",
+            "kind",
+            "title",
+            "case",
+            "members",
+            "detail",
+            "variant",
+            "explains",
+            "unexplained",
+            "factor",
+            "joints",
+            "locations",
+            "next_step",
+        ]
         records = [
             {
                 "severity": severity_word(f.severity.value),
@@ -196,7 +211,8 @@ class ReviewResult:
         ]
         # The words every output shows (report/names.py), so the DataFrame says what --json says.
         records = [
-            {k: v for k, v in row.as_dict().items() if k in columns} | {"status": kind_word(str(row.status))}
+            {k: v for k, v in row.as_dict().items() if k in columns}
+            | {"status": kind_word(str(row.status))}
             for row in self.review.rows
             if row.kind == kind
         ]
@@ -206,7 +222,9 @@ class ReviewResult:
         """The full review report (as `check --report` writes it)."""
         from verify.report.document import render_document
 
-        return render_document(self.review, fmt=fmt, generated=generated, displacement_file=self.displacement_file)
+        return render_document(
+            self.review, fmt=fmt, generated=generated, displacement_file=self.displacement_file
+        )
 
     def _repr_html_(self) -> str:
         from verify.report.document import diagrams_html, finding_sentence
@@ -249,7 +267,9 @@ def _frame_html(frame: Any) -> str:
     return str(frame.to_html(escape=True, float_format=lambda v: f"{v:.4g}", na_rep="—")) + note
 
 
-def solve(case_path: str | Path, *, assume_equal_EA: float | None = None, tables_anywhere: bool = False) -> SolveResult:
+def solve(
+    case_path: str | Path, *, assume_equal_EA: float | None = None, tables_anywhere: bool = False
+) -> SolveResult:
     """Read the case and recompute every member force and reaction."""
     from verify.options import check_assume_equal_ea
 
@@ -286,10 +306,22 @@ def review(
     claims table none of whose labels match the case, raises verify.errors.InputError. Both are
     ValueErrors, and the command line refuses the same inputs with exit status 2.
     """
-    options = CheckOptions(sign=sign, unit=unit, sheet=sheet, pages=pages, rtol=rtol, atol_fraction=atol_fraction,
-                           member_column=member_column, case_column=case_column, force_column=force_column,
-                           load_case=case, assume_equal_EA=assume_equal_EA, displacements=displacements,
-                           tables_anywhere=tables_anywhere, spelt=(("load_case", "case"),))
+    options = CheckOptions(
+        sign=sign,
+        unit=unit,
+        sheet=sheet,
+        pages=pages,
+        rtol=rtol,
+        atol_fraction=atol_fraction,
+        member_column=member_column,
+        case_column=case_column,
+        force_column=force_column,
+        load_case=case,
+        assume_equal_EA=assume_equal_EA,
+        displacements=displacements,
+        tables_anywhere=tables_anywhere,
+        spelt=(("load_case", "case"),),
+    )
     result = check(case_path, claims_path, options)
     return ReviewResult(result.review, displacement_file=result.displacement_file)
 

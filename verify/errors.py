@@ -51,12 +51,15 @@ def has_controls(text: str) -> bool:
 
 def escape_controls(text: str, *, keep: str = "") -> str:
     """`text` with every control character written as a visible escape (\\x1b, \\r, \\u2028)."""
+
     def visible(match: re.Match[str]) -> str:
         char = match.group(0)
         if char in keep:
             return char
         return {"\n": "\\n", "\r": "\\r", "\t": "\\t"}.get(char) or (
-            f"\\x{ord(char):02x}" if ord(char) < 0x100 else f"\\u{ord(char):04x}")
+            f"\\x{ord(char):02x}" if ord(char) < 0x100 else f"\\u{ord(char):04x}"
+        )
+
     return _CONTROLS.sub(visible, text)
 
 
@@ -132,7 +135,9 @@ def did_you_mean(name: str, candidates: Iterable[str], *, n: int = 2) -> str:
     # then what difflib finds close.
     exact = [c for c in pool if c.casefold() == wanted]
     within = [c for c in pool if len(wanted) >= 3 and wanted in c.casefold() and c not in exact]
-    close = list(dict.fromkeys(exact + within + difflib.get_close_matches(str(name), pool, n=n, cutoff=0.5)))[:n]
+    close = list(
+        dict.fromkeys(exact + within + difflib.get_close_matches(str(name), pool, n=n, cutoff=0.5))
+    )[:n]
     if not close:
         return ""
     quoted = " or ".join(f"'{c}'" for c in close)

@@ -130,7 +130,9 @@ class Model:
             xyz, ends = np.asarray(arrays[0], dtype=float), np.asarray(arrays[1], dtype=np.int64)
         else:
             xyz = np.array([j.coords for j in self.joints], dtype=float)
-            ends = np.array([(joint_index[m.start], joint_index[m.end]) for m in self.members], dtype=np.int64)
+            ends = np.array(
+                [(joint_index[m.start], joint_index[m.end]) for m in self.members], dtype=np.int64
+            )
         xyz = xyz.reshape(len(self.joints), self.dim)
         ends = ends.reshape(len(self.members), 2)
         delta = xyz[ends[:, 1]] - xyz[ends[:, 0]] if len(self.members) else np.zeros((0, self.dim))
@@ -189,8 +191,12 @@ class Model:
             if not case.loads:
                 continue
             # One vector per loaded joint (the reader refuses a joint loaded twice in a case).
-            index = np.fromiter((self.joint_index[j] for j in case.loads), dtype=np.int64, count=len(case.loads))
-            vectors = np.array(list(case.loads.values()), dtype=float).reshape(len(case.loads), self.dim)
+            index = np.fromiter(
+                (self.joint_index[j] for j in case.loads), dtype=np.int64, count=len(case.loads)
+            )
+            vectors = np.array(list(case.loads.values()), dtype=float).reshape(
+                len(case.loads), self.dim
+            )
             rows = (index[:, None] * self.dim + np.arange(self.dim)).ravel()
             np.add.at(F[:, k], rows, vectors.ravel())
         case_pos = {c.name: k for k, c in enumerate(self.cases)}

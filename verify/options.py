@@ -31,9 +31,15 @@ class CleanOptions:
 def _fraction(name: str, value: object, *, low_open: bool, meaning: str) -> float:
     """A number in (0, 1) (low_open) or [0, 1); NaN, infinities and text are refused."""
     number = value if isinstance(value, (int, float)) and not isinstance(value, bool) else None
-    if number is None or not math.isfinite(number) or not (0 < number < 1 if low_open else 0 <= number < 1):
+    if (
+        number is None
+        or not math.isfinite(number)
+        or not (0 < number < 1 if low_open else 0 <= number < 1)
+    ):
         interval = "(0, 1)" if low_open else "[0, 1)"
-        raise OptionError(f"{name}={shown(value)}: {meaning} must be a number in {interval}, e.g. 0.01 for 1 %")
+        raise OptionError(
+            f"{name}={shown(value)}: {meaning} must be a number in {interval}, e.g. 0.01 for 1 %"
+        )
     return float(number)
 
 
@@ -41,20 +47,38 @@ def check_assume_equal_ea(value: object, *, name: str = "assume_equal_EA") -> fl
     """None, or a positive finite axial stiffness."""
     if value is None:
         return None
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (math.isfinite(value) and value > 0):
-        raise OptionError(f"{name}={shown(value)}: must be a positive number (an axial stiffness in the case's force unit)")
+    if (
+        isinstance(value, bool)
+        or not isinstance(value, (int, float))
+        or not (math.isfinite(value) and value > 0)
+    ):
+        raise OptionError(
+            f"{name}={shown(value)}: must be a positive number (an axial stiffness in the case's force unit)"
+        )
     return float(value)
 
 
-def check_options(*, sign: object = "auto", unit: object = None, rtol: object = Tolerance.rtol,
-                  atol_fraction: object = Tolerance.atol_fraction, assume_equal_EA: object = None,
-                  names: dict[str, str] | None = None) -> CleanOptions:
+def check_options(
+    *,
+    sign: object = "auto",
+    unit: object = None,
+    rtol: object = Tolerance.rtol,
+    atol_fraction: object = Tolerance.atol_fraction,
+    assume_equal_EA: object = None,
+    names: dict[str, str] | None = None,
+) -> CleanOptions:
     """The options of a check, clean; OptionError on the first one out of range.
 
     `names` maps an option to the name the user typed (the CLI passes "--rtol" for "rtol").
     """
-    said = {"sign": "sign", "unit": "unit", "rtol": "rtol", "atol_fraction": "atol_fraction",
-            "assume_equal_EA": "assume_equal_EA", **(names or {})}
+    said = {
+        "sign": "sign",
+        "unit": "unit",
+        "rtol": "rtol",
+        "atol_fraction": "atol_fraction",
+        "assume_equal_EA": "assume_equal_EA",
+        **(names or {}),
+    }
     modes = [m.value for m in SignMode]
     if sign not in modes:
         raise OptionError(f"{said['sign']}={shown(sign)}: must be one of {', '.join(modes)}")
@@ -67,8 +91,12 @@ def check_options(*, sign: object = "auto", unit: object = None, rtol: object = 
             raise OptionError(f"{said['unit']}: {exc}") from None
     tolerance = Tolerance(
         rtol=_fraction(said["rtol"], rtol, low_open=True, meaning="the relative tolerance"),
-        atol_fraction=_fraction(said["atol_fraction"], atol_fraction, low_open=False,
-                                meaning="the absolute tolerance (a fraction of the largest force)"),
+        atol_fraction=_fraction(
+            said["atol_fraction"],
+            atol_fraction,
+            low_open=False,
+            meaning="the absolute tolerance (a fraction of the largest force)",
+        ),
     )
     ea = check_assume_equal_ea(assume_equal_EA, name=said["assume_equal_EA"])
     return CleanOptions(SignMode(str(sign)), clean_unit, tolerance, ea)

@@ -82,11 +82,21 @@ class CheckOptions:
         for name in _TEXT_OPTIONS:
             value = getattr(self, name)
             if value is not None and not isinstance(value, str):
-                raise OptionError(f"{names.get(name, name)}={shown(value)}: must be text (a name as the file writes it)")
+                raise OptionError(
+                    f"{names.get(name, name)}={shown(value)}: must be text (a name as the file writes it)"
+                )
         if self.displacements is not None and not isinstance(self.displacements, (str, Path)):
-            raise OptionError(f"{names.get('displacements', 'displacements')}={shown(self.displacements)}: must be a file path")
-        clean = check_options(sign=self.sign, unit=self.unit, rtol=self.rtol, atol_fraction=self.atol_fraction,
-                              assume_equal_EA=self.assume_equal_EA, names=names)
+            raise OptionError(
+                f"{names.get('displacements', 'displacements')}={shown(self.displacements)}: must be a file path"
+            )
+        clean = check_options(
+            sign=self.sign,
+            unit=self.unit,
+            rtol=self.rtol,
+            atol_fraction=self.atol_fraction,
+            assume_equal_EA=self.assume_equal_EA,
+            names=names,
+        )
         # Frozen: the clean values replace the given ones once, here, before anyone reads them.
         object.__setattr__(self, "sign", clean.sign)
         object.__setattr__(self, "unit", clean.unit)
@@ -121,37 +131,66 @@ def case_file(case_path: str | Path) -> str:
     if path.is_dir():
         inside = path / CASE_FILE
         if not inside.is_file():
-            raise InputError([Problem(str(case_path), f"a folder without a {CASE_FILE}; name the case file")])
+            raise InputError(
+                [Problem(str(case_path), f"a folder without a {CASE_FILE}; name the case file")]
+            )
         return str(inside)
     return str(case_path)
 
 
-def check(case_path: str | Path, claims_path: str | Path, options: CheckOptions | None = None) -> CheckResult:
+def check(
+    case_path: str | Path, claims_path: str | Path, options: CheckOptions | None = None
+) -> CheckResult:
     """Check the claims against the case; InputError for a file that cannot be read as one."""
     options = options or CheckOptions()
     model = read_case(case_file(case_path), tables_outside=options.tables_anywhere)
-    claims = read_claims(str(claims_path), model, sheet=options.sheet, member_column=options.member_column,
-                         case_column=options.case_column, force_column=options.force_column,
-                         case=options.load_case, pages=options.pages)
+    claims = read_claims(
+        str(claims_path),
+        model,
+        sheet=options.sheet,
+        member_column=options.member_column,
+        case_column=options.case_column,
+        force_column=options.force_column,
+        case=options.load_case,
+        pages=options.pages,
+    )
     if not claims.values and claims.unmatched:
         # Nothing to compare: most likely the wrong table, which a verdict would hide.
         labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:UNMATCHED_SHOWN])
-        raise InputError([Problem(str(claims_path), f"no label matches a member or reaction of {case_path} "
-                                                    f"(e.g. {labels}); is this the claims table for this case?")])
+        raise InputError(
+            [
+                Problem(
+                    str(claims_path),
+                    f"no label matches a member or reaction of {case_path} "
+                    f"(e.g. {labels}); is this the claims table for this case?",
+                )
+            ]
+        )
     displacement_claims = None
     if options.displacements is not None:
         from verify.io.displacements import read_displacements
 
         displacement_claims = read_displacements(str(options.displacements), model)
-    analysis = analyse(model, assume_equal_EA=options.assume_equal_EA, displacements=displacement_claims is not None)
-    review = compare_claims(analysis, claims, sign=SignMode(options.sign), unit=options.unit,
-                            tolerance=options.tolerance)
+    analysis = analyse(
+        model,
+        assume_equal_EA=options.assume_equal_EA,
+        displacements=displacement_claims is not None,
+    )
+    review = compare_claims(
+        analysis,
+        claims,
+        sign=SignMode(options.sign),
+        unit=options.unit,
+        tolerance=options.tolerance,
+    )
     displacement_file = None
     if displacement_claims is not None:
         from verify.compare.displacements import attach_displacements, compare_displacements
 
-        review = attach_displacements(review, compare_displacements(analysis, displacement_claims,
-                                                                    tolerance=options.tolerance))
+        review = attach_displacements(
+            review,
+            compare_displacements(analysis, displacement_claims, tolerance=options.tolerance),
+        )
         displacement_file = (displacement_claims.source, displacement_claims.sha256)
     read = [str(case_path), model.source, str(claims_path), *model.tables]
     if options.displacements is not None:

@@ -49,17 +49,42 @@ UNITS: dict[str, Unit] = {u.symbol: u for u in _UNITS}
 
 # Common spellings that mean exactly one unit. Keys are lower-case.
 _ALIASES = {
-    "metre": "m", "meter": "m", "metres": "m", "meters": "m",
-    "millimetre": "mm", "millimeter": "mm", "millimetres": "mm", "millimeters": "mm",
-    "foot": "ft", "feet": "ft", "inch": "in", "inches": "in",
-    "newton": "N", "newtons": "N", "kilonewton": "kN", "kilonewtons": "kN",
-    "meganewton": "MN", "kips": "kip", "kipf": "kip", "lbs-force": "lbf", "pound-force": "lbf",
-    "tf": "tonne-force", "tonnes-force": "tonne-force", "metric-ton-force": "tonne-force",
+    "metre": "m",
+    "meter": "m",
+    "metres": "m",
+    "meters": "m",
+    "millimetre": "mm",
+    "millimeter": "mm",
+    "millimetres": "mm",
+    "millimeters": "mm",
+    "foot": "ft",
+    "feet": "ft",
+    "inch": "in",
+    "inches": "in",
+    "newton": "N",
+    "newtons": "N",
+    "kilonewton": "kN",
+    "kilonewtons": "kN",
+    "meganewton": "MN",
+    "kips": "kip",
+    "kipf": "kip",
+    "lbs-force": "lbf",
+    "pound-force": "lbf",
+    "tf": "tonne-force",
+    "tonnes-force": "tonne-force",
+    "metric-ton-force": "tonne-force",
     "kilogram-force": "kgf",
 }
 
-_FOLDABLE = {"kn": "kN", "kip": "kip", "lbf": "lbf", "kgf": "kgf", "ft": "ft", "in": "in",
-             "tonne-force": "tonne-force"}
+_FOLDABLE = {
+    "kn": "kN",
+    "kip": "kip",
+    "lbf": "lbf",
+    "kgf": "kgf",
+    "ft": "ft",
+    "in": "in",
+    "tonne-force": "tonne-force",
+}
 
 AMBIGUOUS = {
     "k": "'k' is a prefix, not a unit (kN? kip?)",

@@ -30,8 +30,10 @@ DEAD_BOTTOM, DEAD_TOP, TRAFFIC = 20.0, 10.0, 40.0  # kN per panel point (invente
 
 def bridge():
     case = pratt(PANELS, d=3.0, h=3.5, load=TRAFFIC, case="traffic")
-    case["loads"]["dead"] = {**{f"L{i}": [0.0, -DEAD_BOTTOM] for i in range(1, PANELS)},
-                             **{f"U{i}": [0.0, -DEAD_TOP] for i in range(1, PANELS)}}
+    case["loads"]["dead"] = {
+        **{f"L{i}": [0.0, -DEAD_BOTTOM] for i in range(1, PANELS)},
+        **{f"U{i}": [0.0, -DEAD_TOP] for i in range(1, PANELS)},
+    }
     case["combinations"] = {"ULS": {"dead": 1.35, "traffic": 1.5}}
     return case
 
@@ -41,8 +43,13 @@ def claims_of(case, columns=None, figures=3):
     analysis = analyse(make_model(case))
     ref = analysis.reference
     names = columns or analysis.model.load_names
-    return {c: {m: round_sig(float(ref.member_forces[i, ref.column(c)]), figures)
-                for i, m in enumerate(analysis.model.member_ids)} for c in names}
+    return {
+        c: {
+            m: round_sig(float(ref.member_forces[i, ref.column(c)]), figures)
+            for i, m in enumerate(analysis.model.member_ids)
+        }
+        for c in names
+    }
 
 
 def review_of(case, claims):
@@ -75,7 +82,10 @@ def test_traffic_on_the_top_chord_is_one_cause_naming_the_joints():
     (cause,) = causes(review)
     assert cause.severity is Severity.ERROR and cause.unexplained == 0
     assert cause.joints == tuple(f"U{i}" for i in range(1, PANELS))
-    assert "'traffic' loads applied at U1" in cause.variant and "(the joints directly above) instead of L1" in cause.variant
+    assert (
+        "'traffic' loads applied at U1" in cause.variant
+        and "(the joints directly above) instead of L1" in cause.variant
+    )
     # the verticals carry the difference in 'traffic' and 'ULS'; nothing else is reported
     assert set(cause.members) == {f"U{i}L{i}" for i in range(1, PANELS)}
     assert [f.kind for f in review.findings if f.severity is Severity.ERROR] == ["likely-cause"]
@@ -90,7 +100,10 @@ def test_wrong_chord_and_wrong_factor_are_both_named():
     named = {c.variant for c in causes(review)}
     assert "'ULS' taking 1.5 × dead instead of 1.35 × dead" in named
     assert any("'traffic' loads applied at U1" in v for v in named)
-    assert [f.kind for f in review.findings if f.severity is Severity.ERROR] == ["likely-cause", "likely-cause"]
+    assert [f.kind for f in review.findings if f.severity is Severity.ERROR] == [
+        "likely-cause",
+        "likely-cause",
+    ]
 
 
 def test_combination_factor_alone():
@@ -110,8 +123,10 @@ def test_load_case_left_out_of_a_combination():
     assert cause.variant.startswith("'self-weight' left out of 'ULS'") and cause.factor == 0.0
     # self-weight loads the same joints as traffic, so the claims cannot tell the two readings apart
     # (1.5 - 0.1 x 1.35 = 1.365 on traffic: 1.35 and 1.36 both fit within the tolerance)
-    assert re.search(r"; or, equally for these claims, 'ULS' taking 1\.3[56] × traffic instead of 1\.5 × traffic",
-                     cause.variant), cause.variant
+    assert re.search(
+        r"; or, equally for these claims, 'ULS' taking 1\.3[56] × traffic instead of 1\.5 × traffic",
+        cause.variant,
+    ), cause.variant
 
 
 def test_one_load_left_out():
@@ -169,7 +184,9 @@ def test_rows_shifted_by_one():
     review = review_of(bridge(), claims)
     (cause,) = causes(review)
     assert "1 row(s) off their labels" in cause.variant and cause.factor == 1.0
-    assert not [f for f in review.findings if f.kind in ("value-mismatch", "sign-flip", "swapped-labels")]
+    assert not [
+        f for f in review.findings if f.kind in ("value-mismatch", "sign-flip", "swapped-labels")
+    ]
 
 
 def test_a_random_error_is_never_given_a_model_cause():
@@ -177,7 +194,10 @@ def test_a_random_error_is_never_given_a_model_cause():
     claims["traffic"]["U2L3"] *= 1.3
     claims["dead"]["L4L5"] *= 0.8
     review = review_of(bridge(), claims)
-    assert causes(review) == [] and sorted(f.kind for f in errors(review)) == ["value-mismatch", "value-mismatch"]
+    assert causes(review) == [] and sorted(f.kind for f in errors(review)) == [
+        "value-mismatch",
+        "value-mismatch",
+    ]
 
 
 # -- wind suction on a pitched roof ----------------------------------------------------------------
@@ -187,23 +207,52 @@ RISE = 1.5
 def barn_roof(wind_vertical=False):
     """4-panel pitched roof, 12 m span, rise 3 m (1:2 pitch); wind suction of 5 kN per panel point
     normal to the windward rafter (L0-U1-U2)."""
-    joints = {"L0": [0, 0], "L1": [3, 0], "L2": [6, 0], "L3": [9, 0], "L4": [12, 0],
-              "U1": [3, RISE], "U2": [6, 2 * RISE], "U3": [9, RISE]}
-    members = [("L0", "L1"), ("L1", "L2"), ("L2", "L3"), ("L3", "L4"), ("L0", "U1"), ("U1", "U2"), ("U2", "U3"),
-               ("U3", "L4"), ("U1", "L1"), ("U2", "L2"), ("U3", "L3"), ("L1", "U2"), ("L3", "U2")]
+    joints = {
+        "L0": [0, 0],
+        "L1": [3, 0],
+        "L2": [6, 0],
+        "L3": [9, 0],
+        "L4": [12, 0],
+        "U1": [3, RISE],
+        "U2": [6, 2 * RISE],
+        "U3": [9, RISE],
+    }
+    members = [
+        ("L0", "L1"),
+        ("L1", "L2"),
+        ("L2", "L3"),
+        ("L3", "L4"),
+        ("L0", "U1"),
+        ("U1", "U2"),
+        ("U2", "U3"),
+        ("U3", "L4"),
+        ("U1", "L1"),
+        ("U2", "L2"),
+        ("U3", "L3"),
+        ("L1", "U2"),
+        ("L3", "U2"),
+    ]
     slope = math.hypot(3, RISE)
     normal = (-RISE / slope, 3 / slope)  # outward from the windward rafter
+
     def suction(p):
         return [0.0, p] if wind_vertical else [p * normal[0], p * normal[1]]
-    loads = {"dead": {j: [0.0, -6.0] for j in ("U1", "U2", "U3")},
-             "wind": {"U1": suction(5.0), "U2": suction(2.5)}}
+
+    loads = {
+        "dead": {j: [0.0, -6.0] for j in ("U1", "U2", "U3")},
+        "wind": {"U1": suction(5.0), "U2": suction(2.5)},
+    }
     return truss_case(joints, members, {"L0": ["x", "y"], "L4": ["y"]}, loads, title="barn roof")
 
 
 def test_wind_applied_vertically_instead_of_normal_to_the_rafter():
     review = review_of(barn_roof(), claims_of(barn_roof(wind_vertical=True)))
     (cause,) = causes(review)
-    assert cause.case == "wind" and set(cause.joints) == {"U1", "U2"} and "applied vertically" in cause.variant
+    assert (
+        cause.case == "wind"
+        and set(cause.joints) == {"U1", "U2"}
+        and "applied vertically" in cause.variant
+    )
     assert review_of(barn_roof(), claims_of(barn_roof())).verdict is Verdict.AGREES
 
 
@@ -212,15 +261,21 @@ def mast(levels=3, wind_level=None):
     """Triangular lattice mast, 1.2 m legs apart, 2 m per level; wind 800 N along x at each joint
     of the top level (or of `wind_level`)."""
     corners = [(0.0, 0.0), (1.2, 0.0), (0.6, 1.2 * math.sqrt(3) / 2)]
-    joints = {f"{'ABC'[c]}{k}": [x, y, 2.0 * k] for k in range(levels + 1) for c, (x, y) in enumerate(corners)}
+    joints = {
+        f"{'ABC'[c]}{k}": [x, y, 2.0 * k]
+        for k in range(levels + 1)
+        for c, (x, y) in enumerate(corners)
+    }
     members = []
     for k in range(1, levels + 1):
         for c in range(3):
             here, other = f"{'ABC'[c]}{k}", f"{'ABC'[(c + 1) % 3]}{k}"
             members += [(f"{'ABC'[c]}{k - 1}", here), (here, other), (f"{'ABC'[c]}{k - 1}", other)]
     top = wind_level if wind_level is not None else levels
-    loads = {"wind": {f"{c}{top}": [800.0, 0.0, 0.0] for c in "ABC"},
-             "dead": {f"{c}{levels}": [0.0, 0.0, -1500.0] for c in "ABC"}}
+    loads = {
+        "wind": {f"{c}{top}": [800.0, 0.0, 0.0] for c in "ABC"},
+        "dead": {f"{c}{levels}": [0.0, 0.0, -1500.0] for c in "ABC"},
+    }
     supports = {f"{c}0": ["x", "y", "z"] for c in "ABC"}
     return truss_case(joints, members, supports, loads, units=("m", "N"), title="lattice mast")
 
@@ -238,7 +293,9 @@ def test_a_claimed_zero_is_never_a_sign_flip():
     case = bridge()
     analysis = analyse(make_model(case))
     truth = claims_of(case)
-    small = min((m for m, v in truth["traffic"].items() if v < -1.0), key=lambda m: abs(truth["traffic"][m]))
+    small = min(
+        (m for m, v in truth["traffic"].items() if v < -1.0), key=lambda m: abs(truth["traffic"][m])
+    )
     truth["traffic"][small] = 0.0
     review = compare_claims(analysis, table(truth))
     assert [(f.kind, f.members) for f in errors(review)] == [("value-mismatch", (small,))]
@@ -259,12 +316,17 @@ def test_swapped_rows_found_on_an_indeterminate_truss():
     """Both diagonals in the four inner panels (4 states of self-stress), EA given: the
     elastic solution is the reference, and two swapped rows are one swapped-labels finding."""
     case = pratt(6, load=10.0, case="dead")
-    case["members"].update({"L1U2": ["L1", "U2"], "L2U3": ["L2", "U3"], "U3L4": ["U3", "L4"], "U4L5": ["U4", "L5"]})
+    case["members"].update(
+        {"L1U2": ["L1", "U2"], "L2U3": ["L2", "U3"], "U3L4": ["U3", "L4"], "U4L5": ["U4", "L5"]}
+    )
     case["members"] = {k: {"ends": v, "EA": 2.0e5} for k, v in case["members"].items()}
     analysis = analyse(make_model(case))
     assert analysis.stability.self_stress > 0 and analysis.elastic is not None
     ref = analysis.reference
-    truth = {m: round_sig(float(ref.member_forces[i, 0]), 4) for i, m in enumerate(analysis.model.member_ids)}
+    truth = {
+        m: round_sig(float(ref.member_forces[i, 0]), 4)
+        for i, m in enumerate(analysis.model.member_ids)
+    }
     truth["L1L2"], truth["U2U3"] = truth["U2U3"], truth["L1L2"]
     review = compare_claims(analysis, table({"dead": truth}))
     swaps = [f for f in review.findings if f.kind == "swapped-labels"]
@@ -308,7 +370,10 @@ def test_combination_column_checked_against_the_tables_own_cases():
     variant["combinations"] = {"ULS": {"dead": 1.5, "traffic": 1.5}}
     review = review_of(bridge(), claims_of(variant))
     (own,) = [f for f in review.findings if f.kind == "inconsistent-combination"]
-    assert own.case == "ULS" and "the column is 1.5 × traffic + 1.5 × dead of them throughout" in own.detail
+    assert (
+        own.case == "ULS"
+        and "the column is 1.5 × traffic + 1.5 × dead of them throughout" in own.detail
+    )
     # the likely cause already names the factor: the table's own check corroborates it
     assert own.severity is Severity.INFO
 
@@ -374,7 +439,9 @@ def test_both_supports_pinned_is_named_with_the_thrust_each_column_carries():
     variant["members"] = {k: {"ends": v, "EA": 2.0e5} for k, v in variant["members"].items()}
     review = review_of(case, claims_of(variant))
     (cause,) = causes(review)
-    assert cause.joints == (f"L{PANELS}",) and f"L{PANELS} restrained along x as well" in cause.variant
+    assert (
+        cause.joints == (f"L{PANELS}",) and f"L{PANELS} restrained along x as well" in cause.variant
+    )
     assert cause.unexplained == 0 and [f.kind for f in errors(review)] == ["likely-cause"]
 
 
@@ -409,8 +476,10 @@ def test_a_long_truss_still_shows_a_load_left_out():
     left out is named among the many single loads that nearly fit."""
     panels = 200
     long = pratt(panels, d=3.0, h=3.5, load=TRAFFIC, case="traffic")
-    long["loads"]["dead"] = {**{f"L{i}": [0.0, -DEAD_BOTTOM] for i in range(1, panels)},
-                             **{f"U{i}": [0.0, -DEAD_TOP] for i in range(1, panels)}}
+    long["loads"]["dead"] = {
+        **{f"L{i}": [0.0, -DEAD_BOTTOM] for i in range(1, panels)},
+        **{f"U{i}": [0.0, -DEAD_TOP] for i in range(1, panels)},
+    }
     long["combinations"] = {"ULS": {"dead": 1.35, "traffic": 1.5}}
     assert review_of(long, claims_of(long)).verdict is Verdict.AGREES
     for joint in ("L70", "L133"):
@@ -431,7 +500,10 @@ def test_a_released_support_on_an_indeterminate_truss_is_named():
     variant["supports"] = {"L0": ["x", "y"], f"L{PANELS}": ["y"]}
     review = review_of(case, claims_of(variant))
     (cause,) = [f for f in errors(review) if f.kind == "likely-cause"]
-    assert cause.joints == (f"L{PANELS}",) and f"the support at L{PANELS} free along x" in cause.variant
+    assert (
+        cause.joints == (f"L{PANELS}",)
+        and f"the support at L{PANELS} free along x" in cause.variant
+    )
     assert review_of(case, claims_of(case)).verdict is Verdict.AGREES
 
 
@@ -445,8 +517,13 @@ def test_member_findings_carry_the_claimed_and_recomputed_values():
     claims["dead"]["L2L3"] = 1.3 * truth
     (finding,) = errors(review_of(bridge(), claims))
     assert finding.kind == "value-mismatch" and finding.claimed == pytest.approx(1.3 * truth)
-    assert finding.recomputed == pytest.approx(truth, rel=0.005)  # the claim table was rounded to 3 figures
-    assert finding.detail.startswith("L2L3 in 'dead': claimed ") and " kN, recomputed " in finding.detail
+    assert finding.recomputed == pytest.approx(
+        truth, rel=0.005
+    )  # the claim table was rounded to 3 figures
+    assert (
+        finding.detail.startswith("L2L3 in 'dead': claimed ")
+        and " kN, recomputed " in finding.detail
+    )
     assert set(TEMPLATES) == {"zero-force-claimed", "sign-flip", "unit-scale", "value-mismatch"}
 
 

@@ -29,13 +29,20 @@ CLEAR = 3.0  # a claim changed by more than this many tolerances is "clearly" ch
 def two_case_trusses(draw):
     family = draw(st.sampled_from([pratt, howe]))
     panels = draw(st.integers(2, 5)) * 2
-    case = family(panels, d=draw(st.sampled_from([2.5, 3.0, 4.0])), h=draw(st.sampled_from([2.0, 3.0, 3.5])), case="A")
+    case = family(
+        panels,
+        d=draw(st.sampled_from([2.5, 3.0, 4.0])),
+        h=draw(st.sampled_from([2.0, 3.0, 3.5])),
+        case="A",
+    )
     bottom = [f"L{i}" for i in range(1, panels)]
     loaded = draw(st.lists(st.sampled_from(bottom), min_size=1, max_size=len(bottom), unique=True))
     case["loads"]["A"] = {j: [0.0, -float(draw(st.integers(5, 60)))] for j in loaded}
     top = [f"U{i}" for i in range(1, panels)]
-    case["loads"]["B"] = {j: [float(draw(st.integers(-10, 10))), -float(draw(st.integers(0, 30)))]
-                          for j in draw(st.lists(st.sampled_from(top), min_size=1, max_size=3, unique=True))}
+    case["loads"]["B"] = {
+        j: [float(draw(st.integers(-10, 10))), -float(draw(st.integers(0, 30)))]
+        for j in draw(st.lists(st.sampled_from(top), min_size=1, max_size=3, unique=True))
+    }
     assume(any(v != [0.0, 0.0] for v in case["loads"]["B"].values()))
     case["combinations"] = {"C": {"A": draw(st.sampled_from([1.2, 1.35])), "B": 1.5}}
     return case
@@ -44,14 +51,24 @@ def two_case_trusses(draw):
 def forces(case):
     analysis = analyse(make_model(case))
     ref = analysis.reference
-    return analysis, {c: {m: float(ref.member_forces[i, ref.column(c)]) for i, m in enumerate(analysis.model.member_ids)}
-                      for c in analysis.model.load_names}
+    return analysis, {
+        c: {
+            m: float(ref.member_forces[i, ref.column(c)])
+            for i, m in enumerate(analysis.model.member_ids)
+        }
+        for c in analysis.model.load_names
+    }
 
 
 def clearly_changed(truth, variant) -> int:
     largest = {c: max(abs(v) for v in col.values()) for c, col in truth.items()}
-    return sum(1 for c in truth for m in truth[c]
-               if abs(variant[c][m] - truth[c][m]) > CLEAR * max(RTOL * abs(truth[c][m]), 1e-3 * largest[c], 0.005 * abs(truth[c][m])))
+    return sum(
+        1
+        for c in truth
+        for m in truth[c]
+        if abs(variant[c][m] - truth[c][m])
+        > CLEAR * max(RTOL * abs(truth[c][m]), 1e-3 * largest[c], 0.005 * abs(truth[c][m]))
+    )
 
 
 def rounded(values, figures=3):
@@ -60,7 +77,9 @@ def rounded(values, figures=3):
     out = {}
     for c, col in values.items():
         largest = max(abs(v) for v in col.values()) or 1.0
-        out[c] = {m: 0.0 if abs(v) < 1e-9 * largest else round_sig(v, figures) for m, v in col.items()}
+        out[c] = {
+            m: 0.0 if abs(v) < 1e-9 * largest else round_sig(v, figures) for m, v in col.items()
+        }
     return out
 
 
@@ -69,7 +88,11 @@ def likely(review):
 
 
 @SETTINGS
-@given(two_case_trusses(), st.sampled_from(["left-out", "doubled", "factor", "chord", "depth"]), st.data())
+@given(
+    two_case_trusses(),
+    st.sampled_from(["left-out", "doubled", "factor", "chord", "depth"]),
+    st.data(),
+)
 def test_a_planted_model_mistake_is_named(case, mistake, data):
     analysis, truth = forces(case)
     variant = copy.deepcopy(case)
@@ -81,7 +104,9 @@ def test_a_planted_model_mistake_is_named(case, mistake, data):
         else:
             variant["loads"]["A"][joint] = [2 * x for x in case["loads"]["A"][joint]]
     elif mistake == "factor":
-        new = data.draw(st.sampled_from([f for f in (1.0, 1.5, 1.6) if f != case["combinations"]["C"]["A"]]))
+        new = data.draw(
+            st.sampled_from([f for f in (1.0, 1.5, 1.6) if f != case["combinations"]["C"]["A"]])
+        )
         variant["combinations"]["C"]["A"] = new
     elif mistake == "chord":
         variant["loads"]["A"] = {"U" + j[1:]: v for j, v in case["loads"]["A"].items()}
@@ -98,14 +123,24 @@ def test_a_planted_model_mistake_is_named(case, mistake, data):
     words = " | ".join(f.variant for f in named)
     if mistake == "left-out":
         # a load moved onto a support is a load left out: alike readings are named together
-        assert any(f.joints == (joint,) and f.factor == 0.0 for f in named) or "'A' loads 0 times" in words \
-            or "'A' left out of 'C'" in words or (f"'A' load at {joint} (" in words and "left out" in words), words
+        assert (
+            any(f.joints == (joint,) and f.factor == 0.0 for f in named)
+            or "'A' loads 0 times" in words
+            or "'A' left out of 'C'" in words
+            or (f"'A' load at {joint} (" in words and "left out" in words)
+        ), words
     elif mistake == "doubled":
-        assert any(f.joints == (joint,) and f.factor == 2.0 for f in named) or "'A' loads 2 times" in words, words
+        assert (
+            any(f.joints == (joint,) and f.factor == 2.0 for f in named)
+            or "'A' loads 2 times" in words
+        ), words
     elif mistake == "factor":
         # with 1.0 x A and a light B the column is A's own forces within tolerance: said so
-        assert any(f.case == "C" and f.factor == new for f in named) or f"{new:g} × A" in words or (
-            new == 1.0 and "the column labelled 'C' holding the forces of 'A'" in words), words
+        assert (
+            any(f.case == "C" and f.factor == new for f in named)
+            or f"{new:g} × A" in words
+            or (new == 1.0 and "the column labelled 'C' holding the forces of 'A'" in words)
+        ), words
     elif mistake == "chord":
         assert "(the joints directly above)" in words, words
     else:
@@ -127,8 +162,12 @@ def test_mast_load_left_out_is_named_in_3d(levels, data):
     # wind of 200-900 N per joint in either direction: loads a thousand times apart make a table
     # whose every value reads as another unit, a separate diagnosis
     size = st.integers(200, 900).flatmap(lambda n: st.sampled_from([n, -n]))
-    loads = {f"{c}{k}": [float(data.draw(size)), float(data.draw(size)), 0.0]
-             for k in range(1, levels + 1) for c in "ABC" if data.draw(st.booleans())}
+    loads = {
+        f"{c}{k}": [float(data.draw(size)), float(data.draw(size)), 0.0]
+        for k in range(1, levels + 1)
+        for c in "ABC"
+        if data.draw(st.booleans())
+    }
     assume(len(loads) >= 2)
     case["loads"]["wind"] = loads
     analysis, truth = forces(case)
@@ -142,4 +181,5 @@ def test_mast_load_left_out_is_named_in_3d(levels, data):
     # equal loads stacked up a leg: leaving out the top one reads the same as moving each down a
     # level (the lowest onto the support), and such alike readings are named together
     assert any(f.joints == (joint,) and f.factor == 0.0 for f in named) or any(
-        f"'wind' load at {joint} (" in f.variant and "left out" in f.variant for f in named), [f.detail for f in review.findings]
+        f"'wind' load at {joint} (" in f.variant and "left out" in f.variant for f in named
+    ), [f.detail for f in review.findings]

@@ -38,12 +38,17 @@ def test_honest_tables_get_no_cause(name):
 
 def test_one_chords_dead_loads_moved_up_is_named_as_such():
     (cause,) = causes(review_of("dead_all_on_top"))
-    assert cause.startswith("the 'dead' loads applied at U1") and "(the joints directly above) instead of L1" in cause
+    assert (
+        cause.startswith("the 'dead' loads applied at U1")
+        and "(the joints directly above) instead of L1" in cause
+    )
 
 
 def test_load_moved_onto_a_loaded_neighbour():
     (cause,) = causes(review_of("load_moved_to_loaded_neighbour"))
-    assert cause.startswith("the 'traffic' load at L3 applied at L2 instead (which then carries 80 instead of 40)")
+    assert cause.startswith(
+        "the 'traffic' load at L3 applied at L2 instead (which then carries 80 instead of 40)"
+    )
 
 
 def test_two_loads_left_out_read_off_the_loads_the_claims_balance():
@@ -53,13 +58,17 @@ def test_two_loads_left_out_read_off_the_loads_the_claims_balance():
 
 def test_a_reversed_load_case_is_a_cause_not_a_sign_convention():
     review = review_of("wind_reversed")
-    assert causes(review) == ["the 'wind' loads applied in the opposite direction (suction for pressure, uplift for down)"]
+    assert causes(review) == [
+        "the 'wind' loads applied in the opposite direction (suction for pressure, uplift for down)"
+    ]
     assert not [f for f in review.findings if f.kind == "table-sign-convention"]
 
 
 def test_a_sign_flip_on_a_symmetric_truss_is_not_a_copy():
     review = review_of("signflip_as_copy")
-    assert causes(review) == [] and [f.members for f in review.findings if f.kind == "sign-flip"] == [("U1U2",)]
+    assert causes(review) == [] and [
+        f.members for f in review.findings if f.kind == "sign-flip"
+    ] == [("U1U2",)]
 
 
 def test_combination_factor_named_on_an_indeterminate_truss():

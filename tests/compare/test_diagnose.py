@@ -35,8 +35,13 @@ def test_exact_claims_agree(pratt_analysis):
 
 
 def test_three_figure_rounding_is_never_flagged(pratt_analysis):
-    rounded = {c: {m: round_sig(v, 3) for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
-    review = compare_claims(pratt_analysis, table(rounded), sign=SignMode.TENSION_POSITIVE, unit="kN")
+    rounded = {
+        c: {m: round_sig(v, 3) for m, v in ms.items()}
+        for c, ms in true_claims(pratt_analysis).items()
+    }
+    review = compare_claims(
+        pratt_analysis, table(rounded), sign=SignMode.TENSION_POSITIVE, unit="kN"
+    )
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
 
 
@@ -79,7 +84,9 @@ def test_single_sign_flip(pratt_analysis):
 
 
 def test_whole_table_times_1000_is_one_unit_finding(pratt_analysis):
-    scaled = {c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    scaled = {
+        c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()
+    }
     review = compare_claims(pratt_analysis, table(scaled))
     assert kinds(review) == ["unit-scale"]
     assert review.convention.scale == pytest.approx(1e-3)
@@ -87,14 +94,19 @@ def test_whole_table_times_1000_is_one_unit_finding(pratt_analysis):
 
 
 def test_stated_unit_contradicted_is_a_discrepancy(pratt_analysis):
-    scaled = {c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    scaled = {
+        c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()
+    }
     review = compare_claims(pratt_analysis, table(scaled, unit="kN"))
     assert kinds(review) == ["unit-scale"] and review.verdict is Verdict.DISCREPANCIES
 
 
 def test_table_in_kip_is_converted(pratt_analysis):
     """1 kip = 4.4482216152605 kN (NIST SP 811, App. B)."""
-    kip = {c: {m: v / 4.4482216152605 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    kip = {
+        c: {m: v / 4.4482216152605 for m, v in ms.items()}
+        for c, ms in true_claims(pratt_analysis).items()
+    }
     review = compare_claims(pratt_analysis, table(kip, unit="kip"))
     assert review.verdict is Verdict.AGREES and kinds(review) == []
 
@@ -153,7 +165,13 @@ def test_difference_within_tolerance_agrees(pratt_analysis):
 
 
 def test_spot_check_reports_missing_claims_but_agrees(pratt_analysis):
-    claims = {"dead": {m: v for m, v in true_claims(pratt_analysis)["dead"].items() if m in ("U1U2", "L2L3", "U1L2")}}
+    claims = {
+        "dead": {
+            m: v
+            for m, v in true_claims(pratt_analysis)["dead"].items()
+            if m in ("U1U2", "L2L3", "U1L2")
+        }
+    }
     review = compare_claims(pratt_analysis, table(claims))
     assert kinds(review) == ["missing-claim"]
     assert review.findings[0].severity is Severity.INFO
@@ -166,14 +184,25 @@ def test_unknown_label(pratt_analysis):
 
 
 def test_column_with_another_cases_values():
-    model = make_model(truss_case(
-        pratt(6)["joints"], {k: v for k, v in pratt(6)["members"].items()}, {"L0": ["x", "y"], "L6": ["y"]},
-        {"dead": {f"L{i}": [0, -10] for i in range(1, 6)}, "snow": {f"U{i}": [0, -4] for i in range(1, 6)}}))
+    model = make_model(
+        truss_case(
+            pratt(6)["joints"],
+            {k: v for k, v in pratt(6)["members"].items()},
+            {"L0": ["x", "y"], "L6": ["y"]},
+            {
+                "dead": {f"L{i}": [0, -10] for i in range(1, 6)},
+                "snow": {f"U{i}": [0, -4] for i in range(1, 6)},
+            },
+        )
+    )
     analysis = analyse(model)
     claims = true_claims(analysis)
     review = compare_claims(analysis, table({"dead": claims["snow"]}))
     (cause,) = [f for f in review.findings if f.kind == "likely-cause"]
-    assert cause.variant == "the column labelled 'dead' holding the forces of 'snow'" and cause.case == "snow"
+    assert (
+        cause.variant == "the column labelled 'dead' holding the forces of 'snow'"
+        and cause.case == "snow"
+    )
     assert cause.locations == ("row 2, column 'dead'",)
 
 
@@ -186,8 +215,12 @@ def test_near_miss_column_matching_its_case():
 
 def test_unstable_truss_cannot_be_verified():
     """A square panel without a diagonal is a mechanism (REFERENCES.md 1.4)."""
-    case = truss_case({"A": [0, 0], "B": [1, 0], "C": [1, 1], "D": [0, 1]}, [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A")],
-                      {"A": ["x", "y"], "B": ["y"]}, {"P": {"C": [1, 0]}})
+    case = truss_case(
+        {"A": [0, 0], "B": [1, 0], "C": [1, 1], "D": [0, 1]},
+        [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A")],
+        {"A": ["x", "y"], "B": ["y"]},
+        {"P": {"C": [1, 0]}},
+    )
     analysis = analyse(make_model(case))
     review = compare_claims(analysis, table({"P": {"AB": 1.0}}))
     assert review.verdict is Verdict.CANNOT_VERIFY
@@ -196,15 +229,20 @@ def test_unstable_truss_cannot_be_verified():
 
 def _braced_square():
     """Square panel with both diagonals, pin + roller: one state of self-stress (REFERENCES.md 1.4)."""
-    return make_model(truss_case({"A": [0, 0], "B": [4, 0], "C": [4, 4], "D": [0, 4]},
-                                 [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A"), ("A", "C"), ("B", "D")],
-                                 {"A": ["x", "y"], "B": ["y"]}, {"P": {"D": [10, 0]}}))
+    return make_model(
+        truss_case(
+            {"A": [0, 0], "B": [4, 0], "C": [4, 4], "D": [0, 4]},
+            [("A", "B"), ("B", "C"), ("C", "D"), ("D", "A"), ("A", "C"), ("B", "D")],
+            {"A": ["x", "y"], "B": ["y"]},
+            {"P": {"D": [10, 0]}},
+        )
+    )
 
 
 def test_indeterminate_without_stiffness_checks_equilibrium_only():
     """With P at D: AB = DA = P/2, BC = CD = -P/2, AC = P/sqrt2, BD = -P/sqrt2 (REFERENCES.md 3.6)."""
     analysis = analyse(_braced_square())
-    s2 = 2 ** 0.5
+    s2 = 2**0.5
     good = {"AB": 5, "BC": -5, "CD": -5, "DA": 5, "AC": 10 / s2, "BD": -10 / s2}
     review = compare_claims(analysis, table({"P": good}))
     assert review.verdict is Verdict.CANNOT_VERIFY
@@ -216,7 +254,7 @@ def test_indeterminate_without_stiffness_checks_equilibrium_only():
 
 def test_indeterminate_claims_out_of_balance_are_located():
     analysis = analyse(_braced_square())
-    s2 = 2 ** 0.5
+    s2 = 2**0.5
     bad = {"AB": 5, "BC": -5, "CD": -8, "DA": 5, "AC": 10 / s2, "BD": -10 / s2}
     review = compare_claims(analysis, table({"P": bad}))
     assert review.verdict is Verdict.DISCREPANCIES
@@ -239,12 +277,20 @@ def test_column_of_zeros_does_not_rescale_the_table():
     claims["live"] = {m: 0.0 for m in claims["live"]}
     review = compare_claims(analysis, table(claims, unit="kN"))
     assert review.convention.scale == 1.0 and review.convention.sign == "tension-positive"
-    assert all(r.status == "agrees" for r in review.rows if r.case == "dead" and r.claimed is not None)
+    assert all(
+        r.status == "agrees" for r in review.rows if r.case == "dead" and r.claimed is not None
+    )
     live = [f for f in review.findings if f.case == "live"]
-    assert [f.kind for f in live] == ["value-mismatch"] and "every member claim in 'live' is 0" in live[0].detail
-    largest = max(abs(r.recomputed) for r in review.rows if r.case == "live" and r.recomputed is not None)
+    assert [f.kind for f in live] == [
+        "value-mismatch"
+    ] and "every member claim in 'live' is 0" in live[0].detail
+    largest = max(
+        abs(r.recomputed) for r in review.rows if r.case == "live" and r.recomputed is not None
+    )
     assert f"{largest:.4g}" in live[0].detail
-    assert {r.status for r in review.rows if r.case == "live" and abs(r.recomputed or 0) > 1e-9} == {"value-mismatch"}
+    assert {
+        r.status for r in review.rows if r.case == "live" and abs(r.recomputed or 0) > 1e-9
+    } == {"value-mismatch"}
 
 
 def _two_case_analysis():
@@ -262,9 +308,15 @@ def test_unitless_column_in_another_unit_is_read_in_its_own_scale():
     claims["live"]["U1L2"] *= 1.2  # a genuine 20 % error, in newtons
     dead = table({"dead": claims["dead"]}, unit="kN").values
     live = table({"live": claims["live"]}).values  # no unit stated anywhere for this column
-    review = compare_claims(analysis, ClaimsTable("<memory>", None, "0" * 64, dead + live, (), ("dead", "live"), None))
-    assert review.convention.column_readings == ("column 'live' read in N (x0.001 against the rest of the table)",)
-    live_findings = sorted((f.kind, f.severity.value, f.members) for f in review.findings if f.case == "live")
+    review = compare_claims(
+        analysis, ClaimsTable("<memory>", None, "0" * 64, dead + live, (), ("dead", "live"), None)
+    )
+    assert review.convention.column_readings == (
+        "column 'live' read in N (x0.001 against the rest of the table)",
+    )
+    live_findings = sorted(
+        (f.kind, f.severity.value, f.members) for f in review.findings if f.case == "live"
+    )
     # The reading is a guess about a table that mixes scales unsaid: an error to confirm.
     assert live_findings == [("unit-scale", "error", ()), ("value-mismatch", "error", ("U1L2",))]
     row = next(r for r in review.rows if r.case == "live" and r.id == "U1L2")
@@ -273,7 +325,10 @@ def test_unitless_column_in_another_unit_is_read_in_its_own_scale():
 
 def test_table_uniformly_in_another_unit_is_still_one_table_finding():
     analysis = _two_case_analysis()
-    scaled = {c: {m: v * 1000 for m, v in ms.items()} for c, ms in true_claims(analysis, ["dead", "live"]).items()}
+    scaled = {
+        c: {m: v * 1000 for m, v in ms.items()}
+        for c, ms in true_claims(analysis, ["dead", "live"]).items()
+    }
     review = compare_claims(analysis, table(scaled))
     assert kinds(review) == ["unit-scale"] and review.convention.column_readings == ()
     assert review.convention.scale == pytest.approx(1e-3)
@@ -292,13 +347,22 @@ def test_combination_claimed_with_other_factors_is_one_finding_naming_them():
     analysis = _combination_analysis()
     cases = true_claims(analysis, ["dead", "wind"])
     claims = true_claims(analysis, ["dead", "wind", "ULS"])
-    claims["ULS"] = {m: 1.35 * cases["dead"][m] + 1.6 * cases["wind"][m] for m in claims["ULS"]}  # 1.6 for 1.5
+    claims["ULS"] = {
+        m: 1.35 * cases["dead"][m] + 1.6 * cases["wind"][m] for m in claims["ULS"]
+    }  # 1.6 for 1.5
     review = compare_claims(analysis, table(claims, unit="kN"))
     uls = [f for f in review.findings if f.case == "ULS" and f.severity is Severity.ERROR]
     assert [f.kind for f in uls] == ["likely-cause"]
-    assert "follow 1.35 × dead + 1.6 × wind" in uls[0].detail and "not 1.35 × dead + 1.5 × wind as the case file combines" in uls[0].detail
+    assert (
+        "follow 1.35 × dead + 1.6 × wind" in uls[0].detail
+        and "not 1.35 × dead + 1.5 × wind as the case file combines" in uls[0].detail
+    )
     assert uls[0].variant == "'ULS' as 1.35 × dead + 1.6 × wind instead of 1.35 × dead + 1.5 × wind"
-    assert all(r.status in ("likely-cause", "agrees") for r in review.rows if r.case == "ULS" and r.claimed is not None)
+    assert all(
+        r.status in ("likely-cause", "agrees")
+        for r in review.rows
+        if r.case == "ULS" and r.claimed is not None
+    )
 
 
 def test_proportional_cases_give_a_factor_on_the_whole_combination():
@@ -312,8 +376,13 @@ def test_proportional_cases_give_a_factor_on_the_whole_combination():
     review = compare_claims(analysis, table(claims, unit="kN"))
     uls = [f for f in review.findings if f.case == "ULS"]
     # 1.08 x (1.35 + 1.5 x 2) dead-units = 4.698, which a claimant writes as 1.7 x dead + 1.5 x live
-    assert [f.kind for f in uls] == ["likely-cause"] and uls[0].explains == len(claims["ULS"]) - 1  # all but the idle mid-span vertical U3L3
-    assert "'ULS' taking 1.7 × dead instead of 1.35 × dead" in uls[0].variant and uls[0].unexplained == 0
+    assert [f.kind for f in uls] == ["likely-cause"] and uls[0].explains == len(
+        claims["ULS"]
+    ) - 1  # all but the idle mid-span vertical U3L3
+    assert (
+        "'ULS' taking 1.7 × dead instead of 1.35 × dead" in uls[0].variant
+        and uls[0].unexplained == 0
+    )
 
 
 def test_one_wrong_claim_in_a_combination_is_not_a_factor_finding():
@@ -337,9 +406,14 @@ def test_column_in_newtons_under_a_kn_header_is_one_column_finding():
     claims = true_claims(analysis, ["dead", "wind"])
     dead = table({"dead": claims["dead"]}, unit="kN").values
     wind = table({"wind": {m: v * 1000 for m, v in claims["wind"].items()}}, unit="kN").values
-    review = compare_claims(analysis, ClaimsTable("<memory>", None, "0" * 64, dead + wind, (), ("dead", "wind"), "kN"))
+    review = compare_claims(
+        analysis, ClaimsTable("<memory>", None, "0" * 64, dead + wind, (), ("dead", "wind"), "kN")
+    )
     assert [(f.kind, f.members) for f in review.findings] == [("unit-scale", ())]
-    assert "reads in N" in review.findings[0].detail and "its header states kN" in review.findings[0].detail
+    assert (
+        "reads in N" in review.findings[0].detail
+        and "its header states kN" in review.findings[0].detail
+    )
 
 
 def test_column_with_reversed_signs_is_one_column_finding_not_false_swaps():
@@ -348,7 +422,9 @@ def test_column_with_reversed_signs_is_one_column_finding_not_false_swaps():
     claims = true_claims(analysis, ["dead", "wind"])
     claims["wind"] = {m: -v for m, v in claims["wind"].items()}
     review = compare_claims(analysis, table(claims, unit="kN"))
-    assert [(f.kind, f.members, f.case) for f in review.findings] == [("table-sign-convention", (), "wind")]
+    assert [(f.kind, f.members, f.case) for f in review.findings] == [
+        ("table-sign-convention", (), "wind")
+    ]
     assert review.verdict is Verdict.DISCREPANCIES
 
 
@@ -363,7 +439,12 @@ def test_load_factor_is_found_past_an_unrelated_typo():
     wind = sorted((f.kind, f.members if f.kind != "likely-cause" else ()) for f in review.findings)
     assert wind == [("likely-cause", ()), ("value-mismatch", ("U1U2",))]
     factor = next(f for f in review.findings if f.kind == "likely-cause")
-    assert factor.case == "wind" and factor.factor == 1.5 and "U1U2" not in factor.members and factor.unexplained == 1
+    assert (
+        factor.case == "wind"
+        and factor.factor == 1.5
+        and "U1U2" not in factor.members
+        and factor.unexplained == 1
+    )
 
 
 def test_claims_near_the_defined_combination_are_not_a_factor_finding():
@@ -382,7 +463,10 @@ def test_claims_rounded_to_fixed_decimals_balance_within_their_rounding():
     each member agrees within half a unit of its last decimal, and the joints, where four such
     roundings add up, must not be called out of balance either."""
     analysis = analyse(make_model(pratt(6, load=1.0, case="dead")))
-    rounded = {c: {m: float(round(v)) + 0.0 for m, v in ms.items()} for c, ms in true_claims(analysis).items()}
+    rounded = {
+        c: {m: float(round(v)) + 0.0 for m, v in ms.items()}
+        for c, ms in true_claims(analysis).items()
+    }
     review = compare_claims(analysis, table(rounded, unit="kN"))
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
     assert not any(f.kind == "equilibrium-residual" for f in review.findings)
@@ -402,8 +486,13 @@ def test_wrong_factor_found_when_some_load_cases_are_proportional():
     review = compare_claims(analysis, table(claims, unit="kN"))
     assert [f.kind for f in review.findings if f.case == "ULS"] == ["likely-cause"]
     # only 'ULS' is claimed, so a larger uplift load reads the same as a larger factor: both are said
-    assert review.findings[0].variant.startswith("'ULS' taking 1.6 × uplift instead of 1.5 × uplift")
-    assert "or, equally for these claims, the 'uplift' loads 1.07 times those of the case file" in review.findings[0].variant
+    assert review.findings[0].variant.startswith(
+        "'ULS' taking 1.6 × uplift instead of 1.5 × uplift"
+    )
+    assert (
+        "or, equally for these claims, the 'uplift' loads 1.07 times those of the case file"
+        in review.findings[0].variant
+    )
     assert review.findings[0].factor == 1.6
 
 
@@ -411,8 +500,20 @@ def test_one_wrong_reaction_is_one_finding(pratt_analysis):
     """A claimed reaction 20 % high: one value-mismatch, not also an imbalance at its joint."""
     claims = table(true_claims(pratt_analysis))
     reactions = pratt_analysis.reference.reaction_vectors(pratt_analysis.model, "dead")
-    wrong = ClaimedValue("R_L0_y", None, ("L0", "y"), "dead", 1.2 * reactions["L0"][1], False, None, "row 99, column 'dead'")
-    review = compare_claims(pratt_analysis, ClaimsTable("<memory>", None, "0" * 64, claims.values + (wrong,), (), ("dead",), None))
+    wrong = ClaimedValue(
+        "R_L0_y",
+        None,
+        ("L0", "y"),
+        "dead",
+        1.2 * reactions["L0"][1],
+        False,
+        None,
+        "row 99, column 'dead'",
+    )
+    review = compare_claims(
+        pratt_analysis,
+        ClaimsTable("<memory>", None, "0" * 64, claims.values + (wrong,), (), ("dead",), None),
+    )
     assert [(f.kind, f.members) for f in review.findings] == [("value-mismatch", ("L0.y",))]
 
 
@@ -421,11 +522,18 @@ def test_reaction_claimed_where_the_support_does_not_restrain(pratt_analysis):
     says why (no reaction acts along x there)."""
     base = table(true_claims(pratt_analysis))
     for value, status in ((0.0, "agrees"), (5.0, "value-mismatch")):
-        claim = ClaimedValue("R_L6_x", None, ("L6", "x"), "dead", value, False, None, "row 99, column 'dead'")
-        review = compare_claims(pratt_analysis, ClaimsTable("<memory>", None, "0" * 64, base.values + (claim,), (), ("dead",), None))
+        claim = ClaimedValue(
+            "R_L6_x", None, ("L6", "x"), "dead", value, False, None, "row 99, column 'dead'"
+        )
+        review = compare_claims(
+            pratt_analysis,
+            ClaimsTable("<memory>", None, "0" * 64, base.values + (claim,), (), ("dead",), None),
+        )
         row = next(r for r in review.rows if r.id == "L6.x")
         assert row.status == status and row.recomputed == 0.0
-    assert "does not restrain x" in next(f.detail for f in review.findings if f.members == ("L6.x",))
+    assert "does not restrain x" in next(
+        f.detail for f in review.findings if f.members == ("L6.x",)
+    )
 
 
 def test_rows_swapped_in_every_column_are_one_finding():
@@ -436,7 +544,9 @@ def test_rows_swapped_in_every_column_are_one_finding():
     for column in claims.values():
         column["L0L1"], column["L2L3"] = column["L2L3"], column["L0L1"]
     review = compare_claims(analysis, table(claims, unit="kN"))
-    assert [(f.kind, set(f.members)) for f in review.findings] == [("swapped-labels", {"L0L1", "L2L3"})]
+    assert [(f.kind, set(f.members)) for f in review.findings] == [
+        ("swapped-labels", {"L0L1", "L2L3"})
+    ]
     assert "in 2 load columns ('dead', 'wind')" in review.findings[0].detail
 
 
@@ -444,7 +554,10 @@ def test_table_rounded_to_two_significant_figures_agrees_and_still_shows_a_real_
     """Every claim rounded to 2 significant figures (135 written 140, 53.3 written 53): whole
     numbers are read as rounded at their second figure. A claim 20 % off is still found."""
     analysis = _dead_and_wind()
-    two_figures = {c: {m: round_sig(v, 2) for m, v in ms.items()} for c, ms in true_claims(analysis, ["dead", "wind"]).items()}
+    two_figures = {
+        c: {m: round_sig(v, 2) for m, v in ms.items()}
+        for c, ms in true_claims(analysis, ["dead", "wind"]).items()
+    }
     review = compare_claims(analysis, table(two_figures, unit="kN"))
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
     two_figures["dead"]["U2U3"] = round_sig(1.2 * two_figures["dead"]["U2U3"], 2)
@@ -458,7 +571,11 @@ def test_whole_numbers_are_exact_when_the_column_shows_more_figures():
     table is not rounded that way and the same 130 is a mismatch."""
     analysis = analyse(make_model(pratt(6, load=100.0, case="dead")))
     truth = true_claims(analysis)["dead"]
-    loose = [m for m, v in truth.items() if 100 <= abs(v) < 1000 and 0.01 * abs(v) < abs(round_sig(v, 2) - v) < 5]
+    loose = [
+        m
+        for m, v in truth.items()
+        if 100 <= abs(v) < 1000 and 0.01 * abs(v) < abs(round_sig(v, 2) - v) < 5
+    ]
     assert loose, "the test needs a force that 2-figure rounding moves by more than 1 %"
     claims = {"dead": {m: round_sig(v, 2) for m, v in truth.items()}}
     assert compare_claims(analysis, table(claims, unit="kN")).verdict is Verdict.AGREES
@@ -468,13 +585,19 @@ def test_whole_numbers_are_exact_when_the_column_shows_more_figures():
     assert {m for f in review.findings for m in f.members} == set(loose)
 
 
-@pytest.mark.parametrize(("value", "digits"), [(140.0, 2), (4.5, 2), (0.27, 2), (108.3, 4), (34650.0, 4), (7.0, 1)])
+@pytest.mark.parametrize(
+    ("value", "digits"), [(140.0, 2), (4.5, 2), (0.27, 2), (108.3, 4), (34650.0, 4), (7.0, 1)]
+)
 def test_significant_digits(value, digits):
     import numpy as np
 
     from verify.compare.tolerances import significant_digits_many
 
-    assert significant_digits_many(np.array([value])).tolist() == [digits] == [_significant_digits(value)]
+    assert (
+        significant_digits_many(np.array([value])).tolist()
+        == [digits]
+        == [_significant_digits(value)]
+    )
 
 
 def _significant_digits(value: float) -> int:
@@ -493,19 +616,31 @@ def test_significant_digits_vectorised_matches_the_plain_count():
     from verify.compare.tolerances import significant_digits_many
 
     rng = random.Random(7)
-    values = [round(rng.uniform(1, 10), rng.randint(0, 7)) * 10.0 ** rng.randint(-6, 7) * rng.choice([1, -1])
-              for _ in range(5000)] + [9.9999999999, 7.599883247e-07]
-    assert significant_digits_many(np.array(values)).tolist() == [_significant_digits(v) for v in values]
+    values = [
+        round(rng.uniform(1, 10), rng.randint(0, 7))
+        * 10.0 ** rng.randint(-6, 7)
+        * rng.choice([1, -1])
+        for _ in range(5000)
+    ] + [9.9999999999, 7.599883247e-07]
+    assert significant_digits_many(np.array(values)).tolist() == [
+        _significant_digits(v) for v in values
+    ]
 
 
 def test_table_ten_times_too_large_is_not_read_as_a_unit(pratt_analysis):
     """No force unit is 10 kN (long ton-force is 9.964 kN, and a table in it would be smaller,
     not larger): a table 10 x the forces is a load or factor error, not agreement."""
-    tenfold = {c: {m: 10 * v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    tenfold = {
+        c: {m: 10 * v for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()
+    }
     review = compare_claims(pratt_analysis, table(tenfold))
     assert review.verdict is Verdict.DISCREPANCIES
     assert [f.kind for f in review.findings] == ["likely-cause"]
-    assert review.findings[0].case == "dead" and review.findings[0].factor == 10.0 and review.findings[0].unexplained == 0
+    assert (
+        review.findings[0].case == "dead"
+        and review.findings[0].factor == 10.0
+        and review.findings[0].unexplained == 0
+    )
 
 
 def test_decimals_are_taken_from_the_cell_as_written():
@@ -516,15 +651,36 @@ def test_decimals_are_taken_from_the_cell_as_written():
     truth = true_claims(analysis)["dead"]
     assert truth["U1L1"] == pytest.approx(10.45, rel=1e-12)
     for text, expected in (("10.00", "value-mismatch"), ("10", "agrees")):
-        values = tuple(ClaimedValue(m, m, None, "dead", float(text) if m == "U1L1" else round(v, 2), False, "kN",
-                                    f"row {k}", text if m == "U1L1" else f"{v:.2f}")
-                       for k, (m, v) in enumerate(truth.items(), 2))
-        review = compare_claims(analysis, ClaimsTable("<memory>", None, "0" * 64, values, (), ("dead",), "kN"))
+        values = tuple(
+            ClaimedValue(
+                m,
+                m,
+                None,
+                "dead",
+                float(text) if m == "U1L1" else round(v, 2),
+                False,
+                "kN",
+                f"row {k}",
+                text if m == "U1L1" else f"{v:.2f}",
+            )
+            for k, (m, v) in enumerate(truth.items(), 2)
+        )
+        review = compare_claims(
+            analysis, ClaimsTable("<memory>", None, "0" * 64, values, (), ("dead",), "kN")
+        )
         assert next(r.status for r in review.rows if r.id == "U1L1") == expected
     from verify.compare.tolerances import decimals_as_written
 
-    assert [decimals_as_written(t, v) for t, v in (("10.00", 10.0), ("4.50 T", 4.5), ("(12.40)", -12.4), ("1,250.5", 1250.5),
-                                                     ("12", 12.0))] == [2, 2, 2, None, None]
+    assert [
+        decimals_as_written(t, v)
+        for t, v in (
+            ("10.00", 10.0),
+            ("4.50 T", 4.5),
+            ("(12.40)", -12.4),
+            ("1,250.5", 1250.5),
+            ("12", 12.0),
+        )
+    ] == [2, 2, 2, None, None]
 
 
 def test_small_truss_rounded_to_two_figures_agrees():
@@ -532,7 +688,9 @@ def test_small_truss_rounded_to_two_figures_agrees():
     rounded to 2 significant figures: honest rounding, no finding (three whole numbers past the
     figures are enough to show how the column was rounded)."""
     analysis = analyse(make_model(pratt(4, load=41.3, case="dead")))
-    claims = {c: {m: round_sig(v, 2) for m, v in ms.items()} for c, ms in true_claims(analysis).items()}
+    claims = {
+        c: {m: round_sig(v, 2) for m, v in ms.items()} for c, ms in true_claims(analysis).items()
+    }
     widened = [v for v in claims["dead"].values() if abs(v) >= 100]
     assert len(widened) >= 3
     review = compare_claims(analysis, table(claims, unit="kN"))
@@ -542,19 +700,29 @@ def test_small_truss_rounded_to_two_figures_agrees():
 def test_decimal_comma_cells_keep_their_decimals():
     from verify.compare.tolerances import decimals_as_written
 
-    assert [decimals_as_written(t, v) for t, v in (("10,00", 10.0), ("1,25 C", -1.25), ("1,250", 1250.0))] == [2, 2, None]
+    assert [
+        decimals_as_written(t, v)
+        for t, v in (("10,00", 10.0), ("1,25 C", -1.25), ("1,250", 1250.0))
+    ] == [2, 2, None]
 
 
 def test_whole_table_in_meganewtons_names_the_unit(pratt_analysis):
     """A table in MN read as kN is off by x1000: said as values in MN, not 'N vs kN'."""
-    small = {c: {m: v / 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    small = {
+        c: {m: v / 1000 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()
+    }
     review = compare_claims(pratt_analysis, table(small, unit="kN"))
-    assert kinds(review) == ["unit-scale"] and "values in MN, read as kN" in review.findings[0].detail
+    assert (
+        kinds(review) == ["unit-scale"] and "values in MN, read as kN" in review.findings[0].detail
+    )
 
 
 def test_table_in_kgf_without_a_unit_is_read_as_kgf(pratt_analysis):
     """1 kgf = 9.80665 N (NIST SP 811, App. B): a kN model's forces written in kgf, no unit stated."""
-    kgf = {c: {m: v * 1000 / 9.80665 for m, v in ms.items()} for c, ms in true_claims(pratt_analysis).items()}
+    kgf = {
+        c: {m: v * 1000 / 9.80665 for m, v in ms.items()}
+        for c, ms in true_claims(pratt_analysis).items()
+    }
     review = compare_claims(pratt_analysis, table(kgf))
     assert kinds(review) == ["unit-scale"] and "values in kgf" in review.findings[0].detail
     assert review.verdict is Verdict.AGREES  # inferred (no unit stated), said as information

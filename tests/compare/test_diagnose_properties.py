@@ -45,7 +45,9 @@ def _informative(analysis):
     big = max(np.abs(forces).max(), np.abs(analysis.reference.reactions[:, 0]).max())
     if big < 1e-6 * np.abs(analysis.model.load_matrix()).max():
         return []  # every member idle (loads straight over the supports)
-    return [m for m, f in zip(analysis.model.member_ids, forces, strict=True) if abs(f) > 0.05 * big]
+    return [
+        m for m, f in zip(analysis.model.member_ids, forces, strict=True) if abs(f) > 0.05 * big
+    ]
 
 
 @SETTINGS
@@ -66,13 +68,19 @@ def test_negated_table_is_one_convention_finding_never_sign_flips(analysis):
 
 @SETTINGS
 # The slips a kN table can really have: values in N, MN, kip, lbf or tonne-force (the models are in kN).
-@given(loaded_trusses(), st.sampled_from(sorted(possible_factors(lookup_unit("kN", Dimension.FORCE), ratios=True))))
+@given(
+    loaded_trusses(),
+    st.sampled_from(sorted(possible_factors(lookup_unit("kN", Dimension.FORCE), ratios=True))),
+)
 def test_scaled_table_is_one_unit_finding(analysis, factor):
     assume(len(_informative(analysis)) >= 3)
     scaled = {c: {m: v * factor for m, v in ms.items()} for c, ms in true_claims(analysis).items()}
     review = compare_claims(analysis, table(scaled))
     assert _kinds(review) == ["unit-scale"]
-    assert review.convention.scale * factor == np.float64(1.0) or abs(review.convention.scale * factor - 1) < 1e-9
+    assert (
+        review.convention.scale * factor == np.float64(1.0)
+        or abs(review.convention.scale * factor - 1) < 1e-9
+    )
 
 
 @SETTINGS
@@ -85,11 +93,15 @@ def test_swapped_pair_is_found(analysis, data):
     col = claims["LC1"]
     assume(a != b and abs(col[a] - col[b]) > 0.05 * max(abs(col[a]), abs(col[b])))
     # A value that reads as the other one honestly rounded ("2" for 2.4) cannot show a swap.
-    assume(abs(col[a] - col[b]) > max(rounding_allowance(col[a], 1.0), rounding_allowance(col[b], 1.0)))
+    assume(
+        abs(col[a] - col[b]) > max(rounding_allowance(col[a], 1.0), rounding_allowance(col[b], 1.0))
+    )
     col[a], col[b] = col[b], col[a]
     review = compare_claims(analysis, table(claims))
     assert "swapped-labels" in _kinds(review)
-    assert set(review.findings[0].members) == {a, b} or any(set(f.members) == {a, b} for f in review.findings)
+    assert set(review.findings[0].members) == {a, b} or any(
+        set(f.members) == {a, b} for f in review.findings
+    )
     assert all(f.kind in ("swapped-labels",) for f in review.findings)
 
 

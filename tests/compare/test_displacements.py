@@ -46,13 +46,26 @@ def _run(tmp_path, deflections: str):
     (tmp_path / "case.toml").write_text(CASE)
     (tmp_path / "claims.csv").write_text(CLAIMS)
     (tmp_path / "d.csv").write_text(deflections)
-    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
-                                       "--displacements", str(tmp_path / "d.csv"), "--json"])
+    result = CliRunner().invoke(
+        main,
+        [
+            "check",
+            str(tmp_path / "case.toml"),
+            "--claims",
+            str(tmp_path / "claims.csv"),
+            "--displacements",
+            str(tmp_path / "d.csv"),
+            "--json",
+        ],
+    )
     return result.exit_code, json.loads(result.stdout)
 
 
 def test_published_deflections_agree(tmp_path):
-    code, data = _run(tmp_path, f"joint,direction,case,deflection (mm)\nC,-y,P,{DELTA_C_MM:.2f}\nB,x,P,{U_B_MM:.3f}\n")
+    code, data = _run(
+        tmp_path,
+        f"joint,direction,case,deflection (mm)\nC,-y,P,{DELTA_C_MM:.2f}\nB,x,P,{U_B_MM:.3f}\n",
+    )
     rows = [r for r in data["members"] if r["kind"] == "displacement"]
     assert code == 0 and data["verdict"] == "agrees"
     assert {r["status"] for r in rows} == {"agrees"}
@@ -83,8 +96,17 @@ def test_deflection_without_a_unit_is_refused(tmp_path):
     (tmp_path / "case.toml").write_text(CASE)
     (tmp_path / "claims.csv").write_text(CLAIMS)
     (tmp_path / "d.csv").write_text("joint,direction,case,deflection\nC,-y,P,5.25\nB,x,P,2.67\n")
-    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
-                                       "--displacements", str(tmp_path / "d.csv")])
+    result = CliRunner().invoke(
+        main,
+        [
+            "check",
+            str(tmp_path / "case.toml"),
+            "--claims",
+            str(tmp_path / "claims.csv"),
+            "--displacements",
+            str(tmp_path / "d.csv"),
+        ],
+    )
     assert result.exit_code == 2
     assert "d.csv row 2: the values on rows 2, 3 have no length unit" in result.stderr
     assert "Traceback" not in result.stderr
@@ -103,16 +125,57 @@ def test_loaded_joint_moving_against_its_only_load_is_an_error_even_with_assumed
     (tmp_path / "case.toml").write_text(case)
     (tmp_path / "claims.csv").write_text(CLAIMS)
     (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,y,P,5.0\n")
-    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
-                                       "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])
+    result = CliRunner().invoke(
+        main,
+        [
+            "check",
+            str(tmp_path / "case.toml"),
+            "--claims",
+            str(tmp_path / "claims.csv"),
+            "--displacements",
+            str(tmp_path / "d.csv"),
+            "--assume-equal-ea",
+            str(EA),
+            "--json",
+        ],
+    )
     data = json.loads(result.stdout)
     [finding] = [f for f in data["findings"] if f["kind"] == "displacement-mismatch"]
-    assert result.exit_code == 1 and "moves along that load, whatever the member sizes" in finding["detail"]
-    (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,y,P,0\n")  # not moving at all
-    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
-                                       "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])
+    assert (
+        result.exit_code == 1
+        and "moves along that load, whatever the member sizes" in finding["detail"]
+    )
+    (tmp_path / "d.csv").write_text(
+        "joint,direction,case,deflection (mm)\nC,y,P,0\n"
+    )  # not moving at all
+    result = CliRunner().invoke(
+        main,
+        [
+            "check",
+            str(tmp_path / "case.toml"),
+            "--claims",
+            str(tmp_path / "claims.csv"),
+            "--displacements",
+            str(tmp_path / "d.csv"),
+            "--assume-equal-ea",
+            str(EA),
+            "--json",
+        ],
+    )
     assert result.exit_code == 1
     (tmp_path / "d.csv").write_text("joint,direction,case,deflection (mm)\nC,-y,P,9.0\n")
-    result = CliRunner().invoke(main, ["check", str(tmp_path / "case.toml"), "--claims", str(tmp_path / "claims.csv"),
-                                       "--displacements", str(tmp_path / "d.csv"), "--assume-equal-ea", str(EA), "--json"])
+    result = CliRunner().invoke(
+        main,
+        [
+            "check",
+            str(tmp_path / "case.toml"),
+            "--claims",
+            str(tmp_path / "claims.csv"),
+            "--displacements",
+            str(tmp_path / "d.csv"),
+            "--assume-equal-ea",
+            str(EA),
+            "--json",
+        ],
+    )
     assert result.exit_code == 0 and json.loads(result.stdout)["verdict"] == "agrees"

@@ -32,7 +32,12 @@ def _indeterminate(seed: int, panels: int):
 
 
 @SETTINGS
-@given(seed=st.integers(0, 2**31), panels=st.integers(1, 5), size=st.floats(0.2, 3.0), sign=st.sampled_from([1, -1]))
+@given(
+    seed=st.integers(0, 2**31),
+    panels=st.integers(1, 5),
+    size=st.floats(0.2, 3.0),
+    sign=st.sampled_from([1, -1]),
+)
 def test_elastic_plus_self_stress_is_not_elastic_never_value_mismatch(seed, panels, size, sign):
     analysis = _indeterminate(seed, panels)
     model = analysis.model
@@ -47,7 +52,13 @@ def test_elastic_plus_self_stress_is_not_elastic_never_value_mismatch(seed, pane
     review = compare_claims(analysis, table(claims))
     kinds = {f.kind for f in review.findings}
     assert "not-elastic" in kinds
-    assert not kinds & {"value-mismatch", "equilibrium-residual", "sign-flip", "unit-scale", "swapped-labels"}
+    assert not kinds & {
+        "value-mismatch",
+        "equilibrium-residual",
+        "sign-flip",
+        "unit-scale",
+        "swapped-labels",
+    }
 
 
 @SETTINGS
@@ -69,8 +80,12 @@ def test_one_wrong_member_breaks_equilibrium_and_is_named(seed, panels, data):
         assert "equilibrium-residual" in kinds
     # A corrupted value may happen to look like a unit slip or a reversed sign, or sit on a
     # zero-force member; either way the member is named.
-    named = {m for f in review.findings if f.kind in ("value-mismatch", "unit-scale", "sign-flip", "zero-force-claimed")
-             for m in f.members}
+    named = {
+        m
+        for f in review.findings
+        if f.kind in ("value-mismatch", "unit-scale", "sign-flip", "zero-force-claimed")
+        for m in f.members
+    }
     assert target in named
 
 
@@ -95,8 +110,12 @@ def test_several_wrong_members_are_never_said_to_explain_it_alone(seed, panels, 
     review = compare_claims(analysis, table(claims))
     # Members named through the equilibrium of their joints (those outside every self-stress are
     # compared directly and say so differently).
-    named = [f for f in review.findings if f.kind in ("value-mismatch", "unit-scale", "sign-flip")
-             and ("equilibrium of its joints" in f.detail or "no single member explains" in f.detail)]
+    named = [
+        f
+        for f in review.findings
+        if f.kind in ("value-mismatch", "unit-scale", "sign-flip")
+        and ("equilibrium of its joints" in f.detail or "no single member explains" in f.detail)
+    ]
     assume(len(named) > 1)  # (both corruptions inside one self-stress loop can balance out)
     assert not any("all other claims kept" in f.detail for f in named)
     assert all("no single member explains" in f.detail for f in named if f.kind == "value-mismatch")
@@ -121,7 +140,9 @@ def test_member_outside_every_self_stress_is_judged_by_statics_alone():
     claims["dead"]["U4U5"] /= 2
     claims["dead"]["L2L3"] *= 1.25  # also outside the self-stress; L1L2 shares joint L2 with it
     review = compare_claims(analysis, table(claims))
-    assert [(f.kind, f.members) for f in review.findings if f.severity.value == "error"] == [("value-mismatch", ("L2L3",))]
+    assert [(f.kind, f.members) for f in review.findings if f.severity.value == "error"] == [
+        ("value-mismatch", ("L2L3",))
+    ]
 
 
 @SETTINGS
@@ -136,7 +157,10 @@ def test_members_fixed_by_statics_are_those_outside_the_null_space(seed, panels)
     model = analysis.model
     null = scipy.linalg.null_space(assemble_equilibrium(model).toarray())
     outside = np.abs(null[: len(model.members)]).max(axis=1) < 1e-9
-    assert members_fixed_by_statics(model, analysis.elastic.forces.member_forces).tolist() == outside.tolist()
+    assert (
+        members_fixed_by_statics(model, analysis.elastic.forces.member_forces).tolist()
+        == outside.tolist()
+    )
 
 
 def test_chord_far_from_many_redundants_is_still_judged_by_statics():
@@ -149,7 +173,11 @@ def test_chord_far_from_many_redundants_is_still_judged_by_statics():
     analysis = analyse(make_model(case), assume_equal_EA=2.0e5)
     assert analysis.stability.self_stress == 11
     elastic = analysis.elastic.forces.member_forces[:, 0]
-    claims = {"dead": {m.id: float(v) for m, v in zip(analysis.model.members, elastic, strict=True)}}
+    claims = {
+        "dead": {m.id: float(v) for m, v in zip(analysis.model.members, elastic, strict=True)}
+    }
     claims["dead"]["U25U26"] *= 2
     review = compare_claims(analysis, table(claims))
-    assert [(f.kind, f.members) for f in review.findings if f.severity.value == "error"] == [("value-mismatch", ("U25U26",))]
+    assert [(f.kind, f.members) for f in review.findings if f.severity.value == "error"] == [
+        ("value-mismatch", ("U25U26",))
+    ]

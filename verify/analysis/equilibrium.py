@@ -57,10 +57,16 @@ def _assemble(model: Model) -> sp.csc_matrix:
     return A
 
 
-def equilibrium_residual(model: Model, member_forces: np.ndarray, reactions: np.ndarray, loads: np.ndarray | None = None) -> np.ndarray:
+def equilibrium_residual(
+    model: Model, member_forces: np.ndarray, reactions: np.ndarray, loads: np.ndarray | None = None
+) -> np.ndarray:
     """Out-of-balance force A t + f at every joint direction (dofs x load columns)."""
     A = assemble_equilibrium(model)
-    t = np.vstack([np.atleast_2d(member_forces.T).T, np.atleast_2d(reactions.T).T]) if reactions.size else member_forces
+    t = (
+        np.vstack([np.atleast_2d(member_forces.T).T, np.atleast_2d(reactions.T).T])
+        if reactions.size
+        else member_forces
+    )
     F = model.load_matrix() if loads is None else loads
     return A @ t + F
 

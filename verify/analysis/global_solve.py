@@ -29,7 +29,9 @@ def solve_global(model: Model) -> ForceResult:
     """Member forces and reactions for every load column; A must be square and non-singular."""
     A = assemble_equilibrium(model)
     if A.shape[0] != A.shape[1]:
-        raise ValueError("the global statics solve needs a determinate truss (square equilibrium matrix)")
+        raise ValueError(
+            "the global statics solve needs a determinate truss (square equilibrium matrix)"
+        )
     F = model.load_matrix()
     lu = equilibrium_lu(model, A)
     t = lu.solve(-F) if F.size else np.zeros((A.shape[1], 0))

@@ -168,7 +168,9 @@ def solve_joints(model: Model) -> JointSolution:
     ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=n_j))])
 
     joint_ids = [j.id for j in model.joints]
-    counts = np.bincount(inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j).astype(np.int64)
+    counts = np.bincount(
+        inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j
+    ).astype(np.int64)
     primary: deque[int] = deque(np.flatnonzero((counts > 0) & (counts <= d)).tolist())
     secondary: deque[int] = deque(np.flatnonzero(counts == d + 1).tolist())
     unknown_count = counts.tolist()
@@ -236,11 +238,13 @@ def solve_joints(model: Model) -> JointSolution:
                 steps.append(JointStep("joint", (joint_ids[joint],), (c1, c2)))
                 mark((c1, c2))
                 continue
-        cols_j = inc_col[ptr_l[joint]:ptr_l[joint + 1]]
+        cols_j = inc_col[ptr_l[joint] : ptr_l[joint + 1]]
         is_known = np.array([known_l[c] for c in cols_j.tolist()], dtype=bool)
-        block = inc_vec[:, ptr_l[joint]:ptr_l[joint + 1]]
+        block = inc_vec[:, ptr_l[joint] : ptr_l[joint + 1]]
         M = block[:, ~is_known]
-        known_rows = np.array([t_l[c] for c in cols_j[is_known].tolist()], dtype=float).reshape(-1, ncols)
+        known_rows = np.array([t_l[c] for c in cols_j[is_known].tolist()], dtype=float).reshape(
+            -1, ncols
+        )
         rhs = -F[joint * d : (joint + 1) * d] - block[:, is_known] @ known_rows
         unknown = [int(c) for c in cols_j[~is_known]]
         if M.shape[1] == d:
@@ -266,7 +270,9 @@ def solve_joints(model: Model) -> JointSolution:
         left, sv, vh = np.linalg.svd(M)
         rank = int((sv > DEPENDENT_RTOL * max(sv.max(), 1e-300)).sum())
         null = vh[rank:]
-        determined = [k for k in range(len(unknown)) if null.size == 0 or np.abs(null[:, k]).max() < 1e-9]
+        determined = [
+            k for k in range(len(unknown)) if null.size == 0 or np.abs(null[:, k]).max() < 1e-9
+        ]
         if not determined:
             fruitless += 1
             continue
@@ -277,12 +283,22 @@ def solve_joints(model: Model) -> JointSolution:
         t[chosen] = solution[determined]
         for col in chosen:
             t_l[col] = t[col].tolist()
-        steps.append(JointStep("joint", (model.joints[joint].id,), tuple(chosen), partial=len(chosen) < len(unknown)))
+        steps.append(
+            JointStep(
+                "joint",
+                (model.joints[joint].id,),
+                tuple(chosen),
+                partial=len(chosen) < len(unknown),
+            )
+        )
         mark(chosen)
 
     nan_row = [float("nan")] * ncols
-    t = np.fromiter(chain.from_iterable(row if row is not None else nan_row for row in t_l), dtype=float,
-                    count=n_unknowns * ncols).reshape(n_unknowns, ncols)
+    t = np.fromiter(
+        chain.from_iterable(row if row is not None else nan_row for row in t_l),
+        dtype=float,
+        count=n_unknowns * ncols,
+    ).reshape(n_unknowns, ncols)
     known = np.array(known_l, dtype=bool)
     stalled = not known.all()
     if stalled:
@@ -293,15 +309,25 @@ def solve_joints(model: Model) -> JointSolution:
             from verify.analysis.global_solve import equilibrium_lu
 
             t = equilibrium_lu(model, A).solve(-F).reshape(n_unknowns, -1)
-            steps.append(JointStep("simultaneous", tuple(j.id for j in model.joints), tuple(int(c) for c in rest)))
-            notes.append(f"no joint with at most {d} unknowns: all {len(rest)} forces at {len(model.joints)} joints are "
-                         "solved simultaneously (compound or complex truss)")
+            steps.append(
+                JointStep(
+                    "simultaneous", tuple(j.id for j in model.joints), tuple(int(c) for c in rest)
+                )
+            )
+            notes.append(
+                f"no joint with at most {d} unknowns: all {len(rest)} forces at {len(model.joints)} joints are "
+                "solved simultaneously (compound or complex truss)"
+            )
             residual = A @ t + F
             return JointSolution(
                 forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
-                steps=tuple(steps), reactions_first=first is not None, moment_point=moment_point,
-                moment_joint=moment_joint, stalled=True,
-                max_residual=float(np.abs(residual).max()) if residual.size else 0.0, notes=tuple(notes),
+                steps=tuple(steps),
+                reactions_first=first is not None,
+                moment_point=moment_point,
+                moment_joint=moment_joint,
+                stalled=True,
+                max_residual=float(np.abs(residual).max()) if residual.size else 0.0,
+                notes=tuple(notes),
             )
         rows_needed = np.unique(A[:, rest].nonzero()[0])
         sub = A[rows_needed][:, rest].tocsc()
@@ -316,7 +342,13 @@ def solve_joints(model: Model) -> JointSolution:
             normal = (sub.T @ sub).tocsc()
             solution = spla.splu(normal, permc_spec="MMD_AT_PLUS_A").solve(sub.T @ rhs)
         t[rest] = solution.reshape(len(rest), -1)
-        steps.append(JointStep("simultaneous", tuple(model.joints[j].id for j in joints_involved), tuple(int(c) for c in rest)))
+        steps.append(
+            JointStep(
+                "simultaneous",
+                tuple(model.joints[j].id for j in joints_involved),
+                tuple(int(c) for c in rest),
+            )
+        )
         notes.append(
             f"no joint with at most {d} unknowns remains after {sum(1 for s in steps if s.kind == 'joint')} joint(s): "
             f"{len(rest)} forces at {len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
@@ -326,6 +358,11 @@ def solve_joints(model: Model) -> JointSolution:
     max_residual = float(np.abs(residual).max()) if residual.size else 0.0
     return JointSolution(
         forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
-        steps=tuple(steps), reactions_first=first is not None, moment_point=moment_point,
-        moment_joint=moment_joint, stalled=stalled, max_residual=max_residual, notes=tuple(notes),
+        steps=tuple(steps),
+        reactions_first=first is not None,
+        moment_point=moment_point,
+        moment_joint=moment_joint,
+        stalled=stalled,
+        max_residual=max_residual,
+        notes=tuple(notes),
     )

@@ -13,7 +13,7 @@ import signal
 import threading
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -22,6 +22,10 @@ from verify.analysis.global_solve import solve_global
 from verify.analysis.joints import JointSolution, solve_joints
 from verify.analysis.stability import Classification, StabilityResult, solve_stability
 from verify.model import Model
+
+if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
+    from verify.analysis.sections import SectionSolution
+    from verify.analysis.stiffness import ElasticSolution
 
 ROUTE_RTOL = 1e-6  # routes must agree to this fraction of the largest force (round-off only)
 PARALLEL_MIN_MEMBERS = 20_000  # below this a second process costs more than it saves
@@ -34,8 +38,8 @@ class Analysis:
     stability: StabilityResult
     joints: JointSolution | None = None
     global_: ForceResult | None = None
-    sections: object | None = None  # verify.analysis.sections.SectionSolution when available
-    elastic: object | None = None  # verify.analysis.stiffness.ElasticSolution when available
+    sections: SectionSolution | None = None
+    elastic: ElasticSolution | None = None
     notes: tuple[str, ...] = field(default=())
     route_disagreement: float = 0.0  # largest |difference| between routes / largest force
     assumed_EA: float | None = None  # set when the reviewer asked to assume equal EA
@@ -49,8 +53,13 @@ class Analysis:
         return getattr(elastic, "forces", None)
 
 
-def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | None = None,
-            displacements: bool = False) -> Analysis:
+def analyse(
+    model: Model,
+    *,
+    sections: bool = True,
+    assume_equal_EA: float | None = None,
+    displacements: bool = False,
+) -> Analysis:
     """Stability first; then every route the classification allows.
 
     `displacements` asks for the direct stiffness solve of a determinate truss too (joint
@@ -68,14 +77,26 @@ def analyse(model: Model, *, sections: bool = True, assume_equal_EA: float | Non
         solve_reactions(model)  # both routes use these: computed once, before the fork
         child = _Child.start(solve_sections, model)
     try:
-        return _routes(model, child, sections=sections, assume_equal_EA=assume_equal_EA, displacements=displacements)
+        return _routes(
+            model,
+            child,
+            sections=sections,
+            assume_equal_EA=assume_equal_EA,
+            displacements=displacements,
+        )
     finally:
         if child is not None:
             child.cancel()  # an error or an interruption on the way: no child or frozen heap left behind
 
 
-def _routes(model: Model, child: _Child | None, *, sections: bool, assume_equal_EA: float | None,
-            displacements: bool) -> Analysis:
+def _routes(
+    model: Model,
+    child: _Child | None,
+    *,
+    sections: bool,
+    assume_equal_EA: float | None,
+    displacements: bool,
+) -> Analysis:
     stability = solve_stability(model)
     notes: list[str] = []
     if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
@@ -85,7 +106,6 @@ def _routes(model: Model, child: _Child | None, *, sections: bool, assume_equal_
     if stability.classification is Classification.STABLE_INDETERMINATE:
         elastic = None
         if model.has_stiffness or assume_equal_EA is not None:
-
             elastic = _stiffness_or_note(model, assume_equal_EA, notes)
         else:
             missing = model.members_without_stiffness()
@@ -94,7 +114,9 @@ def _routes(model: Model, child: _Child | None, *, sections: bool, assume_equal_
                 f"({', '.join(missing[:10])}{' ...' if len(missing) > 10 else ''}): the forces cannot be recomputed; "
                 "only the equilibrium of claimed forces can be checked"
             )
-        return Analysis(model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA)
+        return Analysis(
+            model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA
+        )
     joints = solve_joints(model)
     global_ = solve_global(model)
     section_solution = None
@@ -104,12 +126,23 @@ def _routes(model: Model, child: _Child | None, *, sections: bool, assume_equal_
         from verify.analysis.sections import solve_sections
 
         section_solution = solve_sections(model)
-    disagreement = route_disagreement(global_, joints.forces, getattr(section_solution, "forces", None))
+    disagreement = route_disagreement(
+        global_, joints.forces, getattr(section_solution, "forces", None)
+    )
     elastic = None
     if displacements and (model.has_stiffness or assume_equal_EA is not None):
         elastic = _stiffness_or_note(model, assume_equal_EA, notes)
-    return Analysis(model, stability, joints=joints, global_=global_, sections=section_solution, elastic=elastic,
-                    notes=tuple(notes), route_disagreement=disagreement, assumed_EA=assume_equal_EA)
+    return Analysis(
+        model,
+        stability,
+        joints=joints,
+        global_=global_,
+        sections=section_solution,
+        elastic=elastic,
+        notes=tuple(notes),
+        route_disagreement=disagreement,
+        assumed_EA=assume_equal_EA,
+    )
 
 
 class _Child:
@@ -119,7 +152,9 @@ class _Child:
     (TRUSS_VERIFY_SERIAL) or the child fails, `result()` runs the route in this process.
     """
 
-    def __init__(self, route: Callable[[Model], Any], model: Model, pid: int | None, read_fd: int | None) -> None:
+    def __init__(
+        self, route: Callable[[Model], Any], model: Model, pid: int | None, read_fd: int | None
+    ) -> None:
         self.route, self.model, self.pid, self.read_fd = route, model, pid, read_fd
 
     @classmethod
@@ -180,7 +215,9 @@ class _Child:
         gc.unfreeze()
 
 
-def _stiffness_or_note(model: Model, assume_equal_EA: float | None, notes: list[str]) -> object | None:
+def _stiffness_or_note(
+    model: Model, assume_equal_EA: float | None, notes: list[str]
+) -> ElasticSolution | None:
     from verify.analysis.stiffness import solve_stiffness
 
     try:

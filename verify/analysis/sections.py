@@ -192,8 +192,10 @@ def _directions(model: Model) -> np.ndarray:
     u = _canonical(model.unit_vectors[np.isfinite(model.unit_vectors).all(axis=1)])
     common = np.zeros((0, d))
     if len(u):
-        keys, inverse, counts = np.unique(np.round(u, 6), axis=0, return_inverse=True, return_counts=True)
-        top = np.argsort(-counts, kind="stable")[: cap]
+        keys, inverse, counts = np.unique(
+            np.round(u, 6), axis=0, return_inverse=True, return_counts=True
+        )
+        top = np.argsort(-counts, kind="stable")[:cap]
         # average the members of each direction class: rounding must not tilt the normal
         sums = np.zeros((len(keys), d))
         np.add.at(sums, inverse.ravel(), u)
@@ -256,9 +258,13 @@ class _Engine:
         loads = F.reshape(nj, d, self.ncols)
         self.loads = loads
         r = len(model.reactions)
-        self.r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
+        self.r_joint = np.array(
+            [model.joint_index[x.joint] for x in model.reactions], dtype=np.int64
+        )
         self.r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
-        self.support_count = np.bincount(self.r_joint, minlength=nj) if nj else np.zeros(0, dtype=np.int64)
+        self.support_count = (
+            np.bincount(self.r_joint, minlength=nj) if nj else np.zeros(0, dtype=np.int64)
+        )
         first = solve_reactions(model) if r else None
         self.first = first
         P = loads.copy()
@@ -270,7 +276,9 @@ class _Engine:
         else:
             self.reactions = np.full((r, self.ncols), np.nan)
             self.pin = -1
-        self.ext = np.concatenate([P, _moment_of(self.X, P)], axis=1)  # (nj, neq, ncols), about centre
+        self.ext = np.concatenate(
+            [P, _moment_of(self.X, P)], axis=1
+        )  # (nj, neq, ncols), about centre
         loaded = (np.abs(loads) > 0).any(axis=(1, 2)) if self.ncols else np.zeros(nj, dtype=bool)
         self.cost = loaded.astype(np.int64) + (self.support_count if first is not None else 0)
         # incidence lists (CSR) for the non-straight free bodies
@@ -306,10 +314,24 @@ class _Engine:
         sup = self.support_count[order]
         cl = np.cumsum(cost)[stops - 1]
         sl = np.cumsum(sup)[stops - 1]
-        pin_left = (group[self.pin] < np.arange(1, n_layers)) if self.pin >= 0 else np.zeros(len(stops), dtype=bool)
+        pin_left = (
+            (group[self.pin] < np.arange(1, n_layers))
+            if self.pin >= 0
+            else np.zeros(len(stops), dtype=bool)
+        )
         return _Sweep(
-            normal, order, group, stops, lo, hi, crossing, total, (left, right),
-            (cl, cost.sum() - cl), (sl, sup.sum() - sl), pin_left,
+            normal,
+            order,
+            group,
+            stops,
+            lo,
+            hi,
+            crossing,
+            total,
+            (left, right),
+            (cl, cost.sum() - cl),
+            (sl, sup.sum() - sl),
+            pin_left,
         )
 
     @staticmethod
@@ -348,8 +370,15 @@ class _Engine:
         return pc[order], pm[order]
 
     # -- evaluating free bodies ------------------------------------------------------------------
-    def evaluate(self, pc: np.ndarray, pm: np.ndarray, kept: np.ndarray, cand_ext: np.ndarray,
-                 known: np.ndarray, t: np.ndarray) -> _Found:
+    def evaluate(
+        self,
+        pc: np.ndarray,
+        pm: np.ndarray,
+        kept: np.ndarray,
+        cand_ext: np.ndarray,
+        known: np.ndarray,
+        t: np.ndarray,
+    ) -> _Found:
         """Solve every candidate free body for the unknowns it isolates.
 
         pc, pm, kept: per (candidate, cut member) pair, sorted by candidate: the candidate,
@@ -406,7 +435,15 @@ class _Found:
     """Isolated unknowns of a batch of candidate free bodies (arrays, one row per solution)."""
 
     def __init__(self, pc, pm, kept, far, q0, Ls, col) -> None:
-        self.pc, self.pm, self.kept, self.far, self.q0, self.Ls, self.col = pc, pm, kept, far, q0, Ls, col
+        self.pc, self.pm, self.kept, self.far, self.q0, self.Ls, self.col = (
+            pc,
+            pm,
+            kept,
+            far,
+            q0,
+            Ls,
+            col,
+        )
         self.cand: list[np.ndarray] = []
         self.pair: list[np.ndarray] = []
         self.value: list[np.ndarray] = []
@@ -426,11 +463,19 @@ class _Found:
     def rows(self):
         if not self.cand or sum(len(c) for c in self.cand) == 0:
             return None
-        return (np.concatenate(self.cand), np.concatenate(self.pair), np.concatenate(self.value),
-                np.concatenate(self.w), np.concatenate(self.code), np.concatenate(self.k))
+        return (
+            np.concatenate(self.cand),
+            np.concatenate(self.pair),
+            np.concatenate(self.value),
+            np.concatenate(self.w),
+            np.concatenate(self.code),
+            np.concatenate(self.k),
+        )
 
 
-def _ritter_2d(C: np.ndarray, P: np.ndarray, Lk: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _ritter_2d(
+    C: np.ndarray, P: np.ndarray, Lk: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Ritter equations for every unknown of a batch of 2D cuts.
 
     C: (n, 3, k) lines (ex, ey, m/Ls) about the cut's reference point; P: (n, k, 2) kept-side
@@ -445,11 +490,13 @@ def _ritter_2d(C: np.ndarray, P: np.ndarray, Lk: np.ndarray) -> tuple[np.ndarray
     crosses = {}
     for j, m in itertools.combinations(range(k), 2):
         a, b = C[:, :, j], C[:, :, m]
-        cr = np.column_stack([
-            a[:, 1] * b[:, 2] - a[:, 2] * b[:, 1],
-            a[:, 2] * b[:, 0] - a[:, 0] * b[:, 2],
-            a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0],
-        ])
+        cr = np.column_stack(
+            [
+                a[:, 1] * b[:, 2] - a[:, 2] * b[:, 1],
+                a[:, 2] * b[:, 0] - a[:, 0] * b[:, 2],
+                a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0],
+            ]
+        )
         crosses[j, m] = (cr, np.sqrt((cr * cr).sum(axis=1)))
     for t in range(k):
         others = [j for j in range(k) if j != t]
@@ -468,8 +515,12 @@ def _ritter_2d(C: np.ndarray, P: np.ndarray, Lk: np.ndarray) -> tuple[np.ndarray
             single = best_norm <= ELIMINATED_RTOL
             if single.any():
                 w = w.copy()
-                w[single] = _one_other(ct[single], C[single][:, :, others[0]], P[single][:, others[0]],
-                                       Lk[single][:, others[0]])
+                w[single] = _one_other(
+                    ct[single],
+                    C[single][:, :, others[0]],
+                    P[single][:, others[0]],
+                    Lk[single][:, others[0]],
+                )
         norm = np.linalg.norm(w, axis=1)
         norm[norm == 0] = 1.0
         w = w / norm[:, None]
@@ -522,15 +573,19 @@ def _rank_solve(C: np.ndarray, rhs: np.ndarray) -> tuple[np.ndarray, np.ndarray]
 # -- readable 3D equations ---------------------------------------------------------------------
 def _cross3(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Cross product over the last axis (np.cross costs ~10 us of overhead per call)."""
-    return np.stack([
-        a[..., 1] * b[..., 2] - a[..., 2] * b[..., 1],
-        a[..., 2] * b[..., 0] - a[..., 0] * b[..., 2],
-        a[..., 0] * b[..., 1] - a[..., 1] * b[..., 0],
-    ], axis=-1)
+    return np.stack(
+        [
+            a[..., 1] * b[..., 2] - a[..., 2] * b[..., 1],
+            a[..., 2] * b[..., 0] - a[..., 0] * b[..., 2],
+            a[..., 0] * b[..., 1] - a[..., 1] * b[..., 0],
+        ],
+        axis=-1,
+    )
 
 
-def _readable_3d(p: np.ndarray, e: np.ndarray, far: np.ndarray, scale: np.ndarray
-                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _readable_3d(
+    p: np.ndarray, e: np.ndarray, far: np.ndarray, scale: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Moment axes or force directions that isolate member 0 of each 3D cut, for the derivation.
 
     p, e, far: (n, k, 3) kept-side joints, directions and far joints of each cut's unknown
@@ -659,7 +714,9 @@ class _Solver:
         names, order, nj = eng.joint_names, sw.order, eng.nj
         held = np.where(keep_left, sw.side_supports[0][gaps], sw.side_supports[1][gaps]) > 0
 
-        return self._accept(found, _StraightSides(names, order, stops, lefts, nj), held.tolist(), straight=True)
+        return self._accept(
+            found, _StraightSides(names, order, stops, lefts, nj), held.tolist(), straight=True
+        )
 
     def _moved(self, sw: _Sweep) -> int:
         """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved across."""
@@ -671,7 +728,9 @@ class _Solver:
         unknown_members = np.flatnonzero(~self.known)
         open_joint[eng.ends[unknown_members].ravel()] = True
         open_layer = np.bincount(sw.group[open_joint], minlength=n_layers) > 0
-        gaps = np.flatnonzero((open_layer[:-1] | open_layer[1:]) & (sw.total <= MAX_CROSSING[eng.d]))
+        gaps = np.flatnonzero(
+            (open_layer[:-1] | open_layer[1:]) & (sw.total <= MAX_CROSSING[eng.d])
+        )
         if not len(gaps) or self.budget <= 0:
             return 0
         pc_g, pm_g = eng._pairs(sw, gaps, np.flatnonzero(sw.crossing))
@@ -695,7 +754,9 @@ class _Solver:
                     for moved in itertools.combinations(layer, size):
                         if self.budget <= 0:
                             break
-                        body = self._moved_body(group, known, stops, side_cost, side_sup, g, base, moved, to_right)
+                        body = self._moved_body(
+                            group, known, stops, side_cost, side_sup, g, base, moved, to_right
+                        )
                         if body is not None:
                             self.budget -= 1
                             bodies.append(body)
@@ -709,20 +770,47 @@ class _Solver:
             kepts.append(kept)
             # moved joints join the kept side, or leave it
             joins = to_right != keep_left
-            ext[c] = sw.side_ext[0 if keep_left else 1][g] + (1 if joins else -1) * eng.ext[list(moved)].sum(axis=0)
+            ext[c] = sw.side_ext[0 if keep_left else 1][g] + (1 if joins else -1) * eng.ext[
+                list(moved)
+            ].sum(axis=0)
             added, removed = (moved, ()) if joins else ((), moved)
             if keep_left:
-                sides.append(_JointSet(eng.joint_names, sw.order, 0, int(sw.stops[g]), added, removed))
+                sides.append(
+                    _JointSet(eng.joint_names, sw.order, 0, int(sw.stops[g]), added, removed)
+                )
             else:
-                sides.append(_JointSet(eng.joint_names, sw.order, int(sw.stops[g]), eng.nj, added, removed))
-            sup.append(bool(side_sup[0 if keep_left else 1][g] + (1 if joins else -1) * sum(
-                self.support_list[j] for j in moved) > 0))
-        found = eng.evaluate(np.concatenate(pcs), np.array([m for ms in pms for m in ms], dtype=np.int64),
-                             np.array([j for ks in kepts for j in ks], dtype=np.int64), ext, self.known, self.t)
+                sides.append(
+                    _JointSet(eng.joint_names, sw.order, int(sw.stops[g]), eng.nj, added, removed)
+                )
+            sup.append(
+                bool(
+                    side_sup[0 if keep_left else 1][g]
+                    + (1 if joins else -1) * sum(self.support_list[j] for j in moved)
+                    > 0
+                )
+            )
+        found = eng.evaluate(
+            np.concatenate(pcs),
+            np.array([m for ms in pms for m in ms], dtype=np.int64),
+            np.array([j for ks in kepts for j in ks], dtype=np.int64),
+            ext,
+            self.known,
+            self.t,
+        )
         return self._accept(found, sides, sup, straight=False)
 
-    def _moved_body(self, group: list[int], known: list[bool], stops: list[int], side_cost, side_sup,
-                    g: int, base: set[int], moved: tuple[int, ...], to_right: bool):
+    def _moved_body(
+        self,
+        group: list[int],
+        known: list[bool],
+        stops: list[int],
+        side_cost,
+        side_sup,
+        g: int,
+        base: set[int],
+        moved: tuple[int, ...],
+        to_right: bool,
+    ):
         """The free body `left of gap g` with `moved` joints sent across (pure Python: it runs per
         candidate). Returns (members, kept ends, keep_left, g, moved, to_right) or None if unusable."""
         eng = self.eng
@@ -771,7 +859,9 @@ class _Solver:
         kept = [ends[m][0] if left(ends[m][0]) == keep_left else ends[m][1] for m in members]
         return members, kept, keep_left, g, moved, to_right
 
-    def _accept(self, found: _Found, side: Sequence[_JointSet], supports: Sequence[bool], *, straight: bool) -> int:
+    def _accept(
+        self, found: _Found, side: Sequence[_JointSet], supports: Sequence[bool], *, straight: bool
+    ) -> int:
         """Record the first cut found for every newly isolated member."""
         rows = found.rows()
         if rows is None:
@@ -781,25 +871,49 @@ class _Solver:
         fresh = ~self.known[member]
         if not fresh.any():
             return 0
-        cand, pair, value, w, code, k, member = (a[fresh] for a in (cand, pair, value, w, code, k, member))
+        cand, pair, value, w, code, k, member = (
+            a[fresh] for a in (cand, pair, value, w, code, k, member)
+        )
         n_known = found.offsets[cand + 1] - found.offsets[cand] - k
         order = np.lexsort((cand, n_known, k, member))
         member_sorted = member[order]
         first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
         first = first[np.argsort(cand[first], kind="stable")]
         cs = cand[first].tolist()
-        self.cuts.append(_build_cuts(self.eng, found, cand[first], pair[first], w[first], code[first],
-                                     _Mapped(side, cs), [bool(supports[c]) for c in cs], straight,
-                                     self.known, self.t))
+        self.cuts.append(
+            _build_cuts(
+                self.eng,
+                found,
+                cand[first],
+                pair[first],
+                w[first],
+                code[first],
+                _Mapped(side, cs),
+                [bool(supports[c]) for c in cs],
+                straight,
+                self.known,
+                self.t,
+            )
+        )
         members = member[first]
         self.t[members] = value[first]
         self.known[members] = True
         return len(first)
 
 
-def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray, w: np.ndarray,
-                code: np.ndarray, sides: Sequence[_JointSet], uses_reactions: Sequence[bool],
-                straight: bool, known: np.ndarray, t: np.ndarray) -> _CutBatch:
+def _build_cuts(
+    eng: _Engine,
+    found: _Found,
+    cand: np.ndarray,
+    pair: np.ndarray,
+    w: np.ndarray,
+    code: np.ndarray,
+    sides: Sequence[_JointSet],
+    uses_reactions: Sequence[bool],
+    straight: bool,
+    known: np.ndarray,
+    t: np.ndarray,
+) -> _CutBatch:
     """SectionCut records for accepted solutions (row r: candidate cand[r], target pair[r]).
 
     The Ritter points, force directions and the joints at the points are found for all rows at
@@ -824,15 +938,21 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
         # unknown pairs of every row, the target first, grouped by their number
         size = found.offsets[cand + 1] - found.offsets[cand]
         unknown_of = [
-            [int(pair[r])] + [q for q in range(int(found.offsets[c]), int(found.offsets[c] + size[r]))
-                              if q != pair[r] and not known[found.pm[q]]]
+            [int(pair[r])]
+            + [
+                q
+                for q in range(int(found.offsets[c]), int(found.offsets[c] + size[r]))
+                if q != pair[r] and not known[found.pm[q]]
+            ]
             for r, c in enumerate(cand.tolist())
         ]
         counts = np.array([len(u) for u in unknown_of])
         for k in np.unique(counts):
             rows = np.flatnonzero(counts == k)
             idx = np.array([unknown_of[r] for r in rows], dtype=np.int64)
-            c3, pt, ax = _readable_3d(eng.X[found.kept[idx]], found.col[idx, :3], eng.X[found.far[idx]], Ls[rows])
+            c3, pt, ax = _readable_3d(
+                eng.X[found.kept[idx]], found.col[idx, :3], eng.X[found.far[idx]], Ls[rows]
+            )
             code[rows] = c3
             point[rows] = pt
             axis[rows] = ax
@@ -856,10 +976,23 @@ def _build_cuts(eng: _Engine, found: _Found, cand: np.ndarray, pair: np.ndarray,
     # rounding noise (1e-16) and -0.0 would only clutter the report
     axis = np.where(np.abs(axis) < 1e-14, 0.0, axis) + 0.0
     return _CutBatch(
-        names=eng.member_names, joint_names=eng.joint_names, pm=found.pm, kept=found.kept,
-        is_known=known[found.pm].copy(), t=t.copy(), offsets=found.offsets, cand=cand, pair=pair,
-        point=point, has_point=has_point, axis=axis, code=code, joint_at=joint_at, sides=sides,
-        uses_reactions=list(uses_reactions), straight=straight,
+        names=eng.member_names,
+        joint_names=eng.joint_names,
+        pm=found.pm,
+        kept=found.kept,
+        is_known=known[found.pm].copy(),
+        t=t.copy(),
+        offsets=found.offsets,
+        cand=cand,
+        pair=pair,
+        point=point,
+        has_point=has_point,
+        axis=axis,
+        code=code,
+        joint_at=joint_at,
+        sides=sides,
+        uses_reactions=list(uses_reactions),
+        straight=straight,
     )
 
 
@@ -896,14 +1029,37 @@ class _CutBatch(_Lazy["SectionCut"]):
     cuts were accepted, so each record shows what was known at that step.
     """
 
-    def __init__(self, *, names: Sequence[str], joint_names: Sequence[str], pm: np.ndarray, kept: np.ndarray,
-                 is_known: np.ndarray, t: np.ndarray, offsets: np.ndarray, cand: np.ndarray, pair: np.ndarray,
-                 point: np.ndarray, has_point: np.ndarray, axis: np.ndarray, code: np.ndarray, joint_at: np.ndarray,
-                 sides: Sequence[_JointSet], uses_reactions: list[bool], straight: bool) -> None:
+    def __init__(
+        self,
+        *,
+        names: Sequence[str],
+        joint_names: Sequence[str],
+        pm: np.ndarray,
+        kept: np.ndarray,
+        is_known: np.ndarray,
+        t: np.ndarray,
+        offsets: np.ndarray,
+        cand: np.ndarray,
+        pair: np.ndarray,
+        point: np.ndarray,
+        has_point: np.ndarray,
+        axis: np.ndarray,
+        code: np.ndarray,
+        joint_at: np.ndarray,
+        sides: Sequence[_JointSet],
+        uses_reactions: list[bool],
+        straight: bool,
+    ) -> None:
         self._names, self._jn = names, joint_names
         self._pm, self._kept, self._is_known, self._t = pm, kept, is_known, t
         self._offsets, self._cand, self._pair = offsets, cand, pair
-        self._point, self._has_point, self._axis, self._code, self._joint_at = point, has_point, axis, code, joint_at
+        self._point, self._has_point, self._axis, self._code, self._joint_at = (
+            point,
+            has_point,
+            axis,
+            code,
+            joint_at,
+        )
         self._sides, self._uses_reactions, self._straight = sides, uses_reactions, straight
 
     def __len__(self) -> int:
@@ -938,8 +1094,21 @@ class _CutBatch(_Lazy["SectionCut"]):
 class _StraightSides(_Lazy["_JointSet"]):
     """The kept side of each gap of a straight sweep, as a joint set built when read."""
 
-    def __init__(self, names: tuple[str, ...], order: np.ndarray, stops: list[int], lefts: list[bool], nj: int) -> None:
-        self._names, self._order, self._stops, self._lefts, self._nj = names, order, stops, lefts, nj
+    def __init__(
+        self,
+        names: tuple[str, ...],
+        order: np.ndarray,
+        stops: list[int],
+        lefts: list[bool],
+        nj: int,
+    ) -> None:
+        self._names, self._order, self._stops, self._lefts, self._nj = (
+            names,
+            order,
+            stops,
+            lefts,
+            nj,
+        )
 
     def __len__(self) -> int:
         return len(self._stops)
@@ -996,8 +1165,11 @@ def solve_sections(model: Model) -> SectionSolution:
         )
     elif model.reactions:
         need = EQUATIONS[d]
-        why = (f"{len(model.reactions)} reaction components, not {need}" if len(model.reactions) != need
-               else "the supports are parallel or concurrent")
+        why = (
+            f"{len(model.reactions)} reaction components, not {need}"
+            if len(model.reactions) != need
+            else "the supports are parallel or concurrent"
+        )
         notes.append(
             f"the reactions cannot be found from overall equilibrium ({why}); the section route "
             "covers only free bodies with no support on them"
@@ -1009,7 +1181,9 @@ def solve_sections(model: Model) -> SectionSolution:
     if unreached:
         notes.append(f"{len(unreached)} of {eng.nb} members not reached by a cut")
     return SectionSolution(
-        forces=ForceResult("sections", tuple(model.load_names), members, eng.reactions.copy(), tuple(notes)),
+        forces=ForceResult(
+            "sections", tuple(model.load_names), members, eng.reactions.copy(), tuple(notes)
+        ),
         cuts=_CutSequence(solver.cuts),
         unreached=unreached,
         notes=tuple(notes),
@@ -1034,9 +1208,13 @@ def _reasons(solver: _Solver) -> dict[str, str]:
         bounds = np.column_stack([sw.lo[ms], sw.hi[ms]]).ravel()
         mins = np.minimum.reduceat(np.append(unknown, 0), bounds)[::2]
         fewest[ms] = np.minimum(fewest[ms], mins)
-    suffix = "" if eng.first is not None or not eng.model.reactions else (
-        "; only free bodies without supports were usable, because the reactions cannot be found "
-        "from overall equilibrium"
+    suffix = (
+        ""
+        if eng.first is not None or not eng.model.reactions
+        else (
+            "; only free bodies without supports were usable, because the reactions cannot be found "
+            "from overall equilibrium"
+        )
     )
     out: dict[str, str] = {}
     limit = 2000  # joint-only checks are per member in Python; beyond this the generic reason
@@ -1047,15 +1225,21 @@ def _reasons(solver: _Solver) -> dict[str, str]:
         if eng.nj < 2 or few == np.iinfo(np.int64).max:
             text = "no cut tried crosses it"
         elif joint is not None:
-            text = (f"only the equilibrium of joint {joint} on its own isolates it (method of joints); "
-                    f"every section through it cuts at least {few} members with unknown forces")
+            text = (
+                f"only the equilibrium of joint {joint} on its own isolates it (method of joints); "
+                f"every section through it cuts at least {few} members with unknown forces"
+            )
         elif solver.eng.tied[m] and few <= neq:
-            text = ("each cut through it with few enough unknowns leaves it tied to the other cut "
-                    "members (their lines meet on its line or are parallel to it), so no equation "
-                    "isolates it")
+            text = (
+                "each cut through it with few enough unknowns leaves it tied to the other cut "
+                "members (their lines meet on its line or are parallel to it), so no equation "
+                "isolates it"
+            )
         else:
-            text = (f"every section tried through it cuts at least {few} members with unknown forces, "
-                    f"more than the {neq} equations of one free body can resolve")
+            text = (
+                f"every section tried through it cuts at least {few} members with unknown forces, "
+                f"more than the {neq} equations of one free body can resolve"
+            )
         out[name] = text + suffix
     return out
 
@@ -1098,7 +1282,9 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
         raise ValueError("a cut needs at least one member")
     for m in ids:
         if m not in model.member_index:
-            raise ValueError(f"member '{m}' is not in the model.{did_you_mean(m, model.member_ids)}")
+            raise ValueError(
+                f"member '{m}' is not in the model.{did_you_mean(m, model.member_ids)}"
+            )
     eng = _Engine(model)
     cut_idx = np.array([model.member_index[m] for m in ids], dtype=np.int64)
     keep = np.ones(eng.nb, dtype=bool)
@@ -1121,8 +1307,11 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
             candidates.append(part)
     if not candidates:
         stray = [ids[i] for i in range(len(ids)) if la[i] == lb[i]]
-        detail = (f"{', '.join(stray)} would have both ends on the same side" if stray
-                  else "no single connected part is separated from the rest by exactly these members")
+        detail = (
+            f"{', '.join(stray)} would have both ends on the same side"
+            if stray
+            else "no single connected part is separated from the rest by exactly these members"
+        )
         raise ValueError(f"the members {listed} do not form one section: {detail}")
     options = []
     for part in candidates:
@@ -1131,7 +1320,9 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
         if eng.first is None and supp:
             continue
         has_pin = eng.pin >= 0 and label[eng.pin] == part
-        options.append((bool(has_pin), int(eng.cost[joints].sum()), len(joints), part, joints, supp > 0))
+        options.append(
+            (bool(has_pin), int(eng.cost[joints].sum()), len(joints), part, joints, supp > 0)
+        )
     if not options:
         raise ValueError(
             f"every free body of the cut through {listed} holds a support, and the reactions cannot be "
@@ -1142,17 +1333,33 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
     kept = np.where(label[eng.ends[cut_idx, 0]] == part, eng.ends[cut_idx, 0], eng.ends[cut_idx, 1])
     ext = eng.ext[joints].sum(axis=0)[None]
     known = np.zeros(eng.nb, dtype=bool)
-    found = eng.evaluate(np.zeros(len(cut_idx), dtype=np.int64), cut_idx, kept, ext, known,
-                         np.zeros((eng.nb, eng.ncols)))
+    found = eng.evaluate(
+        np.zeros(len(cut_idx), dtype=np.int64),
+        cut_idx,
+        kept,
+        ext,
+        known,
+        np.zeros((eng.nb, eng.ncols)),
+    )
     rows = found.rows()
     if rows is None:
         raise ValueError(_unresolvable(eng, found, ids))
     cand, pair, value, w, code, k = rows
     first = int(np.argmin(pair))
     side = _JointSet(eng.joint_names, joints.astype(np.int64), 0, len(joints))
-    return _build_cuts(eng, found, cand[first : first + 1], pair[first : first + 1], w[first : first + 1],
-                       code[first : first + 1], [side], [uses_reactions], False, known,
-                       np.zeros((eng.nb, eng.ncols)))[0]
+    return _build_cuts(
+        eng,
+        found,
+        cand[first : first + 1],
+        pair[first : first + 1],
+        w[first : first + 1],
+        code[first : first + 1],
+        [side],
+        [uses_reactions],
+        False,
+        known,
+        np.zeros((eng.nb, eng.ncols)),
+    )[0]
 
 
 def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:
@@ -1169,23 +1376,31 @@ def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:
             w = w / np.linalg.norm(w)
             if np.all(np.abs(lines @ w) <= ELIMINATED_RTOL):
                 if abs(w[2]) <= PARALLEL_RTOL * np.linalg.norm(w[:2]):
-                    return (f"the lines of {listed} are all parallel: a force sum across them gives 0 = 0 "
-                            "and the cut cannot isolate any of them")
+                    return (
+                        f"the lines of {listed} are all parallel: a force sum across them gives 0 = 0 "
+                        "and the cut cannot isolate any of them"
+                    )
                 o = np.array([-w[1] / w[2], w[0] / w[2]]) * found.Ls[0] + found.q0[0] + eng.centre
                 where = f"({', '.join(f'{x:.6g}' for x in o)})"
                 for j in range(eng.nj):
                     if np.linalg.norm(eng.model.xyz[j] - o) <= COINCIDENT_RTOL * eng.extent:
                         where = f"joint {eng.joint_names[j]} {where}"
                         break
-                return (f"the lines of {listed} all pass through one point, {where}: moments about it "
-                        f"vanish for every one of them and the force sums give only 2 equations for "
-                        f"{k} unknowns, so the cut cannot isolate any of them")
+                return (
+                    f"the lines of {listed} all pass through one point, {where}: moments about it "
+                    f"vanish for every one of them and the force sums give only 2 equations for "
+                    f"{k} unknowns, so the cut cannot isolate any of them"
+                )
     if k > neq:
-        return (f"the cut through {listed} has {k} unknown forces but a free body gives only {neq} "
-                "equations, and no member is isolated: the lines of the others neither meet at one point "
-                "nor are all parallel")
-    return (f"the {neq} equations of the free body have rank {rank} for the {k} unknown forces of "
-            f"{listed}, and no member is isolated by them (concurrent or parallel lines)")
+        return (
+            f"the cut through {listed} has {k} unknown forces but a free body gives only {neq} "
+            "equations, and no member is isolated: the lines of the others neither meet at one point "
+            "nor are all parallel"
+        )
+    return (
+        f"the {neq} equations of the free body have rank {rank} for the {k} unknown forces of "
+        f"{listed}, and no member is isolated by them (concurrent or parallel lines)"
+    )
 
 
 @dataclass(frozen=True)
@@ -1207,8 +1422,15 @@ def kept_external(model: Model, cut: SectionCut, column: int) -> list[ExternalFo
     out: list[ExternalForce] = []
     for j in idx.tolist():
         if np.any(F[j] != 0):
-            out.append(ExternalForce("load", model.joints[j].id, model.xyz[j], F[j].copy(),
-                                     float(np.linalg.norm(F[j]))))
+            out.append(
+                ExternalForce(
+                    "load",
+                    model.joints[j].id,
+                    model.xyz[j],
+                    F[j].copy(),
+                    float(np.linalg.norm(F[j])),
+                )
+            )
     kept = set(idx.tolist())
     reacting = [k for k, r in enumerate(model.reactions) if model.joint_index[r.joint] in kept]
     if reacting:
@@ -1222,8 +1444,15 @@ def kept_external(model: Model, cut: SectionCut, column: int) -> list[ExternalFo
             reaction = model.reactions[k]
             j = model.joint_index[reaction.joint]
             value = float(first[0][k, column])
-            out.append(ExternalForce("reaction", reaction.label, model.xyz[j],
-                                     np.asarray(reaction.direction) * value, value))
+            out.append(
+                ExternalForce(
+                    "reaction",
+                    reaction.label,
+                    model.xyz[j],
+                    np.asarray(reaction.direction) * value,
+                    value,
+                )
+            )
     return out
 
 
@@ -1233,11 +1462,15 @@ def _column(model: Model, load_column: int | str) -> int:
         if load_column not in names:
             from verify.errors import did_you_mean
 
-            raise ValueError(f"load case '{load_column}' is not in the model.{did_you_mean(load_column, names)}")
+            raise ValueError(
+                f"load case '{load_column}' is not in the model.{did_you_mean(load_column, names)}"
+            )
         return names.index(load_column)
     column = int(load_column)
     if not 0 <= column < len(model.load_names):
-        raise ValueError(f"load column {column} is out of range (the model has {len(model.load_names)})")
+        raise ValueError(
+            f"load column {column} is out of range (the model has {len(model.load_names)})"
+        )
     return column
 
 
@@ -1301,7 +1534,12 @@ def solve_cut(model: Model, cut: SectionCut, load_column: int | str) -> dict[str
             ext[:d] += known[member] * e
             ext[d:] += known[member] * _line_moment((p - ref)[None], e[None])[0]
     scale = max(float(np.linalg.norm(p - ref)) for _, _, p, _ in lines) or 1.0
-    C = np.array([np.concatenate([e, _line_moment((p - ref)[None], e[None])[0] / scale]) for _, _, p, e in unknown]).T
+    C = np.array(
+        [
+            np.concatenate([e, _line_moment((p - ref)[None], e[None])[0] / scale])
+            for _, _, p, e in unknown
+        ]
+    ).T
     rhs = -ext.copy()
     rhs[d:] /= scale
     ok, val = _rank_solve(C[None], rhs[None, :, None])

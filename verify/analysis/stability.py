@@ -23,6 +23,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from enum import StrEnum
+from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
@@ -32,11 +33,17 @@ from verify.analysis.equilibrium import assemble_equilibrium, rigid_body_modes
 from verify.model import Model
 
 DENSE_DOF_LIMIT = 400  # dense SVD (bases of every mode) costs ~0.1 s here; above, sparse LU first
-DENSE_DETAIL_LIMIT = 1500  # a sparse screen that finds a mechanism hands over to the dense SVD up to here
-POWER_ITERATIONS = 8  # for the sigma_min / sigma_max estimate of a large square A (a figure, not a verdict)
+DENSE_DETAIL_LIMIT = (
+    1500  # a sparse screen that finds a mechanism hands over to the dense SVD up to here
+)
+POWER_ITERATIONS = (
+    8  # for the sigma_min / sigma_max estimate of a large square A (a figure, not a verdict)
+)
 RANK_RTOL = 1e-10  # singular values below RANK_RTOL * sigma_max count as zero
 ILL_CONDITIONED_SCALED = 1e-2  # see module docstring
-LU_PIVOT_SINGULAR = 1e-11  # pivots of A: sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
+LU_PIVOT_SINGULAR = (
+    1e-11  # pivots of A: sound trusses >= 3e-5, defective <= 2e-14 (PERFORMANCE.md item 6)
+)
 # Pivots of the unit-stiffness matrix A W A^T (indeterminate trusses): measured here on Pratt
 # trusses of 10 to 5000 panels with a mechanism plus two self-stresses, 3e-15 .. 2e-10, against
 # 1.5e-2 .. 1.9e-5 for sound ones (tests/test_stability.py); 1e-8 lies in the gap.
@@ -117,11 +124,16 @@ class StabilityResult:
             "slenderness": self.slenderness,
             "ill_conditioned": self.ill_conditioned,
             "mechanism_modes": [
-                {"joints": list(m.joints), "motions": [list(v) for v in m.motions], "rigid_body": m.rigid_body}
+                {
+                    "joints": list(m.joints),
+                    "motions": [list(v) for v in m.motions],
+                    "rigid_body": m.rigid_body,
+                }
                 for m in self.mechanism_modes
             ],
             "self_stress_modes": [
-                {"members": list(s.members), "values": list(s.values)} for s in self.self_stress_modes
+                {"members": list(s.members), "values": list(s.values)}
+                for s in self.self_stress_modes
             ],
             "notes": list(self.notes),
         }
@@ -139,14 +151,20 @@ def _classify(m: int, s: int) -> Classification:
     return Classification.STABLE_INDETERMINATE if s > 0 else Classification.STABLE_DETERMINATE
 
 
-def solve_stability(model: Model, *, dense_limit: int = DENSE_DOF_LIMIT, detail_limit: int | None = None) -> StabilityResult:
+def solve_stability(
+    model: Model, *, dense_limit: int = DENSE_DOF_LIMIT, detail_limit: int | None = None
+) -> StabilityResult:
     """Classify the truss. Never infers stability from a solver not raising: counts come from rank."""
     A = assemble_equilibrium(model)
     if model.dofs <= dense_limit and A.shape[1] <= 2 * dense_limit:
         return _dense(model, A.toarray())
     screened = _sparse(model, A)
     # With an explicit dense_limit (tests of the sparse path) the hand-over follows it.
-    limit = detail_limit if detail_limit is not None else (DENSE_DETAIL_LIMIT if dense_limit == DENSE_DOF_LIMIT else dense_limit)
+    limit = (
+        detail_limit
+        if detail_limit is not None
+        else (DENSE_DETAIL_LIMIT if dense_limit == DENSE_DOF_LIMIT else dense_limit)
+    )
     if not screened.exact_counts and model.dofs <= limit and A.shape[1] <= 2 * limit:
         # The screen found a mechanism; the dense SVD counts them and says which joints move.
         return _dense(model, A.toarray())
@@ -194,18 +212,30 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
         # may mix rigid and internal modes when both exist; this labels each mode by its content).
         coeff = np.linalg.lstsq(R, basis[:, : min(m, 10)], rcond=None)[0]
         leftover = np.linalg.norm(basis[:, : min(m, 10)] - R @ coeff, axis=0)
-        mech_modes = [_mechanism(model, basis[:, k], bool(leftover[k] < 1e-6)) for k in range(min(m, 10))]
+        mech_modes = [
+            _mechanism(model, basis[:, k], bool(leftover[k] < 1e-6)) for k in range(min(m, 10))
+        ]
         F = model.load_matrix()
         if F.size:
             leak = np.abs(basis.T @ F).max(axis=0)
             scale = np.abs(F).max(axis=0)
-            ok = [name for name, lk, sc in zip(model.load_names, leak, scale, strict=True) if sc > 0 and lk <= 1e-9 * sc]
+            ok = [
+                name
+                for name, lk, sc in zip(model.load_names, leak, scale, strict=True)
+                if sc > 0 and lk <= 1e-9 * sc
+            ]
             if ok:
-                notes.append("the loads of " + ", ".join(ok) + " happen to be orthogonal to every mechanism, so they can be equilibrated; the truss is still unstable for other loads")
+                notes.append(
+                    "the loads of "
+                    + ", ".join(ok)
+                    + " happen to be orthogonal to every mechanism, so they can be equilibrated; the truss is still unstable for other loads"
+                )
         if model.dim * len(model.joints) - cols > 0 and m == dofs - cols:
             notes.append("Maxwell's count alone shows the missing members or supports")
         elif m > 0 and model.members and cols >= dofs:
-            notes.append("Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or concurrent supports, collinear members, or a critical form)")
+            notes.append(
+                "Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or concurrent supports, collinear members, or a critical form)"
+            )
     ss_modes: list[SelfStressMode] = []
     if s:
         basis = _local_basis(Vh[rank:, :].T)
@@ -215,7 +245,9 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
             big = np.abs(v).max()
             v = v / (v[np.argmax(np.abs(v))] if big else 1.0)
             idx = np.nonzero(np.abs(v) > MODE_SHARE)[0]
-            ss_modes.append(SelfStressMode(tuple(labels[i] for i in idx), tuple(float(v[i]) for i in idx)))
+            ss_modes.append(
+                SelfStressMode(tuple(labels[i] for i in idx), tuple(float(v[i]) for i in idx))
+            )
         if s > 10:
             notes.append(f"only the first 10 of {s} self-stress states are listed")
     if ill and m == 0:
@@ -224,11 +256,24 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
             f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
         )
     return StabilityResult(
-        dim=model.dim, joints=len(model.joints), members=len(model.members), reactions=len(model.reactions),
-        rank=rank, mechanisms=m, self_stress=s, rigid_body_mechanisms=rigid, classification=_classify(m, s),
-        method="dense-svd", exact_counts=True, sigma_ratio=sigma_ratio, scaled_ratio=scaled,
-        slenderness=slender, ill_conditioned=bool(ill and m == 0),
-        mechanism_modes=tuple(mech_modes), self_stress_modes=tuple(ss_modes), notes=tuple(notes),
+        dim=model.dim,
+        joints=len(model.joints),
+        members=len(model.members),
+        reactions=len(model.reactions),
+        rank=rank,
+        mechanisms=m,
+        self_stress=s,
+        rigid_body_mechanisms=rigid,
+        classification=_classify(m, s),
+        method="dense-svd",
+        exact_counts=True,
+        sigma_ratio=sigma_ratio,
+        scaled_ratio=scaled,
+        slenderness=slender,
+        ill_conditioned=bool(ill and m == 0),
+        mechanism_modes=tuple(mech_modes),
+        self_stress_modes=tuple(ss_modes),
+        notes=tuple(notes),
     )
 
 
@@ -267,21 +312,44 @@ def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
 def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
     dofs, cols = A.shape
     slender = slenderness(model)
-    notes: list[str] = [f"large model ({dofs} joint equations): sparse LU screen instead of a dense SVD"]
-    base = dict(dim=model.dim, joints=len(model.joints), members=len(model.members), reactions=len(model.reactions),
-                method="sparse-lu", sigma_ratio=None, slenderness=slender)
+    notes: list[str] = [
+        f"large model ({dofs} joint equations): sparse LU screen instead of a dense SVD"
+    ]
+    base: dict[str, Any] = dict(
+        dim=model.dim,
+        joints=len(model.joints),
+        members=len(model.members),
+        reactions=len(model.reactions),
+        method="sparse-lu",
+        sigma_ratio=None,
+        slenderness=slender,
+    )
     if cols < dofs:
         m = dofs - cols
         notes.append(f"Maxwell's count shows at least {m} mechanism(s)")
-        return StabilityResult(**base, rank=cols, mechanisms=m, self_stress=0, rigid_body_mechanisms=0,  # type: ignore[arg-type]
-                               classification=Classification.UNSTABLE, exact_counts=False, scaled_ratio=None,
-                               ill_conditioned=False, notes=tuple(notes))
+        return StabilityResult(
+            **base,
+            rank=cols,
+            mechanisms=m,
+            self_stress=0,
+            rigid_body_mechanisms=0,
+            classification=Classification.UNSTABLE,
+            exact_counts=False,
+            scaled_ratio=None,
+            ill_conditioned=False,
+            notes=tuple(notes),
+        )
     if cols == dofs:
         M = A
         spec = "COLAMD" if model.dim == 2 else "MMD_ATA"
     else:
         # Unit-stiffness matrix A W A^T (W = 1/L): singular exactly when a mechanism exists.
-        w = np.concatenate([1.0 / model.lengths, np.full(len(model.reactions), 1.0 / float(np.median(model.lengths)))])
+        w = np.concatenate(
+            [
+                1.0 / model.lengths,
+                np.full(len(model.reactions), 1.0 / float(np.median(model.lengths))),
+            ]
+        )
         M = (A @ sp.diags(w) @ A.T).tocsc()
         spec = "COLAMD"
     try:
@@ -297,7 +365,9 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
     sigma_ratio = scaled = None
     ill = False
     if singular:
-        notes.append("the factorisation is singular: at least one mechanism (exact count needs the dense method on a smaller model)")
+        notes.append(
+            "the factorisation is singular: at least one mechanism (exact count needs the dense method on a smaller model)"
+        )
         m, rank = 1, dofs - 1
     else:
         m, rank = 0, dofs
@@ -305,19 +375,33 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
             sigma_ratio = _sigma_ratio_estimate(A, lu)
             scaled = sigma_ratio * slender**2
             ill = bool(scaled < ILL_CONDITIONED_SCALED)
-            notes.append(f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
-                         f"(LU pivot ratio {ratio:.2e})")
+            notes.append(
+                f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
+                f"(LU pivot ratio {ratio:.2e})"
+            )
             if ill:
-                notes.append(f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
-                             f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry")
+                notes.append(
+                    f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
+                    f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
+                )
         else:
-            notes.append(f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for indeterminate trusses this large)")
+            notes.append(
+                f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for indeterminate trusses this large)"
+            )
     s = cols - rank
     base["sigma_ratio"] = sigma_ratio
-    return StabilityResult(**base, rank=rank, mechanisms=m, self_stress=s, rigid_body_mechanisms=0,  # type: ignore[arg-type]
-                           classification=_classify(m, s), exact_counts=not singular,
-                           scaled_ratio=scaled if scaled is not None else ratio,
-                           ill_conditioned=ill, notes=tuple(notes))
+    return StabilityResult(
+        **base,
+        rank=rank,
+        mechanisms=m,
+        self_stress=s,
+        rigid_body_mechanisms=0,
+        classification=_classify(m, s),
+        exact_counts=not singular,
+        scaled_ratio=scaled if scaled is not None else ratio,
+        ill_conditioned=ill,
+        notes=tuple(notes),
+    )
 
 
 def _sigma_ratio_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:

@@ -67,8 +67,12 @@ from verify.analysis.forces import ForceResult
 from verify.model import Model
 
 ORDERING_TIME_BOX = 1.5  # s; MMD took 0.87 s on the 10^5-member grid where it is the better choice
-DIRECT_FREE_LIMIT = 2000  # free dofs: MMD's worst case measured here stays below 0.1 s (no time box)
-K_PIVOT_SINGULAR = 1e-15  # min/max |U_ii|; sound long trusses measured down to 2e-12 (PERFORMANCE.md)
+DIRECT_FREE_LIMIT = (
+    2000  # free dofs: MMD's worst case measured here stays below 0.1 s (no time box)
+)
+K_PIVOT_SINGULAR = (
+    1e-15  # min/max |U_ii|; sound long trusses measured down to 2e-12 (PERFORMANCE.md)
+)
 SUPPORT_RANK_TOL = 1e-9  # singular value of a joint's unit reaction directions counted as zero
 RESIDUAL_RTOL = 1e-8  # back-check: residual above this fraction of the load scale earns a note
 EQUAL_EA_NOTE = "equal EA assumed: every output says so"
@@ -108,7 +112,9 @@ class ElasticSolution:
     notes: tuple[str, ...] = field(default=())
 
 
-def member_stiffness(model: Model, *, assume_equal_EA: float | None = None) -> tuple[np.ndarray, list[str]]:
+def member_stiffness(
+    model: Model, *, assume_equal_EA: float | None = None
+) -> tuple[np.ndarray, list[str]]:
     """EA per member (force units) and notes. Raises MissingStiffnessError when EA is missing.
 
     With ``assume_equal_EA`` every member takes that value, including members that have their own.
@@ -119,7 +125,9 @@ def member_stiffness(model: Model, *, assume_equal_EA: float | None = None) -> t
     if assume_equal_EA is not None:
         value = float(assume_equal_EA)
         if not math.isfinite(value) or value <= 0:
-            raise ValueError(f"assume_equal_EA must be a positive finite number, got {assume_equal_EA!r}")
+            raise ValueError(
+                f"assume_equal_EA must be a positive finite number, got {assume_equal_EA!r}"
+            )
         given = sum(m.EA is not None for m in model.members)
         notes.append(EQUAL_EA_NOTE)
         if given:
@@ -209,7 +217,9 @@ def assemble_stiffness(model: Model, EA: np.ndarray) -> sp.csc_matrix:
     return sp.coo_matrix((vals, (rows, cols)), shape=(model.dofs, model.dofs)).tocsc()
 
 
-def reactions_from_equilibrium(model: Model, member_forces: np.ndarray, loads: np.ndarray) -> np.ndarray:
+def reactions_from_equilibrium(
+    model: Model, member_forces: np.ndarray, loads: np.ndarray
+) -> np.ndarray:
     """Reaction components (r x columns) balancing member forces and loads at each supported joint.
 
     Solves ``A_R R = -(A_b N + f)`` joint by joint in the least-squares sense (batched pseudo-
@@ -233,7 +243,9 @@ def reactions_from_equilibrium(model: Model, member_forces: np.ndarray, loads: n
 
 
 def _symmetric_mmd(K: sp.csc_matrix) -> spla.SuperLU:
-    return spla.splu(K, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+    return spla.splu(
+        K, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True}
+    )
 
 
 def _pivot_ratio(lu: spla.SuperLU) -> float:
@@ -264,13 +276,17 @@ def _time_boxed_mmd(K: sp.csc_matrix, rhs: np.ndarray, time_box: float) -> tuple
     except ValueError:
         return None, "no fork() on this platform to time-box MMD_AT_PLUS_A"
     receiver, sender = ctx.Pipe(duplex=False)
-    child = ctx.Process(target=_mmd_in_child, args=(sender, K, rhs), daemon=True, name="stiffness-mmd")
+    child = ctx.Process(
+        target=_mmd_in_child, args=(sender, K, rhs), daemon=True, name="stiffness-mmd"
+    )
     child.start()
     sender.close()
     try:
         if not receiver.poll(time_box):
-            return None, (f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box "
-                          "(its fill can explode on some 3D grids) and was stopped")
+            return None, (
+                f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box "
+                "(its fill can explode on some 3D grids) and was stopped"
+            )
         message = receiver.recv()
     except (EOFError, OSError):
         return None, "the MMD_AT_PLUS_A attempt ended without an answer (out of memory?)"
@@ -284,7 +300,9 @@ def _time_boxed_mmd(K: sp.csc_matrix, rhs: np.ndarray, time_box: float) -> tuple
     return message, ""
 
 
-def _solve_reduced(K: sp.csc_matrix, rhs: np.ndarray, time_box: float) -> tuple[np.ndarray, float, list[str]]:
+def _solve_reduced(
+    K: sp.csc_matrix, rhs: np.ndarray, time_box: float
+) -> tuple[np.ndarray, float, list[str]]:
     """Solve K x = rhs for the symmetric positive definite K_f; ordering per the module docstring.
 
     Returns (x, LU pivot ratio, notes naming the ordering used).
@@ -297,15 +315,26 @@ def _solve_reduced(K: sp.csc_matrix, rhs: np.ndarray, time_box: float) -> tuple[
         except RuntimeError as exc:
             why = f"MMD_AT_PLUS_A in symmetric mode failed ({exc})"
         else:
-            return lu.solve(rhs), _pivot_ratio(lu), [
-                f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), {time.perf_counter() - start:.3g} s, "
-                + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)]
+            return (
+                lu.solve(rhs),
+                _pivot_ratio(lu),
+                [
+                    f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), {time.perf_counter() - start:.3g} s, "
+                    + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
+                ],
+            )
     else:
         answer, why = _time_boxed_mmd(K, rhs, time_box)
         if answer is not None:
             _, x, ratio, fill, seconds = answer
-            return x, ratio, [f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode, time-boxed in a "
-                              f"child process), {seconds:.3g} s, " + fill_note.format(fill, K.nnz)]
+            return (
+                x,
+                ratio,
+                [
+                    f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode, time-boxed in a "
+                    f"child process), {seconds:.3g} s, " + fill_note.format(fill, K.nnz)
+                ],
+            )
     start = time.perf_counter()
     try:
         lu = spla.splu(K, permc_spec="COLAMD")
@@ -315,12 +344,19 @@ def _solve_reduced(K: sp.csc_matrix, rhs: np.ndarray, time_box: float) -> tuple[
             "the stability check names the joints that can move"
         ) from None
     x = lu.solve(rhs)
-    return x, _pivot_ratio(lu), [f"{why}; sparse LU of K with COLAMD ordering, {time.perf_counter() - start:.3g} s, "
-                                 + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)]
+    return (
+        x,
+        _pivot_ratio(lu),
+        [
+            f"{why}; sparse LU of K with COLAMD ordering, {time.perf_counter() - start:.3g} s, "
+            + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
+        ],
+    )
 
 
-def solve_stiffness(model: Model, *, assume_equal_EA: float | None = None,
-                    time_box: float = ORDERING_TIME_BOX) -> ElasticSolution:
+def solve_stiffness(
+    model: Model, *, assume_equal_EA: float | None = None, time_box: float = ORDERING_TIME_BOX
+) -> ElasticSolution:
     """Elastic member forces, reactions and joint displacements by the direct stiffness method.
 
     Raises MissingStiffnessError when some members have no EA and ``assume_equal_EA`` is None,
@@ -345,8 +381,10 @@ def solve_stiffness(model: Model, *, assume_equal_EA: float | None = None,
                 f"< {K_PIVOT_SINGULAR:g}): the truss with its supports is a mechanism; "
                 "the stability check names the joints that can move"
             )
-        notes.append(f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; "
-                     "the stability check decides on mechanisms)")
+        notes.append(
+            f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; "
+            "the stability check decides on mechanisms)"
+        )
         x = T @ xf.reshape(nfree, -1)[:, :cols]
     else:
         notes.append("every joint direction is restrained: no displacement, members carry no force")
@@ -361,20 +399,30 @@ def solve_stiffness(model: Model, *, assume_equal_EA: float | None = None,
     A = assemble_equilibrium(model)
     residual = A @ np.vstack([N, R]) + F if cols else np.zeros((model.dofs, 0))
     max_residual = float(np.abs(residual).max()) if residual.size else 0.0
-    scale = max(float(np.abs(F).max()) if F.size else 0.0, float(np.abs(N).max()) if N.size else 0.0)
+    scale = max(
+        float(np.abs(F).max()) if F.size else 0.0, float(np.abs(N).max()) if N.size else 0.0
+    )
     if max_residual > RESIDUAL_RTOL * max(scale, np.finfo(float).tiny):
-        notes.append(f"equilibrium back-check: max |A t + f| = {max_residual:.3g} is large against the "
-                     f"forces ({scale:.3g}); the stiffness answer is not reliable (ill-conditioned K)")
+        notes.append(
+            f"equilibrium back-check: max |A t + f| = {max_residual:.3g} is large against the "
+            f"forces ({scale:.3g}); the stiffness answer is not reliable (ill-conditioned K)"
+        )
     else:
         notes.append(f"equilibrium back-check: max |A t + f| = {max_residual:.3g}")
     notes_t = tuple(notes)
     forces = ForceResult("stiffness", tuple(model.load_names), N, R, notes=notes_t)
-    return ElasticSolution(forces=forces, displacements=x, max_residual=max_residual,
-                           equal_EA_assumed=assume_equal_EA is not None, notes=notes_t)
+    return ElasticSolution(
+        forces=forces,
+        displacements=x,
+        max_residual=max_residual,
+        equal_EA_assumed=assume_equal_EA is not None,
+        notes=notes_t,
+    )
 
 
-def members_fixed_by_statics(model: Model, forces: np.ndarray, *, assume_equal_EA: float | None = None,
-                             seed: int = 0) -> np.ndarray:
+def members_fixed_by_statics(
+    model: Model, forces: np.ndarray, *, assume_equal_EA: float | None = None, seed: int = 0
+) -> np.ndarray:
     """Per member: True when its force does not depend on the member stiffnesses.
 
     `forces` are the elastic member forces already solved for `model` (members x load columns).
@@ -386,9 +434,18 @@ def members_fixed_by_statics(model: Model, forces: np.ndarray, *, assume_equal_E
     EA, _ = member_stiffness(model, assume_equal_EA=assume_equal_EA)
     scaled = EA * np.random.default_rng(seed).uniform(0.5, 2.0, len(EA))
     members = tuple(m._replace(EA=float(v)) for m, v in zip(model.members, scaled, strict=True))
-    varied = Model(title=model.title, units=model.units, dim=model.dim, joints=model.joints, members=members,
-                   reactions=model.reactions, cases=model.cases, combinations=model.combinations, source=model.source,
-                   arrays=(model.xyz, model.ends_index))
+    varied = Model(
+        title=model.title,
+        units=model.units,
+        dim=model.dim,
+        joints=model.joints,
+        members=members,
+        reactions=model.reactions,
+        cases=model.cases,
+        combinations=model.combinations,
+        source=model.source,
+        arrays=(model.xyz, model.ends_index),
+    )
     again = solve_stiffness(varied).forces.member_forces
     scale = max(float(np.abs(forces).max(initial=0.0)), 1e-300)
     return np.all(np.abs(again - forces) <= 1e-7 * scale, axis=1)

@@ -70,14 +70,19 @@ def _bad(model: Model, message: str) -> InputError:
 def _unit_direction(model: Model, direction: Sequence[float]) -> np.ndarray:
     vec = np.asarray(direction, dtype=float).ravel()
     if vec.shape != (model.dim,) or not np.all(np.isfinite(vec)):
-        raise _bad(model, f"unit-load direction must be {model.dim} finite numbers, got {list(direction)!r}")
+        raise _bad(
+            model,
+            f"unit-load direction must be {model.dim} finite numbers, got {list(direction)!r}",
+        )
     norm = float(np.linalg.norm(vec))
     if norm == 0.0:
         raise _bad(model, "unit-load direction is the zero vector; give e.g. [0, -1] for downward")
     return vec / norm
 
 
-def solve_unit_load(model: Model, joint: str, direction: np.ndarray) -> tuple[np.ndarray, str, list[str]]:
+def solve_unit_load(
+    model: Model, joint: str, direction: np.ndarray
+) -> tuple[np.ndarray, str, list[str]]:
     """t = [n (members); reactions] for a unit load along `direction` at `joint`, plus the route."""
     A = assemble_equilibrium(model)
     f = np.zeros(model.dofs)
@@ -92,7 +97,9 @@ def solve_unit_load(model: Model, joint: str, direction: np.ndarray) -> tuple[np
             t = lu.solve(-f)
             route = "statics (determinate)"
         except RuntimeError:
-            notes.append("the square equilibrium matrix is singular; the minimum-norm solution was tried")
+            notes.append(
+                "the square equilibrium matrix is singular; the minimum-norm solution was tried"
+            )
     if t is None and A.shape[0] < A.shape[1] <= 2 * DENSE_LIMIT:
         t, route, released = _released_structure(model, A.toarray(), f)
         if t is not None:
@@ -121,7 +128,9 @@ def solve_unit_load(model: Model, joint: str, direction: np.ndarray) -> tuple[np
     return t, route, notes
 
 
-def _released_structure(model: Model, A: np.ndarray, f: np.ndarray) -> tuple[np.ndarray | None, str, list[str]]:
+def _released_structure(
+    model: Model, A: np.ndarray, f: np.ndarray
+) -> tuple[np.ndarray | None, str, list[str]]:
     """n for the unit load on the truss with its redundants removed, as a hand calc would do it.
 
     QR with column pivoting keeps a well-conditioned set of independent columns (members and
@@ -135,7 +144,9 @@ def _released_structure(model: Model, A: np.ndarray, f: np.ndarray) -> tuple[np.
     # Pivoting takes the largest columns first: weight the supports most and short members over
     # long ones, so the released redundants are the long diagonals a hand calc would cut.
     typical = float(np.median(model.lengths)) if len(model.members) else 1.0
-    weights = np.concatenate([1.0 / model.lengths, np.full(cols - len(model.members), 10.0 / typical)])
+    weights = np.concatenate(
+        [1.0 / model.lengths, np.full(cols - len(model.members), 10.0 / typical)]
+    )
     _, R, order = scipy.linalg.qr(A * weights, pivoting=True, mode="economic")
     diag = np.abs(np.diag(R))
     rank = int((diag > 1e-10 * diag.max()).sum()) if diag.size else 0
@@ -149,18 +160,30 @@ def _released_structure(model: Model, A: np.ndarray, f: np.ndarray) -> tuple[np.
     return t, "statics on the truss with its redundants released", released
 
 
-def unit_load_deflection(model: Model, forces_real: np.ndarray, joint: str, direction: Sequence[float], *,
-                         assume_equal_EA: float | None = None) -> VirtualWorkCalc:
+def unit_load_deflection(
+    model: Model,
+    forces_real: np.ndarray,
+    joint: str,
+    direction: Sequence[float],
+    *,
+    assume_equal_EA: float | None = None,
+) -> VirtualWorkCalc:
     """Deflection of `joint` along `direction` by the unit-load method, with per-member rows.
 
     ``forces_real`` are the real member forces (one load column, tension positive, case force unit).
     For an indeterminate truss they must be the elastic forces (e.g. from solve_stiffness).
     """
     if joint not in model.joint_index:
-        raise _bad(model, f"unit-load joint '{joint}' is not defined.{did_you_mean(joint, model.joint_ids)}")
+        raise _bad(
+            model,
+            f"unit-load joint '{joint}' is not defined.{did_you_mean(joint, model.joint_ids)}",
+        )
     N = np.asarray(forces_real, dtype=float).ravel()
     if N.shape != (len(model.members),):
-        raise _bad(model, f"real forces must hold one value per member ({len(model.members)}), got shape {np.shape(forces_real)}")
+        raise _bad(
+            model,
+            f"real forces must hold one value per member ({len(model.members)}), got shape {np.shape(forces_real)}",
+        )
     if not np.all(np.isfinite(N)):
         bad = [model.members[k].id for k in np.nonzero(~np.isfinite(N))[0][:10]]
         raise _bad(model, f"real forces are not finite for member(s) {', '.join(bad)}")
@@ -178,8 +201,13 @@ def unit_load_deflection(model: Model, forces_real: np.ndarray, joint: str, dire
     )
     reactions = tuple((r.label, float(t[b + k])) for k, r in enumerate(model.reactions))
     return VirtualWorkCalc(
-        joint=joint, direction=tuple(float(c) for c in unit), rows=rows, deflection=float(terms.sum()),
-        unit_load_route=route, unit_reactions=reactions, equal_EA_assumed=assume_equal_EA is not None,
+        joint=joint,
+        direction=tuple(float(c) for c in unit),
+        rows=rows,
+        deflection=float(terms.sum()),
+        unit_load_route=route,
+        unit_reactions=reactions,
+        equal_EA_assumed=assume_equal_EA is not None,
         notes=tuple(notes),
     )
 
@@ -202,15 +230,25 @@ def render_virtual_work(calc: VirtualWorkCalc, model: Model) -> str:
     fu = model.units.force.symbol
     dir_text = "(" + ", ".join(_fmt(c) for c in calc.direction) + ")"
     header = ["member", f"N ({fu})", "n (-)", f"L ({lu})", f"EA ({fu})", f"n N L / EA ({lu})"]
-    values = np.array([[r.real_force, r.unit_force, r.length, r.EA, r.term] for r in calc.rows]).reshape(-1, 5)
+    values = np.array(
+        [[r.real_force, r.unit_force, r.length, r.EA, r.term] for r in calc.rows]
+    ).reshape(-1, 5)
     # Round-off left by the solves (e.g. -3.6e-15 for a zero-force member) would distract a checker.
     scale = np.abs(values).max(axis=0) if len(values) else np.zeros(5)
     values = np.where(np.abs(values) <= DISPLAY_ZERO_RTOL * scale, 0.0, values)
-    body = [[r.member, *(_fmt(float(v)) for v in row)] for r, row in zip(calc.rows, values, strict=True)]
-    widths = [max(len(h), *(len(row[k]) for row in body)) if body else len(h) for k, h in enumerate(header)]
+    body = [
+        [r.member, *(_fmt(float(v)) for v in row)] for r, row in zip(calc.rows, values, strict=True)
+    ]
+    widths = [
+        max(len(h), *(len(row[k]) for row in body)) if body else len(h)
+        for k, h in enumerate(header)
+    ]
 
     def line(cells: list[str]) -> str:
-        return "  ".join(c.ljust(w) if k == 0 else c.rjust(w) for k, (c, w) in enumerate(zip(cells, widths, strict=True)))
+        return "  ".join(
+            c.ljust(w) if k == 0 else c.rjust(w)
+            for k, (c, w) in enumerate(zip(cells, widths, strict=True))
+        )
 
     out = [
         f"Unit-load (virtual work) deflection of joint '{calc.joint}' along {dir_text}",

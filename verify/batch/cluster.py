@@ -40,10 +40,17 @@ class DaskRunner:
         try:
             self._client = Client(self.address, timeout=CONNECT_TIMEOUT)
         except (OSError, TimeoutError, ValueError, TypeError) as exc:
-            raise SchedulerError(f"--scheduler: cannot reach a Dask scheduler at '{self.address}' ({exc})") from None
+            raise SchedulerError(
+                f"--scheduler: cannot reach a Dask scheduler at '{self.address}' ({exc})"
+            ) from None
         return self
 
-    def __exit__(self, kind: type[BaseException] | None, error: BaseException | None, trace: TracebackType | None) -> None:
+    def __exit__(
+        self,
+        kind: type[BaseException] | None,
+        error: BaseException | None,
+        trace: TracebackType | None,
+    ) -> None:
         if self._client is not None:
             self._client.close()
             self._client = None
@@ -60,4 +67,8 @@ class DaskRunner:
             try:
                 yield future.result()
             except Exception as exc:  # noqa: BLE001 - a worker lost or killed: that case is reported, the rest go on
-                yield CaseResult(futures[future].name, FAULT, reason=f"the Dask worker running this case failed ({type(exc).__name__}: {exc})")
+                yield CaseResult(
+                    futures[future].name,
+                    FAULT,
+                    reason=f"the Dask worker running this case failed ({type(exc).__name__}: {exc})",
+                )

@@ -43,7 +43,16 @@ MANIFEST_FILE = "manifest.csv"
 # The claims table of a case folder: `claims` with a suffix the claims reader reads.
 CLAIMS_SUFFIXES = (".csv", ".txt", ".tsv", ".xlsx", ".xlsm", ".pdf")
 
-TEXT_OPTIONS = ("sign", "unit", "sheet", "pages", "member_column", "case_column", "force_column", "load_case")
+TEXT_OPTIONS = (
+    "sign",
+    "unit",
+    "sheet",
+    "pages",
+    "member_column",
+    "case_column",
+    "force_column",
+    "load_case",
+)
 NUMBER_OPTIONS = ("rtol", "atol_fraction", "assume_equal_ea")
 PATH_COLUMNS = ("case", "claims", "displacements")
 MANIFEST_COLUMNS = ("name", *PATH_COLUMNS, *TEXT_OPTIONS, *NUMBER_OPTIONS)
@@ -85,8 +94,15 @@ def find_jobs(target: str | Path, *, output: Path | None = None) -> tuple[list[J
         return read_manifest(manifest), manifest
     jobs = _case_folders(target, output)
     if not jobs:
-        raise InputError([Problem(str(target), f"no case folders found (a folder holding {CASE_FILE} and a claims "
-                                               f"table such as claims.csv) and no {MANIFEST_FILE}")])
+        raise InputError(
+            [
+                Problem(
+                    str(target),
+                    f"no case folders found (a folder holding {CASE_FILE} and a claims "
+                    f"table such as claims.csv) and no {MANIFEST_FILE}",
+                )
+            ]
+        )
     return jobs, None
 
 
@@ -97,18 +113,31 @@ def _case_folders(root: Path, output: Path | None) -> list[Job]:
     for folder, subfolders, files in os.walk(root):
         here = Path(folder)
         # Sorted in place so the walk, and so the summary, has the same order on every machine.
-        subfolders[:] = sorted(d for d in subfolders if not d.startswith(".") and (here / d).resolve() != skip)
+        subfolders[:] = sorted(
+            d for d in subfolders if not d.startswith(".") and (here / d).resolve() != skip
+        )
         name = here.relative_to(root).as_posix()
         name = root.resolve().name if name == "." else name
         claims = _claims_files(here, files)
         if CASE_FILE not in files:
             if claims:
-                jobs.append(Job(name, name, None, None, problem=f"a claims table ({claims[0].name}) without a {CASE_FILE} beside it"))
+                jobs.append(
+                    Job(
+                        name,
+                        name,
+                        None,
+                        None,
+                        problem=f"a claims table ({claims[0].name}) without a {CASE_FILE} beside it",
+                    )
+                )
             continue
         case = str((here / CASE_FILE).resolve())
         if len(claims) != 1:
-            problem = (f"no claims table beside {CASE_FILE} (name it claims.csv, claims.xlsx or claims.pdf)" if not claims else
-                       f"several claims tables ({', '.join(p.name for p in claims)}); keep one, or list the case in a {MANIFEST_FILE}")
+            problem = (
+                f"no claims table beside {CASE_FILE} (name it claims.csv, claims.xlsx or claims.pdf)"
+                if not claims
+                else f"several claims tables ({', '.join(p.name for p in claims)}); keep one, or list the case in a {MANIFEST_FILE}"
+            )
             jobs.append(Job(name, name, case, None, problem=problem))
             continue
         jobs.append(Job(name, name, case, str(claims[0].resolve())))
@@ -117,8 +146,11 @@ def _case_folders(root: Path, output: Path | None) -> list[Job]:
 
 def _claims_files(folder: Path, files: list[str]) -> list[Path]:
     # A spreadsheet program's lock file (~$claims.xlsx) and hidden copies are not tables.
-    return [folder / f for f in sorted(files)
-            if Path(f).stem.casefold() == "claims" and Path(f).suffix.lower() in CLAIMS_SUFFIXES]
+    return [
+        folder / f
+        for f in sorted(files)
+        if Path(f).stem.casefold() == "claims" and Path(f).suffix.lower() in CLAIMS_SUFFIXES
+    ]
 
 
 # -- manifest ------------------------------------------------------------------------------------
@@ -136,38 +168,59 @@ def read_manifest(path: Path) -> list[Job]:
     except UnreadableFile as exc:
         raise InputError([Problem(name, str(exc))]) from None
     except UnicodeDecodeError as exc:
-        raise InputError([Problem(name, f"not UTF-8 text (byte {exc.start}); save the manifest as UTF-8 CSV")]) from None
+        raise InputError(
+            [Problem(name, f"not UTF-8 text (byte {exc.start}); save the manifest as UTF-8 CSV")]
+        ) from None
     lines = text.splitlines()
     first = next((line for line in lines if line.strip() and not line.startswith("#")), "")
     delimiter = ";" if first.count(";") > first.count(",") else ","
-    rows = [(number, row) for number, row in enumerate(csv.reader(lines, delimiter=delimiter), start=1)
-            if any(cell.strip() for cell in row) and not row[0].startswith("#")]
+    rows = [
+        (number, row)
+        for number, row in enumerate(csv.reader(lines, delimiter=delimiter), start=1)
+        if any(cell.strip() for cell in row) and not row[0].startswith("#")
+    ]
     problems = ProblemList(name)
     if not rows:
-        problems.add("the manifest is empty; it needs a header row (case, claims, ...) and one row per case")
+        problems.add(
+            "the manifest is empty; it needs a header row (case, claims, ...) and one row per case"
+        )
         problems.raise_if_any()
     header_line, header = rows[0]
     keys = [_column_key(h) for h in header]
     for h, key in zip(header, keys, strict=True):
         if key and key not in MANIFEST_COLUMNS:
-            problems.add(f"unknown column {quoted(h)}; the columns are {', '.join(MANIFEST_COLUMNS)}."
-                         f"{did_you_mean(key, MANIFEST_COLUMNS)}", line=header_line)
+            problems.add(
+                f"unknown column {quoted(h)}; the columns are {', '.join(MANIFEST_COLUMNS)}."
+                f"{did_you_mean(key, MANIFEST_COLUMNS)}",
+                line=header_line,
+            )
     for required in ("case", "claims"):
         if required not in keys:
-            problems.add(f"no {required!r} column in the header row (found {', '.join(quoted(h) for h in header)})", line=header_line)
+            problems.add(
+                f"no {required!r} column in the header row (found {', '.join(quoted(h) for h in header)})",
+                line=header_line,
+            )
     repeated = sorted({k for k in keys if k and keys.count(k) > 1})
     if repeated:
-        problems.add(f"column {', '.join(repeated)} given twice in the header row", line=header_line)
+        problems.add(
+            f"column {', '.join(repeated)} given twice in the header row", line=header_line
+        )
     if len(rows) == 1:
         problems.add("the manifest has a header row but no case rows", line=header_line)
     problems.raise_if_any()
     base = path.parent.resolve()
-    jobs = [_manifest_job(path.name, number, dict(zip(keys, row, strict=False)), len(row) - len(keys), base)
-            for number, row in rows[1:]]
+    jobs = [
+        _manifest_job(
+            path.name, number, dict(zip(keys, row, strict=False)), len(row) - len(keys), base
+        )
+        for number, row in rows[1:]
+    ]
     return _unique_names(jobs)
 
 
-def _manifest_job(manifest: str, number: int, cells: dict[str, str], extra_cells: int, base: Path) -> Job:
+def _manifest_job(
+    manifest: str, number: int, cells: dict[str, str], extra_cells: int, base: Path
+) -> Job:
     origin = f"{manifest} row {number}"
     values = {k: v.strip() for k, v in cells.items() if k and v.strip()}
     label = values.get("name") or values.get("case") or origin
@@ -197,8 +250,15 @@ def _manifest_job(manifest: str, number: int, cells: dict[str, str], extra_cells
                 reasons.append(f"{column} {quoted(values[column])} is not a number")
                 continue
             options.append((column, number_value))
-    return Job(escape_controls(label), origin, paths["case"], paths["claims"], paths["displacements"],
-               tuple(sorted(options)), problem="; ".join(reasons) or None)
+    return Job(
+        escape_controls(label),
+        origin,
+        paths["case"],
+        paths["claims"],
+        paths["displacements"],
+        tuple(sorted(options)),
+        problem="; ".join(reasons) or None,
+    )
 
 
 def _unique_names(jobs: list[Job]) -> list[Job]:
@@ -206,6 +266,17 @@ def _unique_names(jobs: list[Job]) -> list[Job]:
     counts: dict[str, int] = {}
     for job in jobs:
         counts[job.name] = counts.get(job.name, 0) + 1
-    return [job if counts[job.name] == 1 else
-            Job(f"{job.name} ({job.origin})", job.origin, job.case, job.claims, job.displacements, job.options, job.problem)
-            for job in jobs]
+    return [
+        job
+        if counts[job.name] == 1
+        else Job(
+            f"{job.name} ({job.origin})",
+            job.origin,
+            job.case,
+            job.claims,
+            job.displacements,
+            job.options,
+            job.problem,
+        )
+        for job in jobs
+    ]

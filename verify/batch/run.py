@@ -58,9 +58,13 @@ def batch_exit(codes: Iterable[int]) -> int:
 
 def status_line(counts: dict[str, int], code: int) -> str:
     total = sum(counts.values())
-    words = {EXIT_AGREES: "every claim checked agrees", EXIT_DISCREPANCIES: "discrepancies found",
-             EXIT_CANNOT_VERIFY: "some trusses cannot be verified", EXIT_FAULT: "a fault in the tool stopped some checks",
-             EXIT_BAD_INPUT: "some cases have bad input"}
+    words = {
+        EXIT_AGREES: "every claim checked agrees",
+        EXIT_DISCREPANCIES: "discrepancies found",
+        EXIT_CANNOT_VERIFY: "some trusses cannot be verified",
+        EXIT_FAULT: "a fault in the tool stopped some checks",
+        EXIT_BAD_INPUT: "some cases have bad input",
+    }
     return f"{total} case{'s' if total != 1 else ''}: {words[code]} (exit status {code})"
 
 
@@ -106,9 +110,14 @@ def local_runner(workers: int) -> Runner:
                 try:
                     yield future.result()
                 except BrokenProcessPool:
-                    yield CaseResult(futures[future].name, FAULT, reason=(
-                        "the worker process stopped (killed, or out of memory) while this case or one beside it "
-                        "was checked; check it alone with `truss-verify check`"))
+                    yield CaseResult(
+                        futures[future].name,
+                        FAULT,
+                        reason=(
+                            "the worker process stopped (killed, or out of memory) while this case or one beside it "
+                            "was checked; check it alone with `truss-verify check`"
+                        ),
+                    )
 
     return run
 
@@ -136,7 +145,9 @@ def report_names(jobs: list[Job]) -> dict[str, str]:
 def _prepare_output(output: Path, summary: Path, inputs: list[str]) -> None:
     """Refuse, before any case runs, outputs the batch could not write or must not write."""
     if not summary.name.lower().endswith(".csv"):
-        raise OutputError(f"--summary: '{summary}' must end in .csv (the summary is comma-separated text)")
+        raise OutputError(
+            f"--summary: '{summary}' must end in .csv (the summary is comma-separated text)"
+        )
     if summary.resolve().parent != output.resolve() and not summary.resolve().parent.is_dir():
         raise OutputError(f"--summary: the folder {summary.resolve().parent} does not exist")
     if output.exists() and not output.is_dir():
@@ -147,7 +158,9 @@ def _prepare_output(output: Path, summary: Path, inputs: list[str]) -> None:
     try:
         (output / REPORTS_FOLDER).mkdir(parents=True, exist_ok=True)
     except OSError as exc:
-        raise OutputError(f"{output}: cannot make the output folder ({exc.strerror or exc})") from None
+        raise OutputError(
+            f"{output}: cannot make the output folder ({exc.strerror or exc})"
+        ) from None
 
 
 def _same(a: Path, b: str) -> bool:
@@ -157,9 +170,15 @@ def _same(a: Path, b: str) -> bool:
         return a.resolve() == Path(b).resolve()
 
 
-def run_batch(target: str | Path, *, runner: Runner, output: str | Path | None = None,
-              summary: str | Path | None = None, recheck: bool = False,
-              on_result: Progress | None = None) -> BatchOutcome:
+def run_batch(
+    target: str | Path,
+    *,
+    runner: Runner,
+    output: str | Path | None = None,
+    summary: str | Path | None = None,
+    recheck: bool = False,
+    on_result: Progress | None = None,
+) -> BatchOutcome:
     """Check every case of `target` (a folder or a manifest CSV) and write the outputs.
 
     Raises InputError when the folder or manifest cannot be read at all and OutputError when an
@@ -201,8 +220,13 @@ def run_batch(target: str | Path, *, runner: Runner, output: str | Path | None =
     write_atomic(summary_path, render_summary_csv(list(pairs)), inputs=inputs)
     index = out / "index.html"
     title = f"truss-verify batch: {manifest.name if manifest else home.resolve().name}"
-    write_atomic(index, render_index_html(list(pairs), title=title, counts=counts, status_line=status_line(counts, code)),
-                 inputs=inputs)
+    write_atomic(
+        index,
+        render_index_html(
+            list(pairs), title=title, counts=counts, status_line=status_line(counts, code)
+        ),
+        inputs=inputs,
+    )
     return BatchOutcome(pairs, code, counts, summary_path, index, manifest)
 
 

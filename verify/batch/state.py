@@ -25,8 +25,14 @@ STATE_FORMAT = 1
 
 
 def fingerprint(job: Job, inputs: tuple[tuple[str, str], ...]) -> str:
-    facts = {"tool": __version__, "case": job.case, "claims": job.claims, "displacements": job.displacements,
-             "options": [list(o) for o in job.options], "inputs": [list(i) for i in inputs]}
+    facts = {
+        "tool": __version__,
+        "case": job.case,
+        "claims": job.claims,
+        "displacements": job.displacements,
+        "options": [list(o) for o in job.options],
+        "inputs": [list(i) for i in inputs],
+    }
     return hashlib.sha256(json.dumps(facts, sort_keys=True).encode()).hexdigest()
 
 
@@ -36,7 +42,11 @@ def load_state(path: Path) -> dict[str, Any]:
         data = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return {}
-    if not isinstance(data, dict) or data.get("format") != STATE_FORMAT or not isinstance(data.get("cases"), dict):
+    if (
+        not isinstance(data, dict)
+        or data.get("format") != STATE_FORMAT
+        or not isinstance(data.get("cases"), dict)
+    ):
         return {}
     return data["cases"]
 
@@ -71,4 +81,9 @@ def render_state(pairs: list[tuple[Job, CaseResult]]) -> str:
         row.pop("report")
         row["unchanged"] = False
         cases[job.name] = {"fingerprint": fingerprint(job, result.inputs), "row": row}
-    return json.dumps({"format": STATE_FORMAT, "tool": __version__, "cases": cases}, indent=1, sort_keys=True) + "\n"
+    return (
+        json.dumps(
+            {"format": STATE_FORMAT, "tool": __version__, "cases": cases}, indent=1, sort_keys=True
+        )
+        + "\n"
+    )

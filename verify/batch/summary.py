@@ -18,8 +18,20 @@ from verify.errors import escape_controls
 from verify.report.cautions import CAUTION
 from verify.report.table_csv import neutralise
 
-SUMMARY_COLUMNS = ("case", "status", "exit", "findings", "most_serious", "reason", "report", "seconds", "checked",
-                   "case_file", "claims_file", "origin")
+SUMMARY_COLUMNS = (
+    "case",
+    "status",
+    "exit",
+    "findings",
+    "most_serious",
+    "reason",
+    "report",
+    "seconds",
+    "checked",
+    "case_file",
+    "claims_file",
+    "origin",
+)
 TIME_COLUMN = "seconds"  # the one column two runs of the same folder may differ in
 
 
@@ -58,23 +70,29 @@ td.cannot-verify{color:#8a5d00;font-weight:bold}td.bad-input,td.fault{color:#8b0
 """
 
 
-def render_index_html(pairs: list[tuple[Job, CaseResult]], *, title: str, counts: dict[str, int], status_line: str) -> str:
+def render_index_html(
+    pairs: list[tuple[Job, CaseResult]], *, title: str, counts: dict[str, int], status_line: str
+) -> str:
     """A self-contained page (no scripts, no network) linking each case's report."""
     rows = []
     for job, result in pairs:
-        link = (f'<a href="{escape(quote(result.report_file))}">{escape(result.name)}</a>' if result.report_file
-                else escape(result.name))
+        link = (
+            f'<a href="{escape(quote(result.report_file))}">{escape(result.name)}</a>'
+            if result.report_file
+            else escape(result.name)
+        )
         detail = result.reason if result.reason and not result.most_serious else result.most_serious
         if result.reason and result.most_serious:
             detail += f" ({result.reason})"
         rows.append(
-            f"<tr><td>{link}</td><td class=\"{escape(result.status)}\">{escape(result.status)}</td>"
-            f"<td class=\"num\">{result.findings}</td><td>{escape(detail)}</td>"
-            f"<td class=\"num\">{result.seconds:.2f}</td><td>{'unchanged' if result.unchanged else 'this run'}</td>"
-            f"<td>{escape(job.origin)}</td></tr>")
+            f'<tr><td>{link}</td><td class="{escape(result.status)}">{escape(result.status)}</td>'
+            f'<td class="num">{result.findings}</td><td>{escape(detail)}</td>'
+            f'<td class="num">{result.seconds:.2f}</td><td>{"unchanged" if result.unchanged else "this run"}</td>'
+            f"<td>{escape(job.origin)}</td></tr>"
+        )
     tally = ", ".join(f"{n} {escape(status)}" for status, n in counts.items() if n)
     return (
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+        '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
         f"<title>{escape(title)}</title><style>{_CSS}</style></head><body>\n"
         f"<h1>{escape(title)}</h1>\n<p><strong>{escape(status_line)}</strong></p>\n<p>{tally}.</p>\n"
         "<table><thead><tr><th>case (report)</th><th>status</th><th>findings</th><th>most serious finding, or why "

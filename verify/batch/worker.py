@@ -29,8 +29,13 @@ from verify.errors import (
 EXIT_FAULT = 70  # as `check` exits on a fault in the tool (EX_SOFTWARE)
 BAD_INPUT = "bad-input"
 FAULT = "fault"
-STATUS_EXIT = {"agrees": EXIT_AGREES, "discrepancies": EXIT_DISCREPANCIES, "cannot-verify": EXIT_CANNOT_VERIFY,
-               BAD_INPUT: EXIT_BAD_INPUT, FAULT: EXIT_FAULT}
+STATUS_EXIT = {
+    "agrees": EXIT_AGREES,
+    "discrepancies": EXIT_DISCREPANCIES,
+    "cannot-verify": EXIT_CANNOT_VERIFY,
+    BAD_INPUT: EXIT_BAD_INPUT,
+    FAULT: EXIT_FAULT,
+}
 
 
 @dataclass(frozen=True)
@@ -77,7 +82,11 @@ def check_job(job: Job) -> CaseResult:
         result = CaseResult(job.name, FAULT, reason="out of memory while checking this case")
     except Exception as error:  # noqa: BLE001 - a fault in the tool must not stop the other cases
         last = traceback.format_exception_only(type(error), error)[-1].strip()
-        result = CaseResult(job.name, FAULT, reason=f"internal error (a fault in the tool; please report it): {last}")
+        result = CaseResult(
+            job.name,
+            FAULT,
+            reason=f"internal error (a fault in the tool; please report it): {last}",
+        )
     return replace(result, seconds=time.perf_counter() - start)
 
 
@@ -93,12 +102,22 @@ def _review(job: Job) -> CaseResult:
     # Manifest cells are text or numbers as read; CheckOptions checks each one's type and range.
     given: dict[str, Any] = {_MANIFEST_FIELDS.get(name, name): value for name, value in job.options}
     spelt = tuple((field, column) for column, field in _MANIFEST_FIELDS.items())
-    result = check(job.case, job.claims, CheckOptions(**given, displacements=job.displacements, spelt=spelt))
+    result = check(
+        job.case, job.claims, CheckOptions(**given, displacements=job.displacements, spelt=spelt)
+    )
     review = result.review
     first = review.findings[0] if review.findings else None
-    most_serious = "" if first is None else (
-        f"{first.title}{f' ({first.case})' if first.case else ''}: {finding_sentence(first)}")
+    most_serious = (
+        ""
+        if first is None
+        else (f"{first.title}{f' ({first.case})' if first.case else ''}: {finding_sentence(first)}")
+    )
     read = dict.fromkeys(str(Path(p).resolve()) for p in result.inputs)
-    return CaseResult(job.name, review.verdict.value, findings=len(review.findings), most_serious=most_serious,
-                      inputs=tuple((p, sha256_of(p)) for p in read),
-                      report=render_document(review, fmt="html", displacement_file=result.displacement_file))
+    return CaseResult(
+        job.name,
+        review.verdict.value,
+        findings=len(review.findings),
+        most_serious=most_serious,
+        inputs=tuple((p, sha256_of(p)) for p in read),
+        report=render_document(review, fmt="html", displacement_file=result.displacement_file),
+    )

@@ -31,13 +31,21 @@ class JointImbalance:
 def _incidence(model: Model) -> tuple[sp.csr_matrix, np.ndarray]:
     """Joints x members 0/1 matrix (which members meet at each joint) and each joint's degree."""
     b, nj, ends = len(model.members), len(model.joints), model.ends_index
-    incidence = sp.csr_matrix((np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
-                              shape=(nj, b))
+    incidence = sp.csr_matrix(
+        (np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
+        shape=(nj, b),
+    )
     return incidence, np.asarray(incidence.sum(axis=1)).ravel()
 
 
-def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tuple[int, int], float],
-                   load_names: list[str], tol: Tolerance, rounding: np.ndarray | None = None) -> list[JointImbalance]:
+def claims_balance(
+    model: Model,
+    claimed: np.ndarray,
+    reaction_claims: dict[tuple[int, int], float],
+    load_names: list[str],
+    tol: Tolerance,
+    rounding: np.ndarray | None = None,
+) -> list[JointImbalance]:
     """Joints where the claims do not balance, per load column.
 
     `rounding` (members x load columns, case units) is each claim's allowance for the decimals it
@@ -82,7 +90,9 @@ def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tupl
                 coeffs = np.linalg.lstsq(D, -residual[j], rcond=None)[0]
                 residual[j] = residual[j] + D @ coeffs
         size = np.linalg.norm(residual, axis=1)
-        allowed = np.maximum(tol.rtol * magnitude, tol.atol_fraction * scale * np.maximum(degree, 1))
+        allowed = np.maximum(
+            tol.rtol * magnitude, tol.atol_fraction * scale * np.maximum(degree, 1)
+        )
         if rounding is not None:
             # Independent roundings add like random errors: root-sum-square of the allowances of
             # the members at the joint (the worst-case sum would hide a real 2 kN slip among
@@ -91,9 +101,16 @@ def claims_balance(model: Model, claimed: np.ndarray, reaction_claims: dict[tupl
             allowed = allowed + np.sqrt(incidence @ squares)
         for jj in np.nonzero(checkable & (size > allowed))[0]:
             j = int(jj)
-            members = incidence.indices[incidence.indptr[j]:incidence.indptr[j + 1]]
-            out.append(JointImbalance(model.joints[j].id, name, tuple(float(x) for x in residual[j]), float(size[j]),
-                                      tuple(model.members[i].id for i in sorted(members))))
+            members = incidence.indices[incidence.indptr[j] : incidence.indptr[j + 1]]
+            out.append(
+                JointImbalance(
+                    model.joints[j].id,
+                    name,
+                    tuple(float(x) for x in residual[j]),
+                    float(size[j]),
+                    tuple(model.members[i].id for i in sorted(members)),
+                )
+            )
     return out
 
 

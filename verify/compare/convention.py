@@ -54,16 +54,36 @@ class Fit:
         return self.agree / self.informative if self.informative else 0.0
 
 
-def count_agreeing(claimed: np.ndarray, fixed: np.ndarray, computed: np.ndarray, allowed_rel: float,
-                   atol: np.ndarray, rounding: np.ndarray, sign: int, factor: float) -> int:
+def count_agreeing(
+    claimed: np.ndarray,
+    fixed: np.ndarray,
+    computed: np.ndarray,
+    allowed_rel: float,
+    atol: np.ndarray,
+    rounding: np.ndarray,
+    sign: int,
+    factor: float,
+) -> int:
     signs = np.where(fixed, 1.0, float(sign))
     value = claimed * signs * factor
-    allowed = np.maximum(np.maximum(allowed_rel * np.maximum(np.abs(value), np.abs(computed)), atol), rounding * factor)
+    allowed = np.maximum(
+        np.maximum(allowed_rel * np.maximum(np.abs(value), np.abs(computed)), atol),
+        rounding * factor,
+    )
     return int((np.abs(value - computed) <= allowed).sum())
 
 
-def best_fit(claimed: np.ndarray, fixed: np.ndarray, computed: np.ndarray, rtol: float, atol: np.ndarray,
-             rounding: np.ndarray, *, signs: tuple[int, ...] = (1, -1), factors: tuple[float, ...] | None = None) -> tuple[Fit, Fit]:
+def best_fit(
+    claimed: np.ndarray,
+    fixed: np.ndarray,
+    computed: np.ndarray,
+    rtol: float,
+    atol: np.ndarray,
+    rounding: np.ndarray,
+    *,
+    signs: tuple[int, ...] = (1, -1),
+    factors: tuple[float, ...] | None = None,
+) -> tuple[Fit, Fit]:
     """(best fit, identity fit) over the candidate signs and factors, judged on informative pairs.
 
     Informative pairs are those whose recomputed force is clearly non-zero and whose claim is not
@@ -72,7 +92,13 @@ def best_fit(claimed: np.ndarray, fixed: np.ndarray, computed: np.ndarray, rtol:
     Ties prefer the identity, then the written sign.
     """
     informative = (np.abs(computed) > atol) & (claimed != 0)
-    c, f, r, a, rd = claimed[informative], fixed[informative], computed[informative], atol[informative], rounding[informative]
+    c, f, r, a, rd = (
+        claimed[informative],
+        fixed[informative],
+        computed[informative],
+        atol[informative],
+        rounding[informative],
+    )
     n = int(informative.sum())
     candidates = [1.0] + list(factors if factors is not None else UNIT_FACTORS)
     identity = Fit(1, 1.0, count_agreeing(c, f, r, rtol, a, rd, 1, 1.0), n)
@@ -110,12 +136,16 @@ def possible_factors(reference: Unit, *, ratios: bool = False) -> tuple[float, .
     force unit U: f = U / reference. With `ratios`, the same as claimed / computed (1 / f). A
     table ten times too large is not "long ton-force" when the reference is kN.
     """
-    return tuple(k for k in UNIT_FACTORS if force_unit_for(1.0 / k if ratios else k, reference) is not None)
+    return tuple(
+        k for k in UNIT_FACTORS if force_unit_for(1.0 / k if ratios else k, reference) is not None
+    )
 
 
-def matching_factor(ratio: float, rtol: float, factors: Iterable[float] | None = None) -> float | None:
+def matching_factor(
+    ratio: float, rtol: float, factors: Iterable[float] | None = None
+) -> float | None:
     """The unit factor that `ratio` (claimed / computed) matches, if any."""
-    for factor in (UNIT_FACTORS if factors is None else factors):
+    for factor in UNIT_FACTORS if factors is None else factors:
         if abs(abs(ratio) - factor) <= rtol * factor:
             return factor
     return None

@@ -98,9 +98,17 @@ class Convention:
         return f"{self.sign} ({'inferred from the data' if self.inferred or not self.stated_sign else 'as stated'})"
 
     def as_dict(self) -> dict[str, Any]:
-        return {"sign": self.sign, "scale": self.scale, "inferred": self.inferred, "unit": self.unit,
-                "unit_source": self.unit_source, "scale_reason": self.scale_reason, "support": self.support,
-                "column_readings": list(self.column_readings), "stated_sign": self.stated_sign or None}
+        return {
+            "sign": self.sign,
+            "scale": self.scale,
+            "inferred": self.inferred,
+            "unit": self.unit,
+            "unit_source": self.unit_source,
+            "scale_reason": self.scale_reason,
+            "support": self.support,
+            "column_readings": list(self.column_readings),
+            "stated_sign": self.stated_sign or None,
+        }
 
 
 class Row(NamedTuple):
@@ -126,10 +134,19 @@ class Row(NamedTuple):
         return None
 
     def as_dict(self) -> dict[str, Any]:
-        return {"id": self.id, "kind": self.kind, "case": self.case, "claimed": self.claimed,
-                "joints": self.joints, "sections": self.sections, "global": self.global_,
-                "elastic": self.elastic, "difference": self.difference, "status": self.status,
-                "written": self.written}
+        return {
+            "id": self.id,
+            "kind": self.kind,
+            "case": self.case,
+            "claimed": self.claimed,
+            "joints": self.joints,
+            "sections": self.sections,
+            "global": self.global_,
+            "elastic": self.elastic,
+            "difference": self.difference,
+            "status": self.status,
+            "written": self.written,
+        }
 
 
 @dataclass(frozen=True)
@@ -171,14 +188,27 @@ def map_columns(columns: list[str], load_names: list[str]) -> dict[str, str | No
 
 
 # -- the comparison ------------------------------------------------------------------------------
-def compare_claims(analysis: Analysis, claims: ClaimsTable, *, sign: SignMode = SignMode.AUTO,
-                   unit: str | None = None, tolerance: Tolerance | None = None) -> Review:
+def compare_claims(
+    analysis: Analysis,
+    claims: ClaimsTable,
+    *,
+    sign: SignMode = SignMode.AUTO,
+    unit: str | None = None,
+    tolerance: Tolerance | None = None,
+) -> Review:
     """Rows and findings for every claim; `unit` None means auto (from the table, else inferred).
 
     The comparison is the list of STEPS, each reading and extending one Comparison.
     """
-    c = Comparison(analysis=analysis, claims=claims, sign=sign, unit=unit, tolerance=tolerance,
-                   review=None, **dict.fromkeys(SHARED))
+    c = Comparison(
+        analysis=analysis,
+        claims=claims,
+        sign=sign,
+        unit=unit,
+        tolerance=tolerance,
+        review=None,
+        **dict.fromkeys(SHARED),
+    )
     for step in STEPS:
         step(c)
     review: Review = c.review
@@ -272,7 +302,13 @@ def _start(c: Comparison) -> None:
     ref = analysis.reference
     stab = analysis.stability
     indeterminate = analysis.global_ is None and analysis.elastic is not None
-    c.case_unit, c.columns, c.findings, c.indeterminate, c.load_names = case_unit, columns, findings, indeterminate, load_names
+    c.case_unit, c.columns, c.findings, c.indeterminate, c.load_names = (
+        case_unit,
+        columns,
+        findings,
+        indeterminate,
+        load_names,
+    )
     c.mapping, c.model, c.notes, c.ref, c.stab = mapping, model, notes, ref, stab
     c.tol = tol
 
@@ -282,30 +318,68 @@ def _structure(c: Comparison) -> None:
     # Structure-level findings.
     if stab.classification is Classification.UNSTABLE:
         modes = "; ".join(
-            f"mechanism {k + 1} moves joints {', '.join(m.joints[:6])}" for k, m in enumerate(stab.mechanism_modes[:3])
+            f"mechanism {k + 1} moves joints {', '.join(m.joints[:6])}"
+            for k, m in enumerate(stab.mechanism_modes[:3])
         )
-        findings.append(Finding("mechanism", (), f"the truss is unstable: {stab.mechanisms}{'' if stab.exact_counts else '+'} "
-                                f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; Maxwell count "
-                                f"b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be recomputed.", Severity.BLOCKER))
+        findings.append(
+            Finding(
+                "mechanism",
+                (),
+                f"the truss is unstable: {stab.mechanisms}{'' if stab.exact_counts else '+'} "
+                f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; Maxwell count "
+                f"b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be recomputed.",
+                Severity.BLOCKER,
+            )
+        )
     elif stab.classification is Classification.STABLE_INDETERMINATE:
         members_ss = sorted({m for mode in stab.self_stress_modes for m in mode.members})
         if ref is None:
-            findings.append(Finding("indeterminate", tuple(members_ss[:50]), f"statically indeterminate to degree {stab.self_stress} "
-                                    "and member stiffness (EA) is not given for every member: statics cannot tell how the force is shared "
-                                    "among the redundant members, so only the equilibrium of the claimed forces is checked.", Severity.BLOCKER))
+            findings.append(
+                Finding(
+                    "indeterminate",
+                    tuple(members_ss[:50]),
+                    f"statically indeterminate to degree {stab.self_stress} "
+                    "and member stiffness (EA) is not given for every member: statics cannot tell how the force is shared "
+                    "among the redundant members, so only the equilibrium of the claimed forces is checked.",
+                    Severity.BLOCKER,
+                )
+            )
         else:
-            findings.append(Finding("indeterminate", tuple(members_ss[:50]), f"statically indeterminate to degree {stab.self_stress}: "
-                                    "claims are compared with the elastic (direct stiffness) solution for the given EA"
-                                    + (" — equal EA was ASSUMED for every member" if getattr(analysis.elastic, "equal_EA_assumed", False) else ""),
-                                    Severity.INFO))
+            findings.append(
+                Finding(
+                    "indeterminate",
+                    tuple(members_ss[:50]),
+                    f"statically indeterminate to degree {stab.self_stress}: "
+                    "claims are compared with the elastic (direct stiffness) solution for the given EA"
+                    + (
+                        " — equal EA was ASSUMED for every member"
+                        if getattr(analysis.elastic, "equal_EA_assumed", False)
+                        else ""
+                    ),
+                    Severity.INFO,
+                )
+            )
     if stab.ill_conditioned:
-        findings.append(Finding("ill-conditioned", (), f"near-mechanism geometry: sigma_min/sigma_max = {stab.sigma_ratio:.2e}, "
-                                f"scaled by slenderness^2 = {stab.scaled_ratio:.2e}; small changes of geometry change the forces a lot",
-                                Severity.INFO))
+        findings.append(
+            Finding(
+                "ill-conditioned",
+                (),
+                f"near-mechanism geometry: sigma_min/sigma_max = {stab.sigma_ratio:.2e}, "
+                f"scaled by slenderness^2 = {stab.scaled_ratio:.2e}; small changes of geometry change the forces a lot",
+                Severity.INFO,
+            )
+        )
     if analysis.route_disagreement > ROUTE_RTOL:
-        findings.append(Finding("ill-conditioned", (), f"the method of joints, the section cuts and the global solve disagree by "
-                                f"{analysis.route_disagreement:.2e} of the largest force (more than round-off, {ROUTE_RTOL:g}): "
-                                "suspect a nearly unstable geometry or a modelling problem", Severity.INFO))
+        findings.append(
+            Finding(
+                "ill-conditioned",
+                (),
+                f"the method of joints, the section cuts and the global solve disagree by "
+                f"{analysis.route_disagreement:.2e} of the largest force (more than round-off, {ROUTE_RTOL:g}): "
+                "suspect a nearly unstable geometry or a modelling problem",
+                Severity.INFO,
+            )
+        )
 
 
 def _labels(c: Comparison) -> None:
@@ -313,12 +387,28 @@ def _labels(c: Comparison) -> None:
     # Unknown labels and columns.
     for u in claims.unmatched:
         hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
-        what = "matches several members" if u.reason == "ambiguous" else "is not a member or reaction of the model"
-        findings.append(Finding("unknown-label", (u.label,), f"'{u.label}' ({u.where}) {what}{hint}", Severity.ERROR))
+        what = (
+            "matches several members"
+            if u.reason == "ambiguous"
+            else "is not a member or reaction of the model"
+        )
+        findings.append(
+            Finding(
+                "unknown-label", (u.label,), f"'{u.label}' ({u.where}) {what}{hint}", Severity.ERROR
+            )
+        )
     for conflict in claims.sign_conflicts:  # settled by the reader: a minus against its T/C letter
-        findings.append(Finding("sign-flip", (conflict.member,), f"'{conflict.text}' ({conflict.where}) has a minus that contradicts "
-                                f"its letter in a table written {conflict.convention}; read by the letter", Severity.ERROR,
-                                case=mapping.get(conflict.column), locations=(conflict.where,)))
+        findings.append(
+            Finding(
+                "sign-flip",
+                (conflict.member,),
+                f"'{conflict.text}' ({conflict.where}) has a minus that contradicts "
+                f"its letter in a table written {conflict.convention}; read by the letter",
+                Severity.ERROR,
+                case=mapping.get(conflict.column),
+                locations=(conflict.where,),
+            )
+        )
 
 
 def _units(c: Comparison) -> None:
@@ -337,7 +427,10 @@ def _units(c: Comparison) -> None:
     # Per-claim arrays, computed once: raw values, T/C flags, member positions, rounding allowance.
     raw = np.array([v.value for v in claims.values], dtype=float)
     fixed_all = np.array([v.sign_fixed for v in claims.values], dtype=bool)
-    member_pos = np.array([model.member_index[v.member] if v.member is not None else -1 for v in claims.values], dtype=np.int64)
+    member_pos = np.array(
+        [model.member_index[v.member] if v.member is not None else -1 for v in claims.values],
+        dtype=np.int64,
+    )
     rounding_unit = rounding_allowances(raw, conv)
     # Decimals as the cell shows them: '10.00' was written to the hundredth, not the unit.
     for i, v in enumerate(claims.values):
@@ -350,44 +443,97 @@ def _units(c: Comparison) -> None:
     for column in dict.fromkeys(column_of_claim.tolist()):
         picked = (column_of_claim == column) & is_member_claim
         if picked.any():
-            rounding_unit[picked] = np.maximum(rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked]))
-        step = claims.resolution_of(column)  # judged by the reader: the column rounded to 0.5, 5 ...
+            rounding_unit[picked] = np.maximum(
+                rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked])
+            )
+        step = claims.resolution_of(
+            column
+        )  # judged by the reader: the column rounded to 0.5, 5 ...
         if step is not None and picked.any():
-            rounding_unit[picked] = np.maximum(rounding_unit[picked], 0.5 * step.step * np.abs(conv[picked]) * 1.0001)
+            rounding_unit[picked] = np.maximum(
+                rounding_unit[picked], 0.5 * step.step * np.abs(conv[picked]) * 1.0001
+            )
     tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
-        notes.append(f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
-                     "headers or cells; the table's own units were used")
+        notes.append(
+            f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
+            "headers or cells; the table's own units were used"
+        )
     unit_stated = bool(stated_units) or option_unit is not None
-    unit_label = (", ".join(sorted(stated_units)) if stated_units else (option_unit.symbol if option_unit else case_unit.symbol))
+    unit_label = (
+        ", ".join(sorted(stated_units))
+        if stated_units
+        else (option_unit.symbol if option_unit else case_unit.symbol)
+    )
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
     column_readings: list[str] = []  # columns read in their own unit scale (below)
     # The unit the table is read in: the factors it can really be off by are those to other units.
     stated_counts = Counter(v.unit for v in claims.values if v.unit)
-    reference_unit = (lookup_unit(stated_counts.most_common(1)[0][0], Dimension.FORCE) if stated_counts
-                      else option_unit or case_unit)
+    reference_unit = (
+        lookup_unit(stated_counts.most_common(1)[0][0], Dimension.FORCE)
+        if stated_counts
+        else option_unit or case_unit
+    )
     table_factors = possible_factors(reference_unit)
     slip_ratios = possible_factors(reference_unit, ratios=True)
 
     def named_factor(f: float) -> str:
         """'x1000 (values in MN, read as kN)': the unit the numbers are really in, when one is."""
         unit_in = force_unit_for(f, reference_unit)
-        return f"x{fmt(f, 6)} (values in {unit_in}, read as {reference_unit.symbol})" if unit_in else describe_factor(f)
+        return (
+            f"x{fmt(f, 6)} (values in {unit_in}, read as {reference_unit.symbol})"
+            if unit_in
+            else describe_factor(f)
+        )
 
     def named_ratio(r: float) -> str:
         """For one claim: 'x1000 (written in N where kN is meant)'."""
         unit_in = force_unit_for(1.0 / r, reference_unit)
-        return f"x{fmt(r, 6)} (written in {unit_in} where {reference_unit.symbol} is meant)" if unit_in else describe_factor(r)
-    c.column_of_claim, c.column_readings, c.conv, c.fixed_all, c.is_member_claim = column_of_claim, column_readings, conv, fixed_all, is_member_claim
-    c.member_pos, c.named_factor, c.named_ratio, c.raw, c.rounding_unit = member_pos, named_factor, named_ratio, raw, rounding_unit
-    c.slip_ratios, c.table_factors, c.tol, c.unit_label, c.unit_source = slip_ratios, table_factors, tol, unit_label, unit_source
+        return (
+            f"x{fmt(r, 6)} (written in {unit_in} where {reference_unit.symbol} is meant)"
+            if unit_in
+            else describe_factor(r)
+        )
+
+    c.column_of_claim, c.column_readings, c.conv, c.fixed_all, c.is_member_claim = (
+        column_of_claim,
+        column_readings,
+        conv,
+        fixed_all,
+        is_member_claim,
+    )
+    c.member_pos, c.named_factor, c.named_ratio, c.raw, c.rounding_unit = (
+        member_pos,
+        named_factor,
+        named_ratio,
+        raw,
+        rounding_unit,
+    )
+    c.slip_ratios, c.table_factors, c.tol, c.unit_label, c.unit_source = (
+        slip_ratios,
+        table_factors,
+        tol,
+        unit_label,
+        unit_source,
+    )
     c.unit_stated = unit_stated
 
 
 def _gather(c: Comparison) -> None:
-    claims, load_names, mapping, model, ref, stab = c.claims, c.load_names, c.mapping, c.model, c.ref, c.stab
+    claims, load_names, mapping, model, ref, stab = (
+        c.claims,
+        c.load_names,
+        c.mapping,
+        c.model,
+        c.ref,
+        c.stab,
+    )
     # Gather comparable member claims.
-    member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
+    member_claims = [
+        (i, v)
+        for i, v in enumerate(claims.values)
+        if v.member is not None and mapping.get(v.column)
+    ]
     comparable = ref is not None and stab.classification is not Classification.UNSTABLE
     scale_of: dict[str, float] = {}
     if ref is not None:
@@ -403,7 +549,11 @@ def _gather(c: Comparison) -> None:
             # that the near-zero allowance stays within a hundredth of the largest joint load.
             loads = np.linalg.norm(F[:, k].reshape(-1, d), axis=1) if F.size else np.zeros(0)
             largest_load = float(loads.max()) if loads.size else 0.0
-            cap = NEAR_ZERO_LOAD_SHARE * largest_load / (c.tol.atol_fraction or 1.0) if largest_load > 0 else largest
+            cap = (
+                NEAR_ZERO_LOAD_SHARE * largest_load / (c.tol.atol_fraction or 1.0)
+                if largest_load > 0
+                else largest
+            )
             scale_of[name] = min(largest, cap)
     c.comparable, c.member_claims, c.scale_of = comparable, member_claims, scale_of
 
@@ -426,7 +576,9 @@ def _case_mismatch(c: Comparison) -> None:
             for k, load in enumerate(load_names):
                 comp = ref.member_forces[member_pos[idx], k]
                 atol_arr = np.full(len(idx), tol.atol_fraction * (scale_of[load] or 1.0))
-                best, _ = best_fit(vals, fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx], factors=())
+                best, _ = best_fit(
+                    vals, fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx], factors=()
+                )
                 scores[load] = best.share
             named: str | None = mapping.get(column)
             top = max(scores, key=lambda n: scores[n])
@@ -434,23 +586,50 @@ def _case_mismatch(c: Comparison) -> None:
             if top != named and scores[top] >= 0.9 and named_score < 0.5:
                 if named is None:
                     # Only the name differs ("DL" for "dead"): worth saying, not an error.
-                    findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model; "
-                                            f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
-                                            Severity.INFO, case=top, locations=_column_where(claims, column)))
+                    findings.append(
+                        Finding(
+                            "case-mismatch",
+                            (),
+                            f"claims column '{column}' names no load case or combination of the model; "
+                            f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
+                            Severity.INFO,
+                            case=top,
+                            locations=_column_where(claims, column),
+                        )
+                    )
                 else:
                     # A column holding another load column's forces is a cause a checker names.
-                    findings.append(Finding("likely-cause", (), f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
-                                            f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
-                                            Severity.ERROR, case=top, locations=_column_where(claims, column),
-                                            variant=f"the column labelled '{named}' holding the forces of '{top}'"))
+                    findings.append(
+                        Finding(
+                            "likely-cause",
+                            (),
+                            f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
+                            f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
+                            Severity.ERROR,
+                            case=top,
+                            locations=_column_where(claims, column),
+                            variant=f"the column labelled '{named}' holding the forces of '{top}'",
+                        )
+                    )
                 remap[column] = top
     for column, target in mapping.items():
         if target is None and column not in remap:
-            findings.append(Finding("case-mismatch", (), f"claims column '{column}' names no load case or combination of the model "
-                                    f"(known: {', '.join(load_names)}); its claims are not checked", Severity.ERROR,
-                                    locations=_column_where(claims, column)))
+            findings.append(
+                Finding(
+                    "case-mismatch",
+                    (),
+                    f"claims column '{column}' names no load case or combination of the model "
+                    f"(known: {', '.join(load_names)}); its claims are not checked",
+                    Severity.ERROR,
+                    locations=_column_where(claims, column),
+                )
+            )
     mapping.update(remap)
-    member_claims = [(i, v) for i, v in enumerate(claims.values) if v.member is not None and mapping.get(v.column)]
+    member_claims = [
+        (i, v)
+        for i, v in enumerate(claims.values)
+        if v.member is not None and mapping.get(v.column)
+    ]
     c.member_claims = member_claims
 
 
@@ -458,8 +637,20 @@ def _column_readings(c: Comparison) -> None:
     case_unit, claims, column_of_claim = c.case_unit, c.claims, c.column_of_claim
     column_readings, columns, comparable, conv = c.column_readings, c.columns, c.comparable, c.conv
     findings, fixed_all, is_member_claim = c.findings, c.fixed_all, c.is_member_claim
-    load_names, mapping, member_claims, member_pos, raw = c.load_names, c.mapping, c.member_claims, c.member_pos, c.raw
-    ref, rounding_unit, scale_of, table_factors, tol = c.ref, c.rounding_unit, c.scale_of, c.table_factors, c.tol
+    load_names, mapping, member_claims, member_pos, raw = (
+        c.load_names,
+        c.mapping,
+        c.member_claims,
+        c.member_pos,
+        c.raw,
+    )
+    ref, rounding_unit, scale_of, table_factors, tol = (
+        c.ref,
+        c.rounding_unit,
+        c.scale_of,
+        c.table_factors,
+        c.tol,
+    )
     # Columns read differently from the rest of the table (one column in N beside kN columns, or
     # written with the opposite sign): each is brought to the table's common reading and said once
     # per column, instead of one unit-scale or sign-flip finding per member (or false swaps).
@@ -473,9 +664,20 @@ def _column_readings(c: Comparison) -> None:
             k = load_names.index(target)
             comp = ref.member_forces[member_pos[idx], k]
             atol_arr = np.full(len(idx), tol.atol_fraction * (scale_of[target] or 1.0))
-            best, identity = best_fit(raw[idx] * conv[idx], fixed_all[idx], comp, tol.rtol, atol_arr, rounding_unit[idx],
-                                      factors=table_factors)
-            if best.informative >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree:
+            best, identity = best_fit(
+                raw[idx] * conv[idx],
+                fixed_all[idx],
+                comp,
+                tol.rtol,
+                atol_arr,
+                rounding_unit[idx],
+                factors=table_factors,
+            )
+            if (
+                best.informative >= MIN_MEMBERS_FOR_TABLE
+                and best.share >= MIN_SHARE
+                and best.agree > identity.agree
+            ):
                 column_fit[column] = (best.sign, best.factor, best, identity, idx)
             elif identity.share >= MIN_SHARE:
                 column_fit[column] = (1, 1.0, identity, identity, idx)
@@ -491,39 +693,79 @@ def _column_readings(c: Comparison) -> None:
                     continue
                 in_column = column_of_claim == column
                 stated = {claims.values[i].unit for i in idx}
-                told = (f"its header states {', '.join(sorted(str(u) for u in stated))}" if stated != {None}
-                        else "it states no unit")
+                told = (
+                    f"its header states {', '.join(sorted(str(u) for u in stated))}"
+                    if stated != {None}
+                    else "it states no unit"
+                )
                 if abs(rel_factor - 1.0) >= 1e-9:
                     conv[in_column] *= rel_factor
                     rounding_unit[in_column] *= rel_factor
-                    in_unit = force_unit_for(float(col_factor * np.median(conv[idx] / rel_factor)), case_unit)
-                    reading = (f"in {in_unit}" if in_unit else describe_factor(col_factor)) + \
-                        f" (x{fmt(rel_factor, 6)} against the rest of the table)"
+                    in_unit = force_unit_for(
+                        float(col_factor * np.median(conv[idx] / rel_factor)), case_unit
+                    )
+                    reading = (
+                        f"in {in_unit}" if in_unit else describe_factor(col_factor)
+                    ) + f" (x{fmt(rel_factor, 6)} against the rest of the table)"
                     column_readings.append(f"column '{column}' read {reading}")
-                    findings.append(Finding("unit-scale", (), f"claims column '{column}' reads {reading}, and {told}: "
-                                            f"{best.agree} of {best.informative} members agree when it is read so "
-                                            f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
-                                            Severity.ERROR, case=mapping.get(column), locations=_column_where(claims, column)))
+                    findings.append(
+                        Finding(
+                            "unit-scale",
+                            (),
+                            f"claims column '{column}' reads {reading}, and {told}: "
+                            f"{best.agree} of {best.informative} members agree when it is read so "
+                            f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
+                            Severity.ERROR,
+                            case=mapping.get(column),
+                            locations=_column_where(claims, column),
+                        )
+                    )
                 if rel_sign == -1 and _reversed_load_case(c, column):
                     continue  # the case's loads reversed (its combinations show it): a likely cause, not a convention
                 if rel_sign == -1:
                     flipped = in_column & ~fixed_all & is_member_claim
                     conv[flipped] *= -1.0  # T/C marks and reactions keep their own sign
                     column_readings.append(f"column '{column}' read with its signs reversed")
-                    findings.append(Finding("table-sign-convention", (), f"claims column '{column}' is written with the "
-                                            "opposite sign convention to the rest of the table: "
-                                            f"{best.agree} of {best.informative} members agree with every sign in it reversed "
-                                            f"({identity.agree} as written); it is read reversed: confirm which convention "
-                                            "each column uses", Severity.ERROR, case=mapping.get(column),
-                                            locations=_column_where(claims, column)))
+                    findings.append(
+                        Finding(
+                            "table-sign-convention",
+                            (),
+                            f"claims column '{column}' is written with the "
+                            "opposite sign convention to the rest of the table: "
+                            f"{best.agree} of {best.informative} members agree with every sign in it reversed "
+                            f"({identity.agree} as written); it is read reversed: confirm which convention "
+                            "each column uses",
+                            Severity.ERROR,
+                            case=mapping.get(column),
+                            locations=_column_where(claims, column),
+                        )
+                    )
 
 
 def _table_convention(c: Comparison) -> None:
-    case_unit, column_readings, comparable, conv, findings = c.case_unit, c.column_readings, c.comparable, c.conv, c.findings
-    fixed_all, indeterminate, load_names, mapping, member_claims = c.fixed_all, c.indeterminate, c.load_names, c.mapping, c.member_claims
+    case_unit, column_readings, comparable, conv, findings = (
+        c.case_unit,
+        c.column_readings,
+        c.comparable,
+        c.conv,
+        c.findings,
+    )
+    fixed_all, indeterminate, load_names, mapping, member_claims = (
+        c.fixed_all,
+        c.indeterminate,
+        c.load_names,
+        c.mapping,
+        c.member_claims,
+    )
     member_pos, model, named_factor, raw = c.member_pos, c.model, c.named_factor, c.raw
     ref, rounding_unit, scale_of, sign = c.ref, c.rounding_unit, c.scale_of, c.sign
-    table_factors, tol, unit_label, unit_source, unit_stated = c.table_factors, c.tol, c.unit_label, c.unit_source, c.unit_stated
+    table_factors, tol, unit_label, unit_source, unit_stated = (
+        c.table_factors,
+        c.tol,
+        c.unit_label,
+        c.unit_source,
+        c.unit_stated,
+    )
     # Table convention.
     sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
     all_fixed = bool(member_claims) and all(v.sign_fixed for _, v in member_claims)
@@ -533,21 +775,32 @@ def _table_convention(c: Comparison) -> None:
         idx = np.array([i for i, _ in member_claims], dtype=np.int64)
         fixed = fixed_all[idx]
         vals = raw[idx] * conv[idx] * np.where(fixed, 1.0, float(stated_sign))
-        load_pos = np.array([load_names.index(mapping[v.column]) for _, v in member_claims], dtype=np.int64)
+        load_pos = np.array(
+            [load_names.index(mapping[v.column]) for _, v in member_claims], dtype=np.int64
+        )
         comp = ref.member_forces[member_pos[idx], load_pos]
         scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names])
         atol_arr = tol.atol_fraction * scale_arr[load_pos]
-        best, identity = best_fit(vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx], factors=table_factors)
+        best, identity = best_fit(
+            vals, fixed, comp, tol.rtol, atol_arr, rounding_unit[idx], factors=table_factors
+        )
         n = best.informative
-        support = f"{identity.agree} of {n} non-zero claims on members that carry force agree as read"
-        table_level = n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
+        support = (
+            f"{identity.agree} of {n} non-zero claims on members that carry force agree as read"
+        )
+        table_level = (
+            n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
+        )
         if table_level and indeterminate:
             # Against an elastic solution a large self-stress can mimic a flipped or scaled table;
             # statics decides: a reading that is not a convention must not balance better.
             def unbalanced(sign_k: float, factor_k: float) -> int:
                 matrix = np.full((len(model.members), len(load_names)), np.nan)
-                matrix[member_pos[idx], load_pos] = raw[idx] * conv[idx] * np.where(fixed, 1.0, sign_k * stated_sign) * factor_k
+                matrix[member_pos[idx], load_pos] = (
+                    raw[idx] * conv[idx] * np.where(fixed, 1.0, sign_k * stated_sign) * factor_k
+                )
                 return len(claims_balance(model, matrix, {}, load_names, tol))
+
             table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
@@ -555,16 +808,37 @@ def _table_convention(c: Comparison) -> None:
             involved = tuple(v.member for _, v in member_claims if v.member is not None)
             severity = Severity.INFO if sign is SignMode.AUTO else Severity.ERROR
             if best.sign == -1 and not all_fixed:
-                told = "no sign convention was stated" if sign is SignMode.AUTO else f"the table was declared {sign.value}"
-                findings.append(Finding("table-sign-convention", involved[:0], f"{told}, but the data show the opposite convention: "
-                                        f"{'compression' if stated_sign == 1 else 'tension'} is written positive throughout "
-                                        f"({best.agree} of {n} members agree when every sign is reversed, {identity.agree} as written)",
-                                        severity))
+                told = (
+                    "no sign convention was stated"
+                    if sign is SignMode.AUTO
+                    else f"the table was declared {sign.value}"
+                )
+                findings.append(
+                    Finding(
+                        "table-sign-convention",
+                        involved[:0],
+                        f"{told}, but the data show the opposite convention: "
+                        f"{'compression' if stated_sign == 1 else 'tension'} is written positive throughout "
+                        f"({best.agree} of {n} members agree when every sign is reversed, {identity.agree} as written)",
+                        severity,
+                    )
+                )
             if best.factor != 1.0:
                 sev = Severity.ERROR if unit_stated else Severity.INFO
-                told = f"the table states {unit_label}" if unit_stated else f"no unit was stated (assumed {case_unit.symbol})"
-                findings.append(Finding("unit-scale", (), f"{told}, but every value is off by a unit factor {named_factor(best.factor)}: "
-                                        f"{best.agree} of {n} members agree once scaled ({identity.agree} as written)", sev))
+                told = (
+                    f"the table states {unit_label}"
+                    if unit_stated
+                    else f"no unit was stated (assumed {case_unit.symbol})"
+                )
+                findings.append(
+                    Finding(
+                        "unit-scale",
+                        (),
+                        f"{told}, but every value is off by a unit factor {named_factor(best.factor)}: "
+                        f"{best.agree} of {n} members agree once scaled ({identity.agree} as written)",
+                        sev,
+                    )
+                )
         elif sign is not SignMode.AUTO:
             inferred = False
         if all_fixed:
@@ -572,7 +846,9 @@ def _table_convention(c: Comparison) -> None:
     effective_sign = stated_sign * sign_fit
     convention = Convention(
         sign="tension-positive" if effective_sign == 1 else "compression-positive",
-        scale=float(scale_fit * (conv[0] if len(conv) and len(set(np.round(conv, 12))) == 1 else 1.0)),
+        scale=float(
+            scale_fit * (conv[0] if len(conv) and len(set(np.round(conv, 12))) == 1 else 1.0)
+        ),
         inferred=inferred or scale_fit != 1.0,
         unit=unit_label,
         unit_source=unit_source,
@@ -586,25 +862,52 @@ def _table_convention(c: Comparison) -> None:
 
 
 def _rows(c: Comparison) -> None:
-    analysis, case_unit, claims, comparable, conv = c.analysis, c.case_unit, c.claims, c.comparable, c.conv
-    effective_sign, findings, fixed_all, load_names, mapping = c.effective_sign, c.findings, c.fixed_all, c.load_names, c.mapping
+    analysis, case_unit, claims, comparable, conv = (
+        c.analysis,
+        c.case_unit,
+        c.claims,
+        c.comparable,
+        c.conv,
+    )
+    effective_sign, findings, fixed_all, load_names, mapping = (
+        c.effective_sign,
+        c.findings,
+        c.fixed_all,
+        c.load_names,
+        c.mapping,
+    )
     member_pos, model, raw, ref = c.member_pos, c.model, c.raw, c.ref
-    rounding_unit, scale_fit, scale_of, sign, sign_fit = c.rounding_unit, c.scale_fit, c.scale_of, c.sign, c.sign_fit
+    rounding_unit, scale_fit, scale_of, sign, sign_fit = (
+        c.rounding_unit,
+        c.scale_fit,
+        c.scale_of,
+        c.sign,
+        c.sign_fit,
+    )
     tol, unit_stated = c.tol, c.unit_stated
     # Per-claim rows.
     rows: list[Row] = []
     claimed_matrix = np.full((len(model.members), len(load_names)), np.nan)
     reaction_claims: dict[tuple[int, int], float] = {}
     flagged: dict[str, set[str]] = {}
-    diffs: list[tuple[int, ClaimedValue, float, float, float]] = []  # (row index, claim, value, computed, allowed)
+    diffs: list[
+        tuple[int, ClaimedValue, float, float, float]
+    ] = []  # (row index, claim, value, computed, allowed)
     seen_pairs: set[tuple[str, str]] = set()
     frame_rows: list[tuple[int, int]] = []  # (claim index, row index) of member claims compared
     frame_written: list[str] = []
-    rounding_of_row: dict[int, float] = {}  # the rounding allowance of each disagreeing member claim
+    rounding_of_row: dict[
+        int, float
+    ] = {}  # the rounding allowance of each disagreeing member claim
     # Member claims are judged all at once (arrays); the loop below only assembles rows.
     n_claims = len(claims.values)
-    k_of = np.array([load_names.index(mapping[v.column]) if mapping.get(v.column) else -1
-                     for v in claims.values], dtype=np.int64)
+    k_of = np.array(
+        [
+            load_names.index(mapping[v.column]) if mapping.get(v.column) else -1
+            for v in claims.values
+        ],
+        dtype=np.int64,
+    )
     is_reaction = np.array([v.reaction is not None for v in claims.values], dtype=bool)
     judged = (member_pos >= 0) & (k_of >= 0) & ~is_reaction
     signs = np.where(fixed_all, 1.0, float(effective_sign))
@@ -619,15 +922,25 @@ def _rows(c: Comparison) -> None:
         return [x if ok else None for x, ok in zip(picked.tolist(), usable, strict=True)]
 
     joints_l = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
-    sections_l = route(analysis.sections.forces.member_forces if analysis.sections is not None else None)  # type: ignore[attr-defined]
+    sections_l = route(
+        analysis.sections.forces.member_forces if analysis.sections is not None else None
+    )
     global_l = route(analysis.global_.member_forces if analysis.global_ is not None else None)
-    elastic_l = route(analysis.elastic.forces.member_forces if analysis.elastic is not None else None)  # type: ignore[attr-defined]
-    reference_forces = ref.member_forces if ref is not None else np.zeros((len(model.members), max(len(load_names), 1)))
+    elastic_l = route(
+        analysis.elastic.forces.member_forces if analysis.elastic is not None else None
+    )
+    reference_forces = (
+        ref.member_forces
+        if ref is not None
+        else np.zeros((len(model.members), max(len(load_names), 1)))
+    )
     computed_arr = reference_forces[mp, kk] if n_claims else np.zeros(0)
     scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names] or [0.0])
     atol_all = tol.atol_fraction * scale_arr[kk]
-    allowed_all = np.maximum(np.maximum(tol.rtol * np.maximum(np.abs(values), np.abs(computed_arr)), atol_all),
-                             rounding_unit * scale_fit)
+    allowed_all = np.maximum(
+        np.maximum(tol.rtol * np.maximum(np.abs(values), np.abs(computed_arr)), atol_all),
+        rounding_unit * scale_fit,
+    )
     agree_all = np.abs(values - computed_arr) <= allowed_all
     big = np.abs(computed_arr) > atol_all
     convention_status = np.full(n_claims, "agrees", dtype=object)
@@ -638,7 +951,9 @@ def _rows(c: Comparison) -> None:
     judged_rows = np.flatnonzero(judged)
     claimed_matrix[member_pos[judged_rows], k_of[judged_rows]] = values[judged_rows]
     rounding_matrix = np.zeros_like(claimed_matrix)
-    rounding_matrix[member_pos[judged_rows], k_of[judged_rows]] = np.abs(rounding_unit[judged_rows] * scale_fit)
+    rounding_matrix[member_pos[judged_rows], k_of[judged_rows]] = np.abs(
+        rounding_unit[judged_rows] * scale_fit
+    )
     values_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
     agree_l, status_l, judged_l = agree_all.tolist(), convention_status.tolist(), judged.tolist()
     for i, v in enumerate(claims.values):
@@ -647,29 +962,71 @@ def _rows(c: Comparison) -> None:
             continue
         name = mapped
         k = load_names.index(name) if not judged_l[i] else int(k_of[i])
-        as_written = v.text or (f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}" if v.sign_fixed and v.value else f"{v.value:g}")
+        as_written = v.text or (
+            f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}"
+            if v.sign_fixed and v.value
+            else f"{v.value:g}"
+        )
         written = f"{as_written} at {v.where}"
         if v.reaction is not None:
             joint, axis = v.reaction
             rounding = float(rounding_unit[i]) * scale_fit
             # Reactions are global components: the table sign convention for T/C does not apply.
             value = v.value * conv[i] * scale_fit
-            matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
+            matches = [
+                n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis
+            ]
             computed = None
             if ref is not None and matches:
                 computed = float(ref.reactions[matches[0], k])
                 reaction_claims[(matches[0], k)] = value
             elif ref is not None:
-                computed = 0.0  # the support does not restrain this direction: no reaction acts along it
-            status = "not-verifiable" if computed is None else (
-                "agrees" if tol.agrees(value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding) else "value-mismatch")
-            rows.append(Row(f"{joint}.{axis}", "reaction", name, value, written, None, None, computed, None,
-                            None if computed is None else value - computed, status))
+                computed = (
+                    0.0  # the support does not restrain this direction: no reaction acts along it
+                )
+            status = (
+                "not-verifiable"
+                if computed is None
+                else (
+                    "agrees"
+                    if tol.agrees(
+                        value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding
+                    )
+                    else "value-mismatch"
+                )
+            )
+            rows.append(
+                Row(
+                    f"{joint}.{axis}",
+                    "reaction",
+                    name,
+                    value,
+                    written,
+                    None,
+                    None,
+                    computed,
+                    None,
+                    None if computed is None else value - computed,
+                    status,
+                )
+            )
             if status == "value-mismatch" and computed is not None:
-                why = "" if matches else f": the support at {joint} does not restrain {axis}, so it has no reaction along it"
-                findings.append(Finding("value-mismatch", (f"{joint}.{axis}",), f"reaction {joint}.{axis} in '{name}': claimed "
-                                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} [written {written}]",
-                                        Severity.ERROR, case=name, locations=(v.where,)))
+                why = (
+                    ""
+                    if matches
+                    else f": the support at {joint} does not restrain {axis}, so it has no reaction along it"
+                )
+                findings.append(
+                    Finding(
+                        "value-mismatch",
+                        (f"{joint}.{axis}",),
+                        f"reaction {joint}.{axis} in '{name}': claimed "
+                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} [written {written}]",
+                        Severity.ERROR,
+                        case=name,
+                        locations=(v.where,),
+                    )
+                )
             continue
         if not judged_l[i]:
             continue
@@ -680,8 +1037,21 @@ def _rows(c: Comparison) -> None:
         global_v, elastic_v = global_l[i], elastic_l[i]
         computed = global_v if global_v is not None else elastic_v
         if computed is None or not comparable:
-            rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v, None,
-                            "not-verifiable"))
+            rows.append(
+                Row(
+                    member,
+                    "member",
+                    name,
+                    value,
+                    written,
+                    joints_l[i],
+                    sections_l[i],
+                    global_v,
+                    elastic_v,
+                    None,
+                    "not-verifiable",
+                )
+            )
             continue
         frame_rows.append((i, len(rows)))
         frame_written.append(as_written)
@@ -691,18 +1061,61 @@ def _rows(c: Comparison) -> None:
             status = "value-mismatch"
             diffs.append((len(rows), v, value, computed_l[i], allowed_l[i]))
             rounding_of_row[len(rows)] = float(rounding_unit[i]) * abs(scale_fit)
-        rows.append(Row(member, "member", name, value, written, joints_l[i], sections_l[i], global_v, elastic_v,
-                        value - computed, status))
-    c.atol_all, c.claimed_matrix, c.computed_arr, c.diffs, c.flagged = atol_all, claimed_matrix, computed_arr, diffs, flagged
+        rows.append(
+            Row(
+                member,
+                "member",
+                name,
+                value,
+                written,
+                joints_l[i],
+                sections_l[i],
+                global_v,
+                elastic_v,
+                value - computed,
+                status,
+            )
+        )
+    c.atol_all, c.claimed_matrix, c.computed_arr, c.diffs, c.flagged = (
+        atol_all,
+        claimed_matrix,
+        computed_arr,
+        diffs,
+        flagged,
+    )
     c.frame_rows, c.frame_written, c.judged, c.k_of = frame_rows, frame_written, judged, k_of
-    c.reaction_claims, c.rounding_matrix, c.rounding_of_row, c.rows, c.seen_pairs = reaction_claims, rounding_matrix, rounding_of_row, rows, seen_pairs
+    c.reaction_claims, c.rounding_matrix, c.rounding_of_row, c.rows, c.seen_pairs = (
+        reaction_claims,
+        rounding_matrix,
+        rounding_of_row,
+        rows,
+        seen_pairs,
+    )
     c.values = values
 
 
 def _frame(c: Comparison) -> None:
-    atol_all, claims, comparable, computed_arr, frame_rows = c.atol_all, c.claims, c.comparable, c.computed_arr, c.frame_rows
-    frame_written, k_of, load_names, member_pos, model = c.frame_written, c.k_of, c.load_names, c.member_pos, c.model
-    ref, rounding_unit, scale_fit, tol, values = c.ref, c.rounding_unit, c.scale_fit, c.tol, c.values
+    atol_all, claims, comparable, computed_arr, frame_rows = (
+        c.atol_all,
+        c.claims,
+        c.comparable,
+        c.computed_arr,
+        c.frame_rows,
+    )
+    frame_written, k_of, load_names, member_pos, model = (
+        c.frame_written,
+        c.k_of,
+        c.load_names,
+        c.member_pos,
+        c.model,
+    )
+    ref, rounding_unit, scale_fit, tol, values = (
+        c.ref,
+        c.rounding_unit,
+        c.scale_fit,
+        c.tol,
+        c.values,
+    )
     # Explain the mismatches: a column left unfilled, a different model (it must explain a clear
     # majority and break nothing: the strictest test, so it goes first), rows shifted (before
     # swapped pairs, which a shifted run imitates on a symmetric truss), swapped pairs, values
@@ -712,14 +1125,31 @@ def _frame(c: Comparison) -> None:
     if frame_rows and ref is not None and comparable:
         claim_at = np.array([i for i, _ in frame_rows], dtype=np.int64)
         row_at = np.array([r for _, r in frame_rows], dtype=np.int64)
-        frame = ClaimsFrame(model, tuple(load_names), row_at, member_pos[claim_at], k_of[claim_at], values[claim_at],
-                            computed_arr[claim_at], atol_all[claim_at], rounding_unit[claim_at] * abs(scale_fit), tol.rtol,
-                            tuple(claims.values[int(i)].where for i in claim_at), tuple(frame_written))
+        frame = ClaimsFrame(
+            model,
+            tuple(load_names),
+            row_at,
+            member_pos[claim_at],
+            k_of[claim_at],
+            values[claim_at],
+            computed_arr[claim_at],
+            atol_all[claim_at],
+            rounding_unit[claim_at] * abs(scale_fit),
+            tol.rtol,
+            tuple(claims.values[int(i)].where for i in claim_at),
+            tuple(frame_written),
+        )
     c.explained, c.frame = explained, frame
 
 
 def _unfilled_columns(c: Comparison) -> None:
-    case_unit, diffs, explained, findings, indeterminate = c.case_unit, c.diffs, c.explained, c.findings, c.indeterminate
+    case_unit, diffs, explained, findings, indeterminate = (
+        c.case_unit,
+        c.diffs,
+        c.explained,
+        c.findings,
+        c.indeterminate,
+    )
     rows = c.rows
     by_case: dict[str, list[tuple[int, ClaimedValue, float, float, float]]] = {}
     for item in diffs:
@@ -729,15 +1159,25 @@ def _unfilled_columns(c: Comparison) -> None:
     for name, items in by_case.items():
         if indeterminate or len(items) < MIN_MEMBERS_FOR_TABLE:
             continue
-        if any(row.claimed is not None and row.claimed != 0 for row in rows if row.kind == "member" and row.case == name):
+        if any(
+            row.claimed is not None and row.claimed != 0
+            for row in rows
+            if row.kind == "member" and row.case == name
+        ):
             continue
         largest = max(abs(item[3]) for item in items)
         explained.update(item[0] for item in items)
-        findings.append(Finding("value-mismatch", tuple(item[1].member for item in items),  # type: ignore[misc]
-                                f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
-                                f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
-                                f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
-                                Severity.ERROR, case=name))
+        findings.append(
+            Finding(
+                "value-mismatch",
+                tuple(item[1].member for item in items),  # type: ignore[misc]
+                f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
+                f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
+                f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
+                Severity.ERROR,
+                case=name,
+            )
+        )
     c.by_case = by_case
 
 
@@ -748,7 +1188,13 @@ def _model_causes(c: Comparison) -> None:
 
 
 def _shifted_and_swapped(c: Comparison) -> None:
-    analysis, by_case, case_unit, explained, findings = c.analysis, c.by_case, c.case_unit, c.explained, c.findings
+    analysis, by_case, case_unit, explained, findings = (
+        c.analysis,
+        c.by_case,
+        c.case_unit,
+        c.explained,
+        c.findings,
+    )
     indeterminate, rows, scale_of, tol = c.indeterminate, c.rows, c.scale_of, c.tol
     # Likely causes, 2 of 3: rows shifted against their labels.
     _apply_cause(c, explain_shifted_rows)
@@ -762,30 +1208,45 @@ def _shifted_and_swapped(c: Comparison) -> None:
         computed_c = np.array([item[3] for item in items])
         by_force = np.argsort(computed_c, kind="stable")
         sorted_c = computed_c[by_force]
-        own_rounding = rounding_allowances(np.array([item[1].value for item in items]), np.ones(len(items)))
-        window = np.maximum(np.maximum(2.0 * tol.rtol * np.abs(claimed_x), atol), own_rounding) * 1.01
+        own_rounding = rounding_allowances(
+            np.array([item[1].value for item in items]), np.ones(len(items))
+        )
+        window = (
+            np.maximum(np.maximum(2.0 * tol.rtol * np.abs(claimed_x), atol), own_rounding) * 1.01
+        )
         low = np.searchsorted(sorted_c, claimed_x - window, side="left")
         high = np.searchsorted(sorted_c, claimed_x + window, side="right")
 
-        def close(x: np.ndarray | float, other: np.ndarray | float, rounding: np.ndarray | float,
-                  atol: float = atol) -> np.ndarray:
-            return np.abs(x - other) <= np.maximum(np.maximum(tol.rtol * np.maximum(np.abs(x), np.abs(other)), atol),
-                                                   rounding)
+        def close(
+            x: np.ndarray | float,
+            other: np.ndarray | float,
+            rounding: np.ndarray | float,
+            atol: float = atol,
+        ) -> np.ndarray:
+            return np.abs(x - other) <= np.maximum(
+                np.maximum(tol.rtol * np.maximum(np.abs(x), np.abs(other)), atol), rounding
+            )
 
         taken = np.zeros(len(items), dtype=bool)
         for a in range(len(items)):
             if taken[a] or low[a] == high[a]:
                 continue
-            candidates = np.sort(by_force[low[a]:high[a]])
+            candidates = np.sort(by_force[low[a] : high[a]])
             candidates = candidates[(candidates > a) & ~taken[candidates]]
             if not candidates.size:
                 continue
             # a's claim is b's force, b's claim is a's force, and the two forces differ
-            fits = (close(claimed_x[a], computed_c[candidates], own_rounding[a])
-                    & close(claimed_x[candidates], computed_c[a], own_rounding[candidates])
-                    & ~close(computed_c[a], computed_c[candidates], 0.0))
-            partners = [b for b in candidates[fits].tolist() if items[b][0] not in explained
-                        and (not indeterminate or _swap_restores_balance(c, name, items[a], items[b]))]
+            fits = (
+                close(claimed_x[a], computed_c[candidates], own_rounding[a])
+                & close(claimed_x[candidates], computed_c[a], own_rounding[candidates])
+                & ~close(computed_c[a], computed_c[candidates], 0.0)
+            )
+            partners = [
+                b
+                for b in candidates[fits].tolist()
+                if items[b][0] not in explained
+                and (not indeterminate or _swap_restores_balance(c, name, items[a], items[b]))
+            ]
             if items[a][0] in explained or not partners:
                 continue
             b = partners[0]
@@ -795,10 +1256,18 @@ def _shifted_and_swapped(c: Comparison) -> None:
             explained.update((ra, rb))
             for r in (ra, rb):
                 rows[r] = _with_status(rows[r], "swapped-labels")
-            findings.append(Finding("swapped-labels", (va.member, vb.member), f"in '{name}' the claims for {va.member} "
-                                    f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
-                                    f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped", Severity.ERROR, case=name,
-                                    locations=(va.where, vb.where)))
+            findings.append(
+                Finding(
+                    "swapped-labels",
+                    (va.member, vb.member),
+                    f"in '{name}' the claims for {va.member} "
+                    f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
+                    f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped",
+                    Severity.ERROR,
+                    case=name,
+                    locations=(va.where, vb.where),
+                )
+            )
 
 
 def _swaps_across_columns(c: Comparison) -> None:
@@ -814,15 +1283,28 @@ def _swaps_across_columns(c: Comparison) -> None:
         first = group[0]
         cases = ", ".join(f"'{f.case}'" for f in group)
         findings = [f for f in findings if f not in group]
-        findings.append(Finding("swapped-labels", first.members, f"the claims for {first.members[0]} and {first.members[1]} "
-                                f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
-                                "look swapped", Severity.ERROR,
-                                locations=tuple(loc for f in group for loc in f.locations)))
+        findings.append(
+            Finding(
+                "swapped-labels",
+                first.members,
+                f"the claims for {first.members[0]} and {first.members[1]} "
+                f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
+                "look swapped",
+                Severity.ERROR,
+                locations=tuple(loc for f in group for loc in f.locations),
+            )
+        )
     c.findings = findings
 
 
 def _combination_factor(c: Comparison) -> None:
-    by_case, explained, findings, indeterminate, model = c.by_case, c.explained, c.findings, c.indeterminate, c.model
+    by_case, explained, findings, indeterminate, model = (
+        c.by_case,
+        c.explained,
+        c.findings,
+        c.indeterminate,
+        c.model,
+    )
     ref, rows, scale_of, slip_ratios = c.ref, c.rows, c.scale_of, c.slip_ratios
     tol = c.tol
     # A column whose claims, nearly all, follow another combination of the load cases (a different
@@ -834,8 +1316,12 @@ def _combination_factor(c: Comparison) -> None:
             if name not in combinations:
                 continue  # a load case's own column follows a multiple of itself (a likely cause), never a mix
             pending = [item for item in items if item[0] not in explained]
-            failing = {model.member_index[item[1].member] for item in pending if item[1].member is not None}
-            fit = _combination_fit(model, ref, rows, name, failing, tol, scale_of.get(name, 0.0), slip_ratios)
+            failing = {
+                model.member_index[item[1].member] for item in pending if item[1].member is not None
+            }
+            fit = _combination_fit(
+                model, ref, rows, name, failing, tol, scale_of.get(name, 0.0), slip_ratios
+            )
             if fit is None:
                 continue
             fitted, defined, agree, n, follows = fit
@@ -843,16 +1329,26 @@ def _combination_factor(c: Comparison) -> None:
             if len(covered) < CAUSE_MIN_EXPLAINED or len(covered) < CAUSE_MAJORITY * len(pending):
                 continue  # a cause must explain a clear majority of the column's differences, never a few
             explained.update(item[0] for item in covered)
-            what = f"not {defined} as the case file combines '{name}': a different combination factor?"
+            what = (
+                f"not {defined} as the case file combines '{name}': a different combination factor?"
+            )
             for item in covered:
                 rows[item[0]] = _with_status(rows[item[0]], "likely-cause")
             left = len([item for item in pending if item not in covered])
-            findings.append(Finding("likely-cause", tuple(item[1].member for item in covered),
-                                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with "
-                                    f"it), {what} Its {len(covered)} claim(s) that follow it are marked likely-cause",
-                                    Severity.ERROR, case=name, variant=f"'{name}' as {fitted} instead of {defined}",
-                                    explains=len(covered), unexplained=left,
-                                    locations=tuple(item[1].where for item in covered[:12])))
+            findings.append(
+                Finding(
+                    "likely-cause",
+                    tuple(item[1].member for item in covered),
+                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with "
+                    f"it), {what} Its {len(covered)} claim(s) that follow it are marked likely-cause",
+                    Severity.ERROR,
+                    case=name,
+                    variant=f"'{name}' as {fitted} instead of {defined}",
+                    explains=len(covered),
+                    unexplained=left,
+                    locations=tuple(item[1].where for item in covered[:12]),
+                )
+            )
 
 
 def _copies(c: Comparison) -> None:
@@ -861,9 +1357,26 @@ def _copies(c: Comparison) -> None:
 
 
 def _indeterminate(c: Comparison) -> None:
-    analysis, case_unit, claimed_matrix, diffs, explained = c.analysis, c.case_unit, c.claimed_matrix, c.diffs, c.explained
-    findings, frame, indeterminate, load_names, model = c.findings, c.frame, c.indeterminate, c.load_names, c.model
-    reaction_claims, rounding_matrix, rows, tol = c.reaction_claims, c.rounding_matrix, c.rows, c.tol
+    analysis, case_unit, claimed_matrix, diffs, explained = (
+        c.analysis,
+        c.case_unit,
+        c.claimed_matrix,
+        c.diffs,
+        c.explained,
+    )
+    findings, frame, indeterminate, load_names, model = (
+        c.findings,
+        c.frame,
+        c.indeterminate,
+        c.load_names,
+        c.model,
+    )
+    reaction_claims, rounding_matrix, rows, tol = (
+        c.reaction_claims,
+        c.rounding_matrix,
+        c.rows,
+        c.tol,
+    )
     if indeterminate:
         # Indeterminate: differences in members that carry a state of self-stress are judged by
         # equilibrium (another stiffness assumption is not an error). A member outside every
@@ -878,22 +1391,51 @@ def _indeterminate(c: Comparison) -> None:
             _apply_cause(c, explain_release)
             diffs = [item for item in diffs if item[0] not in explained]
         in_self_stress = _self_stress_members(analysis)
-        fixed_by_statics = [item for item in diffs if in_self_stress is not None and item[1].member not in in_self_stress]
-        loose = [item for item in diffs if item not in fixed_by_statics and item[0] not in explained]
+        fixed_by_statics = [
+            item
+            for item in diffs
+            if in_self_stress is not None and item[1].member not in in_self_stress
+        ]
+        loose = [
+            item for item in diffs if item not in fixed_by_statics and item[0] not in explained
+        ]
         balance_claims = claimed_matrix.copy()
         # Members judged elsewhere (fixed by statics, or a swapped pair already named) enter the
         # equilibrium search with their recomputed values, so their imbalance is not blamed twice.
         for r, v, _, computed, _ in fixed_by_statics + settled:
             balance_claims[model.member_index[v.member], load_names.index(rows[r].case)] = computed
-        findings.extend(_explain_indeterminate(analysis, rows, loose, balance_claims, reaction_claims, load_names, tol,
-                                               case_unit.symbol, rounding_matrix))
+        findings.extend(
+            _explain_indeterminate(
+                analysis,
+                rows,
+                loose,
+                balance_claims,
+                reaction_claims,
+                load_names,
+                tol,
+                case_unit.symbol,
+                rounding_matrix,
+            )
+        )
         diffs = fixed_by_statics
     c.diffs = diffs
 
 
 def _member_reasons(c: Comparison) -> None:
-    case_unit, diffs, explained, findings, named_ratio = c.case_unit, c.diffs, c.explained, c.findings, c.named_ratio
-    rounding_of_row, rows, scale_of, slip_ratios, tol = c.rounding_of_row, c.rows, c.scale_of, c.slip_ratios, c.tol
+    case_unit, diffs, explained, findings, named_ratio = (
+        c.case_unit,
+        c.diffs,
+        c.explained,
+        c.findings,
+        c.named_ratio,
+    )
+    rounding_of_row, rows, scale_of, slip_ratios, tol = (
+        c.rounding_of_row,
+        c.rows,
+        c.scale_of,
+        c.slip_ratios,
+        c.tol,
+    )
     unit = case_unit.symbol
     for r, v, value, computed, allowed in diffs:
         if r in explained:
@@ -902,15 +1444,40 @@ def _member_reasons(c: Comparison) -> None:
         assert member is not None
         name = rows[r].case
         atol = tol.atol_fraction * scale_of.get(name, 0.0)
-        common = {"member": member, "case": name, "claimed": f"{fmt(value)} {unit}", "recomputed": f"{fmt(computed)} {unit}",
-                  "written": rows[r].written}
-        next_step = (f"truss-verify solve {shlex.quote(c.model.source)} --show joints --case {shlex.quote(name)}"
-                     if c.model.source else None)
+        common = {
+            "member": member,
+            "case": name,
+            "claimed": f"{fmt(value)} {unit}",
+            "recomputed": f"{fmt(computed)} {unit}",
+            "written": rows[r].written,
+        }
+        next_step = (
+            f"truss-verify solve {shlex.quote(c.model.source)} --show joints --case {shlex.quote(name)}"
+            if c.model.source
+            else None
+        )
 
-        def finding(kind: str, detail: str, member: str = member, name: str = name, value: float = value,
-                    computed: float = computed, where: str = v.where, next_step: str | None = next_step) -> Finding:
-            return Finding(kind, (member,), detail, Severity.ERROR, case=name, locations=(where,), next_step=next_step,
-                           claimed=value, recomputed=computed)
+        def finding(
+            kind: str,
+            detail: str,
+            member: str = member,
+            name: str = name,
+            value: float = value,
+            computed: float = computed,
+            where: str = v.where,
+            next_step: str | None = next_step,
+        ) -> Finding:
+            return Finding(
+                kind,
+                (member,),
+                detail,
+                Severity.ERROR,
+                case=name,
+                locations=(where,),
+                next_step=next_step,
+                claimed=value,
+                recomputed=computed,
+            )
 
         if abs(computed) <= atol:
             rows[r] = _with_status(rows[r], "zero-force-claimed")
@@ -919,43 +1486,88 @@ def _member_reasons(c: Comparison) -> None:
         # A sign flip: opposite signs and the same size, within the relative tolerance or the
         # claim's own rounding (never the absolute allowance, and never a claimed zero: 0.00 for
         # -0.437 is a wrong value, not a reversed one).
-        same_size = abs(abs(value) - abs(computed)) <= max(tol.rtol * abs(computed), rounding_of_row.get(r, 0.0))
+        same_size = abs(abs(value) - abs(computed)) <= max(
+            tol.rtol * abs(computed), rounding_of_row.get(r, 0.0)
+        )
         if value * computed < 0 and same_size:
             rows[r] = _with_status(rows[r], "sign-flip")
-            findings.append(finding("sign-flip", worded("sign-flip", **common, sense="tension" if computed > 0 else "compression",
-                                                        how="the T/C mark" if v.sign_fixed else "the sign")))
+            findings.append(
+                finding(
+                    "sign-flip",
+                    worded(
+                        "sign-flip",
+                        **common,
+                        sense="tension" if computed > 0 else "compression",
+                        how="the T/C mark" if v.sign_fixed else "the sign",
+                    ),
+                )
+            )
             continue
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol, slip_ratios)
         if unit_factor is not None:
             rows[r] = _with_status(rows[r], "unit-scale")
-            findings.append(finding("unit-scale", worded("unit-scale", **common, ratio=f"{ratio:.5g}", factor=named_ratio(unit_factor),
-                                                         reversed="" if ratio > 0 else " with the sign also reversed")))
+            findings.append(
+                finding(
+                    "unit-scale",
+                    worded(
+                        "unit-scale",
+                        **common,
+                        ratio=f"{ratio:.5g}",
+                        factor=named_ratio(unit_factor),
+                        reversed="" if ratio > 0 else " with the sign also reversed",
+                    ),
+                )
+            )
             continue
         pct = abs(value - computed) / max(abs(computed), 1e-300) * 100
-        findings.append(finding("value-mismatch", worded(
-            "value-mismatch", **common, difference=f"{'+' if value >= computed else '-'}{fmt(abs(value - computed))} {unit}",
-            percent=f"{pct:.1f}", allowed=f"{fmt(allowed, 3)} {unit}")))
+        findings.append(
+            finding(
+                "value-mismatch",
+                worded(
+                    "value-mismatch",
+                    **common,
+                    difference=f"{'+' if value >= computed else '-'}{fmt(abs(value - computed))} {unit}",
+                    percent=f"{pct:.1f}",
+                    allowed=f"{fmt(allowed, 3)} {unit}",
+                ),
+            )
+        )
 
 
 def _flag(c: Comparison) -> None:
     findings, flagged, load_names = c.findings, c.flagged, c.load_names
     for f in findings:
         if f.severity is Severity.ERROR:
-            for case_name in ([f.case] if f.case else load_names):  # a finding without a case spans them all
+            for case_name in (
+                [f.case] if f.case else load_names
+            ):  # a finding without a case spans them all
                 flagged.setdefault(case_name, set()).update(f.members)
 
 
 def _self_check(c: Comparison) -> None:
     claims, findings, flagged, judged, k_of = c.claims, c.findings, c.flagged, c.judged, c.k_of
-    member_pos, model, rounding_unit, scale_fit, tol = c.member_pos, c.model, c.rounding_unit, c.scale_fit, c.tol
+    member_pos, model, rounding_unit, scale_fit, tol = (
+        c.member_pos,
+        c.model,
+        c.rounding_unit,
+        c.scale_fit,
+        c.tol,
+    )
     values = c.values
     # The claims against themselves: combination columns against the table's own case columns. Where
     # every member it names is already an error in some column, it corroborates (information).
     own = np.flatnonzero(judged)
     anywhere = set().union(*flagged.values()) if flagged else set()
-    for f in check_combinations(model, member_pos[own], k_of[own], values[own], rounding_unit[own] * abs(scale_fit),
-                                tol.rtol, [claims.values[int(i)].where for i in own]):
+    for f in check_combinations(
+        model,
+        member_pos[own],
+        k_of[own],
+        values[own],
+        rounding_unit[own] * abs(scale_fit),
+        tol.rtol,
+        [claims.values[int(i)].where for i in own],
+    ):
         if set(f.members) <= anywhere:
             f = dataclasses.replace(f, severity=Severity.INFO)
         findings.append(f)
@@ -967,72 +1579,136 @@ def _missing_claims(c: Comparison) -> None:
     # Missing claims (informational), per load column that has claims; load columns missing the
     # same members share one finding.
     checked_cases = tuple(n for n in load_names if any(c == n for _, c in seen_pairs))
-    missing_by_case = {name: [mid for mid in model.member_ids if (mid, name) not in seen_pairs] for name in checked_cases}
+    missing_by_case = {
+        name: [mid for mid in model.member_ids if (mid, name) not in seen_pairs]
+        for name in checked_cases
+    }
     groups: dict[tuple[str, ...], list[str]] = {}
     for name, missing in missing_by_case.items():
         if missing:
             groups.setdefault(tuple(missing), []).append(name)
     for missing_t, names_t in groups.items():
-        shown_text = ", ".join(missing_t[:20]) + (f" and {len(missing_t) - 20} more" if len(missing_t) > 20 else "")
+        shown_text = ", ".join(missing_t[:20]) + (
+            f" and {len(missing_t) - 20} more" if len(missing_t) > 20 else ""
+        )
         where = ", ".join(f"'{n}'" for n in names_t)
-        findings.append(Finding("missing-claim", missing_t, f"{where}: no claim for {len(missing_t)} of {len(model.members)} "
-                                f"members ({shown_text}); they are not checked", Severity.INFO,
-                                case=names_t[0] if len(names_t) == 1 else None))
+        findings.append(
+            Finding(
+                "missing-claim",
+                missing_t,
+                f"{where}: no claim for {len(missing_t)} of {len(model.members)} "
+                f"members ({shown_text}); they are not checked",
+                Severity.INFO,
+                case=names_t[0] if len(names_t) == 1 else None,
+            )
+        )
     for name in checked_cases:
         missing = missing_by_case[name]
         if missing:
             for mid in missing:
                 m = model.member_index[mid]
                 k = load_names.index(name)
-                g = float(analysis.global_.member_forces[m, k]) if analysis.global_ is not None else None
-                e = float(analysis.elastic.forces.member_forces[m, k]) if analysis.elastic is not None else None  # type: ignore[attr-defined]
-                jv = float(analysis.joints.forces.member_forces[m, k]) if analysis.joints is not None else None
+                g = (
+                    float(analysis.global_.member_forces[m, k])
+                    if analysis.global_ is not None
+                    else None
+                )
+                e = (
+                    float(analysis.elastic.forces.member_forces[m, k])
+                    if analysis.elastic is not None
+                    else None
+                )
+                jv = (
+                    float(analysis.joints.forces.member_forces[m, k])
+                    if analysis.joints is not None
+                    else None
+                )
                 sv: float | None = None
                 if analysis.sections is not None:
-                    s_val = float(analysis.sections.forces.member_forces[m, k])  # type: ignore[attr-defined]
+                    s_val = float(analysis.sections.forces.member_forces[m, k])
                     sv = s_val if np.isfinite(s_val) else None
                 rows.append(Row(mid, "member", name, None, "", jv, sv, g, e, None, "missing-claim"))
     c.checked_cases = checked_cases
 
 
 def _balance(c: Comparison) -> None:
-    case_unit, claimed_matrix, findings, flagged, load_names = c.case_unit, c.claimed_matrix, c.findings, c.flagged, c.load_names
-    model, notes, reaction_claims, ref, rounding_matrix = c.model, c.notes, c.reaction_claims, c.ref, c.rounding_matrix
+    case_unit, claimed_matrix, findings, flagged, load_names = (
+        c.case_unit,
+        c.claimed_matrix,
+        c.findings,
+        c.flagged,
+        c.load_names,
+    )
+    model, notes, reaction_claims, ref, rounding_matrix = (
+        c.model,
+        c.notes,
+        c.reaction_claims,
+        c.ref,
+        c.rounding_matrix,
+    )
     stab, tol = c.stab, c.tol
     # Equilibrium of the claims themselves.
-    imbalances = claims_balance(model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix)
+    imbalances = claims_balance(
+        model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix
+    )
     checkable = checkable_joints(model, claimed_matrix, load_names)
     implied = implied_loads(model, imbalances, checkable)
     for name, count in checkable.items():
         off = sum(1 for b in imbalances if b.case == name)
         if count == 0:
-            notes.append(f"equilibrium of the claims in '{name}': no joint has a claim for every member meeting there, "
-                         "so the claims cannot be checked on their own")
+            notes.append(
+                f"equilibrium of the claims in '{name}': no joint has a claim for every member meeting there, "
+                "so the claims cannot be checked on their own"
+            )
         elif off == 0:
-            notes.append(f"equilibrium of the claims in '{name}': they balance at all {count} joints where every member has a claim")
+            notes.append(
+                f"equilibrium of the claims in '{name}': they balance at all {count} joints where every member has a claim"
+            )
         else:
             worst = sorted((b for b in imbalances if b.case == name), key=lambda b: -b.size)[:8]
             joints = ", ".join(f"{b.joint} ({fmt(b.size, 3)} {case_unit.symbol})" for b in worst)
-            notes.append(f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints: "
-                         f"{joints}{' ...' if off > len(worst) else ''}")
+            notes.append(
+                f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints: "
+                f"{joints}{' ...' if off > len(worst) else ''}"
+            )
     if imbalances:
         # An imbalance is explained by a finding on one of its members or on a reaction at its joint.
         reaction_labels: dict[str, set[str]] = {}
         for component in model.reactions:
             reaction_labels.setdefault(component.joint, set()).add(component.label)
-        unexplained = [b for b in imbalances
-                       if not ((set(b.members) | reaction_labels.get(b.joint, set())) & flagged.get(b.case, set()))]
+        unexplained = [
+            b
+            for b in imbalances
+            if not (
+                (set(b.members) | reaction_labels.get(b.joint, set())) & flagged.get(b.case, set())
+            )
+        ]
         if unexplained or ref is None or stab.classification is Classification.UNSTABLE:
             listed = unexplained or list(imbalances)
             worst = sorted(listed, key=lambda b: -b.size)[:8]
-            text = "; ".join(f"joint {b.joint} in '{b.case}' is out of balance by {fmt(b.size, 3)} {case_unit.symbol}" for b in worst)
-            findings.append(Finding("equilibrium-residual", tuple(sorted({m for b in listed for m in b.members}))[:40],
-                                    f"the claimed forces stop balancing at {len(listed)} joint(s): {text}", Severity.ERROR))
+            text = "; ".join(
+                f"joint {b.joint} in '{b.case}' is out of balance by {fmt(b.size, 3)} {case_unit.symbol}"
+                for b in worst
+            )
+            findings.append(
+                Finding(
+                    "equilibrium-residual",
+                    tuple(sorted({m for b in listed for m in b.members}))[:40],
+                    f"the claimed forces stop balancing at {len(listed)} joint(s): {text}",
+                    Severity.ERROR,
+                )
+            )
     c.imbalances, c.implied = imbalances, implied
 
 
 def _finish(c: Comparison) -> None:
-    analysis, checked_cases, claims, convention, findings = c.analysis, c.checked_cases, c.claims, c.convention, c.findings
+    analysis, checked_cases, claims, convention, findings = (
+        c.analysis,
+        c.checked_cases,
+        c.claims,
+        c.convention,
+        c.findings,
+    )
     imbalances, implied, notes, ref, rows = c.imbalances, c.implied, c.notes, c.ref, c.rows
     seen_pairs, stab, tol = c.seen_pairs, c.stab, c.tol
     checked_members = len({mid for mid, _ in seen_pairs})
@@ -1042,9 +1718,20 @@ def _finish(c: Comparison) -> None:
         notes.append("no claim could be matched to a member and load case of the model")
         if verdict is Verdict.AGREES:
             verdict = Verdict.CANNOT_VERIFY
-    c.review = Review(verdict, analysis, claims, convention, tol, tuple(rows), tuple(findings), checked_cases,
-                  checked_members, tuple(imbalances), tuple(notes), implied=implied)
-
+    c.review = Review(
+        verdict,
+        analysis,
+        claims,
+        convention,
+        tol,
+        tuple(rows),
+        tuple(findings),
+        checked_cases,
+        checked_members,
+        tuple(imbalances),
+        tuple(notes),
+        implied=implied,
+    )
 
 
 # The comparison, step by step (each sees what the earlier ones left unexplained).
@@ -1075,7 +1762,9 @@ STEPS = (
 )
 
 
-NEAR_ZERO_LOAD_SHARE = 0.01  # the near-zero allowance never exceeds this share of the largest joint load
+NEAR_ZERO_LOAD_SHARE = (
+    0.01  # the near-zero allowance never exceeds this share of the largest joint load
+)
 
 
 def _reversed_load_case(c: Comparison, column: str) -> bool:
@@ -1104,8 +1793,10 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         reversed_case = as_defined - 2.0 * C[case, k] * ref.member_forces[c.member_pos[idx], case]
         atol = np.full(len(idx), c.tol.atol_fraction * (c.scale_of.get(name) or 1.0))
         fixed, no_rounding = np.ones(len(idx), dtype=bool), np.zeros(len(idx))
-        if_reversed, as_is = (count_agreeing(claimed, fixed, computed, c.tol.rtol, atol, no_rounding, 1, 1.0)
-                              for computed in (reversed_case, as_defined))
+        if_reversed, as_is = (
+            count_agreeing(claimed, fixed, computed, c.tol.rtol, atol, no_rounding, 1, 1.0)
+            for computed in (reversed_case, as_defined)
+        )
         if if_reversed > max(as_is, len(idx) // 2):
             return True
     return False
@@ -1132,7 +1823,9 @@ def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:
     return tuple(v.where for v in claims.values if v.column == column)[:1]
 
 
-def _apply_cause(c: Comparison, explainer: Callable[[ClaimsFrame, np.ndarray, Analysis], CauseReport]) -> None:
+def _apply_cause(
+    c: Comparison, explainer: Callable[[ClaimsFrame, np.ndarray, Analysis], CauseReport]
+) -> None:
     """Run one explainer of verify.compare.causes on the disagreeing rows not yet explained."""
     if c.frame is None:
         return
@@ -1157,15 +1850,30 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
 
     model = analysis.model
     try:
-        fixed = members_fixed_by_statics(model, analysis.elastic.forces.member_forces,  # type: ignore[attr-defined]
-                                         assume_equal_EA=analysis.assumed_EA)
+        fixed = members_fixed_by_statics(
+            model,
+            analysis.elastic.forces.member_forces,
+            assume_equal_EA=analysis.assumed_EA,
+        )
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
-    return {m.id for m, statics_only in zip(model.members, fixed.tolist(), strict=True) if not statics_only}
+    return {
+        m.id
+        for m, statics_only in zip(model.members, fixed.tolist(), strict=True)
+        if not statics_only
+    }
 
 
-def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str, failing: set[int], tol: Tolerance,
-                     scale: float, unit_ratios: tuple[float, ...] | None = None) -> tuple[str, str, int, int, set[int]] | None:
+def _combination_fit(
+    model: Model,
+    ref: ForceResult,
+    rows: list[Row],
+    name: str,
+    failing: set[int],
+    tol: Tolerance,
+    scale: float,
+    unit_ratios: tuple[float, ...] | None = None,
+) -> tuple[str, str, int, int, set[int]] | None:
     """(fitted combination, defined combination, members agreeing, members claimed, failing members
     that follow the fit) when several claims of load column `name` fail (member positions
     `failing`) and nearly all claims follow one other combination of the load cases.
@@ -1177,8 +1885,11 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
     diagnoses, which say it better.
     """
     n_cases = len(model.cases)
-    claimed = [(model.member_index[r.id], r.claimed) for r in rows
-               if r.kind == "member" and r.case == name and r.claimed is not None]
+    claimed = [
+        (model.member_index[r.id], r.claimed)
+        for r in rows
+        if r.kind == "member" and r.case == name and r.claimed is not None
+    ]
     if len(failing) < MIN_MEMBERS_FOR_TABLE or len(claimed) < 4:
         return None  # too few failures to be a pattern, or too few claims to fit any factor
     pos = np.array([p for p, _ in claimed], dtype=np.int64)
@@ -1196,11 +1907,17 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
 
     def words(coefficients: np.ndarray) -> str:
         big = float(np.abs(coefficients).max()) or 1.0
-        terms = [f"{fmt(float(c), 3)} × {n}" for c, n in zip(coefficients, names, strict=True) if abs(c) > 1e-3 * big]
+        terms = [
+            f"{fmt(float(c), 3)} × {n}"
+            for c, n in zip(coefficients, names, strict=True)
+            if abs(c) > 1e-3 * big
+        ]
         return " + ".join(terms).replace("+ -", "- ") or "0"
 
     def agreeing(fitted: np.ndarray) -> np.ndarray:
-        return np.abs(y - fitted) <= np.maximum(tol.rtol * np.maximum(np.abs(y), np.abs(fitted)), atol)
+        return np.abs(y - fitted) <= np.maximum(
+            tol.rtol * np.maximum(np.abs(y), np.abs(fitted)), atol
+        )
 
     # Load cases whose forces are proportional (the same pattern of loads) cannot be told apart:
     # fit on an independent set of cases, those of the defined combination first.
@@ -1215,7 +1932,9 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
     independent = all(c in chosen for c in np.flatnonzero(defined))
     named = basis @ defined
     keep = np.ones(len(y), dtype=bool)
-    for _ in range(max(2, len(y) // 10)):  # fit; drop the worst misfit and refit, a tenth of the claims at most
+    for _ in range(
+        max(2, len(y) // 10)
+    ):  # fit; drop the worst misfit and refit, a tenth of the claims at most
         if keep.sum() < 2 * len(chosen) + 2:
             return None
         if independent:
@@ -1242,9 +1961,16 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
     factors = round_factors
     fitted = basis @ factors
     ratio = float(factors @ defined) / float(defined @ defined)
-    if np.allclose(factors, ratio * defined, rtol=tol.rtol, atol=1e-3 * float(np.abs(defined).max())):
-        if abs(abs(ratio) - 1.0) <= tol.rtol or matching_factor(ratio, tol.rtol, unit_ratios) is not None:
-            return None  # the defined combination itself, reversed or in another unit: said elsewhere
+    if np.allclose(
+        factors, ratio * defined, rtol=tol.rtol, atol=1e-3 * float(np.abs(defined).max())
+    ):
+        if (
+            abs(abs(ratio) - 1.0) <= tol.rtol
+            or matching_factor(ratio, tol.rtol, unit_ratios) is not None
+        ):
+            return (
+                None  # the defined combination itself, reversed or in another unit: said elsewhere
+            )
     fits = agreeing(fitted)
     follows = {int(p) for p, ok in zip(pos, fits, strict=True) if ok and int(p) in failing}
     if fits.sum() < 0.9 * len(y) or len(follows) < MIN_MEMBERS_FOR_TABLE:
@@ -1254,11 +1980,24 @@ def _combination_fit(model: Model, ref: ForceResult, rows: list[Row], name: str,
 
 
 def _with_status(row: Row, status: str) -> Row:
-    return Row(row.id, row.kind, row.case, row.claimed, row.written, row.joints, row.sections, row.global_,
-               row.elastic, row.difference, status)
+    return Row(
+        row.id,
+        row.kind,
+        row.case,
+        row.claimed,
+        row.written,
+        row.joints,
+        row.sections,
+        row.global_,
+        row.elastic,
+        row.difference,
+        status,
+    )
 
 
-def _verdict(findings: list[Finding], classification: Classification, has_reference: bool) -> Verdict:
+def _verdict(
+    findings: list[Finding], classification: Classification, has_reference: bool
+) -> Verdict:
     if classification is Classification.UNSTABLE:
         return Verdict.CANNOT_VERIFY
     if any(f.severity is Severity.ERROR for f in findings):
@@ -1268,9 +2007,17 @@ def _verdict(findings: list[Finding], classification: Classification, has_refere
     return Verdict.AGREES
 
 
-def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tuple[int, ClaimedValue, float, float, float]],
-                           claimed: np.ndarray, reaction_claims: dict[tuple[int, int], float], load_names: list[str],
-                           tol: Tolerance, unit: str, rounding: np.ndarray | None = None) -> list[Finding]:
+def _explain_indeterminate(
+    analysis: Analysis,
+    rows: list[Row],
+    diffs: list[tuple[int, ClaimedValue, float, float, float]],
+    claimed: np.ndarray,
+    reaction_claims: dict[tuple[int, int], float],
+    load_names: list[str],
+    tol: Tolerance,
+    unit: str,
+    rounding: np.ndarray | None = None,
+) -> list[Finding]:
     """Split an indeterminate truss's differences into equilibrium errors and self-stress.
 
     Claims that balance at every joint differ from the elastic solution only by a state of
@@ -1309,9 +2056,9 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
                         s_, e_ = model.ends_index[m]
                         u = model.unit_vectors[m]
                         if j == s_:
-                            col[pos * d:(pos + 1) * d] = u
+                            col[pos * d : (pos + 1) * d] = u
                         elif j == e_:
-                            col[pos * d:(pos + 1) * d] = -u
+                            col[pos * d : (pos + 1) * d] = -u
                     norm = float(col @ col)
                     if norm == 0:
                         continue
@@ -1326,10 +2073,17 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
                 if float(np.linalg.norm(residual)) <= 0.05 * size0:
                     break
             where = ", ".join(b.joint for b in unbalanced[:8])
-            out.append(Finding("equilibrium-residual", tuple(sorted({m for b in unbalanced for m in b.members}))[:40],
-                               f"in '{name}' the claimed forces do not balance at joint(s) {where} "
-                               f"(largest out-of-balance {fmt(max(b.size for b in unbalanced), 3)} {unit}); this is an error whatever "
-                               "the member stiffnesses", Severity.ERROR, case=name))
+            out.append(
+                Finding(
+                    "equilibrium-residual",
+                    tuple(sorted({m for b in unbalanced for m in b.members}))[:40],
+                    f"in '{name}' the claimed forces do not balance at joint(s) {where} "
+                    f"(largest out-of-balance {fmt(max(b.size for b in unbalanced), 3)} {unit}); this is an error whatever "
+                    "the member stiffnesses",
+                    Severity.ERROR,
+                    case=name,
+                )
+            )
         for mid, e in blamed.items():
             m = model.member_index[mid]
             claim = float(claimed[m, k])
@@ -1337,15 +2091,19 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             index = next((r for r, v, *_ in case_rows if v.member == mid), None)
             status, kind = "value-mismatch", "value-mismatch"
             if len(blamed) == 1:
-                text = (f"{mid} in '{name}': claimed {fmt(claim)} {unit}; equilibrium of its joints needs about {fmt(needed)} "
-                        f"(all other claims kept)")
+                text = (
+                    f"{mid} in '{name}': claimed {fmt(claim)} {unit}; equilibrium of its joints needs about {fmt(needed)} "
+                    f"(all other claims kept)"
+                )
             else:
                 # Several members changed together: one way to restore balance, found greedily;
                 # a self-stress can trade between them, so it is a lead, not a verdict.
                 others = ", ".join(x for x in blamed if x != mid)
-                text = (f"{mid} in '{name}': claimed {fmt(claim)} {unit}; no single member explains the imbalance, and one "
-                        f"combination that removes most of it sets {mid} to about {fmt(needed)} together with {others} "
-                        "(other combinations may balance as well: check these claims first)")
+                text = (
+                    f"{mid} in '{name}': claimed {fmt(claim)} {unit}; no single member explains the imbalance, and one "
+                    f"combination that removes most of it sets {mid} to about {fmt(needed)} together with {others} "
+                    "(other combinations may balance as well: check these claims first)"
+                )
             if abs(claim + needed) <= tol.rtol * abs(claim) + 1e-12:
                 status = kind = "sign-flip"
                 text += ": the sign is reversed"
@@ -1362,16 +2120,36 @@ def _explain_indeterminate(analysis: Analysis, rows: list[Row], diffs: list[tupl
             size = max(abs(rows[r].difference or 0.0) for r, _ in rest)
             members = tuple(v.member for _, v in rest if v.member)
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
-            caveat = (f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)" if unchecked else "")
+            caveat = (
+                f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)"
+                if unchecked
+                else ""
+            )
             rest_text = "apart from the member(s) named above, " if blamed else ""
             # Against an assumed EA, another distribution is no evidence of an error.
             assumed = analysis.assumed_EA is not None
-            solution, meaning = (("for the equal EA assumed ", "and with the real member sizes the elastic distribution "
-                                  "would differ too, so this is not evidence of an error") if assumed else
-                                 ("", "but they assume member stiffnesses other than the EA given (e.g. tension-only "
-                                  "bracing), an erection sequence or a lack of fit"))
-            out.append(Finding("not-elastic", members, f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
-                               f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: "
-                               f"the claims satisfy equilibrium, {meaning}{caveat}",
-                               Severity.INFO if assumed else Severity.ERROR, case=name))
+            solution, meaning = (
+                (
+                    "for the equal EA assumed ",
+                    "and with the real member sizes the elastic distribution "
+                    "would differ too, so this is not evidence of an error",
+                )
+                if assumed
+                else (
+                    "",
+                    "but they assume member stiffnesses other than the EA given (e.g. tension-only "
+                    "bracing), an erection sequence or a lack of fit",
+                )
+            )
+            out.append(
+                Finding(
+                    "not-elastic",
+                    members,
+                    f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
+                    f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: "
+                    f"the claims satisfy equilibrium, {meaning}{caveat}",
+                    Severity.INFO if assumed else Severity.ERROR,
+                    case=name,
+                )
+            )
     return out

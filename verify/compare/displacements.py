@@ -31,7 +31,9 @@ class DisplacementCheck:
     calc_cases: tuple[str, ...]
 
 
-def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tolerance: Tolerance | None = None) -> DisplacementCheck:
+def compare_displacements(
+    analysis: Analysis, claims: DisplacementClaims, *, tolerance: Tolerance | None = None
+) -> DisplacementCheck:
     tol = tolerance or Tolerance()
     model = analysis.model
     unit = model.units.length.symbol
@@ -42,16 +44,39 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
     calc_cases: list[str] = []
     if elastic is None:
         missing = model.members_without_stiffness()
-        reason = (f"{len(missing)} member(s) have no EA (e.g. {', '.join(missing[:5])})" if missing
-                  else "the truss is unstable")
+        reason = (
+            f"{len(missing)} member(s) have no EA (e.g. {', '.join(missing[:5])})"
+            if missing
+            else "the truss is unstable"
+        )
         for c in claims.values:
-            rows.append(Row(f"{c.joint}.{c.axis}", "displacement", c.case, c.value, f"{c.written} at {c.where}",
-                            None, None, None, None, None, "not-verifiable"))
-        findings.append(Finding("displacement-mismatch", (), f"claimed displacements cannot be checked: {reason}; "
-                                "give EA (or A and E) for every member", Severity.BLOCKER))
+            rows.append(
+                Row(
+                    f"{c.joint}.{c.axis}",
+                    "displacement",
+                    c.case,
+                    c.value,
+                    f"{c.written} at {c.where}",
+                    None,
+                    None,
+                    None,
+                    None,
+                    None,
+                    "not-verifiable",
+                )
+            )
+        findings.append(
+            Finding(
+                "displacement-mismatch",
+                (),
+                f"claimed displacements cannot be checked: {reason}; "
+                "give EA (or A and E) for every member",
+                Severity.BLOCKER,
+            )
+        )
         return DisplacementCheck(tuple(rows), tuple(findings), (), ())
-    disp = elastic.displacements  # type: ignore[attr-defined]
-    forces = elastic.forces.member_forces  # type: ignore[attr-defined]
+    disp = elastic.displacements
+    forces = elastic.forces.member_forces
     d = model.dim
     for c in claims.values:
         k = model.load_names.index(c.case)
@@ -62,29 +87,56 @@ def compare_displacements(analysis: Analysis, claims: DisplacementClaims, *, tol
         # Half a unit in the last decimal as written, in the unit it was written in ('0 mm' is not +-0.5 m).
         ok = tol.agrees(c.value, computed, atol, rounding_allowance(c.value / c.scale, c.scale))
         status = "agrees" if ok else "displacement-mismatch"
-        rows.append(Row(f"{c.joint}.{c.axis}", "displacement", c.case, c.value, f"{c.written} at {c.where}",
-                        None, None, None, computed, c.value - computed, status))
+        rows.append(
+            Row(
+                f"{c.joint}.{c.axis}",
+                "displacement",
+                c.case,
+                c.value,
+                f"{c.written} at {c.where}",
+                None,
+                None,
+                None,
+                computed,
+                c.value - computed,
+                status,
+            )
+        )
         if not ok:
             sign = " (opposite direction)" if c.value * computed < 0 else ""
             assumed = _assumed_EA(analysis)
-            if assumed is not None and _against_its_only_load(model, c.case, c.joint, c.axis, c.value):
+            if assumed is not None and _against_its_only_load(
+                model, c.case, c.joint, c.axis, c.value
+            ):
                 # Under one point load the loaded joint moves with the load along its line whatever
                 # the member sizes (the load's work, P x delta, equals the strain energy > 0).
                 assumed = None
                 sign += ": a joint carrying the only load moves along that load, whatever the member sizes"
             # Deflections scale with 1/EA: against an assumed EA a difference is no evidence.
-            findings.append(Finding("displacement-mismatch", (c.joint,), f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
-                                    f"{_length(c.value, unit)}, recomputed {_length(computed, unit)}{sign}"
-                                    + (f" with the equal EA assumed ({assumed:g}): not evidence of an error, since deflections "
-                                       "depend on the real member sizes" if assumed is not None else ""),
-                                    Severity.INFO if assumed is not None else Severity.ERROR, case=c.case))
+            findings.append(
+                Finding(
+                    "displacement-mismatch",
+                    (c.joint,),
+                    f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
+                    f"{_length(c.value, unit)}, recomputed {_length(computed, unit)}{sign}"
+                    + (
+                        f" with the equal EA assumed ({assumed:g}): not evidence of an error, since deflections "
+                        "depend on the real member sizes"
+                        if assumed is not None
+                        else ""
+                    ),
+                    Severity.INFO if assumed is not None else Severity.ERROR,
+                    case=c.case,
+                )
+            )
         if len(calcs) < MAX_HAND_CALCS:
             from verify.analysis.virtual_work import unit_load_deflection
 
             direction = [1.0 if a == c.axis else 0.0 for a in AXES[:d]]
             try:
-                calc = unit_load_deflection(model, forces[:, k], c.joint, direction,
-                                            assume_equal_EA=_assumed_EA(analysis))
+                calc = unit_load_deflection(
+                    model, forces[:, k], c.joint, direction, assume_equal_EA=_assumed_EA(analysis)
+                )
             except ValueError:
                 continue
             calcs.append(calc)
@@ -101,8 +153,12 @@ def _against_its_only_load(model: Model, case: str, joint: str, axis: str, value
         return False
     vector = loads[joint]
     k = AXES.index(axis)
-    along_axis_only = all(abs(x) <= 1e-12 * max(abs(v) for v in vector) for n, x in enumerate(vector) if n != k)
-    return along_axis_only and vector[k] != 0 and value * vector[k] <= 0  # not moving at all is impossible too
+    along_axis_only = all(
+        abs(x) <= 1e-12 * max(abs(v) for v in vector) for n, x in enumerate(vector) if n != k
+    )
+    return (
+        along_axis_only and vector[k] != 0 and value * vector[k] <= 0
+    )  # not moving at all is impossible too
 
 
 def _length(value: float, unit: str) -> str:
@@ -122,5 +178,13 @@ def _assumed_EA(analysis: Analysis) -> float | None:
 def attach_displacements(review: Review, check: DisplacementCheck) -> Review:
     """The review with the displacement rows and findings merged in and the verdict recomputed."""
     findings = ordered(list(review.findings) + list(check.findings))
-    verdict = _verdict(findings, review.analysis.stability.classification, review.analysis.reference is not None)
-    return replace(review, rows=review.rows + check.rows, findings=tuple(findings), verdict=verdict, displacements=check)
+    verdict = _verdict(
+        findings, review.analysis.stability.classification, review.analysis.reference is not None
+    )
+    return replace(
+        review,
+        rows=review.rows + check.rows,
+        findings=tuple(findings),
+        verdict=verdict,
+        displacements=check,
+    )

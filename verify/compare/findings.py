@@ -39,8 +39,12 @@ class RowStatus(StrEnum):
 
     AGREES = "agrees"
     VALUE_MISMATCH = "value-mismatch"
-    LIKELY_CAUSE = "likely-cause"  # explained by a likely-cause finding (a different model or table slip)
-    TENSION_ONLY = "tension-only"  # the statics of the truss without its slack diagonals (information)
+    LIKELY_CAUSE = (
+        "likely-cause"  # explained by a likely-cause finding (a different model or table slip)
+    )
+    TENSION_ONLY = (
+        "tension-only"  # the statics of the truss without its slack diagonals (information)
+    )
     SIGN_FLIP = "sign-flip"
     TABLE_SIGN_CONVENTION = "table-sign-convention"
     UNIT_SCALE = "unit-scale"
@@ -59,25 +63,34 @@ class Kind:
     rank: int  # lower is more serious, for ordering findings
 
 
-KINDS: dict[str, Kind] = {k.name: k for k in (  # the heading and rank of every FindingKind
-    Kind("mechanism", "The truss is unstable (mechanism)", 0),
-    Kind("likely-cause", "A different model explains the claims", 0),
-    Kind("inconsistent-combination", "Combination column contradicts the table's own load-case columns", 1),
-    Kind("equilibrium-residual", "Claimed forces do not balance", 1),
-    Kind("value-mismatch", "Claimed value differs", 2),
-    Kind("case-mismatch", "Claims column fits another load case", 3),
-    Kind("table-sign-convention", "Whole table in the opposite sign convention", 4),
-    Kind("unit-scale", "Values off by a unit factor", 5),
-    Kind("swapped-labels", "Two member labels swapped", 6),
-    Kind("sign-flip", "Single sign reversed (T/C)", 7),
-    Kind("zero-force-claimed", "Force claimed for a zero-force member", 8),
-    Kind("unknown-label", "Label not in the model", 9),
-    Kind("not-elastic", "Equilibrium holds; distribution differs from the elastic solution", 10),
-    Kind("ill-conditioned", "Near-unstable geometry", 11),
-    Kind("indeterminate", "Statically indeterminate", 12),
-    Kind("missing-claim", "No claim for some members", 13),
-    Kind("displacement-mismatch", "Claimed joint displacement differs", 2),
-)}
+KINDS: dict[str, Kind] = {
+    k.name: k
+    for k in (  # the heading and rank of every FindingKind
+        Kind("mechanism", "The truss is unstable (mechanism)", 0),
+        Kind("likely-cause", "A different model explains the claims", 0),
+        Kind(
+            "inconsistent-combination",
+            "Combination column contradicts the table's own load-case columns",
+            1,
+        ),
+        Kind("equilibrium-residual", "Claimed forces do not balance", 1),
+        Kind("value-mismatch", "Claimed value differs", 2),
+        Kind("case-mismatch", "Claims column fits another load case", 3),
+        Kind("table-sign-convention", "Whole table in the opposite sign convention", 4),
+        Kind("unit-scale", "Values off by a unit factor", 5),
+        Kind("swapped-labels", "Two member labels swapped", 6),
+        Kind("sign-flip", "Single sign reversed (T/C)", 7),
+        Kind("zero-force-claimed", "Force claimed for a zero-force member", 8),
+        Kind("unknown-label", "Label not in the model", 9),
+        Kind(
+            "not-elastic", "Equilibrium holds; distribution differs from the elastic solution", 10
+        ),
+        Kind("ill-conditioned", "Near-unstable geometry", 11),
+        Kind("indeterminate", "Statically indeterminate", 12),
+        Kind("missing-claim", "No claim for some members", 13),
+        Kind("displacement-mismatch", "Claimed joint displacement differs", 2),
+    )
+}
 
 
 @dataclass(frozen=True)
@@ -93,9 +106,13 @@ class Finding:
     unexplained: int | None = None  # likely-cause: disagreeing claims in the same columns it leaves
     factor: float | None = None  # a fitted factor (load, combination, dimension scale)
     joints: tuple[str, ...] = ()  # joints the finding is about (loads moved, supports)
-    locations: tuple[str, ...] = ()  # where each claim concerned was written ("row 9, column 'dead'")
+    locations: tuple[
+        str, ...
+    ] = ()  # where each claim concerned was written ("row 9, column 'dead'")
     next_step: str | None = None  # the command that prints the hand calc for the members concerned
-    claimed: float | None = None  # one claim's value (case units, tension positive), where it applies
+    claimed: float | None = (
+        None  # one claim's value (case units, tension positive), where it applies
+    )
     recomputed: float | None = None  # the force it was compared with
 
     def __post_init__(self) -> None:
@@ -108,11 +125,23 @@ class Finding:
         return KINDS[self.kind].title
 
     def as_dict(self) -> dict[str, object]:
-        out: dict[str, object] = {"kind": str(self.kind), "members": list(self.members), "detail": self.detail,
-                                  "severity": self.severity.value}
+        out: dict[str, object] = {
+            "kind": str(self.kind),
+            "members": list(self.members),
+            "detail": self.detail,
+            "severity": self.severity.value,
+        }
         if self.case is not None:
             out["case"] = self.case
-        for key in ("variant", "explains", "unexplained", "factor", "next_step", "claimed", "recomputed"):
+        for key in (
+            "variant",
+            "explains",
+            "unexplained",
+            "factor",
+            "next_step",
+            "claimed",
+            "recomputed",
+        ):
             value = getattr(self, key)
             if value is not None:
                 out[key] = value
@@ -127,13 +156,13 @@ class Finding:
 # by `worded`; numbers arrive formatted, each with its unit.
 TEMPLATES: dict[str, str] = {
     "zero-force-claimed": "{member} in '{case}': claimed {claimed}, but it is a zero-force member under this loading "
-                          "[written {written}]",
+    "[written {written}]",
     "sign-flip": "{member} in '{case}': claimed {claimed} but recomputed {recomputed} ({sense}): {how} is reversed "
-                 "[written {written}]",
+    "[written {written}]",
     "unit-scale": "{member} in '{case}': claimed {claimed}, recomputed {recomputed}; the ratio {ratio} is a unit factor "
-                  "{factor}{reversed} [written {written}]",
+    "{factor}{reversed} [written {written}]",
     "value-mismatch": "{member} in '{case}': claimed {claimed}, recomputed {recomputed} (difference {difference}, "
-                      "{percent} %; allowed {allowed}) [written {written}]",
+    "{percent} %; allowed {allowed}) [written {written}]",
 }
 
 
@@ -147,4 +176,6 @@ def ordered(findings: list[Finding]) -> list[Finding]:
     many claims a finding explains."""
     level = {Severity.BLOCKER: 0, Severity.ERROR: 1, Severity.INFO: 2}
     # Within a kind, the finding that explains most claims first (causes: the biggest first).
-    return sorted(findings, key=lambda f: (level[f.severity], KINDS[f.kind].rank, -(f.explains or 0)))
+    return sorted(
+        findings, key=lambda f: (level[f.severity], KINDS[f.kind].rank, -(f.explains or 0))
+    )

@@ -32,8 +32,14 @@ class ImpliedLoad(NamedTuple):
         return tuple(i - c for i, c in zip(self.implied, self.load, strict=True))
 
     def as_dict(self) -> dict[str, object]:
-        return {"joint": self.joint, "case": self.case, "load": list(self.load), "implied": list(self.implied),
-                "difference": list(self.difference), "support": self.supported}
+        return {
+            "joint": self.joint,
+            "case": self.case,
+            "load": list(self.load),
+            "implied": list(self.implied),
+            "difference": list(self.difference),
+            "support": self.supported,
+        }
 
 
 class ImpliedLoads(NamedTuple):
@@ -49,8 +55,11 @@ class ImpliedLoads(NamedTuple):
         return out
 
 
-def implied_loads(model: Model, imbalances: list[JointImbalance] | tuple[JointImbalance, ...],
-                  checked: dict[str, int]) -> ImpliedLoads:
+def implied_loads(
+    model: Model,
+    imbalances: list[JointImbalance] | tuple[JointImbalance, ...],
+    checked: dict[str, int],
+) -> ImpliedLoads:
     F = model.load_matrix()
     d = model.dim
     names = model.load_names
@@ -58,10 +67,17 @@ def implied_loads(model: Model, imbalances: list[JointImbalance] | tuple[JointIm
     out = []
     for b in imbalances:
         j = model.joint_index[b.joint]
-        load = F[j * d:(j + 1) * d, names.index(b.case)]
+        load = F[j * d : (j + 1) * d, names.index(b.case)]
         implied = load - np.asarray(b.residual)
-        out.append(ImpliedLoad(b.joint, b.case, tuple(float(x) for x in load), tuple(float(x) for x in implied),
-                               b.joint in supported))
+        out.append(
+            ImpliedLoad(
+                b.joint,
+                b.case,
+                tuple(float(x) for x in load),
+                tuple(float(x) for x in implied),
+                b.joint in supported,
+            )
+        )
     connected = int((np.bincount(model.ends_index.ravel(), minlength=len(model.joints)) > 0).sum())
     undetermined = {name: connected - count for name, count in checked.items()}
     return ImpliedLoads(tuple(out), dict(checked), undetermined)

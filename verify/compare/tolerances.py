@@ -84,7 +84,9 @@ def significant_digits_many(values: np.ndarray) -> np.ndarray:
     for many non-zero finite values at once, read from 11-digit mantissas."""
     magnitude = np.floor(np.log10(np.abs(values)))
     mantissa = np.rint(np.abs(values) / 10.0 ** (magnitude - 10)).astype(np.int64)  # 11 digits
-    mantissa = np.where(mantissa >= 10**11, mantissa // 10, mantissa)  # rounded up to the next power
+    mantissa = np.where(
+        mantissa >= 10**11, mantissa // 10, mantissa
+    )  # rounded up to the next power
     digits = np.full(values.shape, 11, dtype=np.int64)
     for _ in range(10):
         trailing = mantissa % 10 == 0
@@ -110,13 +112,15 @@ def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) ->
     if not SIGNIFICANT_MIN <= figures <= SIGNIFICANT_MAX:
         return out
     magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
-    place = magnitude - (figures - 1)  # the place of the last significant figure: 140 at 2 figures -> 1
+    place = magnitude - (
+        figures - 1
+    )  # the place of the last significant figure: 140 at 2 figures -> 1
     widened = place > 0
     if widened.sum() < SIGNIFICANT_WIDENED_MIN:
         return out  # too few whole numbers past the figures to show the column was rounded so
     # A power of ten (100 at 2 figures) stands for 99.5 to 105; the symmetric allowance (+-5)
     # also admits 95 to 99.5, within the precision the column itself shows (150 covers +-3 %).
-    out[nonzero] = np.where(widened, 0.5 * 10.0 ** place, 0.0)
+    out[nonzero] = np.where(widened, 0.5 * 10.0**place, 0.0)
     return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
 
 

@@ -47,8 +47,19 @@ from verify.io.numbers import parse_number
 from verify.model import Combination, ExactValues, Joint, LoadCase, Member, Model, Reaction, Units
 from verify.units import Dimension, Unit, lookup_unit
 
-TOP_KEYS = ("title", "units", "joints", "members", "supports", "loads", "combinations", "stiffness", "notes",
-            "parameters", "chords")
+TOP_KEYS = (
+    "title",
+    "units",
+    "joints",
+    "members",
+    "supports",
+    "loads",
+    "combinations",
+    "stiffness",
+    "notes",
+    "parameters",
+    "chords",
+)
 UNIT_KEYS = ("length", "force", "area", "modulus")
 MEMBER_KEYS = ("ends", "EA", "A", "E")
 STIFFNESS_KEYS = ("EA", "A", "E")
@@ -57,8 +68,14 @@ AXES = ("x", "y", "z")
 # Area and modulus units for members given as A and E. Factors to m^2 and Pa.
 AREA_UNITS = {"m2": 1.0, "cm2": 1e-4, "mm2": 1e-6, "in2": 0.0254**2, "ft2": 0.3048**2}
 MODULUS_UNITS = {
-    "Pa": 1.0, "kPa": 1e3, "MPa": 1e6, "GPa": 1e9, "N/mm2": 1e6, "kN/m2": 1e3,
-    "psi": 4.4482216152605 / 0.0254**2, "ksi": 4448.2216152605 / 0.0254**2,
+    "Pa": 1.0,
+    "kPa": 1e3,
+    "MPa": 1e6,
+    "GPa": 1e9,
+    "N/mm2": 1e6,
+    "kN/m2": 1e3,
+    "psi": 4.4482216152605 / 0.0254**2,
+    "ksi": 4448.2216152605 / 0.0254**2,
 }
 
 # Coincident joints / zero lengths: relative to the model's extent (common practice: coordinates
@@ -100,7 +117,9 @@ class _Origins:
     def register(self, kind: str, file: str, ids: list[str]) -> None:
         self._tables.append((kind, file, ids))
 
-    def get(self, key: tuple[str, str], default: tuple[str, int] | None = None) -> tuple[str, int] | None:
+    def get(
+        self, key: tuple[str, str], default: tuple[str, int] | None = None
+    ) -> tuple[str, int] | None:
         if key not in self._known and self._tables:
             for kind, file, ids in self._tables:
                 for k, ident in enumerate(ids):
@@ -128,12 +147,18 @@ class _Ctx:
     # Ids declared even if their data failed to parse: references to them are not "undefined".
     declared_joints: set[str] = field(default_factory=set)
     bulk: _Bulk = field(default_factory=_Bulk)
-    needs_area_units: list[tuple[str, tuple[str, ...]]] = field(default_factory=list)  # (what, path)
-    joints_unreadable: bool = False  # the joints table could not be read: references to joints are not news
+    needs_area_units: list[tuple[str, tuple[str, ...]]] = field(
+        default_factory=list
+    )  # (what, path)
+    joints_unreadable: bool = (
+        False  # the joints table could not be read: references to joints are not news
+    )
     tables_outside: bool = False  # the user allowed tables outside the case's folder
     length_unit: str = ""  # symbols for messages, once [units] is read
     force_unit: str = ""
-    tables: dict[str, tuple[str, str] | None] = field(default_factory=dict)  # name -> (path, text), read once
+    tables: dict[str, tuple[str, str] | None] = field(
+        default_factory=dict
+    )  # name -> (path, text), read once
     parameters: dict[str, Value] = field(default_factory=dict)  # [parameters], in file order
     exact_left: int = EXACT_BUDGET
     exact_coords: dict[str, tuple[object, ...]] = field(default_factory=dict)
@@ -166,19 +191,39 @@ def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
         raise InputError([Problem(name, "file not found")]) from None
     except UnreadableFile as exc:
         raise InputError([Problem(name, str(exc))]) from None
-    if raw[:4] == b"PK\x03\x04" or raw[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" or path.suffix.lower() in (".csv", ".xlsx", ".xls"):
-        raise InputError([Problem(name, "this looks like a table (CSV or a spreadsheet), not a case file: the case is a "
-                                        "TOML file (title, [units], [joints], [members], [supports], [loads]; see the README); "
-                                        "a claimed-forces table goes after --claims")]) from None
+    if (
+        raw[:4] == b"PK\x03\x04"
+        or raw[:8] == b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
+        or path.suffix.lower() in (".csv", ".xlsx", ".xls")
+    ):
+        raise InputError(
+            [
+                Problem(
+                    name,
+                    "this looks like a table (CSV or a spreadsheet), not a case file: the case is a "
+                    "TOML file (title, [units], [joints], [members], [supports], [loads]; see the README); "
+                    "a claimed-forces table goes after --claims",
+                )
+            ]
+        ) from None
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise InputError([Problem(name, f"not UTF-8 text (byte {exc.start}); save the case file as UTF-8")]) from None
+        raise InputError(
+            [Problem(name, f"not UTF-8 text (byte {exc.start}); save the case file as UTF-8")]
+        ) from None
     try:
         data = tomllib.loads(text)
     except RecursionError:
-        raise InputError([Problem(name, "not a usable case file: values nested too deeply; a case needs "
-                                        "tables of arrays, at most two levels down")]) from None
+        raise InputError(
+            [
+                Problem(
+                    name,
+                    "not a usable case file: values nested too deeply; a case needs "
+                    "tables of arrays, at most two levels down",
+                )
+            ]
+        ) from None
     except tomllib.TOMLDecodeError as exc:
         found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
         line = int(found.group(1)) if found else None
@@ -186,27 +231,47 @@ def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
         column = f" (column {found.group(2)})" if found else ""
         raise InputError([Problem(name, f"not valid TOML{column}: {message}", line)]) from None
     except ValueError:  # tomllib converts integers itself; Python refuses more than 4300 digits
-        raise InputError([Problem(name, "not a usable case file: an integer with thousands of digits; "
-                                        "numbers in a case have at most 17 significant figures")]) from None
-    return build_model(data, source=name, text=text, base_dir=path.parent, tables_outside=tables_outside)
+        raise InputError(
+            [
+                Problem(
+                    name,
+                    "not a usable case file: an integer with thousands of digits; "
+                    "numbers in a case have at most 17 significant figures",
+                )
+            ]
+        ) from None
+    return build_model(
+        data, source=name, text=text, base_dir=path.parent, tables_outside=tables_outside
+    )
 
 
-def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "", base_dir: Path | None = None,
-                tables_outside: bool = False) -> Model:
+def build_model(
+    data: dict[str, Any],
+    *,
+    source: str = "<case>",
+    text: str = "",
+    base_dir: Path | None = None,
+    tables_outside: bool = False,
+) -> Model:
     """Validate parsed case data and freeze it into a Model."""
     ctx = _Ctx(source, LineLocator(text), ProblemList(source), tables_outside=tables_outside)
     base = base_dir or Path(".")
 
     for key in data:
         if key not in TOP_KEYS:
-            ctx.add(f"unknown key '{key}'; expected one of {', '.join(TOP_KEYS)}.{did_you_mean(key, TOP_KEYS)}", key)
+            ctx.add(
+                f"unknown key '{key}'; expected one of {', '.join(TOP_KEYS)}.{did_you_mean(key, TOP_KEYS)}",
+                key,
+            )
 
     title = data.get("title", "")
     if not isinstance(title, str):
         ctx.add("title must be a string", "title")
         title = str(title)
     elif has_controls(title):
-        ctx.add(f"title {shown(title)} holds a control character; write plain text on one line", "title")
+        ctx.add(
+            f"title {shown(title)} holds a control character; write plain text on one line", "title"
+        )
 
     units = _read_units(ctx, data.get("units"))
     if units is not None:
@@ -217,11 +282,16 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     joint_ids = {j.id for j in joints}
     area_unit, modulus_unit = _stiffness_units(ctx, data.get("units"))
     defaults = _read_stiffness_defaults(ctx, data.get("stiffness"), units, area_unit, modulus_unit)
-    members = _read_members(ctx, data.get("members"), base, joint_ids, units, area_unit, modulus_unit, defaults)
+    members = _read_members(
+        ctx, data.get("members"), base, joint_ids, units, area_unit, modulus_unit, defaults
+    )
     if ctx.needs_area_units:
         (what, path), more = ctx.needs_area_units[0], len(ctx.needs_area_units) - 1
-        ctx.add(f"{what}: A and E need [units] area (e.g. \"mm2\") and modulus (e.g. \"GPa\")"
-                + (f"; {more} more member{'s give' if more > 1 else ' gives'} A and E" if more else ""), *path)
+        ctx.add(
+            f'{what}: A and E need [units] area (e.g. "mm2") and modulus (e.g. "GPa")'
+            + (f"; {more} more member{'s give' if more > 1 else ' gives'} A and E" if more else ""),
+            *path,
+        )
     reactions = _read_supports(ctx, data.get("supports"), base, joint_ids, dim)
     geometry = _Geometry(joints, members, dim, units)
     chords = _read_chords(ctx, data.get("chords"), geometry)
@@ -237,36 +307,71 @@ def build_model(data: dict[str, Any], *, source: str = "<case>", text: str = "",
     for case in cases:
         for joint in case.loads:
             if joint in joint_ids and joint not in connected and members:
-                ctx.add(f"load case '{case.name}' loads joint '{joint}', which no member connects; a load there cannot reach the supports", "loads", case.name, joint)
+                ctx.add(
+                    f"load case '{case.name}' loads joint '{joint}', which no member connects; a load there cannot reach the supports",
+                    "loads",
+                    case.name,
+                    joint,
+                )
     for item in joints:
         if item.id not in connected and members:
-            ctx.add(f"joint '{item.id}' is not connected to any member; remove it or add its members", "joints", item.id)
+            ctx.add(
+                f"joint '{item.id}' is not connected to any member; remove it or add its members",
+                "joints",
+                item.id,
+            )
     ctx.problems.raise_if_any()
     assert units is not None and dim is not None
     bulk = ctx.bulk
     arrays = None
-    if bulk.xyz is not None and bulk.ends is not None and len(bulk.xyz) == len(joints) and len(bulk.ends) == len(members):
+    if (
+        bulk.xyz is not None
+        and bulk.ends is not None
+        and len(bulk.xyz) == len(joints)
+        and len(bulk.ends) == len(members)
+    ):
         arrays = (bulk.xyz, bulk.ends)
     tables = tuple(path for path, _ in (t for t in ctx.tables.values() if t is not None))
-    exact = ExactValues(dict(ctx.exact_coords), dict(ctx.exact_loads)) if ctx.exact_coords or ctx.exact_loads else None
+    exact = (
+        ExactValues(dict(ctx.exact_coords), dict(ctx.exact_loads))
+        if ctx.exact_coords or ctx.exact_loads
+        else None
+    )
     return Model(
-        title=title, units=units, dim=dim, joints=tuple(joints), members=tuple(members),
-        reactions=tuple(reactions), cases=tuple(cases), combinations=tuple(combos), source=source, arrays=arrays,
-        tables=tables, conversions=tuple(ctx.conversions), exact=exact,
+        title=title,
+        units=units,
+        dim=dim,
+        joints=tuple(joints),
+        members=tuple(members),
+        reactions=tuple(reactions),
+        cases=tuple(cases),
+        combinations=tuple(combos),
+        source=source,
+        arrays=arrays,
+        tables=tables,
+        conversions=tuple(ctx.conversions),
+        exact=exact,
     )
 
 
 # -- units --------------------------------------------------------------------------------------
 def _read_units(ctx: _Ctx, table: Any) -> Units | None:
     if table is None:
-        ctx.add("missing [units] table; declare length and force units, e.g. length = \"m\", force = \"kN\"", line=1)
+        ctx.add(
+            'missing [units] table; declare length and force units, e.g. length = "m", force = "kN"',
+            line=1,
+        )
         return None
     if not isinstance(table, dict):
         ctx.add("[units] must be a table with length and force", "units")
         return None
     for key in table:
         if key not in UNIT_KEYS:
-            ctx.add(f"unknown key '{key}' in [units]; expected {', '.join(UNIT_KEYS)}.{did_you_mean(key, UNIT_KEYS)}", "units", key)
+            ctx.add(
+                f"unknown key '{key}' in [units]; expected {', '.join(UNIT_KEYS)}.{did_you_mean(key, UNIT_KEYS)}",
+                "units",
+                key,
+            )
     found: dict[str, Unit] = {}
     for key, dimension in (("length", Dimension.LENGTH), ("force", Dimension.FORCE)):
         if key not in table:
@@ -292,8 +397,11 @@ def _stiffness_units(ctx: _Ctx, table: Any) -> tuple[float | None, float | None]
         elif isinstance(value, str) and value.replace("²", "2") in options:  # "mm²" is "mm2"
             result.append(options[value.replace("²", "2")])
         else:
-            ctx.add(f"units.{key}: unknown unit '{value}'; accepted: {', '.join(options)}.{did_you_mean(str(value), list(options))}",
-                    "units", key)
+            ctx.add(
+                f"units.{key}: unknown unit '{value}'; accepted: {', '.join(options)}.{did_you_mean(str(value), list(options))}",
+                "units",
+                key,
+            )
             result.append(None)
     return result[0], result[1]
 
@@ -314,8 +422,10 @@ def _table_text(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...]) -> tup
     problem: str | None = None
     text = ""
     if not ctx.tables_outside and not inside_folder(path, base):
-        problem = (f"{field_name} names the table {quoted(name)}, which is outside the case's folder {base}; "
-                   "tables stay beside the case file. Move it there, or pass --tables-anywhere")
+        problem = (
+            f"{field_name} names the table {quoted(name)}, which is outside the case's folder {base}; "
+            "tables stay beside the case file. Move it there, or pass --tables-anywhere"
+        )
     else:
         try:
             text = read_regular_file(path, limit=TABLE_MAX_BYTES).decode("utf-8-sig")
@@ -337,7 +447,9 @@ def _table_text(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...]) -> tup
     return ctx.tables[name]
 
 
-def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required: tuple[str, ...]) -> Iterator[tuple[str, int, dict[str, str]]]:
+def _csv_rows(
+    ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required: tuple[str, ...]
+) -> Iterator[tuple[str, int, dict[str, str]]]:
     """Yield (file, line, row) from a CSV table named in the case file; headers are lower-cased."""
     found = _table_text(ctx, base, name, where)
     if found is None:
@@ -351,12 +463,20 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
         try:
             header = [h.strip().lower() for h in next(reader)]
         except StopIteration:
-            ctx.problems.problems.append(Problem(file, "the table is empty; expected a header row", 1))
+            ctx.problems.problems.append(
+                Problem(file, "the table is empty; expected a header row", 1)
+            )
             return
         missing = [r for r in required if r not in header]
         if missing:
-            ctx.problems.problems.append(Problem(file, f"header lacks column(s) {', '.join(missing)}; found "
-                                                       f"{shown(', '.join(header), limit=120)}", 1))
+            ctx.problems.problems.append(
+                Problem(
+                    file,
+                    f"header lacks column(s) {', '.join(missing)}; found "
+                    f"{shown(', '.join(header), limit=120)}",
+                    1,
+                )
+            )
             if where == ("joints",):
                 ctx.joints_unreadable = True
             return
@@ -367,25 +487,45 @@ def _csv_rows(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required
                 continue
             rows += 1
             if len(row) != len(header):
-                ctx.problems.problems.append(Problem(file, f"row has {len(row)} fields, the header has {len(header)}", line))
+                ctx.problems.problems.append(
+                    Problem(file, f"row has {len(row)} fields, the header has {len(header)}", line)
+                )
                 continue
             yield file, line, {h: c.strip() for h, c in zip(header, row, strict=True)}
     except csv.Error as exc:  # an unclosed quote, a field beyond the csv module's size limit
-        ctx.problems.problems.append(Problem(file, f"not readable as CSV from here on ({exc}); a table has one "
-                                                   "row per line, fields separated by commas", reader.line_num))
+        ctx.problems.problems.append(
+            Problem(
+                file,
+                f"not readable as CSV from here on ({exc}); a table has one "
+                "row per line, fields separated by commas",
+                reader.line_num,
+            )
+        )
         if where == ("joints",):
             ctx.joints_unreadable = True
         return
     if not rows:
-        ctx.problems.problems.append(Problem(file, f"the table has a header ({shown(', '.join(header), limit=120)}) but no rows", 1))
+        ctx.problems.problems.append(
+            Problem(
+                file,
+                f"the table has a header ({shown(', '.join(header), limit=120)}) but no rows",
+                1,
+            )
+        )
 
 
 _PADDING = (" ,", ", ", " \n", "\n ", " \r", "\t")
 _ODD_CHARACTERS = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u2028\u2029]")
 
 
-def _clean_frame(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], required: tuple[str, ...],
-                 numeric: tuple[str, ...]) -> tuple[str, Any] | None:
+def _clean_frame(
+    ctx: _Ctx,
+    base: Path,
+    name: str,
+    where: tuple[str, ...],
+    required: tuple[str, ...],
+    numeric: tuple[str, ...],
+) -> tuple[str, Any] | None:
     """A CSV table read in bulk with pandas when it is clean, else None (the row-by-row reader
     then finds and words every problem). Clean means: the required columns, no blank or short
     rows, no required cell empty, and every cell of the `numeric` columns a finite number
@@ -404,7 +544,9 @@ def _clean_frame(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], requi
         # Numeric columns are parsed by pandas' C parser; anything it cannot read as a number
         # leaves the column as text, which sends the table to the careful reader below.
         as_text = {h: str for h, n in zip(header, names, strict=True) if n not in numeric}
-        frame = pd.read_csv(io.StringIO(text), dtype=as_text, keep_default_na=False, skip_blank_lines=False)
+        frame = pd.read_csv(
+            io.StringIO(text), dtype=as_text, keep_default_na=False, skip_blank_lines=False
+        )
     except Exception:  # noqa: BLE001 - any trouble: the careful reader explains it
         return None
     frame.columns = [str(c).strip().lower() for c in frame.columns]
@@ -414,8 +556,13 @@ def _clean_frame(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], requi
         return None  # rows longer than the header: pandas would take a column as the index
     if len(text.splitlines()) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
-    if (text.startswith((" ", "\t")) or text.endswith((" ", "\t")) or any(p in text for p in _PADDING)
-            or '"' in text or not text.isascii()):
+    if (
+        text.startswith((" ", "\t"))
+        or text.endswith((" ", "\t"))
+        or any(p in text for p in _PADDING)
+        or '"' in text
+        or not text.isascii()
+    ):
         # A padded cell somewhere (rare; inside quotes, or a no-break space from a spreadsheet):
         # strip the text columns as the careful reader does; numbers are read either way.
         for column in frame.columns:
@@ -436,8 +583,16 @@ def _clean_frame(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...], requi
     return path, frame
 
 
-def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None,
-            limit: float | None = None, unit: str = "") -> float | None:
+def _number(
+    ctx: _Ctx,
+    value: Any,
+    what: str,
+    *path: str,
+    file: str | None = None,
+    line: int | None = None,
+    limit: float | None = None,
+    unit: str = "",
+) -> float | None:
     """A finite number, within +-`limit` when given; else None with the problem said.
 
     Text in a TOML value (never a CSV cell: tables hold numbers) may be arithmetic; see
@@ -446,8 +601,17 @@ def _number(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = Non
     return None if found is None else found.number
 
 
-def _value(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None, line: int | None = None,
-           limit: float | None = None, unit: str = "", exact: bool = False) -> Value | None:
+def _value(
+    ctx: _Ctx,
+    value: Any,
+    what: str,
+    *path: str,
+    file: str | None = None,
+    line: int | None = None,
+    limit: float | None = None,
+    unit: str = "",
+    exact: bool = False,
+) -> Value | None:
     """`_number` with the exact value beside the float: for arithmetic where it is rational or a
     surd, and for plain numbers when `exact` (the decimal as written), while the budget lasts."""
     result: Value | None = None
@@ -460,8 +624,10 @@ def _value(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None
                 result = evaluate(value, ctx.parameters, exact=ctx.exact_left > 0)
                 ctx.exact_left -= 1
             except ExpressionError as why:
-                message = (f"{what}: {quoted(value)} is not a number; expected a finite number or arithmetic "
-                           f"({why})")
+                message = (
+                    f"{what}: {quoted(value)} is not a number; expected a finite number or arithmetic "
+                    f"({why})"
+                )
     else:
         exact_value = None
         if exact and ctx.exact_left > 0:
@@ -473,8 +639,10 @@ def _value(ctx: _Ctx, value: Any, what: str, *path: str, file: str | None = None
     if result is not None:
         if limit is None or abs(result.number) <= limit:
             return result
-        message = (f"{what}: {result.number:g} is beyond the sane range of +-{limit:g}{' ' + unit if unit else ''}; "
-                   "check the units (or a slipped exponent)")
+        message = (
+            f"{what}: {result.number:g} is beyond the sane range of +-{limit:g}{' ' + unit if unit else ''}; "
+            "check the units (or a slipped exponent)"
+        )
     _say(ctx, message, path, file, line)
     return None
 
@@ -485,23 +653,33 @@ def _read_parameters(ctx: _Ctx, table: Any) -> None:
     if table is None:
         return
     if not isinstance(table, dict):
-        ctx.add("[parameters] must be a table of names, e.g. span = 24.0, panel = \"span / 6\"", "parameters")
+        ctx.add(
+            '[parameters] must be a table of names, e.g. span = 24.0, panel = "span / 6"',
+            "parameters",
+        )
         return
     if len(table) > PARAMETERS_MAX:
         ctx.add(f"[parameters] holds {len(table)} names; at most {PARAMETERS_MAX}", "parameters")
         return
     for name, value in table.items():
         if not (name.isidentifier() and name.isascii()) or name in RESERVED:
-            rule = (f"is a reserved word ({', '.join(RESERVED)})" if name in RESERVED
-                    else "is not a plain name (letters, digits and _, not starting with a digit)")
+            rule = (
+                f"is a reserved word ({', '.join(RESERVED)})"
+                if name in RESERVED
+                else "is not a plain name (letters, digits and _, not starting with a digit)"
+            )
             ctx.add(f"parameter {quoted(name)} {rule}", "parameters", name)
             continue
-        found = _value(ctx, value, f"parameter '{name}'", "parameters", name, limit=EA_LIMIT, exact=True)
+        found = _value(
+            ctx, value, f"parameter '{name}'", "parameters", name, limit=EA_LIMIT, exact=True
+        )
         if found is not None:
             ctx.parameters[name] = found
 
 
-def _label(ctx: _Ctx, label: str, what: str, *path: str, file: str | None = None, line: int | None = None) -> bool:
+def _label(
+    ctx: _Ctx, label: str, what: str, *path: str, file: str | None = None, line: int | None = None
+) -> bool:
     """Whether `label` can name a joint, member or load column: not empty, one line of plain text,
     short enough to read in a table column. Says why not."""
     if not label.strip():
@@ -512,7 +690,13 @@ def _label(ctx: _Ctx, label: str, what: str, *path: str, file: str | None = None
         rule = f"is {len(label)} characters long; at most {LABEL_MAX_CHARS}"
     else:
         return True
-    _say(ctx, f"{what} {quoted(label)} {rule}" if label.strip() else f"{what} {rule}", path, file, line)
+    _say(
+        ctx,
+        f"{what} {quoted(label)} {rule}" if label.strip() else f"{what} {rule}",
+        path,
+        file,
+        line,
+    )
     return False
 
 
@@ -540,18 +724,32 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
             if not _label(ctx, jid, "joint id", file=file, line=line):
                 continue
             if jid in seen:
-                ctx.problems.problems.append(Problem(file, f"duplicate joint id '{jid}' (first on line {seen[jid]})", line))
+                ctx.problems.problems.append(
+                    Problem(file, f"duplicate joint id '{jid}' (first on line {seen[jid]})", line)
+                )
                 continue
             seen[jid] = line
             ctx.declared_joints.add(jid)
             ctx.origins[("joint", jid)] = (file, line)
             axes = ("x", "y", "z") if row.get("z", "") != "" else ("x", "y")
-            coords = [_number(ctx, row[a], f"joint '{jid}' {a}", file=file, line=line, limit=COORDINATE_LIMIT,
-                              unit=ctx.length_unit) for a in axes]
+            coords = [
+                _number(
+                    ctx,
+                    row[a],
+                    f"joint '{jid}' {a}",
+                    file=file,
+                    line=line,
+                    limit=COORDINATE_LIMIT,
+                    unit=ctx.length_unit,
+                )
+                for a in axes
+            ]
             if all(c is not None for c in coords):
                 joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
         if not joints and len(ctx.problems.problems) > said:
-            ctx.joints_unreadable = True  # nothing usable, and the table's own problems say why: spare the echoes
+            ctx.joints_unreadable = (
+                True  # nothing usable, and the table's own problems say why: spare the echoes
+            )
         return joints
     if not isinstance(table, dict):
         ctx.add("[joints] must be a table (id = [x, y]) or the name of a CSV file", "joints")
@@ -561,14 +759,30 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
         if not _label(ctx, jid, "joint id", "joints", jid):
             continue
         if not isinstance(value, list) or len(value) not in (2, 3):
-            ctx.add(f"joint '{jid}': expected [x, y] or [x, y, z], got {shown(value)}", "joints", jid)
+            ctx.add(
+                f"joint '{jid}': expected [x, y] or [x, y, z], got {shown(value)}", "joints", jid
+            )
             continue
-        values = [_value(ctx, v, f"joint '{jid}' coordinate {k + 1}", "joints", jid, limit=COORDINATE_LIMIT,
-                         unit=ctx.length_unit) for k, v in enumerate(value)]
-        if all(v is not None for v in values):
-            joints.append(Joint(str(jid), tuple(v.number for v in values)))  # type: ignore[union-attr]
-            if any(isinstance(raw, str) and v.exact is not None for raw, v in zip(value, values, strict=True)):  # type: ignore[union-attr]
-                ctx.exact_coords[str(jid)] = tuple(v.exact for v in values)  # type: ignore[union-attr]
+        values = [
+            _value(
+                ctx,
+                v,
+                f"joint '{jid}' coordinate {k + 1}",
+                "joints",
+                jid,
+                limit=COORDINATE_LIMIT,
+                unit=ctx.length_unit,
+            )
+            for k, v in enumerate(value)
+        ]
+        known = [v for v in values if v is not None]
+        if len(known) == len(values):
+            joints.append(Joint(str(jid), tuple(v.number for v in known)))
+            if any(
+                isinstance(raw, str) and v.exact is not None
+                for raw, v in zip(value, known, strict=True)
+            ):
+                ctx.exact_coords[str(jid)] = tuple(v.exact for v in known)
     return joints
 
 
@@ -616,14 +830,28 @@ def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
     three = [j.id for j in joints if len(j.coords) == 3]
     minority = two if len(two) <= len(three) else three
     for jid in minority[:10]:
-        ctx.add_at("joint", jid, f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have {'3' if jid in two else '2'}; a model is all 2D or all 3D", "joints", jid)
+        ctx.add_at(
+            "joint",
+            jid,
+            f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have {'3' if jid in two else '2'}; a model is all 2D or all 3D",
+            "joints",
+            jid,
+        )
     return 3 if len(three) >= len(two) else 2
 
 
 # -- members ------------------------------------------------------------------------------------
-def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str, file: str | None = None, line: int | None = None) -> str | None:
+def _joint_ref(
+    ctx: _Ctx,
+    value: Any,
+    joint_ids: set[str],
+    what: str,
+    *path: str,
+    file: str | None = None,
+    line: int | None = None,
+) -> str | None:
     if isinstance(value, bool) or isinstance(value, float):
-        message = f"{what}: joint id {value!r} must be written as a string, e.g. \"{value}\""
+        message = f'{what}: joint id {value!r} must be written as a string, e.g. "{value}"'
     elif isinstance(value, (str, int)):
         jid = str(value)
         if jid in joint_ids:
@@ -640,7 +868,9 @@ def _joint_ref(ctx: _Ctx, value: Any, joint_ids: set[str], what: str, *path: str
     return None
 
 
-def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None) -> list[Member] | None:
+def _fast_members(
+    ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None
+) -> list[Member] | None:
     import pandas as pd
 
     found = _clean_frame(ctx, base, name, ("members",), ("id", "start", "end"), ())
@@ -652,7 +882,9 @@ def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default
     ends = None
     if ctx.bulk.joint_ids is not None and len(ctx.bulk.joint_ids) == len(joint_ids):
         position = pd.Index(ctx.bulk.joint_ids)
-        ends = np.column_stack([position.get_indexer(frame["start"]), position.get_indexer(frame["end"])])
+        ends = np.column_stack(
+            [position.get_indexer(frame["start"]), position.get_indexer(frame["end"])]
+        )
         if (ends < 0).any():
             return None
     elif not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
@@ -673,9 +905,20 @@ def _fast_members(ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default
     return list(map(Member._make, zip(ids, starts, stops, eas, strict=True)))
 
 
-def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, area_unit: float | None, modulus_unit: float | None, *path: str) -> float | None:
+def _ea_from(
+    ctx: _Ctx,
+    spec: dict[str, Any],
+    what: str,
+    units: Units | None,
+    area_unit: float | None,
+    modulus_unit: float | None,
+    *path: str,
+) -> float | None:
     if "EA" in spec and ("A" in spec or "E" in spec):
-        ctx.add(f"{what}: give EA, or A and E, not both (they may disagree: which one did the calc use?)", *path)
+        ctx.add(
+            f"{what}: give EA, or A and E, not both (they may disagree: which one did the calc use?)",
+            *path,
+        )
         return None
     if "EA" in spec:
         ea = _number(ctx, spec["EA"], f"{what} EA", *path, limit=EA_LIMIT, unit=ctx.force_unit)
@@ -700,25 +943,46 @@ def _ea_from(ctx: _Ctx, spec: dict[str, Any], what: str, units: Units | None, ar
             return None
         ea = a * area_unit * e * modulus_unit / units.force.to_si
         if not ea <= EA_LIMIT:
-            ctx.add(f"{what}: A x E = {ea:g} {units.force.symbol} is beyond the sane range of {EA_LIMIT:g}; check the units", *path)
+            ctx.add(
+                f"{what}: A x E = {ea:g} {units.force.symbol} is beyond the sane range of {EA_LIMIT:g}; check the units",
+                *path,
+            )
             return None
         return ea
     return None
 
 
-def _read_stiffness_defaults(ctx: _Ctx, table: Any, units: Units | None, area_unit: float | None, modulus_unit: float | None) -> float | None:
+def _read_stiffness_defaults(
+    ctx: _Ctx, table: Any, units: Units | None, area_unit: float | None, modulus_unit: float | None
+) -> float | None:
     if table is None:
         return None
     if not isinstance(table, dict):
-        ctx.add("[stiffness] must be a table with EA, or A and E, applied to members without their own", "stiffness")
+        ctx.add(
+            "[stiffness] must be a table with EA, or A and E, applied to members without their own",
+            "stiffness",
+        )
         return None
     for key in table:
         if key not in STIFFNESS_KEYS:
-            ctx.add(f"unknown key '{key}' in [stiffness]; expected EA, or A and E.{did_you_mean(key, STIFFNESS_KEYS)}", "stiffness", key)
+            ctx.add(
+                f"unknown key '{key}' in [stiffness]; expected EA, or A and E.{did_you_mean(key, STIFFNESS_KEYS)}",
+                "stiffness",
+                key,
+            )
     return _ea_from(ctx, table, "[stiffness]", units, area_unit, modulus_unit, "stiffness")
 
 
-def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units: Units | None, area_unit: float | None, modulus_unit: float | None, default_ea: float | None) -> list[Member]:
+def _read_members(
+    ctx: _Ctx,
+    table: Any,
+    base: Path,
+    joint_ids: set[str],
+    units: Units | None,
+    area_unit: float | None,
+    modulus_unit: float | None,
+    default_ea: float | None,
+) -> list[Member]:
     members: list[Member] = []
     if table is None:
         return members
@@ -732,23 +996,41 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
             if not _label(ctx, mid, "member id", file=file, line=line):
                 continue
             if mid in seen:
-                ctx.problems.problems.append(Problem(file, f"duplicate member id '{mid}' (first on line {seen[mid]})", line))
+                ctx.problems.problems.append(
+                    Problem(file, f"duplicate member id '{mid}' (first on line {seen[mid]})", line)
+                )
                 continue
             seen[mid] = line
             ctx.origins[("member", mid)] = (file, line)
-            start = _joint_ref(ctx, row["start"], joint_ids, f"member '{mid}' start", file=file, line=line)
-            end = _joint_ref(ctx, row["end"], joint_ids, f"member '{mid}' end", file=file, line=line)
+            start = _joint_ref(
+                ctx, row["start"], joint_ids, f"member '{mid}' start", file=file, line=line
+            )
+            end = _joint_ref(
+                ctx, row["end"], joint_ids, f"member '{mid}' end", file=file, line=line
+            )
             ea: float | None = default_ea
             if row.get("ea"):
-                ea = _number(ctx, row["ea"], f"member '{mid}' EA", file=file, line=line, limit=EA_LIMIT, unit=ctx.force_unit)
+                ea = _number(
+                    ctx,
+                    row["ea"],
+                    f"member '{mid}' EA",
+                    file=file,
+                    line=line,
+                    limit=EA_LIMIT,
+                    unit=ctx.force_unit,
+                )
                 if ea is not None and ea <= 0:
-                    ctx.problems.problems.append(Problem(file, f"member '{mid}': EA must be positive, got {ea}", line))
+                    ctx.problems.problems.append(
+                        Problem(file, f"member '{mid}': EA must be positive, got {ea}", line)
+                    )
                     ea = None
             if start and end:
                 members.append(Member(mid, start, end, ea))
         return members
     if not isinstance(table, dict):
-        ctx.add("[members] must be a table (id = [joint, joint]) or the name of a CSV file", "members")
+        ctx.add(
+            "[members] must be a table (id = [joint, joint]) or the name of a CSV file", "members"
+        )
         return members
     for mid, value in table.items():
         what = f"member '{mid}'"
@@ -758,14 +1040,22 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
         if isinstance(value, dict):
             for key in value:
                 if key not in MEMBER_KEYS:
-                    ctx.add(f"{what}: unknown key '{key}'; expected {', '.join(MEMBER_KEYS)}.{did_you_mean(key, MEMBER_KEYS)}", "members", mid)
+                    ctx.add(
+                        f"{what}: unknown key '{key}'; expected {', '.join(MEMBER_KEYS)}.{did_you_mean(key, MEMBER_KEYS)}",
+                        "members",
+                        mid,
+                    )
             own = _ea_from(ctx, value, what, units, area_unit, modulus_unit, "members", mid)
             ea = own if own is not None else default_ea
             ends = value.get("ends")
         else:
             ends = value
         if not isinstance(ends, list) or len(ends) != 2:
-            ctx.add(f"{what}: expected two joint ids, e.g. [\"A\", \"B\"], got {shown(ends)}", "members", mid)
+            ctx.add(
+                f'{what}: expected two joint ids, e.g. ["A", "B"], got {shown(ends)}',
+                "members",
+                mid,
+            )
             continue
         start = _joint_ref(ctx, ends[0], joint_ids, what, "members", mid)
         end = _joint_ref(ctx, ends[1], joint_ids, what, "members", mid)
@@ -775,13 +1065,17 @@ def _read_members(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], units:
 
 
 # -- supports -----------------------------------------------------------------------------------
-def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None) -> list[Reaction]:
+def _read_supports(
+    ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None
+) -> list[Reaction]:
     reactions: list[Reaction] = []
     if table is None:
-        ctx.add("missing [supports] table; a truss needs supports (e.g. A = [\"x\", \"y\"])", line=1)
+        ctx.add('missing [supports] table; a truss needs supports (e.g. A = ["x", "y"])', line=1)
         return reactions
     axes = AXES[: dim or 3]
-    entries: list[tuple[str, Any, tuple[str, ...], str | None, int | None]] = []  # joint, spec, path, file, line
+    entries: list[
+        tuple[str, Any, tuple[str, ...], str | None, int | None]
+    ] = []  # joint, spec, path, file, line
     if isinstance(table, str):
         for csv_file, csv_line, row in _csv_rows(ctx, base, table, ("supports",), ("joint",)):
             if row.get("directions", "").strip().lower() in SUPPORT_WORDS:
@@ -794,7 +1088,9 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
     elif isinstance(table, dict):
         entries = [(str(k), v, ("supports", str(k)), None, None) for k, v in table.items()]
     else:
-        ctx.add("[supports] must be a table (joint = [\"x\", \"y\"]) or the name of a CSV file", "supports")
+        ctx.add(
+            '[supports] must be a table (joint = ["x", "y"]) or the name of a CSV file', "supports"
+        )
         return reactions
     for jid, spec, path, file, line in entries:
         if _joint_ref(ctx, jid, joint_ids, "support", *path, file=file, line=line) is None:
@@ -805,9 +1101,21 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
                 if isinstance(axis, str) and axis.strip().lower() in axes:
                     axis = axis.strip().lower()  # "Y" and " y" name the y axis too
                 if axis not in axes:
-                    _say(ctx, f"support at '{jid}': direction {quoted(axis)} is not one of {', '.join(axes)}", path, file, line)
+                    _say(
+                        ctx,
+                        f"support at '{jid}': direction {quoted(axis)} is not one of {', '.join(axes)}",
+                        path,
+                        file,
+                        line,
+                    )
                 elif axis in seen:
-                    _say(ctx, f"support at '{jid}': direction '{axis}' is listed twice", path, file, line)
+                    _say(
+                        ctx,
+                        f"support at '{jid}': direction '{axis}' is listed twice",
+                        path,
+                        file,
+                        line,
+                    )
                 else:
                     seen.add(axis)
                     vec = tuple(1.0 if a == axis else 0.0 for a in axes)
@@ -819,13 +1127,27 @@ def _read_supports(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: 
         elif isinstance(spec, dict):
             for key in spec:
                 if key != "direction":
-                    _say(ctx, f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes, "
-                              "or type = \"pinned\" / \"roller\"", path, file, line)
-            found = _reaction_along(ctx, jid, spec.get("direction"), "direction", dim, axes, path, file, line)
+                    _say(
+                        ctx,
+                        f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes, "
+                        'or type = "pinned" / "roller"',
+                        path,
+                        file,
+                        line,
+                    )
+            found = _reaction_along(
+                ctx, jid, spec.get("direction"), "direction", dim, axes, path, file, line
+            )
             if found is not None:
                 reactions.append(found)
         else:
-            _say(ctx, f"support at '{jid}': expected a list of restrained axes (e.g. [\"x\", \"y\"]) or {{ direction = [...] }}, got {shown(spec)}", path, file, line)
+            _say(
+                ctx,
+                f'support at \'{jid}\': expected a list of restrained axes (e.g. ["x", "y"]) or {{ direction = [...] }}, got {shown(spec)}',
+                path,
+                file,
+                line,
+            )
     return reactions
 
 
@@ -833,8 +1155,16 @@ SUPPORT_WORDS = ("pinned", "roller")
 ROLLER_KEYS = ("type", "normal", "rolls", "direction")
 
 
-def _support_by_word(ctx: _Ctx, jid: str, spec: Any, axes: tuple[str, ...], dim: int | None,
-                     path: tuple[str, ...], file: str | None, line: int | None) -> list[Reaction]:
+def _support_by_word(
+    ctx: _Ctx,
+    jid: str,
+    spec: Any,
+    axes: tuple[str, ...],
+    dim: int | None,
+    path: tuple[str, ...],
+    file: str | None,
+    line: int | None,
+) -> list[Reaction]:
     """`"pinned"` (every direction), `"roller"` (level: the vertical, y in 2D and z in 3D), or
     { type = "roller", normal = [...] } (reaction along the surface normal), rolls = [...] (2D:
     the direction it rolls in; the reaction is square to it), direction = [...] (as normal)."""
@@ -843,22 +1173,44 @@ def _support_by_word(ctx: _Ctx, jid: str, spec: Any, axes: tuple[str, ...], dim:
     kind = word.strip().lower() if isinstance(word, str) else None
     if kind not in SUPPORT_WORDS:
         hint = did_you_mean(str(word), SUPPORT_WORDS) if isinstance(word, str) else ""
-        _say(ctx, f"support at '{jid}': {quoted(word)} is not a support type; expected \"pinned\" or \"roller\" "
-                  f"(or a list of restrained axes).{hint}", path, file, line)
+        _say(
+            ctx,
+            f'support at \'{jid}\': {quoted(word)} is not a support type; expected "pinned" or "roller" '
+            f"(or a list of restrained axes).{hint}",
+            path,
+            file,
+            line,
+        )
         return []
     unknown = [k for k in options if k not in ROLLER_KEYS]
     for key in unknown:
-        _say(ctx, f"support at '{jid}': unknown key '{key}'; expected {', '.join(ROLLER_KEYS)}.{did_you_mean(key, ROLLER_KEYS)}",
-             path, file, line)
+        _say(
+            ctx,
+            f"support at '{jid}': unknown key '{key}'; expected {', '.join(ROLLER_KEYS)}.{did_you_mean(key, ROLLER_KEYS)}",
+            path,
+            file,
+            line,
+        )
     given = [k for k in ("normal", "rolls", "direction") if k in options]
     if kind == "pinned":
         if given:
-            _say(ctx, f"support at '{jid}': a pinned support restrains every direction; '{given[0]}' belongs to a roller",
-                 path, file, line)
+            _say(
+                ctx,
+                f"support at '{jid}': a pinned support restrains every direction; '{given[0]}' belongs to a roller",
+                path,
+                file,
+                line,
+            )
             return []
         return [Reaction(jid, tuple(1.0 if a == b else 0.0 for b in axes), a) for a in axes]
     if len(given) > 1:
-        _say(ctx, f"support at '{jid}': give one of normal, rolls, direction, not {' and '.join(given)}", path, file, line)
+        _say(
+            ctx,
+            f"support at '{jid}': give one of normal, rolls, direction, not {' and '.join(given)}",
+            path,
+            file,
+            line,
+        )
         return []
     if not given:
         vertical = axes[-1]
@@ -866,8 +1218,14 @@ def _support_by_word(ctx: _Ctx, jid: str, spec: Any, axes: tuple[str, ...], dim:
     key = given[0]
     if key == "rolls":
         if dim == 3:
-            _say(ctx, f"support at '{jid}': 'rolls' names the one direction a 2D roller moves in; in 3D give the "
-                      "surface normal (normal = [...]) or the restrained axes", path, file, line)
+            _say(
+                ctx,
+                f"support at '{jid}': 'rolls' names the one direction a 2D roller moves in; in 3D give the "
+                "surface normal (normal = [...]) or the restrained axes",
+                path,
+                file,
+                line,
+            )
             return []
         along = _reaction_along(ctx, jid, options["rolls"], "rolls", dim, axes, path, file, line)
         if along is None:
@@ -881,13 +1239,30 @@ def _support_by_word(ctx: _Ctx, jid: str, spec: Any, axes: tuple[str, ...], dim:
     return [found] if found is not None else []
 
 
-def _reaction_along(ctx: _Ctx, jid: str, vec_raw: Any, key: str, dim: int | None, axes: tuple[str, ...],
-                    path: tuple[str, ...], file: str | None, line: int | None) -> Reaction | None:
+def _reaction_along(
+    ctx: _Ctx,
+    jid: str,
+    vec_raw: Any,
+    key: str,
+    dim: int | None,
+    axes: tuple[str, ...],
+    path: tuple[str, ...],
+    file: str | None,
+    line: int | None,
+) -> Reaction | None:
     """A reaction along the stated vector (normalised); a global axis keeps its name x/y/z."""
     if not isinstance(vec_raw, list) or (dim and len(vec_raw) != dim):
-        _say(ctx, f"support at '{jid}': {key} must be a list of {dim or '2 or 3'} numbers, got {shown(vec_raw)}", path, file, line)
+        _say(
+            ctx,
+            f"support at '{jid}': {key} must be a list of {dim or '2 or 3'} numbers, got {shown(vec_raw)}",
+            path,
+            file,
+            line,
+        )
         return None
-    nums = [_number(ctx, v, f"support at '{jid}' {key}", *path, file=file, line=line) for v in vec_raw]
+    nums = [
+        _number(ctx, v, f"support at '{jid}' {key}", *path, file=file, line=line) for v in vec_raw
+    ]
     if any(v is None for v in nums):
         return None
     arr = np.array(nums, dtype=float)
@@ -904,7 +1279,9 @@ def _reaction_along(ctx: _Ctx, jid: str, vec_raw: Any, key: str, dim: int | None
     return Reaction(jid, tuple(float(v) for v in unit), along[0] if along else "n")
 
 
-def _say(ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line: int | None) -> None:
+def _say(
+    ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line: int | None
+) -> None:
     if file is not None and file != ctx.file:
         ctx.problems.problems.append(Problem(file, message, line))
     else:
@@ -912,17 +1289,39 @@ def _say(ctx: _Ctx, message: str, path: tuple[str, ...], file: str | None, line:
 
 
 # -- loads --------------------------------------------------------------------------------------
-def _vector(ctx: _Ctx, value: Any, dim: int | None, what: str, path: tuple[str, ...], file: str | None = None,
-            line: int | None = None, exact_key: tuple[str, str] | None = None) -> tuple[float, ...] | None:
+def _vector(
+    ctx: _Ctx,
+    value: Any,
+    dim: int | None,
+    what: str,
+    path: tuple[str, ...],
+    file: str | None = None,
+    line: int | None = None,
+    exact_key: tuple[str, str] | None = None,
+) -> tuple[float, ...] | None:
     if not isinstance(value, list) or (dim is not None and len(value) != dim):
-        _say(ctx, f"{what}: expected a force vector of {dim or '2 or 3'} numbers, got {shown(value)}", path, file, line)
+        _say(
+            ctx,
+            f"{what}: expected a force vector of {dim or '2 or 3'} numbers, got {shown(value)}",
+            path,
+            file,
+            line,
+        )
         return None
-    nums = [_value(ctx, v, what, *path, file=file, line=line, limit=LOAD_LIMIT, unit=ctx.force_unit) for v in value]
-    if any(v is None for v in nums):
+    nums = [
+        _value(ctx, v, what, *path, file=file, line=line, limit=LOAD_LIMIT, unit=ctx.force_unit)
+        for v in value
+    ]
+    known = [v for v in nums if v is not None]
+    if len(known) < len(nums):
         return None
-    if exact_key is not None and any(isinstance(raw, str) and v.exact is not None for raw, v in zip(value, nums, strict=True)):  # type: ignore[union-attr]
-        ctx.exact_loads[exact_key] = tuple(v.exact if v.exact is not None else _rational(v.number) for v in nums)  # type: ignore[union-attr]
-    return tuple(v.number for v in nums)  # type: ignore[union-attr]
+    if exact_key is not None and any(
+        isinstance(raw, str) and v.exact is not None for raw, v in zip(value, known, strict=True)
+    ):
+        ctx.exact_loads[exact_key] = tuple(
+            v.exact if v.exact is not None else _rational(v.number) for v in known
+        )
+    return tuple(v.number for v in known)
 
 
 def _rational(number: float) -> Any:
@@ -935,7 +1334,9 @@ def _rational(number: float) -> Any:
 class _Geometry:
     """Lookups the stated load forms need: coordinates, members, units."""
 
-    def __init__(self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None) -> None:
+    def __init__(
+        self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None
+    ) -> None:
         self.coords = {j.id: j.coords for j in joints}
         self.members = {m.id: m for m in members if m.start in self.coords and m.end in self.coords}
         self.pairs = {frozenset((m.start, m.end)): m.id for m in self.members.values()}
@@ -961,11 +1362,17 @@ class _Converted:
         self.exact: dict[str, tuple[Any, ...] | None] = {}
         self.paths: dict[str, tuple[str, ...]] = {}
 
-    def add(self, jid: str, vector: np.ndarray, exact: tuple[Any, ...] | None, path: tuple[str, ...]) -> None:
+    def add(
+        self, jid: str, vector: np.ndarray, exact: tuple[Any, ...] | None, path: tuple[str, ...]
+    ) -> None:
         if jid in self.loads:
             self.loads[jid] = self.loads[jid] + vector
             before = self.exact.get(jid)
-            self.exact[jid] = tuple(a + b for a, b in zip(before, exact, strict=True)) if before and exact else None
+            self.exact[jid] = (
+                tuple(a + b for a, b in zip(before, exact, strict=True))
+                if before and exact
+                else None
+            )
         else:
             self.loads[jid], self.exact[jid] = np.asarray(vector, dtype=float), exact
         self.paths.setdefault(jid, path)
@@ -983,8 +1390,11 @@ class _Converted:
             else:
                 total, exact = vector, self.exact[jid]
             if not (np.isfinite(total).all() and _within(total, LOAD_LIMIT)):
-                ctx.add(f"load case '{case}' at joint '{jid}': the loads stated there add up to {describe_vector(total)}, "
-                        f"beyond the sane range of +-{LOAD_LIMIT:g} {ctx.force_unit}; check the units", *self.paths[jid])
+                ctx.add(
+                    f"load case '{case}' at joint '{jid}': the loads stated there add up to {describe_vector(total)}, "
+                    f"beyond the sane range of +-{LOAD_LIMIT:g} {ctx.force_unit}; check the units",
+                    *self.paths[jid],
+                )
                 continue
             loads[jid] = tuple(float(v) for v in total)
             if exact is not None:
@@ -997,13 +1407,24 @@ def _read_chords(ctx: _Ctx, table: Any, geometry: _Geometry) -> dict[str, list[s
     if table is None:
         return chords
     if not isinstance(table, dict):
-        ctx.add("[chords] must name chords by their joints in order, e.g. top = [\"L0\", \"U1\", \"U2\"]", "chords")
+        ctx.add(
+            '[chords] must name chords by their joints in order, e.g. top = ["L0", "U1", "U2"]',
+            "chords",
+        )
         return chords
     for name, joints in table.items():
         if not _label(ctx, name, "chord name", "chords", name):
             continue
-        if not isinstance(joints, list) or len(joints) < 2 or not all(isinstance(j, str) for j in joints):
-            ctx.add(f"chord '{name}': expected the joint ids along it in order (at least two), got {shown(joints)}", "chords", name)
+        if (
+            not isinstance(joints, list)
+            or len(joints) < 2
+            or not all(isinstance(j, str) for j in joints)
+        ):
+            ctx.add(
+                f"chord '{name}': expected the joint ids along it in order (at least two), got {shown(joints)}",
+                "chords",
+                name,
+            )
             continue
         members: list[str] = []
         for a, b in zip(joints, joints[1:], strict=False):
@@ -1011,10 +1432,18 @@ def _read_chords(ctx: _Ctx, table: Any, geometry: _Geometry) -> dict[str, list[s
             if found is None:
                 missing = [j for j in (a, b) if j not in geometry.coords]
                 if missing and not ctx.joints_unreadable:
-                    ctx.add(f"chord '{name}' names joint '{shown(missing[0])}', which is not defined."
-                            f"{did_you_mean(missing[0], geometry.coords)}", "chords", name)
+                    ctx.add(
+                        f"chord '{name}' names joint '{shown(missing[0])}', which is not defined."
+                        f"{did_you_mean(missing[0], geometry.coords)}",
+                        "chords",
+                        name,
+                    )
                 elif not missing:
-                    ctx.add(f"chord '{name}': no member joins '{a}' and '{b}'; a chord runs along members, joint to joint", "chords", name)
+                    ctx.add(
+                        f"chord '{name}': no member joins '{a}' and '{b}'; a chord runs along members, joint to joint",
+                        "chords",
+                        name,
+                    )
                 members = []
                 break
             members.append(found)
@@ -1024,7 +1453,9 @@ def _read_chords(ctx: _Ctx, table: Any, geometry: _Geometry) -> dict[str, list[s
 
 
 def _is_form(value: Any) -> bool:
-    return isinstance(value, dict) or (isinstance(value, list) and bool(value) and all(isinstance(v, dict) for v in value))
+    return isinstance(value, dict) or (
+        isinstance(value, list) and bool(value) and all(isinstance(v, dict) for v in value)
+    )
 
 
 def _note(ctx: _Ctx, path: tuple[str, ...], text: str, loads: dict[str, Any]) -> None:
@@ -1036,9 +1467,13 @@ def _note(ctx: _Ctx, path: tuple[str, ...], text: str, loads: dict[str, Any]) ->
     ctx.conversions.append(f"{where}: {text} -> joint loads {shown_loads}{more}")
 
 
-def _unit_vector(ctx: _Ctx, raw: Any, dim: int | None, what: str, path: tuple[str, ...]) -> tuple[np.ndarray, list[Value]] | None:
+def _unit_vector(
+    ctx: _Ctx, raw: Any, dim: int | None, what: str, path: tuple[str, ...]
+) -> tuple[np.ndarray, list[Value]] | None:
     if not isinstance(raw, list) or dim is None or len(raw) != dim:
-        ctx.add(f"{what}: expected a direction of {dim or '2 or 3'} numbers, got {shown(raw)}", *path)
+        ctx.add(
+            f"{what}: expected a direction of {dim or '2 or 3'} numbers, got {shown(raw)}", *path
+        )
         return None
     found = [_value(ctx, v, what, *path, exact=True) for v in raw]
     values = [v for v in found if v is not None]
@@ -1053,23 +1488,38 @@ def _unit_vector(ctx: _Ctx, raw: Any, dim: int | None, what: str, path: tuple[st
     return arr / float(np.linalg.norm(arr)), values
 
 
-def _stated_joint_load(ctx: _Ctx, case: str, jid: str, spec: dict[str, Any], geometry: _Geometry,
-                       add_to: Any) -> None:
+def _stated_joint_load(
+    ctx: _Ctx, case: str, jid: str, spec: dict[str, Any], geometry: _Geometry, add_to: Any
+) -> None:
     """{ magnitude, angle } | { magnitude, direction } | { magnitude, normal_to } at one joint."""
     path = ("loads", case, jid)
     what = f"load case '{case}' at joint '{jid}'"
     for key in spec:
         if key not in LOAD_FORM_KEYS:
-            ctx.add(f"{what}: unknown key '{key}'; expected magnitude with one of angle, direction, normal_to."
-                    f"{did_you_mean(key, LOAD_FORM_KEYS)}", *path)
+            ctx.add(
+                f"{what}: unknown key '{key}'; expected magnitude with one of angle, direction, normal_to."
+                f"{did_you_mean(key, LOAD_FORM_KEYS)}",
+                *path,
+            )
             return
     given = [k for k in ("angle", "direction", "normal_to") if k in spec]
     if "magnitude" not in spec or len(given) != 1:
-        ctx.add(f"{what}: expected {{ magnitude = ..., angle = ... }} (degrees, counter-clockwise from +x), "
-                "{ magnitude = ..., direction = [...] } or { magnitude = ..., normal_to = \"member\" }"
-                + (f"; got both {' and '.join(given)}" if len(given) > 1 else ""), *path)
+        ctx.add(
+            f"{what}: expected {{ magnitude = ..., angle = ... }} (degrees, counter-clockwise from +x), "
+            '{ magnitude = ..., direction = [...] } or { magnitude = ..., normal_to = "member" }'
+            + (f"; got both {' and '.join(given)}" if len(given) > 1 else ""),
+            *path,
+        )
         return
-    magnitude = _value(ctx, spec["magnitude"], f"{what} magnitude", *path, limit=LOAD_LIMIT, unit=ctx.force_unit, exact=True)
+    magnitude = _value(
+        ctx,
+        spec["magnitude"],
+        f"{what} magnitude",
+        *path,
+        limit=LOAD_LIMIT,
+        unit=ctx.force_unit,
+        exact=True,
+    )
     dim = geometry.dim
     key = given[0]
     if magnitude is None or dim is None:
@@ -1080,7 +1530,15 @@ def _stated_joint_load(ctx: _Ctx, case: str, jid: str, spec: dict[str, Any], geo
     exact: tuple[Any, ...] | None = None
     unit = ctx.force_unit
     if key == "angle":
-        angle = _value(ctx, spec["angle"], f"{what} angle", *path, limit=ANGLE_LIMIT, unit="degrees", exact=True)
+        angle = _value(
+            ctx,
+            spec["angle"],
+            f"{what} angle",
+            *path,
+            limit=ANGLE_LIMIT,
+            unit="degrees",
+            exact=True,
+        )
         if angle is None:
             return
         if magnitude.exact is not None and angle.exact is not None:
@@ -1107,10 +1565,15 @@ def _stated_joint_load(ctx: _Ctx, case: str, jid: str, spec: dict[str, Any], geo
         member_id = spec["normal_to"]
         member = geometry.members.get(member_id) if isinstance(member_id, str) else None
         if member is None:
-            ctx.add(f"{what}: normal_to names member {quoted(member_id)}, which is not defined."
-                    f"{did_you_mean(str(member_id), geometry.members)}", *path)
+            ctx.add(
+                f"{what}: normal_to names member {quoted(member_id)}, which is not defined."
+                f"{did_you_mean(str(member_id), geometry.members)}",
+                *path,
+            )
             return
-        vector = magnitude.number * pressure_normal(geometry.coords[member.start], geometry.coords[member.end])
+        vector = magnitude.number * pressure_normal(
+            geometry.coords[member.start], geometry.coords[member.end]
+        )
         side = "pressure on" if magnitude.number >= 0 else "suction, away from"
         text = f"{magnitude.number:g} {unit} normal to member '{member.id}' ({side} its left side, walking {member.start} to {member.end})"
     if exact is not None:
@@ -1124,21 +1587,35 @@ def _stated_joint_load(ctx: _Ctx, case: str, jid: str, spec: dict[str, Any], geo
     _note(ctx, path, f"load case '{case}' at joint '{jid}': {text}", {jid: vector})
 
 
-def _members_of(ctx: _Ctx, spec: dict[str, Any], what: str, path: tuple[str, ...], geometry: _Geometry,
-                chords: dict[str, list[str]], *, all_if_absent: bool) -> list[str] | None:
+def _members_of(
+    ctx: _Ctx,
+    spec: dict[str, Any],
+    what: str,
+    path: tuple[str, ...],
+    geometry: _Geometry,
+    chords: dict[str, list[str]],
+    *,
+    all_if_absent: bool,
+) -> list[str] | None:
     if "members" in spec and "chord" in spec:
         ctx.add(f"{what}: give members or chord, not both", *path)
         return None
     if "chord" in spec:
         chord = spec["chord"]
         if not isinstance(chord, str) or chord not in chords:
-            ctx.add(f"{what}: chord {quoted(chord)} is not defined in [chords].{did_you_mean(str(chord), chords)}", *path)
+            ctx.add(
+                f"{what}: chord {quoted(chord)} is not defined in [chords].{did_you_mean(str(chord), chords)}",
+                *path,
+            )
             return None
         return chords[chord]
     if "members" not in spec:
         if all_if_absent:
             return list(geometry.members)
-        ctx.add(f"{what}: name the loaded members (members = [...]) or a chord (chord = \"top\", defined in [chords])", *path)
+        ctx.add(
+            f'{what}: name the loaded members (members = [...]) or a chord (chord = "top", defined in [chords])',
+            *path,
+        )
         return None
     listed = spec["members"]
     if not isinstance(listed, list) or not listed:
@@ -1146,7 +1623,10 @@ def _members_of(ctx: _Ctx, spec: dict[str, Any], what: str, path: tuple[str, ...
         return None
     unknown = [m for m in listed if not isinstance(m, str) or m not in geometry.members]
     if unknown:
-        ctx.add(f"{what}: member {quoted(unknown[0])} is not defined.{did_you_mean(str(unknown[0]), geometry.members)}", *path)
+        ctx.add(
+            f"{what}: member {quoted(unknown[0])} is not defined.{did_you_mean(str(unknown[0]), geometry.members)}",
+            *path,
+        )
         return None
     if len(set(listed)) != len(listed):
         ctx.add(f"{what}: a member is listed twice; each loaded member once", *path)
@@ -1154,25 +1634,50 @@ def _members_of(ctx: _Ctx, spec: dict[str, Any], what: str, path: tuple[str, ...
     return list(listed)
 
 
-def _line_loads(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, chords: dict[str, list[str]], add_to: Any) -> None:
+def _line_loads(
+    ctx: _Ctx,
+    case: str,
+    key: str,
+    raw: Any,
+    geometry: _Geometry,
+    chords: dict[str, list[str]],
+    add_to: Any,
+) -> None:
     """line = { members | chord, w, direction | normal, measured }: to panel points by tributary length."""
     path = ("loads", case, key)
     dim = geometry.dim
     for number, spec in enumerate(raw if isinstance(raw, list) else [raw], start=1):
-        what = f"load case '{case}' line load" + (f" {number}" if isinstance(raw, list) and len(raw) > 1 else "")
+        what = f"load case '{case}' line load" + (
+            f" {number}" if isinstance(raw, list) and len(raw) > 1 else ""
+        )
         bad = [k for k in spec if k not in LINE_KEYS]
         if bad:
-            ctx.add(f"{what}: unknown key '{bad[0]}'; expected {', '.join(LINE_KEYS)}.{did_you_mean(bad[0], LINE_KEYS)}", *path)
+            ctx.add(
+                f"{what}: unknown key '{bad[0]}'; expected {', '.join(LINE_KEYS)}.{did_you_mean(bad[0], LINE_KEYS)}",
+                *path,
+            )
             continue
         members = _members_of(ctx, spec, what, path, geometry, chords, all_if_absent=False)
         if "w" not in spec:
-            ctx.add(f"{what}: give w, the force per length ({ctx.force_unit}/{ctx.length_unit})", *path)
+            ctx.add(
+                f"{what}: give w, the force per length ({ctx.force_unit}/{ctx.length_unit})", *path
+            )
             continue
-        w = _value(ctx, spec["w"], f"{what} w", *path, limit=LOAD_LIMIT, unit=f"{ctx.force_unit}/{ctx.length_unit}")
+        w = _value(
+            ctx,
+            spec["w"],
+            f"{what} w",
+            *path,
+            limit=LOAD_LIMIT,
+            unit=f"{ctx.force_unit}/{ctx.length_unit}",
+        )
         measured = spec.get("measured", "along")
         if measured not in MEASURED:
-            ctx.add(f"{what}: measured = {quoted(measured)}; expected \"along\" (the member's length) or \"plan\" "
-                    "(its horizontal projection)", *path)
+            ctx.add(
+                f'{what}: measured = {quoted(measured)}; expected "along" (the member\'s length) or "plan" '
+                "(its horizontal projection)",
+                *path,
+            )
             continue
         normal = spec.get("normal", False)
         if not isinstance(normal, bool):
@@ -1182,7 +1687,9 @@ def _line_loads(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, c
             ctx.add(f"{what}: give direction or normal = true, not both", *path)
             continue
         if normal and dim != 2:
-            ctx.add(f"{what}: normal = true needs a 2D model (in 3D give direction = [x, y, z])", *path)
+            ctx.add(
+                f"{what}: normal = true needs a 2D model (in 3D give direction = [x, y, z])", *path
+            )
             continue
         direction = gravity(dim) if dim else None
         if "direction" in spec:
@@ -1196,17 +1703,35 @@ def _line_loads(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, c
             a, b = geometry.coords[m.start], geometry.coords[m.end]
             segments.append((m.start, m.end, member_span(a, b, measured)))
             vectors.append(w.number * (pressure_normal(a, b) if normal else direction))
-        how = "normal to each member (pressure positive)" if normal else f"along {describe_vector(direction)}"
-        on = f"chord '{spec['chord']}'" if "chord" in spec else f"members {', '.join(members[:6])}" + (" ..." if len(members) > 6 else "")
-        text = (f"load case '{case}': line load {w.number:g} {ctx.force_unit}/{ctx.length_unit} {how} on {on}, "
-                f"tributary lengths measured {measured}")
+        how = (
+            "normal to each member (pressure positive)"
+            if normal
+            else f"along {describe_vector(direction)}"
+        )
+        on = (
+            f"chord '{spec['chord']}'"
+            if "chord" in spec
+            else f"members {', '.join(members[:6])}" + (" ..." if len(members) > 6 else "")
+        )
+        text = (
+            f"load case '{case}': line load {w.number:g} {ctx.force_unit}/{ctx.length_unit} {how} on {on}, "
+            f"tributary lengths measured {measured}"
+        )
         loads = tributary_loads(segments, vectors)
         for jid, vector in loads.items():
             add_to(jid, vector, None, path)
         _note(ctx, path, text, loads)
 
 
-def _self_weight(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, chords: dict[str, list[str]], add_to: Any) -> None:
+def _self_weight(
+    ctx: _Ctx,
+    case: str,
+    key: str,
+    raw: Any,
+    geometry: _Geometry,
+    chords: dict[str, list[str]],
+    add_to: Any,
+) -> None:
     """self_weight = { mass_per_length (kg/m), members | chord (default: every member), direction }."""
     path = ("loads", case, key)
     dim, units = geometry.dim, geometry.units
@@ -1214,15 +1739,27 @@ def _self_weight(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, 
         what = f"load case '{case}' self_weight"
         bad = [k for k in spec if k not in SELF_WEIGHT_KEYS]
         if bad:
-            ctx.add(f"{what}: unknown key '{bad[0]}'; expected {', '.join(SELF_WEIGHT_KEYS)}.{did_you_mean(bad[0], SELF_WEIGHT_KEYS)}", *path)
+            ctx.add(
+                f"{what}: unknown key '{bad[0]}'; expected {', '.join(SELF_WEIGHT_KEYS)}.{did_you_mean(bad[0], SELF_WEIGHT_KEYS)}",
+                *path,
+            )
             continue
         members = _members_of(ctx, spec, what, path, geometry, chords, all_if_absent=True)
         if "mass_per_length" not in spec:
             ctx.add(f"{what}: give mass_per_length in kg/m", *path)
             continue
-        mass = _value(ctx, spec["mass_per_length"], f"{what} mass_per_length", *path, limit=MASS_LIMIT, unit="kg/m")
+        mass = _value(
+            ctx,
+            spec["mass_per_length"],
+            f"{what} mass_per_length",
+            *path,
+            limit=MASS_LIMIT,
+            unit="kg/m",
+        )
         if mass is not None and mass.number < 0:
-            ctx.add(f"{what}: mass_per_length must not be negative, got {mass.number:g} kg/m", *path)
+            ctx.add(
+                f"{what}: mass_per_length must not be negative, got {mass.number:g} kg/m", *path
+            )
             continue
         direction = gravity(dim) if dim else None
         if "direction" in spec:
@@ -1235,34 +1772,80 @@ def _self_weight(ctx: _Ctx, case: str, key: str, raw: Any, geometry: _Geometry, 
         segments = []
         for mid in members:
             m = geometry.members[mid]
-            segments.append((m.start, m.end, member_span(geometry.coords[m.start], geometry.coords[m.end], "along")))
+            segments.append(
+                (
+                    m.start,
+                    m.end,
+                    member_span(geometry.coords[m.start], geometry.coords[m.end], "along"),
+                )
+            )
         loads = tributary_loads(segments, [per_length * direction] * len(segments))
         for jid, vector in loads.items():
             add_to(jid, vector, None, path)
-        on = f"chord '{spec['chord']}'" if "chord" in spec else ("every member" if "members" not in spec else f"{len(members)} members")
-        _note(ctx, path, f"load case '{case}': self-weight {mass.number:g} kg/m x g = 9.80665 m/s^2 on {on}, "
-                         "half of each member to each end", loads)
+        on = (
+            f"chord '{spec['chord']}'"
+            if "chord" in spec
+            else ("every member" if "members" not in spec else f"{len(members)} members")
+        )
+        _note(
+            ctx,
+            path,
+            f"load case '{case}': self-weight {mass.number:g} kg/m x g = 9.80665 m/s^2 on {on}, "
+            "half of each member to each end",
+            loads,
+        )
 
 
-def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int | None,
-                geometry: _Geometry | None = None, chords: dict[str, list[str]] | None = None) -> list[LoadCase]:
+def _read_loads(
+    ctx: _Ctx,
+    table: Any,
+    base: Path,
+    joint_ids: set[str],
+    dim: int | None,
+    geometry: _Geometry | None = None,
+    chords: dict[str, list[str]] | None = None,
+) -> list[LoadCase]:
     if table is None:
         ctx.add("missing [loads.<case>] table; add at least one load case", line=1)
         return []
     cases: dict[str, dict[str, tuple[float, ...]]] = {}
 
-    def add(case: str, jid: Any, value: Any, path: tuple[str, ...], file: str | None = None, line: int | None = None) -> None:
+    def add(
+        case: str,
+        jid: Any,
+        value: Any,
+        path: tuple[str, ...],
+        file: str | None = None,
+        line: int | None = None,
+    ) -> None:
         if not _label(ctx, case, "load case name", *path, file=file, line=line):
             return
-        if _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", *path, file=file, line=line) is None:
+        if (
+            _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", *path, file=file, line=line)
+            is None
+        ):
             return
-        vec = _vector(ctx, value, dim, f"load case '{case}' at joint '{jid}'", path, file, line,
-                      exact_key=(case, str(jid)) if file is None else None)
+        vec = _vector(
+            ctx,
+            value,
+            dim,
+            f"load case '{case}' at joint '{jid}'",
+            path,
+            file,
+            line,
+            exact_key=(case, str(jid)) if file is None else None,
+        )
         if vec is None:
             return
         loads = cases.setdefault(case, {})
         if str(jid) in loads:
-            _say(ctx, f"load case '{case}' loads joint '{jid}' twice; give one total vector", path, file, line)
+            _say(
+                ctx,
+                f"load case '{case}' loads joint '{jid}' twice; give one total vector",
+                path,
+                file,
+                line,
+            )
             return
         loads[str(jid)] = vec
 
@@ -1273,20 +1856,28 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
         if found is not None:
             frame = found[1]
             keys = frame["case"] if not fixed_case else None
-            clean = frame["joint"].isin(joint_ids).all() and not frame.duplicated(
-                subset=["joint"] + (["case"] if keys is not None else [])).any()
+            clean = (
+                frame["joint"].isin(joint_ids).all()
+                and not frame.duplicated(
+                    subset=["joint"] + (["case"] if keys is not None else [])
+                ).any()
+            )
             if clean:
                 vectors = frame[list(axes)].astype(float).to_numpy()
                 names_ok = keys is None or all(map(_plain_label, keys.unique().tolist()))
                 if np.isfinite(vectors).all() and _within(vectors, LOAD_LIMIT) and names_ok:
                     case_names = keys.tolist() if keys is not None else [fixed_case] * len(frame)
-                    for case, joint, vector in zip(case_names, frame["joint"].tolist(), vectors.tolist(), strict=True):
+                    for case, joint, vector in zip(
+                        case_names, frame["joint"].tolist(), vectors.tolist(), strict=True
+                    ):
                         cases.setdefault(str(case), {})[joint] = tuple(vector)
                     return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
             if not fixed_case and not _plain_label(case):
-                add(case, row["joint"], [row[a] for a in axes], where, file, line)  # says why, adds nothing
+                add(
+                    case, row["joint"], [row[a] for a in axes], where, file, line
+                )  # says why, adds nothing
                 continue
             cases.setdefault(case, {})
             add(case, row["joint"], [row[a] for a in axes], where, file, line)
@@ -1307,13 +1898,24 @@ def _read_loads(ctx: _Ctx, table: Any, base: Path, joint_ids: set[str], dim: int
                         reader = _line_loads if jid == "line" else _self_weight
                         reader(ctx, str(case), jid, value, geometry, chords or {}, stated.add)
                     elif isinstance(value, dict) and geometry is not None:
-                        if _joint_ref(ctx, jid, joint_ids, f"load case '{case}'", "loads", case, jid) is not None:
-                            _stated_joint_load(ctx, str(case), str(jid), value, geometry, stated.add)
+                        if (
+                            _joint_ref(
+                                ctx, jid, joint_ids, f"load case '{case}'", "loads", case, jid
+                            )
+                            is not None
+                        ):
+                            _stated_joint_load(
+                                ctx, str(case), str(jid), value, geometry, stated.add
+                            )
                     else:
                         add(str(case), jid, value, ("loads", case, jid))
                 stated.merge_into(ctx, str(case), cases.setdefault(str(case), {}))
             else:
-                ctx.add(f"load case '{case}': expected a table (joint = [fx, fy]) or a CSV file name", "loads", case)
+                ctx.add(
+                    f"load case '{case}': expected a table (joint = [fx, fy]) or a CSV file name",
+                    "loads",
+                    case,
+                )
     else:
         ctx.add("[loads] must hold one table per load case, e.g. [loads.dead]", "loads")
     if isinstance(table, (str, dict)) and not cases:
@@ -1326,22 +1928,44 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
     if table is None:
         return combos
     if not isinstance(table, dict):
-        ctx.add("[combinations] must map a name to factors, e.g. \"ULS-1\" = { dead = 1.35 }", "combinations")
+        ctx.add(
+            '[combinations] must map a name to factors, e.g. "ULS-1" = { dead = 1.35 }',
+            "combinations",
+        )
         return combos
     for name, factors in table.items():
         if not _label(ctx, name, "combination name", "combinations", name):
             continue
         if str(name) in case_names:
-            ctx.add(f"combination '{name}' has the same name as a load case; rename one", "combinations", name)
+            ctx.add(
+                f"combination '{name}' has the same name as a load case; rename one",
+                "combinations",
+                name,
+            )
         if not isinstance(factors, dict) or not factors:
-            ctx.add(f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got {shown(factors)}", "combinations", name)
+            ctx.add(
+                f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got {shown(factors)}",
+                "combinations",
+                name,
+            )
             continue
         clean: dict[str, float] = {}
         for case, value in factors.items():
             if case not in case_names:
-                ctx.add(f"combination '{name}' names load case '{case}', which is not defined.{did_you_mean(case, case_names)}", "combinations", name)
+                ctx.add(
+                    f"combination '{name}' names load case '{case}', which is not defined.{did_you_mean(case, case_names)}",
+                    "combinations",
+                    name,
+                )
                 continue
-            number = _number(ctx, value, f"combination '{name}' factor for '{case}'", "combinations", name, limit=FACTOR_LIMIT)
+            number = _number(
+                ctx,
+                value,
+                f"combination '{name}' factor for '{case}'",
+                "combinations",
+                name,
+                limit=FACTOR_LIMIT,
+            )
             if number is not None:
                 clean[case] = number
         combos.append(Combination(str(name), clean))
@@ -1353,7 +1977,12 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
     if not joints or dim is None:
         return
     bulk = ctx.bulk
-    if bulk.xyz is not None and bulk.ends is not None and bulk.xyz.shape[1] == dim and len(members) == len(bulk.ends):
+    if (
+        bulk.xyz is not None
+        and bulk.ends is not None
+        and bulk.xyz.shape[1] == dim
+        and len(members) == len(bulk.ends)
+    ):
         # Both tables read in bulk: every joint has `dim` coordinates, every member end is known.
         usable, xyz, placed = joints, bulk.xyz, members
         starts, stops = bulk.ends[:, 0], bulk.ends[:, 1]
@@ -1369,31 +1998,64 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
     # Coincident joints: sort on a rounded key, then compare neighbours (n log n).
     keys = np.round(xyz / max(tol, 1e-300))
     order = np.lexsort(keys.T[::-1])
-    close = np.all(np.abs(xyz[order[1:]] - xyz[order[:-1]]) <= tol, axis=1) if len(order) > 1 else np.zeros(0, bool)
+    close = (
+        np.all(np.abs(xyz[order[1:]] - xyz[order[:-1]]) <= tol, axis=1)
+        if len(order) > 1
+        else np.zeros(0, bool)
+    )
     for n in np.nonzero(close)[0]:
         a, b = int(order[n]), int(order[n + 1])
-        first, second = sorted((usable[a].id, usable[b].id), key=lambda jid: (ctx.origins.get(("joint", jid)) or ("", 0))[1])
-        ctx.add_at("joint", second, f"joints '{first}' and '{second}' are at the same point {usable[a].coords}; merge them", "joints", second)
+        first, second = sorted(
+            (usable[a].id, usable[b].id),
+            key=lambda jid: (ctx.origins.get(("joint", jid)) or ("", 0))[1],
+        )
+        ctx.add_at(
+            "joint",
+            second,
+            f"joints '{first}' and '{second}' are at the same point {usable[a].coords}; merge them",
+            "joints",
+            second,
+        )
     loops = starts == stops
     if placed:
         lengths = np.linalg.norm(xyz[stops] - xyz[starts], axis=1)
         for n in np.nonzero(~(lengths > tol) & ~loops)[0]:
             m = placed[int(n)]
-            ctx.add_at("member", m.id, f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)", "members", m.id)
+            ctx.add_at(
+                "member",
+                m.id,
+                f"member '{m.id}' has zero length (joints '{m.start}' and '{m.end}' coincide)",
+                "members",
+                m.id,
+            )
     for m in members:
         if m.start == m.end:
-            ctx.add_at("member", m.id, f"member '{m.id}' starts and ends at joint '{m.start}'", "members", m.id)
+            ctx.add_at(
+                "member",
+                m.id,
+                f"member '{m.id}' starts and ends at joint '{m.start}'",
+                "members",
+                m.id,
+            )
     # Two members on one joint pair: sort the (low, high) joint numbers and compare neighbours.
     keep = np.nonzero(~loops)[0]
     if keep.size:
         distinct = [placed[k] for k in keep.tolist()] if loops.any() else placed
         low, high = np.minimum(starts[keep], stops[keep]), np.maximum(starts[keep], stops[keep])
         pair_order = np.lexsort((np.arange(len(distinct)), high, low))
-        same = (low[pair_order][1:] == low[pair_order][:-1]) & (high[pair_order][1:] == high[pair_order][:-1])
+        same = (low[pair_order][1:] == low[pair_order][:-1]) & (
+            high[pair_order][1:] == high[pair_order][:-1]
+        )
         first_of: dict[tuple[int, int], str] = {}
         for k in np.nonzero(same)[0].tolist():
             earlier, later = distinct[int(pair_order[k])], distinct[int(pair_order[k + 1])]
             key = (int(low[pair_order][k]), int(high[pair_order][k]))
             first = first_of.setdefault(key, earlier.id)
-            ctx.add_at("member", later.id, f"members '{first}' and '{later.id}' both join '{later.start}' and '{later.end}'; "
-                       "a pin-jointed model needs one member per joint pair", "members", later.id)
+            ctx.add_at(
+                "member",
+                later.id,
+                f"members '{first}' and '{later.id}' both join '{later.start}' and '{later.end}'; "
+                "a pin-jointed model needs one member per joint pair",
+                "members",
+                later.id,
+            )

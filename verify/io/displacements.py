@@ -41,7 +41,9 @@ class ClaimedDisplacement:
     value: float  # along +axis, in the case's length unit
     written: str
     where: str
-    scale: float = 1.0  # case length units per unit the value was written in (0.001 for mm in a m model)
+    scale: float = (
+        1.0  # case length units per unit the value was written in (0.001 for mm in a m model)
+    )
 
 
 @dataclass(frozen=True)
@@ -66,19 +68,37 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
     except UnicodeDecodeError:
         text = data.decode("cp1252", errors="replace")
     if "\x00" in text:
-        raise InputError([Problem(name, f"holds NUL bytes (byte {text.index(chr(0))}); expected a CSV text table")])
+        raise InputError(
+            [
+                Problem(
+                    name, f"holds NUL bytes (byte {text.index(chr(0))}); expected a CSV text table"
+                )
+            ]
+        )
     # CR-only line endings (old spreadsheets) read as lines too.
     reader = csv.reader(io.StringIO(text.replace("\r\n", "\n").replace("\r", "\n")))
     try:
         rows = [r for r in reader]
     except csv.Error as exc:  # an unclosed quote, a field beyond the csv module's size limit
-        raise InputError([Problem(name, f"not readable as CSV from here on ({exc})", reader.line_num)]) from None
+        raise InputError(
+            [Problem(name, f"not readable as CSV from here on ({exc})", reader.line_num)]
+        ) from None
     if not rows or not any(c.strip() for c in rows[0]):
-        raise InputError([Problem(name, "empty file; expected a header: joint, direction, case, value (mm)")])
+        raise InputError(
+            [Problem(name, "empty file; expected a header: joint, direction, case, value (mm)")]
+        )
     header = [h.strip() for h in rows[0]]
     if any(len(h) > HEADER_MAX_CHARS for h in header):
-        raise InputError([Problem(name, f"a header cell is over {HEADER_MAX_CHARS} characters; expected a header: "
-                                        "joint, direction, case, value (mm)", 1)])
+        raise InputError(
+            [
+                Problem(
+                    name,
+                    f"a header cell is over {HEADER_MAX_CHARS} characters; expected a header: "
+                    "joint, direction, case, value (mm)",
+                    1,
+                )
+            ]
+        )
     lowered = [h.lower() for h in header]
 
     def find(names: tuple[str, ...]) -> int | None:
@@ -92,11 +112,18 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
     dir_col = find(("direction", "dir", "axis", "component"))
     case_col = find(("case", "load case", "combination", "lc"))
     value_col = find(VALUE_HEADERS)
-    for what, col in (("joint", joint_col), ("direction", dir_col), ("value (e.g. 'deflection (mm)')", value_col)):
+    for what, col in (
+        ("joint", joint_col),
+        ("direction", dir_col),
+        ("value (e.g. 'deflection (mm)')", value_col),
+    ):
         if col is None:
             problems.add(f"no '{what}' column; found {', '.join(header)}", line=1)
     if case_col is None and len(model.load_names) > 1:
-        problems.add(f"no 'case' column, and the model has several load columns ({', '.join(model.load_names)})", line=1)
+        problems.add(
+            f"no 'case' column, and the model has several load columns ({', '.join(model.load_names)})",
+            line=1,
+        )
     problems.raise_if_any()
     assert joint_col is not None and dir_col is not None and value_col is not None
     header_unit = None
@@ -121,20 +148,32 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
         raw = row[value_col].strip()
         where = f"row {number}"
         if joint not in model.joint_index:
-            problems.add(f"joint {quoted(joint)} is not in the model.{did_you_mean(joint, model.joint_ids)}", where=where)
+            problems.add(
+                f"joint {quoted(joint)} is not in the model.{did_you_mean(joint, model.joint_ids)}",
+                where=where,
+            )
             continue
         sign = -1.0 if direction.startswith("-") else 1.0
         axis = direction.lstrip("+-")
         if axis not in axes:
-            problems.add(f"direction {quoted(row[dir_col])} is not one of {', '.join(axes)} (a leading '-' measures against the axis)", where=where)
+            problems.add(
+                f"direction {quoted(row[dir_col])} is not one of {', '.join(axes)} (a leading '-' measures against the axis)",
+                where=where,
+            )
             continue
         if case not in model.load_names:
-            problems.add(f"case {quoted(case)} is not a load case or combination.{did_you_mean(case, model.load_names)}", where=where)
+            problems.add(
+                f"case {quoted(case)} is not a load case or combination.{did_you_mean(case, model.load_names)}",
+                where=where,
+            )
             continue
         if not raw:
             continue  # blank: no claim
         if len(raw) > NUMBER_MAX_CHARS + 8:  # a number, a space and a unit
-            problems.add(f"value {quoted(raw, limit=20)} is not a number with an optional length unit", where=where)
+            problems.add(
+                f"value {quoted(raw, limit=20)} is not a number with an optional length unit",
+                where=where,
+            )
             continue
         unit = header_unit
         cell = _UNIT_IN_CELL.match(raw)
@@ -153,7 +192,10 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
             continue
         key = (joint, axis, case)
         if key in seen:
-            problems.add(f"a second claim for {joint}.{axis} in '{case}' (first on row {seen[key]})", where=where)
+            problems.add(
+                f"a second claim for {joint}.{axis} in '{case}' (first on row {seen[key]})",
+                where=where,
+            )
             continue
         seen[key] = number
         if unit is None:
@@ -162,11 +204,15 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
         scale = factor(unit, model.units.length)
         out.append(ClaimedDisplacement(joint, axis, case, sign * value * scale, raw, where, scale))
     if unitless:
-        rows_text = ", ".join(str(n) for n in unitless[:10]) + (" ..." if len(unitless) > 10 else "")
-        problems.add(f"the value{'s' if len(unitless) > 1 else ''} on row{'s' if len(unitless) > 1 else ''} {rows_text} "
-                     f"{'have' if len(unitless) > 1 else 'has'} no length unit; put the unit in the header, "
-                     f"e.g. '{header[value_col].strip() or 'deflection'} (mm)', or in each cell, e.g. '15.5 mm'",
-                     where=f"row {unitless[0]}")
+        rows_text = ", ".join(str(n) for n in unitless[:10]) + (
+            " ..." if len(unitless) > 10 else ""
+        )
+        problems.add(
+            f"the value{'s' if len(unitless) > 1 else ''} on row{'s' if len(unitless) > 1 else ''} {rows_text} "
+            f"{'have' if len(unitless) > 1 else 'has'} no length unit; put the unit in the header, "
+            f"e.g. '{header[value_col].strip() or 'deflection'} (mm)', or in each cell, e.g. '15.5 mm'",
+            where=f"row {unitless[0]}",
+        )
     problems.raise_if_any()
     if not out:
         raise InputError([Problem(name, "no displacement values found")])

@@ -57,7 +57,9 @@ class Value:
     exact: Any = None
 
 
-def evaluate(text: str, parameters: Mapping[str, Value] | None = None, *, exact: bool = True) -> Value:
+def evaluate(
+    text: str, parameters: Mapping[str, Value] | None = None, *, exact: bool = True
+) -> Value:
     """The value of `text`; ExpressionError with the rule it broke.
 
     `exact=False` skips the sympy track (the float alone), for readers past their budget of
@@ -132,7 +134,9 @@ class _Walker:
             if isinstance(node.op, ast.USub):
                 return -number, (-exact if exact is not None else None)
             return number, exact
-        if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub, ast.Mult, ast.Div, ast.Pow)):
+        if isinstance(node, ast.BinOp) and isinstance(
+            node.op, (ast.Add, ast.Sub, ast.Mult, ast.Div, ast.Pow)
+        ):
             return self._binary(node)
         if isinstance(node, ast.Call):
             return self._call(node)
@@ -143,7 +147,9 @@ class _Walker:
 
     def _constant(self, value: object) -> tuple[float, Any]:
         if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise ExpressionError(f"{_kind_of_constant(value)} is not accepted; accepted: {ACCEPTED}")
+            raise ExpressionError(
+                f"{_kind_of_constant(value)} is not accepted; accepted: {ACCEPTED}"
+            )
         try:
             number = float(value)
         except OverflowError:
@@ -192,7 +198,9 @@ class _Walker:
         try:
             number = _checked(a**b)
         except OverflowError:
-            raise ExpressionError(f"a value beyond {MAGNITUDE_LIMIT:g} in size on the way") from None
+            raise ExpressionError(
+                f"a value beyond {MAGNITUDE_LIMIT:g} in size on the way"
+            ) from None
         exact = None
         if both and eb.is_Rational and _bits(ea) * max(1, abs(int(eb.p))) <= EXACT_MAX_BITS:
             exact = ea**eb
@@ -201,7 +209,9 @@ class _Walker:
     def _call(self, node: ast.Call) -> tuple[float, Any]:
         if not isinstance(node.func, ast.Name) or node.func.id not in FUNCTIONS:
             name = node.func.id if isinstance(node.func, ast.Name) else _kind(node.func)
-            raise ExpressionError(f"'{name}(...)' is not accepted; the functions are {', '.join(FUNCTIONS)}")
+            raise ExpressionError(
+                f"'{name}(...)' is not accepted; the functions are {', '.join(FUNCTIONS)}"
+            )
         name = node.func.id
         if node.keywords or len(node.args) != 1 or isinstance(node.args[0], ast.Starred):
             raise ExpressionError(f"{name} takes one number, e.g. {name}(30)")
@@ -222,14 +232,32 @@ class _Walker:
         return (_checked(number) if abs(number) >= 1.0 / MAGNITUDE_LIMIT else 0.0), exact
 
 
-_OPERATORS = {ast.FloorDiv: "//", ast.Mod: "%", ast.MatMult: "@", ast.BitAnd: "&", ast.BitOr: "|",
-              ast.BitXor: "^ (write ** for a power)", ast.LShift: "<<", ast.RShift: ">>", ast.Invert: "~", ast.Not: "not"}
+_OPERATORS = {
+    ast.FloorDiv: "//",
+    ast.Mod: "%",
+    ast.MatMult: "@",
+    ast.BitAnd: "&",
+    ast.BitOr: "|",
+    ast.BitXor: "^ (write ** for a power)",
+    ast.LShift: "<<",
+    ast.RShift: ">>",
+    ast.Invert: "~",
+    ast.Not: "not",
+}
 
 
 def _kind(node: ast.AST) -> str:
-    return {ast.Attribute: "attribute access (a.b)", ast.Subscript: "indexing (a[b])", ast.Compare: "a comparison",
-            ast.BoolOp: "and/or", ast.Lambda: "lambda", ast.Tuple: "a list of values (a comma)",
-            ast.List: "a list", ast.Dict: "a table", ast.IfExp: "if/else"}.get(type(node), type(node).__name__)
+    return {
+        ast.Attribute: "attribute access (a.b)",
+        ast.Subscript: "indexing (a[b])",
+        ast.Compare: "a comparison",
+        ast.BoolOp: "and/or",
+        ast.Lambda: "lambda",
+        ast.Tuple: "a list of values (a comma)",
+        ast.List: "a list",
+        ast.Dict: "a table",
+        ast.IfExp: "if/else",
+    }.get(type(node), type(node).__name__)
 
 
 def _kind_of_constant(value: object) -> str:

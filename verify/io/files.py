@@ -34,10 +34,16 @@ def read_regular_file(path: str | Path, *, limit: int) -> bytes:
     try:
         info = os.fstat(fd)
         if not stat.S_ISREG(info.st_mode):
-            kind = "a folder" if stat.S_ISDIR(info.st_mode) else "not a regular file (a device, pipe or socket)"
+            kind = (
+                "a folder"
+                if stat.S_ISDIR(info.st_mode)
+                else "not a regular file (a device, pipe or socket)"
+            )
             raise UnreadableFile(f"{kind}; inputs are read from ordinary files only")
         if info.st_size > limit:
-            raise UnreadableFile(f"the file is {info.st_size / 2**20:.0f} MB, over the {limit // 2**20} MB an input may have")
+            raise UnreadableFile(
+                f"the file is {info.st_size / 2**20:.0f} MB, over the {limit // 2**20} MB an input may have"
+            )
         with os.fdopen(fd, "rb", closefd=False) as handle:
             data = handle.read(limit + 1)
     except OSError as exc:

@@ -51,7 +51,9 @@ def member_span(start: Sequence[float], end: Sequence[float], measured: str) -> 
     return float(np.linalg.norm(delta))
 
 
-def tributary_loads(segments: Sequence[tuple[str, str, float]], vectors: Sequence[np.ndarray]) -> dict[str, np.ndarray]:
+def tributary_loads(
+    segments: Sequence[tuple[str, str, float]], vectors: Sequence[np.ndarray]
+) -> dict[str, np.ndarray]:
     """Joint loads from loaded members: (start, end, span) with the force per length as a vector;
     half of each member's total goes to each end. Joints keep their first appearance order."""
     loads: dict[str, np.ndarray] = {}

@@ -41,7 +41,7 @@ def _key_parts(text: str) -> tuple[tuple[str, ...] | None, int]:
             end = _quoted(text, k)
             if end < 0:
                 return None, k
-            parts.append(text[k + 1:end - 1])
+            parts.append(text[k + 1 : end - 1])
             k = end
         else:
             start = k
@@ -73,7 +73,7 @@ def _opens_multiline(line: str) -> str | None:
         if char == "#":
             return None
         if line.startswith(('"""', "'''"), k):
-            open_with, k = line[k:k + 3], k + 3
+            open_with, k = line[k : k + 3], k + 3
             continue
         if char in "\"'":
             end = _quoted(line, k)
@@ -97,19 +97,19 @@ class LineLocator:
                 found = line.find(inside)
                 if found < 0:
                     continue
-                inside = _opens_multiline(line[found + 3:])
+                inside = _opens_multiline(line[found + 3 :])
                 continue
             stripped = line.lstrip()
             if stripped.startswith("[") and not stripped.startswith("[["):
                 parts, end = _key_parts(stripped[1:])
-                rest = stripped[1 + end:].lstrip()
+                rest = stripped[1 + end :].lstrip()
                 if parts is not None and rest.startswith("]"):
                     table = parts
                     self._lines.setdefault(table, number)
                     continue
             elif not stripped.startswith("[["):
                 parts, end = _key_parts(stripped)
-                if parts is not None and stripped[end:end + 1] == "=":
+                if parts is not None and stripped[end : end + 1] == "=":
                     self._lines.setdefault(table + parts, number)
             inside = _opens_multiline(line)
 

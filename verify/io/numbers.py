@@ -31,13 +31,17 @@ def parse_number(value: object) -> float:
     if isinstance(value, str):
         text = value.strip()
         if len(text) > NUMBER_MAX_CHARS:
-            raise ValueError(f"'{shown(text, limit=20)}' is not a number ({len(text)} characters; at most {NUMBER_MAX_CHARS})")
+            raise ValueError(
+                f"'{shown(text, limit=20)}' is not a number ({len(text)} characters; at most {NUMBER_MAX_CHARS})"
+            )
         if _NUMBER.match(text):
             result = float(text)
             if not math.isfinite(result):
                 raise ValueError(f"'{text}' is out of range (not a finite number)")
             return result
         if _DECIMAL_COMMA.match(text):
-            raise ValueError(f"'{text}' uses a decimal comma; write a decimal point ('{text.replace(',', '.')}')")
+            raise ValueError(
+                f"'{text}' uses a decimal comma; write a decimal point ('{text.replace(',', '.')}')"
+            )
         raise ValueError(f"'{shown(text)}' is not a number")
     raise ValueError(f"{shown(value)} is not a number")

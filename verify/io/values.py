@@ -55,7 +55,9 @@ _SCIENTIFIC = re.compile(r"^(\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+$")
 
 
 MAX_FORCE_CHARS = 64  # '-1,234,567.125 kN (compression)' is 31: longer text is no force cell
-MAX_QUOTED_CHARS = 60  # a cell quoted in a message is cut here: a 40 KB cell must not fill the screen
+MAX_QUOTED_CHARS = (
+    60  # a cell quoted in a message is cut here: a 40 KB cell must not fill the screen
+)
 TAIL_CHARS = 32  # T/C letters and units are read from this many final characters only
 
 _NORMALIZE = str.maketrans(
@@ -76,7 +78,11 @@ def is_nan_text(text: str) -> bool:
 
 def quoted(text: str) -> str:
     """A cell as a message shows it: control characters escaped, text past MAX_QUOTED_CHARS cut."""
-    shown = text if len(text) <= MAX_QUOTED_CHARS else f"{text[:MAX_QUOTED_CHARS]}... ({len(text):,} characters)"
+    shown = (
+        text
+        if len(text) <= MAX_QUOTED_CHARS
+        else f"{text[:MAX_QUOTED_CHARS]}... ({len(text):,} characters)"
+    )
     if any(ch < " " or "\x7f" <= ch < "\xa0" for ch in shown):
         shown = shown.encode("unicode_escape").decode("ascii")
     return shown
@@ -87,7 +93,9 @@ def _expectation(original: str) -> str:
 
 
 MAX_FORCE = 1e15  # 10^15 N is a thousand times the weight of the largest structure ever built
-MIN_FORCE = 1e-290  # smaller non-zero values are subnormal floats, whose quotients overflow; round-off
+MIN_FORCE = (
+    1e-290  # smaller non-zero values are subnormal floats, whose quotients overflow; round-off
+)
 #                     such as 7.1e-16, as analysis programs export it, is kept as written
 
 
@@ -127,7 +135,9 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     return number, False, unit
 
 
-def read_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, str | None, str | None]:
+def read_force_cell(
+    text: str, *, decimal_comma: bool = False
+) -> tuple[float, str | None, str | None]:
     """(the number with its sign as written, the T/C letter or None, unit symbol or None).
 
     Sign and letter are returned apart so that a table writing both ('-121.39 T' in a table
@@ -197,8 +207,10 @@ def read_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, s
         s = s[1:].strip()
     magnitude = _parse_magnitude(s, decimal_comma=decimal_comma, original=original)
     if not in_force_range(magnitude):
-        raise ValueError(f"force '{quoted(original)}' is out of range: a claimed force must be 0 or between "
-                         f"{MIN_FORCE:g} and {MAX_FORCE:g} in size, in any unit")
+        raise ValueError(
+            f"force '{quoted(original)}' is out of range: a claimed force must be 0 or between "
+            f"{MIN_FORCE:g} and {MAX_FORCE:g} in size, in any unit"
+        )
 
     return (-magnitude if negative else magnitude), tc, unit
 

@@ -22,7 +22,9 @@ def _same_file(a: os.stat_result, b: os.stat_result) -> bool:
     return (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino)
 
 
-def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str | Path] = ()) -> Path:
+def write_atomic(
+    path: str | Path, content: str | bytes, *, inputs: Iterable[str | Path] = ()
+) -> Path:
     """Write `content` to `path` atomically. Refuses a target that is not a regular file (a
     device, a folder, a pipe: replacing it would destroy it, or write nowhere) and one that is
     any of `inputs`, however spelt: another path, a symbolic or a hard link to it."""
@@ -33,19 +35,27 @@ def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str
     except FileNotFoundError:
         existing = None
     except OSError as exc:
-        raise OutputError(f"{target}: cannot check the output path ({exc.strerror or exc})") from None
+        raise OutputError(
+            f"{target}: cannot check the output path ({exc.strerror or exc})"
+        ) from None
     if existing is not None:
         if stat.S_ISDIR(existing.st_mode):
-            raise OutputError(f"{target}: is a folder; name the file to write, e.g. {target / 'review.html'}")
+            raise OutputError(
+                f"{target}: is a folder; name the file to write, e.g. {target / 'review.html'}"
+            )
         if not stat.S_ISREG(existing.st_mode):
-            raise OutputError(f"{target}: not a regular file (a device, pipe or socket); reports go to ordinary files only")
+            raise OutputError(
+                f"{target}: not a regular file (a device, pipe or socket); reports go to ordinary files only"
+            )
         for source in inputs:
             try:
                 same = _same_file(existing, os.stat(source))
             except OSError:
                 same = Path(source).resolve() == resolved
             if same:
-                raise OutputError(f"{target}: refusing to write a report over an input file ({source})")
+                raise OutputError(
+                    f"{target}: refusing to write a report over an input file ({source})"
+                )
     folder = resolved.parent
     if not folder.is_dir():
         raise OutputError(f"{target}: the folder {folder} does not exist")
@@ -53,7 +63,9 @@ def write_atomic(path: str | Path, content: str | bytes, *, inputs: Iterable[str
     try:
         fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     except OSError as exc:  # read-only or special folder: say so, not the temporary file's errno
-        raise OutputError(f"{target}: cannot write in the folder {folder} ({exc.strerror or exc})") from None
+        raise OutputError(
+            f"{target}: cannot write in the folder {folder} ({exc.strerror or exc})"
+        ) from None
     try:
         # mkstemp creates 0600; a report is an ordinary file (0666 less the umask).
         umask = os.umask(0)

@@ -37,14 +37,34 @@ def deflection_table(review: Review) -> Table | None:
     unit, factor = shown_length(review.analysis.model.units.length.symbol)
     cells = []
     for r in rows:
-        claimed, computed, difference = (_scaled(v, factor) for v in (r.claimed, r.elastic, r.difference))
+        claimed, computed, difference = (
+            _scaled(v, factor) for v in (r.claimed, r.elastic, r.difference)
+        )
         scale = max(abs(v) for v in (claimed, computed, 0.0) if v is not None)
-        cells.append((r.id, r.case, fmt(claimed), fmt(clean_zero(computed, scale)),
-                      difference_text(difference, None, r.written, scale), kind_word(r.status), r.written))
-    header = ("joint.direction", "load column", f"claimed ({unit})", f"computed ({unit})", f"difference ({unit})",
-              "status", "claim as written")
-    intro = (f"Joint displacements in {unit}, positive along the global axis named; computed by the direct "
-             "stiffness method and confirmed below by the unit-load method. " + ELASTIC_NOTE)
+        cells.append(
+            (
+                r.id,
+                r.case,
+                fmt(claimed),
+                fmt(clean_zero(computed, scale)),
+                difference_text(difference, None, r.written, scale),
+                kind_word(r.status),
+                r.written,
+            )
+        )
+    header = (
+        "joint.direction",
+        "load column",
+        f"claimed ({unit})",
+        f"computed ({unit})",
+        f"difference ({unit})",
+        "status",
+        "claim as written",
+    )
+    intro = (
+        f"Joint displacements in {unit}, positive along the global axis named; computed by the direct "
+        "stiffness method and confirmed below by the unit-load method. " + ELASTIC_NOTE
+    )
     return Table("Deflection check", intro, header, tuple(cells), tuple(r.status for r in rows))
 
 
@@ -69,21 +89,37 @@ def unit_load_calcs(review: Review) -> list[UnitLoadCalc]:
     out = []
     cases = getattr(check, "calc_cases", ())
     for calc, case in zip(calcs, cases, strict=True):
-        values = np.array([[r.real_force, r.unit_force, r.length, r.EA, r.term] for r in calc.rows]).reshape(-1, 5)
+        values = np.array(
+            [[r.real_force, r.unit_force, r.length, r.EA, r.term] for r in calc.rows]
+        ).reshape(-1, 5)
         largest = np.abs(values).max(axis=0) if len(values) else np.zeros(5)
         rows = tuple(
-            (r.member, *(fmt(clean_zero(float(v), float(s))) for v, s in zip(row, largest, strict=True)))
+            (
+                r.member,
+                *(fmt(clean_zero(float(v), float(s))) for v, s in zip(row, largest, strict=True)),
+            )
             for r, row in zip(calc.rows, values, strict=True)
         )
         direction = "(" + ", ".join(fmt(c) for c in calc.direction) + ")"
         heading = f"Unit-load calc: joint {calc.joint} along {direction}, load column '{case}'"
-        intro = (f"1 × Δ = Σ n·N·L / (EA): N the real member forces ({fu}, tension positive), n the forces from a unit "
-                 f"load at joint {calc.joint} along {direction} ({calc.unit_load_route}).")
-        result = (f"Δ = Σ = {fmt(calc.deflection, 6)} {lu}"
-                  + (f" = {fmt(calc.deflection * factor, 4)} {unit}" if factor != 1.0 else "")
-                  + (" (negative: the joint moves against the unit load)" if calc.deflection < 0 else ""))
+        intro = (
+            f"1 × Δ = Σ n·N·L / (EA): N the real member forces ({fu}, tension positive), n the forces from a unit "
+            f"load at joint {calc.joint} along {direction} ({calc.unit_load_route})."
+        )
+        result = (
+            f"Δ = Σ = {fmt(calc.deflection, 6)} {lu}"
+            + (f" = {fmt(calc.deflection * factor, 4)} {unit}" if factor != 1.0 else "")
+            + (" (negative: the joint moves against the unit load)" if calc.deflection < 0 else "")
+        )
         if calc.notes:
             result += " " + " ".join(f"Note: {n}" for n in calc.notes)
-        out.append(UnitLoadCalc(heading, intro, ("member", f"N ({fu})", "n (–)", f"L ({lu})", f"EA ({fu})",
-                                                 f"n·N·L/EA ({lu})"), rows, result))
+        out.append(
+            UnitLoadCalc(
+                heading,
+                intro,
+                ("member", f"N ({fu})", "n (–)", f"L ({lu})", f"EA ({fu})", f"n·N·L/EA ({lu})"),
+                rows,
+                result,
+            )
+        )
     return out

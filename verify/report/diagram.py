@@ -116,7 +116,9 @@ def _n(value: float) -> str:
 class _View:
     name: str  # caption, e.g. "Elevation (x-y)"
     axes: tuple[int, int]  # model axes drawn as screen x and screen up
-    up: float = 1.0  # -1 draws the second axis down the page, so a plan seen from above is not mirrored
+    up: float = (
+        1.0  # -1 draws the second axis down the page, so a plan seen from above is not mirrored
+    )
 
 
 def views_for(model: Model) -> list[_View]:
@@ -216,7 +218,9 @@ def _svg(
     implied: np.ndarray | None = None,
 ) -> str:
     ax, ay = view.axes
-    pts = model.xyz[:, [ax, ay]] * np.array([1.0, view.up]) if len(model.joints) else np.zeros((0, 2))
+    pts = (
+        model.xyz[:, [ax, ay]] * np.array([1.0, view.up]) if len(model.joints) else np.zeros((0, 2))
+    )
     lo = pts.min(axis=0) if len(pts) else np.zeros(2)
     hi = pts.max(axis=0) if len(pts) else np.ones(2)
     span = np.maximum(hi - lo, 1e-12)
@@ -297,8 +301,18 @@ def _svg(
     if implied is not None:
         # The loads the claims balance, dashed and in another colour, scaled with the case's own
         # so that the two sets of arrows compare at a glance.
-        out.extend(_loads(model, view, sx, sy, implied, arrows, style=IMPLIED_STYLE,
-                          largest=_largest_load(model, loads, implied)))
+        out.extend(
+            _loads(
+                model,
+                view,
+                sx,
+                sy,
+                implied,
+                arrows,
+                style=IMPLIED_STYLE,
+                largest=_largest_load(model, loads, implied),
+            )
+        )
 
     joints = [
         f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
@@ -328,21 +342,30 @@ def _halo() -> str:
     return 'paint-order="stroke" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round"'
 
 
-CROSSING_AT = 0.3  # where along a member that crosses another its label and mark sit (not the crossing)
+CROSSING_AT = (
+    0.3  # where along a member that crosses another its label and mark sit (not the crossing)
+)
 
 
 def _crossing(model: Model, sx: np.ndarray, sy: np.ndarray) -> set[int]:
     """Members whose drawn lines cross another member's inside both (crossed bracing)."""
     ends = model.ends_index
-    p, q = np.column_stack([sx[ends[:, 0]], sy[ends[:, 0]]]), np.column_stack([sx[ends[:, 1]], sy[ends[:, 1]]])
+    p, q = (
+        np.column_stack([sx[ends[:, 0]], sy[ends[:, 0]]]),
+        np.column_stack([sx[ends[:, 1]], sy[ends[:, 1]]]),
+    )
     lo, hi = np.minimum(p, q), np.maximum(p, q)
     order = np.argsort(lo[:, 0])
     out: set[int] = set()
     for pos, a in enumerate(order.tolist()):
-        for b in order[pos + 1:].tolist():
+        for b in order[pos + 1 :].tolist():
             if lo[b, 0] > hi[a, 0]:
                 break
-            if lo[b, 1] > hi[a, 1] or hi[b, 1] < lo[a, 1] or set(ends[a].tolist()) & set(ends[b].tolist()):
+            if (
+                lo[b, 1] > hi[a, 1]
+                or hi[b, 1] < lo[a, 1]
+                or set(ends[a].tolist()) & set(ends[b].tolist())
+            ):
                 continue
             d1, d2 = q[a] - p[a], q[b] - p[b]
             den = d1[0] * d2[1] - d1[1] * d2[0]
@@ -562,12 +585,18 @@ def _loads(
     return out
 
 
-IMPLIED_STYLE = ("implied-loads", "#D55E00", "5 3")  # orange, dashed: distinct from the case's solid purple
+IMPLIED_STYLE = (
+    "implied-loads",
+    "#D55E00",
+    "5 3",
+)  # orange, dashed: distinct from the case's solid purple
 
 
 def _largest_load(model: Model, loads: np.ndarray | None, implied: np.ndarray) -> float:
     both = [implied] if loads is None else [loads, implied]
-    return max(float(np.linalg.norm(v.reshape(len(model.joints), model.dim), axis=1).max()) for v in both)
+    return max(
+        float(np.linalg.norm(v.reshape(len(model.joints), model.dim), axis=1).max()) for v in both
+    )
 
 
 def _add(a: tuple[float, float] | None, b: tuple[float, float]) -> tuple[float, float]:

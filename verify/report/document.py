@@ -46,8 +46,10 @@ from verify.report.numbers import (
 )
 from verify.report.tables import Table
 
-NOT_CAPACITY = ("This figure compares claimed with recomputed forces; it is not a capacity check and says "
-                "nothing about whether a member is strong enough.")
+NOT_CAPACITY = (
+    "This figure compares claimed with recomputed forces; it is not a capacity check and says "
+    "nothing about whether a member is strong enough."
+)
 LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
 MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
 MAX_APPENDIX_CUTS_LARGE = 30
@@ -69,9 +71,29 @@ MEMBER_COLUMNS = (
     "status",
     "claim as written",
 )
-NUMERIC_COLUMNS = frozenset(("claimed", "joints", "sections", "global", "elastic", "difference", "recomputed",
-                             "decimal", "Rx", "Ry", "Rz", "computed", "case load", "claims balance",
-                             "N", "n", "L", "EA", "n·N·L/EA"))
+NUMERIC_COLUMNS = frozenset(
+    (
+        "claimed",
+        "joints",
+        "sections",
+        "global",
+        "elastic",
+        "difference",
+        "recomputed",
+        "decimal",
+        "Rx",
+        "Ry",
+        "Rz",
+        "computed",
+        "case load",
+        "claims balance",
+        "N",
+        "n",
+        "L",
+        "EA",
+        "n·N·L/EA",
+    )
+)
 
 
 def with_unit(name: str, unit: str) -> str:
@@ -100,7 +122,9 @@ def sha256_file(path: str | Path) -> str | None:
         return None
 
 
-def input_files(review: Review, displacement_file: tuple[str, str] | None = None) -> list[InputFile]:
+def input_files(
+    review: Review, displacement_file: tuple[str, str] | None = None
+) -> list[InputFile]:
     """The case file, every CSV table it names, the claims file and the claimed displacements
     (path, SHA-256 of the bytes read), each with its SHA-256."""
     model = review.analysis.model
@@ -125,7 +149,9 @@ def input_files(review: Review, displacement_file: tuple[str, str] | None = None
         )
     )
     if displacement_file is not None:
-        out.append(InputFile("claimed displacements", displacement_file[0], displacement_file[1] or None))
+        out.append(
+            InputFile("claimed displacements", displacement_file[0], displacement_file[1] or None)
+        )
     return out
 
 
@@ -170,7 +196,11 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
             "Units (case)",
             f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces tension positive",
         ),
-        ("Claims read in", f"{c.unit} ({_unit_source(c.unit_source)})" + "".join(f"; {r}" for r in c.column_readings)),
+        (
+            "Claims read in",
+            f"{c.unit} ({_unit_source(c.unit_source)})"
+            + "".join(f"; {r}" for r in c.column_readings),
+        ),
         (
             "Sign convention of the claims",
             f"{c.sign_words}; {c.support}",
@@ -202,8 +232,7 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
                 "Conditioning",
                 f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by the square of the extent ratio (model size over "
                 f"median member length, {fmt(s.slenderness, 3)}²) = "
-                f"{fmt_ratio(s.scaled_ratio)}"
-                + _conditioning_word(s),
+                f"{fmt_ratio(s.scaled_ratio)}" + _conditioning_word(s),
             )
         )
     elif s.scaled_ratio is not None:
@@ -250,13 +279,8 @@ def _routes(review: Review) -> str:
         used = ["method of joints", "global solve"] + (
             ["section cuts"] if analysis.sections is not None else []
         )
-        return (
-            f"{', '.join(used)} {roundoff_text(analysis.route_disagreement)}"
-            + (
-                " — beyond round-off, check the geometry"
-                if analysis.route_disagreement > 1e-6
-                else ""
-            )
+        return f"{', '.join(used)} {roundoff_text(analysis.route_disagreement)}" + (
+            " — beyond round-off, check the geometry" if analysis.route_disagreement > 1e-6 else ""
         )
     if analysis.elastic is not None:
         assumed = (
@@ -264,8 +288,10 @@ def _routes(review: Review) -> str:
             if getattr(analysis.elastic, "equal_EA_assumed", False)
             else ""
         )
-        return (f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss. "
-                + ELASTIC_CAUTION)
+        return (
+            f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss. "
+            + ELASTIC_CAUTION
+        )
     return ""
 
 
@@ -344,8 +370,16 @@ def member_tables(review: Review) -> list[Table]:
                         r.id,
                         fmt(r.claimed),
                         fmt(r.global_ if r.global_ is not None else r.elastic),
-                        difference_text(r.difference, r.claimed, r.written,
-                                        max(abs(v) for v in (r.claimed, r.global_, r.elastic, 0.0) if v is not None)),
+                        difference_text(
+                            r.difference,
+                            r.claimed,
+                            r.written,
+                            max(
+                                abs(v)
+                                for v in (r.claimed, r.global_, r.elastic, 0.0)
+                                if v is not None
+                            ),
+                        ),
                         r.status,
                         r.written,
                     )
@@ -355,8 +389,17 @@ def member_tables(review: Review) -> list[Table]:
                     Table(
                         f"{label}: reactions",
                         f"Reaction components in {unit}, along the global axes.",
-                        tuple(with_unit(h, unit) for h in ("reaction", "claimed", "recomputed", "difference", "status",
-                                                           "claim as written")),
+                        tuple(
+                            with_unit(h, unit)
+                            for h in (
+                                "reaction",
+                                "claimed",
+                                "recomputed",
+                                "difference",
+                                "status",
+                                "claim as written",
+                            )
+                        ),
                         rcells,
                         tuple(r.status for r in reactions),
                     )
@@ -377,7 +420,10 @@ def member_tables(review: Review) -> list[Table]:
             Table(
                 f"{label}: recomputed only",
                 f"No claims in this load column. Forces in {unit}, tension positive.",
-                tuple(with_unit(h, unit) for h in ("member", "joints", "sections", recomputed_name, "T/C")),
+                tuple(
+                    with_unit(h, unit)
+                    for h in ("member", "joints", "sections", recomputed_name, "T/C")
+                ),
                 tuple(cells_list),
                 ("",) * len(cells_list),
                 note,
@@ -457,7 +503,9 @@ def _member_cells(row: Row) -> tuple[str, ...]:
         sections,
         fmt(_clean_zero(row.global_ if row.global_ is not None else row.elastic, zero)),
         tc(recomputed, zero_tol=zero) if recomputed is not None else "—",
-        difference_text(row.difference, row.claimed, row.written, max(scale, abs(row.claimed or 0.0))),
+        difference_text(
+            row.difference, row.claimed, row.written, max(scale, abs(row.claimed or 0.0))
+        ),
         row.status,
         row.written,
     )
@@ -623,8 +671,12 @@ def _html_blocks(blocks: list[Block], level: int) -> list[str]:
     return out
 
 
-def render_html(review: Review, *, generated: str | None = None,
-                displacement_file: tuple[str, str] | None = None) -> str:
+def render_html(
+    review: Review,
+    *,
+    generated: str | None = None,
+    displacement_file: tuple[str, str] | None = None,
+) -> str:
     model = review.analysis.model
     date = _generated(generated)
     word, summary = _verdict_text(review)
@@ -691,8 +743,12 @@ def render_html(review: Review, *, generated: str | None = None,
 
     loads_table = implied_table(review)
     if loads_table is not None:
-        out.append(f'<section id="implied-loads"><h2>{_e(loads_table.title)}</h2><p>{_e(loads_table.intro)}</p>')
-        out.append(_html_table(loads_table.header, loads_table.rows, loads_table.statuses, css="members"))
+        out.append(
+            f'<section id="implied-loads"><h2>{_e(loads_table.title)}</h2><p>{_e(loads_table.intro)}</p>'
+        )
+        out.append(
+            _html_table(loads_table.header, loads_table.rows, loads_table.statuses, css="members")
+        )
         if loads_table.note:
             out.append(f"<p>{_e(loads_table.note)}</p>")
         out.append("</section>")
@@ -735,8 +791,10 @@ def _deflection_html(review: Review) -> list[str]:
     table = deflection_table(review)
     if table is None:
         return []
-    out = [f'<section id="deflections" class="major"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
-           _html_table(table.header, table.rows, table.statuses, css="members")]
+    out = [
+        f'<section id="deflections" class="major"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
+        _html_table(table.header, table.rows, table.statuses, css="members"),
+    ]
     for calc in unit_load_calcs(review):
         out.append(f"<h3>{_e(calc.heading)}</h3><p>{_e(calc.intro)}</p>")
         out.append(_html_table(calc.header, calc.rows, css="calc"))
@@ -792,8 +850,10 @@ def diagrams_html(review: Review) -> list[str]:
         out.append(f"<h3>{_e(_load_label(review, name))}</h3>")
         implied = implied_vector(review, name)
         if implied is not None:
-            caption += (" Dashed orange arrows: the loads the claimed forces balance, at the joints where they differ "
-                        "from the case's loads (solid arrows).")
+            caption += (
+                " Dashed orange arrows: the loads the claimed forces balance, at the joints where they differ "
+                "from the case's loads (solid arrows)."
+            )
         out.append(
             render_diagram(
                 model,
@@ -820,7 +880,7 @@ def implied_vector(review: Review, name: str) -> np.ndarray | None:
     out = np.zeros(model.dofs)
     for item in items:
         j = model.joint_index[item.joint]
-        out[j * d:(j + 1) * d] = item.implied
+        out[j * d : (j + 1) * d] = item.implied
     return out
 
 
@@ -829,19 +889,44 @@ def implied_table(review: Review, limit: int = 200) -> Table | None:
     if implied is None or not implied.differing:
         return None
     unit = review.analysis.model.units.force.symbol
-    rows = [(item.joint + (" (support)" if item.supported else ""), item.case, _vec(item.load), _vec(item.implied),
-             _vec(item.difference)) for item in implied.differing[:limit]]
+    rows = [
+        (
+            item.joint + (" (support)" if item.supported else ""),
+            item.case,
+            _vec(item.load),
+            _vec(item.implied),
+            _vec(item.difference),
+        )
+        for item in implied.differing[:limit]
+    ]
     undetermined = {n: k for n, k in implied.undetermined.items() if k}
-    intro = (f"Read backwards, joint equilibrium gives the external force the claimed forces balance at every joint "
-             f"where each member has a claim ({unit}, global axes). Listed: the joints where it differs from the case's "
-             "load. At a support, an unclaimed reaction takes up its own direction, so only the free directions tell.")
+    intro = (
+        f"Read backwards, joint equilibrium gives the external force the claimed forces balance at every joint "
+        f"where each member has a claim ({unit}, global axes). Listed: the joints where it differs from the case's "
+        "load. At a support, an unclaimed reaction takes up its own direction, so only the free directions tell."
+    )
     if undetermined:
-        intro += " Not determined (a member there has no claim): " + ", ".join(
-            f"{k} joint(s) in '{n}'" for n, k in undetermined.items()) + "."
-    note = f"{len(implied.differing) - limit} more joints in --json." if len(implied.differing) > limit else ""
-    return Table("Loads the claims balance", intro,
-                 tuple(with_unit(h, unit) for h in ("joint", "load column", "case load", "claims balance", "difference")),
-                 tuple(rows), tuple("" for _ in rows), note)
+        intro += (
+            " Not determined (a member there has no claim): "
+            + ", ".join(f"{k} joint(s) in '{n}'" for n, k in undetermined.items())
+            + "."
+        )
+    note = (
+        f"{len(implied.differing) - limit} more joints in --json."
+        if len(implied.differing) > limit
+        else ""
+    )
+    return Table(
+        "Loads the claims balance",
+        intro,
+        tuple(
+            with_unit(h, unit)
+            for h in ("joint", "load column", "case load", "claims balance", "difference")
+        ),
+        tuple(rows),
+        tuple("" for _ in rows),
+        note,
+    )
 
 
 def _vec(values: tuple[float, ...]) -> str:
@@ -897,19 +982,32 @@ def _backtick_runs(line: str) -> list[str]:
     return runs
 
 
-def render_markdown(review: Review, *, generated: str | None = None,
-                    displacement_file: tuple[str, str] | None = None) -> str:
+def render_markdown(
+    review: Review,
+    *,
+    generated: str | None = None,
+    displacement_file: tuple[str, str] | None = None,
+) -> str:
     model = review.analysis.model
     date = _generated(generated)
     word, summary = _verdict_text(review)
     title = model.title or Path(model.source).name or "truss"
-    out = [f"# Truss review: {_m(title)}", "", f"**Verdict: {_m(word)}** — {_m(summary)}", "", f"*{_m(SHORT_CAUTION)}*", ""]
+    out = [
+        f"# Truss review: {_m(title)}",
+        "",
+        f"**Verdict: {_m(word)}** — {_m(summary)}",
+        "",
+        f"*{_m(SHORT_CAUTION)}*",
+        "",
+    ]
     out.extend(_md_table(("item", "value"), tuple((k, v) for k, v in header_facts(review, date))))
     out += ["", "## Input files", ""]
     out.extend(
         _md_table(
             ("input", "file", "SHA-256"),
-            tuple((f.role, f.path, f.sha256 or f.note) for f in input_files(review, displacement_file)),
+            tuple(
+                (f.role, f.path, f.sha256 or f.note) for f in input_files(review, displacement_file)
+            ),
         )
     )
     extra = notes(review)
@@ -943,7 +1041,12 @@ def render_markdown(review: Review, *, generated: str | None = None,
         for s in sorted(STATUS_STYLES.values(), key=lambda s: s.rank)
         if s.marker
     )
-    out += ["", "## Member table", "", f"Status marks: {_m(legend)}; agreeing claims carry no mark."]
+    out += [
+        "",
+        "## Member table",
+        "",
+        f"Status marks: {_m(legend)}; agreeing claims carry no mark.",
+    ]
     for table in member_tables(review):
         out += ["", f"### {_m(table.title)}", "", _m(table.intro), ""]
         out.extend(_md_table(table.header, table.rows, table.statuses))
@@ -985,18 +1088,28 @@ def render_markdown(review: Review, *, generated: str | None = None,
     return "\n".join(out)
 
 
-def render_document(review: Review, *, fmt: str = "html", generated: str | None = None,
-                    displacement_file: tuple[str, str] | None = None) -> str:
+def render_document(
+    review: Review,
+    *,
+    fmt: str = "html",
+    generated: str | None = None,
+    displacement_file: tuple[str, str] | None = None,
+) -> str:
     """The review report as HTML ("html") or Markdown ("md"); `generated` fixes the date shown.
 
     Control characters (from a claims label: ESC, BEL, CR ...) are written as visible escapes."""
     from verify.errors import escape_controls
 
     if fmt == "html":
-        return escape_controls(render_html(review, generated=generated, displacement_file=displacement_file), keep="\n\t")
+        return escape_controls(
+            render_html(review, generated=generated, displacement_file=displacement_file),
+            keep="\n\t",
+        )
     if fmt in ("md", "markdown"):
-        return escape_controls(render_markdown(review, generated=generated, displacement_file=displacement_file),
-                               keep="\n\t")
+        return escape_controls(
+            render_markdown(review, generated=generated, displacement_file=displacement_file),
+            keep="\n\t",
+        )
     raise ValueError(f"report format must be 'html' or 'md', got {fmt!r}")
 
 

@@ -376,7 +376,11 @@ def appendix_blocks(
                 intro += f" Note: {values.note}."
             blocks.append(
                 Block(
-                    "Exact values", "table", intro, ("member / reaction", f"decimal ({unit})", f"exact ({unit})"), rows
+                    "Exact values",
+                    "table",
+                    intro,
+                    ("member / reaction", f"decimal ({unit})", f"exact ({unit})"),
+                    rows,
                 )
             )
     return blocks

@@ -57,10 +57,13 @@ def value_units(model: Model) -> dict[str, str]:
 def stability_json(model: Model, analysis: Analysis) -> dict[str, Any]:
     return {
         "tool": {"name": "truss-verify", "version": __version__},
-        "case": {"title": model.title, "file": model.source,
-                 "units": {"length": model.units.length.symbol, "force": model.units.force.symbol},
-                 # loads stated as line loads, self-weight, angles or normals, and the joint loads they became
-                 "load_conversions": list(model.conversions)},
+        "case": {
+            "title": model.title,
+            "file": model.source,
+            "units": {"length": model.units.length.symbol, "force": model.units.force.symbol},
+            # loads stated as line loads, self-weight, angles or normals, and the joint loads they became
+            "load_conversions": list(model.conversions),
+        },
         "units": value_units(model),
         "structure": public_structure(analysis.stability.as_dict()),
         "caution": CAUTION,
@@ -83,30 +86,36 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
     routes: dict[str, Any] = {}
     if analysis.joints is not None:
         routes["joints"] = {
-            name: {m: float(analysis.joints.forces.member_forces[i, k]) for i, m in enumerate(model.member_ids)}
+            name: {
+                m: float(analysis.joints.forces.member_forces[i, k])
+                for i, m in enumerate(model.member_ids)
+            }
             for k, name in enumerate(model.load_names)
         }
         routes["joint_order"] = analysis.joints.order
     sections = analysis.sections
     if sections is not None:
-        sf = sections.forces  # type: ignore[attr-defined]
+        sf = sections.forces
         routes["sections"] = {
             name: {m: float(sf.member_forces[i, k]) for i, m in enumerate(model.member_ids)}
             for k, name in enumerate(model.load_names)
         }
-        routes["section_coverage"] = sections.coverage  # type: ignore[attr-defined]
+        routes["section_coverage"] = sections.coverage
     data["routes"] = routes
     data["route_disagreement"] = analysis.route_disagreement
     data["route"] = ref.route
     elastic = analysis.elastic
     if elastic is not None:
-        disp = elastic.displacements  # type: ignore[attr-defined]
+        disp = elastic.displacements
         d = model.dim
         data["displacements"] = {
-            name: {j.id: [float(x) for x in disp[i * d:(i + 1) * d, k]] for i, j in enumerate(model.joints)}
+            name: {
+                j.id: [float(x) for x in disp[i * d : (i + 1) * d, k]]
+                for i, j in enumerate(model.joints)
+            }
             for k, name in enumerate(model.load_names)
         }
-        data["equal_EA_assumed"] = bool(elastic.equal_EA_assumed)  # type: ignore[attr-defined]
+        data["equal_EA_assumed"] = bool(elastic.equal_EA_assumed)
         data["elastic_caution"] = ELASTIC_CAUTION
     data["notes"] = list(analysis.notes)
     return data
@@ -121,15 +130,22 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
 
     model = review.analysis.model
     force, length = model.units.force.symbol, model.units.length.symbol
-    inputs = {"case": model.source, "case_sha256": sha256_file(model.source), "claims": review.claims.source,
-              "claims_sha256": review.claims.sha256}
+    inputs = {
+        "case": model.source,
+        "case_sha256": sha256_file(model.source),
+        "claims": review.claims.source,
+        "claims_sha256": review.claims.sha256,
+    }
     if displacement_file is not None:
         inputs["displacements"], inputs["displacements_sha256"] = displacement_file
     return {
         "verdict": review.verdict.value,
         "structure": public_structure(review.analysis.stability.as_dict()),
         "convention": public_convention(review.convention.as_dict(), force),
-        "members": [public_row(row.as_dict(), length if row.kind == "displacement" else force) for row in review.rows],
+        "members": [
+            public_row(row.as_dict(), length if row.kind == "displacement" else force)
+            for row in review.rows
+        ],
         "findings": [public_finding(f.as_dict()) for f in review.findings],
         "summary": {
             "members_checked": review.checked_members,
@@ -137,20 +153,28 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
             "cases_checked": list(review.checked_cases),
             "cases_total": list(model.load_names),
         },
-        "tolerance": {"relative": review.tolerance.rtol, "fraction_of_largest_force": review.tolerance.atol_fraction},
+        "tolerance": {
+            "relative": review.tolerance.rtol,
+            "fraction_of_largest_force": review.tolerance.atol_fraction,
+        },
         "imbalances": [
             {"joint": b.joint, "case": b.case, "residual": list(b.residual), "size": b.size}
             for b in review.imbalances
         ],
         "implied_loads": review.implied.by_case() if review.implied is not None else {},
-        "implied_load_table": [item.as_dict() for item in review.implied.differing] if review.implied is not None else [],
+        "implied_load_table": [item.as_dict() for item in review.implied.differing]
+        if review.implied is not None
+        else [],
         "units": value_units(model),
         "load_conversions": list(model.conversions),
         "inputs": inputs,
         "tool": {"name": "truss-verify", "version": __version__},
         "notes": list(review.notes),
         "caution": CAUTION,
-        **({"elastic_caution": ELASTIC_CAUTION}
-           if review.analysis.elastic is not None and (review.analysis.global_ is None or review.displacements is not None)
-           else {}),
+        **(
+            {"elastic_caution": ELASTIC_CAUTION}
+            if review.analysis.elastic is not None
+            and (review.analysis.global_ is None or review.displacements is not None)
+            else {}
+        ),
     }

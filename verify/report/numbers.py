@@ -9,14 +9,25 @@ if TYPE_CHECKING:
 
 from verify.formatting import clean_zero, decimals_in, fmt, fmt_fixed, fmt_percent, fmt_ratio, tc
 
-__all__ = ["clean_zero", "difference_text", "fmt", "fmt_fixed", "fmt_percent", "fmt_ratio", "plain_table",
-           "roundoff_text", "tc"]
+__all__ = [
+    "clean_zero",
+    "difference_text",
+    "fmt",
+    "fmt_fixed",
+    "fmt_percent",
+    "fmt_ratio",
+    "plain_table",
+    "roundoff_text",
+    "tc",
+]
 
 GUARD_DECIMALS = 1  # one decimal beyond the claim's own (see difference_text)
 ROUNDOFF = 1e-9  # routes agreeing closer than this fraction of the largest force agree to round-off
 
 
-def difference_text(difference: float | None, claimed: float | None, written: str, scale: float) -> str:
+def difference_text(
+    difference: float | None, claimed: float | None, written: str, scale: float
+) -> str:
     """claimed − recomputed to the precision the claim was written in, plus one guard decimal
     ('12.4' -> 2 places): at the claim's own precision, 173.3 against 173.25 would read
     "difference 0.1" beside two values both shown as 173.3; the guard decimal shows it is 0.05,
@@ -67,8 +78,10 @@ def plain_table(headers: list[str], rows: list[list[str]]) -> str:
         for k, cell in enumerate(row):
             if len(cell) > widths[k]:
                 widths[k] = len(cell)
-    lines = ["  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)),
-             "  ".join("-" * w for w in widths)]
+    lines = [
+        "  ".join(h.rjust(w) for h, w in zip(headers, widths, strict=True)),
+        "  ".join("-" * w for w in widths),
+    ]
     lines.extend("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)) for row in rows)
     return "\n".join(lines)
 

@@ -16,14 +16,20 @@ def verdict_line(review: Review) -> str:
     model = review.analysis.model
     checked = f"{review.checked_members} of {len(model.members)} members in {len(review.checked_cases)} of {len(model.load_names)} load cases/combinations checked"
     if review.analysis.reference is None:
-        checked = (f"{review.checked_members} of {len(model.members)} members claimed; no forces recomputed, "
-                   "so only the equilibrium of the claims was checked")
+        checked = (
+            f"{review.checked_members} of {len(model.members)} members claimed; no forces recomputed, "
+            "so only the equilibrium of the claims was checked"
+        )
     if review.analysis.assumed_EA is not None:
-        checked += f"; EQUAL EA ASSUMED ({fmt(review.analysis.assumed_EA, 6)} {model.units.force.symbol})"
+        checked += (
+            f"; EQUAL EA ASSUMED ({fmt(review.analysis.assumed_EA, 6)} {model.units.force.symbol})"
+        )
     if review.verdict.value == "agrees":
         if any(f.kind == "not-elastic" for f in review.findings):
-            return (f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
-                    f"elastic solution the difference is a state of self-stress ({checked})")
+            return (
+                f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
+                f"elastic solution the difference is a state of self-stress ({checked})"
+            )
         return f"AGREES — every claim checked agrees within tolerance ({checked})"
     if review.verdict.value == "discrepancies":
         return f"DISCREPANCIES — {errors} finding(s) need attention ({checked})"
@@ -32,9 +38,19 @@ def verdict_line(review: Review) -> str:
 
 def _row_cells(row: Row) -> list[str]:
     recomputed = row.global_ if row.global_ is not None else row.elastic
-    scale = max((abs(v) for v in (row.claimed, row.joints, recomputed) if v is not None), default=0.0)
-    return [row.id, row.case, fmt(row.claimed), fmt(row.joints), fmt(row.sections), fmt(recomputed),
-            difference_text(row.difference, row.claimed, row.written, scale), kind_word(row.status)]
+    scale = max(
+        (abs(v) for v in (row.claimed, row.joints, recomputed) if v is not None), default=0.0
+    )
+    return [
+        row.id,
+        row.case,
+        fmt(row.claimed),
+        fmt(row.joints),
+        fmt(row.sections),
+        fmt(recomputed),
+        difference_text(row.difference, row.claimed, row.written, scale),
+        kind_word(row.status),
+    ]
 
 
 def _vector(values: tuple[float, ...]) -> str:
@@ -48,14 +64,38 @@ def implied_lines(review: Review, limit: int = 40) -> list[str]:
         return []
     unit = review.analysis.model.units.force.symbol
     undetermined = {n: k for n, k in implied.undetermined.items() if k}
-    told = ("; not determined at " + ", ".join(f"{k} joint(s) in '{n}'" for n, k in undetermined.items())
-            + " (a member there has no claim)") if undetermined else ""
-    rows = [[item.joint + (" (support)" if item.supported else ""), item.case, _vector(item.load), _vector(item.implied),
-             _vector(item.difference)] for item in implied.differing[:limit]]
-    out = ["", f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, global axes{told}):",
-           plain_table(["joint", "load column"] + [f"{h} ({unit})" for h in ("case load", "claims balance", "difference")], rows)]
+    told = (
+        (
+            "; not determined at "
+            + ", ".join(f"{k} joint(s) in '{n}'" for n, k in undetermined.items())
+            + " (a member there has no claim)"
+        )
+        if undetermined
+        else ""
+    )
+    rows = [
+        [
+            item.joint + (" (support)" if item.supported else ""),
+            item.case,
+            _vector(item.load),
+            _vector(item.implied),
+            _vector(item.difference),
+        ]
+        for item in implied.differing[:limit]
+    ]
+    out = [
+        "",
+        f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, global axes{told}):",
+        plain_table(
+            ["joint", "load column"]
+            + [f"{h} ({unit})" for h in ("case load", "claims balance", "difference")],
+            rows,
+        ),
+    ]
     if len(implied.differing) > limit:
-        out.append(f"({len(implied.differing) - limit} more joints: --json or --report lists them all)")
+        out.append(
+            f"({len(implied.differing) - limit} more joints: --json or --report lists them all)"
+        )
     return out
 
 
@@ -63,16 +103,31 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     model = review.analysis.model
     c = review.convention
     lines = [verdict_line(review), ""]
-    lines.append(f"Case: {model.title or model.source}   Claims: {review.claims.source}"
-                 + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else ""))
-    source = {"table": "stated in the table", "option": "stated with --unit", "assumed": "not stated; the case's unit assumed"}.get(c.unit_source, c.unit_source)
-    scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(f"; {r}" for r in c.column_readings)
-    lines.append(f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); evidence: {c.support}")
-    lines.append(f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, {fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
-                 "half a unit in the last written decimal" + "".join(f"; {w}" for w in review.tolerance.widened))
+    lines.append(
+        f"Case: {model.title or model.source}   Claims: {review.claims.source}"
+        + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else "")
+    )
+    source = {
+        "table": "stated in the table",
+        "option": "stated with --unit",
+        "assumed": "not stated; the case's unit assumed",
+    }.get(c.unit_source, c.unit_source)
+    scaled = (f", read {c.scale_reason}" if c.scale_reason else "") + "".join(
+        f"; {r}" for r in c.column_readings
+    )
+    lines.append(
+        f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); evidence: {c.support}"
+    )
+    lines.append(
+        f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, {fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
+        "half a unit in the last written decimal"
+        + "".join(f"; {w}" for w in review.tolerance.widened)
+    )
     s = review.analysis.stability
-    lines.append(f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
-                 f"{s.mechanisms} mechanism(s), {s.self_stress} state(s) of self-stress")
+    lines.append(
+        f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
+        f"{s.mechanisms} mechanism(s), {s.self_stress} state(s) of self-stress"
+    )
     lines.append("")
     if review.findings:
         lines.append("Findings (most serious first):")
@@ -84,13 +139,23 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         lines.append("Findings: none")
     lines.append("")
     displacement_rows = [r for r in review.rows if r.kind == "displacement"]
-    shown = [r for r in review.rows if r.kind != "displacement" and (all_rows or r.status != "missing-claim")]
+    shown = [
+        r
+        for r in review.rows
+        if r.kind != "displacement" and (all_rows or r.status != "missing-claim")
+    ]
     force = model.units.force.symbol
-    headers = ["member", "case"] + [f"{h} ({force})" for h in ("claimed", "joints", "sections", "recomputed", "difference")] + ["status"]
+    headers = (
+        ["member", "case"]
+        + [f"{h} ({force})" for h in ("claimed", "joints", "sections", "recomputed", "difference")]
+        + ["status"]
+    )
     if not all_rows and len(shown) > MAX_ROWS:
         bad = [r for r in shown if r.status != "agrees"]
         shown = (bad + [r for r in shown if r.status == "agrees"])[:MAX_ROWS]
-        lines.append(f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for everything), {model.units.force.symbol}, tension positive:")
+        lines.append(
+            f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for everything), {model.units.force.symbol}, tension positive:"
+        )
     else:
         lines.append(f"Member table ({model.units.force.symbol}, tension positive):")
     lines.append(plain_table(headers, [_row_cells(r) for r in shown]))
@@ -100,21 +165,39 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         unit = "mm" if length == "m" else length
         lines.append("")
         lines.append(f"Joint displacements ({unit}; claimed vs direct stiffness method):")
-        lines.append(plain_table(["joint.axis", "case"] + [f"{h} ({unit})" for h in ("claimed", "recomputed", "difference")] + ["status"], [
-            [r.id, r.case, fmt(None if r.claimed is None else r.claimed * factor_mm),
-             fmt(None if r.elastic is None else r.elastic * factor_mm),
-             fmt(None if r.difference is None else r.difference * factor_mm), r.status] for r in displacement_rows]))
+        lines.append(
+            plain_table(
+                ["joint.axis", "case"]
+                + [f"{h} ({unit})" for h in ("claimed", "recomputed", "difference")]
+                + ["status"],
+                [
+                    [
+                        r.id,
+                        r.case,
+                        fmt(None if r.claimed is None else r.claimed * factor_mm),
+                        fmt(None if r.elastic is None else r.elastic * factor_mm),
+                        fmt(None if r.difference is None else r.difference * factor_mm),
+                        r.status,
+                    ]
+                    for r in displacement_rows
+                ],
+            )
+        )
     lines.extend(implied_lines(review))
     missing = sum(1 for r in review.rows if r.status == "missing-claim")
     if missing and not all_rows:
-        lines.append(f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)")
+        lines.append(
+            f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)"
+        )
     lines.extend(f"note: {n}" for n in review.notes)
     check = review.displacements
     if check is not None and getattr(check, "calcs", None):
         from verify.analysis.virtual_work import render_virtual_work
 
         lines.append("")
-        lines.append("Deflection by the unit-load (virtual work) method, 1 x delta = sum n N L / (EA):")
+        lines.append(
+            "Deflection by the unit-load (virtual work) method, 1 x delta = sum n N L / (EA):"
+        )
         for calc, case in zip(check.calcs, check.calc_cases, strict=True):  # type: ignore[attr-defined]
             lines.append(f"\nLoad column '{case}':")
             lines.append(render_virtual_work(calc, model))

@@ -137,25 +137,46 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
     lines = cut_lines(model, cut)
     known = {m: f[column] for m, f in zip(cut.known_members, cut.known_forces, strict=True)}
     # zero-force judgement relative to the loads of the whole column, not just the kept side
-    scale = max([float(np.abs(model.load_matrix()[:, column]).max(initial=0.0))]
-                + [float(np.abs(x.force).max()) for x in external] + [abs(v) for v in known.values()]
-                + [abs(v) for v in values.values()] + [1e-300])
+    scale = max(
+        [float(np.abs(model.load_matrix()[:, column]).max(initial=0.0))]
+        + [float(np.abs(x.force).max()) for x in external]
+        + [abs(v) for v in known.values()]
+        + [abs(v) for v in values.values()]
+        + [1e-300]
+    )
     out: list[str] = []
     kept = cut.kept_joints
-    shape = "straight cut" if cut.straight else "the joints on one side of the cut members, found by connectivity"
-    out.append(f"Section for member {cut.target}, load '{load_name}' (forces in {fu}, lengths in {lu})")
-    listed = ", ".join(kept) if len(kept) <= MAX_LISTED_JOINTS else (
-        ", ".join(kept[:MAX_LISTED_JOINTS]) + f", ... ({len(kept)} joints)")
+    shape = (
+        "straight cut"
+        if cut.straight
+        else "the joints on one side of the cut members, found by connectivity"
+    )
+    out.append(
+        f"Section for member {cut.target}, load '{load_name}' (forces in {fu}, lengths in {lu})"
+    )
+    listed = (
+        ", ".join(kept)
+        if len(kept) <= MAX_LISTED_JOINTS
+        else (", ".join(kept[:MAX_LISTED_JOINTS]) + f", ... ({len(kept)} joints)")
+    )
     out.append(f"  Free body kept ({shape}): {listed}")
-    out.append("  Cut members (each force drawn as tension, pulling the free body toward the far joint):")
+    out.append(
+        "  Cut members (each force drawn as tension, pulling the free body toward the far joint):"
+    )
     for member, joint, p, e in lines:
-        status = (f"known: {_n(known[member])} {fu} from an earlier cut" if member in known else "unknown")
-        out.append(f"    {member}: at joint {joint} {_vec(p, _extent(model))}, direction {_vec(e)}; {status}")
+        status = (
+            f"known: {_n(known[member])} {fu} from an earlier cut" if member in known else "unknown"
+        )
+        out.append(
+            f"    {member}: at joint {joint} {_vec(p, _extent(model))}, direction {_vec(e)}; {status}"
+        )
     reactions = [x for x in external if x.kind == "reaction"]
     loads = [x for x in external if x.kind == "load"]
     if reactions:
-        out.append("  Reactions on the free body (from overall equilibrium): "
-                   + ", ".join(f"{x.label} = {_n(x.value)} {fu}" for x in reactions))
+        out.append(
+            "  Reactions on the free body (from overall equilibrium): "
+            + ", ".join(f"{x.label} = {_n(x.value)} {fu}" for x in reactions)
+        )
     else:
         out.append("  Reactions on the free body: none (no support on the kept side)")
     if loads:
@@ -167,8 +188,10 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
 
     target_line = next(ln for ln in lines if ln[0] == cut.target)
     if cut.method == LEAST_SQUARES:
-        out.append(f"  Equations: the {3 if d == 2 else 6} equilibrium equations of the free body "
-                   "(ΣF = 0, ΣM = 0) solved together; the rank test shows they fix this member")
+        out.append(
+            f"  Equations: the {3 if d == 2 else 6} equilibrium equations of the free body "
+            "(ΣF = 0, ΣM = 0) solved together; the rank test shows they fix this member"
+        )
     else:
         out.extend(_equation_text(model, cut, external, lines, known, fu, lu))
         coef_t = equation_row(model, cut, target_line[2], target_line[3])
@@ -184,8 +207,10 @@ def render_cut(model: Model, cut: SectionCut, load_name: str, *, exact: bool = T
     out.append(text)
     others = [m for m in values if m != cut.target]
     if others:
-        out.append("  The same free body also gives: " + ", ".join(
-            f"N({m}) = {_n(values[m])} {fu} ({_tc(values[m], scale)})" for m in others))
+        out.append(
+            "  The same free body also gives: "
+            + ", ".join(f"N({m}) = {_n(values[m])} {fu} ({_tc(values[m], scale)})" for m in others)
+        )
     return "\n".join(out) + "\n"
 
 
@@ -194,21 +219,29 @@ def _paren(x: float) -> str:
     return f"({text})" if text.startswith("-") else text
 
 
-def _equation_text(model: Model, cut: SectionCut, external, lines, known, fu: str, lu: str) -> list[str]:
+def _equation_text(
+    model: Model, cut: SectionCut, external, lines, known, fu: str, lu: str
+) -> list[str]:
     d = model.dim
     out: list[str] = []
     elim = ", ".join(cut.eliminated)
     if cut.method == MOMENTS:
         extent = _extent(model)
-        where = (f"joint {cut.moment_joint} {_vec(cut.moment_point, extent)}" if cut.moment_joint
-                 else f"the point {_vec(cut.moment_point, extent)}")
+        where = (
+            f"joint {cut.moment_joint} {_vec(cut.moment_point, extent)}"
+            if cut.moment_joint
+            else f"the point {_vec(cut.moment_point, extent)}"
+        )
         if d == 2:
             head = f"  ΣM about {where} = 0, anticlockwise positive"
         else:
             head = f"  ΣM about the axis through {where} along {_vec(cut.axis)} = 0"
         if elim:
-            head += (f"; the lines of {elim} pass through it, so they drop out" if d == 2 else
-                     f"; the lines of {elim} meet the axis or run parallel to it, so they drop out")
+            head += (
+                f"; the lines of {elim} pass through it, so they drop out"
+                if d == 2
+                else f"; the lines of {elim} meet the axis or run parallel to it, so they drop out"
+            )
         out.append(head)
         out.append(f"    force ({fu}) × lever arm ({lu}) = moment ({fu}·{lu}):")
     else:
@@ -229,11 +262,15 @@ def _equation_text(model: Model, cut: SectionCut, external, lines, known, fu: st
             if coef == 0:
                 continue
             what = "reaction" if x.kind == "reaction" else "load at"
-            terms.append(f"    {what} {x.label} F{axes[k]} = {_n(x.force[k])} × {_n(coef)} = {_n(x.force[k] * coef)}")
+            terms.append(
+                f"    {what} {x.label} F{axes[k]} = {_n(x.force[k])} × {_n(coef)} = {_n(x.force[k] * coef)}"
+            )
     for member, _, p, e in lines:
         coef = equation_row(model, cut, p, e)
         if member in known:
-            terms.append(f"    N({member}) = {_n(known[member])} (known) × {_n(coef)} = {_n(known[member] * coef)}")
+            terms.append(
+                f"    N({member}) = {_n(known[member])} (known) × {_n(coef)} = {_n(known[member] * coef)}"
+            )
         elif member == cut.target:
             terms.append(f"    N({member}) × {_n(coef)}")
     if len(terms) > MAX_TERMS + 1:
@@ -242,8 +279,9 @@ def _equation_text(model: Model, cut: SectionCut, external, lines, known, fu: st
     return out + terms
 
 
-def _exact_target(model: Model, cut: SectionCut, column: int, external, lines, known, value: float,
-                  scale: float) -> str | None:
+def _exact_target(
+    model: Model, cut: SectionCut, column: int, external, lines, known, value: float, scale: float
+) -> str | None:
     if len(external) + len(lines) > MAX_EXACT_TERMS:
         return None
     ex = _Exact(model)
@@ -295,12 +333,19 @@ def render_reactions(model: Model, load_name: str, *, exact: bool = True) -> str
     first = solve_reactions(model)
     need = 3 if d == 2 else 6
     title = load_title(model, load_name)
-    out = [f"Reactions from overall equilibrium, {title[0].lower()}{title[1:]} (forces in {fu}, lengths in {lu})"]
+    out = [
+        f"Reactions from overall equilibrium, {title[0].lower()}{title[1:]} (forces in {fu}, lengths in {lu})"
+    ]
     if first is None:
-        why = (f"there are {len(model.reactions)} reaction components, not {need}"
-               if len(model.reactions) != need else "the supports are parallel or concurrent")
-        out.append(f"  Not possible: {why}. The method of sections then uses only free bodies "
-                   "without supports.")
+        why = (
+            f"there are {len(model.reactions)} reaction components, not {need}"
+            if len(model.reactions) != need
+            else "the supports are parallel or concurrent"
+        )
+        out.append(
+            f"  Not possible: {why}. The method of sections then uses only free bodies "
+            "without supports."
+        )
         return "\n".join(out) + "\n"
     R, point, pivot = first
     G, E = overall_equilibrium_matrix(model, point)
@@ -308,18 +353,28 @@ def render_reactions(model: Model, load_name: str, *, exact: bool = True) -> str
     loaded = [j for j in range(len(model.joints)) if np.any(F[j] != 0)]
     labels = [r.label for r in model.reactions]
     if d == 2:
-        rows = [(2, f"ΣM about joint {pivot} = 0 (anticlockwise positive)"), (0, "ΣFx = 0"), (1, "ΣFy = 0")]
+        rows = [
+            (2, f"ΣM about joint {pivot} = 0 (anticlockwise positive)"),
+            (0, "ΣFx = 0"),
+            (1, "ΣFy = 0"),
+        ]
     else:
-        rows = [(3 + k, f"ΣM about the {a}-axis through joint {pivot} = 0") for k, a in enumerate("xyz")]
+        rows = [
+            (3 + k, f"ΣM about the {a}-axis through joint {pivot} = 0") for k, a in enumerate("xyz")
+        ]
         rows += [(k, f"ΣF{a} = 0") for k, a in enumerate("xyz")]
     solved: set[int] = set()
-    scale = max(float(np.abs(F).max(initial=0.0)), float(np.abs(R[:, column]).max(initial=0.0)), 1e-300)
+    scale = max(
+        float(np.abs(F).max(initial=0.0)), float(np.abs(R[:, column]).max(initial=0.0)), 1e-300
+    )
     for row, title in rows:
-        terms = [f"{_n(G[row, k])}·{labels[k]}" for k in range(len(labels)) if abs(G[row, k]) > 1e-12]
+        terms = [
+            f"{_n(G[row, k])}·{labels[k]}" for k in range(len(labels)) if abs(G[row, k]) > 1e-12
+        ]
         load_terms = []
         for j in loaded:
             rel = model.xyz[j] - point
-            contribution = (_load_row(rel, F[j], row, d))
+            contribution = _load_row(rel, F[j], row, d)
             if abs(contribution) > 0:
                 load_terms.append(f"{model.joints[j].id}: {_n(contribution)}")
         text = " + ".join(terms) if terms else "0"
@@ -352,7 +407,9 @@ def _load_row(rel: np.ndarray, f: np.ndarray, row: int, d: int) -> float:
     return float(np.cross(rel, f)[row - 3])
 
 
-def _exact_reaction_values(ex: _Exact, point: np.ndarray, column: int, scale: float) -> list[Any] | None:
+def _exact_reaction_values(
+    ex: _Exact, point: np.ndarray, column: int, scale: float
+) -> list[Any] | None:
     """The reactions solved again in exact arithmetic from nice-number geometry and loads."""
     model = ex.model
     if len(model.joints) > MAX_EXACT_TERMS:
@@ -385,7 +442,9 @@ def _exact_reaction_values(ex: _Exact, point: np.ndarray, column: int, scale: fl
     return [solution[k] for k in range(len(model.reactions))]
 
 
-def _exact_reactions(model: Model, point: np.ndarray, column: int, decimals: np.ndarray, scale: float) -> list[str] | None:
+def _exact_reactions(
+    model: Model, point: np.ndarray, column: int, decimals: np.ndarray, scale: float
+) -> list[str] | None:
     ex = _Exact(model)
     values = _exact_reaction_values(ex, point, column, scale)
     if values is None:

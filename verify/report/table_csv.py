@@ -42,17 +42,44 @@ def render_csv(review: Review) -> str:
     unit = review.analysis.model.units.force.symbol
     length = review.analysis.model.units.length.symbol
     # Displacements are lengths: they get columns of their own, never a force heading.
-    writer.writerow(["id", "kind", "case", f"claimed ({unit})", f"joints ({unit})", f"sections ({unit})",
-                     f"global ({unit})", f"elastic ({unit})", f"difference ({unit})",
-                     f"claimed displacement ({length})", f"recomputed displacement ({length})",
-                     f"displacement difference ({length})", "status"])
+    writer.writerow(
+        [
+            "id",
+            "kind",
+            "case",
+            f"claimed ({unit})",
+            f"joints ({unit})",
+            f"sections ({unit})",
+            f"global ({unit})",
+            f"elastic ({unit})",
+            f"difference ({unit})",
+            f"claimed displacement ({length})",
+            f"recomputed displacement ({length})",
+            f"displacement difference ({length})",
+            "status",
+        ]
+    )
     for row in review.rows:
         cells: list[object] = [neutralise(row.id), row.kind, neutralise(row.case)]
-        scale = max((abs(v) for v in (row.claimed, row.joints, row.global_, row.elastic) if v is not None), default=0.0)
+        scale = max(
+            (abs(v) for v in (row.claimed, row.joints, row.global_, row.elastic) if v is not None),
+            default=0.0,
+        )
         if row.kind == "displacement":
-            values: tuple[float | None, ...] = (None,) * 6 + (row.claimed, row.elastic, row.difference)
+            values: tuple[float | None, ...] = (None,) * 6 + (
+                row.claimed,
+                row.elastic,
+                row.difference,
+            )
         else:
-            values = (row.claimed, row.joints, row.sections, row.global_, row.elastic, row.difference) + (None,) * 3
+            values = (
+                row.claimed,
+                row.joints,
+                row.sections,
+                row.global_,
+                row.elastic,
+                row.difference,
+            ) + (None,) * 3
         cells.extend(data_number(value, scale) for value in values)
         cells.append(kind_word(row.status))
         writer.writerow(cells)
@@ -60,7 +87,12 @@ def render_csv(review: Review) -> str:
     # the table clean): what the elastic column rests on, and the caution every output carries.
     writer.writerow([])
     if getattr(review.analysis.elastic, "equal_EA_assumed", False):
-        writer.writerow(["note", f"EQUAL EA ASSUMED for every member (--assume-equal-ea {fmt(review.analysis.assumed_EA, 6)}, in {unit}): "
-                                 "the elastic column depends on that assumption"])
+        writer.writerow(
+            [
+                "note",
+                f"EQUAL EA ASSUMED for every member (--assume-equal-ea {fmt(review.analysis.assumed_EA, 6)}, in {unit}): "
+                "the elastic column depends on that assumption",
+            ]
+        )
     writer.writerow(["caution", CAUTION])
     return out.getvalue()

@@ -30,8 +30,13 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         lines.append(
             f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by extent ratio^2 "
             f"({fmt(s.slenderness, 3)}^2) = {fmt_ratio(s.scaled_ratio)}"
-            + ("  NEAR-MECHANISM" if s.ill_conditioned else
-               f"  (well conditioned; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})" if s.is_stable else "")
+            + (
+                "  NEAR-MECHANISM"
+                if s.ill_conditioned
+                else f"  (well conditioned; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})"
+                if s.is_stable
+                else ""
+            )
         )
     elif s.scaled_ratio is not None:
         lines.append(f"  LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}")
@@ -42,12 +47,22 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         verdict += f" ({s.mechanisms}{'+' if not s.exact_counts else ''} mechanism{'s' if s.mechanisms != 1 else ''})"
     lines.append(f"Verdict: {verdict}")
     for k, mode in enumerate(s.mechanism_modes, 1):
-        moves = ", ".join(f"{j} ({', '.join(fmt(c, 2) for c in v)})" for j, v in zip(mode.joints[:8], mode.motions[:8], strict=False))
+        moves = ", ".join(
+            f"{j} ({', '.join(fmt(c, 2) for c in v)})"
+            for j, v in zip(mode.joints[:8], mode.motions[:8], strict=False)
+        )
         kind = "rigid-body" if mode.rigid_body else "internal"
-        lines.append(f"  mechanism {k} ({kind}): joints that move (direction): {moves}{' ...' if len(mode.joints) > 8 else ''}")
+        lines.append(
+            f"  mechanism {k} ({kind}): joints that move (direction): {moves}{' ...' if len(mode.joints) > 8 else ''}"
+        )
     for k, state in enumerate(s.self_stress_modes, 1):
-        carried = ", ".join(f"{m} ({fmt(v, 3)})" for m, v in zip(state.members[:10], state.values[:10], strict=False))
-        lines.append(f"  self-stress {k}: members that carry it (relative force): {carried}{' ...' if len(state.members) > 10 else ''}")
+        carried = ", ".join(
+            f"{m} ({fmt(v, 3)})"
+            for m, v in zip(state.members[:10], state.values[:10], strict=False)
+        )
+        lines.append(
+            f"  self-stress {k}: members that carry it (relative force): {carried}{' ...' if len(state.members) > 10 else ''}"
+        )
     lines.extend(f"  note: {n}" for n in s.notes)
     return "\n".join(lines)
 
@@ -76,15 +91,22 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     note = ""
     if not all_rows and len(model.members) > MAX_TEXT_MEMBERS:
         # The members a checker looks at first: the largest tension and compression.
-        order = np.argsort(-np.abs(np.nan_to_num(ref.member_forces[:, k])), kind="stable")[:MAX_TEXT_MEMBERS]
+        order = np.argsort(-np.abs(np.nan_to_num(ref.member_forces[:, k])), kind="stable")[
+            :MAX_TEXT_MEMBERS
+        ]
         shown = sorted(int(i) for i in order)
-        note = (f"\n({len(model.members) - MAX_TEXT_MEMBERS} members with smaller forces are not listed; "
-                "--all-rows lists every member, --json gives every value)")
+        note = (
+            f"\n({len(model.members) - MAX_TEXT_MEMBERS} members with smaller forces are not listed; "
+            "--all-rows lists every member, --json gives every value)"
+        )
     for i in shown:
         member = model.members[i]
         value = float(ref.member_forces[i, k])
         row = [member.id, fmt(value if abs(value) > zero else 0.0), tc(value, zero_tol=zero)]
-        row.extend(fmt(float(v[i]) if abs(v[i]) > zero else 0.0) if np.isfinite(v[i]) else "not reached" for _, v in routes)
+        row.extend(
+            fmt(float(v[i]) if abs(v[i]) > zero else 0.0) if np.isfinite(v[i]) else "not reached"
+            for _, v in routes
+        )
         rows.append(row)
     table = plain_table(headers, rows)
     reactions = ref.reaction_vectors(model, load_name)
@@ -93,31 +115,49 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
     # reaction prints as 0.
     acting: dict[str, set[str]] = {}
     for r in model.reactions:
-        acting.setdefault(r.joint, set()).update(AXIS_NAMES[: model.dim] if r.axis == "n" else r.axis)
+        acting.setdefault(r.joint, set()).update(
+            AXIS_NAMES[: model.dim] if r.axis == "n" else r.axis
+        )
     rzero = 1e-9 * max((abs(c) for vec in reactions.values() for c in vec), default=0.0)
-    rrows = [[j] + [(fmt(c if abs(c) > rzero else 0.0) if a in acting[j] else "—") for a, c in zip(AXIS_NAMES, vec, strict=False)]
-             for j, vec in reactions.items()]
+    rrows = [
+        [j]
+        + [
+            (fmt(c if abs(c) > rzero else 0.0) if a in acting[j] else "—")
+            for a, c in zip(AXIS_NAMES, vec, strict=False)
+        ]
+        for j, vec in reactions.items()
+    ]
     rtable = plain_table(["support"] + [f"R{a} ({unit})" for a in AXIS_NAMES[: model.dim]], rrows)
     return f"{table}{note}\n\nReactions ({model.units.force.symbol}):\n{rtable}"
 
 
-def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False, load_names: list[str] | None = None) -> str:
+def render_solution(
+    model: Model, analysis: Analysis, *, all_rows: bool = False, load_names: list[str] | None = None
+) -> str:
     parts = []
     unit = model.units.force.symbol
-    route = "global solve of every joint equation at once" if analysis.global_ is not None else "direct stiffness method"
+    route = (
+        "global solve of every joint equation at once"
+        if analysis.global_ is not None
+        else "direct stiffness method"
+    )
     for name in load_names or model.load_names:
-        parts.append(f"{load_title(model, name)} — member forces in {unit}, tension positive ({route})")
+        parts.append(
+            f"{load_title(model, name)} — member forces in {unit}, tension positive ({route})"
+        )
         parts.append(force_table(model, analysis, name, all_rows=all_rows))
         parts.append("")
     sections = analysis.sections
     if sections is not None:
-        reached = len(model.members) - len(sections.unreached)  # type: ignore[attr-defined]
-        parts.append(f"Section cuts (Ritter's method) reached {reached} of {len(model.members)} members"
-                     + (":" if sections.unreached else "."))  # type: ignore[attr-defined]
-        for member, reason in list(sections.unreached.items())[:20]:  # type: ignore[attr-defined]
+        reached = len(model.members) - len(sections.unreached)
+        parts.append(
+            f"Section cuts (Ritter's method) reached {reached} of {len(model.members)} members"
+            + (":" if sections.unreached else ".")
+        )
+        for member, reason in list(sections.unreached.items())[:20]:
             parts.append(f"  {member}: not reached — {reason}")
-        if len(sections.unreached) > 20:  # type: ignore[attr-defined]
-            parts.append(f"  ... and {len(sections.unreached) - 20} more")  # type: ignore[attr-defined]
+        if len(sections.unreached) > 20:
+            parts.append(f"  ... and {len(sections.unreached) - 20} more")
     if analysis.joints is not None:
         parts.append(
             f"Method of joints, section cuts and global solve {roundoff_text(analysis.route_disagreement)}"
@@ -128,7 +168,10 @@ def render_solution(model: Model, analysis: Analysis, *, all_rows: bool = False,
     if elastic is not None and analysis.global_ is None:
         parts.extend(f"note: {n}" for n in getattr(elastic, "notes", ()))
         if getattr(elastic, "equal_EA_assumed", False):
-            parts.insert(0, "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution depends on that assumption.\n")
+            parts.insert(
+                0,
+                "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution depends on that assumption.\n",
+            )
         parts.append(f"note: {ELASTIC_CAUTION}")
     if analysis.joints is not None:
         parts.extend(f"note: {n}" for n in analysis.joints.notes)
@@ -149,7 +192,9 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
     F = model.load_matrix()[:, k]
     names = model.member_ids + [f"R_{r.label}" for r in model.reactions]
     unit = model.units.force.symbol
-    out = [f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums forces on the joint)"]
+    out = [
+        f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums forces on the joint)"
+    ]
     solved: set[int] = set()
     # Members at each joint, built once (a scan of every member per step made large reports
     # quadratic in the truss size).
@@ -161,49 +206,84 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
         if step.kind == "reactions":
             point = np.asarray(solution.moment_point)
             G, E = overall_equilibrium_matrix(model, point)
-            out.append(f"\nStep {n}: reactions from overall equilibrium (moments about joint {solution.moment_joint})")
-            labels = (["ΣFx", "ΣFy", f"ΣM about joint {solution.moment_joint}"] if d == 2
-                      else ["ΣFx", "ΣFy", "ΣFz", "ΣMx", "ΣMy", "ΣMz"])
+            out.append(
+                f"\nStep {n}: reactions from overall equilibrium (moments about joint {solution.moment_joint})"
+            )
+            labels = (
+                ["ΣFx", "ΣFy", f"ΣM about joint {solution.moment_joint}"]
+                if d == 2
+                else ["ΣFx", "ΣFy", "ΣFz", "ΣMx", "ΣMy", "ΣMz"]
+            )
             order = [2, 0, 1] if d == 2 else list(range(6))
             for row in order:
-                terms = " ".join(_term(G[row, i], names[b + i]) for i in range(G.shape[1]) if abs(G[row, i]) > 1e-12)
-                out.append(f"  {labels[row]} = 0: {terms} {'+' if E[row, k] >= 0 else '-'} {fmt(abs(E[row, k]))} = 0")
+                terms = " ".join(
+                    _term(G[row, i], names[b + i])
+                    for i in range(G.shape[1])
+                    if abs(G[row, i]) > 1e-12
+                )
+                out.append(
+                    f"  {labels[row]} = 0: {terms} {'+' if E[row, k] >= 0 else '-'} {fmt(abs(E[row, k]))} = 0"
+                )
             out.append("  => " + ", ".join(f"{names[c]} = {fmt(t[c])}" for c in step.unknowns))
             solved.update(step.unknowns)
             continue
         if step.kind == "simultaneous":
-            out.append(f"\nStep {n}: no joint with at most {d} unknowns remains; the remaining {len(step.unknowns)} forces at joints "
-                       f"{', '.join(step.joints[:12])}{' ...' if len(step.joints) > 12 else ''} are solved simultaneously")
-            out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns[:40]))
+            out.append(
+                f"\nStep {n}: no joint with at most {d} unknowns remains; the remaining {len(step.unknowns)} forces at joints "
+                f"{', '.join(step.joints[:12])}{' ...' if len(step.joints) > 12 else ''} are solved simultaneously"
+            )
+            out.append(
+                "  => "
+                + ", ".join(
+                    f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns[:40]
+                )
+            )
             solved.update(step.unknowns)
             continue
         joint = step.joints[0]
         j = model.joint_index[joint]
-        cols = at_joint.get(j, []) + [b + i for i, r in enumerate(model.reactions) if r.joint == joint]
+        cols = at_joint.get(j, []) + [
+            b + i for i, r in enumerate(model.reactions) if r.joint == joint
+        ]
         unknown_names = ", ".join(names[c] for c in step.unknowns)
-        out.append(f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} {unknown_names}"
-                   + (" (the others here wait for later steps)" if step.partial else ""))
+        out.append(
+            f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} {unknown_names}"
+            + (" (the others here wait for later steps)" if step.partial else "")
+        )
         for axis in range(d):
             parts: list[str] = []
             for c in cols:
                 if c < b:
-                    u = model.unit_vectors[c] if model.ends_index[c, 0] == j else -model.unit_vectors[c]
+                    u = (
+                        model.unit_vectors[c]
+                        if model.ends_index[c, 0] == j
+                        else -model.unit_vectors[c]
+                    )
                     coefficient = float(u[axis])
                 else:
                     coefficient = float(model.reactions[c - b].direction[axis])
                 if abs(coefficient) < 1e-12:
                     continue
-                if c in solved:  # a force found earlier: its name and value, so each term can be traced
-                    parts.append(f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({names[c]} = {fmt(t[c])})")
+                if (
+                    c in solved
+                ):  # a force found earlier: its name and value, so each term can be traced
+                    parts.append(
+                        f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({names[c]} = {fmt(t[c])})"
+                    )
                 else:
                     parts.append(_term(coefficient, names[c]))
             load = F[j * d + axis]
             if abs(load) > 0:
                 parts.append(f"{'+' if load >= 0 else '-'} {fmt(abs(load))}")
             out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(parts) if parts else '0'} = 0")
-        out.append("  => " + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns))
+        out.append(
+            "  => "
+            + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns)
+        )
         solved.update(step.unknowns)
-    out.append(f"\nCheck: largest out-of-balance force over all joint equations = {_residual(solution.max_residual, t, unit)}")
+    out.append(
+        f"\nCheck: largest out-of-balance force over all joint equations = {_residual(solution.max_residual, t, unit)}"
+    )
     return "\n".join(out)
 
 

@@ -44,9 +44,18 @@ def _exact(value: float, what: str) -> Fraction:
     return Fraction(repr(float(value)))
 
 
-def build_starter(pattern: str, *, span: float, depth: float, panels: int | None = None, loaded_chord: str = "top",
-                  panel_load: float | None = None, line_load: float | None = None, units: tuple[str, str] = ("m", "kN"),
-                  case_name: str = "dead") -> Starter:
+def build_starter(
+    pattern: str,
+    *,
+    span: float,
+    depth: float,
+    panels: int | None = None,
+    loaded_chord: str = "top",
+    panel_load: float | None = None,
+    line_load: float | None = None,
+    units: tuple[str, str] = ("m", "kN"),
+    case_name: str = "dead",
+) -> Starter:
     """The case for `pattern`; PatternError names what cannot be built and why."""
     from verify.starter.patterns import BUILDERS
 
@@ -58,12 +67,16 @@ def build_starter(pattern: str, *, span: float, depth: float, panels: int | None
         raise PatternError("give --panel-load or --line-load, not both")
     for name, value in (("--panel-load", panel_load), ("--line-load", line_load)):
         if value is not None and not (abs(value) <= LOAD_LIMIT):
-            raise PatternError(f"{name} must be a finite force within +-{LOAD_LIMIT:g}; got {value:g}")
+            raise PatternError(
+                f"{name} must be a finite force within +-{LOAD_LIMIT:g}; got {value:g}"
+            )
     if loaded_chord not in ("top", "bottom"):
         raise PatternError(f"--loaded-chord must be top or bottom; got {loaded_chord}")
     shape = BUILDERS[pattern](_exact(span, "--span"), _exact(depth, "--depth"), panels)
     if shape.dim == 3 and (loaded_chord == "bottom" or line_load is not None):
-        raise PatternError(f"{pattern} takes --panel-load at its top joints only (no --loaded-chord bottom or --line-load)")
+        raise PatternError(
+            f"{pattern} takes --panel-load at its top joints only (no --loaded-chord bottom or --line-load)"
+        )
     chord = shape.chords["top" if shape.dim == 3 else loaded_chord]
     supported = set(shape.pinned) | set(shape.rollers) | set(shape.restraints)
     down = (0.0, -1.0) if shape.dim == 2 else (0.0, 0.0, -1.0)
@@ -84,9 +97,13 @@ def build_starter(pattern: str, *, span: float, depth: float, panels: int | None
                 tributary[joint] = tributary.get(joint, Fraction(0)) + plan / 2
         for joint, length in tributary.items():
             loads[joint] = tuple(w * float(length) * c + 0.0 for c in down)
-            comments[joint] = f"{w:g} {units[1]}/{units[0]} x tributary {float(length):g} {units[0]} (plan)"
-        rule = (f"line load {w:g} {units[1]}/{units[0]} downward on the {loaded_chord} chord, per unit of plan length, "
-                "to panel points by tributary length (half of each chord segment meeting there)")
+            comments[joint] = (
+                f"{w:g} {units[1]}/{units[0]} x tributary {float(length):g} {units[0]} (plan)"
+            )
+        rule = (
+            f"line load {w:g} {units[1]}/{units[0]} downward on the {loaded_chord} chord, per unit of plan length, "
+            "to panel points by tributary length (half of each chord segment meeting there)"
+        )
     title = f"{pattern} truss, span {span:g} {units[0]}, depth {depth:g} {units[0]}, {len(shape.chords.get('bottom', chord)) - 1 if shape.dim == 2 else panels or ''} panels (starter)"
     if shape.dim == 3:
         title = f"{pattern} starter, {span:g} {units[0]} wide, {depth:g} {units[0]} {'high' if pattern != 'grid' else 'deep'}"

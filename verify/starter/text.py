@@ -30,33 +30,63 @@ def number(value: Fraction | float) -> str:
 
 
 def _key(text: str) -> str:
-    return text if text.replace("_", "").replace("-", "").isalnum() and text.isascii() else json.dumps(text)
+    return (
+        text
+        if text.replace("_", "").replace("-", "").isalnum() and text.isascii()
+        else json.dumps(text)
+    )
 
 
 def render_case(starter: Starter) -> str:
     shape = starter.pattern
     axes = "x, y" if shape.dim == 2 else "x, y, z"
-    lines = [f"title = {json.dumps(starter.title)}",
-             f"# Written by `truss-verify starter {shape.name}`: an ordinary case file; edit it freely.",
-             "# Joint naming:"]
+    lines = [
+        f"title = {json.dumps(starter.title)}",
+        f"# Written by `truss-verify starter {shape.name}`: an ordinary case file; edit it freely.",
+        "# Joint naming:",
+    ]
     lines += [f"#   {rule}" for rule in shape.naming]
     lines += [f"# {note}" for note in shape.notes]
-    lines += ["", "[units]", f"length = {json.dumps(starter.units[0])}", f"force = {json.dumps(starter.units[1])}", "",
-              f"[joints]                                    # id = [{axes}]"]
-    lines += [f"{_key(j)} = [{', '.join(number(c) for c in coords)}]" for j, coords in shape.joints.items()]
+    lines += [
+        "",
+        "[units]",
+        f"length = {json.dumps(starter.units[0])}",
+        f"force = {json.dumps(starter.units[1])}",
+        "",
+        f"[joints]                                    # id = [{axes}]",
+    ]
+    lines += [
+        f"{_key(j)} = [{', '.join(number(c) for c in coords)}]"
+        for j, coords in shape.joints.items()
+    ]
     lines += ["", "[members]                                   # id = [joint, joint]"]
     lines += [f"{_key(a + b)} = [{json.dumps(a)}, {json.dumps(b)}]" for a, b in shape.members]
     if shape.dim == 2:
-        lines += ["", "[chords]                                    # the joints along each chord, in order"]
-        lines += [f"{name} = [{', '.join(json.dumps(j) for j in joints)}]" for name, joints in shape.chords.items()]
+        lines += [
+            "",
+            "[chords]                                    # the joints along each chord, in order",
+        ]
+        lines += [
+            f"{name} = [{', '.join(json.dumps(j) for j in joints)}]"
+            for name, joints in shape.chords.items()
+        ]
     lines += ["", "[supports]"]
     if shape.restraints:
-        lines += [f"{_key(j)} = [{', '.join(json.dumps(a) for a in axes_)}]" for j, axes_ in shape.restraints.items()]
+        lines += [
+            f"{_key(j)} = [{', '.join(json.dumps(a) for a in axes_)}]"
+            for j, axes_ in shape.restraints.items()
+        ]
     else:
         lines += [f'{_key(j)} = "pinned"' for j in shape.pinned]
-        lines += [f'{_key(j)} = "roller"                              # reaction vertical' for j in shape.rollers]
+        lines += [
+            f'{_key(j)} = "roller"                              # reaction vertical'
+            for j in shape.rollers
+        ]
     lines += ["", f"# {starter.load_rule}", f"[loads.{_key(starter.case_name)}]"]
     for joint, vector in starter.loads.items():
         comment = starter.load_comments.get(joint)
-        lines.append(f"{_key(joint)} = [{', '.join(number(v) for v in vector)}]" + (f"   # {comment}" if comment else ""))
+        lines.append(
+            f"{_key(joint)} = [{', '.join(number(v) for v in vector)}]"
+            + (f"   # {comment}" if comment else "")
+        )
     return "\n".join(lines) + "\n"

@@ -33,8 +33,15 @@ from verify.compare.causes.supports import explain_released_support
 from verify.compare.causes.table_order import Shift, copied_values, shifted_runs
 from verify.compare.findings import Finding, Severity
 
-__all__ = ["CauseReport", "ClaimsFrame", "explain_bracing", "explain_copies", "explain_model", "explain_release",
-           "explain_shifted_rows"]
+__all__ = [
+    "CauseReport",
+    "ClaimsFrame",
+    "explain_bracing",
+    "explain_copies",
+    "explain_model",
+    "explain_release",
+    "explain_shifted_rows",
+]
 
 SHOWN = 12  # members and locations listed in a finding's text
 
@@ -52,12 +59,20 @@ def explain_bracing(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis)
     findings = []
     for words, _, mask in groups:
         cases = frame.columns_of(mask)
-        findings.append(Finding("likely-cause", frame.member_ids(mask),
-                                f"the claims in {', '.join(repr(case) for case in cases)} assume {words}: "
-                                f"{int(mask.sum())} claim(s) that differ from the elastic solution agree with it. "
-                                "Confirm the bracing is slender enough to buckle before it carries load",
-                                Severity.INFO, case=cases[0] if len(cases) == 1 else None, variant=words,
-                                explains=int(mask.sum()), locations=frame.locations(mask)))
+        findings.append(
+            Finding(
+                "likely-cause",
+                frame.member_ids(mask),
+                f"the claims in {', '.join(repr(case) for case in cases)} assume {words}: "
+                f"{int(mask.sum())} claim(s) that differ from the elastic solution agree with it. "
+                "Confirm the bracing is slender enough to buckle before it carries load",
+                Severity.INFO,
+                case=cases[0] if len(cases) == 1 else None,
+                variant=words,
+                explains=int(mask.sum()),
+                locations=frame.locations(mask),
+            )
+        )
     return CauseReport(explained, findings, [], status="tension-only")
 
 
@@ -67,16 +82,25 @@ def explain_release(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis)
     if release is None:
         return CauseReport(np.zeros(len(frame), dtype=bool), [], [])
     n = int(release.explained.sum())
-    finding = Finding("likely-cause", frame.member_ids(release.explained),
-                      f"the claims in {', '.join(repr(case) for case in frame.columns_of(release.explained))} "
-                      f"correspond to {release.words}: {n} disagreeing claim(s) agree with it and no claim that "
-                      "agreed is changed", Severity.ERROR, variant=release.words, explains=n,
-                      unexplained=int((pending & ~release.explained).sum()), joints=(release.joint,),
-                      locations=frame.locations(release.explained))
+    finding = Finding(
+        "likely-cause",
+        frame.member_ids(release.explained),
+        f"the claims in {', '.join(repr(case) for case in frame.columns_of(release.explained))} "
+        f"correspond to {release.words}: {n} disagreeing claim(s) agree with it and no claim that "
+        "agreed is changed",
+        Severity.ERROR,
+        variant=release.words,
+        explains=n,
+        unexplained=int((pending & ~release.explained).sum()),
+        joints=(release.joint,),
+        locations=frame.locations(release.explained),
+    )
     return CauseReport(release.explained, [finding], [])
 
 
-def explain_shifted_rows(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
+def explain_shifted_rows(
+    frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis
+) -> CauseReport:
     """Runs of rows whose values belong to the member a few rows away: one finding for the same
     rows in every column. Runs first: on a symmetric truss a shifted run also reads as pairs of
     mirror members swapped, or as values copied from a mirror member."""
@@ -92,10 +116,22 @@ def explain_shifted_rows(frame: ClaimsFrame, pending: np.ndarray, analysis: Anal
         first, last = runs[0].positions[0], runs[0].positions[-1]
         columns = ", ".join(f"'{frame.load_names[r.column]}'" for r in runs)
         way = "further down" if offset > 0 else "further up"
-        words = (f"the values sit {abs(offset)} row(s) off their labels from {frame.where[first]} to {frame.where[last]}: "
-                 f"each is the force of the member {abs(offset)} row(s) {way} (a row inserted or deleted)")
-        findings.append(_finding(frame, mask, words, "rows-shifted", columns, analysis.model.source, pending_after=None,
-                                 factor=float(offset)))
+        words = (
+            f"the values sit {abs(offset)} row(s) off their labels from {frame.where[first]} to {frame.where[last]}: "
+            f"each is the force of the member {abs(offset)} row(s) {way} (a row inserted or deleted)"
+        )
+        findings.append(
+            _finding(
+                frame,
+                mask,
+                words,
+                "rows-shifted",
+                columns,
+                analysis.model.source,
+                pending_after=None,
+                factor=float(offset),
+            )
+        )
         explained |= mask
     return CauseReport(explained, findings, [])
 
@@ -108,9 +144,19 @@ def explain_model(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     for cause in result.causes:
         columns = ", ".join(f"'{c}'" for c in frame.columns_of(cause.explained))
         touched = np.isin(frame.column, np.unique(frame.column[cause.explained]))
-        findings.append(_finding(frame, cause.explained, cause.variant.words, cause.variant.kind, columns,
-                                 analysis.model.source, pending_after=int((result.unexplained & touched).sum()),
-                                 factor=cause.variant.factor, joints=cause.variant.joints))
+        findings.append(
+            _finding(
+                frame,
+                cause.explained,
+                cause.variant.words,
+                cause.variant.kind,
+                columns,
+                analysis.model.source,
+                pending_after=int((result.unexplained & touched).sum()),
+                factor=cause.variant.factor,
+                joints=cause.variant.joints,
+            )
+        )
         explained |= cause.explained
     return CauseReport(explained, findings, list(result.notes))
 
@@ -124,30 +170,82 @@ def explain_copies(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) 
         mask = np.zeros(len(frame), dtype=bool)
         mask[copy.position] = True
         target, origin = ids[int(frame.member[copy.position])], ids[int(frame.member[copy.source])]
-        words = (f"the value claimed for {target} ({frame.written[copy.position].strip()}) is the one claimed for {origin} "
-                 f"at {frame.where[copy.source]}, which agrees with {origin}: copied from that row")
-        findings.append(_finding(frame, mask, words, "value-copied", f"'{frame.load_names[int(frame.column[copy.position])]}'",
-                                 analysis.model.source, pending_after=None))
+        words = (
+            f"the value claimed for {target} ({frame.written[copy.position].strip()}) is the one claimed for {origin} "
+            f"at {frame.where[copy.source]}, which agrees with {origin}: copied from that row"
+        )
+        findings.append(
+            _finding(
+                frame,
+                mask,
+                words,
+                "value-copied",
+                f"'{frame.load_names[int(frame.column[copy.position])]}'",
+                analysis.model.source,
+                pending_after=None,
+            )
+        )
         explained |= mask
     return CauseReport(explained, findings, [])
 
 
-def _finding(frame: ClaimsFrame, mask: np.ndarray, words: str, kind: str, columns: str, source: str, *,
-             pending_after: int | None, factor: float | None = None, joints: tuple[str, ...] = ()) -> Finding:
+def _finding(
+    frame: ClaimsFrame,
+    mask: np.ndarray,
+    words: str,
+    kind: str,
+    columns: str,
+    source: str,
+    *,
+    pending_after: int | None,
+    factor: float | None = None,
+    joints: tuple[str, ...] = (),
+) -> Finding:
     members = frame.member_ids(mask)
     n = int(mask.sum())
-    shown = ", ".join(members[:SHOWN]) + (f" and {len(members) - SHOWN} more" if len(members) > SHOWN else "")
+    shown = ", ".join(members[:SHOWN]) + (
+        f" and {len(members) - SHOWN} more" if len(members) > SHOWN else ""
+    )
     where = "; ".join(frame.locations(mask, 4))
-    rest = "" if pending_after is None else (
-        "; every other disagreeing claim in these columns is explained too" if pending_after == 0 else
-        f"; {pending_after} disagreeing claim(s) in these columns remain unexplained (listed below)")
+    rest = (
+        ""
+        if pending_after is None
+        else (
+            "; every other disagreeing claim in these columns is explained too"
+            if pending_after == 0
+            else f"; {pending_after} disagreeing claim(s) in these columns remain unexplained (listed below)"
+        )
+    )
     cases = frame.columns_of(mask)
-    detail = (f"the claims in {columns} correspond to {words}: with that change {n} disagreeing claim(s) "
-              f"({shown}) agree and no claim that agreed is changed{rest}. Written at {where}"
-              + (" …" if n > 4 else "")) if kind not in ("rows-shifted", "value-copied") else (
-              f"in {columns}: {words}. {n} claim(s) explained ({shown}); written at {where}" + (" …" if n > 4 else ""))
-    step = (f"truss-verify solve {shlex.quote(source)} --show joints" + (f" --case {shlex.quote(cases[0])}" if len(cases) == 1 else "")
-            if source else None)
-    return Finding("likely-cause", members, detail, Severity.ERROR, case=cases[0] if len(cases) == 1 else None,
-                   variant=words, explains=n, unexplained=pending_after, factor=factor, joints=joints,
-                   locations=frame.locations(mask), next_step=step)
+    detail = (
+        (
+            f"the claims in {columns} correspond to {words}: with that change {n} disagreeing claim(s) "
+            f"({shown}) agree and no claim that agreed is changed{rest}. Written at {where}"
+            + (" …" if n > 4 else "")
+        )
+        if kind not in ("rows-shifted", "value-copied")
+        else (
+            f"in {columns}: {words}. {n} claim(s) explained ({shown}); written at {where}"
+            + (" …" if n > 4 else "")
+        )
+    )
+    step = (
+        f"truss-verify solve {shlex.quote(source)} --show joints"
+        + (f" --case {shlex.quote(cases[0])}" if len(cases) == 1 else "")
+        if source
+        else None
+    )
+    return Finding(
+        "likely-cause",
+        members,
+        detail,
+        Severity.ERROR,
+        case=cases[0] if len(cases) == 1 else None,
+        variant=words,
+        explains=n,
+        unexplained=pending_after,
+        factor=factor,
+        joints=joints,
+        locations=frame.locations(mask),
+        next_step=step,
+    )

@@ -33,10 +33,14 @@ def crossing_pairs(model: Model) -> list[tuple[int, int]]:
     order = np.argsort(lo[:, 0])
     out = []
     for pos, a in enumerate(order.tolist()):
-        for b in order[pos + 1:].tolist():
+        for b in order[pos + 1 :].tolist():
             if lo[b, 0] > hi[a, 0]:
                 break  # sorted by left end: nothing further can overlap a in x
-            if lo[b, 1] > hi[a, 1] or hi[b, 1] < lo[a, 1] or set(ends[a].tolist()) & set(ends[b].tolist()):
+            if (
+                lo[b, 1] > hi[a, 1]
+                or hi[b, 1] < lo[a, 1]
+                or set(ends[a].tolist()) & set(ends[b].tolist())
+            ):
                 continue
             if _cross(xy[ends[a, 0]], xy[ends[a, 1]], xy[ends[b, 0]], xy[ends[b, 1]]):
                 out.append((a, b))
@@ -53,7 +57,9 @@ def _cross(p: np.ndarray, q: np.ndarray, r: np.ndarray, s: np.ndarray) -> bool:
     return 1e-9 < t < 1 - 1e-9 and 1e-9 < u < 1 - 1e-9
 
 
-def explain_tension_only(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> tuple[np.ndarray, list[tuple[str, tuple[str, ...], np.ndarray]]]:
+def explain_tension_only(
+    frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis
+) -> tuple[np.ndarray, list[tuple[str, tuple[str, ...], np.ndarray]]]:
     """Claims explained, and per group of load columns (words, slack members, mask explained)."""
     model = analysis.model
     explained = np.zeros(len(frame), dtype=bool)
@@ -71,8 +77,13 @@ def explain_tension_only(frame: ClaimsFrame, pending: np.ndarray, analysis: Anal
         slack = []
         for a, b in pairs:
             for idle, busy in ((a, b), (b, a)):
-                if (np.isfinite(claimed[idle, k]) and abs(claimed[idle, k]) <= allowance[idle, k]
-                        and elastic[idle, k] < 0 and np.isfinite(claimed[busy, k]) and claimed[busy, k] > 0):
+                if (
+                    np.isfinite(claimed[idle, k])
+                    and abs(claimed[idle, k]) <= allowance[idle, k]
+                    and elastic[idle, k] < 0
+                    and np.isfinite(claimed[busy, k])
+                    and claimed[busy, k] > 0
+                ):
                     slack.append(idle)
         if slack:
             by_slack.setdefault(tuple(sorted(set(slack))), []).append(k)
@@ -92,12 +103,16 @@ def explain_tension_only(frame: ClaimsFrame, pending: np.ndarray, analysis: Anal
         now = frame.agrees(computed)
         agreed = frame.agrees(frame.computed)
         mask = pending & in_columns & now
-        if (agreed & in_columns & ~now).any() or mask.sum() < CLEAR_MAJORITY * (pending & in_columns).sum():
+        if (agreed & in_columns & ~now).any() or mask.sum() < CLEAR_MAJORITY * (
+            pending & in_columns
+        ).sum():
             continue  # it breaks a claim that agreed, or leaves most differences unexplained
         names = tuple(model.members[i].id for i in slack_t)
-        words = (f"tension-only bracing: the compression diagonal of each crossed panel taken as slack ("
-                 f"{', '.join(names[:8])}{' …' if len(names) > 8 else ''} carry nothing) — a common idealisation for "
-                 "slender cross bracing; the claims are the statics of the truss without them")
+        words = (
+            f"tension-only bracing: the compression diagonal of each crossed panel taken as slack ("
+            f"{', '.join(names[:8])}{' …' if len(names) > 8 else ''} carry nothing) — a common idealisation for "
+            "slender cross bracing; the claims are the statics of the truss without them"
+        )
         explained |= mask
         groups.append((words, names, mask))
     return explained, groups

@@ -52,7 +52,9 @@ MIN_SAMPLE = 12
 LOAD_FACTOR_RANGE = (-2.0, 10.0)  # a load taken as f times its value: plausible slips only
 COMBINATION_FACTOR_RANGE = (-5.0, 5.0)  # partial factors of common practice lie well inside; a
 #                                        negative one is a case taken in the opposite direction
-SAMPLE_SHARE = 0.1  # of the sampled disagreeing claims, the share a load change must explain to be solved
+SAMPLE_SHARE = (
+    0.1  # of the sampled disagreeing claims, the share a load change must explain to be solved
+)
 ALIKE = "; or, equally for these claims, "
 MAX_ALIKE = 2  # other readings named beside the closest
 CLEAR_MAJORITY = 2 / 3  # of the disagreeing claims in the columns the causes touch
@@ -84,13 +86,17 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     start = pending.copy()
     geometry = statics and len(model.members) <= GEOMETRY_MEMBER_LIMIT
     if statics and not geometry:
-        notes.append(f"likely causes: support and dimension variants are tried only up to {GEOMETRY_MEMBER_LIMIT} members "
-                     f"(this truss has {len(model.members)}); load and combination variants were tried")
+        notes.append(
+            f"likely causes: support and dimension variants are tried only up to {GEOMETRY_MEMBER_LIMIT} members "
+            f"(this truss has {len(model.members)}); load and combination variants were tried"
+        )
     # The first cause is chosen among the best few by where the whole chain leads: two mistakes
     # at once can let a wrong first guess fit many claims within tolerance (1.6 x traffic for
     # 1.5 x dead on chords that see both loads alike), and the chain then explains less.
     chains = []
-    for first in _round(frame, start, np.zeros(len(frame)), start, agreed, analysis, geometry, notes)[:FIRST_CHOICES]:
+    for first in _round(
+        frame, start, np.zeros(len(frame)), start, agreed, analysis, geometry, notes
+    )[:FIRST_CHOICES]:
         steps = [first]
         pending, base = start & ~first.explained, first.variant.shift
         while len(steps) < MAX_CAUSES and pending.sum() >= MIN_EXPLAINED:
@@ -103,20 +109,27 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     if not chains:
         columns = ", ".join(f"'{c}'" for c in frame.columns_of(start))
         if statics:  # on an indeterminate truss only factors were tried, and other steps follow
-            notes.append(f"likely causes: no single change of the model among those tried (loads, combination factors, "
-                         f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
-                         "their findings follow")
+            notes.append(
+                f"likely causes: no single change of the model among those tried (loads, combination factors, "
+                f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
+                "their findings follow"
+            )
         return SearchResult([], start.copy(), notes)
     _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
-    causes = [Cause(_with_alternates(frame, start, steps, i), step.explained) for i, step in enumerate(steps)]
+    causes = [
+        Cause(_with_alternates(frame, start, steps, i), step.explained)
+        for i, step in enumerate(steps)
+    ]
     touched = np.zeros(len(frame), dtype=bool)
     for cause in causes:
         touched |= np.isin(frame.column, np.unique(frame.column[np.abs(cause.variant.shift) > 0]))
     total = sum(int(c.explained.sum()) for c in causes)
     if total < CLEAR_MAJORITY * int((start & touched).sum()):
-        notes.append(f"likely causes: no single change of the model explains most differences: the best found "
-                     f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
-                     "change, so none is reported")
+        notes.append(
+            f"likely causes: no single change of the model explains most differences: the best found "
+            f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
+            "change, so none is reported"
+        )
         return SearchResult([], start, notes)
     return SearchResult(causes, pending, notes)
 
@@ -129,8 +142,13 @@ def _with_alternates(frame: ClaimsFrame, start: np.ndarray, steps: list[_Found],
     count = int((start & frame.agrees(frame.computed + total)).sum())
     variant = steps[i].variant
     # loads read off the claims restate a named load change: never listed beside one
-    alike = [alt.words for alt in steps[i].alternates if alt.kind != "loads-implied"
-             and int((start & frame.agrees(frame.computed + total - variant.shift + alt.shift)).sum()) >= count]
+    alike = [
+        alt.words
+        for alt in steps[i].alternates
+        if alt.kind != "loads-implied"
+        and int((start & frame.agrees(frame.computed + total - variant.shift + alt.shift)).sum())
+        >= count
+    ]
     if alike:
         variant = variant._replace(words=variant.words + ALIKE + ALIKE.join(alike[:MAX_ALIKE]))
     return variant
@@ -144,8 +162,16 @@ class _Found(NamedTuple):
     alternates: list[Variant] = []  # other variants that explain the very same claims
 
 
-def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.ndarray, agreed: np.ndarray,
-           analysis: Analysis, geometry: bool, notes: list[str]) -> list[_Found]:
+def _round(
+    frame: ClaimsFrame,
+    pending: np.ndarray,
+    base: np.ndarray,
+    start: np.ndarray,
+    agreed: np.ndarray,
+    analysis: Analysis,
+    geometry: bool,
+    notes: list[str],
+) -> list[_Found]:
     """Every variant that passes the test on top of `base`, best first."""
     found: list[_Found] = []
     for variant in _candidates(frame, pending, base, analysis, notes, geometry=geometry):
@@ -159,7 +185,10 @@ def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.
         # Claims only just outside the tolerance are what any fitted dimension or factor can
         # absorb (scattered 1.5 % slips fitted by a span 0.8 % short): a cause must explain
         # claims that were clearly wrong.
-        clear = explained & (np.abs(frame.claimed - frame.computed - base) > CLEAR_MISS * frame.allowed(frame.computed + base))
+        clear = explained & (
+            np.abs(frame.claimed - frame.computed - base)
+            > CLEAR_MISS * frame.allowed(frame.computed + base)
+        )
         # a fitted size (a factor, a dimension) can absorb more noise: it must explain more claims
         # (a table rounded twice to two figures leaves a few claims just outside, which 1.45 for
         # 1.5 on a load case then "explains")
@@ -176,17 +205,33 @@ def _round(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, start: np.
     for f in found:
         # Variants that explain the very same claims (a deeper truss, or a shorter span, under
         # vertical loads) cannot be told apart by them: the closer fit names the others.
-        twin = next((o for o in out if o.explains == f.explains and np.array_equal(o.explained, f.explained)), None)
+        twin = next(
+            (
+                o
+                for o in out
+                if o.explains == f.explains and np.array_equal(o.explained, f.explained)
+            ),
+            None,
+        )
         if twin is None:
             out.append(f)
-        elif len(twin.alternates) < 2 * MAX_ALIKE and all(a.words != f.variant.words for a in twin.alternates):
+        elif len(twin.alternates) < 2 * MAX_ALIKE and all(
+            a.words != f.variant.words for a in twin.alternates
+        ):
             twin.alternates.append(f.variant)
     return out
 
 
 # -- candidates ---------------------------------------------------------------------------------
-def _candidates(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str], *,
-                geometry: bool):
+def _candidates(
+    frame: ClaimsFrame,
+    pending: np.ndarray,
+    base: np.ndarray,
+    analysis: Analysis,
+    notes: list[str],
+    *,
+    geometry: bool,
+):
     yield from _combination_variants(frame, pending, base, analysis)
     if analysis.global_ is None:
         yield from _case_scale_variants(frame, pending, base, analysis)
@@ -202,7 +247,9 @@ def _candidates(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analy
 LOAD_MATCH = 0.03  # an implied load matches a case load within this fraction of its size
 
 
-def _implied_load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+def _implied_load_variants(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
+):
     """Several loads of one case left out, scaled or moved at once, read off the loads the claims
     balance (implied loads): where every member has a claim, joint equilibrium gives the load the
     claims carry at each joint. The differences are taken as the change only when they look like
@@ -232,31 +279,42 @@ def _implied_load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.nda
         arrived: list[tuple[str, float, np.ndarray]] = []
         for b in joints:
             j = model.joint_index[b.joint]
-            load = F[j * d:(j + 1) * d, k]
+            load = F[j * d : (j + 1) * d, k]
             change = -np.asarray(b.residual)  # implied - case load
             implied = load + change
             size = float(np.linalg.norm(load))
             if size > 0:
-                ratio = float(implied @ load) / size ** 2
+                ratio = float(implied @ load) / size**2
                 if np.linalg.norm(implied - ratio * load) > LOAD_MATCH * size:
                     break  # not along the case load: no load slip
                 # plain factors only (two figures or steps of 0.05) within the range of load slips:
                 # a load taken as 41.5 or 1.37 x itself is a wrong member value there, not a slip
-                plain = min([f for f in nice_factors(ratio) if significant_figures(f"{f:g}") <= 2
-                             or abs(f * 20 - round(f * 20)) < 1e-9] or [0.0], key=lambda f: abs(f - ratio))
-                if (abs(plain - ratio) > LOAD_MATCH * max(abs(ratio), 1.0)
-                        or not LOAD_FACTOR_RANGE[0] <= plain <= LOAD_FACTOR_RANGE[1]):
+                plain = min(
+                    [
+                        f
+                        for f in nice_factors(ratio)
+                        if significant_figures(f"{f:g}") <= 2 or abs(f * 20 - round(f * 20)) < 1e-9
+                    ]
+                    or [0.0],
+                    key=lambda f: abs(f - ratio),
+                )
+                if (
+                    abs(plain - ratio) > LOAD_MATCH * max(abs(ratio), 1.0)
+                    or not LOAD_FACTOR_RANGE[0] <= plain <= LOAD_FACTOR_RANGE[1]
+                ):
                     break
                 ratio = plain
                 (gone if abs(ratio) < LOAD_MATCH else scaled).append((b.joint, ratio, size))
             else:
                 arrived.append((b.joint, float(np.linalg.norm(implied)), implied))
-            delta[j * d:(j + 1) * d] = change
+            delta[j * d : (j + 1) * d] = change
         else:
             # loads that arrive where there were none must be ones that left elsewhere, size for size
             left = sorted(size for _, _, size in gone)
             came = sorted(size for _, size, _ in arrived)
-            if len(came) > len(left) or any(not any(abs(c - x) <= LOAD_MATCH * x for x in left) for c in came):
+            if len(came) > len(left) or any(
+                not any(abs(c - x) <= LOAD_MATCH * x for x in left) for c in came
+            ):
                 continue
             if len(gone) + len(scaled) + len(arrived) < 2:
                 continue  # one joint: the single-load variants say it better
@@ -266,16 +324,25 @@ def _implied_load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.nda
             if gone:
                 parts.append(f"left out at {', '.join(j for j, _, _ in gone)}")
             if scaled:
-                parts.append("taken as " + ", ".join(f"{fmt(r, 3)} times the case load at {j}" for j, r, _ in scaled))
+                parts.append(
+                    "taken as "
+                    + ", ".join(f"{fmt(r, 3)} times the case load at {j}" for j, r, _ in scaled)
+                )
             if arrived:
-                parts.append("applied at " + ", ".join(f"{j} ({fmt(size, 3)})" for j, size, _ in arrived))
+                parts.append(
+                    "applied at " + ", ".join(f"{j} ({fmt(size, 3)})" for j, size, _ in arrived)
+                )
             words = f"the '{names[k]}' loads as the claims balance them: " + "; ".join(parts)
             # read off the claims, so fitted: a named slip (the other chord, one load moved) that
             # explains as much is the plainer reading
-            yield Variant("loads-implied", words, shift, names[k], tuple(b.joint for b in joints), fitted=True)
+            yield Variant(
+                "loads-implied", words, shift, names[k], tuple(b.joint for b in joints), fitted=True
+            )
 
 
-def _case_scale_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+def _case_scale_variants(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
+):
     """A load case's loads all scaled (or reversed): its forces scale alike in every column that
     holds it, whatever the member stiffnesses (no solve needed)."""
     model = analysis.model
@@ -288,14 +355,24 @@ def _case_scale_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarr
         s = fit_scale(frame, target, unit, pending)
         if s is None:
             continue
-        new = _plainest(frame, pending, base, [(f, (f - 1.0) * unit) for f in nice_factors(1.0 + s)
-                                               if abs(f - 1.0) > 1e-12 and LOAD_FACTOR_RANGE[0] <= f <= LOAD_FACTOR_RANGE[1]])
+        new = _plainest(
+            frame,
+            pending,
+            base,
+            [
+                (f, (f - 1.0) * unit)
+                for f in nice_factors(1.0 + s)
+                if abs(f - 1.0) > 1e-12 and LOAD_FACTOR_RANGE[0] <= f <= LOAD_FACTOR_RANGE[1]
+            ],
+        )
         if new is not None:
             words = case_scaled_words(case.name)(new)
             yield Variant("case-scaled", words, (new - 1.0) * unit, case.name, (), new, fitted=True)
 
 
-def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+def _combination_variants(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
+):
     """A load case's factor in one combination differs (a case left out or added included)."""
     model = analysis.model
     ref = analysis.reference
@@ -314,28 +391,50 @@ def _combination_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndar
             if s is None:
                 continue
             old = float(C[c, k])
-            new = _plainest(frame, pending, base, [(f, (f - old) * unit) for f in nice_factors(old + s)
-                                                   if abs(f - old) > 1e-12 and COMBINATION_FACTOR_RANGE[0] <= f
-                                                   <= COMBINATION_FACTOR_RANGE[1]])
+            new = _plainest(
+                frame,
+                pending,
+                base,
+                [
+                    (f, (f - old) * unit)
+                    for f in nice_factors(old + s)
+                    if abs(f - old) > 1e-12
+                    and COMBINATION_FACTOR_RANGE[0] <= f <= COMBINATION_FACTOR_RANGE[1]
+                ],
+            )
             if new is not None:
                 if new == 0:
                     words = f"'{case.name}' left out of '{combo.name}'"
                 elif old == 0:
                     words = f"'{case.name}' added to '{combo.name}' with factor {fmt(new, 3)}"
                 elif new * old < 0:
-                    words = (f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name} "
-                             f"('{case.name}' in the opposite direction)")
+                    words = (
+                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name} "
+                        f"('{case.name}' in the opposite direction)"
+                    )
                 else:
                     words = f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name}"
-                yield Variant("combination-factor", words, (new - old) * unit, combo.name, (), new, fitted=True)
+                yield Variant(
+                    "combination-factor",
+                    words,
+                    (new - old) * unit,
+                    combo.name,
+                    (),
+                    new,
+                    fitted=True,
+                )
 
 
-def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str]):
+def _load_variants(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis, notes: list[str]
+):
     """Load changes priced by influence lines on a sample of the disagreeing claims (one array
     operation for every change and every round size), the best few solved forward for all claims."""
     model = analysis.model
     C = model.combination_matrix()
-    cases = [c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)]
+    cases = [
+        c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)
+    ]
     lu = equilibrium_lu(model)
     # One transposed solve per sampled member: on a large 3D truss the factors are dense enough
     # that 120 solves would take seconds, so the sample shrinks to a budget of work (never below
@@ -348,14 +447,19 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     members = np.unique(frame.member[sample])
     ends = model.ends_index[members]
     near = set(ends.ravel().tolist())
-    for a, b in model.ends_index.tolist():  # and one member further: the loads that reach them directly
+    for (
+        a,
+        b,
+    ) in model.ends_index.tolist():  # and one member further: the loads that reach them directly
         if a in near or b in near:
             near.update((a, b))
     whole, singles, capped = load_changes(model, cases, near)
     if not whole and not len(singles):
         return
-    capped_note = (f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints nearest "
-                   "the disagreeing claims only")
+    capped_note = (
+        f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints nearest "
+        "the disagreeing claims only"
+    )
     if capped and capped_note not in notes:
         notes.append(capped_note)
     n = lu.shape[0]
@@ -363,9 +467,13 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     E[members, np.arange(len(members))] = 1.0
     X = lu.solve(E, trans="T")  # rows of A^-1 for the sampled members (influence lines)
     lengths = [len(ch.rows) for ch in whole]
-    D_whole = sp.csc_matrix((np.concatenate([ch.values for ch in whole]),
-                             (np.concatenate([ch.rows for ch in whole]), np.repeat(np.arange(len(whole)), lengths))),
-                            shape=(n, len(whole)))
+    D_whole = sp.csc_matrix(
+        (
+            np.concatenate([ch.values for ch in whole]),
+            (np.concatenate([ch.rows for ch in whole]), np.repeat(np.arange(len(whole)), lengths)),
+        ),
+        shape=(n, len(whole)),
+    )
     D = sp.hstack([D_whole, singles.matrix(model)]).tocsc()
     G = -np.asarray((D.T @ X).T)  # sampled members x changes: member force per unit of each change
     position = np.searchsorted(members, frame.member[sample])
@@ -374,13 +482,16 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
 
     def change_at(v: int) -> LoadChange:
         return whole[v] if v < len(whole) else singles.change(model, v - len(whole))
+
     unit = G[position, :] * C[case_of[None, :], frame.column[sample][:, None]]  # claims x changes
     target = (frame.claimed - frame.computed - base)[sample]
     # Round sizes to try per change: the change itself (1) or, for fitted ones, round factors near
     # the median ratio of what is missing to one unit of the change.
     fitted = np.concatenate([np.array([ch.fitted for ch in whole], dtype=bool), singles.target < 0])
     usable = np.abs(unit) > 1e-3 * np.maximum(np.abs(unit).max(axis=0), 1e-300)[None, :]
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # a vanishing unit change: no fit
+    with np.errstate(
+        divide="ignore", invalid="ignore", over="ignore"
+    ):  # a vanishing unit change: no fit
         ratios = np.where(usable, target[:, None] / unit, np.nan)
     ratios[~np.isfinite(ratios)] = np.nan
     enough = usable.sum(axis=0) >= 2
@@ -391,9 +502,15 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     # Plainest first, so that a tie goes to it: a load left out, counted twice or reversed (always
     # tried: rounding in the claims can pull the fitted factor a few per cent off them), then
     # round factors near the fit.
-    sizes = np.vstack([np.full(len(factor), special - 1.0) for special in SPECIAL_FACTORS]
-                      + [_round_to(factor, 1) - 1.0, _round_to(factor, 2) - 1.0, np.round(factor * 20.0) / 20.0 - 1.0,
-                         _round_to(factor, 3) - 1.0])
+    sizes = np.vstack(
+        [np.full(len(factor), special - 1.0) for special in SPECIAL_FACTORS]
+        + [
+            _round_to(factor, 1) - 1.0,
+            _round_to(factor, 2) - 1.0,
+            np.round(factor * 20.0) / 20.0 - 1.0,
+            _round_to(factor, 3) - 1.0,
+        ]
+    )
     sizes[:, ~fitted] = 1.0
     sizes[:, fitted & ~enough] = 0.0  # nothing to fit: no change
     # A load off by more than a factor of ten, or reversed more than twice over, is no slip of a
@@ -405,8 +522,12 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
     for row in range(sizes.shape[0]):
         trial = computed[:, None] + sizes[row][None, :] * unit
         y = frame.claimed[sample][:, None]
-        allowed = np.maximum(np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(trial)), frame.atol[sample][:, None]),
-                             frame.rounding[sample][:, None])
+        allowed = np.maximum(
+            np.maximum(
+                frame.rtol * np.maximum(np.abs(y), np.abs(trial)), frame.atol[sample][:, None]
+            ),
+            frame.rounding[sample][:, None],
+        )
         scores[row] = (np.abs(y - trial) <= allowed).sum(axis=0)
         misfits[row] = np.minimum(((y - trial) / allowed) ** 2, 100.0).sum(axis=0)
     scores[np.abs(sizes) < 1e-12] = 0
@@ -427,8 +548,15 @@ def _load_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, an
         dt = lu.solve(-size * change.dense(n))[: len(model.members)]
         shift = dt[frame.member] * C[change.case, frame.column]
         words = change.words(1.0 + size) if callable(change.words) else change.words
-        yield Variant(change.kind, words, shift, model.cases[change.case].name, change.joints,
-                      1.0 + size if change.fitted else None, fitted=change.fitted)
+        yield Variant(
+            change.kind,
+            words,
+            shift,
+            model.cases[change.case].name,
+            change.joints,
+            1.0 + size if change.fitted else None,
+            fitted=change.fitted,
+        )
 
 
 def _round_to(values: np.ndarray, digits: int) -> np.ndarray:
@@ -440,8 +568,12 @@ def _round_to(values: np.ndarray, digits: int) -> np.ndarray:
     return np.round(values * scale) / scale
 
 
-def _plainest(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray,
-              options: list[tuple[float, np.ndarray]]) -> float | None:
+def _plainest(
+    frame: ClaimsFrame,
+    pending: np.ndarray,
+    base: np.ndarray,
+    options: list[tuple[float, np.ndarray]],
+) -> float | None:
     """Of round values (plainest first) and their shifts, the plainest that explains the most."""
     best: tuple[int, float] | None = None
     for value, shift in options:
@@ -460,7 +592,9 @@ def _support_variants(frame: ClaimsFrame, base: np.ndarray, analysis: Analysis):
         yield Variant("support-moved", words, t[frame.member, where] - frame.computed, None, joints)
 
 
-def _added_restraint_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+def _added_restraint_variants(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
+):
     """A support restrained in one more direction (a roller taken as a pin, say).
 
     The truss then has one state of self-stress: adding a reaction r along e at a joint gives
@@ -493,17 +627,23 @@ def _added_restraint_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.
                 size = fit_scale(frame, target, np.where(in_column, unit, 0.0), pending & in_column)
                 if size is None:
                     continue
-                shift = np.where(in_column, size * unit, shift)  # a fitted reaction, not a round input value
+                shift = np.where(
+                    in_column, size * unit, shift
+                )  # a fitted reaction, not a round input value
                 thrusts.append(f"{fmt(size, 3)} in '{frame.load_names[k]}'")
             if not thrusts:
                 continue
-            words = (f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case file): a support "
-                     f"reaction along {axis} of {', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
-                     f"{model.units.force.symbol}, which sets up forces the case file's supports do not")
+            words = (
+                f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case file): a support "
+                f"reaction along {axis} of {', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
+                f"{model.units.force.symbol}, which sets up forces the case file's supports do not"
+            )
             yield Variant("support-added", words, shift, None, (joint,), fitted=True)
 
 
-def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis):
+def _dimension_variants(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
+):
     """One overall dimension (span, depth, height) other than the case file's, fitted."""
     model = analysis.model
     columns, where = frame.column_positions()
@@ -525,7 +665,9 @@ def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarra
             return float(np.minimum(ratio[pending] ** 2, 100.0).sum())
 
         low, high = np.log(DIMENSION_RANGE[0]), np.log(DIMENSION_RANGE[1])
-        fit = so.minimize_scalar(misfit, bounds=(low, high), method="bounded", options={"xatol": 1e-4, "maxiter": 30})
+        fit = so.minimize_scalar(
+            misfit, bounds=(low, high), method="bounded", options={"xatol": 1e-4, "maxiter": 30}
+        )
         s = float(np.exp(fit.x))
         if abs(s - 1.0) < 1e-3:
             continue
@@ -538,6 +680,8 @@ def _dimension_variants(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarra
         if new_extent is not None:
             shift = dict(tried)[new_extent]
             letter, name = AXIS_NAMES[axis]
-            words = (f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} {length} "
-                     f"(every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})")
+            words = (
+                f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} {length} "
+                f"(every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})"
+            )
             yield Variant("dimension", words, shift, None, (), new_extent / extent, fitted=True)

@@ -22,11 +22,20 @@ from verify.model import Model
 SHOWN = 12
 MIN_OWN_ROWS = 6  # rows needed before the table's own factors are named
 OTHER_FACTORS_SHARE = 0.3  # of a column's rows contradicting the case file's factors
-OWN_FACTOR_ODD_SHARE = 0.1  # rows that may contradict the factors a combination column was made with
+OWN_FACTOR_ODD_SHARE = (
+    0.1  # rows that may contradict the factors a combination column was made with
+)
 
 
-def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, claimed: np.ndarray,
-                       rounding: np.ndarray, rtol: float, where: list[str]) -> list[Finding]:
+def check_combinations(
+    model: Model,
+    member: np.ndarray,
+    column: np.ndarray,
+    claimed: np.ndarray,
+    rounding: np.ndarray,
+    rtol: float,
+    where: list[str],
+) -> list[Finding]:
     """One finding per combination column that contradicts the table's own load-case columns.
 
     Arrays are per member claim: member and load-column positions, value (case units, tension
@@ -55,11 +64,16 @@ def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, cla
         combo = table[rows, k]
         slack = allowance[rows, k] + np.abs(C[cases, k]) @ allowance[rows][:, cases].T
 
-        def contradicting(factors: np.ndarray, parts: np.ndarray = parts, combo: np.ndarray = combo,
-                          slack: np.ndarray = slack) -> np.ndarray:
+        def contradicting(
+            factors: np.ndarray,
+            parts: np.ndarray = parts,
+            combo: np.ndarray = combo,
+            slack: np.ndarray = slack,
+        ) -> np.ndarray:
             predicted = parts @ factors
-            return np.abs(combo - predicted) > np.maximum(rtol * np.maximum(np.abs(combo), np.abs(predicted)),
-                                                          slack + 1e-12)
+            return np.abs(combo - predicted) > np.maximum(
+                rtol * np.maximum(np.abs(combo), np.abs(predicted)), slack + 1e-12
+            )
 
         defined = C[cases, k]
         wrong = contradicting(defined)
@@ -68,9 +82,13 @@ def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, cla
         ids = [model.members[int(m)].id for m in np.flatnonzero(rows)]
         bad = [ids[i] for i in np.flatnonzero(wrong)]
         words = _terms(defined, [model.cases[c].name for c in cases])
-        shown = ", ".join(bad[:SHOWN]) + (f" and {len(bad) - SHOWN} more" if len(bad) > SHOWN else "")
-        text = (f"in the claimed table, '{names[k]}' is not {words} of the table's own load-case columns for "
-                f"{len(bad)} of {int(rows.sum())} members ({shown})")
+        shown = ", ".join(bad[:SHOWN]) + (
+            f" and {len(bad) - SHOWN} more" if len(bad) > SHOWN else ""
+        )
+        text = (
+            f"in the claimed table, '{names[k]}' is not {words} of the table's own load-case columns for "
+            f"{len(bad)} of {int(rows.sum())} members ({shown})"
+        )
         # Other factors are named only when the case file's leave a good part of the column
         # contradicting: a few rows are slips of their own, and with load cases of similar shape
         # many factor pairs fit a column that is a few rows out.
@@ -79,19 +97,40 @@ def check_combinations(model: Model, member: np.ndarray, column: np.ndarray, cla
         if own is not None and not np.allclose(own, defined, rtol=0, atol=1e-9):
             fitted = _terms(own, [model.cases[c].name for c in cases])
             odd = [ids[i] for i in np.flatnonzero(contradicting(own))]
-            besides = (f" (except {', '.join(odd[:SHOWN])}: {'it contradicts' if len(odd) == 1 else 'they contradict'} "
-                       "the table either way)") if odd else " throughout"
-            text += f"; the column is {fitted} of them{besides}: the table combines with other factors"
+            besides = (
+                (
+                    f" (except {', '.join(odd[:SHOWN])}: {'it contradicts' if len(odd) == 1 else 'they contradict'} "
+                    "the table either way)"
+                )
+                if odd
+                else " throughout"
+            )
+            text += (
+                f"; the column is {fitted} of them{besides}: the table combines with other factors"
+            )
         else:
             text += ": those rows contradict the table's own load-case values"
         members = np.flatnonzero(rows)[wrong]
-        out.append(Finding("inconsistent-combination", tuple(bad), text, Severity.ERROR, case=names[k],
-                           locations=tuple(location[(int(m), k)] for m in members[:SHOWN])))
+        out.append(
+            Finding(
+                "inconsistent-combination",
+                tuple(bad),
+                text,
+                Severity.ERROR,
+                case=names[k],
+                locations=tuple(location[(int(m), k)] for m in members[:SHOWN]),
+            )
+        )
     return out
 
 
 def _terms(factors: np.ndarray, names: list[str]) -> str:
-    text = " + ".join(f"{fmt(float(f), 3)} × {n}" for f, n in zip(factors, names, strict=True) if f != 0) or "0"
+    text = (
+        " + ".join(
+            f"{fmt(float(f), 3)} × {n}" for f, n in zip(factors, names, strict=True) if f != 0
+        )
+        or "0"
+    )
     return text.replace("+ -", "- ")
 
 
@@ -100,8 +139,12 @@ def _odd_rows(n: int) -> int:
     return max(1, int(OWN_FACTOR_ODD_SHARE * n))
 
 
-def _own_factors(parts: np.ndarray, combo: np.ndarray, defined: np.ndarray,
-                 contradicting: Callable[[np.ndarray], np.ndarray]) -> np.ndarray | None:
+def _own_factors(
+    parts: np.ndarray,
+    combo: np.ndarray,
+    defined: np.ndarray,
+    contradicting: Callable[[np.ndarray], np.ndarray],
+) -> np.ndarray | None:
     """Round factors with which the combination column is consistent with its own cases, if any.
 
     Each factor is tried as the case file's, then as round values near the fit, plainest first,
@@ -115,7 +158,10 @@ def _own_factors(parts: np.ndarray, combo: np.ndarray, defined: np.ndarray,
     keep = np.ones(len(combo), dtype=bool)
     for _ in range(allowed_odd + 1):
         fitted = np.linalg.lstsq(parts[keep], combo[keep], rcond=None)[0]
-        choices = [list(dict.fromkeys([float(d)] + nice_factors(float(f))))[:5] for f, d in zip(fitted, defined, strict=True)]
+        choices = [
+            list(dict.fromkeys([float(d)] + nice_factors(float(f))))[:5]
+            for f, d in zip(fitted, defined, strict=True)
+        ]
         for combo_index in sorted(itertools.product(*(range(len(c)) for c in choices)), key=sum):
             picked = np.array([choices[i][j] for i, j in enumerate(combo_index)])
             if contradicting(picked).sum() <= allowed_odd:

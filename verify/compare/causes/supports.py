@@ -30,9 +30,15 @@ class Release(NamedTuple):
     explained: np.ndarray  # mask over the frame
 
 
-def explain_released_support(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> Release | None:
+def explain_released_support(
+    frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis
+) -> Release | None:
     model = analysis.model
-    if not pending.any() or len(model.members) > GEOMETRY_MEMBER_LIMIT or analysis.reference is None:
+    if (
+        not pending.any()
+        or len(model.members) > GEOMETRY_MEMBER_LIMIT
+        or analysis.reference is None
+    ):
         return None
     columns, where = frame.column_positions()
     agreed = frame.agrees(frame.computed)
@@ -52,8 +58,10 @@ def explain_released_support(frame: ClaimsFrame, pending: np.ndarray, analysis: 
             continue
         if best is None or explained.sum() > best.explained.sum():
             restrained = sorted(r.axis for r in model.reactions if r.joint == reaction.joint)
-            words = (f"the support at {reaction.joint} free along {reaction.axis} (the case file restrains "
-                     f"{', '.join(restrained)} there): the claims are the forces of the truss without that reaction")
+            words = (
+                f"the support at {reaction.joint} free along {reaction.axis} (the case file restrains "
+                f"{', '.join(restrained)} there): the claims are the forces of the truss without that reaction"
+            )
             best = Release(words, reaction.joint, explained)
     return best
 

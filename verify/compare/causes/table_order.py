@@ -13,7 +13,9 @@ import numpy as np
 
 from verify.compare.causes.frame import ClaimsFrame
 
-CLEAR_MISS = 2.0  # as in verify.compare.causes.search: a claim clearly wrong misses by this many allowances
+CLEAR_MISS = (
+    2.0  # as in verify.compare.causes.search: a claim clearly wrong misses by this many allowances
+)
 
 SHIFTS = (1, -1, 2, -2, 3, -3)
 MIN_COPY_FIGURES = 3  # "110" equals another row's "110" by chance in a table rounded to 2 figures
@@ -54,8 +56,10 @@ def shifted_runs(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> l
             other = order[i + offset]
             y = frame.claimed[own]
             c = computed[other]
-            allowed = np.maximum(np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(c)), frame.atol[other]),
-                                 frame.rounding[own])
+            allowed = np.maximum(
+                np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(c)), frame.atol[other]),
+                frame.rounding[own],
+            )
             ok[i] = np.abs(y - c) <= allowed
             ok &= ~taken
             # maximal runs of consecutive rows that read shifted; count the disagreeing ones
@@ -82,13 +86,20 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
     agreed = frame.agrees(frame.computed + base)
     # Only claims clearly wrong: a value just outside its allowance is a rounding question, and in
     # a table rounded to two figures many rows repeat one another honestly.
-    clear = np.abs(frame.claimed - frame.computed - base) > CLEAR_MISS * frame.allowed(frame.computed + base)
+    clear = np.abs(frame.claimed - frame.computed - base) > CLEAR_MISS * frame.allowed(
+        frame.computed + base
+    )
     # a claim that is its own member's force with the sign reversed is a sign flip, however many
     # mirror members carry the same size
     flipped = frame.agrees(frame.computed + base, -frame.claimed)
     candidates = pending & clear & ~flipped
-    candidates &= np.array([bool(t.strip()) and significant_figures(t) >= MIN_COPY_FIGURES if c else False
-                            for t, c in zip(frame.written, candidates.tolist(), strict=True)], dtype=bool)
+    candidates &= np.array(
+        [
+            bool(t.strip()) and significant_figures(t) >= MIN_COPY_FIGURES if c else False
+            for t, c in zip(frame.written, candidates.tolist(), strict=True)
+        ],
+        dtype=bool,
+    )
     candidates &= frame.claimed != 0  # zeros repeat honestly on every idle member
     out: list[Copy] = []
     if not candidates.any():
@@ -103,9 +114,14 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
             lo, hi = max(0, -offset), min(n, n - offset)
             if hi <= lo:
                 continue
-            here, there = order[lo:hi], order[lo + offset:hi + offset]
-            match = (candidates[here] & agreed[there] & (frame.claimed[there] == frame.claimed[here])
-                     & (written[there] == written[here]) & (found[lo:hi] < 0))
+            here, there = order[lo:hi], order[lo + offset : hi + offset]
+            match = (
+                candidates[here]
+                & agreed[there]
+                & (frame.claimed[there] == frame.claimed[here])
+                & (written[there] == written[here])
+                & (found[lo:hi] < 0)
+            )
             found[lo:hi] = np.where(match, there, found[lo:hi])
         for pos in np.flatnonzero(found >= 0).tolist():
             out.append(Copy(int(order[pos]), int(found[pos])))

@@ -34,7 +34,9 @@ from verify.model import Joint, Model, Reaction
 SAMPLE_CLAIMS = 120  # disagreeing claims priced by influence lines (a sample above this): one
 #                      transposed solve per member sampled, the costliest step on 3D trusses
 SHORTLIST = 16  # candidates per round solved forward for every claim
-MAX_JOINT_CHANGES = 6000  # single-joint load changes priced per round (nearest the disagreement first)
+MAX_JOINT_CHANGES = (
+    6000  # single-joint load changes priced per round (nearest the disagreement first)
+)
 GEOMETRY_MEMBER_LIMIT = 5000  # support and dimension variants re-solve the truss: only below this
 DIMENSION_RANGE = (0.5, 2.0)  # a dimension differing by more than this is not a slip
 
@@ -64,7 +66,9 @@ class LoadChange(NamedTuple):
     values: np.ndarray
     words: str | Callable[[float], str]  # a callable takes the fitted factor (for scaled loads)
     joints: tuple[str, ...]
-    fitted: bool = False  # the size of the change is fitted to the claims (values are one unit of it)
+    fitted: bool = (
+        False  # the size of the change is fitted to the claims (values are one unit of it)
+    )
 
     def dense(self, size: int) -> np.ndarray:
         out = np.zeros(size)
@@ -108,8 +112,9 @@ def _partner(model: Model) -> dict[int, int]:
     return out
 
 
-def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
-                 limit: int = MAX_JOINT_CHANGES) -> tuple[list[LoadChange], Singles, bool]:
+def load_changes(
+    model: Model, cases: list[int], near: set[int] | None = None, limit: int = MAX_JOINT_CHANGES
+) -> tuple[list[LoadChange], Singles, bool]:
     """Candidate load changes for the given cases: whole-case ones, single-joint ones (arrays), and
     whether single-joint changes were capped.
 
@@ -121,8 +126,13 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
     partner = _partner(model)
     ends = model.ends_index
     nj = len(model.joints)
-    adjacency = sp.csr_matrix((np.ones(2 * len(ends)), (np.concatenate([ends[:, 0], ends[:, 1]]),
-                                                       np.concatenate([ends[:, 1], ends[:, 0]]))), shape=(nj, nj))
+    adjacency = sp.csr_matrix(
+        (
+            np.ones(2 * len(ends)),
+            (np.concatenate([ends[:, 0], ends[:, 1]]), np.concatenate([ends[:, 1], ends[:, 0]])),
+        ),
+        shape=(nj, nj),
+    )
     ids = model.joint_ids
     v = vertical_axis(model)
     restraints: dict[int, int] = {}
@@ -135,8 +145,14 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
     single_targets: list[np.ndarray] = []
     capped = False
 
-    def change(kind: str, c: int, parts: list[tuple[int, np.ndarray]], words: str | Callable[[float], str],
-               joints: tuple[str, ...], fitted: bool = False) -> LoadChange:
+    def change(
+        kind: str,
+        c: int,
+        parts: list[tuple[int, np.ndarray]],
+        words: str | Callable[[float], str],
+        joints: tuple[str, ...],
+        fitted: bool = False,
+    ) -> LoadChange:
         rows = np.concatenate([j * d + np.arange(d) for j, _ in parts])
         values = np.concatenate([np.asarray(vec, dtype=float) for _, vec in parts])
         return LoadChange(kind, c, rows, values, words, joints, fitted)
@@ -153,17 +169,28 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
         moved = [j for j in loaded if j in partner]
         up = [j for j in moved if model.xyz[partner[j], v] > model.xyz[j, v]]
         down = [j for j in moved if model.xyz[partner[j], v] < model.xyz[j, v]]
-        groups = [(group, "above" if group is up else "below") for group in (up, down) if len(group) >= 2]
+        groups = [
+            (group, "above" if group is up else "below") for group in (up, down) if len(group) >= 2
+        ]
         if up and down and len(moved) * 2 >= len(loaded):
             groups.append((moved, "above or below"))
         elif moved and len(moved) * 2 >= len(loaded) and not groups:
             groups.append((moved, "above" if up else "below"))
         for group, where in groups:
             targets = [partner[j] for j in group]
-            parts = [(j, -column[j]) for j in group] + [(t, column[j]) for j, t in zip(group, targets, strict=True)]
-            out.append(change("loads-other-chord", c, parts,
-                              f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
-                              f"{_names(ids, group)}", tuple(ids[t] for t in targets)))
+            parts = [(j, -column[j]) for j in group] + [
+                (t, column[j]) for j, t in zip(group, targets, strict=True)
+            ]
+            out.append(
+                change(
+                    "loads-other-chord",
+                    c,
+                    parts,
+                    f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
+                    f"{_names(ids, group)}",
+                    tuple(ids[t] for t in targets),
+                )
+            )
         # The whole case turned vertical (a load normal to a member applied straight down or up).
         across = np.abs(np.delete(column, v, axis=1)).max(axis=1)
         tilted = (across > 1e-9 * np.abs(column).max(axis=1)) & (column[:, v] != 0)
@@ -174,12 +201,27 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                 turned = np.zeros(d)
                 turned[v] = math.copysign(float(np.linalg.norm(column[j])), column[j, v])
                 parts.append((j, turned - column[j]))
-            out.append(change("loads-vertical", c, parts,
-                              f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
-                              "instead of in their stated directions (e.g. normal to the member they act on)",
-                              tuple(ids[j] for j in slanted)))
+            out.append(
+                change(
+                    "loads-vertical",
+                    c,
+                    parts,
+                    f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
+                    "instead of in their stated directions (e.g. normal to the member they act on)",
+                    tuple(ids[j] for j in slanted),
+                )
+            )
         # The whole case scaled (a load value or factor other than the case file's).
-        out.append(change("case-scaled", c, [(j, column[j]) for j in loaded], case_scaled_words(name), (), fitted=True))
+        out.append(
+            change(
+                "case-scaled",
+                c,
+                [(j, column[j]) for j in loaded],
+                case_scaled_words(name),
+                (),
+                fitted=True,
+            )
+        )
         # Single-joint changes, nearest the disagreement first: one load left out, doubled,
         # reversed or of another size ("load-scaled"), or at the other end of a member
         # ("load-moved", not onto a loaded joint: that reads as the other joint's load scaled).
@@ -196,7 +238,7 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
                 break
             at.append(j)
             to.append(-1)
-            for n in adjacency.indices[adjacency.indptr[j]:adjacency.indptr[j + 1]].tolist():
+            for n in adjacency.indices[adjacency.indptr[j] : adjacency.indptr[j + 1]].tolist():
                 if n in held:
                     continue  # onto a joint held in every direction: that is the load left out
                 at.append(j)  # onto a loaded joint too: L3's load applied at L2 makes L2 carry both
@@ -204,9 +246,11 @@ def load_changes(model: Model, cases: list[int], near: set[int] | None = None,
         single_case.append(np.full(len(at), c, dtype=np.int64))
         single_joints.append(np.array(at, dtype=np.int64))
         single_targets.append(np.array(to, dtype=np.int64))
-    singles = Singles(np.concatenate(single_case) if single_case else np.zeros(0, dtype=np.int64),
-                      np.concatenate(single_joints) if single_joints else np.zeros(0, dtype=np.int64),
-                      np.concatenate(single_targets) if single_targets else np.zeros(0, dtype=np.int64))
+    singles = Singles(
+        np.concatenate(single_case) if single_case else np.zeros(0, dtype=np.int64),
+        np.concatenate(single_joints) if single_joints else np.zeros(0, dtype=np.int64),
+        np.concatenate(single_targets) if single_targets else np.zeros(0, dtype=np.int64),
+    )
     return out, singles, capped
 
 
@@ -229,27 +273,50 @@ class Singles(NamedTuple):
         comp = np.arange(d)
         load = F.reshape(len(model.joints), d, -1)[self.joint, :, self.case]  # changes x d
         moved = self.target >= 0
-        rows = [(self.joint[:, None] * d + comp).ravel(), (self.target[moved][:, None] * d + comp).ravel()]
+        rows = [
+            (self.joint[:, None] * d + comp).ravel(),
+            (self.target[moved][:, None] * d + comp).ravel(),
+        ]
         cols = [np.repeat(k, d), np.repeat(k[moved], d)]
         vals = [np.where(moved[:, None], -load, load).ravel(), load[moved].ravel()]
-        return sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                             shape=(model.dofs, len(self.joint)))
+        return sp.csc_matrix(
+            (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+            shape=(model.dofs, len(self.joint)),
+        )
 
     def change(self, model: Model, k: int) -> LoadChange:
         """The k-th change as a LoadChange, with its words."""
         d = model.dim
         c, j, n = int(self.case[k]), int(self.joint[k]), int(self.target[k])
         ids, name = model.joint_ids, model.cases[c].name
-        load = model.load_matrix()[j * d:(j + 1) * d, c]
+        load = model.load_matrix()[j * d : (j + 1) * d, c]
         if n < 0:
-            return LoadChange("load-scaled", c, j * d + np.arange(d), load.copy(), _scaled_words(name, ids[j], load),
-                              (ids[j],), fitted=True)
-        there = model.load_matrix()[n * d:(n + 1) * d, c]
-        also = (f" (which then carries {fmt(float(np.linalg.norm(there + load)), 4)} instead of "
-                f"{fmt(float(np.linalg.norm(there)), 4)})") if np.abs(there).sum() > 0 else ""
-        return LoadChange("load-moved", c, np.concatenate([j * d + np.arange(d), n * d + np.arange(d)]),
-                          np.concatenate([-load, load]), f"the '{name}' load at {ids[j]} applied at {ids[n]} instead{also}",
-                          (ids[j], ids[n]))
+            return LoadChange(
+                "load-scaled",
+                c,
+                j * d + np.arange(d),
+                load.copy(),
+                _scaled_words(name, ids[j], load),
+                (ids[j],),
+                fitted=True,
+            )
+        there = model.load_matrix()[n * d : (n + 1) * d, c]
+        also = (
+            (
+                f" (which then carries {fmt(float(np.linalg.norm(there + load)), 4)} instead of "
+                f"{fmt(float(np.linalg.norm(there)), 4)})"
+            )
+            if np.abs(there).sum() > 0
+            else ""
+        )
+        return LoadChange(
+            "load-moved",
+            c,
+            np.concatenate([j * d + np.arange(d), n * d + np.arange(d)]),
+            np.concatenate([-load, load]),
+            f"the '{name}' load at {ids[j]} applied at {ids[n]} instead{also}",
+            (ids[j], ids[n]),
+        )
 
 
 def case_scaled_words(case: str) -> Callable[[float], str]:
@@ -257,6 +324,7 @@ def case_scaled_words(case: str) -> Callable[[float], str]:
         if abs(f + 1.0) < 1e-9:
             return f"the '{case}' loads applied in the opposite direction (suction for pressure, uplift for down)"
         return f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or a load factor applied to the case)"
+
     return words
 
 
@@ -270,14 +338,21 @@ def _scaled_words(case: str, joint: str, vector: np.ndarray) -> Callable[[float]
             return f"the '{case}' load at {joint} counted twice ({fmt(2 * size, 4)} instead of {fmt(size, 4)})"
         if abs(f + 1.0) < 1e-9:
             return f"the '{case}' load at {joint} applied in the opposite direction"
-        return f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of {fmt(size, 4)}" + (
-            " and reversed" if f < 0 else "")
+        return (
+            f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of {fmt(size, 4)}"
+            + (" and reversed" if f < 0 else "")
+        )
+
     return words
 
 
 def _names(ids: list[str], positions: list[int], limit: int = 6) -> str:
     names = [ids[p] for p in positions]
-    return ", ".join(names) if len(names) <= limit else f"{', '.join(names[:limit - 1])}, … {names[-1]} ({len(names)} joints)"
+    return (
+        ", ".join(names)
+        if len(names) <= limit
+        else f"{', '.join(names[: limit - 1])}, … {names[-1]} ({len(names)} joints)"
+    )
 
 
 # -- fitted sizes ---------------------------------------------------------------------------------
@@ -301,7 +376,9 @@ def nice_factors(value: float) -> list[float]:
     return out
 
 
-def fit_scale(frame: ClaimsFrame, target: np.ndarray, unit: np.ndarray, pending: np.ndarray) -> float | None:
+def fit_scale(
+    frame: ClaimsFrame, target: np.ndarray, unit: np.ndarray, pending: np.ndarray
+) -> float | None:
     """The size s with claimed ≈ computed + s·unit at most disagreeing claims (median ratio)."""
     # Claims the change reaches at all (its size per unit may be far below the force tolerance:
     # one kN of thrust against chord forces of hundreds)
@@ -322,7 +399,7 @@ def support_swaps(model: Model) -> Iterator[tuple[str, Model, tuple[str, ...]]]:
         by_joint.setdefault(r.joint, []).append(r)
     supported = list(by_joint)[:8]
     for a_pos, a in enumerate(supported):
-        for b in supported[a_pos + 1:]:
+        for b in supported[a_pos + 1 :]:
             ra = sorted(r.axis for r in by_joint[a])
             rb = sorted(r.axis for r in by_joint[b])
             if ra == rb:
@@ -336,18 +413,28 @@ def support_swaps(model: Model) -> Iterator[tuple[str, Model, tuple[str, ...]]]:
                 swapped.append(r)
             swapped += [Reaction(b, r.direction, r.axis) for r in by_joint[a]]
             swapped += [Reaction(a, r.direction, r.axis) for r in by_joint[b]]
-            words = (f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as {b} is "
-                     f"({', '.join(rb)}) — e.g. the pin at the other end")
+            words = (
+                f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as {b} is "
+                f"({', '.join(rb)}) — e.g. the pin at the other end"
+            )
             yield words, dataclasses.replace(model, reactions=tuple(swapped)), (a, b)
 
 
-AXIS_NAMES = {0: ("x", "span (x extent)"), 1: ("y", "depth (y extent)"), 2: ("z", "height (z extent)")}
+AXIS_NAMES = {
+    0: ("x", "span (x extent)"),
+    1: ("y", "depth (y extent)"),
+    2: ("z", "height (z extent)"),
+}
 
 
 def scaled_model(model: Model, axis: int, s: float) -> Model:
     base = float(model.xyz[:, axis].min())
-    joints = tuple(Joint(j.id, tuple(base + (c - base) * s if a == axis else c for a, c in enumerate(j.coords)))
-                   for j in model.joints)
+    joints = tuple(
+        Joint(
+            j.id, tuple(base + (c - base) * s if a == axis else c for a, c in enumerate(j.coords))
+        )
+        for j in model.joints
+    )
     return dataclasses.replace(model, joints=joints)
 
 
@@ -365,6 +452,8 @@ def solve_members(model: Model, columns: np.ndarray) -> np.ndarray | None:
     F = model.load_matrix()[:, columns]
     t = lu.solve(-np.asarray(F, dtype=float))
     t = np.asarray(t).reshape(A.shape[1], -1)[: len(model.members)]
-    if not np.isfinite(t).all() or np.abs(t).max() > 1e6 * max(np.abs(F).max(), 1e-300) * max(len(model.members), 1):
+    if not np.isfinite(t).all() or np.abs(t).max() > 1e6 * max(np.abs(F).max(), 1e-300) * max(
+        len(model.members), 1
+    ):
         return None  # near-singular: a near-mechanism is no explanation
     return t

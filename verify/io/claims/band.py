@@ -23,9 +23,18 @@ MAX_HEADER_ROWS = 4  # rows a header may span (group, case names, units, a secon
 TITLE_CHARS = 40  # a lone cell this long above the header is a title, not a group heading
 # Heading pairs of joint columns that name a member by its ends.
 PAIR_HEADERS = (
-    ("from", "to"), ("start", "end"), ("i", "j"), ("node i", "node j"), ("joint i", "joint j"),
-    ("start joint", "end joint"), ("start node", "end node"), ("from joint", "to joint"),
-    ("from node", "to node"), ("end 1", "end 2"), ("node 1", "node 2"), ("joint 1", "joint 2"),
+    ("from", "to"),
+    ("start", "end"),
+    ("i", "j"),
+    ("node i", "node j"),
+    ("joint i", "joint j"),
+    ("start joint", "end joint"),
+    ("start node", "end node"),
+    ("from joint", "to joint"),
+    ("from node", "to node"),
+    ("end 1", "end 2"),
+    ("node 1", "node 2"),
+    ("joint 1", "joint 2"),
 )
 
 
@@ -53,7 +62,9 @@ def _names_member(matcher: LabelMatcher, cell: Cell) -> bool:
     return bool(text) and matcher.names(text) in ("member", "reaction")
 
 
-def _pair_columns(grid: Grid, matcher: LabelMatcher, bottom_guess: int | None) -> tuple[tuple[int, int], int, int] | None:
+def _pair_columns(
+    grid: Grid, matcher: LabelMatcher, bottom_guess: int | None
+) -> tuple[tuple[int, int], int, int] | None:
     """From/to columns by their headings in the first rows, scored by rows naming members."""
     best: tuple[tuple[int, int], int, int] | None = None
     rows = grid.rows[:SCAN_ROWS]
@@ -62,8 +73,14 @@ def _pair_columns(grid: Grid, matcher: LabelMatcher, bottom_guess: int | None) -
         for first, second in PAIR_HEADERS:
             if first in keys and second in keys:
                 a, b = keys.index(first), keys.index(second)
-                hits = [k for k in range(r + 1, len(rows)) if cell_text(grid.cell(k, a)) and cell_text(grid.cell(k, b))
-                        and matcher.names(f"{cell_text(grid.cell(k, a))}-{cell_text(grid.cell(k, b))}") == "member"]
+                hits = [
+                    k
+                    for k in range(r + 1, len(rows))
+                    if cell_text(grid.cell(k, a))
+                    and cell_text(grid.cell(k, b))
+                    and matcher.names(f"{cell_text(grid.cell(k, a))}-{cell_text(grid.cell(k, b))}")
+                    == "member"
+                ]
                 if hits and (best is None or len(hits) > best[1]):
                     best = ((a, b), len(hits), hits[0])
     return best
@@ -93,8 +110,10 @@ def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
     # The header's last row: the nearest row above the first member row that holds no numbers
     # (rows in between with numbers are data whose labels the model does not know).
     bottom = first_data - 1
-    while bottom >= 0 and (all(blank(c) for c in grid.rows[bottom]) or
-                           any(_is_number(c) for k, c in enumerate(grid.rows[bottom]) if k != label_at)):
+    while bottom >= 0 and (
+        all(blank(c) for c in grid.rows[bottom])
+        or any(_is_number(c) for k, c in enumerate(grid.rows[bottom]) if k != label_at)
+    ):
         bottom -= 1
     if bottom < 0:
         return None
@@ -104,18 +123,34 @@ def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
         filled = [(k, c) for k, c in enumerate(above) if not blank(c)]
         if not filled or any(_is_number(c) for _, c in filled):
             break
-        if len(filled) == 1 and (filled[0][0] <= label_at or len(cell_text(filled[0][1])) > TITLE_CHARS):
+        if len(filled) == 1 and (
+            filled[0][0] <= label_at or len(cell_text(filled[0][1])) > TITLE_CHARS
+        ):
             break  # a title over the label column, or a sentence: not part of the header
         top -= 1
     headers, unit_rows = _compose(grid, top, bottom, label_at)
-    return Band(top, bottom, headers, None if use_pair else member_index, pair[0] if use_pair and pair else None, unit_rows)
+    return Band(
+        top,
+        bottom,
+        headers,
+        None if use_pair else member_index,
+        pair[0] if use_pair and pair else None,
+        unit_rows,
+    )
 
 
-def _compose(grid: Grid, top: int, bottom: int, label_at: int) -> tuple[list[Header], tuple[int, ...]]:
+def _compose(
+    grid: Grid, top: int, bottom: int, label_at: int
+) -> tuple[list[Header], tuple[int, ...]]:
     width = max(len(grid.rows[r]) for r in range(top, bottom + 1))
     # A row of units only ('', 'kN', 'kN') — never the header's only row, where 'N' is a heading.
-    unit_rows = tuple(r for r in range(top, bottom + 1) if bottom > top
-                      and any(not blank(c) for c in grid.rows[r]) and all(blank(c) or unit_alone(c) for c in grid.rows[r]))
+    unit_rows = tuple(
+        r
+        for r in range(top, bottom + 1)
+        if bottom > top
+        and any(not blank(c) for c in grid.rows[r])
+        and all(blank(c) or unit_alone(c) for c in grid.rows[r])
+    )
     names: list[Cell] = [None] * width
     units: list[list[tuple[int, str]]] = [[] for _ in range(width)]  # (row, unit) per column
     for r in range(top, bottom + 1):
@@ -136,7 +171,9 @@ def _compose(grid: Grid, top: int, bottom: int, label_at: int) -> tuple[list[Hea
             parsed = parse_header(c, cell)
             if parsed.unit is not None:
                 units[c].append((r, parsed.unit))
-            names[c] = cell  # the lowest heading names the column (case names sit under their group)
+            names[c] = (
+                cell  # the lowest heading names the column (case names sit under their group)
+            )
     headers = []
     for c in range(width):
         header = parse_header(c, names[c])
@@ -144,7 +181,8 @@ def _compose(grid: Grid, top: int, bottom: int, label_at: int) -> tuple[list[Hea
         if header.unit is None and len(found) == 1:
             header = replace(header, unit=next(iter(found)))
         elif len(found) > 1:
-            header = replace(header, unit_error=f"its heading rows give different units ({', '.join(found)})")
+            header = replace(
+                header, unit_error=f"its heading rows give different units ({', '.join(found)})"
+            )
         headers.append(header)
     return headers, unit_rows
-

@@ -120,5 +120,3 @@ def unit_alone(cell: Cell) -> str | None:
         return lookup_unit(text, Dimension.FORCE).symbol
     except ValueError:
         return None
-
-

@@ -69,8 +69,12 @@ class LabelMatcher:
         # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
         # there is matched, so that 0 agrees and anything else is said to have no reaction to act on.
         inclined = {r.joint for r in model.reactions if r.axis == "n"}
-        self._free_directions = {(r.joint, axis) for r in model.reactions if r.joint not in inclined
-                                 for axis in AXES[: model.dim]} - self._reactions
+        self._free_directions = {
+            (r.joint, axis)
+            for r in model.reactions
+            if r.joint not in inclined
+            for axis in AXES[: model.dim]
+        } - self._reactions
         self._model = model
         self._pool: dict[str, str] | None = None
         self._cache: dict[str, Match] = {}
@@ -157,7 +161,9 @@ class LabelMatcher:
                 readings.append((head.group("joint").strip(), head.group("axis")))
             for joint_text, axis in readings:
                 for jid in self._joints_folded.get(joint_text, []):
-                    if ((jid, axis) in self._reactions or (jid, axis) in self._free_directions) and (jid, axis) not in found:
+                    if (
+                        (jid, axis) in self._reactions or (jid, axis) in self._free_directions
+                    ) and (jid, axis) not in found:
                         found.append((jid, axis))
         return found
 
@@ -194,4 +200,3 @@ class LabelMatcher:
                 pool.setdefault(f"r{joint}{axis}".casefold(), f"{joint}.{axis}")
             self._pool = pool
         return self._pool
-

@@ -40,6 +40,7 @@ HEADER_SEARCH_ROWS = 20  # rows scanned for a header above which titles may sit
 
 # Header units that are not forces: the column is descriptive (a length, stress, area, ratio).
 
+
 @dataclass(frozen=True)
 class Options:
     member_column: str | None
@@ -137,7 +138,9 @@ class Layout:
     pair: tuple[int, int] | None = None  # from/to joint columns that name each row's member
 
 
-def decide_layout(grid: Grid, model: Model, matcher: LabelMatcher, options: Options, problems: Problems) -> Layout | None:
+def decide_layout(
+    grid: Grid, model: Model, matcher: LabelMatcher, options: Options, problems: Problems
+) -> Layout | None:
     """The layout of `grid`, or None with the reasons added to `problems`."""
     empty = None
     band = find_band(grid, matcher) if options.member_column is None else None
@@ -170,7 +173,12 @@ def decide_layout(grid: Grid, model: Model, matcher: LabelMatcher, options: Opti
             pair = band.pair
             member_h = headers[pair[0]]
             taken.add(pair[1])
-    elif member_h is not None and band is not None and band.pair is not None and band.member_index is None:
+    elif (
+        member_h is not None
+        and band is not None
+        and band.pair is not None
+        and band.member_index is None
+    ):
         # A numbered member column (1...n) beside from/to joints: the joints name the member.
         pair = band.pair
         taken.update(pair)
@@ -241,7 +249,11 @@ def decide_layout(grid: Grid, model: Model, matcher: LabelMatcher, options: Opti
     else:
         value_columns = []
         for h in headers:
-            if h.other_unit is not None and h.index not in taken and h.other_name.casefold() in load_names:
+            if (
+                h.other_unit is not None
+                and h.index not in taken
+                and h.other_name.casefold() in load_names
+            ):
                 # Named like a load case but not in a force unit: skipping it would pass its
                 # claims over in silence.
                 problems.add(
@@ -270,8 +282,11 @@ def decide_layout(grid: Grid, model: Model, matcher: LabelMatcher, options: Opti
                 return empty
             value_columns = chosen
         if not value_columns:
-            skipped = [f"'{h.text}' ('{h.other_unit}' is not a force unit)" for h in headers
-                       if h.other_unit is not None and h.index not in taken]
+            skipped = [
+                f"'{h.text}' ('{h.other_unit}' is not a force unit)"
+                for h in headers
+                if h.other_unit is not None and h.index not in taken
+            ]
             problems.add(
                 f"no usable columns: besides the member column '{member_h.text}' there is no force column; "
                 "expected one column per load case (e.g. 'dead (kN)') or a force column with a case column"
@@ -307,7 +322,9 @@ def decide_layout(grid: Grid, model: Model, matcher: LabelMatcher, options: Opti
     if all(all(blank(c) for c in grid.rows[r]) for r in range(start, len(grid.rows))):
         problems.add("the table has a header but no rows of claims", grid.where(header_r))
         return empty
-    return Layout(header_r, start, member_h, case_h, tc_h, unit_h, value_columns, options.case, pair)
+    return Layout(
+        header_r, start, member_h, case_h, tc_h, unit_h, value_columns, options.case, pair
+    )
 
 
 def _pair_tc_columns(
@@ -318,12 +335,17 @@ def _pair_tc_columns(
     for tc in tc_all:
         left = [k for k, v in enumerate(out) if v.index < tc.index]
         if not left:
-            problems.add(f"the T/C column '{tc.text}' has no force column on its left", grid.where(header_r, tc.index))
+            problems.add(
+                f"the T/C column '{tc.text}' has no force column on its left",
+                grid.where(header_r, tc.index),
+            )
             continue
         k = left[-1]
         if out[k].tc_index is not None:
-            problems.add(f"the force column '{out[k].header}' has two T/C columns on its right; keep one",
-                         grid.where(header_r, tc.index))
+            problems.add(
+                f"the force column '{out[k].header}' has two T/C columns on its right; keep one",
+                grid.where(header_r, tc.index),
+            )
             continue
         out[k] = replace(out[k], tc_index=tc.index)
     return out
@@ -367,7 +389,9 @@ def _apply_units_row(
         return start
     member_cell = grid.cell(start, member_index)
     cells = [grid.cell(start, v.index) for v in columns]
-    if not (blank(member_cell) or unit_alone(member_cell) or cell_text(member_cell) in ("-", "[-]")):
+    if not (
+        blank(member_cell) or unit_alone(member_cell) or cell_text(member_cell) in ("-", "[-]")
+    ):
         return start
     if all(blank(c) for c in cells) or not all(blank(c) or unit_alone(c) for c in cells):
         return start
@@ -405,5 +429,3 @@ def _check_unheaded_data(
                 f"column {c + 1} has values but no header; give it a load case name or remove it{hint}",
                 grid.where(r, c),
             )
-
-

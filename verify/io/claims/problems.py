@@ -10,7 +10,6 @@ __all__ = ["MAX_PROBLEMS", "Problems", "quoted"]
 MAX_PROBLEMS = 200  # problems reported per file; the rest are counted
 
 
-
 class Problems:
     """Collects problems for one file, capped so a wholly broken table stays readable."""
 

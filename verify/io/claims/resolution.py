@@ -38,7 +38,9 @@ def _decimals(text: str, value: float) -> int:
 
 
 def judge_column(column: str, values: list[ClaimedValue]) -> Resolution | None:
-    written = [v for v in values if v.member is not None and v.value != 0 and math.isfinite(v.value)]
+    written = [
+        v for v in values if v.member is not None and v.value != 0 and math.isfinite(v.value)
+    ]
     if len(written) < MIN_VALUES:
         return None
     magnitudes = np.abs(np.array([v.value for v in written]))
@@ -63,12 +65,19 @@ def judge_resolutions(values: list[ClaimedValue]) -> list[Resolution]:
     column whose sample fits no step fits none, so a 10^5-row table of ordinary decimals costs
     no second pass."""
     candidates = _by_column(values[:SAMPLE])
-    maybe = {column for column, claims in candidates.items() if len(values) > SAMPLE and _fits_a_step(claims)}
+    maybe = {
+        column
+        for column, claims in candidates.items()
+        if len(values) > SAMPLE and _fits_a_step(claims)
+    }
     if len(values) > SAMPLE and not maybe:
         return []
     by_column = _by_column(values) if len(values) > SAMPLE else candidates
-    found = (judge_column(column, claims) for column, claims in by_column.items()
-             if len(values) <= SAMPLE or column in maybe)
+    found = (
+        judge_column(column, claims)
+        for column, claims in by_column.items()
+        if len(values) <= SAMPLE or column in maybe
+    )
     return [r for r in found if r is not None]
 
 
@@ -80,7 +89,15 @@ def _by_column(values: list[ClaimedValue]) -> dict[str, list[ClaimedValue]]:
 
 
 def _fits_a_step(values: list[ClaimedValue]) -> bool:
-    magnitudes = np.abs(np.array([v.value for v in values if v.member is not None and v.value != 0 and math.isfinite(v.value)]))
+    magnitudes = np.abs(
+        np.array(
+            [
+                v.value
+                for v in values
+                if v.member is not None and v.value != 0 and math.isfinite(v.value)
+            ]
+        )
+    )
     for step in STEPS:
         counts = magnitudes / step
         if (np.abs(counts - np.rint(counts)) <= 1e-6 * np.maximum(1.0, counts)).all():

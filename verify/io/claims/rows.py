@@ -22,11 +22,15 @@ def refuse_name(text: str, what: str) -> str | None:
     Checked before any matching: the label patterns must never run over an 80 KB cell, and a
     control character would reach the terminal through every finding that quotes the label."""
     if len(text) > MAX_NAME_CHARS:
-        return (f"the {what} '{quoted(text)}' is {len(text):,} characters long (limit {MAX_NAME_CHARS}); "
-                "a label names one member or reaction")
+        return (
+            f"the {what} '{quoted(text)}' is {len(text):,} characters long (limit {MAX_NAME_CHARS}); "
+            "a label names one member or reaction"
+        )
     if any(ch < " " or "\x7f" <= ch < "\xa0" for ch in text):
-        return (f"the {what} '{quoted(text)}' holds control characters (shown escaped); "
-                "labels and case names are printable text")
+        return (
+            f"the {what} '{quoted(text)}' holds control characters (shown escaped); "
+            "labels and case names are printable text"
+        )
     return None
 
 
@@ -120,7 +124,10 @@ class RowReader:
         grid = self.grid
         rows = grid.rows
         label_at = self.member_h.index
-        columns = [(v.index, v.case or "", (v.case or "").casefold(), v.unit, v.header) for v in self.columns]
+        columns = [
+            (v.index, v.case or "", (v.case or "").casefold(), v.unit, v.header)
+            for v in self.columns
+        ]
         match = self.matcher.match
         claimed, values = self._claimed, self.values
         decimal_comma = grid.decimal_comma
@@ -138,8 +145,15 @@ class RowReader:
                 cell = row[index] if index < len(row) else None
                 if cell is None:
                     continue
-                number = cell if type(cell) is float else (
-                    plain_number(cell, decimal_comma=decimal_comma) if type(cell) is str else None)
+                number = (
+                    cell
+                    if type(cell) is float
+                    else (
+                        plain_number(cell, decimal_comma=decimal_comma)
+                        if type(cell) is str
+                        else None
+                    )
+                )
                 if number is None:
                     break  # anything but a plain number: the general reader words it
                 value = number
@@ -149,8 +163,19 @@ class RowReader:
             else:
                 for index, case, folded, unit, header, value, cell in cells:
                     claimed[(member, folded)] = (r, label)
-                    values.append(ClaimedValue(label, member, None, case, value + 0.0, False, unit,
-                                               grid.where(r, index, header), cell_text(cell)))
+                    values.append(
+                        ClaimedValue(
+                            label,
+                            member,
+                            None,
+                            case,
+                            value + 0.0,
+                            False,
+                            unit,
+                            grid.where(r, index, header),
+                            cell_text(cell),
+                        )
+                    )
                 continue
             self.read_row(r)
 
@@ -198,7 +223,9 @@ class RowReader:
         if text in ("c", "compression", "comp"):
             return "C"
         heading = cell_text(self.grid.cell(self.header_row, index)) or "T/C"
-        self.problems.add(f"'{quoted(cell_text(cell))}' is not T or C", self.grid.where(r, index, heading))
+        self.problems.add(
+            f"'{quoted(cell_text(cell))}' is not T or C", self.grid.where(r, index, heading)
+        )
         return None
 
     def sign_conflicts(self) -> list[SignConflict]:
@@ -262,7 +289,8 @@ class RowReader:
         if tc is not None:
             if letter is not None and letter != tc:
                 self.problems.add(
-                    f"force '{quoted(cell_text(cell))}' says {letter} but the T/C column says {tc}", where
+                    f"force '{quoted(cell_text(cell))}' says {letter} but the T/C column says {tc}",
+                    where,
                 )
                 return
             letter = tc
@@ -333,8 +361,6 @@ class RowReader:
             )
 
 
-
-
 @dataclass(frozen=True)
 class ReadRows:
     values: list[ClaimedValue]
@@ -344,11 +370,18 @@ class ReadRows:
     sign_conflicts: list[SignConflict]
 
 
-def read_rows(grid: Grid, layout: Layout, matcher: LabelMatcher, problems: Problems, *, fast: bool) -> ReadRows:
+def read_rows(
+    grid: Grid, layout: Layout, matcher: LabelMatcher, problems: Problems, *, fast: bool
+) -> ReadRows:
     """Every data row of `grid` under `layout`; problems are added, never raised here."""
     reader = RowReader(grid, matcher, problems, layout)
-    if fast and layout.case is None and layout.tc is None and layout.unit is None and layout.pair is None and not any(
-        v.tc_index is not None for v in layout.columns
+    if (
+        fast
+        and layout.case is None
+        and layout.tc is None
+        and layout.unit is None
+        and layout.pair is None
+        and not any(v.tc_index is not None for v in layout.columns)
     ):
         reader.read_plain_rows(layout.start, len(grid.rows))
     else:

@@ -23,8 +23,12 @@ def member_rows(grid: Grid, matcher: LabelMatcher) -> int:
         named = [k for k, t in enumerate(texts) if t and matcher.names(t) == "member"]
         if not named:
             continue
-        numbers = [k for k, c in enumerate(row) if k not in named and (
-            isinstance(c, float) or (isinstance(c, str) and _numeric_start(c)))]
+        numbers = [
+            k
+            for k, c in enumerate(row)
+            if k not in named
+            and (isinstance(c, float) or (isinstance(c, str) and _numeric_start(c)))
+        ]
         if numbers:
             count += 1
     return count

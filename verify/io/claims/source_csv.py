@@ -94,4 +94,3 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         )
         return None
     return Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
-

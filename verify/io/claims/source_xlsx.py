@@ -88,7 +88,9 @@ def read_workbook(data: bytes, sheet: str | None, problems: Problems) -> list[Gr
             return []
 
 
-def _read_sheets(load: Callable[..., Any], data: bytes, sheet: str | None, problems: Problems) -> list[Grid]:
+def _read_sheets(
+    load: Callable[..., Any], data: bytes, sheet: str | None, problems: Problems
+) -> list[Grid]:
     extents = _sheet_extents(data)
     # Pass 1 sees formulas as formulas; pass 2 sees only the values the spreadsheet cached. A
     # formula without a cached value is reported, never read as blank or zero.
@@ -126,9 +128,19 @@ def _read_sheets(load: Callable[..., Any], data: bytes, sheet: str | None, probl
             rows: list[list[Cell]] = []
             # max_col bounds the padding openpyxl adds before a far cell (a stray cell in column
             # XFD would pad every row to 16,384 cells).
-            for r, cells in enumerate(ws.iter_rows(min_row=1, min_col=1, max_col=max(columns, 1)), start=1):
-                rows.append([_excel_cell(getattr(cell, "value", None), (r, c) in found, getattr(cell, "number_format", None))
-                             for c, cell in enumerate(cells, start=1)])
+            for r, cells in enumerate(
+                ws.iter_rows(min_row=1, min_col=1, max_col=max(columns, 1)), start=1
+            ):
+                rows.append(
+                    [
+                        _excel_cell(
+                            getattr(cell, "value", None),
+                            (r, c) in found,
+                            getattr(cell, "number_format", None),
+                        )
+                        for c, cell in enumerate(cells, start=1)
+                    ]
+                )
             if any(not blank(c) for row in rows for c in row):
                 grids.append(Grid(rows, list(range(1, len(rows) + 1)), title, decimal_comma=False))
             elif sheet is not None or len(titles) == 1:
@@ -138,8 +150,10 @@ def _read_sheets(load: Callable[..., Any], data: bytes, sheet: str | None, probl
     finally:
         book.close()
     if not grids and not problems:
-        problems.add("every sheet of the workbook is empty; expected a sheet with a header row such as "
-                     "'Member', 'dead (kN)' and one row per member")
+        problems.add(
+            "every sheet of the workbook is empty; expected a sheet with a header row such as "
+            "'Member', 'dead (kN)' and one row per member"
+        )
     return grids
 
 
@@ -228,7 +242,9 @@ def _pick_sheets(book: Any, sheet: str | None, problems: Problems) -> list[str]:
     if len(folded) == 1:
         return folded
     listed = ", ".join(f"'{n}'" for n in names)
-    problems.add(f"the workbook has no sheet '{quoted(sheet)}'; it has {listed}.{did_you_mean(sheet, names)}")
+    problems.add(
+        f"the workbook has no sheet '{quoted(sheet)}'; it has {listed}.{did_you_mean(sheet, names)}"
+    )
     return []
 
 
@@ -245,7 +261,9 @@ def format_decimals(number_format: str | None) -> int | None:
     """Decimals a fixed number format shows ('0.00', '#,##0.000', '0.0;(0.0)' -> 2, 3, 1)."""
     if not number_format or number_format == "General":
         return None
-    shown = re.sub(r'"[^"]*"|\\.|\[[^\]]*\]', "", number_format.split(";")[0])  # drop quoted text, escapes, colours
+    shown = re.sub(
+        r'"[^"]*"|\\.|\[[^\]]*\]', "", number_format.split(";")[0]
+    )  # drop quoted text, escapes, colours
     found = _FIXED_DECIMALS.search(shown)
     return len(found.group(1)) if found else (0 if re.fullmatch(r"[#,0]+", shown) else None)
 
@@ -264,15 +282,20 @@ def _excel_cell(value: object, is_formula: bool, number_format: str | None = Non
         if not in_force_range(float(value)):
             # openpyxl reads '1e400' as infinity, and 1e308 would overflow the comparison: refused
             # here, so no path can take it for a claim.
-            return Unusable(f"holds a number out of range ({value:.6g}); expected 0 or a force between "
-                            f"{MIN_FORCE:g} and {MAX_FORCE:g} in size")
+            return Unusable(
+                f"holds a number out of range ({value:.6g}); expected 0 or a force between "
+                f"{MIN_FORCE:g} and {MAX_FORCE:g} in size"
+            )
         # A number shown with fixed decimals ('10.00') was written to them: keep that as its text
         # (the value is unchanged; the rounding allowance reads the decimals from the text).
         decimals = format_decimals(number_format)
-        if decimals is not None and math.isfinite(value) and round(float(value), decimals) == float(value):
+        if (
+            decimals is not None
+            and math.isfinite(value)
+            and round(float(value), decimals) == float(value)
+        ):
             return f"{float(value):.{decimals}f}"
         return float(value)
     if isinstance(value, dt.datetime | dt.date | dt.time | dt.timedelta):
         return Unusable(f"holds a date or time ({value}); format the cell as a number")
     return str(value).strip()
-

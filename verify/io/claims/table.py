@@ -25,7 +25,9 @@ class UnmatchedLabel:
     label: str
     where: str
     reason: str  # "unknown" or "ambiguous"
-    candidates: tuple[str, ...]  # nearest real labels (unknown) or the competing matches (ambiguous)
+    candidates: tuple[
+        str, ...
+    ]  # nearest real labels (unknown) or the competing matches (ambiguous)
 
 
 @dataclass(frozen=True)
