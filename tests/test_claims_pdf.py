@@ -181,3 +181,92 @@ def test_a_huge_page_is_refused(tmp_path: Path) -> None:
     with pytest.raises(InputError) as info:
         read_claims(_write(pdf, tmp_path / "huge.pdf"), MODEL)
     assert "page 1 is 200 x 200 inches" in str(info.value)
+
+
+def _spreadsheet_print(
+    widths: list[float], header: list[str], *, orientation: str = "P", group: str | None = None
+) -> FPDF:
+    """A table as a spreadsheet prints it: ruled cells, headings wrapped inside narrow cells
+    ('dead' over '(kN)', 'Member' centred beside them), forces right-aligned."""
+    pdf = FPDF(orientation=orientation)
+    pdf.add_page()
+    pdf.set_font("Helvetica", size=9)
+    pdf.cell(0, 8, "Roof truss T3 - member forces (invented)", new_x="LMARGIN", new_y="NEXT")
+    lines = [header, *_rows(list(_members(5)))]
+    with pdf.table(
+        col_widths=widths,
+        width=sum(widths),
+        text_align=("LEFT", "RIGHT", "RIGHT"),
+        first_row_as_headings=group is None,
+        align="LEFT",
+    ) as table:
+        if group is not None:
+            row = table.row()
+            row.cell("")
+            row.cell(group, colspan=2, align="CENTER")
+        for cells in lines:
+            row = table.row()
+            for cell in cells:
+                row.cell(cell)
+    return pdf
+
+
+def _agrees(path: Path) -> None:
+    table = read_claims(path, MODEL)
+    assert table.columns == ("dead", "snow") and not table.unmatched
+    got = {(v.member, v.column): v.value for v in table.values}
+    assert got[("M5", "snow")] == pytest.approx(round(-SNOW / math.sqrt(2), 2), rel=REL)
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def test_headings_wrapped_inside_narrow_cells_are_read_whole(tmp_path: Path) -> None:
+    """'dead (kN)' in a cell too narrow for it prints as 'dead' over '(kN)', with 'Member'
+    centred beside the two lines: one heading per column, not a column per word."""
+    pdf = _spreadsheet_print([18, 12, 12], ["Member", "dead (kN)", "snow (kN)"])
+    _agrees(_write(pdf, tmp_path / "narrow.pdf"))
+
+
+def test_headings_printed_close_together_are_parted_by_their_columns(tmp_path: Path) -> None:
+    """Two headings about two spaces apart ('dead (kN)  snow (kN)') belong to the columns below."""
+    pdf = FPDF()
+    _page(pdf, [["Member", "dead (kN)", "snow (kN)"], *_rows(list(_members(5)))], [20, 38, 56])
+    _agrees(_write(pdf, tmp_path / "close.pdf"))
+
+
+def test_group_heading_over_the_case_columns_gives_their_unit(tmp_path: Path) -> None:
+    """'Axial force (kN)' spanning both case columns above 'dead' and 'snow'."""
+    pdf = _spreadsheet_print([25, 22, 22], ["Member", "dead", "snow"], group="Axial force (kN)")
+    table = read_claims(_write(pdf, tmp_path / "group.pdf"), MODEL)
+    assert {v.unit for v in table.values} == {"kN"}
+    _agrees(tmp_path / "group.pdf")
+
+
+@pytest.mark.parametrize("turn", [90, 270])
+def test_a_page_turned_by_rotate_is_read_upright(tmp_path: Path, turn: int) -> None:
+    """A page whose /Rotate turns it: pdfplumber gives the turned coordinates, read back here."""
+    from pypdf import PdfReader, PdfWriter
+
+    pdf = FPDF()
+    _page(pdf, [["Member", "dead (kN)", "snow (kN)"], *_rows(list(_members(5)))], [20, 60, 100])
+    reader = PdfReader(str(_write(pdf, tmp_path / "upright.pdf")))
+    writer = PdfWriter()
+    for page in reader.pages:
+        writer.add_page(page.rotate(turn))
+    with (tmp_path / "turned.pdf").open("wb") as out:
+        writer.write(out)
+    _agrees(tmp_path / "turned.pdf")
+
+
+def test_a_landscape_table_printed_along_a_portrait_sheet(tmp_path: Path) -> None:
+    """The table drawn turned a quarter on an upright page (a landscape print on portrait
+    paper), with the page's title block upright: the table's own direction wins."""
+    pdf = FPDF()
+    pdf.add_page()
+    pdf.set_font("Helvetica", size=10)
+    pdf.text(15, 15, "Sheet 12")
+    lines = [["Member", "dead (kN)", "snow (kN)"], *_rows(list(_members(5)))]
+    with pdf.rotation(90, x=105, y=148):
+        for k, cells in enumerate(lines):
+            for x, cell in zip([40, 80, 120], cells, strict=True):
+                pdf.text(x, 100 + 6 * k, cell)
+    _agrees(_write(pdf, tmp_path / "along.pdf"))

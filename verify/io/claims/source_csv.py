@@ -12,6 +12,9 @@ from verify.io.claims.grid import Cell, Grid
 from verify.io.claims.problems import Problems
 
 CSV_DELIMITERS = ("\t", ";", ",", "|")
+# Rows of a claims table: a million members with ten cases in the long layout (one row per member
+# and case) is ten million; more is a file made to exhaust memory (256 MB of blank-ish lines).
+MAX_CSV_ROWS = 10_000_000
 
 
 def _decode(data: bytes, problems: Problems) -> str | None:
@@ -69,6 +72,14 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
     if not text.strip():
         problems.add(
             "the file is empty; expected a header row such as 'Member,dead (kN)' and one row per member"
+        )
+        return None
+    breaks = text.count("\n") or text.count("\r")  # CR-only files are read too
+    count = breaks + (not text.endswith(("\n", "\r")))
+    if count > MAX_CSV_ROWS:
+        problems.add(
+            f"the file has {count:,} lines (limit {MAX_CSV_ROWS:,}); "
+            "split the table, or check that this is the claims table"
         )
         return None
     lines = text.splitlines()

@@ -12,26 +12,31 @@ parsed, page by page, releasing each one after it is read.
 
 from __future__ import annotations
 
+import bisect
 import io
+import math
 import re
+from collections import Counter
+from collections.abc import Sequence
+from typing import Any, NamedTuple
 
 from verify.io.claims.grid import Cell, Grid
+from verify.io.claims.headers import unit_alone
 from verify.io.claims.problems import Problems, quoted
 
 MAX_PDF_BYTES = 100 * 1024 * 1024
 MAX_PAGES_SEARCHED = 200  # without --pages; a calc package's table sits on a few of them
 MAX_PAGE_AREA = (72 * 100) ** 2  # points^2: a page up to 100 x 100 inches (A0 is 33 x 47)
 MAX_PAGE_CHARS = 100_000  # a dense A3 table page holds about 10,000
-TABLE_SETTINGS = {
-    "vertical_strategy": "text",
-    "horizontal_strategy": "text",
-    "snap_tolerance": 3,
-    "join_tolerance": 3,
-    "intersection_tolerance": 5,
-    "text_x_tolerance": 2,
-    "min_words_vertical": 2,
-}  # a short table (two rows) still aligns its columns
-HEADER_ROWS = 4  # rows of words kept above the forces of a page
+HEADER_LINES = 4  # lines of words kept above the forces of a page (group, names, wrapped units)
+# Characters closer than WORD_GAP character heights form a word, words closer than CELL_GAP one
+# cell: a space is 0.28 of the height in Helvetica and 0.6 in Courier, while printed tables leave
+# about a character height or more between columns (common practice in spreadsheet and
+# analysis-program print-outs).
+WORD_GAP = 0.2
+CELL_GAP = 0.8
+MAX_RULES = 50_000  # ruled lines used to part cells; a page drawn with more is read without them
+SPLIT_GAP = 0.45  # two headings printed close together still leave more than one space between
 _RANGE = re.compile(r"\s*(\d{1,6})\s*(?:-\s*(\d{1,6})\s*)?$")
 
 
@@ -115,10 +120,9 @@ def _read_pages(document: object, wanted: list[int], problems: Problems) -> list
                 return []
             if page.chars:
                 any_text = True
-            table = _page_table(page)
+            kept = _page_rows(page)
         finally:
             page.close()  # a page's parsed objects are released before the next is read
-        kept = _table_rows(table)
         # Compared without spaces: the same header may split into cells differently on each page.
         texts_of = [
             "".join(c for c in cells if isinstance(c, str)).replace(" ", "") for _, cells in kept
@@ -162,46 +166,273 @@ def _has_number(cells: list[Cell]) -> bool:
 _FORCE_LIKE = re.compile(r"^[(+\-\u2212]?\d[\d,. ']*\)?(?:\s*[A-Za-z]{1,3})?(?:\s*[TC])?$")
 
 
-def _table_rows(table: list[list[str | None]]) -> list[tuple[int, list[Cell]]]:
-    """The rows of one page's table that can matter: rows with forces, and up to HEADER_ROWS
-    rows of words just above a run of them (the header). Title lines far above and notes below
-    the table are prose, not claims."""
-    cleaned: list[list[Cell]] = [
-        [(c.strip() or None) if isinstance(c, str) else None for c in raw] for raw in table
+class _Glyph(NamedTuple):
+    """One non-blank character in reading coordinates: u along its line, v down the page as
+    the text reads (a turned table reads like an upright one)."""
+
+    u0: float
+    u1: float
+    v0: float
+    v1: float
+    text: str
+
+    @property
+    def middle(self) -> float:
+        return (self.v0 + self.v1) / 2
+
+    @property
+    def height(self) -> float:
+        return self.v1 - self.v0
+
+
+class _Phrase(NamedTuple):
+    """The words of one cell on one line, and where they run along the line."""
+
+    u0: float
+    u1: float
+    text: str
+    cell: int = 0  # between which ruled lines it stands; words across a rule never join
+
+
+class _Line(NamedTuple):
+    number: int  # 1-based, counted down the page
+    v: float
+    height: float
+    words: list[_Phrase]
+
+    @property
+    def phrases(self) -> list[_Phrase]:
+        return _joined(self.words, CELL_GAP * self.height)
+
+
+def _joined(words: list[_Phrase], gap: float) -> list[_Phrase]:
+    """Words closer than `gap` joined into one phrase."""
+    phrases: list[_Phrase] = []
+    for w in words:
+        if phrases and w.cell == phrases[-1].cell and w.u0 - phrases[-1].u1 <= gap:
+            last = phrases[-1]
+            phrases[-1] = _Phrase(last.u0, w.u1, f"{last.text} {w.text}", last.cell)
+        else:
+            phrases.append(w)
+    return phrases
+
+
+_QUARTERS = ((1, 0), (0, 1), (-1, 0), (0, -1))  # reading directions: page x right, y down
+
+
+def _quarter(char: dict[str, Any]) -> tuple[int, int]:
+    a, b = float(char["matrix"][0]), float(char["matrix"][1])
+    return _QUARTERS[round(math.atan2(-b, a) / (math.pi / 2)) % 4]
+
+
+def _turned(box: dict[str, Any], direction: tuple[int, int]) -> tuple[float, float, float, float]:
+    """A page box (x0, x1, top, bottom) as (u0, u1, v0, v1) in the reading frame."""
+    dx, dy = direction
+    corners = [
+        (float(x), float(y)) for x in (box["x0"], box["x1"]) for y in (box["top"], box["bottom"])
     ]
-    numeric = [_has_number(cells) for cells in cleaned]
-    keep = []
-    for k, cells in enumerate(cleaned):
-        if not any(cells):
-            continue
-        if numeric[k] or any(numeric[k + 1 : k + 1 + HEADER_ROWS]):
-            keep.append((k + 1, cells))
-    return keep
+    us = [x * dx + y * dy for x, y in corners]
+    vs = [y * dx - x * dy for x, y in corners]
+    return min(us), max(us), min(vs), max(vs)
 
 
-def _page_table(page: object) -> list[list[str | None]]:
-    """The page's table as rows of cell texts. The table's cells give the rows and the column
-    boundaries; every word is then placed by its centre, the outer columns reaching to the page
-    edges, so a heading wider than its column ('snow (kN)' over '-8.80') is not cut short."""
-    found = page.find_table(TABLE_SETTINGS)  # type: ignore[attr-defined]
-    if found is None:
+def _glyphs(chars: list[dict[str, Any]]) -> tuple[list[_Glyph], tuple[int, int]]:
+    """The glyphs that read in the page's main direction, and that direction. pdfplumber gives
+    each character's text matrix with the page's /Rotate applied: a landscape table printed on
+    a portrait sheet, or a page turned by /Rotate, reads along (0, -1) or (0, 1), turned back
+    here."""
+    marks = [(c, _quarter(c)) for c in chars if c["text"].strip()]
+    if not marks:
+        return [], (1, 0)
+    direction = Counter(q for _, q in marks).most_common(1)[0][0]
+    found = [
+        _Glyph(*_turned(char, direction), char["text"])
+        for char, quarter in marks
+        if quarter == direction  # a stamp or a margin note turned another way is left out
+    ]
+    return found, direction
+
+
+def _rules(
+    edges: list[dict[str, Any]], direction: tuple[int, int]
+) -> list[tuple[float, float, float]]:
+    """Ruled lines across the reading direction, as (u, v0, v1): the borders between cells of a
+    ruled table. Two cells' texts printed close together (a right-aligned force and the T/C
+    letter in the next cell) stay apart when a rule stands between them."""
+    if len(edges) > MAX_RULES:
         return []
-    columns = sorted(
-        {(round(c[0], 1), round(c[2], 1)) for row in found.rows for c in row.cells if c is not None}
-    )
-    rows = [row.bbox for row in found.rows]
-    if not columns or not rows:
+    found = []
+    for edge in edges:
+        u0, u1, v0, v1 = _turned(edge, direction)
+        if u1 - u0 < 1.0 and v1 - v0 > 3.0:
+            found.append(((u0 + u1) / 2, v0, v1))
+    return found
+
+
+def _lines(glyphs: list[_Glyph], rules: Sequence[tuple[float, float, float]] = ()) -> list[_Line]:
+    """Glyphs -> lines down the page, each a list of words along it. Glyphs whose middles lie
+    within 0.4 of a character height share a line; characters closer than WORD_GAP heights and
+    not parted by a rule form a word (words closer than CELL_GAP heights form a cell: phrases)."""
+    groups: list[list[_Glyph]] = []
+    for g in sorted(glyphs, key=lambda g: g.middle):
+        if groups and abs(g.middle - groups[-1][0].middle) <= 0.4 * max(
+            g.height, groups[-1][0].height, 1e-6
+        ):
+            groups[-1].append(g)
+        else:
+            groups.append([g])
+    lines = []
+    for number, group in enumerate(groups, start=1):
+        group.sort(key=lambda g: g.u0)
+        height = sorted(g.height for g in group)[len(group) // 2]
+        middle = group[0].middle
+        across = sorted(u for u, v0, v1 in rules if v0 - 1.0 <= middle <= v1 + 1.0)
+        words: list[_Phrase] = []
+        for g in group:
+            cell = bisect.bisect(across, (g.u0 + g.u1) / 2)
+            last = words[-1] if words else None
+            if last is not None and last.cell == cell and g.u0 - last.u1 <= WORD_GAP * height:
+                words[-1] = _Phrase(last.u0, max(last.u1, g.u1), last.text + g.text, cell)
+            else:
+                words.append(_Phrase(g.u0, g.u1, g.text, cell))
+        lines.append(_Line(number, middle, height, words))
+    return lines
+
+
+def _numeric(line: _Line) -> bool:
+    """A line with a cell that reads like a force ('5.00', '-7.07', '7.07 C', '(12.4)')."""
+    return any(len(p.text) <= 40 and _FORCE_LIKE.match(p.text) for p in line.phrases)
+
+
+def _body(lines: list[_Line]) -> list[int]:
+    """Indices of the table's data lines: lines of two or more cells with a force in them. A
+    lone such line (a title block's 'Rev 3', a note's '1.35 x dead') is left out when the page
+    has runs of them."""
+    data = [k for k, line in enumerate(lines) if len(line.phrases) >= 2 and _numeric(line)]
+    runs: list[list[int]] = []
+    for k in data:
+        if runs and k == runs[-1][-1] + 1:
+            runs[-1].append(k)
+        else:
+            runs.append([k])
+    if any(len(run) >= 2 for run in runs):
+        return [k for run in runs if len(run) >= 2 for k in run]
+    return data
+
+
+def _columns(lines: list[_Line], body: list[int]) -> list[tuple[float, float]]:
+    """Column extents along the line: the union of the data cells' extents. Headings are left
+    out on purpose: a heading wider than its column ('Member (joints)', 'dead (kN)' in a narrow
+    cell) or a group heading over several columns must not merge or split columns."""
+    spans = sorted((p.u0, p.u1) for k in body for p in lines[k].phrases)
+    columns: list[tuple[float, float]] = []
+    for u0, u1 in spans:
+        if columns and u0 <= columns[-1][1]:
+            columns[-1] = (columns[-1][0], max(columns[-1][1], u1))
+        else:
+            columns.append((u0, u1))
+    return columns
+
+
+def _placed(phrase: _Phrase, columns: list[tuple[float, float]]) -> tuple[int, list[int]]:
+    """The column holding most of a phrase, and every column it reaches into. The line is parted
+    midway between the columns' data; reaching in means a tenth of the phrase's width or more."""
+    cuts = [(a[1] + b[0]) / 2 for a, b in zip(columns, columns[1:], strict=False)]
+    edges = [-math.inf, *cuts, math.inf]
+    width = max(phrase.u1 - phrase.u0, 1e-6)
+    shares = [
+        max(0.0, min(phrase.u1, hi) - max(phrase.u0, lo)) / width
+        for lo, hi in zip(edges, edges[1:], strict=False)
+    ]
+    return shares.index(max(shares)), [c for c, share in enumerate(shares) if share >= 0.1]
+
+
+def _cells(
+    line: _Line, columns: list[tuple[float, float]], below: frozenset[int] = frozenset()
+) -> tuple[list[Cell], bool]:
+    """A line's cells, and whether it holds a group heading. A phrase reaching over several
+    columns that have headings of their own on the lines below (`below`), where no other phrase
+    of its line stands, is a group heading ('Axial force (kN)' over 'dead' and 'snow'), kept
+    whole in its first column; otherwise it is a heading a little wide for its column. A phrase whose words, two spaces or more
+    apart, stand over different columns is two headings printed close together, parted."""
+    texts: list[list[str]] = [[] for _ in columns]
+    group = False
+    phrases = line.phrases
+    placed = [_placed(p, columns) for p in phrases]
+    for k, (phrase, (owner, reached)) in enumerate(zip(phrases, placed, strict=True)):
+        others = {o for j, (o, _) in enumerate(placed) if j != k}
+        if len(reached) >= 2:
+            words = [w for w in line.words if phrase.u0 <= w.u0 and w.u1 <= phrase.u1]
+            pieces = _joined(words, SPLIT_GAP * line.height)
+            owners = [_placed(piece, columns)[0] for piece in pieces]
+            if len(pieces) > 1 and len(set(owners)) == len(pieces):
+                for piece, c in zip(pieces, owners, strict=True):
+                    texts[c].append(piece.text)
+                continue
+            if not others & set(reached) and len(below & set(reached)) >= 2:
+                texts[reached[0]].append(phrase.text)
+                group = True
+                continue
+        texts[owner].append(phrase.text)
+    return [" ".join(t) or None for t in texts], group
+
+
+def _stacked(rows: list[list[Cell]]) -> list[Cell]:
+    """Heading lines of one header row read top to bottom per column: a cell wrapped over two
+    lines ('dead' over '(kN)') or a unit line under the names becomes 'dead (kN)'."""
+    out: list[Cell] = []
+    for parts in zip(*rows, strict=True):
+        words = []
+        for part in parts:
+            if not isinstance(part, str):
+                continue
+            unit = unit_alone(part)
+            words.append(f"({unit})" if unit is not None and part.strip("()[] ") == part else part)
+        out.append(" ".join(words) or None)
+    return out
+
+
+def _page_rows(page: Any) -> list[tuple[int, list[Cell]]]:
+    """The rows of one page's table with their line numbers: each run of data lines (and the
+    lines between them, such as a row of dashes) under up to HEADER_LINES heading lines just
+    above it, close enough to belong to it. Title blocks further up and notes below are prose."""
+    glyphs, direction = _glyphs(page.chars)
+    lines = _lines(glyphs, _rules(page.edges, direction))
+    body = _body(lines)
+    if not body:
         return []
-    cuts = [
-        (a[1] + b[0]) / 2 for a, b in zip(columns, columns[1:], strict=False)
-    ]  # between columns
-    grid: list[list[list[str]]] = [[[] for _ in columns] for _ in rows]
-    for word in page.extract_words(x_tolerance=2, keep_blank_chars=False):  # type: ignore[attr-defined]
-        middle_y = (word["top"] + word["bottom"]) / 2
-        r = next((k for k, box in enumerate(rows) if box[1] - 1 <= middle_y <= box[3] + 1), None)
-        if r is None:
-            continue  # outside the table: titles and notes
-        middle_x = (word["x0"] + word["x1"]) / 2
-        c = sum(1 for cut in cuts if middle_x > cut)
-        grid[r][c].append(word["text"])
-    return [[" ".join(words) or None for words in row] for row in grid]
+    columns = _columns(lines, body)
+    is_body = set(body)
+    steps = sorted(lines[k + 1].v - lines[k].v for k in body if k + 1 in is_body)
+    pitch = steps[len(steps) // 2] if steps else 2.0 * lines[body[0]].height
+    runs: list[list[int]] = []  # [first, last] data line of each run, gaps of prose ending a run
+    for k in body:
+        if runs and all(
+            _numeric(lines[j]) or len(lines[j].phrases) <= 2 for j in range(runs[-1][1] + 1, k)
+        ):
+            runs[-1][1] = k
+        else:
+            runs.append([k, k])
+    rows: list[tuple[int, list[Cell]]] = []
+    for first, last in runs:
+        header: list[int] = []
+        k = first - 1
+        while k >= 0 and len(header) < HEADER_LINES and k not in is_body and not _numeric(lines[k]):
+            below = lines[header[-1]] if header else lines[first]
+            if below.v - lines[k].v > 1.6 * pitch + 0.5 * below.height:
+                break  # a gap: a title block above the table, not its header
+            header.append(k)
+            k -= 1
+        header.reverse()
+        groups: list[tuple[int, list[Cell]]] = []
+        plain: list[tuple[int, list[Cell]]] = []
+        headed: set[int] = set()  # columns with a heading on the lines below
+        for h in reversed(header):
+            cells, spans = _cells(lines[h], columns, frozenset(headed))
+            (groups if spans else plain).insert(0, (lines[h].number, cells))
+            headed.update(c for c, cell in enumerate(cells) if cell is not None)
+        rows.extend(groups)
+        if plain:
+            rows.append((plain[-1][0], _stacked([cells for _, cells in plain])))
+        rows.extend((lines[k].number, _cells(lines[k], columns)[0]) for k in range(first, last + 1))
+    return rows
