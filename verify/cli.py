@@ -442,7 +442,10 @@ _CHECK_OPTIONS = [
         help="Force unit of the claimed table (N, kN, MN, lbf, kip, kgf, tonne-force); units in headers or cells win.",
     ),
     click.option(
-        "--sheet", default=None, help="Worksheet of an .xlsx claims file (default: the only one)."
+        "--sheet",
+        default=None,
+        help="Worksheet of an .xlsx claims file (default: the sheet whose rows name the model's"
+        " members).",
     ),
     click.option(
         "--pages",
@@ -540,7 +543,7 @@ def _with_check_options(func: Callable[..., None]) -> Callable[..., None]:
     "claims_path",
     required=True,
     type=click.Path(dir_okay=False),
-    help="Claimed forces: CSV or .xlsx.",
+    help="Claimed forces: CSV, .xlsx, or a PDF with a text layer (calc pages).",
 )
 @_with_check_options
 def check(case: str, claims_path: str, **options: Any) -> None:
