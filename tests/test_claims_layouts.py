@@ -139,6 +139,23 @@ def test_member_column_found_by_its_cells(tmp_path: Path, heading: str) -> None:
     _agrees(table)
 
 
+@pytest.mark.parametrize("heading", ["Bar No.", "No.", "Item", "#", "Mark"])
+def test_a_running_number_beside_the_member_column_is_no_load_case(
+    tmp_path: Path, heading: str
+) -> None:
+    """'Bar No.' counting 1...n beside a 'Joints' column that names the members: the numbers are
+    neither claims nor an unknown load case (an acceptance table was accused over this)."""
+    text = f"{heading},Joints,dead (kN),snow (kN)\n" + "".join(
+        f"{k},{a}-{b},{_force(m, DEAD):.2f},{_force(m, SNOW):.2f}\n"
+        for k, (m, (a, b)) in enumerate(ENDS.items(), start=1)
+    )
+    path = tmp_path / "t.csv"
+    path.write_text(text)
+    table = read_claims(path, MODEL)
+    assert table.columns == ("dead", "snow")
+    _agrees(table)
+
+
 def test_members_numbered_with_from_and_to_joints(tmp_path: Path) -> None:
     """'No.' counts 1...n (not the model's ids); the From/To joints name each member."""
     text = "No.,From,To,dead (kN)\n" + "".join(

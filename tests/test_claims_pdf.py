@@ -270,3 +270,51 @@ def test_a_landscape_table_printed_along_a_portrait_sheet(tmp_path: Path) -> Non
             for x, cell in zip([40, 80, 120], cells, strict=True):
                 pdf.text(x, 100 + 6 * k, cell)
     _agrees(_write(pdf, tmp_path / "along.pdf"))
+
+
+def test_headings_wrapped_over_three_lines_keep_every_line(tmp_path: Path) -> None:
+    """'snow' / 'load' / '(kN)' in a narrow ruled cell, centred beside one-line headings: the
+    header is five printed lines deep and all of it belongs to the table."""
+    pdf = _spreadsheet_print([16, 11, 11], ["Member (joints)", "dead load (kN)", "snow load (kN)"])
+    table = read_claims(_write(pdf, tmp_path / "deep.pdf"), MODEL)
+    assert table.columns == ("dead load", "snow load") and {v.unit for v in table.values} == {"kN"}
+    review = compare_claims(analyse(MODEL), table)  # 'dead load' is matched to 'dead' by fit
+    assert review.verdict is Verdict.AGREES
+    assert not [f for f in review.findings if f.severity.value == "error"]
+
+
+def test_a_subtitle_just_above_the_header_is_not_part_of_a_heading(tmp_path: Path) -> None:
+    """A line of prose close above the header, reaching past the table's sides, on both pages
+    of a table continued under a repeated header: it names no column, and page 2's header is
+    recognised as the repeat it is."""
+    pdf = FPDF(orientation="L")
+    header = ["Member", "dead (kN)", "snow (kN)"]
+    for members in (["M1", "M2", "M3"], ["M4", "M5"]):
+        pdf.add_page()
+        pdf.set_font("Helvetica", size=10)
+        pdf.text(15, 33, "Job 2291 - roof over the loading bay.    T = tension, C = compression.")
+        for k, cells in enumerate([header, *_rows(members)]):
+            for x, cell in zip([70, 110, 150], cells, strict=True):
+                pdf.text(x, 40 + 7 * k, cell)
+    _agrees(_write(pdf, tmp_path / "subtitle.pdf"))
+
+
+def test_numbers_printed_close_together_without_rules_stay_in_their_cells(
+    tmp_path: Path,
+) -> None:
+    """A right-aligned force and a left-aligned one in the next cell a space apart ('5.00 2.00'),
+    and magnitudes with letters ('7.07 C 2.83 C'): one number per cell."""
+    pdf = FPDF()
+    pdf.add_page()
+    pdf.set_font("Helvetica", size=10)
+    pdf.text(20, 40, "Member")
+    pdf.text(45, 40, "dead (kN)")
+    pdf.text(66, 40, "snow (kN)")
+    for k, m in enumerate(_members(5), start=1):
+        dead, snow = _force(m, DEAD), _force(m, SNOW)
+        dead_text = f"{abs(dead):.2f} {'C' if dead < 0 else 'T'}"
+        snow_text = f"{abs(snow):.2f} {'C' if snow < 0 else 'T'}"
+        pdf.text(20, 40 + 6 * k, m)
+        pdf.text(64 - pdf.get_string_width(dead_text), 40 + 6 * k, dead_text)
+        pdf.text(65.5, 40 + 6 * k, snow_text)  # a space's width after the dead column
+    _agrees(_write(pdf, tmp_path / "tight.pdf"))

@@ -73,6 +73,18 @@ def printed(tmp_path_factory: pytest.TempPathFactory) -> Path:
         landscape.column_dimensions[column].width = width
     _ruled(landscape, range(1, 7), wrapped=(1,))
 
+    plain = book.create_sheet("Forces plain")  # no rules; some forces typed in as text
+    plain.append(["Member", "Axial force (kN)", None])
+    plain.merge_cells("B1:C1")
+    plain.append([None, "dead", "snow"])
+    for k, m in enumerate(_members(5)):
+        dead, snow = round(_force(m, DEAD), 2), round(_force(m, SNOW), 2)
+        # Text cells print left-aligned, hard against the right-aligned number before them.
+        plain.append([m, dead, f"{snow:.2f}" if k % 2 else snow])
+    for column, width in zip("ABC", (9, 7, 7), strict=True):
+        plain.column_dimensions[column].width = width
+    plain["B1"].alignment = Alignment(horizontal="center")
+
     book.save(folder / "forces.xlsx")
     subprocess.run(
         [
@@ -106,3 +118,9 @@ def test_printed_landscape_sheet_finds_the_one_planted_error_where_it_was_writte
     errors = [f for f in result.findings if f.kind is FindingKind.VALUE_MISMATCH]
     assert result.verdict is Verdict.DISCREPANCIES and [f.members for f in errors] == [("M1",)]
     assert errors[0].locations and errors[0].locations[0].startswith("page 2 row ")
+
+
+def test_printed_sheet_without_rules_and_forces_typed_as_text_agrees(printed: Path) -> None:
+    table = read_claims(printed, MODEL, pages="3")
+    assert table.columns == ("dead", "snow") and {v.unit for v in table.values} == {"kN"}
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES

@@ -14,6 +14,7 @@ understood. The column -> load-case mapping is settled here, once.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
@@ -36,6 +37,26 @@ from verify.io.claims.problems import Problems
 from verify.model import Model
 
 HEADER_SEARCH_ROWS = 20  # rows scanned for a header above which titles may sit
+SCAN_ROWS = 2_000  # data rows looked at to see whether a column names members
+# Headings of a running number or a second label beside the member column ('Bar No.', 'No.',
+# 'Item', '#', 'Mark'): never a load case, whatever the numbers under them.
+_NUMBERING = re.compile(
+    r"(?:(?:bar|member|mbr|memb|element|elem|item|row|line|seq|serial|s)\s*)?"
+    r"(?:no|nr|num|number|#|index|idx|ref|item|seq)"
+)
+
+
+def _names_any_member(grid: Grid, matcher: LabelMatcher, column: int, start: int) -> bool:
+    """Whether any of the first data cells of `column` names one of the model's members."""
+    for r in range(start, min(len(grid.rows), start + SCAN_ROWS)):
+        text = cell_text(grid.cell(r, column))
+        if text and matcher.names(text) in ("member", "reaction"):
+            return True
+    return False
+
+
+def _numbering(key: str) -> bool:
+    return key in MEMBER_HEADERS or _NUMBERING.fullmatch(key) is not None
 
 
 # Header units that are not forces: the column is descriptive (a length, stress, area, ratio).
@@ -165,6 +186,16 @@ def decide_layout(
     args = (headers, taken, load_names, grid, header_r, problems)
     member_h = _pick_column("member", MEMBER_HEADERS, options.member_column, *args)
     pair: tuple[int, int] | None = None
+    if (
+        member_h is not None
+        and band is not None
+        and band.member_index is not None
+        and band.member_index != member_h.index
+        and not _names_any_member(grid, matcher, member_h.index, band.bottom + 1)
+    ):
+        # A label heading ('Mark', 'ID') over running numbers, beside a column whose cells name
+        # the members: the cells win.
+        member_h = None
     if member_h is None and band is not None:
         # The heading is unfamiliar ('Member (joints)', 'Bar No.') but the cells name members.
         if band.member_index is not None:
@@ -262,6 +293,8 @@ def decide_layout(
                     grid.where(header_r, h.index),
                 )
             if h.index in taken or h.descriptive or not h.text:
+                continue
+            if _numbering(h.key) and h.name.casefold() not in load_names:
                 continue
             value_columns.append(ValueColumn(h.index, h.text, h.name, h.unit))
         if problems:

@@ -28,12 +28,12 @@ MAX_PDF_BYTES = 100 * 1024 * 1024
 MAX_PAGES_SEARCHED = 200  # without --pages; a calc package's table sits on a few of them
 MAX_PAGE_AREA = (72 * 100) ** 2  # points^2: a page up to 100 x 100 inches (A0 is 33 x 47)
 MAX_PAGE_CHARS = 100_000  # a dense A3 table page holds about 10,000
-HEADER_LINES = 4  # lines of words kept above the forces of a page (group, names, wrapped units)
+HEADER_LINES = 6  # heading lines kept above the forces (a group, names wrapped to 3 lines, units)
 # Characters closer than WORD_GAP character heights form a word, words closer than CELL_GAP one
 # cell: a space is 0.28 of the height in Helvetica and 0.6 in Courier, while printed tables leave
 # about a character height or more between columns (common practice in spreadsheet and
 # analysis-program print-outs).
-WORD_GAP = 0.2
+WORD_GAP = 0.12
 CELL_GAP = 0.8
 MAX_RULES = 50_000  # ruled lines used to part cells; a page drawn with more is read without them
 SPLIT_GAP = 0.45  # two headings printed close together still leave more than one space between
@@ -205,15 +205,32 @@ class _Line(NamedTuple):
         return _joined(self.words, CELL_GAP * self.height)
 
 
+_NUMBER = re.compile(r"^[(+\-\u2212]?\d[\d,.']*\)?$")
+_GROUP_OF_THREE = re.compile(r"^\d{3}(?:[.,]\d+)?\)?$")  # '400' of '12 400' written with a space
+
+
 def _joined(words: list[_Phrase], gap: float) -> list[_Phrase]:
-    """Words closer than `gap` joined into one phrase."""
+    """Words closer than `gap` joined into one phrase, except that a cell holds one number: a
+    number after a phrase that has one starts the next cell ('22.50' right-aligned beside '30'
+    left-aligned in the next, '414.8 T' beside '289.3 T'), unless it is a group of three digits
+    a space after (thousands written '12 400')."""
     phrases: list[_Phrase] = []
+    numbered: list[bool] = []
     for w in words:
+        number = _NUMBER.match(w.text) is not None
         if phrases and w.cell == phrases[-1].cell and w.u0 - phrases[-1].u1 <= gap:
             last = phrases[-1]
-            phrases[-1] = _Phrase(last.u0, w.u1, f"{last.text} {w.text}", last.cell)
-        else:
-            phrases.append(w)
+            thousands = (
+                _GROUP_OF_THREE.match(w.text) is not None
+                and _NUMBER.match(last.text) is not None
+                and w.u0 - last.u1 <= gap / 2
+            )
+            if not (number and numbered[-1]) or thousands:
+                phrases[-1] = _Phrase(last.u0, w.u1, f"{last.text} {w.text}", last.cell)
+                numbered[-1] = numbered[-1] or number
+                continue
+        phrases.append(w)
+        numbered.append(number)
     return phrases
 
 
@@ -405,6 +422,7 @@ def _page_rows(page: Any) -> list[tuple[int, list[Cell]]]:
     is_body = set(body)
     steps = sorted(lines[k + 1].v - lines[k].v for k in body if k + 1 in is_body)
     pitch = steps[len(steps) // 2] if steps else 2.0 * lines[body[0]].height
+    left, right = columns[0][0], columns[-1][1]
     runs: list[list[int]] = []  # [first, last] data line of each run, gaps of prose ending a run
     for k in body:
         if runs and all(
@@ -417,10 +435,15 @@ def _page_rows(page: Any) -> list[tuple[int, list[Cell]]]:
     for first, last in runs:
         header: list[int] = []
         k = first - 1
-        while k >= 0 and len(header) < HEADER_LINES and k not in is_body and not _numeric(lines[k]):
+        while k >= 0 and len(header) < HEADER_LINES and k not in is_body:
+            if _numeric(lines[k]):
+                break
             below = lines[header[-1]] if header else lines[first]
             if below.v - lines[k].v > 1.6 * pitch + 0.5 * below.height:
                 break  # a gap: a title block above the table, not its header
+            reach = 4.0 * lines[k].height
+            if any(p.u0 < left - reach or p.u1 > right + reach for p in lines[k].phrases):
+                break  # a line reaching past the table's sides is a title or a note, not a heading
             header.append(k)
             k -= 1
         header.reverse()
