@@ -17,8 +17,8 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook
 from openpyxl.styles import Alignment, Border, Side
-
 from test_claims_pdf import DEAD, MODEL, SNOW, _force, _members
+
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Verdict, compare_claims
 from verify.compare.findings import FindingKind
