@@ -27,6 +27,7 @@ import pytest
 import sympy
 from trussgen import make_model, pratt, truss_case
 
+from verify.analysis.exact import member_values as exact_values
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Review, compare_claims
 from verify.io.case import read_case
@@ -34,7 +35,6 @@ from verify.io.claims import ClaimedValue, ClaimsTable, read_claims
 from verify.report.cautions import CAUTION, SHORT_CAUTION
 from verify.report.diagram import COMPRESSION_WIDTH, STATUS_STYLES, TENSION_WIDTH
 from verify.report.document import render_document
-from verify.report.handcalc_html import exact_values
 
 ROOT = Path(__file__).resolve().parent.parent
 GOLDEN = Path(__file__).resolve().parent / "golden"

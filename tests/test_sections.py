@@ -25,6 +25,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from trussgen import howe, make_model, pratt, random_simple_truss, truss_case, warren
 
+from verify.analysis.cut_sheets import CalcSheets
 from verify.analysis.global_solve import solve_global
 from verify.analysis.sections import (
     FORCES_NORMAL,
@@ -34,7 +35,19 @@ from verify.analysis.sections import (
     solve_sections,
 )
 from verify.io.case import read_case
-from verify.report.section_calc import render_cut, render_reactions
+from verify.report.section_calc import render_cut_sheet
+from verify.report.section_calc import render_reactions as render_reactions_sheet
+
+
+def render_cut(model, cut, load_name):
+    """The text calc sheet of one cut (records from analysis/cut_sheets, rendered by the report)."""
+    (sheet,) = CalcSheets(model, None).group([cut], load_name)
+    return render_cut_sheet(model, sheet)
+
+
+def render_reactions(model, load_name):
+    return render_reactions_sheet(model, CalcSheets(model, None).reactions(load_name))
+
 
 RTOL = 1e-9  # sections against another route: both are direct statics, ~1e-13 in practice
 CASES = "cases/canal-footbridge/case.toml"
@@ -318,14 +331,14 @@ def test_canal_footbridge_every_cut_reproduces_itself():
 
 
 def test_render_exact_values():
-    """The calc sheet shows -160/3 for U1U2 at P = 10 (REFERENCES.md 3.2 sympy value) and 7*sqrt(3)/6
+    """The calc sheet shows -160/3 for U1U2 at P = 10 (REFERENCES.md 3.2 sympy value) and (7/6)·√3
     for the Warren L1L2 (REFERENCES.md 3.2), with the Ritter point and T/C."""
     model = make_model(pratt(load=10.0))
     text = render_cut(model, solve_sections(model).cut_for("U1U2"), "P")
     assert "ΣM about joint L2" in text and "exact: -160/3" in text and "(C)" in text
     model = make_model(warren(load=1.0))
     text = render_cut(model, solve_sections(model).cut_for("L1L2"), "P")
-    assert "exact: 7*sqrt(3)/6" in text and "(T)" in text
+    assert "exact: (7/6)·√3" in text and "(T)" in text
 
 
 def test_render_decimals_only_when_geometry_is_not_nice():

@@ -224,8 +224,10 @@ def solve(
             "this truss is indeterminate, so its forces come from the direct stiffness method above.\n"
         )
     if show in ("joints", "all") and analysis.joints is not None:
+        sheets = analysis.sections.calc_sheets(model) if analysis.sections is not None else None
         for name in names:
-            click.echo(text.render_joint_calc(model, analysis.joints, name))
+            step = sheets.reactions(name) if sheets is not None else None
+            click.echo(text.render_joint_calc(model, analysis.joints, name, reactions=step))
             click.echo("")
     if show in ("sections", "all") and analysis.sections is not None:
         from verify.report.section_calc import render_cut_sheet, render_reactions
@@ -257,7 +259,9 @@ def solve(
     "--case", "load_name", default=None, help="Load case or combination (default: every one)."
 )
 @click.option(
-    "--decimals-only", is_flag=True, help="Skip the exact values (fractions and roots) beside the decimals."
+    "--decimals-only",
+    is_flag=True,
+    help="Skip the exact values (fractions and roots) beside the decimals.",
 )
 @_TABLES_ANYWHERE
 def cut(

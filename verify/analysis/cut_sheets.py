@@ -26,7 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from verify.analysis import exact as ex
-from verify.analysis.joints import overall_equilibrium_matrix, solve_reactions
+from verify.analysis.joints import JointSolution, overall_equilibrium_matrix, solve_reactions
 from verify.analysis.sections import (
     EQUATIONS,
     FORCES_NORMAL,
@@ -326,7 +326,9 @@ class CalcSheets:
     def _column(self, load_name: str) -> int:
         names = self.model.load_names
         if load_name not in names:
-            raise ValueError(f"load case '{load_name}' is not in the model (have: {', '.join(names)})")
+            raise ValueError(
+                f"load case '{load_name}' is not in the model (have: {', '.join(names)})"
+            )
         return names.index(load_name)
 
     def _side(self, cut: SectionCut, column: int) -> _Side:
@@ -519,6 +521,8 @@ class CalcSheets:
                 total = float(m[0]) if d == 2 else float(np.dot(np.asarray(cut.axis), m))
             terms.append(Term("loads", f"{omitted} other loaded joints", "F", None, 0.0, total))
         for x in reactions:
+            if abs(x.value) <= ZERO_RTOL * scale:
+                continue  # a zero reaction adds nothing; a hand calc leaves it out
             r = next(r for r in self.model.reactions if r.label == x.label)
             direction = np.asarray(r.direction, dtype=float)
             arm = self._row(cut, np.asarray(x.point), direction)
@@ -613,7 +617,7 @@ class CalcSheets:
         return {c.member: float(val[0, i, 0]) for i, c in enumerate(unknown) if ok[0, i]}
 
     # -- exact values --------------------------------------------------------------------------
-    def _exact_point(self, p: Sequence[float]) -> list[ex.Surd]:
+    def _exact_point(self, p: Sequence[float] | np.ndarray) -> list[ex.Surd]:
         return [ex.surd_of(float(c), self.extent) for c in p]
 
     def _exact(
@@ -648,7 +652,9 @@ class CalcSheets:
 
             total = ex.ZERO
             for x in loads:
-                total = total + row(self._exact_point(x.point), [ex.exact_number(f) for f in x.force])
+                total = total + row(
+                    self._exact_point(x.point), [ex.exact_number(f) for f in x.force]
+                )
             if reactions:
                 values = self._reactions_exact(column)
                 if values is None:
@@ -666,7 +672,7 @@ class CalcSheets:
                 if c.member == cut.target:
                     coefficient = term
                 elif c.known is not None:
-                    total = total + term * ex.surd_of(c.known, scale)
+                    total = total + term * ex.member_force(c.known, a, b, scale)
             if coefficient is None or coefficient.is_zero():
                 return None
             return ex.checked_text(-(total / coefficient), value, scale)
@@ -780,6 +786,14 @@ class CalcSheets:
             omitted_members=max(kept_members_total - len(drawn), 0),
         )
 
+    # -- exact member forces along the joint steps -------------------------------------------------
+    def exact_members(self, joints: JointSolution, load_name: str) -> ex.ExactValues | None:
+        """Member forces and reactions in exact form (None: inputs not all short decimals, or a
+        combination of load cases, where an exact form says nothing a decimal does not)."""
+        if self.is_combination[self._column(load_name)]:
+            return None
+        return ex.member_values(self.model, joints, load_name)
+
     # -- overall equilibrium --------------------------------------------------------------------
     def reactions(self, load_name: str, *, exact: bool = True) -> ReactionsSheet:
         """The overall-equilibrium step: ΣM about the pin, then the force sums, and the reactions."""
@@ -803,7 +817,10 @@ class CalcSheets:
             order = [(2, f"ΣM about joint {pivot} = 0 (anticlockwise positive)")]
             order += [(0, "ΣFx = 0"), (1, "ΣFy = 0")]
         else:
-            order = [(3 + k, f"ΣM about the {a}-axis through joint {pivot} = 0") for k, a in enumerate("xyz")]
+            order = [
+                (3 + k, f"ΣM about the {a}-axis through joint {pivot} = 0")
+                for k, a in enumerate("xyz")
+            ]
             order += [(k, f"ΣF{a} = 0") for k, a in enumerate("xyz")]
         rel = model.xyz[loaded] - point
         contributions = np.concatenate([F[loaded], _moment0(rel, F[loaded])], axis=1)

@@ -34,7 +34,7 @@ NICE_DENOMINATOR = 1000  # a computed value is recognised as (p/q)·√k with q 
 NICE_RTOL = 1e-10  # ... when it lies this close to such a number
 SMALL_SURDS = (1, 2, 3, 5, 6, 7, 10, 11, 13, 14, 15, 17, 19, 21, 22, 23, 26, 29, 30, 34, 41)
 MAX_RADICAND = 10**12  # square-free parts are found by trial division up to 10^6
-MAX_TERMS = 4  # an exact value with more distinct roots than this is no help to a reader
+MAX_TERMS = 2  # more distinct roots than this: no help to a reader, and a likely misreading
 AGREE_RTOL = 1e-8  # exact and floating routes must agree this closely (of the value's scale)
 
 
@@ -114,7 +114,7 @@ class Surd:
     def __truediv__(self, other: Surd) -> Surd:
         if len(other.terms) != 1:
             raise NotExact("division by zero or by a sum of roots")
-        (k, c), = other.terms
+        ((k, c),) = other.terms
         # 1 / (c·√k) = √k / (c·k)
         return self * Surd.of({k: 1 / (c * k)})
 
@@ -183,6 +183,27 @@ def surd_of(value: float, scale: float = 1.0) -> Surd:
         if abs(float(f) - r) <= NICE_RTOL * max(1.0, abs(r)):
             return Surd.of({k: f})
     raise NotExact(f"{value!r} is not a small fraction times a small root")
+
+
+def member_force(value: float, a: list[Surd], b: list[Surd], scale: float = 1.0) -> Surd:
+    """A member force computed in floats, recognised through its force density: with rational
+    geometry and loads N / L is rational (Schek's force densities), so N = (N/L)·√(L²); NotExact
+    when N / L is no small fraction or L² is not rational."""
+    square = ZERO
+    for x, y in zip(a, b, strict=True):
+        square = square + (y - x) * (y - x)
+    if len(square.terms) > 1 or (square.terms and square.terms[0][0] != 1):
+        raise NotExact("a member length whose square is not rational")
+    if not square.terms:
+        raise NotExact("a member of zero length")
+    length = Surd.root(square.terms[0][1])
+    if abs(value) <= 1e-12 * max(scale, 1.0):
+        return ZERO
+    density = value / float(length)
+    q = Fraction(density).limit_denominator(MAX_DECIMAL_DENOMINATOR)
+    if abs(float(q) - density) > NICE_RTOL * max(1.0, abs(density)):
+        raise NotExact(f"{value!r} has no small rational force density")
+    return Surd.rational(q) * length
 
 
 def vector(values: Iterable[float]) -> list[Surd]:

@@ -100,7 +100,9 @@ def render_cut_sheet(model: Model, sheet: CutSheet) -> str:
         "  Cut members (each force drawn as tension, pulling the free body toward the far joint):"
     )
     for c in sheet.cut_members:
-        status = f"known: {_n(c.known)} {fu} from an earlier cut" if c.known is not None else "unknown"
+        status = (
+            f"known: {_n(c.known)} {fu} from an earlier cut" if c.known is not None else "unknown"
+        )
         out.append(
             f"    {c.member}: at joint {c.kept_joint} {_vec(c.point, sheet.extent)}, "
             f"direction {_vec(c.direction)}; {status}"
