@@ -1,0 +1,145 @@
+"""The calc sheets of the method of sections (verify/analysis/cut_sheets.py, exact.py) and their
+drawing in the report (verify/report/calc_sheet_html.py).
+
+References, named beside each check:
+* sympy's own truss module (sympy.physics.continuum_mechanics.truss.Truss), an exact solver
+  (REFERENCES.md 4): every value on every sheet, and every exact value, of the 6-panel Pratt with
+  P = 10 and of a Pratt with 3-4-5 panels whose diagonals have irrational lengths.
+* REFERENCES.md 3.2 (Pratt, P = 10, sympy's Truss results): U1U2 = -160/3 about joint L2.
+* REFERENCES.md 3.1 (beam analogy, common practice): a chord's lever arm is the truss depth.
+"""
+
+from __future__ import annotations
+
+import re
+from collections import Counter
+
+import pytest
+import sympy
+from sympy.physics.continuum_mechanics.truss import Truss
+from trussgen import make_model, pratt
+
+from verify.analysis import exact as ex
+from verify.analysis.cut_sheets import CalcSheets
+from verify.analysis.sections import MOMENTS, solve_sections
+from verify.report.calc_sheet_html import sheet_html
+
+
+def sympy_forces(model, load: float) -> dict[str, sympy.Expr]:
+    """sympy's exact Truss solve of a Pratt from trussgen (integer coordinates, loads at L1..L5)."""
+    truss = Truss()
+    for j in model.joints:
+        truss.add_node((j.id, sympy.nsimplify(j.coords[0]), sympy.nsimplify(j.coords[1])))
+    for m in model.members:
+        truss.add_member((m.id, m.start, m.end))
+    loaded = sorted(
+        {model.joints[j].id for j in range(len(model.joints)) if model.load_matrix()[2 * j + 1, 0]}
+    )
+    for joint in loaded:
+        truss.apply_load((joint, sympy.nsimplify(load), 270))
+    truss.apply_support(("L0", "pinned"), ("L6", "roller"))
+    truss.solve()
+    # sympy's numbers are tension-positive in every case measured (REFERENCES.md 4.3)
+    return {m.id: sympy.nsimplify(truss.internal_forces[m.id]) for m in model.members}
+
+
+def parse_exact(text: str) -> sympy.Expr:
+    """Our one notation (-(45/8)·√41, 5/2 + (3/4)·√3) read back as a sympy number."""
+    expr = re.sub(r"√(\d+)", r"sqrt(\1)", text.replace("·", "*"))
+    return sympy.sympify(expr)
+
+
+def all_sheets(model, load_name):
+    solution = solve_sections(model)
+    return solution, solution.calc_sheets(model).group(list(solution.cuts), load_name)
+
+
+@pytest.mark.parametrize("panel", [(4.0, 3.0), (3.0, 2.4)], ids=["4x3", "3x2.4"])
+def test_every_sheet_value_and_exact_value_equals_sympy(panel):
+    """Each equation's result, each 'also gives' value and each exact value equal sympy's Truss."""
+    d, h = panel
+    model = make_model(pratt(load=10.0, d=d, h=h))
+    expected = sympy_forces(model, 10.0)
+    _, sheets = all_sheets(model, "P")
+    seen = set()
+    exact_count = 0
+    for sheet in sheets:
+        for eq in sheet.equations:
+            seen.add(eq.target)
+            assert eq.value == pytest.approx(float(expected[eq.target]), abs=1e-9), eq.target
+            if eq.exact is not None:
+                exact_count += 1
+                assert sympy.simplify(parse_exact(eq.exact) - expected[eq.target]) == 0, (
+                    eq.target,
+                    eq.exact,
+                    expected[eq.target],
+                )
+            # the equation as printed balances: coefficient·N + rest = 0
+            assert eq.coefficient * eq.value + eq.rest == pytest.approx(0.0, abs=1e-9)
+        for member, value, _ in sheet.also:
+            seen.add(member)
+            assert value == pytest.approx(float(expected[member]), abs=1e-9), member
+    assert seen == set(model.member_ids)
+    assert exact_count >= len(model.members) // 2  # the nice geometry gives most of them exactly
+
+
+def test_pratt_chord_sheet_about_joint_l2():
+    """REFERENCES.md 3.2: U1U2 = -160/3 (P = 10) by moments about joint L2; lever arm = depth 3
+    (REFERENCES.md 3.1), and the sheet for U1U2 also holds L1L2 and U1L2 (one free body)."""
+    model = make_model(pratt(load=10.0))
+    solution = solve_sections(model)
+    sheet = solution.calc_sheets(model).for_members(["U1U2"], "P").sheets[0]
+    (eq,) = [e for e in sheet.equations if e.target == "U1U2"]
+    assert eq.method == MOMENTS and eq.moment_joint == "L2"
+    assert eq.exact == "-160/3" and eq.tc == "C"
+    (term,) = [t for t in eq.terms if t.kind == "unknown"]
+    assert abs(term.arm) == pytest.approx(3.0)
+    assert set(sheet.solves) == {"U1U2", "L1L2", "U1L2"}
+
+
+def test_each_free_body_appears_once():
+    """Cuts of several members through one free body give one sheet (and one drawing); every
+    member is solved on exactly one sheet."""
+    model = make_model(pratt(load=10.0))
+    solution, sheets = all_sheets(model, "P")
+    bodies = {
+        (frozenset(zip(c.cut_members, c.kept_ends, strict=True)), c.kept_size)
+        for c in solution.cuts
+    }
+    assert len(sheets) == len(bodies) < len(solution.cuts)
+    counts = Counter(m for s in sheets for m in (e.target for e in s.equations))
+    assert all(n == 1 for n in counts.values())
+    html = "".join(sheet_html(model, s, f"t{k}") for k, s in enumerate(sheets))
+    assert html.count('class="freebody"') == len(bodies)
+    assert "url(" not in html and "<script" not in html
+
+
+def test_drawing_is_bounded_and_says_what_it_left_out():
+    """A long truss: the free body drawing holds at most MAX_DRAWN_MEMBERS members, and the
+    count of those left out is the kept side's member count minus those drawn."""
+    from verify.analysis import cut_sheets
+
+    model = make_model(pratt(load=1.0, panels=240))
+    solution = solve_sections(model)
+    book = solution.calc_sheets(model)
+    middle = "U119U120"
+    sheet = book.for_members([middle], "P").sheets[0]
+    drawn = len(sheet.drawing.members)
+    assert drawn <= cut_sheets.MAX_DRAWN_MEMBERS and sheet.drawing.omitted_members > 0
+    kept = set(solution.cut_for(middle).kept_joints)
+    on_side = sum(1 for m in model.members if m.start in kept and m.end in kept)
+    assert drawn + sheet.drawing.omitted_members == on_side
+
+
+def test_exact_notation_and_arithmetic():
+    """√ and fractions, one notation; the field arithmetic checked against sympy."""
+    a = ex.Surd.of({41: ex.Fraction(-45, 8)})
+    assert a.text() == "-(45/8)·√41"
+    b = ex.Surd.rational(ex.Fraction(5, 2)) + ex.Surd.of({3: ex.Fraction(3, 4)})
+    assert b.text() == "5/2 + (3/4)·√3"
+    assert ex.Surd.root(ex.Fraction(1476, 100)).text() == "(3/5)·√41"
+    product = (b * b) / ex.Surd.of({3: ex.Fraction(2)})
+    want = (sympy.Rational(5, 2) + sympy.Rational(3, 4) * sympy.sqrt(3)) ** 2 / (2 * sympy.sqrt(3))
+    assert sympy.simplify(parse_exact(product.text()) - want) == 0
+    with pytest.raises(ex.NotExact):
+        ex.surd_of(3.141592653589793)
