@@ -20,7 +20,6 @@ from sympy.physics.continuum_mechanics.truss import Truss
 from trussgen import make_model, pratt
 
 from verify.analysis import exact as ex
-from verify.analysis.cut_sheets import CalcSheets
 from verify.analysis.sections import MOMENTS, solve_sections
 from verify.report.calc_sheet_html import sheet_html
 
