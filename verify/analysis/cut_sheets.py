@@ -263,6 +263,7 @@ class CalcSheets:
         self._sides: dict[tuple[int, int], tuple[np.ndarray, _Side]] = {}
         self._positions: dict[str, int] | None = None
         self._exact_reactions: dict[int, list[ex.Surd] | None] = {}
+        self._points: dict[tuple[float, ...], list[ex.Surd]] = {}
         self._incidence: tuple[np.ndarray, np.ndarray] | None = None
         combos = {c.name for c in model.combinations}
         self.is_combination = [name in combos for name in model.load_names]
@@ -618,7 +619,11 @@ class CalcSheets:
 
     # -- exact values --------------------------------------------------------------------------
     def _exact_point(self, p: Sequence[float] | np.ndarray) -> list[ex.Surd]:
-        return [ex.surd_of(float(c), self.extent) for c in p]
+        key = tuple(float(c) for c in p)
+        hit = self._points.get(key)
+        if hit is None:  # a joint is read once, however many equations use it
+            hit = self._points[key] = [ex.surd_of(c, self.extent) for c in key]
+        return hit
 
     def _exact(
         self,

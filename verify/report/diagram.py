@@ -164,8 +164,13 @@ def render_diagram(
     caption: str = "",
     legend: bool = True,
     implied: np.ndarray | None = None,
+    outline: bool = False,
 ) -> str:
     """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain words.
+
+    `outline`: draw the truss's outline (the convex hull of its joints in each view), the
+    supports and only the members with a finding, for trusses too large to draw member by member
+    (the caller says so in the caption).
 
     `forces` are member forces (tension positive) in model order for the load column
     `load_name`; `statuses` maps member id to a review status (see STATUS_CATEGORY). Without
@@ -176,7 +181,7 @@ def render_diagram(
     if load_name is not None and load_name in model.load_names:
         loads = model.load_matrix()[:, model.load_names.index(load_name)]
     views = views_for(model)
-    svgs = [_svg(model, view, force_arr, statuses, loads, implied) for view in views]
+    svgs = [_svg(model, view, force_arr, statuses, loads, implied, outline) for view in views]
     parts = ['<figure class="truss">']
     for view, svg in zip(views, svgs, strict=True):
         parts.append(
@@ -216,6 +221,7 @@ def _svg(
     statuses: Mapping[str, str] | None,
     loads: np.ndarray | None,
     implied: np.ndarray | None = None,
+    outline: bool = False,
 ) -> str:
     ax, ay = view.axes
     pts = (
@@ -266,6 +272,9 @@ def _svg(
 
     # Members: compression bands under tension lines so thin lines stay visible at crossings.
     order = list(range(len(model.members)))
+    if outline:
+        out.append(_outline(sx, sy))
+        order = [i for i in order if _flagged(model.members[i].id, statuses)]
     if forces is not None:
         order.sort(key=lambda i: 0 if np.isfinite(forces[i]) and forces[i] < -zero else 1)
     lines = []
@@ -296,7 +305,7 @@ def _svg(
 
     arrows: dict[int, tuple[float, float]] = {}
     out.extend(_supports(model, view, sx, sy, arrows))
-    if loads is not None:
+    if loads is not None and not outline:
         out.extend(_loads(model, view, sx, sy, loads, arrows))
     if implied is not None:
         # The loads the claims balance, dashed and in another colour, scaled with the case's own
@@ -314,9 +323,14 @@ def _svg(
             )
         )
 
+    shown_joints = (
+        sorted({int(j) for i in order for j in model.ends_index[i]})
+        if outline
+        else range(len(model.joints))
+    )
     joints = [
         f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
-        for j in range(len(model.joints))
+        for j in shown_joints
     ]
     out.append('<g class="joints">' + "".join(joints) + "</g>")
 
@@ -336,6 +350,32 @@ def _svg(
         )
     out.append("</svg>")
     return "".join(out)
+
+
+def _flagged(member_id: str, statuses: Mapping[str, str] | None) -> bool:
+    """A member with a finding (drawn even in an outline): not agreeing, not merely unclaimed."""
+    if statuses is None or member_id not in statuses:
+        return False
+    return status_category(statuses[member_id]) not in ("agrees", "missing")
+
+
+def _outline(sx: np.ndarray, sy: np.ndarray) -> str:
+    """The convex hull of the joints as drawn (qhull, O(n log n)); a bounding line if flat."""
+    pts = np.column_stack([sx, sy])
+    if len(pts) == 0:
+        return ""
+    try:
+        from scipy.spatial import ConvexHull
+
+        ring = pts[ConvexHull(pts).vertices]
+    except Exception:  # qhull refuses flat or tiny sets: draw their extent instead
+        lo, hi = pts.min(axis=0), pts.max(axis=0)
+        ring = np.array([lo, [hi[0], lo[1]], hi, [lo[0], hi[1]]])
+    points = " ".join(f"{_n(x)},{_n(y)}" for x, y in ring)
+    return (
+        f'<polygon class="outline" points="{points}" fill="#f3f3f3" stroke="#8C8C8C" '
+        'stroke-width="1.5"/>'
+    )
 
 
 def _halo() -> str:

@@ -14,7 +14,6 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import math
-import tomllib
 from dataclasses import dataclass
 from html import escape
 from pathlib import Path
@@ -62,7 +61,6 @@ MAX_DIAGRAMS = 4  # load columns drawn
 MAX_TABLE_ROWS = 3000  # rows per load column in the member table; problems are always listed first
 MAX_FINDING_MEMBERS = 25  # member names quoted per finding
 EXACT_MAX_MEMBERS = 400  # exact fractions only for models up to this size (cost and length)
-TABLE_KEYS = ("joints", "members", "supports", "loads")  # case-file keys that may name CSV tables
 
 MEMBER_COLUMNS = (
     "member",
@@ -141,9 +139,17 @@ def input_files(
             "" if case_digest else "not readable now (model built in memory or file moved)",
         )
     ]
-    for role, path in _case_tables(model.source):
+    # The tables the case reader found (Model.tables): the case file is not parsed again here.
+    for path in model.tables:
         digest = sha256_file(path)
-        out.append(InputFile(role, str(path), digest, "" if digest else "not readable now"))
+        out.append(
+            InputFile(
+                f"table '{Path(path).name}'",
+                str(path),
+                digest,
+                "" if digest else "not readable now",
+            )
+        )
     claims = review.claims
     out.append(
         InputFile(
@@ -157,25 +163,6 @@ def input_files(
             InputFile("claimed displacements", displacement_file[0], displacement_file[1] or None)
         )
     return out
-
-
-def _case_tables(source: str) -> list[tuple[str, Path]]:
-    """CSV tables named in the case file (joints = "joints.csv", [loads] case = "file.csv", ...)."""
-    try:
-        data = tomllib.loads(Path(source).read_bytes().decode("utf-8-sig"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-        return []
-    base = Path(source).parent
-    found: list[tuple[str, Path]] = []
-    for key in TABLE_KEYS:
-        value = data.get(key)
-        if isinstance(value, str):
-            found.append((f"{key} table", base / value))
-        elif key == "loads" and isinstance(value, dict):
-            for case, spec in value.items():
-                if isinstance(spec, str):
-                    found.append((f"loads table '{case}'", base / spec))
-    return found
 
 
 def _verdict_text(review: Review) -> tuple[str, str]:
@@ -866,10 +853,14 @@ def diagrams_html(review: Review) -> list[str]:
     ref = review.analysis.reference
     columns = diagram_columns(review)
     out = []
-    if len(model.members) > LARGE_MODEL_MEMBERS:
+    outline = len(model.members) > LARGE_MODEL_MEMBERS
+    if outline:
         out.append(
-            f"<p><em>Large model ({len(model.members)} members): no per-member labels or letters; one load column drawn. "
-            "The member table lists every problem.</em></p>"
+            f"<p><em>Large model ({len(model.members)} members): the drawing shows the outline "
+            "of the truss, its supports and only the members with a finding (no labels, no "
+            "loads); one load column is drawn. The member table lists every problem; "
+            f"`truss-verify solve {_e(Path(model.source).name)} --show forces` lists every "
+            "force.</em></p>"
         )
     drawn = [
         (name, member_statuses(review, name) if name in review.checked_cases else None)
@@ -908,6 +899,7 @@ def diagrams_html(review: Review) -> list[str]:
                 caption=caption,
                 legend=False,
                 implied=implied,
+                outline=outline,
             )
         )
     return out

@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
-from verify.analysis.cut_sheets import ReactionsSheet
 from verify.analysis.joints import JointSolution
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
@@ -12,6 +13,9 @@ from verify.model import Model
 from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.names import method_phrase
 from verify.report.numbers import fmt, fmt_ratio, load_title, plain_table, roundoff_text, tc
+
+if TYPE_CHECKING:  # a type only: importing the sheet builder costs every command ~40 ms
+    from verify.analysis.cut_sheets import ReactionsSheet
 
 AXIS_NAMES = ("x", "y", "z")
 
