@@ -476,8 +476,12 @@ def _short(label: str, limit: int = 14) -> str:
 def _joint_labels(
     model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[int, tuple[float, float]]
 ) -> list[str]:
-    """Each joint label sits opposite the mean direction of its members and load arrow, clear of the lines."""
+    """Each joint label in the clearest of eight directions around its joint: the one farthest
+    (in angle) from every member and load arrow there, so no label sits on a line or an arrow.
+
+    Ties go to the side opposite the mean of those directions (a label outside the truss)."""
     n = len(model.joints)
+    around: list[list[float]] = [[] for _ in range(n)]
     dirx = np.zeros(n)
     diry = np.zeros(n)
     for a, b in model.ends_index.tolist():
@@ -487,19 +491,43 @@ def _joint_labels(
         diry[a] += dy / length
         dirx[b] -= dx / length
         diry[b] -= dy / length
+        if length > 1e-9:
+            around[a].append(math.atan2(dy, dx))
+            around[b].append(math.atan2(-dy, -dx))
     for j, (ax_, ay_) in arrows.items():
-        dirx[j] += ax_
-        diry[j] += ay_
+        # an arrow is drawn long and carries a label at its tail: twice a member's weight
+        dirx[j] += 2 * ax_
+        diry[j] += 2 * ay_
+        around[j].append(math.atan2(ay_, ax_))
     out = []
     for j, joint in enumerate(model.joints):
         length = math.hypot(dirx[j], diry[j])
         ux, uy = (-dirx[j] / length, -diry[j] / length) if length > 1e-6 else (-0.7071, -0.7071)
+        ux, uy = _clearest(around[j], (ux, uy))
         x, y = sx[j] + ux * 14, sy[j] + uy * 14 + 4.5
         anchor = "middle" if abs(ux) < 0.4 else ("start" if ux > 0 else "end")
         out.append(
             f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(joint.id))}</text>'
         )
     return out
+
+
+LABEL_DIRECTIONS = tuple(k * math.pi / 4 for k in range(8))
+
+
+def _clearest(obstacles: Sequence[float], preferred: tuple[float, float]) -> tuple[float, float]:
+    """The unit direction among LABEL_DIRECTIONS with the widest angle to every obstacle; among
+    those within 1° of the widest, the one closest to `preferred`."""
+    if not obstacles:
+        return preferred
+
+    def gap(theta: float) -> float:
+        return min(abs((theta - o + math.pi) % (2 * math.pi) - math.pi) for o in obstacles)
+
+    best = max(gap(t) for t in LABEL_DIRECTIONS)
+    near = [t for t in LABEL_DIRECTIONS if gap(t) >= best - math.radians(1)]
+    theta = max(near, key=lambda t: math.cos(t) * preferred[0] + math.sin(t) * preferred[1])
+    return math.cos(theta), math.sin(theta)
 
 
 def _supports(
@@ -582,6 +610,7 @@ def _loads(
     for a, b in model.ends_index.tolist():
         neighbours[a].append(b)
         neighbours[b].append(a)
+    case_loaded = set(arrows)  # joints whose arrows were drawn before this call
     out = [f'<g class="{css}" stroke="{colour}" fill="{colour}" font-size="11.5">']
     for j in range(len(model.joints)):
         if magnitude[j] <= smallest:
@@ -618,6 +647,9 @@ def _loads(
         text = f"{fmt(float(magnitude[j]), 3)} {unit}"
         lx, ly = label_x, label_y + (4 if abs(ey) < 0.5 else (12 if ey > 0 else -3))
         anchor = "middle" if abs(ex) < 0.5 else ("start" if ex > 0 else "end")
+        if css != "loads" and j in case_loaded:
+            # the case's own load has its label at this tail already: set this one beside it
+            lx, anchor = lx + 18, "start"
         out.append(
             f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>'
         )
