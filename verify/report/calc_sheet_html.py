@@ -16,7 +16,7 @@ from html import escape
 
 import numpy as np
 
-from verify.analysis.cut_sheets import MOMENTS, CutSheet, Equation
+from verify.analysis.cut_sheets import MOMENTS, CutSheet, Equation, ReactionsSheet
 from verify.model import Model
 from verify.report.numbers import fmt
 from verify.report.section_calc import equation_head, term_name
@@ -26,7 +26,12 @@ MAX_HEIGHT = 360.0
 PAD = 64.0  # room for arrows (ARROW + 6 px) and their labels around the free body
 ARROW = 34.0  # drawn length of a force arrow in px (forces are not to scale: values are labelled)
 FONT = 11
-LETTERS = "ABCDEFGHJKLMNPQRSTUVWXYZ"
+
+
+# Moment points are named O1, O2, ... (O for the origin of moments: letters would clash with
+# joint names such as A, B, C).
+def _point_name(k: int) -> str:
+    return f"O{k + 1}"
 
 
 def _e(text: object) -> str:
@@ -89,6 +94,24 @@ def _head(x1: float, y1: float, x2: float, y2: float, size: float = 7.0) -> str:
     )
 
 
+def _span(x: float, label: str, anchor: str) -> tuple[float, float]:
+    """The horizontal extent of a label (bold 11 px text: about 7 px a character)."""
+    width = 7.0 * len(label)
+    if anchor == "start":
+        return x, x + width
+    if anchor == "end":
+        return x - width, x
+    return x - width / 2, x + width / 2
+
+
+def _frame_for(sheet: CutSheet) -> _Frame:
+    """The drawing's frame: every joint drawn and every moment point fit on it."""
+    points = [p for _, p in sheet.drawing.joints] + [
+        eq.moment_point for eq in sheet.equations if eq.moment_point is not None
+    ]
+    return _Frame(np.asarray(points, dtype=float))
+
+
 def _arrow(x1: float, y1: float, x2: float, y2: float, css: str) -> str:
     return f'<line class="{css}" x1="{_c(x1)}" y1="{_c(y1)}" x2="{_c(x2)}" y2="{_c(y2)}"/>' + _head(
         x1, y1, x2, y2
@@ -108,10 +131,7 @@ def free_body_svg(model: Model, sheet: CutSheet, sheet_id: str) -> str:
     fu, lu = model.units.force.symbol, model.units.length.symbol
     drawing = sheet.drawing
     where = dict(drawing.joints)
-    points = [p for _, p in drawing.joints] + [
-        eq.moment_point for eq in sheet.equations if eq.moment_point is not None
-    ]
-    frame = _Frame(np.asarray(points, dtype=float))
+    frame = _frame_for(sheet)
     out: list[str] = []
     out.append(
         f'<svg xmlns="http://www.w3.org/2000/svg" id="{_e(sheet_id)}" class="freebody" width="{_c(WIDTH)}" '
@@ -126,6 +146,7 @@ def free_body_svg(model: Model, sheet: CutSheet, sheet_id: str) -> str:
     # cut members: the kept half solid, the far half ghosted; the cut line through the midpoints
     mids = []
     arrows = []
+    placed: list[tuple[tuple[float, float], float]] = []
     for c in sheet.cut_members:
         (x1, y1), (x2, y2) = frame.xy(where[c.kept_joint]), frame.xy(where[c.far_joint])
         mx, my = (x1 + x2) / 2, (y1 + y2) / 2
@@ -139,8 +160,12 @@ def free_body_svg(model: Model, sheet: CutSheet, sheet_id: str) -> str:
         arrows.append(_arrow(mx, my, mx + ux * ARROW, my + uy * ARROW, "force"))
         lx, ly = mx + ux * (ARROW + 8), my + uy * (ARROW + 8)
         anchor = "start" if ux >= 0.3 else ("end" if ux <= -0.3 else "middle")
+        box = _span(lx, label, anchor)
+        while any(box[0] < b[1] and b[0] < box[1] and abs(ly - y) < 12 for b, y in placed):
+            ly += 13  # two arrows end at one place (3D projections): stack their labels
+        placed.append((box, ly))
         arrows.append(_text(lx, ly + 4, label, "flabel", anchor))
-    out.append(_cut_line(mids))
+    out.append(_cut_line(mids) if model.dim == 2 else _cut_ticks(frame, sheet, where))
     # loads: arrows ending short of the joint, label at the tail
     for x in sheet.loads:
         jx, jy = frame.xy(x.point)
@@ -168,10 +193,35 @@ def free_body_svg(model: Model, sheet: CutSheet, sheet_id: str) -> str:
         out.append(f'<circle class="joint" cx="{_c(jx)}" cy="{_c(jy)}" r="2.5"/>')
         out.append(_text(jx - 5, jy - 6, joint, "jlabel", "end"))
     # moment points and lever arms of the solved members
-    for k, eq in enumerate(e for e in sheet.equations if e.method == MOMENTS):
-        out.extend(_moment_marks(frame, eq, LETTERS[k % len(LETTERS)], lu, model.dim))
+    moments = [e for e in sheet.equations if e.method == MOMENTS]
+    names: dict[tuple[float, ...], list[str]] = {}
+    for k, eq in enumerate(moments):  # one mark per point, named by every equation about it
+        if eq.moment_point is not None:
+            names.setdefault(tuple(eq.moment_point), []).append(_point_name(k))
+    for k, eq in enumerate(moments):
+        if eq.moment_point is None:
+            continue
+        shared = names[tuple(eq.moment_point)]
+        first = shared[0] == _point_name(k)
+        out.extend(_moment_marks(frame, eq, ", ".join(shared), lu, model.dim, mark=first))
     out.extend(arrows)
     out.append("</svg>")
+    return "".join(out)
+
+
+def _cut_ticks(frame: _Frame, sheet: CutSheet, where: dict[str, tuple[float, ...]]) -> str:
+    """3D: a plane cut seen in projection is no line; each cut member gets a short dashed tick
+    across it at its midpoint instead."""
+    out = []
+    for c in sheet.cut_members:
+        (x1, y1), (x2, y2) = frame.xy(where[c.kept_joint]), frame.xy(where[c.far_joint])
+        mx, my = (x1 + x2) / 2, (y1 + y2) / 2
+        length = math.hypot(x2 - x1, y2 - y1) or 1.0
+        px, py = -(y2 - y1) / length * 10, (x2 - x1) / length * 10
+        out.append(
+            f'<line class="cutmark" x1="{_c(mx - px)}" y1="{_c(my - py)}" '
+            f'x2="{_c(mx + px)}" y2="{_c(my + py)}"/>'
+        )
     return "".join(out)
 
 
@@ -194,16 +244,26 @@ def _cut_line(mids: list[tuple[float, float]]) -> str:
     return f'<polyline class="cut" points="{d}"/>'
 
 
-def _moment_marks(frame: _Frame, eq: Equation, letter: str, lu: str, dim: int) -> list[str]:
+def _moment_marks(
+    frame: _Frame, eq: Equation, letter: str, lu: str, dim: int, *, mark: bool = True
+) -> list[str]:
+    """The moment point (circled cross and its name; once per point) and the lever arms of the
+    solved member and the reactions, dimensioned (2D)."""
     if eq.moment_point is None:
         return []
     px, py = frame.xy(eq.moment_point)
-    out = [
-        f'<circle class="mpoint" cx="{_c(px)}" cy="{_c(py)}" r="6"/>',
-        f'<line class="mpoint" x1="{_c(px - 4)}" y1="{_c(py)}" x2="{_c(px + 4)}" y2="{_c(py)}"/>',
-        f'<line class="mpoint" x1="{_c(px)}" y1="{_c(py - 4)}" x2="{_c(px)}" y2="{_c(py + 4)}"/>',
-        _text(px + 9, py + 14, letter, "mlabel", "start"),
-    ]
+    out = (
+        [
+            f'<circle class="mpoint" cx="{_c(px)}" cy="{_c(py)}" r="6"/>',
+            f'<line class="mpoint" x1="{_c(px - 4)}" y1="{_c(py)}" x2="{_c(px + 4)}" '
+            f'y2="{_c(py)}"/>',
+            f'<line class="mpoint" x1="{_c(px)}" y1="{_c(py - 4)}" x2="{_c(px)}" '
+            f'y2="{_c(py + 4)}"/>',
+            _text(px + 9, py + 14, letter, "mlabel", "start"),
+        ]
+        if mark
+        else []
+    )
     if dim != 2:
         return out
     for t in eq.terms:
@@ -228,6 +288,7 @@ svg.freebody{display:block;max-width:100%;height:auto;margin:.3em 0}
 svg.freebody line.kept{stroke:#3A3A3A;stroke-width:1.6}
 svg.freebody line.far{stroke:#9a9a9a;stroke-width:1;stroke-dasharray:3 3}
 svg.freebody polyline.cut{fill:none;stroke:#1a1a1a;stroke-width:1.2;stroke-dasharray:8 4}
+svg.freebody line.cutmark{stroke:#1a1a1a;stroke-width:1.6}
 svg.freebody line.force,svg.freebody line.load,svg.freebody line.reaction{stroke:#1a1a1a;stroke-width:1.4}
 svg.freebody line.reaction{stroke-dasharray:5 2}
 svg.freebody line.dim{stroke:#1a1a1a;stroke-width:.7}
@@ -257,6 +318,12 @@ def sheet_html(model: Model, sheet: CutSheet, sheet_id: str) -> str:
         f"beside the arrows are in {_e(fu)} (arrows not to scale).</p>"
     )
     out.append(free_body_svg(model, sheet, sheet_id))
+    if model.dim == 3:
+        axes = _frame_for(sheet).axes
+        out.append(
+            f"<p><em>Drawn projected on the {'xyz'[axes[0]]}–{'xyz'[axes[1]]} plane; each "
+            "cut member is marked by a tick across it.</em></p>"
+        )
     notes = []
     if sheet.drawing.omitted_members:
         notes.append(
@@ -272,7 +339,7 @@ def sheet_html(model: Model, sheet: CutSheet, sheet_id: str) -> str:
         out.append(f"<p><em>{_e('; '.join(notes).capitalize())}.</em></p>")
     moment_eqs = [e for e in sheet.equations if e.method == MOMENTS]
     for eq in sheet.equations:
-        letter = LETTERS[moment_eqs.index(eq) % len(LETTERS)] if eq in moment_eqs else None
+        letter = _point_name(moment_eqs.index(eq)) if eq in moment_eqs else None
         out.append(_equation_html(eq, sheet, letter, fu, lu, model.dim))
     if sheet.also:
         out.append(
@@ -341,3 +408,50 @@ def _equation_html(
         + f'</tbody></table><p class="sum">{equation}</p><p class="sum">{reduced}</p>'
         f'<p class="result">{result}</p></div>'
     )
+
+
+def reactions_html(model: Model, sheet: ReactionsSheet) -> str:
+    """The overall-equilibrium step set as equations: each sum, the reaction it fixes, and the
+    reactions with their exact values."""
+    fu, lu = model.units.force.symbol, model.units.length.symbol
+    if not sheet.possible:
+        return (
+            f"<p>Reactions cannot come first from overall equilibrium: {_e(sheet.why)}. The "
+            "method of sections then uses only free bodies without supports.</p>"
+        )
+    out = [
+        f"<p>Forces in {_e(fu)}, lengths in {_e(lu)}; each reaction is positive along its "
+        "support's stated direction.</p>"
+    ]
+    for row in sheet.rows:
+        terms = [f"{_e(_n(c))}·R<sub>{_e(label)}</sub>" for label, c in row.coefficients]
+        terms.append(f"({_e(_n(row.load_total))})")
+        loads = ""
+        if row.loads:
+            listed = ", ".join(f"{_e(j)}: {_e(_n(c))}" for j, c in row.loads)
+            more = f" and {row.loads_omitted} more" if row.loads_omitted else ""
+            unit = f"{fu}·{lu}" if row.title.startswith("ΣM") else fu
+            loads = (
+                f'<p class="sum">loads ({_e(unit)}): {listed}{more}; '
+                f"total {_e(_n(row.load_total))} {_e(unit)}</p>"
+            )
+        solved = ""
+        if row.solves is not None:
+            solved = (
+                f'<p class="result">⇒ R<sub>{_e(row.solves[0])}</sub> = '
+                f"{_e(_n(row.solves[1]))} {_e(fu)}</p>"
+            )
+        out.append(
+            f'<div class="eq"><p class="head">{_e(row.title)}</p>'
+            f'<p class="sum">{" + ".join(terms)} = 0</p>{loads}{solved}</div>'
+        )
+    rows = "".join(
+        f'<tr><td>{_e(label)}</td><td class="num">{_e(_n(value))}</td>'
+        f'<td class="num">{_e(exact) if exact is not None else "—"}</td></tr>'
+        for label, value, exact in sheet.reactions
+    )
+    out.append(
+        f'<table class="calc"><thead><tr><th>reaction</th><th>value ({_e(fu)})</th>'
+        f"<th>exact ({_e(fu)})</th></tr></thead><tbody>{rows}</tbody></table>"
+    )
+    return "".join(out)

@@ -24,7 +24,7 @@ from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
 from verify.model import Model
-from verify.report.calc_sheet_html import FREE_BODY_CSS, sheet_html
+from verify.report.calc_sheet_html import FREE_BODY_CSS, reactions_html, sheet_html
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
 from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
@@ -692,6 +692,8 @@ def _html_blocks(model: Model, blocks: list[Block], level: int, prefix: str) -> 
         out.append(f"<h{level}>{_e(block.heading)}</h{level}>")
         if block.kind == "sheet" and block.sheet is not None:
             out.append(sheet_html(model, block.sheet, f"{prefix}-{n}"))
+        elif block.kind == "reactions" and block.reactions is not None:
+            out.append(reactions_html(model, block.reactions))
         elif block.kind in ("pre", "reactions", "sheet"):
             out.append(f"<pre>{_e(block.text)}</pre>")
         elif block.kind == "table":
