@@ -142,3 +142,36 @@ def test_exact_notation_and_arithmetic():
     assert sympy.simplify(parse_exact(product.text()) - want) == 0
     with pytest.raises(ex.NotExact):
         ex.surd_of(3.141592653589793)
+
+
+def test_combination_columns_give_decimals_only():
+    """A combination of load cases: no exact values on its sheets, reactions or member table (an
+    exact form of factored sums says nothing the decimals do not), while the cases keep theirs."""
+    from verify.analysis.pipeline import analyse
+    from verify.io.case import read_case
+
+    from pathlib import Path
+
+    model = read_case(Path(__file__).resolve().parents[1] / "cases/canal-footbridge/case.toml")
+    combination = model.combinations[0].name
+    solution = solve_sections(model)
+    book = solution.calc_sheets(model)
+    cuts = list(solution.cuts)
+    combined = book.group(cuts, combination)
+    assert all(s.combination and all(e.exact is None for e in s.equations) for s in combined)
+    assert all(exact is None for _, _, exact in book.reactions(combination).reactions)
+    assert book.exact_members(analyse(model).joints, combination) is None
+    case = book.group(cuts, model.cases[0].name)
+    assert any(e.exact is not None for s in case for e in s.equations)
+
+
+def test_one_notation_for_exact_values_in_every_golden_report():
+    """Exact values are written with √ and fractions everywhere: never as code (sqrt, *)."""
+    from pathlib import Path
+
+    golden = Path(__file__).resolve().parent / "golden"
+    for path in golden.glob("*.md"):
+        for line in path.read_text(encoding="utf-8").splitlines():
+            if "exact" in line and "exact:" in line:
+                value = line.split("exact:", 1)[1]
+                assert "sqrt" not in value and "*" not in value, (path.name, line)
