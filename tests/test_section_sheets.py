@@ -147,10 +147,10 @@ def test_exact_notation_and_arithmetic():
 def test_combination_columns_give_decimals_only():
     """A combination of load cases: no exact values on its sheets, reactions or member table (an
     exact form of factored sums says nothing the decimals do not), while the cases keep theirs."""
+    from pathlib import Path
+
     from verify.analysis.pipeline import analyse
     from verify.io.case import read_case
-
-    from pathlib import Path
 
     model = read_case(Path(__file__).resolve().parents[1] / "cases/canal-footbridge/case.toml")
     combination = model.combinations[0].name
