@@ -283,7 +283,8 @@ def _moment_marks(
 
 
 FREE_BODY_CSS = """
-.sheet{break-inside:avoid;margin:.6em 0 1.2em;border-top:1px solid #bbb;padding-top:.4em}
+.sheet{margin:.6em 0 1.2em;border-top:1px solid #bbb;padding-top:.4em}
+.sheet svg.freebody,.eq{break-inside:avoid}
 svg.freebody{display:block;max-width:100%;height:auto;margin:.3em 0}
 svg.freebody line.kept{stroke:#3A3A3A;stroke-width:1.6}
 svg.freebody line.far{stroke:#9a9a9a;stroke-width:1;stroke-dasharray:3 3}
@@ -300,6 +301,10 @@ svg.freebody text.flabel,svg.freebody text.mlabel{font-weight:bold}
 .eq{margin:.5em 0 .8em}.eq .head{margin:.2em 0}.eq table{margin:.2em 0}
 .eq .sum{font-family:'DejaVu Serif',Georgia,serif;margin:.3em 0 .2em 1.2em}
 .eq .result{font-weight:bold;margin-left:1.2em}
+@media print{
+svg.freebody{max-height:62mm;width:auto}
+.sheet p,.eq p{margin:.15em 0}.eq{margin:.3em 0 .5em}.eq table.calc{font-size:7.5pt}
+}
 """
 
 
