@@ -555,3 +555,37 @@ def test_reasons_for_unreached_members():
     assert_matches_global(model, solution)
     for member, why in solution.unreached.items():
         assert member in model.member_ids and len(why) > 20
+
+
+# -- calc sheets: every value on them is the statics of the truss ---------------------------------
+def _assert_sheets_match_global(model):
+    """Each equation's result and each 'also gives' value on the calc sheets of every cut (free
+    bodies read incrementally from the sweeps, moved joints included) equals the global solve."""
+    solution = solve_sections(model)
+    ref = solve_global(model).member_forces
+    scale = max(float(np.abs(ref).max(initial=0.0)), 1e-12)
+    book = solution.calc_sheets(model)
+    for column, name in enumerate(model.load_names):
+        for sheet in book.group(list(solution.cuts), name):
+            values = [(e.target, e.value) for e in sheet.equations] + [
+                (m, v) for m, v, _ in sheet.also
+            ]
+            for member, value in values:
+                want = ref[model.member_index[member], column]
+                assert value == pytest.approx(want, abs=RTOL * scale), (member, name)
+
+
+@pytest.mark.parametrize("panels", [4, 8])
+def test_k_truss_sheets_equal_global(panels):
+    _assert_sheets_match_global(make_model(k_truss(panels)))
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.integers(0, 10**6), st.integers(3, 12))
+def test_random_truss_sheets_equal_global(seed, joints):
+    from verify.analysis.stability import Classification, solve_stability
+
+    model = make_model(random_simple_truss(random.Random(seed), joints))
+    if solve_stability(model).classification is not Classification.STABLE_DETERMINATE:
+        return
+    _assert_sheets_match_global(model)

@@ -383,7 +383,16 @@ class CalcSheets:
                     value,
                 )
             )
-        known = {m: f[column] for m, f in zip(cut.known_members, cut.known_forces, strict=True)}
+        # One free body may serve several cuts taken at different steps: a member unknown in
+        # the first may be known (solved meanwhile) in a later one. The drawing shows every value
+        # known by then; each equation uses only what its own cut knew.
+        known: dict[str, float] = {}
+        for each in cuts:
+            known.update(
+                (m, f[column])
+                for m, f in zip(each.known_members, each.known_forces, strict=True)
+                if m not in known
+            )
         cut_members = []
         for member, joint in zip(cut.cut_members, cut.kept_ends, strict=True):
             i = model.member_index[member]
@@ -540,10 +549,11 @@ class CalcSheets:
             )
         coefficient = 0.0
         eliminated = set(cut.eliminated)
+        known_here = set(cut.known_members)
         for c in cut_members:
             arm = self._row(cut, np.asarray(c.point), np.asarray(c.direction))
             foot = self._foot(cut, c.point, c.direction)
-            if c.known is not None:
+            if c.known is not None and c.member in known_here:
                 terms.append(Term("known", c.member, "N", c.known, arm, c.known * arm, foot))
             elif c.member == cut.target:
                 coefficient = arm
@@ -676,7 +686,7 @@ class CalcSheets:
                 term = row(a, ex.unit_direction(a, b))
                 if c.member == cut.target:
                     coefficient = term
-                elif c.known is not None:
+                elif c.known is not None and c.member in cut.known_members:
                     total = total + term * ex.member_force(c.known, a, b, scale)
             if coefficient is None or coefficient.is_zero():
                 return None
