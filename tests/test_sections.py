@@ -589,3 +589,14 @@ def test_random_truss_sheets_equal_global(seed, joints):
     if solve_stability(model).classification is not Classification.STABLE_DETERMINATE:
         return
     _assert_sheets_match_global(model)
+
+
+@pytest.mark.parametrize(
+    "case", ["canal-footbridge", "mezzanine-roof", "service-road-overbridge", "sign-bracket"]
+)
+def test_bundled_case_sheets_equal_global(case):
+    """Every calc sheet of the bundled determinate cases, 2D and 3D, every load column."""
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    _assert_sheets_match_global(read_case(root / "cases" / case / "case.toml"))
