@@ -175,3 +175,41 @@ def test_one_notation_for_exact_values_in_every_golden_report():
             if "exact" in line and "exact:" in line:
                 value = line.split("exact:", 1)[1]
                 assert "sqrt" not in value and "*" not in value, (path.name, line)
+
+
+def test_tripod_sheet_exact_values_3d():
+    """REFERENCES.md 3.4 tripod (legs from (0, 0, 4) to a circle of radius 3, feet at 120°):
+    -5P/12 per leg under a vertical P; -10P/9, +5P/9, +5P/9 under a horizontal P along +x. With
+    P = 36 the sheet's exact values must be exactly -15, and -40, 20, 20 (the force directions
+    are unit vectors with roots of no small integer: the exact route scales them to ratios)."""
+    import math
+
+    from trussgen import truss_case
+
+    joints = {"O": [0.0, 0.0, 4.0]}
+    for k in range(3):
+        a = 2 * math.pi * k / 3
+        joints[f"F{k + 1}"] = [3 * math.cos(a), 3 * math.sin(a), 0.0]
+    model = make_model(
+        truss_case(
+            joints,
+            [("O", "F1"), ("O", "F2"), ("O", "F3")],
+            {f"F{k}": ["x", "y", "z"] for k in (1, 2, 3)},
+            {"vertical": {"O": [0.0, 0.0, -36.0]}, "horizontal": {"O": [36.0, 0.0, 0.0]}},
+        )
+    )
+    solution = solve_sections(model)
+    book = solution.calc_sheets(model)
+    want = {
+        "vertical": {"OF1": -15, "OF2": -15, "OF3": -15},
+        "horizontal": {"OF1": -40, "OF2": 20, "OF3": 20},
+    }
+    for name, forces in want.items():
+        (sheet,) = book.group(list(solution.cuts), name)  # the apex: one free body
+        for eq in sheet.equations:
+            assert eq.value == pytest.approx(forces[eq.target], abs=1e-9)
+            assert eq.exact is not None and sympy.sympify(eq.exact) == forces[eq.target], (
+                name,
+                eq.target,
+                eq.exact,
+            )

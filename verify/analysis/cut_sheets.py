@@ -648,7 +648,7 @@ class CalcSheets:
         model = self.model
         try:
             if cut.method == FORCES_NORMAL:
-                axis = [ex.surd_of(c) for c in cut.axis or ()]
+                axis = _exact_axis(cut.axis or ())
 
                 def row(point: list[ex.Surd], force: list[ex.Surd]) -> ex.Surd:
                     return ex.dot(axis, force)
@@ -657,7 +657,7 @@ class CalcSheets:
                     q = self._exact_point(model.xyz[model.joint_index[cut.moment_joint]])
                 else:
                     q = self._exact_point(cut.moment_point or ())
-                axis3 = [ex.surd_of(c) for c in cut.axis] if cut.axis is not None else []
+                axis3 = _exact_axis(cut.axis) if cut.axis is not None else []
 
                 def row(point: list[ex.Surd], force: list[ex.Surd]) -> ex.Surd:
                     rel = [a - b for a, b in zip(point, q, strict=True)]
@@ -877,6 +877,17 @@ class CalcSheets:
                 text = ex.checked_text(exact_values[k], value, scale)
             out.append((label, value, text))
         return ReactionsSheet(load_name, True, "", pivot, tuple(rows), tuple(out))
+
+
+def _exact_axis(axis: Sequence[float]) -> list[ex.Surd]:
+    """A moment axis or force direction up to a factor: the equation's solution does not change
+    when every coefficient is scaled alike, and a unit vector's components often carry a root of
+    no small integer while their ratios are plain fractions."""
+    v = np.asarray(axis, dtype=float)
+    big = float(np.abs(v).max(initial=0.0))
+    if big == 0:
+        raise ex.NotExact("no axis")
+    return [ex.surd_of(float(c) / big) for c in v]
 
 
 def _kept_member_count(book: CalcSheets, js, side: _Side) -> int:
