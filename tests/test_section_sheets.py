@@ -94,6 +94,12 @@ def test_pratt_chord_sheet_about_joint_l2():
     (term,) = [t for t in eq.terms if t.kind == "unknown"]
     assert abs(term.arm) == pytest.approx(3.0)
     assert set(sheet.solves) == {"U1U2", "L1L2", "U1L2"}
+    html = sheet_html(model, sheet, "t")
+    # drawn: the moment point marked and named, the chord's lever arm dimensioned (3 m), the
+    # equation set with subscripts, the exact value in the one notation
+    assert 'class="mpoint"' in html and ">O1<" in html
+    assert re.search(r'<text class="dlabel"[^>]*>3 m</text>', html)
+    assert "N<sub>U1U2</sub> = -53.3333 kN (C); exact -160/3 kN" in html
 
 
 def test_each_free_body_appears_once():
