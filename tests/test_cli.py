@@ -350,7 +350,7 @@ def test_cut_accepts_member_labels_written_as_in_claims_tables():
     code, exact, _ = run(
         "cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead", "--decimals-only"
     )
-    assert loose == exact and "Section for member U2U3" in exact
+    assert loose == exact and "Section solving U2U3" in exact
 
 
 def test_output_cut_short_by_the_reader_is_not_discrepancies(tmp_path):

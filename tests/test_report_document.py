@@ -27,14 +27,14 @@ import pytest
 import sympy
 from trussgen import make_model, pratt, truss_case
 
+from verify.analysis.exact import member_values as exact_values
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Review, compare_claims
 from verify.io.case import read_case
 from verify.io.claims import ClaimedValue, ClaimsTable, read_claims
 from verify.report.cautions import CAUTION, SHORT_CAUTION
 from verify.report.diagram import COMPRESSION_WIDTH, STATUS_STYLES, TENSION_WIDTH
-from verify.report.document import render_document
-from verify.report.handcalc_html import exact_values
+from verify.report.document import SAMPLE_SHEETS, render_document
 
 ROOT = Path(__file__).resolve().parent.parent
 GOLDEN = Path(__file__).resolve().parent / "golden"
@@ -313,7 +313,7 @@ def test_csv_tables_named_by_the_case_are_hashed(tmp_path: Path) -> None:
     model = read_case(tmp_path / "case.toml")
     review = compare_claims(analyse(model), read_claims(tmp_path / "claims.csv", model))
     md = render_document(review, fmt="md", generated=DATE)
-    assert "joints table" in md
+    assert "table 'joints.csv'" in md  # as the case reader found it, not parsed again
     assert hashlib.sha256((tmp_path / "joints.csv").read_bytes()).hexdigest() in md
 
 
@@ -408,7 +408,8 @@ def test_diagram_codes_force_and_status(at_root: None) -> None:
 
 
 def test_large_model_report_is_truncated_sensibly() -> None:
-    """Above 2000 members: no per-member labels, one load column in the appendix, steps capped, all said."""
+    """Above 2000 members: the drawing is the outline plus the flagged member, one load column in
+    the appendix, steps capped, the section cuts of the flagged member and a sample; all said."""
     model = make_model(pratt(1000))
     assert len(model.members) > 2000
     claims = ClaimsTable(
@@ -422,8 +423,16 @@ def test_large_model_report_is_truncated_sensibly() -> None:
     )
     review = compare_claims(analyse(model), claims)
     html = render_document(review, generated=DATE)
-    assert 'class="member-labels"' not in html and "no per-member labels" in html
+    assert 'class="member-labels"' not in html and 'class="outline"' in html
+    assert "only the members with a finding" in html
+    diagram = html[html.index('id="diagram"') : html.index('id="members"')]
+    members = re.findall(r'<g class="members">(.*?)</g>', diagram)
+    assert [m.count("<line ") for m in members] == [1] and "<title>L0L1:" in members[0]
     assert "Large model (" in html and "further step(s) are not shown" in html
+    appendix = html[html.index('id="appendix"') :]
+    sheets = appendix.count('class="freebody"')
+    assert 1 <= sheets <= 1 + SAMPLE_SHEETS and "Solves <strong>L0L1" in appendix
+    assert "truss-verify cut " in appendix and "--members" in appendix
     md = render_document(review, fmt="md", generated=DATE)
     assert md.count("#### Method of joints") == 1
 

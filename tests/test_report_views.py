@@ -51,3 +51,50 @@ def test_crossed_diagonals_get_their_labels_away_from_the_crossing():
     assert set(labels) == {"AC", "BD"}
     (ax, ay), (bx, by) = labels["AC"], labels["BD"]
     assert abs(ax - bx) + abs(ay - by) > 30  # well apart, not both at the crossing
+
+
+def _segment_distance(p, a, b):
+    p, a, b = (np.asarray(v, dtype=float) for v in (p, a, b))
+    ab = b - a
+    t = 0.0 if not ab.any() else float(np.clip(np.dot(p - a, ab) / np.dot(ab, ab), 0.0, 1.0))
+    return float(np.linalg.norm(p - (a + t * ab)))
+
+
+def test_joint_labels_stay_clear_of_load_arrows():
+    """A Pratt loaded at every bottom joint, arrows hanging below (a vertical member above): no
+    joint label's anchor lies within 6 px of an arrow, nor of a member."""
+    import re
+
+    from trussgen import pratt
+
+    from verify.report.diagram import render_diagram
+
+    model = make_model(pratt(load=9.0))
+    svg = render_diagram(model, load_name="P")
+    loads = svg[svg.index('<g class="loads"') :]
+    loads = loads[: loads.index("</g>")]
+    arrows = [
+        tuple(float(v) for v in m)
+        for m in re.findall(
+            r'<line x1="([-\d.]+)" y1="([-\d.]+)" x2="([-\d.]+)" y2="([-\d.]+)"', loads
+        )
+    ]
+    members = svg[svg.index('<g class="members"') :]
+    members = members[: members.index("</g>")]
+    lines = arrows + [
+        tuple(float(v) for v in m)
+        for m in re.findall(
+            r'<line x1="([-\d.]+)" y1="([-\d.]+)" x2="([-\d.]+)" y2="([-\d.]+)"', members
+        )
+    ]
+    labels = svg[svg.index('<g class="joint-labels"') :]
+    anchors = [
+        (float(x), float(y) - 4.5, name)
+        for x, y, name in re.findall(
+            r'<text x="([-\d.]+)" y="([-\d.]+)"[^>]*>([^<]+)</text>', labels
+        )
+    ]
+    assert len(arrows) == 5 and len(anchors) == len(model.joints)
+    for x, y, name in anchors:
+        for x1, y1, x2, y2 in lines:
+            assert _segment_distance((x, y), (x1, y1), (x2, y2)) >= 6.0, name

@@ -25,6 +25,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from trussgen import howe, make_model, pratt, random_simple_truss, truss_case, warren
 
+from verify.analysis.cut_sheets import CalcSheets
 from verify.analysis.global_solve import solve_global
 from verify.analysis.sections import (
     FORCES_NORMAL,
@@ -34,7 +35,19 @@ from verify.analysis.sections import (
     solve_sections,
 )
 from verify.io.case import read_case
-from verify.report.section_calc import render_cut, render_reactions
+from verify.report.section_calc import render_cut_sheet
+from verify.report.section_calc import render_reactions as render_reactions_sheet
+
+
+def render_cut(model, cut, load_name):
+    """The text calc sheet of one cut (records from analysis/cut_sheets, rendered by the report)."""
+    (sheet,) = CalcSheets(model, None).group([cut], load_name)
+    return render_cut_sheet(model, sheet)
+
+
+def render_reactions(model, load_name):
+    return render_reactions_sheet(model, CalcSheets(model, None).reactions(load_name))
+
 
 RTOL = 1e-9  # sections against another route: both are direct statics, ~1e-13 in practice
 CASES = "cases/canal-footbridge/case.toml"
@@ -318,14 +331,14 @@ def test_canal_footbridge_every_cut_reproduces_itself():
 
 
 def test_render_exact_values():
-    """The calc sheet shows -160/3 for U1U2 at P = 10 (REFERENCES.md 3.2 sympy value) and 7*sqrt(3)/6
+    """The calc sheet shows -160/3 for U1U2 at P = 10 (REFERENCES.md 3.2 sympy value) and (7/6)·√3
     for the Warren L1L2 (REFERENCES.md 3.2), with the Ritter point and T/C."""
     model = make_model(pratt(load=10.0))
     text = render_cut(model, solve_sections(model).cut_for("U1U2"), "P")
     assert "ΣM about joint L2" in text and "exact: -160/3" in text and "(C)" in text
     model = make_model(warren(load=1.0))
     text = render_cut(model, solve_sections(model).cut_for("L1L2"), "P")
-    assert "exact: 7*sqrt(3)/6" in text and "(T)" in text
+    assert "exact: (7/6)·√3" in text and "(T)" in text
 
 
 def test_render_decimals_only_when_geometry_is_not_nice():
@@ -542,3 +555,48 @@ def test_reasons_for_unreached_members():
     assert_matches_global(model, solution)
     for member, why in solution.unreached.items():
         assert member in model.member_ids and len(why) > 20
+
+
+# -- calc sheets: every value on them is the statics of the truss ---------------------------------
+def _assert_sheets_match_global(model):
+    """Each equation's result and each 'also gives' value on the calc sheets of every cut (free
+    bodies read incrementally from the sweeps, moved joints included) equals the global solve."""
+    solution = solve_sections(model)
+    ref = solve_global(model).member_forces
+    scale = max(float(np.abs(ref).max(initial=0.0)), 1e-12)
+    book = solution.calc_sheets(model)
+    for column, name in enumerate(model.load_names):
+        for sheet in book.group(list(solution.cuts), name):
+            values = [(e.target, e.value) for e in sheet.equations] + [
+                (m, v) for m, v, _ in sheet.also
+            ]
+            for member, value in values:
+                want = ref[model.member_index[member], column]
+                assert value == pytest.approx(want, abs=RTOL * scale), (member, name)
+
+
+@pytest.mark.parametrize("panels", [4, 8])
+def test_k_truss_sheets_equal_global(panels):
+    _assert_sheets_match_global(make_model(k_truss(panels)))
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.integers(0, 10**6), st.integers(3, 12))
+def test_random_truss_sheets_equal_global(seed, joints):
+    from verify.analysis.stability import Classification, solve_stability
+
+    model = make_model(random_simple_truss(random.Random(seed), joints))
+    if solve_stability(model).classification is not Classification.STABLE_DETERMINATE:
+        return
+    _assert_sheets_match_global(model)
+
+
+@pytest.mark.parametrize(
+    "case", ["canal-footbridge", "mezzanine-roof", "service-road-overbridge", "sign-bracket"]
+)
+def test_bundled_case_sheets_equal_global(case):
+    """Every calc sheet of the bundled determinate cases, 2D and 3D, every load column."""
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    _assert_sheets_match_global(read_case(root / "cases" / case / "case.toml"))

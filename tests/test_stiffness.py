@@ -34,9 +34,10 @@ from verify.analysis.stiffness import (
     SingularStiffnessError,
     solve_stiffness,
 )
-from verify.analysis.virtual_work import render_virtual_work, unit_load_deflection
+from verify.analysis.virtual_work import unit_load_deflection
 from verify.errors import InputError
 from verify.model import Model
+from verify.report.virtual_work_text import render_virtual_work
 
 RTOL = 1e-9  # exact closed forms against a double-precision solve of a small system
 PROPERTY_RTOL = 1e-7  # random trusses: conditioning of K ~ cond(A)^2 costs a few digits

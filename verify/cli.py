@@ -224,18 +224,20 @@ def solve(
             "this truss is indeterminate, so its forces come from the direct stiffness method above.\n"
         )
     if show in ("joints", "all") and analysis.joints is not None:
+        sheets = analysis.sections.calc_sheets(model) if analysis.sections is not None else None
         for name in names:
-            click.echo(text.render_joint_calc(model, analysis.joints, name))
+            step = sheets.reactions(name) if sheets is not None else None
+            click.echo(text.render_joint_calc(model, analysis.joints, name, reactions=step))
             click.echo("")
     if show in ("sections", "all") and analysis.sections is not None:
-        from verify.report.section_calc import render_cut, render_reactions
+        from verify.report.section_calc import render_cut_sheet, render_reactions
 
         cuts = analysis.sections.cuts
+        book = analysis.sections.calc_sheets(model)
         for name in names:
-            click.echo(render_reactions(model, name))
-            for section in cuts[:MAX_PRINTED_CUTS]:
-                click.echo(render_cut(model, section, name))
-                click.echo("")
+            click.echo(render_reactions(model, book.reactions(name)))
+            for sheet in book.group(cuts[:MAX_PRINTED_CUTS], name):
+                click.echo(render_cut_sheet(model, sheet))
             if len(cuts) > MAX_PRINTED_CUTS:
                 click.echo(
                     f"... {len(cuts) - MAX_PRINTED_CUTS} more cuts not printed; "
@@ -257,7 +259,9 @@ def solve(
     "--case", "load_name", default=None, help="Load case or combination (default: every one)."
 )
 @click.option(
-    "--decimals-only", is_flag=True, help="Skip the exact values (sympy) beside the decimals."
+    "--decimals-only",
+    is_flag=True,
+    help="Skip the exact values (fractions and roots) beside the decimals.",
 )
 @_TABLES_ANYWHERE
 def cut(
@@ -269,9 +273,9 @@ def cut(
     on the kept side, the equilibrium equation with lever arms and the moment point (Ritter's
     method) or the force sum normal to parallel members, and the forces with T/C.
     """
-    from verify.analysis.sections import cut_for_members
+    from verify.analysis.cut_sheets import requested_sheets
     from verify.errors import did_you_mean
-    from verify.report.section_calc import render_cut, render_reactions
+    from verify.report.section_calc import render_cut_sheet, render_reactions
 
     model = _load(case, tables_anywhere=tables_anywhere)
     if load_name is not None and load_name not in model.load_names:
@@ -290,29 +294,16 @@ def cut(
     from verify.io.claims import member_ids_for
 
     ids = member_ids_for(model, [m.strip() for m in member_list.split(",") if m.strip()])
+    names = [load_name] if load_name else model.load_names
     try:
-        section = cut_for_members(model, ids)
+        sheets = requested_sheets(model, ids, names, exact=not decimals_only)
     except ValueError as exc:
         click.echo(f"--members: {exc}", err=True)
         sys.exit(EXIT_BAD_INPUT)
-    # One equation per cut member the free body can isolate, each with its own Ritter point.
-    sections = [section]
-    for member in ids:
-        if member == section.target:
-            continue
-        try:
-            other = cut_for_members(model, [member] + [m for m in ids if m != member])
-        except ValueError:
-            continue
-        if other.target == member:
-            sections.append(other)
-    for name in [load_name] if load_name else model.load_names:
-        if any(s.uses_reactions for s in sections):
-            click.echo(render_reactions(model, name, exact=not decimals_only))
-            click.echo("")
-        for each in sections:
-            click.echo(render_cut(model, each, name, exact=not decimals_only))
-            click.echo("")
+    for reactions, sheet in sheets:
+        if reactions is not None:
+            click.echo(render_reactions(model, reactions))
+        click.echo(render_cut_sheet(model, sheet))
     click.echo(f"Caution: {CAUTION}")
 
 

@@ -35,13 +35,16 @@ import functools
 import itertools
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import TypeVar, overload
+from typing import TYPE_CHECKING, TypeVar, overload
 
 import numpy as np
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.joints import solve_reactions
 from verify.model import Model
+
+if TYPE_CHECKING:
+    from verify.analysis.cut_sheets import CalcSheets
 
 MOMENTS = "moments"
 FORCES_NORMAL = "forces-normal"
@@ -152,6 +155,16 @@ class SectionSolution:
             if cut.target == member_id:
                 return cut
         return None
+
+    def calc_sheets(self, model: Model) -> CalcSheets:
+        """The calc sheets of these cuts (records for the reports), built on request per member.
+
+        A report chooses the members (the flagged ones, a sample) only after the comparison, so
+        the analysis hands it this builder rather than every sheet of a large truss.
+        """
+        from verify.analysis.cut_sheets import CalcSheets
+
+        return CalcSheets(model, self)
 
 
 # -- small vector helpers ---------------------------------------------------------------------
@@ -1145,6 +1158,14 @@ class _CutSequence(_Lazy["SectionCut"]):
     def _item(self, r: int) -> SectionCut:
         b = int(np.searchsorted(self._starts, r, side="right")) - 1
         return self._batches[b][r - int(self._starts[b])]
+
+    def target_names(self) -> list[str]:
+        """The member each cut solves, in solve order, without building the cut records."""
+        out: list[str] = []
+        for batch in self._batches:
+            names = batch._names
+            out.extend(names[m] for m in batch._pm[batch._pair].tolist())
+        return out
 
     def __iter__(self) -> Iterator[SectionCut]:
         for batch in self._batches:

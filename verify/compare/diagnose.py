@@ -1260,9 +1260,10 @@ def _shifted_and_swapped(c: Comparison) -> None:
                 Finding(
                     "swapped-labels",
                     (va.member, vb.member),
-                    f"in '{name}' the claims for {va.member} "
-                    f"({fmt(xa)}) and {vb.member} ({fmt(xb)}) match each other's recomputed forces "
-                    f"({fmt(cb)} and {fmt(ca)} {case_unit.symbol}): the labels look swapped",
+                    f"in '{name}' the claims for {va.member} ({fmt(xa)} {case_unit.symbol}) "
+                    f"and {vb.member} ({fmt(xb)} {case_unit.symbol}) match each other's "
+                    f"recomputed forces ({fmt(cb)} {case_unit.symbol} and {fmt(ca)} "
+                    f"{case_unit.symbol}): the labels look swapped",
                     Severity.ERROR,
                     case=name,
                     locations=(va.where, vb.where),

@@ -164,8 +164,13 @@ def render_diagram(
     caption: str = "",
     legend: bool = True,
     implied: np.ndarray | None = None,
+    outline: bool = False,
 ) -> str:
     """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain words.
+
+    `outline`: draw the truss's outline (the convex hull of its joints in each view), the
+    supports and only the members with a finding, for trusses too large to draw member by member
+    (the caller says so in the caption).
 
     `forces` are member forces (tension positive) in model order for the load column
     `load_name`; `statuses` maps member id to a review status (see STATUS_CATEGORY). Without
@@ -176,7 +181,7 @@ def render_diagram(
     if load_name is not None and load_name in model.load_names:
         loads = model.load_matrix()[:, model.load_names.index(load_name)]
     views = views_for(model)
-    svgs = [_svg(model, view, force_arr, statuses, loads, implied) for view in views]
+    svgs = [_svg(model, view, force_arr, statuses, loads, implied, outline) for view in views]
     parts = ['<figure class="truss">']
     for view, svg in zip(views, svgs, strict=True):
         parts.append(
@@ -216,6 +221,7 @@ def _svg(
     statuses: Mapping[str, str] | None,
     loads: np.ndarray | None,
     implied: np.ndarray | None = None,
+    outline: bool = False,
 ) -> str:
     ax, ay = view.axes
     pts = (
@@ -266,6 +272,9 @@ def _svg(
 
     # Members: compression bands under tension lines so thin lines stay visible at crossings.
     order = list(range(len(model.members)))
+    if outline:
+        out.append(_outline(sx, sy))
+        order = [i for i in order if _flagged(model.members[i].id, statuses)]
     if forces is not None:
         order.sort(key=lambda i: 0 if np.isfinite(forces[i]) and forces[i] < -zero else 1)
     lines = []
@@ -296,7 +305,7 @@ def _svg(
 
     arrows: dict[int, tuple[float, float]] = {}
     out.extend(_supports(model, view, sx, sy, arrows))
-    if loads is not None:
+    if loads is not None and not outline:
         out.extend(_loads(model, view, sx, sy, loads, arrows))
     if implied is not None:
         # The loads the claims balance, dashed and in another colour, scaled with the case's own
@@ -314,9 +323,14 @@ def _svg(
             )
         )
 
+    shown_joints = (
+        sorted({int(j) for i in order for j in model.ends_index[i]})
+        if outline
+        else range(len(model.joints))
+    )
     joints = [
         f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
-        for j in range(len(model.joints))
+        for j in shown_joints
     ]
     out.append('<g class="joints">' + "".join(joints) + "</g>")
 
@@ -336,6 +350,32 @@ def _svg(
         )
     out.append("</svg>")
     return "".join(out)
+
+
+def _flagged(member_id: str, statuses: Mapping[str, str] | None) -> bool:
+    """A member with a finding (drawn even in an outline): not agreeing, not merely unclaimed."""
+    if statuses is None or member_id not in statuses:
+        return False
+    return status_category(statuses[member_id]) not in ("agrees", "missing")
+
+
+def _outline(sx: np.ndarray, sy: np.ndarray) -> str:
+    """The convex hull of the joints as drawn (qhull, O(n log n)); a bounding line if flat."""
+    pts = np.column_stack([sx, sy])
+    if len(pts) == 0:
+        return ""
+    try:
+        from scipy.spatial import ConvexHull
+
+        ring = pts[ConvexHull(pts).vertices]
+    except Exception:  # qhull refuses flat or tiny sets: draw their extent instead
+        lo, hi = pts.min(axis=0), pts.max(axis=0)
+        ring = np.array([lo, [hi[0], lo[1]], hi, [lo[0], hi[1]]])
+    points = " ".join(f"{_n(x)},{_n(y)}" for x, y in ring)
+    return (
+        f'<polygon class="outline" points="{points}" fill="#f3f3f3" stroke="#8C8C8C" '
+        'stroke-width="1.5"/>'
+    )
 
 
 def _halo() -> str:
@@ -436,8 +476,12 @@ def _short(label: str, limit: int = 14) -> str:
 def _joint_labels(
     model: Model, sx: np.ndarray, sy: np.ndarray, arrows: Mapping[int, tuple[float, float]]
 ) -> list[str]:
-    """Each joint label sits opposite the mean direction of its members and load arrow, clear of the lines."""
+    """Each joint label in the clearest of eight directions around its joint: the one farthest
+    (in angle) from every member and load arrow there, so no label sits on a line or an arrow.
+
+    Ties go to the side opposite the mean of those directions (a label outside the truss)."""
     n = len(model.joints)
+    around: list[list[float]] = [[] for _ in range(n)]
     dirx = np.zeros(n)
     diry = np.zeros(n)
     for a, b in model.ends_index.tolist():
@@ -447,19 +491,43 @@ def _joint_labels(
         diry[a] += dy / length
         dirx[b] -= dx / length
         diry[b] -= dy / length
+        if length > 1e-9:
+            around[a].append(math.atan2(dy, dx))
+            around[b].append(math.atan2(-dy, -dx))
     for j, (ax_, ay_) in arrows.items():
-        dirx[j] += ax_
-        diry[j] += ay_
+        # an arrow is drawn long and carries a label at its tail: twice a member's weight
+        dirx[j] += 2 * ax_
+        diry[j] += 2 * ay_
+        around[j].append(math.atan2(ay_, ax_))
     out = []
     for j, joint in enumerate(model.joints):
         length = math.hypot(dirx[j], diry[j])
         ux, uy = (-dirx[j] / length, -diry[j] / length) if length > 1e-6 else (-0.7071, -0.7071)
+        ux, uy = _clearest(around[j], (ux, uy))
         x, y = sx[j] + ux * 14, sy[j] + uy * 14 + 4.5
         anchor = "middle" if abs(ux) < 0.4 else ("start" if ux > 0 else "end")
         out.append(
             f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(joint.id))}</text>'
         )
     return out
+
+
+LABEL_DIRECTIONS = tuple(k * math.pi / 4 for k in range(8))
+
+
+def _clearest(obstacles: Sequence[float], preferred: tuple[float, float]) -> tuple[float, float]:
+    """The unit direction among LABEL_DIRECTIONS with the widest angle to every obstacle; among
+    those within 1° of the widest, the one closest to `preferred`."""
+    if not obstacles:
+        return preferred
+
+    def gap(theta: float) -> float:
+        return min(abs((theta - o + math.pi) % (2 * math.pi) - math.pi) for o in obstacles)
+
+    best = max(gap(t) for t in LABEL_DIRECTIONS)
+    near = [t for t in LABEL_DIRECTIONS if gap(t) >= best - math.radians(1)]
+    theta = max(near, key=lambda t: math.cos(t) * preferred[0] + math.sin(t) * preferred[1])
+    return math.cos(theta), math.sin(theta)
 
 
 def _supports(
@@ -542,6 +610,7 @@ def _loads(
     for a, b in model.ends_index.tolist():
         neighbours[a].append(b)
         neighbours[b].append(a)
+    case_loaded = set(arrows)  # joints whose arrows were drawn before this call
     out = [f'<g class="{css}" stroke="{colour}" fill="{colour}" font-size="11.5">']
     for j in range(len(model.joints)):
         if magnitude[j] <= smallest:
@@ -578,6 +647,9 @@ def _loads(
         text = f"{fmt(float(magnitude[j]), 3)} {unit}"
         lx, ly = label_x, label_y + (4 if abs(ey) < 0.5 else (12 if ey > 0 else -3))
         anchor = "middle" if abs(ex) < 0.5 else ("start" if ex > 0 else "end")
+        if css != "loads" and j in case_loaded:
+            # the case's own load has its label at this tail already: set this one beside it
+            lx, anchor = lx + 18, "start"
         out.append(
             f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>'
         )

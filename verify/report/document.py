@@ -14,7 +14,6 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import math
-import tomllib
 from dataclasses import dataclass
 from html import escape
 from pathlib import Path
@@ -24,6 +23,8 @@ import numpy as np
 from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
+from verify.model import Model
+from verify.report.calc_sheet_html import FREE_BODY_CSS, reactions_html, sheet_html
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
 from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
@@ -52,13 +53,14 @@ NOT_CAPACITY = (
 )
 LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
 MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
-MAX_APPENDIX_CUTS_LARGE = 30
+APPENDIX_ALL_MEMBERS = 100  # up to this size every free body is in the appendix
+MAX_FLAGGED_SHEETS = 40  # above it: the free bodies of at most this many flagged members ...
+SAMPLE_SHEETS = 6  # ... and a sample of this many cuts
 MAX_APPENDIX_COLUMNS = 6  # load columns with a hand calc in a small model's appendix
 MAX_DIAGRAMS = 4  # load columns drawn
 MAX_TABLE_ROWS = 3000  # rows per load column in the member table; problems are always listed first
 MAX_FINDING_MEMBERS = 25  # member names quoted per finding
 EXACT_MAX_MEMBERS = 400  # exact fractions only for models up to this size (cost and length)
-TABLE_KEYS = ("joints", "members", "supports", "loads")  # case-file keys that may name CSV tables
 
 MEMBER_COLUMNS = (
     "member",
@@ -137,9 +139,17 @@ def input_files(
             "" if case_digest else "not readable now (model built in memory or file moved)",
         )
     ]
-    for role, path in _case_tables(model.source):
+    # The tables the case reader found (Model.tables): the case file is not parsed again here.
+    for path in model.tables:
         digest = sha256_file(path)
-        out.append(InputFile(role, str(path), digest, "" if digest else "not readable now"))
+        out.append(
+            InputFile(
+                f"table '{Path(path).name}'",
+                str(path),
+                digest,
+                "" if digest else "not readable now",
+            )
+        )
     claims = review.claims
     out.append(
         InputFile(
@@ -153,25 +163,6 @@ def input_files(
             InputFile("claimed displacements", displacement_file[0], displacement_file[1] or None)
         )
     return out
-
-
-def _case_tables(source: str) -> list[tuple[str, Path]]:
-    """CSV tables named in the case file (joints = "joints.csv", [loads] case = "file.csv", ...)."""
-    try:
-        data = tomllib.loads(Path(source).read_bytes().decode("utf-8-sig"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-        return []
-    base = Path(source).parent
-    found: list[tuple[str, Path]] = []
-    for key in TABLE_KEYS:
-        value = data.get(key)
-        if isinstance(value, str):
-            found.append((f"{key} table", base / value))
-        elif key == "loads" and isinstance(value, dict):
-            for case, spec in value.items():
-                if isinstance(spec, str):
-                    found.append((f"loads table '{case}'", base / spec))
-    return found
 
 
 def _verdict_text(review: Review) -> tuple[str, str]:
@@ -549,6 +540,31 @@ def appendix_columns(review: Review) -> list[str]:
     return checked[:MAX_APPENDIX_COLUMNS]
 
 
+def appendix_members(review: Review, load_name: str) -> list[str] | None:
+    """Members whose section cuts the appendix shows in one load column (None: every cut).
+
+    Up to APPENDIX_ALL_MEMBERS members every free body is shown: a hand calc a checker can read
+    in full (about half a printed page per free body). Above, the flagged members (a finding in
+    this column, at most MAX_FLAGGED_SHEETS) and an evenly spread sample of SAMPLE_SHEETS cuts:
+    the report stays a few MB at any size, and `cut` or `solve --show sections` print the rest.
+    """
+    model = review.analysis.model
+    if len(model.members) <= APPENDIX_ALL_MEMBERS:
+        return None
+    flagged = list(
+        dict.fromkeys(
+            r.id
+            for r in review.rows
+            if r.kind == "member"
+            and r.case == load_name
+            and status_category(r.status) not in ("agrees", "missing")
+        )
+    )[:MAX_FLAGGED_SHEETS]
+    sections = review.analysis.sections
+    sample = sections.calc_sheets(model).sample(SAMPLE_SHEETS) if sections is not None else []
+    return list(dict.fromkeys(flagged + sample))
+
+
 def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
     model = review.analysis.model
     large = len(model.members) > LARGE_MODEL_MEMBERS
@@ -558,21 +574,34 @@ def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
         blocks = appendix_blocks(
             review.analysis,
             name,
+            members=appendix_members(review, name),
             max_steps=MAX_APPENDIX_STEPS_LARGE if large else None,
-            max_cuts=MAX_APPENDIX_CUTS_LARGE if large else None,
             exact=len(model.members) <= EXACT_MAX_MEMBERS,
         )
         sections.append((_load_label(review, name), blocks))
     checked = [n for n in model.load_names if n in review.checked_cases]
-    note = ""
+    notes = []
+    source = Path(model.source).name if model.source else "CASE"
     if large:
-        note = (
-            f"Large model ({len(model.members)} members): the hand calc is shown for the first load column only and at most "
-            f"{MAX_APPENDIX_STEPS_LARGE} joint steps; `truss-verify solve --show all` prints the rest."
+        notes.append(
+            f"Large model ({len(model.members)} members): the hand calc is shown for the first "
+            f"load column only and at most {MAX_APPENDIX_STEPS_LARGE} joint steps; "
+            f"`truss-verify solve {source} --show all` prints the rest."
         )
     elif len(checked) > len(columns):
-        note = f"The hand calc is shown for the first {len(columns)} checked load columns; `truss-verify solve --show all` prints every one."
-    return sections, note
+        notes.append(
+            f"The hand calc is shown for the first {len(columns)} checked load columns; "
+            f"`truss-verify solve {source} --show all` prints every one."
+        )
+    if len(model.members) > APPENDIX_ALL_MEMBERS and review.analysis.sections is not None:
+        notes.append(
+            f"Section cuts are shown for the members with a finding (at most "
+            f"{MAX_FLAGGED_SHEETS}) and a sample of {SAMPLE_SHEETS} cuts spread over the "
+            f"truss, not for all {len(model.members)} members; "
+            f"`truss-verify cut {source} --members A,B,C` prints the calc sheet of any section "
+            f"and `truss-verify solve {source} --show sections` every cut."
+        )
+    return sections, " ".join(notes)
 
 
 def _generated(generated: str | None) -> str:
@@ -656,11 +685,16 @@ def _html_table(
     return "".join(out)
 
 
-def _html_blocks(blocks: list[Block], level: int) -> list[str]:
+def _html_blocks(model: Model, blocks: list[Block], level: int, prefix: str) -> list[str]:
+    """Appendix blocks in HTML; `prefix` makes the ids of the drawings' arrowheads unique."""
     out = []
-    for block in blocks:
+    for n, block in enumerate(blocks):
         out.append(f"<h{level}>{_e(block.heading)}</h{level}>")
-        if block.kind == "pre":
+        if block.kind == "sheet" and block.sheet is not None:
+            out.append(sheet_html(model, block.sheet, f"{prefix}-{n}"))
+        elif block.kind == "reactions" and block.reactions is not None:
+            out.append(reactions_html(model, block.reactions))
+        elif block.kind in ("pre", "reactions", "sheet"):
             out.append(f"<pre>{_e(block.text)}</pre>")
         elif block.kind == "table":
             if block.text:
@@ -689,7 +723,7 @@ def render_html(
         f'<meta http-equiv="Content-Security-Policy" content="{CSP}">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         f"<title>Truss review: {_e(title)}</title>",
-        f"<style>{CSS}</style>",
+        f"<style>{CSS}{FREE_BODY_CSS}</style>",
         "</head>",
         "<body>",
     ]
@@ -772,9 +806,9 @@ def render_html(
     )
     if note:
         out.append(f"<p><em>{_e(note)}</em></p>")
-    for label, blocks in sections:
+    for k, (label, blocks) in enumerate(sections):
         out.append(f"<h3>{_e(label)}</h3>")
-        out.extend(_html_blocks(blocks, 4))
+        out.extend(_html_blocks(model, blocks, 4, f"fb{k}"))
     out.append("</section>")
 
     out.append(
@@ -821,10 +855,14 @@ def diagrams_html(review: Review) -> list[str]:
     ref = review.analysis.reference
     columns = diagram_columns(review)
     out = []
-    if len(model.members) > LARGE_MODEL_MEMBERS:
+    outline = len(model.members) > LARGE_MODEL_MEMBERS
+    if outline:
         out.append(
-            f"<p><em>Large model ({len(model.members)} members): no per-member labels or letters; one load column drawn. "
-            "The member table lists every problem.</em></p>"
+            f"<p><em>Large model ({len(model.members)} members): the drawing shows the outline "
+            "of the truss, its supports and only the members with a finding (no labels, no "
+            "loads); one load column is drawn. The member table lists every problem; "
+            f"`truss-verify solve {_e(Path(model.source).name)} --show forces` lists every "
+            "force.</em></p>"
         )
     drawn = [
         (name, member_statuses(review, name) if name in review.checked_cases else None)
@@ -863,6 +901,7 @@ def diagrams_html(review: Review) -> list[str]:
                 caption=caption,
                 legend=False,
                 implied=implied,
+                outline=outline,
             )
         )
     return out
@@ -1068,7 +1107,7 @@ def render_markdown(
         out += ["", f"### {_m(label)}"]
         for block in blocks:
             out += ["", f"#### {_m(block.heading)}", ""]
-            if block.kind == "pre":
+            if block.kind in ("pre", "sheet", "reactions"):
                 out.append(_fence(block.text))
             elif block.kind == "table":
                 if block.text:

@@ -192,7 +192,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     lines.extend(f"note: {n}" for n in review.notes)
     check = review.displacements
     if check is not None and getattr(check, "calcs", None):
-        from verify.analysis.virtual_work import render_virtual_work
+        from verify.report.virtual_work_text import render_virtual_work
 
         lines.append("")
         lines.append(

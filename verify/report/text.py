@@ -2,15 +2,20 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
-from verify.analysis.joints import JointSolution, overall_equilibrium_matrix
+from verify.analysis.joints import JointSolution
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
 from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.names import method_phrase
 from verify.report.numbers import fmt, fmt_ratio, load_title, plain_table, roundoff_text, tc
+
+if TYPE_CHECKING:  # a type only: importing the sheet builder costs every command ~40 ms
+    from verify.analysis.cut_sheets import ReactionsSheet
 
 AXIS_NAMES = ("x", "y", "z")
 
@@ -183,8 +188,18 @@ def _term(coefficient: float, name: str) -> str:
     return f"{sign} {fmt(abs(coefficient), 4)}·{name}"
 
 
-def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> str:
-    """The joint-by-joint hand calc for one load column, equations with values substituted."""
+def render_joint_calc(
+    model: Model,
+    solution: JointSolution,
+    load_name: str,
+    *,
+    reactions: ReactionsSheet | None = None,
+) -> str:
+    """The joint-by-joint hand calc for one load column, equations with values substituted.
+
+    `reactions`: the overall-equilibrium records (the section route's `calc_sheets`), whose
+    equations the first step prints; without them the step gives the reactions found.
+    """
     d = model.dim
     b = len(model.members)
     k = solution.forces.column(load_name)
@@ -204,26 +219,20 @@ def render_joint_calc(model: Model, solution: JointSolution, load_name: str) -> 
         at_joint.setdefault(end, []).append(i)
     for n, step in enumerate(solution.steps, 1):
         if step.kind == "reactions":
-            point = np.asarray(solution.moment_point)
-            G, E = overall_equilibrium_matrix(model, point)
             out.append(
                 f"\nStep {n}: reactions from overall equilibrium (moments about joint {solution.moment_joint})"
             )
-            labels = (
-                ["ΣFx", "ΣFy", f"ΣM about joint {solution.moment_joint}"]
-                if d == 2
-                else ["ΣFx", "ΣFy", "ΣFz", "ΣMx", "ΣMy", "ΣMz"]
-            )
-            order = [2, 0, 1] if d == 2 else list(range(6))
-            for row in order:
-                terms = " ".join(
-                    _term(G[row, i], names[b + i])
-                    for i in range(G.shape[1])
-                    if abs(G[row, i]) > 1e-12
-                )
-                out.append(
-                    f"  {labels[row]} = 0: {terms} {'+' if E[row, k] >= 0 else '-'} {fmt(abs(E[row, k]))} = 0"
-                )
+            if (
+                reactions is not None
+                and reactions.possible
+                and reactions.pivot == solution.moment_joint
+            ):
+                for row in reactions.rows:
+                    terms = " ".join(_term(c, f"R_{label}") for label, c in row.coefficients)
+                    sign = "+" if row.load_total >= 0 else "-"
+                    out.append(
+                        f"  {row.title.split(' (')[0]}: {terms} {sign} {fmt(abs(row.load_total))} = 0"
+                    )
             out.append("  => " + ", ".join(f"{names[c]} = {fmt(t[c])}" for c in step.unknowns))
             solved.update(step.unknowns)
             continue
