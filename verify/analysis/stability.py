@@ -29,7 +29,8 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from verify.analysis.equilibrium import assemble_equilibrium, rigid_body_modes
+from verify.analysis.equilibrium import rigid_body_modes
+from verify.analysis.run import AnalysisRun, lu_ordering
 from verify.model import Model
 
 DENSE_DOF_LIMIT = 400  # dense SVD (bases of every mode) costs ~0.1 s here; above, sparse LU first
@@ -152,13 +153,19 @@ def _classify(m: int, s: int) -> Classification:
 
 
 def solve_stability(
-    model: Model, *, dense_limit: int = DENSE_DOF_LIMIT, detail_limit: int | None = None
+    model: Model,
+    *,
+    dense_limit: int = DENSE_DOF_LIMIT,
+    detail_limit: int | None = None,
+    run: AnalysisRun | None = None,
 ) -> StabilityResult:
-    """Classify the truss. Never infers stability from a solver not raising: counts come from rank."""
-    A = assemble_equilibrium(model)
+    """Classify the truss. Never infers stability from a solver not raising: counts come from
+    rank. The sparse screen's LU of a square A is handed to `run` for the global solve."""
+    run = run if run is not None else AnalysisRun(model)
+    A = run.equilibrium_matrix()
     if model.dofs <= dense_limit and A.shape[1] <= 2 * dense_limit:
         return _dense(model, A.toarray())
-    screened = _sparse(model, A)
+    screened = _sparse(model, A, run)
     # With an explicit dense_limit (tests of the sparse path) the hand-over follows it.
     limit = (
         detail_limit
@@ -309,7 +316,7 @@ def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
     )
 
 
-def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
+def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult:
     dofs, cols = A.shape
     slender = slenderness(model)
     notes: list[str] = [
@@ -341,7 +348,7 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         )
     if cols == dofs:
         M = A
-        spec = "COLAMD" if model.dim == 2 else "MMD_ATA"
+        spec = lu_ordering(model)
     else:
         # Unit-stiffness matrix A W A^T (W = 1/L): singular exactly when a mechanism exists.
         w = np.concatenate(
@@ -356,7 +363,7 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         lu = spla.splu(M, permc_spec=spec)
         if cols == dofs:
             # The global statics solve factors the same matrix with the same ordering: share it.
-            model.memo["equilibrium_lu"] = lu
+            run.keep_lu(lu)
         diag = np.abs(lu.U.diagonal())
         ratio = float(diag.min() / diag.max())
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)

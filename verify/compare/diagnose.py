@@ -24,7 +24,6 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
-from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
@@ -799,7 +798,7 @@ def _table_convention(c: Comparison) -> None:
                 matrix[member_pos[idx], load_pos] = (
                     raw[idx] * conv[idx] * np.where(fixed, 1.0, sign_k * stated_sign) * factor_k
                 )
-                return len(claims_balance(model, matrix, {}, load_names, tol))
+                return len(claims_balance(c.analysis, matrix, {}, load_names, tol))
 
             table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
         if table_level:
@@ -1649,7 +1648,7 @@ def _balance(c: Comparison) -> None:
     stab, tol = c.stab, c.tol
     # Equilibrium of the claims themselves.
     imbalances = claims_balance(
-        model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix
+        c.analysis, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix
     )
     checkable = checkable_joints(model, claimed_matrix, load_names)
     implied = implied_loads(model, imbalances, checkable)
@@ -1807,7 +1806,7 @@ def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple
     self-stress; they are a swap only if exchanging them back makes their joints balance better."""
     model = c.model
     k = model.load_names.index(name)
-    A = assemble_equilibrium(model)[:, : len(model.members)]
+    A = c.analysis.run.equilibrium_matrix()[:, : len(model.members)]
     column = np.nan_to_num(c.claimed_matrix[:, k])
     m1, m2 = model.member_index[first[1].member], model.member_index[second[1].member]
     joints = np.unique(np.concatenate([model.ends_index[m1], model.ends_index[m2]]))
@@ -1846,14 +1845,10 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
     self-stress); None when that cannot be told (no stiffness solve)."""
     if analysis.elastic is None:
         return None
-    from verify.analysis.stiffness import members_fixed_by_statics
-
     model = analysis.model
     try:
-        fixed = members_fixed_by_statics(
-            model,
-            analysis.elastic.forces.member_forces,
-            assume_equal_EA=analysis.assumed_EA,
+        fixed = analysis.run.members_fixed_by_statics(
+            analysis.elastic.forces.member_forces, analysis.assumed_EA
         )
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
@@ -2028,7 +2023,7 @@ def _explain_indeterminate(
     """
     model = analysis.model
     out: list[Finding] = []
-    imbalances = claims_balance(model, claimed, reaction_claims, load_names, tol, rounding)
+    imbalances = claims_balance(analysis, claimed, reaction_claims, load_names, tol, rounding)
     d = model.dim
     for name in load_names:
         k = load_names.index(name)

@@ -130,12 +130,10 @@ def compare_displacements(
                 )
             )
         if len(calcs) < MAX_HAND_CALCS:
-            from verify.analysis.virtual_work import unit_load_deflection
-
             direction = [1.0 if a == c.axis else 0.0 for a in AXES[:d]]
             try:
-                calc = unit_load_deflection(
-                    model, forces[:, k], c.joint, direction, assume_equal_EA=_assumed_EA(analysis)
+                calc = analysis.run.unit_load_deflection(
+                    forces[:, k], c.joint, direction, _assumed_EA(analysis)
                 )
             except ValueError:
                 continue

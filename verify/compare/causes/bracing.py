@@ -90,7 +90,7 @@ def explain_tension_only(
     for slack_t, columns in by_slack.items():
         kept = [m for i, m in enumerate(model.members) if i not in set(slack_t)]
         variant = dataclasses.replace(model, members=tuple(kept))
-        forces = solve_members(variant, np.array(columns))
+        forces = solve_members(analysis.run.variant(variant), np.array(columns))
         if forces is None:
             continue  # still indeterminate, or a mechanism, without the slack diagonals
         full = np.zeros((len(model.members), len(columns)))

@@ -16,7 +16,6 @@ import numpy as np
 import scipy.optimize as so
 import scipy.sparse as sp
 
-from verify.analysis.global_solve import equilibrium_lu
 from verify.analysis.pipeline import Analysis
 from verify.compare.balance import claims_balance
 from verify.compare.causes.frame import ClaimsFrame
@@ -267,8 +266,8 @@ def _implied_load_variants(
     rounding[frame.member, frame.column] = frame.rounding
     F = model.load_matrix()
     C = model.combination_matrix()
-    lu = equilibrium_lu(model)
-    imbalances = claims_balance(model, claimed, {}, names, Tolerance(rtol=frame.rtol), rounding)
+    lu = analysis.run.equilibrium_lu()
+    imbalances = claims_balance(analysis, claimed, {}, names, Tolerance(rtol=frame.rtol), rounding)
     for k in sorted({int(x) for x in frame.column[pending].tolist() if x < n_cases}):
         joints = [b for b in imbalances if b.case == names[k]]
         if not joints:
@@ -435,7 +434,7 @@ def _load_variants(
     cases = [
         c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)
     ]
-    lu = equilibrium_lu(model)
+    lu = analysis.run.equilibrium_lu()
     # One transposed solve per sampled member: on a large 3D truss the factors are dense enough
     # that 120 solves would take seconds, so the sample shrinks to a budget of work (never below
     # MIN_SAMPLE: a true cause explains most disagreeing claims, and shows in a dozen).
@@ -586,7 +585,7 @@ def _plainest(
 def _support_variants(frame: ClaimsFrame, base: np.ndarray, analysis: Analysis):
     columns, where = frame.column_positions()
     for words, variant_model, joints in support_swaps(analysis.model):
-        t = solve_members(variant_model, columns)
+        t = solve_members(analysis.run.variant(variant_model), columns)
         if t is None:
             continue
         yield Variant("support-moved", words, t[frame.member, where] - frame.computed, None, joints)
@@ -607,7 +606,7 @@ def _added_restraint_variants(
     restrained: dict[str, set[str]] = {}
     for r in model.reactions:
         restrained.setdefault(r.joint, set()).add(r.axis)
-    lu = equilibrium_lu(model)
+    lu = analysis.run.equilibrium_lu()
     axes = "xyz"[:d]
     target = frame.claimed - frame.computed - base
     for joint, have in list(restrained.items())[:8]:
@@ -654,7 +653,7 @@ def _dimension_variants(
             continue
 
         def forces(s: float, axis: int = axis) -> np.ndarray | None:
-            t = solve_members(scaled_model(model, axis, s), columns)
+            t = solve_members(analysis.run.variant(scaled_model(model, axis, s)), columns)
             return None if t is None else t[frame.member, where]
 
         def misfit(log_s: float) -> float:

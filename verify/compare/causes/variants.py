@@ -21,15 +21,17 @@ from __future__ import annotations
 import dataclasses
 import math
 from collections.abc import Callable, Iterator
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from verify.compare.causes.frame import ClaimsFrame
 from verify.formatting import fmt
 from verify.model import Joint, Model, Reaction
+
+if TYPE_CHECKING:
+    from verify.analysis.run import AnalysisRun
 
 SAMPLE_CLAIMS = 120  # disagreeing claims priced by influence lines (a sample above this): one
 #                      transposed solve per member sampled, the costliest step on 3D trusses
@@ -438,22 +440,14 @@ def scaled_model(model: Model, axis: int, s: float) -> Model:
     return dataclasses.replace(model, joints=joints)
 
 
-def solve_members(model: Model, columns: np.ndarray) -> np.ndarray | None:
-    """Member forces of a (variant) model for the given load columns; None when it cannot be solved."""
-    from verify.analysis.equilibrium import assemble_equilibrium
-
-    A = assemble_equilibrium(model)
-    if A.shape[0] != A.shape[1]:
+def solve_members(run: AnalysisRun, columns: np.ndarray) -> np.ndarray | None:
+    """Member forces of a (variant) model's run for the given load columns; None when it cannot
+    be solved by statics (not determinate, a mechanism) or is near-singular."""
+    t = run.member_forces(columns)
+    if t is None:
         return None
-    try:
-        lu = spla.splu(sp.csc_matrix(A), permc_spec="COLAMD" if model.dim == 2 else "MMD_ATA")
-    except RuntimeError:  # exactly singular: the variant is a mechanism
-        return None
-    F = model.load_matrix()[:, columns]
-    t = lu.solve(-np.asarray(F, dtype=float))
-    t = np.asarray(t).reshape(A.shape[1], -1)[: len(model.members)]
-    if not np.isfinite(t).all() or np.abs(t).max() > 1e6 * max(np.abs(F).max(), 1e-300) * max(
-        len(model.members), 1
-    ):
+    F = run.model.load_matrix()[:, columns]
+    size = max(float(np.abs(F).max(initial=0.0)), 1e-300) * max(len(run.model.members), 1)
+    if not np.isfinite(t).all() or np.abs(t).max(initial=0.0) > 1e6 * size:
         return None  # near-singular: a near-mechanism is no explanation
     return t
