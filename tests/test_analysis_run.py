@@ -39,7 +39,7 @@ def test_the_routes_share_one_equilibrium_matrix_and_one_lu(monkeypatch):
     model = make_model(pratt(10, load=10.0))
     run = AnalysisRun(model)
     screened = stability.solve_stability(model, dense_limit=4, detail_limit=4, run=run)
-    assert screened.method == "sparse-lu" and screened.mechanisms == 0
+    assert screened.method == "sparse-screen" and screened.mechanisms == 0
 
     def no_second_factorisation(*args, **kwargs):
         raise AssertionError("the LU was factored twice")

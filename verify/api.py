@@ -21,7 +21,6 @@ from verify.compare.diagnose import Review
 from verify.compare.tolerances import ATOL_FRACTION, RTOL
 from verify.io.case import read_case
 from verify.model import Model
-from verify.report.names import kind_word, severity_word
 from verify.service import CheckOptions, check, exit_status
 
 if TYPE_CHECKING:  # pandas is imported lazily at run time
@@ -176,8 +175,8 @@ class ReviewResult:
         ]
         records = [
             {
-                "severity": severity_word(f.severity.value),
-                "kind": kind_word(str(f.kind)),
+                "severity": f.severity.value,
+                "kind": str(f.kind),
                 "title": f.title,
                 "case": f.case,
                 "members": ", ".join(f.members),
@@ -209,10 +208,9 @@ class ReviewResult:
             "status",
             "written",
         ]
-        # The words every output shows (report/names.py), so the DataFrame says what --json says.
+        # Plain strings, as --json writes them (the statuses are StrEnum values).
         records = [
-            {k: v for k, v in row.as_dict().items() if k in columns}
-            | {"status": kind_word(str(row.status))}
+            {k: v for k, v in row.as_dict().items() if k in columns} | {"status": str(row.status)}
             for row in self.review.rows
             if row.kind == kind
         ]

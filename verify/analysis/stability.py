@@ -11,7 +11,7 @@ the factorisation is singular rather than an exact count.
 
 Conditioning figure: rho = sigma_min / sigma_max of A is dimensionless but falls like 1/n^2 on
 long, sound trusses (2.5e-2 at 10 panels, 3e-6 at 1000; shared/PERFORMANCE.md). We therefore judge
-the *scaled* figure rho * S^2, with S the slenderness (model extent / median member length), which
+the *scaled* figure rho * S^2, with S the extent ratio (model extent / median member length), which
 stays near 2-3 for sound parallel-chord trusses of any length. Calibration (shared/REFERENCES.md
 1.2, two bars sagging by theta: rho ~ 0.54 theta, member force = P / (2 sin theta)): the
 threshold ILL_CONDITIONED_SCALED = 1e-2 corresponds to a sag of about 0.26 degrees, where member
@@ -49,6 +49,10 @@ LU_PIVOT_SINGULAR = (
 # trusses of 10 to 5000 panels with a mechanism plus two self-stresses, 3e-15 .. 2e-10, against
 # 1.5e-2 .. 1.9e-5 for sound ones (tests/test_stability.py); 1e-8 lies in the gap.
 K_PIVOT_SINGULAR = 1e-8
+# How the counts were obtained (the JSON structure's `method`): the rank of A from its singular
+# values, exact; or a sparse LU screen, whose counts are lower bounds.
+FULL_RANK_COUNT = "full-rank-count"
+SPARSE_SCREEN = "sparse-screen"
 MODE_SHARE = 1e-3  # a joint/member takes part in a mode when its share exceeds this fraction
 
 
@@ -86,11 +90,13 @@ class StabilityResult:
     self_stress: int
     rigid_body_mechanisms: int
     classification: Classification
-    method: str  # "dense-svd" or "sparse-lu"
+    method: str  # FULL_RANK_COUNT or SPARSE_SCREEN
     exact_counts: bool  # False when the sparse screen can only bound the counts
-    sigma_ratio: float | None  # sigma_min / sigma_max of A (non-trivial), dense method only
-    scaled_ratio: float | None  # sigma_ratio * slenderness^2, or the LU pivot ratio (sparse)
-    slenderness: float
+    # sigma_min / sigma_max of A (its non-zero singular values); None where not computed.
+    conditioning_ratio: float | None
+    # conditioning_ratio * extent_ratio^2, or the LU pivot ratio (sparse screen).
+    scaled_conditioning: float | None
+    extent_ratio: float  # model extent / median member length (not KL/r: no buckling here)
     ill_conditioned: bool
     mechanism_modes: tuple[MechanismMode, ...] = ()
     self_stress_modes: tuple[SelfStressMode, ...] = ()
@@ -120,9 +126,9 @@ class StabilityResult:
             "rigid_body_mechanisms": self.rigid_body_mechanisms,
             "method": self.method,
             "exact_counts": self.exact_counts,
-            "sigma_ratio": self.sigma_ratio,
-            "scaled_conditioning": self.scaled_ratio,
-            "slenderness": self.slenderness,
+            "conditioning_ratio": self.conditioning_ratio,
+            "scaled_conditioning": self.scaled_conditioning,
+            "extent_ratio": self.extent_ratio,
             "ill_conditioned": self.ill_conditioned,
             "mechanism_modes": [
                 {
@@ -140,7 +146,8 @@ class StabilityResult:
         }
 
 
-def slenderness(model: Model) -> float:
+def extent_ratio(model: Model) -> float:
+    """Model extent over the median member length (the S of the module docstring)."""
     extent = float(np.ptp(model.xyz, axis=0).max()) if len(model.joints) > 1 else 1.0
     typical = float(np.median(model.lengths)) if len(model.members) else 1.0
     return max(extent / typical, 1.0)
@@ -190,12 +197,12 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
     rank = int((S > tol).sum())
     m = dofs - rank
     s = cols - rank
-    slender = slenderness(model)
+    extent = extent_ratio(model)
     nontrivial = S[:rank]
-    sigma_ratio = float(nontrivial.min() / smax) if rank else 0.0
+    rho = float(nontrivial.min() / smax) if rank else 0.0
     # When rank-deficient, the conditioning of the remaining part still matters, but the verdict
     # is already "unstable" or "indeterminate"; the figure reported is over the non-zero values.
-    scaled = sigma_ratio * slender**2
+    scaled = rho * extent**2
     ill = scaled < ILL_CONDITIONED_SCALED
     notes: list[str] = []
 
@@ -259,7 +266,7 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
             notes.append(f"only the first 10 of {s} self-stress states are listed")
     if ill and m == 0:
         notes.append(
-            f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
+            f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent ratio^2 = {scaled:.2e} "
             f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
         )
     return StabilityResult(
@@ -272,11 +279,11 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
         self_stress=s,
         rigid_body_mechanisms=rigid,
         classification=_classify(m, s),
-        method="dense-svd",
+        method=FULL_RANK_COUNT,
         exact_counts=True,
-        sigma_ratio=sigma_ratio,
-        scaled_ratio=scaled,
-        slenderness=slender,
+        conditioning_ratio=rho,
+        scaled_conditioning=scaled,
+        extent_ratio=extent,
         ill_conditioned=bool(ill and m == 0),
         mechanism_modes=tuple(mech_modes),
         self_stress_modes=tuple(ss_modes),
@@ -318,7 +325,7 @@ def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
 
 def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult:
     dofs, cols = A.shape
-    slender = slenderness(model)
+    extent = extent_ratio(model)
     notes: list[str] = [
         f"large model ({dofs} joint equations): sparse LU screen instead of a dense SVD"
     ]
@@ -327,9 +334,9 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         joints=len(model.joints),
         members=len(model.members),
         reactions=len(model.reactions),
-        method="sparse-lu",
-        sigma_ratio=None,
-        slenderness=slender,
+        method=SPARSE_SCREEN,
+        conditioning_ratio=None,
+        extent_ratio=extent,
     )
     if cols < dofs:
         m = dofs - cols
@@ -342,7 +349,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
             rigid_body_mechanisms=0,
             classification=Classification.UNSTABLE,
             exact_counts=False,
-            scaled_ratio=None,
+            scaled_conditioning=None,
             ill_conditioned=False,
             notes=tuple(notes),
         )
@@ -369,7 +376,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
     except RuntimeError:
         ratio, singular = 0.0, True
-    sigma_ratio = scaled = None
+    rho = scaled = None
     ill = False
     if singular:
         notes.append(
@@ -379,8 +386,8 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     else:
         m, rank = 0, dofs
         if cols == dofs:
-            sigma_ratio = _sigma_ratio_estimate(A, lu)
-            scaled = sigma_ratio * slender**2
+            rho = _conditioning_estimate(A, lu)
+            scaled = rho * extent**2
             ill = bool(scaled < ILL_CONDITIONED_SCALED)
             notes.append(
                 f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
@@ -388,7 +395,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
             )
             if ill:
                 notes.append(
-                    f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
+                    f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent ratio^2 = {scaled:.2e} "
                     f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
                 )
         else:
@@ -396,7 +403,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
                 f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for indeterminate trusses this large)"
             )
     s = cols - rank
-    base["sigma_ratio"] = sigma_ratio
+    base["conditioning_ratio"] = rho
     return StabilityResult(
         **base,
         rank=rank,
@@ -405,13 +412,13 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         rigid_body_mechanisms=0,
         classification=_classify(m, s),
         exact_counts=not singular,
-        scaled_ratio=scaled if scaled is not None else ratio,
+        scaled_conditioning=scaled if scaled is not None else ratio,
         ill_conditioned=ill,
         notes=tuple(notes),
     )
 
 
-def _sigma_ratio_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
+def _conditioning_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
     """sigma_min / sigma_max of a square, non-singular A by power iterations.
 
     sigma_max from A^T A; sigma_min from (A^T A)^-1 = A^-1 A^-T, applied with the LU factors the

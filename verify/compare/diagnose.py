@@ -101,10 +101,10 @@ class Convention:
             "sign": self.sign,
             "scale": self.scale,
             "inferred": self.inferred,
-            "unit": self.unit,
+            "claims_unit": self.unit,
             "unit_source": self.unit_source,
             "scale_reason": self.scale_reason,
-            "support": self.support,
+            "evidence": self.support,
             "column_readings": list(self.column_readings),
             "stated_sign": self.stated_sign or None,
         }
@@ -327,7 +327,7 @@ def _structure(c: Comparison) -> None:
                 f"the truss is unstable: {stab.mechanisms}{'' if stab.exact_counts else '+'} "
                 f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; Maxwell count "
                 f"b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be recomputed.",
-                Severity.BLOCKER,
+                Severity.CANNOT_VERIFY,
             )
         )
     elif stab.classification is Classification.STABLE_INDETERMINATE:
@@ -340,7 +340,7 @@ def _structure(c: Comparison) -> None:
                     f"statically indeterminate to degree {stab.self_stress} "
                     "and member stiffness (EA) is not given for every member: statics cannot tell how the force is shared "
                     "among the redundant members, so only the equilibrium of the claimed forces is checked.",
-                    Severity.BLOCKER,
+                    Severity.CANNOT_VERIFY,
                 )
             )
         else:
@@ -363,8 +363,8 @@ def _structure(c: Comparison) -> None:
             Finding(
                 "ill-conditioned",
                 (),
-                f"near-mechanism geometry: sigma_min/sigma_max = {stab.sigma_ratio:.2e}, "
-                f"scaled by slenderness^2 = {stab.scaled_ratio:.2e}; small changes of geometry change the forces a lot",
+                f"near-mechanism geometry: sigma_min/sigma_max = {stab.conditioning_ratio:.2e}, "
+                f"scaled by the extent ratio^2 = {stab.scaled_conditioning:.2e}; small changes of geometry change the forces a lot",
                 Severity.INFO,
             )
         )
@@ -1997,7 +1997,7 @@ def _verdict(
         return Verdict.CANNOT_VERIFY
     if any(f.severity is Severity.ERROR for f in findings):
         return Verdict.DISCREPANCIES
-    if any(f.severity is Severity.BLOCKER for f in findings):
+    if any(f.severity is Severity.CANNOT_VERIFY for f in findings):
         return Verdict.CANNOT_VERIFY
     return Verdict.AGREES
 
@@ -2016,7 +2016,7 @@ def _explain_indeterminate(
     """Split an indeterminate truss's differences into equilibrium errors and self-stress.
 
     Claims that balance at every joint differ from the elastic solution only by a state of
-    self-stress: other stiffness assumptions, not an error ("not-elastic"). Where the claims do
+    self-stress: other stiffness assumptions, not an error ("stiffness-dependent"). Where the claims do
     not balance, the joint residuals are explained member by member: a wrong value in member m
     leaves residual e * a_m at its two joints (a_m its column of the equilibrium matrix), so the
     member whose column best fits the residual, and the size e, are found by least squares.
@@ -2111,7 +2111,7 @@ def _explain_indeterminate(
         rest = [(r, v) for r, v, *_ in case_rows if v.member not in blamed]
         if rest:
             for r, _ in rest:
-                rows[r] = _with_status(rows[r], "not-elastic")
+                rows[r] = _with_status(rows[r], "stiffness-dependent")
             size = max(abs(rows[r].difference or 0.0) for r, _ in rest)
             members = tuple(v.member for _, v in rest if v.member)
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
@@ -2138,7 +2138,7 @@ def _explain_indeterminate(
             )
             out.append(
                 Finding(
-                    "not-elastic",
+                    "stiffness-dependent",
                     members,
                     f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
                     f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: "

@@ -71,7 +71,7 @@ def compare_displacements(
                 (),
                 f"claimed displacements cannot be checked: {reason}; "
                 "give EA (or A and E) for every member",
-                Severity.BLOCKER,
+                Severity.CANNOT_VERIFY,
             )
         )
         return DisplacementCheck(tuple(rows), tuple(findings), (), ())
