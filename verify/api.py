@@ -2,8 +2,8 @@
 
     >>> from verify.api import review, solve
     >>> r = review("cases/canal-footbridge/case.toml", "cases/canal-footbridge/claims.csv")
-    >>> r.verdict, r.findings, r.members          # str, DataFrame, DataFrame
-    >>> r                                          # renders in Jupyter: verdict, findings, table, diagram
+    >>> r.verdict, r.findings, r.members  # str, DataFrame, DataFrame
+    >>> r  # renders in Jupyter: verdict, findings, table, diagram
 
 Results are frozen; `.members`, `.forces`, `.reactions` and `.findings` build pandas DataFrames on
 demand (pandas is imported only then). Forces are in the case's units, tension positive.
@@ -102,9 +102,12 @@ class SolveResult:
         forces = ref.member_forces[:, 0] if ref is not None and name is not None else None
         head = (
             f"<h3>{escape(self.model.title or self.model.source)}</h3>"
-            f"<p><strong>{escape(s.classification.value)}</strong>: {s.joints} joints, {s.members} members, "
-            f"{s.reactions} reaction components; Maxwell b + r − {s.dim}j = {s.maxwell}; rank {s.rank}, "
-            f"mechanisms {s.mechanisms}, self-stress {s.self_stress}. Forces in {escape(self.model.units.force.symbol)}, "
+            f"<p><strong>{escape(s.classification.value)}</strong>: {s.joints} joints, {s.members} "
+            "members, "
+            f"{s.reactions} reaction components; Maxwell b + r − {s.dim}j = {s.maxwell}; rank "
+            f"{s.rank}, "
+            f"mechanisms {s.mechanisms}, self-stress {s.self_stress}. Forces in "
+            f"{escape(self.model.units.force.symbol)}, "
             "tension positive.</p>"
         )
         table = _frame_html(self.members)
@@ -142,7 +145,8 @@ class ReviewResult:
 
     @property
     def members(self) -> pd.DataFrame:
-        """The member table: one row per member and load column (claimed, each route, difference, status)."""
+        """The member table: one row per member and load column (claimed, each route,
+        difference, status)."""
         return self._rows("member")
 
     @property
@@ -151,7 +155,8 @@ class ReviewResult:
 
     @property
     def forces(self) -> pd.DataFrame:
-        """Recomputed member forces: one row per member, one column per load case and combination."""
+        """Recomputed member forces: one row per member, one column per load case and
+        combination."""
         return _forces_frame(self.review.analysis)
 
     @property
@@ -236,7 +241,8 @@ class ReviewResult:
             parts.append(
                 "<ol>"
                 + "".join(
-                    f"<li><strong>{escape(f.title)}</strong>{escape(' (' + f.case + ')' if f.case else '')}: "
+                    f"<li><strong>{escape(f.title)}</strong>"
+                    f"{escape(' (' + f.case + ')' if f.case else '')}: "
                     f"{escape(finding_sentence(f))}</li>"
                     for f in self.review.findings
                 )
@@ -249,7 +255,8 @@ class ReviewResult:
         shown = members if len(members) <= NOTEBOOK_ROWS else problems.head(NOTEBOOK_ROWS)
         if len(shown) < len(members):
             parts.append(
-                f"<p>Member table: {len(shown)} of {len(members)} rows (the problems; <code>.members</code> has all).</p>"
+                f"<p>Member table: {len(shown)} of {len(members)} rows (the problems; "
+                "<code>.members</code> has all).</p>"
             )
         parts.append(_frame_html(shown))
         parts.extend(diagrams_html(self.review))

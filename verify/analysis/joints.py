@@ -152,10 +152,11 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         moment_point = tuple(float(x) for x in point)
         steps.append(JointStep("reactions", (moment_joint,), tuple(range(b, b + r))))
     elif r:
+        determinate = 3 if d == 2 else 6
+        why = f"more than {determinate}" if r > determinate else "parallel or concurrent"
         notes.append(
             f"the {r} reaction components cannot all be found from overall equilibrium "
-            f"({'more than ' + str(3 if d == 2 else 6) if r > (3 if d == 2 else 6) else 'parallel or concurrent'}); "
-            "they are solved with the joints"
+            f"({why}); they are solved with the joints"
         )
 
     # Incidence: for every joint, the columns acting on it and their direction vectors.
@@ -319,8 +320,8 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                 )
             )
             notes.append(
-                f"no joint with at most {d} unknowns: all {len(rest)} forces at {len(model.joints)} joints are "
-                "solved simultaneously (compound or complex truss)"
+                f"no joint with at most {d} unknowns: all {len(rest)} forces at "
+                f"{len(model.joints)} joints are solved simultaneously (compound or complex truss)"
             )
             residual = A @ t + F
             return JointSolution(
@@ -354,8 +355,9 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
             )
         )
         notes.append(
-            f"no joint with at most {d} unknowns remains after {sum(1 for s in steps if s.kind == 'joint')} joint(s): "
-            f"{len(rest)} forces at {len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
+            f"no joint with at most {d} unknowns remains after "
+            f"{sum(1 for s in steps if s.kind == 'joint')} joint(s): {len(rest)} forces at "
+            f"{len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
         )
     A = run.equilibrium_matrix()
     residual = A @ t + F

@@ -116,9 +116,10 @@ def _routes(
         else:
             missing = model.members_without_stiffness()
             notes.append(
-                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} member(s) lack EA "
-                f"({', '.join(missing[:10])}{' ...' if len(missing) > 10 else ''}): the forces cannot be recomputed; "
-                "only the equilibrium of claimed forces can be checked"
+                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} "
+                "member(s) lack EA "
+                f"({', '.join(missing[:10])}{' ...' if len(missing) > 10 else ''}): the forces "
+                "cannot be recomputed; only the equilibrium of claimed forces can be checked"
             )
         return Analysis(
             model,

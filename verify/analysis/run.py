@@ -51,7 +51,7 @@ class AnalysisRun:
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
 
-    # -- what the analyses share ------------------------------------------------------------------
+    # -- what the analyses share ----------------------------------------------------------------
     def equilibrium_matrix(self) -> sp.csc_matrix:
         """The sparse equilibrium matrix A (read it or slice it; never modify it in place)."""
         if self._equilibrium is None:
@@ -85,7 +85,7 @@ class AnalysisRun:
             self._stability = solve_stability(self.model, run=self)
         return self._stability
 
-    # -- what the comparison asks for ---------------------------------------------------------------
+    # -- what the comparison asks for -----------------------------------------------------------
     def variant(self, model: Model) -> AnalysisRun:
         """A run of a changed model (the comparison's "what if the calc used this model")."""
         return AnalysisRun(model)

@@ -242,13 +242,15 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
                 notes.append(
                     "the loads of "
                     + ", ".join(ok)
-                    + " happen to be orthogonal to every mechanism, so they can be equilibrated; the truss is still unstable for other loads"
+                    + " happen to be orthogonal to every mechanism, so they can be equilibrated; "
+                    "the truss is still unstable for other loads"
                 )
         if model.dim * len(model.joints) - cols > 0 and m == dofs - cols:
             notes.append("Maxwell's count alone shows the missing members or supports")
         elif m > 0 and model.members and cols >= dofs:
             notes.append(
-                "Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or concurrent supports, collinear members, or a critical form)"
+                "Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or "
+                "concurrent supports, collinear members, or a critical form)"
             )
     ss_modes: list[SelfStressMode] = []
     if s:
@@ -266,8 +268,9 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
             notes.append(f"only the first 10 of {s} self-stress states are listed")
     if ill and m == 0:
         notes.append(
-            f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent ratio^2 = {scaled:.2e} "
-            f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
+            f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent ratio^2 = "
+            f"{scaled:.2e} (< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small "
+            "changes of geometry"
         )
     return StabilityResult(
         dim=model.dim,
@@ -380,7 +383,8 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     ill = False
     if singular:
         notes.append(
-            "the factorisation is singular: at least one mechanism (exact count needs the dense method on a smaller model)"
+            "the factorisation is singular: at least one mechanism (exact count needs the dense "
+            "method on a smaller model)"
         )
         m, rank = 1, dofs - 1
     else:
@@ -390,17 +394,19 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
             scaled = rho * extent**2
             ill = bool(scaled < ILL_CONDITIONED_SCALED)
             notes.append(
-                f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
-                f"(LU pivot ratio {ratio:.2e})"
+                f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU "
+                f"factors (LU pivot ratio {ratio:.2e})"
             )
             if ill:
                 notes.append(
-                    f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent ratio^2 = {scaled:.2e} "
-                    f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
+                    f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent "
+                    f"ratio^2 = {scaled:.2e} (< {ILL_CONDITIONED_SCALED:g}); member forces are "
+                    "sensitive to small changes of geometry"
                 )
         else:
             notes.append(
-                f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for indeterminate trusses this large)"
+                f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for "
+                "indeterminate trusses this large)"
             )
     s = cols - rank
     base["conditioning_ratio"] = rho

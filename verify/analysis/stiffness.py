@@ -85,9 +85,9 @@ class MissingStiffnessError(ValueError):
         shown = ", ".join(f"'{m}'" for m in self.members[:10])
         more = f" and {len(self.members) - 10} more" if len(self.members) > 10 else ""
         super().__init__(
-            f"{len(self.members)} member(s) have no axial stiffness EA: {shown}{more}; "
-            "the elastic forces of an indeterminate truss depend on EA. Give EA (or A and E) per "
-            "member or a default in [stiffness], or assume equal EA explicitly."
+            f"{len(self.members)} member(s) have no axial stiffness EA: {shown}{more}; the elastic "
+            "forces of an indeterminate truss depend on EA. Give EA (or A and E) per member or a "
+            "default in [stiffness], or assume equal EA explicitly."
         )
 
 
@@ -183,7 +183,8 @@ def free_direction_basis(model: Model) -> tuple[sp.csc_matrix, list[str]]:
             names = ", ".join(f"'{model.joints[j].id}'" for j in dependent[:10])
             notes.append(
                 f"the reaction directions at joint(s) {names} are linearly dependent: their split "
-                "between those components is not determined by statics or stiffness; the minimum-norm split is reported"
+                "between those components is not determined by statics or stiffness; the "
+                "minimum-norm split is reported"
             )
     joint_of, slot_of = np.nonzero(free)  # row-major: joint by joint
     ncols = len(joint_of)
@@ -270,16 +271,16 @@ def _time_boxed_mmd(
     """
     if not fork_allowed():
         return None, (
-            "no child process to time-box MMD_AT_PLUS_A in (no fork() here, "
-            f"{SERIAL_ENV} set, or other threads running)"
+            f"no child process to time-box MMD_AT_PLUS_A in (no fork() here, {SERIAL_ENV} set, or "
+            "other threads running)"
         )
     child = Forked.start(_mmd_solve, K, rhs)
     try:
         return child.result(timeout=time_box), ""
     except ForkTimeout:
         return None, (
-            f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box "
-            "(its fill can explode on some 3D grids) and was stopped"
+            f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box (its fill can "
+            "explode on some 3D grids) and was stopped"
         )
     except ForkFailed as exc:
         return None, f"MMD_AT_PLUS_A in symmetric mode failed ({exc})"
@@ -304,7 +305,8 @@ def _solve_reduced(
                 lu.solve(rhs),
                 _pivot_ratio(lu),
                 [
-                    f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), {time.perf_counter() - start:.3g} s, "
+                    "sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), "
+                    f"{time.perf_counter() - start:.3g} s, "
                     + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
                 ],
             )
@@ -325,8 +327,8 @@ def _solve_reduced(
         lu = spla.splu(K, permc_spec="COLAMD")
     except RuntimeError as exc:
         raise SingularStiffnessError(
-            f"the stiffness matrix is singular ({exc}): the truss with its supports is a mechanism; "
-            "the stability check names the joints that can move"
+            f"the stiffness matrix is singular ({exc}): the truss with its supports is a "
+            "mechanism; the stability check names the joints that can move"
         ) from None
     x = lu.solve(rhs)
     return (
@@ -367,13 +369,13 @@ def solve_stiffness(
         notes += order_notes
         if pivot_ratio < K_PIVOT_SINGULAR:
             raise SingularStiffnessError(
-                f"the stiffness matrix is singular to working precision (pivot ratio {pivot_ratio:.1e} "
-                f"< {K_PIVOT_SINGULAR:g}): the truss with its supports is a mechanism; "
-                "the stability check names the joints that can move"
+                "the stiffness matrix is singular to working precision (pivot ratio "
+                f"{pivot_ratio:.1e} < {K_PIVOT_SINGULAR:g}): the truss with its supports is a "
+                "mechanism; the stability check names the joints that can move"
             )
         notes.append(
-            f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; "
-            "the stability check decides on mechanisms)"
+            f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; the "
+            "stability check decides on mechanisms)"
         )
         x = T @ xf.reshape(nfree, -1)[:, :cols]
     else:

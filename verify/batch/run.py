@@ -114,8 +114,9 @@ def local_runner(workers: int) -> Runner:
                         futures[future].name,
                         FAULT,
                         reason=(
-                            "the worker process stopped (killed, or out of memory) while this case or one beside it "
-                            "was checked; check it alone with `truss-verify check`"
+                            "the worker process stopped (killed, or out of memory) while this "
+                            "case or one beside it was checked; check it alone with `truss-verify "
+                            "check`"
                         ),
                     )
 

@@ -88,7 +88,8 @@ def check_job(job: Job) -> CaseResult:
     return replace(result, seconds=time.perf_counter() - start)
 
 
-# The manifest's column names where they differ from CheckOptions' fields; messages use the column's.
+# The manifest's column names where they differ from CheckOptions' fields; messages use the
+# column's.
 _MANIFEST_FIELDS = {"assume_equal_ea": "assume_equal_EA"}
 
 

@@ -69,8 +69,8 @@ def compare_displacements(
             Finding(
                 "displacement-mismatch",
                 (),
-                f"claimed displacements cannot be checked: {reason}; "
-                "give EA (or A and E) for every member",
+                f"claimed displacements cannot be checked: {reason}; give EA (or A and E) for "
+                "every member",
                 Severity.CANNOT_VERIFY,
             )
         )
@@ -84,7 +84,8 @@ def compare_displacements(
         computed = float(disp[j * d + AXES.index(c.axis), k])
         scale = float(np.abs(disp[:, k]).max()) if disp.size else 0.0
         atol = tol.atol_fraction * scale
-        # Half a unit in the last decimal as written, in the unit it was written in ('0 mm' is not +-0.5 m).
+        # Half a unit in the last decimal as written, in the unit it was written in ('0 mm' is
+        # not +-0.5 m).
         ok = tol.agrees(c.value, computed, atol, rounding_allowance(c.value / c.scale, c.scale))
         status = "agrees" if ok else "displacement-mismatch"
         rows.append(
@@ -111,7 +112,10 @@ def compare_displacements(
                 # Under one point load the loaded joint moves with the load along its line whatever
                 # the member sizes (the load's work, P x delta, equals the strain energy > 0).
                 assumed = None
-                sign += ": a joint carrying the only load moves along that load, whatever the member sizes"
+                sign += (
+                    ": a joint carrying the only load moves along that load, whatever the member "
+                    "sizes"
+                )
             # Deflections scale with 1/EA: against an assumed EA a difference is no evidence.
             findings.append(
                 Finding(
@@ -120,8 +124,8 @@ def compare_displacements(
                     f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
                     f"{_length(c.value, unit)}, recomputed {_length(computed, unit)}{sign}"
                     + (
-                        f" with the equal EA assumed ({assumed:g}): not evidence of an error, since deflections "
-                        "depend on the real member sizes"
+                        f" with the equal EA assumed ({assumed:g}): not evidence of an error, "
+                        "since deflections depend on the real member sizes"
                         if assumed is not None
                         else ""
                     ),
@@ -143,7 +147,8 @@ def compare_displacements(
 
 
 def _against_its_only_load(model: Model, case: str, joint: str, axis: str, value: float) -> bool:
-    """True when `case` is one load at `joint`, along `axis` only, and `value` does not go with it."""
+    """True when `case` is one load at `joint`, along `axis` only, and `value` does not go with
+    it."""
     if case not in {c.name for c in model.cases}:
         return False
     loads = next(c for c in model.cases if c.name == case).loads

@@ -86,8 +86,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     geometry = statics and len(model.members) <= GEOMETRY_MEMBER_LIMIT
     if statics and not geometry:
         notes.append(
-            f"likely causes: support and dimension variants are tried only up to {GEOMETRY_MEMBER_LIMIT} members "
-            f"(this truss has {len(model.members)}); load and combination variants were tried"
+            "likely causes: support and dimension variants are tried only up to "
+            f"{GEOMETRY_MEMBER_LIMIT} members (this truss has {len(model.members)}); load and "
+            "combination variants were tried"
         )
     # The first cause is chosen among the best few by where the whole chain leads: two mistakes
     # at once can let a wrong first guess fit many claims within tolerance (1.6 x traffic for
@@ -109,9 +110,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
         columns = ", ".join(f"'{c}'" for c in frame.columns_of(start))
         if statics:  # on an indeterminate truss only factors were tried, and other steps follow
             notes.append(
-                f"likely causes: no single change of the model among those tried (loads, combination factors, "
-                f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
-                "their findings follow"
+                "likely causes: no single change of the model among those tried (loads, "
+                f"combination factors, supports, dimensions) explains the {int(start.sum())} "
+                f"disagreeing claim(s) in {columns}; their findings follow"
             )
         return SearchResult([], start.copy(), notes)
     _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
@@ -125,9 +126,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     total = sum(int(c.explained.sum()) for c in causes)
     if total < CLEAR_MAJORITY * int((start & touched).sum()):
         notes.append(
-            f"likely causes: no single change of the model explains most differences: the best found "
-            f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
-            "change, so none is reported"
+            "likely causes: no single change of the model explains most differences: the best "
+            f"found explain only {total} of {int((start & touched).sum())} disagreeing claims in "
+            "the columns they change, so none is reported"
         )
         return SearchResult([], start, notes)
     return SearchResult(causes, pending, notes)
@@ -136,7 +137,8 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
 def _with_alternates(frame: ClaimsFrame, start: np.ndarray, steps: list[_Found], i: int) -> Variant:
     """Step i's variant, naming the other variants that do as well in its place in the whole chain
     (1.6 x traffic fits the chords as well as 1.5 x dead, but only the latter completes the chain;
-    'self-weight left out' and '1.36 x traffic' are one and the same when both load the same joints)."""
+    'self-weight left out' and '1.36 x traffic' are one and the same when both load the same
+    joints)."""
     total = sum(step.variant.shift for step in steps)
     count = int((start & frame.agrees(frame.computed + total)).sum())
     variant = steps[i].variant
@@ -308,7 +310,8 @@ def _implied_load_variants(
                 arrived.append((b.joint, float(np.linalg.norm(implied)), implied))
             delta[j * d : (j + 1) * d] = change
         else:
-            # loads that arrive where there were none must be ones that left elsewhere, size for size
+            # loads that arrive where there were none must be ones that left elsewhere, size for
+            # size
             left = sorted(size for _, _, size in gone)
             came = sorted(size for _, size, _ in arrived)
             if len(came) > len(left) or any(
@@ -408,11 +411,14 @@ def _combination_variants(
                     words = f"'{case.name}' added to '{combo.name}' with factor {fmt(new, 3)}"
                 elif new * old < 0:
                     words = (
-                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name} "
-                        f"('{case.name}' in the opposite direction)"
+                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of "
+                        f"{fmt(old, 3)} × {case.name} ('{case.name}' in the opposite direction)"
                     )
                 else:
-                    words = f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name}"
+                    words = (
+                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of "
+                        f"{fmt(old, 3)} × {case.name}"
+                    )
                 yield Variant(
                     "combination-factor",
                     words,
@@ -456,8 +462,8 @@ def _load_variants(
     if not whole and not len(singles):
         return
     capped_note = (
-        f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints nearest "
-        "the disagreeing claims only"
+        f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints "
+        "nearest the disagreeing claims only"
     )
     if capped and capped_note not in notes:
         notes.append(capped_note)
@@ -633,8 +639,9 @@ def _added_restraint_variants(
             if not thrusts:
                 continue
             words = (
-                f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case file): a support "
-                f"reaction along {axis} of {', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
+                f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case "
+                f"file): a support reaction along {axis} of "
+                f"{', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
                 f"{model.units.force.symbol}, which sets up forces the case file's supports do not"
             )
             yield Variant("support-added", words, shift, None, (joint,), fitted=True)
@@ -680,7 +687,7 @@ def _dimension_variants(
             shift = dict(tried)[new_extent]
             letter, name = AXIS_NAMES[axis]
             words = (
-                f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} {length} "
-                f"(every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})"
+                f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} "
+                f"{length} (every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})"
             )
             yield Variant("dimension", words, shift, None, (), new_extent / extent, fitted=True)

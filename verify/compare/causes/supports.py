@@ -59,8 +59,9 @@ def explain_released_support(
         if best is None or explained.sum() > best.explained.sum():
             restrained = sorted(r.axis for r in model.reactions if r.joint == reaction.joint)
             words = (
-                f"the support at {reaction.joint} free along {reaction.axis} (the case file restrains "
-                f"{', '.join(restrained)} there): the claims are the forces of the truss without that reaction"
+                f"the support at {reaction.joint} free along {reaction.axis} (the case file "
+                f"restrains {', '.join(restrained)} there): the claims are the forces of the truss "
+                "without that reaction"
             )
             best = Release(words, reaction.joint, explained)
     return best

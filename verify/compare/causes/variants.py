@@ -188,8 +188,8 @@ def load_changes(
                     "loads-other-chord",
                     c,
                     parts,
-                    f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
-                    f"{_names(ids, group)}",
+                    f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly "
+                    f"{where}) instead of {_names(ids, group)}",
                     tuple(ids[t] for t in targets),
                 )
             )
@@ -208,8 +208,9 @@ def load_changes(
                     "loads-vertical",
                     c,
                     parts,
-                    f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
-                    "instead of in their stated directions (e.g. normal to the member they act on)",
+                    f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their "
+                    "full magnitude, instead of in their stated directions (e.g. normal to the "
+                    "member they act on)",
                     tuple(ids[j] for j in slanted),
                 )
             )
@@ -324,8 +325,14 @@ class Singles(NamedTuple):
 def case_scaled_words(case: str) -> Callable[[float], str]:
     def words(f: float) -> str:
         if abs(f + 1.0) < 1e-9:
-            return f"the '{case}' loads applied in the opposite direction (suction for pressure, uplift for down)"
-        return f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or a load factor applied to the case)"
+            return (
+                f"the '{case}' loads applied in the opposite direction (suction for pressure, "
+                "uplift for down)"
+            )
+        return (
+            f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or "
+            "a load factor applied to the case)"
+        )
 
     return words
 
@@ -337,12 +344,15 @@ def _scaled_words(case: str, joint: str, vector: np.ndarray) -> Callable[[float]
         if abs(f) < 1e-9:
             return f"the '{case}' load at {joint} ({fmt(size, 4)}) left out"
         if abs(f - 2.0) < 1e-9:
-            return f"the '{case}' load at {joint} counted twice ({fmt(2 * size, 4)} instead of {fmt(size, 4)})"
+            return (
+                f"the '{case}' load at {joint} counted twice ({fmt(2 * size, 4)} instead of "
+                f"{fmt(size, 4)})"
+            )
         if abs(f + 1.0) < 1e-9:
             return f"the '{case}' load at {joint} applied in the opposite direction"
         return (
-            f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of {fmt(size, 4)}"
-            + (" and reversed" if f < 0 else "")
+            f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of "
+            f"{fmt(size, 4)}" + (" and reversed" if f < 0 else "")
         )
 
     return words
@@ -416,8 +426,8 @@ def support_swaps(model: Model) -> Iterator[tuple[str, Model, tuple[str, ...]]]:
             swapped += [Reaction(b, r.direction, r.axis) for r in by_joint[a]]
             swapped += [Reaction(a, r.direction, r.axis) for r in by_joint[b]]
             words = (
-                f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as {b} is "
-                f"({', '.join(rb)}) — e.g. the pin at the other end"
+                f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as "
+                f"{b} is ({', '.join(rb)}) — e.g. the pin at the other end"
             )
             yield words, dataclasses.replace(model, reactions=tuple(swapped)), (a, b)
 
