@@ -1,4 +1,5 @@
-"""Our own colour code and plain names: agreement drawn plain, marks that clash with no trade symbol,
+"""Our own colour code and plain names: agreement drawn plain, marks that clash with no trade
+symbol,
 JSON keys and options in the trade's words, old option names still accepted."""
 
 from __future__ import annotations

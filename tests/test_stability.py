@@ -66,7 +66,8 @@ def k33(moved: bool = False):
     return truss_case(joints, K33_MEMBERS, {"5": ["x", "y"], "6": ["y"]}, {"P": {"2": [0, -1]}})
 
 
-# REFERENCES.md 1.4, row by row: (b, r, j, b+r-dj, r_A, m, s, rigid-body m, internal m, sigma ratio or None).
+# REFERENCES.md 1.4, row by row: (b, r, j, b+r-dj, r_A, m, s, rigid-body m, internal m, sigma ratio
+# or None).
 ROWS = {
     "triangle, pin + roller": (tri(PIN_ROLLER), (3, 3, 3, 0, 6, 0, 0, 0, 0), 0.228),
     "square, no diagonal": (square(), (4, 3, 4, -1, 7, 1, 0, 0, 1), 0.382),
@@ -236,7 +237,8 @@ def test_square_with_both_diagonals_self_stress():
 
 
 def test_k33_on_a_conic_is_critical_but_count_passes():
-    """Bolker & Roth 1980: Maxwell's count is met (0) yet there is one mechanism and one self-stress."""
+    """Bolker & Roth 1980: Maxwell's count is met (0) yet there is one mechanism and one
+    self-stress."""
     result = solve_stability(make_model(k33()))
     assert result.maxwell == 0
     assert (result.mechanisms, result.self_stress) == (1, 1)
@@ -244,7 +246,8 @@ def test_k33_on_a_conic_is_critical_but_count_passes():
 
 
 def test_unstable_load_orthogonal_to_mechanism_is_noted():
-    """A load with no work on the mechanism can be equilibrated (P&C 1986), but the verdict stays unstable."""
+    """A load with no work on the mechanism can be equilibrated (P&C 1986), but the verdict stays
+    unstable."""
     case = square()
     case["loads"] = {"P": {"C": [0.0, -1.0]}}  # vertical load on a horizontal sway
     result = solve_stability(make_model(case))
@@ -282,7 +285,8 @@ def test_sagging_two_bar_force(theta):
 
 
 def test_sag_1e_3_is_flagged_as_near_mechanism():
-    """theta = 1e-3 rad gives forces of 500 x the load: ill-conditioned (module docstring: threshold ~0.26 deg)."""
+    """theta = 1e-3 rad gives forces of 500 x the load: ill-conditioned (module docstring: threshold
+    ~0.26 deg)."""
     result = solve_stability(make_model(sagging_two_bar(1e-3)))
     assert result.ill_conditioned
     assert result.scaled_conditioning < ILL_CONDITIONED_SCALED
@@ -303,7 +307,8 @@ def test_threshold_sits_near_a_quarter_degree():
 
 
 def test_sound_100_panel_pratt_is_not_flagged():
-    """PERFORMANCE.md: a healthy 100-panel Pratt has sigma ratio ~3e-4, below REFERENCES.md 1.2's fixed
+    """PERFORMANCE.md: a healthy 100-panel Pratt has sigma ratio ~3e-4, below REFERENCES.md 1.2's
+    fixed
     1e-3 warning level; the extent-ratio-scaled judgement must not call it a near-mechanism."""
     result = solve_stability(make_model(pratt(100)))
     assert result.classification is Classification.STABLE_DETERMINATE
@@ -346,7 +351,8 @@ def test_sparse_path_agrees_with_dense(panels, builder, expected):
 
 
 def test_dense_counts_of_the_defective_pratt():
-    """Maxwell's count is met, yet m = s = 1: the count cannot see where the bars are (REFERENCES.md 1.1)."""
+    """Maxwell's count is met, yet m = s = 1: the count cannot see where the bars are (REFERENCES.md
+    1.1)."""
     result = solve_stability(make_model(pratt_defect(10)))
     assert (result.maxwell, result.mechanisms, result.self_stress) == (0, 1, 1)
     (mode,) = result.self_stress_modes

@@ -190,7 +190,8 @@ def simple_truss(
 def random_simple_truss(
     rng: random.Random, joints: int, *, span: int = 12, max_load: int = 20
 ) -> Case:
-    """A random stable simple truss with integer coordinates and integer loads (retries until valid)."""
+    """A random stable simple truss with integer coordinates and integer loads (retries until
+    valid)."""
     while True:
         points: list[tuple[int, int]] = []
         while len(points) < joints:
