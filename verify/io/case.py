@@ -758,8 +758,9 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
                 )
                 for a in axes
             ]
-            if all(c is not None for c in coords):
-                joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
+            given = [c for c in coords if c is not None]
+            if len(given) == len(coords):
+                joints.append(Joint(jid, tuple(float(c) for c in given)))
         if not joints and len(ctx.problems.problems) > said:
             ctx.joints_unreadable = (
                 True  # nothing usable, and the table's own problems say why: spare the echoes

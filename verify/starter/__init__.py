@@ -94,7 +94,8 @@ def build_starter(
             "support"
         )
     else:
-        w = float(line_load)  # type: ignore[arg-type]
+        assert line_load is not None  # P is None only when a line load was given
+        w = float(line_load)
         tributary: dict[str, Fraction] = {}
         for a, b in zip(chord, chord[1:], strict=False):
             plan = abs(Fraction(shape.joints[b][0]) - Fraction(shape.joints[a][0]))
