@@ -155,10 +155,10 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
 
     clock = time.perf_counter
     t = clock()
-    from verify.analysis.equilibrium import assemble_equilibrium
     from verify.analysis.global_solve import solve_global
     from verify.analysis.joints import solve_joints
     from verify.analysis.pipeline import Analysis, route_disagreement
+    from verify.analysis.run import AnalysisRun
     from verify.analysis.stability import solve_stability
     from verify.compare.diagnose import compare_claims
     from verify.io.case import read_case
@@ -178,10 +178,11 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     model = read_case(case)
     emit("read_case", clock() - t)
     t = clock()
-    assemble_equilibrium(model)
+    run = AnalysisRun(model)  # shared by the stages, as analyse() shares it between routes
+    run.equilibrium_matrix()
     emit("assemble_equilibrium", clock() - t)
     t = clock()
-    stability = solve_stability(model)
+    stability = solve_stability(model, run=run)
     emit(
         "solve_stability",
         clock() - t,
@@ -191,11 +192,11 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     joints = global_ = sections = None
     if "solve_joints" not in skip:
         t = clock()
-        joints = solve_joints(model)
+        joints = solve_joints(model, run)
         emit("solve_joints", clock() - t, stalled=joints.stalled)
     if "solve_global" not in skip:
         t = clock()
-        global_ = solve_global(model)
+        global_ = solve_global(model, run)
         emit("solve_global", clock() - t)
     if sections_available() and "solve_sections" not in skip:
         from verify.analysis.sections import solve_sections
@@ -219,6 +220,7 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
         global_=global_ or reference,
         sections=sections,
         route_disagreement=disagreement,
+        shared=run,
     )
     text.render_stability(model, stability)
     if reference is not None:

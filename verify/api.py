@@ -307,9 +307,10 @@ def review(
     compression-positive or auto; `unit` None (or "auto") reads it from the table or infers it;
     `rtol` and `atol_fraction` are `--relative-tolerance` and `--absolute-tolerance`; `case` is
     `--case`; `displacements` a file of claimed joint displacements. `case_path` may name a case
-    folder. Options out of range raise verify.errors.OptionError; a file that cannot be read, or a
-    claims table none of whose labels match the case, raises verify.errors.InputError. Both are
-    ValueErrors, and the command line refuses the same inputs with exit status 2.
+    folder. Every bad input raises verify.errors.InputError, the one type to catch: a file that
+    cannot be read, a claims table none of whose labels match the case, and an option out of range
+    (verify.errors.OptionError, a kind of InputError). The command line refuses the same inputs
+    with exit status 2.
     """
     options = CheckOptions(
         sign=sign,
