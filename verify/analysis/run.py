@@ -25,9 +25,11 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
+from verify.analysis.equilibrium import assemble_equilibrium
 from verify.model import Model
 
-if TYPE_CHECKING:  # imported lazily at run time: the comparison needs them only now and then
+# The solvers below import this module (they take a run), so the run imports them when asked.
+if TYPE_CHECKING:
     from verify.analysis.stability import StabilityResult
     from verify.analysis.stiffness import ElasticSolution
     from verify.analysis.virtual_work import VirtualWorkCalc
@@ -55,8 +57,6 @@ class AnalysisRun:
     def equilibrium_matrix(self) -> sp.csc_matrix:
         """The sparse equilibrium matrix A (read it or slice it; never modify it in place)."""
         if self._equilibrium is None:
-            from verify.analysis.equilibrium import assemble_equilibrium
-
             self._equilibrium = assemble_equilibrium(self.model)
         return self._equilibrium
 

@@ -284,6 +284,8 @@ def _time_boxed_mmd(
         )
     except ForkFailed as exc:
         return None, f"MMD_AT_PLUS_A in symmetric mode failed ({exc})"
+    finally:
+        child.cancel()  # nothing once it has answered; an interruption leaves no child behind
 
 
 def _solve_reduced(

@@ -9,6 +9,7 @@ Analysis*, "Method of virtual work: trusses"; shared/REFERENCES.md 3.7), and pri
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -19,6 +20,9 @@ from verify.compare.tolerances import Tolerance, rounding_allowance
 from verify.io.displacements import DisplacementClaims
 from verify.model import Model
 
+if TYPE_CHECKING:  # a result type, made by the analysis run (analysis.run.unit_load_deflection)
+    from verify.analysis.virtual_work import VirtualWorkCalc
+
 AXES = ("x", "y", "z")
 MAX_HAND_CALCS = 5  # virtual-work tables printed per review; every claim is still compared
 
@@ -27,7 +31,7 @@ MAX_HAND_CALCS = 5  # virtual-work tables printed per review; every claim is sti
 class DisplacementCheck:
     rows: tuple[Row, ...]
     findings: tuple[Finding, ...]
-    calcs: tuple[object, ...]  # verify.analysis.virtual_work.VirtualWorkCalc
+    calcs: tuple[VirtualWorkCalc, ...]
     calc_cases: tuple[str, ...]
 
 
@@ -40,7 +44,7 @@ def compare_displacements(
     elastic = analysis.elastic
     rows: list[Row] = []
     findings: list[Finding] = []
-    calcs: list[object] = []
+    calcs: list[VirtualWorkCalc] = []
     calc_cases: list[str] = []
     if elastic is None:
         missing = model.members_without_stiffness()
