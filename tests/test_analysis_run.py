@@ -76,3 +76,29 @@ def test_a_variant_run_is_a_fresh_run_of_the_changed_model():
     assert variant is not run and variant.model is not model
     assert variant.member_forces([0]) is None  # A is not square: no statics answer
     assert variant.elastic_forces([0], assume_equal_EA=1.0) is not None
+
+
+def test_code_handed_only_the_model_finds_the_run_of_its_analysis():
+    """The section calc sheets get the model alone: solve_reactions(model) is the analysis run's
+    answer (the same object), not a fresh solve per cut."""
+    from verify.analysis.joints import solve_reactions
+
+    model = make_model(pratt(6, load=10.0))
+    analysis = pipeline.analyse(model)
+    assert AnalysisRun.of(model) is analysis.run
+    assert solve_reactions(model) is analysis.run.overall_reactions()
+    other = make_model(pratt(6, load=10.0))  # equal, but another model: not analysed
+    assert AnalysisRun.of(other) is not analysis.run
+    assert AnalysisRun.of(other) is not AnalysisRun.of(other)  # nothing kept for it
+
+
+def test_the_register_of_runs_keeps_no_model_alive():
+    import gc
+    import weakref
+
+    model = make_model(pratt(6, load=10.0))
+    analysis = pipeline.analyse(model)
+    gone = weakref.ref(model)
+    del analysis, model
+    gc.collect()
+    assert gone() is None

@@ -103,9 +103,10 @@ def solve_reactions(
     """Reactions from overall equilibrium when the supports are externally determinate:
     (reactions x load columns, the moment point, its joint), or None.
 
-    Kept by the analysis run when one is given (the joint and section routes both start here).
+    Kept by the analysis run: the one given, else the run of this model's analysis if there is
+    one (the joint and section routes and every section calc sheet start here).
     """
-    return run.overall_reactions() if run is not None else overall_reactions(model)
+    return (run if run is not None else AnalysisRun.of(model)).overall_reactions()
 
 
 def overall_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:

@@ -73,10 +73,12 @@ def analyse(
     # starts in a second process before the stability screen and is dropped if the truss turns
     # out not to be stable and determinate.
     run = AnalysisRun(model)
+    run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
     child = None
     if sections and len(model.members) >= PARALLEL_MIN_MEMBERS:
         from verify.analysis.sections import solve_sections
 
+        run.overall_reactions()  # both routes start from these: solved once, before the fork
         child = Forked.start(solve_sections, model)
     try:
         return _routes(

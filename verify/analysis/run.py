@@ -14,10 +14,15 @@ of calling solvers itself:
 - ``unit_load_deflection(...)``: the unit-load hand calc of one joint displacement.
 
 A run is used by one thread at a time: it fills its cache as it is asked.
+
+Code that is handed only the model (the section calc sheets of the reports, per cut) reaches the
+run of that model's analysis through `AnalysisRun.of(model)` while the `Analysis` is alive; the
+model itself keeps nothing.
 """
 
 from __future__ import annotations
 
+import weakref
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
@@ -52,6 +57,17 @@ class AnalysisRun:
         self._lu: spla.SuperLU | None = None
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
+
+    @classmethod
+    def of(cls, model: Model) -> AnalysisRun:
+        """The run `analyse()` made for this very model while its Analysis is alive, else a new
+        run (which shares nothing)."""
+        run = _ANALYSED.get(id(model))
+        return run if run is not None and run.model is model else cls(model)
+
+    def register(self) -> None:
+        """Make this run the one `of(model)` finds (analyse() does, for the reports)."""
+        _ANALYSED[id(self.model)] = self
 
     # -- what the analyses share ----------------------------------------------------------------
     def equilibrium_matrix(self) -> sp.csc_matrix:
@@ -147,3 +163,9 @@ class AnalysisRun:
         return unit_load_deflection(
             self.model, forces_real, joint, direction, assume_equal_EA=assume_equal_EA
         )
+
+
+# The run of each analysed model, by the model's identity. Weak: an entry lasts as long as the
+# run does (its Analysis holds it), and the run holds the model, so an id is never reused while
+# its entry exists.
+_ANALYSED: weakref.WeakValueDictionary[int, AnalysisRun] = weakref.WeakValueDictionary()
