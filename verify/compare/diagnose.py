@@ -364,7 +364,8 @@ def _structure(c: Comparison) -> None:
                 "ill-conditioned",
                 (),
                 f"near-mechanism geometry: sigma_min/sigma_max = {stab.conditioning_ratio:.2e}, "
-                f"scaled by the extent ratio^2 = {stab.scaled_conditioning:.2e}; small changes of geometry change the forces a lot",
+                f"scaled by the extent ratio^2 = {stab.scaled_conditioning:.2e}; "
+                "small changes of geometry change the forces a lot",
                 Severity.INFO,
             )
         )
@@ -2016,7 +2017,7 @@ def _explain_indeterminate(
     """Split an indeterminate truss's differences into equilibrium errors and self-stress.
 
     Claims that balance at every joint differ from the elastic solution only by a state of
-    self-stress: other stiffness assumptions, not an error ("stiffness-dependent"). Where the claims do
+    self-stress: other stiffness assumptions, not an error ("stiffness-dependent"). Where they do
     not balance, the joint residuals are explained member by member: a wrong value in member m
     leaves residual e * a_m at its two joints (a_m its column of the equilibrium matrix), so the
     member whose column best fits the residual, and the size e, are found by least squares.
