@@ -82,7 +82,8 @@ def run(work: Path, cases: int, jobs: int) -> None:
     folder = work / "job"
     expected = write_job_folder(folder, cases)
     print(
-        f"{cases} cases ({sum(v == 'discrepancies' for v in expected.values())} with a planted error), "
+        f"{cases} cases ({sum(v == 'discrepancies' for v in expected.values())} with a planted "
+        "error), "
         f"{jobs} jobs, {len(os.sched_getaffinity(0))} cores; load average {os.getloadavg()[0]:.2f}"
     )
 
@@ -132,18 +133,20 @@ def run(work: Path, cases: int, jobs: int) -> None:
         print(f"{label:36s} {w:8.2f}  {c:8.2f}")
     print(f"{'batch rerun, nothing changed':36s} {rerun:8.2f}")
     print(
-        f"batch vs one after another:   wall {one_by_one / batch_j:6.2f}x   CPU {one_by_one_cpu / batch_j_cpu:6.2f}x  (target >= {BATCH_TARGET})"
+        f"batch vs one after another:   wall {one_by_one / batch_j:6.2f}x   CPU "
+        f"{one_by_one_cpu / batch_j_cpu:6.2f}x  (target >= {BATCH_TARGET})"
     )
     print(
-        f"parallel speed-up (jobs 1 vs {jobs}): wall {batch_1 / batch_j:6.2f}x   (cores used: {batch_j_cpu / batch_j:.2f})"
+        f"parallel speed-up (jobs 1 vs {jobs}): wall {batch_1 / batch_j:6.2f}x   (cores used: "
+        f"{batch_j_cpu / batch_j:.2f})"
     )
     over_batch, over_fresh = (
         (batch_1_cpu - library_cpu) / cases,
         (one_by_one_cpu - library_cpu) / cases,
     )
     print(
-        f"per-case overhead (CPU): in a batch {over_batch * 1000:.1f} ms, fresh process {over_fresh * 1000:.1f} ms, "
-        f"ratio {over_batch / over_fresh:.3f} (target: well below 1)"
+        f"per-case overhead (CPU): in a batch {over_batch * 1000:.1f} ms, fresh process "
+        f"{over_fresh * 1000:.1f} ms, ratio {over_batch / over_fresh:.3f} (target: well below 1)"
     )
     print(f"load average at end {os.getloadavg()[0]:.2f}")
 

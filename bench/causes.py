@@ -82,7 +82,10 @@ def in_process(case: Path, claims: Path, repeats: int) -> tuple[float, float, st
             start = time.perf_counter()
             review = diagnose.compare_claims(analysis, table)
             runs.append(time.perf_counter() - start)
-            verdict = f"{review.verdict.value}, {sum(1 for f in review.findings if f.kind == 'likely-cause')} cause(s)"
+            verdict = (
+                f"{review.verdict.value}, "
+                f"{sum(1 for f in review.findings if f.kind == 'likely-cause')} cause(s)"
+            )
         return statistics.median(runs), verdict
 
     with_search, verdict = timed()
@@ -126,7 +129,8 @@ def main(argv: list[str] | None = None) -> int:
                 with_search, without, verdict = in_process(case, claims, repeats)
                 added = max(with_search - without, 0.0)
                 print(
-                    f"{truss.name:<24} {truss.members:>8} {wrong:>6} {floor_s:>6.2f}s {check_s:>6.2f}s "
+                    f"{truss.name:<24} {truss.members:>8} {wrong:>6} {floor_s:>6.2f}s "
+                    f"{check_s:>6.2f}s "
                     f"{check_s / floor_s:>5.2f}x {added:>6.2f}s {added / check_s:>6.1%}  {verdict}"
                 )
     return 0

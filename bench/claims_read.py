@@ -44,7 +44,8 @@ def main() -> None:
             table = read_claims(path, model)
             times.append(time.perf_counter() - start)
     print(
-        f"{rows} rows, {len(table.values)} claims: median {statistics.median(times):.3f} s (min {min(times):.3f} s)"
+        f"{rows} rows, {len(table.values)} claims: median {statistics.median(times):.3f} s (min "
+        f"{min(times):.3f} s)"
     )
 
 

@@ -134,11 +134,17 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     A, F, names, member_ids, dim = assemble(read_tables(args.case))
     t = solve(A, F, dim)
-    line = f"{args.case}: {len(member_ids)} members, max |force| {np.abs(t[: len(member_ids)]).max():.6g}"
+    line = (
+        f"{args.case}: {len(member_ids)} members, max |force| "
+        f"{np.abs(t[: len(member_ids)]).max():.6g}"
+    )
     if args.claims is not None:
         line += f", {compare(args.claims, t, names, member_ids)} claim(s) disagree"
     if args.write_claims is not None:
-        line += f", claims written to {args.write_claims} with member {write_claims(args.write_claims, t, names, member_ids)} wrong"
+        line += (
+            f", claims written to {args.write_claims} with member "
+            f"{write_claims(args.write_claims, t, names, member_ids)} wrong"
+        )
     print(line)
     return 0
 

@@ -1,4 +1,5 @@
-"""Benchmark trusses: scalable, statically determinate families written as case files with CSV tables.
+"""Benchmark trusses: scalable, statically determinate families written as case files with CSV
+tables.
 
 Families (shared/PERFORMANCE.md, "Test structures"):
 
@@ -182,9 +183,9 @@ def write_case(truss: Truss, directory: str | Path) -> Path:
     path = out / "case.toml"
     # The table names come before [units]: bare keys after a [table] header would belong to it.
     path.write_text(
-        f'title = "Benchmark {truss.family}, {truss.members} members (parameter {truss.parameter})"\n'
-        'joints = "joints.csv"\nmembers = "members.csv"\nsupports = "supports.csv"\nloads = "loads.csv"\n\n'
-        '[units]\nlength = "m"\nforce = "kN"\n',
+        f'title = "Benchmark {truss.family}, {truss.members} members (parameter '
+        f'{truss.parameter})"\njoints = "joints.csv"\nmembers = "members.csv"\nsupports = '
+        '"supports.csv"\nloads = "loads.csv"\n\n[units]\nlength = "m"\nforce = "kN"\n',
         encoding="utf-8",
     )
     return path
@@ -201,7 +202,8 @@ def main(argv: list[str] | None = None) -> int:
     truss = build(args.family, args.members)
     path = write_case(truss, args.out)
     print(
-        f"{path}: {truss.family}, parameter {truss.parameter}, {truss.members} members, {len(truss.joint_ids)} joints"
+        f"{path}: {truss.family}, parameter {truss.parameter}, {truss.members} members, "
+        f"{len(truss.joint_ids)} joints"
     )
     return 0
 

@@ -74,7 +74,8 @@ class Timing:
 def run_once(
     cmd: list[str], timeout: float, ok_codes: tuple[int, ...]
 ) -> tuple[float, float, float, str | None]:
-    """Wall time, CPU time and peak RSS (MB) of one process, stdout to /dev/null; error text if it failed."""
+    """Wall time, CPU time and peak RSS (MB) of one process, stdout to /dev/null; error text if it
+    failed."""
     with tempfile.TemporaryFile() as err:
         start = time.perf_counter()
         proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=err, cwd=ROOT)
@@ -155,10 +156,10 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
 
     clock = time.perf_counter
     t = clock()
-    from verify.analysis.equilibrium import assemble_equilibrium
     from verify.analysis.global_solve import solve_global
     from verify.analysis.joints import solve_joints
     from verify.analysis.pipeline import Analysis, route_disagreement
+    from verify.analysis.run import AnalysisRun
     from verify.analysis.stability import solve_stability
     from verify.compare.diagnose import compare_claims
     from verify.io.case import read_case
@@ -178,10 +179,11 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     model = read_case(case)
     emit("read_case", clock() - t)
     t = clock()
-    assemble_equilibrium(model)
+    run = AnalysisRun(model)  # shared by the stages, as analyse() shares it between routes
+    run.equilibrium_matrix()
     emit("assemble_equilibrium", clock() - t)
     t = clock()
-    stability = solve_stability(model)
+    stability = solve_stability(model, run=run)
     emit(
         "solve_stability",
         clock() - t,
@@ -191,11 +193,11 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     joints = global_ = sections = None
     if "solve_joints" not in skip:
         t = clock()
-        joints = solve_joints(model)
+        joints = solve_joints(model, run)
         emit("solve_joints", clock() - t, stalled=joints.stalled)
     if "solve_global" not in skip:
         t = clock()
-        global_ = solve_global(model)
+        global_ = solve_global(model, run)
         emit("solve_global", clock() - t)
     if sections_available() and "solve_sections" not in skip:
         from verify.analysis.sections import solve_sections
@@ -219,6 +221,7 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
         global_=global_ or reference,
         sections=sections,
         route_disagreement=disagreement,
+        shared=run,
     )
     text.render_stability(model, stability)
     if reference is not None:
@@ -366,14 +369,16 @@ def main(argv: list[str] | None = None) -> int:
         "--sections-timeout",
         type=float,
         default=60.0,
-        help="kill `solve --show sections` after this many seconds; larger sizes of that family are then skipped",
+        help="kill `solve --show sections` after this many seconds; larger sizes of that family "
+        "are then skipped",
     )
     parser.add_argument("--no-stages", action="store_true", help="skip the per-stage timings")
     parser.add_argument(
         "--blas-threads",
         type=int,
         default=None,
-        help="set OPENBLAS_NUM_THREADS/OMP_NUM_THREADS for every timed process (default: as the user has it)",
+        help="set OPENBLAS_NUM_THREADS/OMP_NUM_THREADS for every timed process (default: as the "
+        "user has it)",
     )
     parser.add_argument(
         "--out",
@@ -392,7 +397,8 @@ def main(argv: list[str] | None = None) -> int:
         )
 
     if args.blas_threads is not None:
-        # Inherited by every child; a threaded BLAS on a busy 2-core machine can be several times slower.
+        # Inherited by every child; a threaded BLAS on a busy 2-core machine can be several times
+        # slower.
         for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
             os.environ[var] = str(args.blas_threads)
     limit = min(args.max_members, 1e4) if args.quick else args.max_members
@@ -411,8 +417,11 @@ def main(argv: list[str] | None = None) -> int:
         "sections_route": with_sections,
     }
     print(
-        f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs, load average "
-        f"{os.getloadavg()[0]:.2f}; BLAS threads {os.environ.get('OPENBLAS_NUM_THREADS', 'default')}; section route {'present' if with_sections else 'absent'}",
+        f"truss-verify benchmark, {time.strftime('%Y-%m-%d %H:%M')}, {os.cpu_count()} CPUs, load "
+        "average "
+        f"{os.getloadavg()[0]:.2f}; BLAS threads "
+        f"{os.environ.get('OPENBLAS_NUM_THREADS', 'default')}; section route "
+        f"{'present' if with_sections else 'absent'}",
         flush=True,
     )
 
@@ -484,10 +493,12 @@ def main(argv: list[str] | None = None) -> int:
             repeats = args.repeats_large if truss.members >= LARGE else args.repeats
             kw = dict(repeats=repeats, timeout=args.timeout, slow=args.slow)
             print(
-                f"\n{truss.name}: {len(truss.joint_ids)} joints, {truss.members} members, {repeats} run(s) each ...",
+                f"\n{truss.name}: {len(truss.joint_ids)} joints, {truss.members} members, "
+                f"{repeats} run(s) each ...",
                 flush=True,
             )
-            # Untimed first run: confirms the truss is stable and determinate, and warms the page cache.
+            # Untimed first run: confirms the truss is stable and determinate, and warms the page
+            # cache.
             check_run = subprocess.run(
                 [TOOL, "stability", str(case), "--json"],
                 capture_output=True,
@@ -503,7 +514,8 @@ def main(argv: list[str] | None = None) -> int:
                 classification = f"unknown (`stability --json` exit {check_run.returncode}: {last})"
             if classification != "stable-determinate":
                 print(
-                    f"  WARNING: truss-verify stability says {classification}; expected stable-determinate"
+                    f"  WARNING: truss-verify stability says {classification}; expected "
+                    "stable-determinate"
                 )
             t: dict[str, Timing] = {}
             t["floor"] = timed([PYTHON, str(HERE / "floor.py"), str(case)], **kw)
@@ -528,7 +540,9 @@ def main(argv: list[str] | None = None) -> int:
                     sections_gave_up.add(family)
             for name, timing in t.items():
                 print(
-                    f"  {name:13s} {fmt_s(timing, full=True)} s   cpu {timing.cpu or 0:.3f} s   peak {timing.peak_mb or 0:.0f} MB   runs {[round(x, 3) for x in timing.runs]}",
+                    f"  {name:13s} {fmt_s(timing, full=True)} s   cpu {timing.cpu or 0:.3f} s   "
+                    f"peak {timing.peak_mb or 0:.0f} MB   runs "
+                    f"{[round(x, 3) for x in timing.runs]}",
                     flush=True,
                 )
             stages: dict[str, float] = {}
@@ -594,7 +608,8 @@ def main(argv: list[str] | None = None) -> int:
     if with_sections:
         headers.append("solve --show sections s (ratio)")
     print(
-        "\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members up"
+        "\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members "
+        "up"
     )
     print(table(headers, rows))
     print(
@@ -638,8 +653,8 @@ def main(argv: list[str] | None = None) -> int:
         print(table(["family", "members", *names], stage_rows))
 
         print(
-            f"\nGrowth exponent k (time ~ members^k) between neighbouring sizes; n log n is k ~ 1.1. "
-            f"Flag '!': k > {FAST_K} and > floor k + 0.15 and time > {MIN_FLAG_SECONDS} s"
+            "\nGrowth exponent k (time ~ members^k) between neighbouring sizes; n log n is k ~ "
+            f"1.1. Flag '!': k > {FAST_K} and > floor k + 0.15 and time > {MIN_FLAG_SECONDS} s"
         )
         growth_rows = []
         flags: list[str] = []
@@ -674,8 +689,8 @@ def main(argv: list[str] | None = None) -> int:
                 )
                 if flag:
                     flags.append(
-                        f"{a['family']} {s}: k {'>' if bound else '='} {k:.2f} from {na} to {nb} members "
-                        f"({t1:.3f} -> {'>' if bound else ''}{t2:.3f} s)"
+                        f"{a['family']} {s}: k {'>' if bound else '='} {k:.2f} from {na} to {nb} "
+                        f"members ({t1:.3f} -> {'>' if bound else ''}{t2:.3f} s)"
                     )
             for c in ("stability", "solve", "check"):
                 k = growth(na, ta[c]["seconds"], nb, tb[c]["seconds"])
@@ -698,7 +713,8 @@ def main(argv: list[str] | None = None) -> int:
             print("\nStages growing faster than n log n:\n  " + "\n  ".join(flags))
 
     print(
-        f"\nLoad average at the end: {os.getloadavg()[0]:.2f} (more than the CPU count means other work disturbed the wall times)"
+        f"\nLoad average at the end: {os.getloadavg()[0]:.2f} (more than the CPU count means other "
+        "work disturbed the wall times)"
     )
     results["cases"] = records
     path = args.out / f"results-{time.strftime('%Y%m%d-%H%M%S')}.json"

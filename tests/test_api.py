@@ -39,7 +39,8 @@ def test_solve_forces_follow_the_beam_analogy() -> None:
 
 
 def test_review_exposes_verdict_findings_and_member_table() -> None:
-    """review() gives the verdict, one findings row per finding and one member row per claim or missing claim."""
+    """review() gives the verdict, one findings row per finding and one member row per claim or
+    missing claim."""
     result = review(CANAL, CANAL_CLAIMS)
     assert result.verdict == "discrepancies" and result.exit_code == 1
     kinds = set(result.findings["kind"])
@@ -67,7 +68,8 @@ def test_review_renders_in_a_notebook() -> None:
 
 
 def test_solve_renders_in_a_notebook_and_truncates_big_tables(tmp_path: Path) -> None:
-    """A big truss shows only the first rows of its table in the notebook; the DataFrame keeps all."""
+    """A big truss shows only the first rows of its table in the notebook; the DataFrame keeps
+    all."""
     path = write_case(tmp_path, pratt(60))
     result = solve(path)
     html = result._repr_html_()

@@ -229,7 +229,8 @@ def test_the_library_prints_nothing(job_folder, tmp_path, capfd):
 def test_manifest_rows_run_with_their_options_and_bad_rows_are_reported(tmp_path):
     expected = write_job_folder(tmp_path / "cases", 3, wrong_every=99)
     first, second = sorted(expected)[:2]
-    # A consultant's table in compression-positive kips: agrees only when the row's options are used.
+    # A consultant's table in compression-positive kips: agrees only when the row's options are
+    # used.
     lines = (tmp_path / "cases" / first / "claims.csv").read_text(encoding="utf-8").splitlines()
     flipped = ["member,dead"] + [
         f"{m},{-float(v) / 4.4482216152605:.6g}" for m, v in (line.split(",") for line in lines[1:])
@@ -367,8 +368,8 @@ def test_bundled_cases_run_as_a_folder(tmp_path):
 CLUSTER_SCRIPT = """
 import sys
 from distributed import LocalCluster
-with LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp://", host="127.0.0.1",
-                  dashboard_address=None) as cluster:
+with LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp://",
+                  host="127.0.0.1", dashboard_address=None) as cluster:
     print(cluster.scheduler_address, flush=True)
     sys.stdin.read()  # until the test closes the pipe
 """
@@ -428,7 +429,8 @@ def test_scheduler_without_the_extra_says_how_to_install_it(job_folder, tmp_path
     assert code == 2
     assert (
         err.strip()
-        == "--scheduler needs Dask's distributed scheduler, an optional extra: pip install 'truss-verify[cluster]'"
+        == "--scheduler needs Dask's distributed scheduler, an optional extra: pip install "
+        "'truss-verify[cluster]'"
     )
     assert not (folder / "truss-verify-batch" / "summary.csv").exists()
 

@@ -218,7 +218,8 @@ def test_stiffness_default_as_ea(write_files):
 def test_combinations_superpose_load_cases(write_files):
     text = (
         TRIANGLE
-        + '\n[loads.snow]\nC = [1.0, -4.0]\nB = [0.5, 0.0]\n\n[combinations]\n"ULS-1" = { dead = 1.35, snow = 1.5 }\n"W" = { snow = -1.0 }\n'
+        + '\n[loads.snow]\nC = [1.0, -4.0]\nB = [0.5, 0.0]\n\n[combinations]\n"ULS-1" = { dead = '
+        '1.35, snow = 1.5 }\n"W" = { snow = -1.0 }\n'
     )
     model = read_case(write_files({"case.toml": text}))
     assert model.load_names == ["dead", "snow", "ULS-1", "W"]
@@ -431,7 +432,8 @@ def test_3d_inline_case(write_files):
 def test_3d_csv_tables(write_files):
     files = {
         "case.toml": CSV_CASE,
-        "joints.csv": "id,x,y,z\nO,0,0,4\nF1,3,0,0\nF2,-1.5,2.598076211353316,0\nF3,-1.5,-2.598076211353316,0\n",
+        "joints.csv": "id,x,y,z\nO,0,0,4\nF1,3,0,0\n"
+        "F2,-1.5,2.598076211353316,0\nF3,-1.5,-2.598076211353316,0\n",
         "members.csv": "id,start,end\nOF1,O,F1\nOF2,O,F2\nOF3,O,F3\n",
         "supports.csv": "joint,directions\nF1,x y z\nF2,x y z\nF3,x y z\n",
         "loads.csv": "case,joint,fx,fy,fz\nvertical,O,0,0,-1\n",

@@ -231,7 +231,8 @@ def test_parameters_and_arithmetic_in_coordinates_keep_exact_values(write_files)
     assert sympy.simplify(exact.coords["C"][1] - 3 * sympy.sqrt(3) / 2) == 0
     assert model.joints[model.joint_index["C"]].coords[1] == float(3 * sympy.sqrt(3) / 2)
     assert load(model, "a")["C"] == (0.0, -5.0)
-    # The rafter at 30 degrees carries P / (2 sin 30) = P under an apex load P (REFERENCES.md 3.3, general form).
+    # The rafter at 30 degrees carries P / (2 sin 30) = P under an apex load P (REFERENCES.md 3.3,
+    # general form).
     assert forces(model, "a")["AC"] == pytest.approx(-5.0, rel=1e-12)
 
 
@@ -261,7 +262,8 @@ INVALID = [
     ("C = { magnitude = 10, angle = 90, direction = [0, 1] }", "got both angle and direction"),
     (
         "C = { magnitude = 10, angel = 90 }",
-        "unknown key 'angel'; expected magnitude with one of angle, direction, normal_to. Did you mean 'angle'",
+        "unknown key 'angel'; expected magnitude with one of angle, direction, normal_to. Did you "
+        "mean 'angle'",
     ),
     ("C = { magnitude = 10, angle = 400 }", "angle: 400 is beyond the sane range of +-360 degrees"),
     (
@@ -284,7 +286,8 @@ INVALID = [
     ("self_weight = { mass = 3 }", "unknown key 'mass'"),
     (
         'C = [0, "span / 2"]',
-        "'span / 2' is not a number; expected a finite number or arithmetic ('span' is not defined in [parameters]",
+        "'span / 2' is not a number; expected a finite number or arithmetic ('span' is not defined "
+        "in [parameters]",
     ),
     ("C = [0, \"__import__('os')\"]", "is not accepted"),
     ('C = [0, "1e12 * 10"]', "beyond the sane range of +-1e+12 kN"),
@@ -308,7 +311,8 @@ def test_invalid_stated_loads_name_line_field_and_expectation(write_files, line,
     [
         (
             '"pined"',
-            "'pined' is not a support type; expected \"pinned\" or \"roller\" (or a list of restrained axes). Did you mean 'pinned'",
+            '\'pined\' is not a support type; expected "pinned" or "roller" (or a list of '
+            "restrained axes). Did you mean 'pinned'",
         ),
         (
             '{ type = "pinned", normal = [0, 1] }',
@@ -371,8 +375,8 @@ def test_bad_stated_load_exits_2_without_traceback(write_files):
     assert result.exit_code == 2
     assert "Traceback" not in result.output
     assert (
-        f"case.toml:{len(text.splitlines())}: load case 'a' at joint 'C' angle: '1/0' is not a number"
-        in result.output
+        f"case.toml:{len(text.splitlines())}: load case 'a' at joint 'C' angle: '1/0' is not a "
+        "number" in result.output
     )
     assert path.read_text(encoding="utf-8") == text
 
@@ -389,8 +393,10 @@ def test_converted_loads_are_listed_in_the_json_and_the_report(tmp_path):
 
     path = tmp_path / "case.toml"
     path.write_text(
-        'title = "t"\n[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [4.0, 0.0]\nC = [2.0, 2.0]\n'
-        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\nA = "pinned"\nB = "roller"\n'
+        'title = "t"\n[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [4.0, '
+        "0.0]\nC = [2.0, 2.0]\n"
+        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\nA = "pinned"\nB '
+        '= "roller"\n'
         "[loads.wind]\nC = { magnitude = 10.0, angle = 45 }\n",
         encoding="utf-8",
     )

@@ -37,7 +37,8 @@ HOSTILE_SECONDS = 1.0  # any refusal must come at once; a hang is the failure be
     ],
 )
 def test_exact_values_survive(text, exact):
-    """Rational results and surds are kept exactly, and the float is the exact value rounded once."""
+    """Rational results and surds are kept exactly, and the float is the exact value rounded
+    once."""
     value = evaluate(text)
     assert sympy.simplify(value.exact - exact) == 0
     assert value.number == float(exact)

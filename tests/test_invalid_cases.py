@@ -95,7 +95,8 @@ TOML_CASES = [
         variant({16: 'DA = ["C", "A"]'}),
         [
             (
-                "members 'DA' and 'AC' both join 'A' and 'C'; a pin-jointed model needs one member per joint pair",
+                "members 'DA' and 'AC' both join 'A' and 'C'; a pin-jointed model needs one member "
+                "per joint pair",
                 17,
             )
         ],
@@ -130,7 +131,8 @@ TOML_CASES = [
         variant({9: 'C = [4.0, "12,5"]'}),
         [
             (
-                "joint 'C' coordinate 2: '12,5' uses a decimal comma; write a decimal point ('12.5')",
+                "joint 'C' coordinate 2: '12,5' uses a decimal comma; write a decimal point "
+                "('12.5')",
                 9,
             )
         ],
@@ -158,7 +160,8 @@ TOML_CASES = [
         variant({4: 'force = "kNN"'}),
         [
             (
-                "units.force: unknown force unit 'kNN'; accepted: N, kN, MN, lbf, kip, kgf, tonne-force",
+                "units.force: unknown force unit 'kNN'; accepted: N, kN, MN, lbf, kip, kgf, "
+                "tonne-force",
                 4,
             )
         ],
@@ -181,7 +184,8 @@ TOML_CASES = [
         variant({3: 'lenght = "m"'}),
         [
             (
-                "unknown key 'lenght' in [units]; expected length, force, area, modulus. Did you mean 'length'?",
+                "unknown key 'lenght' in [units]; expected length, force, area, modulus. Did you "
+                "mean 'length'?",
                 3,
             ),
             ("[units] has no 'length' unit", 2),
@@ -205,7 +209,8 @@ TOML_CASES = [
         variant(append='\n[combinations]\n"ULS" = { dead = 1.35, daed = 1.5 }\n'),
         [
             (
-                "combination 'ULS' names load case 'daed', which is not defined. Did you mean 'dead'?",
+                "combination 'ULS' names load case 'daed', which is not defined. Did you mean "
+                "'dead'?",
                 END + 3,
             )
         ],
@@ -265,7 +270,8 @@ TOML_CASES = [
         ),
         [
             (
-                'member \'BC\': A and E need [units] area (e.g. "mm2") and modulus (e.g. "GPa"); 1 more member gives A and E',
+                'member \'BC\': A and E need [units] area (e.g. "mm2") and modulus (e.g. "GPa"); 1 '
+                "more member gives A and E",
                 14,
             )
         ],
@@ -359,7 +365,8 @@ def test_not_utf8(write_files):
 
 def test_several_errors_are_reported_together(write_files):
     """Six independent mistakes: all six come back in one InputError, each at its line."""
-    # 'foo' goes first (a key after a table header would belong to that table); BASE lines move by 1.
+    # 'foo' goes first (a key after a table header would belong to that table); BASE lines move by
+    # 1.
     text = "foo = 1\n" + variant(
         {4: 'force = "kNN"', 15: 'CD = ["C", "E"]', 21: 'B = ["z"]', 24: "C = [0.0, -10.0, 1.0]"},
         append='\n[combinations]\n"ULS" = { daed = 1.5 }\n',

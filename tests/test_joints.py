@@ -83,7 +83,8 @@ def assert_routes_agree(model: Model) -> None:
 
 # -- the hand-calculation order ------------------------------------------------------------------
 def test_pratt_starts_with_reactions_then_l0():
-    """REFERENCES.md 2.3: reactions from overall equilibrium first, then joint L0 (moments about the pin)."""
+    """REFERENCES.md 2.3: reactions from overall equilibrium first, then joint L0 (moments about the
+    pin)."""
     model = make_model(pratt(6))
     solution = solve_joints(model)
     assert solution.reactions_first
@@ -203,7 +204,7 @@ def test_k33_joint_route_matches_global():
     assert_routes_agree(make_model(k33_off_conic()))
 
 
-# -- zero-force members (Hibbeler Statics / Kassimali zero-force rules, REFERENCES.md 3.1) ----------
+# -- zero-force members (Hibbeler Statics / Kassimali zero-force rules, REFERENCES.md 3.1) ---------
 ZERO_FORCE = [
     ("Pratt U3L3 (rule 2)", pratt(6), ["U3L3"]),
     (
@@ -301,7 +302,8 @@ def test_joint_route_equals_exact_rational_solve(case):
 
 @pytest.mark.parametrize("seed", range(8))
 def test_simple_trusses_never_stall(seed):
-    """A simple truss (Henneberg type I steps) is always solved joint by joint (REFERENCES.md 2.3)."""
+    """A simple truss (Henneberg type I steps) is always solved joint by joint (REFERENCES.md
+    2.3)."""
     model = make_model(random_simple_truss(random.Random(seed), 4 + seed))
     solution = solve_joints(model)
     assert not solution.stalled
@@ -310,7 +312,8 @@ def test_simple_trusses_never_stall(seed):
 
 
 def test_combinations_follow_superposition():
-    """Every load case and combination is a column; a combination is the factored sum (common practice)."""
+    """Every load case and combination is a column; a combination is the factored sum (common
+    practice)."""
     case = pratt(6)
     case["loads"]["W"] = {"U1": [2.0, 0.0], "U2": [0.0, 1.5]}
     case["combinations"] = {"ULS": {"P": 1.35, "W": 1.5}}

@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from trussgen import make_model, pratt
 
+from verify import forking
 from verify.analysis import pipeline
 
 
@@ -27,19 +28,19 @@ def test_section_route_in_a_child_process_matches_serial(monkeypatch):
 
 
 def test_serial_switch_keeps_one_process(monkeypatch):
-    monkeypatch.setenv(pipeline.SERIAL_ENV, "1")
-    child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
+    monkeypatch.setenv(forking.SERIAL_ENV, "1")
+    child = forking.Forked.start(lambda: ("ran in", os.getpid()))
     assert child.pid is None
     assert child.result() == ("ran in", os.getpid())
 
 
 def test_no_fork_while_other_threads_run(monkeypatch):
-    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
     release = threading.Event()
     other = threading.Thread(target=release.wait)
     other.start()
     try:
-        child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
+        child = forking.Forked.start(lambda: ("ran in", os.getpid()))
         assert child.pid is None and child.result() == ("ran in", os.getpid())
     finally:
         release.set()
@@ -48,8 +49,8 @@ def test_no_fork_while_other_threads_run(monkeypatch):
 
 @pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
 def test_child_runs_the_route_in_another_process(monkeypatch):
-    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
-    child = pipeline._Child.start(lambda m: ("ran in", os.getpid()), None)  # type: ignore[arg-type]
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    child = forking.Forked.start(lambda: ("ran in", os.getpid()))
     assert child.pid is not None
     where, pid = child.result()
     assert where == "ran in" and pid != os.getpid()
@@ -62,16 +63,16 @@ def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(
 ):
     """The section route starts before the stability screen; an unstable (one diagonal removed)
     or indeterminate (one diagonal added) truss stops it, and no child process is left behind."""
-    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
     cancelled: list[int | None] = []
-    original = pipeline._Child.cancel
+    original = forking.Forked.cancel
 
     def cancel(self):
         cancelled.append(self.pid)
         original(self)
 
-    monkeypatch.setattr(pipeline._Child, "cancel", cancel)
+    monkeypatch.setattr(forking.Forked, "cancel", cancel)
     case = pratt(6, load=10.0)
     if drop_diagonal:
         del case["members"]["U2L3"]
@@ -89,20 +90,20 @@ def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(
 def test_an_error_in_the_joint_route_leaves_no_child_and_no_frozen_heap(monkeypatch):
     import gc
 
-    monkeypatch.delenv(pipeline.SERIAL_ENV, raising=False)
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
     started: list[int] = []
-    original = pipeline._Child.start
+    original = forking.Forked.start
 
-    def start(route, model):
-        child = original(route, model)
+    def start(route, *args):
+        child = original(route, *args)
         started.append(child.pid)
         return child
 
-    def broken(model):
+    def broken(*args):
         raise RuntimeError("joint route failed")
 
-    monkeypatch.setattr(pipeline._Child, "start", staticmethod(start))
+    monkeypatch.setattr(pipeline.Forked, "start", staticmethod(start))
     monkeypatch.setattr(pipeline, "solve_joints", broken)
     with pytest.raises(RuntimeError, match="joint route failed"):
         pipeline.analyse(make_model(pratt(6, load=10.0)))

@@ -1,4 +1,5 @@
-"""Our own colour code and plain names: agreement drawn plain, marks that clash with no trade symbol,
+"""Our own colour code and plain names: agreement drawn plain, marks that clash with no trade
+symbol,
 JSON keys and options in the trade's words, old option names still accepted."""
 
 from __future__ import annotations
@@ -92,3 +93,44 @@ def test_old_tolerance_options_still_work():
     assert json.loads(new[1])["tolerance"] == {"relative": 0.02, "fraction_of_largest_force": 0.002}
     _, helptext = _run("check", "--help")
     assert "--relative-tolerance" in helptext and "--rtol" not in helptext
+
+
+OLD_WORDS = ("not-elastic", "blocker", "dense-svd", "sparse-lu", "sigma_ratio", "slenderness")
+
+
+def test_names_are_chosen_at_the_source():
+    """One word inside and out: the enums, the structure's fields and keys, and the convention's
+    keys already carry the words the outputs show; no output translates them."""
+    from dataclasses import fields
+
+    from verify.analysis.stability import FULL_RANK_COUNT, SPARSE_SCREEN, StabilityResult
+    from verify.compare.findings import FindingKind, RowStatus, Severity
+
+    inside = {m.value for e in (FindingKind, RowStatus, Severity) for m in e}
+    inside |= {f.name for f in fields(StabilityResult)} | {FULL_RANK_COUNT, SPARSE_SCREEN}
+    assert {"stiffness-dependent", "cannot-verify", "conditioning_ratio", "extent_ratio"} <= inside
+    assert not inside & set(OLD_WORDS)
+
+
+CASES = sorted(p for p in (ROOT / "cases").iterdir() if (p / "case.toml").exists())
+
+
+def test_every_word_json_shows_is_a_word_the_code_uses():
+    """For every bundled case, each kind, status, severity and method in --json is a value of the
+    enum (or constant) the code itself uses, and the structure's keys are StabilityResult's."""
+    from verify.analysis.stability import FULL_RANK_COUNT, SPARSE_SCREEN
+    from verify.compare.findings import FindingKind, RowStatus, Severity
+
+    for case in CASES:
+        claims = next(case.glob("claims.*"))
+        extra = ["--sheet", "Member forces"] if claims.suffix == ".xlsx" else []
+        _, out = _run("check", case, "--claims", claims, "--json", *extra)
+        data = json.loads(out)
+        assert data["structure"]["method"] in {FULL_RANK_COUNT, SPARSE_SCREEN}
+        assert {"conditioning_ratio", "extent_ratio", "scaled_conditioning"} <= set(
+            data["structure"]
+        )
+        assert {f["kind"] for f in data["findings"]} <= {k.value for k in FindingKind}
+        assert {f["severity"] for f in data["findings"]} <= {s.value for s in Severity}
+        assert {m["status"] for m in data["members"]} <= {s.value for s in RowStatus}
+        assert not any(word in out for word in OLD_WORDS), case.name

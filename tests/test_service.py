@@ -212,3 +212,18 @@ def test_a_case_folder_stands_for_its_case_file():
     result = check(FOOTBRIDGE, FOOTBRIDGE / "claims.csv")
     assert Path(result.model.source).name == "case.toml" and result.exit_code == 1
     assert str(FOOTBRIDGE / "claims.csv") in result.inputs
+
+
+def test_an_option_error_is_an_input_error_said_in_one_line():
+    """Callers catch one type for every bad input; the CLI still exits 2 with the option's own
+    sentence as its only line (no file name before it, no traceback)."""
+    with pytest.raises(InputError) as raised:
+        review(FOOTBRIDGE, FOOTBRIDGE / "claims.csv", rtol=5.0)
+    assert isinstance(raised.value, OptionError)
+    assert str(raised.value) == raised.value.render() and raised.value.render().startswith("rtol=5")
+    code, out, err = _cli(
+        "check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--relative-tolerance", "5"
+    )
+    assert code == EXIT_BAD_INPUT and out == ""
+    assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
+    assert "must be a number in (0, 1)" in err

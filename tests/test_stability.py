@@ -66,7 +66,8 @@ def k33(moved: bool = False):
     return truss_case(joints, K33_MEMBERS, {"5": ["x", "y"], "6": ["y"]}, {"P": {"2": [0, -1]}})
 
 
-# REFERENCES.md 1.4, row by row: (b, r, j, b+r-dj, r_A, m, s, rigid-body m, internal m, sigma ratio or None).
+# REFERENCES.md 1.4, row by row: (b, r, j, b+r-dj, r_A, m, s, rigid-body m, internal m, sigma ratio
+# or None).
 ROWS = {
     "triangle, pin + roller": (tri(PIN_ROLLER), (3, 3, 3, 0, 6, 0, 0, 0, 0), 0.228),
     "square, no diagonal": (square(), (4, 3, 4, -1, 7, 1, 0, 0, 1), 0.382),
@@ -166,7 +167,7 @@ def test_canonical_counts(name):
         result.mechanisms - result.rigid_body_mechanisms,
     )
     assert got == (b, r, j, maxwell, rank, m, s, rigid, internal)
-    assert result.exact_counts and result.method == "dense-svd"
+    assert result.exact_counts and result.method == "full-rank-count"
 
 
 @pytest.mark.parametrize("name", list(ROWS))
@@ -193,10 +194,10 @@ def test_extended_maxwell_rule(name):
 
 
 @pytest.mark.parametrize("name", [n for n, row in ROWS.items() if row[2] is not None])
-def test_canonical_sigma_ratio(name):
+def test_canonical_conditioning_ratio(name):
     """sigma_min / sigma_max over the non-zero singular values, as printed in REFERENCES.md 1.4."""
     case, _, sigma = ROWS[name]
-    assert solve_stability(make_model(case)).sigma_ratio == pytest.approx(
+    assert solve_stability(make_model(case)).conditioning_ratio == pytest.approx(
         sigma, abs=SIGMA_DIGITS / 2 + 1e-12
     )
 
@@ -236,7 +237,8 @@ def test_square_with_both_diagonals_self_stress():
 
 
 def test_k33_on_a_conic_is_critical_but_count_passes():
-    """Bolker & Roth 1980: Maxwell's count is met (0) yet there is one mechanism and one self-stress."""
+    """Bolker & Roth 1980: Maxwell's count is met (0) yet there is one mechanism and one
+    self-stress."""
     result = solve_stability(make_model(k33()))
     assert result.maxwell == 0
     assert (result.mechanisms, result.self_stress) == (1, 1)
@@ -244,7 +246,8 @@ def test_k33_on_a_conic_is_critical_but_count_passes():
 
 
 def test_unstable_load_orthogonal_to_mechanism_is_noted():
-    """A load with no work on the mechanism can be equilibrated (P&C 1986), but the verdict stays unstable."""
+    """A load with no work on the mechanism can be equilibrated (P&C 1986), but the verdict stays
+    unstable."""
     case = square()
     case["loads"] = {"P": {"C": [0.0, -1.0]}}  # vertical load on a horizontal sway
     result = solve_stability(make_model(case))
@@ -266,11 +269,11 @@ def sagging_two_bar(theta: float):
 @pytest.mark.parametrize(
     ("theta", "rho"), [(0.1, 5.40e-2), (0.01, 5.41e-3), (1e-3, 5.41e-4), (1e-6, 5.41e-7)]
 )
-def test_sagging_two_bar_sigma_ratio(theta, rho):
+def test_sagging_two_bar_conditioning_ratio(theta, rho):
     """REFERENCES.md 1.2 [V] table: rho ~ 0.54 theta, to the 3 printed figures."""
     result = solve_stability(make_model(sagging_two_bar(theta)))
     assert result.classification is Classification.STABLE_DETERMINATE
-    assert result.sigma_ratio == pytest.approx(rho, rel=2e-3)
+    assert result.conditioning_ratio == pytest.approx(rho, rel=2e-3)
 
 
 @pytest.mark.parametrize("theta", [0.1, 0.01, 1e-3, 1e-6])
@@ -282,10 +285,11 @@ def test_sagging_two_bar_force(theta):
 
 
 def test_sag_1e_3_is_flagged_as_near_mechanism():
-    """theta = 1e-3 rad gives forces of 500 x the load: ill-conditioned (module docstring: threshold ~0.26 deg)."""
+    """theta = 1e-3 rad gives forces of 500 x the load: ill-conditioned (module docstring: threshold
+    ~0.26 deg)."""
     result = solve_stability(make_model(sagging_two_bar(1e-3)))
     assert result.ill_conditioned
-    assert result.scaled_ratio < ILL_CONDITIONED_SCALED
+    assert result.scaled_conditioning < ILL_CONDITIONED_SCALED
     assert any("near-mechanism" in note for note in result.notes)
 
 
@@ -303,11 +307,12 @@ def test_threshold_sits_near_a_quarter_degree():
 
 
 def test_sound_100_panel_pratt_is_not_flagged():
-    """PERFORMANCE.md: a healthy 100-panel Pratt has sigma ratio ~3e-4, below REFERENCES.md 1.2's fixed
-    1e-3 warning level; the slenderness-scaled judgement must not call it a near-mechanism."""
+    """PERFORMANCE.md: a healthy 100-panel Pratt has sigma ratio ~3e-4, below REFERENCES.md 1.2's
+    fixed
+    1e-3 warning level; the extent-ratio-scaled judgement must not call it a near-mechanism."""
     result = solve_stability(make_model(pratt(100)))
     assert result.classification is Classification.STABLE_DETERMINATE
-    assert 3e-5 < result.sigma_ratio < 1e-3  # same order as PERFORMANCE.md's figure
+    assert 3e-5 < result.conditioning_ratio < 1e-3  # same order as PERFORMANCE.md's figure
     assert not result.ill_conditioned
 
 
@@ -340,13 +345,14 @@ def test_sparse_path_agrees_with_dense(panels, builder, expected):
     model = make_model(builder(panels))
     dense = solve_stability(model)
     sparse = solve_stability(model, dense_limit=0)
-    assert dense.method == "dense-svd" and sparse.method == "sparse-lu"
+    assert dense.method == "full-rank-count" and sparse.method == "sparse-screen"
     assert dense.classification is expected
     assert sparse.classification is dense.classification
 
 
 def test_dense_counts_of_the_defective_pratt():
-    """Maxwell's count is met, yet m = s = 1: the count cannot see where the bars are (REFERENCES.md 1.1)."""
+    """Maxwell's count is met, yet m = s = 1: the count cannot see where the bars are (REFERENCES.md
+    1.1)."""
     result = solve_stability(make_model(pratt_defect(10)))
     assert (result.maxwell, result.mechanisms, result.self_stress) == (0, 1, 1)
     (mode,) = result.self_stress_modes

@@ -49,7 +49,7 @@ def check(got, expected):
         assert got[member] == pytest.approx(value, rel=RTOL, abs=RTOL * scale), member
 
 
-# -- every pattern: stable, determinate, and sympy (2D) or an exact solve (3D) agrees ---------------
+# -- every pattern: stable, determinate, and sympy (2D) or an exact solve (3D) agrees --------------
 DEFAULTS = {"span": 24.0, "depth": 3.0}
 
 
@@ -263,7 +263,8 @@ def test_warren_verticals_by_beam_analogy(tmp_path):
 def test_k_truss_chords_by_sections(tmp_path):
     """Derived by hand (c): at a K's apex M_i no load acts, so its two diagonals' horizontal parts
     cancel; a cut through the panel then gives top = -bottom, and moments about M_i give
-    bottom chord = M(x_i) / h, with x_i the apex's vertical; the diagonals carry V / (2 sin theta)."""
+    bottom chord = M(x_i) / h, with x_i the apex's vertical; the diagonals carry V / (2 sin
+    theta)."""
     span, h, n = 24.0, 3.0, 6
     d = span / n
     got = member_forces(
@@ -314,7 +315,8 @@ def test_queen_post_by_joints(tmp_path):
 
 
 def test_fink_matches_references(tmp_path):
-    """REFERENCES.md 3.3 Fink: span 12, rise 3, P at F, C, G (here U1, U2, U3); A, D, E, B are L0..L3."""
+    """REFERENCES.md 3.3 Fink: span 12, rise 3, P at F, C, G (here U1, U2, U3); A, D, E, B are
+    L0..L3."""
     r5, r13 = math.sqrt(5), math.sqrt(13)
     got = member_forces(write_and_read(tmp_path, "fink", span=12.0, depth=3.0, panel_load=P))
     check(

@@ -80,7 +80,8 @@ def displacement(model: Model, x: np.ndarray, joint: str, axis: int, column: int
 # -- three-bar symmetric truss (Timoshenko, Strength of Materials I, 3rd ed., ch. I) -------------
 @pytest.mark.parametrize("alpha_deg", [30.0, 45.0, 60.0])
 def test_three_bar_truss_matches_timoshenko_formulas(alpha_deg: float) -> None:
-    """Timoshenko SoM Part I 3rd ed. ch. I (REFERENCES 3.6): forces and deflection of the three-bar truss."""
+    """Timoshenko SoM Part I 3rd ed. ch. I (REFERENCES 3.6): forces and deflection of the three-bar
+    truss."""
     a = math.radians(alpha_deg)
     L, P, EA = 3.0, 50.0, 2.0e5
     case = truss_case(
@@ -107,7 +108,8 @@ def test_three_bar_truss_matches_timoshenko_formulas(alpha_deg: float) -> None:
 
 
 def test_three_bar_truss_45_degrees_exact_values() -> None:
-    """REFERENCES 3.6 table (exact stiffness solve): alpha = 45 deg gives 2 - sqrt2 and 1 - sqrt2/2."""
+    """REFERENCES 3.6 table (exact stiffness solve): alpha = 45 deg gives 2 - sqrt2 and 1 -
+    sqrt2/2."""
     a = math.pi / 4
     case = truss_case(
         {"D": [0.0, 0.0], "A": [-1.0, 1.0], "B": [0.0, 1.0], "C": [1.0, 1.0]},
@@ -167,7 +169,8 @@ SQUARE_TABLE = {  # REFERENCES 3.6 table, per unit P: AB, BC, CD, DA, AC, BD
 
 
 def test_square_panel_with_both_diagonals_matches_force_method_and_table() -> None:
-    """REFERENCES 3.6: elastic forces equal the force method X = -sum N0 n L / sum n^2 L and the table."""
+    """REFERENCES 3.6: elastic forces equal the force method X = -sum N0 n L / sum n^2 L and the
+    table."""
     a, EA = 2.5, 3.0e4
     case = square_case(a, SQUARE_LOADS)
     case["stiffness"] = {"EA": EA}
@@ -316,7 +319,8 @@ def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) 
 
 # -- virtual work (REFERENCES 3.7) -------------------------------------------------------------
 def test_virtual_work_example_1_triangle() -> None:
-    """REFERENCES 3.7 worked example 1 (Hibbeler method): Delta_C = 10.5 P/EA = 5.25 mm; u_B = 16P/(3EA)."""
+    """REFERENCES 3.7 worked example 1 (Hibbeler method): Delta_C = 10.5 P/EA = 5.25 mm; u_B =
+    16P/(3EA)."""
     P, EA = 100.0, 2.0e5
     case = truss_case(
         {"A": [0.0, 0.0], "B": [8.0, 0.0], "C": [4.0, 3.0]},
@@ -347,7 +351,8 @@ def test_virtual_work_example_1_triangle() -> None:
 
 
 def test_virtual_work_example_2_pratt_midspan() -> None:
-    """REFERENCES 3.7 worked example 2: 6-panel Pratt, Delta_L3 = 928P/(3EA) = 15.47 mm (P = 10 kN)."""
+    """REFERENCES 3.7 worked example 2: 6-panel Pratt, Delta_L3 = 928P/(3EA) = 15.47 mm (P = 10
+    kN)."""
     P, EA = 10.0, 2.0e5
     case = pratt(6, load=P)
     case["stiffness"] = {"EA": EA}
@@ -471,7 +476,8 @@ def test_random_indeterminate_truss_equilibrium_and_compatibility(
     seed: int, panels: int, extra: bool, inclined: bool
 ) -> None:
     """Elastic forces satisfy A t + f = 0, the supports do not move, e = NL/EA = B^T u, and every
-    self-stress state does no work on the elongations (force-method compatibility, common practice)."""
+    self-stress state does no work on the elongations (force-method compatibility, common
+    practice)."""
     case, _ = braced_case(seed, panels, extra, inclined)
     model = make_model(case)
     sol = solve_stiffness(model)
@@ -504,7 +510,8 @@ def test_random_indeterminate_truss_equilibrium_and_compatibility(
 def test_determinate_truss_stiffness_equals_statics_whatever_ea(
     seed: int, joints: int, ea_seed: int
 ) -> None:
-    """On a determinate truss the elastic forces are the statics forces for any EA (common practice)."""
+    """On a determinate truss the elastic forces are the statics forces for any EA (common
+    practice)."""
     case = random_simple_truss(random.Random(seed), joints)
     rng = np.random.default_rng(ea_seed)
     for mid, ends in list(case["members"].items()):

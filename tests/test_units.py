@@ -175,7 +175,8 @@ def test_case_insensitive_kn_is_kilonewton():
 
 @pytest.mark.parametrize(("text", "dimension"), [("mN", Dimension.FORCE), ("Mm", Dimension.LENGTH)])
 def test_prefix_case_is_not_folded_into_another_unit(text, dimension):
-    """pint reads 'mN' as millinewton and 'Mm' as megametre: refuse them, or read them as pint does."""
+    """pint reads 'mN' as millinewton and 'Mm' as megametre: refuse them, or read them as pint
+    does."""
     try:
         unit = lookup_unit(text, dimension)
     except ValueError:

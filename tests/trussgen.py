@@ -190,14 +190,15 @@ def simple_truss(
 def random_simple_truss(
     rng: random.Random, joints: int, *, span: int = 12, max_load: int = 20
 ) -> Case:
-    """A random stable simple truss with integer coordinates and integer loads (retries until valid)."""
+    """A random stable simple truss with integer coordinates and integer loads (retries until
+    valid)."""
     while True:
         points: list[tuple[int, int]] = []
         while len(points) < joints:
             p = (rng.randint(0, span), rng.randint(0, span))
             if p not in points:
                 points.append(p)
-        attachments = [tuple(rng.sample(range(k), 2)) for k in range(3, joints)]
+        attachments = [(a, b) for a, b in (rng.sample(range(k), 2) for k in range(3, joints))]
         loads = {
             rng.randrange(joints): (
                 rng.randint(-max_load, max_load),
@@ -208,7 +209,7 @@ def random_simple_truss(
         if not loads:
             continue
         roller = rng.randrange(1, joints)
-        case = simple_truss(points, attachments, loads, roller=roller)  # type: ignore[arg-type]
+        case = simple_truss(points, attachments, loads, roller=roller)
         if case is not None:
             return case
 

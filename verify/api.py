@@ -2,8 +2,8 @@
 
     >>> from verify.api import review, solve
     >>> r = review("cases/canal-footbridge/case.toml", "cases/canal-footbridge/claims.csv")
-    >>> r.verdict, r.findings, r.members          # str, DataFrame, DataFrame
-    >>> r                                          # renders in Jupyter: verdict, findings, table, diagram
+    >>> r.verdict, r.findings, r.members  # str, DataFrame, DataFrame
+    >>> r  # renders in Jupyter: verdict, findings, table, diagram
 
 Results are frozen; `.members`, `.forces`, `.reactions` and `.findings` build pandas DataFrames on
 demand (pandas is imported only then). Forces are in the case's units, tension positive.
@@ -21,7 +21,6 @@ from verify.compare.diagnose import Review
 from verify.compare.tolerances import ATOL_FRACTION, RTOL
 from verify.io.case import read_case
 from verify.model import Model
-from verify.report.names import kind_word, severity_word
 from verify.service import CheckOptions, check, exit_status
 
 if TYPE_CHECKING:  # pandas is imported lazily at run time
@@ -103,9 +102,12 @@ class SolveResult:
         forces = ref.member_forces[:, 0] if ref is not None and name is not None else None
         head = (
             f"<h3>{escape(self.model.title or self.model.source)}</h3>"
-            f"<p><strong>{escape(s.classification.value)}</strong>: {s.joints} joints, {s.members} members, "
-            f"{s.reactions} reaction components; Maxwell b + r − {s.dim}j = {s.maxwell}; rank {s.rank}, "
-            f"mechanisms {s.mechanisms}, self-stress {s.self_stress}. Forces in {escape(self.model.units.force.symbol)}, "
+            f"<p><strong>{escape(s.classification.value)}</strong>: {s.joints} joints, {s.members} "
+            "members, "
+            f"{s.reactions} reaction components; Maxwell b + r − {s.dim}j = {s.maxwell}; rank "
+            f"{s.rank}, "
+            f"mechanisms {s.mechanisms}, self-stress {s.self_stress}. Forces in "
+            f"{escape(self.model.units.force.symbol)}, "
             "tension positive.</p>"
         )
         table = _frame_html(self.members)
@@ -143,7 +145,8 @@ class ReviewResult:
 
     @property
     def members(self) -> pd.DataFrame:
-        """The member table: one row per member and load column (claimed, each route, difference, status)."""
+        """The member table: one row per member and load column (claimed, each route,
+        difference, status)."""
         return self._rows("member")
 
     @property
@@ -152,7 +155,8 @@ class ReviewResult:
 
     @property
     def forces(self) -> pd.DataFrame:
-        """Recomputed member forces: one row per member, one column per load case and combination."""
+        """Recomputed member forces: one row per member, one column per load case and
+        combination."""
         return _forces_frame(self.review.analysis)
 
     @property
@@ -176,8 +180,8 @@ class ReviewResult:
         ]
         records = [
             {
-                "severity": severity_word(f.severity.value),
-                "kind": kind_word(str(f.kind)),
+                "severity": f.severity.value,
+                "kind": str(f.kind),
                 "title": f.title,
                 "case": f.case,
                 "members": ", ".join(f.members),
@@ -209,10 +213,9 @@ class ReviewResult:
             "status",
             "written",
         ]
-        # The words every output shows (report/names.py), so the DataFrame says what --json says.
+        # Plain strings, as --json writes them (the statuses are StrEnum values).
         records = [
-            {k: v for k, v in row.as_dict().items() if k in columns}
-            | {"status": kind_word(str(row.status))}
+            {k: v for k, v in row.as_dict().items() if k in columns} | {"status": str(row.status)}
             for row in self.review.rows
             if row.kind == kind
         ]
@@ -238,7 +241,8 @@ class ReviewResult:
             parts.append(
                 "<ol>"
                 + "".join(
-                    f"<li><strong>{escape(f.title)}</strong>{escape(' (' + f.case + ')' if f.case else '')}: "
+                    f"<li><strong>{escape(f.title)}</strong>"
+                    f"{escape(' (' + f.case + ')' if f.case else '')}: "
                     f"{escape(finding_sentence(f))}</li>"
                     for f in self.review.findings
                 )
@@ -251,7 +255,8 @@ class ReviewResult:
         shown = members if len(members) <= NOTEBOOK_ROWS else problems.head(NOTEBOOK_ROWS)
         if len(shown) < len(members):
             parts.append(
-                f"<p>Member table: {len(shown)} of {len(members)} rows (the problems; <code>.members</code> has all).</p>"
+                f"<p>Member table: {len(shown)} of {len(members)} rows (the problems; "
+                "<code>.members</code> has all).</p>"
             )
         parts.append(_frame_html(shown))
         parts.extend(diagrams_html(self.review))
@@ -302,9 +307,10 @@ def review(
     compression-positive or auto; `unit` None (or "auto") reads it from the table or infers it;
     `rtol` and `atol_fraction` are `--relative-tolerance` and `--absolute-tolerance`; `case` is
     `--case`; `displacements` a file of claimed joint displacements. `case_path` may name a case
-    folder. Options out of range raise verify.errors.OptionError; a file that cannot be read, or a
-    claims table none of whose labels match the case, raises verify.errors.InputError. Both are
-    ValueErrors, and the command line refuses the same inputs with exit status 2.
+    folder. Every bad input raises verify.errors.InputError, the one type to catch: a file that
+    cannot be read, a claims table none of whose labels match the case, and an option out of range
+    (verify.errors.OptionError, a kind of InputError). The command line refuses the same inputs
+    with exit status 2.
     """
     options = CheckOptions(
         sign=sign,

@@ -85,12 +85,6 @@ def quoted(value: object, *, limit: int = 60) -> str:
     return f"'{shown(value, limit=limit)}'" if isinstance(value, str) else shown(value, limit=limit)
 
 
-class OptionError(ValueError):
-    """An option out of its range (exit status 2), from the command line or the Python API alike."""
-
-    exit_code = EXIT_BAD_INPUT
-
-
 class InputError(ValueError):
     """A malformed case or claims file. Carries every problem found, not just the first."""
 
@@ -107,6 +101,21 @@ class InputError(ValueError):
         if len(self.problems) > 1:
             lines.insert(0, f"{len(self.problems)} problems found in the input:")
         return "\n".join(lines)
+
+
+class OptionError(InputError):
+    """An option out of its range (exit status 2), from the command line or the Python API alike.
+
+    An InputError, so a caller catches one type for every bad input; its message is the option's
+    own sentence (it names the option, the value and the range), with no file before it.
+    """
+
+    def __init__(self, message: str) -> None:
+        self.message = message
+        super().__init__([Problem("options", message)])
+
+    def render(self) -> str:
+        return self.message
 
 
 @dataclass

@@ -21,7 +21,8 @@ NOTHING = "—"
 
 
 def _decimal(value: float) -> Decimal | None:
-    """The float as the decimal its repr spells, cleaned to NOISE_FIGURES figures (None: NaN/inf)."""
+    """The float as the decimal its repr spells, cleaned to NOISE_FIGURES figures (None:
+    NaN/inf)."""
     if not math.isfinite(value):
         return None
     exact = Decimal(repr(float(value)))
@@ -55,7 +56,8 @@ def _missing(value: float | None) -> bool:
 
 
 def fmt(value: float | None, digits: int = 4) -> str:
-    """`digits` significant figures (whole numbers are never cut), halves away from zero, no '-0'."""
+    """`digits` significant figures (whole numbers are never cut), halves away from zero, no
+    '-0'."""
     if _missing(value):
         return NOTHING
     assert value is not None
@@ -80,7 +82,8 @@ def fmt_fixed(value: float | None, decimals: int) -> str:
 
 
 def fmt_ratio(value: float | None, digits: int = 3) -> str:
-    """A small or large dimensionless figure (a conditioning ratio): '4.71e-5', halves away from zero."""
+    """A small or large dimensionless figure (a conditioning ratio): '4.71e-5', halves away from
+    zero."""
     if _missing(value):
         return NOTHING
     assert value is not None
@@ -119,7 +122,8 @@ def tc(value: float | None, *, zero_tol: float = 0.0, digits: int = 4) -> str:
 
 
 def decimals_in(text: str) -> int | None:
-    """Decimals of the first plain number in `text` ('12.40 C at row 4' -> 2); None when there is none."""
+    """Decimals of the first plain number in `text` ('12.40 C at row 4' -> 2); None when there is
+    none."""
     start = None
     for k, ch in enumerate(text):
         if ch.isdigit():

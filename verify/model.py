@@ -116,9 +116,8 @@ class Model:
     unit_vectors: np.ndarray = field(init=False, repr=False, compare=False)
     joint_index: Mapping[str, int] = field(init=False, repr=False, compare=False)
     member_index: Mapping[str, int] = field(init=False, repr=False, compare=False)
-    # Results of pure functions of this model (load matrix, overall-equilibrium reactions),
-    # kept so that reports asking for them per cut or per row do not recompute them.
-    memo: dict[str, object] = field(init=False, repr=False, compare=False, default_factory=dict)
+    # Applied joint loads, dofs x (cases + combinations), read-only: see load_matrix().
+    applied_loads: np.ndarray = field(init=False, repr=False, compare=False)
     # Coordinates (joints x dim) and member end positions (members x 2) when the reader already
     # holds them as arrays (bulk CSV tables); they must describe `joints` and `members` exactly.
     arrays: InitVar[tuple[np.ndarray, np.ndarray] | None] = None
@@ -145,6 +144,10 @@ class Model:
         object.__setattr__(self, "unit_vectors", _frozen(unit))
         object.__setattr__(self, "joint_index", MappingProxyType(joint_index))
         object.__setattr__(self, "member_index", MappingProxyType(member_index))
+        # Made once here, like the arrays above, so the model never changes after it is built
+        # (what analyses share, such as the equilibrium matrix and its LU, belongs to the
+        # analysis run: verify.analysis.run).
+        object.__setattr__(self, "applied_loads", _frozen(self._assemble_loads()))
 
     # -- convenience views ------------------------------------------------------------------
     @property
@@ -174,15 +177,9 @@ class Model:
     def load_matrix(self) -> np.ndarray:
         """Applied joint loads, dofs x (cases + combinations); combinations by superposition.
 
-        Computed once per model and returned read-only (copy it to modify).
+        Made when the model is built and returned read-only (copy it to modify).
         """
-        cached = self.memo.get("load_matrix")
-        if isinstance(cached, np.ndarray):
-            return cached
-        F = self._assemble_loads()
-        F.setflags(write=False)
-        self.memo["load_matrix"] = F
-        return F
+        return self.applied_loads
 
     def _assemble_loads(self) -> np.ndarray:
         n_cases = len(self.cases)

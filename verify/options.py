@@ -53,7 +53,8 @@ def check_assume_equal_ea(value: object, *, name: str = "assume_equal_EA") -> fl
         or not (math.isfinite(value) and value > 0)
     ):
         raise OptionError(
-            f"{name}={shown(value)}: must be a positive number (an axial stiffness in the case's force unit)"
+            f"{name}={shown(value)}: must be a positive number (an axial stiffness in the case's "
+            "force unit)"
         )
     return float(value)
 

@@ -103,7 +103,8 @@ def accepted(dimension: Dimension) -> list[str]:
 
 
 def lookup_unit(text: str, dimension: Dimension) -> Unit:
-    """The unit named by `text`, of the given dimension. Raises ValueError with a helpful message."""
+    """The unit named by `text`, of the given dimension. Raises ValueError with a helpful
+    message."""
     raw = str(text).strip()
     if raw in UNITS:
         unit = UNITS[raw]
@@ -111,15 +112,16 @@ def lookup_unit(text: str, dimension: Dimension) -> Unit:
         key = raw.lower()
         if key in AMBIGUOUS or raw in AMBIGUOUS:
             raise ValueError(
-                f"unit '{raw}' is ambiguous: {AMBIGUOUS.get(key, AMBIGUOUS.get(raw))}; "
-                f"accepted {dimension.value} units: {', '.join(accepted(dimension))}"
+                f"unit '{raw}' is ambiguous: {AMBIGUOUS.get(key, AMBIGUOUS.get(raw))}; accepted "
+                f"{dimension.value} units: {', '.join(accepted(dimension))}"
             )
         # Case matters for SI prefixes ('mN' is a millinewton, 'MN' a meganewton), so only
         # spellings that cannot be confused are case-folded (e.g. 'KN', 'Kip', 'LBF').
         symbol = _ALIASES.get(key) or _FOLDABLE.get(key)
         if symbol is None:
             raise ValueError(
-                f"unknown {dimension.value} unit '{raw}'; accepted: {', '.join(accepted(dimension))}"
+                f"unknown {dimension.value} unit '{raw}'; accepted: "
+                f"{', '.join(accepted(dimension))}"
             )
         unit = UNITS[symbol]
     if unit.dimension is not dimension:

@@ -124,7 +124,8 @@ def test_load_case_left_out_of_a_combination():
     # self-weight loads the same joints as traffic, so the claims cannot tell the two readings apart
     # (1.5 - 0.1 x 1.35 = 1.365 on traffic: 1.35 and 1.36 both fit within the tolerance)
     assert re.search(
-        r"; or, equally for these claims, 'ULS' taking 1\.3[56] × traffic instead of 1\.5 × traffic",
+        r"; or, equally for these claims, 'ULS' taking 1\.3[56] × traffic instead of 1\.5 × "
+        r"traffic",
         cause.variant,
     ), cause.variant
 
@@ -256,7 +257,7 @@ def test_wind_applied_vertically_instead_of_normal_to_the_rafter():
     assert review_of(barn_roof(), claims_of(barn_roof())).verdict is Verdict.AGREES
 
 
-# -- a three-legged mast in newtons (3D) ------------------------------------------------------------
+# -- a three-legged mast in newtons (3D) -----------------------------------------------------------
 def mast(levels=3, wind_level=None):
     """Triangular lattice mast, 1.2 m legs apart, 2 m per level; wind 800 N along x at each joint
     of the top level (or of `wind_level`)."""

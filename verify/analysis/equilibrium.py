@@ -16,19 +16,11 @@ from verify.model import Model
 
 
 def assemble_equilibrium(model: Model) -> sp.csc_matrix:
-    """The sparse equilibrium matrix A (vectorised COO assembly), built once per model.
+    """The sparse equilibrium matrix A (vectorised COO assembly), built anew at each call.
 
-    Callers must not modify it in place (every analysis only reads or slices it).
+    Within an analysis, ask the run (verify.analysis.run.AnalysisRun.equilibrium_matrix), which
+    builds it once for every route.
     """
-    cached = model.memo.get("equilibrium_matrix")
-    if isinstance(cached, sp.csc_matrix):
-        return cached
-    A = _assemble(model)
-    model.memo["equilibrium_matrix"] = A
-    return A
-
-
-def _assemble(model: Model) -> sp.csc_matrix:
     d = model.dim
     b = len(model.members)
     r = len(model.reactions)

@@ -24,8 +24,8 @@ from typing import NamedTuple
 import numpy as np
 import scipy.sparse.linalg as spla
 
-from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.forces import ForceResult
+from verify.analysis.run import AnalysisRun
 from verify.model import Model
 
 PARTIAL_GIVE_UP = 500  # consecutive fruitless d+1-unknown joints before partial steps stop
@@ -97,17 +97,20 @@ def _moment(p: np.ndarray, n: np.ndarray) -> np.ndarray:
     return np.cross(p, n)
 
 
-def solve_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
-    """Reactions from overall equilibrium when the supports are externally determinate.
+def solve_reactions(
+    model: Model, run: AnalysisRun | None = None
+) -> tuple[np.ndarray, np.ndarray, str] | None:
+    """Reactions from overall equilibrium when the supports are externally determinate:
+    (reactions x load columns, the moment point, its joint), or None.
 
-    Memoised on the model: section calc sheets ask for it once per cut.
+    Kept by the analysis run: the one given, else the run of this model's analysis if there is
+    one (the joint and section routes and every section calc sheet start here).
     """
-    if "overall_reactions" not in model.memo:
-        model.memo["overall_reactions"] = _solve_reactions(model)
-    return model.memo["overall_reactions"]  # type: ignore[return-value]
+    return (run if run is not None else AnalysisRun.of(model)).overall_reactions()
 
 
-def _solve_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
+def overall_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
+    """solve_reactions without a run: computed each time it is called."""
     rows = 3 if model.dim == 2 else 6
     if len(model.reactions) != rows:
         return None
@@ -124,8 +127,12 @@ def _solve_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None:
     return R, point, pivot_joint
 
 
-def solve_joints(model: Model) -> JointSolution:
-    """Member forces and reactions by the method of joints, with the steps a hand calc takes."""
+def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
+    """Member forces and reactions by the method of joints, with the steps a hand calc takes.
+
+    `run` shares the equilibrium matrix, its LU and the overall reactions with other routes.
+    """
+    run = run if run is not None else AnalysisRun(model)
     d = model.dim
     b = len(model.members)
     r = len(model.reactions)
@@ -137,7 +144,7 @@ def solve_joints(model: Model) -> JointSolution:
     steps: list[JointStep] = []
     notes: list[str] = []
 
-    first = solve_reactions(model)
+    first = run.overall_reactions()
     moment_point = moment_joint = None
     if first is not None:
         R, point, moment_joint = first
@@ -146,10 +153,11 @@ def solve_joints(model: Model) -> JointSolution:
         moment_point = tuple(float(x) for x in point)
         steps.append(JointStep("reactions", (moment_joint,), tuple(range(b, b + r))))
     elif r:
+        determinate = 3 if d == 2 else 6
+        why = f"more than {determinate}" if r > determinate else "parallel or concurrent"
         notes.append(
             f"the {r} reaction components cannot all be found from overall equilibrium "
-            f"({'more than ' + str(3 if d == 2 else 6) if r > (3 if d == 2 else 6) else 'parallel or concurrent'}); "
-            "they are solved with the joints"
+            f"({why}); they are solved with the joints"
         )
 
     # Incidence: for every joint, the columns acting on it and their direction vectors.
@@ -303,20 +311,18 @@ def solve_joints(model: Model) -> JointSolution:
     stalled = not known.all()
     if stalled:
         rest = np.nonzero(~known)[0]
-        A = assemble_equilibrium(model)
+        A = run.equilibrium_matrix()
         if len(rest) == A.shape[1] == A.shape[0]:
             # Nothing could be solved joint by joint: the simultaneous step is the whole system.
-            from verify.analysis.global_solve import equilibrium_lu
-
-            t = equilibrium_lu(model, A).solve(-F).reshape(n_unknowns, -1)
+            t = run.equilibrium_lu().solve(-F).reshape(n_unknowns, -1)
             steps.append(
                 JointStep(
                     "simultaneous", tuple(j.id for j in model.joints), tuple(int(c) for c in rest)
                 )
             )
             notes.append(
-                f"no joint with at most {d} unknowns: all {len(rest)} forces at {len(model.joints)} joints are "
-                "solved simultaneously (compound or complex truss)"
+                f"no joint with at most {d} unknowns: all {len(rest)} forces at "
+                f"{len(model.joints)} joints are solved simultaneously (compound or complex truss)"
             )
             residual = A @ t + F
             return JointSolution(
@@ -350,10 +356,11 @@ def solve_joints(model: Model) -> JointSolution:
             )
         )
         notes.append(
-            f"no joint with at most {d} unknowns remains after {sum(1 for s in steps if s.kind == 'joint')} joint(s): "
-            f"{len(rest)} forces at {len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
+            f"no joint with at most {d} unknowns remains after "
+            f"{sum(1 for s in steps if s.kind == 'joint')} joint(s): {len(rest)} forces at "
+            f"{len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
         )
-    A = assemble_equilibrium(model)
+    A = run.equilibrium_matrix()
     residual = A @ t + F
     max_residual = float(np.abs(residual).max()) if residual.size else 0.0
     return JointSolution(

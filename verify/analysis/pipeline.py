@@ -6,21 +6,17 @@ stable, determinate truss; the stiffness route needs stiffness and an indetermin
 
 from __future__ import annotations
 
-import gc
-import os
-import pickle
-import signal
-import threading
-from collections.abc import Callable
-from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from dataclasses import InitVar, dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.global_solve import solve_global
 from verify.analysis.joints import JointSolution, solve_joints
-from verify.analysis.stability import Classification, StabilityResult, solve_stability
+from verify.analysis.run import AnalysisRun
+from verify.analysis.stability import Classification, StabilityResult
+from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
 if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
@@ -29,11 +25,13 @@ if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
 
 ROUTE_RTOL = 1e-6  # routes must agree to this fraction of the largest force (round-off only)
 PARALLEL_MIN_MEMBERS = 20_000  # below this a second process costs more than it saves
-SERIAL_ENV = "TRUSS_VERIFY_SERIAL"  # set to any value to keep every route in one process
 
 
 @dataclass(frozen=True)
 class Analysis:
+    """Every result of one model's analysis, and the run that made them (`run`: the equilibrium
+    matrix, its LU and the solves the comparison asks for; verify.analysis.run)."""
+
     model: Model
     stability: StabilityResult
     joints: JointSolution | None = None
@@ -43,6 +41,12 @@ class Analysis:
     notes: tuple[str, ...] = field(default=())
     route_disagreement: float = 0.0  # largest |difference| between routes / largest force
     assumed_EA: float | None = None  # set when the reviewer asked to assume equal EA
+    # The run that made these results; a fresh one of `model` when not given.
+    shared: InitVar[AnalysisRun | None] = None
+    run: AnalysisRun = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self, shared: AnalysisRun | None) -> None:
+        object.__setattr__(self, "run", shared if shared is not None else AnalysisRun(self.model))
 
     @property
     def reference(self) -> ForceResult | None:
@@ -68,17 +72,17 @@ def analyse(
     # The section route needs only the loads and the overall reactions: on large trusses it
     # starts in a second process before the stability screen and is dropped if the truss turns
     # out not to be stable and determinate.
+    run = AnalysisRun(model)
+    run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
     child = None
     if sections and len(model.members) >= PARALLEL_MIN_MEMBERS:
-        from verify.analysis.joints import solve_reactions
         from verify.analysis.sections import solve_sections
 
-        model.load_matrix()
-        solve_reactions(model)  # both routes use these: computed once, before the fork
-        child = _Child.start(solve_sections, model)
+        run.overall_reactions()  # both routes start from these: solved once, before the fork
+        child = Forked.start(solve_sections, model)
     try:
         return _routes(
-            model,
+            run,
             child,
             sections=sections,
             assume_equal_EA=assume_equal_EA,
@@ -86,42 +90,52 @@ def analyse(
         )
     finally:
         if child is not None:
-            child.cancel()  # an error or an interruption on the way: no child or frozen heap left behind
+            # An error or an interruption on the way: no child or frozen heap left behind.
+            child.cancel()
 
 
 def _routes(
-    model: Model,
-    child: _Child | None,
+    run: AnalysisRun,
+    child: Forked[SectionSolution] | None,
     *,
     sections: bool,
     assume_equal_EA: float | None,
     displacements: bool,
 ) -> Analysis:
-    stability = solve_stability(model)
+    model = run.model
+    stability = run.stability()
     notes: list[str] = []
     if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
         child.cancel()
     if stability.classification is Classification.UNSTABLE:
-        return Analysis(model, stability, notes=("unstable: no forces can be recomputed",))
+        return Analysis(
+            model, stability, notes=("unstable: no forces can be recomputed",), shared=run
+        )
     if stability.classification is Classification.STABLE_INDETERMINATE:
         elastic = None
         if model.has_stiffness or assume_equal_EA is not None:
-            elastic = _stiffness_or_note(model, assume_equal_EA, notes)
+            elastic = _stiffness_or_note(run, assume_equal_EA, notes)
         else:
             missing = model.members_without_stiffness()
             notes.append(
-                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} member(s) lack EA "
-                f"({', '.join(missing[:10])}{' ...' if len(missing) > 10 else ''}): the forces cannot be recomputed; "
-                "only the equilibrium of claimed forces can be checked"
+                f"statically indeterminate (degree {stability.self_stress}) and {len(missing)} "
+                "member(s) lack EA "
+                f"({', '.join(missing[:10])}{' ...' if len(missing) > 10 else ''}): the forces "
+                "cannot be recomputed; only the equilibrium of claimed forces can be checked"
             )
         return Analysis(
-            model, stability, elastic=elastic, notes=tuple(notes), assumed_EA=assume_equal_EA
+            model,
+            stability,
+            elastic=elastic,
+            notes=tuple(notes),
+            assumed_EA=assume_equal_EA,
+            shared=run,
         )
-    joints = solve_joints(model)
-    global_ = solve_global(model)
+    joints = solve_joints(model, run)
+    global_ = solve_global(model, run)
     section_solution = None
     if child is not None:
-        section_solution = child.result()
+        section_solution = _child_result(child, model)
     elif sections:
         from verify.analysis.sections import solve_sections
 
@@ -131,7 +145,7 @@ def _routes(
     )
     elastic = None
     if displacements and (model.has_stiffness or assume_equal_EA is not None):
-        elastic = _stiffness_or_note(model, assume_equal_EA, notes)
+        elastic = _stiffness_or_note(run, assume_equal_EA, notes)
     return Analysis(
         model,
         stability,
@@ -142,86 +156,25 @@ def _routes(
         notes=tuple(notes),
         route_disagreement=disagreement,
         assumed_EA=assume_equal_EA,
+        shared=run,
     )
 
 
-class _Child:
-    """route(model) computed in a forked process, or in this one when forking is not possible.
+def _child_result(child: Forked[SectionSolution], model: Model) -> SectionSolution:
+    """The section route from its child process, or computed here if the child failed."""
+    try:
+        return child.result()
+    except ForkFailed:
+        from verify.analysis.sections import solve_sections
 
-    The child sends its result back pickled through a pipe. If forking is unavailable, disabled
-    (TRUSS_VERIFY_SERIAL) or the child fails, `result()` runs the route in this process.
-    """
-
-    def __init__(
-        self, route: Callable[[Model], Any], model: Model, pid: int | None, read_fd: int | None
-    ) -> None:
-        self.route, self.model, self.pid, self.read_fd = route, model, pid, read_fd
-
-    @classmethod
-    def start(cls, route: Callable[[Model], Any], model: Model) -> _Child:
-        # Forking a process that runs other threads (a notebook kernel, a web server) can
-        # deadlock the child on a lock another thread held: stay in one process there.
-        if not hasattr(os, "fork") or os.environ.get(SERIAL_ENV) or threading.active_count() > 1:
-            return cls(route, model, None, None)
-        read_fd, write_fd = os.pipe()
-        # Frozen objects are left alone by the cyclic collector, so neither process's collections
-        # touch (and so copy) the pages the two share after the fork.
-        gc.freeze()
-        try:
-            pid = os.fork()
-        except OSError:
-            gc.unfreeze()
-            os.close(read_fd)
-            os.close(write_fd)
-            return cls(route, model, None, None)
-        if pid == 0:  # the child: compute, send, and leave without running the parent's exit hooks
-            status = 1
-            try:
-                os.close(read_fd)
-                payload = pickle.dumps(route(model), protocol=pickle.HIGHEST_PROTOCOL)
-                with os.fdopen(write_fd, "wb") as pipe:
-                    pipe.write(payload)
-                status = 0
-            finally:
-                os._exit(status)
-        os.close(write_fd)
-        return cls(route, model, pid, read_fd)
-
-    def result(self) -> Any:
-        if self.pid is None or self.read_fd is None:
-            return self.route(self.model)
-        with os.fdopen(self.read_fd, "rb") as pipe:
-            payload = pipe.read()
-        _, status = os.waitpid(self.pid, 0)
-        self._done()
-        if status != 0 or not payload:
-            return self.route(self.model)
-        return pickle.loads(payload)
-
-    def cancel(self) -> None:
-        """The result is not wanted: stop the child and release what it holds."""
-        if self.pid is None or self.read_fd is None:
-            return
-        try:
-            os.kill(self.pid, signal.SIGKILL)
-        except ProcessLookupError:
-            pass
-        os.close(self.read_fd)
-        os.waitpid(self.pid, 0)
-        self._done()
-
-    def _done(self) -> None:
-        self.pid = self.read_fd = None
-        gc.unfreeze()
+        return solve_sections(model)
 
 
 def _stiffness_or_note(
-    model: Model, assume_equal_EA: float | None, notes: list[str]
+    run: AnalysisRun, assume_equal_EA: float | None, notes: list[str]
 ) -> ElasticSolution | None:
-    from verify.analysis.stiffness import solve_stiffness
-
     try:
-        return solve_stiffness(model, assume_equal_EA=assume_equal_EA)
+        return run.elastic(assume_equal_EA)
     except ValueError as exc:  # missing EA or a singular stiffness matrix: said, not raised
         notes.append(f"direct stiffness solve not possible: {exc}")
         return None

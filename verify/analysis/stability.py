@@ -11,7 +11,7 @@ the factorisation is singular rather than an exact count.
 
 Conditioning figure: rho = sigma_min / sigma_max of A is dimensionless but falls like 1/n^2 on
 long, sound trusses (2.5e-2 at 10 panels, 3e-6 at 1000; shared/PERFORMANCE.md). We therefore judge
-the *scaled* figure rho * S^2, with S the slenderness (model extent / median member length), which
+the *scaled* figure rho * S^2, with S the extent ratio (model extent / median member length), which
 stays near 2-3 for sound parallel-chord trusses of any length. Calibration (shared/REFERENCES.md
 1.2, two bars sagging by theta: rho ~ 0.54 theta, member force = P / (2 sin theta)): the
 threshold ILL_CONDITIONED_SCALED = 1e-2 corresponds to a sag of about 0.26 degrees, where member
@@ -29,7 +29,8 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from verify.analysis.equilibrium import assemble_equilibrium, rigid_body_modes
+from verify.analysis.equilibrium import rigid_body_modes
+from verify.analysis.run import AnalysisRun, lu_ordering
 from verify.model import Model
 
 DENSE_DOF_LIMIT = 400  # dense SVD (bases of every mode) costs ~0.1 s here; above, sparse LU first
@@ -48,6 +49,10 @@ LU_PIVOT_SINGULAR = (
 # trusses of 10 to 5000 panels with a mechanism plus two self-stresses, 3e-15 .. 2e-10, against
 # 1.5e-2 .. 1.9e-5 for sound ones (tests/test_stability.py); 1e-8 lies in the gap.
 K_PIVOT_SINGULAR = 1e-8
+# How the counts were obtained (the JSON structure's `method`): the rank of A from its singular
+# values, exact; or a sparse LU screen, whose counts are lower bounds.
+FULL_RANK_COUNT = "full-rank-count"
+SPARSE_SCREEN = "sparse-screen"
 MODE_SHARE = 1e-3  # a joint/member takes part in a mode when its share exceeds this fraction
 
 
@@ -85,11 +90,13 @@ class StabilityResult:
     self_stress: int
     rigid_body_mechanisms: int
     classification: Classification
-    method: str  # "dense-svd" or "sparse-lu"
+    method: str  # FULL_RANK_COUNT or SPARSE_SCREEN
     exact_counts: bool  # False when the sparse screen can only bound the counts
-    sigma_ratio: float | None  # sigma_min / sigma_max of A (non-trivial), dense method only
-    scaled_ratio: float | None  # sigma_ratio * slenderness^2, or the LU pivot ratio (sparse)
-    slenderness: float
+    # sigma_min / sigma_max of A (its non-zero singular values); None where not computed.
+    conditioning_ratio: float | None
+    # conditioning_ratio * extent_ratio^2, or the LU pivot ratio (sparse screen).
+    scaled_conditioning: float | None
+    extent_ratio: float  # model extent / median member length (not KL/r: no buckling here)
     ill_conditioned: bool
     mechanism_modes: tuple[MechanismMode, ...] = ()
     self_stress_modes: tuple[SelfStressMode, ...] = ()
@@ -119,9 +126,9 @@ class StabilityResult:
             "rigid_body_mechanisms": self.rigid_body_mechanisms,
             "method": self.method,
             "exact_counts": self.exact_counts,
-            "sigma_ratio": self.sigma_ratio,
-            "scaled_conditioning": self.scaled_ratio,
-            "slenderness": self.slenderness,
+            "conditioning_ratio": self.conditioning_ratio,
+            "scaled_conditioning": self.scaled_conditioning,
+            "extent_ratio": self.extent_ratio,
             "ill_conditioned": self.ill_conditioned,
             "mechanism_modes": [
                 {
@@ -139,7 +146,8 @@ class StabilityResult:
         }
 
 
-def slenderness(model: Model) -> float:
+def extent_ratio(model: Model) -> float:
+    """Model extent over the median member length (the S of the module docstring)."""
     extent = float(np.ptp(model.xyz, axis=0).max()) if len(model.joints) > 1 else 1.0
     typical = float(np.median(model.lengths)) if len(model.members) else 1.0
     return max(extent / typical, 1.0)
@@ -152,13 +160,19 @@ def _classify(m: int, s: int) -> Classification:
 
 
 def solve_stability(
-    model: Model, *, dense_limit: int = DENSE_DOF_LIMIT, detail_limit: int | None = None
+    model: Model,
+    *,
+    dense_limit: int = DENSE_DOF_LIMIT,
+    detail_limit: int | None = None,
+    run: AnalysisRun | None = None,
 ) -> StabilityResult:
-    """Classify the truss. Never infers stability from a solver not raising: counts come from rank."""
-    A = assemble_equilibrium(model)
+    """Classify the truss. Never infers stability from a solver not raising: counts come from
+    rank. The sparse screen's LU of a square A is handed to `run` for the global solve."""
+    run = run if run is not None else AnalysisRun(model)
+    A = run.equilibrium_matrix()
     if model.dofs <= dense_limit and A.shape[1] <= 2 * dense_limit:
         return _dense(model, A.toarray())
-    screened = _sparse(model, A)
+    screened = _sparse(model, A, run)
     # With an explicit dense_limit (tests of the sparse path) the hand-over follows it.
     limit = (
         detail_limit
@@ -183,12 +197,12 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
     rank = int((S > tol).sum())
     m = dofs - rank
     s = cols - rank
-    slender = slenderness(model)
+    extent = extent_ratio(model)
     nontrivial = S[:rank]
-    sigma_ratio = float(nontrivial.min() / smax) if rank else 0.0
+    rho = float(nontrivial.min() / smax) if rank else 0.0
     # When rank-deficient, the conditioning of the remaining part still matters, but the verdict
     # is already "unstable" or "indeterminate"; the figure reported is over the non-zero values.
-    scaled = sigma_ratio * slender**2
+    scaled = rho * extent**2
     ill = scaled < ILL_CONDITIONED_SCALED
     notes: list[str] = []
 
@@ -228,13 +242,15 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
                 notes.append(
                     "the loads of "
                     + ", ".join(ok)
-                    + " happen to be orthogonal to every mechanism, so they can be equilibrated; the truss is still unstable for other loads"
+                    + " happen to be orthogonal to every mechanism, so they can be equilibrated; "
+                    "the truss is still unstable for other loads"
                 )
         if model.dim * len(model.joints) - cols > 0 and m == dofs - cols:
             notes.append("Maxwell's count alone shows the missing members or supports")
         elif m > 0 and model.members and cols >= dofs:
             notes.append(
-                "Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or concurrent supports, collinear members, or a critical form)"
+                "Maxwell's count is satisfied, yet the geometry gives a mechanism (parallel or "
+                "concurrent supports, collinear members, or a critical form)"
             )
     ss_modes: list[SelfStressMode] = []
     if s:
@@ -252,8 +268,9 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
             notes.append(f"only the first 10 of {s} self-stress states are listed")
     if ill and m == 0:
         notes.append(
-            f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
-            f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
+            f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent ratio^2 = "
+            f"{scaled:.2e} (< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small "
+            "changes of geometry"
         )
     return StabilityResult(
         dim=model.dim,
@@ -265,11 +282,11 @@ def _dense(model: Model, A: np.ndarray) -> StabilityResult:
         self_stress=s,
         rigid_body_mechanisms=rigid,
         classification=_classify(m, s),
-        method="dense-svd",
+        method=FULL_RANK_COUNT,
         exact_counts=True,
-        sigma_ratio=sigma_ratio,
-        scaled_ratio=scaled,
-        slenderness=slender,
+        conditioning_ratio=rho,
+        scaled_conditioning=scaled,
+        extent_ratio=extent,
         ill_conditioned=bool(ill and m == 0),
         mechanism_modes=tuple(mech_modes),
         self_stress_modes=tuple(ss_modes),
@@ -309,9 +326,9 @@ def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
     )
 
 
-def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
+def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult:
     dofs, cols = A.shape
-    slender = slenderness(model)
+    extent = extent_ratio(model)
     notes: list[str] = [
         f"large model ({dofs} joint equations): sparse LU screen instead of a dense SVD"
     ]
@@ -320,9 +337,9 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         joints=len(model.joints),
         members=len(model.members),
         reactions=len(model.reactions),
-        method="sparse-lu",
-        sigma_ratio=None,
-        slenderness=slender,
+        method=SPARSE_SCREEN,
+        conditioning_ratio=None,
+        extent_ratio=extent,
     )
     if cols < dofs:
         m = dofs - cols
@@ -335,13 +352,13 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
             rigid_body_mechanisms=0,
             classification=Classification.UNSTABLE,
             exact_counts=False,
-            scaled_ratio=None,
+            scaled_conditioning=None,
             ill_conditioned=False,
             notes=tuple(notes),
         )
     if cols == dofs:
         M = A
-        spec = "COLAMD" if model.dim == 2 else "MMD_ATA"
+        spec = lu_ordering(model)
     else:
         # Unit-stiffness matrix A W A^T (W = 1/L): singular exactly when a mechanism exists.
         w = np.concatenate(
@@ -356,40 +373,43 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         lu = spla.splu(M, permc_spec=spec)
         if cols == dofs:
             # The global statics solve factors the same matrix with the same ordering: share it.
-            model.memo["equilibrium_lu"] = lu
+            run.keep_lu(lu)
         diag = np.abs(lu.U.diagonal())
         ratio = float(diag.min() / diag.max())
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
     except RuntimeError:
         ratio, singular = 0.0, True
-    sigma_ratio = scaled = None
+    rho = scaled = None
     ill = False
     if singular:
         notes.append(
-            "the factorisation is singular: at least one mechanism (exact count needs the dense method on a smaller model)"
+            "the factorisation is singular: at least one mechanism (exact count needs the dense "
+            "method on a smaller model)"
         )
         m, rank = 1, dofs - 1
     else:
         m, rank = 0, dofs
         if cols == dofs:
-            sigma_ratio = _sigma_ratio_estimate(A, lu)
-            scaled = sigma_ratio * slender**2
+            rho = _conditioning_estimate(A, lu)
+            scaled = rho * extent**2
             ill = bool(scaled < ILL_CONDITIONED_SCALED)
             notes.append(
-                f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU factors "
-                f"(LU pivot ratio {ratio:.2e})"
+                f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU "
+                f"factors (LU pivot ratio {ratio:.2e})"
             )
             if ill:
                 notes.append(
-                    f"near-mechanism: sigma_min/sigma_max = {sigma_ratio:.2e}, scaled by slenderness^2 = {scaled:.2e} "
-                    f"(< {ILL_CONDITIONED_SCALED:g}); member forces are sensitive to small changes of geometry"
+                    f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent "
+                    f"ratio^2 = {scaled:.2e} (< {ILL_CONDITIONED_SCALED:g}); member forces are "
+                    "sensitive to small changes of geometry"
                 )
         else:
             notes.append(
-                f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for indeterminate trusses this large)"
+                f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for "
+                "indeterminate trusses this large)"
             )
     s = cols - rank
-    base["sigma_ratio"] = sigma_ratio
+    base["conditioning_ratio"] = rho
     return StabilityResult(
         **base,
         rank=rank,
@@ -398,13 +418,13 @@ def _sparse(model: Model, A: sp.csc_matrix) -> StabilityResult:
         rigid_body_mechanisms=0,
         classification=_classify(m, s),
         exact_counts=not singular,
-        scaled_ratio=scaled if scaled is not None else ratio,
+        scaled_conditioning=scaled if scaled is not None else ratio,
         ill_conditioned=ill,
         notes=tuple(notes),
     )
 
 
-def _sigma_ratio_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
+def _conditioning_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
     """sigma_min / sigma_max of a square, non-singular A by power iterations.
 
     sigma_max from A^T A; sigma_min from (A^T A)^-1 = A^-1 A^-T, applied with the LU factors the

@@ -52,18 +52,17 @@ shows it.
 from __future__ import annotations
 
 import math
-import multiprocessing as mp
 import time
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from multiprocessing.connection import Connection
 
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.forces import ForceResult
+from verify.analysis.run import AnalysisRun
+from verify.forking import SERIAL_ENV, Forked, ForkFailed, ForkTimeout, fork_allowed
 from verify.model import Model
 
 ORDERING_TIME_BOX = 1.5  # s; MMD took 0.87 s on the 10^5-member grid where it is the better choice
@@ -86,9 +85,9 @@ class MissingStiffnessError(ValueError):
         shown = ", ".join(f"'{m}'" for m in self.members[:10])
         more = f" and {len(self.members) - 10} more" if len(self.members) > 10 else ""
         super().__init__(
-            f"{len(self.members)} member(s) have no axial stiffness EA: {shown}{more}; "
-            "the elastic forces of an indeterminate truss depend on EA. Give EA (or A and E) per "
-            "member or a default in [stiffness], or assume equal EA explicitly."
+            f"{len(self.members)} member(s) have no axial stiffness EA: {shown}{more}; the elastic "
+            "forces of an indeterminate truss depend on EA. Give EA (or A and E) per member or a "
+            "default in [stiffness], or assume equal EA explicitly."
         )
 
 
@@ -184,7 +183,8 @@ def free_direction_basis(model: Model) -> tuple[sp.csc_matrix, list[str]]:
             names = ", ".join(f"'{model.joints[j].id}'" for j in dependent[:10])
             notes.append(
                 f"the reaction directions at joint(s) {names} are linearly dependent: their split "
-                "between those components is not determined by statics or stiffness; the minimum-norm split is reported"
+                "between those components is not determined by statics or stiffness; the "
+                "minimum-norm split is reported"
             )
     joint_of, slot_of = np.nonzero(free)  # row-major: joint by joint
     ncols = len(joint_of)
@@ -218,7 +218,7 @@ def assemble_stiffness(model: Model, EA: np.ndarray) -> sp.csc_matrix:
 
 
 def reactions_from_equilibrium(
-    model: Model, member_forces: np.ndarray, loads: np.ndarray
+    model: Model, member_forces: np.ndarray, loads: np.ndarray, run: AnalysisRun | None = None
 ) -> np.ndarray:
     """Reaction components (r x columns) balancing member forces and loads at each supported joint.
 
@@ -232,7 +232,7 @@ def reactions_from_equilibrium(
         return np.zeros((0, cols))
     d = model.dim
     b = len(model.members)
-    A = assemble_equilibrium(model)
+    A = (run if run is not None else AnalysisRun(model)).equilibrium_matrix()
     g = A[:, :b] @ member_forces + loads  # net force on each joint without the reactions
     supported, where, D = _support_layout(model)
     G = np.transpose(D, (0, 2, 1))  # (ns, d, slots): columns are the directions
@@ -253,51 +253,39 @@ def _pivot_ratio(lu: spla.SuperLU) -> float:
     return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
 
 
-def _mmd_in_child(conn: Connection, K: sp.csc_matrix, rhs: np.ndarray) -> None:
-    """Runs in a forked process, so a runaway factorisation can be killed."""
-    try:
-        start = time.perf_counter()
-        lu = _symmetric_mmd(K)
-        x = lu.solve(rhs)
-        conn.send(("ok", x, _pivot_ratio(lu), lu.L.nnz + lu.U.nnz, time.perf_counter() - start))
-    except Exception as exc:  # noqa: BLE001 - any failure here only means "use the fallback"
-        conn.send(("error", f"{type(exc).__name__}: {exc}"))
-    finally:
-        conn.close()
+def _mmd_solve(K: sp.csc_matrix, rhs: np.ndarray) -> tuple[np.ndarray, float, int, float]:
+    """Runs in a forked process, so a runaway factorisation can be killed: (x, pivot ratio,
+    fill, seconds)."""
+    start = time.perf_counter()
+    lu = _symmetric_mmd(K)
+    x = lu.solve(rhs)
+    return x, _pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
 
 
-def _time_boxed_mmd(K: sp.csc_matrix, rhs: np.ndarray, time_box: float) -> tuple[tuple | None, str]:
-    """Symmetric MMD factorisation and solve in a child process, killed after `time_box` seconds.
+def _time_boxed_mmd(
+    K: sp.csc_matrix, rhs: np.ndarray, time_box: float
+) -> tuple[tuple[np.ndarray, float, int, float] | None, str]:
+    """Symmetric MMD factorisation and solve in a child process, stopped after `time_box` seconds.
 
-    Returns (("ok", x, pivot_ratio, fill, seconds) or None, reason for falling back).
+    Returns ((x, pivot_ratio, fill, seconds) or None, reason for falling back).
     """
+    if not fork_allowed():
+        return None, (
+            f"no child process to time-box MMD_AT_PLUS_A in (no fork() here, {SERIAL_ENV} set, or "
+            "other threads running)"
+        )
+    child = Forked.start(_mmd_solve, K, rhs)
     try:
-        ctx = mp.get_context("fork")
-    except ValueError:
-        return None, "no fork() on this platform to time-box MMD_AT_PLUS_A"
-    receiver, sender = ctx.Pipe(duplex=False)
-    child = ctx.Process(
-        target=_mmd_in_child, args=(sender, K, rhs), daemon=True, name="stiffness-mmd"
-    )
-    child.start()
-    sender.close()
-    try:
-        if not receiver.poll(time_box):
-            return None, (
-                f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box "
-                "(its fill can explode on some 3D grids) and was stopped"
-            )
-        message = receiver.recv()
-    except (EOFError, OSError):
-        return None, "the MMD_AT_PLUS_A attempt ended without an answer (out of memory?)"
+        return child.result(timeout=time_box), ""
+    except ForkTimeout:
+        return None, (
+            f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box (its fill can "
+            "explode on some 3D grids) and was stopped"
+        )
+    except ForkFailed as exc:
+        return None, f"MMD_AT_PLUS_A in symmetric mode failed ({exc})"
     finally:
-        if child.is_alive():
-            child.kill()
-        child.join()
-        receiver.close()
-    if message[0] != "ok":
-        return None, f"MMD_AT_PLUS_A in symmetric mode failed ({message[1]})"
-    return message, ""
+        child.cancel()  # nothing once it has answered; an interruption leaves no child behind
 
 
 def _solve_reduced(
@@ -319,14 +307,15 @@ def _solve_reduced(
                 lu.solve(rhs),
                 _pivot_ratio(lu),
                 [
-                    f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), {time.perf_counter() - start:.3g} s, "
+                    "sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), "
+                    f"{time.perf_counter() - start:.3g} s, "
                     + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
                 ],
             )
     else:
         answer, why = _time_boxed_mmd(K, rhs, time_box)
         if answer is not None:
-            _, x, ratio, fill, seconds = answer
+            x, ratio, fill, seconds = answer
             return (
                 x,
                 ratio,
@@ -340,8 +329,8 @@ def _solve_reduced(
         lu = spla.splu(K, permc_spec="COLAMD")
     except RuntimeError as exc:
         raise SingularStiffnessError(
-            f"the stiffness matrix is singular ({exc}): the truss with its supports is a mechanism; "
-            "the stability check names the joints that can move"
+            f"the stiffness matrix is singular ({exc}): the truss with its supports is a "
+            "mechanism; the stability check names the joints that can move"
         ) from None
     x = lu.solve(rhs)
     return (
@@ -355,13 +344,18 @@ def _solve_reduced(
 
 
 def solve_stiffness(
-    model: Model, *, assume_equal_EA: float | None = None, time_box: float = ORDERING_TIME_BOX
+    model: Model,
+    *,
+    assume_equal_EA: float | None = None,
+    time_box: float = ORDERING_TIME_BOX,
+    run: AnalysisRun | None = None,
 ) -> ElasticSolution:
     """Elastic member forces, reactions and joint displacements by the direct stiffness method.
 
     Raises MissingStiffnessError when some members have no EA and ``assume_equal_EA`` is None,
     and SingularStiffnessError when the supported truss is a mechanism (K_f singular).
     """
+    run = run if run is not None else AnalysisRun(model)
     EA, notes = member_stiffness(model, assume_equal_EA=assume_equal_EA)
     F = model.load_matrix()
     cols = F.shape[1]
@@ -377,13 +371,13 @@ def solve_stiffness(
         notes += order_notes
         if pivot_ratio < K_PIVOT_SINGULAR:
             raise SingularStiffnessError(
-                f"the stiffness matrix is singular to working precision (pivot ratio {pivot_ratio:.1e} "
-                f"< {K_PIVOT_SINGULAR:g}): the truss with its supports is a mechanism; "
-                "the stability check names the joints that can move"
+                "the stiffness matrix is singular to working precision (pivot ratio "
+                f"{pivot_ratio:.1e} < {K_PIVOT_SINGULAR:g}): the truss with its supports is a "
+                "mechanism; the stability check names the joints that can move"
             )
         notes.append(
-            f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; "
-            "the stability check decides on mechanisms)"
+            f"LU pivot ratio min/max |U_ii| = {pivot_ratio:.2e} (K pivots are only a screen; the "
+            "stability check decides on mechanisms)"
         )
         x = T @ xf.reshape(nfree, -1)[:, :cols]
     else:
@@ -395,8 +389,8 @@ def solve_stiffness(
     xj = x.reshape(len(model.joints), d, cols)
     elongation = np.einsum("bd,bdc->bc", model.unit_vectors, xj[e] - xj[s])
     N = (EA / model.lengths)[:, None] * elongation
-    R = reactions_from_equilibrium(model, N, F)
-    A = assemble_equilibrium(model)
+    R = reactions_from_equilibrium(model, N, F, run)
+    A = run.equilibrium_matrix()
     residual = A @ np.vstack([N, R]) + F if cols else np.zeros((model.dofs, 0))
     max_residual = float(np.abs(residual).max()) if residual.size else 0.0
     scale = max(

@@ -15,7 +15,10 @@ from typing import Any
 from verify.batch.jobs import Job
 from verify.batch.worker import FAULT, CaseResult, check_job
 
-INSTALL_HINT = "--scheduler needs Dask's distributed scheduler, an optional extra: pip install 'truss-verify[cluster]'"
+INSTALL_HINT = (
+    "--scheduler needs Dask's distributed scheduler, an optional extra: pip install "
+    "'truss-verify[cluster]'"
+)
 CONNECT_TIMEOUT = "10s"  # an address that answers nothing is refused in seconds, not the default 30
 
 
@@ -70,5 +73,6 @@ class DaskRunner:
                 yield CaseResult(
                     futures[future].name,
                     FAULT,
-                    reason=f"the Dask worker running this case failed ({type(exc).__name__}: {exc})",
+                    reason=f"the Dask worker running this case failed ({type(exc).__name__}: "
+                    f"{exc})",
                 )

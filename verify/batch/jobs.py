@@ -14,7 +14,7 @@ stand for `_`):
     sign            tension-positive | compression-positive | auto           (as `check --sign`)
     unit            the claims' force unit, or auto                           (`check --unit`)
     sheet, pages    the worksheet of an .xlsx, the pages of a PDF             (`--sheet`, `--pages`)
-    rtol, atol_fraction                                                      (`--rtol`, `--atol-fraction`)
+    rtol, atol_fraction                                   (`--rtol`, `--atol-fraction`)
     member_column, case_column, force_column                                 (the `check` options)
     load_case       the load case of a single-column table                    (`check --case`)
     assume_equal_ea one EA for every member of an indeterminate truss        (`--assume-equal-ea`)
@@ -98,8 +98,8 @@ def find_jobs(target: str | Path, *, output: Path | None = None) -> tuple[list[J
             [
                 Problem(
                     str(target),
-                    f"no case folders found (a folder holding {CASE_FILE} and a claims "
-                    f"table such as claims.csv) and no {MANIFEST_FILE}",
+                    f"no case folders found (a folder holding {CASE_FILE} and a claims table such "
+                    f"as claims.csv) and no {MANIFEST_FILE}",
                 )
             ]
         )
@@ -127,16 +127,19 @@ def _case_folders(root: Path, output: Path | None) -> list[Job]:
                         name,
                         None,
                         None,
-                        problem=f"a claims table ({claims[0].name}) without a {CASE_FILE} beside it",
+                        problem=f"a claims table ({claims[0].name}) without a {CASE_FILE} beside "
+                        "it",
                     )
                 )
             continue
         case = str((here / CASE_FILE).resolve())
         if len(claims) != 1:
             problem = (
-                f"no claims table beside {CASE_FILE} (name it claims.csv, claims.xlsx or claims.pdf)"
+                f"no claims table beside {CASE_FILE} (name it claims.csv, claims.xlsx or "
+                "claims.pdf)"
                 if not claims
-                else f"several claims tables ({', '.join(p.name for p in claims)}); keep one, or list the case in a {MANIFEST_FILE}"
+                else f"several claims tables ({', '.join(p.name for p in claims)}); keep one, or "
+                f"list the case in a {MANIFEST_FILE}"
             )
             jobs.append(Job(name, name, case, None, problem=problem))
             continue
@@ -190,14 +193,15 @@ def read_manifest(path: Path) -> list[Job]:
     for h, key in zip(header, keys, strict=True):
         if key and key not in MANIFEST_COLUMNS:
             problems.add(
-                f"unknown column {quoted(h)}; the columns are {', '.join(MANIFEST_COLUMNS)}."
-                f"{did_you_mean(key, MANIFEST_COLUMNS)}",
+                f"unknown column {quoted(h)}; the columns are "
+                f"{', '.join(MANIFEST_COLUMNS)}.{did_you_mean(key, MANIFEST_COLUMNS)}",
                 line=header_line,
             )
     for required in ("case", "claims"):
         if required not in keys:
             problems.add(
-                f"no {required!r} column in the header row (found {', '.join(quoted(h) for h in header)})",
+                f"no {required!r} column in the header row (found "
+                f"{', '.join(quoted(h) for h in header)})",
                 line=header_line,
             )
     repeated = sorted({k for k in keys if k and keys.count(k) > 1})

@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import multiprocessing
 import re
-import threading
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from concurrent.futures.process import BrokenProcessPool
@@ -28,6 +27,7 @@ from verify.batch.state import STATE_FILE, load_state, render_state, unchanged_r
 from verify.batch.summary import render_index_html, render_summary_csv
 from verify.batch.worker import BAD_INPUT, EXIT_FAULT, FAULT, CaseResult, check_job
 from verify.errors import EXIT_AGREES, EXIT_BAD_INPUT, EXIT_CANNOT_VERIFY, EXIT_DISCREPANCIES
+from verify.forking import fork_allowed
 from verify.report.atomic import OutputError, write_atomic
 
 OUTPUT_FOLDER = "truss-verify-batch"
@@ -85,11 +85,11 @@ def _warm_imports() -> None:
 
 
 def _start_method() -> str:
-    """fork when it is safe: a worker then starts with the pipeline imported (about 0.5 s per
-    process otherwise). A process running other threads (a notebook, a Dask client) can deadlock
-    a forked child on a lock one of them held, as verify.analysis.pipeline also knows."""
+    """fork when verify.forking allows it: a worker then starts with the pipeline imported (about
+    0.5 s per process otherwise); a process running other threads (a notebook, a Dask client)
+    could deadlock a forked child on a lock one of them held."""
     methods = multiprocessing.get_all_start_methods()
-    if "fork" in methods and threading.active_count() == 1:
+    if "fork" in methods and fork_allowed():
         return "fork"
     return "forkserver" if "forkserver" in methods else "spawn"
 
@@ -114,8 +114,9 @@ def local_runner(workers: int) -> Runner:
                         futures[future].name,
                         FAULT,
                         reason=(
-                            "the worker process stopped (killed, or out of memory) while this case or one beside it "
-                            "was checked; check it alone with `truss-verify check`"
+                            "the worker process stopped (killed, or out of memory) while this "
+                            "case or one beside it was checked; check it alone with `truss-verify "
+                            "check`"
                         ),
                     )
 

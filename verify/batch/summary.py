@@ -63,8 +63,10 @@ def escape(text: str) -> str:
 
 
 _CSS = """
-body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;margin:0 auto;max-width:1180px;padding:16px 24px;font-size:15px}
-table{border-collapse:collapse}td,th{border:1px solid #bbb;padding:3px 7px;vertical-align:top}th{background:#eee;text-align:left}
+body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;margin:0 auto;
+max-width:1180px;padding:16px 24px;font-size:15px}
+table{border-collapse:collapse}td,th{border:1px solid #bbb;padding:3px 7px;vertical-align:top}
+th{background:#eee;text-align:left}
 td.num{text-align:right;font-variant-numeric:tabular-nums}td.agrees{color:#00734f}td.discrepancies{color:#b34700;font-weight:bold}
 td.cannot-verify{color:#8a5d00;font-weight:bold}td.bad-input,td.fault{color:#8b0000;font-weight:bold}
 """
@@ -87,7 +89,8 @@ def render_index_html(
         rows.append(
             f'<tr><td>{link}</td><td class="{escape(result.status)}">{escape(result.status)}</td>'
             f'<td class="num">{result.findings}</td><td>{escape(detail)}</td>'
-            f'<td class="num">{result.seconds:.2f}</td><td>{"unchanged" if result.unchanged else "this run"}</td>'
+            f'<td class="num">{result.seconds:.2f}</td>'
+            f"<td>{'unchanged' if result.unchanged else 'this run'}</td>"
             f"<td>{escape(job.origin)}</td></tr>"
         )
     tally = ", ".join(f"{n} {escape(status)}" for status, n in counts.items() if n)
@@ -95,7 +98,8 @@ def render_index_html(
         '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
         f"<title>{escape(title)}</title><style>{_CSS}</style></head><body>\n"
         f"<h1>{escape(title)}</h1>\n<p><strong>{escape(status_line)}</strong></p>\n<p>{tally}.</p>\n"
-        "<table><thead><tr><th>case (report)</th><th>status</th><th>findings</th><th>most serious finding, or why "
+        "<table><thead><tr><th>case (report)</th><th>status</th><th>findings</th><th>most serious "
+        "finding, or why "
         "not checked</th><th>seconds</th><th>checked</th><th>from</th></tr></thead><tbody>\n"
         + "\n".join(rows)
         + f"\n</tbody></table>\n<p><em>Caution: {escape(CAUTION)}</em></p>\n</body></html>\n"

@@ -23,7 +23,6 @@ from verify.errors import (
     EXIT_CANNOT_VERIFY,
     EXIT_DISCREPANCIES,
     InputError,
-    OptionError,
 )
 
 EXIT_FAULT = 70  # as `check` exits on a fault in the tool (EX_SOFTWARE)
@@ -75,9 +74,8 @@ def check_job(job: Job) -> CaseResult:
         return CaseResult(job.name, BAD_INPUT, reason=job.problem)
     try:
         result = _review(job)
-    except (InputError, OptionError) as error:
-        message = error.render() if isinstance(error, InputError) else str(error)
-        result = CaseResult(job.name, BAD_INPUT, reason=message)
+    except InputError as error:  # OptionError included: one type for every bad input
+        result = CaseResult(job.name, BAD_INPUT, reason=error.render())
     except MemoryError:
         result = CaseResult(job.name, FAULT, reason="out of memory while checking this case")
     except Exception as error:  # noqa: BLE001 - a fault in the tool must not stop the other cases
@@ -90,7 +88,8 @@ def check_job(job: Job) -> CaseResult:
     return replace(result, seconds=time.perf_counter() - start)
 
 
-# The manifest's column names where they differ from CheckOptions' fields; messages use the column's.
+# The manifest's column names where they differ from CheckOptions' fields; messages use the
+# column's.
 _MANIFEST_FIELDS = {"assume_equal_ea": "assume_equal_EA"}
 
 

@@ -10,13 +10,16 @@ Vectorised over joints: one sparse product per load column.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.sparse as sp
 
-from verify.analysis.equilibrium import assemble_equilibrium
 from verify.compare.tolerances import Tolerance
 from verify.model import Model
+
+if TYPE_CHECKING:
+    from verify.analysis.pipeline import Analysis
 
 
 @dataclass(frozen=True)
@@ -39,7 +42,7 @@ def _incidence(model: Model) -> tuple[sp.csr_matrix, np.ndarray]:
 
 
 def claims_balance(
-    model: Model,
+    analysis: Analysis,
     claimed: np.ndarray,
     reaction_claims: dict[tuple[int, int], float],
     load_names: list[str],
@@ -52,11 +55,12 @@ def claims_balance(
     was written with: members rounded honestly leave some force unbalanced at a joint, about the
     root-sum-square of their allowances, which is not an error.
     """
+    model = analysis.model
     d = model.dim
     b = len(model.members)
     nj = len(model.joints)
     F = model.load_matrix()
-    A = assemble_equilibrium(model)[:, :b]
+    A = analysis.run.equilibrium_matrix()[:, :b]
     incidence, degree = _incidence(model)
     reactions_at: dict[int, list[int]] = {}
     for n, r in enumerate(model.reactions):

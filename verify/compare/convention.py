@@ -3,8 +3,8 @@
 For every candidate (sign, factor) we count the members whose scaled claim agrees with the
 recomputed force. Factors are unit slips seen in practice (shared/REFERENCES.md 5.2; NIST SP 811
 App. B): x1000 (N<->kN, lbf<->kip), 4.4482216 (kip<->kN, lbf<->N), 4448.2216 (kip<->N),
-0.0044482 (lbf<->kN), 9.80665 (kgf<->N, tonne-force<->kN), 0.00980665 (kgf<->kN), 8.896443 (short ton-force<->kN),
-9.964016 (long ton-force<->kN), and their inverses.
+0.0044482 (lbf<->kN), 9.80665 (kgf<->N, tonne-force<->kN), 0.00980665 (kgf<->kN),
+8.896443 (short ton-force<->kN), 9.964016 (long ton-force<->kN), and their inverses.
 """
 
 from __future__ import annotations

@@ -24,7 +24,6 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
-from verify.analysis.equilibrium import assemble_equilibrium
 from verify.analysis.forces import ForceResult
 from verify.analysis.pipeline import ROUTE_RTOL, Analysis
 from verify.analysis.stability import Classification
@@ -102,10 +101,10 @@ class Convention:
             "sign": self.sign,
             "scale": self.scale,
             "inferred": self.inferred,
-            "unit": self.unit,
+            "claims_unit": self.unit,
             "unit_source": self.unit_source,
             "scale_reason": self.scale_reason,
-            "support": self.support,
+            "evidence": self.support,
             "column_readings": list(self.column_readings),
             "stated_sign": self.stated_sign or None,
         }
@@ -328,7 +327,7 @@ def _structure(c: Comparison) -> None:
                 f"the truss is unstable: {stab.mechanisms}{'' if stab.exact_counts else '+'} "
                 f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; Maxwell count "
                 f"b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be recomputed.",
-                Severity.BLOCKER,
+                Severity.CANNOT_VERIFY,
             )
         )
     elif stab.classification is Classification.STABLE_INDETERMINATE:
@@ -341,7 +340,7 @@ def _structure(c: Comparison) -> None:
                     f"statically indeterminate to degree {stab.self_stress} "
                     "and member stiffness (EA) is not given for every member: statics cannot tell how the force is shared "
                     "among the redundant members, so only the equilibrium of the claimed forces is checked.",
-                    Severity.BLOCKER,
+                    Severity.CANNOT_VERIFY,
                 )
             )
         else:
@@ -364,8 +363,9 @@ def _structure(c: Comparison) -> None:
             Finding(
                 "ill-conditioned",
                 (),
-                f"near-mechanism geometry: sigma_min/sigma_max = {stab.sigma_ratio:.2e}, "
-                f"scaled by slenderness^2 = {stab.scaled_ratio:.2e}; small changes of geometry change the forces a lot",
+                f"near-mechanism geometry: sigma_min/sigma_max = {stab.conditioning_ratio:.2e}, "
+                f"scaled by the extent ratio^2 = {stab.scaled_conditioning:.2e}; "
+                "small changes of geometry change the forces a lot",
                 Severity.INFO,
             )
         )
@@ -799,7 +799,7 @@ def _table_convention(c: Comparison) -> None:
                 matrix[member_pos[idx], load_pos] = (
                     raw[idx] * conv[idx] * np.where(fixed, 1.0, sign_k * stated_sign) * factor_k
                 )
-                return len(claims_balance(model, matrix, {}, load_names, tol))
+                return len(claims_balance(c.analysis, matrix, {}, load_names, tol))
 
             table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
         if table_level:
@@ -1650,7 +1650,7 @@ def _balance(c: Comparison) -> None:
     stab, tol = c.stab, c.tol
     # Equilibrium of the claims themselves.
     imbalances = claims_balance(
-        model, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix
+        c.analysis, claimed_matrix, reaction_claims, load_names, tol, rounding_matrix
     )
     checkable = checkable_joints(model, claimed_matrix, load_names)
     implied = implied_loads(model, imbalances, checkable)
@@ -1808,7 +1808,7 @@ def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple
     self-stress; they are a swap only if exchanging them back makes their joints balance better."""
     model = c.model
     k = model.load_names.index(name)
-    A = assemble_equilibrium(model)[:, : len(model.members)]
+    A = c.analysis.run.equilibrium_matrix()[:, : len(model.members)]
     column = np.nan_to_num(c.claimed_matrix[:, k])
     m1, m2 = model.member_index[first[1].member], model.member_index[second[1].member]
     joints = np.unique(np.concatenate([model.ends_index[m1], model.ends_index[m2]]))
@@ -1847,14 +1847,10 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
     self-stress); None when that cannot be told (no stiffness solve)."""
     if analysis.elastic is None:
         return None
-    from verify.analysis.stiffness import members_fixed_by_statics
-
     model = analysis.model
     try:
-        fixed = members_fixed_by_statics(
-            model,
-            analysis.elastic.forces.member_forces,
-            assume_equal_EA=analysis.assumed_EA,
+        fixed = analysis.run.members_fixed_by_statics(
+            analysis.elastic.forces.member_forces, analysis.assumed_EA
         )
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
@@ -2003,7 +1999,7 @@ def _verdict(
         return Verdict.CANNOT_VERIFY
     if any(f.severity is Severity.ERROR for f in findings):
         return Verdict.DISCREPANCIES
-    if any(f.severity is Severity.BLOCKER for f in findings):
+    if any(f.severity is Severity.CANNOT_VERIFY for f in findings):
         return Verdict.CANNOT_VERIFY
     return Verdict.AGREES
 
@@ -2022,14 +2018,14 @@ def _explain_indeterminate(
     """Split an indeterminate truss's differences into equilibrium errors and self-stress.
 
     Claims that balance at every joint differ from the elastic solution only by a state of
-    self-stress: other stiffness assumptions, not an error ("not-elastic"). Where the claims do
+    self-stress: other stiffness assumptions, not an error ("stiffness-dependent"). Where they do
     not balance, the joint residuals are explained member by member: a wrong value in member m
     leaves residual e * a_m at its two joints (a_m its column of the equilibrium matrix), so the
     member whose column best fits the residual, and the size e, are found by least squares.
     """
     model = analysis.model
     out: list[Finding] = []
-    imbalances = claims_balance(model, claimed, reaction_claims, load_names, tol, rounding)
+    imbalances = claims_balance(analysis, claimed, reaction_claims, load_names, tol, rounding)
     d = model.dim
     for name in load_names:
         k = load_names.index(name)
@@ -2117,7 +2113,7 @@ def _explain_indeterminate(
         rest = [(r, v) for r, v, *_ in case_rows if v.member not in blamed]
         if rest:
             for r, _ in rest:
-                rows[r] = _with_status(rows[r], "not-elastic")
+                rows[r] = _with_status(rows[r], "stiffness-dependent")
             size = max(abs(rows[r].difference or 0.0) for r, _ in rest)
             members = tuple(v.member for _, v in rest if v.member)
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
@@ -2144,7 +2140,7 @@ def _explain_indeterminate(
             )
             out.append(
                 Finding(
-                    "not-elastic",
+                    "stiffness-dependent",
                     members,
                     f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
                     f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: "

@@ -9,6 +9,7 @@ Analysis*, "Method of virtual work: trusses"; shared/REFERENCES.md 3.7), and pri
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -19,6 +20,9 @@ from verify.compare.tolerances import Tolerance, rounding_allowance
 from verify.io.displacements import DisplacementClaims
 from verify.model import Model
 
+if TYPE_CHECKING:  # a result type, made by the analysis run (analysis.run.unit_load_deflection)
+    from verify.analysis.virtual_work import VirtualWorkCalc
+
 AXES = ("x", "y", "z")
 MAX_HAND_CALCS = 5  # virtual-work tables printed per review; every claim is still compared
 
@@ -27,7 +31,7 @@ MAX_HAND_CALCS = 5  # virtual-work tables printed per review; every claim is sti
 class DisplacementCheck:
     rows: tuple[Row, ...]
     findings: tuple[Finding, ...]
-    calcs: tuple[object, ...]  # verify.analysis.virtual_work.VirtualWorkCalc
+    calcs: tuple[VirtualWorkCalc, ...]
     calc_cases: tuple[str, ...]
 
 
@@ -40,7 +44,7 @@ def compare_displacements(
     elastic = analysis.elastic
     rows: list[Row] = []
     findings: list[Finding] = []
-    calcs: list[object] = []
+    calcs: list[VirtualWorkCalc] = []
     calc_cases: list[str] = []
     if elastic is None:
         missing = model.members_without_stiffness()
@@ -69,9 +73,9 @@ def compare_displacements(
             Finding(
                 "displacement-mismatch",
                 (),
-                f"claimed displacements cannot be checked: {reason}; "
-                "give EA (or A and E) for every member",
-                Severity.BLOCKER,
+                f"claimed displacements cannot be checked: {reason}; give EA (or A and E) for "
+                "every member",
+                Severity.CANNOT_VERIFY,
             )
         )
         return DisplacementCheck(tuple(rows), tuple(findings), (), ())
@@ -84,7 +88,8 @@ def compare_displacements(
         computed = float(disp[j * d + AXES.index(c.axis), k])
         scale = float(np.abs(disp[:, k]).max()) if disp.size else 0.0
         atol = tol.atol_fraction * scale
-        # Half a unit in the last decimal as written, in the unit it was written in ('0 mm' is not +-0.5 m).
+        # Half a unit in the last decimal as written, in the unit it was written in ('0 mm' is
+        # not +-0.5 m).
         ok = tol.agrees(c.value, computed, atol, rounding_allowance(c.value / c.scale, c.scale))
         status = "agrees" if ok else "displacement-mismatch"
         rows.append(
@@ -111,7 +116,10 @@ def compare_displacements(
                 # Under one point load the loaded joint moves with the load along its line whatever
                 # the member sizes (the load's work, P x delta, equals the strain energy > 0).
                 assumed = None
-                sign += ": a joint carrying the only load moves along that load, whatever the member sizes"
+                sign += (
+                    ": a joint carrying the only load moves along that load, whatever the member "
+                    "sizes"
+                )
             # Deflections scale with 1/EA: against an assumed EA a difference is no evidence.
             findings.append(
                 Finding(
@@ -120,8 +128,8 @@ def compare_displacements(
                     f"joint {c.joint} along {c.axis} in '{c.case}': claimed "
                     f"{_length(c.value, unit)}, recomputed {_length(computed, unit)}{sign}"
                     + (
-                        f" with the equal EA assumed ({assumed:g}): not evidence of an error, since deflections "
-                        "depend on the real member sizes"
+                        f" with the equal EA assumed ({assumed:g}): not evidence of an error, "
+                        "since deflections depend on the real member sizes"
                         if assumed is not None
                         else ""
                     ),
@@ -130,12 +138,10 @@ def compare_displacements(
                 )
             )
         if len(calcs) < MAX_HAND_CALCS:
-            from verify.analysis.virtual_work import unit_load_deflection
-
             direction = [1.0 if a == c.axis else 0.0 for a in AXES[:d]]
             try:
-                calc = unit_load_deflection(
-                    model, forces[:, k], c.joint, direction, assume_equal_EA=_assumed_EA(analysis)
+                calc = analysis.run.unit_load_deflection(
+                    forces[:, k], c.joint, direction, _assumed_EA(analysis)
                 )
             except ValueError:
                 continue
@@ -145,7 +151,8 @@ def compare_displacements(
 
 
 def _against_its_only_load(model: Model, case: str, joint: str, axis: str, value: float) -> bool:
-    """True when `case` is one load at `joint`, along `axis` only, and `value` does not go with it."""
+    """True when `case` is one load at `joint`, along `axis` only, and `value` does not go with
+    it."""
     if case not in {c.name for c in model.cases}:
         return False
     loads = next(c for c in model.cases if c.name == case).loads

@@ -8,7 +8,7 @@ from enum import StrEnum
 
 class Severity(StrEnum):
     ERROR = "error"  # the claims disagree: the verdict becomes "discrepancies"
-    BLOCKER = "blocker"  # the truss cannot be verified: the verdict becomes "cannot-verify"
+    CANNOT_VERIFY = "cannot-verify"  # the verdict becomes "cannot-verify", the same word
     INFO = "info"  # worth knowing, never changes the verdict by itself
 
 
@@ -27,7 +27,7 @@ class FindingKind(StrEnum):
     SIGN_FLIP = "sign-flip"
     ZERO_FORCE_CLAIMED = "zero-force-claimed"
     UNKNOWN_LABEL = "unknown-label"
-    NOT_ELASTIC = "not-elastic"
+    STIFFNESS_DEPENDENT = "stiffness-dependent"  # balanced; only the elastic share differs
     ILL_CONDITIONED = "ill-conditioned"
     INDETERMINATE = "indeterminate"
     MISSING_CLAIM = "missing-claim"
@@ -50,7 +50,7 @@ class RowStatus(StrEnum):
     UNIT_SCALE = "unit-scale"
     SWAPPED_LABELS = "swapped-labels"
     ZERO_FORCE_CLAIMED = "zero-force-claimed"
-    NOT_ELASTIC = "not-elastic"
+    STIFFNESS_DEPENDENT = "stiffness-dependent"  # balanced; only the elastic share differs
     NOT_VERIFIABLE = "not-verifiable"
     MISSING_CLAIM = "missing-claim"
     DISPLACEMENT_MISMATCH = "displacement-mismatch"
@@ -83,7 +83,9 @@ KINDS: dict[str, Kind] = {
         Kind("zero-force-claimed", "Force claimed for a zero-force member", 8),
         Kind("unknown-label", "Label not in the model", 9),
         Kind(
-            "not-elastic", "Equilibrium holds; distribution differs from the elastic solution", 10
+            "stiffness-dependent",
+            "Equilibrium holds; distribution differs from the elastic solution",
+            10,
         ),
         Kind("ill-conditioned", "Near-unstable geometry", 11),
         Kind("indeterminate", "Statically indeterminate", 12),
@@ -172,9 +174,9 @@ def worded(kind: str, **fields: object) -> str:
 
 
 def ordered(findings: list[Finding]) -> list[Finding]:
-    """Most serious first: blockers, errors, then information; within a level by kind, then by how
+    """Most serious first: cannot-verify, errors, then information; within a level by kind, then by how
     many claims a finding explains."""
-    level = {Severity.BLOCKER: 0, Severity.ERROR: 1, Severity.INFO: 2}
+    level = {Severity.CANNOT_VERIFY: 0, Severity.ERROR: 1, Severity.INFO: 2}
     # Within a kind, the finding that explains most claims first (causes: the biggest first).
     return sorted(
         findings, key=lambda f: (level[f.severity], KINDS[f.kind].rank, -(f.explains or 0))

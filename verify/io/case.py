@@ -200,9 +200,9 @@ def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
             [
                 Problem(
                     name,
-                    "this looks like a table (CSV or a spreadsheet), not a case file: the case is a "
-                    "TOML file (title, [units], [joints], [members], [supports], [loads]; see the README); "
-                    "a claimed-forces table goes after --claims",
+                    "this looks like a table (CSV or a spreadsheet), not a case file: the case is "
+                    "a TOML file (title, [units], [joints], [members], [supports], [loads]; see "
+                    "the README); a claimed-forces table goes after --claims",
                 )
             ]
         ) from None
@@ -219,8 +219,8 @@ def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
             [
                 Problem(
                     name,
-                    "not a usable case file: values nested too deeply; a case needs "
-                    "tables of arrays, at most two levels down",
+                    "not a usable case file: values nested too deeply; a case needs tables of "
+                    "arrays, at most two levels down",
                 )
             ]
         ) from None
@@ -235,8 +235,8 @@ def read_case(path: str | Path, *, tables_outside: bool = False) -> Model:
             [
                 Problem(
                     name,
-                    "not a usable case file: an integer with thousands of digits; "
-                    "numbers in a case have at most 17 significant figures",
+                    "not a usable case file: an integer with thousands of digits; numbers in a "
+                    "case have at most 17 significant figures",
                 )
             ]
         ) from None
@@ -260,7 +260,8 @@ def build_model(
     for key in data:
         if key not in TOP_KEYS:
             ctx.add(
-                f"unknown key '{key}'; expected one of {', '.join(TOP_KEYS)}.{did_you_mean(key, TOP_KEYS)}",
+                f"unknown key '{key}'; expected one of "
+                f"{', '.join(TOP_KEYS)}.{did_you_mean(key, TOP_KEYS)}",
                 key,
             )
 
@@ -308,7 +309,8 @@ def build_model(
         for joint in case.loads:
             if joint in joint_ids and joint not in connected and members:
                 ctx.add(
-                    f"load case '{case.name}' loads joint '{joint}', which no member connects; a load there cannot reach the supports",
+                    f"load case '{case.name}' loads joint '{joint}', which no member connects; a "
+                    "load there cannot reach the supports",
                     "loads",
                     case.name,
                     joint,
@@ -358,7 +360,8 @@ def build_model(
 def _read_units(ctx: _Ctx, table: Any) -> Units | None:
     if table is None:
         ctx.add(
-            'missing [units] table; declare length and force units, e.g. length = "m", force = "kN"',
+            'missing [units] table; declare length and force units, e.g. length = "m", force = '
+            '"kN"',
             line=1,
         )
         return None
@@ -368,7 +371,8 @@ def _read_units(ctx: _Ctx, table: Any) -> Units | None:
     for key in table:
         if key not in UNIT_KEYS:
             ctx.add(
-                f"unknown key '{key}' in [units]; expected {', '.join(UNIT_KEYS)}.{did_you_mean(key, UNIT_KEYS)}",
+                f"unknown key '{key}' in [units]; expected "
+                f"{', '.join(UNIT_KEYS)}.{did_you_mean(key, UNIT_KEYS)}",
                 "units",
                 key,
             )
@@ -398,7 +402,8 @@ def _stiffness_units(ctx: _Ctx, table: Any) -> tuple[float | None, float | None]
             result.append(options[value.replace("²", "2")])
         else:
             ctx.add(
-                f"units.{key}: unknown unit '{value}'; accepted: {', '.join(options)}.{did_you_mean(str(value), list(options))}",
+                f"units.{key}: unknown unit '{value}'; accepted: "
+                f"{', '.join(options)}.{did_you_mean(str(value), list(options))}",
                 "units",
                 key,
             )
@@ -423,21 +428,30 @@ def _table_text(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...]) -> tup
     text = ""
     if not ctx.tables_outside and not inside_folder(path, base):
         problem = (
-            f"{field_name} names the table {quoted(name)}, which is outside the case's folder {base}; "
-            "tables stay beside the case file. Move it there, or pass --tables-anywhere"
+            f"{field_name} names the table {quoted(name)}, which is outside the case's folder "
+            f"{base}; tables stay beside the case file. Move it there, or pass --tables-anywhere"
         )
     else:
         try:
             text = read_regular_file(path, limit=TABLE_MAX_BYTES).decode("utf-8-sig")
         except FileNotFoundError:
-            problem = f"{field_name} names the table {quoted(name)}, which does not exist (looked in {base})"
+            problem = (
+                f"{field_name} names the table {quoted(name)}, which does not exist (looked in "
+                f"{base})"
+            )
         except UnreadableFile as exc:
             problem = f"{field_name}: table {quoted(name)}: {exc}"
         except UnicodeDecodeError as exc:
-            problem = f"{field_name}: table {quoted(name)} is not UTF-8 text (byte {exc.start}); save it as UTF-8 CSV"
+            problem = (
+                f"{field_name}: table {quoted(name)} is not UTF-8 text (byte {exc.start}); save it "
+                "as UTF-8 CSV"
+            )
         else:
             if "\x00" in text:
-                problem = f"{field_name}: table {quoted(name)} holds NUL bytes (byte {text.index(chr(0))}); it is not a text table"
+                problem = (
+                    f"{field_name}: table {quoted(name)} holds NUL bytes (byte "
+                    f"{text.index(chr(0))}); it is not a text table"
+                )
     if problem is not None:
         ctx.add(problem, *where)
         ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
@@ -496,8 +510,8 @@ def _csv_rows(
         ctx.problems.problems.append(
             Problem(
                 file,
-                f"not readable as CSV from here on ({exc}); a table has one "
-                "row per line, fields separated by commas",
+                f"not readable as CSV from here on ({exc}); a table has one row per line, fields "
+                "separated by commas",
                 reader.line_num,
             )
         )
@@ -625,8 +639,8 @@ def _value(
                 ctx.exact_left -= 1
             except ExpressionError as why:
                 message = (
-                    f"{what}: {quoted(value)} is not a number; expected a finite number or arithmetic "
-                    f"({why})"
+                    f"{what}: {quoted(value)} is not a number; expected a finite number or "
+                    f"arithmetic ({why})"
                 )
     else:
         exact_value = None
@@ -640,8 +654,8 @@ def _value(
         if limit is None or abs(result.number) <= limit:
             return result
         message = (
-            f"{what}: {result.number:g} is beyond the sane range of +-{limit:g}{' ' + unit if unit else ''}; "
-            "check the units (or a slipped exponent)"
+            f"{what}: {result.number:g} is beyond the sane range of "
+            f"+-{limit:g}{' ' + unit if unit else ''}; check the units (or a slipped exponent)"
         )
     _say(ctx, message, path, file, line)
     return None
@@ -744,8 +758,9 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
                 )
                 for a in axes
             ]
-            if all(c is not None for c in coords):
-                joints.append(Joint(jid, tuple(float(c) for c in coords)))  # type: ignore[arg-type]
+            given = [c for c in coords if c is not None]
+            if len(given) == len(coords):
+                joints.append(Joint(jid, tuple(float(c) for c in given)))
         if not joints and len(ctx.problems.problems) > said:
             ctx.joints_unreadable = (
                 True  # nothing usable, and the table's own problems say why: spare the echoes
@@ -833,7 +848,8 @@ def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
         ctx.add_at(
             "joint",
             jid,
-            f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have {'3' if jid in two else '2'}; a model is all 2D or all 3D",
+            f"joint '{jid}' has {'2' if jid in two else '3'} coordinates but most joints have "
+            f"{'3' if jid in two else '2'}; a model is all 2D or all 3D",
             "joints",
             jid,
         )
@@ -858,7 +874,10 @@ def _joint_ref(
             return jid
         if jid in ctx.declared_joints or ctx.joints_unreadable:
             return None  # defined but unusable, or the joints table unreadable: said once already
-        message = f"{what} names joint '{shown(jid)}', which is not defined.{did_you_mean(jid, joint_ids)}"
+        message = (
+            f"{what} names joint '{shown(jid)}', which is not "
+            f"defined.{did_you_mean(jid, joint_ids)}"
+        )
     else:
         message = f"{what}: expected a joint id, got {shown(value)}"
     if file is not None and file != ctx.file:
@@ -916,7 +935,8 @@ def _ea_from(
 ) -> float | None:
     if "EA" in spec and ("A" in spec or "E" in spec):
         ctx.add(
-            f"{what}: give EA, or A and E, not both (they may disagree: which one did the calc use?)",
+            f"{what}: give EA, or A and E, not both (they may disagree: which one did the calc "
+            "use?)",
             *path,
         )
         return None
@@ -944,7 +964,8 @@ def _ea_from(
         ea = a * area_unit * e * modulus_unit / units.force.to_si
         if not ea <= EA_LIMIT:
             ctx.add(
-                f"{what}: A x E = {ea:g} {units.force.symbol} is beyond the sane range of {EA_LIMIT:g}; check the units",
+                f"{what}: A x E = {ea:g} {units.force.symbol} is beyond the sane range of "
+                f"{EA_LIMIT:g}; check the units",
                 *path,
             )
             return None
@@ -966,7 +987,8 @@ def _read_stiffness_defaults(
     for key in table:
         if key not in STIFFNESS_KEYS:
             ctx.add(
-                f"unknown key '{key}' in [stiffness]; expected EA, or A and E.{did_you_mean(key, STIFFNESS_KEYS)}",
+                f"unknown key '{key}' in [stiffness]; expected EA, or A and "
+                f"E.{did_you_mean(key, STIFFNESS_KEYS)}",
                 "stiffness",
                 key,
             )
@@ -1041,7 +1063,8 @@ def _read_members(
             for key in value:
                 if key not in MEMBER_KEYS:
                     ctx.add(
-                        f"{what}: unknown key '{key}'; expected {', '.join(MEMBER_KEYS)}.{did_you_mean(key, MEMBER_KEYS)}",
+                        f"{what}: unknown key '{key}'; expected "
+                        f"{', '.join(MEMBER_KEYS)}.{did_you_mean(key, MEMBER_KEYS)}",
                         "members",
                         mid,
                     )
@@ -1103,7 +1126,8 @@ def _read_supports(
                 if axis not in axes:
                     _say(
                         ctx,
-                        f"support at '{jid}': direction {quoted(axis)} is not one of {', '.join(axes)}",
+                        f"support at '{jid}': direction {quoted(axis)} is not one of "
+                        f"{', '.join(axes)}",
                         path,
                         file,
                         line,
@@ -1129,7 +1153,8 @@ def _read_supports(
                 if key != "direction":
                     _say(
                         ctx,
-                        f"support at '{jid}': unknown key '{key}'; expected 'direction' (an inclined roller) or a list of axes, "
+                        f"support at '{jid}': unknown key '{key}'; expected 'direction' (an "
+                        "inclined roller) or a list of axes, "
                         'or type = "pinned" / "roller"',
                         path,
                         file,
@@ -1143,7 +1168,8 @@ def _read_supports(
         else:
             _say(
                 ctx,
-                f'support at \'{jid}\': expected a list of restrained axes (e.g. ["x", "y"]) or {{ direction = [...] }}, got {shown(spec)}',
+                f'support at \'{jid}\': expected a list of restrained axes (e.g. ["x", "y"]) or {{ '
+                f"direction = [...] }}, got {shown(spec)}",
                 path,
                 file,
                 line,
@@ -1175,7 +1201,8 @@ def _support_by_word(
         hint = did_you_mean(str(word), SUPPORT_WORDS) if isinstance(word, str) else ""
         _say(
             ctx,
-            f'support at \'{jid}\': {quoted(word)} is not a support type; expected "pinned" or "roller" '
+            f"support at '{jid}': {quoted(word)} is not a support type; expected \"pinned\" or "
+            '"roller" '
             f"(or a list of restrained axes).{hint}",
             path,
             file,
@@ -1186,7 +1213,8 @@ def _support_by_word(
     for key in unknown:
         _say(
             ctx,
-            f"support at '{jid}': unknown key '{key}'; expected {', '.join(ROLLER_KEYS)}.{did_you_mean(key, ROLLER_KEYS)}",
+            f"support at '{jid}': unknown key '{key}'; expected "
+            f"{', '.join(ROLLER_KEYS)}.{did_you_mean(key, ROLLER_KEYS)}",
             path,
             file,
             line,
@@ -1196,7 +1224,8 @@ def _support_by_word(
         if given:
             _say(
                 ctx,
-                f"support at '{jid}': a pinned support restrains every direction; '{given[0]}' belongs to a roller",
+                f"support at '{jid}': a pinned support restrains every direction; '{given[0]}' "
+                "belongs to a roller",
                 path,
                 file,
                 line,
@@ -1220,8 +1249,8 @@ def _support_by_word(
         if dim == 3:
             _say(
                 ctx,
-                f"support at '{jid}': 'rolls' names the one direction a 2D roller moves in; in 3D give the "
-                "surface normal (normal = [...]) or the restrained axes",
+                f"support at '{jid}': 'rolls' names the one direction a 2D roller moves in; in 3D "
+                "give the surface normal (normal = [...]) or the restrained axes",
                 path,
                 file,
                 line,
@@ -1254,7 +1283,8 @@ def _reaction_along(
     if not isinstance(vec_raw, list) or (dim and len(vec_raw) != dim):
         _say(
             ctx,
-            f"support at '{jid}': {key} must be a list of {dim or '2 or 3'} numbers, got {shown(vec_raw)}",
+            f"support at '{jid}': {key} must be a list of {dim or '2 or 3'} numbers, got "
+            f"{shown(vec_raw)}",
             path,
             file,
             line,
@@ -1391,8 +1421,9 @@ class _Converted:
                 total, exact = vector, self.exact[jid]
             if not (np.isfinite(total).all() and _within(total, LOAD_LIMIT)):
                 ctx.add(
-                    f"load case '{case}' at joint '{jid}': the loads stated there add up to {describe_vector(total)}, "
-                    f"beyond the sane range of +-{LOAD_LIMIT:g} {ctx.force_unit}; check the units",
+                    f"load case '{case}' at joint '{jid}': the loads stated there add up to "
+                    f"{describe_vector(total)}, beyond the sane range of +-{LOAD_LIMIT:g} "
+                    f"{ctx.force_unit}; check the units",
                     *self.paths[jid],
                 )
                 continue
@@ -1421,7 +1452,8 @@ def _read_chords(ctx: _Ctx, table: Any, geometry: _Geometry) -> dict[str, list[s
             or not all(isinstance(j, str) for j in joints)
         ):
             ctx.add(
-                f"chord '{name}': expected the joint ids along it in order (at least two), got {shown(joints)}",
+                f"chord '{name}': expected the joint ids along it in order (at least two), got "
+                f"{shown(joints)}",
                 "chords",
                 name,
             )
@@ -1433,14 +1465,15 @@ def _read_chords(ctx: _Ctx, table: Any, geometry: _Geometry) -> dict[str, list[s
                 missing = [j for j in (a, b) if j not in geometry.coords]
                 if missing and not ctx.joints_unreadable:
                     ctx.add(
-                        f"chord '{name}' names joint '{shown(missing[0])}', which is not defined."
-                        f"{did_you_mean(missing[0], geometry.coords)}",
+                        f"chord '{name}' names joint '{shown(missing[0])}', which is not "
+                        f"defined.{did_you_mean(missing[0], geometry.coords)}",
                         "chords",
                         name,
                     )
                 elif not missing:
                     ctx.add(
-                        f"chord '{name}': no member joins '{a}' and '{b}'; a chord runs along members, joint to joint",
+                        f"chord '{name}': no member joins '{a}' and '{b}'; a chord runs along "
+                        "members, joint to joint",
                         "chords",
                         name,
                     )
@@ -1497,15 +1530,16 @@ def _stated_joint_load(
     for key in spec:
         if key not in LOAD_FORM_KEYS:
             ctx.add(
-                f"{what}: unknown key '{key}'; expected magnitude with one of angle, direction, normal_to."
-                f"{did_you_mean(key, LOAD_FORM_KEYS)}",
+                f"{what}: unknown key '{key}'; expected magnitude with one of angle, direction, "
+                f"normal_to.{did_you_mean(key, LOAD_FORM_KEYS)}",
                 *path,
             )
             return
     given = [k for k in ("angle", "direction", "normal_to") if k in spec]
     if "magnitude" not in spec or len(given) != 1:
         ctx.add(
-            f"{what}: expected {{ magnitude = ..., angle = ... }} (degrees, counter-clockwise from +x), "
+            f"{what}: expected {{ magnitude = ..., angle = ... }} (degrees, counter-clockwise from "
+            "+x), "
             '{ magnitude = ..., direction = [...] } or { magnitude = ..., normal_to = "member" }'
             + (f"; got both {' and '.join(given)}" if len(given) > 1 else ""),
             *path,
@@ -1566,8 +1600,8 @@ def _stated_joint_load(
         member = geometry.members.get(member_id) if isinstance(member_id, str) else None
         if member is None:
             ctx.add(
-                f"{what}: normal_to names member {quoted(member_id)}, which is not defined."
-                f"{did_you_mean(str(member_id), geometry.members)}",
+                f"{what}: normal_to names member {quoted(member_id)}, which is not "
+                f"defined.{did_you_mean(str(member_id), geometry.members)}",
                 *path,
             )
             return
@@ -1575,7 +1609,10 @@ def _stated_joint_load(
             geometry.coords[member.start], geometry.coords[member.end]
         )
         side = "pressure on" if magnitude.number >= 0 else "suction, away from"
-        text = f"{magnitude.number:g} {unit} normal to member '{member.id}' ({side} its left side, walking {member.start} to {member.end})"
+        text = (
+            f"{magnitude.number:g} {unit} normal to member '{member.id}' ({side} its left side, "
+            f"walking {member.start} to {member.end})"
+        )
     if exact is not None:
         from verify.io.expressions import _is_surd
 
@@ -1604,7 +1641,8 @@ def _members_of(
         chord = spec["chord"]
         if not isinstance(chord, str) or chord not in chords:
             ctx.add(
-                f"{what}: chord {quoted(chord)} is not defined in [chords].{did_you_mean(str(chord), chords)}",
+                f"{what}: chord {quoted(chord)} is not defined in "
+                f"[chords].{did_you_mean(str(chord), chords)}",
                 *path,
             )
             return None
@@ -1613,7 +1651,8 @@ def _members_of(
         if all_if_absent:
             return list(geometry.members)
         ctx.add(
-            f'{what}: name the loaded members (members = [...]) or a chord (chord = "top", defined in [chords])',
+            f'{what}: name the loaded members (members = [...]) or a chord (chord = "top", defined '
+            "in [chords])",
             *path,
         )
         return None
@@ -1624,7 +1663,8 @@ def _members_of(
     unknown = [m for m in listed if not isinstance(m, str) or m not in geometry.members]
     if unknown:
         ctx.add(
-            f"{what}: member {quoted(unknown[0])} is not defined.{did_you_mean(str(unknown[0]), geometry.members)}",
+            f"{what}: member {quoted(unknown[0])} is not "
+            f"defined.{did_you_mean(str(unknown[0]), geometry.members)}",
             *path,
         )
         return None
@@ -1643,7 +1683,8 @@ def _line_loads(
     chords: dict[str, list[str]],
     add_to: Any,
 ) -> None:
-    """line = { members | chord, w, direction | normal, measured }: to panel points by tributary length."""
+    """line = { members | chord, w, direction | normal, measured }: to panel points by tributary
+    length."""
     path = ("loads", case, key)
     dim = geometry.dim
     for number, spec in enumerate(raw if isinstance(raw, list) else [raw], start=1):
@@ -1653,7 +1694,8 @@ def _line_loads(
         bad = [k for k in spec if k not in LINE_KEYS]
         if bad:
             ctx.add(
-                f"{what}: unknown key '{bad[0]}'; expected {', '.join(LINE_KEYS)}.{did_you_mean(bad[0], LINE_KEYS)}",
+                f"{what}: unknown key '{bad[0]}'; expected "
+                f"{', '.join(LINE_KEYS)}.{did_you_mean(bad[0], LINE_KEYS)}",
                 *path,
             )
             continue
@@ -1674,7 +1716,8 @@ def _line_loads(
         measured = spec.get("measured", "along")
         if measured not in MEASURED:
             ctx.add(
-                f'{what}: measured = {quoted(measured)}; expected "along" (the member\'s length) or "plan" '
+                f'{what}: measured = {quoted(measured)}; expected "along" (the member\'s length) '
+                'or "plan" '
                 "(its horizontal projection)",
                 *path,
             )
@@ -1714,8 +1757,8 @@ def _line_loads(
             else f"members {', '.join(members[:6])}" + (" ..." if len(members) > 6 else "")
         )
         text = (
-            f"load case '{case}': line load {w.number:g} {ctx.force_unit}/{ctx.length_unit} {how} on {on}, "
-            f"tributary lengths measured {measured}"
+            f"load case '{case}': line load {w.number:g} {ctx.force_unit}/{ctx.length_unit} {how} "
+            f"on {on}, tributary lengths measured {measured}"
         )
         loads = tributary_loads(segments, vectors)
         for jid, vector in loads.items():
@@ -1732,7 +1775,8 @@ def _self_weight(
     chords: dict[str, list[str]],
     add_to: Any,
 ) -> None:
-    """self_weight = { mass_per_length (kg/m), members | chord (default: every member), direction }."""
+    """self_weight = { mass_per_length (kg/m), members | chord (default: every member),
+    direction }."""
     path = ("loads", case, key)
     dim, units = geometry.dim, geometry.units
     for spec in raw if isinstance(raw, list) else [raw]:
@@ -1740,7 +1784,8 @@ def _self_weight(
         bad = [k for k in spec if k not in SELF_WEIGHT_KEYS]
         if bad:
             ctx.add(
-                f"{what}: unknown key '{bad[0]}'; expected {', '.join(SELF_WEIGHT_KEYS)}.{did_you_mean(bad[0], SELF_WEIGHT_KEYS)}",
+                f"{what}: unknown key '{bad[0]}'; expected "
+                f"{', '.join(SELF_WEIGHT_KEYS)}.{did_you_mean(bad[0], SELF_WEIGHT_KEYS)}",
                 *path,
             )
             continue
@@ -1944,7 +1989,8 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
             )
         if not isinstance(factors, dict) or not factors:
             ctx.add(
-                f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got {shown(factors)}",
+                f"combination '{name}': expected factors per case, e.g. {{ dead = 1.35 }}, got "
+                f"{shown(factors)}",
                 "combinations",
                 name,
             )
@@ -1953,7 +1999,8 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
         for case, value in factors.items():
             if case not in case_names:
                 ctx.add(
-                    f"combination '{name}' names load case '{case}', which is not defined.{did_you_mean(case, case_names)}",
+                    f"combination '{name}' names load case '{case}', which is not "
+                    f"defined.{did_you_mean(case, case_names)}",
                     "combinations",
                     name,
                 )

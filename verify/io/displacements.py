@@ -121,7 +121,8 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
             problems.add(f"no '{what}' column; found {', '.join(header)}", line=1)
     if case_col is None and len(model.load_names) > 1:
         problems.add(
-            f"no 'case' column, and the model has several load columns ({', '.join(model.load_names)})",
+            "no 'case' column, and the model has several load columns "
+            f"({', '.join(model.load_names)})",
             line=1,
         )
     problems.raise_if_any()
@@ -157,13 +158,15 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
         axis = direction.lstrip("+-")
         if axis not in axes:
             problems.add(
-                f"direction {quoted(row[dir_col])} is not one of {', '.join(axes)} (a leading '-' measures against the axis)",
+                f"direction {quoted(row[dir_col])} is not one of {', '.join(axes)} (a leading '-' "
+                "measures against the axis)",
                 where=where,
             )
             continue
         if case not in model.load_names:
             problems.add(
-                f"case {quoted(case)} is not a load case or combination.{did_you_mean(case, model.load_names)}",
+                f"case {quoted(case)} is not a load case or "
+                f"combination.{did_you_mean(case, model.load_names)}",
                 where=where,
             )
             continue
@@ -208,9 +211,10 @@ def read_displacements(path: str | Path, model: Model) -> DisplacementClaims:
             " ..." if len(unitless) > 10 else ""
         )
         problems.add(
-            f"the value{'s' if len(unitless) > 1 else ''} on row{'s' if len(unitless) > 1 else ''} {rows_text} "
-            f"{'have' if len(unitless) > 1 else 'has'} no length unit; put the unit in the header, "
-            f"e.g. '{header[value_col].strip() or 'deflection'} (mm)', or in each cell, e.g. '15.5 mm'",
+            f"the value{'s' if len(unitless) > 1 else ''} on row{'s' if len(unitless) > 1 else ''} "
+            f"{rows_text} {'have' if len(unitless) > 1 else 'has'} no length unit; put the unit in "
+            f"the header, e.g. '{header[value_col].strip() or 'deflection'} (mm)', or in each "
+            "cell, e.g. '15.5 mm'",
             where=f"row {unitless[0]}",
         )
     problems.raise_if_any()

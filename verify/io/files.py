@@ -42,7 +42,8 @@ def read_regular_file(path: str | Path, *, limit: int) -> bytes:
             raise UnreadableFile(f"{kind}; inputs are read from ordinary files only")
         if info.st_size > limit:
             raise UnreadableFile(
-                f"the file is {info.st_size / 2**20:.0f} MB, over the {limit // 2**20} MB an input may have"
+                f"the file is {info.st_size / 2**20:.0f} MB, over the {limit // 2**20} MB an input "
+                "may have"
             )
         with os.fdopen(fd, "rb", closefd=False) as handle:
             data = handle.read(limit + 1)

@@ -32,7 +32,8 @@ def parse_number(value: object) -> float:
         text = value.strip()
         if len(text) > NUMBER_MAX_CHARS:
             raise ValueError(
-                f"'{shown(text, limit=20)}' is not a number ({len(text)} characters; at most {NUMBER_MAX_CHARS})"
+                f"'{shown(text, limit=20)}' is not a number ({len(text)} characters; at most "
+                f"{NUMBER_MAX_CHARS})"
             )
         if _NUMBER.match(text):
             result = float(text)

@@ -13,7 +13,6 @@ import numpy as np
 
 from verify.compare.diagnose import Review
 from verify.report.cautions import ELASTIC_CAUTION
-from verify.report.names import kind_word
 from verify.report.numbers import clean_zero, difference_text, fmt
 from verify.report.tables import Table
 
@@ -48,7 +47,7 @@ def deflection_table(review: Review) -> Table | None:
                 fmt(claimed),
                 fmt(clean_zero(computed, scale)),
                 difference_text(difference, None, r.written, scale),
-                kind_word(r.status),
+                r.status,
                 r.written,
             )
         )

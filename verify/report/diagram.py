@@ -70,7 +70,7 @@ STATUS_CATEGORY: dict[str, str] = {
     "likely-cause": "discrepancy",
     "tension-only": "agrees",  # statics of the truss without its slack diagonals: said as information
     "zero-force-claimed": "discrepancy",
-    "not-elastic": "discrepancy",
+    "stiffness-dependent": "discrepancy",
     "equilibrium-residual": "discrepancy",
     "sign-flip": "sign",
     "table-sign-convention": "sign",

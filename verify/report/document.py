@@ -36,7 +36,7 @@ from verify.report.diagram import (
     worst_status,
 )
 from verify.report.handcalc_html import Block, appendix_blocks
-from verify.report.names import kind_word, method_phrase, severity_word
+from verify.report.names import method_phrase
 from verify.report.numbers import (
     difference_text,
     fmt,
@@ -217,20 +217,20 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
             f"states of self-stress: {s.self_stress}",
         ),
     ]
-    if s.sigma_ratio is not None:
+    if s.conditioning_ratio is not None:
         facts.append(
             (
                 "Conditioning",
-                f"σmin/σmax = {fmt_ratio(s.sigma_ratio)}; scaled by the square of the extent ratio (model size over "
-                f"median member length, {fmt(s.slenderness, 3)}²) = "
-                f"{fmt_ratio(s.scaled_ratio)}" + _conditioning_word(s),
+                f"σmin/σmax = {fmt_ratio(s.conditioning_ratio)}; scaled by the square of the extent ratio (model size over "
+                f"median member length, {fmt(s.extent_ratio, 3)}²) = "
+                f"{fmt_ratio(s.scaled_conditioning)}" + _conditioning_word(s),
             )
         )
-    elif s.scaled_ratio is not None:
+    elif s.scaled_conditioning is not None:
         facts.append(
             (
                 "Conditioning",
-                f"LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}"
+                f"LU pivot ratio min/max = {fmt_ratio(s.scaled_conditioning)}"
                 + (" — near-mechanism" if s.ill_conditioned else ""),
             )
         )
@@ -650,10 +650,10 @@ def _status_cell(status: str) -> str:
         return "<td></td>"
     style = STATUS_STYLES[status_category(status)]
     if not style.marker:  # agreement: plain words, no colour, no mark
-        return f'<td class="st">{_e(kind_word(status))}</td>'
+        return f'<td class="st">{_e(status)}</td>'
     return (
         f'<td class="st flagged"><span class="mark" style="border-color:{style.colour}">{_e(style.marker)}</span>'
-        f"{_e(kind_word(status))}</td>"
+        f"{_e(status)}</td>"
     )
 
 
@@ -747,8 +747,8 @@ def render_html(
         for f in review.findings:
             case = f" ({_e(f.case)})" if f.case else ""
             out.append(
-                f'<li class="finding {_e(kind_word(f.kind))}"><span class="sev {_e(severity_word(f.severity.value))}">'
-                f"[{_e(severity_word(f.severity.value))}]</span> "
+                f'<li class="finding {_e(f.kind)}"><span class="sev {_e(f.severity.value)}">'
+                f"[{_e(f.severity.value)}]</span> "
                 f"<strong>{_e(f.title)}</strong>{case}: {_e(finding_sentence(f))}</li>"
             )
         out.append("</ol>")
@@ -995,7 +995,7 @@ def _md_table(
         for h, cell in zip(header, row, strict=True):
             if h == "status" and statuses is not None and statuses[n]:
                 marker = STATUS_STYLES[status_category(statuses[n])].marker
-                cells.append(_m(f"{marker} {kind_word(cell)}" if marker else kind_word(cell)))
+                cells.append(_m(f"{marker} {cell}" if marker else cell))
             else:
                 cells.append(_m(cell))
         out.append("| " + " | ".join(cells) + " |")
@@ -1065,7 +1065,7 @@ def render_markdown(
         for n, f in enumerate(review.findings, 1):
             case = f" ({_m(f.case)})" if f.case else ""
             out.append(
-                f"{n}. [{_m(severity_word(f.severity.value))}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
+                f"{n}. [{_m(f.severity.value)}] **{_m(f.title)}**{case}: {_m(finding_sentence(f))}"
             )
     else:
         out.append("No findings: every claim checked agrees within tolerance.")

@@ -12,7 +12,7 @@ from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.model import Model
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
-from verify.report.names import public_convention, public_finding, public_row, public_structure
+from verify.report.names import public_convention, public_row
 
 
 def _clean(value: Any) -> Any:
@@ -65,7 +65,7 @@ def stability_json(model: Model, analysis: Analysis) -> dict[str, Any]:
             "load_conversions": list(model.conversions),
         },
         "units": value_units(model),
-        "structure": public_structure(analysis.stability.as_dict()),
+        "structure": analysis.stability.as_dict(),
         "caution": CAUTION,
     }
 
@@ -140,13 +140,13 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         inputs["displacements"], inputs["displacements_sha256"] = displacement_file
     return {
         "verdict": review.verdict.value,
-        "structure": public_structure(review.analysis.stability.as_dict()),
+        "structure": review.analysis.stability.as_dict(),
         "convention": public_convention(review.convention.as_dict(), force),
         "members": [
             public_row(row.as_dict(), length if row.kind == "displacement" else force)
             for row in review.rows
         ],
-        "findings": [public_finding(f.as_dict()) for f in review.findings],
+        "findings": [f.as_dict() for f in review.findings],
         "summary": {
             "members_checked": review.checked_members,
             "members_total": len(model.members),

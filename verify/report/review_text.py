@@ -5,7 +5,6 @@ from __future__ import annotations
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
-from verify.report.names import kind_word, severity_word
 from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
@@ -25,7 +24,7 @@ def verdict_line(review: Review) -> str:
             f"; EQUAL EA ASSUMED ({fmt(review.analysis.assumed_EA, 6)} {model.units.force.symbol})"
         )
     if review.verdict.value == "agrees":
-        if any(f.kind == "not-elastic" for f in review.findings):
+        if any(f.kind == "stiffness-dependent" for f in review.findings):
             return (
                 f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
                 f"elastic solution the difference is a state of self-stress ({checked})"
@@ -33,7 +32,7 @@ def verdict_line(review: Review) -> str:
         return f"AGREES — every claim checked agrees within tolerance ({checked})"
     if review.verdict.value == "discrepancies":
         return f"DISCREPANCIES — {errors} finding(s) need attention ({checked})"
-    return f"CANNOT VERIFY — {next((f.detail for f in review.findings if f.severity is Severity.BLOCKER), 'see findings')}"
+    return f"CANNOT VERIFY — {next((f.detail for f in review.findings if f.severity is Severity.CANNOT_VERIFY), 'see findings')}"
 
 
 def _row_cells(row: Row) -> list[str]:
@@ -49,7 +48,7 @@ def _row_cells(row: Row) -> list[str]:
         fmt(row.sections),
         fmt(recomputed),
         difference_text(row.difference, row.claimed, row.written, scale),
-        kind_word(row.status),
+        row.status,
     ]
 
 
@@ -132,7 +131,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     if review.findings:
         lines.append("Findings (most serious first):")
         for f in review.findings:
-            lines.append(f"  [{severity_word(f.severity.value)}] {kind_word(f.kind)}: {f.detail}")
+            lines.append(f"  [{f.severity.value}] {f.kind}: {f.detail}")
             if f.next_step:
                 lines.append(f"      next step: {f.next_step}")
     else:

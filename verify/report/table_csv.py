@@ -16,7 +16,6 @@ from verify.compare.diagnose import Review
 from verify.errors import escape_controls
 from verify.formatting import NOISE_FIGURES, clean_zero, fmt
 from verify.report.cautions import CAUTION
-from verify.report.names import kind_word
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -81,7 +80,7 @@ def render_csv(review: Review) -> str:
                 row.difference,
             ) + (None,) * 3
         cells.extend(data_number(value, scale) for value in values)
-        cells.append(kind_word(row.status))
+        cells.append(row.status)
         writer.writerow(cells)
     # Below the table (a spreadsheet shows them; a reader stopping at the first blank row keeps
     # the table clean): what the elastic column rests on, and the caution every output carries.

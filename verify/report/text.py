@@ -31,10 +31,10 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         f"{f' ({s.rigid_body_mechanisms} rigid-body)' if s.rigid_body_mechanisms else ''}, "
         f"states of self-stress: {s.self_stress}",
     ]
-    if s.sigma_ratio is not None:
+    if s.conditioning_ratio is not None:
         lines.append(
-            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.sigma_ratio)}; scaled by extent ratio^2 "
-            f"({fmt(s.slenderness, 3)}^2) = {fmt_ratio(s.scaled_ratio)}"
+            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.conditioning_ratio)}; scaled by extent ratio^2 "
+            f"({fmt(s.extent_ratio, 3)}^2) = {fmt_ratio(s.scaled_conditioning)}"
             + (
                 "  NEAR-MECHANISM"
                 if s.ill_conditioned
@@ -43,8 +43,8 @@ def render_stability(model: Model, s: StabilityResult) -> str:
                 else ""
             )
         )
-    elif s.scaled_ratio is not None:
-        lines.append(f"  LU pivot ratio min/max = {fmt_ratio(s.scaled_ratio)}")
+    elif s.scaled_conditioning is not None:
+        lines.append(f"  LU pivot ratio min/max = {fmt_ratio(s.scaled_conditioning)}")
     verdict = s.classification.value
     if s.classification.value == "stable-indeterminate":
         verdict += f" (degree {s.self_stress})"

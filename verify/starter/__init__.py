@@ -75,7 +75,8 @@ def build_starter(
     shape = BUILDERS[pattern](_exact(span, "--span"), _exact(depth, "--depth"), panels)
     if shape.dim == 3 and (loaded_chord == "bottom" or line_load is not None):
         raise PatternError(
-            f"{pattern} takes --panel-load at its top joints only (no --loaded-chord bottom or --line-load)"
+            f"{pattern} takes --panel-load at its top joints only (no --loaded-chord bottom or "
+            "--line-load)"
         )
     chord = shape.chords["top" if shape.dim == 3 else loaded_chord]
     supported = set(shape.pinned) | set(shape.rollers) | set(shape.restraints)
@@ -87,9 +88,14 @@ def build_starter(
         for joint in chord:
             if joint not in supported:
                 loads[joint] = tuple(P * c + 0.0 for c in down)
-        rule = f"{P:g} {units[1]} downward at every {'top joint' if shape.dim == 3 else f'{loaded_chord} chord panel point'} not over a support"
+        rule = (
+            f"{P:g} {units[1]} downward at every "
+            f"{'top joint' if shape.dim == 3 else f'{loaded_chord} chord panel point'} not over a "
+            "support"
+        )
     else:
-        w = float(line_load)  # type: ignore[arg-type]
+        assert line_load is not None  # P is None only when a line load was given
+        w = float(line_load)
         tributary: dict[str, Fraction] = {}
         for a, b in zip(chord, chord[1:], strict=False):
             plan = abs(Fraction(shape.joints[b][0]) - Fraction(shape.joints[a][0]))
@@ -101,10 +107,18 @@ def build_starter(
                 f"{w:g} {units[1]}/{units[0]} x tributary {float(length):g} {units[0]} (plan)"
             )
         rule = (
-            f"line load {w:g} {units[1]}/{units[0]} downward on the {loaded_chord} chord, per unit of plan length, "
-            "to panel points by tributary length (half of each chord segment meeting there)"
+            f"line load {w:g} {units[1]}/{units[0]} downward on the {loaded_chord} chord, per unit "
+            "of plan length, to panel points by tributary length (half of each chord segment "
+            "meeting there)"
         )
-    title = f"{pattern} truss, span {span:g} {units[0]}, depth {depth:g} {units[0]}, {len(shape.chords.get('bottom', chord)) - 1 if shape.dim == 2 else panels or ''} panels (starter)"
+    title = (
+        f"{pattern} truss, span {span:g} {units[0]}, depth {depth:g} {units[0]}, "
+        f"{len(shape.chords.get('bottom', chord)) - 1 if shape.dim == 2 else panels or ''} panels "
+        "(starter)"
+    )
     if shape.dim == 3:
-        title = f"{pattern} starter, {span:g} {units[0]} wide, {depth:g} {units[0]} {'high' if pattern != 'grid' else 'deep'}"
+        title = (
+            f"{pattern} starter, {span:g} {units[0]} wide, {depth:g} {units[0]} "
+            f"{'high' if pattern != 'grid' else 'deep'}"
+        )
     return Starter(shape, title, units, case_name, loads, comments, rule)

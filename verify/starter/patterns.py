@@ -69,7 +69,8 @@ def _naming(n: int, *extra: str) -> list[str]:
 
 
 def parallel(pattern: str, span: Fraction, depth: Fraction, panels: int | None) -> Pattern:
-    """Pratt, Howe, warren-verticals: bottom L0..Ln, top U1..U(n-1) above them, inclined end posts."""
+    """Pratt, Howe, warren-verticals: bottom L0..Ln, top U1..U(n-1) above them, inclined end
+    posts."""
     n = panels or 6
     _even(pattern, n)
     joints = _bottom(span, n) | {f"U{i}": (span * i / n, depth) for i in range(1, n)}
@@ -213,7 +214,8 @@ def queen_post(span: Fraction, depth: Fraction, panels: int | None) -> Pattern:
         "U1, U2: the heads of the queen posts, above L1 and L2",
     ]
     notes = [
-        "The centre panel holds one diagonal U1L2: without it the pin-jointed rectangle is a mechanism.",
+        "The centre panel holds one diagonal U1L2: without it the pin-jointed rectangle is a "
+        "mechanism.",
         "Under symmetric loads it carries no force.",
     ]
     return Pattern(
@@ -347,8 +349,8 @@ def scissors(span: Fraction, rise: Fraction, panels: int | None) -> Pattern:
 
 
 def bowstring(span: Fraction, rise: Fraction, panels: int | None) -> Pattern:
-    """Top chord joints on the parabola y = 4 rise x (span - x) / span^2 (straight segments between),
-    verticals at every panel point, diagonals sloping down toward midspan."""
+    """Top chord joints on the parabola y = 4 rise x (span - x) / span^2 (straight segments
+    between), verticals at every panel point, diagonals sloping down toward midspan."""
     n = panels or 6
     _even("bowstring", n, least=4)
     base = parallel("pratt", span, rise, n)
@@ -364,7 +366,8 @@ def bowstring(span: Fraction, rise: Fraction, panels: int | None) -> Pattern:
 
 def tower(sides: int, width: Fraction, height: Fraction, panels: int | None) -> Pattern:
     """A lattice tower of 3 or 4 vertical legs, `panels` panels high: a ring of horizontals at
-    every level above the base and one diagonal in each face of each panel; the base joints pinned."""
+    every level above the base and one diagonal in each face of each panel; the base joints
+    pinned."""
     n = panels or 4
     if n < 1:
         raise PatternError(f"tower-{sides} needs at least 1 panel; got {n}")

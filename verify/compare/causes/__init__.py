@@ -54,7 +54,8 @@ class CauseReport(NamedTuple):
 
 
 def explain_bracing(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
-    """Tension-only bracing (verify.compare.causes.bracing): an idealisation, said as information."""
+    """Tension-only bracing (verify.compare.causes.bracing): an idealisation, said as
+    information."""
     explained, groups = explain_tension_only(frame, pending, analysis)
     findings = []
     for words, _, mask in groups:
@@ -117,8 +118,9 @@ def explain_shifted_rows(
         columns = ", ".join(f"'{frame.load_names[r.column]}'" for r in runs)
         way = "further down" if offset > 0 else "further up"
         words = (
-            f"the values sit {abs(offset)} row(s) off their labels from {frame.where[first]} to {frame.where[last]}: "
-            f"each is the force of the member {abs(offset)} row(s) {way} (a row inserted or deleted)"
+            f"the values sit {abs(offset)} row(s) off their labels from {frame.where[first]} to "
+            f"{frame.where[last]}: each is the force of the member {abs(offset)} row(s) {way} (a "
+            "row inserted or deleted)"
         )
         findings.append(
             _finding(
@@ -171,8 +173,9 @@ def explain_copies(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) 
         mask[copy.position] = True
         target, origin = ids[int(frame.member[copy.position])], ids[int(frame.member[copy.source])]
         words = (
-            f"the value claimed for {target} ({frame.written[copy.position].strip()}) is the one claimed for {origin} "
-            f"at {frame.where[copy.source]}, which agrees with {origin}: copied from that row"
+            f"the value claimed for {target} ({frame.written[copy.position].strip()}) is the one "
+            f"claimed for {origin} at {frame.where[copy.source]}, which agrees with {origin}: "
+            "copied from that row"
         )
         findings.append(
             _finding(
@@ -213,15 +216,16 @@ def _finding(
         else (
             "; every other disagreeing claim in these columns is explained too"
             if pending_after == 0
-            else f"; {pending_after} disagreeing claim(s) in these columns remain unexplained (listed below)"
+            else f"; {pending_after} disagreeing claim(s) in these columns remain unexplained "
+            "(listed below)"
         )
     )
     cases = frame.columns_of(mask)
     detail = (
         (
-            f"the claims in {columns} correspond to {words}: with that change {n} disagreeing claim(s) "
-            f"({shown}) agree and no claim that agreed is changed{rest}. Written at {where}"
-            + (" …" if n > 4 else "")
+            f"the claims in {columns} correspond to {words}: with that change {n} disagreeing "
+            f"claim(s) ({shown}) agree and no claim that agreed is changed{rest}. Written at "
+            f"{where}" + (" …" if n > 4 else "")
         )
         if kind not in ("rows-shifted", "value-copied")
         else (

@@ -90,7 +90,7 @@ def explain_tension_only(
     for slack_t, columns in by_slack.items():
         kept = [m for i, m in enumerate(model.members) if i not in set(slack_t)]
         variant = dataclasses.replace(model, members=tuple(kept))
-        forces = solve_members(variant, np.array(columns))
+        forces = solve_members(analysis.run.variant(variant), np.array(columns))
         if forces is None:
             continue  # still indeterminate, or a mechanism, without the slack diagonals
         full = np.zeros((len(model.members), len(columns)))
@@ -109,9 +109,10 @@ def explain_tension_only(
             continue  # it breaks a claim that agreed, or leaves most differences unexplained
         names = tuple(model.members[i].id for i in slack_t)
         words = (
-            f"tension-only bracing: the compression diagonal of each crossed panel taken as slack ("
-            f"{', '.join(names[:8])}{' …' if len(names) > 8 else ''} carry nothing) — a common idealisation for "
-            "slender cross bracing; the claims are the statics of the truss without them"
+            "tension-only bracing: the compression diagonal of each crossed panel taken as slack "
+            f"({', '.join(names[:8])}{' …' if len(names) > 8 else ''} carry nothing) — a common "
+            "idealisation for slender cross bracing; the claims are the statics of the truss "
+            "without them"
         )
         explained |= mask
         groups.append((words, names, mask))

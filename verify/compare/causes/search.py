@@ -16,7 +16,6 @@ import numpy as np
 import scipy.optimize as so
 import scipy.sparse as sp
 
-from verify.analysis.global_solve import equilibrium_lu
 from verify.analysis.pipeline import Analysis
 from verify.compare.balance import claims_balance
 from verify.compare.causes.frame import ClaimsFrame
@@ -87,8 +86,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     geometry = statics and len(model.members) <= GEOMETRY_MEMBER_LIMIT
     if statics and not geometry:
         notes.append(
-            f"likely causes: support and dimension variants are tried only up to {GEOMETRY_MEMBER_LIMIT} members "
-            f"(this truss has {len(model.members)}); load and combination variants were tried"
+            "likely causes: support and dimension variants are tried only up to "
+            f"{GEOMETRY_MEMBER_LIMIT} members (this truss has {len(model.members)}); load and "
+            "combination variants were tried"
         )
     # The first cause is chosen among the best few by where the whole chain leads: two mistakes
     # at once can let a wrong first guess fit many claims within tolerance (1.6 x traffic for
@@ -110,9 +110,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
         columns = ", ".join(f"'{c}'" for c in frame.columns_of(start))
         if statics:  # on an indeterminate truss only factors were tried, and other steps follow
             notes.append(
-                f"likely causes: no single change of the model among those tried (loads, combination factors, "
-                f"supports, dimensions) explains the {int(start.sum())} disagreeing claim(s) in {columns}; "
-                "their findings follow"
+                "likely causes: no single change of the model among those tried (loads, "
+                f"combination factors, supports, dimensions) explains the {int(start.sum())} "
+                f"disagreeing claim(s) in {columns}; their findings follow"
             )
         return SearchResult([], start.copy(), notes)
     _, _, steps, pending = max(chains, key=lambda chain: (chain[0], chain[1]))
@@ -126,9 +126,9 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
     total = sum(int(c.explained.sum()) for c in causes)
     if total < CLEAR_MAJORITY * int((start & touched).sum()):
         notes.append(
-            f"likely causes: no single change of the model explains most differences: the best found "
-            f"explain only {total} of {int((start & touched).sum())} disagreeing claims in the columns they "
-            "change, so none is reported"
+            "likely causes: no single change of the model explains most differences: the best "
+            f"found explain only {total} of {int((start & touched).sum())} disagreeing claims in "
+            "the columns they change, so none is reported"
         )
         return SearchResult([], start, notes)
     return SearchResult(causes, pending, notes)
@@ -137,7 +137,8 @@ def search_causes(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
 def _with_alternates(frame: ClaimsFrame, start: np.ndarray, steps: list[_Found], i: int) -> Variant:
     """Step i's variant, naming the other variants that do as well in its place in the whole chain
     (1.6 x traffic fits the chords as well as 1.5 x dead, but only the latter completes the chain;
-    'self-weight left out' and '1.36 x traffic' are one and the same when both load the same joints)."""
+    'self-weight left out' and '1.36 x traffic' are one and the same when both load the same
+    joints)."""
     total = sum(step.variant.shift for step in steps)
     count = int((start & frame.agrees(frame.computed + total)).sum())
     variant = steps[i].variant
@@ -267,8 +268,8 @@ def _implied_load_variants(
     rounding[frame.member, frame.column] = frame.rounding
     F = model.load_matrix()
     C = model.combination_matrix()
-    lu = equilibrium_lu(model)
-    imbalances = claims_balance(model, claimed, {}, names, Tolerance(rtol=frame.rtol), rounding)
+    lu = analysis.run.equilibrium_lu()
+    imbalances = claims_balance(analysis, claimed, {}, names, Tolerance(rtol=frame.rtol), rounding)
     for k in sorted({int(x) for x in frame.column[pending].tolist() if x < n_cases}):
         joints = [b for b in imbalances if b.case == names[k]]
         if not joints:
@@ -309,7 +310,8 @@ def _implied_load_variants(
                 arrived.append((b.joint, float(np.linalg.norm(implied)), implied))
             delta[j * d : (j + 1) * d] = change
         else:
-            # loads that arrive where there were none must be ones that left elsewhere, size for size
+            # loads that arrive where there were none must be ones that left elsewhere, size for
+            # size
             left = sorted(size for _, _, size in gone)
             came = sorted(size for _, size, _ in arrived)
             if len(came) > len(left) or any(
@@ -409,11 +411,14 @@ def _combination_variants(
                     words = f"'{case.name}' added to '{combo.name}' with factor {fmt(new, 3)}"
                 elif new * old < 0:
                     words = (
-                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name} "
-                        f"('{case.name}' in the opposite direction)"
+                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of "
+                        f"{fmt(old, 3)} × {case.name} ('{case.name}' in the opposite direction)"
                     )
                 else:
-                    words = f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of {fmt(old, 3)} × {case.name}"
+                    words = (
+                        f"'{combo.name}' taking {fmt(new, 3)} × {case.name} instead of "
+                        f"{fmt(old, 3)} × {case.name}"
+                    )
                 yield Variant(
                     "combination-factor",
                     words,
@@ -435,7 +440,7 @@ def _load_variants(
     cases = [
         c for c in range(len(model.cases)) if np.any(C[c, np.unique(frame.column[pending])] != 0)
     ]
-    lu = equilibrium_lu(model)
+    lu = analysis.run.equilibrium_lu()
     # One transposed solve per sampled member: on a large 3D truss the factors are dense enough
     # that 120 solves would take seconds, so the sample shrinks to a budget of work (never below
     # MIN_SAMPLE: a true cause explains most disagreeing claims, and shows in a dozen).
@@ -457,8 +462,8 @@ def _load_variants(
     if not whole and not len(singles):
         return
     capped_note = (
-        f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints nearest "
-        "the disagreeing claims only"
+        f"likely causes: single-joint load changes were tried at the {MAX_JOINT_CHANGES} joints "
+        "nearest the disagreeing claims only"
     )
     if capped and capped_note not in notes:
         notes.append(capped_note)
@@ -586,7 +591,7 @@ def _plainest(
 def _support_variants(frame: ClaimsFrame, base: np.ndarray, analysis: Analysis):
     columns, where = frame.column_positions()
     for words, variant_model, joints in support_swaps(analysis.model):
-        t = solve_members(variant_model, columns)
+        t = solve_members(analysis.run.variant(variant_model), columns)
         if t is None:
             continue
         yield Variant("support-moved", words, t[frame.member, where] - frame.computed, None, joints)
@@ -607,7 +612,7 @@ def _added_restraint_variants(
     restrained: dict[str, set[str]] = {}
     for r in model.reactions:
         restrained.setdefault(r.joint, set()).add(r.axis)
-    lu = equilibrium_lu(model)
+    lu = analysis.run.equilibrium_lu()
     axes = "xyz"[:d]
     target = frame.claimed - frame.computed - base
     for joint, have in list(restrained.items())[:8]:
@@ -634,8 +639,9 @@ def _added_restraint_variants(
             if not thrusts:
                 continue
             words = (
-                f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case file): a support "
-                f"reaction along {axis} of {', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
+                f"{joint} restrained along {axis} as well ({', '.join(sorted(have))} in the case "
+                f"file): a support reaction along {axis} of "
+                f"{', '.join(thrusts[:4])}{' …' if len(thrusts) > 4 else ''} "
                 f"{model.units.force.symbol}, which sets up forces the case file's supports do not"
             )
             yield Variant("support-added", words, shift, None, (joint,), fitted=True)
@@ -654,7 +660,7 @@ def _dimension_variants(
             continue
 
         def forces(s: float, axis: int = axis) -> np.ndarray | None:
-            t = solve_members(scaled_model(model, axis, s), columns)
+            t = solve_members(analysis.run.variant(scaled_model(model, axis, s)), columns)
             return None if t is None else t[frame.member, where]
 
         def misfit(log_s: float) -> float:
@@ -681,7 +687,7 @@ def _dimension_variants(
             shift = dict(tried)[new_extent]
             letter, name = AXIS_NAMES[axis]
             words = (
-                f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} {length} "
-                f"(every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})"
+                f"the {name} taken as {fmt(new_extent, 4)} {length} instead of {fmt(extent, 4)} "
+                f"{length} (every {letter} coordinate scaled by {fmt(new_extent / extent, 4)})"
             )
             yield Variant("dimension", words, shift, None, (), new_extent / extent, fitted=True)

@@ -86,8 +86,8 @@ def check_combinations(
             f" and {len(bad) - SHOWN} more" if len(bad) > SHOWN else ""
         )
         text = (
-            f"in the claimed table, '{names[k]}' is not {words} of the table's own load-case columns for "
-            f"{len(bad)} of {int(rows.sum())} members ({shown})"
+            f"in the claimed table, '{names[k]}' is not {words} of the table's own load-case "
+            f"columns for {len(bad)} of {int(rows.sum())} members ({shown})"
         )
         # Other factors are named only when the case file's leave a good part of the column
         # contradicting: a few rows are slips of their own, and with load cases of similar shape
@@ -99,8 +99,9 @@ def check_combinations(
             odd = [ids[i] for i in np.flatnonzero(contradicting(own))]
             besides = (
                 (
-                    f" (except {', '.join(odd[:SHOWN])}: {'it contradicts' if len(odd) == 1 else 'they contradict'} "
-                    "the table either way)"
+                    f" (except {', '.join(odd[:SHOWN])}: "
+                    f"{'it contradicts' if len(odd) == 1 else 'they contradict'} the table either "
+                    "way)"
                 )
                 if odd
                 else " throughout"

@@ -16,10 +16,10 @@ from typing import NamedTuple
 import numpy as np
 
 from verify.analysis.pipeline import Analysis
+from verify.analysis.run import AnalysisRun
 from verify.compare.causes.frame import ClaimsFrame
 from verify.compare.causes.search import CLEAR_MAJORITY, MIN_EXPLAINED
 from verify.compare.causes.variants import GEOMETRY_MEMBER_LIMIT, solve_members
-from verify.model import Model
 
 MAX_RELEASES = 24  # reaction components tried (a truss has a handful of supports)
 
@@ -46,7 +46,7 @@ def explain_released_support(
     for reaction in model.reactions[:MAX_RELEASES]:
         kept = tuple(r for r in model.reactions if r is not reaction)
         variant = dataclasses.replace(model, reactions=kept)
-        forces = _solve(variant, columns, analysis.assumed_EA)
+        forces = _solve(analysis.run.variant(variant), columns, analysis.assumed_EA)
         if forces is None:
             continue  # a mechanism without it
         computed = forces[frame.member, where]
@@ -59,25 +59,19 @@ def explain_released_support(
         if best is None or explained.sum() > best.explained.sum():
             restrained = sorted(r.axis for r in model.reactions if r.joint == reaction.joint)
             words = (
-                f"the support at {reaction.joint} free along {reaction.axis} (the case file restrains "
-                f"{', '.join(restrained)} there): the claims are the forces of the truss without that reaction"
+                f"the support at {reaction.joint} free along {reaction.axis} (the case file "
+                f"restrains {', '.join(restrained)} there): the claims are the forces of the truss "
+                "without that reaction"
             )
             best = Release(words, reaction.joint, explained)
     return best
 
 
-def _solve(model: Model, columns: np.ndarray, assume_equal_EA: float | None) -> np.ndarray | None:
+def _solve(
+    run: AnalysisRun, columns: np.ndarray, assume_equal_EA: float | None
+) -> np.ndarray | None:
     """Member forces of the released truss for the claimed columns, or None for a mechanism."""
-    forces = solve_members(model, columns)  # determinate once released
+    forces = solve_members(run, columns)  # determinate once released
     if forces is not None:
         return forces
-    from verify.analysis.stability import Classification, solve_stability
-    from verify.analysis.stiffness import solve_stiffness
-
-    if solve_stability(model).classification is not Classification.STABLE_INDETERMINATE:
-        return None
-    try:
-        elastic = solve_stiffness(model, assume_equal_EA=assume_equal_EA)
-    except ValueError:  # missing EA or singular: nothing to compare with
-        return None
-    return np.asarray(elastic.forces.member_forces)[:, columns]
+    return run.elastic_forces(columns, assume_equal_EA)  # None: a mechanism, or no stiffness

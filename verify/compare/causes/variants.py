@@ -21,15 +21,17 @@ from __future__ import annotations
 import dataclasses
 import math
 from collections.abc import Callable, Iterator
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from verify.compare.causes.frame import ClaimsFrame
 from verify.formatting import fmt
 from verify.model import Joint, Model, Reaction
+
+if TYPE_CHECKING:
+    from verify.analysis.run import AnalysisRun
 
 SAMPLE_CLAIMS = 120  # disagreeing claims priced by influence lines (a sample above this): one
 #                      transposed solve per member sampled, the costliest step on 3D trusses
@@ -186,8 +188,8 @@ def load_changes(
                     "loads-other-chord",
                     c,
                     parts,
-                    f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly {where}) instead of "
-                    f"{_names(ids, group)}",
+                    f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly "
+                    f"{where}) instead of {_names(ids, group)}",
                     tuple(ids[t] for t in targets),
                 )
             )
@@ -206,8 +208,9 @@ def load_changes(
                     "loads-vertical",
                     c,
                     parts,
-                    f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their full magnitude, "
-                    "instead of in their stated directions (e.g. normal to the member they act on)",
+                    f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their "
+                    "full magnitude, instead of in their stated directions (e.g. normal to the "
+                    "member they act on)",
                     tuple(ids[j] for j in slanted),
                 )
             )
@@ -322,8 +325,14 @@ class Singles(NamedTuple):
 def case_scaled_words(case: str) -> Callable[[float], str]:
     def words(f: float) -> str:
         if abs(f + 1.0) < 1e-9:
-            return f"the '{case}' loads applied in the opposite direction (suction for pressure, uplift for down)"
-        return f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or a load factor applied to the case)"
+            return (
+                f"the '{case}' loads applied in the opposite direction (suction for pressure, "
+                "uplift for down)"
+            )
+        return (
+            f"the '{case}' loads {fmt(f, 3)} times those of the case file (another load value, or "
+            "a load factor applied to the case)"
+        )
 
     return words
 
@@ -335,12 +344,15 @@ def _scaled_words(case: str, joint: str, vector: np.ndarray) -> Callable[[float]
         if abs(f) < 1e-9:
             return f"the '{case}' load at {joint} ({fmt(size, 4)}) left out"
         if abs(f - 2.0) < 1e-9:
-            return f"the '{case}' load at {joint} counted twice ({fmt(2 * size, 4)} instead of {fmt(size, 4)})"
+            return (
+                f"the '{case}' load at {joint} counted twice ({fmt(2 * size, 4)} instead of "
+                f"{fmt(size, 4)})"
+            )
         if abs(f + 1.0) < 1e-9:
             return f"the '{case}' load at {joint} applied in the opposite direction"
         return (
-            f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of {fmt(size, 4)}"
-            + (" and reversed" if f < 0 else "")
+            f"the '{case}' load at {joint} taken as {fmt(abs(f) * size, 4)} instead of "
+            f"{fmt(size, 4)}" + (" and reversed" if f < 0 else "")
         )
 
     return words
@@ -414,8 +426,8 @@ def support_swaps(model: Model) -> Iterator[tuple[str, Model, tuple[str, ...]]]:
             swapped += [Reaction(b, r.direction, r.axis) for r in by_joint[a]]
             swapped += [Reaction(a, r.direction, r.axis) for r in by_joint[b]]
             words = (
-                f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as {b} is "
-                f"({', '.join(rb)}) — e.g. the pin at the other end"
+                f"the supports exchanged: {b} restrained as {a} is ({', '.join(ra)}) and {a} as "
+                f"{b} is ({', '.join(rb)}) — e.g. the pin at the other end"
             )
             yield words, dataclasses.replace(model, reactions=tuple(swapped)), (a, b)
 
@@ -438,22 +450,14 @@ def scaled_model(model: Model, axis: int, s: float) -> Model:
     return dataclasses.replace(model, joints=joints)
 
 
-def solve_members(model: Model, columns: np.ndarray) -> np.ndarray | None:
-    """Member forces of a (variant) model for the given load columns; None when it cannot be solved."""
-    from verify.analysis.equilibrium import assemble_equilibrium
-
-    A = assemble_equilibrium(model)
-    if A.shape[0] != A.shape[1]:
+def solve_members(run: AnalysisRun, columns: np.ndarray) -> np.ndarray | None:
+    """Member forces of a (variant) model's run for the given load columns; None when it cannot
+    be solved by statics (not determinate, a mechanism) or is near-singular."""
+    t = run.member_forces(columns)
+    if t is None:
         return None
-    try:
-        lu = spla.splu(sp.csc_matrix(A), permc_spec="COLAMD" if model.dim == 2 else "MMD_ATA")
-    except RuntimeError:  # exactly singular: the variant is a mechanism
-        return None
-    F = model.load_matrix()[:, columns]
-    t = lu.solve(-np.asarray(F, dtype=float))
-    t = np.asarray(t).reshape(A.shape[1], -1)[: len(model.members)]
-    if not np.isfinite(t).all() or np.abs(t).max() > 1e6 * max(np.abs(F).max(), 1e-300) * max(
-        len(model.members), 1
-    ):
+    F = run.model.load_matrix()[:, columns]
+    size = max(float(np.abs(F).max(initial=0.0)), 1e-300) * max(len(run.model.members), 1)
+    if not np.isfinite(t).all() or np.abs(t).max(initial=0.0) > 1e6 * size:
         return None  # near-singular: a near-mechanism is no explanation
     return t

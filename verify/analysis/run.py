@@ -1,0 +1,171 @@
+"""One analysis run of one model: what the analyses share, made once, and what compare may ask.
+
+The model is immutable; the things several analyses need and that cost a factorisation or a
+solve to make (the equilibrium matrix, its sparse LU, the reactions from overall equilibrium)
+belong to the run. `analyse()` makes one run per model and hands it to every route, and the
+returned `Analysis` carries it, so the comparison asks the same run for what it needs instead
+of calling solvers itself:
+
+- ``equilibrium_matrix()`` and ``equilibrium_lu()``: A and its LU (influence lines, balance);
+- ``variant(model)``: a run of a changed model (a support released, a dimension scaled), whose
+  ``member_forces(columns)`` and ``elastic_forces(columns, EA)`` re-analyse it;
+- ``members_fixed_by_statics(forces, EA)``: which members of an indeterminate truss carry a force
+  independent of the stiffnesses;
+- ``unit_load_deflection(...)``: the unit-load hand calc of one joint displacement.
+
+A run is used by one thread at a time: it fills its cache as it is asked.
+
+Code that is handed only the model (the section calc sheets of the reports, per cut) reaches the
+run of that model's analysis through `AnalysisRun.of(model)` while the `Analysis` is alive; the
+model itself keeps nothing.
+"""
+
+from __future__ import annotations
+
+import weakref
+from collections.abc import Sequence
+from typing import TYPE_CHECKING
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from verify.analysis.equilibrium import assemble_equilibrium
+from verify.model import Model
+
+# The solvers below import this module (they take a run), so the run imports them when asked.
+if TYPE_CHECKING:
+    from verify.analysis.stability import StabilityResult
+    from verify.analysis.stiffness import ElasticSolution
+    from verify.analysis.virtual_work import VirtualWorkCalc
+
+OverallReactions = tuple[np.ndarray, np.ndarray, str]  # reactions, moment point, its joint
+
+
+def lu_ordering(model: Model) -> str:
+    """The column ordering for the LU of A (shared/PERFORMANCE.md: COLAMD's fill-in explodes on
+    3D equilibrium matrices, MMD_ATA kept a 10^5-member grid under a second)."""
+    return "COLAMD" if model.dim == 2 else "MMD_ATA"
+
+
+class AnalysisRun:
+    """The shared pieces of one model's analysis, each made when first asked for."""
+
+    def __init__(self, model: Model) -> None:
+        self.model = model
+        self._equilibrium: sp.csc_matrix | None = None
+        self._lu: spla.SuperLU | None = None
+        self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
+        self._stability: StabilityResult | None = None
+
+    @classmethod
+    def of(cls, model: Model) -> AnalysisRun:
+        """The run `analyse()` made for this very model while its Analysis is alive, else a new
+        run (which shares nothing)."""
+        run = _ANALYSED.get(id(model))
+        return run if run is not None and run.model is model else cls(model)
+
+    def register(self) -> None:
+        """Make this run the one `of(model)` finds (analyse() does, for the reports)."""
+        _ANALYSED[id(self.model)] = self
+
+    # -- what the analyses share ----------------------------------------------------------------
+    def equilibrium_matrix(self) -> sp.csc_matrix:
+        """The sparse equilibrium matrix A (read it or slice it; never modify it in place)."""
+        if self._equilibrium is None:
+            self._equilibrium = assemble_equilibrium(self.model)
+        return self._equilibrium
+
+    def equilibrium_lu(self) -> spla.SuperLU:
+        """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
+        if self._lu is None:
+            self._lu = spla.splu(self.equilibrium_matrix(), permc_spec=lu_ordering(self.model))
+        return self._lu
+
+    def keep_lu(self, lu: spla.SuperLU) -> None:
+        """The stability screen factors the same square A with the same ordering: share it."""
+        self._lu = lu
+
+    def overall_reactions(self) -> OverallReactions | None:
+        """Reactions from overall equilibrium (verify.analysis.joints.solve_reactions)."""
+        if self._reactions is None:
+            from verify.analysis.joints import overall_reactions
+
+            self._reactions = (overall_reactions(self.model),)
+        return self._reactions[0]
+
+    def stability(self) -> StabilityResult:
+        if self._stability is None:
+            from verify.analysis.stability import solve_stability
+
+            self._stability = solve_stability(self.model, run=self)
+        return self._stability
+
+    # -- what the comparison asks for -----------------------------------------------------------
+    def variant(self, model: Model) -> AnalysisRun:
+        """A run of a changed model (the comparison's "what if the calc used this model")."""
+        return AnalysisRun(model)
+
+    def member_forces(self, columns: np.ndarray | Sequence[int]) -> np.ndarray | None:
+        """Statics member forces (members x the given load columns) of a determinate truss; None
+        when A is not square or is exactly singular (a mechanism)."""
+        A = self.equilibrium_matrix()
+        if A.shape[0] != A.shape[1]:
+            return None
+        try:
+            lu = self.equilibrium_lu()
+        except RuntimeError:
+            return None
+        F = np.asarray(self.model.load_matrix()[:, np.asarray(columns, dtype=np.int64)])
+        t = np.asarray(lu.solve(-F)).reshape(A.shape[1], -1)
+        return t[: len(self.model.members)]
+
+    def elastic_forces(
+        self, columns: np.ndarray | Sequence[int], assume_equal_EA: float | None
+    ) -> np.ndarray | None:
+        """Elastic member forces of a stable indeterminate truss for the given load columns; None
+        when the truss is not that, or the stiffness is missing or singular."""
+        from verify.analysis.stability import Classification
+
+        if self.stability().classification is not Classification.STABLE_INDETERMINATE:
+            return None
+        try:
+            elastic = self.elastic(assume_equal_EA)
+        except ValueError:
+            return None
+        return np.asarray(elastic.forces.member_forces)[:, np.asarray(columns, dtype=np.int64)]
+
+    def elastic(self, assume_equal_EA: float | None) -> ElasticSolution:
+        """The direct stiffness solve (ValueError: stiffness missing, or a singular K)."""
+        from verify.analysis.stiffness import solve_stiffness
+
+        return solve_stiffness(self.model, assume_equal_EA=assume_equal_EA, run=self)
+
+    def members_fixed_by_statics(
+        self, forces: np.ndarray, assume_equal_EA: float | None
+    ) -> np.ndarray:
+        """Per member, True when its force does not depend on the stiffnesses (ValueError when
+        the stiffness is missing or singular); see verify.analysis.stiffness."""
+        from verify.analysis.stiffness import members_fixed_by_statics
+
+        return members_fixed_by_statics(self.model, forces, assume_equal_EA=assume_equal_EA)
+
+    def unit_load_deflection(
+        self,
+        forces_real: np.ndarray,
+        joint: str,
+        direction: Sequence[float],
+        assume_equal_EA: float | None,
+    ) -> VirtualWorkCalc:
+        """The unit-load calc of one joint's displacement (verify.analysis.virtual_work)."""
+        from verify.analysis.virtual_work import unit_load_deflection
+
+        return unit_load_deflection(
+            self.model, forces_real, joint, direction, assume_equal_EA=assume_equal_EA
+        )
+
+
+# The run of each analysed model, by the model's identity. Weak: an entry lasts as long as the
+# run does (its Analysis holds it), and the run holds the model, so an id is never reused while
+# its entry exists.
+_ANALYSED: weakref.WeakValueDictionary[int, AnalysisRun] = weakref.WeakValueDictionary()

@@ -1,0 +1,136 @@
+"""Work in a forked child process: the one place that decides whether forking is safe.
+
+Three parts of the tool start processes: the section route of a large truss (verify.analysis
+.pipeline), the time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness)
+and the batch's process pool (verify.batch.run). All three ask :func:`fork_allowed`, so one rule
+holds everywhere:
+
+- no ``os.fork`` (Windows): no fork;
+- ``TRUSS_VERIFY_SERIAL`` set to any value: no fork (every result is then computed in this
+  process, the same results; the tests check both);
+- another thread running (a notebook kernel, a web server, a Dask client): no fork, since a
+  forked child can deadlock on a lock one of those threads held at the moment of the fork.
+
+:class:`Forked` runs one function in a child and sends its result back pickled through a pipe.
+"""
+
+from __future__ import annotations
+
+import gc
+import os
+import pickle
+import select
+import signal
+import threading
+from collections.abc import Callable
+from typing import Any, Generic, TypeVar
+
+SERIAL_ENV = "TRUSS_VERIFY_SERIAL"  # set to any value to keep every computation in one process
+
+T = TypeVar("T")
+
+
+def fork_allowed() -> bool:
+    """True when this process may fork (see the module docstring for the rule)."""
+    return hasattr(os, "fork") and not os.environ.get(SERIAL_ENV) and threading.active_count() == 1
+
+
+class ForkTimeout(Exception):
+    """The child had not answered within the time asked; it has been stopped."""
+
+
+class ForkFailed(Exception):
+    """The child ended without a result (it raised, or was killed); the message says why."""
+
+
+class Forked(Generic[T]):
+    """`function(*args)` computed in a forked process, or in this one when forking is not allowed.
+
+    `result()` waits for the child's answer (or computes it here when no child was started);
+    `cancel()` stops a child whose result is no longer wanted. Either must be called once, so
+    that no child process is left behind.
+    """
+
+    def __init__(
+        self,
+        function: Callable[..., T],
+        args: tuple[Any, ...],
+        pid: int | None,
+        read_fd: int | None,
+    ) -> None:
+        self.function, self.args, self.pid, self.read_fd = function, args, pid, read_fd
+
+    @property
+    def forked(self) -> bool:
+        return self.pid is not None
+
+    @classmethod
+    def start(cls, function: Callable[..., T], *args: Any) -> Forked[T]:
+        if not fork_allowed():
+            return cls(function, args, None, None)
+        read_fd, write_fd = os.pipe()
+        # Frozen objects are left alone by the cyclic collector, so neither process's collections
+        # touch (and so copy) the pages the two share after the fork.
+        gc.freeze()
+        try:
+            pid = os.fork()
+        except OSError:
+            gc.unfreeze()
+            os.close(read_fd)
+            os.close(write_fd)
+            return cls(function, args, None, None)
+        if pid == 0:  # the child: compute, send, and leave without running the parent's exit hooks
+            status = 1
+            try:
+                os.close(read_fd)
+                try:
+                    answer: tuple[bool, Any] = (True, function(*args))
+                except Exception as exc:  # noqa: BLE001 - any failure is reported to the parent
+                    answer = (False, f"{type(exc).__name__}: {exc}")
+                payload = pickle.dumps(answer, protocol=pickle.HIGHEST_PROTOCOL)
+                with os.fdopen(write_fd, "wb") as pipe:
+                    pipe.write(payload)
+                status = 0
+            finally:
+                os._exit(status)
+        os.close(write_fd)
+        return cls(function, args, pid, read_fd)
+
+    def result(self, timeout: float | None = None) -> T:
+        """The function's result. From a child: ForkTimeout when it has not begun to answer
+        within `timeout` seconds (it is then stopped), ForkFailed when it ended without one."""
+        if self.pid is None or self.read_fd is None:
+            return self.function(*self.args)
+        if timeout is not None:
+            ready, _, _ = select.select([self.read_fd], [], [], timeout)
+            if not ready:
+                self.cancel()
+                raise ForkTimeout(f"no answer within {timeout:g} s")
+        with os.fdopen(self.read_fd, "rb") as pipe:
+            payload = pipe.read()
+        _, status = os.waitpid(self.pid, 0)
+        self._done()
+        if status != 0 or not payload:
+            raise ForkFailed(
+                "the child process ended without an answer (killed, or out of memory?)"
+            )
+        ok, value = pickle.loads(payload)
+        if not ok:
+            raise ForkFailed(str(value))
+        return value
+
+    def cancel(self) -> None:
+        """The result is not wanted: stop the child and release what it holds."""
+        if self.pid is None or self.read_fd is None:
+            return
+        try:
+            os.kill(self.pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
+        os.close(self.read_fd)
+        os.waitpid(self.pid, 0)
+        self._done()
+
+    def _done(self) -> None:
+        self.pid = self.read_fd = None
+        gc.unfreeze()
