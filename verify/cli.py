@@ -378,9 +378,12 @@ def _run_check(
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
     if as_json:
-        click.echo(
-            json_out.dumps(json_out.check_json(review, displacement_file=result.displacement_file))
-        )
+        # Written in pieces as they are encoded: a 10^6-member object is hundreds of megabytes.
+        for piece in json_out.iter_dumps(
+            json_out.check_json(review, displacement_file=result.displacement_file)
+        ):
+            click.echo(piece, nl=False)
+        click.echo("")
     else:
         # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
         click.echo(
