@@ -111,8 +111,30 @@ def _lazy_list(items: Iterator[Any], level: int) -> Iterator[str]:
     inner = "\n" + INDENT * (level + 1)
     first = True
     batch: list[str] = []
+    row_keys: tuple[Any, ...] | None = None
+    template = ""
     for item in items:
-        batch.append(_encode(item, level + 1))
+        if type(item) is dict and item:
+            # The member rows: flat objects with the same keys, filled into one template. Only
+            # the values are encoded per row, strings and finite floats inline (the common ones).
+            keys = tuple(item)
+            if keys != row_keys:
+                row_keys, template = keys, _template(keys, level + 1)
+            batch.append(
+                template
+                % tuple(
+                    [
+                        encode_basestring(v)
+                        if type(v) is str
+                        else float.__repr__(v)
+                        if type(v) is float and v - v == 0.0
+                        else _encode(v, level + 2)
+                        for v in item.values()
+                    ]
+                )
+            )
+        else:
+            batch.append(_encode(item, level + 1))
         if len(batch) >= CHUNK_ITEMS:
             yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
             first, batch = False, []
@@ -120,6 +142,13 @@ def _lazy_list(items: Iterator[Any], level: int) -> Iterator[str]:
         yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
         first = False
     yield "[]" if first else "\n" + INDENT * level + "]"
+
+
+def _template(keys: tuple[Any, ...], level: int) -> str:
+    """An object at `level` with these keys and a %s for each value."""
+    inner = "\n" + INDENT * (level + 1)
+    fields = ("," + inner).join(f"{_key(k).replace('%', '%%')}: %s" for k in keys)
+    return "{" + inner + fields + "\n" + INDENT * level + "}"
 
 
 def iter_dumps(data: dict[str, Any]) -> Iterator[str]:
