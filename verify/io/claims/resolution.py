@@ -144,6 +144,9 @@ def claim_arrays(
         rounding=settle_rounding(value, decimals, is_member, column, names, resolutions),
         where=[v.where for v in values],
         text=text,
+        label=[v.label for v in values],
+        reaction={i: v.reaction for i, v in enumerate(values) if v.reaction is not None},
+        member_ids=list(member_index),
         resolutions=tuple(resolutions),
     )
 

@@ -589,6 +589,8 @@ def assemble_claims(
     where: list[str] = [v.where for v in general]
     text: list[str] = [v.text for v in general]
     fixed = np.fromiter((v.sign_fixed for v in general), dtype=bool, count=n_general)
+    label: list[str] = [v.label for v in general]
+    reaction = {i: v.reaction for i, v in enumerate(general) if v.reaction is not None}
     order = None
     if bulk is not None:
         rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
@@ -610,6 +612,11 @@ def assemble_claims(
         all_where, all_text = where + bulk.where, text + bulk.text
         where = [all_where[i] for i in take]
         text = [all_text[i] for i in take]
+        ids = member_ids.tolist()
+        bulk_members = bulk.member.tolist()
+        label = [label[i] if i < n_general else ids[bulk_members[i - n_general]] for i in take]
+        at = {i: k for k, i in enumerate(take) if i in reaction}
+        reaction = {at[i]: joint_axis for i, joint_axis in reaction.items()}
     names = tuple(dict.fromkeys(column_names))
     name_code = {name: k for k, name in enumerate(names)}
     units = tuple(dict.fromkeys(unit_names))
@@ -630,6 +637,9 @@ def assemble_claims(
         rounding=settle_rounding(value, decimals, is_member, column, names, resolutions),
         where=where,
         text=text,
+        label=label,
+        reaction=reaction,
+        member_ids=member_ids.tolist(),
         resolutions=tuple(resolutions),
     )
     if order is None:

@@ -83,10 +83,28 @@ class ClaimArrays:
     rounding: np.ndarray  # float: allowance for how the value was written, in its own unit
     where: Sequence[str]  # "row 9, column 'dead'"
     text: Sequence[str]  # the cell exactly as written
+    label: Sequence[str]  # as written in the table
+    reaction: Mapping[int, tuple[str, str]]  # claim position -> (joint, axis) of a reaction claim
+    member_ids: Sequence[str]  # the model's member ids, by position
     resolutions: tuple[Resolution, ...] = ()  # columns judged rounded to a step (0.5, 5 kN)
 
     def __len__(self) -> int:
         return int(self.value.size)
+
+    def claim(self, i: int) -> ClaimedValue:
+        """Claim `i` as one object, for the few places that quote a single claim."""
+        pos = int(self.member[i])
+        return ClaimedValue(
+            self.label[i],
+            self.member_ids[pos] if pos >= 0 else None,
+            self.reaction.get(i),
+            self.names[int(self.column[i])],
+            float(self.value[i]),
+            bool(self.sign_fixed[i]),
+            self.units[int(self.unit[i])],
+            self.where[i],
+            self.text[i],
+        )
 
 
 class ClaimsTable:
