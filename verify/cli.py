@@ -349,7 +349,12 @@ def _run_check(
         return EXIT_BAD_INPUT
     names = {**_CHECK_SPELLING, **(spelt or {})}
     try:
-        result = check(case, claims_path, CheckOptions(**given, spelt=tuple(names.items())))
+        result = check(
+            case,
+            claims_path,
+            CheckOptions(**given, spelt=tuple(names.items())),
+            progress=_progress_printer(as_json),
+        )
     except OptionError as exc:
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
@@ -393,6 +398,26 @@ def _run_check(
             )
         )
     return result.exit_code
+
+
+PROGRESS_AFTER_S = 2.0  # a run shorter than this shows no progress at all
+
+
+def _progress_printer(as_json: bool) -> Any:
+    """Progress lines on stderr for long runs, only when stderr is a terminal and the output is
+    not JSON; None otherwise (nothing in pipes). A step is shown once the run has taken
+    PROGRESS_AFTER_S, so short checks stay silent."""
+    if as_json or not sys.stderr.isatty():
+        return None
+    import time
+
+    start = time.monotonic()
+
+    def show(step: str) -> None:
+        if time.monotonic() - start >= PROGRESS_AFTER_S:
+            click.echo(f"truss-verify: {step} ...", err=True)
+
+    return show
 
 
 # The options as the command spells them, for messages (CheckOptions names its fields in Python).
