@@ -880,19 +880,19 @@ def _rows(c: Comparison) -> None:
     values = raw * signs * conv * scale_fit
     mp, kk = np.where(judged, member_pos, 0), np.where(k_of >= 0, k_of, 0)
 
-    def route(forces: np.ndarray | None) -> list[float | None]:
+    def route(forces: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+        """A route's force for every claim, and where it has one (a judged claim, finite)."""
         if forces is None or n_claims == 0:
-            return [None] * n_claims
+            return np.zeros(n_claims), np.zeros(n_claims, dtype=bool)
         picked = forces[mp, kk]
-        usable = (judged & np.isfinite(picked)).tolist()
-        return [x if ok else None for x, ok in zip(picked.tolist(), usable, strict=True)]
+        return picked, judged & np.isfinite(picked)
 
-    joints_l = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
-    sections_l = route(
+    joints_a = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
+    sections_a = route(
         analysis.sections.forces.member_forces if analysis.sections is not None else None
     )
-    global_l = route(analysis.global_.member_forces if analysis.global_ is not None else None)
-    elastic_l = route(
+    global_a = route(analysis.global_.member_forces if analysis.global_ is not None else None)
+    elastic_a = route(
         analysis.elastic.forces.member_forces if analysis.elastic is not None else None
     )
     reference_forces = (
@@ -920,133 +920,140 @@ def _rows(c: Comparison) -> None:
     rounding_matrix[member_pos[judged_rows], k_of[judged_rows]] = np.abs(
         rounding_unit[judged_rows] * scale_fit
     )
-    values_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
-    agree_l, status_l, judged_l = agree_all.tolist(), convention_status.tolist(), judged.tolist()
-    # The rows, from the columns: no claim is re-read, and an object is made only for a claim
-    # that disagrees (diffs) or a reaction.
+    # The rows, built from the columns in table order: one row per reaction claim and per member
+    # claim on a load column. Member rows are made all at once; a claim object is made only for
+    # a claim that disagrees (diffs), and reactions (few) are worded one by one.
     mapped_of_column = [mapping.get(name) for name in arrays.names]
-    column_l, member_l = arrays.column.tolist(), member_pos.tolist()
+    on_a_load = np.array([m is not None for m in mapped_of_column] or [False])[arrays.column]
+    reaction_at = np.zeros(n_claims, dtype=bool)
+    reaction_at[list(arrays.reaction)] = True
+    gives_row = on_a_load & (judged | reaction_at)
+    row_of = np.cumsum(gives_row) - 1
+    # The recomputed value of a member claim: the global solve's, else the elastic one's.
+    has_global, has_elastic = global_a[1], elastic_a[1]
+    has_computed = has_global | has_elastic
+    compared = judged & has_computed & comparable
+    member_at = np.flatnonzero(judged)
+    ids = np.array(model.member_ids, dtype=object)[member_pos[member_at]].tolist()
+    cases = np.array(load_names or [""], dtype=object)[k_of[member_at]].tolist()
     raw_l, fixed_l = raw.tolist(), fixed_all.tolist()
-    text_l, where_l, member_ids = arrays.text, arrays.where, model.member_ids
-    for i in range(n_claims):
-        mapped = mapped_of_column[column_l[i]]
-        if mapped is None:
-            continue
-        name = mapped
-        k = load_names.index(name) if not judged_l[i] else int(k_of[i])
+    text_l, where_l = arrays.text, arrays.where
+
+    def as_written(i: int) -> str:
         raw_i = raw_l[i]
-        as_written = text_l[i] or (
+        return text_l[i] or (
             f"{abs(raw_i):g} {'T' if raw_i > 0 else 'C'}" if fixed_l[i] and raw_i else f"{raw_i:g}"
         )
-        written = f"{as_written} at {where_l[i]}"
-        reaction = arrays.reaction.get(i)
-        if reaction is not None:
-            joint, axis = reaction
-            rounding = float(rounding_unit[i]) * scale_fit
-            # Reactions are global components: the table sign convention for T/C does not apply.
-            value = raw_i * conv[i] * scale_fit
-            matches = [
-                n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis
-            ]
-            computed = None
-            if ref is not None and matches:
-                computed = float(ref.reactions[matches[0], k])
-                reaction_claims[(matches[0], k)] = value
-            elif ref is not None:
-                computed = (
-                    0.0  # the support does not restrain this direction: no reaction acts along it
-                )
-            status = (
-                "not-verifiable"
-                if computed is None
-                else (
-                    "agrees"
-                    if tol.agrees(
-                        value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding
-                    )
-                    else "value-mismatch"
-                )
+
+    def column(route_a: tuple[np.ndarray, np.ndarray]) -> list[float | None]:
+        picked, usable = route_a[0][member_at].tolist(), usable_l(route_a[1])
+        return [x if ok else None for x, ok in zip(picked, usable, strict=True)]
+
+    def usable_l(mask: np.ndarray) -> list[bool]:
+        return mask[member_at].tolist()
+
+    written_member = [f"{as_written(i)} at {where_l[i]}" for i in member_at.tolist()]
+    global_c, elastic_c = column(global_a), column(elastic_a)
+    compared_m = compared[member_at]
+    recomputed = np.where(has_global, global_a[0], elastic_a[0])[member_at]
+    difference = np.where(compared_m, values[member_at] - recomputed, np.nan)
+    status = np.where(
+        compared_m,
+        np.where(agree_all[member_at], convention_status[member_at], "value-mismatch"),
+        "not-verifiable",
+    )
+    member_rows = list(
+        map(
+            Row,
+            ids,
+            ["member"] * len(ids),
+            cases,
+            values[member_at].tolist(),
+            written_member,
+            column(joints_a),
+            column(sections_a),
+            global_c,
+            elastic_c,
+            [
+                d if ok else None
+                for d, ok in zip(difference.tolist(), compared_m.tolist(), strict=True)
+            ],
+            status.tolist(),
+        )
+    )
+    seen_pairs.update(zip(ids, cases, strict=True))
+    rows = [None] * int(gives_row.sum())  # type: ignore[list-item]  # every slot is filled below
+    for r, row in zip(row_of[member_at].tolist(), member_rows, strict=True):
+        rows[r] = row
+    for i in np.flatnonzero(compared).tolist():
+        frame_rows.append((i, int(row_of[i])))
+        frame_written.append(as_written(i))
+    value_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
+    for i in np.flatnonzero(compared & ~agree_all).tolist():
+        r = int(row_of[i])
+        diffs.append((r, arrays.claim(i), value_l[i], computed_l[i], allowed_l[i]))
+        rounding_of_row[r] = float(rounding_unit[i]) * abs(scale_fit)
+    for i in np.flatnonzero(gives_row & reaction_at).tolist():
+        name = mapped_of_column[int(arrays.column[i])]
+        assert name is not None
+        k = load_names.index(name)
+        written = f"{as_written(i)} at {where_l[i]}"
+        joint, axis = arrays.reaction[i]
+        rounding = float(rounding_unit[i]) * scale_fit
+        # Reactions are global components: the table sign convention for T/C does not apply.
+        value = raw_l[i] * conv[i] * scale_fit
+        matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
+        computed = None
+        if ref is not None and matches:
+            computed = float(ref.reactions[matches[0], k])
+            reaction_claims[(matches[0], k)] = value
+        elif ref is not None:
+            computed = (
+                0.0  # the support does not restrain this direction: no reaction acts along it
             )
-            rows.append(
-                Row(
-                    f"{joint}.{axis}",
-                    "reaction",
-                    name,
-                    value,
-                    written,
-                    None,
-                    None,
-                    computed,
-                    None,
-                    None if computed is None else value - computed,
-                    status,
+        reaction_status = (
+            "not-verifiable"
+            if computed is None
+            else (
+                "agrees"
+                if tol.agrees(
+                    value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding
                 )
-            )
-            if status == "value-mismatch" and computed is not None:
-                why = (
-                    ""
-                    if matches
-                    else f": the support at {joint} does not restrain {axis}, so it has no reaction along it"
-                )
-                findings.append(
-                    Finding(
-                        "value-mismatch",
-                        (f"{joint}.{axis}",),
-                        f"reaction {joint}.{axis} in '{name}': claimed "
-                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} [written {written}]",
-                        Severity.ERROR,
-                        case=name,
-                        locations=(where_l[i],),
-                    )
-                )
-            continue
-        if not judged_l[i]:
-            continue
-        member = member_ids[member_l[i]]
-        seen_pairs.add((member, name))
-        value = values_l[i]
-        global_v, elastic_v = global_l[i], elastic_l[i]
-        computed = global_v if global_v is not None else elastic_v
-        if computed is None or not comparable:
-            rows.append(
-                Row(
-                    member,
-                    "member",
-                    name,
-                    value,
-                    written,
-                    joints_l[i],
-                    sections_l[i],
-                    global_v,
-                    elastic_v,
-                    None,
-                    "not-verifiable",
-                )
-            )
-            continue
-        frame_rows.append((i, len(rows)))
-        frame_written.append(as_written)
-        if agree_l[i]:
-            status = status_l[i]
-        else:
-            status = "value-mismatch"
-            diffs.append((len(rows), arrays.claim(i), value, computed_l[i], allowed_l[i]))
-            rounding_of_row[len(rows)] = float(rounding_unit[i]) * abs(scale_fit)
-        rows.append(
-            Row(
-                member,
-                "member",
-                name,
-                value,
-                written,
-                joints_l[i],
-                sections_l[i],
-                global_v,
-                elastic_v,
-                value - computed,
-                status,
+                else "value-mismatch"
             )
         )
+        rows[int(row_of[i])] = Row(
+            f"{joint}.{axis}",
+            "reaction",
+            name,
+            value,
+            written,
+            None,
+            None,
+            computed,
+            None,
+            None if computed is None else value - computed,
+            reaction_status,
+        )
+        if reaction_status == "value-mismatch" and computed is not None:
+            why = (
+                ""
+                if matches
+                else f": the support at {joint} does not restrain {axis}, "
+                "so it has no reaction along it"
+            )
+            findings.append(
+                Finding(
+                    "value-mismatch",
+                    (f"{joint}.{axis}",),
+                    f"reaction {joint}.{axis} in '{name}': claimed "
+                    f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} "
+                    f"[written {written}]",
+                    Severity.ERROR,
+                    case=name,
+                    locations=(where_l[i],),
+                )
+            )
     c.atol_all, c.claimed_matrix, c.computed_arr, c.diffs, c.flagged = (
         atol_all,
         claimed_matrix,
