@@ -92,3 +92,17 @@ def test_check_json_streamed_equals_the_standard_encoder() -> None:
     held["members"] = list(held["members"])
     assert len(held["members"]) == len(result.review.rows) > 0
     assert text == reference(held)
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.dictionaries(st.text(max_size=6), scalars, max_size=6), max_size=8))
+def test_flat_objects_through_the_c_encoder_equal_the_standard_encoder(rows: list) -> None:
+    """The member rows' path: each flat object encoded by the C encoder and laid out by its
+    separators; NaN and infinities (null) fall back to the general path."""
+    document = {"members": json_out.FlatObjects(rows), "after": 1}
+    assert json_out.dumps(document) == reference({"members": rows, "after": 1})
+
+
+def test_flat_objects_with_numpy_scalars_fall_back_exactly() -> None:
+    rows = [{"a": np.float64(1.5), "b": np.int64(2)}, {"a": 0.1, "b": None}, {}]
+    assert json_out.dumps({"m": json_out.FlatObjects(rows)}) == reference({"m": rows})

@@ -964,21 +964,24 @@ def _rows(c: Comparison) -> None:
     )
     member_rows = list(
         map(
-            Row,
-            ids,
-            ["member"] * len(ids),
-            cases,
-            values[member_at].tolist(),
-            written_member,
-            column(joints_a),
-            column(sections_a),
-            global_c,
-            elastic_c,
-            [
-                d if ok else None
-                for d, ok in zip(difference.tolist(), compared_m.tolist(), strict=True)
-            ],
-            status.tolist(),
+            Row._make,  # tuple.__new__ without the keyword handling of Row(...)
+            zip(
+                ids,
+                ["member"] * len(ids),
+                cases,
+                values[member_at].tolist(),
+                written_member,
+                column(joints_a),
+                column(sections_a),
+                global_c,
+                elastic_c,
+                [
+                    d if ok else None
+                    for d, ok in zip(difference.tolist(), compared_m.tolist(), strict=True)
+                ],
+                status.tolist(),
+                strict=True,
+            ),
         )
     )
     seen_pairs.update(zip(ids, cases, strict=True))

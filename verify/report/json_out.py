@@ -10,8 +10,9 @@ took most of a 10^5-member check (bench/run.py).
 
 from __future__ import annotations
 
+import json
 import math
-from collections.abc import Iterator
+from collections.abc import Iterable, Iterator
 from json.encoder import encode_basestring  # the C encoder json.dumps uses for strings
 from typing import Any
 
@@ -101,10 +102,53 @@ def _pieces(value: Any, level: int) -> Iterator[str]:
         yield "[" + inner + ("," + inner).join(_encode(v, level + 1) for v in value)
         yield "\n" + INDENT * level + "]"
         return
+    if isinstance(value, FlatObjects):
+        yield from _flat_list(value, level)
+        return
     if isinstance(value, Iterator):
         yield from _lazy_list(value, level)
         return
     raise TypeError(f"Object of type {type(value).__name__} is not JSON serializable")
+
+
+class FlatObjects(Iterator[dict[str, Any]]):
+    """An iterator of flat objects (every value a string, number, bool or None): the member
+    rows. Each is encoded by the standard library's C encoder, laid out by its separators."""
+
+    def __init__(self, items: Iterable[dict[str, Any]]) -> None:
+        self._items = iter(items)
+
+    def __iter__(self) -> FlatObjects:
+        return self
+
+    def __next__(self) -> dict[str, Any]:
+        return next(self._items)
+
+
+def _flat_list(items: FlatObjects, level: int) -> Iterator[str]:
+    inner = "\n" + INDENT * (level + 1)
+    field = "\n" + INDENT * (level + 2)
+    # Keys and values of one object sit on lines of their own at level + 2: exactly the layout
+    # json.dumps(indent=2) gives, made by the C encoder through its separators.
+    encode = json.JSONEncoder(
+        ensure_ascii=False, allow_nan=False, separators=("," + field, ": ")
+    ).encode
+    close = "\n" + INDENT * (level + 1) + "}"
+    first = True
+    batch: list[str] = []
+    for item in items:
+        try:
+            text = encode(item)
+            batch.append("{" + field + text[1:-1] + close if len(text) > 2 else "{}")
+        except (ValueError, TypeError):  # NaN or infinity (null here), a numpy scalar
+            batch.append(_encode(item, level + 1))
+        if len(batch) >= CHUNK_ITEMS:
+            yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
+            first, batch = False, []
+    if batch:
+        yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
+        first = False
+    yield "[]" if first else "\n" + INDENT * level + "]"
 
 
 def _lazy_list(items: Iterator[Any], level: int) -> Iterator[str]:
@@ -274,7 +318,7 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         "structure": public_structure(review.analysis.stability.as_dict()),
         "convention": public_convention(review.convention.as_dict(), force),
         # A generator: iter_dumps writes the rows as it draws them (dumps accepts it too).
-        "members": (
+        "members": FlatObjects(
             public_row(row.as_dict(), length if row.kind == "displacement" else force)
             for row in review.rows
         ),

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -592,6 +592,7 @@ def assemble_claims(
     label: list[str] = [v.label for v in general]
     reaction = {i: v.reaction for i, v in enumerate(general) if v.reaction is not None}
     order = None
+    ids: list[str] = member_ids.tolist()
     if bulk is not None:
         rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
         order = np.argsort(rows, kind="stable")
@@ -612,7 +613,6 @@ def assemble_claims(
         all_where, all_text = where + bulk.where, text + bulk.text
         where = [all_where[i] for i in take]
         text = [all_text[i] for i in take]
-        ids = member_ids.tolist()
         bulk_members = bulk.member.tolist()
         label = [label[i] if i < n_general else ids[bulk_members[i - n_general]] for i in take]
         at = {i: k for k, i in enumerate(take) if i in reaction}
@@ -639,16 +639,19 @@ def assemble_claims(
         text=text,
         label=label,
         reaction=reaction,
-        member_ids=member_ids.tolist(),
+        member_ids=ids,
         resolutions=tuple(resolutions),
     )
     if order is None:
         return arrays, tuple(general)
-    return arrays, _lazy_values(arrays, order, general, list(member_ids))
+    return arrays, _lazy_values(arrays, order, general, arrays.member_ids)
 
 
 def _lazy_values(
-    arrays: ClaimArrays, order: np.ndarray, general: list[ClaimedValue], member_ids: list[str]
+    arrays: ClaimArrays,
+    order: np.ndarray,
+    general: list[ClaimedValue],
+    member_ids: Sequence[str],
 ) -> Callable[[], tuple[ClaimedValue, ...]]:
     def make() -> tuple[ClaimedValue, ...]:
         n_general = len(general)
