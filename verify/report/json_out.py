@@ -10,10 +10,10 @@ took most of a 10^5-member check (bench/run.py).
 
 from __future__ import annotations
 
-import json
+import json.encoder
 import math
-from collections.abc import Iterable, Iterator
-from json.encoder import encode_basestring  # the C encoder json.dumps uses for strings
+from collections.abc import Callable, Iterable, Iterator
+from json.encoder import encode_basestring  # the C string encoder json.dumps uses
 from typing import Any
 
 import numpy as np
@@ -30,6 +30,9 @@ def dumps(data: dict[str, Any]) -> str:
     return "".join(iter_dumps(data))
 
 
+# The C encoder behind json.dumps (absent from the type stubs, and from interpreters without the
+# accelerator, where the general path is used).
+C_MAKE_ENCODER: Callable[..., Any] | None = getattr(json.encoder, "c_make_encoder", None)
 CHUNK_ITEMS = 2_000  # list items joined into one piece: few writes, little held at once
 INDENT = "  "
 
@@ -125,14 +128,26 @@ class FlatObjects(Iterator[dict[str, Any]]):
         return next(self._items)
 
 
+def _refuse(value: Any) -> Any:
+    raise TypeError(type(value).__name__)  # not a plain JSON value: the general path encodes it
+
+
 def _flat_list(items: FlatObjects, level: int) -> Iterator[str]:
     inner = "\n" + INDENT * (level + 1)
     field = "\n" + INDENT * (level + 2)
     # Keys and values of one object sit on lines of their own at level + 2: exactly the layout
-    # json.dumps(indent=2) gives, made by the C encoder through its separators.
-    encode = json.JSONEncoder(
-        ensure_ascii=False, allow_nan=False, separators=("," + field, ": ")
-    ).encode
+    # json.dumps(indent=2) gives, made by the C encoder through its separators (made once: the
+    # JSONEncoder.encode wrapper would make one per row).
+    if C_MAKE_ENCODER is None:  # an interpreter without the C accelerator
+        yield from _lazy_list(items, level)
+        return
+    encoder = C_MAKE_ENCODER(
+        None, _refuse, encode_basestring, None, ": ", "," + field, False, False, False
+    )
+
+    def encode(item: dict[str, Any]) -> str:
+        return "".join(encoder(item, 0))
+
     close = "\n" + INDENT * (level + 1) + "}"
     first = True
     batch: list[str] = []
