@@ -19,6 +19,7 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from enum import StrEnum
+from functools import partial
 from types import SimpleNamespace
 from typing import Any, NamedTuple
 
@@ -964,7 +965,7 @@ def _rows(c: Comparison) -> None:
     )
     member_rows = list(
         map(
-            Row._make,  # tuple.__new__ without the keyword handling of Row(...)
+            partial(tuple.__new__, Row),  # in C: Row(...) and Row._make run Python code per row
             zip(
                 ids,
                 ["member"] * len(ids),
