@@ -1784,18 +1784,29 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
 
 def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple) -> bool:
     """On an indeterminate truss two claims may match each other's elastic forces by a state of
-    self-stress; they are a swap only if exchanging them back makes their joints balance better."""
+    self-stress; they are a swap only if exchanging them back makes their joints balance better.
+
+    Only the rows of the two members' joints are formed (a swap candidate is tested thousands of
+    times on a large table): the member part of A as CSR rows and the claimed column, made once."""
     model = c.model
     k = model.load_names.index(name)
-    A = assemble_equilibrium(model)[:, : len(model.members)]
-    column = np.nan_to_num(c.claimed_matrix[:, k])
+    cached = getattr(c, "_swap_balance", None)
+    if cached is None:
+        A = assemble_equilibrium(model)[:, : len(model.members)]
+        cached = (A.tocsr(), np.nan_to_num(c.claimed_matrix), model.load_matrix())
+        c._swap_balance = cached
+    A_rows, claimed, F = cached
+    column = claimed[:, k]
     m1, m2 = model.member_index[first[1].member], model.member_index[second[1].member]
     joints = np.unique(np.concatenate([model.ends_index[m1], model.ends_index[m2]]))
     rows = (joints[:, None] * model.dim + np.arange(model.dim)).ravel()
-    loads = model.load_matrix()[rows, k]
-    as_written = float(np.linalg.norm(A[rows] @ column + loads))
-    column[[m1, m2]] = column[[m2, m1]]
-    return float(np.linalg.norm(A[rows] @ column + loads)) < 0.5 * as_written
+    loads = F[rows, k]
+    local = A_rows[rows]
+    residual = local @ column + loads
+    as_written = float(np.linalg.norm(residual))
+    # Exchanging the two values changes the residual only through the two members' columns.
+    change = local[:, [m1, m2]] @ np.array([column[m2] - column[m1], column[m1] - column[m2]])
+    return float(np.linalg.norm(residual + change)) < 0.5 * as_written
 
 
 def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:
