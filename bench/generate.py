@@ -17,8 +17,10 @@ Families (shared/PERFORMANCE.md, "Test structures"):
 Two statically indeterminate families, checked against the elastic (direct stiffness) forces
 with EA = 2x10^5 kN for every member (a ``[stiffness]`` table in the case file):
 
-- ``pratt-x``: the Pratt truss with both diagonals in every panel (X-bracing): 5N + 1 members,
-  N states of self-stress.
+- ``pratt-x``: the Pratt truss with both diagonals in every panel (X-bracing), continuous over a
+  support every SPAN_PANELS panels: 5N + 1 members, N + N / SPAN_PANELS - 1 states of self-stress.
+  The intermediate supports keep it well conditioned at any length (one simply supported span of
+  20,000 panels is so flexible that no two stiffness solves agree on its forces).
 - ``grid-full``: the double-layer grid *with* its top chords: 8n^2 members, 2n(n - 1) states of
   self-stress.
 
@@ -40,6 +42,7 @@ import numpy as np
 FAMILIES = ("pratt", "grid", "pratt-x", "grid-full")
 INDETERMINATE = ("pratt-x", "grid-full")  # checked against the elastic forces
 EA = 2.0e5  # kN, every member of the indeterminate families
+SPAN_PANELS = 10  # pratt-x: a support under the bottom chord every this many panels
 PANEL = 3.0  # Pratt panel length and depth: a 3-4-5 triangle keeps direction cosines rational
 DEPTH = 4.0
 GRID_DEPTH = 0.7  # grid depth over a unit bottom cell
@@ -122,7 +125,9 @@ def pratt_x(panels: int) -> Truss:
         left[:, None], np.column_stack([low[i], up[i + 1]]), np.column_stack([up[i], low[i + 1]])
     )
     ends = np.vstack([base.ends, other.astype(np.int64)])
-    return Truss("pratt-x", n, base.joint_ids, base.xyz, ends, base.supports, base.loads, EA)
+    inner = [(int(low[j]), "y") for j in range(SPAN_PANELS, n, SPAN_PANELS)]
+    supports = [base.supports[0], *inner, base.supports[-1]]
+    return Truss("pratt-x", n, base.joint_ids, base.xyz, ends, supports, base.loads, EA)
 
 
 def grid_full(cells: int) -> Truss:

@@ -1800,12 +1800,17 @@ def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple
     m1, m2 = model.member_index[first[1].member], model.member_index[second[1].member]
     joints = np.unique(np.concatenate([model.ends_index[m1], model.ends_index[m2]]))
     rows = (joints[:, None] * model.dim + np.arange(model.dim)).ravel()
-    loads = F[rows, k]
-    local = A_rows[rows]
-    residual = local @ column + loads
+    residual, change = F[rows, k].astype(float), np.zeros(rows.size)
+    swap = {m1: column[m2] - column[m1], m2: column[m1] - column[m2]}
+    for j, r in enumerate(rows.tolist()):  # a few rows, read from the CSR arrays directly
+        lo, hi = A_rows.indptr[r], A_rows.indptr[r + 1]
+        cols, vals = A_rows.indices[lo:hi], A_rows.data[lo:hi]
+        residual[j] += float(vals @ column[cols])
+        # Exchanging the two values changes the residual only through the two members' columns.
+        change[j] = sum(
+            float(v) * swap[m] for m, v in zip(cols.tolist(), vals, strict=True) if m in swap
+        )
     as_written = float(np.linalg.norm(residual))
-    # Exchanging the two values changes the residual only through the two members' columns.
-    change = local[:, [m1, m2]] @ np.array([column[m2] - column[m1], column[m1] - column[m2]])
     return float(np.linalg.norm(residual + change)) < 0.5 * as_written
 
 
