@@ -111,3 +111,17 @@ def test_rounding_allowance_is_settled_from_the_written_text(tmp_path: Path) -> 
     assert arrays.unit_factor.tolist() == pytest.approx([1.0, kn_per_n] * 3)
     assert [arrays.names[k] for k in arrays.column] == ["dead", "snow"] * 3
     assert arrays.where[3] == "row 3, column 'snow (N)'"
+
+
+def test_a_bulk_read_table_pickles_and_makes_its_claims_on_first_use(tmp_path: Path) -> None:
+    """The batch runner sends results between processes: a table whose claim objects are not
+    made yet still pickles, and makes the same claims after the trip."""
+    import pickle
+
+    path = tmp_path / "claims.csv"
+    path.write_text(PLAIN_AND_MESSY[0], encoding="utf-8")
+    table = read_claims(path, MODEL)
+    assert table._values is None  # nothing made yet: the plain rows were read as columns
+    copy = pickle.loads(pickle.dumps(table))
+    assert copy.values == table.values
+    assert copy.count == table.count == len(table.values)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -644,22 +644,27 @@ def assemble_claims(
     )
     if order is None:
         return arrays, tuple(general)
-    return arrays, _lazy_values(arrays, order, general, arrays.member_ids)
+    return arrays, _LazyValues(arrays, order, general)
 
 
-def _lazy_values(
-    arrays: ClaimArrays,
-    order: np.ndarray,
-    general: list[ClaimedValue],
-    member_ids: Sequence[str],
-) -> Callable[[], tuple[ClaimedValue, ...]]:
-    def make() -> tuple[ClaimedValue, ...]:
+@dataclass(frozen=True)
+class _LazyValues:
+    """Makes the per-claim objects of a bulk-read table on first use: the general reader's own
+    claims in place, the bulk ones from the columns. A plain object (not a closure) so that a
+    claims table still pickles (the batch runner sends results between processes)."""
+
+    arrays: ClaimArrays
+    order: np.ndarray
+    general: list[ClaimedValue]
+
+    def __call__(self) -> tuple[ClaimedValue, ...]:
+        arrays, general = self.arrays, self.general
         n_general = len(general)
-        names, units = arrays.names, arrays.units
+        names, units, member_ids = arrays.names, arrays.units, arrays.member_ids
         value, member = arrays.value.tolist(), arrays.member.tolist()
         column, unit = arrays.column.tolist(), arrays.unit.tolist()
         out = []
-        for k, i in enumerate(order.tolist()):
+        for k, i in enumerate(self.order.tolist()):
             if i < n_general:
                 out.append(general[i])
                 continue
@@ -678,8 +683,6 @@ def _lazy_values(
                 )
             )
         return tuple(out)
-
-    return make
 
 
 def _shown(text: str, value: float) -> int:
