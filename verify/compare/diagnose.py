@@ -947,13 +947,13 @@ def _rows(c: Comparison) -> None:
         )
 
     def column(route_a: tuple[np.ndarray, np.ndarray]) -> list[float | None]:
-        picked, usable = route_a[0][member_at].tolist(), usable_l(route_a[1])
-        return [x if ok else None for x, ok in zip(picked, usable, strict=True)]
+        picked, usable = route_a[0][member_at].tolist(), route_a[1][member_at]
+        if usable.all():  # the common case: the route has every force
+            return picked
+        return [x if ok else None for x, ok in zip(picked, usable.tolist(), strict=True)]
 
-    def usable_l(mask: np.ndarray) -> list[bool]:
-        return mask[member_at].tolist()
-
-    written_member = [f"{as_written(i)} at {where_l[i]}" for i in member_at.tolist()]
+    # The cell as written (made up only for a claim built in memory without its text).
+    written_member = [f"{text_l[i] or as_written(i)} at {where_l[i]}" for i in member_at.tolist()]
     global_c, elastic_c = column(global_a), column(elastic_a)
     compared_m = compared[member_at]
     recomputed = np.where(has_global, global_a[0], elastic_a[0])[member_at]
