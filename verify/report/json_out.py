@@ -38,7 +38,8 @@ INDENT = "  "
 
 
 def _scalar(value: Any) -> str | None:
-    """The JSON text of a scalar (as json.dumps writes it; NaN and infinities as null), None for containers."""
+    """The JSON text of a scalar (as json.dumps writes it; NaN and infinities as null), None for
+    containers."""
     kind = type(value)
     if kind is str:
         return encode_basestring(value)

@@ -64,7 +64,8 @@ def judge_resolutions(
             if not (np.abs(counts - whole) <= 1e-6 * np.maximum(1.0, counts)).all():
                 continue
             if not (whole % 2 == 1).any():
-                continue  # all even multiples: the column may be coarser still; the next step decides
+                # All even multiples: the column may be coarser still; the next step decides.
+                continue
             # Judged last, as it reads every cell's text: only a column that fits a step gets here.
             finest = max(
                 _decimals(text[i], float(value[i])) for i in np.flatnonzero(written).tolist()

@@ -572,7 +572,8 @@ def assemble_claims(
     read: ReadRows, member_ids: pd.Index, case_unit: Unit
 ) -> tuple[ClaimArrays, Callable[[], tuple[ClaimedValue, ...]] | tuple[ClaimedValue, ...]]:
     """The claims as columns in table order, and their per-claim objects (made on first use when
-    the plain rows were read in bulk): the general reader's claims and the bulk ones merged by row."""
+    the plain rows were read in bulk): the general reader's claims and the bulk ones merged by
+    row."""
     general = read.values
     bulk = read.bulk
     n_general = len(general)
