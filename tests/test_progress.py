@@ -42,3 +42,23 @@ def test_progress_lines_on_a_terminal(monkeypatch, capsys) -> None:
     assert show is not None
     show("analysing the truss")
     assert capsys.readouterr().err == "truss-verify: analysing the truss ...\n"
+
+
+def test_the_command_passes_its_steps_on_and_names_the_report(monkeypatch, tmp_path) -> None:
+    steps: list[str] = []
+    monkeypatch.setattr(cli, "_progress_printer", lambda as_json: steps.append)
+    report = tmp_path / "review.html"
+    out = CliRunner().invoke(
+        cli.main,
+        [
+            "check",
+            str(CASE / "case.toml"),
+            "--claims",
+            str(CASE / "claims.csv"),
+            "--report",
+            str(report),
+        ],
+    )
+    assert out.exit_code in (0, 1), out.output
+    assert steps[0] == "reading the case" and steps[-1] == "writing the report"
+    assert report.is_file()

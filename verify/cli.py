@@ -348,12 +348,13 @@ def _run_check(
         )
         return EXIT_BAD_INPUT
     names = {**_CHECK_SPELLING, **(spelt or {})}
+    show = _progress_printer(as_json)
     try:
         result = check(
             case,
             claims_path,
             CheckOptions(**given, spelt=tuple(names.items())),
-            progress=_progress_printer(as_json),
+            progress=show,
         )
     except OptionError as exc:
         _say_bad_input(str(exc), as_json)
@@ -369,6 +370,9 @@ def _run_check(
             write_atomic(csv_path, render_csv(review), inputs=list(result.inputs))
         if report:
             from verify.report.document import render_document
+
+            if show is not None:
+                show("writing the report")
 
             write_atomic(
                 report,
