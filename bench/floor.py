@@ -3,7 +3,10 @@
 Reads the same case file as the tool (tomllib for the TOML, pandas' C parser for the CSV tables),
 maps labels to positions, assembles the sparse equilibrium matrix A (COO -> CSC, vectorised),
 and solves A t = -f with SuperLU: MMD_ATA ordering in 3D, COLAMD in 2D (shared/PERFORMANCE.md:
-the default ordering lets fill-in explode on 3D grids). Nothing else: no validation, no
+the default ordering lets fill-in explode on 3D grids). A case with a `[stiffness]` EA (the
+indeterminate families) is solved by direct stiffness instead: K = A_m diag(EA/L) A_m^T on the
+free joint directions, SuperLU with COLAMD (the ordering PERFORMANCE.md found consistent on
+indeterminate grids), and t = EA/L times each member's extension. Nothing else: no validation, no
 stability screen, no report. Only cases whose tables are CSV files named by the case file
 (the benchmark's own cases) are supported.
 
@@ -29,6 +32,13 @@ import scipy.sparse.linalg as spla
 PERTURB_FACTOR = 1.25  # the one wrong claim: 25 % high, far outside any agreement tolerance
 AGREE_RTOL = 0.01  # the tool's default --rtol
 AGREE_ATOL_FRACTION = 1e-3  # the tool's default --atol-fraction
+
+
+def stiffness_of(case: Path) -> float | None:
+    """The `[stiffness]` EA every member shares, when the case gives one."""
+    with case.open("rb") as fh:
+        table = tomllib.load(fh).get("stiffness")
+    return float(table["EA"]) if isinstance(table, dict) and "EA" in table else None
 
 
 def read_tables(case: Path) -> dict[str, pd.DataFrame]:
@@ -91,6 +101,31 @@ def assemble(
     return A, F, names, pd.Index(members["id"]), dim
 
 
+def member_lengths(tables: dict[str, pd.DataFrame]) -> np.ndarray:
+    joints = tables["joints"]
+    dim = 3 if "z" in joints.columns else 2
+    xyz = joints[list("xyz"[:dim])].to_numpy(float)
+    jindex = pd.Index(joints["id"])
+    members = tables["members"]
+    delta = xyz[jindex.get_indexer(members["end"])] - xyz[jindex.get_indexer(members["start"])]
+    return np.linalg.norm(delta, axis=1)
+
+
+def solve_elastic(A: sp.csc_matrix, F: np.ndarray, lengths: np.ndarray, ea: float) -> np.ndarray:
+    """Member forces (tension positive) by direct stiffness, every member's EA the same."""
+    b = lengths.size
+    A_m = A[:, :b]
+    restrained = np.asarray(abs(A[:, b:]).sum(axis=1)).ravel() != 0  # rows with a reaction
+    k = ea / lengths
+    K = (A_m @ sp.diags(k) @ A_m.T).tocsc()
+    free = np.flatnonzero(~restrained)
+    lu = spla.splu(K[free][:, free].tocsc(), permc_spec="COLAMD")
+    U = np.zeros_like(F)
+    U[free] = lu.solve(F[free])
+    # A_m^T U is minus each member's extension along its direction from start to end.
+    return -(k[:, None] * (A_m.T @ U))
+
+
 def solve(A: sp.csc_matrix, F: np.ndarray, dim: int) -> np.ndarray:
     lu = spla.splu(A, permc_spec="MMD_ATA" if dim == 3 else "COLAMD")
     return lu.solve(-F)
@@ -132,12 +167,11 @@ def main(argv: list[str] | None = None) -> int:
         "--write-claims", type=Path, help="write the solution as claims, one member perturbed"
     )
     args = parser.parse_args(argv)
-    A, F, names, member_ids, dim = assemble(read_tables(args.case))
-    t = solve(A, F, dim)
-    line = (
-        f"{args.case}: {len(member_ids)} members, max |force| "
-        f"{np.abs(t[: len(member_ids)]).max():.6g}"
-    )
+    tables = read_tables(args.case)
+    A, F, names, member_ids, dim = assemble(tables)
+    ea = stiffness_of(args.case)
+    t = solve(A, F, dim) if ea is None else solve_elastic(A, F, member_lengths(tables), ea)
+    line = f"{args.case}: {len(member_ids)} members, max |force| {np.abs(t[: len(member_ids)]).max():.6g}"
     if args.claims is not None:
         line += f", {compare(args.claims, t, names, member_ids)} claim(s) disagree"
     if args.write_claims is not None:

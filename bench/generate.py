@@ -15,6 +15,16 @@ Families (shared/PERFORMANCE.md, "Test structures"):
   per top chord; removing exactly those leaves it determinate (rank checked with a dense SVD for
   n = 2..6 while writing this file, and by ``truss-verify stability`` in every benchmark run).
 
+Two statically indeterminate families, checked against the elastic (direct stiffness) forces
+with EA = 2x10^5 kN for every member (a ``[stiffness]`` table in the case file):
+
+- ``pratt-x``: the Pratt truss with both diagonals in every panel (X-bracing), continuous over a
+  support every SPAN_PANELS panels: 5N + 1 members, N + N / SPAN_PANELS - 1 states of self-stress.
+  The intermediate supports keep it well conditioned at any length (one simply supported span of
+  20,000 panels is so flexible that no two stiffness solves agree on its forces).
+- ``grid-full``: the double-layer grid *with* its top chords: 8n^2 members, 2n(n - 1) states of
+  self-stress.
+
 Every case has two load cases: ``dead`` (10 kN down at every loaded joint) and ``wind`` (2 kN
 horizontal at every top joint), so multi-column paths are exercised.
 
@@ -30,7 +40,10 @@ from pathlib import Path
 
 import numpy as np
 
-FAMILIES = ("pratt", "grid")
+FAMILIES = ("pratt", "grid", "pratt-x", "grid-full")
+INDETERMINATE = ("pratt-x", "grid-full")  # checked against the elastic forces
+EA = 2.0e5  # kN, every member of the indeterminate families
+SPAN_PANELS = 10  # pratt-x: a support under the bottom chord every this many panels
 PANEL = 3.0  # Pratt panel length and depth: a 3-4-5 triangle keeps direction cosines rational
 DEPTH = 4.0
 GRID_DEPTH = 0.7  # grid depth over a unit bottom cell
@@ -49,6 +62,7 @@ class Truss:
     ends: np.ndarray  # members x 2, joint positions
     supports: list[tuple[int, str]]  # (joint position, "x y" ...)
     loads: dict[str, np.ndarray]  # case -> joints x dim
+    ea: float | None = None  # EA of every member (indeterminate families), else none given
 
     @property
     def dim(self) -> int:
@@ -102,6 +116,36 @@ def pratt(panels: int) -> Truss:
     )
 
 
+def pratt_x(panels: int) -> Truss:
+    """The Pratt truss with the second diagonal in every panel: indeterminate to degree N."""
+    base = pratt(panels)
+    n = panels
+    low, up, i = np.arange(n + 1), np.arange(n + 1) + n + 1, np.arange(n)
+    left = i < n / 2
+    other = np.where(
+        left[:, None], np.column_stack([low[i], up[i + 1]]), np.column_stack([up[i], low[i + 1]])
+    )
+    ends = np.vstack([base.ends, other.astype(np.int64)])
+    inner = [(int(low[j]), "y") for j in range(SPAN_PANELS, n, SPAN_PANELS)]
+    supports = [base.supports[0], *inner, base.supports[-1]]
+    return Truss("pratt-x", n, base.joint_ids, base.xyz, ends, supports, base.loads, EA)
+
+
+def grid_full(cells: int) -> Truss:
+    """The double-layer grid with its top chords: indeterminate to degree 2n(n - 1)."""
+    base = grid(cells)
+    n = cells
+    top = ((n + 1) ** 2 + np.arange(n * n)).reshape(n, n)
+    chords = np.vstack(
+        [
+            np.column_stack([top[:-1, :].ravel(), top[1:, :].ravel()]),
+            np.column_stack([top[:, :-1].ravel(), top[:, 1:].ravel()]),
+        ]
+    )
+    ends = np.vstack([base.ends, chords.astype(np.int64)])
+    return Truss("grid-full", n, base.joint_ids, base.xyz, ends, base.supports, base.loads, EA)
+
+
 def grid(cells: int) -> Truss:
     """Double-layer grid without top chords (see the module docstring), n x n cells."""
     if cells < 2:
@@ -144,12 +188,16 @@ def parameter_for(family: str, members: float) -> int:
         return max(2, round((members - 1) / 4))
     if family == "grid":
         return max(2, round((-2 + math.sqrt(4 + 24 * members)) / 12))
+    if family == "pratt-x":
+        return max(2, round((members - 1) / 5))
+    if family == "grid-full":
+        return max(2, round(math.sqrt(members / 8)))
     raise ValueError(f"unknown family {family!r}; expected one of {', '.join(FAMILIES)}")
 
 
 def build(family: str, members: float) -> Truss:
     p = parameter_for(family, members)
-    return pratt(p) if family == "pratt" else grid(p)
+    return {"pratt": pratt, "grid": grid, "pratt-x": pratt_x, "grid-full": grid_full}[family](p)
 
 
 def _fmt(values: np.ndarray) -> list[str]:
@@ -183,9 +231,10 @@ def write_case(truss: Truss, directory: str | Path) -> Path:
     path = out / "case.toml"
     # The table names come before [units]: bare keys after a [table] header would belong to it.
     path.write_text(
-        f'title = "Benchmark {truss.family}, {truss.members} members (parameter '
-        f'{truss.parameter})"\njoints = "joints.csv"\nmembers = "members.csv"\nsupports = '
-        '"supports.csv"\nloads = "loads.csv"\n\n[units]\nlength = "m"\nforce = "kN"\n',
+        f'title = "Benchmark {truss.family}, {truss.members} members (parameter {truss.parameter})"\n'
+        'joints = "joints.csv"\nmembers = "members.csv"\nsupports = "supports.csv"\nloads = "loads.csv"\n\n'
+        '[units]\nlength = "m"\nforce = "kN"\n'
+        + (f"\n[stiffness]\nEA = {truss.ea!r}\n" if truss.ea is not None else ""),
         encoding="utf-8",
     )
     return path

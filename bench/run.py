@@ -53,7 +53,7 @@ import generate  # noqa: E402  (bench/ is not a package; its sibling is imported
 PYTHON = sys.executable
 TOOL = str(Path(PYTHON).with_name("truss-verify"))
 BARE_IMPORT = "import numpy, scipy.sparse.linalg, pandas, click, tabulate"
-TARGETS = (1e2, 1e3, 1e4, 1e5)
+TARGETS = (1e2, 1e3, 1e4, 1e5, 1e6)  # 1e6 only when --max-members or --sizes asks for it
 SMALL_MEMBERS = 20  # the start-up case: a 5-panel Pratt truss, 21 members
 LARGE = 5e4  # at and above this member count, time each command once unless --repeats-large
 FAST_K = 1.25  # growth exponent clearly above n log n (1.1 between 10^4 and 10^5)
@@ -173,7 +173,11 @@ def stages_child(case: str, claims: str, skip: frozenset[str] = frozenset()) -> 
     t = clock()
     tables = floor.read_tables(Path(case))
     A, F, _, _, dim = floor.assemble(tables)
-    floor.solve(A, F, dim)
+    ea = floor.stiffness_of(Path(case))
+    if ea is None:
+        floor.solve(A, F, dim)
+    else:
+        floor.solve_elastic(A, F, floor.member_lengths(tables), ea)
     emit("floor in-process", clock() - t)
     t = clock()
     model = read_case(case)
@@ -315,6 +319,13 @@ def cpu_ratio(a: Timing | None, b: Timing | None) -> str:
     return f"{a.cpu / b.cpu:.1f}x"
 
 
+def peak_ratio(a: Timing | None, b: Timing | None) -> str:
+    """Peak memory of a command and its ratio to the floor's (target <= 1.5x)."""
+    if a is None or b is None or not a.peak_mb or not b.peak_mb:
+        return "—"
+    return f"{a.peak_mb:.0f} ({a.peak_mb / b.peak_mb:.1f}x)"
+
+
 def with_ratio(a: Timing | None, b: Timing | None) -> str:
     r = ratio(a, b)
     return fmt_s(a) + (f" ({r:.1f}x)" if r is not None else "")
@@ -339,7 +350,10 @@ def main(argv: list[str] | None = None) -> int:
         description="Benchmark truss-verify against a floor measured in the same run."
     )
     parser.add_argument(
-        "--max-members", type=float, default=1e5, help="largest target size (default 1e5)"
+        "--max-members",
+        type=float,
+        default=1e5,
+        help="largest target size (default 1e5; 1e6 takes minutes per command)",
     )
     parser.add_argument("--quick", action="store_true", help="sizes up to 1e4 members only")
     parser.add_argument(
@@ -512,10 +526,12 @@ def main(argv: list[str] | None = None) -> int:
             except (ValueError, KeyError):
                 last = (check_run.stderr.strip().splitlines() or [""])[-1]
                 classification = f"unknown (`stability --json` exit {check_run.returncode}: {last})"
-            if classification != "stable-determinate":
+            expected = (
+                "stable-indeterminate" if family in generate.INDETERMINATE else "stable-determinate"
+            )
+            if classification != expected:
                 print(
-                    f"  WARNING: truss-verify stability says {classification}; expected "
-                    "stable-determinate"
+                    f"  WARNING: truss-verify stability says {classification}; expected {expected}"
                 )
             t: dict[str, Timing] = {}
             t["floor"] = timed([PYTHON, str(HERE / "floor.py"), str(case)], **kw)
@@ -526,6 +542,22 @@ def main(argv: list[str] | None = None) -> int:
             t["solve"] = timed([TOOL, "solve", str(case)], **kw)
             t["check"] = timed(
                 [TOOL, "check", str(case), "--claims", str(claims)], ok_codes=(1,), **kw
+            )
+            t["check --json"] = timed(
+                [TOOL, "check", str(case), "--claims", str(claims), "--json"], ok_codes=(1,), **kw
+            )
+            t["check --report"] = timed(
+                [
+                    TOOL,
+                    "check",
+                    str(case),
+                    "--claims",
+                    str(claims),
+                    "--report",
+                    str(directory / "report.html"),
+                ],
+                ok_codes=(1,),
+                **kw,
             )
             if with_sections and family in sections_gave_up:
                 t["sections"] = Timing(None, error="skipped: timed out at a smaller size")
@@ -567,6 +599,9 @@ def main(argv: list[str] | None = None) -> int:
                 with_ratio(t["solve"], t["floor"]),
                 fmt_s(t["floor+claims"]),
                 with_ratio(t["check"], t["floor+claims"]),
+                with_ratio(t["check --json"], t["floor+claims"]),
+                with_ratio(t["check --report"], t["floor+claims"]),
+                peak_ratio(t["check --json"], t["floor+claims"]),
             ]
             if with_sections:
                 row.append(with_ratio(t["sections"], t["floor"]))
@@ -604,12 +639,15 @@ def main(argv: list[str] | None = None) -> int:
         "solve s (ratio)",
         "floor+claims s",
         "check s (ratio)",
+        "check --json s (ratio)",
+        "check --report s (ratio)",
+        "check --json peak MB (x floor+claims)",
     ]
     if with_sections:
         headers.append("solve --show sections s (ratio)")
     print(
-        "\nWhole-process times (median), ratio = tool / floor; target ratio <= 3 from 10^4 members "
-        "up"
+        "\nWhole-process times (median), ratio = tool / floor (check: / floor+claims); targets: "
+        "check --json <= 2x and peak memory <= 1.5x from 10^4 members up, check --report <= 2.5x"
     )
     print(table(headers, rows))
     print(

@@ -339,8 +339,14 @@ def _run_check(
         )
         return EXIT_BAD_INPUT
     names = {**_CHECK_SPELLING, **(spelt or {})}
+    show = _progress_printer(as_json)
     try:
-        result = check(case, claims_path, CheckOptions(**given, spelt=tuple(names.items())))
+        result = check(
+            case,
+            claims_path,
+            CheckOptions(**given, spelt=tuple(names.items())),
+            progress=show,
+        )
     except OptionError as exc:
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
@@ -356,6 +362,9 @@ def _run_check(
         if report:
             from verify.report.document import render_document
 
+            if show is not None:
+                show("writing the report")
+
             write_atomic(
                 report,
                 render_document(
@@ -369,9 +378,12 @@ def _run_check(
         _say_bad_input(str(exc), as_json)
         return EXIT_BAD_INPUT
     if as_json:
-        click.echo(
-            json_out.dumps(json_out.check_json(review, displacement_file=result.displacement_file))
-        )
+        # Written in pieces as they are encoded: a 10^6-member object is hundreds of megabytes.
+        for piece in json_out.iter_dumps(
+            json_out.check_json(review, displacement_file=result.displacement_file)
+        ):
+            click.echo(piece, nl=False)
+        click.echo("")
     else:
         # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
         click.echo(
@@ -381,6 +393,26 @@ def _run_check(
             )
         )
     return result.exit_code
+
+
+PROGRESS_AFTER_S = 2.0  # a run shorter than this shows no progress at all
+
+
+def _progress_printer(as_json: bool) -> Any:
+    """Progress lines on stderr for long runs, only when stderr is a terminal and the output is
+    not JSON; None otherwise (nothing in pipes). A step is shown once the run has taken
+    PROGRESS_AFTER_S, so short checks stay silent."""
+    if as_json or not sys.stderr.isatty():
+        return None
+    import time
+
+    start = time.monotonic()
+
+    def show(step: str) -> None:
+        if time.monotonic() - start >= PROGRESS_AFTER_S:
+            click.echo(f"truss-verify: {step} ...", err=True)
+
+    return show
 
 
 # The options as the command spells them, for messages (CheckOptions names its fields in Python).

@@ -16,6 +16,7 @@ exit, not to the comparison.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -139,11 +140,21 @@ def case_file(case_path: str | Path) -> str:
 
 
 def check(
-    case_path: str | Path, claims_path: str | Path, options: CheckOptions | None = None
+    case_path: str | Path,
+    claims_path: str | Path,
+    options: CheckOptions | None = None,
+    *,
+    progress: Callable[[str], None] | None = None,
 ) -> CheckResult:
-    """Check the claims against the case; InputError for a file that cannot be read as one."""
+    """Check the claims against the case; InputError for a file that cannot be read as one.
+
+    `progress`, when given, is called with the name of each step as it starts (the caller
+    decides whether and where to show it; this module never prints)."""
+    say = progress or _quiet
     options = options or CheckOptions()
+    say("reading the case")
     model = read_case(case_file(case_path), tables_outside=options.tables_anywhere)
+    say(f"reading the claims ({len(model.members):,} members)")
     claims = read_claims(
         str(claims_path),
         model,
@@ -171,11 +182,13 @@ def check(
         from verify.io.displacements import read_displacements
 
         displacement_claims = read_displacements(str(options.displacements), model)
+    say("analysing the truss")
     analysis = analyse(
         model,
         assume_equal_EA=options.assume_equal_EA,
         displacements=displacement_claims is not None,
     )
+    say("comparing the claims")
     review = compare_claims(
         analysis,
         claims,
@@ -196,6 +209,10 @@ def check(
     if options.displacements is not None:
         read.append(str(options.displacements))
     return CheckResult(review, model, claims, displacement_file, tuple(dict.fromkeys(read)))
+
+
+def _quiet(step: str) -> None:
+    """No progress wanted."""
 
 
 __all__ = ["CheckOptions", "CheckResult", "case_file", "check", "exit_status"]

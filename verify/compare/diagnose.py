@@ -19,6 +19,7 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from enum import StrEnum
+from functools import partial
 from types import SimpleNamespace
 from typing import Any, NamedTuple
 
@@ -53,14 +54,10 @@ from verify.compare.convention import (
 )
 from verify.compare.findings import Finding, Severity, ordered, worded
 from verify.compare.implied import ImpliedLoads, implied_loads
-from verify.compare.tolerances import (
-    Tolerance,
-    decimals_as_written,
-    rounding_allowances,
-    significant_figure_allowances,
-)
+from verify.compare.tolerances import Tolerance, rounding_allowances
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
+from verify.io.claims.table import ClaimArrays
 from verify.model import Model
 from verify.units import Dimension, factor, lookup_unit
 
@@ -260,7 +257,8 @@ SHARED = (
     "k_of",
     "load_names",
     "mapping",
-    "member_claims",
+    "arrays",
+    "member_idx",
     "member_pos",
     "model",
     "named_factor",
@@ -296,7 +294,9 @@ def _start(c: Comparison) -> None:
     notes: list[str] = []
     case_unit = model.units.force
     load_names = model.load_names
-    columns = list(dict.fromkeys(v.column for v in claims.values))
+    # The claims as columns, settled by the reader (values, units, rounding): never re-read here.
+    arrays = claims.arrays_for(model.member_index, case_unit)
+    columns = list(arrays.names)
     mapping = map_columns(columns, load_names)
     ref = analysis.reference
     stab = analysis.stability
@@ -309,7 +309,7 @@ def _start(c: Comparison) -> None:
         load_names,
     )
     c.mapping, c.model, c.notes, c.ref, c.stab = mapping, model, notes, ref, stab
-    c.tol = tol
+    c.tol, c.arrays = tol, arrays
 
 
 def _structure(c: Comparison) -> None:
@@ -412,47 +412,24 @@ def _labels(c: Comparison) -> None:
 
 
 def _units(c: Comparison) -> None:
-    case_unit, claims, model, notes, tol = c.case_unit, c.claims, c.model, c.notes, c.tol
+    case_unit, claims, notes, tol = c.case_unit, c.claims, c.notes, c.tol
     unit = c.unit
     # Units: per value, the unit it states (cell or header), else the option, else the case unit.
     option_unit = lookup_unit(unit, Dimension.FORCE) if unit else None
-    stated_units = {v.unit for v in claims.values if v.unit}
-    conv = np.ones(len(claims.values))
-    unit_factor_of: dict[str | None, float] = {}
-    for i, v in enumerate(claims.values):
-        if v.unit not in unit_factor_of:
-            source = lookup_unit(v.unit, Dimension.FORCE) if v.unit else option_unit or case_unit
-            unit_factor_of[v.unit] = factor(source, case_unit)
-        conv[i] = unit_factor_of[v.unit]
-    # Per-claim arrays, computed once: raw values, T/C flags, member positions, rounding allowance.
-    raw = np.array([v.value for v in claims.values], dtype=float)
-    fixed_all = np.array([v.sign_fixed for v in claims.values], dtype=bool)
-    member_pos = np.array(
-        [model.member_index[v.member] if v.member is not None else -1 for v in claims.values],
-        dtype=np.int64,
-    )
-    rounding_unit = rounding_allowances(raw, conv)
-    # Decimals as the cell shows them: '10.00' was written to the hundredth, not the unit.
-    for i, v in enumerate(claims.values):
-        shown = decimals_as_written(v.text, v.value)
-        if shown is not None:
-            rounding_unit[i] = min(rounding_unit[i], 0.5 * 10.0 ** (-shown) * abs(conv[i]) * 1.0001)
-    # A column written to 2 or 3 significant figures rounds whole numbers at that figure too.
-    column_of_claim = np.array([v.column for v in claims.values], dtype=object)
-    is_member_claim = np.array([v.reaction is None for v in claims.values], dtype=bool)
-    for column in dict.fromkeys(column_of_claim.tolist()):
-        picked = (column_of_claim == column) & is_member_claim
-        if picked.any():
-            rounding_unit[picked] = np.maximum(
-                rounding_unit[picked], significant_figure_allowances(raw[picked], conv[picked])
-            )
-        step = claims.resolution_of(
-            column
-        )  # judged by the reader: the column rounded to 0.5, 5 ...
-        if step is not None and picked.any():
-            rounding_unit[picked] = np.maximum(
-                rounding_unit[picked], 0.5 * step.step * np.abs(conv[picked]) * 1.0001
-            )
+    arrays = c.arrays
+    stated_units = {u for u in arrays.units if u}
+    # The reader gave each stated unit's factor; a value without one is in the option's unit or
+    # the case's.
+    assumed = factor(option_unit or case_unit, case_unit)
+    conv = np.where(np.isnan(arrays.unit_factor), assumed, arrays.unit_factor)
+    raw = arrays.value
+    fixed_all = arrays.sign_fixed
+    member_pos = arrays.member
+    # Allowances for how each value was written (decimals shown, a column's significant figures or
+    # step), in the claim's unit from the reader; here in the case's.
+    rounding_unit = arrays.rounding * np.abs(conv)
+    column_of_claim = np.array(arrays.names, dtype=object)[arrays.column]
+    is_member_claim = member_pos >= 0
     tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
         notes.append(
@@ -468,7 +445,15 @@ def _units(c: Comparison) -> None:
     unit_source = "table" if stated_units else ("option" if option_unit else "assumed")
     column_readings: list[str] = []  # columns read in their own unit scale (below)
     # The unit the table is read in: the factors it can really be off by are those to other units.
-    stated_counts = Counter(v.unit for v in claims.values if v.unit)
+    stated_counts = Counter(
+        {
+            u: int(n)
+            for u, n in zip(
+                arrays.units, np.bincount(arrays.unit, minlength=len(arrays.units)), strict=True
+            )
+            if u
+        }
+    )
     reference_unit = (
         lookup_unit(stated_counts.most_common(1)[0][0], Dimension.FORCE)
         if stated_counts
@@ -520,8 +505,7 @@ def _units(c: Comparison) -> None:
 
 
 def _gather(c: Comparison) -> None:
-    claims, load_names, mapping, model, ref, stab = (
-        c.claims,
+    load_names, mapping, model, ref, stab = (
         c.load_names,
         c.mapping,
         c.model,
@@ -529,11 +513,7 @@ def _gather(c: Comparison) -> None:
         c.stab,
     )
     # Gather comparable member claims.
-    member_claims = [
-        (i, v)
-        for i, v in enumerate(claims.values)
-        if v.member is not None and mapping.get(v.column)
-    ]
+    member_idx = _member_claims(c.arrays, mapping)
     comparable = ref is not None and stab.classification is not Classification.UNSTABLE
     scale_of: dict[str, float] = {}
     if ref is not None:
@@ -555,7 +535,7 @@ def _gather(c: Comparison) -> None:
                 else largest
             )
             scale_of[name] = min(largest, cap)
-    c.comparable, c.member_claims, c.scale_of = comparable, member_claims, scale_of
+    c.comparable, c.member_idx, c.scale_of = comparable, member_idx, scale_of
 
 
 def _case_mismatch(c: Comparison) -> None:
@@ -566,7 +546,7 @@ def _case_mismatch(c: Comparison) -> None:
     # Case mismatch: a column that fits another load column much better than its own.
     remap: dict[str, str] = {}
     if comparable and ref is not None:
-        column_of = np.array([v.column for v in claims.values], dtype=object)
+        column_of = c.column_of_claim
         for column in columns:
             idx = np.nonzero((column_of == column) & (member_pos >= 0))[0]
             if len(idx) < MIN_MEMBERS_FOR_TABLE:
@@ -625,22 +605,17 @@ def _case_mismatch(c: Comparison) -> None:
                 )
             )
     mapping.update(remap)
-    member_claims = [
-        (i, v)
-        for i, v in enumerate(claims.values)
-        if v.member is not None and mapping.get(v.column)
-    ]
-    c.member_claims = member_claims
+    c.member_idx = _member_claims(c.arrays, mapping)
 
 
 def _column_readings(c: Comparison) -> None:
     case_unit, claims, column_of_claim = c.case_unit, c.claims, c.column_of_claim
     column_readings, columns, comparable, conv = c.column_readings, c.columns, c.comparable, c.conv
     findings, fixed_all, is_member_claim = c.findings, c.fixed_all, c.is_member_claim
-    load_names, mapping, member_claims, member_pos, raw = (
+    load_names, mapping, member_idx, member_pos, raw = (
         c.load_names,
         c.mapping,
-        c.member_claims,
+        c.member_idx,
         c.member_pos,
         c.raw,
     )
@@ -658,7 +633,7 @@ def _column_readings(c: Comparison) -> None:
         column_fit: dict[str, tuple[int, float, Fit, Fit, np.ndarray]] = {}
         for column in columns:
             target = mapping.get(column)
-            idx = np.array([i for i, v in member_claims if v.column == column], dtype=np.int64)
+            idx = member_idx[column_of_claim[member_idx] == column]
             if target is None or len(idx) < MIN_MEMBERS_FOR_TABLE:
                 continue
             k = load_names.index(target)
@@ -692,7 +667,7 @@ def _column_readings(c: Comparison) -> None:
                 if rel_sign == 1 and abs(rel_factor - 1.0) < 1e-9:
                     continue
                 in_column = column_of_claim == column
-                stated = {claims.values[i].unit for i in idx}
+                stated = {c.arrays.units[u] for u in np.unique(c.arrays.unit[idx])}
                 told = (
                     f"its header states {', '.join(sorted(str(u) for u in stated))}"
                     if stated != {None}
@@ -750,12 +725,12 @@ def _table_convention(c: Comparison) -> None:
         c.conv,
         c.findings,
     )
-    fixed_all, indeterminate, load_names, mapping, member_claims = (
+    fixed_all, indeterminate, load_names, mapping, member_idx = (
         c.fixed_all,
         c.indeterminate,
         c.load_names,
         c.mapping,
-        c.member_claims,
+        c.member_idx,
     )
     member_pos, model, named_factor, raw = c.member_pos, c.model, c.named_factor, c.raw
     ref, rounding_unit, scale_of, sign = c.ref, c.rounding_unit, c.scale_of, c.sign
@@ -768,16 +743,14 @@ def _table_convention(c: Comparison) -> None:
     )
     # Table convention.
     sign_fit, scale_fit, inferred = 1, 1.0, sign is SignMode.AUTO
-    all_fixed = bool(member_claims) and all(v.sign_fixed for _, v in member_claims)
+    all_fixed = bool(member_idx.size) and bool(fixed_all[member_idx].all())
     support = "no recomputed forces to compare with"
     stated_sign = {SignMode.TENSION_POSITIVE: 1, SignMode.COMPRESSION_POSITIVE: -1}.get(sign, 1)
-    if comparable and member_claims:
-        idx = np.array([i for i, _ in member_claims], dtype=np.int64)
+    if comparable and member_idx.size:
+        idx = member_idx
         fixed = fixed_all[idx]
         vals = raw[idx] * conv[idx] * np.where(fixed, 1.0, float(stated_sign))
-        load_pos = np.array(
-            [load_names.index(mapping[v.column]) for _, v in member_claims], dtype=np.int64
-        )
+        load_pos = _load_of_column(c.arrays, mapping, load_names)[c.arrays.column[idx]]
         comp = ref.member_forces[member_pos[idx], load_pos]
         scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names])
         atol_arr = tol.atol_fraction * scale_arr[load_pos]
@@ -805,7 +778,7 @@ def _table_convention(c: Comparison) -> None:
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
             support = f"{best.agree} of {n} non-zero claims on members that carry force agree when read this way ({identity.agree} as written)"
-            involved = tuple(v.member for _, v in member_claims if v.member is not None)
+            involved: tuple[str, ...] = ()  # the whole table: no member named
             severity = Severity.INFO if sign is SignMode.AUTO else Severity.ERROR
             if best.sign == -1 and not all_fixed:
                 told = (
@@ -816,7 +789,7 @@ def _table_convention(c: Comparison) -> None:
                 findings.append(
                     Finding(
                         "table-sign-convention",
-                        involved[:0],
+                        involved,
                         f"{told}, but the data show the opposite convention: "
                         f"{'compression' if stated_sign == 1 else 'tension'} is written positive throughout "
                         f"({best.agree} of {n} members agree when every sign is reversed, {identity.agree} as written)",
@@ -862,10 +835,9 @@ def _table_convention(c: Comparison) -> None:
 
 
 def _rows(c: Comparison) -> None:
-    analysis, case_unit, claims, comparable, conv = (
+    analysis, case_unit, comparable, conv = (
         c.analysis,
         c.case_unit,
-        c.claims,
         c.comparable,
         c.conv,
     )
@@ -900,33 +872,28 @@ def _rows(c: Comparison) -> None:
         int, float
     ] = {}  # the rounding allowance of each disagreeing member claim
     # Member claims are judged all at once (arrays); the loop below only assembles rows.
-    n_claims = len(claims.values)
-    k_of = np.array(
-        [
-            load_names.index(mapping[v.column]) if mapping.get(v.column) else -1
-            for v in claims.values
-        ],
-        dtype=np.int64,
-    )
-    is_reaction = np.array([v.reaction is not None for v in claims.values], dtype=bool)
+    arrays = c.arrays
+    n_claims = len(arrays)
+    k_of = _load_of_column(arrays, mapping, load_names)[arrays.column]
+    is_reaction = member_pos < 0
     judged = (member_pos >= 0) & (k_of >= 0) & ~is_reaction
     signs = np.where(fixed_all, 1.0, float(effective_sign))
     values = raw * signs * conv * scale_fit
     mp, kk = np.where(judged, member_pos, 0), np.where(k_of >= 0, k_of, 0)
 
-    def route(forces: np.ndarray | None) -> list[float | None]:
+    def route(forces: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+        """A route's force for every claim, and where it has one (a judged claim, finite)."""
         if forces is None or n_claims == 0:
-            return [None] * n_claims
+            return np.zeros(n_claims), np.zeros(n_claims, dtype=bool)
         picked = forces[mp, kk]
-        usable = (judged & np.isfinite(picked)).tolist()
-        return [x if ok else None for x, ok in zip(picked.tolist(), usable, strict=True)]
+        return picked, judged & np.isfinite(picked)
 
-    joints_l = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
-    sections_l = route(
+    joints_a = route(analysis.joints.forces.member_forces if analysis.joints is not None else None)
+    sections_a = route(
         analysis.sections.forces.member_forces if analysis.sections is not None else None
     )
-    global_l = route(analysis.global_.member_forces if analysis.global_ is not None else None)
-    elastic_l = route(
+    global_a = route(analysis.global_.member_forces if analysis.global_ is not None else None)
+    elastic_a = route(
         analysis.elastic.forces.member_forces if analysis.elastic is not None else None
     )
     reference_forces = (
@@ -954,128 +921,143 @@ def _rows(c: Comparison) -> None:
     rounding_matrix[member_pos[judged_rows], k_of[judged_rows]] = np.abs(
         rounding_unit[judged_rows] * scale_fit
     )
-    values_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
-    agree_l, status_l, judged_l = agree_all.tolist(), convention_status.tolist(), judged.tolist()
-    for i, v in enumerate(claims.values):
-        mapped = mapping.get(v.column)
-        if mapped is None:
-            continue
-        name = mapped
-        k = load_names.index(name) if not judged_l[i] else int(k_of[i])
-        as_written = v.text or (
-            f"{abs(v.value):g} {'T' if v.value > 0 else 'C'}"
-            if v.sign_fixed and v.value
-            else f"{v.value:g}"
+    # The rows, built from the columns in table order: one row per reaction claim and per member
+    # claim on a load column. Member rows are made all at once; a claim object is made only for
+    # a claim that disagrees (diffs), and reactions (few) are worded one by one.
+    mapped_of_column = [mapping.get(name) for name in arrays.names]
+    on_a_load = np.array([m is not None for m in mapped_of_column] or [False])[arrays.column]
+    reaction_at = np.zeros(n_claims, dtype=bool)
+    reaction_at[list(arrays.reaction)] = True
+    gives_row = on_a_load & (judged | reaction_at)
+    row_of = np.cumsum(gives_row) - 1
+    # The recomputed value of a member claim: the global solve's, else the elastic one's.
+    has_global, has_elastic = global_a[1], elastic_a[1]
+    has_computed = has_global | has_elastic
+    compared = judged & has_computed & comparable
+    member_at = np.flatnonzero(judged)
+    ids = np.array(model.member_ids, dtype=object)[member_pos[member_at]].tolist()
+    cases = np.array(load_names or [""], dtype=object)[k_of[member_at]].tolist()
+    raw_l, fixed_l = raw.tolist(), fixed_all.tolist()
+    text_l, where_l = arrays.text, arrays.where
+
+    def as_written(i: int) -> str:
+        raw_i = raw_l[i]
+        return text_l[i] or (
+            f"{abs(raw_i):g} {'T' if raw_i > 0 else 'C'}" if fixed_l[i] and raw_i else f"{raw_i:g}"
         )
-        written = f"{as_written} at {v.where}"
-        if v.reaction is not None:
-            joint, axis = v.reaction
-            rounding = float(rounding_unit[i]) * scale_fit
-            # Reactions are global components: the table sign convention for T/C does not apply.
-            value = v.value * conv[i] * scale_fit
-            matches = [
-                n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis
-            ]
-            computed = None
-            if ref is not None and matches:
-                computed = float(ref.reactions[matches[0], k])
-                reaction_claims[(matches[0], k)] = value
-            elif ref is not None:
-                computed = (
-                    0.0  # the support does not restrain this direction: no reaction acts along it
-                )
-            status = (
-                "not-verifiable"
-                if computed is None
-                else (
-                    "agrees"
-                    if tol.agrees(
-                        value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding
-                    )
-                    else "value-mismatch"
-                )
+
+    def column(route_a: tuple[np.ndarray, np.ndarray]) -> list[float | None]:
+        picked, usable = route_a[0][member_at].tolist(), route_a[1][member_at]
+        if usable.all():  # the common case: the route has every force
+            return picked
+        return [x if ok else None for x, ok in zip(picked, usable.tolist(), strict=True)]
+
+    # The cell as written (made up only for a claim built in memory without its text).
+    written_member = [f"{text_l[i] or as_written(i)} at {where_l[i]}" for i in member_at.tolist()]
+    global_c, elastic_c = column(global_a), column(elastic_a)
+    compared_m = compared[member_at]
+    recomputed = np.where(has_global, global_a[0], elastic_a[0])[member_at]
+    difference = np.where(compared_m, values[member_at] - recomputed, np.nan)
+    status = np.where(
+        compared_m,
+        np.where(agree_all[member_at], convention_status[member_at], "value-mismatch"),
+        "not-verifiable",
+    )
+    member_rows = list(
+        map(
+            partial(tuple.__new__, Row),  # in C: Row(...) and Row._make run Python code per row
+            zip(
+                ids,
+                ["member"] * len(ids),
+                cases,
+                values[member_at].tolist(),
+                written_member,
+                column(joints_a),
+                column(sections_a),
+                global_c,
+                elastic_c,
+                [
+                    d if ok else None
+                    for d, ok in zip(difference.tolist(), compared_m.tolist(), strict=True)
+                ],
+                status.tolist(),
+                strict=True,
+            ),
+        )
+    )
+    seen_pairs.update(zip(ids, cases, strict=True))
+    rows = [None] * int(gives_row.sum())  # type: ignore[list-item]  # every slot is filled below
+    for r, row in zip(row_of[member_at].tolist(), member_rows, strict=True):
+        rows[r] = row
+    for i in np.flatnonzero(compared).tolist():
+        frame_rows.append((i, int(row_of[i])))
+        frame_written.append(as_written(i))
+    value_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
+    for i in np.flatnonzero(compared & ~agree_all).tolist():
+        r = int(row_of[i])
+        diffs.append((r, arrays.claim(i), value_l[i], computed_l[i], allowed_l[i]))
+        rounding_of_row[r] = float(rounding_unit[i]) * abs(scale_fit)
+    for i in np.flatnonzero(gives_row & reaction_at).tolist():
+        name = mapped_of_column[int(arrays.column[i])]
+        assert name is not None
+        k = load_names.index(name)
+        written = f"{as_written(i)} at {where_l[i]}"
+        joint, axis = arrays.reaction[i]
+        rounding = float(rounding_unit[i]) * scale_fit
+        # Reactions are global components: the table sign convention for T/C does not apply.
+        value = raw_l[i] * conv[i] * scale_fit
+        matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
+        computed = None
+        if ref is not None and matches:
+            computed = float(ref.reactions[matches[0], k])
+            reaction_claims[(matches[0], k)] = value
+        elif ref is not None:
+            computed = (
+                0.0  # the support does not restrain this direction: no reaction acts along it
             )
-            rows.append(
-                Row(
-                    f"{joint}.{axis}",
-                    "reaction",
-                    name,
-                    value,
-                    written,
-                    None,
-                    None,
-                    computed,
-                    None,
-                    None if computed is None else value - computed,
-                    status,
+        reaction_status = (
+            "not-verifiable"
+            if computed is None
+            else (
+                "agrees"
+                if tol.agrees(
+                    value, computed, tol.atol_fraction * scale_of.get(name, 0.0), rounding
                 )
-            )
-            if status == "value-mismatch" and computed is not None:
-                why = (
-                    ""
-                    if matches
-                    else f": the support at {joint} does not restrain {axis}, so it has no reaction along it"
-                )
-                findings.append(
-                    Finding(
-                        "value-mismatch",
-                        (f"{joint}.{axis}",),
-                        f"reaction {joint}.{axis} in '{name}': claimed "
-                        f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} [written {written}]",
-                        Severity.ERROR,
-                        case=name,
-                        locations=(v.where,),
-                    )
-                )
-            continue
-        if not judged_l[i]:
-            continue
-        member = v.member
-        assert member is not None
-        seen_pairs.add((member, name))
-        value = values_l[i]
-        global_v, elastic_v = global_l[i], elastic_l[i]
-        computed = global_v if global_v is not None else elastic_v
-        if computed is None or not comparable:
-            rows.append(
-                Row(
-                    member,
-                    "member",
-                    name,
-                    value,
-                    written,
-                    joints_l[i],
-                    sections_l[i],
-                    global_v,
-                    elastic_v,
-                    None,
-                    "not-verifiable",
-                )
-            )
-            continue
-        frame_rows.append((i, len(rows)))
-        frame_written.append(as_written)
-        if agree_l[i]:
-            status = status_l[i]
-        else:
-            status = "value-mismatch"
-            diffs.append((len(rows), v, value, computed_l[i], allowed_l[i]))
-            rounding_of_row[len(rows)] = float(rounding_unit[i]) * abs(scale_fit)
-        rows.append(
-            Row(
-                member,
-                "member",
-                name,
-                value,
-                written,
-                joints_l[i],
-                sections_l[i],
-                global_v,
-                elastic_v,
-                value - computed,
-                status,
+                else "value-mismatch"
             )
         )
+        rows[int(row_of[i])] = Row(
+            f"{joint}.{axis}",
+            "reaction",
+            name,
+            value,
+            written,
+            None,
+            None,
+            computed,
+            None,
+            None if computed is None else value - computed,
+            reaction_status,
+        )
+        if reaction_status == "value-mismatch" and computed is not None:
+            why = (
+                ""
+                if matches
+                else f": the support at {joint} does not restrain {axis}, "
+                "so it has no reaction along it"
+            )
+            findings.append(
+                Finding(
+                    "value-mismatch",
+                    (f"{joint}.{axis}",),
+                    f"reaction {joint}.{axis} in '{name}': claimed "
+                    f"{fmt(value)}, recomputed {fmt(computed)} {case_unit.symbol}{why} "
+                    f"[written {written}]",
+                    Severity.ERROR,
+                    case=name,
+                    locations=(where_l[i],),
+                )
+            )
     c.atol_all, c.claimed_matrix, c.computed_arr, c.diffs, c.flagged = (
         atol_all,
         claimed_matrix,
@@ -1095,9 +1077,8 @@ def _rows(c: Comparison) -> None:
 
 
 def _frame(c: Comparison) -> None:
-    atol_all, claims, comparable, computed_arr, frame_rows = (
+    atol_all, comparable, computed_arr, frame_rows = (
         c.atol_all,
-        c.claims,
         c.comparable,
         c.computed_arr,
         c.frame_rows,
@@ -1136,7 +1117,7 @@ def _frame(c: Comparison) -> None:
             atol_all[claim_at],
             rounding_unit[claim_at] * abs(scale_fit),
             tol.rtol,
-            tuple(claims.values[int(i)].where for i in claim_at),
+            tuple(c.arrays.where[int(i)] for i in claim_at),
             tuple(frame_written),
         )
     c.explained, c.frame = explained, frame
@@ -1547,7 +1528,7 @@ def _flag(c: Comparison) -> None:
 
 
 def _self_check(c: Comparison) -> None:
-    claims, findings, flagged, judged, k_of = c.claims, c.findings, c.flagged, c.judged, c.k_of
+    findings, flagged, judged, k_of = c.findings, c.flagged, c.judged, c.k_of
     member_pos, model, rounding_unit, scale_fit, tol = (
         c.member_pos,
         c.model,
@@ -1567,7 +1548,7 @@ def _self_check(c: Comparison) -> None:
         values[own],
         rounding_unit[own] * abs(scale_fit),
         tol.rtol,
-        [claims.values[int(i)].where for i in own],
+        [c.arrays.where[int(i)] for i in own],
     ):
         if set(f.members) <= anywhere:
             f = dataclasses.replace(f, severity=Severity.INFO)
@@ -1785,10 +1766,9 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         k = model.load_names.index(name)
         if C[case, k] == 0:
             continue
-        picked = [i for i, v in c.member_claims if v.column == other]
-        if len(picked) < MIN_MEMBERS_FOR_TABLE:
+        idx = c.member_idx[c.column_of_claim[c.member_idx] == other]
+        if len(idx) < MIN_MEMBERS_FOR_TABLE:
             continue
-        idx = np.array(picked, dtype=np.int64)
         claimed = c.raw[idx] * c.conv[idx]
         as_defined = ref.member_forces[c.member_pos[idx], k]
         reversed_case = as_defined - 2.0 * C[case, k] * ref.member_forces[c.member_pos[idx], case]
@@ -1805,23 +1785,65 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
 
 def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple) -> bool:
     """On an indeterminate truss two claims may match each other's elastic forces by a state of
-    self-stress; they are a swap only if exchanging them back makes their joints balance better."""
+    self-stress; they are a swap only if exchanging them back makes their joints balance better.
+
+    Only the rows of the two members' joints are formed (a swap candidate is tested thousands of
+    times on a large table): the member part of A as CSR rows and the claimed column, made once."""
     model = c.model
     k = model.load_names.index(name)
-    A = c.analysis.run.equilibrium_matrix()[:, : len(model.members)]
-    column = np.nan_to_num(c.claimed_matrix[:, k])
+    cached = getattr(c, "_swap_balance", None)
+    if cached is None:
+        A = c.analysis.run.equilibrium_matrix()[:, : len(model.members)]
+        cached = (A.tocsr(), np.nan_to_num(c.claimed_matrix), model.load_matrix())
+        c._swap_balance = cached
+    A_rows, claimed, F = cached
+    column = claimed[:, k]
     m1, m2 = model.member_index[first[1].member], model.member_index[second[1].member]
     joints = np.unique(np.concatenate([model.ends_index[m1], model.ends_index[m2]]))
     rows = (joints[:, None] * model.dim + np.arange(model.dim)).ravel()
-    loads = model.load_matrix()[rows, k]
-    as_written = float(np.linalg.norm(A[rows] @ column + loads))
-    column[[m1, m2]] = column[[m2, m1]]
-    return float(np.linalg.norm(A[rows] @ column + loads)) < 0.5 * as_written
+    residual, change = F[rows, k].astype(float), np.zeros(rows.size)
+    swap = {m1: column[m2] - column[m1], m2: column[m1] - column[m2]}
+    for j, r in enumerate(rows.tolist()):  # a few rows, read from the CSR arrays directly
+        lo, hi = A_rows.indptr[r], A_rows.indptr[r + 1]
+        cols, vals = A_rows.indices[lo:hi], A_rows.data[lo:hi]
+        residual[j] += float(vals @ column[cols])
+        # Exchanging the two values changes the residual only through the two members' columns.
+        change[j] = sum(
+            float(v) * swap[m] for m, v in zip(cols.tolist(), vals, strict=True) if m in swap
+        )
+    as_written = float(np.linalg.norm(residual))
+    return float(np.linalg.norm(residual + change)) < 0.5 * as_written
 
 
 def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:
     """Where a column's claims begin (the first claim of the column), for column-level findings."""
-    return tuple(v.where for v in claims.values if v.column == column)[:1]
+    arrays = _arrays_of(claims)
+    if column not in arrays.names:
+        return ()
+    first = np.flatnonzero(arrays.column == arrays.names.index(column))
+    return (arrays.where[int(first[0])],) if first.size else ()
+
+
+def _arrays_of(claims: ClaimsTable) -> ClaimArrays:
+    arrays = claims._arrays  # made by the comparison's first step (arrays_for)
+    assert arrays is not None
+    return arrays
+
+
+def _member_claims(arrays: ClaimArrays, mapping: dict[str, str | None]) -> np.ndarray:
+    """Positions of the member claims whose column maps to a load case or combination."""
+    mapped = np.array([bool(mapping.get(name)) for name in arrays.names] or [False])
+    return np.flatnonzero((arrays.member >= 0) & mapped[arrays.column])
+
+
+def _load_of_column(
+    arrays: ClaimArrays, mapping: dict[str, str | None], load_names: list[str]
+) -> np.ndarray:
+    """Per column name of the claims, the position of its load case (-1: none)."""
+    return np.array(
+        [load_names.index(m) if (m := mapping.get(name)) else -1 for name in arrays.names] or [-1],
+        dtype=np.int64,
+    )
 
 
 def _apply_cause(

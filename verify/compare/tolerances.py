@@ -14,15 +14,43 @@ A claimed value agrees with the recomputed one when
 
 from __future__ import annotations
 
-import math
-import re
 from dataclasses import dataclass
 
-import numpy as np
+# The rounding allowances are settled by the claims reader (verify/io/claims/rounding.py); their
+# names stay importable from here, where the tolerances are explained.
+from verify.io.claims.rounding import (
+    MAX_DECIMALS,
+    SIGNIFICANT_MAX,
+    SIGNIFICANT_MIN,
+    SIGNIFICANT_MIN_VALUES,
+    SIGNIFICANT_WIDENED_MIN,
+    decimals_as_written,
+    rounding_allowance,
+    rounding_allowances,
+    significant_digits_many,
+    significant_figure_allowances,
+    written_decimals,
+)
+
+__all__ = [
+    "ATOL_FRACTION",
+    "MAX_DECIMALS",
+    "RTOL",
+    "SIGNIFICANT_MAX",
+    "SIGNIFICANT_MIN",
+    "SIGNIFICANT_MIN_VALUES",
+    "SIGNIFICANT_WIDENED_MIN",
+    "Tolerance",
+    "decimals_as_written",
+    "rounding_allowance",
+    "rounding_allowances",
+    "significant_digits_many",
+    "significant_figure_allowances",
+    "written_decimals",
+]
 
 RTOL = 0.01
 ATOL_FRACTION = 1e-3
-MAX_DECIMALS = 6
 
 
 @dataclass(frozen=True)
@@ -38,109 +66,3 @@ class Tolerance:
 
     def agrees(self, claimed: float, computed: float, atol: float, rounding: float = 0.0) -> bool:
         return abs(claimed - computed) <= self.allowed(claimed, computed, atol, rounding)
-
-
-def written_decimals(value: float) -> int:
-    """How many decimals a number seems to have been written with (0..MAX_DECIMALS)."""
-    if not math.isfinite(value):
-        return MAX_DECIMALS
-    for k in range(MAX_DECIMALS + 1):
-        if abs(value - round(value, k)) <= 1e-9 * max(1.0, abs(value)):
-            return k
-    return MAX_DECIMALS
-
-
-def rounding_allowance(raw_value: float, scale: float) -> float:
-    """Half a unit in the last written decimal, in the case's units (after scaling)."""
-    k = written_decimals(raw_value)
-    if k >= MAX_DECIMALS:
-        return 0.0
-    # Whole numbers written as e.g. "12" are read as 0 decimals, but many tables round to
-    # 3 significant figures instead; the relative tolerance covers those.
-    return 0.5 * 10.0 ** (-k) * abs(scale) * 1.0001
-
-
-def rounding_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarray:
-    """Vectorised :func:`rounding_allowance` for many claims at once."""
-    values = np.asarray(raw_values, dtype=float)
-    out = np.zeros(values.shape)
-    pending = np.isfinite(values)
-    slack = 1e-9 * np.maximum(1.0, np.abs(values))
-    for k in range(MAX_DECIMALS):
-        hit = pending & (np.abs(values - np.round(values, k)) <= slack)
-        out[hit] = 0.5 * 10.0 ** (-k)
-        pending &= ~hit
-    return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
-
-
-SIGNIFICANT_MIN = 2  # a column rounded to 1 significant figure says too little to widen anything
-SIGNIFICANT_MAX = 3  # tables rounded to 2 or 3 significant figures (common practice)
-SIGNIFICANT_MIN_VALUES = 5  # fewer values cannot show how a column was rounded
-SIGNIFICANT_WIDENED_MIN = 3  # nor fewer whole numbers past the figures (the values widened)
-
-
-def significant_digits_many(values: np.ndarray) -> np.ndarray:
-    """Digits from the first non-zero one to the last non-zero one (140 -> 2, 4.50 -> 2, 0.27 -> 2),
-    for many non-zero finite values at once, read from 11-digit mantissas."""
-    magnitude = np.floor(np.log10(np.abs(values)))
-    mantissa = np.rint(np.abs(values) / 10.0 ** (magnitude - 10)).astype(np.int64)  # 11 digits
-    mantissa = np.where(
-        mantissa >= 10**11, mantissa // 10, mantissa
-    )  # rounded up to the next power
-    digits = np.full(values.shape, 11, dtype=np.int64)
-    for _ in range(10):
-        trailing = mantissa % 10 == 0
-        digits -= trailing
-        mantissa = np.where(trailing, mantissa // 10, mantissa)
-    return digits
-
-
-def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray) -> np.ndarray:
-    """Rounding allowances for a column written to S = 2 or 3 significant figures.
-
-    When no value of the column has more than S significant digits (and there are enough values
-    to tell), a whole number such as 140 is read as rounded at its S-th digit (half of 10, not of
-    1): a table rounded to 2 figures writes 135 as 140. Otherwise the allowance is zero here (the
-    last-decimal allowance applies). In the case's units, like rounding_allowances.
-    """
-    values = np.asarray(raw_values, dtype=float)
-    out = np.zeros(values.shape)
-    nonzero = np.isfinite(values) & (values != 0)
-    if nonzero.sum() < SIGNIFICANT_MIN_VALUES:
-        return out
-    figures = int(significant_digits_many(values[nonzero]).max())
-    if not SIGNIFICANT_MIN <= figures <= SIGNIFICANT_MAX:
-        return out
-    magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
-    place = magnitude - (
-        figures - 1
-    )  # the place of the last significant figure: 140 at 2 figures -> 1
-    widened = place > 0
-    if widened.sum() < SIGNIFICANT_WIDENED_MIN:
-        return out  # too few whole numbers past the figures to show the column was rounded so
-    # A power of ten (100 at 2 figures) stands for 99.5 to 105; the symmetric allowance (+-5)
-    # also admits 95 to 99.5, within the precision the column itself shows (150 covers +-3 %).
-    out[nonzero] = np.where(widened, 0.5 * 10.0**place, 0.0)
-    return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
-
-
-_DECIMAL_TOKEN = re.compile(r"(\d+)\.(\d+)")
-_DECIMAL_COMMA_TOKEN = re.compile(r"(\d+),(\d+)")
-
-
-def decimals_as_written(text: str, value: float) -> int | None:
-    """Decimals shown in the cell text ('10.00' or '10,00' -> 2), when the number in it is plainly
-    `value` read that way (a thousands separator reads as another number and is left alone)."""
-    if not text:
-        return None
-    if "," in text and "." not in text:  # a decimal comma ('10,00'), if that is what it reads as
-        found = _DECIMAL_COMMA_TOKEN.search(text)
-        if found is not None and float(found.group(0).replace(",", ".")) == abs(value):
-            return len(found.group(2))
-        return None
-    if "," in text:
-        return None
-    found = _DECIMAL_TOKEN.search(text)
-    if found is None or float(found.group(0)) != abs(value):
-        return None
-    return len(found.group(2))

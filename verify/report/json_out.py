@@ -1,9 +1,19 @@
-"""JSON renderings (DESIGN.md section 4 output contract)."""
+"""JSON renderings (DESIGN.md section 4 output contract).
+
+`dumps` returns the whole text; `iter_dumps` yields the same text in pieces, for outputs too
+large to hold twice (a 10^6-member `check --json` is hundreds of megabytes): lists given as
+iterators (the member rows) are encoded item by item as they are drawn, so memory does not grow
+with the output. Both give exactly the bytes of `json.dumps(..., indent=2, ensure_ascii=False)`;
+the pieces are encoded here because the standard library's indenting encoder is pure Python and
+took most of a 10^5-member check (bench/run.py).
+"""
 
 from __future__ import annotations
 
-import json
+import json.encoder
 import math
+from collections.abc import Callable, Iterable, Iterator
+from json.encoder import encode_basestring  # the C string encoder json.dumps uses
 from typing import Any
 
 import numpy as np
@@ -15,21 +25,202 @@ from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.names import public_convention, public_row
 
 
-def _clean(value: Any) -> Any:
-    """JSON has no NaN: a value a route could not obtain becomes null."""
-    if isinstance(value, np.generic):
-        value = value.item()  # numpy scalars (bool_, float64, int64) are not JSON types
-    if isinstance(value, float):
-        return None if not math.isfinite(value) else value
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_clean(v) for v in value]
-    return value
-
-
 def dumps(data: dict[str, Any]) -> str:
-    return json.dumps(_clean(data), indent=2, ensure_ascii=False, allow_nan=False)
+    """The JSON text of `data` (lists may be given as iterators, see iter_dumps)."""
+    return "".join(iter_dumps(data))
+
+
+# The C encoder behind json.dumps (absent from the type stubs, and from interpreters without the
+# accelerator, where the general path is used).
+C_MAKE_ENCODER: Callable[..., Any] | None = getattr(json.encoder, "c_make_encoder", None)
+CHUNK_ITEMS = 2_000  # list items joined into one piece: few writes, little held at once
+INDENT = "  "
+
+
+def _scalar(value: Any) -> str | None:
+    """The JSON text of a scalar (as json.dumps writes it; NaN and infinities as null), None for
+    containers."""
+    kind = type(value)
+    if kind is str:
+        return encode_basestring(value)
+    if kind is float:
+        return float.__repr__(value) if math.isfinite(value) else "null"
+    if value is None:
+        return "null"
+    if kind is bool:
+        return "true" if value else "false"
+    if kind is int:
+        return int.__repr__(value)
+    if isinstance(value, np.generic):
+        return _scalar(value.item())
+    if isinstance(value, float):  # a float subclass
+        return _scalar(float(value))
+    if isinstance(value, int) and not isinstance(value, bool):
+        return int.__repr__(int(value))
+    if isinstance(value, str):
+        return _scalar(str(value))
+    return None
+
+
+def _key(key: Any) -> str:
+    """Object keys as json.dumps turns them into strings."""
+    if isinstance(key, str):
+        return encode_basestring(key)
+    if isinstance(key, (bool, int, float)) or key is None:
+        return encode_basestring(_scalar(key) or "")
+    raise TypeError(f"keys must be str, int, float, bool or None, not {type(key).__name__}")
+
+
+def _encode(value: Any, level: int) -> str:
+    """One value at nesting `level`, in json.dumps' indented layout."""
+    text = _scalar(value)
+    if text is not None:
+        return text
+    return "".join(_pieces(value, level))
+
+
+def _pieces(value: Any, level: int) -> Iterator[str]:
+    """The text of `value` in pieces; an iterator that is not a list or tuple is drawn lazily."""
+    text = _scalar(value)
+    if text is not None:
+        yield text
+        return
+    inner = "\n" + INDENT * (level + 1)
+    if isinstance(value, dict):
+        if not value:
+            yield "{}"
+            return
+        yield (
+            "{"
+            + inner
+            + ("," + inner).join(f"{_key(k)}: {_encode(v, level + 1)}" for k, v in value.items())
+            + "\n"
+            + INDENT * level
+            + "}"
+        )
+        return
+    if isinstance(value, (list, tuple)):
+        if not value:
+            yield "[]"
+            return
+        yield "[" + inner + ("," + inner).join(_encode(v, level + 1) for v in value)
+        yield "\n" + INDENT * level + "]"
+        return
+    if isinstance(value, FlatObjects):
+        yield from _flat_list(value, level)
+        return
+    if isinstance(value, Iterator):
+        yield from _lazy_list(value, level)
+        return
+    raise TypeError(f"Object of type {type(value).__name__} is not JSON serializable")
+
+
+class FlatObjects(Iterator[dict[str, Any]]):
+    """An iterator of flat objects (every value a string, number, bool or None): the member
+    rows. Each is encoded by the standard library's C encoder, laid out by its separators."""
+
+    def __init__(self, items: Iterable[dict[str, Any]]) -> None:
+        self._items = iter(items)
+
+    def __iter__(self) -> FlatObjects:
+        return self
+
+    def __next__(self) -> dict[str, Any]:
+        return next(self._items)
+
+
+def _refuse(value: Any) -> Any:
+    raise TypeError(type(value).__name__)  # not a plain JSON value: the general path encodes it
+
+
+def _flat_list(items: FlatObjects, level: int) -> Iterator[str]:
+    inner = "\n" + INDENT * (level + 1)
+    field = "\n" + INDENT * (level + 2)
+    # Keys and values of one object sit on lines of their own at level + 2: exactly the layout
+    # json.dumps(indent=2) gives, made by the C encoder through its separators (made once: the
+    # JSONEncoder.encode wrapper would make one per row).
+    if C_MAKE_ENCODER is None:  # an interpreter without the C accelerator
+        yield from _lazy_list(items, level)
+        return
+    encoder = C_MAKE_ENCODER(
+        None, _refuse, encode_basestring, None, ": ", "," + field, False, False, False
+    )
+
+    def encode(item: dict[str, Any]) -> str:
+        return "".join(encoder(item, 0))
+
+    close = "\n" + INDENT * (level + 1) + "}"
+    first = True
+    batch: list[str] = []
+    for item in items:
+        try:
+            text = encode(item)
+            batch.append("{" + field + text[1:-1] + close if len(text) > 2 else "{}")
+        except (ValueError, TypeError):  # NaN or infinity (null here), a numpy scalar
+            batch.append(_encode(item, level + 1))
+        if len(batch) >= CHUNK_ITEMS:
+            yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
+            first, batch = False, []
+    if batch:
+        yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
+        first = False
+    yield "[]" if first else "\n" + INDENT * level + "]"
+
+
+def _lazy_list(items: Iterator[Any], level: int) -> Iterator[str]:
+    inner = "\n" + INDENT * (level + 1)
+    first = True
+    batch: list[str] = []
+    row_keys: tuple[Any, ...] | None = None
+    template = ""
+    for item in items:
+        if type(item) is dict and item:
+            # The member rows: flat objects with the same keys, filled into one template. Only
+            # the values are encoded per row, strings and finite floats inline (the common ones).
+            keys = tuple(item)
+            if keys != row_keys:
+                row_keys, template = keys, _template(keys, level + 1)
+            batch.append(
+                template
+                % tuple(
+                    [
+                        encode_basestring(v)
+                        if type(v) is str
+                        else float.__repr__(v)
+                        if type(v) is float and v - v == 0.0
+                        else _encode(v, level + 2)
+                        for v in item.values()
+                    ]
+                )
+            )
+        else:
+            batch.append(_encode(item, level + 1))
+        if len(batch) >= CHUNK_ITEMS:
+            yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
+            first, batch = False, []
+    if batch:
+        yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
+        first = False
+    yield "[]" if first else "\n" + INDENT * level + "]"
+
+
+def _template(keys: tuple[Any, ...], level: int) -> str:
+    """An object at `level` with these keys and a %s for each value."""
+    inner = "\n" + INDENT * (level + 1)
+    fields = ("," + inner).join(f"{_key(k).replace('%', '%%')}: %s" for k in keys)
+    return "{" + inner + fields + "\n" + INDENT * level + "}"
+
+
+def iter_dumps(data: dict[str, Any]) -> Iterator[str]:
+    """The text of `dumps(data)` in pieces; values that are iterators are drawn one by one."""
+    if not data:
+        yield "{}"
+        return
+    inner = "\n" + INDENT
+    for n, (key, value) in enumerate(data.items()):
+        yield ("{" if n == 0 else ",") + inner + _key(key) + ": "
+        yield from _pieces(value, 1)
+    yield "\n}"
 
 
 def value_units(model: Model) -> dict[str, str]:
@@ -142,10 +333,11 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         "verdict": review.verdict.value,
         "structure": review.analysis.stability.as_dict(),
         "convention": public_convention(review.convention.as_dict(), force),
-        "members": [
+        # A generator: iter_dumps writes the rows as it draws them (dumps accepts it too).
+        "members": FlatObjects(
             public_row(row.as_dict(), length if row.kind == "displacement" else force)
             for row in review.rows
-        ],
+        ),
         "findings": [f.as_dict() for f in review.findings],
         "summary": {
             "members_checked": review.checked_members,

@@ -20,13 +20,14 @@ from __future__ import annotations
 import hashlib
 from pathlib import Path
 
+import pandas as pd
+
 from verify.errors import InputError, Problem
 from verify.io.claims.grid import Grid
 from verify.io.claims.labels import LabelMatcher, member_ids_for
 from verify.io.claims.layout import Options, decide_layout
 from verify.io.claims.problems import MAX_PROBLEMS, Problems, quoted
-from verify.io.claims.resolution import judge_resolutions
-from verify.io.claims.rows import read_rows
+from verify.io.claims.rows import assemble_claims, read_rows
 from verify.io.claims.sheets import choose_sheet
 from verify.io.claims.source_csv import read_csv
 from verify.io.claims.source_pdf import read_pdf
@@ -114,18 +115,22 @@ def read_claims(
     layout = decide_layout(grid, model, matcher, options, problems)
     problems.raise_if_any()
     assert layout is not None
-    read = read_rows(grid, layout, matcher, problems, fast=FAST_ROWS)
+    member_ids = pd.Index(model.member_ids)
+    read = read_rows(grid, layout, matcher, problems, fast=FAST_ROWS, member_ids=member_ids)
     problems.raise_if_any()
+    arrays, values = assemble_claims(read, member_ids, model.units.force)
     return ClaimsTable(
         source=name,
         sheet=grid.sheet if grid.pages is None else _pages_read(grid.pages),
         sha256=hashlib.sha256(data).hexdigest(),
-        values=tuple(read.values),
+        values=values,
         unmatched=tuple(read.unmatched),
         columns=tuple(read.columns),
         header_unit=read.header_unit,
         sign_conflicts=tuple(read.sign_conflicts),
-        resolutions=tuple(judge_resolutions(read.values)),
+        resolutions=arrays.resolutions,
+        arrays=arrays,
+        count=len(arrays),
     )
 
 

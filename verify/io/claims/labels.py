@@ -64,7 +64,7 @@ class LabelMatcher:
         self._joints_folded: dict[str, list[str]] = defaultdict(list)
         for jid in model.joint_ids:
             self._joints_folded[normalize_text(jid).casefold()].append(jid)
-        self._pairs = {frozenset((m.start, m.end)): m.id for m in model.members}
+        self._pairs_made: dict[frozenset[str], str] | None = None  # made on first use (below)
         self._reactions = {(r.joint, r.axis) for r in model.reactions}
         # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
         # there is matched, so that 0 agrees and anything else is said to have no reaction to act on.
@@ -117,6 +117,13 @@ class LabelMatcher:
             )
         return Match("unknown", candidates=self._suggest(folded) if suggest else ())
 
+    def _pairs(self) -> dict[frozenset[str], str]:
+        """Members by their end joints; made only when a label reads as two joints (a table of
+        member ids never needs it, and it costs a set per member)."""
+        if self._pairs_made is None:
+            self._pairs_made = {frozenset((m.start, m.end)): m.id for m in self._model.members}
+        return self._pairs_made
+
     def _pair_readings(self, folded: str) -> list[str]:
         found: list[str] = []
         n = len(folded)
@@ -132,7 +139,7 @@ class LabelMatcher:
                 continue
             for a in self._joints_folded[left]:
                 for b in self._joints_folded[right]:
-                    mid = self._pairs.get(frozenset((a, b)))
+                    mid = self._pairs().get(frozenset((a, b)))
                     if mid is not None and mid not in found:
                         found.append(mid)
         return found

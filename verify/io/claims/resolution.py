@@ -10,15 +10,19 @@ shows. Steps of 1 or 0.1 need no judgement: the written decimals already say the
 
 from __future__ import annotations
 
-import math
-from collections import defaultdict
+from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from verify.io.claims.table import ClaimedValue, Resolution
+from verify.io.claims.rounding import (
+    decimals_as_written,
+    rounding_allowances,
+    significant_figure_allowances,
+)
+from verify.io.claims.table import ClaimArrays, ClaimedValue, Resolution
+from verify.units import Dimension, Unit, factor, lookup_unit
 
 STEPS = (50.0, 5.0, 0.5, 0.05)  # coarsest first: the largest step all values fit is the column's
-SAMPLE = 2_000  # values looked at first to rule columns out cheaply
 MIN_VALUES = 6  # fewer non-zero values could all land on a step by chance (0.2^6 for 0.5 steps)
 
 
@@ -37,69 +41,129 @@ def _decimals(text: str, value: float) -> int:
     return 7
 
 
-def judge_column(column: str, values: list[ClaimedValue]) -> Resolution | None:
-    written = [
-        v for v in values if v.member is not None and v.value != 0 and math.isfinite(v.value)
-    ]
-    if len(written) < MIN_VALUES:
-        return None
-    magnitudes = np.abs(np.array([v.value for v in written]))
-    for step in STEPS:
-        counts = magnitudes / step
-        whole = np.rint(counts)
-        if not (np.abs(counts - whole) <= 1e-6 * np.maximum(1.0, counts)).all():
+def judge_resolutions(
+    value: np.ndarray,
+    is_member: np.ndarray,
+    column: np.ndarray,
+    names: tuple[str, ...],
+    unit: np.ndarray,
+    units: tuple[str | None, ...],
+    text: Sequence[str],
+) -> list[Resolution]:
+    """Every column written to a step, judged on whole columns at once (arrays of the claims)."""
+    found = []
+    for k, name in enumerate(names):
+        in_column = column == k
+        written = in_column & is_member & (value != 0) & np.isfinite(value)
+        if int(written.sum()) < MIN_VALUES:
             continue
-        if not (whole % 2 == 1).any():
-            continue  # all even multiples: the column may be coarser still; the next step decides
-        # Judged last, as it reads every cell's text: only a column that fits a step gets here.
-        finest = max(_decimals(v.text, v.value) for v in written)
-        if step <= 10.0 ** (-finest) * 1.0001:
-            return None  # the decimals already say this step or a finer one
-        units = {v.unit for v in values}
-        return Resolution(column, step, units.pop() if len(units) == 1 else None)
-    return None
+        magnitudes = np.abs(value[written])
+        for step in STEPS:
+            counts = magnitudes / step
+            whole = np.rint(counts)
+            if not (np.abs(counts - whole) <= 1e-6 * np.maximum(1.0, counts)).all():
+                continue
+            if not (whole % 2 == 1).any():
+                # All even multiples: the column may be coarser still; the next step decides.
+                continue
+            # Judged last, as it reads every cell's text: only a column that fits a step gets here.
+            finest = max(
+                _decimals(text[i], float(value[i])) for i in np.flatnonzero(written).tolist()
+            )
+            if step > 10.0 ** (-finest) * 1.0001:  # else the decimals already say this step
+                stated = {units[u] for u in np.unique(unit[in_column])}
+                found.append(Resolution(name, step, stated.pop() if len(stated) == 1 else None))
+            break
+    return found
 
 
-def judge_resolutions(values: list[ClaimedValue]) -> list[Resolution]:
-    """Every column written to a step. The first SAMPLE values decide which columns could be: a
-    column whose sample fits no step fits none, so a 10^5-row table of ordinary decimals costs
-    no second pass."""
-    candidates = _by_column(values[:SAMPLE])
-    maybe = {
-        column
-        for column, claims in candidates.items()
-        if len(values) > SAMPLE and _fits_a_step(claims)
-    }
-    if len(values) > SAMPLE and not maybe:
-        return []
-    by_column = _by_column(values) if len(values) > SAMPLE else candidates
-    found = (
-        judge_column(column, claims)
-        for column, claims in by_column.items()
-        if len(values) <= SAMPLE or column in maybe
+def settle_rounding(
+    value: np.ndarray,
+    decimals: np.ndarray,
+    is_member: np.ndarray,
+    column: np.ndarray,
+    names: tuple[str, ...],
+    resolutions: Sequence[Resolution],
+) -> np.ndarray:
+    """Each claim's rounding allowance in its own unit: half a unit in the last decimal (as the
+    cell shows them when it does: '10.00' was written to the hundredth, not the unit), widened
+    for a column written to 2 or 3 significant figures or judged rounded to a step."""
+    ones = np.ones(value.shape)
+    rounding = rounding_allowances(value, ones)
+    shown = decimals >= 0
+    rounding[shown] = np.minimum(
+        rounding[shown], 0.5 * 10.0 ** (-decimals[shown].astype(float)) * 1.0001
     )
-    return [r for r in found if r is not None]
-
-
-def _by_column(values: list[ClaimedValue]) -> dict[str, list[ClaimedValue]]:
-    out: dict[str, list[ClaimedValue]] = defaultdict(list)
-    for v in values:
-        out[v.column].append(v)
-    return out
-
-
-def _fits_a_step(values: list[ClaimedValue]) -> bool:
-    magnitudes = np.abs(
-        np.array(
-            [
-                v.value
-                for v in values
-                if v.member is not None and v.value != 0 and math.isfinite(v.value)
-            ]
+    steps = {r.column: r.step for r in resolutions}
+    for k, name in enumerate(names):
+        picked = (column == k) & is_member
+        if not picked.any():
+            continue
+        rounding[picked] = np.maximum(
+            rounding[picked], significant_figure_allowances(value[picked], ones[picked])
         )
+        if name in steps:
+            rounding[picked] = np.maximum(rounding[picked], 0.5 * steps[name] * 1.0001)
+    return rounding
+
+
+def claim_arrays(
+    values: Sequence[ClaimedValue],
+    member_index: Mapping[str, int],
+    case_unit: Unit,
+    resolutions: Sequence[Resolution] | None = None,
+) -> ClaimArrays:
+    """The arrays of claims given one by one (a table built in memory, or the rows the general
+    reader took); `resolutions` None judges them here."""
+    n = len(values)
+    value = np.fromiter((v.value for v in values), dtype=float, count=n)
+    member = np.fromiter(
+        (member_index[v.member] if v.member is not None else -1 for v in values),
+        dtype=np.int64,
+        count=n,
     )
-    for step in STEPS:
-        counts = magnitudes / step
-        if (np.abs(counts - np.rint(counts)) <= 1e-6 * np.maximum(1.0, counts)).all():
-            return True
-    return False
+    names = tuple(dict.fromkeys(v.column for v in values))
+    code = {name: k for k, name in enumerate(names)}
+    column = np.fromiter((code[v.column] for v in values), dtype=np.int64, count=n)
+    units = tuple(dict.fromkeys(v.unit for v in values))
+    unit_code = {u: k for k, u in enumerate(units)}
+    unit = np.fromiter((unit_code[v.unit] for v in values), dtype=np.int64, count=n)
+    text = [v.text for v in values]
+    decimals = np.fromiter((_shown(v.text, v.value) for v in values), dtype=np.int64, count=n)
+    is_member = np.fromiter((v.reaction is None for v in values), dtype=bool, count=n)
+    if resolutions is None:
+        resolutions = judge_resolutions(value, is_member, column, names, unit, units, text)
+    return ClaimArrays(
+        value=value,
+        sign_fixed=np.fromiter((v.sign_fixed for v in values), dtype=bool, count=n),
+        member=member,
+        column=column,
+        names=names,
+        unit=unit,
+        units=units,
+        unit_factor=unit_factors(unit, units, case_unit),
+        rounding=settle_rounding(value, decimals, is_member, column, names, resolutions),
+        where=[v.where for v in values],
+        text=text,
+        label=[v.label for v in values],
+        reaction={i: v.reaction for i, v in enumerate(values) if v.reaction is not None},
+        member_ids=list(member_index),
+        resolutions=tuple(resolutions),
+    )
+
+
+def unit_factors(unit: np.ndarray, units: tuple[str | None, ...], case_unit: Unit) -> np.ndarray:
+    """Per claim, its stated unit to the case's force unit; nan where no unit is stated."""
+    table = np.array(
+        [
+            factor(lookup_unit(u, Dimension.FORCE), case_unit) if u is not None else np.nan
+            for u in units
+        ]
+        or [np.nan]
+    )
+    return table[unit] if unit.size else np.zeros(0)
+
+
+def _shown(text: str, value: float) -> int:
+    shown = decimals_as_written(text, value)
+    return -1 if shown is None else shown

@@ -2,16 +2,29 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
+import numpy as np
+import pandas as pd
+
 from verify.errors import did_you_mean
-from verify.io.claims.grid import Grid, Unusable, blank, cell_text
+from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.problems import Problems, quoted
-from verify.io.claims.table import ClaimedValue, SignConflict, UnmatchedLabel
-from verify.io.values import is_nan_text, plain_number, read_force_cell
-from verify.units import Dimension, lookup_unit
+from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
+from verify.io.claims.rounding import decimals_as_written
+from verify.io.claims.table import ClaimArrays, ClaimedValue, SignConflict, UnmatchedLabel
+from verify.io.values import (
+    MAX_FORCE,
+    MIN_FORCE,
+    PLAIN_NUMBER,
+    is_nan_text,
+    plain_number,
+    read_force_cell,
+)
+from verify.units import Dimension, Unit, lookup_unit
 
 MAX_NAME_CHARS = 100  # member labels and case names; longer text is a note, not a name
 
@@ -60,6 +73,7 @@ class RowReader:
         self._long_seen: set[str] = set()
         self._claimed: dict[tuple[str, str], tuple[int, str]] = {}  # (target, case) -> (row, label)
         self.minus_letters: list[tuple[int, str]] = []  # (value index, letter) of '-12.4 T' cells
+        self.value_rows: list[int] = []  # the grid row of each entry of `values`
         self.header_row = layout.header_row
         self.pair = layout.pair
 
@@ -163,6 +177,7 @@ class RowReader:
             else:
                 for index, case, folded, unit, header, value, cell in cells:
                     claimed[(member, folded)] = (r, label)
+                    self.value_rows.append(r)
                     values.append(
                         ClaimedValue(
                             label,
@@ -345,6 +360,7 @@ class RowReader:
         if minus_with_letter and match.kind == "member":
             self.minus_letters.append((len(self.values), "T" if value > 0 else "C"))
         if match.kind in ("member", "reaction"):
+            self.value_rows.append(r)
             # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
             self.values.append(
                 ClaimedValue(
@@ -362,27 +378,170 @@ class RowReader:
 
 
 @dataclass(frozen=True)
+class BulkClaims:
+    """The plain rows of a wide table read as whole columns: claim k of row `rows[i]` and value
+    column j is entry i * len(columns) + j of every array (row-major, the table's order)."""
+
+    rows: np.ndarray  # int64: grid row of each claim
+    slot: np.ndarray  # int64: position of the claim's value column in the layout
+    member: np.ndarray  # int64: model member position
+    value: np.ndarray  # float
+    decimals: np.ndarray  # int64: decimals as written, -1 where the text does not show them
+    where: list[str]
+    text: list[str]
+
+
+def _plain_cells(cells: list[Cell], decimal_comma: bool) -> tuple[np.ndarray, np.ndarray]:
+    """(value, plain) for a column of cells: plain where the cell is a number with nothing to
+    interpret (the cells plain_number reads, or a workbook's float); parsed in one numpy call."""
+    n = len(cells)
+    fullmatch = PLAIN_NUMBER.fullmatch
+    plain = np.fromiter(
+        (
+            type(c) is str and fullmatch(c) is not None and not (decimal_comma and "." in c)
+            for c in cells
+        ),
+        dtype=bool,
+        count=n,
+    )
+    value = np.full(n, np.nan)
+    at = np.flatnonzero(plain)
+    if at.size:
+        # numpy parses text as float() does (correctly rounded), all at once.
+        value[at] = np.array([cells[i] for i in at.tolist()], dtype=np.str_).astype(np.float64)
+        size = np.abs(value[at])
+        in_range = np.isfinite(size) & ((size == 0) | ((size >= MIN_FORCE) & (size <= MAX_FORCE)))
+        plain[at[~in_range]] = False
+    floats = np.fromiter((type(c) is float for c in cells), dtype=bool, count=n)
+    if floats.any():
+        value[floats] = [cells[i] for i in np.flatnonzero(floats).tolist()]
+        plain |= floats
+    return value, plain
+
+
+def read_bulk(
+    reader: RowReader, start: int, stop: int, member_ids: pd.Index
+) -> tuple[BulkClaims | None, list[int]]:
+    """The plain rows of a wide table (no case, T/C, unit or joint-pair column) as columns, and
+    the rows left to the general reader (in order). A row is plain when its label is a member id
+    as the model writes it, every value cell is a plain number, and its member has no other row
+    (a repeated member goes to the general reader, which words the duplicate)."""
+    grid = reader.grid
+    rows = grid.rows[start:stop]
+    label_at = reader.member_h.index
+    labels = [row[label_at] if label_at < len(row) else None for row in rows]
+    member = member_ids.get_indexer(pd.Index(labels, dtype=object))
+    ok = member >= 0
+    columns = reader.columns
+    values, texts_of = [], []
+    for v in columns:
+        cells = [row[v.index] if v.index < len(row) else None for row in rows]
+        value, plain = _plain_cells(cells, grid.decimal_comma)
+        ok &= plain
+        values.append(value)
+        texts_of.append(cells)
+    # A member named on another row too (by the same id or another spelling) is left to the
+    # general reader with all its rows, so duplicates are found and worded in table order.
+    others = np.flatnonzero(~ok)
+    named = np.full(len(rows), -1, dtype=np.int64)
+    named[ok] = member[ok]
+    match = reader.matcher.match
+    for i in others:
+        cell = labels[i]
+        label_text = cell if type(cell) is str else cell_text(cell)
+        if label_text:
+            found = match(label_text)
+            if found.kind == "member" and found.member is not None:
+                named[i] = member_ids.get_loc(found.member)
+    counts = np.bincount(named[named >= 0], minlength=len(member_ids))
+    ok &= counts[np.where(ok, member, 0)] == 1
+    picked = np.flatnonzero(ok)
+    general = (np.flatnonzero(~ok) + start).tolist()
+    k = len(columns)
+    if not picked.size or not k:
+        return None, (np.arange(len(rows)) + start).tolist()
+    value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
+    cells = [texts_of[j][i] for i in picked.tolist() for j in range(k)]
+    text = [c if type(c) is str else cell_text(c) for c in cells]
+    grid_rows = np.repeat(picked + start, k)
+    slot = np.tile(np.arange(k, dtype=np.int64), picked.size)
+    headers = [v.header for v in columns]
+    indexes = [v.index for v in columns]
+    where = [
+        grid.where(r, indexes[j], headers[j])
+        for r, j in zip(grid_rows.tolist(), slot.tolist(), strict=True)
+    ]
+    return (
+        BulkClaims(
+            rows=grid_rows,
+            slot=slot,
+            member=np.repeat(member[picked], k),
+            value=value,
+            decimals=_decimals_shown(text, value),
+            where=where,
+            text=text,
+        ),
+        general,
+    )
+
+
+def _decimals_shown(text: list[str], value: np.ndarray) -> np.ndarray:
+    """decimals_as_written for plain numbers: the digits after the point of '12.340' (3); none
+    for '12'; a text with an exponent is left to decimals_as_written itself. Whole columns at
+    once with numpy's string functions."""
+    if not text:
+        return np.zeros(0, dtype=np.int64)
+    cells = np.array(text, dtype=np.str_)
+    point = np.strings.find(cells, ".")
+    out = np.where(point >= 0, np.strings.str_len(cells) - point - 1, -1).astype(np.int64)
+    exponent = (np.strings.find(cells, "e") >= 0) | (np.strings.find(cells, "E") >= 0)
+    for i in np.flatnonzero(exponent & (point >= 0)).tolist():
+        shown = decimals_as_written(text[i], float(value[i]))
+        out[i] = -1 if shown is None else shown
+    return out
+
+
+@dataclass(frozen=True)
 class ReadRows:
-    values: list[ClaimedValue]
+    values: list[ClaimedValue]  # the claims the general reader took, one object each
     unmatched: list[UnmatchedLabel]
     columns: list[str]  # case names as written, in table order
     header_unit: str | None
     sign_conflicts: list[SignConflict]
+    value_rows: list[int]  # the grid row of each of `values`
+    bulk: BulkClaims | None = None  # the plain rows, read as columns
+    layout_columns: tuple[ValueColumn, ...] = ()
 
 
 def read_rows(
-    grid: Grid, layout: Layout, matcher: LabelMatcher, problems: Problems, *, fast: bool
+    grid: Grid,
+    layout: Layout,
+    matcher: LabelMatcher,
+    problems: Problems,
+    *,
+    fast: bool,
+    member_ids: pd.Index | None = None,
 ) -> ReadRows:
-    """Every data row of `grid` under `layout`; problems are added, never raised here."""
+    """Every data row of `grid` under `layout`; problems are added, never raised here.
+
+    With `fast` and the model's `member_ids`, the plain rows of a wide table are read as whole
+    columns (read_bulk) and only the others one by one."""
     reader = RowReader(grid, matcher, problems, layout)
-    if (
+    bulk = None
+    wide = (
         fast
         and layout.case is None
         and layout.tc is None
         and layout.unit is None
         and layout.pair is None
         and not any(v.tc_index is not None for v in layout.columns)
-    ):
+    )
+    folded = [(v.case or "").casefold() for v in layout.columns]
+    if wide and member_ids is not None and len(set(folded)) == len(folded):
+        bulk, general = read_bulk(reader, layout.start, len(grid.rows), member_ids)
+        for r in general:
+            reader.read_row(r)
+    elif wide:
         reader.read_plain_rows(layout.start, len(grid.rows))
     else:
         for r in range(layout.start, len(grid.rows)):
@@ -397,4 +556,136 @@ def read_rows(
     units = {v.unit for v in layout.columns}
     header_unit = units.pop() if len(units) == 1 and layout.unit is None else None
     columns = reader.long_cases if case_h is not None else [v.case or "" for v in layout.columns]
-    return ReadRows(reader.values, reader.unmatched, columns, header_unit, reader.sign_conflicts())
+    return ReadRows(
+        reader.values,
+        reader.unmatched,
+        columns,
+        header_unit,
+        reader.sign_conflicts(),
+        reader.value_rows,
+        bulk,
+        tuple(layout.columns),
+    )
+
+
+def assemble_claims(
+    read: ReadRows, member_ids: pd.Index, case_unit: Unit
+) -> tuple[ClaimArrays, Callable[[], tuple[ClaimedValue, ...]] | tuple[ClaimedValue, ...]]:
+    """The claims as columns in table order, and their per-claim objects (made on first use when
+    the plain rows were read in bulk): the general reader's claims and the bulk ones merged by
+    row."""
+    general = read.values
+    bulk = read.bulk
+    n_general = len(general)
+    slots = read.layout_columns
+    value = np.fromiter((v.value for v in general), dtype=float, count=n_general)
+    member = np.fromiter(
+        (member_ids.get_loc(v.member) if v.member is not None else -1 for v in general),
+        dtype=np.int64,
+        count=n_general,
+    )
+    column_names = [v.column for v in general]
+    unit_names = [v.unit for v in general]
+    decimals = np.fromiter((_shown(v.text, v.value) for v in general), np.int64, n_general)
+    where: list[str] = [v.where for v in general]
+    text: list[str] = [v.text for v in general]
+    fixed = np.fromiter((v.sign_fixed for v in general), dtype=bool, count=n_general)
+    label: list[str] = [v.label for v in general]
+    reaction = {i: v.reaction for i, v in enumerate(general) if v.reaction is not None}
+    order = None
+    ids: list[str] = member_ids.tolist()
+    if bulk is not None:
+        rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
+        order = np.argsort(rows, kind="stable")
+        take = order.tolist()
+        value = np.concatenate([value, bulk.value])[order]
+        member = np.concatenate([member, bulk.member])[order]
+        decimals = np.concatenate([decimals, bulk.decimals])[order]
+        fixed = np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)])[order]
+        slot_case = [v.case or "" for v in slots]
+        slot_unit = [v.unit for v in slots]
+        bulk_slots = bulk.slot.tolist()
+        column_names = [column_names[i] if i < n_general else "" for i in take]
+        unit_names = [unit_names[i] if i < n_general else None for i in take]
+        for k, i in enumerate(take):
+            if i >= n_general:
+                column_names[k] = slot_case[bulk_slots[i - n_general]]
+                unit_names[k] = slot_unit[bulk_slots[i - n_general]]
+        all_where, all_text = where + bulk.where, text + bulk.text
+        where = [all_where[i] for i in take]
+        text = [all_text[i] for i in take]
+        bulk_members = bulk.member.tolist()
+        label = [label[i] if i < n_general else ids[bulk_members[i - n_general]] for i in take]
+        at = {i: k for k, i in enumerate(take) if i in reaction}
+        reaction = {at[i]: joint_axis for i, joint_axis in reaction.items()}
+    names = tuple(dict.fromkeys(column_names))
+    name_code = {name: k for k, name in enumerate(names)}
+    units = tuple(dict.fromkeys(unit_names))
+    unit_code = {u: k for k, u in enumerate(units)}
+    column = np.array([name_code[c] for c in column_names], dtype=np.int64)
+    unit = np.array([unit_code[u] for u in unit_names], dtype=np.int64)
+    is_member = member >= 0
+    resolutions = judge_resolutions(value, is_member, column, names, unit, units, text)
+    arrays = ClaimArrays(
+        value=value,
+        sign_fixed=fixed,
+        member=member,
+        column=column,
+        names=names,
+        unit=unit,
+        units=units,
+        unit_factor=unit_factors(unit, units, case_unit),
+        rounding=settle_rounding(value, decimals, is_member, column, names, resolutions),
+        where=where,
+        text=text,
+        label=label,
+        reaction=reaction,
+        member_ids=ids,
+        resolutions=tuple(resolutions),
+    )
+    if order is None:
+        return arrays, tuple(general)
+    return arrays, _LazyValues(arrays, order, general)
+
+
+@dataclass(frozen=True)
+class _LazyValues:
+    """Makes the per-claim objects of a bulk-read table on first use: the general reader's own
+    claims in place, the bulk ones from the columns. A plain object (not a closure) so that a
+    claims table still pickles (the batch runner sends results between processes)."""
+
+    arrays: ClaimArrays
+    order: np.ndarray
+    general: list[ClaimedValue]
+
+    def __call__(self) -> tuple[ClaimedValue, ...]:
+        arrays, general = self.arrays, self.general
+        n_general = len(general)
+        names, units, member_ids = arrays.names, arrays.units, arrays.member_ids
+        value, member = arrays.value.tolist(), arrays.member.tolist()
+        column, unit = arrays.column.tolist(), arrays.unit.tolist()
+        out = []
+        for k, i in enumerate(self.order.tolist()):
+            if i < n_general:
+                out.append(general[i])
+                continue
+            mid = member_ids[member[k]]
+            out.append(
+                ClaimedValue(
+                    mid,
+                    mid,
+                    None,
+                    names[column[k]],
+                    value[k],
+                    False,
+                    units[unit[k]],
+                    arrays.where[k],
+                    arrays.text[k],
+                )
+            )
+        return tuple(out)
+
+
+def _shown(text: str, value: float) -> int:
+    shown = decimals_as_written(text, value)
+    return -1 if shown is None else shown

@@ -2,8 +2,13 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import NamedTuple
+
+import numpy as np
+
+from verify.units import Unit
 
 
 class ClaimedValue(NamedTuple):
@@ -60,16 +65,93 @@ class Resolution:
 
 
 @dataclass(frozen=True)
+class ClaimArrays:
+    """Every claim of a table as columns (one entry per claim, in table order), settled once by
+    the reader so the comparison reads arrays and never re-interprets a cell.
+
+    Built in bulk for the plain numeric rows of a table; only rows that are not plain numbers pass
+    through per-claim objects (ClaimedValue), and those are made lazily for whoever asks."""
+
+    value: np.ndarray  # float: T/C applied (T positive, C negative); else the sign as written
+    sign_fixed: np.ndarray  # bool: a T/C letter settled the sign
+    member: np.ndarray  # int64: the model's member position; -1 for a reaction claim
+    column: np.ndarray  # int64: position in `names`
+    names: tuple[str, ...]  # the column / case names as written, in first-seen order
+    unit: np.ndarray  # int64: position in `units`
+    units: tuple[str | None, ...]  # canonical unit symbols stated in cells or headers (None: none)
+    unit_factor: np.ndarray  # float: the stated unit to the case's force unit; nan if none stated
+    rounding: np.ndarray  # float: allowance for how the value was written, in its own unit
+    where: Sequence[str]  # "row 9, column 'dead'"
+    text: Sequence[str]  # the cell exactly as written
+    label: Sequence[str]  # as written in the table
+    reaction: Mapping[int, tuple[str, str]]  # claim position -> (joint, axis) of a reaction claim
+    member_ids: Sequence[str]  # the model's member ids, by position
+    resolutions: tuple[Resolution, ...] = ()  # columns judged rounded to a step (0.5, 5 kN)
+
+    def __len__(self) -> int:
+        return int(self.value.size)
+
+    def claim(self, i: int) -> ClaimedValue:
+        """Claim `i` as one object, for the few places that quote a single claim."""
+        pos = int(self.member[i])
+        return ClaimedValue(
+            self.label[i],
+            self.member_ids[pos] if pos >= 0 else None,
+            self.reaction.get(i),
+            self.names[int(self.column[i])],
+            float(self.value[i]),
+            bool(self.sign_fixed[i]),
+            self.units[int(self.unit[i])],
+            self.where[i],
+            self.text[i],
+        )
+
+
 class ClaimsTable:
-    source: str
-    sheet: str | None  # the sheet read, or for a PDF the pages ("pages 12-14")
-    sha256: str  # of the file bytes
-    values: tuple[ClaimedValue, ...]
-    unmatched: tuple[UnmatchedLabel, ...]
-    columns: tuple[str, ...]  # case/combination names as written, in table order
-    header_unit: str | None  # unit found in headers, if one applies to the whole table
-    sign_conflicts: tuple[SignConflict, ...] = ()
-    resolutions: tuple[Resolution, ...] = ()  # columns written coarser than their decimals show
+    """A claims table once read. `values` (one ClaimedValue per claim) is made on first use when
+    the reader gave `arrays`; `arrays` is made from `values` for a table built in memory."""
+
+    def __init__(
+        self,
+        source: str,
+        sheet: str | None,  # the sheet read, or for a PDF the pages ("pages 12-14")
+        sha256: str,  # of the file bytes
+        values: tuple[ClaimedValue, ...] | Callable[[], tuple[ClaimedValue, ...]],
+        unmatched: tuple[UnmatchedLabel, ...],
+        columns: tuple[str, ...],  # case/combination names as written, in table order
+        header_unit: str | None,  # unit found in headers, if one applies to the whole table
+        sign_conflicts: tuple[SignConflict, ...] = (),
+        resolutions: tuple[Resolution, ...] = (),  # columns written coarser than their decimals
+        arrays: ClaimArrays | None = None,
+        count: int | None = None,  # the number of claims, when `values` is made lazily
+    ) -> None:
+        self.source, self.sheet, self.sha256 = source, sheet, sha256
+        self.unmatched, self.columns, self.header_unit = unmatched, columns, header_unit
+        self.sign_conflicts, self.resolutions = sign_conflicts, resolutions
+        self._values = values if isinstance(values, tuple) else None
+        self._make_values = None if isinstance(values, tuple) else values
+        self._arrays = arrays
+        self._count = len(values) if isinstance(values, tuple) else (count or 0)
+
+    @property
+    def values(self) -> tuple[ClaimedValue, ...]:
+        if self._values is None:
+            assert self._make_values is not None
+            self._values = self._make_values()
+        return self._values
+
+    @property
+    def count(self) -> int:
+        """How many claims the table holds (without making them)."""
+        return self._count
+
+    def arrays_for(self, member_index: Mapping[str, int], case_unit: Unit) -> ClaimArrays:
+        """The claims as columns against a model (its member positions and force unit)."""
+        if self._arrays is None:
+            from verify.io.claims.resolution import claim_arrays
+
+            self._arrays = claim_arrays(self.values, member_index, case_unit, self.resolutions)
+        return self._arrays
 
     def resolution_of(self, column: str) -> Resolution | None:
         for found in self.resolutions:
