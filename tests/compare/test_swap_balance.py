@@ -10,6 +10,7 @@ import numpy as np
 from trussgen import make_model, pratt
 
 from verify.analysis.equilibrium import assemble_equilibrium
+from verify.analysis.run import AnalysisRun
 from verify.compare.diagnose import _swap_restores_balance
 
 
@@ -32,7 +33,8 @@ def test_rows_only_balance_equals_the_whole_matrix() -> None:
     for trial in range(40):
         claimed = rng.normal(0.0, 5.0, size=(b, 1))
         claimed[rng.random(b) < 0.1, 0] = np.nan  # members without a claim
-        c = SimpleNamespace(model=model, claimed_matrix=claimed)
+        analysis = SimpleNamespace(run=AnalysisRun(model))  # the run's A, as compare gets it
+        c = SimpleNamespace(model=model, claimed_matrix=claimed, analysis=analysis)
         for m1, m2 in rng.choice(b, size=(6, 2), replace=True).tolist():
             if m1 == m2:
                 continue
