@@ -46,6 +46,7 @@ from verify.report.numbers import (
     tc,
 )
 from verify.report.tables import Table
+from verify.report.written import written_at
 
 NOT_CAPACITY = (
     "This figure compares claimed with recomputed forces; it is not a capacity check and says "
@@ -311,6 +312,9 @@ def finding_sentence(f: Finding) -> str:
         # A displacement finding lists the joints that move, not members.
         noun = "Joints" if f.kind.startswith("displacement") else "Members"
         detail += f" {noun}: {shown}{more}."
+    where = written_at(f)
+    if where:
+        detail += f" Written at: {where}."
     if f.next_step:
         detail += f" Next step: {f.next_step}"
     return detail

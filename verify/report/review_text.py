@@ -6,6 +6,7 @@ from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
+from verify.report.written import written_at
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
 
@@ -132,6 +133,9 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         lines.append("Findings (most serious first):")
         for f in review.findings:
             lines.append(f"  [{f.severity.value}] {f.kind}: {f.detail}")
+            where = written_at(f)
+            if where:
+                lines.append(f"      written at: {where}")
             if f.next_step:
                 lines.append(f"      next step: {f.next_step}")
     else:
