@@ -171,7 +171,10 @@ def main(argv: list[str] | None = None) -> int:
     A, F, names, member_ids, dim = assemble(tables)
     ea = stiffness_of(args.case)
     t = solve(A, F, dim) if ea is None else solve_elastic(A, F, member_lengths(tables), ea)
-    line = f"{args.case}: {len(member_ids)} members, max |force| {np.abs(t[: len(member_ids)]).max():.6g}"
+    line = (
+        f"{args.case}: {len(member_ids)} members, max |force| "
+        f"{np.abs(t[: len(member_ids)]).max():.6g}"
+    )
     if args.claims is not None:
         line += f", {compare(args.claims, t, names, member_ids)} claim(s) disagree"
     if args.write_claims is not None:

@@ -231,8 +231,10 @@ def write_case(truss: Truss, directory: str | Path) -> Path:
     path = out / "case.toml"
     # The table names come before [units]: bare keys after a [table] header would belong to it.
     path.write_text(
-        f'title = "Benchmark {truss.family}, {truss.members} members (parameter {truss.parameter})"\n'
-        'joints = "joints.csv"\nmembers = "members.csv"\nsupports = "supports.csv"\nloads = "loads.csv"\n\n'
+        f'title = "Benchmark {truss.family}, {truss.members} members (parameter '
+        f'{truss.parameter})"\n'
+        'joints = "joints.csv"\nmembers = "members.csv"\nsupports = "supports.csv"\n'
+        'loads = "loads.csv"\n\n'
         '[units]\nlength = "m"\nforce = "kN"\n'
         + (f"\n[stiffness]\nEA = {truss.ea!r}\n" if truss.ea is not None else ""),
         encoding="utf-8",

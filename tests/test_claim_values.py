@@ -42,7 +42,8 @@ READINGS = [
     ("1,234,567", False, 1234567.0, False, None, "several comma groups"),
     ("1 234.5", False, 1234.5, False, None, "space thousands separator"),
     ("1\u00a0234.5", False, 1234.5, False, None, "no-break space thousands separator"),
-    ("1 234,5", False, 1234.5, False, None, "space groups settle a decimal comma even in a point table"),
+    ("1 234,5", False, 1234.5, False, None,
+        "space groups settle a decimal comma even in a point table"),
     ("1'234.5", False, 1234.5, False, None, "apostrophe thousands separator"),
     ("12,4", True, 12.4, False, None, "decimal comma in a decimal-comma table"),
     ("-0,75", True, -0.75, False, None, "negative decimal comma"),
@@ -84,7 +85,8 @@ def test_force_cell_reading(
 # (text, decimal_comma, fragment of the message, behaviour)
 # fmt: off
 REFUSED = [
-    ("12,4.0 C", False, "force '12,4.0 C' is not a number with an optional T/C suffix", "a comma that fits no grouping"),
+    ("12,4.0 C", False, "force '12,4.0 C' is not a number with an optional T/C suffix",
+        "a comma that fits no grouping"),
     ("12,4", False, "write a decimal point", "a decimal comma in a point table"),
     ("1.234", True, "ambiguous", "one dot group in a decimal-comma table could be either"),
     ("", False, "empty", "empty text"),
@@ -148,7 +150,8 @@ _magnitudes = st.decimals(
     st.sampled_from(["", " kN", "kip"]),
 )
 def test_python_formatted_numbers_read_back(magnitude, suffix: str, unit: str) -> None:
-    """Numbers formatted by Python's '{:,.3f}' (comma thousands) read back with T/C and unit applied."""
+    """Numbers formatted by Python's '{:,.3f}' (comma thousands) read back with T/C and unit
+    applied."""
     text = f"{magnitude:,.3f}{unit}{suffix}"
     value, sign_fixed, symbol = parse_force_cell(text)
     expected = float(magnitude) * (-1.0 if "C" in suffix else 1.0)
@@ -160,7 +163,8 @@ def test_python_formatted_numbers_read_back(magnitude, suffix: str, unit: str) -
 @settings(max_examples=150, deadline=None)
 @given(_magnitudes, st.booleans(), st.sampled_from([".", " "]))
 def test_european_formatted_numbers_read_back(magnitude, negative: bool, grouping: str) -> None:
-    """'1.234.567,891' and '1 234 567,891' (Python's formatting with marks swapped) read back in decimal-comma mode."""
+    """'1.234.567,891' and '1 234 567,891' (Python's formatting with marks swapped) read back in
+    decimal-comma mode."""
     swapped = f"{magnitude:,.3f}".replace(",", "\x00").replace(".", ",").replace("\x00", grouping)
     text = ("-" if negative else "") + swapped
     value, sign_fixed, _ = parse_force_cell(text, decimal_comma=True)

@@ -164,8 +164,10 @@ def test_encrypted_workbook_is_named_as_encrypted(tmp_path: Path) -> None:
     assert "encrypted" in message and "legacy" not in message
     case = tmp_path / "case.toml"
     case.write_text(
-        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [3.0, 0.0]\nC = [1.5, 2.0]\n'
-        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\nA = ["x", "y"]\nB = ["y"]\n'
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0.0, 0.0]\nB = [3.0, 0.0]\n'
+        "C = [1.5, 2.0]\n"
+        '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nAC = ["A", "C"]\n[supports]\n'
+        'A = ["x", "y"]\nB = ["y"]\n'
         "[loads.dead]\nC = [0.0, -10.0]\n"
     )
     from click.testing import CliRunner

@@ -341,7 +341,8 @@ def test_exact_id_wins_over_joint_pair_reading(tmp_path: Path) -> None:
 
 
 def test_case_folded_id_competing_with_a_joint_pair_is_ambiguous(tmp_path: Path) -> None:
-    """'bc' is not exactly an id: it reads as id 'BC' and as pair B-C (member X), so it is ambiguous."""
+    """'bc' is not exactly an id: it reads as id 'BC' and as pair B-C (member X), so it is
+    ambiguous."""
     table = read_claims(_csv(tmp_path, "Member,dead\nbc,1\n"), _relabelled_model())
     assert not table.values
     assert table.unmatched[0].reason == "ambiguous" and set(table.unmatched[0].candidates) == {
@@ -440,23 +441,40 @@ MALFORMED = [
     ("", ["claims.csv:", "empty"], "empty file"),
     ("  \n\n", ["claims.csv:", "empty"], "blank lines only"),
     ("Member,dead\n", ["claims.csv row 1", "no rows"], "header only"),
-    ("Remarks,Length (m)\nok,3\n", ["claims.csv row 1", "no usable columns", "no member column"], "no member column"),
+    ("Remarks,Length (m)\nok,3\n", ["claims.csv row 1", "no usable columns", "no member column"],
+        "no member column"),
     ("Member,Remarks\nAB,ok\n", ["claims.csv row 1", "no usable columns"], "no force column"),
-    ('Member,dead\nAB,1\nBC,"12,4.0 C"\n', ["claims.csv row 3, column 'dead': force '12,4.0 C' is not a number with an optional T/C suffix."], "text in a number"),
-    ("Member,dead\nAB,1\nBD,2\nB-A,3\n", ["claims.csv row 4, column 'dead'", "member 'AB'", "row 2 (as 'AB')", "row 4 (as 'B-A')"], "duplicate rows for one member"),
-    ("Member,dead\nAB,nan\n", ["claims.csv row 2, column 'dead'", "'nan' is not a number"], "NaN text"),
-    ("Member,dead\nAB,#VALUE!\n", ["claims.csv row 2, column 'dead'", "spreadsheet error"], "spreadsheet error text"),
-    ("Member,dead\n#N/A,1\n", ["claims.csv row 2, column 'Member'", "'#N/A'"], "spreadsheet error as a label"),
-    ("Member,dead\n,1\n", ["claims.csv row 2, column 'Member'", "no member label"], "force without a label"),
-    ("Member,Case,Force\nAB,,1\n", ["claims.csv row 2, column 'Case'", "no load case"], "force without a case"),
-    ("Member,Case\nAB,dead\n", ["claims.csv row 1", "needs a force column"], "case column without forces"),
-    ("Member,dead,dead\nAB,1,2\n", ["claims.csv row 1, column 3", "two columns"], "one case in two columns"),
-    ("Member,dead\nAB,1,5\n", ["claims.csv row 2, column 3", "no header"], "values beyond the header"),
-    ("Member,Force,T/C\nAB,3,X\n", ["claims.csv row 2, column 'T/C'", "not T or C"], "a bad T/C cell"),
-    ("Member,dead\nRA.y,1\nA.y,2\n", ["claims.csv row 3, column 'dead'", "reaction 'A.y'", "row 2 (as 'RA.y')"], "duplicate reaction"),
-    ("Member,dead (kN),snow (MPa)\nAB,1,2\n", ["claims.csv row 1, column 3", "named like load case 'snow'", "'MPa' is not a force unit"], "load case column in a stress unit"),
-    ("Member,dead (kN),snow (N/mm)\nAB,1,2\n", ["claims.csv row 1, column 3", "'N/mm' is not a force unit"], "load case column in a line-load unit"),
-    ("Member,M (kNm)\nAB,1\n", ["claims.csv row 1", "no usable columns", "skipped 'M (kNm)' ('kNm' is not a force unit)"], "only a moment column"),
+    ('Member,dead\nAB,1\nBC,"12,4.0 C"\n', ["claims.csv row 3, column 'dead': force '12,4.0 C' "
+        "is not a number with an optional T/C suffix."], "text in a number"),
+    ("Member,dead\nAB,1\nBD,2\nB-A,3\n", ["claims.csv row 4, column 'dead'", "member 'AB'",
+        "row 2 (as 'AB')", "row 4 (as 'B-A')"], "duplicate rows for one member"),
+    ("Member,dead\nAB,nan\n", ["claims.csv row 2, column 'dead'", "'nan' is not a number"],
+        "NaN text"),
+    ("Member,dead\nAB,#VALUE!\n", ["claims.csv row 2, column 'dead'", "spreadsheet error"],
+        "spreadsheet error text"),
+    ("Member,dead\n#N/A,1\n", ["claims.csv row 2, column 'Member'", "'#N/A'"],
+        "spreadsheet error as a label"),
+    ("Member,dead\n,1\n", ["claims.csv row 2, column 'Member'", "no member label"],
+        "force without a label"),
+    ("Member,Case,Force\nAB,,1\n", ["claims.csv row 2, column 'Case'", "no load case"],
+        "force without a case"),
+    ("Member,Case\nAB,dead\n", ["claims.csv row 1", "needs a force column"],
+        "case column without forces"),
+    ("Member,dead,dead\nAB,1,2\n", ["claims.csv row 1, column 3", "two columns"],
+        "one case in two columns"),
+    ("Member,dead\nAB,1,5\n", ["claims.csv row 2, column 3", "no header"],
+        "values beyond the header"),
+    ("Member,Force,T/C\nAB,3,X\n", ["claims.csv row 2, column 'T/C'", "not T or C"],
+        "a bad T/C cell"),
+    ("Member,dead\nRA.y,1\nA.y,2\n", ["claims.csv row 3, column 'dead'", "reaction 'A.y'",
+        "row 2 (as 'RA.y')"], "duplicate reaction"),
+    ("Member,dead (kN),snow (MPa)\nAB,1,2\n", ["claims.csv row 1, column 3",
+        "named like load case 'snow'", "'MPa' is not a force unit"],
+        "load case column in a stress unit"),
+    ("Member,dead (kN),snow (N/mm)\nAB,1,2\n", ["claims.csv row 1, column 3",
+        "'N/mm' is not a force unit"], "load case column in a line-load unit"),
+    ("Member,M (kNm)\nAB,1\n", ["claims.csv row 1", "no usable columns",
+        "skipped 'M (kNm)' ('kNm' is not a force unit)"], "only a moment column"),
 ]
 # fmt: on
 
@@ -642,7 +660,8 @@ def test_sheet_option_on_a_csv_is_an_error(tmp_path: Path) -> None:
 
 
 def test_zip_bomb_by_compression_ratio_is_refused(tmp_path: Path) -> None:
-    """20 MB of zeros deflates to ~20 kB: the ratio is far over the limit, refused before parsing."""
+    """20 MB of zeros deflates to ~20 kB: the ratio is far over the limit, refused before
+    parsing."""
     path = tmp_path / "bomb.xlsx"
     with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as archive:
         archive.writestr("xl/worksheets/sheet1.xml", b"\x00" * (20 * 1024 * 1024))
@@ -652,13 +671,15 @@ def test_zip_bomb_by_compression_ratio_is_refused(tmp_path: Path) -> None:
 
 
 def test_zip_declaring_two_gigabytes_is_refused(tmp_path: Path) -> None:
-    """A small zip whose central directory declares 2 GB uncompressed is refused on the declaration."""
+    """A small zip whose central directory declares 2 GB uncompressed is refused on the
+    declaration."""
     small = io.BytesIO()
     with zipfile.ZipFile(small, "w", zipfile.ZIP_STORED) as archive:
         archive.writestr("xl/worksheets/sheet1.xml", b"<worksheet/>")
     data = bytearray(small.getvalue())
     entry = data.index(b"PK\x01\x02")
-    # Central directory file header: uncompressed size is the 4-byte field at offset 24 (APPNOTE 4.3.12).
+    # Central directory file header: uncompressed size is the 4-byte field at offset 24 (APPNOTE
+    # 4.3.12).
     struct.pack_into("<I", data, entry + 24, 2 * 1024**3)
     path = tmp_path / "huge.xlsx"
     path.write_bytes(bytes(data))
@@ -696,7 +717,8 @@ _SEPARATORS = ["", "-", " ", "/", "\u2013", "_"]
 
 @st.composite
 def _pair_truss(draw: st.DrawFn) -> tuple[Model, list[tuple[str, str, str]]]:
-    """A random model over joint names chosen to collide when run together ('1'+'12' vs '11'+'2')."""
+    """A random model over joint names chosen to collide when run together ('1'+'12' vs
+    '11'+'2')."""
     names = draw(st.lists(st.sampled_from(_JOINT_NAMES), min_size=3, max_size=7, unique=True))
     # Joints on a parabola: distinct points, no member passes through another joint's position.
     joints = {n: [float(k), float(k * k)] for k, n in enumerate(names)}
@@ -763,7 +785,8 @@ def test_force_column_beside_case_named_columns_is_refused(tmp_path: Path) -> No
 # duplicates, decimal commas, text): both readers must give the same claims or the same message.
 # fmt: off
 PLAIN_AND_MESSY = [
-    "Member,dead (kN),snow\nAB,12.5,-3\nBC,1.5e1,\nCD,7 T,2.5\nAD,-4.25E-1,0\nBD,(5.0),1\nRA.y,3,1\n",
+    "Member,dead (kN),snow\nAB,12.5,-3\nBC,1.5e1,\nCD,7 T,2.5\nAD,-4.25E-1,0\nBD,(5.0),1\n"
+        "RA.y,3,1\n",
     "Member,dead,snow\nAB,1,2\nA-B,3,4\nXY,5,6\nBD,,\n\nCD,8 kN,9\n",
     "Member;dead (kN);snow\nAB;1,5;2\nBC;1.250;3\nCD;-4;5,25\n",
     "Member,dead\nAB,1\nBC,two\n",

@@ -96,7 +96,8 @@ def test_csv_output_is_atomic_and_refuses_inputs(tmp_path):
 def test_unstable_truss_exits_3(tmp_path):
     case = tmp_path / "sway.toml"
     case.write_text(
-        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [1, 0]\nC = [1, 1]\nD = [0, 1]\n'
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [1, 0]\nC = [1, 1]\n'
+        "D = [0, 1]\n"
         '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
         '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.wind]\nC = [1.0, 0.0]\n'
     )
@@ -142,7 +143,8 @@ def test_bad_case_file_lists_every_problem(tmp_path):
 
 
 def test_cut_prints_the_ritter_calc_for_a_panel():
-    """Panel 3 of the footbridge under 'dead': U2U3 = -M(L3)/h = -(22.5*9 - 9*3 - 9*6)/2.4 (common practice: chord = M/h)."""
+    """Panel 3 of the footbridge under 'dead': U2U3 = -M(L3)/h = -(22.5*9 - 9*3 - 9*6)/2.4 (common
+    practice: chord = M/h)."""
     code, out, _ = run("cut", FOOTBRIDGE, "--members", "U2U3,U2L3,L2L3", "--case", "dead")
     assert code == 0
     expected = -(22.5 * 9 - 9 * 3 - 9 * 6) / 2.4
@@ -175,7 +177,8 @@ def test_malformed_claims_file_is_one_message_exit_2(tmp_path, content, fragment
 
 
 def test_csv_output_neutralises_formula_labels(tmp_path):
-    """A label such as '=cmd()' must not become a spreadsheet formula (OWASP CSV injection, common practice)."""
+    """A label such as '=cmd()' must not become a spreadsheet formula (OWASP CSV injection, common
+    practice)."""
     case = tmp_path / "case.toml"
     case.write_text(
         '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [4, 0]\nC = [2, 3]\n'
@@ -192,7 +195,8 @@ def test_csv_output_neutralises_formula_labels(tmp_path):
     # Numbers stay numbers: the claimed value column of the first row parses as a float.
     first = text.splitlines()[1].split(",")
     assert float(first[3]) == pytest.approx(3.333)
-    # King-post statics (REFERENCES.md 3.3 general form): tie = P/(2 tan a) = 10/3, rafters = P/(2 sin a).
+    # King-post statics (REFERENCES.md 3.3 general form): tie = P/(2 tan a) = 10/3, rafters = P/(2
+    # sin a).
     assert code == 0, err
 
 
@@ -361,7 +365,8 @@ def test_output_cut_short_by_the_reader_is_not_discrepancies(tmp_path):
 
     case = write_case(tmp_path, pratt(400))
     pipeline = subprocess.run(
-        f'"{sys.executable}" -m verify solve "{case}" --show joints | head -1; exit "${{PIPESTATUS[0]}}"',
+        f'"{sys.executable}" -m verify solve "{case}" --show joints | head -1; exit '
+        '"${PIPESTATUS[0]}"',
         shell=True,
         executable="/bin/bash",
         capture_output=True,
@@ -406,7 +411,8 @@ def test_console_entry_status_is_never_1_for_what_is_not_a_discrepancy(patch, st
 
 def test_console_entry_on_a_full_output_says_so():
     """Writing the result fails (a full disk): one sentence and status 2, no traceback. The full
-    output is simulated (every write to stdout fails with ENOSPC), as not every system has /dev/full."""
+    output is simulated (every write to stdout fails with ENOSPC), as not every system has
+    /dev/full."""
     patch = (
         "import errno\nimport click\nprint_text = click.echo\n"
         "def echo(message=None, file=None, nl=True, err=False, color=None):\n"

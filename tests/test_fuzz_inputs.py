@@ -41,7 +41,8 @@ FUZZ = settings(
 
 # A case with its joints, members and loads in CSV tables, so that the tables are fuzzed too.
 TABLED = {
-    "case.toml": 'title = "triangle"\njoints = "joints.csv"\nmembers = "members.csv"\nloads = "loads.csv"\n'
+    "case.toml": 'title = "triangle"\njoints = "joints.csv"\nmembers = "members.csv"\n'
+    'loads = "loads.csv"\n'
     '[units]\nlength = "m"\nforce = "kN"\n[supports]\nA = ["x", "y"]\nB = ["y"]\n'
     '[combinations]\n"ULS" = { dead = 1.35 }\n',
     "joints.csv": "id,x,y\nA,0,0\nB,4,0\nC,2,2\n",

@@ -140,7 +140,8 @@ def test_loads_in_a_csv_table_beyond_the_sane_range_are_refused_with_their_line(
 
 @pytest.mark.parametrize("scale", [1e155, 1e9])
 def test_coordinates_beyond_the_sane_range_are_refused(tmp_path, scale):
-    """1e155 squared overflows (a wrong 'unstable'); at 1e9 the section cuts lost every lever arm."""
+    """1e155 squared overflows (a wrong 'unstable'); at 1e9 the section cuts lost every lever
+    arm."""
     text = TRIANGLE.replace("B = [4.0, 0.0]", f"B = [{4 * scale:g}, 0.0]")
     folder(tmp_path, {"case.toml": text})
     problems = problems_of(tmp_path / "case.toml")

@@ -77,7 +77,8 @@ def _chromium(args: list[str], profile: Path) -> subprocess.CompletedProcess[str
 
 
 def test_dom_has_diagram_findings_table_and_no_network(report: Path, tmp_path: Path) -> None:
-    """Chromium renders the report with its diagram, findings and table, and the page fetches nothing."""
+    """Chromium renders the report with its diagram, findings and table, and the page fetches
+    nothing."""
     run = _chromium(
         ["--enable-logging=stderr", "--v=1", "--dump-dom", report.as_uri()], tmp_path / "profile"
     )
@@ -94,7 +95,8 @@ def test_dom_has_diagram_findings_table_and_no_network(report: Path, tmp_path: P
 
 
 def test_report_references_nothing_outside_the_file(report: Path) -> None:
-    """No src/href/url()/@import/script/link: nothing a browser could fetch, and a CSP that forbids it."""
+    """No src/href/url()/@import/script/link: nothing a browser could fetch, and a CSP that forbids
+    it."""
     html = report.read_text(encoding="utf-8")
     assert not re.search(r"\s(src|href|srcset|action)\s*=", html, re.IGNORECASE)
     assert not re.search(r"url\(|@import|<script|<link|<iframe|<object|<embed", html, re.IGNORECASE)
@@ -142,7 +144,8 @@ def _png_pixels(data: bytes) -> tuple[int, int, list[bytes]]:
 
 
 def test_screenshot_is_not_blank_and_shows_the_sign_colour(report: Path, tmp_path: Path) -> None:
-    """The screenshot has many colours, a fair share of ink, and the colour that marks a reversed sign."""
+    """The screenshot has many colours, a fair share of ink, and the colour that marks a reversed
+    sign."""
     shot = tmp_path / "out.png"
     _chromium(
         [f"--screenshot={shot}", "--window-size=1200,2000", report.as_uri()], tmp_path / "profile"

@@ -1,4 +1,5 @@
-"""One caution, said the same way in the README, the terminal and every report (DESIGN.md section 5)."""
+"""One caution, said the same way in the README, the terminal and every report (DESIGN.md section
+5)."""
 
 from __future__ import annotations
 
@@ -72,7 +73,8 @@ def test_no_sound_beside_an_unstable_truss(tmp_path):
     """A mechanism's conditioning figure is not called sound."""
     case = tmp_path / "case.toml"
     case.write_text(
-        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [3, 0]\nC = [3, 3]\nD = [0, 3]\n'
+        '[units]\nlength = "m"\nforce = "kN"\n[joints]\nA = [0, 0]\nB = [3, 0]\nC = [3, 3]\n'
+        "D = [0, 3]\n"
         '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCD = ["C", "D"]\nDA = ["D", "A"]\n'
         '[supports]\nA = ["x", "y"]\nB = ["y"]\n[loads.dead]\nC = [1.0, 0.0]\n'
     )

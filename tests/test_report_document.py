@@ -57,7 +57,8 @@ def _claims_path(case: str) -> str:
 
 
 def _review(case: str) -> Review:
-    """The review as `check` builds it, with paths relative to the repository (stable in goldens)."""
+    """The review as `check` builds it, with paths relative to the repository (stable in
+    goldens)."""
     model = read_case(f"cases/{case}/case.toml")
     claims = read_claims(_claims_path(case), model)
     return compare_claims(analyse(model), claims)
@@ -85,7 +86,8 @@ def _same_line(got: str, want: str) -> bool:
 
 @pytest.mark.parametrize("case", CASES)
 def test_golden_markdown_report(case: str, at_root: None) -> None:
-    """The Markdown report of each bundled case matches its golden file (numbers within round-off)."""
+    """The Markdown report of each bundled case matches its golden file (numbers within
+    round-off)."""
     got = _mask(render_document(_review(case), fmt="md", generated=DATE))
     path = GOLDEN / f"{case}.md"
     if os.environ.get("TRUSS_VERIFY_REGEN_GOLDEN"):
@@ -94,7 +96,8 @@ def test_golden_markdown_report(case: str, at_root: None) -> None:
     got_lines, want_lines = got.splitlines(), want.splitlines()
     for n, (g, w) in enumerate(zip(got_lines, want_lines, strict=False), 1):
         assert _same_line(g, w), (
-            f"{path.name} line {n} differs:\n  got:  {g}\n  want: {w}\n(regenerate: TRUSS_VERIFY_REGEN_GOLDEN=1)"
+            f"{path.name} line {n} differs:\n  got:  {g}\n  want: {w}\n"
+            "(regenerate: TRUSS_VERIFY_REGEN_GOLDEN=1)"
         )
     assert len(got_lines) == len(want_lines), (
         f"{path.name}: {len(got_lines)} lines, golden has {len(want_lines)}"
@@ -147,7 +150,8 @@ def test_golden_canal_footbridge_statics() -> None:
 
 
 def test_golden_mezzanine_roof_statics() -> None:
-    """Golden end-panel forces of the roof truss equal equilibrium of joints L0 and L1 (1:2 pitch, common practice)."""
+    """Golden end-panel forces of the roof truss equal equilibrium of joints L0 and L1 (1:2 pitch,
+    common practice)."""
     R = 5 * 4.5 / 2  # five equal top-joint loads, symmetric supports
     got = _golden_values("mezzanine-roof", "dead", "global")
     assert got["L0U1"] == pytest.approx(
@@ -162,7 +166,8 @@ def test_golden_mezzanine_roof_statics() -> None:
 
 
 def test_golden_sign_bracket_statics() -> None:
-    """Golden forces of the space truss equal an exact sympy solve of the joint equations at E then D."""
+    """Golden forces of the space truss equal an exact sympy solve of the joint equations at E then
+    D."""
     model = read_case(ROOT / "cases/sign-bracket/case.toml")
     X = {j.id: sympy.Matrix([sympy.Rational(repr(c)) for c in j.coords]) for j in model.joints}
     for load in ("self-weight", "wind"):
@@ -189,7 +194,8 @@ def test_golden_sign_bracket_statics() -> None:
 
 
 def test_golden_conveyor_gantry_elastic() -> None:
-    """Golden elastic forces of the cross-braced gantry equal a direct stiffness solve written here from scratch."""
+    """Golden elastic forces of the cross-braced gantry equal a direct stiffness solve written here
+    from scratch."""
     model = read_case(ROOT / "cases/conveyor-gantry/case.toml")
     n = 2 * len(model.joints)
     K = np.zeros((n, n))
@@ -243,7 +249,8 @@ def test_exact_values_match_the_published_pratt_table() -> None:
 
 
 def test_exact_values_write_surds_for_irrational_lengths() -> None:
-    """Canal footbridge diagonal U2L3 (dead) = V/sin(theta) = 4.5 * sqrt(14.76)/2.4 = (9/8)·√41 (REFERENCES.md 3.1)."""
+    """Canal footbridge diagonal U2L3 (dead) = V/sin(theta) = 4.5 * sqrt(14.76)/2.4 = (9/8)·√41
+    (REFERENCES.md 3.1)."""
     model = read_case(ROOT / "cases/canal-footbridge/case.toml")
     values = exact_values(model, analyse(model).joints, "dead")
     assert values is not None
@@ -265,10 +272,10 @@ def test_exact_values_are_withheld_for_irrational_coordinates() -> None:
     assert exact_values(model, analyse(model).joints, "P") is None
 
 
-# -- content, escaping, determinism -----------------------------------------------------------------
+# -- content, escaping, determinism ----------------------------------------------------------------
 def test_html_has_every_section_in_order(at_root: None) -> None:
-    """Header, findings (on the first printed page), input files, diagram, member table, appendix and
-    cautions appear in that order."""
+    """Header, findings (on the first printed page), input files, diagram, member table, appendix
+    and cautions appear in that order."""
     html = render_document(_review("canal-footbridge"), generated=DATE)
     marks = [
         'id="summary"',
@@ -341,13 +348,15 @@ def _hostile_review() -> Review:
 
 
 def test_labels_from_spreadsheets_render_as_text() -> None:
-    """A member called <script> and a title with <img> are escaped in both formats; nothing becomes markup."""
+    """A member called <script> and a title with <img> are escaped in both formats; nothing becomes
+    markup."""
     review = _hostile_review()
     html = render_document(review, generated=DATE)
     assert "<script" not in html.lower() and "<img" not in html.lower() and "<b>" not in html
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
     md = render_document(review, fmt="md", generated=DATE)
-    # Inside fenced code blocks Markdown shows text verbatim (CommonMark), so only prose must be escaped.
+    # Inside fenced code blocks Markdown shows text verbatim (CommonMark), so only prose must be
+    # escaped.
     prose = re.sub(r"(?ms)^(`{3,})text\n.*?^\1$", "", md)
     assert prose != md and "<script>alert(1)</script>" in md
     assert "<script" not in prose.lower() and "<img" not in prose.lower() and "<b>" not in prose
@@ -391,7 +400,8 @@ def test_space_truss_is_drawn_in_plan_and_elevation(at_root: None) -> None:
 
 
 def test_diagram_codes_force_and_status(at_root: None) -> None:
-    """In 'dead', U2L2 (sign reversed) is drawn in the sign colour as a compression band; L0L1 as a tension line.
+    """In 'dead', U2L2 (sign reversed) is drawn in the sign colour as a compression band; L0L1 as a
+    tension line.
 
     Signs from the Pratt table, REFERENCES.md 3.2: bottom chord tension, U2L2 = -P/2 compression.
     """

@@ -47,7 +47,8 @@ def test_tc_rounds_halves_away_from_zero(value, shown):
 
 
 def test_fixed_places_keep_trailing_zeros_and_round_halves_up():
-    """fmt_fixed keeps the places asked for: 12.4 to 2 places is 12.40; 0.045 to 2 places is 0.05."""
+    """fmt_fixed keeps the places asked for: 12.4 to 2 places is 12.40; 0.045 to 2 places is
+    0.05."""
     assert fmt_fixed(12.4, 2) == "12.40"
     assert fmt_fixed(0.045, 2) == "0.05"
     assert fmt_fixed(-0.045, 2) == "-0.05"
@@ -72,7 +73,8 @@ def test_float_noise_below_ten_figures_is_not_shown():
 
 
 def test_round_off_beside_the_row_is_zero_in_the_csv():
-    """-9.707e-10 beside forces of order 10 and 3.0e-14 are round-off: the CSV says 0, not -0 or 3.0e-14."""
+    """-9.707e-10 beside forces of order 10 and 3.0e-14 are round-off: the CSV says 0, not -0 or
+    3.0e-14."""
     assert data_number(-9.707e-10, 12.0) == "0"
     assert data_number(3.0e-14, 45.0) == "0"
     assert data_number(-0.0, 1.0) == "0"
@@ -80,7 +82,8 @@ def test_round_off_beside_the_row_is_zero_in_the_csv():
 
 
 def test_ratio_and_percent_round_half_away():
-    """Conditioning figures in scientific form and tolerances in percent, both halves away from zero."""
+    """Conditioning figures in scientific form and tolerances in percent, both halves away from
+    zero."""
     assert fmt_ratio(4.705e-5) == "4.71e-5"
     assert fmt_ratio(9.9996e-5) == "1e-4"
     assert fmt_percent(0.01) == "1 %"
@@ -95,7 +98,8 @@ def test_routes_agreeing_to_round_off_are_said_so():
 
 
 def test_difference_keeps_the_precision_the_claim_was_written_in():
-    """Claim '173.3' (1 decimal) against 173.25: difference 0.05 at the claim's decimals plus one guard."""
+    """Claim '173.3' (1 decimal) against 173.25: difference 0.05 at the claim's decimals plus one
+    guard."""
     assert difference_text(173.3 - 173.25, 173.3, "173.3 T at row 4, column 'ULS'", 173.3) == "0.05"
     assert difference_text(28.1 - 28.125, 28.1, "28.1 T at row 2", 28.1) == "-0.03"
     assert difference_text(-9.707e-10, 12.0, "12 T at row 2", 12.0) == "0.0"
@@ -107,7 +111,8 @@ def test_difference_of_a_converted_claim_uses_significant_figures():
 
 
 def test_decimals_in_reads_the_first_number():
-    """'12.40 C at row 4' has 2 decimals; '(3) at row 2' has none; text without a number gives None."""
+    """'12.40 C at row 4' has 2 decimals; '(3) at row 2' has none; text without a number gives
+    None."""
     assert decimals_in("12.40 C at row 4") == 2
     assert decimals_in("(3) at row 2") == 0
     assert decimals_in("n/a") is None
@@ -121,7 +126,8 @@ def test_clean_zero_is_relative_to_scale():
 
 @given(st.integers(min_value=-(10**7), max_value=10**7), st.integers(min_value=1, max_value=4))
 def test_any_decimal_rounds_as_decimal_half_up_does(units, places):
-    """For any decimal n/10^(p+1), fmt_fixed to p places equals exact decimal ROUND_HALF_UP (the reference)."""
+    """For any decimal n/10^(p+1), fmt_fixed to p places equals exact decimal ROUND_HALF_UP (the
+    reference)."""
     exact = Fraction(units, 10 ** (places + 1))
     value = float(Decimal(units).scaleb(-(places + 1)))
     expected = Decimal(exact.numerator) / Decimal(exact.denominator)

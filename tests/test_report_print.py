@@ -118,7 +118,8 @@ def test_no_member_table_row_is_split_or_wrapped(printed):
     start = next(k for k, p in enumerate(pages) if p.lstrip().startswith("Member table"))
     lines = [line for page in pages[start:] for line in page.splitlines()]
     rows = [line for line in lines if re.match(r"^(L\d|U\d)\S* .* at row \d+, column", line)]
-    # 21 members and 2 reactions in each of the three claimed load columns (cases/canal-footbridge/claims.csv)
+    # 21 members and 2 reactions in each of the three claimed load columns
+    # (cases/canal-footbridge/claims.csv)
     assert len(rows) == 3 * (21 + 2)
 
 

@@ -67,7 +67,8 @@ def test_every_compared_row_carries_its_unit():
 
 
 def test_convention_says_which_unit_the_table_was_written_in_and_which_the_values_are_in():
-    """convention.claims_unit is the table's unit; convention.values_unit the unit of the values beside it."""
+    """convention.claims_unit is the table's unit; convention.values_unit the unit of the values
+    beside it."""
     _, out = run("check", FOOTBRIDGE, "--claims", FOOTBRIDGE / "claims.csv", "--json")
     convention = json.loads(out)["convention"]
     assert convention["values_unit"] == "kN"

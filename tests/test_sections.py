@@ -1,4 +1,5 @@
-"""Method of sections (Ritter's method): verify/analysis/sections.py and verify/report/section_calc.py.
+"""Method of sections (Ritter's method): verify/analysis/sections.py and
+verify/report/section_calc.py.
 
 Sources of the expected values, named beside each check:
 * shared/REFERENCES.md 3.2 -- 6-panel Pratt, Howe (d = 4, h = 3, P at L1..L5) and the 4-panel
@@ -116,7 +117,8 @@ WARREN_TABLE = {  # REFERENCES.md 3.2, Warren (equilateral, side 4)
     ids=["pratt", "howe", "warren"],
 )
 def test_parallel_chord_tables(builder, table):
-    """Section forces equal the REFERENCES.md 3.2 tables (Pratt, Howe, Warren), all members reached."""
+    """Section forces equal the REFERENCES.md 3.2 tables (Pratt, Howe, Warren), all members
+    reached."""
     model = make_model(builder(load=1.0))
     solution = solve_sections(model)
     assert solution.coverage == 1.0
@@ -230,7 +232,8 @@ def test_space_truss_equals_global(levels, seed):
 
 # -- K-truss ----------------------------------------------------------------------------------
 def k_truss(panels: int, d: float = 4.0, h: float = 6.0):
-    """K-truss: split verticals with K diagonals pointing to the supports; plain diagonals mid-span."""
+    """K-truss: split verticals with K diagonals pointing to the supports; plain diagonals
+    mid-span."""
     half = panels // 2
     joints = {f"L{i}": [i * d, 0.0] for i in range(panels + 1)}
     joints.update({f"U{i}": [i * d, h] for i in range(panels + 1)})
@@ -266,7 +269,8 @@ def test_k_truss_chords_reached(panels):
 
 
 def test_k_truss_chord_by_concurrent_others(monkeypatch):
-    """With vertical cuts only, a K-truss chord needs a cut of 4 members whose other 3 meet at a joint."""
+    """With vertical cuts only, a K-truss chord needs a cut of 4 members whose other 3 meet at a
+    joint."""
     import verify.analysis.sections as sections
 
     monkeypatch.setattr(sections, "_directions", lambda model: np.eye(model.dim))
@@ -280,7 +284,8 @@ def test_k_truss_chord_by_concurrent_others(monkeypatch):
 
 # -- user-requested cuts ----------------------------------------------------------------------
 def test_cut_for_members_keeps_side_without_pin():
-    """A requested Pratt panel-2 cut keeps the side without the pin; solve_cut matches REFERENCES 3.2."""
+    """A requested Pratt panel-2 cut keeps the side without the pin; solve_cut matches REFERENCES
+    3.2."""
     model = make_model(pratt(load=1.0))
     cut = cut_for_members(model, ["U1U2", "U1L2", "L1L2"])
     assert "L0" not in cut.kept_joints and "L6" in cut.kept_joints
@@ -319,7 +324,8 @@ def test_bad_requested_cuts(members, message):
 
 # -- the bundled case and the calc sheet --------------------------------------------------------
 def test_canal_footbridge_every_cut_reproduces_itself():
-    """On the bundled case, solve_cut of every cut and column equals the route's table and the global solve."""
+    """On the bundled case, solve_cut of every cut and column equals the route's table and the
+    global solve."""
     model = read_case(CASES)
     solution = solve_sections(model)
     assert solution.coverage == 1.0
@@ -368,8 +374,8 @@ def test_render_reactions():
 
 
 def test_cantilever_with_two_wall_pins_uses_support_free_bodies():
-    """A cantilever held by two wall pins (4 reaction components): reactions do not come first, every
-    cut keeps the support-free tip side, and the forces equal the global solve."""
+    """A cantilever held by two wall pins (4 reaction components): reactions do not come first,
+    every cut keeps the support-free tip side, and the forces equal the global solve."""
     joints = {f"L{i}": [4.0 * i, 0.0] for i in range(5)}
     joints.update({f"U{i}": [4.0 * i, 3.0] for i in range(5)})
     members = [(f"L{i}", f"L{i + 1}") for i in range(4)] + [

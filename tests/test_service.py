@@ -169,7 +169,8 @@ REFUSALS = [
     "what, cli_args, api_kwargs, error, words", REFUSALS, ids=[r[0] for r in REFUSALS]
 )
 def test_api_refuses_what_the_cli_refuses(what, cli_args, api_kwargs, error, words):
-    """An input the CLI refuses with status 2 makes the API raise the project's error, in the same words."""
+    """An input the CLI refuses with status 2 makes the API raise the project's error, in the same
+    words."""
     args = ["--claims", FOOTBRIDGE / "claims.csv", *cli_args]  # a later --claims wins in click
     code, _, err = _cli("check", FOOTBRIDGE, *args)
     assert code == EXIT_BAD_INPUT and words in err
@@ -189,7 +190,8 @@ def test_options_are_clean_once_made():
 
 
 def test_options_name_the_option_as_the_user_typed_it():
-    """A message names the option by the spelling the caller gave (a CLI flag, a manifest column)."""
+    """A message names the option by the spelling the caller gave (a CLI flag, a manifest
+    column)."""
     with pytest.raises(OptionError, match=r"^--rtol=2"):
         CheckOptions(rtol=2, spelt=(("rtol", "--rtol"),))
 

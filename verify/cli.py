@@ -85,7 +85,8 @@ def _positive_finite(
 _TABLES_ANYWHERE = click.option(
     "--tables-anywhere",
     is_flag=True,
-    help="Let the case file name CSV tables outside its own folder (by default they must sit beside it).",
+    help="Let the case file name CSV tables outside its own folder (by default they must sit "
+    "beside it).",
 )
 
 
@@ -161,7 +162,8 @@ def _stability_only(model: Model) -> Analysis:
     default=None,
     metavar="EA",
     callback=_positive_finite,
-    help="For an indeterminate truss without stiffness data: assume this EA for every member (said in every output).",
+    help="For an indeterminate truss without stiffness data: assume this EA for every member "
+    "(said in every output).",
 )
 @click.option(
     "--all-rows",
@@ -185,7 +187,8 @@ def solve(
         from verify.errors import did_you_mean
 
         click.echo(
-            f"--case: '{load_name}' is not a load case or combination of {case}.{did_you_mean(load_name, model.load_names)}",
+            f"--case: '{load_name}' is not a load case or combination of "
+            f"{case}.{did_you_mean(load_name, model.load_names)}",
             err=True,
         )
         sys.exit(EXIT_BAD_INPUT)
@@ -201,7 +204,8 @@ def solve(
             + (
                 "the truss is unstable."
                 if not analysis.stability.is_stable
-                else "statically indeterminate without member stiffness (give EA, or --assume-equal-ea)."
+                else "statically indeterminate without member stiffness (give EA, or "
+                "--assume-equal-ea)."
             )
         )
         click.echo(f"Caution: {CAUTION}")
@@ -220,8 +224,10 @@ def solve(
         click.echo(text.render_solution(model, analysis, all_rows=all_rows, load_names=names))
     if show in ("joints", "sections", "all") and analysis.joints is None:
         click.echo(
-            "The method of joints and section cuts give the forces of statically determinate trusses only; "
-            "this truss is indeterminate, so its forces come from the direct stiffness method above.\n"
+            "The method of joints and section cuts give the forces of statically determinate "
+            "trusses only; "
+            "this truss is indeterminate, so its forces come from the direct stiffness method "
+            "above.\n"
         )
     if show in ("joints", "all") and analysis.joints is not None:
         sheets = analysis.sections.calc_sheets(model) if analysis.sections is not None else None
@@ -280,7 +286,8 @@ def cut(
     model = _load(case, tables_anywhere=tables_anywhere)
     if load_name is not None and load_name not in model.load_names:
         click.echo(
-            f"--case: '{load_name}' is not a load case or combination of {case}.{did_you_mean(load_name, model.load_names)}",
+            f"--case: '{load_name}' is not a load case or combination of "
+            f"{case}.{did_you_mean(load_name, model.load_names)}",
             err=True,
         )
         sys.exit(EXIT_BAD_INPUT)
@@ -318,7 +325,8 @@ def _run_check(
     spelt: dict[str, str] | None = None,
     **given: Any,
 ) -> int:
-    """Parse, call the check service, write and print; the exit status. `given`: CheckOptions' fields."""
+    """Parse, call the check service, write and print; the exit status. `given`: CheckOptions'
+    fields."""
     from verify.errors import OptionError
     from verify.report.atomic import OutputError, write_atomic
     from verify.report.review_text import render_review
@@ -327,14 +335,16 @@ def _run_check(
     # Output paths are the command's business, not the check's: refused before any file is read.
     if report and not report.lower().endswith((".html", ".htm", ".md")):
         _say_bad_input(
-            f"--report: '{report}' must end in .html or .md (the report's format follows the extension)",
+            f"--report: '{report}' must end in .html or .md (the report's format follows the "
+            "extension)",
             as_json,
         )
         return EXIT_BAD_INPUT
     if csv_path and not csv_path.lower().endswith((".csv", ".txt")):
         # (and so can never be the --report file, which ends in .html or .md)
         _say_bad_input(
-            f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, not a workbook)",
+            f"--csv: '{csv_path}' must end in .csv or .txt (the file is comma-separated text, "
+            "not a workbook)",
             as_json,
         )
         return EXIT_BAD_INPUT
@@ -455,14 +465,16 @@ _CHECK_OPTIONS = [
         type=click.Choice([m for m in ("tension-positive", "compression-positive", "auto")]),
         default="auto",
         show_default=True,
-        help="Sign convention of the claimed table; T/C suffixes always settle the sign of their value.",
+        help="Sign convention of the claimed table; T/C suffixes always settle the sign of their "
+        "value.",
     ),
     click.option(
         "--unit",
         default="auto",
         show_default=True,
         metavar="UNIT|auto",
-        help="Force unit of the claimed table (N, kN, MN, lbf, kip, kgf, tonne-force); units in headers or cells win.",
+        help="Force unit of the claimed table (N, kN, MN, lbf, kip, kgf, tonne-force); units in "
+        "headers or cells win.",
     ),
     click.option(
         "--sheet",
@@ -503,7 +515,8 @@ _CHECK_OPTIONS = [
         type=float,
         default=1e-3,
         show_default=True,
-        help="A claim also agrees within this fraction of the largest recomputed force of its load column.",
+        help="A claim also agrees within this fraction of the largest recomputed force of its "
+        "load column.",
     ),
     # The first names of these two options, kept so that scripts written for them still run.
     click.option("--rtol", "rtol_alias", type=float, default=None, hidden=True),
@@ -531,7 +544,8 @@ _CHECK_OPTIONS = [
         default=None,
         metavar="EA",
         callback=_positive_finite,
-        help="Indeterminate truss without stiffness data: assume this EA for every member (said in every output).",
+        help="Indeterminate truss without stiffness data: assume this EA for every member (said "
+        "in every output).",
     ),
     click.option(
         "--all-rows",
@@ -543,9 +557,9 @@ _CHECK_OPTIONS = [
         default=None,
         type=click.Path(dir_okay=False),
         metavar="FILE",
-        help="Claimed joint displacements (CSV: joint, direction, case, value with its length unit in the header "
-        "or cells, e.g. 'deflection (mm)'); checked by the direct stiffness method and confirmed by the "
-        "unit-load method.",
+        help="Claimed joint displacements (CSV: joint, direction, case, value with its length unit "
+        "in the header or cells, e.g. 'deflection (mm)'); checked by the direct stiffness method "
+        "and confirmed by the unit-load method.",
     ),
     _TABLES_ANYWHERE,
 ]
@@ -603,13 +617,15 @@ def check(case: str, claims_path: str, **options: Any) -> None:
     "--depth",
     type=float,
     required=True,
-    help="Depth of a parallel-chord truss, rise of a roof truss, height of a tower, depth of a grid.",
+    help="Depth of a parallel-chord truss, rise of a roof truss, height of a tower, depth of a "
+    "grid.",
 )
 @click.option(
     "--panels",
     type=int,
     default=None,
-    help="Panels (bays) along the span, up a tower, or cells a side of a grid; roof patterns have their own.",
+    help="Panels (bays) along the span, up a tower, or cells a side of a grid; roof patterns "
+    "have their own.",
 )
 @click.option(
     "--loaded-chord",
@@ -623,14 +639,16 @@ def check(case: str, claims_path: str, **options: Any) -> None:
     type=float,
     default=None,
     metavar="P",
-    help="Downward load at every loaded panel point not over a support (default 10 if no --line-load).",
+    help="Downward load at every loaded panel point not over a support (default 10 if no "
+    "--line-load).",
 )
 @click.option(
     "--line-load",
     type=float,
     default=None,
     metavar="W",
-    help="Downward load per unit of plan length on the loaded chord, to panel points by tributary length.",
+    help="Downward load per unit of plan length on the loaded chord, to panel points by "
+    "tributary length.",
 )
 @click.option(
     "--length-unit", default="m", show_default=True, help="Length unit written in the case file."
@@ -675,7 +693,8 @@ def starter(
 
     if pattern not in PATTERNS:
         _fail_input(
-            f"unknown pattern '{pattern}'; the patterns are {', '.join(PATTERNS)}.{did_you_mean(pattern, PATTERNS)}"
+            f"unknown pattern '{pattern}'; the patterns are "
+            f"{', '.join(PATTERNS)}.{did_you_mean(pattern, PATTERNS)}"
         )
     try:
         lookup_unit(length_unit, Dimension.LENGTH)
@@ -755,8 +774,9 @@ def demo(as_json: bool, report: str | None) -> None:
     "--scheduler",
     default=None,
     metavar="ADDRESS",
-    help="Run the cases on a Dask distributed scheduler (e.g. tcp://10.0.0.5:8786) instead of local processes; "
-    "needs pip install 'truss-verify[cluster]' and the case files at the same paths on every worker.",
+    help="Run the cases on a Dask distributed scheduler (e.g. tcp://10.0.0.5:8786) instead of "
+    "local processes; needs pip install 'truss-verify[cluster]' and the case files at the same "
+    "paths on every worker.",
 )
 @click.option(
     "--summary",
@@ -770,7 +790,8 @@ def demo(as_json: bool, report: str | None) -> None:
     "output",
     default=None,
     metavar="DIR",
-    help="Folder for the reports, index.html and the rerun state (default: FOLDER/truss-verify-batch).",
+    help="Folder for the reports, index.html and the rerun state (default: "
+    "FOLDER/truss-verify-batch).",
 )
 @click.option(
     "--recheck",
@@ -803,7 +824,8 @@ def batch(
 
     if scheduler is not None and jobs is not None:
         _fail_input(
-            "--jobs sets local processes; with --scheduler the cluster's workers run the cases, so give one or the other"
+            "--jobs sets local processes; with --scheduler the cluster's workers run the cases, "
+            "so give one or the other"
         )
 
     quiet: list[
@@ -858,7 +880,8 @@ def batch(
 
 
 def _cores() -> int:
-    """The cores this process may use (a container or `taskset` may allow fewer than the machine has)."""
+    """The cores this process may use (a container or `taskset` may allow fewer than the machine
+    has)."""
     affinity = getattr(os, "sched_getaffinity", None)
     return len(affinity(0)) if affinity is not None else (os.cpu_count() or 1)
 
@@ -915,7 +938,8 @@ def run(argv: list[str] | None = None) -> None:
         code = EXIT_PIPE_CLOSED if exc.errno == errno.EPIPE else EXIT_BAD_INPUT
     except Exception:  # noqa: BLE001 - a fault in the tool: say so plainly, keep the trace for the report
         sys.stderr.write(
-            "truss-verify: internal error (a fault in the tool, not in your input); please report it "
+            "truss-verify: internal error (a fault in the tool, not in your input); please "
+            "report it "
             "with the command and input files:\n" + traceback.format_exc()
         )
         code = EXIT_INTERNAL

@@ -51,7 +51,8 @@ _TEXT_OPTIONS = ("sheet", "pages", "member_column", "case_column", "force_column
 
 
 def exit_status(verdict: Verdict) -> int:
-    """The exit status `check` leaves with for a verdict: 0 agrees, 1 discrepancies, 3 cannot verify."""
+    """The exit status `check` leaves with for a verdict: 0 agrees, 1 discrepancies, 3 cannot
+    verify."""
     return _EXIT_STATUS[verdict]
 
 
@@ -84,11 +85,13 @@ class CheckOptions:
             value = getattr(self, name)
             if value is not None and not isinstance(value, str):
                 raise OptionError(
-                    f"{names.get(name, name)}={shown(value)}: must be text (a name as the file writes it)"
+                    f"{names.get(name, name)}={shown(value)}: must be text (a name as the file "
+                    "writes it)"
                 )
         if self.displacements is not None and not isinstance(self.displacements, (str, Path)):
             raise OptionError(
-                f"{names.get('displacements', 'displacements')}={shown(self.displacements)}: must be a file path"
+                f"{names.get('displacements', 'displacements')}={shown(self.displacements)}: "
+                "must be a file path"
             )
         clean = check_options(
             sign=self.sign,

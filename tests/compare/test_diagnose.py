@@ -228,7 +228,8 @@ def test_unstable_truss_cannot_be_verified():
 
 
 def _braced_square():
-    """Square panel with both diagonals, pin + roller: one state of self-stress (REFERENCES.md 1.4)."""
+    """Square panel with both diagonals, pin + roller: one state of self-stress (REFERENCES.md
+    1.4)."""
     return make_model(
         truss_case(
             {"A": [0, 0], "B": [4, 0], "C": [4, 4], "D": [0, 4]},
@@ -240,7 +241,8 @@ def _braced_square():
 
 
 def test_indeterminate_without_stiffness_checks_equilibrium_only():
-    """With P at D: AB = DA = P/2, BC = CD = -P/2, AC = P/sqrt2, BD = -P/sqrt2 (REFERENCES.md 3.6)."""
+    """With P at D: AB = DA = P/2, BC = CD = -P/2, AC = P/sqrt2, BD = -P/sqrt2 (REFERENCES.md
+    3.6)."""
     analysis = analyse(_braced_square())
     s2 = 2**0.5
     good = {"AB": 5, "BC": -5, "CD": -5, "DA": 5, "AC": 10 / s2, "BD": -10 / s2}
@@ -485,7 +487,8 @@ def test_wrong_factor_found_when_some_load_cases_are_proportional():
     claims = {"ULS": {m: parts["dead"][m] + 1.6 * parts["uplift"][m] for m in parts["dead"]}}
     review = compare_claims(analysis, table(claims, unit="kN"))
     assert [f.kind for f in review.findings if f.case == "ULS"] == ["likely-cause"]
-    # only 'ULS' is claimed, so a larger uplift load reads the same as a larger factor: both are said
+    # only 'ULS' is claimed, so a larger uplift load reads the same as a larger factor: both are
+    # said
     assert review.findings[0].variant.startswith(
         "'ULS' taking 1.6 × uplift instead of 1.5 × uplift"
     )
@@ -718,7 +721,8 @@ def test_whole_table_in_meganewtons_names_the_unit(pratt_analysis):
 
 
 def test_table_in_kgf_without_a_unit_is_read_as_kgf(pratt_analysis):
-    """1 kgf = 9.80665 N (NIST SP 811, App. B): a kN model's forces written in kgf, no unit stated."""
+    """1 kgf = 9.80665 N (NIST SP 811, App. B): a kN model's forces written in kgf, no unit
+    stated."""
     kgf = {
         c: {m: v * 1000 / 9.80665 for m, v in ms.items()}
         for c, ms in true_claims(pratt_analysis).items()

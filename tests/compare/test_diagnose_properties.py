@@ -67,7 +67,8 @@ def test_negated_table_is_one_convention_finding_never_sign_flips(analysis):
 
 
 @SETTINGS
-# The slips a kN table can really have: values in N, MN, kip, lbf or tonne-force (the models are in kN).
+# The slips a kN table can really have: values in N, MN, kip, lbf or tonne-force (the models are in
+# kN).
 @given(
     loaded_trusses(),
     st.sampled_from(sorted(possible_factors(lookup_unit("kN", Dimension.FORCE), ratios=True))),

@@ -105,7 +105,8 @@ def test_pratt_6_panel(route):
 
 @pytest.mark.parametrize("route", ROUTES)
 def test_pratt_section_check(route):
-    """REFERENCES.md 3.2 Ritter check on panel 2: U1U2 = -M(L2)/h, L1L2 = M(U1)/h, U1L2 = V/sin(theta)."""
+    """REFERENCES.md 3.2 Ritter check on panel 2: U1U2 = -M(L2)/h, L1L2 = M(U1)/h, U1L2 =
+    V/sin(theta)."""
     h, sin_theta = 3.0, 0.6
     M_L2, M_L1, V2 = 16 * P, 10 * P, 1.5 * P
     check(

@@ -587,7 +587,8 @@ class CalcSheets:
         load_m0: np.ndarray,
         reactions: list[ExternalForce],
     ) -> dict[str, float]:
-        """Unknowns the free body's full equation set fixes (rank test), moments about a kept end."""
+        """Unknowns the free body's full equation set fixes (rank test), moments about a kept
+        end."""
         d = self.model.dim
         ref = np.asarray(cut_members[0].point)
         ext = np.zeros(EQUATIONS[d])
@@ -811,7 +812,8 @@ class CalcSheets:
 
     # -- overall equilibrium --------------------------------------------------------------------
     def reactions(self, load_name: str, *, exact: bool = True) -> ReactionsSheet:
-        """The overall-equilibrium step: ΣM about the pin, then the force sums, and the reactions."""
+        """The overall-equilibrium step: ΣM about the pin, then the force sums, and the
+        reactions."""
         model = self.model
         column = self._column(load_name)
         d = model.dim

@@ -697,7 +697,8 @@ class _Solver:
                 break
         if self.budget <= 0 and not self.known.all():
             self.notes.append(
-                f"the search for non-straight free bodies stopped after {MAX_BODY_CANDIDATES} candidates"
+                f"the search for non-straight free bodies stopped after {MAX_BODY_CANDIDATES} "
+                "candidates"
             )
         self.sweeps = sweeps
 
@@ -732,7 +733,8 @@ class _Solver:
         )
 
     def _moved(self, sw: _Sweep) -> int:
-        """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved across."""
+        """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved
+        across."""
         eng = self.eng
         n_layers = len(sw.stops) + 1
         # a layer next to the gap must hold a joint with an unknown member: moving it may cut that
@@ -825,7 +827,8 @@ class _Solver:
         to_right: bool,
     ):
         """The free body `left of gap g` with `moved` joints sent across (pure Python: it runs per
-        candidate). Returns (members, kept ends, keep_left, g, moved, to_right) or None if unusable."""
+        candidate). Returns (members, kept ends, keep_left, g, moved, to_right) or None if
+        unusable."""
         eng = self.eng
         ends = self.ends_list
         incidence = self.incidence
@@ -1181,8 +1184,8 @@ def solve_sections(model: Model) -> SectionSolution:
     d = model.dim
     if eng.first is not None:
         notes.append(
-            f"reactions from overall equilibrium first (moments about {eng.first[2]}, then force sums), "
-            "as a hand calc does"
+            f"reactions from overall equilibrium first (moments about {eng.first[2]}, then force "
+            "sums), as a hand calc does"
         )
     elif model.reactions:
         need = EQUATIONS[d]
@@ -1233,8 +1236,8 @@ def _reasons(solver: _Solver) -> dict[str, str]:
         ""
         if eng.first is not None or not eng.model.reactions
         else (
-            "; only free bodies without supports were usable, because the reactions cannot be found "
-            "from overall equilibrium"
+            "; only free bodies without supports were usable, because the reactions cannot be "
+            "found from overall equilibrium"
         )
     )
     out: dict[str, str] = {}
@@ -1316,8 +1319,8 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
     listed = ", ".join(ids)
     if n_parts < 2:
         raise ValueError(
-            f"removing {listed} leaves the truss in one piece, so these members do not form a section; "
-            "a section must cut the truss into two parts"
+            f"removing {listed} leaves the truss in one piece, so these members do not form a "
+            "section; a section must cut the truss into two parts"
         )
     la = label[eng.ends[cut_idx, 0]]
     lb = label[eng.ends[cut_idx, 1]]
@@ -1346,8 +1349,8 @@ def cut_for_members(model: Model, member_ids: Sequence[str]) -> SectionCut:
         )
     if not options:
         raise ValueError(
-            f"every free body of the cut through {listed} holds a support, and the reactions cannot be "
-            "found from overall equilibrium"
+            f"every free body of the cut through {listed} holds a support, and the reactions "
+            "cannot be found from overall equilibrium"
         )
     options.sort(key=lambda o: o[:3])
     _, _, _, part, joints, uses_reactions = options[0]
@@ -1398,8 +1401,8 @@ def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:
             if np.all(np.abs(lines @ w) <= ELIMINATED_RTOL):
                 if abs(w[2]) <= PARALLEL_RTOL * np.linalg.norm(w[:2]):
                     return (
-                        f"the lines of {listed} are all parallel: a force sum across them gives 0 = 0 "
-                        "and the cut cannot isolate any of them"
+                        f"the lines of {listed} are all parallel: a force sum across them "
+                        "gives 0 = 0 and the cut cannot isolate any of them"
                     )
                 o = np.array([-w[1] / w[2], w[0] / w[2]]) * found.Ls[0] + found.q0[0] + eng.centre
                 where = f"({', '.join(f'{x:.6g}' for x in o)})"
@@ -1415,8 +1418,8 @@ def _unresolvable(eng: _Engine, found: _Found, ids: list[str]) -> str:
     if k > neq:
         return (
             f"the cut through {listed} has {k} unknown forces but a free body gives only {neq} "
-            "equations, and no member is isolated: the lines of the others neither meet at one point "
-            "nor are all parallel"
+            "equations, and no member is isolated: the lines of the others neither meet at one "
+            "point nor are all parallel"
         )
     return (
         f"the {neq} equations of the free body have rank {rank} for the {k} unknown forces of "

@@ -7,13 +7,13 @@ Delta means the joint moves opposite to the unit load.
 
 The n forces come from statics. When the truss is statically determinate (square, non-singular
 equilibrium matrix) they are the unique solution of ``A n + f_unit = 0``, found by sparse LU
-(ordering as in verify.analysis.global_solve). When the truss is indeterminate the formula still holds with *any* statically
-admissible n (the reduced-structure theorem of virtual work, common practice), provided N are the
-real, compatible forces. Up to DENSE_LIMIT joint equations we release the redundants, as a hand calc
-does: QR with column pivoting picks independent members and reaction components, the rest get
-n = 0, and the reduced, determinate truss is solved by statics. Otherwise (larger models, or no
-such reduction) we use the minimum-norm solution of ``A n = -f_unit`` (dense least squares, or
-sparse LSQR started from zero). The calculation states which route was taken.
+(ordering as in verify.analysis.global_solve). When the truss is indeterminate the formula still
+holds with *any* statically admissible n (the reduced-structure theorem of virtual work, common
+practice), provided N are the real, compatible forces. Up to DENSE_LIMIT joint equations we release
+the redundants, as a hand calc does: QR with column pivoting picks independent members and reaction
+components, the rest get n = 0, and the reduced, determinate truss is solved by statics. Otherwise
+(larger models, or no such reduction) we use the minimum-norm solution of ``A n = -f_unit`` (dense
+least squares, or sparse LSQR started from zero). The calculation states which route was taken.
 Support movements are zero, so the reactions of the unit load do no work.
 """
 
@@ -104,9 +104,10 @@ def solve_unit_load(
         t, route, released = _released_structure(model, A.toarray(), f)
         if t is not None:
             notes.append(
-                f"redundants released for the unit load: {', '.join(released)} (their n = 0); the rest is a "
-                "statically determinate truss, so n can be checked by hand (reduced-structure theorem: any set "
-                "in equilibrium with the unit load gives the same deflection when N is the real, compatible force set)"
+                f"redundants released for the unit load: {', '.join(released)} (their n = 0); the "
+                "rest is a statically determinate truss, so n can be checked by hand "
+                "(reduced-structure theorem: any set in equilibrium with the unit load gives the "
+                "same deflection when N is the real, compatible force set)"
             )
     if t is None:
         route = "minimum-norm admissible set"
@@ -115,15 +116,15 @@ def solve_unit_load(
         else:
             t = spla.lsqr(A, -f, atol=LSQR_TOL, btol=LSQR_TOL, iter_lim=20 * sum(A.shape))[0]
         notes.append(
-            "the unit-load forces n are the minimum-norm statically admissible set (reduced-structure "
-            "theorem: any set in equilibrium with the unit load gives the same deflection when N is "
-            "the real, compatible force set)"
+            "the unit-load forces n are the minimum-norm statically admissible set "
+            "(reduced-structure theorem: any set in equilibrium with the unit load gives the same "
+            "deflection when N is the real, compatible force set)"
         )
     leak = float(np.abs(A @ t + f).max())
     if not math.isfinite(leak) or leak > UNIT_LOAD_RTOL:
         raise ValueError(
-            f"a unit load at joint '{joint}' along {tuple(float(c) for c in direction)} cannot be carried "
-            f"(out-of-balance {leak:.2e}): the truss is a mechanism for that load"
+            f"a unit load at joint '{joint}' along {tuple(float(c) for c in direction)} cannot be "
+            f"carried (out-of-balance {leak:.2e}): the truss is a mechanism for that load"
         )
     return t, route, notes
 
@@ -182,7 +183,8 @@ def unit_load_deflection(
     if N.shape != (len(model.members),):
         raise _bad(
             model,
-            f"real forces must hold one value per member ({len(model.members)}), got shape {np.shape(forces_real)}",
+            f"real forces must hold one value per member ({len(model.members)}), got shape "
+            f"{np.shape(forces_real)}",
         )
     if not np.all(np.isfinite(N)):
         bad = [model.members[k].id for k in np.nonzero(~np.isfinite(N))[0][:10]]

@@ -91,7 +91,12 @@ class Convention:
         """The convention used, and where it came from."""
         if self.stated_sign and self.stated_sign != self.sign:
             return f"{self.sign} (the data's: --sign said {self.stated_sign})"
-        return f"{self.sign} ({'inferred from the data' if self.inferred or not self.stated_sign else 'as stated'})"
+        return (
+            f"{self.sign} "
+            "("
+            f"{'inferred from the data' if self.inferred or not self.stated_sign else 'as stated'}"
+            ")"
+        )
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -325,8 +330,9 @@ def _structure(c: Comparison) -> None:
                 "mechanism",
                 (),
                 f"the truss is unstable: {stab.mechanisms}{'' if stab.exact_counts else '+'} "
-                f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; Maxwell count "
-                f"b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be recomputed.",
+                f"mechanism(s) (rank {stab.rank} of {stab.dim * stab.joints} joint equations; "
+                f"Maxwell count b + r - {stab.dim}j = {stab.maxwell}). {modes}. No force can be "
+                "recomputed.",
                 Severity.CANNOT_VERIFY,
             )
         )
@@ -337,9 +343,10 @@ def _structure(c: Comparison) -> None:
                 Finding(
                     "indeterminate",
                     tuple(members_ss[:50]),
-                    f"statically indeterminate to degree {stab.self_stress} "
-                    "and member stiffness (EA) is not given for every member: statics cannot tell how the force is shared "
-                    "among the redundant members, so only the equilibrium of the claimed forces is checked.",
+                    f"statically indeterminate to degree {stab.self_stress} and member stiffness "
+                    "(EA) is not given for every member: statics cannot tell how the force is "
+                    "shared among the redundant members, so only the equilibrium of the claimed "
+                    "forces is checked.",
                     Severity.CANNOT_VERIFY,
                 )
             )
@@ -349,7 +356,8 @@ def _structure(c: Comparison) -> None:
                     "indeterminate",
                     tuple(members_ss[:50]),
                     f"statically indeterminate to degree {stab.self_stress}: "
-                    "claims are compared with the elastic (direct stiffness) solution for the given EA"
+                    "claims are compared with the elastic (direct stiffness) solution for the "
+                    "given EA"
                     + (
                         " — equal EA was ASSUMED for every member"
                         if getattr(analysis.elastic, "equal_EA_assumed", False)
@@ -374,9 +382,9 @@ def _structure(c: Comparison) -> None:
             Finding(
                 "ill-conditioned",
                 (),
-                f"the method of joints, the section cuts and the global solve disagree by "
-                f"{analysis.route_disagreement:.2e} of the largest force (more than round-off, {ROUTE_RTOL:g}): "
-                "suspect a nearly unstable geometry or a modelling problem",
+                "the method of joints, the section cuts and the global solve disagree by "
+                f"{analysis.route_disagreement:.2e} of the largest force (more than round-off, "
+                f"{ROUTE_RTOL:g}): suspect a nearly unstable geometry or a modelling problem",
                 Severity.INFO,
             )
         )
@@ -433,7 +441,8 @@ def _units(c: Comparison) -> None:
     tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
         notes.append(
-            f"--unit {option_unit.symbol} was given, but the table states {', '.join(sorted(stated_units))} in its "
+            f"--unit {option_unit.symbol} was given, but the table states "
+            f"{', '.join(sorted(stated_units))} in its "
             "headers or cells; the table's own units were used"
         )
     unit_stated = bool(stated_units) or option_unit is not None
@@ -570,8 +579,9 @@ def _case_mismatch(c: Comparison) -> None:
                         Finding(
                             "case-mismatch",
                             (),
-                            f"claims column '{column}' names no load case or combination of the model; "
-                            f"its values fit '{top}' ({scores[top]:.0%} of members agree), so it is compared with '{top}'",
+                            f"claims column '{column}' names no load case or combination of the "
+                            f"model; its values fit '{top}' ({scores[top]:.0%} of members agree), "
+                            f"so it is compared with '{top}'",
                             Severity.INFO,
                             case=top,
                             locations=_column_where(claims, column),
@@ -584,7 +594,8 @@ def _case_mismatch(c: Comparison) -> None:
                             "likely-cause",
                             (),
                             f"claims column '{column}' is labelled as '{named}' but fits '{top}' "
-                            f"({scores[top]:.0%} of members agree, against {named_score:.0%} for '{named}'); compared with '{top}'",
+                            f"({scores[top]:.0%} of members agree, against {named_score:.0%} for "
+                            f"'{named}'); compared with '{top}'",
                             Severity.ERROR,
                             case=top,
                             locations=_column_where(claims, column),
@@ -689,14 +700,17 @@ def _column_readings(c: Comparison) -> None:
                             (),
                             f"claims column '{column}' reads {reading}, and {told}: "
                             f"{best.agree} of {best.informative} members agree when it is read so "
-                            f"({identity.agree} as written). The table mixes scales: confirm the column's unit",
+                            f"({identity.agree} as written). The table mixes scales: confirm the "
+                            "column's unit",
                             Severity.ERROR,
                             case=mapping.get(column),
                             locations=_column_where(claims, column),
                         )
                     )
                 if rel_sign == -1 and _reversed_load_case(c, column):
-                    continue  # the case's loads reversed (its combinations show it): a likely cause, not a convention
+                    # the case's loads reversed (its combinations show it): a likely cause, not a
+                    # convention
+                    continue
                 if rel_sign == -1:
                     flipped = in_column & ~fixed_all & is_member_claim
                     conv[flipped] *= -1.0  # T/C marks and reactions keep their own sign
@@ -705,11 +719,11 @@ def _column_readings(c: Comparison) -> None:
                         Finding(
                             "table-sign-convention",
                             (),
-                            f"claims column '{column}' is written with the "
-                            "opposite sign convention to the rest of the table: "
-                            f"{best.agree} of {best.informative} members agree with every sign in it reversed "
-                            f"({identity.agree} as written); it is read reversed: confirm which convention "
-                            "each column uses",
+                            f"claims column '{column}' is written with the opposite sign "
+                            f"convention to the rest of the table: {best.agree} of "
+                            f"{best.informative} members agree with every sign in it reversed "
+                            f"({identity.agree} as written); it is read reversed: confirm which "
+                            "convention each column uses",
                             Severity.ERROR,
                             case=mapping.get(column),
                             locations=_column_where(claims, column),
@@ -777,7 +791,10 @@ def _table_convention(c: Comparison) -> None:
             table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
-            support = f"{best.agree} of {n} non-zero claims on members that carry force agree when read this way ({identity.agree} as written)"
+            support = (
+                f"{best.agree} of {n} non-zero claims on members that carry force agree "
+                f"when read this way ({identity.agree} as written)"
+            )
             involved: tuple[str, ...] = ()  # the whole table: no member named
             severity = Severity.INFO if sign is SignMode.AUTO else Severity.ERROR
             if best.sign == -1 and not all_fixed:
@@ -791,8 +808,9 @@ def _table_convention(c: Comparison) -> None:
                         "table-sign-convention",
                         involved,
                         f"{told}, but the data show the opposite convention: "
-                        f"{'compression' if stated_sign == 1 else 'tension'} is written positive throughout "
-                        f"({best.agree} of {n} members agree when every sign is reversed, {identity.agree} as written)",
+                        f"{'compression' if stated_sign == 1 else 'tension'} is written positive "
+                        f"throughout ({best.agree} of {n} members agree when every sign is "
+                        f"reversed, {identity.agree} as written)",
                         severity,
                     )
                 )
@@ -807,8 +825,9 @@ def _table_convention(c: Comparison) -> None:
                     Finding(
                         "unit-scale",
                         (),
-                        f"{told}, but every value is off by a unit factor {named_factor(best.factor)}: "
-                        f"{best.agree} of {n} members agree once scaled ({identity.agree} as written)",
+                        f"{told}, but every value is off by a unit factor "
+                        f"{named_factor(best.factor)}: {best.agree} of {n} members agree once "
+                        f"scaled ({identity.agree} as written)",
                         sev,
                     )
                 )
@@ -1152,9 +1171,10 @@ def _unfilled_columns(c: Comparison) -> None:
             Finding(
                 "value-mismatch",
                 tuple(item[1].member for item in items),  # type: ignore[misc]
-                f"every member claim in '{name}' is 0, but the recomputed forces reach {fmt(largest)} "
-                f"{case_unit.symbol}: the column looks unfilled (a template, or a load case not yet "
-                f"calculated); its {len(items)} claim(s) on members that carry force are marked value-mismatch",
+                f"every member claim in '{name}' is 0, but the recomputed forces reach "
+                f"{fmt(largest)} {case_unit.symbol}: the column looks unfilled (a template, or a "
+                f"load case not yet calculated); its {len(items)} claim(s) on members that carry "
+                "force are marked value-mismatch",
                 Severity.ERROR,
                 case=name,
             )
@@ -1181,7 +1201,8 @@ def _shifted_and_swapped(c: Comparison) -> None:
     _apply_cause(c, explain_shifted_rows)
     for name, items in by_case.items():
         if indeterminate and analysis.assumed_EA is not None:
-            continue  # against an assumed EA the elastic forces are no evidence of which value is whose
+            # against an assumed EA the elastic forces are no evidence of which value is whose
+            continue
         # Candidates by sorting: only members whose recomputed force lies near a claim can have
         # swapped with it (n log n instead of every pair: a 600-error column took seconds).
         atol = tol.atol_fraction * scale_of.get(name, 0.0)
@@ -1254,7 +1275,8 @@ def _shifted_and_swapped(c: Comparison) -> None:
 
 def _swaps_across_columns(c: Comparison) -> None:
     findings = c.findings
-    # The same two rows swapped in several load columns: one finding for the pair, not one per column.
+    # The same two rows swapped in several load columns: one finding for the pair, not one per
+    # column.
     by_pair: dict[frozenset[str], list[Finding]] = {}
     for f in findings:
         if f.kind == "swapped-labels":
@@ -1269,9 +1291,9 @@ def _swaps_across_columns(c: Comparison) -> None:
             Finding(
                 "swapped-labels",
                 first.members,
-                f"the claims for {first.members[0]} and {first.members[1]} "
-                f"match each other's recomputed forces in {len(group)} load columns ({cases}): the two rows "
-                "look swapped",
+                f"the claims for {first.members[0]} and {first.members[1]} match each other's "
+                f"recomputed forces in {len(group)} load columns ({cases}): the two rows look "
+                "swapped",
                 Severity.ERROR,
                 locations=tuple(loc for f in group for loc in f.locations),
             )
@@ -1296,7 +1318,9 @@ def _combination_factor(c: Comparison) -> None:
         combinations = {combo.name for combo in model.combinations}
         for name, items in by_case.items():
             if name not in combinations:
-                continue  # a load case's own column follows a multiple of itself (a likely cause), never a mix
+                # a load case's own column follows a multiple of itself (a likely cause), never a
+                # mix
+                continue
             pending = [item for item in items if item[0] not in explained]
             failing = {
                 model.member_index[item[1].member] for item in pending if item[1].member is not None
@@ -1309,7 +1333,8 @@ def _combination_factor(c: Comparison) -> None:
             fitted, defined, agree, n, follows = fit
             covered = [item for item in pending if model.member_index[item[1].member] in follows]
             if len(covered) < CAUSE_MIN_EXPLAINED or len(covered) < CAUSE_MAJORITY * len(pending):
-                continue  # a cause must explain a clear majority of the column's differences, never a few
+                # a cause must explain a clear majority of the column's differences, never a few
+                continue
             explained.update(item[0] for item in covered)
             what = (
                 f"not {defined} as the case file combines '{name}': a different combination factor?"
@@ -1321,8 +1346,9 @@ def _combination_factor(c: Comparison) -> None:
                 Finding(
                     "likely-cause",
                     tuple(item[1].member for item in covered),
-                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree with "
-                    f"it), {what} Its {len(covered)} claim(s) that follow it are marked likely-cause",
+                    f"the claims in '{name}' follow {fitted} ({agree} of {n} claimed members agree "
+                    f"with it), {what} Its {len(covered)} claim(s) that follow it are marked "
+                    "likely-cause",
                     Severity.ERROR,
                     case=name,
                     variant=f"'{name}' as {fitted} instead of {defined}",
@@ -1434,7 +1460,8 @@ def _member_reasons(c: Comparison) -> None:
             "written": rows[r].written,
         }
         next_step = (
-            f"truss-verify solve {shlex.quote(c.model.source)} --show joints --case {shlex.quote(name)}"
+            f"truss-verify solve {shlex.quote(c.model.source)} --show joints --case "
+            f"{shlex.quote(name)}"
             if c.model.source
             else None
         )
@@ -1509,7 +1536,8 @@ def _member_reasons(c: Comparison) -> None:
                 worded(
                     "value-mismatch",
                     **common,
-                    difference=f"{'+' if value >= computed else '-'}{fmt(abs(value - computed))} {unit}",
+                    difference=f"{'+' if value >= computed else '-'}{fmt(abs(value - computed))} "
+                    f"{unit}",
                     percent=f"{pct:.1f}",
                     allowed=f"{fmt(allowed, 3)} {unit}",
                 ),
@@ -1639,22 +1667,24 @@ def _balance(c: Comparison) -> None:
         off = sum(1 for b in imbalances if b.case == name)
         if count == 0:
             notes.append(
-                f"equilibrium of the claims in '{name}': no joint has a claim for every member meeting there, "
-                "so the claims cannot be checked on their own"
+                f"equilibrium of the claims in '{name}': no joint has a claim for every member "
+                "meeting there, so the claims cannot be checked on their own"
             )
         elif off == 0:
             notes.append(
-                f"equilibrium of the claims in '{name}': they balance at all {count} joints where every member has a claim"
+                f"equilibrium of the claims in '{name}': they balance at all {count} joints "
+                "where every member has a claim"
             )
         else:
             worst = sorted((b for b in imbalances if b.case == name), key=lambda b: -b.size)[:8]
             joints = ", ".join(f"{b.joint} ({fmt(b.size, 3)} {case_unit.symbol})" for b in worst)
             notes.append(
-                f"equilibrium of the claims in '{name}': out of balance at {off} of {count} checkable joints: "
-                f"{joints}{' ...' if off > len(worst) else ''}"
+                f"equilibrium of the claims in '{name}': out of balance at {off} of {count} "
+                f"checkable joints: {joints}{' ...' if off > len(worst) else ''}"
             )
     if imbalances:
-        # An imbalance is explained by a finding on one of its members or on a reaction at its joint.
+        # An imbalance is explained by a finding on one of its members or on a reaction at its
+        # joint.
         reaction_labels: dict[str, set[str]] = {}
         for component in model.reactions:
             reaction_labels.setdefault(component.joint, set()).add(component.label)
@@ -1669,7 +1699,8 @@ def _balance(c: Comparison) -> None:
             listed = unexplained or list(imbalances)
             worst = sorted(listed, key=lambda b: -b.size)[:8]
             text = "; ".join(
-                f"joint {b.joint} in '{b.case}' is out of balance by {fmt(b.size, 3)} {case_unit.symbol}"
+                f"joint {b.joint} in '{b.case}' is out of balance by {fmt(b.size, 3)} "
+                f"{case_unit.symbol}"
                 for b in worst
             )
             findings.append(
@@ -2096,9 +2127,9 @@ def _explain_indeterminate(
                 Finding(
                     "equilibrium-residual",
                     tuple(sorted({m for b in unbalanced for m in b.members}))[:40],
-                    f"in '{name}' the claimed forces do not balance at joint(s) {where} "
-                    f"(largest out-of-balance {fmt(max(b.size for b in unbalanced), 3)} {unit}); this is an error whatever "
-                    "the member stiffnesses",
+                    f"in '{name}' the claimed forces do not balance at joint(s) {where} (largest "
+                    f"out-of-balance {fmt(max(b.size for b in unbalanced), 3)} {unit}); this is an "
+                    "error whatever the member stiffnesses",
                     Severity.ERROR,
                     case=name,
                 )
@@ -2111,24 +2142,28 @@ def _explain_indeterminate(
             status, kind = "value-mismatch", "value-mismatch"
             if len(blamed) == 1:
                 text = (
-                    f"{mid} in '{name}': claimed {fmt(claim)} {unit}; equilibrium of its joints needs about {fmt(needed)} "
-                    f"(all other claims kept)"
+                    f"{mid} in '{name}': claimed {fmt(claim)} {unit}; equilibrium of its joints "
+                    f"needs about {fmt(needed)} (all other claims kept)"
                 )
             else:
                 # Several members changed together: one way to restore balance, found greedily;
                 # a self-stress can trade between them, so it is a lead, not a verdict.
                 others = ", ".join(x for x in blamed if x != mid)
                 text = (
-                    f"{mid} in '{name}': claimed {fmt(claim)} {unit}; no single member explains the imbalance, and one "
-                    f"combination that removes most of it sets {mid} to about {fmt(needed)} together with {others} "
-                    "(other combinations may balance as well: check these claims first)"
+                    f"{mid} in '{name}': claimed {fmt(claim)} {unit}; no single member explains "
+                    f"the imbalance, and one combination that removes most of it sets {mid} to "
+                    f"about {fmt(needed)} together with {others} (other combinations may balance "
+                    "as well: check these claims first)"
                 )
             if abs(claim + needed) <= tol.rtol * abs(claim) + 1e-12:
                 status = kind = "sign-flip"
                 text += ": the sign is reversed"
             elif needed and matching_factor(claim / needed, tol.rtol) is not None:
                 status = kind = "unit-scale"
-                text += f": off by a unit factor {describe_factor(matching_factor(claim / needed, tol.rtol) or 1.0)}"
+                text += (
+                    ": off by a unit factor "
+                    f"{describe_factor(matching_factor(claim / needed, tol.rtol) or 1.0)}"
+                )
             if index is not None:
                 rows[index] = _with_status(rows[index], status)
             out.append(Finding(kind, (mid,), text, Severity.ERROR, case=name))
@@ -2140,7 +2175,8 @@ def _explain_indeterminate(
             members = tuple(v.member for _, v in rest if v.member)
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]
             caveat = (
-                f" ({len(unchecked)} member(s) without a claim: joints they meet could not be checked)"
+                f" ({len(unchecked)} member(s) without a claim: joints they meet could not be "
+                "checked)"
                 if unchecked
                 else ""
             )
@@ -2165,8 +2201,8 @@ def _explain_indeterminate(
                     "stiffness-dependent",
                     members,
                     f"in '{name}' {len(rest)} claim(s) differ from the elastic solution "
-                    f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a state of self-stress: "
-                    f"the claims satisfy equilibrium, {meaning}{caveat}",
+                    f"{solution}(up to {fmt(size, 3)} {unit}); {rest_text}the difference is a "
+                    f"state of self-stress: the claims satisfy equilibrium, {meaning}{caveat}",
                     Severity.INFO if assumed else Severity.ERROR,
                     case=name,
                 )

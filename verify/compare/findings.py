@@ -157,14 +157,14 @@ class Finding:
 # The wording of the findings about one member's claim, in one table: the fields are filled in
 # by `worded`; numbers arrive formatted, each with its unit.
 TEMPLATES: dict[str, str] = {
-    "zero-force-claimed": "{member} in '{case}': claimed {claimed}, but it is a zero-force member under this loading "
-    "[written {written}]",
-    "sign-flip": "{member} in '{case}': claimed {claimed} but recomputed {recomputed} ({sense}): {how} is reversed "
-    "[written {written}]",
-    "unit-scale": "{member} in '{case}': claimed {claimed}, recomputed {recomputed}; the ratio {ratio} is a unit factor "
-    "{factor}{reversed} [written {written}]",
-    "value-mismatch": "{member} in '{case}': claimed {claimed}, recomputed {recomputed} (difference {difference}, "
-    "{percent} %; allowed {allowed}) [written {written}]",
+    "zero-force-claimed": "{member} in '{case}': claimed {claimed}, but it is a zero-force member "
+    "under this loading [written {written}]",
+    "sign-flip": "{member} in '{case}': claimed {claimed} but recomputed {recomputed} ({sense}): "
+    "{how} is reversed [written {written}]",
+    "unit-scale": "{member} in '{case}': claimed {claimed}, recomputed {recomputed}; the ratio "
+    "{ratio} is a unit factor {factor}{reversed} [written {written}]",
+    "value-mismatch": "{member} in '{case}': claimed {claimed}, recomputed {recomputed} "
+    "(difference {difference}, {percent} %; allowed {allowed}) [written {written}]",
 }
 
 
@@ -174,8 +174,8 @@ def worded(kind: str, **fields: object) -> str:
 
 
 def ordered(findings: list[Finding]) -> list[Finding]:
-    """Most serious first: cannot-verify, errors, then information; within a level by kind, then by how
-    many claims a finding explains."""
+    """Most serious first: cannot-verify, errors, then information; within a level by kind, then
+    by how many claims a finding explains."""
     level = {Severity.CANNOT_VERIFY: 0, Severity.ERROR: 1, Severity.INFO: 2}
     # Within a kind, the finding that explains most claims first (causes: the biggest first).
     return sorted(

@@ -126,8 +126,8 @@ def parse_force_cell(text: str, *, decimal_comma: bool = False) -> tuple[float, 
     if letter == "T":
         if number < 0:
             raise ValueError(
-                f"force '{quoted(original)}' is negative but marked T (tension); write the magnitude with T, "
-                "or a signed number without T/C"
+                f"force '{quoted(original)}' is negative but marked T (tension); write the "
+                "magnitude with T, or a signed number without T/C"
             )
         return abs(number), True, unit
     if letter == "C":
@@ -147,8 +147,8 @@ def read_force_cell(
         # Bounded before any pattern runs: the tail patterns below would otherwise be tried at
         # every position of an 80 KB cell.
         raise ValueError(
-            f"force '{quoted(original)}' is {len(original):,} characters long (limit {MAX_FORCE_CHARS}); "
-            "a force cell holds a number with an optional unit and T/C letter"
+            f"force '{quoted(original)}' is {len(original):,} characters long (limit "
+            f"{MAX_FORCE_CHARS}); a force cell holds a number with an optional unit and T/C letter"
         )
     number = plain_number(original, decimal_comma=decimal_comma)
     if number is not None:
@@ -179,7 +179,8 @@ def read_force_cell(
                 letter = low.group("letter")
                 raise ValueError(
                     f"{_expectation(original)}: write '{letter.upper()}' for "
-                    f"{'tension' if letter == 't' else 'compression'} (a lower-case '{letter}' may be read as a unit)"
+                    f"{'tension' if letter == 't' else 'compression'} (a lower-case '{letter}' "
+                    "may be read as a unit)"
                 )
             m = _UNIT_TAIL.search(s)
             if m and m.start() > 0:
@@ -240,8 +241,9 @@ def _parse_magnitude(s: str, *, decimal_comma: bool, original: str) -> float:
         if m:
             if decimal_comma and sep == "." and m.group(2) is None and m.group(1).count(".") == 1:
                 raise ValueError(
-                    f"force '{quoted(original)}' is ambiguous: in a table with decimal commas '.' groups "
-                    "thousands, but it may be a decimal point here; write it without grouping"
+                    f"force '{quoted(original)}' is ambiguous: in a table with decimal commas '.' "
+                    "groups thousands, but it may be a decimal point here; write it without "
+                    "grouping"
                 )
             whole = m.group(1).replace(sep, "")
             return float(f"{whole}.{m.group(2) or '0'}")

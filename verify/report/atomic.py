@@ -45,7 +45,8 @@ def write_atomic(
             )
         if not stat.S_ISREG(existing.st_mode):
             raise OutputError(
-                f"{target}: not a regular file (a device, pipe or socket); reports go to ordinary files only"
+                f"{target}: not a regular file (a device, pipe or socket); reports go to "
+                "ordinary files only"
             )
         for source in inputs:
             try:

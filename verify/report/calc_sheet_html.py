@@ -134,9 +134,9 @@ def free_body_svg(model: Model, sheet: CutSheet, sheet_id: str) -> str:
     frame = _frame_for(sheet)
     out: list[str] = []
     out.append(
-        f'<svg xmlns="http://www.w3.org/2000/svg" id="{_e(sheet_id)}" class="freebody" width="{_c(WIDTH)}" '
-        f'height="{_c(frame.height)}" viewBox="0 0 {_c(WIDTH)} {_c(frame.height)}" role="img" '
-        f'aria-label="Free body of the section through '
+        f'<svg xmlns="http://www.w3.org/2000/svg" id="{_e(sheet_id)}" class="freebody" '
+        f'width="{_c(WIDTH)}" height="{_c(frame.height)}" viewBox="0 0 {_c(WIDTH)} '
+        f'{_c(frame.height)}" role="img" aria-label="Free body of the section through '
         f'{_e(", ".join(c.member for c in sheet.cut_members))}">'
     )
     # members of the kept side
@@ -290,13 +290,15 @@ svg.freebody line.kept{stroke:#3A3A3A;stroke-width:1.6}
 svg.freebody line.far{stroke:#9a9a9a;stroke-width:1;stroke-dasharray:3 3}
 svg.freebody polyline.cut{fill:none;stroke:#1a1a1a;stroke-width:1.2;stroke-dasharray:8 4}
 svg.freebody line.cutmark{stroke:#1a1a1a;stroke-width:1.6}
-svg.freebody line.force,svg.freebody line.load,svg.freebody line.reaction{stroke:#1a1a1a;stroke-width:1.4}
+svg.freebody line.force,svg.freebody line.load,svg.freebody line.reaction{stroke:#1a1a1a;\
+stroke-width:1.4}
 svg.freebody line.reaction{stroke-dasharray:5 2}
 svg.freebody line.dim{stroke:#1a1a1a;stroke-width:.7}
 svg.freebody circle.joint,svg.freebody path.head{fill:#1a1a1a}
 svg.freebody circle.mpoint{fill:#fff;stroke:#1a1a1a;stroke-width:1.2}
 svg.freebody line.mpoint{stroke:#1a1a1a;stroke-width:1}
-svg.freebody text{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;fill:#1a1a1a;paint-order:stroke;stroke:#fff;stroke-width:3px}
+svg.freebody text{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;fill:#1a1a1a;\
+paint-order:stroke;stroke:#fff;stroke-width:3px}
 svg.freebody text.flabel,svg.freebody text.mlabel{font-weight:bold}
 .eq{margin:.5em 0 .8em}.eq .head{margin:.2em 0}.eq table{margin:.2em 0}
 .eq .sum{font-family:'DejaVu Serif',Georgia,serif;margin:.3em 0 .2em 1.2em}

@@ -61,8 +61,8 @@ def deflection_table(review: Review) -> Table | None:
         "claim as written",
     )
     intro = (
-        f"Joint displacements in {unit}, positive along the global axis named; computed by the direct "
-        "stiffness method and confirmed below by the unit-load method. " + ELASTIC_NOTE
+        f"Joint displacements in {unit}, positive along the global axis named; computed by the "
+        "direct stiffness method and confirmed below by the unit-load method. " + ELASTIC_NOTE
     )
     return Table("Deflection check", intro, header, tuple(cells), tuple(r.status for r in rows))
 
@@ -102,8 +102,9 @@ def unit_load_calcs(review: Review) -> list[UnitLoadCalc]:
         direction = "(" + ", ".join(fmt(c) for c in calc.direction) + ")"
         heading = f"Unit-load calc: joint {calc.joint} along {direction}, load column '{case}'"
         intro = (
-            f"1 × Δ = Σ n·N·L / (EA): N the real member forces ({fu}, tension positive), n the forces from a unit "
-            f"load at joint {calc.joint} along {direction} ({calc.unit_load_route})."
+            f"1 × Δ = Σ n·N·L / (EA): N the real member forces ({fu}, tension positive), n the "
+            f"forces from a unit load at joint {calc.joint} along {direction} "
+            f"({calc.unit_load_route})."
         )
         result = (
             f"Δ = Σ = {fmt(calc.deflection, 6)} {lu}"

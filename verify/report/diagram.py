@@ -68,7 +68,8 @@ STATUS_CATEGORY: dict[str, str] = {
     "agrees": "agrees",
     "value-mismatch": "discrepancy",
     "likely-cause": "discrepancy",
-    "tension-only": "agrees",  # statics of the truss without its slack diagonals: said as information
+    # statics of the truss without its slack diagonals: said as information
+    "tension-only": "agrees",
     "zero-force-claimed": "discrepancy",
     "stiffness-dependent": "discrepancy",
     "equilibrium-residual": "discrepancy",
@@ -149,7 +150,8 @@ def views_for(model: Model) -> list[_View]:
             up,
         ),
         _View(
-            f"Elevation (looking along {names[other]}: {names[across]} across, {names[vertical]} up)",
+            f"Elevation (looking along {names[other]}: {names[across]} across, {names[vertical]} "
+            "up)",
             (across, vertical),
         ),
     ]
@@ -166,7 +168,8 @@ def render_diagram(
     implied: np.ndarray | None = None,
     outline: bool = False,
 ) -> str:
-    """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain words.
+    """An HTML <figure> with one SVG per view and (unless `legend` is False) a legend in plain
+    words.
 
     `outline`: draw the truss's outline (the convex hull of its joints in each view), the
     supports and only the members with a finding, for trusses too large to draw member by member
@@ -264,8 +267,9 @@ def _svg(
     zero = ZERO_RTOL * (largest or 1.0)
 
     out = [
-        f'<svg xmlns="http://www.w3.org/2000/svg" role="img" width="{_n(width)}" height="{_n(height)}" '
-        f'viewBox="0 0 {_n(width)} {_n(height)}" style="max-width:100%;height:auto;{FONT}">'
+        f'<svg xmlns="http://www.w3.org/2000/svg" role="img" width="{_n(width)}" '
+        f'height="{_n(height)}" viewBox="0 0 {_n(width)} {_n(height)}" '
+        f'style="max-width:100%;height:auto;{FONT}">'
     ]
     out.append(f"<title>{escape(model.title or 'truss')} — {escape(view.name)}</title>")
     out.append(f'<rect x="0" y="0" width="{_n(width)}" height="{_n(height)}" fill="#ffffff"/>')
@@ -298,8 +302,9 @@ def _svg(
             f"; {statuses[member.id]}" if statuses and member.id in statuses else ""
         )
         lines.append(
-            f'<line x1="{_n(sx[a])}" y1="{_n(sy[a])}" x2="{_n(sx[b])}" y2="{_n(sy[b])}" stroke="{style.colour}" '
-            f'stroke-width="{width_px:g}"{dash_attr} stroke-linecap="round"><title>{escape(tooltip)}</title></line>'
+            f'<line x1="{_n(sx[a])}" y1="{_n(sy[a])}" x2="{_n(sx[b])}" y2="{_n(sy[b])}" '
+            f'stroke="{style.colour}" stroke-width="{width_px:g}"{dash_attr} '
+            f'stroke-linecap="round"><title>{escape(tooltip)}</title></line>'
         )
     out.append('<g class="members">' + "".join(lines) + "</g>")
 
@@ -329,7 +334,8 @@ def _svg(
         else range(len(model.joints))
     )
     joints = [
-        f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/>'
+        f'<circle cx="{_n(sx[j])}" cy="{_n(sy[j])}" r="3.5" fill="#ffffff" stroke="#1a1a1a" '
+        'stroke-width="1.5"/>'
         for j in shown_joints
     ]
     out.append('<g class="joints">' + "".join(joints) + "</g>")
@@ -444,9 +450,9 @@ def _markers(
             continue
         mx, my, _, _ = _midpoint_frame(model, sx, sy, i, CROSSING_AT if i in crossing else 0.5)
         out.append(
-            f'<circle cx="{_n(mx)}" cy="{_n(my)}" r="8.5" fill="#ffffff" stroke="{style.colour}" stroke-width="2"/>'
-            f'<text x="{_n(mx)}" y="{_n(my + 4.2)}" text-anchor="middle" font-size="12" font-weight="bold" '
-            f'fill="#1a1a1a">{escape(style.marker)}</text>'
+            f'<circle cx="{_n(mx)}" cy="{_n(my)}" r="8.5" fill="#ffffff" stroke="{style.colour}" '
+            f'stroke-width="2"/><text x="{_n(mx)}" y="{_n(my + 4.2)}" text-anchor="middle" '
+            f'font-size="12" font-weight="bold" fill="#1a1a1a">{escape(style.marker)}</text>'
         )
     return out
 
@@ -464,7 +470,8 @@ def _member_labels(
         x, y = mx + nx * offset, my + ny * offset + 4
         anchor = "middle" if abs(nx) < 0.5 else ("start" if nx > 0 else "end")
         out.append(
-            f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(member.id))}</text>'
+            f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" '
+            f"{_halo()}>{escape(_short(member.id))}</text>"
         )
     return out
 
@@ -507,7 +514,8 @@ def _joint_labels(
         x, y = sx[j] + ux * 14, sy[j] + uy * 14 + 4.5
         anchor = "middle" if abs(ux) < 0.4 else ("start" if ux > 0 else "end")
         out.append(
-            f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" {_halo()}>{escape(_short(joint.id))}</text>'
+            f'<text x="{_n(x)}" y="{_n(y)}" text-anchor="{anchor}" '
+            f"{_halo()}>{escape(_short(joint.id))}</text>"
         )
     return out
 
@@ -561,7 +569,8 @@ def _supports(
         p1 = (bx + px * half, by + py * half)
         p2 = (bx - px * half, by - py * half)
         out.append(
-            f'<polygon points="{_n(sx[j])},{_n(sy[j])} {_n(p1[0])},{_n(p1[1])} {_n(p2[0])},{_n(p2[1])}"/>'
+            f'<polygon points="{_n(sx[j])},{_n(sy[j])} {_n(p1[0])},{_n(p1[1])} '
+            f'{_n(p2[0])},{_n(p2[1])}"/>'
         )
         full = len(directions) >= model.dim
         gx, gy = bx - ux * (0.5 if full else 7.5), by - uy * (0.5 if full else 7.5)
@@ -572,7 +581,8 @@ def _supports(
         g1 = (gx + px * half * 1.4, gy + py * half * 1.4)
         g2 = (gx - px * half * 1.4, gy - py * half * 1.4)
         out.append(
-            f'<line x1="{_n(g1[0])}" y1="{_n(g1[1])}" x2="{_n(g2[0])}" y2="{_n(g2[1])}" stroke-width="2.5"/>'
+            f'<line x1="{_n(g1[0])}" y1="{_n(g1[1])}" x2="{_n(g2[0])}" y2="{_n(g2[1])}" '
+            'stroke-width="2.5"/>'
         )
     out.append("</g>")
     return out
@@ -638,8 +648,9 @@ def _loads(
         hx, hy = tx - ux * head, ty - uy * head
         px, py = -uy * head * 0.45, ux * head * 0.45
         out.append(
-            f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" stroke-width="2"{dash_attr}/>'
-            f'<polygon points="{_n(tx)},{_n(ty)} {_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>'
+            f'<line x1="{_n(tail_x)}" y1="{_n(tail_y)}" x2="{_n(hx)}" y2="{_n(hy)}" '
+            f'stroke-width="2"{dash_attr}/><polygon points="{_n(tx)},{_n(ty)} '
+            f'{_n(hx + px)},{_n(hy + py)} {_n(hx - px)},{_n(hy - py)}" stroke-width="1"/>'
         )
         ex, ey = label_x - sx[j], label_y - sy[j]
         el = math.hypot(ex, ey) or 1.0
@@ -651,7 +662,8 @@ def _loads(
             # the case's own load has its label at this tail already: set this one beside it
             lx, anchor = lx + 18, "start"
         out.append(
-            f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" {_halo()}>{escape(text)}</text>'
+            f'<text x="{_n(lx)}" y="{_n(ly)}" text-anchor="{anchor}" stroke="none" '
+            f"{_halo()}>{escape(text)}</text>"
         )
     out.append("</g>")
     return out
@@ -693,11 +705,13 @@ def _swatch(colour: str, width: float, dash: str = "", marker: str = "") -> str:
     if marker:
         mark = (
             f'<circle cx="28" cy="9" r="7.5" fill="#ffffff" stroke="{colour}" stroke-width="2"/>'
-            f'<text x="28" y="13" text-anchor="middle" font-size="11" font-weight="bold" fill="#1a1a1a">{escape(marker)}</text>'
+            '<text x="28" y="13" text-anchor="middle" font-size="11" font-weight="bold" '
+            f'fill="#1a1a1a">{escape(marker)}</text>'
         )
     return (
-        f'<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" style="{FONT}" aria-hidden="true">'
-        f'<line x1="3" y1="9" x2="53" y2="9" stroke="{colour}" stroke-width="{width:g}"{dash_attr} stroke-linecap="round"/>{mark}</svg>'
+        '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" '
+        f'style="{FONT}" aria-hidden="true"><line x1="3" y1="9" x2="53" y2="9" stroke="{colour}" '
+        f'stroke-width="{width:g}"{dash_attr} stroke-linecap="round"/>{mark}</svg>'
     )
 
 
@@ -730,28 +744,31 @@ def legend_html(
     rows.append(
         (
             "other",
-            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
-            '<polygon points="28,2 20,16 36,16" fill="#ffffff" stroke="#1a1a1a" stroke-width="1.5"/></svg>',
-            "support: the triangle's point is the joint; two small wheels under it mark a roller (one reaction direction)",
+            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" '
+            'aria-hidden="true"><polygon points="28,2 20,16 36,16" fill="#ffffff" stroke="#1a1a1a" '
+            'stroke-width="1.5"/></svg>',
+            "support: the triangle's point is the joint; two small wheels under it mark a roller "
+            "(one reaction direction)",
         )
     )
     rows.append(
         (
             "other",
-            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
-            '<line x1="4" y1="9" x2="44" y2="9" stroke="#5A3E99" stroke-width="2"/>'
-            '<polygon points="52,9 44,5.4 44,12.6" fill="#5A3E99"/></svg>',
+            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" '
+            'aria-hidden="true"><line x1="4" y1="9" x2="44" y2="9" stroke="#5A3E99" '
+            'stroke-width="2"/><polygon points="52,9 44,5.4 44,12.6" fill="#5A3E99"/></svg>',
             f"applied joint load of the load column drawn, with its size in {unit}",
         )
     )
     rows.append(
         (
             "load",
-            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" aria-hidden="true">'
-            '<line x1="4" y1="9" x2="44" y2="9" stroke="#D55E00" stroke-width="2" stroke-dasharray="5 3"/>'
-            '<polygon points="52,9 44,5.4 44,12.6" fill="#D55E00"/></svg>',
-            f"dashed orange arrow: the load the claimed forces balance at that joint, where it differs from the "
-            f"case's load (size in {unit})",
+            '<svg xmlns="http://www.w3.org/2000/svg" width="56" height="18" viewBox="0 0 56 18" '
+            'aria-hidden="true"><line x1="4" y1="9" x2="44" y2="9" stroke="#D55E00" '
+            'stroke-width="2" stroke-dasharray="5 3"/><polygon points="52,9 44,5.4 44,12.6" '
+            'fill="#D55E00"/></svg>',
+            "dashed orange arrow: the load the claimed forces balance at that joint, where it "
+            f"differs from the case's load (size in {unit})",
         )
     )
     cells = "".join(

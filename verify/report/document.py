@@ -186,7 +186,8 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ("Generated", f"{generated} by truss-verify {__version__}"),
         (
             "Units (case)",
-            f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces tension positive",
+            f"length {model.units.length.symbol}, force {model.units.force.symbol}; forces "
+            "tension positive",
         ),
         (
             "Claims read in",
@@ -199,13 +200,14 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         ),
         (
             "Tolerance",
-            f"agrees when |claimed − recomputed| ≤ the largest of {fmt_percent(t.rtol)} of the larger value, "
-            f"{fmt_ratio(t.atol_fraction)} × the largest recomputed force of the load column, and half a unit in the last "
-            "decimal the claim was written with",
+            f"agrees when |claimed − recomputed| ≤ the largest of {fmt_percent(t.rtol)} of the "
+            f"larger value, {fmt_ratio(t.atol_fraction)} × the largest recomputed force of the "
+            "load column, and half a unit in the last decimal the claim was written with",
         ),
         (
             "Structure",
-            f"{s.classification.value}, {d}D: {s.joints} joints, {s.members} members, {s.reactions} reaction components",
+            f"{s.classification.value}, {d}D: {s.joints} joints, {s.members} members, "
+            f"{s.reactions} reaction components",
         ),
         (
             "Maxwell's rule",
@@ -222,8 +224,8 @@ def header_facts(review: Review, generated: str) -> list[tuple[str, str]]:
         facts.append(
             (
                 "Conditioning",
-                f"σmin/σmax = {fmt_ratio(s.conditioning_ratio)}; scaled by the square of the extent ratio (model size over "
-                f"median member length, {fmt(s.extent_ratio, 3)}²) = "
+                f"σmin/σmax = {fmt_ratio(s.conditioning_ratio)}; scaled by the square of the "
+                f"extent ratio (model size over median member length, {fmt(s.extent_ratio, 3)}²) = "
                 f"{fmt_ratio(s.scaled_conditioning)}" + _conditioning_word(s),
             )
         )
@@ -281,8 +283,8 @@ def _routes(review: Review) -> str:
             else ""
         )
         return (
-            f"direct stiffness method{assumed}: statics alone do not fix the forces of an indeterminate truss. "
-            + ELASTIC_CAUTION
+            f"direct stiffness method{assumed}: statics alone do not fix the forces of an "
+            "indeterminate truss. " + ELASTIC_CAUTION
         )
     return ""
 
@@ -292,7 +294,8 @@ def notes(review: Review) -> list[str]:
     out = list(review.notes) + list(analysis.notes) + list(analysis.stability.notes)
     if analysis.joints is not None:
         out.extend(analysis.joints.notes)
-    # loads the case states as line loads, self-weight, angles or normals: the joint loads they became
+    # loads the case states as line loads, self-weight, angles or normals: the joint loads they
+    # became
     out.extend(f"load converted: {text}" for text in analysis.model.conversions)
     return list(dict.fromkeys(out))
 
@@ -330,7 +333,8 @@ def _load_label(review: Review, name: str) -> str:
 
 
 def member_tables(review: Review) -> list[Table]:
-    """Per load column: claimed and recomputed members, then reactions; recomputed only where unclaimed."""
+    """Per load column: claimed and recomputed members, then reactions; recomputed only where
+    unclaimed."""
     model = review.analysis.model
     unit = model.units.force.symbol
     recomputed_name = "global" if review.analysis.global_ is not None else "elastic"
@@ -407,7 +411,8 @@ def member_tables(review: Review) -> list[Table]:
         for i, member in enumerate(model.members[:MAX_TABLE_ROWS]):
             cells_list.append((member.id,) + _route_cells(review, i, k))
         note = (
-            f"{len(model.members) - MAX_TABLE_ROWS} further members are not listed; `truss-verify solve --json` gives them all."
+            f"{len(model.members) - MAX_TABLE_ROWS} further members are not listed; "
+            "`truss-verify solve --json` gives them all."
             if len(model.members) > MAX_TABLE_ROWS
             else ""
         )
@@ -507,7 +512,8 @@ def _member_cells(row: Row) -> tuple[str, ...]:
 
 
 def diagram_columns(review: Review) -> list[str]:
-    """Load columns to draw: those with problems first, then the other checked ones; at most MAX_DIAGRAMS."""
+    """Load columns to draw: those with problems first, then the other checked ones; at most
+    MAX_DIAGRAMS."""
     model = review.analysis.model
     checked = [n for n in model.load_names if n in review.checked_cases]
     if not checked:
@@ -614,22 +620,33 @@ def _generated(generated: str | None) -> str:
 
 # -- HTML ----------------------------------------------------------------------------------------
 CSS = """
-body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;background:#fff;margin:0 auto;max-width:1180px;padding:16px 24px;line-height:1.45;font-size:15px}
-h1{font-size:1.55em;margin:.2em 0}h2{font-size:1.25em;border-bottom:2px solid #1a1a1a;padding-bottom:2px;margin-top:1.6em}
+body{font-family:'DejaVu Sans',Verdana,Arial,sans-serif;color:#1a1a1a;background:#fff;\
+margin:0 auto;max-width:1180px;padding:16px 24px;line-height:1.45;font-size:15px}
+h1{font-size:1.55em;margin:.2em 0}h2{font-size:1.25em;border-bottom:2px solid #1a1a1a;\
+padding-bottom:2px;margin-top:1.6em}
 h3{font-size:1.05em;margin-top:1.2em}h4{font-size:1em;margin:1em 0 .3em}
-.verdict{font-size:1.3em;font-weight:bold;padding:8px 12px;border:3px solid #1a1a1a;display:inline-block;margin:.4em 0}
+.verdict{font-size:1.3em;font-weight:bold;padding:8px 12px;border:3px solid #1a1a1a;\
+display:inline-block;margin:.4em 0}
 .verdict.discrepancies{border-width:5px}.verdict.cannot-verify{border-style:dashed}
-table{border-collapse:collapse;margin:.4em 0 1em}td,th{border:1px solid #bbb;padding:3px 7px;vertical-align:top}
-th{background:#eee;text-align:left;white-space:nowrap}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+table{border-collapse:collapse;margin:.4em 0 1em}td,th{border:1px solid #bbb;padding:3px 7px;\
+vertical-align:top}
+th{background:#eee;text-align:left;white-space:nowrap}td.num{text-align:right;\
+font-variant-numeric:tabular-nums;white-space:nowrap}
 table.members td,table.calc td{white-space:nowrap}
-table.facts th{width:16em;white-space:normal}table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
-table.legend{border:none}table.legend td{border:none;padding:1px 6px}table.legend caption{text-align:left;font-weight:bold}
-figure.truss{margin:0}.view{margin:.6em 0}.view-name{font-weight:bold}figcaption{font-style:italic;margin:.2em 0}
-pre{background:#f6f6f6;border:1px solid #ddd;padding:8px;overflow-x:auto;font-size:.85em;line-height:1.35;white-space:pre-wrap}
+table.facts th{width:16em;white-space:normal}\
+table.inputs td.hash{font-family:'DejaVu Sans Mono',monospace;font-size:.85em;word-break:break-all}
+table.legend{border:none}table.legend td{border:none;padding:1px 6px}\
+table.legend caption{text-align:left;font-weight:bold}
+figure.truss{margin:0}.view{margin:.6em 0}.view-name{font-weight:bold}figcaption{font-style:italic;\
+margin:.2em 0}
+pre{background:#f6f6f6;border:1px solid #ddd;padding:8px;overflow-x:auto;font-size:.85em;\
+line-height:1.35;white-space:pre-wrap}
 .sev{font-weight:bold;font-size:.85em;margin-right:.4em;white-space:nowrap}
-.sev.error{text-transform:uppercase}.sev.cannot-verify{text-transform:uppercase;text-decoration:underline}
+.sev.error{text-transform:uppercase}.sev.cannot-verify{text-transform:uppercase;\
+text-decoration:underline}
 li.finding{margin:.35em 0}.caution{border:2px solid #1a1a1a;padding:8px 12px;background:#fafafa}
-td.st{white-space:nowrap}.mark{display:inline-block;min-width:1.3em;text-align:center;font-weight:bold;border-radius:50%;border:2px solid;margin-right:4px;background:#fff}
+td.st{white-space:nowrap}.mark{display:inline-block;min-width:1.3em;text-align:center;\
+font-weight:bold;border-radius:50%;border:2px solid;margin-right:4px;background:#fff}
 @media print{
 @page{margin:12mm}
 body{max-width:none;padding:0;font-size:9pt;line-height:1.3}
@@ -642,7 +659,10 @@ table.members,table.calc{font-size:8pt}td,th{padding:1px 4px}
 }
 """
 
-CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'; base-uri 'none'"
+CSP = (
+    "default-src 'none'; style-src 'unsafe-inline'; img-src data:; form-action 'none'; "
+    "base-uri 'none'"
+)
 
 
 def _e(text: object) -> str:
@@ -656,7 +676,8 @@ def _status_cell(status: str) -> str:
     if not style.marker:  # agreement: plain words, no colour, no mark
         return f'<td class="st">{_e(status)}</td>'
     return (
-        f'<td class="st flagged"><span class="mark" style="border-color:{style.colour}">{_e(style.marker)}</span>'
+        '<td class="st flagged"><span class="mark" '
+        f'style="border-color:{style.colour}">{_e(style.marker)}</span>'
         f"{_e(status)}</td>"
     )
 
@@ -763,9 +784,11 @@ def render_html(
     out.append('<section id="inputs"><h2>Input files</h2>')
     files = input_files(review, displacement_file)
     out.append(
-        '<table class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
+        "<table "
+        'class="inputs"><thead><tr><th>input</th><th>file</th><th>SHA-256</th></tr></thead><tbody>'
         + "".join(
-            f'<tr><td>{_e(f.role)}</td><td>{_e(f.path)}</td><td class="hash">{_e(f.sha256 or f.note)}</td></tr>'
+            f"<tr><td>{_e(f.role)}</td><td>{_e(f.path)}</td><td "
+            f'class="hash">{_e(f.sha256 or f.note)}</td></tr>'
             for f in files
         )
         + "</tbody></table>"
@@ -782,7 +805,8 @@ def render_html(
     loads_table = implied_table(review)
     if loads_table is not None:
         out.append(
-            f'<section id="implied-loads"><h2>{_e(loads_table.title)}</h2><p>{_e(loads_table.intro)}</p>'
+            "<section "
+            f'id="implied-loads"><h2>{_e(loads_table.title)}</h2><p>{_e(loads_table.intro)}</p>'
         )
         out.append(
             _html_table(loads_table.header, loads_table.rows, loads_table.statuses, css="members")
@@ -804,9 +828,9 @@ def render_html(
     sections, note = appendix(review)
     out.append('<section id="appendix" class="major"><h2>Appendix: hand calculation</h2>')
     out.append(
-        "<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the "
-        "equations and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the "
-        "member, tension positive.</p>"
+        "<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the "
+        "section cuts, with the equations and the values substituted. Σ sums the forces (F) or "
+        "moments (M) named; a member force N acts along the member, tension positive.</p>"
     )
     if note:
         out.append(f"<p><em>{_e(note)}</em></p>")
@@ -830,7 +854,8 @@ def _deflection_html(review: Review) -> list[str]:
     if table is None:
         return []
     out = [
-        f'<section id="deflections" class="major"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
+        '<section id="deflections" '
+        f'class="major"><h2>{_e(table.title)}</h2><p>{_e(table.intro)}</p>',
         _html_table(table.header, table.rows, table.statuses, css="members"),
     ]
     for calc in unit_load_calcs(review):
@@ -881,20 +906,23 @@ def diagrams_html(review: Review) -> list[str]:
     for name, statuses in drawn:
         forces = ref.member_forces[:, ref.column(name)] if ref is not None else None
         caption = (
-            f"{_load_label(review, name)}: members with a finding are coloured and marked; members whose claim "
-            "agrees are drawn plain; band width shows tension or compression of the recomputed force. "
-            + NOT_CAPACITY
+            f"{_load_label(review, name)}: members with a finding are coloured and marked; members "
+            "whose claim agrees are drawn plain; band width shows tension or compression of the "
+            "recomputed force. " + NOT_CAPACITY
             if statuses is not None
             else f"{_load_label(review, name)}: no claims checked. " + NOT_CAPACITY
         )
         if ref is None:
-            caption += " No force could be recomputed, so members are drawn without tension or compression."
+            caption += (
+                " No force could be recomputed, so members are drawn without tension or "
+                "compression."
+            )
         out.append(f"<h3>{_e(_load_label(review, name))}</h3>")
         implied = implied_vector(review, name)
         if implied is not None:
             caption += (
-                " Dashed orange arrows: the loads the claimed forces balance, at the joints where they differ "
-                "from the case's loads (solid arrows)."
+                " Dashed orange arrows: the loads the claimed forces balance, at the joints where "
+                "they differ from the case's loads (solid arrows)."
             )
         out.append(
             render_diagram(
@@ -912,7 +940,8 @@ def diagrams_html(review: Review) -> list[str]:
 
 
 def implied_vector(review: Review, name: str) -> np.ndarray | None:
-    """The loads the claims balance in load column `name`, at the joints where they differ (dofs)."""
+    """The loads the claims balance in load column `name`, at the joints where they differ
+    (dofs)."""
     if review.implied is None:
         return None
     model = review.analysis.model
@@ -944,9 +973,10 @@ def implied_table(review: Review, limit: int = 200) -> Table | None:
     ]
     undetermined = {n: k for n, k in implied.undetermined.items() if k}
     intro = (
-        f"Read backwards, joint equilibrium gives the external force the claimed forces balance at every joint "
-        f"where each member has a claim ({unit}, global axes). Listed: the joints where it differs from the case's "
-        "load. At a support, an unclaimed reaction takes up its own direction, so only the free directions tell."
+        "Read backwards, joint equilibrium gives the external force the claimed forces balance at "
+        f"every joint where each member has a claim ({unit}, global axes). Listed: the joints "
+        "where it differs from the case's load. At a support, an unclaimed reaction takes up its "
+        "own direction, so only the free directions tell."
     )
     if undetermined:
         intro += (
@@ -981,7 +1011,8 @@ _MD_SPECIAL = str.maketrans({c: "\\" + c for c in "\\`*_[]#|"})
 
 
 def _m(text: object) -> str:
-    """Markdown-safe text: HTML-escaped (no raw HTML passes) and the emphasis/table marks escaped."""
+    """Markdown-safe text: HTML-escaped (no raw HTML passes) and the emphasis/table marks
+    escaped."""
     return escape(str(text), quote=False).translate(_MD_SPECIAL).replace("\n", " ")
 
 
@@ -1060,8 +1091,8 @@ def render_markdown(
         "",
         "## Diagram",
         "",
-        "The truss diagram is drawn only in the HTML report (`truss-verify check CASE --claims FILE --report review.html`); "
-        "this Markdown version carries the rest of the content.",
+        "The truss diagram is drawn only in the HTML report (`truss-verify check CASE --claims "
+        "FILE --report review.html`); this Markdown version carries the rest of the content.",
         "",
     ]
     out += ["## Findings", ""]
@@ -1101,9 +1132,9 @@ def render_markdown(
         "",
         "## Appendix: hand calculation",
         "",
-        "Reactions, then the joint-by-joint sequence a hand calculation follows, then the section cuts, with the equations "
-        "and the values substituted. Σ sums the forces (F) or moments (M) named; a member force N acts along the member, "
-        "tension positive.",
+        "Reactions, then the joint-by-joint sequence a hand calculation follows, then the section "
+        "cuts, with the equations and the values substituted. Σ sums the forces (F) or moments (M) "
+        "named; a member force N acts along the member, tension positive.",
     ]
     if note:
         out += ["", f"*{_m(note)}*"]

@@ -1,4 +1,5 @@
-"""The hand-calc appendix of the review report: reactions, joint sequence, section cuts, exact values.
+"""The hand-calc appendix of the review report: reactions, joint sequence, section cuts, exact
+values.
 
 Renders records only: the cut sheets and the overall-equilibrium step come from the section
 route's `calc_sheets` (verify/analysis/cut_sheets.py), exact values from verify/analysis/exact.py.
@@ -104,7 +105,8 @@ def appendix_blocks(
         why = (
             "the truss is unstable, so no force can be recomputed"
             if not analysis.stability.is_stable
-            else "the truss is statically indeterminate: statics alone do not give the member forces"
+            else "the truss is statically indeterminate: statics alone do not give the member "
+            "forces"
             + (
                 "; they come from the direct stiffness method"
                 if analysis.elastic is not None

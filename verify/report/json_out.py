@@ -233,7 +233,8 @@ def value_units(model: Model) -> dict[str, str]:
         "forces": force,  # member forces, tension positive
         "reactions": force,
         "routes": force,
-        "members": force,  # claimed, joints, sections, global, elastic, difference (per row: "unit")
+        # claimed, joints, sections, global, elastic, difference (per row: "unit")
+        "members": force,
         "displacements": length,
         "implied_loads": force,
         "implied_load_table": force,
@@ -252,7 +253,8 @@ def stability_json(model: Model, analysis: Analysis) -> dict[str, Any]:
             "title": model.title,
             "file": model.source,
             "units": {"length": model.units.length.symbol, "force": model.units.force.symbol},
-            # loads stated as line loads, self-weight, angles or normals, and the joint loads they became
+            # loads stated as line loads, self-weight, angles or normals, and the joint loads they
+            # became
             "load_conversions": list(model.conversions),
         },
         "units": value_units(model),

@@ -14,11 +14,15 @@ MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --r
 def verdict_line(review: Review) -> str:
     errors = sum(1 for f in review.findings if f.severity is Severity.ERROR)
     model = review.analysis.model
-    checked = f"{review.checked_members} of {len(model.members)} members in {len(review.checked_cases)} of {len(model.load_names)} load cases/combinations checked"
+    checked = (
+        f"{review.checked_members} of {len(model.members)} members in "
+        f"{len(review.checked_cases)} of {len(model.load_names)} load cases/combinations "
+        "checked"
+    )
     if review.analysis.reference is None:
         checked = (
-            f"{review.checked_members} of {len(model.members)} members claimed; no forces recomputed, "
-            "so only the equilibrium of the claims was checked"
+            f"{review.checked_members} of {len(model.members)} members claimed; no forces "
+            "recomputed, so only the equilibrium of the claims was checked"
         )
     if review.analysis.assumed_EA is not None:
         checked += (
@@ -27,13 +31,22 @@ def verdict_line(review: Review) -> str:
     if review.verdict.value == "agrees":
         if any(f.kind == "stiffness-dependent" for f in review.findings):
             return (
-                f"AGREES — the claims balance at every joint that could be checked; where they differ from the "
-                f"elastic solution the difference is a state of self-stress ({checked})"
+                "AGREES — the claims balance at every joint that could be checked; where they "
+                "differ from the elastic solution the difference is a state of self-stress "
+                f"({checked})"
             )
         return f"AGREES — every claim checked agrees within tolerance ({checked})"
     if review.verdict.value == "discrepancies":
         return f"DISCREPANCIES — {errors} finding(s) need attention ({checked})"
-    return f"CANNOT VERIFY — {next((f.detail for f in review.findings if f.severity is Severity.CANNOT_VERIFY), 'see findings')}"
+    return (
+        "CANNOT VERIFY — "
+        f"""{
+            next(
+                (f.detail for f in review.findings if f.severity is Severity.CANNOT_VERIFY),
+                "see findings",
+            )
+        }"""
+    )
 
 
 def _row_cells(row: Row) -> list[str]:
@@ -85,7 +98,8 @@ def implied_lines(review: Review, limit: int = 40) -> list[str]:
     ]
     out = [
         "",
-        f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, global axes{told}):",
+        f"Loads the claimed forces balance, where they differ from the case's loads ({unit}, "
+        f"global axes{told}):",
         plain_table(
             ["joint", "load column"]
             + [f"{h} ({unit})" for h in ("case load", "claims balance", "difference")],
@@ -119,14 +133,16 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         f"Convention: {c.sign_words}; claims in {c.unit} ({source}{scaled}); evidence: {c.support}"
     )
     lines.append(
-        f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, {fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
+        f"Tolerance: {fmt_percent(review.tolerance.rtol)} relative, "
+        f"{fmt_ratio(review.tolerance.atol_fraction)} x largest force absolute, "
         "half a unit in the last written decimal"
         + "".join(f"; {w}" for w in review.tolerance.widened)
     )
     s = review.analysis.stability
     lines.append(
-        f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, {s.reactions} reactions, "
-        f"{s.mechanisms} mechanism(s), {s.self_stress} state(s) of self-stress"
+        f"Structure: {s.classification.value}, {s.dim}D, {s.joints} joints, {s.members} members, "
+        f"{s.reactions} reactions, {s.mechanisms} mechanism(s), {s.self_stress} state(s) of "
+        "self-stress"
     )
     lines.append("")
     if review.findings:
@@ -157,7 +173,8 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         bad = [r for r in shown if r.status != "agrees"]
         shown = (bad + [r for r in shown if r.status == "agrees"])[:MAX_ROWS]
         lines.append(
-            f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for everything), {model.units.force.symbol}, tension positive:"
+            f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for "
+            f"everything), {model.units.force.symbol}, tension positive:"
         )
     else:
         lines.append(f"Member table ({model.units.force.symbol}, tension positive):")

@@ -89,7 +89,8 @@ def render_csv(review: Review) -> str:
         writer.writerow(
             [
                 "note",
-                f"EQUAL EA ASSUMED for every member (--assume-equal-ea {fmt(review.analysis.assumed_EA, 6)}, in {unit}): "
+                "EQUAL EA ASSUMED for every member (--assume-equal-ea "
+                f"{fmt(review.analysis.assumed_EA, 6)}, in {unit}): "
                 "the elastic column depends on that assumption",
             ]
         )

@@ -23,22 +23,25 @@ AXIS_NAMES = ("x", "y", "z")
 def render_stability(model: Model, s: StabilityResult) -> str:
     d = model.dim
     lines = [
-        f"Truss: {model.title or model.source}  ({d}D, {s.joints} joints, {s.members} members, {s.reactions} reaction components)",
+        f"Truss: {model.title or model.source}  ({d}D, {s.joints} joints, {s.members} members, "
+        f"{s.reactions} reaction components)",
         f"Maxwell's rule: b + r - {d}j = {s.members} + {s.reactions} - {d}x{s.joints} = {s.maxwell}"
         + ("  (too few members or supports)" if s.maxwell < 0 else ""),
-        f"Equilibrium matrix ({method_phrase(s.method)}): rank {s.rank} of {d * s.joints} joint equations and {s.members + s.reactions} unknowns",
+        f"Equilibrium matrix ({method_phrase(s.method)}): rank {s.rank} of {d * s.joints} joint "
+        f"equations and {s.members + s.reactions} unknowns",
         f"  mechanisms: {s.mechanisms}{'' if s.exact_counts else ' (at least)'}"
         f"{f' ({s.rigid_body_mechanisms} rigid-body)' if s.rigid_body_mechanisms else ''}, "
         f"states of self-stress: {s.self_stress}",
     ]
     if s.conditioning_ratio is not None:
         lines.append(
-            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.conditioning_ratio)}; scaled by extent ratio^2 "
-            f"({fmt(s.extent_ratio, 3)}^2) = {fmt_ratio(s.scaled_conditioning)}"
+            f"  conditioning: sigma_min/sigma_max = {fmt_ratio(s.conditioning_ratio)}; scaled by "
+            f"extent ratio^2 ({fmt(s.extent_ratio, 3)}^2) = {fmt_ratio(s.scaled_conditioning)}"
             + (
                 "  NEAR-MECHANISM"
                 if s.ill_conditioned
-                else f"  (well conditioned; near-mechanism below {fmt_ratio(ILL_CONDITIONED_SCALED)})"
+                else "  (well conditioned; near-mechanism below "
+                f"{fmt_ratio(ILL_CONDITIONED_SCALED)})"
                 if s.is_stable
                 else ""
             )
@@ -49,7 +52,10 @@ def render_stability(model: Model, s: StabilityResult) -> str:
     if s.classification.value == "stable-indeterminate":
         verdict += f" (degree {s.self_stress})"
     elif s.classification.value == "unstable":
-        verdict += f" ({s.mechanisms}{'+' if not s.exact_counts else ''} mechanism{'s' if s.mechanisms != 1 else ''})"
+        verdict += (
+            f" ({s.mechanisms}{'+' if not s.exact_counts else ''} "
+            f"mechanism{'s' if s.mechanisms != 1 else ''})"
+        )
     lines.append(f"Verdict: {verdict}")
     for k, mode in enumerate(s.mechanism_modes, 1):
         moves = ", ".join(
@@ -58,7 +64,8 @@ def render_stability(model: Model, s: StabilityResult) -> str:
         )
         kind = "rigid-body" if mode.rigid_body else "internal"
         lines.append(
-            f"  mechanism {k} ({kind}): joints that move (direction): {moves}{' ...' if len(mode.joints) > 8 else ''}"
+            f"  mechanism {k} ({kind}): joints that move (direction): "
+            f"{moves}{' ...' if len(mode.joints) > 8 else ''}"
         )
     for k, state in enumerate(s.self_stress_modes, 1):
         carried = ", ".join(
@@ -66,7 +73,8 @@ def render_stability(model: Model, s: StabilityResult) -> str:
             for m, v in zip(state.members[:10], state.values[:10], strict=False)
         )
         lines.append(
-            f"  self-stress {k}: members that carry it (relative force): {carried}{' ...' if len(state.members) > 10 else ''}"
+            f"  self-stress {k}: members that carry it (relative force): "
+            f"{carried}{' ...' if len(state.members) > 10 else ''}"
         )
     lines.extend(f"  note: {n}" for n in s.notes)
     return "\n".join(lines)
@@ -101,7 +109,8 @@ def force_table(model: Model, analysis: Analysis, load_name: str, *, all_rows: b
         ]
         shown = sorted(int(i) for i in order)
         note = (
-            f"\n({len(model.members) - MAX_TEXT_MEMBERS} members with smaller forces are not listed; "
+            f"\n({len(model.members) - MAX_TEXT_MEMBERS} members with smaller forces are not "
+            "listed; "
             "--all-rows lists every member, --json gives every value)"
         )
     for i in shown:
@@ -165,7 +174,8 @@ def render_solution(
             parts.append(f"  ... and {len(sections.unreached) - 20} more")
     if analysis.joints is not None:
         parts.append(
-            f"Method of joints, section cuts and global solve {roundoff_text(analysis.route_disagreement)}"
+            "Method of joints, section cuts and global solve "
+            f"{roundoff_text(analysis.route_disagreement)}"
             + (" (BEYOND round-off: check geometry)" if analysis.route_disagreement > 1e-6 else "")
         )
     parts.extend(f"note: {n}" for n in analysis.notes)
@@ -175,7 +185,8 @@ def render_solution(
         if getattr(elastic, "equal_EA_assumed", False):
             parts.insert(
                 0,
-                "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution depends on that assumption.\n",
+                "EQUAL EA ASSUMED for every member (--assume-equal-ea): the force distribution "
+                "depends on that assumption.\n",
             )
         parts.append(f"note: {ELASTIC_CAUTION}")
     if analysis.joints is not None:
@@ -208,7 +219,8 @@ def render_joint_calc(
     names = model.member_ids + [f"R_{r.label}" for r in model.reactions]
     unit = model.units.force.symbol
     out = [
-        f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums forces on the joint)"
+        f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums "
+        "forces on the joint)"
     ]
     solved: set[int] = set()
     # Members at each joint, built once (a scan of every member per step made large reports
@@ -220,7 +232,8 @@ def render_joint_calc(
     for n, step in enumerate(solution.steps, 1):
         if step.kind == "reactions":
             out.append(
-                f"\nStep {n}: reactions from overall equilibrium (moments about joint {solution.moment_joint})"
+                f"\nStep {n}: reactions from overall equilibrium (moments about joint "
+                f"{solution.moment_joint})"
             )
             if (
                 reactions is not None
@@ -231,15 +244,18 @@ def render_joint_calc(
                     terms = " ".join(_term(c, f"R_{label}") for label, c in row.coefficients)
                     sign = "+" if row.load_total >= 0 else "-"
                     out.append(
-                        f"  {row.title.split(' (')[0]}: {terms} {sign} {fmt(abs(row.load_total))} = 0"
+                        f"  {row.title.split(' (')[0]}: {terms} {sign} "
+                        f"{fmt(abs(row.load_total))} = 0"
                     )
             out.append("  => " + ", ".join(f"{names[c]} = {fmt(t[c])}" for c in step.unknowns))
             solved.update(step.unknowns)
             continue
         if step.kind == "simultaneous":
             out.append(
-                f"\nStep {n}: no joint with at most {d} unknowns remains; the remaining {len(step.unknowns)} forces at joints "
-                f"{', '.join(step.joints[:12])}{' ...' if len(step.joints) > 12 else ''} are solved simultaneously"
+                f"\nStep {n}: no joint with at most {d} unknowns remains; the remaining "
+                f"{len(step.unknowns)} forces at joints "
+                f"{', '.join(step.joints[:12])}{' ...' if len(step.joints) > 12 else ''} are "
+                "solved simultaneously"
             )
             out.append(
                 "  => "
@@ -256,8 +272,8 @@ def render_joint_calc(
         ]
         unknown_names = ", ".join(names[c] for c in step.unknowns)
         out.append(
-            f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} {unknown_names}"
-            + (" (the others here wait for later steps)" if step.partial else "")
+            f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} "
+            f"{unknown_names}" + (" (the others here wait for later steps)" if step.partial else "")
         )
         for axis in range(d):
             parts: list[str] = []
@@ -277,7 +293,8 @@ def render_joint_calc(
                     c in solved
                 ):  # a force found earlier: its name and value, so each term can be traced
                     parts.append(
-                        f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({names[c]} = {fmt(t[c])})"
+                        f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({names[c]} "
+                        f"= {fmt(t[c])})"
                     )
                 else:
                     parts.append(_term(coefficient, names[c]))
@@ -291,13 +308,15 @@ def render_joint_calc(
         )
         solved.update(step.unknowns)
     out.append(
-        f"\nCheck: largest out-of-balance force over all joint equations = {_residual(solution.max_residual, t, unit)}"
+        "\nCheck: largest out-of-balance force over all joint equations = "
+        f"{_residual(solution.max_residual, t, unit)}"
     )
     return "\n".join(out)
 
 
 def _residual(residual: float, forces: np.ndarray, unit: str) -> str:
-    """The out-of-balance check in words: round-off is said to be round-off, not printed as 3.0e-14."""
+    """The out-of-balance check in words: round-off is said to be round-off, not printed as
+    3.0e-14."""
     finite = forces[np.isfinite(forces)]
     largest = float(np.abs(finite).max(initial=0.0))
     if residual <= 1e-9 * (largest or 1.0):

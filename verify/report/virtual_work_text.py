@@ -53,7 +53,8 @@ def render_virtual_work(calc: VirtualWorkCalc, model: Model) -> str:
 
     out = [
         f"Unit-load (virtual work) deflection of joint '{calc.joint}' along {dir_text}",
-        "1 x Delta = sum n N L / (EA)   (N: real forces, n: forces from a unit load at the joint; tension +)",
+        "1 x Delta = sum n N L / (EA)   (N: real forces, n: forces from a unit load at the "
+        "joint; tension +)",
         f"unit-load forces n: {calc.unit_load_route}",
         "",
         line(header),

@@ -87,8 +87,8 @@ def read_claims(
     grids: list[Grid] = []
     if is_encrypted_workbook(data):
         problems.add(
-            "the workbook is encrypted (password-protected), so its cells cannot be read; remove the "
-            "password in the spreadsheet program and save a copy, or export the sheet to CSV"
+            "the workbook is encrypted (password-protected), so its cells cannot be read; remove "
+            "the password in the spreadsheet program and save a copy, or export the sheet to CSV"
         )
     elif data[:8] == OLE_MAGIC or suffix == ".xls":
         problems.add(

@@ -67,7 +67,8 @@ class LabelMatcher:
         self._pairs_made: dict[frozenset[str], str] | None = None  # made on first use (below)
         self._reactions = {(r.joint, r.axis) for r in model.reactions}
         # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
-        # there is matched, so that 0 agrees and anything else is said to have no reaction to act on.
+        # there is matched, so that 0 agrees and anything else is said to have no reaction to act
+        # on.
         inclined = {r.joint for r in model.reactions if r.axis == "n"}
         self._free_directions = {
             (r.joint, axis)

@@ -172,7 +172,8 @@ def decide_layout(
         found_r = _find_header_row(grid, options)
         if found_r is None:
             problems.add(
-                "the table is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member"
+                "the table is empty; expected a header row such as 'Member', 'dead (kN)' and one "
+                "row per member"
             )
             return empty
         header_r = found_r
@@ -221,7 +222,8 @@ def decide_layout(
             written = ", ".join(f"'{h.text}'" for h in headers if h.text) or "nothing"
             problems.add(
                 "no usable columns: no member column found; expected a header such as 'Member', "
-                f"'Element', 'Bar', 'Label' or 'ID' (or name the column with --member-column); the header row has {written}",
+                "'Element', 'Bar', 'Label' or 'ID' (or name the column with --member-column); "
+                f"the header row has {written}",
                 grid.where(header_r),
             )
         return empty
@@ -254,8 +256,8 @@ def decide_layout(
     fixed_case: str | None = None
     if case_h is not None and force_h is None:
         problems.add(
-            f"a load case column ('{case_h.text}') needs a force column beside it, e.g. 'Force (kN)'; "
-            "or give one column per load case instead",
+            f"a load case column ('{case_h.text}') needs a force column beside it, e.g. 'Force "
+            "(kN)'; or give one column per load case instead",
             grid.where(header_r),
         )
         return empty
@@ -288,8 +290,9 @@ def decide_layout(
                 # Named like a load case but not in a force unit: skipping it would pass its
                 # claims over in silence.
                 problems.add(
-                    f"column '{h.text}' is named like load case '{h.other_name}', but '{h.other_unit}' is not a "
-                    "force unit; give the forces in a force unit such as kN, N, kip or lbf",
+                    f"column '{h.text}' is named like load case '{h.other_name}', but "
+                    f"'{h.other_unit}' is not a force unit; give the forces in a force unit such "
+                    "as kN, N, kip or lbf",
                     grid.where(header_r, h.index),
                 )
             if h.index in taken or h.descriptive or not h.text:
@@ -309,7 +312,9 @@ def decide_layout(
             if not chosen:
                 cols = [v.case or "" for v in value_columns]
                 problems.add(
-                    f"no column for load case '{options.case}'; the table has {', '.join(repr(c) for c in cols) or 'none'}.{did_you_mean(options.case, cols)}",
+                    f"no column for load case '{options.case}'; the table has "
+                    f"{', '.join(repr(c) for c in cols) or 'none'}."
+                    f"{did_you_mean(options.case, cols)}",
                     grid.where(header_r),
                 )
                 return empty
@@ -321,9 +326,9 @@ def decide_layout(
                 if h.other_unit is not None and h.index not in taken
             ]
             problems.add(
-                f"no usable columns: besides the member column '{member_h.text}' there is no force column; "
-                "expected one column per load case (e.g. 'dead (kN)') or a force column with a case column"
-                + (f"; skipped {', '.join(skipped)}" if skipped else ""),
+                f"no usable columns: besides the member column '{member_h.text}' there is no force "
+                "column; expected one column per load case (e.g. 'dead (kN)') or a force column "
+                "with a case column" + (f"; skipped {', '.join(skipped)}" if skipped else ""),
                 grid.where(header_r),
             )
             return empty
@@ -333,7 +338,8 @@ def decide_layout(
             other = seen_names.get(v.case.casefold())
             if other is not None:
                 problems.add(
-                    f"load case '{v.case}' has two columns, '{other.header}' ({grid.where(header_r, other.index)}) and "
+                    f"load case '{v.case}' has two columns, '{other.header}' "
+                    f"({grid.where(header_r, other.index)}) and "
                     f"'{v.header}'; keep one column per load case",
                     grid.where(header_r, v.index),
                 )
@@ -363,7 +369,8 @@ def decide_layout(
 def _pair_tc_columns(
     columns: list[ValueColumn], tc_all: list[Header], grid: Grid, header_r: int, problems: Problems
 ) -> list[ValueColumn]:
-    """Each T/C column settles the signs of the force column on its left ('dead | T/C | snow | T/C')."""
+    """Each T/C column settles the signs of the force column on its left ('dead | T/C | snow |
+    T/C')."""
     out = list(columns)
     for tc in tc_all:
         left = [k for k, v in enumerate(out) if v.index < tc.index]
@@ -397,8 +404,9 @@ def _single_case(
         if len(names) == 1:
             return names[0]
         problems.add(
-            f"the table has one force column ('{force_h.text}') and no load case column; say which load case or "
-            f"combination it holds with --case NAME (the model has {', '.join(repr(n) for n in names)})",
+            f"the table has one force column ('{force_h.text}') and no load case column; say which "
+            "load case or combination it holds with --case NAME (the model has "
+            f"{', '.join(repr(n) for n in names)})",
             grid.where(header_r),
         )
         return None
@@ -417,7 +425,8 @@ def _single_case(
 def _apply_units_row(
     grid: Grid, start: int, member_index: int, columns: list[ValueColumn], problems: Problems
 ) -> int:
-    """Detect a row of units right under the header; record them on the columns. Returns the first data row."""
+    """Detect a row of units right under the header; record them on the columns. Returns the first
+    data row."""
     if start >= len(grid.rows):
         return start
     member_cell = grid.cell(start, member_index)
@@ -459,6 +468,7 @@ def _check_unheaded_data(
                 continue
             reported.add(c)
             problems.add(
-                f"column {c + 1} has values but no header; give it a load case name or remove it{hint}",
+                f"column {c + 1} has values but no header; give it a load case name or remove "
+                f"it{hint}",
                 grid.where(r, c),
             )

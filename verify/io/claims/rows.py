@@ -36,8 +36,8 @@ def refuse_name(text: str, what: str) -> str | None:
     control character would reach the terminal through every finding that quotes the label."""
     if len(text) > MAX_NAME_CHARS:
         return (
-            f"the {what} '{quoted(text)}' is {len(text):,} characters long (limit {MAX_NAME_CHARS}); "
-            "a label names one member or reaction"
+            f"the {what} '{quoted(text)}' is {len(text):,} characters long (limit "
+            f"{MAX_NAME_CHARS}); a label names one member or reaction"
         )
     if any(ch < " " or "\x7f" <= ch < "\xa0" for ch in text):
         return (
@@ -113,7 +113,8 @@ class RowReader:
         match = self.matcher.match(label)
         if match.kind == "unknown" and is_nan_text(label):
             self.problems.add(
-                f"the member label '{quoted(label)}' is a missing value or spreadsheet error, not a label",
+                f"the member label '{quoted(label)}' is a missing value or spreadsheet error, "
+                "not a label",
                 where_label,
             )
             return
@@ -212,7 +213,8 @@ class RowReader:
             return None
         if is_nan_text(name):
             self.problems.add(
-                f"the load case '{quoted(name)}' is a missing value or spreadsheet error, not a case name",
+                f"the load case '{quoted(name)}' is a missing value or spreadsheet error, not a "
+                "case name",
                 where,
             )
             return None
@@ -321,14 +323,16 @@ class RowReader:
                 continue
             if unit is not None and source_unit != unit:
                 self.problems.add(
-                    f"force '{quoted(cell_text(cell))}' is in {unit} but its column or row says {source_unit}",
+                    f"force '{quoted(cell_text(cell))}' is in {unit} but its column or row says "
+                    f"{source_unit}",
                     where,
                 )
                 return
             unit = source_unit
         if match.kind == "reaction" and sign_fixed:
             self.problems.add(
-                f"'{label}' is a reaction, which is neither tension nor compression; write a signed number",
+                f"'{label}' is a reaction, which is neither tension nor compression; write a "
+                "signed number",
                 where,
             )
             return
@@ -351,8 +355,9 @@ class RowReader:
             }.get(match.kind, f"label '{label}'")
             case_text = f" for '{case_name}'" if case_name else ""
             self.problems.add(
-                f"duplicate claim: {what}{case_text} is given twice, in {grid.row_ref(first_r)} (as '{first_label}') and "
-                f"{grid.row_ref(r)} (as '{label}'); keep one row per member and load case",
+                f"duplicate claim: {what}{case_text} is given twice, in {grid.row_ref(first_r)} "
+                f"(as '{first_label}') and {grid.row_ref(r)} (as '{label}'); keep one row per "
+                "member and load case",
                 where,
             )
             return
@@ -549,7 +554,8 @@ def read_rows(
     case_h = layout.case
     if reader.case_filter is not None and not reader.long_cases:
         problems.add(
-            f"no rows for load case '{layout.case_filter}'; the table has {', '.join(repr(c) for c in reader.all_cases)}."
+            f"no rows for load case '{layout.case_filter}'; the table has "
+            f"{', '.join(repr(c) for c in reader.all_cases)}."
             f"{did_you_mean(reader.case_filter, reader.all_cases)}",
             f"column '{case_h.text}'" if case_h is not None else None,
         )

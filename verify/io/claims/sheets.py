@@ -52,13 +52,13 @@ def choose_sheet(grids: list[Grid], matcher: LabelMatcher, problems: Problems) -
     listed = ", ".join(f"'{g.sheet}'" for g in (qualified or grids))
     if qualified:
         problems.add(
-            f"sheets {listed} each name members of the model beside numbers; say which holds the claimed "
-            "forces with --sheet NAME"
+            f"sheets {listed} each name members of the model beside numbers; say which holds the "
+            "claimed forces with --sheet NAME"
         )
     else:
         problems.add(
-            f"no sheet of the workbook ({listed}) names a member of the model beside a number; expected a "
-            "sheet with one row per member (labels such as the member ids or joint pairs 'B-C'), or name "
-            "the sheet with --sheet NAME"
+            f"no sheet of the workbook ({listed}) names a member of the model beside a number; "
+            "expected a sheet with one row per member (labels such as the member ids or joint "
+            "pairs 'B-C'), or name the sheet with --sheet NAME"
         )
     return None

@@ -35,7 +35,8 @@ def _decode(data: bytes, problems: Problems) -> str | None:
         return data.decode("cp1252")
     except UnicodeDecodeError as exc:
         problems.add(
-            f"the file is neither UTF-8 nor Windows-1252 text (byte {exc.start}); save it as CSV UTF-8"
+            f"the file is neither UTF-8 nor Windows-1252 text (byte {exc.start}); save it as CSV "
+            "UTF-8"
         )
         return None
 
@@ -71,7 +72,8 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         return None
     if not text.strip():
         problems.add(
-            "the file is empty; expected a header row such as 'Member,dead (kN)' and one row per member"
+            "the file is empty; expected a header row such as 'Member,dead (kN)' and one row per "
+            "member"
         )
         return None
     breaks = text.count("\n") or text.count("\r")  # CR-only files are read too

@@ -54,13 +54,15 @@ def parse_pages(text: str, count: int, problems: Problems) -> list[int] | None:
         last = int(found.group(2) or first)
         if not 1 <= first <= last <= count:
             problems.add(
-                f"--pages '{quoted(text)}': the PDF has pages 1-{count}; a range must lie within them, first page first"
+                f"--pages '{quoted(text)}': the PDF has pages 1-{count}; a range must lie within "
+                "them, first page first"
             )
             return None
         pages.extend(range(first, last + 1))
     if len(pages) > MAX_PAGES_SEARCHED:
         problems.add(
-            f"--pages '{quoted(text)}' names {len(pages):,} pages (limit {MAX_PAGES_SEARCHED}); name the pages of the table"
+            f"--pages '{quoted(text)}' names {len(pages):,} pages (limit {MAX_PAGES_SEARCHED}); "
+            "name the pages of the table"
         )
         return None
     return list(dict.fromkeys(pages))
@@ -69,7 +71,8 @@ def parse_pages(text: str, count: int, problems: Problems) -> list[int] | None:
 def read_pdf(data: bytes, pages: str | None, problems: Problems) -> list[Grid]:
     if len(data) > MAX_PDF_BYTES:
         problems.add(
-            f"the PDF is {len(data) / 1e6:,.0f} MB (limit {MAX_PDF_BYTES / 1e6:,.0f} MB); print the pages of the table to a new PDF"
+            f"the PDF is {len(data) / 1e6:,.0f} MB (limit {MAX_PDF_BYTES / 1e6:,.0f} MB); print "
+            "the pages of the table to a new PDF"
         )
         return []
     import pdfplumber  # deferred: CSV and workbook runs need not load it
@@ -78,7 +81,8 @@ def read_pdf(data: bytes, pages: str | None, problems: Problems) -> list[Grid]:
         document = pdfplumber.open(io.BytesIO(data))
     except Exception as exc:  # noqa: BLE001 -- a damaged PDF raises many kinds (PDFSyntaxError, KeyError ...); each becomes one message
         problems.add(
-            f"not a readable PDF ({type(exc).__name__}: {quoted(str(exc))}); print it to PDF again or export the table to CSV"
+            f"not a readable PDF ({type(exc).__name__}: {quoted(str(exc))}); print it to PDF "
+            "again or export the table to CSV"
         )
         return []
     with document:
@@ -89,7 +93,8 @@ def read_pdf(data: bytes, pages: str | None, problems: Problems) -> list[Grid]:
                 return []
         elif count > MAX_PAGES_SEARCHED:
             problems.add(
-                f"the PDF has {count:,} pages (limit {MAX_PAGES_SEARCHED} searched); name the pages of the table with --pages, e.g. --pages 12-14"
+                f"the PDF has {count:,} pages (limit {MAX_PAGES_SEARCHED} searched); name the "
+                "pages of the table with --pages, e.g. --pages 12-14"
             )
             return []
         else:
@@ -108,14 +113,16 @@ def _read_pages(document: object, wanted: list[int], problems: Problems) -> list
         try:
             if float(page.width) * float(page.height) > MAX_PAGE_AREA:
                 problems.add(
-                    f"page {number} is {float(page.width) / 72:,.0f} x {float(page.height) / 72:,.0f} inches "
+                    f"page {number} is {float(page.width) / 72:,.0f} x "
+                    f"{float(page.height) / 72:,.0f} inches "
                     "(limit 100 x 100); refused as a possible PDF bomb"
                 )
                 return []
             if len(page.chars) > MAX_PAGE_CHARS:
                 problems.add(
-                    f"page {number} holds {len(page.chars):,} characters (limit {MAX_PAGE_CHARS:,}); "
-                    "refused as a possible PDF bomb; name the pages of the table with --pages"
+                    f"page {number} holds {len(page.chars):,} characters (limit "
+                    f"{MAX_PAGE_CHARS:,}); refused as a possible PDF bomb; name the pages of the "
+                    "table with --pages"
                 )
                 return []
             if page.chars:
@@ -144,13 +151,15 @@ def _read_pages(document: object, wanted: list[int], problems: Problems) -> list
     if not any_text:
         shown = f"pages {wanted[0]}-{wanted[-1]}" if len(wanted) > 1 else f"page {wanted[0]}"
         problems.add(
-            f"the PDF holds no text on {shown} (a scanned image?); only PDFs printed from a program, with a "
-            "text layer, are read (no OCR): export the table to CSV or .xlsx instead"
+            f"the PDF holds no text on {shown} (a scanned image?); only PDFs printed from a "
+            "program, with a text layer, are read (no OCR): export the table to CSV or .xlsx "
+            "instead"
         )
         return []
     if not rows:
         problems.add(
-            "no table found on the pages searched; expected rows of member labels and forces under a header"
+            "no table found on the pages searched; expected rows of member labels and forces "
+            "under a header"
         )
         return []
     return [Grid(rows, numbers, None, decimal_comma=False, pages=page_of)]
@@ -370,8 +379,9 @@ def _cells(
     """A line's cells, and whether it holds a group heading. A phrase reaching over several
     columns that have headings of their own on the lines below (`below`), where no other phrase
     of its line stands, is a group heading ('Axial force (kN)' over 'dead' and 'snow'), kept
-    whole in its first column; otherwise it is a heading a little wide for its column. A phrase whose words, two spaces or more
-    apart, stand over different columns is two headings printed close together, parted."""
+    whole in its first column; otherwise it is a heading a little wide for its column. A phrase
+    whose words, two spaces or more apart, stand over different columns is two headings printed
+    close together, parted."""
     texts: list[list[str]] = [[] for _ in columns]
     group = False
     phrases = line.phrases

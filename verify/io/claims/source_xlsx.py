@@ -43,18 +43,21 @@ def _check_zip(data: bytes, problems: Problems) -> bool:
             infos = archive.infolist()
     except (zipfile.BadZipFile, ValueError, OSError) as exc:
         problems.add(
-            f"not a readable .xlsx workbook (the zip archive is damaged: {exc}); save it again or export CSV"
+            f"not a readable .xlsx workbook (the zip archive is damaged: {exc}); save it again "
+            "or export CSV"
         )
         return False
     if len(infos) > MAX_ZIP_MEMBERS:
         problems.add(
-            f"the workbook archive holds {len(infos)} parts (limit {MAX_ZIP_MEMBERS}); refused before parsing as a possible zip bomb"
+            f"the workbook archive holds {len(infos)} parts (limit {MAX_ZIP_MEMBERS}); refused "
+            "before parsing as a possible zip bomb"
         )
         return False
     total = sum(info.file_size for info in infos)
     if total > MAX_UNCOMPRESSED_BYTES:
         problems.add(
-            f"the workbook would expand to {total / 1e6:,.0f} MB (limit {MAX_UNCOMPRESSED_BYTES / 1e6:,.0f} MB); "
+            f"the workbook would expand to {total / 1e6:,.0f} MB (limit "
+            f"{MAX_UNCOMPRESSED_BYTES / 1e6:,.0f} MB); "
             "refused before parsing as a possible zip bomb; export the claims sheet to CSV"
         )
         return False
@@ -62,8 +65,9 @@ def _check_zip(data: bytes, problems: Problems) -> bool:
         ratio = info.file_size / max(info.compress_size, 1)
         if info.file_size > RATIO_CHECK_MIN_BYTES and ratio > MAX_COMPRESSION_RATIO:
             problems.add(
-                f"the workbook part '{info.filename}' expands {ratio:,.0f} times (limit {MAX_COMPRESSION_RATIO:,.0f}); "
-                "refused before parsing as a possible zip bomb; export the claims sheet to CSV"
+                f"the workbook part '{info.filename}' expands {ratio:,.0f} times (limit "
+                f"{MAX_COMPRESSION_RATIO:,.0f}); refused before parsing as a possible zip bomb; "
+                "export the claims sheet to CSV"
             )
             return False
     return True
@@ -77,13 +81,15 @@ def read_workbook(data: bytes, sheet: str | None, problems: Problems) -> list[Gr
     import openpyxl  # deferred: CSV-only runs need not load it
 
     with warnings.catch_warnings():
-        # openpyxl warns about unsupported extensions (data validation, styles); the library is silent.
+        # openpyxl warns about unsupported extensions (data validation, styles); the library is
+        # silent.
         warnings.simplefilter("ignore")
         try:
             return _read_sheets(openpyxl.load_workbook, data, sheet, problems)
         except Exception as exc:  # noqa: BLE001 -- a damaged workbook raises many kinds (KeyError, XML errors); each becomes one message
             problems.add(
-                f"cannot read the workbook ({type(exc).__name__}: {quoted(str(exc))}); save it again or export CSV"
+                f"cannot read the workbook ({type(exc).__name__}: {quoted(str(exc))}); save it "
+                "again or export CSV"
             )
             return []
 
@@ -145,7 +151,8 @@ def _read_sheets(
                 grids.append(Grid(rows, list(range(1, len(rows) + 1)), title, decimal_comma=False))
             elif sheet is not None or len(titles) == 1:
                 problems.add(
-                    f"sheet '{title}' is empty; expected a header row such as 'Member', 'dead (kN)' and one row per member"
+                    f"sheet '{title}' is empty; expected a header row such as 'Member', 'dead "
+                    "(kN)' and one row per member"
                 )
     finally:
         book.close()
@@ -210,21 +217,24 @@ def _column_number(letters: str) -> int:
 def _within_limits(title: str, extent: _Extent, problems: Problems) -> bool:
     if extent.columns > MAX_COLUMNS:
         problems.add(
-            f"sheet '{title}' holds a cell at {extent.far_cell}, beyond column {column_letter(MAX_COLUMNS - 1)} "
-            f"(limit {MAX_COLUMNS} columns); a claims table is narrower: delete the stray cells or copy the table to a new sheet"
+            f"sheet '{title}' holds a cell at {extent.far_cell}, beyond column "
+            f"{column_letter(MAX_COLUMNS - 1)} (limit {MAX_COLUMNS} columns); a claims table is "
+            "narrower: delete the stray cells or copy the table to a new sheet"
         )
         return False
     if extent.rows > MAX_ROWS:
         problems.add(
-            f"sheet '{title}' holds cells down to row {extent.rows:,} (limit {MAX_ROWS:,} rows); a claims table of "
-            "10^5 members fits well within it: delete the stray rows or copy the table to a new sheet"
+            f"sheet '{title}' holds cells down to row {extent.rows:,} (limit {MAX_ROWS:,} rows); a "
+            "claims table of 10^5 members fits well within it: delete the stray rows or copy the "
+            "table to a new sheet"
         )
         return False
     return True
 
 
 def _may_hold_formulas(data: bytes) -> bool:
-    """False only when no worksheet part has a formula element, so the formula pass can be skipped."""
+    """False only when no worksheet part has a formula element, so the formula pass can be
+    skipped."""
     with zipfile.ZipFile(io.BytesIO(data)) as archive:
         parts = [n for n in archive.namelist() if "worksheets/" in n and n.endswith(".xml")]
         if not parts:

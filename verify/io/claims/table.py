@@ -61,7 +61,10 @@ class Resolution:
 
     def describe(self) -> str:
         unit = f" {self.unit}" if self.unit else ""
-        return f"column '{self.column}' written to steps of {self.step:g}{unit}, so +-{self.step / 2:g}{unit} allowed"
+        return (
+            f"column '{self.column}' written to steps of {self.step:g}{unit}, so "
+            f"+-{self.step / 2:g}{unit} allowed"
+        )
 
 
 @dataclass(frozen=True)
