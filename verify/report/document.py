@@ -36,6 +36,7 @@ from verify.report.diagram import (
     worst_status,
 )
 from verify.report.handcalc_html import Block, appendix_blocks
+from verify.report.joint_calc import render_html as joint_calc_html
 from verify.report.names import method_phrase
 from verify.report.numbers import (
     difference_text,
@@ -719,7 +720,12 @@ def _html_blocks(model: Model, blocks: list[Block], level: int, prefix: str) -> 
             out.append(sheet_html(model, block.sheet, f"{prefix}-{n}"))
         elif block.kind == "reactions" and block.reactions is not None:
             out.append(reactions_html(model, block.reactions))
-        elif block.kind in ("pre", "reactions", "sheet"):
+        elif block.kind == "joints" and block.joints is not None:
+            text = block.text.split("\n\n… ", 1)  # a note of steps left out (large models)
+            out.append(joint_calc_html(block.joints))
+            if len(text) > 1:
+                out.append(f"<p>… {_e(text[1])}</p>")
+        elif block.kind in ("pre", "reactions", "sheet", "joints"):
             out.append(f"<pre>{_e(block.text)}</pre>")
         elif block.kind == "table":
             if block.text:
@@ -1142,7 +1148,7 @@ def render_markdown(
         out += ["", f"### {_m(label)}"]
         for block in blocks:
             out += ["", f"#### {_m(block.heading)}", ""]
-            if block.kind in ("pre", "sheet", "reactions"):
+            if block.kind in ("pre", "sheet", "reactions", "joints"):
                 out.append(_fence(block.text))
             elif block.kind == "table":
                 if block.text:

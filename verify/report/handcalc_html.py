@@ -15,6 +15,7 @@ from dataclasses import dataclass, replace
 from verify.analysis.cut_sheets import CutSheet, ReactionsSheet
 from verify.analysis.joints import JointSolution
 from verify.analysis.pipeline import Analysis
+from verify.report.joint_calc import JointCalc, joint_calc, render_text
 from verify.report.numbers import fmt
 
 
@@ -24,12 +25,13 @@ class Block:
     calc sheet (`sheet`: a section cut; `reactions`: the overall-equilibrium step)."""
 
     heading: str
-    kind: str  # "pre" | "table" | "para" | "sheet" | "reactions"
+    kind: str  # "pre" | "table" | "para" | "sheet" | "reactions" | "joints"
     text: str = ""
     header: tuple[str, ...] = ()
     rows: tuple[tuple[str, ...], ...] = ()
     sheet: CutSheet | None = None
     reactions: ReactionsSheet | None = None
+    joints: JointCalc | None = None  # the joint-by-joint records, set as equations in HTML
 
 
 # -- appendix blocks ------------------------------------------------------------------------------
@@ -52,7 +54,6 @@ def appendix_blocks(
     `members`: the members whose section cuts are shown (None: every cut); each free body once.
     """
     from verify.report.section_calc import render_reactions
-    from verify.report.text import render_joint_calc
 
     model = analysis.model
     unit = model.units.force.symbol
@@ -94,13 +95,14 @@ def appendix_blocks(
     # Joint by joint.
     if analysis.joints is not None:
         shown, cut = _truncate_steps(analysis.joints, max_steps)
-        text = render_joint_calc(model, shown, load_name, reactions=reactions_sheet)
+        calc = joint_calc(model, shown, load_name, reactions=reactions_sheet)
+        text = render_text(calc)
         if cut:
             text += (
                 f"\n\n… {cut} further step(s) are not shown in this report (large model); "
                 "`truss-verify solve --show joints` prints them all."
             )
-        blocks.append(Block("Method of joints", "pre", text))
+        blocks.append(Block("Method of joints", "joints", text, joints=calc))
     else:
         why = (
             "the truss is unstable, so no force can be recomputed"

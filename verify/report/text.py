@@ -10,6 +10,7 @@ from verify.analysis.joints import JointSolution
 from verify.analysis.pipeline import Analysis
 from verify.analysis.stability import ILL_CONDITIONED_SCALED, StabilityResult
 from verify.model import Model
+from verify.report import joint_calc
 from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.names import method_phrase
 from verify.report.numbers import fmt, fmt_ratio, load_title, plain_table, roundoff_text, tc
@@ -194,11 +195,6 @@ def render_solution(
     return "\n".join(parts)
 
 
-def _term(coefficient: float, name: str) -> str:
-    sign = "-" if coefficient < 0 else "+"
-    return f"{sign} {fmt(abs(coefficient), 4)}·{name}"
-
-
 def render_joint_calc(
     model: Model,
     solution: JointSolution,
@@ -206,119 +202,8 @@ def render_joint_calc(
     *,
     reactions: ReactionsSheet | None = None,
 ) -> str:
-    """The joint-by-joint hand calc for one load column, equations with values substituted.
-
-    `reactions`: the overall-equilibrium records (the section route's `calc_sheets`), whose
-    equations the first step prints; without them the step gives the reactions found.
-    """
-    d = model.dim
-    b = len(model.members)
-    k = solution.forces.column(load_name)
-    t = np.concatenate([solution.forces.member_forces[:, k], solution.forces.reactions[:, k]])
-    F = model.load_matrix()[:, k]
-    names = model.member_ids + [f"R_{r.label}" for r in model.reactions]
-    unit = model.units.force.symbol
-    out = [
-        f"Method of joints — {load_name} (forces in {unit}, tension positive; each equation sums "
-        "forces on the joint)"
-    ]
-    solved: set[int] = set()
-    # Members at each joint, built once (a scan of every member per step made large reports
-    # quadratic in the truss size).
-    at_joint: dict[int, list[int]] = {}
-    for i, (start, end) in enumerate(model.ends_index.tolist()):
-        at_joint.setdefault(start, []).append(i)
-        at_joint.setdefault(end, []).append(i)
-    for n, step in enumerate(solution.steps, 1):
-        if step.kind == "reactions":
-            out.append(
-                f"\nStep {n}: reactions from overall equilibrium (moments about joint "
-                f"{solution.moment_joint})"
-            )
-            if (
-                reactions is not None
-                and reactions.possible
-                and reactions.pivot == solution.moment_joint
-            ):
-                for row in reactions.rows:
-                    terms = " ".join(_term(c, f"R_{label}") for label, c in row.coefficients)
-                    sign = "+" if row.load_total >= 0 else "-"
-                    out.append(
-                        f"  {row.title.split(' (')[0]}: {terms} {sign} "
-                        f"{fmt(abs(row.load_total))} = 0"
-                    )
-            out.append("  => " + ", ".join(f"{names[c]} = {fmt(t[c])}" for c in step.unknowns))
-            solved.update(step.unknowns)
-            continue
-        if step.kind == "simultaneous":
-            out.append(
-                f"\nStep {n}: no joint with at most {d} unknowns remains; the remaining "
-                f"{len(step.unknowns)} forces at joints "
-                f"{', '.join(step.joints[:12])}{' ...' if len(step.joints) > 12 else ''} are "
-                "solved simultaneously"
-            )
-            out.append(
-                "  => "
-                + ", ".join(
-                    f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns[:40]
-                )
-            )
-            solved.update(step.unknowns)
-            continue
-        joint = step.joints[0]
-        j = model.joint_index[joint]
-        cols = at_joint.get(j, []) + [
-            b + i for i, r in enumerate(model.reactions) if r.joint == joint
-        ]
-        unknown_names = ", ".join(names[c] for c in step.unknowns)
-        out.append(
-            f"\nStep {n}: joint {joint} — unknown{'s' if len(step.unknowns) > 1 else ''} "
-            f"{unknown_names}" + (" (the others here wait for later steps)" if step.partial else "")
-        )
-        for axis in range(d):
-            parts: list[str] = []
-            for c in cols:
-                if c < b:
-                    u = (
-                        model.unit_vectors[c]
-                        if model.ends_index[c, 0] == j
-                        else -model.unit_vectors[c]
-                    )
-                    coefficient = float(u[axis])
-                else:
-                    coefficient = float(model.reactions[c - b].direction[axis])
-                if abs(coefficient) < 1e-12:
-                    continue
-                if (
-                    c in solved
-                ):  # a force found earlier: its name and value, so each term can be traced
-                    parts.append(
-                        f"{'-' if coefficient < 0 else '+'} {fmt(abs(coefficient))}·({names[c]} "
-                        f"= {fmt(t[c])})"
-                    )
-                else:
-                    parts.append(_term(coefficient, names[c]))
-            load = F[j * d + axis]
-            if abs(load) > 0:
-                parts.append(f"{'+' if load >= 0 else '-'} {fmt(abs(load))}")
-            out.append(f"  ΣF{AXIS_NAMES[axis]} = 0: {' '.join(parts) if parts else '0'} = 0")
-        out.append(
-            "  => "
-            + ", ".join(f"{names[c]} = {tc(t[c]) if c < b else fmt(t[c])}" for c in step.unknowns)
-        )
-        solved.update(step.unknowns)
-    out.append(
-        "\nCheck: largest out-of-balance force over all joint equations = "
-        f"{_residual(solution.max_residual, t, unit)}"
+    """The joint-by-joint hand calc for one load column, equations with values substituted
+    (records: verify/report/joint_calc.py)."""
+    return joint_calc.render_text(
+        joint_calc.joint_calc(model, solution, load_name, reactions=reactions)
     )
-    return "\n".join(out)
-
-
-def _residual(residual: float, forces: np.ndarray, unit: str) -> str:
-    """The out-of-balance check in words: round-off is said to be round-off, not printed as
-    3.0e-14."""
-    finite = forces[np.isfinite(forces)]
-    largest = float(np.abs(finite).max(initial=0.0))
-    if residual <= 1e-9 * (largest or 1.0):
-        return f"0 {unit} (round-off, below {fmt_ratio(1e-9 * (largest or 1.0))} {unit})"
-    return f"{fmt_ratio(residual)} {unit}"
