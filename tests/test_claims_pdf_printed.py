@@ -85,6 +85,14 @@ def printed(tmp_path_factory: pytest.TempPathFactory) -> Path:
         plain.column_dimensions[column].width = width
     plain["B1"].alignment = Alignment(horizontal="center")
 
+    mixed = book.create_sheet("Forces mixed")  # wide columns: text left, numbers right
+    mixed.append(["Member", "dead (kN)", "snow (kN)"])
+    for k, m in enumerate(_members(5)):
+        dead, snow = round(_force(m, DEAD), 2), round(_force(m, SNOW), 2)
+        mixed.append([m, f"{dead:.2f}" if k % 2 else dead, snow if k % 2 else f"{snow:.2f}"])
+    for column, width in zip("ABC", (10, 16, 16), strict=True):
+        mixed.column_dimensions[column].width = width
+
     book.save(folder / "forces.xlsx")
     subprocess.run(
         [
@@ -123,4 +131,12 @@ def test_printed_landscape_sheet_finds_the_one_planted_error_where_it_was_writte
 def test_printed_sheet_without_rules_and_forces_typed_as_text_agrees(printed: Path) -> None:
     table = read_claims(printed, MODEL, pages="3")
     assert table.columns == ("dead", "snow") and {v.unit for v in table.values} == {"kN"}
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def test_printed_column_of_text_and_numbers_aligned_apart_is_one_column(printed: Path) -> None:
+    """A spreadsheet prints text cells left and numbers right in one wide column: two clusters
+    of words that never share a row, read as the one column they are."""
+    table = read_claims(printed, MODEL, pages="4")
+    assert table.columns == ("dead", "snow") and len(table.values) == 10
     assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES

@@ -464,8 +464,32 @@ def _page_rows(page: Any) -> list[tuple[int, list[Cell]]]:
             cells, spans = _cells(lines[h], columns, frozenset(headed))
             (groups if spans else plain).insert(0, (lines[h].number, cells))
             headed.update(c for c, cell in enumerate(cells) if cell is not None)
-        rows.extend(groups)
+        table = list(groups)
         if plain:
-            rows.append((plain[-1][0], _stacked([cells for _, cells in plain])))
-        rows.extend((lines[k].number, _cells(lines[k], columns)[0]) for k in range(first, last + 1))
+            table.append((plain[-1][0], _stacked([cells for _, cells in plain])))
+        table.extend(
+            (lines[k].number, _cells(lines[k], columns)[0]) for k in range(first, last + 1)
+        )
+        rows.extend(_merged_alignments(table))
     return rows
+
+
+def _merged_alignments(rows: list[tuple[int, list[Cell]]]) -> list[tuple[int, list[Cell]]]:
+    """Columns that are one printed column: a spreadsheet prints text cells ('28.1 T') left and
+    numbers ('22.5') right in the same column, so their words stand in two clusters that never
+    share a row. A column is joined to the one on its left when no row, heading rows included,
+    has something in both."""
+    width = max((len(cells) for _, cells in rows), default=0)
+    keep = list(range(width))
+    merged = [list(cells) + [None] * (width - len(cells)) for _, cells in rows]
+    c = 1
+    while c < len(keep):
+        left, right = keep[c - 1], keep[c]
+        if all(row[left] is None or row[right] is None for row in merged):
+            for row in merged:
+                if row[left] is None:
+                    row[left] = row[right]
+            del keep[c]
+        else:
+            c += 1
+    return [(number, [row[k] for k in keep]) for (number, _), row in zip(rows, merged, strict=True)]
