@@ -21,7 +21,7 @@ from dataclasses import dataclass, field, replace
 from enum import StrEnum
 from functools import partial
 from types import SimpleNamespace
-from typing import Any, NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 import numpy as np
 
@@ -60,6 +60,9 @@ from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.io.claims.table import ClaimArrays
 from verify.model import Model
 from verify.units import Dimension, factor, lookup_unit
+
+if TYPE_CHECKING:  # displacements imports this module's Review
+    from verify.compare.displacements import DisplacementCheck
 
 
 class SignMode(StrEnum):
@@ -163,7 +166,7 @@ class Review:
     checked_members: int
     imbalances: tuple[JointImbalance, ...] = ()
     notes: tuple[str, ...] = field(default=())
-    displacements: object | None = None  # verify.compare.displacements.DisplacementCheck
+    displacements: DisplacementCheck | None = None
     implied: ImpliedLoads | None = None  # the loads the claims balance, where they differ
 
 
@@ -1170,7 +1173,7 @@ def _unfilled_columns(c: Comparison) -> None:
         findings.append(
             Finding(
                 "value-mismatch",
-                tuple(item[1].member for item in items),  # type: ignore[misc]
+                tuple(m for item in items if (m := item[1].member) is not None),
                 f"every member claim in '{name}' is 0, but the recomputed forces reach "
                 f"{fmt(largest)} {case_unit.symbol}: the column looks unfilled (a template, or a "
                 f"load case not yet calculated); its {len(items)} claim(s) on members that carry "

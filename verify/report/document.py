@@ -17,6 +17,7 @@ import math
 from dataclasses import dataclass
 from html import escape
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -447,11 +448,12 @@ def _cap(rows: list[Row]) -> tuple[list[Row], str]:
     )
 
 
-def _route_value(route: object | None, i: int, k: int) -> float | None:
+def _route_value(route: Any, i: int, k: int) -> float | None:
+    """A route's force: `route` is a ForceResult or a solution holding one as `.forces`."""
     if route is None:
         return None
-    forces = getattr(route, "forces", route)
-    value = float(forces.member_forces[i, k])  # type: ignore[attr-defined]
+    forces: Any = getattr(route, "forces", route)
+    value = float(forces.member_forces[i, k])
     return value if math.isfinite(value) else None
 
 

@@ -218,7 +218,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         lines.append(
             "Deflection by the unit-load (virtual work) method, 1 x delta = sum n N L / (EA):"
         )
-        for calc, case in zip(check.calcs, check.calc_cases, strict=True):  # type: ignore[attr-defined]
+        for calc, case in zip(check.calcs, check.calc_cases, strict=True):
             lines.append(f"\nLoad column '{case}':")
             lines.append(render_virtual_work(calc, model))
     if review.analysis.global_ is None and review.analysis.elastic is not None or displacement_rows:

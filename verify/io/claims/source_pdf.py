@@ -102,14 +102,15 @@ def read_pdf(data: bytes, pages: str | None, problems: Problems) -> list[Grid]:
         return _read_pages(document, wanted, problems)
 
 
-def _read_pages(document: object, wanted: list[int], problems: Problems) -> list[Grid]:
+def _read_pages(document: Any, wanted: list[int], problems: Problems) -> list[Grid]:
+    # document: a pdfplumber PDF (the library ships no type information)
     rows: list[list[Cell]] = []
     numbers: list[int] = []
     page_of: list[int] = []
     seen_plain: set[str] = set()  # header and title rows already read, as their joined text
     any_text = False
     for number in wanted:
-        page = document.pages[number - 1]  # type: ignore[attr-defined]
+        page = document.pages[number - 1]
         try:
             if float(page.width) * float(page.height) > MAX_PAGE_AREA:
                 problems.add(
