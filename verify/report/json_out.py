@@ -20,6 +20,7 @@ import numpy as np
 
 from verify import __version__
 from verify.analysis.pipeline import Analysis
+from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.names import public_convention, public_row
@@ -317,8 +318,6 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
 
     `displacement_file` is (path, SHA-256) of the claimed displacements, when they were checked.
     """
-    from verify.report.document import sha256_file
-
     model = review.analysis.model
     force, length = model.units.force.symbol, model.units.length.symbol
     inputs = {
