@@ -288,6 +288,7 @@ def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, lay
     whatever the row order. The bulk reader must really have read them."""
     import verify.io.case as case_module
 
+    monkeypatch.setattr(case_module, "BULK_MIN_ROWS", 0)  # small tables too go to the bulk reader
     files = pratt_csv_files(pratt(6))
     for name in ("joints.csv", "members.csv", "loads.csv"):
         header, *rows = files[name].splitlines()
@@ -323,8 +324,13 @@ def test_bulk_csv_reader_matches_row_by_row_reader(write_files, monkeypatch, lay
     np.testing.assert_array_equal(bulk.unit_vectors, careful.unit_vectors)
 
 
-def test_bulk_csv_reader_leaves_rows_longer_than_the_header_to_the_careful_reader(write_files):
+def test_bulk_csv_reader_leaves_rows_longer_than_the_header_to_the_careful_reader(
+    write_files, monkeypatch
+):
     """Every row one field too long: pandas would quietly take the first column as an index."""
+    import verify.io.case as case_module
+
+    monkeypatch.setattr(case_module, "BULK_MIN_ROWS", 0)
     files = pratt_csv_files(pratt(6))
     files["loads.csv"] = "case,joint,fx,fy\n" + "".join(f"P,{j},0,-12,5\n" for j in ("L1", "L2"))
     with pytest.raises(InputError) as info:

@@ -108,6 +108,38 @@ def test_flat_objects_with_numpy_scalars_fall_back_exactly() -> None:
     assert json_out.dumps({"m": json_out.FlatObjects(rows)}) == reference({"m": rows})
 
 
+row_tuples = st.integers(min_value=0, max_value=4).flatmap(
+    lambda width: st.lists(st.tuples(*[scalars] * width), max_size=8)
+)
+
+
+@settings(max_examples=200, deadline=None)
+@given(row_tuples, st.text(max_size=4))
+def test_row_tables_written_column_by_column_equal_the_standard_encoder(rows, extra) -> None:
+    """The member rows' path: tuples read column by column (keys in another order than the
+    fields, one key appended per row), every mix of types in a column, NaN and infinities."""
+    width = len(rows[0]) if rows else 0
+    fields = [(f"k{at}%", at) for at in reversed(range(width))]  # '%' must not break the layout
+    appended = [("unit", [extra] * len(rows))] if extra else []  # no key at all when width is 0
+    table = json_out.RowTable(rows, fields, appended)
+    expected = [
+        {**{key: row[at] for key, at in fields}, **({"unit": extra} if extra else {})}
+        for row in rows
+    ]
+    assert list(table) == expected
+    assert json_out.dumps({"members": table, "after": 1}) == reference(
+        {"members": expected, "after": 1}
+    )
+
+
+def test_a_long_row_table_is_written_in_pieces() -> None:
+    rows = [(f"M{k}", k / 7, None if k % 3 else float("nan")) for k in range(5_003)]
+    table = json_out.RowTable(rows, [("id", 0), ("claimed", 1), ("elastic", 2)])
+    pieces = list(json_out.iter_dumps({"members": table}))
+    assert len(pieces) > 3
+    assert "".join(pieces) == reference({"members": list(table)})
+
+
 def test_rows_are_drawn_as_the_text_is_written_not_before() -> None:
     """Streaming: the first pieces come out while the rows are still being drawn, so memory does
     not grow with the output (an endless row source still gives its first pieces)."""

@@ -229,3 +229,24 @@ def test_an_option_error_is_an_input_error_said_in_one_line():
     assert code == EXIT_BAD_INPUT and out == ""
     assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
     assert "must be a number in (0, 1)" in err
+
+
+PLAIN_CASE = {
+    "case.toml": 'title = "triangle"\n\n[units]\nlength = "m"\nforce = "kN"\n\n'
+    "[joints]\nA = [0, 0]\nB = [4, 0]\nC = [2, 3]\n\n"
+    '[members]\nAB = ["A", "B"]\nBC = ["B", "C"]\nCA = ["C", "A"]\n\n'
+    '[supports]\nA = "pinned"\nB = "roller"\n\n[loads.dead]\nC = [0, -12]\n',
+    # C: each diagonal carries 12 / 2 / (3 / sqrt 13) = 7.2111 kN compression; the tie 4 kN.
+    "claims.csv": "member,dead\nAB,4\nBC,-7.2111\nCA,-7.2111\n",
+}
+
+
+def test_a_plain_claims_table_is_checked_without_one_object_per_claim(write_files):
+    """The plain rows of a wide table are read as columns; the check asks the table how many
+    claims it holds, not for its per-claim objects (2x10^5 of them at 10^5 members)."""
+    case = write_files(PLAIN_CASE)
+    result = check(case, case.parent / "claims.csv")
+    assert result.review.verdict is Verdict.AGREES
+    assert result.claims.count == 3
+    assert result.claims._values is None  # never made
+    assert len(result.claims.values) == 3  # made when asked for

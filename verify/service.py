@@ -168,7 +168,8 @@ def check(
         case=options.load_case,
         pages=options.pages,
     )
-    if not claims.values and claims.unmatched:
+    # The count, not the values: those are one object per claim, made only when asked for.
+    if not claims.count and claims.unmatched:
         # Nothing to compare: most likely the wrong table, which a verdict would hide.
         labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:UNMATCHED_SHOWN])
         raise InputError(

@@ -153,6 +153,14 @@ class Row(NamedTuple):
         }
 
 
+# Each key of Row.as_dict with the position of its field in the tuple, in the dict's order: for
+# writers that read the rows column by column (verify/report/json_out.py: RowTable).
+ROW_KEYS: tuple[tuple[str, int], ...] = tuple(
+    (key, Row._fields.index("global_" if key == "global" else key))
+    for key in Row("", "", "", None, "", None, None, None, None, None, "").as_dict()
+)
+
+
 @dataclass(frozen=True)
 class Review:
     verdict: Verdict

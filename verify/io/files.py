@@ -7,6 +7,7 @@ with the path and the rule, before a byte is parsed.
 
 from __future__ import annotations
 
+import hashlib
 import os
 import stat
 from pathlib import Path
@@ -63,3 +64,11 @@ def inside_folder(path: Path, folder: Path) -> bool:
     except ValueError:
         return False
     return True
+
+
+def sha256_file(path: str | Path) -> str | None:
+    """The SHA-256 of a file's bytes, or None when it cannot be read (outputs say "unreadable")."""
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except OSError:
+        return None

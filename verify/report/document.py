@@ -12,7 +12,6 @@ other people's spreadsheets). Same review and `generated` date give byte-identic
 from __future__ import annotations
 
 import datetime as _dt
-import hashlib
 import math
 from dataclasses import dataclass
 from html import escape
@@ -24,6 +23,7 @@ import numpy as np
 from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
+from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.calc_sheet_html import FREE_BODY_CSS, reactions_html, sheet_html
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
@@ -120,13 +120,6 @@ class InputFile:
 
 
 # -- content gathered once, rendered twice ------------------------------------------------------
-def sha256_file(path: str | Path) -> str | None:
-    try:
-        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
-    except OSError:
-        return None
-
-
 def input_files(
     review: Review, displacement_file: tuple[str, str] | None = None
 ) -> list[InputFile]:

@@ -30,6 +30,5 @@ def public_convention(convention: dict[str, Any], force_unit: str) -> dict[str, 
     return {**convention, "values_unit": force_unit}
 
 
-def public_row(row: dict[str, Any], unit: str) -> dict[str, Any]:
-    """A compared row with the unit of its values."""
-    return {**row, "unit": unit}
+# The key each compared row adds beside its values: their unit.
+ROW_UNIT = "unit"

@@ -30,16 +30,20 @@ def crossing_pairs(model: Model) -> list[tuple[int, int]]:
     ends = model.ends_index
     lo = np.minimum(xy[ends[:, 0]], xy[ends[:, 1]])
     hi = np.maximum(xy[ends[:, 0]], xy[ends[:, 1]])
-    order = np.argsort(lo[:, 0])
+    order = np.argsort(lo[:, 0]).tolist()
+    # Plain lists for the sweep: slicing the order array per member made it quadratic (half of
+    # a 10^4-member check of an X-braced truss).
+    lo_l, hi_l, ends_l = lo.tolist(), hi.tolist(), ends.tolist()
     out = []
-    for pos, a in enumerate(order.tolist()):
-        for b in order[pos + 1 :].tolist():
-            if lo[b, 0] > hi[a, 0]:
+    for pos, a in enumerate(order):
+        for next_pos in range(pos + 1, len(order)):
+            b = order[next_pos]
+            if lo_l[b][0] > hi_l[a][0]:
                 break  # sorted by left end: nothing further can overlap a in x
             if (
-                lo[b, 1] > hi[a, 1]
-                or hi[b, 1] < lo[a, 1]
-                or set(ends[a].tolist()) & set(ends[b].tolist())
+                lo_l[b][1] > hi_l[a][1]
+                or hi_l[b][1] < lo_l[a][1]
+                or set(ends_l[a]) & set(ends_l[b])
             ):
                 continue
             if _cross(xy[ends[a, 0]], xy[ends[a, 1]], xy[ends[b, 0]], xy[ends[b, 1]]):

@@ -13,7 +13,6 @@ from __future__ import annotations
 from typing import NamedTuple
 
 import numpy as np
-import scipy.optimize as so
 import scipy.sparse as sp
 
 from verify.analysis.pipeline import Analysis
@@ -651,6 +650,10 @@ def _dimension_variants(
     frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
 ):
     """One overall dimension (span, depth, height) other than the case file's, fitted."""
+    # Imported here: scipy.optimize takes about 0.09 s to import, most of a small check's own
+    # time, and only this search uses it.
+    from scipy.optimize import minimize_scalar
+
     model = analysis.model
     columns, where = frame.column_positions()
     length = model.units.length.symbol
@@ -671,7 +674,7 @@ def _dimension_variants(
             return float(np.minimum(ratio[pending] ** 2, 100.0).sum())
 
         low, high = np.log(DIMENSION_RANGE[0]), np.log(DIMENSION_RANGE[1])
-        fit = so.minimize_scalar(
+        fit = minimize_scalar(
             misfit, bounds=(low, high), method="bounded", options={"xatol": 1e-4, "maxiter": 30}
         )
         s = float(np.exp(fit.x))

@@ -43,6 +43,8 @@ def check_combinations(
     """
     n_cases = len(model.cases)
     names = model.load_names
+    if len(names) == n_cases:
+        return []  # no combination column: nothing to check (the table below is per claim)
     b = len(model.members)
     out: list[Finding] = []
     table = np.full((b, len(names)), np.nan)

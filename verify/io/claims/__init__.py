@@ -20,8 +20,6 @@ from __future__ import annotations
 import hashlib
 from pathlib import Path
 
-import pandas as pd
-
 from verify.errors import InputError, Problem
 from verify.io.claims.grid import Grid
 from verify.io.claims.labels import LabelMatcher, member_ids_for
@@ -39,7 +37,7 @@ from verify.io.claims.source_xlsx import (
     is_encrypted_workbook,
     read_workbook,
 )
-from verify.io.claims.table import ClaimedValue, ClaimsTable, UnmatchedLabel
+from verify.io.claims.table import ClaimedValue, ClaimsTable, MemberIndex, UnmatchedLabel
 from verify.model import Model
 
 __all__ = [
@@ -115,7 +113,7 @@ def read_claims(
     layout = decide_layout(grid, model, matcher, options, problems)
     problems.raise_if_any()
     assert layout is not None
-    member_ids = pd.Index(model.member_ids)
+    member_ids = MemberIndex(model.member_ids)
     read = read_rows(grid, layout, matcher, problems, fast=FAST_ROWS, member_ids=member_ids)
     problems.raise_if_any()
     arrays, values = assemble_claims(read, member_ids, model.units.force)

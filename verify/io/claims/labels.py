@@ -13,6 +13,7 @@ import re
 from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
 from verify.io.values import normalize_text
 from verify.model import Model
@@ -58,12 +59,6 @@ class LabelMatcher:
 
     def __init__(self, model: Model) -> None:
         self._ids = set(model.member_ids)
-        self._ids_folded: dict[str, list[str]] = defaultdict(list)
-        for mid in model.member_ids:
-            self._ids_folded[mid.casefold()].append(mid)
-        self._joints_folded: dict[str, list[str]] = defaultdict(list)
-        for jid in model.joint_ids:
-            self._joints_folded[normalize_text(jid).casefold()].append(jid)
         self._pairs_made: dict[frozenset[str], str] | None = None  # made on first use (below)
         self._reactions = {(r.joint, r.axis) for r in model.reactions}
         # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
@@ -80,6 +75,37 @@ class LabelMatcher:
         self._pool: dict[str, str] | None = None
         self._cache: dict[str, Match] = {}
         self._suggested = 0
+
+    # The folded spellings are made on first use: a table that writes every member id as the
+    # model does never needs them (0.2 s for 10^5 members).
+    @cached_property
+    def _fold_groups(self) -> tuple[dict[str, str], dict[str, list[str]]]:
+        """The member id of each folded spelling, and the spellings several ids share (rare:
+        one list per id would cost most of the claims reader's setup)."""
+        ids = self._model.member_ids
+        folds = [mid.casefold() for mid in ids]
+        one = dict(zip(folds, ids, strict=True))
+        shared: dict[str, list[str]] = {}
+        if len(one) < len(ids):
+            groups: dict[str, list[str]] = defaultdict(list)
+            for fold, mid in zip(folds, ids, strict=True):
+                groups[fold].append(mid)
+            shared = {fold: group for fold, group in groups.items() if len(group) > 1}
+        return one, shared
+
+    def _ids_of_fold(self, folded: str) -> list[str]:
+        """The member ids that read as `folded` once case is ignored, in model order."""
+        one, shared = self._fold_groups
+        if folded in shared:
+            return shared[folded]
+        return [one[folded]] if folded in one else []
+
+    @cached_property
+    def _joints_folded(self) -> dict[str, list[str]]:
+        folded: dict[str, list[str]] = defaultdict(list)
+        for jid in self._model.joint_ids:
+            folded[normalize_text(jid).casefold()].append(jid)
+        return folded
 
     def names(self, label: str) -> str:
         """The kind a label reads as ("member", "reaction", "unknown", "ambiguous"), without the
@@ -104,7 +130,7 @@ class LabelMatcher:
         if len(label) > MAX_LABEL_CHARS:
             return Match("unknown")  # the pair readings would cost the square of its length
         folded = normalize_text(label).casefold()
-        members: dict[str, None] = dict.fromkeys(self._ids_folded.get(folded, []))
+        members: dict[str, None] = dict.fromkeys(self._ids_of_fold(folded))
         members.update(dict.fromkeys(self._pair_readings(folded)))
         reactions = dict.fromkeys(self._reaction_readings(folded))
         total = len(members) + len(reactions)

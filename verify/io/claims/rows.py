@@ -6,7 +6,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
 from verify.errors import did_you_mean
 from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
@@ -15,7 +14,13 @@ from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
 from verify.io.claims.rounding import decimals_as_written
-from verify.io.claims.table import ClaimArrays, ClaimedValue, SignConflict, UnmatchedLabel
+from verify.io.claims.table import (
+    ClaimArrays,
+    ClaimedValue,
+    MemberIndex,
+    SignConflict,
+    UnmatchedLabel,
+)
 from verify.io.values import (
     MAX_FORCE,
     MIN_FORCE,
@@ -425,7 +430,7 @@ def _plain_cells(cells: list[Cell], decimal_comma: bool) -> tuple[np.ndarray, np
 
 
 def read_bulk(
-    reader: RowReader, start: int, stop: int, member_ids: pd.Index
+    reader: RowReader, start: int, stop: int, member_ids: MemberIndex
 ) -> tuple[BulkClaims | None, list[int]]:
     """The plain rows of a wide table (no case, T/C, unit or joint-pair column) as columns, and
     the rows left to the general reader (in order). A row is plain when its label is a member id
@@ -435,7 +440,7 @@ def read_bulk(
     rows = grid.rows[start:stop]
     label_at = reader.member_h.index
     labels = [row[label_at] if label_at < len(row) else None for row in rows]
-    member = member_ids.get_indexer(pd.Index(labels, dtype=object))
+    member = member_ids.get_indexer(labels)
     ok = member >= 0
     columns = reader.columns
     values, texts_of = [], []
@@ -525,7 +530,7 @@ def read_rows(
     problems: Problems,
     *,
     fast: bool,
-    member_ids: pd.Index | None = None,
+    member_ids: MemberIndex | None = None,
 ) -> ReadRows:
     """Every data row of `grid` under `layout`; problems are added, never raised here.
 
@@ -575,7 +580,7 @@ def read_rows(
 
 
 def assemble_claims(
-    read: ReadRows, member_ids: pd.Index, case_unit: Unit
+    read: ReadRows, member_ids: MemberIndex, case_unit: Unit
 ) -> tuple[ClaimArrays, Callable[[], tuple[ClaimedValue, ...]] | tuple[ClaimedValue, ...]]:
     """The claims as columns in table order, and their per-claim objects (made on first use when
     the plain rows were read in bulk): the general reader's claims and the bulk ones merged by
