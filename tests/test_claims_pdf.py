@@ -318,3 +318,16 @@ def test_numbers_printed_close_together_without_rules_stay_in_their_cells(
         pdf.text(64 - pdf.get_string_width(dead_text), 40 + 6 * k, dead_text)
         pdf.text(65.5, 40 + 6 * k, snow_text)  # a space's width after the dead column
     _agrees(_write(pdf, tmp_path / "tight.pdf"))
+
+
+def test_a_page_of_more_columns_than_a_sheet_holds_is_no_claims_table(tmp_path: Path) -> None:
+    """Rows of 300 numbers (a page of figures, or a file made to be slow): no table is taken
+    from it, and the message says what a table needs."""
+    pdf = FPDF(unit="pt", format=(72 * 60, 72 * 10))
+    pdf.add_page()
+    pdf.set_font("Helvetica", size=5)
+    for r in range(4):
+        pdf.text(10, 20 + 8 * r, "M1 " + "  ".join(f"{k}.5" for k in range(300)))
+    with pytest.raises(InputError) as info:
+        read_claims(_write(pdf, tmp_path / "wide.pdf"), MODEL)
+    assert "no table found" in str(info.value)

@@ -35,7 +35,9 @@ HEADER_LINES = 6  # heading lines kept above the forces (a group, names wrapped 
 # analysis-program print-outs).
 WORD_GAP = 0.12
 CELL_GAP = 0.8
+MAX_TABLE_COLUMNS = 256  # as a workbook sheet (source_xlsx.MAX_COLUMNS)
 MAX_RULES = 50_000  # ruled lines used to part cells; a page drawn with more is read without them
+MAX_RULE_CHECKS = 5_000_000  # lines x rules looked at on one page
 SPLIT_GAP = 0.45  # two headings printed close together still leave more than one space between
 _RANGE = re.compile(r"\s*(\d{1,6})\s*(?:-\s*(\d{1,6})\s*)?$")
 
@@ -308,6 +310,8 @@ def _lines(glyphs: list[_Glyph], rules: Sequence[tuple[float, float, float]] = (
             groups[-1].append(g)
         else:
             groups.append([g])
+    if len(rules) * len(groups) > MAX_RULE_CHECKS:
+        rules = ()  # each line looks at every rule: past this, read without them
     lines = []
     for number, group in enumerate(groups, start=1):
         group.sort(key=lambda g: g.u0)
@@ -361,17 +365,25 @@ def _columns(lines: list[_Line], body: list[int]) -> list[tuple[float, float]]:
     return columns
 
 
-def _placed(phrase: _Phrase, columns: list[tuple[float, float]]) -> tuple[int, list[int]]:
-    """The column holding most of a phrase, and every column it reaches into. The line is parted
-    midway between the columns' data; reaching in means a tenth of the phrase's width or more."""
-    cuts = [(a[1] + b[0]) / 2 for a, b in zip(columns, columns[1:], strict=False)]
-    edges = [-math.inf, *cuts, math.inf]
+def _cuts(columns: list[tuple[float, float]]) -> list[float]:
+    """Where the line is parted: midway between neighbouring columns' data."""
+    return [(a[1] + b[0]) / 2 for a, b in zip(columns, columns[1:], strict=False)]
+
+
+def _placed(phrase: _Phrase, cuts: list[float]) -> tuple[int, list[int]]:
+    """The column holding most of a phrase, and every column it reaches into (a tenth of the
+    phrase's width or more). Only the parts the phrase spans are looked at (bisection)."""
+    first, last = bisect.bisect(cuts, phrase.u0), bisect.bisect(cuts, phrase.u1)
+    if first == last:
+        return first, [first]
     width = max(phrase.u1 - phrase.u0, 1e-6)
-    shares = [
-        max(0.0, min(phrase.u1, hi) - max(phrase.u0, lo)) / width
-        for lo, hi in zip(edges, edges[1:], strict=False)
-    ]
-    return shares.index(max(shares)), [c for c, share in enumerate(shares) if share >= 0.1]
+    edges = [-math.inf, *cuts, math.inf]
+    shares = {
+        c: max(0.0, min(phrase.u1, edges[c + 1]) - max(phrase.u0, edges[c])) / width
+        for c in range(first, last + 1)
+    }
+    owner = max(shares, key=lambda c: (shares[c], -c))
+    return owner, [c for c, share in shares.items() if share >= 0.1]
 
 
 def _cells(
@@ -386,18 +398,20 @@ def _cells(
     texts: list[list[str]] = [[] for _ in columns]
     group = False
     phrases = line.phrases
-    placed = [_placed(p, columns) for p in phrases]
-    for k, (phrase, (owner, reached)) in enumerate(zip(phrases, placed, strict=True)):
-        others = {o for j, (o, _) in enumerate(placed) if j != k}
+    cuts = _cuts(columns)
+    placed = [_placed(p, cuts) for p in phrases]
+    held = Counter(o for o, _ in placed)  # phrases owned by each column
+    for phrase, (owner, reached) in zip(phrases, placed, strict=True):
         if len(reached) >= 2:
+            others = {c for c in reached if held[c] > (c == owner)}
             words = [w for w in line.words if phrase.u0 <= w.u0 and w.u1 <= phrase.u1]
             pieces = _joined(words, SPLIT_GAP * line.height)
-            owners = [_placed(piece, columns)[0] for piece in pieces]
+            owners = [_placed(piece, cuts)[0] for piece in pieces]
             if len(pieces) > 1 and len(set(owners)) == len(pieces):
                 for piece, c in zip(pieces, owners, strict=True):
                     texts[c].append(piece.text)
                 continue
-            if not others & set(reached) and len(below & set(reached)) >= 2:
+            if not others and len(below & set(reached)) >= 2:
                 texts[reached[0]].append(phrase.text)
                 group = True
                 continue
@@ -430,6 +444,8 @@ def _page_rows(page: Any) -> list[tuple[int, list[Cell]]]:
     if not body:
         return []
     columns = _columns(lines, body)
+    if len(columns) > MAX_TABLE_COLUMNS:
+        return []  # not a claims table (a page of figures, or a file made to be slow)
     is_body = set(body)
     steps = sorted(lines[k + 1].v - lines[k].v for k in body if k + 1 in is_body)
     pitch = steps[len(steps) // 2] if steps else 2.0 * lines[body[0]].height
