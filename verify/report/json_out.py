@@ -200,7 +200,6 @@ def _refuse(value: Any) -> Any:
 
 
 def _flat_list(items: FlatObjects, level: int) -> Iterator[str]:
-    inner = "\n" + INDENT * (level + 1)
     field = "\n" + INDENT * (level + 2)
     # Keys and values of one object sit on lines of their own at level + 2: exactly the layout
     # json.dumps(indent=2) gives, made by the C encoder through its separators (made once: the
@@ -216,39 +215,30 @@ def _flat_list(items: FlatObjects, level: int) -> Iterator[str]:
         return "".join(encoder(item, 0))
 
     close = "\n" + INDENT * (level + 1) + "}"
-    first = True
-    batch: list[str] = []
-    for item in items:
-        try:
-            text = encode(item)
-            batch.append("{" + field + text[1:-1] + close if len(text) > 2 else "{}")
-        except (ValueError, TypeError):  # NaN or infinity (null here), a numpy scalar
-            batch.append(_encode(item, level + 1))
-        if len(batch) >= CHUNK_ITEMS:
-            yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
-            first, batch = False, []
-    if batch:
-        yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
-        first = False
-    yield "[]" if first else "\n" + INDENT * level + "]"
+
+    def encoded() -> Iterator[str]:
+        for item in items:
+            try:
+                text = encode(item)
+                yield "{" + field + text[1:-1] + close if len(text) > 2 else "{}"
+            except (ValueError, TypeError):  # NaN or infinity (null here), a numpy scalar
+                yield _encode(item, level + 1)
+
+    yield from _framed(encoded(), level)
 
 
 def _lazy_list(items: Iterator[Any], level: int) -> Iterator[str]:
-    inner = "\n" + INDENT * (level + 1)
-    first = True
-    batch: list[str] = []
-    row_keys: tuple[Any, ...] | None = None
-    template = ""
-    for item in items:
-        if type(item) is dict and item:
-            # The member rows: flat objects with the same keys, filled into one template. Only
-            # the values are encoded per row, strings and finite floats inline (the common ones).
-            keys = tuple(item)
-            if keys != row_keys:
-                row_keys, template = keys, _template(keys, level + 1)
-            batch.append(
-                template
-                % tuple(
+    def encoded() -> Iterator[str]:
+        row_keys: tuple[Any, ...] | None = None
+        template = ""
+        for item in items:
+            if type(item) is dict and item:
+                # The member rows: flat objects with the same keys, filled into one template.
+                # Only the values are encoded per row, strings and finite floats inline.
+                keys = tuple(item)
+                if keys != row_keys:
+                    row_keys, template = keys, _template(keys, level + 1)
+                yield template % tuple(
                     [
                         encode_basestring(v)
                         if type(v) is str
@@ -258,9 +248,19 @@ def _lazy_list(items: Iterator[Any], level: int) -> Iterator[str]:
                         for v in item.values()
                     ]
                 )
-            )
-        else:
-            batch.append(_encode(item, level + 1))
+            else:
+                yield _encode(item, level + 1)
+
+    yield from _framed(encoded(), level)
+
+
+def _framed(encoded: Iterator[str], level: int) -> Iterator[str]:
+    """A JSON list at `level` around already-encoded items, yielded CHUNK_ITEMS at a time."""
+    inner = "\n" + INDENT * (level + 1)
+    first = True
+    batch: list[str] = []
+    for text in encoded:
+        batch.append(text)
         if len(batch) >= CHUNK_ITEMS:
             yield ("[" + inner if first else "," + inner) + ("," + inner).join(batch)
             first, batch = False, []
