@@ -52,3 +52,12 @@ def test_the_demo_has_findings_whose_sentence_names_no_cell() -> None:
     findings = json.loads(_run(*base, "--json"))["findings"]
     bare = [f for f in findings if f.get("locations") and f["locations"][0] not in f["detail"]]
     assert {f["kind"] for f in bare} >= {"swapped-labels"}
+
+
+def test_a_pdf_table_is_placed_by_its_pages_not_called_a_sheet() -> None:
+    from verify.report.written import table_place
+
+    assert table_place("pages 2-3") == " (pages 2-3)"
+    assert table_place("page 1") == " (page 1)"
+    assert table_place("Member forces") == " (sheet 'Member forces')"
+    assert table_place(None) == ""

@@ -48,7 +48,7 @@ from verify.report.numbers import (
     tc,
 )
 from verify.report.tables import Table
-from verify.report.written import written_at
+from verify.report.written import table_place, written_at
 
 NOT_CAPACITY = (
     "This figure compares claimed with recomputed forces; it is not a capacity check and says "
@@ -149,7 +149,7 @@ def input_files(
     claims = review.claims
     out.append(
         InputFile(
-            "claims" + (f" (sheet '{claims.sheet}')" if claims.sheet else ""),
+            "claims" + table_place(claims.sheet),
             claims.source,
             claims.sha256 or None,
         )

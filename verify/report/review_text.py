@@ -6,7 +6,7 @@ from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
-from verify.report.written import written_at
+from verify.report.written import table_place, written_at
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
 
@@ -119,7 +119,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     lines = [verdict_line(review), ""]
     lines.append(
         f"Case: {model.title or model.source}   Claims: {review.claims.source}"
-        + (f" (sheet '{review.claims.sheet}')" if review.claims.sheet else "")
+        + table_place(review.claims.sheet)
     )
     source = {
         "table": "stated in the table",

@@ -18,3 +18,13 @@ def written_at(finding: Finding) -> str | None:
     shown = "; ".join(places[:MAX_LOCATIONS])
     more = len(places) - MAX_LOCATIONS
     return shown + (f"; and {more} more (all in --json 'locations')" if more > 0 else "")
+
+
+def table_place(sheet: str | None) -> str:
+    """Where in the claims file the table was read, for a heading line: " (sheet 'Forces')" for
+    a workbook, " (pages 12-14)" for a PDF (ClaimsTable.sheet holds the pages there)."""
+    if not sheet:
+        return ""
+    if sheet.startswith("page"):
+        return f" ({sheet})"
+    return f" (sheet '{sheet}')"
