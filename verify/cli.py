@@ -327,7 +327,6 @@ def _run_check(
 ) -> int:
     """Parse, call the check service, write and print; the exit status. `given`: CheckOptions'
     fields."""
-    from verify.errors import OptionError
     from verify.report.atomic import OutputError, write_atomic
     from verify.report.review_text import render_review
     from verify.service import CheckOptions, check
@@ -357,10 +356,7 @@ def _run_check(
             CheckOptions(**given, spelt=tuple(names.items())),
             progress=show,
         )
-    except OptionError as exc:
-        _say_bad_input(str(exc), as_json)
-        return EXIT_BAD_INPUT
-    except InputError as error:
+    except InputError as error:  # OptionError among them
         _say_bad_input(error, as_json)
         return EXIT_BAD_INPUT
     review = result.review

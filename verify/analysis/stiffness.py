@@ -51,6 +51,7 @@ shows it.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from collections.abc import Sequence
@@ -428,18 +429,7 @@ def members_fixed_by_statics(
     EA, _ = member_stiffness(model, assume_equal_EA=assume_equal_EA)
     scaled = EA * np.random.default_rng(seed).uniform(0.5, 2.0, len(EA))
     members = tuple(m._replace(EA=float(v)) for m, v in zip(model.members, scaled, strict=True))
-    varied = Model(
-        title=model.title,
-        units=model.units,
-        dim=model.dim,
-        joints=model.joints,
-        members=members,
-        reactions=model.reactions,
-        cases=model.cases,
-        combinations=model.combinations,
-        source=model.source,
-        arrays=(model.xyz, model.ends_index),
-    )
+    varied = dataclasses.replace(model, members=members, arrays=(model.xyz, model.ends_index))
     again = solve_stiffness(varied).forces.member_forces
     scale = max(float(np.abs(forces).max(initial=0.0)), 1e-300)
     return np.all(np.abs(again - forces) <= 1e-7 * scale, axis=1)

@@ -9,7 +9,6 @@ outputs land in one place whichever machine did the work.
 
 from __future__ import annotations
 
-import hashlib
 import time
 import traceback
 from dataclasses import dataclass, replace
@@ -24,6 +23,7 @@ from verify.errors import (
     EXIT_DISCREPANCIES,
     InputError,
 )
+from verify.io.files import sha256_file
 
 EXIT_FAULT = 70  # as `check` exits on a fault in the tool (EX_SOFTWARE)
 BAD_INPUT = "bad-input"
@@ -61,10 +61,8 @@ class CaseResult:
 
 
 def sha256_of(path: str) -> str:
-    try:
-        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
-    except OSError:
-        return ""  # gone or unreadable: never equal to a real digest, so the case is rechecked
+    # "" for a file gone or unreadable: never equal to a real digest, so the case is rechecked.
+    return sha256_file(Path(path)) or ""
 
 
 def check_job(job: Job) -> CaseResult:

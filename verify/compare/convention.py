@@ -14,11 +14,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from verify.units import Dimension, Unit, accepted, lookup_unit
+from verify.units import KGF_IN_N, Dimension, Unit, accepted, lookup_unit
 from verify.units import factor as unit_factor
 
 LBF = 4.4482216152605
-G_N = 9.80665
+G_N = KGF_IN_N  # standard gravity, N per kgf
 UNIT_FACTORS: dict[float, str] = {
     1000.0: "x1000 (N vs kN, or lbf vs kip)",
     1e-3: "x0.001 (kN vs N, or kip vs lbf)",

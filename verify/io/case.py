@@ -1841,7 +1841,8 @@ def _self_weight(
         _note(
             ctx,
             path,
-            f"load case '{case}': self-weight {mass.number:g} kg/m x g = 9.80665 m/s^2 on {on}, "
+            f"load case '{case}': self-weight {mass.number:g} kg/m x g = {STANDARD_GRAVITY} "
+            f"m/s^2 on {on}, "
             "half of each member to each end",
             loads,
         )

@@ -82,11 +82,6 @@ def evaluate(
     return Value(_checked(number), exact_value)
 
 
-def plain(number: float) -> Value:
-    """A number written as a number: exact as the decimal it prints as (shortest repr)."""
-    return Value(number, None)
-
-
 def _checked(number: float) -> float:
     if not math.isfinite(number) or abs(number) > MAGNITUDE_LIMIT:
         raise ExpressionError(f"a value beyond {MAGNITUDE_LIMIT:g} in size on the way")

@@ -26,7 +26,9 @@ from collections.abc import Sequence
 
 import numpy as np
 
-STANDARD_GRAVITY = 9.80665  # m/s^2, exact (NIST SP 811, 2008 ed.; 3rd CGPM 1901)
+from verify.units import KGF_IN_N
+
+STANDARD_GRAVITY = KGF_IN_N  # m/s^2: the kilogram-force's own g_n, exact (NIST SP 811, 2008)
 
 
 def gravity(dim: int) -> np.ndarray:

@@ -163,23 +163,22 @@ class RowTable:
 
 def _row_table(table: RowTable, level: int) -> Iterator[str]:
     rows = table.rows
-    if not rows:
-        yield "[]"
-        return
-    inner = "\n" + INDENT * (level + 1)
     keys = tuple(key for key, _ in table.fields) + tuple(key for key, _ in table.appended)
-    if not keys:  # empty objects: "{}", which the template cannot write
+    if rows and not keys:  # empty objects: "{}", which the template cannot write
         yield from _lazy_list(iter(table), level)
         return
     template = _template(keys, level + 1)
-    for start in range(0, len(rows), CHUNK_ITEMS):
-        stop = start + CHUNK_ITEMS
-        columns = list(zip(*rows[start:stop], strict=True))
-        encoded = [_column_text(columns[at], level + 2) for _, at in table.fields]
-        encoded += [_column_text(values[start:stop], level + 2) for _, values in table.appended]
-        text = ("," + inner).join(map(template.__mod__, zip(*encoded, strict=True)))
-        yield ("[" + inner if start == 0 else "," + inner) + text
-    yield "\n" + INDENT * level + "]"
+
+    def encoded() -> Iterator[str]:
+        # A chunk of rows at a time, column by column: each column's values encoded in one map.
+        for start in range(0, len(rows), CHUNK_ITEMS):
+            stop = start + CHUNK_ITEMS
+            columns = list(zip(*rows[start:stop], strict=True))
+            texts = [_column_text(columns[at], level + 2) for _, at in table.fields]
+            texts += [_column_text(values[start:stop], level + 2) for _, values in table.appended]
+            yield from map(template.__mod__, zip(*texts, strict=True))
+
+    yield from _framed(encoded(), level)
 
 
 def _column_text(values: Sequence[Any], level: int) -> list[str]:

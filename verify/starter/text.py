@@ -24,8 +24,6 @@ def number(value: Fraction | float) -> str:
             text = f"{float(value)!r}"
             return text if Fraction(text) == value else f'"{value.numerator}/{value.denominator}"'
         return f'"{value.numerator}/{value.denominator}"'
-    if value == int(value) and abs(value) < 1e15:
-        return f"{float(value)!r}"
     return repr(float(value))
 
 

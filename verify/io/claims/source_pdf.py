@@ -211,10 +211,7 @@ class _Line(NamedTuple):
     v: float
     height: float
     words: list[_Phrase]
-
-    @property
-    def phrases(self) -> list[_Phrase]:
-        return _joined(self.words, CELL_GAP * self.height)
+    phrases: list[_Phrase]  # the words joined into cells (_joined), made once per line
 
 
 _NUMBER = re.compile(r"^[(+\-\u2212]?\d[\d,.']*\)?$")
@@ -326,7 +323,7 @@ def _lines(glyphs: list[_Glyph], rules: Sequence[tuple[float, float, float]] = (
                 words[-1] = _Phrase(last.u0, max(last.u1, g.u1), last.text + g.text, cell)
             else:
                 words.append(_Phrase(g.u0, g.u1, g.text, cell))
-        lines.append(_Line(number, middle, height, words))
+        lines.append(_Line(number, middle, height, words, _joined(words, CELL_GAP * height)))
     return lines
 
 
