@@ -128,6 +128,20 @@ def test_swapped_labels(pratt_analysis):
     assert set(review.findings[0].members) == {"U1L2", "U2L3"}
 
 
+def test_swap_in_a_table_of_another_unit_is_judged_in_case_units(pratt_analysis):
+    """A table in whole newtons for a case in kN: rounding to the newton is 0.0005 kN, not
+    0.5 kN. Two claims 0.4 kN off each other's forces (8 % of U2L2's 5 kN) are two value
+    mismatches, not a swap; the same two claims exchanged exactly are a swap."""
+    forces = true_claims(pratt_analysis)["dead"]
+    newtons = {m: round(v * 1000) for m, v in forces.items()}
+    off = dict(newtons, U1L1=newtons["U2L2"] + 400, U2L2=newtons["U1L1"] + 400)
+    review = compare_claims(pratt_analysis, table({"dead": off}, unit="N"))
+    assert kinds(review) == ["value-mismatch", "value-mismatch"]
+    swapped = dict(newtons, U1L1=newtons["U2L2"], U2L2=newtons["U1L1"])
+    review = compare_claims(pratt_analysis, table({"dead": swapped}, unit="N"))
+    assert kinds(review) == ["swapped-labels"]
+
+
 def test_swapping_equal_forces_is_not_a_finding(pratt_analysis):
     """L0L1 and L1L2 both carry 10P/3 (REFERENCES.md 3.2): swapping them changes nothing."""
     claims = true_claims(pratt_analysis)

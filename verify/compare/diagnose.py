@@ -54,7 +54,7 @@ from verify.compare.convention import (
 )
 from verify.compare.findings import Finding, Severity, ordered, worded
 from verify.compare.implied import ImpliedLoads, implied_loads
-from verify.compare.tolerances import Tolerance, rounding_allowances
+from verify.compare.tolerances import Tolerance
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.io.claims.table import ClaimArrays
@@ -1221,9 +1221,9 @@ def _shifted_and_swapped(c: Comparison) -> None:
         computed_c = np.array([item[3] for item in items])
         by_force = np.argsort(computed_c, kind="stable")
         sorted_c = computed_c[by_force]
-        own_rounding = rounding_allowances(
-            np.array([item[1].value for item in items]), np.ones(len(items))
-        )
+        # Each claim's rounding as the reader settled it, in case units (the raw value's own
+        # decimals are in the table's unit: kN decimals read as N, or N as kN, mis-sized it).
+        own_rounding = np.array([c.rounding_of_row.get(item[0], 0.0) for item in items])
         window = (
             np.maximum(np.maximum(2.0 * tol.rtol * np.abs(claimed_x), atol), own_rounding) * 1.01
         )
