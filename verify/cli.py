@@ -70,6 +70,20 @@ def _load(case: str, as_json: bool = False, tables_anywhere: bool = False) -> Mo
         raise  # unreachable; keeps type checkers honest
 
 
+def _check_load_name(model: Model, load_name: str | None, case: str) -> None:
+    """--case names a load case or combination of the model, else one message and exit 2."""
+    if load_name is None or load_name in model.load_names:
+        return
+    from verify.errors import did_you_mean
+
+    click.echo(
+        f"--case: '{load_name}' is not a load case or combination of "
+        f"{case}.{did_you_mean(load_name, model.load_names)}",
+        err=True,
+    )
+    sys.exit(EXIT_BAD_INPUT)
+
+
 def _positive_finite(
     ctx: click.Context, param: click.Parameter, value: float | None
 ) -> float | None:
@@ -182,16 +196,8 @@ def solve(
 ) -> None:
     """Recompute every member force (tension positive, T/C) and reaction of CASE."""
     model = _load(case, as_json, tables_anywhere)
+    _check_load_name(model, load_name, case)  # before the analysis: a typo costs nothing
     analysis = analyse(model, assume_equal_EA=assume_equal_ea)
-    if load_name is not None and load_name not in model.load_names:
-        from verify.errors import did_you_mean
-
-        click.echo(
-            f"--case: '{load_name}' is not a load case or combination of "
-            f"{case}.{did_you_mean(load_name, model.load_names)}",
-            err=True,
-        )
-        sys.exit(EXIT_BAD_INPUT)
     if as_json:
         click.echo(json_out.dumps(json_out.solve_json(model, analysis)))
         sys.exit(0 if analysis.reference is not None else EXIT_CANNOT_VERIFY)
@@ -280,17 +286,10 @@ def cut(
     method) or the force sum normal to parallel members, and the forces with T/C.
     """
     from verify.analysis.cut_sheets import requested_sheets
-    from verify.errors import did_you_mean
     from verify.report.section_calc import render_cut_sheet, render_reactions
 
     model = _load(case, tables_anywhere=tables_anywhere)
-    if load_name is not None and load_name not in model.load_names:
-        click.echo(
-            f"--case: '{load_name}' is not a load case or combination of "
-            f"{case}.{did_you_mean(load_name, model.load_names)}",
-            err=True,
-        )
-        sys.exit(EXIT_BAD_INPUT)
+    _check_load_name(model, load_name, case)
     from verify.analysis.stability import solve_stability
 
     stability = solve_stability(model)
