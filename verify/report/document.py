@@ -546,7 +546,7 @@ def appendix_columns(review: Review) -> list[str]:
     return checked[:MAX_APPENDIX_COLUMNS]
 
 
-def appendix_members(review: Review, load_name: str) -> list[str] | None:
+def appendix_members(review: Review, load_name: str, book: Any = None) -> list[str] | None:
     """Members whose section cuts the appendix shows in one load column (None: every cut).
 
     Up to APPENDIX_ALL_MEMBERS members every free body is shown: a hand calc a checker can read
@@ -566,8 +566,7 @@ def appendix_members(review: Review, load_name: str) -> list[str] | None:
             and status_category(r.status) not in ("agrees", "missing")
         )
     )[:MAX_FLAGGED_SHEETS]
-    sections = review.analysis.sections
-    sample = sections.calc_sheets(model).sample(SAMPLE_SHEETS) if sections is not None else []
+    sample = book.sample(SAMPLE_SHEETS) if book is not None else []
     return list(dict.fromkeys(flagged + sample))
 
 
@@ -575,12 +574,15 @@ def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
     model = review.analysis.model
     large = len(model.members) > LARGE_MODEL_MEMBERS
     columns = appendix_columns(review)
+    solution = review.analysis.sections
+    book = solution.calc_sheets(model) if solution is not None else None  # once for every column
     sections = []
     for name in columns:
         blocks = appendix_blocks(
             review.analysis,
             name,
-            members=appendix_members(review, name),
+            book=book,
+            members=appendix_members(review, name, book),
             max_steps=MAX_APPENDIX_STEPS_LARGE if large else None,
             exact=len(model.members) <= EXACT_MAX_MEMBERS,
         )

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
+from typing import Any
 
 from verify.analysis.cut_sheets import CutSheet, ReactionsSheet
 from verify.analysis.joints import JointSolution
@@ -48,10 +49,13 @@ def appendix_blocks(
     members: Sequence[str] | None = None,
     max_steps: int | None = None,
     exact: bool = True,
+    book: Any = None,
 ) -> list[Block]:
     """The hand calc of one load column: reactions, joint by joint, section cuts, exact values.
 
     `members`: the members whose section cuts are shown (None: every cut); each free body once.
+    `book`: the cut sheets when the caller has built them already (one per report), as
+    `analysis.sections.calc_sheets` makes them (typed Any: reports may not import the builder).
     """
     from verify.report.section_calc import render_reactions
 
@@ -59,7 +63,8 @@ def appendix_blocks(
     unit = model.units.force.symbol
     blocks: list[Block] = []
     sections = analysis.sections
-    book = sections.calc_sheets(model) if sections is not None else None
+    if book is None and sections is not None:
+        book = sections.calc_sheets(model)
     ref = analysis.reference
 
     # Reactions.
