@@ -430,7 +430,7 @@ def test_starter_refuses_bad_options_with_exit_2(tmp_path, args, fragment):
 
 
 def test_starter_writes_then_refuses_to_overwrite_without_force(tmp_path):
-    """The command writes DIR/case.toml, refuses to replace it, and replaces it with --force."""
+    """The command writes DIR/case.toml, refuses to replace it, and replaces it with --replace."""
     out = tmp_path / "job"
     args = ["starter", "howe", "--span", "18", "--depth", "2.5", "--panels", "6", "--out", str(out)]
     first = CliRunner().invoke(main, args)
@@ -438,9 +438,9 @@ def test_starter_writes_then_refuses_to_overwrite_without_force(tmp_path):
     before = (out / "case.toml").read_text(encoding="utf-8")
     assert "# Joint naming:" in before and 'L0 = "pinned"' in before
     second = CliRunner().invoke(main, args + ["--panel-load", "5"])
-    assert second.exit_code == 2 and "exists; pass --force" in second.output
+    assert second.exit_code == 2 and "exists; pass --replace" in second.output
     assert (out / "case.toml").read_text(encoding="utf-8") == before
-    third = CliRunner().invoke(main, args + ["--panel-load", "5", "--force"])
+    third = CliRunner().invoke(main, args + ["--panel-load", "5", "--replace"])
     assert third.exit_code == 0 and "-5.0" in (out / "case.toml").read_text(encoding="utf-8")
 
 

@@ -658,7 +658,7 @@ def check(case: str, claims_path: str, **options: Any) -> None:
     type=click.Path(file_okay=False),
     help="Folder to write case.toml into (made if missing).",
 )
-@click.option("--force", "overwrite", is_flag=True, help="Replace an existing case.toml.")
+@click.option("--replace", "overwrite", is_flag=True, help="Replace an existing case.toml.")
 def starter(
     pattern: str,
     span: float,
@@ -716,7 +716,7 @@ def starter(
         _fail_input(error)
     target = Path(out_dir) / "case.toml"
     if target.exists() and not overwrite:
-        _fail_input(f"{target} exists; pass --force to replace it")
+        _fail_input(f"{target} exists; pass --replace to replace it")
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
         write_atomic(target, text)
