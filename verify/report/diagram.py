@@ -205,7 +205,8 @@ def render_diagram(
 def used_categories(model: Model, statuses: Mapping[str, str] | None) -> set[str]:
     if statuses is None:
         return set()
-    return {status_category(statuses[m.id]) for m in model.members if m.id in statuses}
+    # Every key is a member id (rows name members of this model): one look per status.
+    return {status_category(s) for s in set(statuses.values())}
 
 
 def _style_for(member_id: str, statuses: Mapping[str, str] | None) -> StatusStyle:

@@ -12,8 +12,10 @@ other people's spreadsheets). Same review and `generated` date give byte-identic
 from __future__ import annotations
 
 import datetime as _dt
+import itertools
 import math
-from dataclasses import dataclass
+import weakref
+from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
 from typing import Any
@@ -327,6 +329,49 @@ def _load_label(review: Review, name: str) -> str:
     return f"Load case '{name}'"
 
 
+@dataclass
+class _CaseRows:
+    """The review's rows sorted out by load column in one pass (a 10^5-member review has 2x10^5
+    rows, and the member table, the diagrams and the appendix each asked for them again)."""
+
+    members: dict[str, list[Row]] = field(default_factory=dict)  # in table order
+    reactions: dict[str, list[Row]] = field(default_factory=dict)
+    statuses: dict[str, dict[str, list[str]]] = field(default_factory=dict)  # case -> id -> all
+    flagged: dict[str, list[str]] = field(default_factory=dict)  # ids with a finding, in order
+
+
+_GROUPED: list[tuple[weakref.ref[Review], _CaseRows]] = []  # the last review grouped
+
+
+def _case_rows(review: Review) -> _CaseRows:
+    if _GROUPED and _GROUPED[0][0]() is review:
+        return _GROUPED[0][1]
+    grouped = _CaseRows()
+    members, reactions, statuses = grouped.members, grouped.reactions, grouped.statuses
+    for row in review.rows:
+        kind = row.kind
+        if kind == "member":
+            case = row.case
+            if case not in members:
+                members[case], statuses[case] = [], {}
+            members[case].append(row)
+            of_case = statuses[case]
+            if row.id in of_case:
+                of_case[row.id].append(row.status)
+            else:
+                of_case[row.id] = [row.status]
+        elif kind == "reaction":
+            reactions.setdefault(row.case, []).append(row)
+    for case, rows in members.items():
+        seen = {r.status for r in rows}
+        bad_status = {s for s in seen if status_category(s) not in ("agrees", "missing")}
+        if bad_status:
+            bad = [r.id for r in rows if r.status in bad_status]
+            grouped.flagged[case] = list(dict.fromkeys(bad))
+    _GROUPED[:] = [(weakref.ref(review), grouped)]
+    return grouped
+
+
 def member_tables(review: Review) -> list[Table]:
     """Per load column: claimed and recomputed members, then reactions; recomputed only where
     unclaimed."""
@@ -335,16 +380,16 @@ def member_tables(review: Review) -> list[Table]:
     recomputed_name = "global" if review.analysis.global_ is not None else "elastic"
     header = tuple(with_unit(recomputed_name if h == "global" else h, unit) for h in MEMBER_COLUMNS)
     tables: list[Table] = []
-    by_case: dict[str, list[Row]] = {}
-    for row in review.rows:
-        by_case.setdefault(row.case, []).append(row)
+    grouped = _case_rows(review)
+    member_index = model.member_index
     for k, name in enumerate(model.load_names):
-        rows = by_case.get(name, [])
         label = _load_label(review, name)
-        members = sorted(
-            (r for r in rows if r.kind == "member"), key=lambda r: model.member_index[r.id]
-        )
-        reactions = [r for r in rows if r.kind == "reaction"]
+        members = grouped.members.get(name, [])
+        positions = [member_index[r.id] for r in members]
+        if any(a > b for a, b in itertools.pairwise(positions)):  # usually in member order
+            order = sorted(range(len(members)), key=positions.__getitem__)  # stable, as before
+            members = [members[n] for n in order]
+        reactions = grouped.reactions.get(name, [])
         if members or reactions:
             shown, note = _cap(members)
             cells = tuple(_member_cells(r) for r in shown)
@@ -430,11 +475,14 @@ def member_tables(review: Review) -> list[Table]:
 def _cap(rows: list[Row]) -> tuple[list[Row], str]:
     if len(rows) <= MAX_TABLE_ROWS:
         return rows, ""
-    problems = [r for r in rows if r.status not in ("agrees", "missing-claim")]
-    rest = [r for r in rows if r.status in ("agrees", "missing-claim")]
-    shown = (problems + rest)[:MAX_TABLE_ROWS]
-    order = {id(r): n for n, r in enumerate(rows)}
-    shown.sort(key=lambda r: order[id(r)])
+    # Problems first, then the rows that agree or have no claim, shown in table order.
+    problems = [n for n, r in enumerate(rows) if r.status not in ("agrees", "missing-claim")]
+    chosen = problems[:MAX_TABLE_ROWS]
+    if len(chosen) < MAX_TABLE_ROWS:
+        taken = set(problems)
+        rest = (n for n in range(len(rows)) if n not in taken)
+        chosen += itertools.islice(rest, MAX_TABLE_ROWS - len(chosen))
+    shown = [rows[n] for n in sorted(chosen)]
     return shown, (
         f"{len(rows) - len(shown)} rows that agree or have no claim are not listed (large model); "
         "`truss-verify check --csv` writes the full table."
@@ -514,11 +562,7 @@ def diagram_columns(review: Review) -> list[str]:
     checked = [n for n in model.load_names if n in review.checked_cases]
     if not checked:
         return model.load_names[:1]
-    bad = {
-        r.case
-        for r in review.rows
-        if r.kind == "member" and status_category(r.status) not in ("agrees", "missing")
-    }
+    bad = _case_rows(review).flagged
     limit = 1 if len(model.members) > LARGE_MODEL_MEMBERS else MAX_DIAGRAMS
     ordered = [n for n in checked if n in bad] + [n for n in checked if n not in bad]
     keep = set(ordered[:limit])
@@ -527,12 +571,11 @@ def diagram_columns(review: Review) -> list[str]:
 
 def member_statuses(review: Review, load_name: str) -> dict[str, str]:
     """Member id -> the status drawn for one load column (the most serious of its claims)."""
-    collected: dict[str, list[str]] = {}
-    for row in review.rows:
-        if row.kind == "member" and row.case == load_name:
-            collected.setdefault(row.id, []).append(row.status)
     out = {}
-    for member, statuses in collected.items():
+    for member, statuses in _case_rows(review).statuses.get(load_name, {}).items():
+        if len(statuses) == 1:
+            out[member] = statuses[0]
+            continue
         category = worst_status(statuses)
         out[member] = next(s for s in statuses if status_category(s) == category)
     return out
@@ -557,15 +600,7 @@ def appendix_members(review: Review, load_name: str, book: Any = None) -> list[s
     model = review.analysis.model
     if len(model.members) <= APPENDIX_ALL_MEMBERS:
         return None
-    flagged = list(
-        dict.fromkeys(
-            r.id
-            for r in review.rows
-            if r.kind == "member"
-            and r.case == load_name
-            and status_category(r.status) not in ("agrees", "missing")
-        )
-    )[:MAX_FLAGGED_SHEETS]
+    flagged = _case_rows(review).flagged.get(load_name, [])[:MAX_FLAGGED_SHEETS]
     sample = book.sample(SAMPLE_SHEETS) if book is not None else []
     return list(dict.fromkeys(flagged + sample))
 
