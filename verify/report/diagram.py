@@ -389,6 +389,7 @@ def _halo() -> str:
     return 'paint-order="stroke" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round"'
 
 
+CROSSING_CHUNK = 256  # members swept per batch of pair tests (bounds the pair arrays' memory)
 CROSSING_AT = (
     0.3  # where along a member that crosses another its label and mark sit (not the crossing)
 )
@@ -403,25 +404,36 @@ def _crossing(model: Model, sx: np.ndarray, sy: np.ndarray) -> set[int]:
     )
     lo, hi = np.minimum(p, q), np.maximum(p, q)
     order = np.argsort(lo[:, 0])
+    # A sweep along x: member a meets only the members after it in this order whose boxes start
+    # before its box ends. All those pairs are tested at once (at most MAX_LABELLED_MEMBERS
+    # members are labelled, so the pairs stay few; a plan view of a 3D grid overlaps many boxes,
+    # and one pair at a time in Python cost 0.2 s per drawing at 10^3 members).
+    stop = np.searchsorted(lo[order, 0], hi[order, 0], side="right")
+    start = np.arange(1, order.size + 1)
+    count = np.maximum(stop - start, 0)
     out: set[int] = set()
-    for pos, a in enumerate(order.tolist()):
-        for b in order[pos + 1 :].tolist():
-            if lo[b, 0] > hi[a, 0]:
-                break
-            if (
-                lo[b, 1] > hi[a, 1]
-                or hi[b, 1] < lo[a, 1]
-                or set(ends[a].tolist()) & set(ends[b].tolist())
-            ):
-                continue
-            d1, d2 = q[a] - p[a], q[b] - p[b]
-            den = d1[0] * d2[1] - d1[1] * d2[0]
-            if abs(den) < 1e-9:
-                continue
-            t = ((p[b][0] - p[a][0]) * d2[1] - (p[b][1] - p[a][1]) * d2[0]) / den
-            u = ((p[b][0] - p[a][0]) * d1[1] - (p[b][1] - p[a][1]) * d1[0]) / den
-            if 0.05 < t < 0.95 and 0.05 < u < 0.95:
-                out.update((a, b))
+    for first in range(0, order.size, CROSSING_CHUNK):
+        sl = slice(first, first + CROSSING_CHUNK)
+        c = count[sl]
+        if not c.sum():
+            continue
+        a = np.repeat(order[sl], c)
+        offset = np.arange(c.sum()) - np.repeat(np.cumsum(c) - c, c)
+        b = order[np.repeat(start[sl], c) + offset]
+        keep = ~((lo[b, 1] > hi[a, 1]) | (hi[b, 1] < lo[a, 1]))
+        keep &= (ends[b, 0] != ends[a, 0]) & (ends[b, 0] != ends[a, 1])
+        keep &= (ends[b, 1] != ends[a, 0]) & (ends[b, 1] != ends[a, 1])
+        a, b = a[keep], b[keep]
+        d1, d2 = q[a] - p[a], q[b] - p[b]
+        den = d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]
+        ok = np.abs(den) >= 1e-9
+        a, b, d1, d2, den = a[ok], b[ok], d1[ok], d2[ok], den[ok]
+        dp = p[b] - p[a]
+        t = (dp[:, 0] * d2[:, 1] - dp[:, 1] * d2[:, 0]) / den
+        u = (dp[:, 0] * d1[:, 1] - dp[:, 1] * d1[:, 0]) / den
+        hit = (0.05 < t) & (t < 0.95) & (0.05 < u) & (u < 0.95)
+        out.update(a[hit].tolist())
+        out.update(b[hit].tolist())
     return out
 
 
