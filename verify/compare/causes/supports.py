@@ -46,7 +46,8 @@ def explain_released_support(
     for reaction in model.reactions[:MAX_RELEASES]:
         kept = tuple(r for r in model.reactions if r is not reaction)
         variant = dataclasses.replace(model, reactions=kept)
-        forces = _solve(analysis.run.variant(variant), columns, analysis.assumed_EA)
+        run = analysis.run.variant(variant)
+        forces, by_stiffness = _solve(run, columns, analysis.assumed_EA)
         if forces is None:
             continue  # a mechanism without it
         computed = forces[frame.member, where]
@@ -56,6 +57,8 @@ def explain_released_support(
         explained = pending & now
         if explained.sum() < max(MIN_EXPLAINED, CLEAR_MAJORITY * pending.sum()):
             continue
+        if by_stiffness and not _stable_indeterminate(run):
+            continue  # the stiffness solve went through, yet the truss is not that
         if best is None or explained.sum() > best.explained.sum():
             restrained = sorted(r.axis for r in model.reactions if r.joint == reaction.joint)
             words = (
@@ -69,9 +72,26 @@ def explain_released_support(
 
 def _solve(
     run: AnalysisRun, columns: np.ndarray, assume_equal_EA: float | None
-) -> np.ndarray | None:
-    """Member forces of the released truss for the claimed columns, or None for a mechanism."""
+) -> tuple[np.ndarray | None, bool]:
+    """Member forces of the released truss for the claimed columns (None for a mechanism), and
+    whether they came from the stiffness solve.
+
+    Those need the released truss to be stable and indeterminate, which the stability check (the
+    authority on mechanisms) tells; it is far dearer than the solve (a full classification per
+    release), so the caller asks it only for a release that would explain the claims
+    (_stable_indeterminate): most explain nothing, and a singular K already shows most mechanisms.
+    """
     forces = solve_members(run, columns)  # determinate once released
     if forces is not None:
-        return forces
-    return run.elastic_forces(columns, assume_equal_EA)  # None: a mechanism, or no stiffness
+        return forces, False
+    try:
+        elastic = run.elastic(assume_equal_EA)
+    except ValueError:
+        return None, True  # a singular K (a mechanism), or no stiffness
+    return np.asarray(elastic.forces.member_forces)[:, np.asarray(columns, dtype=np.int64)], True
+
+
+def _stable_indeterminate(run: AnalysisRun) -> bool:
+    from verify.analysis.stability import Classification
+
+    return run.stability().classification is Classification.STABLE_INDETERMINATE
