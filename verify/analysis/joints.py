@@ -309,16 +309,27 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                         t_v[k][c2] = (a1 * ry[k] - b1 * rx[k]) / det2
             if solved:
                 steps.append(new_tuple(JointStep, ("joint", (joints[joint].id,), (c1, c2), False)))
-                # mark((c1, c2)) written out: it runs for every joint of a large plane truss.
+                # mark((c1, c2)) written out: it runs for every joint of a large plane truss
+                # (the same joints queued in the same order: c1's ends, then c2's).
+                known_v[c1] = known_v[c2] = True
                 for c in (c1, c2):
-                    known_v[c] = True
-                    for j in (start_v[c], end_v[c]) if c < b else (r_joint_l[c - b],):
+                    if c < b:
+                        j = start_v[c]
                         left = unknown_count[j] - 1
                         unknown_count[j] = left
                         if 0 < left <= 2:
                             primary_append(j)
                         elif left == 3:
                             secondary_append(j)
+                        j = end_v[c]
+                    else:
+                        j = r_joint_l[c - b]
+                    left = unknown_count[j] - 1
+                    unknown_count[j] = left
+                    if 0 < left <= 2:
+                        primary_append(j)
+                    elif left == 3:
+                        secondary_append(j)
                 continue
         p0, p1 = ptr_v[joint], ptr_v[joint + 1]
         cols_j = inc_col[p0:p1]
