@@ -18,8 +18,7 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Iterable
 from dataclasses import dataclass, field
-from itertools import chain
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 import scipy.sparse.linalg as spla
@@ -127,6 +126,12 @@ def overall_reactions(model: Model) -> tuple[np.ndarray, np.ndarray, str] | None
     return R, point, pivot_joint
 
 
+def _view(array: np.ndarray) -> Any:
+    """The array's buffer as a memoryview: indexing it reads or writes one element in place as a
+    Python float, int or bool (typed Any: a memoryview is typed as holding ints)."""
+    return array.data
+
+
 def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     """Member forces and reactions by the method of joints, with the steps a hand calc takes.
 
@@ -139,7 +144,9 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     n_unknowns = b + r
     F = model.load_matrix()
     ncols = F.shape[1]
-    t = np.full((n_unknowns, ncols), np.nan)
+    # t by load column (row k of t_cols is column k of t), so the loop below reads and writes
+    # one flat row per column through a memoryview: no list per unknown, no copy at the end.
+    t_cols = np.full((ncols, n_unknowns), np.nan)
     known = np.zeros(n_unknowns, dtype=bool)
     steps: list[JointStep] = []
     notes: list[str] = []
@@ -148,7 +155,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     moment_point = moment_joint = None
     if first is not None:
         R, point, moment_joint = first
-        t[b:] = R
+        t_cols[:, b:] = R.T
         known[b:] = True
         moment_point = tuple(float(x) for x in point)
         steps.append(JointStep("reactions", (moment_joint,), tuple(range(b, b + r))))
@@ -175,44 +182,54 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     inc_col, inc_vec = inc_col[order], np.ascontiguousarray(inc_vec[order].T)
     ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=n_j))])
 
-    joint_ids = [j.id for j in model.joints]
+    joints = model.joints
     counts = np.bincount(
         inc_joint[order], weights=(~known[inc_col]).astype(float), minlength=n_j
     ).astype(np.int64)
+    del inc_joint, order
     primary: deque[int] = deque(np.flatnonzero((counts > 0) & (counts <= d)).tolist())
     secondary: deque[int] = deque(np.flatnonzero(counts == d + 1).tolist())
     unknown_count = counts.tolist()
-    ends_l = ends.tolist()
-    r_joint_l = r_joint.tolist()
     tried_partial: set[tuple[int, int]] = set()
     # Joints with d + 1 unknowns rarely give anything (only special geometry, e.g. two collinear
     # members); on large generic trusses trying each cost more than the whole solve. Stop trying
     # after PARTIAL_GIVE_UP fruitless attempts in a row.
     fruitless = 0
 
-    # Plain-Python mirrors for the 2D inner loop: at 10^5 members numpy's per-call overhead on
+    # Plain-Python access for the 2D inner loop: at 10^5 members numpy's per-call overhead on
     # 2x2 blocks cost more than the arithmetic (same equations, same order, same results).
-    known_l = known.tolist()
-    t_l: list[list[float] | None] = [None] * n_unknowns
-    for c in np.flatnonzero(known).tolist():
-        t_l[c] = t[c].tolist()
-    inc_col_l = inc_col.tolist()
-    vx_l = inc_vec[0].tolist() if d == 2 else []
-    vy_l = inc_vec[1].tolist() if d == 2 else []
-    ptr_l = ptr.tolist()
-    neg_load = (-F).tolist()
+    # Memoryviews index the arrays in place (an element each time, as a Python float or int),
+    # where lists made by tolist() cost time and a Python object per element up front.
+    known_v = _view(known)
+    t_v = [_view(row) for row in t_cols]
+    neg_v = [_view(row) for row in np.ascontiguousarray((-F).T)]
+    inc_col_v = _view(inc_col)
+    vx_v = _view(inc_vec[0]) if d == 2 else _view(np.zeros(0))
+    vy_v = _view(inc_vec[1]) if d == 2 else _view(np.zeros(0))
+    ptr_v = _view(ptr)
+    start_v = _view(np.ascontiguousarray(ends[:, 0]))
+    end_v = _view(np.ascontiguousarray(ends[:, 1]))
+    r_joint_l = r_joint.tolist()
+    primary_append, secondary_append = primary.append, secondary.append
+    t0_v = t_v[0] if ncols else known_v
+    t1_v = t_v[1] if ncols > 1 else t0_v
+    n0_v = neg_v[0] if ncols else known_v
+    n1_v = neg_v[1] if ncols > 1 else n0_v
+    # A step made by tuple.__new__ directly: JointStep(...) runs the named tuple's Python-level
+    # __new__, which at 10^6 members (5x10^5 steps) cost more than the tuple itself.
+    new_tuple = tuple.__new__
 
     def mark(cols: Iterable[int]) -> None:
         for c in cols:
-            known_l[c] = True
-            touched = ends_l[c] if c < b else (r_joint_l[c - b],)
+            known_v[c] = True
+            touched = (start_v[c], end_v[c]) if c < b else (r_joint_l[c - b],)
             for j in touched:
-                unknown_count[j] -= 1
-                left = unknown_count[j]
+                left = unknown_count[j] - 1
+                unknown_count[j] = left
                 if 0 < left <= d:
-                    primary.append(j)
+                    primary_append(j)
                 elif left == d + 1:
-                    secondary.append(j)
+                    secondary_append(j)
 
     while primary or secondary:
         joint = primary.popleft() if primary else secondary.popleft()
@@ -225,34 +242,102 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                 continue
             tried_partial.add(key)
         if d == 2 and count == 2:
-            rx = neg_load[2 * joint][:]
-            ry = neg_load[2 * joint + 1][:]
-            unk: list[tuple[int, float, float]] = []
-            for p in range(ptr_l[joint], ptr_l[joint + 1]):
-                c, ax, ay = inc_col_l[p], vx_l[p], vy_l[p]
-                known_row = t_l[c]
-                if known_row is not None:
+            # The two-unknown joint of a plane truss, written out for one and two load columns
+            # (each right-hand side is its own running sum: the order of the terms of each sum
+            # is the incidence order whatever the number of columns).
+            c1 = c2 = -1
+            a1 = b1 = a2 = b2 = 0.0
+            row = 2 * joint
+            if ncols == 2:
+                x0, y0, x1, y1 = n0_v[row], n0_v[row + 1], n1_v[row], n1_v[row + 1]
+                for p in range(ptr_v[joint], ptr_v[joint + 1]):
+                    c = inc_col_v[p]
+                    if known_v[c]:
+                        ax, ay, k0, k1 = vx_v[p], vy_v[p], t0_v[c], t1_v[c]
+                        x0 -= ax * k0
+                        y0 -= ay * k0
+                        x1 -= ax * k1
+                        y1 -= ay * k1
+                    elif c1 < 0:
+                        c1, a1, b1 = c, vx_v[p], vy_v[p]
+                    else:
+                        c2, a2, b2 = c, vx_v[p], vy_v[p]
+                det2 = a1 * b2 - a2 * b1
+                solved = abs(det2) > DEPENDENT_RTOL
+                if solved:
+                    t0_v[c1] = (b2 * x0 - a2 * y0) / det2
+                    t1_v[c1] = (b2 * x1 - a2 * y1) / det2
+                    t0_v[c2] = (a1 * y0 - b1 * x0) / det2
+                    t1_v[c2] = (a1 * y1 - b1 * x1) / det2
+            elif ncols == 1:
+                x0, y0 = n0_v[row], n0_v[row + 1]
+                for p in range(ptr_v[joint], ptr_v[joint + 1]):
+                    c = inc_col_v[p]
+                    if known_v[c]:
+                        ax, ay, k0 = vx_v[p], vy_v[p], t0_v[c]
+                        x0 -= ax * k0
+                        y0 -= ay * k0
+                    elif c1 < 0:
+                        c1, a1, b1 = c, vx_v[p], vy_v[p]
+                    else:
+                        c2, a2, b2 = c, vx_v[p], vy_v[p]
+                det2 = a1 * b2 - a2 * b1
+                solved = abs(det2) > DEPENDENT_RTOL
+                if solved:
+                    t0_v[c1] = (b2 * x0 - a2 * y0) / det2
+                    t0_v[c2] = (a1 * y0 - b1 * x0) / det2
+            else:
+                rx = [n[row] for n in neg_v]
+                ry = [n[row + 1] for n in neg_v]
+                for p in range(ptr_v[joint], ptr_v[joint + 1]):
+                    c = inc_col_v[p]
+                    if known_v[c]:
+                        ax, ay = vx_v[p], vy_v[p]
+                        for k in range(ncols):
+                            value = t_v[k][c]
+                            rx[k] -= ax * value
+                            ry[k] -= ay * value
+                    elif c1 < 0:
+                        c1, a1, b1 = c, vx_v[p], vy_v[p]
+                    else:
+                        c2, a2, b2 = c, vx_v[p], vy_v[p]
+                det2 = a1 * b2 - a2 * b1
+                solved = abs(det2) > DEPENDENT_RTOL
+                if solved:
                     for k in range(ncols):
-                        rx[k] -= ax * known_row[k]
-                        ry[k] -= ay * known_row[k]
-                else:
-                    unk.append((c, ax, ay))
-            (c1, a1, b1), (c2, a2, b2) = unk
-            det2 = a1 * b2 - a2 * b1
-            if abs(det2) > DEPENDENT_RTOL:
-                # t_l rows are copied into the array t once, after the loop.
-                t_l[c1] = [(b2 * rx[k] - a2 * ry[k]) / det2 for k in range(ncols)]
-                t_l[c2] = [(a1 * ry[k] - b1 * rx[k]) / det2 for k in range(ncols)]
-                steps.append(JointStep("joint", (joint_ids[joint],), (c1, c2)))
-                mark((c1, c2))
+                        t_v[k][c1] = (b2 * rx[k] - a2 * ry[k]) / det2
+                        t_v[k][c2] = (a1 * ry[k] - b1 * rx[k]) / det2
+            if solved:
+                steps.append(new_tuple(JointStep, ("joint", (joints[joint].id,), (c1, c2), False)))
+                # mark((c1, c2)) written out: it runs for every joint of a large plane truss
+                # (the same joints queued in the same order: c1's ends, then c2's).
+                known_v[c1] = known_v[c2] = True
+                for c in (c1, c2):
+                    if c < b:
+                        j = start_v[c]
+                        left = unknown_count[j] - 1
+                        unknown_count[j] = left
+                        if 0 < left <= 2:
+                            primary_append(j)
+                        elif left == 3:
+                            secondary_append(j)
+                        j = end_v[c]
+                    else:
+                        j = r_joint_l[c - b]
+                    left = unknown_count[j] - 1
+                    unknown_count[j] = left
+                    if 0 < left <= 2:
+                        primary_append(j)
+                    elif left == 3:
+                        secondary_append(j)
                 continue
-        cols_j = inc_col[ptr_l[joint] : ptr_l[joint + 1]]
-        is_known = np.array([known_l[c] for c in cols_j.tolist()], dtype=bool)
-        block = inc_vec[:, ptr_l[joint] : ptr_l[joint + 1]]
+        p0, p1 = ptr_v[joint], ptr_v[joint + 1]
+        cols_j = inc_col[p0:p1]
+        is_known = known[cols_j]
+        block = inc_vec[:, p0:p1]
         M = block[:, ~is_known]
-        known_rows = np.array([t_l[c] for c in cols_j[is_known].tolist()], dtype=float).reshape(
-            -1, ncols
-        )
+        # C-ordered like the rows it replaces, so the product below takes the same path.
+        known_rows = np.ascontiguousarray(t_cols[:, cols_j[is_known]].T)
         rhs = -F[joint * d : (joint + 1) * d] - block[:, is_known] @ known_rows
         unknown = [int(c) for c in cols_j[~is_known]]
         if M.shape[1] == d:
@@ -265,13 +350,11 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                 det = float(np.linalg.det(M))
             if abs(det) > DEPENDENT_RTOL:
                 if d == 2:
-                    t[unknown[0]] = (e * rhs[0] - b_ * rhs[1]) / det
-                    t[unknown[1]] = (a * rhs[1] - c * rhs[0]) / det
+                    t_cols[:, unknown[0]] = (e * rhs[0] - b_ * rhs[1]) / det
+                    t_cols[:, unknown[1]] = (a * rhs[1] - c * rhs[0]) / det
                 else:
-                    t[unknown] = np.linalg.solve(M, rhs)
-                for col in unknown:
-                    t_l[col] = t[col].tolist()
-                steps.append(JointStep("joint", (model.joints[joint].id,), tuple(unknown)))
+                    t_cols[:, unknown] = np.linalg.solve(M, rhs).T
+                steps.append(JointStep("joint", (joints[joint].id,), tuple(unknown)))
                 mark(unknown)
                 continue
         # Which unknowns does this joint determine? Those with no component in null(M).
@@ -288,26 +371,18 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         # Minimum-norm solution from the same SVD; its determined components are unique.
         solution = vh[:rank].T @ ((left[:, :rank].T @ rhs) / sv[:rank, None])
         chosen = [unknown[k] for k in determined]
-        t[chosen] = solution[determined]
-        for col in chosen:
-            t_l[col] = t[col].tolist()
+        t_cols[:, chosen] = solution[determined].T
         steps.append(
             JointStep(
                 "joint",
-                (model.joints[joint].id,),
+                (joints[joint].id,),
                 tuple(chosen),
                 partial=len(chosen) < len(unknown),
             )
         )
         mark(chosen)
 
-    nan_row = [float("nan")] * ncols
-    t = np.fromiter(
-        chain.from_iterable(row if row is not None else nan_row for row in t_l),
-        dtype=float,
-        count=n_unknowns * ncols,
-    ).reshape(n_unknowns, ncols)
-    known = np.array(known_l, dtype=bool)
+    t = np.ascontiguousarray(t_cols.T)
     stalled = not known.all()
     if stalled:
         rest = np.nonzero(~known)[0]

@@ -26,7 +26,7 @@ exploded on an offset double-layer grid (> 60 s against 2.6 s). So we try MMD_AT
 symmetric mode (diagonal pivots, valid because K_f is symmetric positive definite for a stable
 truss) and fall back to COLAMD with partial pivoting if
 
-* it has not finished within ``time_box`` seconds (default ORDERING_TIME_BOX), or
+* it has not finished within its time box (see below), or
 * it fails (a zero pivot without pivoting).
 
 Small systems (at most DIRECT_FREE_LIMIT free dofs) are factorised directly. There MMD's worst
@@ -34,9 +34,39 @@ case, measured here on the offset grid, stays below 0.1 s. Larger ones run the M
 forked child process that is killed when the time box runs out. SuperLU cannot be interrupted,
 and a thread left running would keep a core and gigabytes of fill busy. The child returns the
 solution, not the factor, and only the solution is needed. Where fork() is not available the
-COLAMD route is taken directly. The notes state the ordering actually used. Measured on the offset
-double-layer grid (9,248 members, 7,131 free dofs): MMD_AT_PLUS_A 6.7 s with 8.1 M fill, COLAMD
-0.17 s with 1.3 M.
+COLAMD route is taken directly. The notes state the ordering actually used.
+
+The time box grows with the size of the reduced K: ``ORDERING_SECONDS_PER_NONZERO`` per stored
+nonzero of K_f, at least ``ORDERING_TIME_BOX_MIN`` and at most ``ORDERING_TIME_BOX`` (what a
+fixed box of 1.5 s cost: a 10^4-member offset grid waited 1.5 s for an MMD attempt that could
+not finish, where COLAMD then took 0.06 s). Calibration, measured here (2 cores, quiet machine,
+4 repeats each, factorisation + solve in the forked child; grids from bench/generate.py with
+``[stiffness] EA`` added):
+
+============================  =======  =========  ========  ===========  ========
+K_f of                        members  nonzeros   MMD       per nonzero  COLAMD
+============================  =======  =========  ========  ===========  ========
+determinate 3D grid             1,040     13,316  0.004 s   0.3 us       0.004 s
+determinate 3D grid             2,948     38,768  0.009 s   0.23 us      0.016 s
+determinate 3D grid            10,168    136,124  0.040 s   0.3 us       0.091 s
+determinate 3D grid            30,388    410,384  0.16 s    0.40 us      0.53 s
+determinate 3D grid            49,868    675,224  0.31 s    0.46 us      1.05 s
+determinate 3D grid           100,104  1,359,148  0.87 s    0.64 us      3.7 s
+2D Pratt, crossed diagonals   100,001    498,000  0.09 s    0.18 us      0.06 s
+offset double-layer grid        2,888     30,176  0.045 s   1.5 us       0.013 s
+offset double-layer grid        9,800    103,744  2.2 s     21 us        0.064 s
+offset double-layer grid       29,768    317,204  > 10 s    > 31 us      0.34 s
+============================  =======  =========  ========  ===========  ========
+
+Where MMD wins it stayed at or below 0.64 us per nonzero (0.76 us in a slower repeat of the
+10^5-member grid, 1.03 s); where its fill exploded it took 21 us and more. 2 us per nonzero leaves
+the winners several times their time and stops the explosions after a tenth of theirs: the
+9,800-member offset grid now waits 0.21 s instead of 1.5 s. Timings here vary with other work on
+the machine (the 10^4 grid's MMD took 0.18-0.31 s while another benchmark ran, against its box of
+0.27 s); an attempt stopped early costs only the COLAMD solve (0.09 s there) and notes say so.
+The floor of 0.1 s covers the fork and the smallest time-boxed systems (just above
+DIRECT_FREE_LIMIT); from 750,000 nonzeros the box is at its cap of 1.5 s, which the 10^5-member
+grid's MMD (0.87-1.03 s) still needs.
 
 Back-check: every answer is checked against equilibrium (max |A t + f|) and the figure recorded.
 A mechanism makes K_f singular. An exactly singular factorisation, or a pivot ratio below
@@ -66,7 +96,9 @@ from verify.analysis.run import AnalysisRun
 from verify.forking import SERIAL_ENV, Forked, ForkFailed, ForkTimeout, fork_allowed
 from verify.model import Model
 
-ORDERING_TIME_BOX = 1.5  # s; MMD took 0.87 s on the 10^5-member grid where it is the better choice
+ORDERING_TIME_BOX = 1.5  # s, the cap: MMD took 0.87 s on the 10^5-member grid, where it wins
+ORDERING_TIME_BOX_MIN = 0.1  # s: the fork and the smallest time-boxed systems
+ORDERING_SECONDS_PER_NONZERO = 2e-6  # of K_f; calibration in the module docstring
 DIRECT_FREE_LIMIT = (
     2000  # free dofs: MMD's worst case measured here stays below 0.1 s (no time box)
 )
@@ -263,6 +295,14 @@ def _mmd_solve(K: sp.csc_matrix, rhs: np.ndarray) -> tuple[np.ndarray, float, in
     return x, _pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
 
 
+def ordering_time_box(nonzeros: int) -> float:
+    """Seconds the MMD attempt on a reduced K with this many stored nonzeros may take (see the
+    module docstring for the calibration)."""
+    return min(
+        ORDERING_TIME_BOX, max(ORDERING_TIME_BOX_MIN, ORDERING_SECONDS_PER_NONZERO * nonzeros)
+    )
+
+
 def _time_boxed_mmd(
     K: sp.csc_matrix, rhs: np.ndarray, time_box: float
 ) -> tuple[tuple[np.ndarray, float, int, float] | None, str]:
@@ -280,7 +320,7 @@ def _time_boxed_mmd(
         return child.result(timeout=time_box), ""
     except ForkTimeout:
         return None, (
-            f"MMD_AT_PLUS_A did not finish within the {time_box:g} s time box (its fill can "
+            f"MMD_AT_PLUS_A did not finish within the {time_box:.2g} s time box (its fill can "
             "explode on some 3D grids) and was stopped"
         )
     except ForkFailed as exc:
@@ -290,7 +330,7 @@ def _time_boxed_mmd(
 
 
 def _solve_reduced(
-    K: sp.csc_matrix, rhs: np.ndarray, time_box: float
+    K: sp.csc_matrix, rhs: np.ndarray, time_box: float | None
 ) -> tuple[np.ndarray, float, list[str]]:
     """Solve K x = rhs for the symmetric positive definite K_f; ordering per the module docstring.
 
@@ -314,7 +354,8 @@ def _solve_reduced(
                 ],
             )
     else:
-        answer, why = _time_boxed_mmd(K, rhs, time_box)
+        box = time_box if time_box is not None else ordering_time_box(K.nnz)
+        answer, why = _time_boxed_mmd(K, rhs, box)
         if answer is not None:
             x, ratio, fill, seconds = answer
             return (
@@ -348,11 +389,13 @@ def solve_stiffness(
     model: Model,
     *,
     assume_equal_EA: float | None = None,
-    time_box: float = ORDERING_TIME_BOX,
+    time_box: float | None = None,
     run: AnalysisRun | None = None,
 ) -> ElasticSolution:
     """Elastic member forces, reactions and joint displacements by the direct stiffness method.
 
+    ``time_box``: seconds for the MMD attempt; None scales it with the size of K_f
+    (:func:`ordering_time_box`).
     Raises MissingStiffnessError when some members have no EA and ``assume_equal_EA`` is None,
     and SingularStiffnessError when the supported truss is a mechanism (K_f singular).
     """
