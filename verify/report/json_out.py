@@ -21,6 +21,7 @@ import numpy as np
 from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.compare.diagnose import ROW_KEYS
+from verify.compare.rows import Labels, Numbers, Rows
 from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
@@ -144,7 +145,7 @@ class RowTable:
         self,
         rows: Sequence[tuple[Any, ...]],
         fields: Sequence[tuple[str, int]],
-        appended: Sequence[tuple[str, Sequence[Any]]] = (),
+        appended: Sequence[tuple[str, Sequence[Any] | Labels]] = (),
     ) -> None:
         self.rows = rows
         self.fields = tuple(fields)
@@ -164,21 +165,77 @@ class RowTable:
 def _row_table(table: RowTable, level: int) -> Iterator[str]:
     rows = table.rows
     keys = tuple(key for key, _ in table.fields) + tuple(key for key, _ in table.appended)
-    if rows and not keys:  # empty objects: "{}", which the template cannot write
+    if rows and not keys:  # empty objects: "{}", which the pieces below cannot write
         yield from _lazy_list(iter(table), level)
         return
-    template = _template(keys, level + 1)
-
-    def encoded() -> Iterator[str]:
-        # A chunk of rows at a time, column by column: each column's values encoded in one map.
-        for start in range(0, len(rows), CHUNK_ITEMS):
-            stop = start + CHUNK_ITEMS
+    if not rows:
+        yield "[]"
+        return
+    # Each object as json.dumps(indent=2) lays it out: "{", then per key a line with the key and
+    # its value, then "}"; objects joined by "," and a new line. A chunk of rows is written by
+    # interleaving the key pieces with each column's value texts in one list, joined once: no
+    # Python work per row but the values' own texts.
+    inner = "\n" + INDENT * (level + 1)
+    field = "\n" + INDENT * (level + 2)
+    heads = ["{" + field + _key(keys[0]) + ": "] + [
+        "," + field + _key(key) + ": " for key in keys[1:]
+    ]
+    close = "\n" + INDENT * (level + 1) + "}"
+    between = close + "," + inner
+    width = 2 * len(keys) + 1
+    sources: list[Any] = (
+        [rows.columns[at] for _, at in table.fields]
+        if isinstance(rows, Rows)
+        else [None] * len(table.fields)
+    )
+    sources += [values for _, values in table.appended]
+    writers = [_column_writer(source, level + 2) for source in sources]
+    for start in range(0, len(rows), CHUNK_ITEMS):
+        stop = min(start + CHUNK_ITEMS, len(rows))
+        if isinstance(rows, Rows):
+            texts = [write(start, stop) for write in writers[: len(table.fields)]]
+        else:
             columns = list(zip(*rows[start:stop], strict=True))
             texts = [_column_text(columns[at], level + 2) for _, at in table.fields]
-            texts += [_column_text(values[start:stop], level + 2) for _, values in table.appended]
-            yield from map(template.__mod__, zip(*texts, strict=True))
+        texts += [write(start, stop) for write in writers[len(table.fields) :]]
+        m = stop - start
+        flat = [between] * (m * width)
+        for j, (head, text) in enumerate(zip(heads, texts, strict=True)):
+            flat[2 * j :: width] = [head] * m
+            flat[2 * j + 1 :: width] = text
+        flat[-1] = close
+        yield ("[" if start == 0 else ",") + inner + "".join(flat)
+    yield "\n" + INDENT * level + "]"
 
-    yield from _framed(encoded(), level)
+
+LABELS_ENCODED = 4_096  # a word column with up to this many labels has each encoded once
+
+
+def _column_writer(source: Any, level: int) -> Callable[[int, int], list[str]]:
+    """The JSON texts of rows start..stop of one column (verify.compare.rows), or of a list."""
+    if isinstance(source, Labels) and len(source.labels) <= LABELS_ENCODED:
+        encoded = [_encode(label, level) for label in source.labels]
+        codes = source.codes
+        return lambda start, stop: list(map(encoded.__getitem__, codes[start:stop].tolist()))
+    if isinstance(source, Numbers):
+        values, present = source.values, source.present
+
+        def numbers(start: int, stop: int) -> list[str]:
+            chunk = values[start:stop]
+            texts = list(map(float.__repr__, chunk.tolist()))
+            with np.errstate(invalid="ignore"):
+                bad = ~(present[start:stop] & np.isfinite(chunk))
+            if bad.any():  # absent (None), NaN or infinite: null, as json.dumps writes NaN
+                for k in np.flatnonzero(bad).tolist():
+                    texts[k] = "null"
+            return texts
+
+        return numbers
+    if source is None:  # a field of a sequence of tuples: transposed by the caller
+        return lambda start, stop: []
+    if hasattr(source, "chunk"):
+        return lambda start, stop: _column_text(source.chunk(start, stop), level)
+    return lambda start, stop: _column_text(source[start:stop], level)
 
 
 def _column_text(values: Sequence[Any], level: int) -> list[str]:
@@ -379,6 +436,14 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
     return data
 
 
+def _row_units(rows: Sequence[Any], length: str, force: str) -> Sequence[str] | Labels:
+    """The unit of each row's values: the length unit for a displacement, else the force unit."""
+    kind = rows.field("kind") if isinstance(rows, Rows) else None
+    if isinstance(kind, Labels):
+        return Labels(kind.codes, [length if k == "displacement" else force for k in kind.labels])
+    return [length if row.kind == "displacement" else force for row in rows]
+
+
 def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None) -> dict[str, Any]:
     """The DESIGN.md section 4 `check --json` object (extra fields allowed, contract keys kept).
 
@@ -400,9 +465,7 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         "convention": public_convention(review.convention.as_dict(), force),
         # A generator: iter_dumps writes the rows as it draws them (dumps accepts it too).
         "members": RowTable(
-            review.rows,
-            ROW_KEYS,
-            [(ROW_UNIT, [length if row.kind == "displacement" else force for row in review.rows])],
+            review.rows, ROW_KEYS, [(ROW_UNIT, _row_units(review.rows, length, force))]
         ),
         "findings": [f.as_dict() for f in review.findings],
         "summary": {
