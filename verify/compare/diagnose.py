@@ -929,13 +929,14 @@ def _rows(c: Comparison) -> None:
     has_global, has_elastic = global_a[1], elastic_a[1]
     has_computed = has_global | has_elastic
     compared = judged & has_computed & comparable
-    raw_l, fixed_l = raw.tolist(), fixed_all.tolist()
     text_l, where_l = arrays.text, arrays.where
 
     def as_written(i: int) -> str:
-        raw_i = raw_l[i]
+        raw_i = float(raw[i])  # read for the few claims without their cell (built in memory)
         return text_l[i] or (
-            f"{abs(raw_i):g} {'T' if raw_i > 0 else 'C'}" if fixed_l[i] and raw_i else f"{raw_i:g}"
+            f"{abs(raw_i):g} {'T' if raw_i > 0 else 'C'}"
+            if fixed_all[i] and raw_i
+            else f"{raw_i:g}"
         )
 
     def numbers(route_a: tuple[np.ndarray, np.ndarray]) -> Numbers:
@@ -964,10 +965,11 @@ def _rows(c: Comparison) -> None:
     # The judged member claims the causes read (ClaimsFrame): claim and row positions.
     frame_claims = np.flatnonzero(compared)
     frame_row_at = row_of[frame_claims]
-    value_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
     for i in np.flatnonzero(compared & ~agree_all).tolist():
         r = int(row_of[i])
-        diffs.append((r, arrays.claim(i), value_l[i], computed_l[i], allowed_l[i]))
+        diffs.append(
+            (r, arrays.claim(i), float(values[i]), float(computed_arr[i]), float(allowed_all[i]))
+        )
         rounding_of_row[r] = float(rounding_unit[i]) * abs(scale_fit)
     for i in np.flatnonzero(gives_row & reaction_at).tolist():
         name = mapped_of_column[int(arrays.column[i])]
@@ -977,7 +979,7 @@ def _rows(c: Comparison) -> None:
         joint, axis = arrays.reaction[i]
         rounding = float(rounding_unit[i]) * scale_fit
         # Reactions are global components: the table sign convention for T/C does not apply.
-        value = raw_l[i] * conv[i] * scale_fit
+        value = float(raw[i]) * conv[i] * scale_fit
         matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
         computed = None
         if ref is not None and matches:
@@ -1528,7 +1530,7 @@ def _self_check(c: Comparison) -> None:
         values[own],
         rounding_unit[own] * abs(scale_fit),
         tol.rtol,
-        [c.arrays.where[int(i)] for i in own],
+        Picked(c.arrays.where.__getitem__, own),
     ):
         if set(f.members) <= anywhere:
             f = dataclasses.replace(f, severity=Severity.INFO)
