@@ -411,7 +411,9 @@ def _units(c: Comparison) -> None:
     # Allowances for how each value was written (decimals shown, a column's significant figures or
     # step), in the claim's unit from the reader; here in the case's.
     rounding_unit = arrays.rounding * np.abs(conv)
-    column_of_claim = np.array(arrays.names, dtype=object)[arrays.column]
+    # Each claim's column as its position in arrays.names (names are unique): compared as
+    # integers, not as an object array of names (a Python comparison per claim).
+    column_of_claim = arrays.column
     is_member_claim = member_pos >= 0
     tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
@@ -531,8 +533,9 @@ def _case_mismatch(c: Comparison) -> None:
     remap: dict[str, str] = {}
     if comparable and ref is not None:
         column_of = c.column_of_claim
+        names = list(c.arrays.names)
         for column in columns:
-            idx = np.nonzero((column_of == column) & (member_pos >= 0))[0]
+            idx = np.nonzero((column_of == names.index(column)) & (member_pos >= 0))[0]
             if len(idx) < MIN_MEMBERS_FOR_TABLE:
                 continue
             scores: dict[str, float] = {}
@@ -619,7 +622,7 @@ def _column_readings(c: Comparison) -> None:
         column_fit: dict[str, tuple[int, float, Fit, Fit, np.ndarray]] = {}
         for column in columns:
             target = mapping.get(column)
-            idx = member_idx[column_of_claim[member_idx] == column]
+            idx = member_idx[column_of_claim[member_idx] == columns.index(column)]
             if target is None or len(idx) < MIN_MEMBERS_FOR_TABLE:
                 continue
             k = load_names.index(target)
@@ -652,7 +655,7 @@ def _column_readings(c: Comparison) -> None:
                 rel_sign, rel_factor = col_sign * common[0], col_factor / common[1]
                 if rel_sign == 1 and abs(rel_factor - 1.0) < 1e-9:
                     continue
-                in_column = column_of_claim == column
+                in_column = column_of_claim == columns.index(column)
                 stated = {c.arrays.units[u] for u in np.unique(c.arrays.unit[idx])}
                 told = (
                     f"its header states {', '.join(sorted(str(u) for u in stated))}"
@@ -1766,7 +1769,7 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         k = model.load_names.index(name)
         if C[case, k] == 0:
             continue
-        idx = c.member_idx[c.column_of_claim[c.member_idx] == other]
+        idx = c.member_idx[c.column_of_claim[c.member_idx] == c.columns.index(other)]
         if len(idx) < MIN_MEMBERS_FOR_TABLE:
             continue
         claimed = c.raw[idx] * c.conv[idx]
