@@ -103,3 +103,36 @@ def test_a_real_check_of_thousands_of_rows_streams_the_standard_encoders_bytes(t
     held["members"] = list(held["members"])
     assert len(held["members"]) == len(result.review.rows)
     assert text == reference(held)
+
+
+def test_member_ids_and_cells_needing_escapes_in_some_chunks_only():
+    """More member ids than the writer encodes up front, and cells and places with quotes,
+    backslashes and control characters in one chunk: written escaped there, as they are in the
+    other chunks, exactly as json.dumps writes them."""
+    n = json_out.LABELS_ENCODED + 2 * json_out.CHUNK_ITEMS
+    ids = [f"M{k}" for k in range(n)]
+    ids[7], ids[11] = 'M"7', "M\\11"
+    ids[n - 3] = "M\tlast ü"
+    cells = [f"{k / 7:.3f} T" for k in range(n)]
+    cells[json_out.CHUNK_ITEMS + 5] = '12 "kN"'
+    cells[json_out.CHUNK_ITEMS + 6] = ""  # a claim without its cell: spelled from its value
+    where = [f"row {k + 2}, column 'dead'" for k in range(n)]
+    where[2 * json_out.CHUNK_ITEMS + 1] = "row 9\n, column 'x'"
+    values = np.arange(n) / 7.0
+    rows = Rows(
+        (
+            Labels(np.arange(n)[::-1].copy(), ids),
+            Labels(np.zeros(n, dtype=np.int64), ["member"]),
+            Labels(np.arange(n) % 2, ["dead", "wind"]),
+            Numbers(values),
+            Written(np.arange(n), lambda k: f"{values[k]:g}", cells, where),
+            *(Numbers(values) for _ in range(4)),
+            Numbers(np.zeros(n)),
+            Labels(np.zeros(n, dtype=np.int64), ["agrees", "unused"]),
+        )
+    )
+    rows.set_status(3, "sign-flip")
+    units = Labels(np.zeros(n, dtype=np.int64), ["kN"])
+    table = json_out.RowTable(rows, ROW_KEYS, [(ROW_UNIT, units)])
+    expected = reference({"members": as_objects(list(rows), ["kN"] * n)})
+    assert json_out.dumps({"members": table}) == expected

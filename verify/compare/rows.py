@@ -169,6 +169,22 @@ class Written:
         if self.get(i) != value:
             self.set_texts[i] = value
 
+    def parts(self, start: int, stop: int) -> tuple[list[str], list[str]] | None:
+        """The cells and the places of rows start..stop, when every row has a claim whose cell
+        was kept and none was set anew (the JSON writer lays them out without joining them)."""
+        claims = self.claim[start:stop]
+        if (claims < 0).any() or any(start <= i < stop for i in self.set_texts):
+            return None
+        picked = claims.tolist()
+        if len(picked) > 1:
+            cells, where = (
+                list(itemgetter(*picked)(self.cells)),
+                list(itemgetter(*picked)(self.where)),
+            )
+        else:
+            cells, where = [self.cells[k] for k in picked], [self.where[k] for k in picked]
+        return (cells, where) if all(cells) else None
+
     def chunk(self, start: int, stop: int) -> list[Any]:
         claims = self.claim[start:stop]
         n = claims.size

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json.encoder
 import math
+import re
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from json.encoder import encode_basestring  # the C string encoder json.dumps uses
 from typing import Any
@@ -21,7 +22,7 @@ import numpy as np
 from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.compare.diagnose import ROW_KEYS
-from verify.compare.rows import Labels, Numbers, Rows
+from verify.compare.rows import Labels, Numbers, Rows, Written
 from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
@@ -173,8 +174,8 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
         return
     # Each object as json.dumps(indent=2) lays it out: "{", then per key a line with the key and
     # its value, then "}"; objects joined by "," and a new line. A chunk of rows is written by
-    # interleaving the key pieces with each column's value texts in one list, joined once: no
-    # Python work per row but the values' own texts.
+    # interleaving the fixed pieces (keys, quotes, separators) with each column's value texts in
+    # one list, joined once: no Python work per row but the values' own texts.
     inner = "\n" + INDENT * (level + 1)
     field = "\n" + INDENT * (level + 2)
     heads = ["{" + field + _key(keys[0]) + ": "] + [
@@ -182,7 +183,6 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
     ]
     close = "\n" + INDENT * (level + 1) + "}"
     between = close + "," + inner
-    width = 2 * len(keys) + 1
     sources: list[Any] = (
         [rows.columns[at] for _, at in table.fields]
         if isinstance(rows, Rows)
@@ -195,41 +195,88 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
         stop = min(start + CHUNK_ITEMS, len(rows))
         written.clear()
         if isinstance(rows, Rows):
-            texts = [write(start, stop) for write in writers[: len(table.fields)]]
+            parts = [write(start, stop) for write in writers[: len(table.fields)]]
         else:
             columns = list(zip(*rows[start:stop], strict=True))
-            texts = [_column_text(columns[at], level + 2) for _, at in table.fields]
-        texts += [write(start, stop) for write in writers[len(table.fields) :]]
-        m = stop - start
-        flat = [between] * (m * width)
-        for j, (head, text) in enumerate(zip(heads, texts, strict=True)):
-            flat[2 * j :: width] = [head] * m
-            flat[2 * j + 1 :: width] = text
-        flat[-1] = close
+            parts = [[_column_text(columns[at], level + 2)] for _, at in table.fields]
+        parts += [write(start, stop) for write in writers[len(table.fields) :]]
+        # One row's pieces in order: fixed texts (merged when adjacent) and per-row lists.
+        slots: list[str | list[str]] = []
+        for head, column_parts in zip(heads, parts, strict=True):
+            for piece in (head, *column_parts):
+                if isinstance(piece, str) and slots and isinstance(slots[-1], str):
+                    slots[-1] += piece
+                else:
+                    slots.append(piece)
+        if isinstance(slots[-1], str):
+            last = slots[-1] + close
+            slots[-1] += between
+        else:
+            last = close
+            slots.append(between)
+        m, width = stop - start, len(slots)
+        flat: list[str] = [between] * (m * width)
+        for j, slot in enumerate(slots):
+            flat[j::width] = [slot] * m if isinstance(slot, str) else slot
+        flat[-1] = last
         yield ("[" if start == 0 else ",") + inner + "".join(flat)
     yield "\n" + INDENT * level + "]"
 
 
 LABELS_ENCODED = 4_096  # a word column with up to this many labels has each encoded once
+# What json.dumps(ensure_ascii=False) escapes in a string: a string without any of these is
+# written as itself between quotes.
+NEEDS_ESCAPE = re.compile(r'[\x00-\x1f"\\]')
+
+
+def _plain(*columns: list[str]) -> bool:
+    """Whether every string of these columns is written as itself between quotes."""
+    return not any(NEEDS_ESCAPE.search("".join(column)) for column in columns)
 
 
 def _column_writer(
     source: Any, level: int, written: list[tuple[np.ndarray, np.ndarray, np.ndarray]]
-) -> Callable[[int, int], list[str]]:
-    """The JSON texts of rows start..stop of one column (verify.compare.rows), or of a list.
+) -> Callable[[int, int], list[str | list[str]]]:
+    """The JSON pieces of rows start..stop of one column (verify.compare.rows), or of a list: a
+    fixed text shared by every row, or a list with one text per row, in order.
 
-    A number column reuses the text of an equal number in a column of the same rows written
-    before it (`written`: values, which are finite, texts): the routes often agree to the last
-    bit (the joints and the sections on a 2D truss, the joints and the global solve on a 3D
-    one), and a float's repr is most of the JSON's cost."""
+    A column of one word in the chunk is one fixed text. Strings that need no escape are laid
+    between quote pieces as they are (the written cell and where it is, without joining them
+    first). A number column reuses the text of an equal number in a column of the same rows
+    written before it (`written`: values, which are finite, texts): the routes often agree to
+    the last bit (the joints and the sections on a 2D truss, the joints and the global solve on
+    a 3D one), and a float's repr is most of the JSON's cost."""
     if isinstance(source, Labels) and len(source.labels) <= LABELS_ENCODED:
         encoded = [_encode(label, level) for label in source.labels]
-        codes = source.codes
-        return lambda start, stop: list(map(encoded.__getitem__, codes[start:stop].tolist()))
+        label_codes = source.codes
+
+        def words(start: int, stop: int) -> list[str | list[str]]:
+            codes = label_codes[start:stop]
+            if (codes == codes[0]).all():
+                return [encoded[int(codes[0])]]
+            return [list(map(encoded.__getitem__, codes.tolist()))]
+
+        return words
+    if isinstance(source, Labels):  # member ids
+
+        def labels(start: int, stop: int) -> list[str | list[str]]:
+            texts = source.chunk(start, stop)
+            return ['"', texts, '"'] if _plain(texts) else [_column_text(texts, level)]
+
+        return labels
+    if isinstance(source, Written):
+
+        def cells(start: int, stop: int) -> list[str | list[str]]:
+            parts = source.parts(start, stop)
+            if parts is not None and _plain(*parts):
+                return ['"', parts[0], " at ", parts[1], '"']
+            return [_column_text(source.chunk(start, stop), level)]
+
+        return cells
     if isinstance(source, Numbers):
         values, present = source.values, source.present
 
-        def numbers(start: int, stop: int) -> list[str]:
+        def numbers(start: int, stop: int) -> list[str | list[str]]:
             chunk = values[start:stop]
             # absent (None), NaN or infinite: null, as json.dumps writes NaN
             finite = present[start:stop] & np.isfinite(chunk)
@@ -246,15 +293,14 @@ def _column_writer(
                 # in C without a call per value (a quarter faster than a map of float.__repr__)
                 texts[todo] = repr(chunk[todo].tolist())[1:-1].split(", ")
             written.append((chunk, finite, texts))
-            out: list[str] = texts.tolist()
-            return out
+            return [texts.tolist()]
 
         return numbers
     if source is None:  # a field of a sequence of tuples: transposed by the caller
         return lambda start, stop: []
     if hasattr(source, "chunk"):
-        return lambda start, stop: _column_text(source.chunk(start, stop), level)
-    return lambda start, stop: _column_text(source[start:stop], level)
+        return lambda start, stop: [_column_text(source.chunk(start, stop), level)]
+    return lambda start, stop: [_column_text(source[start:stop], level)]
 
 
 def _column_text(values: Sequence[Any], level: int) -> list[str]:
