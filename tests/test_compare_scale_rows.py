@@ -10,6 +10,7 @@ examples (tests/test_sympy_oracle.py, tests/reference).
 from __future__ import annotations
 
 import math
+import pickle
 import random
 
 import numpy as np
@@ -171,3 +172,12 @@ def test_a_large_comparison_gives_the_rows_a_claim_by_claim_derivation_gives():
     assert counted == sorted(len(truth[n]) - len(claims[n]) for n in truth)
     # where each claim was written, as the table says it
     assert claimed_rows[0].written.endswith(" at row 2, column 'A'")
+
+
+def test_rows_pickle_as_their_tuples():
+    case = pratt(6, case="A")
+    analysis = analyse(make_model(case))
+    review = compare_claims(analysis, table(true_claims(analysis)))
+    again = pickle.loads(pickle.dumps(review.rows))
+    assert list(again) == list(review.rows)
+    assert len(again) == len(review.rows) > 0

@@ -291,6 +291,10 @@ class Rows(Sequence[Row]):
 
     __hash__ = None  # type: ignore[assignment]  # mutable (statuses are set), as a list
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        # pickled as the tuples (a column may read the claims through a local function)
+        return (Rows.of, (tuple(self),))
+
     def __repr__(self) -> str:
         return f"Rows({len(self)} rows)"
 
