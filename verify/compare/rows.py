@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator, Sequence
 from functools import partial
+from itertools import chain
 from operator import itemgetter
 from typing import Any, NamedTuple, Protocol, overload
 
@@ -237,6 +238,7 @@ class Rows(Sequence[Row]):
         assert len(columns) == len(Row._fields)
         self.columns = tuple(columns)
         self._n = len(self.columns[0])
+        self._tuples: list[Row] | None = None  # made by the first iteration, for the next ones
 
     @classmethod
     def of(cls, rows: Sequence[Row]) -> Rows:
@@ -261,21 +263,27 @@ class Rows(Sequence[Row]):
         return _make_row([column.get(i) for column in self.columns])
 
     def __setitem__(self, i: int, row: Row) -> None:
+        self._tuples = None
         for column, value in zip(self.columns, row, strict=True):
             column.set(i, value)
 
     def set_status(self, i: int, status: str) -> None:
+        self._tuples = None
         self.columns[-1].set(i, status)
 
     def field(self, name: str) -> Column:
         return self.columns[Row._fields.index(name)]
 
     def __iter__(self) -> Iterator[Row]:
-        for start in range(0, self._n, CHUNK):
-            stop = min(start + CHUNK, self._n)
-            yield from map(
-                _make_row, zip(*(c.chunk(start, stop) for c in self.columns), strict=True)
-            )
+        # The text and HTML reports read the rows several times: the tuples are made once, on the
+        # first reading (the JSON writer reads the columns and never makes them).
+        if self._tuples is None:
+            self._tuples = list(chain.from_iterable(map(self._chunk, range(0, self._n, CHUNK))))
+        return iter(self._tuples)
+
+    def _chunk(self, start: int) -> Iterator[Row]:
+        stop = min(start + CHUNK, self._n)
+        return map(_make_row, zip(*(c.chunk(start, stop) for c in self.columns), strict=True))
 
     def extended(self, other: Rows) -> Rows:
         """These rows and then `other`'s, column by column."""
