@@ -280,7 +280,8 @@ def _column_writer(
             chunk = values[start:stop]
             # absent (None), NaN or infinite: null, as json.dumps writes NaN
             finite = present[start:stop] & np.isfinite(chunk)
-            texts = np.full(chunk.size, "null", dtype=object)
+            texts = np.empty(chunk.size, dtype=object)  # every entry is set below
+            texts[~finite] = "null"
             todo = finite.copy()
             sign = np.signbit(chunk)  # 0.0 == -0.0, but their texts differ
             for before, finite_before, texts_before in written:
