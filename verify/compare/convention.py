@@ -73,6 +73,29 @@ def count_agreeing(
     return int((np.abs(value - computed) <= allowed).sum())
 
 
+def _counts_by_sign(
+    claimed: np.ndarray,
+    fixed: np.ndarray,
+    computed: np.ndarray,
+    allowed_rel: float,
+    atol: np.ndarray,
+    rounding: np.ndarray,
+    factor: float,
+) -> dict[int, int]:
+    """count_agreeing for sign +1 and -1 at once: the allowance depends on the sizes only, so it
+    is made once per factor (the same numbers: reversing a sign is exact)."""
+    value = claimed * factor
+    allowed = np.maximum(
+        np.maximum(allowed_rel * np.maximum(np.abs(value), np.abs(computed)), atol),
+        rounding * factor,
+    )
+    reversed_value = np.where(fixed, value, -value)
+    return {
+        1: int((np.abs(value - computed) <= allowed).sum()),
+        -1: int((np.abs(reversed_value - computed) <= allowed).sum()),
+    }
+
+
 def best_fit(
     claimed: np.ndarray,
     fixed: np.ndarray,
@@ -101,13 +124,14 @@ def best_fit(
     )
     n = int(informative.sum())
     candidates = [1.0] + list(factors if factors is not None else UNIT_FACTORS)
-    identity = Fit(1, 1.0, count_agreeing(c, f, r, rtol, a, rd, 1, 1.0), n)
+    counted = {factor: _counts_by_sign(c, f, r, rtol, a, rd, factor) for factor in candidates}
+    identity = Fit(1, 1.0, counted[1.0][1], n)
     best = identity
     for factor in candidates:
         for sign in signs:
             if sign == 1 and factor == 1.0:
                 continue
-            fit = Fit(sign, factor, count_agreeing(c, f, r, rtol, a, rd, sign, factor), n)
+            fit = Fit(sign, factor, counted[factor][sign], n)
             if fit.agree > best.agree:
                 best = fit
     return best, identity

@@ -19,9 +19,8 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from enum import StrEnum
-from functools import partial
 from types import SimpleNamespace
-from typing import TYPE_CHECKING, Any, NamedTuple
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -38,6 +37,7 @@ from verify.compare.causes import (
     explain_release,
     explain_shifted_rows,
 )
+from verify.compare.causes.frame import Picked
 from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
@@ -54,6 +54,7 @@ from verify.compare.convention import (
 )
 from verify.compare.findings import Finding, Severity, ordered, worded
 from verify.compare.implied import ImpliedLoads, implied_loads
+from verify.compare.rows import Labels, Numbers, Row, Rows, Written
 from verify.compare.tolerances import Tolerance
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
@@ -115,44 +116,6 @@ class Convention:
         }
 
 
-class Row(NamedTuple):
-    """One compared value. A named tuple: a 10^5-member check makes 2x10^5 of them."""
-
-    id: str
-    kind: str  # "member" | "reaction"
-    case: str
-    claimed: float | None  # in case units, tension-positive, convention applied
-    written: str  # as written (value and where)
-    joints: float | None
-    sections: float | None
-    global_: float | None
-    elastic: float | None
-    difference: float | None
-    status: str
-
-    @property
-    def recomputed(self) -> float | None:
-        for value in (self.global_, self.elastic):
-            if value is not None:
-                return value
-        return None
-
-    def as_dict(self) -> dict[str, Any]:
-        return {
-            "id": self.id,
-            "kind": self.kind,
-            "case": self.case,
-            "claimed": self.claimed,
-            "joints": self.joints,
-            "sections": self.sections,
-            "global": self.global_,
-            "elastic": self.elastic,
-            "difference": self.difference,
-            "status": self.status,
-            "written": self.written,
-        }
-
-
 # Each key of Row.as_dict with the position of its field in the tuple, in the dict's order: for
 # writers that read the rows column by column (verify/report/json_out.py: RowTable).
 ROW_KEYS: tuple[tuple[str, int], ...] = tuple(
@@ -168,7 +131,7 @@ class Review:
     claims: ClaimsTable
     convention: Convention
     tolerance: Tolerance
-    rows: tuple[Row, ...]
+    rows: Rows  # a sequence of Row, kept as columns (verify.compare.rows)
     findings: tuple[Finding, ...]
     checked_cases: tuple[str, ...]
     checked_members: int
@@ -238,7 +201,7 @@ class Comparison(SimpleNamespace):
     tol: Tolerance
     findings: list[Finding]
     notes: list[str]
-    rows: list[Row]
+    rows: Rows
     frame: ClaimsFrame | None
 
 
@@ -263,8 +226,9 @@ SHARED = (
     "fixed_all",
     "flagged",
     "frame",
-    "frame_rows",
-    "frame_written",
+    "as_written",
+    "frame_claims",
+    "frame_row_at",
     "imbalances",
     "implied",
     "indeterminate",
@@ -289,7 +253,7 @@ SHARED = (
     "rows",
     "scale_fit",
     "scale_of",
-    "seen_pairs",
+    "seen",
     "sign_fit",
     "slip_ratios",
     "stab",
@@ -447,7 +411,9 @@ def _units(c: Comparison) -> None:
     # Allowances for how each value was written (decimals shown, a column's significant figures or
     # step), in the claim's unit from the reader; here in the case's.
     rounding_unit = arrays.rounding * np.abs(conv)
-    column_of_claim = np.array(arrays.names, dtype=object)[arrays.column]
+    # Each claim's column as its position in arrays.names (names are unique): compared as
+    # integers, not as an object array of names (a Python comparison per claim).
+    column_of_claim = arrays.column
     is_member_claim = member_pos >= 0
     tol = replace(tol, widened=tuple(r.describe() for r in claims.resolutions))
     if option_unit is not None and stated_units and stated_units != {option_unit.symbol}:
@@ -567,8 +533,9 @@ def _case_mismatch(c: Comparison) -> None:
     remap: dict[str, str] = {}
     if comparable and ref is not None:
         column_of = c.column_of_claim
+        names = list(c.arrays.names)
         for column in columns:
-            idx = np.nonzero((column_of == column) & (member_pos >= 0))[0]
+            idx = np.nonzero((column_of == names.index(column)) & (member_pos >= 0))[0]
             if len(idx) < MIN_MEMBERS_FOR_TABLE:
                 continue
             scores: dict[str, float] = {}
@@ -655,7 +622,7 @@ def _column_readings(c: Comparison) -> None:
         column_fit: dict[str, tuple[int, float, Fit, Fit, np.ndarray]] = {}
         for column in columns:
             target = mapping.get(column)
-            idx = member_idx[column_of_claim[member_idx] == column]
+            idx = member_idx[column_of_claim[member_idx] == columns.index(column)]
             if target is None or len(idx) < MIN_MEMBERS_FOR_TABLE:
                 continue
             k = load_names.index(target)
@@ -688,7 +655,7 @@ def _column_readings(c: Comparison) -> None:
                 rel_sign, rel_factor = col_sign * common[0], col_factor / common[1]
                 if rel_sign == 1 and abs(rel_factor - 1.0) < 1e-9:
                     continue
-                in_column = column_of_claim == column
+                in_column = column_of_claim == columns.index(column)
                 stated = {c.arrays.units[u] for u in np.unique(c.arrays.unit[idx])}
                 told = (
                     f"its header states {', '.join(sorted(str(u) for u in stated))}"
@@ -888,20 +855,16 @@ def _rows(c: Comparison) -> None:
     )
     tol, unit_stated = c.tol, c.unit_stated
     # Per-claim rows.
-    rows: list[Row] = []
     claimed_matrix = np.full((len(model.members), len(load_names)), np.nan)
     reaction_claims: dict[tuple[int, int], float] = {}
     flagged: dict[str, set[str]] = {}
     diffs: list[
         tuple[int, ClaimedValue, float, float, float]
     ] = []  # (row index, claim, value, computed, allowed)
-    seen_pairs: set[tuple[str, str]] = set()
-    frame_rows: list[tuple[int, int]] = []  # (claim index, row index) of member claims compared
-    frame_written: list[str] = []
     rounding_of_row: dict[
         int, float
     ] = {}  # the rounding allowance of each disagreeing member claim
-    # Member claims are judged all at once (arrays); the loop below only assembles rows.
+    # Member claims are judged all at once (arrays); the loop below only words the reactions.
     arrays = c.arrays
     n_claims = len(arrays)
     k_of = _load_of_column(arrays, mapping, load_names)[arrays.column]
@@ -940,92 +903,76 @@ def _rows(c: Comparison) -> None:
     )
     agree_all = np.abs(values - computed_arr) <= allowed_all
     big = np.abs(computed_arr) > atol_all
-    convention_status = np.full(n_claims, "agrees", dtype=object)
+    # Statuses as codes into STATUS_WORDS (agrees, table-sign-convention, unit-scale, ...).
+    convention_status = np.zeros(n_claims, dtype=np.int64)
     if sign_fit == -1 and sign is not SignMode.AUTO:
-        convention_status[~fixed_all & big] = "table-sign-convention"
+        convention_status[~fixed_all & big] = 1
     elif scale_fit != 1.0 and unit_stated:
-        convention_status[big] = "unit-scale"
+        convention_status[big] = 2
     judged_rows = np.flatnonzero(judged)
     claimed_matrix[member_pos[judged_rows], k_of[judged_rows]] = values[judged_rows]
     rounding_matrix = np.zeros_like(claimed_matrix)
     rounding_matrix[member_pos[judged_rows], k_of[judged_rows]] = np.abs(
         rounding_unit[judged_rows] * scale_fit
     )
-    # The rows, built from the columns in table order: one row per reaction claim and per member
-    # claim on a load column. Member rows are made all at once; a claim object is made only for
-    # a claim that disagrees (diffs), and reactions (few) are worded one by one.
+    # Which members have a claim in which load column (for the missing claims and the count).
+    seen = np.zeros((len(model.members), max(len(load_names), 1)), dtype=bool)
+    seen[member_pos[judged_rows], k_of[judged_rows]] = True
+    # The rows, in table order: one per reaction claim and per member claim on a load column,
+    # kept as columns (verify.compare.rows): member rows are made all at once, a claim object
+    # only for a claim that disagrees (diffs), and reactions (few) are worded one by one.
     mapped_of_column = [mapping.get(name) for name in arrays.names]
     on_a_load = np.array([m is not None for m in mapped_of_column] or [False])[arrays.column]
     reaction_at = np.zeros(n_claims, dtype=bool)
     reaction_at[list(arrays.reaction)] = True
     gives_row = on_a_load & (judged | reaction_at)
     row_of = np.cumsum(gives_row) - 1
+    claim_of_row = np.flatnonzero(gives_row)  # rows follow the claims in table order
     # The recomputed value of a member claim: the global solve's, else the elastic one's.
     has_global, has_elastic = global_a[1], elastic_a[1]
     has_computed = has_global | has_elastic
     compared = judged & has_computed & comparable
-    member_at = np.flatnonzero(judged)
-    ids = np.array(model.member_ids, dtype=object)[member_pos[member_at]].tolist()
-    cases = np.array(load_names or [""], dtype=object)[k_of[member_at]].tolist()
-    raw_l, fixed_l = raw.tolist(), fixed_all.tolist()
     text_l, where_l = arrays.text, arrays.where
 
     def as_written(i: int) -> str:
-        raw_i = raw_l[i]
+        raw_i = float(raw[i])  # read for the few claims without their cell (built in memory)
         return text_l[i] or (
-            f"{abs(raw_i):g} {'T' if raw_i > 0 else 'C'}" if fixed_l[i] and raw_i else f"{raw_i:g}"
+            f"{abs(raw_i):g} {'T' if raw_i > 0 else 'C'}"
+            if fixed_all[i] and raw_i
+            else f"{raw_i:g}"
         )
 
-    def column(route_a: tuple[np.ndarray, np.ndarray]) -> list[float | None]:
-        picked, usable = route_a[0][member_at].tolist(), route_a[1][member_at]
-        if usable.all():  # the common case: the route has every force
-            return picked
-        return [x if ok else None for x, ok in zip(picked, usable.tolist(), strict=True)]
+    def numbers(route_a: tuple[np.ndarray, np.ndarray]) -> Numbers:
+        return Numbers(route_a[0][claim_of_row], route_a[1][claim_of_row])
 
-    # The cell as written (made up only for a claim built in memory without its text).
-    written_member = [f"{text_l[i] or as_written(i)} at {where_l[i]}" for i in member_at.tolist()]
-    global_c, elastic_c = column(global_a), column(elastic_a)
-    compared_m = compared[member_at]
-    recomputed = np.where(has_global, global_a[0], elastic_a[0])[member_at]
-    difference = np.where(compared_m, values[member_at] - recomputed, np.nan)
-    status = np.where(
-        compared_m,
-        np.where(agree_all[member_at], convention_status[member_at], "value-mismatch"),
-        "not-verifiable",
-    )
-    member_rows = list(
-        map(
-            partial(tuple.__new__, Row),  # in C: Row(...) and Row._make run Python code per row
-            zip(
-                ids,
-                ["member"] * len(ids),
-                cases,
-                values[member_at].tolist(),
-                written_member,
-                column(joints_a),
-                column(sections_a),
-                global_c,
-                elastic_c,
-                [
-                    d if ok else None
-                    for d, ok in zip(difference.tolist(), compared_m.tolist(), strict=True)
-                ],
-                status.tolist(),
-                strict=True,
-            ),
+    recomputed = np.where(has_global, global_a[0], elastic_a[0])
+    with np.errstate(invalid="ignore"):
+        difference = values - recomputed
+    status = np.where(compared, np.where(agree_all, convention_status, 3), 4)
+    member_row = judged[claim_of_row]
+    rows = Rows(
+        (
+            Labels(np.where(member_row, member_pos[claim_of_row], 0), model.member_ids),
+            Labels(np.where(member_row, 0, 1), ("member", "reaction")),
+            Labels(np.maximum(k_of[claim_of_row], 0), load_names or [""]),
+            Numbers(values[claim_of_row]),
+            Written(claim_of_row, as_written, text_l, where_l),
+            numbers(joints_a),
+            numbers(sections_a),
+            numbers(global_a),
+            numbers(elastic_a),
+            Numbers(difference[claim_of_row], compared[claim_of_row]),
+            Labels(status[claim_of_row], STATUS_WORDS),
         )
     )
-    seen_pairs.update(zip(ids, cases, strict=True))
-    rows = [None] * int(gives_row.sum())  # type: ignore[list-item]  # every slot is filled below
-    for r, row in zip(row_of[member_at].tolist(), member_rows, strict=True):
-        rows[r] = row
-    for i in np.flatnonzero(compared).tolist():
-        frame_rows.append((i, int(row_of[i])))
-        frame_written.append(as_written(i))
-    value_l, computed_l, allowed_l = values.tolist(), computed_arr.tolist(), allowed_all.tolist()
+    # The judged member claims the causes read (ClaimsFrame): claim and row positions.
+    frame_claims = np.flatnonzero(compared)
+    frame_row_at = row_of[frame_claims]
     for i in np.flatnonzero(compared & ~agree_all).tolist():
         r = int(row_of[i])
-        diffs.append((r, arrays.claim(i), value_l[i], computed_l[i], allowed_l[i]))
+        diffs.append(
+            (r, arrays.claim(i), float(values[i]), float(computed_arr[i]), float(allowed_all[i]))
+        )
         rounding_of_row[r] = float(rounding_unit[i]) * abs(scale_fit)
     for i in np.flatnonzero(gives_row & reaction_at).tolist():
         name = mapped_of_column[int(arrays.column[i])]
@@ -1035,7 +982,7 @@ def _rows(c: Comparison) -> None:
         joint, axis = arrays.reaction[i]
         rounding = float(rounding_unit[i]) * scale_fit
         # Reactions are global components: the table sign convention for T/C does not apply.
-        value = raw_l[i] * conv[i] * scale_fit
+        value = float(raw[i]) * conv[i] * scale_fit
         matches = [n for n, r in enumerate(model.reactions) if r.joint == joint and r.axis == axis]
         computed = None
         if ref is not None and matches:
@@ -1095,31 +1042,31 @@ def _rows(c: Comparison) -> None:
         diffs,
         flagged,
     )
-    c.frame_rows, c.frame_written, c.judged, c.k_of = frame_rows, frame_written, judged, k_of
-    c.reaction_claims, c.rounding_matrix, c.rounding_of_row, c.rows, c.seen_pairs = (
+    c.frame_claims, c.frame_row_at, c.judged, c.k_of = frame_claims, frame_row_at, judged, k_of
+    c.as_written = as_written
+    c.reaction_claims, c.rounding_matrix, c.rounding_of_row, c.rows, c.seen = (
         reaction_claims,
         rounding_matrix,
         rounding_of_row,
         rows,
-        seen_pairs,
+        seen,
     )
     c.values = values
 
 
+# The statuses _rows gives, by code (the causes and reasons below set others by word).
+STATUS_WORDS = ("agrees", "table-sign-convention", "unit-scale", "value-mismatch", "not-verifiable")
+
+
 def _frame(c: Comparison) -> None:
-    atol_all, comparable, computed_arr, frame_rows = (
+    atol_all, comparable, computed_arr, frame_claims, frame_row_at = (
         c.atol_all,
         c.comparable,
         c.computed_arr,
-        c.frame_rows,
+        c.frame_claims,
+        c.frame_row_at,
     )
-    frame_written, k_of, load_names, member_pos, model = (
-        c.frame_written,
-        c.k_of,
-        c.load_names,
-        c.member_pos,
-        c.model,
-    )
+    k_of, load_names, member_pos, model = c.k_of, c.load_names, c.member_pos, c.model
     ref, rounding_unit, scale_fit, tol, values = (
         c.ref,
         c.rounding_unit,
@@ -1133,13 +1080,12 @@ def _frame(c: Comparison) -> None:
     # copied (last: a mirror member carries the same value honestly); then single causes.
     explained: set[int] = set()
     frame: ClaimsFrame | None = None
-    if frame_rows and ref is not None and comparable:
-        claim_at = np.array([i for i, _ in frame_rows], dtype=np.int64)
-        row_at = np.array([r for _, r in frame_rows], dtype=np.int64)
+    if frame_claims.size and ref is not None and comparable:
+        claim_at = frame_claims
         frame = ClaimsFrame(
             model,
             tuple(load_names),
-            row_at,
+            frame_row_at,
             member_pos[claim_at],
             k_of[claim_at],
             values[claim_at],
@@ -1147,8 +1093,9 @@ def _frame(c: Comparison) -> None:
             atol_all[claim_at],
             rounding_unit[claim_at] * abs(scale_fit),
             tol.rtol,
-            tuple(c.arrays.where[int(i)] for i in claim_at),
-            tuple(frame_written),
+            # where and how each claim was written, read only for the few a cause names
+            Picked(c.arrays.where.__getitem__, claim_at),
+            Picked(c.as_written, claim_at),
         )
     c.explained, c.frame = explained, frame
 
@@ -1170,11 +1117,10 @@ def _unfilled_columns(c: Comparison) -> None:
     for name, items in by_case.items():
         if indeterminate or len(items) < MIN_MEMBERS_FOR_TABLE:
             continue
-        if any(
-            row.claimed is not None and row.claimed != 0
-            for row in rows
-            if row.kind == "member" and row.case == name
-        ):
+        claimed = rows.field("claimed")
+        assert isinstance(claimed, Numbers)
+        in_column = _member_rows(rows) & _field_is(rows, "case", name) & claimed.present
+        if (claimed.values[in_column] != 0).any():
             continue
         largest = max(abs(item[3]) for item in items)
         explained.update(item[0] for item in items)
@@ -1268,7 +1214,7 @@ def _shifted_and_swapped(c: Comparison) -> None:
             taken[[a, b]] = True
             explained.update((ra, rb))
             for r in (ra, rb):
-                rows[r] = _with_status(rows[r], "swapped-labels")
+                rows.set_status(r, "swapped-labels")
             findings.append(
                 Finding(
                     "swapped-labels",
@@ -1351,7 +1297,7 @@ def _combination_factor(c: Comparison) -> None:
                 f"not {defined} as the case file combines '{name}': a different combination factor?"
             )
             for item in covered:
-                rows[item[0]] = _with_status(rows[item[0]], "likely-cause")
+                rows.set_status(item[0], "likely-cause")
             left = len([item for item in pending if item not in covered])
             findings.append(
                 Finding(
@@ -1500,7 +1446,7 @@ def _member_reasons(c: Comparison) -> None:
             )
 
         if abs(computed) <= atol:
-            rows[r] = _with_status(rows[r], "zero-force-claimed")
+            rows.set_status(r, "zero-force-claimed")
             findings.append(finding("zero-force-claimed", worded("zero-force-claimed", **common)))
             continue
         # A sign flip: opposite signs and the same size, within the relative tolerance or the
@@ -1510,7 +1456,7 @@ def _member_reasons(c: Comparison) -> None:
             tol.rtol * abs(computed), rounding_of_row.get(r, 0.0)
         )
         if value * computed < 0 and same_size:
-            rows[r] = _with_status(rows[r], "sign-flip")
+            rows.set_status(r, "sign-flip")
             findings.append(
                 finding(
                     "sign-flip",
@@ -1526,7 +1472,7 @@ def _member_reasons(c: Comparison) -> None:
         ratio = value / computed
         unit_factor = matching_factor(ratio, tol.rtol, slip_ratios)
         if unit_factor is not None:
-            rows[r] = _with_status(rows[r], "unit-scale")
+            rows.set_status(r, "unit-scale")
             findings.append(
                 finding(
                     "unit-scale",
@@ -1587,7 +1533,7 @@ def _self_check(c: Comparison) -> None:
         values[own],
         rounding_unit[own] * abs(scale_fit),
         tol.rtol,
-        [c.arrays.where[int(i)] for i in own],
+        Picked(c.arrays.where.__getitem__, own),
     ):
         if set(f.members) <= anywhere:
             f = dataclasses.replace(f, severity=Severity.INFO)
@@ -1596,18 +1542,17 @@ def _self_check(c: Comparison) -> None:
 
 def _missing_claims(c: Comparison) -> None:
     analysis, findings, load_names, model = c.analysis, c.findings, c.load_names, c.model
-    rows, seen_pairs = c.rows, c.seen_pairs
+    rows, seen = c.rows, c.seen
     # Missing claims (informational), per load column that has claims; load columns missing the
     # same members share one finding.
-    checked_cases = tuple(n for n in load_names if any(c == n for _, c in seen_pairs))
-    missing_by_case = {
-        name: [mid for mid in model.member_ids if (mid, name) not in seen_pairs]
-        for name in checked_cases
-    }
+    with_claims = seen.any(axis=0)
+    checked_cases = tuple(n for k, n in enumerate(load_names) if with_claims[k])
+    member_ids = model.member_ids
+    missing_at = {name: np.flatnonzero(~seen[:, load_names.index(name)]) for name in checked_cases}
     groups: dict[tuple[str, ...], list[str]] = {}
-    for name, missing in missing_by_case.items():
-        if missing:
-            groups.setdefault(tuple(missing), []).append(name)
+    for name, at in missing_at.items():
+        if at.size:
+            groups.setdefault(tuple(member_ids[m] for m in at.tolist()), []).append(name)
     for missing_t, names_t in groups.items():
         shown_text = ", ".join(missing_t[:20]) + (
             f" and {len(missing_t) - 20} more" if len(missing_t) > 20 else ""
@@ -1623,33 +1568,49 @@ def _missing_claims(c: Comparison) -> None:
                 case=names_t[0] if len(names_t) == 1 else None,
             )
         )
-    for name in checked_cases:
-        missing = missing_by_case[name]
-        if missing:
-            for mid in missing:
-                m = model.member_index[mid]
-                k = load_names.index(name)
-                g = (
-                    float(analysis.global_.member_forces[m, k])
-                    if analysis.global_ is not None
+    # One row per missing claim, after the claimed ones: column by column, case by case.
+    members = [at for at in missing_at.values() if at.size]
+    if members:
+        m = np.concatenate(members)
+        k = np.concatenate(
+            [np.full(at.size, load_names.index(name)) for name, at in missing_at.items() if at.size]
+        )
+
+        def route(forces: np.ndarray | None) -> Numbers:
+            if forces is None:
+                return Numbers(np.zeros(m.size), np.zeros(m.size, dtype=bool))
+            picked = forces[m, k]
+            return Numbers(picked, np.isfinite(picked))
+
+        def kept(forces: np.ndarray | None) -> Numbers:  # every value, finite or not
+            column = route(forces)
+            if forces is not None:
+                column.present[:] = True
+            return column
+
+        added = Rows(
+            (
+                Labels(m, member_ids),
+                Labels(np.zeros(m.size, dtype=np.int64), ("member",)),
+                Labels(k, load_names),
+                Numbers(np.zeros(m.size), np.zeros(m.size, dtype=bool)),
+                Written(np.full(m.size, -1), str, (), ()),
+                kept(analysis.joints.forces.member_forces if analysis.joints is not None else None),
+                route(
+                    analysis.sections.forces.member_forces
+                    if analysis.sections is not None
                     else None
-                )
-                e = (
-                    float(analysis.elastic.forces.member_forces[m, k])
-                    if analysis.elastic is not None
-                    else None
-                )
-                jv = (
-                    float(analysis.joints.forces.member_forces[m, k])
-                    if analysis.joints is not None
-                    else None
-                )
-                sv: float | None = None
-                if analysis.sections is not None:
-                    s_val = float(analysis.sections.forces.member_forces[m, k])
-                    sv = s_val if np.isfinite(s_val) else None
-                rows.append(Row(mid, "member", name, None, "", jv, sv, g, e, None, "missing-claim"))
-    c.checked_cases = checked_cases
+                ),
+                kept(analysis.global_.member_forces if analysis.global_ is not None else None),
+                kept(
+                    analysis.elastic.forces.member_forces if analysis.elastic is not None else None
+                ),
+                Numbers(np.zeros(m.size), np.zeros(m.size, dtype=bool)),
+                Labels(np.zeros(m.size, dtype=np.int64), ("missing-claim",)),
+            )
+        )
+        rows = rows.extended(added)
+    c.checked_cases, c.rows = checked_cases, rows
 
 
 def _balance(c: Comparison) -> None:
@@ -1734,11 +1695,11 @@ def _finish(c: Comparison) -> None:
         c.findings,
     )
     imbalances, implied, notes, ref, rows = c.imbalances, c.implied, c.notes, c.ref, c.rows
-    seen_pairs, stab, tol = c.seen_pairs, c.stab, c.tol
-    checked_members = len({mid for mid, _ in seen_pairs})
+    seen, stab, tol = c.seen, c.stab, c.tol
+    checked_members = int(seen.any(axis=1).sum())
     findings = ordered(findings)
     verdict = _verdict(findings, stab.classification, ref is not None)
-    if not seen_pairs and not any(r.kind == "reaction" for r in rows):
+    if not seen.any() and not _field_is(rows, "kind", "reaction").any():
         notes.append("no claim could be matched to a member and load case of the model")
         if verdict is Verdict.AGREES:
             verdict = Verdict.CANNOT_VERIFY
@@ -1748,7 +1709,7 @@ def _finish(c: Comparison) -> None:
         claims,
         convention,
         tol,
-        tuple(rows),
+        rows,
         tuple(findings),
         checked_cases,
         checked_members,
@@ -1808,7 +1769,7 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         k = model.load_names.index(name)
         if C[case, k] == 0:
             continue
-        idx = c.member_idx[c.column_of_claim[c.member_idx] == other]
+        idx = c.member_idx[c.column_of_claim[c.member_idx] == c.columns.index(other)]
         if len(idx) < MIN_MEMBERS_FOR_TABLE:
             continue
         claimed = c.raw[idx] * c.conv[idx]
@@ -1900,7 +1861,7 @@ def _apply_cause(
         return
     report = explainer(c.frame, pending_mask, c.analysis)
     for r in c.frame.row[report.explained].tolist():
-        c.rows[r] = _with_status(c.rows[r], report.status)
+        c.rows.set_status(r, report.status)
         c.explained.add(r)
     c.findings.extend(report.findings)
     c.notes.extend(report.notes)
@@ -1928,7 +1889,7 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
 def _combination_fit(
     model: Model,
     ref: ForceResult,
-    rows: list[Row],
+    rows: Rows,
     name: str,
     failing: set[int],
     tol: Tolerance,
@@ -1946,15 +1907,14 @@ def _combination_fit(
     diagnoses, which say it better.
     """
     n_cases = len(model.cases)
-    claimed = [
-        (model.member_index[r.id], r.claimed)
-        for r in rows
-        if r.kind == "member" and r.case == name and r.claimed is not None
-    ]
-    if len(failing) < MIN_MEMBERS_FOR_TABLE or len(claimed) < 4:
+    # The member rows of the column (a member row's id code is its member position).
+    ids, claimed = rows.field("id"), rows.field("claimed")
+    assert isinstance(ids, Labels) and isinstance(claimed, Numbers)
+    in_column = _member_rows(rows) & _field_is(rows, "case", name) & claimed.present
+    if len(failing) < MIN_MEMBERS_FOR_TABLE or int(in_column.sum()) < 4:
         return None  # too few failures to be a pattern, or too few claims to fit any factor
-    pos = np.array([p for p, _ in claimed], dtype=np.int64)
-    y = np.array([c for _, c in claimed], dtype=float)
+    pos = ids.codes[in_column]
+    y = claimed.values[in_column]
     basis = ref.member_forces[pos, :n_cases]
     names = [c.name for c in model.cases]
     k = model.load_names.index(name)
@@ -2040,20 +2000,16 @@ def _combination_fit(
     return text, words(defined), int(fits.sum()), len(y), follows
 
 
-def _with_status(row: Row, status: str) -> Row:
-    return Row(
-        row.id,
-        row.kind,
-        row.case,
-        row.claimed,
-        row.written,
-        row.joints,
-        row.sections,
-        row.global_,
-        row.elastic,
-        row.difference,
-        status,
-    )
+def _field_is(rows: Rows, name: str, label: str) -> np.ndarray:
+    """Which rows hold `label` in the word column `name` (kind, case, status)."""
+    column = rows.field(name)
+    if isinstance(column, Labels):
+        return column.equals(label)
+    return np.array([value == label for value in column.chunk(0, len(rows))], dtype=bool)
+
+
+def _member_rows(rows: Rows) -> np.ndarray:
+    return _field_is(rows, "kind", "member")
 
 
 def _verdict(
@@ -2070,7 +2026,7 @@ def _verdict(
 
 def _explain_indeterminate(
     analysis: Analysis,
-    rows: list[Row],
+    rows: Rows,
     diffs: list[tuple[int, ClaimedValue, float, float, float]],
     claimed: np.ndarray,
     reaction_claims: dict[tuple[int, int], float],
@@ -2176,12 +2132,12 @@ def _explain_indeterminate(
                     f"{describe_factor(matching_factor(claim / needed, tol.rtol) or 1.0)}"
                 )
             if index is not None:
-                rows[index] = _with_status(rows[index], status)
+                rows.set_status(index, status)
             out.append(Finding(kind, (mid,), text, Severity.ERROR, case=name))
         rest = [(r, v) for r, v, *_ in case_rows if v.member not in blamed]
         if rest:
             for r, _ in rest:
-                rows[r] = _with_status(rows[r], "stiffness-dependent")
+                rows.set_status(r, "stiffness-dependent")
             size = max(abs(rows[r].difference or 0.0) for r, _ in rest)
             members = tuple(v.member for _, v in rest if v.member)
             unchecked = [b for b in range(len(model.members)) if not np.isfinite(claimed[b, k])]

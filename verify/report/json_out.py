@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json.encoder
 import math
+import re
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from json.encoder import encode_basestring  # the C string encoder json.dumps uses
 from typing import Any
@@ -21,6 +22,7 @@ import numpy as np
 from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.compare.diagnose import ROW_KEYS
+from verify.compare.rows import Labels, Numbers, Rows, Written
 from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
@@ -144,7 +146,7 @@ class RowTable:
         self,
         rows: Sequence[tuple[Any, ...]],
         fields: Sequence[tuple[str, int]],
-        appended: Sequence[tuple[str, Sequence[Any]]] = (),
+        appended: Sequence[tuple[str, Sequence[Any] | Labels]] = (),
     ) -> None:
         self.rows = rows
         self.fields = tuple(fields)
@@ -164,21 +166,142 @@ class RowTable:
 def _row_table(table: RowTable, level: int) -> Iterator[str]:
     rows = table.rows
     keys = tuple(key for key, _ in table.fields) + tuple(key for key, _ in table.appended)
-    if rows and not keys:  # empty objects: "{}", which the template cannot write
+    if rows and not keys:  # empty objects: "{}", which the pieces below cannot write
         yield from _lazy_list(iter(table), level)
         return
-    template = _template(keys, level + 1)
-
-    def encoded() -> Iterator[str]:
-        # A chunk of rows at a time, column by column: each column's values encoded in one map.
-        for start in range(0, len(rows), CHUNK_ITEMS):
-            stop = start + CHUNK_ITEMS
+    if not rows:
+        yield "[]"
+        return
+    # Each object as json.dumps(indent=2) lays it out: "{", then per key a line with the key and
+    # its value, then "}"; objects joined by "," and a new line. A chunk of rows is written by
+    # interleaving the fixed pieces (keys, quotes, separators) with each column's value texts in
+    # one list, joined once: no Python work per row but the values' own texts.
+    inner = "\n" + INDENT * (level + 1)
+    field = "\n" + INDENT * (level + 2)
+    heads = ["{" + field + _key(keys[0]) + ": "] + [
+        "," + field + _key(key) + ": " for key in keys[1:]
+    ]
+    close = "\n" + INDENT * (level + 1) + "}"
+    between = close + "," + inner
+    sources: list[Any] = (
+        [rows.columns[at] for _, at in table.fields]
+        if isinstance(rows, Rows)
+        else [None] * len(table.fields)
+    )
+    sources += [values for _, values in table.appended]
+    written: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []  # this chunk's number columns
+    writers = [_column_writer(source, level + 2, written) for source in sources]
+    for start in range(0, len(rows), CHUNK_ITEMS):
+        stop = min(start + CHUNK_ITEMS, len(rows))
+        written.clear()
+        if isinstance(rows, Rows):
+            parts = [write(start, stop) for write in writers[: len(table.fields)]]
+        else:
             columns = list(zip(*rows[start:stop], strict=True))
-            texts = [_column_text(columns[at], level + 2) for _, at in table.fields]
-            texts += [_column_text(values[start:stop], level + 2) for _, values in table.appended]
-            yield from map(template.__mod__, zip(*texts, strict=True))
+            parts = [[_column_text(columns[at], level + 2)] for _, at in table.fields]
+        parts += [write(start, stop) for write in writers[len(table.fields) :]]
+        # One row's pieces in order: fixed texts (merged when adjacent) and per-row lists.
+        slots: list[str | list[str]] = []
+        for head, column_parts in zip(heads, parts, strict=True):
+            for piece in (head, *column_parts):
+                if isinstance(piece, str) and slots and isinstance(slots[-1], str):
+                    slots[-1] += piece
+                else:
+                    slots.append(piece)
+        if isinstance(slots[-1], str):
+            last = slots[-1] + close
+            slots[-1] += between
+        else:
+            last = close
+            slots.append(between)
+        m, width = stop - start, len(slots)
+        flat: list[str] = [between] * (m * width)
+        for j, slot in enumerate(slots):
+            flat[j::width] = [slot] * m if isinstance(slot, str) else slot
+        flat[-1] = last
+        yield ("[" if start == 0 else ",") + inner + "".join(flat)
+    yield "\n" + INDENT * level + "]"
 
-    yield from _framed(encoded(), level)
+
+LABELS_ENCODED = 4_096  # a word column with up to this many labels has each encoded once
+# What json.dumps(ensure_ascii=False) escapes in a string: a string without any of these is
+# written as itself between quotes.
+NEEDS_ESCAPE = re.compile(r'[\x00-\x1f"\\]')
+
+
+def _plain(*columns: list[str]) -> bool:
+    """Whether every string of these columns is written as itself between quotes."""
+    return not any(NEEDS_ESCAPE.search("".join(column)) for column in columns)
+
+
+def _column_writer(
+    source: Any, level: int, written: list[tuple[np.ndarray, np.ndarray, np.ndarray]]
+) -> Callable[[int, int], list[str | list[str]]]:
+    """The JSON pieces of rows start..stop of one column (verify.compare.rows), or of a list: a
+    fixed text shared by every row, or a list with one text per row, in order.
+
+    A column of one word in the chunk is one fixed text. Strings that need no escape are laid
+    between quote pieces as they are (the written cell and where it is, without joining them
+    first). A number column reuses the text of an equal number in a column of the same rows
+    written before it (`written`: values, which are finite, texts): the routes often agree to
+    the last bit (the joints and the sections on a 2D truss, the joints and the global solve on
+    a 3D one), and a float's repr is most of the JSON's cost."""
+    if isinstance(source, Labels) and len(source.labels) <= LABELS_ENCODED:
+        encoded = [_encode(label, level) for label in source.labels]
+        label_codes = source.codes
+
+        def words(start: int, stop: int) -> list[str | list[str]]:
+            codes = label_codes[start:stop]
+            if (codes == codes[0]).all():
+                return [encoded[int(codes[0])]]
+            return [list(map(encoded.__getitem__, codes.tolist()))]
+
+        return words
+    if isinstance(source, Labels):  # member ids
+
+        def labels(start: int, stop: int) -> list[str | list[str]]:
+            texts = source.chunk(start, stop)
+            return ['"', texts, '"'] if _plain(texts) else [_column_text(texts, level)]
+
+        return labels
+    if isinstance(source, Written):
+
+        def cells(start: int, stop: int) -> list[str | list[str]]:
+            parts = source.parts(start, stop)
+            if parts is not None and _plain(*parts):
+                return ['"', parts[0], " at ", parts[1], '"']
+            return [_column_text(source.chunk(start, stop), level)]
+
+        return cells
+    if isinstance(source, Numbers):
+        values, present = source.values, source.present
+
+        def numbers(start: int, stop: int) -> list[str | list[str]]:
+            chunk = values[start:stop]
+            # absent (None), NaN or infinite: null, as json.dumps writes NaN
+            finite = present[start:stop] & np.isfinite(chunk)
+            texts = np.empty(chunk.size, dtype=object)  # every entry is set below
+            texts[~finite] = "null"
+            todo = finite.copy()
+            sign = np.signbit(chunk)  # 0.0 == -0.0, but their texts differ
+            for before, finite_before, texts_before in written:
+                same = todo & finite_before & (chunk == before) & (sign == np.signbit(before))
+                if same.any():
+                    texts[same] = texts_before[same]
+                    todo &= ~same
+            if todo.any():
+                # the list's repr: each float's repr (as json.dumps writes a finite float), made
+                # in C without a call per value (a quarter faster than a map of float.__repr__)
+                texts[todo] = repr(chunk[todo].tolist())[1:-1].split(", ")
+            written.append((chunk, finite, texts))
+            return [texts.tolist()]
+
+        return numbers
+    if source is None:  # a field of a sequence of tuples: transposed by the caller
+        return lambda start, stop: []
+    if hasattr(source, "chunk"):
+        return lambda start, stop: [_column_text(source.chunk(start, stop), level)]
+    return lambda start, stop: [_column_text(source[start:stop], level)]
 
 
 def _column_text(values: Sequence[Any], level: int) -> list[str]:
@@ -379,6 +502,14 @@ def solve_json(model: Model, analysis: Analysis) -> dict[str, Any]:
     return data
 
 
+def _row_units(rows: Sequence[Any], length: str, force: str) -> Sequence[str] | Labels:
+    """The unit of each row's values: the length unit for a displacement, else the force unit."""
+    kind = rows.field("kind") if isinstance(rows, Rows) else None
+    if isinstance(kind, Labels):
+        return Labels(kind.codes, [length if k == "displacement" else force for k in kind.labels])
+    return [length if row.kind == "displacement" else force for row in rows]
+
+
 def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None) -> dict[str, Any]:
     """The DESIGN.md section 4 `check --json` object (extra fields allowed, contract keys kept).
 
@@ -400,9 +531,7 @@ def check_json(review: Any, *, displacement_file: tuple[str, str] | None = None)
         "convention": public_convention(review.convention.as_dict(), force),
         # A generator: iter_dumps writes the rows as it draws them (dumps accepts it too).
         "members": RowTable(
-            review.rows,
-            ROW_KEYS,
-            [(ROW_UNIT, [length if row.kind == "displacement" else force for row in review.rows])],
+            review.rows, ROW_KEYS, [(ROW_UNIT, _row_units(review.rows, length, force))]
         ),
         "findings": [f.as_dict() for f in review.findings],
         "summary": {

@@ -8,7 +8,9 @@ very tolerance the comparison used: an explanation never loosens the test.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
+from typing import overload
 
 import numpy as np
 
@@ -34,8 +36,8 @@ class ClaimsFrame:
     atol: np.ndarray
     rounding: np.ndarray
     rtol: float
-    where: tuple[str, ...]
-    written: tuple[str, ...]  # the cell as written (for copied-value detection)
+    where: Sequence[str]
+    written: Sequence[str]  # the cell as written (for copied-value detection)
 
     def __len__(self) -> int:
         return len(self.claimed)
@@ -78,3 +80,27 @@ class ClaimsFrame:
     def locations(self, mask: np.ndarray, limit: int = 12) -> tuple[str, ...]:
         picked = np.flatnonzero(mask)[:limit]
         return tuple(self.where[int(i)] for i in picked)
+
+
+class Picked(Sequence[str]):
+    """`read(index[k])` for each k, made when asked: where and how each claim of a frame was
+    written, which only the few claims a cause names ever need (a frame holds every compared
+    claim, 10^6 of them on a large table)."""
+
+    def __init__(self, read: Callable[[int], str], index: np.ndarray) -> None:
+        self.read, self.at = read, index
+
+    def __len__(self) -> int:
+        return int(self.at.size)
+
+    @overload
+    def __getitem__(self, k: int) -> str: ...
+    @overload
+    def __getitem__(self, k: slice) -> Sequence[str]: ...
+    def __getitem__(self, k: int | slice) -> str | Sequence[str]:
+        if isinstance(k, slice):
+            return [self.read(i) for i in self.at[k].tolist()]
+        return self.read(int(self.at[k]))
+
+    def __iter__(self) -> Iterator[str]:
+        return map(self.read, self.at.tolist())

@@ -10,7 +10,7 @@ table's own columns, then the plainest round values that fit).
 from __future__ import annotations
 
 import itertools
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 
 import numpy as np
 
@@ -34,7 +34,7 @@ def check_combinations(
     claimed: np.ndarray,
     rounding: np.ndarray,
     rtol: float,
-    where: list[str],
+    where: Sequence[str],
 ) -> list[Finding]:
     """One finding per combination column that contradicts the table's own load-case columns.
 
@@ -49,11 +49,15 @@ def check_combinations(
     out: list[Finding] = []
     table = np.full((b, len(names)), np.nan)
     allowance = np.zeros((b, len(names)))
-    location: dict[tuple[int, int], str] = {}
-    for i in range(len(claimed)):
-        table[member[i], column[i]] = claimed[i]
-        allowance[member[i], column[i]] = rounding[i]
-        location[(int(member[i]), int(column[i]))] = where[i]
+    # Per member and column, the claim (the last one, when a member is claimed twice) and
+    # where it was written (read only for the members a finding names).
+    key = np.asarray(member, dtype=np.int64) * len(names) + np.asarray(column, dtype=np.int64)
+    _, from_end = np.unique(key[::-1], return_index=True)
+    last = len(key) - 1 - from_end  # numpy does not promise which of repeated indices is kept
+    table[member[last], column[last]] = claimed[last]
+    allowance[member[last], column[last]] = rounding[last]
+    claim_at = np.full((b, len(names)), -1, dtype=np.int64)
+    claim_at[member[last], column[last]] = last
     C = model.combination_matrix()
     for k in range(n_cases, len(names)):
         cases = np.flatnonzero(C[:, k])
@@ -121,7 +125,7 @@ def check_combinations(
                 text,
                 Severity.ERROR,
                 case=names[k],
-                locations=tuple(location[(int(m), k)] for m in members[:SHOWN]),
+                locations=tuple(where[int(claim_at[m, k])] for m in members[:SHOWN]),
             )
         )
     return out

@@ -93,18 +93,17 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
     # mirror members carry the same size
     flipped = frame.agrees(frame.computed + base, -frame.claimed)
     candidates = pending & clear & ~flipped
-    candidates &= np.array(
-        [
-            bool(t.strip()) and significant_figures(t) >= MIN_COPY_FIGURES if c else False
-            for t, c in zip(frame.written, candidates.tolist(), strict=True)
-        ],
-        dtype=bool,
-    )
+    # The text of a cell is read only for the candidates and the rows they may repeat (a frame
+    # holds every compared claim; its texts are made when asked).
+    at = np.flatnonzero(candidates)
+    candidates[at] = [
+        bool(t.strip()) and significant_figures(t) >= MIN_COPY_FIGURES
+        for t in map(frame.written.__getitem__, at.tolist())
+    ]
     candidates &= frame.claimed != 0  # zeros repeat honestly on every idle member
     out: list[Copy] = []
     if not candidates.any():
         return out
-    written = np.array([t.strip() for t in frame.written], dtype=object)
     for k in np.unique(frame.column[candidates]).tolist():
         order = np.flatnonzero(frame.column == k)  # table order
         n = len(order)
@@ -115,14 +114,15 @@ def copied_values(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> 
             if hi <= lo:
                 continue
             here, there = order[lo:hi], order[lo + offset : hi + offset]
-            match = (
+            same_value = (
                 candidates[here]
                 & agreed[there]
                 & (frame.claimed[there] == frame.claimed[here])
-                & (written[there] == written[here])
                 & (found[lo:hi] < 0)
             )
-            found[lo:hi] = np.where(match, there, found[lo:hi])
+            for p in np.flatnonzero(same_value).tolist():  # and written alike
+                if frame.written[int(there[p])].strip() == frame.written[int(here[p])].strip():
+                    found[lo + p] = there[p]
         for pos in np.flatnonzero(found >= 0).tolist():
             out.append(Copy(int(order[pos]), int(found[pos])))
     return sorted(out)
