@@ -12,6 +12,7 @@ import re
 import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 from typing import Any
 
@@ -574,7 +575,9 @@ def _clean_frame(
         return None
     if not isinstance(frame.index, pd.RangeIndex) or len(frame.columns) != len(header):
         return None  # rows longer than the header: pandas would take a column as the index
-    if len(text.splitlines()) != len(frame) + 1:
+    # Lines as str.splitlines counts them: _table_text made every line end "\n", and the control
+    # characters splitlines also breaks at sent the table to the careful reader above.
+    if text.count("\n") + (not text.endswith("\n")) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
     if (
         text.startswith((" ", "\t"))
@@ -1366,18 +1369,63 @@ def _rational(number: float) -> Any:
     return sympy.Rational(repr(number))
 
 
+def _bulk_loads(
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    keys: Any,
+    fixed_case: str | None,
+    joints: Any,
+    vectors: np.ndarray,
+) -> None:
+    """The rows of a clean loads table added case by case, in the order the rows give: cases
+    first seen first, each case's joints in row order (as a loop over the rows would add them,
+    without a dict lookup per row)."""
+    if keys is None:
+        assert fixed_case is not None
+        cases.setdefault(fixed_case, {}).update(
+            zip(joints.tolist(), map(tuple, vectors.tolist()), strict=True)
+        )
+        return
+    names = keys.unique().tolist()
+    if len(names) > 50:  # many cases of a few rows each: one pass over the rows is quicker
+        rows = zip(keys.tolist(), joints.tolist(), vectors.tolist(), strict=True)
+        for case, joint, vector in rows:
+            cases.setdefault(str(case), {})[joint] = tuple(vector)
+        return
+    key_array = keys.to_numpy(dtype=object)
+    joint_array = joints.to_numpy(dtype=object)
+    for case in names:
+        picked = key_array == case
+        cases.setdefault(str(case), {}).update(
+            zip(joint_array[picked].tolist(), map(tuple, vectors[picked].tolist()), strict=True)
+        )
+
+
 # -- loads as engineers state them --------------------------------------------------------------
 class _Geometry:
-    """Lookups the stated load forms need: coordinates, members, units."""
+    """Lookups the stated load forms need: coordinates, members, units.
+
+    Each lookup is made on first use: only chords and stated load forms need them, and a case of
+    plain joint loads would spend about 2 s per 10^6 members building dicts it never reads."""
 
     def __init__(
         self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None
     ) -> None:
-        self.coords = {j.id: j.coords for j in joints}
-        self.members = {m.id: m for m in members if m.start in self.coords and m.end in self.coords}
-        self.pairs = {frozenset((m.start, m.end)): m.id for m in self.members.values()}
+        self._joints, self._members = joints, members
         self.dim = dim
         self.units = units
+
+    @cached_property
+    def coords(self) -> dict[str, tuple[float, ...]]:
+        return {j.id: j.coords for j in self._joints}
+
+    @cached_property
+    def members(self) -> dict[str, Member]:
+        coords = self.coords
+        return {m.id: m for m in self._members if m.start in coords and m.end in coords}
+
+    @cached_property
+    def pairs(self) -> dict[frozenset[str], str]:
+        return {frozenset((m.start, m.end)): m.id for m in self.members.values()}
 
 
 LOAD_FORM_KEYS = ("magnitude", "angle", "direction", "normal_to")
@@ -1918,11 +1966,7 @@ def _read_loads(
                 vectors = frame[list(axes)].astype(float).to_numpy()
                 names_ok = keys is None or all(map(_plain_label, keys.unique().tolist()))
                 if np.isfinite(vectors).all() and _within(vectors, LOAD_LIMIT) and names_ok:
-                    case_names = keys.tolist() if keys is not None else [fixed_case] * len(frame)
-                    for case, joint, vector in zip(
-                        case_names, frame["joint"].tolist(), vectors.tolist(), strict=True
-                    ):
-                        cases.setdefault(str(case), {})[joint] = tuple(vector)
+                    _bulk_loads(cases, keys, fixed_case, frame["joint"], vectors)
                     return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
