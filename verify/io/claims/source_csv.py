@@ -7,6 +7,8 @@ import csv
 import io
 import re
 from collections.abc import Sequence
+from operator import methodcaller
+from typing import cast
 
 from verify.io.claims.grid import Cell, Grid
 from verify.io.claims.problems import Problems
@@ -94,8 +96,13 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         offset = 1
     else:
         delimiter = _sniff_delimiter(lines)
+    del text
+    plain = _split_plainly(lines, delimiter)
+    if plain is not None:
+        numbers = list(range(1 + offset, len(plain) + 1 + offset))
+        return Grid(plain, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
     rows: list[list[Cell]] = []
-    numbers: list[int] = []
+    numbers = []
     reader = csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter)
     try:
         for index, row in enumerate(reader, start=1):
@@ -107,3 +114,39 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         )
         return None
     return Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+
+
+def _split_plainly(lines: list[str], delimiter: str) -> list[list[Cell]] | None:
+    """The rows csv.reader and the strip-or-None of each cell would give, split directly, for the
+    common file where splitting is all there is to it; None otherwise (the reader above then
+    reads it). Plain means: ASCII with no quote character (so no field is quoted), no line over
+    the csv module's field limit (which it would refuse), and no cell that stripping would change
+    or that is empty (no space or tab beside a delimiter or a line's ends, no delimiter beside
+    another or a line's ends, no unit separator, the one other ASCII space after splitlines).
+    A blank line is an empty row, as csv.reader gives it (a last one is no row). Several times
+    quicker than the csv module and a strip per cell."""
+    joined = "\n".join(lines)
+    if not joined.isascii() or '"' in joined or "\x1f" in joined:
+        return None
+    if lines and max(map(len, lines)) > csv.field_size_limit():
+        return None
+    edges = ["\n"]
+    for space in (" ", "\t"):
+        if space != delimiter:
+            edges.append(space)
+            if space + delimiter in joined or delimiter + space in joined:
+                return None
+            if "\n" + space in joined or space + "\n" in joined:
+                return None
+    if delimiter * 2 in joined or "\n" + delimiter in joined or delimiter + "\n" in joined:
+        return None
+    if joined.startswith((delimiter, *edges[1:])) or joined.endswith((delimiter, *edges[1:])):
+        return None
+    rows = cast(list[list[Cell]], list(map(methodcaller("split", delimiter), lines)))
+    if "" in lines:
+        for k, line in enumerate(lines):
+            if not line:
+                rows[k] = []
+        if not lines[-1]:
+            rows.pop()  # the joined text ends in a line break there, which ends the row above
+    return rows
