@@ -60,6 +60,18 @@ class Grid:
         text = f"sheet '{self.sheet}' cell {column_letter(c)}{number}"
         return text + (f", column '{column}'" if column is not None else "")
 
+    def where_parts(self, c: int, column: str | None) -> tuple[str, str] | None:
+        """(before, after) with where(r, c, column) == before + str(row number of r) + after for
+        every row r, so a column's places can be made from row numbers alone; None for PDF
+        pages, whose places also name the page."""
+        if self.pages is not None:
+            return None
+        if self.sheet is None:
+            after = f", column '{column}'" if column is not None else f", column {c + 1}"
+            return "row ", after
+        after = f", column '{column}'" if column is not None else ""
+        return f"sheet '{self.sheet}' cell {column_letter(c)}", after
+
 
 # A lone dash in a force table means "nothing here" (often for a zero-force member); it is read
 # as no claim, never as a value, so a "not computed" dash cannot become a false error.

@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import operator
+from array import array
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import NamedTuple
+from itertools import repeat
+from typing import NamedTuple, cast, overload
 
 import numpy as np
 
@@ -29,12 +32,10 @@ class MemberIndex:
 
     def get_indexer(self, labels: Sequence[object]) -> np.ndarray:
         """The position of each label, -1 where it is not a member id as the model writes it."""
-        get = self._position.get
-        return np.fromiter(
-            (get(label, -1) if type(label) is str else -1 for label in labels),
-            dtype=np.int64,
-            count=len(labels),
-        )
+        # The dict's keys are ids (text); a cell of another type (a number, None, an unusable
+        # cell: all hashable) is equal to none of them, so a plain lookup gives it -1 too.
+        get = cast("Callable[[object, int], int]", self._position.get)
+        return np.fromiter(map(get, labels, repeat(-1)), dtype=np.int64, count=len(labels))
 
     def tolist(self) -> list[str]:
         return list(self._ids)
@@ -94,6 +95,101 @@ class Resolution:
             f"column '{self.column}' written to steps of {self.step:g}{unit}, so "
             f"+-{self.step / 2:g}{unit} allowed"
         )
+
+
+class Places(Sequence[str]):
+    """Where each claim was written ("row 9, column 'dead'"), made when asked: one string per
+    claim would hold about 80 bytes each (160 MB for 2x10^6 claims) for the few that a finding
+    quotes; here a claim keeps its row number and value column, and the claims read one by one
+    their own text. Indexed like the list it stands for (the comparison indexes it per claim)."""
+
+    __slots__ = ("_given", "_numbers", "_parts", "_slot")
+
+    def __init__(
+        self,
+        numbers: array[int],
+        slot: array[int],
+        parts: Sequence[tuple[str, str]],
+        given: dict[int, str],
+    ) -> None:
+        self._numbers = numbers  # the row number (file, sheet) of each claim
+        self._slot = slot  # the claim's value column: an entry of `parts`
+        self._parts = tuple(parts)  # (before, after) the row number, per value column
+        self._given = given  # claim position -> place, for claims that came with theirs
+
+    def __len__(self) -> int:
+        return len(self._numbers)
+
+    @overload
+    def __getitem__(self, i: int) -> str: ...
+
+    @overload
+    def __getitem__(self, i: slice) -> list[str]: ...
+
+    def __getitem__(self, i: int | slice) -> str | list[str]:
+        if type(i) is not int:
+            if isinstance(i, slice):
+                return [self[k] for k in range(*i.indices(len(self)))]
+            i = operator.index(i)
+        if i < 0:
+            i += len(self._numbers)
+        given = self._given.get(i) if self._given else None
+        if given is not None:
+            return given
+        before, after = self._parts[self._slot[i]]
+        return f"{before}{self._numbers[i]}{after}"
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, Places | list | tuple):
+            return len(self) == len(other) and all(a == b for a, b in zip(self, other, strict=True))
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]  # compared by content, like the list it stands for
+
+    def __repr__(self) -> str:
+        return f"Places({list(self)!r})"
+
+
+class Labels(Sequence[str]):
+    """Each claim's label as written, made when asked: a claim read in bulk is labelled by its
+    member's id exactly as the model writes it (that is what made it plain), so it keeps only
+    its member position; the claims read one by one keep their own label."""
+
+    __slots__ = ("_given", "_ids", "_member")
+
+    def __init__(self, member: array[int], ids: Sequence[str], given: dict[int, str]) -> None:
+        self._member, self._ids, self._given = member, ids, given
+
+    def __len__(self) -> int:
+        return len(self._member)
+
+    @overload
+    def __getitem__(self, i: int) -> str: ...
+
+    @overload
+    def __getitem__(self, i: slice) -> list[str]: ...
+
+    def __getitem__(self, i: int | slice) -> str | list[str]:
+        if type(i) is not int:
+            if isinstance(i, slice):
+                return [self[k] for k in range(*i.indices(len(self)))]
+            i = operator.index(i)
+        if i < 0:
+            i += len(self._member)
+        given = self._given.get(i) if self._given else None
+        if given is not None:
+            return given
+        return self._ids[self._member[i]]
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, Labels | list | tuple):
+            return len(self) == len(other) and all(a == b for a, b in zip(self, other, strict=True))
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]  # compared by content, like the list it stands for
+
+    def __repr__(self) -> str:
+        return f"Labels({list(self)!r})"
 
 
 @dataclass(frozen=True)
