@@ -41,6 +41,21 @@ class Match:
         return f"{self.reaction[0]}.{self.reaction[1]}" if self.reaction else ""
 
 
+def _folded_all(ids: Sequence[str], *, normalize: bool = False) -> list[str]:
+    """casefold (after normalize_text, when asked) of every id, over the ids joined by a
+    character none holds and split back: per id the same (translate maps no character to or
+    from the separator, casefold and strip neither make nor remove one), and about ten times
+    quicker than a call per id for 10^5 ids."""
+    joined = "\n".join(ids)
+    if ids and joined.count("\n") == len(ids) - 1:
+        if normalize:
+            return [k.strip() for k in joined.translate(NORMALIZE_TABLE).casefold().split("\n")]
+        return joined.casefold().split("\n")
+    if normalize:
+        return [normalize_text(i).casefold() for i in ids]
+    return [i.casefold() for i in ids]
+
+
 def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:
     """Member ids for labels written as a claims table would write them ('u2u3', 'U2-L3', 'L3 U2').
 
@@ -83,7 +98,7 @@ class LabelMatcher:
         """The member id of each folded spelling, and the spellings several ids share (rare:
         one list per id would cost most of the claims reader's setup)."""
         ids = self._model.member_ids
-        folds = [mid.casefold() for mid in ids]
+        folds = _folded_all(ids)
         one = dict(zip(folds, ids, strict=True))
         shared: dict[str, list[str]] = {}
         if len(one) < len(ids):
@@ -101,20 +116,24 @@ class LabelMatcher:
         return [one[folded]] if folded in one else []
 
     @cached_property
-    def _joints_folded(self) -> dict[str, list[str]]:
+    def _joints_folded(self) -> dict[str, str | list[str]]:
+        """The joint ids each folded spelling reads as (one id mostly; a list per spelling would
+        be made for every joint, so one id is kept as text and only shared spellings list)."""
         ids = list(self._model.joint_ids)
-        # normalize_text and casefold over all ids at once: the one text joined by a character
-        # no id holds, split back. Per id, the same (translate maps no character to or from the
-        # separator, casefold and strip neither make nor remove one); 10x quicker for 10^5 ids.
-        joined = "\n".join(ids)
-        if ids and joined.count("\n") == len(ids) - 1:
-            keys = [k.strip() for k in joined.translate(NORMALIZE_TABLE).casefold().split("\n")]
-        else:
-            keys = [normalize_text(jid).casefold() for jid in ids]
-        folded: dict[str, list[str]] = defaultdict(list)
-        for key, jid in zip(keys, ids, strict=True):
-            folded[key].append(jid)
+        keys = _folded_all(ids, normalize=True)
+        folded: dict[str, str | list[str]] = dict(zip(keys, ids, strict=True))
+        if len(folded) < len(ids):
+            groups: dict[str, list[str]] = defaultdict(list)
+            for key, jid in zip(keys, ids, strict=True):
+                groups[key].append(jid)
+            folded.update((key, group) for key, group in groups.items() if len(group) > 1)
         return folded
+
+    def _joints_of(self, key: str) -> list[str]:
+        found = self._joints_folded.get(key)
+        if found is None:
+            return []
+        return [found] if isinstance(found, str) else found
 
     def names(self, label: str) -> str:
         """The kind a label reads as ("member", "reaction", "unknown", "ambiguous"), without the
@@ -173,8 +192,8 @@ class LabelMatcher:
             right = folded[j:]
             if not right or right not in self._joints_folded:
                 continue
-            for a in self._joints_folded[left]:
-                for b in self._joints_folded[right]:
+            for a in self._joints_of(left):
+                for b in self._joints_of(right):
                     mid = self._pairs().get(frozenset((a, b)))
                     if mid is not None and mid not in found:
                         found.append(mid)
@@ -203,7 +222,7 @@ class LabelMatcher:
             if head and has_prefix:
                 readings.append((head.group("joint").strip(), head.group("axis")))
             for joint_text, axis in readings:
-                for jid in self._joints_folded.get(joint_text, []):
+                for jid in self._joints_of(joint_text):
                     if (
                         (jid, axis) in self._reactions or (jid, axis) in self._free_directions
                     ) and (jid, axis) not in found:
