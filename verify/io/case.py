@@ -12,7 +12,7 @@ import re
 import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cached_property, partial
 from pathlib import Path
 from typing import Any
 
@@ -140,6 +140,15 @@ class _Bulk:
     joint_ids: list[str] | None = None
     xyz: Any = None  # joints x dim
     ends: Any = None  # members x 2, positions in joint_ids
+    joint_position: Any = None  # a pandas Index of joint_ids, once made
+
+    def positions(self, labels: Any) -> Any:
+        """The position of each label in joint_ids (-1: none), by one hashed Index."""
+        import pandas as pd
+
+        if self.joint_position is None:
+            self.joint_position = pd.Index(self.joint_ids)
+        return self.joint_position.get_indexer(labels)
 
 
 @dataclass
@@ -309,8 +318,19 @@ def build_model(
     if not members and not ctx.joints_unreadable:
         ctx.add("the model has no members; add a [members] table", "members")
     _check_geometry(ctx, joints, members, dim)
-    connected = {m.start for m in members} | {m.end for m in members}
-    for case in cases:
+    # Every joint at a member end (both tables read in bulk, the common large case): no joint or
+    # load to name below, found from the end positions instead of a set of 2x10^6 ids.
+    bulk = ctx.bulk
+    every_joint_used = (
+        bulk.xyz is not None
+        and bulk.ends is not None
+        and len(bulk.xyz) == len(joints)
+        and len(bulk.ends) == len(members)
+        and len(members) > 0
+        and bool(np.bincount(bulk.ends.ravel(), minlength=len(joints)).all())
+    )
+    connected = set() if every_joint_used else {m.start for m in members} | {m.end for m in members}
+    for case in [] if every_joint_used else cases:
         for joint in case.loads:
             if joint in joint_ids and joint not in connected and members:
                 ctx.add(
@@ -320,7 +340,7 @@ def build_model(
                     case.name,
                     joint,
                 )
-    for item in joints:
+    for item in [] if every_joint_used else joints:
         if item.id not in connected and members:
             ctx.add(
                 f"joint '{item.id}' is not connected to any member; remove it or add its members",
@@ -329,7 +349,6 @@ def build_model(
             )
     ctx.problems.raise_if_any()
     assert units is not None and dim is not None
-    bulk = ctx.bulk
     arrays = None
     if (
         bulk.xyz is not None
@@ -829,7 +848,8 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
     ctx.declared_joints.update(ids)
     ctx.origins.register("joint", file, ids)
     ctx.bulk.joint_ids, ctx.bulk.xyz = ids, xyz
-    return list(map(Joint._make, zip(ids, map(tuple, xyz.tolist()), strict=True)))
+    # tuple.__new__ straight (Joint._make is Python code per joint); zip gives two items each.
+    return list(map(partial(tuple.__new__, Joint), zip(ids, map(tuple, xyz.tolist()), strict=True)))
 
 
 def _plain_numbers(column: Any) -> bool:
@@ -902,16 +922,14 @@ def _fast_members(
     found = _clean_frame(ctx, base, name, ("members",), ("id", "start", "end"), ())
     if found is None:
         return None
-    import pandas as pd
 
     file, frame = found
     if frame["id"].duplicated().any():
         return None
     ends = None
     if ctx.bulk.joint_ids is not None and len(ctx.bulk.joint_ids) == len(joint_ids):
-        position = pd.Index(ctx.bulk.joint_ids)
         ends = np.column_stack(
-            [position.get_indexer(frame["start"]), position.get_indexer(frame["end"])]
+            [ctx.bulk.positions(frame["start"]), ctx.bulk.positions(frame["end"])]
         )
         if (ends < 0).any():
             return None
@@ -930,7 +948,7 @@ def _fast_members(
             eas[k] = value
     ctx.origins.register("member", file, ids)
     ctx.bulk.ends = ends
-    return list(map(Member._make, zip(ids, starts, stops, eas, strict=True)))
+    return list(map(partial(tuple.__new__, Member), zip(ids, starts, stops, eas, strict=True)))
 
 
 def _ea_from(
@@ -1956,8 +1974,14 @@ def _read_loads(
         if found is not None:
             frame = found[1]
             keys = frame["case"] if not fixed_case else None
+            bulk = ctx.bulk
+            every_known = (
+                bool((bulk.positions(frame["joint"]) >= 0).all())
+                if bulk.joint_ids is not None and len(bulk.joint_ids) == len(joint_ids)
+                else frame["joint"].isin(joint_ids).all()
+            )
             clean = (
-                frame["joint"].isin(joint_ids).all()
+                every_known
                 and not frame.duplicated(
                     subset=["joint"] + (["case"] if keys is not None else [])
                 ).any()

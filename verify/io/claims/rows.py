@@ -412,8 +412,6 @@ class BulkClaims:
 # The characters of a column of plain numbers joined by line breaks; numpy checks them all at once.
 _NUMBER_BYTES = np.zeros(256, dtype=bool)
 _NUMBER_BYTES[list(b"0123456789+-.eE\n")] = True
-# A point beside anything but a digit ('5.', '.5', '1.e3'): PLAIN_NUMBER wants digits both sides.
-_LONE_POINTS = tuple(["..", "\n.", ".\n"] + [f".{c}" for c in "+-eE"] + [f"{c}." for c in "+-eE"])
 
 
 def _plain_text_column(
@@ -422,10 +420,10 @@ def _plain_text_column(
     """(value, decimals shown) when every cell is text PLAIN_NUMBER reads, else None; checked on
     the column joined into one text, instead of a regular expression per cell.
 
-    Only digits, signs, points, e/E and the joining breaks; no point without a digit on each
-    side; and float() reading every cell. With those characters float() refuses what
-    PLAIN_NUMBER refuses (a sign or exponent out of place, '1e', '1.2.3'), so together they
-    accept exactly its texts. Decimals as _decimals_shown counts them, from the points' places."""
+    Only digits, signs, points, e/E and the joining breaks; a digit on each side of every point;
+    and float() reading every cell. With those characters float() refuses what PLAIN_NUMBER
+    refuses (a sign or exponent out of place, '1e', '1.2.3'), so together they accept exactly
+    its texts. Decimals as _decimals_shown counts them, from the places of points and exponents."""
     n = len(cells)
     texts = cast("list[str]", cells)  # checked by the join: a cell not text is a TypeError
     try:
@@ -434,28 +432,45 @@ def _plain_text_column(
         return None
     if not n or joined.count("\n") != n - 1 or not joined.isascii():
         return None  # a break inside a cell (a quoted field) would split it in two
-    if (decimal_comma and "." in joined) or joined.startswith(".") or joined.endswith("."):
-        return None
-    if any(pair in joined for pair in _LONE_POINTS):
+    if decimal_comma and "." in joined:
         return None
     raw = np.frombuffer(joined.encode("ascii"), dtype=np.uint8)
     if not _NUMBER_BYTES[raw].all():
         return None
+    points = np.flatnonzero(raw == ord("."))
+    if points.size:
+        if points[0] == 0 or points[-1] == raw.size - 1:
+            return None
+        digit = (raw >= ord("0")) & (raw <= ord("9"))
+        if not (digit[points - 1].all() and digit[points + 1].all()):
+            return None
     try:
         value = np.fromiter(map(float, texts), dtype=np.float64, count=n)
     except ValueError:
         return None
-    breaks = np.flatnonzero(raw == ord("\n"))
-    ends = np.append(breaks, raw.size)  # one past each cell's last character
+    ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
     decimals = np.full(n, -1, dtype=np.int64)
-    points = np.flatnonzero(raw == ord("."))
     at = np.searchsorted(ends, points)  # each point's cell (a plain number has one at most)
     decimals[at] = ends[at] - points - 1
     exponents = np.flatnonzero((raw == ord("e")) | (raw == ord("E")))
-    for i in np.unique(np.searchsorted(ends, exponents)).tolist():
-        if decimals[i] >= 0:
-            shown = decimals_as_written(texts[i], float(value[i]) + 0.0)
-            decimals[i] = -1 if shown is None else shown
+    if exponents.size:
+        # decimals_as_written reads the digits before the exponent ('1.50e3': '1.50') and keeps
+        # their decimals only when that number is the value itself: an exponent of zero, or a
+        # mantissa of zeros. Counted from the non-zero digits either side of the 'e'.
+        cell = np.searchsorted(ends, exponents)
+        starts = np.concatenate([[0], ends[:-1] + 1])
+        nonzero = np.concatenate(
+            [[0], np.cumsum((raw >= ord("1")) & (raw <= ord("9")), dtype=np.int64)]
+        )
+        mantissa_zero = nonzero[exponents] == nonzero[starts[cell]]
+        exponent_zero = nonzero[ends[cell]] == nonzero[exponents + 1]
+        pointed = decimals[cell] >= 0
+        point_of = np.full(n, -1, dtype=np.int64)
+        point_of[at] = points
+        kept = exponents - point_of[cell] - 1
+        decimals[cell] = np.where(
+            pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
+        )
     return value, decimals
 
 
@@ -506,9 +521,14 @@ def _plain_cells(
 
 def _columns(rows: list[list[Cell]], indexes: list[int]) -> list[list[Cell]]:
     """The cells of each column at `indexes` (None past a short row's end)."""
-    if rows and min(map(len, rows)) > max(indexes):
-        return [list(map(itemgetter(i), rows)) for i in indexes]
-    return [[row[i] if i < len(row) else None for row in rows] for i in indexes]
+    need = max(indexes) + 1
+    lengths = np.fromiter(map(len, rows), dtype=np.int64, count=len(rows))
+    short = np.flatnonzero(lengths < need).tolist()
+    if short:  # a blank or short row, padded in a copy so that every column is taken the same way
+        rows = list(rows)
+        for k in short:
+            rows[k] = rows[k] + [None] * (need - len(rows[k]))
+    return [list(map(itemgetter(i), rows)) for i in indexes]
 
 
 def _take(items: list[Cell], at: list[int]) -> list[Cell]:

@@ -7,6 +7,7 @@ import csv
 import io
 import re
 from collections.abc import Sequence
+from itertools import islice
 from operator import methodcaller
 from typing import cast
 
@@ -45,7 +46,7 @@ def _decode(data: bytes, problems: Problems) -> str | None:
 
 def _sniff_delimiter(lines: Sequence[str]) -> str:
     """The delimiter that splits the sample into the most consistent rows of two or more fields."""
-    sample = [line for line in lines if line.strip()][:50]
+    sample = list(islice((line for line in lines if line.strip()), 50))
     best = (0.0, 0, ",")
     for order, delimiter in enumerate(CSV_DELIMITERS):
         try:
