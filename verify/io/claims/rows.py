@@ -459,11 +459,13 @@ def _plain_text_column(
         # mantissa of zeros. Counted from the non-zero digits either side of the 'e'.
         cell = np.searchsorted(ends, exponents)
         starts = np.concatenate([[0], ends[:-1] + 1])
-        nonzero = np.concatenate(
-            [[0], np.cumsum((raw >= ord("1")) & (raw <= ord("9")), dtype=np.int64)]
-        )
-        mantissa_zero = nonzero[exponents] == nonzero[starts[cell]]
-        exponent_zero = nonzero[ends[cell]] == nonzero[exponents + 1]
+        # Sums over [start, e), [e, e + 1), [e + 1, end), [end, ...) of each such cell: the first
+        # and third count the mantissa's and the exponent's non-zero digits (a plain number has
+        # digits on both sides of its 'e', so no range is empty). One byte more for the last end.
+        nonzero = np.append((raw >= ord("1")) & (raw <= ord("9")), False)
+        bounds = np.column_stack([starts[cell], exponents, exponents + 1, ends[cell]]).ravel()
+        sums = np.add.reduceat(nonzero, bounds, dtype=np.int64).reshape(-1, 4)
+        mantissa_zero, exponent_zero = sums[:, 0] == 0, sums[:, 2] == 0
         pointed = decimals[cell] >= 0
         point_of = np.full(n, -1, dtype=np.int64)
         point_of[at] = points
@@ -582,8 +584,13 @@ def read_bulk(
     if picked.size < len(rows):
         texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
     cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
-    text = [c if type(c) is str else cell_text(c) for c in cells]
-    if all(d is not None for d in decimals_of):
+    texts_only = all(d is not None for d in decimals_of)  # every cell text (plain numbers)
+    text = (
+        cast("list[str]", cells)
+        if texts_only
+        else [c if type(c) is str else cell_text(c) for c in cells]
+    )
+    if texts_only:
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
         shown = _decimals_shown(text, value)

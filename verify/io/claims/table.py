@@ -19,9 +19,13 @@ class MemberIndex:
     reading a claims table does not import pandas (about 0.25 s, half a small check's start-up);
     a lookup of 10^5 labels takes about as long either way."""
 
-    def __init__(self, ids: Sequence[str]) -> None:
+    def __init__(self, ids: Sequence[str], position: Mapping[str, int] | None = None) -> None:
+        """`position`: the id -> position map of the same ids when one exists (the model's
+        member_index), used instead of building another (0.35 s and ~80 MB for 10^6 ids)."""
         self._ids = list(ids)
-        self._position = {mid: k for k, mid in enumerate(self._ids)}
+        self._position = (
+            position if position is not None else {mid: k for k, mid in enumerate(self._ids)}
+        )
 
     def __len__(self) -> int:
         return len(self._ids)
