@@ -21,9 +21,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from test_claim_arrays import _check
 
+from verify.io.claims.grid import Grid
 from verify.io.claims.rounding import decimals_as_written
 from verify.io.claims.rows import _plain_text_column
-from verify.io.claims.source_csv import _split_plainly
+from verify.io.claims.source_csv import SplitRows, _split_plainly
 from verify.io.claims.table import Labels, Places
 from verify.io.values import MAX_FORCE, MIN_FORCE, PLAIN_NUMBER
 
@@ -41,6 +42,35 @@ def test_a_plainly_split_file_gives_the_csv_modules_rows(text: str, delimiter: s
         return  # declined: the csv module reads it
     reader = csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter)
     assert got == [[c.strip() or None for c in row] for row in reader]
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    lines=st.lists(
+        st.sampled_from(["M1,1,2", "M2,3.5,-4", "M3,5", "", "a,b,c,d", "x"]), max_size=8
+    ),
+    start=st.integers(0, 3),
+    indexes=st.lists(st.integers(0, 3), min_size=1, max_size=3),
+)
+def test_rows_split_when_asked_read_as_the_split_lists(
+    lines: list[str], start: int, indexes: list[int]
+) -> None:
+    """Columns taken as strides of one split (rows of one width) or row by row (any other)."""
+    rows = _split_plainly(lines, ",")
+    assert rows is not None
+    lazy = Grid(SplitRows(lines, ","), list(range(len(rows))), None, decimal_comma=False)
+    eager = Grid(rows, list(range(len(rows))), None, decimal_comma=False)
+    assert len(lazy.rows) == len(rows) and list(lazy.rows) == rows
+    assert lazy.rows[start:] == rows[start:] and lazy.row_lengths(start) == eager.row_lengths(start)
+    if rows:
+        assert lazy.rows[-1] == rows[-1]
+        lazy.rows[0].append("changed")  # a row handed out is the caller's own copy
+        assert lazy.rows[0] == rows[0]
+    stop = len(rows)
+    assert lazy.columns(start, stop, indexes) == eager.columns(start, stop, indexes)
+    assert eager.columns(start, stop, indexes) == [
+        [row[i] if i < len(row) else None for row in rows[start:stop]] for i in indexes
+    ]
 
 
 def test_the_common_table_is_split_plainly() -> None:

@@ -521,18 +521,6 @@ def _plain_cells(
     return value, plain, decimals
 
 
-def _columns(rows: list[list[Cell]], indexes: list[int]) -> list[list[Cell]]:
-    """The cells of each column at `indexes` (None past a short row's end)."""
-    need = max(indexes) + 1
-    lengths = np.fromiter(map(len, rows), dtype=np.int64, count=len(rows))
-    short = np.flatnonzero(lengths < need).tolist()
-    if short:  # a blank or short row, padded in a copy so that every column is taken the same way
-        rows = list(rows)
-        for k in short:
-            rows[k] = rows[k] + [None] * (need - len(rows[k]))
-    return [list(map(itemgetter(i), rows)) for i in indexes]
-
-
 def _take(items: list[Cell], at: list[int]) -> list[Cell]:
     if len(at) > 1:
         return list(itemgetter(*at)(items))
@@ -547,10 +535,9 @@ def read_bulk(
     as the model writes it, every value cell is a plain number, and its member has no other row
     (a repeated member goes to the general reader, which words the duplicate)."""
     grid = reader.grid
-    rows = grid.rows[start:stop]
     label_at = reader.member_h.index
     columns = reader.columns
-    cells_of = _columns(rows, [label_at] + [v.index for v in columns])
+    cells_of = grid.columns(start, stop, [label_at] + [v.index for v in columns])
     labels = cells_of[0]
     member = member_ids.get_indexer(labels)
     ok = member >= 0
@@ -563,7 +550,7 @@ def read_bulk(
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
-    named = np.full(len(rows), -1, dtype=np.int64)
+    named = np.full(stop - start, -1, dtype=np.int64)
     named[ok] = member[ok]
     match = reader.matcher.match
     for i in others.tolist():
@@ -579,9 +566,9 @@ def read_bulk(
     general = (np.flatnonzero(~ok) + start).tolist()
     k = len(columns)
     if not picked.size or not k:
-        return None, (np.arange(len(rows)) + start).tolist()
+        return None, list(range(start, stop))
     value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
-    if picked.size < len(rows):
+    if picked.size < stop - start:
         texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
     cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
     texts_only = all(d is not None for d in decimals_of)  # every cell text (plain numbers)

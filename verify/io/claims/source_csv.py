@@ -9,7 +9,9 @@ import re
 from collections.abc import Sequence
 from itertools import islice
 from operator import methodcaller
-from typing import cast
+from typing import cast, overload
+
+import numpy as np
 
 from verify.io.claims.grid import Cell, Grid
 from verify.io.claims.problems import Problems
@@ -98,8 +100,8 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
     else:
         delimiter = _sniff_delimiter(lines)
     del text
-    plain = _split_plainly(lines, delimiter)
-    if plain is not None:
+    if _plainly_split(lines, delimiter):
+        plain = SplitRows(lines, delimiter)
         numbers = list(range(1 + offset, len(plain) + 1 + offset))
         return Grid(plain, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
     rows: list[list[Cell]] = []
@@ -117,37 +119,91 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
     return Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
 
 
-def _split_plainly(lines: list[str], delimiter: str) -> list[list[Cell]] | None:
-    """The rows csv.reader and the strip-or-None of each cell would give, split directly, for the
-    common file where splitting is all there is to it; None otherwise (the reader above then
-    reads it). Plain means: ASCII with no quote character (so no field is quoted), no line over
-    the csv module's field limit (which it would refuse), and no cell that stripping would change
-    or that is empty (no space or tab beside a delimiter or a line's ends, no delimiter beside
-    another or a line's ends, no unit separator, the one other ASCII space after splitlines).
-    A blank line is an empty row, as csv.reader gives it (a last one is no row). Several times
-    quicker than the csv module and a strip per cell."""
+def _plainly_split(lines: list[str], delimiter: str) -> bool:
+    """Whether csv.reader and the strip-or-None of each cell would give each line split at the
+    delimiter: the common file where splitting is all there is to it (SplitRows reads it). Plain
+    means: ASCII with no quote character (so no field is quoted), no line over the csv module's
+    field limit (which it would refuse), and no cell that stripping would change or that is
+    empty (no space or tab beside a delimiter or a line's ends, no delimiter beside another or a
+    line's ends, no unit separator, the one other ASCII space after splitlines)."""
     joined = "\n".join(lines)
     if not joined.isascii() or '"' in joined or "\x1f" in joined:
-        return None
+        return False
     if lines and max(map(len, lines)) > csv.field_size_limit():
-        return None
-    edges = ["\n"]
+        return False
+    edges = []
     for space in (" ", "\t"):
         if space != delimiter:
             edges.append(space)
             if space + delimiter in joined or delimiter + space in joined:
-                return None
+                return False
             if "\n" + space in joined or space + "\n" in joined:
-                return None
+                return False
     if delimiter * 2 in joined or "\n" + delimiter in joined or delimiter + "\n" in joined:
-        return None
-    if joined.startswith((delimiter, *edges[1:])) or joined.endswith((delimiter, *edges[1:])):
-        return None
-    rows = cast(list[list[Cell]], list(map(methodcaller("split", delimiter), lines)))
-    if "" in lines:
-        for k, line in enumerate(lines):
-            if not line:
-                rows[k] = []
-        if not lines[-1]:
-            rows.pop()  # the joined text ends in a line break there, which ends the row above
-    return rows
+        return False
+    return not (joined.startswith((delimiter, *edges)) or joined.endswith((delimiter, *edges)))
+
+
+def _split_plainly(lines: list[str], delimiter: str) -> list[list[Cell]] | None:
+    """The rows of a plain file as lists (None when it is not plain): what SplitRows gives."""
+    return list(SplitRows(lines, delimiter)) if _plainly_split(lines, delimiter) else None
+
+
+def _cells(texts: list[str]) -> list[Cell]:
+    return cast("list[Cell]", texts)  # a list of text is a list of cells (read, never added to)
+
+
+class SplitRows(Sequence[list[Cell]]):
+    """The rows of a plain file (see _plainly_split), each split when asked: a list per row and
+    a string per cell made up front were most of the reading time of a 10^6-row table and held
+    three times the file's size. A blank line is an empty row, as csv.reader gives it (a last
+    one is no row: the joined text ends in a line break there, which ends the row above). The
+    last row asked is kept, as the row reader asks for one row's cells several times."""
+
+    def __init__(self, lines: list[str], delimiter: str) -> None:
+        self._lines = lines[:-1] if lines and not lines[-1] else lines
+        self._delimiter = delimiter
+        self._last: tuple[int, list[Cell]] = (-1, [])
+
+    def __len__(self) -> int:
+        return len(self._lines)
+
+    @overload
+    def __getitem__(self, i: int) -> list[Cell]: ...
+
+    @overload
+    def __getitem__(self, i: slice) -> list[list[Cell]]: ...
+
+    def __getitem__(self, i: int | slice) -> list[Cell] | list[list[Cell]]:
+        if isinstance(i, slice):
+            d = self._delimiter
+            return [_cells(line.split(d)) if line else [] for line in self._lines[i]]
+        if i < 0:
+            i += len(self._lines)
+        if self._last[0] != i:
+            line = self._lines[i]
+            self._last = (i, _cells(line.split(self._delimiter)) if line else [])
+        return list(self._last[1])
+
+    def lengths(self, start: int) -> np.ndarray:
+        """The number of cells of each row from `start` on (0 for a blank line)."""
+        lines = self._lines[start:]
+        count = np.fromiter(
+            map(methodcaller("count", self._delimiter), lines), dtype=np.int64, count=len(lines)
+        )
+        filled = np.fromiter(map(bool, lines), dtype=bool, count=len(lines))
+        return np.where(filled, count + 1, 0)
+
+    def columns(self, start: int, stop: int, indexes: list[int]) -> list[list[Cell]] | None:
+        """The cells of columns `indexes` in rows start..stop when every such row has the same
+        number of cells, more than any index (else None): the rows joined by the delimiter and
+        split once, each column a stride of that one list."""
+        lines = self._lines[start:stop]
+        if not lines:
+            return None
+        widths = self.lengths(start)[: len(lines)]
+        width = int(widths[0])
+        if width <= max(indexes) or not (widths == width).all():
+            return None
+        cells = self._delimiter.join(lines).split(self._delimiter)
+        return [_cells(cells[i::width]) for i in indexes]
