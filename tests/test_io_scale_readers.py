@@ -20,8 +20,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from test_claim_arrays import _check
+from test_claims_reader import MODEL
 
+from verify.io.case import build_model
 from verify.io.claims.grid import Grid
+from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.rounding import decimals_as_written
 from verify.io.claims.rows import _plain_text_column
 from verify.io.claims.source_csv import SplitRows, _split_plainly
@@ -188,3 +191,45 @@ def test_tables_of_exponents_read_in_bulk_equal_the_general_reader(
     lines = [header] + [delimiter.join(r) for r in rows]
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     _check(path, monkeypatch)
+
+
+JOINT_NAMES = st.sampled_from(["A", "B", "1", "2", "1e2", "\u22123", " 4 ", "e", "L0", "ß"])
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    joints=st.lists(JOINT_NAMES, min_size=3, max_size=3, unique=True),
+    member_names=st.lists(
+        st.sampled_from(["M1", "12", "1E2", "-3", "x", "5.0"]), min_size=3, max_size=3, unique=True
+    ),
+    labels=st.lists(st.text(alphabet=list("0123456789+-.eE"), min_size=1, max_size=5), max_size=6),
+)
+def test_a_number_cell_is_judged_as_the_full_matching_judges_it(
+    joints: list[str], member_names: list[str], labels: list[str]
+) -> None:
+    """The shortcut for cells of number characters against matching in full (folded ids, joint
+    pairs, reactions), on models whose ids are or are not written like numbers."""
+    a, b, c = joints
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": {a: [0.0, 0.0], b: [3.0, 0.0], c: [3.0, 3.0]},
+            "members": dict(zip(member_names, [[a, b], [b, c], [a, c]], strict=True)),
+            "supports": {a: ["x", "y"], b: ["y"]},
+            "loads": {"dead": {c: [0.0, -10.0]}},
+        }
+    )
+    matcher = LabelMatcher(model)
+    for label in labels + [f"{a}-{b}", f"{b}{c}", f"r{a}.y", f"{a}.x"]:
+        assert matcher.names(label) == LabelMatcher(model)._match(label, suggest=False).kind
+
+
+def test_number_cells_are_judged_without_folding_the_models_ids() -> None:
+    matcher = LabelMatcher(MODEL)  # ids AB, BC, ...; joints A..D: none written like a number
+    assert [matcher.names(t) for t in ("12.5", "-3", "1e5", "AB")] == [
+        "unknown",
+        "unknown",
+        "unknown",
+        "member",
+    ]
+    assert "_fold_groups" not in vars(matcher) and "_joints_folded" not in vars(matcher)

@@ -15,6 +15,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cached_property
 
+import numpy as np
+
 from verify.io.values import NORMALIZE_TABLE, normalize_text
 from verify.model import Model
 
@@ -54,6 +56,33 @@ def _folded_all(ids: Sequence[str], *, normalize: bool = False) -> list[str]:
     if normalize:
         return [normalize_text(i).casefold() for i in ids]
     return [i.casefold() for i in ids]
+
+
+# The characters of a number (PLAIN_NUMBER's, in any order): a label of these only is looked up
+# among the ids before any folding (LabelMatcher.names).
+_NUMBER_CHARS = re.compile(r"[0-9+\-.eE]+")
+# Bytes an id folded to the characters of a number may hold: those characters, and ASCII spaces
+# (outer ones are stripped; inner ones make no number, but allowing them only answers "may").
+_NUMBER_LIKE_BYTES = np.zeros(256, dtype=bool)
+_NUMBER_LIKE_BYTES[list(b"0123456789+-.e \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f")] = True
+
+
+def _any_number_like(ids: Sequence[str]) -> bool:
+    """Whether some id, after normalize_text and casefold, may consist of the characters of a
+    number only: per id, no byte of the folded ids outside _NUMBER_LIKE_BYTES (a non-ASCII
+    folded text answers True: its stripping is not judged here)."""
+    if not ids:
+        return False
+    joined = "\n".join(ids)
+    if joined.count("\n") != len(ids) - 1:
+        return True
+    folded = joined.translate(NORMALIZE_TABLE).casefold()
+    if not folded.isascii():
+        return True
+    raw = np.frombuffer(folded.encode("ascii") + b"\n", dtype=np.uint8)
+    starts = np.concatenate([[0], np.flatnonzero(raw == ord("\n"))[:-1] + 1])
+    other = ~_NUMBER_LIKE_BYTES[raw]  # the breaks between ids count as allowed
+    return bool((np.add.reduceat(other, starts, dtype=np.int64) == 0).any())
 
 
 def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:
@@ -143,7 +172,24 @@ class LabelMatcher:
             return found.kind
         if len(label) > MAX_LABEL_CHARS:
             return "unknown"
+        if (
+            label not in self._ids
+            and _NUMBER_CHARS.fullmatch(label) is not None
+            and not self._numbers_may_name
+        ):
+            # A cell written with the characters of a number only (most cells of a force table)
+            # names nothing when no id reads that way: its folded text is itself lower-cased, so a
+            # folded id equal to it, or a pair of folded joint ids making it up, would be such an
+            # id too; and a reaction label starts with 'r' or ends with an axis letter or ')'. So
+            # the scan of the first rows of a sheet need not fold every id of the model.
+            return "unknown"
         return self._match(label, suggest=False).kind
+
+    @cached_property
+    def _numbers_may_name(self) -> bool:
+        """Whether some member or joint id, folded as labels are, may be written with the
+        characters of a number only (answered True whenever that is not plainly ruled out)."""
+        return _any_number_like(self._model.member_ids) or _any_number_like(self._model.joint_ids)
 
     def match(self, label: str) -> Match:
         found = self._cache.get(label)
