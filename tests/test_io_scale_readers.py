@@ -233,3 +233,48 @@ def test_number_cells_are_judged_without_folding_the_models_ids() -> None:
         "member",
     ]
     assert "_fold_groups" not in vars(matcher) and "_joints_folded" not in vars(matcher)
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    joints=st.lists(
+        st.sampled_from(["A", "B", "C1", "L0", "n2", "X", "\u22123", "Ab"]),
+        min_size=3,
+        max_size=3,
+        unique=True,
+    ),
+    member_names=st.lists(
+        st.sampled_from(["M1", "AB", "d1", "Top 1", "w"]), min_size=3, max_size=3, unique=True
+    ),
+    labels=st.lists(
+        st.text(alphabet=list("ABCLMabcdmnwxyz0123 -.()_:\u2212\u00a0Rr"), min_size=1, max_size=7),
+        max_size=8,
+    ),
+)
+def test_a_heading_or_label_is_judged_as_the_full_matching_judges_it(
+    joints: list[str], member_names: list[str], labels: list[str]
+) -> None:
+    """The shortcut for labels holding a character no reading could use, against matching in
+    full: reactions ('RA.y', 'A (x)'), joint pairs, folded ids, headings."""
+    a, b, c = joints
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": {a: [0.0, 0.0], b: [3.0, 0.0], c: [3.0, 3.0]},
+            "members": dict(zip(member_names, [[a, b], [b, c], [a, c]], strict=True)),
+            "supports": {a: ["x", "y"], b: ["y"]},
+            "loads": {"dead": {c: [0.0, -10.0]}},
+        }
+    )
+    matcher = LabelMatcher(model)
+    fixed = [f"R{a}.y", f"{a} (x)", f"{b}-{c}", f"y {a}", "dead (kN)", member_names[0].lower()]
+    fixed += [f"r\t{a}.y", f"{a}\t(y)"]
+    for label in labels + fixed:
+        assert matcher.names(label) == LabelMatcher(model)._match(label, suggest=False).kind
+
+
+def test_a_heading_is_judged_without_folding_the_models_ids() -> None:
+    matcher = LabelMatcher(MODEL)
+    assert [matcher.names(t) for t in ("Member", "dead (kN)", "snow")] == ["unknown"] * 3
+    assert "_fold_groups" not in vars(matcher) and "_joints_folded" not in vars(matcher)
+    assert [matcher.names(t) for t in ("ab", "RA.y", "B-C")] == ["member", "reaction", "member"]

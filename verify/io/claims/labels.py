@@ -67,6 +67,14 @@ _NUMBER_LIKE_BYTES = np.zeros(256, dtype=bool)
 _NUMBER_LIKE_BYTES[list(b"0123456789+-.e \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f")] = True
 
 
+def _characters(text: str) -> set[str]:
+    """The set of characters in `text` (for ASCII text counted by numpy, quicker than set())."""
+    if not text.isascii():
+        return set(text)
+    counts = np.bincount(np.frombuffer(text.encode("ascii"), dtype=np.uint8), minlength=128)
+    return {chr(c) for c in np.flatnonzero(counts).tolist()}
+
+
 def _any_number_like(ids: Sequence[str]) -> bool:
     """Whether some id, after normalize_text and casefold, may consist of the characters of a
     number only: per id, no byte of the folded ids outside _NUMBER_LIKE_BYTES (a non-ASCII
@@ -183,7 +191,28 @@ class LabelMatcher:
             # id too; and a reaction label starts with 'r' or ends with an axis letter or ')'. So
             # the scan of the first rows of a sheet need not fold every id of the model.
             return "unknown"
+        if label not in self._ids and not self._may_name(label):
+            return "unknown"
         return self._match(label, suggest=False).kind
+
+    def _may_name(self, label: str) -> bool:
+        """False when the label holds a character no reading could use (a heading such as
+        'dead (kN)' in a table of ids like 'M12' and joints like 'L3'): its folded text is a
+        folded member id, or joint spellings with separators between, or a joint spelling with
+        a reaction prefix, separators, parentheses and an axis; none of those hold any other
+        character (spaces aside, which the readings strip)."""
+        extra = set(normalize_text(label).casefold()) - self._label_chars
+        return not any(not ch.isspace() for ch in extra)
+
+    @cached_property
+    def _label_chars(self) -> frozenset[str]:
+        """The characters a label's folded text may hold and still name something (see
+        _may_name): the folded ids' own (minus signs and spaces as normalize_text makes them),
+        the separators, and the letters and marks of a reaction label."""
+        chars = set(LABEL_SEPARATORS) | set("reactionxyzn()_.-:, ")
+        for ids in (self._model.member_ids, self._model.joint_ids):
+            chars |= _characters("\n".join(ids).casefold())
+        return frozenset(chars)
 
     @cached_property
     def _numbers_may_name(self) -> bool:
