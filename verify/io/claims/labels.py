@@ -110,7 +110,8 @@ class LabelMatcher:
     """Matches table labels to member ids, joint pairs and reaction components of one model."""
 
     def __init__(self, model: Model) -> None:
-        self._ids = set(model.member_ids)
+        self._member_ids = model.member_ids  # a list made per call: made once here
+        self._ids = set(self._member_ids)
         self._pairs_made: dict[frozenset[str], str] | None = None  # made on first use (below)
         self._reactions = {(r.joint, r.axis) for r in model.reactions}
         # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
@@ -134,7 +135,7 @@ class LabelMatcher:
     def _fold_groups(self) -> tuple[dict[str, str], dict[str, list[str]]]:
         """The member id of each folded spelling, and the spellings several ids share (rare:
         one list per id would cost most of the claims reader's setup)."""
-        ids = self._model.member_ids
+        ids = self._member_ids
         folds = _folded_all(ids)
         one = dict(zip(folds, ids, strict=True))
         shared: dict[str, list[str]] = {}
@@ -210,7 +211,7 @@ class LabelMatcher:
         _may_name): the folded ids' own (minus signs and spaces as normalize_text makes them),
         the separators, and the letters and marks of a reaction label."""
         chars = set(LABEL_SEPARATORS) | set("reactionxyzn()_.-:, ")
-        for ids in (self._model.member_ids, self._model.joint_ids):
+        for ids in (self._member_ids, self._model.joint_ids):
             chars |= _characters("\n".join(ids).casefold())
         return frozenset(chars)
 
@@ -218,7 +219,7 @@ class LabelMatcher:
     def _numbers_may_name(self) -> bool:
         """Whether some member or joint id, folded as labels are, may be written with the
         characters of a number only (answered True whenever that is not plainly ruled out)."""
-        return _any_number_like(self._model.member_ids) or _any_number_like(self._model.joint_ids)
+        return _any_number_like(self._member_ids) or _any_number_like(self._model.joint_ids)
 
     def match(self, label: str) -> Match:
         found = self._cache.get(label)

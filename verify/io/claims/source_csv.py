@@ -164,6 +164,7 @@ class SplitRows(Sequence[list[Cell]]):
         self._lines = lines[:-1] if lines and not lines[-1] else lines
         self._delimiter = delimiter
         self._last: tuple[int, list[Cell]] = (-1, [])
+        self._lengths: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self._lines)
@@ -186,13 +187,15 @@ class SplitRows(Sequence[list[Cell]]):
         return list(self._last[1])
 
     def lengths(self, start: int) -> np.ndarray:
-        """The number of cells of each row from `start` on (0 for a blank line)."""
-        lines = self._lines[start:]
-        count = np.fromiter(
-            map(methodcaller("count", self._delimiter), lines), dtype=np.int64, count=len(lines)
-        )
-        filled = np.fromiter(map(bool, lines), dtype=bool, count=len(lines))
-        return np.where(filled, count + 1, 0)
+        """The number of cells of each row from `start` on (0 for a blank line); counted once."""
+        if self._lengths is None:
+            lines = self._lines
+            count = np.fromiter(
+                map(methodcaller("count", self._delimiter), lines), dtype=np.int64, count=len(lines)
+            )
+            filled = np.fromiter(map(bool, lines), dtype=bool, count=len(lines))
+            self._lengths = np.where(filled, count + 1, 0)
+        return self._lengths[start:]
 
     def columns(self, start: int, stop: int, indexes: list[int]) -> list[list[Cell]] | None:
         """The cells of columns `indexes` in rows start..stop when every such row has the same

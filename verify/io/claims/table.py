@@ -7,6 +7,7 @@ from array import array
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from itertools import repeat
+from operator import eq
 from typing import NamedTuple, cast, overload
 
 import numpy as np
@@ -39,7 +40,20 @@ class MemberIndex:
         # The dict's keys are ids (text); a cell of another type (a number, None, an unusable
         # cell: all hashable) is equal to none of them, so a plain lookup gives it -1 too.
         get = cast("Callable[[object, int], int]", self._position.get)
-        return np.fromiter(map(get, labels, repeat(-1)), dtype=np.int64, count=len(labels))
+        n = min(len(labels), len(self._ids))
+        # A table listing the members in the model's order (the common export) names member k
+        # in row k: those rows are found by one comparison each, the rest looked up.
+        same = np.fromiter(map(eq, labels[:n], self._ids[:n]), dtype=bool, count=n)
+        if n == len(labels) and same.all():
+            return np.arange(n, dtype=np.int64)
+        out = np.full(len(labels), -1, dtype=np.int64)
+        out[:n][same] = np.flatnonzero(same)
+        rest = np.concatenate([np.flatnonzero(~same), np.arange(n, len(labels))]).tolist()
+        if rest:
+            out[rest] = np.fromiter(
+                map(get, (labels[i] for i in rest), repeat(-1)), dtype=np.int64, count=len(rest)
+            )
+        return out
 
     def tolist(self) -> list[str]:
         return list(self._ids)
