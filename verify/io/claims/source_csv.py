@@ -125,23 +125,29 @@ def _plainly_split(lines: list[str], delimiter: str) -> bool:
     means: ASCII with no quote character (so no field is quoted), no line over the csv module's
     field limit (which it would refuse), and no cell that stripping would change or that is
     empty (no space or tab beside a delimiter or a line's ends, no delimiter beside another or a
-    line's ends, no unit separator, the one other ASCII space after splitlines)."""
+    line's ends, no unit separator, the one other ASCII space after splitlines). Judged on the
+    bytes with numpy: each byte's class, then each pair of neighbours."""
     joined = "\n".join(lines)
-    if not joined.isascii() or '"' in joined or "\x1f" in joined:
+    if not joined.isascii():
         return False
-    if lines and max(map(len, lines)) > csv.field_size_limit():
+    kind = np.zeros(256, dtype=np.uint8)  # 0 other, 1 delimiter, 2 line break, 3 space, 4 refused
+    kind[[ord(" "), ord("\t")]] = 3
+    kind[[ord('"'), 0x1F]] = 4
+    kind[ord("\n")] = 2
+    kind[ord(delimiter)] = 1
+    cls = kind[np.frombuffer(joined.encode("ascii"), dtype=np.uint8)]
+    if not cls.size:
+        return True
+    if (cls == 4).any() or cls[0] in (1, 3) or cls[-1] in (1, 3):
         return False
-    edges = []
-    for space in (" ", "\t"):
-        if space != delimiter:
-            edges.append(space)
-            if space + delimiter in joined or delimiter + space in joined:
-                return False
-            if "\n" + space in joined or space + "\n" in joined:
-                return False
-    if delimiter * 2 in joined or "\n" + delimiter in joined or delimiter + "\n" in joined:
+    breaks = np.flatnonzero(cls == 2)
+    longest = int(np.diff(breaks, prepend=-1, append=cls.size).max()) - 1
+    if longest > csv.field_size_limit():
         return False
-    return not (joined.startswith((delimiter, *edges)) or joined.endswith((delimiter, *edges)))
+    refused = np.zeros(16, dtype=bool)  # (left, right) classes: 4 * left + right
+    for left, right in ((1, 3), (3, 1), (2, 3), (3, 2), (1, 1), (2, 1), (1, 2)):
+        refused[4 * left + right] = True
+    return not refused[cls[:-1] * 4 + cls[1:]].any()
 
 
 def _split_plainly(lines: list[str], delimiter: str) -> list[list[Cell]] | None:
