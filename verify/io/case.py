@@ -12,6 +12,7 @@ import re
 import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass, field
+from functools import cached_property, partial
 from pathlib import Path
 from typing import Any
 
@@ -139,6 +140,15 @@ class _Bulk:
     joint_ids: list[str] | None = None
     xyz: Any = None  # joints x dim
     ends: Any = None  # members x 2, positions in joint_ids
+    joint_position: Any = None  # a pandas Index of joint_ids, once made
+
+    def positions(self, labels: Any) -> Any:
+        """The position of each label in joint_ids (-1: none), by one hashed Index."""
+        import pandas as pd
+
+        if self.joint_position is None:
+            self.joint_position = pd.Index(self.joint_ids)
+        return self.joint_position.get_indexer(labels)
 
 
 @dataclass
@@ -308,8 +318,19 @@ def build_model(
     if not members and not ctx.joints_unreadable:
         ctx.add("the model has no members; add a [members] table", "members")
     _check_geometry(ctx, joints, members, dim)
-    connected = {m.start for m in members} | {m.end for m in members}
-    for case in cases:
+    # Every joint at a member end (both tables read in bulk, the common large case): no joint or
+    # load to name below, found from the end positions instead of a set of 2x10^6 ids.
+    bulk = ctx.bulk
+    every_joint_used = (
+        bulk.xyz is not None
+        and bulk.ends is not None
+        and len(bulk.xyz) == len(joints)
+        and len(bulk.ends) == len(members)
+        and len(members) > 0
+        and bool(np.bincount(bulk.ends.ravel(), minlength=len(joints)).all())
+    )
+    connected = set() if every_joint_used else {m.start for m in members} | {m.end for m in members}
+    for case in [] if every_joint_used else cases:
         for joint in case.loads:
             if joint in joint_ids and joint not in connected and members:
                 ctx.add(
@@ -319,7 +340,7 @@ def build_model(
                     case.name,
                     joint,
                 )
-    for item in joints:
+    for item in [] if every_joint_used else joints:
         if item.id not in connected and members:
             ctx.add(
                 f"joint '{item.id}' is not connected to any member; remove it or add its members",
@@ -328,7 +349,6 @@ def build_model(
             )
     ctx.problems.raise_if_any()
     assert units is not None and dim is not None
-    bulk = ctx.bulk
     arrays = None
     if (
         bulk.xyz is not None
@@ -574,7 +594,9 @@ def _clean_frame(
         return None
     if not isinstance(frame.index, pd.RangeIndex) or len(frame.columns) != len(header):
         return None  # rows longer than the header: pandas would take a column as the index
-    if len(text.splitlines()) != len(frame) + 1:
+    # Lines as str.splitlines counts them: _table_text made every line end "\n", and the control
+    # characters splitlines also breaks at sent the table to the careful reader above.
+    if text.count("\n") + (not text.endswith("\n")) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
     if (
         text.startswith((" ", "\t"))
@@ -826,7 +848,8 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
     ctx.declared_joints.update(ids)
     ctx.origins.register("joint", file, ids)
     ctx.bulk.joint_ids, ctx.bulk.xyz = ids, xyz
-    return list(map(Joint._make, zip(ids, map(tuple, xyz.tolist()), strict=True)))
+    # tuple.__new__ straight (Joint._make is Python code per joint); zip gives two items each.
+    return list(map(partial(tuple.__new__, Joint), zip(ids, map(tuple, xyz.tolist()), strict=True)))
 
 
 def _plain_numbers(column: Any) -> bool:
@@ -899,16 +922,14 @@ def _fast_members(
     found = _clean_frame(ctx, base, name, ("members",), ("id", "start", "end"), ())
     if found is None:
         return None
-    import pandas as pd
 
     file, frame = found
     if frame["id"].duplicated().any():
         return None
     ends = None
     if ctx.bulk.joint_ids is not None and len(ctx.bulk.joint_ids) == len(joint_ids):
-        position = pd.Index(ctx.bulk.joint_ids)
         ends = np.column_stack(
-            [position.get_indexer(frame["start"]), position.get_indexer(frame["end"])]
+            [ctx.bulk.positions(frame["start"]), ctx.bulk.positions(frame["end"])]
         )
         if (ends < 0).any():
             return None
@@ -927,7 +948,7 @@ def _fast_members(
             eas[k] = value
     ctx.origins.register("member", file, ids)
     ctx.bulk.ends = ends
-    return list(map(Member._make, zip(ids, starts, stops, eas, strict=True)))
+    return list(map(partial(tuple.__new__, Member), zip(ids, starts, stops, eas, strict=True)))
 
 
 def _ea_from(
@@ -1366,18 +1387,63 @@ def _rational(number: float) -> Any:
     return sympy.Rational(repr(number))
 
 
+def _bulk_loads(
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    keys: Any,
+    fixed_case: str | None,
+    joints: Any,
+    vectors: np.ndarray,
+) -> None:
+    """The rows of a clean loads table added case by case, in the order the rows give: cases
+    first seen first, each case's joints in row order (as a loop over the rows would add them,
+    without a dict lookup per row)."""
+    if keys is None:
+        assert fixed_case is not None
+        cases.setdefault(fixed_case, {}).update(
+            zip(joints.tolist(), map(tuple, vectors.tolist()), strict=True)
+        )
+        return
+    names = keys.unique().tolist()
+    if len(names) > 50:  # many cases of a few rows each: one pass over the rows is quicker
+        rows = zip(keys.tolist(), joints.tolist(), vectors.tolist(), strict=True)
+        for case, joint, vector in rows:
+            cases.setdefault(str(case), {})[joint] = tuple(vector)
+        return
+    key_array = keys.to_numpy(dtype=object)
+    joint_array = joints.to_numpy(dtype=object)
+    for case in names:
+        picked = key_array == case
+        cases.setdefault(str(case), {}).update(
+            zip(joint_array[picked].tolist(), map(tuple, vectors[picked].tolist()), strict=True)
+        )
+
+
 # -- loads as engineers state them --------------------------------------------------------------
 class _Geometry:
-    """Lookups the stated load forms need: coordinates, members, units."""
+    """Lookups the stated load forms need: coordinates, members, units.
+
+    Each lookup is made on first use: only chords and stated load forms need them, and a case of
+    plain joint loads would spend about 2 s per 10^6 members building dicts it never reads."""
 
     def __init__(
         self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None
     ) -> None:
-        self.coords = {j.id: j.coords for j in joints}
-        self.members = {m.id: m for m in members if m.start in self.coords and m.end in self.coords}
-        self.pairs = {frozenset((m.start, m.end)): m.id for m in self.members.values()}
+        self._joints, self._members = joints, members
         self.dim = dim
         self.units = units
+
+    @cached_property
+    def coords(self) -> dict[str, tuple[float, ...]]:
+        return {j.id: j.coords for j in self._joints}
+
+    @cached_property
+    def members(self) -> dict[str, Member]:
+        coords = self.coords
+        return {m.id: m for m in self._members if m.start in coords and m.end in coords}
+
+    @cached_property
+    def pairs(self) -> dict[frozenset[str], str]:
+        return {frozenset((m.start, m.end)): m.id for m in self.members.values()}
 
 
 LOAD_FORM_KEYS = ("magnitude", "angle", "direction", "normal_to")
@@ -1908,8 +1974,14 @@ def _read_loads(
         if found is not None:
             frame = found[1]
             keys = frame["case"] if not fixed_case else None
+            bulk = ctx.bulk
+            every_known = (
+                bool((bulk.positions(frame["joint"]) >= 0).all())
+                if bulk.joint_ids is not None and len(bulk.joint_ids) == len(joint_ids)
+                else frame["joint"].isin(joint_ids).all()
+            )
             clean = (
-                frame["joint"].isin(joint_ids).all()
+                every_known
                 and not frame.duplicated(
                     subset=["joint"] + (["case"] if keys is not None else [])
                 ).any()
@@ -1918,11 +1990,7 @@ def _read_loads(
                 vectors = frame[list(axes)].astype(float).to_numpy()
                 names_ok = keys is None or all(map(_plain_label, keys.unique().tolist()))
                 if np.isfinite(vectors).all() and _within(vectors, LOAD_LIMIT) and names_ok:
-                    case_names = keys.tolist() if keys is not None else [fixed_case] * len(frame)
-                    for case, joint, vector in zip(
-                        case_names, frame["joint"].tolist(), vectors.tolist(), strict=True
-                    ):
-                        cases.setdefault(str(case), {})[joint] = tuple(vector)
+                    _bulk_loads(cases, keys, fixed_case, frame["joint"], vectors)
                     return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]

@@ -47,7 +47,11 @@ def read_regular_file(path: str | Path, *, limit: int) -> bytes:
                 "may have"
             )
         with os.fdopen(fd, "rb", closefd=False) as handle:
-            data = handle.read(limit + 1)
+            # Asked for the size found (not the limit, which would reserve the limit's bytes for
+            # every read), then for any rest, in case the file grew since.
+            data = handle.read(info.st_size + 1)
+            if len(data) > info.st_size:
+                data += handle.read(limit + 1 - len(data))
     except OSError as exc:
         raise UnreadableFile(f"cannot read the file ({exc.strerror or exc})") from None
     finally:

@@ -60,7 +60,7 @@ MAX_QUOTED_CHARS = (
 )
 TAIL_CHARS = 32  # T/C letters and units are read from this many final characters only
 
-_NORMALIZE = str.maketrans(
+NORMALIZE_TABLE = _NORMALIZE = str.maketrans(
     {**dict.fromkeys(MINUS_SIGNS, "-"), **dict.fromkeys(GROUP_SPACES[1:], " ")}
 )
 PLAIN_NUMBER = re.compile(r"[+-]?\d+(?:\.\d+)?(?:[eE][+-]?\d+)?")

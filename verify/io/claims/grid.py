@@ -6,7 +6,10 @@ row, a sheet cell (``sheet 'Forces' cell C7``) or a PDF page row (``page 12 row 
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
+from operator import itemgetter
+from typing import cast
 
 
 @dataclass(frozen=True)
@@ -31,7 +34,7 @@ def column_letter(index: int) -> str:
 
 @dataclass
 class Grid:
-    rows: list[list[Cell]]
+    rows: Sequence[list[Cell]]  # a list, or for a plain CSV file rows split when asked
     row_numbers: list[int]  # the file / sheet / page row number of each entry, 1-based
     sheet: str | None  # None for CSV and PDF
     decimal_comma: bool
@@ -59,6 +62,38 @@ class Grid:
             return f"sheet '{self.sheet}' row {number}"
         text = f"sheet '{self.sheet}' cell {column_letter(c)}{number}"
         return text + (f", column '{column}'" if column is not None else "")
+
+    def columns(self, start: int, stop: int, indexes: list[int]) -> list[list[Cell]]:
+        """The cells of each column at `indexes` in rows start..stop (None past a row's end)."""
+        taken = getattr(self.rows, "columns", None)
+        found = taken(start, stop, indexes) if taken is not None else None
+        if found is not None:
+            return cast("list[list[Cell]]", found)
+        rows = list(self.rows[start:stop])
+        need = max(indexes) + 1
+        for k, row in enumerate(rows):
+            if len(row) < need:  # a blank or short row, padded in the copy
+                rows[k] = list(row) + [None] * (need - len(row))
+        return [list(map(itemgetter(i), rows)) for i in indexes]
+
+    def row_lengths(self, start: int) -> list[int]:
+        """The number of cells of each row from `start` on."""
+        lengths = getattr(self.rows, "lengths", None)
+        if lengths is not None:
+            return cast("list[int]", lengths(start).tolist())
+        return [len(self.rows[r]) for r in range(start, len(self.rows))]
+
+    def where_parts(self, c: int, column: str | None) -> tuple[str, str] | None:
+        """(before, after) with where(r, c, column) == before + str(row number of r) + after for
+        every row r, so a column's places can be made from row numbers alone; None for PDF
+        pages, whose places also name the page."""
+        if self.pages is not None:
+            return None
+        if self.sheet is None:
+            after = f", column '{column}'" if column is not None else f", column {c + 1}"
+            return "row ", after
+        after = f", column '{column}'" if column is not None else ""
+        return f"sheet '{self.sheet}' cell {column_letter(c)}", after
 
 
 # A lone dash in a force table means "nothing here" (often for a zero-force member); it is read

@@ -15,7 +15,9 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cached_property
 
-from verify.io.values import normalize_text
+import numpy as np
+
+from verify.io.values import NORMALIZE_TABLE, normalize_text
 from verify.model import Model
 
 MAX_LABEL_CHARS = 100  # longer text is refused by the row reader; it is never matched here
@@ -41,6 +43,56 @@ class Match:
         return f"{self.reaction[0]}.{self.reaction[1]}" if self.reaction else ""
 
 
+def _folded_all(ids: Sequence[str], *, normalize: bool = False) -> list[str]:
+    """casefold (after normalize_text, when asked) of every id, over the ids joined by a
+    character none holds and split back: per id the same (translate maps no character to or
+    from the separator, casefold and strip neither make nor remove one), and about ten times
+    quicker than a call per id for 10^5 ids."""
+    joined = "\n".join(ids)
+    if ids and joined.count("\n") == len(ids) - 1:
+        if normalize:
+            return [k.strip() for k in joined.translate(NORMALIZE_TABLE).casefold().split("\n")]
+        return joined.casefold().split("\n")
+    if normalize:
+        return [normalize_text(i).casefold() for i in ids]
+    return [i.casefold() for i in ids]
+
+
+# The characters of a number (PLAIN_NUMBER's, in any order): a label of these only is looked up
+# among the ids before any folding (LabelMatcher.names).
+_NUMBER_CHARS = re.compile(r"[0-9+\-.eE]+")
+# Bytes an id folded to the characters of a number may hold: those characters, and ASCII spaces
+# (outer ones are stripped; inner ones make no number, but allowing them only answers "may").
+_NUMBER_LIKE_BYTES = np.zeros(256, dtype=bool)
+_NUMBER_LIKE_BYTES[list(b"0123456789+-.e \t\n\r\x0b\x0c\x1c\x1d\x1e\x1f")] = True
+
+
+def _characters(text: str) -> set[str]:
+    """The set of characters in `text` (for ASCII text counted by numpy, quicker than set())."""
+    if not text.isascii():
+        return set(text)
+    counts = np.bincount(np.frombuffer(text.encode("ascii"), dtype=np.uint8), minlength=128)
+    return {chr(c) for c in np.flatnonzero(counts).tolist()}
+
+
+def _any_number_like(ids: Sequence[str]) -> bool:
+    """Whether some id, after normalize_text and casefold, may consist of the characters of a
+    number only: per id, no byte of the folded ids outside _NUMBER_LIKE_BYTES (a non-ASCII
+    folded text answers True: its stripping is not judged here)."""
+    if not ids:
+        return False
+    joined = "\n".join(ids)
+    if joined.count("\n") != len(ids) - 1:
+        return True
+    folded = joined.translate(NORMALIZE_TABLE).casefold()
+    if not folded.isascii():
+        return True
+    raw = np.frombuffer(folded.encode("ascii") + b"\n", dtype=np.uint8)
+    starts = np.concatenate([[0], np.flatnonzero(raw == ord("\n"))[:-1] + 1])
+    other = ~_NUMBER_LIKE_BYTES[raw]  # the breaks between ids count as allowed
+    return bool((np.add.reduceat(other, starts, dtype=np.int64) == 0).any())
+
+
 def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:
     """Member ids for labels written as a claims table would write them ('u2u3', 'U2-L3', 'L3 U2').
 
@@ -58,7 +110,8 @@ class LabelMatcher:
     """Matches table labels to member ids, joint pairs and reaction components of one model."""
 
     def __init__(self, model: Model) -> None:
-        self._ids = set(model.member_ids)
+        self._member_ids = model.member_ids  # a list made per call: made once here
+        self._ids = set(self._member_ids)
         self._pairs_made: dict[frozenset[str], str] | None = None  # made on first use (below)
         self._reactions = {(r.joint, r.axis) for r in model.reactions}
         # A supported joint's unrestrained global directions (axis-aligned supports only): a claim
@@ -82,8 +135,8 @@ class LabelMatcher:
     def _fold_groups(self) -> tuple[dict[str, str], dict[str, list[str]]]:
         """The member id of each folded spelling, and the spellings several ids share (rare:
         one list per id would cost most of the claims reader's setup)."""
-        ids = self._model.member_ids
-        folds = [mid.casefold() for mid in ids]
+        ids = self._member_ids
+        folds = _folded_all(ids)
         one = dict(zip(folds, ids, strict=True))
         shared: dict[str, list[str]] = {}
         if len(one) < len(ids):
@@ -101,11 +154,24 @@ class LabelMatcher:
         return [one[folded]] if folded in one else []
 
     @cached_property
-    def _joints_folded(self) -> dict[str, list[str]]:
-        folded: dict[str, list[str]] = defaultdict(list)
-        for jid in self._model.joint_ids:
-            folded[normalize_text(jid).casefold()].append(jid)
+    def _joints_folded(self) -> dict[str, str | list[str]]:
+        """The joint ids each folded spelling reads as (one id mostly; a list per spelling would
+        be made for every joint, so one id is kept as text and only shared spellings list)."""
+        ids = list(self._model.joint_ids)
+        keys = _folded_all(ids, normalize=True)
+        folded: dict[str, str | list[str]] = dict(zip(keys, ids, strict=True))
+        if len(folded) < len(ids):
+            groups: dict[str, list[str]] = defaultdict(list)
+            for key, jid in zip(keys, ids, strict=True):
+                groups[key].append(jid)
+            folded.update((key, group) for key, group in groups.items() if len(group) > 1)
         return folded
+
+    def _joints_of(self, key: str) -> list[str]:
+        found = self._joints_folded.get(key)
+        if found is None:
+            return []
+        return [found] if isinstance(found, str) else found
 
     def names(self, label: str) -> str:
         """The kind a label reads as ("member", "reaction", "unknown", "ambiguous"), without the
@@ -115,7 +181,45 @@ class LabelMatcher:
             return found.kind
         if len(label) > MAX_LABEL_CHARS:
             return "unknown"
+        if (
+            label not in self._ids
+            and _NUMBER_CHARS.fullmatch(label) is not None
+            and not self._numbers_may_name
+        ):
+            # A cell written with the characters of a number only (most cells of a force table)
+            # names nothing when no id reads that way: its folded text is itself lower-cased, so a
+            # folded id equal to it, or a pair of folded joint ids making it up, would be such an
+            # id too; and a reaction label starts with 'r' or ends with an axis letter or ')'. So
+            # the scan of the first rows of a sheet need not fold every id of the model.
+            return "unknown"
+        if label not in self._ids and not self._may_name(label):
+            return "unknown"
         return self._match(label, suggest=False).kind
+
+    def _may_name(self, label: str) -> bool:
+        """False when the label holds a character no reading could use (a heading such as
+        'dead (kN)' in a table of ids like 'M12' and joints like 'L3'): its folded text is a
+        folded member id, or joint spellings with separators between, or a joint spelling with
+        a reaction prefix, separators, parentheses and an axis; none of those hold any other
+        character (spaces aside, which the readings strip)."""
+        extra = set(normalize_text(label).casefold()) - self._label_chars
+        return not any(not ch.isspace() for ch in extra)
+
+    @cached_property
+    def _label_chars(self) -> frozenset[str]:
+        """The characters a label's folded text may hold and still name something (see
+        _may_name): the folded ids' own (minus signs and spaces as normalize_text makes them),
+        the separators, and the letters and marks of a reaction label."""
+        chars = set(LABEL_SEPARATORS) | set("reactionxyzn()_.-:, ")
+        for ids in (self._member_ids, self._model.joint_ids):
+            chars |= _characters("\n".join(ids).casefold())
+        return frozenset(chars)
+
+    @cached_property
+    def _numbers_may_name(self) -> bool:
+        """Whether some member or joint id, folded as labels are, may be written with the
+        characters of a number only (answered True whenever that is not plainly ruled out)."""
+        return _any_number_like(self._member_ids) or _any_number_like(self._model.joint_ids)
 
     def match(self, label: str) -> Match:
         found = self._cache.get(label)
@@ -164,8 +268,8 @@ class LabelMatcher:
             right = folded[j:]
             if not right or right not in self._joints_folded:
                 continue
-            for a in self._joints_folded[left]:
-                for b in self._joints_folded[right]:
+            for a in self._joints_of(left):
+                for b in self._joints_of(right):
                     mid = self._pairs().get(frozenset((a, b)))
                     if mid is not None and mid not in found:
                         found.append(mid)
@@ -194,7 +298,7 @@ class LabelMatcher:
             if head and has_prefix:
                 readings.append((head.group("joint").strip(), head.group("axis")))
             for joint_text, axis in readings:
-                for jid in self._joints_folded.get(joint_text, []):
+                for jid in self._joints_of(joint_text):
                     if (
                         (jid, axis) in self._reactions or (jid, axis) in self._free_directions
                     ) and (jid, axis) not in found:

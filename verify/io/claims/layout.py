@@ -462,8 +462,15 @@ def _check_unheaded_data(
         if grid.delimiter == ","
         else ""
     )
-    for r in range(start, len(grid.rows)):
-        for c, cell in enumerate(grid.rows[r]):
+    # A row no longer than the first column without a header or use has nothing to report (the
+    # common row of a table: each cell under a heading), so only longer rows are looked through.
+    first_free = min(set(range(len(headed) + len(used) + 1)) - headed - used)
+    rows = grid.rows
+    for k, length in enumerate(grid.row_lengths(start)):
+        if length <= first_free:
+            continue
+        r = start + k
+        for c, cell in enumerate(rows[r]):
             if c in headed or c in used or c in reported or blank(cell):
                 continue
             reported.add(c)

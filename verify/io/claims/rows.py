@@ -2,8 +2,12 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from array import array
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from itertools import chain
+from operator import itemgetter
+from typing import Any, cast
 
 import numpy as np
 
@@ -17,7 +21,9 @@ from verify.io.claims.rounding import decimals_as_written
 from verify.io.claims.table import (
     ClaimArrays,
     ClaimedValue,
+    Labels,
     MemberIndex,
+    Places,
     SignConflict,
     UnmatchedLabel,
 )
@@ -397,36 +403,128 @@ class BulkClaims:
     member: np.ndarray  # int64: model member position
     value: np.ndarray  # float
     decimals: np.ndarray  # int64: decimals as written, -1 where the text does not show them
-    where: list[str]
+    numbers: np.ndarray  # int64: the file / sheet row number of each claim
+    parts: tuple[tuple[str, str], ...] | None  # per value column, its place around the number
+    where: list[str] | None  # each claim's place, made here only when `parts` cannot say it
     text: list[str]
 
 
-def _plain_cells(cells: list[Cell], decimal_comma: bool) -> tuple[np.ndarray, np.ndarray]:
-    """(value, plain) for a column of cells: plain where the cell is a number with nothing to
-    interpret (the cells plain_number reads, or a workbook's float); parsed in one numpy call."""
+# The characters of a column of plain numbers joined by line breaks; numpy checks them all at once.
+_NUMBER_BYTES = np.zeros(256, dtype=bool)
+_NUMBER_BYTES[list(b"0123456789+-.eE\n")] = True
+
+
+def _plain_text_column(
+    cells: list[Cell], decimal_comma: bool
+) -> tuple[np.ndarray, np.ndarray] | None:
+    """(value, decimals shown) when every cell is text PLAIN_NUMBER reads, else None; checked on
+    the column joined into one text, instead of a regular expression per cell.
+
+    Only digits, signs, points, e/E and the joining breaks; a digit on each side of every point;
+    and float() reading every cell. With those characters float() refuses what PLAIN_NUMBER
+    refuses (a sign or exponent out of place, '1e', '1.2.3'), so together they accept exactly
+    its texts. Decimals as _decimals_shown counts them, from the places of points and exponents."""
     n = len(cells)
-    fullmatch = PLAIN_NUMBER.fullmatch
-    plain = np.fromiter(
-        (
-            type(c) is str and fullmatch(c) is not None and not (decimal_comma and "." in c)
-            for c in cells
-        ),
-        dtype=bool,
-        count=n,
-    )
-    value = np.full(n, np.nan)
-    at = np.flatnonzero(plain)
+    texts = cast("list[str]", cells)  # checked by the join: a cell not text is a TypeError
+    try:
+        joined = "\n".join(texts)
+    except TypeError:
+        return None
+    if not n or joined.count("\n") != n - 1 or not joined.isascii():
+        return None  # a break inside a cell (a quoted field) would split it in two
+    if decimal_comma and "." in joined:
+        return None
+    raw = np.frombuffer(joined.encode("ascii"), dtype=np.uint8)
+    if not _NUMBER_BYTES[raw].all():
+        return None
+    points = np.flatnonzero(raw == ord("."))
+    if points.size:
+        if points[0] == 0 or points[-1] == raw.size - 1:
+            return None
+        digit = (raw >= ord("0")) & (raw <= ord("9"))
+        if not (digit[points - 1].all() and digit[points + 1].all()):
+            return None
+    try:
+        value = np.fromiter(map(float, texts), dtype=np.float64, count=n)
+    except ValueError:
+        return None
+    ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
+    decimals = np.full(n, -1, dtype=np.int64)
+    at = np.searchsorted(ends, points)  # each point's cell (a plain number has one at most)
+    decimals[at] = ends[at] - points - 1
+    exponents = np.flatnonzero((raw == ord("e")) | (raw == ord("E")))
+    if exponents.size:
+        # decimals_as_written reads the digits before the exponent ('1.50e3': '1.50') and keeps
+        # their decimals only when that number is the value itself: an exponent of zero, or a
+        # mantissa of zeros. Counted from the non-zero digits either side of the 'e'.
+        cell = np.searchsorted(ends, exponents)
+        starts = np.concatenate([[0], ends[:-1] + 1])
+        # Sums over [start, e), [e, e + 1), [e + 1, end), [end, ...) of each such cell: the first
+        # and third count the mantissa's and the exponent's non-zero digits (a plain number has
+        # digits on both sides of its 'e', so no range is empty). One byte more for the last end.
+        nonzero = np.append((raw >= ord("1")) & (raw <= ord("9")), False)
+        bounds = np.column_stack([starts[cell], exponents, exponents + 1, ends[cell]]).ravel()
+        sums = np.add.reduceat(nonzero, bounds, dtype=np.int64).reshape(-1, 4)
+        mantissa_zero, exponent_zero = sums[:, 0] == 0, sums[:, 2] == 0
+        pointed = decimals[cell] >= 0
+        point_of = np.full(n, -1, dtype=np.int64)
+        point_of[at] = points
+        kept = exponents - point_of[cell] - 1
+        decimals[cell] = np.where(
+            pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
+        )
+    return value, decimals
+
+
+def _plain_cells(
+    cells: list[Cell], decimal_comma: bool
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """(value, plain, decimals) for a column of cells: plain where the cell is a number with
+    nothing to interpret (the cells plain_number reads, or a workbook's float); parsed in one
+    numpy call. `decimals` (as _decimals_shown counts them) when every cell is such text."""
+    n = len(cells)
+    whole = _plain_text_column(cells, decimal_comma)
+    if whole is not None:
+        value, decimals = whole
+        plain = np.ones(n, dtype=bool)
+        at = np.arange(n)
+    else:
+        decimals = None
+        fullmatch = PLAIN_NUMBER.fullmatch
+        plain = np.fromiter(
+            (
+                type(c) is str and fullmatch(c) is not None and not (decimal_comma and "." in c)
+                for c in cells
+            ),
+            dtype=bool,
+            count=n,
+        )
+        value = np.full(n, np.nan)
+        at = np.flatnonzero(plain)
+        if at.size:
+            # float() of each text, as plain_number reads it (correctly rounded).
+            value[at] = np.fromiter(
+                map(float, itemgetter(*at.tolist())(cells) if at.size > 1 else [cells[at[0]]]),
+                dtype=float,
+                count=at.size,
+            )
     if at.size:
-        # numpy parses text as float() does (correctly rounded), all at once.
-        value[at] = np.array([cells[i] for i in at.tolist()], dtype=np.str_).astype(np.float64)
         size = np.abs(value[at])
         in_range = np.isfinite(size) & ((size == 0) | ((size >= MIN_FORCE) & (size <= MAX_FORCE)))
-        plain[at[~in_range]] = False
-    floats = np.fromiter((type(c) is float for c in cells), dtype=bool, count=n)
-    if floats.any():
-        value[floats] = [cells[i] for i in np.flatnonzero(floats).tolist()]
-        plain |= floats
-    return value, plain
+        if not in_range.all():
+            plain[at[~in_range]] = False
+    if whole is None:
+        floats = np.fromiter((type(c) is float for c in cells), dtype=bool, count=n)
+        if floats.any():
+            value[floats] = [cells[i] for i in np.flatnonzero(floats).tolist()]
+            plain |= floats
+    return value, plain, decimals
+
+
+def _take(items: list[Cell], at: list[int]) -> list[Cell]:
+    if len(at) > 1:
+        return list(itemgetter(*at)(items))
+    return [items[i] for i in at]
 
 
 def read_bulk(
@@ -437,26 +535,25 @@ def read_bulk(
     as the model writes it, every value cell is a plain number, and its member has no other row
     (a repeated member goes to the general reader, which words the duplicate)."""
     grid = reader.grid
-    rows = grid.rows[start:stop]
     label_at = reader.member_h.index
-    labels = [row[label_at] if label_at < len(row) else None for row in rows]
+    columns = reader.columns
+    cells_of = grid.columns(start, stop, [label_at] + [v.index for v in columns])
+    labels = cells_of[0]
     member = member_ids.get_indexer(labels)
     ok = member >= 0
-    columns = reader.columns
-    values, texts_of = [], []
-    for v in columns:
-        cells = [row[v.index] if v.index < len(row) else None for row in rows]
-        value, plain = _plain_cells(cells, grid.decimal_comma)
+    values, texts_of, decimals_of = [], cells_of[1:], []
+    for cells in texts_of:
+        value, plain, decimals = _plain_cells(cells, grid.decimal_comma)
         ok &= plain
         values.append(value)
-        texts_of.append(cells)
+        decimals_of.append(decimals)
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
-    named = np.full(len(rows), -1, dtype=np.int64)
+    named = np.full(stop - start, -1, dtype=np.int64)
     named[ok] = member[ok]
     match = reader.matcher.match
-    for i in others:
+    for i in others.tolist():
         cell = labels[i]
         label_text = cell if type(cell) is str else cell_text(cell)
         if label_text:
@@ -469,25 +566,42 @@ def read_bulk(
     general = (np.flatnonzero(~ok) + start).tolist()
     k = len(columns)
     if not picked.size or not k:
-        return None, (np.arange(len(rows)) + start).tolist()
+        return None, list(range(start, stop))
     value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
-    cells = [texts_of[j][i] for i in picked.tolist() for j in range(k)]
-    text = [c if type(c) is str else cell_text(c) for c in cells]
+    if picked.size < stop - start:
+        texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
+    cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
+    texts_only = all(d is not None for d in decimals_of)  # every cell text (plain numbers)
+    text = (
+        cast("list[str]", cells)
+        if texts_only
+        else [c if type(c) is str else cell_text(c) for c in cells]
+    )
+    if texts_only:
+        shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
+    else:
+        shown = _decimals_shown(text, value)
     grid_rows = np.repeat(picked + start, k)
     slot = np.tile(np.arange(k, dtype=np.int64), picked.size)
-    headers = [v.header for v in columns]
-    indexes = [v.index for v in columns]
-    where = [
-        grid.where(r, indexes[j], headers[j])
-        for r, j in zip(grid_rows.tolist(), slot.tolist(), strict=True)
-    ]
+    found_parts = [grid.where_parts(v.index, v.header) for v in columns]
+    parts = tuple(p for p in found_parts if p is not None)
+    where = None
+    if len(parts) < k:
+        headers = [v.header for v in columns]
+        indexes = [v.index for v in columns]
+        where = [
+            grid.where(r, indexes[j], headers[j])
+            for r, j in zip(grid_rows.tolist(), slot.tolist(), strict=True)
+        ]
     return (
         BulkClaims(
             rows=grid_rows,
             slot=slot,
             member=np.repeat(member[picked], k),
             value=value,
-            decimals=_decimals_shown(text, value),
+            decimals=shown,
+            numbers=np.asarray(grid.row_numbers, dtype=np.int64)[grid_rows],
+            parts=parts if where is None else None,
             where=where,
             text=text,
         ),
@@ -598,43 +712,72 @@ def assemble_claims(
     column_names = [v.column for v in general]
     unit_names = [v.unit for v in general]
     decimals = np.fromiter((_shown(v.text, v.value) for v in general), np.int64, n_general)
-    where: list[str] = [v.where for v in general]
+    where: Sequence[str] = [v.where for v in general]
     text: list[str] = [v.text for v in general]
     fixed = np.fromiter((v.sign_fixed for v in general), dtype=bool, count=n_general)
-    label: list[str] = [v.label for v in general]
+    label: Sequence[str] = [v.label for v in general]
     reaction = {i: v.reaction for i, v in enumerate(general) if v.reaction is not None}
     order = None
     ids: list[str] = member_ids.tolist()
     if bulk is not None:
-        rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
-        order = np.argsort(rows, kind="stable")
-        take = order.tolist()
-        value = np.concatenate([value, bulk.value])[order]
-        member = np.concatenate([member, bulk.member])[order]
-        decimals = np.concatenate([decimals, bulk.decimals])[order]
-        fixed = np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)])[order]
-        slot_case = [v.case or "" for v in slots]
-        slot_unit = [v.unit for v in slots]
-        bulk_slots = bulk.slot.tolist()
-        column_names = [column_names[i] if i < n_general else "" for i in take]
-        unit_names = [unit_names[i] if i < n_general else None for i in take]
-        for k, i in enumerate(take):
-            if i >= n_general:
-                column_names[k] = slot_case[bulk_slots[i - n_general]]
-                unit_names[k] = slot_unit[bulk_slots[i - n_general]]
-        all_where, all_text = where + bulk.where, text + bulk.text
-        where = [all_where[i] for i in take]
-        text = [all_text[i] for i in take]
-        bulk_members = bulk.member.tolist()
-        label = [label[i] if i < n_general else ids[bulk_members[i - n_general]] for i in take]
-        at = {i: k for k, i in enumerate(take) if i in reaction}
-        reaction = {at[i]: joint_axis for i, joint_axis in reaction.items()}
-    names = tuple(dict.fromkeys(column_names))
-    name_code = {name: k for k, name in enumerate(names)}
-    units = tuple(dict.fromkeys(unit_names))
-    unit_code = {u: k for k, u in enumerate(units)}
-    column = np.array([name_code[c] for c in column_names], dtype=np.int64)
-    unit = np.array([unit_code[u] for u in unit_names], dtype=np.int64)
+        # Codes into lists of names met in either part, then renumbered by first use in the
+        # merged order (as dict.fromkeys over the merged names would number them).
+        name_list = list(dict.fromkeys(column_names + [v.case or "" for v in slots]))
+        unit_list = list(dict.fromkeys(unit_names + [v.unit for v in slots]))
+        name_at = {name: k for k, name in enumerate(name_list)}
+        unit_at = {u: k for k, u in enumerate(unit_list)}
+        slot_name = np.array([name_at[v.case or ""] for v in slots], dtype=np.int64)
+        slot_unit = np.array([unit_at[v.unit] for v in slots], dtype=np.int64)
+        name_code = np.concatenate(
+            [np.array([name_at[c] for c in column_names], dtype=np.int64), slot_name[bulk.slot]]
+        )
+        unit_code = np.concatenate(
+            [np.array([unit_at[u] for u in unit_names], dtype=np.int64), slot_unit[bulk.slot]]
+        )
+        n = n_general + bulk.value.size
+        position = np.arange(n)  # where each claim of the two parts lands in table order
+        if n_general:
+            rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
+            order = np.argsort(rows, kind="stable")
+            position[order] = np.arange(n)
+            take = order.tolist()
+            all_text = text + bulk.text
+            text = [all_text[i] for i in take]
+        else:
+            text = bulk.text  # the bulk rows alone: already in table order
+        value = _placed(np.concatenate([value, bulk.value]), position)
+        member = _placed(np.concatenate([member, bulk.member]), position)
+        decimals = _placed(np.concatenate([decimals, bulk.decimals]), position)
+        fixed = _placed(np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)]), position)
+        names_code = _placed(name_code, position)
+        units_code = _placed(unit_code, position)
+        names, column = _first_use(names_code, name_list)
+        units, unit = _first_use(units_code, unit_list)
+        at_general = position[:n_general].tolist()
+        if bulk.where is None:
+            assert bulk.parts is not None
+            numbers = np.zeros(n, dtype=np.int64)
+            numbers[position[n_general:]] = bulk.numbers
+            slot = np.zeros(n, dtype=np.int64)
+            slot[position[n_general:]] = bulk.slot
+            where = Places(
+                _int_array(numbers),
+                _int_array(slot),
+                bulk.parts,
+                dict(zip(at_general, where, strict=True)),
+            )
+        else:
+            all_where = list(where) + bulk.where
+            where = [all_where[i] for i in order.tolist()] if order is not None else all_where
+        label = Labels(_int_array(member), ids, dict(zip(at_general, label, strict=True)))
+        reaction = {at_general[i]: joint_axis for i, joint_axis in reaction.items()}
+    else:
+        names = tuple(dict.fromkeys(column_names))
+        name_of = {name: k for k, name in enumerate(names)}
+        units = tuple(dict.fromkeys(unit_names))
+        unit_of = {u: k for k, u in enumerate(units)}
+        column = np.array([name_of[c] for c in column_names], dtype=np.int64)
+        unit = np.array([unit_of[u] for u in unit_names], dtype=np.int64)
     is_member = member >= 0
     resolutions = judge_resolutions(value, is_member, column, names, unit, units, text)
     arrays = ClaimArrays(
@@ -654,9 +797,32 @@ def assemble_claims(
         member_ids=ids,
         resolutions=tuple(resolutions),
     )
-    if order is None:
+    if order is None and bulk is None:
         return arrays, tuple(general)
     return arrays, _LazyValues(arrays, order, general)
+
+
+def _placed(values: np.ndarray, position: np.ndarray) -> np.ndarray:
+    """`values` (the general reader's claims, then the bulk ones) put in table order."""
+    out = np.empty_like(values)
+    out[position] = values
+    return out
+
+
+def _first_use(codes: np.ndarray, items: list[Any]) -> tuple[tuple[Any, ...], np.ndarray]:
+    """The items the codes use, in order of first use, and the codes renumbered into them."""
+    used, first = np.unique(codes, return_index=True)
+    by_first = used[np.argsort(first, kind="stable")]
+    renumber = np.zeros(len(items), dtype=np.int64)
+    renumber[by_first] = np.arange(by_first.size)
+    return tuple(items[k] for k in by_first.tolist()), renumber[codes]
+
+
+def _int_array(values: np.ndarray) -> array[int]:
+    """A compact array of Python-int items (8 bytes each, indexed without numpy's scalars)."""
+    out = array("q")
+    out.frombytes(np.ascontiguousarray(values, dtype=np.int64).tobytes())
+    return out
 
 
 @dataclass(frozen=True)
@@ -666,7 +832,7 @@ class _LazyValues:
     claims table still pickles (the batch runner sends results between processes)."""
 
     arrays: ClaimArrays
-    order: np.ndarray
+    order: np.ndarray | None  # claim positions of the two parts merged; None: bulk claims only
     general: list[ClaimedValue]
 
     def __call__(self) -> tuple[ClaimedValue, ...]:
@@ -676,7 +842,8 @@ class _LazyValues:
         value, member = arrays.value.tolist(), arrays.member.tolist()
         column, unit = arrays.column.tolist(), arrays.unit.tolist()
         out = []
-        for k, i in enumerate(self.order.tolist()):
+        order = self.order.tolist() if self.order is not None else range(len(arrays))
+        for k, i in enumerate(order):
             if i < n_general:
                 out.append(general[i])
                 continue

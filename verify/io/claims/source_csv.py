@@ -7,6 +7,11 @@ import csv
 import io
 import re
 from collections.abc import Sequence
+from itertools import islice
+from operator import methodcaller
+from typing import cast, overload
+
+import numpy as np
 
 from verify.io.claims.grid import Cell, Grid
 from verify.io.claims.problems import Problems
@@ -43,7 +48,7 @@ def _decode(data: bytes, problems: Problems) -> str | None:
 
 def _sniff_delimiter(lines: Sequence[str]) -> str:
     """The delimiter that splits the sample into the most consistent rows of two or more fields."""
-    sample = [line for line in lines if line.strip()][:50]
+    sample = list(islice((line for line in lines if line.strip()), 50))
     best = (0.0, 0, ",")
     for order, delimiter in enumerate(CSV_DELIMITERS):
         try:
@@ -94,8 +99,13 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         offset = 1
     else:
         delimiter = _sniff_delimiter(lines)
+    del text
+    if _plainly_split(lines, delimiter):
+        plain = SplitRows(lines, delimiter)
+        numbers = list(range(1 + offset, len(plain) + 1 + offset))
+        return Grid(plain, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
     rows: list[list[Cell]] = []
-    numbers: list[int] = []
+    numbers = []
     reader = csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter)
     try:
         for index, row in enumerate(reader, start=1):
@@ -107,3 +117,102 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         )
         return None
     return Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+
+
+def _plainly_split(lines: list[str], delimiter: str) -> bool:
+    """Whether csv.reader and the strip-or-None of each cell would give each line split at the
+    delimiter: the common file where splitting is all there is to it (SplitRows reads it). Plain
+    means: ASCII with no quote character (so no field is quoted), no line over the csv module's
+    field limit (which it would refuse), and no cell that stripping would change or that is
+    empty (no space or tab beside a delimiter or a line's ends, no delimiter beside another or a
+    line's ends, no unit separator, the one other ASCII space after splitlines). Judged on the
+    bytes with numpy: each byte's class, then each pair of neighbours."""
+    joined = "\n".join(lines)
+    if not joined.isascii():
+        return False
+    kind = np.zeros(256, dtype=np.uint8)  # 0 other, 1 delimiter, 2 line break, 3 space, 4 refused
+    kind[[ord(" "), ord("\t")]] = 3
+    kind[[ord('"'), 0x1F]] = 4
+    kind[ord("\n")] = 2
+    kind[ord(delimiter)] = 1
+    cls = kind[np.frombuffer(joined.encode("ascii"), dtype=np.uint8)]
+    if not cls.size:
+        return True
+    if (cls == 4).any() or cls[0] in (1, 3) or cls[-1] in (1, 3):
+        return False
+    breaks = np.flatnonzero(cls == 2)
+    longest = int(np.diff(breaks, prepend=-1, append=cls.size).max()) - 1
+    if longest > csv.field_size_limit():
+        return False
+    refused = np.zeros(16, dtype=bool)  # (left, right) classes: 4 * left + right
+    for left, right in ((1, 3), (3, 1), (2, 3), (3, 2), (1, 1), (2, 1), (1, 2)):
+        refused[4 * left + right] = True
+    return not refused[cls[:-1] * 4 + cls[1:]].any()
+
+
+def _split_plainly(lines: list[str], delimiter: str) -> list[list[Cell]] | None:
+    """The rows of a plain file as lists (None when it is not plain): what SplitRows gives."""
+    return list(SplitRows(lines, delimiter)) if _plainly_split(lines, delimiter) else None
+
+
+def _cells(texts: list[str]) -> list[Cell]:
+    return cast("list[Cell]", texts)  # a list of text is a list of cells (read, never added to)
+
+
+class SplitRows(Sequence[list[Cell]]):
+    """The rows of a plain file (see _plainly_split), each split when asked: a list per row and
+    a string per cell made up front were most of the reading time of a 10^6-row table and held
+    three times the file's size. A blank line is an empty row, as csv.reader gives it (a last
+    one is no row: the joined text ends in a line break there, which ends the row above). The
+    last row asked is kept, as the row reader asks for one row's cells several times."""
+
+    def __init__(self, lines: list[str], delimiter: str) -> None:
+        self._lines = lines[:-1] if lines and not lines[-1] else lines
+        self._delimiter = delimiter
+        self._last: tuple[int, list[Cell]] = (-1, [])
+        self._lengths: np.ndarray | None = None
+
+    def __len__(self) -> int:
+        return len(self._lines)
+
+    @overload
+    def __getitem__(self, i: int) -> list[Cell]: ...
+
+    @overload
+    def __getitem__(self, i: slice) -> list[list[Cell]]: ...
+
+    def __getitem__(self, i: int | slice) -> list[Cell] | list[list[Cell]]:
+        if isinstance(i, slice):
+            d = self._delimiter
+            return [_cells(line.split(d)) if line else [] for line in self._lines[i]]
+        if i < 0:
+            i += len(self._lines)
+        if self._last[0] != i:
+            line = self._lines[i]
+            self._last = (i, _cells(line.split(self._delimiter)) if line else [])
+        return list(self._last[1])
+
+    def lengths(self, start: int) -> np.ndarray:
+        """The number of cells of each row from `start` on (0 for a blank line); counted once."""
+        if self._lengths is None:
+            lines = self._lines
+            count = np.fromiter(
+                map(methodcaller("count", self._delimiter), lines), dtype=np.int64, count=len(lines)
+            )
+            filled = np.fromiter(map(bool, lines), dtype=bool, count=len(lines))
+            self._lengths = np.where(filled, count + 1, 0)
+        return self._lengths[start:]
+
+    def columns(self, start: int, stop: int, indexes: list[int]) -> list[list[Cell]] | None:
+        """The cells of columns `indexes` in rows start..stop when every such row has the same
+        number of cells, more than any index (else None): the rows joined by the delimiter and
+        split once, each column a stride of that one list."""
+        lines = self._lines[start:stop]
+        if not lines:
+            return None
+        widths = self.lengths(start)[: len(lines)]
+        width = int(widths[0])
+        if width <= max(indexes) or not (widths == width).all():
+            return None
+        cells = self._delimiter.join(lines).split(self._delimiter)
+        return [_cells(cells[i::width]) for i in indexes]
