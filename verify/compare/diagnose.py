@@ -42,6 +42,7 @@ from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
 from verify.compare.convention import (
+    COLUMN_MIN_SHARE,
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
     Fit,
@@ -639,7 +640,7 @@ def _column_readings(c: Comparison) -> None:
             )
             if (
                 best.informative >= MIN_MEMBERS_FOR_TABLE
-                and best.share >= MIN_SHARE
+                and best.share >= COLUMN_MIN_SHARE
                 and best.agree > identity.agree
             ):
                 column_fit[column] = (best.sign, best.factor, best, identity, idx)
@@ -648,7 +649,7 @@ def _column_readings(c: Comparison) -> None:
         weight: dict[tuple[int, float], int] = {}
         for col_sign, col_factor, best, _, _ in column_fit.values():
             key = (col_sign, round(col_factor, 9))
-            weight[key] = weight.get(key, 0) + best.informative
+            weight[key] = weight.get(key, 0) + best.agree  # claims the reading explains
         if len(weight) > 1:
             common = max(weight, key=lambda key: (weight[key], key == (1, 1.0)))
             for column, (col_sign, col_factor, best, identity, idx) in column_fit.items():
@@ -754,7 +755,9 @@ def _table_convention(c: Comparison) -> None:
             f"{identity.agree} of {n} non-zero claims on members that carry force agree as read"
         )
         table_level = (
-            n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
+            n >= MIN_MEMBERS_FOR_TABLE
+            and best.share >= COLUMN_MIN_SHARE
+            and best.agree > identity.agree
         )
         if table_level and indeterminate:
             # Against an elastic solution a large self-stress can mimic a flipped or scaled table;
