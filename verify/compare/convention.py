@@ -40,11 +40,6 @@ UNIT_FACTORS: dict[float, str] = {
 
 MIN_MEMBERS_FOR_TABLE = 3  # fewer informative claims cannot tell a table convention from one slip
 MIN_SHARE = 0.5  # a convention must explain at least half of the informative claims
-# A column read in another unit or sign than the rest of its table must explain most of its
-# claims: a slip of unit scales every value alike, while half a column agreeing once scaled is
-# seen by coincidence (loads left out of a span: the members beyond them scale with one
-# reaction, and 1.25 kN x 9.807 reads as 12.25 kN).
-COLUMN_MIN_SHARE = 0.8
 
 
 @dataclass(frozen=True)

@@ -42,7 +42,6 @@ from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
 from verify.compare.convention import (
-    COLUMN_MIN_SHARE,
     MIN_MEMBERS_FOR_TABLE,
     MIN_SHARE,
     Fit,
@@ -598,6 +597,34 @@ def _case_mismatch(c: Comparison) -> None:
     c.member_idx = _member_claims(c.arrays, mapping)
 
 
+def _balances_as_well(
+    c: Comparison, idx: np.ndarray, written_sign: np.ndarray, sign: int, factor: float
+) -> bool:
+    """Whether the claims `idx` read with `sign` and `factor` balance the case's loads at as many
+    joints as read as written: statics decides a reading of the table (a unit or a sign).
+
+    A true slip of unit or sign leaves the claims balancing the loads once read so, and not as
+    written. A model mistake can make many claims agree once scaled by coincidence (a load left
+    out of a long span: every member beyond it scales with one reaction, 1.25 kN x 9.807 reads
+    as 12.25 kN), yet those claims balance the loads worse once scaled. On an indeterminate
+    truss a large self-stress can mimic a flipped or scaled table, so there the reading must
+    balance strictly better. `written_sign` brings each claim to tension positive as the table
+    was declared (-1 for a table stated compression-positive; 1 where T/C marks fix the sign).
+    """
+    model, load_names = c.model, c.load_names
+    fixed = c.fixed_all[idx]
+    load_pos = _load_of_column(c.arrays, c.mapping, load_names)[c.arrays.column[idx]]
+    base = c.raw[idx] * c.conv[idx] * written_sign
+
+    def unbalanced(sign_k: float, factor_k: float) -> int:
+        matrix = np.full((len(model.members), len(load_names)), np.nan)
+        matrix[c.member_pos[idx], load_pos] = base * np.where(fixed, 1.0, sign_k) * factor_k
+        return len(claims_balance(c.analysis, matrix, {}, load_names, c.tol))
+
+    read, written = unbalanced(sign, factor), unbalanced(1, 1.0)
+    return read < written if c.indeterminate else read <= written
+
+
 def _column_readings(c: Comparison) -> None:
     case_unit, claims, column_of_claim = c.case_unit, c.claims, c.column_of_claim
     column_readings, columns, comparable, conv = c.column_readings, c.columns, c.comparable, c.conv
@@ -640,8 +667,9 @@ def _column_readings(c: Comparison) -> None:
             )
             if (
                 best.informative >= MIN_MEMBERS_FOR_TABLE
-                and best.share >= COLUMN_MIN_SHARE
+                and best.share >= MIN_SHARE
                 and best.agree > identity.agree
+                and _balances_as_well(c, idx, np.ones(len(idx)), best.sign, best.factor)
             ):
                 column_fit[column] = (best.sign, best.factor, best, identity, idx)
             elif identity.share >= MIN_SHARE:
@@ -718,14 +746,13 @@ def _table_convention(c: Comparison) -> None:
         c.conv,
         c.findings,
     )
-    fixed_all, indeterminate, load_names, mapping, member_idx = (
+    fixed_all, load_names, mapping, member_idx = (
         c.fixed_all,
-        c.indeterminate,
         c.load_names,
         c.mapping,
         c.member_idx,
     )
-    member_pos, model, named_factor, raw = c.member_pos, c.model, c.named_factor, c.raw
+    member_pos, named_factor, raw = c.member_pos, c.named_factor, c.raw
     ref, rounding_unit, scale_of, sign = c.ref, c.rounding_unit, c.scale_of, c.sign
     table_factors, tol, unit_label, unit_source, unit_stated = (
         c.table_factors,
@@ -755,21 +782,12 @@ def _table_convention(c: Comparison) -> None:
             f"{identity.agree} of {n} non-zero claims on members that carry force agree as read"
         )
         table_level = (
-            n >= MIN_MEMBERS_FOR_TABLE
-            and best.share >= COLUMN_MIN_SHARE
-            and best.agree > identity.agree
+            n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
         )
-        if table_level and indeterminate:
-            # Against an elastic solution a large self-stress can mimic a flipped or scaled table;
-            # statics decides: a reading that is not a convention must not balance better.
-            def unbalanced(sign_k: float, factor_k: float) -> int:
-                matrix = np.full((len(model.members), len(load_names)), np.nan)
-                matrix[member_pos[idx], load_pos] = (
-                    raw[idx] * conv[idx] * np.where(fixed, 1.0, sign_k * stated_sign) * factor_k
-                )
-                return len(claims_balance(c.analysis, matrix, {}, load_names, tol))
-
-            table_level = unbalanced(best.sign, best.factor) < unbalanced(1, 1.0)
+        if table_level:
+            table_level = _balances_as_well(
+                c, idx, np.where(fixed, 1.0, float(stated_sign)), best.sign, best.factor
+            )
         if table_level:
             sign_fit, scale_fit = best.sign, best.factor
             support = (
