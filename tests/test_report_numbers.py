@@ -105,6 +105,15 @@ def test_difference_keeps_the_precision_the_claim_was_written_in():
     assert difference_text(-9.707e-10, 12.0, "12 T at row 2", 12.0) == "0.0"
 
 
+def test_difference_of_a_claim_written_with_a_decimal_comma_keeps_its_precision():
+    """'28,1 T' from a decimal-comma table is 28.1 written to one decimal, as '28.1 T' is: the same
+    difference text. '1,234' beside a claim of 1234 is a thousands mark, read as written."""
+    point = difference_text(28.1 - 28.125, 28.1, "28.1 T at row 2", 28.1)
+    assert difference_text(28.1 - 28.125, 28.1, "28,1 T at row 2", 28.1) == point == "-0.03"
+    assert difference_text(0.4, 1234.0, "1,234 at row 2", 1234.0) == "0.4"
+    assert difference_text(0.4, 1234.0, "1234 at row 2", 1234.0) == "0.4"
+
+
 def test_difference_of_a_converted_claim_uses_significant_figures():
     """A claim written in N and read in kN has no written decimals in kN: four figures instead."""
     assert difference_text(0.01234, 12.34, "12340 at row 2", 12.34) == "0.01234"

@@ -41,9 +41,13 @@ def difference_text(
     if value is None:
         return fmt(value)
     shown = written.split(" at ", 1)[0]
-    decimals = decimals_in(shown)
-    if decimals is not None and claimed is not None and _written_number(shown) == abs(claimed):
-        return fmt_fixed(value, decimals + GUARD_DECIMALS)
+    # A table written with decimal commas ('28,1 T') is read as such; the written number must
+    # equal the claim either way, so '1,234' read as 1.234 beside a claim of 1234 is not used.
+    readings = [shown] + ([shown.replace(",", ".")] if "," in shown and "." not in shown else [])
+    for text in readings:
+        decimals = decimals_in(text)
+        if decimals is not None and claimed is not None and _written_number(text) == abs(claimed):
+            return fmt_fixed(value, decimals + GUARD_DECIMALS)
     return fmt(value)
 
 
