@@ -148,7 +148,9 @@ class AnalysisRun:
         the stiffness is missing or singular); see verify.analysis.stiffness."""
         from verify.analysis.stiffness import members_fixed_by_statics
 
-        return members_fixed_by_statics(self.model, forces, assume_equal_EA=assume_equal_EA)
+        return members_fixed_by_statics(
+            self.model, forces, assume_equal_EA=assume_equal_EA, run=self
+        )
 
     def unit_load_deflection(
         self,

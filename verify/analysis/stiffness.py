@@ -81,7 +81,6 @@ shows it.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 import time
 from collections.abc import Sequence
@@ -391,16 +390,22 @@ def solve_stiffness(
     assume_equal_EA: float | None = None,
     time_box: float | None = None,
     run: AnalysisRun | None = None,
+    EA: np.ndarray | None = None,
 ) -> ElasticSolution:
     """Elastic member forces, reactions and joint displacements by the direct stiffness method.
 
     ``time_box``: seconds for the MMD attempt; None scales it with the size of K_f
-    (:func:`ordering_time_box`).
+    (:func:`ordering_time_box`). ``EA``: member stiffnesses to use instead of the model's (the
+    same truss with other stiffnesses, without making a model for it; see
+    members_fixed_by_statics).
     Raises MissingStiffnessError when some members have no EA and ``assume_equal_EA`` is None,
     and SingularStiffnessError when the supported truss is a mechanism (K_f singular).
     """
     run = run if run is not None else AnalysisRun(model)
-    EA, notes = member_stiffness(model, assume_equal_EA=assume_equal_EA)
+    if EA is None:
+        EA, notes = member_stiffness(model, assume_equal_EA=assume_equal_EA)
+    else:
+        notes = []
     F = model.load_matrix()
     cols = F.shape[1]
     T, support_notes = free_direction_basis(model)
@@ -459,7 +464,12 @@ def solve_stiffness(
 
 
 def members_fixed_by_statics(
-    model: Model, forces: np.ndarray, *, assume_equal_EA: float | None = None, seed: int = 0
+    model: Model,
+    forces: np.ndarray,
+    *,
+    assume_equal_EA: float | None = None,
+    seed: int = 0,
+    run: AnalysisRun | None = None,
 ) -> np.ndarray:
     """Per member: True when its force does not depend on the member stiffnesses.
 
@@ -471,8 +481,8 @@ def members_fixed_by_statics(
     """
     EA, _ = member_stiffness(model, assume_equal_EA=assume_equal_EA)
     scaled = EA * np.random.default_rng(seed).uniform(0.5, 2.0, len(EA))
-    members = tuple(m._replace(EA=float(v)) for m, v in zip(model.members, scaled, strict=True))
-    varied = dataclasses.replace(model, members=members, arrays=(model.xyz, model.ends_index))
-    again = solve_stiffness(varied).forces.member_forces
+    # The same truss with the varied stiffnesses: its geometry, supports and loads (and so the
+    # run's equilibrium matrix) are the model's own, and no model per variation is made.
+    again = solve_stiffness(model, EA=scaled, run=run).forces.member_forces
     scale = max(float(np.abs(forces).max(initial=0.0)), 1e-300)
     return np.all(np.abs(again - forces) <= 1e-7 * scale, axis=1)
