@@ -14,6 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from verify.compare.tolerances import allowance
 from verify.units import KGF_IN_N, Dimension, Unit, accepted, lookup_unit
 from verify.units import factor as unit_factor
 
@@ -66,10 +67,7 @@ def count_agreeing(
 ) -> int:
     signs = np.where(fixed, 1.0, float(sign))
     value = claimed * signs * factor
-    allowed = np.maximum(
-        np.maximum(allowed_rel * np.maximum(np.abs(value), np.abs(computed)), atol),
-        rounding * factor,
-    )
+    allowed = allowance(allowed_rel, value, computed, atol, rounding * factor)
     return int((np.abs(value - computed) <= allowed).sum())
 
 
@@ -85,10 +83,7 @@ def _counts_by_sign(
     """count_agreeing for sign +1 and -1 at once: the allowance depends on the sizes only, so it
     is made once per factor (the same numbers: reversing a sign is exact)."""
     value = claimed * factor
-    allowed = np.maximum(
-        np.maximum(allowed_rel * np.maximum(np.abs(value), np.abs(computed)), atol),
-        rounding * factor,
-    )
+    allowed = allowance(allowed_rel, value, computed, atol, rounding * factor)
     reversed_value = np.where(fixed, value, -value)
     return {
         1: int((np.abs(value - computed) <= allowed).sum()),

@@ -55,7 +55,7 @@ from verify.compare.convention import (
 from verify.compare.findings import Finding, Severity, ordered, worded
 from verify.compare.implied import ImpliedLoads, implied_loads
 from verify.compare.rows import Labels, Numbers, Row, Rows, Written
-from verify.compare.tolerances import Tolerance
+from verify.compare.tolerances import Tolerance, allowance
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.io.claims.table import ClaimArrays
@@ -918,10 +918,7 @@ def _rows(c: Comparison) -> None:
     computed_arr = reference_forces[mp, kk] if n_claims else np.zeros(0)
     scale_arr = np.array([scale_of.get(name, 0.0) for name in load_names] or [0.0])
     atol_all = tol.atol_fraction * scale_arr[kk]
-    allowed_all = np.maximum(
-        np.maximum(tol.rtol * np.maximum(np.abs(values), np.abs(computed_arr)), atol_all),
-        rounding_unit * scale_fit,
-    )
+    allowed_all = allowance(tol.rtol, values, computed_arr, atol_all, rounding_unit * scale_fit)
     agree_all = np.abs(values - computed_arr) <= allowed_all
     big = np.abs(computed_arr) > atol_all
     # Statuses as codes into STATUS_WORDS (agrees, table-sign-convention, unit-scale, ...).
@@ -1203,9 +1200,7 @@ def _shifted_and_swapped(c: Comparison) -> None:
             rounding: np.ndarray | float,
             atol: float = atol,
         ) -> np.ndarray:
-            return np.abs(x - other) <= np.maximum(
-                np.maximum(tol.rtol * np.maximum(np.abs(x), np.abs(other)), atol), rounding
-            )
+            return np.abs(x - other) <= allowance(tol.rtol, x, other, atol, rounding)
 
         taken = np.zeros(len(items), dtype=bool)
         for a in range(len(items)):

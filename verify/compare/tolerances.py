@@ -15,6 +15,9 @@ A claimed value agrees with the recomputed one when
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
 
 # The rounding allowances are settled by the claims reader (verify/io/claims/rounding.py); their
 # names stay importable from here, where the tolerances are explained.
@@ -66,3 +69,11 @@ class Tolerance:
 
     def agrees(self, claimed: float, computed: float, atol: float, rounding: float = 0.0) -> bool:
         return abs(claimed - computed) <= self.allowed(claimed, computed, atol, rounding)
+
+
+def allowance(rtol: float, claimed: Any, computed: Any, atol: Any, rounding: Any = 0.0) -> Any:
+    """Tolerance.allowed for whole arrays (numpy broadcasting): max(rtol * max(|claimed|,
+    |computed|), atol, rounding) per claim."""
+    return np.maximum(
+        np.maximum(rtol * np.maximum(np.abs(claimed), np.abs(computed)), atol), rounding
+    )

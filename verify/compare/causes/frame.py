@@ -14,6 +14,7 @@ from typing import overload
 
 import numpy as np
 
+from verify.compare.tolerances import allowance
 from verify.model import Model
 
 
@@ -44,10 +45,7 @@ class ClaimsFrame:
 
     def allowed(self, computed: np.ndarray, claimed: np.ndarray | None = None) -> np.ndarray:
         y = self.claimed if claimed is None else claimed
-        return np.maximum(
-            np.maximum(self.rtol * np.maximum(np.abs(y), np.abs(computed)), self.atol),
-            self.rounding,
-        )
+        return allowance(self.rtol, y, computed, self.atol, self.rounding)
 
     def agrees(self, computed: np.ndarray, claimed: np.ndarray | None = None) -> np.ndarray:
         """Which claims agree with `computed` (same tolerance as the comparison)."""
@@ -58,10 +56,7 @@ class ClaimsFrame:
     def agrees_at(self, index: np.ndarray, computed: np.ndarray) -> np.ndarray:
         """`agrees` for the claims at positions `index` only."""
         y = self.claimed[index]
-        allowed = np.maximum(
-            np.maximum(self.rtol * np.maximum(np.abs(y), np.abs(computed)), self.atol[index]),
-            self.rounding[index],
-        )
+        allowed = allowance(self.rtol, y, computed, self.atol[index], self.rounding[index])
         return np.abs(y - computed) <= allowed
 
     def column_positions(self) -> tuple[np.ndarray, np.ndarray]:

@@ -37,7 +37,7 @@ from verify.compare.causes.variants import (
     solve_members,
     support_swaps,
 )
-from verify.compare.tolerances import Tolerance
+from verify.compare.tolerances import Tolerance, allowance
 from verify.formatting import fmt
 
 MAX_CAUSES = 3
@@ -527,11 +527,8 @@ def _load_variants(
     for row in range(sizes.shape[0]):
         trial = computed[:, None] + sizes[row][None, :] * unit
         y = frame.claimed[sample][:, None]
-        allowed = np.maximum(
-            np.maximum(
-                frame.rtol * np.maximum(np.abs(y), np.abs(trial)), frame.atol[sample][:, None]
-            ),
-            frame.rounding[sample][:, None],
+        allowed = allowance(
+            frame.rtol, y, trial, frame.atol[sample][:, None], frame.rounding[sample][:, None]
         )
         scores[row] = (np.abs(y - trial) <= allowed).sum(axis=0)
         misfits[row] = np.minimum(((y - trial) / allowed) ** 2, 100.0).sum(axis=0)

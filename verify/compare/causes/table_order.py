@@ -12,6 +12,7 @@ from typing import NamedTuple
 import numpy as np
 
 from verify.compare.causes.frame import ClaimsFrame
+from verify.compare.tolerances import allowance
 
 CLEAR_MISS = (
     2.0  # as in verify.compare.causes.search: a claim clearly wrong misses by this many allowances
@@ -56,10 +57,7 @@ def shifted_runs(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> l
             other = order[i + offset]
             y = frame.claimed[own]
             c = computed[other]
-            allowed = np.maximum(
-                np.maximum(frame.rtol * np.maximum(np.abs(y), np.abs(c)), frame.atol[other]),
-                frame.rounding[own],
-            )
+            allowed = allowance(frame.rtol, y, c, frame.atol[other], frame.rounding[own])
             ok[i] = np.abs(y - c) <= allowed
             ok &= ~taken
             # maximal runs of consecutive rows that read shifted; count the disagreeing ones
