@@ -115,13 +115,50 @@ class Resolution:
         )
 
 
-class Places(Sequence[str]):
+class _TextsWhenRead(Sequence[str]):
+    """A list of texts, each made when it is read (`_made`); `_given` holds the texts of the
+    claims that came with theirs made. Indexed, sliced and compared like the list it stands for."""
+
+    __slots__ = ("_given",)
+    _given: dict[int, str]
+
+    def _made(self, i: int) -> str:
+        raise NotImplementedError
+
+    @overload
+    def __getitem__(self, i: int) -> str: ...
+
+    @overload
+    def __getitem__(self, i: slice) -> list[str]: ...
+
+    def __getitem__(self, i: int | slice) -> str | list[str]:
+        if type(i) is not int:
+            if isinstance(i, slice):
+                return [self[k] for k in range(*i.indices(len(self)))]
+            i = operator.index(i)
+        if i < 0:
+            i += len(self)
+        given = self._given.get(i) if self._given else None
+        return given if given is not None else self._made(i)
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, type(self) | list | tuple):
+            return len(self) == len(other) and all(a == b for a, b in zip(self, other, strict=True))
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]  # compared by content, like the list it stands for
+
+    def __repr__(self) -> str:
+        return f"{type(self).__name__}({list(self)!r})"
+
+
+class Places(_TextsWhenRead):
     """Where each claim was written ("row 9, column 'dead'"), made when asked: one string per
     claim would hold about 80 bytes each (160 MB for 2x10^6 claims) for the few that a finding
     quotes; here a claim keeps its row number and value column, and the claims read one by one
     their own text. Indexed like the list it stands for (the comparison indexes it per claim)."""
 
-    __slots__ = ("_given", "_numbers", "_parts", "_slot")
+    __slots__ = ("_numbers", "_parts", "_slot")
 
     def __init__(
         self,
@@ -138,42 +175,17 @@ class Places(Sequence[str]):
     def __len__(self) -> int:
         return len(self._numbers)
 
-    @overload
-    def __getitem__(self, i: int) -> str: ...
-
-    @overload
-    def __getitem__(self, i: slice) -> list[str]: ...
-
-    def __getitem__(self, i: int | slice) -> str | list[str]:
-        if type(i) is not int:
-            if isinstance(i, slice):
-                return [self[k] for k in range(*i.indices(len(self)))]
-            i = operator.index(i)
-        if i < 0:
-            i += len(self._numbers)
-        given = self._given.get(i) if self._given else None
-        if given is not None:
-            return given
+    def _made(self, i: int) -> str:
         before, after = self._parts[self._slot[i]]
         return f"{before}{self._numbers[i]}{after}"
 
-    def __eq__(self, other: object) -> bool:
-        if isinstance(other, Places | list | tuple):
-            return len(self) == len(other) and all(a == b for a, b in zip(self, other, strict=True))
-        return NotImplemented
 
-    __hash__ = None  # type: ignore[assignment]  # compared by content, like the list it stands for
-
-    def __repr__(self) -> str:
-        return f"Places({list(self)!r})"
-
-
-class Labels(Sequence[str]):
+class Labels(_TextsWhenRead):
     """Each claim's label as written, made when asked: a claim read in bulk is labelled by its
     member's id exactly as the model writes it (that is what made it plain), so it keeps only
     its member position; the claims read one by one keep their own label."""
 
-    __slots__ = ("_given", "_ids", "_member")
+    __slots__ = ("_ids", "_member")
 
     def __init__(self, member: array[int], ids: Sequence[str], given: dict[int, str]) -> None:
         self._member, self._ids, self._given = member, ids, given
@@ -181,33 +193,8 @@ class Labels(Sequence[str]):
     def __len__(self) -> int:
         return len(self._member)
 
-    @overload
-    def __getitem__(self, i: int) -> str: ...
-
-    @overload
-    def __getitem__(self, i: slice) -> list[str]: ...
-
-    def __getitem__(self, i: int | slice) -> str | list[str]:
-        if type(i) is not int:
-            if isinstance(i, slice):
-                return [self[k] for k in range(*i.indices(len(self)))]
-            i = operator.index(i)
-        if i < 0:
-            i += len(self._member)
-        given = self._given.get(i) if self._given else None
-        if given is not None:
-            return given
+    def _made(self, i: int) -> str:
         return self._ids[self._member[i]]
-
-    def __eq__(self, other: object) -> bool:
-        if isinstance(other, Labels | list | tuple):
-            return len(self) == len(other) and all(a == b for a, b in zip(self, other, strict=True))
-        return NotImplemented
-
-    __hash__ = None  # type: ignore[assignment]  # compared by content, like the list it stands for
-
-    def __repr__(self) -> str:
-        return f"Labels({list(self)!r})"
 
 
 @dataclass(frozen=True)
