@@ -11,6 +11,7 @@ import time
 
 import numpy as np
 import pytest
+import scipy.sparse as sp
 from hypothesis import given
 from hypothesis import strategies as st
 from trussgen import make_model, pratt
@@ -74,3 +75,21 @@ def test_default_solve_uses_the_scaled_box(monkeypatch: pytest.MonkeyPatch) -> N
     assert f"within the {box:.2g} s time box" in second.notes[0]
     assert "COLAMD" in second.notes[0]
     np.testing.assert_allclose(second.forces.member_forces, first.forces.member_forces, rtol=1e-10)
+
+
+def test_a_failed_fork_never_runs_mmd_without_its_time_box(monkeypatch: pytest.MonkeyPatch) -> None:
+    """When fork() fails, the MMD attempt (whose fill can run for minutes) is not made in this
+    process with no box around it: the solve falls back at once, saying why."""
+    import os
+
+    def no_fork() -> int:
+        raise OSError("fork failed (as when out of process slots)")
+
+    def must_not_run(*_: object) -> object:
+        raise AssertionError("MMD ran in this process")
+
+    monkeypatch.setattr(os, "fork", no_fork)
+    monkeypatch.setattr(stiffness_module, "_mmd_solve", must_not_run)
+    K = sp.identity(4, format="csc")
+    answer, why = stiffness_module._time_boxed_mmd(K, np.ones((4, 1)), 1.5)
+    assert answer is None and "fork() failed" in why

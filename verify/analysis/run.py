@@ -48,6 +48,12 @@ def lu_ordering(model: Model) -> str:
     return "COLAMD" if model.dim == 2 else "MMD_ATA"
 
 
+def pivot_ratio(lu: spla.SuperLU) -> float:
+    """min |U_ii| / max |U_ii| of a sparse LU (0 for an empty or zero diagonal)."""
+    diag = np.abs(lu.U.diagonal())
+    return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
+
+
 class AnalysisRun:
     """The shared pieces of one model's analysis, each made when first asked for."""
 

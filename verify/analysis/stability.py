@@ -30,7 +30,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import rigid_body_modes
-from verify.analysis.run import AnalysisRun, lu_ordering
+from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -377,7 +377,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
             run.keep_lu(lu)
             ratio = _kept_pivot_ratio(lu)
         else:
-            ratio = _pivot_ratio(lu)
+            ratio = pivot_ratio(lu)
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
     except RuntimeError:
         ratio, singular = 0.0, True
@@ -426,24 +426,18 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     )
 
 
-def _pivot_ratio(lu: spla.SuperLU) -> float:
-    """min |U_ii| / max |U_ii| of a sparse LU."""
-    diag = np.abs(lu.U.diagonal())
-    return float(diag.min() / diag.max())
-
-
 def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
-    """_pivot_ratio of an LU the run keeps, read in a child process where one may be used.
+    """pivot_ratio of an LU the run keeps, read in a child process where one may be used.
 
     Reading lu.U makes CSC copies of both factors, and scipy keeps them on the factor object for
     as long as it lives (135 MB on the 10^5-member 3D grid, held to the end of a check). A forked
     child reads the same factors and returns one number; the kept factor carries no copies.
     """
-    child = Forked.start(_pivot_ratio, lu)
+    child = Forked.start(pivot_ratio, lu)
     try:
         return child.result()
     except ForkFailed:  # the child could not answer (out of memory?): read it here after all
-        return _pivot_ratio(lu)
+        return pivot_ratio(lu)
     finally:
         child.cancel()
 

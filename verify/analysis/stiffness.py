@@ -91,8 +91,8 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.forces import ForceResult
-from verify.analysis.run import AnalysisRun
-from verify.forking import SERIAL_ENV, Forked, ForkFailed, ForkTimeout, fork_allowed
+from verify.analysis.run import AnalysisRun, pivot_ratio
+from verify.forking import SERIAL_ENV, Forked, ForkFailed, ForkTimeout
 from verify.model import Model
 
 ORDERING_TIME_BOX = 1.5  # s, the cap: MMD took 0.87 s on the 10^5-member grid, where it wins
@@ -280,18 +280,13 @@ def _symmetric_mmd(K: sp.csc_matrix) -> spla.SuperLU:
     )
 
 
-def _pivot_ratio(lu: spla.SuperLU) -> float:
-    diag = np.abs(lu.U.diagonal())
-    return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
-
-
 def _mmd_solve(K: sp.csc_matrix, rhs: np.ndarray) -> tuple[np.ndarray, float, int, float]:
     """Runs in a forked process, so a runaway factorisation can be killed: (x, pivot ratio,
     fill, seconds)."""
     start = time.perf_counter()
     lu = _symmetric_mmd(K)
     x = lu.solve(rhs)
-    return x, _pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
+    return x, pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
 
 
 def ordering_time_box(nonzeros: int) -> float:
@@ -309,12 +304,12 @@ def _time_boxed_mmd(
 
     Returns ((x, pivot_ratio, fill, seconds) or None, reason for falling back).
     """
-    if not fork_allowed():
-        return None, (
-            f"no child process to time-box MMD_AT_PLUS_A in (no fork() here, {SERIAL_ENV} set, or "
-            "other threads running)"
-        )
     child = Forked.start(_mmd_solve, K, rhs)
+    if not child.forked:  # fork() not allowed here, or it failed: never run MMD without its box
+        return None, (
+            f"no child process to time-box MMD_AT_PLUS_A in (no fork() here, {SERIAL_ENV} set, "
+            "other threads running, or fork() failed)"
+        )
     try:
         return child.result(timeout=time_box), ""
     except ForkTimeout:
@@ -345,7 +340,7 @@ def _solve_reduced(
         else:
             return (
                 lu.solve(rhs),
-                _pivot_ratio(lu),
+                pivot_ratio(lu),
                 [
                     "sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), "
                     f"{time.perf_counter() - start:.3g} s, "
@@ -376,7 +371,7 @@ def _solve_reduced(
     x = lu.solve(rhs)
     return (
         x,
-        _pivot_ratio(lu),
+        pivot_ratio(lu),
         [
             f"{why}; sparse LU of K with COLAMD ordering, {time.perf_counter() - start:.3g} s, "
             + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
