@@ -27,13 +27,18 @@ from verify.io.claims.grid import Grid
 from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.rounding import decimals_as_written
 from verify.io.claims.rows import _plain_text_column
-from verify.io.claims.source_csv import SplitRows, _split_plainly
+from verify.io.claims.source_csv import SplitRows, _plainly_split
 from verify.io.claims.table import Labels, Places
 from verify.io.values import MAX_FORCE, MIN_FORCE, PLAIN_NUMBER
 
 # Characters that decide how a line splits or strips: delimiters, spaces, quotes, line breaks,
 # a unit separator, a no-break space and a non-ASCII letter.
 LINE_TEXT = st.text(alphabet=list('a1.-,;|\t "\n\r\x1f\xa0é'), max_size=24)
+
+
+def _split_plainly(lines: list[str], delimiter: str) -> list[list[object]] | None:
+    """The rows of a plain file as lists (None when it is not plain): what the reader takes."""
+    return list(SplitRows(lines, delimiter)) if _plainly_split(lines, delimiter) else None
 
 
 @settings(max_examples=400, deadline=None)

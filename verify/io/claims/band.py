@@ -57,7 +57,8 @@ def _is_number(cell: Cell) -> bool:
     return bool(head) and plain_number(head) is not None
 
 
-def _names_member(matcher: LabelMatcher, cell: Cell) -> bool:
+def names_member(matcher: LabelMatcher, cell: Cell) -> bool:
+    """Whether the cell's text names one of the model's members (or a reaction)."""
     text = cell_text(cell)
     return bool(text) and matcher.names(text) in ("member", "reaction")
 
@@ -92,7 +93,7 @@ def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
     first_row: dict[int, int] = {}
     for r, row in enumerate(grid.rows[:SCAN_ROWS]):
         for c, cell in enumerate(row):
-            if isinstance(cell, str) and _names_member(matcher, cell):
+            if isinstance(cell, str) and names_member(matcher, cell):
                 counts[c] = counts.get(c, 0) + 1
                 first_row.setdefault(c, r)
     member_index = max(counts, key=lambda c: (counts[c], -c)) if counts else None

@@ -19,7 +19,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 from verify.errors import did_you_mean
-from verify.io.claims.band import find_band
+from verify.io.claims.band import SCAN_ROWS, find_band, names_member
 from verify.io.claims.grid import Grid, Unusable, blank, cell_text
 from verify.io.claims.headers import (
     CASE_HEADERS,
@@ -37,7 +37,6 @@ from verify.io.claims.problems import Problems
 from verify.model import Model
 
 HEADER_SEARCH_ROWS = 20  # rows scanned for a header above which titles may sit
-SCAN_ROWS = 2_000  # data rows looked at to see whether a column names members
 # Headings of a running number or a second label beside the member column ('Bar No.', 'No.',
 # 'Item', '#', 'Mark'): never a load case, whatever the numbers under them.
 _NUMBERING = re.compile(
@@ -48,11 +47,8 @@ _NUMBERING = re.compile(
 
 def _names_any_member(grid: Grid, matcher: LabelMatcher, column: int, start: int) -> bool:
     """Whether any of the first data cells of `column` names one of the model's members."""
-    for r in range(start, min(len(grid.rows), start + SCAN_ROWS)):
-        text = cell_text(grid.cell(r, column))
-        if text and matcher.names(text) in ("member", "reaction"):
-            return True
-    return False
+    stop = min(len(grid.rows), start + SCAN_ROWS)
+    return any(names_member(matcher, grid.cell(r, column)) for r in range(start, stop))
 
 
 def _numbering(key: str) -> bool:

@@ -15,8 +15,8 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from verify.io.claims.rounding import (
-    decimals_as_written,
     rounding_allowances,
+    shown_decimals,
     significant_figure_allowances,
 )
 from verify.io.claims.table import ClaimArrays, ClaimedValue, Resolution
@@ -129,7 +129,9 @@ def claim_arrays(
     unit_code = {u: k for k, u in enumerate(units)}
     unit = np.fromiter((unit_code[v.unit] for v in values), dtype=np.int64, count=n)
     text = [v.text for v in values]
-    decimals = np.fromiter((_shown(v.text, v.value) for v in values), dtype=np.int64, count=n)
+    decimals = np.fromiter(
+        (shown_decimals(v.text, v.value) for v in values), dtype=np.int64, count=n
+    )
     is_member = np.fromiter((v.reaction is None for v in values), dtype=bool, count=n)
     if resolutions is None:
         resolutions = judge_resolutions(value, is_member, column, names, unit, units, text)
@@ -162,8 +164,3 @@ def unit_factors(unit: np.ndarray, units: tuple[str | None, ...], case_unit: Uni
         or [np.nan]
     )
     return table[unit] if unit.size else np.zeros(0)
-
-
-def _shown(text: str, value: float) -> int:
-    shown = decimals_as_written(text, value)
-    return -1 if shown is None else shown

@@ -111,6 +111,12 @@ _DECIMAL_TOKEN = re.compile(r"(\d+)\.(\d+)")
 _DECIMAL_COMMA_TOKEN = re.compile(r"(\d+),(\d+)")
 
 
+def shown_decimals(text: str, value: float) -> int:
+    """decimals_as_written, with -1 for a text that shows none (array-friendly)."""
+    shown = decimals_as_written(text, value)
+    return -1 if shown is None else shown
+
+
 def decimals_as_written(text: str, value: float) -> int | None:
     """Decimals shown in the cell text ('10.00' or '10,00' -> 2), when the number in it is plainly
     `value` read that way (a thousands separator reads as another number and is left alone)."""

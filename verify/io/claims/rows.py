@@ -17,7 +17,7 @@ from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
-from verify.io.claims.rounding import decimals_as_written
+from verify.io.claims.rounding import decimals_as_written, shown_decimals
 from verify.io.claims.table import (
     ClaimArrays,
     ClaimedValue,
@@ -32,7 +32,6 @@ from verify.io.values import (
     MIN_FORCE,
     PLAIN_NUMBER,
     is_nan_text,
-    plain_number,
     read_force_cell,
 )
 from verify.units import Dimension, Unit, lookup_unit
@@ -141,70 +140,6 @@ class RowReader:
                 tc,
                 row_unit,
             )
-
-    def read_plain_rows(self, start: int, stop: int) -> None:
-        """read_row for every row of a wide table (no case, T/C or unit column), taking the
-        common row (a label naming one member, plain numbers not yet claimed) directly and
-        handing any other row to read_row. Same claims, same order: a 10^5-member table spent
-        most of its reading time in read_row's general checks."""
-        grid = self.grid
-        rows = grid.rows
-        label_at = self.member_h.index
-        columns = [
-            (v.index, v.case or "", (v.case or "").casefold(), v.unit, v.header)
-            for v in self.columns
-        ]
-        match = self.matcher.match
-        claimed, values = self._claimed, self.values
-        decimal_comma = grid.decimal_comma
-        for r in range(start, stop):
-            row = rows[r]
-            cell_label = row[label_at] if label_at < len(row) else None
-            label = cell_label if isinstance(cell_label, str) else ""
-            found = match(label) if label else None
-            if found is None or found.kind != "member" or found.member is None:
-                self.read_row(r)
-                continue
-            member = found.member
-            cells = []
-            for index, case, folded, unit, header in columns:
-                cell = row[index] if index < len(row) else None
-                if cell is None:
-                    continue
-                number = (
-                    cell
-                    if type(cell) is float
-                    else (
-                        plain_number(cell, decimal_comma=decimal_comma)
-                        if type(cell) is str
-                        else None
-                    )
-                )
-                if number is None:
-                    break  # anything but a plain number: the general reader words it
-                value = number
-                if (member, folded) in claimed:
-                    break
-                cells.append((index, case, folded, unit, header, value, cell))
-            else:
-                for index, case, folded, unit, header, value, cell in cells:
-                    claimed[(member, folded)] = (r, label)
-                    self.value_rows.append(r)
-                    values.append(
-                        ClaimedValue(
-                            label,
-                            member,
-                            None,
-                            case,
-                            value + 0.0,
-                            False,
-                            unit,
-                            grid.where(r, index, header),
-                            cell_text(cell),
-                        )
-                    )
-                continue
-            self.read_row(r)
 
     def _case_of_row(self, r: int) -> str | None:
         if self.case_h is None:
@@ -580,7 +515,7 @@ def read_bulk(
     if texts_only:
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
-        shown = _decimals_shown(text, value)
+        shown = _decimalsshown_decimals(text, value)
     grid_rows = np.repeat(picked + start, k)
     slot = np.tile(np.arange(k, dtype=np.int64), picked.size)
     found_parts = [grid.where_parts(v.index, v.header) for v in columns]
@@ -609,7 +544,7 @@ def read_bulk(
     )
 
 
-def _decimals_shown(text: list[str], value: np.ndarray) -> np.ndarray:
+def _decimalsshown_decimals(text: list[str], value: np.ndarray) -> np.ndarray:
     """decimals_as_written for plain numbers: the digits after the point of '12.340' (3); none
     for '12'; a text with an exponent is left to decimals_as_written itself. Whole columns at
     once with numpy's string functions."""
@@ -644,7 +579,7 @@ def read_rows(
     problems: Problems,
     *,
     fast: bool,
-    member_ids: MemberIndex | None = None,
+    member_ids: MemberIndex,
 ) -> ReadRows:
     """Every data row of `grid` under `layout`; problems are added, never raised here.
 
@@ -660,13 +595,11 @@ def read_rows(
         and layout.pair is None
         and not any(v.tc_index is not None for v in layout.columns)
     )
-    folded = [(v.case or "").casefold() for v in layout.columns]
-    if wide and member_ids is not None and len(set(folded)) == len(folded):
+    # (decide_layout refused a load case with two columns before any row is read)
+    if wide:
         bulk, general = read_bulk(reader, layout.start, len(grid.rows), member_ids)
         for r in general:
             reader.read_row(r)
-    elif wide:
-        reader.read_plain_rows(layout.start, len(grid.rows))
     else:
         for r in range(layout.start, len(grid.rows)):
             reader.read_row(r)
@@ -711,7 +644,7 @@ def assemble_claims(
     )
     column_names = [v.column for v in general]
     unit_names = [v.unit for v in general]
-    decimals = np.fromiter((_shown(v.text, v.value) for v in general), np.int64, n_general)
+    decimals = np.fromiter((shown_decimals(v.text, v.value) for v in general), np.int64, n_general)
     where: Sequence[str] = [v.where for v in general]
     text: list[str] = [v.text for v in general]
     fixed = np.fromiter((v.sign_fixed for v in general), dtype=bool, count=n_general)
@@ -862,8 +795,3 @@ class _LazyValues:
                 )
             )
         return tuple(out)
-
-
-def _shown(text: str, value: float) -> int:
-    shown = decimals_as_written(text, value)
-    return -1 if shown is None else shown

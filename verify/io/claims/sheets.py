@@ -7,12 +7,11 @@ number; the reader asks only when two or more sheets qualify, naming them.
 
 from __future__ import annotations
 
+from verify.io.claims.band import SCAN_ROWS
 from verify.io.claims.grid import Grid, cell_text
 from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.problems import Problems
 from verify.io.values import plain_number
-
-SCAN_ROWS = 2_000  # rows looked at per sheet: a member table shows itself long before that
 
 
 def member_rows(grid: Grid, matcher: LabelMatcher) -> int:

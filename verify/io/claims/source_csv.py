@@ -150,11 +150,6 @@ def _plainly_split(lines: list[str], delimiter: str) -> bool:
     return not refused[cls[:-1] * 4 + cls[1:]].any()
 
 
-def _split_plainly(lines: list[str], delimiter: str) -> list[list[Cell]] | None:
-    """The rows of a plain file as lists (None when it is not plain): what SplitRows gives."""
-    return list(SplitRows(lines, delimiter)) if _plainly_split(lines, delimiter) else None
-
-
 def _cells(texts: list[str]) -> list[Cell]:
     return cast("list[Cell]", texts)  # a list of text is a list of cells (read, never added to)
 
