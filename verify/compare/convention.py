@@ -55,22 +55,6 @@ class Fit:
         return self.agree / self.informative if self.informative else 0.0
 
 
-def count_agreeing(
-    claimed: np.ndarray,
-    fixed: np.ndarray,
-    computed: np.ndarray,
-    allowed_rel: float,
-    atol: np.ndarray,
-    rounding: np.ndarray,
-    sign: int,
-    factor: float,
-) -> int:
-    signs = np.where(fixed, 1.0, float(sign))
-    value = claimed * signs * factor
-    allowed = allowance(allowed_rel, value, computed, atol, rounding * factor)
-    return int((np.abs(value - computed) <= allowed).sum())
-
-
 def _counts_by_sign(
     claimed: np.ndarray,
     fixed: np.ndarray,
@@ -80,7 +64,7 @@ def _counts_by_sign(
     rounding: np.ndarray,
     factor: float,
 ) -> dict[int, int]:
-    """count_agreeing for sign +1 and -1 at once: the allowance depends on the sizes only, so it
+    """Claims agreeing for sign +1 and -1 at once: the allowance depends on the sizes only, so it
     is made once per factor (the same numbers: reversing a sign is exact)."""
     value = claimed * factor
     allowed = allowance(allowed_rel, value, computed, atol, rounding * factor)

@@ -46,7 +46,6 @@ from verify.compare.convention import (
     MIN_SHARE,
     Fit,
     best_fit,
-    count_agreeing,
     describe_factor,
     force_unit_for,
     matching_factor,
@@ -562,7 +561,7 @@ def _case_mismatch(c: Comparison) -> None:
                             f"so it is compared with '{top}'",
                             Severity.INFO,
                             case=top,
-                            locations=_column_where(claims, column),
+                            locations=_column_where(c.arrays, column),
                         )
                     )
                 else:
@@ -576,7 +575,7 @@ def _case_mismatch(c: Comparison) -> None:
                             f"'{named}'); compared with '{top}'",
                             Severity.ERROR,
                             case=top,
-                            locations=_column_where(claims, column),
+                            locations=_column_where(c.arrays, column),
                             variant=f"the column labelled '{named}' holding the forces of '{top}'",
                         )
                     )
@@ -590,7 +589,7 @@ def _case_mismatch(c: Comparison) -> None:
                     f"claims column '{column}' names no load case or combination of the model "
                     f"(known: {', '.join(load_names)}); its claims are not checked",
                     Severity.ERROR,
-                    locations=_column_where(claims, column),
+                    locations=_column_where(c.arrays, column),
                 )
             )
     mapping.update(remap)
@@ -711,7 +710,7 @@ def _column_readings(c: Comparison) -> None:
                             "column's unit",
                             Severity.ERROR,
                             case=mapping.get(column),
-                            locations=_column_where(claims, column),
+                            locations=_column_where(c.arrays, column),
                         )
                     )
                 if rel_sign == -1 and _reversed_load_case(c, column):
@@ -733,7 +732,7 @@ def _column_readings(c: Comparison) -> None:
                             "convention each column uses",
                             Severity.ERROR,
                             case=mapping.get(column),
-                            locations=_column_where(claims, column),
+                            locations=_column_where(c.arrays, column),
                         )
                     )
 
@@ -1791,10 +1790,11 @@ def _reversed_load_case(c: Comparison, column: str) -> bool:
         claimed = c.raw[idx] * c.conv[idx]
         as_defined = ref.member_forces[c.member_pos[idx], k]
         reversed_case = as_defined - 2.0 * C[case, k] * ref.member_forces[c.member_pos[idx], case]
-        atol = np.full(len(idx), c.tol.atol_fraction * (c.scale_of.get(name) or 1.0))
-        fixed, no_rounding = np.ones(len(idx), dtype=bool), np.zeros(len(idx))
+        atol = c.tol.atol_fraction * (c.scale_of.get(name) or 1.0)
         if_reversed, as_is = (
-            count_agreeing(claimed, fixed, computed, c.tol.rtol, atol, no_rounding, 1, 1.0)
+            int(
+                (np.abs(claimed - computed) <= allowance(c.tol.rtol, claimed, computed, atol)).sum()
+            )
             for computed in (reversed_case, as_defined)
         )
         if if_reversed > max(as_is, len(idx) // 2):
@@ -1834,19 +1834,12 @@ def _swap_restores_balance(c: Comparison, name: str, first: tuple, second: tuple
     return float(np.linalg.norm(residual + change)) < 0.5 * as_written
 
 
-def _column_where(claims: ClaimsTable, column: str) -> tuple[str, ...]:
+def _column_where(arrays: ClaimArrays, column: str) -> tuple[str, ...]:
     """Where a column's claims begin (the first claim of the column), for column-level findings."""
-    arrays = _arrays_of(claims)
     if column not in arrays.names:
         return ()
     first = np.flatnonzero(arrays.column == arrays.names.index(column))
     return (arrays.where[int(first[0])],) if first.size else ()
-
-
-def _arrays_of(claims: ClaimsTable) -> ClaimArrays:
-    arrays = claims._arrays  # made by the comparison's first step (arrays_for)
-    assert arrays is not None
-    return arrays
 
 
 def _member_claims(arrays: ClaimArrays, mapping: dict[str, str | None]) -> np.ndarray:

@@ -53,12 +53,6 @@ class ClaimsFrame:
         with np.errstate(invalid="ignore"):
             return np.isfinite(computed) & (np.abs(y - computed) <= self.allowed(computed, y))
 
-    def agrees_at(self, index: np.ndarray, computed: np.ndarray) -> np.ndarray:
-        """`agrees` for the claims at positions `index` only."""
-        y = self.claimed[index]
-        allowed = allowance(self.rtol, y, computed, self.atol[index], self.rounding[index])
-        return np.abs(y - computed) <= allowed
-
     def column_positions(self) -> tuple[np.ndarray, np.ndarray]:
         """The load columns that hold claims, and each claim's position among them (for solving a
         variant model for those columns only)."""
