@@ -14,7 +14,6 @@ from __future__ import annotations
 import datetime as _dt
 import itertools
 import math
-import weakref
 from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
@@ -340,12 +339,8 @@ class _CaseRows:
     flagged: dict[str, list[str]] = field(default_factory=dict)  # ids with a finding, in order
 
 
-_GROUPED: list[tuple[weakref.ref[Review], _CaseRows]] = []  # the last review grouped
-
-
-def _case_rows(review: Review) -> _CaseRows:
-    if _GROUPED and _GROUPED[0][0]() is review:
-        return _GROUPED[0][1]
+def case_rows(review: Review) -> _CaseRows:
+    """The review's rows by load column, made once by each renderer and handed to its parts."""
     grouped = _CaseRows()
     members, reactions, statuses = grouped.members, grouped.reactions, grouped.statuses
     for row in review.rows:
@@ -368,11 +363,10 @@ def _case_rows(review: Review) -> _CaseRows:
         if bad_status:
             bad = [r.id for r in rows if r.status in bad_status]
             grouped.flagged[case] = list(dict.fromkeys(bad))
-    _GROUPED[:] = [(weakref.ref(review), grouped)]
     return grouped
 
 
-def member_tables(review: Review) -> list[Table]:
+def member_tables(review: Review, grouped: _CaseRows) -> list[Table]:
     """Per load column: claimed and recomputed members, then reactions; recomputed only where
     unclaimed."""
     model = review.analysis.model
@@ -380,7 +374,6 @@ def member_tables(review: Review) -> list[Table]:
     recomputed_name = "global" if review.analysis.global_ is not None else "elastic"
     header = tuple(with_unit(recomputed_name if h == "global" else h, unit) for h in MEMBER_COLUMNS)
     tables: list[Table] = []
-    grouped = _case_rows(review)
     member_index = model.member_index
     for k, name in enumerate(model.load_names):
         label = _load_label(review, name)
@@ -555,24 +548,24 @@ def _member_cells(row: Row) -> tuple[str, ...]:
     )
 
 
-def diagram_columns(review: Review) -> list[str]:
+def diagram_columns(review: Review, grouped: _CaseRows) -> list[str]:
     """Load columns to draw: those with problems first, then the other checked ones; at most
     MAX_DIAGRAMS."""
     model = review.analysis.model
     checked = [n for n in model.load_names if n in review.checked_cases]
     if not checked:
         return model.load_names[:1]
-    bad = _case_rows(review).flagged
+    bad = grouped.flagged
     limit = 1 if len(model.members) > LARGE_MODEL_MEMBERS else MAX_DIAGRAMS
     ordered = [n for n in checked if n in bad] + [n for n in checked if n not in bad]
     keep = set(ordered[:limit])
     return [n for n in checked if n in keep]
 
 
-def member_statuses(review: Review, load_name: str) -> dict[str, str]:
+def member_statuses(grouped: _CaseRows, load_name: str) -> dict[str, str]:
     """Member id -> the status drawn for one load column (the most serious of its claims)."""
     out = {}
-    for member, statuses in _case_rows(review).statuses.get(load_name, {}).items():
+    for member, statuses in grouped.statuses.get(load_name, {}).items():
         if len(statuses) == 1:
             out[member] = statuses[0]
             continue
@@ -589,7 +582,9 @@ def appendix_columns(review: Review) -> list[str]:
     return checked[:MAX_APPENDIX_COLUMNS]
 
 
-def appendix_members(review: Review, load_name: str, book: Any = None) -> list[str] | None:
+def appendix_members(
+    review: Review, grouped: _CaseRows, load_name: str, book: Any = None
+) -> list[str] | None:
     """Members whose section cuts the appendix shows in one load column (None: every cut).
 
     Up to APPENDIX_ALL_MEMBERS members every free body is shown: a hand calc a checker can read
@@ -600,12 +595,12 @@ def appendix_members(review: Review, load_name: str, book: Any = None) -> list[s
     model = review.analysis.model
     if len(model.members) <= APPENDIX_ALL_MEMBERS:
         return None
-    flagged = _case_rows(review).flagged.get(load_name, [])[:MAX_FLAGGED_SHEETS]
+    flagged = grouped.flagged.get(load_name, [])[:MAX_FLAGGED_SHEETS]
     sample = book.sample(SAMPLE_SHEETS) if book is not None else []
     return list(dict.fromkeys(flagged + sample))
 
 
-def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
+def appendix(review: Review, grouped: _CaseRows) -> tuple[list[tuple[str, list[Block]]], str]:
     model = review.analysis.model
     large = len(model.members) > LARGE_MODEL_MEMBERS
     columns = appendix_columns(review)
@@ -617,7 +612,7 @@ def appendix(review: Review) -> tuple[list[tuple[str, list[Block]]], str]:
             review.analysis,
             name,
             book=book,
-            members=appendix_members(review, name, book),
+            members=appendix_members(review, grouped, name, book),
             max_steps=MAX_APPENDIX_STEPS_LARGE if large else None,
             exact=len(model.members) <= EXACT_MAX_MEMBERS,
         )
@@ -775,6 +770,7 @@ def render_html(
     displacement_file: tuple[str, str] | None = None,
 ) -> str:
     model = review.analysis.model
+    grouped = case_rows(review)  # the rows by load column, for every part below
     date = _generated(generated)
     word, summary = _verdict_text(review)
     title = model.title or Path(model.source).name or "truss"
@@ -837,7 +833,7 @@ def render_html(
     out.append("</section>")
 
     out.append('<section id="diagram" class="major"><h2>Diagram</h2>')
-    out.extend(diagrams_html(review))
+    out.extend(diagrams_html(review, grouped))
     out.append("</section>")
 
     loads_table = implied_table(review)
@@ -854,7 +850,7 @@ def render_html(
         out.append("</section>")
 
     out.append('<section id="members" class="major"><h2>Member table</h2>')
-    for table in member_tables(review):
+    for table in member_tables(review, grouped):
         out.append(f"<h3>{_e(table.title)}</h3><p>{_e(table.intro)}</p>")
         out.append(_html_table(table.header, table.rows, table.statuses, css="members"))
         if table.note:
@@ -863,7 +859,7 @@ def render_html(
 
     out.extend(_deflection_html(review))
 
-    sections, note = appendix(review)
+    sections, note = appendix(review, grouped)
     out.append('<section id="appendix" class="major"><h2>Appendix: hand calculation</h2>')
     out.append(
         "<p>Reactions, then the joint-by-joint sequence a hand calculation follows, then the "
@@ -917,10 +913,11 @@ def _deflection_markdown(review: Review) -> list[str]:
     return out
 
 
-def diagrams_html(review: Review) -> list[str]:
+def diagrams_html(review: Review, grouped: _CaseRows | None = None) -> list[str]:
     model = review.analysis.model
     ref = review.analysis.reference
-    columns = diagram_columns(review)
+    grouped = grouped if grouped is not None else case_rows(review)
+    columns = diagram_columns(review, grouped)
     out = []
     outline = len(model.members) > LARGE_MODEL_MEMBERS
     if outline:
@@ -932,7 +929,7 @@ def diagrams_html(review: Review) -> list[str]:
             "force.</em></p>"
         )
     drawn = [
-        (name, member_statuses(review, name) if name in review.checked_cases else None)
+        (name, member_statuses(grouped, name) if name in review.checked_cases else None)
         for name in columns
     ]
     used: set[str] = set()
@@ -1101,6 +1098,7 @@ def render_markdown(
     displacement_file: tuple[str, str] | None = None,
 ) -> str:
     model = review.analysis.model
+    grouped = case_rows(review)  # the rows by load column, for every part below
     date = _generated(generated)
     word, summary = _verdict_text(review)
     title = model.title or Path(model.source).name or "truss"
@@ -1159,13 +1157,13 @@ def render_markdown(
         "",
         f"Status marks: {_m(legend)}; agreeing claims carry no mark.",
     ]
-    for table in member_tables(review):
+    for table in member_tables(review, grouped):
         out += ["", f"### {_m(table.title)}", "", _m(table.intro), ""]
         out.extend(_md_table(table.header, table.rows, table.statuses))
         if table.note:
             out += ["", f"*{_m(table.note)}*"]
     out.extend(_deflection_markdown(review))
-    sections, note = appendix(review)
+    sections, note = appendix(review, grouped)
     out += [
         "",
         "## Appendix: hand calculation",
