@@ -51,7 +51,7 @@ from verify.compare.convention import (
     matching_factor,
     possible_factors,
 )
-from verify.compare.findings import Finding, Severity, ordered, worded
+from verify.compare.findings import Finding, RowStatus, Severity, ordered, worded
 from verify.compare.implied import ImpliedLoads, implied_loads
 from verify.compare.rows import Labels, Numbers, Row, Rows, Written
 from verify.compare.tolerances import Tolerance, allowance
@@ -524,7 +524,7 @@ def _gather(c: Comparison) -> None:
 
 
 def _case_mismatch(c: Comparison) -> None:
-    claims, columns = c.claims, c.columns
+    columns = c.columns
     comparable, conv, findings, fixed_all = c.comparable, c.conv, c.findings, c.fixed_all
     load_names, mapping, member_pos, raw, ref = c.load_names, c.mapping, c.member_pos, c.raw, c.ref
     rounding_unit, scale_of, tol = c.rounding_unit, c.scale_of, c.tol
@@ -625,7 +625,7 @@ def _balances_as_well(
 
 
 def _column_readings(c: Comparison) -> None:
-    case_unit, claims, column_of_claim = c.case_unit, c.claims, c.column_of_claim
+    case_unit, column_of_claim = c.case_unit, c.column_of_claim
     column_readings, columns, comparable, conv = c.column_readings, c.columns, c.comparable, c.conv
     findings, fixed_all, is_member_claim = c.findings, c.fixed_all, c.is_member_claim
     load_names, mapping, member_idx, member_pos, raw = (
@@ -851,6 +851,20 @@ def _table_convention(c: Comparison) -> None:
     c.sign_fit = sign_fit
 
 
+# The statuses _rows gives, by code (the causes and reasons below set others by word).
+STATUS_WORDS = tuple(
+    s.value
+    for s in (
+        RowStatus.AGREES,
+        RowStatus.TABLE_SIGN_CONVENTION,
+        RowStatus.UNIT_SCALE,
+        RowStatus.VALUE_MISMATCH,
+        RowStatus.NOT_VERIFIABLE,
+    )
+)
+_CODE = {word: n for n, word in enumerate(STATUS_WORDS)}
+
+
 def _rows(c: Comparison) -> None:
     analysis, case_unit, comparable, conv = (
         c.analysis,
@@ -923,9 +937,9 @@ def _rows(c: Comparison) -> None:
     # Statuses as codes into STATUS_WORDS (agrees, table-sign-convention, unit-scale, ...).
     convention_status = np.zeros(n_claims, dtype=np.int64)
     if sign_fit == -1 and sign is not SignMode.AUTO:
-        convention_status[~fixed_all & big] = 1
+        convention_status[~fixed_all & big] = _CODE[RowStatus.TABLE_SIGN_CONVENTION]
     elif scale_fit != 1.0 and unit_stated:
-        convention_status[big] = 2
+        convention_status[big] = _CODE[RowStatus.UNIT_SCALE]
     judged_rows = np.flatnonzero(judged)
     claimed_matrix[member_pos[judged_rows], k_of[judged_rows]] = values[judged_rows]
     rounding_matrix = np.zeros_like(claimed_matrix)
@@ -965,7 +979,11 @@ def _rows(c: Comparison) -> None:
     recomputed = np.where(has_global, global_a[0], elastic_a[0])
     with np.errstate(invalid="ignore"):
         difference = values - recomputed
-    status = np.where(compared, np.where(agree_all, convention_status, 3), 4)
+    status = np.where(
+        compared,
+        np.where(agree_all, convention_status, _CODE[RowStatus.VALUE_MISMATCH]),
+        _CODE[RowStatus.NOT_VERIFIABLE],
+    )
     member_row = judged[claim_of_row]
     rows = Rows(
         (
@@ -1069,10 +1087,6 @@ def _rows(c: Comparison) -> None:
         seen,
     )
     c.values = values
-
-
-# The statuses _rows gives, by code (the causes and reasons below set others by word).
-STATUS_WORDS = ("agrees", "table-sign-convention", "unit-scale", "value-mismatch", "not-verifiable")
 
 
 def _frame(c: Comparison) -> None:
