@@ -170,21 +170,28 @@ class Written:
         if self.get(i) != value:
             self.set_texts[i] = value
 
-    def parts(self, start: int, stop: int) -> tuple[list[str], list[str]] | None:
-        """The cells and the places of rows start..stop, when every row has a claim whose cell
-        was kept and none was set anew (the JSON writer lays them out without joining them)."""
+    def parts(self, start: int, stop: int) -> tuple[list[str], list[str | list[str]]] | None:
+        """The cells of rows start..stop and their places as pieces to lay side by side (a text
+        shared by every row, or a list with one text per row), when every row has a claim whose
+        cell was kept and none was set anew: the JSON writer writes them without joining a
+        string per row."""
         claims = self.claim[start:stop]
         if (claims < 0).any() or any(start <= i < stop for i in self.set_texts):
             return None
         picked = claims.tolist()
         if len(picked) > 1:
-            cells, where = (
-                list(itemgetter(*picked)(self.cells)),
-                list(itemgetter(*picked)(self.where)),
-            )
+            cells = list(itemgetter(*picked)(self.cells))
         else:
-            cells, where = [self.cells[k] for k in picked], [self.where[k] for k in picked]
-        return (cells, where) if all(cells) else None
+            cells = [self.cells[k] for k in picked]
+        if not all(cells):
+            return None
+        split = getattr(self.where, "split", None)  # Places: row numbers and column texts
+        places = split(claims) if split is not None else None
+        if places is not None:
+            return cells, list(places)
+        if len(picked) > 1:
+            return cells, [list(itemgetter(*picked)(self.where))]
+        return cells, [[self.where[k] for k in picked]]
 
     def chunk(self, start: int, stop: int) -> list[Any]:
         claims = self.claim[start:stop]

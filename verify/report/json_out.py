@@ -18,6 +18,7 @@ from json.encoder import encode_basestring  # the C string encoder json.dumps us
 from typing import Any
 
 import numpy as np
+import orjson
 
 from verify import __version__
 from verify.analysis.pipeline import Analysis
@@ -268,8 +269,10 @@ def _column_writer(
 
         def cells(start: int, stop: int) -> list[str | list[str]]:
             parts = source.parts(start, stop)
-            if parts is not None and _plain(*parts):
-                return ['"', parts[0], " at ", parts[1], '"']
+            if parts is not None:
+                cells, where = parts
+                if _plain(cells, *[[p] if isinstance(p, str) else p for p in where]):
+                    return ['"', cells, " at ", *where, '"']
             return [_column_text(source.chunk(start, stop), level)]
 
         return cells
@@ -290,9 +293,7 @@ def _column_writer(
                     texts[same] = texts_before[same]
                     todo &= ~same
             if todo.any():
-                # the list's repr: each float's repr (as json.dumps writes a finite float), made
-                # in C without a call per value (a quarter faster than a map of float.__repr__)
-                texts[todo] = repr(chunk[todo].tolist())[1:-1].split(", ")
+                texts[todo] = float_texts(chunk[todo])
             written.append((chunk, finite, texts))
             return [texts.tolist()]
 
@@ -302,6 +303,38 @@ def _column_writer(
     if hasattr(source, "chunk"):
         return lambda start, stop: [_column_text(source.chunk(start, stop), level)]
     return lambda start, stop: [_column_text(source[start:stop], level)]
+
+
+# orjson and repr write the same shortest digits, and the same layout but for two things: a
+# one-digit exponent ("2.5e-7", repr "2.5e-07"; only negative ones, repr's exponent form starts
+# at 1e16), padded here on the whole text, and the decade 1e-5 <= |v| < 1e-4, which orjson
+# writes positionally ("0.00001", repr "1e-05").
+ONE_DIGIT_EXPONENT = re.compile(r"e-(\d)(?=[,\]])")
+POSITIONAL_DECADE = (1e-5, 1e-4)
+
+
+def _two_digits(exponent: re.Match[str]) -> str:
+    return "e-0" + exponent.group(1)
+
+
+def float_texts(values: np.ndarray) -> np.ndarray:
+    """float.__repr__ of each finite float64 of `values` (as json.dumps writes it), as an
+    array of str objects: orjson's texts (five times faster than repr; a sixth of a Pratt
+    truss's values are round-off of zero-force members, in exponent form), mended where its
+    layout differs, and repr for the decade it writes positionally
+    (tests/test_json_float_texts.py holds every range to repr)."""
+    flat = np.ascontiguousarray(values, dtype=np.float64).ravel()
+    texts = np.empty(flat.size, dtype=object)
+    if not flat.size:
+        return texts
+    text = orjson.dumps(flat, option=orjson.OPT_SERIALIZE_NUMPY).decode()
+    # a function, not a template: the template is expanded in Python per match, a third slower
+    texts[:] = ONE_DIGIT_EXPONENT.sub(_two_digits, text)[1:-1].split(",")
+    size = np.abs(flat)
+    odd = (size >= POSITIONAL_DECADE[0]) & (size < POSITIONAL_DECADE[1])
+    if odd.any():
+        texts[odd] = repr(flat[odd].tolist())[1:-1].split(", ")
+    return texts
 
 
 def _column_text(values: Sequence[Any], level: int) -> list[str]:

@@ -179,6 +179,31 @@ class Places(_TextsWhenRead):
         before, after = self._parts[self._slot[i]]
         return f"{before}{self._numbers[i]}{after}"
 
+    def split(
+        self, positions: np.ndarray
+    ) -> tuple[str | list[str], list[str], str | list[str]] | None:
+        """The places of these claims in three parts, text before the row number, the number,
+        text after it: each of the outer parts one text when the claims share their value column.
+        A writer lays the parts side by side (the JSON of 10^6 claims) instead of making a string
+        per claim. None when some claim came with its own place."""
+        picked = np.asarray(positions, dtype=np.int64)
+        if self._given and not self._given.keys().isdisjoint(picked.tolist()):
+            return None
+        numbers = np.frombuffer(self._numbers, dtype=np.int64)[picked]
+        slots = np.frombuffer(self._slot, dtype=np.int64)[picked]
+        texts = list(map(str, numbers.tolist()))
+        if slots.size and (slots == slots[0]).all():
+            before, after = self._parts[int(slots[0])]
+            return before, texts, after
+        befores = [self._parts[k][0] for k in range(len(self._parts))]
+        afters = [self._parts[k][1] for k in range(len(self._parts))]
+        codes = slots.tolist()
+        return (
+            list(map(befores.__getitem__, codes)),
+            texts,
+            list(map(afters.__getitem__, codes)),
+        )
+
 
 class Labels(_TextsWhenRead):
     """Each claim's label as written, made when asked: a claim read in bulk is labelled by its
