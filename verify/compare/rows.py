@@ -281,6 +281,33 @@ class Rows(Sequence[Row]):
     def field(self, name: str) -> Column:
         return self.columns[Row._fields.index(name)]
 
+    def words(self, name: str) -> tuple[np.ndarray, list[str]]:
+        """A field of words as (a code per row, the words, each once): readers that group the
+        rows (the report's rows by load column) work on the codes, making no Row per row."""
+        column = self.field(name)
+        if isinstance(column, Labels):
+            if len(set(column.labels)) == len(column.labels):
+                return column.codes, column.labels
+            # rows joined from two lists of words: one code per word
+            words = list(dict.fromkeys(column.labels))
+            first = np.array([words.index(w) for w in column.labels], dtype=np.int64)
+            return first[column.codes], words
+        values = column.chunk(0, len(column))
+        labels = list(dict.fromkeys(values))
+        code_of = {label: n for n, label in enumerate(labels)}
+        return np.fromiter(map(code_of.__getitem__, values), np.int64, len(values)), labels
+
+    def where(self, name: str, word: str) -> np.ndarray:
+        """The positions of the rows whose field `name` is `word`, in order."""
+        codes, labels = self.words(name)
+        return np.flatnonzero(np.isin(codes, [n for n, w in enumerate(labels) if w == word]))
+
+    def take(self, positions: Sequence[int] | np.ndarray) -> list[Row]:
+        """The rows at these positions, each made alone (a few thousand of a million)."""
+        if self._tuples is not None:
+            return [self._tuples[i] for i in np.asarray(positions, dtype=np.int64).tolist()]
+        return [self[i] for i in np.asarray(positions, dtype=np.int64).tolist()]
+
     def __iter__(self) -> Iterator[Row]:
         # The text and HTML reports read the rows several times: the tuples are made once, on the
         # first reading (the JSON writer reads the columns and never makes them).

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from verify.compare.diagnose import Review
+from verify.compare.rows import Rows
 from verify.report.cautions import ELASTIC_CAUTION
 from verify.report.numbers import clean_zero, difference_text, fmt
 from verify.report.tables import Table
@@ -30,7 +31,11 @@ def _scaled(value: float | None, factor: float) -> float | None:
 
 def deflection_table(review: Review) -> Table | None:
     """Claimed against computed displacements, one row per joint direction and load column."""
-    rows = [r for r in review.rows if r.kind == "displacement"]
+    rows = (
+        review.rows.take(review.rows.where("kind", "displacement"))
+        if isinstance(review.rows, Rows)
+        else [r for r in review.rows if r.kind == "displacement"]
+    )
     if not rows:
         return None
     unit, factor = shown_length(review.analysis.model.units.length.symbol)

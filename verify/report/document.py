@@ -12,7 +12,6 @@ other people's spreadsheets). Same review and `generated` date give byte-identic
 from __future__ import annotations
 
 import datetime as _dt
-import itertools
 import math
 from dataclasses import dataclass, field
 from html import escape
@@ -24,6 +23,7 @@ import numpy as np
 from verify import __version__
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Finding
+from verify.compare.rows import Rows
 from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.calc_sheet_html import FREE_BODY_CSS, reactions_html, sheet_html
@@ -330,39 +330,35 @@ def _load_label(review: Review, name: str) -> str:
 
 @dataclass
 class _CaseRows:
-    """The review's rows sorted out by load column in one pass (a 10^5-member review has 2x10^5
-    rows, and the member table, the diagrams and the appendix each asked for them again)."""
+    """The review's rows sorted out by load column in one pass over the columns of words (a
+    10^6-member review has 2x10^6 rows: a Row is made only for a row a table shows)."""
 
-    members: dict[str, list[Row]] = field(default_factory=dict)  # in table order
-    reactions: dict[str, list[Row]] = field(default_factory=dict)
-    statuses: dict[str, dict[str, list[str]]] = field(default_factory=dict)  # case -> id -> all
+    rows: Rows
+    members: dict[str, np.ndarray] = field(default_factory=dict)  # row positions, table order
+    reactions: dict[str, np.ndarray] = field(default_factory=dict)
     flagged: dict[str, list[str]] = field(default_factory=dict)  # ids with a finding, in order
 
 
 def case_rows(review: Review) -> _CaseRows:
     """The review's rows by load column, made once by each renderer and handed to its parts."""
-    grouped = _CaseRows()
-    members, reactions, statuses = grouped.members, grouped.reactions, grouped.statuses
-    for row in review.rows:
-        kind = row.kind
-        if kind == "member":
-            case = row.case
-            if case not in members:
-                members[case], statuses[case] = [], {}
-            members[case].append(row)
-            of_case = statuses[case]
-            if row.id in of_case:
-                of_case[row.id].append(row.status)
-            else:
-                of_case[row.id] = [row.status]
-        elif kind == "reaction":
-            reactions.setdefault(row.case, []).append(row)
-    for case, rows in members.items():
-        seen = {r.status for r in rows}
-        bad_status = {s for s in seen if status_category(s) not in ("agrees", "missing")}
-        if bad_status:
-            bad = [r.id for r in rows if r.status in bad_status]
-            grouped.flagged[case] = list(dict.fromkeys(bad))
+    rows = review.rows if isinstance(review.rows, Rows) else Rows.of(list(review.rows))
+    grouped = _CaseRows(rows)
+    kinds, kind_words = rows.words("kind")
+    cases, case_words = rows.words("case")
+    statuses, status_words = rows.words("status")
+    ids, id_words = rows.words("id")
+    flagging = np.array(
+        [status_category(s) not in ("agrees", "missing") for s in status_words] or [False]
+    )
+    for kind, into in (("member", grouped.members), ("reaction", grouped.reactions)):
+        of_kind = np.isin(kinds, [n for n, w in enumerate(kind_words) if w == kind])
+        at = np.flatnonzero(of_kind)
+        for code in dict.fromkeys(cases[at].tolist()):  # load columns as their first rows come
+            into[case_words[code]] = at[cases[at] == code]
+    for case, at in grouped.members.items():
+        bad = at[flagging[statuses[at]]]
+        if bad.size:
+            grouped.flagged[case] = list(dict.fromkeys(id_words[i] for i in ids[bad].tolist()))
     return grouped
 
 
@@ -377,14 +373,15 @@ def member_tables(review: Review, grouped: _CaseRows) -> list[Table]:
     member_index = model.member_index
     for k, name in enumerate(model.load_names):
         label = _load_label(review, name)
-        members = grouped.members.get(name, [])
-        positions = [member_index[r.id] for r in members]
-        if any(a > b for a, b in itertools.pairwise(positions)):  # usually in member order
-            order = sorted(range(len(members)), key=positions.__getitem__)  # stable, as before
-            members = [members[n] for n in order]
-        reactions = grouped.reactions.get(name, [])
-        if members or reactions:
-            shown, note = _cap(members)
+        at = grouped.members.get(name, np.empty(0, dtype=np.int64))
+        ids, id_words = grouped.rows.words("id")
+        of_word = np.array([member_index.get(w, -1) for w in id_words] or [0], dtype=np.int64)
+        positions = of_word[ids[at]]
+        if (np.diff(positions) < 0).any():  # usually in member order
+            at = at[np.argsort(positions, kind="stable")]
+        reactions = grouped.rows.take(grouped.reactions.get(name, ()))
+        if at.size or reactions:
+            shown, note = _cap(grouped.rows, at)
             cells = tuple(_member_cells(r) for r in shown)
             tables.append(
                 Table(
@@ -465,19 +462,23 @@ def member_tables(review: Review, grouped: _CaseRows) -> list[Table]:
     return tables
 
 
-def _cap(rows: list[Row]) -> tuple[list[Row], str]:
-    if len(rows) <= MAX_TABLE_ROWS:
-        return rows, ""
+def _cap(rows: Rows, at: np.ndarray) -> tuple[list[Row], str]:
+    """The rows at positions `at` that a member table shows, and what it leaves out."""
+    if at.size <= MAX_TABLE_ROWS:
+        return rows.take(at), ""
     # Problems first, then the rows that agree or have no claim, shown in table order.
-    problems = [n for n, r in enumerate(rows) if r.status not in ("agrees", "missing-claim")]
+    statuses, words = rows.words("status")
+    fine = np.isin(
+        statuses[at], [n for n, w in enumerate(words) if w in ("agrees", "missing-claim")]
+    )
+    problems = np.flatnonzero(~fine)
     chosen = problems[:MAX_TABLE_ROWS]
-    if len(chosen) < MAX_TABLE_ROWS:
-        taken = set(problems)
-        rest = (n for n in range(len(rows)) if n not in taken)
-        chosen += itertools.islice(rest, MAX_TABLE_ROWS - len(chosen))
-    shown = [rows[n] for n in sorted(chosen)]
+    if chosen.size < MAX_TABLE_ROWS:
+        rest = np.flatnonzero(fine)[: MAX_TABLE_ROWS - chosen.size]
+        chosen = np.concatenate([chosen, rest])
+    shown = rows.take(at[np.sort(chosen)])
     return shown, (
-        f"{len(rows) - len(shown)} rows that agree or have no claim are not listed (large model); "
+        f"{at.size - len(shown)} rows that agree or have no claim are not listed (large model); "
         "`truss-verify check --csv` writes the full table."
     )
 
@@ -564,13 +565,23 @@ def diagram_columns(review: Review, grouped: _CaseRows) -> list[str]:
 
 def member_statuses(grouped: _CaseRows, load_name: str) -> dict[str, str]:
     """Member id -> the status drawn for one load column (the most serious of its claims)."""
+    at = grouped.members.get(load_name, np.empty(0, dtype=np.int64))
+    ids, id_words = grouped.rows.words("id")
+    statuses, status_words = grouped.rows.words("status")
+    pairs = zip(
+        map(id_words.__getitem__, ids[at].tolist()),
+        map(status_words.__getitem__, statuses[at].tolist()),
+        strict=True,
+    )
+    if np.unique(ids[at]).size == at.size:  # one claim per member: its status
+        return dict(pairs)
+    by_member: dict[str, list[str]] = {}
+    for member, status in pairs:
+        by_member.setdefault(member, []).append(status)
     out = {}
-    for member, statuses in grouped.statuses.get(load_name, {}).items():
-        if len(statuses) == 1:
-            out[member] = statuses[0]
-            continue
-        category = worst_status(statuses)
-        out[member] = next(s for s in statuses if status_category(s) == category)
+    for member, seen in by_member.items():
+        category = worst_status(seen)
+        out[member] = next(s for s in seen if status_category(s) == category)
     return out
 
 
