@@ -181,3 +181,24 @@ def test_rows_pickle_as_their_tuples():
     again = pickle.loads(pickle.dumps(review.rows))
     assert list(again) == list(review.rows)
     assert len(again) == len(review.rows) > 0
+
+
+@settings(max_examples=60, deadline=None)
+@given(row_columns(), st.data())
+def test_words_where_and_take_read_as_the_tuples(made, data):
+    """The grouped readers the report uses (words, where, take) against list comprehensions over
+    the tuples, with a column joined from two label lists (a word under two codes)."""
+    tuples, rows = made
+    if data.draw(st.booleans()):  # rows joined with more rows of other labels
+        more_tuples, more = data.draw(row_columns())
+        rows, tuples = rows + more, tuples + more_tuples
+    for name in ("id", "kind", "case", "status"):
+        codes, words = rows.words(name)
+        assert len(set(words)) == len(words)
+        assert [words[c] for c in codes.tolist()] == [getattr(t, name) for t in tuples]
+        word = data.draw(WORDS)
+        expected = [n for n, t in enumerate(tuples) if getattr(t, name) == word]
+        assert rows.where(name, word).tolist() == expected
+    picked = data.draw(st.lists(st.integers(0, max(len(tuples) - 1, 0)), max_size=8))
+    picked = picked if tuples else []
+    assert all(same(a, tuples[i]) for a, i in zip(rows.take(picked), picked, strict=True))
