@@ -2,13 +2,20 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from verify.compare.diagnose import Review, Row
 from verify.compare.findings import Severity
+from verify.compare.rows import Rows
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
 from verify.report.numbers import difference_text, fmt, fmt_percent, fmt_ratio, plain_table
 from verify.report.written import table_place, written_at
 
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
+
+
+def _codes(words: list[str], word: str) -> list[int]:
+    return [n for n, w in enumerate(words) if w == word]
 
 
 def verdict_line(review: Review) -> str:
@@ -157,28 +164,30 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     else:
         lines.append("Findings: none")
     lines.append("")
-    displacement_rows = [r for r in review.rows if r.kind == "displacement"]
-    shown = [
-        r
-        for r in review.rows
-        if r.kind != "displacement" and (all_rows or r.status != "missing-claim")
-    ]
+    rows = review.rows if isinstance(review.rows, Rows) else Rows.of(list(review.rows))
+    # picked by the codes of the kind and status columns: a Row is made only for a row shown
+    kinds, kind_words = rows.words("kind")
+    statuses, status_words = rows.words("status")
+    is_displacement = np.isin(kinds, _codes(kind_words, "displacement"))
+    missing_claim = np.isin(statuses, _codes(status_words, "missing-claim"))
+    displacement_rows = rows.take(np.flatnonzero(is_displacement))
+    shown_at = np.flatnonzero(~is_displacement & (all_rows | ~missing_claim))
     force = model.units.force.symbol
     headers = (
         ["member", "case"]
         + [f"{h} ({force})" for h in ("claimed", "joints", "sections", "recomputed", "difference")]
         + ["status"]
     )
-    if not all_rows and len(shown) > MAX_ROWS:
-        bad = [r for r in shown if r.status != "agrees"]
-        shown = (bad + [r for r in shown if r.status == "agrees"])[:MAX_ROWS]
+    if not all_rows and shown_at.size > MAX_ROWS:
+        agrees = np.isin(statuses[shown_at], _codes(status_words, "agrees"))
+        shown_at = np.concatenate([shown_at[~agrees], shown_at[agrees]])[:MAX_ROWS]
         lines.append(
             f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for "
             f"everything), {model.units.force.symbol}, tension positive:"
         )
     else:
         lines.append(f"Member table ({model.units.force.symbol}, tension positive):")
-    lines.append(plain_table(headers, [_row_cells(r) for r in shown]))
+    lines.append(plain_table(headers, [_row_cells(r) for r in rows.take(shown_at)]))
     if displacement_rows:
         length = model.units.length.symbol
         factor_mm = 1000.0 if length == "m" else 1.0
@@ -204,7 +213,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
             )
         )
     lines.extend(implied_lines(review))
-    missing = sum(1 for r in review.rows if r.status == "missing-claim")
+    missing = int(missing_claim.sum())
     if missing and not all_rows:
         lines.append(
             f"({missing} member/case pairs without a claim are not listed; --all-rows shows them)"
