@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 from decimal import ROUND_HALF_UP, Decimal, InvalidOperation
+from functools import lru_cache
 
 # Ten figures: far beyond any written engineering value, far above double round-off (~1e-16).
 NOISE_FIGURES = 10
@@ -61,7 +62,14 @@ def fmt(value: float | None, digits: int = 4) -> str:
     if _missing(value):
         return NOTHING
     assert value is not None
-    number = _decimal(float(value))
+    return _fmt_float(float(value), digits)
+
+
+# A report's member table writes each force in up to three columns (joints, sections, global
+# agree to the last bit), and decimal rounding costs microseconds: each text is made once.
+@lru_cache(maxsize=1 << 16)
+def _fmt_float(value: float, digits: int) -> str:
+    number = _decimal(value)
     if number is None:
         return "∞" if value > 0 else "−∞"
     if number == 0 or abs(value) < 1e-12:

@@ -279,7 +279,7 @@ def _svg(
     order = list(range(len(model.members)))
     if outline:
         out.append(_outline(sx, sy))
-        order = [i for i in order if _flagged(model.members[i].id, statuses)]
+        order = _flagged_positions(model, statuses)
     if forces is not None:
         order.sort(key=lambda i: 0 if np.isfinite(forces[i]) and forces[i] < -zero else 1)
     lines = []
@@ -359,11 +359,14 @@ def _svg(
     return "".join(out)
 
 
-def _flagged(member_id: str, statuses: Mapping[str, str] | None) -> bool:
-    """A member with a finding (drawn even in an outline): not agreeing, not merely unclaimed."""
-    if statuses is None or member_id not in statuses:
-        return False
-    return status_category(statuses[member_id]) not in ("agrees", "missing")
+def _flagged_positions(model: Model, statuses: Mapping[str, str] | None) -> list[int]:
+    """The positions of the members with a finding, in member order (one look at each distinct
+    status, not a call per member of a 10^6-member outline)."""
+    if not statuses:
+        return []
+    bad = {s for s in set(statuses.values()) if status_category(s) not in ("agrees", "missing")}
+    index = model.member_index
+    return sorted(index[m] for m, s in statuses.items() if s in bad and m in index)
 
 
 def _outline(sx: np.ndarray, sy: np.ndarray) -> str:
@@ -629,15 +632,20 @@ def _loads(
     # Implied loads carry the rounding of the claims: an arrow a fiftieth of the largest is noise.
     smallest = 0.02 * largest if css != "loads" else 1e-12 * largest
     unit = model.units.force.symbol
-    neighbours: list[list[int]] = [[] for _ in model.joints]
-    for a, b in model.ends_index.tolist():
-        neighbours[a].append(b)
-        neighbours[b].append(a)
+    loaded = np.flatnonzero(magnitude > smallest)
+    # The members at each loaded joint, in member order (an outline of 10^6 members draws the
+    # implied loads of a few joints: the other joints' members are never looked at).
+    ends = model.ends_index
+    touching = np.isin(ends[:, 0], loaded) | np.isin(ends[:, 1], loaded)
+    neighbours: dict[int, list[int]] = {j: [] for j in loaded.tolist()}
+    for a, b in ends[touching].tolist():
+        if a in neighbours:
+            neighbours[a].append(b)
+        if b in neighbours:
+            neighbours[b].append(a)
     case_loaded = set(arrows)  # joints whose arrows were drawn before this call
     out = [f'<g class="{css}" stroke="{colour}" fill="{colour}" font-size="11.5">']
-    for j in range(len(model.joints)):
-        if magnitude[j] <= smallest:
-            continue
+    for j in loaded.tolist():
         vx, vy = float(vectors[j, ax]), -view.up * float(vectors[j, ay])
         shown = math.hypot(vx, vy)
         if shown < 0.05 * magnitude[j]:
@@ -701,7 +709,12 @@ def _add(a: tuple[float, float] | None, b: tuple[float, float]) -> tuple[float, 
 
 
 def _blocked(
-    neighbours: list[list[int]], sx: np.ndarray, sy: np.ndarray, j: int, dx: float, dy: float
+    neighbours: Mapping[int, list[int]],
+    sx: np.ndarray,
+    sy: np.ndarray,
+    j: int,
+    dx: float,
+    dy: float,
 ) -> bool:
     """Does a member leave joint j within 25 degrees of the screen direction (dx, dy)?"""
     for other in neighbours[j]:

@@ -371,12 +371,15 @@ def member_tables(review: Review, grouped: _CaseRows) -> list[Table]:
     header = tuple(with_unit(recomputed_name if h == "global" else h, unit) for h in MEMBER_COLUMNS)
     tables: list[Table] = []
     member_index = model.member_index
+    ids, id_words = grouped.rows.words("id")
+    if id_words == model.member_ids:  # the comparison's own labels: codes are member positions
+        position_of = np.arange(max(len(id_words), 1))
+    else:
+        position_of = np.array([member_index.get(w, -1) for w in id_words] or [0], np.int64)
     for k, name in enumerate(model.load_names):
         label = _load_label(review, name)
         at = grouped.members.get(name, np.empty(0, dtype=np.int64))
-        ids, id_words = grouped.rows.words("id")
-        of_word = np.array([member_index.get(w, -1) for w in id_words] or [0], dtype=np.int64)
-        positions = of_word[ids[at]]
+        positions = position_of[ids[at]]
         if (np.diff(positions) < 0).any():  # usually in member order
             at = at[np.argsort(positions, kind="stable")]
         reactions = grouped.rows.take(grouped.reactions.get(name, ()))
@@ -573,7 +576,7 @@ def member_statuses(grouped: _CaseRows, load_name: str) -> dict[str, str]:
         map(status_words.__getitem__, statuses[at].tolist()),
         strict=True,
     )
-    if np.unique(ids[at]).size == at.size:  # one claim per member: its status
+    if not at.size or np.bincount(ids[at]).max() == 1:  # one claim per member: its status
         return dict(pairs)
     by_member: dict[str, list[str]] = {}
     for member, status in pairs:
