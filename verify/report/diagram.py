@@ -370,15 +370,12 @@ def _flagged_positions(model: Model, statuses: Mapping[str, str] | None) -> list
 
 
 def _outline(sx: np.ndarray, sy: np.ndarray) -> str:
-    """The convex hull of the joints as drawn (qhull, O(n log n)); a bounding line if flat."""
+    """The convex hull of the joints as drawn; a bounding line if flat."""
     pts = np.column_stack([sx, sy])
     if len(pts) == 0:
         return ""
-    try:
-        from scipy.spatial import ConvexHull
-
-        ring = pts[ConvexHull(pts).vertices]
-    except Exception:  # qhull refuses flat or tiny sets: draw their extent instead
+    ring = convex_hull(pts)
+    if len(ring) < 3:  # flat or a single point: draw the extent instead
         lo, hi = pts.min(axis=0), pts.max(axis=0)
         ring = np.array([lo, [hi[0], lo[1]], hi, [lo[0], hi[1]]])
     points = " ".join(f"{_n(x)},{_n(y)}" for x, y in ring)
@@ -386,6 +383,56 @@ def _outline(sx: np.ndarray, sy: np.ndarray) -> str:
         f'<polygon class="outline" points="{points}" fill="#f3f3f3" stroke="#8C8C8C" '
         'stroke-width="1.5"/>'
     )
+
+
+def convex_hull(pts: np.ndarray) -> np.ndarray:
+    """The corners of the convex hull of 2D points, anticlockwise (y up) from the lowest-left
+    one; points on an edge are not corners.
+
+    Quickhull, each step on whole arrays: a truss's outline has a handful of corners, so a few
+    passes over the joints (qhull's module cost more to import than this takes at 10^6 joints).
+    """
+    pts = np.asarray(pts, dtype=float)
+    if len(pts) == 0:
+        return pts.reshape(0, 2)
+    order = np.lexsort((pts[:, 1], pts[:, 0]))
+    a, b = pts[order[0]], pts[order[-1]]  # leftmost (lowest of them), rightmost (highest)
+    if np.array_equal(a, b):
+        return a.reshape(1, 2)
+    side = _cross(a, b, pts)
+    ring = [a, *_hull_side(a, b, pts[side < 0]), b, *_hull_side(b, a, pts[side > 0])]
+    return np.array(ring)
+
+
+def _cross(a: np.ndarray, b: np.ndarray, pts: np.ndarray) -> np.ndarray:
+    """Twice the signed area of (a, b, p) for each p: positive when p is left of a -> b."""
+    return (b[0] - a[0]) * (pts[:, 1] - a[1]) - (b[1] - a[1]) * (pts[:, 0] - a[0])
+
+
+def _hull_side(a: np.ndarray, b: np.ndarray, pts: np.ndarray) -> list[np.ndarray]:
+    """Hull corners strictly right of a -> b, from a towards b (anticlockwise with y up)."""
+    corners: list[np.ndarray] = []
+    # Depth first with an explicit stack: the part towards `a` is taken first, then the corner.
+    pending: list[tuple[np.ndarray, np.ndarray, np.ndarray] | np.ndarray] = [(a, b, pts)]
+    while pending:
+        item = pending.pop()
+        if not isinstance(item, tuple):
+            corners.append(item)
+            continue
+        p, q, candidates = item
+        if not len(candidates):
+            continue
+        distance = -_cross(p, q, candidates)
+        if distance.max() <= 0:
+            continue
+        # Of points equally far (a chord of a grid lies parallel to p -> q) only the ends are
+        # corners: the one furthest along p -> q.
+        tied = candidates[distance == distance.max()]
+        far = tied[int(np.argmax((tied - p) @ (q - p)))]
+        first = candidates[-_cross(p, far, candidates) > 0]
+        second = candidates[-_cross(far, q, candidates) > 0]
+        pending.extend([(far, q, second), far, (p, far, first)])
+    return corners
 
 
 def _halo() -> str:
