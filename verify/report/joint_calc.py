@@ -81,12 +81,17 @@ def joint_calc(
 
     steps: list[Step] = []
     solved: set[int] = set()
-    # Members at each joint, built once (a scan of every member per step made large reports
-    # quadratic in the truss size).
-    at_joint: dict[int, list[int]] = {}
-    for i, (start, end) in enumerate(model.ends_index.tolist()):
-        at_joint.setdefault(start, []).append(i)
-        at_joint.setdefault(end, []).append(i)
+    # Members at each joint a step shows, in member order, found once (a scan of every member
+    # per step made large reports quadratic in the truss size; a report shows the first steps).
+    shown = [model.joint_index[s.joints[0]] for s in solution.steps if s.kind == "joint"]
+    ends = model.ends_index
+    at_joint: dict[int, list[int]] = {j: [] for j in shown}
+    touching = np.flatnonzero(np.isin(ends[:, 0], shown) | np.isin(ends[:, 1], shown))
+    for i, start, end in zip(touching.tolist(), *ends[touching].T.tolist(), strict=True):
+        if start in at_joint:
+            at_joint[start].append(i)
+        if end in at_joint:
+            at_joint[end].append(i)
     for n, step in enumerate(solution.steps, 1):
         if step.kind == "reactions":
             equations: list[Equation] = []
