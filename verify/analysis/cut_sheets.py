@@ -847,10 +847,15 @@ class CalcSheets:
             coefficients = tuple(
                 (labels[k], float(G[row, k])) for k in range(len(labels)) if abs(G[row, k]) > 1e-12
             )
+            # only the first MAX_ITEMS are listed: the others are counted (10^5 loaded joints)
+            at = np.flatnonzero(contributions[:, row] != 0)
             nonzero = [
                 (model.joints[j].id, float(c))
-                for j, c in zip(loaded.tolist(), contributions[:, row].tolist(), strict=True)
-                if c != 0
+                for j, c in zip(
+                    loaded[at[:MAX_ITEMS]].tolist(),
+                    contributions[at[:MAX_ITEMS], row].tolist(),
+                    strict=True,
+                )
             ]
             fresh = [k for k in range(len(labels)) if abs(G[row, k]) > 1e-12 and k not in solved]
             solves = None
@@ -861,8 +866,8 @@ class CalcSheets:
                 OverallRow(
                     title,
                     coefficients,
-                    tuple(nonzero[:MAX_ITEMS]),
-                    max(len(nonzero) - MAX_ITEMS, 0),
+                    tuple(nonzero),
+                    max(at.size - MAX_ITEMS, 0),
                     float(E[row, column]),
                     solves,
                 )

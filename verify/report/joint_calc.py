@@ -83,10 +83,10 @@ def joint_calc(
     solved: set[int] = set()
     # Members at each joint a step shows, in member order, found once (a scan of every member
     # per step made large reports quadratic in the truss size; a report shows the first steps).
-    shown = [model.joint_index[s.joints[0]] for s in solution.steps if s.kind == "joint"]
+    stepped = [model.joint_index[s.joints[0]] for s in solution.steps if s.kind == "joint"]
     ends = model.ends_index
-    at_joint: dict[int, list[int]] = {j: [] for j in shown}
-    touching = np.flatnonzero(np.isin(ends[:, 0], shown) | np.isin(ends[:, 1], shown))
+    at_joint: dict[int, list[int]] = {j: [] for j in stepped}
+    touching = np.flatnonzero(np.isin(ends[:, 0], stepped) | np.isin(ends[:, 1], stepped))
     for i, start, end in zip(touching.tolist(), *ends[touching].T.tolist(), strict=True):
         if start in at_joint:
             at_joint[start].append(i)
