@@ -245,10 +245,16 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     # Per joint: its columns and the d x k block of direction cosines acting on it, as views
     # into one array sorted by joint (vectorised; a loop per joint cost ~10 us each at 10^5).
     r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
-    inc_joint = np.concatenate([ends[:, 0], ends[:, 1], r_joint])
-    inc_col = np.concatenate([np.arange(b), np.arange(b), b + np.arange(r)])
-    inc_vec = np.concatenate([u, -u, r_dir]) if b + r else np.zeros((0, d))
-    order = np.lexsort((inc_col, inc_joint))  # by joint, then column: unknowns in member order
+    # Listed by column (each member's start, then its end; then the reactions), so a stable
+    # sort by joint puts each joint's columns in column order: unknowns in member order.
+    inc_joint = np.concatenate([ends.ravel(), r_joint])
+    inc_col = np.concatenate([np.repeat(np.arange(b), 2), b + np.arange(r)])
+    inc_vec = (
+        np.concatenate([np.stack([u, -u], axis=1).reshape(2 * b, d), r_dir])
+        if b + r
+        else np.zeros((0, d))
+    )
+    order = np.argsort(inc_joint, kind="stable")
     inc_col, inc_vec = inc_col[order], np.ascontiguousarray(inc_vec[order].T)
     ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=n_j))])
 
