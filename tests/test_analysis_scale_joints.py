@@ -17,8 +17,8 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from test_joints import exact_solve
-from trussgen import howe, make_model, pratt, random_simple_truss
+from test_joints import exact_solve, k33_off_conic
+from trussgen import howe, make_model, pratt, random_simple_truss, truss_case
 
 from verify.analysis.joints import DEPENDENT_RTOL, JointStep, JointSteps, solve_joints
 from verify.analysis.run import AnalysisRun
@@ -244,3 +244,30 @@ def test_steps_read_like_the_tuple_they_stand_for(
     ]
     if reactions_first:  # a step kept as it is comes first, before the plane steps
         assert whole[0].kind == "reactions" and steps[0] == whole[0]
+
+
+def _tetrahedron() -> dict:
+    return truss_case(
+        {"A": [0, 0, 0], "B": [4, 0, 0], "C": [0, 4, 0], "D": [1, 1, 4]},
+        [("A", "B"), ("A", "C"), ("A", "D"), ("B", "C"), ("B", "D"), ("C", "D")],
+        {"A": ["x", "y", "z"], "B": ["y", "z"], "C": ["z"]},
+        {"P": {"D": [1, 2, -3]}},
+    )
+
+
+@pytest.mark.parametrize(
+    ("case", "plain_steps"),
+    [(pratt(8), True), (howe(6), True), (_tetrahedron(), False), (k33_off_conic(), False)],
+    ids=["pratt", "howe", "3d-tetrahedron", "k33-simultaneous"],
+)
+def test_joint_order_between_steps_kept_as_they_are(case: dict, plain_steps: bool) -> None:
+    """The joint order read from the integers equals the one read from the steps, also where
+    steps kept as they are (reactions, a last joint with one unknown, 3D joints, a simultaneous
+    step) come between the plane ones or take their place."""
+    solution = solve_joints(make_model(case))
+    whole = tuple(solution.steps)
+    assert whole[0].kind == "reactions"
+    if plain_steps:  # plane steps, then a joint step kept as it is: the last joint's one unknown
+        assert whole[-1].kind == "joint" and len(whole[-1].unknowns) == 1
+        assert all(s.kind == "joint" and len(s.unknowns) == 2 for s in whole[1:-1])
+    assert solution.order == [j for s in whole if s.kind == "joint" for j in s.joints]

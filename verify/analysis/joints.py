@@ -99,11 +99,17 @@ class JointSteps(Sequence[JointStep]):
         return self._all[index]
 
     def joint_order(self) -> list[str]:
-        """Ids of the joints solved one by one, in the order they were solved."""
-        if not any(step.kind == "joint" for _, step in self._others):
-            joints = self._joints
-            return [joints[j].id for j in self._plain[0::3]]
-        return [j for s in self if s.kind == "joint" for j in s.joints]
+        """Ids of the joints solved one by one, in the order they were solved (read from the
+        integers: no JointStep is made)."""
+        joints, plain = self._joints, self._plain
+        order: list[str] = []
+        done = 0  # plane steps listed
+        for before, step in [*self._others, (len(plain) // 3, None)]:
+            order += [joints[j].id for j in plain[3 * done : 3 * before : 3]]
+            done = before
+            if step is not None and step.kind == "joint":
+                order += step.joints
+        return order
 
 
 @dataclass(frozen=True)
