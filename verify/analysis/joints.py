@@ -303,7 +303,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     n0_v = neg_v[0] if ncols else known_v
     n1_v = neg_v[1] if ncols > 1 else n0_v
     plane = d == 2
-    plain_extend = plain.extend
+    plain_append = plain.append
 
     def mark(cols: Iterable[int]) -> None:
         for c in cols:
@@ -397,7 +397,9 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                         t_v[k][c1] = (b2 * rx[k] - a2 * ry[k]) / det2
                         t_v[k][c2] = (a1 * ry[k] - b1 * rx[k]) / det2
             if solved:
-                plain_extend((joint, c1, c2))
+                plain_append(joint)
+                plain_append(c1)
+                plain_append(c2)
                 # mark((c1, c2)) written out: it runs for every joint of a large plane truss.
                 # This joint has no unknowns left; of the joints at the other ends of c1 and c2
                 # (this joint again for a reaction) those left with at most 2 unknowns are queued,
