@@ -239,6 +239,9 @@ def test_steps_read_like_the_tuple_they_stand_for(
     assert steps[::2] == whole[::2]
     assert [steps[i] for i in range(-len(whole), len(whole))] == list(whole + whole)
     assert tuple(steps) == whole
+    # Equal like the tuple it stands for (a JointSolution compares its steps by value).
+    assert steps == whole and steps == solve_joints(model, run).steps
+    assert steps != whole[:-1] and steps != list(whole)
     assert solve_joints(model, run).order == [
         j for s in whole if s.kind == "joint" for j in s.joints
     ]

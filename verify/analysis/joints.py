@@ -100,6 +100,12 @@ class JointSteps(Sequence[JointStep]):
             self._all = tuple(self)
         return self._all[index]
 
+    def __eq__(self, other: object) -> bool:
+        """Equal to the same steps, as JointSteps or as a tuple (like the tuple it stands for)."""
+        if isinstance(other, JointSteps | tuple):
+            return tuple(self) == tuple(other)
+        return NotImplemented
+
     def joint_order(self) -> list[str]:
         """Ids of the joints solved one by one, in the order they were solved (read from the
         integers: no JointStep is made)."""
