@@ -57,13 +57,13 @@ class JointSteps(Sequence[JointStep]):
 
     def __init__(
         self,
-        joint_ids: Sequence[Any],
+        joints: Sequence[Any],
         plain: Sequence[int],
         others: list[tuple[int, JointStep]],
     ) -> None:
-        # joint_ids: the model's joints (anything with an .id); plain: joint, c1, c2 per plane
-        # step; others: (plane steps before it, step) for every other step, in order.
-        self._joints = joint_ids
+        # joints: the model's joints (read for their .id); plain: joint, c1, c2 per plane step;
+        # others: (plane steps before it, step) for every other step, in order.
+        self._joints = joints
         # Kept as 8-byte integers: the list's int objects cost ~36 bytes each (54 MB at 10^6).
         self._plain = array("q", plain)
         self._others = others
