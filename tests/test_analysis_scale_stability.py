@@ -50,14 +50,13 @@ def _defective_pratt(panels: int) -> dict:
 
 
 @pytest.mark.parametrize("defective", [False, True])
-def test_estimate_made_beside_the_child_changes_nothing(
+def test_screen_with_a_child_equals_the_screen_in_one_process(
     monkeypatch: pytest.MonkeyPatch, defective: bool
 ) -> None:
-    """With a child reading the pivot ratio, this process makes the conditioning estimate
-    meanwhile, before knowing whether it is wanted; in one process the ratio comes first and the
-    estimate only for a sound factor. Both give the same result, figure for figure, without a
-    warning (the defective factor's estimate is made and dropped), and the estimate is the
-    sigma ratio of a dense SVD to the accuracy of its power iterations."""
+    """The square screen with the pivot ratio read in a child and all in one process: the same
+    result, figure for figure, without a warning, sound or defective (a mechanism found by the
+    pivot ratio, with no conditioning figure); the conditioning estimate is the sigma ratio of a
+    dense SVD to the accuracy of its power iterations."""
     model = make_model(_defective_pratt(40) if defective else pratt(40, load=3.0))
     results = []
     for serial in (False, True):

@@ -370,13 +370,12 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         )
         M = (A @ sp.diags(w) @ A.T).tocsc()
         spec = "COLAMD"
-    rho_ahead: float | None = None
     try:
         lu = spla.splu(M, permc_spec=spec)
         if cols == dofs:
             # The global statics solve factors the same matrix with the same ordering: share it.
             run.keep_lu(lu)
-            ratio, rho_ahead = _kept_pivot_ratio(lu, A)
+            ratio = _kept_pivot_ratio(lu)
         else:
             ratio = pivot_ratio(lu)
         singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
@@ -393,7 +392,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     else:
         m, rank = 0, dofs
         if cols == dofs:
-            rho = rho_ahead if rho_ahead is not None else _conditioning_estimate(A, lu)
+            rho = _conditioning_estimate(A, lu)
             scaled = rho * extent**2
             ill = bool(scaled < ILL_CONDITIONED_SCALED)
             notes.append(
@@ -427,31 +426,18 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     )
 
 
-def _kept_pivot_ratio(lu: spla.SuperLU, A: sp.csc_matrix) -> tuple[float, float | None]:
-    """pivot_ratio of an LU the run keeps, read in a child process where one may be used, and
-    meanwhile, in this process, the conditioning estimate of A with the same LU (None when no
-    child was started: the caller then makes it only if the ratio says the factor is sound).
+def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
+    """pivot_ratio of an LU the run keeps, read in a child process where one may be used.
 
     Reading lu.U makes CSC copies of both factors, and scipy keeps them on the factor object for
     as long as it lives (135 MB on the 10^5-member 3D grid, held to the end of a check). A forked
     child reads the same factors and returns one number; the kept factor carries no copies.
-    The estimate (a chain of triangular solves, each needing the last) is the work this process
-    has while the child reads, so it is made before the ratio says whether it is wanted: a
-    factor the ratio finds singular costs the estimate for nothing, a sound one gets both in
-    the time of the longer (the same two figures either way).
     """
     child = Forked.start(pivot_ratio, lu)
     try:
-        if not child.forked:
-            return child.result(), None
-        # Made before it is known to be wanted: a nearly singular factor may overflow here, and
-        # the figure is then dropped, so numpy's warnings about it would only mislead.
-        with np.errstate(all="ignore"):
-            rho = _conditioning_estimate(A, lu)
-        try:
-            return child.result(), rho
-        except ForkFailed:  # the child could not answer (out of memory?): read it here after all
-            return pivot_ratio(lu), rho
+        return child.result()
+    except ForkFailed:  # the child could not answer (out of memory?): read it here after all
+        return pivot_ratio(lu)
     finally:
         child.cancel()
 
