@@ -6,6 +6,7 @@ scipy's own factorisation of the same matrix gives, with or without a child proc
 from __future__ import annotations
 
 import re
+import warnings
 
 import numpy as np
 import pytest
@@ -14,7 +15,7 @@ from trussgen import make_model, pratt
 
 from verify.analysis.run import AnalysisRun, lu_ordering
 from verify.analysis.stability import Classification, solve_stability
-from verify.forking import SERIAL_ENV
+from verify.forking import SERIAL_ENV, fork_allowed
 
 
 @pytest.mark.parametrize("serial", [False, True])
@@ -37,3 +38,44 @@ def test_kept_factor_pivot_ratio_is_scipys(monkeypatch: pytest.MonkeyPatch, seri
     # The run kept the factor for the global solve; it still solves.
     x = run.equilibrium_lu().solve(-model.load_matrix())
     np.testing.assert_allclose(A @ x, -model.load_matrix(), atol=1e-9)
+
+
+def _defective_pratt(panels: int) -> dict:
+    """Square A with a mechanism: panel 2 loses its diagonal, panel 3 gets a second one (the
+    LU does not fail outright, its pivot ratio shows the singularity)."""
+    case = pratt(panels, load=3.0)
+    del case["members"]["U1L2"]
+    case["members"]["L2U3"] = ["L2", "U3"]
+    return case
+
+
+@pytest.mark.parametrize("defective", [False, True])
+def test_screen_with_a_child_equals_the_screen_in_one_process(
+    monkeypatch: pytest.MonkeyPatch, defective: bool
+) -> None:
+    """The square screen with the pivot ratio read in a child and all in one process: the same
+    result, figure for figure, without a warning, sound or defective (a mechanism found by the
+    pivot ratio, with no conditioning figure); the conditioning estimate is the sigma ratio of a
+    dense SVD to the accuracy of its power iterations."""
+    model = make_model(_defective_pratt(40) if defective else pratt(40, load=3.0))
+    results = []
+    for serial in (False, True):
+        if serial:
+            monkeypatch.setenv(SERIAL_ENV, "1")
+        else:
+            monkeypatch.delenv(SERIAL_ENV, raising=False)
+            assert fork_allowed()
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            results.append(solve_stability(model, dense_limit=10, run=AnalysisRun(model)))
+    forked, alone = results
+    assert forked.method == alone.method == "sparse-screen"
+    assert forked.as_dict() == alone.as_dict()
+    assert forked.classification is (
+        Classification.UNSTABLE if defective else Classification.STABLE_DETERMINATE
+    )
+    if defective:
+        assert forked.conditioning_ratio is None
+    else:
+        sigma = np.linalg.svd(AnalysisRun(model).equilibrium_matrix().toarray(), compute_uv=False)
+        assert forked.conditioning_ratio == pytest.approx(sigma.min() / sigma.max(), rel=0.05)

@@ -15,10 +15,12 @@ The order depends only on geometry, so it is found once and applied to every loa
 
 from __future__ import annotations
 
+from array import array
 from collections import deque
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Any, NamedTuple
+from itertools import islice
+from typing import Any, NamedTuple, overload
 
 import numpy as np
 import scipy.sparse.linalg as spla
@@ -44,10 +46,84 @@ class JointStep(NamedTuple):
     partial: bool = False  # some unknowns at this joint stay for later steps
 
 
+class JointSteps(Sequence[JointStep]):
+    """The steps of one solve, read like a tuple of JointStep.
+
+    The plane two-unknown steps, nearly all of them on a large plane truss, are kept as flat
+    (joint, unknown, unknown) integers and made into JointStep tuples only when read: a 10^6-member
+    truss takes 5x10^5 steps, which the JSON output reads only for the joint order and a report
+    reads only as far as the steps it shows.
+    """
+
+    def __init__(
+        self,
+        joints: Sequence[Any],
+        plain: Sequence[int],
+        others: list[tuple[int, JointStep]],
+    ) -> None:
+        # joints: the model's joints (read for their .id); plain: joint, c1, c2 per plane step;
+        # others: (plane steps before it, step) for every other step, in order.
+        self._joints = joints
+        # Kept as 8-byte integers: the list's int objects cost ~36 bytes each (54 MB at 10^6).
+        self._plain = array("q", plain)
+        self._others = others
+        self._all: tuple[JointStep, ...] | None = None
+
+    def __len__(self) -> int:
+        return len(self._plain) // 3 + len(self._others)
+
+    def __iter__(self) -> Iterator[JointStep]:
+        if self._all is not None:
+            yield from self._all
+            return
+        joints, plain = self._joints, self._plain
+        done = 0  # plane steps yielded
+        for before, step in [*self._others, (len(plain) // 3, None)]:
+            for k in range(3 * done, 3 * before, 3):
+                yield JointStep("joint", (joints[plain[k]].id,), (plain[k + 1], plain[k + 2]))
+            done = before
+            if step is not None:
+                yield step
+
+    @overload
+    def __getitem__(self, index: int) -> JointStep: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> tuple[JointStep, ...]: ...
+
+    def __getitem__(self, index: int | slice) -> JointStep | tuple[JointStep, ...]:
+        if isinstance(index, slice) and self._all is None:
+            start, stop, stride = index.indices(len(self))
+            if stride == 1:  # the first steps a report shows: made without making the rest
+                return tuple(islice(self, start, stop))
+        if self._all is None:
+            self._all = tuple(self)
+        return self._all[index]
+
+    def __eq__(self, other: object) -> bool:
+        """Equal to the same steps, as JointSteps or as a tuple (like the tuple it stands for)."""
+        if isinstance(other, JointSteps | tuple):
+            return tuple(self) == tuple(other)
+        return NotImplemented
+
+    def joint_order(self) -> list[str]:
+        """Ids of the joints solved one by one, in the order they were solved (read from the
+        integers: no JointStep is made)."""
+        joints, plain = self._joints, self._plain
+        order: list[str] = []
+        done = 0  # plane steps listed
+        for before, step in [*self._others, (len(plain) // 3, None)]:
+            order += [joints[j].id for j in plain[3 * done : 3 * before : 3]]
+            done = before
+            if step is not None and step.kind == "joint":
+                order += step.joints
+        return order
+
+
 @dataclass(frozen=True)
 class JointSolution:
     forces: ForceResult
-    steps: tuple[JointStep, ...]
+    steps: Sequence[JointStep]
     reactions_first: bool
     moment_point: tuple[float, ...] | None  # where overall moments were taken, if reactions first
     moment_joint: str | None
@@ -57,6 +133,8 @@ class JointSolution:
 
     @property
     def order(self) -> list[str]:
+        if isinstance(self.steps, JointSteps):
+            return self.steps.joint_order()
         return [j for s in self.steps if s.kind == "joint" for j in s.joints]
 
 
@@ -148,7 +226,13 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     # one flat row per column through a memoryview: no list per unknown, no copy at the end.
     t_cols = np.full((ncols, n_unknowns), np.nan)
     known = np.zeros(n_unknowns, dtype=bool)
-    steps: list[JointStep] = []
+    # The steps (JointSteps): plane two-unknown steps as flat integers, the others as they are.
+    plain: list[int] = []
+    others: list[tuple[int, JointStep]] = []
+
+    def add(step: JointStep) -> None:
+        others.append((len(plain) // 3, step))
+
     notes: list[str] = []
 
     first = run.overall_reactions()
@@ -158,7 +242,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         t_cols[:, b:] = R.T
         known[b:] = True
         moment_point = tuple(float(x) for x in point)
-        steps.append(JointStep("reactions", (moment_joint,), tuple(range(b, b + r))))
+        add(JointStep("reactions", (moment_joint,), tuple(range(b, b + r))))
     elif r:
         determinate = 3 if d == 2 else 6
         why = f"more than {determinate}" if r > determinate else "parallel or concurrent"
@@ -175,10 +259,16 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     # Per joint: its columns and the d x k block of direction cosines acting on it, as views
     # into one array sorted by joint (vectorised; a loop per joint cost ~10 us each at 10^5).
     r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
-    inc_joint = np.concatenate([ends[:, 0], ends[:, 1], r_joint])
-    inc_col = np.concatenate([np.arange(b), np.arange(b), b + np.arange(r)])
-    inc_vec = np.concatenate([u, -u, r_dir]) if b + r else np.zeros((0, d))
-    order = np.lexsort((inc_col, inc_joint))  # by joint, then column: unknowns in member order
+    # Listed by column (each member's start, then its end; then the reactions), so a stable
+    # sort by joint puts each joint's columns in column order: unknowns in member order.
+    inc_joint = np.concatenate([ends.ravel(), r_joint])
+    inc_col = np.concatenate([np.repeat(np.arange(b), 2), b + np.arange(r)])
+    inc_vec = (
+        np.concatenate([np.stack([u, -u], axis=1).reshape(2 * b, d), r_dir])
+        if b + r
+        else np.zeros((0, d))
+    )
+    order = np.argsort(inc_joint, kind="stable")
     inc_col, inc_vec = inc_col[order], np.ascontiguousarray(inc_vec[order].T)
     ptr = np.concatenate([[0], np.cumsum(np.bincount(inc_joint, minlength=n_j))])
 
@@ -209,15 +299,19 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     ptr_v = _view(ptr)
     start_v = _view(np.ascontiguousarray(ends[:, 0]))
     end_v = _view(np.ascontiguousarray(ends[:, 1]))
+    # The sum of the two end joints of each column (twice the joint for a reaction): the joint
+    # at the other end of a column from the one being solved is one subtraction away.
+    ends_sum = np.concatenate([ends[:, 0] + ends[:, 1], 2 * r_joint])
+    sum_v = _view(ends_sum)
     r_joint_l = r_joint.tolist()
     primary_append, secondary_append = primary.append, secondary.append
+    primary_popleft, secondary_popleft = primary.popleft, secondary.popleft
     t0_v = t_v[0] if ncols else known_v
     t1_v = t_v[1] if ncols > 1 else t0_v
     n0_v = neg_v[0] if ncols else known_v
     n1_v = neg_v[1] if ncols > 1 else n0_v
-    # A step made by tuple.__new__ directly: JointStep(...) runs the named tuple's Python-level
-    # __new__, which at 10^6 members (5x10^5 steps) cost more than the tuple itself.
-    new_tuple = tuple.__new__
+    plane = d == 2
+    plain_append = plain.append
 
     def mark(cols: Iterable[int]) -> None:
         for c in cols:
@@ -231,29 +325,30 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                 elif left == d + 1:
                     secondary_append(j)
 
-    while primary or secondary:
-        joint = primary.popleft() if primary else secondary.popleft()
+    while True:
+        if primary:
+            joint = primary_popleft()
+        elif secondary:
+            joint = secondary_popleft()
+        else:
+            break
         count = unknown_count[joint]
-        if count == 0 or count > d + 1:
-            continue
-        if count == d + 1:
-            key = (joint, count)
-            if key in tried_partial or fruitless >= PARTIAL_GIVE_UP:
-                continue
-            tried_partial.add(key)
-        if d == 2 and count == 2:
+        if count == 2 and plane:
             # The two-unknown joint of a plane truss, written out for one and two load columns
             # (each right-hand side is its own running sum: the order of the terms of each sum
             # is the incidence order whatever the number of columns).
             c1 = c2 = -1
             a1 = b1 = a2 = b2 = 0.0
-            row = 2 * joint
+            row = joint + joint
             if ncols == 2:
                 x0, y0, x1, y1 = n0_v[row], n0_v[row + 1], n1_v[row], n1_v[row + 1]
                 for p in range(ptr_v[joint], ptr_v[joint + 1]):
                     c = inc_col_v[p]
                     if known_v[c]:
-                        ax, ay, k0, k1 = vx_v[p], vy_v[p], t0_v[c], t1_v[c]
+                        ax = vx_v[p]
+                        ay = vy_v[p]
+                        k0 = t0_v[c]
+                        k1 = t1_v[c]
                         x0 -= ax * k0
                         y0 -= ay * k0
                         x1 -= ax * k1
@@ -274,7 +369,9 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                 for p in range(ptr_v[joint], ptr_v[joint + 1]):
                     c = inc_col_v[p]
                     if known_v[c]:
-                        ax, ay, k0 = vx_v[p], vy_v[p], t0_v[c]
+                        ax = vx_v[p]
+                        ay = vy_v[p]
+                        k0 = t0_v[c]
                         x0 -= ax * k0
                         y0 -= ay * k0
                     elif c1 < 0:
@@ -308,29 +405,38 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                         t_v[k][c1] = (b2 * rx[k] - a2 * ry[k]) / det2
                         t_v[k][c2] = (a1 * ry[k] - b1 * rx[k]) / det2
             if solved:
-                steps.append(new_tuple(JointStep, ("joint", (joints[joint].id,), (c1, c2), False)))
-                # mark((c1, c2)) written out: it runs for every joint of a large plane truss
-                # (the same joints queued in the same order: c1's ends, then c2's).
+                plain_append(joint)
+                plain_append(c1)
+                plain_append(c2)
+                # mark((c1, c2)) written out: it runs for every joint of a large plane truss.
+                # This joint has no unknowns left; of the joints at the other ends of c1 and c2
+                # (this joint again for a reaction) those left with at most 2 unknowns are queued,
+                # c1's first. mark() would also queue this joint once more, after its count fell
+                # to 1, which its turn would then pass over (count 0): that entry is left out.
                 known_v[c1] = known_v[c2] = True
-                for c in (c1, c2):
-                    if c < b:
-                        j = start_v[c]
-                        left = unknown_count[j] - 1
-                        unknown_count[j] = left
-                        if 0 < left <= 2:
-                            primary_append(j)
-                        elif left == 3:
-                            secondary_append(j)
-                        j = end_v[c]
-                    else:
-                        j = r_joint_l[c - b]
-                    left = unknown_count[j] - 1
-                    unknown_count[j] = left
-                    if 0 < left <= 2:
-                        primary_append(j)
-                    elif left == 3:
-                        secondary_append(j)
+                j = sum_v[c1] - joint
+                left = unknown_count[j] - 1
+                unknown_count[j] = left
+                if 0 < left <= 2:
+                    primary_append(j)
+                elif left == 3:
+                    secondary_append(j)
+                j = sum_v[c2] - joint
+                left = unknown_count[j] - 1
+                unknown_count[j] = left
+                if 0 < left <= 2:
+                    primary_append(j)
+                elif left == 3:
+                    secondary_append(j)
+                unknown_count[joint] = 0
                 continue
+        elif count == 0 or count > d + 1:
+            continue
+        if count == d + 1:
+            key = (joint, count)
+            if key in tried_partial or fruitless >= PARTIAL_GIVE_UP:
+                continue
+            tried_partial.add(key)
         p0, p1 = ptr_v[joint], ptr_v[joint + 1]
         cols_j = inc_col[p0:p1]
         is_known = known[cols_j]
@@ -354,7 +460,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
                     t_cols[:, unknown[1]] = (a * rhs[1] - c * rhs[0]) / det
                 else:
                     t_cols[:, unknown] = np.linalg.solve(M, rhs).T
-                steps.append(JointStep("joint", (joints[joint].id,), tuple(unknown)))
+                add(JointStep("joint", (joints[joint].id,), tuple(unknown)))
                 mark(unknown)
                 continue
         # Which unknowns does this joint determine? Those with no component in null(M).
@@ -372,7 +478,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         solution = vh[:rank].T @ ((left[:, :rank].T @ rhs) / sv[:rank, None])
         chosen = [unknown[k] for k in determined]
         t_cols[:, chosen] = solution[determined].T
-        steps.append(
+        add(
             JointStep(
                 "joint",
                 (joints[joint].id,),
@@ -390,7 +496,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         if len(rest) == A.shape[1] == A.shape[0]:
             # Nothing could be solved joint by joint: the simultaneous step is the whole system.
             t = run.equilibrium_lu().solve(-F).reshape(n_unknowns, -1)
-            steps.append(
+            add(
                 JointStep(
                     "simultaneous", tuple(j.id for j in model.joints), tuple(int(c) for c in rest)
                 )
@@ -402,7 +508,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
             residual = A @ t + F
             return JointSolution(
                 forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
-                steps=tuple(steps),
+                steps=JointSteps(model.joints, plain, others),
                 reactions_first=first is not None,
                 moment_point=moment_point,
                 moment_joint=moment_joint,
@@ -423,16 +529,17 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
             normal = (sub.T @ sub).tocsc()
             solution = spla.splu(normal, permc_spec="MMD_AT_PLUS_A").solve(sub.T @ rhs)
         t[rest] = solution.reshape(len(rest), -1)
-        steps.append(
+        add(
             JointStep(
                 "simultaneous",
                 tuple(model.joints[j].id for j in joints_involved),
                 tuple(int(c) for c in rest),
             )
         )
+        solved_joints = len(plain) // 3 + sum(s.kind == "joint" for _, s in others)
         notes.append(
             f"no joint with at most {d} unknowns remains after "
-            f"{sum(1 for s in steps if s.kind == 'joint')} joint(s): {len(rest)} forces at "
+            f"{solved_joints} joint(s): {len(rest)} forces at "
             f"{len(joints_involved)} joints are solved simultaneously (compound or complex truss)"
         )
     A = run.equilibrium_matrix()
@@ -440,7 +547,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     max_residual = float(np.abs(residual).max()) if residual.size else 0.0
     return JointSolution(
         forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
-        steps=tuple(steps),
+        steps=JointSteps(model.joints, plain, others),
         reactions_first=first is not None,
         moment_point=moment_point,
         moment_joint=moment_joint,
