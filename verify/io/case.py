@@ -297,7 +297,12 @@ def build_model(
     _read_parameters(ctx, data.get("parameters"))
     joints = _read_joints(ctx, data.get("joints"), base)
     dim = _dimension(ctx, joints)
-    joint_ids = {j.id for j in joints}
+    bulk = ctx.bulk
+    joint_ids = (
+        set(bulk.joint_ids)  # the ids of a table read in bulk: no attribute read per joint
+        if bulk.joint_ids is not None and len(bulk.joint_ids) == len(joints)
+        else {j.id for j in joints}
+    )
     area_unit, modulus_unit = _stiffness_units(ctx, data.get("units"))
     defaults = _read_stiffness_defaults(ctx, data.get("stiffness"), units, area_unit, modulus_unit)
     members = _read_members(
@@ -323,7 +328,6 @@ def build_model(
     _check_geometry(ctx, joints, members, dim)
     # Every joint at a member end (both tables read in bulk, the common large case): no joint or
     # load to name below, found from the end positions instead of a set of 2x10^6 ids.
-    bulk = ctx.bulk
     every_joint_used = (
         bulk.xyz is not None
         and bulk.ends is not None
