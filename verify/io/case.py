@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from functools import cached_property, partial
 from itertools import repeat
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -144,6 +144,13 @@ class _Bulk:
     ends: Any = None  # members x 2, positions in joint_ids
     joint_index: dict[str, int] | None = None  # joint id -> position in joint_ids
     member_index: dict[str, int] | None = None  # member id -> row of the members table
+    id_array: Any = None  # joint_ids as a numpy array of objects, once made
+
+    def id_strings(self, positions: Any) -> list[str]:
+        """The ids at `positions` in joint_ids, as the very strings of joint_ids."""
+        if self.id_array is None:
+            self.id_array = np.array(self.joint_ids, dtype=object)
+        return cast("list[str]", self.id_array[positions].tolist())
 
     def positions(self, labels: Any) -> Any:
         """The position of each label in joint_ids (-1: none), looked up in joint_index."""
@@ -988,6 +995,9 @@ def _fast_members(
         ends = np.column_stack([ctx.bulk.positions(starts), ctx.bulk.positions(stops)])
         if (ends < 0).any():
             return None
+        # The joint tables' own id strings at the member ends (equal texts): the members table's
+        # copies, two per member, are freed with the frame (about 100 MB per 10^6 members).
+        starts, stops = ctx.bulk.id_strings(ends[:, 0]), ctx.bulk.id_strings(ends[:, 1])
     elif not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
         return None
     eas: Any = repeat(default_ea, len(ids))
@@ -1460,7 +1470,6 @@ def _fast_loads(
     codes, names = (
         pd.factorize(keys, sort=False) if keys is not None else (np.zeros(len(joints), int), [])
     )
-    position = None
     if ctx.bulk.joint_index is not None and len(ctx.bulk.joint_index) == len(joint_ids):
         position = ctx.bulk.positions(joints)
         if (position < 0).any():
@@ -1469,6 +1478,7 @@ def _fast_loads(
         pairs = np.sort(position * max(len(names), 1) + codes)
         if (pairs[1:] == pairs[:-1]).any():
             return False
+        joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
     elif (
         not frame["joint"].isin(joint_ids).all()
         or frame.duplicated(subset=["joint"] + (["case"] if keys is not None else [])).any()
