@@ -70,6 +70,10 @@ def test_rows_split_when_asked_read_as_the_split_lists(
     eager = Grid(rows, list(range(len(rows))), None, decimal_comma=False)
     assert len(lazy.rows) == len(rows) and list(lazy.rows) == rows
     assert lazy.rows[start:] == rows[start:] and lazy.row_lengths(start) == eager.row_lengths(start)
+    for length in range(5):  # the rows the unheaded-data check looks through
+        longer = [r for r in range(start, len(rows)) if len(rows[r]) > length]
+        assert lazy.rows_longer_than(start, length) == eager.rows_longer_than(start, length)
+        assert eager.rows_longer_than(start, length) == longer
     if rows:
         assert lazy.rows[-1] == rows[-1]
         lazy.rows[0].append("changed")  # a row handed out is the caller's own copy
