@@ -3,15 +3,13 @@
 Large joint, member and load tables are read whole (pandas, one dict per table, numpy checks);
 each shortcut must give exactly what the careful row-by-row reader gives, or decline and leave
 the table to it. The yardsticks are outside the shortcuts: the regular expression and padding
-searches the plain-table scan replaces, the csv module for empty and missing cells, and the
-careful reader itself (the bulk readers switched off) for whole cases, with their problems.
+searches the plain-table scan replaces, and the careful reader itself (the bulk readers
+switched off) for whole cases, with their problems.
 Hypothesis draws the inputs.
 """
 
 from __future__ import annotations
 
-import csv
-import io
 import tempfile
 from pathlib import Path
 
@@ -22,13 +20,7 @@ from trussgen import pratt
 
 import verify.io.case as case_module
 from verify.errors import InputError
-from verify.io.case import (
-    _ODD_CHARACTERS,
-    _PADDING,
-    _every_cell_given,
-    _plain_table,
-    read_case,
-)
+from verify.io.case import _ODD_CHARACTERS, _PADDING, _plain_table, read_case
 
 # Characters that decide how a table is scanned: delimiters, padding, quotes, breaks, controls,
 # a no-break space, a non-ASCII letter and the DEL byte.
@@ -46,57 +38,6 @@ def test_a_plain_table_has_nothing_the_careful_checks_look_for(text: str) -> Non
         assert not text.startswith((" ", "\t")) and not text.endswith((" ", "\t"))
 
 
-CELLS = st.sampled_from(["", "a", "L1", "2.5"])
-
-
-def _pandas_rows(text: str) -> int | None:
-    """The lines of `text` when pandas reads it as _clean_frame does and keeps a row per line
-    (no row longer than the header: pandas refuses one, or takes a column as the index)."""
-    import pandas as pd
-
-    try:
-        frame = pd.read_csv(
-            io.StringIO(text), dtype=object, keep_default_na=False, skip_blank_lines=False
-        )
-    except Exception:  # noqa: BLE001 - refused: the careful reader reads the table
-        return None
-    lines = text.count("\n") + (not text.endswith("\n"))
-    if not isinstance(frame.index, pd.RangeIndex) or lines != len(frame) + 1:
-        return None
-    return lines
-
-
-# Rows mostly as wide as the header and mostly of given cells, so that both answers come often.
-GIVEN = st.sampled_from(["a", "L1", "2.5"])
-ROW = st.one_of(
-    st.lists(GIVEN, min_size=3, max_size=3),
-    st.lists(GIVEN, min_size=3, max_size=3),
-    st.lists(GIVEN, min_size=3, max_size=3),
-    st.lists(CELLS, min_size=1, max_size=4),
-)
-
-
-@settings(max_examples=500, deadline=None)
-@given(rows=st.lists(ROW, min_size=1, max_size=5), newline_at_end=st.booleans())
-def test_every_cell_given_means_full_rows_of_non_empty_cells(
-    rows: list[list[str]], newline_at_end: bool
-) -> None:
-    text = "\n".join(",".join(r) for r in rows) + ("\n" if newline_at_end else "")
-    lines = _pandas_rows(text)
-    columns = len(rows[0])
-    if lines is None or not _every_cell_given(text, lines, columns):
-        return  # declined: the careful reader, or the frame's columns checked instead
-    read = list(csv.reader(io.StringIO(text)))
-    assert len(read) == lines
-    assert all(len(r) == columns and all(r) for r in read)
-
-
-def test_every_cell_given_declines_empty_and_missing_cells() -> None:
-    assert _every_cell_given("id,x\nA,1\nB,2\n", 3, 2)
-    for text in ("id,x\nA,\nB,2\n", "id,x\n,1\n", "id,x\nA,1\nB", "id,x\nA,1,\nB\n", "id,x\nA,1,"):
-        assert not _every_cell_given(text, text.rstrip("\n").count("\n") + 1, 2)
-
-
 # -- whole cases: bulk readers on against off ----------------------------------------------------
 def _flaw(files: dict[str, str], flaw: str, where: int) -> None:
     """Spoil one row of one table the way a careless edit would."""
@@ -108,6 +49,8 @@ def _flaw(files: dict[str, str], flaw: str, where: int) -> None:
         rows.append(rows[k])
     elif flaw == "joint empty x":
         cells[1] = ""
+    elif flaw == "joint empty id":
+        cells[0] = ""
     elif flaw == "joint short row":
         cells = cells[:2]
     elif flaw == "joint padded":
@@ -118,6 +61,10 @@ def _flaw(files: dict[str, str], flaw: str, where: int) -> None:
         cells[2] = "NOWHERE"
     elif flaw == "member empty start":
         cells[1] = ""
+    elif flaw == "member empty id":
+        cells[0] = ""
+    elif flaw == "member short row":
+        cells = cells[:2]
     elif flaw == "member loop":
         cells[2] = cells[1]
     elif flaw == "member ea":
@@ -144,11 +91,14 @@ def _flaw(files: dict[str, str], flaw: str, where: int) -> None:
 FLAWS = [
     "joint repeated",
     "joint empty x",
+    "joint empty id",
     "joint short row",
     "joint padded",
     "member repeated",
     "member unknown end",
     "member empty start",
+    "member empty id",
+    "member short row",
     "member loop",
     "member ea",
     "member bad ea",

@@ -589,21 +589,6 @@ def _plain_table(text: str) -> bool:
     return text.isascii() and not text.encode("ascii").translate(None, _PLAIN_BYTES)
 
 
-def _every_cell_given(text: str, rows: int, columns: int) -> bool:
-    """Whether every one of `rows` lines (header included) of a plain table (_plain_table) holds
-    `columns` non-empty fields separated by commas: no line short of a field (pandas would fill
-    it with ""), no field empty. A False says nothing: the frame's columns are checked instead."""
-    return (
-        columns > 1
-        and text.count(",") == rows * (columns - 1)  # fewer on one line means more on another,
-        and not text.startswith(",")  # which pandas refuses (an error: the careful reader)
-        and not text.endswith(",")
-        and ",," not in text
-        and ",\n" not in text
-        and "\n," not in text
-    )
-
-
 def _clean_frame(
     ctx: _Ctx,
     base: Path,
@@ -622,7 +607,8 @@ def _clean_frame(
     if found is None:
         return None
     path, text = found
-    if text.count("\n") < BULK_MIN_ROWS:
+    breaks = text.count("\n")
+    if breaks < BULK_MIN_ROWS:
         return None  # a small table: the careful reader is quicker than importing pandas
     plain = _plain_table(text)
     if not plain and _ODD_CHARACTERS.search(text):
@@ -649,7 +635,7 @@ def _clean_frame(
         return None  # rows longer than the header: pandas would take a column as the index
     # Lines as str.splitlines counts them: _table_text made every line end "\n", and the control
     # characters splitlines also breaks at sent the table to the careful reader above.
-    if text.count("\n") + (not text.endswith("\n")) != len(frame) + 1:
+    if breaks + (not text.endswith("\n")) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
     if not plain and (
         text.startswith((" ", "\t"))
@@ -672,10 +658,10 @@ def _clean_frame(
         if not np.isfinite(values).all():
             return None
         frame[column] = values
-    if plain and _every_cell_given(text, len(frame) + 1, len(header)):
-        return path, frame  # no empty cell anywhere: nothing more to look for
     for column in required:
-        if column not in numeric and (frame[column].str.len() == 0).any():
+        # An empty cell, or a short row's missing one (pandas gives ""): compared as objects,
+        # which numpy does at C speed (the .str accessor makes a Python call per cell).
+        if column not in numeric and (frame[column].to_numpy() == "").any():
             return None
     return path, frame
 
