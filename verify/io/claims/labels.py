@@ -131,6 +131,15 @@ class LabelMatcher:
         self._cache: dict[str, Match] = {}
         self._suggested = 0
 
+    @property
+    def member_ids(self) -> list[str]:
+        """The model's member ids in order (the matcher's own list: read, never changed)."""
+        return self._member_ids
+
+    @cached_property
+    def _joint_ids(self) -> list[str]:
+        return self._model.joint_ids  # a list made per call: made once here, when needed
+
     # The folded spellings are made on first use: a table that writes every member id as the
     # model does never needs them (0.2 s for 10^5 members).
     @cached_property
@@ -159,7 +168,7 @@ class LabelMatcher:
     def _joints_folded(self) -> dict[str, str | list[str]]:
         """The joint ids each folded spelling reads as (one id mostly; a list per spelling would
         be made for every joint, so one id is kept as text and only shared spellings list)."""
-        ids = list(self._model.joint_ids)
+        ids = self._joint_ids
         keys = _folded_all(ids, normalize=True)
         folded: dict[str, str | list[str]] = dict(zip(keys, ids, strict=True))
         if len(folded) < len(ids):
@@ -213,7 +222,7 @@ class LabelMatcher:
         _may_name): the folded ids' own (minus signs and spaces as normalize_text makes them),
         the separators, and the letters and marks of a reaction label."""
         chars = set(LABEL_SEPARATORS) | set("reactionxyzn()_.-:, ")
-        for ids in (self._member_ids, self._model.joint_ids):
+        for ids in (self._member_ids, self._joint_ids):
             chars |= _characters("\n".join(ids).casefold())
         return frozenset(chars)
 
@@ -221,7 +230,7 @@ class LabelMatcher:
     def _numbers_may_name(self) -> bool:
         """Whether some member or joint id, folded as labels are, may be written with the
         characters of a number only (answered True whenever that is not plainly ruled out)."""
-        return _any_number_like(self._member_ids) or _any_number_like(self._model.joint_ids)
+        return _any_number_like(self._member_ids) or _any_number_like(self._joint_ids)
 
     def match(self, label: str) -> Match:
         found = self._cache.get(label)
