@@ -155,7 +155,6 @@ class _Bulk:
     def positions(self, labels: Any) -> Any:
         """The position of each label in joint_ids (-1: none), looked up in joint_index."""
         assert self.joint_index is not None
-        labels = labels.tolist() if hasattr(labels, "tolist") else labels
         return np.fromiter(
             map(self.joint_index.get, labels, repeat(-1)), dtype=np.int64, count=len(labels)
         )
@@ -971,20 +970,27 @@ def _fast_members(
         return None
 
     file, frame = found
-    ids, starts, stops = frame["id"].tolist(), frame["start"].tolist(), frame["end"].tolist()
+    ids = frame["id"].tolist()
     # The Model's member index, made once here: fewer keys than rows means a repeated id.
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
         return None
     ends = None
     if ctx.bulk.joint_index is not None and len(ctx.bulk.joint_index) == len(joint_ids):
-        ends = np.column_stack([ctx.bulk.positions(starts), ctx.bulk.positions(stops)])
+        ends = np.column_stack(
+            [
+                ctx.bulk.positions(frame["start"].to_numpy()),
+                ctx.bulk.positions(frame["end"].to_numpy()),
+            ]
+        )
         if (ends < 0).any():
             return None
         # The joint tables' own id strings at the member ends (equal texts): the members table's
         # copies, two per member, are freed with the frame (about 100 MB per 10^6 members).
         starts, stops = ctx.bulk.id_strings(ends[:, 0]), ctx.bulk.id_strings(ends[:, 1])
-    elif not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
+    elif frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all():
+        starts, stops = frame["start"].tolist(), frame["end"].tolist()
+    else:
         return None
     eas: Any = repeat(default_ea, len(ids))
     if "ea" in frame.columns and (frame["ea"] != "").any():
@@ -1452,7 +1458,7 @@ def _fast_loads(
     import pandas as pd
 
     keys = frame["case"] if not fixed_case else None
-    joints = frame["joint"].tolist()
+    joints = frame["joint"].to_numpy()
     codes, names = (
         pd.factorize(keys, sort=False) if keys is not None else (np.zeros(len(joints), int), [])
     )
@@ -1466,9 +1472,11 @@ def _fast_loads(
             return False
         joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
     elif (
-        not frame["joint"].isin(joint_ids).all()
-        or frame.duplicated(subset=["joint"] + (["case"] if keys is not None else [])).any()
+        frame["joint"].isin(joint_ids).all()
+        and not frame.duplicated(subset=["joint"] + (["case"] if keys is not None else [])).any()
     ):
+        joints = joints.tolist()
+    else:
         return False
     vectors = frame[list(axes)].astype(float).to_numpy()
     names_list = [str(n) for n in names]
