@@ -742,10 +742,23 @@ def _placed(values: np.ndarray, position: np.ndarray) -> np.ndarray:
     return out
 
 
+FEW_ITEMS = 16  # up to this many names or units, _first_use looks for each one in turn
+
+
 def _first_use(codes: np.ndarray, items: list[Any]) -> tuple[tuple[Any, ...], np.ndarray]:
     """The items the codes use, in order of first use, and the codes renumbered into them."""
-    used, first = np.unique(codes, return_index=True)
-    by_first = used[np.argsort(first, kind="stable")]
+    if len(items) <= FEW_ITEMS:
+        # A few names or units (the common table): one comparison per item finds where each is
+        # first used, instead of sorting every code (0.15 s per 2x10^6 claims).
+        first_of: dict[int, int] = {}
+        for k in range(len(items)):
+            hits = codes == k
+            if hits.any():
+                first_of[k] = int(hits.argmax())
+        by_first = np.array(sorted(first_of, key=first_of.__getitem__), dtype=np.int64)
+    else:
+        used, first = np.unique(codes, return_index=True)
+        by_first = used[np.argsort(first, kind="stable")]
     renumber = np.zeros(len(items), dtype=np.int64)
     renumber[by_first] = np.arange(by_first.size)
     return tuple(items[k] for k in by_first.tolist()), renumber[codes]
