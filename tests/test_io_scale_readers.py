@@ -26,7 +26,7 @@ from verify.io.case import build_model
 from verify.io.claims.grid import Grid
 from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.rounding import decimals_as_written
-from verify.io.claims.rows import _plain_text_column
+from verify.io.claims.rows import _first_use, _plain_text_column
 from verify.io.claims.source_csv import SplitRows, _plainly_split
 from verify.io.claims.table import Labels, Places
 from verify.io.values import MAX_FORCE, MIN_FORCE, PLAIN_NUMBER
@@ -70,6 +70,10 @@ def test_rows_split_when_asked_read_as_the_split_lists(
     eager = Grid(rows, list(range(len(rows))), None, decimal_comma=False)
     assert len(lazy.rows) == len(rows) and list(lazy.rows) == rows
     assert lazy.rows[start:] == rows[start:] and lazy.row_lengths(start) == eager.row_lengths(start)
+    for length in range(5):  # the rows the unheaded-data check looks through
+        longer = [r for r in range(start, len(rows)) if len(rows[r]) > length]
+        assert lazy.rows_longer_than(start, length) == eager.rows_longer_than(start, length)
+        assert eager.rows_longer_than(start, length) == longer
     if rows:
         assert lazy.rows[-1] == rows[-1]
         lazy.rows[0].append("changed")  # a row handed out is the caller's own copy
@@ -283,3 +287,22 @@ def test_a_heading_is_judged_without_folding_the_models_ids() -> None:
     assert [matcher.names(t) for t in ("Member", "dead (kN)", "snow")] == ["unknown"] * 3
     assert "_fold_groups" not in vars(matcher) and "_joints_folded" not in vars(matcher)
     assert [matcher.names(t) for t in ("ab", "RA.y", "B-C")] == ["member", "reaction", "member"]
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    items=st.integers(1, 40).map(lambda n: [f"case {k}" for k in range(n)]),
+    picks=st.lists(st.integers(0, 39), max_size=60),
+)
+def test_names_in_order_of_first_use_equal_the_sorting_of_every_code(
+    items: list[str], picks: list[int]
+) -> None:
+    """_first_use looks for each of a few items in turn; the yardstick sorts every code."""
+    codes = np.array([p % len(items) for p in picks], dtype=np.int64)
+    used, first = np.unique(codes, return_index=True)
+    by_first = used[np.argsort(first, kind="stable")].tolist()
+    want_names = tuple(items[k] for k in by_first)
+    renumber = {k: n for n, k in enumerate(by_first)}
+    names, renumbered = _first_use(codes, items)
+    assert names == want_names
+    assert renumbered.tolist() == [renumber[c] for c in codes.tolist()]

@@ -13,8 +13,9 @@ import tomllib
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from functools import cached_property, partial
+from itertools import repeat
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -135,20 +136,28 @@ class _Origins:
 
 @dataclass
 class _Bulk:
-    """Joint and member tables read in bulk, kept as the arrays the Model would build again."""
+    """Joint and member tables read in bulk, kept as the arrays and indexes the Model would build
+    again."""
 
     joint_ids: list[str] | None = None
     xyz: Any = None  # joints x dim
     ends: Any = None  # members x 2, positions in joint_ids
-    joint_position: Any = None  # a pandas Index of joint_ids, once made
+    joint_index: dict[str, int] | None = None  # joint id -> position in joint_ids
+    member_index: dict[str, int] | None = None  # member id -> row of the members table
+    id_array: Any = None  # joint_ids as a numpy array of objects, once made
+
+    def id_strings(self, positions: Any) -> list[str]:
+        """The ids at `positions` in joint_ids, as the very strings of joint_ids."""
+        if self.id_array is None:
+            self.id_array = np.array(self.joint_ids, dtype=object)
+        return cast("list[str]", self.id_array[positions].tolist())
 
     def positions(self, labels: Any) -> Any:
-        """The position of each label in joint_ids (-1: none), by one hashed Index."""
-        import pandas as pd
-
-        if self.joint_position is None:
-            self.joint_position = pd.Index(self.joint_ids)
-        return self.joint_position.get_indexer(labels)
+        """The position of each label in joint_ids (-1: none), looked up in joint_index."""
+        assert self.joint_index is not None
+        return np.fromiter(
+            map(self.joint_index.get, labels, repeat(-1)), dtype=np.int64, count=len(labels)
+        )
 
 
 @dataclass
@@ -294,7 +303,12 @@ def build_model(
     _read_parameters(ctx, data.get("parameters"))
     joints = _read_joints(ctx, data.get("joints"), base)
     dim = _dimension(ctx, joints)
-    joint_ids = {j.id for j in joints}
+    bulk = ctx.bulk
+    joint_ids = (
+        set(bulk.joint_ids)  # the ids of a table read in bulk: no attribute read per joint
+        if bulk.joint_ids is not None and len(bulk.joint_ids) == len(joints)
+        else {j.id for j in joints}
+    )
     area_unit, modulus_unit = _stiffness_units(ctx, data.get("units"))
     defaults = _read_stiffness_defaults(ctx, data.get("stiffness"), units, area_unit, modulus_unit)
     members = _read_members(
@@ -320,7 +334,6 @@ def build_model(
     _check_geometry(ctx, joints, members, dim)
     # Every joint at a member end (both tables read in bulk, the common large case): no joint or
     # load to name below, found from the end positions instead of a set of 2x10^6 ids.
-    bulk = ctx.bulk
     every_joint_used = (
         bulk.xyz is not None
         and bulk.ends is not None
@@ -357,6 +370,15 @@ def build_model(
         and len(bulk.ends) == len(members)
     ):
         arrays = (bulk.xyz, bulk.ends)
+    # The indexes the bulk readers made, where their table gave every joint or every member.
+    joint_index = (
+        bulk.joint_index if bulk.xyz is not None and len(bulk.xyz) == len(joints) else None
+    )
+    member_index = (
+        bulk.member_index
+        if bulk.member_index is not None and len(bulk.member_index) == len(members)
+        else None
+    )
     tables = tuple(path for path, _ in (t for t in ctx.tables.values() if t is not None))
     exact = (
         ExactValues(dict(ctx.exact_coords), dict(ctx.exact_loads))
@@ -374,6 +396,7 @@ def build_model(
         combinations=tuple(combos),
         source=source,
         arrays=arrays,
+        indexes=(joint_index, member_index),
         tables=tables,
         conversions=tuple(ctx.conversions),
         exact=exact,
@@ -554,6 +577,15 @@ def _csv_rows(
 
 _PADDING = (" ,", ", ", " \n", "\n ", " \r", "\t")
 _ODD_CHARACTERS = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u2028\u2029]")
+# The bytes of a plain table: printable ASCII but the space and the quote, and line breaks. A
+# table of these alone has no control character, no padded cell and no quoted field, which one
+# bytes.translate finds out (one pass in C, instead of a regular expression and six searches).
+_PLAIN_BYTES = bytes(range(0x21, 0x7F)).replace(b'"', b"") + b"\n"
+
+
+def _plain_table(text: str) -> bool:
+    """Whether `text` holds only _PLAIN_BYTES (then _ODD_CHARACTERS and _PADDING find nothing)."""
+    return text.isascii() and not text.encode("ascii").translate(None, _PLAIN_BYTES)
 
 
 def _clean_frame(
@@ -567,14 +599,19 @@ def _clean_frame(
     """A CSV table read in bulk with pandas when it is clean, else None (the row-by-row reader
     then finds and words every problem). Clean means: the required columns, no blank or short
     rows, no required cell empty, and every cell of the `numeric` columns a finite number
-    (returned as float64 columns; every other column holds strings). Row k is on line k + 2.
+    (returned as float64 columns; every other column holds Python strings). Row k is on line
+    k + 2.
     """
     found = _table_text(ctx, base, name, where)
-    if found is None or _ODD_CHARACTERS.search(found[1]):
-        return None  # control characters in a label: the careful reader refuses them by name
+    if found is None:
+        return None
     path, text = found
-    if text.count("\n") < BULK_MIN_ROWS:
+    breaks = text.count("\n")
+    if breaks < BULK_MIN_ROWS:
         return None  # a small table: the careful reader is quicker than importing pandas
+    plain = _plain_table(text)
+    if not plain and _ODD_CHARACTERS.search(text):
+        return None  # control characters in a label: the careful reader refuses them by name
     import pandas as pd
 
     try:
@@ -582,11 +619,12 @@ def _clean_frame(
         header = next(csv.reader([first]))
         names = [h.strip().lower() for h in header]
         # Numeric columns are parsed by pandas' C parser; anything it cannot read as a number
-        # leaves the column as text, which sends the table to the careful reader below.
-        as_text = {h: str for h, n in zip(header, names, strict=True) if n not in numeric}
-        frame = pd.read_csv(
-            io.StringIO(text), dtype=as_text, keep_default_na=False, skip_blank_lines=False
-        )
+        # leaves the column as text, which sends the table to the careful reader below. Text
+        # columns as Python strings (object), which pandas makes quicker than its str dtype;
+        # plain ASCII handed over as bytes, which its parser reads quicker still.
+        as_text = {h: object for h, n in zip(header, names, strict=True) if n not in numeric}
+        source = io.BytesIO(text.encode("ascii")) if plain else io.StringIO(text)
+        frame = pd.read_csv(source, dtype=as_text, keep_default_na=False, skip_blank_lines=False)
     except Exception:  # noqa: BLE001 - any trouble: the careful reader explains it
         return None
     frame.columns = [str(c).strip().lower() for c in frame.columns]
@@ -596,9 +634,9 @@ def _clean_frame(
         return None  # rows longer than the header: pandas would take a column as the index
     # Lines as str.splitlines counts them: _table_text made every line end "\n", and the control
     # characters splitlines also breaks at sent the table to the careful reader above.
-    if text.count("\n") + (not text.endswith("\n")) != len(frame) + 1:
+    if breaks + (not text.endswith("\n")) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
-    if (
+    if not plain and (
         text.startswith((" ", "\t"))
         or text.endswith((" ", "\t"))
         or any(p in text for p in _PADDING)
@@ -620,7 +658,9 @@ def _clean_frame(
             return None
         frame[column] = values
     for column in required:
-        if column not in numeric and (frame[column].str.len() == 0).any():
+        # An empty cell, or a short row's missing one (pandas gives ""): compared as objects,
+        # which numpy does at C speed (the .str accessor makes a Python call per cell).
+        if column not in numeric and (frame[column].to_numpy() == "").any():
             return None
     return path, frame
 
@@ -835,7 +875,9 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
         return None
     file, frame = found
     ids = frame["id"].tolist()
-    if frame["id"].duplicated().any():
+    # The Model's joint index, made once here: fewer keys than rows means a repeated id.
+    index = dict(zip(ids, range(len(ids)), strict=True))
+    if len(index) != len(ids):
         return None
     axes = ["x", "y"]
     if "z" in frame.columns and (frame["z"] != "").any():
@@ -847,9 +889,11 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
         return None
     ctx.declared_joints.update(ids)
     ctx.origins.register("joint", file, ids)
-    ctx.bulk.joint_ids, ctx.bulk.xyz = ids, xyz
-    # tuple.__new__ straight (Joint._make is Python code per joint); zip gives two items each.
-    return list(map(partial(tuple.__new__, Joint), zip(ids, map(tuple, xyz.tolist()), strict=True)))
+    ctx.bulk.joint_ids, ctx.bulk.xyz, ctx.bulk.joint_index = ids, xyz, index
+    # tuple.__new__ straight (Joint._make is Python code per joint); zip gives two items each,
+    # the coordinates zipped from one list per axis (no list per joint to turn into a tuple).
+    coords = zip(*(xyz[:, a].tolist() for a in range(xyz.shape[1])), strict=True)
+    return list(map(partial(tuple.__new__, Joint), zip(ids, coords, strict=True)))
 
 
 def _plain_numbers(column: Any) -> bool:
@@ -867,6 +911,8 @@ def _plain_numbers(column: Any) -> bool:
 def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
     if not joints:
         return None
+    if ctx.bulk.xyz is not None and len(ctx.bulk.xyz) == len(joints):
+        return int(ctx.bulk.xyz.shape[1])  # one table read in bulk: one width for every joint
     dims = {len(j.coords) for j in joints}
     if len(dims) == 1:
         return dims.pop()
@@ -924,20 +970,31 @@ def _fast_members(
         return None
 
     file, frame = found
-    if frame["id"].duplicated().any():
+    ids = frame["id"].tolist()
+    # The Model's member index, made once here: fewer keys than rows means a repeated id.
+    index = dict(zip(ids, range(len(ids)), strict=True))
+    if len(index) != len(ids):
         return None
     ends = None
-    if ctx.bulk.joint_ids is not None and len(ctx.bulk.joint_ids) == len(joint_ids):
+    if ctx.bulk.joint_index is not None and len(ctx.bulk.joint_index) == len(joint_ids):
         ends = np.column_stack(
-            [ctx.bulk.positions(frame["start"]), ctx.bulk.positions(frame["end"])]
+            [
+                ctx.bulk.positions(frame["start"].to_numpy()),
+                ctx.bulk.positions(frame["end"].to_numpy()),
+            ]
         )
         if (ends < 0).any():
             return None
-    elif not (frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all()):
+        # The joint tables' own id strings at the member ends (equal texts): the members table's
+        # copies, two per member, are freed with the frame (about 100 MB per 10^6 members).
+        starts, stops = ctx.bulk.id_strings(ends[:, 0]), ctx.bulk.id_strings(ends[:, 1])
+    elif frame["start"].isin(joint_ids).all() and frame["end"].isin(joint_ids).all():
+        starts, stops = frame["start"].tolist(), frame["end"].tolist()
+    else:
         return None
-    ids, starts, stops = frame["id"].tolist(), frame["start"].tolist(), frame["end"].tolist()
-    eas: list[float | None] = [default_ea] * len(ids)
+    eas: Any = repeat(default_ea, len(ids))
     if "ea" in frame.columns and (frame["ea"] != "").any():
+        eas = [default_ea] * len(ids)
         given = frame["ea"] != ""
         if not _plain_numbers(frame.loc[given, "ea"]):
             return None
@@ -947,7 +1004,7 @@ def _fast_members(
         for k, value in zip(np.nonzero(given.to_numpy())[0].tolist(), values.tolist(), strict=True):
             eas[k] = value
     ctx.origins.register("member", file, ids)
-    ctx.bulk.ends = ends
+    ctx.bulk.ends, ctx.bulk.member_index = ends, index
     return list(map(partial(tuple.__new__, Member), zip(ids, starts, stops, eas, strict=True)))
 
 
@@ -1387,34 +1444,81 @@ def _rational(number: float) -> Any:
     return sympy.Rational(repr(number))
 
 
+def _fast_loads(
+    ctx: _Ctx,
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    frame: Any,
+    fixed_case: str | None,
+    joint_ids: set[str],
+    axes: tuple[str, ...],
+) -> bool:
+    """Add the rows of a clean loads frame to `cases` when every joint is known, no joint is
+    loaded twice in a case, every case name is a plain label and every load finite and within
+    LOAD_LIMIT; else add nothing and say False (the row-by-row reader words the problem)."""
+    import pandas as pd
+
+    keys = frame["case"] if not fixed_case else None
+    joints = frame["joint"].to_numpy()
+    codes, names = (
+        pd.factorize(keys, sort=False) if keys is not None else (np.zeros(len(joints), int), [])
+    )
+    if ctx.bulk.joint_index is not None and len(ctx.bulk.joint_index) == len(joint_ids):
+        position = ctx.bulk.positions(joints)
+        if (position < 0).any():
+            return False
+        # A joint loaded twice in one case: a repeated (joint, case) pair of numbers.
+        pairs = np.sort(position * max(len(names), 1) + codes)
+        if (pairs[1:] == pairs[:-1]).any():
+            return False
+        joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
+    elif (
+        frame["joint"].isin(joint_ids).all()
+        and not frame.duplicated(subset=["joint"] + (["case"] if keys is not None else [])).any()
+    ):
+        joints = joints.tolist()
+    else:
+        return False
+    vectors = frame[list(axes)].astype(float).to_numpy()
+    names_list = [str(n) for n in names]
+    if not (
+        np.isfinite(vectors).all()
+        and _within(vectors, LOAD_LIMIT)
+        and all(map(_plain_label, names_list))
+    ):
+        return False
+    _bulk_loads(cases, codes if keys is not None else None, names_list, fixed_case, joints, vectors)
+    return True
+
+
 def _bulk_loads(
     cases: dict[str, dict[str, tuple[float, ...]]],
-    keys: Any,
+    codes: Any,
+    names: list[str],
     fixed_case: str | None,
-    joints: Any,
+    joints: list[str],
     vectors: np.ndarray,
 ) -> None:
     """The rows of a clean loads table added case by case, in the order the rows give: cases
-    first seen first, each case's joints in row order (as a loop over the rows would add them,
-    without a dict lookup per row)."""
-    if keys is None:
+    first seen first (`names`, numbered by `codes`, one per row), each case's joints in row order
+    (as a loop over the rows would add them, without a dict lookup per row)."""
+
+    def vectors_of(rows: np.ndarray) -> Iterator[tuple[float, ...]]:
+        # One list per axis zipped: no list per row to turn into a tuple.
+        return zip(*(rows[:, a].tolist() for a in range(rows.shape[1])), strict=True)
+
+    if codes is None:
         assert fixed_case is not None
-        cases.setdefault(fixed_case, {}).update(
-            zip(joints.tolist(), map(tuple, vectors.tolist()), strict=True)
-        )
+        cases.setdefault(fixed_case, {}).update(zip(joints, vectors_of(vectors), strict=True))
         return
-    names = keys.unique().tolist()
     if len(names) > 50:  # many cases of a few rows each: one pass over the rows is quicker
-        rows = zip(keys.tolist(), joints.tolist(), vectors.tolist(), strict=True)
-        for case, joint, vector in rows:
-            cases.setdefault(str(case), {})[joint] = tuple(vector)
+        for k, joint, vector in zip(codes.tolist(), joints, vectors_of(vectors), strict=True):
+            cases.setdefault(names[k], {})[joint] = vector
         return
-    key_array = keys.to_numpy(dtype=object)
-    joint_array = joints.to_numpy(dtype=object)
-    for case in names:
-        picked = key_array == case
-        cases.setdefault(str(case), {}).update(
-            zip(joint_array[picked].tolist(), map(tuple, vectors[picked].tolist()), strict=True)
+    joint_array = np.array(joints, dtype=object)
+    for k, case in enumerate(names):
+        picked = codes == k
+        cases.setdefault(case, {}).update(
+            zip(joint_array[picked].tolist(), vectors_of(vectors[picked]), strict=True)
         )
 
 
@@ -1971,27 +2075,8 @@ def _read_loads(
         axes = ("fx", "fy", "fz")[: dim or 2]
         required = ("joint",) + axes + (() if fixed_case else ("case",))
         found = _clean_frame(ctx, base, name, where, required, axes)
-        if found is not None:
-            frame = found[1]
-            keys = frame["case"] if not fixed_case else None
-            bulk = ctx.bulk
-            every_known = (
-                bool((bulk.positions(frame["joint"]) >= 0).all())
-                if bulk.joint_ids is not None and len(bulk.joint_ids) == len(joint_ids)
-                else frame["joint"].isin(joint_ids).all()
-            )
-            clean = (
-                every_known
-                and not frame.duplicated(
-                    subset=["joint"] + (["case"] if keys is not None else [])
-                ).any()
-            )
-            if clean:
-                vectors = frame[list(axes)].astype(float).to_numpy()
-                names_ok = keys is None or all(map(_plain_label, keys.unique().tolist()))
-                if np.isfinite(vectors).all() and _within(vectors, LOAD_LIMIT) and names_ok:
-                    _bulk_loads(cases, keys, fixed_case, frame["joint"], vectors)
-                    return
+        if found is not None and _fast_loads(ctx, cases, found[1], fixed_case, joint_ids, axes):
+            return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
             if not fixed_case and not _plain_label(case):
@@ -2150,7 +2235,8 @@ def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: 
                 "members",
                 m.id,
             )
-    for m in members:
+    # Read in bulk, the members with one joint at both ends are the loops (joint ids are unique).
+    for m in (placed[k] for k in np.flatnonzero(loops).tolist()) if placed is members else members:
         if m.start == m.end:
             ctx.add_at(
                 "member",

@@ -113,7 +113,7 @@ def read_claims(
     layout = decide_layout(grid, model, matcher, options, problems)
     problems.raise_if_any()
     assert layout is not None
-    member_ids = MemberIndex(model.member_ids, model.member_index)
+    member_ids = MemberIndex(matcher.member_ids, model.member_index)
     read = read_rows(grid, layout, matcher, problems, fast=FAST_ROWS, member_ids=member_ids)
     problems.raise_if_any()
     arrays, values = assemble_claims(read, member_ids, model.units.force)

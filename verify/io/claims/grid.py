@@ -11,6 +11,8 @@ from dataclasses import dataclass
 from operator import itemgetter
 from typing import cast
 
+import numpy as np
+
 
 @dataclass(frozen=True)
 class Unusable:
@@ -82,6 +84,14 @@ class Grid:
         if lengths is not None:
             return cast("list[int]", lengths(start).tolist())
         return [len(self.rows[r]) for r in range(start, len(self.rows))]
+
+    def rows_longer_than(self, start: int, length: int) -> list[int]:
+        """The rows from `start` on with more than `length` cells (by numpy when the rows count
+        their cells at once: a loop over 10^6 row lengths took 0.06 s for the few rows found)."""
+        lengths = getattr(self.rows, "lengths", None)
+        if lengths is not None:
+            return cast("list[int]", (np.flatnonzero(lengths(start) > length) + start).tolist())
+        return [r for r in range(start, len(self.rows)) if len(self.rows[r]) > length]
 
     def where_parts(self, c: int, column: str | None) -> tuple[str, str] | None:
         """(before, after) with where(r, c, column) == before + str(row number of r) + after for

@@ -462,10 +462,7 @@ def _check_unheaded_data(
     # common row of a table: each cell under a heading), so only longer rows are looked through.
     first_free = min(set(range(len(headed) + len(used) + 1)) - headed - used)
     rows = grid.rows
-    for k, length in enumerate(grid.row_lengths(start)):
-        if length <= first_free:
-            continue
-        r = start + k
+    for r in grid.rows_longer_than(start, first_free):
         for c, cell in enumerate(rows[r]):
             if c in headed or c in used or c in reported or blank(cell):
                 continue

@@ -394,13 +394,13 @@ def _plain_text_column(
         # mantissa of zeros. Counted from the non-zero digits either side of the 'e'.
         cell = np.searchsorted(ends, exponents)
         starts = np.concatenate([[0], ends[:-1] + 1])
-        # Sums over [start, e), [e, e + 1), [e + 1, end), [end, ...) of each such cell: the first
-        # and third count the mantissa's and the exponent's non-zero digits (a plain number has
-        # digits on both sides of its 'e', so no range is empty). One byte more for the last end.
-        nonzero = np.append((raw >= ord("1")) & (raw <= ord("9")), False)
-        bounds = np.column_stack([starts[cell], exponents, exponents + 1, ends[cell]]).ravel()
-        sums = np.add.reduceat(nonzero, bounds, dtype=np.int64).reshape(-1, 4)
-        mantissa_zero, exponent_zero = sums[:, 0] == 0, sums[:, 2] == 0
+        # The non-zero digits of the mantissa [start, e) and of the exponent [e + 1, end) of
+        # each such cell, as differences of one running count (a sum per range over the whole
+        # text would first widen every byte to 8: 0.2 s per 10^6-row column).
+        running = np.zeros(raw.size + 1, dtype=np.int32 if raw.size < 2**31 else np.int64)
+        np.cumsum((raw >= ord("1")) & (raw <= ord("9")), out=running[1:])
+        mantissa_zero = running[exponents] == running[starts[cell]]
+        exponent_zero = running[ends[cell]] == running[exponents + 1]
         pointed = decimals[cell] >= 0
         point_of = np.full(n, -1, dtype=np.int64)
         point_of[at] = points
@@ -742,10 +742,23 @@ def _placed(values: np.ndarray, position: np.ndarray) -> np.ndarray:
     return out
 
 
+FEW_ITEMS = 16  # up to this many names or units, _first_use looks for each one in turn
+
+
 def _first_use(codes: np.ndarray, items: list[Any]) -> tuple[tuple[Any, ...], np.ndarray]:
     """The items the codes use, in order of first use, and the codes renumbered into them."""
-    used, first = np.unique(codes, return_index=True)
-    by_first = used[np.argsort(first, kind="stable")]
+    if len(items) <= FEW_ITEMS:
+        # A few names or units (the common table): one comparison per item finds where each is
+        # first used, instead of sorting every code (0.15 s per 2x10^6 claims).
+        first_of: dict[int, int] = {}
+        for k in range(len(items)):
+            hits = codes == k
+            if hits.any():
+                first_of[k] = int(hits.argmax())
+        by_first = np.array(sorted(first_of, key=first_of.__getitem__), dtype=np.int64)
+    else:
+        used, first = np.unique(codes, return_index=True)
+        by_first = used[np.argsort(first, kind="stable")]
     renumber = np.zeros(len(items), dtype=np.int64)
     renumber[by_first] = np.arange(by_first.size)
     return tuple(items[k] for k in by_first.tolist()), renumber[codes]
