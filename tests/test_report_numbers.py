@@ -11,7 +11,7 @@ from decimal import ROUND_HALF_UP, Decimal
 from fractions import Fraction
 
 import pytest
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from verify.formatting import clean_zero, decimals_in, fmt, fmt_fixed, fmt_percent, fmt_ratio, tc
@@ -145,3 +145,20 @@ def test_any_decimal_rounds_as_decimal_half_up_does(units, places):
     if text.startswith("-") and not text.strip("-0."):
         text = text[1:]
     assert fmt_fixed(value, places) == text
+
+
+@settings(max_examples=400, deadline=None)
+@given(
+    st.text(
+        alphabet=st.sampled_from(list("0123456789..,- eE+TCkN'at row") + ["²", "٣", "½"]),
+        max_size=24,
+    )
+)
+def test_first_number_regexes_read_as_the_character_loops(text):
+    """The regex fast paths for ASCII texts give what the character loops (str.isdigit) give;
+    other texts take the loops."""
+    from verify.formatting import _decimals_by_character
+    from verify.report.numbers import _number_by_character, _written_number
+
+    assert decimals_in(text) == _decimals_by_character(text)
+    assert _written_number(text) == _number_by_character(text)

@@ -12,6 +12,7 @@ from a solve and 75.375 typed in a case file print alike.
 from __future__ import annotations
 
 import math
+import re
 from decimal import ROUND_HALF_UP, Decimal, InvalidOperation
 from functools import lru_cache
 
@@ -129,9 +130,23 @@ def tc(value: float | None, *, zero_tol: float = 0.0, digits: int = 4) -> str:
     return f"{fmt(abs(value), digits)} {'T' if value > 0 else 'C'}"
 
 
+# The first number of an ASCII text: its digits, then the digits after a point (str.isdigit
+# is [0-9] on ASCII; other texts take the character loop below, which follows isdigit exactly).
+FIRST_NUMBER = re.compile(r"[0-9]+(?:\.([0-9]+))?", re.ASCII)
+
+
 def decimals_in(text: str) -> int | None:
     """Decimals of the first plain number in `text` ('12.40 C at row 4' -> 2); None when there is
     none."""
+    if text.isascii():
+        found = FIRST_NUMBER.search(text)
+        if found is None:
+            return None
+        return len(found.group(1)) if found.group(1) is not None else 0
+    return _decimals_by_character(text)
+
+
+def _decimals_by_character(text: str) -> int | None:
     start = None
     for k, ch in enumerate(text):
         if ch.isdigit():

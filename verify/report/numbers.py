@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
@@ -51,7 +52,22 @@ def difference_text(
     return fmt(value)
 
 
+# The first run of digits and points of an ASCII text (see _written_number).
+DIGITS_AND_POINTS = re.compile(r"[0-9][0-9.]*", re.ASCII)
+
+
 def _written_number(text: str) -> float | None:
+    """The first run of digits and points read as a number (None: none, or not a number)."""
+    if text.isascii():
+        found = DIGITS_AND_POINTS.search(text)
+        try:
+            return float(found.group()) if found is not None else None
+        except ValueError:
+            return None
+    return _number_by_character(text)
+
+
+def _number_by_character(text: str) -> float | None:
     digits = ""
     for ch in text:
         if ch.isdigit() or (ch == "." and digits):
