@@ -83,7 +83,7 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -107,6 +107,14 @@ K_PIVOT_SINGULAR = (
 SUPPORT_RANK_TOL = 1e-9  # singular value of a joint's unit reaction directions counted as zero
 RESIDUAL_RTOL = 1e-8  # back-check: residual above this fraction of the load scale earns a note
 EQUAL_EA_NOTE = "equal EA assumed: every output says so"
+# A probe entry below this fraction of the probe's size is round-off: see SelfStressProbe.
+SELF_STRESS_RTOL = 1e-7
+SELF_STRESS_PROBES = 2  # random probes (independent right-hand sides); see SelfStressProbe
+SELF_STRESS_PROJECTIONS = 8  # at most; the probe's states are projected until they settle
+SETTLED = 1e-2 * SELF_STRESS_RTOL  # of r: a projection removing no more has settled them
+
+# K_f^-1 of the loads, and the self-stress probe's states (None: no probe)
+Solved = tuple[np.ndarray, "SelfStressStates | None"]
 
 
 class MissingStiffnessError(ValueError):
@@ -133,13 +141,16 @@ class ElasticSolution:
 
     ``displacements`` is dofs x load columns, in the case's length unit (joint i, direction c is
     row ``i * dim + c``). ``max_residual`` is max |A t + f| over every joint equation and column,
-    in the case's force unit.
+    in the case's force unit. ``fixed_by_statics`` is per member: True when the member lies
+    outside every state of self-stress (see :class:`SelfStressProbe`). The arrays are
+    read-only: a run keeps the solution and hands the same one to every caller.
     """
 
     forces: ForceResult  # route="stiffness"
     displacements: np.ndarray  # dofs x load columns
     max_residual: float
     equal_EA_assumed: bool
+    fixed_by_statics: np.ndarray  # members, bool
     notes: tuple[str, ...] = field(default=())
 
 
@@ -280,13 +291,22 @@ def _symmetric_mmd(K: sp.csc_matrix) -> spla.SuperLU:
     )
 
 
-def _mmd_solve(K: sp.csc_matrix, rhs: np.ndarray) -> tuple[np.ndarray, float, int, float]:
-    """Runs in a forked process, so a runaway factorisation can be killed: (x, pivot ratio,
-    fill, seconds)."""
+def _solve_both(lu: spla.SuperLU, rhs: np.ndarray, probe: SelfStressProbe | None) -> Solved:
+    # The probe's columns in calls of their own, not appended to the loads: the load columns then
+    # come out bit for bit as they would without it (a multi-column solve may sum in another
+    # order).
+    return lu.solve(rhs), (probe.states(lu.solve) if probe is not None else None)
+
+
+def _mmd_solve(
+    K: sp.csc_matrix, rhs: np.ndarray, probe: SelfStressProbe | None
+) -> tuple[Solved, float, int, float]:
+    """Runs in a forked process, so a runaway factorisation can be killed: ((x, self-stress
+    states), pivot ratio, fill, seconds)."""
     start = time.perf_counter()
     lu = _symmetric_mmd(K)
-    x = lu.solve(rhs)
-    return x, pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
+    solved = _solve_both(lu, rhs, probe)
+    return solved, pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
 
 
 def ordering_time_box(nonzeros: int) -> float:
@@ -298,13 +318,14 @@ def ordering_time_box(nonzeros: int) -> float:
 
 
 def _time_boxed_mmd(
-    K: sp.csc_matrix, rhs: np.ndarray, time_box: float
-) -> tuple[tuple[np.ndarray, float, int, float] | None, str]:
+    K: sp.csc_matrix, rhs: np.ndarray, time_box: float, probe: SelfStressProbe | None = None
+) -> tuple[tuple[Solved, float, int, float] | None, str]:
     """Symmetric MMD factorisation and solve in a child process, stopped after `time_box` seconds.
 
-    Returns ((x, pivot_ratio, fill, seconds) or None, reason for falling back).
+    Returns (((x, self-stress states), pivot_ratio, fill, seconds) or None, reason for falling
+    back).
     """
-    child = Forked.start(_mmd_solve, K, rhs)
+    child = Forked.start(_mmd_solve, K, rhs, probe)
     if not child.forked:  # fork() not allowed here, or it failed: never run MMD without its box
         return None, (
             f"no child process to time-box MMD_AT_PLUS_A in (no fork() here, {SERIAL_ENV} set, "
@@ -324,11 +345,15 @@ def _time_boxed_mmd(
 
 
 def _solve_reduced(
-    K: sp.csc_matrix, rhs: np.ndarray, time_box: float | None
-) -> tuple[np.ndarray, float, list[str]]:
-    """Solve K x = rhs for the symmetric positive definite K_f; ordering per the module docstring.
+    K: sp.csc_matrix,
+    rhs: np.ndarray,
+    time_box: float | None,
+    probe: SelfStressProbe | None = None,
+) -> tuple[Solved, float, list[str]]:
+    """Solve K x = rhs for the symmetric positive definite K_f, and the probe's self-stress states
+    with the same factorisation; ordering per the module docstring.
 
-    Returns (x, LU pivot ratio, notes naming the ordering used).
+    Returns ((x, states or None), LU pivot ratio, notes naming the ordering used).
     """
     fill_note = "fill {} nonzeros for {} in K"
     if K.shape[0] <= DIRECT_FREE_LIMIT:
@@ -339,7 +364,7 @@ def _solve_reduced(
             why = f"MMD_AT_PLUS_A in symmetric mode failed ({exc})"
         else:
             return (
-                lu.solve(rhs),
+                _solve_both(lu, rhs, probe),
                 pivot_ratio(lu),
                 [
                     "sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), "
@@ -349,11 +374,11 @@ def _solve_reduced(
             )
     else:
         box = time_box if time_box is not None else ordering_time_box(K.nnz)
-        answer, why = _time_boxed_mmd(K, rhs, box)
+        answer, why = _time_boxed_mmd(K, rhs, box, probe)
         if answer is not None:
-            x, ratio, fill, seconds = answer
+            solved, ratio, fill, seconds = answer
             return (
-                x,
+                solved,
                 ratio,
                 [
                     f"sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode, time-boxed in a "
@@ -368,9 +393,8 @@ def _solve_reduced(
             f"the stiffness matrix is singular ({exc}): the truss with its supports is a "
             "mechanism; the stability check names the joints that can move"
         ) from None
-    x = lu.solve(rhs)
     return (
-        x,
+        _solve_both(lu, rhs, probe),
         pivot_ratio(lu),
         [
             f"{why}; sparse LU of K with COLAMD ordering, {time.perf_counter() - start:.3g} s, "
@@ -391,8 +415,9 @@ def solve_stiffness(
 
     ``time_box``: seconds for the MMD attempt; None scales it with the size of K_f
     (:func:`ordering_time_box`). ``EA``: member stiffnesses to use instead of the model's (the
-    same truss with other stiffnesses, without making a model for it; see
-    members_fixed_by_statics).
+    same truss with other stiffnesses, without making a model for it).
+    The same factorisation also answers which members lie in a state of self-stress (one more
+    right-hand side, :class:`SelfStressProbe`).
     Raises MissingStiffnessError when some members have no EA and ``assume_equal_EA`` is None,
     and SingularStiffnessError when the supported truss is a mechanism (K_f singular).
     """
@@ -408,10 +433,14 @@ def solve_stiffness(
     K = assemble_stiffness(model, EA)
     Kf = (T.T @ K @ T).tocsc()
     nfree = Kf.shape[0]
+    b = len(model.members)
     if nfree:
         # A zero right-hand side still factorises K, so a mechanism is reported even without loads.
         Ff = np.asfortranarray(T.T @ F) if cols else np.zeros((nfree, 1))
-        xf, pivot_ratio, order_notes = _solve_reduced(Kf, Ff, time_box)
+        # K_f is not singular (checked below), so the self-stress states of the members span
+        # b - nfree dimensions: none without more members than free directions, nothing to probe.
+        probe = SelfStressProbe.draw(model, EA, T) if b > nfree else None
+        (xf, states), pivot_ratio, order_notes = _solve_reduced(Kf, Ff, time_box, probe)
         notes += order_notes
         if pivot_ratio < K_PIVOT_SINGULAR:
             raise SingularStiffnessError(
@@ -424,9 +453,12 @@ def solve_stiffness(
             "stability check decides on mechanisms)"
         )
         x = T @ xf.reshape(nfree, -1)[:, :cols]
+        fixed = states.fixed_by_statics() if states is not None else np.ones(b, dtype=bool)
     else:
         notes.append("every joint direction is restrained: no displacement, members carry no force")
         x = np.zeros((model.dofs, cols))
+        # Each member can carry any force against the reactions: each is a self-stress of its own.
+        fixed = np.zeros(b, dtype=bool)
     d = model.dim
     s = model.ends_index[:, 0]
     e = model.ends_index[:, 1]
@@ -448,36 +480,126 @@ def solve_stiffness(
     else:
         notes.append(f"equilibrium back-check: max |A t + f| = {max_residual:.3g}")
     notes_t = tuple(notes)
+    for array in (N, R, x, fixed):
+        array.setflags(write=False)  # shared by the run with every caller (AnalysisRun.elastic)
     forces = ForceResult("stiffness", tuple(model.load_names), N, R, notes=notes_t)
     return ElasticSolution(
         forces=forces,
         displacements=x,
         max_residual=max_residual,
         equal_EA_assumed=assume_equal_EA is not None,
+        fixed_by_statics=fixed,
         notes=notes_t,
     )
 
 
+@dataclass(frozen=True)
+class SelfStressProbe:
+    """Random member forces r, projected onto the states of self-stress by the elastic solve.
+
+    With B the compatibility matrix on the free directions (elongations e = B x), W = diag(EA/L)
+    and K = B^T W B: the loads B^T r are those that initial member forces r put on the joints,
+    y = K^-1 B^T r the displacements they cause, and s = r - W B y satisfies B^T s = 0, i.e. s is
+    a state of self-stress (with the reactions it needs). s = (I - P) r, where P = W B K^-1 B^T is
+    a projection whose complement I - P maps onto the self-stress space and keeps every
+    self-stress as it is. So a member with s_i = 0 for every r lies outside every self-stress,
+    and one inside some self-stress has s_i != 0 for all r but a set of measure zero: a random r
+    tells them apart with a few more right-hand sides on the elastic solve's own factor.
+
+    Two things keep that true in floating point (measured on trusses from bench/generate.py,
+    some with X-bracing in one panel of 50 or 500 or 7, some grids with a few top chords):
+
+    * "Measure zero" is not "never": s_i of a member inside a self-stress is a random
+      combination of the states' entries. On the 10^4-member X-braced Pratt 3 members in 10^4
+      came out below 1e-4 of the largest entry with one probe, so at 10^6 members one probe
+      would call some member "outside" with a fair chance. With SELF_STRESS_PROBES = 2
+      independent ones (a member is outside only when both leave it at round-off) the smallest
+      entry there was 3.8e-3.
+    * s from K^-1 is a least-squares residual from the normal equations: its error on members
+      outside grows like eps cond(K), and cond(K) ~ cond(A)^2. On a 2000-panel single-span
+      Pratt (K pivot ratio 3e-9) those entries reached 1e-7 of r, and on 20,000 panels (2.5e-12)
+      all of them did. The varied-EA comparison used before failed the same way: it found 3889
+      and 35 members of 7801 and 79,801 outside. So s is projected again
+      (s <- s - W B K^-1 B^T s; the error left in s lies in the range of W B, which the
+      projection removes: iterative refinement of a least-squares residual, common practice)
+      until a projection removes no more than SETTLED of r. The 2000-panel span settles after 2
+      projections, with 1.6e-14 of r left outside; the 20,000-panel span loses only 0.4 of the
+      error per projection, and after SELF_STRESS_PROJECTIONS the zero test takes what the last
+      one removed as its tolerance (an upper estimate of the error still there) instead.
+
+    Cost: each projection is one solve with SELF_STRESS_PROBES columns; well-conditioned trusses
+    settle after 2 (a few percent of the factorisation).
+    """
+
+    r: np.ndarray  # members x SELF_STRESS_PROBES
+    k: np.ndarray  # EA/L per member
+    B: sp.csr_matrix  # members x free directions: the compatibility matrix
+
+    @classmethod
+    def draw(cls, model: Model, EA: np.ndarray, T: sp.csc_matrix, seed: int = 0) -> SelfStressProbe:
+        rng = np.random.default_rng(seed)
+        shape = (len(model.members), SELF_STRESS_PROBES)
+        # Sizes 0.5 to 2 with random signs: no entry near zero, none dominating.
+        r = rng.uniform(0.5, 2.0, shape) * rng.choice([-1.0, 1.0], shape)
+        return cls(r, EA / model.lengths, (compatibility_matrix(model) @ T).tocsr())
+
+    def states(self, solve: Callable[[np.ndarray], np.ndarray]) -> SelfStressStates:
+        """s = (I - P) r, projected again until a projection removes no more than SETTLED of r
+        (see the class docstring); `solve` applies K^-1."""
+        s = self.r
+        size = np.abs(self.r).max(axis=0)
+        removed = size
+        for _ in range(SELF_STRESS_PROJECTIONS):
+            y = solve(np.asfortranarray(self.B.T @ s))
+            step = self.k[:, None] * (self.B @ y.reshape(self.B.shape[1], -1))
+            s = s - step
+            removed = np.abs(step).max(axis=0)
+            if np.all(removed <= SETTLED * size):
+                break
+        # The zero test. Outside every self-stress the exact s_i is 0, and what is left is the
+        # error of the projections: at most what the last one removed (they shrink it), and below
+        # SETTLED of r once they have settled. Inside one, s_i is of the size of r (above 3e-3 of
+        # it on every truss measured, with two probes). SELF_STRESS_RTOL = 1e-7 of r lies between
+        # the two (the figure the varied-EA comparison used against the largest force).
+        zero = np.maximum(SELF_STRESS_RTOL * size, removed)
+        return SelfStressStates(s, zero)
+
+
+@dataclass(frozen=True)
+class SelfStressStates:
+    """A probe's states of self-stress (members x probes) and, per probe, the size below which
+    an entry is round-off."""
+
+    s: np.ndarray
+    zero: np.ndarray
+
+    def fixed_by_statics(self) -> np.ndarray:
+        """Per member, True outside every self-stress: every probe leaves it at round-off."""
+        return np.all(np.abs(self.s) <= self.zero, axis=1)
+
+
+def compatibility_matrix(model: Model) -> sp.csr_matrix:
+    """B (members x dofs): member i's elongation u_i . (x_end - x_start) for displacements x."""
+    b, d = len(model.members), model.dim
+    rows = np.repeat(np.arange(b), 2 * d)
+    ends = model.ends_index[:, [1, 0]]  # end first: +u, then start: -u
+    cols = (ends[:, :, None] * d + np.arange(d)).reshape(b, 2 * d)
+    u = model.unit_vectors
+    vals = np.concatenate([u, -u], axis=1)
+    return sp.csr_matrix((vals.ravel(), (rows, cols.ravel())), shape=(b, model.dofs))
+
+
 def members_fixed_by_statics(
     model: Model,
-    forces: np.ndarray,
     *,
     assume_equal_EA: float | None = None,
-    seed: int = 0,
     run: AnalysisRun | None = None,
 ) -> np.ndarray:
-    """Per member: True when its force does not depend on the member stiffnesses.
-
-    `forces` are the elastic member forces already solved for `model` (members x load columns).
-    In an indeterminate truss a member outside every state of self-stress carries a force fixed
-    by statics alone. Solving once more with every EA scaled by an independent random factor (0.5
-    to 2) changes the force of every member inside a self-stress (with probability one) and of no
-    other: one extra solve, at any size, where the self-stress basis would need a dense SVD.
+    """Per member: True when it lies outside every state of self-stress, so that statics alone
+    fixes its force (whatever the member stiffnesses; a member inside some self-stress generally
+    changes its force with them). Read from the elastic solve of the run (one more right-hand side
+    on its factor; see SelfStressProbe), solving it if the run has not yet. ValueError (missing or
+    singular stiffness) as from solve_stiffness.
     """
-    EA, _ = member_stiffness(model, assume_equal_EA=assume_equal_EA)
-    scaled = EA * np.random.default_rng(seed).uniform(0.5, 2.0, len(EA))
-    # The same truss with the varied stiffnesses: its geometry, supports and loads (and so the
-    # run's equilibrium matrix) are the model's own, and no model per variation is made.
-    again = solve_stiffness(model, EA=scaled, run=run).forces.member_forces
-    scale = max(float(np.abs(forces).max(initial=0.0)), 1e-300)
-    return np.all(np.abs(again - forces) <= 1e-7 * scale, axis=1)
+    run = run if run is not None else AnalysisRun(model)
+    return np.asarray(run.elastic(assume_equal_EA).fixed_by_statics)
