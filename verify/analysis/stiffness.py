@@ -26,6 +26,7 @@ exploded on an offset double-layer grid (> 60 s against 2.6 s). So we try MMD_AT
 symmetric mode (diagonal pivots, valid because K_f is symmetric positive definite for a stable
 truss) and fall back to COLAMD with partial pivoting if
 
+* a sample of K_f predicts its fill explosion (see below): then it is not tried at all,
 * it has not finished within its time box (see below), or
 * it fails (a zero pivot without pivoting).
 
@@ -68,6 +69,21 @@ The floor of 0.1 s covers the fork and the smallest time-boxed systems (just abo
 DIRECT_FREE_LIMIT); from 750,000 nonzeros the box is at its cap of 1.5 s, which the 10^5-member
 grid's MMD (0.87-1.03 s) still needs.
 
+No rule by size alone can spare the offset grid its wait: at 10^5 members its K_f has fewer
+nonzeros (1,073,636) than the determinate grid's, so it waited the full 1.5 s box before COLAMD
+(2.3 s). Its fill, though, shows the explosion early and without timing noise. Fill of the
+symmetric-mode MMD over COLAMD's, measured here on the whole K_f, rises with size on the offset
+grid (1.26, 1.5, 2.2, 3.5, 3.8, 6.3 at 800 to 9,800 members) and stays low where MMD wins (0.34
+to 0.73 on the determinate grids, 1.09 on the crossed Pratt). So above 2 x MMD_SAMPLE_FREE free
+dofs the same ratio is measured on a sample first: the principal submatrix of the
+MMD_SAMPLE_FREE dofs reached breadth-first from the middle one (both factorisations of it take
+0.004 to 0.06 s). On the sample the offset grids of 9,800, 29,768 and 100,352 members gave 1.93,
+1.93 and 1.72, the determinate grids of 9,680 and 100,104 members 0.62 and 0.60, the crossed
+Pratts of 10^4 and 10^5 members 1.09 and a plain Pratt 1.00. Above MMD_SAMPLE_FILL_LIMIT = 1.5
+MMD is not tried: on every truss measured such a sample meant a whole K_f on which MMD's fill
+exceeded COLAMD's, where the attempt could win nothing. Below it the time box still guards a
+truss whose sample misleads.
+
 Back-check: every answer is checked against equilibrium (max |A t + f|) and the figure recorded.
 A mechanism makes K_f singular. An exactly singular factorisation, or a pivot ratio below
 K_PIVOT_SINGULAR, raises :class:`SingularStiffnessError`. K pivots alone do not prove stability:
@@ -89,6 +105,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
+from scipy.sparse.csgraph import breadth_first_order
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.run import AnalysisRun, pivot_ratio
@@ -104,6 +121,8 @@ DIRECT_FREE_LIMIT = (
 K_PIVOT_SINGULAR = (
     1e-15  # min/max |U_ii|; sound long trusses measured down to 2e-12 (PERFORMANCE.md)
 )
+MMD_SAMPLE_FREE = 2000  # free directions in the sample that predicts MMD's fill (<= DIRECT_...)
+MMD_SAMPLE_FILL_LIMIT = 1.5  # sample's MMD fill / COLAMD fill above this: MMD not tried
 SUPPORT_RANK_TOL = 1e-9  # singular value of a joint's unit reaction directions counted as zero
 RESIDUAL_RTOL = 1e-8  # back-check: residual above this fraction of the load scale earns a note
 EQUAL_EA_NOTE = "equal EA assumed: every output says so"
@@ -310,6 +329,26 @@ def _mmd_solve(
     return solved, pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
 
 
+def mmd_sample_fill(K: sp.csc_matrix) -> tuple[float, int] | None:
+    """MMD's fill over COLAMD's on a sample of K, and the sample's size; None when a sample
+    factorisation fails.
+
+    The sample is the principal submatrix of the MMD_SAMPLE_FREE free directions first reached
+    breadth-first (in the graph of K) from the middle one: a patch of the truss, itself
+    symmetric positive definite. Both factorisations of it take a few hundredths of a second,
+    and MMD's worst case at that size stays below 0.1 s (DIRECT_FREE_LIMIT).
+    """
+    order = breadth_first_order(K, K.shape[0] // 2, directed=False, return_predecessors=False)
+    keep = np.sort(order[:MMD_SAMPLE_FREE])
+    patch = K[keep][:, keep].tocsc()
+    try:
+        mmd = _symmetric_mmd(patch)
+        colamd = spla.splu(patch, permc_spec="COLAMD")
+    except RuntimeError:
+        return None
+    return (mmd.L.nnz + mmd.U.nnz) / (colamd.L.nnz + colamd.U.nnz), len(keep)
+
+
 def ordering_time_box(nonzeros: int) -> float:
     """Seconds the MMD attempt on a reduced K with this many stored nonzeros may take (see the
     module docstring for the calibration)."""
@@ -374,8 +413,17 @@ def _solve_reduced(
                 ],
             )
     else:
-        box = time_box if time_box is not None else ordering_time_box(K.nnz)
-        answer, why = _time_boxed_mmd(K, rhs, box, probe)
+        sample = mmd_sample_fill(K) if K.shape[0] > 2 * MMD_SAMPLE_FREE else None
+        if sample is not None and sample[0] > MMD_SAMPLE_FILL_LIMIT:
+            answer = None
+            why = (
+                f"MMD_AT_PLUS_A not tried: on a sample of K ({sample[1]} free directions around "
+                f"the middle one) its fill was {sample[0]:.2f} times COLAMD's (its fill explodes "
+                "on some 3D grids)"
+            )
+        else:
+            box = time_box if time_box is not None else ordering_time_box(K.nnz)
+            answer, why = _time_boxed_mmd(K, rhs, box, probe)
         if answer is not None:
             solved, ratio, fill, seconds = answer
             return (
