@@ -62,17 +62,18 @@ offset double-layer grid       29,768    317,204  > 10 s    > 31 us      0.34 s
 Where MMD wins it stayed at or below 0.64 us per nonzero (0.76 us in a slower repeat of the
 10^5-member grid, 1.03 s); where its fill exploded it took 21 us and more. 2 us per nonzero leaves
 the winners several times their time and stops the explosions after a tenth of theirs: the
-9,800-member offset grid now waits 0.21 s instead of 1.5 s. Timings here vary with other work on
-the machine (the 10^4 grid's MMD took 0.18-0.31 s while another benchmark ran, against its box of
-0.27 s); an attempt stopped early costs only the COLAMD solve (0.09 s there) and notes say so.
+9,800-member offset grid waited 0.21 s instead of 1.5 s (now none: see the sample below).
+Timings here vary with other work on the machine (the 10^4 grid's MMD took 0.18-0.31 s while
+another benchmark ran, against its box of 0.27 s); an attempt stopped early costs only the COLAMD
+solve (0.09 s there) and notes say so.
 The floor of 0.1 s covers the fork and the smallest time-boxed systems (just above
 DIRECT_FREE_LIMIT); from 750,000 nonzeros the box is at its cap of 1.5 s, which the 10^5-member
 grid's MMD (0.87-1.03 s) still needs.
 
 No rule by size alone can spare the offset grid its wait: at 10^5 members its K_f has fewer
 nonzeros (1,073,636) than the determinate grid's, so it waited the full 1.5 s box before COLAMD
-(2.3 s). Its fill, though, shows the explosion early and without timing noise. Fill of the
-symmetric-mode MMD over COLAMD's, measured here on the whole K_f, rises with size on the offset
+(1.9 to 2.3 s). Its fill, though, shows the explosion early and without timing noise. Fill of
+the symmetric-mode MMD over COLAMD's, measured here on the whole K_f, rises with size on the offset
 grid (1.26, 1.5, 2.2, 3.5, 3.8, 6.3 at 800 to 9,800 members) and stays low where MMD wins (0.34
 to 0.73 on the determinate grids, 1.09 on the crossed Pratt). So above 2 x MMD_SAMPLE_FREE free
 dofs the same ratio is measured on a sample first: the principal submatrix of the
