@@ -1,15 +1,16 @@
 """One analysis run of one model: what the analyses share, made once, and what compare may ask.
 
 The model is immutable; the things several analyses need and that cost a factorisation or a
-solve to make (the equilibrium matrix, its sparse LU, the reactions from overall equilibrium)
-belong to the run. `analyse()` makes one run per model and hands it to every route, and the
-returned `Analysis` carries it, so the comparison asks the same run for what it needs instead
-of calling solvers itself:
+solve to make (the equilibrium matrix, its sparse LU, the reactions from overall equilibrium,
+the elastic solve) belong to the run. `analyse()` makes one run per model and hands it to every
+route, and the returned `Analysis` carries it, so the comparison asks the same run for what it
+needs instead of calling solvers itself:
 
 - ``equilibrium_matrix()`` and ``equilibrium_lu()``: A and its LU (influence lines, balance);
 - ``variant(model)``: a run of a changed model (a support released, a dimension scaled), whose
   ``member_forces(columns)`` and ``elastic_forces(columns, EA)`` re-analyse it;
-- ``members_fixed_by_statics(forces, EA)``: which members of an indeterminate truss carry a force
+- ``elastic(EA)``: the direct stiffness solve, made once;
+- ``members_fixed_by_statics(EA)``: which members of an indeterminate truss carry a force
   independent of the stiffnesses;
 - ``unit_load_deflection(...)``: the unit-load hand calc of one joint displacement.
 
@@ -63,6 +64,7 @@ class AnalysisRun:
         self._lu: spla.SuperLU | None = None
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
+        self._elastic: dict[float | None, ElasticSolution] = {}  # by assume_equal_EA
 
     @classmethod
     def of(cls, model: Model) -> AnalysisRun:
@@ -142,21 +144,22 @@ class AnalysisRun:
         return np.asarray(elastic.forces.member_forces)[:, np.asarray(columns, dtype=np.int64)]
 
     def elastic(self, assume_equal_EA: float | None) -> ElasticSolution:
-        """The direct stiffness solve (ValueError: stiffness missing, or a singular K)."""
-        from verify.analysis.stiffness import solve_stiffness
+        """The direct stiffness solve (ValueError: stiffness missing, or a singular K), made once
+        per assumed EA: it depends on nothing else, and its arrays are read-only. A failure is
+        not kept (the pipeline says it in a note and asks no more)."""
+        if assume_equal_EA not in self._elastic:
+            from verify.analysis.stiffness import solve_stiffness
 
-        return solve_stiffness(self.model, assume_equal_EA=assume_equal_EA, run=self)
+            self._elastic[assume_equal_EA] = solve_stiffness(
+                self.model, assume_equal_EA=assume_equal_EA, run=self
+            )
+        return self._elastic[assume_equal_EA]
 
-    def members_fixed_by_statics(
-        self, forces: np.ndarray, assume_equal_EA: float | None
-    ) -> np.ndarray:
-        """Per member, True when its force does not depend on the stiffnesses (ValueError when
-        the stiffness is missing or singular); see verify.analysis.stiffness."""
-        from verify.analysis.stiffness import members_fixed_by_statics
-
-        return members_fixed_by_statics(
-            self.model, forces, assume_equal_EA=assume_equal_EA, run=self
-        )
+    def members_fixed_by_statics(self, assume_equal_EA: float | None) -> np.ndarray:
+        """Per member, True when it lies outside every state of self-stress, so that statics
+        alone fixes its force (ValueError when the stiffness is missing or singular); read from
+        the elastic solve, see verify.analysis.stiffness.SelfStressProbe."""
+        return np.asarray(self.elastic(assume_equal_EA).fixed_by_statics)
 
     def unit_load_deflection(
         self,

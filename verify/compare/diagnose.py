@@ -1897,9 +1897,7 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
         return None
     model = analysis.model
     try:
-        fixed = analysis.run.members_fixed_by_statics(
-            analysis.elastic.forces.member_forces, analysis.assumed_EA
-        )
+        fixed = analysis.run.members_fixed_by_statics(analysis.assumed_EA)
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
     return {
