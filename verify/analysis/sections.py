@@ -666,10 +666,21 @@ class _Solver:
         self.cuts: list[_CutBatch] = []
         self.budget = MAX_BODY_CANDIDATES
         self.notes: list[str] = []
-        # plain lists for the per-candidate Python loops of the non-straight free bodies
-        self.ends_list = eng.ends.tolist()
-        self.cost_list = eng.cost.tolist() if eng.nj else []
-        self.support_list = eng.support_count.tolist()
+
+    # plain lists for the per-candidate Python loops of the non-straight free bodies, made when
+    # that pass first runs (at 10^6 members converting them took 0.8 s, and most trusses never
+    # need the pass)
+    @functools.cached_property
+    def ends_list(self) -> list[list[int]]:
+        return self.eng.ends.tolist()
+
+    @functools.cached_property
+    def cost_list(self) -> list[int]:
+        return self.eng.cost.tolist() if self.eng.nj else []
+
+    @functools.cached_property
+    def support_list(self) -> list[int]:
+        return self.eng.support_count.tolist()
 
     @functools.cached_property
     def incidence(self) -> list[list[int]]:
@@ -1222,7 +1233,8 @@ def _reasons(solver: _Solver) -> dict[str, str]:
     if not len(missing):
         return {}
     neq = eng.neq
-    fewest = np.full(eng.nb, np.iinfo(np.int64).max)
+    never = np.iinfo(np.int64).max  # read once: np.iinfo costs 1.5 us per call
+    fewest = np.full(eng.nb, never)
     for sw in getattr(solver, "sweeps", []):
         n_layers = len(sw.stops) + 1
         unknown = eng._gap_counts(sw.lo, sw.hi, sw.crossing & ~solver.known, n_layers)
@@ -1242,18 +1254,29 @@ def _reasons(solver: _Solver) -> dict[str, str]:
     )
     out: dict[str, str] = {}
     limit = 2000  # joint-only checks are per member in Python; beyond this the generic reason
+    # Members with the same facts share one text object: building 10^5 equal strings cost more
+    # than the section search of a grid, and a shared object is pickled once (the forked child
+    # sends this dict back).
+    texts: dict[tuple[int, str | None, bool], str] = {}
+    names = eng.member_names
+    few_of = fewest[missing].tolist()
+    tied_of = eng.tied[missing].tolist()
     for count, m in enumerate(missing.tolist()):
-        name = eng.member_names[m]
-        few = int(fewest[m])
+        few = few_of[count]
         joint = _joint_alone(eng, solver.known, m) if count < limit else None
-        if eng.nj < 2 or few == np.iinfo(np.int64).max:
+        key = (few, joint, tied_of[count])
+        shared = texts.get(key)
+        if shared is not None:
+            out[names[m]] = shared
+            continue
+        if eng.nj < 2 or few == never:
             text = "no cut tried crosses it"
         elif joint is not None:
             text = (
                 f"only the equilibrium of joint {joint} on its own isolates it (method of joints); "
                 f"every section through it cuts at least {few} members with unknown forces"
             )
-        elif solver.eng.tied[m] and few <= neq:
+        elif tied_of[count] and few <= neq:
             text = (
                 "each cut through it with few enough unknowns leaves it tied to the other cut "
                 "members (their lines meet on its line or are parallel to it), so no equation "
@@ -1264,7 +1287,7 @@ def _reasons(solver: _Solver) -> dict[str, str]:
                 f"every section tried through it cuts at least {few} members with unknown forces, "
                 f"more than the {neq} equations of one free body can resolve"
             )
-        out[name] = text + suffix
+        out[names[m]] = texts[key] = text + suffix
     return out
 
 
