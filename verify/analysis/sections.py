@@ -772,14 +772,10 @@ class _Solver:
         cand_ext = np.where(keep_left[:, None, None], sw.side_ext[0][gaps], sw.side_ext[1][gaps])
         found = eng.evaluate(pc, pm, kept, cand_ext, self.known, self.t)
 
-        stops = sw.stops[gaps].tolist()
-        lefts = keep_left.tolist()
         names, order, nj = eng.joint_names, sw.order, eng.nj
         held = np.where(keep_left, sw.side_supports[0][gaps], sw.side_supports[1][gaps]) > 0
-
-        return self._accept(
-            found, _StraightSides(names, order, stops, lefts, nj), held.tolist(), straight=True
-        )
+        sides = _StraightSides(names, order, sw.stops[gaps], keep_left, nj)
+        return self._accept(found, sides, held, straight=True)
 
     def _moved(self, sw: _Sweep) -> int:
         """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved
@@ -925,7 +921,12 @@ class _Solver:
         return members, kept, keep_left, g, moved, to_right
 
     def _accept(
-        self, found: _Found, side: Sequence[_JointSet], supports: Sequence[bool], *, straight: bool
+        self,
+        found: _Found,
+        side: Sequence[_JointSet],
+        supports: Sequence[bool] | np.ndarray,
+        *,
+        straight: bool,
     ) -> int:
         """Record the first cut found for every newly isolated member."""
         rows = found.rows()
@@ -944,7 +945,7 @@ class _Solver:
         member_sorted = member[order]
         first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
         first = first[np.argsort(cand[first], kind="stable")]
-        cs = cand[first].tolist()
+        cs = cand[first]
         self.cuts.append(
             _build_cuts(
                 self.eng,
@@ -954,7 +955,7 @@ class _Solver:
                 w[first],
                 code[first],
                 _Mapped(side, cs),
-                [bool(supports[c]) for c in cs],
+                np.asarray(supports, dtype=bool)[cs],
                 straight,
                 self.known,
                 self.t,
@@ -974,7 +975,7 @@ def _build_cuts(
     w: np.ndarray,
     code: np.ndarray,
     sides: Sequence[_JointSet],
-    uses_reactions: Sequence[bool],
+    uses_reactions: Sequence[bool] | np.ndarray,
     straight: bool,
     known: np.ndarray,
     t: np.ndarray,
@@ -1045,8 +1046,11 @@ def _build_cuts(
         joint_names=eng.joint_names,
         pm=found.pm,
         kept=found.kept,
-        is_known=known[found.pm].copy(),
-        t=t.copy(),
+        is_known=known[found.pm],
+        # not a copy: a known member's force is never written again, and a record reads only the
+        # members known when it was accepted, so every batch shares the solver's array (and the
+        # pickled result holds it once, with the forces)
+        t=t,
         offsets=found.offsets,
         cand=cand,
         pair=pair,
@@ -1056,7 +1060,7 @@ def _build_cuts(
         code=code,
         joint_at=joint_at,
         sides=sides,
-        uses_reactions=list(uses_reactions),
+        uses_reactions=np.asarray(uses_reactions, dtype=bool),
         straight=straight,
     )
 
@@ -1112,19 +1116,21 @@ class _CutBatch(_Lazy["SectionCut"]):
         code: np.ndarray,
         joint_at: np.ndarray,
         sides: Sequence[_JointSet],
-        uses_reactions: list[bool],
+        uses_reactions: np.ndarray,
         straight: bool,
     ) -> None:
+        # Indices as int32 and method codes as int8: a large result is pickled back from a
+        # forked child, and its size is the cost (records convert every index with int()).
+        wide = max(len(names), len(joint_names), len(pm)) >= 2**31
+        index = np.int64 if wide else np.int32
+        pm, kept, offsets, cand, pair, joint_at = (
+            a.astype(index, copy=False) for a in (pm, kept, offsets, cand, pair, joint_at)
+        )
         self._names, self._jn = names, joint_names
         self._pm, self._kept, self._is_known, self._t = pm, kept, is_known, t
         self._offsets, self._cand, self._pair = offsets, cand, pair
-        self._point, self._has_point, self._axis, self._code, self._joint_at = (
-            point,
-            has_point,
-            axis,
-            code,
-            joint_at,
-        )
+        self._point, self._has_point, self._axis, self._joint_at = point, has_point, axis, joint_at
+        self._code = code.astype(np.int8, copy=False)
         self._sides, self._uses_reactions, self._straight = sides, uses_reactions, straight
 
     def __len__(self) -> int:
@@ -1163,8 +1169,8 @@ class _StraightSides(_Lazy["_JointSet"]):
         self,
         names: tuple[str, ...],
         order: np.ndarray,
-        stops: list[int],
-        lefts: list[bool],
+        stops: np.ndarray,
+        lefts: np.ndarray,
         nj: int,
     ) -> None:
         self._names, self._order, self._stops, self._lefts, self._nj = (
@@ -1179,22 +1185,23 @@ class _StraightSides(_Lazy["_JointSet"]):
         return len(self._stops)
 
     def _item(self, c: int) -> _JointSet:
+        stop = int(self._stops[c])
         if self._lefts[c]:
-            return _JointSet(self._names, self._order, 0, self._stops[c])
-        return _JointSet(self._names, self._order, self._stops[c], self._nj)
+            return _JointSet(self._names, self._order, 0, stop)
+        return _JointSet(self._names, self._order, stop, self._nj)
 
 
 class _Mapped(_Lazy["_JointSet"]):
     """sides[key] for each key, read when needed (a free body's joint set per accepted cut)."""
 
-    def __init__(self, sides: Sequence[_JointSet], keys: list[int]) -> None:
+    def __init__(self, sides: Sequence[_JointSet], keys: np.ndarray) -> None:
         self._sides, self._keys = sides, keys
 
     def __len__(self) -> int:
         return len(self._keys)
 
     def _item(self, r: int) -> _JointSet:
-        return self._sides[self._keys[r]]
+        return self._sides[int(self._keys[r])]
 
 
 class _CutSequence(_Lazy["SectionCut"]):
