@@ -6,6 +6,7 @@
 * Cut records read one force array shared by every batch (no copy per batch): each record's
   known forces must equal the final forces of those members, and each known member must have
   been solved by an earlier cut (the invariant that makes sharing the array exact).
+* Row norms of 2 or 3 columns: `_row_norm` against np.linalg.norm(axis=1), bit for bit.
 * A result pickled and read back (the forked child's path) gives the same records.
 """
 
@@ -25,6 +26,7 @@ from verify.analysis.sections import (
     _canonical,
     _directions,
     _row_classes,
+    _row_norm,
     solve_sections,
 )
 
@@ -148,3 +150,23 @@ def test_pickled_solution_gives_the_same_records():
     assert _records(back) == _records(solution)
     assert back.unreached == solution.unreached
     assert np.array_equal(back.forces.member_forces, solution.forces.member_forces)
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.integers(2, 3),
+    st.lists(
+        st.floats(allow_nan=True, allow_infinity=True, allow_subnormal=True),
+        min_size=0,
+        max_size=90,
+    ),
+)
+def test_row_norm_equals_linalg_norm(d, values):
+    """Any finite, infinite, NaN or subnormal components: the same bits as np.linalg.norm."""
+    n = len(values) // d
+    v = np.array(values[: n * d], dtype=float).reshape(n, d)
+    with np.errstate(over="ignore", invalid="ignore"):  # squares of huge values overflow (both)
+        assert np.array_equal(_row_norm(v), np.linalg.norm(v, axis=1), equal_nan=True)
+    rng = np.random.default_rng(len(values))
+    w = rng.standard_normal((5000, d)) * np.exp(rng.standard_normal((5000, d)) * 20)
+    assert np.array_equal(_row_norm(w), np.linalg.norm(w, axis=1))
