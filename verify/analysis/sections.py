@@ -952,23 +952,25 @@ class _Solver:
         fresh = ~self.known[member]
         if not fresh.any():
             return 0
-        cand, pair, value, w, code, k, member = (
-            a[fresh] for a in (cand, pair, value, w, code, k, member)
-        )
+        # the keys of the choice are masked; the other columns are read at the chosen rows only
+        kept_rows = None if fresh.all() else np.flatnonzero(fresh)
+        if kept_rows is not None:
+            cand, k, member = cand[kept_rows], k[kept_rows], member[kept_rows]
         n_known = found.offsets[cand + 1] - found.offsets[cand] - k
         order = np.lexsort((cand, n_known, k, member))
         member_sorted = member[order]
         first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
         first = first[np.argsort(cand[first], kind="stable")]
+        at = first if kept_rows is None else kept_rows[first]  # chosen rows, unmasked columns
         cs = cand[first]
         self.cuts.append(
             _build_cuts(
                 self.eng,
                 found,
-                cand[first],
-                pair[first],
-                w[first],
-                code[first],
+                cs,
+                pair[at],
+                w[at],
+                code[at],
                 _Mapped(side, cs),
                 np.asarray(supports, dtype=bool)[cs],
                 straight,
@@ -977,7 +979,7 @@ class _Solver:
             )
         )
         members = member[first]
-        self.t[members] = value[first]
+        self.t[members] = value[at]
         self.known[members] = True
         return len(first)
 
