@@ -7,6 +7,7 @@
   known forces must equal the final forces of those members, and each known member must have
   been solved by an earlier cut (the invariant that makes sharing the array exact).
 * Row norms of 2 or 3 columns: `_row_norm` against np.linalg.norm(axis=1), bit for bit.
+* Non-straight free bodies: `_Solver._moved_body` against the former check, on every candidate.
 * A result pickled and read back (the forked child's path) gives the same records.
 """
 
@@ -19,14 +20,17 @@ import random
 import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from trussgen import make_model, pratt, random_simple_truss, warren
+from trussgen import make_model, pratt, random_simple_truss, truss_case, warren
 
 from verify.analysis.sections import (
+    MAX_CROSSING,
     MAX_DIRECTIONS,
+    MAX_UNKNOWNS,
     _canonical,
     _directions,
     _row_classes,
     _row_norm,
+    _Solver,
     solve_sections,
 )
 
@@ -170,3 +174,107 @@ def test_row_norm_equals_linalg_norm(d, values):
     rng = np.random.default_rng(len(values))
     w = rng.standard_normal((5000, d)) * np.exp(rng.standard_normal((5000, d)) * 20)
     assert np.array_equal(_row_norm(w), np.linalg.norm(w, axis=1))
+
+
+def _moved_body_reference(self, group, known, stops, side_cost, side_sup, g, base, moved, to_right):
+    """The non-straight free body check as written before the fast path (checks in order)."""
+    eng = self.eng
+    ends = self.ends_list
+    incidence = self.incidence
+    moved_set = set(moved)
+
+    def left(j):
+        return (group[j] <= g) != (j in moved_set)
+
+    incident = set()
+    for j in moved:
+        side_j = left(j)
+        attached = False
+        for m in incidence[j]:
+            incident.add(m)
+            a, b = ends[m]
+            other = b if a == j else a
+            if not attached and other not in moved_set and left(other) == side_j:
+                attached = True
+        if not attached:
+            return None
+    members = [m for m in base if m not in incident]
+    members += [m for m in incident if left(ends[m][0]) != left(ends[m][1])]
+    if not members or len(members) > MAX_CROSSING[eng.d]:
+        return None
+    unknown = sum(1 for m in members if not known[m])
+    if unknown == 0 or unknown > MAX_UNKNOWNS[eng.d]:
+        return None
+    sign = -1 if to_right else 1
+    shift_cost = sign * sum(self.cost_list[j] for j in moved)
+    shift_sup = sign * sum(self.support_list[j] for j in moved)
+    cost_l, cost_r = side_cost[0][g] + shift_cost, side_cost[1][g] - shift_cost
+    sup_l, sup_r = side_sup[0][g] + shift_sup, side_sup[1][g] - shift_sup
+    n_left = stops[g] + sign * len(moved)
+    if n_left <= 0 or n_left >= eng.nj:
+        return None
+    if eng.first is not None:
+        pin_l = left(eng.pin) if eng.pin >= 0 else False
+        keep_left = cost_l < cost_r or (cost_l == cost_r and not pin_l)
+    else:
+        if sup_l and sup_r:
+            return None
+        keep_left = sup_l == 0 and (sup_r > 0 or cost_l <= cost_r)
+    members.sort()
+    kept = [ends[m][0] if left(ends[m][0]) == keep_left else ends[m][1] for m in members]
+    return members, kept, keep_left, g, moved, to_right
+
+
+def _crossed_panels(panels, h, supports, loads):
+    """Parallel chords with both diagonals in every panel (and K-like extras): straight cuts
+    stall, so the non-straight free bodies are searched."""
+    joints = {}
+    for i in range(panels + 1):
+        joints[f"L{i}"] = [4.0 * i, 0.0]
+        joints[f"U{i}"] = [4.0 * i, h]
+    members = []
+    for i in range(panels):
+        members += [(f"L{i}", f"L{i + 1}"), (f"U{i}", f"U{i + 1}")]
+        members += [(f"L{i}", f"U{i + 1}"), (f"U{i}", f"L{i + 1}")]
+    members += [(f"L{i}", f"U{i}") for i in range(panels + 1)]
+    table = {f"L{i}": [fx, fy] for i, (fx, fy) in enumerate(loads[: panels + 1])}
+    return truss_case(joints, members, supports, {"P": table})
+
+
+@settings(max_examples=30, deadline=None)
+@given(
+    st.integers(2, 9),
+    st.floats(0.5, 8.0),
+    st.sampled_from(["determinate", "two pins", "three pins"]),
+    st.lists(st.tuples(st.floats(-5, 5), st.floats(-20, 5)), min_size=10, max_size=10),
+    st.integers(0, 10**6),
+    st.integers(3, 14),
+)
+def test_moved_body_equals_reference(panels, h, kind, loads, seed, joints):
+    """Every non-straight candidate of crossed-diagonal trusses (reactions found first, or not:
+    over-supported) and of random simple trusses: the same answer as the former check."""
+    supports = {"L0": ["x", "y"], f"L{panels}": ["y"]}
+    if kind != "determinate":
+        supports[f"L{panels}"] = ["x", "y"]
+    if kind == "three pins":
+        supports[f"L{panels // 2}"] = ["x", "y"]
+    models = [
+        make_model(_crossed_panels(panels, h, supports, loads)),
+        make_model(random_simple_truss(random.Random(seed), joints)),
+    ]
+    calls = []
+    fast = _Solver._moved_body
+
+    def both(self, *args):
+        got = fast(self, *args)
+        assert got == _moved_body_reference(self, *args)
+        calls.append(got is not None)
+        return got
+
+    try:
+        _Solver._moved_body = both
+        for model in models:
+            solve_sections(model)
+    finally:
+        _Solver._moved_body = fast
+    assert calls  # the candidates were examined

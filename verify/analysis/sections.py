@@ -897,39 +897,48 @@ class _Solver:
         def left(j: int) -> bool:
             return (group[j] <= g) != (j in moved_set)
 
-        incident: set[int] = set()
-        for j in moved:
-            side_j = left(j)
-            attached = False  # each moved joint must join its new side through a member
-            for m in incidence[j]:
-                incident.add(m)
-                a, b = ends[m]
-                other = b if a == j else a
-                if not attached and other not in moved_set and left(other) == side_j:
-                    attached = True
-            if not attached:
-                return None
-        members = [m for m in base if m not in incident]
-        members += [m for m in incident if left(ends[m][0]) != left(ends[m][1])]
-        if not members or len(members) > MAX_CROSSING[eng.d]:
-            return None
-        unknown = sum(1 for m in members if not known[m])
-        if unknown == 0 or unknown > MAX_UNKNOWNS[eng.d]:
-            return None
+        # Most candidates are rejected (a crossed-diagonal truss of 10^5 members rejects 5 x 10^5
+        # of them), so the checks that need no member lists come first (every check is pure: the
+        # order does not change the answer) and the others are written out inline: a moved joint
+        # j is on the left when group[j] > g, any other joint when group[j] <= g.
         sign = -1 if to_right else 1  # moved joints leave (to_right) or join the left side
-        shift_cost = sign * sum(self.cost_list[j] for j in moved)
-        shift_sup = sign * sum(self.support_list[j] for j in moved)
-        cost_l, cost_r = side_cost[0][g] + shift_cost, side_cost[1][g] - shift_cost
-        sup_l, sup_r = side_sup[0][g] + shift_sup, side_sup[1][g] - shift_sup
         n_left = stops[g] + sign * len(moved)
         if n_left <= 0 or n_left >= eng.nj:
             return None
+        shift_sup = sign * sum(self.support_list[j] for j in moved)
+        sup_l, sup_r = side_sup[0][g] + shift_sup, side_sup[1][g] - shift_sup
+        if eng.first is None and sup_l and sup_r:
+            return None
+        incident: set[int] = set()
+        for j in moved:
+            incident.update(incidence[j])
+            stays_left = group[j] > g  # the moved joint's new side
+            for m in incidence[j]:  # each moved joint must join its new side through a member
+                a, b = ends[m]
+                other = b if a == j else a
+                if other not in moved_set and (group[other] <= g) == stays_left:
+                    break
+            else:
+                return None
+        members = [m for m in base if m not in incident]
+        for m in incident:
+            a, b = ends[m]
+            if ((group[a] <= g) != (a in moved_set)) != ((group[b] <= g) != (b in moved_set)):
+                members.append(m)
+        if not members or len(members) > MAX_CROSSING[eng.d]:
+            return None
+        unknown = 0
+        for m in members:
+            if not known[m]:
+                unknown += 1
+        if unknown == 0 or unknown > MAX_UNKNOWNS[eng.d]:
+            return None
+        shift_cost = sign * sum(self.cost_list[j] for j in moved)
+        cost_l, cost_r = side_cost[0][g] + shift_cost, side_cost[1][g] - shift_cost
         if eng.first is not None:
             pin_l = left(eng.pin) if eng.pin >= 0 else False
             keep_left = cost_l < cost_r or (cost_l == cost_r and not pin_l)
         else:
-            if sup_l and sup_r:
-                return None
             keep_left = sup_l == 0 and (sup_r > 0 or cost_l <= cost_r)
         members.sort()
         kept = [ends[m][0] if left(ends[m][0]) == keep_left else ends[m][1] for m in members]
