@@ -189,13 +189,66 @@ def _line_moment(p: np.ndarray, e: np.ndarray) -> np.ndarray:
     return np.cross(p, e)
 
 
+def _row_norm(v: np.ndarray) -> np.ndarray:
+    """np.linalg.norm(v, axis=1) for rows of 2 or 3 numbers, the same to the last bit.
+
+    np.linalg.norm reduces each short row in a slow generic loop (about 10x this at 10^6 rows);
+    its sum of the squares runs left to right, as here.
+    """
+    if v.ndim == 2 and v.shape[1] in (2, 3) and v.dtype == np.float64:
+        s = v * v
+        total = s[:, 0] + s[:, 1]
+        if v.shape[1] == 3:
+            total = total + s[:, 2]
+        return np.sqrt(total)
+    return np.linalg.norm(v, axis=1)
+
+
 def _canonical(v: np.ndarray) -> np.ndarray:
     """Unit vectors with the sign fixed (largest component positive), so n and -n coincide."""
-    norm = np.linalg.norm(v, axis=1)
+    norm = _row_norm(v)
     v = v[norm > 0] / norm[norm > 0, None]
     pick = np.abs(v).argmax(axis=1)
     sign = np.sign(v[np.arange(len(v)), pick])
     return v * sign[:, None]
+
+
+def _row_classes(r: np.ndarray) -> tuple[int, np.ndarray, np.ndarray]:
+    """Classes of equal rows of r (finite), numbered in lexicographic order of the rows: the
+    count, each row's class and each class's size, as np.unique(r, axis=0) numbers them.
+
+    np.unique sorts 10^6 rows as structured records (0.6 s); rows of numbers rounded to 6
+    decimals are packed into one int64 code instead (a mixed-radix number, so the order of codes
+    is the order of rows), the few distinct codes found by hashing and each row's class by a
+    binary search among them. Exactness is checked, not assumed: every row must equal its class's
+    row and the classes must be strictly ascending; otherwise np.unique decides.
+    """
+    n, d = r.shape
+    if n:
+        digits = np.rint(r * 1e6)
+        low = digits.min(axis=0)
+        span = digits.max(axis=0) - low + 1
+        if float(np.prod(span)) < 2.0**62:
+            code = np.zeros(n, dtype=np.int64)
+            for k in range(d):
+                code = code * np.int64(span[k]) + (digits[:, k] - low[k]).astype(np.int64)
+            codes = np.unique(code)
+            inverse = np.searchsorted(codes, code)
+            rows = np.empty((len(codes), d))
+            rows[inverse] = r
+            if (rows[inverse] == r).all() and _ascending(rows):
+                return len(codes), inverse, np.bincount(inverse, minlength=len(codes))
+    keys, inverse, counts = np.unique(r, axis=0, return_inverse=True, return_counts=True)
+    return len(keys), inverse.ravel(), counts
+
+
+def _ascending(rows: np.ndarray) -> bool:
+    """True when the rows are strictly increasing in lexicographic order."""
+    a, b = rows[:-1], rows[1:]
+    less = a[:, -1] < b[:, -1]
+    for k in range(rows.shape[1] - 2, -1, -1):
+        less = (a[:, k] < b[:, k]) | ((a[:, k] == b[:, k]) & less)
+    return bool(less.all())
 
 
 def _directions(model: Model) -> np.ndarray:
@@ -205,13 +258,13 @@ def _directions(model: Model) -> np.ndarray:
     u = _canonical(model.unit_vectors[np.isfinite(model.unit_vectors).all(axis=1)])
     common = np.zeros((0, d))
     if len(u):
-        keys, inverse, counts = np.unique(
-            np.round(u, 6), axis=0, return_inverse=True, return_counts=True
-        )
+        n_classes, inverse, counts = _row_classes(np.round(u, 6))
         top = np.argsort(-counts, kind="stable")[:cap]
         # average the members of each direction class: rounding must not tilt the normal
-        sums = np.zeros((len(keys), d))
-        np.add.at(sums, inverse.ravel(), u)
+        # (bincount adds in member order, as np.add.at did: the same sums to the last bit)
+        sums = np.column_stack(
+            [np.bincount(inverse, weights=u[:, k], minlength=n_classes) for k in range(d)]
+        )
         common = sums[top] / np.linalg.norm(sums[top], axis=1)[:, None]
     candidates = [np.eye(d)]
     if d == 2:
@@ -410,7 +463,7 @@ class _Engine:
         q0 = sums / np.maximum(npair, 1)[:, None]
         rel = p - q0[pc]
         Ls = np.zeros(nc)
-        np.maximum.at(Ls, pc, np.maximum(np.linalg.norm(rel, axis=1), self.L[pm]))
+        np.maximum.at(Ls, pc, np.maximum(_row_norm(rel), self.L[pm]))
         Ls[Ls == 0] = 1.0
         col = np.concatenate([e, _line_moment(rel, e) / Ls[pc, None]], axis=1)
         isknown = known[pm]
@@ -534,10 +587,10 @@ def _ritter_2d(
                     P[single][:, others[0]],
                     Lk[single][:, others[0]],
                 )
-        norm = np.linalg.norm(w, axis=1)
+        norm = _row_norm(w)
         norm[norm == 0] = 1.0
         w = w / norm[:, None]
-        parallel = np.abs(w[:, 2]) <= PARALLEL_RTOL * np.linalg.norm(w[:, :2], axis=1)
+        parallel = np.abs(w[:, 2]) <= PARALLEL_RTOL * _row_norm(w[:, :2])
         w[parallel, 2] = 0.0
         good = np.abs(np.einsum("ne,ne->n", w, ct)) > ISOLATED_RTOL
         for j in others:
@@ -561,8 +614,8 @@ def _one_other(ct: np.ndarray, cj: np.ndarray, pj: np.ndarray, lj: np.ndarray) -
     pb = pj + lj[:, None] * ej
     wa = np.column_stack([pa[:, 1], -pa[:, 0], np.ones(len(ct))])
     wb = np.column_stack([pb[:, 1], -pb[:, 0], np.ones(len(ct))])
-    la = np.abs(np.einsum("ne,ne->n", wa, ct)) / np.linalg.norm(wa, axis=1)
-    lb = np.abs(np.einsum("ne,ne->n", wb, ct)) / np.linalg.norm(wb, axis=1)
+    la = np.abs(np.einsum("ne,ne->n", wa, ct)) / _row_norm(wa)
+    lb = np.abs(np.einsum("ne,ne->n", wb, ct)) / _row_norm(wb)
     moment = np.where((la >= lb)[:, None], wa, wb)
     return np.where((sine >= SHALLOW_SINE)[:, None], normal, moment)
 
@@ -666,10 +719,21 @@ class _Solver:
         self.cuts: list[_CutBatch] = []
         self.budget = MAX_BODY_CANDIDATES
         self.notes: list[str] = []
-        # plain lists for the per-candidate Python loops of the non-straight free bodies
-        self.ends_list = eng.ends.tolist()
-        self.cost_list = eng.cost.tolist() if eng.nj else []
-        self.support_list = eng.support_count.tolist()
+
+    # plain lists for the per-candidate Python loops of the non-straight free bodies, made when
+    # that pass first runs (at 10^6 members converting them took 0.8 s, and most trusses never
+    # need the pass)
+    @functools.cached_property
+    def ends_list(self) -> list[list[int]]:
+        return self.eng.ends.tolist()
+
+    @functools.cached_property
+    def cost_list(self) -> list[int]:
+        return self.eng.cost.tolist() if self.eng.nj else []
+
+    @functools.cached_property
+    def support_list(self) -> list[int]:
+        return self.eng.support_count.tolist()
 
     @functools.cached_property
     def incidence(self) -> list[list[int]]:
@@ -723,14 +787,10 @@ class _Solver:
         cand_ext = np.where(keep_left[:, None, None], sw.side_ext[0][gaps], sw.side_ext[1][gaps])
         found = eng.evaluate(pc, pm, kept, cand_ext, self.known, self.t)
 
-        stops = sw.stops[gaps].tolist()
-        lefts = keep_left.tolist()
         names, order, nj = eng.joint_names, sw.order, eng.nj
         held = np.where(keep_left, sw.side_supports[0][gaps], sw.side_supports[1][gaps]) > 0
-
-        return self._accept(
-            found, _StraightSides(names, order, stops, lefts, nj), held.tolist(), straight=True
-        )
+        sides = _StraightSides(names, order, sw.stops[gaps], keep_left, nj)
+        return self._accept(found, sides, held, straight=True)
 
     def _moved(self, sw: _Sweep) -> int:
         """Non-straight free bodies: a straight cut's side with 1-2 joints of a layer moved
@@ -837,46 +897,60 @@ class _Solver:
         def left(j: int) -> bool:
             return (group[j] <= g) != (j in moved_set)
 
-        incident: set[int] = set()
-        for j in moved:
-            side_j = left(j)
-            attached = False  # each moved joint must join its new side through a member
-            for m in incidence[j]:
-                incident.add(m)
-                a, b = ends[m]
-                other = b if a == j else a
-                if not attached and other not in moved_set and left(other) == side_j:
-                    attached = True
-            if not attached:
-                return None
-        members = [m for m in base if m not in incident]
-        members += [m for m in incident if left(ends[m][0]) != left(ends[m][1])]
-        if not members or len(members) > MAX_CROSSING[eng.d]:
-            return None
-        unknown = sum(1 for m in members if not known[m])
-        if unknown == 0 or unknown > MAX_UNKNOWNS[eng.d]:
-            return None
+        # Most candidates are rejected (a crossed-diagonal truss of 10^5 members rejects 5 x 10^5
+        # of them), so the checks that need no member lists come first (every check is pure: the
+        # order does not change the answer) and the others are written out inline: a moved joint
+        # j is on the left when group[j] > g, any other joint when group[j] <= g.
         sign = -1 if to_right else 1  # moved joints leave (to_right) or join the left side
-        shift_cost = sign * sum(self.cost_list[j] for j in moved)
-        shift_sup = sign * sum(self.support_list[j] for j in moved)
-        cost_l, cost_r = side_cost[0][g] + shift_cost, side_cost[1][g] - shift_cost
-        sup_l, sup_r = side_sup[0][g] + shift_sup, side_sup[1][g] - shift_sup
         n_left = stops[g] + sign * len(moved)
         if n_left <= 0 or n_left >= eng.nj:
             return None
+        shift_sup = sign * sum(self.support_list[j] for j in moved)
+        sup_l, sup_r = side_sup[0][g] + shift_sup, side_sup[1][g] - shift_sup
+        if eng.first is None and sup_l and sup_r:
+            return None
+        incident: set[int] = set()
+        for j in moved:
+            incident.update(incidence[j])
+            stays_left = group[j] > g  # the moved joint's new side
+            for m in incidence[j]:  # each moved joint must join its new side through a member
+                a, b = ends[m]
+                other = b if a == j else a
+                if other not in moved_set and (group[other] <= g) == stays_left:
+                    break
+            else:
+                return None
+        members = [m for m in base if m not in incident]
+        for m in incident:
+            a, b = ends[m]
+            if ((group[a] <= g) != (a in moved_set)) != ((group[b] <= g) != (b in moved_set)):
+                members.append(m)
+        if not members or len(members) > MAX_CROSSING[eng.d]:
+            return None
+        unknown = 0
+        for m in members:
+            if not known[m]:
+                unknown += 1
+        if unknown == 0 or unknown > MAX_UNKNOWNS[eng.d]:
+            return None
+        shift_cost = sign * sum(self.cost_list[j] for j in moved)
+        cost_l, cost_r = side_cost[0][g] + shift_cost, side_cost[1][g] - shift_cost
         if eng.first is not None:
             pin_l = left(eng.pin) if eng.pin >= 0 else False
             keep_left = cost_l < cost_r or (cost_l == cost_r and not pin_l)
         else:
-            if sup_l and sup_r:
-                return None
             keep_left = sup_l == 0 and (sup_r > 0 or cost_l <= cost_r)
         members.sort()
         kept = [ends[m][0] if left(ends[m][0]) == keep_left else ends[m][1] for m in members]
         return members, kept, keep_left, g, moved, to_right
 
     def _accept(
-        self, found: _Found, side: Sequence[_JointSet], supports: Sequence[bool], *, straight: bool
+        self,
+        found: _Found,
+        side: Sequence[_JointSet],
+        supports: Sequence[bool] | np.ndarray,
+        *,
+        straight: bool,
     ) -> int:
         """Record the first cut found for every newly isolated member."""
         rows = found.rows()
@@ -887,32 +961,34 @@ class _Solver:
         fresh = ~self.known[member]
         if not fresh.any():
             return 0
-        cand, pair, value, w, code, k, member = (
-            a[fresh] for a in (cand, pair, value, w, code, k, member)
-        )
+        # the keys of the choice are masked; the other columns are read at the chosen rows only
+        kept_rows = None if fresh.all() else np.flatnonzero(fresh)
+        if kept_rows is not None:
+            cand, k, member = cand[kept_rows], k[kept_rows], member[kept_rows]
         n_known = found.offsets[cand + 1] - found.offsets[cand] - k
         order = np.lexsort((cand, n_known, k, member))
         member_sorted = member[order]
         first = order[np.concatenate([[True], member_sorted[1:] != member_sorted[:-1]])]
         first = first[np.argsort(cand[first], kind="stable")]
-        cs = cand[first].tolist()
+        at = first if kept_rows is None else kept_rows[first]  # chosen rows, unmasked columns
+        cs = cand[first]
         self.cuts.append(
             _build_cuts(
                 self.eng,
                 found,
-                cand[first],
-                pair[first],
-                w[first],
-                code[first],
+                cs,
+                pair[at],
+                w[at],
+                code[at],
                 _Mapped(side, cs),
-                [bool(supports[c]) for c in cs],
+                np.asarray(supports, dtype=bool)[cs],
                 straight,
                 self.known,
                 self.t,
             )
         )
         members = member[first]
-        self.t[members] = value[first]
+        self.t[members] = value[at]
         self.known[members] = True
         return len(first)
 
@@ -925,7 +1001,7 @@ def _build_cuts(
     w: np.ndarray,
     code: np.ndarray,
     sides: Sequence[_JointSet],
-    uses_reactions: Sequence[bool],
+    uses_reactions: Sequence[bool] | np.ndarray,
     straight: bool,
     known: np.ndarray,
     t: np.ndarray,
@@ -947,7 +1023,7 @@ def _build_cuts(
         with np.errstate(invalid="ignore", divide="ignore"):
             o = np.column_stack([-w[:, 1] / w[:, 2], w[:, 0] / w[:, 2]]) * Ls[:, None] + q0
         point[mom] = o[mom]
-        nxy = np.linalg.norm(w[:, :2], axis=1)
+        nxy = _row_norm(w[:, :2])
         nxy[nxy == 0] = 1.0
         axis[~mom] = w[~mom, :2] / nxy[~mom, None]
     else:
@@ -972,20 +1048,25 @@ def _build_cuts(
             code[rows] = c3
             point[rows] = pt
             axis[rows] = ax
-    # the joint at the moment point, looked for among the joints of each cut's members
-    lo = found.offsets[cand]
-    size = found.offsets[cand + 1] - lo
-    row_of = np.repeat(np.arange(n), size)
+    # the joint at the moment point, looked for among the joints of each cut's members (only
+    # the rows that have a point: a force sum has none)
+    has_point = ~np.isnan(point[:, 0])
+    with_point = np.flatnonzero(has_point)
+    lo = found.offsets[cand[with_point]]
+    size = found.offsets[cand[with_point] + 1] - lo
+    row_of = np.repeat(with_point, size)
     q = np.repeat(lo, size) + (np.arange(int(size.sum())) - np.repeat(np.cumsum(size) - size, size))
     joint_at = np.full(n, -1)
-    has_point = ~np.isnan(point[:, 0])
     tol = COINCIDENT_RTOL * np.maximum(Ls, eng.extent)
     for ends in (found.kept, found.far):
         j = ends[q]
-        hit = has_point[row_of] & (np.linalg.norm(eng.X[j] - point[row_of], axis=1) <= tol[row_of])
+        hit = _row_norm(eng.X[j] - point[row_of]) <= tol[row_of]
         hit &= joint_at[row_of] < 0
-        rows_hit, first = np.unique(row_of[hit], return_index=True)
-        joint_at[rows_hit] = j[hit][first]
+        rows_hit = row_of[hit]
+        if len(rows_hit):
+            # row_of ascends, so the first hit of each row starts a run (no sort needed)
+            first = np.flatnonzero(np.concatenate([[True], rows_hit[1:] != rows_hit[:-1]]))
+            joint_at[rows_hit[first]] = j[hit][first]
     snapped = joint_at >= 0
     point[snapped] = eng.X[joint_at[snapped]]
     point = point + eng.centre + 0.0
@@ -996,8 +1077,11 @@ def _build_cuts(
         joint_names=eng.joint_names,
         pm=found.pm,
         kept=found.kept,
-        is_known=known[found.pm].copy(),
-        t=t.copy(),
+        is_known=known[found.pm],
+        # not a copy: a known member's force is never written again, and a record reads only the
+        # members known when it was accepted, so every batch shares the solver's array (and the
+        # pickled result holds it once, with the forces)
+        t=t,
         offsets=found.offsets,
         cand=cand,
         pair=pair,
@@ -1007,7 +1091,7 @@ def _build_cuts(
         code=code,
         joint_at=joint_at,
         sides=sides,
-        uses_reactions=list(uses_reactions),
+        uses_reactions=np.asarray(uses_reactions, dtype=bool),
         straight=straight,
     )
 
@@ -1063,19 +1147,21 @@ class _CutBatch(_Lazy["SectionCut"]):
         code: np.ndarray,
         joint_at: np.ndarray,
         sides: Sequence[_JointSet],
-        uses_reactions: list[bool],
+        uses_reactions: np.ndarray,
         straight: bool,
     ) -> None:
+        # Indices as int32 and method codes as int8: a large result is pickled back from a
+        # forked child, and its size is the cost (records convert every index with int()).
+        wide = max(len(names), len(joint_names), len(pm)) >= 2**31
+        index = np.int64 if wide else np.int32
+        pm, kept, offsets, cand, pair, joint_at = (
+            a.astype(index, copy=False) for a in (pm, kept, offsets, cand, pair, joint_at)
+        )
         self._names, self._jn = names, joint_names
         self._pm, self._kept, self._is_known, self._t = pm, kept, is_known, t
         self._offsets, self._cand, self._pair = offsets, cand, pair
-        self._point, self._has_point, self._axis, self._code, self._joint_at = (
-            point,
-            has_point,
-            axis,
-            code,
-            joint_at,
-        )
+        self._point, self._has_point, self._axis, self._joint_at = point, has_point, axis, joint_at
+        self._code = code.astype(np.int8, copy=False)
         self._sides, self._uses_reactions, self._straight = sides, uses_reactions, straight
 
     def __len__(self) -> int:
@@ -1114,8 +1200,8 @@ class _StraightSides(_Lazy["_JointSet"]):
         self,
         names: tuple[str, ...],
         order: np.ndarray,
-        stops: list[int],
-        lefts: list[bool],
+        stops: np.ndarray,
+        lefts: np.ndarray,
         nj: int,
     ) -> None:
         self._names, self._order, self._stops, self._lefts, self._nj = (
@@ -1130,22 +1216,23 @@ class _StraightSides(_Lazy["_JointSet"]):
         return len(self._stops)
 
     def _item(self, c: int) -> _JointSet:
+        stop = int(self._stops[c])
         if self._lefts[c]:
-            return _JointSet(self._names, self._order, 0, self._stops[c])
-        return _JointSet(self._names, self._order, self._stops[c], self._nj)
+            return _JointSet(self._names, self._order, 0, stop)
+        return _JointSet(self._names, self._order, stop, self._nj)
 
 
 class _Mapped(_Lazy["_JointSet"]):
     """sides[key] for each key, read when needed (a free body's joint set per accepted cut)."""
 
-    def __init__(self, sides: Sequence[_JointSet], keys: list[int]) -> None:
+    def __init__(self, sides: Sequence[_JointSet], keys: np.ndarray) -> None:
         self._sides, self._keys = sides, keys
 
     def __len__(self) -> int:
         return len(self._keys)
 
     def _item(self, r: int) -> _JointSet:
-        return self._sides[self._keys[r]]
+        return self._sides[int(self._keys[r])]
 
 
 class _CutSequence(_Lazy["SectionCut"]):
@@ -1222,7 +1309,8 @@ def _reasons(solver: _Solver) -> dict[str, str]:
     if not len(missing):
         return {}
     neq = eng.neq
-    fewest = np.full(eng.nb, np.iinfo(np.int64).max)
+    never = np.iinfo(np.int64).max  # read once: np.iinfo costs 1.5 us per call
+    fewest = np.full(eng.nb, never)
     for sw in getattr(solver, "sweeps", []):
         n_layers = len(sw.stops) + 1
         unknown = eng._gap_counts(sw.lo, sw.hi, sw.crossing & ~solver.known, n_layers)
@@ -1242,18 +1330,29 @@ def _reasons(solver: _Solver) -> dict[str, str]:
     )
     out: dict[str, str] = {}
     limit = 2000  # joint-only checks are per member in Python; beyond this the generic reason
+    # Members with the same facts share one text object: building 10^5 equal strings cost more
+    # than the section search of a grid, and a shared object is pickled once (the forked child
+    # sends this dict back).
+    texts: dict[tuple[int, str | None, bool], str] = {}
+    names = eng.member_names
+    few_of = fewest[missing].tolist()
+    tied_of = eng.tied[missing].tolist()
     for count, m in enumerate(missing.tolist()):
-        name = eng.member_names[m]
-        few = int(fewest[m])
+        few = few_of[count]
         joint = _joint_alone(eng, solver.known, m) if count < limit else None
-        if eng.nj < 2 or few == np.iinfo(np.int64).max:
+        key = (few, joint, tied_of[count])
+        shared = texts.get(key)
+        if shared is not None:
+            out[names[m]] = shared
+            continue
+        if eng.nj < 2 or few == never:
             text = "no cut tried crosses it"
         elif joint is not None:
             text = (
                 f"only the equilibrium of joint {joint} on its own isolates it (method of joints); "
                 f"every section through it cuts at least {few} members with unknown forces"
             )
-        elif solver.eng.tied[m] and few <= neq:
+        elif tied_of[count] and few <= neq:
             text = (
                 "each cut through it with few enough unknowns leaves it tied to the other cut "
                 "members (their lines meet on its line or are parallel to it), so no equation "
@@ -1264,7 +1363,7 @@ def _reasons(solver: _Solver) -> dict[str, str]:
                 f"every section tried through it cuts at least {few} members with unknown forces, "
                 f"more than the {neq} equations of one free body can resolve"
             )
-        out[name] = text + suffix
+        out[names[m]] = texts[key] = text + suffix
     return out
 
 
