@@ -101,7 +101,7 @@ class _RatioScreen:
         loose |= ~np.isfinite(ratio)
         self.usable = 0 <= rtol < 1 and size.size > 0
         self.rtol = rtol
-        self.everything = np.arange(size.size)
+        self.size = size.size
         tight = np.flatnonzero(~loose)
         order = np.argsort(ratio[tight], kind="stable")
         self.tight, self.sorted_ratio = tight[order], ratio[tight][order]
@@ -109,7 +109,7 @@ class _RatioScreen:
 
     def candidates(self, factor: float) -> np.ndarray:
         if not self.usable or not (np.isfinite(factor) and factor > 0):
-            return self.everything
+            return np.arange(self.size)
         window = max(factor * self.rtol / (1 - self.rtol), SCREEN_SLACK, factor * SCREEN_SLACK)
         window = window * (1 + SCREEN_MARGIN) + SCREEN_MARGIN * factor
         lo = np.searchsorted(self.sorted_ratio, factor - window, side="left")
@@ -136,20 +136,22 @@ def best_fit(
     Ties prefer the identity, then the written sign.
     """
     informative = (np.abs(computed) > atol) & (claimed != 0)
-    c, f, r, a, rd = (
-        claimed[informative],
-        fixed[informative],
-        computed[informative],
-        atol[informative],
-        rounding[informative],
-    )
     n = int(informative.sum())
+    every = [claimed, fixed, computed, atol, rounding]
+    c, f, r, a, rd = every if n == claimed.size else [x[informative] for x in every]
+    del every
     candidates = [1.0] + list(factors if factors is not None else UNIT_FACTORS)
     screen = _RatioScreen(c, r, a, rd, rtol)
     counted = {}
     for factor in candidates:
         at = screen.candidates(factor)
-        counted[factor] = _counts_by_sign(c[at], f[at], r[at], rtol, a[at], rd[at], factor)
+        if at.size == n:
+            # Every claim is a candidate (the identity's window takes them all): the counts are
+            # sums, the same in any order, so the claims are tested where they lie, not copied.
+            counted[factor] = _counts_by_sign(c, f, r, rtol, a, rd, factor)
+        else:
+            counted[factor] = _counts_by_sign(c[at], f[at], r[at], rtol, a[at], rd[at], factor)
+        del at
     identity = Fit(1, 1.0, counted[1.0][1], n)
     best = identity
     for factor in candidates:

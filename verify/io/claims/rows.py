@@ -19,6 +19,7 @@ from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
 from verify.io.claims.rounding import decimals_as_written, shown_decimals
 from verify.io.claims.table import (
+    CellTexts,
     ClaimArrays,
     ClaimedValue,
     Labels,
@@ -341,7 +342,7 @@ class BulkClaims:
     numbers: np.ndarray  # int64: the file / sheet row number of each claim
     parts: tuple[tuple[str, str], ...] | None  # per value column, its place around the number
     where: list[str] | None  # each claim's place, made here only when `parts` cannot say it
-    text: list[str]
+    text: list[str] | CellTexts  # each claim's cell as written
 
 
 # The characters of a column of plain numbers joined by line breaks; numpy checks them all at once.
@@ -352,8 +353,17 @@ _NUMBER_BYTES[list(b"0123456789+-.eE\n")] = True
 def _plain_text_column(
     cells: list[Cell], decimal_comma: bool
 ) -> tuple[np.ndarray, np.ndarray] | None:
-    """(value, decimals shown) when every cell is text PLAIN_NUMBER reads, else None; checked on
-    the column joined into one text, instead of a regular expression per cell.
+    """(value, decimals shown) when every cell is text PLAIN_NUMBER reads, else None."""
+    found = _plain_text_spans(cells, decimal_comma)
+    return None if found is None else (found[0], found[1])
+
+
+def _plain_text_spans(
+    cells: list[Cell], decimal_comma: bool
+) -> tuple[np.ndarray, np.ndarray, str, np.ndarray] | None:
+    """(value, decimals shown, the cells joined by line breaks, one past the end of each cell in
+    that text) when every cell is text PLAIN_NUMBER reads, else None; checked on the column
+    joined into one text, instead of a regular expression per cell.
 
     Only digits, signs, points, e/E and the joining breaks; a digit on each side of every point;
     and float() reading every cell. With those characters float() refuses what PLAIN_NUMBER
@@ -408,19 +418,22 @@ def _plain_text_column(
         decimals[cell] = np.where(
             pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
         )
-    return value, decimals
+    return value, decimals, joined, ends
 
 
 def _plain_cells(
     cells: list[Cell], decimal_comma: bool
-) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
-    """(value, plain, decimals) for a column of cells: plain where the cell is a number with
-    nothing to interpret (the cells plain_number reads, or a workbook's float); parsed in one
-    numpy call. `decimals` (as _decimals_shown counts them) when every cell is such text."""
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, tuple[str, np.ndarray] | None]:
+    """(value, plain, decimals, spans) for a column of cells: plain where the cell is a number
+    with nothing to interpret (the cells plain_number reads, or a workbook's float); parsed in
+    one numpy call. `decimals` (as _decimals_shown counts them) and `spans` (the cells joined by
+    line breaks, and one past each one's end there) when every cell is such text."""
     n = len(cells)
-    whole = _plain_text_column(cells, decimal_comma)
+    whole = _plain_text_spans(cells, decimal_comma)
+    spans = None
     if whole is not None:
-        value, decimals = whole
+        value, decimals, joined, ends = whole
+        spans = (joined, ends)
         plain = np.ones(n, dtype=bool)
         at = np.arange(n)
     else:
@@ -453,7 +466,7 @@ def _plain_cells(
         if floats.any():
             value[floats] = [cells[i] for i in np.flatnonzero(floats).tolist()]
             plain |= floats
-    return value, plain, decimals
+    return value, plain, decimals, spans
 
 
 def _take(items: list[Cell], at: list[int]) -> list[Cell]:
@@ -476,12 +489,13 @@ def read_bulk(
     labels = cells_of[0]
     member = member_ids.get_indexer(labels)
     ok = member >= 0
-    values, texts_of, decimals_of = [], cells_of[1:], []
+    values, texts_of, decimals_of, spans_of = [], cells_of[1:], [], []
     for cells in texts_of:
-        value, plain, decimals = _plain_cells(cells, grid.decimal_comma)
+        value, plain, decimals, spans = _plain_cells(cells, grid.decimal_comma)
         ok &= plain
         values.append(value)
         decimals_of.append(decimals)
+        spans_of.append(spans)
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
@@ -503,19 +517,17 @@ def read_bulk(
     if not picked.size or not k:
         return None, list(range(start, stop))
     value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
-    if picked.size < stop - start:
-        texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
-    cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
-    texts_only = all(d is not None for d in decimals_of)  # every cell text (plain numbers)
-    text = (
-        cast("list[str]", cells)
-        if texts_only
-        else [c if type(c) is str else cell_text(c) for c in cells]
-    )
-    if texts_only:
+    text: list[str] | CellTexts
+    if all(spans is not None for spans in spans_of):  # every cell text (plain numbers)
+        text = _cell_spans(cast("list[tuple[str, np.ndarray]]", spans_of), picked)
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
+        if picked.size < stop - start:
+            texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
+        cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
+        text = [c if type(c) is str else cell_text(c) for c in cells]
         shown = _decimalsshown_decimals(text, value)
+    del cells_of, texts_of, labels
     grid_rows = np.repeat(picked + start, k)
     slot = np.tile(np.arange(k, dtype=np.int64), picked.size)
     found_parts = [grid.where_parts(v.index, v.header) for v in columns]
@@ -541,6 +553,27 @@ def read_bulk(
             text=text,
         ),
         general,
+    )
+
+
+def _cell_spans(spans_of: list[tuple[str, np.ndarray]], picked: np.ndarray) -> CellTexts:
+    """The cells of rows `picked` of these columns (each joined by line breaks, with one past
+    each cell's end), in claim order (row by row, then column by column), cut from the columns
+    joined into one text when asked."""
+    base = 0
+    starts, stops = [], []
+    for joined, ends in spans_of:
+        begins = np.empty_like(ends)
+        begins[0] = 0
+        begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
+        starts.append(begins[picked] + base)
+        stops.append(ends[picked] + base)
+        base += len(joined)
+    return CellTexts(
+        "".join(joined for joined, _ in spans_of),
+        np.column_stack(starts).ravel(),
+        np.column_stack(stops).ravel(),
+        {},
     )
 
 
@@ -646,7 +679,7 @@ def assemble_claims(
     unit_names = [v.unit for v in general]
     decimals = np.fromiter((shown_decimals(v.text, v.value) for v in general), np.int64, n_general)
     where: Sequence[str] = [v.where for v in general]
-    text: list[str] = [v.text for v in general]
+    text: Sequence[str] = [v.text for v in general]
     fixed = np.fromiter((v.sign_fixed for v in general), dtype=bool, count=n_general)
     label: Sequence[str] = [v.label for v in general]
     reaction = {i: v.reaction for i, v in enumerate(general) if v.reaction is not None}
@@ -673,9 +706,11 @@ def assemble_claims(
             rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
             order = np.argsort(rows, kind="stable")
             position[order] = np.arange(n)
-            take = order.tolist()
-            all_text = text + bulk.text
-            text = [all_text[i] for i in take]
+            if isinstance(bulk.text, CellTexts):
+                text = bulk.text.placed(position[n_general:], n, position[:n_general], text)
+            else:
+                all_text = list(text) + bulk.text
+                text = [all_text[i] for i in order.tolist()]
         else:
             text = bulk.text  # the bulk rows alone: already in table order
         value = _placed(np.concatenate([value, bulk.value]), position)

@@ -205,6 +205,59 @@ class Places(_TextsWhenRead):
         )
 
 
+class CellTexts(_TextsWhenRead):
+    """Each claim's cell as written, cut from one text when asked: the cells of the plain rows
+    read in bulk are spans of their columns joined into one text (a string per cell held to the
+    end was 60 bytes each, and pinned the memory of the many strings made and freed beside them
+    while splitting rows); the claims read one by one keep their own text in `given`."""
+
+    __slots__ = ("_start", "_stop", "_text")
+
+    def __init__(
+        self, text: str, start: np.ndarray, stop: np.ndarray, given: dict[int, str]
+    ) -> None:
+        self._text = text  # the cells' columns, joined
+        self._start = _int_items(start)  # where each claim's cell starts in `text`
+        self._stop = _int_items(stop)  # and where it ends (one past)
+        self._given = given  # claim position -> cell, for claims that came with theirs
+
+    def __len__(self) -> int:
+        return len(self._start)
+
+    def _made(self, i: int) -> str:
+        return self._text[self._start[i] : self._stop[i]]
+
+    def placed(
+        self, at: np.ndarray, n: int, given_at: np.ndarray, given: Sequence[str]
+    ) -> CellTexts:
+        """These cells put at positions `at` of `n` claims, the `given` texts at `given_at`."""
+        start = np.zeros(n, dtype=np.int64)
+        stop = np.zeros(n, dtype=np.int64)
+        start[at] = np.frombuffer(self._start, dtype=np.int64)
+        stop[at] = np.frombuffer(self._stop, dtype=np.int64)
+        return CellTexts(self._text, start, stop, dict(zip(given_at.tolist(), given, strict=True)))
+
+    def take(self, positions: np.ndarray) -> list[str]:
+        """The cells of these claims, as `[self[i] for i in positions]` gives them."""
+        picked = np.asarray(positions, dtype=np.int64)
+        starts = np.frombuffer(self._start, dtype=np.int64)[picked].tolist()
+        stops = np.frombuffer(self._stop, dtype=np.int64)[picked].tolist()
+        out = list(map(self._text.__getitem__, map(slice, starts, stops)))
+        given = self._given
+        if given and not given.keys().isdisjoint(at := picked.tolist()):
+            for k, i in enumerate(at):
+                if i in given:
+                    out[k] = given[i]
+        return out
+
+
+def _int_items(values: np.ndarray) -> array[int]:
+    """A compact array of Python-int items (8 bytes each, indexed without numpy's scalars)."""
+    out = array("q")
+    out.frombytes(np.ascontiguousarray(values, dtype=np.int64).tobytes())
+    return out
+
+
 class Labels(_TextsWhenRead):
     """Each claim's label as written, made when asked: a claim read in bulk is labelled by its
     member's id exactly as the model writes it (that is what made it plain), so it keeps only
