@@ -103,7 +103,8 @@ class Labels:
     """Words from a short list (or member ids), one code per row."""
 
     def __init__(self, codes: np.ndarray, labels: Sequence[str]) -> None:
-        self.codes = np.asarray(codes, dtype=np.int64)
+        # Four bytes a code: enough for any list of labels, half a 10^6-row column's memory.
+        self.codes = np.asarray(codes, dtype=np.int32)
         self.labels = list(labels)
         self._code_of: dict[str, int] | None = None
 

@@ -27,6 +27,7 @@ from verify.io.claims.table import (
     Places,
     SignConflict,
     UnmatchedLabel,
+    compact_ints,
 )
 from verify.io.values import (
     MAX_FORCE,
@@ -375,8 +376,18 @@ def _plain_text_spans(
         joined = "\n".join(texts)
     except TypeError:
         return None
-    if not n or joined.count("\n") != n - 1 or not joined.isascii():
+    if not n or joined.count("\n") != n - 1:
         return None  # a break inside a cell (a quoted field) would split it in two
+    return _plain_joined_spans(joined, n, decimal_comma, texts)
+
+
+def _plain_joined_spans(
+    joined: str, n: int, decimal_comma: bool, texts: list[str] | None = None
+) -> tuple[np.ndarray, np.ndarray, str, np.ndarray] | None:
+    """_plain_text_spans of the `n` cells joined by line breaks in `joined` (no cell holding a
+    break); `texts`, the cells themselves when at hand, else split from `joined` for float()."""
+    if not joined.isascii():
+        return None
     if decimal_comma and "." in joined:
         return None
     raw = np.frombuffer(joined.encode("ascii"), dtype=np.uint8)
@@ -390,7 +401,9 @@ def _plain_text_spans(
         if not (digit[points - 1].all() and digit[points + 1].all()):
             return None
     try:
-        value = np.fromiter(map(float, texts), dtype=np.float64, count=n)
+        value = np.fromiter(
+            map(float, joined.split("\n") if texts is None else texts), dtype=np.float64, count=n
+        )
     except ValueError:
         return None
     ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
@@ -422,14 +435,22 @@ def _plain_text_spans(
 
 
 def _plain_cells(
-    cells: list[Cell], decimal_comma: bool
+    column: list[Cell] | str, decimal_comma: bool
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, tuple[str, np.ndarray] | None]:
     """(value, plain, decimals, spans) for a column of cells: plain where the cell is a number
     with nothing to interpret (the cells plain_number reads, or a workbook's float); parsed in
     one numpy call. `decimals` (as _decimals_shown counts them) and `spans` (the cells joined by
-    line breaks, and one past each one's end there) when every cell is such text."""
-    n = len(cells)
-    whole = _plain_text_spans(cells, decimal_comma)
+    line breaks, and one past each one's end there) when every cell is such text. `column` is
+    the cells, or their texts joined by line breaks (a plain file: no cell empty or holding a
+    break), split here only when some cell is not a plain number."""
+    if isinstance(column, str):
+        n = column.count("\n") + 1
+        whole = _plain_joined_spans(column, n, decimal_comma)
+        cells: list[Cell] = [] if whole is not None else _cells_of_text(column)
+    else:
+        cells = column
+        n = len(cells)
+        whole = _plain_text_spans(cells, decimal_comma)
     spans = None
     if whole is not None:
         value, decimals, joined, ends = whole
@@ -469,6 +490,10 @@ def _plain_cells(
     return value, plain, decimals, spans
 
 
+def _cells_of_text(joined: str) -> list[Cell]:
+    return cast("list[Cell]", joined.split("\n"))
+
+
 def _take(items: list[Cell], at: list[int]) -> list[Cell]:
     if len(at) > 1:
         return list(itemgetter(*at)(items))
@@ -485,11 +510,21 @@ def read_bulk(
     grid = reader.grid
     label_at = reader.member_h.index
     columns = reader.columns
-    cells_of = grid.columns(start, stop, [label_at] + [v.index for v in columns])
-    labels = cells_of[0]
+    indexes = [label_at] + [v.index for v in columns]
+    # A plain CSV file gives each column's texts joined by line breaks, cut from its rows without
+    # a string per cell (a 10^5-row table of three columns made 3x10^5 strings at once, most of
+    # the reading's memory); the labels are split from theirs, the numbers parsed from theirs.
+    joined_of = getattr(grid.rows, "joined_columns", None)
+    joined = joined_of(start, stop, indexes) if joined_of is not None else None
+    cells_of: list[list[Cell]] | list[str] = (
+        joined if joined is not None else grid.columns(start, stop, indexes)
+    )
+    first = cells_of[0]
+    labels = _cells_of_text(first) if isinstance(first, str) else first
     member = member_ids.get_indexer(labels)
     ok = member >= 0
-    values, texts_of, decimals_of, spans_of = [], cells_of[1:], [], []
+    values, decimals_of, spans_of = [], [], []
+    texts_of: list[list[Cell] | str] = list(cells_of[1:])
     for cells in texts_of:
         value, plain, decimals, spans = _plain_cells(cells, grid.decimal_comma)
         ok &= plain
@@ -522,9 +557,11 @@ def read_bulk(
         text = _cell_spans(cast("list[tuple[str, np.ndarray]]", spans_of), picked)
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
+        split_of = [_cells_of_text(t) if isinstance(t, str) else t for t in texts_of]
         if picked.size < stop - start:
-            texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
-        cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
+            split_of = [_take(split_of[j], picked.tolist()) for j in range(k)]
+        cells = list(chain.from_iterable(zip(*split_of, strict=True))) if k > 1 else split_of[0]
+        del split_of
         text = [c if type(c) is str else cell_text(c) for c in cells]
         shown = _decimalsshown_decimals(text, value)
     del cells_of, texts_of, labels
@@ -800,10 +837,8 @@ def _first_use(codes: np.ndarray, items: list[Any]) -> tuple[tuple[Any, ...], np
 
 
 def _int_array(values: np.ndarray) -> array[int]:
-    """A compact array of Python-int items (8 bytes each, indexed without numpy's scalars)."""
-    out = array("q")
-    out.frombytes(np.ascontiguousarray(values, dtype=np.int64).tobytes())
-    return out
+    """A compact array of Python-int items (indexed without numpy's scalars)."""
+    return compact_ints(values)
 
 
 @dataclass(frozen=True)

@@ -189,8 +189,8 @@ class Places(_TextsWhenRead):
         picked = np.asarray(positions, dtype=np.int64)
         if self._given and not self._given.keys().isdisjoint(picked.tolist()):
             return None
-        numbers = np.frombuffer(self._numbers, dtype=np.int64)[picked]
-        slots = np.frombuffer(self._slot, dtype=np.int64)[picked]
+        numbers = int_items_as_array(self._numbers)[picked]
+        slots = int_items_as_array(self._slot)[picked]
         texts = list(map(str, numbers.tolist()))
         if slots.size and (slots == slots[0]).all():
             before, after = self._parts[int(slots[0])]
@@ -217,8 +217,8 @@ class CellTexts(_TextsWhenRead):
         self, text: str, start: np.ndarray, stop: np.ndarray, given: dict[int, str]
     ) -> None:
         self._text = text  # the cells' columns, joined
-        self._start = _int_items(start)  # where each claim's cell starts in `text`
-        self._stop = _int_items(stop)  # and where it ends (one past)
+        self._start = compact_ints(start)  # where each claim's cell starts in `text`
+        self._stop = compact_ints(stop)  # and where it ends (one past)
         self._given = given  # claim position -> cell, for claims that came with theirs
 
     def __len__(self) -> int:
@@ -233,15 +233,15 @@ class CellTexts(_TextsWhenRead):
         """These cells put at positions `at` of `n` claims, the `given` texts at `given_at`."""
         start = np.zeros(n, dtype=np.int64)
         stop = np.zeros(n, dtype=np.int64)
-        start[at] = np.frombuffer(self._start, dtype=np.int64)
-        stop[at] = np.frombuffer(self._stop, dtype=np.int64)
+        start[at] = int_items_as_array(self._start)
+        stop[at] = int_items_as_array(self._stop)
         return CellTexts(self._text, start, stop, dict(zip(given_at.tolist(), given, strict=True)))
 
     def take(self, positions: np.ndarray) -> list[str]:
         """The cells of these claims, as `[self[i] for i in positions]` gives them."""
         picked = np.asarray(positions, dtype=np.int64)
-        starts = np.frombuffer(self._start, dtype=np.int64)[picked].tolist()
-        stops = np.frombuffer(self._stop, dtype=np.int64)[picked].tolist()
+        starts = int_items_as_array(self._start)[picked].tolist()
+        stops = int_items_as_array(self._stop)[picked].tolist()
         out = list(map(self._text.__getitem__, map(slice, starts, stops)))
         given = self._given
         if given and not given.keys().isdisjoint(at := picked.tolist()):
@@ -251,11 +251,26 @@ class CellTexts(_TextsWhenRead):
         return out
 
 
-def _int_items(values: np.ndarray) -> array[int]:
-    """A compact array of Python-int items (8 bytes each, indexed without numpy's scalars)."""
-    out = array("q")
-    out.frombytes(np.ascontiguousarray(values, dtype=np.int64).tobytes())
-    return out
+_INT_CODES = (("b", np.int8), ("h", np.int16), ("i", np.int32), ("q", np.int64))
+
+
+def compact_ints(values: np.ndarray) -> array[int]:
+    """A compact array of Python-int items (indexed without numpy's scalars), in the fewest
+    bytes per item that hold every value (a column slot in one, a row number in four)."""
+    values = np.asarray(values, dtype=np.int64)
+    low, high = (int(values.min()), int(values.max())) if values.size else (0, 0)
+    for code, dtype in _INT_CODES:
+        info = np.iinfo(dtype)
+        if info.min <= low and high <= info.max and array(code).itemsize == info.bits // 8:
+            out = array(code)
+            out.frombytes(np.ascontiguousarray(values, dtype=dtype).tobytes())
+            return out
+    raise AssertionError("int64 holds every value")  # pragma: no cover
+
+
+def int_items_as_array(items: array[int]) -> np.ndarray:
+    """The items of an array('b' / 'h' / 'i' / 'q') as a numpy array sharing its memory."""
+    return np.frombuffer(items, dtype=np.dtype(f"i{items.itemsize}"))
 
 
 class Labels(_TextsWhenRead):
