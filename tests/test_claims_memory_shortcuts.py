@@ -16,9 +16,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from verify.io.claims import rounding
+from verify.io.claims import rows as rows_module
 from verify.io.claims.rows import _plain_cells
 from verify.io.claims.source_csv import SplitRows, _plainly_split
-from verify.io.claims.table import CellTexts, compact_ints, int_items_as_array
+from verify.io.claims.table import CellTexts, MemberIndex, compact_ints, int_items_as_array
 
 CELL = st.one_of(
     st.sampled_from(["M1", "M22", "1.5", "-2", "3e-07", "0", "1.50E+00", "x", "12.40", "7"]),
@@ -154,3 +155,33 @@ def test_rounding_settled_by_chunks_equals_the_whole_column(
     # and each value's allowance is the one-value function's (outside the module's arrays)
     for v, got in zip(values, whole.tolist(), strict=True):
         assert got == rounding.rounding_allowance(v, scale)
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    ids=st.lists(st.sampled_from(["M1", "M2", "M10", "a\nb", "a", "b", ""]), max_size=6),
+    labels=st.lists(st.sampled_from(["M1", "M2", "M10", "a", "b", "x"]), min_size=1, max_size=6),
+)
+def test_labels_found_in_order_by_their_joined_text_as_one_by_one(
+    ids: list[str], labels: list[str]
+) -> None:
+    index = MemberIndex(list(dict.fromkeys(ids)))
+    found = index.joined_in_order("\n".join(labels))
+    looked_up = index.get_indexer(labels)
+    if found is not None:  # taken only when the labels are the first ids in order
+        assert found.tolist() == looked_up.tolist() == list(range(len(labels)))
+    else:
+        assert looked_up.tolist() != list(range(len(labels)))
+
+
+@settings(max_examples=200, deadline=None)
+@given(cells=st.lists(st.text(alphabet="0123456789.-", max_size=4), min_size=1, max_size=30))
+def test_cells_split_by_chunks_are_the_cells(cells: list[str]) -> None:
+    joined = "\n".join(cells)
+    ends = np.append(np.flatnonzero(np.frombuffer(joined.encode(), np.uint8) == 10), len(joined))
+    saved = rows_module.SPLIT_CHUNK
+    rows_module.SPLIT_CHUNK = 3
+    try:
+        assert list(rows_module._split_by_chunks(joined, ends)) == cells
+    finally:
+        rows_module.SPLIT_CHUNK = saved

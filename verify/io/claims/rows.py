@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from array import array
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from itertools import chain
 from operator import itemgetter
@@ -400,13 +400,15 @@ def _plain_joined_spans(
         digit = (raw >= ord("0")) & (raw <= ord("9"))
         if not (digit[points - 1].all() and digit[points + 1].all()):
             return None
+    ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
     try:
         value = np.fromiter(
-            map(float, joined.split("\n") if texts is None else texts), dtype=np.float64, count=n
+            map(float, _split_by_chunks(joined, ends) if texts is None else texts),
+            dtype=np.float64,
+            count=n,
         )
     except ValueError:
         return None
-    ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
     decimals = np.full(n, -1, dtype=np.int64)
     at = np.searchsorted(ends, points)  # each point's cell (a plain number has one at most)
     decimals[at] = ends[at] - points - 1
@@ -432,6 +434,19 @@ def _plain_joined_spans(
             pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
         )
     return value, decimals, joined, ends
+
+
+SPLIT_CHUNK = 8_192  # cells split from a joined column at a time
+
+
+def _split_by_chunks(joined: str, ends: np.ndarray) -> Iterator[str]:
+    """The cells of `joined` (one past each one's end in `ends`), split a few thousand at a time:
+    the strings of a whole column at once were most of the memory of reading its numbers."""
+    n = ends.size
+    for first in range(0, n, SPLIT_CHUNK):
+        last = min(first + SPLIT_CHUNK, n) - 1
+        begin = int(ends[first - 1]) + 1 if first else 0
+        yield from joined[begin : int(ends[last])].split("\n")
 
 
 def _plain_cells(
@@ -520,8 +535,13 @@ def read_bulk(
         joined if joined is not None else grid.columns(start, stop, indexes)
     )
     first = cells_of[0]
-    labels = _cells_of_text(first) if isinstance(first, str) else first
-    member = member_ids.get_indexer(labels)
+    # The labels of a table listing the members in the model's order (the common export) are
+    # found by one comparison of texts; split into strings only when some label is looked up.
+    member = member_ids.joined_in_order(first) if isinstance(first, str) else None
+    labels: list[Cell] | None = None
+    if member is None:
+        labels = _cells_of_text(first) if isinstance(first, str) else first
+        member = member_ids.get_indexer(labels)
     ok = member >= 0
     values, decimals_of, spans_of = [], [], []
     texts_of: list[list[Cell] | str] = list(cells_of[1:])
@@ -537,7 +557,10 @@ def read_bulk(
     named = np.full(stop - start, -1, dtype=np.int64)
     named[ok] = member[ok]
     match = reader.matcher.match
+    if others.size and labels is None:
+        labels = _cells_of_text(cast(str, first))
     for i in others.tolist():
+        assert labels is not None
         cell = labels[i]
         label_text = cell if type(cell) is str else cell_text(cell)
         if label_text:

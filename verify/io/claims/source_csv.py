@@ -231,24 +231,30 @@ class SplitRows(Sequence[list[Cell]]):
         raw = np.frombuffer(block.encode("ascii"), dtype=np.uint8)
         del block
         delimiter = ord(self._delimiter)
-        ends = np.flatnonzero((raw == delimiter) | (raw == ord("\n")))  # each cell's terminator
+        terminator = np.zeros(256, dtype=bool)
+        terminator[[delimiter, ord("\n")]] = True
+        ends = np.flatnonzero(terminator[raw])  # each cell's terminator
         if ends.size != len(lines) * width:
             return None
-        begins = np.empty_like(ends)
-        begins[0] = 0
-        begins[1:] = ends[:-1] + 1
         out = []
         for i in indexes:
             # +1 where a cell of the column begins, -1 past its terminator: the running sum is
             # 1 on the column's bytes (cells of one column never overlap; with one column a
             # cell's -1 and the next one's +1 fall on the same byte and cancel).
+            stops = ends[i::width]
+            begins = np.empty_like(stops)
+            if i:
+                begins[:] = ends[i - 1 :: width] + 1
+            else:  # a row's first cell begins past the line break that ends the row above
+                begins[0] = 0
+                begins[1:] = ends[width - 1 : -1 : width] + 1
             mark = np.zeros(raw.size + 1, dtype=np.int8)
-            np.add.at(mark, begins[i::width], 1)
-            np.add.at(mark, ends[i::width] + 1, -1)
-            inside = np.cumsum(mark[:-1], dtype=np.int8).view(bool)
+            np.add.at(mark, begins, 1)
+            np.add.at(mark, stops + 1, -1)
+            del begins, stops
+            np.cumsum(mark, dtype=np.int8, out=mark)
+            taken = raw[mark[:-1].view(bool)]
             del mark
-            taken = raw[inside]
-            del inside
             taken[taken == delimiter] = ord("\n")
             out.append(taken[:-1].tobytes().decode("ascii"))
         return out

@@ -55,6 +55,14 @@ class MemberIndex:
             )
         return out
 
+    def joined_in_order(self, joined: str) -> np.ndarray | None:
+        """get_indexer of the labels joined by line breaks in `joined` (none holding one), when
+        they are the first member ids in order (positions 0, 1, ...); else None."""
+        n = joined.count("\n") + 1
+        if n > len(self._ids) or joined != "\n".join(self._ids[:n]):
+            return None  # an id holding a break gives more breaks than labels: never equal
+        return np.arange(n, dtype=np.int64)
+
     def tolist(self) -> list[str]:
         return list(self._ids)
 
