@@ -249,8 +249,12 @@ class SplitRows(Sequence[list[Cell]]):
                 begins[0] = 0
                 begins[1:] = ends[width - 1 : -1 : width] + 1
             mark = np.zeros(raw.size + 1, dtype=np.int8)
-            np.add.at(mark, begins, 1)
-            np.add.at(mark, stops + 1, -1)
+            if width > 1:  # a cell's end and the next one's start in the column never meet
+                mark[begins] = 1
+                mark[stops + 1] = -1
+            else:
+                np.add.at(mark, begins, 1)
+                np.add.at(mark, stops + 1, -1)
             del begins, stops
             np.cumsum(mark, dtype=np.int8, out=mark)
             taken = raw[mark[:-1].view(bool)]
