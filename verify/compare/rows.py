@@ -103,7 +103,8 @@ class Labels:
     """Words from a short list (or member ids), one code per row."""
 
     def __init__(self, codes: np.ndarray, labels: Sequence[str]) -> None:
-        self.codes = np.asarray(codes, dtype=np.int64)
+        # Four bytes a code: enough for any list of labels, half a 10^6-row column's memory.
+        self.codes = np.asarray(codes, dtype=np.int32)
         self.labels = list(labels)
         self._code_of: dict[str, int] | None = None
 
@@ -179,10 +180,7 @@ class Written:
         if (claims < 0).any() or any(start <= i < stop for i in self.set_texts):
             return None
         picked = claims.tolist()
-        if len(picked) > 1:
-            cells = list(itemgetter(*picked)(self.cells))
-        else:
-            cells = [self.cells[k] for k in picked]
+        cells = _cells_of(self.cells, claims, picked)
         if not all(cells):
             return None
         split = getattr(self.where, "split", None)  # Places: row numbers and column texts
@@ -198,11 +196,10 @@ class Written:
         n = claims.size
         has = claims >= 0
         picked = claims[has].tolist()
+        cells = _cells_of(self.cells, claims[has], picked)
         if len(picked) > 1:
-            cells = list(itemgetter(*picked)(self.cells))
             where = list(itemgetter(*picked)(self.where))
         else:
-            cells = [self.cells[k] for k in picked]
             where = [self.where[k] for k in picked]
         if not all(cells):  # a claim built in memory without its cell: spelled from its value
             cells = [cell or self.spelled(k) for cell, k in zip(cells, picked, strict=True)]
@@ -217,6 +214,17 @@ class Written:
             if start <= i < stop:
                 out[i - start] = text
         return out
+
+
+def _cells_of(cells: Sequence[str], claims: np.ndarray, picked: list[int]) -> list[str]:
+    """`[cells[k] for k in picked]` (`claims` the same positions as an array); the claims' cells
+    kept as one text (verify.io.claims.table.CellTexts) are cut from it all at once."""
+    take = getattr(cells, "take", None)
+    if take is not None:
+        return list(take(claims))
+    if len(picked) > 1:
+        return list(itemgetter(*picked)(cells))
+    return [cells[k] for k in picked]
 
 
 class Plain:

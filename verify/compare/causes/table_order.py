@@ -52,13 +52,12 @@ def shifted_runs(frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray) -> l
             lo, hi = max(0, -offset), min(n, n - offset)
             if hi - lo < MIN_RUN:
                 continue
-            i = np.arange(lo, hi)
-            own = order[i]
-            other = order[i + offset]
+            own = order[lo:hi]  # slices: no index arrays made per offset
+            other = order[lo + offset : hi + offset]
             y = frame.claimed[own]
             c = computed[other]
             allowed = allowance(frame.rtol, y, c, frame.atol[other], frame.rounding[own])
-            ok[i] = np.abs(y - c) <= allowed
+            ok[lo:hi] = np.abs(y - c) <= allowed
             ok &= ~taken
             # maximal runs of consecutive rows that read shifted; count the disagreeing ones
             edges = np.flatnonzero(np.diff(np.concatenate([[0], ok.astype(np.int8), [0]])))

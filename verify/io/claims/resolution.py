@@ -88,19 +88,24 @@ def settle_rounding(
     """Each claim's rounding allowance in its own unit: half a unit in the last decimal (as the
     cell shows them when it does: '10.00' was written to the hundredth, not the unit), widened
     for a column written to 2 or 3 significant figures or judged rounded to a step."""
-    ones = np.ones(value.shape)
-    rounding = rounding_allowances(value, ones)
-    shown = decimals >= 0
-    rounding[shown] = np.minimum(
-        rounding[shown], 0.5 * 10.0 ** (-decimals[shown].astype(float)) * 1.0001
-    )
+    rounding = rounding_allowances(value, 1.0)  # in the value's own unit: a scale of one
+    shown = np.flatnonzero(decimals >= 0)
+    # min(allowance, 0.5 * 10^-decimals * 1.0001), worked in one temporary array
+    written = decimals[shown].astype(float)
+    np.negative(written, out=written)
+    np.power(10.0, written, out=written)
+    written *= 0.5
+    written *= 1.0001
+    np.minimum(rounding[shown], written, out=written)
+    rounding[shown] = written
+    del written, shown
     steps = {r.column: r.step for r in resolutions}
     for k, name in enumerate(names):
         picked = (column == k) & is_member
         if not picked.any():
             continue
         rounding[picked] = np.maximum(
-            rounding[picked], significant_figure_allowances(value[picked], ones[picked])
+            rounding[picked], significant_figure_allowances(value[picked], 1.0)
         )
         if name in steps:
             rounding[picked] = np.maximum(rounding[picked], 0.5 * steps[name] * 1.0001)

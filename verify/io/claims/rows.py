@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from array import array
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from itertools import chain
 from operator import itemgetter
@@ -19,6 +19,7 @@ from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
 from verify.io.claims.rounding import decimals_as_written, shown_decimals
 from verify.io.claims.table import (
+    CellTexts,
     ClaimArrays,
     ClaimedValue,
     Labels,
@@ -26,6 +27,7 @@ from verify.io.claims.table import (
     Places,
     SignConflict,
     UnmatchedLabel,
+    compact_ints,
 )
 from verify.io.values import (
     MAX_FORCE,
@@ -341,7 +343,7 @@ class BulkClaims:
     numbers: np.ndarray  # int64: the file / sheet row number of each claim
     parts: tuple[tuple[str, str], ...] | None  # per value column, its place around the number
     where: list[str] | None  # each claim's place, made here only when `parts` cannot say it
-    text: list[str]
+    text: list[str] | CellTexts  # each claim's cell as written
 
 
 # The characters of a column of plain numbers joined by line breaks; numpy checks them all at once.
@@ -352,8 +354,17 @@ _NUMBER_BYTES[list(b"0123456789+-.eE\n")] = True
 def _plain_text_column(
     cells: list[Cell], decimal_comma: bool
 ) -> tuple[np.ndarray, np.ndarray] | None:
-    """(value, decimals shown) when every cell is text PLAIN_NUMBER reads, else None; checked on
-    the column joined into one text, instead of a regular expression per cell.
+    """(value, decimals shown) when every cell is text PLAIN_NUMBER reads, else None."""
+    found = _plain_text_spans(cells, decimal_comma)
+    return None if found is None else (found[0], found[1])
+
+
+def _plain_text_spans(
+    cells: list[Cell], decimal_comma: bool
+) -> tuple[np.ndarray, np.ndarray, str, np.ndarray] | None:
+    """(value, decimals shown, the cells joined by line breaks, one past the end of each cell in
+    that text) when every cell is text PLAIN_NUMBER reads, else None; checked on the column
+    joined into one text, instead of a regular expression per cell.
 
     Only digits, signs, points, e/E and the joining breaks; a digit on each side of every point;
     and float() reading every cell. With those characters float() refuses what PLAIN_NUMBER
@@ -365,8 +376,18 @@ def _plain_text_column(
         joined = "\n".join(texts)
     except TypeError:
         return None
-    if not n or joined.count("\n") != n - 1 or not joined.isascii():
+    if not n or joined.count("\n") != n - 1:
         return None  # a break inside a cell (a quoted field) would split it in two
+    return _plain_joined_spans(joined, n, decimal_comma, texts)
+
+
+def _plain_joined_spans(
+    joined: str, n: int, decimal_comma: bool, texts: list[str] | None = None
+) -> tuple[np.ndarray, np.ndarray, str, np.ndarray] | None:
+    """_plain_text_spans of the `n` cells joined by line breaks in `joined` (no cell holding a
+    break); `texts`, the cells themselves when at hand, else split from `joined` for float()."""
+    if not joined.isascii():
+        return None
     if decimal_comma and "." in joined:
         return None
     raw = np.frombuffer(joined.encode("ascii"), dtype=np.uint8)
@@ -379,11 +400,15 @@ def _plain_text_column(
         digit = (raw >= ord("0")) & (raw <= ord("9"))
         if not (digit[points - 1].all() and digit[points + 1].all()):
             return None
+    ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
     try:
-        value = np.fromiter(map(float, texts), dtype=np.float64, count=n)
+        value = np.fromiter(
+            map(float, _split_by_chunks(joined, ends) if texts is None else texts),
+            dtype=np.float64,
+            count=n,
+        )
     except ValueError:
         return None
-    ends = np.append(np.flatnonzero(raw == ord("\n")), raw.size)  # one past each cell's end
     decimals = np.full(n, -1, dtype=np.int64)
     at = np.searchsorted(ends, points)  # each point's cell (a plain number has one at most)
     decimals[at] = ends[at] - points - 1
@@ -408,19 +433,43 @@ def _plain_text_column(
         decimals[cell] = np.where(
             pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
         )
-    return value, decimals
+    return value, decimals, joined, ends
+
+
+SPLIT_CHUNK = 8_192  # cells split from a joined column at a time
+
+
+def _split_by_chunks(joined: str, ends: np.ndarray) -> Iterator[str]:
+    """The cells of `joined` (one past each one's end in `ends`), split a few thousand at a time:
+    the strings of a whole column at once were most of the memory of reading its numbers."""
+    n = ends.size
+    for first in range(0, n, SPLIT_CHUNK):
+        last = min(first + SPLIT_CHUNK, n) - 1
+        begin = int(ends[first - 1]) + 1 if first else 0
+        yield from joined[begin : int(ends[last])].split("\n")
 
 
 def _plain_cells(
-    cells: list[Cell], decimal_comma: bool
-) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
-    """(value, plain, decimals) for a column of cells: plain where the cell is a number with
-    nothing to interpret (the cells plain_number reads, or a workbook's float); parsed in one
-    numpy call. `decimals` (as _decimals_shown counts them) when every cell is such text."""
-    n = len(cells)
-    whole = _plain_text_column(cells, decimal_comma)
+    column: list[Cell] | str, decimal_comma: bool
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, tuple[str, np.ndarray] | None]:
+    """(value, plain, decimals, spans) for a column of cells: plain where the cell is a number
+    with nothing to interpret (the cells plain_number reads, or a workbook's float); parsed in
+    one numpy call. `decimals` (as _decimals_shown counts them) and `spans` (the cells joined by
+    line breaks, and one past each one's end there) when every cell is such text. `column` is
+    the cells, or their texts joined by line breaks (a plain file: no cell empty or holding a
+    break), split here only when some cell is not a plain number."""
+    if isinstance(column, str):
+        n = column.count("\n") + 1
+        whole = _plain_joined_spans(column, n, decimal_comma)
+        cells: list[Cell] = [] if whole is not None else _cells_of_text(column)
+    else:
+        cells = column
+        n = len(cells)
+        whole = _plain_text_spans(cells, decimal_comma)
+    spans = None
     if whole is not None:
-        value, decimals = whole
+        value, decimals, joined, ends = whole
+        spans = (joined, ends)
         plain = np.ones(n, dtype=bool)
         at = np.arange(n)
     else:
@@ -453,7 +502,11 @@ def _plain_cells(
         if floats.any():
             value[floats] = [cells[i] for i in np.flatnonzero(floats).tolist()]
             plain |= floats
-    return value, plain, decimals
+    return value, plain, decimals, spans
+
+
+def _cells_of_text(joined: str) -> list[Cell]:
+    return cast("list[Cell]", joined.split("\n"))
 
 
 def _take(items: list[Cell], at: list[int]) -> list[Cell]:
@@ -472,23 +525,42 @@ def read_bulk(
     grid = reader.grid
     label_at = reader.member_h.index
     columns = reader.columns
-    cells_of = grid.columns(start, stop, [label_at] + [v.index for v in columns])
-    labels = cells_of[0]
-    member = member_ids.get_indexer(labels)
+    indexes = [label_at] + [v.index for v in columns]
+    # A plain CSV file gives each column's texts joined by line breaks, cut from its rows without
+    # a string per cell (a 10^5-row table of three columns made 3x10^5 strings at once, most of
+    # the reading's memory); the labels are split from theirs, the numbers parsed from theirs.
+    joined_of = getattr(grid.rows, "joined_columns", None)
+    joined = joined_of(start, stop, indexes) if joined_of is not None else None
+    cells_of: list[list[Cell]] | list[str] = (
+        joined if joined is not None else grid.columns(start, stop, indexes)
+    )
+    first = cells_of[0]
+    # The labels of a table listing the members in the model's order (the common export) are
+    # found by one comparison of texts; split into strings only when some label is looked up.
+    member = member_ids.joined_in_order(first) if isinstance(first, str) else None
+    labels: list[Cell] | None = None
+    if member is None:
+        labels = _cells_of_text(first) if isinstance(first, str) else first
+        member = member_ids.get_indexer(labels)
     ok = member >= 0
-    values, texts_of, decimals_of = [], cells_of[1:], []
+    values, decimals_of, spans_of = [], [], []
+    texts_of: list[list[Cell] | str] = list(cells_of[1:])
     for cells in texts_of:
-        value, plain, decimals = _plain_cells(cells, grid.decimal_comma)
+        value, plain, decimals, spans = _plain_cells(cells, grid.decimal_comma)
         ok &= plain
         values.append(value)
         decimals_of.append(decimals)
+        spans_of.append(spans)
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
     named = np.full(stop - start, -1, dtype=np.int64)
     named[ok] = member[ok]
     match = reader.matcher.match
+    if others.size and labels is None:
+        labels = _cells_of_text(cast(str, first))
     for i in others.tolist():
+        assert labels is not None
         cell = labels[i]
         label_text = cell if type(cell) is str else cell_text(cell)
         if label_text:
@@ -503,19 +575,19 @@ def read_bulk(
     if not picked.size or not k:
         return None, list(range(start, stop))
     value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
-    if picked.size < stop - start:
-        texts_of = [_take(texts_of[j], picked.tolist()) for j in range(k)]
-    cells = list(chain.from_iterable(zip(*texts_of, strict=True))) if k > 1 else texts_of[0]
-    texts_only = all(d is not None for d in decimals_of)  # every cell text (plain numbers)
-    text = (
-        cast("list[str]", cells)
-        if texts_only
-        else [c if type(c) is str else cell_text(c) for c in cells]
-    )
-    if texts_only:
+    text: list[str] | CellTexts
+    if all(spans is not None for spans in spans_of):  # every cell text (plain numbers)
+        text = _cell_spans(cast("list[tuple[str, np.ndarray]]", spans_of), picked)
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
+        split_of = [_cells_of_text(t) if isinstance(t, str) else t for t in texts_of]
+        if picked.size < stop - start:
+            split_of = [_take(split_of[j], picked.tolist()) for j in range(k)]
+        cells = list(chain.from_iterable(zip(*split_of, strict=True))) if k > 1 else split_of[0]
+        del split_of
+        text = [c if type(c) is str else cell_text(c) for c in cells]
         shown = _decimalsshown_decimals(text, value)
+    del cells_of, texts_of, labels
     grid_rows = np.repeat(picked + start, k)
     slot = np.tile(np.arange(k, dtype=np.int64), picked.size)
     found_parts = [grid.where_parts(v.index, v.header) for v in columns]
@@ -541,6 +613,27 @@ def read_bulk(
             text=text,
         ),
         general,
+    )
+
+
+def _cell_spans(spans_of: list[tuple[str, np.ndarray]], picked: np.ndarray) -> CellTexts:
+    """The cells of rows `picked` of these columns (each joined by line breaks, with one past
+    each cell's end), in claim order (row by row, then column by column), cut from the columns
+    joined into one text when asked."""
+    base = 0
+    starts, stops = [], []
+    for joined, ends in spans_of:
+        begins = np.empty_like(ends)
+        begins[0] = 0
+        begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
+        starts.append(begins[picked] + base)
+        stops.append(ends[picked] + base)
+        base += len(joined)
+    return CellTexts(
+        "".join(joined for joined, _ in spans_of),
+        np.column_stack(starts).ravel(),
+        np.column_stack(stops).ravel(),
+        {},
     )
 
 
@@ -646,7 +739,7 @@ def assemble_claims(
     unit_names = [v.unit for v in general]
     decimals = np.fromiter((shown_decimals(v.text, v.value) for v in general), np.int64, n_general)
     where: Sequence[str] = [v.where for v in general]
-    text: list[str] = [v.text for v in general]
+    text: Sequence[str] = [v.text for v in general]
     fixed = np.fromiter((v.sign_fixed for v in general), dtype=bool, count=n_general)
     label: Sequence[str] = [v.label for v in general]
     reaction = {i: v.reaction for i, v in enumerate(general) if v.reaction is not None}
@@ -673,9 +766,11 @@ def assemble_claims(
             rows = np.concatenate([np.asarray(read.value_rows, dtype=np.int64), bulk.rows])
             order = np.argsort(rows, kind="stable")
             position[order] = np.arange(n)
-            take = order.tolist()
-            all_text = text + bulk.text
-            text = [all_text[i] for i in take]
+            if isinstance(bulk.text, CellTexts):
+                text = bulk.text.placed(position[n_general:], n, position[:n_general], text)
+            else:
+                all_text = list(text) + bulk.text
+                text = [all_text[i] for i in order.tolist()]
         else:
             text = bulk.text  # the bulk rows alone: already in table order
         value = _placed(np.concatenate([value, bulk.value]), position)
@@ -765,10 +860,8 @@ def _first_use(codes: np.ndarray, items: list[Any]) -> tuple[tuple[Any, ...], np
 
 
 def _int_array(values: np.ndarray) -> array[int]:
-    """A compact array of Python-int items (8 bytes each, indexed without numpy's scalars)."""
-    out = array("q")
-    out.frombytes(np.ascontiguousarray(values, dtype=np.int64).tobytes())
-    return out
+    """A compact array of Python-int items (indexed without numpy's scalars)."""
+    return compact_ints(values)
 
 
 @dataclass(frozen=True)

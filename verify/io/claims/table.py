@@ -55,6 +55,14 @@ class MemberIndex:
             )
         return out
 
+    def joined_in_order(self, joined: str) -> np.ndarray | None:
+        """get_indexer of the labels joined by line breaks in `joined` (none holding one), when
+        they are the first member ids in order (positions 0, 1, ...); else None."""
+        n = joined.count("\n") + 1
+        if n > len(self._ids) or joined != "\n".join(self._ids[:n]):
+            return None  # an id holding a break gives more breaks than labels: never equal
+        return np.arange(n, dtype=np.int64)
+
     def tolist(self) -> list[str]:
         return list(self._ids)
 
@@ -189,8 +197,8 @@ class Places(_TextsWhenRead):
         picked = np.asarray(positions, dtype=np.int64)
         if self._given and not self._given.keys().isdisjoint(picked.tolist()):
             return None
-        numbers = np.frombuffer(self._numbers, dtype=np.int64)[picked]
-        slots = np.frombuffer(self._slot, dtype=np.int64)[picked]
+        numbers = int_items_as_array(self._numbers)[picked]
+        slots = int_items_as_array(self._slot)[picked]
         texts = list(map(str, numbers.tolist()))
         if slots.size and (slots == slots[0]).all():
             before, after = self._parts[int(slots[0])]
@@ -203,6 +211,74 @@ class Places(_TextsWhenRead):
             texts,
             list(map(afters.__getitem__, codes)),
         )
+
+
+class CellTexts(_TextsWhenRead):
+    """Each claim's cell as written, cut from one text when asked: the cells of the plain rows
+    read in bulk are spans of their columns joined into one text (a string per cell held to the
+    end was 60 bytes each, and pinned the memory of the many strings made and freed beside them
+    while splitting rows); the claims read one by one keep their own text in `given`."""
+
+    __slots__ = ("_start", "_stop", "_text")
+
+    def __init__(
+        self, text: str, start: np.ndarray, stop: np.ndarray, given: dict[int, str]
+    ) -> None:
+        self._text = text  # the cells' columns, joined
+        self._start = compact_ints(start)  # where each claim's cell starts in `text`
+        self._stop = compact_ints(stop)  # and where it ends (one past)
+        self._given = given  # claim position -> cell, for claims that came with theirs
+
+    def __len__(self) -> int:
+        return len(self._start)
+
+    def _made(self, i: int) -> str:
+        return self._text[self._start[i] : self._stop[i]]
+
+    def placed(
+        self, at: np.ndarray, n: int, given_at: np.ndarray, given: Sequence[str]
+    ) -> CellTexts:
+        """These cells put at positions `at` of `n` claims, the `given` texts at `given_at`."""
+        start = np.zeros(n, dtype=np.int64)
+        stop = np.zeros(n, dtype=np.int64)
+        start[at] = int_items_as_array(self._start)
+        stop[at] = int_items_as_array(self._stop)
+        return CellTexts(self._text, start, stop, dict(zip(given_at.tolist(), given, strict=True)))
+
+    def take(self, positions: np.ndarray) -> list[str]:
+        """The cells of these claims, as `[self[i] for i in positions]` gives them."""
+        picked = np.asarray(positions, dtype=np.int64)
+        starts = int_items_as_array(self._start)[picked].tolist()
+        stops = int_items_as_array(self._stop)[picked].tolist()
+        out = list(map(self._text.__getitem__, map(slice, starts, stops)))
+        given = self._given
+        if given and not given.keys().isdisjoint(at := picked.tolist()):
+            for k, i in enumerate(at):
+                if i in given:
+                    out[k] = given[i]
+        return out
+
+
+_INT_CODES = (("b", np.int8), ("h", np.int16), ("i", np.int32), ("q", np.int64))
+
+
+def compact_ints(values: np.ndarray) -> array[int]:
+    """A compact array of Python-int items (indexed without numpy's scalars), in the fewest
+    bytes per item that hold every value (a column slot in one, a row number in four)."""
+    values = np.asarray(values, dtype=np.int64)
+    low, high = (int(values.min()), int(values.max())) if values.size else (0, 0)
+    for code, dtype in _INT_CODES:
+        info = np.iinfo(dtype)
+        if info.min <= low and high <= info.max and array(code).itemsize == info.bits // 8:
+            out = array(code)
+            out.frombytes(np.ascontiguousarray(values, dtype=dtype).tobytes())
+            return out
+    raise AssertionError("int64 holds every value")  # pragma: no cover
+
+
+def int_items_as_array(items: array[int]) -> np.ndarray:
+    """The items of an array('b' / 'h' / 'i' / 'q') as a numpy array sharing its memory."""
+    return np.frombuffer(items, dtype=np.dtype(f"i{items.itemsize}"))
 
 
 class Labels(_TextsWhenRead):
