@@ -202,3 +202,18 @@ def test_words_where_and_take_read_as_the_tuples(made, data):
     picked = data.draw(st.lists(st.integers(0, max(len(tuples) - 1, 0)), max_size=8))
     picked = picked if tuples else []
     assert all(same(a, tuples[i]) for a, i in zip(rows.take(picked), picked, strict=True))
+
+
+def test_words_of_ids_joined_twice_are_found_once_each():
+    """Member ids joined from two label lists (rows with a reaction claim, then the missing
+    claims) read as one code per id, each id once, at a size where a list search per label
+    would take minutes."""
+    n = 50_000
+    ids = [f"M{k}" for k in range(n)]
+    first = Labels(np.arange(n), ids + ["RL0.x"])
+    second = Labels(np.arange(n)[::-1], ids)
+    rows_a = Rows([first] + [Plain(["member"] * n) for _ in Row._fields[1:]])
+    rows_b = Rows([second] + [Plain(["member"] * n) for _ in Row._fields[1:]])
+    codes, words = (rows_a + rows_b).words("id")
+    assert words == ids + ["RL0.x"]
+    assert [words[c] for c in codes.tolist()] == ids + ids[::-1]

@@ -69,3 +69,14 @@ def test_flat_and_single_points() -> None:
     assert len(convex_hull(np.array([[1.0, 1.0]] * 3))) == 1
     assert len(convex_hull(np.array([[0.0, 0.0], [1.0, 1.0], [2.0, 2.0]]))) == 2
     assert convex_hull(np.zeros((0, 2))).shape == (0, 2)
+
+
+def test_pitched_chords_with_decimal_coordinates_have_four_corners() -> None:
+    """Decimal coordinates of a sloped chord are collinear only to round-off: its inner joints
+    are not corners (as qhull, which merges them too)."""
+    i = np.arange(200)
+    bottom = np.column_stack([i * 0.1, i * 0.03])
+    pts = np.vstack([bottom, bottom + [0.0, 1.7]])
+    got = convex_hull(pts)
+    assert len(got) == 4
+    assert _same_ring(pts[ConvexHull(pts).vertices], got)

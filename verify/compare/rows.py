@@ -296,10 +296,15 @@ class Rows(Sequence[Row]):
         if isinstance(column, Labels):
             if len(set(column.labels)) == len(column.labels):
                 return column.codes, column.labels
-            # rows joined from two lists of words: one code per word
-            words = list(dict.fromkeys(column.labels))
-            first = np.array([words.index(w) for w in column.labels], dtype=np.int64)
-            return first[column.codes], words
+            # rows joined from two lists of words: one code per word (a dict, not list.index:
+            # the ids of 10^5 members joined twice)
+            code_of: dict[str, int] = {}
+            first = np.fromiter(
+                (code_of.setdefault(w, len(code_of)) for w in column.labels),
+                np.int64,
+                len(column.labels),
+            )
+            return first[column.codes], list(code_of)
         values = column.chunk(0, len(column))
         labels = list(dict.fromkeys(values))
         code_of = {label: n for n, label in enumerate(labels)}

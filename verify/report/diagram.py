@@ -399,9 +399,20 @@ def convex_hull(pts: np.ndarray) -> np.ndarray:
     a, b = pts[order[0]], pts[order[-1]]  # leftmost (lowest of them), rightmost (highest)
     if np.array_equal(a, b):
         return a.reshape(1, 2)
-    side = _cross(a, b, pts)
-    ring = [a, *_hull_side(a, b, pts[side < 0]), b, *_hull_side(b, a, pts[side > 0])]
+    # Closer to a line than this is on it: decimal coordinates of a pitched chord are collinear
+    # only to round-off.
+    tol = HULL_TOLERANCE * float(np.ptp(pts, axis=0).max())
+    side = _cross(a, b, pts) / float(np.hypot(*(b - a)))
+    ring = [
+        a,
+        *_hull_side(a, b, pts[side < -tol], tol),
+        b,
+        *_hull_side(b, a, pts[side > tol], tol),
+    ]
     return np.array(ring)
+
+
+HULL_TOLERANCE = 1e-9  # of the points' extent
 
 
 def _cross(a: np.ndarray, b: np.ndarray, pts: np.ndarray) -> np.ndarray:
@@ -409,8 +420,14 @@ def _cross(a: np.ndarray, b: np.ndarray, pts: np.ndarray) -> np.ndarray:
     return (b[0] - a[0]) * (pts[:, 1] - a[1]) - (b[1] - a[1]) * (pts[:, 0] - a[0])
 
 
-def _hull_side(a: np.ndarray, b: np.ndarray, pts: np.ndarray) -> list[np.ndarray]:
-    """Hull corners strictly right of a -> b, from a towards b (anticlockwise with y up)."""
+def _right_of(p: np.ndarray, q: np.ndarray, pts: np.ndarray) -> np.ndarray:
+    """The distance of each point to the right of the line p -> q (negative: left of it)."""
+    return -_cross(p, q, pts) / float(np.hypot(*(q - p)))
+
+
+def _hull_side(a: np.ndarray, b: np.ndarray, pts: np.ndarray, tol: float) -> list[np.ndarray]:
+    """Hull corners right of a -> b by more than `tol`, from a towards b (anticlockwise with y
+    up)."""
     corners: list[np.ndarray] = []
     # Depth first with an explicit stack: the part towards `a` is taken first, then the corner.
     pending: list[tuple[np.ndarray, np.ndarray, np.ndarray] | np.ndarray] = [(a, b, pts)]
@@ -422,15 +439,15 @@ def _hull_side(a: np.ndarray, b: np.ndarray, pts: np.ndarray) -> list[np.ndarray
         p, q, candidates = item
         if not len(candidates):
             continue
-        distance = -_cross(p, q, candidates)
-        if distance.max() <= 0:
+        distance = _right_of(p, q, candidates)
+        if distance.max() <= tol:
             continue
         # Of points equally far (a chord of a grid lies parallel to p -> q) only the ends are
         # corners: the one furthest along p -> q.
-        tied = candidates[distance == distance.max()]
+        tied = candidates[distance >= distance.max() - tol]
         far = tied[int(np.argmax((tied - p) @ (q - p)))]
-        first = candidates[-_cross(p, far, candidates) > 0]
-        second = candidates[-_cross(far, q, candidates) > 0]
+        first = candidates[_right_of(p, far, candidates) > tol]
+        second = candidates[_right_of(far, q, candidates) > tol]
         pending.extend([(far, q, second), far, (p, far, first)])
     return corners
 
