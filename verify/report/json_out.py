@@ -306,9 +306,9 @@ def _column_writer(
 
 
 # orjson (3.11.7 on, pyproject.toml) and repr write the same shortest digits in the same layout
-# but for two decades of small numbers: 1e-9 <= |v| < 1e-5, where orjson's exponent has one digit ("2.5e-7", repr
-# "2.5e-07"; repr's exponent form starts at 1e16 above), and 1e-5 <= |v| < 1e-4, which orjson
-# writes positionally ("0.00001", repr "1e-05").
+# but for two decades of small numbers: 1e-9 <= |v| < 1e-5, where orjson's exponent has one
+# digit ("2.5e-7", repr "2.5e-07"; repr's exponent form starts at 1e16 above), and
+# 1e-5 <= |v| < 1e-4, which orjson writes positionally ("0.00001", repr "1e-05").
 ONE_DIGIT_EXPONENT = (1e-9, 1e-5)
 POSITIONAL_DECADE = (1e-5, 1e-4)
 
