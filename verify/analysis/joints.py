@@ -72,6 +72,9 @@ class JointSteps(Sequence[JointStep]):
     def __len__(self) -> int:
         return len(self._plain) // 3 + len(self._others)
 
+    def __repr__(self) -> str:  # a solution's repr names its steps without making them all
+        return f"JointSteps({len(self)} steps)"
+
     def __iter__(self) -> Iterator[JointStep]:
         if self._all is not None:
             yield from self._all

@@ -31,11 +31,8 @@ def _scaled(value: float | None, factor: float) -> float | None:
 
 def deflection_table(review: Review) -> Table | None:
     """Claimed against computed displacements, one row per joint direction and load column."""
-    rows = (
-        review.rows.take(review.rows.where("kind", "displacement"))
-        if isinstance(review.rows, Rows)
-        else [r for r in review.rows if r.kind == "displacement"]
-    )
+    all_rows = review.rows if isinstance(review.rows, Rows) else Rows.of(list(review.rows))
+    rows = all_rows.take(all_rows.where("kind", "displacement"))
     if not rows:
         return None
     unit, factor = shown_length(review.analysis.model.units.length.symbol)
