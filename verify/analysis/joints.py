@@ -342,7 +342,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
             # is the incidence order whatever the number of columns).
             c1 = c2 = -1
             a1 = b1 = a2 = b2 = 0.0
-            row = joint + joint
+            row = joint + joint  # the joint's x equation (two per joint; an add, not a multiply)
             if ncols == 2:
                 x0, y0, x1, y1 = n0_v[row], n0_v[row + 1], n1_v[row], n1_v[row + 1]
                 for p in range(ptr_v[joint], ptr_v[joint + 1]):

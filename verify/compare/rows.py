@@ -179,28 +179,22 @@ class Written:
         claims = self.claim[start:stop]
         if (claims < 0).any() or any(start <= i < stop for i in self.set_texts):
             return None
-        picked = claims.tolist()
-        cells = _cells_of(self.cells, claims, picked)
+        cells = _picked(self.cells, claims)
         if not all(cells):
             return None
         split = getattr(self.where, "split", None)  # Places: row numbers and column texts
         places = split(claims) if split is not None else None
         if places is not None:
             return cells, list(places)
-        if len(picked) > 1:
-            return cells, [list(itemgetter(*picked)(self.where))]
-        return cells, [[self.where[k] for k in picked]]
+        return cells, [_picked(self.where, claims)]
 
     def chunk(self, start: int, stop: int) -> list[Any]:
         claims = self.claim[start:stop]
         n = claims.size
         has = claims >= 0
         picked = claims[has].tolist()
-        cells = _cells_of(self.cells, claims[has], picked)
-        if len(picked) > 1:
-            where = list(itemgetter(*picked)(self.where))
-        else:
-            where = [self.where[k] for k in picked]
+        cells = _picked(self.cells, claims[has])
+        where = _picked(self.where, claims[has])
         if not all(cells):  # a claim built in memory without its cell: spelled from its value
             cells = [cell or self.spelled(k) for cell, k in zip(cells, picked, strict=True)]
         texts = list(map("{} at {}".format, cells, where))
@@ -216,15 +210,16 @@ class Written:
         return out
 
 
-def _cells_of(cells: Sequence[str], claims: np.ndarray, picked: list[int]) -> list[str]:
-    """`[cells[k] for k in picked]` (`claims` the same positions as an array); the claims' cells
-    kept as one text (verify.io.claims.table.CellTexts) are cut from it all at once."""
-    take = getattr(cells, "take", None)
+def _picked(texts: Sequence[str], claims: np.ndarray) -> list[str]:
+    """`[texts[k] for k in claims]`: texts kept as one text (verify.io.claims.table.CellTexts)
+    are cut from it all at once, a list is read by one itemgetter."""
+    take = getattr(texts, "take", None)
     if take is not None:
         return list(take(claims))
+    picked = claims.tolist()
     if len(picked) > 1:
-        return list(itemgetter(*picked)(cells))
-    return [cells[k] for k in picked]
+        return list(itemgetter(*picked)(texts))
+    return [texts[k] for k in picked]
 
 
 class Plain:
@@ -254,6 +249,11 @@ class Rows(Sequence[Row]):
         self.columns = tuple(columns)
         self._n = len(self.columns[0])
         self._tuples: list[Row] | None = None  # made by the first iteration, for the next ones
+
+    @classmethod
+    def as_columns(cls, rows: Sequence[Row]) -> Rows:
+        """`rows` as columns: themselves when they are, else made from the tuples."""
+        return rows if isinstance(rows, Rows) else cls.of(list(rows))
 
     @classmethod
     def of(cls, rows: Sequence[Row]) -> Rows:
@@ -310,10 +310,14 @@ class Rows(Sequence[Row]):
         code_of = {label: n for n, label in enumerate(labels)}
         return np.fromiter(map(code_of.__getitem__, values), np.int64, len(values)), labels
 
+    def holds(self, name: str, *words: str) -> np.ndarray:
+        """Per row, whether its field `name` is one of `words`."""
+        codes, labels = self.words(name)
+        return np.isin(codes, [n for n, w in enumerate(labels) if w in words])
+
     def where(self, name: str, word: str) -> np.ndarray:
         """The positions of the rows whose field `name` is `word`, in order."""
-        codes, labels = self.words(name)
-        return np.flatnonzero(np.isin(codes, [n for n, w in enumerate(labels) if w == word]))
+        return np.flatnonzero(self.holds(name, word))
 
     def take(self, positions: Sequence[int] | np.ndarray) -> list[Row]:
         """The rows at these positions, each made alone (a few thousand of a million)."""

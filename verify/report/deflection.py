@@ -31,7 +31,7 @@ def _scaled(value: float | None, factor: float) -> float | None:
 
 def deflection_table(review: Review) -> Table | None:
     """Claimed against computed displacements, one row per joint direction and load column."""
-    all_rows = review.rows if isinstance(review.rows, Rows) else Rows.of(list(review.rows))
+    all_rows = Rows.as_columns(review.rows)
     rows = all_rows.take(all_rows.where("kind", "displacement"))
     if not rows:
         return None

@@ -341,9 +341,8 @@ class _CaseRows:
 
 def case_rows(review: Review) -> _CaseRows:
     """The review's rows by load column, made once by each renderer and handed to its parts."""
-    rows = review.rows if isinstance(review.rows, Rows) else Rows.of(list(review.rows))
+    rows = Rows.as_columns(review.rows)
     grouped = _CaseRows(rows)
-    kinds, kind_words = rows.words("kind")
     cases, case_words = rows.words("case")
     statuses, status_words = rows.words("status")
     ids, id_words = rows.words("id")
@@ -351,8 +350,7 @@ def case_rows(review: Review) -> _CaseRows:
         [status_category(s) not in ("agrees", "missing") for s in status_words] or [False]
     )
     for kind, into in (("member", grouped.members), ("reaction", grouped.reactions)):
-        of_kind = np.isin(kinds, [n for n, w in enumerate(kind_words) if w == kind])
-        at = np.flatnonzero(of_kind)
+        at = np.flatnonzero(rows.holds("kind", kind))
         for code in dict.fromkeys(cases[at].tolist()):  # load columns as their first rows come
             into[case_words[code]] = at[cases[at] == code]
     for case, at in grouped.members.items():
@@ -470,10 +468,7 @@ def _cap(rows: Rows, at: np.ndarray) -> tuple[list[Row], str]:
     if at.size <= MAX_TABLE_ROWS:
         return rows.take(at), ""
     # Problems first, then the rows that agree or have no claim, shown in table order.
-    statuses, words = rows.words("status")
-    fine = np.isin(
-        statuses[at], [n for n, w in enumerate(words) if w in ("agrees", "missing-claim")]
-    )
+    fine = rows.holds("status", "agrees", "missing-claim")[at]
     problems = np.flatnonzero(~fine)
     chosen = problems[:MAX_TABLE_ROWS]
     if chosen.size < MAX_TABLE_ROWS:

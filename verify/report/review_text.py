@@ -14,10 +14,6 @@ from verify.report.written import table_place, written_at
 MAX_ROWS = 200  # the terminal table is a summary; full tables go to --csv / --report
 
 
-def _codes(words: list[str], word: str) -> list[int]:
-    return [n for n, w in enumerate(words) if w == word]
-
-
 def verdict_line(review: Review) -> str:
     errors = sum(1 for f in review.findings if f.severity is Severity.ERROR)
     model = review.analysis.model
@@ -164,12 +160,10 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
     else:
         lines.append("Findings: none")
     lines.append("")
-    rows = review.rows if isinstance(review.rows, Rows) else Rows.of(list(review.rows))
+    rows = Rows.as_columns(review.rows)
     # picked by the codes of the kind and status columns: a Row is made only for a row shown
-    kinds, kind_words = rows.words("kind")
-    statuses, status_words = rows.words("status")
-    is_displacement = np.isin(kinds, _codes(kind_words, "displacement"))
-    missing_claim = np.isin(statuses, _codes(status_words, "missing-claim"))
+    is_displacement = rows.holds("kind", "displacement")
+    missing_claim = rows.holds("status", "missing-claim")
     displacement_rows = rows.take(np.flatnonzero(is_displacement))
     shown_at = np.flatnonzero(~is_displacement & (all_rows | ~missing_claim))
     force = model.units.force.symbol
@@ -179,7 +173,7 @@ def render_review(review: Review, *, all_rows: bool = False) -> str:
         + ["status"]
     )
     if not all_rows and shown_at.size > MAX_ROWS:
-        agrees = np.isin(statuses[shown_at], _codes(status_words, "agrees"))
+        agrees = rows.holds("status", "agrees")[shown_at]
         shown_at = np.concatenate([shown_at[~agrees], shown_at[agrees]])[:MAX_ROWS]
         lines.append(
             f"Member table (first {MAX_ROWS} rows, problems first; --all-rows or --csv for "

@@ -203,8 +203,7 @@ class Places(_TextsWhenRead):
         if slots.size and (slots == slots[0]).all():
             before, after = self._parts[int(slots[0])]
             return before, texts, after
-        befores = [self._parts[k][0] for k in range(len(self._parts))]
-        afters = [self._parts[k][1] for k in range(len(self._parts))]
+        befores, afters = [b for b, _ in self._parts], [a for _, a in self._parts]
         codes = slots.tolist()
         return (
             list(map(befores.__getitem__, codes)),
