@@ -1,3 +1,3 @@
-from verify.cli import run
+from verify.start import run
 
 run()
