@@ -17,6 +17,7 @@ from fpdf import FPDF
 
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Verdict, compare_claims
+from verify.compare.findings import FindingKind
 from verify.errors import InputError
 from verify.io.case import build_model
 from verify.io.claims import read_claims
@@ -331,3 +332,51 @@ def test_a_page_of_more_columns_than_a_sheet_holds_is_no_claims_table(tmp_path: 
     with pytest.raises(InputError) as info:
         read_claims(_write(pdf, tmp_path / "wide.pdf"), MODEL)
     assert "no table found" in str(info.value)
+
+
+def _comma_rows(members: list[str], wrong: str | None = None) -> list[list[str]]:
+    """The closed-form forces written with decimal commas, as a ';'-separated sheet prints
+    them; `wrong` gets 10 % more dead load (a planted error)."""
+    rows = []
+    for m in members:
+        dead = _force(m, DEAD) * (1.1 if m == wrong else 1.0)
+        rows.append(
+            [m, f"{dead:.2f}".replace(".", ","), f"{_force(m, SNOW):.2f}".replace(".", ",")]
+        )
+    return rows
+
+
+def test_decimal_commas_are_read_as_the_decimal_mark(tmp_path: Path) -> None:
+    """A PDF carries no delimiter to say the table writes decimal commas; its forces do."""
+    pdf = FPDF()
+    header = ["Member", "dead (kN)", "snow (kN)"]
+    _page(pdf, [header, *_comma_rows(list(_members(5)))], [20, 60, 100])
+    table = read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
+    got = {(v.member, v.column): v.value for v in table.values}
+    assert got[("M3", "dead")] == pytest.approx(round(-DEAD / math.sqrt(2), 2), rel=REL)
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def test_a_planted_error_in_a_decimal_comma_table_is_found_where_it_was_written(
+    tmp_path: Path,
+) -> None:
+    pdf = FPDF()
+    header = ["Member", "dead (kN)", "snow (kN)"]
+    _page(pdf, [header, *_comma_rows(list(_members(5)), wrong="M3")], [20, 60, 100])
+    result = compare_claims(analyse(MODEL), read_claims(_write(pdf, tmp_path / "c.pdf"), MODEL))
+    errors = [f for f in result.findings if f.kind is FindingKind.VALUE_MISMATCH]
+    assert result.verdict is Verdict.DISCREPANCIES and [f.members for f in errors] == [("M3",)]
+    assert errors[0].locations == ("page 1 row 6, column 'dead (kN)'",)
+
+
+def test_decimal_points_and_commas_in_one_table_are_not_read_by_guess(tmp_path: Path) -> None:
+    """'7,07' beside '2.83' could be either convention's slip: each comma cell is refused with
+    the row and column where it was written, none is read one way or the other."""
+    rows = _comma_rows(list(_members(5)))
+    rows[2][2] = rows[2][2].replace(",", ".")  # M3 snow written with a point
+    pdf = FPDF()
+    _page(pdf, [["Member", "dead (kN)", "snow (kN)"], *rows], [20, 60, 100])
+    with pytest.raises(InputError) as caught:
+        read_claims(_write(pdf, tmp_path / "calc.pdf"), MODEL)
+    text = str(caught.value)
+    assert "row 6, column 'dead (kN)': force '-7,07'" in text and "decimal point" in text

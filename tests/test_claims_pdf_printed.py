@@ -140,3 +140,39 @@ def test_printed_column_of_text_and_numbers_aligned_apart_is_one_column(printed:
     table = read_claims(printed, MODEL, pages="4")
     assert table.columns == ("dead", "snow") and len(table.values) == 10
     assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES
+
+
+def _print_csv(folder: Path, name: str, text: str) -> Path:
+    """A ';'-separated CSV opened with LibreOffice's CSV filter (';' separated, UTF-8, English
+    locale) and printed to PDF: '7,07' stays text and prints left-aligned, '0' is a number
+    and prints right-aligned in the same column."""
+    (folder / name).write_text(text, encoding="utf-8-sig")
+    subprocess.run(
+        [
+            str(SOFFICE),
+            f"-env:UserInstallation=file://{folder / 'profile'}",
+            "--headless",
+            "--infilter=CSV:59,34,76,1",
+            "--convert-to",
+            "pdf",
+            "--outdir",
+            str(folder),
+            str(folder / name),
+        ],
+        check=True,
+        capture_output=True,
+        timeout=180,
+    )
+    return folder / name.replace(".csv", ".pdf")
+
+
+def test_printed_semicolon_table_with_decimal_commas_agrees(tmp_path: Path) -> None:
+    lines = ["Member;Dead (kN);Snow (kN)"]
+    for m in _members(5):
+        d, s = round(_force(m, DEAD), 2), round(_force(m, SNOW), 2)
+        lines.append(f"{m};{d:g};{s:g}".replace(".", ","))
+    table = read_claims(_print_csv(tmp_path, "forces.csv", "\n".join(lines) + "\n"), MODEL)
+    got = {(v.member, v.column): v.value for v in table.values}
+    assert got[("M3", "Dead")] == pytest.approx(round(-DEAD / 2**0.5, 2), rel=1e-9)
+    assert got[("M4", "Snow")] == 0.0
+    assert compare_claims(analyse(MODEL), table).verdict is Verdict.AGREES

@@ -165,7 +165,24 @@ def _read_pages(document: Any, wanted: list[int], problems: Problems) -> list[Gr
             "under a header"
         )
         return []
-    return [Grid(rows, numbers, None, decimal_comma=False, pages=page_of)]
+    return [Grid(rows, numbers, None, decimal_comma=_decimal_comma(rows), pages=page_of)]
+
+
+# A mark followed by other than three digits cannot group thousands: it is a decimal mark.
+_COMMA_DECIMAL = re.compile(r"\d,(?:\d{1,2}|\d{4,})(?!\d)")
+_POINT_DECIMAL = re.compile(r"\d\.(?:\d{1,2}|\d{4,})(?!\d)")
+
+
+def _decimal_comma(rows: list[list[Cell]]) -> bool:
+    """Whether the table writes ',' as its decimal mark: a PDF carries no delimiter to tell (a
+    ';'-separated CSV does), so its forces tell. Some force cell has a comma that cannot group
+    thousands ('28,1', '6,25', '1.234,5') and none a point that cannot ('28.1', '12,400.5');
+    where both appear the table stays with the point, and each comma cell is refused with a
+    message of its own rather than read one way or the other by guess."""
+    forces = [c for cells in rows for c in cells if isinstance(c, str) and _FORCE_LIKE.match(c)]
+    return any(_COMMA_DECIMAL.search(c) for c in forces) and not any(
+        _POINT_DECIMAL.search(c) for c in forces
+    )
 
 
 def _has_number(cells: list[Cell]) -> bool:
