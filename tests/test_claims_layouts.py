@@ -19,6 +19,7 @@ from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Verdict, compare_claims
 from verify.io.case import build_model
 from verify.io.claims import ClaimsTable, read_claims
+from verify.io.claims.headers import parse_header
 from verify.model import Model
 
 DEAD, SNOW = 10.0, 4.0  # kN at D
@@ -226,3 +227,45 @@ def test_a_letter_against_its_sign_is_reported_on_that_member(tmp_path: Path) ->
     review = compare_claims(analyse(MODEL), table)
     flips = [f for f in review.findings if f.kind == "sign-flip" and f.members == ("M3",)]
     assert flips and flips[0].locations == ("row 4, column 'dead (kN)'",)
+
+
+@pytest.mark.parametrize(
+    ("heading", "name", "unit"),
+    [
+        ("Dead kN", "Dead", "kN"),
+        ("Dead - kN", "Dead", "kN"),
+        ("Dead in kN", "Dead", "kN"),
+        ("Dead/kN", "Dead", "kN"),
+        ("Snow kips", "Snow", "kip"),
+        ("Wind N", "Wind N", None),  # wind from the north, not newtons
+        ("Domain", "Domain", None),
+        ("kN", "kN", None),  # a unit alone: a units row's cell, read elsewhere
+    ],
+)
+def test_a_unit_written_after_the_name_without_brackets(heading: str, name: str, unit: str) -> None:
+    header = parse_header(0, heading)
+    assert (header.name, header.unit) == (name, unit)
+
+
+def test_columns_headed_dead_kn_are_matched_by_name_even_when_their_values_do_not_fit(
+    tmp_path: Path,
+) -> None:
+    """'dead kN' and 'snow kN' name the load cases and state the unit. The snow column comes
+    from a model with twice the snow load (a model mistake planted, not a wrong number): it is
+    still compared with 'snow', where the difference is reported, rather than set aside as a
+    column naming no load case. The honest table with the same headings agrees."""
+    lines = ["Member,dead kN,snow kN"]
+    lines += [f"{m},{_force(m, DEAD):.2f},{_force(m, 2 * SNOW):.2f}" for m in ENDS]
+    path = tmp_path / "doubled.csv"
+    path.write_text("\n".join(lines) + "\n")
+    table = read_claims(path, MODEL)
+    assert table.columns == ("dead", "snow") and {v.unit for v in table.values} == {"kN"}
+    review = compare_claims(analyse(MODEL), table)
+    assert review.verdict is Verdict.DISCREPANCIES
+    assert not [f for f in review.findings if f.kind == "case-mismatch"]
+    wrong = {m for f in review.findings if f.severity.value == "error" for m in f.members}
+    assert wrong == {"M1", "M2", "M3", "M5"}  # M4 is a zero-force member in both models
+    honest = ["Member,dead kN,snow kN"]
+    honest += [f"{m},{_force(m, DEAD):.2f},{_force(m, SNOW):.2f}" for m in ENDS]
+    path.write_text("\n".join(honest) + "\n")
+    _agrees(read_claims(path, MODEL))

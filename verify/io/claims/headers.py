@@ -49,6 +49,13 @@ _HEADER_UNIT = re.compile(
     r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\]|,\s*(?P<c>[^,]+))\s*$"
 )
 
+# A force unit written after the name without brackets ('Dead kN', 'Dead - kN', 'Dead in kN',
+# 'Dead/kN'): only units that cannot be part of a load case's name. 'N' and 't' are left out
+# ('Wind N' is wind from the north).
+_BARE_UNIT = re.compile(
+    r"^(?P<name>.*?[^\s\-/])\s*(?:\s(?:in|-)\s|/|\s)\s*(?P<u>kn|mn|kips?|lbf|kgf)$", re.IGNORECASE
+)
+
 
 def header_key(text: str) -> str:
     return re.sub(r"[\s_\-.:]+", " ", normalize_text(text).casefold()).strip()
@@ -106,6 +113,8 @@ def parse_header(index: int, cell: Cell) -> Header:
             elif "ambiguous" in str(exc):
                 error = str(exc)
                 name = m.group("name").strip()
+    elif (bare := _BARE_UNIT.match(text.strip())) is not None:
+        unit, name = lookup_unit(bare.group("u"), Dimension.FORCE).symbol, bare.group("name")
     key = header_key(name)
     descriptive = other_unit is not None or key in IGNORED_HEADERS
     return Header(index, text, name, key, unit, error, descriptive, other_unit, other_name)
