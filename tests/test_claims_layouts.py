@@ -17,6 +17,7 @@ import pytest
 
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Verdict, compare_claims
+from verify.errors import InputError
 from verify.io.case import build_model
 from verify.io.claims import ClaimsTable, read_claims
 from verify.io.claims.headers import parse_header
@@ -269,3 +270,30 @@ def test_columns_headed_dead_kn_are_matched_by_name_even_when_their_values_do_no
     honest += [f"{m},{_force(m, DEAD):.2f},{_force(m, SNOW):.2f}" for m in ENDS]
     path.write_text("\n".join(honest) + "\n")
     _agrees(read_claims(path, MODEL))
+
+
+def _comma_text(value: float) -> object:
+    """A whole force stays a number; '-7,07' is text, as a ';' file with decimal commas opened
+    with a '.' locale leaves it in the sheet."""
+    rounded = round(value, 2)
+    return rounded if rounded == int(rounded) else f"{rounded:.2f}".replace(".", ",")
+
+
+def test_a_sheet_of_decimal_comma_text_beside_whole_numbers_agrees(tmp_path: Path) -> None:
+    rows: list[list[object]] = [["Member", "dead (kN)", "snow (kN)"]]
+    rows += [[m, _comma_text(_force(m, DEAD)), _comma_text(_force(m, SNOW))] for m in ENDS]
+    assert rows[3][1] == "-7,07" and rows[1][1] == 5.0  # both kinds of cell are in the sheet
+    table = read_claims(_save(rows, tmp_path / "t.xlsx"), MODEL)
+    assert _by(table)[("M3", "dead")] == pytest.approx(-7.07, rel=REL)
+    _agrees(table)
+
+
+def test_a_sheet_mixing_decimal_comma_and_point_text_is_refused_cell_by_cell(
+    tmp_path: Path,
+) -> None:
+    rows: list[list[object]] = [["Member", "dead (kN)", "snow (kN)"]]
+    rows += [[m, _comma_text(_force(m, DEAD)), _comma_text(_force(m, SNOW))] for m in ENDS]
+    rows[5][2] = "-2.83"  # M5 snow typed with a point
+    with pytest.raises(InputError) as caught:
+        read_claims(_save(rows, tmp_path / "t.xlsx"), MODEL)
+    assert "cell B4, column 'dead (kN)': force '-7,07'" in str(caught.value)

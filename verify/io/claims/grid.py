@@ -6,6 +6,7 @@ row, a sheet cell (``sheet 'Forces' cell C7``) or a PDF page row (``page 12 row 
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 from operator import itemgetter
@@ -22,6 +23,25 @@ class Unusable:
 
 
 Cell = str | float | Unusable | None
+
+# A text cell that reads like a force ('5.00', '-7,07', '7.07 C', '(12.4)', '12 400 kN').
+FORCE_LIKE = re.compile(r"^[(+\-\u2212]?\d[\d,. ']*\)?(?:\s*[A-Za-z]{1,3})?(?:\s*[TC])?$")
+# A mark followed by other than three digits cannot group thousands: it is a decimal mark.
+_COMMA_DECIMAL = re.compile(r"\d,(?:\d{1,2}|\d{4,})(?!\d)")
+_POINT_DECIMAL = re.compile(r"\d\.(?:\d{1,2}|\d{4,})(?!\d)")
+
+
+def decimal_comma_written(rows: Sequence[list[Cell]]) -> bool:
+    """Whether the forces written as text use ',' as the decimal mark, for a source with no
+    delimiter to tell (a ';'-separated CSV does): a PDF, or a workbook whose forces were typed
+    or imported as text ('28,1' from a ';' file opened with a '.' locale). Some text cell has a
+    comma that cannot group thousands ('28,1', '6,25', '1.234,5') and none a point that cannot
+    ('28.1', '12,400.5'); where both appear the table stays with the point, and each comma cell
+    is refused with a message of its own rather than read one way or the other by guess."""
+    forces = [c for cells in rows for c in cells if isinstance(c, str) and FORCE_LIKE.match(c)]
+    return any(_COMMA_DECIMAL.search(c) for c in forces) and not any(
+        _POINT_DECIMAL.search(c) for c in forces
+    )
 
 
 def column_letter(index: int) -> str:

@@ -20,7 +20,7 @@ from collections import Counter
 from collections.abc import Sequence
 from typing import Any, NamedTuple
 
-from verify.io.claims.grid import Cell, Grid
+from verify.io.claims.grid import FORCE_LIKE, Cell, Grid, decimal_comma_written
 from verify.io.claims.headers import unit_alone
 from verify.io.claims.problems import Problems, quoted
 
@@ -165,34 +165,14 @@ def _read_pages(document: Any, wanted: list[int], problems: Problems) -> list[Gr
             "under a header"
         )
         return []
-    return [Grid(rows, numbers, None, decimal_comma=_decimal_comma(rows), pages=page_of)]
-
-
-# A mark followed by other than three digits cannot group thousands: it is a decimal mark.
-_COMMA_DECIMAL = re.compile(r"\d,(?:\d{1,2}|\d{4,})(?!\d)")
-_POINT_DECIMAL = re.compile(r"\d\.(?:\d{1,2}|\d{4,})(?!\d)")
-
-
-def _decimal_comma(rows: list[list[Cell]]) -> bool:
-    """Whether the table writes ',' as its decimal mark: a PDF carries no delimiter to tell (a
-    ';'-separated CSV does), so its forces tell. Some force cell has a comma that cannot group
-    thousands ('28,1', '6,25', '1.234,5') and none a point that cannot ('28.1', '12,400.5');
-    where both appear the table stays with the point, and each comma cell is refused with a
-    message of its own rather than read one way or the other by guess."""
-    forces = [c for cells in rows for c in cells if isinstance(c, str) and _FORCE_LIKE.match(c)]
-    return any(_COMMA_DECIMAL.search(c) for c in forces) and not any(
-        _POINT_DECIMAL.search(c) for c in forces
-    )
+    return [Grid(rows, numbers, None, decimal_comma=decimal_comma_written(rows), pages=page_of)]
 
 
 def _has_number(cells: list[Cell]) -> bool:
     """A row with a cell that reads like a force ('5.00', '-7.07', '7.07 C', '(12.4)')."""
     return any(
-        isinstance(c, str) and len(c) <= 40 and _FORCE_LIKE.match(c) is not None for c in cells
+        isinstance(c, str) and len(c) <= 40 and FORCE_LIKE.match(c) is not None for c in cells
     )
-
-
-_FORCE_LIKE = re.compile(r"^[(+\-\u2212]?\d[\d,. ']*\)?(?:\s*[A-Za-z]{1,3})?(?:\s*[TC])?$")
 
 
 class _Glyph(NamedTuple):
@@ -346,7 +326,7 @@ def _lines(glyphs: list[_Glyph], rules: Sequence[tuple[float, float, float]] = (
 
 def _numeric(line: _Line) -> bool:
     """A line with a cell that reads like a force ('5.00', '-7.07', '7.07 C', '(12.4)')."""
-    return any(len(p.text) <= 40 and _FORCE_LIKE.match(p.text) for p in line.phrases)
+    return any(len(p.text) <= 40 and FORCE_LIKE.match(p.text) for p in line.phrases)
 
 
 def _body(lines: list[_Line]) -> list[int]:

@@ -18,7 +18,14 @@ from dataclasses import dataclass
 from typing import Any
 
 from verify.errors import did_you_mean
-from verify.io.claims.grid import Cell, Grid, Unusable, blank, column_letter
+from verify.io.claims.grid import (
+    Cell,
+    Grid,
+    Unusable,
+    blank,
+    column_letter,
+    decimal_comma_written,
+)
 from verify.io.claims.problems import Problems, quoted
 from verify.io.values import MAX_FORCE, MIN_FORCE, in_force_range
 
@@ -148,7 +155,8 @@ def _read_sheets(
                     ]
                 )
             if any(not blank(c) for row in rows for c in row):
-                grids.append(Grid(rows, list(range(1, len(rows) + 1)), title, decimal_comma=False))
+                numbers = list(range(1, len(rows) + 1))
+                grids.append(Grid(rows, numbers, title, decimal_comma_written(rows)))
             elif sheet is not None or len(titles) == 1:
                 problems.add(
                     f"sheet '{title}' is empty; expected a header row such as 'Member', 'dead "
