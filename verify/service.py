@@ -20,7 +20,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from verify.analysis.pipeline import analyse
+from verify.analysis.pipeline import EarlyRoutes, analyse
 from verify.compare.diagnose import Review, SignMode, Verdict, compare_claims
 from verify.compare.tolerances import ATOL_FRACTION, RTOL, Tolerance
 from verify.errors import (
@@ -157,6 +157,23 @@ def check(
     options = options or CheckOptions()
     say("reading the case")
     model = read_case(case_file(case_path), tables_outside=options.tables_anywhere)
+    # The routes that need only the model start now (in a second process on a large truss)
+    # and run while the claims are read.
+    early = EarlyRoutes(model)
+    try:
+        return _check(case_path, claims_path, options, say, model, early)
+    finally:
+        early.cancel()
+
+
+def _check(
+    case_path: str | Path,
+    claims_path: str | Path,
+    options: CheckOptions,
+    say: Callable[[str], None],
+    model: Model,
+    early: EarlyRoutes,
+) -> CheckResult:
     say(f"reading the claims ({len(model.members):,} members)")
     claims = read_claims(
         str(claims_path),
@@ -191,6 +208,7 @@ def check(
         model,
         assume_equal_EA=options.assume_equal_EA,
         displacements=displacement_claims is not None,
+        early=early,
     )
     say("comparing the claims")
     review = compare_claims(

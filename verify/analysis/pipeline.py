@@ -57,41 +57,59 @@ class Analysis:
         return getattr(elastic, "forces", None)
 
 
+class EarlyRoutes:
+    """The method of sections, which needs only the model and its overall reactions, started in
+    a second process on a large truss as soon as the model is read. The caller reads the claims
+    meanwhile and then hands this to `analyse`, which takes its result after screening
+    stability and solving by joints and globally in this process. (The method of joints in the
+    child too measured no faster with the machine busy and 210 MB more at 10^6 members: its
+    steps pickled beside the sections'.)"""
+
+    def __init__(self, model: Model, *, sections: bool = True) -> None:
+        self.model, self.sections = model, sections
+        self.run = AnalysisRun(model)
+        self.run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
+        self.child: Forked[SectionSolution] | None = None
+        if sections and len(model.members) >= PARALLEL_MIN_MEMBERS:
+            from verify.analysis.sections import solve_sections
+
+            self.run.overall_reactions()  # both routes start from these: solved once, here
+            self.child = Forked.start(solve_sections, model)
+
+    def cancel(self) -> None:
+        """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
+        if self.child is not None:
+            self.child.cancel()
+
+
 def analyse(
     model: Model,
     *,
     sections: bool = True,
     assume_equal_EA: float | None = None,
     displacements: bool = False,
+    early: EarlyRoutes | None = None,
 ) -> Analysis:
     """Stability first; then every route the classification allows.
 
     `displacements` asks for the direct stiffness solve of a determinate truss too (joint
-    displacements need stiffness even where statics gives the forces).
+    displacements need stiffness even where statics gives the forces). `early`: the routes
+    started for this model while its claims were read (else they start here).
     """
-    # The section route needs only the loads and the overall reactions: on large trusses it
-    # starts in a second process before the stability screen and is dropped if the truss turns
-    # out not to be stable and determinate.
-    run = AnalysisRun(model)
-    run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
-    child = None
-    if sections and len(model.members) >= PARALLEL_MIN_MEMBERS:
-        from verify.analysis.sections import solve_sections
-
-        run.overall_reactions()  # both routes start from these: solved once, before the fork
-        child = Forked.start(solve_sections, model)
+    # On a large truss the section route runs in a second process from before the stability
+    # screen; it is dropped if the truss turns out not to be stable and determinate.
+    if early is None or early.model is not model or early.sections != sections:
+        early = EarlyRoutes(model, sections=sections)
     try:
         return _routes(
-            run,
-            child,
+            early.run,
+            early.child,
             sections=sections,
             assume_equal_EA=assume_equal_EA,
             displacements=displacements,
         )
     finally:
-        if child is not None:
-            # An error or an interruption on the way: no child or frozen heap left behind.
-            child.cancel()
+        early.cancel()
 
 
 def _routes(
