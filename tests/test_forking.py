@@ -76,3 +76,42 @@ def test_without_fork_the_function_runs_here_when_asked(monkeypatch):
     child = forking.Forked.start(_sleeps, 0.0)
     assert not child.forked
     assert child.result(timeout=0.01) == "woke"  # no child: no time box either
+
+
+CANAL = os.path.join(os.path.dirname(__file__), "..", "cases", "canal-footbridge")
+
+
+@needs_fork
+def test_the_section_child_started_before_the_claims_is_stopped_when_they_are_refused(
+    monkeypatch, tmp_path
+):
+    """service.check forks the section route as soon as the case is read; a claims file that is
+    refused (exit 2) must leave no child behind, and a good one gives what one process gives."""
+    from verify import service
+    from verify.analysis import pipeline
+    from verify.errors import InputError
+
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 1)  # fork even for 21 members
+    started: list[int] = []
+    real_start = forking.Forked.start.__func__
+
+    def recording(cls, function, *args):
+        child = real_start(cls, function, *args)
+        started.append(child.pid)
+        return child
+
+    monkeypatch.setattr(forking.Forked, "start", classmethod(recording))
+    bad = tmp_path / "claims.csv"
+    bad.write_text("Member,dead (kN)\nL0L1,twelve\n")
+    with pytest.raises(InputError):
+        service.check(os.path.join(CANAL, "case.toml"), bad)
+    assert started and started[0] is not None  # the child had been forked before the claims
+    with pytest.raises(ChildProcessError):
+        os.waitpid(started[0], os.WNOHANG)  # stopped and reaped
+    claims = os.path.join(CANAL, "claims.csv")
+    forked = service.check(os.path.join(CANAL, "case.toml"), claims)
+    monkeypatch.setenv(forking.SERIAL_ENV, "1")
+    serial = service.check(os.path.join(CANAL, "case.toml"), claims)
+    assert forked.review.verdict == serial.review.verdict
+    assert forked.review.findings == serial.review.findings
