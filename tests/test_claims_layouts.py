@@ -297,3 +297,64 @@ def test_a_sheet_mixing_decimal_comma_and_point_text_is_refused_cell_by_cell(
     with pytest.raises(InputError) as caught:
         read_claims(_save(rows, tmp_path / "t.xlsx"), MODEL)
     assert "cell B4, column 'dead (kN)': force '-7,07'" in str(caught.value)
+
+
+def test_a_heading_that_names_a_load_case_with_a_unit_in_its_name_is_read_whole(
+    tmp_path: Path,
+) -> None:
+    """Load cases named after their load ('Crane 10 kN', 'Crane 15 kN'): each heading names its
+    case as written, so swapped columns are reported as swapped (not quietly paired with the
+    case their values fit), and the honest table agrees without a case-mismatch note."""
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
+            "members": {m: list(ends) for m, ends in ENDS.items()},
+            "supports": {"A": ["x", "y"], "C": ["y"]},
+            "loads": {"Crane 10 kN": {"D": [0.0, -10.0]}, "Crane 15 kN": {"D": [0.0, -15.0]}},
+        },
+        source="case.toml",
+    )
+    rows = [f"{m},{_force(m, 10.0):.2f},{_force(m, 15.0):.2f}" for m in ENDS]
+    path = tmp_path / "t.csv"
+    path.write_text("\n".join(["Member,Crane 10 kN,Crane 15 kN", *rows]) + "\n")
+    honest = compare_claims(analyse(model), read_claims(path, model))
+    assert honest.verdict is Verdict.AGREES
+    assert not [f for f in honest.findings if f.kind == "case-mismatch"]
+    path.write_text("\n".join(["Member,Crane 15 kN,Crane 10 kN", *rows]) + "\n")
+    swapped = compare_claims(analyse(model), read_claims(path, model))
+    assert swapped.verdict is Verdict.DISCREPANCIES
+    errors = [f for f in swapped.findings if f.severity.value == "error"]
+    assert len(errors) == 2 and all("labelled as 'Crane" in f.detail for f in errors)
+
+
+def test_a_lower_case_mn_after_a_name_is_no_unit() -> None:
+    assert (parse_header(0, "Dead mN").name, parse_header(0, "Dead mN").unit) == ("Dead mN", None)
+    assert parse_header(0, "Dead MN").unit == "MN"
+
+
+def test_labels_like_decimals_do_not_turn_thousands_into_decimals(tmp_path: Path) -> None:
+    """Members named by joint numbers ('1,2') and forces in newtons with thousands commas
+    ('5,000') under a kN heading, typed as text: '5,000' must stay five thousand, so the unit
+    slip is reported; read as 5.000 every claim would wrongly agree."""
+    names = {"M1": "1,2", "M2": "2,3", "M3": "1,4", "M4": "2,4", "M5": "3,4"}
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": {"1": [0.0, 0.0], "2": [3.0, 0.0], "3": [6.0, 0.0], "4": [3.0, 3.0]},
+            "members": {
+                names[m]: [str(" ABCD".index(e)) for e in ends] for m, ends in ENDS.items()
+            },
+            "supports": {"1": ["x", "y"], "3": ["y"]},
+            "loads": {"dead": {"4": [0.0, -DEAD]}, "snow": {"4": [0.0, -SNOW]}},
+        },
+        source="case.toml",
+    )
+    rows: list[list[object]] = [["Member", "dead (kN)", "snow (kN)"]]
+    rows += [
+        [names[m], f"{1000 * _force(m, DEAD):,.0f}", f"{1000 * _force(m, SNOW):,.0f}"] for m in ENDS
+    ]
+    assert rows[1][1] == "5,000" and rows[3][1] == "-7,071"
+    review = compare_claims(analyse(model), read_claims(_save(rows, tmp_path / "t.xlsx"), model))
+    assert review.verdict is Verdict.DISCREPANCIES
+    assert [f.kind for f in review.findings if f.severity.value == "error"] == ["unit-scale"]

@@ -111,6 +111,7 @@ def test_the_section_child_started_before_the_claims_is_stopped_when_they_are_re
         os.waitpid(started[0], os.WNOHANG)  # stopped and reaped
     claims = os.path.join(CANAL, "claims.csv")
     forked = service.check(os.path.join(CANAL, "case.toml"), claims)
+    assert len(started) == 2  # one child per check: the analysis took the early one
     monkeypatch.setenv(forking.SERIAL_ENV, "1")
     serial = service.check(os.path.join(CANAL, "case.toml"), claims)
     assert forked.review.verdict == serial.review.verdict

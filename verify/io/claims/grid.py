@@ -29,18 +29,24 @@ FORCE_LIKE = re.compile(r"^[(+\-\u2212]?\d[\d,. ']*\)?(?:\s*[A-Za-z]{1,3})?(?:\s
 # A mark followed by other than three digits cannot group thousands: it is a decimal mark.
 _COMMA_DECIMAL = re.compile(r"\d,(?:\d{1,2}|\d{4,})(?!\d)")
 _POINT_DECIMAL = re.compile(r"\d\.(?:\d{1,2}|\d{4,})(?!\d)")
+_COMMA_GROUPS = re.compile(r"\d,\d{3}(?!\d)")  # '12,400': a thousands group, or three decimals
 
 
 def decimal_comma_written(rows: Sequence[list[Cell]]) -> bool:
     """Whether the forces written as text use ',' as the decimal mark, for a source with no
     delimiter to tell (a ';'-separated CSV does): a PDF, or a workbook whose forces were typed
     or imported as text ('28,1' from a ';' file opened with a '.' locale). Some text cell has a
-    comma that cannot group thousands ('28,1', '6,25', '1.234,5') and none a point that cannot
-    ('28.1', '12,400.5'); where both appear the table stays with the point, and each comma cell
-    is refused with a message of its own rather than read one way or the other by guess."""
+    comma that cannot group thousands ('28,1', '6,25', '1.234,5'), none a point that cannot
+    ('28.1', '12,400.5') and none a comma that could ('12,400', '0,125'). Cells are looked at
+    before the table's columns are known, so a label such as '1,2' (a member named by its
+    joints) counts too: that is why a comma that could group thousands anywhere keeps the point,
+    where a wrong guess would read '28,125' N as 28.125 kN. The point kept, each comma cell
+    that cannot group thousands is refused with a message of its own: never read by guess."""
     forces = [c for cells in rows for c in cells if isinstance(c, str) and FORCE_LIKE.match(c)]
-    return any(_COMMA_DECIMAL.search(c) for c in forces) and not any(
-        _POINT_DECIMAL.search(c) for c in forces
+    return (
+        any(_COMMA_DECIMAL.search(c) for c in forces)
+        and not any(_POINT_DECIMAL.search(c) for c in forces)
+        and not any(_COMMA_GROUPS.search(c) for c in forces)
     )
 
 

@@ -51,9 +51,10 @@ _HEADER_UNIT = re.compile(
 
 # A force unit written after the name without brackets ('Dead kN', 'Dead - kN', 'Dead in kN',
 # 'Dead/kN'): only units that cannot be part of a load case's name. 'N' and 't' are left out
-# ('Wind N' is wind from the north).
+# ('Wind N' is wind from the north); 'MN' only in capitals ('mN' is not a unit here). A heading
+# that names a load case as written ('Crane 10 kN') is read whole: see whole().
 _BARE_UNIT = re.compile(
-    r"^(?P<name>.*?[^\s\-/])\s*(?:\s(?:in|-)\s|/|\s)\s*(?P<u>kn|mn|kips?|lbf|kgf)$", re.IGNORECASE
+    r"^(?P<name>.*?[^\s\-/])\s*(?:\s(?:in|-)\s|/|\s)\s*(?P<u>(?i:kn|kips?|lbf|kgf)|MN)$"
 )
 
 
@@ -72,6 +73,7 @@ class Header:
     descriptive: bool  # a non-force unit or a known descriptive heading
     other_unit: str | None = None  # a unit that is not a force (stress, length, moment), as written
     other_name: str = ""  # the heading without that unit
+    bare_unit: bool = False  # the unit was written after the name without brackets ('Dead kN')
 
 
 def _length_unit(text: str) -> bool:
@@ -114,10 +116,29 @@ def parse_header(index: int, cell: Cell) -> Header:
                 error = str(exc)
                 name = m.group("name").strip()
     elif (bare := _BARE_UNIT.match(text.strip())) is not None:
-        unit, name = lookup_unit(bare.group("u"), Dimension.FORCE).symbol, bare.group("name")
+        try:
+            unit = lookup_unit(bare.group("u"), Dimension.FORCE).symbol
+        except ValueError:  # not a force unit after all: the heading is a name
+            pass
+        else:
+            name, key = bare.group("name"), header_key(bare.group("name"))
+            return Header(
+                index, text, name, key, unit, None, key in IGNORED_HEADERS, bare_unit=True
+            )
     key = header_key(name)
     descriptive = other_unit is not None or key in IGNORED_HEADERS
     return Header(index, text, name, key, unit, error, descriptive, other_unit, other_name)
+
+
+def whole(header: Header, load_names: set[str]) -> Header:
+    """A heading with a unit written after its name without brackets, read whole (no unit)
+    when the whole of it names a load case ('Crane 10 kN' for load case 'Crane 10 kN');
+    `load_names` case-folded."""
+    name = header.text.strip()
+    if not header.bare_unit or name.casefold() not in load_names:
+        return header
+    key = header_key(name)
+    return Header(header.index, header.text, name, key, None, None, key in IGNORED_HEADERS)
 
 
 def unit_alone(cell: Cell) -> str | None:

@@ -31,6 +31,7 @@ from verify.io.claims.headers import (
     header_key,
     parse_header,
     unit_alone,
+    whole,
 )
 from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.problems import Problems
@@ -179,6 +180,7 @@ def decide_layout(
         if isinstance(cell, Unusable):
             problems.add(f"the header cell {cell.reason}", grid.where(header_r, h.index))
     load_names = {n.casefold() for n in model.load_names}
+    headers = [whole(h, load_names) for h in headers]
     taken: set[int] = set()
     args = (headers, taken, load_names, grid, header_r, problems)
     member_h = _pick_column("member", MEMBER_HEADERS, options.member_column, *args)
