@@ -19,6 +19,7 @@ from verify.compare.convention import (
     _RatioScreen,
     best_fit,
 )
+from verify.compare.diagnose import _one_factor
 from verify.compare.tolerances import Tolerance
 
 NEAR_ONE = [1.02, 0.97, 1.1, 0.9, 1.0 + 1e-7]
@@ -98,3 +99,19 @@ def test_the_identity_alone_counts_every_claim(data):
     assert identity.agree == counts[1] and identity.informative == int(i.sum())
     assert best.agree == max(counts[1], counts[-1])
     assert (best.sign, best.factor) == ((-1, 1.0) if counts[-1] > counts[1] else (1, 1.0))
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    st.lists(
+        st.sampled_from([1.0, 1.0 + 1e-14, 1.0 + 1e-11, 1e-3, 0.0, -0.0, float("nan")])
+        | st.floats(width=64),
+        max_size=8,
+    )
+)
+def test_one_factor_as_the_former_set_of_rounded_factors(factors):
+    """diagnose._one_factor (the table's scale) tells what len(set(...)) == 1 told."""
+    conv = np.array(factors, dtype=np.float64)
+    with np.errstate(all="ignore"):
+        expected = bool(len(conv)) and len(set(np.round(conv, 12))) == 1
+        assert _one_factor(conv) == expected

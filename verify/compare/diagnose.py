@@ -838,9 +838,7 @@ def _table_convention(c: Comparison) -> None:
     effective_sign = stated_sign * sign_fit
     convention = Convention(
         sign="tension-positive" if effective_sign == 1 else "compression-positive",
-        scale=float(
-            scale_fit * (conv[0] if len(conv) and len(set(np.round(conv, 12))) == 1 else 1.0)
-        ),
+        scale=float(scale_fit * (conv[0] if _one_factor(conv) else 1.0)),
         inferred=inferred or scale_fit != 1.0,
         unit=unit_label,
         unit_source=unit_source,
@@ -851,6 +849,14 @@ def _table_convention(c: Comparison) -> None:
     )
     c.convention, c.effective_sign, c.scale_fit = convention, effective_sign, scale_fit
     c.sign_fit = sign_fit
+
+
+def _one_factor(conv: np.ndarray) -> bool:
+    """Whether every claim has the same unit factor (rounded to 12 decimals), as
+    `len(set(np.round(conv, 12))) == 1` tells, compared as an array instead of a set of 2x10^6
+    numpy scalars (as in the set: a NaN equals nothing but itself alone, 0.0 equals -0.0)."""
+    rounded = np.round(conv, 12)
+    return len(conv) == 1 or (len(conv) > 1 and bool((rounded == rounded[0]).all()))
 
 
 # The statuses _rows gives, by code (the causes and reasons below set others by word).
