@@ -115,3 +115,58 @@ def test_one_factor_as_the_former_set_of_rounded_factors(factors):
     with np.errstate(all="ignore"):
         expected = bool(len(conv)) and len(set(np.round(conv, 12))) == 1
         assert _one_factor(conv) == expected
+
+
+def every_claim_best_fit(claimed, fixed, computed, rtol, atol, rounding, factors=None):
+    """best_fit as it was defined before the identity's bound and the screens: every claim
+    counted under every factor, the same choice of the best (strictly more agreeing wins)."""
+    informative = (np.abs(computed) > atol) & (claimed != 0)
+    n = int(informative.sum())
+    c, f, r, a, rd = (x[informative] for x in (claimed, fixed, computed, atol, rounding))
+    candidates = [1.0, *(factors if factors is not None else UNIT_FACTORS)]
+    counted = {factor: _counts_by_sign(c, f, r, rtol, a, rd, factor) for factor in candidates}
+    identity = (1, 1.0, counted[1.0][1], n)
+    best = identity
+    for factor in candidates:
+        for sign in (1, -1):
+            if sign == 1 and factor == 1.0:
+                continue
+            if counted[factor][sign] > best[2]:
+                best = (sign, factor, counted[factor][sign], n)
+    return best, identity
+
+
+def as_tuple(fit):
+    return (fit.sign, fit.factor, fit.agree, fit.informative)
+
+
+@settings(max_examples=300, deadline=None)
+@given(claims(), st.sampled_from([None, (), (1000.0, 1e-3), (1.02, 2.0)]), st.data())
+def test_best_fit_as_counting_every_claim_under_every_factor(data, factors, more):
+    c, fixed, r, rtol, atol, rounding = data
+    rtol = more.draw(st.sampled_from([rtol, 0.5, 0.9, 1.5]))  # wide windows overlap
+    with np.errstate(all="ignore"):
+        best, identity = best_fit(c, fixed, r, rtol, atol, rounding, factors=factors)
+        expected = every_claim_best_fit(c, fixed, r, rtol, atol, rounding, factors)
+    assert (as_tuple(best), as_tuple(identity)) == expected
+
+
+def test_an_honest_table_is_settled_by_the_identity_without_a_screen(monkeypatch):
+    import verify.compare.convention as convention
+
+    rng = np.random.default_rng(6)
+    r = rng.normal(scale=300.0, size=20_000)
+    c = np.round(r, 2)
+    c[:40] = -c[:40]  # a few sign slips
+    c[40:45] *= 1000.0  # and a few values in N
+    args = (c, np.zeros(c.size, bool), r, 0.01, np.full(c.size, 0.3), np.full(c.size, 0.005))
+    made = []
+    monkeypatch.setattr(convention, "_RatioScreen", lambda *a: made.append(1) or _RatioScreen(*a))
+    best, identity = best_fit(*args)
+    assert not made  # no other factor could explain more than the identity does
+    assert (as_tuple(best), as_tuple(identity)) == every_claim_best_fit(*args)
+    # a table in newtons still is read so, through the screen
+    args = (c * 1000.0, *args[1:])
+    best, identity = best_fit(*args)
+    assert made and (best.sign, best.factor) == (1, 1e-3)
+    assert (as_tuple(best), as_tuple(identity)) == every_claim_best_fit(*args)

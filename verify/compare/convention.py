@@ -66,21 +66,62 @@ def _counts_by_sign(
 ) -> dict[int, int]:
     """Claims agreeing for sign +1 and -1 at once: the allowance depends on the sizes only, so it
     is made once per factor (the same numbers: reversing a sign is exact)."""
+    return _agreeing(claimed, fixed, computed, allowed_rel, atol, rounding, factor)[0]
+
+
+def _agreeing(
+    claimed: np.ndarray,
+    fixed: np.ndarray,
+    computed: np.ndarray,
+    allowed_rel: float,
+    atol: np.ndarray,
+    rounding: np.ndarray,
+    factor: float,
+) -> tuple[dict[int, int], np.ndarray]:
+    """_counts_by_sign's counts, and which claims agree for either sign."""
     value = claimed * factor
     allowed = allowance(allowed_rel, value, computed, atol, rounding * factor)
     # |value - computed| for each sign in one temporary array, the signs of the claims without
     # a T/C letter reversed in place for the second (the counts of np.where(fixed, v, -v)).
     gap = np.subtract(value, computed)
     np.abs(gap, out=gap)
-    agree_as_written = int((gap <= allowed).sum())
+    either = gap <= allowed
+    agree_as_written = int(either.sum())
     np.negative(value, out=value, where=~fixed)
     np.subtract(value, computed, out=gap)
     np.abs(gap, out=gap)
-    return {1: agree_as_written, -1: int((gap <= allowed).sum())}
+    reversed_ = gap <= allowed
+    agree_reversed = int(reversed_.sum())
+    either |= reversed_
+    return {1: agree_as_written, -1: agree_reversed}, either
 
 
 SCREEN_SLACK = 0.05  # claims whose atol or rounding exceeds this share of them are always tested
 SCREEN_MARGIN = 1e-6  # widens the ratio window beyond round-off in the ratios themselves
+
+
+def _loose(c: np.ndarray, r: np.ndarray, atol: np.ndarray, rounding: np.ndarray) -> np.ndarray:
+    """The claims whose atol or rounding exceeds SCREEN_SLACK of their size, or whose claim or
+    force is not finite (an infinite allowance agrees with anything): a window of ratios says
+    nothing about them."""
+    size = np.abs(c)
+    with np.errstate(invalid="ignore"):
+        tight = (atol <= SCREEN_SLACK * size) & (np.abs(rounding) <= SCREEN_SLACK * size)
+    tight &= np.isfinite(size)
+    tight &= np.isfinite(r)
+    return ~tight
+
+
+def _window(factor: float, rtol: float) -> tuple[float, float]:
+    """The ratios |computed| / |claimed| of the claims (not loose) that can agree under
+    `factor`, inclusive (0 <= rtol < 1)."""
+    window = max(factor * rtol / (1 - rtol), SCREEN_SLACK, factor * SCREEN_SLACK)
+    window = window * (1 + SCREEN_MARGIN) + SCREEN_MARGIN * factor
+    return factor - window, factor + window
+
+
+def _overlap(a: tuple[float, float], b: tuple[float, float]) -> bool:
+    return a[0] <= b[1] and b[0] <= a[1]
 
 
 class _RatioScreen:
@@ -102,8 +143,8 @@ class _RatioScreen:
         self, c: np.ndarray, r: np.ndarray, atol: np.ndarray, rounding: np.ndarray, rtol: float
     ) -> None:
         size = np.abs(c)
+        loose = _loose(c, r, atol, rounding)
         with np.errstate(divide="ignore", invalid="ignore"):
-            loose = ~((atol <= SCREEN_SLACK * size) & (np.abs(rounding) <= SCREEN_SLACK * size))
             ratio = np.abs(r) / size
         loose |= ~np.isfinite(ratio)
         self.usable = 0 <= rtol < 1 and size.size > 0
@@ -121,10 +162,7 @@ class _RatioScreen:
         self.outside, self.sorted_ratio = outside[order], ratio[outside][order]
 
     def _window(self, factor: float) -> tuple[float, float]:
-        """The ratios of the claims (not loose) that can agree under `factor`, inclusive."""
-        window = max(factor * self.rtol / (1 - self.rtol), SCREEN_SLACK, factor * SCREEN_SLACK)
-        window = window * (1 + SCREEN_MARGIN) + SCREEN_MARGIN * factor
-        return factor - window, factor + window
+        return _window(factor, self.rtol)
 
     def candidates(self, factor: float) -> np.ndarray:
         if not self.usable or not (np.isfinite(factor) and factor > 0):
@@ -165,11 +203,28 @@ def best_fit(
     c, f, r, a, rd = every if n == claimed.size else [x[informative] for x in every]
     del every
     candidates = [1.0] + list(factors if factors is not None else UNIT_FACTORS)
-    # The identity alone (a load column against each load) tests every claim: a screen would
-    # only cost its masks.
-    screen = _RatioScreen(c, r, a, rd, rtol) if len(candidates) > 1 else None
-    counted = {}
-    for factor in candidates:
+    # The identity first, on every claim (its window holds most of them).
+    first, either = _agreeing(c, f, r, rtol, a, rd, 1.0)
+    counted: dict[float, dict[int, int]] = {1.0: first}
+    best_agree = max(counted[1.0][sign] for sign in (1, *signs))
+    # A claim (not loose) that agrees as read, for either sign, has its ratio in the identity's
+    # window: it cannot agree under a factor whose window lies apart. Such a factor can explain
+    # at most the other claims; when they are no more than the identity explains, it cannot win
+    # (a fit must explain strictly more) and is not counted: an honest table is settled by the
+    # identity alone (the same fits: tests/compare/test_convention_scale.py).
+    others = candidates[1:]
+    if others and 0 <= rtol < 1:
+        window = _window(1.0, rtol)
+        beyond = n - int((either & ~_loose(c, r, a, rd)).sum())
+        others = [
+            factor
+            for factor in others
+            if beyond > best_agree or _overlap(_window(factor, rtol), window)
+        ]
+    del either
+    # Without other factors (a load column against each load) no screen is made.
+    screen = _RatioScreen(c, r, a, rd, rtol) if others else None
+    for factor in others:
         at = screen.candidates(factor) if screen is not None else None
         if at is None or 2 * at.size >= n:
             # Most claims are candidates (the identity's window): every claim is tested where it
@@ -183,6 +238,8 @@ def best_fit(
     identity = Fit(1, 1.0, counted[1.0][1], n)
     best = identity
     for factor in candidates:
+        if factor not in counted:
+            continue  # it cannot explain more than the identity (above)
         for sign in signs:
             if sign == 1 and factor == 1.0:
                 continue
