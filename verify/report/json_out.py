@@ -313,14 +313,19 @@ class _NumberTexts:
         shared: list[int] = []  # the column whose texts each column takes
         made: list[int] = []  # columns with texts of their own, in order
         for j, values in enumerate(chunks):
+            if not np.isfinite(values).any():
+                shared.append(j)  # "null" throughout
+                continue
             bits = values.view(np.int64)
-            same = [i for i in made if np.array_equal(bits, chunks[i].view(np.int64))]
-            if same:
-                shared.append(same[0])
-            else:
-                shared.append(j)
-                if np.isfinite(values).any():
-                    made.append(j)
+            same = [
+                i
+                for i in made
+                if bits[0] == chunks[i].view(np.int64)[0]  # most columns differ at once
+                and np.array_equal(bits, chunks[i].view(np.int64))
+            ]
+            shared.append(same[0] if same else j)
+            if not same:
+                made.append(j)
         texts: list[str | list[str]] = ["null"] * len(chunks)
         if made:
             every = float_texts(np.concatenate([chunks[j] for j in made]))
