@@ -43,7 +43,7 @@ def test_random_bit_patterns() -> None:
 def test_strided_and_empty_input() -> None:
     values = np.arange(12, dtype=np.float64).reshape(3, 4)[:, 1] / 7.0
     assert list(float_texts(values)) == [repr(v) for v in values.tolist()]
-    assert float_texts(np.array([], dtype=np.float64)).size == 0
+    assert float_texts(np.array([], dtype=np.float64)) == []
 
 
 def test_document_reads_back_as_json_dumps() -> None:

@@ -34,10 +34,13 @@ class JointImbalance:
 def _incidence(model: Model) -> tuple[sp.csr_matrix, np.ndarray]:
     """Joints x members 0/1 matrix (which members meet at each joint) and each joint's degree."""
     b, nj, ends = len(model.members), len(model.joints), model.ends_index
-    incidence = sp.csr_matrix(
-        (np.ones(2 * b), (np.concatenate([ends[:, 0], ends[:, 1]]), np.tile(np.arange(b), 2))),
+    # Column by column (two entries a member, its ends) and turned into rows: the matrix the
+    # coordinate form gave (rows in order, duplicates summed), without its sort of 2b entries.
+    incidence = sp.csc_matrix(
+        (np.ones(2 * b), np.ascontiguousarray(ends, dtype=np.int64).ravel(), 2 * np.arange(b + 1)),
         shape=(nj, b),
-    )
+    ).tocsr()
+    incidence.sum_duplicates()
     return incidence, np.asarray(incidence.sum(axis=1)).ravel()
 
 

@@ -171,11 +171,14 @@ class Written:
         if self.get(i) != value:
             self.set_texts[i] = value
 
-    def parts(self, start: int, stop: int) -> tuple[list[str], list[str | list[str]]] | None:
+    def parts(
+        self, start: int, stop: int
+    ) -> tuple[list[str], list[str | list[str]], list[str | list[str]]] | None:
         """The cells of rows start..stop and their places as pieces to lay side by side (a text
         shared by every row, or a list with one text per row), when every row has a claim whose
         cell was kept and none was set anew: the JSON writer writes them without joining a
-        string per row."""
+        string per row. Third, the place pieces that may hold any text (not the row numbers,
+        which are digits): the ones a writer must look at for characters to escape."""
         claims = self.claim[start:stop]
         if (claims < 0).any() or any(start <= i < stop for i in self.set_texts):
             return None
@@ -185,8 +188,10 @@ class Written:
         split = getattr(self.where, "split", None)  # Places: row numbers and column texts
         places = split(claims) if split is not None else None
         if places is not None:
-            return cells, list(places)
-        return cells, [_picked(self.where, claims)]
+            before, _numbers, after = places  # the numbers: str of an int each
+            return cells, list(places), [before, after]
+        where: list[str | list[str]] = [_picked(self.where, claims)]
+        return cells, where, where
 
     def chunk(self, start: int, stop: int) -> list[Any]:
         claims = self.claim[start:stop]

@@ -74,6 +74,24 @@ class Tolerance:
 def allowance(rtol: float, claimed: Any, computed: Any, atol: Any, rounding: Any = 0.0) -> Any:
     """Tolerance.allowed for whole arrays (numpy broadcasting): max(rtol * max(|claimed|,
     |computed|), atol, rounding) per claim."""
+    if (
+        isinstance(claimed, np.ndarray)
+        and isinstance(computed, np.ndarray)
+        and claimed.dtype == computed.dtype == np.float64
+        and claimed.ndim > 0
+        and np.broadcast_shapes(
+            claimed.shape, computed.shape, np.shape(rtol), np.shape(atol), np.shape(rounding)
+        )
+        == claimed.shape
+    ):
+        # The same operations in the same order in one array (the convention search calls this
+        # 35 times over up to 2x10^6 claims: four temporary arrays fewer each time).
+        out = np.abs(claimed)
+        np.maximum(out, np.abs(computed), out=out)
+        np.multiply(out, rtol, out=out)
+        np.maximum(out, atol, out=out)
+        np.maximum(out, rounding, out=out)
+        return out
     return np.maximum(
         np.maximum(rtol * np.maximum(np.abs(claimed), np.abs(computed)), atol), rounding
     )

@@ -190,11 +190,10 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
         else [None] * len(table.fields)
     )
     sources += [values for _, values in table.appended]
-    written: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []  # this chunk's number columns
-    writers = [_column_writer(source, level + 2, written) for source in sources]
+    numbers = _NumberTexts([source for source in sources if isinstance(source, Numbers)])
+    writers = [_column_writer(source, level + 2, numbers) for source in sources]
     for start in range(0, len(rows), CHUNK_ITEMS):
         stop = min(start + CHUNK_ITEMS, len(rows))
-        written.clear()
         if isinstance(rows, Rows):
             parts = [write(start, stop) for write in writers[: len(table.fields)]]
         else:
@@ -236,17 +235,14 @@ def _plain(*columns: list[str]) -> bool:
 
 
 def _column_writer(
-    source: Any, level: int, written: list[tuple[np.ndarray, np.ndarray, np.ndarray]]
+    source: Any, level: int, numbers: _NumberTexts
 ) -> Callable[[int, int], list[str | list[str]]]:
     """The JSON pieces of rows start..stop of one column (verify.compare.rows), or of a list: a
     fixed text shared by every row, or a list with one text per row, in order.
 
     A column of one word in the chunk is one fixed text. Strings that need no escape are laid
     between quote pieces as they are (the written cell and where it is, without joining them
-    first). A number column reuses the text of an equal number in a column of the same rows
-    written before it (`written`: values, which are finite, texts): the routes often agree to
-    the last bit (the joints and the sections on a 2D truss, the joints and the global solve on
-    a 3D one), and a float's repr is most of the JSON's cost."""
+    first). Number columns are written by `numbers`, all of a chunk's at once."""
     if isinstance(source, Labels) and len(source.labels) <= LABELS_ENCODED:
         encoded = [_encode(label, level) for label in source.labels]
         label_codes = source.codes
@@ -270,34 +266,19 @@ def _column_writer(
         def cells(start: int, stop: int) -> list[str | list[str]]:
             parts = source.parts(start, stop)
             if parts is not None:
-                cells, where = parts
-                if _plain(cells, *[[p] if isinstance(p, str) else p for p in where]):
+                cells, where, unchecked = parts
+                if _plain(cells, *[[p] if isinstance(p, str) else p for p in unchecked]):
                     return ['"', cells, " at ", *where, '"']
             return [_column_text(source.chunk(start, stop), level)]
 
         return cells
     if isinstance(source, Numbers):
-        values, present = source.values, source.present
+        column = numbers.columns.index(source)
 
-        def numbers(start: int, stop: int) -> list[str | list[str]]:
-            chunk = values[start:stop]
-            # absent (None), NaN or infinite: null, as json.dumps writes NaN
-            finite = present[start:stop] & np.isfinite(chunk)
-            texts = np.empty(chunk.size, dtype=object)  # every entry is set below
-            texts[~finite] = "null"
-            todo = finite.copy()
-            sign = np.signbit(chunk)  # 0.0 == -0.0, but their texts differ
-            for before, finite_before, texts_before in written:
-                same = todo & finite_before & (chunk == before) & (sign == np.signbit(before))
-                if same.any():
-                    texts[same] = texts_before[same]
-                    todo &= ~same
-            if todo.any():
-                texts[todo] = float_texts(chunk[todo])
-            written.append((chunk, finite, texts))
-            return [texts.tolist()]
+        def number_texts(start: int, stop: int) -> list[str | list[str]]:
+            return [numbers.texts(column, start, stop)]
 
-        return numbers
+        return number_texts
     if source is None:  # a field of a sequence of tuples: transposed by the caller
         return lambda start, stop: []
     if hasattr(source, "chunk"):
@@ -305,33 +286,127 @@ def _column_writer(
     return lambda start, stop: [_column_text(source[start:stop], level)]
 
 
+class _NumberTexts:
+    """The texts of the number columns of a RowTable, made for a whole chunk of rows at once
+    (one float_texts call for every column of the chunk: its fixed costs paid once, not per
+    column). A column whose values in the chunk are those of a column before it, bit for bit,
+    shares its texts (the routes often agree to the last bit: the joints and the global solve
+    on a 3D truss); a column with no finite value in the chunk is the one fixed text "null"."""
+
+    def __init__(self, columns: list[Numbers]) -> None:
+        self.columns = columns
+        self._start = -1
+        self._texts: list[str | list[str]] = []
+
+    def texts(self, column: int, start: int, stop: int) -> str | list[str]:
+        if start != self._start:
+            self._texts = self._made(start, stop)
+            self._start = start
+        return self._texts[column]
+
+    def _made(self, start: int, stop: int) -> list[str | list[str]]:
+        chunks: list[np.ndarray] = []
+        for column in self.columns:
+            values, present = column.values[start:stop], column.present[start:stop]
+            # absent (None), NaN or infinite: null (as json.dumps writes NaN; orjson writes null)
+            chunks.append(values if present.all() else np.where(present, values, np.nan))
+        shared: list[int] = []  # the column whose texts each column takes
+        made: list[int] = []  # columns with texts of their own, in order
+        for j, values in enumerate(chunks):
+            if not np.isfinite(values).any():
+                shared.append(j)  # "null" throughout
+                continue
+            bits = values.view(np.int64)
+            same = [
+                i
+                for i in made
+                if bits[0] == chunks[i].view(np.int64)[0]  # most columns differ at once
+                and np.array_equal(bits, chunks[i].view(np.int64))
+            ]
+            shared.append(same[0] if same else j)
+            if not same:
+                made.append(j)
+        texts: list[str | list[str]] = ["null"] * len(chunks)
+        if made:
+            every = float_texts(np.concatenate([chunks[j] for j in made]))
+            m = stop - start
+            for n, j in enumerate(made):
+                texts[j] = every[n * m : (n + 1) * m]
+        return [texts[i] for i in shared]
+
+
 # orjson (3.11.7 on, pyproject.toml) and repr write the same shortest digits in the same layout
 # but for two decades of small numbers: 1e-9 <= |v| < 1e-5, where orjson's exponent has one
 # digit ("2.5e-7", repr "2.5e-07"; repr's exponent form starts at 1e16 above), and
-# 1e-5 <= |v| < 1e-4, which orjson writes positionally ("0.00001", repr "1e-05").
+# 1e-5 <= |v| < 1e-4, which orjson writes positionally ("0.000025", repr "2.5e-05").
 ONE_DIGIT_EXPONENT = (1e-9, 1e-5)
 POSITIONAL_DECADE = (1e-5, 1e-4)
+_E, _MINUS, _COMMA, _ZERO, _DOT = b"e-,0."
+_POSITIONAL = b"0.0000"  # how orjson begins a number of the positional decade (after a sign)
+_EXPONENT_05 = np.frombuffer(b"e-05", dtype=np.uint8)
+_CUT = 0  # a byte no JSON number text holds: marks the bytes to drop
 
 
-def float_texts(values: np.ndarray) -> np.ndarray:
-    """float.__repr__ of each finite float64 of `values` (as json.dumps writes it), as an
-    array of str objects: orjson's texts (five times faster than repr), with a zero put into
-    one-digit exponents (round-off of zero-force members is common: a sixth of a Pratt truss's
-    values) and repr for the decade orjson writes positionally (tests/test_json_float_texts.py
-    holds every range to repr)."""
+def float_texts(values: np.ndarray) -> list[str]:
+    """json.dumps' text of each float64 of `values`: float.__repr__ of a finite one, "null" for
+    NaN and infinities. orjson writes the texts (five times faster than repr) for the whole
+    array in one call; the two decades it lays out differently from repr are mended in its
+    bytes (a zero put into one-digit exponents: round-off of zero-force members is common, a
+    sixth of a Pratt truss's values; the positional decade rewritten in repr's exponent form),
+    with no Python step per number. tests/test_json_float_texts.py holds every range to repr."""
     flat = np.ascontiguousarray(values, dtype=np.float64).ravel()
-    texts = np.empty(flat.size, dtype=object)
     if not flat.size:
-        return texts
-    texts[:] = orjson.dumps(flat, option=orjson.OPT_SERIALIZE_NUMPY).decode()[1:-1].split(",")
+        return []
+    raw = orjson.dumps(flat, option=orjson.OPT_SERIALIZE_NUMPY)
     size = np.abs(flat)
-    short = (size >= ONE_DIGIT_EXPONENT[0]) & (size < ONE_DIGIT_EXPONENT[1])
-    if short.any():
-        texts[short] = [t[:-1] + "0" + t[-1] for t in texts[short].tolist()]
-    odd = (size >= POSITIONAL_DECADE[0]) & (size < POSITIONAL_DECADE[1])
-    if odd.any():
-        texts[odd] = repr(flat[odd].tolist())[1:-1].split(", ")
-    return texts
+    with np.errstate(invalid="ignore"):  # NaN compares False: written "null" by orjson
+        short = (size >= ONE_DIGIT_EXPONENT[0]) & (size < ONE_DIGIT_EXPONENT[1])
+        odd = (size >= POSITIONAL_DECADE[0]) & (size < POSITIONAL_DECADE[1])
+    if short.any() or odd.any():
+        mended = _mended(raw, np.flatnonzero(short), np.flatnonzero(odd))
+        if mended is None:  # not orjson's usual layout: repr for every number
+            return [repr(v) if math.isfinite(v) else "null" for v in flat.tolist()]
+        raw = mended
+    return raw[1:-1].decode().split(",")
+
+
+def _mended(raw: bytes, short: np.ndarray, odd: np.ndarray) -> bytes | None:
+    """orjson's text of a list of numbers with the numbers at `short` given a two-digit
+    exponent ("2.5e-7" -> "2.5e-07") and those at `odd` written in exponent form
+    ("-0.000025" -> "-2.5e-05"); None when a number there is not laid out as expected."""
+    text = np.frombuffer(raw, dtype=np.uint8)
+    ends = np.append(np.flatnonzero(text == _COMMA), text.size - 1)  # after each number
+    # a one-digit exponent: "e-" and a digit just before the number's end
+    at = ends[short] - 1
+    if not ((text[at - 2] == _E).all() and (text[at - 1] == _MINUS).all() and _digits(text[at])):
+        return None
+    places, pieces = [at], [np.full(at.size, _ZERO, dtype=np.uint8)]
+    if odd.size:
+        begin = np.where(odd == 0, 1, ends[odd - 1] + 1)
+        begin += text[begin] == _MINUS
+        stop = ends[odd]
+        lead = begin[:, None] + np.arange(len(_POSITIONAL))
+        if not (
+            (text[lead] == np.frombuffer(_POSITIONAL, dtype=np.uint8)).all()
+            and (stop > lead[:, -1] + 1).all()
+            and _digits(text[lead[:, -1] + 1])
+        ):
+            return None
+        text = text.copy()
+        text[lead.ravel()] = _CUT  # "0.0000" dropped: the first digit leads
+        dot = begin + len(_POSITIONAL) + 1  # after the first digit, when more follow
+        dot = dot[dot < stop]
+        places += [dot, np.repeat(stop, _EXPONENT_05.size)]
+        pieces += [np.full(dot.size, _DOT, dtype=np.uint8), np.tile(_EXPONENT_05, stop.size)]
+    # np.insert keeps the order of pieces given for one place ("e", "-", "0", "5")
+    out = np.insert(text, np.concatenate(places), np.concatenate(pieces))
+    if odd.size:
+        out = out[out != _CUT]
+    return out.tobytes()
+
+
+def _digits(chars: np.ndarray) -> bool:
+    return bool(((chars >= ord("0")) & (chars <= ord("9"))).all())
 
 
 def _column_text(values: Sequence[Any], level: int) -> list[str]:
