@@ -358,29 +358,19 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
             notes=tuple(notes),
         )
     if cols == dofs:
-        M = A
-        spec = lu_ordering(model)
-    else:
-        # Unit-stiffness matrix A W A^T (W = 1/L): singular exactly when a mechanism exists.
-        w = np.concatenate(
-            [
-                1.0 / model.lengths,
-                np.full(len(model.reactions), 1.0 / float(np.median(model.lengths))),
-            ]
-        )
-        M = (A @ sp.diags(w) @ A.T).tocsc()
-        spec = "COLAMD"
-    try:
-        lu = spla.splu(M, permc_spec=spec)
-        if cols == dofs:
+        try:
+            lu = spla.splu(A, permc_spec=lu_ordering(model))
             # The global statics solve factors the same matrix with the same ordering: share it.
             run.keep_lu(lu)
             ratio = _kept_pivot_ratio(lu)
-        else:
-            ratio = pivot_ratio(lu)
-        singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
-    except RuntimeError:
-        ratio, singular = 0.0, True
+            singular = ratio < LU_PIVOT_SINGULAR
+        except RuntimeError:
+            ratio, singular = 0.0, True
+    else:
+        # Possibly read by a child process the run started earlier (AnalysisRun
+        # .start_unit_stiffness_screen): the same figure.
+        ratio = run.unit_stiffness_ratio()
+        singular = ratio < K_PIVOT_SINGULAR
     rho = scaled = None
     ill = False
     if singular:
@@ -424,6 +414,34 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         ill_conditioned=ill,
         notes=tuple(notes),
     )
+
+
+def unit_stiffness_screened(model: Model) -> bool:
+    """True when `solve_stability` (default limits) screens the model by the LU of its
+    unit-stiffness matrix: a model too large for the dense SVD with more unknown forces than joint
+    equations (never stable and determinate)."""
+    cols = len(model.members) + len(model.reactions)
+    dense = model.dofs <= DENSE_DOF_LIMIT and cols <= 2 * DENSE_DOF_LIMIT
+    return cols > model.dofs and not dense
+
+
+def unit_stiffness_ratio(model: Model, A: sp.csc_matrix) -> float:
+    """min/max |U_ii| of the LU of the unit-stiffness matrix A W A^T (W = 1/L, each reaction a
+    spring of the median member's), 0.0 when the factorisation is exactly singular. The matrix is
+    singular exactly when the truss has a mechanism: the screen of a truss whose A has more
+    columns than rows."""
+    w = np.concatenate(
+        [
+            1.0 / model.lengths,
+            np.full(len(model.reactions), 1.0 / float(np.median(model.lengths))),
+        ]
+    )
+    M = (A @ sp.diags(w) @ A.T).tocsc()
+    try:
+        lu = spla.splu(M, permc_spec="COLAMD")
+    except RuntimeError:
+        return 0.0
+    return pivot_ratio(lu)
 
 
 def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
