@@ -1,10 +1,13 @@
 """Work in a forked child process: the one place that decides whether forking is safe.
 
-Four parts of the tool start processes: the section route of a large truss (verify.analysis
-.pipeline), the time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness),
-the LU pivot ratio of the factor an analysis run keeps (verify.analysis.stability: reading it
-makes copies of the factors that would stay with it) and the batch's process pool
-(verify.batch.run). All four ask :func:`fork_allowed`, so one rule holds everywhere:
+Five parts of the tool start processes: the section route of a large truss (verify.analysis
+.pipeline), the stability screen's unit-stiffness factorisation of a large truss with more
+unknown forces than joint equations, made beside the elastic solve (verify.analysis.run), the
+time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness), the LU pivot
+ratio of the factor an analysis run keeps where it cannot be read in place (verify.analysis
+.stability: scipy's reading makes copies of the factors that would stay with it) and the batch's
+process pool (verify.batch.run). All of them ask :func:`fork_allowed`, so one rule holds
+everywhere:
 
 - no ``os.fork`` (Windows): no fork;
 - ``TRUSS_VERIFY_SERIAL`` set to any value: no fork (every result is then computed in this

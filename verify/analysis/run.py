@@ -32,6 +32,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import assemble_equilibrium
+from verify.analysis.lu_factors import u_diagonal
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -51,8 +52,9 @@ def lu_ordering(model: Model) -> str:
 
 
 def pivot_ratio(lu: spla.SuperLU) -> float:
-    """min |U_ii| / max |U_ii| of a sparse LU (0 for an empty or zero diagonal)."""
-    diag = np.abs(lu.U.diagonal())
+    """min |U_ii| / max |U_ii| of a sparse LU (0 for an empty or zero diagonal); U's diagonal read
+    from the factor's own storage where it can be (verify.analysis.lu_factors)."""
+    diag = np.abs(u_diagonal(lu))
     return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
 
 

@@ -30,6 +30,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import rigid_body_modes
+from verify.analysis.lu_factors import reads_in_place
 from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
@@ -445,12 +446,16 @@ def unit_stiffness_ratio(model: Model, A: sp.csc_matrix) -> float:
 
 
 def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
-    """pivot_ratio of an LU the run keeps, read in a child process where one may be used.
+    """pivot_ratio of an LU the run keeps: read from the factor's own storage where it can be,
+    else in a child process where one may be used.
 
     Reading lu.U makes CSC copies of both factors, and scipy keeps them on the factor object for
-    as long as it lives (135 MB on the 10^5-member 3D grid, held to the end of a check). A forked
-    child reads the same factors and returns one number; the kept factor carries no copies.
+    as long as it lives (135 MB on the 10^5-member 3D grid, held to the end of a check). Neither
+    the reading in place (verify.analysis.lu_factors) nor a forked child, which reads the same
+    factors and returns one number, leaves copies on the kept factor.
     """
+    if reads_in_place(lu):
+        return pivot_ratio(lu)
     child = Forked.start(pivot_ratio, lu)
     try:
         return child.result()
