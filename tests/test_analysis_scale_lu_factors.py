@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 from trussgen import make_model, pratt
 
 from verify.analysis import lu_factors, stability
-from verify.analysis.lu_factors import factor_fill, reads_in_place, u_diagonal
+from verify.analysis.lu_factors import factor_fill, u_diagonal, u_diagonal_in_place
 from verify.analysis.run import AnalysisRun, pivot_ratio
 from verify.analysis.stability import Classification, solve_stability
 
@@ -55,7 +55,7 @@ def factors(draw: st.DrawFn) -> spla.SuperLU:
 @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(factors())
 def test_read_in_place_equals_scipys_copies(lu: spla.SuperLU) -> None:
-    assert reads_in_place(lu)
+    assert u_diagonal_in_place(lu) is not None
     diag = u_diagonal(lu)
     fill = factor_fill(lu)
     np.testing.assert_array_equal(diag, lu.U.diagonal())  # read in place before the copies
@@ -68,7 +68,7 @@ def test_stored_zeros_are_not_counted() -> None:
     copy drops (its fill is 10 of the 12 values stored)."""
     A = sp.csc_matrix(np.array([[1.0, 1.0, 1.0], [1.0, 2.0, 1.0], [1.0, 1.0, 2.0]]))
     lu = spla.splu(A, permc_spec="NATURAL", diag_pivot_thresh=0.0)
-    assert reads_in_place(lu) and lu.nnz == 12
+    assert u_diagonal_in_place(lu) is not None and lu.nnz == 12
     assert factor_fill(lu) == 10 == lu.L.nnz + lu.U.nnz
     np.testing.assert_array_equal(u_diagonal(lu), [1.0, 1.0, 1.0])
 
@@ -77,7 +77,7 @@ def test_an_unexpected_layout_reads_the_copies(monkeypatch: pytest.MonkeyPatch) 
     A = sp.csc_matrix(np.array([[4.0, 1.0, 0.0], [1.0, 3.0, 1.0], [0.0, 2.0, 5.0]]))
     monkeypatch.setattr(lu_factors, "_OBJECT_SIZE", 0)  # not the object size checked for
     lu = spla.splu(A)
-    assert not reads_in_place(lu)
+    assert u_diagonal_in_place(lu) is None
     np.testing.assert_array_equal(u_diagonal(lu), spla.splu(A).U.diagonal())
     assert factor_fill(lu) == lu.L.nnz + lu.U.nnz
 
@@ -99,6 +99,6 @@ def test_the_kept_factor_leaves_no_copies_and_gives_scipys_ratio(
     diag = np.abs(reference.U.diagonal())
     assert pivot_ratio(kept) == diag.min() / diag.max()
     assert f"LU pivot ratio {diag.min() / diag.max():.2e}" in " ".join(result.notes)
-    assert stability.reads_in_place(kept) is layout_known
+    assert (stability.u_diagonal_in_place(kept) is not None) is layout_known
     if layout_known:  # scipy's cached copy of U (SuperLUObject.cached_U) was never made
         assert ctypes.c_void_p.from_address(id(kept) + _CACHED_U).value is None

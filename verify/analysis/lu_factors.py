@@ -151,10 +151,15 @@ def _read(lu: spla.SuperLU) -> _Storage | None:
 
 def u_diagonal(lu: spla.SuperLU) -> np.ndarray:
     """U's diagonal, as ``lu.U.diagonal()`` gives it (a copy the caller may keep)."""
+    diagonal = u_diagonal_in_place(lu)
+    return diagonal if diagonal is not None else np.asarray(lu.U.diagonal())
+
+
+def u_diagonal_in_place(lu: spla.SuperLU) -> np.ndarray | None:
+    """U's diagonal read from the factor's own storage (a copy the caller may keep), or None
+    where that cannot be done (the factor then gives it only through its copies)."""
     storage = _storage(lu)
-    if storage is None:
-        return np.asarray(lu.U.diagonal())
-    return storage.diagonal.copy()
+    return None if storage is None else storage.diagonal.copy()
 
 
 def factor_fill(lu: spla.SuperLU) -> int:
@@ -164,8 +169,3 @@ def factor_fill(lu: spla.SuperLU) -> int:
         return int(lu.L.nnz + lu.U.nnz)
     n = int(lu.shape[0])
     return int(np.count_nonzero(storage.l_values) + np.count_nonzero(storage.u_values) + n)
-
-
-def reads_in_place(lu: spla.SuperLU) -> bool:
-    """True when this factor's diagonal and fill are read without copying its factors."""
-    return _storage(lu) is not None

@@ -54,7 +54,12 @@ def lu_ordering(model: Model) -> str:
 def pivot_ratio(lu: spla.SuperLU) -> float:
     """min |U_ii| / max |U_ii| of a sparse LU (0 for an empty or zero diagonal); U's diagonal read
     from the factor's own storage where it can be (verify.analysis.lu_factors)."""
-    diag = np.abs(u_diagonal(lu))
+    return ratio_of_pivots(u_diagonal(lu))
+
+
+def ratio_of_pivots(diagonal: np.ndarray) -> float:
+    """min |U_ii| / max |U_ii| of U's diagonal (0 for an empty or zero diagonal)."""
+    diag = np.abs(diagonal)
     return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
 
 

@@ -30,8 +30,8 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import rigid_body_modes
-from verify.analysis.lu_factors import reads_in_place
-from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio
+from verify.analysis.lu_factors import u_diagonal_in_place
+from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio, ratio_of_pivots
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -454,8 +454,9 @@ def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
     the reading in place (verify.analysis.lu_factors) nor a forked child, which reads the same
     factors and returns one number, leaves copies on the kept factor.
     """
-    if reads_in_place(lu):
-        return pivot_ratio(lu)
+    diagonal = u_diagonal_in_place(lu)
+    if diagonal is not None:
+        return ratio_of_pivots(diagonal)
     child = Forked.start(pivot_ratio, lu)
     try:
         return child.result()
