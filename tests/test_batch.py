@@ -196,14 +196,14 @@ def test_a_fault_in_one_case_is_reported_and_the_others_are_checked(
 
     folder, expected = fresh_copy(job_folder, tmp_path)
     victim = sorted(expected)[1]
-    real = service.begin_analysis
+    real = service.analyse
 
-    def begin_analysis(model, **kwargs):
+    def analyse(model, **kwargs):
         if victim in model.source:
             raise ZeroDivisionError("planted fault")
         return real(model, **kwargs)
 
-    monkeypatch.setattr(service, "begin_analysis", begin_analysis)
+    monkeypatch.setattr(service, "analyse", analyse)
     outcome = run_batch(folder, runner=local_runner(1))  # in this process, where the patch holds
     statuses = {job.name: result.status for job, result in outcome.pairs}
     assert statuses.pop(victim) == "fault"

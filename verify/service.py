@@ -20,7 +20,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from verify.analysis.pipeline import begin as begin_analysis
+from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Review, SignMode, Verdict, compare_claims
 from verify.compare.tolerances import ATOL_FRACTION, RTOL, Tolerance
 from verify.errors import (
@@ -158,42 +158,40 @@ def check(
     say("reading the case")
     model = read_case(case_file(case_path), tables_outside=options.tables_anywhere)
     say(f"reading the claims ({len(model.members):,} members)")
-    # The analysis's child processes (the section route of a large truss) start now and work
-    # while the claims are read; an error on the way stops them.
-    begun = begin_analysis(model, assume_equal_EA=options.assume_equal_EA)
-    try:
-        claims = read_claims(
-            str(claims_path),
-            model,
-            sheet=options.sheet,
-            member_column=options.member_column,
-            case_column=options.case_column,
-            force_column=options.force_column,
-            case=options.load_case,
-            pages=options.pages,
+    claims = read_claims(
+        str(claims_path),
+        model,
+        sheet=options.sheet,
+        member_column=options.member_column,
+        case_column=options.case_column,
+        force_column=options.force_column,
+        case=options.load_case,
+        pages=options.pages,
+    )
+    # The count, not the values: those are one object per claim, made only when asked for.
+    if not claims.count and claims.unmatched:
+        # Nothing to compare: most likely the wrong table, which a verdict would hide.
+        labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:UNMATCHED_SHOWN])
+        raise InputError(
+            [
+                Problem(
+                    str(claims_path),
+                    f"no label matches a member or reaction of {case_path} "
+                    f"(e.g. {labels}); is this the claims table for this case?",
+                )
+            ]
         )
-        # The count, not the values: those are one object per claim, made only when asked for.
-        if not claims.count and claims.unmatched:
-            # Nothing to compare: most likely the wrong table, which a verdict would hide.
-            labels = ", ".join(f"'{u.label}'" for u in claims.unmatched[:UNMATCHED_SHOWN])
-            raise InputError(
-                [
-                    Problem(
-                        str(claims_path),
-                        f"no label matches a member or reaction of {case_path} "
-                        f"(e.g. {labels}); is this the claims table for this case?",
-                    )
-                ]
-            )
-        displacement_claims = None
-        if options.displacements is not None:
-            from verify.io.displacements import read_displacements
+    displacement_claims = None
+    if options.displacements is not None:
+        from verify.io.displacements import read_displacements
 
-            displacement_claims = read_displacements(str(options.displacements), model)
-        say("analysing the truss")
-        analysis = begun.analyse(displacements=displacement_claims is not None)
-    finally:
-        begun.cancel()
+        displacement_claims = read_displacements(str(options.displacements), model)
+    say("analysing the truss")
+    analysis = analyse(
+        model,
+        assume_equal_EA=options.assume_equal_EA,
+        displacements=displacement_claims is not None,
+    )
     say("comparing the claims")
     review = compare_claims(
         analysis,

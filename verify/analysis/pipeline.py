@@ -73,83 +73,54 @@ def analyse(
     `displacements` asks for the direct stiffness solve of a determinate truss too (joint
     displacements need stiffness even where statics gives the forces).
     """
-    begun = begin(model, sections=sections, assume_equal_EA=assume_equal_EA)
-    return begun.analyse(displacements=displacements)
-
-
-def begin(model: Model, *, sections: bool = True, assume_equal_EA: float | None = None) -> Begun:
-    """Start the analysis's child processes, so that the caller may do other work before it asks
-    for the results (`Begun.analyse`): the check reads the claims meanwhile.
-
-    On a large truss whose A is square, the section route needs only the loads and the overall
-    reactions: it starts in a second process now and is dropped if the truss turns out not to be
-    stable and determinate. On a large truss with more unknown forces than joint equations and
-    the stiffness to solve it, the stability screen's factorisation starts in a second process
-    (verify.analysis.run.AnalysisRun.start_unit_stiffness_screen).
-    """
+    # The section route needs only the loads and the overall reactions: on large trusses it
+    # starts in a second process before the stability screen and is dropped if the truss turns
+    # out not to be stable and determinate.
     run = AnalysisRun(model)
     run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
     child = None
-    screened = False
     large = len(model.members) >= PARALLEL_MIN_MEMBERS
     # Only a square A can be stable and determinate (more columns: indeterminate or unstable;
     # fewer: unstable), and only then are the section route's forces used.
     square = len(model.members) + len(model.reactions) == model.dofs
-    if sections and large and square:
-        from verify.analysis.sections import solve_sections
+    early: ElasticSolution | ValueError | None = None
+    try:
+        if sections and large and square:
+            from verify.analysis.sections import solve_sections
 
-        run.overall_reactions()  # both routes start from these: solved once, before the fork
-        child = Forked.start(solve_sections, model)
-    elif large and unit_stiffness_screened(model):
-        if model.has_stiffness or assume_equal_EA is not None:
-            screened = run.start_unit_stiffness_screen()
-    return Begun(run, child, screened, sections, assume_equal_EA)
-
-
-class Begun:
-    """An analysis whose child processes have started (`begin`). Call `analyse` once for the
-    results, or `cancel` when they are no longer wanted (an error on the way): either leaves no
-    child process or frozen heap behind."""
-
-    def __init__(
-        self,
-        run: AnalysisRun,
-        child: Forked[SectionSolution] | None,
-        screened: bool,
-        sections: bool,
-        assume_equal_EA: float | None,
-    ) -> None:
-        self.run, self.child, self.screened = run, child, screened
-        self.sections, self.assume_equal_EA = sections, assume_equal_EA
-
-    def analyse(self, *, displacements: bool = False) -> Analysis:
-        try:
-            early = _early_elastic(self.run, self.assume_equal_EA) if self.screened else None
-            return _routes(
-                self.run,
-                self.child,
-                early,
-                sections=self.sections,
-                assume_equal_EA=self.assume_equal_EA,
-                displacements=displacements,
-            )
-        finally:
-            self.cancel()
-
-    def cancel(self) -> None:
-        """Stop the children whose answers were not asked for (none once analysed)."""
-        if self.child is not None:
-            self.child.cancel()
-            self.child = None
-        self.run.stop_children()
+            run.overall_reactions()  # both routes start from these: solved once, before the fork
+            child = Forked.start(solve_sections, model)
+        elif large and unit_stiffness_screened(model):
+            early = _early_elastic(run, assume_equal_EA)
+        return _routes(
+            run,
+            child,
+            early,
+            sections=sections,
+            assume_equal_EA=assume_equal_EA,
+            displacements=displacements,
+        )
+    finally:
+        # An error or an interruption on the way: no child or frozen heap left behind.
+        if child is not None:
+            child.cancel()
+        run.stop_children()
 
 
-def _early_elastic(run: AnalysisRun, assume_equal_EA: float | None) -> ElasticSolution | ValueError:
+def _early_elastic(
+    run: AnalysisRun, assume_equal_EA: float | None
+) -> ElasticSolution | ValueError | None:
     """The elastic solve of a large truss with more unknown forces than joint equations, made
     while a child process factorises the stability screen's unit-stiffness matrix: the screen
     and the solve each factor a matrix of the truss's size (on the 10^5-member 3D grid with top
-    chords about 2 s each), and a stable verdict asks for the solve anyway. A ValueError is the
-    solve's answer for the note (missing or singular stiffness). An unstable verdict drops it."""
+    chords about 2 s each), and a stable verdict asks for the solve anyway. None when the solve
+    is not asked for (no stiffness) or no child could be started; a ValueError is the solve's
+    answer for the note (missing or singular stiffness). An unstable verdict drops it."""
+    model = run.model
+    if not (model.has_stiffness or assume_equal_EA is not None):
+        return None
+    if not run.start_unit_stiffness_screen():
+        return None
     try:
         return run.elastic(assume_equal_EA)
     except ValueError as exc:
