@@ -57,33 +57,42 @@ def test_child_runs_the_route_in_another_process(monkeypatch):
 
 
 @pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
-@pytest.mark.parametrize("drop_diagonal", [True, False])
-def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(
-    monkeypatch, drop_diagonal
-):
-    """The section route starts before the stability screen; an unstable (one diagonal removed)
-    or indeterminate (one diagonal added) truss stops it, and no child process is left behind."""
+@pytest.mark.parametrize("change", ["moved", "dropped", "added"])
+def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(monkeypatch, change):
+    """The section route starts before the stability screen when A is square; a truss that is
+    then found unstable (a diagonal moved to a braced panel: m = s = 1) stops it, and no child
+    process is left behind. With one diagonal removed (unstable) or added (indeterminate) A is
+    not square, so the truss cannot be stable and determinate and no section child starts."""
     monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    started: list[str] = []
     cancelled: list[int | None] = []
+    original_start = forking.Forked.start
     original = forking.Forked.cancel
+
+    def start(function, *args):
+        started.append(function.__name__)
+        return original_start(function, *args)
 
     def cancel(self):
         cancelled.append(self.pid)
         original(self)
 
+    monkeypatch.setattr(forking.Forked, "start", staticmethod(start))
     monkeypatch.setattr(forking.Forked, "cancel", cancel)
     case = pratt(6, load=10.0)
-    if drop_diagonal:
+    if change != "added":
         del case["members"]["U2L3"]
-    else:
-        case["members"]["L2U3"] = ["L2", "U3"]
+    if change != "dropped":
+        case["members"]["L1U2"] = ["L1", "U2"]
     analysis = pipeline.analyse(make_model(case))
     assert analysis.sections is None and analysis.joints is None
+    assert started.count("solve_sections") == (change == "moved")
     stopped = [pid for pid in cancelled if pid is not None]
-    assert len(stopped) == 1
-    with pytest.raises(ChildProcessError):
-        os.waitpid(stopped[0], os.WNOHANG)  # already reaped: not a child any more
+    assert len(stopped) == (change == "moved")
+    for pid in stopped:
+        with pytest.raises(ChildProcessError):
+            os.waitpid(pid, os.WNOHANG)  # already reaped: not a child any more
 
 
 @pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")

@@ -36,6 +36,7 @@ from verify.analysis.stiffness import (
 )
 from verify.analysis.virtual_work import unit_load_deflection
 from verify.errors import InputError
+from verify.forking import SERIAL_ENV
 from verify.model import Model
 from verify.report.virtual_work_text import render_virtual_work
 
@@ -292,6 +293,7 @@ def test_colamd_fallback_gives_the_same_forces(monkeypatch: pytest.MonkeyPatch) 
     """PERFORMANCE.md item 4: when the MMD attempt is timed out, COLAMD answers, identically.
 
     The forked child inherits the slowed-down splu, so the time box really runs out."""
+    monkeypatch.delenv(SERIAL_ENV, raising=False)  # the time box needs its child process
     case = pratt(20, load=5.0)
     case["stiffness"] = {"EA": 1.0e5}
     model = make_model(case)

@@ -1,10 +1,13 @@
 """Work in a forked child process: the one place that decides whether forking is safe.
 
-Four parts of the tool start processes: the section route of a large truss (verify.analysis
-.pipeline), the time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness),
-the LU pivot ratio of the factor an analysis run keeps (verify.analysis.stability: reading it
-makes copies of the factors that would stay with it) and the batch's process pool
-(verify.batch.run). All four ask :func:`fork_allowed`, so one rule holds everywhere:
+Five parts of the tool start processes: the section route of a large truss (verify.analysis
+.pipeline), the stability screen's unit-stiffness factorisation of a large truss with more
+unknown forces than joint equations, made beside the elastic solve (verify.analysis.run), the
+time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness), the LU pivot
+ratio of the factor an analysis run keeps where it cannot be read in place (verify.analysis
+.stability: scipy's reading makes copies of the factors that would stay with it) and the batch's
+process pool (verify.batch.run). All of them ask :func:`fork_allowed`, so one rule holds
+everywhere:
 
 - no ``os.fork`` (Windows): no fork;
 - ``TRUSS_VERIFY_SERIAL`` set to any value: no fork (every result is then computed in this
@@ -18,13 +21,16 @@ makes copies of the factors that would stay with it) and the batch's process poo
 from __future__ import annotations
 
 import gc
+import io
 import os
 import pickle
 import select
 import signal
 import threading
 from collections.abc import Callable
-from typing import Any, Generic, TypeVar
+from typing import Any, BinaryIO, Generic, TypeVar
+
+import numpy as np
 
 SERIAL_ENV = "TRUSS_VERIFY_SERIAL"  # set to any value to keep every computation in one process
 
@@ -88,9 +94,8 @@ class Forked(Generic[T]):
                     answer: tuple[bool, Any] = (True, function(*args))
                 except Exception as exc:  # noqa: BLE001 - any failure is reported to the parent
                     answer = (False, f"{type(exc).__name__}: {exc}")
-                payload = pickle.dumps(answer, protocol=pickle.HIGHEST_PROTOCOL)
                 with os.fdopen(write_fd, "wb") as pipe:
-                    pipe.write(payload)
+                    _send(answer, pipe)
                 status = 0
             finally:
                 os._exit(status)
@@ -108,14 +113,14 @@ class Forked(Generic[T]):
                 self.cancel()
                 raise ForkTimeout(f"no answer within {timeout:g} s")
         with os.fdopen(self.read_fd, "rb") as pipe:
-            payload = pipe.read()
+            received = _receive(pipe)
         _, status = os.waitpid(self.pid, 0)
         self._done()
-        if status != 0 or not payload:
+        if status != 0 or received is None:
             raise ForkFailed(
                 "the child process ended without an answer (killed, or out of memory?)"
             )
-        ok, value = pickle.loads(payload)
+        ok, value = pickle.loads(received[0], buffers=received[1])
         if not ok:
             raise ForkFailed(str(value))
         return value
@@ -135,3 +140,50 @@ class Forked(Generic[T]):
     def _done(self) -> None:
         self.pid = self.read_fd = None
         gc.unfreeze()
+
+
+# An answer goes through the pipe as: the length of a small header (8 bytes), the header (the
+# pickle's length and each out-of-band buffer's), the pickle, then the buffers. Protocol 5 hands
+# the contents of NumPy arrays over as buffers instead of copying them into the pickle, and the
+# parent reads each straight into an array of its own that the unpickled array then uses: no
+# whole-answer bytes object on either side (the section route's answer at 10^6 members is
+# about 116 MB).
+_LENGTH = 8
+
+
+def _send(answer: tuple[bool, Any], pipe: BinaryIO) -> None:
+    buffers: list[pickle.PickleBuffer] = []
+    payload = pickle.dumps(answer, protocol=5, buffer_callback=buffers.append)
+    try:
+        raw = [buffer.raw() for buffer in buffers]
+    except BufferError:  # a buffer that is not contiguous (NumPy never offers one): all in-band
+        payload, raw = pickle.dumps(answer, protocol=5), []
+    header = pickle.dumps((len(payload), [view.nbytes for view in raw]), protocol=5)
+    pipe.write(len(header).to_bytes(_LENGTH, "little"))
+    pipe.write(header)
+    pipe.write(payload)
+    for view in raw:
+        pipe.write(view)
+
+
+def _receive(pipe: io.BufferedReader) -> tuple[bytes, list[memoryview]] | None:
+    """The pickle and its buffers, or None when the answer stops short (the child died)."""
+    size = pipe.read(_LENGTH)
+    if len(size) < _LENGTH:
+        return None
+    header = pipe.read(int.from_bytes(size, "little"))
+    try:
+        payload_size, sizes = pickle.loads(header)
+    except Exception:  # noqa: BLE001 - a header cut short: no answer
+        return None
+    payload = pipe.read(payload_size)
+    if len(payload) < payload_size:
+        return None
+    buffers = []
+    for nbytes in sizes:
+        # Aligned for any item type (NumPy allocates it); the unpickled array is a view of it.
+        view = np.empty(nbytes, dtype=np.uint8).data
+        if pipe.readinto(view) != nbytes:
+            return None
+        buffers.append(view)
+    return payload, buffers

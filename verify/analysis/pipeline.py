@@ -15,7 +15,11 @@ from verify.analysis.forces import ForceResult
 from verify.analysis.global_solve import solve_global
 from verify.analysis.joints import JointSolution, solve_joints
 from verify.analysis.run import AnalysisRun
-from verify.analysis.stability import Classification, StabilityResult
+from verify.analysis.stability import (
+    Classification,
+    StabilityResult,
+    unit_stiffness_screened,
+)
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -57,6 +61,10 @@ class Analysis:
         return getattr(elastic, "forces", None)
 
 
+def _large(model: Model) -> bool:
+    return len(model.members) >= PARALLEL_MIN_MEMBERS
+
+
 class EarlyRoutes:
     """The method of sections, which needs only the model and its overall reactions, started in
     a second process on a large truss as soon as the model is read. The caller reads the claims
@@ -70,7 +78,10 @@ class EarlyRoutes:
         self.run = AnalysisRun(model)
         self.run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
         self.child: Forked[SectionSolution] | None = None
-        if sections and len(model.members) >= PARALLEL_MIN_MEMBERS:
+        # Only a square A can be stable and determinate (more columns: indeterminate or
+        # unstable; fewer: unstable), and only then are the section route's forces used.
+        square = len(model.members) + len(model.reactions) == model.dofs
+        if sections and _large(model) and square:
             from verify.analysis.sections import solve_sections
 
             self.run.overall_reactions()  # both routes start from these: solved once, here
@@ -100,21 +111,49 @@ def analyse(
     # screen; it is dropped if the truss turns out not to be stable and determinate.
     if early is None or early.model is not model or early.sections != sections:
         early = EarlyRoutes(model, sections=sections)
+    run = early.run
+    elastic: ElasticSolution | ValueError | None = None
     try:
+        if early.child is None and _large(model) and unit_stiffness_screened(model):
+            elastic = _early_elastic(run, assume_equal_EA)
         return _routes(
-            early.run,
+            run,
             early.child,
+            elastic,
             sections=sections,
             assume_equal_EA=assume_equal_EA,
             displacements=displacements,
         )
     finally:
+        # An error or an interruption on the way: no child or frozen heap left behind.
         early.cancel()
+        run.stop_children()
+
+
+def _early_elastic(
+    run: AnalysisRun, assume_equal_EA: float | None
+) -> ElasticSolution | ValueError | None:
+    """The elastic solve of a large truss with more unknown forces than joint equations, made
+    while a child process factorises the stability screen's unit-stiffness matrix: the screen
+    and the solve each factor a matrix of the truss's size (on the 10^5-member 3D grid with top
+    chords about 2 s each), and a stable verdict asks for the solve anyway. None when the solve
+    is not asked for (no stiffness) or no child could be started; a ValueError is the solve's
+    answer for the note (missing or singular stiffness). An unstable verdict drops it."""
+    model = run.model
+    if not (model.has_stiffness or assume_equal_EA is not None):
+        return None
+    if not run.start_unit_stiffness_screen():
+        return None
+    try:
+        return run.elastic(assume_equal_EA)
+    except ValueError as exc:
+        return exc
 
 
 def _routes(
     run: AnalysisRun,
     child: Forked[SectionSolution] | None,
+    early: ElasticSolution | ValueError | None,
     *,
     sections: bool,
     assume_equal_EA: float | None,
@@ -131,7 +170,9 @@ def _routes(
         )
     if stability.classification is Classification.STABLE_INDETERMINATE:
         elastic = None
-        if model.has_stiffness or assume_equal_EA is not None:
+        if isinstance(early, ValueError):
+            notes.append(_no_stiffness_note(early))
+        elif model.has_stiffness or assume_equal_EA is not None:
             elastic = _stiffness_or_note(run, assume_equal_EA, notes)
         else:
             missing = model.members_without_stiffness()
@@ -194,8 +235,12 @@ def _stiffness_or_note(
     try:
         return run.elastic(assume_equal_EA)
     except ValueError as exc:  # missing EA or a singular stiffness matrix: said, not raised
-        notes.append(f"direct stiffness solve not possible: {exc}")
+        notes.append(_no_stiffness_note(exc))
         return None
+
+
+def _no_stiffness_note(exc: ValueError) -> str:
+    return f"direct stiffness solve not possible: {exc}"
 
 
 def force_scale(reference: ForceResult) -> float:

@@ -32,6 +32,8 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import assemble_equilibrium
+from verify.analysis.lu_factors import u_diagonal
+from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
 # The solvers below import this module (they take a run), so the run imports them when asked.
@@ -50,8 +52,14 @@ def lu_ordering(model: Model) -> str:
 
 
 def pivot_ratio(lu: spla.SuperLU) -> float:
-    """min |U_ii| / max |U_ii| of a sparse LU (0 for an empty or zero diagonal)."""
-    diag = np.abs(lu.U.diagonal())
+    """min |U_ii| / max |U_ii| of a sparse LU (0 for an empty or zero diagonal); U's diagonal read
+    from the factor's own storage where it can be (verify.analysis.lu_factors)."""
+    return ratio_of_pivots(u_diagonal(lu))
+
+
+def ratio_of_pivots(diagonal: np.ndarray) -> float:
+    """min |U_ii| / max |U_ii| of U's diagonal (0 for an empty or zero diagonal)."""
+    diag = np.abs(diagonal)
     return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
 
 
@@ -65,6 +73,9 @@ class AnalysisRun:
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
         self._elastic: dict[float | None, ElasticSolution] = {}  # by assume_equal_EA
+        # The stability screen's unit-stiffness pivot ratio, read in a child process
+        # (start_unit_stiffness_screen) until the screen asks for it.
+        self._screen: Forked[float] | None = None
 
     @classmethod
     def of(cls, model: Model) -> AnalysisRun:
@@ -101,6 +112,40 @@ class AnalysisRun:
 
             self._reactions = (overall_reactions(self.model),)
         return self._reactions[0]
+
+    def start_unit_stiffness_screen(self) -> bool:
+        """Start the stability screen's factorisation of the unit-stiffness matrix in a child
+        process, so that this one can do other work meanwhile (the pipeline: the elastic solve the
+        screen's verdict will ask for). True when a child was started; the screen collects its
+        answer (`unit_stiffness_ratio`), and `stop_children` stops it if nobody does."""
+        from verify.analysis.stability import unit_stiffness_ratio
+
+        child = Forked.start(unit_stiffness_ratio, self.model, self.equilibrium_matrix())
+        if not child.forked:
+            return False
+        self._screen = child
+        return True
+
+    def unit_stiffness_ratio(self) -> float:
+        """The unit-stiffness matrix's LU pivot ratio (verify.analysis.stability
+        .unit_stiffness_ratio): from the child started for it, else computed here."""
+        from verify.analysis.stability import unit_stiffness_ratio
+
+        child, self._screen = self._screen, None
+        if child is not None:
+            try:
+                return child.result()
+            except ForkFailed:  # the child could not answer (out of memory?): computed here
+                pass
+            finally:
+                child.cancel()
+        return unit_stiffness_ratio(self.model, self.equilibrium_matrix())
+
+    def stop_children(self) -> None:
+        """Stop a child process whose answer was not asked for (an error on the way)."""
+        child, self._screen = self._screen, None
+        if child is not None:
+            child.cancel()
 
     def stability(self) -> StabilityResult:
         if self._stability is None:

@@ -30,7 +30,8 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import rigid_body_modes
-from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio
+from verify.analysis.lu_factors import u_diagonal_in_place
+from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio, ratio_of_pivots
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -358,29 +359,19 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
             notes=tuple(notes),
         )
     if cols == dofs:
-        M = A
-        spec = lu_ordering(model)
-    else:
-        # Unit-stiffness matrix A W A^T (W = 1/L): singular exactly when a mechanism exists.
-        w = np.concatenate(
-            [
-                1.0 / model.lengths,
-                np.full(len(model.reactions), 1.0 / float(np.median(model.lengths))),
-            ]
-        )
-        M = (A @ sp.diags(w) @ A.T).tocsc()
-        spec = "COLAMD"
-    try:
-        lu = spla.splu(M, permc_spec=spec)
-        if cols == dofs:
+        try:
+            lu = spla.splu(A, permc_spec=lu_ordering(model))
             # The global statics solve factors the same matrix with the same ordering: share it.
             run.keep_lu(lu)
             ratio = _kept_pivot_ratio(lu)
-        else:
-            ratio = pivot_ratio(lu)
-        singular = ratio < (LU_PIVOT_SINGULAR if cols == dofs else K_PIVOT_SINGULAR)
-    except RuntimeError:
-        ratio, singular = 0.0, True
+            singular = ratio < LU_PIVOT_SINGULAR
+        except RuntimeError:
+            ratio, singular = 0.0, True
+    else:
+        # Possibly read by a child process the run started earlier (AnalysisRun
+        # .start_unit_stiffness_screen): the same figure.
+        ratio = run.unit_stiffness_ratio()
+        singular = ratio < K_PIVOT_SINGULAR
     rho = scaled = None
     ill = False
     if singular:
@@ -426,13 +417,46 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     )
 
 
+def unit_stiffness_screened(model: Model) -> bool:
+    """True when `solve_stability` (default limits) screens the model by the LU of its
+    unit-stiffness matrix: a model too large for the dense SVD with more unknown forces than joint
+    equations (never stable and determinate)."""
+    cols = len(model.members) + len(model.reactions)
+    dense = model.dofs <= DENSE_DOF_LIMIT and cols <= 2 * DENSE_DOF_LIMIT
+    return cols > model.dofs and not dense
+
+
+def unit_stiffness_ratio(model: Model, A: sp.csc_matrix) -> float:
+    """min/max |U_ii| of the LU of the unit-stiffness matrix A W A^T (W = 1/L, each reaction a
+    spring of the median member's), 0.0 when the factorisation is exactly singular. The matrix is
+    singular exactly when the truss has a mechanism: the screen of a truss whose A has more
+    columns than rows."""
+    w = np.concatenate(
+        [
+            1.0 / model.lengths,
+            np.full(len(model.reactions), 1.0 / float(np.median(model.lengths))),
+        ]
+    )
+    M = (A @ sp.diags(w) @ A.T).tocsc()
+    try:
+        lu = spla.splu(M, permc_spec="COLAMD")
+    except RuntimeError:
+        return 0.0
+    return pivot_ratio(lu)
+
+
 def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
-    """pivot_ratio of an LU the run keeps, read in a child process where one may be used.
+    """pivot_ratio of an LU the run keeps: read from the factor's own storage where it can be,
+    else in a child process where one may be used.
 
     Reading lu.U makes CSC copies of both factors, and scipy keeps them on the factor object for
-    as long as it lives (135 MB on the 10^5-member 3D grid, held to the end of a check). A forked
-    child reads the same factors and returns one number; the kept factor carries no copies.
+    as long as it lives (135 MB on the 10^5-member 3D grid, held to the end of a check). Neither
+    the reading in place (verify.analysis.lu_factors) nor a forked child, which reads the same
+    factors and returns one number, leaves copies on the kept factor.
     """
+    diagonal = u_diagonal_in_place(lu)
+    if diagonal is not None:
+        return ratio_of_pivots(diagonal)
     child = Forked.start(pivot_ratio, lu)
     try:
         return child.result()

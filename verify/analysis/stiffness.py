@@ -109,6 +109,7 @@ import scipy.sparse.linalg as spla
 from scipy.sparse.csgraph import breadth_first_order
 
 from verify.analysis.forces import ForceResult
+from verify.analysis.lu_factors import factor_fill
 from verify.analysis.run import AnalysisRun, pivot_ratio
 from verify.forking import SERIAL_ENV, Forked, ForkFailed, ForkTimeout
 from verify.model import Model
@@ -327,7 +328,7 @@ def _mmd_solve(
     start = time.perf_counter()
     lu = _symmetric_mmd(K)
     solved = _solve_both(lu, rhs, probe)
-    return solved, pivot_ratio(lu), int(lu.L.nnz + lu.U.nnz), time.perf_counter() - start
+    return solved, pivot_ratio(lu), factor_fill(lu), time.perf_counter() - start
 
 
 def mmd_sample_fill(K: sp.csc_matrix) -> tuple[float, int] | None:
@@ -347,7 +348,7 @@ def mmd_sample_fill(K: sp.csc_matrix) -> tuple[float, int] | None:
         colamd = spla.splu(patch, permc_spec="COLAMD")
     except RuntimeError:
         return None
-    return (mmd.L.nnz + mmd.U.nnz) / (colamd.L.nnz + colamd.U.nnz), len(keep)
+    return factor_fill(mmd) / factor_fill(colamd), len(keep)
 
 
 def ordering_time_box(nonzeros: int) -> float:
@@ -410,7 +411,7 @@ def _solve_reduced(
                 [
                     "sparse LU of K with MMD_AT_PLUS_A ordering (symmetric mode), "
                     f"{time.perf_counter() - start:.3g} s, "
-                    + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
+                    + fill_note.format(factor_fill(lu), K.nnz)
                 ],
             )
     else:
@@ -448,7 +449,7 @@ def _solve_reduced(
         pivot_ratio(lu),
         [
             f"{why}; sparse LU of K with COLAMD ordering, {time.perf_counter() - start:.3g} s, "
-            + fill_note.format(lu.L.nnz + lu.U.nnz, K.nnz)
+            + fill_note.format(factor_fill(lu), K.nnz)
         ],
     )
 

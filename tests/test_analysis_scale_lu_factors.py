@@ -1,0 +1,104 @@
+"""U's diagonal and the fill read from a SuperLU factor's own storage (verify.analysis
+.lu_factors) are bit for bit what scipy's copies of the factors give (lu.U.diagonal(),
+lu.L.nnz + lu.U.nnz), on random sparse matrices with every ordering the analyses use, and where
+the layout check fails the copies are read instead."""
+
+from __future__ import annotations
+
+import ctypes
+import platform
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from trussgen import make_model, pratt
+
+from verify.analysis import lu_factors, stability
+from verify.analysis.lu_factors import factor_fill, u_diagonal, u_diagonal_in_place
+from verify.analysis.run import AnalysisRun, pivot_ratio
+from verify.analysis.stability import Classification, solve_stability
+
+in_place = pytest.mark.skipif(
+    platform.python_implementation() != "CPython", reason="read in place on CPython only"
+)
+_CACHED_U = 112  # offset of SuperLUObject.cached_U (scipy _superluobject.h), after perm_c
+ORDERINGS = ("COLAMD", "MMD_ATA", "MMD_AT_PLUS_A", "NATURAL")
+
+
+@st.composite
+def factors(draw: st.DrawFn) -> spla.SuperLU:
+    """A factor of a random sparse n x n matrix (small integers, so that elimination often
+    cancels to stored zeros, or decimals), partial or symmetric-mode pivoting."""
+    n = draw(st.integers(1, 40))
+    seed = draw(st.integers(0, 2**32 - 1))
+    rng = np.random.default_rng(seed)
+    M = sp.random(n, n, density=draw(st.floats(0.02, 0.6)), random_state=rng, format="csc")
+    if draw(st.booleans()):
+        M.data = np.round(M.data * 4.0)
+    M = sp.csc_matrix(M + sp.eye(n) * draw(st.sampled_from([0.0, 1.0, 2.5])))
+    if draw(st.booleans()):
+        M = sp.csc_matrix(M + M.T)
+    M.eliminate_zeros()
+    options = {}
+    if draw(st.booleans()):
+        options = {"diag_pivot_thresh": 0.0, "options": {"SymmetricMode": True}}
+    try:
+        return spla.splu(M, permc_spec=draw(st.sampled_from(ORDERINGS)), **options)
+    except RuntimeError:  # exactly singular: no factor to read
+        return spla.splu(sp.csc_matrix(sp.eye(n)))
+
+
+@in_place
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(factors())
+def test_read_in_place_equals_scipys_copies(lu: spla.SuperLU) -> None:
+    assert u_diagonal_in_place(lu) is not None
+    diag = u_diagonal(lu)
+    fill = factor_fill(lu)
+    np.testing.assert_array_equal(diag, lu.U.diagonal())  # read in place before the copies
+    assert fill == lu.L.nnz + lu.U.nnz
+
+
+@in_place
+def test_stored_zeros_are_not_counted() -> None:
+    """Natural order: eliminating row 1 cancels the (2, 3) entry to a stored zero, which scipy's
+    copy drops (its fill is 10 of the 12 values stored)."""
+    A = sp.csc_matrix(np.array([[1.0, 1.0, 1.0], [1.0, 2.0, 1.0], [1.0, 1.0, 2.0]]))
+    lu = spla.splu(A, permc_spec="NATURAL", diag_pivot_thresh=0.0)
+    assert u_diagonal_in_place(lu) is not None and lu.nnz == 12
+    assert factor_fill(lu) == 10 == lu.L.nnz + lu.U.nnz
+    np.testing.assert_array_equal(u_diagonal(lu), [1.0, 1.0, 1.0])
+
+
+def test_an_unexpected_layout_reads_the_copies(monkeypatch: pytest.MonkeyPatch) -> None:
+    A = sp.csc_matrix(np.array([[4.0, 1.0, 0.0], [1.0, 3.0, 1.0], [0.0, 2.0, 5.0]]))
+    monkeypatch.setattr(lu_factors, "_OBJECT_SIZE", 0)  # not the object size checked for
+    lu = spla.splu(A)
+    assert u_diagonal_in_place(lu) is None
+    np.testing.assert_array_equal(u_diagonal(lu), spla.splu(A).U.diagonal())
+    assert factor_fill(lu) == lu.L.nnz + lu.U.nnz
+
+
+@pytest.mark.parametrize("layout_known", [True, False])
+def test_the_kept_factor_leaves_no_copies_and_gives_scipys_ratio(
+    monkeypatch: pytest.MonkeyPatch, layout_known: bool
+) -> None:
+    """The screen's pivot ratio of the factor the run keeps, read in place (or, where the layout
+    is not the one checked for, in a child process or here), is scipy's own figure."""
+    if not layout_known:
+        monkeypatch.setattr(lu_factors, "_OBJECT_SIZE", 0)
+    model = make_model(pratt(40, load=3.0))
+    run = AnalysisRun(model)
+    result = solve_stability(model, dense_limit=10, run=run)
+    assert result.classification is Classification.STABLE_DETERMINATE
+    kept = run.equilibrium_lu()
+    reference = spla.splu(run.equilibrium_matrix(), permc_spec="COLAMD")
+    diag = np.abs(reference.U.diagonal())
+    assert pivot_ratio(kept) == diag.min() / diag.max()
+    assert f"LU pivot ratio {diag.min() / diag.max():.2e}" in " ".join(result.notes)
+    assert (stability.u_diagonal_in_place(kept) is not None) is layout_known
+    if layout_known:  # scipy's cached copy of U (SuperLUObject.cached_U) was never made
+        assert ctypes.c_void_p.from_address(id(kept) + _CACHED_U).value is None
