@@ -3,6 +3,9 @@
 from __future__ import annotations
 
 import os
+import signal
+import subprocess
+import sys
 import threading
 import time
 
@@ -116,3 +119,32 @@ def test_the_section_child_started_before_the_claims_is_stopped_when_they_are_re
     serial = service.check(os.path.join(CANAL, "case.toml"), claims)
     assert forked.review.verdict == serial.review.verdict
     assert forked.review.findings == serial.review.findings
+
+
+_ORPHAN = """
+import os, signal, sys, time
+from verify import forking
+child = forking.Forked.start(time.sleep, 30.0)
+print(child.pid, flush=True)
+os.kill(os.getpid(), signal.SIGKILL)  # no clean-up runs: the child is not cancelled
+"""
+
+
+@needs_fork
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="parent-death signal: Linux")
+def test_a_child_does_not_outlive_a_parent_killed_without_clean_up(monkeypatch):
+    """A job scheduler's SIGTERM or SIGKILL ends the parent without its finally blocks; its
+    section child must not work on alone to the end of its route."""
+    env = {k: v for k, v in os.environ.items() if k != forking.SERIAL_ENV}
+    done = subprocess.run(
+        [sys.executable, "-c", _ORPHAN], env=env, capture_output=True, text=True, timeout=60
+    )
+    pid = int(done.stdout.split()[0])
+    for _ in range(100):  # up to 5 s for the kernel to deliver the signal
+        try:
+            os.kill(pid, 0)
+        except ProcessLookupError:
+            return
+        time.sleep(0.05)
+    os.kill(pid, signal.SIGKILL)
+    pytest.fail(f"the child {pid} outlived its killed parent")
