@@ -28,6 +28,7 @@ from verify.errors import (
     quoted,
     shown,
 )
+from verify.io.case_columns import LabelKeys, plain_columns
 from verify.io.expressions import RESERVED, ExpressionError, Value, evaluate
 from verify.io.files import (
     CASE_FILE_MAX_BYTES,
@@ -145,12 +146,21 @@ class _Bulk:
     joint_index: dict[str, int] | None = None  # joint id -> position in joint_ids
     member_index: dict[str, int] | None = None  # member id -> row of the members table
     id_array: Any = None  # joint_ids as a numpy array of objects, once made
+    keys: LabelKeys | None = None  # joint_ids as byte keys (None: not made, or they cannot be)
+    keys_made: bool = False
 
     def id_strings(self, positions: Any) -> list[str]:
         """The ids at `positions` in joint_ids, as the very strings of joint_ids."""
         if self.id_array is None:
             self.id_array = np.array(self.joint_ids, dtype=object)
         return cast("list[str]", self.id_array[positions].tolist())
+
+    def label_keys(self) -> LabelKeys | None:
+        """The joint ids as numbers made from their bytes, once (None: they cannot be)."""
+        if not self.keys_made:
+            assert self.joint_ids is not None
+            self.keys, self.keys_made = LabelKeys.of(self.joint_ids), True
+        return self.keys
 
     def positions(self, labels: Any) -> Any:
         """The position of each label in joint_ids (-1: none), looked up in joint_index."""
@@ -965,6 +975,9 @@ def _joint_ref(
 def _fast_members(
     ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None
 ) -> list[Member] | None:
+    plain = _plain_members(ctx, base, name, default_ea)
+    if plain is not None:
+        return plain
     found = _clean_frame(ctx, base, name, ("members",), ("id", "start", "end"), ())
     if found is None:
         return None
@@ -1006,6 +1019,53 @@ def _fast_members(
     ctx.origins.register("member", file, ids)
     ctx.bulk.ends, ctx.bulk.member_index = ends, index
     return list(map(partial(tuple.__new__, Member), zip(ids, starts, stops, eas, strict=True)))
+
+
+def _plain_members(
+    ctx: _Ctx, base: Path, name: str, default_ea: float | None
+) -> list[Member] | None:
+    """The members of a large plain table without an EA column, cut from its bytes
+    (case_columns): the ids as strings, the ends as positions in the joints table read in bulk.
+    None when the table is anything else, or any cell is empty, an id repeated or an end not a
+    joint: the pandas reader (or the careful one) then takes it."""
+    bulk = ctx.bulk
+    if bulk.joint_ids is None or bulk.joint_index is None or bulk.xyz is None:
+        return None
+    found = _table_text(ctx, base, name, ("members",))
+    if found is None:
+        return None
+    file, text = found
+    if text.count("\n") < BULK_MIN_ROWS or not _plain_table(text):
+        return None
+    table = plain_columns(text)
+    if table is None:
+        return None
+    names = table.names
+    if len(set(names)) != len(names) or "ea" in names:
+        return None
+    if any(r not in names for r in ("id", "start", "end")):
+        return None
+    columns = [names.index(r) for r in ("id", "start", "end")]
+    for column in columns:
+        starts, stops = table.span(column)
+        if (starts == stops).any():
+            return None  # an empty cell
+    keys = bulk.label_keys()
+    if keys is None:
+        return None
+    ends = np.column_stack([keys.positions(table, columns[1]), keys.positions(table, columns[2])])
+    if (ends < 0).any():
+        return None
+    ids = table.texts(columns[0])
+    # The Model's member index, made once here: fewer keys than rows means a repeated id.
+    index = dict(zip(ids, range(len(ids)), strict=True))
+    if len(index) != len(ids):
+        return None
+    starts_, stops_ = bulk.id_strings(ends[:, 0]), bulk.id_strings(ends[:, 1])
+    ctx.origins.register("member", file, ids)
+    bulk.ends, bulk.member_index = ends, index
+    members = zip(ids, starts_, stops_, repeat(default_ea, len(ids)), strict=True)
+    return list(map(partial(tuple.__new__, Member), members))
 
 
 def _ea_from(
