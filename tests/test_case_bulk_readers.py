@@ -65,7 +65,7 @@ def _flaw(files: dict[str, str], flaw: str, where: int) -> None:
         cells[0] = ""
     elif flaw == "member short row":
         cells = cells[:2]
-    elif flaw == "member loop":
+    elif flaw == "member loop" and len(cells) > 2:  # not on a row a flaw cut short
         cells[2] = cells[1]
     elif flaw == "member ea":
         cells[3] = "2e5"
@@ -170,9 +170,11 @@ def test_the_bulk_readers_really_read_a_clean_case() -> None:
         return found
 
     case_module._clean_frame = counted  # type: ignore[assignment]
+    plain_loads = case_module._plain_loads  # a plain loads table is cut from its bytes instead
+    case_module._plain_loads = lambda *args: False  # type: ignore[assignment]
     try:
         model = _read(files, bulk=True)
     finally:
-        case_module._clean_frame = original
+        case_module._clean_frame, case_module._plain_loads = original, plain_loads
     assert sorted(read) == ["joints.csv", "loads.csv", "members.csv"]
     assert model == _read(files, bulk=False)

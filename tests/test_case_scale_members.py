@@ -122,7 +122,8 @@ def _members(ids: list[str], names: list[str], flaws: list[tuple[str, int]]) -> 
         elif flaw == "ea column":
             header, rows = header + ["EA"], [r + ["2e5"] for r in rows]
         elif flaw == "columns swapped":
-            header, rows = [header[1], header[0], header[2]], [[r[1], r[0], *r[2:]] for r in rows]
+            header = [header[1], header[0], *header[2:]]
+            rows = [[r[1], r[0], *r[2:]] if len(r) > 1 else r for r in rows]
         elif flaw == "upper-case header":
             header = [h.upper() for h in header]
         elif flaw == "repeated header":
@@ -155,20 +156,30 @@ FLAWS = [
 
 def _read(files: dict[str, str], route: str, taken: list[str] | None = None) -> object:
     """The model (joints, members, cases, arrays, indexes) or the problems as worded, read with
-    the members table cut from bytes ('plain'), by pandas ('pandas') or row by row ('careful')."""
-    saved = case_module.BULK_MIN_ROWS, case_module._clean_frame, case_module._plain_members
+    the members and loads tables cut from bytes ('plain'), by pandas ('pandas') or row by row
+    ('careful'). `taken` collects the tables the cuts read."""
+    names = ("BULK_MIN_ROWS", "_clean_frame", "_plain_members", "_plain_loads")
+    saved = [getattr(case_module, n) for n in names]
     case_module.BULK_MIN_ROWS = 0  # small tables too go to the bulk readers
-    original = case_module._plain_members
+    members, loads = case_module._plain_members, case_module._plain_loads
 
-    def plain(*args: object) -> object:
-        found = original(*args)  # type: ignore[arg-type]
+    def plain_members(*args: object) -> object:
+        found = members(*args)  # type: ignore[arg-type]
         if found is not None and taken is not None:
-            taken.append("plain")
+            taken.append("members")
         return found
 
-    case_module._plain_members = plain  # type: ignore[assignment]
+    def plain_loads(*args: object) -> object:
+        found = loads(*args)  # type: ignore[arg-type]
+        if found and taken is not None:
+            taken.append("loads")
+        return found
+
+    case_module._plain_members = plain_members  # type: ignore[assignment]
+    case_module._plain_loads = plain_loads  # type: ignore[assignment]
     if route != "plain":
         case_module._plain_members = lambda *args: None  # type: ignore[assignment]
+        case_module._plain_loads = lambda *args: False  # type: ignore[assignment]
     if route == "careful":
         case_module._clean_frame = lambda *args: None  # type: ignore[assignment]
     try:
@@ -180,7 +191,8 @@ def _read(files: dict[str, str], route: str, taken: list[str] | None = None) -> 
             except InputError as exc:
                 return exc.render().replace(folder, "")
     finally:
-        case_module.BULK_MIN_ROWS, case_module._clean_frame, case_module._plain_members = saved
+        for n, value in zip(names, saved, strict=True):
+            setattr(case_module, n, value)
     return (
         model.joints,
         model.members,
@@ -215,5 +227,5 @@ def test_a_clean_members_table_is_cut_from_bytes() -> None:
         files = _files(ids, _members(ids, ["M"], []))
         taken: list[str] = []
         model = _read(files, "plain", taken)
-        assert taken == ["plain"]
+        assert taken == ["members", "loads"]
         assert model == _read(files, "careful")

@@ -646,6 +646,10 @@ def _clean_frame(
     # characters splitlines also breaks at sent the table to the careful reader above.
     if breaks + (not text.endswith("\n")) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
+    if '"' not in text and text.count(",") != (len(header) - 1) * (len(frame) + 1):
+        # A short row (pandas fills its missing cells with "" and says nothing; the careful
+        # reader refuses it by line), where no comma can hide in quotes. Long rows fail above.
+        return None
     if not plain and (
         text.startswith((" ", "\t"))
         or text.endswith((" ", "\t"))
@@ -1522,32 +1526,126 @@ def _fast_loads(
     codes, names = (
         pd.factorize(keys, sort=False) if keys is not None else (np.zeros(len(joints), int), [])
     )
+    vectors = frame[list(axes)].astype(float).to_numpy()
+    names_list = [str(n) for n in names]
     if ctx.bulk.joint_index is not None and len(ctx.bulk.joint_index) == len(joint_ids):
         position = ctx.bulk.positions(joints)
-        if (position < 0).any():
-            return False
-        # A joint loaded twice in one case: a repeated (joint, case) pair of numbers.
-        pairs = np.sort(position * max(len(names), 1) + codes)
-        if (pairs[1:] == pairs[:-1]).any():
-            return False
-        joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
-    elif (
+        return _add_bulk_loads(
+            ctx,
+            cases,
+            position,
+            codes if keys is not None else None,
+            names_list,
+            fixed_case,
+            vectors,
+        )
+    if not (
         frame["joint"].isin(joint_ids).all()
         and not frame.duplicated(subset=["joint"] + (["case"] if keys is not None else [])).any()
     ):
-        joints = joints.tolist()
-    else:
         return False
-    vectors = frame[list(axes)].astype(float).to_numpy()
-    names_list = [str(n) for n in names]
-    if not (
+    if not _plain_vectors(vectors, names_list):
+        return False
+    joint_list = joints.tolist()
+    _bulk_loads(
+        cases, codes if keys is not None else None, names_list, fixed_case, joint_list, vectors
+    )
+    return True
+
+
+def _plain_vectors(vectors: np.ndarray, names: list[str]) -> bool:
+    """Every load finite and within LOAD_LIMIT, every case name a plain label."""
+    return bool(
         np.isfinite(vectors).all()
         and _within(vectors, LOAD_LIMIT)
-        and all(map(_plain_label, names_list))
-    ):
+        and all(map(_plain_label, names))
+    )
+
+
+def _add_bulk_loads(
+    ctx: _Ctx,
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    position: np.ndarray,
+    codes: np.ndarray | None,
+    names: list[str],
+    fixed_case: str | None,
+    vectors: np.ndarray,
+) -> bool:
+    """_bulk_loads for rows whose joints are `position`s in the joints table read in bulk, when
+    every joint is known (no -1), none is loaded twice in a case and _plain_vectors holds; else
+    add nothing and say False."""
+    if (position < 0).any():
         return False
-    _bulk_loads(cases, codes if keys is not None else None, names_list, fixed_case, joints, vectors)
+    # A joint loaded twice in one case: a repeated (joint, case) pair of numbers.
+    pairs = np.sort(position * max(len(names), 1) + (codes if codes is not None else 0))
+    if (pairs[1:] == pairs[:-1]).any():
+        return False
+    if not _plain_vectors(vectors, names):
+        return False
+    joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
+    _bulk_loads(cases, codes, names, fixed_case, joints, vectors)
     return True
+
+
+def _plain_loads(
+    ctx: _Ctx,
+    base: Path,
+    name: str,
+    where: tuple[str, ...],
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    fixed_case: str | None,
+    axes: tuple[str, ...],
+) -> bool:
+    """A large plain loads table with joints known to the joints table read in bulk: the case
+    and joint cells cut from its bytes (case_columns; the joints matched as numbers, the cases
+    numbered by the same keys, a string made only for each case's name) and only the force
+    columns parsed by pandas. False, adding nothing, on anything else (the pandas reader or the
+    careful one then takes the table)."""
+    bulk = ctx.bulk
+    if bulk.joint_ids is None or bulk.joint_index is None or bulk.xyz is None:
+        return False
+    found = _table_text(ctx, base, name, where)
+    if found is None:
+        return False
+    text = found[1]
+    if text.count("\n") < BULK_MIN_ROWS or not _plain_table(text):
+        return False
+    table = plain_columns(text)
+    if table is None or len(set(table.names)) != len(table.names):
+        return False
+    labels = ("joint",) + (() if fixed_case else ("case",))
+    if any(r not in table.names for r in labels + axes):
+        return False
+    for label in labels:
+        starts, stops = table.span(table.names.index(label))
+        if (starts == stops).any():
+            return False  # an empty cell
+    keys = bulk.label_keys()
+    if keys is None:
+        return False
+    position = keys.positions(table, table.names.index("joint"))
+    codes: np.ndarray | None = None
+    names: list[str] = []
+    if not fixed_case:
+        codes, names = table.numbered(table.names.index("case"))
+    import pandas as pd
+
+    try:
+        source = io.BytesIO(text.encode("ascii"))
+        numbers = pd.read_csv(
+            source,
+            usecols=[table.names.index(a) for a in axes],
+            keep_default_na=False,
+            skip_blank_lines=False,
+        )
+    except Exception:  # noqa: BLE001 - any trouble: the other readers explain it
+        return False
+    if len(numbers) != table.rows or any(numbers[c].dtype.kind not in "iuf" for c in numbers):
+        return False
+    # The force columns in the order of `axes` (pandas keeps the table's order).
+    in_table = sorted(axes, key=table.names.index)
+    vectors = numbers.to_numpy(dtype=float)[:, [in_table.index(a) for a in axes]]
+    return _add_bulk_loads(ctx, cases, position, codes, names, fixed_case, vectors)
 
 
 def _bulk_loads(
@@ -2134,6 +2232,8 @@ def _read_loads(
     def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
         axes = ("fx", "fy", "fz")[: dim or 2]
         required = ("joint",) + axes + (() if fixed_case else ("case",))
+        if _plain_loads(ctx, base, name, where, cases, fixed_case, axes):
+            return
         found = _clean_frame(ctx, base, name, where, required, axes)
         if found is not None and _fast_loads(ctx, cases, found[1], fixed_case, joint_ids, axes):
             return

@@ -66,6 +66,23 @@ class PlainColumns:
         # Every byte is ASCII (a plain table), so the decoding cannot fail.
         return picked.tobytes().decode("ascii")[:-1].split("\n")
 
+    def numbered(self, column: int) -> tuple[np.ndarray, list[str]]:
+        """The cells of one column numbered by text, in order of first appearance (as
+        pandas.factorize numbers strings): (a code per row, the text of each code)."""
+        import pandas as pd
+
+        starts, stops = self.span(column)
+        words = _label_words(self.data, starts, stops, max(1, -(-int((stops - starts).max()) // 8)))
+        codes, _ = pd.factorize(_keys(words), sort=False)
+        first = np.unique(codes, return_index=True)[1]
+        if words.shape[1] > 1 and not (words == words[first[codes]]).all():
+            # Two texts share a key (mixed from several words): number them as strings.
+            codes, _ = pd.factorize(np.array(self.texts(column), dtype=object), sort=False)
+            first = np.unique(codes, return_index=True)[1]
+        data = self.data
+        names = [data[starts[k] : stops[k]].tobytes().decode("ascii") for k in first.tolist()]
+        return np.asarray(codes, dtype=np.int64), names
+
 
 def plain_columns(text: str) -> PlainColumns | None:
     """The table `text` cut into columns, or None unless every data line has as many cells as the
