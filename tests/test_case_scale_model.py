@@ -4,12 +4,27 @@ vectors, joints looked up in the plain index) against a loop over every load, an
 
 from __future__ import annotations
 
+import dataclasses
 import math
+import pickle
+from pathlib import Path
 
+import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from verify.model import Combination, Joint, LoadCase, Member, Model, Reaction, Units
+from verify.io.case import read_case
+from verify.model import (
+    BulkJoints,
+    BulkMembers,
+    Combination,
+    Joint,
+    LoadCase,
+    Member,
+    Model,
+    Reaction,
+    Units,
+)
 from verify.units import Dimension, lookup_unit
 
 UNITS = Units(lookup_unit("m", Dimension.LENGTH), lookup_unit("kN", Dimension.FORCE))
@@ -83,3 +98,101 @@ def test_id_lists_are_the_tuples_ids_and_each_callers_own(model: Model) -> None:
         ids.append("changed by a caller")
     assert model.member_ids == [m.id for m in model.members]
     assert model.joint_ids == [j.id for j in model.joints]
+
+
+# -- joints and members of tables read in bulk, made when first read ----------------------------
+@st.composite
+def bulk_tables(draw: st.DrawFn) -> tuple[BulkJoints, BulkMembers, int]:
+    dim = draw(st.sampled_from([2, 3]))
+    n = draw(st.integers(2, 9))
+    ids = draw(st.lists(st.text(min_size=1, max_size=5), min_size=n, max_size=n, unique=True))
+    xyz = np.array(draw(st.lists(NUMBERS, min_size=n * dim, max_size=n * dim))).reshape(n, dim)
+    b = draw(st.integers(0, 12))
+    ends = np.array(draw(st.lists(st.integers(0, n - 1), min_size=2 * b, max_size=2 * b)))
+    ends = ends.reshape(b, 2).astype(np.int64)
+    names = draw(st.lists(st.text(min_size=1, max_size=5), min_size=b, max_size=b, unique=True))
+    ea = draw(st.none() | st.floats(1.0, 1e9))
+    return BulkJoints(ids, xyz), BulkMembers(names, ids, ends, ea), dim
+
+
+def _as_tuples(joints: BulkJoints, members: BulkMembers) -> tuple[tuple, tuple]:
+    """The tuples the careful reader makes of the same rows, one item at a time."""
+    made_joints = tuple(
+        Joint(i, tuple(float(v) for v in row))
+        for i, row in zip(joints.ids(), joints.xyz, strict=True)
+    )
+    ids = joints.ids()
+    made_members = tuple(
+        Member(m, ids[a], ids[b], members.ea)
+        for m, (a, b) in zip(members.ids(), members.ends.tolist(), strict=True)
+    )
+    return made_joints, made_members
+
+
+@settings(max_examples=150, deadline=None)
+@given(tables=bulk_tables())
+def test_bulk_items_read_like_the_tuples_they_stand_for(
+    tables: tuple[BulkJoints, BulkMembers, int],
+) -> None:
+    joints, members, _ = tables
+    for lazy, made in zip((joints, members), _as_tuples(joints, members), strict=True):
+        assert len(lazy) == len(made) and lazy._all is None  # the length makes no item
+        assert lazy.ids() == [item[0] for item in made] and lazy._all is None
+        assert lazy == made and made == lazy and hash(lazy) == hash(made)
+        assert list(lazy) == list(made) and lazy[:3] == made[:3] and repr(lazy) == repr(made)
+        if made:
+            assert lazy[-1] == made[-1] and made[0] in lazy
+        assert pickle.loads(pickle.dumps(lazy)) == made
+        assert lazy != made + (made[0],) if made else lazy == ()
+
+
+@settings(max_examples=100, deadline=None)
+@given(tables=bulk_tables())
+def test_a_model_of_bulk_items_is_the_model_of_their_tuples(
+    tables: tuple[BulkJoints, BulkMembers, int],
+) -> None:
+    joints, members, dim = tables
+    made_joints, made_members = _as_tuples(joints, members)
+    support = Reaction(joints.ids()[0], tuple(1.0 if a == 0 else 0.0 for a in range(dim)), "x")
+    loads = LoadCase("dead", {joints.ids()[-1]: tuple(1.0 for _ in range(dim))})
+    parts = ("t", UNITS, dim)
+    lazy = Model(*parts, joints, members, (support,), (loads,))
+    made = Model(*parts, made_joints, made_members, (support,), (loads,))
+    assert lazy == made
+    assert lazy.joint_ids == made.joint_ids and lazy.member_ids == made.member_ids
+    assert dict(lazy.joint_index) == dict(made.joint_index)
+    assert dict(lazy.member_index) == dict(made.member_index)
+    assert lazy.has_stiffness == made.has_stiffness
+    assert lazy.members_without_stiffness() == made.members_without_stiffness()
+    for name in ("xyz", "ends_index", "lengths", "unit_vectors", "applied_loads"):
+        assert np.array_equal(getattr(lazy, name), getattr(made, name), equal_nan=True), name
+    # A variant made by dataclasses.replace keeps the bulk items and reads the same arrays.
+    variant = dataclasses.replace(lazy, reactions=())
+    assert variant.joints is joints and np.array_equal(variant.xyz, made.xyz, equal_nan=True)
+    assert np.array_equal(variant.ends_index, made.ends_index)
+    ids = lazy.member_ids
+    ids.append("a caller's own list")
+    assert lazy.member_ids == made.member_ids
+
+
+def test_reading_a_large_case_makes_no_joint_or_member(tmp_path: Path) -> None:
+    """The plain tables of a large case give bulk items, and a model's ids, indexes, arrays and
+    stiffness flag are read without making them."""
+    from test_case_scale_members import _files, _members
+
+    import verify.io.case as case_module
+
+    ids = [f"J{k}" for k in range(12)]
+    for name, text in _files(ids, _members(ids, ["M"], [])).items():
+        (tmp_path / name).write_text(text, encoding="utf-8")
+    saved = case_module.BULK_MIN_ROWS
+    case_module.BULK_MIN_ROWS = 0
+    try:
+        model = read_case(tmp_path / "case.toml")
+    finally:
+        case_module.BULK_MIN_ROWS = saved
+    assert isinstance(model.joints, BulkJoints) and isinstance(model.members, BulkMembers)
+    assert model.joint_ids == ids and len(model.member_ids) == len(model.members) == 21
+    assert model.has_stiffness is False and len(model.members_without_stiffness()) == 21
+    assert model.joints._all is None and model.members._all is None
+    assert model.members[0] == Member("M0", "J0", "J1", None)  # made when read

@@ -11,12 +11,13 @@ both validate once and freeze the result.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import InitVar, dataclass, field
-from itertools import chain
+from functools import partial
+from itertools import chain, repeat
 from operator import itemgetter
 from types import MappingProxyType
-from typing import NamedTuple
+from typing import NamedTuple, TypeVar, overload
 
 import numpy as np
 
@@ -28,6 +29,9 @@ from verify.units import Unit
 class Joint(NamedTuple):
     id: str
     coords: tuple[float, ...]
+
+
+_T = TypeVar("_T")
 
 
 class Member(NamedTuple):
@@ -86,6 +90,102 @@ class Units:
     force: Unit
 
 
+class _Made(Sequence[_T]):
+    """Joints or members of tables read in bulk, read like the tuple they stand for.
+
+    Their number and their ids are known without making an item; the tuple is made once, when an
+    item is first read (a check of a 10^6-member truss reads none: 1.5x10^6 named tuples, with
+    their coordinate tuples and floats, took about 0.4 s and 150 MB). Equal to the same items as a
+    tuple or as another of these, hashed like that tuple, pickled as it.
+    """
+
+    __slots__ = ("_ids", "_all")
+
+    def __init__(self, ids: list[str]) -> None:
+        self._ids = ids
+        self._all: tuple[_T, ...] | None = None
+
+    def _make(self) -> tuple[_T, ...]:
+        raise NotImplementedError
+
+    def _items(self) -> tuple[_T, ...]:
+        if self._all is None:
+            self._all = self._make()
+        return self._all
+
+    def ids(self) -> list[str]:
+        """The items' ids in order (the list itself: read it, do not change it)."""
+        return self._ids
+
+    def __len__(self) -> int:
+        return len(self._ids)
+
+    @overload
+    def __getitem__(self, index: int) -> _T: ...
+
+    @overload
+    def __getitem__(self, index: slice) -> tuple[_T, ...]: ...
+
+    def __getitem__(self, index: int | slice) -> _T | tuple[_T, ...]:
+        return self._items()[index]
+
+    def __iter__(self) -> Iterator[_T]:
+        return iter(self._items())
+
+    def __contains__(self, item: object) -> bool:
+        return item in self._items()
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, _Made | tuple):
+            return self._items() == tuple(other)
+        return NotImplemented
+
+    def __hash__(self) -> int:
+        return hash(self._items())
+
+    def __repr__(self) -> str:
+        return repr(self._items())
+
+    def __reduce__(self) -> tuple[type, tuple[tuple[_T, ...]]]:
+        return tuple, (self._items(),)
+
+
+class BulkJoints(_Made[Joint]):
+    """Joints of a table read in bulk: ids and coordinates (joints x dim)."""
+
+    __slots__ = ("xyz",)
+
+    def __init__(self, ids: list[str], xyz: np.ndarray) -> None:
+        super().__init__(ids)
+        self.xyz = xyz
+
+    def _make(self) -> tuple[Joint, ...]:
+        # tuple.__new__ straight (Joint._make is Python code per joint); the coordinates zipped
+        # from one list per axis (no list per joint to turn into a tuple).
+        coords = zip(*(self.xyz[:, a].tolist() for a in range(self.xyz.shape[1])), strict=True)
+        return tuple(map(partial(tuple.__new__, Joint), zip(self._ids, coords, strict=True)))
+
+
+class BulkMembers(_Made[Member]):
+    """Members of a table read in bulk: ids, end positions in `joint_ids` (members x 2) and one
+    EA for every member (None: not given)."""
+
+    __slots__ = ("joint_ids", "ends", "ea")
+
+    def __init__(
+        self, ids: list[str], joint_ids: list[str], ends: np.ndarray, ea: float | None
+    ) -> None:
+        super().__init__(ids)
+        self.joint_ids, self.ends, self.ea = joint_ids, ends, ea
+
+    def _make(self) -> tuple[Member, ...]:
+        # The ends as the joints' own id strings (found by position), not copies.
+        names = np.array(self.joint_ids, dtype=object)
+        starts, stops = names[self.ends[:, 0]].tolist(), names[self.ends[:, 1]].tolist()
+        rows = zip(self._ids, starts, stops, repeat(self.ea, len(self._ids)), strict=True)
+        return tuple(map(partial(tuple.__new__, Member), rows))
+
+
 def _frozen(a: np.ndarray) -> np.ndarray:
     a = np.ascontiguousarray(a)
     a.setflags(write=False)
@@ -99,8 +199,8 @@ class Model:
     title: str
     units: Units
     dim: int
-    joints: tuple[Joint, ...]
-    members: tuple[Member, ...]
+    joints: Sequence[Joint]
+    members: Sequence[Member]
     reactions: tuple[Reaction, ...]
     cases: tuple[LoadCase, ...]
     combinations: tuple[Combination, ...] = ()
@@ -137,15 +237,18 @@ class Model:
         joint_index = (
             given_joints
             if given_joints is not None
-            else dict(zip(map(itemgetter(0), self.joints), range(len(self.joints)), strict=True))
+            else dict(zip(self._ids("joints"), range(len(self.joints)), strict=True))
         )
         member_index = (
             given_members
             if given_members is not None
-            else dict(zip(map(itemgetter(0), self.members), range(len(self.members)), strict=True))
+            else dict(zip(self._ids("members"), range(len(self.members)), strict=True))
         )
         if arrays is not None:
             xyz, ends = np.asarray(arrays[0], dtype=float), np.asarray(arrays[1], dtype=np.int64)
+        elif isinstance(self.joints, BulkJoints) and isinstance(self.members, BulkMembers):
+            # The same tables as before (dataclasses.replace of another field): their arrays.
+            xyz, ends = self.joints.xyz, self.members.ends
         else:
             xyz = np.array([j.coords for j in self.joints], dtype=float)
             ends = np.array(
@@ -181,10 +284,13 @@ class Model:
         return list(self._ids("members"))
 
     def _ids(self, kind: str) -> list[str]:
+        items = getattr(self, kind)
+        if isinstance(items, _Made):
+            return items.ids()
         key = f"_{kind}_ids"
         ids: list[str] | None = self.__dict__.get(key)
         if ids is None:
-            ids = list(map(itemgetter(0), getattr(self, kind)))
+            ids = list(map(itemgetter(0), items))
             object.__setattr__(self, key, ids)  # a cache beside the fields; the model is frozen
         return ids
 
@@ -199,9 +305,13 @@ class Model:
 
     @property
     def has_stiffness(self) -> bool:
+        if isinstance(self.members, BulkMembers):  # one EA for all: no member made to ask
+            return self.members.ea is not None or not self.members
         return all(m.EA is not None for m in self.members)
 
     def members_without_stiffness(self) -> list[str]:
+        if isinstance(self.members, BulkMembers):
+            return [] if self.members.ea is not None else self.member_ids
         return [m.id for m in self.members if m.EA is None]
 
     def load_matrix(self) -> np.ndarray:

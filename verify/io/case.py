@@ -10,7 +10,7 @@ import csv
 import io
 import re
 import tomllib
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property, partial
 from itertools import repeat
@@ -47,7 +47,18 @@ from verify.io.loadforms import (
 )
 from verify.io.locate import LineLocator
 from verify.io.numbers import parse_number
-from verify.model import Combination, ExactValues, Joint, LoadCase, Member, Model, Reaction, Units
+from verify.model import (
+    BulkJoints,
+    BulkMembers,
+    Combination,
+    ExactValues,
+    Joint,
+    LoadCase,
+    Member,
+    Model,
+    Reaction,
+    Units,
+)
 from verify.units import Dimension, Unit, lookup_unit
 
 TOP_KEYS = (
@@ -399,8 +410,8 @@ def build_model(
         title=title,
         units=units,
         dim=dim,
-        joints=tuple(joints),
-        members=tuple(members),
+        joints=joints if isinstance(joints, BulkJoints) else tuple(joints),
+        members=members if isinstance(members, BulkMembers) else tuple(members),
         reactions=tuple(reactions),
         cases=tuple(cases),
         combinations=tuple(combos),
@@ -805,7 +816,7 @@ def _within(values: Any, limit: float) -> bool:
 
 
 # -- joints -------------------------------------------------------------------------------------
-def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
+def _read_joints(ctx: _Ctx, table: Any, base: Path) -> Sequence[Joint]:
     joints: list[Joint] = []
     if table is None:
         return joints
@@ -883,7 +894,7 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
     return joints
 
 
-def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
+def _fast_joints(ctx: _Ctx, base: Path, name: str) -> Sequence[Joint] | None:
     found = _clean_frame(ctx, base, name, ("joints",), ("id", "x", "y"), ("x", "y"))
     if found is None:
         return None
@@ -904,10 +915,7 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
     ctx.declared_joints.update(ids)
     ctx.origins.register("joint", file, ids)
     ctx.bulk.joint_ids, ctx.bulk.xyz, ctx.bulk.joint_index = ids, xyz, index
-    # tuple.__new__ straight (Joint._make is Python code per joint); zip gives two items each,
-    # the coordinates zipped from one list per axis (no list per joint to turn into a tuple).
-    coords = zip(*(xyz[:, a].tolist() for a in range(xyz.shape[1])), strict=True)
-    return list(map(partial(tuple.__new__, Joint), zip(ids, coords, strict=True)))
+    return BulkJoints(ids, xyz)  # each Joint made only if the joints are read one by one
 
 
 def _plain_numbers(column: Any) -> bool:
@@ -922,7 +930,7 @@ def _plain_numbers(column: Any) -> bool:
     return bool(np.isfinite(values).all())
 
 
-def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
+def _dimension(ctx: _Ctx, joints: Sequence[Joint]) -> int | None:
     if not joints:
         return None
     if ctx.bulk.xyz is not None and len(ctx.bulk.xyz) == len(joints):
@@ -978,7 +986,7 @@ def _joint_ref(
 
 def _fast_members(
     ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None
-) -> list[Member] | None:
+) -> Sequence[Member] | None:
     plain = _plain_members(ctx, base, name, default_ea)
     if plain is not None:
         return plain
@@ -1027,7 +1035,7 @@ def _fast_members(
 
 def _plain_members(
     ctx: _Ctx, base: Path, name: str, default_ea: float | None
-) -> list[Member] | None:
+) -> Sequence[Member] | None:
     """The members of a large plain table without an EA column, cut from its bytes
     (case_columns): the ids as strings, the ends as positions in the joints table read in bulk.
     None when the table is anything else, or any cell is empty, an id repeated or an end not a
@@ -1065,11 +1073,9 @@ def _plain_members(
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
         return None
-    starts_, stops_ = bulk.id_strings(ends[:, 0]), bulk.id_strings(ends[:, 1])
     ctx.origins.register("member", file, ids)
     bulk.ends, bulk.member_index = ends, index
-    members = zip(ids, starts_, stops_, repeat(default_ea, len(ids)), strict=True)
-    return list(map(partial(tuple.__new__, Member), members))
+    return BulkMembers(ids, bulk.joint_ids, ends, default_ea)  # each Member made only if read
 
 
 def _ea_from(
@@ -1152,7 +1158,7 @@ def _read_members(
     area_unit: float | None,
     modulus_unit: float | None,
     default_ea: float | None,
-) -> list[Member]:
+) -> Sequence[Member]:
     members: list[Member] = []
     if table is None:
         return members
@@ -1688,7 +1694,11 @@ class _Geometry:
     plain joint loads would spend about 2 s per 10^6 members building dicts it never reads."""
 
     def __init__(
-        self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None
+        self,
+        joints: Sequence[Joint],
+        members: Sequence[Member],
+        dim: int | None,
+        units: Units | None,
     ) -> None:
         self._joints, self._members = joints, members
         self.dim = dim
@@ -2340,7 +2350,9 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
 
 
 # -- geometry -----------------------------------------------------------------------------------
-def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: int | None) -> None:
+def _check_geometry(
+    ctx: _Ctx, joints: Sequence[Joint], members: Sequence[Member], dim: int | None
+) -> None:
     if not joints or dim is None:
         return
     bulk = ctx.bulk
