@@ -15,6 +15,7 @@ from hypothesis import strategies as st
 
 from verify.io.case import read_case
 from verify.model import (
+    SINGLE_READS,
     BulkJoints,
     BulkMembers,
     Combination,
@@ -137,6 +138,17 @@ def test_bulk_items_read_like_the_tuples_they_stand_for(
     joints, members, _ = tables
     for lazy, made in zip((joints, members), _as_tuples(joints, members), strict=True):
         assert len(lazy) == len(made) and lazy._all is None  # the length makes no item
+        # Read by position, one at a time (negative positions too), before any tuple is made.
+        for k in range(-len(made), len(made)):
+            assert lazy[k] == made[k] and type(lazy[k]) is type(made[k])
+        assert lazy._all is None
+        for outside in (len(made), -len(made) - 1):
+            try:
+                lazy[outside]
+            except IndexError:
+                pass
+            else:
+                raise AssertionError(f"position {outside} of {len(made)} items read")
         assert lazy.ids() == [item[0] for item in made] and lazy._all is None
         assert lazy == made and made == lazy and hash(lazy) == hash(made)
         assert list(lazy) == list(made) and lazy[:3] == made[:3] and repr(lazy) == repr(made)
@@ -196,3 +208,14 @@ def test_reading_a_large_case_makes_no_joint_or_member(tmp_path: Path) -> None:
     assert model.has_stiffness is False and len(model.members_without_stiffness()) == 21
     assert model.joints._all is None and model.members._all is None
     assert model.members[0] == Member("M0", "J0", "J1", None)  # made when read
+
+
+def test_items_read_often_by_position_are_made_once() -> None:
+    """Past SINGLE_READS reads by position the whole tuple is made, and read from then on."""
+    ids = [f"J{k}" for k in range(5)]
+    joints = BulkJoints(ids, np.arange(10.0).reshape(5, 2))
+    for k in range(SINGLE_READS):
+        assert joints[k % 5] == Joint(ids[k % 5], (2.0 * (k % 5), 2.0 * (k % 5) + 1))
+    assert joints._all is None
+    assert joints[4] == Joint("J4", (8.0, 9.0)) and joints._all is not None
+    assert joints[2] is joints[2]  # the made tuple's own item

@@ -90,22 +90,32 @@ class Units:
     force: Unit
 
 
+# Items of a bulk table made one at a time before all are made at once (about 1 us each alone,
+# against 0.3 us each made together).
+SINGLE_READS = 1000
+
+
 class _Made(Sequence[_T]):
     """Joints or members of tables read in bulk, read like the tuple they stand for.
 
-    Their number and their ids are known without making an item; the tuple is made once, when an
-    item is first read (a check of a 10^6-member truss reads none: 1.5x10^6 named tuples, with
-    their coordinate tuples and floats, took about 0.4 s and 150 MB). Equal to the same items as a
+    Their number and their ids are known without making an item; an item read by position is
+    made alone, and the whole tuple once, when they are iterated or read many times (a check of
+    a large Pratt truss reads a few joints and members by position, not the 1.5x10^6 named tuples
+    with their coordinate tuples and floats of its 10^6 members). Equal to the same items as a
     tuple or as another of these, hashed like that tuple, pickled as it.
     """
 
-    __slots__ = ("_ids", "_all")
+    __slots__ = ("_ids", "_all", "_reads")
 
     def __init__(self, ids: list[str]) -> None:
         self._ids = ids
         self._all: tuple[_T, ...] | None = None
+        self._reads = 0  # items made one at a time so far
 
     def _make(self) -> tuple[_T, ...]:
+        raise NotImplementedError
+
+    def _item(self, index: int) -> _T:
         raise NotImplementedError
 
     def _items(self) -> tuple[_T, ...]:
@@ -127,6 +137,11 @@ class _Made(Sequence[_T]):
     def __getitem__(self, index: slice) -> tuple[_T, ...]: ...
 
     def __getitem__(self, index: int | slice) -> _T | tuple[_T, ...]:
+        if self._all is None and not isinstance(index, slice) and self._reads < SINGLE_READS:
+            # A few items read by position (a finding's joint, a special step's joint): made
+            # alone. Past SINGLE_READS of them, a loop is reading them: all are made once.
+            self._reads += 1
+            return self._item(range(len(self._ids))[index])  # IndexError as a tuple says it
         return self._items()[index]
 
     def __iter__(self) -> Iterator[_T]:
@@ -159,6 +174,9 @@ class BulkJoints(_Made[Joint]):
         super().__init__(ids)
         self.xyz = xyz
 
+    def _item(self, index: int) -> Joint:
+        return tuple.__new__(Joint, (self._ids[index], tuple(self.xyz[index].tolist())))
+
     def _make(self) -> tuple[Joint, ...]:
         # tuple.__new__ straight (Joint._make is Python code per joint); the coordinates zipped
         # from one list per axis (no list per joint to turn into a tuple).
@@ -177,6 +195,11 @@ class BulkMembers(_Made[Member]):
     ) -> None:
         super().__init__(ids)
         self.joint_ids, self.ends, self.ea = joint_ids, ends, ea
+
+    def _item(self, index: int) -> Member:
+        start, end = self.ends[index].tolist()
+        row = (self._ids[index], self.joint_ids[start], self.joint_ids[end], self.ea)
+        return tuple.__new__(Member, row)
 
     def _make(self) -> tuple[Member, ...]:
         # The ends as the joints' own id strings (found by position), not copies.
