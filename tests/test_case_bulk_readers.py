@@ -65,7 +65,7 @@ def _flaw(files: dict[str, str], flaw: str, where: int) -> None:
         cells[0] = ""
     elif flaw == "member short row":
         cells = cells[:2]
-    elif flaw == "member loop" and len(cells) > 2:  # not on a row a flaw cut short
+    elif flaw == "member loop":
         cells[2] = cells[1]
     elif flaw == "member ea":
         cells[3] = "2e5"
@@ -150,7 +150,8 @@ def test_a_case_read_in_bulk_equals_the_careful_reading(
 ) -> None:
     """Clean tables give the same model, indexes and arrays; spoiled ones the same problems."""
     files = pratt_csv_files(pratt(panels))
-    for flaw, where in zip(flaws, places, strict=False):
+    # Rows cut short last: the other flaws find every cell they change.
+    for flaw, where in sorted(zip(flaws, places, strict=False), key=lambda f: "short" in f[0]):
         _flaw(files, flaw, where)
     assert _read(files, bulk=True) == _read(files, bulk=False)
 

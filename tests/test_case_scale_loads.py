@@ -44,7 +44,8 @@ def _loads(
     ]
     end = "\n"
     c = 0 if fixed else 1  # the joint column
-    for flaw, at in flaws:
+    # Rows cut short or blank last: the other flaws find every cell they change.
+    for flaw, at in sorted(flaws, key=lambda f: f[0] in ("short row", "blank line")):
         k = at % len(cells)
         if flaw == "unknown joint":
             cells[k][c] += "x"

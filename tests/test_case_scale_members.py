@@ -101,7 +101,8 @@ def _members(ids: list[str], names: list[str], flaws: list[tuple[str, int]]) -> 
     rows = [[names[n % len(names)] + str(n), ids[a], ids[b]] for n, (a, b) in enumerate(pairs)]
     header = ["id", "start", "end"]
     end = "\n"
-    for flaw, at in flaws:
+    # Rows cut short or blank last: the other flaws find every cell they change.
+    for flaw, at in sorted(flaws, key=lambda f: f[0] in ("short row", "blank line")):
         k = at % len(rows)
         if flaw == "unknown end":
             rows[k][2] += "x"

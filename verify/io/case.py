@@ -651,6 +651,8 @@ def _clean_frame(
     frame.columns = [str(c).strip().lower() for c in frame.columns]
     if any(r not in frame.columns for r in required) or frame.columns.duplicated().any():
         return None
+    if len(set(names)) != len(names):
+        return None  # a name twice: pandas renames the second ("id.1"), the careful reader not
     if not isinstance(frame.index, pd.RangeIndex) or len(frame.columns) != len(header):
         return None  # rows longer than the header: pandas would take a column as the index
     # Lines as str.splitlines counts them: _table_text made every line end "\n", and the control
