@@ -17,6 +17,7 @@ from verify.io.case import read_case
 from verify.model import (
     SINGLE_READS,
     BulkJoints,
+    BulkLoads,
     BulkMembers,
     Combination,
     Joint,
@@ -207,6 +208,9 @@ def test_reading_a_large_case_makes_no_joint_or_member(tmp_path: Path) -> None:
     assert model.joint_ids == ids and len(model.member_ids) == len(model.members) == 21
     assert model.has_stiffness is False and len(model.members_without_stiffness()) == 21
     assert model.joints._all is None and model.members._all is None
+    loads = model.cases[0].loads
+    assert isinstance(loads, BulkLoads) and loads._dict is None  # the load matrix read them
+    assert dict(loads) == {"J1": (0.0, -10.0)}
     assert model.members[0] == Member("M0", "J0", "J1", None)  # made when read
 
 
@@ -219,3 +223,33 @@ def test_items_read_often_by_position_are_made_once() -> None:
     assert joints._all is None
     assert joints[4] == Joint("J4", (8.0, 9.0)) and joints._all is not None
     assert joints[2] is joints[2]  # the made tuple's own item
+
+
+@settings(max_examples=150, deadline=None)
+@given(tables=bulk_tables(), data=st.data())
+def test_bulk_loads_read_like_the_dict_they_stand_for(
+    tables: tuple[BulkJoints, BulkMembers, int], data: st.DataObject
+) -> None:
+    joints, _, dim = tables
+    ids = joints.ids()
+    rows = data.draw(st.lists(st.integers(0, len(ids) - 1), unique=True, max_size=len(ids)))
+    values = data.draw(st.lists(NUMBERS, min_size=len(rows) * dim, max_size=len(rows) * dim))
+    vectors = np.array(values, dtype=float).reshape(len(rows), dim)
+    lazy = BulkLoads(ids, np.array(rows, dtype=np.int64), vectors)
+    made = {
+        ids[r]: tuple(float(v) for v in vector) for r, vector in zip(rows, vectors, strict=True)
+    }
+    assert len(lazy) == len(made) and lazy._dict is None  # the length makes no vector
+    assert lazy == made and made == lazy and list(lazy.items()) == list(made.items())
+    assert pickle.loads(pickle.dumps(lazy)) == made and repr(lazy) == repr(made)
+    # The load matrix of a model with these loads: the same bits as with the dict.
+    support = Reaction(ids[0], tuple(1.0 if a == 0 else 0.0 for a in range(dim)), "x")
+    fresh = BulkLoads(ids, np.array(rows, dtype=np.int64), vectors)
+    parts = ("t", UNITS, dim, joints, (), (support,))
+    combo = (Combination("c", {"dead": 1.5}),)
+    with_bulk = Model(*parts, (LoadCase("dead", fresh),), combo)
+    with_dict = Model(*parts, (LoadCase("dead", made),), combo)
+    assert fresh._dict is None  # read as positions and vectors
+    got, expected = with_bulk.load_matrix(), with_dict.load_matrix()
+    assert got.tobytes() == expected.tobytes()
+    assert with_bulk == with_dict

@@ -49,6 +49,7 @@ from verify.io.locate import LineLocator
 from verify.io.numbers import parse_number
 from verify.model import (
     BulkJoints,
+    BulkLoads,
     BulkMembers,
     Combination,
     ExactValues,
@@ -1592,8 +1593,21 @@ def _add_bulk_loads(
         return False
     if not _plain_vectors(vectors, names):
         return False
-    joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
-    _bulk_loads(cases, codes, names, fixed_case, joints, vectors)
+    assert ctx.bulk.joint_ids is not None
+    # Each case's rows, in row order (a stable sort on the case numbers): a case new to `cases`
+    # keeps them as they are (BulkLoads), one that already holds loads takes them as a dict.
+    order = np.argsort(codes, kind="stable") if codes is not None else np.arange(len(position))
+    counts = np.bincount(codes, minlength=len(names)) if codes is not None else [len(position)]
+    start = 0
+    for case, count in zip(names if codes is not None else [fixed_case], counts, strict=True):
+        rows = order[start : start + int(count)]
+        start += int(count)
+        assert case is not None
+        found = BulkLoads(ctx.bulk.joint_ids, position[rows], vectors[rows])
+        if cases.get(case):
+            cases[case].update(found)
+        else:
+            cases[case] = found  # type: ignore[assignment]  # read like the dict (a Mapping)
     return True
 
 
@@ -2299,7 +2313,10 @@ def _read_loads(
         ctx.add("[loads] must hold one table per load case, e.g. [loads.dead]", "loads")
     if isinstance(table, (str, dict)) and not cases:
         ctx.add("no load cases defined; add e.g. [loads.dead]", "loads")
-    return [LoadCase(name, dict(loads)) for name, loads in cases.items()]
+    return [
+        LoadCase(name, loads if isinstance(loads, BulkLoads) else dict(loads))
+        for name, loads in cases.items()
+    ]
 
 
 def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Combination]:
