@@ -230,3 +230,15 @@ def test_a_clean_members_table_is_cut_from_bytes() -> None:
         model = _read(files, "plain", taken)
         assert taken == ["members", "loads"]
         assert model == _read(files, "careful")
+
+
+def test_an_id_too_long_is_refused_by_every_route() -> None:
+    """A joint or member id past LABEL_MAX_CHARS: the bulk readers took it (the careful reader
+    refuses it by line); now each declines and the careful reader words it."""
+    ids = ["A", "B", "C", "D"]
+    long_joint = _files([*ids[:3], "j" * 201], _members([*ids[:3], "j" * 201], ["M"], []))
+    long_member = _files(ids, _members(ids, ["m" * 200], []))  # 'm' x 200 then the row number
+    for files, said in ((long_joint, "is 201 characters long"), (long_member, "at most 200")):
+        plain = _read(files, "plain")
+        assert isinstance(plain, str) and said in plain
+        assert plain == _read(files, "pandas") == _read(files, "careful")

@@ -904,6 +904,8 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> Sequence[Joint] | None:
         return None
     file, frame = found
     ids = frame["id"].tolist()
+    if max(map(len, ids), default=0) > LABEL_MAX_CHARS:
+        return None  # an id too long to read in a table column: the careful reader says which
     # The Model's joint index, made once here: fewer keys than rows means a repeated id.
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
@@ -1001,6 +1003,8 @@ def _fast_members(
 
     file, frame = found
     ids = frame["id"].tolist()
+    if max(map(len, ids), default=0) > LABEL_MAX_CHARS:
+        return None  # an id too long to read in a table column: the careful reader says which
     # The Model's member index, made once here: fewer keys than rows means a repeated id.
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
@@ -1073,6 +1077,9 @@ def _plain_members(
     ends = np.column_stack([keys.positions(table, columns[1]), keys.positions(table, columns[2])])
     if (ends < 0).any():
         return None
+    starts, stops = table.span(columns[0])
+    if int((stops - starts).max()) > LABEL_MAX_CHARS:
+        return None  # an id too long to read in a table column: the careful reader says which
     ids = table.texts(columns[0])
     # The Model's member index, made once here: fewer keys than rows means a repeated id.
     index = dict(zip(ids, range(len(ids)), strict=True))
