@@ -150,7 +150,8 @@ def test_a_case_read_in_bulk_equals_the_careful_reading(
 ) -> None:
     """Clean tables give the same model, indexes and arrays; spoiled ones the same problems."""
     files = pratt_csv_files(pratt(panels))
-    for flaw, where in zip(flaws, places, strict=False):
+    # Rows cut short last: the other flaws find every cell they change.
+    for flaw, where in sorted(zip(flaws, places, strict=False), key=lambda f: "short" in f[0]):
         _flaw(files, flaw, where)
     assert _read(files, bulk=True) == _read(files, bulk=False)
 
@@ -170,9 +171,11 @@ def test_the_bulk_readers_really_read_a_clean_case() -> None:
         return found
 
     case_module._clean_frame = counted  # type: ignore[assignment]
+    plain_loads = case_module._plain_loads  # a plain loads table is cut from its bytes instead
+    case_module._plain_loads = lambda *args: False  # type: ignore[assignment]
     try:
         model = _read(files, bulk=True)
     finally:
-        case_module._clean_frame = original
+        case_module._clean_frame, case_module._plain_loads = original, plain_loads
     assert sorted(read) == ["joints.csv", "loads.csv", "members.csv"]
     assert model == _read(files, bulk=False)

@@ -10,7 +10,7 @@ import csv
 import io
 import re
 import tomllib
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property, partial
 from itertools import repeat
@@ -28,6 +28,7 @@ from verify.errors import (
     quoted,
     shown,
 )
+from verify.io.case_columns import LabelKeys, plain_columns
 from verify.io.expressions import RESERVED, ExpressionError, Value, evaluate
 from verify.io.files import (
     CASE_FILE_MAX_BYTES,
@@ -46,7 +47,19 @@ from verify.io.loadforms import (
 )
 from verify.io.locate import LineLocator
 from verify.io.numbers import parse_number
-from verify.model import Combination, ExactValues, Joint, LoadCase, Member, Model, Reaction, Units
+from verify.model import (
+    BulkJoints,
+    BulkLoads,
+    BulkMembers,
+    Combination,
+    ExactValues,
+    Joint,
+    LoadCase,
+    Member,
+    Model,
+    Reaction,
+    Units,
+)
 from verify.units import Dimension, Unit, lookup_unit
 
 TOP_KEYS = (
@@ -145,12 +158,21 @@ class _Bulk:
     joint_index: dict[str, int] | None = None  # joint id -> position in joint_ids
     member_index: dict[str, int] | None = None  # member id -> row of the members table
     id_array: Any = None  # joint_ids as a numpy array of objects, once made
+    keys: LabelKeys | None = None  # joint_ids as byte keys (None: not made, or they cannot be)
+    keys_made: bool = False
 
     def id_strings(self, positions: Any) -> list[str]:
         """The ids at `positions` in joint_ids, as the very strings of joint_ids."""
         if self.id_array is None:
             self.id_array = np.array(self.joint_ids, dtype=object)
         return cast("list[str]", self.id_array[positions].tolist())
+
+    def label_keys(self) -> LabelKeys | None:
+        """The joint ids as numbers made from their bytes, once (None: they cannot be)."""
+        if not self.keys_made:
+            assert self.joint_ids is not None
+            self.keys, self.keys_made = LabelKeys.of(self.joint_ids), True
+        return self.keys
 
     def positions(self, labels: Any) -> Any:
         """The position of each label in joint_ids (-1: none), looked up in joint_index."""
@@ -389,8 +411,8 @@ def build_model(
         title=title,
         units=units,
         dim=dim,
-        joints=tuple(joints),
-        members=tuple(members),
+        joints=joints if isinstance(joints, BulkJoints) else tuple(joints),
+        members=members if isinstance(members, BulkMembers) else tuple(members),
         reactions=tuple(reactions),
         cases=tuple(cases),
         combinations=tuple(combos),
@@ -503,7 +525,8 @@ def _table_text(ctx: _Ctx, base: Path, name: str, where: tuple[str, ...]) -> tup
         ctx.add(problem, *where)
         ctx.joints_unreadable = ctx.joints_unreadable or where == ("joints",)
         return None
-    text = text.replace("\r\n", "\n").replace("\r", "\n")
+    if "\r" in text:  # one scan of a table that has none (the usual), not two replaces
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
     ctx.tables[name] = (str(path), text)
     return ctx.tables[name]
 
@@ -630,12 +653,18 @@ def _clean_frame(
     frame.columns = [str(c).strip().lower() for c in frame.columns]
     if any(r not in frame.columns for r in required) or frame.columns.duplicated().any():
         return None
+    if len(set(names)) != len(names):
+        return None  # a name twice: pandas renames the second ("id.1"), the careful reader not
     if not isinstance(frame.index, pd.RangeIndex) or len(frame.columns) != len(header):
         return None  # rows longer than the header: pandas would take a column as the index
     # Lines as str.splitlines counts them: _table_text made every line end "\n", and the control
     # characters splitlines also breaks at sent the table to the careful reader above.
     if breaks + (not text.endswith("\n")) != len(frame) + 1:
         return None  # quoted line breaks or blank lines: line numbers would not follow rows
+    if '"' not in text and text.count(",") != (len(header) - 1) * (len(frame) + 1):
+        # A short row (pandas fills its missing cells with "" and says nothing; the careful
+        # reader refuses it by line), where no comma can hide in quotes. Long rows fail above.
+        return None
     if not plain and (
         text.startswith((" ", "\t"))
         or text.endswith((" ", "\t"))
@@ -791,7 +820,7 @@ def _within(values: Any, limit: float) -> bool:
 
 
 # -- joints -------------------------------------------------------------------------------------
-def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
+def _read_joints(ctx: _Ctx, table: Any, base: Path) -> Sequence[Joint]:
     joints: list[Joint] = []
     if table is None:
         return joints
@@ -869,12 +898,14 @@ def _read_joints(ctx: _Ctx, table: Any, base: Path) -> list[Joint]:
     return joints
 
 
-def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
+def _fast_joints(ctx: _Ctx, base: Path, name: str) -> Sequence[Joint] | None:
     found = _clean_frame(ctx, base, name, ("joints",), ("id", "x", "y"), ("x", "y"))
     if found is None:
         return None
     file, frame = found
     ids = frame["id"].tolist()
+    if max(map(len, ids), default=0) > LABEL_MAX_CHARS:
+        return None  # an id too long to read in a table column: the careful reader says which
     # The Model's joint index, made once here: fewer keys than rows means a repeated id.
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
@@ -887,13 +918,11 @@ def _fast_joints(ctx: _Ctx, base: Path, name: str) -> list[Joint] | None:
     xyz = frame[axes].astype(float).to_numpy()
     if not np.isfinite(xyz).all() or not _within(xyz, COORDINATE_LIMIT):
         return None
-    ctx.declared_joints.update(ids)
+    # Not added to ctx.declared_joints: every id of a bulk table is a usable joint, so a
+    # reference to one never asks whether it was declared (a set of 5x10^5 ids spared).
     ctx.origins.register("joint", file, ids)
     ctx.bulk.joint_ids, ctx.bulk.xyz, ctx.bulk.joint_index = ids, xyz, index
-    # tuple.__new__ straight (Joint._make is Python code per joint); zip gives two items each,
-    # the coordinates zipped from one list per axis (no list per joint to turn into a tuple).
-    coords = zip(*(xyz[:, a].tolist() for a in range(xyz.shape[1])), strict=True)
-    return list(map(partial(tuple.__new__, Joint), zip(ids, coords, strict=True)))
+    return BulkJoints(ids, xyz)  # each Joint made only if the joints are read one by one
 
 
 def _plain_numbers(column: Any) -> bool:
@@ -908,7 +937,7 @@ def _plain_numbers(column: Any) -> bool:
     return bool(np.isfinite(values).all())
 
 
-def _dimension(ctx: _Ctx, joints: list[Joint]) -> int | None:
+def _dimension(ctx: _Ctx, joints: Sequence[Joint]) -> int | None:
     if not joints:
         return None
     if ctx.bulk.xyz is not None and len(ctx.bulk.xyz) == len(joints):
@@ -964,13 +993,18 @@ def _joint_ref(
 
 def _fast_members(
     ctx: _Ctx, base: Path, name: str, joint_ids: set[str], default_ea: float | None
-) -> list[Member] | None:
+) -> Sequence[Member] | None:
+    plain = _plain_members(ctx, base, name, default_ea)
+    if plain is not None:
+        return plain
     found = _clean_frame(ctx, base, name, ("members",), ("id", "start", "end"), ())
     if found is None:
         return None
 
     file, frame = found
     ids = frame["id"].tolist()
+    if max(map(len, ids), default=0) > LABEL_MAX_CHARS:
+        return None  # an id too long to read in a table column: the careful reader says which
     # The Model's member index, made once here: fewer keys than rows means a repeated id.
     index = dict(zip(ids, range(len(ids)), strict=True))
     if len(index) != len(ids):
@@ -1006,6 +1040,54 @@ def _fast_members(
     ctx.origins.register("member", file, ids)
     ctx.bulk.ends, ctx.bulk.member_index = ends, index
     return list(map(partial(tuple.__new__, Member), zip(ids, starts, stops, eas, strict=True)))
+
+
+def _plain_members(
+    ctx: _Ctx, base: Path, name: str, default_ea: float | None
+) -> Sequence[Member] | None:
+    """The members of a large plain table without an EA column, cut from its bytes
+    (case_columns): the ids as strings, the ends as positions in the joints table read in bulk.
+    None when the table is anything else, or any cell is empty, an id repeated or an end not a
+    joint: the pandas reader (or the careful one) then takes it."""
+    bulk = ctx.bulk
+    if bulk.joint_ids is None or bulk.joint_index is None or bulk.xyz is None:
+        return None
+    found = _table_text(ctx, base, name, ("members",))
+    if found is None:
+        return None
+    file, text = found
+    if text.count("\n") < BULK_MIN_ROWS or not _plain_table(text):
+        return None
+    table = plain_columns(text)
+    if table is None:
+        return None
+    names = table.names
+    if len(set(names)) != len(names) or "ea" in names:
+        return None
+    if any(r not in names for r in ("id", "start", "end")):
+        return None
+    columns = [names.index(r) for r in ("id", "start", "end")]
+    for column in columns:
+        starts, stops = table.span(column)
+        if (starts == stops).any():
+            return None  # an empty cell
+    keys = bulk.label_keys()
+    if keys is None:
+        return None
+    ends = np.column_stack([keys.positions(table, columns[1]), keys.positions(table, columns[2])])
+    if (ends < 0).any():
+        return None
+    starts, stops = table.span(columns[0])
+    if int((stops - starts).max()) > LABEL_MAX_CHARS:
+        return None  # an id too long to read in a table column: the careful reader says which
+    ids = table.texts(columns[0])
+    # The Model's member index, made once here: fewer keys than rows means a repeated id.
+    index = dict(zip(ids, range(len(ids)), strict=True))
+    if len(index) != len(ids):
+        return None
+    ctx.origins.register("member", file, ids)
+    bulk.ends, bulk.member_index = ends, index
+    return BulkMembers(ids, bulk.joint_ids, ends, default_ea)  # each Member made only if read
 
 
 def _ea_from(
@@ -1088,7 +1170,7 @@ def _read_members(
     area_unit: float | None,
     modulus_unit: float | None,
     default_ea: float | None,
-) -> list[Member]:
+) -> Sequence[Member]:
     members: list[Member] = []
     if table is None:
         return members
@@ -1462,32 +1544,139 @@ def _fast_loads(
     codes, names = (
         pd.factorize(keys, sort=False) if keys is not None else (np.zeros(len(joints), int), [])
     )
+    vectors = frame[list(axes)].astype(float).to_numpy()
+    names_list = [str(n) for n in names]
     if ctx.bulk.joint_index is not None and len(ctx.bulk.joint_index) == len(joint_ids):
         position = ctx.bulk.positions(joints)
-        if (position < 0).any():
-            return False
-        # A joint loaded twice in one case: a repeated (joint, case) pair of numbers.
-        pairs = np.sort(position * max(len(names), 1) + codes)
-        if (pairs[1:] == pairs[:-1]).any():
-            return False
-        joints = ctx.bulk.id_strings(position)  # the joint table's own strings, as for members
-    elif (
+        return _add_bulk_loads(
+            ctx,
+            cases,
+            position,
+            codes if keys is not None else None,
+            names_list,
+            fixed_case,
+            vectors,
+        )
+    if not (
         frame["joint"].isin(joint_ids).all()
         and not frame.duplicated(subset=["joint"] + (["case"] if keys is not None else [])).any()
     ):
-        joints = joints.tolist()
-    else:
         return False
-    vectors = frame[list(axes)].astype(float).to_numpy()
-    names_list = [str(n) for n in names]
-    if not (
+    if not _plain_vectors(vectors, names_list):
+        return False
+    joint_list = joints.tolist()
+    _bulk_loads(
+        cases, codes if keys is not None else None, names_list, fixed_case, joint_list, vectors
+    )
+    return True
+
+
+def _plain_vectors(vectors: np.ndarray, names: list[str]) -> bool:
+    """Every load finite and within LOAD_LIMIT, every case name a plain label."""
+    return bool(
         np.isfinite(vectors).all()
         and _within(vectors, LOAD_LIMIT)
-        and all(map(_plain_label, names_list))
-    ):
+        and all(map(_plain_label, names))
+    )
+
+
+def _add_bulk_loads(
+    ctx: _Ctx,
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    position: np.ndarray,
+    codes: np.ndarray | None,
+    names: list[str],
+    fixed_case: str | None,
+    vectors: np.ndarray,
+) -> bool:
+    """_bulk_loads for rows whose joints are `position`s in the joints table read in bulk, when
+    every joint is known (no -1), none is loaded twice in a case and _plain_vectors holds; else
+    add nothing and say False."""
+    if (position < 0).any():
         return False
-    _bulk_loads(cases, codes if keys is not None else None, names_list, fixed_case, joints, vectors)
+    # A joint loaded twice in one case: a repeated (joint, case) pair of numbers.
+    pairs = np.sort(position * max(len(names), 1) + (codes if codes is not None else 0))
+    if (pairs[1:] == pairs[:-1]).any():
+        return False
+    if not _plain_vectors(vectors, names):
+        return False
+    assert ctx.bulk.joint_ids is not None
+    # Each case's rows, in row order (a stable sort on the case numbers): a case new to `cases`
+    # keeps them as they are (BulkLoads), one that already holds loads takes them as a dict.
+    order = np.argsort(codes, kind="stable") if codes is not None else np.arange(len(position))
+    counts = np.bincount(codes, minlength=len(names)) if codes is not None else [len(position)]
+    start = 0
+    for case, count in zip(names if codes is not None else [fixed_case], counts, strict=True):
+        rows = order[start : start + int(count)]
+        start += int(count)
+        assert case is not None
+        found = BulkLoads(ctx.bulk.joint_ids, position[rows], vectors[rows])
+        if cases.get(case):
+            cases[case].update(found)
+        else:
+            cases[case] = found  # type: ignore[assignment]  # read like the dict (a Mapping)
     return True
+
+
+def _plain_loads(
+    ctx: _Ctx,
+    base: Path,
+    name: str,
+    where: tuple[str, ...],
+    cases: dict[str, dict[str, tuple[float, ...]]],
+    fixed_case: str | None,
+    axes: tuple[str, ...],
+) -> bool:
+    """A large plain loads table with joints known to the joints table read in bulk: the case
+    and joint cells cut from its bytes (case_columns; the joints matched as numbers, the cases
+    numbered by the same keys, a string made only for each case's name) and only the force
+    columns parsed by pandas. False, adding nothing, on anything else (the pandas reader or the
+    careful one then takes the table)."""
+    bulk = ctx.bulk
+    if bulk.joint_ids is None or bulk.joint_index is None or bulk.xyz is None:
+        return False
+    found = _table_text(ctx, base, name, where)
+    if found is None:
+        return False
+    text = found[1]
+    if text.count("\n") < BULK_MIN_ROWS or not _plain_table(text):
+        return False
+    table = plain_columns(text)
+    if table is None or len(set(table.names)) != len(table.names):
+        return False
+    labels = ("joint",) + (() if fixed_case else ("case",))
+    if any(r not in table.names for r in labels + axes):
+        return False
+    for label in labels:
+        starts, stops = table.span(table.names.index(label))
+        if (starts == stops).any():
+            return False  # an empty cell
+    keys = bulk.label_keys()
+    if keys is None:
+        return False
+    position = keys.positions(table, table.names.index("joint"))
+    codes: np.ndarray | None = None
+    names: list[str] = []
+    if not fixed_case:
+        codes, names = table.numbered(table.names.index("case"))
+    import pandas as pd
+
+    try:
+        source = io.BytesIO(text.encode("ascii"))
+        numbers = pd.read_csv(
+            source,
+            usecols=[table.names.index(a) for a in axes],
+            keep_default_na=False,
+            skip_blank_lines=False,
+        )
+    except Exception:  # noqa: BLE001 - any trouble: the other readers explain it
+        return False
+    if len(numbers) != table.rows or any(numbers[c].dtype.kind not in "iuf" for c in numbers):
+        return False
+    # The force columns in the order of `axes` (pandas keeps the table's order).
+    in_table = sorted(axes, key=table.names.index)
+    vectors = numbers.to_numpy(dtype=float)[:, [in_table.index(a) for a in axes]]
+    return _add_bulk_loads(ctx, cases, position, codes, names, fixed_case, vectors)
 
 
 def _bulk_loads(
@@ -1530,7 +1719,11 @@ class _Geometry:
     plain joint loads would spend about 2 s per 10^6 members building dicts it never reads."""
 
     def __init__(
-        self, joints: list[Joint], members: list[Member], dim: int | None, units: Units | None
+        self,
+        joints: Sequence[Joint],
+        members: Sequence[Member],
+        dim: int | None,
+        units: Units | None,
     ) -> None:
         self._joints, self._members = joints, members
         self.dim = dim
@@ -2074,6 +2267,8 @@ def _read_loads(
     def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
         axes = ("fx", "fy", "fz")[: dim or 2]
         required = ("joint",) + axes + (() if fixed_case else ("case",))
+        if _plain_loads(ctx, base, name, where, cases, fixed_case, axes):
+            return
         found = _clean_frame(ctx, base, name, where, required, axes)
         if found is not None and _fast_loads(ctx, cases, found[1], fixed_case, joint_ids, axes):
             return
@@ -2125,7 +2320,10 @@ def _read_loads(
         ctx.add("[loads] must hold one table per load case, e.g. [loads.dead]", "loads")
     if isinstance(table, (str, dict)) and not cases:
         ctx.add("no load cases defined; add e.g. [loads.dead]", "loads")
-    return [LoadCase(name, dict(loads)) for name, loads in cases.items()]
+    return [
+        LoadCase(name, loads if isinstance(loads, BulkLoads) else dict(loads))
+        for name, loads in cases.items()
+    ]
 
 
 def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Combination]:
@@ -2180,7 +2378,9 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
 
 
 # -- geometry -----------------------------------------------------------------------------------
-def _check_geometry(ctx: _Ctx, joints: list[Joint], members: list[Member], dim: int | None) -> None:
+def _check_geometry(
+    ctx: _Ctx, joints: Sequence[Joint], members: Sequence[Member], dim: int | None
+) -> None:
     if not joints or dim is None:
         return
     bulk = ctx.bulk
