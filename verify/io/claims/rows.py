@@ -18,6 +18,7 @@ from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
 from verify.io.claims.rounding import decimals_as_written, shown_decimals
+from verify.io.claims.source_csv import PlainBlock
 from verify.io.claims.table import (
     CellTexts,
     ClaimArrays,
@@ -505,6 +506,163 @@ def _plain_cells(
     return value, plain, decimals, spans
 
 
+def _in_range(value: np.ndarray) -> np.ndarray:
+    """Where a value is a force the reader takes (zero, or a size within MIN..MAX_FORCE)."""
+    size = np.abs(value)
+    return np.isfinite(size) & ((size == 0) | ((size >= MIN_FORCE) & (size <= MAX_FORCE)))
+
+
+PLAIN_BLOCKS = True  # read a text split from its bytes by its cells' places (tests compare)
+
+
+def _number_bytes(raw: np.ndarray, delimiter: int) -> np.ndarray:
+    """Where `raw` holds a plain number's byte (digits, signs, point, e, E) or the delimiter,
+    with one False more (the place past the text a last cell may end at). By comparisons: a
+    table lookup per byte costs about ten of them."""
+    out = np.zeros(raw.size + 1, dtype=bool)
+    mask = out[:-1]
+    np.less(raw - np.uint8(ord("+")), ord("9") - ord("+") + 1, out=mask)  # '+' .. '9'
+    mask &= (raw != ord(",")) | (delimiter == ord(","))
+    mask &= raw != ord("/")
+    mask |= (raw | np.uint8(32)) == ord("e")
+    mask |= raw == delimiter
+    return out
+
+
+def _is_digit(raw: np.ndarray, first: str = "0") -> np.ndarray:
+    return (raw - np.uint8(ord(first))) <= ord("9") - ord(first)
+
+
+def read_plain_block(
+    block: PlainBlock, indexes: list[int], member_ids: MemberIndex, decimal_comma: bool
+) -> (
+    tuple[
+        np.ndarray,
+        Callable[[], list[str]],
+        list[np.ndarray],
+        list[np.ndarray],
+        list[tuple[str, np.ndarray, np.ndarray]],
+    ]
+    | None
+):
+    """(member position of each row, its labels when asked, and per value column: values,
+    decimals shown, (text, begins, ends) of its cells) for rows of a text split from its bytes
+    whose label column is `indexes[0]` and value columns the others; None unless every value
+    cell is a plain number (_plain_joined_spans's reading: then the column route is taken).
+
+    The same judgement as _plain_joined_spans, made at each cell's place in the file's text:
+    only number characters in a cell; a digit each side of every point; float() reading every
+    cell; decimals from the places of points and exponents. No string per column is made: the
+    rows are split a few thousand at a time for float() and for the labels, which are compared
+    with the model's ids in order and looked up only when they differ."""
+    ends, raw, text = block.ends, block.raw, block.text
+    n, width = ends.shape
+    if max(indexes) >= width:
+        return None
+    value_at = indexes[1:]
+    delimiter = ord(text[int(ends[0, 0])]) if width > 1 else ord("\n")
+    low, high = int(block.row_begin[0]), int(ends[-1, -1])
+    allowed = _number_bytes(raw, delimiter)
+    spans = []
+    for j in value_at:
+        begins, stops = block.begins(j), np.ascontiguousarray(ends[:, j])
+        if not bool((stops > begins).all()):
+            return None
+        bounds = np.empty(2 * n, dtype=np.int64)
+        bounds[0::2], bounds[1::2] = begins, stops
+        # Whether every byte of each cell is allowed (the delimiter never is inside one).
+        if not np.logical_and.reduceat(allowed, bounds)[0::2].all():
+            return None
+        spans.append((text, begins, stops))
+    del allowed
+    cell_ends = ends.ravel()
+    area = raw[low:high]
+    points = np.flatnonzero(area == ord(".")) + low
+    point_cell = np.searchsorted(cell_ends, points)  # the cell (row-major) each point is in
+    marks = np.flatnonzero((area == ord("e")) | (area == ord("E"))) + low
+    mark_cell = np.searchsorted(cell_ends, marks)
+    del area
+    shown_of = []
+    for (_, begins, stops), j in zip(spans, value_at, strict=True):
+        in_column = point_cell % width == j
+        at, where = point_cell[in_column] // width, points[in_column]
+        if where.size:
+            if decimal_comma or not ((where > begins[at]) & (where + 1 < stops[at])).all():
+                return None  # (a point first or last in its cell has no digit that side)
+            if not (_is_digit(raw[where - 1]) & _is_digit(raw[where + 1])).all():
+                return None
+        decimals = np.full(n, -1, dtype=np.int64)
+        decimals[at] = stops[at] - where - 1
+        in_column = mark_cell % width == j
+        cell, exponents = mark_cell[in_column] // width, marks[in_column]
+        if exponents.size:
+            # As _plain_joined_spans: the decimals before an exponent are kept only when the
+            # mantissa or the exponent has no non-zero digit. Whether a range holds one, by
+            # logical_or over the ranges [start, e), [e, e + 1), [e + 1, end), [end, next).
+            if np.unique(cell).size != cell.size:
+                return None  # two exponents in a cell: float() refuses it (the column route)
+            bounds = np.empty(4 * cell.size, dtype=np.int64)
+            bounds[0::4], bounds[1::4] = begins[cell], exponents
+            bounds[2::4], bounds[3::4] = exponents + 1, stops[cell]
+            if not (np.diff(bounds) > 0).all():
+                return None  # an empty mantissa or exponent: float() refuses it
+            non_zero = np.zeros(raw.size + 1, dtype=bool)
+            non_zero[low:high] = _is_digit(raw[low:high], "1")
+            some = np.logical_or.reduceat(non_zero, bounds)
+            del non_zero
+            mantissa_zero, exponent_zero = ~some[0::4], ~some[2::4]
+            point_of = np.full(n, -1, dtype=np.int64)
+            point_of[at] = where
+            kept = exponents - point_of[cell] - 1
+            pointed = decimals[cell] >= 0
+            decimals[cell] = np.where(
+                pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
+            )
+        shown_of.append(decimals)
+    found = _split_block(block, indexes, member_ids)
+    if found is None:
+        return None
+    member, labels, values = found
+    return member, labels, values, shown_of, spans
+
+
+def _split_block(
+    block: PlainBlock, indexes: list[int], member_ids: MemberIndex
+) -> tuple[np.ndarray, Callable[[], list[str]], list[np.ndarray]] | None:
+    """The rows split SPLIT_CHUNK at a time: float() of each value cell (None when it refuses
+    one), and the labels compared with the model's ids in order (kept only once they differ)."""
+    ends, text, row_begin = block.ends, block.text, block.row_begin
+    n, width = ends.shape
+    label_at, value_at = indexes[0], indexes[1:]
+    values = [np.empty(n, dtype=np.float64) for _ in value_at]
+    delimiter = text[int(ends[0, 0])] if width > 1 else "\n"
+    in_order = n <= len(member_ids)
+    listed: list[str] = []
+    last = ends[:, -1].tolist()
+    begin_at = row_begin.tolist()
+    for first in range(0, n, SPLIT_CHUNK):
+        stop = min(first + SPLIT_CHUNK, n)
+        chunk = text[begin_at[first] : last[stop - 1]]
+        cells = (chunk.replace("\n", delimiter) if width > 1 else chunk).split(delimiter)
+        del chunk
+        try:
+            for k, j in enumerate(value_at):
+                values[k][first:stop] = np.fromiter(
+                    map(float, cells[j::width]), dtype=np.float64, count=stop - first
+                )
+        except ValueError:
+            return None
+        labels = cells[label_at::width]
+        if in_order and labels != member_ids.ids_between(first, stop):
+            in_order = False
+            listed = member_ids.ids_between(0, first)
+        if not in_order:
+            listed.extend(labels)
+    if in_order:
+        return np.arange(n, dtype=np.int64), lambda: member_ids.ids_between(0, n), values
+    return member_ids.get_indexer(listed), lambda: listed, values
+
+
 def _cells_of_text(joined: str) -> list[Cell]:
     return cast("list[Cell]", joined.split("\n"))
 
@@ -526,31 +684,61 @@ def read_bulk(
     label_at = reader.member_h.index
     columns = reader.columns
     indexes = [label_at] + [v.index for v in columns]
-    # A plain CSV file gives each column's texts joined by line breaks, cut from its rows without
-    # a string per cell (a 10^5-row table of three columns made 3x10^5 strings at once, most of
-    # the reading's memory); the labels are split from theirs, the numbers parsed from theirs.
-    joined_of = getattr(grid.rows, "joined_columns", None)
-    joined = joined_of(start, stop, indexes) if joined_of is not None else None
-    cells_of: list[list[Cell]] | list[str] = (
-        joined if joined is not None else grid.columns(start, stop, indexes)
+    # A text split from its bytes gives the places of its cells: the plain numbers are checked
+    # and parsed from those (read_plain_block), and kept as spans of the text itself.
+    block_of = getattr(grid.rows, "plain_block", None)
+    block = block_of(start, stop) if PLAIN_BLOCKS and block_of is not None else None
+    from_block = (
+        read_plain_block(block, indexes, member_ids, grid.decimal_comma)
+        if block is not None
+        else None
     )
-    first = cells_of[0]
-    # The labels of a table listing the members in the model's order (the common export) are
-    # found by one comparison of texts; split into strings only when some label is looked up.
-    member = member_ids.joined_in_order(first) if isinstance(first, str) else None
     labels: list[Cell] | None = None
-    if member is None:
-        labels = _cells_of_text(first) if isinstance(first, str) else first
-        member = member_ids.get_indexer(labels)
-    ok = member >= 0
-    values, decimals_of, spans_of = [], [], []
-    texts_of: list[list[Cell] | str] = list(cells_of[1:])
-    for cells in texts_of:
-        value, plain, decimals, spans = _plain_cells(cells, grid.decimal_comma)
-        ok &= plain
-        values.append(value)
-        decimals_of.append(decimals)
-        spans_of.append(spans)
+    texts_of: list[list[Cell] | str] = []
+    cells_of: list[list[Cell]] | list[str] = []
+    values: list[np.ndarray] = []
+    decimals_of: list[np.ndarray | None] = []
+    spans_of: list[tuple[str, np.ndarray, np.ndarray] | None] = []
+    if from_block is not None:
+        member, label_texts, values, shown_of, spans = from_block
+        decimals_of = list(shown_of)
+        spans_of = list(spans)
+        ok = member >= 0
+        for value in values:
+            ok &= _in_range(value)
+
+        def labels_of() -> list[Cell]:
+            return cast("list[Cell]", label_texts())
+
+    else:
+        # A plain CSV file gives each column's texts joined by line breaks, cut from its rows
+        # without a string per cell (a 10^5-row table of three columns made 3x10^5 strings at
+        # once, most of the reading's memory); the labels are split from theirs, the numbers
+        # parsed from theirs.
+        joined_of = getattr(grid.rows, "joined_columns", None)
+        joined = joined_of(start, stop, indexes) if joined_of is not None else None
+        cells_of = joined if joined is not None else grid.columns(start, stop, indexes)
+        first = cells_of[0]
+        # The labels of a table listing the members in the model's order (the common export)
+        # are found by one comparison of texts; split into strings only when some label is
+        # looked up.
+        positions = member_ids.joined_in_order(first) if isinstance(first, str) else None
+        if positions is None:
+            labels = _cells_of_text(first) if isinstance(first, str) else first
+            positions = member_ids.get_indexer(labels)
+        member = positions
+        ok = member >= 0
+        texts_of = list(cells_of[1:])
+        for cells in texts_of:
+            value, plain, decimals, joined_spans = _plain_cells(cells, grid.decimal_comma)
+            ok &= plain
+            values.append(value)
+            decimals_of.append(decimals)
+            spans_of.append(None if joined_spans is None else _spans_of_joined(*joined_spans))
+
+        def labels_of() -> list[Cell]:
+            return _cells_of_text(cast(str, first))
+
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
@@ -558,7 +746,7 @@ def read_bulk(
     named[ok] = member[ok]
     match = reader.matcher.match
     if others.size and labels is None:
-        labels = _cells_of_text(cast(str, first))
+        labels = labels_of()
     for i in others.tolist():
         assert labels is not None
         cell = labels[i]
@@ -577,7 +765,7 @@ def read_bulk(
     value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
     text: list[str] | CellTexts
     if all(spans is not None for spans in spans_of):  # every cell text (plain numbers)
-        text = _cell_spans(cast("list[tuple[str, np.ndarray]]", spans_of), picked)
+        text = _cell_spans(cast("list[tuple[str, np.ndarray, np.ndarray]]", spans_of), picked)
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
         split_of = [_cells_of_text(t) if isinstance(t, str) else t for t in texts_of]
@@ -616,21 +804,32 @@ def read_bulk(
     )
 
 
-def _cell_spans(spans_of: list[tuple[str, np.ndarray]], picked: np.ndarray) -> CellTexts:
-    """The cells of rows `picked` of these columns (each joined by line breaks, with one past
-    each cell's end), in claim order (row by row, then column by column), cut from the columns
-    joined into one text when asked."""
+def _spans_of_joined(joined: str, ends: np.ndarray) -> tuple[str, np.ndarray, np.ndarray]:
+    """(text, begins, stops) of the cells joined by line breaks in `joined` (one past each
+    one's end in `ends`)."""
+    begins = np.empty_like(ends)
+    begins[0] = 0
+    begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
+    return joined, begins, ends
+
+
+def _cell_spans(
+    spans_of: list[tuple[str, np.ndarray, np.ndarray]], picked: np.ndarray
+) -> CellTexts:
+    """The cells of rows `picked` of these columns (each a text, and where each cell begins and
+    ends in it), in claim order (row by row, then column by column), cut when asked from one
+    text: the columns' own when they share it (cells of a file split from its bytes), else
+    their texts joined."""
+    texts = [text for text, _, _ in spans_of]
+    shared = all(text is texts[0] for text in texts)
     base = 0
     starts, stops = [], []
-    for joined, ends in spans_of:
-        begins = np.empty_like(ends)
-        begins[0] = 0
-        begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
+    for text, begins, ends in spans_of:
         starts.append(begins[picked] + base)
         stops.append(ends[picked] + base)
-        base += len(joined)
+        base += 0 if shared else len(text)
     return CellTexts(
-        "".join(joined for joined, _ in spans_of),
+        texts[0] if shared else "".join(texts),
         np.column_stack(starts).ravel(),
         np.column_stack(stops).ravel(),
         {},
