@@ -1,0 +1,299 @@
+"""Claims CSV read from the file's bytes, held to the routes it replaces (hypothesis draws inputs).
+
+Two shortcuts, each switchable so the careful route can be read beside it:
+
+- source_csv.PLAIN_BYTES: ASCII text broken by line feeds only is split from its bytes
+  (PlainText: the places of its lines and cells, no list of lines) instead of splitlines and a
+  join of the lines. Held to the lines' route: the same rows, row numbers, widths, columns and
+  joined columns, and the same message for a file refused.
+- rows.PLAIN_BLOCKS: the plain rows of a wide table read from their cells' places in that text
+  (read_plain_block) instead of columns cut from it. Held to the column route (_plain_cells of
+  each column's joined text), to the general row reader (FAST_ROWS off) and to float() of each
+  cell bit for bit.
+
+The drawn tables mix what must send a table to the careful route (quotes, blanks, padded cells,
+decimal commas, units and T/C letters in cells, CR line ends, a 'sep=' line, a byte order mark)
+with the common export (the model's ids in order, plain numbers).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, assume, event, given, settings
+from hypothesis import strategies as st
+from trussgen import make_model, pratt
+
+from verify.errors import InputError
+from verify.io import claims as claims_module
+from verify.io.claims import ClaimsTable, read_claims, source_csv
+from verify.io.claims import rows as rows_module
+from verify.io.claims.problems import Problems
+from verify.io.claims.rows import _in_range, _plain_cells, read_plain_block
+from verify.io.claims.table import MemberIndex
+
+
+def _two_case_model():
+    case = pratt(8, case="dead")
+    case["loads"]["wind"] = {joint: [1.0, 0.0] for joint in case["loads"]["dead"]}
+    return make_model(case)
+
+
+MODEL = _two_case_model()
+IDS = MODEL.member_ids
+
+NUMBER = st.one_of(
+    st.floats(allow_nan=False, allow_infinity=False).map(repr),
+    st.from_regex(r"[+-]?[0-9]{1,4}(\.[0-9]{1,4})?([eE][+-]?[0-9]{1,3})?", fullmatch=True),
+    st.sampled_from(
+        [
+            "7.599883247e-07",
+            "1.50e3",
+            "0.0e0",
+            "0e5",
+            "10.0E-0",
+            "00.10",
+            "-0",
+            "1e400",
+            "1e-400",
+            "1.2.3",
+            ".5",
+            "5.",
+            "1_0",
+            "inf",
+            "nan",
+            "1e",
+            "e5",
+            "+-1",
+            "1e5e5",
+            "1,5",
+            "12.5T",
+            "12.5 T",
+            "3 kN",
+            "(2.5)",
+            "1.5 ",
+            " 2",
+            "",
+            "-",
+            '"4"',
+        ]
+    ),
+)
+# Mostly plain numbers, so that most drawn tables are plain and take the shortcuts.
+CELL = st.one_of(NUMBER.filter(lambda t: t[-1:].isdigit() and "_" not in t), NUMBER, NUMBER, NUMBER)
+LABEL_SLIPS = st.lists(
+    st.tuples(st.integers(0, 40), st.sampled_from(["XX", "swap", "lower", "again", "RL0.y", ""])),
+    max_size=2,
+)
+
+
+def _table(
+    rows: list[tuple[str, str]],
+    slips: list[tuple[int, str]],
+    delimiter: str,
+    line_end: str,
+    last_break: bool,
+    directive: bool,
+    header: str,
+) -> str:
+    labels = [IDS[k] if k < len(IDS) else f"Z{k}" for k in range(len(rows))]
+    for at, slip in slips:
+        k = at % len(labels)
+        if slip == "swap" and len(labels) > 1:
+            labels[k], labels[k - 1] = labels[k - 1], labels[k]
+        elif slip == "lower":
+            labels[k] = labels[k].lower()
+        elif slip == "again":
+            labels[k] = labels[k - 1]
+        else:
+            labels[k] = slip
+    lines = [header.replace(",", delimiter)]
+    lines += [delimiter.join([label, *cells]) for label, cells in zip(labels, rows, strict=True)]
+    text = line_end.join(lines) + (line_end if last_break else "")
+    return (f"sep={delimiter}{line_end}" if directive else "") + text
+
+
+def _read(path: Path, monkeypatch: pytest.MonkeyPatch, *, shortcuts: bool, fast: bool = True):
+    monkeypatch.setattr(source_csv, "PLAIN_BYTES", shortcuts)
+    monkeypatch.setattr(rows_module, "PLAIN_BLOCKS", shortcuts)
+    monkeypatch.setattr(claims_module, "FAST_ROWS", fast)
+    try:
+        return read_claims(path, MODEL)
+    except InputError as error:
+        return error.render()
+
+
+def _same_tables(a: ClaimsTable | str, b: ClaimsTable | str) -> None:
+    if isinstance(a, str) or isinstance(b, str):
+        assert a == b
+        return
+    assert a.values == b.values
+    assert (a.unmatched, a.columns, a.sign_conflicts, a.header_unit, a.resolutions) == (
+        b.unmatched,
+        b.columns,
+        b.sign_conflicts,
+        b.header_unit,
+        b.resolutions,
+    )
+    unit = MODEL.units.force
+    x, y = a.arrays_for(MODEL.member_index, unit), b.arrays_for(MODEL.member_index, unit)
+    assert x.value.view(np.int64).tolist() == y.value.view(np.int64).tolist()  # bit for bit
+    for name in ("sign_fixed", "member", "column", "unit", "unit_factor", "rounding"):
+        p, q = getattr(x, name), getattr(y, name)
+        assert np.array_equal(p, q, equal_nan=p.dtype.kind == "f"), name
+    for name in ("names", "units", "where", "text", "label", "member_ids"):
+        assert list(getattr(x, name)) == list(getattr(y, name)), name
+    assert dict(x.reaction) == dict(y.reaction)
+
+
+@settings(
+    max_examples=250, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(
+    rows=st.lists(st.tuples(CELL, CELL), min_size=1, max_size=len(IDS) + 2),
+    slips=st.one_of(st.just([]), LABEL_SLIPS),
+    delimiter=st.sampled_from([",", ",", ";", "\t", "|"]),
+    line_end=st.sampled_from(["\n", "\n", "\n", "\r\n"]),
+    last_break=st.booleans(),
+    directive=st.booleans(),
+    header=st.sampled_from(["member,dead,wind", "Member,dead (kN),wind", "member,wind,dead"]),
+    bom=st.booleans(),
+)
+def test_a_table_read_by_the_shortcuts_equals_the_careful_routes(
+    tmp_path: Path,
+    monkeypatch: pytest.MonkeyPatch,
+    rows: list[tuple[str, str]],
+    slips: list[tuple[int, str]],
+    delimiter: str,
+    line_end: str,
+    last_break: bool,
+    directive: bool,
+    header: str,
+    bom: bool,
+) -> None:
+    path = tmp_path / "claims.csv"
+    text = _table(rows, slips, delimiter, line_end, last_break, directive, header)
+    path.write_bytes(("\ufeff" if bom else "").encode() + text.encode())
+    taken: list[bool] = []
+    block_read = rows_module.read_plain_block
+
+    def spy(*args, **kwargs):
+        found = block_read(*args, **kwargs)
+        taken.append(found is not None)
+        return found
+
+    monkeypatch.setattr(rows_module, "read_plain_block", spy)
+    shortcuts = _read(path, monkeypatch, shortcuts=True)
+    event(f"read from the cells' places: {any(taken)}")  # --hypothesis-show-statistics
+    _same_tables(shortcuts, _read(path, monkeypatch, shortcuts=False))
+    _same_tables(shortcuts, _read(path, monkeypatch, shortcuts=True, fast=False))
+
+
+TEXT = st.lists(
+    st.sampled_from(
+        ["M1", "1.5", "-2", "3e-07", " ", "", "a", ",", ";", "\t", "|", "\n", "\n", "\n"]
+        + ['"', "sep=;\n", "\x1f", "0", "x y", "\r", "\r\n", "\x0c", "é"]
+    ),
+    min_size=1,
+    max_size=30,
+).map("".join)
+
+
+def _grid_facts(data: bytes, on: bool, monkeypatch: pytest.MonkeyPatch) -> list[object]:
+    monkeypatch.setattr(source_csv, "PLAIN_BYTES", on)
+    problems = Problems("claims.csv")
+    grid = source_csv.read_csv(data, problems)
+    if grid is None:
+        return ["refused", [str(p) for p in problems.items]]
+    rows = grid.rows
+    facts: list[object] = [list(rows), grid.row_numbers, grid.delimiter, grid.decimal_comma]
+    facts += [[rows[i] for i in range(len(rows))], rows[1:3], rows[-1:] if len(rows) else []]
+    if isinstance(rows, source_csv.SplitRows):
+        facts.append(rows.lengths(0).tolist())
+        for start in range(3):
+            for indexes in ([0], [1, 0], [2]):
+                facts.append(rows.columns(start, len(rows), indexes))
+                facts.append(rows.joined_columns(start, len(rows), indexes))
+    return facts
+
+
+@settings(
+    max_examples=600, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(text=TEXT.filter(lambda t: bool(t.strip())), encoding=st.sampled_from(["utf-8", "cp1252"]))
+def test_rows_split_from_the_bytes_equal_the_rows_split_from_the_lines(
+    monkeypatch: pytest.MonkeyPatch, text: str, encoding: str
+) -> None:
+    data = text.encode(encoding, errors="replace")
+    assert _grid_facts(data, True, monkeypatch) == _grid_facts(data, False, monkeypatch)
+
+
+def test_the_common_export_takes_both_shortcuts(monkeypatch: pytest.MonkeyPatch) -> None:
+    """A table of the model's ids in order and plain numbers is split from its bytes and read
+    from its cells' places (not sent to the careful routes by some slip in the shortcuts)."""
+    lines = ["member,dead,wind"] + [f"{mid},{k}.25,-{k}e-3" for k, mid in enumerate(IDS)]
+    data = ("\n".join(lines) + "\n").encode()
+    grid = source_csv.read_csv(data, Problems("claims.csv"))
+    assert grid is not None and isinstance(grid.rows, source_csv.SplitRows)
+    block = grid.rows.plain_block(1, len(grid.rows))
+    assert block is not None
+    found = read_plain_block(block, [0, 1, 2], MemberIndex(IDS, MODEL.member_index), False)
+    assert found is not None
+    member, labels, values, shown, spans = found
+    assert member.tolist() == list(range(len(IDS))) and labels() == IDS
+    assert values[0].tolist() == [float(f"{k}.25") for k in range(len(IDS))]
+    assert values[1].tolist() == [float(f"-{k}e-3") for k in range(len(IDS))]
+    assert shown[0].tolist() == [2] * len(IDS)  # '3.25': two decimals shown
+    assert shown[1].tolist() == [-1] * len(IDS)  # '-3e-3': none
+    text, begins, ends = spans[1]
+    assert [text[a:b] for a, b in zip(begins.tolist(), ends.tolist(), strict=True)][:2] == [
+        "-0e-3",
+        "-1e-3",
+    ]
+
+
+@settings(max_examples=400, deadline=None)
+@given(
+    rows=st.lists(st.tuples(CELL, CELL), min_size=1, max_size=12),
+    decimal_comma=st.booleans(),
+    last_break=st.booleans(),
+)
+def test_a_block_read_equals_each_column_read_from_its_joined_text(
+    rows: list[tuple[str, str]], decimal_comma: bool, last_break: bool
+) -> None:
+    """read_plain_block against _plain_cells of each value column: the same values bit for bit
+    (float() of each cell), decimals and in-range flags; it refuses exactly the tables some of
+    whose columns _plain_cells does not read whole as plain numbers."""
+    delimiter = ";" if decimal_comma else ","
+    assume(not any(delimiter in cell for cells in rows for cell in cells))
+    lines = ["member,dead,wind"] + [
+        delimiter.join([IDS[k % len(IDS)], *cells]) for k, cells in enumerate(rows)
+    ]
+    data = (lines[0] + "\n" + "\n".join(lines[1:]) + ("\n" if last_break else "")).encode()
+    grid = source_csv.read_csv(data, Problems("claims.csv"))
+    if grid is None or not isinstance(grid.rows, source_csv.SplitRows):
+        return
+    block = grid.rows.plain_block(1, len(grid.rows))
+    if block is None:
+        return
+    member_ids = MemberIndex(IDS, MODEL.member_index)
+    found = read_plain_block(block, [0, 1, 2], member_ids, decimal_comma)
+    columns = [[cells[j] for cells in rows] for j in range(2)]
+    by_column = [_plain_cells("\n".join(column), decimal_comma) for column in columns]
+    if found is None:
+        assert any(spans is None for *_, spans in by_column)
+        return
+    member, labels, values, shown, spans = found
+    assert member.tolist() == member_ids.get_indexer(labels()).tolist()
+    for j, (value, plain, decimals, joined) in enumerate(by_column):
+        assert joined is not None and decimals is not None
+        assert values[j].view(np.int64).tolist() == value.view(np.int64).tolist()
+        assert values[j].tolist() == [float(t) for t in columns[j]]
+        assert shown[j].tolist() == decimals.tolist()
+        assert _in_range(values[j]).tolist() == plain.tolist()
+        text, begins, ends = spans[j]
+        assert [text[a:b] for a, b in zip(begins.tolist(), ends.tolist(), strict=True)] == (
+            columns[j]
+        )
