@@ -71,8 +71,9 @@ def _characters(text: str) -> set[str]:
     """The set of characters in `text` (for ASCII text counted by numpy, quicker than set())."""
     if not text.isascii():
         return set(text)
-    counts = np.bincount(np.frombuffer(text.encode("ascii"), dtype=np.uint8), minlength=128)
-    return {chr(c) for c in np.flatnonzero(counts).tolist()}
+    present = np.zeros(128, dtype=bool)
+    present[np.frombuffer(text.encode("ascii"), dtype=np.uint8)] = True  # (bincount: twice as long)
+    return {chr(c) for c in np.flatnonzero(present).tolist()}
 
 
 def _any_number_like(ids: Sequence[str]) -> bool:
@@ -84,13 +85,18 @@ def _any_number_like(ids: Sequence[str]) -> bool:
     joined = "\n".join(ids)
     if joined.count("\n") != len(ids) - 1:
         return True
-    folded = joined.translate(NORMALIZE_TABLE).casefold()
-    if not folded.isascii():
-        return True
+    if joined.isascii():
+        # NORMALIZE_TABLE maps non-ASCII dashes and spaces only, and casefold is lower() here.
+        folded = joined.lower()
+    else:
+        folded = joined.translate(NORMALIZE_TABLE).casefold()
+        if not folded.isascii():
+            return True
     raw = np.frombuffer(folded.encode("ascii") + b"\n", dtype=np.uint8)
     starts = np.concatenate([[0], np.flatnonzero(raw == ord("\n"))[:-1] + 1])
     other = ~_NUMBER_LIKE_BYTES[raw]  # the breaks between ids count as allowed
-    return bool((np.add.reduceat(other, starts, dtype=np.int64) == 0).any())
+    # Some id without another byte (logical_or keeps the bytes as bools: an add widened each).
+    return not bool(np.logical_or.reduceat(other, starts).all())
 
 
 def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:

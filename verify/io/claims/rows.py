@@ -515,17 +515,13 @@ def _in_range(value: np.ndarray) -> np.ndarray:
 PLAIN_BLOCKS = True  # read a text split from its bytes by its cells' places (tests compare)
 
 
-def _number_bytes(raw: np.ndarray, delimiter: int) -> np.ndarray:
-    """Where `raw` holds a plain number's byte (digits, signs, point, e, E) or the delimiter,
-    with one False more (the place past the text a last cell may end at). By comparisons: a
-    table lookup per byte costs about ten of them."""
+def _number_bytes(raw: np.ndarray) -> np.ndarray:
+    """Where `raw` holds one of '+,-./0123456789eE' (a plain number's bytes, and two that
+    float() refuses in any text), with one False more (the place past the text a last cell may
+    end at). By comparisons: a table lookup per byte costs about ten of them."""
     out = np.zeros(raw.size + 1, dtype=bool)
-    mask = out[:-1]
-    np.less(raw - np.uint8(ord("+")), ord("9") - ord("+") + 1, out=mask)  # '+' .. '9'
-    mask &= (raw != ord(",")) | (delimiter == ord(","))
-    mask &= raw != ord("/")
-    mask |= (raw | np.uint8(32)) == ord("e")
-    mask |= raw == delimiter
+    np.less(raw - np.uint8(ord("+")), ord("9") - ord("+") + 1, out=out[:-1])
+    out[:-1] |= (raw | np.uint8(32)) == ord("e")
     return out
 
 
@@ -557,68 +553,66 @@ def read_plain_block(
     with the model's ids in order and looked up only when they differ."""
     ends, raw, text = block.ends, block.raw, block.text
     n, width = ends.shape
-    if max(indexes) >= width:
-        return None
     value_at = indexes[1:]
-    delimiter = ord(text[int(ends[0, 0])]) if width > 1 else ord("\n")
-    low, high = int(block.row_begin[0]), int(ends[-1, -1])
-    allowed = _number_bytes(raw, delimiter)
-    spans = []
-    for j in value_at:
-        begins, stops = block.begins(j), np.ascontiguousarray(ends[:, j])
-        if not bool((stops > begins).all()):
-            return None
-        bounds = np.empty(2 * n, dtype=np.int64)
-        bounds[0::2], bounds[1::2] = begins, stops
-        # Whether every byte of each cell is allowed (the delimiter never is inside one).
-        if not np.logical_and.reduceat(allowed, bounds)[0::2].all():
-            return None
-        spans.append((text, begins, stops))
-    del allowed
-    cell_ends = ends.ravel()
+    order = sorted(value_at)  # the value columns as the text holds them
+    if max(indexes) >= width or len(set(order)) < len(order):
+        return None
+    k = len(order)
+    begins_of = {j: block.begins(j) for j in order}
+    stops_of = {j: np.ascontiguousarray(ends[:, j]) for j in order}
+    # Every value cell, in the text's order (row by row, then column by column).
+    begin = np.column_stack([begins_of[j] for j in order]).ravel()
+    end = np.column_stack([stops_of[j] for j in order]).ravel()
+    if not bool((end > begin).all()):
+        return None
+    bounds = np.empty(2 * begin.size, dtype=np.int64)
+    bounds[0::2], bounds[1::2] = begin, end
+    # Only number bytes in a cell: each cell's bytes, and what lies between, reduced at once.
+    if not np.logical_and.reduceat(_number_bytes(raw), bounds)[0::2].all():
+        return None
+    low, high = int(begin[0]), int(end[-1])
     area = raw[low:high]
-    points = np.flatnonzero(area == ord(".")) + low
-    point_cell = np.searchsorted(cell_ends, points)  # the cell (row-major) each point is in
-    marks = np.flatnonzero((area == ord("e")) | (area == ord("E"))) + low
-    mark_cell = np.searchsorted(cell_ends, marks)
+    marked = np.flatnonzero((area == ord(".")) | ((area | np.uint8(32)) == ord("e"))) + low
     del area
-    shown_of = []
-    for (_, begins, stops), j in zip(spans, value_at, strict=True):
-        in_column = point_cell % width == j
-        at, where = point_cell[in_column] // width, points[in_column]
-        if where.size:
-            if decimal_comma or not ((where > begins[at]) & (where + 1 < stops[at])).all():
-                return None  # (a point first or last in its cell has no digit that side)
-            if not (_is_digit(raw[where - 1]) & _is_digit(raw[where + 1])).all():
-                return None
-        decimals = np.full(n, -1, dtype=np.int64)
-        decimals[at] = stops[at] - where - 1
-        in_column = mark_cell % width == j
-        cell, exponents = mark_cell[in_column] // width, marks[in_column]
-        if exponents.size:
-            # As _plain_joined_spans: the decimals before an exponent are kept only when the
-            # mantissa or the exponent has no non-zero digit. Whether a range holds one, by
-            # logical_or over the ranges [start, e), [e, e + 1), [e + 1, end), [end, next).
-            if np.unique(cell).size != cell.size:
-                return None  # two exponents in a cell: float() refuses it (the column route)
-            bounds = np.empty(4 * cell.size, dtype=np.int64)
-            bounds[0::4], bounds[1::4] = begins[cell], exponents
-            bounds[2::4], bounds[3::4] = exponents + 1, stops[cell]
-            if not (np.diff(bounds) > 0).all():
-                return None  # an empty mantissa or exponent: float() refuses it
-            non_zero = np.zeros(raw.size + 1, dtype=bool)
-            non_zero[low:high] = _is_digit(raw[low:high], "1")
-            some = np.logical_or.reduceat(non_zero, bounds)
-            del non_zero
-            mantissa_zero, exponent_zero = ~some[0::4], ~some[2::4]
-            point_of = np.full(n, -1, dtype=np.int64)
-            point_of[at] = where
-            kept = exponents - point_of[cell] - 1
-            pointed = decimals[cell] >= 0
-            decimals[cell] = np.where(
-                pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
-            )
-        shown_of.append(decimals)
+    cell = np.minimum(np.searchsorted(end, marked), end.size - 1)
+    inside = begin[cell] <= marked  # (not a label's letter between value cells)
+    cell, marked = cell[inside], marked[inside]
+    is_point = raw[marked] == ord(".")
+    at, points = cell[is_point], marked[is_point]
+    if points.size:
+        if decimal_comma or not ((points > begin[at]) & (points + 1 < end[at])).all():
+            return None  # (a point first or last in its cell has no digit that side)
+        if not (_is_digit(raw[points - 1]) & _is_digit(raw[points + 1])).all():
+            return None
+    decimals = np.full(begin.size, -1, dtype=np.int64)
+    decimals[at] = end[at] - points - 1
+    cell, exponents = cell[~is_point], marked[~is_point]
+    if exponents.size:
+        # As _plain_joined_spans: the decimals before an exponent are kept only when the
+        # mantissa or the exponent has no non-zero digit. Whether a range holds one, by
+        # logical_or over the ranges [start, e), [e, e + 1), [e + 1, end), [end, next).
+        if (np.diff(cell) == 0).any():
+            return None  # two exponents in a cell: float() refuses it (the column route)
+        bounds = np.empty(4 * cell.size, dtype=np.int64)
+        bounds[0::4], bounds[1::4] = begin[cell], exponents
+        bounds[2::4], bounds[3::4] = exponents + 1, end[cell]
+        if not (np.diff(bounds) > 0).all():
+            return None  # an empty mantissa or exponent: float() refuses it
+        non_zero = np.zeros(raw.size + 1, dtype=bool)
+        non_zero[low:high] = _is_digit(raw[low:high], "1")
+        some = np.logical_or.reduceat(non_zero, bounds)
+        del non_zero
+        mantissa_zero, exponent_zero = ~some[0::4], ~some[2::4]
+        point_of = np.full(begin.size, -1, dtype=np.int64)
+        point_of[at] = points
+        kept = exponents - point_of[cell] - 1
+        pointed = decimals[cell] >= 0
+        decimals[cell] = np.where(
+            pointed, np.where(mantissa_zero | exponent_zero, kept, -1), decimals[cell]
+        )
+    by_slot = decimals.reshape(n, k)
+    shown_of = [np.ascontiguousarray(by_slot[:, order.index(j)]) for j in value_at]
+    spans = [(text, begins_of[j], stops_of[j]) for j in value_at]
     found = _split_block(block, indexes, member_ids)
     if found is None:
         return None
@@ -972,21 +966,24 @@ def assemble_claims(
                 text = [all_text[i] for i in order.tolist()]
         else:
             text = bulk.text  # the bulk rows alone: already in table order
-        value = _placed(np.concatenate([value, bulk.value]), position)
-        member = _placed(np.concatenate([member, bulk.member]), position)
-        decimals = _placed(np.concatenate([decimals, bulk.decimals]), position)
-        fixed = _placed(np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)]), position)
-        names_code = _placed(name_code, position)
-        units_code = _placed(unit_code, position)
+        placing = position if n_general else None  # the bulk rows alone: in order
+        value = _placed(np.concatenate([value, bulk.value]), placing)
+        member = _placed(np.concatenate([member, bulk.member]), placing)
+        decimals = _placed(np.concatenate([decimals, bulk.decimals]), placing)
+        fixed = _placed(np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)]), placing)
+        names_code = _placed(name_code, placing)
+        units_code = _placed(unit_code, placing)
         names, column = _first_use(names_code, name_list)
         units, unit = _first_use(units_code, unit_list)
         at_general = position[:n_general].tolist()
         if bulk.where is None:
             assert bulk.parts is not None
-            numbers = np.zeros(n, dtype=np.int64)
-            numbers[position[n_general:]] = bulk.numbers
-            slot = np.zeros(n, dtype=np.int64)
-            slot[position[n_general:]] = bulk.slot
+            numbers, slot = bulk.numbers, bulk.slot
+            if n_general:
+                numbers = np.zeros(n, dtype=np.int64)
+                numbers[position[n_general:]] = bulk.numbers
+                slot = np.zeros(n, dtype=np.int64)
+                slot[position[n_general:]] = bulk.slot
             where = Places(
                 _int_array(numbers),
                 _int_array(slot),
@@ -1029,8 +1026,11 @@ def assemble_claims(
     return arrays, _LazyValues(arrays, order, general)
 
 
-def _placed(values: np.ndarray, position: np.ndarray) -> np.ndarray:
-    """`values` (the general reader's claims, then the bulk ones) put in table order."""
+def _placed(values: np.ndarray, position: np.ndarray | None) -> np.ndarray:
+    """`values` (the general reader's claims, then the bulk ones) put in table order (None: the
+    bulk ones alone, in order already)."""
+    if position is None:
+        return values
     out = np.empty_like(values)
     out[position] = values
     return out

@@ -211,8 +211,8 @@ def _split_plain_text(text: str, data: bytes, offset: int, delimiter: str) -> Sp
     kind[ord("\n")] = 2
     kind[ord(delimiter)] = 1
     # Classed only where judged (a table lookup per byte costs ten comparisons of every byte).
-    for refused_byte in (ord('"'), 0x1F):
-        if kind[refused_byte] == 4 and (body == refused_byte).any():
+    for refused_byte in ('"', "\x1f"):
+        if kind[ord(refused_byte)] == 4 and text.find(refused_byte, base, stop) >= 0:
             return None
     if kind[body[0]] in (1, 3) or kind[body[-1]] in (1, 3):
         return None
