@@ -59,6 +59,8 @@ def judge_resolutions(
             continue
         magnitudes = np.abs(value[written])
         for step in STEPS:
+            if not _fit(magnitudes[:SAMPLE], step):
+                continue  # a first few thousand already off the step: so is the column
             counts = magnitudes / step
             whole = np.rint(counts)
             if not (np.abs(counts - whole) <= 1e-6 * np.maximum(1.0, counts)).all():
@@ -75,6 +77,15 @@ def judge_resolutions(
                 found.append(Resolution(name, step, stated.pop() if len(stated) == 1 else None))
             break
     return found
+
+
+SAMPLE = 2_000  # values of a column tried on a step before all of them
+
+
+def _fit(magnitudes: np.ndarray, step: float) -> bool:
+    """Whether every magnitude is a whole number of steps (within 1e-6 of one)."""
+    counts = magnitudes / step
+    return bool((np.abs(counts - np.rint(counts)) <= 1e-6 * np.maximum(1.0, counts)).all())
 
 
 def settle_rounding(
