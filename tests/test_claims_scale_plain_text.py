@@ -208,7 +208,8 @@ def _grid_facts(data: bytes, on: bool, monkeypatch: pytest.MonkeyPatch) -> list[
     if grid is None:
         return ["refused", [str(p) for p in problems.items]]
     rows = grid.rows
-    facts: list[object] = [list(rows), grid.row_numbers, grid.delimiter, grid.decimal_comma]
+    facts: list[object] = [list(rows), list(grid.row_numbers), grid.delimiter]
+    facts.append(grid.decimal_comma)
     facts += [[rows[i] for i in range(len(rows))], rows[1:3], rows[-1:] if len(rows) else []]
     if isinstance(rows, source_csv.SplitRows):
         facts.append(rows.lengths(0).tolist())

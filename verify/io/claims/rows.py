@@ -789,7 +789,7 @@ def read_bulk(
             member=np.repeat(member[picked], k),
             value=value,
             decimals=shown,
-            numbers=np.asarray(grid.row_numbers, dtype=np.int64)[grid_rows],
+            numbers=_row_numbers(grid.row_numbers, grid_rows),
             parts=parts if where is None else None,
             where=where,
             text=text,
@@ -805,6 +805,13 @@ def _spans_of_joined(joined: str, ends: np.ndarray) -> tuple[str, np.ndarray, np
     begins[0] = 0
     begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
     return joined, begins, ends
+
+
+def _row_numbers(numbers: Sequence[int], rows: np.ndarray) -> np.ndarray:
+    """The row numbers of grid rows `rows` (a range's worked out, not listed: 0.05 s at 10^6)."""
+    if isinstance(numbers, range):
+        return rows * numbers.step + numbers.start
+    return np.asarray(numbers, dtype=np.int64)[rows]
 
 
 def _cell_spans(

@@ -111,13 +111,23 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
     if simple:
         split = _split_plain_text(text, data, offset, delimiter)
         if split is not None:
-            numbers = list(range(1 + offset, len(split) + 1 + offset))
-            return Grid(split, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+            return Grid(
+                split,
+                range(1 + offset, len(split) + 1 + offset),
+                None,
+                decimal_comma=delimiter == ";",
+                delimiter=delimiter,
+            )
         lines = text.splitlines()[offset:]
     elif _plainly_split(lines, delimiter):
         plain = SplitRows(lines, delimiter)
-        numbers = list(range(1 + offset, len(plain) + 1 + offset))
-        return Grid(plain, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+        return Grid(
+            plain,
+            range(1 + offset, len(plain) + 1 + offset),
+            None,
+            decimal_comma=delimiter == ";",
+            delimiter=delimiter,
+        )
     del text
     rows: list[list[Cell]] = []
     numbers = []
