@@ -31,6 +31,8 @@ from verify.io import claims as claims_module
 from verify.io.claims import ClaimsTable, read_claims, source_csv
 from verify.io.claims import rows as rows_module
 from verify.io.claims.problems import Problems
+from verify.io.claims.resolution import settle_rounding
+from verify.io.claims.rounding import rounding_allowances, shown_decimals
 from verify.io.claims.rows import _in_range, _plain_cells, read_plain_block
 from verify.io.claims.table import MemberIndex
 
@@ -298,3 +300,47 @@ def test_a_block_read_equals_each_column_read_from_its_joined_text(
         assert [text[a:b] for a, b in zip(begins.tolist(), ends.tolist(), strict=True)] == (
             columns[j]
         )
+
+
+DECIMAL_TEXT = st.one_of(
+    st.from_regex(r"-?[0-9]{1,20}(\.[0-9]{1,8})?", fullmatch=True),
+    st.from_regex(r"-?[0-9]{1,3}\.[0-9]{1,6}[eE][+-]?0{1,2}", fullmatch=True),
+    st.floats(allow_nan=False, allow_infinity=False).map(repr),
+    st.sampled_from(["0.0", "-0.00", "1e400", "0.00001", "999999.99999", "12.5000000"]),
+)
+
+
+def _settled_in_full(value: np.ndarray, decimals: np.ndarray) -> np.ndarray:
+    """settle_rounding's first step as it was: every value settled, then the written decimals'
+    allowance where smaller."""
+    rounding = rounding_allowances(value, 1.0)
+    shown = np.flatnonzero(decimals >= 0)
+    written = decimals[shown].astype(float)
+    np.negative(written, out=written)
+    np.power(10.0, written, out=written)
+    written *= 0.5
+    written *= 1.0001
+    np.minimum(rounding[shown], written, out=written)
+    rounding[shown] = written
+    return rounding
+
+
+@settings(max_examples=300, deadline=None)
+@given(texts=st.lists(DECIMAL_TEXT, min_size=1, max_size=40))
+def test_written_decimals_settle_the_allowance_as_settling_every_value_did(
+    texts: list[str],
+) -> None:
+    """settle_rounding takes the written decimals' allowance without settling the value when
+    fewer than MAX_DECIMALS are shown: the same allowances, bit for bit, as settling every value
+    (with one column and no step or significant-figure widening, whose widening is unchanged)."""
+    value, _, decimals, _ = _plain_cells("\n".join(texts), False)
+    if decimals is None:  # not all plain numbers ('1e400' reads, but as inf)
+        decimals = np.array(
+            [shown_decimals(t, float(v)) for t, v in zip(texts, value, strict=True)]
+        )
+    reference = _settled_in_full(value, decimals)
+    member = np.zeros(value.size, dtype=bool)  # no member claim: no column widening
+    found = settle_rounding(
+        value, decimals, member, np.zeros(value.size, dtype=np.int64), ("d",), ()
+    )
+    assert found.view(np.int64).tolist() == reference.view(np.int64).tolist()

@@ -15,6 +15,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from verify.io.claims.rounding import (
+    MAX_DECIMALS,
     rounding_allowances,
     shown_decimals,
     significant_figure_allowances,
@@ -99,17 +100,26 @@ def settle_rounding(
     """Each claim's rounding allowance in its own unit: half a unit in the last decimal (as the
     cell shows them when it does: '10.00' was written to the hundredth, not the unit), widened
     for a column written to 2 or 3 significant figures or judged rounded to a step."""
-    rounding = rounding_allowances(value, 1.0)  # in the value's own unit: a scale of one
-    shown = np.flatnonzero(decimals >= 0)
-    # min(allowance, 0.5 * 10^-decimals * 1.0001), worked in one temporary array
-    written = decimals[shown].astype(float)
-    np.negative(written, out=written)
-    np.power(10.0, written, out=written)
-    written *= 0.5
-    written *= 1.0001
-    np.minimum(rounding[shown], written, out=written)
-    rounding[shown] = written
-    del written, shown
+    # min(allowance of the value, 0.5 * 10^-decimals * 1.0001) where the text shows decimals.
+    # A value written with d < MAX_DECIMALS decimals reads as itself rounded to d (float() of
+    # the text is the correctly rounded N / 10^d), so its allowance is settled at d or fewer
+    # decimals and is at least the written one: the written one is the minimum, and the value
+    # need not be settled (most of this step's time for a table of decimals).
+    quick = (decimals >= 0) & (decimals < MAX_DECIMALS) & np.isfinite(value)
+    rounding = np.empty(value.shape)
+    slow = np.flatnonzero(~quick)
+    rounding[slow] = rounding_allowances(value[slow], 1.0)  # in the value's own unit
+    for shown, settled in ((np.flatnonzero(quick), False), (slow[decimals[slow] >= 0], True)):
+        # 0.5 * 10^-decimals * 1.0001, worked in one temporary array
+        written = decimals[shown].astype(float)
+        np.negative(written, out=written)
+        np.power(10.0, written, out=written)
+        written *= 0.5
+        written *= 1.0001
+        if settled:
+            np.minimum(rounding[shown], written, out=written)
+        rounding[shown] = written
+        del written, shown
     steps = {r.column: r.step for r in resolutions}
     for k, name in enumerate(names):
         picked = (column == k) & is_member
