@@ -237,13 +237,20 @@ def _split_plain_text(text: str, data: bytes, offset: int, delimiter: str) -> Sp
     for left, right in ((1, 3), (3, 1), (2, 3), (3, 2), (1, 1), (2, 1), (1, 2)):
         refused[4 * left + right] = True
     # Each refused pair has a delimiter or line break on one side: the pairs either side of
-    # those are all that need judging.
-    inner = terms > 0
-    if refused[kind[body[terms[inner] - 1]] * 4 + cls[inner]].any():
-        return None
-    inner = terms < body.size - 1
-    if refused[cls[inner] * 4 + kind[body[terms[inner] + 1]]].any():
-        return None
+    # those are all that need judging. Without a space or tab (class 3) in the text, only two of
+    # them side by side can be refused (all but two breaks: a blank line).
+    spaced = any(kind[ord(c)] == 3 and text.find(c, base, stop) >= 0 for c in " \t")
+    if not spaced:
+        side = np.flatnonzero(np.diff(terms) == 1)
+        if ((cls[side] != 2) | (cls[side + 1] != 2)).any():
+            return None
+    else:
+        inner = terms > 0
+        if refused[kind[body[terms[inner] - 1]] * 4 + cls[inner]].any():
+            return None
+        inner = terms < body.size - 1
+        if refused[cls[inner] * 4 + kind[body[terms[inner] + 1]]].any():
+            return None
     return SplitRows.of_text(
         text,
         _ascii_bytes(text, data),
