@@ -53,9 +53,10 @@ def judge_resolutions(
 ) -> list[Resolution]:
     """Every column written to a step, judged on whole columns at once (arrays of the claims)."""
     found = []
+    usable = is_member & (value != 0) & np.isfinite(value)  # (the same for every column)
     for k, name in enumerate(names):
         in_column = column == k
-        written = in_column & is_member & (value != 0) & np.isfinite(value)
+        written = in_column & usable
         if int(written.sum()) < MIN_VALUES:
             continue
         magnitudes = np.abs(value[written])
