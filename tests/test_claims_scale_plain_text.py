@@ -30,6 +30,7 @@ from verify.errors import InputError
 from verify.io import claims as claims_module
 from verify.io.claims import ClaimsTable, read_claims, source_csv
 from verify.io.claims import rows as rows_module
+from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.problems import Problems
 from verify.io.claims.resolution import settle_rounding
 from verify.io.claims.rounding import rounding_allowances, shown_decimals
@@ -344,3 +345,62 @@ def test_written_decimals_settle_the_allowance_as_settling_every_value_did(
         value, decimals, member, np.zeros(value.size, dtype=np.int64), ("d",), ()
     )
     assert found.view(np.int64).tolist() == reference.view(np.int64).tolist()
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    joints=st.lists(
+        st.sampled_from(["B0_0", "B0_1", "b1", "M", "E", "R1", "X", "1", "Top 1", "A\u2212B"]),
+        min_size=3,
+        max_size=3,
+        unique=True,
+    ),
+    member_names=st.lists(
+        st.sampled_from(["M1", "member", "B0_0B0_1", "mem", "E-1", "x"]),
+        min_size=3,
+        max_size=3,
+        unique=True,
+    ),
+    labels=st.lists(
+        st.text(alphabet=list("BEMXRbemrxy01_ -.():\u2212"), min_size=1, max_size=9),
+        max_size=8,
+    ),
+)
+def test_a_label_judged_by_the_joined_ids_reads_as_full_matching_reads_it(
+    joints: list[str], member_names: list[str], labels: list[str]
+) -> None:
+    """names() looks a label that passes the character test up in the ids joined (member folds,
+    joint spellings of pair and reaction readings) before matching it in full: the same kind as
+    full matching, on models whose joints spell parts of headings ('member' with a joint 'M' and
+    a joint 'E'), with pairs, reactions and ids a plain join cannot judge (spaces, a minus)."""
+    a, b, c = joints
+    model = make_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": {a: [0.0, 0.0], b: [3.0, 0.0], c: [3.0, 3.0]},
+            "members": dict(zip(member_names, [[a, b], [b, c], [a, c]], strict=True)),
+            "supports": {a: ["x", "y"], b: ["y"]},
+            "loads": {"dead": {c: [0.0, -10.0]}},
+        }
+    )
+    matcher = LabelMatcher(model)
+    fixed = ["member", "Member", f"{a}{b}", f"{a}-{c}", f"R{a}.y", f"{b} (x)", f"x {a}", "dead"]
+    for label in labels + fixed:
+        assert matcher.names(label) == LabelMatcher(model)._match(label, suggest=False).kind
+
+
+def test_a_heading_beside_joints_that_spell_it_is_judged_without_folding_every_id() -> None:
+    """'member' over a model with joints 'B0_1'... passes the character test (its letters are
+    the ids' and a reaction's); it is judged from the joined ids without folding them one by
+    one, while a pair label still reads as its member."""
+    case = {
+        "units": {"length": "m", "force": "kN"},
+        "joints": {"B0_0": [0.0, 0.0], "B0_1": [3.0, 0.0], "M1_0": [3.0, 3.0]},
+        "members": {"M1": ["B0_0", "B0_1"], "M2": ["B0_1", "M1_0"], "M3": ["B0_0", "M1_0"]},
+        "supports": {"B0_0": ["x", "y"], "B0_1": ["y"]},
+        "loads": {"dead": {"M1_0": [0.0, -10.0]}},
+    }
+    matcher = LabelMatcher(make_model(case))
+    assert [matcher.names(t) for t in ("member", "Member", "dead")] == ["unknown"] * 3
+    assert "_fold_groups" not in vars(matcher) and "_joints_folded" not in vars(matcher)
+    assert matcher.names("b0_1-m1_0") == "member"

@@ -222,7 +222,56 @@ class LabelMatcher:
             return "unknown"
         if label not in self._ids and not self._may_name(label):
             return "unknown"
+        if label not in self._ids and self._names_nothing(label):
+            return "unknown"
         return self._match(label, suggest=False).kind
+
+    def _names_nothing(self, label: str) -> bool:
+        """True when `label` reads as no member id, member pair or reaction, judged by looking
+        its folded text, and the joint spellings a pair or reaction reading would need, up in the
+        ids joined (_key_joins) instead of folding every id of the model (a heading such as
+        'member' of a model with joints 'B0_1' passes _may_name). False when it may name one, or
+        when the ids are not plain enough to judge so: full matching decides then."""
+        joins = self._key_joins
+        if joins is None or "\n" in label:
+            return False
+        members, joints = joins
+        folded = normalize_text(label).casefold()
+        if f"\n{folded}\n" in members:
+            return False
+
+        def is_joint(key: str) -> bool:
+            return bool(key) and f"\n{key}\n" in joints
+
+        n = len(folded)
+        for i in range(1, n):  # as _pair_readings splits it
+            if not is_joint(folded[:i]):
+                continue
+            j = i
+            while j < n and folded[j] in LABEL_SEPARATORS:
+                j += 1
+            if is_joint(folded[j:]):
+                return False
+        return not (
+            self._reactions and any(is_joint(t) for t, _ in self._reaction_candidates(folded))
+        )
+
+    @cached_property
+    def _key_joins(self) -> tuple[str, str] | None:
+        """The member ids folded as _fold_groups folds them and the joint spellings as
+        _joints_folded makes them, each set joined between line breaks; None unless the ids are
+        ASCII without whitespace or line breaks (then normalising and stripping change nothing,
+        and a spelling between breaks is one whole id)."""
+        found = []
+        for folded, ids in zip(
+            self._folded_joins, (self._member_ids, self._joint_ids), strict=True
+        ):
+            if not ids or not folded.isascii() or folded.count("\n") != len(ids) - 1:
+                return None
+            if any(space in folded for space in " \t\r\x0b\x0c\x1c\x1d\x1e\x1f"):
+                return None
+            found.append(f"\n{folded}\n")
+        return found[0], found[1]
 
     def _may_name(self, label: str) -> bool:
         """False when the label holds a character no reading could use (a heading such as
@@ -312,16 +361,14 @@ class LabelMatcher:
                         found.append(mid)
         return found
 
-    def _reaction_readings(self, folded: str) -> list[tuple[str, str]]:
-        if not self._reactions:
-            return []
+    def _reaction_candidates(self, folded: str) -> list[tuple[str, str]]:
+        """(joint spelling, axis) of each way `folded` may read as a reaction label."""
         bodies = [(folded, False)]
         prefixed = _REACTION_PREFIX.match(folded)
         if prefixed:
             bodies.append((prefixed.group("body"), True))
-        found: list[tuple[str, str]] = []
+        readings: list[tuple[str, str]] = []
         for body, has_prefix in bodies:
-            readings: list[tuple[str, str]] = []
             tail = _AXIS_TAIL.search(body)
             if (
                 tail
@@ -334,12 +381,19 @@ class LabelMatcher:
             head = _AXIS_HEAD.match(body)
             if head and has_prefix:
                 readings.append((head.group("joint").strip(), head.group("axis")))
-            for joint_text, axis in readings:
-                for jid in self._joints_of(joint_text):
-                    if (
-                        (jid, axis) in self._reactions or (jid, axis) in self._free_directions
-                    ) and (jid, axis) not in found:
-                        found.append((jid, axis))
+        return readings
+
+    def _reaction_readings(self, folded: str) -> list[tuple[str, str]]:
+        if not self._reactions:
+            return []
+        found: list[tuple[str, str]] = []
+        for joint_text, axis in self._reaction_candidates(folded):
+            for jid in self._joints_of(joint_text):
+                if ((jid, axis) in self._reactions or (jid, axis) in self._free_directions) and (
+                    jid,
+                    axis,
+                ) not in found:
+                    found.append((jid, axis))
         return found
 
     def _suggest(self, folded: str) -> tuple[str, ...]:
