@@ -31,10 +31,11 @@ from verify.io import claims as claims_module
 from verify.io.claims import ClaimsTable, read_claims, source_csv
 from verify.io.claims import rows as rows_module
 from verify.io.claims.labels import LabelMatcher
+from verify.io.claims.plain_block import in_range, read_plain_block
 from verify.io.claims.problems import Problems
 from verify.io.claims.resolution import settle_rounding
 from verify.io.claims.rounding import rounding_allowances, shown_decimals
-from verify.io.claims.rows import _in_range, _plain_cells, read_plain_block
+from verify.io.claims.rows import _plain_cells
 from verify.io.claims.table import MemberIndex
 
 
@@ -296,7 +297,7 @@ def test_a_block_read_equals_each_column_read_from_its_joined_text(
         assert values[j].view(np.int64).tolist() == value.view(np.int64).tolist()
         assert values[j].tolist() == [float(t) for t in columns[j]]
         assert shown[j].tolist() == decimals.tolist()
-        assert _in_range(values[j]).tolist() == plain.tolist()
+        assert in_range(values[j]).tolist() == plain.tolist()
         text, begins, ends = spans[j]
         assert [text[a:b] for a, b in zip(begins.tolist(), ends.tolist(), strict=True)] == (
             columns[j]
