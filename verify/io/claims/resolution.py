@@ -90,6 +90,16 @@ def _fit(magnitudes: np.ndarray, step: float) -> bool:
     return bool((np.abs(counts - np.rint(counts)) <= 1e-6 * np.maximum(1.0, counts)).all())
 
 
+def _written_allowance(decimals: np.ndarray) -> np.ndarray:
+    """0.5 * 10^-decimals * 1.0001, worked in one temporary array."""
+    written = decimals.astype(float)
+    np.negative(written, out=written)
+    np.power(10.0, written, out=written)
+    written *= 0.5
+    written *= 1.0001
+    return written
+
+
 def settle_rounding(
     value: np.ndarray,
     decimals: np.ndarray,
@@ -110,17 +120,11 @@ def settle_rounding(
     rounding = np.empty(value.shape)
     slow = np.flatnonzero(~quick)
     rounding[slow] = rounding_allowances(value[slow], 1.0)  # in the value's own unit
-    for shown, settled in ((np.flatnonzero(quick), False), (slow[decimals[slow] >= 0], True)):
-        # 0.5 * 10^-decimals * 1.0001, worked in one temporary array
-        written = decimals[shown].astype(float)
-        np.negative(written, out=written)
-        np.power(10.0, written, out=written)
-        written *= 0.5
-        written *= 1.0001
-        if settled:
-            np.minimum(rounding[shown], written, out=written)
-        rounding[shown] = written
-        del written, shown
+    shown = np.flatnonzero(quick)
+    rounding[shown] = _written_allowance(np.arange(MAX_DECIMALS))[decimals[shown]]
+    shown = slow[decimals[slow] >= 0]
+    rounding[shown] = np.minimum(rounding[shown], _written_allowance(decimals[shown]))
+    del shown, slow
     steps = {r.column: r.step for r in resolutions}
     for k, name in enumerate(names):
         picked = (column == k) & is_member
