@@ -319,7 +319,9 @@ class SplitRows(Sequence[list[Cell]]):
     a string per cell made up front were most of the reading time of a 10^6-row table and held
     three times the file's size. A blank line is an empty row, as csv.reader gives it (a last
     one is no row: the joined text ends in a line break there, which ends the row above). The
-    last row asked is kept, as the row reader asks for one row's cells several times."""
+    last row asked is kept, as the row reader asks for one row's cells several times. Made from
+    a list of lines, or (of_text) from a text's bytes: then its lines are cut from the text when
+    asked, and the places of its cells are known (lengths, plain_block) without splitting it."""
 
     def __init__(self, lines: list[str], delimiter: str) -> None:
         self._lines: list[str] | PlainText = lines[:-1] if lines and not lines[-1] else lines
