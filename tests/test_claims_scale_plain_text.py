@@ -233,10 +233,16 @@ def _grid_facts(data: bytes, on: bool, monkeypatch: pytest.MonkeyPatch) -> list[
 @settings(
     max_examples=600, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
-@given(text=TEXT.filter(lambda t: bool(t.strip())), encoding=st.sampled_from(["utf-8", "cp1252"]))
+@given(
+    text=TEXT.filter(lambda t: bool(t.strip())),
+    encoding=st.sampled_from(["utf-8", "cp1252"]),
+    at_a_time=st.sampled_from([1, 2, 3, 7, 1 << 24]),
+)
 def test_rows_split_from_the_bytes_equal_the_rows_split_from_the_lines(
-    monkeypatch: pytest.MonkeyPatch, text: str, encoding: str
+    monkeypatch: pytest.MonkeyPatch, text: str, encoding: str, at_a_time: int
 ) -> None:
+    """(the delimiters' places found a few bytes at a time too, as a large file's are)"""
+    monkeypatch.setattr(source_csv, "PLACES_AT_A_TIME", at_a_time)
     data = text.encode(encoding, errors="replace")
     assert _grid_facts(data, True, monkeypatch) == _grid_facts(data, False, monkeypatch)
 
