@@ -417,3 +417,23 @@ def test_a_heading_beside_joints_that_spell_it_is_judged_without_folding_every_i
     assert [matcher.names(t) for t in ("member", "Member", "dead")] == ["unknown"] * 3
     assert "_fold_groups" not in vars(matcher) and "_joints_folded" not in vars(matcher)
     assert matcher.names("b0_1-m1_0") == "member"
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "member,dead\r\nM1,1.5\r\nM2,2\r\n",  # a spreadsheet's CSV on Windows: split from its bytes
+        "member,dead\r\r\nM1,1.5\r\n",  # CR then CR LF: a blank row between (not one break)
+        "member,dead\rM1,1.5\r\nM2,2\n",  # a lone CR breaks a line too
+        "member,dead\r\nM1,1.5\nM2,2",  # CR LF and LF mixed
+    ],
+)
+def test_lines_ended_by_cr_lf_are_the_lines_splitlines_gives(
+    monkeypatch: pytest.MonkeyPatch, text: str
+) -> None:
+    data = text.encode()
+    assert _grid_facts(data, True, monkeypatch) == _grid_facts(data, False, monkeypatch)
+    if "\r" not in text.replace("\r\n", ""):
+        monkeypatch.setattr(source_csv, "PLAIN_BYTES", True)
+        grid = source_csv.read_csv(data, Problems("claims.csv"))
+        assert grid is not None and grid.rows.plain_block(1, len(grid.rows)) is not None

@@ -96,6 +96,14 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
         return None
     # ASCII text broken only by "\n" (the common export) is split from its bytes: no list of
     # lines, and each cell's place found once for every later step (PlainText).
+    if PLAIN_BYTES and "\r\n" in text:
+        # Lines ended by CR LF (a spreadsheet's CSV on Windows) are the lines of the text with
+        # LF alone, unless a CR is left (a lone CR breaks a line too: 'a\r\r\nb' is three
+        # lines, 'a\r\nb' two); then the text is split as before.
+        unix = text.replace("\r\n", "\n")
+        if "\r" not in unix:
+            text = unix
+        del unix
     simple = PLAIN_BYTES and text.isascii() and not any(b in text for b in _OTHER_BREAKS)
     lines = [] if simple else text.splitlines()
     first = _first_line(text) if simple else (lines[0] if lines else None)
