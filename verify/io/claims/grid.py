@@ -63,7 +63,8 @@ def column_letter(index: int) -> str:
 @dataclass
 class Grid:
     rows: Sequence[list[Cell]]  # a list, or for a plain CSV file rows split when asked
-    row_numbers: list[int]  # the file / sheet / page row number of each entry, 1-based
+    # The file / sheet / page row number of each entry, 1-based (a range for a plain CSV file).
+    row_numbers: Sequence[int]
     sheet: str | None  # None for CSV and PDF
     decimal_comma: bool
     delimiter: str | None = None  # CSV only

@@ -71,26 +71,43 @@ def _characters(text: str) -> set[str]:
     """The set of characters in `text` (for ASCII text counted by numpy, quicker than set())."""
     if not text.isascii():
         return set(text)
-    counts = np.bincount(np.frombuffer(text.encode("ascii"), dtype=np.uint8), minlength=128)
-    return {chr(c) for c in np.flatnonzero(counts).tolist()}
+    present = np.zeros(128, dtype=bool)
+    present[np.frombuffer(text.encode("ascii"), dtype=np.uint8)] = True  # (bincount: twice as long)
+    return {chr(c) for c in np.flatnonzero(present).tolist()}
 
 
-def _any_number_like(ids: Sequence[str]) -> bool:
+def _joined_folded(ids: Sequence[str]) -> str:
+    """The ids joined by line breaks and case-folded (lower() for ASCII text: the same)."""
+    joined = "\n".join(ids)
+    return joined.lower() if joined.isascii() else joined.casefold()
+
+
+def _any_number_like(ids: Sequence[str], folded_join: str | None = None) -> bool:
     """Whether some id, after normalize_text and casefold, may consist of the characters of a
     number only: per id, no byte of the folded ids outside _NUMBER_LIKE_BYTES (a non-ASCII
-    folded text answers True: its stripping is not judged here)."""
+    folded text answers True: its stripping is not judged here). `folded_join`: the ids'
+    _joined_folded, when made already."""
     if not ids:
         return False
-    joined = "\n".join(ids)
+    if folded_join is not None and folded_join.isascii():
+        # (ASCII case-folding keeps every byte's place and every line break)
+        joined = folded = folded_join
+    else:
+        joined = "\n".join(ids)
     if joined.count("\n") != len(ids) - 1:
         return True
-    folded = joined.translate(NORMALIZE_TABLE).casefold()
-    if not folded.isascii():
-        return True
+    if joined.isascii():
+        # NORMALIZE_TABLE maps non-ASCII dashes and spaces only, and casefold is lower() here.
+        folded = joined.lower() if joined is not folded_join else joined
+    else:
+        folded = joined.translate(NORMALIZE_TABLE).casefold()
+        if not folded.isascii():
+            return True
     raw = np.frombuffer(folded.encode("ascii") + b"\n", dtype=np.uint8)
     starts = np.concatenate([[0], np.flatnonzero(raw == ord("\n"))[:-1] + 1])
     other = ~_NUMBER_LIKE_BYTES[raw]  # the breaks between ids count as allowed
-    return bool((np.add.reduceat(other, starts, dtype=np.int64) == 0).any())
+    # Some id without another byte (logical_or keeps the bytes as bools: an add widened each).
+    return not bool(np.logical_or.reduceat(other, starts).all())
 
 
 def member_ids_for(model: Model, labels: Sequence[str]) -> list[str]:
@@ -205,7 +222,56 @@ class LabelMatcher:
             return "unknown"
         if label not in self._ids and not self._may_name(label):
             return "unknown"
+        if label not in self._ids and self._names_nothing(label):
+            return "unknown"
         return self._match(label, suggest=False).kind
+
+    def _names_nothing(self, label: str) -> bool:
+        """True when `label` reads as no member id, member pair or reaction, judged by looking
+        its folded text, and the joint spellings a pair or reaction reading would need, up in the
+        ids joined (_key_joins) instead of folding every id of the model (a heading such as
+        'member' of a model with joints 'B0_1' passes _may_name). False when it may name one, or
+        when the ids are not plain enough to judge so: full matching decides then."""
+        joins = self._key_joins
+        if joins is None or "\n" in label:
+            return False
+        members, joints = joins
+        folded = normalize_text(label).casefold()
+        if f"\n{folded}\n" in members:
+            return False
+
+        def is_joint(key: str) -> bool:
+            return bool(key) and f"\n{key}\n" in joints
+
+        n = len(folded)
+        for i in range(1, n):  # as _pair_readings splits it
+            if not is_joint(folded[:i]):
+                continue
+            j = i
+            while j < n and folded[j] in LABEL_SEPARATORS:
+                j += 1
+            if is_joint(folded[j:]):
+                return False
+        return not (
+            self._reactions and any(is_joint(t) for t, _ in self._reaction_candidates(folded))
+        )
+
+    @cached_property
+    def _key_joins(self) -> tuple[str, str] | None:
+        """The member ids folded as _fold_groups folds them and the joint spellings as
+        _joints_folded makes them, each set joined between line breaks; None unless the ids are
+        ASCII without whitespace or line breaks (then normalising and stripping change nothing,
+        and a spelling between breaks is one whole id)."""
+        found = []
+        for folded, ids in zip(
+            self._folded_joins, (self._member_ids, self._joint_ids), strict=True
+        ):
+            if not ids or not folded.isascii() or folded.count("\n") != len(ids) - 1:
+                return None
+            if any(space in folded for space in " \t\r\x0b\x0c\x1c\x1d\x1e\x1f"):
+                return None
+            found.append(f"\n{folded}\n")
+        return found[0], found[1]
 
     def _may_name(self, label: str) -> bool:
         """False when the label holds a character no reading could use (a heading such as
@@ -222,15 +288,24 @@ class LabelMatcher:
         _may_name): the folded ids' own (minus signs and spaces as normalize_text makes them),
         the separators, and the letters and marks of a reaction label."""
         chars = set(LABEL_SEPARATORS) | set("reactionxyzn()_.-:, ")
-        for ids in (self._member_ids, self._joint_ids):
-            chars |= _characters("\n".join(ids).casefold())
+        for folded in self._folded_joins:
+            chars |= _characters(folded)
         return frozenset(chars)
+
+    @cached_property
+    def _folded_joins(self) -> tuple[str, str]:
+        """The member ids and the joint ids, each _joined_folded (made once for _label_chars
+        and _numbers_may_name: 0.1 s at 10^6 members)."""
+        return _joined_folded(self._member_ids), _joined_folded(self._joint_ids)
 
     @cached_property
     def _numbers_may_name(self) -> bool:
         """Whether some member or joint id, folded as labels are, may be written with the
         characters of a number only (answered True whenever that is not plainly ruled out)."""
-        return _any_number_like(self._member_ids) or _any_number_like(self._joint_ids)
+        members, joints = self._folded_joins
+        return _any_number_like(self._member_ids, members) or _any_number_like(
+            self._joint_ids, joints
+        )
 
     def match(self, label: str) -> Match:
         found = self._cache.get(label)
@@ -286,16 +361,14 @@ class LabelMatcher:
                         found.append(mid)
         return found
 
-    def _reaction_readings(self, folded: str) -> list[tuple[str, str]]:
-        if not self._reactions:
-            return []
+    def _reaction_candidates(self, folded: str) -> list[tuple[str, str]]:
+        """(joint spelling, axis) of each way `folded` may read as a reaction label."""
         bodies = [(folded, False)]
         prefixed = _REACTION_PREFIX.match(folded)
         if prefixed:
             bodies.append((prefixed.group("body"), True))
-        found: list[tuple[str, str]] = []
+        readings: list[tuple[str, str]] = []
         for body, has_prefix in bodies:
-            readings: list[tuple[str, str]] = []
             tail = _AXIS_TAIL.search(body)
             if (
                 tail
@@ -308,12 +381,19 @@ class LabelMatcher:
             head = _AXIS_HEAD.match(body)
             if head and has_prefix:
                 readings.append((head.group("joint").strip(), head.group("axis")))
-            for joint_text, axis in readings:
-                for jid in self._joints_of(joint_text):
-                    if (
-                        (jid, axis) in self._reactions or (jid, axis) in self._free_directions
-                    ) and (jid, axis) not in found:
-                        found.append((jid, axis))
+        return readings
+
+    def _reaction_readings(self, folded: str) -> list[tuple[str, str]]:
+        if not self._reactions:
+            return []
+        found: list[tuple[str, str]] = []
+        for joint_text, axis in self._reaction_candidates(folded):
+            for jid in self._joints_of(joint_text):
+                if ((jid, axis) in self._reactions or (jid, axis) in self._free_directions) and (
+                    jid,
+                    axis,
+                ) not in found:
+                    found.append((jid, axis))
         return found
 
     def _suggest(self, folded: str) -> tuple[str, ...]:

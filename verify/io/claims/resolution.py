@@ -15,6 +15,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from verify.io.claims.rounding import (
+    MAX_DECIMALS,
     rounding_allowances,
     shown_decimals,
     significant_figure_allowances,
@@ -52,13 +53,16 @@ def judge_resolutions(
 ) -> list[Resolution]:
     """Every column written to a step, judged on whole columns at once (arrays of the claims)."""
     found = []
+    usable = is_member & (value != 0) & np.isfinite(value)  # (the same for every column)
     for k, name in enumerate(names):
         in_column = column == k
-        written = in_column & is_member & (value != 0) & np.isfinite(value)
+        written = in_column & usable
         if int(written.sum()) < MIN_VALUES:
             continue
         magnitudes = np.abs(value[written])
         for step in STEPS:
+            if not _fit(magnitudes[:SAMPLE], step):
+                continue  # a first few thousand already off the step: so is the column
             counts = magnitudes / step
             whole = np.rint(counts)
             if not (np.abs(counts - whole) <= 1e-6 * np.maximum(1.0, counts)).all():
@@ -77,6 +81,25 @@ def judge_resolutions(
     return found
 
 
+SAMPLE = 2_000  # values of a column tried on a step before all of them
+
+
+def _fit(magnitudes: np.ndarray, step: float) -> bool:
+    """Whether every magnitude is a whole number of steps (within 1e-6 of one)."""
+    counts = magnitudes / step
+    return bool((np.abs(counts - np.rint(counts)) <= 1e-6 * np.maximum(1.0, counts)).all())
+
+
+def _written_allowance(decimals: np.ndarray) -> np.ndarray:
+    """0.5 * 10^-decimals * 1.0001, worked in one temporary array."""
+    written = decimals.astype(float)
+    np.negative(written, out=written)
+    np.power(10.0, written, out=written)
+    written *= 0.5
+    written *= 1.0001
+    return written
+
+
 def settle_rounding(
     value: np.ndarray,
     decimals: np.ndarray,
@@ -88,17 +111,20 @@ def settle_rounding(
     """Each claim's rounding allowance in its own unit: half a unit in the last decimal (as the
     cell shows them when it does: '10.00' was written to the hundredth, not the unit), widened
     for a column written to 2 or 3 significant figures or judged rounded to a step."""
-    rounding = rounding_allowances(value, 1.0)  # in the value's own unit: a scale of one
-    shown = np.flatnonzero(decimals >= 0)
-    # min(allowance, 0.5 * 10^-decimals * 1.0001), worked in one temporary array
-    written = decimals[shown].astype(float)
-    np.negative(written, out=written)
-    np.power(10.0, written, out=written)
-    written *= 0.5
-    written *= 1.0001
-    np.minimum(rounding[shown], written, out=written)
-    rounding[shown] = written
-    del written, shown
+    # min(allowance of the value, 0.5 * 10^-decimals * 1.0001) where the text shows decimals.
+    # A value written with d < MAX_DECIMALS decimals reads as itself rounded to d (float() of
+    # the text is the correctly rounded N / 10^d), so its allowance is settled at d or fewer
+    # decimals and is at least the written one: the written one is the minimum, and the value
+    # need not be settled (most of this step's time for a table of decimals).
+    quick = (decimals >= 0) & (decimals < MAX_DECIMALS) & np.isfinite(value)
+    rounding = np.empty(value.shape)
+    slow = np.flatnonzero(~quick)
+    rounding[slow] = rounding_allowances(value[slow], 1.0)  # in the value's own unit
+    shown = np.flatnonzero(quick)
+    rounding[shown] = _written_allowance(np.arange(MAX_DECIMALS))[decimals[shown]]
+    shown = slow[decimals[slow] >= 0]
+    rounding[shown] = np.minimum(rounding[shown], _written_allowance(decimals[shown]))
+    del shown, slow
     steps = {r.column: r.step for r in resolutions}
     for k, name in enumerate(names):
         picked = (column == k) & is_member

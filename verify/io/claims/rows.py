@@ -15,6 +15,7 @@ from verify.errors import did_you_mean
 from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
+from verify.io.claims.plain_block import in_range, read_plain_block
 from verify.io.claims.problems import Problems, quoted
 from verify.io.claims.resolution import judge_resolutions, settle_rounding, unit_factors
 from verify.io.claims.rounding import decimals_as_written, shown_decimals
@@ -30,8 +31,6 @@ from verify.io.claims.table import (
     compact_ints,
 )
 from verify.io.values import (
-    MAX_FORCE,
-    MIN_FORCE,
     PLAIN_NUMBER,
     is_nan_text,
     read_force_cell,
@@ -441,12 +440,15 @@ SPLIT_CHUNK = 8_192  # cells split from a joined column at a time
 
 def _split_by_chunks(joined: str, ends: np.ndarray) -> Iterator[str]:
     """The cells of `joined` (one past each one's end in `ends`), split a few thousand at a time:
-    the strings of a whole column at once were most of the memory of reading its numbers."""
+    the strings of a whole column at once were most of the memory of reading its numbers. (The
+    chunks chained in C: a generator's step per cell cost as much as float() of it.)"""
     n = ends.size
-    for first in range(0, n, SPLIT_CHUNK):
-        last = min(first + SPLIT_CHUNK, n) - 1
-        begin = int(ends[first - 1]) + 1 if first else 0
-        yield from joined[begin : int(ends[last])].split("\n")
+    firsts = range(0, n, SPLIT_CHUNK)
+    begins = [int(ends[first - 1]) + 1 if first else 0 for first in firsts]
+    stops = [int(ends[min(first + SPLIT_CHUNK, n) - 1]) for first in firsts]
+    return chain.from_iterable(
+        joined[begin:stop].split("\n") for begin, stop in zip(begins, stops, strict=True)
+    )
 
 
 def _plain_cells(
@@ -493,16 +495,18 @@ def _plain_cells(
                 count=at.size,
             )
     if at.size:
-        size = np.abs(value[at])
-        in_range = np.isfinite(size) & ((size == 0) | ((size >= MIN_FORCE) & (size <= MAX_FORCE)))
-        if not in_range.all():
-            plain[at[~in_range]] = False
+        inside = in_range(value[at])
+        if not inside.all():
+            plain[at[~inside]] = False
     if whole is None:
         floats = np.fromiter((type(c) is float for c in cells), dtype=bool, count=n)
         if floats.any():
             value[floats] = [cells[i] for i in np.flatnonzero(floats).tolist()]
             plain |= floats
     return value, plain, decimals, spans
+
+
+PLAIN_BLOCKS = True  # read a text split from its bytes by its cells' places (tests compare)
 
 
 def _cells_of_text(joined: str) -> list[Cell]:
@@ -526,31 +530,61 @@ def read_bulk(
     label_at = reader.member_h.index
     columns = reader.columns
     indexes = [label_at] + [v.index for v in columns]
-    # A plain CSV file gives each column's texts joined by line breaks, cut from its rows without
-    # a string per cell (a 10^5-row table of three columns made 3x10^5 strings at once, most of
-    # the reading's memory); the labels are split from theirs, the numbers parsed from theirs.
-    joined_of = getattr(grid.rows, "joined_columns", None)
-    joined = joined_of(start, stop, indexes) if joined_of is not None else None
-    cells_of: list[list[Cell]] | list[str] = (
-        joined if joined is not None else grid.columns(start, stop, indexes)
+    # A text split from its bytes gives the places of its cells: the plain numbers are checked
+    # and parsed from those (read_plain_block), and kept as spans of the text itself.
+    block_of = getattr(grid.rows, "plain_block", None)
+    block = block_of(start, stop) if PLAIN_BLOCKS and block_of is not None else None
+    from_block = (
+        read_plain_block(block, indexes, member_ids, grid.decimal_comma)
+        if block is not None
+        else None
     )
-    first = cells_of[0]
-    # The labels of a table listing the members in the model's order (the common export) are
-    # found by one comparison of texts; split into strings only when some label is looked up.
-    member = member_ids.joined_in_order(first) if isinstance(first, str) else None
     labels: list[Cell] | None = None
-    if member is None:
-        labels = _cells_of_text(first) if isinstance(first, str) else first
-        member = member_ids.get_indexer(labels)
-    ok = member >= 0
-    values, decimals_of, spans_of = [], [], []
-    texts_of: list[list[Cell] | str] = list(cells_of[1:])
-    for cells in texts_of:
-        value, plain, decimals, spans = _plain_cells(cells, grid.decimal_comma)
-        ok &= plain
-        values.append(value)
-        decimals_of.append(decimals)
-        spans_of.append(spans)
+    texts_of: list[list[Cell] | str] = []
+    cells_of: list[list[Cell]] | list[str] = []
+    values: list[np.ndarray] = []
+    decimals_of: list[np.ndarray | None] = []
+    spans_of: list[tuple[str, np.ndarray, np.ndarray] | None] = []
+    if from_block is not None:
+        member, label_texts, values, shown_of, spans = from_block
+        decimals_of = list(shown_of)
+        spans_of = list(spans)
+        ok = member >= 0
+        for value in values:
+            ok &= in_range(value)
+
+        def labels_of() -> list[Cell]:
+            return cast("list[Cell]", label_texts())
+
+    else:
+        # A plain CSV file gives each column's texts joined by line breaks, cut from its rows
+        # without a string per cell (a 10^5-row table of three columns made 3x10^5 strings at
+        # once, most of the reading's memory); the labels are split from theirs, the numbers
+        # parsed from theirs.
+        joined_of = getattr(grid.rows, "joined_columns", None)
+        joined = joined_of(start, stop, indexes) if joined_of is not None else None
+        cells_of = joined if joined is not None else grid.columns(start, stop, indexes)
+        first = cells_of[0]
+        # The labels of a table listing the members in the model's order (the common export)
+        # are found by one comparison of texts; split into strings only when some label is
+        # looked up.
+        positions = member_ids.joined_in_order(first) if isinstance(first, str) else None
+        if positions is None:
+            labels = _cells_of_text(first) if isinstance(first, str) else first
+            positions = member_ids.get_indexer(labels)
+        member = positions
+        ok = member >= 0
+        texts_of = list(cells_of[1:])
+        for cells in texts_of:
+            value, plain, decimals, joined_spans = _plain_cells(cells, grid.decimal_comma)
+            ok &= plain
+            values.append(value)
+            decimals_of.append(decimals)
+            spans_of.append(None if joined_spans is None else _spans_of_joined(*joined_spans))
+
+        def labels_of() -> list[Cell]:
+            return _cells_of_text(cast(str, first))
+
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
@@ -558,7 +592,7 @@ def read_bulk(
     named[ok] = member[ok]
     match = reader.matcher.match
     if others.size and labels is None:
-        labels = _cells_of_text(cast(str, first))
+        labels = labels_of()
     for i in others.tolist():
         assert labels is not None
         cell = labels[i]
@@ -577,7 +611,7 @@ def read_bulk(
     value = np.column_stack([values[j][picked] for j in range(k)]).ravel() + 0.0
     text: list[str] | CellTexts
     if all(spans is not None for spans in spans_of):  # every cell text (plain numbers)
-        text = _cell_spans(cast("list[tuple[str, np.ndarray]]", spans_of), picked)
+        text = _cell_spans(cast("list[tuple[str, np.ndarray, np.ndarray]]", spans_of), picked)
         shown = np.column_stack([d[picked] for d in decimals_of if d is not None]).ravel()
     else:
         split_of = [_cells_of_text(t) if isinstance(t, str) else t for t in texts_of]
@@ -607,7 +641,7 @@ def read_bulk(
             member=np.repeat(member[picked], k),
             value=value,
             decimals=shown,
-            numbers=np.asarray(grid.row_numbers, dtype=np.int64)[grid_rows],
+            numbers=_row_numbers(grid.row_numbers, grid_rows),
             parts=parts if where is None else None,
             where=where,
             text=text,
@@ -616,21 +650,39 @@ def read_bulk(
     )
 
 
-def _cell_spans(spans_of: list[tuple[str, np.ndarray]], picked: np.ndarray) -> CellTexts:
-    """The cells of rows `picked` of these columns (each joined by line breaks, with one past
-    each cell's end), in claim order (row by row, then column by column), cut from the columns
-    joined into one text when asked."""
+def _spans_of_joined(joined: str, ends: np.ndarray) -> tuple[str, np.ndarray, np.ndarray]:
+    """(text, begins, stops) of the cells joined by line breaks in `joined` (one past each
+    one's end in `ends`)."""
+    begins = np.empty_like(ends)
+    begins[0] = 0
+    begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
+    return joined, begins, ends
+
+
+def _row_numbers(numbers: Sequence[int], rows: np.ndarray) -> np.ndarray:
+    """The row numbers of grid rows `rows` (a range's worked out, not listed: 0.05 s at 10^6)."""
+    if isinstance(numbers, range):
+        return rows * numbers.step + numbers.start
+    return np.asarray(numbers, dtype=np.int64)[rows]
+
+
+def _cell_spans(
+    spans_of: list[tuple[str, np.ndarray, np.ndarray]], picked: np.ndarray
+) -> CellTexts:
+    """The cells of rows `picked` of these columns (each a text, and where each cell begins and
+    ends in it), in claim order (row by row, then column by column), cut when asked from one
+    text: the columns' own when they share it (cells of a file split from its bytes), else
+    their texts joined."""
+    texts = [text for text, _, _ in spans_of]
+    shared = all(text is texts[0] for text in texts)
     base = 0
     starts, stops = [], []
-    for joined, ends in spans_of:
-        begins = np.empty_like(ends)
-        begins[0] = 0
-        begins[1:] = ends[:-1] + 1  # after the line break that ends the cell before
+    for text, begins, ends in spans_of:
         starts.append(begins[picked] + base)
         stops.append(ends[picked] + base)
-        base += len(joined)
+        base += 0 if shared else len(text)
     return CellTexts(
-        "".join(joined for joined, _ in spans_of),
+        texts[0] if shared else "".join(texts),
         np.column_stack(starts).ravel(),
         np.column_stack(stops).ravel(),
         {},
@@ -773,21 +825,24 @@ def assemble_claims(
                 text = [all_text[i] for i in order.tolist()]
         else:
             text = bulk.text  # the bulk rows alone: already in table order
-        value = _placed(np.concatenate([value, bulk.value]), position)
-        member = _placed(np.concatenate([member, bulk.member]), position)
-        decimals = _placed(np.concatenate([decimals, bulk.decimals]), position)
-        fixed = _placed(np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)]), position)
-        names_code = _placed(name_code, position)
-        units_code = _placed(unit_code, position)
+        placing = position if n_general else None  # the bulk rows alone: in order
+        value = _placed(np.concatenate([value, bulk.value]), placing)
+        member = _placed(np.concatenate([member, bulk.member]), placing)
+        decimals = _placed(np.concatenate([decimals, bulk.decimals]), placing)
+        fixed = _placed(np.concatenate([fixed, np.zeros(bulk.value.size, dtype=bool)]), placing)
+        names_code = _placed(name_code, placing)
+        units_code = _placed(unit_code, placing)
         names, column = _first_use(names_code, name_list)
         units, unit = _first_use(units_code, unit_list)
         at_general = position[:n_general].tolist()
         if bulk.where is None:
             assert bulk.parts is not None
-            numbers = np.zeros(n, dtype=np.int64)
-            numbers[position[n_general:]] = bulk.numbers
-            slot = np.zeros(n, dtype=np.int64)
-            slot[position[n_general:]] = bulk.slot
+            numbers, slot = bulk.numbers, bulk.slot
+            if n_general:
+                numbers = np.zeros(n, dtype=np.int64)
+                numbers[position[n_general:]] = bulk.numbers
+                slot = np.zeros(n, dtype=np.int64)
+                slot[position[n_general:]] = bulk.slot
             where = Places(
                 _int_array(numbers),
                 _int_array(slot),
@@ -830,8 +885,11 @@ def assemble_claims(
     return arrays, _LazyValues(arrays, order, general)
 
 
-def _placed(values: np.ndarray, position: np.ndarray) -> np.ndarray:
-    """`values` (the general reader's claims, then the bulk ones) put in table order."""
+def _placed(values: np.ndarray, position: np.ndarray | None) -> np.ndarray:
+    """`values` (the general reader's claims, then the bulk ones) put in table order (None: the
+    bulk ones alone, in order already)."""
+    if position is None:
+        return values
     out = np.empty_like(values)
     out[position] = values
     return out

@@ -6,7 +6,8 @@ import codecs
 import csv
 import io
 import re
-from collections.abc import Sequence
+from collections.abc import Iterable, Iterator, Sequence
+from dataclasses import dataclass
 from itertools import islice
 from operator import methodcaller
 from typing import cast, overload
@@ -20,6 +21,10 @@ CSV_DELIMITERS = ("\t", ";", ",", "|")
 # Rows of a claims table: a million members with ten cases in the long layout (one row per member
 # and case) is ten million; more is a file made to exhaust memory (256 MB of blank-ish lines).
 MAX_CSV_ROWS = 10_000_000
+# The line breaks other than "\n" that str.splitlines splits ASCII text at: text holding none of
+# them has the lines of text.split("\n"), so its rows and cells can be found from its bytes.
+_OTHER_BREAKS = "\r\x0b\x0c\x1c\x1d\x1e"
+PLAIN_BYTES = True  # split plain ASCII text from its bytes (tests switch it off to compare)
 
 
 def _decode(data: bytes, problems: Problems) -> str | None:
@@ -46,7 +51,7 @@ def _decode(data: bytes, problems: Problems) -> str | None:
         return None
 
 
-def _sniff_delimiter(lines: Sequence[str]) -> str:
+def _sniff_delimiter(lines: Iterable[str]) -> str:
     """The delimiter that splits the sample into the most consistent rows of two or more fields."""
     sample = list(islice((line for line in lines if line.strip()), 50))
     best = (0.0, 0, ",")
@@ -89,21 +94,49 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
             "split the table, or check that this is the claims table"
         )
         return None
-    lines = text.splitlines()
+    # ASCII text broken only by "\n" (the common export) is split from its bytes: no list of
+    # lines, and each cell's place found once for every later step (PlainText).
+    if PLAIN_BYTES and "\r\n" in text:
+        # Lines ended by CR LF (a spreadsheet's CSV on Windows) are the lines of the text with
+        # LF alone, unless a CR is left (a lone CR breaks a line too: 'a\r\r\nb' is three
+        # lines, 'a\r\nb' two); then the text is split as before.
+        unix = text.replace("\r\n", "\n")
+        if "\r" not in unix:
+            text = unix
+        del unix
+    simple = PLAIN_BYTES and text.isascii() and not any(b in text for b in _OTHER_BREAKS)
+    lines = [] if simple else text.splitlines()
+    first = _first_line(text) if simple else (lines[0] if lines else None)
     offset = 0
-    forced = re.fullmatch(r"\s*sep=(.)\s*", lines[0]) if lines else None
+    forced = re.fullmatch(r"\s*sep=(.)\s*", first) if first is not None else None
     if forced:
         # Excel's "sep=;" directive line: it fixes the delimiter and is not a table row.
         delimiter = forced.group(1)
         lines = lines[1:]
         offset = 1
     else:
-        delimiter = _sniff_delimiter(lines)
-    del text
-    if _plainly_split(lines, delimiter):
+        delimiter = _sniff_delimiter(_lines_of(text) if simple else lines)
+    if simple:
+        split = _split_plain_text(text, data, offset, delimiter)
+        if split is not None:
+            return Grid(
+                split,
+                range(1 + offset, len(split) + 1 + offset),
+                None,
+                decimal_comma=delimiter == ";",
+                delimiter=delimiter,
+            )
+        lines = text.splitlines()[offset:]
+    elif _plainly_split(lines, delimiter):
         plain = SplitRows(lines, delimiter)
-        numbers = list(range(1 + offset, len(plain) + 1 + offset))
-        return Grid(plain, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+        return Grid(
+            plain,
+            range(1 + offset, len(plain) + 1 + offset),
+            None,
+            decimal_comma=delimiter == ";",
+            delimiter=delimiter,
+        )
+    del text
     rows: list[list[Cell]] = []
     numbers = []
     reader = csv.reader(io.StringIO("\n".join(lines)), delimiter=delimiter)
@@ -150,6 +183,161 @@ def _plainly_split(lines: list[str], delimiter: str) -> bool:
     return not refused[cls[:-1] * 4 + cls[1:]].any()
 
 
+def _first_line(text: str) -> str:
+    end = text.find("\n")
+    return text if end < 0 else text[:end]
+
+
+def _lines_of(text: str) -> Iterator[str]:
+    """The lines of text broken by "\n" only, as splitlines gives them, made as they are read
+    (the delimiter sniffer reads the first fifty)."""
+    begin, size = 0, len(text)
+    while begin < size:
+        end = text.find("\n", begin)
+        if end < 0:
+            end = size
+        yield text[begin:end]
+        begin = end + 1
+
+
+def _ascii_bytes(text: str, data: bytes) -> np.ndarray:
+    """The bytes of ASCII `text`: the file's own (past a UTF-8 byte order mark) when they are
+    the text's, else encoded."""
+    skip = len(codecs.BOM_UTF8) if data.startswith(codecs.BOM_UTF8) else 0
+    if len(data) - skip == len(text):  # an ASCII text decoded from UTF-8 or Windows-1252
+        return np.frombuffer(data, dtype=np.uint8, offset=skip)
+    return np.frombuffer(text.encode("ascii"), dtype=np.uint8)
+
+
+def _split_plain_text(text: str, data: bytes, offset: int, delimiter: str) -> SplitRows | None:
+    """The rows of ASCII text broken by "\n" only, after `offset` directive lines, found from
+    its bytes when the lines would split plainly (as _plainly_split judges them), else None.
+
+    The lines joined are the text itself, less a last line break: so the same judgement is
+    made on the file's bytes, at the delimiters and line breaks only (each pair it refuses
+    has one of them on a side), and their places are kept for the rows, cells and columns."""
+    base = len(_first_line(text)) + 1 if offset else 0
+    stop = len(text) - text.endswith("\n")
+    if base >= stop:  # no line, or one blank line, after the directive
+        return SplitRows([], delimiter)
+    if ord(delimiter) > 127:
+        return None
+    body = _ascii_bytes(text, data)[base:stop]
+    kind = np.zeros(256, dtype=np.uint8)  # as _plainly_split classes them
+    kind[[ord(" "), ord("\t")]] = 3
+    kind[[ord('"'), 0x1F]] = 4
+    kind[ord("\n")] = 2
+    kind[ord(delimiter)] = 1
+    # Classed only where judged (a table lookup per byte costs ten comparisons of every byte).
+    for refused_byte in ('"', "\x1f"):
+        if kind[ord(refused_byte)] == 4 and text.find(refused_byte, base, stop) >= 0:
+            return None
+    if kind[body[0]] in (1, 3) or kind[body[-1]] in (1, 3):
+        return None
+    ends = _cell_ends(body, ord(delimiter), base)
+    terms = ends[:-1] - base if base else ends[:-1]  # (counted from base)
+    cls = kind[body[terms]]
+    break_at = np.flatnonzero(cls == 2)  # the place in `terms` of each line break
+    breaks = terms[break_at]
+    longest = int(np.diff(breaks, prepend=-1, append=body.size).max()) - 1
+    if longest > csv.field_size_limit():
+        return None
+    refused = np.zeros(16, dtype=bool)  # (left, right) classes: 4 * left + right
+    for left, right in ((1, 3), (3, 1), (2, 3), (3, 2), (1, 1), (2, 1), (1, 2)):
+        refused[4 * left + right] = True
+    # Each refused pair has a delimiter or line break on one side: the pairs either side of
+    # those are all that need judging. Without a space or tab (class 3) in the text, only two of
+    # them side by side can be refused (all but two breaks: a blank line).
+    spaced = any(kind[ord(c)] == 3 and text.find(c, base, stop) >= 0 for c in " \t")
+    if not spaced:
+        side = np.flatnonzero(np.diff(terms) == 1)
+        if ((cls[side] != 2) | (cls[side + 1] != 2)).any():
+            return None
+    else:
+        inner = terms > 0
+        if refused[kind[body[terms[inner] - 1]] * 4 + cls[inner]].any():
+            return None
+        inner = terms < body.size - 1
+        if refused[cls[inner] * 4 + kind[body[terms[inner] + 1]]].any():
+            return None
+    return SplitRows.of_text(
+        text,
+        _ascii_bytes(text, data),
+        PlainText(text, base, ends, break_at),
+        delimiter,
+    )
+
+
+PLACES_AT_A_TIME = 1 << 24  # bytes searched for delimiters at a time
+
+
+def _cell_ends(body: np.ndarray, delimiter: int, base: int) -> np.ndarray:
+    """The place (counted from base) of every delimiter and line break in `body`, and one more
+    item, set to one past the body's end (the end of its last line), for PlainText. In four
+    bytes per place where the text allows, found a slice at a time: an array of eight bytes
+    per delimiter beside it would be most of the memory a file of delimiters (hostile, or a
+    very wide table) takes to read."""
+    stop = base + body.size
+    count = int(np.count_nonzero(body == delimiter)) + int(np.count_nonzero(body == ord("\n")))
+    places = np.int32 if stop < np.iinfo(np.int32).max else np.int64
+    ends: np.ndarray = np.empty(count + 1, dtype=places)
+    filled = 0
+    for first in range(0, body.size, PLACES_AT_A_TIME):
+        part = body[first : first + PLACES_AT_A_TIME]
+        found = np.flatnonzero((part == delimiter) | (part == ord("\n")))
+        ends[filled : filled + found.size] = found + (base + first)
+        filled += found.size
+    ends[-1] = stop
+    return ends
+
+
+class PlainText(Sequence[str]):
+    """Where the lines and cells of a plainly split text are (SplitRows.of_text): `ends` holds
+    the place of every delimiter and line break of its lines (_cell_ends) and the end of the
+    last, and `break_at` which of them are the breaks, so each line and each cell's end (and a
+    line's width) are known without a string per line or per cell."""
+
+    def __init__(self, text: str, base: int, ends: np.ndarray, break_at: np.ndarray) -> None:
+        self.text = text
+        self.ends = ends  # each cell's end: its delimiter or line break, or the text's end
+        # The place in `ends` of each line's last cell's end, each line's start and end.
+        self.line_end = np.empty(break_at.size + 1, dtype=np.int64)
+        self.line_end[:-1], self.line_end[-1] = break_at, ends.size - 1
+        self.stops = self.ends[self.line_end]
+        self.begins = np.empty_like(self.stops)
+        self.begins[0] = base
+        self.begins[1:] = self.stops[:-1] + 1
+        if self.begins.size > 1 and self.begins[-1] == self.stops[-1]:
+            # A blank last line is no row, as SplitRows drops it from a list of lines.
+            self.begins, self.stops = self.begins[:-1], self.stops[:-1]
+            self.line_end = self.line_end[:-1]
+
+    def __len__(self) -> int:
+        return int(self.begins.size)
+
+    @overload
+    def __getitem__(self, i: int) -> str: ...
+
+    @overload
+    def __getitem__(self, i: slice) -> list[str]: ...
+
+    def __getitem__(self, i: int | slice) -> str | list[str]:
+        if isinstance(i, slice):
+            text = self.text
+            starts = self.begins[i].tolist()
+            return [text[a:b] for a, b in zip(starts, self.stops[i].tolist(), strict=True)]
+        return self.text[int(self.begins[i]) : int(self.stops[i])]
+
+    def joined(self, start: int, stop: int) -> str:
+        """Lines start..stop (some) joined by line breaks: a slice of the text."""
+        return self.text[int(self.begins[start]) : int(self.stops[stop - 1])]
+
+    def lengths(self) -> np.ndarray:
+        """The number of cells of each line (0 for a blank one)."""
+        count = np.diff(self.line_end, prepend=-1)
+        return np.where(self.stops > self.begins, count, 0)
+
+
 def _cells(texts: list[str]) -> list[Cell]:
     return cast("list[Cell]", texts)  # a list of text is a list of cells (read, never added to)
 
@@ -159,13 +347,25 @@ class SplitRows(Sequence[list[Cell]]):
     a string per cell made up front were most of the reading time of a 10^6-row table and held
     three times the file's size. A blank line is an empty row, as csv.reader gives it (a last
     one is no row: the joined text ends in a line break there, which ends the row above). The
-    last row asked is kept, as the row reader asks for one row's cells several times."""
+    last row asked is kept, as the row reader asks for one row's cells several times. Made from
+    a list of lines, or (of_text) from a text's bytes: then its lines are cut from the text when
+    asked, and the places of its cells are known (lengths, plain_block) without splitting it."""
 
     def __init__(self, lines: list[str], delimiter: str) -> None:
-        self._lines = lines[:-1] if lines and not lines[-1] else lines
+        self._lines: list[str] | PlainText = lines[:-1] if lines and not lines[-1] else lines
         self._delimiter = delimiter
         self._last: tuple[int, list[Cell]] = (-1, [])
         self._lengths: np.ndarray | None = None
+        self._plain: PlainText | None = None
+        self._raw: np.ndarray | None = None
+
+    @classmethod
+    def of_text(cls, text: str, raw: np.ndarray, plain: PlainText, delimiter: str) -> SplitRows:
+        """The rows of a text split from its bytes `raw` (see _split_plain_text): each line is
+        cut from the text when asked, and the cells' places are known (plain_block)."""
+        rows = cls([], delimiter)
+        rows._lines, rows._plain, rows._raw = plain, plain, raw
+        return rows
 
     def __len__(self) -> int:
         return len(self._lines)
@@ -189,6 +389,8 @@ class SplitRows(Sequence[list[Cell]]):
 
     def lengths(self, start: int) -> np.ndarray:
         """The number of cells of each row from `start` on (0 for a blank line); counted once."""
+        if self._lengths is None and self._plain is not None:
+            self._lengths = self._plain.lengths()
         if self._lengths is None:
             lines = self._lines
             count = np.fromiter(
@@ -218,14 +420,17 @@ class SplitRows(Sequence[list[Cell]]):
         bytes with numpy, without a string per cell. Each cell is marked with the delimiter or
         line break that ends it, those bytes taken in order, and the delimiters turned into
         line breaks (a plain file's cells hold neither)."""
-        lines = self._lines[start:stop]
-        if not lines or ord(self._delimiter) > 127:
+        plain = self._plain
+        stop = min(stop, len(self._lines))
+        lines = [] if plain is not None else cast("list[str]", self._lines[start:stop])
+        count = max(stop - start, 0)
+        if not count or ord(self._delimiter) > 127:
             return None
-        widths = self.lengths(start)[: len(lines)]
+        widths = self.lengths(start)[:count]
         width = int(widths[0])
         if width <= max(indexes) or not (widths == width).all():
             return None
-        block = "\n".join(lines) + "\n"
+        block = ("\n".join(lines) if plain is None else plain.joined(start, stop)) + "\n"
         if not block.isascii():
             return None
         raw = np.frombuffer(block.encode("ascii"), dtype=np.uint8)
@@ -234,7 +439,7 @@ class SplitRows(Sequence[list[Cell]]):
         terminator = np.zeros(256, dtype=bool)
         terminator[[delimiter, ord("\n")]] = True
         ends = np.flatnonzero(terminator[raw])  # each cell's terminator
-        if ends.size != len(lines) * width:
+        if ends.size != count * width:
             return None
         out = []
         for i in indexes:
@@ -262,3 +467,34 @@ class SplitRows(Sequence[list[Cell]]):
             taken[taken == delimiter] = ord("\n")
             out.append(taken[:-1].tobytes().decode("ascii"))
         return out
+
+    def plain_block(self, start: int, stop: int) -> PlainBlock | None:
+        """The places of the cells of rows start..stop of a text split from its bytes, when every
+        such row has the same number of cells (else None)."""
+        plain, raw = self._plain, self._raw
+        stop = min(stop, len(self._lines))
+        if plain is None or raw is None or start >= stop:
+            return None
+        widths = self.lengths(start)[: stop - start]
+        width = int(widths[0])
+        if not width or not (widths == width).all():
+            return None
+        first = int(plain.line_end[start - 1]) + 1 if start else 0
+        ends = plain.ends[first : int(plain.line_end[stop - 1]) + 1]
+        return PlainBlock(
+            plain.text, raw, ends.reshape(stop - start, width), plain.begins[start:stop]
+        )
+
+
+@dataclass(frozen=True)
+class PlainBlock:
+    """Rows of a plain text as places in it: row i's cell j ends at ends[i, j] (its delimiter or
+    line break), begins one past ends[i, j - 1], and a row's first cell at row_begin[i]."""
+
+    text: str
+    raw: np.ndarray  # the text's bytes (ASCII)
+    ends: np.ndarray  # int64, rows x width
+    row_begin: np.ndarray  # int64
+
+    def begins(self, j: int) -> np.ndarray:
+        return self.row_begin if j == 0 else self.ends[:, j - 1] + 1

@@ -55,6 +55,10 @@ class MemberIndex:
             )
         return out
 
+    def ids_between(self, start: int, stop: int) -> list[str]:
+        """The member ids at positions start..stop (a list of its own)."""
+        return self._ids[start:stop]
+
     def joined_in_order(self, joined: str) -> np.ndarray | None:
         """get_indexer of the labels joined by line breaks in `joined` (none holding one), when
         they are the first member ids in order (positions 0, 1, ...); else None."""
