@@ -177,6 +177,12 @@ def test_a_model_of_bulk_items_is_the_model_of_their_tuples(
     assert dict(lazy.member_index) == dict(made.member_index)
     assert lazy.has_stiffness == made.has_stiffness
     assert lazy.members_without_stiffness() == made.members_without_stiffness()
+    assert np.array_equal(lazy.member_EA(), made.member_EA(), equal_nan=True)
+    assert np.array_equal(  # the careful reader's list, missing EA as NaN
+        made.member_EA(),
+        np.array([math.nan if m.EA is None else m.EA for m in made_members], dtype=float),
+        equal_nan=True,
+    )
     for name in ("xyz", "ends_index", "lengths", "unit_vectors", "applied_loads"):
         assert np.array_equal(getattr(lazy, name), getattr(made, name), equal_nan=True), name
     # A variant made by dataclasses.replace keeps the bulk items and reads the same arrays.
@@ -207,6 +213,7 @@ def test_reading_a_large_case_makes_no_joint_or_member(tmp_path: Path) -> None:
     assert isinstance(model.joints, BulkJoints) and isinstance(model.members, BulkMembers)
     assert model.joint_ids == ids and len(model.member_ids) == len(model.members) == 21
     assert model.has_stiffness is False and len(model.members_without_stiffness()) == 21
+    assert np.isnan(model.member_EA()).all() and len(model.member_EA()) == 21
     assert model.joints._all is None and model.members._all is None
     loads = model.cases[0].loads
     assert isinstance(loads, BulkLoads) and loads._dict is None  # the load matrix read them

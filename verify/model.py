@@ -389,6 +389,14 @@ class Model:
             return self.members.ea is not None or not self.members
         return all(m.EA is not None for m in self.members)
 
+    def member_EA(self) -> np.ndarray:
+        """EA of every member in member order (NaN where not given), without making the members
+        of a table read in bulk."""
+        if isinstance(self.members, BulkMembers):
+            ea = self.members.ea
+            return np.full(len(self.members), np.nan if ea is None else float(ea))
+        return np.array([np.nan if m.EA is None else m.EA for m in self.members], dtype=float)
+
     def members_without_stiffness(self) -> list[str]:
         if isinstance(self.members, BulkMembers):
             return [] if self.members.ea is not None else self.member_ids

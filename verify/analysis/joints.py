@@ -499,11 +499,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         if len(rest) == A.shape[1] == A.shape[0]:
             # Nothing could be solved joint by joint: the simultaneous step is the whole system.
             t = run.equilibrium_lu().solve(-F).reshape(n_unknowns, -1)
-            add(
-                JointStep(
-                    "simultaneous", tuple(j.id for j in model.joints), tuple(int(c) for c in rest)
-                )
-            )
+            add(JointStep("simultaneous", tuple(model.joint_ids), tuple(int(c) for c in rest)))
             notes.append(
                 f"no joint with at most {d} unknowns: all {len(rest)} forces at "
                 f"{len(model.joints)} joints are solved simultaneously (compound or complex truss)"

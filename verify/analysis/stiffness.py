@@ -192,7 +192,7 @@ def member_stiffness(
             raise ValueError(
                 f"assume_equal_EA must be a positive finite number, got {assume_equal_EA!r}"
             )
-        given = sum(m.EA is not None for m in model.members)
+        given = len(model.members) - len(model.members_without_stiffness())
         notes.append(EQUAL_EA_NOTE)
         if given:
             notes.append(f"the assumed EA = {value:g} replaced the EA given for {given} member(s)")
@@ -200,7 +200,7 @@ def member_stiffness(
     missing = model.members_without_stiffness()
     if missing:
         raise MissingStiffnessError(missing)
-    return np.array([m.EA for m in model.members], dtype=float), notes
+    return model.member_EA(), notes
 
 
 def _support_layout(model: Model) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -1969,8 +1969,8 @@ def _self_stress_members(analysis: Analysis) -> set[str] | None:
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
     return {
-        m.id
-        for m, statics_only in zip(model.members, fixed.tolist(), strict=True)
+        member
+        for member, statics_only in zip(model.member_ids, fixed.tolist(), strict=True)
         if not statics_only
     }
 
