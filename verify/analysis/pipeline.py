@@ -69,9 +69,8 @@ class EarlyRoutes:
     """The method of sections, which needs only the model and its overall reactions, started in
     a second process on a large truss as soon as the model is read. The caller reads the claims
     meanwhile and then hands this to `analyse`, which takes its result after screening
-    stability and solving by joints and globally in this process. (The method of joints in the
-    child too measured no faster with the machine busy and 210 MB more at 10^6 members: its
-    steps pickled beside the sections'.)"""
+    stability and solving by joints and globally in this process (DEVELOPERS.md: what else was
+    tried in the child, and why not)."""
 
     def __init__(self, model: Model, *, sections: bool = True) -> None:
         self.model, self.sections = model, sections

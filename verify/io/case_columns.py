@@ -18,6 +18,8 @@ from typing import Any
 
 import numpy as np
 
+from verify.io.cells import joined_spans
+
 # _LOW_BYTES[n]: the mask keeping the first n bytes of a little-endian 8-byte word.
 _LOW_BYTES = np.array([(1 << (8 * n)) - 1 for n in range(9)], dtype=np.uint64)
 # Mixes a label's 8-byte words into one key when labels are longer than 8 bytes (odd, so the
@@ -52,19 +54,7 @@ class PlainColumns:
 
     def texts(self, column: int) -> list[str]:
         """The cells of one column as strings (one join and one split, no call per cell)."""
-        starts, stops = self.span(column)
-        # +1 where a cell starts, -1 where it stops: the running sum is 1 inside cells. Within a
-        # column every start and every stop is on its own line, so no offset repeats.
-        marks = np.zeros(len(self.data), dtype=np.int8)
-        marks[starts] += 1
-        marks[stops] -= 1
-        inside = np.cumsum(marks, dtype=np.int8) > 0
-        # Each cell followed by the byte after it (a comma or a break), written as a break.
-        after = np.zeros(len(self.data), dtype=bool)
-        after[stops] = True
-        picked = np.where(after, np.uint8(10), self.data)[inside | after]
-        # Every byte is ASCII (a plain table), so the decoding cannot fail.
-        return picked.tobytes().decode("ascii")[:-1].split("\n")
+        return joined_spans(self.data, *self.span(column)).split("\n")
 
     def numbered(self, column: int) -> tuple[np.ndarray, list[str]]:
         """The cells of one column numbered by text, in order of first appearance (as

@@ -14,6 +14,7 @@ from typing import cast, overload
 
 import numpy as np
 
+from verify.io.cells import joined_spans
 from verify.io.claims.grid import Cell, Grid
 from verify.io.claims.problems import Problems
 
@@ -417,9 +418,8 @@ class SplitRows(Sequence[list[Cell]]):
     def joined_columns(self, start: int, stop: int, indexes: list[int]) -> list[str] | None:
         """The cells of columns `indexes` in rows start..stop as columns() gives them, each
         column's joined by line breaks (None where columns() gives None): cut from the rows'
-        bytes with numpy, without a string per cell. Each cell is marked with the delimiter or
-        line break that ends it, those bytes taken in order, and the delimiters turned into
-        line breaks (a plain file's cells hold neither)."""
+        bytes with numpy (verify.io.cells), without a string per cell (a plain file's cells
+        hold neither delimiters nor line breaks)."""
         plain = self._plain
         stop = min(stop, len(self._lines))
         lines = [] if plain is not None else cast("list[str]", self._lines[start:stop])
@@ -443,9 +443,6 @@ class SplitRows(Sequence[list[Cell]]):
             return None
         out = []
         for i in indexes:
-            # +1 where a cell of the column begins, -1 past its terminator: the running sum is
-            # 1 on the column's bytes (cells of one column never overlap; with one column a
-            # cell's -1 and the next one's +1 fall on the same byte and cancel).
             stops = ends[i::width]
             begins = np.empty_like(stops)
             if i:
@@ -453,19 +450,7 @@ class SplitRows(Sequence[list[Cell]]):
             else:  # a row's first cell begins past the line break that ends the row above
                 begins[0] = 0
                 begins[1:] = ends[width - 1 : -1 : width] + 1
-            mark = np.zeros(raw.size + 1, dtype=np.int8)
-            if width > 1:  # a cell's end and the next one's start in the column never meet
-                mark[begins] = 1
-                mark[stops + 1] = -1
-            else:
-                np.add.at(mark, begins, 1)
-                np.add.at(mark, stops + 1, -1)
-            del begins, stops
-            np.cumsum(mark, dtype=np.int8, out=mark)
-            taken = raw[mark[:-1].view(bool)]
-            del mark
-            taken[taken == delimiter] = ord("\n")
-            out.append(taken[:-1].tobytes().decode("ascii"))
+            out.append(joined_spans(raw, begins, stops))
         return out
 
     def plain_block(self, start: int, stop: int) -> PlainBlock | None:

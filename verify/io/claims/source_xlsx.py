@@ -155,7 +155,7 @@ def _read_sheets(
                     ]
                 )
             if any(not blank(c) for row in rows for c in row):
-                numbers = list(range(1, len(rows) + 1))
+                numbers = range(1, len(rows) + 1)
                 grids.append(Grid(rows, numbers, title, decimal_comma_written(rows)))
             elif sheet is not None or len(titles) == 1:
                 problems.add(
