@@ -61,13 +61,10 @@ def judge_resolutions(
             continue
         magnitudes = np.abs(value[written])
         for step in STEPS:
-            if not _fit(magnitudes[:SAMPLE], step):
-                continue  # a first few thousand already off the step: so is the column
-            counts = magnitudes / step
-            whole = np.rint(counts)
-            if not (np.abs(counts - whole) <= 1e-6 * np.maximum(1.0, counts)).all():
+            # A first few thousand off the step: so is the column (no pass over all of it).
+            if not _fit(magnitudes[:SAMPLE], step) or not _fit(magnitudes, step):
                 continue
-            if not (whole % 2 == 1).any():
+            if not (np.rint(magnitudes / step) % 2 == 1).any():
                 # All even multiples: the column may be coarser still; the next step decides.
                 continue
             # Judged last, as it reads every cell's text: only a column that fits a step gets here.
