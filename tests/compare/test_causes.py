@@ -13,9 +13,11 @@ figures, as a consultant's table would be.
 from __future__ import annotations
 
 import copy
+import dataclasses
 import math
 import re
 
+import numpy as np
 import pytest
 from claimsgen import round_sig, table
 from trussgen import make_model, pratt, truss_case
@@ -541,3 +543,86 @@ def test_a_vanishing_load_gives_no_overflow_in_the_cause_search():
         warnings.simplefilter("error")
         (cause,) = causes(review_of(case, claims_of(variant)))
     assert cause.variant == "'ULS' taking 1.5 × dead instead of 1.35 × dead"
+
+
+# -- a support drawn at another joint --------------------------------------------------------------
+def test_roller_a_panel_in_is_named_as_the_support_moved():
+    variant = bridge()
+    variant["supports"] = {"L0": ["x", "y"], f"L{PANELS - 1}": ["y"]}
+    review = review_of(bridge(), claims_of(variant))
+    (cause,) = causes(review)
+    assert cause.joints == (f"L{PANELS}", f"L{PANELS - 1}") and cause.unexplained == 0
+    assert (
+        f"the support at L{PANELS} (y) taken at L{PANELS - 1} instead, 3 m away along "
+        f"L{PANELS - 1}L{PANELS}" in cause.variant
+    )
+    assert [f.kind for f in errors(review)] == ["likely-cause"]
+
+
+def canopy(bearing="L4"):
+    """4-panel parallel-chord canopy truss with end posts (invented): 2.5 m panels, 2 m deep,
+    roof loads on the top chord; the right-hand roller under the bottom chord (or at `bearing`)."""
+    joints = {f"{c}{i}": [2.5 * i, 2.0 if c == "U" else 0.0] for c in "LU" for i in range(5)}
+    members = [(f"{c}{i}", f"{c}{i + 1}") for c in "LU" for i in range(4)]
+    members += [(f"L{i}", f"U{i}") for i in range(5)]
+    members += [("U0", "L1"), ("U1", "L2"), ("L2", "U3"), ("L3", "U4")]
+    loads = {
+        "dead": {f"U{i}": [0.0, -3.0 if i in (0, 4) else -6.0] for i in range(5)},
+        "snow": {f"U{i}": [0.0, -4.5 if i in (0, 4) else -9.0] for i in range(5)},
+    }
+    return truss_case(
+        joints,
+        members,
+        {"L0": ["x", "y"], bearing: ["y"]},
+        loads,
+        title="canopy",
+        combinations={"ULS": {"dead": 1.35, "snow": 1.5}},
+    )
+
+
+def test_bearing_at_the_top_chord_is_named_and_the_honest_table_agrees():
+    assert review_of(canopy(), claims_of(canopy())).verdict is Verdict.AGREES
+    review = review_of(canopy(), claims_of(canopy(bearing="U4")))
+    (cause,) = causes(review)
+    assert cause.joints == ("L4", "U4") and cause.unexplained == 0
+    assert "the support at L4 (y) taken at U4 instead, the joint directly above" in cause.variant
+    # only the end post changes, in every column: dead, snow and the combination
+    assert set(cause.members) == {"L4U4"}
+
+
+def test_a_moved_support_priced_on_the_drawn_factorisation_matches_a_fresh_solve():
+    """The low-rank update (Sherman-Morrison-Woodbury) against numpy's dense solve of the moved
+    truss's own equilibrium matrix; a move that leaves a mechanism (the mast's leg lifted off its
+    base, the base joint then held by two members) gives None, as numpy finds A singular."""
+    from verify.analysis.equilibrium import assemble_equilibrium
+    from verify.compare.causes.variants import (
+        moved_support_forces,
+        statics_solution,
+        support_moves,
+    )
+    from verify.model import Reaction
+
+    seen_none = seen_forces = 0
+    for case in (bridge(), canopy(), mast()):
+        analysis = analyse(make_model(case))
+        model, run = analysis.model, analysis.run
+        columns = np.arange(model.load_matrix().shape[1])
+        drawn = statics_solution(run, columns)
+        for move in support_moves(model):
+            got = moved_support_forces(run, columns, move, drawn)
+            at = model.joint_ids[move.joint]
+            moved = tuple(
+                Reaction(at, r.direction, r.axis) if i in move.reactions else r
+                for i, r in enumerate(model.reactions)
+            )
+            A = assemble_equilibrium(dataclasses.replace(model, reactions=moved)).toarray()
+            singular = np.linalg.matrix_rank(A) < A.shape[0]
+            if got is None:
+                assert singular, move.words
+                seen_none += 1
+                continue
+            assert not singular
+            t = np.linalg.solve(A, -model.load_matrix())[: len(model.members)]
+            np.testing.assert_allclose(got, t, rtol=1e-9, atol=1e-9 * np.abs(t).max())
+            seen_forces += 1
+    assert seen_none and seen_forces

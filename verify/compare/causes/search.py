@@ -32,9 +32,12 @@ from verify.compare.causes.variants import (
     case_scaled_words,
     fit_scale,
     load_changes,
+    moved_support_forces,
     nice_factors,
     scaled_model,
     solve_members,
+    statics_solution,
+    support_moves,
     support_swaps,
 )
 from verify.compare.tolerances import Tolerance, allowance
@@ -597,6 +600,15 @@ def _support_variants(frame: ClaimsFrame, base: np.ndarray, analysis: Analysis):
         if t is None:
             continue
         yield Variant("support-moved", words, t[frame.member, where] - frame.computed, None, joints)
+    drawn = statics_solution(analysis.run, columns)
+    if drawn is None:
+        return
+    for move in support_moves(analysis.model):
+        t = moved_support_forces(analysis.run, columns, move, drawn)
+        if t is None:
+            continue
+        shift = t[frame.member, where] - frame.computed
+        yield Variant("support-moved", move.words, shift, None, move.joints)
 
 
 def _added_restraint_variants(

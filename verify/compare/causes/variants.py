@@ -432,6 +432,103 @@ def support_swaps(model: Model) -> Iterator[tuple[str, Model, tuple[str, ...]]]:
             yield words, dataclasses.replace(model, reactions=tuple(swapped)), (a, b)
 
 
+MOVES_PER_SUPPORT = 6  # joints one member away tried for each support (nearest first)
+
+
+class SupportMove(NamedTuple):
+    words: str
+    reactions: tuple[int, ...]  # the moved reaction components (positions in model.reactions)
+    joint: int  # where they are taken (joint index)
+    joints: tuple[str, str]  # the support as drawn, and where the claims have it
+
+
+def support_moves(model: Model) -> Iterator[SupportMove]:
+    """One support's restraints taken at a joint one member away: the bearing drawn at the
+    other chord (a top-chord bearing for a bottom-chord one), or a panel in from the end."""
+    by_joint: dict[str, list[int]] = {}
+    for i, r in enumerate(model.reactions):
+        by_joint.setdefault(r.joint, []).append(i)
+    ends = model.ends_index
+    ids, member_ids, xyz = model.joint_ids, model.member_ids, model.xyz
+    unit = model.units.length.symbol
+    for s in list(by_joint)[:8]:
+        k = model.joint_index[s]
+        members = np.flatnonzero((ends[:, 0] == k) | (ends[:, 1] == k))
+        others = ends[members].sum(axis=1) - k
+        distance = np.linalg.norm(xyz[others] - xyz[k], axis=1)
+        order = np.argsort(distance, kind="stable")  # nearest first; then table order
+        axes = ", ".join(sorted(model.reactions[i].axis for i in by_joint[s]))
+        tried: set[str] = set()
+        for m, c_index in zip(members[order].tolist(), others[order].tolist(), strict=True):
+            c = ids[c_index]
+            if c in by_joint or c in tried:
+                continue
+            if len(tried) == MOVES_PER_SUPPORT:
+                break
+            tried.add(c)
+            offset = xyz[c_index] - xyz[k]
+            size = float(np.linalg.norm(offset))
+            level = float(np.linalg.norm(offset[:-1]))  # the last axis is vertical
+            where = (
+                f"the joint directly {'above' if offset[-1] > 0 else 'below'} (the bearing at "
+                "the other chord)"
+                if level <= 1e-9 * size
+                else f"{fmt(size, 4)} {unit} away along {member_ids[m]}"
+            )
+            words = f"the support at {s} ({axes}) taken at {c} instead, {where}"
+            yield SupportMove(words, tuple(by_joint[s]), c_index, (s, c))
+
+
+def statics_solution(run: AnalysisRun, columns: np.ndarray) -> np.ndarray | None:
+    """Member forces and reactions (unknowns x columns) of a square, nonsingular A; else None."""
+    try:
+        lu = run.equilibrium_lu()
+    except RuntimeError:
+        return None
+    if lu.shape[0] != lu.shape[1]:
+        return None
+    F = run.model.load_matrix()[:, columns]
+    return np.asarray(lu.solve(-F)).reshape(lu.shape[0], -1)
+
+
+def moved_support_forces(
+    run: AnalysisRun, columns: np.ndarray, move: SupportMove, drawn: np.ndarray
+) -> np.ndarray | None:
+    """Member forces (members x columns) with `move`'s reactions acting at its joint, from the
+    factorisation of the truss as drawn: moving k reaction components changes k columns of A,
+    A' = A + U V^T, so A'^-1 follows by the Sherman-Morrison-Woodbury identity (k <= 3 solves;
+    Golub & Van Loan, Matrix Computations, 4th ed., section 2.1.4) rather than a new
+    factorisation per move. `drawn`: the solution of the truss as drawn for `columns` (members
+    and reactions, `statics_solution`). None when the moved support leaves a mechanism (a
+    singular or near-singular capacitance matrix) or the forces come out implausibly large."""
+    model = run.model
+    d, b = model.dim, len(model.members)
+    try:
+        lu = run.equilibrium_lu()
+    except RuntimeError:
+        return None
+    if lu.shape[0] != lu.shape[1]:
+        return None
+    U = np.zeros((lu.shape[0], len(move.reactions)))
+    for i, r in enumerate(move.reactions):
+        direction = np.asarray(model.reactions[r].direction, dtype=float)
+        old = model.joint_index[model.reactions[r].joint]
+        U[move.joint * d : move.joint * d + d, i] = direction
+        U[old * d : old * d + d, i] -= direction
+    W = np.asarray(lu.solve(U)).reshape(lu.shape[0], -1)
+    picked = [b + r for r in move.reactions]
+    capacitance = np.eye(len(picked)) + W[picked]
+    sv = np.linalg.svd(capacitance, compute_uv=False)
+    if sv.min() <= 1e-9 * max(sv.max(), 1.0):
+        return None
+    F = model.load_matrix()[:, columns]
+    t = drawn - W @ np.linalg.solve(capacitance, drawn[picked])
+    size = max(float(np.abs(F).max(initial=0.0)), 1e-300) * max(b, 1)
+    if not np.isfinite(t).all() or np.abs(t).max(initial=0.0) > 1e6 * size:
+        return None
+    return t[:b]
+
+
 AXIS_NAMES = {
     0: ("x", "span (x extent)"),
     1: ("y", "depth (y extent)"),
