@@ -626,3 +626,113 @@ def test_a_moved_support_priced_on_the_drawn_factorisation_matches_a_fresh_solve
             np.testing.assert_allclose(got, t, rtol=1e-9, atol=1e-9 * np.abs(t).max())
             seen_forces += 1
     assert seen_none and seen_forces
+
+
+# -- a member drawn between other joints -----------------------------------------------------------
+def review_of_file(case, claims, tmp_path):
+    """`claims` written as a consultant's wide CSV and read by the claims reader: a label the
+    case does not have reaches the comparison as the reader leaves it (an unknown label)."""
+    from verify.io.claims import read_claims
+
+    columns = list(claims)
+    members = list(dict.fromkeys(m for column in claims.values() for m in column))
+    lines = ["member," + ",".join(columns)]
+    lines += [m + "," + ",".join(repr(claims[c][m]) for c in columns) for m in members]
+    path = tmp_path / "claims.csv"
+    path.write_text("\n".join(lines) + "\n")
+    model = make_model(case)
+    return compare_claims(analyse(model), read_claims(path, model))
+
+
+def _diagonal_other_way(case, old=("U2", "L3"), new=("L2", "U3")):
+    """The case with the diagonal of one panel drawn the other way (the member keeps no name of
+    the case: the claims then name it by its joints)."""
+    variant = copy.deepcopy(case)
+    members = variant["members"]
+    name = "".join(old)
+    assert members.pop(name) == list(old)
+    members["".join(new)] = list(new)
+    return variant
+
+
+def test_diagonal_drawn_the_other_way_is_named_by_the_label_the_claims_use(tmp_path):
+    claims = claims_of(_diagonal_other_way(bridge()))
+    review = review_of_file(bridge(), claims, tmp_path)
+    (cause,) = causes(review)
+    assert cause.unexplained == 0 and cause.joints == ("U2", "L3")
+    assert cause.variant == (
+        "a truss with L2U3 (L2 to U3), which the claims name, in place of U2L3 (U2 to L3), which "
+        "they leave out: the diagonal of that panel drawn the other way"
+    )
+    # the panel's chords and verticals carry the change; the label stays an error of its own
+    assert set(cause.members) <= {"L2L3", "U2U3", "U2L2", "U3L3"}
+    assert sorted(f.kind for f in errors(review)) == ["likely-cause", "unknown-label"]
+    # none of the panel's rows is read as a value copied from another row
+    assert not [f for f in causes(review) if "copied" in f.variant]
+
+
+def test_diagonal_named_with_a_dash_and_the_honest_table_still_agrees(tmp_path):
+    claims = claims_of(_diagonal_other_way(bridge()))
+    for column in claims.values():
+        column["L2-U3"] = column.pop("L2U3")
+    (cause,) = causes(review_of_file(bridge(), claims, tmp_path))
+    assert "a truss with L2-U3 (L2 to U3)" in cause.variant
+    assert review_of_file(bridge(), claims_of(bridge()), tmp_path).verdict is Verdict.AGREES
+
+
+def test_a_mislabelled_row_alone_is_not_a_moved_member(tmp_path):
+    """A label naming two joints the case does not join, on a table whose values are the case's
+    own (the row's member renamed): nothing disagrees, so no model change is named."""
+    claims = claims_of(bridge())
+    for column in claims.values():
+        column["L2U3"] = column.pop("U2L3")
+    review = review_of_file(bridge(), claims, tmp_path)
+    assert causes(review) == [] and [f.kind for f in errors(review)] == ["unknown-label"]
+
+
+def test_joint_pairs_are_read_only_when_the_label_names_them_one_way():
+    from verify.compare.causes.members import joint_pair
+
+    case = truss_case(
+        {"A1": [0, 0], "A11": [1, 0], "1B": [2, 0], "B": [3, 0], "C": [0, 1]},
+        [("A1", "A11"), ("A11", "1B"), ("1B", "B"), ("B", "C"), ("C", "A1"), ("C", "A11")],
+        {"A1": ["x", "y"], "B": ["y"]},
+        {"P": {"C": [0.0, -1.0]}},
+    )
+    model = make_model(case)
+    index = model.joint_index
+    assert joint_pair("A1-B", model) == (index["A1"], index["B"])
+    assert joint_pair("C / 1B", model) == (index["C"], index["1B"])
+    assert joint_pair("CB", model) == (index["C"], index["B"])
+    # 'A11B' splits as A1+1B and as A11+B: two readings, none taken
+    assert joint_pair("A11B", model) is None
+    assert joint_pair("A1A1", model) is None and joint_pair("D-C", model) is None
+
+
+def test_a_moved_member_priced_on_the_drawn_factorisation_matches_a_fresh_solve():
+    """The Sherman-Morrison update against numpy's dense solve of the changed truss's own
+    equilibrium matrix, for every member of the bridge moved to the other diagonal of panel 3
+    (most moves leave a mechanism, which both must see)."""
+    from verify.analysis.equilibrium import assemble_equilibrium
+    from verify.compare.causes.members import replaced_member_forces
+    from verify.compare.causes.variants import statics_solution
+    from verify.model import Member
+
+    analysis = analyse(make_model(bridge()))
+    model, run = analysis.model, analysis.run
+    columns = np.arange(model.load_matrix().shape[1])
+    drawn = statics_solution(run, columns)
+    pair = (model.joint_index["L2"], model.joint_index["U3"])
+    seen = {True: 0, False: 0}
+    for m, member in enumerate(model.members):
+        got = replaced_member_forces(run, drawn, m, pair)
+        members = list(model.members)
+        members[m] = Member(member.id, "L2", "U3", *member[3:])
+        A = assemble_equilibrium(dataclasses.replace(model, members=tuple(members))).toarray()
+        singular = np.linalg.matrix_rank(A) < A.shape[0]
+        assert (got is None) == singular, member.id
+        seen[singular] += 1
+        if got is not None:
+            t = np.linalg.solve(A, -model.load_matrix())[: len(model.members)]
+            np.testing.assert_allclose(got, t, rtol=1e-9, atol=1e-9 * np.abs(t).max())
+    assert seen[True] and seen[False]

@@ -19,6 +19,7 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from enum import StrEnum
+from functools import partial
 from types import SimpleNamespace
 from typing import TYPE_CHECKING, Any
 
@@ -34,6 +35,7 @@ from verify.compare.causes import (
     explain_bracing,
     explain_copies,
     explain_model,
+    explain_moved_member,
     explain_release,
     explain_shifted_rows,
 )
@@ -1230,7 +1232,12 @@ def _unfilled_columns(c: Comparison) -> None:
 
 def _model_causes(c: Comparison) -> None:
     # Likely causes, 1 of 3: a slightly different model (verify.compare.causes); on an
-    # indeterminate truss, the changes that scale forces whatever the stiffness.
+    # indeterminate truss, the changes that scale forces whatever the stiffness. First a member
+    # the claims name by two joints the case does not join: its rows are otherwise read as
+    # values copied from rows that happen to carry the same force.
+    labels = tuple(u.label for u in c.claims.unmatched if u.reason == "unknown")
+    if labels:
+        _apply_cause(c, partial(explain_moved_member, labels=labels))
     _apply_cause(c, explain_model)
 
 

@@ -28,6 +28,7 @@ import numpy as np
 from verify.analysis.pipeline import Analysis
 from verify.compare.causes.bracing import explain_tension_only
 from verify.compare.causes.frame import ClaimsFrame
+from verify.compare.causes.members import find_moved_member
 from verify.compare.causes.search import search_causes
 from verify.compare.causes.supports import explain_released_support
 from verify.compare.causes.table_order import Shift, copied_values, shifted_runs
@@ -39,6 +40,7 @@ __all__ = [
     "explain_bracing",
     "explain_copies",
     "explain_model",
+    "explain_moved_member",
     "explain_release",
     "explain_shifted_rows",
 ]
@@ -161,6 +163,31 @@ def explain_model(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
         )
         explained |= cause.explained
     return CauseReport(explained, findings, list(result.notes))
+
+
+def explain_moved_member(
+    frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis, labels: tuple[str, ...]
+) -> CauseReport:
+    """A member drawn between other joints, named by a label the case does not have
+    (verify.compare.causes.members)."""
+    moved = find_moved_member(frame, pending, analysis, labels)
+    if moved is None:
+        return CauseReport(np.zeros(len(frame), dtype=bool), [], [])
+    columns = ", ".join(f"'{c}'" for c in frame.columns_of(moved.explained))
+    touched = np.isin(frame.column, np.unique(frame.column[moved.explained]))
+    ids = analysis.model.joint_ids
+    joints = tuple(ids[int(j)] for j in analysis.model.ends_index[moved.member])
+    finding = _finding(
+        frame,
+        moved.explained,
+        moved.words,
+        "member-moved",
+        columns,
+        analysis.model.source,
+        pending_after=int((pending & ~moved.explained & touched).sum()),
+        joints=joints,
+    )
+    return CauseReport(moved.explained, [finding], [])
 
 
 def explain_copies(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -> CauseReport:
