@@ -736,3 +736,90 @@ def test_a_moved_member_priced_on_the_drawn_factorisation_matches_a_fresh_solve(
             t = np.linalg.solve(A, -model.load_matrix())[: len(model.members)]
             np.testing.assert_allclose(got, t, rtol=1e-9, atol=1e-9 * np.abs(t).max())
     assert seen[True] and seen[False]
+
+
+# -- one panel or one joint drawn elsewhere --------------------------------------------------------
+def test_one_panel_drawn_longer_is_named_with_its_length():
+    variant = bridge()
+    for xy in variant["joints"].values():
+        if xy[0] >= 12.0:  # the panel from x = 9 m to 12 m drawn 3.5 m long
+            xy[0] += 0.5
+    review = review_of(bridge(), claims_of(variant))
+    (cause,) = causes(review)
+    assert cause.variant.startswith(
+        "the panel from x = 9 m to x = 12 m drawn 3.5 m long instead of 3 m (every joint from "
+        "x = 12 m on moved 0.5 m along x)"
+    )
+    assert cause.unexplained == 0 and [f.kind for f in errors(review)] == ["likely-cause"]
+
+
+def test_one_joint_drawn_higher_is_named():
+    variant = bridge()
+    variant["joints"]["U5"][1] = 3.8
+    review = review_of(bridge(), claims_of(variant))
+    (cause,) = causes(review)
+    assert cause.variant.startswith("joint U5 drawn at y = 3.8 m instead of y = 3.5 m")
+    assert cause.joints == ("U5",) and cause.unexplained == 0
+
+
+def test_small_scattered_slips_are_not_read_as_a_panel_or_a_joint():
+    """Claims 1.5-3 % off here and there (a careless table) carry no model change."""
+    claims = claims_of(bridge())
+    ids = list(claims["dead"])
+    for k, m in enumerate(ids[::3]):
+        claims["dead"][m] *= 1.015 + 0.005 * (k % 4)
+    assert causes(review_of(bridge(), claims)) == []
+
+
+def test_first_order_screen_matches_finite_differences_of_a_fresh_solve():
+    """The screen's derivative of the forces along a move (one solve on the drawn factorisation)
+    against central differences of numpy's dense solve of the moved truss: claims made by
+    stepping s0 along that derivative must screen to the step s0."""
+    from verify.analysis.equilibrium import assemble_equilibrium
+    from verify.compare.causes.frame import ClaimsFrame
+    from verify.compare.causes.geometry import joint_moves, moved_model, panel_moves, screen
+
+    compared = 0
+    for case in (bridge(), mast()):
+        analysis = analyse(make_model(case))
+        model, run, ref = analysis.model, analysis.run, analysis.reference
+        n = len(model.members)
+        columns = np.arange(model.load_matrix().shape[1])
+        member = np.tile(np.arange(n), len(columns))
+        column = np.repeat(columns, n)
+        computed = ref.member_forces[member, column]
+
+        def frame_of(claimed):
+            return ClaimsFrame(
+                model,
+                tuple(model.load_names),
+                np.arange(len(member)),
+                member,
+                column,
+                claimed,
+                computed,
+                np.full(len(member), 1e-3),
+                np.zeros(len(member)),
+                0.01,
+                ["row"] * len(member),
+                ["0"] * len(member),
+            )
+
+        pending = np.ones(len(member), dtype=bool)
+        moves = panel_moves(model) + joint_moves(model, frame_of(computed * 1.1), pending)
+        for move in moves[:8]:
+            h = 1e-6 * max(move.limit, 1.0)
+            forces = []
+            for step in (h, -h):
+                A = assemble_equilibrium(moved_model(model, move, step)).toarray()
+                forces.append(np.linalg.solve(A, -model.load_matrix())[:n])
+            numeric = ((forces[0] - forces[1]) / (2 * h))[member, column]
+            if np.abs(numeric).max() < 1e-6 * np.abs(computed).max():
+                continue  # a move that changes no force (a joint moved along its only members)
+            s0 = 0.1 * move.limit
+            frame = frame_of(computed + s0 * numeric)
+            (screened,) = screen(run, frame, pending, np.zeros(len(member)), [move])
+            assert screened.delta == pytest.approx(s0, rel=1e-5)
+            assert screened.gain == pytest.approx(1.0, rel=1e-6)
+            compared += 1
+    assert compared >= 8
