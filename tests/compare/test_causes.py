@@ -771,12 +771,30 @@ def test_small_scattered_slips_are_not_read_as_a_panel_or_a_joint():
     assert causes(review_of(bridge(), claims)) == []
 
 
+def _frame_of(model, member, column, claimed, computed):
+    from verify.compare.causes.frame import ClaimsFrame
+
+    return ClaimsFrame(
+        model,
+        tuple(model.load_names),
+        np.arange(len(member)),
+        member,
+        column,
+        claimed,
+        computed,
+        np.full(len(member), 1e-3),
+        np.zeros(len(member)),
+        0.01,
+        ["row"] * len(member),
+        ["0"] * len(member),
+    )
+
+
 def test_first_order_screen_matches_finite_differences_of_a_fresh_solve():
     """The screen's derivative of the forces along a move (one solve on the drawn factorisation)
     against central differences of numpy's dense solve of the moved truss: claims made by
     stepping s0 along that derivative must screen to the step s0."""
     from verify.analysis.equilibrium import assemble_equilibrium
-    from verify.compare.causes.frame import ClaimsFrame
     from verify.compare.causes.geometry import joint_moves, moved_model, panel_moves, screen
 
     compared = 0
@@ -789,24 +807,10 @@ def test_first_order_screen_matches_finite_differences_of_a_fresh_solve():
         column = np.repeat(columns, n)
         computed = ref.member_forces[member, column]
 
-        def frame_of(claimed):
-            return ClaimsFrame(
-                model,
-                tuple(model.load_names),
-                np.arange(len(member)),
-                member,
-                column,
-                claimed,
-                computed,
-                np.full(len(member), 1e-3),
-                np.zeros(len(member)),
-                0.01,
-                ["row"] * len(member),
-                ["0"] * len(member),
-            )
-
         pending = np.ones(len(member), dtype=bool)
-        moves = panel_moves(model) + joint_moves(model, frame_of(computed * 1.1), pending)
+        moves = panel_moves(model) + joint_moves(
+            model, _frame_of(model, member, column, computed * 1.1, computed), pending
+        )
         for move in moves[:8]:
             h = 1e-6 * max(move.limit, 1.0)
             forces = []
@@ -817,7 +821,7 @@ def test_first_order_screen_matches_finite_differences_of_a_fresh_solve():
             if np.abs(numeric).max() < 1e-6 * np.abs(computed).max():
                 continue  # a move that changes no force (a joint moved along its only members)
             s0 = 0.1 * move.limit
-            frame = frame_of(computed + s0 * numeric)
+            frame = _frame_of(model, member, column, computed + s0 * numeric, computed)
             (screened,) = screen(run, frame, pending, np.zeros(len(member)), [move])
             assert screened.delta == pytest.approx(s0, rel=1e-5)
             assert screened.gain == pytest.approx(1.0, rel=1e-6)
