@@ -30,6 +30,7 @@ LOCAL_MEMBER_LIMIT = 800  # moves are screened and fitted by re-solving the trus
 SCREENED_JOINTS = 12  # joints whose coordinates are screened (most disagreeing claims first)
 FITTED_MOVES = 3  # best screened moves fitted and tried at round values
 MIN_GAIN = 0.5  # a screened move must remove this share of the disagreeing claims' misfit
+CLIP = 10.0  # a claim's misfit counts at most this many allowances (the fit clips alike)
 
 
 class Move(NamedTuple):
@@ -70,12 +71,20 @@ def panel_moves(model: Model) -> list[Move]:
             beyond = np.flatnonzero(coords >= high - 1e-6 * size)
             gap = high - low
 
+            what, how = ("the height", "high") if axis == model.dim - 1 else ("the panel", "long")
+
             def words(
-                new: float, low: float = low, high: float = high, gap: float = gap, letter=letter
+                new: float,
+                low: float = low,
+                high: float = high,
+                gap: float = gap,
+                letter: str = letter,
+                what: str = what,
+                how: str = how,
             ) -> str:
                 return (
-                    f"the panel from {letter} = {fmt(low, 4)} {unit} to {letter} = {fmt(high, 4)} "
-                    f"{unit} drawn {fmt(new, 4)} {unit} long instead of {fmt(gap, 4)} {unit} "
+                    f"{what} from {letter} = {fmt(low, 4)} {unit} to {letter} = {fmt(high, 4)} "
+                    f"{unit} drawn {fmt(new, 4)} {unit} {how} instead of {fmt(gap, 4)} {unit} "
                     f"(every joint from {letter} = {fmt(high, 4)} {unit} on moved "
                     f"{fmt(new - gap, 3)} {unit} along {letter})"
                 )
@@ -164,16 +173,18 @@ def screen(
             np.add.at(block, ends[members, 0] * d + axis, change)
             np.add.at(block, ends[members, 1] * d + axis, -change)
     slopes = np.asarray(run.equilibrium_lu().solve(-rhs)).reshape(model.dofs, -1)
-    residual = (frame.claimed - frame.computed - base)[pending]
-    weight = 1.0 / frame.allowed(frame.computed + base)[pending] ** 2
-    total = float((weight * residual**2).sum())
+    allowed = frame.allowed(frame.computed + base)[pending]
+    # Misfits in allowances, clipped as the fit clips them: one slip of the table's own (a sign
+    # flipped on a 100 kN member) must not outweigh the many small differences a move makes.
+    ratio = np.clip((frame.claimed - frame.computed - base)[pending] / allowed, -CLIP, CLIP)
+    total = float((ratio**2).sum())
     out = []
     for i, move in enumerate(moves):
-        slope = slopes[:b, i * ncols : (i + 1) * ncols][frame.member, where][pending]
-        curvature = float((weight * slope**2).sum())
+        slope = (slopes[:b, i * ncols : (i + 1) * ncols][frame.member, where][pending]) / allowed
+        curvature = float((slope**2).sum())
         if curvature <= 0 or total <= 0:
             continue
-        delta = float((weight * residual * slope).sum()) / curvature
+        delta = float((ratio * slope).sum()) / curvature
         gain = delta * delta * curvature / total
         if 0 < abs(delta) <= move.limit and gain >= MIN_GAIN:
             out.append(Screened(move, delta, gain))

@@ -12,7 +12,7 @@ Matrix Computations, 4th ed., section 2.1.4), as the moved supports do
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
@@ -27,7 +27,7 @@ if TYPE_CHECKING:
     from verify.analysis.run import AnalysisRun
 
 MAX_LABELS = 10  # unknown labels read as joint pairs
-MAX_UNCLAIMED = 20  # members without a claim tried as the one moved
+MAX_UNCLAIMED = 20  # members without a claim tried as the one moved (nearest the named first)
 SINGULAR = 1e-9  # |1 + w_m| below this: the moved member leaves a mechanism
 _SEPARATORS = re.compile(r"\s*(?:-|–|—|_|/|\\|,|\s)\s*")
 
@@ -42,21 +42,32 @@ class MovedMember(NamedTuple):
 def joint_pair(label: str, model: Model) -> tuple[int, int] | None:
     """The two joints a label names ('B1T2', 'B1-T2', 'B1 / T2'), when it names exactly two
     distinct joints of the model in one way; else None."""
-    index = model.joint_index
-    text = label.strip()
-    parts = [p for p in _SEPARATORS.split(text) if p]
-    if len(parts) == 2 and parts[0] in index and parts[1] in index:
-        found = {(parts[0], parts[1])}
-    else:
-        found = {
-            (text[:k], text[k:])
-            for k in range(1, len(text))
-            if text[:k] in index and text[k:] in index
-        }
+    found = _pairs(label.strip(), model.joint_index)
+    if not found:
+        # the claims reader matches labels whatever their case ('l2u3'): so are joints read,
+        # when no two joint ids differ only by case
+        folded: dict[str, int] = {}
+        for joint, k in model.joint_index.items():
+            key = joint.casefold()
+            folded[key] = -1 if key in folded else k  # -1: two joints differ only by case
+        found = _pairs(label.strip().casefold(), {j: k for j, k in folded.items() if k >= 0})
     if len(found) != 1:
         return None
     ((a, b),) = found
-    return (index[a], index[b]) if a != b else None
+    return (a, b) if a != b else None
+
+
+def _pairs(text: str, index: Mapping[str, int]) -> set[tuple[int, int]]:
+    """The ways `text` names two joints of `index`: split at a separator, else written
+    together."""
+    parts = [p for p in _SEPARATORS.split(text) if p]
+    if len(parts) == 2 and parts[0] in index and parts[1] in index:
+        return {(index[parts[0]], index[parts[1]])}
+    return {
+        (index[text[:k]], index[text[k:]])
+        for k in range(1, len(text))
+        if text[:k] in index and text[k:] in index
+    }
 
 
 def replaced_member_forces(
@@ -113,9 +124,10 @@ def find_moved_member(
         return None
     claimed = np.zeros(len(model.members), dtype=bool)
     claimed[frame.member] = True
-    unclaimed = np.flatnonzero(~claimed)[:MAX_UNCLAIMED].tolist()
-    if not unclaimed:
+    unclaimed = np.flatnonzero(~claimed)
+    if not len(unclaimed):
         return None
+    middles = model.xyz[ends[unclaimed]].mean(axis=1)
     columns, where = frame.column_positions()
     try:
         drawn = statics_solution(analysis.run, columns)
@@ -126,7 +138,11 @@ def find_moved_member(
     agreed = frame.agrees(frame.computed)
     best: MovedMember | None = None
     for label, pair in pairs:
-        for m in unclaimed:
+        # the unclaimed members nearest the named one first (the other diagonal of its panel
+        # has the same middle), so a spot-check table with many unclaimed members still finds it
+        middle = model.xyz[list(pair)].mean(axis=0)
+        near = np.argsort(np.linalg.norm(middles - middle, axis=1), kind="stable")
+        for m in unclaimed[near[:MAX_UNCLAIMED]].tolist():
             t = replaced_member_forces(analysis.run, drawn, m, pair)
             if t is None:
                 continue

@@ -457,7 +457,12 @@ def support_moves(model: Model) -> Iterator[SupportMove]:
         others = ends[members].sum(axis=1) - k
         distance = np.linalg.norm(xyz[others] - xyz[k], axis=1)
         order = np.argsort(distance, kind="stable")  # nearest first; then table order
-        axes = ", ".join(sorted(model.reactions[i].axis for i in by_joint[s]))
+        axes = ", ".join(
+            sorted(
+                "inclined" if model.reactions[i].axis == "n" else model.reactions[i].axis
+                for i in by_joint[s]
+            )
+        )
         tried: set[str] = set()
         for m, c_index in zip(members[order].tolist(), others[order].tolist(), strict=True):
             c = ids[c_index]
