@@ -16,7 +16,7 @@ import numpy as np
 
 from verify.io.claims.source_csv import PlainBlock
 from verify.io.claims.table import MemberIndex
-from verify.io.values import MAX_FORCE, MIN_FORCE
+from verify.io.values import MAX_FORCE, MAX_FORCE_CHARS, MIN_FORCE
 
 ROWS_AT_A_TIME = 8_192  # rows split into cells at a time (their strings held meanwhile)
 
@@ -77,6 +77,8 @@ def read_plain_block(
     end = np.column_stack([stops_of[j] for j in order]).ravel()
     if not bool((end > begin).all()):
         return None
+    if int((end - begin).max()) > MAX_FORCE_CHARS:
+        return None  # a cell read_force_cell refuses (the column route leaves it to it)
     bounds = np.empty(2 * begin.size, dtype=np.int64)
     bounds[0::2], bounds[1::2] = begin, end
     # Only number bytes in a cell: each cell's bytes, and what lies between, reduced at once.

@@ -12,6 +12,7 @@ from typing import Any, cast
 import numpy as np
 
 from verify.errors import did_you_mean
+from verify.io.case import LABEL_MAX_CHARS
 from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
@@ -31,13 +32,16 @@ from verify.io.claims.table import (
     compact_ints,
 )
 from verify.io.values import (
+    MAX_FORCE_CHARS,
     PLAIN_NUMBER,
     is_nan_text,
     read_force_cell,
 )
 from verify.units import Dimension, Unit, lookup_unit
 
-MAX_NAME_CHARS = 100  # member labels and case names; longer text is a note, not a name
+# Member labels and case names; longer text is a note, not a name. The case file's own limit, so
+# that every member id a case file takes can be named in a claims table.
+MAX_NAME_CHARS = LABEL_MAX_CHARS
 
 
 def refuse_name(text: str, what: str) -> str | None:
@@ -472,14 +476,18 @@ def _plain_cells(
     if whole is not None:
         value, decimals, joined, ends = whole
         spans = (joined, ends)
-        plain = np.ones(n, dtype=bool)
+        # A cell past MAX_FORCE_CHARS is refused by read_force_cell: the general reader words it.
+        plain = np.diff(ends, prepend=-1) - 1 <= MAX_FORCE_CHARS
         at = np.arange(n)
     else:
         decimals = None
         fullmatch = PLAIN_NUMBER.fullmatch
         plain = np.fromiter(
             (
-                type(c) is str and fullmatch(c) is not None and not (decimal_comma and "." in c)
+                type(c) is str
+                and len(c) <= MAX_FORCE_CHARS
+                and fullmatch(c) is not None
+                and not (decimal_comma and "." in c)
                 for c in cells
             ),
             dtype=bool,
@@ -517,6 +525,20 @@ def _take(items: list[Cell], at: list[int]) -> list[Cell]:
     if len(at) > 1:
         return list(itemgetter(*at)(items))
     return [items[i] for i in at]
+
+
+def _label_widths(labels: list[Cell] | str) -> np.ndarray:
+    """The characters of each label (0 for a cell that is not text), from the labels or their
+    text joined by line breaks."""
+    if isinstance(labels, str):
+        if labels.isascii():
+            raw = np.frombuffer(labels.encode("ascii"), dtype=np.uint8)
+            breaks = np.flatnonzero(raw == ord("\n"))
+            return np.diff(breaks, prepend=-1, append=len(labels)) - 1
+        labels = _cells_of_text(labels)
+    return np.fromiter(
+        (len(c) if type(c) is str else 0 for c in labels), dtype=np.int64, count=len(labels)
+    )
 
 
 def read_bulk(
@@ -585,6 +607,13 @@ def read_bulk(
         def labels_of() -> list[Cell]:
             return _cells_of_text(cast(str, first))
 
+    # A label past MAX_NAME_CHARS (a model built in memory may hold such an id) is refused by
+    # the general reader, which words it: its row goes there.
+    if block is not None and from_block is not None:
+        widths = block.ends[:, label_at] - block.begins(label_at)
+    else:
+        widths = _label_widths(cells_of[0])
+    ok &= widths <= MAX_NAME_CHARS
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
@@ -597,7 +626,8 @@ def read_bulk(
         assert labels is not None
         cell = labels[i]
         label_text = cell if type(cell) is str else cell_text(cell)
-        if label_text:
+        if label_text and refuse_name(label_text, "member label") is None:
+            # (a refused label names no member: the patterns never run over a long cell)
             found = match(label_text)
             if found.kind == "member" and found.member is not None:
                 named[i] = member_ids.get_loc(found.member)
