@@ -10,9 +10,18 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
-from test_hostile_input import CLAIMS, TRIANGLE, folder
+from test_hostile_input import (
+    CLAIMS,
+    JOINTS_CSV,
+    LOADS_CSV,
+    MEMBERS_CSV,
+    TABLED,
+    TRIANGLE,
+    folder,
+)
 
 from verify.cli import main
+from verify.io import case as case_module
 from verify.io import claims as claims_module
 from verify.io.claims import rows as rows_module
 from verify.io.claims import source_csv
@@ -101,3 +110,73 @@ def test_a_label_past_the_name_limit_is_refused_by_every_route(
     assert message.count("characters long (limit 1)") == 3
     monkeypatch.undo()
     assert every_route(monkeypatch, case, honest) == (0, "")
+
+
+# -- 2. a z load in a 2D case's loads table: refused, not dropped --------------------------------
+
+
+def tabled_triangle(tmp_path: Path, loads: str) -> Path:
+    files = {
+        "case.toml": TABLED,
+        "joints.csv": JOINTS_CSV,
+        "members.csv": MEMBERS_CSV,
+        "loads.csv": loads,
+        "claims.csv": CLAIMS,
+    }
+    folder(tmp_path, files)
+    return tmp_path / "case.toml"
+
+
+def check_case(
+    monkeypatch: pytest.MonkeyPatch, case: Path, *, bulk: bool
+) -> tuple[int, str, list[str]]:
+    """`check` of the triangle's claims with the case's tables read by the careful reader, or
+    (`bulk`) by the bulk readers however small the table; and which bulk loads reader took it."""
+    took: list[str] = []
+    with monkeypatch.context() as patch:
+        patch.setattr(case_module, "BULK_MIN_ROWS", 0 if bulk else 10**9)
+        for name in ("_plain_loads", "_fast_loads"):
+            reader = getattr(case_module, name)
+
+            def spy(*args, _reader=reader, _name=name, **kwargs):
+                found = _reader(*args, **kwargs)
+                if found:
+                    took.append(_name)
+                return found
+
+            patch.setattr(case_module, name, spy)
+        result = CliRunner().invoke(
+            main, ["check", str(case), "--claims", str(case.parent / "claims.csv")]
+        )
+    if result.exception and not isinstance(result.exception, SystemExit):
+        raise result.exception
+    return result.exit_code, result.stderr, took
+
+
+@pytest.mark.parametrize("bulk", [False, True])
+@pytest.mark.parametrize("fz", ["5", "-0.001", "1e-9", "x"])
+def test_a_z_load_in_a_2d_loads_table_is_refused_with_its_line(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, bulk: bool, fz: str
+) -> None:
+    """fz of a 2D case was dropped silently (only fx and fy read) by every loads reader."""
+    loads = f"case,joint,fx,fy,fz\ndead,A,0,0,0\ndead,C,0,-10,{fz}\n"
+    status, message, _ = check_case(monkeypatch, tabled_triangle(tmp_path, loads), bulk=bulk)
+    assert status == 2
+    assert message == (
+        f"{tmp_path / 'loads.csv'}:3: load case 'dead' at joint 'C': field fz holds '{fz}'; "
+        "expected 0 or a blank cell, as a 2D case has no z loads\n"
+    )
+
+
+@pytest.mark.parametrize("bulk", [False, True])
+@pytest.mark.parametrize("fz", ["0", "0.0", "-0", ""])
+def test_a_2d_loads_table_with_zero_or_blank_fz_is_read(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, bulk: bool, fz: str
+) -> None:
+    loads = f"case,joint,fx,fy,fz\ndead,C,0,-10,{fz}\n"
+    status, message, took = check_case(monkeypatch, tabled_triangle(tmp_path, loads), bulk=bulk)
+    assert (status, message) == (0, "")
+    # (the bulk readers take a table of numbers; a blank cell is the careful reader's)
+    assert bool(took) == (bulk and fz != "")
+    honest = check_case(monkeypatch, tabled_triangle(tmp_path / "honest", LOADS_CSV), bulk=bulk)
+    assert honest[:2] == (0, "")

@@ -1526,6 +1526,16 @@ def _rational(number: float) -> Any:
     return sympy.Rational(repr(number))
 
 
+def _zero_or_blank(cell: str) -> bool:
+    """Whether a CSV cell is blank or the number zero."""
+    if not cell.strip():
+        return True
+    try:
+        return parse_number(cell) == 0
+    except ValueError:
+        return False
+
+
 def _fast_loads(
     ctx: _Ctx,
     cases: dict[str, dict[str, tuple[float, ...]]],
@@ -1533,10 +1543,14 @@ def _fast_loads(
     fixed_case: str | None,
     joint_ids: set[str],
     axes: tuple[str, ...],
+    unused: tuple[str, ...] = (),
 ) -> bool:
     """Add the rows of a clean loads frame to `cases` when every joint is known, no joint is
-    loaded twice in a case, every case name is a plain label and every load finite and within
-    LOAD_LIMIT; else add nothing and say False (the row-by-row reader words the problem)."""
+    loaded twice in a case, every case name is a plain label, every load finite and within
+    LOAD_LIMIT and every `unused` column (fz of a 2D case) zero where the table has it; else add
+    nothing and say False (the row-by-row reader words the problem)."""
+    if any(a in frame.columns and (frame[a].to_numpy() != 0).any() for a in unused):
+        return False
     import pandas as pd
 
     keys = frame["case"] if not fixed_case else None
@@ -1626,12 +1640,14 @@ def _plain_loads(
     cases: dict[str, dict[str, tuple[float, ...]]],
     fixed_case: str | None,
     axes: tuple[str, ...],
+    unused: tuple[str, ...] = (),
 ) -> bool:
     """A large plain loads table with joints known to the joints table read in bulk: the case
     and joint cells cut from its bytes (case_columns; the joints matched as numbers, the cases
     numbered by the same keys, a string made only for each case's name) and only the force
-    columns parsed by pandas. False, adding nothing, on anything else (the pandas reader or the
-    careful one then takes the table)."""
+    columns parsed by pandas (with each `unused` one the table has, which must be all zero).
+    False, adding nothing, on anything else (the pandas reader or the careful one then takes
+    the table)."""
     bulk = ctx.bulk
     if bulk.joint_ids is None or bulk.joint_index is None or bulk.xyz is None:
         return False
@@ -1661,11 +1677,12 @@ def _plain_loads(
         codes, names = table.numbered(table.names.index("case"))
     import pandas as pd
 
+    checked = tuple(a for a in unused if a in table.names)
     try:
         source = io.BytesIO(text.encode("ascii"))
         numbers = pd.read_csv(
             source,
-            usecols=[table.names.index(a) for a in axes],
+            usecols=[table.names.index(a) for a in axes + checked],
             keep_default_na=False,
             skip_blank_lines=False,
         )
@@ -1674,8 +1691,11 @@ def _plain_loads(
     if len(numbers) != table.rows or any(numbers[c].dtype.kind not in "iuf" for c in numbers):
         return False
     # The force columns in the order of `axes` (pandas keeps the table's order).
-    in_table = sorted(axes, key=table.names.index)
-    vectors = numbers.to_numpy(dtype=float)[:, [in_table.index(a) for a in axes]]
+    in_table = sorted(axes + checked, key=table.names.index)
+    found = numbers.to_numpy(dtype=float)
+    if checked and (found[:, [in_table.index(a) for a in checked]] != 0).any():
+        return False  # a z load in a 2D case: the careful reader refuses it by line
+    vectors = found[:, [in_table.index(a) for a in axes]]
     return _add_bulk_loads(ctx, cases, position, codes, names, fixed_case, vectors)
 
 
@@ -2266,11 +2286,16 @@ def _read_loads(
 
     def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
         axes = ("fx", "fy", "fz")[: dim or 2]
+        # A 2D case's table may carry an fz column (an export of a 3D layout): zero or blank
+        # there, never a load that would be dropped.
+        unused = ("fz",) if dim == 2 else ()
         required = ("joint",) + axes + (() if fixed_case else ("case",))
-        if _plain_loads(ctx, base, name, where, cases, fixed_case, axes):
+        if _plain_loads(ctx, base, name, where, cases, fixed_case, axes, unused):
             return
-        found = _clean_frame(ctx, base, name, where, required, axes)
-        if found is not None and _fast_loads(ctx, cases, found[1], fixed_case, joint_ids, axes):
+        found = _clean_frame(ctx, base, name, where, required, axes + unused)
+        if found is not None and _fast_loads(
+            ctx, cases, found[1], fixed_case, joint_ids, axes, unused
+        ):
             return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
@@ -2280,6 +2305,17 @@ def _read_loads(
                 )  # says why, adds nothing
                 continue
             cases.setdefault(case, {})
+            if any(not _zero_or_blank(row.get(a, "")) for a in unused):
+                _say(
+                    ctx,
+                    f"load case '{case}' at joint {quoted(row['joint'])}: field fz holds "
+                    f"{quoted(row['fz'])}; expected 0 or a blank cell, as a 2D case has no z "
+                    "loads",
+                    where,
+                    file,
+                    line,
+                )
+                continue
             add(case, row["joint"], [row[a] for a in axes], where, file, line)
 
     if isinstance(table, str):
