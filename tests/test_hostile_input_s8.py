@@ -6,6 +6,7 @@ warning naming the row), and checks that the honest table of the same truss stil
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pytest
@@ -180,3 +181,51 @@ def test_a_2d_loads_table_with_zero_or_blank_fz_is_read(
     assert bool(took) == (bulk and fz != "")
     honest = check_case(monkeypatch, tabled_triangle(tmp_path / "honest", LOADS_CSV), bulk=bulk)
     assert honest[:2] == (0, "")
+
+
+# -- 3. a row that lost cells: reported on the row, never "no claim" -----------------------------
+
+
+@pytest.mark.parametrize(
+    ("row", "expected"),
+    [
+        ("AC;-7.0711", "cells separated by ',' (this row has ';')"),
+        ("AC", "a cell under every heading (an empty one where there is no claim)"),
+    ],
+)
+def test_a_claims_row_short_of_cells_is_reported_on_its_row(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, row: str, expected: str
+) -> None:
+    """A row separated by ';' in a ',' table, or missing its last cell, was read as a member
+    without a claim (an info line only) and the verdict was AGREES."""
+    case, planted, honest = triangle(tmp_path, CLAIMS.replace("AC,-7.0711", row))
+    outputs = set()
+    for route in ROUTES.values():
+        status, out, err = check(monkeypatch, case, planted, **route)
+        outputs.add((status, out, err))
+    assert len(outputs) == 1
+    status, out, err = outputs.pop()
+    assert (status, err) == (1, "")
+    assert out.startswith("DISCREPANCIES")
+    label = row.split(",")[0]
+    assert (
+        f"[error] unknown-label: '{label}' (row 3) of {planted} is a row of 1 cell where the "
+        f"table's columns need 2; expected {expected}; its missing cells give no claim"
+    ) in out
+    result = CliRunner().invoke(main, ["check", str(case), "--claims", str(planted), "--json"])
+    report = json.loads(result.stdout)
+    found = [f for f in report["findings"] if f["kind"] == "unknown-label"]
+    assert [f["members"] for f in found] == [[label]]
+    member = {(m["id"], m["status"]) for m in report["members"]}
+    assert ("AC", "agrees") not in member
+    assert check(monkeypatch, case, honest, **ROUTES["fast"])[0] == 0
+
+
+def test_a_row_with_an_empty_last_cell_is_still_no_claim(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """'AC,' writes every cell (the last one empty): a member listed without a claim, as before."""
+    case, planted, _ = triangle(tmp_path, CLAIMS.replace("AC,-7.0711", "AC,"))
+    status, out, _ = check(monkeypatch, case, planted, **ROUTES["fast"])
+    assert status == 0 and "unknown-label" not in out
+    assert "[info] missing-claim: 'dead': no claim for 1 of 3 members (AC)" in out

@@ -91,12 +91,18 @@ class RowReader:
         self.value_rows: list[int] = []  # the grid row of each entry of `values`
         self.header_row = layout.header_row
         self.pair = layout.pair
+        # The cells a claim needs: a CSV row shorter than this lost some (a missing last cell,
+        # or a row separated by another character), which must not pass for "no claim".
+        needed = [self.member_h.index] + [v.index for v in self.columns]
+        self.needed = max(needed + ([self.pair[1]] if self.pair is not None else [])) + 1
 
     def read_row(self, r: int) -> None:
         grid = self.grid
         row = grid.rows[r]
         if all(blank(c) for c in row):
             return
+        if len(row) < self.needed and grid.delimiter is not None:
+            self._short_row(r, row)
         label_cell = grid.cell(r, self.member_h.index)
         where_label = grid.where(r, self.member_h.index, self.member_h.text)
         present = [v for v in self.columns if not blank(grid.cell(r, v.index))]
@@ -145,6 +151,25 @@ class RowReader:
                 tc,
                 row_unit,
             )
+
+    def _short_row(self, r: int, row: list[Cell]) -> None:
+        """A CSV row with fewer cells than its table's columns need: reported on the row as an
+        unknown label (never read as a member without a claim)."""
+        delimiter = self.grid.delimiter
+        texts = [cell_text(c) for c in row]
+        others = [d for d in (",", ";", "\t", "|") if d != delimiter and any(d in t for t in texts)]
+        expected = (
+            f"cells separated by '{quoted(delimiter or '')}' (this row has '{quoted(others[0])}')"
+            if others
+            else "a cell under every heading (an empty one where there is no claim)"
+        )
+        cells = f"{len(row)} cell{'s' if len(row) != 1 else ''}"
+        detail = (
+            f"of {self.problems.file} is a row of {cells} where the table's columns need "
+            f"{self.needed}; expected {expected}; its missing cells give no claim"
+        )
+        label = quoted(next((t for t in texts if t), ""))
+        self.unmatched.append(UnmatchedLabel(label, self.grid.row_ref(r), "short-row", (), detail))
 
     def _case_of_row(self, r: int) -> str | None:
         if self.case_h is None:
