@@ -7,6 +7,9 @@ warning naming the row), and checks that the honest table of the same truss stil
 from __future__ import annotations
 
 import json
+import os
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -229,3 +232,40 @@ def test_a_row_with_an_empty_last_cell_is_still_no_claim(
     status, out, _ = check(monkeypatch, case, planted, **ROUTES["fast"])
     assert status == 0 and "unknown-label" not in out
     assert "[info] missing-claim: 'dead': no claim for 1 of 3 members (AC)" in out
+
+
+# -- 4. "did you mean" for an unknown joint: the same words every run ---------------------------
+
+NODES = ("node9", "node2", "node7", "node1", "node5", "node3", "node8", "node4", "node6")
+NODE_CASE = (
+    'title = "nodes"\n[units]\nlength = "m"\nforce = "kN"\n[joints]\n'
+    + "".join(f"{j} = [{k}.0, {k % 2}.0]\n" for k, j in enumerate(NODES))
+    + '[members]\nM1 = ["node", "node2"]\n[supports]\nnode9 = ["x", "y"]\nnode2 = ["y"]\n'
+    + "[loads.dead]\nnode7 = [0.0, -1.0]\n"
+)
+READ = (
+    "import sys\nfrom verify.errors import InputError\nfrom verify.io.case import read_case\n"
+    "try:\n    read_case(sys.argv[1])\nexcept InputError as error:\n    print(error.render())\n"
+)
+
+
+def test_did_you_mean_for_an_unknown_joint_follows_table_order(tmp_path: Path) -> None:
+    """Every joint contains 'node': the suggestions tie, and were taken from a set, whose order
+    changes with the hash seed from run to run. Now the first two in the joints table."""
+    folder(tmp_path, {"case.toml": NODE_CASE})
+    said = set()
+    for seed in ("0", "1", "2", "3", "4", "5", "6", "7"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        done = subprocess.run(
+            [sys.executable, "-c", READ, str(tmp_path / "case.toml")],
+            capture_output=True,
+            text=True,
+            env=env,
+            cwd=Path(__file__).parent.parent,
+            check=True,
+        )
+        said.add(done.stdout)
+    assert len(said) == 1, said
+    assert "names joint 'node', which is not defined. Did you mean 'node9' or 'node2'?" in (
+        said.pop()
+    )

@@ -209,6 +209,7 @@ class _Ctx:
     exact_coords: dict[str, tuple[object, ...]] = field(default_factory=dict)
     exact_loads: dict[tuple[str, str], tuple[object, ...]] = field(default_factory=dict)
     conversions: list[str] = field(default_factory=list)
+    joints: Sequence[Joint] = ()  # as the joints table gives them (suggestions in its order)
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -324,6 +325,7 @@ def build_model(
         ctx.length_unit, ctx.force_unit = units.length.symbol, units.force.symbol
     _read_parameters(ctx, data.get("parameters"))
     joints = _read_joints(ctx, data.get("joints"), base)
+    ctx.joints = joints
     dim = _dimension(ctx, joints)
     bulk = ctx.bulk
     joint_ids = (
@@ -978,9 +980,17 @@ def _joint_ref(
             return jid
         if jid in ctx.declared_joints or ctx.joints_unreadable:
             return None  # defined but unusable, or the joints table unreadable: said once already
+        # The candidates in table order, not the set's (which changes from run to run): the
+        # same suggestions, in the same order, every time.
+        bulk_ids = ctx.bulk.joint_ids
+        in_bulk = bulk_ids is not None and len(bulk_ids) == len(ctx.joints)
+        order = bulk_ids if bulk_ids is not None and in_bulk else [j.id for j in ctx.joints]
+        candidates = [j for j in order if j in joint_ids]
+        if len(candidates) != len(joint_ids):
+            candidates = sorted(joint_ids)  # (ids not from this case's joints: still one order)
         message = (
             f"{what} names joint '{shown(jid)}', which is not "
-            f"defined.{did_you_mean(jid, joint_ids)}"
+            f"defined.{did_you_mean(jid, candidates)}"
         )
     else:
         message = f"{what}: expected a joint id, got {shown(value)}"
