@@ -27,13 +27,14 @@ def in_range(value: np.ndarray) -> np.ndarray:
     return np.isfinite(size) & ((size == 0) | ((size >= MIN_FORCE) & (size <= MAX_FORCE)))
 
 
-def _number_bytes(raw: np.ndarray) -> np.ndarray:
+def _number_bytes(raw: np.ndarray, is_e: np.ndarray) -> np.ndarray:
     """Where `raw` holds one of '+,-./0123456789eE' (a plain number's bytes, and two that
     float() refuses in any text), with one False more (the place past the text a last cell may
-    end at). By comparisons: a table lookup per byte costs about ten of them."""
+    end at); `is_e` where it holds 'e' or 'E'. By comparisons: a table lookup per byte costs
+    about ten of them."""
     out = np.zeros(raw.size + 1, dtype=bool)
     np.less(raw - np.uint8(ord("+")), ord("9") - ord("+") + 1, out=out[:-1])
-    out[:-1] |= (raw | np.uint8(32)) == ord("e")
+    out[:-1] |= is_e
     return out
 
 
@@ -82,12 +83,15 @@ def read_plain_block(
     bounds = np.empty(2 * begin.size, dtype=np.int64)
     bounds[0::2], bounds[1::2] = begin, end
     # Only number bytes in a cell: each cell's bytes, and what lies between, reduced at once.
-    if not np.logical_and.reduceat(_number_bytes(raw), bounds)[0::2].all():
+    # (The exponents' places found once, for this and for the marks below.)
+    is_e = (raw | np.uint8(32)) == ord("e")
+    if not np.logical_and.reduceat(_number_bytes(raw, is_e), bounds)[0::2].all():
         return None
     low, high = int(begin[0]), int(end[-1])
-    area = raw[low:high]
-    marked = np.flatnonzero((area == ord(".")) | ((area | np.uint8(32)) == ord("e"))) + low
-    del area
+    marks = is_e[low:high]
+    marks |= raw[low:high] == ord(".")
+    marked = np.flatnonzero(marks) + low
+    del is_e, marks
     cell = np.minimum(np.searchsorted(end, marked), end.size - 1)
     inside = begin[cell] <= marked  # (not a label's letter between value cells)
     cell, marked = cell[inside], marked[inside]
