@@ -4,7 +4,8 @@ inputs): the same results bit for bit.
 - resolution.settle_rounding merges a column's significant-figure allowances only when there are
   some (significant_figure_places None: nothing to widen), instead of np.maximum with zeros;
 - cells.joined_spans cuts a column in four passes over the bytes (was seven);
-- source_csv.read_csv tells an empty file by str.isspace (no copy of the text by strip).
+- source_csv.read_csv tells an empty file by str.isspace (no copy of the text by strip);
+- case.member_lengths works the zero-length check a coordinate axis at a time.
 """
 
 from __future__ import annotations
@@ -13,6 +14,7 @@ import numpy as np
 from hypothesis import event, given, settings
 from hypothesis import strategies as st
 
+from verify.io.case import member_lengths
 from verify.io.cells import joined_spans
 from verify.io.claims.problems import Problems
 from verify.io.claims.resolution import _written_allowance, settle_rounding
@@ -138,3 +140,28 @@ def test_an_empty_claims_file_is_told_as_strip_told_it(text: str) -> None:
     read_csv(text.encode("utf-8"), problems)
     said_empty = any("the file is empty" in p.message for p in problems.items)
     assert said_empty == (not text.strip())
+
+
+COORDINATE = st.floats(-1e7, 1e7, allow_subnormal=False)
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    dim=st.sampled_from([2, 3]),
+    data=st.data(),
+)
+def test_member_lengths_equal_the_norm_of_the_differences(dim: int, data) -> None:
+    """case.member_lengths (the zero-length check of the case reader) against np.linalg.norm of
+    the end differences, bit for bit."""
+    joints = data.draw(st.integers(1, 12))
+    xyz = np.array(
+        data.draw(st.lists(st.tuples(*[COORDINATE] * dim), min_size=joints, max_size=joints))
+    ).reshape(joints, dim)
+    ends = np.array(
+        data.draw(st.lists(st.tuples(st.integers(0, joints - 1), st.integers(0, joints - 1)))),
+        dtype=np.int64,
+    ).reshape(-1, 2)
+    starts, stops = ends[:, 0], ends[:, 1]
+    found = member_lengths(xyz, starts, stops)
+    expected = np.linalg.norm(xyz[stops] - xyz[starts], axis=1)
+    assert found.view(np.int64).tolist() == expected.view(np.int64).tolist()
