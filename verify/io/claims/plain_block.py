@@ -150,11 +150,9 @@ def _split_block(
     delimiter = text[int(ends[0, 0])] if width > 1 else "\n"
     in_order = n <= len(member_ids)
     listed: list[str] = []
-    last = ends[:, -1].tolist()
-    begin_at = row_begin.tolist()
     for first in range(0, n, ROWS_AT_A_TIME):
         stop = min(first + ROWS_AT_A_TIME, n)
-        chunk = text[begin_at[first] : last[stop - 1]]
+        chunk = text[int(row_begin[first]) : int(ends[stop - 1, -1])]
         cells = (chunk.replace("\n", delimiter) if width > 1 else chunk).split(delimiter)
         del chunk
         try:
