@@ -2424,6 +2424,22 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
 
 
 # -- geometry -----------------------------------------------------------------------------------
+def pair_order_of(low: np.ndarray, high: np.ndarray) -> np.ndarray:
+    """np.lexsort((np.arange(n), high, low)): the rows by (low, high), ties in row order. For
+    joint numbers (0 <= low, high < 2^31) one stable sort of the key low * 2^31 + high gives the
+    same order as the lexicographic sort's passes over each key."""
+    if (
+        low.size
+        and int(low.min()) >= 0
+        and int(high.min()) >= 0
+        and max(int(low.max()), int(high.max())) < 2**31
+    ):
+        key = low.astype(np.int64) << 31
+        key |= high
+        return np.argsort(key, kind="stable")
+    return np.lexsort((np.arange(low.size), high, low))
+
+
 def member_lengths(xyz: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.ndarray:
     """np.linalg.norm(xyz[stops] - xyz[starts], axis=1), bit for bit (the squares summed in
     axis order, then the root), worked a column at a time: gathers from one axis's coordinates
@@ -2512,16 +2528,17 @@ def _check_geometry(
     # Two members on one joint pair: sort the (low, high) joint numbers and compare neighbours.
     keep = np.nonzero(~loops)[0]
     if keep.size:
-        distinct = [placed[k] for k in keep.tolist()] if loops.any() else placed
-        low, high = np.minimum(starts[keep], stops[keep]), np.maximum(starts[keep], stops[keep])
-        pair_order = np.lexsort((np.arange(len(distinct)), high, low))
-        same = (low[pair_order][1:] == low[pair_order][:-1]) & (
-            high[pair_order][1:] == high[pair_order][:-1]
-        )
+        any_loop = bool(loops.any())
+        distinct = [placed[k] for k in keep.tolist()] if any_loop else placed
+        ends_kept = (starts[keep], stops[keep]) if any_loop else (starts, stops)
+        low, high = np.minimum(*ends_kept), np.maximum(*ends_kept)
+        pair_order = pair_order_of(low, high)
+        low, high = low[pair_order], high[pair_order]
+        same = (low[1:] == low[:-1]) & (high[1:] == high[:-1])
         first_of: dict[tuple[int, int], str] = {}
         for k in np.nonzero(same)[0].tolist():
             earlier, later = distinct[int(pair_order[k])], distinct[int(pair_order[k + 1])]
-            key = (int(low[pair_order][k]), int(high[pair_order][k]))
+            key = (int(low[k]), int(high[k]))
             first = first_of.setdefault(key, earlier.id)
             ctx.add_at(
                 "member",

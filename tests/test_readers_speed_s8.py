@@ -5,7 +5,8 @@ inputs): the same results bit for bit.
   some (significant_figure_places None: nothing to widen), instead of np.maximum with zeros;
 - cells.joined_spans cuts a column in four passes over the bytes (was seven);
 - source_csv.read_csv tells an empty file by str.isspace (no copy of the text by strip);
-- case.member_lengths works the zero-length check a coordinate axis at a time.
+- case.member_lengths works the zero-length check a coordinate axis at a time;
+- case.pair_order_of sorts the members by joint pair on one key (was np.lexsort of three).
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ import numpy as np
 from hypothesis import event, given, settings
 from hypothesis import strategies as st
 
-from verify.io.case import member_lengths
+from verify.io.case import member_lengths, pair_order_of
 from verify.io.cells import joined_spans
 from verify.io.claims.problems import Problems
 from verify.io.claims.resolution import _written_allowance, settle_rounding
@@ -165,3 +166,22 @@ def test_member_lengths_equal_the_norm_of_the_differences(dim: int, data) -> Non
     found = member_lengths(xyz, starts, stops)
     expected = np.linalg.norm(xyz[stops] - xyz[starts], axis=1)
     assert found.view(np.int64).tolist() == expected.view(np.int64).tolist()
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    pairs=st.lists(
+        st.tuples(
+            st.one_of(st.integers(0, 6), st.integers(-(2**40), 2**40)),
+            st.one_of(st.integers(0, 6), st.integers(0, 2**32)),
+        ),
+        max_size=30,
+    )
+)
+def test_pair_order_equals_the_lexicographic_sort(pairs) -> None:
+    """case.pair_order_of (the repeated joint pair check) against np.lexsort of (low, high) with
+    ties in row order, for joint numbers and for numbers past its one-key range."""
+    low = np.array([p[0] for p in pairs], dtype=np.int64)
+    high = np.array([p[1] for p in pairs], dtype=np.int64)
+    expected = np.lexsort((np.arange(low.size), high, low))
+    assert pair_order_of(low, high).tolist() == expected.tolist()
