@@ -269,3 +269,32 @@ def test_did_you_mean_for_an_unknown_joint_follows_table_order(tmp_path: Path) -
     assert "names joint 'node', which is not defined. Did you mean 'node9' or 'node2'?" in (
         said.pop()
     )
+
+
+@pytest.mark.parametrize("note", ["forces from run 3", "see note 2) below", "checked;JB"])
+def test_a_short_note_row_under_the_table_is_no_claim(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, note: str
+) -> None:
+    """A note of one cell names no member and holds no number: no claim, not a finding."""
+    case, planted, _ = triangle(tmp_path, CLAIMS + note + "\n")
+    for route in ROUTES.values():
+        status, out, _ = check(monkeypatch, case, planted, **route)
+        assert status == 0 and "unknown-label" not in out
+
+
+@pytest.mark.parametrize("row", ["XY;-7.0711", "-7.0711", "R-A-y"])
+def test_a_short_row_holding_a_number_or_naming_a_reaction_is_reported(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, row: str
+) -> None:
+    case, planted, _ = triangle(tmp_path, CLAIMS + row + "\n")
+    status, out, _ = every_route_output(monkeypatch, case, planted)
+    assert status == 1
+    assert f"[error] unknown-label: '{row}' (row 5) of {planted} is a row of 1 cell" in out
+
+
+def every_route_output(
+    monkeypatch: pytest.MonkeyPatch, case: Path, claims: Path
+) -> tuple[int, str, str]:
+    found = {check(monkeypatch, case, claims, **route) for route in ROUTES.values()}
+    assert len(found) == 1, found
+    return found.pop()

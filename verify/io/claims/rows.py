@@ -13,7 +13,7 @@ import numpy as np
 
 from verify.errors import did_you_mean
 from verify.io.case import LABEL_MAX_CHARS
-from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
+from verify.io.claims.grid import FORCE_LIKE, Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.plain_block import in_range, read_plain_block
@@ -153,11 +153,21 @@ class RowReader:
             )
 
     def _short_row(self, r: int, row: list[Cell]) -> None:
-        """A CSV row with fewer cells than its table's columns need: reported on the row as an
-        unknown label (never read as a member without a claim)."""
+        """A CSV row with fewer cells than its table's columns need, when it reads as a claim (it
+        names a member or reaction, or holds a number, once split by any delimiter): reported on
+        the row as an unknown label, never read as a member without a claim. A note under the
+        table ('forces from run 3') is no claim and passes, as before."""
         delimiter = self.grid.delimiter
         texts = [cell_text(c) for c in row]
         others = [d for d in (",", ";", "\t", "|") if d != delimiter and any(d in t for t in texts)]
+        pieces = [t for t in texts if t]
+        for other in others:
+            pieces = [p.strip() for t in pieces for p in t.split(other) if p.strip()]
+        if not pieces or not (
+            self.matcher.names(pieces[0]) in ("member", "reaction")
+            or any(FORCE_LIKE.match(p) for p in pieces)
+        ):
+            return
         expected = (
             f"cells separated by '{quoted(delimiter or '')}' (this row has '{quoted(others[0])}')"
             if others
