@@ -373,7 +373,7 @@ def _labels(c: Comparison) -> None:
     # Unknown labels and columns.
     for u in claims.unmatched:
         hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
-        what = (
+        what = u.detail or (
             "matches several members"
             if u.reason == "ambiguous"
             else "is not a member or reaction of the model"

@@ -209,6 +209,7 @@ class _Ctx:
     exact_coords: dict[str, tuple[object, ...]] = field(default_factory=dict)
     exact_loads: dict[tuple[str, str], tuple[object, ...]] = field(default_factory=dict)
     conversions: list[str] = field(default_factory=list)
+    joints: Sequence[Joint] = ()  # as the joints table gives them (suggestions in its order)
 
     def add(self, message: str, *path: str, line: int | None = None) -> None:
         self.problems.add(message, line=line if line is not None else self.lines.line(*path))
@@ -324,6 +325,7 @@ def build_model(
         ctx.length_unit, ctx.force_unit = units.length.symbol, units.force.symbol
     _read_parameters(ctx, data.get("parameters"))
     joints = _read_joints(ctx, data.get("joints"), base)
+    ctx.joints = joints
     dim = _dimension(ctx, joints)
     bulk = ctx.bulk
     joint_ids = (
@@ -978,9 +980,17 @@ def _joint_ref(
             return jid
         if jid in ctx.declared_joints or ctx.joints_unreadable:
             return None  # defined but unusable, or the joints table unreadable: said once already
+        # The candidates in table order, not the set's (which changes from run to run): the
+        # same suggestions, in the same order, every time.
+        bulk_ids = ctx.bulk.joint_ids
+        in_bulk = bulk_ids is not None and len(bulk_ids) == len(ctx.joints)
+        order = bulk_ids if bulk_ids is not None and in_bulk else [j.id for j in ctx.joints]
+        candidates = [j for j in order if j in joint_ids]
+        if len(candidates) != len(joint_ids):
+            candidates = sorted(joint_ids)  # (ids not from this case's joints: still one order)
         message = (
             f"{what} names joint '{shown(jid)}', which is not "
-            f"defined.{did_you_mean(jid, joint_ids)}"
+            f"defined.{did_you_mean(jid, candidates)}"
         )
     else:
         message = f"{what}: expected a joint id, got {shown(value)}"
@@ -1526,6 +1536,16 @@ def _rational(number: float) -> Any:
     return sympy.Rational(repr(number))
 
 
+def _zero_or_blank(cell: str) -> bool:
+    """Whether a CSV cell is blank or the number zero."""
+    if not cell.strip():
+        return True
+    try:
+        return parse_number(cell) == 0
+    except ValueError:
+        return False
+
+
 def _fast_loads(
     ctx: _Ctx,
     cases: dict[str, dict[str, tuple[float, ...]]],
@@ -1533,10 +1553,14 @@ def _fast_loads(
     fixed_case: str | None,
     joint_ids: set[str],
     axes: tuple[str, ...],
+    unused: tuple[str, ...] = (),
 ) -> bool:
     """Add the rows of a clean loads frame to `cases` when every joint is known, no joint is
-    loaded twice in a case, every case name is a plain label and every load finite and within
-    LOAD_LIMIT; else add nothing and say False (the row-by-row reader words the problem)."""
+    loaded twice in a case, every case name is a plain label, every load finite and within
+    LOAD_LIMIT and every `unused` column (fz of a 2D case) zero where the table has it; else add
+    nothing and say False (the row-by-row reader words the problem)."""
+    if any(a in frame.columns and (frame[a].to_numpy() != 0).any() for a in unused):
+        return False
     import pandas as pd
 
     keys = frame["case"] if not fixed_case else None
@@ -1626,12 +1650,14 @@ def _plain_loads(
     cases: dict[str, dict[str, tuple[float, ...]]],
     fixed_case: str | None,
     axes: tuple[str, ...],
+    unused: tuple[str, ...] = (),
 ) -> bool:
     """A large plain loads table with joints known to the joints table read in bulk: the case
     and joint cells cut from its bytes (case_columns; the joints matched as numbers, the cases
     numbered by the same keys, a string made only for each case's name) and only the force
-    columns parsed by pandas. False, adding nothing, on anything else (the pandas reader or the
-    careful one then takes the table)."""
+    columns parsed by pandas (with each `unused` one the table has, which must be all zero).
+    False, adding nothing, on anything else (the pandas reader or the careful one then takes
+    the table)."""
     bulk = ctx.bulk
     if bulk.joint_ids is None or bulk.joint_index is None or bulk.xyz is None:
         return False
@@ -1661,11 +1687,12 @@ def _plain_loads(
         codes, names = table.numbered(table.names.index("case"))
     import pandas as pd
 
+    checked = tuple(a for a in unused if a in table.names)
     try:
         source = io.BytesIO(text.encode("ascii"))
         numbers = pd.read_csv(
             source,
-            usecols=[table.names.index(a) for a in axes],
+            usecols=[table.names.index(a) for a in axes + checked],
             keep_default_na=False,
             skip_blank_lines=False,
         )
@@ -1674,8 +1701,11 @@ def _plain_loads(
     if len(numbers) != table.rows or any(numbers[c].dtype.kind not in "iuf" for c in numbers):
         return False
     # The force columns in the order of `axes` (pandas keeps the table's order).
-    in_table = sorted(axes, key=table.names.index)
-    vectors = numbers.to_numpy(dtype=float)[:, [in_table.index(a) for a in axes]]
+    in_table = sorted(axes + checked, key=table.names.index)
+    found = numbers.to_numpy(dtype=float)
+    if checked and (found[:, [in_table.index(a) for a in checked]] != 0).any():
+        return False  # a z load in a 2D case: the careful reader refuses it by line
+    vectors = found[:, [in_table.index(a) for a in axes]]
     return _add_bulk_loads(ctx, cases, position, codes, names, fixed_case, vectors)
 
 
@@ -2266,11 +2296,16 @@ def _read_loads(
 
     def from_csv(name: str, where: tuple[str, ...], fixed_case: str | None) -> None:
         axes = ("fx", "fy", "fz")[: dim or 2]
+        # A 2D case's table may carry an fz column (an export of a 3D layout): zero or blank
+        # there, never a load that would be dropped.
+        unused = ("fz",) if dim == 2 else ()
         required = ("joint",) + axes + (() if fixed_case else ("case",))
-        if _plain_loads(ctx, base, name, where, cases, fixed_case, axes):
+        if _plain_loads(ctx, base, name, where, cases, fixed_case, axes, unused):
             return
-        found = _clean_frame(ctx, base, name, where, required, axes)
-        if found is not None and _fast_loads(ctx, cases, found[1], fixed_case, joint_ids, axes):
+        found = _clean_frame(ctx, base, name, where, required, axes + unused)
+        if found is not None and _fast_loads(
+            ctx, cases, found[1], fixed_case, joint_ids, axes, unused
+        ):
             return
         for file, line, row in _csv_rows(ctx, base, name, where, required):
             case = fixed_case or row["case"]
@@ -2280,6 +2315,17 @@ def _read_loads(
                 )  # says why, adds nothing
                 continue
             cases.setdefault(case, {})
+            if any(not _zero_or_blank(row.get(a, "")) for a in unused):
+                _say(
+                    ctx,
+                    f"load case '{case}' at joint {quoted(row['joint'])}: field fz holds "
+                    f"{quoted(row['fz'])}; expected 0 or a blank cell, as a 2D case has no z "
+                    "loads",
+                    where,
+                    file,
+                    line,
+                )
+                continue
             add(case, row["joint"], [row[a] for a in axes], where, file, line)
 
     if isinstance(table, str):
@@ -2378,6 +2424,40 @@ def _read_combinations(ctx: _Ctx, table: Any, case_names: list[str]) -> list[Com
 
 
 # -- geometry -----------------------------------------------------------------------------------
+def pair_order_of(low: np.ndarray, high: np.ndarray) -> np.ndarray:
+    """np.lexsort((np.arange(n), high, low)): the rows by (low, high), ties in row order. For
+    joint numbers (0 <= low, high < 2^31) one stable sort of the key low * 2^31 + high gives the
+    same order as the lexicographic sort's passes over each key."""
+    if (
+        low.size
+        and int(low.min()) >= 0
+        and int(high.min()) >= 0
+        and max(int(low.max()), int(high.max())) < 2**31
+    ):
+        key = low.astype(np.int64) << 31
+        key |= high
+        return np.argsort(key, kind="stable")
+    return np.lexsort((np.arange(low.size), high, low))
+
+
+def member_lengths(xyz: np.ndarray, starts: np.ndarray, stops: np.ndarray) -> np.ndarray:
+    """np.linalg.norm(xyz[stops] - xyz[starts], axis=1), bit for bit (the squares summed in
+    axis order, then the root), worked a column at a time: gathers from one axis's coordinates
+    and no sum along a short axis (half the time at 10^6 members)."""
+    squared: np.ndarray | None = None
+    for axis in range(xyz.shape[1]):
+        column = np.ascontiguousarray(xyz[:, axis])
+        delta = column[stops] - column[starts]
+        delta *= delta
+        if squared is None:
+            squared = delta
+        else:
+            squared += delta
+    if squared is None:
+        return np.zeros(len(starts))
+    return np.sqrt(squared, out=squared)
+
+
 def _check_geometry(
     ctx: _Ctx, joints: Sequence[Joint], members: Sequence[Member], dim: int | None
 ) -> None:
@@ -2425,7 +2505,7 @@ def _check_geometry(
         )
     loops = starts == stops
     if placed:
-        lengths = np.linalg.norm(xyz[stops] - xyz[starts], axis=1)
+        lengths = member_lengths(xyz, starts, stops)
         for n in np.nonzero(~(lengths > tol) & ~loops)[0]:
             m = placed[int(n)]
             ctx.add_at(
@@ -2448,16 +2528,17 @@ def _check_geometry(
     # Two members on one joint pair: sort the (low, high) joint numbers and compare neighbours.
     keep = np.nonzero(~loops)[0]
     if keep.size:
-        distinct = [placed[k] for k in keep.tolist()] if loops.any() else placed
-        low, high = np.minimum(starts[keep], stops[keep]), np.maximum(starts[keep], stops[keep])
-        pair_order = np.lexsort((np.arange(len(distinct)), high, low))
-        same = (low[pair_order][1:] == low[pair_order][:-1]) & (
-            high[pair_order][1:] == high[pair_order][:-1]
-        )
+        any_loop = bool(loops.any())
+        distinct = [placed[k] for k in keep.tolist()] if any_loop else placed
+        ends_kept = (starts[keep], stops[keep]) if any_loop else (starts, stops)
+        low, high = np.minimum(*ends_kept), np.maximum(*ends_kept)
+        pair_order = pair_order_of(low, high)
+        low, high = low[pair_order], high[pair_order]
+        same = (low[1:] == low[:-1]) & (high[1:] == high[:-1])
         first_of: dict[tuple[int, int], str] = {}
         for k in np.nonzero(same)[0].tolist():
             earlier, later = distinct[int(pair_order[k])], distinct[int(pair_order[k + 1])]
-            key = (int(low[pair_order][k]), int(high[pair_order][k]))
+            key = (int(low[k]), int(high[k]))
             first = first_of.setdefault(key, earlier.id)
             ctx.add_at(
                 "member",

@@ -16,7 +16,7 @@ import numpy as np
 
 from verify.io.claims.source_csv import PlainBlock
 from verify.io.claims.table import MemberIndex
-from verify.io.values import MAX_FORCE, MIN_FORCE
+from verify.io.values import MAX_FORCE, MAX_FORCE_CHARS, MIN_FORCE
 
 ROWS_AT_A_TIME = 8_192  # rows split into cells at a time (their strings held meanwhile)
 
@@ -27,13 +27,14 @@ def in_range(value: np.ndarray) -> np.ndarray:
     return np.isfinite(size) & ((size == 0) | ((size >= MIN_FORCE) & (size <= MAX_FORCE)))
 
 
-def _number_bytes(raw: np.ndarray) -> np.ndarray:
+def _number_bytes(raw: np.ndarray, is_e: np.ndarray) -> np.ndarray:
     """Where `raw` holds one of '+,-./0123456789eE' (a plain number's bytes, and two that
     float() refuses in any text), with one False more (the place past the text a last cell may
-    end at). By comparisons: a table lookup per byte costs about ten of them."""
+    end at); `is_e` where it holds 'e' or 'E'. By comparisons: a table lookup per byte costs
+    about ten of them."""
     out = np.zeros(raw.size + 1, dtype=bool)
     np.less(raw - np.uint8(ord("+")), ord("9") - ord("+") + 1, out=out[:-1])
-    out[:-1] |= (raw | np.uint8(32)) == ord("e")
+    out[:-1] |= is_e
     return out
 
 
@@ -77,15 +78,20 @@ def read_plain_block(
     end = np.column_stack([stops_of[j] for j in order]).ravel()
     if not bool((end > begin).all()):
         return None
+    if int((end - begin).max()) > MAX_FORCE_CHARS:
+        return None  # a cell read_force_cell refuses (the column route leaves it to it)
     bounds = np.empty(2 * begin.size, dtype=np.int64)
     bounds[0::2], bounds[1::2] = begin, end
     # Only number bytes in a cell: each cell's bytes, and what lies between, reduced at once.
-    if not np.logical_and.reduceat(_number_bytes(raw), bounds)[0::2].all():
+    # (The exponents' places found once, for this and for the marks below.)
+    is_e = (raw | np.uint8(32)) == ord("e")
+    if not np.logical_and.reduceat(_number_bytes(raw, is_e), bounds)[0::2].all():
         return None
     low, high = int(begin[0]), int(end[-1])
-    area = raw[low:high]
-    marked = np.flatnonzero((area == ord(".")) | ((area | np.uint8(32)) == ord("e"))) + low
-    del area
+    marks = is_e[low:high]
+    marks |= raw[low:high] == ord(".")
+    marked = np.flatnonzero(marks) + low
+    del is_e, marks
     cell = np.minimum(np.searchsorted(end, marked), end.size - 1)
     inside = begin[cell] <= marked  # (not a label's letter between value cells)
     cell, marked = cell[inside], marked[inside]
@@ -144,11 +150,9 @@ def _split_block(
     delimiter = text[int(ends[0, 0])] if width > 1 else "\n"
     in_order = n <= len(member_ids)
     listed: list[str] = []
-    last = ends[:, -1].tolist()
-    begin_at = row_begin.tolist()
     for first in range(0, n, ROWS_AT_A_TIME):
         stop = min(first + ROWS_AT_A_TIME, n)
-        chunk = text[begin_at[first] : last[stop - 1]]
+        chunk = text[int(row_begin[first]) : int(ends[stop - 1, -1])]
         cells = (chunk.replace("\n", delimiter) if width > 1 else chunk).split(delimiter)
         del chunk
         try:

@@ -18,7 +18,7 @@ from verify.io.claims.rounding import (
     MAX_DECIMALS,
     rounding_allowances,
     shown_decimals,
-    significant_figure_allowances,
+    significant_figure_places,
 )
 from verify.io.claims.table import ClaimArrays, ClaimedValue, Resolution
 from verify.units import Dimension, Unit, factor, lookup_unit
@@ -127,9 +127,11 @@ def settle_rounding(
         picked = (column == k) & is_member
         if not picked.any():
             continue
-        rounding[picked] = np.maximum(
-            rounding[picked], significant_figure_allowances(value[picked], 1.0)
-        )
+        # Nothing to widen (most columns): no merge, which would leave every allowance as it is
+        # (all are >= 0 or nan, and np.maximum with 0 keeps those).
+        places = significant_figure_places(value[picked])
+        if places is not None:
+            rounding[picked] = np.maximum(rounding[picked], places * 1.0 * 1.0001)
         if name in steps:
             rounding[picked] = np.maximum(rounding[picked], 0.5 * steps[name] * 1.0001)
     return rounding

@@ -100,10 +100,19 @@ def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray | f
     last-decimal allowance applies). In the case's units, like rounding_allowances.
     """
     values = np.asarray(raw_values, dtype=float)
-    out = np.zeros(values.shape)
+    out = significant_figure_places(values)
+    if out is None:
+        out = np.zeros(values.shape)
+    return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
+
+
+def significant_figure_places(values: np.ndarray) -> np.ndarray | None:
+    """significant_figure_allowances before its unit and margin (half a unit of each value's
+    last significant figure where it is widened, else zero); None where every value's is zero
+    (the column is not written to 2 or 3 significant figures), so a caller need not merge it."""
     nonzero = np.isfinite(values) & (values != 0)
     if nonzero.sum() < SIGNIFICANT_MIN_VALUES:
-        return out
+        return None
     picked = values[nonzero]
     # The most figures of any value: a first thousand already past SIGNIFICANT_MAX settles the
     # answer below (the maximum of all is at least theirs), without counting every value.
@@ -111,18 +120,19 @@ def significant_figure_allowances(raw_values: np.ndarray, scales: np.ndarray | f
     if figures <= SIGNIFICANT_MAX and picked.size > 1000:
         figures = int(significant_digits_many(picked).max())
     if not SIGNIFICANT_MIN <= figures <= SIGNIFICANT_MAX:
-        return out
+        return None
     magnitude = np.floor(np.log10(np.abs(values[nonzero])))  # 140 -> 2
     place = magnitude - (
         figures - 1
     )  # the place of the last significant figure: 140 at 2 figures -> 1
     widened = place > 0
     if widened.sum() < SIGNIFICANT_WIDENED_MIN:
-        return out  # too few whole numbers past the figures to show the column was rounded so
+        return None  # too few whole numbers past the figures to show the column was rounded so
     # A power of ten (100 at 2 figures) stands for 99.5 to 105; the symmetric allowance (+-5)
     # also admits 95 to 99.5, within the precision the column itself shows (150 covers +-3 %).
+    out = np.zeros(values.shape)
     out[nonzero] = np.where(widened, 0.5 * 10.0**place, 0.0)
-    return out * np.abs(np.asarray(scales, dtype=float)) * 1.0001
+    return out
 
 
 _DECIMAL_TOKEN = re.compile(r"(\d+)\.(\d+)")

@@ -12,7 +12,8 @@ from typing import Any, cast
 import numpy as np
 
 from verify.errors import did_you_mean
-from verify.io.claims.grid import Cell, Grid, Unusable, blank, cell_text
+from verify.io.case import LABEL_MAX_CHARS
+from verify.io.claims.grid import FORCE_LIKE, Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
 from verify.io.claims.plain_block import in_range, read_plain_block
@@ -31,13 +32,16 @@ from verify.io.claims.table import (
     compact_ints,
 )
 from verify.io.values import (
+    MAX_FORCE_CHARS,
     PLAIN_NUMBER,
     is_nan_text,
     read_force_cell,
 )
 from verify.units import Dimension, Unit, lookup_unit
 
-MAX_NAME_CHARS = 100  # member labels and case names; longer text is a note, not a name
+# Member labels and case names; longer text is a note, not a name. The case file's own limit, so
+# that every member id a case file takes can be named in a claims table.
+MAX_NAME_CHARS = LABEL_MAX_CHARS
 
 
 def refuse_name(text: str, what: str) -> str | None:
@@ -87,12 +91,18 @@ class RowReader:
         self.value_rows: list[int] = []  # the grid row of each entry of `values`
         self.header_row = layout.header_row
         self.pair = layout.pair
+        # The cells a claim needs: a CSV row shorter than this lost some (a missing last cell,
+        # or a row separated by another character), which must not pass for "no claim".
+        needed = [self.member_h.index] + [v.index for v in self.columns]
+        self.needed = max(needed + ([self.pair[1]] if self.pair is not None else [])) + 1
 
     def read_row(self, r: int) -> None:
         grid = self.grid
         row = grid.rows[r]
         if all(blank(c) for c in row):
             return
+        if len(row) < self.needed and grid.delimiter is not None:
+            self._short_row(r, row)
         label_cell = grid.cell(r, self.member_h.index)
         where_label = grid.where(r, self.member_h.index, self.member_h.text)
         present = [v for v in self.columns if not blank(grid.cell(r, v.index))]
@@ -141,6 +151,35 @@ class RowReader:
                 tc,
                 row_unit,
             )
+
+    def _short_row(self, r: int, row: list[Cell]) -> None:
+        """A CSV row with fewer cells than its table's columns need, when it reads as a claim (it
+        names a member or reaction, or holds a number, once split by any delimiter): reported on
+        the row as an unknown label, never read as a member without a claim. A note under the
+        table ('forces from run 3') is no claim and passes, as before."""
+        delimiter = self.grid.delimiter
+        texts = [cell_text(c) for c in row]
+        others = [d for d in (",", ";", "\t", "|") if d != delimiter and any(d in t for t in texts)]
+        pieces = [t for t in texts if t]
+        for other in others:
+            pieces = [p.strip() for t in pieces for p in t.split(other) if p.strip()]
+        if not pieces or not (
+            self.matcher.names(pieces[0]) in ("member", "reaction")
+            or any(FORCE_LIKE.match(p) for p in pieces)
+        ):
+            return
+        expected = (
+            f"cells separated by '{quoted(delimiter or '')}' (this row has '{quoted(others[0])}')"
+            if others
+            else "a cell under every heading (an empty one where there is no claim)"
+        )
+        cells = f"{len(row)} cell{'s' if len(row) != 1 else ''}"
+        detail = (
+            f"of {self.problems.file} is a row of {cells} where the table's columns need "
+            f"{self.needed}; expected {expected}; its missing cells give no claim"
+        )
+        label = quoted(next((t for t in texts if t), ""))
+        self.unmatched.append(UnmatchedLabel(label, self.grid.row_ref(r), "short-row", (), detail))
 
     def _case_of_row(self, r: int) -> str | None:
         if self.case_h is None:
@@ -472,14 +511,18 @@ def _plain_cells(
     if whole is not None:
         value, decimals, joined, ends = whole
         spans = (joined, ends)
-        plain = np.ones(n, dtype=bool)
+        # A cell past MAX_FORCE_CHARS is refused by read_force_cell: the general reader words it.
+        plain = np.diff(ends, prepend=-1) - 1 <= MAX_FORCE_CHARS
         at = np.arange(n)
     else:
         decimals = None
         fullmatch = PLAIN_NUMBER.fullmatch
         plain = np.fromiter(
             (
-                type(c) is str and fullmatch(c) is not None and not (decimal_comma and "." in c)
+                type(c) is str
+                and len(c) <= MAX_FORCE_CHARS
+                and fullmatch(c) is not None
+                and not (decimal_comma and "." in c)
                 for c in cells
             ),
             dtype=bool,
@@ -517,6 +560,20 @@ def _take(items: list[Cell], at: list[int]) -> list[Cell]:
     if len(at) > 1:
         return list(itemgetter(*at)(items))
     return [items[i] for i in at]
+
+
+def _label_widths(labels: list[Cell] | str) -> np.ndarray:
+    """The characters of each label (0 for a cell that is not text), from the labels or their
+    text joined by line breaks."""
+    if isinstance(labels, str):
+        if labels.isascii():
+            raw = np.frombuffer(labels.encode("ascii"), dtype=np.uint8)
+            breaks = np.flatnonzero(raw == ord("\n"))
+            return np.diff(breaks, prepend=-1, append=len(labels)) - 1
+        labels = _cells_of_text(labels)
+    return np.fromiter(
+        (len(c) if type(c) is str else 0 for c in labels), dtype=np.int64, count=len(labels)
+    )
 
 
 def read_bulk(
@@ -585,6 +642,13 @@ def read_bulk(
         def labels_of() -> list[Cell]:
             return _cells_of_text(cast(str, first))
 
+    # A label past MAX_NAME_CHARS (a model built in memory may hold such an id) is refused by
+    # the general reader, which words it: its row goes there.
+    if block is not None and from_block is not None:
+        widths = block.ends[:, label_at] - block.begins(label_at)
+    else:
+        widths = _label_widths(cells_of[0])
+    ok &= widths <= MAX_NAME_CHARS
     # A member named on another row too (by the same id or another spelling) is left to the
     # general reader with all its rows, so duplicates are found and worded in table order.
     others = np.flatnonzero(~ok)
@@ -597,7 +661,8 @@ def read_bulk(
         assert labels is not None
         cell = labels[i]
         label_text = cell if type(cell) is str else cell_text(cell)
-        if label_text:
+        if label_text and refuse_name(label_text, "member label") is None:
+            # (a refused label names no member: the patterns never run over a long cell)
             found = match(label_text)
             if found.kind == "member" and found.member is not None:
                 named[i] = member_ids.get_loc(found.member)

@@ -81,7 +81,7 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
             "the file contains NUL bytes, so it is not CSV text; export the table as CSV or .xlsx"
         )
         return None
-    if not text.strip():
+    if text.isspace() or not text:  # (as `not text.strip()`, without a copy of the text)
         problems.add(
             "the file is empty; expected a header row such as 'Member,dead (kN)' and one row per "
             "member"

@@ -1,0 +1,300 @@
+"""Hostile input the fast readers took while the careful ones refused it (or the other way), and
+input read silently as something else. Each test plants the messy input, says what must come of
+it (exit status 2 and one message naming file, row or line, field and what was expected; or a
+warning naming the row), and checks that the honest table of the same truss still agrees.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+from test_hostile_input import (
+    CLAIMS,
+    JOINTS_CSV,
+    LOADS_CSV,
+    MEMBERS_CSV,
+    TABLED,
+    TRIANGLE,
+    folder,
+)
+
+from verify.cli import main
+from verify.io import case as case_module
+from verify.io import claims as claims_module
+from verify.io.claims import rows as rows_module
+from verify.io.claims import source_csv
+
+ROUTES = {
+    "fast": dict(fast=True, shortcuts=True),
+    "columns": dict(fast=True, shortcuts=False),
+    "general": dict(fast=False, shortcuts=False),
+}
+
+
+def check(
+    monkeypatch: pytest.MonkeyPatch, case: Path, claims: Path, *, fast: bool, shortcuts: bool
+) -> tuple[int, str, str]:
+    """`check` of a case and claims by one route of the claims reader: the fast plain rows
+    (read from the cells' places, or from columns cut from the text) or the general reader."""
+    with monkeypatch.context() as patch:
+        patch.setattr(claims_module, "FAST_ROWS", fast)
+        patch.setattr(rows_module, "PLAIN_BLOCKS", shortcuts)
+        patch.setattr(source_csv, "PLAIN_BYTES", shortcuts)
+        result = CliRunner().invoke(main, ["check", str(case), "--claims", str(claims)])
+    if result.exception and not isinstance(result.exception, SystemExit):
+        raise result.exception
+    return result.exit_code, result.stdout, result.stderr
+
+
+def every_route(monkeypatch: pytest.MonkeyPatch, case: Path, claims: Path) -> tuple[int, str]:
+    """The exit status and message of `check`, the same by every route of the claims reader."""
+    found = {name: check(monkeypatch, case, claims, **route)[::2] for name, route in ROUTES.items()}
+    assert len(set(found.values())) == 1, found
+    return found["general"]
+
+
+def triangle(tmp_path: Path, claims: str, case: str = TRIANGLE) -> tuple[Path, Path, Path]:
+    """The triangle case, the planted claims and its honest claims."""
+    folder(tmp_path, {"case.toml": case, "claims.csv": claims, "honest.csv": CLAIMS})
+    return tmp_path / "case.toml", tmp_path / "claims.csv", tmp_path / "honest.csv"
+
+
+# -- 1. a long force cell or member label: the same answer by every route ------------------------
+
+LONG_NUMBER = "-7.07106781186547524400844362104849039284835937688474036588339868995366"
+
+
+def test_a_plain_number_past_the_force_cell_limit_is_refused_by_every_route(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A force cell longer than 64 characters is refused by the careful reader (no force cell is
+    that long); the fast routes took it when it was a plain number."""
+    assert len(LONG_NUMBER) > 64 and float(LONG_NUMBER) == pytest.approx(-7.0711, abs=1e-4)
+    case, planted, honest = triangle(tmp_path, CLAIMS.replace("-7.0711", LONG_NUMBER, 1))
+    status, message = every_route(monkeypatch, case, planted)
+    assert status == 2
+    assert message.startswith(f"{planted} row 3, column 'dead (kN)': force '-7.0710678")
+    assert f"is {len(LONG_NUMBER)} characters long (limit 64)" in message
+    assert "Traceback" not in message
+    assert every_route(monkeypatch, case, honest) == (0, "")
+
+
+def test_a_member_id_the_case_file_takes_can_be_named_in_a_claims_table(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A member id of 150 characters is within the case file's limit (200): every route reads a
+    claim naming it (the general reader refused labels past 100, the fast routes took them)."""
+    long_id = "chord-" + "A" * 144
+    case_text = TRIANGLE.replace('AB = ["A", "B"]', f'"{long_id}" = ["A", "B"]')
+    claims = CLAIMS.replace("AB,", f"{long_id},")
+    case, planted, honest = triangle(tmp_path, claims, case_text)
+    status, message = every_route(monkeypatch, case, planted)
+    assert (status, message) == (0, "")
+    assert every_route(monkeypatch, case, honest)[0] == 0  # (its AB row names no member)
+    assert rows_module.MAX_NAME_CHARS == 200
+
+
+def test_a_label_past_the_name_limit_is_refused_by_every_route(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A model built in memory may hold an id longer than labels may be: the fast routes send
+    its row to the general reader, which words it (here the limit is lowered to 1 to plant it)."""
+    case, planted, honest = triangle(tmp_path, CLAIMS)
+    monkeypatch.setattr(rows_module, "MAX_NAME_CHARS", 1)
+    status, message = every_route(monkeypatch, case, planted)
+    assert status == 2
+    assert message.startswith("3 problems found in the input:\n")
+    assert f"{planted} row 2, column 'member': the member label 'AB' is 2" in message
+    assert message.count("characters long (limit 1)") == 3
+    monkeypatch.undo()
+    assert every_route(monkeypatch, case, honest) == (0, "")
+
+
+# -- 2. a z load in a 2D case's loads table: refused, not dropped --------------------------------
+
+
+def tabled_triangle(tmp_path: Path, loads: str) -> Path:
+    files = {
+        "case.toml": TABLED,
+        "joints.csv": JOINTS_CSV,
+        "members.csv": MEMBERS_CSV,
+        "loads.csv": loads,
+        "claims.csv": CLAIMS,
+    }
+    folder(tmp_path, files)
+    return tmp_path / "case.toml"
+
+
+def check_case(
+    monkeypatch: pytest.MonkeyPatch, case: Path, *, bulk: bool
+) -> tuple[int, str, list[str]]:
+    """`check` of the triangle's claims with the case's tables read by the careful reader, or
+    (`bulk`) by the bulk readers however small the table; and which bulk loads reader took it."""
+    took: list[str] = []
+    with monkeypatch.context() as patch:
+        patch.setattr(case_module, "BULK_MIN_ROWS", 0 if bulk else 10**9)
+        for name in ("_plain_loads", "_fast_loads"):
+            reader = getattr(case_module, name)
+
+            def spy(*args, _reader=reader, _name=name, **kwargs):
+                found = _reader(*args, **kwargs)
+                if found:
+                    took.append(_name)
+                return found
+
+            patch.setattr(case_module, name, spy)
+        result = CliRunner().invoke(
+            main, ["check", str(case), "--claims", str(case.parent / "claims.csv")]
+        )
+    if result.exception and not isinstance(result.exception, SystemExit):
+        raise result.exception
+    return result.exit_code, result.stderr, took
+
+
+@pytest.mark.parametrize("bulk", [False, True])
+@pytest.mark.parametrize("fz", ["5", "-0.001", "1e-9", "x"])
+def test_a_z_load_in_a_2d_loads_table_is_refused_with_its_line(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, bulk: bool, fz: str
+) -> None:
+    """fz of a 2D case was dropped silently (only fx and fy read) by every loads reader."""
+    loads = f"case,joint,fx,fy,fz\ndead,A,0,0,0\ndead,C,0,-10,{fz}\n"
+    status, message, _ = check_case(monkeypatch, tabled_triangle(tmp_path, loads), bulk=bulk)
+    assert status == 2
+    assert message == (
+        f"{tmp_path / 'loads.csv'}:3: load case 'dead' at joint 'C': field fz holds '{fz}'; "
+        "expected 0 or a blank cell, as a 2D case has no z loads\n"
+    )
+
+
+@pytest.mark.parametrize("bulk", [False, True])
+@pytest.mark.parametrize("fz", ["0", "0.0", "-0", ""])
+def test_a_2d_loads_table_with_zero_or_blank_fz_is_read(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, bulk: bool, fz: str
+) -> None:
+    loads = f"case,joint,fx,fy,fz\ndead,C,0,-10,{fz}\n"
+    status, message, took = check_case(monkeypatch, tabled_triangle(tmp_path, loads), bulk=bulk)
+    assert (status, message) == (0, "")
+    # (the bulk readers take a table of numbers; a blank cell is the careful reader's)
+    assert bool(took) == (bulk and fz != "")
+    honest = check_case(monkeypatch, tabled_triangle(tmp_path / "honest", LOADS_CSV), bulk=bulk)
+    assert honest[:2] == (0, "")
+
+
+# -- 3. a row that lost cells: reported on the row, never "no claim" -----------------------------
+
+
+@pytest.mark.parametrize(
+    ("row", "expected"),
+    [
+        ("AC;-7.0711", "cells separated by ',' (this row has ';')"),
+        ("AC", "a cell under every heading (an empty one where there is no claim)"),
+    ],
+)
+def test_a_claims_row_short_of_cells_is_reported_on_its_row(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, row: str, expected: str
+) -> None:
+    """A row separated by ';' in a ',' table, or missing its last cell, was read as a member
+    without a claim (an info line only) and the verdict was AGREES."""
+    case, planted, honest = triangle(tmp_path, CLAIMS.replace("AC,-7.0711", row))
+    outputs = set()
+    for route in ROUTES.values():
+        status, out, err = check(monkeypatch, case, planted, **route)
+        outputs.add((status, out, err))
+    assert len(outputs) == 1
+    status, out, err = outputs.pop()
+    assert (status, err) == (1, "")
+    assert out.startswith("DISCREPANCIES")
+    label = row.split(",")[0]
+    assert (
+        f"[error] unknown-label: '{label}' (row 3) of {planted} is a row of 1 cell where the "
+        f"table's columns need 2; expected {expected}; its missing cells give no claim"
+    ) in out
+    result = CliRunner().invoke(main, ["check", str(case), "--claims", str(planted), "--json"])
+    report = json.loads(result.stdout)
+    found = [f for f in report["findings"] if f["kind"] == "unknown-label"]
+    assert [f["members"] for f in found] == [[label]]
+    member = {(m["id"], m["status"]) for m in report["members"]}
+    assert ("AC", "agrees") not in member
+    assert check(monkeypatch, case, honest, **ROUTES["fast"])[0] == 0
+
+
+def test_a_row_with_an_empty_last_cell_is_still_no_claim(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """'AC,' writes every cell (the last one empty): a member listed without a claim, as before."""
+    case, planted, _ = triangle(tmp_path, CLAIMS.replace("AC,-7.0711", "AC,"))
+    status, out, _ = check(monkeypatch, case, planted, **ROUTES["fast"])
+    assert status == 0 and "unknown-label" not in out
+    assert "[info] missing-claim: 'dead': no claim for 1 of 3 members (AC)" in out
+
+
+# -- 4. "did you mean" for an unknown joint: the same words every run ---------------------------
+
+NODES = ("node9", "node2", "node7", "node1", "node5", "node3", "node8", "node4", "node6")
+NODE_CASE = (
+    'title = "nodes"\n[units]\nlength = "m"\nforce = "kN"\n[joints]\n'
+    + "".join(f"{j} = [{k}.0, {k % 2}.0]\n" for k, j in enumerate(NODES))
+    + '[members]\nM1 = ["node", "node2"]\n[supports]\nnode9 = ["x", "y"]\nnode2 = ["y"]\n'
+    + "[loads.dead]\nnode7 = [0.0, -1.0]\n"
+)
+READ = (
+    "import sys\nfrom verify.errors import InputError\nfrom verify.io.case import read_case\n"
+    "try:\n    read_case(sys.argv[1])\nexcept InputError as error:\n    print(error.render())\n"
+)
+
+
+def test_did_you_mean_for_an_unknown_joint_follows_table_order(tmp_path: Path) -> None:
+    """Every joint contains 'node': the suggestions tie, and were taken from a set, whose order
+    changes with the hash seed from run to run. Now the first two in the joints table."""
+    folder(tmp_path, {"case.toml": NODE_CASE})
+    said = set()
+    for seed in ("0", "1", "2", "3", "4", "5", "6", "7"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        done = subprocess.run(
+            [sys.executable, "-c", READ, str(tmp_path / "case.toml")],
+            capture_output=True,
+            text=True,
+            env=env,
+            cwd=Path(__file__).parent.parent,
+            check=True,
+        )
+        said.add(done.stdout)
+    assert len(said) == 1, said
+    assert "names joint 'node', which is not defined. Did you mean 'node9' or 'node2'?" in (
+        said.pop()
+    )
+
+
+@pytest.mark.parametrize("note", ["forces from run 3", "see note 2) below", "checked;JB"])
+def test_a_short_note_row_under_the_table_is_no_claim(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, note: str
+) -> None:
+    """A note of one cell names no member and holds no number: no claim, not a finding."""
+    case, planted, _ = triangle(tmp_path, CLAIMS + note + "\n")
+    for route in ROUTES.values():
+        status, out, _ = check(monkeypatch, case, planted, **route)
+        assert status == 0 and "unknown-label" not in out
+
+
+@pytest.mark.parametrize("row", ["XY;-7.0711", "-7.0711", "R-A-y"])
+def test_a_short_row_holding_a_number_or_naming_a_reaction_is_reported(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, row: str
+) -> None:
+    case, planted, _ = triangle(tmp_path, CLAIMS + row + "\n")
+    status, out, _ = every_route_output(monkeypatch, case, planted)
+    assert status == 1
+    assert f"[error] unknown-label: '{row}' (row 5) of {planted} is a row of 1 cell" in out
+
+
+def every_route_output(
+    monkeypatch: pytest.MonkeyPatch, case: Path, claims: Path
+) -> tuple[int, str, str]:
+    found = {check(monkeypatch, case, claims, **route) for route in ROUTES.values()}
+    assert len(found) == 1, found
+    return found.pop()
