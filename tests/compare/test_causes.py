@@ -938,3 +938,21 @@ def test_self_weight_is_read_from_a_table_of_the_combination_alone():
     claims = claims_of(variant, columns=["ULS"])
     (cause,) = causes(review_of(bridge(), claims))
     assert "'dead' loads with 1.5 kN more downward at each joint at y = 0 m" in cause.variant
+
+
+def test_compression_positive_table_with_self_weight_added_reads_the_convention_first():
+    """Written compression positive, and the dead load carries self-weight the case leaves out:
+    under half the table agrees either way, but the traffic column agrees whole once reversed.
+    The convention is the table's, so the cause is the added load, not every column 'reversed'."""
+    variant = bridge()
+    for i in range(PANELS + 1):
+        variant["loads"]["dead"][f"L{i}"] = [0.0, -(DEAD_BOTTOM if 0 < i < PANELS else 0.0) - 1.5]
+    claims = claims_of(variant)
+    flipped = {c: {m: -v for m, v in column.items()} for c, column in claims.items()}
+    review = review_of(bridge(), flipped)
+    assert review.convention.sign == "compression-positive"
+    (cause,) = causes(review)
+    assert "'dead' loads with 1.5 kN more downward at each joint at y = 0 m" in cause.variant
+    # the honest table written compression positive agrees, the convention said as information
+    honest = {c: {m: -v for m, v in column.items()} for c, column in claims_of(bridge()).items()}
+    assert review_of(bridge(), honest).verdict is Verdict.AGREES

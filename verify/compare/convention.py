@@ -179,6 +179,45 @@ class _RatioScreen:
         return np.concatenate(found)
 
 
+WHOLE_COLUMN = 0.9  # a column read reversed "agrees whole" when this share of it agrees
+
+
+def columns_reversed(
+    claimed: np.ndarray,
+    fixed: np.ndarray,
+    computed: np.ndarray,
+    rtol: float,
+    atol: np.ndarray,
+    rounding: np.ndarray,
+    column: np.ndarray,
+    *,
+    min_claims: int,
+) -> Fit | None:
+    """The table read with every sign reversed, when whole columns say so and none says the
+    opposite: some column of at least `min_claims` informative claims agrees (WHOLE_COLUMN of it)
+    only reversed, and no column agrees as read for half its claims. A sign convention is the
+    table's, so one load column computed from the same model (snow, wind) settles it even when
+    another column (a dead load with self-weight added) agrees neither way; the half-of-the-table
+    rule (MIN_SHARE) cannot see it. None when the columns do not say so."""
+    informative = (np.abs(computed) > atol) & (claimed != 0)
+    reversed_whole = False
+    agree = 0
+    for k in np.unique(column[informative]).tolist():
+        at = informative & (column == k)
+        n = int(at.sum())
+        counts = _counts_by_sign(
+            claimed[at], fixed[at], computed[at], rtol, atol[at], rounding[at], 1.0
+        )
+        if counts[1] >= MIN_SHARE * n:
+            return None  # a column agrees as read
+        if n >= min_claims and counts[-1] >= WHOLE_COLUMN * n:
+            reversed_whole = True
+        agree += counts[-1]
+    if not reversed_whole:
+        return None
+    return Fit(-1, 1.0, agree, int(informative.sum()))
+
+
 def best_fit(
     claimed: np.ndarray,
     fixed: np.ndarray,

@@ -48,6 +48,7 @@ from verify.compare.convention import (
     MIN_SHARE,
     Fit,
     best_fit,
+    columns_reversed,
     describe_factor,
     force_unit_for,
     matching_factor,
@@ -816,6 +817,21 @@ def _table_convention(c: Comparison) -> None:
         table_level = (
             n >= MIN_MEMBERS_FOR_TABLE and best.share >= MIN_SHARE and best.agree > identity.agree
         )
+        if not table_level and n >= MIN_MEMBERS_FOR_TABLE and not all_fixed:
+            # Under half the table agrees either way, but whole load columns agree reversed:
+            # the table's convention, with other columns off for reasons of their own.
+            by_columns = columns_reversed(
+                vals,
+                fixed,
+                comp,
+                tol.rtol,
+                atol_arr,
+                rounding_unit[idx],
+                c.arrays.column[idx],
+                min_claims=MIN_MEMBERS_FOR_TABLE,
+            )
+            if by_columns is not None and by_columns.agree > identity.agree:
+                best, table_level = by_columns, True
         if table_level:
             table_level = _balances_as_well(
                 c, idx, np.where(fixed, 1.0, float(stated_sign)), best.sign, best.factor
