@@ -215,9 +215,11 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
             last = close
             slots.append(between)
         m, width = stop - start, len(slots)
-        flat: list[str] = [between] * (m * width)
+        # every row's fixed texts laid down at once (a repeated list), then each column's texts
+        flat = [slot if isinstance(slot, str) else "" for slot in slots] * m
         for j, slot in enumerate(slots):
-            flat[j::width] = [slot] * m if isinstance(slot, str) else slot
+            if not isinstance(slot, str):
+                flat[j::width] = slot
         flat[-1] = last
         yield ("[" if start == 0 else ",") + inner + "".join(flat)
     yield "\n" + INDENT * level + "]"
