@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from test_compare_scale_rows import WORDS, row_columns
+from test_compare_scale_rows import WORDS, row_columns, same
 
 NAMES = ("id", "kind", "case", "status")
 
@@ -39,3 +39,21 @@ def test_words_kept_until_a_row_is_set(made, data) -> None:
             rows.set_status(i, status)
             tuples[i] = tuples[i]._replace(status=status)
         read_as_tuples(rows, tuples)
+
+
+@settings(max_examples=80, deadline=None)
+@given(row_columns(), st.data())
+def test_take_reads_column_by_column_what_indexing_gives(made, data) -> None:
+    """Rows.take against the row by row indexing it replaced, after rows are set (a written
+    text set anew among them), with positions repeated, unsorted and negative."""
+    tuples, rows = made
+    if not tuples:
+        assert rows.take([]) == []
+        return
+    for _ in range(data.draw(st.integers(0, 3))):
+        i, other = (data.draw(st.integers(0, len(tuples) - 1)) for _ in range(2))
+        rows[i] = tuples[other]._replace(written=data.draw(st.text(max_size=5)))
+    n = len(tuples)
+    positions = data.draw(st.lists(st.integers(-n, n - 1), max_size=12))
+    taken = rows.take(positions)
+    assert all(same(a, rows[i]) for a, i in zip(taken, positions, strict=True))
