@@ -1,6 +1,7 @@
 """The statuses a large report draws (diagram.RowStatuses, read from the rows' codes) against the
 dict of every member they replace (document.member_statuses below ROW_STATUSES_FROM): the same
-mapping, the same categories used, the same flagged members drawn."""
+mapping, the same categories used, the same flagged members drawn; and the load columns found
+in the order of their first rows (document.first_seen) against dict.fromkeys."""
 
 from __future__ import annotations
 
@@ -85,3 +86,12 @@ def test_member_statuses_by_codes_are_those_of_the_dict(drawn) -> None:
         assert isinstance(as_dict, dict)
         assert isinstance(by_codes, RowStatuses) == bool(grouped.members[name].size)
         assert dict(by_codes.items()) == as_dict
+
+
+@given(st.lists(st.integers(0, 70), max_size=60), st.integers(0, 80))
+def test_first_seen_is_dict_fromkeys(codes: list[int], extra: int) -> None:
+    """The load columns of a report in the order of their first rows, as dict.fromkeys gives
+    them, below and above the count where the scan gives way to the dict."""
+    array_ = np.array(codes, dtype=np.int64)
+    count = max(codes, default=-1) + 1 + extra
+    assert document.first_seen(array_, count) == list(dict.fromkeys(codes))
