@@ -359,7 +359,7 @@ class _NumberTexts:
 # digit ("2.5e-7", repr "2.5e-07"; repr's exponent form starts at 1e16 above), and
 # 1e-5 <= |v| < 1e-4, which orjson writes positionally ("0.000025", repr "2.5e-05").
 ONE_DIGIT_EXPONENT = (1e-9, 1e-5)
-POSITIONAL_DECADE = (1e-5, 1e-4)
+POSITIONAL_DECADE = (ONE_DIGIT_EXPONENT[1], 1e-4)  # the next decade up
 _E, _MINUS, _COMMA, _ZERO, _DOT = b"e-,0."
 _POSITIONAL = b"0.0000"  # how orjson begins a number of the positional decade (after a sign)
 _EXPONENT_05 = np.frombuffer(b"e-05", dtype=np.uint8)
@@ -369,25 +369,25 @@ _CUT = 0  # a byte no JSON number text holds: marks the bytes to drop
 def float_texts(values: np.ndarray) -> list[str]:
     """json.dumps' text of each float64 of `values`: float.__repr__ of a finite one, "null" for
     NaN and infinities. orjson writes the texts (five times faster than repr) for the whole
-    array in one call; the two decades it lays out differently from repr are mended in its
-    bytes (a zero put into one-digit exponents: round-off of zero-force members is common, a
-    sixth of a Pratt truss's values; the positional decade rewritten in repr's exponent form),
-    with no Python step per number. tests/test_json_float_texts.py holds every range to repr."""
+    array in one call; the numbers of the two decades it lays out differently from repr are
+    written again on their own and mended in those bytes (a zero put into one-digit exponents:
+    round-off of zero-force members is common, a sixth of a Pratt truss's values; the
+    positional decade rewritten in repr's exponent form), with no Python step per number but
+    putting each mended text in its place. tests/test_json_float_texts.py and
+    tests/test_json_scale_rows_s8.py hold every range to repr."""
     flat = np.ascontiguousarray(values, dtype=np.float64).ravel()
     if not flat.size:
         return []
     texts = _orjson_texts(flat)
     size = np.abs(flat)
     with np.errstate(invalid="ignore"):  # NaN compares False: written "null" by orjson
-        short = (size >= ONE_DIGIT_EXPONENT[0]) & (size < ONE_DIGIT_EXPONENT[1])
-        odd = (size >= POSITIONAL_DECADE[0]) & (size < POSITIONAL_DECADE[1])
-    mend = np.flatnonzero(short | odd)
+        mend = np.flatnonzero((size >= ONE_DIGIT_EXPONENT[0]) & (size < POSITIONAL_DECADE[1]))
     if mend.size:
-        # Only the numbers of the two decades are written again and mended (a sixth of a
-        # Pratt truss's values): mending the bytes of the whole array cost more than its
-        # orjson call and split together.
+        # Only these numbers are mended: mending the bytes of the whole array cost more than
+        # its orjson call and split together. The two decades meet at 1e-5.
+        short = size[mend] < ONE_DIGIT_EXPONENT[1]
         raw = orjson.dumps(flat[mend], option=orjson.OPT_SERIALIZE_NUMPY)
-        mended = _mended(raw, np.flatnonzero(short[mend]), np.flatnonzero(odd[mend]))
+        mended = _mended(raw, np.flatnonzero(short), np.flatnonzero(~short))
         if mended is None:  # not orjson's usual layout: repr for every number
             return [repr(v) if math.isfinite(v) else "null" for v in flat.tolist()]
         for at, text in zip(mend.tolist(), mended[1:-1].decode().split(","), strict=True):
