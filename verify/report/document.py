@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
@@ -31,6 +32,7 @@ from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
 from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
     STATUS_STYLES,
+    RowStatuses,
     legend_html,
     render_diagram,
     status_category,
@@ -56,6 +58,7 @@ NOT_CAPACITY = (
     "nothing about whether a member is strong enough."
 )
 LARGE_MODEL_MEMBERS = 2000  # above this: appendix for one load column, steps capped, one diagram
+ROW_STATUSES_FROM = LARGE_MODEL_MEMBERS  # a load column of more rows: its statuses read by codes
 MAX_APPENDIX_STEPS_LARGE = 60  # joint steps shown per load column for a large model
 APPENDIX_ALL_MEMBERS = 100  # up to this size every free body is in the appendix
 MAX_FLAGGED_SHEETS = 40  # above it: the free bodies of at most this many flagged members ...
@@ -351,13 +354,27 @@ def case_rows(review: Review) -> _CaseRows:
     )
     for kind, into in (("member", grouped.members), ("reaction", grouped.reactions)):
         at = np.flatnonzero(rows.holds("kind", kind))
-        for code in dict.fromkeys(cases[at].tolist()):  # load columns as their first rows come
+        for code in first_seen(cases[at], len(case_words)):  # load columns as their rows come
             into[case_words[code]] = at[cases[at] == code]
     for case, at in grouped.members.items():
         bad = at[flagging[statuses[at]]]
         if bad.size:
             grouped.flagged[case] = list(dict.fromkeys(id_words[i] for i in ids[bad].tolist()))
     return grouped
+
+
+FIRST_SEEN_BY_COUNT = 64  # up to this many codes, each code's first row is found by a scan
+
+
+def first_seen(codes: np.ndarray, count: int) -> list[int]:
+    """`list(dict.fromkeys(codes.tolist()))` (each code of range(count) present, in the order
+    of its first row) without a Python int per row: two load columns of a 10^6-member review
+    are found by a count and a scan each."""
+    if count > FIRST_SEEN_BY_COUNT or not codes.size:
+        return list(dict.fromkeys(codes.tolist()))
+    present = np.flatnonzero(np.bincount(codes, minlength=count)).tolist()
+    first = [int(np.argmax(codes == code)) for code in present]
+    return [code for _, code in sorted(zip(first, present, strict=True))]
 
 
 def member_tables(review: Review, grouped: _CaseRows) -> list[Table]:
@@ -561,11 +578,18 @@ def diagram_columns(review: Review, grouped: _CaseRows) -> list[str]:
     return [n for n in checked if n in keep]
 
 
-def member_statuses(grouped: _CaseRows, load_name: str) -> dict[str, str]:
-    """Member id -> the status drawn for one load column (the most serious of its claims)."""
+def member_statuses(
+    grouped: _CaseRows, load_name: str, index: Mapping[str, int] | None = None
+) -> Mapping[str, str]:
+    """Member id -> the status drawn for one load column (the most serious of its claims).
+    `index`, when given, maps each id word of the rows to its code (the model's member index
+    when the rows' id words are the model's ids)."""
     at = grouped.members.get(load_name, np.empty(0, dtype=np.int64))
     ids, id_words = grouped.rows.words("id")
     statuses, status_words = grouped.rows.words("status")
+    if at.size > ROW_STATUSES_FROM and np.bincount(ids[at]).max() == 1:
+        # one claim per member: read from the codes, no dict of every member
+        return RowStatuses(ids[at], id_words, statuses[at], status_words, index)
     pairs = zip(
         map(id_words.__getitem__, ids[at].tolist()),
         map(status_words.__getitem__, statuses[at].tolist()),
@@ -937,8 +961,10 @@ def diagrams_html(review: Review, grouped: _CaseRows | None = None) -> list[str]
             f"`truss-verify solve {_e(Path(model.source).name)} --show forces` lists every "
             "force.</em></p>"
         )
+    id_words = grouped.rows.words("id")[1]
+    index = model.member_index if id_words == model.member_ids else None
     drawn = [
-        (name, member_statuses(grouped, name) if name in review.checked_cases else None)
+        (name, member_statuses(grouped, name, index) if name in review.checked_cases else None)
         for name in columns
     ]
     used: set[str] = set()

@@ -215,9 +215,11 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
             last = close
             slots.append(between)
         m, width = stop - start, len(slots)
-        flat: list[str] = [between] * (m * width)
+        # every row's fixed texts laid down at once (a repeated list), then each column's texts
+        flat = [slot if isinstance(slot, str) else "" for slot in slots] * m
         for j, slot in enumerate(slots):
-            flat[j::width] = [slot] * m if isinstance(slot, str) else slot
+            if not isinstance(slot, str):
+                flat[j::width] = slot
         flat[-1] = last
         yield ("[" if start == 0 else ",") + inner + "".join(flat)
     yield "\n" + INDENT * level + "]"
@@ -231,7 +233,20 @@ NEEDS_ESCAPE = re.compile(r'[\x00-\x1f"\\]')
 
 def _plain(*columns: list[str]) -> bool:
     """Whether every string of these columns is written as itself between quotes."""
-    return not any(NEEDS_ESCAPE.search("".join(column)) for column in columns)
+    return all(map(_plain_text, map("".join, columns)))
+
+
+_SPACE, _QUOTE, _BACKSLASH = 0x20, '"', "\\"
+
+
+def _plain_text(text: str) -> bool:
+    """`not NEEDS_ESCAPE.search(text)`: an ASCII text (the usual one) is looked at as bytes, a
+    few times faster than the pattern (tests/test_json_scale_rows_s8.py holds the two equal)."""
+    if not text.isascii():
+        return not NEEDS_ESCAPE.search(text)
+    if _QUOTE in text or _BACKSLASH in text:
+        return False
+    return not (np.frombuffer(text.encode("ascii"), dtype=np.uint8) < _SPACE).any()
 
 
 def _column_writer(
@@ -255,10 +270,14 @@ def _column_writer(
 
         return words
     if isinstance(source, Labels):  # member ids
+        # Every row's text is one of the labels: when none needs escaping, no chunk is looked at.
+        every_plain = _plain(source.labels)
 
         def labels(start: int, stop: int) -> list[str | list[str]]:
             texts = source.chunk(start, stop)
-            return ['"', texts, '"'] if _plain(texts) else [_column_text(texts, level)]
+            if every_plain or _plain(texts):
+                return ['"', texts, '"']
+            return [_column_text(texts, level)]
 
         return labels
     if isinstance(source, Written):
@@ -340,7 +359,7 @@ class _NumberTexts:
 # digit ("2.5e-7", repr "2.5e-07"; repr's exponent form starts at 1e16 above), and
 # 1e-5 <= |v| < 1e-4, which orjson writes positionally ("0.000025", repr "2.5e-05").
 ONE_DIGIT_EXPONENT = (1e-9, 1e-5)
-POSITIONAL_DECADE = (1e-5, 1e-4)
+POSITIONAL_DECADE = (ONE_DIGIT_EXPONENT[1], 1e-4)  # the next decade up
 _E, _MINUS, _COMMA, _ZERO, _DOT = b"e-,0."
 _POSITIONAL = b"0.0000"  # how orjson begins a number of the positional decade (after a sign)
 _EXPONENT_05 = np.frombuffer(b"e-05", dtype=np.uint8)
@@ -350,24 +369,35 @@ _CUT = 0  # a byte no JSON number text holds: marks the bytes to drop
 def float_texts(values: np.ndarray) -> list[str]:
     """json.dumps' text of each float64 of `values`: float.__repr__ of a finite one, "null" for
     NaN and infinities. orjson writes the texts (five times faster than repr) for the whole
-    array in one call; the two decades it lays out differently from repr are mended in its
-    bytes (a zero put into one-digit exponents: round-off of zero-force members is common, a
-    sixth of a Pratt truss's values; the positional decade rewritten in repr's exponent form),
-    with no Python step per number. tests/test_json_float_texts.py holds every range to repr."""
+    array in one call; the numbers of the two decades it lays out differently from repr are
+    written again on their own and mended in those bytes (a zero put into one-digit exponents:
+    round-off of zero-force members is common, a sixth of a Pratt truss's values; the
+    positional decade rewritten in repr's exponent form), with no Python step per number but
+    putting each mended text in its place. tests/test_json_float_texts.py and
+    tests/test_json_scale_rows_s8.py hold every range to repr."""
     flat = np.ascontiguousarray(values, dtype=np.float64).ravel()
     if not flat.size:
         return []
-    raw = orjson.dumps(flat, option=orjson.OPT_SERIALIZE_NUMPY)
+    texts = _orjson_texts(flat)
     size = np.abs(flat)
     with np.errstate(invalid="ignore"):  # NaN compares False: written "null" by orjson
-        short = (size >= ONE_DIGIT_EXPONENT[0]) & (size < ONE_DIGIT_EXPONENT[1])
-        odd = (size >= POSITIONAL_DECADE[0]) & (size < POSITIONAL_DECADE[1])
-    if short.any() or odd.any():
-        mended = _mended(raw, np.flatnonzero(short), np.flatnonzero(odd))
+        mend = np.flatnonzero((size >= ONE_DIGIT_EXPONENT[0]) & (size < POSITIONAL_DECADE[1]))
+    if mend.size:
+        # Only these numbers are mended: mending the bytes of the whole array cost more than
+        # its orjson call and split together. The two decades meet at 1e-5.
+        short = size[mend] < ONE_DIGIT_EXPONENT[1]
+        raw = orjson.dumps(flat[mend], option=orjson.OPT_SERIALIZE_NUMPY)
+        mended = _mended(raw, np.flatnonzero(short), np.flatnonzero(~short))
         if mended is None:  # not orjson's usual layout: repr for every number
             return [repr(v) if math.isfinite(v) else "null" for v in flat.tolist()]
-        raw = mended
-    return raw[1:-1].decode().split(",")
+        for at, text in zip(mend.tolist(), mended[1:-1].decode().split(","), strict=True):
+            texts[at] = text
+    return texts
+
+
+def _orjson_texts(flat: np.ndarray) -> list[str]:
+    """orjson's text of each number of a float64 array, unmended ("null" for NaN, infinities)."""
+    return orjson.dumps(flat, option=orjson.OPT_SERIALIZE_NUMPY)[1:-1].decode().split(",")
 
 
 def _mended(raw: bytes, short: np.ndarray, odd: np.ndarray) -> bytes | None:
