@@ -945,7 +945,7 @@ def _local_geometry_variants(
         # the screen's clipped least squares gives the direction; the size is searched over
         # the whole half-range (a large slip's misfits are clipped, so its step reads small)
         low, high = sorted((0.0, float(np.sign(screened.delta)) * move.limit))
-        delta = golden_section(misfit, low, high, tolerance=1e-4 * move.limit, steps=30)
+        delta = golden_section(misfit, low, high, tolerance=1e-3 * move.limit, steps=20)
         tried = []
         for value in nice_factors(move.value + delta):
             step = value - move.value
