@@ -219,3 +219,34 @@ def test_tripod_sheet_exact_values_3d():
                 eq.target,
                 eq.exact,
             )
+
+
+@pytest.mark.parametrize("family", ["pratt", "bench-pratt"])
+def test_cut_of_each_member_is_the_cut_that_names_it(family, tmp_path):
+    """The sheets find a member's cut by member position (an integer array over the cuts); held to
+    the lookup by name it replaced: the last cut whose target is the member, None for a member
+    no cut solves (a member asked for by a wrong name too)."""
+    if family == "pratt":
+        model = make_model(pratt(8, d=3.0, h=2.5))
+    else:
+        import sys
+        from pathlib import Path
+
+        from verify.io.case import read_case
+
+        sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "bench"))
+        import generate  # the benchmark's own scalable families
+
+        model = read_case(generate.write_case(generate.build("pratt", 2000), tmp_path))
+    solution = solve_sections(model)
+    book = solution.calc_sheets(model)
+    by_name = {c.target: k for k, c in enumerate(solution.cuts)}
+    assert len(by_name) > 0
+    for member in [*model.member_ids, "no-such-member"]:
+        expected = by_name.get(member)
+        got = book.cut_of(member)
+        if expected is None:
+            assert got is None
+        else:
+            assert got is not None and got.target == member
+            assert got == solution.cuts[expected]

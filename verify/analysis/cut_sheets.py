@@ -262,6 +262,7 @@ class CalcSheets:
         self.extent = self.extent or 1.0
         self._sides: dict[tuple[int, int], tuple[np.ndarray, _Side]] = {}
         self._positions: dict[str, int] | None = None
+        self._by_member: np.ndarray | None = None
         self._exact_reactions: dict[int, list[ex.Surd] | None] = {}
         self._points: dict[tuple[float, ...], list[ex.Surd]] = {}
         self._incidence: tuple[np.ndarray, np.ndarray] | None = None
@@ -270,13 +271,23 @@ class CalcSheets:
 
     # -- which cut solves a member ---------------------------------------------------------
     def _position(self, member: str) -> int | None:
+        """The cut that solves `member` (the last, should several), or None."""
         if self.sections is None:
             return None
+        cuts = self.sections.cuts
+        indices = getattr(cuts, "target_indices", None)
+        if indices is not None:
+            # By member position: a report of a 10^6-member truss asks for a handful of cuts, and
+            # a dict of every cut's member name cost 0.3-0.6 s to make.
+            if self._by_member is None:
+                targets = indices()
+                self._by_member = np.full(len(self.model.members), -1, dtype=np.int64)
+                np.maximum.at(self._by_member, targets, np.arange(len(targets), dtype=np.int64))
+            m = self.model.member_index.get(member)
+            k = -1 if m is None else int(self._by_member[m])
+            return None if k < 0 else k
         if self._positions is None:
-            cuts = self.sections.cuts
-            targets = getattr(cuts, "target_names", None)
-            names = targets() if targets is not None else [c.target for c in cuts]
-            self._positions = {m: k for k, m in enumerate(names)}
+            self._positions = {c.target: k for k, c in enumerate(cuts)}
         return self._positions.get(member)
 
     def cut_of(self, member: str) -> SectionCut | None:

@@ -1249,13 +1249,11 @@ class _CutSequence(_Lazy["SectionCut"]):
         b = int(np.searchsorted(self._starts, r, side="right")) - 1
         return self._batches[b][r - int(self._starts[b])]
 
-    def target_names(self) -> list[str]:
-        """The member each cut solves, in solve order, without building the cut records."""
-        out: list[str] = []
-        for batch in self._batches:
-            names = batch._names
-            out.extend(names[m] for m in batch._pm[batch._pair].tolist())
-        return out
+    def target_indices(self) -> np.ndarray:
+        """The member each cut solves, in solve order, as positions in the model's members
+        (one integer array: no names, no cut records)."""
+        parts = [np.asarray(batch._pm[batch._pair], dtype=np.int64) for batch in self._batches]
+        return np.concatenate(parts) if parts else np.zeros(0, dtype=np.int64)
 
     def __iter__(self) -> Iterator[SectionCut]:
         for batch in self._batches:
