@@ -263,11 +263,19 @@ class CalcSheets:
         self._sides: dict[tuple[int, int], tuple[np.ndarray, _Side]] = {}
         self._positions: dict[str, int] | None = None
         self._by_member: np.ndarray | None = None
+        self._joint_ids: list[str] | None = None
         self._exact_reactions: dict[int, list[ex.Surd] | None] = {}
         self._points: dict[tuple[float, ...], list[ex.Surd]] = {}
         self._incidence: tuple[np.ndarray, np.ndarray] | None = None
         combos = {c.name for c in model.combinations}
         self.is_combination = [name in combos for name in model.load_names]
+
+    def joint_id(self, j: int) -> str:
+        """Joint j's id, from one list of ids: indexing the model's joints past a few reads makes
+        every joint record of a bulk table (0.25 s at 10^6 joints, for a handful of sheets)."""
+        if self._joint_ids is None:
+            self._joint_ids = self.model.joint_ids
+        return self._joint_ids[j]
 
     # -- which cut solves a member ---------------------------------------------------------
     def _position(self, member: str) -> int | None:
@@ -365,8 +373,8 @@ class CalcSheets:
         loads = tuple(
             ExternalForce(
                 "load",
-                model.joints[j].id,
-                model.joints[j].id,
+                self.joint_id(j),
+                self.joint_id(j),
                 _pt(xyz[j]),
                 _pt(side.F[j]),
                 float(np.linalg.norm(side.F[j])),
@@ -805,9 +813,9 @@ class CalcSheets:
         ids = model.member_ids
         kept_members_total = _kept_member_count(self, js, side) if not full else len(drawn)
         return FreeBodyDrawing(
-            joints=tuple((model.joints[j].id, _pt(model.xyz[j])) for j in sorted(seen_j)),
+            joints=tuple((self.joint_id(j), _pt(model.xyz[j])) for j in sorted(seen_j)),
             members=tuple(
-                (ids[m], model.joints[int(ends[m, 0])].id, model.joints[int(ends[m, 1])].id)
+                (ids[m], self.joint_id(int(ends[m, 0])), self.joint_id(int(ends[m, 1])))
                 for m in drawn
             ),
             omitted_members=max(kept_members_total - len(drawn), 0),
@@ -861,7 +869,7 @@ class CalcSheets:
             # only the first MAX_ITEMS are listed: the others are counted (10^5 loaded joints)
             at = np.flatnonzero(contributions[:, row] != 0)
             nonzero = [
-                (model.joints[j].id, float(c))
+                (self.joint_id(j), float(c))
                 for j, c in zip(
                     loaded[at[:MAX_ITEMS]].tolist(),
                     contributions[at[:MAX_ITEMS], row].tolist(),
