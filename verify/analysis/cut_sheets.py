@@ -264,6 +264,7 @@ class CalcSheets:
         self._positions: dict[str, int] | None = None
         self._by_member: np.ndarray | None = None
         self._joint_ids: list[str] | None = None
+        self._member_ids: list[str] | None = None
         self._exact_reactions: dict[int, list[ex.Surd] | None] = {}
         self._points: dict[tuple[float, ...], list[ex.Surd]] = {}
         self._incidence: tuple[np.ndarray, np.ndarray] | None = None
@@ -276,6 +277,12 @@ class CalcSheets:
         if self._joint_ids is None:
             self._joint_ids = self.model.joint_ids
         return self._joint_ids[j]
+
+    def member_ids(self) -> list[str]:
+        """The model's member ids, copied once for all the sheets (not once per drawing)."""
+        if self._member_ids is None:
+            self._member_ids = self.model.member_ids
+        return self._member_ids
 
     # -- which cut solves a member ---------------------------------------------------------
     def _position(self, member: str) -> int | None:
@@ -810,7 +817,7 @@ class CalcSheets:
         for x in list(loads) + list(reactions):
             seen_j.add(model.joint_index[x.joint])
         drawn.sort()
-        ids = model.member_ids
+        ids = self.member_ids()
         kept_members_total = _kept_member_count(self, js, side) if not full else len(drawn)
         return FreeBodyDrawing(
             joints=tuple((self.joint_id(j), _pt(model.xyz[j])) for j in sorted(seen_j)),
