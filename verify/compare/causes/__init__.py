@@ -3,11 +3,15 @@
 Explainers, each on what the earlier ones left unexplained (the comparison calls them in turn,
 between its own steps):
 
-1. a slightly different model: loads at the other chord or another joint, a load left out,
-   doubled, scaled or turned vertical, a combination factor, the supports exchanged, a dimension
-   (see :mod:`verify.compare.causes.search`) — first, because its test (a clear majority of the
-   disagreeing claims explained, none that agreed broken) is the strictest, and a model change
-   moves values in patterns that a row shift can imitate;
+1. a slightly different model: a member the claims name by two joints the case does not join
+   (:mod:`verify.compare.causes.members`, tried first: its rows otherwise read as values copied
+   from rows that happen to carry the same force); loads at the other chord or another joint, a
+   load left out, doubled, scaled, turned vertical or added over a level, a combination factor,
+   the supports exchanged or one moved a member away, an overall dimension, one panel or one
+   joint drawn elsewhere (see :mod:`verify.compare.causes.search`) — first, because its test (a
+   clear majority of the disagreeing claims explained, none that agreed broken, none taken
+   clearly further away) is the strictest, and a model change moves values in patterns that a
+   row shift can imitate;
 2. rows shifted against their labels (a row inserted or deleted in the table) — before swapped
    pairs, which a shifted run on a symmetric truss imitates;
 3. a value copied from another row — last, after swapped pairs, because a mirror member of a
