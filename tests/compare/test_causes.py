@@ -956,3 +956,27 @@ def test_compression_positive_table_with_self_weight_added_reads_the_convention_
     # the honest table written compression positive agrees, the convention said as information
     honest = {c: {m: -v for m, v in column.items()} for c, column in claims_of(bridge()).items()}
     assert review_of(bridge(), honest).verdict is Verdict.AGREES
+
+
+def test_a_load_added_at_every_joint_off_the_supports_is_named_in_3d_and_2d():
+    """Wind of 300 N more along x at every joint of the lattice mast (the leeward legs too), and
+    1 kN more downward at every joint of the bridge off its supports (self-weight to every panel
+    point): each one finding; the honest tables agree."""
+    variant = mast()
+    for k in range(1, 4):
+        for c in "ABC":
+            old = variant["loads"]["wind"].get(f"{c}{k}", [0.0, 0.0, 0.0])
+            variant["loads"]["wind"][f"{c}{k}"] = [old[0] + 300.0, old[1], old[2]]
+    (cause,) = causes(review_of(mast(), claims_of(variant)))
+    assert cause.variant.startswith(
+        "the 'wind' loads with 300 N more along +x at each joint off the supports"
+    ), cause.variant
+    variant = bridge()
+    for joint in [*(f"L{i}" for i in range(1, PANELS)), *(f"U{i}" for i in range(1, PANELS))]:
+        x, y = variant["loads"]["dead"][joint]
+        variant["loads"]["dead"][joint] = [x, y - 1.0]
+    (cause,) = causes(review_of(bridge(), claims_of(variant)))
+    assert cause.variant.startswith(
+        "the 'dead' loads with 1 kN more downward at each joint off the supports"
+    ), cause.variant
+    assert review_of(mast(), claims_of(mast())).verdict is Verdict.AGREES

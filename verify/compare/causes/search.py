@@ -10,7 +10,7 @@ touch, or none is reported: a cause is never a guess.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from typing import NamedTuple
 
 import numpy as np
@@ -461,31 +461,23 @@ ALMOST_ALL = 0.9  # of its case's disagreeing claims, the share a load over a le
 def _level_load_variants(
     frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
 ):
-    """The same vertical load added at every joint of one level (a chord): self-weight, a
-    ceiling or services added to a load case the case file gives without them. The size is
-    fitted per load case to its own column's disagreeing claims, then tried at round values."""
+    """The same load added at every joint of a set: downward at every joint of one level (a
+    chord: self-weight, a ceiling, services), or along one axis at every joint off the supports
+    (self-weight spread to every panel point; wind on every joint of a mast, leeward leg and
+    all). The size is fitted per load case to its own column's disagreeing claims, then tried at
+    round values."""
     model = analysis.model
     d = model.dim
     C = model.combination_matrix()
     lu = analysis.run.equilibrium_lu()
-    heights = model.xyz[:, d - 1]
-    extent = max(float(np.ptp(model.xyz, axis=0).max(initial=0.0)), 1e-300)
     unit = model.units.force.symbol
-    length = model.units.length.symbol
     target = frame.claimed - frame.computed - base
     ids = model.joint_ids
     assert analysis.reference is not None
     forces = analysis.reference.member_forces
-    levels: list[float] = []
-    for h in np.sort(heights).tolist():
-        if not levels or h - levels[-1] > 1e-6 * extent:
-            levels.append(h)
-    for level in levels:
-        at = np.flatnonzero(np.abs(heights - level) <= 1e-6 * extent)
-        if len(at) < MIN_LEVEL_JOINTS:
-            continue
+    for at, axis, sense, where in _load_sets(model):
         load = np.zeros(model.dofs)
-        load[at * d + d - 1] = -1.0  # one force unit downward at each joint of the level
+        load[at * d + axis] = sense  # one force unit at each joint of the set
         response = lu.solve(-load)[: len(model.members)]
         for k in range(len(model.cases)):
             # the case's own column; where the table claims only combinations, those holding it
@@ -494,7 +486,7 @@ def _level_load_variants(
                 holds = C[k, frame.column] != 0
             own = pending & holds
             if not own.any() or _parallel(response, forces[:, k]):
-                continue  # no claims of the case, or its loads are this level's: a factor on it
+                continue  # no claims of the case, or its loads are this set's: a factor on it
             per_claim = response[frame.member] * C[k, frame.column]
             size = fit_scale(frame, target, np.where(holds, per_claim, 0.0), own)
             if size is None or size == 0:
@@ -504,7 +496,7 @@ def _level_load_variants(
             if w is None:
                 continue
             # Spread evenly, a load at a few joints of a level moves the chords nearly as the
-            # same total over the whole level does: the level reading must fit the case's
+            # same total over the whole level does: the set's reading must fit the case's
             # column(s) almost whole (three 6 kN loads were read as 2 kN at all nine joints,
             # leaving 20 of 70 claims unexplained).
             fits = frame.agrees(frame.computed + base + w * per_claim)
@@ -512,12 +504,14 @@ def _level_load_variants(
                 continue
             names = [ids[int(j)] for j in at]
             shown = ", ".join(names[:6]) + (f", … ({len(names)} joints)" if len(names) > 6 else "")
-            way = "downward" if w > 0 else "upward"
+            if axis == d - 1:
+                way = "upward" if w * sense > 0 else "downward"
+            else:
+                way = f"along {'+' if w * sense > 0 else '-'}{'xyz'[axis]}"
+            example = "self-weight" if axis == d - 1 else "a load on another face"
             words = (
                 f"the '{model.cases[k].name}' loads with {fmt(abs(w), 3)} {unit} more {way} "
-                "at each "
-                f"joint at {'xyz'[d - 1]} = {fmt(level, 4)} {length} ({shown}): e.g. self-weight "
-                "or another load added to the case"
+                f"at each {where} ({shown}): e.g. {example} or another load added to the case"
             )
             yield Variant(
                 "loads-added",
@@ -528,6 +522,28 @@ def _level_load_variants(
                 w,
                 fitted=True,
             )
+
+
+def _load_sets(model: Model) -> Iterator[tuple[np.ndarray, int, float, str]]:
+    """(joints, axis, unit load's sense, words) for each set a load may have been added over:
+    every joint of a level (downward), then every joint off the supports along each axis."""
+    d = model.dim
+    heights = model.xyz[:, d - 1]
+    extent = max(float(np.ptp(model.xyz, axis=0).max(initial=0.0)), 1e-300)
+    length = model.units.length.symbol
+    levels: list[float] = []
+    for h in np.sort(heights).tolist():
+        if not levels or h - levels[-1] > 1e-6 * extent:
+            levels.append(h)
+    for level in levels:
+        at = np.flatnonzero(np.abs(heights - level) <= 1e-6 * extent)
+        if len(at) >= MIN_LEVEL_JOINTS:
+            yield at, d - 1, -1.0, f"joint at {'xyz'[d - 1]} = {fmt(level, 4)} {length}"
+    supported = {model.joint_index[r.joint] for r in model.reactions}
+    free = np.array([j for j in range(len(model.joints)) if j not in supported], dtype=np.int64)
+    if len(free) >= MIN_LEVEL_JOINTS and len(levels) > 1:
+        for axis in range(d):
+            yield free, axis, (-1.0 if axis == d - 1 else 1.0), "joint off the supports"
 
 
 def _parallel(a: np.ndarray, b: np.ndarray) -> bool:
