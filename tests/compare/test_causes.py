@@ -980,3 +980,18 @@ def test_a_load_added_at_every_joint_off_the_supports_is_named_in_3d_and_2d():
         "the 'dead' loads with 1 kN more downward at each joint off the supports"
     ), cause.variant
     assert review_of(mast(), claims_of(mast())).verdict is Verdict.AGREES
+
+
+def test_one_column_reversed_beside_a_scaled_one_does_not_turn_the_table_convention():
+    """Dead reversed (its loads applied upward) and traffic 1.5 times, in a tension-positive
+    table: one column agreeing reversed is as likely its load applied the other way, so the table
+    stays tension positive and the reversed dead load is named."""
+    variant = bridge()
+    variant["loads"]["dead"] = {j: [x, -y] for j, (x, y) in variant["loads"]["dead"].items()}
+    variant["loads"]["traffic"] = {
+        j: [x, 1.5 * y] for j, (x, y) in variant["loads"]["traffic"].items()
+    }
+    review = review_of(bridge(), claims_of(variant))
+    assert review.convention.sign == "tension-positive"
+    named = " | ".join(c.variant for c in causes(review))
+    assert "'dead' loads applied in the opposite direction" in named, named

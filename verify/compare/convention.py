@@ -195,10 +195,14 @@ def columns_reversed(
 ) -> Fit | None:
     """The table read with every sign reversed, when whole columns say so and none says the
     opposite: some column of at least `min_claims` informative claims agrees (WHOLE_COLUMN of it)
-    only reversed, and no column agrees as read for half its claims. A sign convention is the
-    table's, so one load column computed from the same model (snow, wind) settles it even when
-    another column (a dead load with self-weight added) agrees neither way; the half-of-the-table
-    rule (MIN_SHARE) cannot see it. None when the columns do not say so."""
+    only reversed, no column agrees as read for half its claims, and every other column, read
+    reversed, still runs with its forces (its claims over the forces have a positive median: a
+    load scaled or added, not reversed). A sign convention is the table's, so load columns computed
+    from the same model (snow, wind) settle it even when another column (a dead load with
+    self-weight added) agrees neither way, which the half-of-the-table rule (MIN_SHARE) cannot
+    see. A column that would then run against its forces says the reversed column is rather its
+    load applied the other way (an independent review's table: dead reversed, live load 1.5
+    times). None when the columns do not say so."""
     informative = (np.abs(computed) > atol) & (claimed != 0)
     reversed_whole = False
     agree = 0
@@ -212,6 +216,8 @@ def columns_reversed(
             return None  # a column agrees as read
         if n >= min_claims and counts[-1] >= WHOLE_COLUMN * n:
             reversed_whole = True
+        elif np.median(np.where(fixed[at], 1.0, -1.0) * claimed[at] / computed[at]) <= 0:
+            return None  # read reversed, this column would run against its forces
         agree += counts[-1]
     if not reversed_whole:
         return None

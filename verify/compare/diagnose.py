@@ -374,7 +374,7 @@ def _labels(c: Comparison) -> None:
     # Unknown labels and columns.
     for u in claims.unmatched:
         hint = f"; nearest: {', '.join(u.candidates)}" if u.candidates else ""
-        what = u.detail or (
+        what = (
             "matches several members"
             if u.reason == "ambiguous"
             else "is not a member or reaction of the model"

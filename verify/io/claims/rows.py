@@ -153,13 +153,18 @@ class RowReader:
             )
 
     def _short_row(self, r: int, row: list[Cell]) -> None:
-        """A CSV row with fewer cells than its table's columns need, when it reads as a claim (it
-        names a member or reaction, or holds a number, once split by any delimiter): reported on
-        the row as an unknown label, never read as a member without a claim. A note under the
-        table ('forces from run 3') is no claim and passes, as before."""
+        """A CSV row with fewer cells than its table's columns need. Cells left off the end of a
+        row are empty cells (no claim there: those members are missing claims, never agreeing),
+        as a hand-written table often leaves them. A row written with another separator (';' in a
+        ',' table) that reads as a claim (it names a member or reaction, or holds a number, once
+        split) lost its values: the table is refused on that row. A note under the table ('forces
+        from run 3', 'checked;JB') is no claim and passes."""
         delimiter = self.grid.delimiter
         texts = [cell_text(c) for c in row]
-        others = [d for d in (",", ";", "\t", "|") if d != delimiter and any(d in t for t in texts)]
+        marks = (";", "\t", "|") if self.grid.decimal_comma else (",", ";", "\t", "|")
+        others = [d for d in marks if d != delimiter and any(d in t for t in texts)]
+        if not others:
+            return
         pieces = [t for t in texts if t]
         for other in others:
             pieces = [p.strip() for t in pieces for p in t.split(other) if p.strip()]
@@ -168,18 +173,12 @@ class RowReader:
             or any(FORCE_LIKE.match(p) for p in pieces)
         ):
             return
-        expected = (
-            f"cells separated by '{quoted(delimiter or '')}' (this row has '{quoted(others[0])}')"
-            if others
-            else "a cell under every heading (an empty one where there is no claim)"
+        self.problems.add(
+            f"this row is separated by '{quoted(others[0])}' where the table's cells are "
+            f"separated by '{quoted(delimiter or '')}', so its values cannot be read; expected "
+            f"its cells separated by '{quoted(delimiter or '')}' like the header's",
+            self.grid.row_ref(r),
         )
-        cells = f"{len(row)} cell{'s' if len(row) != 1 else ''}"
-        detail = (
-            f"of {self.problems.file} is a row of {cells} where the table's columns need "
-            f"{self.needed}; expected {expected}; its missing cells give no claim"
-        )
-        label = quoted(next((t for t in texts if t), ""))
-        self.unmatched.append(UnmatchedLabel(label, self.grid.row_ref(r), "short-row", (), detail))
 
     def _case_of_row(self, r: int) -> str | None:
         if self.case_h is None:

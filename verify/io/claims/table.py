@@ -90,11 +90,10 @@ class ClaimedValue(NamedTuple):
 class UnmatchedLabel:
     label: str
     where: str
-    reason: str  # "unknown", "ambiguous" or "short-row"
+    reason: str  # "unknown" or "ambiguous"
     candidates: tuple[
         str, ...
     ]  # nearest real labels (unknown) or the competing matches (ambiguous)
-    detail: str = ""  # what is wrong and what was expected, where the reason needs saying
 
 
 @dataclass(frozen=True)
