@@ -313,3 +313,56 @@ def every_route_output(
     found = {check(monkeypatch, case, claims, **route) for route in ROUTES.values()}
     assert len(found) == 1, found
     return found.pop()
+
+
+# -- tables as they arrive: tab with decimal commas, notes, rule lines and totals under a table --
+
+
+@pytest.mark.parametrize(
+    "tail",
+    [
+        "\nNote: forces from run 3, see calc p.12\nChecked by JB, 12.03.2024\n",
+        "Date,12.03.2024\n",
+        "-----,-----\n",
+        "Total,-7.5\n",
+        "Max.,7.0711\n",
+    ],
+    ids=["notes-with-commas", "date", "rule-line", "total", "max"],
+)
+def test_notes_rule_lines_and_totals_under_a_table_claim_nothing(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, tail: str
+) -> None:
+    """Honest tables refused before an independent review's reading (exit 2 on the note's words,
+    or an unknown-label error for 'Total'): now they agree by every route, and a planted error
+    above the same tail is still found."""
+    planted_claims = CLAIMS.replace("AC,-7.0711", "AC,-7.9") + tail
+    case, planted, _ = triangle(tmp_path, planted_claims)
+    folder(tmp_path, {"honest.csv": CLAIMS + tail})
+    honest = tmp_path / "honest.csv"
+    for route in ROUTES.values():
+        status, out, err = check(monkeypatch, case, honest, **route)
+        assert (status, err) == (0, "") and out.startswith("AGREES"), (route, out, err)
+        status, out, _ = check(monkeypatch, case, planted, **route)
+        assert status == 1 and "value-mismatch: AC in 'dead'" in out
+
+
+def test_totals_rows_are_told_by_their_label() -> None:
+    """Totals rows are told by their first word; a row that names no member but writes a force
+    (a mistyped label) stays an unknown-label error (tests/test_hostile_input.py)."""
+    from verify.io.claims.rows import _TOTALS
+
+    assert _TOTALS.match("Total") and _TOTALS.match("SUM") and _TOTALS.match("Σ")
+    assert not _TOTALS.match("Totalizer") and not _TOTALS.match("AC")
+
+
+def test_a_tab_table_with_decimal_commas_is_read(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Saved as tab-separated text with a ',' locale ('-7,0711'): refused cell by cell before;
+    now read by its forces, as a PDF's are, and a planted error found at its row."""
+    tabbed = CLAIMS.replace(",", "\t").replace(".", ",")
+    case, planted, _ = triangle(tmp_path, tabbed.replace("-7,0711", "-7,9", 1))
+    folder(tmp_path, {"honest.csv": tabbed})
+    assert check(monkeypatch, case, tmp_path / "honest.csv", **ROUTES["fast"])[0] == 0
+    status, out, _ = check(monkeypatch, case, planted, **ROUTES["fast"])
+    assert status == 1 and "written -7,9 at row 3" in out

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from array import array
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
@@ -42,6 +43,8 @@ from verify.units import Dimension, Unit, lookup_unit
 # Member labels and case names; longer text is a note, not a name. The case file's own limit, so
 # that every member id a case file takes can be named in a claims table.
 MAX_NAME_CHARS = LABEL_MAX_CHARS
+# a totals row under a table ('Total', 'Sum', 'Max', 'Σ'): a sum or extreme of forces, no claim
+_TOTALS = re.compile(r"(?i)\s*(?:totals?|sum|max(?:imum)?|min(?:imum)?|σ|Σ)\b")
 
 
 def refuse_name(text: str, what: str) -> str | None:
@@ -139,6 +142,13 @@ class RowReader:
                 where_label,
             )
             return
+        if match.kind == "unknown" and (
+            _TOTALS.match(label) or not any(self._numeric(r, v) for v in present)
+        ):
+            # A note ('Date, 12.03.2024', 'see calc p.12'), a rule line ('-----') or a totals
+            # row under the table: no member named and no force written, or a sum of forces,
+            # which claims nothing of any member.
+            return
         if match.kind in ("unknown", "ambiguous"):
             self.unmatched.append(UnmatchedLabel(label, where_label, match.kind, match.candidates))
         for v in present:
@@ -151,6 +161,19 @@ class RowReader:
                 tc,
                 row_unit,
             )
+
+    def _numeric(self, r: int, column: ValueColumn) -> bool:
+        """Whether the cell reads as a force (a number, with or without T/C or a unit)."""
+        cell = self.grid.cell(r, column.index)
+        if isinstance(cell, float):
+            return True
+        if not isinstance(cell, str):
+            return False
+        try:
+            read_force_cell(cell, decimal_comma=self.grid.decimal_comma)
+        except ValueError:
+            return False
+        return True
 
     def _short_row(self, r: int, row: list[Cell]) -> None:
         """A CSV row with fewer cells than its table's columns need. Cells left off the end of a

@@ -15,7 +15,7 @@ from typing import cast, overload
 import numpy as np
 
 from verify.io.cells import joined_spans
-from verify.io.claims.grid import Cell, Grid
+from verify.io.claims.grid import Cell, Grid, decimal_comma_written
 from verify.io.claims.problems import Problems
 
 CSV_DELIMITERS = ("\t", ";", ",", "|")
@@ -124,7 +124,7 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
                 split,
                 range(1 + offset, len(split) + 1 + offset),
                 None,
-                decimal_comma=delimiter == ";",
+                decimal_comma=_decimal_comma(delimiter, split),
                 delimiter=delimiter,
             )
         lines = text.splitlines()[offset:]
@@ -134,7 +134,7 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
             plain,
             range(1 + offset, len(plain) + 1 + offset),
             None,
-            decimal_comma=delimiter == ";",
+            decimal_comma=_decimal_comma(delimiter, plain),
             delimiter=delimiter,
         )
     del text
@@ -150,7 +150,18 @@ def read_csv(data: bytes, problems: Problems) -> Grid | None:
             f"the CSV cannot be split into fields ({exc})", f"row {len(rows) + 1 + offset}"
         )
         return None
-    return Grid(rows, numbers, None, decimal_comma=delimiter == ";", delimiter=delimiter)
+    return Grid(
+        rows, numbers, None, decimal_comma=_decimal_comma(delimiter, rows), delimiter=delimiter
+    )
+
+
+def _decimal_comma(delimiter: str, rows: Sequence[list[Cell]]) -> bool:
+    """A ';' table writes the decimal comma (the reason it is not ','); a tab or '|' table may
+    write either mark, told by its forces as a PDF's are ('28,13' beside no '28.13'). A ','
+    table's commas are its separators."""
+    if delimiter == ";":
+        return True
+    return delimiter in ("\t", "|") and decimal_comma_written(rows)
 
 
 def _plainly_split(lines: list[str], delimiter: str) -> bool:
