@@ -499,7 +499,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         if len(rest) == A.shape[1] == A.shape[0]:
             # Nothing could be solved joint by joint: the simultaneous step is the whole system.
             t = run.equilibrium_lu().solve(-F).reshape(n_unknowns, -1)
-            add(JointStep("simultaneous", tuple(model.joint_ids), tuple(int(c) for c in rest)))
+            add(JointStep("simultaneous", tuple(model.joint_ids), tuple(rest.tolist())))
             notes.append(
                 f"no joint with at most {d} unknowns: all {len(rest)} forces at "
                 f"{len(model.joints)} joints are solved simultaneously (compound or complex truss)"
@@ -532,7 +532,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
             JointStep(
                 "simultaneous",
                 tuple(model.joints[j].id for j in joints_involved),
-                tuple(int(c) for c in rest),
+                tuple(rest.tolist()),
             )
         )
         solved_joints = len(plain) // 3 + sum(s.kind == "joint" for _, s in others)
