@@ -108,6 +108,7 @@ LOAD_LIMIT = 1e12
 FACTOR_LIMIT = 1e3
 EA_LIMIT = 1e18
 LABEL_MAX_CHARS = 200  # ids and case names a reader can see in a table column
+SUGGESTED_JOINTS = 20  # unknown joint ids given a 'did you mean'; the rest are listed plainly
 # Exact (sympy) values cost ~0.1-1 ms each: a hand-written case holds dozens of expressions; past
 # this many a file is generated data, and its expressions keep their decimals only.
 EXACT_BUDGET = 2000
@@ -198,6 +199,9 @@ class _Ctx:
     joints_unreadable: bool = (
         False  # the joints table could not be read: references to joints are not news
     )
+    # Unknown joints given a 'did you mean' (each compares against every joint id: 0.1 s at
+    # 5x10^4 joints, so a table of 10^4 mistyped ids took a quarter of an hour)
+    suggested: int = 0
     tables_outside: bool = False  # the user allowed tables outside the case's folder
     length_unit: str = ""  # symbols for messages, once [units] is read
     force_unit: str = ""
@@ -980,18 +984,19 @@ def _joint_ref(
             return jid
         if jid in ctx.declared_joints or ctx.joints_unreadable:
             return None  # defined but unusable, or the joints table unreadable: said once already
-        # The candidates in table order, not the set's (which changes from run to run): the
-        # same suggestions, in the same order, every time.
-        bulk_ids = ctx.bulk.joint_ids
-        in_bulk = bulk_ids is not None and len(bulk_ids) == len(ctx.joints)
-        order = bulk_ids if bulk_ids is not None and in_bulk else [j.id for j in ctx.joints]
-        candidates = [j for j in order if j in joint_ids]
-        if len(candidates) != len(joint_ids):
-            candidates = sorted(joint_ids)  # (ids not from this case's joints: still one order)
-        message = (
-            f"{what} names joint '{shown(jid)}', which is not "
-            f"defined.{did_you_mean(jid, candidates)}"
-        )
+        hint = ""
+        if ctx.suggested < SUGGESTED_JOINTS:
+            ctx.suggested += 1
+            # The candidates in table order, not the set's (which changes from run to run): the
+            # same suggestions, in the same order, every time.
+            bulk_ids = ctx.bulk.joint_ids
+            in_bulk = bulk_ids is not None and len(bulk_ids) == len(ctx.joints)
+            order = bulk_ids if bulk_ids is not None and in_bulk else [j.id for j in ctx.joints]
+            candidates = [j for j in order if j in joint_ids]
+            if len(candidates) != len(joint_ids):
+                candidates = sorted(joint_ids)  # (ids not from this case's joints: one order)
+            hint = did_you_mean(jid, candidates)
+        message = f"{what} names joint '{shown(jid)}', which is not defined.{hint}"
     else:
         message = f"{what}: expected a joint id, got {shown(value)}"
     if file is not None and file != ctx.file:
