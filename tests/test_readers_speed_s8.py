@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 from hypothesis import event, given, settings
 from hypothesis import strategies as st
+from test_io_cells import column_spans
 
 from verify.io.case import member_lengths, pair_order_of
 from verify.io.cells import joined_spans
@@ -119,17 +120,8 @@ def _joined_spans_as_it_was(data, starts, stops) -> str:
 )
 def test_joined_spans_equals_the_seven_passes(rows, pick) -> None:
     width = max(map(len, rows))
-    rows = [row + [""] * (width - len(row)) for row in rows]
-    text = "".join(",".join(row) + "\n" for row in rows)
-    data = np.frombuffer(text.encode("ascii"), dtype=np.uint8)  # read-only, as a file's bytes
-    marks = np.flatnonzero((data == ord(",")) | (data == ord("\n")))
     column = pick.draw(st.integers(0, width - 1))
-    stops = marks[column::width]
-    starts = (
-        np.concatenate([[0], marks[width - 1 : -1 : width] + 1])
-        if column == 0
-        else (marks[column - 1 :: width] + 1)
-    )
+    text, data, starts, stops = column_spans(rows, column)  # bytes read-only, as a file's
     assert joined_spans(data, starts, stops) == _joined_spans_as_it_was(data, starts, stops)
     assert data.tobytes() == text.encode("ascii")  # the bytes are not written to
 

@@ -179,6 +179,12 @@ class _RatioScreen:
         return np.concatenate(found)
 
 
+def _informative(claimed: np.ndarray, computed: np.ndarray, atol: np.ndarray) -> np.ndarray:
+    """Claims that say something of sign and scale: the force clearly non-zero, the claim not
+    written as zero (see best_fit)."""
+    return (np.abs(computed) > atol) & (claimed != 0)
+
+
 WHOLE_COLUMN = 0.9  # a column read reversed "agrees whole" when this share of it agrees
 
 
@@ -203,7 +209,7 @@ def columns_reversed(
     see. A column that would then run against its forces says the reversed column is rather its
     load applied the other way (an independent review's table: dead reversed, live load 1.5
     times). None when the columns do not say so."""
-    informative = (np.abs(computed) > atol) & (claimed != 0)
+    informative = _informative(claimed, computed, atol)
     reversed_whole = False
     agree = 0
     for k in np.unique(column[informative]).tolist():
@@ -242,7 +248,7 @@ def best_fit(
     unit, times the candidate factor) would let a column of zeros "agree" with any large factor.
     Ties prefer the identity, then the written sign.
     """
-    informative = (np.abs(computed) > atol) & (claimed != 0)
+    informative = _informative(claimed, computed, atol)
     n = int(informative.sum())
     every = [claimed, fixed, computed, atol, rounding]
     c, f, r, a, rd = every if n == claimed.size else [x[informative] for x in every]

@@ -129,10 +129,7 @@ def find_moved_member(
         return None
     middles = model.xyz[ends[unclaimed]].mean(axis=1)
     columns, where = frame.column_positions()
-    try:
-        drawn = statics_solution(analysis.run, columns)
-    except RuntimeError:
-        return None
+    drawn = statics_solution(analysis.run, columns)
     if drawn is None:
         return None
     agreed = frame.agrees(frame.computed)

@@ -39,6 +39,7 @@ from verify.compare.causes.variants import (
     Variant,
     case_scaled_words,
     fit_scale,
+    joint_list,
     load_changes,
     moved_support_forces,
     nice_factors,
@@ -191,6 +192,7 @@ def _round(
 ) -> list[_Found]:
     """Every variant that passes the test on top of `base`, best first."""
     found: list[_Found] = []
+    before = np.abs(frame.claimed - frame.computed - base)  # each claim's miss before a change
     for variant in _candidates(frame, pending, base, analysis, notes, geometry=geometry):
         computed = frame.computed + base + variant.shift
         now = frame.agrees(computed)
@@ -220,7 +222,6 @@ def _round(
         # A slip of the table's own (a sign, a typo) that happens to sit near the drawn value
         # is taken further away by the true cause too: one or two such claims, or a tenth of
         # those explained, are the table's; more say the model is another.
-        before = np.abs(frame.claimed - frame.computed - base)
         after = np.abs(frame.claimed - computed)
         worse = int(
             (
@@ -440,13 +441,10 @@ def _uniform_addition(
     unit = model.units.force.symbol
     axis = int(np.argmax(np.abs(mean)))
     if np.linalg.norm(np.delete(mean, axis)) <= LOAD_MATCH * size:
-        sign = "-" if mean[axis] < 0 else "+"
-        vertical = "downward" if mean[axis] < 0 else "upward"
-        way = vertical if axis == d - 1 else f"along {sign}{'xyz'[axis]}"
+        way = _direction(axis, d, mean[axis] > 0)
     else:
         way = f"along ({', '.join(fmt(float(v) / size, 3) for v in mean)})"
-    names = [b.joint for b in joints]
-    shown = ", ".join(names[:6]) + (f", … ({len(names)} joints)" if len(names) > 6 else "")
+    shown = joint_list(model.joint_ids, at.tolist())
     words = (
         f"the '{case}' loads with {fmt(size, 3)} {unit} more {way} at each of {shown}, as the "
         "claims balance them (e.g. self-weight or another load added to the case)"
@@ -454,7 +452,16 @@ def _uniform_addition(
     return words, delta
 
 
+def _direction(axis: int, dim: int, positive: bool) -> str:
+    """A load's direction in words: upward or downward on the vertical (last) axis, else along
+    +x, -y ..."""
+    if axis == dim - 1:
+        return "upward" if positive else "downward"
+    return f"along {'+' if positive else '-'}{'xyz'[axis]}"
+
+
 MIN_LEVEL_JOINTS = 3  # joints at one height for a load added at all of them
+MAX_LEVELS = 8  # levels tried, the most populous
 ALMOST_ALL = 0.9  # of its case's disagreeing claims, the share a load over a level must explain
 
 
@@ -503,11 +510,8 @@ def _level_load_variants(
             if int((own & fits).sum()) < ALMOST_ALL * int(own.sum()):
                 continue
             names = [ids[int(j)] for j in at]
-            shown = ", ".join(names[:6]) + (f", … ({len(names)} joints)" if len(names) > 6 else "")
-            if axis == d - 1:
-                way = "upward" if w * sense > 0 else "downward"
-            else:
-                way = f"along {'+' if w * sense > 0 else '-'}{'xyz'[axis]}"
+            shown = joint_list(ids, at.tolist())
+            way = _direction(axis, d, w * sense > 0)
             example = "self-weight" if axis == d - 1 else "a load on another face"
             words = (
                 f"the '{model.cases[k].name}' loads with {fmt(abs(w), 3)} {unit} more {way} "
@@ -531,17 +535,21 @@ def _load_sets(model: Model) -> Iterator[tuple[np.ndarray, int, float, str]]:
     heights = model.xyz[:, d - 1]
     extent = max(float(np.ptp(model.xyz, axis=0).max(initial=0.0)), 1e-300)
     length = model.units.length.symbol
-    levels: list[float] = []
-    for h in np.sort(heights).tolist():
-        if not levels or h - levels[-1] > 1e-6 * extent:
-            levels.append(h)
-    for level in levels:
-        at = np.flatnonzero(np.abs(heights - level) <= 1e-6 * extent)
-        if len(at) >= MIN_LEVEL_JOINTS:
-            yield at, d - 1, -1.0, f"joint at {'xyz'[d - 1]} = {fmt(level, 4)} {length}"
-    supported = {model.joint_index[r.joint] for r in model.reactions}
-    free = np.array([j for j in range(len(model.joints)) if j not in supported], dtype=np.int64)
-    if len(free) >= MIN_LEVEL_JOINTS and len(levels) > 1:
+    # Joints by height, split where the next is more than a hair higher: one sort, not a pass
+    # over every joint per level (a tower's thousand storeys).
+    order = np.argsort(heights, kind="stable")
+    steps = np.flatnonzero(np.diff(heights[order]) > 1e-6 * extent) + 1
+    sets = [np.sort(group) for group in np.split(order, steps)] if order.size else []
+    # The most populous levels (the chords), in height order: each costs a solve.
+    fullest = sorted(range(len(sets)), key=lambda k: -len(sets[k]))[:MAX_LEVELS]
+    for k in sorted(fullest):
+        if len(sets[k]) >= MIN_LEVEL_JOINTS:
+            level = float(heights[sets[k]].min())
+            yield sets[k], d - 1, -1.0, f"joint at {'xyz'[d - 1]} = {fmt(level, 4)} {length}"
+    off_supports = np.ones(len(heights), dtype=bool)
+    off_supports[[model.joint_index[r.joint] for r in model.reactions]] = False
+    free = np.flatnonzero(off_supports)
+    if len(free) >= MIN_LEVEL_JOINTS and len(sets) > 1:
         for axis in range(d):
             yield free, axis, (-1.0 if axis == d - 1 else 1.0), "joint off the supports"
 
@@ -893,6 +901,18 @@ def golden_section(
     return c if fc <= fd else d
 
 
+def _clipped_misfit(
+    frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, t: np.ndarray | None
+) -> float:
+    """How far a fitted variant's forces `t` leave the disagreeing claims: the sum of their
+    squared misses in allowances, each counted up to ten allowances (a slip of the table must not
+    steer the fit); 1e12 for a variant that cannot be solved."""
+    if t is None:
+        return 1e12
+    ratio = (frame.claimed - t - base) / frame.allowed(t + base)
+    return float(np.minimum(ratio[pending] ** 2, 100.0).sum())
+
+
 def _dimension_variants(
     frame: ClaimsFrame, pending: np.ndarray, base: np.ndarray, analysis: Analysis
 ):
@@ -910,11 +930,7 @@ def _dimension_variants(
             return None if t is None else t[frame.member, where]
 
         def misfit(log_s: float) -> float:
-            t = forces(float(np.exp(log_s)))
-            if t is None:
-                return 1e12
-            ratio = (frame.claimed - t - base) / frame.allowed(t + base)
-            return float(np.minimum(ratio[pending] ** 2, 100.0).sum())
+            return _clipped_misfit(frame, pending, base, forces(float(np.exp(log_s))))
 
         low, high = np.log(DIMENSION_RANGE[0]), np.log(DIMENSION_RANGE[1])
         s = float(np.exp(golden_section(misfit, low, high, tolerance=1e-4, steps=30)))
@@ -952,11 +968,7 @@ def _local_geometry_variants(
             return None if t is None else t[frame.member, where]
 
         def misfit(delta: float) -> float:
-            t = forces(delta)
-            if t is None:
-                return 1e12
-            ratio = (frame.claimed - t - base) / frame.allowed(t + base)
-            return float(np.minimum(ratio[pending] ** 2, 100.0).sum())
+            return _clipped_misfit(frame, pending, base, forces(delta))
 
         # the screen's clipped least squares gives the direction; the size is searched over
         # the whole half-range (a large slip's misfits are clipped, so its step reads small)

@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Sequence
 from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
@@ -188,8 +188,8 @@ def load_changes(
                     "loads-other-chord",
                     c,
                     parts,
-                    f"the '{name}' loads applied at {_names(ids, targets)} (the joints directly "
-                    f"{where}) instead of {_names(ids, group)}",
+                    f"the '{name}' loads applied at {joint_list(ids, targets)} (the joints "
+                    f"directly {where}) instead of {joint_list(ids, group)}",
                     tuple(ids[t] for t in targets),
                 )
             )
@@ -208,9 +208,9 @@ def load_changes(
                     "loads-vertical",
                     c,
                     parts,
-                    f"the '{name}' loads at {_names(ids, slanted)} applied vertically, with their "
-                    "full magnitude, instead of in their stated directions (e.g. normal to the "
-                    "member they act on)",
+                    f"the '{name}' loads at {joint_list(ids, slanted)} applied vertically, with "
+                    "their full magnitude, instead of in their stated directions (e.g. normal to "
+                    "the member they act on)",
                     tuple(ids[j] for j in slanted),
                 )
             )
@@ -358,7 +358,8 @@ def _scaled_words(case: str, joint: str, vector: np.ndarray) -> Callable[[float]
     return words
 
 
-def _names(ids: list[str], positions: list[int], limit: int = 6) -> str:
+def joint_list(ids: Sequence[str], positions: Sequence[int], limit: int = 6) -> str:
+    """Joints named in a cause: all up to `limit`, else the first few, '…', the last and a count."""
     names = [ids[p] for p in positions]
     return (
         ", ".join(names)
@@ -508,12 +509,7 @@ def moved_support_forces(
     singular or near-singular capacitance matrix) or the forces come out implausibly large."""
     model = run.model
     d, b = model.dim, len(model.members)
-    try:
-        lu = run.equilibrium_lu()
-    except RuntimeError:
-        return None
-    if lu.shape[0] != lu.shape[1]:
-        return None
+    lu = run.equilibrium_lu()  # made and square: `drawn` was solved on it
     U = np.zeros((lu.shape[0], len(move.reactions)))
     for i, r in enumerate(move.reactions):
         direction = np.asarray(model.reactions[r].direction, dtype=float)
@@ -526,12 +522,8 @@ def moved_support_forces(
     sv = np.linalg.svd(capacitance, compute_uv=False)
     if sv.min() <= 1e-9 * max(sv.max(), 1.0):
         return None
-    F = model.load_matrix()[:, columns]
     t = drawn - W @ np.linalg.solve(capacitance, drawn[picked])
-    size = max(float(np.abs(F).max(initial=0.0)), 1e-300) * max(b, 1)
-    if not np.isfinite(t).all() or np.abs(t).max(initial=0.0) > 1e6 * size:
-        return None
-    return t[:b]
+    return None if implausible(t, model.load_matrix()[:, columns], b) else t[:b]
 
 
 AXIS_NAMES = {
@@ -552,6 +544,13 @@ def scaled_model(model: Model, axis: int, s: float) -> Model:
     return dataclasses.replace(model, joints=joints)
 
 
+def implausible(t: np.ndarray, F: np.ndarray, members: int) -> bool:
+    """Forces of a near-mechanism (not finite, or past a million times the largest load times
+    the member count): a near-singular variant explains nothing."""
+    size = max(float(np.abs(F).max(initial=0.0)), 1e-300) * max(members, 1)
+    return not np.isfinite(t).all() or np.abs(t).max(initial=0.0) > 1e6 * size
+
+
 def solve_members(run: AnalysisRun, columns: np.ndarray) -> np.ndarray | None:
     """Member forces of a (variant) model's run for the given load columns; None when it cannot
     be solved by statics (not determinate, a mechanism) or is near-singular."""
@@ -559,7 +558,4 @@ def solve_members(run: AnalysisRun, columns: np.ndarray) -> np.ndarray | None:
     if t is None:
         return None
     F = run.model.load_matrix()[:, columns]
-    size = max(float(np.abs(F).max(initial=0.0)), 1e-300) * max(len(run.model.members), 1)
-    if not np.isfinite(t).all() or np.abs(t).max(initial=0.0) > 1e6 * size:
-        return None  # near-singular: a near-mechanism is no explanation
-    return t
+    return None if implausible(t, F, len(run.model.members)) else t

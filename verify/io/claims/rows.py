@@ -44,7 +44,7 @@ from verify.units import Dimension, Unit, lookup_unit
 # that every member id a case file takes can be named in a claims table.
 MAX_NAME_CHARS = LABEL_MAX_CHARS
 # a totals row under a table ('Total', 'Sum', 'Max', 'Σ'): a sum or extreme of forces, no claim
-_TOTALS = re.compile(r"(?i)\s*(?:totals?|sum|max(?:imum)?|min(?:imum)?|σ|Σ)\b")
+_TOTALS = re.compile(r"(?i)\s*(?:totals?|sum|max(?:imum)?|min(?:imum)?|Σ)\b")
 
 
 def refuse_name(text: str, what: str) -> str | None:
@@ -94,8 +94,8 @@ class RowReader:
         self.value_rows: list[int] = []  # the grid row of each entry of `values`
         self.header_row = layout.header_row
         self.pair = layout.pair
-        # The cells a claim needs: a CSV row shorter than this lost some (a missing last cell,
-        # or a row separated by another character), which must not pass for "no claim".
+        # The cells a claim row spans: a CSV row shorter than this left cells off its end (empty
+        # cells) or was written with another separator (refused when it reads as a claim).
         needed = [self.member_h.index] + [v.index for v in self.columns]
         self.needed = max(needed + ([self.pair[1]] if self.pair is not None else [])) + 1
 
