@@ -17,7 +17,12 @@ from hypothesis import strategies as st
 from trussgen import make_model, pratt
 
 from verify.analysis import lu_factors, stability
-from verify.analysis.lu_factors import factor_fill, u_diagonal, u_diagonal_in_place
+from verify.analysis.lu_factors import (
+    factor_fill,
+    splu_checked,
+    u_diagonal,
+    u_diagonal_in_place,
+)
 from verify.analysis.run import AnalysisRun, pivot_ratio
 from verify.analysis.stability import Classification, solve_stability
 
@@ -31,7 +36,8 @@ ORDERINGS = ("COLAMD", "MMD_ATA", "MMD_AT_PLUS_A", "NATURAL")
 @st.composite
 def factors(draw: st.DrawFn) -> spla.SuperLU:
     """A factor of a random sparse n x n matrix (small integers, so that elimination often
-    cancels to stored zeros, or decimals), partial or symmetric-mode pivoting."""
+    cancels to stored zeros, or decimals), partial pivoting, or symmetric mode without pivoting
+    on a symmetric positive definite one."""
     n = draw(st.integers(1, 40))
     seed = draw(st.integers(0, 2**32 - 1))
     rng = np.random.default_rng(seed)
@@ -41,12 +47,16 @@ def factors(draw: st.DrawFn) -> spla.SuperLU:
     M = sp.csc_matrix(M + sp.eye(n) * draw(st.sampled_from([0.0, 1.0, 2.5])))
     if draw(st.booleans()):
         M = sp.csc_matrix(M + M.T)
-    M.eliminate_zeros()
     options = {}
     if draw(st.booleans()):
+        # Symmetric mode without pivoting, as the stiffness solve factors K: only on a symmetric
+        # positive definite matrix, as K is (SuperLU divides by a zero pivot unchecked and has
+        # crashed the test process on the random matrices drawn above).
+        M = sp.csc_matrix(M @ M.T + sp.eye(n))
         options = {"diag_pivot_thresh": 0.0, "options": {"SymmetricMode": True}}
-    try:
-        return spla.splu(M, permc_spec=draw(st.sampled_from(ORDERINGS)), **options)
+    M.eliminate_zeros()
+    try:  # (an empty row or column is refused before SuperLU, which mishandles it)
+        return splu_checked(M, permc_spec=draw(st.sampled_from(ORDERINGS)), **options)
     except RuntimeError:  # exactly singular: no factor to read
         return spla.splu(sp.csc_matrix(sp.eye(n)))
 
@@ -102,3 +112,21 @@ def test_the_kept_factor_leaves_no_copies_and_gives_scipys_ratio(
     assert (stability.u_diagonal_in_place(kept) is not None) is layout_known
     if layout_known:  # scipy's cached copy of U (SuperLUObject.cached_U) was never made
         assert ctypes.c_void_p.from_address(id(kept) + _CACHED_U).value is None
+
+
+def test_an_empty_row_or_column_is_refused_before_superlu(monkeypatch: pytest.MonkeyPatch) -> None:
+    """A square matrix with an empty row (a joint direction nothing acts on) or column is
+    exactly singular: refused as SuperLU refuses one, without calling SuperLU; a full one is
+    factored as before."""
+    called = []
+    real = spla.splu
+    monkeypatch.setattr(spla, "splu", lambda A, **kw: called.append(1) or real(A, **kw))
+    empty_row = sp.csc_matrix(np.array([[1.0, 2.0], [0.0, 0.0]]))
+    empty_column = sp.csc_matrix(np.array([[1.0, 0.0], [2.0, 0.0]]))
+    for A in (empty_row, empty_column):
+        with pytest.raises(RuntimeError, match="exactly singular"):
+            splu_checked(A, permc_spec="COLAMD")
+    assert called == []
+    lu = splu_checked(sp.csc_matrix(np.array([[2.0, 1.0], [1.0, 3.0]])), permc_spec="COLAMD")
+    assert called == [1]
+    np.testing.assert_allclose(lu.solve(np.array([3.0, 4.0])), [1.0, 1.0])

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
+import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 # SuperLUObject (scipy _superluobject.h): PyObject_HEAD, npy_intp m, n, SuperMatrix L, U,
@@ -169,3 +170,15 @@ def factor_fill(lu: spla.SuperLU) -> int:
         return int(lu.L.nnz + lu.U.nnz)
     n = int(lu.shape[0])
     return int(np.count_nonzero(storage.l_values) + np.count_nonzero(storage.u_values) + n)
+
+
+def splu_checked(A: sp.csc_matrix, **options: Any) -> spla.SuperLU:
+    """spla.splu(A, **options), refusing a square matrix with an empty row or column the way
+    SuperLU refuses an exactly singular one (RuntimeError), without calling it: on such matrices
+    scipy 1.17's SuperLU was seen handing BLAS illegal arguments (reported on stdout) and, in a
+    test's random matrices, crashing the process. A joint direction nothing acts on (a joint held
+    only by two collinear chords) gives A such a row."""
+    rows = np.bincount(A.indices, minlength=A.shape[0])
+    if A.shape[0] == A.shape[1] and ((rows == 0).any() or (np.diff(A.indptr) == 0).any()):
+        raise RuntimeError("Factor is exactly singular (an empty row or column)")
+    return spla.splu(A, **options)

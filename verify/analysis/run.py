@@ -32,7 +32,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import assemble_equilibrium
-from verify.analysis.lu_factors import u_diagonal
+from verify.analysis.lu_factors import splu_checked, u_diagonal
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -98,7 +98,7 @@ class AnalysisRun:
     def equilibrium_lu(self) -> spla.SuperLU:
         """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
         if self._lu is None:
-            self._lu = spla.splu(self.equilibrium_matrix(), permc_spec=lu_ordering(self.model))
+            self._lu = splu_checked(self.equilibrium_matrix(), permc_spec=lu_ordering(self.model))
         return self._lu
 
     def keep_lu(self, lu: spla.SuperLU) -> None:
