@@ -278,3 +278,42 @@ def test_moved_body_equals_reference(panels, h, kind, loads, seed, joints):
     finally:
         _Solver._moved_body = fast
     assert calls  # the candidates were examined
+
+
+def _all_sweeps_first(self, directions, sweeps):
+    """The former order: every direction's sweep built before the first cut."""
+    if not sweeps:
+        sweeps.extend(self.eng.sweep(normal) for normal in directions)
+    yield from sweeps
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.integers(0, 10**6), st.integers(3, 16))
+def test_sweeps_built_when_reached_give_the_same_cuts(seed, joints):
+    """Sweeps built only when reached (none once every member is known) give the records, forces
+    and unreached members of sweeps all built first; random simple trusses and a Pratt truss."""
+    import verify.analysis.sections as sections
+
+    for model in (
+        make_model(random_simple_truss(random.Random(seed), joints)),
+        make_model(pratt(panels=2 * (joints // 2 + 1), load=1.0)),
+    ):
+        lazy = solve_sections(model)
+        original = sections._Solver._sweeps_in_turn
+        sections._Solver._sweeps_in_turn = _all_sweeps_first
+        try:
+            eager = solve_sections(model)
+        finally:
+            sections._Solver._sweeps_in_turn = original
+        assert _records(lazy) == _records(eager)
+        assert lazy.unreached == eager.unreached
+        assert np.array_equal(lazy.forces.member_forces, eager.forces.member_forces, equal_nan=True)
+
+
+def test_a_pratt_truss_is_solved_before_its_last_directions_are_swept():
+    """The saving itself: a Pratt truss is solved by its first three cut directions of six."""
+    model = make_model(pratt(panels=8, load=1.0))
+    solver = _Solver(model)
+    solver.run()
+    assert solver.known.all()
+    assert len(solver.sweeps) == 3 < len(_directions(model)) == 6

@@ -747,10 +747,11 @@ class _Solver:
         eng = self.eng
         if eng.nb == 0 or eng.nj < 2:
             return
-        sweeps = [eng.sweep(n) for n in _directions(eng.model)]
+        directions = _directions(eng.model)
+        sweeps: list[_Sweep] = []
         while True:
             progress = False
-            for sw in sweeps:
+            for sw in self._sweeps_in_turn(directions, sweeps):
                 progress |= self._straight(sw) > 0
             if progress:
                 continue
@@ -765,6 +766,18 @@ class _Solver:
                 "candidates"
             )
         self.sweeps = sweeps
+
+    def _sweeps_in_turn(self, directions: np.ndarray, sweeps: list[_Sweep]) -> Iterator[_Sweep]:
+        """The sweeps along `directions` in order, each built when first reached and kept in
+        `sweeps`; none is built once every member is known (its cuts would find nothing). A plane
+        Pratt truss is solved by its first three of six directions: building the other three cost
+        a sixth of the route at 10^6 members, and their arrays the memory."""
+        for k, normal in enumerate(directions):
+            if k == len(sweeps):
+                if self.known.all():
+                    return
+                sweeps.append(self.eng.sweep(normal))
+            yield sweeps[k]
 
     def _straight(self, sw: _Sweep) -> int:
         eng = self.eng
