@@ -386,12 +386,9 @@ def _run_check(
         # Written in pieces as they are encoded: a 10^6-member object is hundreds of megabytes.
         # Straight to the stream: click.echo searches each piece for terminal colour codes to
         # strip, which JSON cannot hold (it escapes every control character), 0.2 s at 10^6.
-        stdout = sys.stdout
-        for piece in json_out.iter_dumps(
-            json_out.check_json(review, displacement_file=result.displacement_file)
-        ):
-            stdout.write(piece)
-        stdout.write("\n")
+        json_out.write_dumps(
+            json_out.check_json(review, displacement_file=result.displacement_file), sys.stdout
+        )
     else:
         # Claims labels may carry ESC or BEL: shown escaped, never sent raw to a terminal.
         click.echo(

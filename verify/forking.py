@@ -20,6 +20,7 @@ everywhere:
 
 from __future__ import annotations
 
+import errno
 import gc
 import io
 import os
@@ -163,6 +164,103 @@ class Forked(Generic[T]):
     def _done(self) -> None:
         self.pid = self.read_fd = None
         gc.unfreeze()
+
+
+def write_in_turn(text: Callable[[int], bytes], count: int, fd: int) -> bool:
+    """Write text(0), text(1), ..., text(count - 1) to the file `fd` in that order, the even
+    ones made by this process and the odd ones by a forked child, each making its next piece
+    while the other writes. The two pass the turn to write through a pair of pipes, so the
+    pieces reach the file in order with no copy between the processes.
+
+    False when no child may be started (nothing is written then). A piece the child fails to
+    make is made here, and the rest with it. OSError when the file cannot be written or the
+    child ends without a word (killed): the output is then incomplete."""
+    if count < 2 or not fork_allowed():
+        return False
+    to_child_r, to_child_w = os.pipe()  # the child's turn
+    to_parent_r, to_parent_w = os.pipe()  # this process's turn, or the child's giving up
+    gc.freeze()  # see Forked.start
+    try:
+        parent = os.getpid()
+        pid = os.fork()
+    except OSError:
+        gc.unfreeze()
+        for end in (to_child_r, to_child_w, to_parent_r, to_parent_w):
+            os.close(end)
+        return False
+    if pid == 0:
+        status = 1
+        try:
+            os.close(to_child_w)
+            os.close(to_parent_r)
+            _end_with(parent)
+            _odd_pieces(text, count, fd, to_child_r, to_parent_w)
+            status = 0
+        finally:
+            os._exit(status)
+    os.close(to_child_r)
+    os.close(to_parent_w)
+    try:
+        _even_pieces(text, count, fd, to_parent_r, to_child_w)
+    except BaseException:
+        try:
+            os.kill(pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
+        raise
+    finally:
+        os.close(to_child_w)
+        os.close(to_parent_r)
+        os.waitpid(pid, 0)
+        gc.unfreeze()
+    return True
+
+
+_TURN, _GIVE_UP = b"t", b"g"  # the child wrote its piece; the child could not make it
+
+
+def _odd_pieces(text: Callable[[int], bytes], count: int, fd: int, turn: int, back: int) -> None:
+    """The child's part of write_in_turn."""
+    for k in range(1, count, 2):
+        try:
+            piece = text(k)
+        except Exception:  # noqa: BLE001 - the other process makes it (and says what failed)
+            piece = None
+        if os.read(turn, 1) != _TURN:
+            return  # the other process ended or gave up: write nothing more
+        if piece is None:
+            os.write(back, _GIVE_UP)
+            return
+        _write_all(fd, piece)
+        os.write(back, _TURN)
+
+
+def _even_pieces(text: Callable[[int], bytes], count: int, fd: int, turn: int, back: int) -> None:
+    """This process's part of write_in_turn: the even pieces, and any the child gave up."""
+
+    def child_wrote() -> bool:
+        answer = os.read(turn, 1)
+        if answer not in (_TURN, _GIVE_UP):
+            raise OSError(errno.EPIPE, "the second process writing the output ended early")
+        return answer == _TURN
+
+    for k in range(0, count, 2):
+        piece = text(k)
+        if k and not child_wrote():
+            for j in range(k - 1, count):  # the child's piece, this one, and every later one
+                _write_all(fd, piece if j == k else text(j))
+            return
+        _write_all(fd, piece)
+        if k + 1 < count:
+            os.write(back, _TURN)
+    if count % 2 == 0 and not child_wrote():
+        _write_all(fd, text(count - 1))
+
+
+def _write_all(fd: int, data: bytes) -> None:
+    view = memoryview(data)
+    while view:
+        view = view[os.write(fd, view) :]
 
 
 # An answer goes through the pipe as: the length of a small header (8 bytes), the header (the

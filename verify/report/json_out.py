@@ -15,7 +15,7 @@ import math
 import re
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from json.encoder import encode_basestring  # the C string encoder json.dumps uses
-from typing import Any
+from typing import Any, TextIO
 
 import numpy as np
 import orjson
@@ -24,6 +24,7 @@ from verify import __version__
 from verify.analysis.pipeline import Analysis
 from verify.compare.diagnose import ROW_KEYS
 from verify.compare.rows import Labels, Numbers, Rows, Written
+from verify.forking import write_in_turn
 from verify.io.files import sha256_file
 from verify.model import Model
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION
@@ -81,10 +82,10 @@ def _encode(value: Any, level: int) -> str:
     text = _scalar(value)
     if text is not None:
         return text
-    return "".join(_pieces(value, level))
+    return "".join(_texts(_pieces(value, level)))
 
 
-def _pieces(value: Any, level: int) -> Iterator[str]:
+def _pieces(value: Any, level: int) -> Iterator[str | RowChunks]:
     """The text of `value` in pieces; an iterator that is not a list or tuple is drawn lazily."""
     text = _scalar(value)
     if text is not None:
@@ -164,7 +165,7 @@ class RowTable:
             yield item
 
 
-def _row_table(table: RowTable, level: int) -> Iterator[str]:
+def _row_table(table: RowTable, level: int) -> Iterator[str | RowChunks]:
     rows = table.rows
     keys = tuple(key for key, _ in table.fields) + tuple(key for key, _ in table.appended)
     if rows and not keys:  # empty objects: "{}", which the pieces below cannot write
@@ -192,7 +193,9 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
     sources += [values for _, values in table.appended]
     numbers = _NumberTexts([source for source in sources if isinstance(source, Numbers)])
     writers = [_column_writer(source, level + 2, numbers) for source in sources]
-    for start in range(0, len(rows), CHUNK_ITEMS):
+
+    def chunk(k: int) -> str:
+        start = k * CHUNK_ITEMS
         stop = min(start + CHUNK_ITEMS, len(rows))
         if isinstance(rows, Rows):
             parts = [write(start, stop) for write in writers[: len(table.fields)]]
@@ -221,8 +224,31 @@ def _row_table(table: RowTable, level: int) -> Iterator[str]:
             if not isinstance(slot, str):
                 flat[j::width] = slot
         flat[-1] = last
-        yield ("[" if start == 0 else ",") + inner + "".join(flat)
+        return ("[" if start == 0 else ",") + inner + "".join(flat)
+
+    yield RowChunks(-(-len(rows) // CHUNK_ITEMS), chunk)
     yield "\n" + INDENT * level + "]"
+
+
+class RowChunks:
+    """A row table's rows as `count` pieces of text, CHUNK_ITEMS rows each: `text(k)` makes the
+    k-th from the rows alone, whichever pieces were made before it, so that two processes can
+    share the making (write_dumps). iter_dumps yields the pieces in order."""
+
+    def __init__(self, count: int, text: Callable[[int], str]) -> None:
+        self.count, self.text = count, text
+
+    def __iter__(self) -> Iterator[str]:
+        return map(self.text, range(self.count))
+
+
+def _texts(pieces: Iterable[str | RowChunks]) -> Iterator[str]:
+    """The pieces as text, row chunks made in order."""
+    for piece in pieces:
+        if isinstance(piece, RowChunks):
+            yield from piece
+        else:
+            yield piece
 
 
 LABELS_ENCODED = 4_096  # a word column with up to this many labels has each encoded once
@@ -536,6 +562,10 @@ def _template(keys: tuple[Any, ...], level: int) -> str:
 
 def iter_dumps(data: dict[str, Any]) -> Iterator[str]:
     """The text of `dumps(data)` in pieces; values that are iterators are drawn one by one."""
+    return _texts(_document(data))
+
+
+def _document(data: dict[str, Any]) -> Iterator[str | RowChunks]:
     if not data:
         yield "{}"
         return
@@ -544,6 +574,40 @@ def iter_dumps(data: dict[str, Any]) -> Iterator[str]:
         yield ("{" if n == 0 else ",") + inner + _key(key) + ": "
         yield from _pieces(value, 1)
     yield "\n}"
+
+
+def write_dumps(data: dict[str, Any], stream: TextIO) -> None:
+    """Write the text of `dumps(data)` and a new line to `stream`, as iter_dumps's pieces come.
+
+    A large row table's chunks are made by this process and a forked one in turn, each writing
+    its own to the stream's file in order (verify.forking.write_in_turn): making the texts is
+    most of the writing (a 10^6-member check's member rows are 1,000 chunks of 2,000 rows), and
+    by then the section route's process has ended, leaving a core free. Where no second process
+    may be started, or the stream has no file of its own (a test's buffer), one process writes
+    every chunk, the same bytes.
+    """
+    for piece in _document(data):
+        if not isinstance(piece, RowChunks):
+            stream.write(piece)
+        elif piece.count < PARALLEL_MIN_CHUNKS or not _write_in_turn(piece, stream):
+            for text in piece:
+                stream.write(text)
+    stream.write("\n")
+
+
+PARALLEL_MIN_CHUNKS = 10  # 20,000 rows: below this a second process costs more than it saves
+
+
+def _write_in_turn(chunks: RowChunks, stream: TextIO) -> bool:
+    """The chunks written by two processes in turn to the stream's file; False (nothing
+    written) when that cannot be done here."""
+    try:
+        fd = stream.fileno()
+    except (AttributeError, OSError, ValueError):  # io.UnsupportedOperation is an OSError
+        return False
+    encoding, errors = stream.encoding or "utf-8", stream.errors or "strict"
+    stream.flush()
+    return write_in_turn(lambda k: chunks.text(k).encode(encoding, errors), chunks.count, fd)
 
 
 def value_units(model: Model) -> dict[str, str]:
