@@ -1,12 +1,13 @@
 """Work in a forked child process: the one place that decides whether forking is safe.
 
-Five parts of the tool start processes: the section route of a large truss (verify.analysis
+Six parts of the tool start processes: the section route of a large truss (verify.analysis
 .pipeline), the stability screen's unit-stiffness factorisation of a large truss with more
 unknown forces than joint equations, made beside the elastic solve (verify.analysis.run), the
 time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness), the LU pivot
 ratio of the factor an analysis run keeps where it cannot be read in place (verify.analysis
-.stability: scipy's reading makes copies of the factors that would stay with it) and the batch's
-process pool (verify.batch.run). All of them ask :func:`fork_allowed`, so one rule holds
+.stability: scipy's reading makes copies of the factors that would stay with it), the writing of
+a large JSON output's member rows (verify.report.json_out.write_dumps) and the batch's process
+pool (verify.batch.run). All of them ask :func:`fork_allowed`, so one rule holds
 everywhere:
 
 - no ``os.fork`` (Windows): no fork;
@@ -15,7 +16,8 @@ everywhere:
 - another thread running (a notebook kernel, a web server, a Dask client): no fork, since a
   forked child can deadlock on a lock one of those threads held at the moment of the fork.
 
-:class:`Forked` runs one function in a child and sends its result back pickled through a pipe.
+:class:`Forked` runs one function in a child and sends its result back pickled through a pipe;
+:func:`write_in_turn` has a child write every other piece of one output.
 """
 
 from __future__ import annotations
