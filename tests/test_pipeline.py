@@ -120,3 +120,77 @@ def test_an_error_in_the_joint_route_leaves_no_child_and_no_frozen_heap(monkeypa
     with pytest.raises(ChildProcessError):
         os.waitpid(started[0], os.WNOHANG)
     assert gc.get_freeze_count() == 0
+
+
+def _screened_in_a_thread(monkeypatch) -> list[str]:
+    """Large-truss settings for a small truss (the section child and the stability thread), and
+    a record of the threads the runs start."""
+    from verify.analysis import run as run_module
+
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    started: list[str] = []
+    original = run_module._Background.__init__
+
+    def record(self, function):
+        started.append(function.__name__)
+        original(self, function)
+
+    monkeypatch.setattr(run_module._Background, "__init__", record)
+    return started
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_stability_screened_in_a_thread_gives_the_serial_analysis(monkeypatch):
+    """A truss over the dense limit (101 panels: 406 joint equations) is screened in a thread
+    while the claims would be read and the joints solved: the verdict, the conditioning figure,
+    every route's forces and the joint steps equal those of the screen run in turn."""
+    from verify.analysis.run import AnalysisRun
+
+    case = pratt(102, load=10.0)
+    with monkeypatch.context() as serial:
+        serial.setattr(AnalysisRun, "start_stability", lambda self: None)
+        serial.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+        alone = pipeline.analyse(make_model(case))
+    started = _screened_in_a_thread(monkeypatch)
+    beside = pipeline.analyse(make_model(case))
+    assert started == ["_screen_stability"]
+    assert beside.stability == alone.stability
+    assert beside.stability.conditioning_ratio is not None
+    for route in ("joints", "global_", "sections"):
+        a, b = getattr(alone, route), getattr(beside, route)
+        forces_a = getattr(a, "forces", a)
+        forces_b = getattr(b, "forces", b)
+        np.testing.assert_array_equal(forces_a.member_forces, forces_b.member_forces)
+    assert list(beside.joints.steps) == list(alone.joints.steps)
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_a_mechanism_found_by_the_thread_drops_the_joints_solved_beside_it(monkeypatch):
+    """A diagonal moved to a braced panel (square A, a mechanism and a self-stress): the joints
+    solved while the screen ran are dropped with whatever they met, and the verdict stands."""
+    from verify.analysis.stability import Classification
+
+    started = _screened_in_a_thread(monkeypatch)
+    case = pratt(102, load=10.0)
+    del case["members"]["U2L3"]
+    case["members"]["L1U2"] = ["L1", "U2"]
+    analysis = pipeline.analyse(make_model(case))
+    assert started == ["_screen_stability"]
+    assert analysis.stability.classification is Classification.UNSTABLE
+    assert analysis.joints is None and analysis.sections is None
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_an_error_in_the_screen_thread_is_raised_to_the_caller(monkeypatch):
+    from verify.analysis import stability
+
+    _screened_in_a_thread(monkeypatch)
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("planted in the screen")
+
+    monkeypatch.setattr(stability, "solve_stability", broken)
+    with pytest.raises(RuntimeError, match="planted in the screen"):
+        pipeline.analyse(make_model(pratt(102, load=10.0)))
+    assert threading.active_count() == 1
