@@ -71,7 +71,7 @@ class EarlyRoutes:
     a second process on a large truss as soon as the model is read, and the stability screen of
     a large square A started in a thread of this one (its factorisation and solves run outside
     the interpreter lock). The caller reads the claims meanwhile and then hands this to
-    `analyse`, which solves by joints while the screen finishes, then globally, and takes the
+    `analyse`, which solves by joints and globally while the screen finishes, and takes the
     section route's result last (DEVELOPERS.md: what else was tried in the child, and why
     not)."""
 
@@ -165,7 +165,7 @@ def _routes(
     displacements: bool,
 ) -> Analysis:
     model = run.model
-    stability, joints_ahead = _stability_beside_joints(run)
+    stability, joints_ahead, global_ahead = _stability_beside_routes(run)
     notes: list[str] = []
     if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
         child.cancel()
@@ -196,7 +196,7 @@ def _routes(
             shared=run,
         )
     joints = joints_ahead if joints_ahead is not None else solve_joints(model, run)
-    global_ = solve_global(model, run)
+    global_ = global_ahead if global_ahead is not None else solve_global(model, run)
     section_solution = None
     if child is not None:
         section_solution = _child_result(child, model)
@@ -224,22 +224,27 @@ def _routes(
     )
 
 
-def _stability_beside_joints(run: AnalysisRun) -> tuple[StabilityResult, JointSolution | None]:
-    """The stability verdict, and the method of joints solved while a screen started in a thread
-    (AnalysisRun.start_stability) finishes: the joints are plain Python and the screen's
-    factorisation runs outside the interpreter lock. The joint solution is dropped, and any
-    error it raised too, unless the verdict asks for it (a route that fails on a truss the screen
-    finds stable is run again after the verdict, where its error is raised as before)."""
+def _stability_beside_routes(
+    run: AnalysisRun,
+) -> tuple[StabilityResult, JointSolution | None, ForceResult | None]:
+    """The stability verdict, and the method of joints and the global solve made while a screen
+    started in a thread (AnalysisRun.start_stability) finishes: the joints are plain Python, and
+    the screen's factorisation and its conditioning estimate's solves run outside the
+    interpreter lock. What was solved is dropped, with any error it met, unless the verdict asks
+    for it (a route that fails on a truss the screen finds stable is run again after the
+    verdict, where its error is raised as before)."""
     if not run.screening():
-        return run.stability(), None
+        return run.stability(), None, None
     joints: JointSolution | None = None
+    global_: ForceResult | None = None
     try:
         joints = solve_joints(run.model, run)
+        global_ = solve_global(run.model, run)
     except Exception:  # noqa: BLE001 - see the docstring
-        joints = None
+        pass
     finally:
         stability = run.stability()
-    return stability, joints
+    return stability, joints, global_
 
 
 def _child_result(child: Forked[SectionSolution], model: Model) -> SectionSolution:
