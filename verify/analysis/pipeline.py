@@ -16,7 +16,6 @@ from verify.analysis.global_solve import solve_global
 from verify.analysis.joints import JointSolution, solve_joints
 from verify.analysis.run import AnalysisRun
 from verify.analysis.stability import (
-    DENSE_DOF_LIMIT,
     Classification,
     StabilityResult,
     unit_stiffness_screened,
@@ -68,12 +67,10 @@ def _large(model: Model) -> bool:
 
 class EarlyRoutes:
     """The method of sections, which needs only the model and its overall reactions, started in
-    a second process on a large truss as soon as the model is read, and the stability screen of
-    a large square A started in a thread of this one (its factorisation and solves run outside
-    the interpreter lock). The caller reads the claims meanwhile and then hands this to
-    `analyse`, which solves by joints and globally while the screen finishes, and takes the
-    section route's result last (DEVELOPERS.md: what else was tried in the child, and why
-    not)."""
+    a second process on a large truss as soon as the model is read. The caller reads the claims
+    meanwhile and then hands this to `analyse`, which takes its result after screening
+    stability and solving by joints and globally in this process (DEVELOPERS.md: what else was
+    tried in the child, and why not)."""
 
     def __init__(self, model: Model, *, sections: bool = True) -> None:
         self.model, self.sections = model, sections
@@ -88,9 +85,6 @@ class EarlyRoutes:
 
             self.run.overall_reactions()  # both routes start from these: solved once, here
             self.child = Forked.start(solve_sections, model)
-        if _large(model) and square and model.dofs > DENSE_DOF_LIMIT:
-            # After the fork: the child is not to start with a thread of this process running.
-            self.run.start_stability()
 
     def cancel(self) -> None:
         """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
@@ -165,7 +159,7 @@ def _routes(
     displacements: bool,
 ) -> Analysis:
     model = run.model
-    stability, joints_ahead, global_ahead = _stability_beside_routes(run)
+    stability = run.stability()
     notes: list[str] = []
     if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
         child.cancel()
@@ -195,8 +189,8 @@ def _routes(
             assumed_EA=assume_equal_EA,
             shared=run,
         )
-    joints = joints_ahead if joints_ahead is not None else solve_joints(model, run)
-    global_ = global_ahead if global_ahead is not None else solve_global(model, run)
+    joints = solve_joints(model, run)
+    global_ = solve_global(model, run)
     section_solution = None
     if child is not None:
         section_solution = _child_result(child, model)
@@ -222,29 +216,6 @@ def _routes(
         assumed_EA=assume_equal_EA,
         shared=run,
     )
-
-
-def _stability_beside_routes(
-    run: AnalysisRun,
-) -> tuple[StabilityResult, JointSolution | None, ForceResult | None]:
-    """The stability verdict, and the method of joints and the global solve made while a screen
-    started in a thread (AnalysisRun.start_stability) finishes: the joints are plain Python, and
-    the screen's factorisation and its conditioning estimate's solves run outside the
-    interpreter lock. What was solved is dropped, with any error it met, unless the verdict asks
-    for it (a route that fails on a truss the screen finds stable is run again after the
-    verdict, where its error is raised as before)."""
-    if not run.screening():
-        return run.stability(), None, None
-    joints: JointSolution | None = None
-    global_: ForceResult | None = None
-    try:
-        joints = solve_joints(run.model, run)
-        global_ = solve_global(run.model, run)
-    except Exception:  # noqa: BLE001 - see the docstring
-        pass
-    finally:
-        stability = run.stability()
-    return stability, joints, global_
 
 
 def _child_result(child: Forked[SectionSolution], model: Model) -> SectionSolution:

@@ -14,10 +14,7 @@ needs instead of calling solvers itself:
   independent of the stiffnesses;
 - ``unit_load_deflection(...)``: the unit-load hand calc of one joint displacement.
 
-A run is used by one thread at a time: it fills its cache as it is asked. The one exception is
-the stability screen `start_stability` runs in a thread while the caller reads the claims and
-solves by joints: the matrix and the overall reactions are made before it starts, and the LU
-both may ask for is made under a lock, once.
+A run is used by one thread at a time: it fills its cache as it is asked.
 
 Code that is handed only the model (the section calc sheets of the reports, per cut) reaches the
 run of that model's analysis through `AnalysisRun.of(model)` while the `Analysis` is alive; the
@@ -26,10 +23,9 @@ model itself keeps nothing.
 
 from __future__ import annotations
 
-import threading
 import weakref
-from collections.abc import Callable, Sequence
-from typing import TYPE_CHECKING, Any, Generic, TypeVar, cast
+from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.sparse as sp
@@ -46,7 +42,6 @@ if TYPE_CHECKING:
     from verify.analysis.stiffness import ElasticSolution
     from verify.analysis.virtual_work import VirtualWorkCalc
 
-T = TypeVar("T")
 OverallReactions = tuple[np.ndarray, np.ndarray, str]  # reactions, moment point, its joint
 
 
@@ -75,10 +70,8 @@ class AnalysisRun:
         self.model = model
         self._equilibrium: sp.csc_matrix | None = None
         self._lu: spla.SuperLU | None = None
-        self._lu_lock = threading.Lock()
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
-        self._screening: _Background[StabilityResult] | None = None  # start_stability's thread
         self._elastic: dict[float | None, ElasticSolution] = {}  # by assume_equal_EA
         # The stability screen's unit-stiffness pivot ratio, read in a child process
         # (start_unit_stiffness_screen) until the screen asks for it.
@@ -104,12 +97,13 @@ class AnalysisRun:
 
     def equilibrium_lu(self) -> spla.SuperLU:
         """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
-        with self._lu_lock:
-            if self._lu is None:
-                self._lu = splu_checked(
-                    self.equilibrium_matrix(), permc_spec=lu_ordering(self.model)
-                )
-            return self._lu
+        if self._lu is None:
+            self._lu = splu_checked(self.equilibrium_matrix(), permc_spec=lu_ordering(self.model))
+        return self._lu
+
+    def keep_lu(self, lu: spla.SuperLU) -> None:
+        """The stability screen factors the same square A with the same ordering: share it."""
+        self._lu = lu
 
     def overall_reactions(self) -> OverallReactions | None:
         """Reactions from overall equilibrium (verify.analysis.joints.solve_reactions)."""
@@ -153,33 +147,12 @@ class AnalysisRun:
         if child is not None:
             child.cancel()
 
-    def start_stability(self) -> None:
-        """Screen stability in a thread of this process while the caller does other work (reads
-        the claims, solves by joints): the screen's sparse factorisation and triangular solves
-        run outside the interpreter lock. `stability()` waits for it. The matrix and the overall
-        reactions the screen and the routes share are made first, here."""
-        if self._stability is not None or self._screening is not None:
-            return
-        self.equilibrium_matrix()
-        self.overall_reactions()
-        self._screening = _Background(self._screen_stability)
-
-    def screening(self) -> bool:
-        """True while a screen started by `start_stability` has not been collected."""
-        return self._screening is not None
-
     def stability(self) -> StabilityResult:
         if self._stability is None:
-            screening, self._screening = self._screening, None
-            self._stability = (
-                screening.result() if screening is not None else self._screen_stability()
-            )
+            from verify.analysis.stability import solve_stability
+
+            self._stability = solve_stability(self.model, run=self)
         return self._stability
-
-    def _screen_stability(self) -> StabilityResult:
-        from verify.analysis.stability import solve_stability
-
-        return solve_stability(self.model, run=self)
 
     # -- what the comparison asks for -----------------------------------------------------------
     def variant(self, model: Model) -> AnalysisRun:
@@ -246,32 +219,6 @@ class AnalysisRun:
         return unit_load_deflection(
             self.model, forces_real, joint, direction, assume_equal_EA=assume_equal_EA
         )
-
-
-class _Background(Generic[T]):
-    """`function()` computed in a thread; `result()` waits for it and returns it or raises what
-    it raised. The thread is a daemon: a run given up (bad claims, an interruption) does not
-    keep the process from ending."""
-
-    def __init__(self, function: Callable[[], T]) -> None:
-        self._function = function
-        self._outcome: tuple[bool, Any] | None = None
-        self._thread = threading.Thread(target=self._work, name="truss-verify run", daemon=True)
-        self._thread.start()
-
-    def _work(self) -> None:
-        try:
-            self._outcome = (True, self._function())
-        except BaseException as exc:  # noqa: BLE001 - handed to the thread that asks
-            self._outcome = (False, exc)
-
-    def result(self) -> T:
-        self._thread.join()
-        assert self._outcome is not None
-        done, value = self._outcome
-        if not done:
-            raise value
-        return cast(T, value)
 
 
 # The run of each analysed model, by the model's identity. Weak: an entry lasts as long as the
