@@ -120,3 +120,74 @@ def test_an_error_in_the_joint_route_leaves_no_child_and_no_frozen_heap(monkeypa
     with pytest.raises(ChildProcessError):
         os.waitpid(started[0], os.WNOHANG)
     assert gc.get_freeze_count() == 0
+
+
+def _large_pratt(monkeypatch):
+    """A truss over the dense limit (102 panels: 410 joint equations, square A) treated as
+    large, so that the section child and the screen beside the claims start for it."""
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    return make_model(pratt(102, load=10.0))
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_the_claims_are_read_in_a_thread_while_this_one_factors(monkeypatch):
+    """The work handed over (reading the claims) runs in another thread; the screen, and the
+    SuperLU factor it makes, in the calling thread (scipy keeps a factor made in a thread that
+    ends); the verdict is the one a screen alone gives."""
+    from verify.analysis import lu_factors, stability
+
+    model = _large_pratt(monkeypatch)
+    factored_in: list[int] = []
+    original = lu_factors.splu_checked
+
+    def recorded(*args, **kwargs):
+        factored_in.append(threading.get_ident())
+        return original(*args, **kwargs)
+
+    monkeypatch.setattr(stability, "splu_checked", recorded)
+    early = pipeline.EarlyRoutes(model)
+    try:
+        worked_in = early.screen_while(threading.get_ident)
+        assert early.run._stability is not None  # screened before the work was collected
+        analysis = pipeline.analyse(model, early=early)
+    finally:
+        early.cancel()
+    here = threading.get_ident()
+    assert worked_in != here and factored_in == [here]
+    alone = pipeline.analyse(make_model(pratt(102, load=10.0)), sections=False)
+    assert analysis.stability == alone.stability
+    np.testing.assert_array_equal(
+        analysis.joints.forces.member_forces, alone.joints.forces.member_forces
+    )
+
+
+def test_a_small_truss_reads_its_claims_in_this_thread(monkeypatch):
+    early = pipeline.EarlyRoutes(make_model(pratt(12, load=10.0)))
+    assert early.screen_while(threading.get_ident) == threading.get_ident()
+    assert early.run._stability is None  # the screen waits for analyse()
+
+
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_an_error_reading_the_claims_is_raised_before_the_screens(monkeypatch):
+    from verify.analysis import stability
+    from verify.errors import InputError
+
+    model = _large_pratt(monkeypatch)
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("planted in the screen")
+
+    def refused():
+        raise InputError(["claims.csv: row 2: planted"])
+
+    early = pipeline.EarlyRoutes(model)
+    try:
+        monkeypatch.setattr(stability, "solve_stability", broken)
+        with pytest.raises(InputError, match="planted"):
+            early.screen_while(refused)
+        with pytest.raises(RuntimeError, match="planted in the screen"):
+            early.screen_while(lambda: "read")
+    finally:
+        early.cancel()
+    assert threading.active_count() == 1

@@ -6,8 +6,10 @@ stable, determinate truss; the stiffness route needs stiffness and an indetermin
 
 from __future__ import annotations
 
+import threading
+from collections.abc import Callable
 from dataclasses import InitVar, dataclass, field
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, Generic, TypeVar, cast
 
 import numpy as np
 
@@ -16,6 +18,7 @@ from verify.analysis.global_solve import solve_global
 from verify.analysis.joints import JointSolution, solve_joints
 from verify.analysis.run import AnalysisRun
 from verify.analysis.stability import (
+    DENSE_DOF_LIMIT,
     Classification,
     StabilityResult,
     unit_stiffness_screened,
@@ -28,6 +31,7 @@ if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
     from verify.analysis.stiffness import ElasticSolution
 
 ROUTE_RTOL = 1e-6  # routes must agree to this fraction of the largest force (round-off only)
+T = TypeVar("T")
 PARALLEL_MIN_MEMBERS = 20_000  # below this a second process costs more than it saves
 
 
@@ -68,9 +72,10 @@ def _large(model: Model) -> bool:
 class EarlyRoutes:
     """The method of sections, which needs only the model and its overall reactions, started in
     a second process on a large truss as soon as the model is read. The caller reads the claims
-    meanwhile and then hands this to `analyse`, which takes its result after screening
-    stability and solving by joints and globally in this process (DEVELOPERS.md: what else was
-    tried in the child, and why not)."""
+    meanwhile (`screen_while`: the stability screen of a large square A is made beside that
+    reading) and then hands this to `analyse`, which takes the section route's result after
+    solving by joints and globally in this process (DEVELOPERS.md: what else was tried in the
+    child, and why not)."""
 
     def __init__(self, model: Model, *, sections: bool = True) -> None:
         self.model, self.sections = model, sections
@@ -86,10 +91,54 @@ class EarlyRoutes:
             self.run.overall_reactions()  # both routes start from these: solved once, here
             self.child = Forked.start(solve_sections, model)
 
+    def screen_while(self, work: Callable[[], T]) -> T:
+        """`work()` (the caller reading the claims) in a thread, while this one screens the
+        stability of a large truss with a square A; `work()` alone for any other truss.
+
+        The screen's sparse factorisation and triangular solves run outside the interpreter
+        lock, so the two overlap. The factorisation stays in this thread: scipy keeps a SuperLU
+        factor made in a thread that then ends for as long as the process lives (measured:
+        400 MB a factor), which a caller checking truss after truss would pile up. An error of
+        `work` is raised as if it had run here, before any error of the screen."""
+        model = self.model
+        square = len(model.members) + len(model.reactions) == model.dofs
+        if not (_large(model) and square and model.dofs > DENSE_DOF_LIMIT):
+            return work()
+        job = _Background(work)
+        try:
+            self.run.stability()
+        finally:
+            done = job.result()
+        return done
+
     def cancel(self) -> None:
         """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
         if self.child is not None:
             self.child.cancel()
+
+
+class _Background(Generic[T]):
+    """`function()` computed in a thread (a daemon: an interrupted run does not keep the process
+    alive); `result()` waits for it, then returns what it returned or raises what it raised."""
+
+    def __init__(self, function: Callable[[], T]) -> None:
+        self._function = function
+        self._outcome: tuple[bool, Any] = (False, None)
+        self._thread = threading.Thread(target=self._work, name="truss-verify", daemon=True)
+        self._thread.start()
+
+    def _work(self) -> None:
+        try:
+            self._outcome = (True, self._function())
+        except BaseException as exc:  # noqa: BLE001 - raised in the thread that asks
+            self._outcome = (False, exc)
+
+    def result(self) -> T:
+        self._thread.join()
+        finished, value = self._outcome
+        if not finished:
+            raise value
+        return cast(T, value)
 
 
 def analyse(
