@@ -149,7 +149,7 @@ def test_the_claims_are_read_in_a_thread_while_this_one_factors(monkeypatch):
     early = pipeline.EarlyRoutes(model)
     try:
         worked_in = early.screen_while(threading.get_ident)
-        assert early.run._stability is not None  # screened before the work was collected
+        assert early.run._verdict is not None  # screened before the work was collected
         analysis = pipeline.analyse(model, early=early)
     finally:
         early.cancel()
@@ -165,7 +165,7 @@ def test_the_claims_are_read_in_a_thread_while_this_one_factors(monkeypatch):
 def test_a_small_truss_reads_its_claims_in_this_thread(monkeypatch):
     early = pipeline.EarlyRoutes(make_model(pratt(12, load=10.0)))
     assert early.screen_while(threading.get_ident) == threading.get_ident()
-    assert early.run._stability is None  # the screen waits for analyse()
+    assert early.run._verdict is None and early.run._stability is None  # left to analyse()
 
 
 @pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
@@ -183,11 +183,30 @@ def test_an_error_reading_the_claims_is_raised_before_the_screens(monkeypatch):
 
     early = pipeline.EarlyRoutes(model)
     try:
-        monkeypatch.setattr(stability, "solve_stability", broken)
+        monkeypatch.setattr(stability, "screen_stability", broken)
         with pytest.raises(InputError, match="planted"):
             early.screen_while(refused)
         with pytest.raises(RuntimeError, match="planted in the screen"):
             early.screen_while(lambda: "read")
     finally:
         early.cancel()
+    assert threading.active_count() == 1
+
+
+def test_the_sigma_figure_estimated_in_a_thread_is_the_one_estimated_in_turn():
+    """The verdict comes at once without the figure; the whole result, waited for, equals the
+    screen made in turn, field by field (the figure, its scaling, the notes in order)."""
+    from verify.analysis.stability import (
+        Classification,
+        screen_stability,
+        solve_stability,
+    )
+
+    model = make_model(pratt(102, load=10.0))
+    verdict, whole = screen_stability(model, background=True)
+    assert verdict.classification is Classification.STABLE_DETERMINATE
+    assert verdict.conditioning_ratio is None
+    result = whole()
+    assert result == solve_stability(make_model(pratt(102, load=10.0)))
+    assert result.conditioning_ratio is not None and result.notes[-1].startswith("sigma_min")
     assert threading.active_count() == 1

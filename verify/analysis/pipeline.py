@@ -6,10 +6,9 @@ stable, determinate truss; the stiffness route needs stiffness and an indetermin
 
 from __future__ import annotations
 
-import threading
 from collections.abc import Callable
 from dataclasses import InitVar, dataclass, field
-from typing import TYPE_CHECKING, Any, Generic, TypeVar, cast
+from typing import TYPE_CHECKING, TypeVar
 
 import numpy as np
 
@@ -23,7 +22,7 @@ from verify.analysis.stability import (
     StabilityResult,
     unit_stiffness_screened,
 )
-from verify.forking import Forked, ForkFailed
+from verify.forking import Background, Forked, ForkFailed
 from verify.model import Model
 
 if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
@@ -104,9 +103,9 @@ class EarlyRoutes:
         square = len(model.members) + len(model.reactions) == model.dofs
         if not (_large(model) and square and model.dofs > DENSE_DOF_LIMIT):
             return work()
-        job = _Background(work)
+        job = Background(work)
         try:
-            self.run.stability()
+            self.run.stability_verdict()  # its sigma figure goes on in a thread of its own
         finally:
             done = job.result()
         return done
@@ -115,30 +114,6 @@ class EarlyRoutes:
         """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
         if self.child is not None:
             self.child.cancel()
-
-
-class _Background(Generic[T]):
-    """`function()` computed in a thread (a daemon: an interrupted run does not keep the process
-    alive); `result()` waits for it, then returns what it returned or raises what it raised."""
-
-    def __init__(self, function: Callable[[], T]) -> None:
-        self._function = function
-        self._outcome: tuple[bool, Any] = (False, None)
-        self._thread = threading.Thread(target=self._work, name="truss-verify", daemon=True)
-        self._thread.start()
-
-    def _work(self) -> None:
-        try:
-            self._outcome = (True, self._function())
-        except BaseException as exc:  # noqa: BLE001 - raised in the thread that asks
-            self._outcome = (False, exc)
-
-    def result(self) -> T:
-        self._thread.join()
-        finished, value = self._outcome
-        if not finished:
-            raise value
-        return cast(T, value)
 
 
 def analyse(
@@ -208,15 +183,17 @@ def _routes(
     displacements: bool,
 ) -> Analysis:
     model = run.model
-    stability = run.stability()
+    verdict = run.stability_verdict()  # the routes are solved while its sigma figure is made
+    if verdict.classification is not Classification.STABLE_DETERMINATE:
+        if child is not None:
+            child.cancel()
+        stability = run.stability()
     notes: list[str] = []
-    if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
-        child.cancel()
-    if stability.classification is Classification.UNSTABLE:
+    if verdict.classification is Classification.UNSTABLE:
         return Analysis(
             model, stability, notes=("unstable: no forces can be recomputed",), shared=run
         )
-    if stability.classification is Classification.STABLE_INDETERMINATE:
+    if verdict.classification is Classification.STABLE_INDETERMINATE:
         elastic = None
         if isinstance(early, ValueError):
             notes.append(_no_stiffness_note(early))
@@ -250,6 +227,7 @@ def _routes(
     disagreement = route_disagreement(
         global_, joints.forces, getattr(section_solution, "forces", None)
     )
+    stability = run.stability()
     elastic = None
     if displacements and (model.has_stiffness or assume_equal_EA is not None):
         elastic = _stiffness_or_note(run, assume_equal_EA, notes)
