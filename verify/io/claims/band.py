@@ -165,7 +165,7 @@ def _compose(
                 carried = cell if not blank(cell) and c > label_at else None
             if blank(cell):
                 continue
-            unit = unit_alone(cell) if r in unit_rows else None
+            unit = unit_alone(cell) if r in unit_rows or _unit_under(cell, names[c]) else None
             if unit is not None:
                 units[c].append((r, unit))
                 continue
@@ -187,3 +187,11 @@ def _compose(
             )
         headers.append(header)
     return headers, unit_rows
+
+
+def _unit_under(cell: Cell, above: Cell) -> bool:
+    """Whether a cell of a header row that also holds other words ('', '(kips)', 'T/C') gives its
+    column's unit: written in brackets, or under a heading of its own ('Axial force' above
+    'kips'). A bare 'N' or 'kN' heading a column from the band's top stays a name."""
+    text = cell_text(cell).strip()
+    return (text[:1] in "([" and text[-1:] in ")]") or not blank(above)

@@ -1,0 +1,96 @@
+"""A unit written on a lower header row that also holds other words ('T/C') gives its column's
+unit: the table below states kips under 'Axial force' beside a T/C column.
+
+The planted mistake is the calc's own: forces worked out in kN and written under a kips heading
+(a unit slip), which must not agree; the honest table of the same truss, in kips, must. Check
+values: the closed forms of the module's triangle (tests/test_claims_layouts.py), and 1 kip =
+4.448222 kN (the international foot-pound definitions, common practice).
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+from verify.analysis.pipeline import analyse
+from verify.compare.diagnose import Verdict, compare_claims
+from verify.io.case import build_model
+from verify.io.claims import read_claims
+from verify.io.claims.band import _compose
+from verify.io.claims.grid import Grid
+
+KN_PER_KIP = 4.4482216152605
+DEAD, SNOW = 10.0, 4.0  # kN at the apex
+
+MODEL = build_model(
+    {
+        "units": {"length": "m", "force": "kN"},
+        "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
+        "members": {
+            "M1": ["A", "B"],
+            "M2": ["B", "C"],
+            "M3": ["A", "D"],
+            "M4": ["B", "D"],
+            "M5": ["C", "D"],
+        },
+        "supports": {"A": ["x", "y"], "C": ["y"]},
+        "loads": {"dead": {"D": [0.0, -DEAD]}, "snow": {"D": [0.0, -SNOW]}},
+    },
+    source="case.toml",
+)
+
+
+def _force(member: str, load: float) -> float:
+    """Tension positive, kN: the triangle's closed forms (joint D, then joint A)."""
+    half, slant = load / 2, -load / math.sqrt(2)
+    return {"M1": half, "M2": half, "M3": slant, "M4": 0.0, "M5": slant}[member]
+
+
+def _rows(scale: float, units_row: list[object]) -> list[list[object]]:
+    rows: list[list[object]] = [["Member", "dead", None, "snow", None], units_row]
+    for m in ("M1", "M2", "M3", "M4", "M5"):
+        row: list[object] = [m]
+        for load in (DEAD, SNOW):
+            value = _force(m, load) * scale
+            row += [round(abs(value), 3), "C" if value < 0 else "T"]
+        rows.append(row)
+    return rows
+
+
+def _review(rows: list[list[object]], path: Path):
+    book = openpyxl.Workbook()
+    for row in rows:
+        book.active.append(row)
+    book.save(path)
+    table = read_claims(path, MODEL)
+    return table, compare_claims(analyse(MODEL), table)
+
+
+@pytest.mark.parametrize("unit", ["(kips)", "kips", "[kip]"])
+def test_kn_values_under_a_kips_heading_beside_tc_columns_do_not_agree(tmp_path, unit):
+    table, review = _review(_rows(1.0, [None, unit, "T/C", unit, "T/C"]), tmp_path / "t.xlsx")
+    assert {v.unit for v in table.values} == {"kip"}
+    assert review.verdict is not Verdict.AGREES
+    kinds = {f.kind for f in review.findings if f.severity.value == "error"}
+    assert "unit-scale" in kinds, [f.detail for f in review.findings]
+
+
+@pytest.mark.parametrize("unit", ["(kips)", "kips"])
+def test_the_same_table_in_kips_agrees(tmp_path, unit):
+    table, review = _review(
+        _rows(1 / KN_PER_KIP, [None, unit, "T/C", unit, "T/C"]), tmp_path / "t.xlsx"
+    )
+    assert {v.unit for v in table.values} == {"kip"}
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+def test_a_unit_heading_a_column_from_the_top_row_stays_its_name():
+    """'N' (normal force) heads a column on the band's top row, its unit on the row below: 'N'
+    is the name, kN the unit; a lower-row word that is no unit stays a name."""
+    grid = Grid([["Member", "N", "Remark"], [None, "kN", "T/C"]], [1, 2], None, False, ",")
+    headers, _ = _compose(grid, 0, 1, 0)
+    assert (headers[1].text, headers[1].unit) == ("N", "kN")
+    assert (headers[2].text, headers[2].unit) == ("T/C", None)
