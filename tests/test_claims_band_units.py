@@ -94,3 +94,63 @@ def test_a_unit_heading_a_column_from_the_top_row_stays_its_name():
     headers, _ = _compose(grid, 0, 1, 0)
     assert (headers[1].text, headers[1].unit) == ("N", "kN")
     assert (headers[2].text, headers[2].unit) == ("T/C", None)
+
+
+def _titled(title: str, scale: float, heading: str = "dead") -> str:
+    """A CSV under a title line, one column per load case with T/C columns."""
+    rows = [title, f"Member,{heading},T/C,snow,T/C"]
+    for m in ("M1", "M2", "M3", "M4", "M5"):
+        cells = [m]
+        for load in (DEAD, SNOW):
+            value = _force(m, load) * scale
+            cells += [f"{abs(value):.3f}", "C" if value < 0 else "T"]
+        rows.append(",".join(cells))
+    return "\n".join(rows) + "\n"
+
+
+def _csv_review(tmp_path, text):
+    path = tmp_path / "claims.csv"
+    path.write_text(text)
+    table = read_claims(path, MODEL)
+    return table, compare_claims(analyse(MODEL), table)
+
+
+@pytest.mark.parametrize(
+    "title", ["Truss T1 member forces (all forces in kips)", "Units: kips", "Member forces [kip]"]
+)
+def test_kn_values_under_a_title_stating_kips_do_not_agree(tmp_path, title):
+    table, review = _csv_review(tmp_path, _titled(title, 1.0))
+    assert {v.unit for v in table.values} == {"kip"}
+    assert review.verdict is not Verdict.AGREES
+    assert "unit-scale" in {f.kind for f in review.findings if f.severity.value == "error"}
+
+
+def test_the_table_in_kips_under_that_title_agrees(tmp_path):
+    _, review = _csv_review(tmp_path, _titled("All forces in kips", 1 / KN_PER_KIP))
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+def test_a_headings_own_unit_stands_over_the_title(tmp_path):
+    """'Applied loads (kips)' above a table whose heading says kN: the heading is read."""
+    table, review = _csv_review(tmp_path, _titled("Applied loads (kips)", 1.0, heading="dead (kN)"))
+    units = {v.column: v.unit for v in table.values}
+    assert units["dead"] == "kN" and units["snow"] == "kip"  # snow's heading states none
+
+
+def test_two_units_stated_above_a_table_without_one_are_refused(tmp_path):
+    from verify.errors import InputError
+
+    path = tmp_path / "claims.csv"
+    path.write_text(_titled("Forces in kN; reactions in kips", 1.0))
+    with pytest.raises(InputError) as raised:
+        read_claims(path, MODEL)
+    message = str(raised.value)
+    assert "row 2" in message and "kN (row 1)" in message and "kip (row 1)" in message
+
+
+def test_titles_that_state_no_force_unit_change_nothing(tmp_path):
+    """Loads per metre, moments, a grid line 'N', a drawing number: the case's unit stands."""
+    text = _titled("Grid line N, loads in kN/m, moments in kNm, drawing 104", 1.0)
+    table, review = _csv_review(tmp_path, text)
+    assert {v.unit for v in table.values} == {None}
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]

@@ -150,3 +150,25 @@ def unit_alone(cell: Cell) -> str | None:
         return lookup_unit(text, Dimension.FORCE).symbol
     except ValueError:
         return None
+
+
+# A force unit stated in a line of text above a table ('Member forces (kips)', 'all forces in
+# kN', 'Units: kN'): in brackets, after 'in', or after 'unit(s)'. Anything else the line says
+# ('kN/m' loads, 'kNm' moments) is no force unit and is passed over.
+_STATED_UNIT = (
+    re.compile(r"[(\[]\s*([^()\[\]]+?)\s*[)\]]"),
+    re.compile(r"\bin\s+([^\s,;:.()\[\]]+)", re.IGNORECASE),
+    re.compile(r"\bunits?\s*[:=]?\s*([^\s,;()\[\]]+)", re.IGNORECASE),
+)
+
+
+def stated_units(text: str) -> list[str]:
+    """The force units a line of text states for what follows it, in the line's order."""
+    places: list[tuple[int, str]] = []
+    for pattern in _STATED_UNIT:
+        for match in pattern.finditer(text):
+            try:
+                places.append((match.start(), lookup_unit(match.group(1), Dimension.FORCE).symbol))
+            except ValueError:
+                continue
+    return list(dict.fromkeys(symbol for _, symbol in sorted(places)))

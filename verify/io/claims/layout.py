@@ -30,6 +30,7 @@ from verify.io.claims.headers import (
     Header,
     header_key,
     parse_header,
+    stated_units,
     unit_alone,
     whole,
 )
@@ -353,6 +354,9 @@ def decide_layout(
     start = header_r + 1
     if band is None:
         start = _apply_units_row(grid, start, member_h.index, value_columns, problems)
+    value_columns = _apply_stated_unit(
+        grid, band.top if band is not None else header_r, value_columns, problems
+    )
     _check_unheaded_data(grid, start, headers, used, problems)
     if problems:
         return empty
@@ -447,6 +451,34 @@ def _apply_units_row(
             continue
         columns[k] = ValueColumn(v.index, v.header, v.case, unit)
     return start + 1
+
+
+def _apply_stated_unit(
+    grid: Grid, top: int, columns: list[ValueColumn], problems: Problems
+) -> list[ValueColumn]:
+    """Value columns whose heading gives no unit take the force unit the lines above the table
+    state ('Member forces (kips)', 'all forces in kN'); a heading's own unit stands. Lines that
+    state two units leave nothing to choose between: a problem, never a guess."""
+    if all(v.unit is not None for v in columns):
+        return columns
+    stated: dict[str, int] = {}  # unit -> the row stating it first
+    for r in range(max(0, top - HEADER_SEARCH_ROWS), top):
+        for cell in grid.rows[r]:
+            if isinstance(cell, str):
+                for unit in stated_units(cell):
+                    stated.setdefault(unit, r)
+    if len(stated) > 1:
+        places = ", ".join(f"{unit} ({grid.row_ref(r)})" for unit, r in stated.items())
+        problems.add(
+            f"the lines above the table state more than one force unit ({places}) and the "
+            "heading gives none; state the claims' unit in the heading, e.g. 'dead (kN)'",
+            grid.where(top),
+        )
+        return columns
+    if not stated:
+        return columns
+    unit = next(iter(stated))
+    return [v if v.unit is not None else replace(v, unit=unit) for v in columns]
 
 
 def _check_unheaded_data(
