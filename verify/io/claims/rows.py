@@ -93,6 +93,9 @@ class RowReader:
         self._claimed: dict[tuple[str, str], tuple[int, str]] = {}  # (target, case) -> (row, label)
         self.minus_letters: list[tuple[int, str]] = []  # (value index, letter) of '-12.4 T' cells
         self.value_rows: list[int] = []  # the grid row of each entry of `values`
+        # Values under labels the model does not have (member None): a member drawn between
+        # other joints is held to them (compare/causes/members.py); never compared as claims.
+        self.unknown_values: list[ClaimedValue] = []
         self.header_row = layout.header_row
         self.pair = layout.pair
         # The cells a claim row spans: a CSV row shorter than this left cells off its end (empty
@@ -389,22 +392,23 @@ class RowReader:
         self._claimed[key] = (r, label)
         if minus_with_letter and match.kind == "member":
             self.minus_letters.append((len(self.values), "T" if value > 0 else "C"))
+        # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
+        claim = ClaimedValue(
+            label,
+            match.member,
+            match.reaction,
+            case_name,
+            float(value) + 0.0,
+            sign_fixed,
+            unit,
+            where,
+            cell_text(cell),
+        )
         if match.kind in ("member", "reaction"):
             self.value_rows.append(r)
-            # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
-            self.values.append(
-                ClaimedValue(
-                    label,
-                    match.member,
-                    match.reaction,
-                    case_name,
-                    float(value) + 0.0,
-                    sign_fixed,
-                    unit,
-                    where,
-                    cell_text(cell),
-                )
-            )
+            self.values.append(claim)
+        elif match.kind == "unknown":
+            self.unknown_values.append(claim)
 
 
 @dataclass(frozen=True)
@@ -819,6 +823,7 @@ class ReadRows:
     value_rows: list[int]  # the grid row of each of `values`
     bulk: BulkClaims | None = None  # the plain rows, read as columns
     layout_columns: tuple[ValueColumn, ...] = ()
+    unknown_values: tuple[ClaimedValue, ...] = ()  # under labels the model does not have
 
 
 def read_rows(
@@ -872,6 +877,7 @@ def read_rows(
         reader.value_rows,
         bulk,
         tuple(layout.columns),
+        tuple(reader.unknown_values),
     )
 
 
