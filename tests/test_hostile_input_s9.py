@@ -100,6 +100,30 @@ def test_a_claim_row_written_apart_in_a_semicolon_table_is_refused(
     assert "expected its cells separated by ';' like the header's" in err
 
 
+LONG = "member,case,force (kN)\n"
+NUMBERED = "No.,member,dead (kN)\n"
+
+
+@pytest.mark.parametrize(
+    ("claims", "row", "said"),
+    [
+        (LONG + "AB;dead;99\nAC,dead,-7.0711\nBC,dead,-7.0711\n", 2, SEMICOLON),
+        (LONG + 'AB,dead,5.0000\n"AC,dead,-99"\nBC,dead,-7.0711\n', 3, QUOTED),
+        (LONG + "AB,dead,5.0000\nAC dead -99\nBC,dead,-7.0711\n", 3, SPACES),
+        (NUMBERED + "1 AB 99\n2,AC,-7.0711\n3,BC,-7.0711\n", 2, SPACES),
+        (NUMBERED + "1,AB,5.0000\n2 AC -99\n3,BC,-7.0711\n", 3, SPACES),
+    ],
+    ids=["long-semicolons-first", "long-quoted", "long-spaces", "numbered-first", "numbered"],
+)
+def test_a_long_or_numbered_row_written_apart_is_refused(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, claims: str, row: int, said: str
+) -> None:
+    """In a long table the load case stands between the label and the force ('AC dead -99'),
+    and a running number may stand before the label ('2 AC -99'): such rows were still members
+    without a claim (or a header row), and the verdict 'agrees'."""
+    assert EXPECTED in _refused_on_row(tmp_path, monkeypatch, claims, row, said)
+
+
 @pytest.mark.parametrize(
     "note", ["AC checked by JB", "AC see note 2", "AC: see calc p.12", '"AC, see note"']
 )

@@ -9,15 +9,16 @@ row (the header band leaves it to the row reader, which refuses it).
 
 from __future__ import annotations
 
-from collections.abc import Callable
-
 from verify.io.claims.grid import FORCE_LIKE
+from verify.io.claims.labels import LabelMatcher
 from verify.io.claims.problems import quoted
 
 OTHER_MARKS = (",", ";", "\t", "|")  # the CSV delimiters a row may be written with by mistake
 SPACES = " "  # (a mark: the row's cells separated by runs of spaces)
 LONGEST_CELL = 400  # longer text is no label and force (labels are at most 200 characters)
+MOST_WORDS = 12  # a row of cells written with spaces has a few words; a longer text is a note
 LABEL_WORDS = 4  # words a label separated by spaces may take ('U1 - U2', 'R L0 y')
+_NAMED = ("member", "reaction")
 
 
 def other_marks(delimiter: str, decimal_comma: bool) -> tuple[str, ...]:
@@ -27,33 +28,37 @@ def other_marks(delimiter: str, decimal_comma: bool) -> tuple[str, ...]:
 
 
 def written_apart(
-    cell: str, delimiter: str, decimal_comma: bool, names: Callable[[str], str]
+    cell: str, delimiter: str, decimal_comma: bool, matcher: LabelMatcher
 ) -> str | None:
-    """How `cell` holds a member or reaction label and the force written after it, separated
-    by a mark other than the table's cells are: that mark, `delimiter` itself (only a quoted
-    cell holds it: the row was written as one quoted cell), or SPACES; else None. A cell naming
-    a member whole is a label, however it is spelled ('U1 U2'); a label followed by words (a
-    note: 'AC checked by JB') is no claim."""
-    if len(cell) > LONGEST_CELL or names(cell) in ("member", "reaction"):
+    """How `cell` holds a claim, separated by a mark other than the table's cells are: that
+    mark, `delimiter` itself (only a quoted cell holds it: the row was written as one quoted
+    cell), or SPACES; else None. A claim: a member or reaction label, then (past a load case
+    name, as a long table writes it) a force; a running number may stand before the label. A
+    cell naming a member whole is a label, however it is spelled ('U1 U2'); a label followed by
+    words (a note: 'AC checked by JB', 'AC see note 2') is no claim."""
+    if len(cell) > LONGEST_CELL or matcher.names(cell) in _NAMED:
         return None
     for mark in (*other_marks(delimiter, decimal_comma), delimiter):
-        if mark in cell:
-            pieces = [p.strip() for p in cell.split(mark)]
-            if _label_then_force(pieces[:1], pieces[1:2], names):
-                return mark
+        if mark in cell and _holds_claim([p.strip() for p in cell.split(mark)], 1, matcher):
+            return mark
     words = cell.split()
-    for k in range(1, min(len(words), LABEL_WORDS + 1)):
-        if _label_then_force(words[:k], words[k : k + 1], names):
-            return SPACES
+    if len(words) <= MOST_WORDS and _holds_claim(words, LABEL_WORDS, matcher):
+        return SPACES
     return None
 
 
-def _label_then_force(label: list[str], after: list[str], names: Callable[[str], str]) -> bool:
-    return (
-        bool(after)
-        and FORCE_LIKE.match(after[0]) is not None
-        and names(" ".join(label)) in ("member", "reaction")
-    )
+def _holds_claim(pieces: list[str], label_pieces: int, matcher: LabelMatcher) -> bool:
+    """Whether some piece (or up to `label_pieces` pieces joined by a space) names a member or
+    reaction and the first piece after it that is not a load case name reads as a force."""
+    cases = matcher.case_names
+    for i in range(len(pieces)):
+        for k in range(1, label_pieces + 1):
+            rest = [p for p in pieces[i + k :] if p.casefold() not in cases]
+            if not rest or FORCE_LIKE.match(rest[0]) is None:
+                continue
+            if matcher.names(" ".join(pieces[i : i + k])) in _NAMED:
+                return True
+    return False
 
 
 def apart_message(mark: str, delimiter: str, cell: str) -> str:

@@ -67,7 +67,7 @@ def _written_apart(grid: Grid, matcher: LabelMatcher, r: int, label_at: int) -> 
     cell = row[label_at] if label_at < len(row) else next((c for c in row if not blank(c)), None)
     text = cell_text(cell)
     return bool(text) and (
-        written_apart(text, grid.delimiter, grid.decimal_comma, matcher.names) is not None
+        written_apart(text, grid.delimiter, grid.decimal_comma, matcher) is not None
     )
 
 

@@ -217,7 +217,7 @@ class RowReader:
         delimiter = self.grid.delimiter
         if delimiter is None or not cell:
             return False
-        mark = written_apart(cell, delimiter, self.grid.decimal_comma, self.matcher.names)
+        mark = written_apart(cell, delimiter, self.grid.decimal_comma, self.matcher)
         if mark is None:
             return False
         self.problems.add(apart_message(mark, delimiter, cell), self.grid.row_ref(r))
