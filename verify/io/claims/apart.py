@@ -50,13 +50,18 @@ def written_apart(
 def _holds_claim(pieces: list[str], label_pieces: int, matcher: LabelMatcher) -> bool:
     """Whether some piece (or up to `label_pieces` pieces joined by a space) names a member or
     reaction and the first piece after it that is not a load case name reads as a force."""
+    force = [FORCE_LIKE.match(p) is not None for p in pieces]
+    if not any(force):  # (most unknown labels: one look at each piece)
+        return False
     cases = matcher.case_names
-    for i in range(len(pieces)):
-        for k in range(1, label_pieces + 1):
-            rest = [p for p in pieces[i + k :] if p.casefold() not in cases]
-            if not rest or FORCE_LIKE.match(rest[0]) is None:
-                continue
-            if matcher.names(" ".join(pieces[i : i + k])) in _NAMED:
+    n = len(pieces)
+    after = [n] * (n + 1)  # after[i]: the first piece from i on that is no load case name
+    for i in range(n - 1, -1, -1):
+        after[i] = after[i + 1] if pieces[i].casefold() in cases else i
+    for i in range(n - 1):
+        for k in range(1, min(label_pieces, n - 1 - i) + 1):
+            j = after[i + k]
+            if j < n and force[j] and matcher.names(" ".join(pieces[i : i + k])) in _NAMED:
                 return True
     return False
 
