@@ -662,7 +662,8 @@ def test_diagonal_drawn_the_other_way_is_named_by_the_label_the_claims_use(tmp_p
     assert cause.unexplained == 0 and cause.joints == ("U2", "L3")
     assert cause.variant == (
         "a truss with L2U3 (L2 to U3), which the claims name, in place of U2L3 (U2 to L3), which "
-        "they leave out: the diagonal of that panel drawn the other way"
+        "they leave out: the diagonal of that panel drawn the other way; the forces written for "
+        "L2U3 are that member's"
     )
     # the panel's chords and verticals carry the change; the label stays an error of its own
     assert set(cause.members) <= {"L2L3", "U2U3", "U2L2", "U3L3"}
@@ -688,6 +689,39 @@ def test_a_mislabelled_row_alone_is_not_a_moved_member(tmp_path):
         column["L2U3"] = column.pop("U2L3")
     review = review_of_file(bridge(), claims, tmp_path)
     assert causes(review) == [] and [f.kind for f in errors(review)] == ["unknown-label"]
+
+
+def test_the_forces_written_under_a_moved_members_label_are_held_to_it(tmp_path):
+    """The values under the label the case does not have (L2U3) are the moved diagonal's forces:
+    the cause says so, in a table written compression-positive too (read as its member claims
+    are)."""
+    claims = claims_of(_diagonal_other_way(bridge()))
+    for written in (claims, {c: {m: -v for m, v in col.items()} for c, col in claims.items()}):
+        (cause,) = causes(review_of_file(bridge(), written, tmp_path))
+        assert cause.variant.endswith(
+            "drawn the other way; the forces written for L2U3 are that member's"
+        )
+
+
+def test_a_wrong_force_under_a_moved_members_label_is_named_with_the_members_force(tmp_path):
+    """L2U3's 'dead' value written 30 % high: the panel's other claims still name the diagonal
+    drawn the other way, and the cause says the value written for it is not its force, which is
+    the panel's shear over the sine of the diagonal's slope (method of sections): under 'dead'
+    the 30 kN per panel point (both chords) of the 9 inner points leave 135 kN at each support
+    and 135 - 2 x 30 = 75 kN of shear in panel 3, and the diagonal rising toward midspan from
+    L2 to U3 is in compression, -75 x sqrt(3^2 + 3.5^2) / 3.5 kN."""
+    claims = claims_of(_diagonal_other_way(bridge()))
+    claims["dead"]["L2U3"] = round(claims["dead"]["L2U3"] * 1.3, 1)
+    (cause,) = causes(review_of_file(bridge(), claims, tmp_path))
+    said = re.search(
+        r"; but the force written for L2U3 in 'dead' \(([-0-9.]+)\) is not that member's "
+        r"\(([-0-9.]+) kN\)$",
+        cause.variant,
+    )
+    assert said is not None, cause.variant
+    shear = (DEAD_BOTTOM + DEAD_TOP) * (PANELS - 1) / 2 - 2 * (DEAD_BOTTOM + DEAD_TOP)
+    assert float(said.group(1)) == claims["dead"]["L2U3"]
+    assert float(said.group(2)) == pytest.approx(-shear * math.hypot(3.0, 3.5) / 3.5, rel=1e-4)
 
 
 def test_joint_pairs_are_read_only_when_the_label_names_them_one_way():

@@ -40,6 +40,7 @@ from verify.compare.causes import (
     explain_shifted_rows,
 )
 from verify.compare.causes.frame import Picked
+from verify.compare.causes.members import WrittenForce
 from verify.compare.causes.search import CLEAR_MAJORITY as CAUSE_MAJORITY
 from verify.compare.causes.search import MIN_EXPLAINED as CAUSE_MIN_EXPLAINED
 from verify.compare.causes.self_check import check_combinations
@@ -60,6 +61,7 @@ from verify.compare.rows import Labels, Numbers, Row, Rows, Written
 from verify.compare.tolerances import Tolerance, allowance
 from verify.formatting import fmt
 from verify.io.claims import ClaimedValue, ClaimsTable
+from verify.io.claims.rounding import rounding_allowance
 from verify.io.claims.table import ClaimArrays
 from verify.model import Model
 from verify.units import Dimension, factor, lookup_unit
@@ -1253,8 +1255,37 @@ def _model_causes(c: Comparison) -> None:
     # values copied from rows that happen to carry the same force.
     labels = tuple(u.label for u in c.claims.unmatched if u.reason == "unknown")
     if labels:
-        _apply_cause(c, partial(explain_moved_member, labels=labels))
+        written = _written_under_unknown_labels(c)
+        _apply_cause(c, partial(explain_moved_member, labels=labels, written=written))
     _apply_cause(c, explain_model)
+
+
+def _written_under_unknown_labels(c: Comparison) -> dict[str, list[WrittenForce]]:
+    """The values written under labels the model does not have, per label, read as the member
+    claims are (the table's unit and sign convention): what a member drawn between the joints a
+    label names is held to. None when a column was read in a scale or sign of its own (which
+    column such a value follows is not known)."""
+    if c.column_readings:
+        return {}
+    option_unit = lookup_unit(c.unit, Dimension.FORCE) if c.unit else None
+    out: dict[str, list[WrittenForce]] = {}
+    for v in c.claims.unknown_values:
+        name = c.mapping.get(v.column, map_columns([v.column], c.load_names)[v.column])
+        if name is None:
+            continue
+        unit = lookup_unit(v.unit, Dimension.FORCE) if v.unit else option_unit or c.case_unit
+        scale = factor(unit, c.case_unit) * c.scale_fit
+        sign = 1.0 if v.sign_fixed else float(c.effective_sign)
+        out.setdefault(v.label, []).append(
+            WrittenForce(
+                c.load_names.index(name),
+                v.value * sign * scale,
+                c.tol.atol_fraction * c.scale_of.get(name, 0.0),
+                rounding_allowance(v.value, scale),
+                v.text,
+            )
+        )
+    return out
 
 
 def _shifted_and_swapped(c: Comparison) -> None:

@@ -25,6 +25,7 @@ remain unexplained.
 from __future__ import annotations
 
 import shlex
+from collections.abc import Mapping, Sequence
 from typing import NamedTuple
 
 import numpy as np
@@ -32,7 +33,7 @@ import numpy as np
 from verify.analysis.pipeline import Analysis
 from verify.compare.causes.bracing import explain_tension_only
 from verify.compare.causes.frame import ClaimsFrame
-from verify.compare.causes.members import find_moved_member
+from verify.compare.causes.members import WrittenForce, find_moved_member
 from verify.compare.causes.search import search_causes
 from verify.compare.causes.supports import explain_released_support
 from verify.compare.causes.table_order import Shift, copied_values, shifted_runs
@@ -170,11 +171,15 @@ def explain_model(frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis) -
 
 
 def explain_moved_member(
-    frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis, labels: tuple[str, ...]
+    frame: ClaimsFrame,
+    pending: np.ndarray,
+    analysis: Analysis,
+    labels: tuple[str, ...],
+    written: Mapping[str, Sequence[WrittenForce]] | None = None,
 ) -> CauseReport:
-    """A member drawn between other joints, named by a label the case does not have
-    (verify.compare.causes.members)."""
-    moved = find_moved_member(frame, pending, analysis, labels)
+    """A member drawn between other joints, named by a label the case does not have, and whether
+    the values written under that label are its forces (verify.compare.causes.members)."""
+    moved = find_moved_member(frame, pending, analysis, labels, written)
     if moved is None:
         return CauseReport(np.zeros(len(frame), dtype=bool), [], [])
     columns = ", ".join(f"'{c}'" for c in frame.columns_of(moved.explained))

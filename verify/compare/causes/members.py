@@ -20,6 +20,8 @@ import numpy as np
 from verify.compare.causes.frame import ClaimsFrame
 from verify.compare.causes.search import CLEAR_MAJORITY, MIN_EXPLAINED
 from verify.compare.causes.variants import GEOMETRY_MEMBER_LIMIT, statics_solution
+from verify.compare.tolerances import allowance
+from verify.formatting import fmt
 from verify.model import Model
 
 if TYPE_CHECKING:
@@ -30,6 +32,16 @@ MAX_LABELS = 10  # unknown labels read as joint pairs
 MAX_UNCLAIMED = 20  # members without a claim tried as the one moved (nearest the named first)
 SINGULAR = 1e-9  # |1 + w_m| below this: the moved member leaves a mechanism
 _SEPARATORS = re.compile(r"\s*(?:-|–|—|_|/|\\|,|\s)\s*")
+
+
+class WrittenForce(NamedTuple):
+    """A value written under a label the model does not have, read as the member claims are."""
+
+    load: int  # position among the model's load names
+    value: float  # case units, tension positive
+    atol: float  # the comparison's absolute allowance for the column
+    rounding: float  # half a unit in its last written decimal, case units
+    text: str  # the cell as written
 
 
 class MovedMember(NamedTuple):
@@ -105,11 +117,16 @@ def replaced_member_forces(
 
 
 def find_moved_member(
-    frame: ClaimsFrame, pending: np.ndarray, analysis: Analysis, labels: Sequence[str]
+    frame: ClaimsFrame,
+    pending: np.ndarray,
+    analysis: Analysis,
+    labels: Sequence[str],
+    written: Mapping[str, Sequence[WrittenForce]] | None = None,
 ) -> MovedMember | None:
     """The move of one unclaimed member to the joints an unknown label names that explains the
     most disagreeing claims: a clear majority of those in the columns it changes, at least
-    MIN_EXPLAINED of them, and no claim that agreed changed to disagree."""
+    MIN_EXPLAINED of them, and no claim that agreed changed to disagree. Its words say whether
+    the values `written` under that label are the moved member's forces."""
     model = analysis.model
     if analysis.global_ is None or len(model.members) > GEOMETRY_MEMBER_LIMIT:
         return None
@@ -134,6 +151,7 @@ def find_moved_member(
         return None
     agreed = frame.agrees(frame.computed)
     best: MovedMember | None = None
+    best_forces = np.zeros(0)  # the moved member's force in each of `columns`
     for label, pair in pairs:
         # the unclaimed members nearest the named one first (the other diagonal of its panel
         # has the same middle), so a spot-check table with many unclaimed members still finds it
@@ -155,7 +173,39 @@ def find_moved_member(
                 continue
             if best is None or n > int(best.explained.sum()):
                 best = MovedMember(_words(model, m, label, pair), label, m, explained)
+                best_forces = t[m]
+    if best is not None and written and written.get(best.label):
+        words = _written_words(frame, best.label, written[best.label], columns, best_forces)
+        best = best._replace(words=best.words + words)
     return best
+
+
+def _written_words(
+    frame: ClaimsFrame,
+    label: str,
+    written: Sequence[WrittenForce],
+    columns: np.ndarray,
+    forces: np.ndarray,
+) -> str:
+    """Whether the values written under `label` are the forces of the member drawn there, in
+    the load columns the cause was judged on (none: nothing said)."""
+    model = frame.model
+    at = {int(k): i for i, k in enumerate(columns.tolist())}
+    held = [(w, float(forces[at[w.load]])) for w in written if w.load in at]
+    if not held:
+        return ""
+    wrong = [
+        (w, f)
+        for w, f in held
+        if abs(w.value - f) > allowance(frame.rtol, w.value, f, w.atol, w.rounding)
+    ]
+    if not wrong:
+        return f"; the forces written for {label} are that member's"
+    w, f = wrong[0]
+    return (
+        f"; but the force written for {label} in '{model.load_names[w.load]}' "
+        f"({w.text.strip()}) is not that member's ({fmt(f)} {model.units.force.symbol})"
+    )
 
 
 def _words(model: Model, member: int, label: str, pair: tuple[int, int]) -> str:

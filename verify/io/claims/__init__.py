@@ -123,6 +123,7 @@ def read_claims(
         sha256=hashlib.sha256(data).hexdigest(),
         values=values,
         unmatched=tuple(read.unmatched),
+        unknown_values=read.unknown_values,
         columns=tuple(read.columns),
         header_unit=read.header_unit,
         sign_conflicts=tuple(read.sign_conflicts),

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
+from verify.io.claims.apart import written_apart
 from verify.io.claims.grid import Cell, Grid, blank, cell_text
 from verify.io.claims.headers import Header, header_key, parse_header, unit_alone
 from verify.io.claims.labels import LabelMatcher
@@ -55,6 +56,19 @@ def _is_number(cell: Cell) -> bool:
         return False
     head = cell.strip().lstrip("(+-\u2212").split(" ")[0].rstrip(")TC").replace(",", "")
     return bool(head) and plain_number(head) is not None
+
+
+def _written_apart(grid: Grid, matcher: LabelMatcher, r: int, label_at: int) -> bool:
+    """Whether row r of a CSV table is a claim written apart (apart.py) in its label cell, or in
+    its first cell when the row is too short to reach the label column."""
+    if grid.delimiter is None:
+        return False
+    row = grid.rows[r]
+    cell = row[label_at] if label_at < len(row) else next((c for c in row if not blank(c)), None)
+    text = cell_text(cell)
+    return bool(text) and (
+        written_apart(text, grid.delimiter, grid.decimal_comma, matcher) is not None
+    )
 
 
 def names_member(matcher: LabelMatcher, cell: Cell) -> bool:
@@ -109,11 +123,13 @@ def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
     label_at = pair[0][0] if use_pair and pair is not None else member_index
     assert label_at is not None
     # The header's last row: the nearest row above the first member row that holds no numbers
-    # (rows in between with numbers are data whose labels the model does not know).
+    # (rows in between with numbers are data whose labels the model does not know, or a claim
+    # written apart, 'M1;12.5': left to the row reader, which refuses it).
     bottom = first_data - 1
     while bottom >= 0 and (
         all(blank(c) for c in grid.rows[bottom])
         or any(_is_number(c) for k, c in enumerate(grid.rows[bottom]) if k != label_at)
+        or _written_apart(grid, matcher, bottom, label_at)
     ):
         bottom -= 1
     if bottom < 0:

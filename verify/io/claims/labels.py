@@ -201,6 +201,11 @@ class LabelMatcher:
             return []
         return [found] if isinstance(found, str) else found
 
+    @cached_property
+    def case_names(self) -> frozenset[str]:
+        """The model's load case and combination names, folded (a long table's case cells)."""
+        return frozenset(name.casefold() for name in self._model.load_names)
+
     def names(self, label: str) -> str:
         """The kind a label reads as ("member", "reaction", "unknown", "ambiguous"), without the
         suggestions an unknown label would get: for scanning every cell of a sheet."""

@@ -14,6 +14,7 @@ import numpy as np
 
 from verify.errors import did_you_mean
 from verify.io.case import LABEL_MAX_CHARS
+from verify.io.claims.apart import apart_message, other_marks, written_apart
 from verify.io.claims.grid import FORCE_LIKE, Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
@@ -92,6 +93,9 @@ class RowReader:
         self._claimed: dict[tuple[str, str], tuple[int, str]] = {}  # (target, case) -> (row, label)
         self.minus_letters: list[tuple[int, str]] = []  # (value index, letter) of '-12.4 T' cells
         self.value_rows: list[int] = []  # the grid row of each entry of `values`
+        # Values under labels the model does not have (member None): a member drawn between
+        # other joints is held to them (compare/causes/members.py); never compared as claims.
+        self.unknown_values: list[ClaimedValue] = []
         self.header_row = layout.header_row
         self.pair = layout.pair
         # The cells a claim row spans: a CSV row shorter than this left cells off its end (empty
@@ -104,8 +108,8 @@ class RowReader:
         row = grid.rows[r]
         if all(blank(c) for c in row):
             return
-        if len(row) < self.needed and grid.delimiter is not None:
-            self._short_row(r, row)
+        if len(row) < self.needed and grid.delimiter is not None and self._short_row(r, row):
+            return
         label_cell = grid.cell(r, self.member_h.index)
         where_label = grid.where(r, self.member_h.index, self.member_h.text)
         present = [v for v in self.columns if not blank(grid.cell(r, v.index))]
@@ -122,6 +126,8 @@ class RowReader:
                 self.problems.add("this row has a force but no member label", where_label)
             return
         if not present:
+            if self.pair is None:  # (a label with its force in it: refused, else no claim)
+                self._written_apart(r, label)
             return
         refusal = refuse_name(label, "member label")
         if refusal:
@@ -135,6 +141,8 @@ class RowReader:
         tc = self._tc_of_row(r)
         row_unit = self._unit_of_row(r)
         match = self.matcher.match(label)
+        if match.kind == "unknown" and self.pair is None and self._written_apart(r, label):
+            return
         if match.kind == "unknown" and is_nan_text(label):
             self.problems.add(
                 f"the member label '{quoted(label)}' is a missing value or spreadsheet error, "
@@ -175,33 +183,45 @@ class RowReader:
             return False
         return True
 
-    def _short_row(self, r: int, row: list[Cell]) -> None:
+    def _short_row(self, r: int, row: list[Cell]) -> bool:
         """A CSV row with fewer cells than its table's columns need. Cells left off the end of a
         row are empty cells (no claim there: those members are missing claims, never agreeing),
         as a hand-written table often leaves them. A row written with another separator (';' in a
         ',' table) that reads as a claim (it names a member or reaction, or holds a number, once
-        split) lost its values: the table is refused on that row. A note under the table ('forces
-        from run 3', 'checked;JB') is no claim and passes."""
-        delimiter = self.grid.delimiter
+        split) lost its values, as did one written with spaces or quoted whole that names a member
+        or reaction with a force after it: the table is refused on that row (True). A note under
+        the table ('forces from run 3', 'checked;JB', 'AC checked by JB') is no claim and passes."""
+        delimiter = self.grid.delimiter or ""
         texts = [cell_text(c) for c in row]
-        marks = (";", "\t", "|") if self.grid.decimal_comma else (",", ";", "\t", "|")
-        others = [d for d in marks if d != delimiter and any(d in t for t in texts)]
-        if not others:
-            return
+        others = [
+            d for d in other_marks(delimiter, self.grid.decimal_comma) if any(d in t for t in texts)
+        ]
         pieces = [t for t in texts if t]
         for other in others:
             pieces = [p.strip() for t in pieces for p in t.split(other) if p.strip()]
-        if not pieces or not (
-            self.matcher.names(pieces[0]) in ("member", "reaction")
-            or any(FORCE_LIKE.match(p) for p in pieces)
+        if others and (
+            pieces
+            and (
+                self.matcher.names(pieces[0]) in ("member", "reaction")
+                or any(FORCE_LIKE.match(p) for p in pieces)
+            )
         ):
-            return
-        self.problems.add(
-            f"this row is separated by '{quoted(others[0])}' where the table's cells are "
-            f"separated by '{quoted(delimiter or '')}', so its values cannot be read; expected "
-            f"its cells separated by '{quoted(delimiter or '')}' like the header's",
-            self.grid.row_ref(r),
-        )
+            self.problems.add(apart_message(others[0], delimiter, ""), self.grid.row_ref(r))
+            return True
+        first = next((t for t in texts if t), "")
+        return self._written_apart(r, first)
+
+    def _written_apart(self, r: int, cell: str) -> bool:
+        """Whether the label cell `cell` holds a label and a force written apart (apart.py):
+        refused on its row."""
+        delimiter = self.grid.delimiter
+        if delimiter is None or not cell:
+            return False
+        mark = written_apart(cell, delimiter, self.grid.decimal_comma, self.matcher)
+        if mark is None:
+            return False
+        self.problems.add(apart_message(mark, delimiter, cell), self.grid.row_ref(r))
+        return True
 
     def _case_of_row(self, r: int) -> str | None:
         if self.case_h is None:
@@ -372,22 +392,23 @@ class RowReader:
         self._claimed[key] = (r, label)
         if minus_with_letter and match.kind == "member":
             self.minus_letters.append((len(self.values), "T" if value > 0 else "C"))
+        # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
+        claim = ClaimedValue(
+            label,
+            match.member,
+            match.reaction,
+            case_name,
+            float(value) + 0.0,
+            sign_fixed,
+            unit,
+            where,
+            cell_text(cell),
+        )
         if match.kind in ("member", "reaction"):
             self.value_rows.append(r)
-            # "+ 0.0" turns the -0.0 of "0 C" into 0.0.
-            self.values.append(
-                ClaimedValue(
-                    label,
-                    match.member,
-                    match.reaction,
-                    case_name,
-                    float(value) + 0.0,
-                    sign_fixed,
-                    unit,
-                    where,
-                    cell_text(cell),
-                )
-            )
+            self.values.append(claim)
+        elif match.kind == "unknown":
+            self.unknown_values.append(claim)
 
 
 @dataclass(frozen=True)
@@ -802,6 +823,7 @@ class ReadRows:
     value_rows: list[int]  # the grid row of each of `values`
     bulk: BulkClaims | None = None  # the plain rows, read as columns
     layout_columns: tuple[ValueColumn, ...] = ()
+    unknown_values: tuple[ClaimedValue, ...] = ()  # under labels the model does not have
 
 
 def read_rows(
@@ -855,6 +877,7 @@ def read_rows(
         reader.value_rows,
         bulk,
         tuple(layout.columns),
+        tuple(reader.unknown_values),
     )
 
 

@@ -364,7 +364,9 @@ class ClaimsTable:
         resolutions: tuple[Resolution, ...] = (),  # columns written coarser than their decimals
         arrays: ClaimArrays | None = None,
         count: int | None = None,  # the number of claims, when `values` is made lazily
+        unknown_values: tuple[ClaimedValue, ...] = (),  # under labels the model does not have
     ) -> None:
+        self.unknown_values = unknown_values
         self.source, self.sheet, self.sha256 = source, sheet, sha256
         self.unmatched, self.columns, self.header_unit = unmatched, columns, header_unit
         self.sign_conflicts, self.resolutions = sign_conflicts, resolutions
