@@ -17,8 +17,7 @@ everywhere:
   forked child can deadlock on a lock one of those threads held at the moment of the fork.
 
 :class:`Forked` runs one function in a child and sends its result back pickled through a pipe;
-:func:`write_in_turn` has a child write every other piece of one output; :class:`Background`
-runs a function in a thread of this process.
+:func:`write_in_turn` has a child write every other piece of one output.
 """
 
 from __future__ import annotations
@@ -33,7 +32,7 @@ import signal
 import sys
 import threading
 from collections.abc import Callable
-from typing import Any, BinaryIO, Generic, TypeVar, cast
+from typing import Any, BinaryIO, Generic, TypeVar
 
 import numpy as np
 
@@ -65,33 +64,6 @@ def _end_with(parent: int) -> None:
         return
     if os.getppid() != parent:  # the parent ended before the request was made
         os._exit(1)
-
-
-class Background(Generic[T]):
-    """`function()` computed in a thread (a daemon: an interrupted run does not keep the process
-    alive); `result()` waits for it, then returns what it returned or raises what it raised.
-    While it runs no child process may be started (fork_allowed). Never for a SuperLU
-    factorisation: scipy keeps a factor made in a thread that ends for the life of the process
-    (its triangular solves leak nothing)."""
-
-    def __init__(self, function: Callable[[], T]) -> None:
-        self._function = function
-        self._outcome: tuple[bool, Any] = (False, None)
-        self._thread = threading.Thread(target=self._work, name="truss-verify", daemon=True)
-        self._thread.start()
-
-    def _work(self) -> None:
-        try:
-            self._outcome = (True, self._function())
-        except BaseException as exc:  # noqa: BLE001 - raised in the thread that asks
-            self._outcome = (False, exc)
-
-    def result(self) -> T:
-        self._thread.join()
-        finished, value = self._outcome
-        if not finished:
-            raise value
-        return cast(T, value)
 
 
 class ForkTimeout(Exception):

@@ -175,17 +175,15 @@ def _check(
     early: EarlyRoutes,
 ) -> CheckResult:
     say(f"reading the claims ({len(model.members):,} members)")
-    claims = early.screen_while(
-        lambda: read_claims(
-            str(claims_path),
-            model,
-            sheet=options.sheet,
-            member_column=options.member_column,
-            case_column=options.case_column,
-            force_column=options.force_column,
-            case=options.load_case,
-            pages=options.pages,
-        )
+    claims = read_claims(
+        str(claims_path),
+        model,
+        sheet=options.sheet,
+        member_column=options.member_column,
+        case_column=options.case_column,
+        force_column=options.force_column,
+        case=options.load_case,
+        pages=options.pages,
     )
     # The count, not the values: those are one object per claim, made only when asked for.
     if not claims.count and claims.unmatched:

@@ -6,9 +6,8 @@ stable, determinate truss; the stiffness route needs stiffness and an indetermin
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from dataclasses import InitVar, dataclass, field
-from typing import TYPE_CHECKING, TypeVar
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -17,12 +16,11 @@ from verify.analysis.global_solve import solve_global
 from verify.analysis.joints import JointSolution, solve_joints
 from verify.analysis.run import AnalysisRun
 from verify.analysis.stability import (
-    DENSE_DOF_LIMIT,
     Classification,
     StabilityResult,
     unit_stiffness_screened,
 )
-from verify.forking import Background, Forked, ForkFailed
+from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
 if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
@@ -30,7 +28,6 @@ if TYPE_CHECKING:  # imported lazily at run time: both pull in heavier modules
     from verify.analysis.stiffness import ElasticSolution
 
 ROUTE_RTOL = 1e-6  # routes must agree to this fraction of the largest force (round-off only)
-T = TypeVar("T")
 PARALLEL_MIN_MEMBERS = 20_000  # below this a second process costs more than it saves
 
 
@@ -71,10 +68,9 @@ def _large(model: Model) -> bool:
 class EarlyRoutes:
     """The method of sections, which needs only the model and its overall reactions, started in
     a second process on a large truss as soon as the model is read. The caller reads the claims
-    meanwhile (`screen_while`: the stability screen of a large square A is made beside that
-    reading) and then hands this to `analyse`, which takes the section route's result after
-    solving by joints and globally in this process (DEVELOPERS.md: what else was tried in the
-    child, and why not)."""
+    meanwhile and then hands this to `analyse`, which takes its result after screening
+    stability and solving by joints and globally in this process (DEVELOPERS.md: what else was
+    tried in the child, and why not)."""
 
     def __init__(self, model: Model, *, sections: bool = True) -> None:
         self.model, self.sections = model, sections
@@ -89,26 +85,6 @@ class EarlyRoutes:
 
             self.run.overall_reactions()  # both routes start from these: solved once, here
             self.child = Forked.start(solve_sections, model)
-
-    def screen_while(self, work: Callable[[], T]) -> T:
-        """`work()` (the caller reading the claims) in a thread, while this one screens the
-        stability of a large truss with a square A; `work()` alone for any other truss.
-
-        The screen's sparse factorisation and triangular solves run outside the interpreter
-        lock, so the two overlap. The factorisation stays in this thread: scipy keeps a SuperLU
-        factor made in a thread that then ends for as long as the process lives (measured:
-        400 MB a factor), which a caller checking truss after truss would pile up. An error of
-        `work` is raised as if it had run here, before any error of the screen."""
-        model = self.model
-        square = len(model.members) + len(model.reactions) == model.dofs
-        if not (_large(model) and square and model.dofs > DENSE_DOF_LIMIT):
-            return work()
-        job = Background(work)
-        try:
-            self.run.stability_verdict()  # its sigma figure goes on in a thread of its own
-        finally:
-            done = job.result()
-        return done
 
     def cancel(self) -> None:
         """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
@@ -183,17 +159,15 @@ def _routes(
     displacements: bool,
 ) -> Analysis:
     model = run.model
-    verdict = run.stability_verdict()  # the routes are solved while its sigma figure is made
-    if verdict.classification is not Classification.STABLE_DETERMINATE:
-        if child is not None:
-            child.cancel()
-        stability = run.stability()
+    stability = run.stability()
     notes: list[str] = []
-    if verdict.classification is Classification.UNSTABLE:
+    if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
+        child.cancel()
+    if stability.classification is Classification.UNSTABLE:
         return Analysis(
             model, stability, notes=("unstable: no forces can be recomputed",), shared=run
         )
-    if verdict.classification is Classification.STABLE_INDETERMINATE:
+    if stability.classification is Classification.STABLE_INDETERMINATE:
         elastic = None
         if isinstance(early, ValueError):
             notes.append(_no_stiffness_note(early))
@@ -227,7 +201,6 @@ def _routes(
     disagreement = route_disagreement(
         global_, joints.forces, getattr(section_solution, "forces", None)
     )
-    stability = run.stability()
     elastic = None
     if displacements and (model.has_stiffness or assume_equal_EA is not None):
         elastic = _stiffness_or_note(run, assume_equal_EA, notes)

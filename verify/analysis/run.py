@@ -24,7 +24,7 @@ model itself keeps nothing.
 from __future__ import annotations
 
 import weakref
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -72,8 +72,6 @@ class AnalysisRun:
         self._lu: spla.SuperLU | None = None
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
-        # stability_verdict's verdict and the function that completes it (screen_stability)
-        self._verdict: tuple[StabilityResult, Callable[[], StabilityResult]] | None = None
         self._elastic: dict[float | None, ElasticSolution] = {}  # by assume_equal_EA
         # The stability screen's unit-stiffness pivot ratio, read in a child process
         # (start_unit_stiffness_screen) until the screen asks for it.
@@ -149,28 +147,11 @@ class AnalysisRun:
         if child is not None:
             child.cancel()
 
-    def stability_verdict(self) -> StabilityResult:
-        """The stability screen's classification and counts, at once; of a large square A the
-        sigma figure is still being estimated in a thread (its triangular solves), and only
-        `stability()` gives the whole result, waiting for it. The pipeline decides its routes
-        from this and solves them meanwhile."""
-        if self._stability is not None:
-            return self._stability
-        if self._verdict is None:
-            from verify.analysis.stability import screen_stability
-
-            self._verdict = screen_stability(self.model, run=self, background=True)
-        return self._verdict[0]
-
     def stability(self) -> StabilityResult:
         if self._stability is None:
-            if self._verdict is not None:
-                self._stability = self._verdict[1]()
-            else:
-                from verify.analysis.stability import solve_stability
+            from verify.analysis.stability import solve_stability
 
-                self._stability = solve_stability(self.model, run=self)
-            self._verdict = None
+            self._stability = solve_stability(self.model, run=self)
         return self._stability
 
     # -- what the comparison asks for -----------------------------------------------------------

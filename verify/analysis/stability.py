@@ -21,8 +21,7 @@ magnitude above the loads deserve a second look).
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from enum import StrEnum
 from typing import Any
 
@@ -33,7 +32,7 @@ import scipy.sparse.linalg as spla
 from verify.analysis.equilibrium import rigid_body_modes
 from verify.analysis.lu_factors import splu_checked, u_diagonal_in_place
 from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio, ratio_of_pivots
-from verify.forking import Background, Forked, ForkFailed
+from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
 DENSE_DOF_LIMIT = 400  # dense SVD (bases of every mode) costs ~0.1 s here; above, sparse LU first
@@ -171,29 +170,11 @@ def solve_stability(
 ) -> StabilityResult:
     """Classify the truss. Never infers stability from a solver not raising: counts come from
     rank. The sparse screen's LU of a square A is handed to `run` for the global solve."""
-    _, whole = screen_stability(model, dense_limit=dense_limit, detail_limit=detail_limit, run=run)
-    return whole()
-
-
-def screen_stability(
-    model: Model,
-    *,
-    dense_limit: int = DENSE_DOF_LIMIT,
-    detail_limit: int | None = None,
-    run: AnalysisRun | None = None,
-    background: bool = False,
-) -> tuple[StabilityResult, Callable[[], StabilityResult]]:
-    """solve_stability's verdict (classification and counts final) at once, and a function
-    that gives its whole result: the same, or the verdict with the sigma_min/sigma_max figure
-    of a large square A, whose estimate is a chain of triangular solves with the LU (0.36 s on
-    the 10^5-member grid). With `background` those solves start in a thread now (they run
-    outside the interpreter lock and make no factor), so that the routes the verdict allows
-    can be solved meanwhile; the function waits for them."""
     run = run if run is not None else AnalysisRun(model)
     A = run.equilibrium_matrix()
     if model.dofs <= dense_limit and A.shape[1] <= 2 * dense_limit:
-        return _as_done(_dense(model, A.toarray()))
-    screened, whole = _sparse(model, A, run, background)
+        return _dense(model, A.toarray())
+    screened = _sparse(model, A, run)
     # With an explicit dense_limit (tests of the sparse path) the hand-over follows it.
     limit = (
         detail_limit
@@ -202,12 +183,8 @@ def screen_stability(
     )
     if not screened.exact_counts and model.dofs <= limit and A.shape[1] <= 2 * limit:
         # The screen found a mechanism; the dense SVD counts them and says which joints move.
-        return _as_done(_dense(model, A.toarray()))
-    return screened, whole
-
-
-def _as_done(result: StabilityResult) -> tuple[StabilityResult, Callable[[], StabilityResult]]:
-    return result, lambda: result
+        return _dense(model, A.toarray())
+    return screened
 
 
 def _labels(model: Model) -> list[str]:
@@ -351,9 +328,7 @@ def _mechanism(model: Model, mode: np.ndarray, rigid: bool) -> MechanismMode:
     )
 
 
-def _sparse(
-    model: Model, A: sp.csc_matrix, run: AnalysisRun, background: bool
-) -> tuple[StabilityResult, Callable[[], StabilityResult]]:
+def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult:
     dofs, cols = A.shape
     extent = extent_ratio(model)
     notes: list[str] = [
@@ -371,19 +346,17 @@ def _sparse(
     if cols < dofs:
         m = dofs - cols
         notes.append(f"Maxwell's count shows at least {m} mechanism(s)")
-        return _as_done(
-            StabilityResult(
-                **base,
-                rank=cols,
-                mechanisms=m,
-                self_stress=0,
-                rigid_body_mechanisms=0,
-                classification=Classification.UNSTABLE,
-                exact_counts=False,
-                scaled_conditioning=None,
-                ill_conditioned=False,
-                notes=tuple(notes),
-            )
+        return StabilityResult(
+            **base,
+            rank=cols,
+            mechanisms=m,
+            self_stress=0,
+            rigid_body_mechanisms=0,
+            classification=Classification.UNSTABLE,
+            exact_counts=False,
+            scaled_conditioning=None,
+            ill_conditioned=False,
+            notes=tuple(notes),
         )
     if cols == dofs:
         try:
@@ -399,7 +372,8 @@ def _sparse(
         # .start_unit_stiffness_screen): the same figure.
         ratio = run.unit_stiffness_ratio()
         singular = ratio < K_PIVOT_SINGULAR
-    estimate: Callable[[], float] | None = None  # the sigma figure, when A is square and sound
+    rho = scaled = None
+    ill = False
     if singular:
         notes.append(
             "the factorisation is singular: at least one mechanism (exact count needs the dense "
@@ -409,19 +383,27 @@ def _sparse(
     else:
         m, rank = 0, dofs
         if cols == dofs:
-            if background:
-                estimate = Background(lambda: _conditioning_estimate(A, lu)).result
-            else:
-                rho = _conditioning_estimate(A, lu)
-                estimate = lambda: rho  # noqa: E731 - the same shape as the thread's
-
+            rho = _conditioning_estimate(A, lu)
+            scaled = rho * extent**2
+            ill = bool(scaled < ILL_CONDITIONED_SCALED)
+            notes.append(
+                f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU "
+                f"factors (LU pivot ratio {ratio:.2e})"
+            )
+            if ill:
+                notes.append(
+                    f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent "
+                    f"ratio^2 = {scaled:.2e} (< {ILL_CONDITIONED_SCALED:g}); member forces are "
+                    "sensitive to small changes of geometry"
+                )
         else:
             notes.append(
                 f"unit-stiffness LU pivot ratio {ratio:.2e} (a screen; no sigma figure for "
                 "indeterminate trusses this large)"
             )
     s = cols - rank
-    verdict = StabilityResult(
+    base["conditioning_ratio"] = rho
+    return StabilityResult(
         **base,
         rank=rank,
         mechanisms=m,
@@ -429,36 +411,9 @@ def _sparse(
         rigid_body_mechanisms=0,
         classification=_classify(m, s),
         exact_counts=not singular,
-        scaled_conditioning=ratio,
-        ill_conditioned=False,
-        notes=tuple(notes),
-    )
-    if estimate is None:
-        return _as_done(verdict)
-    return verdict, lambda: _with_conditioning(verdict, estimate(), ratio)
-
-
-def _with_conditioning(verdict: StabilityResult, rho: float, ratio: float) -> StabilityResult:
-    """The sparse screen's result of a stable square A with its sigma figure: the figure, the
-    figure scaled by the extent ratio squared, whether that is ill-conditioned, and the notes."""
-    scaled = rho * verdict.extent_ratio**2
-    ill = bool(scaled < ILL_CONDITIONED_SCALED)
-    notes = [
-        f"sigma_min/sigma_max estimated by {POWER_ITERATIONS} power iterations with the LU "
-        f"factors (LU pivot ratio {ratio:.2e})"
-    ]
-    if ill:
-        notes.append(
-            f"near-mechanism: sigma_min/sigma_max = {rho:.2e}, scaled by the extent "
-            f"ratio^2 = {scaled:.2e} (< {ILL_CONDITIONED_SCALED:g}); member forces are "
-            "sensitive to small changes of geometry"
-        )
-    return replace(
-        verdict,
-        conditioning_ratio=rho,
-        scaled_conditioning=scaled,
+        scaled_conditioning=scaled if scaled is not None else ratio,
         ill_conditioned=ill,
-        notes=(*verdict.notes, *notes),
+        notes=tuple(notes),
     )
 
 
