@@ -130,3 +130,61 @@ def test_an_empty_row_or_column_is_refused_before_superlu(monkeypatch: pytest.Mo
     lu = splu_checked(sp.csc_matrix(np.array([[2.0, 1.0], [1.0, 3.0]])), permc_spec="COLAMD")
     assert called == [1]
     np.testing.assert_allclose(lu.solve(np.array([3.0, 4.0])), [1.0, 1.0])
+
+
+def test_a_row_or_column_of_stored_zeros_is_empty_too(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The run factors a 3D A with its members' zero direction cosines stored: a row or column
+    holding only stored zeros is as empty as one holding nothing, and refused the same way."""
+    called = []
+    real = spla.splu
+    monkeypatch.setattr(spla, "splu", lambda A, **kw: called.append(1) or real(A, **kw))
+
+    def stored(rows, cols, vals, n=2):
+        return sp.csc_matrix((np.array(vals, float), (rows, cols)), shape=(n, n))
+
+    zero_row = stored([0, 0, 1], [0, 1, 1], [1.0, 2.0, 0.0])  # row 1 holds one stored zero
+    zero_column = stored([0, 1, 0], [0, 0, 1], [1.0, 2.0, 0.0])  # column 1 likewise
+    last_empty = stored([0, 1], [0, 0], [1.0, 2.0])  # nothing at all in the last column
+    assert zero_row.nnz == zero_column.nnz == 3  # the zeros are stored, not dropped
+    for A in (zero_row, zero_column, last_empty):
+        assert A.shape == (2, 2)
+        with pytest.raises(RuntimeError, match="exactly singular"):
+            splu_checked(A, permc_spec="COLAMD")
+    assert called == []
+    full = stored([0, 1, 0, 1], [0, 0, 1, 1], [2.0, 1.0, 0.0, 3.0])  # a stored zero, full rank
+    np.testing.assert_allclose(
+        splu_checked(full, permc_spec="COLAMD").solve(np.array([2.0, 4.0])), [1, 1]
+    )
+
+
+def test_the_3d_matrix_factored_is_a_with_its_zero_cosines_stored() -> None:
+    """AnalysisRun.lu_matrix: in 3D the same numbers as A, every member end stored in all three
+    directions of its joint; in 2D A itself."""
+    from trussgen import make_model, pratt
+
+    from verify.analysis.run import AnalysisRun
+    from verify.io.case import build_model
+
+    model = build_model(
+        {
+            "units": {"length": "m", "force": "kN"},
+            "joints": {
+                "A": [0.0, 0.0, 0.0], "B": [4.0, 0.0, 0.0], "C": [0.0, 4.0, 0.0],
+                "D": [1.0, 1.0, 3.0],
+            },
+            "members": {
+                "AB": ["A", "B"], "AC": ["A", "C"], "BC": ["B", "C"],
+                "AD": ["A", "D"], "BD": ["B", "D"], "CD": ["C", "D"],
+            },
+            "supports": {"A": ["x", "y", "z"], "B": ["y", "z"], "C": ["z"]},
+            "loads": {"P": {"D": [0.0, 0.0, -10.0]}},
+        },
+        source="case.toml",
+    )  # fmt: skip
+    run = AnalysisRun(model)
+    A, M = run.equilibrium_matrix(), run.lu_matrix()
+    np.testing.assert_array_equal(A.toarray(), M.toarray())
+    b = len(model.members)
+    assert (np.diff(M.indptr)[:b] == 6).all() and M.nnz > A.nnz  # AB, AC, BC: zeros stored
+    planar = AnalysisRun(make_model(pratt(4, load=1.0)))
+    assert planar.lu_matrix() is planar.equilibrium_matrix()

@@ -15,11 +15,13 @@ import scipy.sparse as sp
 from verify.model import Model
 
 
-def assemble_equilibrium(model: Model) -> sp.csc_matrix:
+def assemble_equilibrium(model: Model, *, member_zeros: bool = False) -> sp.csc_matrix:
     """The sparse equilibrium matrix A (vectorised COO assembly), built anew at each call.
 
     Within an analysis, ask the run (verify.analysis.run.AnalysisRun.equilibrium_matrix), which
-    builds it once for every route.
+    builds it once for every route. `member_zeros` keeps a member's zero direction cosines as
+    stored entries (the same matrix, every member end then touching all d directions of its
+    joint): the pattern the run factors a 3D A with (AnalysisRun.lu_matrix).
     """
     d = model.dim
     b = len(model.members)
@@ -38,14 +40,16 @@ def assemble_equilibrium(model: Model) -> sp.csc_matrix:
     if r:
         r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
         r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
-        rows.append((r_joint[:, None] * d + comp).ravel())
-        cols.append(np.repeat(np.arange(b, b + r), d))
-        data.append(r_dir.ravel())
+        acting = r_dir.ravel() != 0  # a reaction acts along its own direction only
+        rows.append((r_joint[:, None] * d + comp).ravel()[acting])
+        cols.append(np.repeat(np.arange(b, b + r), d)[acting])
+        data.append(r_dir.ravel()[acting])
     A = sp.coo_matrix(
         (np.concatenate(data), (np.concatenate(rows), np.concatenate(cols))),
         shape=(model.dofs, b + r),
     ).tocsc()
-    A.eliminate_zeros()
+    if not member_zeros:
+        A.eliminate_zeros()
     return A
 
 

@@ -178,7 +178,12 @@ def splu_checked(A: sp.csc_matrix, **options: Any) -> spla.SuperLU:
     scipy 1.17's SuperLU was seen handing BLAS illegal arguments (reported on stdout) and, in a
     test's random matrices, crashing the process. A joint direction nothing acts on (a joint held
     only by two collinear chords) gives A such a row."""
-    rows = np.bincount(A.indices, minlength=A.shape[0])
-    if A.shape[0] == A.shape[1] and ((rows == 0).any() or (np.diff(A.indptr) == 0).any()):
-        raise RuntimeError("Factor is exactly singular (an empty row or column)")
+    if A.shape[0] == A.shape[1] and A.shape[0]:
+        # Empty as numbers: a stored zero (AnalysisRun.lu_matrix keeps some) fills nothing.
+        acting = A.data != 0
+        empty = (np.diff(A.indptr) == 0).any()
+        if not empty:  # every column holds an entry: each has a place to reduce from
+            empty = not np.logical_or.reduceat(acting, A.indptr[:-1]).all()
+        if empty or (np.bincount(A.indices[acting], minlength=A.shape[0]) == 0).any():
+            raise RuntimeError("Factor is exactly singular (an empty row or column)")
     return spla.splu(A, **options)

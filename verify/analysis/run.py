@@ -98,8 +98,19 @@ class AnalysisRun:
     def equilibrium_lu(self) -> spla.SuperLU:
         """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
         if self._lu is None:
-            self._lu = splu_checked(self.equilibrium_matrix(), permc_spec=lu_ordering(self.model))
+            self._lu = splu_checked(self.lu_matrix(), permc_spec=lu_ordering(self.model))
         return self._lu
+
+    def lu_matrix(self) -> sp.csc_matrix:
+        """The matrix the LU of A is made from: A itself in 2D; in 3D, A with each member's zero
+        direction cosines kept as stored entries (assemble_equilibrium(member_zeros=True)), the
+        same numbers. MMD_ATA orders the columns by the pattern of A^T A, and on the
+        pattern in which every member end touches all three directions of its joint it found
+        far less fill on the double-layer grids (10^5 members: 10.2 -> 8.1 million entries,
+        0.44 -> 0.33 s; 10^6: 150 -> 109 million, 13.7 -> 6.0 s); in 2D COLAMD found no less."""
+        if self.model.dim != 3:
+            return self.equilibrium_matrix()
+        return assemble_equilibrium(self.model, member_zeros=True)
 
     def keep_lu(self, lu: spla.SuperLU) -> None:
         """The stability screen factors the same square A with the same ordering: share it."""

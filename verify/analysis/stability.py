@@ -360,7 +360,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         )
     if cols == dofs:
         try:
-            lu = splu_checked(A, permc_spec=lu_ordering(model))
+            lu = splu_checked(run.lu_matrix(), permc_spec=lu_ordering(model))
             # The global statics solve factors the same matrix with the same ordering: share it.
             run.keep_lu(lu)
             ratio = _kept_pivot_ratio(lu)
