@@ -66,6 +66,14 @@ def refuse_name(text: str, what: str) -> str | None:
     return None
 
 
+def _reads_as_number(text: str) -> bool:
+    try:
+        float(text.replace(",", ""))
+    except ValueError:
+        return False
+    return True
+
+
 class RowReader:
     """Reads data rows into claims, matching labels once each and catching duplicate claims."""
 
@@ -97,11 +105,52 @@ class RowReader:
         # other joints is held to them (compare/causes/members.py); never compared as claims.
         self.unknown_values: list[ClaimedValue] = []
         self.header_row = layout.header_row
+        self._stacked_at: int | None = None  # the row a second table's header is written on
         self.pair = layout.pair
         # The cells a claim row spans: a CSV row shorter than this left cells off its end (empty
         # cells) or was written with another separator (refused when it reads as a claim).
         needed = [self.member_h.index] + [v.index for v in self.columns]
         self.needed = max(needed + ([self.pair[1]] if self.pair is not None else [])) + 1
+
+    def _second_table(self, first_r: int, r: int) -> bool:
+        """Whether the header is written again between two rows claiming the same thing: a
+        second table under the first (one per load case, each under its title), which is said
+        once, at its header, instead of a duplicate claim per row. Later duplicates under it
+        are then passed over in silence (True)."""
+        if self._stacked_at is not None:
+            return first_r < self._stacked_at < r
+        grid = self.grid
+        at = self.member_h.index
+        heading = cell_text(grid.cell(self.header_row, at)).strip().casefold()
+        for h in range(first_r + 1, r):
+            again = [cell_text(c).strip() for c in grid.rows[h]]
+            # The member column's heading again, over headings (no number): a header.
+            if (
+                heading
+                and at < len(again)
+                and again[at].casefold() == heading
+                and not any(_reads_as_number(text) for text in again)
+            ):
+                self._stacked_at = h
+                above = [
+                    cell_text(c).strip()
+                    for c in (grid.rows[h - 1] if h - 1 > first_r else [])
+                    if not blank(c)
+                ]
+                title = f" under '{above[0]}' ({grid.row_ref(h - 1)})" if len(above) == 1 else ""
+                self.problems.add(
+                    f"a second table starts here{title}: the header is written again and the "
+                    "rows under it name members the table above already gave (first "
+                    f"'{self._claimed_label(first_r)}', {grid.row_ref(first_r)}); give each load "
+                    "case a column of one table, or each table a file of its own (checked with "
+                    "--case NAME)",
+                    grid.where(h),
+                )
+                return True
+        return False
+
+    def _claimed_label(self, r: int) -> str:
+        return next(label for row, label in self._claimed.values() if row == r)
 
     def read_row(self, r: int) -> None:
         grid = self.grid
@@ -377,6 +426,8 @@ class RowReader:
         key = (target, case_name.casefold())
         if key in self._claimed:
             first_r, first_label = self._claimed[key]
+            if self._second_table(first_r, r):
+                return
             what = {
                 "member": f"member '{match.member}'",
                 "reaction": f"reaction '{match.reaction_label}'",
