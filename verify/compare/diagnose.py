@@ -602,13 +602,59 @@ def _case_mismatch(c: Comparison) -> None:
                     "case-mismatch",
                     (),
                     f"claims column '{column}' names no load case or combination of the model "
-                    f"(known: {', '.join(load_names)}); its claims are not checked",
+                    f"(known: {', '.join(load_names)}); its claims are not checked"
+                    + _unnamed_combination(c, column),
                     Severity.ERROR,
                     locations=_column_where(c.arrays, column),
                 )
             )
     mapping.update(remap)
     c.member_idx = _member_claims(c.arrays, mapping)
+
+
+COMBINATION_SHARE = 0.95  # members a fitted combination must explain to be named
+FACTOR_STEP = 0.05  # load factors are written to this step (1.35, 1.5, 0.9: common practice)
+
+
+def _unnamed_combination(c: Comparison, column: str) -> str:
+    """For a claims column naming no load of the model: the combination of the model's load
+    cases its values are, as a sentence with the case-file line that would have it checked, or
+    "". Factors by least squares over the column's member claims, rounded to FACTOR_STEP, then
+    held to the claims with the comparison's own tolerance; named when at least two cases take
+    part and COMBINATION_SHARE of the members agree."""
+    ref, cases = c.ref, len(c.model.cases)
+    names = list(c.arrays.names)
+    if ref is None or cases < 2 or column not in names:
+        return ""
+    idx = np.flatnonzero((c.column_of_claim == names.index(column)) & (c.member_pos >= 0))
+    if len(idx) < max(MIN_MEMBERS_FOR_TABLE, cases + 1):
+        return ""
+    claimed = c.raw[idx] * c.conv[idx]
+    X = ref.member_forces[c.member_pos[idx], :cases]
+    if np.linalg.matrix_rank(X) < cases:
+        return ""  # cases whose forces are in proportion here: no one set of factors
+    factors = np.round(np.linalg.lstsq(X, claimed, rcond=None)[0] / FACTOR_STEP) * FACTOR_STEP
+    if np.count_nonzero(factors) < 2:
+        return ""
+    fitted = X @ factors
+    scale = float(np.abs(fitted).max()) or 1.0
+    allowed = c.tol.rtol * np.abs(fitted) + c.tol.atol_fraction * scale + c.rounding_unit[idx]
+    if np.mean(np.abs(fitted - claimed) <= allowed) < COMBINATION_SHARE:
+        return ""
+    terms = [(f"{f:g}", c.model.cases[k].name) for k, f in enumerate(factors.tolist()) if f != 0]
+    words = " + ".join(f"{f} x {name}" for f, name in terms)
+    line = ", ".join(f"{_toml_key(name)} = {f}" for f, name in terms)
+    return (
+        f"; its values are {words} ({int(np.sum(np.abs(fitted - claimed) <= allowed))} of "
+        f"{len(idx)} members agree): to check them, add under [combinations] in the case file "
+        f"{_toml_key(column)} = {{ {line} }}"
+    )
+
+
+def _toml_key(name: str) -> str:
+    """A TOML key for a name: bare when it can be, else quoted."""
+    bare = name.replace("_", "").replace("-", "").isalnum() and name.isascii()
+    return name if bare else '"' + name.replace("\\", "\\\\").replace('"', '\\"') + '"'
 
 
 def _column_holds(
