@@ -9,44 +9,19 @@ values: the closed forms of the module's triangle (tests/test_claims_layouts.py)
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import openpyxl
 import pytest
+from test_claims_layouts import DEAD, MODEL, SNOW, _force
 
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Verdict, compare_claims
-from verify.io.case import build_model
 from verify.io.claims import read_claims
 from verify.io.claims.band import _compose
 from verify.io.claims.grid import Grid
 
 KN_PER_KIP = 4.4482216152605
-DEAD, SNOW = 10.0, 4.0  # kN at the apex
-
-MODEL = build_model(
-    {
-        "units": {"length": "m", "force": "kN"},
-        "joints": {"A": [0.0, 0.0], "B": [3.0, 0.0], "C": [6.0, 0.0], "D": [3.0, 3.0]},
-        "members": {
-            "M1": ["A", "B"],
-            "M2": ["B", "C"],
-            "M3": ["A", "D"],
-            "M4": ["B", "D"],
-            "M5": ["C", "D"],
-        },
-        "supports": {"A": ["x", "y"], "C": ["y"]},
-        "loads": {"dead": {"D": [0.0, -DEAD]}, "snow": {"D": [0.0, -SNOW]}},
-    },
-    source="case.toml",
-)
-
-
-def _force(member: str, load: float) -> float:
-    """Tension positive, kN: the triangle's closed forms (joint D, then joint A)."""
-    half, slant = load / 2, -load / math.sqrt(2)
-    return {"M1": half, "M2": half, "M3": slant, "M4": 0.0, "M5": slant}[member]
 
 
 def _rows(scale: float, units_row: list[object]) -> list[list[object]]:

@@ -2,13 +2,13 @@
 are said once, at the second header, instead of a duplicate claim per row; a table continued
 under a repeated header (an export with page breaks) is still read whole.
 
-Check values: the triangle's closed forms (tests/test_claims_band_units.py).
+Check values: the triangle's closed forms (tests/test_claims_layouts.py).
 """
 
 from __future__ import annotations
 
 import pytest
-from test_claims_band_units import DEAD, MODEL, SNOW, _force
+from test_claims_layouts import DEAD, MODEL, SNOW, _force
 
 from verify.analysis.pipeline import analyse
 from verify.compare.diagnose import Verdict, compare_claims
