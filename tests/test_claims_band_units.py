@@ -73,7 +73,7 @@ def test_a_unit_heading_a_column_from_the_top_row_stays_its_name():
 
 def _titled(title: str, scale: float, heading: str = "dead") -> str:
     """A CSV under a title line, one column per load case with T/C columns."""
-    rows = [title, f"Member,{heading},T/C,snow,T/C"]
+    rows = [f'"{title}"' if "," in title else title, f"Member,{heading},T/C,snow,T/C"]
     for m in ("M1", "M2", "M3", "M4", "M5"):
         cells = [m]
         for load in (DEAD, SNOW):
@@ -106,8 +106,8 @@ def test_the_table_in_kips_under_that_title_agrees(tmp_path):
 
 
 def test_a_headings_own_unit_stands_over_the_title(tmp_path):
-    """'Applied loads (kips)' above a table whose heading says kN: the heading is read."""
-    table, review = _csv_review(tmp_path, _titled("Applied loads (kips)", 1.0, heading="dead (kN)"))
+    """ "Member forces (kips)" above a table whose dead heading says kN: that heading is read."""
+    table, review = _csv_review(tmp_path, _titled("Member forces (kips)", 1.0, heading="dead (kN)"))
     units = {v.column: v.unit for v in table.values}
     assert units["dead"] == "kN" and units["snow"] == "kip"  # snow's heading states none
 
@@ -128,4 +128,33 @@ def test_titles_that_state_no_force_unit_change_nothing(tmp_path):
     text = _titled("Grid line N, loads in kN/m, moments in kNm, drawing 104", 1.0)
     table, review = _csv_review(tmp_path, text)
     assert {v.unit for v in table.values} == {None}
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+@pytest.mark.parametrize(
+    "title",
+    [
+        "Truss T2 (N)",
+        "Sign bracket in N. Yorkshire",
+        "Designer: J. Smith (MN)",
+        "Ref: Unit N",
+        "Elevation (N)",
+        "Forces in kips, converted to kN",
+    ],
+)
+def test_prose_that_only_looks_like_a_unit_states_none(tmp_path, title):
+    """A north truss, a state, a county, a conversion: no force unit is read from them, so the
+    kN table agrees as the case's unit (a title read as N made it a 1000x unit-scale error)."""
+    table, review = _csv_review(tmp_path, _titled(title, 1.0))
+    assert {v.unit for v in table.values} == {None}
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+def test_a_unit_column_gives_each_rows_unit_over_a_title(tmp_path):
+    """A long table with a Unit column under 'Member forces (kN)': each row's own unit."""
+    rows = ["Member forces (kN)", "Member,Load case,Force,Unit"]
+    for m in ("M1", "M2", "M3", "M4", "M5"):
+        rows.append(f"{m},dead,{_force(m, DEAD) / KN_PER_KIP:.4f},kip")
+    table, review = _csv_review(tmp_path, "\n".join(rows) + "\n")
+    assert {v.unit for v in table.values} == {"kip"}
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]

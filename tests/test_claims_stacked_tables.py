@@ -65,3 +65,17 @@ def test_a_table_continued_under_a_repeated_header_is_read_whole(tmp_path):
 def test_a_member_written_twice_in_one_table_is_still_a_duplicate_claim(tmp_path):
     message = _refusal(tmp_path, "Member,dead (kN)\n" + _block(DEAD) + "M3,-7.071\n")
     assert "duplicate claim: member 'M3' for 'dead' is given twice, in row 4" in message
+
+
+def test_a_continued_table_that_gives_a_member_twice_keeps_its_duplicate_claim(tmp_path):
+    """Header repeated after M2, new members under it, then M2 again: a duplicate claim."""
+    text = (
+        "Member,dead (kN)\n"
+        + _block(DEAD, ("M1", "M2"))
+        + "Member,dead (kN)\n"
+        + _block(DEAD, ("M3", "M4", "M2"))
+    )
+    message = _refusal(tmp_path, text)
+    assert "duplicate claim: member 'M2' for 'dead' is given twice, in row 3" in message
+    assert "second table" not in message
+

@@ -76,3 +76,36 @@ def test_a_column_that_is_no_combination_gets_no_factors():
     review = compare_claims(analyse(make_model(bridge())), garbled)
     details = " ".join(f.detail for f in review.findings if f.kind == "case-mismatch")
     assert "its values are" not in details
+
+
+def test_too_few_distinct_claims_to_tell_a_fit_from_a_coincidence_get_no_factors():
+    """The bundled sign bracket has two distinct non-zero member rows for its two cases: any
+    values fit some factors exactly, so none are offered (arbitrary values planted)."""
+    from pathlib import Path
+
+    from verify.io.case import read_case
+
+    root = Path(__file__).resolve().parents[2]
+    model = read_case(str(root / "cases" / "sign-bracket" / "case.toml"))
+    analysis = analyse(model)
+    # DA and EA carry the same forces, as do DB and EC; DC none; DE left blank, as a table would.
+    arbitrary = {"DA": 3.7, "DB": 1.2, "DC": 0.0, "EA": 3.7, "EC": 1.2}
+    assert set(arbitrary) <= set(analysis.model.member_ids)
+    review = compare_claims(analysis, table({"ULS-B": arbitrary}))
+    details = " ".join(f.detail for f in review.findings if f.kind == "case-mismatch")
+    assert "ULS-B" in details and "its values are" not in details
+
+
+def test_a_combination_written_in_the_other_sign_is_left_to_the_sign_diagnoses():
+    calc = bridge()
+    calc["combinations"]["ULS-B"] = {"dead": 1.2, "traffic": 1.6}
+    claims = _claims(calc, {"dead": "dead", "traffic": "traffic", "ULS-B": "ULS-B"})
+    reversed_claims = table(
+        {
+            column: {v.member: (-v.value if column == "ULS-B" else v.value) for v in claims.values
+                     if v.column == column}
+            for column in ("dead", "traffic", "ULS-B")
+        }
+    )  # fmt: skip
+    review = compare_claims(analyse(make_model(bridge())), reversed_claims)
+    assert "its values are" not in _mismatch(review).detail

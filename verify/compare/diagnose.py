@@ -620,34 +620,43 @@ def _unnamed_combination(c: Comparison, column: str) -> str:
     """For a claims column naming no load of the model: the combination of the model's load
     cases its values are, as a sentence with the case-file line that would have it checked, or
     "". Factors by least squares over the column's member claims, rounded to FACTOR_STEP, then
-    held to the claims with the comparison's own tolerance; named when at least two cases take
-    part and COMBINATION_SHARE of the members agree."""
+    held to the claims with the comparison's own allowance (the combination's largest force
+    over all members setting its absolute part); named when at least two cases take part with
+    factors of the same sign, the claims' distinct non-zero rows outnumber the cases by two (so
+    the fit could have failed), and COMBINATION_SHARE of the members agree. All factors
+    negative is a column written in the other sign, which the sign diagnoses say."""
     ref, cases = c.ref, len(c.model.cases)
     names = list(c.arrays.names)
     if ref is None or cases < 2 or column not in names:
         return ""
     idx = np.flatnonzero((c.column_of_claim == names.index(column)) & (c.member_pos >= 0))
-    if len(idx) < max(MIN_MEMBERS_FOR_TABLE, cases + 1):
-        return ""
     claimed = c.raw[idx] * c.conv[idx]
     X = ref.member_forces[c.member_pos[idx], :cases]
-    if np.linalg.matrix_rank(X) < cases:
-        return ""  # cases whose forces are in proportion here: no one set of factors
+    rows = np.column_stack([X, claimed])
+    distinct = np.unique(np.round(rows[np.abs(rows).max(axis=1) > 0], 9), axis=0)
+    if len(distinct) < cases + 2 or np.linalg.matrix_rank(X) < cases:
+        return ""  # too few rows to tell a fit from a coincidence, or cases in proportion
     factors = np.round(np.linalg.lstsq(X, claimed, rcond=None)[0] / FACTOR_STEP) * FACTOR_STEP
-    if np.count_nonzero(factors) < 2:
+    if np.count_nonzero(factors) < 2 or (factors <= 0).all():
         return ""
     fitted = X @ factors
-    scale = float(np.abs(fitted).max()) or 1.0
-    allowed = c.tol.rtol * np.abs(fitted) + c.tol.atol_fraction * scale + c.rounding_unit[idx]
-    if np.mean(np.abs(fitted - claimed) <= allowed) < COMBINATION_SHARE:
+    scale = float(np.abs(ref.member_forces[:, :cases] @ factors).max()) or 1.0
+    atol = c.tol.atol_fraction * scale
+    agree = np.abs(fitted - claimed) <= allowance(
+        c.tol.rtol, claimed, fitted, atol, c.rounding_unit[idx]
+    )
+    if agree.mean() < COMBINATION_SHARE:
         return ""
-    terms = [(f"{f:g}", c.model.cases[k].name) for k, f in enumerate(factors.tolist()) if f != 0]
-    words = " + ".join(f"{f} x {name}" for f, name in terms)
-    line = ", ".join(f"{_toml_key(name)} = {f}" for f, name in terms)
+    terms = [(f, c.model.cases[k].name) for k, f in enumerate(factors.tolist()) if f != 0]
+    words = " ".join(
+        f"{'-' if f < 0 else '+' if n else ''}{' ' if n else ''}{abs(f) if f < 0 and n else f:g}"
+        f" x {name}"
+        for n, (f, name) in enumerate(terms)
+    )
+    line = ", ".join(f"{_toml_key(name)} = {f:g}" for f, name in terms)
     return (
-        f"; its values are {words} ({int(np.sum(np.abs(fitted - claimed) <= allowed))} of "
-        f"{len(idx)} members agree): to check them, add under [combinations] in the case file "
-        f"{_toml_key(column)} = {{ {line} }}"
+        f"; its values are {words} ({int(agree.sum())} of {len(idx)} members agree): to check "
+        f"them, add under [combinations] in the case file {_toml_key(column)} = {{ {line} }}"
     )
 
 

@@ -15,7 +15,13 @@ from dataclasses import dataclass, replace
 
 from verify.io.claims.apart import written_apart
 from verify.io.claims.grid import Cell, Grid, blank, cell_text
-from verify.io.claims.headers import Header, header_key, parse_header, unit_alone
+from verify.io.claims.headers import (
+    Header,
+    header_key,
+    other_unit_alone,
+    parse_header,
+    unit_alone,
+)
 from verify.io.claims.labels import LabelMatcher
 from verify.io.values import plain_number
 
@@ -182,6 +188,8 @@ def _compose(
             if blank(cell):
                 continue
             unit = unit_alone(cell) if r in unit_rows or _unit_under(cell, names[c]) else None
+            if unit is None and r > top and not blank(names[c]) and other_unit_alone(cell):
+                continue  # 'mm' under 'Length': the heading above names the column
             if unit is not None:
                 units[c].append((r, unit))
                 continue
@@ -210,4 +218,5 @@ def _unit_under(cell: Cell, above: Cell) -> bool:
     column's unit: written in brackets, or under a heading of its own ('Axial force' above
     'kips'). A bare 'N' or 'kN' heading a column from the band's top stays a name."""
     text = cell_text(cell).strip()
-    return (text[:1] in "([" and text[-1:] in ")]") or not blank(above)
+    # A bare 'N' under a heading may be the normal force (a name): only in brackets a unit.
+    return (text[:1] in "([" and text[-1:] in ")]") or (not blank(above) and len(text) > 1)

@@ -141,6 +141,20 @@ def whole(header: Header, load_names: set[str]) -> Header:
     return Header(header.index, header.text, name, key, None, None, key in IGNORED_HEADERS)
 
 
+def other_unit_alone(cell: Cell) -> bool:
+    """Whether a cell holds only a unit that is not a force ('mm', '(m)', 'MPa', 'kN/m')."""
+    text = cell_text(cell).strip("()[] ")
+    if not text or unit_alone(cell) is not None:
+        return False
+    if _NON_FORCE_UNIT.match(text):
+        return True
+    try:
+        lookup_unit(text, Dimension.LENGTH)
+    except ValueError:
+        return False
+    return True
+
+
 def unit_alone(cell: Cell) -> str | None:
     """The force unit written alone in a cell ('kN', '[kN]', '(kip)'), else None."""
     text = cell_text(cell).strip("()[] ")
@@ -153,22 +167,29 @@ def unit_alone(cell: Cell) -> str | None:
 
 
 # A force unit stated in a line of text above a table ('Member forces (kips)', 'all forces in
-# kN', 'Units: kN'): in brackets, after 'in', or after 'unit(s)'. Anything else the line says
-# ('kN/m' loads, 'kNm' moments) is no force unit and is passed over.
+# kN', 'Units: kN'): in brackets, after 'in', or after 'unit(s)', on a line that speaks of forces
+# or of units. Only units no word of prose is spelt like: 'N' (the north truss, 'N. Yorkshire')
+# and 'MN' (a state) are passed over, as are 'kN/m' loads and 'kNm' moments.
 _STATED_UNIT = (
     re.compile(r"[(\[]\s*([^()\[\]]+?)\s*[)\]]"),
-    re.compile(r"\bin\s+([^\s,;:.()\[\]]+)", re.IGNORECASE),
+    re.compile(r"\bin\s+([^\s,;:()\[\]]+)", re.IGNORECASE),
     re.compile(r"\bunits?\s*[:=]?\s*([^\s,;()\[\]]+)", re.IGNORECASE),
 )
+_STATING = re.compile(r"\bforces?\b|^\s*units?\b", re.IGNORECASE)
+_PROSE_PROOF_UNITS = frozenset({"kN", "kip", "lbf", "kgf"})
 
 
 def stated_units(text: str) -> list[str]:
-    """The force units a line of text states for what follows it, in the line's order."""
+    """The force units a line of text states for the table under it, in the line's order."""
+    if not _STATING.search(text) or "convert" in text.casefold():
+        return []  # no word of forces or units; or two units, one converted to the other
     places: list[tuple[int, str]] = []
     for pattern in _STATED_UNIT:
         for match in pattern.finditer(text):
             try:
-                places.append((match.start(), lookup_unit(match.group(1), Dimension.FORCE).symbol))
+                symbol = lookup_unit(match.group(1).rstrip("."), Dimension.FORCE).symbol
             except ValueError:
                 continue
+            if symbol in _PROSE_PROOF_UNITS:
+                places.append((match.start(), symbol))
     return list(dict.fromkeys(symbol for _, symbol in sorted(places)))

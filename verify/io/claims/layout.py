@@ -354,9 +354,10 @@ def decide_layout(
     start = header_r + 1
     if band is None:
         start = _apply_units_row(grid, start, member_h.index, value_columns, problems)
-    value_columns = _apply_stated_unit(
-        grid, band.top if band is not None else header_r, value_columns, problems
-    )
+    if unit_h is None:  # a unit column gives each row's unit: a title's is not read
+        value_columns = _apply_stated_unit(
+            grid, band.top if band is not None else header_r, value_columns, problems
+        )
     _check_unheaded_data(grid, start, headers, used, problems)
     if problems:
         return empty

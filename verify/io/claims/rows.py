@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import bisect
 import re
 from array import array
 from collections.abc import Callable, Iterator, Sequence
@@ -106,6 +107,8 @@ class RowReader:
         self.unknown_values: list[ClaimedValue] = []
         self.header_row = layout.header_row
         self._stacked_at: int | None = None  # the row a second table's header is written on
+        self._repeats: list[int] | None = None  # rows writing the header again (_header_repeats)
+        self._under: dict[int, int | None] = {}  # _first_label_under's answers
         self.pair = layout.pair
         # The cells a claim row spans: a CSV row shorter than this left cells off its end (empty
         # cells) or was written with another separator (refused when it reads as a claim).
@@ -113,41 +116,57 @@ class RowReader:
         self.needed = max(needed + ([self.pair[1]] if self.pair is not None else [])) + 1
 
     def _second_table(self, first_r: int, r: int) -> bool:
-        """Whether the header is written again between two rows claiming the same thing: a
-        second table under the first (one per load case, each under its title), which is said
-        once, at its header, instead of a duplicate claim per row. Later duplicates under it
-        are then passed over in silence (True)."""
+        """Whether the rows from a repeated header on restate the table above: a second table
+        under the first (one per load case, each under its title), said once, at its header,
+        instead of a duplicate claim per row (later duplicates under it are then passed over:
+        True). It is one when the header is written again between two rows claiming the same
+        thing and this row is the first claim under it; a table continued under a repeated
+        header that gives one member twice keeps its duplicate claim."""
         if self._stacked_at is not None:
             return first_r < self._stacked_at < r
+        repeats = self._header_repeats()
+        at = bisect.bisect_left(repeats, r) - 1  # the last repeated header above this row
+        if at < 0 or repeats[at] <= first_r:
+            return False
+        h = repeats[at]
+        if self._first_label_under(h) != r:
+            return False  # rows under that header name other things first: a continuation
         grid = self.grid
-        at = self.member_h.index
-        heading = cell_text(grid.cell(self.header_row, at)).strip().casefold()
-        for h in range(first_r + 1, r):
-            again = [cell_text(c).strip() for c in grid.rows[h]]
-            # The member column's heading again, over headings (no number): a header.
-            if (
-                heading
-                and at < len(again)
-                and again[at].casefold() == heading
-                and not any(_reads_as_number(text) for text in again)
-            ):
-                self._stacked_at = h
-                above = [
-                    cell_text(c).strip()
-                    for c in (grid.rows[h - 1] if h - 1 > first_r else [])
-                    if not blank(c)
-                ]
-                title = f" under '{above[0]}' ({grid.row_ref(h - 1)})" if len(above) == 1 else ""
-                self.problems.add(
-                    f"a second table starts here{title}: the header is written again and the "
-                    "rows under it name members the table above already gave (first "
-                    f"'{self._claimed_label(first_r)}', {grid.row_ref(first_r)}); give each load "
-                    "case a column of one table, or each table a file of its own (checked with "
-                    "--case NAME)",
-                    grid.where(h),
-                )
-                return True
-        return False
+        self._stacked_at = h
+        above = [cell_text(c).strip() for c in grid.rows[h - 1] if not blank(c)] if h else []
+        title = f" under '{above[0]}' ({grid.row_ref(h - 1)})" if len(above) == 1 else ""
+        self.problems.add(
+            f"a second table starts here{title}: the header is written again and the rows under "
+            f"it name members the table above already gave (first '{self._claimed_label(first_r)}'"
+            f", {grid.row_ref(first_r)}); give each load case a column of one table, or each "
+            "table a file of its own (checked with --case NAME)",
+            grid.where(h),
+        )
+        return True
+
+    def _first_label_under(self, h: int) -> int | None:
+        """The first row under row `h` whose member cell is written (found once per row)."""
+        if h not in self._under:
+            at, rows = self.member_h.index, self.grid.rows
+            self._under[h] = next(
+                (k for k in range(h + 1, len(rows)) if not blank(self.grid.cell(k, at))), None
+            )
+        return self._under[h]
+
+    def _header_repeats(self) -> list[int]:
+        """The rows below the header that write its member heading again over headings (no
+        number), in order: found once, on the first duplicate claim."""
+        if self._repeats is None:
+            grid, at = self.grid, self.member_h.index
+            heading = cell_text(grid.cell(self.header_row, at)).strip().casefold()
+            self._repeats = [
+                h
+                for h in range(self.header_row + 1, len(grid.rows))
+                if heading
+                and cell_text(grid.cell(h, at)).strip().casefold() == heading
+                and not any(_reads_as_number(cell_text(c).strip()) for c in grid.rows[h])
+            ]
+        return self._repeats
 
     def _claimed_label(self, r: int) -> str:
         return next(label for row, label in self._claimed.values() if row == r)
