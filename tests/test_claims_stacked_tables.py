@@ -78,4 +78,3 @@ def test_a_continued_table_that_gives_a_member_twice_keeps_its_duplicate_claim(t
     message = _refusal(tmp_path, text)
     assert "duplicate claim: member 'M2' for 'dead' is given twice, in row 3" in message
     assert "second table" not in message
-
