@@ -22,6 +22,7 @@ from verify.io.claims.band import _compose
 from verify.io.claims.grid import Grid
 
 KN_PER_KIP = 4.4482216152605
+MEMBERS = ("M1", "M2", "M3", "M4", "M5")
 
 
 def _rows(scale: float, units_row: list[object]) -> list[list[object]]:
@@ -157,4 +158,19 @@ def test_a_unit_column_gives_each_rows_unit_over_a_title(tmp_path):
         rows.append(f"{m},dead,{_force(m, DEAD) / KN_PER_KIP:.4f},kip")
     table, review = _csv_review(tmp_path, "\n".join(rows) + "\n")
     assert {v.unit for v in table.values} == {"kip"}
+    assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]
+
+
+def test_a_case_name_is_not_carried_past_its_group_into_a_length_column(tmp_path):
+    """'Axial force' merged over three case columns beside 'Length', case names under the
+    group, then a units row ('kN' x3, 'mm'): the length column keeps its own heading (it had
+    taken the last case name and been refused as a second column of that case)."""
+    rows: list[list[object]] = [
+        ["Member", "Axial force", None, "Length"],
+        [None, "dead", "snow", None],
+        [None, "kN", "kN", "mm"],
+    ]
+    rows += [[m, round(_force(m, DEAD), 3), round(_force(m, SNOW), 3), 3000] for m in MEMBERS]
+    table, review = _review(rows, tmp_path / "t.xlsx")
+    assert table.columns == ("dead", "snow") and {v.unit for v in table.values} == {"kN"}
     assert review.verdict is Verdict.AGREES, [f.detail for f in review.findings]

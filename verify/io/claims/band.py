@@ -179,12 +179,21 @@ def _compose(
     for r in range(top, bottom + 1):
         row = grid.rows[r]
         carried: Cell = None
+        above = list(names)  # each column's heading from the rows above this one
+        carried_under: Cell = None  # the heading above the carried cell's own column
         for c in range(width):
             cell = row[c] if c < len(row) else None
-            if r < bottom and blank(cell) and c > label_at and carried is not None:
-                cell = carried  # a merged group cell spans to the right
+            if (
+                r < bottom
+                and blank(cell)
+                and c > label_at
+                and carried is not None
+                and above[c] == carried_under
+            ):
+                cell = carried  # a merged group cell spans to the right, within its group
             elif r < bottom:
                 carried = cell if not blank(cell) and c > label_at else None
+                carried_under = above[c]
             if blank(cell):
                 continue
             unit = unit_alone(cell) if r in unit_rows or _unit_under(cell, names[c]) else None
