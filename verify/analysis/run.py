@@ -70,6 +70,7 @@ class AnalysisRun:
         self.model = model
         self._equilibrium: sp.csc_matrix | None = None
         self._lu: spla.SuperLU | None = None
+        self._lu_input: sp.csc_matrix | None = None  # lu_matrix() of a 3D A, until factored
         self._reactions: tuple[OverallReactions | None] | None = None  # a box: None is an answer
         self._stability: StabilityResult | None = None
         self._elastic: dict[float | None, ElasticSolution] = {}  # by assume_equal_EA
@@ -92,13 +93,22 @@ class AnalysisRun:
     def equilibrium_matrix(self) -> sp.csc_matrix:
         """The sparse equilibrium matrix A (read it or slice it; never modify it in place)."""
         if self._equilibrium is None:
-            self._equilibrium = assemble_equilibrium(self.model)
+            if self.model.dim == 3:
+                # Assembled once with the zero cosines the LU is made from, A from it.
+                self._lu_input = assemble_equilibrium(self.model, member_zeros=True)
+                self._equilibrium = self._lu_input.copy()
+                self._equilibrium.eliminate_zeros()
+                if self._lu_input.shape[0] != self._lu_input.shape[1]:
+                    self._lu_input = None  # only a square A is factored
+            else:
+                self._equilibrium = assemble_equilibrium(self.model)
         return self._equilibrium
 
     def equilibrium_lu(self) -> spla.SuperLU:
         """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
         if self._lu is None:
             self._lu = splu_checked(self.lu_matrix(), permc_spec=lu_ordering(self.model))
+            self._lu_input = None  # made once: not kept beside its factors
         return self._lu
 
     def lu_matrix(self) -> sp.csc_matrix:
@@ -108,13 +118,12 @@ class AnalysisRun:
         pattern in which every member end touches all three directions of its joint it found
         far less fill on the double-layer grids (10^5 members: 10.2 -> 8.1 million entries,
         0.44 -> 0.33 s; 10^6: 150 -> 109 million, 13.7 -> 6.0 s); in 2D COLAMD found no less."""
+        A = self.equilibrium_matrix()
         if self.model.dim != 3:
-            return self.equilibrium_matrix()
-        return assemble_equilibrium(self.model, member_zeros=True)
-
-    def keep_lu(self, lu: spla.SuperLU) -> None:
-        """The stability screen factors the same square A with the same ordering: share it."""
-        self._lu = lu
+            return A
+        if self._lu_input is None:
+            self._lu_input = assemble_equilibrium(self.model, member_zeros=True)
+        return self._lu_input
 
     def overall_reactions(self) -> OverallReactions | None:
         """Reactions from overall equilibrium (verify.analysis.joints.solve_reactions)."""

@@ -30,8 +30,8 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import rigid_body_modes
-from verify.analysis.lu_factors import splu_checked, u_diagonal_in_place
-from verify.analysis.run import AnalysisRun, lu_ordering, pivot_ratio, ratio_of_pivots
+from verify.analysis.lu_factors import u_diagonal_in_place
+from verify.analysis.run import AnalysisRun, pivot_ratio, ratio_of_pivots
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -360,9 +360,8 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         )
     if cols == dofs:
         try:
-            lu = splu_checked(run.lu_matrix(), permc_spec=lu_ordering(model))
-            # The global statics solve factors the same matrix with the same ordering: share it.
-            run.keep_lu(lu)
+            # The run's LU, which the global statics solve and the joints then share.
+            lu = run.equilibrium_lu()
             ratio = _kept_pivot_ratio(lu)
             singular = ratio < LU_PIVOT_SINGULAR
         except RuntimeError:

@@ -110,7 +110,7 @@ def parse_header(index: int, cell: Cell) -> Header:
             unit = lookup_unit(inner, Dimension.FORCE).symbol
             name = m.group("name").strip()
         except ValueError as exc:
-            if _NON_FORCE_UNIT.match(inner) or _force_per_something(inner) or _length_unit(inner):
+            if _other_unit(inner):
                 other_unit, other_name = inner, m.group("name").strip()
             elif "ambiguous" in str(exc):
                 error = str(exc)
@@ -144,15 +144,12 @@ def whole(header: Header, load_names: set[str]) -> Header:
 def other_unit_alone(cell: Cell) -> bool:
     """Whether a cell holds only a unit that is not a force ('mm', '(m)', 'MPa', 'kN/m')."""
     text = cell_text(cell).strip("()[] ")
-    if not text or unit_alone(cell) is not None:
-        return False
-    if _NON_FORCE_UNIT.match(text):
-        return True
-    try:
-        lookup_unit(text, Dimension.LENGTH)
-    except ValueError:
-        return False
-    return True
+    return bool(text) and _other_unit(text)
+
+
+def _other_unit(text: str) -> bool:
+    """A unit of another kind than force: a stress, an area, a length, a force per length."""
+    return bool(_NON_FORCE_UNIT.match(text)) or _force_per_something(text) or _length_unit(text)
 
 
 def unit_alone(cell: Cell) -> str | None:
