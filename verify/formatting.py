@@ -11,6 +11,7 @@ from a solve and 75.375 typed in a case file print alike.
 
 from __future__ import annotations
 
+import json
 import math
 import re
 from decimal import ROUND_HALF_UP, Decimal, InvalidOperation
@@ -163,3 +164,12 @@ def _decimals_by_character(text: str) -> int | None:
             end += 1
         return end - k - 1
     return 0
+
+
+def toml_key(text: str) -> str:
+    """A case-file (TOML) key for a name: bare when TOML allows it, else a quoted string."""
+    return (
+        text
+        if text.replace("_", "").replace("-", "").isalnum() and text.isascii()
+        else json.dumps(text)
+    )

@@ -59,7 +59,7 @@ from verify.compare.findings import Finding, RowStatus, Severity, ordered, worde
 from verify.compare.implied import ImpliedLoads, implied_loads
 from verify.compare.rows import Labels, Numbers, Row, Rows, Written
 from verify.compare.tolerances import Tolerance, allowance
-from verify.formatting import fmt
+from verify.formatting import fmt, toml_key
 from verify.io.claims import ClaimedValue, ClaimsTable
 from verify.io.claims.rounding import rounding_allowance
 from verify.io.claims.table import ClaimArrays
@@ -653,17 +653,11 @@ def _unnamed_combination(c: Comparison, column: str) -> str:
         f" x {name}"
         for n, (f, name) in enumerate(terms)
     )
-    line = ", ".join(f"{_toml_key(name)} = {f:g}" for f, name in terms)
+    line = ", ".join(f"{toml_key(name)} = {f:g}" for f, name in terms)
     return (
         f"; its values are {words} ({int(agree.sum())} of {len(idx)} members agree): to check "
-        f"them, add under [combinations] in the case file {_toml_key(column)} = {{ {line} }}"
+        f"them, add under [combinations] in the case file {toml_key(column)} = {{ {line} }}"
     )
-
-
-def _toml_key(name: str) -> str:
-    """A TOML key for a name: bare when it can be, else quoted."""
-    bare = name.replace("_", "").replace("-", "").isalnum() and name.isascii()
-    return name if bare else '"' + name.replace("\\", "\\\\").replace('"', '\\"') + '"'
 
 
 def _column_holds(

@@ -10,6 +10,8 @@ import json
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
+from verify.formatting import toml_key
+
 if TYPE_CHECKING:
     from verify.starter import Starter
 
@@ -25,14 +27,6 @@ def number(value: Fraction | float) -> str:
             return text if Fraction(text) == value else f'"{value.numerator}/{value.denominator}"'
         return f'"{value.numerator}/{value.denominator}"'
     return repr(float(value))
-
-
-def _key(text: str) -> str:
-    return (
-        text
-        if text.replace("_", "").replace("-", "").isalnum() and text.isascii()
-        else json.dumps(text)
-    )
 
 
 def render_case(starter: Starter) -> str:
@@ -54,11 +48,11 @@ def render_case(starter: Starter) -> str:
         f"[joints]                                    # id = [{axes}]",
     ]
     lines += [
-        f"{_key(j)} = [{', '.join(number(c) for c in coords)}]"
+        f"{toml_key(j)} = [{', '.join(number(c) for c in coords)}]"
         for j, coords in shape.joints.items()
     ]
     lines += ["", "[members]                                   # id = [joint, joint]"]
-    lines += [f"{_key(a + b)} = [{json.dumps(a)}, {json.dumps(b)}]" for a, b in shape.members]
+    lines += [f"{toml_key(a + b)} = [{json.dumps(a)}, {json.dumps(b)}]" for a, b in shape.members]
     if shape.dim == 2:
         lines += [
             "",
@@ -71,20 +65,20 @@ def render_case(starter: Starter) -> str:
     lines += ["", "[supports]"]
     if shape.restraints:
         lines += [
-            f"{_key(j)} = [{', '.join(json.dumps(a) for a in axes_)}]"
+            f"{toml_key(j)} = [{', '.join(json.dumps(a) for a in axes_)}]"
             for j, axes_ in shape.restraints.items()
         ]
     else:
-        lines += [f'{_key(j)} = "pinned"' for j in shape.pinned]
+        lines += [f'{toml_key(j)} = "pinned"' for j in shape.pinned]
         lines += [
-            f'{_key(j)} = "roller"                              # reaction vertical'
+            f'{toml_key(j)} = "roller"                              # reaction vertical'
             for j in shape.rollers
         ]
-    lines += ["", f"# {starter.load_rule}", f"[loads.{_key(starter.case_name)}]"]
+    lines += ["", f"# {starter.load_rule}", f"[loads.{toml_key(starter.case_name)}]"]
     for joint, vector in starter.loads.items():
         comment = starter.load_comments.get(joint)
         lines.append(
-            f"{_key(joint)} = [{', '.join(number(v) for v in vector)}]"
+            f"{toml_key(joint)} = [{', '.join(number(v) for v in vector)}]"
             + (f"   # {comment}" if comment else "")
         )
     return "\n".join(lines) + "\n"

@@ -55,7 +55,8 @@ class Band:
     unit_rows: tuple[int, ...]  # band rows holding only units
 
 
-def _is_number(cell: Cell) -> bool:
+def holds_number(cell: Cell) -> bool:
+    """Whether a cell holds a number (signed, bracketed, with a T/C letter): no heading does."""
     if isinstance(cell, float):
         return True
     if not isinstance(cell, str):
@@ -134,7 +135,7 @@ def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
     bottom = first_data - 1
     while bottom >= 0 and (
         all(blank(c) for c in grid.rows[bottom])
-        or any(_is_number(c) for k, c in enumerate(grid.rows[bottom]) if k != label_at)
+        or any(holds_number(c) for k, c in enumerate(grid.rows[bottom]) if k != label_at)
         or _written_apart(grid, matcher, bottom, label_at)
     ):
         bottom -= 1
@@ -144,7 +145,7 @@ def find_band(grid: Grid, matcher: LabelMatcher) -> Band | None:
     while top - 1 >= 0 and bottom - top + 1 < MAX_HEADER_ROWS:
         above = grid.rows[top - 1]
         filled = [(k, c) for k, c in enumerate(above) if not blank(c)]
-        if not filled or any(_is_number(c) for _, c in filled):
+        if not filled or any(holds_number(c) for _, c in filled):
             break
         if len(filled) == 1 and (
             filled[0][0] <= label_at or len(cell_text(filled[0][1])) > TITLE_CHARS

@@ -16,6 +16,7 @@ import numpy as np
 from verify.errors import did_you_mean
 from verify.io.case import LABEL_MAX_CHARS
 from verify.io.claims.apart import apart_message, other_marks, written_apart
+from verify.io.claims.band import holds_number
 from verify.io.claims.grid import FORCE_LIKE, Cell, Grid, Unusable, blank, cell_text
 from verify.io.claims.labels import LabelMatcher, Match
 from verify.io.claims.layout import Layout, ValueColumn
@@ -67,14 +68,6 @@ def refuse_name(text: str, what: str) -> str | None:
     return None
 
 
-def _reads_as_number(text: str) -> bool:
-    try:
-        float(text.replace(",", ""))
-    except ValueError:
-        return False
-    return True
-
-
 class RowReader:
     """Reads data rows into claims, matching labels once each and catching duplicate claims."""
 
@@ -115,7 +108,7 @@ class RowReader:
         needed = [self.member_h.index] + [v.index for v in self.columns]
         self.needed = max(needed + ([self.pair[1]] if self.pair is not None else [])) + 1
 
-    def _second_table(self, first_r: int, r: int) -> bool:
+    def _second_table(self, first_r: int, first_label: str, r: int) -> bool:
         """Whether the rows from a repeated header on restate the table above: a second table
         under the first (one per load case, each under its title), said once, at its header,
         instead of a duplicate claim per row (later duplicates under it are then passed over:
@@ -137,7 +130,7 @@ class RowReader:
         title = f" under '{above[0]}' ({grid.row_ref(h - 1)})" if len(above) == 1 else ""
         self.problems.add(
             f"a second table starts here{title}: the header is written again and the rows under "
-            f"it name members the table above already gave (first '{self._claimed_label(first_r)}'"
+            f"it name members the table above already gave (first '{first_label}'"
             f", {grid.row_ref(first_r)}); give each load case a column of one table, or each "
             "table a file of its own (checked with --case NAME)",
             grid.where(h),
@@ -164,12 +157,9 @@ class RowReader:
                 for h in range(self.header_row + 1, len(grid.rows))
                 if heading
                 and cell_text(grid.cell(h, at)).strip().casefold() == heading
-                and not any(_reads_as_number(cell_text(c).strip()) for c in grid.rows[h])
+                and not any(holds_number(c) for c in grid.rows[h])
             ]
         return self._repeats
-
-    def _claimed_label(self, r: int) -> str:
-        return next(label for row, label in self._claimed.values() if row == r)
 
     def read_row(self, r: int) -> None:
         grid = self.grid
@@ -445,7 +435,7 @@ class RowReader:
         key = (target, case_name.casefold())
         if key in self._claimed:
             first_r, first_label = self._claimed[key]
-            if self._second_table(first_r, r):
+            if self._second_table(first_r, first_label, r):
                 return
             what = {
                 "member": f"member '{match.member}'",
