@@ -56,8 +56,8 @@ def _started(monkeypatch: pytest.MonkeyPatch) -> list[tuple[str, int | None]]:
     started: list[tuple[str, int | None]] = []
     original = forking.Forked.start
 
-    def start(function, *args):
-        child = original(function, *args)
+    def start(function, *args, **options):
+        child = original(function, *args, **options)
         started.append((function.__name__, child.pid))
         return child
 
@@ -115,7 +115,7 @@ def test_screen_in_a_child_beside_the_elastic_solve_equals_one_process(
         assert overlapped.elastic is None and alone.elastic is None
     # The screen ran in a child, no section route was started (A is not square), none is left.
     names = [name for name, _ in started]
-    assert "unit_stiffness_ratio" in names and "solve_sections" not in names
+    assert "unit_stiffness_ratio" in names and "_sections_and_walk" not in names
     assert all(pid is not None and _reaped(pid) for _, pid in started)
     assert gc.get_freeze_count() == 0
 

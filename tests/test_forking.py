@@ -99,8 +99,8 @@ def test_the_section_child_started_before_the_claims_is_stopped_when_they_are_re
     started: list[int] = []
     real_start = forking.Forked.start.__func__
 
-    def recording(cls, function, *args):
-        child = real_start(cls, function, *args)
+    def recording(cls, function, *args, **options):
+        child = real_start(cls, function, *args, **options)
         started.append(child.pid)
         return child
 

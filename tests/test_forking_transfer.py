@@ -87,3 +87,30 @@ def test_a_child_killed_while_answering_is_fork_failed(monkeypatch) -> None:
     child = forking.Forked.start(dies)
     with pytest.raises(forking.ForkFailed, match="without an answer"):
         child.result()
+
+
+def _shared_ids(n: int) -> tuple[str, ...]:
+    return tuple(f"M{k}" for k in range(n))
+
+
+@needs_fork
+def test_shared_objects_come_back_as_this_process_own(monkeypatch) -> None:
+    """An object named as shared is sent as a reference: the answer holds this process's own
+    object (the same identity), wherever it is referred to; an equal object that was not named
+    comes back as an equal copy."""
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    ids = _shared_ids(5000)
+    equal = tuple(list(ids))  # equal to ids, another object, not named
+    child = forking.Forked.start(
+        lambda: {"names": ids, "again": [ids], "copy": equal, "n": len(ids)}, shared=(ids,)
+    )
+    assert child.pid is not None
+    back = child.result()
+    assert back["names"] is ids and back["again"][0] is ids
+    assert back["copy"] == equal and back["copy"] is not equal and back["n"] == 5000
+
+
+def test_a_shared_object_is_not_pickled() -> None:
+    ids = _shared_ids(20000)
+    alone = forking._dumps((True, ids), (ids,))
+    assert len(alone) < 100 < len(pickle.dumps(ids, protocol=5)) // 1000

@@ -27,6 +27,34 @@ def test_section_route_in_a_child_process_matches_serial(monkeypatch):
     assert parallel.sections.cuts[3] == serial.sections.cuts[3]
 
 
+@pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
+def test_joint_walk_in_a_child_process_matches_serial(monkeypatch):
+    """The method of joints walked in the second process (after the section route) gives the
+    same forces, steps and order, bit for bit, as in one process."""
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    serial = pipeline.analyse(make_model(pratt(12, load=10.0)))
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    children: list[int | None] = []
+    original = forking.Forked.start
+
+    def start(function, *args, **options):
+        child = original(function, *args, **options)
+        children.append(child.pid)
+        return child
+
+    monkeypatch.setattr(forking.Forked, "start", staticmethod(start))
+    parallel = pipeline.analyse(make_model(pratt(12, load=10.0)))
+    assert children and children[0] is not None and children[0] != os.getpid()
+    assert parallel.joints is not None and serial.joints is not None
+    np.testing.assert_array_equal(
+        parallel.joints.forces.member_forces, serial.joints.forces.member_forces
+    )
+    np.testing.assert_array_equal(parallel.joints.forces.reactions, serial.joints.forces.reactions)
+    assert tuple(parallel.joints.steps) == tuple(serial.joints.steps)
+    assert parallel.joints.order == serial.joints.order
+    assert parallel.joints.max_residual == serial.joints.max_residual
+
+
 def test_serial_switch_keeps_one_process(monkeypatch):
     monkeypatch.setenv(forking.SERIAL_ENV, "1")
     child = forking.Forked.start(lambda: ("ran in", os.getpid()))
@@ -70,9 +98,9 @@ def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(mon
     original_start = forking.Forked.start
     original = forking.Forked.cancel
 
-    def start(function, *args):
+    def start(function, *args, **options):
         started.append(function.__name__)
-        return original_start(function, *args)
+        return original_start(function, *args, **options)
 
     def cancel(self):
         cancelled.append(self.pid)
@@ -87,7 +115,7 @@ def test_section_child_is_stopped_unless_the_truss_is_stable_and_determinate(mon
         case["members"]["L1U2"] = ["L1", "U2"]
     analysis = pipeline.analyse(make_model(case))
     assert analysis.sections is None and analysis.joints is None
-    assert started.count("solve_sections") == (change == "moved")
+    assert started.count("_sections_and_walk") == (change == "moved")
     stopped = [pid for pid in cancelled if pid is not None]
     assert len(stopped) == (change == "moved")
     for pid in stopped:
@@ -104,8 +132,8 @@ def test_an_error_in_the_joint_route_leaves_no_child_and_no_frozen_heap(monkeypa
     started: list[int] = []
     original = forking.Forked.start
 
-    def start(route, *args):
-        child = original(route, *args)
+    def start(route, *args, **options):
+        child = original(route, *args, **options)
         started.append(child.pid)
         return child
 

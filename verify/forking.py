@@ -66,6 +66,19 @@ def _end_with(parent: int) -> None:
         os._exit(1)
 
 
+PIPE_SIZE = 1 << 20  # a large answer crosses in 1 MiB turns, not the default 64 KiB
+
+
+def _widen(fd: int) -> None:
+    """Give the pipe of `fd` PIPE_SIZE bytes where the system allows it (Linux); else as is."""
+    try:
+        import fcntl
+
+        fcntl.fcntl(fd, fcntl.F_SETPIPE_SZ, PIPE_SIZE)
+    except (ImportError, AttributeError, OSError):
+        pass
+
+
 class ForkTimeout(Exception):
     """The child had not answered within the time asked; it has been stopped."""
 
@@ -88,18 +101,27 @@ class Forked(Generic[T]):
         args: tuple[Any, ...],
         pid: int | None,
         read_fd: int | None,
+        shared: tuple[object, ...] = (),
     ) -> None:
         self.function, self.args, self.pid, self.read_fd = function, args, pid, read_fd
+        self.shared = shared
 
     @property
     def forked(self) -> bool:
         return self.pid is not None
 
     @classmethod
-    def start(cls, function: Callable[..., T], *args: Any) -> Forked[T]:
+    def start(
+        cls, function: Callable[..., T], *args: Any, shared: tuple[object, ...] = ()
+    ) -> Forked[T]:
+        """`function(*args)` started in a child. `shared`: objects of this process the answer
+        may hold (the model's id tuples): sent as references to this process's own, not
+        pickled (the 1.25x10^6 ids of a 10^6-member truss were most of the section route's
+        answer time). They must not be changed meanwhile."""
         if not fork_allowed():
             return cls(function, args, None, None)
         read_fd, write_fd = os.pipe()
+        _widen(write_fd)
         # Frozen objects are left alone by the cyclic collector, so neither process's collections
         # touch (and so copy) the pages the two share after the fork.
         gc.freeze()
@@ -121,12 +143,12 @@ class Forked(Generic[T]):
                 except Exception as exc:  # noqa: BLE001 - any failure is reported to the parent
                     answer = (False, f"{type(exc).__name__}: {exc}")
                 with os.fdopen(write_fd, "wb") as pipe:
-                    _send(answer, pipe)
+                    _send(answer, pipe, shared)
                 status = 0
             finally:
                 os._exit(status)
         os.close(write_fd)
-        return cls(function, args, pid, read_fd)
+        return cls(function, args, pid, read_fd, shared)
 
     def result(self, timeout: float | None = None) -> T:
         """The function's result. From a child: ForkTimeout when it has not begun to answer
@@ -146,7 +168,7 @@ class Forked(Generic[T]):
             raise ForkFailed(
                 "the child process ended without an answer (killed, or out of memory?)"
             )
-        ok, value = pickle.loads(received[0], buffers=received[1])
+        ok, value = _Unpickler(io.BytesIO(received[0]), self.shared, received[1]).load()
         if not ok:
             raise ForkFailed(str(value))
         return value
@@ -274,13 +296,43 @@ def _write_all(fd: int, data: bytes) -> None:
 _LENGTH = 8
 
 
-def _send(answer: tuple[bool, Any], pipe: BinaryIO) -> None:
+class _Pickler(pickle.Pickler):
+    """Pickles the objects of `shared` as their place in it (the parent holds the same ones)."""
+
+    def __init__(self, file: BinaryIO, shared: tuple[object, ...], **options: Any) -> None:
+        super().__init__(file, protocol=5, **options)
+        self._places = {id(item): k for k, item in enumerate(shared)}
+        self._shared = shared
+
+    def persistent_id(self, obj: Any) -> int | None:
+        k = self._places.get(id(obj))
+        return k if k is not None and self._shared[k] is obj else None
+
+
+class _Unpickler(pickle.Unpickler):
+    def __init__(
+        self, file: BinaryIO, shared: tuple[object, ...], buffers: list[memoryview]
+    ) -> None:
+        super().__init__(file, buffers=buffers)
+        self._shared = shared
+
+    def persistent_load(self, pid: Any) -> object:
+        return self._shared[pid]
+
+
+def _dumps(answer: tuple[bool, Any], shared: tuple[object, ...], **options: Any) -> bytes:
+    out = io.BytesIO()
+    _Pickler(out, shared, **options).dump(answer)
+    return out.getvalue()
+
+
+def _send(answer: tuple[bool, Any], pipe: BinaryIO, shared: tuple[object, ...] = ()) -> None:
     buffers: list[pickle.PickleBuffer] = []
-    payload = pickle.dumps(answer, protocol=5, buffer_callback=buffers.append)
+    payload = _dumps(answer, shared, buffer_callback=buffers.append)
     try:
         raw = [buffer.raw() for buffer in buffers]
     except BufferError:  # a buffer that is not contiguous (NumPy never offers one): all in-band
-        payload, raw = pickle.dumps(answer, protocol=5), []
+        payload, raw = _dumps(answer, shared), []
     header = pickle.dumps((len(payload), [view.nbytes for view in raw]), protocol=5)
     pipe.write(len(header).to_bytes(_LENGTH, "little"))
     pipe.write(header)

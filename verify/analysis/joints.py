@@ -65,7 +65,7 @@ class JointSteps(Sequence[JointStep]):
         # others: (plane steps before it, step) for every other step, in order.
         self._joints = joints
         # Kept as 8-byte integers: the list's int objects cost ~36 bytes each (54 MB at 10^6).
-        self._plain = array("q", plain)
+        self._plain = plain if isinstance(plain, array) else array("q", plain)
         self._others = others
         self._all: tuple[JointStep, ...] | None = None
 
@@ -213,12 +213,37 @@ def _view(array: np.ndarray) -> Any:
     return array.data
 
 
-def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
+class JointWalk(NamedTuple):
+    """The joint-by-joint part of the method of joints (walk_joints): what a forked child sends
+    back, so it holds no reference to the model (its 10^6 joints would be pickled with it)."""
+
+    t: np.ndarray  # unknowns x load columns; NaN where no joint gave the force
+    known: np.ndarray  # which unknowns the walk found
+    plain: array  # joint, unknown, unknown of every plane two-unknown step (JointSteps)
+    others: list[tuple[int, JointStep]]  # every other step, after how many plane steps
+    notes: list[str]
+    moment_point: tuple[float, ...] | None
+    moment_joint: str | None
+
+
+def solve_joints(
+    model: Model, run: AnalysisRun | None = None, walk: JointWalk | None = None
+) -> JointSolution:
     """Member forces and reactions by the method of joints, with the steps a hand calc takes.
 
-    `run` shares the equilibrium matrix, its LU and the overall reactions with other routes.
+    `run` shares the equilibrium matrix, its LU and the overall reactions with other routes;
+    `walk`: this model's walk_joints, made elsewhere (a forked child of the pipeline), else
+    made here.
     """
     run = run if run is not None else AnalysisRun(model)
+    if walk is None:
+        walk = walk_joints(model, run)
+    return _finish(model, run, walk)
+
+
+def walk_joints(model: Model, run: AnalysisRun) -> JointWalk:
+    """Solve joint after joint while one has at most d unknowns (steps 1 and 2 of the module
+    docstring), from the run's overall reactions; the simultaneous rest is left to _finish."""
     d = model.dim
     b = len(model.members)
     r = len(model.reactions)
@@ -491,7 +516,29 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
         )
         mark(chosen)
 
-    t = np.ascontiguousarray(t_cols.T)
+    return JointWalk(
+        np.ascontiguousarray(t_cols.T),
+        known,
+        array("q", plain),
+        others,
+        notes,
+        moment_point,
+        moment_joint,
+    )
+
+
+def _finish(model: Model, run: AnalysisRun, walk: JointWalk) -> JointSolution:
+    """The walk's forces with the simultaneous solve of any rest (step 3), and its residual."""
+    d = model.dim
+    b = len(model.members)
+    n_unknowns = b + len(model.reactions)
+    F = model.load_matrix()
+    t, known, plain, others, notes = walk.t, walk.known, walk.plain, walk.others, [*walk.notes]
+    moment_point, moment_joint = walk.moment_point, walk.moment_joint
+
+    def add(step: JointStep) -> None:
+        others.append((len(plain) // 3, step))
+
     stalled = not known.all()
     if stalled:
         rest = np.nonzero(~known)[0]
@@ -508,7 +555,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
             return JointSolution(
                 forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
                 steps=JointSteps(model.joints, plain, others),
-                reactions_first=first is not None,
+                reactions_first=moment_joint is not None,
                 moment_point=moment_point,
                 moment_joint=moment_joint,
                 stalled=True,
@@ -547,7 +594,7 @@ def solve_joints(model: Model, run: AnalysisRun | None = None) -> JointSolution:
     return JointSolution(
         forces=ForceResult("joints", tuple(model.load_names), t[:b], t[b:], tuple(notes)),
         steps=JointSteps(model.joints, plain, others),
-        reactions_first=first is not None,
+        reactions_first=moment_joint is not None,
         moment_point=moment_point,
         moment_joint=moment_joint,
         stalled=stalled,

@@ -13,7 +13,7 @@ import numpy as np
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.global_solve import solve_global
-from verify.analysis.joints import JointSolution, solve_joints
+from verify.analysis.joints import JointSolution, JointWalk, solve_joints, walk_joints
 from verify.analysis.run import AnalysisRun
 from verify.analysis.stability import (
     Classification,
@@ -66,30 +66,60 @@ def _large(model: Model) -> bool:
 
 
 class EarlyRoutes:
-    """The method of sections, which needs only the model and its overall reactions, started in
-    a second process on a large truss as soon as the model is read. The caller reads the claims
-    meanwhile and then hands this to `analyse`, which takes its result after screening
-    stability and solving by joints and globally in this process (DEVELOPERS.md: what else was
-    tried in the child, and why not)."""
+    """The method of sections and the joint-by-joint walk of the method of joints, which need
+    only the model and its overall reactions, started one after the other in a second process
+    on a large truss as soon as the model is read. The caller reads the claims meanwhile and
+    then hands this to `analyse`, which takes their results after screening stability and
+    solving globally in this process (DEVELOPERS.md: what else was tried in the child, and why
+    not)."""
 
     def __init__(self, model: Model, *, sections: bool = True) -> None:
         self.model, self.sections = model, sections
         self.run = AnalysisRun(model)
         self.run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
-        self.child: Forked[SectionSolution] | None = None
+        self.child: Forked[tuple[SectionSolution, JointWalk]] | None = None
+        self._answer: tuple[SectionSolution | None, JointWalk | None] = (None, None)
         # Only a square A can be stable and determinate (more columns: indeterminate or
         # unstable; fewer: unstable), and only then are the section route's forces used.
         square = len(model.members) + len(model.reactions) == model.dofs
         if sections and _large(model) and square:
-            from verify.analysis.sections import solve_sections
-
             self.run.overall_reactions()  # both routes start from these: solved once, here
-            self.child = Forked.start(solve_sections, model)
+            shared = (self.run.id_tuple("members"), self.run.id_tuple("joints"))
+            self.child = Forked.start(_sections_and_walk, model, self.run, shared=shared)
+
+    def _collect(self) -> tuple[SectionSolution | None, JointWalk | None]:
+        """The child's answer (both None when it failed: each is then made here)."""
+        if self.child is not None:
+            try:
+                self._answer = self.child.result()
+            except ForkFailed:
+                pass
+            self.child = None
+        return self._answer
+
+    def joints(self) -> JointSolution:
+        """The method of joints, from the child's walk when it made one."""
+        return solve_joints(self.model, self.run, self._collect()[1])
+
+    def section_route(self) -> SectionSolution | None:
+        """The method of sections (from the child when it made it), or None when not asked."""
+        made = self._collect()[0]
+        if made is not None or not self.sections:
+            return made
+        from verify.analysis.sections import solve_sections
+
+        return solve_sections(self.model)
 
     def cancel(self) -> None:
         """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
         if self.child is not None:
             self.child.cancel()
+
+
+def _sections_and_walk(model: Model, run: AnalysisRun) -> tuple[SectionSolution, JointWalk]:
+    from verify.analysis.sections import solve_sections
+
+    return solve_sections(model), walk_joints(model, run)
 
 
 def analyse(
@@ -116,8 +146,7 @@ def analyse(
         if early.child is None and _large(model) and unit_stiffness_screened(model):
             elastic = _early_elastic(run, assume_equal_EA)
         return _routes(
-            run,
-            early.child,
+            early,
             elastic,
             sections=sections,
             assume_equal_EA=assume_equal_EA,
@@ -150,19 +179,19 @@ def _early_elastic(
 
 
 def _routes(
-    run: AnalysisRun,
-    child: Forked[SectionSolution] | None,
+    routes: EarlyRoutes,
     early: ElasticSolution | ValueError | None,
     *,
     sections: bool,
     assume_equal_EA: float | None,
     displacements: bool,
 ) -> Analysis:
+    run = routes.run
     model = run.model
     stability = run.stability()
     notes: list[str] = []
-    if stability.classification is not Classification.STABLE_DETERMINATE and child is not None:
-        child.cancel()
+    if stability.classification is not Classification.STABLE_DETERMINATE:
+        routes.cancel()
     if stability.classification is Classification.UNSTABLE:
         return Analysis(
             model, stability, notes=("unstable: no forces can be recomputed",), shared=run
@@ -189,15 +218,9 @@ def _routes(
             assumed_EA=assume_equal_EA,
             shared=run,
         )
-    joints = solve_joints(model, run)
     global_ = solve_global(model, run)
-    section_solution = None
-    if child is not None:
-        section_solution = _child_result(child, model)
-    elif sections:
-        from verify.analysis.sections import solve_sections
-
-        section_solution = solve_sections(model)
+    joints = routes.joints()
+    section_solution = routes.section_route()
     disagreement = route_disagreement(
         global_, joints.forces, getattr(section_solution, "forces", None)
     )
@@ -216,16 +239,6 @@ def _routes(
         assumed_EA=assume_equal_EA,
         shared=run,
     )
-
-
-def _child_result(child: Forked[SectionSolution], model: Model) -> SectionSolution:
-    """The section route from its child process, or computed here if the child failed."""
-    try:
-        return child.result()
-    except ForkFailed:
-        from verify.analysis.sections import solve_sections
-
-        return solve_sections(model)
 
 
 def _stiffness_or_note(

@@ -77,6 +77,7 @@ class AnalysisRun:
         # The stability screen's unit-stiffness pivot ratio, read in a child process
         # (start_unit_stiffness_screen) until the screen asks for it.
         self._screen: Forked[float] | None = None
+        self._id_tuples: dict[str, tuple[str, ...]] = {}
 
     @classmethod
     def of(cls, model: Model) -> AnalysisRun:
@@ -90,6 +91,17 @@ class AnalysisRun:
         _ANALYSED[id(self.model)] = self
 
     # -- what the analyses share ----------------------------------------------------------------
+    def id_tuple(self, kind: str) -> tuple[str, ...]:
+        """The model's "joints" or "members" ids as one tuple, made once: the section route's
+        records share it, and its child process's answer refers to this process's own
+        (verify.forking) instead of sending 10^6 ids back."""
+        ids = self._id_tuples.get(kind)
+        if ids is None:
+            ids = self._id_tuples[kind] = tuple(
+                self.model.joint_ids if kind == "joints" else self.model.member_ids
+            )
+        return ids
+
     def equilibrium_matrix(self) -> sp.csc_matrix:
         """The sparse equilibrium matrix A (read it or slice it; never modify it in place)."""
         if self._equilibrium is None:

@@ -41,6 +41,7 @@ import numpy as np
 
 from verify.analysis.forces import ForceResult
 from verify.analysis.joints import solve_reactions
+from verify.analysis.run import AnalysisRun
 from verify.model import Model
 
 if TYPE_CHECKING:
@@ -317,8 +318,9 @@ class _Engine:
         self.ends = model.ends_index
         self.u = model.unit_vectors
         self.L = model.lengths
-        self.joint_names = tuple(model.joint_ids)
-        self.member_names = tuple(model.member_ids)
+        run = AnalysisRun.of(model)  # the pipeline's, whose tuples its child's answer refers to
+        self.joint_names = run.id_tuple("joints")
+        self.member_names = run.id_tuple("members")
         F = model.load_matrix()
         self.ncols = F.shape[1]
         loads = F.reshape(nj, d, self.ncols)
