@@ -158,8 +158,9 @@ def check(
     say("reading the case")
     model = read_case(case_file(case_path), tables_outside=options.tables_anywhere)
     # The routes that need only the model start now (in a second process on a large truss)
-    # and run while the claims are read.
-    early = EarlyRoutes(model)
+    # and run while the claims are read; a large square A is factored first, and its sigma
+    # figure estimated in a child meanwhile (a bad claims table is then refused after that).
+    early = EarlyRoutes(model, factor_now=True, progress=say)
     try:
         return _check(case_path, claims_path, options, say, model, early)
     finally:

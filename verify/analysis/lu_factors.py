@@ -172,6 +172,14 @@ def factor_fill(lu: spla.SuperLU) -> int:
     return int(np.count_nonzero(storage.l_values) + np.count_nonzero(storage.u_values) + n)
 
 
+def stored_entries(lu: spla.SuperLU) -> int | None:
+    """How many entries the factors' storage holds (zeros of the supernodes included): the
+    work of a triangular solve with them, read without a copy; None where the storage cannot
+    be read in place."""
+    storage = _storage(lu)
+    return None if storage is None else int(storage.l_values.size + storage.u_values.size)
+
+
 def splu_checked(A: sp.csc_matrix, **options: Any) -> spla.SuperLU:
     """spla.splu(A, **options), refusing a square matrix with an empty row or column the way
     SuperLU refuses an exactly singular one (RuntimeError), without calling it: on such matrices

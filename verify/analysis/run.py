@@ -32,7 +32,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import assemble_equilibrium
-from verify.analysis.lu_factors import splu_checked, u_diagonal
+from verify.analysis.lu_factors import splu_checked, stored_entries, u_diagonal
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -63,6 +63,14 @@ def ratio_of_pivots(diagonal: np.ndarray) -> float:
     return float(diag.min() / diag.max()) if diag.size and diag.max() > 0 else 0.0
 
 
+# Factor entries from which the stability screen's sigma figure (18 triangular solves) is worth a
+# child process while the claims are read: the 10^6-member 3D grid's factors hold 109 million
+# (4 s of solves, taken off the main process), the 10^5 grid's 9.7 million (0.3 s) and the 10^6
+# Pratt truss's 3.9 million (0.45 s), where a third process slowed the reading of the claims
+# more than it saved (measured: 1.4 -> 2.1 s).
+SIGMA_CHILD_MIN_ENTRIES = 20_000_000
+
+
 class AnalysisRun:
     """The shared pieces of one model's analysis, each made when first asked for."""
 
@@ -77,6 +85,10 @@ class AnalysisRun:
         # The stability screen's unit-stiffness pivot ratio, read in a child process
         # (start_unit_stiffness_screen) until the screen asks for it.
         self._screen: Forked[float] | None = None
+        # The stability screen's sigma figure, estimated in a child process (start_conditioning)
+        # until the screen asks for it.
+        self._sigma: Forked[float] | None = None
+        self._lu_error: RuntimeError | None = None  # an exactly singular A: not factored twice
         self._id_tuples: dict[str, tuple[str, ...]] = {}
 
     @classmethod
@@ -118,9 +130,16 @@ class AnalysisRun:
 
     def equilibrium_lu(self) -> spla.SuperLU:
         """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
+        if self._lu_error is not None:
+            raise self._lu_error
         if self._lu is None:
-            self._lu = splu_checked(self.lu_matrix(), permc_spec=lu_ordering(self.model))
-            self._lu_input = None  # made once: not kept beside its factors
+            try:
+                self._lu = splu_checked(self.lu_matrix(), permc_spec=lu_ordering(self.model))
+            except RuntimeError as exc:
+                self._lu_error = exc
+                raise
+            finally:
+                self._lu_input = None  # made once: not kept beside its factors
         return self._lu
 
     def lu_matrix(self) -> sp.csc_matrix:
@@ -173,11 +192,58 @@ class AnalysisRun:
                 child.cancel()
         return unit_stiffness_ratio(self.model, self.equilibrium_matrix())
 
+    def start_conditioning(self) -> bool:
+        """Factor the square A now and, when its factors are large (SIGMA_CHILD_MIN_ENTRIES),
+        start the stability screen's sigma figure (the power iterations' triangular solves of
+        verify.analysis.stability.conditioning_estimate, about 4 s on the 10^6-member 3D grid)
+        in a child process, which reads the factors this one made; this process reads the
+        claims meanwhile. True when a child was started; the screen collects its answer
+        (`conditioning`), and `stop_children` stops it if nobody does (a singular A: the screen
+        asks for no figure)."""
+        from verify.analysis.stability import conditioning_estimate
+
+        A = self.equilibrium_matrix()
+        if A.shape[0] != A.shape[1]:
+            return False
+        try:
+            lu = self.equilibrium_lu()
+        except RuntimeError:
+            return False
+        if (stored_entries(lu) or 0) < SIGMA_CHILD_MIN_ENTRIES:
+            return False  # the solves take less than the child costs: made here, as asked
+        child = Forked.start(conditioning_estimate, A, lu)
+        if not child.forked:
+            return False
+        self._sigma = child
+        return True
+
+    @property
+    def conditioning_started(self) -> bool:
+        """True while a child started by start_conditioning has not been asked for its answer."""
+        return self._sigma is not None
+
+    def conditioning(self) -> float:
+        """sigma_min / sigma_max of the square, non-singular A (verify.analysis.stability
+        .conditioning_estimate): from the child started for it, else computed here."""
+        from verify.analysis.stability import conditioning_estimate
+
+        child, self._sigma = self._sigma, None
+        if child is not None:
+            try:
+                return child.result()
+            except ForkFailed:  # the child could not answer (out of memory?): computed here
+                pass
+            finally:
+                child.cancel()
+        return conditioning_estimate(self.equilibrium_matrix(), self.equilibrium_lu())
+
     def stop_children(self) -> None:
         """Stop a child process whose answer was not asked for (an error on the way)."""
-        child, self._screen = self._screen, None
-        if child is not None:
-            child.cancel()
+        for name in ("_screen", "_sigma"):
+            child = getattr(self, name)
+            setattr(self, name, None)
+            if child is not None:
+                child.cancel()
 
     def stability(self) -> StabilityResult:
         if self._stability is None:

@@ -382,7 +382,7 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
     else:
         m, rank = 0, dofs
         if cols == dofs:
-            rho = _conditioning_estimate(A, lu)
+            rho = run.conditioning()  # possibly estimated by a child while claims were read
             scaled = rho * extent**2
             ill = bool(scaled < ILL_CONDITIONED_SCALED)
             notes.append(
@@ -465,7 +465,7 @@ def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
         child.cancel()
 
 
-def _conditioning_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
+def conditioning_estimate(A: sp.csc_matrix, lu: spla.SuperLU) -> float:
     """sigma_min / sigma_max of a square, non-singular A by power iterations.
 
     sigma_max from A^T A; sigma_min from (A^T A)^-1 = A^-1 A^-T, applied with the LU factors the
