@@ -4,6 +4,8 @@ import os
 import subprocess
 import sys
 
+import pytest
+
 # Prints the variable as the command line (replaced here by a stub) receives it.
 _PROBE = """
 import os
@@ -62,3 +64,51 @@ def test_no_huge_page_requests_unless_the_user_chose():
     env = {k: v for k, v in os.environ.items() if k != "NUMPY_MADVISE_HUGEPAGE"}
     assert _huge_pages(env) == "False"
     assert _huge_pages({**env, "NUMPY_MADVISE_HUGEPAGE": "1"}) == "True"
+
+
+# The command line replaced by a stub: prints how many bytes a 16 MiB malloc() added to the
+# memory glibc maps block by block (mallinfo2's hblkhd), or "n/a" without glibc's mallinfo2.
+_MALLOC_PROBE = """
+import ctypes, sys, types
+class Info(ctypes.Structure):
+    _fields_ = [(n, ctypes.c_size_t) for n in (
+        "arena", "ordblks", "smblks", "hblks", "hblkhd", "usmblks", "fsmblks", "uordblks",
+        "fordblks", "keepcost")]
+def report():
+    libc = ctypes.CDLL(None)
+    if not hasattr(libc, "mallinfo2"):
+        print("n/a"); return
+    libc.mallinfo2.restype = Info
+    libc.malloc.restype = ctypes.c_void_p
+    libc.malloc.argtypes = [ctypes.c_size_t]
+    before = libc.mallinfo2().hblkhd
+    block = libc.malloc(16 << 20)
+    print(libc.mallinfo2().hblkhd - before)
+    libc.free(ctypes.c_void_p(block))
+sys.modules["verify.cli"] = types.SimpleNamespace(run=report)
+from verify.start import run
+run()
+"""
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="glibc's malloc only")
+def test_freed_blocks_are_kept_for_reuse_unless_the_user_chose():
+    """mallopt (glibc, man mallopt): with the mmap threshold at 32 MiB a 16 MiB block comes from
+    the heap, so its memory is reused once freed; by default (128 KiB) it is mapped on its own
+    and handed back when freed. A glibc variable the user set leaves malloc as it is."""
+    env = {k: v for k, v in os.environ.items() if not k.startswith("MALLOC_")}
+    env.pop("GLIBC_TUNABLES", None)
+    run = subprocess.run(
+        [sys.executable, "-c", _MALLOC_PROBE], env=env, capture_output=True, text=True, check=True
+    )
+    if run.stdout.strip() == "n/a":
+        pytest.skip("no glibc mallinfo2 here")
+    assert int(run.stdout) == 0
+    chosen = subprocess.run(
+        [sys.executable, "-c", _MALLOC_PROBE],
+        env={**env, "MALLOC_TRIM_THRESHOLD_": "131072"},
+        capture_output=True,
+        text=True,
+        check=True,
+    )
+    assert int(chosen.stdout) >= 16 << 20
