@@ -65,9 +65,15 @@ def claims_balance(
     F = model.load_matrix()
     A = analysis.run.equilibrium_matrix()[:, :b]
     incidence, degree = _incidence(model)
-    reactions_at: dict[int, list[int]] = {}
-    for n, r in enumerate(model.reactions):
-        reactions_at.setdefault(model.joint_index[r.joint], []).append(n)
+    # Each reaction's joint and direction, and its direction's place among the distinct ones
+    # (a joint's free reactions are then one key: its joints are balanced in groups below).
+    r_joint = np.array([model.joint_index[r.joint] for r in model.reactions], dtype=np.int64)
+    r_dir = np.array([r.direction for r in model.reactions], dtype=float).reshape(-1, d)
+    directions, r_code = np.unique(r_dir, axis=0, return_inverse=True)
+    r_code = r_code.ravel()
+    claimed_of: dict[int, dict[int, float]] = {}
+    for (n, k), value in reaction_claims.items():
+        claimed_of.setdefault(k, {})[n] = value
     out: list[JointImbalance] = []
     for k, name in enumerate(load_names):
         column = claimed[:, k]
@@ -81,21 +87,9 @@ def claims_balance(
         checkable = (degree > 0) & (unclaimed == 0)
         residual = (A @ values + loads).reshape(nj, d)
         magnitude = incidence @ np.abs(values) + np.abs(loads.reshape(nj, d)).sum(axis=1)
-        for j, ids in reactions_at.items():
-            if not checkable[j]:
-                continue
-            free = []
-            for n in ids:
-                direction = np.asarray(model.reactions[n].direction)
-                if (n, k) in reaction_claims:
-                    residual[j] += direction * reaction_claims[(n, k)]
-                    magnitude[j] += abs(reaction_claims[(n, k)])
-                else:
-                    free.append(direction)
-            if free:
-                D = np.column_stack(free)
-                coeffs = np.linalg.lstsq(D, -residual[j], rcond=None)[0]
-                residual[j] = residual[j] + D @ coeffs
+        _balance_supports(
+            residual, magnitude, checkable, r_joint, r_dir, directions, r_code, claimed_of.get(k)
+        )
         size = np.linalg.norm(residual, axis=1)
         allowed = np.maximum(
             tol.rtol * magnitude, tol.atol_fraction * scale * np.maximum(degree, 1)
@@ -119,6 +113,55 @@ def claims_balance(
                 )
             )
     return out
+
+
+def _balance_supports(
+    residual: np.ndarray,
+    magnitude: np.ndarray,
+    checkable: np.ndarray,
+    r_joint: np.ndarray,
+    r_dir: np.ndarray,
+    directions: np.ndarray,
+    r_code: np.ndarray,
+    claimed: dict[int, float] | None,
+) -> None:
+    """At each checkable supported joint (in place): add the claimed reactions to its residual
+    and its magnitude, in reaction order; then take away the part of the residual its other
+    (free) reactions can carry, the least-squares fit of those reactions.
+
+    Joints with the same free directions are fitted together (one lstsq of many right-hand
+    sides): a continuous truss on 40,000 supports took 0.8 s a load column one joint at a time."""
+    if not r_joint.size:
+        return
+    at = checkable[r_joint]
+    is_claimed = np.zeros(r_joint.size, dtype=bool)
+    if claimed:
+        given = np.fromiter(claimed, dtype=np.int64, count=len(claimed))
+        is_claimed[given] = True
+        value = np.zeros(r_joint.size)
+        value[given] = np.fromiter(claimed.values(), dtype=float, count=len(claimed))
+        add = np.flatnonzero(at & is_claimed)  # reaction order: each joint's in turn
+        np.add.at(residual, r_joint[add], r_dir[add] * value[add, None])
+        np.add.at(magnitude, r_joint[add], np.abs(value[add]))
+    free = np.flatnonzero(at & ~is_claimed)
+    if not free.size:
+        return
+    # Each joint's free directions in reaction order, as one key (a number in base len+1).
+    order = np.argsort(r_joint[free], kind="stable")
+    free = free[order]
+    joints, first, count = np.unique(r_joint[free], return_index=True, return_counts=True)
+    base = directions.shape[0] + 1
+    key = np.zeros(joints.size, dtype=np.int64)
+    for place in range(int(count.max())):
+        has = count > place
+        key[has] = key[has] * base + r_code[free[first[has] + place]] + 1
+    for group in np.unique(key):
+        members = np.flatnonzero(key == group)
+        j0 = members[0]
+        D = directions[r_code[free[first[j0] : first[j0] + count[j0]]]].T
+        js = joints[members]
+        coeffs = np.linalg.lstsq(D, -residual[js].T, rcond=None)[0]
+        residual[js] = residual[js] + (D @ coeffs).T
 
 
 def checkable_joints(model: Model, claimed: np.ndarray, load_names: list[str]) -> dict[str, int]:

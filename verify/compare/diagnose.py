@@ -1549,7 +1549,7 @@ def _indeterminate(c: Comparison) -> None:
         fixed_by_statics = [
             item
             for item in diffs
-            if in_self_stress is not None and item[1].member not in in_self_stress
+            if in_self_stress is not None and not in_self_stress(item[1].member)
         ]
         loose = [
             item for item in diffs if item not in fixed_by_statics and item[0] not in explained
@@ -2061,21 +2061,24 @@ def _apply_cause(
     c.notes.extend(report.notes)
 
 
-def _self_stress_members(analysis: Analysis) -> set[str] | None:
-    """Members whose force depends on the member stiffnesses (they take part in some state of
-    self-stress); None when that cannot be told (no stiffness solve)."""
+def _self_stress_members(analysis: Analysis) -> Callable[[str], bool] | None:
+    """Whether a member's force depends on the member stiffnesses (it takes part in some state
+    of self-stress), asked by id (a label that is no member: False); None when that cannot be
+    told (no stiffness solve). Asked of the few disagreeing claims only: a set of every such
+    member's id cost 0.2 s on a 10^6-member continuous truss."""
     if analysis.elastic is None:
         return None
-    model = analysis.model
+    index = analysis.model.member_index
     try:
         fixed = analysis.run.members_fixed_by_statics(analysis.assumed_EA)
     except ValueError:  # stiffness missing or singular: nothing to tell them apart with
         return None
-    return {
-        member
-        for member, statics_only in zip(model.member_ids, fixed.tolist(), strict=True)
-        if not statics_only
-    }
+
+    def depends(member: str) -> bool:
+        at = index.get(member)
+        return at is not None and not bool(fixed[at])
+
+    return depends
 
 
 def _combination_fit(
