@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 import pytest
+from children import record_children
 from trussgen import make_model, pratt
 
 from verify import forking
@@ -51,20 +52,6 @@ def mechanism_and_two_self_stresses(panels: int) -> dict[str, Any]:
     return case
 
 
-def _started(monkeypatch: pytest.MonkeyPatch) -> list[tuple[str, int | None]]:
-    """Record every child the analysis starts: (function name, pid)."""
-    started: list[tuple[str, int | None]] = []
-    original = forking.Forked.start
-
-    def start(function, *args, **options):
-        child = original(function, *args, **options)
-        started.append((function.__name__, child.pid))
-        return child
-
-    monkeypatch.setattr(forking.Forked, "start", staticmethod(start))
-    return started
-
-
 def _untimed(notes: tuple[str, ...]) -> list[str]:
     """The notes without the factorisation's seconds (the one figure that varies by run)."""
     return [re.sub(r"[0-9.e-]+ s,", "(time) s,", note) for note in notes]
@@ -94,7 +81,7 @@ def test_screen_in_a_child_beside_the_elastic_solve_equals_one_process(
     alone = pipeline.analyse(make_model(builder(PANELS)))
     monkeypatch.delenv(forking.SERIAL_ENV)
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
-    started = _started(monkeypatch)
+    started = record_children(monkeypatch)
     model = make_model(builder(PANELS))
     assert unit_stiffness_screened(model)
     overlapped = pipeline.analyse(model)
@@ -143,7 +130,7 @@ def test_an_error_in_the_early_solve_leaves_no_child_and_no_frozen_heap(
 ) -> None:
     monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
-    started = _started(monkeypatch)
+    started = record_children(monkeypatch)
 
     def broken(self, assume_equal_EA):
         raise RuntimeError("elastic solve failed")

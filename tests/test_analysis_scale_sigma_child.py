@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from children import record_children
 
 from verify import forking
 from verify.analysis import pipeline
@@ -57,16 +58,7 @@ def _recorded(monkeypatch: pytest.MonkeyPatch) -> list[tuple[str, int | None]]:
     monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
     monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
     monkeypatch.setattr(run_module, "SIGMA_CHILD_MIN_ENTRIES", 0)
-    started: list[tuple[str, int | None]] = []
-    original = forking.Forked.start
-
-    def start(function, *args, **options):
-        child = original(function, *args, **options)
-        started.append((function.__name__, child.pid))
-        return child
-
-    monkeypatch.setattr(forking.Forked, "start", staticmethod(start))
-    return started
+    return record_children(monkeypatch)
 
 
 def _gone(pid: int | None) -> bool:

@@ -2,14 +2,14 @@
 
 Seven parts of the tool start processes: the section route and the joints' walk of a large
 truss (verify.analysis.pipeline), the sigma figure of a large 3D truss's LU while its claims are
-read (verify.analysis.run.AnalysisRun.start_conditioning), the stability screen's unit-stiffness factorisation of a large truss with more
-unknown forces than joint equations, made beside the elastic solve (verify.analysis.run), the
-time-boxed MMD factorisation of the stiffness solve (verify.analysis.stiffness), the LU pivot
-ratio of the factor an analysis run keeps where it cannot be read in place (verify.analysis
-.stability: scipy's reading makes copies of the factors that would stay with it), the writing of
-a large JSON output's member rows (verify.report.json_out.write_dumps) and the batch's process
-pool (verify.batch.run). All of them ask :func:`fork_allowed`, so one rule holds
-everywhere:
+read (verify.analysis.run.AnalysisRun.start_conditioning), the stability screen's unit-stiffness
+factorisation of a large truss with more unknown forces than joint equations, made beside the
+elastic solve (verify.analysis.run), the time-boxed MMD factorisation of the stiffness solve
+(verify.analysis.stiffness), the LU pivot ratio of the factor an analysis run keeps where it
+cannot be read in place (verify.analysis.stability: scipy's reading makes copies of the factors
+that would stay with it), the writing of a large JSON output's member rows
+(verify.report.json_out.write_dumps) and the batch's process pool (verify.batch.run). All of
+them ask :func:`fork_allowed`, so one rule holds everywhere:
 
 - no ``os.fork`` (Windows): no fork;
 - ``TRUSS_VERIFY_SERIAL`` set to any value: no fork (every result is then computed in this

@@ -24,7 +24,7 @@ model itself keeps nothing.
 from __future__ import annotations
 
 import weakref
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -69,6 +69,19 @@ def ratio_of_pivots(diagonal: np.ndarray) -> float:
 # Pratt truss's 3.9 million (0.45 s), where a third process slowed the reading of the claims
 # more than it saved (measured: 1.4 -> 2.1 s).
 SIGMA_CHILD_MIN_ENTRIES = 20_000_000
+
+
+def _answer(child: Forked[float] | None, here: Callable[[], float]) -> float:
+    """The answer of a child started for it, else (none started, or it could not answer: out of
+    memory?) `here()`, computed in this process."""
+    if child is not None:
+        try:
+            return child.result()
+        except ForkFailed:
+            pass
+        finally:
+            child.cancel()
+    return here()
 
 
 class AnalysisRun:
@@ -183,14 +196,7 @@ class AnalysisRun:
         from verify.analysis.stability import unit_stiffness_ratio
 
         child, self._screen = self._screen, None
-        if child is not None:
-            try:
-                return child.result()
-            except ForkFailed:  # the child could not answer (out of memory?): computed here
-                pass
-            finally:
-                child.cancel()
-        return unit_stiffness_ratio(self.model, self.equilibrium_matrix())
+        return _answer(child, lambda: unit_stiffness_ratio(self.model, self.equilibrium_matrix()))
 
     def start_conditioning(self) -> bool:
         """Factor the square A now and, when its factors are large (SIGMA_CHILD_MIN_ENTRIES),
@@ -228,14 +234,9 @@ class AnalysisRun:
         from verify.analysis.stability import conditioning_estimate
 
         child, self._sigma = self._sigma, None
-        if child is not None:
-            try:
-                return child.result()
-            except ForkFailed:  # the child could not answer (out of memory?): computed here
-                pass
-            finally:
-                child.cancel()
-        return conditioning_estimate(self.equilibrium_matrix(), self.equilibrium_lu())
+        return _answer(
+            child, lambda: conditioning_estimate(self.equilibrium_matrix(), self.equilibrium_lu())
+        )
 
     def stop_children(self) -> None:
         """Stop a child process whose answer was not asked for (an error on the way)."""
