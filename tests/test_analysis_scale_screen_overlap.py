@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 import pytest
 from children import record_children
-from trussgen import make_model, pratt
+from trussgen import make_model, pratt, write_case
 
 from verify import forking
 from verify.analysis import pipeline
@@ -26,6 +26,7 @@ from verify.analysis.stability import (
     unit_stiffness_ratio,
     unit_stiffness_screened,
 )
+from verify.service import check
 
 needs_fork = pytest.mark.skipif(not hasattr(os, "fork"), reason="no fork on this platform")
 PANELS = 120  # 482 joint equations: above the dense SVD's limit, so the sparse screen runs
@@ -158,3 +159,89 @@ def test_a_singular_stiffness_found_early_is_the_same_note(monkeypatch: pytest.M
     assert overlapped.elastic is None and alone.elastic is None
     assert overlapped.stability.classification is Classification.STABLE_INDETERMINATE
     assert any("direct stiffness solve not possible" in note for note in overlapped.notes)
+
+
+def _case_and_claims(tmp_path, builder, *, with_EA: bool = True):
+    """The case file of `builder(PANELS)` and a claims table of its elastic forces (one process)
+    with one value 25 % high."""
+    case = builder(PANELS)
+    if not with_EA:
+        del case["stiffness"]
+    path = write_case(tmp_path, case)
+    model = make_model(case)
+    forces = AnalysisRun(model).elastic(None if with_EA else 2.0e5).forces.member_forces.copy()
+    forces[7, 0] *= 1.25
+    lines = ["member," + ",".join(model.load_names)]
+    lines += [
+        f"{m}," + ",".join(repr(float(x)) for x in row)
+        for m, row in zip(model.member_ids, forces, strict=True)
+    ]
+    claims = tmp_path / "claims.csv"
+    claims.write_text("\n".join(lines) + "\n")
+    return path, claims
+
+
+@needs_fork
+def test_the_elastic_solve_started_before_the_claims_equals_one_process(
+    monkeypatch: pytest.MonkeyPatch, tmp_path
+) -> None:
+    """A check starts the screen and the direct stiffness solve in children before reading the
+    claims (service.check -> EarlyRoutes): the review equals the one-process check's, the
+    forces and displacements bit for bit and read-only, and no child is left behind."""
+    path, claims = _case_and_claims(tmp_path, extra_diagonal)
+    monkeypatch.setenv(forking.SERIAL_ENV, "1")
+    alone = check(path, claims)
+    monkeypatch.delenv(forking.SERIAL_ENV)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    started = record_children(monkeypatch)
+    early = check(path, claims)
+    names = [name for name, _ in started]
+    assert "_elastic_answer" in names and "unit_stiffness_ratio" in names
+    assert names.count("unit_stiffness_ratio") == 1  # the analysis took the early screen
+    assert all(pid is not None and _reaped(pid) for _, pid in started)
+    a, b = early.review.analysis.elastic, alone.review.analysis.elastic
+    assert a is not None and b is not None
+    np.testing.assert_array_equal(a.forces.member_forces, b.forces.member_forces)
+    np.testing.assert_array_equal(a.displacements, b.displacements)
+    np.testing.assert_array_equal(a.fixed_by_statics, b.fixed_by_statics)
+    assert not a.forces.member_forces.flags.writeable and not a.displacements.flags.writeable
+    assert early.review.verdict == alone.review.verdict
+    assert early.review.findings == alone.review.findings
+    assert any(f.kind == "value-mismatch" for f in early.review.findings)
+    assert gc.get_freeze_count() == 0
+
+
+@needs_fork
+def test_the_early_solve_follows_the_equal_EA_asked_and_a_refused_table_stops_it(
+    monkeypatch: pytest.MonkeyPatch, tmp_path
+) -> None:
+    from verify.errors import InputError
+    from verify.service import CheckOptions
+
+    path, claims = _case_and_claims(tmp_path, extra_diagonal, with_EA=False)
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    monkeypatch.setattr(pipeline, "PARALLEL_MIN_MEMBERS", 0)
+    started = record_children(monkeypatch)
+    check(path, claims)  # no EA and none assumed: nothing to solve early
+    assert "_elastic_answer" not in [name for name, _ in started]
+    result = check(path, claims, CheckOptions(assume_equal_EA=2.0e5))
+    assert "_elastic_answer" in [name for name, _ in started]
+    assert result.review.analysis.assumed_EA == 2.0e5
+    bad = tmp_path / "bad.csv"
+    bad.write_text("member,P\nL0L1,twelve\n")
+    with pytest.raises(InputError):
+        check(path, bad, CheckOptions(assume_equal_EA=2.0e5))
+    assert all(pid is not None and _reaped(pid) for _, pid in started)
+    assert gc.get_freeze_count() == 0
+
+
+def test_a_missing_stiffness_error_comes_back_from_a_child_whole() -> None:
+    """The error a child sends back is made again from its members, message and all."""
+    import pickle
+
+    from verify.analysis.stiffness import MissingStiffnessError
+
+    error = MissingStiffnessError([f"M{k}" for k in range(12)])
+    back = pickle.loads(pickle.dumps(error))
+    assert type(back) is MissingStiffnessError
+    assert back.members == error.members and str(back) == str(error)

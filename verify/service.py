@@ -160,7 +160,9 @@ def check(
     # The routes that need only the model start now (in a second process on a large truss)
     # and run while the claims are read; a large square A is factored first, and its sigma
     # figure estimated in a child meanwhile (a bad claims table is then refused after that).
-    early = EarlyRoutes(model, factor_now=True, progress=say)
+    early = EarlyRoutes(
+        model, factor_now=True, assume_equal_EA=options.assume_equal_EA, progress=say
+    )
     try:
         return _check(case_path, claims_path, options, say, model, early)
     finally:

@@ -81,12 +81,16 @@ class EarlyRoutes:
         *,
         sections: bool = True,
         factor_now: bool = False,
+        assume_equal_EA: float | None = None,
         progress: Callable[[str], None] | None = None,
     ) -> None:
         """`factor_now`: the caller has other work to do before `analyse` (the claims to read):
         a large square A is then factored at once and the stability screen's sigma figure is
         estimated in a child process meanwhile (AnalysisRun.start_conditioning), the step
-        named to `progress` first."""
+        named to `progress` first; on a large truss with more unknown forces than joint
+        equations and its stiffness (or `assume_equal_EA`, as analyse will be asked), the
+        stability screen's unit-stiffness factorisation and the direct stiffness solve start
+        in child processes instead (AnalysisRun.start_elastic)."""
         self.model, self.sections = model, sections
         self.run = AnalysisRun(model)
         self.run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
@@ -105,6 +109,16 @@ class EarlyRoutes:
             if progress is not None:
                 progress(f"factoring the equilibrium matrix ({model.dofs:,} joint equations)")
             self.run.start_conditioning()
+        elif (
+            factor_now
+            and _large(model)
+            and unit_stiffness_screened(model)
+            and (model.has_stiffness or assume_equal_EA is not None)
+            and self.run.start_unit_stiffness_screen()
+        ):
+            if progress is not None:
+                progress(f"solving by direct stiffness ({model.dofs:,} joint equations)")
+            self.run.start_elastic(assume_equal_EA)
 
     def collect(self) -> tuple[SectionSolution | None, JointWalk | None]:
         """The child's answer (both None when it failed: each is then made here)."""

@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import weakref
 from collections.abc import Callable, Sequence
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, TypeVar
 
 import numpy as np
 import scipy.sparse as sp
@@ -43,6 +43,7 @@ if TYPE_CHECKING:
     from verify.analysis.virtual_work import VirtualWorkCalc
 
 OverallReactions = tuple[np.ndarray, np.ndarray, str]  # reactions, moment point, its joint
+T = TypeVar("T")
 
 
 def lu_ordering(model: Model) -> str:
@@ -71,7 +72,7 @@ def ratio_of_pivots(diagonal: np.ndarray) -> float:
 SIGMA_CHILD_MIN_ENTRIES = 20_000_000
 
 
-def _answer(child: Forked[float] | None, here: Callable[[], float]) -> float:
+def _answer(child: Forked[T] | None, here: Callable[[], T]) -> T:
     """The answer of a child started for it, else (none started, or it could not answer: out of
     memory?) `here()`, computed in this process."""
     if child is not None:
@@ -82,6 +83,19 @@ def _answer(child: Forked[float] | None, here: Callable[[], float]) -> float:
         finally:
             child.cancel()
     return here()
+
+
+def _elastic_answer(
+    run: AnalysisRun, assume_equal_EA: float | None
+) -> ElasticSolution | ValueError:
+    """The direct stiffness solve, or the ValueError it raised (as a value: a child process
+    sends it back as its answer)."""
+    from verify.analysis.stiffness import solve_stiffness
+
+    try:
+        return solve_stiffness(run.model, assume_equal_EA=assume_equal_EA, run=run)
+    except ValueError as exc:
+        return exc
 
 
 class AnalysisRun:
@@ -102,6 +116,8 @@ class AnalysisRun:
         # until the screen asks for it.
         self._sigma: Forked[float] | None = None
         self._lu_error: RuntimeError | None = None  # an exactly singular A: not factored twice
+        # Direct stiffness solves started in a child (start_elastic), by assumed EA, until asked.
+        self._elastic_children: dict[float | None, Forked[ElasticSolution | ValueError]] = {}
         self._id_tuples: dict[str, tuple[str, ...]] = {}
 
     @classmethod
@@ -184,6 +200,8 @@ class AnalysisRun:
         answer (`unit_stiffness_ratio`), and `stop_children` stops it if nobody does."""
         from verify.analysis.stability import unit_stiffness_ratio
 
+        if self._screen is not None:
+            return True  # started already (the pipeline's early routes)
         child = Forked.start(unit_stiffness_ratio, self.model, self.equilibrium_matrix())
         if not child.forked:
             return False
@@ -245,6 +263,9 @@ class AnalysisRun:
             setattr(self, name, None)
             if child is not None:
                 child.cancel()
+        children, self._elastic_children = self._elastic_children, {}
+        for elastic in children.values():
+            elastic.cancel()
 
     def stability(self) -> StabilityResult:
         if self._stability is None:
@@ -287,16 +308,38 @@ class AnalysisRun:
             return None
         return np.asarray(elastic.forces.member_forces)[:, np.asarray(columns, dtype=np.int64)]
 
+    def start_elastic(self, assume_equal_EA: float | None) -> bool:
+        """Start the direct stiffness solve in a child process, so that this one reads the
+        claims meanwhile (the pipeline's early routes: on the 10^6-member X-braced truss the
+        solve is 2.6 s); `elastic` collects it. True when a child was started (or the solve is
+        made already)."""
+        if assume_equal_EA in self._elastic or assume_equal_EA in self._elastic_children:
+            return True
+        child = Forked.start(_elastic_answer, self, assume_equal_EA)
+        if not child.forked:
+            return False
+        self._elastic_children[assume_equal_EA] = child
+        return True
+
     def elastic(self, assume_equal_EA: float | None) -> ElasticSolution:
         """The direct stiffness solve (ValueError: stiffness missing, or a singular K), made once
-        per assumed EA: it depends on nothing else, and its arrays are read-only. A failure is
-        not kept (the pipeline says it in a note and asks no more)."""
+        per assumed EA (or collected from the child start_elastic started): it depends on
+        nothing else, and its arrays are read-only. A failure is not kept (the pipeline says it
+        in a note and asks no more)."""
         if assume_equal_EA not in self._elastic:
-            from verify.analysis.stiffness import solve_stiffness
-
-            self._elastic[assume_equal_EA] = solve_stiffness(
-                self.model, assume_equal_EA=assume_equal_EA, run=self
-            )
+            child = self._elastic_children.pop(assume_equal_EA, None)
+            answer = _answer(child, lambda: _elastic_answer(self, assume_equal_EA))
+            if isinstance(answer, ValueError):
+                raise answer
+            if child is not None:  # arrays that came through the pipe: read-only again
+                for array in (
+                    answer.forces.member_forces,
+                    answer.forces.reactions,
+                    answer.displacements,
+                    answer.fixed_by_statics,
+                ):
+                    array.setflags(write=False)
+            self._elastic[assume_equal_EA] = answer
         return self._elastic[assume_equal_EA]
 
     def members_fixed_by_statics(self, assume_equal_EA: float | None) -> np.ndarray:

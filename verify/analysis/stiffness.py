@@ -152,6 +152,11 @@ class MissingStiffnessError(ValueError):
             "default in [stiffness], or assume equal EA explicitly."
         )
 
+    def __reduce__(self) -> tuple[type, tuple[tuple[str, ...]]]:
+        # Made again from its members (its message is built from them) when it comes back from
+        # a child process (AnalysisRun.start_elastic).
+        return type(self), (self.members,)
+
 
 class SingularStiffnessError(ValueError):
     """The reduced stiffness matrix is singular: the truss (with its supports) is a mechanism."""
