@@ -118,3 +118,83 @@ def test_no_child_for_small_factors_or_a_plane_truss(grid_case, monkeypatch):
     monkeypatch.setattr(run_module, "SIGMA_CHILD_MIN_ENTRIES", 10**12)
     check(case, claims)
     assert "conditioning_estimate" not in [name for name, _ in started]
+
+
+@needs_fork
+def test_an_error_while_starting_the_early_routes_leaves_no_child(grid_case, monkeypatch):
+    """The section child is forked before A is factored: an interruption or error then (here
+    raised by the progress report of the factorisation) stops it."""
+    from verify.analysis.pipeline import EarlyRoutes
+
+    case, _ = grid_case
+    started = _recorded(monkeypatch)
+
+    def progress(step: str) -> None:
+        if step.startswith("factoring"):
+            raise KeyboardInterrupt
+
+    with pytest.raises(KeyboardInterrupt):
+        EarlyRoutes(read_case(case), factor_now=True, progress=progress)
+    assert [name for name, _ in started] == ["_sections_and_walk"]
+    assert all(_gone(pid) for _, pid in started)
+    assert gc.get_freeze_count() == 0
+
+
+@needs_fork
+def test_no_sigma_child_for_factors_the_screen_finds_singular(grid_case, monkeypatch):
+    """Where the LU's pivot ratio says singular, the screen asks for no figure: no child is
+    started for it and no route is finished ahead (every pivot ratio below the threshold
+    here); the verdict is the one-process one."""
+    from verify.analysis import stability
+
+    case, claims = grid_case
+    monkeypatch.setattr(stability, "LU_PIVOT_SINGULAR", 2.0)  # every ratio is at most 1
+    monkeypatch.setenv(forking.SERIAL_ENV, "1")
+    serial = check(case, claims)
+    started = _recorded(monkeypatch)
+    ahead: list[bool] = []  # per call: made before the stability verdict?
+    original = pipeline._determinate_routes
+
+    def recorded(routes):
+        ahead.append(routes.run._stability is None)
+        return original(routes)
+
+    monkeypatch.setattr(pipeline, "_determinate_routes", recorded)
+    forked = check(case, claims)
+    assert "conditioning_estimate" not in [name for name, _ in started]
+    assert not any(ahead)
+    assert forked.review.verdict == serial.review.verdict
+    assert forked.review.analysis.stability == serial.review.analysis.stability
+    assert all(_gone(pid) for _, pid in started)
+
+
+def test_an_exactly_singular_A_is_factored_once_and_its_error_holds_no_matrix(monkeypatch):
+    """The second ask raises a new error with the same words at once (no second factorisation,
+    no traceback kept from the first)."""
+    from verify.analysis import run as run_module
+
+    calls: list[int] = []
+    original = run_module.splu_checked
+
+    def counting(*args, **kwargs):
+        calls.append(1)
+        return original(*args, **kwargs)
+
+    monkeypatch.setattr(run_module, "splu_checked", counting)
+    from trussgen import make_model, truss_case
+
+    # D sits between A and B on the chord, held across it by nothing: its vertical equation
+    # is empty (A square: 4 members and 4 reaction components for 4 joints).
+    case = truss_case(
+        {"A": [0, 0], "D": [2, 0], "B": [4, 0], "C": [2, 2]},
+        [("A", "D"), ("D", "B"), ("A", "C"), ("B", "C")],
+        {"A": ["x", "y"], "B": ["y"], "D": ["x"]},
+        {"P": {"C": [0, -10]}},
+    )
+    run = AnalysisRun(make_model(case))
+    errors = []
+    for _ in range(2):
+        with pytest.raises(RuntimeError) as caught:
+            run.equilibrium_lu()
+        errors.append(caught.value)
+    assert len(calls) == 1 and str(errors[0]) == str(errors[1]) and errors[0] is not errors[1]

@@ -59,3 +59,23 @@ def test_grouped_fit_equals_the_fit_joint_by_joint(seed: int, d: int) -> None:
     # Where nothing is free or claimed the residual is untouched, bit for bit.
     untouched = ~np.isin(np.arange(nj), r_joint) | ~checkable
     np.testing.assert_array_equal(got_r[untouched], residual[untouched])
+
+
+def test_joints_with_many_reactions_are_not_mixed_up() -> None:
+    """Two joints with 33 free reactions each, the same 32 vertical ones and a different first
+    one (x at one, z at the other): each is fitted with its own directions (a key made as one
+    number of their codes overflowed here and fitted both with the first joint's)."""
+    d = 3
+    x, y, z = np.eye(d)
+    r_joint = np.array([0] + [0] * 32 + [1] + [1] * 32)
+    r_dir = np.array([x] + [y] * 32 + [z] + [y] * 32)
+    residual = np.array([[1.0, 2.0, 3.0], [1.0, 2.0, 3.0]])
+    magnitude = np.zeros(2)
+    checkable = np.array([True, True])
+    expected = _joint_by_joint(residual, magnitude, checkable, r_joint, r_dir, {})
+    directions, r_code = np.unique(r_dir, axis=0, return_inverse=True)
+    _balance_supports(
+        residual, magnitude, checkable, r_joint, r_dir, directions, r_code.ravel(), None
+    )
+    np.testing.assert_allclose(residual, expected[0], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(residual, [[0.0, 0.0, 3.0], [1.0, 0.0, 0.0]], atol=1e-12)

@@ -148,3 +148,48 @@ def test_a_child_does_not_outlive_a_parent_killed_without_clean_up(monkeypatch):
         time.sleep(0.05)
     os.kill(pid, signal.SIGKILL)
     pytest.fail(f"the child {pid} outlived its killed parent")
+
+
+@needs_fork
+def test_the_heap_stays_frozen_while_any_child_lives(monkeypatch):
+    """Two children at once (the section route's and the sigma figure's): the heap is thawed
+    only when the last has ended, whichever order they are collected in."""
+    import gc
+
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    first = forking.Forked.start(_sleeps, 0.0)
+    second = forking.Forked.start(_sleeps, 0.0)
+    assert first.forked and second.forked and gc.get_freeze_count() > 0
+    assert first.result() == "woke"
+    assert gc.get_freeze_count() > 0  # the second still shares the heap's pages
+    second.cancel()
+    assert gc.get_freeze_count() == 0
+
+
+@needs_fork
+def test_an_interrupted_wait_stops_and_reaps_the_child(monkeypatch):
+    """Ctrl-C while the answer is awaited: the interruption goes on up, the child is stopped
+    and reaped, and a later cancel() does nothing (it used to close a closed descriptor)."""
+    import gc
+    import signal
+
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    child = forking.Forked.start(_sleeps, 30.0)
+    pid = child.pid
+
+    def interrupt(signum, frame):
+        raise KeyboardInterrupt
+
+    previous = signal.signal(signal.SIGALRM, interrupt)
+    signal.setitimer(signal.ITIMER_REAL, 0.2)
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            child.result()
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+    assert not child.forked and child.read_fd is None
+    with pytest.raises(ChildProcessError):
+        os.waitpid(pid, os.WNOHANG)
+    child.cancel()
+    assert gc.get_freeze_count() == 0

@@ -67,6 +67,25 @@ def _end_with(parent: int) -> None:
         os._exit(1)
 
 
+_frozen = 0  # children alive for which the heap is frozen (see _freeze)
+
+
+def _freeze() -> None:
+    """Freeze the heap before a fork: frozen objects are left alone by the cyclic collector, so
+    neither process's collections touch (and so copy) the pages the two share. Counted: the heap
+    is thawed only when the last child alive has ended (two may run at once)."""
+    global _frozen
+    gc.freeze()
+    _frozen += 1
+
+
+def _thaw() -> None:
+    global _frozen
+    _frozen = max(0, _frozen - 1)
+    if _frozen == 0:
+        gc.unfreeze()
+
+
 PIPE_SIZE = 1 << 20  # a large answer crosses in 1 MiB turns, not the default 64 KiB
 
 
@@ -123,14 +142,12 @@ class Forked(Generic[T]):
             return cls(function, args, None, None)
         read_fd, write_fd = os.pipe()
         _widen(write_fd)
-        # Frozen objects are left alone by the cyclic collector, so neither process's collections
-        # touch (and so copy) the pages the two share after the fork.
-        gc.freeze()
+        _freeze()
         try:
             parent = os.getpid()
             pid = os.fork()
         except OSError:
-            gc.unfreeze()
+            _thaw()
             os.close(read_fd)
             os.close(write_fd)
             return cls(function, args, None, None)
@@ -161,9 +178,15 @@ class Forked(Generic[T]):
             if not ready:
                 self.cancel()
                 raise ForkTimeout(f"no answer within {timeout:g} s")
-        with os.fdopen(self.read_fd, "rb") as pipe:
-            received = _receive(pipe)
-        _, status = os.waitpid(self.pid, 0)
+        try:
+            # The file object owns the descriptor from here (it closes it, whatever happens).
+            fd, self.read_fd = self.read_fd, None
+            with os.fdopen(fd, "rb") as pipe:
+                received = _receive(pipe)
+            _, status = os.waitpid(self.pid, 0)
+        except BaseException:  # interrupted while waiting (Ctrl-C): the child stopped, reaped
+            self.cancel()
+            raise
         self._done()
         if status != 0 or received is None:
             raise ForkFailed(
@@ -176,19 +199,24 @@ class Forked(Generic[T]):
 
     def cancel(self) -> None:
         """The result is not wanted: stop the child and release what it holds."""
-        if self.pid is None or self.read_fd is None:
+        if self.pid is None:
             return
         try:
             os.kill(self.pid, signal.SIGKILL)
         except ProcessLookupError:
             pass
-        os.close(self.read_fd)
-        os.waitpid(self.pid, 0)
+        if self.read_fd is not None:
+            os.close(self.read_fd)
+            self.read_fd = None
+        try:
+            os.waitpid(self.pid, 0)
+        except ChildProcessError:  # reaped already
+            pass
         self._done()
 
     def _done(self) -> None:
         self.pid = self.read_fd = None
-        gc.unfreeze()
+        _thaw()
 
 
 def write_in_turn(text: Callable[[int], bytes], count: int, fd: int) -> bool:
@@ -204,12 +232,12 @@ def write_in_turn(text: Callable[[int], bytes], count: int, fd: int) -> bool:
         return False
     to_child_r, to_child_w = os.pipe()  # the child's turn
     to_parent_r, to_parent_w = os.pipe()  # this process's turn, or the child's giving up
-    gc.freeze()  # see Forked.start
+    _freeze()
     try:
         parent = os.getpid()
         pid = os.fork()
     except OSError:
-        gc.unfreeze()
+        _thaw()
         for end in (to_child_r, to_child_w, to_parent_r, to_parent_w):
             os.close(end)
         return False
@@ -237,7 +265,7 @@ def write_in_turn(text: Callable[[int], bytes], count: int, fd: int) -> bool:
         os.close(to_child_w)
         os.close(to_parent_r)
         os.waitpid(pid, 0)
-        gc.unfreeze()
+        _thaw()
     return True
 
 

@@ -533,7 +533,14 @@ def _finish(model: Model, run: AnalysisRun, walk: JointWalk) -> JointSolution:
     b = len(model.members)
     n_unknowns = b + len(model.reactions)
     F = model.load_matrix()
-    t, known, plain, others, notes = walk.t, walk.known, walk.plain, walk.others, [*walk.notes]
+    # Copies of what the steps below add to (the walk stays as it was made).
+    t, known, plain, others, notes = (
+        walk.t.copy(),
+        walk.known,
+        walk.plain,
+        [*walk.others],
+        [*walk.notes],
+    )
     moment_point, moment_joint = walk.moment_point, walk.moment_joint
 
     def add(step: JointStep) -> None:

@@ -96,10 +96,23 @@ class EarlyRoutes:
         self.run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
         self.child: Forked[tuple[SectionSolution, JointWalk]] | None = None
         self._answer: tuple[SectionSolution | None, JointWalk | None] = (None, None)
+        try:
+            self._start(factor_now, assume_equal_EA, progress)
+        except BaseException:  # an interruption or error after a fork: no child left behind
+            self.cancel()
+            raise
+
+    def _start(
+        self,
+        factor_now: bool,
+        assume_equal_EA: float | None,
+        progress: Callable[[str], None] | None,
+    ) -> None:
+        model = self.model
         # Only a square A can be stable and determinate (more columns: indeterminate or
         # unstable; fewer: unstable), and only then are the section route's forces used.
         square = len(model.members) + len(model.reactions) == model.dofs
-        if sections and _large(model) and square:
+        if self.sections and _large(model) and square:
             self.run.overall_reactions()  # both routes start from these: solved once, here
             shared = (self.run.id_tuple("members"), self.run.id_tuple("joints"))
             self.child = Forked.start(_sections_and_walk, model, self.run, shared=shared)
@@ -145,9 +158,13 @@ class EarlyRoutes:
 
     def cancel(self) -> None:
         """No child or frozen heap left behind (an error, an interruption, a verdict reached)."""
-        if self.child is not None:
-            self.child.cancel()
-        self.run.stop_children()
+        # Dropped, never asked again: a stopped child's result() would make the routes here.
+        child, self.child = self.child, None
+        try:
+            if child is not None:
+                child.cancel()
+        finally:
+            self.run.stop_children()
 
 
 def _dense_screen(model: Model) -> bool:

@@ -32,7 +32,12 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import assemble_equilibrium
-from verify.analysis.lu_factors import splu_checked, stored_entries, u_diagonal
+from verify.analysis.lu_factors import (
+    splu_checked,
+    stored_entries,
+    u_diagonal,
+    u_diagonal_in_place,
+)
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -115,7 +120,7 @@ class AnalysisRun:
         # The stability screen's sigma figure, estimated in a child process (start_conditioning)
         # until the screen asks for it.
         self._sigma: Forked[float] | None = None
-        self._lu_error: RuntimeError | None = None  # an exactly singular A: not factored twice
+        self._lu_error: str | None = None  # an exactly singular A's message: not factored twice
         # Direct stiffness solves started in a child (start_elastic), by assumed EA, until asked.
         self._elastic_children: dict[float | None, Forked[ElasticSolution | ValueError]] = {}
         self._id_tuples: dict[str, tuple[str, ...]] = {}
@@ -160,12 +165,14 @@ class AnalysisRun:
     def equilibrium_lu(self) -> spla.SuperLU:
         """The sparse LU of the square equilibrium matrix (RuntimeError when exactly singular)."""
         if self._lu_error is not None:
-            raise self._lu_error
+            # A new error each time: a kept one would hold, through its traceback, the matrix
+            # the factorisation was given.
+            raise RuntimeError(self._lu_error)
         if self._lu is None:
             try:
                 self._lu = splu_checked(self.lu_matrix(), permc_spec=lu_ordering(self.model))
             except RuntimeError as exc:
-                self._lu_error = exc
+                self._lu_error = str(exc)
                 raise
             finally:
                 self._lu_input = None  # made once: not kept beside its factors
@@ -235,6 +242,13 @@ class AnalysisRun:
             return False
         if (stored_entries(lu) or 0) < SIGMA_CHILD_MIN_ENTRIES:
             return False  # the solves take less than the child costs: made here, as asked
+        from verify.analysis.stability import LU_PIVOT_SINGULAR
+
+        diagonal = u_diagonal_in_place(lu)
+        if diagonal is None or ratio_of_pivots(diagonal) < LU_PIVOT_SINGULAR:
+            # The screen will find it singular (or cannot tell here): it asks for no figure,
+            # and the routes the pipeline finishes while waiting for one would not be used.
+            return False
         child = Forked.start(conditioning_estimate, A, lu)
         if not child.forked:
             return False
