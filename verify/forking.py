@@ -1,8 +1,9 @@
 """Work in a forked child process: the one place that decides whether forking is safe.
 
-Seven parts of the tool start processes: the section route and the joints' walk of a large
-truss (verify.analysis.pipeline), the sigma figure of a large 3D truss's LU while its claims are
-read (verify.analysis.run.AnalysisRun.start_conditioning), the stability screen's unit-stiffness
+Eight parts of the tool start processes: the section route and the joints' walk of a large
+truss (verify.analysis.pipeline), the sigma figure of a large 3D truss's LU and the direct
+stiffness solve of a large indeterminate truss while its claims are read (verify.analysis.run
+.AnalysisRun.start_conditioning, .start_elastic), the stability screen's unit-stiffness
 factorisation of a large truss with more unknown forces than joint equations, made beside the
 elastic solve (verify.analysis.run), the time-boxed MMD factorisation of the stiffness solve
 (verify.analysis.stiffness), the LU pivot ratio of the factor an analysis run keeps where it
