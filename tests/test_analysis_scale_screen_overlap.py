@@ -185,9 +185,10 @@ def _case_and_claims(tmp_path, builder, *, with_EA: bool = True):
 def test_the_elastic_solve_started_before_the_claims_equals_one_process(
     monkeypatch: pytest.MonkeyPatch, tmp_path
 ) -> None:
-    """A check starts the screen and the direct stiffness solve in children before reading the
-    claims (service.check -> EarlyRoutes): the review equals the one-process check's, the
-    forces and displacements bit for bit and read-only, and no child is left behind."""
+    """A check starts the direct stiffness solve in a child before reading the claims
+    (service.check -> EarlyRoutes), and the screen's child after them: the review equals the
+    one-process check's, the forces and displacements bit for bit and read-only, and no child
+    is left behind."""
     path, claims = _case_and_claims(tmp_path, extra_diagonal)
     monkeypatch.setenv(forking.SERIAL_ENV, "1")
     alone = check(path, claims)
@@ -197,7 +198,7 @@ def test_the_elastic_solve_started_before_the_claims_equals_one_process(
     early = check(path, claims)
     names = [name for name, _ in started]
     assert "_elastic_answer" in names and "unit_stiffness_ratio" in names
-    assert names.count("unit_stiffness_ratio") == 1  # the analysis took the early screen
+    assert names.count("unit_stiffness_ratio") == 1  # started once, after the claims
     assert all(pid is not None and _reaped(pid) for _, pid in started)
     a, b = early.review.analysis.elastic, alone.review.analysis.elastic
     assert a is not None and b is not None

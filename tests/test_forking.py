@@ -193,3 +193,19 @@ def test_an_interrupted_wait_stops_and_reaps_the_child(monkeypatch):
         os.waitpid(pid, os.WNOHANG)
     child.cancel()
     assert gc.get_freeze_count() == 0
+
+
+@needs_fork
+def test_a_child_never_stops_its_sibling(monkeypatch):
+    """A child inherits this process's handle on an earlier child (the analysis run holds it):
+    stopping it there must leave the sibling alone, which still answers here."""
+    monkeypatch.delenv(forking.SERIAL_ENV, raising=False)
+    sibling = forking.Forked.start(_sleeps, 0.5)
+
+    def stop_the_sibling():
+        sibling.cancel()
+        return "asked"
+
+    other = forking.Forked.start(stop_the_sibling)
+    assert other.result() == "asked"
+    assert sibling.result() == "woke"

@@ -126,6 +126,9 @@ class Forked(Generic[T]):
     ) -> None:
         self.function, self.args, self.pid, self.read_fd = function, args, pid, read_fd
         self.shared = shared
+        # The process that started the child: only it may wait for it or stop it (a child that
+        # inherits this object, its sibling's, must never kill or read that sibling).
+        self.owner = os.getpid()
 
     @property
     def forked(self) -> bool:
@@ -172,7 +175,7 @@ class Forked(Generic[T]):
     def result(self, timeout: float | None = None) -> T:
         """The function's result. From a child: ForkTimeout when it has not begun to answer
         within `timeout` seconds (it is then stopped), ForkFailed when it ended without one."""
-        if self.pid is None or self.read_fd is None:
+        if self.pid is None or self.read_fd is None or os.getpid() != self.owner:
             return self.function(*self.args)
         if timeout is not None:
             ready, _, _ = select.select([self.read_fd], [], [], timeout)
@@ -201,6 +204,9 @@ class Forked(Generic[T]):
     def cancel(self) -> None:
         """The result is not wanted: stop the child and release what it holds."""
         if self.pid is None:
+            return
+        if os.getpid() != self.owner:  # a copy inherited by another child: not ours to stop
+            self.pid = self.read_fd = None
             return
         try:
             os.kill(self.pid, signal.SIGKILL)

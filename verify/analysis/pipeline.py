@@ -89,8 +89,7 @@ class EarlyRoutes:
         estimated in a child process meanwhile (AnalysisRun.start_conditioning), the step
         named to `progress` first; on a large truss with more unknown forces than joint
         equations and its stiffness (or `assume_equal_EA`, as analyse will be asked), the
-        stability screen's unit-stiffness factorisation and the direct stiffness solve start
-        in child processes instead (AnalysisRun.start_elastic)."""
+        direct stiffness solve starts in a child process instead (AnalysisRun.start_elastic)."""
         self.model, self.sections = model, sections
         self.run = AnalysisRun(model)
         self.run.register()  # the reports' calc sheets, handed the model, find it (AnalysisRun.of)
@@ -127,8 +126,10 @@ class EarlyRoutes:
             and _large(model)
             and unit_stiffness_screened(model)
             and (model.has_stiffness or assume_equal_EA is not None)
-            and self.run.start_unit_stiffness_screen()
         ):
+            # Only the solve: the screen starts after the claims are read (analyse), so that the
+            # solve's time-boxed MMD child never shares two cores with two other busy processes
+            # (its box is wall-clock time: a trip would change the ordering, and the digits).
             if progress is not None:
                 progress(f"solving by direct stiffness ({model.dofs:,} joint equations)")
             self.run.start_elastic(assume_equal_EA)

@@ -23,6 +23,7 @@ model itself keeps nothing.
 
 from __future__ import annotations
 
+import sys
 import weakref
 from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING, TypeVar
@@ -329,6 +330,11 @@ class AnalysisRun:
         made already)."""
         if assume_equal_EA in self._elastic or assume_equal_EA in self._elastic_children:
             return True
+        if not sys.platform.startswith("linux"):
+            # The solve may start its own time-boxed child; only Linux stops that grandchild
+            # when its parent is stopped (forking._end_with), so elsewhere it is made here.
+            return False
+        self.equilibrium_matrix()  # made here: the child, the screen and this process share it
         child = Forked.start(_elastic_answer, self, assume_equal_EA)
         if not child.forked:
             return False
