@@ -31,6 +31,7 @@ from verify.report.calc_sheet_html import FREE_BODY_CSS, reactions_html, sheet_h
 from verify.report.cautions import CAUTION, ELASTIC_CAUTION, SHORT_CAUTION
 from verify.report.deflection import deflection_table, unit_load_calcs
 from verify.report.diagram import (
+    OUTLINE_SUPPORTS,
     STATUS_STYLES,
     RowStatuses,
     legend_html,
@@ -956,8 +957,10 @@ def diagrams_html(review: Review, grouped: _CaseRows | None = None) -> list[str]
     if outline:
         out.append(
             f"<p><em>Large model ({len(model.members)} members): the drawing shows the outline "
-            "of the truss, its supports and only the members with a finding (no labels, no "
-            "loads); one load column is drawn. The member table lists every problem; "
+            "of the truss, its supports (at most "
+            f"{OUTLINE_SUPPORTS} spread along it where it has more, and those at the members "
+            "with a finding) and only the members with a finding (no labels, no loads); one "
+            "load column is drawn. The member table lists every problem; "
             f"`truss-verify solve {_e(Path(model.source).name)} --show forces` lists every "
             "force.</em></p>"
         )
