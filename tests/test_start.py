@@ -67,7 +67,7 @@ def test_no_huge_page_requests_unless_the_user_chose():
 
 
 # The command line replaced by a stub: prints how many bytes a 16 MiB malloc() added to the
-# memory glibc maps block by block (mallinfo2's hblkhd), or "n/a" without glibc's mallinfo2.
+# memory glibc maps block by block (mallinfo2's hblkhd).
 _MALLOC_PROBE = """
 import ctypes, sys, types
 class Info(ctypes.Structure):
@@ -76,8 +76,6 @@ class Info(ctypes.Structure):
         "fordblks", "keepcost")]
 def report():
     libc = ctypes.CDLL(None)
-    if not hasattr(libc, "mallinfo2"):
-        print("n/a"); return
     libc.mallinfo2.restype = Info
     libc.malloc.restype = ctypes.c_void_p
     libc.malloc.argtypes = [ctypes.c_size_t]
@@ -91,7 +89,19 @@ run()
 """
 
 
-@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="glibc's malloc only")
+def _glibc_mallinfo2() -> bool:
+    """Whether this process's C library is glibc with mallinfo2 (2.33 and later)."""
+    if not sys.platform.startswith("linux"):
+        return False
+    import ctypes
+
+    try:
+        return hasattr(ctypes.CDLL(None), "mallinfo2")
+    except OSError:
+        return False
+
+
+@pytest.mark.skipif(not _glibc_mallinfo2(), reason="glibc's malloc (mallinfo2) only")
 def test_freed_blocks_are_kept_for_reuse_unless_the_user_chose():
     """mallopt (glibc, man mallopt): with the mmap threshold at 32 MiB a 16 MiB block comes from
     the heap, so its memory is reused once freed; by default (128 KiB) it is mapped on its own
@@ -101,8 +111,6 @@ def test_freed_blocks_are_kept_for_reuse_unless_the_user_chose():
     run = subprocess.run(
         [sys.executable, "-c", _MALLOC_PROBE], env=env, capture_output=True, text=True, check=True
     )
-    if run.stdout.strip() == "n/a":
-        pytest.skip("no glibc mallinfo2 here")
     assert int(run.stdout) == 0
     chosen = subprocess.run(
         [sys.executable, "-c", _MALLOC_PROBE],
@@ -112,3 +120,42 @@ def test_freed_blocks_are_kept_for_reuse_unless_the_user_chose():
         check=True,
     )
     assert int(chosen.stdout) >= 16 << 20
+
+
+def test_the_malloc_settings_asked_for_and_when_not(monkeypatch):
+    """On any machine: the entry asks mallopt for the mmap threshold (32 MiB) and the trim
+    threshold (1 GiB), as glibc's malloc.h numbers them, on Linux only and not over a glibc
+    variable the user set; the time-boxed MMD child asks for glibc's defaults (128 KiB) again, only
+    after they were changed (a stand-in C library records the calls)."""
+    import ctypes
+
+    from verify import malloc_reuse
+
+    calls: list[tuple[int, int]] = []
+
+    class Library:
+        def __init__(self, name):
+            self.mallopt = self
+
+        def __call__(self, parameter, value):
+            calls.append((parameter, value))
+            return 1
+
+    monkeypatch.setattr(ctypes, "CDLL", Library)
+    monkeypatch.setattr(malloc_reuse, "_kept", False)
+    for name in ("MALLOC_MMAP_THRESHOLD_", "MALLOC_TRIM_THRESHOLD_", "GLIBC_TUNABLES"):
+        monkeypatch.delenv(name, raising=False)
+    monkeypatch.setattr(sys, "platform", "linux")
+    malloc_reuse.defaults_in_child()
+    assert calls == []  # nothing was changed: nothing to undo
+    malloc_reuse.keep_freed_memory()
+    assert calls == [(-3, 32 << 20), (-1, 1 << 30)]
+    malloc_reuse.defaults_in_child()
+    assert calls[2:] == [(-3, 128 << 10), (-1, 128 << 10)]
+    calls.clear()
+    monkeypatch.setenv("GLIBC_TUNABLES", "glibc.malloc.trim_threshold=0")
+    malloc_reuse.keep_freed_memory()
+    monkeypatch.delenv("GLIBC_TUNABLES")
+    monkeypatch.setattr(sys, "platform", "darwin")
+    malloc_reuse.keep_freed_memory()
+    assert calls == []

@@ -87,6 +87,19 @@ def _thaw() -> None:
         gc.unfreeze()
 
 
+def _fork(*pipe_ends: int) -> int | None:
+    """os.fork() with the heap frozen (_freeze); None when it fails, the heap thawed again and
+    the pipes made for the child closed."""
+    _freeze()
+    try:
+        return os.fork()
+    except OSError:
+        _thaw()
+        for end in pipe_ends:
+            os.close(end)
+        return None
+
+
 PIPE_SIZE = 1 << 20  # a large answer crosses in 1 MiB turns, not the default 64 KiB
 
 
@@ -146,14 +159,9 @@ class Forked(Generic[T]):
             return cls(function, args, None, None)
         read_fd, write_fd = os.pipe()
         _widen(write_fd)
-        _freeze()
-        try:
-            parent = os.getpid()
-            pid = os.fork()
-        except OSError:
-            _thaw()
-            os.close(read_fd)
-            os.close(write_fd)
+        parent = os.getpid()
+        pid = _fork(read_fd, write_fd)
+        if pid is None:
             return cls(function, args, None, None)
         if pid == 0:  # the child: compute, send, and leave without running the parent's exit hooks
             status = 1
@@ -239,14 +247,9 @@ def write_in_turn(text: Callable[[int], bytes], count: int, fd: int) -> bool:
         return False
     to_child_r, to_child_w = os.pipe()  # the child's turn
     to_parent_r, to_parent_w = os.pipe()  # this process's turn, or the child's giving up
-    _freeze()
-    try:
-        parent = os.getpid()
-        pid = os.fork()
-    except OSError:
-        _thaw()
-        for end in (to_child_r, to_child_w, to_parent_r, to_parent_w):
-            os.close(end)
+    parent = os.getpid()
+    pid = _fork(to_child_r, to_child_w, to_parent_r, to_parent_w)
+    if pid is None:
         return False
     if pid == 0:
         status = 1

@@ -402,6 +402,13 @@ class Model:
             return [] if self.members.ea is not None else self.member_ids
         return [m.id for m in self.members if m.EA is None]
 
+    def reaction_arrays(self) -> tuple[np.ndarray, np.ndarray]:
+        """Each reaction component's joint (its position in `joints`) and direction (reactions x
+        dim), in reaction order: made each time it is asked for (the model keeps nothing)."""
+        joints = np.array([self.joint_index[r.joint] for r in self.reactions], dtype=np.int64)
+        directions = np.array([r.direction for r in self.reactions], dtype=float)
+        return joints, directions.reshape(len(self.reactions), self.dim)
+
     def load_matrix(self) -> np.ndarray:
         """Applied joint loads, dofs x (cases + combinations); combinations by superposition.
 

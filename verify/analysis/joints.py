@@ -282,11 +282,10 @@ def walk_joints(model: Model, run: AnalysisRun) -> JointWalk:
     # Incidence: for every joint, the columns acting on it and their direction vectors.
     n_j = len(model.joints)
     u = model.unit_vectors
-    r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
+    r_joint, r_dir = model.reaction_arrays()
     ends = model.ends_index
     # Per joint: its columns and the d x k block of direction cosines acting on it, as views
     # into one array sorted by joint (vectorised; a loop per joint cost ~10 us each at 10^5).
-    r_joint = np.array([model.joint_index[x.joint] for x in model.reactions], dtype=np.int64)
     # Listed by column (each member's start, then its end; then the reactions), so a stable
     # sort by joint puts each joint's columns in column order: unknowns in member order.
     inc_joint = np.concatenate([ends.ravel(), r_joint])

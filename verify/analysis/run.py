@@ -33,12 +33,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from verify.analysis.equilibrium import assemble_equilibrium
-from verify.analysis.lu_factors import (
-    splu_checked,
-    stored_entries,
-    u_diagonal,
-    u_diagonal_in_place,
-)
+from verify.analysis.lu_factors import splu_checked, stored_entries, u_diagonal
 from verify.forking import Forked, ForkFailed
 from verify.model import Model
 
@@ -122,6 +117,7 @@ class AnalysisRun:
         # until the screen asks for it.
         self._sigma: Forked[float] | None = None
         self._lu_error: str | None = None  # an exactly singular A's message: not factored twice
+        self._pivot_ratio: float | None = None  # of the LU, read once (lu_pivot_ratio)
         # Direct stiffness solves started in a child (start_elastic), by assumed EA, until asked.
         self._elastic_children: dict[float | None, Forked[ElasticSolution | ValueError]] = {}
         self._id_tuples: dict[str, tuple[str, ...]] = {}
@@ -245,16 +241,24 @@ class AnalysisRun:
             return False  # the solves take less than the child costs: made here, as asked
         from verify.analysis.stability import LU_PIVOT_SINGULAR
 
-        diagonal = u_diagonal_in_place(lu)
-        if diagonal is None or ratio_of_pivots(diagonal) < LU_PIVOT_SINGULAR:
-            # The screen will find it singular (or cannot tell here): it asks for no figure,
-            # and the routes the pipeline finishes while waiting for one would not be used.
+        if self.lu_pivot_ratio() < LU_PIVOT_SINGULAR:
+            # The screen will find it singular: it asks for no figure, and the routes the
+            # pipeline finishes while waiting for one would not be used.
             return False
         child = Forked.start(conditioning_estimate, A, lu)
         if not child.forked:
             return False
         self._sigma = child
         return True
+
+    def lu_pivot_ratio(self) -> float:
+        """min/max |U_ii| of the LU of A (verify.analysis.stability's screen of a square A),
+        read once: the screen and start_conditioning both judge singularity by it."""
+        if self._pivot_ratio is None:
+            from verify.analysis.stability import kept_pivot_ratio
+
+            self._pivot_ratio = kept_pivot_ratio(self.equilibrium_lu())
+        return self._pivot_ratio
 
     @property
     def conditioning_started(self) -> bool:
@@ -351,15 +355,8 @@ class AnalysisRun:
             answer = _answer(child, lambda: _elastic_answer(self, assume_equal_EA))
             if isinstance(answer, ValueError):
                 raise answer
-            if child is not None:  # arrays that came through the pipe: read-only again
-                for array in (
-                    answer.forces.member_forces,
-                    answer.forces.reactions,
-                    answer.displacements,
-                    answer.fixed_by_statics,
-                ):
-                    array.setflags(write=False)
-            self._elastic[assume_equal_EA] = answer
+            # Read-only again when it came through a child's pipe.
+            self._elastic[assume_equal_EA] = answer.read_only()
         return self._elastic[assume_equal_EA]
 
     def members_fixed_by_statics(self, assume_equal_EA: float | None) -> np.ndarray:

@@ -326,10 +326,7 @@ class _Engine:
         loads = F.reshape(nj, d, self.ncols)
         self.loads = loads
         r = len(model.reactions)
-        self.r_joint = np.array(
-            [model.joint_index[x.joint] for x in model.reactions], dtype=np.int64
-        )
-        self.r_dir = np.array([x.direction for x in model.reactions], dtype=float).reshape(r, d)
+        self.r_joint, self.r_dir = model.reaction_arrays()
         self.support_count = (
             np.bincount(self.r_joint, minlength=nj) if nj else np.zeros(0, dtype=np.int64)
         )

@@ -360,9 +360,8 @@ def _sparse(model: Model, A: sp.csc_matrix, run: AnalysisRun) -> StabilityResult
         )
     if cols == dofs:
         try:
-            # The run's LU, which the global statics solve and the joints then share.
-            lu = run.equilibrium_lu()
-            ratio = _kept_pivot_ratio(lu)
+            # The pivots of the run's LU, which the global statics solve and the joints share.
+            ratio = run.lu_pivot_ratio()
             singular = ratio < LU_PIVOT_SINGULAR
         except RuntimeError:
             ratio, singular = 0.0, True
@@ -444,7 +443,7 @@ def unit_stiffness_ratio(model: Model, A: sp.csc_matrix) -> float:
     return pivot_ratio(lu)
 
 
-def _kept_pivot_ratio(lu: spla.SuperLU) -> float:
+def kept_pivot_ratio(lu: spla.SuperLU) -> float:
     """pivot_ratio of an LU the run keeps: read from the factor's own storage where it can be,
     else in a child process where one may be used.
 

@@ -67,8 +67,7 @@ def claims_balance(
     incidence, degree = _incidence(model)
     # Each reaction's joint and direction, and its direction's place among the distinct ones
     # (a joint's free reactions are then one key: its joints are balanced in groups below).
-    r_joint = np.array([model.joint_index[r.joint] for r in model.reactions], dtype=np.int64)
-    r_dir = np.array([r.direction for r in model.reactions], dtype=float).reshape(-1, d)
+    r_joint, r_dir = model.reaction_arrays()
     directions, r_code = np.unique(r_dir, axis=0, return_inverse=True)
     r_code = r_code.ravel()
     claimed_of: dict[int, dict[int, float]] = {}

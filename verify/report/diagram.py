@@ -687,8 +687,10 @@ def _supports_drawn(model: Model, flagged: list[int], outline: bool) -> set[str]
     """The supported joints an outline draws when there are more than OUTLINE_SUPPORTS: that
     many spread evenly over them in the model's order, and those at the ends of the members with
     a finding (`flagged`); None: every one."""
+    if not outline:
+        return None
     supported = list(dict.fromkeys(r.joint for r in model.reactions))
-    if not outline or len(supported) <= OUTLINE_SUPPORTS:
+    if len(supported) <= OUTLINE_SUPPORTS:
         return None
     spread = np.unique(np.linspace(0, len(supported) - 1, OUTLINE_SUPPORTS).round().astype(int))
     keep = {supported[k] for k in spread.tolist()}
